@@ -1,0 +1,107 @@
+"""Observer functions and photometric constants on the lampcast grid.
+
+* CIE 1931 2 degree colour-matching functions x̄, ȳ, z̄ (ȳ = V(λ), CIE 1924 photopic).
+* CIE 1951 scotopic luminous efficiency V'(λ).
+* Km = 683 lm/W (photopic) and K'm = 1700 lm/W (scotopic); CIE 15:2018 / CIE 18:2019 give
+  K'm = 1700 lm/W (1699 is also seen). These are the constants for absolute photometry
+  throughout lampcast: luminance in cd/m², illuminance in lx, flux in lm.
+
+Data come from colour-science (``colour.MSDS_CMFS``, ``SDS_LEFS_*``), tabulated at 1 nm, and are
+taken at the grid's bin centres (the tables are smooth at 1 nm, so centre value and bin mean
+agree to well below 0.1 %).
+"""
+
+from __future__ import annotations
+
+from functools import lru_cache
+
+import numpy as np
+
+from render.spectra import BIN_WIDTH_NM, WAVELENGTHS_NM
+
+#: Maximum photopic luminous efficacy, lm/W (CIE).
+KM_LM_PER_W = 683.0
+#: Maximum scotopic luminous efficacy, lm/W (CIE 15:2018).
+KM_SCOTOPIC_LM_PER_W = 1700.0
+
+
+def _on_grid(sd) -> np.ndarray:
+    import colour
+
+    shape = colour.SpectralShape(float(WAVELENGTHS_NM[0]), float(WAVELENGTHS_NM[-1]), BIN_WIDTH_NM)
+    return np.asarray(sd.copy().align(shape).values, dtype=np.float64)
+
+
+@lru_cache(maxsize=1)
+def cmfs_xyz() -> np.ndarray:
+    """CIE 1931 2° colour-matching functions on the grid, shape (N_BINS, 3)."""
+    import colour
+
+    out = _on_grid(colour.MSDS_CMFS["CIE 1931 2 Degree Standard Observer"])
+    out.setflags(write=False)
+    return out
+
+
+@lru_cache(maxsize=1)
+def photopic_lef() -> np.ndarray:
+    """CIE 1924 photopic luminous efficiency V(λ) on the grid."""
+    from colour.colorimetry import SDS_LEFS_PHOTOPIC
+
+    out = _on_grid(SDS_LEFS_PHOTOPIC["CIE 1924 Photopic Standard Observer"])
+    out.setflags(write=False)
+    return out
+
+
+@lru_cache(maxsize=1)
+def scotopic_lef() -> np.ndarray:
+    """CIE 1951 scotopic luminous efficiency V'(λ) on the grid."""
+    from colour.colorimetry import SDS_LEFS_SCOTOPIC
+
+    out = _on_grid(SDS_LEFS_SCOTOPIC["CIE 1951 Scotopic Standard Observer"])
+    out.setflags(write=False)
+    return out
+
+
+def photopic(density) -> np.ndarray:
+    """Photopic quantity Km·Σ S(λ)V(λ)Δλ of gridded densities (last axis = wavelength).
+
+    W/nm gives lm; W/(sr·nm) gives cd; W/(m²·sr·nm) gives cd/m²; W/(m²·nm) gives lx.
+    """
+    return KM_LM_PER_W * np.asarray(density, dtype=np.float64) @ photopic_lef() * BIN_WIDTH_NM
+
+
+def scotopic(density) -> np.ndarray:
+    """Scotopic quantity K'm·Σ S(λ)V'(λ)Δλ of gridded densities (last axis = wavelength)."""
+    return KM_SCOTOPIC_LM_PER_W * np.asarray(density, dtype=np.float64) @ scotopic_lef() * BIN_WIDTH_NM
+
+
+def tristimulus(density) -> np.ndarray:
+    """Absolute CIE XYZ, Km·Σ S(λ)·x̄ȳz̄(λ)Δλ, of gridded densities; Y is photopic (e.g. cd/m²)."""
+    return KM_LM_PER_W * np.asarray(density, dtype=np.float64) @ cmfs_xyz() * BIN_WIDTH_NM
+
+
+def sp_ratio(density) -> np.ndarray:
+    """Scotopic-to-photopic ratio S/P = K'm∫SV' / Km∫SV (dimensionless)."""
+    return scotopic(density) / photopic(density)
+
+
+def scale_to_photopic(density, target) -> np.ndarray:
+    """Scale a relative spectral density so that its photopic integral equals ``target``.
+
+    With a relative spectral power distribution and ``target`` a luminous flux in lm the result
+    is in W/nm; with a luminance in cd/m² it is W/(m²·sr·nm).
+    """
+    density = np.asarray(density, dtype=np.float64)
+    p = photopic(density)
+    if not np.all(p > 0):
+        raise ValueError("spectrum has no photopic content to scale")
+    return density * (np.asarray(target, dtype=np.float64) / p)[..., None] if density.ndim > 1 else density * (target / p)
+
+
+def scale_to_scotopic(density, target) -> np.ndarray:
+    """Scale a relative spectral density so that its scotopic integral equals ``target``."""
+    density = np.asarray(density, dtype=np.float64)
+    s = float(scotopic(density))
+    if not s > 0:
+        raise ValueError("spectrum has no scotopic content to scale")
+    return density * (target / s)

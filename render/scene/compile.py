@@ -1,0 +1,312 @@
+"""Compile a checked :class:`~render.scene.model.Scene` into one triangle soup.
+
+Everything becomes triangles with a material index and an object index
+(:class:`~render.geometry.TriangleMesh`): the street builder's surfaces (carriageway, kerbs,
+verges, footways, front gardens, centre line), building fronts, parametric street objects, free
+geometry, markings and luminaire columns. Object indices follow the scene's own names, so later
+analyses can speak of "the blue car".
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from functools import lru_cache
+
+import numpy as np
+
+from render.errors import input_error
+from render.geometry import TriangleMesh, flat_normals
+from render.scene.model import Frontage, Marking, Scene, Street, StreetObject
+
+#: Height of markings above the surface under them, m (keeps them the closest hit).
+MARKING_LIFT_M = 0.002
+
+#: Material used for a slot that the scene does not assign (slot name -> material id).
+DEFAULT_SLOT_MATERIALS = {
+    "body": "object-grey", "glass": "glass-clear", "tyre": "rubber-black", "lights": "object-white",
+    "lid": "object-green", "wheels": "rubber-black", "trunk": "bark", "canopy": "foliage",
+    "foliage": "foliage", "post": "metal-painted-dark", "band": "object-white", "frame": "metal-painted-dark",
+    "roof": "roof-tile", "bench": "wood", "pole": "metal-galvanised", "panel": "object-white",
+    "back": "metal-galvanised", "legs": "fabric-dark", "torso": "object-blue", "arms": "object-blue",
+    "head": "skin-light", "arm": "metal-galvanised", "housing": "metal-painted-dark", "facade": "brick",
+    "window": "glass-clear", "door": "wood", "fascia": "object-green", "*": "concrete",
+}
+
+
+@dataclass
+class ObjectInfo:
+    """What the compiled scene knows of each object index."""
+
+    name: str
+    kind: str
+    inspect: bool
+    where: str
+
+
+def _quad(p0, p1, p2, p3) -> np.ndarray:
+    """Two counter-clockwise triangles of the quad p0 p1 p2 p3 (given anticlockwise)."""
+    return np.array([[p0, p1, p2], [p0, p2, p3]], dtype=np.float64)
+
+
+def _ground_rect(x0, x1, y0, y1, z) -> np.ndarray:
+    """Up-facing rectangle [x0, x1] × [y0, y1] at height z."""
+    return _quad((x0, y0, z), (x1, y0, z), (x1, y1, z), (x0, y1, z))
+
+
+def _wall_y(x0, x1, y, z0, z1, facing: float) -> np.ndarray:
+    """Vertical rectangle in the plane y = const, facing +y (facing > 0) or -y."""
+    if facing > 0:
+        return _quad((x1, y, z0), (x0, y, z0), (x0, y, z1), (x1, y, z1))
+    return _quad((x0, y, z0), (x1, y, z0), (x1, y, z1), (x0, y, z1))
+
+
+class _Builder:
+    """Accumulates triangles with material and object indices."""
+
+    def __init__(self):
+        self.tris: list[np.ndarray] = []
+        self.normals: list[np.ndarray] = []
+        self.mat: list[np.ndarray] = []
+        self.obj: list[np.ndarray] = []
+        self.material_names: list[str] = []
+        self.objects: list[ObjectInfo] = []
+
+    def material_index(self, material: str) -> int:
+        if material not in self.material_names:
+            self.material_names.append(material)
+        return self.material_names.index(material)
+
+    def new_object(self, name: str, kind: str, inspect: bool = False, where: str = "") -> int:
+        self.objects.append(ObjectInfo(name, kind, inspect, where))
+        return len(self.objects) - 1
+
+    def add(self, triangles, material: str, obj: int, normals=None) -> None:
+        triangles = np.asarray(triangles, dtype=np.float64).reshape(-1, 3, 3)
+        if triangles.shape[0] == 0:
+            return
+        self.tris.append(triangles)
+        self.normals.append(flat_normals(triangles) if normals is None else np.asarray(normals, dtype=np.float64).reshape(-1, 3, 3))
+        self.mat.append(np.full(triangles.shape[0], self.material_index(material), np.int32))
+        self.obj.append(np.full(triangles.shape[0], obj, np.int32))
+
+    def add_parts(self, parts, materials: dict[str, str], obj: int) -> None:
+        for part in parts:
+            material = materials.get(part.slot) or materials.get("*") or DEFAULT_SLOT_MATERIALS.get(part.slot, DEFAULT_SLOT_MATERIALS["*"])
+            self.add(part.triangles_m, material, obj, part.normals)
+
+    def mesh(self) -> TriangleMesh:
+        if not self.tris:
+            empty = np.zeros((0, 3, 3))
+            mesh = TriangleMesh(empty, empty, np.zeros(0, np.int32), np.zeros(0, np.int32), self.material_names, [])
+        else:
+            mesh = TriangleMesh(
+                np.concatenate(self.tris), np.concatenate(self.normals), np.concatenate(self.mat),
+                np.concatenate(self.obj), list(self.material_names), [o.name for o in self.objects],
+            )
+        mesh.objects = list(self.objects)  # type: ignore[attr-defined]
+        return mesh
+
+
+def _street(b: _Builder, street: Street) -> None:
+    L = street.length_m
+    half = 0.5 * street.carriageway_width_m
+    kh = street.kerb_height_m
+    carriageway = b.new_object("carriageway", "street")
+    b.add(_ground_rect(0.0, L, -half, half, 0.0), street.carriageway_material, carriageway)
+    for side in ("left", "right"):
+        sign = 1.0 if side == "left" else -1.0
+        s = street.side(side)
+        kerb = b.new_object(f"kerb {side}", "street")
+        b.add(_wall_y(0.0, L, sign * half, 0.0, kh, -sign), street.kerb_material, kerb)
+        y = half
+        bands = [
+            (street.kerb_width_m, street.kerb_material, kerb, None),
+            (s.verge_width_m, s.verge_material, None, f"verge {side}"),
+            (s.footway_width_m, s.footway_material, None, f"footway {side}"),
+            (s.frontage_depth_m, s.frontage_material, None, f"front gardens {side}"),
+        ]
+        for width, material, obj, name in bands:
+            if width <= 0:
+                continue
+            if obj is None:
+                obj = b.new_object(name, "street")
+            y0, y1 = sorted((sign * y, sign * (y + width)))
+            b.add(_ground_rect(0.0, L, y0, y1, kh), material, obj)
+            y += width
+    if street.centre_line != "none":
+        line = b.new_object("centre line", "marking")
+        w = 0.1  # common practice, no source
+        if street.centre_line == "solid":
+            b.add(_ground_rect(0.0, L, -w / 2, w / 2, MARKING_LIFT_M), street.line_material, line)
+        else:
+            dash, gap = 3.0, 6.0  # common practice for a residential centre line, no source
+            x = 1.0
+            while x < L:
+                b.add(_ground_rect(x, min(x + dash, L), -w / 2, w / 2, MARKING_LIFT_M), street.line_material, line)
+                x += dash + gap
+
+
+def _placed(parts, position, heading_deg):
+    from render.shapes import transform_parts
+
+    return transform_parts(parts, position, heading_deg)
+
+
+def _frontage(b: _Builder, f: Frontage, street: Street | None) -> None:
+    from render.objects import house_front, shop_front
+
+    building_y = street.building_line_y(f.side) if street is not None else 0.0
+    z = street.kerb_height_m if street is not None else 0.0
+    # Fronts are built facing local +x; turn them to face the carriageway.
+    heading = -90.0 if f.side == "left" else 90.0
+    width = f.length_m / f.units
+    obj = b.new_object(f.tag.name, f.kind + " frontage", f.tag.inspect, f.where)
+    builder = shop_front if f.kind == "shop" else house_front
+    for k in range(f.units):
+        x_mid = f.start_m + (k + 0.5) * width
+        parts = builder(width_m=width, height_m=f.height_m, depth_m=f.depth_m)
+        # The block's front face is at local x = 0 and the block extends to local -x, so it
+        # stands behind the building line.
+        b.add_parts(_placed(parts, (x_mid, building_y, z), heading), f.materials, obj)
+
+
+def _object(b: _Builder, o: StreetObject, source: str) -> None:
+    from render.objects import OBJECT_BUILDERS
+
+    function = OBJECT_BUILDERS[o.kind][0]
+    try:
+        parts = function(**o.params)
+    except ValueError as err:
+        raise input_error(source, o.where + ".params", str(err)) from None
+    if isinstance(parts, tuple):
+        parts = parts[0]
+    obj = b.new_object(o.tag.name, o.kind, o.tag.inspect, o.where)
+    b.add_parts(_placed(parts, o.position_m, o.heading_deg), o.materials, obj)
+
+
+def _geometry(b: _Builder, o: StreetObject) -> None:
+    from render import shapes
+
+    p = o.params
+    kind = o.kind
+    if kind == "box":
+        sx, sy, sz = p["size_m"]
+        parts = shapes.box(size_m=(sx, sy, sz), centre_m=(0.0, 0.0, 0.5 * sz))
+    elif kind == "cylinder":
+        parts = shapes.cylinder((0.0, 0.0, 0.0), (0.0, 0.0, p["height_m"]), p["radius_m"])
+    elif kind == "sphere":
+        parts = shapes.sphere((0.0, 0.0, p["radius_m"]), p["radius_m"])
+    elif kind == "extrusion":
+        parts = shapes.extrusion(p["outline_m"], p["height_m"])
+    elif kind == "obj":
+        parts = p.get("_parts") or shapes.load_obj(p["file"], scale=p["scale"], up_axis=p["up_axis"])
+    else:  # pragma: no cover - the loader checks kinds
+        raise ValueError(kind)
+    obj = b.new_object(o.tag.name, kind, o.tag.inspect, o.where)
+    b.add_parts(_placed(parts, o.position_m, o.heading_deg), o.materials, obj)
+
+
+def _marking_polygon(points, z) -> np.ndarray:
+    from render.shapes import flat_polygon
+
+    parts = flat_polygon(points, z)
+    return np.concatenate([p.triangles_m for p in parts])
+
+
+def _line_segments(points, dash: float, gap: float):
+    """Pieces ``(start, end)`` of a polyline, dashed when ``dash > 0``."""
+    pts = np.asarray(points, dtype=np.float64)
+    pieces = []
+    phase = 0.0  # distance into the current dash+gap period
+    period = dash + gap
+    for a, c in zip(pts[:-1], pts[1:]):
+        seg = c - a
+        length = float(np.hypot(*seg))
+        if length == 0:
+            continue
+        u = seg / length
+        if dash <= 0:
+            pieces.append((a, c))
+            continue
+        s = 0.0
+        while s < length:
+            in_dash = phase < dash
+            step = (dash - phase) if in_dash else (period - phase)
+            step = min(step, length - s)
+            if in_dash:
+                pieces.append((a + u * s, a + u * (s + step)))
+            s += step
+            phase = (phase + step) % period
+    return pieces
+
+
+def _marking(b: _Builder, m: Marking, street: Street | None) -> None:
+    obj = b.new_object(m.tag.name, "marking", m.tag.inspect, m.where)
+
+    def lift(y):
+        return (street.ground_z(y) if street is not None else 0.0) + MARKING_LIFT_M
+
+    if m.kind == "polygon":
+        ys = [p[1] for p in m.points_m]
+        b.add(_marking_polygon(m.points_m, lift(float(np.mean(ys)))), m.material, obj)
+        return
+    for a, c in _line_segments(m.points_m, m.dash_m, m.gap_m):
+        d = c - a
+        n = np.array([-d[1], d[0]]) / np.hypot(*d) * (0.5 * m.width_m)
+        z = lift(0.5 * (a[1] + c[1]))
+        quad = _quad((*(a - n), z), (*(c - n), z), (*(c + n), z), (*(a + n), z))
+        b.add(quad, m.material, obj)
+
+
+def _columns(b: _Builder, scene: Scene) -> None:
+    from render.objects import lamp_column
+
+    for lum in scene.luminaires:
+        if lum.column_base_m is None:
+            continue
+        base = np.asarray(lum.column_base_m)
+        top = np.asarray(lum.position_m)
+        dx, dy = top[0] - base[0], top[1] - base[1]
+        outreach = float(np.hypot(dx, dy))
+        heading = float(np.degrees(np.arctan2(dy, dx))) if outreach > 1e-6 else lum.rotation_deg
+        height = float(top[2] - base[2])
+        if height <= 0.5:
+            continue
+        parts, _opening = lamp_column(height_m=height, outreach_m=outreach)
+        obj = b.new_object(f"column {lum.name}", "lamp column", False, lum.where)
+        b.add_parts(_placed(parts, tuple(base), heading), {}, obj)
+
+
+def compile_scene(scene: Scene) -> TriangleMesh:
+    """All the scene's surfaces as one :class:`~render.geometry.TriangleMesh`.
+
+    The mesh also carries ``mesh.objects``: one :class:`ObjectInfo` per object index.
+    """
+    b = _Builder()
+    if scene.street is not None:
+        _street(b, scene.street)
+    for f in scene.frontages:
+        _frontage(b, f, scene.street)
+    for o in scene.objects:
+        if o.kind in ("box", "cylinder", "sphere", "extrusion", "obj"):
+            _geometry(b, o)
+        else:
+            _object(b, o, str(scene.path))
+    for m in scene.markings:
+        _marking(b, m, scene.street)
+    _columns(b, scene)
+    mesh = b.mesh()
+    if not np.all(np.isfinite(mesh.triangles_m)):
+        raise input_error(scene.path, "", "the scene's geometry has non-finite coordinates")
+    return mesh
+
+
+@lru_cache(maxsize=None)
+def object_slots(kind: str) -> tuple[str, ...]:
+    """Material slot names of a parametric object kind (built once with default parameters)."""
+    from render.objects import OBJECT_BUILDERS
+
+    function = OBJECT_BUILDERS[kind][0]
+    result = function()
+    parts = result[0] if isinstance(result, tuple) else result
+    return tuple(sorted({p.slot for p in parts}))

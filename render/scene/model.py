@@ -1,0 +1,212 @@
+"""The scene as lampcast holds it after loading and checking a scene file.
+
+Coordinates: metres, right-handed, **x along the street** (0 at the start, increasing to
+``street.length_m``), **y across it** (0 on the carriageway centre line, +y to the left when
+looking along +x), **z up** (0 on the carriageway surface).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+Vec2 = tuple[float, float]
+Vec3 = tuple[float, float, float]
+
+
+@dataclass
+class StreetSide:
+    """One side of the street, from the kerb outwards."""
+
+    footway_width_m: float
+    verge_width_m: float
+    frontage_depth_m: float  # front gardens / forecourts between footway and building line
+    footway_material: str
+    verge_material: str
+    frontage_material: str
+
+
+@dataclass
+class Street:
+    length_m: float
+    carriageway_width_m: float
+    lanes: int
+    kerb_height_m: float
+    kerb_width_m: float
+    carriageway_material: str
+    kerb_material: str
+    centre_line: str  # "none" | "dashed" | "solid"
+    line_material: str
+    left: StreetSide  # +y
+    right: StreetSide  # -y
+
+    def side(self, name: str) -> StreetSide:
+        return self.left if name == "left" else self.right
+
+    def kerb_edge_y(self, side: str) -> float:
+        """y of the kerb face on ``side`` ("left" is +y)."""
+        return (1.0 if side == "left" else -1.0) * 0.5 * self.carriageway_width_m
+
+    def building_line_y(self, side: str) -> float:
+        """y of the building line (back of footway + verge + frontage) on ``side``."""
+        s = self.side(side)
+        half = 0.5 * self.carriageway_width_m + self.kerb_width_m + s.verge_width_m + s.footway_width_m + s.frontage_depth_m
+        return half if side == "left" else -half
+
+    def ground_z(self, y_m: float) -> float:
+        """Height of the walkable surface at across-street position ``y_m``."""
+        return 0.0 if abs(y_m) <= 0.5 * self.carriageway_width_m else self.kerb_height_m
+
+
+@dataclass
+class Tag:
+    """Name and analysis flag of something in the scene ("the blue car", inspect = true)."""
+
+    name: str
+    inspect: bool = False
+    notes: str = ""
+
+
+@dataclass
+class StreetObject:
+    """A parametric street object (car, bin, tree ...) or a piece of free geometry."""
+
+    kind: str
+    tag: Tag
+    position_m: Vec3
+    heading_deg: float
+    params: dict[str, Any]
+    materials: dict[str, str]  # slot -> material id
+    where: str  # key path in the scene file, for messages
+
+
+@dataclass
+class Frontage:
+    side: str
+    kind: str  # "house" | "shop"
+    start_m: float
+    length_m: float
+    units: int
+    height_m: float
+    depth_m: float
+    materials: dict[str, str]
+    tag: Tag
+    where: str
+
+
+@dataclass
+class Marking:
+    """A painted or surfaced region lying on the street (a thin region with its own material)."""
+
+    kind: str  # "line" | "polygon"
+    points_m: list[Vec2]
+    width_m: float
+    dash_m: float
+    gap_m: float
+    material: str
+    tag: Tag
+    where: str
+
+
+@dataclass
+class Luminaire:
+    """One luminaire as placed in the world (rows are expanded to these)."""
+
+    name: str
+    group: str
+    position_m: Vec3  # centre of the luminous opening
+    column_base_m: Vec3 | None  # foot of the column, or None for no column geometry
+    rotation_deg: float  # heading of the photometric C0 axis, anticlockwise from +x
+    tilt_deg: float
+    photometry: str  # built-in id or path (resolved against the scene file)
+    lamp: str  # built-in lamp id or path
+    lumens: float | None  # None: the photometry's rated lumens
+    maintenance_factor: float
+    dimming: float
+    where: str
+
+
+@dataclass
+class View:
+    name: str
+    kind: str  # pedestrian | driver | window | aerial | custom
+    position_m: Vec3
+    target_m: Vec3
+    hfov_deg: float
+    width_px: int
+    height_px: int
+    notes: str = ""
+
+
+@dataclass
+class RenderSettings:
+    samples_per_pixel: int = 4
+    seed: int = 0
+
+
+@dataclass
+class ObserverSettings:
+    age_years: float = 40.0
+    pigmentation: float = 0.5
+    adaptation_cd_m2: float | None = None
+    display_peak_cd_m2: float = 100.0
+
+
+@dataclass
+class GroupSetting:
+    lamp: str | None = None
+    photometry: str | None = None
+    lumens: float | None = None
+    dimming: float | None = None
+
+
+@dataclass
+class Setup:
+    """A named lighting setup: per group (``"*"`` for all) lamp, photometry, lumens, dimming."""
+
+    name: str
+    description: str
+    groups: dict[str, GroupSetting]
+
+
+@dataclass
+class Scene:
+    path: Path
+    name: str
+    description: str
+    street: Street | None
+    frontages: list[Frontage] = field(default_factory=list)
+    objects: list[StreetObject] = field(default_factory=list)
+    markings: list[Marking] = field(default_factory=list)
+    luminaires: list[Luminaire] = field(default_factory=list)
+    views: list[View] = field(default_factory=list)
+    render: RenderSettings = field(default_factory=RenderSettings)
+    observer: ObserverSettings = field(default_factory=ObserverSettings)
+    setups: dict[str, Setup] = field(default_factory=dict)
+    sky_material: str | None = None
+
+    @property
+    def base_dir(self) -> Path:
+        return self.path.parent
+
+    def view(self, name: str | None = None) -> View:
+        from render.errors import did_you_mean, input_error
+
+        if not self.views:
+            raise input_error(self.path, "views", "the scene has no [[views]]")
+        if name is None:
+            return self.views[0]
+        for v in self.views:
+            if v.name == name:
+                return v
+        names = [v.name for v in self.views]
+        raise input_error(self.path, "views", f"no view named {name!r}{did_you_mean(name, names)}; views: {', '.join(names)}")
+
+    @property
+    def groups(self) -> list[str]:
+        seen: list[str] = []
+        for lum in self.luminaires:
+            if lum.group not in seen:
+                seen.append(lum.group)
+        return seen

@@ -1,0 +1,184 @@
+"""A small declarative checker for TOML tables.
+
+A *spec* is a mapping from key to :class:`Field`. :func:`check_table` walks one table, fills
+defaults, converts values and records every problem (unknown key with a did-you-mean, missing
+key, wrong type, out of range, non-finite number) in a :class:`~render.errors.ProblemList` under
+its key path, so that all the mistakes in a scene file are reported together.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Any, Callable
+
+from render.errors import ProblemList, did_you_mean
+
+_MISSING = object()
+
+
+@dataclass(frozen=True)
+class Field:
+    """One key of a table.
+
+    kind: ``"float"``, ``"int"``, ``"str"``, ``"bool"``, ``"vec2"``, ``"vec3"``, ``"int2"``,
+    ``"table"`` (any table, checked by the caller), ``"list"`` (a list of tables, checked by the
+    caller), ``"strlist"`` or ``"any"``.
+    Numeric bounds: ``min``/``max`` inclusive, ``above`` exclusive lower bound, ``below``
+    exclusive upper bound. ``unit`` is used in messages.
+    """
+
+    kind: str
+    default: Any = _MISSING
+    unit: str = ""
+    min: float | None = None
+    max: float | None = None
+    above: float | None = None
+    below: float | None = None
+    choices: tuple | None = None
+    help: str = ""
+
+    @property
+    def required(self) -> bool:
+        return self.default is _MISSING
+
+
+def _describe(field: Field) -> str:
+    kinds = {
+        "float": "a number", "int": "a whole number", "str": "a text string", "bool": "true or false",
+        "vec2": "a list of 2 numbers", "vec3": "a list of 3 numbers", "int2": "a list of 2 whole numbers",
+        "table": "a table", "list": "a list of tables", "strlist": "a list of text strings", "any": "a value",
+    }
+    text = kinds[field.kind]
+    if field.unit:
+        text += f" in {field.unit}"
+    return text
+
+
+def _number(value) -> bool:
+    return isinstance(value, (int, float)) and not isinstance(value, bool)
+
+
+def _check_bounds(value: float, field: Field, where: str, problems: ProblemList) -> bool:
+    unit = f" {field.unit}" if field.unit else ""
+    if not math.isfinite(value):
+        problems.add(where, f"expected a finite number{unit}, got {value!r}")
+        return False
+    if field.min is not None and value < field.min:
+        problems.add(where, f"expected at least {field.min:g}{unit}, got {value:g}")
+        return False
+    if field.max is not None and value > field.max:
+        problems.add(where, f"expected at most {field.max:g}{unit}, got {value:g}")
+        return False
+    if field.above is not None and not value > field.above:
+        problems.add(where, f"expected more than {field.above:g}{unit}, got {value:g}")
+        return False
+    if field.below is not None and not value < field.below:
+        problems.add(where, f"expected less than {field.below:g}{unit}, got {value:g}")
+        return False
+    return True
+
+
+def check_value(value, field: Field, where: str, problems: ProblemList):
+    """Convert and check one value; returns the converted value or ``None`` after a problem."""
+    kind = field.kind
+    if kind == "any":
+        return value
+    if kind == "float":
+        if not _number(value):
+            problems.add(where, f"expected {_describe(field)}, got {type(value).__name__} {value!r}")
+            return None
+        value = float(value)
+        return value if _check_bounds(value, field, where, problems) else None
+    if kind == "int":
+        if isinstance(value, bool) or not isinstance(value, int):
+            if isinstance(value, float) and value.is_integer():
+                value = int(value)
+            else:
+                problems.add(where, f"expected {_describe(field)}, got {value!r}")
+                return None
+        return value if _check_bounds(float(value), field, where, problems) else None
+    if kind == "bool":
+        if not isinstance(value, bool):
+            problems.add(where, f"expected true or false, got {value!r}")
+            return None
+        return value
+    if kind == "str":
+        if not isinstance(value, str):
+            problems.add(where, f"expected a text string, got {value!r}")
+            return None
+        if field.choices is not None and value not in field.choices:
+            options = ", ".join(repr(c) for c in field.choices)
+            problems.add(where, f"expected one of {options}, got {value!r}{did_you_mean(value, field.choices)}")
+            return None
+        return value
+    if kind == "strlist":
+        if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
+            problems.add(where, f"expected a list of text strings, got {value!r}")
+            return None
+        return list(value)
+    if kind in ("vec2", "vec3", "int2"):
+        n = 3 if kind == "vec3" else 2
+        if not isinstance(value, list) or len(value) != n or not all(_number(v) for v in value):
+            problems.add(where, f"expected {_describe(field)}, got {value!r}")
+            return None
+        if kind == "int2":
+            if not all(float(v).is_integer() for v in value):
+                problems.add(where, f"expected {_describe(field)}, got {value!r}")
+                return None
+            out = tuple(int(v) for v in value)
+        else:
+            out = tuple(float(v) for v in value)
+        ok = all(_check_bounds(float(v), field, f"{where}[{i}]", problems) for i, v in enumerate(out))
+        return out if ok else None
+    if kind == "table":
+        if not isinstance(value, dict):
+            problems.add(where, f"expected a table, got {value!r}")
+            return None
+        return value
+    if kind == "list":
+        if not isinstance(value, list) or not all(isinstance(v, dict) for v in value):
+            problems.add(where, f"expected a list of tables ([[...]] entries), got {value!r}")
+            return None
+        return value
+    raise ValueError(f"unknown field kind {kind!r}")  # pragma: no cover - programming error
+
+
+def join(prefix: str, key: str | int) -> str:
+    """Key path ``prefix.key`` (or ``prefix[i]`` for list indices)."""
+    if isinstance(key, int):
+        return f"{prefix}[{key}]"
+    return f"{prefix}.{key}" if prefix else key
+
+
+def check_table(
+    table: dict,
+    spec: dict[str, Field],
+    where: str,
+    problems: ProblemList,
+    extra: Callable[[str], bool] | None = None,
+) -> dict:
+    """Check ``table`` against ``spec``; returns a dict with every spec key (defaults filled,
+    ``None`` where a problem was recorded). Keys for which ``extra(key)`` is true are passed
+    through unchecked."""
+    out: dict[str, Any] = {}
+    if not isinstance(table, dict):
+        problems.add(where, f"expected a table, got {table!r}")
+        return {k: (None if f.required else f.default) for k, f in spec.items()}
+    for key, value in table.items():
+        if key in spec:
+            continue
+        if extra is not None and extra(key):
+            out[key] = value
+            continue
+        problems.add(join(where, key), f"unknown key{did_you_mean(key, spec)}; expected one of: {', '.join(spec)}")
+    for key, field in spec.items():
+        path = join(where, key)
+        if key in table:
+            out[key] = check_value(table[key], field, path, problems)
+        elif field.required:
+            problems.add(path, f"missing; expected {_describe(field)}" + (f" ({field.help})" if field.help else ""))
+            out[key] = None
+        else:
+            out[key] = field.default
+    return out
