@@ -1,0 +1,573 @@
+"""Surface materials: diffuse reflectance spectra with their provenance.
+
+A material is one CSV file in ``materials/`` (or in the folder named by the environment variable
+``LAMPCAST_MATERIALS``). The file starts with a header block of ``# key: value`` lines that says
+what the surface is and where the numbers come from, then a ``wavelength_nm,reflectance`` row
+and the samples::
+
+    # id: asphalt-new
+    # name: Asphalt road surface, new
+    # description: ...
+    # category: road
+    # source: earthlib 1.1.0 (PyPI), full_library
+    # sample_id: rpaeye.010- (earthlib full_library index 5132)
+    # licence: ...
+    # measured_range_nm: 400-2450
+    # completion: 380 and 390 nm rows repeat the 400 nm value
+    wavelength_nm,reflectance
+    380,0.047079
+    ...
+
+Files keep the sampling of their source (e.g. 10 nm); :func:`load_material_csv` moves the
+samples onto the lampcast grid with :func:`render.spectra.bin_mean` (joins the samples with
+straight lines and takes the mean over each 1 nm bin).
+
+Validation (every rejection is an :class:`~render.errors.InputError` naming the file and line):
+
+* all :data:`REQUIRED_KEYS` present, no key twice, ``id`` equal to the file name without
+  ``.csv`` and made of lowercase letters, digits and hyphens;
+* the column row ``wavelength_nm,reflectance``, then rows of two finite numbers;
+* wavelengths strictly increasing (no duplicates), covering 380-780 nm, at least
+  :data:`MIN_ROWS` rows and no gap wider than :data:`MAX_STEP_NM` inside 380-780 nm;
+* reflectances in [0, 1]. Values within :data:`CLIP_TOLERANCE` outside that interval
+  (measurement noise, e.g. -0.003 or 1.004) are clipped to 0 or 1; anything further out is
+  an error.
+
+The photopic luminous reflectance listed by ``lampcast materials`` is the reflectance weighted by
+CIE standard illuminant D65 and the CIE 1931 ȳ(λ) = V(λ) function:
+``Y/100 = Σ ρ(λ) S_D65(λ) ȳ(λ) / Σ S_D65(λ) ȳ(λ)`` (CIE 15:2004, reflecting object colours).
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import re
+import tempfile
+from dataclasses import dataclass, field
+from functools import lru_cache
+from pathlib import Path
+
+import numpy as np
+
+from render.errors import InputError, Problem, ProblemList, did_you_mean, input_error
+from render.spectra import WAVELENGTH_MAX_NM, WAVELENGTH_MIN_NM, WAVELENGTHS_NM, bin_mean
+
+#: Header keys every material file must have.
+REQUIRED_KEYS = (
+    "id",
+    "name",
+    "description",
+    "category",
+    "source",
+    "sample_id",
+    "licence",
+    "measured_range_nm",
+    "completion",
+)
+#: The column row that separates the header from the samples.
+COLUMNS_ROW = "wavelength_nm,reflectance"
+#: Reflectances this far outside [0, 1] are clipped (measurement noise); further out is an error.
+CLIP_TOLERANCE = 0.005
+#: Fewest sample rows accepted.
+MIN_ROWS = 9
+#: Widest gap accepted between consecutive samples inside 380-780 nm, nm.
+MAX_STEP_NM = 50.0
+#: Environment variable naming a materials folder to use instead of the repository's.
+MATERIALS_ENV = "LAMPCAST_MATERIALS"
+
+_ID_RE = re.compile(r"^[a-z0-9]+(?:-[a-z0-9]+)*$")
+_KEY_RE = re.compile(r"^#\s*([A-Za-z][A-Za-z0-9_]*)\s*:(.*)$")
+_RANGE_RE = re.compile(r"^\s*(\d+(?:\.\d+)?)\s*(?:-|–|to)\s*(\d+(?:\.\d+)?)\s*$")
+
+
+@dataclass(frozen=True, eq=False)
+class Material:
+    """A diffuse surface: its reflectance on the lampcast grid and where it comes from.
+
+    Attributes
+    ----------
+    id, name, description, category
+        From the file header; ``id`` equals the file name without ``.csv``.
+    source, sample_id, licence
+        Dataset (with version), the sample's identifier in it, the data's licence.
+    measured_range_nm
+        ``(first, last)`` wavelength of the original measurement, nm.
+    completion
+        How the file's rows were extended to cover 380-780 nm (or why no completion was needed).
+    reflectance
+        Bin means on :data:`render.spectra.WAVELENGTHS_NM`, shape ``(N_BINS,)``, within [0, 1],
+        read-only.
+    path
+        The file it was read from.
+    sample_wavelengths_nm, sample_values
+        The file's own rows (after clipping within tolerance), read-only.
+    extra
+        Header keys beyond :data:`REQUIRED_KEYS` (e.g. ``source_metadata``), verbatim.
+    """
+
+    id: str
+    name: str
+    description: str
+    category: str
+    source: str
+    sample_id: str
+    licence: str
+    measured_range_nm: tuple[float, float]
+    completion: str
+    reflectance: np.ndarray
+    path: Path
+    sample_wavelengths_nm: np.ndarray = field(repr=False, default_factory=lambda: np.zeros(0))
+    sample_values: np.ndarray = field(repr=False, default_factory=lambda: np.zeros(0))
+    extra: dict = field(repr=False, default_factory=dict)
+
+
+# --- reading ---------------------------------------------------------------------------------
+
+
+def _parse_float(text: str) -> float | None:
+    try:
+        value = float(text)
+    except ValueError:
+        return None
+    return value if math.isfinite(value) else None
+
+
+def load_material_csv(path: str | Path) -> Material:
+    """Read and validate one material file (format in the module docstring).
+
+    Parameters
+    ----------
+    path
+        The CSV file.
+
+    Returns
+    -------
+    Material
+        With the reflectance moved onto the grid by :func:`render.spectra.bin_mean`.
+
+    Raises
+    ------
+    InputError
+        Listing every problem found, each naming the file and line and what was expected.
+    """
+    path = Path(path)
+    src = str(path)
+    try:
+        raw = path.read_bytes()
+    except FileNotFoundError:
+        raise input_error(src, "", "file not found; expected a material CSV file") from None
+    except OSError as exc:
+        raise input_error(src, "", f"cannot read the file ({exc.strerror})") from None
+    try:
+        text = raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        line = raw[: exc.start].count(b"\n") + 1
+        raise input_error(src, f"line {line}", "not UTF-8 text; expected a UTF-8 CSV file") from None
+    lines = text.splitlines()
+    if not any(s.strip() for s in lines):
+        raise input_error(
+            src, "line 1",
+            f"the file is empty; expected '# key: value' header lines ({', '.join(REQUIRED_KEYS)}), "
+            f"then '{COLUMNS_ROW}' and the samples",
+        )
+
+    problems = ProblemList(src)
+    header: dict[str, str] = {}
+    header_line: dict[str, int] = {}
+    columns_line = 0
+    rows: list[tuple[int, float, float]] = []  # (line, wavelength, value)
+
+    for number, line in enumerate(lines, start=1):
+        stripped = line.strip()
+        if not stripped:
+            continue
+        if not columns_line:
+            if stripped.startswith("#"):
+                match = _KEY_RE.match(stripped)
+                if not match:
+                    problems.add(f"line {number}", "expected a header line '# key: value'")
+                    continue
+                key, value = match.group(1).lower(), match.group(2).strip()
+                if key in header:
+                    problems.add(f"line {number}", f"key '{key}' given twice (first on line {header_line[key]})")
+                    continue
+                header[key], header_line[key] = value, number
+                continue
+            if stripped.replace(" ", "").lower() == COLUMNS_ROW:
+                columns_line = number
+                continue
+            problems.add(
+                f"line {number}",
+                f"expected '# key: value' header lines and then the column row '{COLUMNS_ROW}'",
+            )
+            # Treat the rest as data so that its mistakes are reported too.
+            columns_line = -number
+        if stripped.startswith("#"):
+            problems.add(f"line {number}", "header lines must come before the data rows")
+            continue
+        fields = [f.strip() for f in stripped.split(",")]
+        if len(fields) != 2:
+            problems.add(f"line {number}", f"expected two numbers 'wavelength_nm,reflectance', got {len(fields)} field(s)")
+            continue
+        wl, value = _parse_float(fields[0]), _parse_float(fields[1])
+        if wl is None:
+            problems.add(f"line {number}", f"wavelength {fields[0]!r} is not a number; expected nm")
+        if value is None:
+            problems.add(f"line {number}", f"reflectance {fields[1]!r} is not a number; expected a value in [0, 1]")
+        if wl is not None and value is not None:
+            rows.append((number, wl, value))
+
+    end_of_header = abs(columns_line) if columns_line else len(lines)
+    if not columns_line:
+        problems.add(f"line {end_of_header}", f"no column row '{COLUMNS_ROW}' and no samples")
+    elif not rows and not problems:
+        problems.add(f"line {end_of_header}", f"no sample rows after '{COLUMNS_ROW}'; expected at least {MIN_ROWS}")
+    missing = [k for k in REQUIRED_KEYS if k not in header]
+    if missing:
+        problems.add(
+            f"line {end_of_header}",
+            f"header lacks {', '.join(repr(f'# {k}: ...') for k in missing)} "
+            f"(required keys: {', '.join(REQUIRED_KEYS)})",
+        )
+    for key in REQUIRED_KEYS:
+        if key in header and not header[key]:
+            problems.add(f"line {header_line[key]}", f"'{key}' is empty; expected text")
+
+    material_id = header.get("id", "")
+    if material_id:
+        where = f"line {header_line['id']}"
+        if not _ID_RE.match(material_id):
+            problems.add(where, f"id {material_id!r} must be lowercase letters, digits and single hyphens")
+        elif material_id != path.stem:
+            problems.add(where, f"id {material_id!r} must equal the file name without .csv ({path.stem!r})")
+
+    measured = (math.nan, math.nan)
+    if header.get("measured_range_nm"):
+        match = _RANGE_RE.match(header["measured_range_nm"])
+        if match and float(match.group(1)) < float(match.group(2)):
+            measured = (float(match.group(1)), float(match.group(2)))
+        else:
+            problems.add(
+                f"line {header_line['measured_range_nm']}",
+                f"measured_range_nm {header['measured_range_nm']!r}: expected 'first-last' in nm, e.g. '400-2450'",
+            )
+
+    values = _check_rows(rows, problems)
+    problems.raise_if_any()
+
+    wavelengths = np.array([r[1] for r in rows], dtype=np.float64)
+    values.setflags(write=False)
+    wavelengths.setflags(write=False)
+    reflectance = np.clip(bin_mean(wavelengths, values), 0.0, 1.0)
+    reflectance.setflags(write=False)
+    extra = {k: v for k, v in header.items() if k not in REQUIRED_KEYS}
+    return Material(
+        id=material_id,
+        name=header["name"],
+        description=header["description"],
+        category=header["category"],
+        source=header["source"],
+        sample_id=header["sample_id"],
+        licence=header["licence"],
+        measured_range_nm=measured,
+        completion=header["completion"],
+        reflectance=reflectance,
+        path=path,
+        sample_wavelengths_nm=wavelengths,
+        sample_values=values,
+        extra=extra,
+    )
+
+
+def _check_rows(rows: list[tuple[int, float, float]], problems: ProblemList) -> np.ndarray:
+    """Check ordering, coverage, spacing and value range of the data rows; clip within tolerance."""
+    out = np.array([r[2] for r in rows], dtype=np.float64)
+    if not rows:
+        return out
+    for (line_a, wl_a, _), (line_b, wl_b, _) in zip(rows, rows[1:]):
+        if wl_b == wl_a:
+            problems.add(f"line {line_b}", f"duplicate wavelength {wl_b:g} nm (also on line {line_a})")
+        elif wl_b < wl_a:
+            problems.add(
+                f"line {line_b}",
+                f"wavelength {wl_b:g} nm follows {wl_a:g} nm (line {line_a}); rows must be in strictly increasing wavelength",
+            )
+        elif wl_a < WAVELENGTH_MAX_NM and wl_b > WAVELENGTH_MIN_NM and wl_b - wl_a > MAX_STEP_NM + 1e-9:
+            problems.add(
+                f"line {line_b}",
+                f"gap of {wl_b - wl_a:g} nm after {wl_a:g} nm (line {line_a}); expected samples at most {MAX_STEP_NM:g} nm apart within 380-780 nm",
+            )
+    first_line, first_wl, _ = rows[0]
+    last_line, last_wl, _ = rows[-1]
+    if first_wl > WAVELENGTH_MIN_NM:
+        problems.add(
+            f"line {first_line}",
+            f"samples start at {first_wl:g} nm; expected the first row at or below {WAVELENGTH_MIN_NM:g} nm "
+            "(complete the range and say how under '# completion:')",
+        )
+    if last_wl < WAVELENGTH_MAX_NM:
+        problems.add(
+            f"line {last_line}",
+            f"samples end at {last_wl:g} nm; expected the last row at or above {WAVELENGTH_MAX_NM:g} nm "
+            "(complete the range and say how under '# completion:')",
+        )
+    if len(rows) < MIN_ROWS:
+        problems.add(f"line {last_line}", f"only {len(rows)} sample row(s); expected at least {MIN_ROWS}")
+    for i, (line, _, value) in enumerate(rows):
+        if value < -CLIP_TOLERANCE or value > 1.0 + CLIP_TOLERANCE:
+            problems.add(
+                f"line {line}",
+                f"reflectance {value:g} is outside [0, 1] (values within {CLIP_TOLERANCE:g} of it are clipped)",
+            )
+        else:
+            out[i] = min(max(value, 0.0), 1.0)
+    return out
+
+
+# --- the library -----------------------------------------------------------------------------
+
+
+def default_materials_dir() -> Path:
+    """The folder :func:`material_library` reads when given none.
+
+    ``$LAMPCAST_MATERIALS`` if set (and not empty), else the repository's ``materials/``
+    folder (``Path(render.__file__).resolve().parents[1] / "materials"``).
+    """
+    env = os.environ.get(MATERIALS_ENV, "").strip()
+    if env:
+        return Path(env).expanduser()
+    import render
+
+    return Path(render.__file__).resolve().parents[1] / "materials"
+
+
+def material_library(directory: str | Path | None = None) -> dict[str, Material]:
+    """Load every ``*.csv`` material in a folder, keyed by id, in id order.
+
+    Parameters
+    ----------
+    directory
+        The folder; default :func:`default_materials_dir`.
+
+    Raises
+    ------
+    InputError
+        If the folder is missing or holds no material, or with the problems of every bad file.
+    """
+    folder = Path(directory) if directory is not None else default_materials_dir()
+    src = str(folder) if directory is not None or not os.environ.get(MATERIALS_ENV, "").strip() else f"{MATERIALS_ENV}={folder}"
+    if not folder.is_dir():
+        raise input_error(src, "", "not a folder; expected a folder of material CSV files")
+    files = sorted(p for p in folder.glob("*.csv") if p.is_file())
+    if not files:
+        raise input_error(src, "", "no material files (*.csv) in this folder")
+    problems = ProblemList(src)
+    out: dict[str, Material] = {}
+    for p in files:
+        try:
+            m = load_material_csv(p)
+        except InputError as err:
+            problems.extend(err)
+            continue
+        out[m.id] = m
+    problems.raise_if_any()
+    return dict(sorted(out.items()))
+
+
+def get_material(
+    material_id: str,
+    library: dict[str, Material] | None = None,
+    *,
+    source: str = "material",
+    where: str = "",
+) -> Material:
+    """One material by id, from ``library`` (default: :func:`material_library`).
+
+    ``source`` and ``where`` name the place the id came from (e.g. a scene file and its key
+    path) for the error message if the id is unknown.
+    """
+    lib = material_library() if library is None else library
+    if material_id in lib:
+        return lib[material_id]
+    raise InputError(
+        Problem(
+            source, where,
+            f"unknown material {material_id!r}{did_you_mean(material_id, lib)}; `lampcast materials` lists them",
+        )
+    )
+
+
+# --- photometry ------------------------------------------------------------------------------
+
+
+@lru_cache(maxsize=1)
+def d65_on_grid() -> np.ndarray:
+    """CIE standard illuminant D65 (relative SPD, colour-science ``SDS_ILLUMINANTS['D65']``,
+    5 nm) at the grid's bin centres by linear interpolation, the interpolation CIE 15:2004
+    recommends for D65 (from memory). Read-only, shape ``(N_BINS,)``."""
+    import colour
+
+    sd = colour.SDS_ILLUMINANTS["D65"]
+    out = np.interp(WAVELENGTHS_NM, sd.wavelengths, sd.values)
+    out.setflags(write=False)
+    return out
+
+
+def luminous_reflectance(reflectance, illuminant: np.ndarray | None = None) -> float | np.ndarray:
+    """Photopic luminous reflectance ``Y/100`` of gridded reflectance(s) under an illuminant.
+
+    ``Σ ρ S ȳ / Σ S ȳ`` with ȳ = V(λ) of the CIE 1931 2° observer
+    (:func:`render.observers.tristimulus`), the illuminant ``S`` on the grid (default D65,
+    :func:`d65_on_grid`). Dimensionless, 0-1; the last axis of ``reflectance`` is wavelength.
+    """
+    from render.observers import tristimulus
+
+    s = d65_on_grid() if illuminant is None else np.asarray(illuminant, dtype=np.float64)
+    rho = np.asarray(reflectance, dtype=np.float64)
+    y = tristimulus(rho * s)[..., 1] / tristimulus(s)[1]
+    return float(y) if np.ndim(y) == 0 else y
+
+
+# --- listing and plots -----------------------------------------------------------------------
+
+
+def material_table(lib: dict[str, Material]) -> list[dict]:
+    """One JSON-ready row per material, in id order.
+
+    Keys: ``id``, ``category``, ``name``, ``luminous_reflectance_d65`` (photopic, Y/100 under
+    CIE D65, :func:`luminous_reflectance`), ``measured_range_nm`` (``[first, last]``),
+    ``source``, ``sample_id``, ``licence``, ``completion``, ``path``.
+    """
+    rows = []
+    for mid in sorted(lib):
+        m = lib[mid]
+        rows.append(
+            {
+                "id": m.id,
+                "category": m.category,
+                "name": m.name,
+                "luminous_reflectance_d65": round(luminous_reflectance(m.reflectance), 4),
+                "measured_range_nm": [m.measured_range_nm[0], m.measured_range_nm[1]],
+                "source": m.source,
+                "sample_id": m.sample_id,
+                "licence": m.licence,
+                "completion": m.completion,
+                "path": str(m.path),
+            }
+        )
+    return rows
+
+
+def _clip_text(text: str, width: int) -> str:
+    return text if len(text) <= width else text[: width - 3] + "..."
+
+
+def _short_source(source: str) -> str:
+    """The dataset and version part of a ``source`` line (text before ' (' or ',')."""
+    return source.split(" (")[0].split(",")[0].strip()
+
+
+def format_material_table(rows: list[dict]) -> str:
+    """Plain-text table of :func:`material_table` rows: id, category, luminous reflectance
+    under D65, measured range, source and name."""
+    head = ("id", "category", "Y(D65)", "measured nm", "source", "name")
+    body = []
+    for r in rows:
+        lo, hi = r["measured_range_nm"]
+        body.append(
+            (
+                r["id"],
+                r["category"],
+                f"{r['luminous_reflectance_d65']:.3f}",
+                f"{lo:g}-{hi:g}",
+                _clip_text(_short_source(r["source"]), 40),
+                _clip_text(r["name"], 44),
+            )
+        )
+    widths = [max(len(h), *(len(b[i]) for b in body)) if body else len(h) for i, h in enumerate(head)]
+    align_right = {2}
+
+    def fmt(cells) -> str:
+        return "  ".join(
+            c.rjust(w) if i in align_right else c.ljust(w) for i, (c, w) in enumerate(zip(cells, widths))
+        ).rstrip()
+
+    lines = [fmt(head), fmt(["-" * w for w in widths])]
+    lines += [fmt(b) for b in body]
+    lines.append("")
+    lines.append(
+        f"{len(rows)} materials. Y(D65): photopic luminous reflectance under CIE illuminant D65 "
+        "(CIE 1931 2-degree observer). Sources, sample ids and licences: `lampcast materials --json` "
+        "or materials/README.md."
+    )
+    return "\n".join(lines)
+
+
+def plot_material(material: Material, path: str | Path) -> Path:
+    """Write a PNG plot of a material's reflectance (grid and source samples).
+
+    The range outside the measurement (filled by the stated completion) is shaded. Written to a
+    temporary file in the same folder and moved into place with :func:`os.replace`, so a
+    half-written plot never carries the final name. Returns the path.
+    """
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
+
+    path = Path(path)
+    fig = Figure(figsize=(6.4, 3.6), dpi=100)
+    FigureCanvasAgg(fig)
+    ax = fig.add_subplot(1, 1, 1)
+    lo, hi = material.measured_range_nm
+    if lo > WAVELENGTH_MIN_NM:
+        ax.axvspan(WAVELENGTH_MIN_NM, min(lo, WAVELENGTH_MAX_NM), color="0.9", lw=0, label="completed")
+    if hi < WAVELENGTH_MAX_NM:
+        ax.axvspan(max(hi, WAVELENGTH_MIN_NM), WAVELENGTH_MAX_NM, color="0.9", lw=0,
+                   label=None if lo > WAVELENGTH_MIN_NM else "completed")
+    ax.plot(WAVELENGTHS_NM, material.reflectance, color="k", lw=1.2, label="on the 1 nm grid")
+    sel = (material.sample_wavelengths_nm >= WAVELENGTH_MIN_NM) & (material.sample_wavelengths_nm <= WAVELENGTH_MAX_NM)
+    ax.plot(material.sample_wavelengths_nm[sel], material.sample_values[sel], "o", ms=2.5, color="C0", label="file samples")
+    top = float(np.max(material.reflectance))
+    ax.set_xlim(WAVELENGTH_MIN_NM, WAVELENGTH_MAX_NM)
+    ax.set_ylim(0.0, 1.0 if top > 0.5 else max(0.05, 1.15 * top))
+    ax.set_xlabel("wavelength (nm)")
+    ax.set_ylabel("reflectance")
+    y = luminous_reflectance(material.reflectance)
+    ax.set_title(f"{material.id}: {_clip_text(material.name, 60)}  (Y(D65) = {y:.3f})", fontsize=9)
+    ax.legend(fontsize=7, loc="best")
+    fig.tight_layout(rect=(0.0, 0.04, 1.0, 1.0))
+    fig.text(0.01, 0.01, _clip_text(f"{material.source} | {material.sample_id}", 120), fontsize=6, color="0.35")
+
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+    try:
+        with os.fdopen(fd, "wb") as fh:
+            fig.savefig(fh, format="png")
+        os.replace(tmp, path)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except FileNotFoundError:
+            pass
+        raise
+    return path
+
+
+__all__ = [
+    "CLIP_TOLERANCE",
+    "COLUMNS_ROW",
+    "MATERIALS_ENV",
+    "MAX_STEP_NM",
+    "MIN_ROWS",
+    "Material",
+    "REQUIRED_KEYS",
+    "d65_on_grid",
+    "default_materials_dir",
+    "format_material_table",
+    "get_material",
+    "load_material_csv",
+    "luminous_reflectance",
+    "material_library",
+    "material_table",
+    "plot_material",
+]
