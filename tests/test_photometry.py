@@ -1,0 +1,555 @@
+"""Tests for render.photometry (LM-63 reading, symmetry, flux, orientation, plots).
+
+Sources of the checks:
+* LM-63 field order and angle conventions: ANSI/IESNA LM-63-2002 and IES LM-63-2019
+  **(from memory)**; the 1986/1991 "ballast-lamp photometric factor" that LM-63-1995 turned into
+  a "future use" field set to 1: Ashdown 1998, "Parsing the IESNA LM-63 photometric data file".
+* Flux integrals: analytic results, Φ = ∮ I dΩ; isotropic I → 4πI; I0·cos γ on the lower
+  hemisphere → πI0; hemispherical constant → 2πI.
+* Quadrature of the interpolated table: scipy.integrate.quad (reference library).
+* Rotations: elementary vector geometry (orthonormal matrices, known directions).
+The files in tests/data/photometry are hand-written for these tests.
+"""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from render import photometry as P
+from render.errors import InputError
+
+DATA = Path(__file__).parent / "data" / "photometry"
+
+
+def read(name: str) -> P.Photometry:
+    return P.read_lm63(DATA / name)
+
+
+def lm63_from_function(tmp_path: Path, func, vertical_deg, horizontal_deg=(0.0,), name="made.ies",
+                       lumens=1000.0, ptype=1) -> P.Photometry:
+    """Write an LM-63-2002 file of I = func(h, v) and read it back (exercises the parser)."""
+    v = np.asarray(vertical_deg, float)
+    h = np.asarray(horizontal_deg, float)
+    rows = [" ".join(f"{func(hh, vv):.12g}" for vv in v) for hh in h]
+    text = "\n".join([
+        "IESNA:LM-63-2002", "[TEST] generated in a test", "TILT=NONE",
+        f"1 {lumens:g} 1 {v.size} {h.size} {ptype} 2 0 0 0", "1 1 0",
+        " ".join(f"{a:.12g}" for a in v), " ".join(f"{a:.12g}" for a in h), *rows, ""])
+    path = tmp_path / name
+    path.write_text(text)
+    return P.read_lm63(path)
+
+
+# --------------------------------------------------------------------------------------------
+# Header, keywords, editions
+# --------------------------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize("name, edition", [
+    ("rotational_1995.ies", "LM-63-1995"),     # first line IESNA:LM-63-1995 (LM-63, from memory)
+    ("quadrant_2002_feet.ies", "LM-63-2002"),  # IESNA:LM-63-2002
+    ("bilateral_0_180_2019.ies", "LM-63-2019"),  # IES:LM-63-2019
+    ("legacy_1986.ies", "LM-63-1986"),         # no edition line in the 1986 form
+])
+def test_edition_line(name, edition):
+    assert read(name).edition == edition
+
+
+def test_keywords_more_and_user_keys():
+    # [MORE] continues the previous keyword; [_KEY] is a user keyword (LM-63-2002, from memory).
+    ph = read("rotational_1995.ies")
+    assert ph.keywords["LUMINAIRE"] == "rotationally symmetric, vertical 0-180\nsecond line of the luminaire text"
+    assert ph.keywords["_TESTCASE"] == "rotational"
+    assert ph.keywords["LUMCAT"] == "rot-1995"
+    assert ph.name == "rot-1995"
+
+
+def test_1986_free_text_header_and_ballast_lamp_factor():
+    # 1986/1991: the second field of the electrical line is the ballast-lamp photometric factor,
+    # applied to the candela (Ashdown 1998). Written values 100 80 60, factor 0.95.
+    ph = read("legacy_1986.ies")
+    assert ph.label_lines == ("HAND-WRITTEN TEST FILE IN THE 1986 FORM", "NO EDITION LINE, FREE TEXT LABELS")
+    assert ph.ballast_lamp_factor == 0.95
+    np.testing.assert_allclose(ph.file_candela_cd[0], [95.0, 76.0, 57.0])
+
+
+def test_2019_file_generation_type_is_not_a_factor():
+    # LM-63-2019 reuses the field as "file generation type" (1.00001 here) (from memory):
+    # the written candela are used as they are.
+    ph = read("bilateral_0_180_2019.ies")
+    assert ph.file_generation_type == 1.00001
+    assert ph.ballast_lamp_factor == 1.0
+    assert P.intensity_cd(ph, 90.0, 0.0) == 150.0
+    assert ph.input_watts == 20.0
+
+
+def test_1995_future_use_field_read():
+    ph = read("rotational_1995.ies")
+    assert ph.ballast_lamp_factor == 1.0 and ph.file_generation_type is None
+    assert ph.lamp_count == 1 and ph.lumens_per_lamp == 1000.0 and ph.rated_lumens_lm == 1000.0
+    assert ph.input_watts == 50.0
+
+
+def test_feet_converted_to_metres():
+    # units type 1 = feet (LM-63); 1 ft = 0.3048 m exactly (international foot).
+    ph = read("quadrant_2002_feet.ies")
+    assert ph.opening_width_m == pytest.approx(0.3048)
+    assert ph.opening_length_m == pytest.approx(0.6096)
+    assert ph.opening_height_m == pytest.approx(0.1524)
+    assert ph.opening_shape == "rectangular with luminous sides"
+
+
+def test_negative_opening_sizes_mean_round_shapes():
+    # LM-63-2002 sign convention (from memory): width = length < 0, height 0 -> circular.
+    ph = read("bilateral_0_180_2019.ies")
+    assert ph.opening_shape == "circular"
+    assert ph.opening_width_m == pytest.approx(0.3)
+
+
+def test_wrapped_values_with_commas():
+    # LM-63: values separated by commas or white space, lines may wrap anywhere.
+    ph = read("wrapped_commas.ies")
+    np.testing.assert_array_equal(ph.file_vertical_deg, [0, 45, 90])
+    np.testing.assert_array_equal(ph.file_horizontal_deg, [0, 90])
+    np.testing.assert_array_equal(ph.file_candela_cd, [[100, 80, 60], [110, 85, 61]])
+    assert ph.symmetry == "quadrant"
+
+
+# --------------------------------------------------------------------------------------------
+# Symmetry expansion: the expanded grid reproduces the written values at the written angles
+# and their mirror images (LM-63 symmetry cases, from memory).
+# --------------------------------------------------------------------------------------------
+
+WRITTEN = {
+    "rotational_1995.ies": ("rotational", [0], [0, 45, 90, 135, 180], [[100, 80, 50, 20, 0]]),
+    "quadrant_2002_feet.ies": ("quadrant", [0, 45, 90], [0, 30, 60, 90],
+                               [[200, 180, 120, 10], [210, 190, 130, 15], [220, 200, 140, 20]]),
+    "bilateral_0_180_2019.ies": ("bilateral-0-180", [0, 90, 180], [0, 45, 90, 135, 180],
+                                 [[100, 90, 60, 10, 0], [150, 120, 70, 12, 0], [80, 70, 40, 8, 0]]),
+    "bilateral_90_270.ies": ("bilateral-90-270", [90, 135, 180, 225, 270], [0, 30, 60, 90],
+                             [[300, 250, 150, 0], [200, 220, 180, 0], [150, 200, 240, 0],
+                              [120, 130, 100, 0], [100, 90, 50, 0]]),
+    "full_0_270.ies": ("none", [0, 90, 180, 270], [0, 45, 90],
+                       [[10, 20, 30], [40, 50, 60], [70, 80, 90], [100, 110, 120]]),
+    "full_0_360.ies": ("none", [0, 90, 180, 270, 360], [0, 45, 90],
+                       [[10, 20, 30], [40, 50, 60], [70, 80, 90], [100, 110, 120], [10, 20, 30]]),
+    "upward_only.ies": ("rotational", [0], [90, 120, 150, 180], [[50, 40, 20, 5]]),
+}
+
+
+def _mirrors(symmetry: str, c: float) -> list[float]:
+    """Directions that carry the same intensity as C = c under each LM-63 symmetry."""
+    if symmetry == "rotational":
+        return [0.0, 37.0, 90.0, 200.0, 359.0]
+    if symmetry == "quadrant":
+        return [c, 180 - c, 180 + c, (360 - c) % 360]
+    if symmetry == "bilateral-0-180":
+        return [c, (360 - c) % 360]
+    if symmetry == "bilateral-90-270":
+        return [c, (180 - c) % 360]
+    return [c]
+
+
+@pytest.mark.parametrize("name", sorted(WRITTEN))
+def test_expanded_grid_matches_written_values(name):
+    symmetry, h, v, cd = WRITTEN[name]
+    ph = read(name)
+    assert ph.symmetry == symmetry
+    assert ph.c_deg[0] == 0.0 and ph.c_deg[-1] == 360.0
+    for hi, c in enumerate(h):
+        for vi, g in enumerate(v):
+            for cm in _mirrors(symmetry, c):
+                assert P.intensity_cd(ph, cm, g) == pytest.approx(cd[hi][vi], abs=1e-9), (c, cm, g)
+
+
+def test_bilateral_90_270_road_like_street_side():
+    # Mirror about the C 90-270 plane maps C to 180 - C: C 0 = C 180, C 45 = C 135,
+    # C 315 = C 225. Interpolation between written planes is linear in C.
+    ph = read("bilateral_90_270.ies")
+    assert P.intensity_cd(ph, 0.0, 60.0) == pytest.approx(240.0)
+    assert P.intensity_cd(ph, 315.0, 30.0) == pytest.approx(130.0)
+    assert P.intensity_cd(ph, 112.5, 0.0) == pytest.approx(250.0)  # midway 300 .. 200
+
+
+def test_full_range_wraps_periodically():
+    # C 0..270 (no symmetry): between C 270 and C 360 = C 0 the table interpolates linearly.
+    ph = read("full_0_270.ies")
+    assert P.intensity_cd(ph, 315.0, 0.0) == pytest.approx(55.0)
+    assert P.intensity_cd(ph, -45.0, 0.0) == pytest.approx(55.0)
+    assert P.intensity_cd(ph, 720.0 + 45.0, 90.0) == pytest.approx(45.0)
+
+
+def test_missing_hemisphere_is_zero():
+    # 90-180 file (upward only): nothing below the horizontal; 0-90 file: nothing above.
+    up = read("upward_only.ies")
+    assert up.vertical_range == "upward"
+    np.testing.assert_array_equal(P.intensity_cd(up, 0.0, [0.0, 45.0, 89.9]), 0.0)
+    assert P.intensity_cd(up, 0.0, 90.0) == 50.0
+    down = read("quadrant_2002_feet.ies")
+    assert down.vertical_range == "downward"
+    assert P.intensity_cd(down, 0.0, 90.0) == 10.0
+    assert P.intensity_cd(down, 0.0, 90.5) == 0.0
+
+
+def test_absolute_photometry_factors():
+    # -1 lumens = absolute photometry; candela x multiplier (2.0) x ballast factor (0.9).
+    ph = read("absolute_2002.ies")
+    assert ph.is_absolute and ph.rated_lumens_lm is None
+    np.testing.assert_allclose(ph.file_candela_cd[0], [180.0, 144.0, 108.0])
+    # lumens override for absolute photometry: scaled to the requested emitted flux.
+    scaled = P.scale_to_lumens(ph, 500.0)
+    assert P.luminous_flux_lm(scaled) == pytest.approx(500.0, rel=1e-12)
+    assert scaled.is_absolute
+
+
+def test_relative_scale_to_lumens():
+    # relative photometry: intensities scale with lumens / rated lumens (here 2000/1000).
+    ph = read("rotational_1995.ies")
+    scaled = P.scale_to_lumens(ph, 2000.0)
+    assert scaled.rated_lumens_lm == 2000.0
+    np.testing.assert_allclose(scaled.candela_cd, 2.0 * ph.candela_cd)
+    assert P.luminous_flux_lm(scaled) == pytest.approx(2.0 * P.luminous_flux_lm(ph))
+    with pytest.raises(ValueError):
+        P.scale_to_lumens(ph, 0.0)
+
+
+# --------------------------------------------------------------------------------------------
+# Tilt
+# --------------------------------------------------------------------------------------------
+
+
+def test_tilt_none():
+    ph = read("rotational_1995.ies")
+    assert ph.tilt is None and P.tilt_factor(ph, 30.0) == 1.0
+
+
+def test_tilt_include():
+    # TILT=INCLUDE: geometry, count, angles, factors inline (LM-63, from memory).
+    ph = read("tilt_include.ies")
+    assert ph.tilt.geometry == 1 and ph.tilt.origin == "INCLUDE"
+    np.testing.assert_array_equal(ph.tilt.angles_deg, [0, 15, 30, 45, 60])
+    assert P.tilt_factor(ph, 22.5) == pytest.approx(0.925)   # linear between 0.95 and 0.9
+    assert P.tilt_factor(ph, -30.0) == pytest.approx(0.9)
+    assert P.tilt_factor(ph, 80.0) == pytest.approx(0.8)     # held at the last value
+    tilted = P.apply_tilt(ph, 30.0)
+    np.testing.assert_allclose(tilted.candela_cd, 0.9 * ph.candela_cd)
+    np.testing.assert_array_equal(ph.file_candela_cd[0], [100, 80, 60])  # data follow the tilt block
+
+
+def test_tilt_file_relative_to_photometric_file(tmp_path):
+    ph = read("tilt_file.ies")
+    assert ph.tilt.geometry == 2
+    assert Path(ph.tilt.origin) == DATA / "tilt_file.tlt"
+    assert P.tilt_factor(ph, 67.5) == pytest.approx(0.8)
+    # parse_lm63 with base_dir finds the tilt file the same way
+    text = (DATA / "tilt_file.ies").read_text()
+    assert P.parse_lm63(text, "x.ies", base_dir=DATA).tilt.geometry == 2
+
+
+# --------------------------------------------------------------------------------------------
+# Malformed files: InputError naming the file and the line
+# --------------------------------------------------------------------------------------------
+
+MALFORMED = [
+    ("bad_truncated.ies", 10, "truncated"),
+    ("bad_nonnumeric.ies", 7, "'9O'"),
+    ("bad_negative_cd.ies", 10, "negative candela"),
+    ("bad_type_4.ies", 5, "unknown photometric type 4"),
+    ("bad_type_a.ies", 5, "type A) is not supported"),
+    ("bad_angle_order.ies", 8, "vertical angles must increase"),
+    ("bad_vertical_range.ies", 7, "must start at 0 or 90"),
+    ("bad_horizontal_range.ies", 8, "not one of the LM-63 symmetry cases"),
+    ("bad_extra_values.ies", 12, "do not match the data"),
+    ("bad_count_not_integer.ies", 5, "whole number"),
+    ("bad_units.ies", 5, "units type 3"),
+    ("bad_lumens_zero.ies", 5, "-1 for absolute photometry"),
+    ("bad_no_tilt.ies", 8, "no TILT= line"),
+    ("bad_tilt_file_missing.ies", 3, "cannot read the tilt file"),
+    ("bad_tilt_truncated.ies", 7, "truncated"),
+    ("bad_edition.ies", 1, "unknown LM-63 edition"),
+    ("bad_type_b_range.ies", 7, "type B horizontal angles must end at 90"),
+]
+
+
+@pytest.mark.parametrize("name, line, fragment", MALFORMED)
+def test_malformed_file_names_file_and_line(name, line, fragment):
+    with pytest.raises(InputError) as info:
+        read(name)
+    (problem,) = info.value.problems
+    assert problem.source == str(DATA / name)
+    assert problem.where == f"line {line}"
+    assert fragment in problem.message
+
+
+def test_missing_file_is_input_error(tmp_path):
+    with pytest.raises(InputError) as info:
+        P.read_lm63(tmp_path / "absent.ies")
+    assert "cannot read" in str(info.value)
+
+
+# --------------------------------------------------------------------------------------------
+# Flux, ULOR, peak
+# --------------------------------------------------------------------------------------------
+
+
+def test_isotropic_flux_is_4_pi_i(tmp_path):
+    # analytic: Φ = ∮ I dΩ = 4π I for constant I; half of it above the horizontal.
+    ph = lm63_from_function(tmp_path, lambda h, v: 123.0, np.arange(0, 181, 7.5))
+    assert P.luminous_flux_lm(ph) == pytest.approx(4 * math.pi * 123.0, rel=1e-12)
+    assert P.ulor(ph) == pytest.approx(0.5, abs=1e-12)
+
+
+def test_builtin_isotropic():
+    ph = P.load_photometry("generic-isotropic")
+    i_cd = float(ph.candela_cd[0, 0])
+    assert np.all(ph.candela_cd == i_cd)
+    assert P.luminous_flux_lm(ph) == pytest.approx(4 * math.pi * i_cd, rel=1e-12)  # analytic 4πI
+    assert P.ulor(ph) == pytest.approx(0.5, abs=1e-12)
+    assert P.luminous_flux_lm(ph) == pytest.approx(ph.rated_lumens_lm, rel=1e-6)
+
+
+@pytest.mark.parametrize("step_deg, rel", [(5.0, 1e-3), (2.5, 2.5e-4), (0.5, 1e-5)])
+def test_lambertian_flux_is_pi_i0(tmp_path, step_deg, rel):
+    # analytic: ∫0^2π ∫0^π/2 I0 cos γ sin γ dγ dC = π I0. The table is the piecewise-linear
+    # interpolant of cos γ, so the error falls as step²: |error| ≤ step²/8 · I0 pointwise
+    # (linear interpolation bound), which gives the tolerances used.
+    i0 = 800.0
+    ph = lm63_from_function(tmp_path, lambda h, v: i0 * math.cos(math.radians(v)),
+                            np.linspace(0, 90, int(round(90 / step_deg)) + 1), horizontal_deg=(0, 90))
+    assert P.luminous_flux_lm(ph) == pytest.approx(math.pi * i0, rel=rel)
+    assert P.ulor(ph) == 0.0
+
+
+def test_flux_matches_scipy_quadrature_of_the_interpolant():
+    # scipy.integrate.quad over the interpolated table must agree with the exact cell formula.
+    from scipy.integrate import dblquad
+
+    ph = read("bilateral_90_270.ies")
+    ref, _ = dblquad(lambda g, c: P.intensity_cd(ph, math.degrees(c), math.degrees(g)) * math.sin(g),
+                     0.0, 2 * math.pi, 0.0, math.pi / 2, epsabs=1e-6, epsrel=1e-9)
+    assert P.luminous_flux_lm(ph) == pytest.approx(ref, rel=1e-6)
+
+
+def test_zonal_flux_with_a_split_inside_a_cell():
+    # a zone limit inside a table cell (60° in the 45..90 cell): the partial-cell formula must
+    # agree with scipy.integrate.quad of the interpolated table (times 2π: one C plane).
+    import scipy.integrate
+
+    ph = read("rotational_1995.ies")
+    lower, _ = scipy.integrate.quad(lambda g: P.intensity_cd(ph, 0.0, math.degrees(g)) * math.sin(g),
+                                    0.0, math.radians(60.0), points=[math.radians(45.0)])
+    assert P.zonal_flux_lm(ph, 0.0, 60.0) == pytest.approx(2 * math.pi * lower, rel=1e-9)
+
+
+def test_builtin_full_cutoff_has_no_uplight():
+    # ULOR = Φ(γ > 90°)/Φ: a table that ends at γ = 90° with I(90°) = 0 has none.
+    ph = P.load_photometry("generic-full-cutoff")
+    assert ph.vertical_range == "downward"
+    assert np.all(ph.candela_cd[:, -1] == 0.0)
+    assert P.ulor(ph) == 0.0
+    assert ph.symmetry == "quadrant"
+
+
+def test_builtin_post_top_has_some_uplight():
+    ph = P.load_photometry("generic-post-top")
+    assert ph.symmetry == "rotational"
+    assert 0.05 < P.ulor(ph) < 0.3
+
+
+def test_builtin_road_optic_properties():
+    # Properties the README states for the road model: cut off above 80°, more flux to the
+    # street side (C 0..180, y > 0) than to the house side, symmetric along the road.
+    ph = P.load_photometry("generic-road-asymmetric")
+    assert np.all(P.intensity_cd(ph, np.arange(0, 360, 5.0), 80.0) == 0.0)
+    assert P.ulor(ph) == 0.0
+    c = np.arange(0.0, 360.0, 1.0)
+    g = np.arange(0.0, 90.0, 1.0)
+    cc, gg = np.meshgrid(c, g, indexing="ij")
+    dense = P.intensity_cd(ph, cc, gg) * np.sin(np.radians(gg))
+    street = dense[(cc > 0) & (cc < 180)].sum()
+    house = dense[cc > 180].sum()
+    assert street > 1.5 * house
+    np.testing.assert_allclose(P.intensity_cd(ph, 30.0, g), P.intensity_cd(ph, 150.0, g), rtol=1e-6)
+
+
+@pytest.mark.parametrize("ident", ["generic-road-asymmetric", "generic-post-top",
+                                   "generic-full-cutoff", "generic-isotropic"])
+def test_builtin_files_are_generic_and_integrate_to_rated_lumens(ident):
+    ph = P.load_photometry(ident)
+    assert "not a product" in ph.keywords["TEST"] and "not a product" in ph.keywords["MANUFAC"]
+    # the README's convention: rated lumens = emitted flux (values rounded to 1e-5 cd)
+    assert P.luminous_flux_lm(ph) == pytest.approx(ph.rated_lumens_lm, rel=1e-6)
+
+
+def test_builtin_files_regenerate_identically(monkeypatch):
+    # provenance: the shipped files are exactly what the documented models produce
+    import importlib.util
+    import sys
+
+    spec = importlib.util.spec_from_file_location(
+        "make_generic_photometry", Path(__file__).parents[1] / "tools" / "make_generic_photometry.py")
+    tool = importlib.util.module_from_spec(spec)
+    monkeypatch.setitem(sys.modules, spec.name, tool)  # dataclasses look their module up there
+    spec.loader.exec_module(tool)
+    for ident, text in tool.build_all().items():
+        assert (P.BUILTIN_PHOTOMETRY_DIR / f"{ident}.ies").read_text() == text, ident
+
+
+def test_peak_intensity():
+    ph = read("bilateral_90_270.ies")
+    assert P.peak_intensity(ph) == (300.0, 90.0, 0.0)
+
+
+# --------------------------------------------------------------------------------------------
+# Orientation
+# --------------------------------------------------------------------------------------------
+
+
+def test_rotation_matrix_is_proper_orthonormal():
+    for rot, tilt in [(0, 0), (37, 12), (-120, -25), (180, 90)]:
+        r = P.luminaire_rotation(rot, tilt)
+        np.testing.assert_allclose(r @ r.T, np.eye(3), atol=1e-14)
+        assert np.linalg.det(r) == pytest.approx(1.0)
+
+
+def test_world_to_c_gamma_basic_directions():
+    r = P.luminaire_rotation(0.0, 0.0)
+    c, g = P.world_to_c_gamma([[0, 0, -1], [0, 1, 0], [1, 0, 0], [0, 0, 1], [-1, 0, -1]], r)
+    np.testing.assert_allclose(g, [0, 90, 90, 180, 45], atol=1e-12)   # straight down = γ 0
+    np.testing.assert_allclose(c[1:3], [90, 0], atol=1e-12)           # local +y = C 90, γ 90
+    assert c[4] == pytest.approx(180.0)
+
+
+def test_rotation_about_vertical():
+    # rotation 90° anticlockwise: the luminaire's C 90 (street side) points to world -x.
+    r = P.luminaire_rotation(90.0, 0.0)
+    c, g = P.world_to_c_gamma([[-1.0, 0.0, 0.0], [0.0, 1.0, 0.0]], r)
+    np.testing.assert_allclose(c, [90.0, 0.0], atol=1e-9)
+    np.testing.assert_allclose(g, [90.0, 90.0], atol=1e-9)
+
+
+def test_tilt_raises_the_street_side():
+    # tilt 20°: the optic's nadir axis swings toward C 90 (world +y); world straight down is
+    # then 20° from the axis on the house side (C 270).
+    r = P.luminaire_rotation(0.0, 20.0)
+    axis = r @ np.array([0.0, 0.0, -1.0])
+    assert axis[1] > 0 and axis[2] == pytest.approx(-math.cos(math.radians(20)))
+    c, g = P.world_to_c_gamma([axis, [0.0, 0.0, -1.0]], r)
+    assert g[0] == pytest.approx(0.0, abs=1e-9)
+    assert (c[1], g[1]) == (pytest.approx(270.0), pytest.approx(20.0))
+    # the street-side edge of the opening (local +y) rises
+    assert (r @ np.array([0.0, 1.0, 0.0]))[2] > 0
+
+
+def test_rotation_and_tilt_combined():
+    # tilt is about the luminaire's own x axis, then the whole luminaire turns: with rotation
+    # 90° the street side is world -x, so a 20° tilt swings the nadir axis toward -x.
+    s, c = math.sin(math.radians(20)), math.cos(math.radians(20))
+    r = P.luminaire_rotation(90.0, 20.0)
+    np.testing.assert_allclose(r @ np.array([0.0, 0.0, -1.0]), [-s, 0.0, -c], atol=1e-12)
+    cc, gg = P.world_to_c_gamma([[-s, 0.0, -c], [0.0, 1.0, 0.0]], r)
+    assert gg[0] == pytest.approx(0.0, abs=1e-9)
+    # the tilt axis (local x, C 0) is untouched by the tilt and turned to world +y
+    assert (cc[1], gg[1]) == (pytest.approx(0.0, abs=1e-9), pytest.approx(90.0))
+
+
+def test_numba_kernels_agree_with_numpy():
+    rng = np.random.default_rng(4)
+    d = rng.normal(size=(200, 3))
+    r = P.luminaire_rotation(33.0, 17.0)
+    c, g = P.world_to_c_gamma(d, r)
+    ph = read("bilateral_90_270.ies")
+    tables = P.lookup_tables(ph)
+    ref = P.intensity_cd(ph, c, g)
+    for k in range(len(d)):
+        ck, gk = P.direction_to_c_gamma(r, *d[k])
+        assert (ck, gk) == (pytest.approx(c[k], abs=1e-9), pytest.approx(g[k], abs=1e-9))
+        assert P.intensity_lookup(*tables, ck, gk) == pytest.approx(ref[k], abs=1e-9)
+        assert P.intensity_toward(r, *tables, *d[k]) == pytest.approx(ref[k], abs=1e-9)
+
+
+# --------------------------------------------------------------------------------------------
+# Type B
+# --------------------------------------------------------------------------------------------
+
+
+def test_type_b_values_on_the_axes():
+    # H = V = 0 is the beam axis (γ 0); V toward C 90, H toward C 0 (lampcast's placement).
+    ph = read("type_b_2002.ies")
+    assert ph.photometric_type == "B" and ph.symmetry == "b-h"
+    assert P.intensity_cd(ph, 0.0, 0.0) == pytest.approx(100.0)
+    assert P.intensity_cd(ph, 90.0, 45.0) == pytest.approx(60.0)    # H 0, V +45
+    assert P.intensity_cd(ph, 270.0, 45.0) == pytest.approx(50.0)   # H 0, V -45
+    assert P.intensity_cd(ph, 0.0, 30.0) == pytest.approx(80.0)     # H +30, V 0
+    assert P.intensity_cd(ph, 180.0, 30.0) == pytest.approx(80.0)   # H -30 mirrored
+    assert P.intensity_cd(ph, 0.0, 120.0) == 0.0                    # behind the floodlight
+
+
+def test_type_b_angle_conversion_round_trip():
+    h = np.array([0.0, 30.0, -60.0, 10.0, 89.0])
+    v = np.array([0.0, 45.0, -20.0, -80.0, 5.0])
+    c, g = P.type_b_to_c_gamma(h, v)
+    h2, v2 = P.c_gamma_to_type_b(c, g)
+    np.testing.assert_allclose(h2, h, atol=1e-9)
+    np.testing.assert_allclose(v2, v, atol=1e-9)
+
+
+def test_type_b_floodlight_at_tilt_90_is_in_its_test_position():
+    # aimed with tilt 90°, the beam is horizontal toward world +y and V = +30° points 30° up.
+    c, g = P.type_b_to_c_gamma(0.0, 30.0)
+    d_local = P.c_gamma_to_direction(c, g)
+    d_world = P.luminaire_rotation(0.0, 90.0) @ d_local
+    np.testing.assert_allclose(d_world, [0.0, math.cos(math.radians(30)), math.sin(math.radians(30))], atol=1e-12)
+
+
+def test_type_b_hemisphere_fluxes(tmp_path):
+    # constant I over the front hemisphere -> 2πI; I0 cos H cos V = I0 cos(angle from the beam)
+    # -> π I0 (analytic). The resampled table must keep these within the interpolation error.
+    v = np.arange(-90.0, 90.1, 5.0)
+    const = lm63_from_function(tmp_path, lambda h, vv: 50.0, v, horizontal_deg=np.arange(-90.0, 90.1, 5.0),
+                               name="b1.ies", ptype=2)
+    assert P.luminous_flux_lm(const) == pytest.approx(2 * math.pi * 50.0, rel=1e-9)
+    lam = lm63_from_function(tmp_path, lambda h, vv: 50.0 * math.cos(math.radians(h)) * math.cos(math.radians(vv)),
+                             np.arange(0.0, 90.1, 2.5), horizontal_deg=np.arange(0.0, 90.1, 2.5),
+                             name="b2.ies", ptype=2)
+    assert lam.symmetry == "b-hv"
+    assert P.luminous_flux_lm(lam) == pytest.approx(math.pi * 50.0, rel=2e-3)
+
+
+# --------------------------------------------------------------------------------------------
+# Loading by id, summary, plot
+# --------------------------------------------------------------------------------------------
+
+
+def test_builtin_ids_and_loading(tmp_path):
+    ids = P.builtin_photometry_ids()
+    assert ids == ["generic-full-cutoff", "generic-isotropic", "generic-post-top", "generic-road-asymmetric"]
+    assert P.load_photometry("rotational_1995.ies", base_dir=DATA).edition == "LM-63-1995"
+    assert P.load_photometry(DATA / "upward_only.ies").vertical_range == "upward"
+    with pytest.raises(InputError) as info:
+        P.load_photometry("generic-road-asymetric")
+    assert "did you mean 'generic-road-asymmetric'" in str(info.value)
+
+
+def test_summary_and_text():
+    s = P.summarise(P.load_photometry("generic-isotropic"))
+    assert s["flux_ratio"] == pytest.approx(1.0, abs=1e-6)
+    assert s["ulor"] == pytest.approx(0.5)
+    assert s["symmetry"] == "rotational" and s["photometric_type"] == "C"
+    text = P.format_summary(s)
+    assert "ULOR" in text and "1000.0 lm" in text
+    absolute = P.format_summary(P.summarise(read("absolute_2002.ies")))
+    assert "absolute photometry" in absolute
+
+
+def test_plot_polar_writes_png_atomically(tmp_path):
+    out = tmp_path / "plots" / "road.png"
+    P.plot_polar(P.load_photometry("generic-road-asymmetric"), out)
+    assert out.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    assert [p.name for p in out.parent.iterdir()] == ["road.png"]   # no temporary file left
+    text = P.describe_photometry_file("absolute_2002.ies", base_dir=DATA, plot_path=tmp_path / "abs.png")
+    assert (tmp_path / "abs.png").is_file() and "polar plot" in text
