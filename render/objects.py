@@ -1,0 +1,1114 @@
+"""Parametric street objects: bins, cars, trees, hedges, bollards, shelters, signs, people,
+lamp columns and building frontages, as :class:`render.shapes.Part` lists with named slots.
+
+Every builder works in a local frame: origin at the centre of the ground contact, +x the
+object's forward direction, y to its left, z up, metres; the lowest point is at z = 0. Place
+the result with :func:`render.shapes.transform_parts` (``heading_deg`` turns local +x towards
+world +y). What "forward" means per object:
+
+- car, wheelie bin, pedestrian: the way it faces (bonnet, bin front lip, face);
+- hedge: along its length;
+- bus shelter, sign, house/shop front: the side that faces the street (open side, sign face,
+  facade), so that their length/width runs along local y;
+- lamp column: the direction of the bracket arm (over the road).
+
+Typical dimensions are common practice with no single source; each default says so. Bad
+parameters raise :class:`ParameterError` (a ``ValueError`` carrying the parameter name); the
+scene loader validates ``[[objects]]`` entries with :func:`validate_params` against
+:data:`OBJECT_BUILDERS` and reports key paths itself.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any, Callable, NamedTuple
+
+import numpy as np
+
+from . import shapes as sh
+from .errors import did_you_mean
+from .shapes import Part
+
+__all__ = [
+    "ParameterError",
+    "ParamSpec",
+    "ObjectKind",
+    "BuiltObject",
+    "LightOpening",
+    "LampColumn",
+    "wheelie_bin",
+    "car",
+    "tree",
+    "hedge",
+    "bollard",
+    "bus_shelter",
+    "sign",
+    "pedestrian",
+    "lamp_column",
+    "house_front",
+    "shop_front",
+    "OBJECT_BUILDERS",
+    "validate_params",
+    "build_object",
+    "CAR_STYLES",
+    "BIN_SIZES",
+]
+
+
+class ParameterError(ValueError):
+    """A bad builder parameter; ``key`` names it (``""`` if several are involved)."""
+
+    def __init__(self, key: str, message: str):
+        self.key = key
+        self.message = message
+        super().__init__(f"{key}: {message}" if key else message)
+
+
+# ---------------------------------------------------------------------------------------------
+# Small helpers
+# ---------------------------------------------------------------------------------------------
+
+
+def _num(key: str, value, lo: float | None = None, hi: float | None = None, *, lo_open: bool = False) -> float:
+    if isinstance(value, bool) or not isinstance(value, (int, float, np.integer, np.floating)):
+        raise ParameterError(key, f"expected a number, got {value!r}")
+    v = float(value)
+    if not math.isfinite(v):
+        raise ParameterError(key, f"expected a finite number, got {value!r}")
+    if lo is not None and (v < lo or (lo_open and v == lo)):
+        raise ParameterError(key, f"must be {'>' if lo_open else '>='} {lo:g}, got {v:g}")
+    if hi is not None and v > hi:
+        raise ParameterError(key, f"must be <= {hi:g}, got {v:g}")
+    return v
+
+
+def _choice(key: str, value, choices) -> Any:
+    if value not in choices:
+        raise ParameterError(key, f"expected one of {', '.join(map(repr, choices))}, got {value!r}"
+                             + (did_you_mean(str(value), map(str, choices)) if isinstance(value, str) else ""))
+    return value
+
+
+def _extrude_xz(profile_xz, y_min: float, y_max: float, slot: str, cap_slot: str | None = None) -> list[Part]:
+    """Extrude a side-view outline (x, z) across y from ``y_min`` to ``y_max``."""
+    parts = sh.extrude(profile_xz, y_max - y_min, slot=slot, top_slot=cap_slot, bottom_slot=cap_slot)
+    # (a, b, c) -> (a, -c, b) is a proper rotation: c in [0, w] maps to y in [-w, 0].
+    m = np.array([[1.0, 0.0, 0.0], [0.0, 0.0, -1.0], [0.0, 1.0, 0.0]])
+    return sh.affine_parts(parts, m, (0.0, y_max, 0.0))
+
+
+def _extrude_yz(outline_yz, x_min: float, x_max: float, slot: str, front_slot: str | None = None) -> list[Part]:
+    """Extrude a front-view outline (y, z) along x from ``x_min`` to ``x_max``; the +x cap gets
+    ``front_slot``."""
+    parts = sh.extrude(outline_yz, x_max - x_min, slot=slot, top_slot=front_slot)
+    # (a, b, c) -> (c, a, b): a cyclic permutation of the axes, a proper rotation.
+    m = np.array([[0.0, 0.0, 1.0], [1.0, 0.0, 0.0], [0.0, 1.0, 0.0]])
+    return sh.affine_parts(parts, m, (x_min, 0.0, 0.0))
+
+
+def _rect_panel_x(x: float, y0: float, y1: float, z0: float, z1: float, slot: str) -> list[Part]:
+    """A one-sided rectangle in the plane x = const, facing +x."""
+    return sh.quad((x, y0, z0), (x, y1, z0), (x, y1, z1), (x, y0, z1), slot=slot)
+
+
+def _rect_panel_minus_x(x: float, y0: float, y1: float, z0: float, z1: float, slot: str) -> list[Part]:
+    return sh.quad((x, y1, z0), (x, y0, z0), (x, y0, z1), (x, y1, z1), slot=slot)
+
+
+# ---------------------------------------------------------------------------------------------
+# Wheelie bins
+# ---------------------------------------------------------------------------------------------
+
+# Approximate outer dimensions of wheeled waste containers (height, width across, depth
+# front-to-back, metres) and wheel count: common practice, no source (typical catalogue values
+# for EN 840 containers, from memory).
+BIN_SIZES: dict[int, dict[str, float]] = {
+    120: dict(height_m=0.93, width_m=0.48, depth_m=0.55, wheels=2),
+    240: dict(height_m=1.07, width_m=0.58, depth_m=0.74, wheels=2),
+    360: dict(height_m=1.10, width_m=0.60, depth_m=0.88, wheels=2),
+    660: dict(height_m=1.25, width_m=1.26, depth_m=0.78, wheels=4),
+    1100: dict(height_m=1.37, width_m=1.37, depth_m=1.08, wheels=4),
+}
+
+
+def wheelie_bin(capacity_l: int = 240, *, segments: int = 12) -> list[Part]:
+    """A wheeled waste container.
+
+    Parameters
+    ----------
+    capacity_l
+        Nominal volume in litres: 120, 240, 360 (two wheels at the back, handle at the back) or
+        660, 1100 (four castors). Outer sizes in :data:`BIN_SIZES` (common practice, no source).
+
+    Slots ``body``, ``lid``, ``wheels``. Forward (+x) is the front lip, away from the handle.
+    Overall bounds: x ±depth/2, y ±width/2, z 0..height.
+    """
+    cap = _choice("capacity_l", capacity_l, tuple(BIN_SIZES))
+    d = BIN_SIZES[cap]
+    h, w, dep = d["height_m"], d["width_m"], d["depth_m"]
+    lid_t = 0.04
+    parts: list[Part] = []
+    if d["wheels"] == 2:
+        r = 0.10  # 200 mm wheels (common practice, no source)
+        ww = 0.05
+        bottom = (-dep / 2 + 0.12, dep / 2 - 0.08, w / 2 - 0.045)
+        top = (-dep / 2 + 0.05, dep / 2 - 0.02, w / 2 - 0.01)
+        z0 = 0.0
+        wheel_centres = [(-dep / 2 + r, sgn * (w / 2 - 0.025 - ww / 2), r) for sgn in (1, -1)]
+        axis = [(0.0, ww / 2, 0.0)] * 2
+        # Handle bar across the back, just under the lid.
+        parts += sh.box(min_m=(-dep / 2, -w / 2 + 0.06, h - lid_t - 0.06),
+                        max_m=(-dep / 2 + 0.05, w / 2 - 0.06, h - lid_t), slot="body")
+    else:
+        r = 0.10  # 200 mm castors (common practice, no source)
+        ww = 0.05
+        z0 = 0.24
+        bottom = (-dep / 2 + 0.06, dep / 2 - 0.06, w / 2 - 0.06)
+        top = (-dep / 2 + 0.02, dep / 2 - 0.02, w / 2 - 0.01)
+        cx, cy = dep / 2 - 0.16, w / 2 - 0.16
+        wheel_centres = [(sx * cx, sy * cy, r) for sx in (1, -1) for sy in (1, -1)]
+        axis = [(0.0, ww / 2, 0.0)] * 4
+        for sx in (1, -1):
+            for sy in (1, -1):  # castor forks from the wheel hub up to the body
+                parts += sh.box(min_m=(sx * cx - 0.04, sy * cy - 0.045, r),
+                                max_m=(sx * cx + 0.04, sy * cy + 0.045, z0 + 0.01), slot="body")
+    zt = h - lid_t
+    corners = []
+    for i in range(8):
+        ix, iy, iz = i & 1, (i >> 1) & 1, (i >> 2) & 1
+        x0, x1, hy = top if iz else bottom
+        corners.append((x1 if ix else x0, hy if iy else -hy, zt if iz else z0))
+    parts += sh.hexahedron(corners, slot="body")
+    lid_x0 = -dep / 2 + 0.03 if d["wheels"] == 2 else -dep / 2
+    parts += sh.box(min_m=(lid_x0, -w / 2, zt), max_m=(dep / 2, w / 2, h), slot="lid")
+    for (x, y, z), a in zip(wheel_centres, axis):
+        c = np.array([x, y, z])
+        parts += sh.cylinder(c - a, c + a, r, segments=segments, start_dir=(0, 0, -1), slot="wheels")
+    return sh.merge_parts(parts)
+
+
+# ---------------------------------------------------------------------------------------------
+# Cars
+# ---------------------------------------------------------------------------------------------
+
+# Body-style proportions: default overall length/width/height (m) and fractions of them
+# (common practice, no source: typical European cars of each style). Fractions of length u are
+# measured from the rear end; "cabin" = (base rear, roof rear, roof front, base front) of the
+# greenhouse side outline; "b_pillar" = u of the B-pillar; heights are fractions of height_m.
+CAR_STYLES: dict[str, dict[str, Any]] = {
+    "hatchback": dict(length_m=4.10, width_m=1.75, height_m=1.48, clearance=0.11, wheel_r=0.21, belt=0.60,
+                      front_overhang=0.20, rear_overhang=0.16, cabin=(0.02, 0.10, 0.60, 0.76), b_pillar=0.42,
+                      rear_glass=True, rear_side_glass=True, tail_dx=0.015, tumblehome=0.12),
+    "saloon": dict(length_m=4.70, width_m=1.82, height_m=1.45, clearance=0.10, wheel_r=0.22, belt=0.60,
+                   front_overhang=0.19, rear_overhang=0.22, cabin=(0.17, 0.30, 0.64, 0.77), b_pillar=0.48,
+                   rear_glass=True, rear_side_glass=True, tail_dx=0.02, tumblehome=0.12),
+    "estate": dict(length_m=4.75, width_m=1.82, height_m=1.50, clearance=0.10, wheel_r=0.22, belt=0.60,
+                   front_overhang=0.19, rear_overhang=0.21, cabin=(0.02, 0.05, 0.63, 0.77), b_pillar=0.47,
+                   rear_glass=True, rear_side_glass=True, tail_dx=0.015, tumblehome=0.10),
+    "suv": dict(length_m=4.50, width_m=1.85, height_m=1.68, clearance=0.12, wheel_r=0.21, belt=0.61,
+                front_overhang=0.19, rear_overhang=0.19, cabin=(0.02, 0.06, 0.64, 0.77), b_pillar=0.46,
+                rear_glass=True, rear_side_glass=True, tail_dx=0.015, tumblehome=0.10),
+    "van": dict(length_m=5.00, width_m=2.00, height_m=2.00, clearance=0.09, wheel_r=0.16, belt=0.50,
+                front_overhang=0.17, rear_overhang=0.19, cabin=(0.0, 0.0, 0.75, 0.85), b_pillar=0.64,
+                rear_glass=False, rear_side_glass=False, tail_dx=0.0, tumblehome=0.03),
+}
+
+
+def _inset_convex(poly: np.ndarray, d: float) -> np.ndarray:
+    """Offset a counter-clockwise convex polygon inward by ``d`` (edge lines moved in)."""
+    n = len(poly)
+    a = poly
+    b = np.roll(poly, -1, axis=0)
+    t = (b - a) / np.linalg.norm(b - a, axis=1, keepdims=True)
+    inward = np.stack([-t[:, 1], t[:, 0]], axis=1)
+    pa = a + inward * d
+    out = []
+    for i in range(n):
+        j = (i - 1) % n  # edge j ends at vertex i, edge i starts at it
+        p1, d1 = pa[j], t[j]
+        p2, d2 = pa[i], t[i]
+        den = d1[0] * d2[1] - d1[1] * d2[0]
+        if abs(den) < 1e-12:
+            out.append(p2)
+            continue
+        s = ((p2[0] - p1[0]) * d2[1] - (p2[1] - p1[1]) * d2[0]) / den
+        out.append(p1 + s * d1)
+    return np.array(out)
+
+
+def _clip_half_plane(poly: np.ndarray, axis: int, value: float, keep_greater: bool) -> np.ndarray:
+    """Sutherland–Hodgman clip of a convex polygon by ``coord[axis] >= value`` (or <=)."""
+    out = []
+    n = len(poly)
+    sign = 1.0 if keep_greater else -1.0
+    for i in range(n):
+        p, q = poly[i], poly[(i + 1) % n]
+        fp, fq = sign * (p[axis] - value), sign * (q[axis] - value)
+        if fp >= 0:
+            out.append(p)
+        if fp * fq < 0:
+            out.append(p + (q - p) * (fp / (fp - fq)))
+    return np.array(out).reshape(-1, 2)
+
+
+def car(body_style: str = "hatchback", length_m: float | None = None, width_m: float | None = None,
+        height_m: float | None = None, *, wheel_segments: int = 14) -> list[Part]:
+    """A recognisable low-poly car or van.
+
+    Parameters
+    ----------
+    body_style
+        ``"hatchback"``, ``"saloon"``, ``"estate"``, ``"van"`` (panel van) or ``"suv"``.
+    length_m, width_m, height_m
+        Overall size (excluding mirrors); defaults per style in :data:`CAR_STYLES` (common
+        practice, no source). The proportions (wheel size, beltline, greenhouse) scale with the
+        overall size.
+
+    Construction: the lower body is a chamfered side outline with wheel-arch notches extruded
+    across the width; the greenhouse is a trapezoid outline (sloped windscreen and rear window)
+    extruded across a narrower width and tapered towards the roof (tumblehome); glass panels
+    (windscreen, rear window, side windows split by a B-pillar) sit 6 mm proud; lights are
+    panels on the front and rear faces; wheels are cylinders touching the ground.
+
+    Slots ``body`` (paint), ``glass``, ``tyre``, ``rim`` (wheel discs), ``trim`` (black arch
+    liners), ``lights`` (front lamps), ``tail_lights``. Forward is +x; bounds x ±length/2, y ±width/2, z 0..height.
+    """
+    style = CAR_STYLES[_choice("body_style", body_style, tuple(CAR_STYLES))]
+    L = _num("length_m", style["length_m"] if length_m is None else length_m, 2.0, 8.0)
+    W = _num("width_m", style["width_m"] if width_m is None else width_m, 1.2, 2.8)
+    H = _num("height_m", style["height_m"] if height_m is None else height_m, 0.9, 3.5)
+    if not 2.2 <= L / H <= 4.5:
+        raise ParameterError("", f"length_m / height_m must be in 2.2..4.5 for a car shape, got {L / H:.2f}")
+    if not 0.8 <= W / H <= 2.2:
+        raise ParameterError("", f"width_m / height_m must be in 0.8..2.2 for a car shape, got {W / H:.2f}")
+    if not 2.0 <= L / W <= 3.5:
+        raise ParameterError("", f"length_m / width_m must be in 2.0..3.5 for a car shape, got {L / W:.2f}")
+
+    proud = 0.005                      # lights / glass stand this far off the body
+    xf, xr = L / 2 - proud, -L / 2 + proud
+    zc = style["clearance"] * H         # sill height
+    zb = style["belt"] * H              # beltline (top of the lower body)
+    r = style["wheel_r"] * H            # tyre radius
+    ra = 1.12 * r                       # wheel-arch radius
+    x_fa = L / 2 - style["front_overhang"] * L
+    x_ra = -L / 2 + style["rear_overhang"] * L
+    dzb = zb - zc
+    cf = 0.22 * dzb                     # front lower chamfer
+    cr = 0.15 * dzb                     # rear lower chamfer
+    z_nose = zc + 0.62 * dzb            # top of the front face
+    van = body_style == "van"
+    nose_dx = (0.03 if van else 0.06) * L
+    bonnet_drop = (0.05 if van else 0.12) * dzb
+    u = lambda f: -L / 2 + f * L  # noqa: E731
+    ub_r, ut_r, ut_f, ub_f = (u(f) for f in style["cabin"])
+    tail_dx = style["tail_dx"] * L
+    tail_drop = 0.0 if van else 0.05 * dzb
+
+    def arch(xw: float) -> list[tuple[float, float]]:
+        alpha = math.asin(min(1.0, (r - zc) / ra))
+        phis = np.linspace(math.pi + alpha, -alpha, 9)
+        return [(xw + ra * math.cos(p), r + ra * math.sin(p)) for p in phis]
+
+    lower = [(xr + cr, zc)] + arch(x_ra) + arch(x_fa) + [
+        (xf - cf, zc), (xf, zc + cf), (xf, z_nose), (xf - nose_dx, zb - bonnet_drop), (ub_f, zb),
+    ]
+    lower.append((xr + tail_dx, zb) if tail_dx > 0 else (xr, zb))
+    if tail_drop > 0:
+        lower.append((xr, zb - tail_drop))
+    lower.append((xr, zc + cr))
+    lower_np = np.array(lower)
+    if r + ra >= zb - 0.02 or x_fa + ra >= xf - cf or x_ra - ra <= xr + cr:
+        raise ParameterError("", "the requested proportions leave no room for the wheel arches")
+    parts: list[Part] = []
+    parts += _extrude_xz(lower_np, -W / 2, W / 2, "body")
+
+    # Greenhouse: side outline (counter-clockwise in x-z), extruded across wc and tapered.
+    ch, chx = 0.025 * H, 0.03 * L
+    xb_r = max(ub_r, xr)
+    cabin = [(xb_r, zb), (ub_f, zb), (ut_f, H - ch), (ut_f - chx, H), (ut_r + chx, H), (max(ut_r, xr), H - ch)]
+    if van:
+        cabin = [(xr, zb), (ub_f, zb), (ut_f, H - ch), (ut_f - chx, H), (xr + chx, H), (xr, H - ch)]
+    cabin_np = np.array(cabin)
+    wc = (0.985 if van else 0.94) * W
+    k_taper = style["tumblehome"]
+
+    def taper(y: np.ndarray, z: np.ndarray) -> np.ndarray:
+        return y * (1.0 - k_taper * np.clip((z - zb) / (H - zb), 0.0, 1.0))
+
+    cab_parts = _extrude_xz(cabin_np, -wc / 2, wc / 2, "body")
+    for p in cab_parts:
+        t = p.triangles_m.copy()
+        t[..., 1] = taper(t[..., 1], t[..., 2])
+        parts.append(sh.flat_part(t, p.slot))
+
+    # Glass. Windscreen on the cabin edge (ub_f, zb) -> (ut_f, H - ch); rear window on the edge
+    # (ut_r, H - ch) -> (xb_r, zb).
+    def sloped_glass(p0, p1, t0: float, t1: float, pillar: float) -> list[Part]:
+        p0, p1 = np.asarray(p0, float), np.asarray(p1, float)
+        d = p1 - p0
+        n2 = np.array([d[1], -d[0]]) / np.linalg.norm(d)  # outward of a counter-clockwise outline
+        pts = []
+        for t, sgn in ((t0, -1), (t0, 1), (t1, 1), (t1, -1)):
+            x, z = p0 + t * d + n2 * 0.006
+            hw = float(taper(np.array(wc / 2), np.array(z))) - pillar
+            pts.append((x, sgn * hw, z))
+        outward = (n2[0], 0.0, n2[1])
+        return sh.panel(pts, facing=outward, slot="glass")
+
+    parts += sloped_glass((ub_f, zb), (ut_f, H - ch), 0.07, 0.93, 0.07 * W)
+    if style["rear_glass"]:
+        parts += sloped_glass((cabin_np[-1, 0], H - ch), (xb_r, zb), 0.07, 0.90, 0.08 * W)
+    # Side windows: cabin outline inset, split at the B-pillar.
+    inset = _inset_convex(cabin_np, 0.05 * (H - zb) + 0.02)
+    x_b = u(style["b_pillar"])
+    windows = [_clip_half_plane(inset, 0, x_b + 0.04, True)]
+    if style["rear_side_glass"]:
+        windows.append(_clip_half_plane(inset, 0, x_b - 0.04, False))
+    for win in windows:
+        if len(win) < 3 or abs(sh.polygon_area_m2(win)) < 1e-4:
+            continue
+        for sgn in (1, -1):
+            y = sgn * (taper(np.full(len(win), wc / 2), win[:, 1]) + 0.006)
+            pts = np.column_stack([win[:, 0], y, win[:, 1]])
+            parts += sh.panel(pts, facing=(0.0, sgn, 0.0), slot="glass")
+
+    # Lights on the front face (x = L/2) and rear face (x = -L/2).
+    f = z_nose - (zc + cf)
+    for sgn in (1, -1):
+        y_out, y_in = sgn * 0.43 * W, sgn * 0.22 * W
+        y0, y1 = min(y_out, y_in), max(y_out, y_in)
+        parts += _rect_panel_x(L / 2, y0, y1, z_nose - 0.45 * f, z_nose - 0.08 * f, "lights")
+        g_top = zb - tail_drop - 0.05 * dzb
+        y_out, y_in = sgn * 0.46 * W, sgn * 0.30 * W
+        y0, y1 = min(y_out, y_in), max(y_out, y_in)
+        parts += _rect_panel_minus_x(-L / 2, y0, y1, g_top - 0.22 * dzb, g_top, "tail_lights")
+
+    # Wheels: outer face 15 mm inside the body side; a vertex at the bottom touches z = 0.
+    tw = 0.115 * W
+    for xw in (x_fa, x_ra):
+        liner = np.array(arch(xw))
+        for sgn in (1, -1):
+            # Arch liner just inboard of the tyre, so the arch does not show daylight.
+            y_l = sgn * (W / 2 - 0.015 - tw - 0.01)
+            parts += sh.panel(np.column_stack([liner[:, 0], np.full(len(liner), y_l), liner[:, 1]]),
+                              facing=(0.0, sgn, 0.0), slot="trim")
+            y_out = sgn * (W / 2 - 0.015)
+            y_in = sgn * (W / 2 - 0.015 - tw)
+            parts += sh.cylinder((xw, y_in, r), (xw, y_out, r), r, segments=wheel_segments, start_dir=(0, 0, -1),
+                                 slot="tyre")
+            disc = sh.lathe([[0.62 * r, 0.0], [0.0, 0.0]], base_m=(xw, y_out + sgn * 0.003, r), axis=(0, sgn, 0),
+                            segments=wheel_segments, capped=False, start_dir=(0, 0, -1), smooth=False, slot="rim")
+            parts += disc
+    return sh.merge_parts(parts)
+
+
+# ---------------------------------------------------------------------------------------------
+# Trees, hedges, bollards
+# ---------------------------------------------------------------------------------------------
+
+
+def tree(trunk_height_m: float = 2.5, trunk_radius_m: float = 0.15, canopy_radius_m: float = 2.0,
+         canopy_shape: str = "sphere", *, canopy_height_m: float | None = None, lumpiness: float = 0.08,
+         seed: int = 0, subdivisions: int = 2) -> list[Part]:
+    """A street tree: a tapered trunk and a closed canopy.
+
+    Parameters
+    ----------
+    trunk_height_m
+        Clear stem height: ground to the lowest point of the canopy (common practice for
+        street trees about 2–3 m, no source).
+    trunk_radius_m
+        Trunk radius at the ground (tapering to 70 % at the top).
+    canopy_radius_m
+        Horizontal radius of the canopy.
+    canopy_shape
+        ``"sphere"``, ``"ellipsoid"`` (vertical extent ``canopy_height_m``, default 1.5 × the
+        diameter) or ``"cone"`` (a conifer; height ``canopy_height_m``, default 2.5 × radius).
+    lumpiness
+        Relative radial irregularity of sphere/ellipsoid canopies (0 = smooth); deterministic
+        for a given ``seed``; the top and bottom points are kept in place.
+
+    Slots ``trunk``, ``canopy``. Overall height: trunk_height_m + canopy vertical extent.
+    """
+    th = _num("trunk_height_m", trunk_height_m, 0.0, 30.0, lo_open=True)
+    tr = _num("trunk_radius_m", trunk_radius_m, 0.0, 2.0, lo_open=True)
+    cr = _num("canopy_radius_m", canopy_radius_m, 0.0, 20.0, lo_open=True)
+    shape = _choice("canopy_shape", canopy_shape, ("sphere", "cone", "ellipsoid"))
+    lump = _num("lumpiness", lumpiness, 0.0, 0.3)
+    if tr >= cr:
+        raise ParameterError("trunk_radius_m", f"must be smaller than canopy_radius_m ({cr:g}), got {tr:g}")
+    if shape == "sphere":
+        if canopy_height_m is not None and abs(canopy_height_m - 2 * cr) > 1e-9:
+            raise ParameterError("canopy_height_m", "a spherical canopy is 2 × canopy_radius_m high; use 'ellipsoid'")
+        ch = 2 * cr
+    elif shape == "ellipsoid":
+        ch = 3.0 * cr if canopy_height_m is None else _num("canopy_height_m", canopy_height_m, 0.0, 40.0, lo_open=True)
+    else:
+        ch = 2.5 * cr if canopy_height_m is None else _num("canopy_height_m", canopy_height_m, 0.0, 40.0, lo_open=True)
+    parts: list[Part] = []
+    top_z = th + (0.5 * ch if shape != "cone" else 0.3 * ch)
+    parts += sh.frustum((0, 0, 0), (0, 0, top_z), tr, 0.7 * tr, segments=10, slot="trunk")
+    if shape == "cone":
+        prof = [[cr, th], [0.55 * cr, th + 0.45 * ch], [0.0, th + ch]]
+        parts += sh.lathe(prof, segments=28, slot="canopy")
+    else:
+        rng = np.random.default_rng(int(seed))
+        waves = rng.normal(size=(4, 3)) * 2.5
+        phases = rng.uniform(0, 2 * np.pi, size=4)
+
+        def warp(d: np.ndarray) -> np.ndarray:
+            g = np.mean(np.sin(d @ waves.T + phases), axis=1)  # in [-1, 1]
+            return 1.0 + lump * g * (1.0 - d[:, 2] ** 2)
+
+        parts += sh.ellipsoid((0, 0, th + ch / 2), (cr, cr, ch / 2), subdivisions=subdivisions,
+                              warp=warp if lump > 0 else None, slot="canopy")
+    return sh.merge_parts(parts)
+
+
+def hedge(length_m: float = 3.0, height_m: float = 1.2, depth_m: float = 0.8, *, roughness_m: float = 0.05,
+          spacing_m: float = 0.35, seed: int = 0) -> list[Part]:
+    """A clipped hedge: a closed block with a gently domed, slightly irregular top.
+
+    ``length_m`` runs along local x (forward), ``depth_m`` across (y); the top varies by up to
+    ``roughness_m`` (deterministic for ``seed``) and its highest point is exactly ``height_m``.
+    Slot ``foliage``.
+    """
+    L = _num("length_m", length_m, 0.0, 200.0, lo_open=True)
+    H = _num("height_m", height_m, 0.0, 10.0, lo_open=True)
+    D = _num("depth_m", depth_m, 0.0, 10.0, lo_open=True)
+    rough = _num("roughness_m", roughness_m, 0.0, None)
+    step = _num("spacing_m", spacing_m, 0.05, None)
+    if rough >= 0.5 * H:
+        raise ParameterError("roughness_m", f"must be below half of height_m ({H:g}), got {rough:g}")
+    nx = max(2, int(math.ceil(L / step)) + 1)
+    ny = 5
+    x = np.linspace(-L / 2, L / 2, nx)
+    y = np.linspace(-D / 2, D / 2, ny)
+    rng = np.random.default_rng(int(seed))
+    noise = rng.uniform(-1, 1, size=(nx, ny))
+    crown = 0.06 * min(D, H) * (2 * y / D) ** 2
+    z = H - rough * 0.5 * (1 + noise) - crown[None, :]
+    z += H - z.max()
+    top = np.stack(list(np.meshgrid(x, y, indexing="ij")) + [z], axis=-1)  # (nx, ny, 3)
+    a, b, c, d = top[:-1, :-1], top[1:, :-1], top[1:, 1:], top[:-1, 1:]
+    tris = [np.stack([a, b, c], -2).reshape(-1, 3, 3), np.stack([a, c, d], -2).reshape(-1, 3, 3)]
+    # Boundary loop, counter-clockwise seen from above.
+    loop = ([top[i, 0] for i in range(nx)] + [top[nx - 1, j] for j in range(1, ny)]
+            + [top[i, ny - 1] for i in range(nx - 2, -1, -1)] + [top[0, j] for j in range(ny - 2, 0, -1)])
+    loop = np.array(loop)
+    ground = loop.copy()
+    ground[:, 2] = 0.0
+    nxt = np.roll(np.arange(len(loop)), -1)
+    tris.append(np.stack([ground, ground[nxt], loop[nxt]], axis=1))
+    tris.append(np.stack([ground, loop[nxt], loop], axis=1))
+    idx = sh.triangulate_polygon(ground[:, :2])
+    tris.append(ground[idx][:, [0, 2, 1]])
+    return [sh.flat_part(np.concatenate(tris), "foliage")]
+
+
+def bollard(height_m: float = 0.9, radius_m: float = 0.08, *, band_height_m: float = 0.06,
+            segments: int = 16) -> list[Part]:
+    """A round street bollard with a chamfered top and a reflective band.
+
+    Typical 0.9–1.0 m high, 0.1–0.2 m diameter (common practice, no source). The band
+    (``band_height_m`` high, 2 mm proud) sits 0.1 m below the top. Slots ``post``, ``band``.
+    """
+    h = _num("height_m", height_m, 0.2, 3.0)
+    r = _num("radius_m", radius_m, 0.01, 1.0)
+    bh = _num("band_height_m", band_height_m, 0.0, None, lo_open=True)
+    if bh + 0.1 + 0.2 * r >= h:
+        raise ParameterError("band_height_m", "the band does not fit below the top")
+    ch = min(0.2 * r, 0.3 * h)
+    parts = sh.lathe([[r, 0.0], [r, h - ch], [0.75 * r, h]], segments=segments, slot="post")
+    z1 = h - ch - 0.1 + 0.2 * r
+    z1 = min(z1, h - ch - 0.005)
+    parts += sh.cylinder((0, 0, z1 - bh), (0, 0, z1), r + 0.002, segments=segments, slot="band")
+    return sh.merge_parts(parts)
+
+
+# ---------------------------------------------------------------------------------------------
+# Bus shelter, sign, pedestrian
+# ---------------------------------------------------------------------------------------------
+
+
+def bus_shelter(length_m: float = 4.0, depth_m: float = 1.5, height_m: float = 2.5) -> list[Part]:
+    """A glazed bus shelter open at the front (+x), its length along local y.
+
+    Typical 3–6 m long, 1.3–1.8 m deep, about 2.5 m high (common practice, no source).
+    Four corner posts and top rails (``frame``), a flat roof slab (``roof``), glass back and
+    end panels (``glass``) and a bench against the back (``bench``). Bounds: x ±depth/2,
+    y ±length/2, z 0..height.
+    """
+    L = _num("length_m", length_m, 1.0, 20.0)
+    D = _num("depth_m", depth_m, 0.6, 5.0)
+    H = _num("height_m", height_m, 2.0, 5.0)
+    p = 0.06          # post section
+    roof_t = 0.08
+    zr = H - roof_t
+    parts: list[Part] = []
+    for sx in (1, -1):
+        for sy in (1, -1):
+            x0 = D / 2 - p if sx > 0 else -D / 2
+            y0 = L / 2 - p if sy > 0 else -L / 2
+            parts += sh.box(min_m=(x0, y0, 0.0), max_m=(x0 + p, y0 + p, zr), slot="frame")
+    rail = 0.1
+    for x0 in (-D / 2, D / 2 - p):
+        parts += sh.box(min_m=(x0, -L / 2 + p, zr - rail), max_m=(x0 + p, L / 2 - p, zr), slot="frame")
+    for y0 in (-L / 2, L / 2 - p):
+        parts += sh.box(min_m=(-D / 2 + p, y0, zr - rail), max_m=(D / 2 - p, y0 + p, zr), slot="frame")
+    parts += sh.box(min_m=(-D / 2, -L / 2, zr), max_m=(D / 2, L / 2, H), slot="roof")
+    g = 0.01
+    gz0, gz1 = 0.1, zr - rail
+    parts += sh.box(min_m=(-D / 2 + p / 2 - g / 2, -L / 2 + p, gz0), max_m=(-D / 2 + p / 2 + g / 2, L / 2 - p, gz1),
+                    slot="glass")
+    for sy in (1, -1):
+        yc = sy * (L / 2 - p / 2)
+        parts += sh.box(min_m=(-D / 2 + p, yc - g / 2, gz0), max_m=(D / 2 - p, yc + g / 2, gz1), slot="glass")
+    bench_len = min(2.0, L - 2 * p - 0.4)
+    if bench_len > 0.4:
+        bx0, bx1 = -D / 2 + p + 0.05, -D / 2 + p + 0.40
+        parts += sh.box(min_m=(bx0, -bench_len / 2, 0.43), max_m=(bx1, bench_len / 2, 0.48), slot="bench")
+        for sy in (1, -1):
+            yc = sy * (bench_len / 2 - 0.1)
+            parts += sh.box(min_m=(bx0 + 0.1, yc - 0.03, 0.0), max_m=(bx0 + 0.16, yc + 0.03, 0.43), slot="bench")
+    return sh.merge_parts(parts)
+
+
+def sign(height_m: float = 2.7, panel_width_m: float = 0.6, panel_height_m: float = 0.6, shape: str = "rect", *,
+         pole_radius_m: float = 0.038, thickness_m: float = 0.004) -> list[Part]:
+    """A post-mounted traffic sign facing +x.
+
+    ``height_m`` is the top of the panel above ground; the panel (``panel_width_m`` across y,
+    ``panel_height_m`` up) is centred on the post and hung just in front of it. ``shape``:
+    ``"rect"``, ``"circle"`` (an ellipse if width ≠ height) or ``"triangle"`` (apex up).
+    Typical lower edge 2.1 m above a footway, 76 mm posts (common practice, no source).
+    Slots ``pole``, ``panel`` (the sign face), ``back`` (rear and edges).
+    """
+    h = _num("height_m", height_m, 0.3, 10.0)
+    pw = _num("panel_width_m", panel_width_m, 0.05, 5.0)
+    ph = _num("panel_height_m", panel_height_m, 0.05, 5.0)
+    kind = _choice("shape", shape, ("rect", "circle", "triangle"))
+    rp = _num("pole_radius_m", pole_radius_m, 0.005, 0.3)
+    t = _num("thickness_m", thickness_m, 0.0005, 0.1)
+    if ph >= h:
+        raise ParameterError("panel_height_m", f"must be below height_m ({h:g}), got {ph:g}")
+    zc = h - ph / 2
+    if kind == "rect":
+        outline = [(-pw / 2, h - ph), (pw / 2, h - ph), (pw / 2, h), (-pw / 2, h)]
+    elif kind == "circle":
+        a = 2 * np.pi * np.arange(32) / 32
+        outline = np.column_stack([pw / 2 * np.sin(a), zc + ph / 2 * np.cos(a)])
+    else:
+        outline = [(-pw / 2, h - ph), (pw / 2, h - ph), (0.0, h)]
+    parts = _extrude_yz(outline, rp + 0.005, rp + 0.005 + t, "back", front_slot="panel")
+    top = h - 0.02 if kind != "triangle" else h - 0.3 * ph
+    parts += sh.cylinder((0, 0, 0), (0, 0, top), rp, segments=12, slot="pole")
+    return sh.merge_parts(parts)
+
+
+def pedestrian(height_m: float = 1.75) -> list[Part]:
+    """A simple standing figure facing +x, arms at the sides.
+
+    Proportions scale with ``height_m`` (rough adult proportions, common practice, no
+    source: crotch at 0.47 H, shoulders at 0.82 H, head 0.13 H). Slots ``legs``, ``torso``
+    (clothing), ``arms`` (sleeves), ``head`` (skin: head and neck). Top of head at height_m.
+    """
+    H = _num("height_m", height_m, 0.5, 2.5)
+    s = H / 1.75
+    parts: list[Part] = []
+    hip = 0.48 * H
+    for sgn in (1, -1):
+        parts += sh.lathe([[0.050 * s, 0.0], [0.062 * s, 0.25 * H], [0.080 * s, hip]], base_m=(0, sgn * 0.095 * s, 0),
+                          segments=8, slot="legs")
+    torso = sh.lathe([[0.150 * s, 0.0], [0.175 * s, 0.24 * H], [0.190 * s, 0.32 * H], [0.11 * s, 0.37 * H]],
+                     segments=12, slot="torso")
+    parts += sh.affine_parts(torso, np.diag([0.62, 1.0, 1.0]), (0.0, 0.0, hip - 0.02 * H))
+    sh_z = hip - 0.02 * H + 0.33 * H
+    for sgn in (1, -1):
+        parts += sh.frustum((0.0, sgn * 0.205 * s, sh_z), (0.02 * s, sgn * 0.235 * s, 0.47 * H), 0.045 * s, 0.035 * s,
+                            segments=8, slot="arms")
+    head_r = 0.115 * s
+    neck_top = H - 2 * head_r + 0.02 * s
+    parts += sh.cylinder((0, 0, sh_z - 0.03 * H), (0, 0, neck_top + 0.02 * s), 0.05 * s, segments=8, slot="head")
+    parts += sh.sphere((0.0, 0.0, H - head_r), head_r, subdivisions=1, slot="head")
+    return sh.merge_parts(parts)
+
+
+# ---------------------------------------------------------------------------------------------
+# Lamp column
+# ---------------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class LightOpening:
+    """Where a lantern's light leaves it, in the column's local frame.
+
+    Attributes
+    ----------
+    centre_m
+        Centre of the luminous opening (the lens face under the lantern), metres.
+    nadir
+        Unit vector out of the opening (straight down for zero tilt, turned towards +x by the
+        tilt): the photometric nadir, gamma = 0.
+    forward
+        Unit vector along the bracket arm in the lantern's plane (outreach direction after
+        tilt): the C = 0 direction for a lantern aimed across the road.
+    tilt_deg
+        Upward tilt of the lantern about the local y axis.
+    size_m
+        (length along ``forward``, width across) of the opening.
+    """
+
+    centre_m: np.ndarray
+    nadir: np.ndarray
+    forward: np.ndarray
+    tilt_deg: float
+    size_m: tuple[float, float]
+
+
+@dataclass
+class LampColumn:
+    parts: list[Part]
+    opening: LightOpening
+
+
+def lamp_column(height_m: float = 6.0, outreach_m: float = 0.5, arm_tilt_deg: float = 5.0, *,
+                base_radius_m: float = 0.07, top_radius_m: float = 0.04, arm_radius_m: float = 0.025,
+                housing_length_m: float = 0.6, housing_width_m: float = 0.28, housing_height_m: float = 0.1,
+                segments: int = 12) -> LampColumn:
+    """A street-light column with a straight bracket arm and a flat lantern.
+
+    Parameters
+    ----------
+    height_m
+        Mounting height: ground to the centre of the luminous opening (residential streets
+        typically 4–6 m, main roads 8–12 m; common practice, no source).
+    outreach_m
+        Horizontal distance from the column axis to the opening centre (typically 0–1.5 m);
+        0 gives a post-top lantern centred over the column.
+    arm_tilt_deg
+        Upward tilt of arm and lantern (typically 0–15°, common practice, no source).
+
+    Returns
+    -------
+    :class:`LampColumn` with ``parts`` (slots ``pole``, ``arm``, ``housing``, ``lens`` — the
+    lens is the opening face) and ``opening`` (:class:`LightOpening`, local frame; +x is the
+    arm direction). Parts lie at z >= 0 with the column base at the origin.
+    """
+    h = _num("height_m", height_m, 1.5, 30.0)
+    out = _num("outreach_m", outreach_m, 0.0, 6.0)
+    tilt = _num("arm_tilt_deg", arm_tilt_deg, -15.0, 45.0)
+    rb = _num("base_radius_m", base_radius_m, 0.01, 1.0)
+    rt = _num("top_radius_m", top_radius_m, 0.005, 1.0)
+    ra = _num("arm_radius_m", arm_radius_m, 0.005, 0.5)
+    hl = _num("housing_length_m", housing_length_m, 0.05, 3.0)
+    hw = _num("housing_width_m", housing_width_m, 0.05, 3.0)
+    hh = _num("housing_height_m", housing_height_m, 0.01, 1.0)
+    if rt > rb:
+        raise ParameterError("top_radius_m", f"must not exceed base_radius_m ({rb:g}), got {rt:g}")
+    t = math.radians(tilt)
+    f = np.array([math.cos(t), 0.0, math.sin(t)])   # along the arm
+    up = np.array([-math.sin(t), 0.0, math.cos(t)])  # lantern's up
+    y = np.array([0.0, 1.0, 0.0])
+    opening = np.array([out, 0.0, h])
+    rear = opening - f * hl / 2 + up * hh / 2      # where the arm meets the lantern
+    parts: list[Part] = []
+    if rear[0] > rt:
+        z_top = rear[2] - rear[0] * math.tan(t)    # arm continues the lantern axis back to the column
+        if z_top <= 0.5:
+            raise ParameterError("arm_tilt_deg", "the arm would meet the column below 0.5 m; reduce tilt or outreach")
+        parts += sh.frustum((0, 0, 0), (0, 0, z_top + ra), rb, rt, segments=segments, slot="pole")
+        parts += sh.cylinder((0.0, 0.0, z_top), rear, ra, segments=8, slot="arm")
+    else:
+        # Post-top: the column runs up into the lantern's underside.
+        z_top = opening[2] + (0.0 - opening[0]) * math.tan(t) + hh / 2
+        parts += sh.frustum((0, 0, 0), (0, 0, z_top), rb, rt, segments=segments, slot="pole")
+    if opening[2] - hh * 2 < 0:
+        raise ParameterError("height_m", "too low for the lantern")
+    corners = []
+    for i in range(8):
+        ix, iy, iz = i & 1, (i >> 1) & 1, (i >> 2) & 1
+        corners.append(opening + f * hl * (ix - 0.5) + y * hw * (iy - 0.5) + up * hh * iz)
+    parts += sh.hexahedron(corners, slot="housing", face_slots={"-z": "lens"})
+    nadir = -up
+    return LampColumn(sh.merge_parts(parts),
+                      LightOpening(opening, nadir, f, float(tilt), (float(hl), float(hw))))
+
+
+# ---------------------------------------------------------------------------------------------
+# Building frontages
+# ---------------------------------------------------------------------------------------------
+
+
+def _door_slot(door: str, n: int) -> int | None:
+    if door == "none":
+        return None
+    # Seen from the street (looking towards -x), the viewer's left is local -y.
+    return {"left": 0, "centre": n // 2, "right": n - 1}[door]
+
+
+def _block_and_roof(w: float, h: float, d: float, roof: str, roof_height: float, overhang: float,
+                    proud: float) -> list[Part]:
+    parts = sh.box(min_m=(-d / 2, -w / 2, 0.0), max_m=(d / 2 - proud, w / 2, h), slot="facade")
+    if roof == "pitched":
+        xf = d / 2 - proud + overhang
+        xb = -d / 2 - overhang
+        prof = [(xb, h), (xf, h), ((xf + xb) / 2, h + roof_height)]
+        parts += _extrude_xz(prof, -w / 2, w / 2, "roof", cap_slot="facade")
+    else:
+        parts += sh.box(min_m=(-d / 2, -w / 2, h), max_m=(d / 2 - proud + overhang, w / 2, h + 0.15), slot="roof")
+    return parts
+
+
+def _windows_row(x0: float, x1: float, w: float, n: int, z0: float, ww: float, wh: float,
+                 skip: int | None = None) -> list[Part]:
+    parts = []
+    for k in range(n):
+        if k == skip:
+            continue
+        yc = -w / 2 + (k + 0.5) * w / n
+        parts += sh.box(min_m=(x0, yc - ww / 2, z0), max_m=(x1, yc + ww / 2, z0 + wh), slot="window")
+    return parts
+
+
+def house_front(width_m: float = 6.0, height_m: float = 5.6, depth_m: float = 8.0, *, storeys: int = 2,
+                windows: int = 2, door: str = "left", window_width_m: float = 1.1, window_height_m: float = 1.3,
+                sill_m: float = 0.9, door_width_m: float = 1.0, door_height_m: float = 2.1, roof: str = "pitched",
+                roof_height_m: float = 2.5, overhang_m: float = 0.25) -> list[Part]:
+    """A simple house: a walled block with window and door panels 3 cm proud of the facade
+    (+x) and a pitched (ridge parallel to the facade) or flat roof.
+
+    ``height_m`` is the eaves height, split into equal ``storeys``; ``windows`` per storey are
+    spaced evenly across ``width_m``; on the ground floor the door takes the left, centre or
+    right window place (seen from the street) unless ``door="none"``. Pitched roofs add
+    ``roof_height_m`` and overhang the front and back walls by ``overhang_m``; flat roofs are a
+    0.15 m slab. Typical sizes are common practice, no source. Slots ``facade``, ``window``,
+    ``door``, ``roof``.
+    """
+    w = _num("width_m", width_m, 2.0, 100.0)
+    h = _num("height_m", height_m, 2.2, 60.0)
+    d = _num("depth_m", depth_m, 1.0, 100.0)
+    ns = _int("storeys", storeys, 1, 20)
+    nw = _int("windows", windows, 1, 30)
+    dr = _choice("door", door, ("left", "centre", "right", "none"))
+    ww = _num("window_width_m", window_width_m, 0.2, 10.0)
+    wh = _num("window_height_m", window_height_m, 0.2, 10.0)
+    sill = _num("sill_m", sill_m, 0.0, 5.0)
+    dw = _num("door_width_m", door_width_m, 0.5, 5.0)
+    dh = _num("door_height_m", door_height_m, 1.5, 6.0)
+    rf = _choice("roof", roof, ("pitched", "flat"))
+    rh = _num("roof_height_m", roof_height_m, 0.2, 20.0)
+    oh = _num("overhang_m", overhang_m, 0.0, 2.0)
+    storey = h / ns
+    if sill + wh > storey - 0.15:
+        raise ParameterError("window_height_m", f"sill_m + window_height_m must fit in a storey of {storey:.2f} m")
+    if ww >= w / nw - 0.2:
+        raise ParameterError("window_width_m", f"{nw} windows of {ww:g} m do not fit across {w:g} m")
+    if dw >= w / nw - 0.1 and dr != "none":
+        raise ParameterError("door_width_m", f"the door does not fit in a {w / nw:.2f} m bay")
+    if dh > storey - 0.1:
+        raise ParameterError("door_height_m", f"must fit in a storey of {storey:.2f} m")
+    proud = 0.03
+    parts = _block_and_roof(w, h, d, rf, rh, oh, proud)
+    x0, x1 = d / 2 - proud, d / 2
+    skip = _door_slot(dr, nw)
+    for k in range(ns):
+        parts += _windows_row(x0, x1, w, nw, k * storey + sill, ww, wh, skip if k == 0 else None)
+    if skip is not None:
+        yc = -w / 2 + (skip + 0.5) * w / nw
+        parts += sh.box(min_m=(x0, yc - dw / 2, 0.0), max_m=(x1, yc + dw / 2, dh), slot="door")
+    return sh.merge_parts(parts)
+
+
+def shop_front(width_m: float = 6.0, height_m: float = 7.0, depth_m: float = 10.0, *, storeys: int = 2,
+               windows: int = 2, door: str = "right", shop_storey_m: float = 3.6, fascia_height_m: float = 0.6,
+               window_width_m: float = 1.1, window_height_m: float = 1.3, roof: str = "flat",
+               roof_height_m: float = 2.5, overhang_m: float = 0.0) -> list[Part]:
+    """A shop: a ground-floor shop front (large window over a stall riser, a door at one side,
+    a fascia board above) under ``storeys - 1`` upper floors with ``windows`` each.
+
+    ``height_m`` is the eaves height; the ground floor is ``shop_storey_m`` high. Slots
+    ``facade``, ``window``, ``door``, ``fascia``, ``roof``. Typical sizes common practice, no
+    source.
+    """
+    w = _num("width_m", width_m, 3.0, 100.0)
+    h = _num("height_m", height_m, 3.0, 60.0)
+    d = _num("depth_m", depth_m, 1.0, 100.0)
+    ns = _int("storeys", storeys, 1, 20)
+    nw = _int("windows", windows, 1, 30)
+    dr = _choice("door", door, ("left", "centre", "right"))
+    gs = _num("shop_storey_m", shop_storey_m, 2.6, 8.0)
+    fh = _num("fascia_height_m", fascia_height_m, 0.2, 2.0)
+    ww = _num("window_width_m", window_width_m, 0.2, 10.0)
+    wh = _num("window_height_m", window_height_m, 0.2, 10.0)
+    rf = _choice("roof", roof, ("pitched", "flat"))
+    rh = _num("roof_height_m", roof_height_m, 0.2, 20.0)
+    oh = _num("overhang_m", overhang_m, 0.0, 2.0)
+    if gs > h:
+        raise ParameterError("shop_storey_m", f"must not exceed height_m ({h:g}), got {gs:g}")
+    if ns > 1 and (h - gs) / (ns - 1) < 2.2:
+        raise ParameterError("shop_storey_m", f"leaves less than 2.2 m per upper storey under height_m ({h:g})")
+    if fh >= gs - 2.4:
+        raise ParameterError("fascia_height_m", "leaves no room for the shop window and door below it")
+    proud = 0.03
+    parts = _block_and_roof(w, h, d, rf, rh, oh, proud)
+    x0, x1 = d / 2 - proud, d / 2
+    fascia_z1 = gs - 0.15
+    fascia_z0 = fascia_z1 - fh
+    parts += sh.box(min_m=(x0 - 0.0, -w / 2 + 0.1, fascia_z0), max_m=(x1 + 0.05, w / 2 - 0.1, fascia_z1), slot="fascia")
+    pil = 0.3
+    dw, dh = 1.0, min(2.3, fascia_z0 - 0.1)
+    y_lo, y_hi = -w / 2 + pil, w / 2 - pil
+    if dr == "left":
+        door_y = (y_lo, y_lo + dw)
+        win_y = [(y_lo + dw + 0.15, y_hi)]
+    elif dr == "right":
+        door_y = (y_hi - dw, y_hi)
+        win_y = [(y_lo, y_hi - dw - 0.15)]
+    else:
+        door_y = (-dw / 2, dw / 2)
+        win_y = [(y_lo, -dw / 2 - 0.15), (dw / 2 + 0.15, y_hi)]
+    parts += sh.box(min_m=(x0, door_y[0], 0.0), max_m=(x1, door_y[1], dh), slot="door")
+    for ya, yb in win_y:
+        if yb - ya > 0.3:
+            parts += sh.box(min_m=(x0, ya, 0.6), max_m=(x1, yb, fascia_z0 - 0.1), slot="window")
+    if ns > 1:
+        storey = (h - gs) / (ns - 1)
+        sill = min(0.9, max(0.1, storey - wh - 0.3))
+        if sill + wh > storey - 0.1:
+            raise ParameterError("window_height_m", f"must fit in an upper storey of {storey:.2f} m")
+        if ww >= w / nw - 0.2:
+            raise ParameterError("window_width_m", f"{nw} windows of {ww:g} m do not fit across {w:g} m")
+        for k in range(ns - 1):
+            parts += _windows_row(x0, x1, w, nw, gs + k * storey + sill, ww, wh)
+    return sh.merge_parts(parts)
+
+
+def _int(key: str, value, lo: int, hi: int) -> int:
+    if isinstance(value, bool) or not isinstance(value, (int, np.integer)):
+        raise ParameterError(key, f"expected a whole number, got {value!r}")
+    if not lo <= value <= hi:
+        raise ParameterError(key, f"must be in {lo}..{hi}, got {value}")
+    return int(value)
+
+
+# ---------------------------------------------------------------------------------------------
+# Registry for scene files
+# ---------------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class ParamSpec:
+    """One builder parameter as a scene file gives it.
+
+    ``type`` is ``"float"`` (accepts integers too), ``"int"``, ``"str"`` or ``"bool"``;
+    ``default`` ``None`` means "derived from other parameters"; ``minimum``/``maximum`` are
+    inclusive unless ``exclusive_minimum``; ``choices`` lists the allowed values.
+    """
+
+    name: str
+    type: str
+    default: Any
+    unit: str = ""
+    minimum: float | None = None
+    maximum: float | None = None
+    exclusive_minimum: bool = False
+    choices: tuple | None = None
+    doc: str = ""
+
+
+class ObjectKind(NamedTuple):
+    """A registry entry: the builder, its parameter specs and a one-line description."""
+
+    function: Callable[..., Any]
+    params: tuple[ParamSpec, ...]
+    doc: str
+
+
+@dataclass
+class BuiltObject:
+    """What :func:`build_object` returns: parts plus named points and directions (local frame
+    unless :meth:`placed`)."""
+
+    kind: str
+    parts: list[Part]
+    points_m: dict[str, np.ndarray] = field(default_factory=dict)
+    directions: dict[str, np.ndarray] = field(default_factory=dict)
+
+    def placed(self, position_m=(0.0, 0.0, 0.0), heading_deg: float = 0.0, scale: float = 1.0) -> "BuiltObject":
+        return BuiltObject(
+            self.kind,
+            sh.transform_parts(self.parts, position_m, heading_deg, scale),
+            {k: sh.transform_points(v, position_m, heading_deg, scale) for k, v in self.points_m.items()},
+            {k: sh.transform_directions(v, heading_deg) for k, v in self.directions.items()},
+        )
+
+
+def _P(name, type_, default, unit="", lo=None, hi=None, excl=False, choices=None, doc=""):
+    return ParamSpec(name, type_, default, unit, lo, hi, excl, choices, doc)
+
+
+OBJECT_BUILDERS: dict[str, ObjectKind] = {
+    "wheelie_bin": ObjectKind(wheelie_bin, (
+        _P("capacity_l", "int", 240, "L", choices=tuple(BIN_SIZES), doc="nominal capacity"),
+    ), "wheeled waste container"),
+    "car": ObjectKind(car, (
+        _P("body_style", "str", "hatchback", choices=tuple(CAR_STYLES)),
+        _P("length_m", "float", None, "m", 2.0, 8.0, doc="overall length (default per style)"),
+        _P("width_m", "float", None, "m", 1.2, 2.8, doc="overall width without mirrors (default per style)"),
+        _P("height_m", "float", None, "m", 0.9, 3.5, doc="overall height (default per style)"),
+    ), "parked car or van"),
+    "tree": ObjectKind(tree, (
+        _P("trunk_height_m", "float", 2.5, "m", 0.0, 30.0, True, doc="clear stem height"),
+        _P("trunk_radius_m", "float", 0.15, "m", 0.0, 2.0, True),
+        _P("canopy_radius_m", "float", 2.0, "m", 0.0, 20.0, True),
+        _P("canopy_shape", "str", "sphere", choices=("sphere", "cone", "ellipsoid")),
+        _P("canopy_height_m", "float", None, "m", 0.0, 40.0, True, doc="vertical extent (ellipsoid, cone)"),
+        _P("lumpiness", "float", 0.08, "", 0.0, 0.3),
+        _P("seed", "int", 0, "", 0, 2**31 - 1),
+    ), "street tree"),
+    "hedge": ObjectKind(hedge, (
+        _P("length_m", "float", 3.0, "m", 0.0, 200.0, True),
+        _P("height_m", "float", 1.2, "m", 0.0, 10.0, True),
+        _P("depth_m", "float", 0.8, "m", 0.0, 10.0, True),
+        _P("roughness_m", "float", 0.05, "m", 0.0, 1.0),
+        _P("seed", "int", 0, "", 0, 2**31 - 1),
+    ), "clipped hedge along local x"),
+    "bollard": ObjectKind(bollard, (
+        _P("height_m", "float", 0.9, "m", 0.2, 3.0),
+        _P("radius_m", "float", 0.08, "m", 0.01, 1.0),
+        _P("band_height_m", "float", 0.06, "m", 0.0, 0.5, True),
+    ), "round bollard with reflective band"),
+    "bus_shelter": ObjectKind(bus_shelter, (
+        _P("length_m", "float", 4.0, "m", 1.0, 20.0),
+        _P("depth_m", "float", 1.5, "m", 0.6, 5.0),
+        _P("height_m", "float", 2.5, "m", 2.0, 5.0),
+    ), "glazed bus shelter, open side +x"),
+    "sign": ObjectKind(sign, (
+        _P("height_m", "float", 2.7, "m", 0.3, 10.0, doc="top of the panel"),
+        _P("panel_width_m", "float", 0.6, "m", 0.05, 5.0),
+        _P("panel_height_m", "float", 0.6, "m", 0.05, 5.0),
+        _P("shape", "str", "rect", choices=("rect", "circle", "triangle")),
+    ), "post-mounted sign facing +x"),
+    "pedestrian": ObjectKind(pedestrian, (
+        _P("height_m", "float", 1.75, "m", 0.5, 2.5),
+    ), "standing figure facing +x"),
+    "lamp_column": ObjectKind(lamp_column, (
+        _P("height_m", "float", 6.0, "m", 1.5, 30.0, doc="mounting height of the opening centre"),
+        _P("outreach_m", "float", 0.5, "m", 0.0, 6.0),
+        _P("arm_tilt_deg", "float", 5.0, "deg", -15.0, 45.0),
+        _P("housing_length_m", "float", 0.6, "m", 0.05, 3.0),
+        _P("housing_width_m", "float", 0.28, "m", 0.05, 3.0),
+    ), "street-light column with bracket arm (arm along +x)"),
+    "house_front": ObjectKind(house_front, (
+        _P("width_m", "float", 6.0, "m", 2.0, 100.0, doc="frontage along local y"),
+        _P("height_m", "float", 5.6, "m", 2.2, 60.0, doc="eaves height"),
+        _P("depth_m", "float", 8.0, "m", 1.0, 100.0),
+        _P("storeys", "int", 2, "", 1, 20),
+        _P("windows", "int", 2, "", 1, 30, doc="windows per storey"),
+        _P("door", "str", "left", choices=("left", "centre", "right", "none")),
+        _P("window_width_m", "float", 1.1, "m", 0.2, 10.0),
+        _P("window_height_m", "float", 1.3, "m", 0.2, 10.0),
+        _P("roof", "str", "pitched", choices=("pitched", "flat")),
+        _P("roof_height_m", "float", 2.5, "m", 0.2, 20.0),
+        _P("overhang_m", "float", 0.25, "m", 0.0, 2.0),
+    ), "house with facade on +x"),
+    "shop_front": ObjectKind(shop_front, (
+        _P("width_m", "float", 6.0, "m", 3.0, 100.0),
+        _P("height_m", "float", 7.0, "m", 3.0, 60.0, doc="eaves height"),
+        _P("depth_m", "float", 10.0, "m", 1.0, 100.0),
+        _P("storeys", "int", 2, "", 1, 20),
+        _P("windows", "int", 2, "", 1, 30, doc="windows per upper storey"),
+        _P("door", "str", "right", choices=("left", "centre", "right")),
+        _P("shop_storey_m", "float", 3.6, "m", 2.6, 8.0),
+        _P("fascia_height_m", "float", 0.6, "m", 0.2, 2.0),
+        _P("roof", "str", "flat", choices=("pitched", "flat")),
+    ), "shop with fascia and large window on +x"),
+}
+
+
+def _type_ok(spec: ParamSpec, value) -> bool:
+    if spec.type == "float":
+        return isinstance(value, (int, float)) and not isinstance(value, bool)
+    if spec.type == "int":
+        return isinstance(value, int) and not isinstance(value, bool)
+    if spec.type == "str":
+        return isinstance(value, str)
+    if spec.type == "bool":
+        return isinstance(value, bool)
+    raise AssertionError(spec.type)
+
+
+_TYPE_WORDS = {"float": "a number", "int": "a whole number", "str": "a string", "bool": "true or false"}
+
+
+def validate_params(kind: str, params: dict[str, Any]) -> list[tuple[str, str]]:
+    """Check ``[[objects]]`` parameters for ``kind`` against :data:`OBJECT_BUILDERS`.
+
+    Returns ``(key, message)`` pairs (empty when all is well): unknown kind (key ``"kind"``)
+    or parameter (with a did-you-mean hint), wrong type, out of range, not one of the
+    choices; then, if each parameter is fine on its own, the builder's own cross-checks
+    (e.g. a trunk wider than its canopy), with key ``""`` when several parameters are
+    involved. The builder is run for those cross-checks (a few milliseconds).
+    """
+    if kind not in OBJECT_BUILDERS:
+        return [("kind", f"unknown object kind {kind!r}; expected one of {', '.join(OBJECT_BUILDERS)}"
+                 + did_you_mean(str(kind), OBJECT_BUILDERS))]
+    entry = OBJECT_BUILDERS[kind]
+    specs = {p.name: p for p in entry.params}
+    problems: list[tuple[str, str]] = []
+    for key, value in params.items():
+        spec = specs.get(key)
+        if spec is None:
+            problems.append((key, f"unknown parameter for {kind}; expected one of {', '.join(specs)}"
+                             + did_you_mean(key, specs)))
+            continue
+        unit = f" {spec.unit}" if spec.unit else ""
+        if not _type_ok(spec, value):
+            problems.append((key, f"expected {_TYPE_WORDS[spec.type]}{' (' + spec.unit + ')' if spec.unit else ''}, "
+                                  f"got {value!r}"))
+            continue
+        if spec.choices is not None and value not in spec.choices:
+            problems.append((key, f"expected one of {', '.join(map(repr, spec.choices))}, got {value!r}"
+                             + (did_you_mean(value, spec.choices) if isinstance(value, str) else "")))
+            continue
+        if spec.type in ("float", "int"):
+            v = float(value)
+            if not math.isfinite(v):
+                problems.append((key, f"expected a finite number{unit}, got {value!r}"))
+                continue
+            if spec.minimum is not None and (v < spec.minimum or (spec.exclusive_minimum and v == spec.minimum)):
+                op = ">" if spec.exclusive_minimum else ">="
+                problems.append((key, f"must be {op} {spec.minimum:g}{unit}, got {value!r}"))
+                continue
+            if spec.maximum is not None and v > spec.maximum:
+                problems.append((key, f"must be <= {spec.maximum:g}{unit}, got {value!r}"))
+                continue
+    if problems:
+        return problems
+    try:
+        entry.function(**params)
+    except ParameterError as e:
+        problems.append((e.key, e.message))
+    except ValueError as e:  # a geometric check deeper down
+        problems.append(("", str(e)))
+    return problems
+
+
+def build_object(kind: str, params: dict[str, Any] | None = None) -> BuiltObject:
+    """Validate and build one registry object; ValueError listing the problems if any.
+
+    Lamp columns carry ``points_m["light_centre_m"]`` and ``directions["light_nadir"]``,
+    ``directions["light_forward"]``.
+    """
+    params = dict(params or {})
+    problems = validate_params(kind, params)
+    if problems:
+        raise ValueError("; ".join(f"{k}: {m}" if k else m for k, m in problems))
+    result = OBJECT_BUILDERS[kind].function(**params)
+    if isinstance(result, LampColumn):
+        o = result.opening
+        return BuiltObject(kind, result.parts, {"light_centre_m": o.centre_m},
+                           {"light_nadir": o.nadir, "light_forward": o.forward})
+    return BuiltObject(kind, result)
