@@ -70,6 +70,21 @@ def cmd_materials(args) -> int:
     return 0
 
 
+# --- photometry ----------------------------------------------------------------------------
+
+def cmd_photometry(args) -> int:
+    from render.photometry import describe_photometry_file
+
+    plot = args.plot
+    if plot is None and not args.no_plot:
+        out = _out_dir(args.out, "photometry")
+        plot = str(out / f"{Path(args.file).stem}-polar.png")
+    print(describe_photometry_file(args.file, base_dir=Path.cwd(), plot_path=plot))
+    if plot:
+        print(f"polar plot written to {plot}", file=sys.stderr)
+    return 0
+
+
 # --- check -----------------------------------------------------------------------------------
 
 def cmd_check(args) -> int:
@@ -105,7 +120,7 @@ def cmd_render(args) -> int:
     if args.width:
         height = max(1, round(height * args.width / width))
         width = args.width
-    camera = Camera(view.position_m, view.target_m, hfov_deg=view.hfov_deg, width_px=width, height_px=height)
+    camera = Camera(position_m=view.position_m, target_m=view.target_m, hfov_deg=view.hfov_deg, width_px=width, height_px=height)
     out = _out_dir(args.out, Path(args.scene).stem)
     spp = args.spp or scene.render.samples_per_pixel
     seed = scene.render.seed if args.seed is None else args.seed
@@ -163,6 +178,13 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--plots", nargs="?", const="outputs/materials", metavar="DIR", help="also write a reflectance plot per material")
     p.set_defaults(func=cmd_materials)
 
+    p = sub.add_parser("photometry", help="summarise an LM-63 photometric file (flux, peak, ULOR) and plot it")
+    p.add_argument("file", help="LM-63 (.ies) file or a built-in generic distribution id")
+    p.add_argument("--plot", metavar="PNG", help="where to write the polar plot (default outputs/photometry/NAME-polar.png)")
+    p.add_argument("--no-plot", action="store_true", help="do not write a polar plot")
+    p.add_argument("--out", help="output folder for the default plot path")
+    p.set_defaults(func=cmd_photometry)
+
     p = sub.add_parser("check", help="check a scene file without rendering; lists every problem found")
     p.add_argument("scene", help="scene file (TOML)")
     p.set_defaults(func=cmd_check)
@@ -196,6 +218,13 @@ def main(argv: list[str] | None = None) -> int:
         for problem in err.problems:
             print(f"error: {problem}", file=sys.stderr)
         return 2
+    except BrokenPipeError:
+        # Output piped into e.g. `head`: stop quietly.
+        import os
+
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        return 0
     except KeyboardInterrupt:
         print("interrupted", file=sys.stderr)
         return 130

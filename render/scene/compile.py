@@ -29,7 +29,8 @@ DEFAULT_SLOT_MATERIALS = {
     "roof": "roof-tile", "bench": "wood", "pole": "metal-galvanised", "panel": "object-white",
     "back": "metal-galvanised", "legs": "fabric-dark", "torso": "object-blue", "arms": "object-blue",
     "head": "skin-light", "arm": "metal-galvanised", "housing": "metal-painted-dark", "facade": "brick",
-    "window": "glass-clear", "door": "wood", "fascia": "object-green", "*": "concrete",
+    "window": "glass-clear", "door": "wood", "fascia": "object-green", "rim": "metal-galvanised",
+    "trim": "object-black", "tail_lights": "object-red", "lens": "glass-clear", "*": "concrete",
 }
 
 
@@ -152,22 +153,26 @@ def _placed(parts, position, heading_deg):
     return transform_parts(parts, position, heading_deg)
 
 
-def _frontage(b: _Builder, f: Frontage, street: Street | None) -> None:
+def _frontage(b: _Builder, f: Frontage, street: Street | None, source: str) -> None:
     from render.objects import house_front, shop_front
 
+    sign = 1.0 if f.side == "left" else -1.0
     building_y = street.building_line_y(f.side) if street is not None else 0.0
     z = street.kerb_height_m if street is not None else 0.0
-    # Fronts are built facing local +x; turn them to face the carriageway.
+    # Fronts are built centred on their origin with the facade toward local +x; turn them to
+    # face the carriageway and stand them behind the building line.
     heading = -90.0 if f.side == "left" else 90.0
     width = f.length_m / f.units
     obj = b.new_object(f.tag.name, f.kind + " frontage", f.tag.inspect, f.where)
     builder = shop_front if f.kind == "shop" else house_front
     for k in range(f.units):
         x_mid = f.start_m + (k + 0.5) * width
-        parts = builder(width_m=width, height_m=f.height_m, depth_m=f.depth_m)
-        # The block's front face is at local x = 0 and the block extends to local -x, so it
-        # stands behind the building line.
-        b.add_parts(_placed(parts, (x_mid, building_y, z), heading), f.materials, obj)
+        try:
+            parts = builder(width_m=width, height_m=f.height_m, depth_m=f.depth_m)
+        except ValueError as err:
+            raise input_error(source, f.where, f"cannot build the {f.kind} fronts: {err}") from None
+        centre_y = building_y + sign * 0.5 * f.depth_m
+        b.add_parts(_placed(parts, (x_mid, centre_y, z), heading), f.materials, obj)
 
 
 def _object(b: _Builder, o: StreetObject, source: str) -> None:
@@ -178,8 +183,7 @@ def _object(b: _Builder, o: StreetObject, source: str) -> None:
         parts = function(**o.params)
     except ValueError as err:
         raise input_error(source, o.where + ".params", str(err)) from None
-    if isinstance(parts, tuple):
-        parts = parts[0]
+    parts = getattr(parts, "parts", parts)
     obj = b.new_object(o.tag.name, o.kind, o.tag.inspect, o.where)
     b.add_parts(_placed(parts, o.position_m, o.heading_deg), o.materials, obj)
 
@@ -197,7 +201,7 @@ def _geometry(b: _Builder, o: StreetObject) -> None:
     elif kind == "sphere":
         parts = shapes.sphere((0.0, 0.0, p["radius_m"]), p["radius_m"])
     elif kind == "extrusion":
-        parts = shapes.extrusion(p["outline_m"], p["height_m"])
+        parts = shapes.extrude(p["outline_m"], p["height_m"])
     elif kind == "obj":
         parts = p.get("_parts") or shapes.load_obj(p["file"], scale=p["scale"], up_axis=p["up_axis"])
     else:  # pragma: no cover - the loader checks kinds
@@ -207,9 +211,9 @@ def _geometry(b: _Builder, o: StreetObject) -> None:
 
 
 def _marking_polygon(points, z) -> np.ndarray:
-    from render.shapes import flat_polygon
+    from render.shapes import flat_region
 
-    parts = flat_polygon(points, z)
+    parts = flat_region(points, z)
     return np.concatenate([p.triangles_m for p in parts])
 
 
@@ -272,9 +276,10 @@ def _columns(b: _Builder, scene: Scene) -> None:
         height = float(top[2] - base[2])
         if height <= 0.5:
             continue
-        parts, _opening = lamp_column(height_m=height, outreach_m=outreach)
+        tilt = float(np.clip(lum.tilt_deg, -15.0, 45.0))
+        column = lamp_column(height_m=height, outreach_m=min(outreach, 6.0), arm_tilt_deg=tilt)
         obj = b.new_object(f"column {lum.name}", "lamp column", False, lum.where)
-        b.add_parts(_placed(parts, tuple(base), heading), {}, obj)
+        b.add_parts(_placed(column.parts, tuple(base), heading), {}, obj)
 
 
 def compile_scene(scene: Scene) -> TriangleMesh:
@@ -286,7 +291,7 @@ def compile_scene(scene: Scene) -> TriangleMesh:
     if scene.street is not None:
         _street(b, scene.street)
     for f in scene.frontages:
-        _frontage(b, f, scene.street)
+        _frontage(b, f, scene.street, str(scene.path))
     for o in scene.objects:
         if o.kind in ("box", "cylinder", "sphere", "extrusion", "obj"):
             _geometry(b, o)
@@ -306,7 +311,6 @@ def object_slots(kind: str) -> tuple[str, ...]:
     """Material slot names of a parametric object kind (built once with default parameters)."""
     from render.objects import OBJECT_BUILDERS
 
-    function = OBJECT_BUILDERS[kind][0]
-    result = function()
-    parts = result[0] if isinstance(result, tuple) else result
+    result = OBJECT_BUILDERS[kind][0]()
+    parts = getattr(result, "parts", result)
     return tuple(sorted({p.slot for p in parts}))

@@ -1,0 +1,124 @@
+"""From light buffers to absolute colorimetry: X, Y, Z (Y in cd/m²) and scotopic luminance.
+
+The **response table** ``R[k, l]`` holds, for reflectance ``k`` and lamp ``l``, the absolute
+X, Y, Z and scotopic Y' of the light a surface of that reflectance returns per cd/m² of
+"white-diffuser luminance" (E/π) of that lamp's light:
+
+    R[k, l] = (Km·Σ ρ_k s_l x̄ Δλ, Km·Σ ρ_k s_l ȳ Δλ, Km·Σ ρ_k s_l z̄ Δλ, K'm·Σ ρ_k s_l V' Δλ)
+
+with ``s_l`` the lamp's spectral power distribution normalised so that Km·Σ s_l V Δλ = 1. Its
+``Y`` entry is the luminous reflectance of ``k`` under lamp ``l``; its ``Y'`` entry for ρ = 1 is
+the lamp's S/P ratio. The last row (ρ = 1) serves visible luminous openings. The tables cost
+``n_materials × n_lamps`` integrals on the 1 nm grid, once; per pixel the cost is independent of
+the number of wavelength bins.
+
+:func:`resolve` combines buffers, per-channel factors and lamps into images.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numba
+import numpy as np
+from numba import prange
+
+from render.observers import KM_LM_PER_W, KM_SCOTOPIC_LM_PER_W, cmfs_xyz, photopic_lef, scotopic_lef
+from render.spectra import BIN_WIDTH_NM
+
+
+def unit_photopic(spd: np.ndarray) -> np.ndarray:
+    """A lamp spectrum scaled so that Km·Σ s V Δλ = 1 (one photopic unit)."""
+    spd = np.asarray(spd, np.float64)
+    p = KM_LM_PER_W * float(spd @ photopic_lef()) * BIN_WIDTH_NM
+    if not p > 0:
+        raise ValueError("lamp spectrum has no photopic content")
+    return spd / p
+
+
+def response_table(reflectances: np.ndarray, lamp_spds: np.ndarray) -> np.ndarray:
+    """``R`` of shape (K + 1, M, 4) for K reflectances (K, N_BINS) and M lamps (M, N_BINS);
+    row K is the white (ρ = 1) response used for luminous openings."""
+    rho = np.vstack([np.asarray(reflectances, np.float64).reshape(-1, photopic_lef().size), np.ones((1, photopic_lef().size))])
+    s = np.vstack([unit_photopic(x) for x in np.asarray(lamp_spds, np.float64).reshape(-1, photopic_lef().size)])
+    weights = np.concatenate([KM_LM_PER_W * cmfs_xyz(), KM_SCOTOPIC_LM_PER_W * scotopic_lef()[:, None]], axis=1) * BIN_WIDTH_NM
+    # (K+1, N) x (M, N) x (N, 4) -> (K+1, M, 4)
+    return np.einsum("kn,mn,nc->kmc", rho, s, weights)
+
+
+@numba.njit(cache=True, nogil=True, parallel=True)
+def _resolve_kernel(response, value, factors, lamp_of_channel, table, spp, out):
+    n_pix = out.shape[0]
+    C = value.shape[1]
+    inv = 1.0 / spp
+    for p in prange(n_pix):
+        a0 = 0.0
+        a1 = 0.0
+        a2 = 0.0
+        a3 = 0.0
+        for s in range(p * spp, p * spp + spp):
+            k = response[s]
+            if k < 0:
+                continue
+            for c in range(C):
+                v = value[s, c] * factors[c]
+                if v == 0.0:
+                    continue
+                l = lamp_of_channel[c]
+                a0 += v * table[k, l, 0]
+                a1 += v * table[k, l, 1]
+                a2 += v * table[k, l, 2]
+                a3 += v * table[k, l, 3]
+        out[p, 0] = a0 * inv
+        out[p, 1] = a1 * inv
+        out[p, 2] = a2 * inv
+        out[p, 3] = a3 * inv
+
+
+@dataclass
+class ViewColorimetry:
+    """Absolute colorimetry of a view.
+
+    ``xyz_cd_m2`` (H, W, 3): CIE 1931 XYZ, Y = photopic luminance in cd/m².
+    ``scotopic_cd_m2`` (H, W): scotopic luminance (K'm·Σ L V' Δλ), cd/m².
+    """
+
+    xyz_cd_m2: np.ndarray
+    scotopic_cd_m2: np.ndarray
+
+    @property
+    def luminance_cd_m2(self) -> np.ndarray:
+        return self.xyz_cd_m2[..., 1]
+
+
+def resolve(buffers, factors: np.ndarray, lamp_spds: list[np.ndarray], reflectances: np.ndarray) -> ViewColorimetry:
+    """Images from light buffers.
+
+    Parameters
+    ----------
+    buffers
+        :class:`render.integrator.LightBuffers`.
+    factors
+        (C,) multiplier per channel (dimming, lumens change).
+    lamp_spds
+        One spectrum (N_BINS,) per channel (any scale; each is normalised to unit photopic).
+    reflectances
+        (K, N_BINS) reflectance per material index of the buffers.
+    """
+    spd_list: list[np.ndarray] = []
+    lamp_of_channel = np.zeros(len(lamp_spds), np.int64)
+    for c, spd in enumerate(lamp_spds):
+        for j, other in enumerate(spd_list):
+            if other is spd or np.array_equal(other, spd):
+                lamp_of_channel[c] = j
+                break
+        else:
+            lamp_of_channel[c] = len(spd_list)
+            spd_list.append(np.asarray(spd))
+    table = response_table(reflectances, np.array(spd_list)) if spd_list else np.zeros((len(reflectances) + 1, 1, 4))
+    n_pix = buffers.width_px * buffers.height_px
+    out = np.zeros((n_pix, 4))
+    _resolve_kernel(buffers.response, buffers.value_cd_m2, np.ascontiguousarray(factors, np.float64), lamp_of_channel,
+                    np.ascontiguousarray(table), buffers.spp, out)
+    out = out.reshape(buffers.height_px, buffers.width_px, 4)
+    return ViewColorimetry(np.ascontiguousarray(out[..., :3]), np.ascontiguousarray(out[..., 3]))

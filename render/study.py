@@ -1,0 +1,150 @@
+"""The Python API: one scene, its geometry, and the views and setups rendered from it.
+
+>>> from render.study import Study
+>>> study = Study("scenes/demo/linden_row.toml")             # doctest: +SKIP
+>>> view = study.render_view("footway", setup="sodium")      # doctest: +SKIP
+>>> view.colorimetry.luminance_cd_m2.mean()                  # doctest: +SKIP
+>>> after = study.relight(view, "led-warm")                  # no ray cast  # doctest: +SKIP
+>>> study.illuminance_lx([[40, 0, 0]], [[0, 0, 1]])           # doctest: +SKIP
+
+A :class:`Study` compiles the scene and builds its BVH once. :meth:`Study.render_view` casts a
+view's camera rays once and keeps its :class:`~render.integrator.LightBuffers`;
+:meth:`Study.relight` re-colours them for another setup without casting a ray (a setup that
+changes a photometric distribution re-evaluates the light at the stored hit points, still
+without casting camera rays).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from functools import cached_property
+from pathlib import Path
+
+import numpy as np
+
+from render.colorimetry import ViewColorimetry, resolve
+from render.errors import did_you_mean, input_error
+from render.integrator import NEGLIGIBLE_LX, LightBuffers, cast_view, direct_illuminance_lx, evaluate_light
+from render.lights import LuminaireSet, channel_factors, luminaire_set, needs_new_evaluation
+from render.scene import Scene, compile_scene, load_scene
+from render.scene.model import Setup
+
+
+@dataclass
+class RenderedView:
+    """A view rendered under one setup: its buffers, the lights they were evaluated with, and
+    the resulting absolute colorimetry."""
+
+    name: str
+    setup: str | None
+    camera: object
+    buffers: LightBuffers
+    lights: LuminaireSet
+    colorimetry: ViewColorimetry
+
+
+class Study:
+    """A scene ready to render: compiled geometry, BVH, material reflectances."""
+
+    def __init__(self, scene: Scene | str | Path, *, negligible_lx: float = NEGLIGIBLE_LX):
+        self.scene = scene if isinstance(scene, Scene) else load_scene(scene)
+        self.negligible_lx = negligible_lx
+
+    @cached_property
+    def mesh(self):
+        return compile_scene(self.scene)
+
+    @cached_property
+    def bvh(self):
+        from render.bvh import build_bvh
+
+        return build_bvh(self.mesh.triangles_m)
+
+    @cached_property
+    def reflectances(self) -> np.ndarray:
+        """(K, N_BINS) reflectance of each material index of the mesh."""
+        from render.materials import get_material, material_library
+
+        lib = material_library()
+        return np.array([get_material(m, lib, source=str(self.scene.path)).reflectance for m in self.mesh.material_names])
+
+    def setup(self, name: str | Setup | None) -> Setup | None:
+        if name is None or isinstance(name, Setup):
+            return name
+        if name not in self.scene.setups:
+            names = list(self.scene.setups)
+            raise input_error(self.scene.path, "setups", f"no setup named {name!r}{did_you_mean(name, names)}; setups: {', '.join(names) or '(none)'}")
+        return self.scene.setups[name]
+
+    def lights(self, setup: str | Setup | None = None) -> LuminaireSet:
+        return luminaire_set(self.scene, self.setup(setup))
+
+    def camera(self, view: str | None = None, width_px: int | None = None):
+        from render.cameras import Camera
+
+        v = self.scene.view(view)
+        w, h = v.width_px, v.height_px
+        if width_px:
+            h = max(1, round(h * width_px / w))
+            w = int(width_px)
+        return Camera(position_m=v.position_m, target_m=v.target_m, hfov_deg=v.hfov_deg, width_px=w, height_px=h)
+
+    def lamp_spds(self, lamps: list[str]) -> list[np.ndarray]:
+        from render.lamps import get_lamp
+
+        cache: dict[str, np.ndarray] = {}
+        out = []
+        for ref in lamps:
+            if ref not in cache:
+                cache[ref] = get_lamp(ref, base_dir=self.scene.base_dir, source=str(self.scene.path)).spd
+            out.append(cache[ref])
+        return out
+
+    def colorimetry(self, buffers: LightBuffers, lights: LuminaireSet, setup: str | Setup | None = None) -> ViewColorimetry:
+        factors, lamps = channel_factors(lights, self.setup(setup))
+        return resolve(buffers, factors, self.lamp_spds(lamps), self.reflectances)
+
+    def render_view(self, view: str | None = None, setup: str | Setup | None = None, *, samples_per_pixel: int | None = None,
+                    seed: int | None = None, width_px: int | None = None, progress: bool = False) -> RenderedView:
+        """Cast the view's camera rays, evaluate the light of ``setup`` and resolve colorimetry."""
+        v = self.scene.view(view)
+        camera = self.camera(v.name, width_px)
+        spp = samples_per_pixel or self.scene.render.samples_per_pixel
+        seed = self.scene.render.seed if seed is None else seed
+        s = self.setup(setup)
+        lights = luminaire_set(self.scene, s)
+        buffers = cast_view(self.mesh, self.bvh, lights, camera, spp, seed, progress=progress)
+        evaluate_light(buffers, lights, self.bvh, negligible_lx=self.negligible_lx, progress=progress)
+        return RenderedView(v.name, s.name if s else None, camera, buffers, lights, self.colorimetry(buffers, lights, s))
+
+    def relight(self, rendered: RenderedView, setup: str | Setup | None, *, progress: bool = False) -> RenderedView:
+        """The same view under another setup. Lamps, lumens and dimming are applied to the kept
+        buffers without any ray; a changed photometric distribution re-evaluates the light at
+        the kept hit points (shadow rays only)."""
+        s = self.setup(setup)
+        if needs_new_evaluation(rendered.lights, s):
+            lights = luminaire_set(self.scene, s)
+            buffers = LightBuffers(**{**rendered.buffers.__dict__})
+            evaluate_light(buffers, lights, self.bvh, negligible_lx=self.negligible_lx, progress=progress)
+        else:
+            lights, buffers = rendered.lights, rendered.buffers
+        return RenderedView(rendered.name, s.name if s else None, rendered.camera, buffers, lights, self.colorimetry(buffers, lights, s))
+
+    def illuminance_lx(self, points_m, normals, setup: str | Setup | None = None, *, shadows: bool = True, per_group: bool = False):
+        """Direct illuminance (lx) at points on surfaces with the given unit normals, with the
+        setup's lamps, lumens and dimming and the maintenance factor; shadows from the scene's
+        geometry. Returns (N,) total, or a dict group -> (N,) with ``per_group``."""
+        s = self.setup(setup)
+        lights = luminaire_set(self.scene, s)
+        pts = np.asarray(points_m, np.float64).reshape(-1, 3)
+        nrm = np.asarray(normals, np.float64).reshape(-1, 3)
+        nrm = nrm / np.linalg.norm(nrm, axis=1, keepdims=True)
+        e = direct_illuminance_lx(pts, nrm, lights, self.bvh if shadows else None, negligible_lx=self.negligible_lx)
+        factors, _ = channel_factors(lights, s)
+        e = e * factors
+        if not per_group:
+            return e.sum(axis=1)
+        out: dict[str, np.ndarray] = {}
+        for k, ch in enumerate(lights.channels):
+            out[ch.group] = out.get(ch.group, 0.0) + e[:, k]
+        return out
