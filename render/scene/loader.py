@@ -637,7 +637,7 @@ def load_scene(path: str | Path) -> Scene:
         if lum.group not in groups:
             groups.append(lum.group)
     setups = _setups(top["setups"] or {}, ctx, groups)
-    if street is None and not objects and not frontages:
+    if top["street"] is None and not objects and not frontages:
         problems.add("", "the scene has no [street], [[objects]], [[geometry]] or [[frontages]]: nothing to render")
     names: dict[str, str] = {}
     for item in [*frontages, *objects, *markings]:

@@ -1,0 +1,79 @@
+"""High-dynamic-range output: absolute colorimetry in OpenEXR files, and a plain preview.
+
+An EXR written here has four 32-bit float channels, all in absolute units:
+
+* ``X``, ``Y``, ``Z`` -- CIE 1931 tristimulus values, ``Y`` the photopic luminance in cd/m²;
+* ``Ys`` -- the scotopic luminance (K'm·Σ L V' Δλ), cd/m².
+
+Header attributes ``lampcast_units`` (``"cd/m^2"``), ``lampcast_channels`` and any metadata passed
+in (tool version, scene hash, setup, view ...) say how the file was made. Files are written
+atomically: an interrupted write never leaves a file with the final name.
+
+:func:`linear_preview` is the plain linear-exposure sRGB picture used before the night-vision
+stage: exposure scaled so a chosen luminance maps to display white, no adaptation model.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+
+from render.colorimetry import ViewColorimetry
+from render.fileio import atomic_path
+
+CHANNELS = ("X", "Y", "Z", "Ys")
+
+
+def write_exr(path: str | Path, colorimetry: ViewColorimetry, metadata: dict[str, str] | None = None) -> Path:
+    """Write X, Y, Z and scotopic luminance (cd/m²) as a ZIP-compressed float EXR."""
+    import OpenEXR
+
+    path = Path(path)
+    xyz = colorimetry.xyz_cd_m2.astype(np.float32)
+    channels = {
+        "X": np.ascontiguousarray(xyz[..., 0]),
+        "Y": np.ascontiguousarray(xyz[..., 1]),
+        "Z": np.ascontiguousarray(xyz[..., 2]),
+        "Ys": np.ascontiguousarray(colorimetry.scotopic_cd_m2.astype(np.float32)),
+    }
+    header = {
+        "compression": OpenEXR.ZIP_COMPRESSION,
+        "type": OpenEXR.scanlineimage,
+        "lampcast_units": "cd/m^2",
+        "lampcast_channels": "X Y Z: CIE 1931 2 degree, Y photopic luminance; Ys: scotopic luminance",
+    }
+    for key, value in (metadata or {}).items():
+        header[f"lampcast_{key}"] = str(value)
+    with atomic_path(path) as tmp:
+        with OpenEXR.File(header, channels) as f:
+            f.write(str(tmp))
+    return path
+
+
+def read_exr(path: str | Path) -> tuple[ViewColorimetry, dict[str, str]]:
+    """Read an EXR written by :func:`write_exr`; returns the colorimetry and the lampcast header
+    attributes (without the ``lampcast_`` prefix)."""
+    import OpenEXR
+
+    with OpenEXR.File(str(path)) as f:
+        ch = f.channels()
+        xyz = np.stack([ch[c].pixels for c in ("X", "Y", "Z")], axis=-1).astype(np.float64)
+        ys = ch["Ys"].pixels.astype(np.float64)
+        meta = {k[len("lampcast_"):]: str(v) for k, v in f.header().items() if k.startswith("lampcast_")}
+    return ViewColorimetry(xyz, ys), meta
+
+
+def linear_preview(colorimetry: ViewColorimetry, white_cd_m2: float | None = None) -> np.ndarray:
+    """8-bit sRGB preview (H, W, 3) with a linear exposure: ``white_cd_m2`` maps to display
+    white (default: the 99th percentile of the luminance of lit pixels). Colours outside the
+    sRGB gamut are clipped per channel; no adaptation or vision model is applied."""
+    import colour
+
+    Y = colorimetry.xyz_cd_m2[..., 1]
+    if white_cd_m2 is None:
+        lit = Y[Y > 0]
+        white_cd_m2 = float(np.percentile(lit, 99)) if lit.size else 1.0
+    rgb = colour.XYZ_to_sRGB(colorimetry.xyz_cd_m2 / max(white_cd_m2, 1e-12), apply_cctf_encoding=False)
+    rgb = colour.cctf_encoding(np.clip(rgb, 0.0, 1.0), function="sRGB")
+    return np.round(rgb * 255.0).astype(np.uint8)
