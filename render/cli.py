@@ -12,8 +12,10 @@ import json
 import sys
 from pathlib import Path
 
+import numpy as np
+
 from render import __version__
-from render.errors import InputError
+from render.errors import InputError, input_error
 
 CAUTION = (
     "Caution: lampcast images and figures are illustrative previews, not a lighting design or a "
@@ -106,29 +108,83 @@ def cmd_check(args) -> int:
 
 # --- render ----------------------------------------------------------------------------------
 
-def cmd_render(args) -> int:
-    from render.aov import render_aovs, write_aov_previews
-    from render.bvh import build_bvh
-    from render.cameras import Camera
-    from render.scene import compile_scene, load_scene
+def _setup_from_args(study, args):
+    """The setup named by --setup, or one made from --lamp (all groups), or None."""
+    from render.lamps import get_lamp
+    from render.scene.model import GroupSetting, Setup
 
-    scene = load_scene(args.scene)
-    view = scene.view(args.view)
-    mesh = compile_scene(scene)
-    bvh = build_bvh(mesh.triangles_m)
-    width, height = view.width_px, view.height_px
-    if args.width:
-        height = max(1, round(height * args.width / width))
-        width = args.width
-    camera = Camera(position_m=view.position_m, target_m=view.target_m, hfov_deg=view.hfov_deg, width_px=width, height_px=height)
+    if getattr(args, "lamp", None):
+        get_lamp(args.lamp, base_dir=Path.cwd(), source="--lamp")
+        return Setup(f"lamp {args.lamp}", f"all luminaires with lamp {args.lamp}", {"*": GroupSetting(lamp=args.lamp)})
+    return study.setup(getattr(args, "setup", None))
+
+
+def _slug(text: str) -> str:
+    return "".join(c if c.isalnum() or c in "-_" else "-" for c in text).strip("-") or "view"
+
+
+def _write_rendered(rendered, out: Path, stem: str, study) -> list[Path]:
+    import imageio.v3 as iio
+
+    from render.fileio import atomic_path
+    from render.hdr import linear_preview, write_exr
+
+    meta = {"version": __version__, "scene": str(study.scene.path.name), "view": rendered.name,
+            "setup": rendered.setup or "(scene)"}
+    exr = write_exr(out / f"{stem}.exr", rendered.colorimetry, meta)
+    png = out / f"{stem}-linear.png"
+    with atomic_path(png) as tmp:
+        iio.imwrite(tmp, linear_preview(rendered.colorimetry), extension=".png")
+    return [exr, png]
+
+
+def cmd_render(args) -> int:
+    from render.study import Study
+
+    study = Study(args.scene)
+    view = study.scene.view(args.view)
     out = _out_dir(args.out, Path(args.scene).stem)
-    spp = args.spp or scene.render.samples_per_pixel
-    seed = scene.render.seed if args.seed is None else args.seed
-    if not args.aov:
-        print("lampcast render: only --aov (depth, normal, material and object id images) is available in this version", file=sys.stderr)
-        return 2
-    aovs = render_aovs(mesh, bvh, camera, samples_per_pixel=spp, seed=seed)
-    written = write_aov_previews(aovs, out, view.name)
+    spp = args.spp or study.scene.render.samples_per_pixel
+    seed = study.scene.render.seed if args.seed is None else args.seed
+    written: list[Path] = []
+    if args.aov:
+        from render.aov import render_aovs, write_aov_previews
+
+        camera = study.camera(view.name, args.width)
+        aovs = render_aovs(study.mesh, study.bvh, camera, samples_per_pixel=spp, seed=seed)
+        written += list(write_aov_previews(aovs, out, _slug(view.name)))
+    setup = _setup_from_args(study, args)
+    rendered = study.render_view(view.name, setup, samples_per_pixel=spp, seed=seed, width_px=args.width, progress=True)
+    stem = _slug(f"{view.name}-{rendered.setup or 'scene'}")
+    written += _write_rendered(rendered, out, stem, study)
+    Y = rendered.colorimetry.luminance_cd_m2
+    print(f"{view.name}: {Y.shape[1]}x{Y.shape[0]} px, {spp} samples/px; luminance mean {Y.mean():.3g} cd/m², "
+          f"median {np.median(Y):.3g} cd/m², max {Y.max():.3g} cd/m²")
+    for path in written:
+        print(path)
+    return 0
+
+
+def cmd_relight(args) -> int:
+    """Render a view once, then re-light it for each setup without casting camera rays."""
+    import time
+
+    from render.study import Study
+
+    study = Study(args.scene)
+    view = study.scene.view(args.view)
+    out = _out_dir(args.out, Path(args.scene).stem)
+    names = args.setups or list(study.scene.setups)
+    if not names:
+        raise input_error(args.scene, "setups", "the scene has no [setups.NAME]; name setups with --setup")
+    first = study.render_view(view.name, names[0], samples_per_pixel=args.spp, width_px=args.width, progress=True)
+    written = _write_rendered(first, out, _slug(f"{view.name}-{names[0]}"), study)
+    for name in names[1:]:
+        t0 = time.perf_counter()
+        relit = study.relight(first, name)
+        dt = time.perf_counter() - t0
+        written += _write_rendered(relit, out, _slug(f"{view.name}-{name}"), study)
+        print(f"relit {view.name} for {name} in {dt * 1000:.0f} ms", file=sys.stderr)
     for path in written:
         print(path)
     return 0
@@ -150,8 +206,8 @@ def cmd_demo(args) -> int:
     ns = argparse.Namespace(scene=str(DEMO_SCENE))
     cmd_check(ns)
     print()
-    ns = argparse.Namespace(scene=str(DEMO_SCENE), view=None, out=args.out or "outputs/demo", aov=True, spp=1, seed=None, width=args.width)
-    return cmd_render(ns)
+    ns = argparse.Namespace(scene=str(DEMO_SCENE), view=None, out=args.out or "outputs/demo", setups=None, spp=None, width=args.width)
+    return cmd_relight(ns)
 
 
 DEMO_LAMPS = ("sodium-low-pressure", "sodium-high-pressure-cie-hp1", "led-3000k-cie-b2")
@@ -189,15 +245,26 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("scene", help="scene file (TOML)")
     p.set_defaults(func=cmd_check)
 
-    p = sub.add_parser("render", help="render one view of a scene")
+    p = sub.add_parser("render", help="render one view of a scene (absolute X, Y, Z, scotopic EXR and a preview)")
     p.add_argument("scene", help="scene file (TOML)")
     p.add_argument("--view", help="view name (default: the scene's first view)")
-    p.add_argument("--aov", action="store_true", help="write depth, normal, material-id and object-id images and arrays")
+    p.add_argument("--setup", help="a setup named in the scene's [setups] (default: the lamps the scene gives)")
+    p.add_argument("--lamp", help="one lamp id (or spectrum file) for every luminaire")
+    p.add_argument("--aov", action="store_true", help="also write depth, normal, material-id and object-id images and arrays")
     p.add_argument("--spp", type=int, help="samples per pixel (default: the scene's render.samples_per_pixel)")
     p.add_argument("--seed", type=int, help="random seed (default: the scene's render.seed)")
     p.add_argument("--width", type=int, help="override the image width in pixels (height keeps the aspect ratio)")
     p.add_argument("--out", help="output folder (default outputs/SCENE)")
     p.set_defaults(func=cmd_render)
+
+    p = sub.add_parser("relight", help="render a view once and re-light it for several setups without casting camera rays")
+    p.add_argument("scene", help="scene file (TOML)")
+    p.add_argument("--view", help="view name (default: the scene's first view)")
+    p.add_argument("--setup", dest="setups", action="append", metavar="NAME", help="setup to render (repeat; default: every setup in the scene)")
+    p.add_argument("--spp", type=int, help="samples per pixel")
+    p.add_argument("--width", type=int, help="override the image width in pixels")
+    p.add_argument("--out", help="output folder (default outputs/SCENE)")
+    p.set_defaults(func=cmd_relight)
 
     p = sub.add_parser("demo", help="run the main job on the bundled demo street (outputs/demo)")
     p.add_argument("--out", help="output folder (default outputs/demo)")

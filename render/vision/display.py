@@ -1,0 +1,196 @@
+"""Display encoding: chromatic adaptation to the display white, sRGB, gamut mapping, PNG.
+
+* Chromatic adaptation: CAT16 (Li et al. 2017, Color Res. Appl. 42(6); matrix from
+  colour-science ``colour.adaptation.CAT_CAT16``) in its one-step von Kries form with a degree
+  of adaptation D, toward the display white:
+  ``RGB_out = [D·R_wd/R_ws + 1 − D]·RGB`` (both whites at Y = 1). With D = 1 this is
+  colour-science's ``chromatic_adaptation(..., method='Von Kries', transform='CAT16')``; with
+  any D the source white is kept as it is when it equals the display white, so a neutral under
+  D65 is a neutral grey on the display.
+* sRGB: IEC 61966-2-1:1999 -- the XYZ-to-RGB matrix as colour-science gives it
+  (``RGB_COLOURSPACE_sRGB.matrix_XYZ_to_RGB``, the IEC 4-digit matrix), D65 white, and the
+  piecewise transfer curve ``12.92·x`` (x ≤ 0.0031308) / ``1.055·x^(1/2.4) − 0.055``.
+* Gamut mapping: colours outside sRGB (a low-pressure sodium lamp's near-monochromatic light
+  is far outside) keep their Oklab lightness and hue (Ottosson 2020, "A perceptual color space
+  for image processing"; colour-science ``XYZ_to_Oklab``) and lose chroma until they fit:
+  bisection on chroma in OkLCh, as in the gamut-mapping algorithm of the W3C CSS Color Module
+  Level 4 (without its just-noticeable-difference clipping shortcut). Lightness is first
+  clipped to [0, 1].
+* PNG: written by a small encoder here (PNG specification, ISO/IEC 15948:2004 / W3C PNG 2nd
+  ed.: signature, IHDR, sRGB chunk, tEXt chunks, zlib IDAT, IEND) for 8- and 16-bit RGB,
+  atomically: a temporary file in the destination folder, flushed and fsynced, then
+  ``os.replace``.
+"""
+
+from __future__ import annotations
+
+import os
+import struct
+import tempfile
+import zlib
+from functools import lru_cache
+from pathlib import Path
+from typing import Mapping
+
+import numpy as np
+
+
+@lru_cache(maxsize=1)
+def _constants():
+    import colour
+
+    cs = colour.models.RGB_COLOURSPACE_sRGB
+    xyz_to_rgb = np.asarray(cs.matrix_XYZ_to_RGB, dtype=np.float64)
+    # Exact inverse (the standard's two 4-digit matrices are not exact inverses of each other).
+    rgb_to_xyz = np.linalg.inv(xyz_to_rgb)
+    # Display white = the XYZ of R = G = B = 1 through that matrix (xy within 1e-4 of the
+    # standard's 0.3127, 0.3290), so that neutrals come out with exactly equal channels.
+    white = rgb_to_xyz @ np.ones(3)
+    white = white / white[1]
+    cat16 = np.asarray(colour.adaptation.CAT_CAT16, dtype=np.float64)
+    return xyz_to_rgb, rgb_to_xyz, white, cat16
+
+
+def display_white_xyz() -> np.ndarray:
+    """XYZ of the sRGB display white, Y = 1: R = G = B = 1 through the IEC matrix (D65,
+    x, y = 0.3127, 0.3290 to within 1e-4)."""
+    return _constants()[2].copy()
+
+
+def chromatic_adaptation_cat16(xyz, source_white_xyz, degree: float,
+                               destination_white_xyz=None) -> np.ndarray:
+    """One-step CAT16 von Kries adaptation with degree D from a source to a destination white.
+
+    ``xyz`` (..., 3) any scale; whites are normalised to Y = 1 internally. Destination default:
+    the sRGB display white.
+    """
+    _, _, d65, m = _constants()
+    ws = np.asarray(source_white_xyz, dtype=np.float64)
+    wd = d65 if destination_white_xyz is None else np.asarray(destination_white_xyz, dtype=np.float64)
+    ws = ws / ws[1]
+    wd = wd / wd[1]
+    rs = m @ ws
+    rd = m @ wd
+    gain = degree * rd / rs + (1.0 - degree)
+    full = np.linalg.inv(m) @ np.diag(gain) @ m
+    return np.asarray(xyz, dtype=np.float64) @ full.T
+
+
+def xyz_to_linear_srgb(xyz) -> np.ndarray:
+    """Linear sRGB of relative XYZ (display white Y = 1), IEC 61966-2-1 matrix."""
+    return np.asarray(xyz, dtype=np.float64) @ _constants()[0].T
+
+
+def linear_srgb_to_xyz(rgb) -> np.ndarray:
+    """Inverse of :func:`xyz_to_linear_srgb`."""
+    return np.asarray(rgb, dtype=np.float64) @ _constants()[1].T
+
+
+def srgb_encode(linear) -> np.ndarray:
+    """IEC 61966-2-1 sRGB transfer curve (input clipped to [0, 1])."""
+    x = np.clip(np.asarray(linear, dtype=np.float64), 0.0, 1.0)
+    return np.where(x <= 0.0031308, 12.92 * x, 1.055 * np.power(x, 1.0 / 2.4) - 0.055)
+
+
+def srgb_decode(encoded) -> np.ndarray:
+    """Inverse of :func:`srgb_encode`."""
+    v = np.clip(np.asarray(encoded, dtype=np.float64), 0.0, 1.0)
+    return np.where(v <= 0.04045, v / 12.92, ((v + 0.055) / 1.055) ** 2.4)
+
+
+def quantise(encoded, bits: int) -> np.ndarray:
+    """Round encoded values in [0, 1] to unsigned integers of 8 or 16 bits."""
+    if bits not in (8, 16):
+        raise ValueError("bits must be 8 or 16")
+    top = (1 << bits) - 1
+    out = np.rint(np.clip(np.asarray(encoded, dtype=np.float64), 0.0, 1.0) * top)
+    return out.astype(np.uint8 if bits == 8 else np.uint16)
+
+
+def _in_gamut(rgb, tol):
+    return np.all((rgb >= -tol) & (rgb <= 1.0 + tol), axis=-1)
+
+
+def gamut_map_oklab(xyz, iterations: int = 30, tol: float = 1e-9) -> tuple[np.ndarray, np.ndarray]:
+    """Linear sRGB in [0, 1] for relative XYZ, out-of-gamut colours mapped at constant Oklab
+    lightness and hue (chroma reduced by bisection). Returns ``(rgb, was_out_of_gamut)``."""
+    import colour
+
+    xyz = np.asarray(xyz, dtype=np.float64)
+    rgb = xyz_to_linear_srgb(xyz)
+    out = ~_in_gamut(rgb, tol)
+    if np.any(out):
+        lab = np.asarray(colour.XYZ_to_Oklab(xyz[out]), dtype=np.float64)
+        lightness = np.clip(lab[:, 0], 0.0, 1.0)
+        chroma = np.hypot(lab[:, 1], lab[:, 2])
+        hue = np.arctan2(lab[:, 2], lab[:, 1])
+        lo = np.zeros_like(chroma)
+        hi = chroma.copy()
+
+        def rgb_at(c):
+            ok = np.stack([lightness, c * np.cos(hue), c * np.sin(hue)], axis=-1)
+            return xyz_to_linear_srgb(np.asarray(colour.Oklab_to_XYZ(ok), dtype=np.float64))
+
+        for _ in range(iterations):
+            mid = 0.5 * (lo + hi)
+            inside = _in_gamut(rgb_at(mid), tol)
+            lo = np.where(inside, mid, lo)
+            hi = np.where(inside, hi, mid)
+        rgb[out] = rgb_at(lo)
+    return np.clip(rgb, 0.0, 1.0), out
+
+
+# --------------------------------------------------------------------------------------- PNG
+
+def _chunk(kind: bytes, data: bytes) -> bytes:
+    return struct.pack(">I", len(data)) + kind + data + struct.pack(">I", zlib.crc32(kind + data) & 0xFFFFFFFF)
+
+
+def png_bytes(image: np.ndarray, text: Mapping[str, str] | None = None) -> bytes:
+    """PNG file contents for an (H, W, 3) uint8 or uint16 RGB image with tEXt metadata.
+
+    Declares sRGB (sRGB chunk, perceptual intent). Keywords must be 1-79 Latin-1 characters;
+    text is Latin-1 (characters outside it are replaced by '?').
+    """
+    img = np.asarray(image)
+    if img.ndim != 3 or img.shape[2] != 3 or img.dtype not in (np.uint8, np.uint16):
+        raise ValueError("expected an (H, W, 3) uint8 or uint16 array")
+    h, w, _ = img.shape
+    depth = 8 if img.dtype == np.uint8 else 16
+    raw = img.astype(">u2").tobytes() if depth == 16 else img.tobytes()
+    stride = w * 3 * (depth // 8)
+    rows = np.frombuffer(raw, dtype=np.uint8).reshape(h, stride)
+    filtered = np.concatenate([np.zeros((h, 1), np.uint8), rows], axis=1)  # filter type 0
+    parts = [b"\x89PNG\r\n\x1a\n",
+             _chunk(b"IHDR", struct.pack(">IIBBBBB", w, h, depth, 2, 0, 0, 0)),
+             _chunk(b"sRGB", b"\x00")]
+    for key, value in (text or {}).items():
+        k = str(key).encode("latin-1", "replace")
+        if not 1 <= len(k) <= 79 or b"\x00" in k:
+            raise ValueError(f"bad PNG text keyword {key!r}")
+        parts.append(_chunk(b"tEXt", k + b"\x00" + str(value).encode("latin-1", "replace")))
+    parts.append(_chunk(b"IDAT", zlib.compress(filtered.tobytes(), 6)))
+    parts.append(_chunk(b"IEND", b""))
+    return b"".join(parts)
+
+
+def write_png(path: str | Path, image: np.ndarray, text: Mapping[str, str] | None = None) -> Path:
+    """Write an 8- or 16-bit RGB PNG atomically (temp file in the same folder + os.replace)."""
+    path = Path(path)
+    data = png_bytes(image, text)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix="." + path.name + ".", suffix=".tmp", dir=path.parent)
+    try:
+        with os.fdopen(fd, "wb") as fh:
+            fh.write(data)
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.chmod(tmp, 0o644)  # mkstemp makes 0600; an image is for sharing
+        os.replace(tmp, path)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except FileNotFoundError:
+            pass
+        raise
+    return path

@@ -1,0 +1,134 @@
+"""False-colour luminance maps with a labelled legend in cd/m².
+
+The colour ramp is lampcast's own: a path in OkLCh (Oklab, Ottosson 2020, in polar form) from a
+dark blue-violet to a light yellow through teal,
+
+    L(t) = 0.22 + 0.72·t,   h(t) = 275° − 180°·t,   C(t) = 0.075 + 0.055·sin(π·t),
+
+each point brought into the sRGB gamut at constant lightness and hue
+(:func:`render.vision.display.gamut_map_oklab`), then re-spaced so that consecutive entries are
+equally far apart in Oklab (perceptually even steps). Lightness rises monotonically from end to
+end, which is the cue that survives colour-vision deficiency; hue runs along the blue-yellow
+direction that protan and deutan observers keep. ``tests/test_vision_falsecolour.py`` checks
+monotone CIE L* for normal vision and under the Machado et al. (2009) simulations of
+protanopia, deuteranopia and tritanopia.
+
+Luminance is mapped on a log10 scale between two decades (automatic: the decades around the
+0.5th and 99.5th percentiles of the positive values, at least one decade apart, or given).
+"""
+
+from __future__ import annotations
+
+import math
+from functools import lru_cache
+
+import numpy as np
+
+from render.vision.display import gamut_map_oklab, srgb_decode, srgb_encode
+
+RAMP_LIGHTNESS = (0.22, 0.94)
+RAMP_HUE_DEG = (275.0, 95.0)
+RAMP_CHROMA = (0.075, 0.055)
+
+
+def _ramp_raw(t: np.ndarray) -> np.ndarray:
+    import colour
+
+    lightness = RAMP_LIGHTNESS[0] + (RAMP_LIGHTNESS[1] - RAMP_LIGHTNESS[0]) * t
+    hue = np.radians(RAMP_HUE_DEG[0] + (RAMP_HUE_DEG[1] - RAMP_HUE_DEG[0]) * t)
+    chroma = RAMP_CHROMA[0] + RAMP_CHROMA[1] * np.sin(np.pi * t)
+    lab = np.stack([lightness, chroma * np.cos(hue), chroma * np.sin(hue)], axis=-1)
+    rgb, _ = gamut_map_oklab(np.asarray(colour.Oklab_to_XYZ(lab), dtype=np.float64))
+    return rgb
+
+
+@lru_cache(maxsize=8)
+def luminance_ramp(n: int = 256) -> np.ndarray:
+    """The false-colour ramp, (n, 3) linear sRGB, perceptually evenly spaced (Oklab)."""
+    import colour
+
+    from render.vision.display import linear_srgb_to_xyz
+
+    t = np.linspace(0.0, 1.0, 2001)
+    rgb = _ramp_raw(t)
+    lab = np.asarray(colour.XYZ_to_Oklab(linear_srgb_to_xyz(rgb)), dtype=np.float64)
+    arc = np.concatenate([[0.0], np.cumsum(np.linalg.norm(np.diff(lab, axis=0), axis=1))])
+    even = np.interp(np.linspace(0.0, arc[-1], n), arc, t)
+    out = _ramp_raw(even)
+    out.setflags(write=False)
+    return out
+
+
+def auto_range_decades(luminance_cd_m2: np.ndarray) -> tuple[float, float]:
+    """(lo, hi) in cd/m², whole decades bracketing the 0.5-99.5 % range of positive values."""
+    v = np.asarray(luminance_cd_m2, dtype=np.float64)
+    v = v[np.isfinite(v) & (v > 0)]
+    if v.size == 0:
+        return 0.01, 10.0
+    lo = math.floor(math.log10(np.percentile(v, 0.5)))
+    hi = math.ceil(math.log10(np.percentile(v, 99.5)))
+    if hi <= lo:
+        hi = lo + 1
+    return 10.0**lo, 10.0**hi
+
+
+def false_colour(luminance_cd_m2: np.ndarray, lo_cd_m2: float, hi_cd_m2: float, n: int = 256) -> np.ndarray:
+    """Linear sRGB false-colour image (..., 3) of luminance on a log scale [lo, hi]."""
+    ramp = luminance_ramp(n)
+    v = np.maximum(np.asarray(luminance_cd_m2, dtype=np.float64), 1e-300)
+    t = (np.log10(v) - math.log10(lo_cd_m2)) / (math.log10(hi_cd_m2) - math.log10(lo_cd_m2))
+    idx = np.clip(np.rint(t * (n - 1)), 0, n - 1).astype(np.int64)
+    return ramp[idx]
+
+
+def _format_cd(v: float) -> str:
+    if v >= 1:
+        return f"{v:g}"
+    return f"{v:.{max(0, -math.floor(math.log10(v)))}f}".rstrip("0").rstrip(".") if v >= 1e-4 else f"{v:.0e}"
+
+
+def legend_strip(height_px: int, lo_cd_m2: float, hi_cd_m2: float,
+                 label: str = "luminance (cd/m²)", width_px: int = 120) -> np.ndarray:
+    """A vertical legend (height_px, width_px, 3), linear sRGB: the ramp with decade ticks."""
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.colors import ListedColormap, LogNorm
+    from matplotlib.figure import Figure
+    import matplotlib.cm as cm
+
+    dpi = 100.0
+    fig = Figure(figsize=(width_px / dpi, height_px / dpi), dpi=dpi, facecolor="white")
+    canvas = FigureCanvasAgg(fig)
+    h = max(height_px, 1)
+    pad_px = min(12.0, 0.08 * h)
+    ax = fig.add_axes([0.08, pad_px / h, 0.18, max(1.0 - 2 * pad_px / h, 0.05)])
+    cmap = ListedColormap(srgb_encode(luminance_ramp(256)))
+    sm = cm.ScalarMappable(norm=LogNorm(lo_cd_m2, hi_cd_m2), cmap=cmap)
+    cb = fig.colorbar(sm, cax=ax)
+    decades = range(round(math.log10(lo_cd_m2)), round(math.log10(hi_cd_m2)) + 1)
+    ticks = [10.0**d for d in decades]
+    cb.set_ticks(ticks)
+    cb.set_ticklabels([_format_cd(t) for t in ticks])
+    cb.minorticks_off()
+    fontsize = max(5.0, min(9.0, h / 30.0))
+    ax.tick_params(labelsize=fontsize)
+    cb.set_label(label, fontsize=fontsize)
+    canvas.draw()
+    rgba = np.asarray(canvas.buffer_rgba())[..., :3].astype(np.float64) / 255.0
+    if rgba.shape[0] != height_px or rgba.shape[1] != width_px:  # rounding of figure size
+        out = np.ones((height_px, width_px, 3))
+        hh, ww = min(height_px, rgba.shape[0]), min(width_px, rgba.shape[1])
+        out[:hh, :ww] = rgba[:hh, :ww]
+        rgba = out
+    return srgb_decode(rgba)
+
+
+def false_colour_with_legend(luminance_cd_m2: np.ndarray, range_cd_m2: tuple[float, float] | None = None,
+                             label: str = "luminance (cd/m²)", legend_width_px: int = 120):
+    """False-colour image with its legend to the right: ``(image (H, W + legend, 3) linear
+    sRGB, (lo, hi))``."""
+    lo, hi = auto_range_decades(luminance_cd_m2) if range_cd_m2 is None else range_cd_m2
+    if not (0 < lo < hi):
+        raise ValueError("false-colour range must satisfy 0 < lo < hi (cd/m²)")
+    img = false_colour(luminance_cd_m2, lo, hi)
+    legend = legend_strip(img.shape[0], lo, hi, label, legend_width_px)
+    return np.concatenate([img, legend], axis=1), (lo, hi)

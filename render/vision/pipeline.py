@@ -1,0 +1,336 @@
+"""The night-vision stage end to end: absolute light buffers -> honest sRGB images.
+
+Order of the steps (each a pure function of explicit inputs, in its own module):
+
+1. **Disability glare** (:mod:`~render.vision.glare`, CIE 146:2002): light scattered in the eye
+   veils the retinal image. It comes first because it is optics: the veil reaches the retina
+   and so counts in the adaptation level and in the cone and rod signals.
+2. **Adaptation** (:mod:`~render.vision.adaptation`, CIE TN 007:2017 / CIE 191:2010): mean
+   photopic and scotopic luminance of the central field of the veiled view, luminaires
+   excluded, or the observer's override; MES2 solve for m; adapting white; pupil; degree D.
+3. **Mesopic luminance** per pixel with that m (:mod:`~render.vision.mesopic`, CIE 191:2010).
+4. **Colour appearance under rod intrusion** (:mod:`~render.vision.appearance`, Cao et al.
+   2008 / Kirk & O'Brien 2011).
+5. **Acuity loss** (:mod:`~render.vision.acuity`, Ward Larson et al. 1997).
+6. **Display** (:mod:`~render.vision.tonemap`, :mod:`~render.vision.display`): CAT16 to the
+   display white with degree D, Ward (1994) contrast-based scale factor (or a fixed exposure),
+   highlight roll-off, Oklab gamut mapping, IEC 61966-2-1 encoding, 8/16-bit PNG.
+
+Modes: ``adapted`` (each image for an observer adapted to it), ``shared`` (one adaptation state
+and one scale factor for a set of images, :func:`shared_display`), ``photometric`` (false-colour
+luminance with a legend, :mod:`~render.vision.falsecolour`) and ``fixed`` (a given linear
+exposure, no highlight roll-off: for checks against colorimetry).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Sequence
+
+import numpy as np
+
+from render.errors import InputError, Problem, did_you_mean
+from render.vision import acuity as _acuity
+from render.vision import adaptation as _adaptation
+from render.vision import appearance as _appearance
+from render.vision import display as _display
+from render.vision import falsecolour as _falsecolour
+from render.vision import glare as _glare
+from render.vision import mesopic as _mesopic
+from render.vision import tonemap as _tonemap
+from render.vision.observer import ObserverSettings
+from render.vision.view import ViewGeometry
+
+MODES = ("adapted", "shared", "photometric", "fixed")
+PHOTOMETRIC_QUANTITIES = ("photopic", "mesopic", "scotopic")
+
+
+@dataclass
+class LightBuffers:
+    """The renderer's output for one view (the vision stage's input contract).
+
+    Attributes
+    ----------
+    xyz_cd_m2
+        (H, W, 3) absolute CIE 1931 XYZ, Y = photopic luminance in cd/m², luminaire openings
+        included at their true luminance.
+    scotopic_cd_m2
+        (H, W) scotopic luminance K'm·Σ L(λ)V'(λ)Δλ, cd/m² (scotopic).
+    luminaire_mask
+        Optional (H, W) bool, true on luminaire openings (else found by a luminance threshold).
+    lms_cd_m2
+        Optional (H, W, 3) exact cone signals, the renderer's integral against
+        :func:`render.vision.appearance.extra_channel_weights`.
+    white_xyz, white_scotopic
+        Optional adapting white (e.g. the lamp light on a perfect white diffuser): XYZ (3,)
+        and scotopic luminance on one scale. Default: grey world over the adaptation field.
+    """
+
+    xyz_cd_m2: np.ndarray
+    scotopic_cd_m2: np.ndarray
+    luminaire_mask: np.ndarray | None = None
+    lms_cd_m2: np.ndarray | None = None
+    white_xyz: np.ndarray | None = None
+    white_scotopic: float | None = None
+
+    def check(self, geometry: ViewGeometry) -> None:
+        """Raise ``ValueError`` (a renderer bug, not a user mistake) on inconsistent shapes."""
+        h, w = geometry.height_px, geometry.width_px
+        if np.shape(self.xyz_cd_m2) != (h, w, 3):
+            raise ValueError(f"xyz_cd_m2 has shape {np.shape(self.xyz_cd_m2)}, expected {(h, w, 3)}")
+        if np.shape(self.scotopic_cd_m2) != (h, w):
+            raise ValueError(f"scotopic_cd_m2 has shape {np.shape(self.scotopic_cd_m2)}, expected {(h, w)}")
+        if self.luminaire_mask is not None and np.shape(self.luminaire_mask) != (h, w):
+            raise ValueError("luminaire_mask must be (H, W)")
+        if self.lms_cd_m2 is not None and np.shape(self.lms_cd_m2) != (h, w, 3):
+            raise ValueError("lms_cd_m2 must be (H, W, 3)")
+
+
+@dataclass
+class DisplayResult:
+    """Display-referred output of the vision stage for one view.
+
+    Attributes
+    ----------
+    linear_srgb
+        (H, W', 3) linear sRGB in [0, 1] (W' > W in photometric mode: legend to the right).
+    srgb8, srgb16
+        IEC 61966-2-1 encoded, quantised to uint8 and uint16.
+    state
+        The adaptation state used (``None`` in photometric mode).
+    diagnostics
+        Numbers worth reporting (scale factor, glare fraction, out-of-gamut share, ...).
+    """
+
+    linear_srgb: np.ndarray
+    srgb8: np.ndarray
+    srgb16: np.ndarray
+    state: _adaptation.AdaptationState | None
+    diagnostics: dict = field(default_factory=dict)
+
+    def png_text(self, extra: dict | None = None) -> dict:
+        """tEXt metadata describing how the image was made."""
+        text = {"Software": "lampcast vision stage"}
+        for key, value in self.diagnostics.items():
+            text[f"lampcast.{key}"] = _fmt(value)
+        if self.state is not None:
+            for key, value in self.state.as_dict().items():
+                text[f"lampcast.{key}"] = _fmt(value)
+        text.update(extra or {})
+        return text
+
+    def write_png(self, path: str | Path, bits: int = 8, extra_text: dict | None = None) -> Path:
+        """Write the image as an 8- or 16-bit sRGB PNG (atomic) with metadata."""
+        img = self.srgb8 if bits == 8 else self.srgb16 if bits == 16 else None
+        if img is None:
+            raise ValueError("bits must be 8 or 16")
+        return _display.write_png(path, img, self.png_text(extra_text))
+
+
+def _fmt(value) -> str:
+    if isinstance(value, float):
+        return f"{value:.6g}"
+    if isinstance(value, (list, tuple)):
+        return " ".join(_fmt(v) for v in value)
+    return str(value)
+
+
+def _check_mode(mode: str) -> None:
+    if mode not in MODES:
+        raise InputError(Problem("vision", "mode", f"expected one of {', '.join(MODES)}, got {mode!r}"
+                                 + did_you_mean(str(mode), MODES)))
+
+
+# ------------------------------------------------------------------------------ the steps
+
+def retinal_image(buffers: LightBuffers, geometry: ViewGeometry, observer: ObserverSettings):
+    """Step 1: the view as imaged on the retina, with disability glare if enabled.
+
+    Returns ``(xyz, scotopic, lms or None, diagnostics)``.
+    """
+    xyz = np.asarray(buffers.xyz_cd_m2, dtype=np.float64)
+    scot = np.asarray(buffers.scotopic_cd_m2, dtype=np.float64)
+    lms = None if buffers.lms_cd_m2 is None else np.asarray(buffers.lms_cd_m2, dtype=np.float64)
+    if not observer.glare:
+        return xyz, scot, lms, {"glare": "off"}
+    parts = [xyz, scot[..., None]] + ([lms] if lms is not None else [])
+    out, veil, frac = _glare.retinal_channels(np.concatenate(parts, axis=-1), geometry,
+                                              age_years=observer.age_years,
+                                              pigmentation=observer.pigmentation,
+                                              model=observer.glare_model)
+    diag = {"glare": observer.glare_model, "glare_scattered_fraction": frac,
+            "glare_veil_max_cd_m2": float(veil[..., 1].max()),
+            "glare_veil_mean_cd_m2": float(veil[..., 1].mean())}
+    return out[..., :3], out[..., 3], (out[..., 4:7] if lms is not None else None), diag
+
+
+def exclusion_mask(buffers: LightBuffers, observer: ObserverSettings) -> np.ndarray:
+    """Luminaire openings to leave out of the adaptation field (mask, else threshold)."""
+    if buffers.luminaire_mask is not None:
+        return np.asarray(buffers.luminaire_mask, dtype=bool)
+    return _adaptation.luminaire_mask(buffers.xyz_cd_m2, observer.luminaire_threshold_cd_m2)
+
+
+def measure_adaptation(retina_xyz, retina_scot, geometry: ViewGeometry, observer: ObserverSettings,
+                       exclude: np.ndarray | None, buffers: LightBuffers | None = None):
+    """Step 2: the adaptation state of one view (see :func:`render.vision.adaptation.adaptation_state`)."""
+    white = (None, None) if buffers is None else (buffers.white_xyz, buffers.white_scotopic)
+    return _adaptation.adaptation_state(
+        retina_xyz, retina_scot, geometry, field_deg=observer.adaptation_field_deg, exclude=exclude,
+        override_cd_m2=observer.adaptation_cd_m2, white_xyz=white[0], white_scotopic=white[1],
+        chromatic_adaptation_degree=observer.chromatic_adaptation_degree)
+
+
+def perceived_xyz(retina_xyz, retina_scot, state: _adaptation.AdaptationState, observer: ObserverSettings,
+                  lms=None) -> tuple[np.ndarray, np.ndarray]:
+    """Steps 3-4: perceived colour as XYZ with Y = MES2 luminance; returns ``(xyz, L_mes)``."""
+    lmes = _mesopic.mesopic_image(retina_xyz[..., 1], retina_scot, state.m)
+    xyz = _appearance.rod_intrusion(retina_xyz, retina_scot, lmes, state, lms_cd_m2=lms,
+                                    enabled=observer.rod_intrusion)
+    return xyz, lmes
+
+
+def display_scale(state: _adaptation.AdaptationState, observer: ObserverSettings, mode: str,
+                  exposure: float | None) -> float:
+    """Display cd/m² per perceived scene cd/m²: Ward (1994) for the state, or ``exposure``."""
+    if mode == "fixed":
+        if exposure is None or not exposure > 0:
+            raise InputError(Problem("vision", "exposure", "mode 'fixed' needs an exposure > 0 "
+                                     "(display cd/m² per scene cd/m²)"))
+        return float(exposure)
+    return _tonemap.ward_scale_factor(state.mesopic_cd_m2, observer.display_peak_cd_m2)
+
+
+def to_display(xyz_perceived, state: _adaptation.AdaptationState, observer: ObserverSettings,
+               scale: float, rolloff: bool = True) -> tuple[np.ndarray, dict]:
+    """Step 6: chromatic adaptation, tone scale, gamut mapping -> linear sRGB in [0, 1]."""
+    adapted = _display.chromatic_adaptation_cat16(xyz_perceived, state.white_xyz,
+                                                  state.chromatic_adaptation_degree)
+    rel = _tonemap.to_display_relative(adapted, scale, observer.display_peak_cd_m2,
+                                       knee=_tonemap.HIGHLIGHT_KNEE if rolloff else None)
+    rgb, out = _display.gamut_map_oklab(rel)
+    return rgb, {"display_scale": scale, "out_of_gamut_fraction": float(out.mean())}
+
+
+def _encode(linear):
+    enc = _display.srgb_encode(linear)
+    return _display.quantise(enc, 8), _display.quantise(enc, 16)
+
+
+def _map_with_state(buffers, geometry, observer, state, retina, mode, exposure):
+    xyz_r, scot_r, lms_r, diag = retina
+    xyz_p, lmes = perceived_xyz(xyz_r, scot_r, state, observer, lms_r)
+    if observer.acuity:
+        local = _acuity.local_adaptation_cd_m2(xyz_r[..., 1], geometry)
+        xyz_p, sigma = _acuity.apply_acuity(xyz_p, local, geometry)
+        diag["acuity_sigma_px_max"] = float(sigma.max())
+    else:
+        diag["acuity"] = "off"
+    scale = display_scale(state, observer, mode, exposure)
+    rgb, d2 = to_display(xyz_p, state, observer, scale, rolloff=(mode != "fixed"))
+    diag.update(d2)
+    diag["mode"] = mode
+    diag["mesopic_mean_cd_m2"] = float(lmes.mean())
+    s8, s16 = _encode(rgb)
+    return DisplayResult(rgb, s8, s16, state, diag)
+
+
+def photometric_display(buffers: LightBuffers, geometry: ViewGeometry, observer: ObserverSettings, *,
+                        quantity: str = "photopic", range_cd_m2: tuple[float, float] | None = None,
+                        state: _adaptation.AdaptationState | None = None) -> DisplayResult:
+    """False-colour map of the physical luminance (no eye effects) with a cd/m² legend.
+
+    ``quantity``: ``photopic`` (Y), ``scotopic`` or ``mesopic`` (MES2 with the view's
+    adaptation state, measured without glare unless ``state`` is given).
+    """
+    buffers.check(geometry)
+    if quantity not in PHOTOMETRIC_QUANTITIES:
+        raise InputError(Problem("vision", "quantity", f"expected one of {', '.join(PHOTOMETRIC_QUANTITIES)}, "
+                                 f"got {quantity!r}" + did_you_mean(str(quantity), PHOTOMETRIC_QUANTITIES)))
+    xyz = np.asarray(buffers.xyz_cd_m2, dtype=np.float64)
+    scot = np.asarray(buffers.scotopic_cd_m2, dtype=np.float64)
+    if quantity == "photopic":
+        lum, label = xyz[..., 1], "luminance (cd/m²)"
+    elif quantity == "scotopic":
+        lum, label = scot, "scotopic luminance (cd/m²)"
+    else:
+        if state is None:
+            state = measure_adaptation(xyz, scot, geometry, observer, exclusion_mask(buffers, observer), buffers)
+        lum, label = _mesopic.mesopic_image(xyz[..., 1], scot, state.m), "mesopic luminance (cd/m²)"
+    img, (lo, hi) = _falsecolour.false_colour_with_legend(lum, range_cd_m2, label)
+    s8, s16 = _encode(img)
+    return DisplayResult(img, s8, s16, None, {"mode": "photometric", "quantity": quantity,
+                                               "range_lo_cd_m2": lo, "range_hi_cd_m2": hi})
+
+
+def render_display(buffers: LightBuffers, view_geometry: ViewGeometry,
+                   observer: ObserverSettings | None = None, mode: str = "adapted", *,
+                   state: _adaptation.AdaptationState | None = None, exposure: float | None = None,
+                   photometric_quantity: str = "photopic",
+                   photometric_range_cd_m2: tuple[float, float] | None = None) -> DisplayResult:
+    """Turn one view's light buffers into a display image.
+
+    Parameters
+    ----------
+    buffers
+        The renderer's :class:`LightBuffers`.
+    view_geometry
+        The view's :class:`ViewGeometry`.
+    observer
+        :class:`ObserverSettings` (default settings if ``None``).
+    mode
+        ``adapted``, ``shared`` (needs ``state``; see :func:`shared_display`), ``photometric``
+        or ``fixed`` (needs ``exposure``).
+    state
+        An adaptation state to use instead of measuring one (``shared`` mode).
+    exposure
+        ``fixed`` mode: display cd/m² per perceived scene cd/m².
+    photometric_quantity, photometric_range_cd_m2
+        ``photometric`` mode: which luminance and the legend range (default automatic).
+
+    Returns
+    -------
+    DisplayResult
+        Linear and encoded sRGB, the adaptation state and diagnostics.
+    """
+    observer = observer or ObserverSettings()
+    _check_mode(mode)
+    buffers.check(view_geometry)
+    if mode == "photometric":
+        return photometric_display(buffers, view_geometry, observer, quantity=photometric_quantity,
+                                   range_cd_m2=photometric_range_cd_m2)
+    if mode == "shared" and state is None:
+        raise ValueError("mode 'shared' needs the shared adaptation state; use shared_display()")
+    retina = retinal_image(buffers, view_geometry, observer)
+    if state is None:
+        state = measure_adaptation(retina[0], retina[1], view_geometry, observer,
+                                   exclusion_mask(buffers, observer), buffers)
+    return _map_with_state(buffers, view_geometry, observer, state, retina, mode, exposure)
+
+
+def shared_display(buffers_list: Sequence[LightBuffers], view_geometries: Sequence[ViewGeometry] | ViewGeometry,
+                   observer: ObserverSettings | None = None) -> list[DisplayResult]:
+    """Map a set of views (e.g. before and after) with **one** adaptation state and scale.
+
+    The state comes from the views' adaptation fields averaged with equal weight
+    (:func:`render.vision.adaptation.shared_adaptation_state`), after glare; then every view
+    is mapped with it, so their true brightness relation is kept.
+    """
+    observer = observer or ObserverSettings()
+    if isinstance(view_geometries, ViewGeometry):
+        view_geometries = [view_geometries] * len(buffers_list)
+    if len(view_geometries) != len(buffers_list):
+        raise ValueError("one view geometry per buffer set")
+    retinas = []
+    for b, g in zip(buffers_list, view_geometries):
+        b.check(g)
+        retinas.append(retinal_image(b, g, observer))
+    first = buffers_list[0]
+    state = _adaptation.shared_adaptation_state(
+        [(r[0], r[1], g, exclusion_mask(b, observer)) for r, g, b in zip(retinas, view_geometries, buffers_list)],
+        field_deg=observer.adaptation_field_deg, override_cd_m2=observer.adaptation_cd_m2,
+        white_xyz=first.white_xyz, white_scotopic=first.white_scotopic,
+        chromatic_adaptation_degree=observer.chromatic_adaptation_degree)
+    return [_map_with_state(b, g, observer, state, r, "shared", None)
+            for b, g, r in zip(buffers_list, view_geometries, retinas)]
