@@ -123,19 +123,66 @@ def _slug(text: str) -> str:
     return "".join(c if c.isalnum() or c in "-_" else "-" for c in text).strip("-") or "view"
 
 
-def _write_rendered(rendered, out: Path, stem: str, study) -> list[Path]:
-    import imageio.v3 as iio
+def _observer_from_args(study, args):
+    """The scene's observer with command-line overrides."""
+    from dataclasses import replace
 
-    from render.fileio import atomic_path
-    from render.hdr import linear_preview, write_exr
+    obs = study.observer
+    changes = {}
+    for arg, key in (("age", "age_years"), ("pigmentation", "pigmentation"), ("adaptation", "adaptation_cd_m2"),
+                     ("display_peak", "display_peak_cd_m2")):
+        value = getattr(args, arg, None)
+        if value is not None:
+            changes[key] = value
+    if getattr(args, "no_glare", False):
+        changes["glare"] = False
+    if getattr(args, "no_acuity", False):
+        changes["acuity"] = False
+    if not changes:
+        return obs
+    try:
+        return replace(obs, **changes)
+    except InputError as err:
+        raise InputError([type(p)("command line", f"--{p.where.replace('_years', '').replace('_cd_m2', '').replace('_', '-')}", p.message) for p in err.problems]) from None
 
-    meta = {"version": __version__, "scene": str(study.scene.path.name), "view": rendered.name,
-            "setup": rendered.setup or "(scene)"}
-    exr = write_exr(out / f"{stem}.exr", rendered.colorimetry, meta)
-    png = out / f"{stem}-linear.png"
-    with atomic_path(png) as tmp:
-        iio.imwrite(tmp, linear_preview(rendered.colorimetry), extension=".png")
-    return [exr, png]
+
+def image_metadata(study, rendered, mode: str, observer, seed: int, spp: int) -> dict[str, str]:
+    """PNG/EXR text metadata: how an image was made (no timestamps, so reruns are identical)."""
+    from render.provenance import scene_sha256
+
+    return {
+        "Software": f"lampcast {__version__}",
+        "lampcast.scene": study.scene.path.name,
+        "lampcast.scene_sha256": scene_sha256(study.scene.path),
+        "lampcast.setup": rendered.setup or "(scene)",
+        "lampcast.view": rendered.name,
+        "lampcast.mode": mode,
+        "lampcast.observer": f"age {observer.age_years:g} y, pigmentation {observer.pigmentation:g}, "
+                             f"display peak {observer.display_peak_cd_m2:g} cd/m², glare {'on' if observer.glare else 'off'}, "
+                             f"acuity {'on' if observer.acuity else 'off'}",
+        "lampcast.seed": str(seed),
+        "lampcast.samples_per_pixel": str(spp),
+    }
+
+
+def _write_rendered(rendered, out: Path, stem: str, study, displays: dict, meta: dict) -> list[Path]:
+    """EXR of the absolute light, and a PNG (8- and 16-bit) per display mode."""
+    from render.hdr import write_exr
+
+    written = [write_exr(out / f"{stem}.exr", rendered.colorimetry, {k.replace("lampcast.", ""): v for k, v in meta.items()})]
+    for mode, result in displays.items():
+        extra = {**meta, "lampcast.mode": mode}
+        written.append(result.write_png(out / f"{stem}-{mode}.png", 8, extra))
+        written.append(result.write_png(out / f"{stem}-{mode}-16bit.png", 16, extra))
+    return written
+
+
+def _luminance_line(rendered) -> str:
+    Y = rendered.colorimetry.luminance_cd_m2
+    lum = rendered.colorimetry.luminaire_mask
+    surf = Y[~lum] if lum is not None else Y
+    return (f"{rendered.name} / {rendered.setup or 'scene lamps'}: {Y.shape[1]}x{Y.shape[0]} px; luminance of surfaces seen: "
+            f"mean {surf.mean():.3g} cd/m², median {np.median(surf):.3g} cd/m²; brightest pixel {Y.max():.3g} cd/m²")
 
 
 def cmd_render(args) -> int:
@@ -146,6 +193,7 @@ def cmd_render(args) -> int:
     out = _out_dir(args.out, Path(args.scene).stem)
     spp = args.spp or study.scene.render.samples_per_pixel
     seed = study.scene.render.seed if args.seed is None else args.seed
+    observer = _observer_from_args(study, args)
     written: list[Path] = []
     if args.aov:
         from render.aov import render_aovs, write_aov_previews
@@ -155,11 +203,11 @@ def cmd_render(args) -> int:
         written += list(write_aov_previews(aovs, out, _slug(view.name)))
     setup = _setup_from_args(study, args)
     rendered = study.render_view(view.name, setup, samples_per_pixel=spp, seed=seed, width_px=args.width, progress=True)
+    modes = args.mode or ["adapted", "photometric"]
+    displays = {mode: study.display(rendered, mode, observer) for mode in modes}
     stem = _slug(f"{view.name}-{rendered.setup or 'scene'}")
-    written += _write_rendered(rendered, out, stem, study)
-    Y = rendered.colorimetry.luminance_cd_m2
-    print(f"{view.name}: {Y.shape[1]}x{Y.shape[0]} px, {spp} samples/px; luminance mean {Y.mean():.3g} cd/m², "
-          f"median {np.median(Y):.3g} cd/m², max {Y.max():.3g} cd/m²")
+    written += _write_rendered(rendered, out, stem, study, displays, image_metadata(study, rendered, "", observer, seed, spp))
+    print(_luminance_line(rendered))
     for path in written:
         print(path)
     return 0
@@ -177,14 +225,23 @@ def cmd_relight(args) -> int:
     names = args.setups or list(study.scene.setups)
     if not names:
         raise input_error(args.scene, "setups", "the scene has no [setups.NAME]; name setups with --setup")
-    first = study.render_view(view.name, names[0], samples_per_pixel=args.spp, width_px=args.width, progress=True)
-    written = _write_rendered(first, out, _slug(f"{view.name}-{names[0]}"), study)
+    spp = args.spp or study.scene.render.samples_per_pixel
+    seed = study.scene.render.seed
+    observer = _observer_from_args(study, args)
+    first = study.render_view(view.name, names[0], samples_per_pixel=spp, width_px=args.width, progress=True)
+    rendered = [first]
     for name in names[1:]:
         t0 = time.perf_counter()
-        relit = study.relight(first, name)
-        dt = time.perf_counter() - t0
-        written += _write_rendered(relit, out, _slug(f"{view.name}-{name}"), study)
-        print(f"relit {view.name} for {name} in {dt * 1000:.0f} ms", file=sys.stderr)
+        rendered.append(study.relight(first, name))
+        print(f"relit {view.name} for {name} in {(time.perf_counter() - t0) * 1000:.0f} ms (no camera rays)", file=sys.stderr)
+    # One adaptation state for all: the images keep their true brightness relation.
+    shared = study.display(rendered, "shared", observer)
+    photometric = study.display(rendered, "photometric", observer)
+    written = []
+    for r, sh, ph in zip(rendered, shared, photometric):
+        meta = image_metadata(study, r, "", observer, seed, spp)
+        written += _write_rendered(r, out, _slug(f"{view.name}-{r.setup}"), study, {"shared": sh, "photometric": ph}, meta)
+        print(_luminance_line(r))
     for path in written:
         print(path)
     return 0
@@ -214,6 +271,16 @@ DEMO_LAMPS = ("sodium-low-pressure", "sodium-high-pressure-cie-hp1", "led-3000k-
 
 
 # --- parser ----------------------------------------------------------------------------------
+
+def _observer_options(p) -> None:
+    g = p.add_argument_group("observer (defaults from the scene's [observer] table)")
+    g.add_argument("--age", type=float, metavar="YEARS", help="observer age (glare grows with age; CIE 146)")
+    g.add_argument("--pigmentation", type=float, metavar="P", help="eye pigmentation, 0 very dark ... 1 blue eyes")
+    g.add_argument("--adaptation", type=float, metavar="CD_M2", help="adaptation luminance instead of the measured one")
+    g.add_argument("--display-peak", type=float, metavar="CD_M2", help="luminance of the display's white (default 100)")
+    g.add_argument("--no-glare", action="store_true", help="leave out disability glare")
+    g.add_argument("--no-acuity", action="store_true", help="leave out the low-light loss of acuity")
+
 
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
@@ -251,10 +318,15 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--setup", help="a setup named in the scene's [setups] (default: the lamps the scene gives)")
     p.add_argument("--lamp", help="one lamp id (or spectrum file) for every luminaire")
     p.add_argument("--aov", action="store_true", help="also write depth, normal, material-id and object-id images and arrays")
+    p.add_argument("--mode", action="append", choices=("adapted", "shared", "photometric"),
+                   help="display mode (repeat for several; default adapted and photometric): adapted = for an eye adapted "
+                        "to this image; shared = one adaptation state for a set (the same as adapted for one image); "
+                        "photometric = false-colour luminance with a cd/m² legend")
     p.add_argument("--spp", type=int, help="samples per pixel (default: the scene's render.samples_per_pixel)")
     p.add_argument("--seed", type=int, help="random seed (default: the scene's render.seed)")
     p.add_argument("--width", type=int, help="override the image width in pixels (height keeps the aspect ratio)")
     p.add_argument("--out", help="output folder (default outputs/SCENE)")
+    _observer_options(p)
     p.set_defaults(func=cmd_render)
 
     p = sub.add_parser("relight", help="render a view once and re-light it for several setups without casting camera rays")
@@ -264,6 +336,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--spp", type=int, help="samples per pixel")
     p.add_argument("--width", type=int, help="override the image width in pixels")
     p.add_argument("--out", help="output folder (default outputs/SCENE)")
+    _observer_options(p)
     p.set_defaults(func=cmd_relight)
 
     p = sub.add_parser("demo", help="run the main job on the bundled demo street (outputs/demo)")

@@ -85,6 +85,9 @@ class ViewColorimetry:
 
     xyz_cd_m2: np.ndarray
     scotopic_cd_m2: np.ndarray
+    luminaire_mask: np.ndarray | None = None  # (H, W) bool: a luminous opening is seen
+    white_xyz: np.ndarray | None = None  # (3,) the lamp light on a white diffuser, cd/m²
+    white_scotopic: float | None = None
 
     @property
     def luminance_cd_m2(self) -> np.ndarray:
@@ -121,4 +124,16 @@ def resolve(buffers, factors: np.ndarray, lamp_spds: list[np.ndarray], reflectan
     _resolve_kernel(buffers.response, buffers.value_cd_m2, np.ascontiguousarray(factors, np.float64), lamp_of_channel,
                     np.ascontiguousarray(table), buffers.spp, out)
     out = out.reshape(buffers.height_px, buffers.width_px, 4)
-    return ViewColorimetry(np.ascontiguousarray(out[..., :3]), np.ascontiguousarray(out[..., 3]))
+    # The illuminant's colour: each channel's mean white-diffuser luminance over the lit surfaces
+    # seen, times the white response of its lamp.
+    surf = (buffers.response >= 0) & (buffers.response != buffers.emitter_response)
+    white = np.zeros(4)
+    if np.any(surf):
+        mean = buffers.value_cd_m2[surf].astype(np.float64).mean(axis=0) * factors
+        for c in range(len(lamp_spds)):
+            white += mean[c] * table[-1, lamp_of_channel[c]]
+    mask = (buffers.emitter >= 0).reshape(-1, buffers.spp).any(axis=1).reshape(buffers.height_px, buffers.width_px)
+    return ViewColorimetry(
+        np.ascontiguousarray(out[..., :3]), np.ascontiguousarray(out[..., 3]), mask,
+        white[:3] if white[1] > 0 else None, float(white[3]) if white[1] > 0 else None,
+    )

@@ -130,6 +130,41 @@ class Study:
             lights, buffers = rendered.lights, rendered.buffers
         return RenderedView(rendered.name, s.name if s else None, rendered.camera, buffers, lights, self.colorimetry(buffers, lights, s))
 
+    @property
+    def observer(self):
+        from render.vision.observer import ObserverSettings
+
+        return self.scene.observer or ObserverSettings()
+
+    def view_light(self, rendered: RenderedView):
+        """The vision stage's input for a rendered view."""
+        from render.vision.pipeline import ViewLight
+
+        c = rendered.colorimetry
+        return ViewLight(c.xyz_cd_m2, c.scotopic_cd_m2, luminaire_mask=c.luminaire_mask, white_xyz=c.white_xyz,
+                         white_scotopic=c.white_scotopic)
+
+    def display(self, rendered: list[RenderedView] | RenderedView, mode: str = "adapted", observer=None):
+        """Night-vision display images (:class:`render.vision.pipeline.DisplayResult`) of one or
+        several rendered views. ``shared`` gives all of them one adaptation state (their true
+        brightness relation); ``adapted`` adapts each to itself; ``photometric`` is false colour."""
+        from render.vision.pipeline import render_display, shared_display
+        from render.vision.view import ViewGeometry
+
+        items = rendered if isinstance(rendered, list) else [rendered]
+        observer = observer or self.observer
+        lights = [self.view_light(r) for r in items]
+        geoms = [ViewGeometry.of(r.camera) for r in items]
+        if mode == "shared":
+            results = shared_display(lights, geoms, observer)
+        elif mode == "photometric" and len(items) > 1:
+            top = max(float(np.percentile(x.xyz_cd_m2[..., 1], 99.5)) for x in lights)
+            low = max(top * 1e-3, 1e-4)
+            results = [render_display(x, g, observer, mode, photometric_range_cd_m2=(low, top)) for x, g in zip(lights, geoms)]
+        else:
+            results = [render_display(x, g, observer, mode) for x, g in zip(lights, geoms)]
+        return results if isinstance(rendered, list) else results[0]
+
     def illuminance_lx(self, points_m, normals, setup: str | Setup | None = None, *, shadows: bool = True, per_group: bool = False):
         """Direct illuminance (lx) at points on surfaces with the given unit normals, with the
         setup's lamps, lumens and dimming and the maintenance factor; shadows from the scene's

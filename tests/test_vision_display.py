@@ -18,7 +18,7 @@ from PIL import Image
 
 from render import observers
 from render.spectra import WAVELENGTHS_NM, deposit_lines
-from render.vision import LightBuffers, ObserverSettings, ViewGeometry, render_display
+from render.vision import ViewLight, ObserverSettings, ViewGeometry, render_display
 from render.vision import synthetic
 from render.vision.display import (
     chromatic_adaptation_cat16,
@@ -155,7 +155,7 @@ def _patch_scene(lamp: str, patch: str, white_cd_m2: float):
     img = np.empty((9, 9, 3))
     img[:] = xyz[0]
     simg = np.full((9, 9), s[0])
-    return LightBuffers(img, simg, white_xyz=wx, white_scotopic=ws), rho, spd
+    return ViewLight(img, simg, white_xyz=wx, white_scotopic=ws), rho, spd
 
 
 def _colour_science_srgb(rho, spd, degree):
@@ -203,7 +203,7 @@ def test_neutral_is_grey_at_default_settings(lamp):
     # default D it keeps a trace of E's colour relative to D65 (pinkish: R > G).
     spd = synthetic.illuminant_spd(lamp)
     xyz, s, wx, ws = synthetic.surface_buffers(np.full((1, spd.size), 0.2), spd, 300.0)
-    buffers = LightBuffers(np.broadcast_to(xyz[0], (9, 9, 3)).copy(), np.full((9, 9), s[0]),
+    buffers = ViewLight(np.broadcast_to(xyz[0], (9, 9, 3)).copy(), np.full((9, 9), s[0]),
                            white_xyz=wx, white_scotopic=ws)
     g = ViewGeometry(10.0, 9, 9)
     res = render_display(buffers, g, ObserverSettings(glare=False), mode="adapted")

@@ -13,7 +13,7 @@ import pytest
 from PIL import Image
 
 from render.errors import InputError
-from render.vision import LightBuffers, ObserverSettings, ViewGeometry, render_display, shared_display
+from render.vision import ViewLight, ObserverSettings, ViewGeometry, render_display, shared_display
 from render.vision import synthetic
 from render.vision.display import linear_srgb_to_xyz
 from render.vision.tonemap import blackwell_threshold_cd_m2, highlight_rolloff, ward_scale_factor
@@ -34,7 +34,7 @@ def street_like(scale=1.0, lantern=False):
     if lantern:
         img[2:4, 23:25] = xyz[1] / xyz[1][1] * 2e5
         simg[2:4, 23:25] = s[1] / xyz[1][1] * 2e5
-    return LightBuffers(img, simg)
+    return ViewLight(img, simg)
 
 
 def display_luminance(result):

@@ -21,7 +21,7 @@ ROOT = Path(__file__).resolve().parents[1]
 if str(ROOT) not in sys.path:
     sys.path.insert(0, str(ROOT))
 
-from render.vision import LightBuffers, ObserverSettings, ViewGeometry, render_display, shared_display  # noqa: E402
+from render.vision import ViewLight, ObserverSettings, ViewGeometry, render_display, shared_display  # noqa: E402
 from render.vision import synthetic  # noqa: E402
 from render.vision.display import write_png  # noqa: E402
 
@@ -35,7 +35,7 @@ def scene(lamp: str, white_cd_m2: float, patch_px: int = 24, gap_px: int = 4):
     img = synthetic.patch_image(xyz, 4, 6, patch_px, gap_px, background=xyz[ground])
     s = synthetic.patch_image(scot, 4, 6, patch_px, gap_px, background=scot[ground])
     # The lamp white is known here: pass it as the adapting white.
-    return LightBuffers(img, s, white_xyz=wx, white_scotopic=ws)
+    return ViewLight(img, s, white_xyz=wx, white_scotopic=ws)
 
 
 def main(argv=None) -> int:

@@ -19,7 +19,6 @@ from render.scene.model import (
     GroupSetting,
     Luminaire,
     Marking,
-    ObserverSettings,
     RenderSettings,
     Scene,
     Setup,
@@ -189,12 +188,6 @@ RENDER_SPEC = {
     "seed": Field("int", default=0, min=0, max=2**32 - 1),
 }
 
-OBSERVER_SPEC = {
-    "age_years": Field("float", default=40.0, unit="years", min=1.0, max=100.0),
-    "pigmentation": Field("float", default=0.5, min=0.0, max=1.0),
-    "adaptation_cd_m2": Field("float", default=None, unit="cd/m²", above=0.0),
-    "display_peak_cd_m2": Field("float", default=100.0, unit="cd/m²", above=0.0, max=10000.0),
-}
 
 SETUP_SPEC = {
     "description": Field("str", default=""),
@@ -631,7 +624,14 @@ def load_scene(path: str | Path) -> Scene:
     if not (top["views"] or []):
         problems.add("views", "the scene needs at least one [[views]] entry")
     render = check_table(top["render"] or {}, RENDER_SPEC, "render", problems)
-    observer = check_table(top["observer"] or {}, OBSERVER_SPEC, "observer", problems)
+    observer = None
+    if top["observer"] is not None:
+        from render.vision.observer import ObserverSettings
+
+        try:
+            observer = ObserverSettings.from_mapping(top["observer"], source=str(path), where="observer")
+        except InputError as err:
+            problems.extend(err)
     groups = []
     for lum in luminaires:
         if lum.group not in groups:
@@ -648,7 +648,7 @@ def load_scene(path: str | Path) -> Scene:
     return Scene(
         path=path, name=info["name"], description=info["description"], street=street,
         frontages=frontages, objects=objects, markings=markings, luminaires=luminaires, views=views,
-        render=RenderSettings(**render), observer=ObserverSettings(**observer), setups=setups,
+        render=RenderSettings(**render), observer=observer, setups=setups,
     )
 
 

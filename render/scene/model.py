@@ -146,14 +146,6 @@ class RenderSettings:
 
 
 @dataclass
-class ObserverSettings:
-    age_years: float = 40.0
-    pigmentation: float = 0.5
-    adaptation_cd_m2: float | None = None
-    display_peak_cd_m2: float = 100.0
-
-
-@dataclass
 class GroupSetting:
     lamp: str | None = None
     photometry: str | None = None
@@ -182,7 +174,7 @@ class Scene:
     luminaires: list[Luminaire] = field(default_factory=list)
     views: list[View] = field(default_factory=list)
     render: RenderSettings = field(default_factory=RenderSettings)
-    observer: ObserverSettings = field(default_factory=ObserverSettings)
+    observer: Any = None  # render.vision.observer.ObserverSettings (None: the defaults)
     setups: dict[str, Setup] = field(default_factory=dict)
     sky_material: str | None = None
 

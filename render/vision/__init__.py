@@ -4,7 +4,7 @@ See :mod:`render.vision.pipeline` for the order of the steps and the sources beh
 Public entry points:
 
 * :func:`render_display`, :func:`shared_display` -- the whole stage.
-* :class:`LightBuffers` (input contract), :class:`ViewGeometry`, :class:`ObserverSettings`,
+* :class:`ViewLight` (input contract), :class:`ViewGeometry`, :class:`ObserverSettings`,
   :class:`DisplayResult`, :class:`AdaptationState`.
 * :func:`extra_channel_weights` -- an optional extra renderer channel (exact cone signals).
 """
@@ -15,7 +15,7 @@ from render.vision.observer import ObserverSettings
 from render.vision.pipeline import (
     MODES,
     DisplayResult,
-    LightBuffers,
+    ViewLight,
     photometric_display,
     render_display,
     shared_display,
@@ -25,7 +25,7 @@ from render.vision.view import ViewGeometry
 __all__ = [
     "AdaptationState",
     "DisplayResult",
-    "LightBuffers",
+    "ViewLight",
     "MODES",
     "ObserverSettings",
     "ViewGeometry",

@@ -47,7 +47,7 @@ PHOTOMETRIC_QUANTITIES = ("photopic", "mesopic", "scotopic")
 
 
 @dataclass
-class LightBuffers:
+class ViewLight:
     """The renderer's output for one view (the vision stage's input contract).
 
     Attributes
@@ -144,7 +144,7 @@ def _check_mode(mode: str) -> None:
 
 # ------------------------------------------------------------------------------ the steps
 
-def retinal_image(buffers: LightBuffers, geometry: ViewGeometry, observer: ObserverSettings):
+def retinal_image(buffers: ViewLight, geometry: ViewGeometry, observer: ObserverSettings):
     """Step 1: the view as imaged on the retina, with disability glare if enabled.
 
     Returns ``(xyz, scotopic, lms or None, diagnostics)``.
@@ -165,7 +165,7 @@ def retinal_image(buffers: LightBuffers, geometry: ViewGeometry, observer: Obser
     return out[..., :3], out[..., 3], (out[..., 4:7] if lms is not None else None), diag
 
 
-def exclusion_mask(buffers: LightBuffers, observer: ObserverSettings) -> np.ndarray:
+def exclusion_mask(buffers: ViewLight, observer: ObserverSettings) -> np.ndarray:
     """Luminaire openings to leave out of the adaptation field (mask, else threshold)."""
     if buffers.luminaire_mask is not None:
         return np.asarray(buffers.luminaire_mask, dtype=bool)
@@ -173,7 +173,7 @@ def exclusion_mask(buffers: LightBuffers, observer: ObserverSettings) -> np.ndar
 
 
 def measure_adaptation(retina_xyz, retina_scot, geometry: ViewGeometry, observer: ObserverSettings,
-                       exclude: np.ndarray | None, buffers: LightBuffers | None = None):
+                       exclude: np.ndarray | None, buffers: ViewLight | None = None):
     """Step 2: the adaptation state of one view (see :func:`render.vision.adaptation.adaptation_state`)."""
     white = (None, None) if buffers is None else (buffers.white_xyz, buffers.white_scotopic)
     return _adaptation.adaptation_state(
@@ -236,7 +236,7 @@ def _map_with_state(buffers, geometry, observer, state, retina, mode, exposure):
     return DisplayResult(rgb, s8, s16, state, diag)
 
 
-def photometric_display(buffers: LightBuffers, geometry: ViewGeometry, observer: ObserverSettings, *,
+def photometric_display(buffers: ViewLight, geometry: ViewGeometry, observer: ObserverSettings, *,
                         quantity: str = "photopic", range_cd_m2: tuple[float, float] | None = None,
                         state: _adaptation.AdaptationState | None = None) -> DisplayResult:
     """False-colour map of the physical luminance (no eye effects) with a cd/m² legend.
@@ -264,7 +264,7 @@ def photometric_display(buffers: LightBuffers, geometry: ViewGeometry, observer:
                                                "range_lo_cd_m2": lo, "range_hi_cd_m2": hi})
 
 
-def render_display(buffers: LightBuffers, view_geometry: ViewGeometry,
+def render_display(buffers: ViewLight, view_geometry: ViewGeometry,
                    observer: ObserverSettings | None = None, mode: str = "adapted", *,
                    state: _adaptation.AdaptationState | None = None, exposure: float | None = None,
                    photometric_quantity: str = "photopic",
@@ -274,7 +274,7 @@ def render_display(buffers: LightBuffers, view_geometry: ViewGeometry,
     Parameters
     ----------
     buffers
-        The renderer's :class:`LightBuffers`.
+        The renderer's :class:`ViewLight`.
     view_geometry
         The view's :class:`ViewGeometry`.
     observer
@@ -309,7 +309,7 @@ def render_display(buffers: LightBuffers, view_geometry: ViewGeometry,
     return _map_with_state(buffers, view_geometry, observer, state, retina, mode, exposure)
 
 
-def shared_display(buffers_list: Sequence[LightBuffers], view_geometries: Sequence[ViewGeometry] | ViewGeometry,
+def shared_display(buffers_list: Sequence[ViewLight], view_geometries: Sequence[ViewGeometry] | ViewGeometry,
                    observer: ObserverSettings | None = None) -> list[DisplayResult]:
     """Map a set of views (e.g. before and after) with **one** adaptation state and scale.
 
