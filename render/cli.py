@@ -247,27 +247,30 @@ def cmd_relight(args) -> int:
     return 0
 
 
-# --- demo ------------------------------------------------------------------------------------
+# --- compare and demo --------------------------------------------------------------------------
+
+def cmd_compare(args) -> int:
+    from render.compare import run_comparison
+    from render.study import Study
+
+    observer = _observer_from_args(Study(args.scene), args)
+    out = args.out or str(Path("outputs") / f"{Path(args.scene).stem}-compare")
+    print(CAUTION, file=sys.stderr)
+    result = run_comparison(args.scene, args.before, args.after, args.views, out, width_px=args.width,
+                            samples_per_pixel=args.spp, observer=observer, report=not args.no_report)
+    for line in result.metrics["summary"]:
+        print(f"- {line}")
+    print(f"written to {result.out_dir}/" + (f" (open {result.report})" if result.report else ""))
+    return 0
+
 
 def cmd_demo(args) -> int:
-    """The main job on the bundled demo street, as far as this version goes."""
-    from render.lampfigures import format_lamp_table, lamp_figures
-    from render.lamps import get_lamp
-
-    print(CAUTION)
-    print()
-    print("Lamps compared for Linden Row (before: low-pressure sodium, after: 3000 K LED):")
-    lamps = [get_lamp(i) for i in DEMO_LAMPS]
-    print(format_lamp_table([lamp_figures(lamp) for lamp in lamps]))
-    print()
-    ns = argparse.Namespace(scene=str(DEMO_SCENE))
-    cmd_check(ns)
-    print()
-    ns = argparse.Namespace(scene=str(DEMO_SCENE), view=None, out=args.out or "outputs/demo", setups=None, spp=None, width=args.width)
-    return cmd_relight(ns)
-
-
-DEMO_LAMPS = ("sodium-low-pressure", "sodium-high-pressure-cie-hp1", "led-3000k-cie-b2")
+    """The main job on the bundled demo street: sodium before, warm-white LED after."""
+    ns = argparse.Namespace(scene=str(DEMO_SCENE), before="sodium", after="led-warm", views=args.views,
+                            out=args.out or "outputs/demo", width=args.width, spp=args.spp, no_report=False,
+                            age=args.age, pigmentation=None, adaptation=None, display_peak=None, no_glare=False,
+                            no_acuity=False)
+    return cmd_compare(ns)
 
 
 # --- parser ----------------------------------------------------------------------------------
@@ -339,9 +342,26 @@ def build_parser() -> argparse.ArgumentParser:
     _observer_options(p)
     p.set_defaults(func=cmd_relight)
 
-    p = sub.add_parser("demo", help="run the main job on the bundled demo street (outputs/demo)")
-    p.add_argument("--out", help="output folder (default outputs/demo)")
+    p = sub.add_parser("compare", help="before and after: images, false colour, metrics.json and report.html per view")
+    p.add_argument("scene", help="scene file (TOML)")
+    p.add_argument("--before", required=True, metavar="SETUP",
+                   help="a setup named in the scene, a lamp id, or key=value items (lamp, lumens, dimming, photometry), "
+                        "per group as 'GROUP:lamp=ID,dimming=0.8;GROUP2:...'")
+    p.add_argument("--after", required=True, metavar="SETUP", help="as --before")
+    p.add_argument("--view", dest="views", action="append", metavar="NAME", help="view to render (repeat; default all views)")
+    p.add_argument("--spp", type=int, help="samples per pixel (default: the scene's)")
     p.add_argument("--width", type=int, help="override the image width in pixels")
+    p.add_argument("--out", help="output folder (default outputs/SCENE-compare)")
+    p.add_argument("--no-report", action="store_true", help="skip report.html")
+    _observer_options(p)
+    p.set_defaults(func=cmd_compare)
+
+    p = sub.add_parser("demo", help="run the main job on the bundled demo street: sodium before, warm-white LED after")
+    p.add_argument("--out", help="output folder (default outputs/demo)")
+    p.add_argument("--view", dest="views", action="append", metavar="NAME", help="view to render (default all)")
+    p.add_argument("--width", type=int, help="override the image width in pixels")
+    p.add_argument("--spp", type=int, help="samples per pixel (default: the scene's)")
+    p.add_argument("--age", type=float, metavar="YEARS", help="observer age")
     p.set_defaults(func=cmd_demo)
     return parser
 

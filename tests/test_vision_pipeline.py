@@ -58,7 +58,9 @@ def test_shared_mode_keeps_brightness_ratio():
     dim, bright = street_like(0.25), street_like(1.0)
     obs = ObserverSettings(glare=False, acuity=False)
     r_dim, r_bright = shared_display([dim, bright], G, obs)
-    assert r_dim.state is r_bright.state
+    # One luminance adaptation (each view keeps its own light's colour as its adapting white).
+    for key in ("photopic_cd_m2", "scotopic_cd_m2", "mesopic_cd_m2", "m", "pupil_diameter_mm"):
+        assert getattr(r_dim.state, key) == getattr(r_bright.state, key)
     # One adaptation state (one m, one scale factor) and a linear operator below the knee: the
     # ground's displayed luminance keeps the scene ratio (with one spectrum and one m the MES2
     # luminance is proportional to the scene luminance).

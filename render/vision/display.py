@@ -76,6 +76,46 @@ def chromatic_adaptation_cat16(xyz, source_white_xyz, degree: float,
     return np.asarray(xyz, dtype=np.float64) @ full.T
 
 
+def incomplete_adaptation_gains(source_white_xyz, adapting_cd_m2: float, discounting: float = 0.0,
+                                destination_white_xyz=None) -> np.ndarray:
+    """Per-cone von Kries gains (CAT16 space) for *incomplete* adaptation to a coloured light.
+
+    Hunt's cone-specific degree of adaptation, in the form RLAB uses (Fairchild 1996,
+    "Refinement of the RLAB color space", Color Res. Appl. 21; from memory):
+
+        p_c = (1 + Y_n^(1/3) + l_c) / (1 + Y_n^(1/3) + 1/l_c),   l_c = 3·c_n / (L_n + M_n + S_n)
+        gain_c = (p_c + D·(1 - p_c)) · c_d / c_n
+
+    with ``Y_n`` the adapting luminance (cd/m²), ``c_n`` the cone responses of the adapting
+    light and ``c_d`` those of the display white, ``D`` the discounting-the-illuminant factor
+    (0: sensory adaptation only). Strongly coloured light (low-pressure sodium: almost no
+    short-wave cone signal) is adapted to only partly and keeps its colour, more so at low
+    luminance, as observers report. Two choices of ours: the cone responses are the CAT16
+    ones, and ``l_c`` is taken relative to the display white (so light of the display white's
+    colour gives ``p = 1`` and the step is the identity).
+    """
+    _, _, d65, m = _constants()
+    ws = np.asarray(source_white_xyz, dtype=np.float64)
+    wd = d65 if destination_white_xyz is None else np.asarray(destination_white_xyz, dtype=np.float64)
+    rs = m @ (ws / ws[1])
+    rd = m @ (wd / wd[1])
+    rel = np.maximum(rs / rd, 1e-9)
+    l = 3.0 * rel / rel.sum()
+    y3 = max(float(adapting_cd_m2), 0.0) ** (1.0 / 3.0)
+    p = (1.0 + y3 + l) / (1.0 + y3 + 1.0 / l)
+    d = float(discounting)
+    return (p + d * (1.0 - p)) * rd / rs
+
+
+def chromatic_adaptation_incomplete(xyz, source_white_xyz, adapting_cd_m2: float, discounting: float = 0.0,
+                                    destination_white_xyz=None) -> np.ndarray:
+    """Apply :func:`incomplete_adaptation_gains` in CAT16 space to XYZ (..., 3)."""
+    _, _, _, m = _constants()
+    gain = incomplete_adaptation_gains(source_white_xyz, adapting_cd_m2, discounting, destination_white_xyz)
+    full = np.linalg.inv(m) @ np.diag(gain) @ m
+    return np.asarray(xyz, dtype=np.float64) @ full.T
+
+
 def xyz_to_linear_srgb(xyz) -> np.ndarray:
     """Linear sRGB of relative XYZ (display white Y = 1), IEC 61966-2-1 matrix."""
     return np.asarray(xyz, dtype=np.float64) @ _constants()[0].T

@@ -24,7 +24,7 @@ exposure, no highlight roll-off: for checks against colorimetry).
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, replace, field
 from pathlib import Path
 from typing import Sequence
 
@@ -205,8 +205,12 @@ def display_scale(state: _adaptation.AdaptationState, observer: ObserverSettings
 def to_display(xyz_perceived, state: _adaptation.AdaptationState, observer: ObserverSettings,
                scale: float, rolloff: bool = True) -> tuple[np.ndarray, dict]:
     """Step 6: chromatic adaptation, tone scale, gamut mapping -> linear sRGB in [0, 1]."""
-    adapted = _display.chromatic_adaptation_cat16(xyz_perceived, state.white_xyz,
-                                                  state.chromatic_adaptation_degree)
+    if observer.chromatic_adaptation_degree is None:
+        # Default: sensory, cone-specific incomplete adaptation (Hunt / RLAB), no discounting.
+        adapted = _display.chromatic_adaptation_incomplete(xyz_perceived, state.white_xyz, state.mesopic_cd_m2)
+    else:
+        adapted = _display.chromatic_adaptation_cat16(xyz_perceived, state.white_xyz,
+                                                      state.chromatic_adaptation_degree)
     rel = _tonemap.to_display_relative(adapted, scale, observer.display_peak_cd_m2,
                                        knee=_tonemap.HIGHLIGHT_KNEE if rolloff else None)
     rgb, out = _display.gamut_map_oklab(rel)
@@ -332,5 +336,11 @@ def shared_display(buffers_list: Sequence[ViewLight], view_geometries: Sequence[
         field_deg=observer.adaptation_field_deg, override_cd_m2=observer.adaptation_cd_m2,
         white_xyz=first.white_xyz, white_scotopic=first.white_scotopic,
         chromatic_adaptation_degree=observer.chromatic_adaptation_degree)
-    return [_map_with_state(b, g, observer, state, r, "shared", None)
-            for b, g, r in zip(buffers_list, view_geometries, retinas)]
+    # One luminance adaptation for all views; each keeps the colour of its own light as its
+    # adapting white (an observer in each street adapts to that street's light).
+    out = []
+    for b, g, r in zip(buffers_list, view_geometries, retinas):
+        own = measure_adaptation(r[0], r[1], g, observer, exclusion_mask(b, observer), b)
+        view_state = replace(state, white_xyz=own.white_xyz, white_sp_ratio=own.white_sp_ratio)
+        out.append(_map_with_state(b, g, observer, view_state, r, "shared", None))
+    return out
