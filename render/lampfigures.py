@@ -39,8 +39,6 @@ from __future__ import annotations
 import copy
 import json
 import math
-import os
-import tempfile
 import warnings
 from functools import lru_cache
 from pathlib import Path
@@ -49,6 +47,7 @@ from typing import Sequence
 import numpy as np
 
 from render.lamps import Lamp
+from render.fileio import save_figure
 from render.observers import photopic, photopic_lef, scotopic_lef, sp_ratio, tristimulus
 from render.spectra import BIN_WIDTH_NM, WAVELENGTHS_NM
 
@@ -389,17 +388,5 @@ def plot_lamp_spectrum(lamp: Lamp, path: str | Path, dpi: int = 110) -> Path:
         ax.grid(True, color="0.9", linewidth=0.6)
     figure.subplots_adjust(left=0.09, right=0.98, top=0.9, bottom=0.09, hspace=0.08)
 
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.stem}.", suffix=".png", dir=path.parent)
-    try:
-        with os.fdopen(fd, "wb") as handle:
-            figure.savefig(handle, format="png", dpi=dpi)
-        os.chmod(tmp, 0o644)
-        os.replace(tmp, path)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        raise
+    save_figure(figure, path, dpi=dpi)
     return path

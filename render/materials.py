@@ -43,13 +43,13 @@ from __future__ import annotations
 import math
 import os
 import re
-import tempfile
 from dataclasses import dataclass, field
 from functools import lru_cache
 from pathlib import Path
 
 import numpy as np
 
+from render.fileio import save_figure
 from render.errors import InputError, Problem, ProblemList, did_you_mean, input_error
 from render.spectra import WAVELENGTH_MAX_NM, WAVELENGTH_MIN_NM, WAVELENGTHS_NM, bin_mean
 
@@ -538,18 +538,7 @@ def plot_material(material: Material, path: str | Path) -> Path:
     fig.tight_layout(rect=(0.0, 0.04, 1.0, 1.0))
     fig.text(0.01, 0.01, _clip_text(f"{material.source} | {material.sample_id}", 120), fontsize=6, color="0.35")
 
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fig.savefig(fh, format="png")
-        os.replace(tmp, path)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except FileNotFoundError:
-            pass
-        raise
+    save_figure(fig, path)
     return path
 
 

@@ -85,7 +85,6 @@ from __future__ import annotations
 import math
 import os
 import re
-import tempfile
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Sequence
@@ -93,6 +92,7 @@ from typing import Sequence
 import numba
 import numpy as np
 
+from render.fileio import save_figure
 from render.errors import InputError, Problem, did_you_mean, input_error
 
 #: One foot in metres (international foot).
@@ -1132,16 +1132,7 @@ def plot_polar(photometry: Photometry, path: str | os.PathLike, title: str | Non
     ax.set_title(title or ph.name, pad=14)
     ax.legend(loc="upper right", bbox_to_anchor=(1.12, 1.08), fontsize=8)
     fig.text(0.5, 0.02, f"radius: {unit}; γ = 0° at the bottom (nadir)", ha="center", fontsize=8)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.stem}-", suffix=".png", dir=path.parent)
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fig.savefig(fh, format="png")
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
+    save_figure(fig, path)
     return path
 
 

@@ -24,15 +24,15 @@
 
 from __future__ import annotations
 
-import os
 import struct
-import tempfile
 import zlib
 from functools import lru_cache
 from pathlib import Path
 from typing import Mapping
 
 import numpy as np
+
+from render.fileio import atomic_write_bytes
 
 
 @lru_cache(maxsize=1)
@@ -216,21 +216,4 @@ def png_bytes(image: np.ndarray, text: Mapping[str, str] | None = None) -> bytes
 
 def write_png(path: str | Path, image: np.ndarray, text: Mapping[str, str] | None = None) -> Path:
     """Write an 8- or 16-bit RGB PNG atomically (temp file in the same folder + os.replace)."""
-    path = Path(path)
-    data = png_bytes(image, text)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix="." + path.name + ".", suffix=".tmp", dir=path.parent)
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.chmod(tmp, 0o644)  # mkstemp makes 0600; an image is for sharing
-        os.replace(tmp, path)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except FileNotFoundError:
-            pass
-        raise
-    return path
+    return atomic_write_bytes(path, png_bytes(image, text))
