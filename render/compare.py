@@ -23,11 +23,10 @@ from render.errors import did_you_mean, input_error
 from render.fileio import atomic_path, atomic_write_text
 from render.scene.model import GroupSetting, Setup
 
+#: Cautions shown with every comparison (the report adds its standing caution: an illustrative
+#: preview, not a design or compliance calculation; local codes and licensed practice decide).
 CAUTIONS = [
-    "These images and figures are an illustrative preview made with published average-observer models, "
-    "not a lighting design and not a compliance calculation.",
-    "Road-lighting design, lighting classes and compliance are decided under local codes and standards by "
-    "qualified, licensed practitioners.",
+    "The images use published average-observer models of night vision, glare and colour appearance.",
     "Real eyes differ: age, eye conditions, medication and fatigue change how bright, glary and colourful a "
     "street looks. A printed or on-screen image cannot reproduce night-time luminance exactly.",
 ]
@@ -208,6 +207,23 @@ def summary_sentences(metrics: dict) -> list[str]:
     return out
 
 
+def false_colour_pair(before, after) -> tuple[list[np.ndarray], np.ndarray]:
+    """False-colour luminance images (8-bit sRGB) of two views on one log scale, and the legend.
+
+    The scale spans whole decades from the larger of the two 99.5th percentiles down three
+    decades (render.vision.falsecolour's ramp, our own perceptually ordered scale)."""
+    from render.vision.display import quantise, srgb_encode
+    from render.vision.falsecolour import auto_range_decades, false_colour, legend_strip
+
+    ys = [r.colorimetry.luminance_cd_m2 for r in (before, after)]
+    lo_hi = [auto_range_decades(y) for y in ys]
+    hi = max(h for _, h in lo_hi)
+    lo = max(min(l for l, _ in lo_hi), hi * 1e-4)
+    images = [quantise(srgb_encode(false_colour(y, lo, hi)), 8) for y in ys]
+    legend = quantise(srgb_encode(legend_strip(ys[0].shape[0], lo, hi, "luminance (cd/m²)", 120)), 8)
+    return images, legend
+
+
 @dataclass
 class ComparisonResult:
     out_dir: Path
@@ -263,7 +279,7 @@ def run_comparison(scene_path, before: str, after: str, views: list[str] | None 
         metrics["settings"]["height_px"] = rb.camera.height_px
         shared = study.display([rb, ra], "shared", observer)
         adapted = study.display([rb, ra], "adapted", observer)
-        false = study.display([rb, ra], "photometric", observer)
+        false, legend = false_colour_pair(rb, ra)
         images: dict[str, str] = {}
 
         def meta(r, mode):
@@ -273,21 +289,22 @@ def run_comparison(scene_path, before: str, after: str, views: list[str] | None 
             m["lampcast.comparison"] = f"before={setups['before'].name}; after={setups['after'].name}"
             return m
 
+        from render.vision.display import write_png
+
         for key, r, sh, ad, fc in (("before", rb, shared[0], adapted[0], false[0]), ("after", ra, shared[1], adapted[1], false[1])):
             sh.write_png(vdir / f"{key}.png", 8, meta(r, "shared"))
             ad.write_png(vdir / f"{key}-adapted.png", 8, meta(r, "adapted"))
-            fc.write_png(vdir / f"{key}-falsecolour.png", 8, meta(r, "photometric"))
+            write_png(vdir / f"{key}-falsecolour.png", fc, meta(r, "photometric"))
             images[f"{key}_shared"] = f"{vdir.name}/{key}.png"
             images[f"{key}_adapted"] = f"{vdir.name}/{key}-adapted.png"
             images[f"falsecolour_{key}"] = f"{vdir.name}/{key}-falsecolour.png"
-        from render.vision.display import write_png
-
+        write_png(vdir / "falsecolour-legend.png", legend, {"Software": f"lampcast {__version__}"})
         sbs = side_by_side(shared[0].srgb8, shared[1].srgb8, f"before: {setups['before'].name}", f"after: {setups['after'].name}")
         write_png(vdir / "side-by-side.png", sbs, meta(rb, "shared side by side"))
         images["side_by_side"] = f"{vdir.name}/side-by-side.png"
         write_gif(vdir / "wipe.gif", wipe_frames(shared[0].srgb8, shared[1].srgb8))
         images["wipe"] = f"{vdir.name}/wipe.gif"
-        images["falsecolour_legend"] = images["falsecolour_before"]
+        images["falsecolour_legend"] = f"{vdir.name}/falsecolour-legend.png"
         states = [shared[0].state, adapted[0].state, adapted[1].state]
         metrics["views"].append({
             "name": name,
