@@ -102,12 +102,12 @@ def luminance_stats(rendered) -> dict:
 
 
 def setup_description(study, setup: Setup, lights) -> dict:
-    from render.lights import channel_factors
+    from render.lights import channel_factors, setting_for
 
     factors, lamps = channel_factors(lights, setup)
     groups: dict[str, dict] = {}
     for k, ch in enumerate(lights.channels):
-        s = setup.groups.get(ch.group) or setup.groups.get("*") or GroupSetting()
+        s = setting_for(setup, ch.group)
         groups.setdefault(ch.group, {"lamp": lamps[k], "photometry": s.photometry or ch.photometry,
                                      "lumens": s.lumens if s.lumens is not None else ch.lumens,
                                      "dimming": s.dimming if s.dimming is not None else ch.dimming})

@@ -77,7 +77,8 @@ class LuminaireSet:
         return len(self.channels)
 
 
-def _setting_for(setup: Setup | None, group: str) -> GroupSetting:
+def setting_for(setup: Setup | None, group: str) -> GroupSetting:
+    """A group's settings under ``setup``: the group's own keys, else the all-luminaires ones."""
     if setup is None:
         return GroupSetting()
     base = setup.groups.get("*", GroupSetting())
@@ -100,7 +101,7 @@ def luminaire_set(scene: Scene, setup: Setup | None = None) -> LuminaireSet:
     channels: list[Channel] = []
     rows = []
     for lum in scene.luminaires:
-        s = _setting_for(setup, lum.group)
+        s = setting_for(setup, lum.group)
         ref = s.photometry or lum.photometry
         try:
             photometry = ph.load_photometry(ref, base_dir=scene.base_dir)
@@ -170,7 +171,7 @@ def channel_factors(lights: LuminaireSet, setup: Setup | None = None) -> tuple[n
     factors = np.ones(lights.n_channels)
     lamps = []
     for k, ch in enumerate(lights.channels):
-        s = _setting_for(setup, ch.group)
+        s = setting_for(setup, ch.group)
         dimming = s.dimming if s.dimming is not None else ch.dimming
         lumens = s.lumens if s.lumens is not None else ch.lumens
         factors[k] = dimming * lumens / ch.lumens
@@ -180,4 +181,4 @@ def channel_factors(lights: LuminaireSet, setup: Setup | None = None) -> tuple[n
 
 def needs_new_evaluation(lights: LuminaireSet, setup: Setup | None) -> bool:
     """True if ``setup`` changes the photometric distribution of any channel."""
-    return any(_setting_for(setup, ch.group).photometry not in (None, ch.photometry) for ch in lights.channels)
+    return any(setting_for(setup, ch.group).photometry not in (None, ch.photometry) for ch in lights.channels)
