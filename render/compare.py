@@ -235,7 +235,7 @@ def run_comparison(scene_path, before: str, after: str, views: list[str] | None 
                    *, width_px: int | None = None, samples_per_pixel: int | None = None, observer=None,
                    report: bool = True, progress: bool = True, extra_sections: list | None = None) -> ComparisonResult:
     """Render every view before and after and write images, ``metrics.json`` and ``report.html``."""
-    from render.lampfigures import lamp_figures
+    from render.lampfigures import figures_json, lamp_figures
     from render.lamps import get_lamp
     from render.provenance import scene_sha256
     from render.study import Study
@@ -320,9 +320,12 @@ def run_comparison(scene_path, before: str, after: str, views: list[str] | None 
     for key in ("before", "after"):
         for lamp_id in metrics["setups"][key]["lamps"]:
             if lamp_id not in metrics["lamps"]:
+                # The same rounding as `lampcast lamps --json`, so both agree exactly.
                 f = lamp_figures(get_lamp(lamp_id, base_dir=scene.base_dir))
-                metrics["lamps"][lamp_id] = f
+                metrics["lamps"][lamp_id] = json.loads(figures_json([f]))[0]
+    lamps = metrics.pop("lamps")
     metrics = _clean(metrics)
+    metrics["lamps"] = lamps
     metrics["summary"] = summary_sentences(metrics)
     atomic_write_text(out / "metrics.json", json.dumps(metrics, indent=2, sort_keys=False, ensure_ascii=False) + "\n")
     report_path = None

@@ -1,0 +1,151 @@
+"""The comparison run end to end on small scenes (issue: before and after).
+
+Checks are against the project's own published outputs, each of which other tests tie to outside
+sources: the report must show exactly what metrics.json holds, and metrics.json the lamp figures
+`lampcast lamps --json` gives; reruns must be byte-identical; escaping must hold for hostile
+names; an interrupted run must leave no half-written file under a final name.
+"""
+
+from __future__ import annotations
+
+import html
+import json
+import os
+import re
+import signal
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from render.cli import main
+from render.compare import run_comparison
+
+ROOT = Path(__file__).resolve().parents[1]
+SCENES = ROOT / "scenes" / "tests"
+
+
+@pytest.fixture(scope="module")
+def run(tmp_path_factory):
+    out = tmp_path_factory.mktemp("cmp")
+    result = run_comparison(SCENES / "markup_names.toml", "old", "new <u>LED</u>", None, out, progress=False)
+    return result
+
+
+def test_every_output_written(run):
+    view_dir = next(p for p in run.out_dir.iterdir() if p.is_dir())
+    for name in ("before.png", "after.png", "before-adapted.png", "after-adapted.png", "side-by-side.png", "wipe.gif",
+                 "before-falsecolour.png", "after-falsecolour.png", "falsecolour-legend.png"):
+        assert (view_dir / name).stat().st_size > 0, name
+    assert (run.out_dir / "metrics.json").exists() and (run.out_dir / "report.html").exists()
+
+
+def test_png_metadata_traces_the_run(run):
+    from PIL import Image
+
+    view_dir = next(p for p in run.out_dir.iterdir() if p.is_dir())
+    text = Image.open(view_dir / "before.png").text
+    assert text["lampcast.mode"] == "shared" and text["lampcast.setup"] == "old"
+    assert text["lampcast.view"] == "<svg onload=alert(2)>"
+    assert text["lampcast.scene_sha256"] == run.metrics["scene"]["sha256"]
+    assert "age 40" in text["lampcast.observer"] and text["lampcast.seed"] == "0"
+
+
+def test_report_escapes_scene_text(run):
+    page = (run.out_dir / "report.html").read_text()
+    for raw in ("<script>alert('street')</script>", "<img src=x onerror=alert(1)>", "<svg onload=alert(2)>",
+                "<b>bold</b>", "<i>lamps</i>", "<em>before</em>", "<script>document.title='x'</script>"):
+        assert raw not in page, raw
+    assert html.escape("<script>alert('street')</script> & Co", quote=True) in page
+    assert html.escape("<svg onload=alert(2)>", quote=True) in page
+
+
+def test_report_numbers_equal_metrics_and_lamp_figures(run, capsys):
+    page = (run.out_dir / "report.html").read_text()
+    metrics = json.loads((run.out_dir / "metrics.json").read_text())
+    cells = re.findall(r'data-metric="([^"]+)"[^>]*data-value="([^"]*)"', page)
+    assert len(cells) > 20
+    for path, value in cells:
+        node = metrics
+        for part in html.unescape(path).split("."):
+            node = node[int(part)] if isinstance(node, list) else node[part]
+        if node is None:
+            assert value in ("", "null", "None")
+        elif isinstance(node, (int, float)) and not isinstance(node, bool):
+            assert float(value) == pytest.approx(float(node), rel=1e-12, abs=1e-15), path
+    # metrics.json lamp figures are those `lampcast lamps --json` prints.
+    assert main(["lamps", *metrics["lamps"], "--json"]) == 0
+    printed = {row["id"]: row for row in json.loads(capsys.readouterr().out)}
+    for lamp_id, figures in metrics["lamps"].items():
+        for key in ("cct_K", "ra", "r9", "rf_cie2017", "rf_tm30", "rg_tm30", "sp_ratio", "ler_lm_per_w", "blue_fraction", "notch_fraction"):
+            a, b = figures.get(key), printed[lamp_id].get(key)
+            if a is None or b is None:
+                assert a is None and b is None, (lamp_id, key)
+            else:
+                assert a == b, (lamp_id, key)
+
+
+def test_rerun_is_byte_identical(run, tmp_path):
+    again = run_comparison(SCENES / "markup_names.toml", "old", "new <u>LED</u>", None, tmp_path, progress=False)
+    files = sorted(p.relative_to(run.out_dir) for p in run.out_dir.rglob("*") if p.is_file())
+    assert files == sorted(p.relative_to(again.out_dir) for p in again.out_dir.rglob("*") if p.is_file())
+    for rel in files:
+        assert (run.out_dir / rel).read_bytes() == (again.out_dir / rel).read_bytes(), rel
+
+
+def test_command_line_setup_syntax(tmp_path):
+    from render.compare import parse_setup
+    from render.errors import InputError
+    from render.scene import load_scene
+
+    scene = load_scene(ROOT / "scenes" / "demo" / "linden_row.toml")
+    s = parse_setup("street:lamp=led-4000k-cie-b3,dimming=0.5;bus stop:lamp=led-2700k-cie-b1", scene, "--after")
+    assert s.groups["street"].lamp == "led-4000k-cie-b3" and s.groups["street"].dimming == 0.5
+    assert s.groups["bus stop"].lamp == "led-2700k-cie-b1"
+    assert parse_setup("led-3000k-cie-b2", scene, "--after").groups["*"].lamp == "led-3000k-cie-b2"
+    with pytest.raises(InputError, match="did you mean 'street'"):
+        parse_setup("stret:lamp=led-4000k-cie-b3", scene, "--after")
+    with pytest.raises(InputError, match="dimming"):
+        parse_setup("dimming=2", scene, "--after")
+
+
+def _valid(path: Path) -> bool:
+    """A file is whole: images decode to the end, JSON parses, HTML closes."""
+    if path.suffix in (".png", ".gif"):
+        from PIL import Image
+
+        with Image.open(path) as im:
+            im.load()
+            n = getattr(im, "n_frames", 1)
+            for k in range(n):
+                im.seek(k)
+                im.load()
+        return True
+    if path.suffix == ".json":
+        json.loads(path.read_text())
+        return True
+    if path.suffix == ".html":
+        return path.read_text().rstrip().endswith("</html>")
+    return True
+
+
+def test_interrupted_run_leaves_no_half_written_final_file(tmp_path):
+    # Kill the comparison at several moments while it writes; every file that has its final
+    # name must be complete (temporary files start with "." and are ignored by readers).
+    for delay in (0.0, 0.15, 0.4):
+        out = tmp_path / f"kill{delay}"
+        proc = subprocess.Popen([sys.executable, "-m", "render", "compare", str(SCENES / "markup_names.toml"),
+                                 "--before", "old", "--after", "new <u>LED</u>", "--out", str(out)],
+                                stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, cwd=ROOT)
+        deadline = time.time() + 120
+        while time.time() < deadline and not (out.exists() and any(out.rglob("*.png"))):
+            time.sleep(0.01)
+        time.sleep(delay)
+        proc.send_signal(signal.SIGKILL)
+        proc.wait()
+        for path in out.rglob("*"):
+            if path.is_file() and not path.name.startswith("."):
+                assert _valid(path), path
