@@ -1,0 +1,58 @@
+"""Analyses of rendered views: telling colours apart at night.
+
+* :mod:`render.analysis.colours` -- object colours as seen (after the vision stage) and under
+  daylight, CIEDE2000 matrices, confusable pairs, luminance contrast, and the JSON-safe
+  :func:`colour_analysis` that assembles them.
+* :mod:`render.analysis.naming` -- basic colour terms (Berlin & Kay) from the nearest
+  Centore (2020) prototype in CAM16-UCS; the "name it" table.
+* :mod:`render.analysis.pictures` -- outlined view, swatch sheet, ΔE00 heat map, spectrum
+  strips (PNG, written atomically).
+"""
+
+from render.analysis.colours import (
+    DISTINCT_IN_DAYLIGHT_DE00,
+    HARD_DE00,
+    IMPERCEPTIBLE_DE00,
+    PerceivedView,
+    SetupView,
+    TaggedObject,
+    colour_analysis,
+    confusions,
+    delta_e_matrix,
+    luminance_contrast,
+    mixture_reflectance,
+    object_colour_stats,
+    perceived_view,
+    reference_colour,
+    reference_colour_mixture,
+    relative_colour_image,
+    ring_background,
+    white_mesopic_cd_m2,
+)
+from render.analysis.naming import BASIC_TERMS, colour_name, format_name_table, name_changes, name_table
+
+__all__ = [
+    "BASIC_TERMS",
+    "DISTINCT_IN_DAYLIGHT_DE00",
+    "HARD_DE00",
+    "IMPERCEPTIBLE_DE00",
+    "PerceivedView",
+    "SetupView",
+    "TaggedObject",
+    "colour_analysis",
+    "colour_name",
+    "confusions",
+    "delta_e_matrix",
+    "format_name_table",
+    "luminance_contrast",
+    "mixture_reflectance",
+    "name_changes",
+    "name_table",
+    "object_colour_stats",
+    "perceived_view",
+    "reference_colour",
+    "reference_colour_mixture",
+    "relative_colour_image",
+    "ring_background",
+    "white_mesopic_cd_m2",
+]

@@ -1,0 +1,765 @@
+"""Telling colours apart at night: object colours, CIEDE2000 matrices, confusions, contrast.
+
+What is compared
+----------------
+For every tagged object and every lighting setup, the analysis compares
+
+* its **colour as seen**: the mean over the object's visible pixels of the perceived colour the
+  night-vision stage computes, in the stage's adapted viewing condition (below), and
+* its **daylight reference**: the same reflectance under CIE illuminant D65 at a comfortable
+  photopic level, CIE 1931 2° observer, perfect diffuser Y = 100 (:func:`reference_colour`).
+
+The adapted viewing condition (which step of the vision stage, and why)
+----------------------------------------------------------------------
+The vision stage (:mod:`render.vision.pipeline`) turns light into appearance in steps; the
+colour analysis taps it **after steps 1-5 and the chromatic-adaptation part of step 6**:
+
+1. ``retinal_image`` (disability glare), 2. ``measure_adaptation`` (the
+   :class:`~render.vision.adaptation.AdaptationState`: m, adapting white, ...),
+3-4. ``perceived_xyz`` -- absolute XYZ in cd/m² whose Y is the CIE 191 MES2 mesopic luminance
+   and whose chromaticity carries rod intrusion (Cao et al. 2008), 5. acuity loss (optional),
+6a. the chromatic adaptation that ``to_display`` applies before tone mapping: from the
+   adapting white to the sRGB display white (a D65 white), :func:`adapted_xyz`.
+
+Everything after that (Ward's scale factor, highlight roll-off, gamut mapping) is about the
+display, not about the observer, and is left out. The adapted XYZ is then made *relative*
+(:func:`relative_colour_image`): scaled so that a perfect white diffuser under the scene's
+light, put through the same steps, has ``Y_white = 100`` (its perceived luminance from
+:func:`white_mesopic_cd_m2`), and converted to CIELAB with the display white as reference
+white. CIEDE2000 (CIE 142-2001, ISO/CIE 11664-6) is
+computed on those CIELAB values. So a colour difference at night is measured as a daylight
+observer would measure it between the two *appearances* the vision stage predicts: the loss of
+hue under a line source and the loss of colourfulness from rod intrusion and incomplete
+adaptation are included; the general rise of discrimination thresholds at low luminance is
+not (CIEDE2000 has no luminance-level term) -- the thresholds below are therefore optimistic at
+night. Lightness is relative to the white at the same light level; the absolute level is
+reported separately as luminance and Weber contrast.
+
+Why the object mean is taken in XYZ
+-----------------------------------
+XYZ is linear in light: the mean XYZ over an object's pixels is the colour of the light the
+object sends to the eye as a whole (what an observer integrates over a small, shaded object),
+and it does not depend on how the pixels are split. CIELAB is non-linear, so a mean of Lab
+values is biased by shading and noise toward darker, less colourful values. The mean is taken
+first, then converted.
+
+Thresholds (CIEDE2000 units)
+----------------------------
+* :data:`IMPERCEPTIBLE_DE00` = 1.0: about one just-noticeable difference for surface colours
+  in CIE 142-2001's reference conditions (common practice, no source for the exact value).
+* :data:`HARD_DE00` = 3.0: "hard to tell apart" unless the two are side by side (common
+  practice in colour tolerancing, no source).
+* :data:`DISTINCT_IN_DAYLIGHT_DE00` = 10.0: our choice. Ten JNDs: two surfaces this far apart
+  are clearly different colours at a glance in daylight, so a pair that falls below 3 at night
+  has lost a difference a resident relies on. Pairs below 10 in daylight are left out of the
+  confusion list (they are in the matrices).
+
+Luminance contrast
+------------------
+Weber contrast ``C = (L_obj − L_bg)/L_bg`` (:func:`luminance_contrast`) on the **mesopic**
+luminance (the perceived Y in cd/m², CIE 191:2010), with the background chosen by the caller: a
+named background object (kerb against road) or a ring of pixels around the object
+(:func:`ring_background`).
+
+JSON structure
+--------------
+:func:`colour_analysis` returns a JSON-safe dict (floats rounded, ``None`` for anything not
+defined, keys in a fixed order)::
+
+    {
+      "method": {...},                           # colour space, thresholds and their sources
+      "objects": [{"id": 3, "name": "car"}, ...],           # the order of every matrix
+      "daylight": {
+        "conditions": "...",
+        "objects": {"car": {"lab": [L, a, b], "lch": [L, C, h], "name": "green",
+                            "name_margin": 4.2, "name_runner_up": "blue"}, ...},
+        "delta_e00": [[...], ...]},
+      "setups": {
+        "LED 3000 K": {
+          "adaptation": {...},                   # AdaptationState.as_dict() + white luminance
+          "objects": {"car": {"visible": true, "pixels": 812, "lab": [...], "lch": [...],
+                              "xyz_relative": [...], "name": "brown", "name_margin": 1.1,
+                              "name_runner_up": "green", "daylight_name": "green",
+                              "name_changed": true, "delta_e00_to_daylight": 23.4,
+                              "luminance_cd_m2": 0.41, "background": "ring 4 px",
+                              "background_luminance_cd_m2": 0.22, "weber_contrast": 0.86}, ...},
+          "delta_e00": [[...], ...],
+          "confusions": [{"a": "car", "b": "hedge", "daylight_delta_e00": 18.2,
+                          "delta_e00": 2.1, "level": "hard"}, ...],
+          "name_changes": [{"object": "car", "daylight": "green", "seen": "brown",
+                            "text": "car: green → brown"}, ...]},
+        ...}
+    }
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from functools import lru_cache
+from typing import Mapping, Sequence
+
+import numpy as np
+
+from render import observers
+from render.spectra import N_BINS
+
+#: ΔE00 below which two colours are taken as indistinguishable (≈ 1 JND; common practice).
+IMPERCEPTIBLE_DE00 = 1.0
+#: ΔE00 below which two colours are hard to tell apart (common practice, no source).
+HARD_DE00 = 3.0
+#: ΔE00 from which two colours count as clearly distinct in daylight (our choice; see module).
+DISTINCT_IN_DAYLIGHT_DE00 = 10.0
+#: Default minimum number of visible pixels for an object to be given a colour.
+MIN_PIXELS = 20
+#: Default width of the background ring around an object, pixels.
+RING_WIDTH_PX = 4
+#: CIECAM02/CAM16 relative background luminance Y_b = 20 (CIE 159:2004 typical conditions):
+#: the adaptation field is taken as a 20 % grey when no white luminance is given.
+GREY_WORLD_FRACTION = 0.2
+
+#: Options of :func:`colour_analysis` for the colours that are named.
+NAMING_ADAPTATIONS = ("as-seen", "discounted")
+
+#: Decimal places used in :func:`colour_analysis` output.
+ROUND_LAB = 2
+ROUND_DE = 2
+ROUND_CONTRAST = 3
+SIGNIFICANT_LUMINANCE = 4
+
+
+# ------------------------------------------------------------------------ whites and CIELAB
+
+@lru_cache(maxsize=1)
+def daylight_white_xyz() -> np.ndarray:
+    """XYZ of the perfect diffuser under CIE D65, Y = 100, CIE 1931 2° (render.observers)."""
+    from render.materials import d65_on_grid
+
+    xyz = observers.tristimulus(d65_on_grid())
+    out = 100.0 * xyz / xyz[1]
+    out.setflags(write=False)
+    return out
+
+
+def viewing_white_xyz() -> np.ndarray:
+    """Reference white of the night colours, Y = 100: the sRGB display white the vision stage
+    adapts to (D65 chromaticity to within 1e-4 in x, y)."""
+    from render.vision.display import display_white_xyz
+
+    return 100.0 * display_white_xyz()
+
+
+def xyz_to_lab(xyz, white_xyz) -> np.ndarray:
+    """CIELAB (CIE 15:2004) of XYZ (..., 3) on the scale of ``white_xyz`` (3,) (e.g. Y = 100)."""
+    import colour
+
+    w = np.asarray(white_xyz, dtype=np.float64)
+    xyz = np.asarray(xyz, dtype=np.float64) / w[1]
+    return np.asarray(colour.XYZ_to_Lab(xyz, colour.XYZ_to_xy(w / w[1])), dtype=np.float64)
+
+
+def lab_to_lch(lab) -> np.ndarray:
+    """CIE LCh_ab (lightness, chroma, hue angle in degrees 0-360) of CIELAB (..., 3)."""
+    lab = np.asarray(lab, dtype=np.float64)
+    c = np.hypot(lab[..., 1], lab[..., 2])
+    h = np.degrees(np.arctan2(lab[..., 2], lab[..., 1])) % 360.0
+    return np.stack([lab[..., 0], c, h], axis=-1)
+
+
+# ----------------------------------------------------------------------- daylight reference
+
+def reference_xyz(reflectance) -> np.ndarray:
+    """XYZ (..., 3) of reflectance(s) (..., N_BINS) under D65, perfect diffuser Y = 100."""
+    from render.materials import d65_on_grid
+
+    rho = np.asarray(reflectance, dtype=np.float64)
+    if rho.shape[-1] != N_BINS:
+        raise ValueError(f"reflectance must have {N_BINS} values on the lampcast grid")
+    s = d65_on_grid()
+    return 100.0 * observers.tristimulus(rho * s) / observers.tristimulus(s)[1]
+
+
+def reference_colour(reflectance) -> np.ndarray:
+    """Daylight reference colour: CIELAB of reflectance(s) under CIE D65.
+
+    CIE 1931 2° observer (:func:`render.observers.cmfs_xyz`), D65 from colour-science on the
+    lampcast grid (:func:`render.materials.d65_on_grid`), perfect diffuser Y = 100 and
+    reference white = that diffuser: the colour of the surface at a comfortable photopic level
+    with complete adaptation (CIELAB is relative, so the level itself does not enter).
+
+    Parameters
+    ----------
+    reflectance
+        (..., N_BINS) spectral reflectance, 0-1.
+
+    Returns
+    -------
+    (..., 3) CIELAB L*, a*, b*.
+    """
+    return xyz_to_lab(reference_xyz(reflectance), daylight_white_xyz())
+
+
+def mixture_reflectance(reflectances, pixel_counts) -> np.ndarray:
+    """Pixel-count weighted mean reflectance of an object seen with several materials.
+
+    An object whose visible pixels show ``k`` materials (a car: paint, glass, tyres) reflects,
+    as a whole, the area-weighted mean of their reflectances; with equal lighting over the
+    object this is exactly the reflectance whose colour is the XYZ mean over its pixels (XYZ
+    is linear in reflectance), i.e. the same averaging as :func:`object_colour_stats`.
+
+    Parameters
+    ----------
+    reflectances
+        (k, N_BINS) reflectances.
+    pixel_counts
+        (k,) visible pixels of each material (any non-negative weights, not all zero).
+    """
+    r = np.asarray(reflectances, dtype=np.float64)
+    w = np.asarray(pixel_counts, dtype=np.float64)
+    if r.ndim != 2 or r.shape[1] != N_BINS or w.shape != (r.shape[0],):
+        raise ValueError("need (k, N_BINS) reflectances and k pixel counts")
+    if np.any(w < 0) or not w.sum() > 0:
+        raise ValueError("pixel counts must be non-negative and not all zero")
+    return (w[:, None] * r).sum(axis=0) / w.sum()
+
+
+def reference_colour_mixture(reflectances, pixel_counts) -> np.ndarray:
+    """:func:`reference_colour` of :func:`mixture_reflectance` (CIELAB, (3,))."""
+    return reference_colour(mixture_reflectance(reflectances, pixel_counts))
+
+
+# ---------------------------------------------------------------- the vision stage's colours
+
+def adapted_xyz(xyz_perceived_cd_m2, state, observer) -> np.ndarray:
+    """The vision stage's chromatic adaptation (first part of ``to_display``), XYZ in cd/m².
+
+    Mirrors :func:`render.vision.pipeline.to_display`: with
+    ``observer.chromatic_adaptation_degree`` unset, incomplete (sensory) adaptation to the
+    adapting white at the MES2 adaptation luminance
+    (:func:`render.vision.display.chromatic_adaptation_incomplete`); else CAT16 with that
+    degree. Destination: the sRGB display white. ``tests/test_colours.py`` checks that this
+    agrees with the stage's display output, so a change there shows up here.
+    """
+    from render.vision import display as _display
+
+    xyz = np.asarray(xyz_perceived_cd_m2, dtype=np.float64)
+    if observer.chromatic_adaptation_degree is None:
+        return _display.chromatic_adaptation_incomplete(xyz, state.white_xyz, state.mesopic_cd_m2)
+    return _display.chromatic_adaptation_cat16(xyz, state.white_xyz, state.chromatic_adaptation_degree)
+
+
+def white_mesopic_cd_m2(state, white_photopic_cd_m2: float | None = None,
+                        white_scotopic_cd_m2: float | None = None) -> float:
+    """Perceived (MES2 mesopic) luminance of the reference white, cd/m²: ``Y_white`` before
+    scaling to 100.
+
+    The reference white is a perfect white diffuser under the scene's light. Give its
+    photopic (and scotopic) luminance, e.g. ``E/π`` for an illuminance E lx at the objects,
+    or the renderer's ``white_xyz[1]``/``white_scotopic``; the scotopic value defaults to
+    photopic × the adapting white's S/P. With neither given, the adaptation field is taken as
+    a 20 % grey (CIECAM02's Y_b = 20, :data:`GREY_WORLD_FRACTION`): white = adaptation
+    luminance / 0.2. MES2 with the state's m (CIE 191:2010), as for every pixel.
+    """
+    from render.vision.mesopic import mesopic_luminance
+
+    if white_photopic_cd_m2 is None:
+        lp = state.photopic_cd_m2 / GREY_WORLD_FRACTION
+        ls = state.scotopic_cd_m2 / GREY_WORLD_FRACTION
+    else:
+        lp = float(white_photopic_cd_m2)
+        ls = lp * state.white_sp_ratio if white_scotopic_cd_m2 is None else float(white_scotopic_cd_m2)
+    out = float(mesopic_luminance(state.m, lp, ls))
+    if not out > 0:
+        raise ValueError("the reference white has no luminance")
+    return out
+
+
+def relative_colour_image(xyz_perceived_cd_m2, state, observer, white_cd_m2: float | None = None) -> np.ndarray:
+    """Perceived colours in the adapted viewing condition, relative to the white (Y = 100).
+
+    The reference white is a perfect white diffuser under the setup's light: its perceived
+    colour is the adapting white's chromaticity (the rod-intrusion step keeps the white's
+    colour) at the perceived luminance ``white_cd_m2`` (:func:`white_mesopic_cd_m2`; its
+    grey-world default if ``None``). Every pixel and the white go through
+    :func:`adapted_xyz`, and the result is scaled so that the adapted white has Y = 100
+    exactly (incomplete adaptation to a strongly coloured light changes Y a little). This is
+    what :func:`object_colour_stats` expects; its CIELAB white is :func:`viewing_white_xyz`.
+    """
+    white = white_mesopic_cd_m2(state) if white_cd_m2 is None else float(white_cd_m2)
+    white_adapted = adapted_white_xyz(state, observer)
+    return adapted_xyz(xyz_perceived_cd_m2, state, observer) * (100.0 / (white * white_adapted[1]))
+
+
+def adapted_white_xyz(state, observer) -> np.ndarray:
+    """The reference white after :func:`adapted_xyz`, for a perceived luminance of 1 (3,)."""
+    return adapted_xyz(np.asarray(state.white_xyz, dtype=np.float64), state, observer)
+
+
+def discount_light_colour(xyz_relative, state, observer) -> np.ndarray:
+    """Colours re-adapted completely to the setup's white: CAT16 with D = 1 from the adapted
+    white (:func:`adapted_white_xyz`) to the viewing white, white kept at Y = 100.
+
+    The vision stage's adaptation may be incomplete (a warm light leaves a warm cast, as it
+    does on the display); an observer naming surface colours partly discounts the light's
+    colour. This gives the other limit -- full discounting -- for the naming option
+    ``naming_adaptation="discounted"`` of :func:`colour_analysis`. Under a line source it
+    makes every colour neutral (all surfaces share the light's chromaticity).
+    """
+    from render.vision.display import chromatic_adaptation_cat16
+
+    w = adapted_white_xyz(state, observer)
+    return chromatic_adaptation_cat16(xyz_relative, w, 1.0, viewing_white_xyz())
+
+
+@dataclass
+class PerceivedView:
+    """One view seen by the observer: the vision stage's steps 1-5 (no display mapping).
+
+    Attributes
+    ----------
+    xyz_cd_m2
+        (H, W, 3) perceived XYZ, cd/m², Y = MES2 mesopic luminance (``perceived_xyz``, after
+        acuity loss if the observer has it on).
+    mesopic_cd_m2
+        (H, W) mesopic luminance (before acuity blur), cd/m².
+    state
+        The adaptation state used.
+    observer
+        The observer settings used.
+    """
+
+    xyz_cd_m2: np.ndarray
+    mesopic_cd_m2: np.ndarray
+    state: object
+    observer: object
+
+
+def perceived_view(buffers, geometry, observer=None, state=None) -> PerceivedView:
+    """Run the vision stage up to the perceived colour for one view.
+
+    Calls :func:`render.vision.pipeline.retinal_image`, ``measure_adaptation`` (unless
+    ``state`` is given: pass ``DisplayResult.state`` of the image shown, so that the analysis
+    and the picture share one adaptation), ``perceived_xyz`` and, if ``observer.acuity``, the
+    acuity step -- the same calls, in the same order, as ``render_display``.
+    """
+    from render.vision import acuity as _acuity
+    from render.vision import pipeline as _pipeline
+    from render.vision.observer import ObserverSettings
+
+    observer = observer or ObserverSettings()
+    buffers.check(geometry)
+    xyz_r, scot_r, lms_r, _ = _pipeline.retinal_image(buffers, geometry, observer)
+    if state is None:
+        state = _pipeline.measure_adaptation(xyz_r, scot_r, geometry, observer,
+                                             _pipeline.exclusion_mask(buffers, observer), buffers)
+    xyz_p, lmes = _pipeline.perceived_xyz(xyz_r, scot_r, state, observer, lms_r)
+    if observer.acuity:
+        local = _acuity.local_adaptation_cd_m2(xyz_r[..., 1], geometry)
+        xyz_p, _ = _acuity.apply_acuity(xyz_p, local, geometry)
+    return PerceivedView(xyz_p, lmes, state, observer)
+
+
+# ------------------------------------------------------------------------- object statistics
+
+def _object_masks(object_id: np.ndarray, object_ids: Sequence[int], erode_px: int):
+    from scipy.ndimage import binary_erosion
+
+    oid = np.asarray(object_id)
+    if oid.ndim != 2:
+        raise ValueError("object_id must be an (H, W) integer image")
+    for k in object_ids:
+        mask = oid == int(k)
+        if erode_px > 0 and mask.any():
+            mask = binary_erosion(mask, iterations=int(erode_px), border_value=1)
+        yield int(k), mask
+
+
+def object_colour_stats(perceived_xyz, object_id, object_ids: Sequence[int], min_pixels: int = MIN_PIXELS, *,
+                        erode_px: int = 0, white_xyz=None) -> dict[int, dict]:
+    """Mean colour of each tagged object over its visible pixels.
+
+    Parameters
+    ----------
+    perceived_xyz
+        (H, W, 3) perceived XYZ relative to the adapted white, Y_white = 100
+        (:func:`relative_colour_image` of the vision stage's ``perceived_xyz``).
+    object_id
+        (H, W) integer object-id image (the renderer's id buffer); other ids are ignored.
+    object_ids
+        The tagged ids to report.
+    min_pixels
+        Objects with fewer visible pixels are reported as not visible (no colour).
+    erode_px
+        Shrink each object's mask by this many pixels first (to drop edge pixels mixed with
+        the background by anti-aliasing or the acuity blur). Default 0.
+    white_xyz
+        CIELAB reference white (Y = 100); default :func:`viewing_white_xyz`.
+
+    Returns
+    -------
+    dict id -> {"visible": bool, "pixels": int, "xyz": (3,) or None, "lab": (3,) or None}
+        ``xyz`` is the mean over the pixels (taken in XYZ, see module text), ``lab`` its
+        CIELAB.
+    """
+    xyz = np.asarray(perceived_xyz, dtype=np.float64)
+    if xyz.ndim != 3 or xyz.shape[2] != 3 or xyz.shape[:2] != np.shape(object_id):
+        raise ValueError("perceived_xyz must be (H, W, 3) matching the (H, W) object_id image")
+    white = viewing_white_xyz() if white_xyz is None else np.asarray(white_xyz, dtype=np.float64)
+    out: dict[int, dict] = {}
+    for k, mask in _object_masks(object_id, object_ids, erode_px):
+        n = int(mask.sum())
+        if n < max(int(min_pixels), 1):
+            out[k] = {"visible": False, "pixels": n, "xyz": None, "lab": None}
+            continue
+        mean = xyz[mask].mean(axis=0)
+        out[k] = {"visible": True, "pixels": n, "xyz": mean, "lab": xyz_to_lab(mean, white)}
+    return out
+
+
+def object_mean(values, object_id, object_ids: Sequence[int], min_pixels: int = 1, *,
+                erode_px: int = 0) -> dict[int, float | None]:
+    """Mean of a scalar image (e.g. luminance, cd/m²) over each object's pixels (None if fewer
+    than ``min_pixels``)."""
+    v = np.asarray(values, dtype=np.float64)
+    out = {}
+    for k, mask in _object_masks(object_id, object_ids, erode_px):
+        out[k] = float(v[mask].mean()) if mask.sum() >= max(min_pixels, 1) else None
+    return out
+
+
+def ring_background(mask, luminance, width_px: float = RING_WIDTH_PX, exclude=None) -> tuple[float | None, int]:
+    """Mean luminance of the ring of pixels around an object: its local background.
+
+    The ring is every pixel outside ``mask`` within ``width_px`` (Euclidean distance between
+    pixel centres) of it, less the pixels where ``exclude`` is true (luminaire openings, other
+    objects). Returns ``(mean luminance or None, number of ring pixels)``.
+    """
+    from scipy.ndimage import distance_transform_edt
+
+    m = np.asarray(mask, dtype=bool)
+    lum = np.asarray(luminance, dtype=np.float64)
+    if m.shape != lum.shape:
+        raise ValueError("mask and luminance must have one shape")
+    if not m.any():
+        return None, 0
+    d = distance_transform_edt(~m)
+    ring = (d > 0) & (d <= float(width_px))
+    if exclude is not None:
+        ring &= ~np.asarray(exclude, dtype=bool)
+    n = int(ring.sum())
+    return (float(lum[ring].mean()) if n else None), n
+
+
+def luminance_contrast(object_luminance, background_luminance):
+    """Weber contrast ``(L_obj − L_bg) / L_bg`` (dimensionless; NaN where L_bg ≤ 0).
+
+    Positive: the object is brighter than its background; −1: a black object. Broadcasts.
+    """
+    lo = np.asarray(object_luminance, dtype=np.float64)
+    lb = np.asarray(background_luminance, dtype=np.float64)
+    out = np.divide(lo - lb, lb, out=np.full(np.broadcast(lo, lb).shape, np.nan), where=lb > 0)
+    return float(out) if out.ndim == 0 else out
+
+
+# ------------------------------------------------------------------------ colour differences
+
+def delta_e_matrix(labs) -> np.ndarray:
+    """Pairwise CIEDE2000 (CIE 142-2001; colour-science ``delta_E(method="CIE 2000")``).
+
+    ``labs`` (n, 3) CIELAB; rows of NaN (objects not visible) give NaN rows and columns.
+    Returns the symmetric (n, n) matrix with a zero diagonal for defined colours.
+    """
+    import colour
+
+    lab = np.asarray(labs, dtype=np.float64).reshape(-1, 3)
+    with np.errstate(invalid="ignore"):
+        de = np.asarray(colour.delta_E(lab[:, None, :], lab[None, :, :], method="CIE 2000"), dtype=np.float64)
+    de = 0.5 * (de + de.T)  # CIEDE2000 is symmetric up to rounding
+    ok = np.all(np.isfinite(lab), axis=1)
+    de[np.ix_(ok, ok)] = np.where(np.eye(int(ok.sum()), dtype=bool), 0.0, de[np.ix_(ok, ok)])
+    return de
+
+
+def confusions(daylight_de, night_de, names: Sequence[str], hard: float = HARD_DE00,
+               imperceptible: float = IMPERCEPTIBLE_DE00,
+               distinct_in_daylight: float = DISTINCT_IN_DAYLIGHT_DE00) -> list[dict]:
+    """Pairs that are distinct in daylight and hard to tell apart under a setup.
+
+    A pair (i, j) is listed when ``daylight_de[i, j] ≥ distinct_in_daylight`` and
+    ``night_de[i, j] < hard``; its ``level`` is ``"imperceptible"`` below ``imperceptible``,
+    else ``"hard"``. Pairs with an undefined (NaN) difference are skipped. Sorted by the
+    night difference, smallest first. Thresholds: see the module text.
+    """
+    day = np.asarray(daylight_de, dtype=np.float64)
+    night = np.asarray(night_de, dtype=np.float64)
+    n = len(names)
+    if day.shape != (n, n) or night.shape != (n, n):
+        raise ValueError("both matrices must be (n, n) for n names")
+    out = []
+    for i in range(n):
+        for j in range(i + 1, n):
+            d, e = day[i, j], night[i, j]
+            if not (np.isfinite(d) and np.isfinite(e)):
+                continue
+            if d >= distinct_in_daylight and e < hard:
+                out.append({"a": names[i], "b": names[j], "daylight_delta_e00": float(d),
+                            "delta_e00": float(e),
+                            "level": "imperceptible" if e < imperceptible else "hard"})
+    out.sort(key=lambda p: (p["delta_e00"], p["a"], p["b"]))
+    return out
+
+
+# ------------------------------------------------------------------------------ the analysis
+
+@dataclass(frozen=True)
+class TaggedObject:
+    """An object whose colour is analysed.
+
+    Attributes
+    ----------
+    id
+        Its value in the object-id image.
+    name
+        Label for tables and pictures ("car", "kerb").
+    reflectance
+        (N_BINS,) reflectance for the daylight reference; for several materials pass
+        :func:`mixture_reflectance` of them.
+    background
+        ``None``: a ring of ``ring_px`` pixels around the object; or the id of a named
+        background object (the road behind a kerb, the footway behind a pedestrian).
+    ring_px
+        Ring width, pixels.
+    """
+
+    id: int
+    name: str
+    reflectance: np.ndarray = field(repr=False)
+    background: int | None = None
+    ring_px: float = RING_WIDTH_PX
+
+
+@dataclass
+class SetupView:
+    """One lighting setup as seen, the input :func:`colour_analysis` needs per setup.
+
+    Attributes
+    ----------
+    perceived_xyz_cd_m2
+        (H, W, 3) the vision stage's perceived XYZ, cd/m² (:attr:`PerceivedView.xyz_cd_m2`).
+    object_id
+        (H, W) integer object-id image of the same view.
+    state
+        The :class:`~render.vision.adaptation.AdaptationState` used for the view.
+    observer
+        The :class:`~render.vision.observer.ObserverSettings` used (for the adaptation step).
+    white_photopic_cd_m2, white_scotopic_cd_m2
+        Luminance of a perfect white diffuser under the setup's light at the objects
+        (see :func:`white_mesopic_cd_m2`); ``None``: grey-world default.
+    luminance_cd_m2
+        (H, W) luminance for the contrasts; default the perceived Y (MES2 mesopic luminance).
+    exclude
+        (H, W) bool, pixels never used as background (luminaire openings, sky).
+    """
+
+    perceived_xyz_cd_m2: np.ndarray
+    object_id: np.ndarray
+    state: object
+    observer: object
+    white_photopic_cd_m2: float | None = None
+    white_scotopic_cd_m2: float | None = None
+    luminance_cd_m2: np.ndarray | None = None
+    exclude: np.ndarray | None = None
+
+    @classmethod
+    def from_view(cls, view: PerceivedView, object_id, **kwargs) -> "SetupView":
+        """Build from :func:`perceived_view`'s result."""
+        return cls(view.xyz_cd_m2, object_id, view.state, view.observer, **kwargs)
+
+
+def _num(x, digits: int):
+    if x is None:
+        return None
+    x = float(x)
+    return round(x, digits) if np.isfinite(x) else None
+
+
+def _sig(x, digits: int = SIGNIFICANT_LUMINANCE):
+    if x is None or not np.isfinite(x):
+        return None
+    x = float(x)
+    return float(f"{x:.{digits}g}")
+
+
+def _vec(v, digits: int):
+    return None if v is None else [_num(x, digits) for x in np.asarray(v, dtype=np.float64)]
+
+
+def _matrix(m, digits: int):
+    return [[_num(x, digits) for x in row] for row in np.asarray(m, dtype=np.float64)]
+
+
+def _json_safe(value):
+    if isinstance(value, dict):
+        return {str(k): _json_safe(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_json_safe(v) for v in value]
+    if isinstance(value, (np.floating, float)):
+        return _sig(value, 6)
+    if isinstance(value, (np.integer,)):
+        return int(value)
+    if isinstance(value, np.bool_):
+        return bool(value)
+    return value
+
+
+def method_notes(hard: float = HARD_DE00, imperceptible: float = IMPERCEPTIBLE_DE00,
+                 distinct_in_daylight: float = DISTINCT_IN_DAYLIGHT_DE00) -> dict:
+    """The method statements that go with every analysis (JSON-safe)."""
+    from render.analysis.naming import naming_model_notes
+
+    return {
+        "colour_as_seen": "mean over the object's visible pixels of the vision stage's perceived XYZ "
+                          "(CIE 191 MES2 luminance, rod intrusion, glare, acuity), after its chromatic "
+                          "adaptation to the display white, relative to a perfect white diffuser under the "
+                          "setup's light (Y = 100); mean taken in XYZ, then CIELAB",
+        "daylight_reference": "same reflectance under CIE D65, CIE 1931 2 degree observer, perfect diffuser "
+                              "Y = 100, complete adaptation",
+        "colour_difference": "CIEDE2000 (CIE 142-2001) on those CIELAB values",
+        "thresholds": {
+            "imperceptible_delta_e00": imperceptible,
+            "imperceptible_source": "about one just-noticeable difference (common practice, no source)",
+            "hard_delta_e00": hard,
+            "hard_source": "hard to tell apart unless side by side (common practice, no source)",
+            "distinct_in_daylight_delta_e00": distinct_in_daylight,
+            "distinct_in_daylight_source": "lampcast's choice: ten JNDs, clearly different at a glance",
+        },
+        "contrast": "Weber contrast (L_obj - L_bg)/L_bg of the mesopic luminance; background a ring "
+                    "around the object or a named background object",
+        "caveat": "CIEDE2000 has no light-level term: thresholds rise at low luminance, so night "
+                  "differences read as more visible than they are",
+        "naming": naming_model_notes(),
+    }
+
+
+def colour_analysis(objects: Sequence[TaggedObject], setups: Mapping[str, SetupView], *,
+                    min_pixels: int = MIN_PIXELS, erode_px: int = 0, hard: float = HARD_DE00,
+                    imperceptible: float = IMPERCEPTIBLE_DE00,
+                    distinct_in_daylight: float = DISTINCT_IN_DAYLIGHT_DE00,
+                    naming_adaptation: str = "as-seen") -> dict:
+    """The whole colour analysis as a JSON-safe dict (structure in the module text).
+
+    Parameters
+    ----------
+    objects
+        The tagged objects (their order is the order of every matrix).
+    setups
+        Setup label -> :class:`SetupView` (kept in the given order).
+    min_pixels, erode_px
+        See :func:`object_colour_stats`.
+    hard, imperceptible, distinct_in_daylight
+        ΔE00 thresholds of :func:`confusions`.
+    naming_adaptation
+        ``"as-seen"`` (default): names of the colours as the vision stage predicts them seen;
+        ``"discounted"``: names after complete adaptation to the setup's light
+        (:func:`discount_light_colour`) -- the observer who has fully discounted the light's
+        colour. Colours, ΔE00 and confusions are always as seen.
+    """
+    if naming_adaptation not in NAMING_ADAPTATIONS:
+        raise ValueError(f"naming_adaptation must be one of {NAMING_ADAPTATIONS}")
+    from render.analysis.naming import colour_name_details
+
+    objects = list(objects)
+    ids = [int(o.id) for o in objects]
+    if len(set(ids)) != len(ids):
+        raise ValueError("object ids must be unique")
+    names = [o.name for o in objects]
+    if len(set(names)) != len(names):
+        raise ValueError("object names must be unique")
+
+    day_lab = np.stack([reference_colour(o.reflectance) for o in objects]) if objects else np.zeros((0, 3))
+    day_de = delta_e_matrix(day_lab)
+    day_names = [colour_name_details(lab) for lab in day_lab]
+    daylight = {
+        "conditions": "CIE D65, CIE 1931 2 degree observer, perfect diffuser Y = 100",
+        "objects": {},
+        "delta_e00": _matrix(day_de, ROUND_DE),
+    }
+    for o, lab, nm in zip(objects, day_lab, day_names):
+        daylight["objects"][o.name] = {
+            "lab": _vec(lab, ROUND_LAB), "lch": _vec(lab_to_lch(lab), ROUND_LAB),
+            "name": nm["term"], "name_margin": _num(nm["margin"], ROUND_DE), "name_runner_up": nm["runner_up"],
+        }
+
+    out_setups = {}
+    for label, sv in setups.items():
+        white = white_mesopic_cd_m2(sv.state, sv.white_photopic_cd_m2, sv.white_scotopic_cd_m2)
+        rel = relative_colour_image(sv.perceived_xyz_cd_m2, sv.state, sv.observer, white)
+        stats = object_colour_stats(rel, sv.object_id, ids, min_pixels, erode_px=erode_px)
+        if naming_adaptation == "discounted":
+            naming_stats = object_colour_stats(discount_light_colour(rel, sv.state, sv.observer), sv.object_id,
+                                               ids, min_pixels, erode_px=erode_px)
+        else:
+            naming_stats = stats
+        lum = (np.asarray(sv.perceived_xyz_cd_m2, dtype=np.float64)[..., 1] if sv.luminance_cd_m2 is None
+               else np.asarray(sv.luminance_cd_m2, dtype=np.float64))
+        lum_obj = object_mean(lum, sv.object_id, ids, min_pixels, erode_px=erode_px)
+        oid = np.asarray(sv.object_id)
+        labs = np.stack([stats[k]["lab"] if stats[k]["visible"] else np.full(3, np.nan) for k in ids]) \
+            if ids else np.zeros((0, 3))
+        de = delta_e_matrix(labs)
+        per_obj = {}
+        changes = []
+        for i, o in enumerate(objects):
+            st = stats[o.id]
+            nm = colour_name_details(naming_stats[o.id]["lab"]) if st["visible"] else None
+            if o.background is None:
+                bg_l, _ = ring_background(oid == o.id, lum, o.ring_px, sv.exclude)
+                bg_label = f"ring {o.ring_px:g} px"
+            else:
+                bg_l = object_mean(lum, oid, [o.background], 1).get(int(o.background))
+                bg_name = next((p.name for p in objects if p.id == o.background), f"id {o.background}")
+                bg_label = f"object {bg_name}"
+            contrast = (luminance_contrast(lum_obj[o.id], bg_l)
+                        if lum_obj[o.id] is not None and bg_l is not None else None)
+            changed = bool(nm is not None and nm["term"] != day_names[i]["term"])
+            per_obj[o.name] = {
+                "visible": bool(st["visible"]),
+                "pixels": int(st["pixels"]),
+                "lab": _vec(st["lab"], ROUND_LAB),
+                "lch": _vec(None if st["lab"] is None else lab_to_lch(st["lab"]), ROUND_LAB),
+                "xyz_relative": _vec(st["xyz"], ROUND_LAB),
+                "name": None if nm is None else nm["term"],
+                "name_margin": None if nm is None else _num(nm["margin"], ROUND_DE),
+                "name_runner_up": None if nm is None else nm["runner_up"],
+                "daylight_name": day_names[i]["term"],
+                "name_changed": changed,
+                "delta_e00_to_daylight": (None if st["lab"] is None else
+                                          _num(delta_e_matrix(np.stack([st["lab"], day_lab[i]]))[0, 1], ROUND_DE)),
+                "luminance_cd_m2": _sig(lum_obj[o.id]),
+                "background": bg_label,
+                "background_luminance_cd_m2": _sig(bg_l),
+                "weber_contrast": _num(contrast, ROUND_CONTRAST),
+            }
+            if changed:
+                changes.append({"object": o.name, "daylight": day_names[i]["term"], "seen": nm["term"],
+                                "text": f"{o.name}: {day_names[i]['term']} → {nm['term']}"})
+        conf = confusions(day_de, de, names, hard, imperceptible, distinct_in_daylight)
+        for c in conf:
+            c["daylight_delta_e00"] = _num(c["daylight_delta_e00"], ROUND_DE)
+            c["delta_e00"] = _num(c["delta_e00"], ROUND_DE)
+        adaptation = _json_safe(sv.state.as_dict()) if hasattr(sv.state, "as_dict") else {}
+        adaptation["white_mesopic_cd_m2"] = _sig(white)
+        out_setups[label] = {
+            "adaptation": adaptation,
+            "objects": per_obj,
+            "delta_e00": _matrix(de, ROUND_DE),
+            "confusions": conf,
+            "name_changes": changes,
+        }
+
+    return {
+        "method": {**method_notes(hard, imperceptible, distinct_in_daylight),
+                   "naming_adaptation": naming_adaptation},
+        "objects": [{"id": o.id, "name": o.name} for o in objects],
+        "daylight": daylight,
+        "setups": out_setups,
+    }

@@ -1,0 +1,474 @@
+"""Colour discrimination and naming (render.analysis): checks against published data and the
+real vision chain.
+
+Sources named beside each check. The chain checks run CIE 13.3 test colour samples
+(colour-science ``SDS_TCS['CIE 1995']``) through render.vision.synthetic and the vision stage's
+own step functions (glare, MES2 adaptation, rod intrusion, acuity, chromatic adaptation).
+"""
+
+import json
+
+import numpy as np
+import pytest
+
+from render.analysis import (
+    SetupView,
+    TaggedObject,
+    colour_analysis,
+    colour_name,
+    confusions,
+    delta_e_matrix,
+    format_name_table,
+    luminance_contrast,
+    mixture_reflectance,
+    name_changes,
+    name_table,
+    object_colour_stats,
+    perceived_view,
+    reference_colour,
+    reference_colour_mixture,
+    relative_colour_image,
+    ring_background,
+    white_mesopic_cd_m2,
+)
+from render.analysis import pictures
+from render.analysis.colours import adapted_xyz, daylight_white_xyz, lab_to_lch, viewing_white_xyz, xyz_to_lab
+from render.analysis.naming import munsell_to_lab
+from render.lamps import get_lamp
+from render.spectra import N_BINS, WAVELENGTHS_NM, band_power
+from render.vision import AdaptationState, ObserverSettings, ViewGeometry, ViewLight, render_display, synthetic
+from render.vision.display import linear_srgb_to_xyz
+
+TCS_KEYS = [f"TCS0{i}" for i in range(1, 9)]
+PAIRS = np.triu_indices(8, 1)
+
+
+def tcs_reflectances(keys=TCS_KEYS) -> np.ndarray:
+    """CIE 13.3-1995 test colour samples (colour-science) on the lampcast grid."""
+    import colour
+    from colour.quality import SDS_TCS
+
+    shape = colour.SpectralShape(380, 780, 1)
+    return np.stack([np.asarray(SDS_TCS["CIE 1995"][k].copy().align(shape).values) for k in keys])
+
+
+def patch_view(refl, spd, white_cd_m2, patch_px=20, gap_px=6):
+    """Samples as square patches on a 20 % grey ground lit by ``spd``; white diffuser at
+    ``white_cd_m2``. Returns (ViewLight, object ids (1..n), geometry, white xyz, white scotopic)."""
+    n = refl.shape[0]
+    cols = 4
+    rows = (n + cols - 1) // cols
+    xyz, s, wx, ws = synthetic.surface_buffers(refl, spd, white_cd_m2)
+    gx, gs, _, _ = synthetic.surface_buffers(np.full((1, N_BINS), 0.2), spd, white_cd_m2)
+    pad = rows * cols - n
+    xyz = np.vstack([xyz, np.broadcast_to(gx, (pad, 3))])
+    s = np.concatenate([s, np.full(pad, gs[0])])
+    ids = np.concatenate([np.arange(1, n + 1), np.zeros(pad)])
+    img = synthetic.patch_image(xyz, rows, cols, patch_px, gap_px, background=gx[0])
+    simg = synthetic.patch_image(s, rows, cols, patch_px, gap_px, background=gs[0])
+    oid = synthetic.patch_image(ids.astype(float), rows, cols, patch_px, gap_px).astype(int)
+    geom = ViewGeometry(20.0, img.shape[1], img.shape[0])
+    return ViewLight(img, simg, white_xyz=wx, white_scotopic=ws), oid, geom, wx, ws
+
+
+def seen_labs(refl, spd, white_cd_m2, observer):
+    """CIELAB of each sample as seen, through the whole vision chain (steps 1-5 + adaptation)."""
+    view, oid, geom, wx, ws = patch_view(refl, spd, white_cd_m2)
+    pv = perceived_view(view, geom, observer)
+    rel = relative_colour_image(pv.xyz_cd_m2, pv.state, observer, white_mesopic_cd_m2(pv.state, wx[1], ws))
+    stats = object_colour_stats(rel, oid, range(1, refl.shape[0] + 1), erode_px=2)
+    return np.stack([stats[k]["lab"] for k in range(1, refl.shape[0] + 1)]), pv.state
+
+
+def hue_spread_deg(h):
+    """Smallest arc (degrees) containing all hue angles."""
+    h = np.sort(np.asarray(h) % 360.0)
+    gaps = np.diff(np.concatenate([h, [h[0] + 360.0]]))
+    return 360.0 - gaps.max()
+
+
+def lightness_share(lab):
+    """Per pair: ΔE00 of the lightness difference alone over the whole ΔE00."""
+    import colour
+
+    out = []
+    for i, j in zip(*PAIRS):
+        only_l = np.concatenate([[lab[j, 0]], lab[i, 1:]])
+        out.append(float(colour.delta_E(lab[i], only_l, method="CIE 2000")) /
+                   float(colour.delta_E(lab[i], lab[j], method="CIE 2000")))
+    return np.array(out)
+
+
+# ------------------------------------------------------------------------------ CIEDE2000
+
+# Sharma, Wu & Dalal (2005), Color Res. Appl. 30(1):21-30, Table 1 -- a subset of the 34 pairs
+# (L1, a1, b1, L2, a2, b2, ΔE00). Written from memory; cross-checked: every value agrees to 4
+# decimals with colour-science's delta_E(method="CIE 2000") (whose own tests cite the paper).
+SHARMA_2005_TABLE_1 = [
+    (50.0000, 2.6772, -79.7751, 50.0000, 0.0000, -82.7485, 2.0425),
+    (50.0000, 3.1571, -77.2803, 50.0000, 0.0000, -82.7485, 2.8615),
+    (50.0000, -1.3802, -84.2814, 50.0000, 0.0000, -82.7485, 1.0000),
+    (50.0000, 0.0000, 0.0000, 50.0000, -1.0000, 2.0000, 2.3669),
+    (50.0000, 2.4900, -0.0010, 50.0000, -2.4900, 0.0009, 7.1792),
+    (50.0000, 2.4900, -0.0010, 50.0000, -2.4900, 0.0011, 7.2195),
+    (50.0000, -0.0010, 2.4900, 50.0000, 0.0011, -2.4900, 4.7461),
+    (50.0000, 2.5000, 0.0000, 73.0000, 25.0000, -18.0000, 27.1492),
+    (50.0000, 2.5000, 0.0000, 56.0000, -27.0000, -3.0000, 31.9030),
+    (60.2574, -34.0099, 36.2677, 60.4626, -34.1751, 39.4387, 1.2644),
+    (22.7233, 20.0904, -46.6940, 23.0331, 14.9730, -42.5619, 2.0373),
+    (90.9257, -0.5406, -0.9208, 88.6381, -0.8985, -0.7239, 1.5381),
+    (2.0776, 0.0795, -1.1350, 0.9033, -0.0636, -0.5514, 0.9082),
+]
+
+
+@pytest.mark.parametrize("row", SHARMA_2005_TABLE_1)
+def test_delta_e_matrix_sharma_pairs(row):
+    de = delta_e_matrix(np.array([row[:3], row[3:6]]))
+    assert de[0, 1] == pytest.approx(row[6], abs=1e-4)
+    assert de[1, 0] == pytest.approx(row[6], abs=1e-4)  # CIEDE2000 is symmetric (Sharma et al. 2005)
+
+
+def test_delta_e_matrix_self_zero_and_not_visible():
+    # A reflectance compared with itself: ΔE00 = 0 (definition).
+    refl = tcs_reflectances(["TCS01", "TCS05"])
+    labs = np.vstack([reference_colour(refl[0]), reference_colour(refl[0]), reference_colour(refl[1]),
+                      np.full(3, np.nan)])
+    de = delta_e_matrix(labs)
+    assert de[0, 1] == 0.0 and np.all(np.diag(de)[:3] == 0.0)
+    assert de[0, 2] > 10.0
+    assert np.all(np.isnan(de[3])) and np.all(np.isnan(de[:, 3]))
+
+
+# ---------------------------------------------------------------------- daylight reference
+
+@pytest.mark.filterwarnings("ignore:Aligning")
+def test_reference_colour_against_colour_science():
+    # colour-science's own integration (sd_to_XYZ, ASTM E308, CIE 1931 2°, D65) of the CIE 13.3
+    # samples at their 5 nm tabulation; ours integrates on the 1 nm grid.
+    import colour
+    from colour.quality import SDS_TCS
+
+    cmfs = colour.MSDS_CMFS["CIE 1931 2 Degree Standard Observer"]
+    d65 = colour.SDS_ILLUMINANTS["D65"]
+    xy = colour.CCS_ILLUMINANTS["CIE 1931 2 Degree Standard Observer"]["D65"]
+    refl = tcs_reflectances([f"TCS{i:02d}" for i in range(1, 15)])
+    ours = reference_colour(refl)
+    theirs = np.stack([colour.XYZ_to_Lab(colour.sd_to_XYZ(SDS_TCS["CIE 1995"][f"TCS{i:02d}"], cmfs, d65) / 100, xy)
+                       for i in range(1, 15)])
+    de = delta_e_matrix(np.vstack([ours, theirs]))[np.arange(14), np.arange(14) + 14]
+    assert de.max() < 0.1
+
+
+def test_reference_white_and_mixture():
+    # The perfect diffuser is the CIELAB white: L* = 100, a* = b* = 0 (CIE 15:2004 definition).
+    assert reference_colour(np.ones(N_BINS)) == pytest.approx([100.0, 0.0, 0.0], abs=1e-9)
+    assert daylight_white_xyz()[1] == pytest.approx(100.0)
+    # XYZ is linear in reflectance (analytic): the pixel-weighted mixture's colour is the Lab of
+    # the weighted mean XYZ, which is also what object_colour_stats averages.
+    from render.materials import d65_on_grid
+    from render.observers import tristimulus
+
+    refl = tcs_reflectances(["TCS03", "TCS07"])
+    w = np.array([30.0, 10.0])
+    s = d65_on_grid()
+    xyz = 100 * tristimulus(refl * s) / tristimulus(s)[1]
+    expected = xyz_to_lab((w[:, None] * xyz).sum(0) / w.sum(), daylight_white_xyz())
+    assert reference_colour_mixture(refl, w) == pytest.approx(expected, abs=1e-9)
+    assert mixture_reflectance(refl, w) == pytest.approx(0.75 * refl[0] + 0.25 * refl[1])
+    with pytest.raises(ValueError):
+        mixture_reflectance(refl, [0.0, 0.0])
+
+
+def test_white_luminance_mes2():
+    # CIE 191:2010 MES2: S/P = 1 gives L_mes = L_p at every m; the grey-world default takes the
+    # adaptation field as a Y_b = 20 background (CIECAM02 typical conditions): white = L_a / 0.2.
+    state = AdaptationState(photopic_cd_m2=1.0, scotopic_cd_m2=1.0, mesopic_cd_m2=1.0, m=0.7,
+                            white_xyz=(0.95, 1.0, 1.09), white_sp_ratio=1.0, pupil_diameter_mm=5.0,
+                            chromatic_adaptation_degree=0.8, field_deg=20.0)
+    assert white_mesopic_cd_m2(state) == pytest.approx(5.0)
+    assert white_mesopic_cd_m2(state, 3.0) == pytest.approx(3.0)
+    # m = 0 (scotopic): L_mes is the scotopic luminance.
+    dark = AdaptationState(0.001, 0.004, 0.004, 0.0, (0.95, 1.0, 1.09), 4.0, 7.0, 0.7, 20.0)
+    assert white_mesopic_cd_m2(dark, 0.01, 0.04) == pytest.approx(0.04)
+
+
+# ------------------------------------------------------------------------ object statistics
+
+def test_object_colour_stats_mean_in_xyz_and_visibility():
+    a, b = np.array([60.0, 40.0, 10.0]), np.array([5.0, 4.0, 20.0])
+    img = np.zeros((20, 20, 3))
+    oid = np.zeros((20, 20), int)
+    oid[2:12, 2:12] = 1
+    img[2:7, 2:12] = a
+    img[7:12, 2:12] = b
+    oid[15, 15:20] = 2  # five pixels only
+    img[15, 15:20] = a
+    stats = object_colour_stats(img, oid, [1, 2, 3], min_pixels=20)
+    white = viewing_white_xyz()
+    # Mean taken in XYZ then converted (analytic), not the mean of the two Labs.
+    assert stats[1]["visible"] and stats[1]["pixels"] == 100
+    assert stats[1]["xyz"] == pytest.approx(0.5 * (a + b))
+    assert stats[1]["lab"] == pytest.approx(xyz_to_lab(0.5 * (a + b), white))
+    mean_of_labs = 0.5 * (xyz_to_lab(a, white) + xyz_to_lab(b, white))
+    assert abs(stats[1]["lab"][0] - mean_of_labs[0]) > 1.0
+    # Too few visible pixels: not visible, no colour; absent objects likewise.
+    assert stats[2] == {"visible": False, "pixels": 5, "xyz": None, "lab": None}
+    assert stats[3]["visible"] is False and stats[3]["pixels"] == 0
+    # Erosion drops edge pixels: a 10x10 square eroded by 1 keeps 8x8; at the image border the
+    # object is cut by the frame, not by background, and keeps its border pixels.
+    assert object_colour_stats(img, oid, [1], erode_px=1)[1]["pixels"] == 64
+    oid[15, 15:20] = 0
+    oid[14:20, 14:20] = 2
+    assert object_colour_stats(img, oid, [2], erode_px=1)[2]["pixels"] == 25
+
+
+def test_ring_background_and_weber_contrast():
+    lum = np.full((40, 40), 2.0)
+    mask = np.zeros((40, 40), bool)
+    mask[15:25, 15:25] = True
+    lum[mask] = 3.0
+    lum[:, 35:] = 50.0  # far away (10 px): outside a 4 px ring
+    exclude = np.zeros_like(mask)
+    exclude[10:15, 15:25] = True
+    lum[12, 20] = 1e6  # a lantern pixel inside the ring, excluded
+    bg, n = ring_background(mask, lum, 4.0, exclude)
+    assert bg == pytest.approx(2.0)
+    assert n > 0 and n < (18 * 18 - 100)
+    # Weber contrast (L - Lb)/Lb (definition).
+    assert luminance_contrast(3.0, bg) == pytest.approx(0.5)
+    assert luminance_contrast(0.0, 2.0) == pytest.approx(-1.0)
+    assert np.isnan(luminance_contrast(1.0, 0.0))
+    assert ring_background(np.zeros_like(mask), lum) == (None, 0)
+
+
+def test_confusions_thresholds():
+    names = ["a", "b", "c", "d"]
+    day = np.array([[0, 25, 12, 5], [25, 0, 30, 40], [12, 30, 0, 20], [5, 40, 20, 0]], float)
+    night = np.array([[0, 0.6, 2.5, 1.0], [0.6, 0, 3.0, np.nan], [2.5, 3.0, 0, 8], [1.0, np.nan, 8, 0]], float)
+    out = confusions(day, night, names)
+    # a-b: 25 -> 0.6 imperceptible; a-c: 12 -> 2.5 hard; b-c: 3.0 is not below 3; a-d was not
+    # distinct in daylight (5 < 10); b-d undefined.
+    assert [(c["a"], c["b"], c["level"]) for c in out] == [("a", "b", "imperceptible"), ("a", "c", "hard")]
+    assert confusions(day, night, names, distinct_in_daylight=4.0)[1]["b"] == "d"
+
+
+# ------------------------------------------------------------------- the real vision chain
+
+def test_adapted_xyz_matches_the_display_step():
+    # The analysis taps the vision stage's chromatic adaptation; the stage's own display output
+    # (mode 'fixed': linear, no roll-off) must equal it scaled by exposure/peak for in-gamut
+    # colours. IEC 61966-2-1 matrix inverse via render.vision.display.
+    refl = tcs_reflectances()
+    view, oid, geom, wx, ws = patch_view(refl, get_lamp("led-3000k-cie-b2").spd, 1.0)
+    obs = ObserverSettings(glare=False, acuity=False)
+    pv = perceived_view(view, geom, obs)
+    exposure = 0.5 * obs.display_peak_cd_m2 / wx[1]
+    res = render_display(view, geom, obs, "fixed", exposure=exposure)
+    assert res.state.m == pytest.approx(pv.state.m)
+    ours = adapted_xyz(pv.xyz_cd_m2, pv.state, obs) * exposure / obs.display_peak_cd_m2
+    theirs = linear_srgb_to_xyz(res.linear_srgb)
+    inside = oid > 0
+    rgb_ours = ours[inside] @ np.linalg.inv(linear_srgb_to_xyz(np.eye(3))).T  # rows of the matrix: primaries
+    ok = np.all((rgb_ours > 1e-6) & (rgb_ours < 1 - 1e-6), axis=1)
+    assert ok.sum() >= 1000  # at least a third of the sample pixels are inside sRGB
+    assert theirs[inside][ok] == pytest.approx(ours[inside][ok], rel=1e-6, abs=1e-9)
+
+
+def test_chain_d65_photopic_equals_daylight_reference():
+    # At a photopic level (m = 1, CIE 191) under D65 light the stage's appearance steps are the
+    # identity (rod intrusion off at m = 1; adapting white = display white): analytic.
+    refl = tcs_reflectances()
+    lab, state = seen_labs(refl, synthetic.illuminant_spd("D65"), 200.0, ObserverSettings(glare=False, acuity=False))
+    assert state.m == 1.0
+    de = delta_e_matrix(np.vstack([lab, reference_colour(refl)]))[np.arange(8), np.arange(8) + 8]
+    assert de.max() < 0.05
+
+
+def test_low_pressure_sodium_collapses_hue_to_lightness():
+    # A line source: every reflectance x one line has the line's chromaticity (analytic), so the
+    # CIE 13.3 samples TCS01-08 -- all of Munsell value 6 -- differ only by how much 589 nm light
+    # they reflect. Whole default observer (glare, acuity), mesopic street level (white 1 cd/m²)
+    # and photopic.
+    refl = tcs_reflectances()
+    day = delta_e_matrix(reference_colour(refl))
+    for white in (1.0, 100.0):
+        lab, state = seen_labs(refl, get_lamp("sodium-low-pressure").spd, white, ObserverSettings())
+        if white == 1.0:
+            assert 0.0 < state.m < 1.0  # mesopic (CIE 191)
+        assert hue_spread_deg(lab_to_lch(lab)[:, 2]) < 3.0
+        share = lightness_share(lab)
+        assert np.median(share) > 0.8  # ΔE00 is mostly lightness difference
+        de = delta_e_matrix(lab)
+        assert np.median(de[PAIRS]) < 0.5 * np.median(day[PAIRS])
+        assert len(confusions(day, de, TCS_KEYS)) >= 3
+
+
+@pytest.mark.parametrize("lamp, white", [("D65", 200.0), ("led-4000k-violet-cie-v2", 1.0),
+                                         ("led-4000k-violet-cie-v2", 100.0)])
+def test_broad_spectra_keep_the_samples_distinct(lamp, white):
+    # The same pairs under D65 and a high-Ra violet-pumped LED (CIE LED-V2) stay distinct: no
+    # pair falls below the "hard" threshold (3, common practice), hues stay spread out, and the
+    # differences are not mostly lightness.
+    refl = tcs_reflectances()
+    spd = synthetic.illuminant_spd("D65") if lamp == "D65" else get_lamp(lamp).spd
+    lab, _ = seen_labs(refl, spd, white, ObserverSettings())
+    de = delta_e_matrix(lab)
+    assert de[PAIRS].min() > 3.0
+    assert hue_spread_deg(lab_to_lch(lab)[:, 2]) > 90.0
+    assert np.median(lightness_share(lab)) < 0.3
+    assert confusions(delta_e_matrix(reference_colour(refl)), de, TCS_KEYS) == []
+
+
+# ---------------------------------------------------------------------------------- naming
+
+# ColorChecker patches named as their patch names (McCamy, Marcus & Davidson 1976 patch names;
+# "dark skin" called brown, "blue sky" blue, "foliage" green: common practice, no source).
+COLORCHECKER_NAMES = {
+    "dark skin": "brown", "blue sky": "blue", "foliage": "green", "orange": "orange", "purple": "purple",
+    "blue": "blue", "green": "green", "red": "red", "yellow": "yellow", "white 9.5 (.05 D)": "white",
+    "neutral 5 (.70 D)": "grey", "black 2 (1.5 D)": "black",
+}
+# Munsell chips well inside each category, chosen as typical (common practice, no source),
+# converted with colour-science's Munsell renotation.
+TYPICAL_CHIPS = {
+    "5R 4/14": "red", "2.5YR 6/14": "orange", "5Y 8.5/12": "yellow", "2.5G 5/10": "green",
+    "5PB 4/12": "blue", "5P 3/10": "purple", "5RP 7/8": "pink", "5YR 3/4": "brown", "N9.5": "white",
+    "N5": "grey", "N1": "black",
+}
+
+
+def test_colour_names_of_typical_samples():
+    names, refl = synthetic.colour_checker_reflectances()
+    labs = dict(zip(names, reference_colour(refl)))
+    got = {patch: colour_name(labs[patch])[0] for patch in COLORCHECKER_NAMES}
+    assert got == COLORCHECKER_NAMES
+    got = {chip: colour_name(munsell_to_lab(chip))[0] for chip in TYPICAL_CHIPS}
+    assert got == TYPICAL_CHIPS
+    term, margin = colour_name(munsell_to_lab("5R 4/14"))
+    assert margin > 5.0
+    assert colour_name(np.full(3, np.nan)) == (None, None)
+
+
+def test_name_table_and_changes():
+    rows = name_table(["car", "bin"], np.array([munsell_to_lab("2.5G 5/10"), munsell_to_lab("5PB 4/12")]),
+                      {"sodium": np.array([munsell_to_lab("5YR 3/4"), [np.nan] * 3])})
+    assert rows[0] == {"object": "car", "daylight": "green", "setups": {"sodium": "brown"}, "changed": ["sodium"]}
+    assert rows[1]["setups"]["sodium"] is None and rows[1]["changed"] == []
+    assert [c["text"] for c in name_changes(rows)] == ["car: green → brown"]
+    text = format_name_table(rows)
+    assert "brown *" in text and text.splitlines()[0].split() == ["object", "daylight", "sodium"]
+
+
+# ------------------------------------------------------------------------- spectrum strips
+
+def test_spectrum_strip_of_low_pressure_sodium_is_one_line():
+    # The model puts 1.5 of 1.5216 relative power units in the D doublet (588.995, 589.592 nm,
+    # NIST ASD), i.e. 98.6 % (render.lamps; analytic from the line list).
+    strip = pictures.spectrum_strip(get_lamp("sodium-low-pressure").spd, width_px=800)
+    px_nm = 400.0 / 800
+    near = np.abs(strip.wavelengths_nm - 589.3) <= 2.0  # ±4 pixels at 0.5 nm per pixel
+    assert strip.column_power[near].sum() / strip.column_power.sum() > 0.98
+    peak = strip.wavelengths_nm[np.argmax(strip.column_power)]
+    assert abs(peak - 589.3) <= 1.0 + px_nm
+    # Its colour is a yellow-orange: red channel full, no blue (the spectral colour at 589 nm).
+    r, g, b = strip.column_rgb[np.argmax(strip.column_power)]
+    assert r == pytest.approx(1.0) and b == pytest.approx(0.0, abs=1e-9) and 0.0 < g < 1.0
+    # Most of the strip is black.
+    assert np.mean(strip.image.max(axis=(0, 2)) < 0.05) > 0.9
+
+
+def test_spectrum_strip_of_led_covers_the_visible():
+    spd = get_lamp("led-3000k-cie-b2").spd
+    # One column per 1 nm bin: the column powers are the bins' powers exactly (analytic).
+    strip = pictures.spectrum_strip(spd, width_px=N_BINS, wavelength_range_nm=(379.5, 780.5))
+    assert strip.column_power == pytest.approx(spd, rel=1e-12, abs=1e-15)
+    assert strip.wavelengths_nm == pytest.approx(WAVELENGTHS_NM)
+    # Any width: the strip conserves the spectrum's power over its range, 380-780 nm, i.e. all
+    # bins but the outer halves of the first and last (analytic).
+    strip = pictures.spectrum_strip(spd, width_px=800)
+    assert strip.column_power.sum() == pytest.approx(band_power(spd) - 0.5 * (spd[0] + spd[-1]), rel=1e-12)
+    visible = (strip.wavelengths_nm >= 420) & (strip.wavelengths_nm <= 700)
+    assert np.all(strip.column_power[visible] > 0.01 * strip.column_power.max())
+    # Spectral colours: short waves blue, middle green, long red (CIE 1931 CMFs and the sRGB
+    # primaries of IEC 61966-2-1: analytic).
+    rgb = pictures.monochromatic_display_rgb([450.0, 530.0, 650.0])
+    assert np.argmax(rgb, axis=1).tolist() == [2, 1, 0]
+
+
+# ------------------------------------------------------------------------ the whole analysis
+
+def _street_setups():
+    refl = tcs_reflectances()
+    objects = [TaggedObject(k + 1, f"sample {k + 1}", refl[k]) for k in range(8)]
+    objects.append(TaggedObject(99, "hidden", refl[0]))  # not in the image: not visible
+    setups = {}
+    obs = ObserverSettings()
+    for label, lamp in [("low-pressure sodium", "sodium-low-pressure"), ("LED", "led-4000k-violet-cie-v2")]:
+        view, oid, geom, wx, ws = patch_view(refl, get_lamp(lamp).spd, 1.0)
+        res = render_display(view, geom, obs)
+        pv = perceived_view(view, geom, obs, state=res.state)
+        setups[label] = (SetupView.from_view(pv, oid, white_photopic_cd_m2=wx[1], white_scotopic_cd_m2=ws), res)
+    return objects, setups
+
+
+def test_colour_analysis_structure(tmp_path):
+    objects, setups = _street_setups()
+    out = colour_analysis(objects, {k: v[0] for k, v in setups.items()})
+    text = json.dumps(out, ensure_ascii=False, allow_nan=False)  # JSON-safe: no NaN
+    assert json.loads(text) == out
+    assert list(out) == ["method", "objects", "daylight", "setups"]
+    assert list(out["setups"]) == ["low-pressure sodium", "LED"]
+    lps, led = out["setups"]["low-pressure sodium"], out["setups"]["LED"]
+    hidden = lps["objects"]["hidden"]
+    assert hidden["visible"] is False and hidden["lab"] is None and hidden["name"] is None
+    assert all(v is None for v in lps["delta_e00"][8])
+    assert lps["delta_e00"][0][0] == 0.0
+    assert len(lps["confusions"]) >= 3 and led["confusions"] == []
+    assert all("→" in c["text"] for c in lps["name_changes"])
+    s1 = lps["objects"]["sample 1"]
+    assert s1["visible"] and s1["pixels"] == 20 * 20 and s1["background"] == "ring 4 px"
+    # Contrast against the 20 % grey ground, from the same luminances (definition).
+    assert s1["weber_contrast"] == pytest.approx(
+        (s1["luminance_cd_m2"] - s1["background_luminance_cd_m2"]) / s1["background_luminance_cd_m2"], abs=2e-3)
+    # Complete discounting of a line source's colour leaves only lightness: every sample is
+    # named black, grey or white (analytic: all share the light's chromaticity).
+    disc = colour_analysis(objects, {k: v[0] for k, v in setups.items()}, naming_adaptation="discounted")
+    assert {o["name"] for k, o in disc["setups"]["low-pressure sodium"]["objects"].items() if o["visible"]} \
+        <= {"black", "grey", "white"}
+    with pytest.raises(ValueError):
+        colour_analysis(objects, {}, naming_adaptation="guess")
+
+
+def test_pictures_are_written(tmp_path):
+    import imageio.v3 as iio
+
+    objects, setups = _street_setups()
+    out = colour_analysis(objects, {k: v[0] for k, v in setups.items()})
+    names = [o.name for o in objects]
+    cols = ["daylight (D65)"] + list(out["setups"])
+    labs = np.full((len(names), len(cols), 3), np.nan)
+    terms = [[None] * len(cols) for _ in names]
+    for i, n in enumerate(names):
+        labs[i, 0] = out["daylight"]["objects"][n]["lab"]
+        terms[i][0] = out["daylight"]["objects"][n]["name"]
+        for j, s in enumerate(out["setups"], start=1):
+            o = out["setups"][s]["objects"][n]
+            if o["lab"] is not None:
+                labs[i, j] = o["lab"]
+            terms[i][j] = o["name"]
+    paths = [
+        pictures.swatch_sheet(names, cols, labs, tmp_path / "swatches.png", terms=terms, title="as seen"),
+        pictures.delta_e_heatmap({"daylight": np.array(out["daylight"]["delta_e00"], float),
+                                  "LPS": np.array(out["setups"]["low-pressure sodium"]["delta_e00"], float)},
+                                 names, tmp_path / "heatmap.png"),
+        pictures.outlined_view(setups["LED"][1].srgb8, setups["LED"][0].object_id,
+                               {o.id: o.name for o in objects}, tmp_path / "view.png", title="LED"),
+        pictures.spectrum_strip_figure([("LPS", get_lamp("sodium-low-pressure").spd),
+                                        ("LED 3000 K", get_lamp("led-3000k-cie-b2").spd)], tmp_path / "strips.png"),
+    ]
+    for p in paths:
+        img = iio.imread(p)
+        assert img.ndim == 3 and img.shape[0] > 100 and img.shape[1] > 300
+    view = iio.imread(paths[2])
+    assert view.shape[1] >= 960  # small views are enlarged for legible labels
+    assert sorted(x.name for x in tmp_path.iterdir()) == ["heatmap.png", "strips.png", "swatches.png", "view.png"]
