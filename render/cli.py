@@ -247,6 +247,57 @@ def cmd_relight(args) -> int:
     return 0
 
 
+# --- colours -----------------------------------------------------------------------------------
+
+def cmd_colours(args) -> int:
+    """Colour discrimination and naming of the tagged objects in one view, under each setup."""
+    from render.analysis.naming import format_name_table
+    from render.analysis.run import analyse_view_colours, colour_pictures, write_colour_json
+    from render.compare import parse_setup
+    from render.lights import channel_factors
+    from render.study import Study
+
+    study = Study(args.scene)
+    observer = _observer_from_args(study, args)
+    view = study.scene.view(args.view)
+    if not any(o.inspect for o in study.mesh.objects):
+        raise input_error(args.scene, "", "no object has `inspect = true`: tag the objects to analyse")
+    names = args.setups or list(study.scene.setups)
+    if not names:
+        raise input_error(args.scene, "setups", "give --setup (a scene setup, a lamp id or key=value items)")
+    setups = [parse_setup(n, study.scene, "--setup") for n in names]
+    first = study.render_view(view.name, setups[0], samples_per_pixel=args.spp, width_px=args.width, progress=True)
+    rendered = [first] + [study.relight(first, s) for s in setups[1:]]
+    displays = study.display(rendered, "shared", observer)
+    result = analyse_view_colours(study, rendered, displays, observer, [s.name for s in setups])
+    out = _out_dir(args.out, f"{Path(args.scene).stem}-colours")
+    lamps = {}
+    for r, s in zip(rendered, setups):
+        for lamp_id in channel_factors(r.lights, s)[1]:
+            lamps.setdefault(lamp_id, study.lamp_spds([lamp_id])[0])
+    pictures = colour_pictures(result, rendered, displays, list(lamps.items()), out, prefix=_slug(view.name) + "-")
+    written = [write_colour_json(result, out / f"{_slug(view.name)}-colours.json"), *pictures.values()]
+    rows = []
+    for o in result["objects"]:
+        row = {"object": o["name"], "daylight": result["daylight"]["objects"][o["name"]]["name"], "setups": {}, "changed": []}
+        for s in result["setups"]:
+            seen = result["setups"][s]["objects"][o["name"]]
+            row["setups"][s] = seen["name"] if seen["visible"] else None
+            if seen["visible"] and seen["name_changed"]:
+                row["changed"].append(s)
+        rows.append(row)
+    print(f"Colour names in view '{view.name}' (daylight vs as seen):")
+    print(format_name_table(rows))
+    for s in result["setups"]:
+        pairs = result["setups"][s]["confusions"]
+        print(f"\n{s}: {len(pairs)} pair(s) distinct in daylight become hard to tell apart")
+        for c in pairs:
+            print(f"  {c['a']} / {c['b']}: ΔE00 {c['daylight_delta_e00']:.1f} in daylight → {c['delta_e00']:.2f} ({c['level']})")
+    for path in written:
+        print(path)
+    return 0
+
+
 # --- compare and demo --------------------------------------------------------------------------
 
 def cmd_compare(args) -> int:
@@ -341,6 +392,17 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--out", help="output folder (default outputs/SCENE)")
     _observer_options(p)
     p.set_defaults(func=cmd_relight)
+
+    p = sub.add_parser("colours", help="can people tell the tagged objects' colours apart? names, CIEDE2000, confusions, pictures")
+    p.add_argument("scene", help="scene file (TOML)")
+    p.add_argument("--setup", dest="setups", action="append", metavar="SETUP",
+                   help="setup to analyse (repeat; a scene setup, a lamp id or key=value items; default every setup in the scene)")
+    p.add_argument("--view", help="view name (default: the scene's first view)")
+    p.add_argument("--spp", type=int, help="samples per pixel")
+    p.add_argument("--width", type=int, help="override the image width in pixels")
+    p.add_argument("--out", help="output folder (default outputs/SCENE-colours)")
+    _observer_options(p)
+    p.set_defaults(func=cmd_colours)
 
     p = sub.add_parser("compare", help="before and after: images, false colour, metrics.json and report.html per view")
     p.add_argument("scene", help="scene file (TOML)")

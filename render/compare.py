@@ -224,6 +224,39 @@ def false_colour_pair(before, after) -> tuple[list[np.ndarray], np.ndarray]:
     return images, legend
 
 
+def _tagged_objects_visible(study, rendered, min_pixels: int = 20) -> int:
+    from render.analysis.run import pixel_object_ids
+
+    ids = pixel_object_ids(rendered.buffers)
+    tagged = [i for i, o in enumerate(study.mesh.objects) if o.inspect]
+    counts = np.bincount(ids[ids >= 0].ravel(), minlength=len(study.mesh.objects))
+    return int(sum(counts[i] >= min_pixels for i in tagged))
+
+
+def _colour_section(study, setups, observer, colour_view, out: Path, metrics: dict) -> None:
+    """Colour analysis of the tagged objects in one view: colours/ folder and a report section."""
+    from render.analysis.run import analyse_view_colours, colour_pictures, colour_report_section, write_colour_json
+    from render.lamps import get_lamp
+    from render.lights import channel_factors
+
+    _, name, rb, ra, shared = colour_view
+    labels = [f"before: {setups['before'].name}", f"after: {setups['after'].name}"]
+    result = analyse_view_colours(study, [rb, ra], shared, observer, labels)
+    lamps: dict[str, np.ndarray] = {}
+    for key, r in (("before", rb), ("after", ra)):
+        for lamp_id in channel_factors(r.lights, setups[key])[1]:
+            lamps.setdefault(lamp_id, get_lamp(lamp_id, base_dir=study.scene.base_dir).spd)
+    cdir = out / "colours"
+    pics = colour_pictures(result, [rb, ra], shared, list(lamps.items()), cdir)
+    write_colour_json(result, cdir / "colours.json")
+    section = colour_report_section(result, pics, out)
+    section["paragraphs"].insert(0, f"Analysed in view '{name}' (the view showing most tagged objects), both setups in shared exposure.")
+    metrics["extra_sections"].append(section)
+    metrics["colours"] = {"view": name, "file": "colours/colours.json",
+                          "confusions": {s: result["setups"][s]["confusions"] for s in result["setups"]},
+                          "name_changes": {s: result["setups"][s]["name_changes"] for s in result["setups"]}}
+
+
 @dataclass
 class ComparisonResult:
     out_dir: Path
@@ -233,8 +266,10 @@ class ComparisonResult:
 
 def run_comparison(scene_path, before: str, after: str, views: list[str] | None = None, out_dir: str | Path = "outputs/compare",
                    *, width_px: int | None = None, samples_per_pixel: int | None = None, observer=None,
-                   report: bool = True, progress: bool = True, extra_sections: list | None = None) -> ComparisonResult:
-    """Render every view before and after and write images, ``metrics.json`` and ``report.html``."""
+                   report: bool = True, progress: bool = True, extra_sections: list | None = None,
+                   colour: bool = True) -> ComparisonResult:
+    """Render every view before and after and write images, ``metrics.json`` and ``report.html``
+    (with the colour analysis of the tagged objects in the first view, unless ``colour=False``)."""
     from render.lampfigures import figures_json, lamp_figures
     from render.lamps import get_lamp
     from render.provenance import scene_sha256
@@ -267,6 +302,7 @@ def run_comparison(scene_path, before: str, after: str, views: list[str] | None 
         "extra_sections": list(extra_sections or []),
     }
     rendered_all = {}
+    colour_view = None
     for name in view_names:
         vdir = out / _slug(name)
         vdir.mkdir(exist_ok=True)
@@ -305,6 +341,11 @@ def run_comparison(scene_path, before: str, after: str, views: list[str] | None 
         write_gif(vdir / "wipe.gif", wipe_frames(shared[0].srgb8, shared[1].srgb8))
         images["wipe"] = f"{vdir.name}/wipe.gif"
         images["falsecolour_legend"] = f"{vdir.name}/falsecolour-legend.png"
+        if colour and any(o.inspect for o in study.mesh.objects):
+            # Keep the view that shows the most tagged objects for the colour analysis.
+            seen = _tagged_objects_visible(study, rb)
+            if colour_view is None or seen > colour_view[0]:
+                colour_view = (seen, name, rb, ra, shared)
         states = [shared[0].state, adapted[0].state, adapted[1].state]
         metrics["views"].append({
             "name": name,
@@ -317,6 +358,8 @@ def run_comparison(scene_path, before: str, after: str, views: list[str] | None 
             "mesopic_adaptation_cd_m2": {"shared": states[0].mesopic_cd_m2, "before": states[1].mesopic_cd_m2,
                                          "after": states[2].mesopic_cd_m2},
         })
+    if colour_view is not None:
+        _colour_section(study, setups, observer, colour_view, out, metrics)
     for key in ("before", "after"):
         for lamp_id in metrics["setups"][key]["lamps"]:
             if lamp_id not in metrics["lamps"]:

@@ -95,3 +95,12 @@ def test_render_bad_observer_option_exits_2(capsys):
 def test_render_unknown_view_exits_2(capsys):
     assert main(["render", str(SCENES / "point_over_plane.toml"), "--view", "abov"]) == 2
     assert "did you mean 'above'" in capsys.readouterr().err
+
+
+def test_colours_command(tmp_path, capsys):
+    scene = Path(__file__).resolve().parents[1] / "scenes" / "tests" / "markup_names.toml"
+    assert main(["colours", str(scene), "--out", str(tmp_path)]) == 0
+    out = capsys.readouterr().out
+    assert "daylight" in out and "<b>bold</b> car" in out
+    written = sorted(p.name for p in tmp_path.iterdir())
+    assert any(n.endswith("-colours.json") for n in written) and any(n.endswith("-swatches.png") for n in written)

@@ -472,3 +472,23 @@ def test_pictures_are_written(tmp_path):
     view = iio.imread(paths[2])
     assert view.shape[1] >= 960  # small views are enlarged for legible labels
     assert sorted(x.name for x in tmp_path.iterdir()) == ["heatmap.png", "strips.png", "swatches.png", "view.png"]
+
+
+def test_demo_street_before_lamp_confuses_a_pair_the_after_lamp_separates():
+    # The demo's own tagged objects, rendered and analysed end to end at a reduced size; the
+    # thresholds are the analysis' documented ones (ΔE00 < 3 hard to tell apart, common practice).
+    from pathlib import Path
+
+    from render.analysis.run import analyse_view_colours
+    from render.study import Study
+
+    study = Study(Path(__file__).resolve().parents[1] / "scenes" / "demo" / "linden_row.toml")
+    before = study.render_view("across the street", "sodium", samples_per_pixel=1, width_px=480)
+    after = study.relight(before, "led-warm")
+    shown = study.display([before, after], "shared")
+    result = analyse_view_colours(study, [before, after], shown, study.observer, ["before", "after"])
+    confused = {(c["a"], c["b"]) for c in result["setups"]["before"]["confusions"]}
+    names = [o["name"] for o in result["objects"]]
+    after_de = result["setups"]["after"]["delta_e00"]
+    separated = [pair for pair in confused if after_de[names.index(pair[0])][names.index(pair[1])] >= 3.0]
+    assert separated, (confused, after_de)

@@ -232,19 +232,11 @@ def reference_colour_mixture(reflectances, pixel_counts) -> np.ndarray:
 def adapted_xyz(xyz_perceived_cd_m2, state, observer) -> np.ndarray:
     """The vision stage's chromatic adaptation (first part of ``to_display``), XYZ in cd/m².
 
-    Mirrors :func:`render.vision.pipeline.to_display`: with
-    ``observer.chromatic_adaptation_degree`` unset, incomplete (sensory) adaptation to the
-    adapting white at the MES2 adaptation luminance
-    (:func:`render.vision.display.chromatic_adaptation_incomplete`); else CAT16 with that
-    degree. Destination: the sRGB display white. ``tests/test_colours.py`` checks that this
-    agrees with the stage's display output, so a change there shows up here.
+    The same step as the display (:func:`render.vision.pipeline.adapt_to_display_white`).
     """
-    from render.vision import display as _display
+    from render.vision.pipeline import adapt_to_display_white
 
-    xyz = np.asarray(xyz_perceived_cd_m2, dtype=np.float64)
-    if observer.chromatic_adaptation_degree is None:
-        return _display.chromatic_adaptation_incomplete(xyz, state.white_xyz, state.mesopic_cd_m2)
-    return _display.chromatic_adaptation_cat16(xyz, state.white_xyz, state.chromatic_adaptation_degree)
+    return adapt_to_display_white(np.asarray(xyz_perceived_cd_m2, dtype=np.float64), state, observer)
 
 
 def white_mesopic_cd_m2(state, white_photopic_cd_m2: float | None = None,

@@ -202,15 +202,22 @@ def display_scale(state: _adaptation.AdaptationState, observer: ObserverSettings
     return _tonemap.ward_scale_factor(state.mesopic_cd_m2, observer.display_peak_cd_m2)
 
 
+def adapt_to_display_white(xyz_perceived, state: _adaptation.AdaptationState, observer: ObserverSettings) -> np.ndarray:
+    """Step 6a: chromatic adaptation from the adapting white to the display white.
+
+    Default (``observer.chromatic_adaptation_degree`` unset): sensory, cone-specific incomplete
+    adaptation at the MES2 adaptation luminance (Hunt; RLAB form, Fairchild 1996), so coloured
+    light keeps its colour; with a degree given: CAT16 with that degree D.
+    """
+    if observer.chromatic_adaptation_degree is None:
+        return _display.chromatic_adaptation_incomplete(xyz_perceived, state.white_xyz, state.mesopic_cd_m2)
+    return _display.chromatic_adaptation_cat16(xyz_perceived, state.white_xyz, state.chromatic_adaptation_degree)
+
+
 def to_display(xyz_perceived, state: _adaptation.AdaptationState, observer: ObserverSettings,
                scale: float, rolloff: bool = True) -> tuple[np.ndarray, dict]:
     """Step 6: chromatic adaptation, tone scale, gamut mapping -> linear sRGB in [0, 1]."""
-    if observer.chromatic_adaptation_degree is None:
-        # Default: sensory, cone-specific incomplete adaptation (Hunt / RLAB), no discounting.
-        adapted = _display.chromatic_adaptation_incomplete(xyz_perceived, state.white_xyz, state.mesopic_cd_m2)
-    else:
-        adapted = _display.chromatic_adaptation_cat16(xyz_perceived, state.white_xyz,
-                                                      state.chromatic_adaptation_degree)
+    adapted = adapt_to_display_white(xyz_perceived, state, observer)
     rel = _tonemap.to_display_relative(adapted, scale, observer.display_peak_cd_m2,
                                        knee=_tonemap.HIGHLIGHT_KNEE if rolloff else None)
     rgb, out = _display.gamut_map_oklab(rel)
