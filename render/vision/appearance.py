@@ -129,12 +129,16 @@ def extra_channel_weights() -> np.ndarray:
 
 def xyz_to_lms(xyz) -> np.ndarray:
     """MacLeod-Boynton cone signals from XYZ (last axis), same units as XYZ."""
-    return np.asarray(xyz, dtype=np.float64) @ XYZ_TO_LMS.T
+    from render.vision.display import apply_matrix
+
+    return apply_matrix(XYZ_TO_LMS, xyz)
 
 
 def lms_to_xyz(lms) -> np.ndarray:
     """Inverse of :func:`xyz_to_lms`."""
-    return np.asarray(lms, dtype=np.float64) @ LMS_TO_XYZ.T
+    from render.vision.display import apply_matrix
+
+    return apply_matrix(LMS_TO_XYZ, lms)
 
 
 def _pathway_matrix() -> np.ndarray:

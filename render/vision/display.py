@@ -24,12 +24,15 @@
 
 from __future__ import annotations
 
+import math
+
 import struct
 import zlib
 from functools import lru_cache
 from pathlib import Path
 from typing import Mapping
 
+import numba
 import numpy as np
 
 from render.fileio import atomic_write_bytes
@@ -73,7 +76,7 @@ def chromatic_adaptation_cat16(xyz, source_white_xyz, degree: float,
     rd = m @ wd
     gain = degree * rd / rs + (1.0 - degree)
     full = np.linalg.inv(m) @ np.diag(gain) @ m
-    return np.asarray(xyz, dtype=np.float64) @ full.T
+    return apply_matrix(full, xyz)
 
 
 def incomplete_adaptation_gains(source_white_xyz, adapting_cd_m2: float, discounting: float = 0.0,
@@ -113,17 +116,47 @@ def chromatic_adaptation_incomplete(xyz, source_white_xyz, adapting_cd_m2: float
     _, _, _, m = _constants()
     gain = incomplete_adaptation_gains(source_white_xyz, adapting_cd_m2, discounting, destination_white_xyz)
     full = np.linalg.inv(m) @ np.diag(gain) @ m
-    return np.asarray(xyz, dtype=np.float64) @ full.T
+    return apply_matrix(full, xyz)
+
+
+def apply_matrix(matrix, v) -> np.ndarray:
+    """``v @ matrix.T`` for (..., 3) arrays, written out per channel (much faster than a BLAS
+    call on millions of 3-vectors)."""
+    m = np.asarray(matrix, dtype=np.float64)
+    v = np.asarray(v, dtype=np.float64)
+    a, b, c = v[..., 0], v[..., 1], v[..., 2]
+    return np.stack([m[0, 0] * a + m[0, 1] * b + m[0, 2] * c,
+                     m[1, 0] * a + m[1, 1] * b + m[1, 2] * c,
+                     m[2, 0] * a + m[2, 1] * b + m[2, 2] * c], axis=-1)
 
 
 def xyz_to_linear_srgb(xyz) -> np.ndarray:
     """Linear sRGB of relative XYZ (display white Y = 1), IEC 61966-2-1 matrix."""
-    return np.asarray(xyz, dtype=np.float64) @ _constants()[0].T
+    return apply_matrix(_constants()[0], xyz)
 
 
 def linear_srgb_to_xyz(rgb) -> np.ndarray:
     """Inverse of :func:`xyz_to_linear_srgb`."""
-    return np.asarray(rgb, dtype=np.float64) @ _constants()[1].T
+    return apply_matrix(_constants()[1], rgb)
+
+
+def _oklab_matrices():
+    """Oklab's two matrices (Ottosson 2020), taken from colour-science."""
+    from colour.models import oklab
+
+    return oklab.MATRIX_1_XYZ_TO_LMS, oklab.MATRIX_2_LMS_TO_LAB
+
+
+def xyz_to_oklab(xyz) -> np.ndarray:
+    """Oklab of XYZ (Ottosson 2020): LMS = M1·XYZ, Lab = M2·cbrt(LMS); same as colour-science."""
+    m1, m2 = _oklab_matrices()
+    return apply_matrix(m2, np.cbrt(apply_matrix(m1, xyz)))
+
+
+def oklab_to_xyz(lab) -> np.ndarray:
+    """Inverse of :func:`xyz_to_oklab`."""
+    m1, m2 = _oklab_matrices()
+    return apply_matrix(np.linalg.inv(m1), apply_matrix(np.linalg.inv(m2), lab) ** 3)
 
 
 def srgb_encode(linear) -> np.ndarray:
@@ -151,32 +184,65 @@ def _in_gamut(rgb, tol):
     return np.all((rgb >= -tol) & (rgb <= 1.0 + tol), axis=-1)
 
 
+@numba.njit(cache=True, nogil=True, parallel=True)
+def _gamut_kernel(lab, to_lms, to_xyz, to_rgb, iterations, tol, out):
+    """Per pixel: bisection on Oklab chroma at constant lightness and hue until the colour is
+    inside the sRGB cube; writes the linear sRGB of the largest chroma found inside."""
+    for i in numba.prange(lab.shape[0]):
+        L = min(max(lab[i, 0], 0.0), 1.0)
+        a = lab[i, 1]
+        b = lab[i, 2]
+        c = math.hypot(a, b)
+        ca = a / c if c > 0.0 else 0.0
+        sa = b / c if c > 0.0 else 0.0
+        lo = 0.0
+        hi = c
+        r0 = 0.0
+        r1 = 0.0
+        r2 = 0.0
+        for it in range(iterations + 1):
+            mid = lo if it == iterations else 0.5 * (lo + hi)
+            aa = mid * ca
+            bb = mid * sa
+            l_ = to_lms[0, 0] * L + to_lms[0, 1] * aa + to_lms[0, 2] * bb
+            m_ = to_lms[1, 0] * L + to_lms[1, 1] * aa + to_lms[1, 2] * bb
+            s_ = to_lms[2, 0] * L + to_lms[2, 1] * aa + to_lms[2, 2] * bb
+            l3 = l_ * l_ * l_
+            m3 = m_ * m_ * m_
+            s3 = s_ * s_ * s_
+            x = to_xyz[0, 0] * l3 + to_xyz[0, 1] * m3 + to_xyz[0, 2] * s3
+            y = to_xyz[1, 0] * l3 + to_xyz[1, 1] * m3 + to_xyz[1, 2] * s3
+            z = to_xyz[2, 0] * l3 + to_xyz[2, 1] * m3 + to_xyz[2, 2] * s3
+            r0 = to_rgb[0, 0] * x + to_rgb[0, 1] * y + to_rgb[0, 2] * z
+            r1 = to_rgb[1, 0] * x + to_rgb[1, 1] * y + to_rgb[1, 2] * z
+            r2 = to_rgb[2, 0] * x + to_rgb[2, 1] * y + to_rgb[2, 2] * z
+            if it == iterations:
+                break
+            inside = (r0 >= -tol and r0 <= 1.0 + tol and r1 >= -tol and r1 <= 1.0 + tol
+                      and r2 >= -tol and r2 <= 1.0 + tol)
+            if inside:
+                lo = mid
+            else:
+                hi = mid
+        out[i, 0] = r0
+        out[i, 1] = r1
+        out[i, 2] = r2
+
+
 def gamut_map_oklab(xyz, iterations: int = 30, tol: float = 1e-9) -> tuple[np.ndarray, np.ndarray]:
     """Linear sRGB in [0, 1] for relative XYZ, out-of-gamut colours mapped at constant Oklab
-    lightness and hue (chroma reduced by bisection). Returns ``(rgb, was_out_of_gamut)``."""
-    import colour
-
+    lightness and hue (chroma reduced by bisection; Ottosson 2020's space, the constant-hue
+    chroma reduction of CSS Color 4). Returns ``(rgb, was_out_of_gamut)``."""
     xyz = np.asarray(xyz, dtype=np.float64)
     rgb = xyz_to_linear_srgb(xyz)
     out = ~_in_gamut(rgb, tol)
     if np.any(out):
-        lab = np.asarray(colour.XYZ_to_Oklab(xyz[out]), dtype=np.float64)
-        lightness = np.clip(lab[:, 0], 0.0, 1.0)
-        chroma = np.hypot(lab[:, 1], lab[:, 2])
-        hue = np.arctan2(lab[:, 2], lab[:, 1])
-        lo = np.zeros_like(chroma)
-        hi = chroma.copy()
-
-        def rgb_at(c):
-            ok = np.stack([lightness, c * np.cos(hue), c * np.sin(hue)], axis=-1)
-            return xyz_to_linear_srgb(np.asarray(colour.Oklab_to_XYZ(ok), dtype=np.float64))
-
-        for _ in range(iterations):
-            mid = 0.5 * (lo + hi)
-            inside = _in_gamut(rgb_at(mid), tol)
-            lo = np.where(inside, mid, lo)
-            hi = np.where(inside, hi, mid)
-        rgb[out] = rgb_at(lo)
+        m1, m2 = _oklab_matrices()
+        lab = np.ascontiguousarray(xyz_to_oklab(xyz[out]))
+        mapped = np.empty_like(lab)
+        _gamut_kernel(lab, np.ascontiguousarray(np.linalg.inv(m2)), np.ascontiguousarray(np.linalg.inv(m1)),
+                      np.ascontiguousarray(_constants()[0]), int(iterations), float(tol), mapped)
+        rgb[out] = mapped
     return np.clip(rgb, 0.0, 1.0), out
 
 

@@ -187,10 +187,10 @@ def veiling_luminance(channels_cd_m2: np.ndarray, geometry: ViewGeometry, *, age
     hy, hx = min(gh - 1, reach), min(gw - 1, reach)
     kernel = glare_kernel(delta, (hy, hx), model, age_years, pigmentation)
     shape = (scipy.fft.next_fast_len(gh + 2 * hy), scipy.fft.next_fast_len(gw + 2 * hx))
-    kf = scipy.fft.rfft2(kernel, shape)
+    kf = scipy.fft.rfft2(kernel, shape, workers=-1)
     veil = np.empty_like(grid)
     for i in range(c):
-        full = scipy.fft.irfft2(scipy.fft.rfft2(grid[i], shape) * kf, shape)
+        full = scipy.fft.irfft2(scipy.fft.rfft2(grid[i], shape, workers=-1) * kf, shape, workers=-1)
         veil[i] = full[hy:hy + gh, hx:hx + gw]
     np.maximum(veil, 0.0, out=veil)  # FFT round-off
     return _sample(veil, gx, gy).reshape(h, w, c)
