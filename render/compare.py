@@ -313,8 +313,7 @@ def run_comparison(scene_path, before: str, after: str, views: list[str] | None 
             metrics["setups"].setdefault(key, setup_description(study, setups[key], r.lights))
         metrics["settings"]["width_px"] = rb.camera.width_px
         metrics["settings"]["height_px"] = rb.camera.height_px
-        shared = study.display([rb, ra], "shared", observer)
-        adapted = study.display([rb, ra], "adapted", observer)
+        shared, adapted = study.display_both([rb, ra], observer)
         false, legend = false_colour_pair(rb, ra)
         images: dict[str, str] = {}
 

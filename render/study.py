@@ -144,6 +144,19 @@ class Study:
         return ViewLight(c.xyz_cd_m2, c.scotopic_cd_m2, luminaire_mask=c.luminaire_mask, white_xyz=c.white_xyz,
                          white_scotopic=c.white_scotopic)
 
+    def display_both(self, rendered: list[RenderedView], observer=None):
+        """``(shared, adapted)`` display lists of the same views, computing glare once per view."""
+        from render.vision.pipeline import render_display, retinal_image, shared_display
+        from render.vision.view import ViewGeometry
+
+        observer = observer or self.observer
+        lights = [self.view_light(r) for r in rendered]
+        geoms = [ViewGeometry.of(r.camera) for r in rendered]
+        retinas = [retinal_image(x, g, observer) for x, g in zip(lights, geoms)]
+        shared = shared_display(lights, geoms, observer, retinas=retinas)
+        adapted = [render_display(x, g, observer, "adapted", retina=r) for x, g, r in zip(lights, geoms, retinas)]
+        return shared, adapted
+
     def display(self, rendered: list[RenderedView] | RenderedView, mode: str = "adapted", observer=None):
         """Night-vision display images (:class:`render.vision.pipeline.DisplayResult`) of one or
         several rendered views. ``shared`` gives all of them one adaptation state (their true

@@ -279,7 +279,8 @@ def render_display(buffers: ViewLight, view_geometry: ViewGeometry,
                    observer: ObserverSettings | None = None, mode: str = "adapted", *,
                    state: _adaptation.AdaptationState | None = None, exposure: float | None = None,
                    photometric_quantity: str = "photopic",
-                   photometric_range_cd_m2: tuple[float, float] | None = None) -> DisplayResult:
+                   photometric_range_cd_m2: tuple[float, float] | None = None,
+                   retina=None) -> DisplayResult:
     """Turn one view's light buffers into a display image.
 
     Parameters
@@ -299,6 +300,8 @@ def render_display(buffers: ViewLight, view_geometry: ViewGeometry,
         ``fixed`` mode: display cd/m² per perceived scene cd/m².
     photometric_quantity, photometric_range_cd_m2
         ``photometric`` mode: which luminance and the legend range (default automatic).
+    retina
+        The result of :func:`retinal_image` for these buffers, if already computed.
 
     Returns
     -------
@@ -313,7 +316,7 @@ def render_display(buffers: ViewLight, view_geometry: ViewGeometry,
                                    range_cd_m2=photometric_range_cd_m2)
     if mode == "shared" and state is None:
         raise ValueError("mode 'shared' needs the shared adaptation state; use shared_display()")
-    retina = retinal_image(buffers, view_geometry, observer)
+    retina = retinal_image(buffers, view_geometry, observer) if retina is None else retina
     if state is None:
         state = measure_adaptation(retina[0], retina[1], view_geometry, observer,
                                    exclusion_mask(buffers, observer), buffers)
@@ -321,7 +324,7 @@ def render_display(buffers: ViewLight, view_geometry: ViewGeometry,
 
 
 def shared_display(buffers_list: Sequence[ViewLight], view_geometries: Sequence[ViewGeometry] | ViewGeometry,
-                   observer: ObserverSettings | None = None) -> list[DisplayResult]:
+                   observer: ObserverSettings | None = None, retinas=None) -> list[DisplayResult]:
     """Map a set of views (e.g. before and after) with **one** adaptation state and scale.
 
     The state comes from the views' adaptation fields averaged with equal weight
@@ -333,10 +336,11 @@ def shared_display(buffers_list: Sequence[ViewLight], view_geometries: Sequence[
         view_geometries = [view_geometries] * len(buffers_list)
     if len(view_geometries) != len(buffers_list):
         raise ValueError("one view geometry per buffer set")
-    retinas = []
-    for b, g in zip(buffers_list, view_geometries):
-        b.check(g)
-        retinas.append(retinal_image(b, g, observer))
+    if retinas is None:
+        retinas = []
+        for b, g in zip(buffers_list, view_geometries):
+            b.check(g)
+            retinas.append(retinal_image(b, g, observer))
     first = buffers_list[0]
     state = _adaptation.shared_adaptation_state(
         [(r[0], r[1], g, exclusion_mask(b, observer)) for r, g, b in zip(retinas, view_geometries, buffers_list)],
