@@ -1,0 +1,323 @@
+"""Benchmarks (speed is measured here, never in the tests).
+
+    python -m render.bench rays [--width 960 --height 540 --spp 1 --seed 0 ...]
+
+``rays`` builds the BVH of (a) the demo street, when the scene loader and ``scenes/demo/*.toml``
+are present, and (b) a seeded synthetic stress scene of >= 250 000 triangles (random boxes and
+spheres on a ground plane); then it casts primary rays from a camera (pixels in 4 x 4 blocks,
+as :mod:`render.aov` casts them), shadow rays from the primary hits to a point light, and
+incoherent diffuse-bounce rays from the primary hits, and prints rays per second after JIT
+warm-up (best of ``--repeat`` runs, the contenders alternating). When the optional
+``embreex`` package is importable, the same triangles and rays go through Embree too and the
+throughput ratio (ours / Embree) is printed, with the agreement of the two results.
+"""
+
+from __future__ import annotations
+
+import argparse
+import glob
+import os
+import sys
+import time
+from dataclasses import dataclass
+
+import numba
+import numpy as np
+
+from render.bvh import BVH, build_bvh, intersect_any, intersect_closest
+from render.cameras import Camera, camera_rays, tile_pixels
+
+# --------------------------------------------------------------------------------------------
+# Stress scene
+# --------------------------------------------------------------------------------------------
+
+
+def _box_triangles(lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
+    """(12, 3, 3) triangles of the axis-aligned box [lo, hi], outward counter-clockwise."""
+    x0, y0, z0 = lo
+    x1, y1, z1 = hi
+    c = np.array(
+        [[x0, y0, z0], [x1, y0, z0], [x1, y1, z0], [x0, y1, z0], [x0, y0, z1], [x1, y0, z1], [x1, y1, z1], [x0, y1, z1]]
+    )
+    faces = [
+        (0, 2, 1), (0, 3, 2),  # bottom (-z)
+        (4, 5, 6), (4, 6, 7),  # top (+z)
+        (0, 1, 5), (0, 5, 4),  # -y
+        (2, 3, 7), (2, 7, 6),  # +y
+        (1, 2, 6), (1, 6, 5),  # +x
+        (3, 0, 4), (3, 4, 7),  # -x
+    ]  # fmt: skip
+    return c[np.array(faces)]
+
+
+def uv_sphere_triangles(centre_m, radius_m: float, n_lat: int, n_lon: int) -> np.ndarray:
+    """(2 n_lon (n_lat - 1), 3, 3) triangles of a latitude/longitude sphere, vertices on it."""
+    theta = np.linspace(0.0, np.pi, n_lat + 1)
+    phi = np.linspace(0.0, 2.0 * np.pi, n_lon + 1)
+    st, ct = np.sin(theta), np.cos(theta)
+    grid = np.stack(
+        [st[:, None] * np.cos(phi)[None, :], st[:, None] * np.sin(phi)[None, :], np.repeat(ct[:, None], n_lon + 1, 1)],
+        axis=-1,
+    )
+    tris = []
+    for i in range(n_lat):
+        for j in range(n_lon):
+            a, b, c, d = grid[i, j], grid[i + 1, j], grid[i + 1, j + 1], grid[i, j + 1]
+            if i != 0:
+                tris.append((a, b, d))
+            if i != n_lat - 1:
+                tris.append((b, c, d))
+    return np.asarray(centre_m, dtype=np.float64) + radius_m * np.asarray(tris)
+
+
+def stress_scene(seed: int = 0, n_boxes: int = 12000, n_spheres: int = 300, extent_m: float = 200.0) -> np.ndarray:
+    """Seeded synthetic scene (benchmark only): boxes (rotated about z) and spheres on a ground
+    plane. Returns (F, 3, 3) triangles; F = 2 + 12 n_boxes + 360 n_spheres (252 002 by default)."""
+    rng = np.random.default_rng(seed)
+    half = extent_m / 2.0
+    out = [np.array([[[-2 * half, -2 * half, 0], [2 * half, -2 * half, 0], [2 * half, 2 * half, 0]], [[-2 * half, -2 * half, 0], [2 * half, 2 * half, 0], [-2 * half, 2 * half, 0]]], float)]
+    unit = _box_triangles(np.array([-0.5, -0.5, 0.0]), np.array([0.5, 0.5, 1.0]))
+    size = rng.uniform([0.3, 0.3, 0.3], [4.0, 4.0, 6.0], (n_boxes, 3))
+    heading = rng.uniform(0.0, 2.0 * np.pi, n_boxes)
+    pos = np.column_stack([rng.uniform(-half, half, (n_boxes, 2)), np.zeros(n_boxes)])
+    c, s = np.cos(heading), np.sin(heading)
+    rot = np.zeros((n_boxes, 3, 3))
+    rot[:, 0, 0], rot[:, 0, 1], rot[:, 1, 0], rot[:, 1, 1], rot[:, 2, 2] = c, -s, s, c, 1.0
+    scaled = unit[None, :, :, :] * size[:, None, None, :]  # (B, 12, 3, 3)
+    boxes = np.einsum("bij,btvj->btvi", rot, scaled) + pos[:, None, None, :]
+    out.append(boxes.reshape(-1, 3, 3))
+    for _ in range(n_spheres):
+        r = rng.uniform(0.5, 3.0)
+        centre = [rng.uniform(-half, half), rng.uniform(-half, half), r + rng.uniform(0.0, 4.0)]
+        out.append(uv_sphere_triangles(centre, r, 10, 20))
+    return np.concatenate(out)
+
+
+STRESS_CAMERA = dict(position_m=(-110.0, -20.0, 12.0), target_m=(0.0, 0.0, 0.0), hfov_deg=70.0)
+STRESS_LIGHT_M = np.array([-20.0, -5.0, 25.0])
+DEMO_FALLBACK_CAMERA = dict(position_m=(-5.0, -3.0, 1.6), target_m=(40.0, 0.0, 1.0), hfov_deg=60.0)
+
+# --------------------------------------------------------------------------------------------
+# Timing helpers
+# --------------------------------------------------------------------------------------------
+
+
+@dataclass
+class _Case:
+    name: str
+    triangles_m: np.ndarray
+    camera: Camera
+    light_m: np.ndarray
+
+
+def _shadow_rays(origins, directions, hits, light_m, offset_m=1e-4):
+    """Shadow rays from the primary hits to the light: origin pushed ``offset_m`` towards the
+    light (Embree's binding has no t_min), direction = light - origin, t_max = 1 - 1e-6."""
+    m = hits.hit
+    p = origins[m] + hits.t[m, None] * directions[m]
+    to_light = light_m[None, :] - p
+    dist = np.linalg.norm(to_light, axis=1, keepdims=True)
+    o = p + offset_m * to_light / dist
+    return np.ascontiguousarray(o), np.ascontiguousarray(light_m[None, :] - o)
+
+
+def _embree():
+    try:
+        from embreex import rtcore_scene
+        from embreex.mesh_construction import TriangleMesh as EmbreeMesh
+    except Exception:  # noqa: BLE001 - any import problem means "not available"
+        return None
+    return rtcore_scene, EmbreeMesh
+
+
+def _mrays(n: int, seconds: float) -> float:
+    return n / seconds / 1e6 if seconds > 0 else float("inf")
+
+
+def _bounce_rays(origins, directions, hits, triangles_m, seed, offset_m=1e-4):
+    """Incoherent rays: from the primary hits into cosine-distributed random directions about
+    the face normal turned towards the eye (a diffuse bounce), origin pushed ``offset_m`` off
+    the surface."""
+    from render.bvh import face_forward, geometric_normal
+
+    m = hits.hit
+    p = origins[m] + hits.t[m, None] * directions[m]
+    n = face_forward(geometric_normal(triangles_m, hits)[m], directions[m])
+    rng = np.random.default_rng(seed)
+    # Cosine-weighted hemisphere (Malley's method): uniform disc point lifted to the hemisphere.
+    r = np.sqrt(rng.uniform(size=len(p)))
+    phi = rng.uniform(0.0, 2.0 * np.pi, len(p))
+    a = np.where(np.abs(n[:, :1]) > 0.9, [[0.0, 1.0, 0.0]], [[1.0, 0.0, 0.0]])
+    t1 = np.cross(n, a)
+    t1 /= np.linalg.norm(t1, axis=1, keepdims=True)
+    t2 = np.cross(n, t1)
+    d = (r * np.cos(phi))[:, None] * t1 + (r * np.sin(phi))[:, None] * t2 + np.sqrt(np.maximum(0.0, 1.0 - r * r))[:, None] * n
+    return np.ascontiguousarray(p + offset_m * n), np.ascontiguousarray(d)
+
+
+def _interleaved(fns: dict, repeat: int) -> dict:
+    """Best time of each function over ``repeat`` rounds, the functions alternating within a
+    round (so that a busy moment on a shared machine hurts all of them alike)."""
+    best = {k: np.inf for k in fns}
+    for _ in range(repeat):
+        for k, fn in fns.items():
+            t0 = time.perf_counter()
+            fn()
+            best[k] = min(best[k], time.perf_counter() - t0)
+    return best
+
+
+def _single_thread(fn):
+    def run():
+        threads = numba.get_num_threads()
+        numba.set_num_threads(1)
+        try:
+            return fn()
+        finally:
+            numba.set_num_threads(threads)
+
+    return run
+
+
+def _run_case(case: _Case, args) -> None:
+    tris = case.triangles_m
+    print(f"\n== {case.name}: {tris.shape[0]} triangles")
+    build_bvh(tris[: min(len(tris), 64)])  # JIT warm-up of the builder
+    t0 = time.perf_counter()
+    bvh: BVH = build_bvh(tris)
+    build_s = time.perf_counter() - t0
+    print(f"BVH build {build_s:.3f} s (one core), {bvh.n_nodes} inner nodes, depth {bvh.depth}, SAH cost {bvh.sah_cost:.2f}, arrays {bvh.nbytes / 2**20:.1f} MiB ({bvh.nbytes} B)")
+
+    cam = case.camera
+    # Pixels in 4 x 4 blocks, the order render.aov casts them in (consecutive rays coherent).
+    pixels = tile_pixels(cam, 0, 0, cam.width_px, cam.height_px, block_px=4)
+    o, d, _ = camera_rays(cam, args.spp, args.seed, pixels)
+    intersect_closest(bvh, o[:1024], d[:1024])  # JIT warm-up
+    hits = intersect_closest(bvh, o, d)
+    so, sd = _shadow_rays(o, d, hits, case.light_m)
+    t_max = np.full(so.shape[0], 1.0 - 1e-6)
+    intersect_any(bvh, so[:1024], sd[:1024], t_max[:1024])
+    bo, bd = _bounce_rays(o, d, hits, tris, args.seed)
+    threads = numba.get_num_threads()
+    print(f"camera {cam.width_px}x{cam.height_px}, {args.spp} spp; light at {tuple(np.round(case.light_m, 2))} m; ours: {threads} threads (numba prange), Embree: embreex, 1 thread, float32, one rtcIntersect/rtcOccluded per ray")
+
+    emb = None if args.no_embree else _embree()
+    scene = None
+    if emb is not None:
+        rtcore_scene, EmbreeMesh = emb
+        t0 = time.perf_counter()
+        scene = rtcore_scene.EmbreeScene()
+        EmbreeMesh(scene, np.ascontiguousarray(tris, np.float32))
+        scene.run(np.zeros((1, 3), np.float32), np.ones((1, 3), np.float32), output=1)  # commit = build
+        print(f"Embree scene build {time.perf_counter() - t0:.3f} s")
+
+    sets = [
+        ("primary (closest hit)", o, d, None),
+        ("shadow to light (occlusion)", so, sd, t_max),
+        ("diffuse bounce, incoherent (closest hit)", bo, bd, None),
+    ]
+    print(f"{'rays':44s} {'count':>8s} {'ours Mrays/s':>13s} {'1 thread':>9s} {'Embree':>8s} {'ours/Embree':>12s}  agreement")
+    for name, ro, rd, tm in sets:
+        if tm is None:
+            fns = {"ours": lambda ro=ro, rd=rd: intersect_closest(bvh, ro, rd)}
+        else:
+            fns = {"ours": lambda ro=ro, rd=rd, tm=tm: intersect_any(bvh, ro, rd, tm)}
+        if threads > 1 and not args.no_single:
+            fns["one"] = _single_thread(fns["ours"])
+        if scene is not None:
+            o32, d32 = np.ascontiguousarray(ro, np.float32), np.ascontiguousarray(rd, np.float32)
+            if tm is None:
+                fns["embree"] = lambda o32=o32, d32=d32: scene.run(o32, d32, output=1)
+            else:
+                tm32 = tm.astype(np.float32)
+                fns["embree"] = lambda o32=o32, d32=d32, tm32=tm32: scene.run(o32, d32, dists=tm32.copy(), query="OCCLUDED")
+        best = _interleaved(fns, args.repeat)
+        n = ro.shape[0]
+        one = f"{_mrays(n, best['one']):9.2f}" if "one" in best else f"{'-':>9s}"
+        if scene is not None:
+            ours_result = fns["ours"]()
+            emb_result = fns["embree"]()
+            if tm is None:
+                agree = f"same triangle {np.mean(np.asarray(emb_result['primID']) == ours_result.triangle):.3%}"
+            else:
+                agree = f"same occlusion {np.mean((np.asarray(emb_result) != -1) == ours_result):.3%}"
+            emb_s, ratio = f"{_mrays(n, best['embree']):8.2f}", f"{best['embree'] / best['ours']:12.2f}"
+        else:
+            emb_s, ratio, agree = f"{'-':>8s}", f"{'-':>12s}", "embreex not importable (or --no-embree)"
+        print(f"{name:44s} {n:8d} {_mrays(n, best['ours']):13.2f} {one} {emb_s} {ratio}  {agree}")
+
+
+def _demo_case(args) -> _Case | None:
+    paths = sorted(glob.glob(os.path.join(args.scenes, "demo", "*.toml")))
+    try:
+        from render.scene import compile_scene, load_scene  # written concurrently; may be absent
+    except Exception:  # noqa: BLE001
+        return None
+    if not paths:
+        return None
+    try:
+        scene = load_scene(paths[0])
+        mesh = compile_scene(scene)
+    except Exception as exc:  # noqa: BLE001 - a broken demo must not stop the stress benchmark
+        print(f"demo scene {paths[0]} could not be loaded: {exc}")
+        return None
+    size = dict(width_px=args.width, height_px=args.height)
+    camera = None
+    views = getattr(scene, "views", None) or []
+    if views:
+        try:
+            camera = Camera.from_view(views[0], source=paths[0])
+        except Exception as exc:  # noqa: BLE001
+            print(f"first view unusable ({exc}); using a fixed camera")
+    if camera is None:
+        camera = Camera(**DEMO_FALLBACK_CAMERA, **size)
+    lums = getattr(scene, "luminaires", None) or []
+    light = np.asarray(lums[0].position_m, float) if lums else np.array([10.0, 4.0, 6.0])
+    return _Case(f"demo street ({os.path.basename(paths[0])})", mesh.triangles_m, camera, light)
+
+
+def cmd_rays(args) -> int:
+    print(f"numba {numba.__version__}, threading layer {numba.threading_layer() if _warm_threads() else '?'}, {numba.get_num_threads()} threads, {os.cpu_count()} CPUs")
+    if hasattr(os, "getloadavg"):
+        print(f"load average before the run {os.getloadavg()[0]:.2f} (other processes on the machine skew the figures)")
+    demo = _demo_case(args)
+    if demo is None:
+        print("demo scene not available yet")
+    else:
+        _run_case(demo, args)
+    tris = stress_scene(args.seed)
+    cam = Camera(**STRESS_CAMERA, width_px=args.width, height_px=args.height)
+    _run_case(_Case("synthetic stress scene (seeded boxes and spheres on a ground plane)", tris, cam, STRESS_LIGHT_M), args)
+    return 0
+
+
+def _warm_threads() -> bool:
+    """Run a tiny parallel query so that numba's threading layer is initialised."""
+    tri = np.array([[[0.0, 0.0, 0.0], [1.0, 0.0, 0.0], [0.0, 1.0, 0.0]]])
+    intersect_any(build_bvh(tri), np.array([[0.2, 0.2, 1.0]]), np.array([[0.0, 0.0, -1.0]]), 2.0)
+    return True
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(prog="python -m render.bench", description="lampcast benchmarks")
+    sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
+    rays = sub.add_parser("rays", help="BVH build time and ray-casting throughput (Mrays/s), with an Embree comparison when embreex is installed")
+    rays.add_argument("--width", type=int, default=960, help="image width in pixels for the stress scene (default 960; the demo uses its view's size)")
+    rays.add_argument("--height", type=int, default=540, help="image height in pixels for the stress scene (default 540)")
+    rays.add_argument("--spp", type=int, default=1, help="samples per pixel (default 1)")
+    rays.add_argument("--seed", type=int, default=0, help="seed of the stress scene and the ray jitter (default 0)")
+    rays.add_argument("--repeat", type=int, default=5, help="timed runs per measurement; the best is reported (default 5)")
+    rays.add_argument("--scenes", default="scenes", help="folder holding demo/*.toml (default ./scenes)")
+    rays.add_argument("--no-embree", action="store_true", help="skip the Embree comparison")
+    rays.add_argument("--no-single", action="store_true", help="skip the single-thread measurement")
+    rays.set_defaults(func=cmd_rays)
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    args = build_parser().parse_args(argv)
+    return int(args.func(args))
+
+
+if __name__ == "__main__":
+    sys.exit(main())
