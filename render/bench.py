@@ -1,6 +1,7 @@
 """Benchmarks (speed is measured here, never in the tests).
 
     python -m render.bench rays [--width 960 --height 540 --spp 1 --seed 0 ...]
+    python -m render.bench light [--width 1280 --height 720 --spp 4 ...]   (render.bench_light)
 
 ``rays`` builds the BVH of (a) the demo street, when the scene loader and ``scenes/demo/*.toml``
 are present, and (b) a seeded synthetic stress scene of >= 250 000 triangles (random boxes and
@@ -311,6 +312,9 @@ def build_parser() -> argparse.ArgumentParser:
     rays.add_argument("--no-embree", action="store_true", help="skip the Embree comparison")
     rays.add_argument("--no-single", action="store_true", help="skip the single-thread measurement")
     rays.set_defaults(func=cmd_rays)
+    from render.bench_light import add_parser as add_light
+
+    add_light(sub)
     return parser
 
 

@@ -98,6 +98,32 @@ def _resolve_kernel(response, value, factors, lamp_of_channel, table, spp, out):
         out[p, 3] = a3 * inv
 
 
+@numba.njit(cache=True, nogil=True)
+def _surface_sums(response, value, emitter_response):
+    """Number of samples seeing a surface, and the per-channel sum of their values."""
+    n = 0
+    sums = np.zeros(value.shape[1])
+    for s in range(response.shape[0]):
+        k = response[s]
+        if k < 0 or k == emitter_response:
+            continue
+        n += 1
+        for c in range(value.shape[1]):
+            sums[c] += value[s, c]
+    return n, sums
+
+
+@numba.njit(cache=True, nogil=True, parallel=True)
+def _any_per_pixel(emitter, spp):
+    out = np.zeros(emitter.shape[0] // spp, np.bool_)
+    for p in prange(out.shape[0]):
+        for s in range(p * spp, p * spp + spp):
+            if emitter[s] >= 0:
+                out[p] = True
+                break
+    return out
+
+
 @dataclass
 class ViewColorimetry:
     """Absolute colorimetry of a view.
@@ -151,13 +177,13 @@ def resolve(buffers, factors: np.ndarray, lamp_spds: list[np.ndarray], reflectan
     out = out.reshape(buffers.height_px, buffers.width_px, 4)
     # The illuminant's colour: each channel's mean white-diffuser luminance over the lit surfaces
     # seen, times the white response of its lamp.
-    surf = (buffers.response >= 0) & (buffers.response != buffers.emitter_response)
+    n_surf, sums = _surface_sums(buffers.response, buffers.value_cd_m2, buffers.emitter_response)
     white = np.zeros(4)
-    if np.any(surf):
-        mean = buffers.value_cd_m2[surf].astype(np.float64).mean(axis=0) * factors
+    if n_surf:
+        mean = sums / n_surf * factors
         for c in range(len(lamp_spds)):
             white += mean[c] * table[-1, lamp_of_channel[c]]
-    mask = (buffers.emitter >= 0).reshape(-1, buffers.spp).any(axis=1).reshape(buffers.height_px, buffers.width_px)
+    mask = _any_per_pixel(buffers.emitter, buffers.spp).reshape(buffers.height_px, buffers.width_px)
     return ViewColorimetry(
         np.ascontiguousarray(out[..., :3]), np.ascontiguousarray(out[..., 3]), mask,
         white[:3] if white[1] > 0 else None, float(white[3]) if white[1] > 0 else None,

@@ -120,14 +120,13 @@ def _cell_lists(x0, y0, cell, nx, ny, z_lo, z_hi, pos, tilt_abs, table, scale, g
 
 @numba.njit(cache=True, nogil=True, parallel=True)
 def _candidates(points, normals, active, rot, pos, scale, table, c_grid, g_grid, n_c, n_g, cd, clearance,
-                x0, y0, cell, nx, ny, cell_start, cell_items, eps, count_only, counts, offsets,
-                out_point, out_lum, out_e, out_dir, out_tmax):
-    """Pass 1 (count_only): number of luminaires above eps per point. Pass 2: the shadow rays."""
+                x0, y0, cell, nx, ny, cell_start, cell_items, eps, counts, out_lum, out_e, out_dir, out_tmax):
+    """Per point, the luminaires whose unshadowed contribution reaches ``eps``: written to row
+    ``i`` of the (N, K) outputs (K = the longest cell list), their number to ``counts[i]``."""
     N = points.shape[0]
     for i in prange(N):
+        counts[i] = 0
         if not active[i]:
-            if count_only:
-                counts[i] = 0
             continue
         px = points[i, 0]
         py = points[i, 1]
@@ -136,8 +135,7 @@ def _candidates(points, normals, active, rot, pos, scale, table, c_grid, g_grid,
         ny_ = normals[i, 1]
         nz_ = normals[i, 2]
         ci = _cell_of(px, py, x0, y0, cell, nx, ny)
-        n_here = 0
-        w = offsets[i] if not count_only else 0
+        w = 0
         for q in range(cell_start[ci], cell_start[ci + 1]):
             k = cell_items[q]
             dx = px - pos[k, 0]
@@ -154,18 +152,14 @@ def _candidates(points, normals, active, rot, pos, scale, table, c_grid, g_grid,
             e = scale[k] * inten * cos_s / d2
             if e < eps:
                 continue
-            if not count_only:
-                out_point[w] = i
-                out_lum[w] = k
-                out_e[w] = e
-                out_dir[w, 0] = -dx / d
-                out_dir[w, 1] = -dy / d
-                out_dir[w, 2] = -dz / d
-                out_tmax[w] = max(d - clearance[k], 0.0)
-                w += 1
-            n_here += 1
-        if count_only:
-            counts[i] = n_here
+            out_lum[i, w] = k
+            out_e[i, w] = e
+            out_dir[i, w, 0] = -dx / d
+            out_dir[i, w, 1] = -dy / d
+            out_dir[i, w, 2] = -dz / d
+            out_tmax[i, w] = max(d - clearance[k], 0.0)
+            w += 1
+        counts[i] = w
 
 
 @numba.njit(cache=True, nogil=True)
@@ -225,7 +219,8 @@ def cull_grid(lights: LuminaireSet, points_m: np.ndarray, negligible_lx: float =
     nx = max(1, int(math.ceil((hi[0] - lo[0]) / cell_m + 1e-9)))
     ny = max(1, int(math.ceil((hi[1] - lo[1]) / cell_m + 1e-9)))
     mask = np.zeros((nx * ny, lights.n_luminaires), np.bool_)
-    tilt = np.degrees(np.arccos(np.clip(-lights.rotation[:, 2, 2], -1.0, 1.0)))
+    # Angle between each luminaire's own z axis and world z (its tilt), degrees.
+    tilt = np.degrees(np.arccos(np.clip(lights.rotation[:, 2, 2], -1.0, 1.0)))
     _cell_lists(float(lo[0]), float(lo[1]), float(cell_m), nx, ny, float(lo[2]), float(hi[2]), lights.position_m,
                 tilt, lights.table, lights.scale, lights.g_grid, lights.n_g, lights.i_max_beyond, float(negligible_lx), mask)
     counts = mask.sum(axis=1)
@@ -283,29 +278,36 @@ def direct_illuminance_lx(
     if grid is None:
         grid = cull_grid(lights, pts[act], negligible_lx)
     clearance = _clearance(lights)
+    K = int(np.diff(grid.cell_start).max()) if grid.cell_items.size else 0
+    if K == 0:
+        return out
     counts = np.zeros(n, np.int64)
-    offsets = np.zeros(n, np.int64)
-    args = (pts, nrm, act, lights.rotation, lights.position_m, lights.scale, lights.table, lights.c_grid, lights.g_grid,
-            lights.n_c, lights.n_g, lights.cd_table, clearance, grid.x0, grid.y0, grid.cell_m, grid.nx, grid.ny,
-            grid.cell_start, grid.cell_items, float(negligible_lx))
-    e0 = np.zeros(0)
-    _candidates(*args, True, counts, offsets, np.zeros(0, np.int64), np.zeros(0, np.int64), e0, np.zeros((0, 3)), e0)
-    offsets[1:] = np.cumsum(counts)[:-1]
-    m = int(counts.sum())
+    lum_k = np.zeros((n, K), np.int64)
+    e_k = np.zeros((n, K))
+    dir_k = np.zeros((n, K, 3))
+    tmax_k = np.zeros((n, K))
+    _candidates(pts, nrm, act, lights.rotation, lights.position_m, lights.scale, lights.table, lights.c_grid,
+                lights.g_grid, lights.n_c, lights.n_g, lights.cd_table, clearance, grid.x0, grid.y0, grid.cell_m,
+                grid.nx, grid.ny, grid.cell_start, grid.cell_items, float(negligible_lx), counts, lum_k, e_k, dir_k, tmax_k)
+    valid = np.arange(K)[None, :] < counts[:, None]
+    point, slot = np.nonzero(valid)
+    m = point.size
     if m == 0:
         return out
-    point = np.empty(m, np.int64)
-    lum = np.empty(m, np.int64)
-    e = np.empty(m)
-    direction = np.empty((m, 3))
-    tmax = np.empty(m)
-    _candidates(*args, False, counts, offsets, point, lum, e, direction, tmax)
+    lum = lum_k[point, slot]
+    e = e_k[point, slot]
+    direction = dir_k[point, slot]
+    tmax = tmax_k[point, slot]
     if bvh is not None and bvh.n_triangles:
         off = nrm if offset_normals is None else np.ascontiguousarray(offset_normals, np.float64).reshape(-1, 3)
         # Offset along the receiving side of the geometric normal.
         side = np.sign(np.einsum("ij,ij->i", off[point], direction))
         origins = pts[point] + (SURFACE_OFFSET_M * side)[:, None] * off[point]
-        blocked = intersect_any(bvh, origins, direction, t_max=tmax, t_min=0.0)
+        # Trace luminaire by luminaire: consecutive shadow rays from neighbouring points toward
+        # one luminaire are coherent, which the packet traversal rewards.
+        order = np.argsort(lum, kind="stable")
+        blocked = np.empty(m, np.bool_)
+        blocked[order] = intersect_any(bvh, origins[order], direction[order], t_max=tmax[order], t_min=0.0)
     else:
         blocked = np.zeros(m, np.bool_)
     _accumulate(out, point, lum, e, blocked, lights.channel)
@@ -388,7 +390,7 @@ def cast_view(mesh: TriangleMesh, bvh: BVH, lights: LuminaireSet, camera, spp: i
 
     Returns a :class:`LightBuffers` with zero ``value_cd_m2``; fill it with
     :func:`evaluate_light`."""
-    from render.cameras import camera_rays
+    from render.cameras import camera_rays, tile_pixels
 
     W, H = camera.width_px, camera.height_px
     S = W * H * spp
@@ -407,11 +409,13 @@ def cast_view(mesh: TriangleMesh, bvh: BVH, lights: LuminaireSet, camera, spp: i
         from tqdm import tqdm
 
         rows = tqdm(rows, desc="camera rays", unit="tile", leave=False)
+    k = np.arange(spp, dtype=np.int64)
     for y0 in rows:
         y1 = min(H, y0 + tile_rows)
-        pixels = np.arange(y0 * W, y1 * W, dtype=np.int64)
+        # 4 x 4 pixel blocks keep consecutive rays coherent for the packet traversal.
+        pixels = tile_pixels(camera, 0, y0, W, y1, block_px=4)
         o, d, _ = camera_rays(camera, spp, seed, pixels)
-        sl = slice(y0 * W * spp, y1 * W * spp)
+        sl = (pixels[:, None] * spp + k[None, :]).reshape(-1)
         hits = intersect_closest(bvh, o, d)
         hit = hits.hit
         if em_bvh is not None:
@@ -456,6 +460,9 @@ def evaluate_light(buffers: LightBuffers, lights: LuminaireSet, bvh: BVH, *, neg
     surf &= buffers.response != buffers.emitter_response
     pts_all = buffers.point_m.astype(np.float64)
     grid = cull_grid(lights, pts_all[surf], negligible_lx) if np.any(surf) else None
+    if grid is not None and grid.cell_items.size:
+        # Keep the per-point candidate arrays (chunk × longest cell list) to a few million entries.
+        chunk = max(4096, min(chunk, (1 << 22) // max(int(np.diff(grid.cell_start).max()), 1)))
     starts = range(0, S, chunk)
     if progress:
         from tqdm import tqdm

@@ -172,3 +172,24 @@ def test_negligible_luminaires_skipped_within_bound():
     e_all = exact.illuminance_lx(pts, n)
     assert np.all(np.abs(e_all - e_skip) <= 0.05)
     assert np.any(e_skip == 0.0) and np.all(e_all > 0.0)
+
+
+def test_culling_grid_never_drops_more_than_the_bound():
+    # Each luminaire skipped at a point gives less than negligible_lx there (by construction of
+    # the bound); compare with no culling at all on the demo street with a tilted lantern row.
+    from render.scene import load_scene
+
+    scene = load_scene(SCENES.parent / "demo" / "linden_row.toml")
+    for lum in scene.luminaires:
+        lum.tilt_deg = 10.0
+    eps = 0.01
+    culled = Study(scene, negligible_lx=eps)
+    exact = Study(scene, negligible_lx=0.0)
+    rng = np.random.default_rng(5)
+    pts = np.stack([rng.uniform(-20, 120, 4000), rng.uniform(-9, 9, 4000), rng.uniform(0.0, 8.0, 4000)], axis=1)
+    n = rng.normal(size=(4000, 3))
+    n /= np.linalg.norm(n, axis=1, keepdims=True)
+    a = culled.illuminance_lx(pts, n, shadows=False)
+    b = exact.illuminance_lx(pts, n, shadows=False)
+    assert np.all(b - a <= eps * len(scene.luminaires) + 1e-12)
+    assert np.all(a <= b + 1e-12)

@@ -1,0 +1,136 @@
+"""Light benchmark (``python -m render.bench light``): a script that prints figures and ratios.
+
+* full render of the demo's first view at 1280×720 with 4 samples per pixel (camera rays,
+  direct light with shadows, colorimetry), after JIT warm-up;
+* relight of the same frame for a new lamp (no ray cast) and the full/relight ratio
+  (goal >= 50);
+* the same street with 10 and with 100 luminaires (goal: 100 costs <= 3 × 10): a staggered row
+  every 28 m along a street whose length grows with the count (the demo's cross-section and
+  frontage pattern repeated), seen from the same viewpoint -- the real case of a long street,
+  where far luminaires are skipped because their contribution is provably negligible;
+* colorimetry on 5 nm vs 1 nm grids (goal <= 1.1×): the per-pixel cost does not depend on the
+  number of wavelength bins, only the small response table does.
+"""
+
+from __future__ import annotations
+
+import argparse
+import copy
+import time
+from pathlib import Path
+
+import numpy as np
+
+DEMO = Path(__file__).resolve().parents[1] / "scenes" / "demo" / "linden_row.toml"
+
+
+def _timed(fn, repeat: int = 1):
+    best = float("inf")
+    out = None
+    for _ in range(repeat):
+        t0 = time.perf_counter()
+        out = fn()
+        best = min(best, time.perf_counter() - t0)
+    return best, out
+
+
+def long_street(scene, n_luminaires: int, spacing_m: float = 28.0):
+    """The demo scene stretched to carry ``n_luminaires`` staggered luminaires."""
+    from dataclasses import replace
+
+    from render.scene.loader import _expand_row
+
+    s = copy.deepcopy(scene)
+    length = max(scene.street.length_m, n_luminaires * spacing_m)
+    s.street = replace(scene.street, length_m=length)
+    repeats = int(np.ceil(length / scene.street.length_m))
+    fronts = []
+    for k in range(repeats):
+        for f in scene.frontages:
+            fronts.append(replace(f, start_m=f.start_m + k * scene.street.length_m, tag=replace(f.tag, name=f"{f.tag.name} {k}")))
+    s.frontages = fronts
+    template = scene.luminaires[-1]  # a row luminaire of the demo
+    row = {"count": n_luminaires, "end_m": None, "start_m": 6.0, "spacing_m": spacing_m, "layout": "staggered",
+           "side": "left", "setback_m": 0.5, "outreach_m": 0.5, "mounting_height_m": template.position_m[2] - scene.street.kerb_height_m,
+           "rotation_deg": 0.0, "column": True, "name": "bench", "group": template.group, "tilt_deg": 0.0,
+           "photometry": template.photometry, "lamp": template.lamp, "lumens": template.lumens,
+           "maintenance_factor": template.maintenance_factor, "dimming": template.dimming}
+    s.luminaires = _expand_row(row, "bench", s.street)
+    s.setups = {}
+    return s
+
+
+def _render(study, camera, spp, seed, step_nm=1):
+    from render.integrator import cast_view, evaluate_light
+    from render.lights import channel_factors, luminaire_set
+
+    lights = luminaire_set(study.scene)
+    buffers = cast_view(study.mesh, study.bvh, lights, camera, spp, seed)
+    evaluate_light(buffers, lights, study.bvh)
+    factors, lamps = channel_factors(lights)
+    from render.colorimetry import resolve
+
+    return buffers, lights, resolve(buffers, factors, study.lamp_spds(lamps), study.reflectances, step_nm)
+
+
+def cmd_light(args) -> int:
+    from render.cameras import Camera
+    from render.colorimetry import resolve
+    from render.lights import channel_factors
+    from render.study import Study
+
+    study = Study(args.scene)
+    _ = study.bvh, study.reflectances
+    v = study.scene.view(args.view)
+    camera = Camera(position_m=v.position_m, target_m=v.target_m, hfov_deg=v.hfov_deg, width_px=args.width, height_px=args.height)
+    small = Camera(position_m=v.position_m, target_m=v.target_m, hfov_deg=v.hfov_deg, width_px=64, height_px=36)
+    _render(study, small, 1, 0)  # JIT warm-up
+    print(f"scene {Path(args.scene).name}, view '{v.name}', {args.width}x{args.height} px, {args.spp} samples/px, "
+          f"{study.mesh.n_triangles} triangles, {len(study.scene.luminaires)} luminaires")
+
+    t_full, (buffers, lights, _) = _timed(lambda: _render(study, camera, args.spp, 0), args.repeat)
+    print(f"full render (camera rays + direct light + colorimetry): {t_full:.3f} s")
+    factors, lamps = channel_factors(lights)
+    new = study.lamp_spds(["led-4000k-cie-b3"] * len(lamps))
+    t_relight, _ = _timed(lambda: resolve(buffers, factors, new, study.reflectances), max(args.repeat, 3))
+    print(f"relight for a new lamp (no rays): {t_relight * 1000:.1f} ms; full/relight = {t_full / t_relight:.0f} (goal >= 50)")
+
+    t1, _ = _timed(lambda: resolve(buffers, factors, new, study.reflectances, 1), max(args.repeat, 3))
+    t5, _ = _timed(lambda: resolve(buffers, factors, new, study.reflectances, 5), max(args.repeat, 3))
+    t_1nm = t_full - t_relight + t1
+    t_5nm = t_full - t_relight + t5
+    print(f"render with colorimetry on the 1 nm grid: {t_1nm:.3f} s, on a 5 nm grid: {t_5nm:.3f} s; "
+          f"1 nm / 5 nm = {t_1nm / t_5nm:.3f} (goal <= 1.1; colorimetry alone {t1 * 1000:.1f} vs {t5 * 1000:.1f} ms)")
+
+    times = {}
+    for n in (10, 100):
+        st = Study(long_street(study.scene, n))
+        _ = st.bvh, st.reflectances
+        _render(st, small, 1, 0)
+        times[n], (b, lights_n, _) = _timed(lambda: _render(st, camera, args.spp, 0), args.repeat)
+        print(f"{n:3d} luminaires ({st.scene.street.length_m:.0f} m street, {st.mesh.n_triangles} triangles): {times[n]:.3f} s")
+    print(f"100 / 10 luminaires = {times[100] / times[10]:.2f} (goal <= 3)")
+    return 0
+
+
+def add_parser(sub) -> None:
+    p = sub.add_parser("light", help="full render vs relight, luminaire-count scaling, 1 nm vs 5 nm colorimetry")
+    p.add_argument("--scene", default=str(DEMO))
+    p.add_argument("--view", default=None)
+    p.add_argument("--width", type=int, default=1280)
+    p.add_argument("--height", type=int, default=720)
+    p.add_argument("--spp", type=int, default=4)
+    p.add_argument("--repeat", type=int, default=1)
+    p.set_defaults(func=cmd_light)
+
+
+def main(argv=None) -> int:
+    parser = argparse.ArgumentParser(prog="python -m render.bench_light", description=__doc__.splitlines()[0])
+    sub = parser.add_subparsers(dest="command", required=True)
+    add_parser(sub)
+    args = parser.parse_args(argv)
+    return args.func(args)
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())
