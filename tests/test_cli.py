@@ -104,3 +104,14 @@ def test_colours_command(tmp_path, capsys):
     assert "daylight" in out and "<b>bold</b> car" in out
     written = sorted(p.name for p in tmp_path.iterdir())
     assert any(n.endswith("-colours.json") for n in written) and any(n.endswith("-swatches.png") for n in written)
+
+
+def test_render_aov_outputs(tmp_path, capsys):
+    scene = SCENES / "minimal_street.toml"
+    assert main(["render", str(scene), "--aov", "--out", str(tmp_path), "--mode", "adapted"]) == 0
+    names = {p.name for p in tmp_path.iterdir()}
+    for kind in ("depth", "normal", "material", "object"):
+        assert any(kind in n and n.endswith(".png") for n in names), kind
+    data = np.load(next(tmp_path.glob("*.npz")))
+    # The carriageway is at z = 0 and the camera at 1.6 m: depth is finite where it is seen.
+    assert np.isfinite(data["depth_m"]).any() and (data["object_id"] >= 0).any()

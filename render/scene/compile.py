@@ -126,9 +126,13 @@ def _street(b: _Builder, street: Street) -> None:
             (s.footway_width_m, s.footway_material, None, f"footway {side}"),
             (s.frontage_depth_m, s.frontage_material, None, f"front gardens {side}"),
         ]
-        for width, material, obj, name in bands:
+        for n_band, (width, material, obj, name) in enumerate(bands):
             if width <= 0:
                 continue
+            if n_band == len(bands) - 1:
+                # Run the last band 0.1 m under the building line so that fronts standing on it
+                # (their walls sit a few cm behind it) leave no gap to the sky.
+                width += 0.1
             if obj is None:
                 obj = b.new_object(name, "street")
             y0, y1 = sorted((sign * y, sign * (y + width)))
