@@ -275,7 +275,9 @@ def cmd_colours(args) -> int:
     for r, s in zip(rendered, setups):
         for lamp_id in channel_factors(r.lights, s)[1]:
             lamps.setdefault(lamp_id, study.lamp_spds([lamp_id])[0])
-    pictures = colour_pictures(result, rendered, displays, list(lamps.items()), out, prefix=_slug(view.name) + "-")
+    text = image_metadata(study, first, "colour analysis", observer, study.scene.render.seed, first.buffers.spp)
+    text["lampcast.setup"] = "; ".join(s.name for s in setups)
+    pictures = colour_pictures(result, rendered, displays, list(lamps.items()), out, prefix=_slug(view.name) + "-", text=text)
     written = [write_colour_json(result, out / f"{_slug(view.name)}-colours.json"), *pictures.values()]
     rows = []
     for o in result["objects"]:

@@ -247,7 +247,11 @@ def _colour_section(study, setups, observer, colour_view, out: Path, metrics: di
         for lamp_id in channel_factors(r.lights, setups[key])[1]:
             lamps.setdefault(lamp_id, get_lamp(lamp_id, base_dir=study.scene.base_dir).spd)
     cdir = out / "colours"
-    pics = colour_pictures(result, [rb, ra], shared, list(lamps.items()), cdir)
+    from render.cli import image_metadata
+
+    text = image_metadata(study, rb, "colour analysis", observer, study.scene.render.seed, rb.buffers.spp)
+    text["lampcast.setup"] = f"before={setups['before'].name}; after={setups['after'].name}"
+    pics = colour_pictures(result, [rb, ra], shared, list(lamps.items()), cdir, text=text)
     write_colour_json(result, cdir / "colours.json")
     section = colour_report_section(result, pics, out)
     section["paragraphs"].insert(0, f"Analysed in view '{name}' (the view showing most tagged objects), both setups in shared exposure.")
@@ -333,7 +337,8 @@ def run_comparison(scene_path, before: str, after: str, views: list[str] | None 
             images[f"{key}_shared"] = f"{vdir.name}/{key}.png"
             images[f"{key}_adapted"] = f"{vdir.name}/{key}-adapted.png"
             images[f"falsecolour_{key}"] = f"{vdir.name}/{key}-falsecolour.png"
-        write_png(vdir / "falsecolour-legend.png", legend, {"Software": f"lampcast {__version__}"})
+        write_png(vdir / "falsecolour-legend.png", legend, {**meta(rb, "photometric legend"),
+                                                             "lampcast.setup": f"before={setups['before'].name}; after={setups['after'].name}"})
         sbs = side_by_side(shared[0].srgb8, shared[1].srgb8, f"before: {setups['before'].name}", f"after: {setups['after'].name}")
         write_png(vdir / "side-by-side.png", sbs, meta(rb, "shared side by side"))
         images["side_by_side"] = f"{vdir.name}/side-by-side.png"

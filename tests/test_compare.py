@@ -149,3 +149,12 @@ def test_interrupted_run_leaves_no_half_written_final_file(tmp_path):
         for path in out.rglob("*"):
             if path.is_file() and not path.name.startswith("."):
                 assert _valid(path), path
+
+
+def test_every_png_carries_provenance(run):
+    from PIL import Image
+
+    for path in run.out_dir.rglob("*.png"):
+        text = Image.open(path).text
+        assert text.get("Software", "").startswith("lampcast"), path
+        assert text.get("lampcast.scene_sha256") == run.metrics["scene"]["sha256"], path

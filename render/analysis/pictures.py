@@ -59,10 +59,14 @@ def _figure(width_in: float, height_in: float, dpi: float = 100.0):
     return Figure(figsize=(width_in, height_in), dpi=dpi)
 
 
-def _save(fig, path, dpi: float | None = None) -> Path:
+def _save(fig, path, dpi: float | None = None, text: Mapping[str, str] | None = None) -> Path:
+    """PNG, written atomically, with ``text`` as PNG text metadata (how the picture was made)."""
+    from render import __version__
+
     path = Path(path)
+    metadata = {"Software": f"lampcast {__version__}", **(text or {})}
     with atomic_path(path) as tmp:
-        fig.savefig(tmp, format="png", dpi=dpi or fig.dpi, facecolor=fig.get_facecolor())
+        fig.savefig(tmp, format="png", dpi=dpi or fig.dpi, facecolor=fig.get_facecolor(), metadata=metadata)
     return path
 
 
@@ -113,7 +117,7 @@ def _text_colour(rgb) -> str:
 # --------------------------------------------------------------------------- outlined view
 
 def outlined_view(srgb, object_id, labels: Mapping[int, str], path, *, min_width_px: int = 960,
-                  title: str | None = None, line_px: float = 2.0) -> Path:
+                  title: str | None = None, line_px: float = 2.0, png_text: Mapping[str, str] | None = None) -> Path:
     """The view with tagged objects outlined and labelled, as a PNG.
 
     Parameters
@@ -176,13 +180,13 @@ def outlined_view(srgb, object_id, labels: Mapping[int, str], path, *, min_width
         ax.text(cx, top - 0.01 * h if above else rows.max() + 1 + 0.01 * h, str(text), ha="center",
                 va="bottom" if above else "top", fontsize=10, color="black", clip_on=True,
                 bbox=dict(boxstyle="round,pad=0.25", facecolor=colour, edgecolor="black", linewidth=0.8))
-    return _save(fig, path)
+    return _save(fig, path, text=png_text)
 
 
 # ----------------------------------------------------------------------------- swatch sheet
 
 def swatch_sheet(object_names: Sequence[str], column_labels: Sequence[str], labs, path, *,
-                 terms=None, title: str | None = None) -> Path:
+                 terms=None, title: str | None = None, png_text: Mapping[str, str] | None = None) -> Path:
     """Swatch sheet: one row per object, one column per condition (daylight | before | after).
 
     Parameters
@@ -251,13 +255,13 @@ def swatch_sheet(object_names: Sequence[str], column_labels: Sequence[str], labs
                 np.degrees(np.arctan2(labs[i, j, 2], labs[i, j, 1])) % 360
             ax.text(x0 + sw / 2, y0 + 0.08 + sh + 0.1, f"L* {L:.0f}  C* {C:.0f}  h {h:.0f}°", ha="center",
                     va="center", fontsize=7, color="#333333")
-    return _save(fig, path)
+    return _save(fig, path, text=png_text)
 
 
 # ---------------------------------------------------------------------------- ΔE00 heat map
 
 def delta_e_heatmap(matrices: Mapping[str, np.ndarray], names: Sequence[str], path, *,
-                    title: str | None = None) -> Path:
+                    title: str | None = None, png_text: Mapping[str, str] | None = None) -> Path:
     """Heat map(s) of pairwise ΔE00, one panel per condition, values written in the cells.
 
     Colour scale (ours): :data:`HEATMAP_CLASSES` -- imperceptible (< 1), hard (1-3),
@@ -323,7 +327,7 @@ def delta_e_heatmap(matrices: Mapping[str, np.ndarray], names: Sequence[str], pa
     handles = [Patch(facecolor=c, edgecolor="#888888", label=t) for _, c, t in HEATMAP_CLASSES]
     fig.legend(handles=handles, loc="lower center", ncol=min(5, len(handles)), fontsize=8, frameon=False,
                title="CIEDE2000", title_fontsize=8, bbox_to_anchor=(0.5, 0.0))
-    return _save(fig, path)
+    return _save(fig, path, text=png_text)
 
 
 # --------------------------------------------------------------------------- spectrum strips
@@ -434,7 +438,7 @@ def spectrum_strip(spd, width_px: int = 800, height_px: int = 48,
 
 
 def spectrum_strip_figure(lamps: Sequence[tuple[str, np.ndarray]], path, *, title: str | None = None,
-                          wavelength_range_nm: tuple[float, float] = (380.0, 780.0), width_px: int = 800) -> Path:
+                          wavelength_range_nm: tuple[float, float] = (380.0, 780.0), width_px: int = 800, png_text: Mapping[str, str] | None = None) -> Path:
     """One panel per lamp: its relative spectral power (curve filled with the spectral colours)
     above the spectrum strip a grating would show. ``lamps``: ``(label, spd)`` pairs."""
     from matplotlib.patches import Polygon
@@ -484,4 +488,4 @@ def spectrum_strip_figure(lamps: Sequence[tuple[str, np.ndarray]], path, *, titl
         ax2.set_xlabel("wavelength (nm) — as a diffraction grating spreads the light", fontsize=8)
         for s in ax2.spines.values():
             s.set_color("#444444")
-    return _save(fig, path)
+    return _save(fig, path, text=png_text)

@@ -71,7 +71,7 @@ def analyse_view_colours(study, rendered: list, displays: list, observer, labels
 
 
 def colour_pictures(result: dict, rendered: list, displays: list, lamps: list[tuple[str, np.ndarray]], out_dir: Path,
-                    prefix: str = "") -> dict[str, Path]:
+                    prefix: str = "", text: dict[str, str] | None = None) -> dict[str, Path]:
     """Outlined view, swatch sheet, ΔE00 heat map and spectrum strips for ``result``."""
     from render.analysis import pictures
 
@@ -82,7 +82,7 @@ def colour_pictures(result: dict, rendered: list, displays: list, lamps: list[tu
     object_id = pixel_object_ids(rendered[0].buffers)
     labels = {o["id"]: o["name"] for o in result["objects"]}
     written["outlined"] = pictures.outlined_view(displays[-1].srgb8, object_id, labels, out_dir / f"{prefix}objects.png",
-                                                 title=f"tagged objects ({setups[-1]})")
+                                                 title=f"tagged objects ({setups[-1]})", png_text=text)
     labs = np.full((len(names), 1 + len(setups), 3), np.nan)
     terms = [[None] * (1 + len(setups)) for _ in names]
     for i, name in enumerate(names):
@@ -95,14 +95,14 @@ def colour_pictures(result: dict, rendered: list, displays: list, lamps: list[tu
                 labs[i, j + 1] = seen["lab"]
             terms[i][j + 1] = seen["name"]
     written["swatches"] = pictures.swatch_sheet(names, ["daylight (D65)", *setups], labs, out_dir / f"{prefix}swatches.png",
-                                                terms=terms, title="object colours: daylight and as seen at night")
+                                                terms=terms, title="object colours: daylight and as seen at night", png_text=text)
     matrices = {"daylight (D65)": np.array(result["daylight"]["delta_e00"], dtype=float)}
     for s in setups:
         matrices[s] = np.array([[np.nan if v is None else v for v in row] for row in result["setups"][s]["delta_e00"]], dtype=float)
     written["heatmap"] = pictures.delta_e_heatmap(matrices, names, out_dir / f"{prefix}delta-e00.png",
-                                                  title="CIEDE2000 between tagged objects")
+                                                  title="CIEDE2000 between tagged objects", png_text=text)
     written["spectra"] = pictures.spectrum_strip_figure(lamps, out_dir / f"{prefix}spectrum-strips.png",
-                                                        title="the lamps' light spread by a grating")
+                                                        title="the lamps' light spread by a grating", png_text=text)
     return written
 
 
