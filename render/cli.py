@@ -213,27 +213,37 @@ def cmd_render(args) -> int:
     return 0
 
 
-def cmd_relight(args) -> int:
-    """Render a view once, then re-light it for each setup without casting camera rays."""
+def _render_setups(study, view, texts: list[str] | None, spp: int | None, width: int | None):
+    """Cast a view once under the first setup and re-light it for the others; setups are
+    scene setup names, lamp ids or key=value items (see render.compare.parse_setup)."""
     import time
 
+    from render.compare import parse_setup
+
+    texts = texts or list(study.scene.setups)
+    if not texts:
+        raise input_error(study.scene.path, "setups", "the scene has no [setups.NAME]; give --setup (a setup name, a lamp id or key=value items)")
+    setups = [parse_setup(t, study.scene, "--setup") for t in texts]
+    first = study.render_view(view.name, setups[0], samples_per_pixel=spp, width_px=width, progress=True)
+    rendered = [first]
+    for s in setups[1:]:
+        t0 = time.perf_counter()
+        rendered.append(study.relight(first, s))
+        print(f"relit {view.name} for {s.name} in {(time.perf_counter() - t0) * 1000:.0f} ms", file=sys.stderr)
+    return setups, rendered
+
+
+def cmd_relight(args) -> int:
+    """Render a view once, then re-light it for each setup without casting camera rays."""
     from render.study import Study
 
     study = Study(args.scene)
     view = study.scene.view(args.view)
     out = _out_dir(args.out, Path(args.scene).stem)
-    names = args.setups or list(study.scene.setups)
-    if not names:
-        raise input_error(args.scene, "setups", "the scene has no [setups.NAME]; name setups with --setup")
     spp = args.spp or study.scene.render.samples_per_pixel
     seed = study.scene.render.seed
     observer = _observer_from_args(study, args)
-    first = study.render_view(view.name, names[0], samples_per_pixel=spp, width_px=args.width, progress=True)
-    rendered = [first]
-    for name in names[1:]:
-        t0 = time.perf_counter()
-        rendered.append(study.relight(first, name))
-        print(f"relit {view.name} for {name} in {(time.perf_counter() - t0) * 1000:.0f} ms (no camera rays)", file=sys.stderr)
+    _, rendered = _render_setups(study, view, args.setups, spp, args.width)
     # One adaptation state for all: the images keep their true brightness relation.
     shared = study.display(rendered, "shared", observer)
     photometric = study.display(rendered, "photometric", observer)
@@ -253,7 +263,6 @@ def cmd_colours(args) -> int:
     """Colour discrimination and naming of the tagged objects in one view, under each setup."""
     from render.analysis.naming import format_name_table
     from render.analysis.run import analyse_view_colours, colour_pictures, write_colour_json
-    from render.compare import parse_setup
     from render.lights import channel_factors
     from render.study import Study
 
@@ -262,12 +271,8 @@ def cmd_colours(args) -> int:
     view = study.scene.view(args.view)
     if not any(o.inspect for o in study.mesh.objects):
         raise input_error(args.scene, "", "no object has `inspect = true`: tag the objects to analyse")
-    names = args.setups or list(study.scene.setups)
-    if not names:
-        raise input_error(args.scene, "setups", "give --setup (a scene setup, a lamp id or key=value items)")
-    setups = [parse_setup(n, study.scene, "--setup") for n in names]
-    first = study.render_view(view.name, setups[0], samples_per_pixel=args.spp, width_px=args.width, progress=True)
-    rendered = [first] + [study.relight(first, s) for s in setups[1:]]
+    setups, rendered = _render_setups(study, view, args.setups, args.spp, args.width)
+    first = rendered[0]
     displays = study.display(rendered, "shared", observer)
     result = analyse_view_colours(study, rendered, displays, observer, [s.name for s in setups])
     out = _out_dir(args.out, f"{Path(args.scene).stem}-colours")

@@ -38,7 +38,7 @@ from numba import prange
 from render.bvh import BVH, build_bvh, face_forward, geometric_normal, intersect_any, intersect_closest, interpolate_normal
 from render.geometry import TriangleMesh
 from render.lights import LuminaireSet
-from render.photometry import intensity_lookup
+from render.photometry import direction_to_c_gamma, intensity_lookup
 
 #: Default bound below which a luminaire's unshadowed contribution is skipped, lx. 1e-3 lx is
 #: far below the lowest maintained-illuminance minimum of the residential lighting classes
@@ -62,14 +62,7 @@ CELL_M = 8.0
 @numba.njit(cache=True, nogil=True)
 def _intensity(lights_rot, c_grid, g_grid, n_c, n_g, cd, k, t, dx, dy, dz):
     """Intensity (cd) of luminaire k (table t) toward the world direction (dx, dy, dz)."""
-    r = lights_rot[k]
-    lx = r[0, 0] * dx + r[1, 0] * dy + r[2, 0] * dz
-    ly = r[0, 1] * dx + r[1, 1] * dy + r[2, 1] * dz
-    lz = r[0, 2] * dx + r[1, 2] * dy + r[2, 2] * dz
-    g = math.degrees(math.atan2(math.sqrt(lx * lx + ly * ly), -lz))
-    c = math.degrees(math.atan2(ly, lx))
-    if c < 0.0:
-        c += 360.0
+    c, g = direction_to_c_gamma(lights_rot[k], dx, dy, dz)
     return intensity_lookup(c_grid[t, : n_c[t]], g_grid[t, : n_g[t]], cd[t, : n_c[t], : n_g[t]], c, g)
 
 
