@@ -130,8 +130,14 @@ def side_by_side(before: np.ndarray, after: np.ndarray, before_label: str, after
     return np.concatenate([_caption(before, before_label), gap, _caption(after, after_label)], axis=1)
 
 
-def wipe_frames(before: np.ndarray, after: np.ndarray, n: int = 24) -> list[np.ndarray]:
-    """Frames of a wipe from before to after and back, with a white divider."""
+def wipe_frames(before: np.ndarray, after: np.ndarray, n: int = 16, max_width_px: int = 640) -> list[np.ndarray]:
+    """Frames of a wipe from before to after and back, with a white divider; images wider than
+    ``max_width_px`` are halved (box filter) first, which keeps the GIF small and quick to write."""
+    while before.shape[1] > max_width_px:
+        h2, w2 = before.shape[0] // 2 * 2, before.shape[1] // 2 * 2
+        before, after = (
+            x[:h2, :w2].reshape(h2 // 2, 2, w2 // 2, 2, 3).mean(axis=(1, 3)).round().astype(np.uint8) for x in (before, after)
+        )
     w = before.shape[1]
     frames = []
     positions = list(np.linspace(0, w, n // 2).astype(int))
