@@ -333,6 +333,16 @@ def cmd_demo(args) -> int:
 
 # --- parser ----------------------------------------------------------------------------------
 
+def _positive_int(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a whole number, got {text!r}") from None
+    if value < 1:
+        raise argparse.ArgumentTypeError(f"expected a whole number of at least 1, got {value}")
+    return value
+
+
 def _observer_options(p) -> None:
     g = p.add_argument_group("observer (defaults from the scene's [observer] table)")
     g.add_argument("--age", type=float, metavar="YEARS", help="observer age (glare grows with age; CIE 146)")
@@ -383,9 +393,9 @@ def build_parser() -> argparse.ArgumentParser:
                    help="display mode (repeat for several; default adapted and photometric): adapted = for an eye adapted "
                         "to this image; shared = one adaptation state for a set (the same as adapted for one image); "
                         "photometric = false-colour luminance with a cd/m² legend")
-    p.add_argument("--spp", type=int, help="samples per pixel (default: the scene's render.samples_per_pixel)")
+    p.add_argument("--spp", type=_positive_int, help="samples per pixel (default: the scene's render.samples_per_pixel)")
     p.add_argument("--seed", type=int, help="random seed (default: the scene's render.seed)")
-    p.add_argument("--width", type=int, help="override the image width in pixels (height keeps the aspect ratio)")
+    p.add_argument("--width", type=_positive_int, help="override the image width in pixels (height keeps the aspect ratio)")
     p.add_argument("--out", help="output folder (default outputs/SCENE)")
     _observer_options(p)
     p.set_defaults(func=cmd_render)
@@ -394,8 +404,8 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("scene", help="scene file (TOML)")
     p.add_argument("--view", help="view name (default: the scene's first view)")
     p.add_argument("--setup", dest="setups", action="append", metavar="NAME", help="setup to render (repeat; default: every setup in the scene)")
-    p.add_argument("--spp", type=int, help="samples per pixel")
-    p.add_argument("--width", type=int, help="override the image width in pixels")
+    p.add_argument("--spp", type=_positive_int, help="samples per pixel")
+    p.add_argument("--width", type=_positive_int, help="override the image width in pixels")
     p.add_argument("--out", help="output folder (default outputs/SCENE)")
     _observer_options(p)
     p.set_defaults(func=cmd_relight)
@@ -405,8 +415,8 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--setup", dest="setups", action="append", metavar="SETUP",
                    help="setup to analyse (repeat; a scene setup, a lamp id or key=value items; default every setup in the scene)")
     p.add_argument("--view", help="view name (default: the scene's first view)")
-    p.add_argument("--spp", type=int, help="samples per pixel")
-    p.add_argument("--width", type=int, help="override the image width in pixels")
+    p.add_argument("--spp", type=_positive_int, help="samples per pixel")
+    p.add_argument("--width", type=_positive_int, help="override the image width in pixels")
     p.add_argument("--out", help="output folder (default outputs/SCENE-colours)")
     _observer_options(p)
     p.set_defaults(func=cmd_colours)
@@ -418,8 +428,8 @@ def build_parser() -> argparse.ArgumentParser:
                         "per group as 'GROUP:lamp=ID,dimming=0.8;GROUP2:...'")
     p.add_argument("--after", required=True, metavar="SETUP", help="as --before")
     p.add_argument("--view", dest="views", action="append", metavar="NAME", help="view to render (repeat; default all views)")
-    p.add_argument("--spp", type=int, help="samples per pixel (default: the scene's)")
-    p.add_argument("--width", type=int, help="override the image width in pixels")
+    p.add_argument("--spp", type=_positive_int, help="samples per pixel (default: the scene's)")
+    p.add_argument("--width", type=_positive_int, help="override the image width in pixels")
     p.add_argument("--out", help="output folder (default outputs/SCENE-compare)")
     p.add_argument("--no-report", action="store_true", help="skip report.html")
     _observer_options(p)
@@ -428,8 +438,8 @@ def build_parser() -> argparse.ArgumentParser:
     p = sub.add_parser("demo", help="run the main job on the bundled demo street: sodium before, warm-white LED after")
     p.add_argument("--out", help="output folder (default outputs/demo)")
     p.add_argument("--view", dest="views", action="append", metavar="NAME", help="view to render (default all)")
-    p.add_argument("--width", type=int, help="override the image width in pixels")
-    p.add_argument("--spp", type=int, help="samples per pixel (default: the scene's)")
+    p.add_argument("--width", type=_positive_int, help="override the image width in pixels")
+    p.add_argument("--spp", type=_positive_int, help="samples per pixel (default: the scene's)")
     p.add_argument("--age", type=float, metavar="YEARS", help="observer age")
     p.set_defaults(func=cmd_demo)
     return parser
