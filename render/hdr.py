@@ -9,8 +9,8 @@ Header attributes ``lampcast_units`` (``"cd/m^2"``), ``lampcast_channels`` and a
 in (tool version, scene hash, setup, view ...) say how the file was made. Files are written
 atomically: an interrupted write never leaves a file with the final name.
 
-:func:`linear_preview` is the plain linear-exposure sRGB picture used before the night-vision
-stage: exposure scaled so a chosen luminance maps to display white, no adaptation model.
+Display images are made from the same colorimetry by the night-vision stage
+(:mod:`render.vision`).
 """
 
 from __future__ import annotations
@@ -62,18 +62,3 @@ def read_exr(path: str | Path) -> tuple[ViewColorimetry, dict[str, str]]:
         ys = ch["Ys"].pixels.astype(np.float64)
         meta = {k[len("lampcast_"):]: str(v) for k, v in f.header().items() if k.startswith("lampcast_")}
     return ViewColorimetry(xyz, ys), meta
-
-
-def linear_preview(colorimetry: ViewColorimetry, white_cd_m2: float | None = None) -> np.ndarray:
-    """8-bit sRGB preview (H, W, 3) with a linear exposure: ``white_cd_m2`` maps to display
-    white (default: the 99th percentile of the luminance of lit pixels). Colours outside the
-    sRGB gamut are clipped per channel; no adaptation or vision model is applied."""
-    import colour
-
-    Y = colorimetry.xyz_cd_m2[..., 1]
-    if white_cd_m2 is None:
-        lit = Y[Y > 0]
-        white_cd_m2 = float(np.percentile(lit, 99)) if lit.size else 1.0
-    rgb = colour.XYZ_to_sRGB(colorimetry.xyz_cd_m2 / max(white_cd_m2, 1e-12), apply_cctf_encoding=False)
-    rgb = colour.cctf_encoding(np.clip(rgb, 0.0, 1.0), function="sRGB")
-    return np.round(rgb * 255.0).astype(np.uint8)

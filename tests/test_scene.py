@@ -262,3 +262,12 @@ def test_column_puts_lens_at_luminaire_position():
         # column's highest-reaching point horizontally, within the housing's half-length.
         near = np.linalg.norm(tris.reshape(-1, 3) - np.asarray(lum.position_m), axis=1).min()
         assert near < 0.4
+
+
+def test_default_slot_materials_exist():
+    # Slots the scene does not assign fall back to these library materials.
+    from render.materials import material_library
+    from render.scene.compile import DEFAULT_SLOT_MATERIALS
+
+    missing = sorted(set(DEFAULT_SLOT_MATERIALS.values()) - set(material_library()))
+    assert not missing, missing
