@@ -5,7 +5,7 @@
 >>> view = study.render_view("footway", setup="sodium")      # doctest: +SKIP
 >>> view.colorimetry.luminance_cd_m2.mean()                  # doctest: +SKIP
 >>> after = study.relight(view, "led-warm")                  # no ray cast  # doctest: +SKIP
->>> study.illuminance_lx([[40, 0, 0]], [[0, 0, 1]])           # doctest: +SKIP
+>>> study.illuminance_lx([[40, 1.5, 0]], [[0, 0, 1]])         # doctest: +SKIP
 
 A :class:`Study` compiles the scene and builds its BVH once. :meth:`Study.render_view` casts a
 view's camera rays once and keeps its :class:`~render.integrator.LightBuffers`;
