@@ -202,6 +202,8 @@ def cmd_render(args) -> int:
         aovs = render_aovs(study.mesh, study.bvh, camera, samples_per_pixel=spp, seed=seed)
         written += list(write_aov_previews(aovs, out, _slug(view.name)))
     setup = _setup_from_args(study, args)
+    if not study.scene.luminaires:
+        print(f"note: {args.scene} has no luminaires: only the night sky's darkness is rendered (no sky light is modelled)", file=sys.stderr)
     rendered = study.render_view(view.name, setup, samples_per_pixel=spp, seed=seed, width_px=args.width, progress=True)
     modes = args.mode or ["adapted", "photometric"]
     displays = {mode: study.display(rendered, mode, observer) for mode in modes}

@@ -425,7 +425,8 @@ def cast_view(mesh: TriangleMesh, bvh: BVH, lights: LuminaireSet, camera, spp: i
         ob[surf] = mesh.object_id[hits.triangle[surf]]
         obj[sl] = ob
         em = np.full(hit.shape, -1, np.int32)
-        em[is_em] = eh.triangle[is_em] // 2
+        if em_bvh is not None:
+            em[is_em] = eh.triangle[is_em] // 2
         emitter[sl] = em
         p = hits.points_m(o, d)
         p[~surf] = np.nan

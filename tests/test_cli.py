@@ -115,3 +115,15 @@ def test_render_aov_outputs(tmp_path, capsys):
     data = np.load(next(tmp_path.glob("*.npz")))
     # The carriageway is at z = 0 and the camera at 1.6 m: depth is finite where it is seen.
     assert np.isfinite(data["depth_m"]).any() and (data["object_id"] >= 0).any()
+
+
+def test_scene_without_luminaires_renders_dark_with_a_note(tmp_path, capsys):
+    scene = tmp_path / "dark.toml"
+    scene.write_text('[street]\nlength_m = 20.0\ncarriageway_width_m = 6.0\n\n[[views]]\nname = "v"\n'
+                     'position_m = [1.0, 0.0]\ntarget_m = [10.0, 0.0, 0.0]\nresolution = [32, 18]\n')
+    assert main(["render", str(scene), "--out", str(tmp_path), "--mode", "adapted"]) == 0
+    assert "no luminaires" in capsys.readouterr().err
+    from render.hdr import read_exr
+
+    colorimetry, _ = read_exr(tmp_path / "v-scene.exr")
+    assert np.all(colorimetry.xyz_cd_m2 == 0.0)  # direct light only: no source, no light
