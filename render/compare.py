@@ -27,6 +27,8 @@ from render.scene.model import GroupSetting, Setup
 #: preview, not a design or compliance calculation; local codes and licensed practice decide).
 CAUTIONS = [
     "The images use published average-observer models of night vision, glare and colour appearance.",
+    "Only direct light from the luminaires is modelled so far: light reflected between surfaces and light "
+    "from the night sky are left out, so shadowed surfaces show as black and minimum luminances as 0.",
     "Real eyes differ: age, eye conditions, medication and fatigue change how bright, glary and colourful a "
     "street looks. A printed or on-screen image cannot reproduce night-time luminance exactly.",
 ]
