@@ -215,3 +215,29 @@ def test_neutral_is_grey_at_default_settings(lamp):
         assert len(set(res.srgb8[4, 4].tolist())) == 1
     else:
         assert rgb[0] > rgb[1]
+
+
+def test_incomplete_adaptation_keeps_coloured_light_coloured():
+    # Hunt's cone-specific incomplete adaptation (RLAB form, Fairchild 1996; from memory): a
+    # grey surface under near-monochromatic low-pressure sodium light still looks strongly
+    # yellow-orange after adaptation (common observation, no source), while under the display
+    # white's own light (D65) the step is the identity.
+    import colour
+
+    from render.lamps import get_lamp
+    from render.vision.display import chromatic_adaptation_incomplete, incomplete_adaptation_gains
+    from render.vision.synthetic import surface_buffers
+
+    grey = np.full((1, 401), 0.2)
+    xyz, _, white, _ = surface_buffers(grey, get_lamp("sodium-low-pressure").spd, 1.0)
+    adapted = chromatic_adaptation_incomplete(xyz[0], white, 1.0)
+    lch = colour.Lab_to_LCHab(colour.XYZ_to_Lab(adapted / white[1], [0.3127, 0.3290]))
+    assert lch[1] > 40.0 and 40.0 < lch[2] < 100.0  # still chromatic, hue between orange and yellow
+    d65 = np.asarray(colour.xy_to_XYZ([0.3127, 0.3290]))
+    np.testing.assert_allclose(incomplete_adaptation_gains(d65, 1.0), 1.0, rtol=1e-3)
+    # Less adaptation at lower light: the sodium white keeps more of its chroma at 0.01 cd/m².
+    dim = chromatic_adaptation_incomplete(xyz[0], white, 0.01)
+    bright = chromatic_adaptation_incomplete(xyz[0], white, 100.0)
+    c_dim = colour.Lab_to_LCHab(colour.XYZ_to_Lab(dim / white[1], [0.3127, 0.3290]))[1]
+    c_bright = colour.Lab_to_LCHab(colour.XYZ_to_Lab(bright / white[1], [0.3127, 0.3290]))[1]
+    assert c_dim > c_bright
