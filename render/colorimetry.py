@@ -70,9 +70,10 @@ def response_table(reflectances: np.ndarray, lamp_spds: np.ndarray, step_nm: int
 
 
 @numba.njit(cache=True, nogil=True, parallel=True)
-def _resolve_kernel(response, value, factors, lamp_of_channel, table, spp, out):
+def _resolve_kernel(response, value, spec, factors, lamp_of_channel, table, spp, out):
     n_pix = out.shape[0]
     C = value.shape[1]
+    white = table.shape[0] - 1
     inv = 1.0 / spp
     for p in prange(n_pix):
         a0 = 0.0
@@ -92,6 +93,16 @@ def _resolve_kernel(response, value, factors, lamp_of_channel, table, spp, out):
                 a1 += v * table[k, l, 1]
                 a2 += v * table[k, l, 2]
                 a3 += v * table[k, l, 3]
+            # The specular layer is spectrally neutral: the lamp's own light (white response).
+            for c in range(C):
+                v = spec[s, c] * factors[c]
+                if v == 0.0:
+                    continue
+                l = lamp_of_channel[c]
+                a0 += v * table[white, l, 0]
+                a1 += v * table[white, l, 1]
+                a2 += v * table[white, l, 2]
+                a3 += v * table[white, l, 3]
         out[p, 0] = a0 * inv
         out[p, 1] = a1 * inv
         out[p, 2] = a2 * inv
@@ -172,7 +183,8 @@ def resolve(buffers, factors: np.ndarray, lamp_spds: list[np.ndarray], reflectan
     table = response_table(reflectances, np.array(spd_list), step_nm) if spd_list else np.zeros((len(reflectances) + 1, 1, 4))
     n_pix = buffers.width_px * buffers.height_px
     out = np.zeros((n_pix, 4))
-    _resolve_kernel(buffers.response, buffers.value_cd_m2, np.ascontiguousarray(factors, np.float64), lamp_of_channel,
+    spec = buffers.spec_cd_m2 if buffers.spec_cd_m2 is not None else np.zeros_like(buffers.value_cd_m2)
+    _resolve_kernel(buffers.response, buffers.value_cd_m2, spec, np.ascontiguousarray(factors, np.float64), lamp_of_channel,
                     np.ascontiguousarray(table), buffers.spp, out)
     out = out.reshape(buffers.height_px, buffers.width_px, 4)
     # The illuminant's colour: each channel's mean white-diffuser luminance over the lit surfaces

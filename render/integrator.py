@@ -156,6 +156,12 @@ def _candidates(points, normals, active, rot, pos, scale, table, c_grid, g_grid,
 
 
 @numba.njit(cache=True, nogil=True)
+def _scatter_add(out, rows, cols, values):
+    for w in range(rows.shape[0]):
+        out[rows[w], cols[w]] += values[w]
+
+
+@numba.njit(cache=True, nogil=True)
 def _accumulate(out, point, lum, e, blocked, channel):
     for w in range(point.shape[0]):
         if not blocked[w]:
@@ -226,6 +232,70 @@ def _clearance(lights: LuminaireSet) -> np.ndarray:
     return SHADOW_CLEARANCE_M + 0.5 * np.hypot(lights.opening_m[:, 0], lights.opening_m[:, 1])
 
 
+@dataclass
+class DirectPairs:
+    """Unshadowed luminaire contributions above the bound at each point, and which are shadowed.
+
+    ``point`` (M,) index of the receiving point, ``lum`` (M,) luminaire, ``e_lx`` (M,) its
+    illuminance at full output (maintenance factor applied), ``direction`` (M, 3) unit vector
+    from the point toward the luminaire, ``blocked`` (M,) shadowed."""
+
+    point: np.ndarray
+    lum: np.ndarray
+    e_lx: np.ndarray
+    direction: np.ndarray
+    blocked: np.ndarray
+
+
+def direct_pairs(points_m, normals, lights: LuminaireSet, bvh: BVH | None, *, active=None,
+                 negligible_lx: float = NEGLIGIBLE_LX, grid: CullGrid | None = None, offset_normals=None) -> DirectPairs:
+    """The (point, luminaire) pairs of :func:`direct_illuminance_lx`, before summing."""
+    pts = np.ascontiguousarray(points_m, np.float64).reshape(-1, 3)
+    nrm = np.ascontiguousarray(normals, np.float64).reshape(-1, 3)
+    n = pts.shape[0]
+    empty = DirectPairs(np.zeros(0, np.int64), np.zeros(0, np.int64), np.zeros(0), np.zeros((0, 3)), np.zeros(0, np.bool_))
+    if n == 0 or lights.n_luminaires == 0:
+        return empty
+    act = np.ones(n, np.bool_) if active is None else np.ascontiguousarray(active, np.bool_)
+    act = act & np.all(np.isfinite(pts), axis=1)
+    if grid is None:
+        grid = cull_grid(lights, pts[act], negligible_lx)
+    clearance = _clearance(lights)
+    K = int(np.diff(grid.cell_start).max()) if grid.cell_items.size else 0
+    if K == 0:
+        return empty
+    counts = np.zeros(n, np.int64)
+    lum_k = np.zeros((n, K), np.int64)
+    e_k = np.zeros((n, K))
+    dir_k = np.zeros((n, K, 3))
+    tmax_k = np.zeros((n, K))
+    _candidates(pts, nrm, act, lights.rotation, lights.position_m, lights.scale, lights.table, lights.c_grid,
+                lights.g_grid, lights.n_c, lights.n_g, lights.cd_table, clearance, grid.x0, grid.y0, grid.cell_m,
+                grid.nx, grid.ny, grid.cell_start, grid.cell_items, float(negligible_lx), counts, lum_k, e_k, dir_k, tmax_k)
+    valid = np.arange(K)[None, :] < counts[:, None]
+    point, slot = np.nonzero(valid)
+    m = point.size
+    if m == 0:
+        return empty
+    lum = lum_k[point, slot]
+    e = e_k[point, slot]
+    direction = dir_k[point, slot]
+    tmax = tmax_k[point, slot]
+    if bvh is not None and bvh.n_triangles:
+        off = nrm if offset_normals is None else np.ascontiguousarray(offset_normals, np.float64).reshape(-1, 3)
+        # Offset along the receiving side of the geometric normal.
+        side = np.sign(np.einsum("ij,ij->i", off[point], direction))
+        origins = pts[point] + (SURFACE_OFFSET_M * side)[:, None] * off[point]
+        # Trace luminaire by luminaire: consecutive shadow rays from neighbouring points toward
+        # one luminaire are coherent, which the packet traversal rewards.
+        order = np.argsort(lum, kind="stable")
+        blocked = np.empty(m, np.bool_)
+        blocked[order] = intersect_any(bvh, origins[order], direction[order], t_max=tmax[order], t_min=0.0)
+    else:
+        blocked = np.zeros(m, np.bool_)
+    return DirectPairs(point, lum, e, direction, blocked)
+
+
 def direct_illuminance_lx(
     points_m: np.ndarray,
     normals: np.ndarray,
@@ -260,50 +330,12 @@ def direct_illuminance_lx(
     (N, n_channels) float64 illuminance in lx at full output (channel dimming not applied;
     maintenance factor applied).
     """
-    pts = np.ascontiguousarray(points_m, np.float64).reshape(-1, 3)
-    nrm = np.ascontiguousarray(normals, np.float64).reshape(-1, 3)
-    n = pts.shape[0]
+    n = np.asarray(points_m).reshape(-1, 3).shape[0]
     out = np.zeros((n, lights.n_channels))
-    if n == 0 or lights.n_luminaires == 0:
-        return out
-    act = np.ones(n, np.bool_) if active is None else np.ascontiguousarray(active, np.bool_)
-    act = act & np.all(np.isfinite(pts), axis=1)
-    if grid is None:
-        grid = cull_grid(lights, pts[act], negligible_lx)
-    clearance = _clearance(lights)
-    K = int(np.diff(grid.cell_start).max()) if grid.cell_items.size else 0
-    if K == 0:
-        return out
-    counts = np.zeros(n, np.int64)
-    lum_k = np.zeros((n, K), np.int64)
-    e_k = np.zeros((n, K))
-    dir_k = np.zeros((n, K, 3))
-    tmax_k = np.zeros((n, K))
-    _candidates(pts, nrm, act, lights.rotation, lights.position_m, lights.scale, lights.table, lights.c_grid,
-                lights.g_grid, lights.n_c, lights.n_g, lights.cd_table, clearance, grid.x0, grid.y0, grid.cell_m,
-                grid.nx, grid.ny, grid.cell_start, grid.cell_items, float(negligible_lx), counts, lum_k, e_k, dir_k, tmax_k)
-    valid = np.arange(K)[None, :] < counts[:, None]
-    point, slot = np.nonzero(valid)
-    m = point.size
-    if m == 0:
-        return out
-    lum = lum_k[point, slot]
-    e = e_k[point, slot]
-    direction = dir_k[point, slot]
-    tmax = tmax_k[point, slot]
-    if bvh is not None and bvh.n_triangles:
-        off = nrm if offset_normals is None else np.ascontiguousarray(offset_normals, np.float64).reshape(-1, 3)
-        # Offset along the receiving side of the geometric normal.
-        side = np.sign(np.einsum("ij,ij->i", off[point], direction))
-        origins = pts[point] + (SURFACE_OFFSET_M * side)[:, None] * off[point]
-        # Trace luminaire by luminaire: consecutive shadow rays from neighbouring points toward
-        # one luminaire are coherent, which the packet traversal rewards.
-        order = np.argsort(lum, kind="stable")
-        blocked = np.empty(m, np.bool_)
-        blocked[order] = intersect_any(bvh, origins[order], direction[order], t_max=tmax[order], t_min=0.0)
-    else:
-        blocked = np.zeros(m, np.bool_)
-    _accumulate(out, point, lum, e, blocked, lights.channel)
+    pairs = direct_pairs(points_m, normals, lights, bvh, active=active, negligible_lx=negligible_lx, grid=grid,
+                         offset_normals=offset_normals)
+    if pairs.point.size:
+        _accumulate(out, pairs.point, pairs.lum, pairs.e_lx, pairs.blocked, lights.channel)
     return out
 
 
@@ -353,6 +385,10 @@ class LightBuffers:
     direction : (S, 3) float32 -- camera ray directions.
     object_id : (S,) int32 -- object index of the surface seen (-1 none).
     material_names : names behind ``response``.
+    spec_cd_m2 : (S, C) float32 -- per channel, the luminance of the specular layer
+        (:mod:`render.gloss`; spectrally neutral, white response), at full output.
+    material_gloss : (M, 2) -- per material index, the specular layer's F0 and GGX α
+        (F0 = 0: none).
     """
 
     width_px: int
@@ -368,6 +404,8 @@ class LightBuffers:
     object_id: np.ndarray
     material_names: list[str]
     channels: list
+    spec_cd_m2: np.ndarray | None = None
+    material_gloss: np.ndarray | None = None
 
     @property
     def emitter_response(self) -> int:
@@ -439,8 +477,12 @@ def cast_view(mesh: TriangleMesh, bvh: BVH, lights: LuminaireSet, camera, spp: i
         normal[sl] = ns
         geo[sl] = ng
         dirs[sl] = d
+    gloss = getattr(mesh, "material_gloss", None)
+    if gloss is None:
+        gloss = np.tile([0.0, 1.0], (len(mesh.material_names), 1))
     return LightBuffers(W, H, spp, response, np.zeros((S, lights.n_channels), np.float32), point, normal, geo, emitter,
-                        dirs, obj, list(mesh.material_names), list(lights.channels))
+                        dirs, obj, list(mesh.material_names), list(lights.channels),
+                        np.zeros((S, lights.n_channels), np.float32), np.asarray(gloss, np.float64))
 
 
 def evaluate_light(buffers: LightBuffers, lights: LuminaireSet, bvh: BVH, *, negligible_lx: float = NEGLIGIBLE_LX,
@@ -462,14 +504,41 @@ def evaluate_light(buffers: LightBuffers, lights: LuminaireSet, bvh: BVH, *, neg
         from tqdm import tqdm
 
         starts = tqdm(starts, desc="direct light", unit="chunk", leave=False)
+    gloss = buffers.material_gloss if buffers.material_gloss is not None else np.tile([0.0, 1.0], (len(buffers.material_names), 1))
+    spec = np.zeros((S, lights.n_channels), np.float32)
     for s0 in starts:
         sl = slice(s0, min(S, s0 + chunk))
         act = surf[sl]
         if not np.any(act):
             continue
-        e = direct_illuminance_lx(pts_all[sl], buffers.normal[sl].astype(np.float64), lights, bvh, active=act,
-                                  negligible_lx=negligible_lx, grid=grid, offset_normals=buffers.geo_normal[sl].astype(np.float64))
-        value[sl] = (e / math.pi).astype(np.float32)
+        nrm = buffers.normal[sl].astype(np.float64)
+        pairs = direct_pairs(pts_all[sl], nrm, lights, bvh, active=act, negligible_lx=negligible_lx, grid=grid,
+                             offset_normals=buffers.geo_normal[sl].astype(np.float64))
+        if not pairs.point.size:
+            continue
+        lit = ~pairs.blocked
+        p, k, e, l = pairs.point[lit], pairs.lum[lit], pairs.e_lx[lit], pairs.direction[lit]
+        mat = buffers.response[sl][p]
+        f0 = gloss[mat, 0]
+        glossy = f0 > 0.0
+        diffuse = e.copy()
+        chunk_spec = np.zeros((sl.stop - sl.start, lights.n_channels))
+        if np.any(glossy):
+            from render.gloss import schlick_fresnel, specular_brdf
+
+            g = np.nonzero(glossy)[0]
+            n_g = nrm[p[g]]
+            cos_i = np.einsum("ij,ij->i", n_g, l[g])
+            # The base receives what the interface transmits.
+            diffuse[g] = e[g] * (1.0 - schlick_fresnel(cos_i, f0[g]))
+            to_eye = -buffers.direction[sl][p[g]].astype(np.float64)
+            f_s = specular_brdf(n_g, l[g], to_eye, f0[g], gloss[mat[g], 1])
+            _scatter_add(chunk_spec, p[g], lights.channel[k[g]], e[g] * f_s)
+        chunk_e = np.zeros((sl.stop - sl.start, lights.n_channels))
+        _scatter_add(chunk_e, p, lights.channel[k], diffuse)
+        value[sl] = (chunk_e / math.pi).astype(np.float32)
+        spec[sl] = chunk_spec.astype(np.float32)
+    buffers.spec_cd_m2 = spec
     em = buffers.emitter
     if lights.n_luminaires and np.any(em >= 0):
         area = lights.opening_m[:, 0] * lights.opening_m[:, 1]

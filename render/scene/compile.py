@@ -305,6 +305,8 @@ def compile_scene(scene: Scene) -> TriangleMesh:
         _marking(b, m, scene.street)
     _columns(b, scene)
     mesh = b.mesh()
+    # Specular layer per material index: (F0, GGX alpha); F0 = 0 means none.
+    mesh.material_gloss = np.array([scene.gloss.get(m, (0.0, 1.0)) for m in mesh.material_names], np.float64).reshape(-1, 2)  # type: ignore[attr-defined]
     if not np.all(np.isfinite(mesh.triangles_m)):
         raise input_error(scene.path, "", "the scene's geometry has non-finite coordinates")
     return mesh

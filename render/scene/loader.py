@@ -46,6 +46,13 @@ TOP_LEVEL = {
     "render": Field("table", default={}),
     "observer": Field("table", default={}),
     "setups": Field("table", default={}),
+    "gloss": Field("list", default=[]),
+}
+
+GLOSS_SPEC = {
+    "material": Field("str"),
+    "specular_reflectance": Field("float", default=0.02, min=0.0, max=1.0, help="Fresnel reflectance at normal incidence"),
+    "roughness": Field("float", default=0.1, min=0.01, max=1.0, help="GGX roughness alpha"),
 }
 
 SCENE_INFO = {
@@ -75,6 +82,7 @@ STREET_SPEC = {
     "verge_material": Field("str", default="grass"),
     "frontage_material": Field("str", default="grass"),
     "centre_line": Field("str", default="dashed", choices=("none", "dashed", "solid")),
+    "wet": Field("bool", default=False, help="a film of water on carriageway and footways"),
     "line_material": Field("str", default="paint-road-white"),
     "left": Field("table", default={}),
     "right": Field("table", default={}),
@@ -353,7 +361,7 @@ def _street(table: dict, ctx: _Context) -> Street | None:
         kerb_height_m=s["kerb_height_m"], kerb_width_m=s["kerb_width_m"],
         carriageway_material=s["carriageway_material"], kerb_material=s["kerb_material"],
         centre_line=s["centre_line"] or "dashed", line_material=s["line_material"],
-        left=sides["left"], right=sides["right"],
+        left=sides["left"], right=sides["right"], wet=bool(s["wet"]),
     )
 
 
@@ -556,6 +564,24 @@ def _expand_row(r: dict, where: str, street: Street) -> list[Luminaire]:
     return out
 
 
+def _gloss(entries: list, ctx: _Context, street: Street | None) -> dict[str, tuple[float, float]]:
+    """Specular layers per material: ``[[gloss]]`` entries, and ``street.wet`` for the street's
+    walking and driving surfaces (water film, :mod:`render.gloss`)."""
+    from render.gloss import WATER_F0, WET_ROUGHNESS
+
+    out: dict[str, tuple[float, float]] = {}
+    if street is not None and street.wet:
+        for m in {street.carriageway_material, street.left.footway_material, street.right.footway_material, street.line_material}:
+            out[m] = (WATER_F0, WET_ROUGHNESS)
+    for i, entry in enumerate(entries):
+        where = f"gloss[{i}]"
+        g = check_table(entry, GLOSS_SPEC, where, ctx.problems)
+        ctx.material(g["material"], f"{where}.material")
+        if None not in (g["material"], g["specular_reflectance"], g["roughness"]):
+            out[g["material"]] = (g["specular_reflectance"], g["roughness"])
+    return out
+
+
 def _views(entries: list, ctx: _Context, street: Street | None) -> list[View]:
     out = []
     names = set()
@@ -637,6 +663,7 @@ def load_scene(path: str | Path) -> Scene:
         if lum.group not in groups:
             groups.append(lum.group)
     setups = _setups(top["setups"] or {}, ctx, groups)
+    gloss = _gloss(top["gloss"] or [], ctx, street)
     if top["street"] is None and not objects and not frontages:
         problems.add("", "the scene has no [street], [[objects]], [[geometry]] or [[frontages]]: nothing to render")
     names: dict[str, str] = {}
@@ -648,7 +675,7 @@ def load_scene(path: str | Path) -> Scene:
     return Scene(
         path=path, name=info["name"], description=info["description"], street=street,
         frontages=frontages, objects=objects, markings=markings, luminaires=luminaires, views=views,
-        render=RenderSettings(**render), observer=observer, setups=setups,
+        render=RenderSettings(**render), observer=observer, setups=setups, gloss=gloss,
     )
 
 

@@ -40,6 +40,7 @@ class Street:
     line_material: str
     left: StreetSide  # +y
     right: StreetSide  # -y
+    wet: bool = False  # water film on carriageway, footways and lines (render.gloss)
 
     def side(self, name: str) -> StreetSide:
         return self.left if name == "left" else self.right
@@ -177,6 +178,7 @@ class Scene:
     observer: Any = None  # render.vision.observer.ObserverSettings (None: the defaults)
     setups: dict[str, Setup] = field(default_factory=dict)
     sky_material: str | None = None
+    gloss: dict[str, tuple[float, float]] = field(default_factory=dict)  # material -> (F0, GGX alpha)
 
     @property
     def base_dir(self) -> Path:
