@@ -272,7 +272,6 @@ def _binned_sah_split(idx, lo, hi, cen, start, end, parent_area, n_bins, c_trav,
     ``idx`` is partitioned so that ``[start, mid)`` is the left child and the children's boxes
     are written to ``left_box`` / ``right_box``.
     """
-    n = end - start
     cmin = np.empty(3)
     cmax = np.empty(3)
     scale = np.empty(3)

@@ -15,13 +15,11 @@ from pathlib import Path
 import numpy as np
 
 from render import __version__
-from render.errors import InputError, input_error
+from render.errors import InputError, Problem, input_error
+from render.fileio import file_stem
+from render.provenance import image_metadata
+from render.report import STANDING_CAUTION as CAUTION  # one wording of the caution everywhere
 
-CAUTION = (
-    "Caution: lampcast images and figures are illustrative previews, not a lighting design or a "
-    "compliance calculation. Road-lighting design and compliance follow local codes and standards "
-    "and the judgement of qualified, licensed practitioners."
-)
 
 REPO_ROOT = Path(__file__).resolve().parents[1]
 DEMO_SCENE = REPO_ROOT / "scenes" / "demo" / "linden_row.toml"
@@ -119,8 +117,9 @@ def _setup_from_args(study, args):
     return study.setup(getattr(args, "setup", None))
 
 
-def _slug(text: str) -> str:
-    return "".join(c if c.isalnum() or c in "-_" else "-" for c in text).strip("-") or "view"
+#: Observer options of the command line and the settings they set.
+OBSERVER_FLAGS = {"age": "age_years", "pigmentation": "pigmentation", "adaptation": "adaptation_cd_m2",
+                  "display_peak": "display_peak_cd_m2"}
 
 
 def _observer_from_args(study, args):
@@ -128,44 +127,21 @@ def _observer_from_args(study, args):
     from dataclasses import replace
 
     obs = study.observer
-    changes = {}
-    for arg, key in (("age", "age_years"), ("pigmentation", "pigmentation"), ("adaptation", "adaptation_cd_m2"),
-                     ("display_peak", "display_peak_cd_m2")):
-        value = getattr(args, arg, None)
-        if value is not None:
-            changes[key] = value
+    changes = {key: getattr(args, arg) for arg, key in OBSERVER_FLAGS.items() if getattr(args, arg, None) is not None}
     if getattr(args, "no_glare", False):
         changes["glare"] = False
     if getattr(args, "no_acuity", False):
         changes["acuity"] = False
     if not changes:
         return obs
+    flag_of = {key: "--" + arg.replace("_", "-") for arg, key in OBSERVER_FLAGS.items()}
     try:
         return replace(obs, **changes)
     except InputError as err:
-        raise InputError([type(p)("command line", f"--{p.where.replace('_years', '').replace('_cd_m2', '').replace('_', '-')}", p.message) for p in err.problems]) from None
+        raise InputError([Problem("command line", flag_of.get(p.where, p.where), p.message) for p in err.problems]) from None
 
 
-def image_metadata(study, rendered, mode: str, observer, seed: int, spp: int) -> dict[str, str]:
-    """PNG/EXR text metadata: how an image was made (no timestamps, so reruns are identical)."""
-    from render.provenance import scene_sha256
-
-    return {
-        "Software": f"lampcast {__version__}",
-        "lampcast.scene": study.scene.path.name,
-        "lampcast.scene_sha256": scene_sha256(study.scene.path),
-        "lampcast.setup": rendered.setup or "(scene)",
-        "lampcast.view": rendered.name,
-        "lampcast.mode": mode,
-        "lampcast.observer": f"age {observer.age_years:g} y, pigmentation {observer.pigmentation:g}, "
-                             f"display peak {observer.display_peak_cd_m2:g} cd/m², glare {'on' if observer.glare else 'off'}, "
-                             f"acuity {'on' if observer.acuity else 'off'}",
-        "lampcast.seed": str(seed),
-        "lampcast.samples_per_pixel": str(spp),
-    }
-
-
-def _write_rendered(rendered, out: Path, stem: str, study, displays: dict, meta: dict) -> list[Path]:
+def _write_rendered(rendered, out: Path, stem: str, displays: dict, meta: dict) -> list[Path]:
     """EXR of the absolute light, and a PNG (8- and 16-bit) per display mode."""
     from render.hdr import write_exr
 
@@ -200,15 +176,15 @@ def cmd_render(args) -> int:
 
         camera = study.camera(view.name, args.width)
         aovs = render_aovs(study.mesh, study.bvh, camera, samples_per_pixel=spp, seed=seed)
-        written += list(write_aov_previews(aovs, out, _slug(view.name)))
+        written += list(write_aov_previews(aovs, out, file_stem(view.name)))
     setup = _setup_from_args(study, args)
     if not study.scene.luminaires:
         print(f"note: {args.scene} has no luminaires: only the night sky's darkness is rendered (no sky light is modelled)", file=sys.stderr)
     rendered = study.render_view(view.name, setup, samples_per_pixel=spp, seed=seed, width_px=args.width, progress=True)
     modes = args.mode or ["adapted", "photometric"]
     displays = {mode: study.display(rendered, mode, observer) for mode in modes}
-    stem = _slug(f"{view.name}-{rendered.setup or 'scene'}")
-    written += _write_rendered(rendered, out, stem, study, displays, image_metadata(study, rendered, "", observer, seed, spp))
+    stem = file_stem(f"{view.name}-{rendered.setup or 'scene'}")
+    written += _write_rendered(rendered, out, stem, displays, image_metadata(study, rendered, "", observer, seed, spp))
     print(_luminance_line(rendered))
     for path in written:
         print(path)
@@ -252,7 +228,7 @@ def cmd_relight(args) -> int:
     written = []
     for r, sh, ph in zip(rendered, shared, photometric):
         meta = image_metadata(study, r, "", observer, seed, spp)
-        written += _write_rendered(r, out, _slug(f"{view.name}-{r.setup}"), study, {"shared": sh, "photometric": ph}, meta)
+        written += _write_rendered(r, out, file_stem(f"{view.name}-{r.setup}"), {"shared": sh, "photometric": ph}, meta)
         print(_luminance_line(r))
     for path in written:
         print(path)
@@ -284,8 +260,8 @@ def cmd_colours(args) -> int:
             lamps.setdefault(lamp_id, study.lamp_spds([lamp_id])[0])
     text = image_metadata(study, first, "colour analysis", observer, study.scene.render.seed, first.buffers.spp)
     text["lampcast.setup"] = "; ".join(s.name for s in setups)
-    pictures = colour_pictures(result, rendered, displays, list(lamps.items()), out, prefix=_slug(view.name) + "-", text=text)
-    written = [write_colour_json(result, out / f"{_slug(view.name)}-colours.json"), *pictures.values()]
+    pictures = colour_pictures(result, rendered, displays, list(lamps.items()), out, prefix=file_stem(view.name) + "-", text=text)
+    written = [write_colour_json(result, out / f"{file_stem(view.name)}-colours.json"), *pictures.values()]
     rows = []
     for o in result["objects"]:
         row = {"object": o["name"], "daylight": result["daylight"]["objects"][o["name"]]["name"], "setups": {}, "changed": []}
@@ -355,6 +331,13 @@ def _observer_options(p) -> None:
     g.add_argument("--no-acuity", action="store_true", help="leave out the low-light loss of acuity")
 
 
+def _run_options(p, out_default: str) -> None:
+    """Options every rendering command shares."""
+    p.add_argument("--spp", type=_positive_int, help="samples per pixel (default: the scene's render.samples_per_pixel)")
+    p.add_argument("--width", type=_positive_int, help="override the image width in pixels (the height keeps the aspect ratio)")
+    p.add_argument("--out", help=f"output folder (default {out_default})")
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="lampcast",
@@ -395,21 +378,17 @@ def build_parser() -> argparse.ArgumentParser:
                    help="display mode (repeat for several; default adapted and photometric): adapted = for an eye adapted "
                         "to this image; shared = one adaptation state for a set (the same as adapted for one image); "
                         "photometric = false-colour luminance with a cd/m² legend")
-    p.add_argument("--spp", type=_positive_int, help="samples per pixel (default: the scene's render.samples_per_pixel)")
     p.add_argument("--seed", type=int, help="random seed (default: the scene's render.seed)")
-    p.add_argument("--width", type=_positive_int, help="override the image width in pixels (height keeps the aspect ratio)")
-    p.add_argument("--out", help="output folder (default outputs/SCENE)")
     _observer_options(p)
+    _run_options(p, "outputs/SCENE")
     p.set_defaults(func=cmd_render)
 
     p = sub.add_parser("relight", help="render a view once and re-light it for several setups without casting camera rays")
     p.add_argument("scene", help="scene file (TOML)")
     p.add_argument("--view", help="view name (default: the scene's first view)")
     p.add_argument("--setup", dest="setups", action="append", metavar="NAME", help="setup to render (repeat; default: every setup in the scene)")
-    p.add_argument("--spp", type=_positive_int, help="samples per pixel")
-    p.add_argument("--width", type=_positive_int, help="override the image width in pixels")
-    p.add_argument("--out", help="output folder (default outputs/SCENE)")
     _observer_options(p)
+    _run_options(p, "outputs/SCENE")
     p.set_defaults(func=cmd_relight)
 
     p = sub.add_parser("colours", help="can people tell the tagged objects' colours apart? names, CIEDE2000, confusions, pictures")
@@ -417,10 +396,8 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--setup", dest="setups", action="append", metavar="SETUP",
                    help="setup to analyse (repeat; a scene setup, a lamp id or key=value items; default every setup in the scene)")
     p.add_argument("--view", help="view name (default: the scene's first view)")
-    p.add_argument("--spp", type=_positive_int, help="samples per pixel")
-    p.add_argument("--width", type=_positive_int, help="override the image width in pixels")
-    p.add_argument("--out", help="output folder (default outputs/SCENE-colours)")
     _observer_options(p)
+    _run_options(p, "outputs/SCENE-colours")
     p.set_defaults(func=cmd_colours)
 
     p = sub.add_parser("compare", help="before and after: images, false colour, metrics.json and report.html per view")
@@ -430,19 +407,15 @@ def build_parser() -> argparse.ArgumentParser:
                         "per group as 'GROUP:lamp=ID,dimming=0.8;GROUP2:...'")
     p.add_argument("--after", required=True, metavar="SETUP", help="as --before")
     p.add_argument("--view", dest="views", action="append", metavar="NAME", help="view to render (repeat; default all views)")
-    p.add_argument("--spp", type=_positive_int, help="samples per pixel (default: the scene's)")
-    p.add_argument("--width", type=_positive_int, help="override the image width in pixels")
-    p.add_argument("--out", help="output folder (default outputs/SCENE-compare)")
     p.add_argument("--no-report", action="store_true", help="skip report.html")
     _observer_options(p)
+    _run_options(p, "outputs/SCENE-compare")
     p.set_defaults(func=cmd_compare)
 
     p = sub.add_parser("demo", help="run the main job on the bundled demo street: sodium before, warm-white LED after")
-    p.add_argument("--out", help="output folder (default outputs/demo)")
     p.add_argument("--view", dest="views", action="append", metavar="NAME", help="view to render (default all)")
-    p.add_argument("--width", type=_positive_int, help="override the image width in pixels")
-    p.add_argument("--spp", type=_positive_int, help="samples per pixel (default: the scene's)")
     p.add_argument("--age", type=float, metavar="YEARS", help="observer age")
+    _run_options(p, "outputs/demo")
     p.set_defaults(func=cmd_demo)
     return parser
 

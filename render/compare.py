@@ -20,7 +20,8 @@ import numpy as np
 
 from render import __version__
 from render.errors import did_you_mean, input_error
-from render.fileio import atomic_path, atomic_write_text
+from render.fileio import atomic_path, atomic_write_text, file_stem
+from render.provenance import image_metadata
 from render.scene.model import GroupSetting, Setup
 
 #: Cautions shown with every comparison (the report adds its standing caution: an illustrative
@@ -218,15 +219,13 @@ def summary_sentences(metrics: dict) -> list[str]:
 def false_colour_pair(before, after) -> tuple[list[np.ndarray], np.ndarray]:
     """False-colour luminance images (8-bit sRGB) of two views on one log scale, and the legend.
 
-    The scale spans whole decades from the larger of the two 99.5th percentiles down three
-    decades (render.vision.falsecolour's ramp, our own perceptually ordered scale)."""
+    The scale is :func:`render.vision.falsecolour.shared_range_decades` (whole decades) on our
+    own perceptually ordered ramp."""
     from render.vision.display import quantise, srgb_encode
-    from render.vision.falsecolour import auto_range_decades, false_colour, legend_strip
+    from render.vision.falsecolour import false_colour, legend_strip, shared_range_decades
 
     ys = [r.colorimetry.luminance_cd_m2 for r in (before, after)]
-    lo_hi = [auto_range_decades(y) for y in ys]
-    hi = max(h for _, h in lo_hi)
-    lo = max(min(l for l, _ in lo_hi), hi * 1e-4)
+    lo, hi = shared_range_decades(ys)
     images = [quantise(srgb_encode(false_colour(y, lo, hi)), 8) for y in ys]
     legend = quantise(srgb_encode(legend_strip(ys[0].shape[0], lo, hi, "luminance (cd/m²)", 120)), 8)
     return images, legend
@@ -255,8 +254,6 @@ def _colour_section(study, setups, observer, colour_view, out: Path, metrics: di
         for lamp_id in channel_factors(r.lights, setups[key])[1]:
             lamps.setdefault(lamp_id, get_lamp(lamp_id, base_dir=study.scene.base_dir).spd)
     cdir = out / "colours"
-    from render.cli import image_metadata
-
     text = image_metadata(study, rb, "colour analysis", observer, study.scene.render.seed, rb.buffers.spp)
     text["lampcast.setup"] = f"before={setups['before'].name}; after={setups['after'].name}"
     pics = colour_pictures(result, [rb, ra], shared, list(lamps.items()), cdir, text=text)
@@ -284,7 +281,6 @@ def run_comparison(scene_path, before: str, after: str, views: list[str] | None 
     (with the colour analysis of the tagged objects in the first view, unless ``colour=False``)."""
     from render.lampfigures import figures_json, lamp_figures
     from render.lamps import get_lamp
-    from render.provenance import scene_sha256
     from render.study import Study
 
     study = Study(scene_path)
@@ -301,7 +297,7 @@ def run_comparison(scene_path, before: str, after: str, views: list[str] | None 
     metrics: dict = {
         "tool": {"name": "lampcast", "version": __version__},
         "scene": {"name": scene.name, "description": scene.description, "notes": "", "file": scene.path.name,
-                  "sha256": scene_sha256(scene.path)},
+                  "sha256": study.scene_sha256},
         "observer": {"age_years": observer.age_years, "pigmentation": observer.pigmentation,
                      "display_peak_cd_m2": observer.display_peak_cd_m2, "adaptation_cd_m2": observer.adaptation_cd_m2,
                      "glare": observer.glare, "acuity": observer.acuity},
@@ -313,14 +309,12 @@ def run_comparison(scene_path, before: str, after: str, views: list[str] | None 
         "cautions": list(CAUTIONS),
         "extra_sections": list(extra_sections or []),
     }
-    rendered_all = {}
     colour_view = None
     for name in view_names:
-        vdir = out / _slug(name)
+        vdir = out / file_stem(name)
         vdir.mkdir(exist_ok=True)
         rb = study.render_view(name, setups["before"], samples_per_pixel=spp, width_px=width_px, progress=progress)
         ra = study.relight(rb, setups["after"], progress=progress)
-        rendered_all[name] = (rb, ra)
         for key, r in (("before", rb), ("after", ra)):
             metrics["setups"].setdefault(key, setup_description(study, setups[key], r.lights))
         metrics["settings"]["width_px"] = rb.camera.width_px
@@ -330,8 +324,6 @@ def run_comparison(scene_path, before: str, after: str, views: list[str] | None 
         images: dict[str, str] = {}
 
         def meta(r, mode):
-            from render.cli import image_metadata
-
             m = image_metadata(study, r, mode, observer, seed, spp)
             m["lampcast.comparison"] = f"before={setups['before'].name}; after={setups['after'].name}"
             return m
@@ -388,11 +380,4 @@ def run_comparison(scene_path, before: str, after: str, views: list[str] | None 
         from render.report import write_report
 
         report_path = write_report(out, metrics)
-    result = ComparisonResult(out, metrics, report_path)
-    result.rendered = rendered_all  # type: ignore[attr-defined]
-    result.study = study  # type: ignore[attr-defined]
-    return result
-
-
-def _slug(text: str) -> str:
-    return "".join(c if c.isalnum() or c in "-_" else "-" for c in text).strip("-") or "view"
+    return ComparisonResult(out, metrics, report_path)

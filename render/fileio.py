@@ -65,3 +65,35 @@ def save_figure(fig, path: str | os.PathLike, **savefig_kwargs) -> Path:
         with open(tmp, "wb") as fh:
             fig.savefig(fh, format="png", **savefig_kwargs)
     return Path(path)
+
+
+def read_user_bytes(path: str | os.PathLike, kind: str) -> bytes:
+    """The bytes of a user's input file; a missing or unreadable file is an
+    :class:`~render.errors.InputError` naming it (``kind`` says what it is, e.g. "lamp file")."""
+    from render.errors import input_error
+
+    try:
+        return Path(path).read_bytes()
+    except FileNotFoundError:
+        raise input_error(path, "", f"cannot read the {kind}: file not found") from None
+    except OSError as err:
+        raise input_error(path, "", f"cannot read the {kind}: {err.strerror or err}") from None
+
+
+def read_user_text(path: str | os.PathLike, kind: str, expected: str) -> str:
+    """A user's input file as UTF-8 text (a byte-order mark is allowed). Text that is not UTF-8
+    is an :class:`~render.errors.InputError` naming the line of the first bad byte."""
+    from render.errors import input_error
+
+    data = read_user_bytes(path, kind)
+    try:
+        return data.decode("utf-8-sig")
+    except UnicodeDecodeError as err:
+        line = data[: err.start].count(b"\n") + 1
+        raise input_error(path, f"line {line}", f"not UTF-8 text; expected {expected}") from None
+
+
+def file_stem(text: str) -> str:
+    """A file-name-safe stem for a view or setup name: letters, digits, '-' and '_' kept,
+    everything else replaced by '-'."""
+    return "".join(c if c.isalnum() or c in "-_" else "-" for c in text).strip("-") or "view"

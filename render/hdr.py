@@ -31,12 +31,8 @@ def write_exr(path: str | Path, colorimetry: ViewColorimetry, metadata: dict[str
 
     path = Path(path)
     xyz = colorimetry.xyz_cd_m2.astype(np.float32)
-    channels = {
-        "X": np.ascontiguousarray(xyz[..., 0]),
-        "Y": np.ascontiguousarray(xyz[..., 1]),
-        "Z": np.ascontiguousarray(xyz[..., 2]),
-        "Ys": np.ascontiguousarray(colorimetry.scotopic_cd_m2.astype(np.float32)),
-    }
+    planes = [xyz[..., 0], xyz[..., 1], xyz[..., 2], colorimetry.scotopic_cd_m2.astype(np.float32)]
+    channels = {name: np.ascontiguousarray(plane) for name, plane in zip(CHANNELS, planes)}
     header = {
         "compression": OpenEXR.ZIP_COMPRESSION,
         "type": OpenEXR.scanlineimage,
@@ -58,7 +54,7 @@ def read_exr(path: str | Path) -> tuple[ViewColorimetry, dict[str, str]]:
 
     with OpenEXR.File(str(path)) as f:
         ch = f.channels()
-        xyz = np.stack([ch[c].pixels for c in ("X", "Y", "Z")], axis=-1).astype(np.float64)
-        ys = ch["Ys"].pixels.astype(np.float64)
+        xyz = np.stack([ch[c].pixels for c in CHANNELS[:3]], axis=-1).astype(np.float64)
+        ys = ch[CHANNELS[3]].pixels.astype(np.float64)
         meta = {k[len("lampcast_"):]: str(v) for k, v in f.header().items() if k.startswith("lampcast_")}
     return ViewColorimetry(xyz, ys), meta

@@ -161,13 +161,6 @@ def _scatter_add(out, rows, cols, values):
         out[rows[w], cols[w]] += values[w]
 
 
-@numba.njit(cache=True, nogil=True)
-def _accumulate(out, point, lum, e, blocked, channel):
-    for w in range(point.shape[0]):
-        if not blocked[w]:
-            out[point[w], channel[lum[w]]] += e[w]
-
-
 @numba.njit(cache=True, nogil=True, parallel=True)
 def _emitter_values(directions, lum_of, rot, pos, scale, table, c_grid, g_grid, n_c, n_g, cd, area, channel, out):
     """Luminance (cd/m²) of visible luminous openings: I toward the eye / projected area."""
@@ -335,7 +328,8 @@ def direct_illuminance_lx(
     pairs = direct_pairs(points_m, normals, lights, bvh, active=active, negligible_lx=negligible_lx, grid=grid,
                          offset_normals=offset_normals)
     if pairs.point.size:
-        _accumulate(out, pairs.point, pairs.lum, pairs.e_lx, pairs.blocked, lights.channel)
+        lit = ~pairs.blocked
+        _scatter_add(out, pairs.point[lit], lights.channel[pairs.lum[lit]], pairs.e_lx[lit])
     return out
 
 

@@ -150,7 +150,6 @@ def _figures_of_spectrum(spd_bytes: bytes) -> tuple[dict, tuple[str, ...], dict]
     u, v = _uv_from_xy(x, y)
     values.update(x=x, y=y, u=u, v=v)
 
-    caught: list[warnings.WarningMessage] = []
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         cct, duv = (float(c) for c in colour.temperature.uv_to_CCT_Ohno2013(np.array([u, v])))

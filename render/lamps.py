@@ -80,13 +80,13 @@ from typing import Sequence
 
 import numpy as np
 
+from render.fileio import read_user_text
 from render.errors import ProblemList, did_you_mean, input_error
 from render.spectra import (
     BIN_WIDTH_NM,
     N_BINS,
     WAVELENGTH_MAX_NM,
     WAVELENGTH_MIN_NM,
-    WAVELENGTHS_NM,
     bin_density,
     deposit_lines,
 )
@@ -720,21 +720,7 @@ def load_lamp_file(path: str | Path) -> Lamp:
     """
     path = Path(path)
     src = str(path)
-    try:
-        data = path.read_bytes()
-    except FileNotFoundError:
-        raise input_error(src, "", "lamp file not found") from None
-    except OSError as err:
-        raise input_error(src, "", f"cannot read the lamp file ({err.strerror or err})") from None
-    try:
-        text = data.decode("utf-8-sig")
-    except UnicodeDecodeError as err:
-        bad_line = data[: err.start].count(b"\n") + 1
-        raise input_error(
-            src,
-            f"line {bad_line}",
-            "not UTF-8 text; save the lamp file as UTF-8 (plain ASCII is fine)",
-        ) from None
+    text = read_user_text(path, "lamp file", "a UTF-8 lamp file (plain ASCII is fine)")
     n_lines = len(text.splitlines())
 
     problems = ProblemList(src)

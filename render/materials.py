@@ -49,7 +49,7 @@ from pathlib import Path
 
 import numpy as np
 
-from render.fileio import save_figure
+from render.fileio import read_user_text, save_figure
 from render.errors import InputError, Problem, ProblemList, did_you_mean, input_error
 from render.spectra import WAVELENGTH_MAX_NM, WAVELENGTH_MIN_NM, WAVELENGTHS_NM, bin_mean
 
@@ -153,17 +153,7 @@ def load_material_csv(path: str | Path) -> Material:
     """
     path = Path(path)
     src = str(path)
-    try:
-        raw = path.read_bytes()
-    except FileNotFoundError:
-        raise input_error(src, "", "file not found; expected a material CSV file") from None
-    except OSError as exc:
-        raise input_error(src, "", f"cannot read the file ({exc.strerror})") from None
-    try:
-        text = raw.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        line = raw[: exc.start].count(b"\n") + 1
-        raise input_error(src, f"line {line}", "not UTF-8 text; expected a UTF-8 CSV file") from None
+    text = read_user_text(path, "material file", "a UTF-8 CSV file")
     lines = text.splitlines()
     if not any(s.strip() for s in lines):
         raise input_error(

@@ -92,7 +92,7 @@ from typing import Sequence
 import numba
 import numpy as np
 
-from render.fileio import save_figure
+from render.fileio import read_user_bytes, save_figure
 from render.errors import InputError, Problem, did_you_mean, input_error
 
 #: One foot in metres (international foot).
@@ -347,11 +347,7 @@ def read_lm63(path: str | os.PathLike) -> Photometry:
         If the file cannot be read or is malformed (names the file and line).
     """
     path = Path(path)
-    try:
-        data = path.read_bytes()
-    except OSError as exc:
-        raise input_error(path, "", f"cannot read the photometric file: {exc.strerror or exc}") from None
-    return parse_lm63(_decode(data), source=str(path), base_dir=path.parent)
+    return parse_lm63(_decode(read_user_bytes(path, "photometric file")), source=str(path), base_dir=path.parent)
 
 
 def parse_lm63(text: str, source: str = "<lm63 text>", base_dir: str | os.PathLike | None = None) -> Photometry:

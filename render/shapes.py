@@ -24,12 +24,12 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from pathlib import Path
 from typing import Iterable, Mapping, Sequence
 
 import numpy as np
 
 from .errors import ProblemList, input_error
+from .fileio import read_user_text
 from .geometry import face_normals, flat_normals
 
 __all__ = [
@@ -988,15 +988,7 @@ def load_obj(path, *, scale: float = 1.0, up_axis: str = "z", slot_map: Mapping[
     if up_axis not in ("z", "y"):
         raise ValueError(f"up_axis must be 'z' or 'y', got {up_axis!r}")
     src = str(path)
-    try:
-        data = Path(path).read_bytes()
-    except OSError as e:
-        raise input_error(src, "", f"cannot read the OBJ file ({e.strerror or e})") from None
-    try:
-        text = data.decode("utf-8-sig")
-    except UnicodeDecodeError as e:
-        line = data[: e.start].count(b"\n") + 1
-        raise input_error(src, f"line {line}", "not UTF-8 text; expected a Wavefront OBJ text file") from None
+    text = read_user_text(path, "OBJ file", "a Wavefront OBJ text file")
 
     problems = ProblemList(src)
     verts: list[list[float]] = []

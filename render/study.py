@@ -51,6 +51,13 @@ class Study:
         self.negligible_lx = negligible_lx
 
     @cached_property
+    def scene_sha256(self) -> str:
+        """SHA-256 of the scene file (read once), for provenance metadata."""
+        from render.provenance import scene_sha256
+
+        return scene_sha256(self.scene.path)
+
+    @cached_property
     def mesh(self):
         return compile_scene(self.scene)
 
@@ -171,9 +178,10 @@ class Study:
         if mode == "shared":
             results = shared_display(lights, geoms, observer)
         elif mode == "photometric" and len(items) > 1:
-            top = max(float(np.percentile(x.xyz_cd_m2[..., 1], 99.5)) for x in lights)
-            low = max(top * 1e-3, 1e-4)
-            results = [render_display(x, g, observer, mode, photometric_range_cd_m2=(low, top)) for x, g in zip(lights, geoms)]
+            from render.vision.falsecolour import shared_range_decades
+
+            lo_hi = shared_range_decades([x.xyz_cd_m2[..., 1] for x in lights])
+            results = [render_display(x, g, observer, mode, photometric_range_cd_m2=lo_hi) for x, g in zip(lights, geoms)]
         else:
             results = [render_display(x, g, observer, mode) for x, g in zip(lights, geoms)]
         return results if isinstance(rendered, list) else results[0]

@@ -9,7 +9,6 @@ status 2 without a traceback.
 from __future__ import annotations
 
 import json
-import math
 from pathlib import Path
 
 import numpy as np

@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import html
 import json
-import os
 import re
 import signal
 import subprocess
@@ -18,7 +17,6 @@ import sys
 import time
 from pathlib import Path
 
-import numpy as np
 import pytest
 
 from render.cli import main

@@ -11,7 +11,6 @@ import math
 import re
 import tomllib
 from pathlib import Path
-from typing import Any, Callable
 
 from render.errors import InputError, ProblemList, did_you_mean
 from render.scene.model import (
@@ -27,6 +26,7 @@ from render.scene.model import (
     StreetSide,
     Tag,
     View,
+    luminaire_groups,
 )
 from render.scene.schema import Field, check_table, check_value, join
 
@@ -284,14 +284,9 @@ class _Context:
 
 
 def _parse_toml(path: Path) -> dict:
-    try:
-        text = path.read_bytes().decode("utf-8")
-    except FileNotFoundError:
-        raise InputError([_problem(path, "", "scene file not found")]) from None
-    except OSError as err:
-        raise InputError([_problem(path, "", f"cannot read the scene file ({err.strerror})")]) from None
-    except UnicodeDecodeError as err:
-        raise InputError([_problem(path, "", f"not UTF-8 text (byte {err.start})")]) from None
+    from render.fileio import read_user_text
+
+    text = read_user_text(path, "scene file", "a UTF-8 TOML scene file")
     try:
         return tomllib.loads(text)
     except tomllib.TOMLDecodeError as err:
@@ -658,11 +653,7 @@ def load_scene(path: str | Path) -> Scene:
             observer = ObserverSettings.from_mapping(top["observer"], source=str(path), where="observer")
         except InputError as err:
             problems.extend(err)
-    groups = []
-    for lum in luminaires:
-        if lum.group not in groups:
-            groups.append(lum.group)
-    setups = _setups(top["setups"] or {}, ctx, groups)
+    setups = _setups(top["setups"] or {}, ctx, luminaire_groups(luminaires))
     gloss = _gloss(top["gloss"] or [], ctx, street)
     if top["street"] is None and not objects and not frontages:
         problems.add("", "the scene has no [street], [[objects]], [[geometry]] or [[frontages]]: nothing to render")

@@ -199,8 +199,9 @@ class Scene:
 
     @property
     def groups(self) -> list[str]:
-        seen: list[str] = []
-        for lum in self.luminaires:
-            if lum.group not in seen:
-                seen.append(lum.group)
-        return seen
+        return luminaire_groups(self.luminaires)
+
+
+def luminaire_groups(luminaires) -> list[str]:
+    """Group names of luminaires, in order of first appearance."""
+    return list(dict.fromkeys(lum.group for lum in luminaires))

@@ -72,6 +72,14 @@ def auto_range_decades(luminance_cd_m2: np.ndarray) -> tuple[float, float]:
     return 10.0**lo, 10.0**hi
 
 
+def shared_range_decades(luminances_cd_m2) -> tuple[float, float]:
+    """One (lo, hi) in cd/m² for several images: the widest of their
+    :func:`auto_range_decades`, at most four decades below the top."""
+    ranges = [auto_range_decades(y) for y in luminances_cd_m2]
+    hi = max(h for _, h in ranges)
+    return max(min(lo for lo, _ in ranges), hi * 1e-4), hi
+
+
 def false_colour(luminance_cd_m2: np.ndarray, lo_cd_m2: float, hi_cd_m2: float, n: int = 256) -> np.ndarray:
     """Linear sRGB false-colour image (..., 3) of luminance on a log scale [lo, hi]."""
     ramp = luminance_ramp(n)
