@@ -289,10 +289,11 @@ def cmd_compare(args) -> int:
     from render.compare import run_comparison
     from render.study import Study
 
-    observer = _observer_from_args(Study(args.scene), args)
+    study = Study(args.scene)
+    observer = _observer_from_args(study, args)
     out = args.out or str(Path("outputs") / f"{Path(args.scene).stem}-compare")
     print(CAUTION, file=sys.stderr)
-    result = run_comparison(args.scene, args.before, args.after, args.views, out, width_px=args.width,
+    result = run_comparison(study, args.before, args.after, args.views, out, width_px=args.width,
                             samples_per_pixel=args.spp, observer=observer, report=not args.no_report)
     for line in result.metrics["summary"]:
         print(f"- {line}")

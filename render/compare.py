@@ -273,17 +273,18 @@ class ComparisonResult:
     report: Path | None
 
 
-def run_comparison(scene_path, before: str, after: str, views: list[str] | None = None, out_dir: str | Path = "outputs/compare",
+def run_comparison(scene, before: str, after: str, views: list[str] | None = None, out_dir: str | Path = "outputs/compare",
                    *, width_px: int | None = None, samples_per_pixel: int | None = None, observer=None,
                    report: bool = True, progress: bool = True, extra_sections: list | None = None,
                    colour: bool = True) -> ComparisonResult:
     """Render every view before and after and write images, ``metrics.json`` and ``report.html``
-    (with the colour analysis of the tagged objects in the first view, unless ``colour=False``)."""
+    (with the colour analysis of the tagged objects in the view showing most of them, unless
+    ``colour=False``). ``scene`` is a scene file or a :class:`~render.study.Study`."""
     from render.lampfigures import figures_json, lamp_figures
     from render.lamps import get_lamp
     from render.study import Study
 
-    study = Study(scene_path)
+    study = scene if isinstance(scene, Study) else Study(scene)
     scene = study.scene
     setups = {"before": parse_setup(before, scene, "--before"), "after": parse_setup(after, scene, "--after")}
     observer = observer or study.observer

@@ -65,7 +65,6 @@ class LuminaireSet:
     i_max_beyond: np.ndarray
     channel: np.ndarray
     opening_m: np.ndarray
-    input_watts: np.ndarray
     photometries: list = field(default_factory=list)
 
     @property
@@ -144,7 +143,6 @@ def luminaire_set(scene: Scene, setup: Setup | None = None) -> LuminaireSet:
     table = np.zeros(L, np.int64)
     channel = np.zeros(L, np.int64)
     opening = np.zeros((L, 2))
-    watts = np.zeros(L)
     for i, (lum, t, c) in enumerate(rows):
         position[i] = lum.position_m
         rotation[i] = ph.luminaire_rotation(lum.rotation_deg, lum.tilt_deg)
@@ -154,11 +152,10 @@ def luminaire_set(scene: Scene, setup: Setup | None = None) -> LuminaireSet:
         p = loaded[t]
         length, width = abs(p.opening_length_m or 0.0), abs(p.opening_width_m or 0.0)
         opening[i] = (length, width) if length > 0 and width > 0 else DEFAULT_OPENING_M
-        watts[i] = p.input_watts or 0.0
     return LuminaireSet(
         names=[r[0].name for r in rows], channels=channels, position_m=position, rotation=rotation,
         scale=scale, table=table, c_grid=c_grid, g_grid=g_grid, n_c=n_c, n_g=n_g, cd_table=cd,
-        i_max_beyond=beyond, channel=channel, opening_m=opening, input_watts=watts, photometries=loaded,
+        i_max_beyond=beyond, channel=channel, opening_m=opening, photometries=loaded,
     )
 
 
