@@ -241,7 +241,6 @@ def cmd_colours(args) -> int:
     """Colour discrimination and naming of the tagged objects in one view, under each setup."""
     from render.analysis.naming import format_name_table
     from render.analysis.run import analyse_view_colours, colour_pictures, write_colour_json
-    from render.lights import channel_factors
     from render.study import Study
 
     study = Study(args.scene)
@@ -254,13 +253,9 @@ def cmd_colours(args) -> int:
     displays = study.display(rendered, "shared", observer)
     result = analyse_view_colours(study, rendered, displays, observer, [s.name for s in setups])
     out = _out_dir(args.out, f"{Path(args.scene).stem}-colours")
-    lamps = {}
-    for r, s in zip(rendered, setups):
-        for lamp_id in channel_factors(r.lights, s)[1]:
-            lamps.setdefault(lamp_id, study.lamp_spds([lamp_id])[0])
     text = image_metadata(study, first, "colour analysis", observer, study.scene.render.seed, first.buffers.spp)
     text["lampcast.setup"] = "; ".join(s.name for s in setups)
-    pictures = colour_pictures(result, rendered, displays, list(lamps.items()), out, prefix=file_stem(view.name) + "-", text=text)
+    pictures = colour_pictures(result, rendered, displays, study.setup_lamps(rendered, setups), out, prefix=file_stem(view.name) + "-", text=text)
     written = [write_colour_json(result, out / f"{file_stem(view.name)}-colours.json"), *pictures.values()]
     rows = []
     for o in result["objects"]:

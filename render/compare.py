@@ -243,20 +243,14 @@ def _tagged_objects_visible(study, rendered, min_pixels: int = 20) -> int:
 def _colour_section(study, setups, observer, colour_view, out: Path, metrics: dict) -> None:
     """Colour analysis of the tagged objects in one view: colours/ folder and a report section."""
     from render.analysis.run import analyse_view_colours, colour_pictures, colour_report_section, write_colour_json
-    from render.lamps import get_lamp
-    from render.lights import channel_factors
 
     _, name, rb, ra, shared = colour_view
     labels = [f"before: {setups['before'].name}", f"after: {setups['after'].name}"]
     result = analyse_view_colours(study, [rb, ra], shared, observer, labels)
-    lamps: dict[str, np.ndarray] = {}
-    for key, r in (("before", rb), ("after", ra)):
-        for lamp_id in channel_factors(r.lights, setups[key])[1]:
-            lamps.setdefault(lamp_id, get_lamp(lamp_id, base_dir=study.scene.base_dir).spd)
     cdir = out / "colours"
     text = image_metadata(study, rb, "colour analysis", observer, study.scene.render.seed, rb.buffers.spp)
     text["lampcast.setup"] = f"before={setups['before'].name}; after={setups['after'].name}"
-    pics = colour_pictures(result, [rb, ra], shared, list(lamps.items()), cdir, text=text)
+    pics = colour_pictures(result, [rb, ra], shared, study.setup_lamps([rb, ra], [setups['before'], setups['after']]), cdir, text=text)
     write_colour_json(result, cdir / "colours.json")
     section = colour_report_section(result, pics, out)
     section["paragraphs"].insert(0, f"Analysed in view '{name}' (the view showing most tagged objects), both setups in shared exposure.")

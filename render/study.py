@@ -107,6 +107,15 @@ class Study:
             out.append(cache[ref])
         return out
 
+    def setup_lamps(self, rendered: list[RenderedView], setups: list) -> list[tuple[str, np.ndarray]]:
+        """``(lamp id, spectrum)`` of every lamp the setups put into the rendered views, each once."""
+        lamps: dict[str, np.ndarray] = {}
+        for r, s in zip(rendered, setups):
+            ids = channel_factors(r.lights, self.setup(s))[1]
+            for lamp_id, spd in zip(ids, self.lamp_spds(ids)):
+                lamps.setdefault(lamp_id, spd)
+        return list(lamps.items())
+
     def colorimetry(self, buffers: LightBuffers, lights: LuminaireSet, setup: str | Setup | None = None) -> ViewColorimetry:
         factors, lamps = channel_factors(lights, self.setup(setup))
         return resolve(buffers, factors, self.lamp_spds(lamps), self.reflectances)
