@@ -17,8 +17,8 @@ import numpy as np
 from render import __version__
 from render.errors import InputError, Problem, input_error
 from render.fileio import file_stem
-from render.provenance import image_metadata
-from render.report import STANDING_CAUTION as CAUTION  # one wording of the caution everywhere
+from render.output.provenance import image_metadata
+from render.output.report import STANDING_CAUTION as CAUTION  # one wording of the caution everywhere
 
 
 REPO_ROOT = Path(__file__).resolve().parents[1]
@@ -34,8 +34,8 @@ def _out_dir(path: str | None, default: str) -> Path:
 # --- lamps -----------------------------------------------------------------------------------
 
 def cmd_lamps(args) -> int:
-    from render.lampfigures import figures_json, format_lamp_table, lamp_figures, plot_lamp_spectrum
-    from render.lamps import builtin_lamps, get_lamp
+    from render.colour.lamp_figures import figures_json, format_lamp_table, lamp_figures, plot_lamp_spectrum
+    from render.colour.lamps import builtin_lamps, get_lamp
 
     lamps = [get_lamp(ref, base_dir=Path.cwd()) for ref in args.ids] if args.ids else list(builtin_lamps().values())
     figures = [lamp_figures(lamp) for lamp in lamps]
@@ -54,7 +54,7 @@ def cmd_lamps(args) -> int:
 # --- materials -------------------------------------------------------------------------------
 
 def cmd_materials(args) -> int:
-    from render.materials import format_material_table, material_library, material_table, plot_material
+    from render.colour.materials import format_material_table, material_library, material_table, plot_material
 
     lib = material_library()
     rows = material_table(lib)
@@ -73,7 +73,7 @@ def cmd_materials(args) -> int:
 # --- photometry ----------------------------------------------------------------------------
 
 def cmd_photometry(args) -> int:
-    from render.photometry import describe_photometry_file
+    from render.light.photometry import describe_photometry_file
 
     plot = args.plot
     if plot is None and not args.no_plot:
@@ -88,7 +88,8 @@ def cmd_photometry(args) -> int:
 # --- check -----------------------------------------------------------------------------------
 
 def cmd_check(args) -> int:
-    from render.scene import check_scene, compile_scene
+    from render.geometry.build import compile_scene
+    from render.scene import check_scene
 
     scene = check_scene(args.scene)
     mesh = compile_scene(scene)
@@ -108,7 +109,7 @@ def cmd_check(args) -> int:
 
 def _setup_from_args(study, args):
     """The setup named by --setup, or one made from --lamp (all groups), or None."""
-    from render.lamps import get_lamp
+    from render.colour.lamps import get_lamp
     from render.scene.model import GroupSetting, Setup
 
     if getattr(args, "lamp", None):
@@ -143,7 +144,7 @@ def _observer_from_args(study, args):
 
 def _write_rendered(rendered, out: Path, stem: str, displays: dict, meta: dict) -> list[Path]:
     """EXR of the absolute light, and a PNG (8- and 16-bit) per display mode."""
-    from render.hdr import write_exr
+    from render.output.hdr import write_exr
 
     written = [write_exr(out / f"{stem}.exr", rendered.colorimetry, {k.replace("lampcast.", ""): v for k, v in meta.items()})]
     for mode, result in displays.items():
@@ -172,7 +173,7 @@ def cmd_render(args) -> int:
     observer = _observer_from_args(study, args)
     written: list[Path] = []
     if args.aov:
-        from render.aov import render_aovs, write_aov_previews
+        from render.rays.aov import render_aovs, write_aov_previews
 
         camera = study.camera(view.name, args.width)
         aovs = render_aovs(study.mesh, study.bvh, camera, samples_per_pixel=spp, seed=seed)
@@ -193,10 +194,10 @@ def cmd_render(args) -> int:
 
 def _render_setups(study, view, texts: list[str] | None, spp: int | None, width: int | None):
     """Cast a view once under the first setup and re-light it for the others; setups are
-    scene setup names, lamp ids or key=value items (see render.compare.parse_setup)."""
+    scene setup names, lamp ids or key=value items (see render.output.comparison.parse_setup)."""
     import time
 
-    from render.compare import parse_setup
+    from render.output.comparison import parse_setup
 
     texts = texts or list(study.scene.setups)
     if not texts:
@@ -281,7 +282,7 @@ def cmd_colours(args) -> int:
 # --- compare and demo --------------------------------------------------------------------------
 
 def cmd_compare(args) -> int:
-    from render.compare import run_comparison
+    from render.output.comparison import run_comparison
     from render.study import Study
 
     study = Study(args.scene)

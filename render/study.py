@@ -8,7 +8,7 @@
 >>> study.illuminance_lx([[40, 1.5, 0]], [[0, 0, 1]])         # doctest: +SKIP
 
 A :class:`Study` compiles the scene and builds its BVH once. :meth:`Study.render_view` casts a
-view's camera rays once and keeps its :class:`~render.integrator.LightBuffers`;
+view's camera rays once and keeps its :class:`~render.light.integrator.LightBuffers`;
 :meth:`Study.relight` re-colours them for another setup without casting a ray (a setup that
 changes a photometric distribution re-evaluates the light at the stored hit points, still
 without casting camera rays).
@@ -22,11 +22,12 @@ from pathlib import Path
 
 import numpy as np
 
-from render.colorimetry import ViewColorimetry, resolve
+from render.colour.colorimetry import ViewColorimetry, resolve
 from render.errors import did_you_mean, input_error
-from render.integrator import NEGLIGIBLE_LX, LightBuffers, cast_view, direct_illuminance_lx, evaluate_light
-from render.lights import LuminaireSet, channel_factors, luminaire_set, needs_new_evaluation
-from render.scene import Scene, compile_scene, load_scene
+from render.light.integrator import NEGLIGIBLE_LX, LightBuffers, cast_view, direct_illuminance_lx, evaluate_light
+from render.light.luminaires import LuminaireSet, channel_factors, luminaire_set, needs_new_evaluation
+from render.geometry.build import compile_scene
+from render.scene import Scene, load_scene
 from render.scene.model import Setup
 
 
@@ -53,7 +54,7 @@ class Study:
     @cached_property
     def scene_sha256(self) -> str:
         """SHA-256 of the scene file (read once), for provenance metadata."""
-        from render.provenance import scene_sha256
+        from render.output.provenance import scene_sha256
 
         return scene_sha256(self.scene.path)
 
@@ -63,14 +64,14 @@ class Study:
 
     @cached_property
     def bvh(self):
-        from render.bvh import build_bvh
+        from render.rays.bvh import build_bvh
 
         return build_bvh(self.mesh.triangles_m)
 
     @cached_property
     def reflectances(self) -> np.ndarray:
         """(K, N_BINS) reflectance of each material index of the mesh."""
-        from render.materials import get_material, material_library
+        from render.colour.materials import get_material, material_library
 
         lib = material_library()
         return np.array([get_material(m, lib, source=str(self.scene.path)).reflectance for m in self.mesh.material_names])
@@ -87,7 +88,7 @@ class Study:
         return luminaire_set(self.scene, self.setup(setup))
 
     def camera(self, view: str | None = None, width_px: int | None = None):
-        from render.cameras import Camera
+        from render.rays.cameras import Camera
 
         v = self.scene.view(view)
         w, h = v.width_px, v.height_px
@@ -97,7 +98,7 @@ class Study:
         return Camera(position_m=v.position_m, target_m=v.target_m, hfov_deg=v.hfov_deg, width_px=w, height_px=h)
 
     def lamp_spds(self, lamps: list[str]) -> list[np.ndarray]:
-        from render.lamps import get_lamp
+        from render.colour.lamps import get_lamp
 
         cache: dict[str, np.ndarray] = {}
         out = []

@@ -7,7 +7,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from render.bvh import (
+from render.rays.bvh import (
     build_bvh,
     face_forward,
     geometric_normal,
@@ -15,7 +15,7 @@ from render.bvh import (
     intersect_any,
     intersect_closest,
 )
-from render.geometry import flat_normals
+from render.geometry.mesh import flat_normals
 
 # --------------------------------------------------------------------------------------------
 # Helpers

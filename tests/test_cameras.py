@@ -7,7 +7,7 @@ import math
 import numpy as np
 import pytest
 
-from render.cameras import (
+from render.rays.cameras import (
     Camera,
     angle_to_deg,
     camera_rays,
@@ -216,8 +216,8 @@ def test_from_view_accepts_scene_views():
 
 
 def _aov_scene():
-    from render.bvh import build_bvh
-    from render.geometry import TriangleMesh, flat_normals
+    from render.rays.bvh import build_bvh
+    from render.geometry.mesh import TriangleMesh, flat_normals
 
     ground = np.array([[[-50, -50, 0], [50, -50, 0], [50, 50, 0]], [[-50, -50, 0], [50, 50, 0], [-50, 50, 0]]], float)
     # A wall facing -x at x = 10 (two triangles, CCW seen from -x).
@@ -230,7 +230,7 @@ def _aov_scene():
 def test_render_aovs_against_analytic_depth():
     # Analytic geometry: the ray through a pixel meets the plane x = 10 at distance
     # (10 - x0) / d_x for a unit direction d.
-    from render.aov import render_aovs
+    from render.rays.aov import render_aovs
 
     mesh, bvh = _aov_scene()
     cam = Camera(position_m=(0.0, 0.0, 1.5), target_m=(10.0, 0.0, 1.5), hfov_deg=60.0, width_px=31, height_px=21)
@@ -259,7 +259,7 @@ def test_render_aovs_against_analytic_depth():
 def test_write_aov_previews_and_atomic_writes(tmp_path):
     import imageio.v3 as iio
 
-    from render.aov import render_aovs, write_aov_previews
+    from render.rays.aov import render_aovs, write_aov_previews
     from render.fileio import atomic_path, atomic_write_bytes
 
     mesh, bvh = _aov_scene()

@@ -28,8 +28,8 @@ def test_help_on_every_command(capsys):
 
 
 def test_lamps_json_matches_library(capsys):
-    from render.lampfigures import lamp_figures
-    from render.lamps import get_lamp
+    from render.colour.lamp_figures import lamp_figures
+    from render.colour.lamps import get_lamp
 
     assert main(["lamps", "sodium-low-pressure", "led-3000k-cie-b2", "--json"]) == 0
     rows = json.loads(capsys.readouterr().out)
@@ -60,7 +60,7 @@ def test_photometry_summary_and_plot(tmp_path, capsys):
 def test_render_writes_absolute_exr_and_pngs_with_metadata(tmp_path, capsys):
     from PIL import Image
 
-    from render.hdr import read_exr
+    from render.output.hdr import read_exr
     from render.study import Study
 
     scene = SCENES / "point_over_plane.toml"
@@ -122,7 +122,7 @@ def test_scene_without_luminaires_renders_dark_with_a_note(tmp_path, capsys):
                      'position_m = [1.0, 0.0]\ntarget_m = [10.0, 0.0, 0.0]\nresolution = [32, 18]\n')
     assert main(["render", str(scene), "--out", str(tmp_path), "--mode", "adapted"]) == 0
     assert "no luminaires" in capsys.readouterr().err
-    from render.hdr import read_exr
+    from render.output.hdr import read_exr
 
     colorimetry, _ = read_exr(tmp_path / "v-scene.exr")
     assert np.all(colorimetry.xyz_cd_m2 == 0.0)  # direct light only: no source, no light

@@ -2,7 +2,7 @@
 real vision chain.
 
 Sources named beside each check. The chain checks run CIE 13.3 test colour samples
-(colour-science ``SDS_TCS['CIE 1995']``) through render.vision.synthetic and the vision stage's
+(colour-science ``SDS_TCS['CIE 1995']``) through synthetic and the vision stage's
 own step functions (glare, MES2 adaptation, rod intrusion, acuity, chromatic adaptation).
 """
 
@@ -31,12 +31,13 @@ from render.analysis import (
     ring_background,
     white_mesopic_cd_m2,
 )
-from render.analysis import pictures
+from render.output import colour_pictures as pictures
 from render.analysis.colours import adapted_xyz, daylight_white_xyz, lab_to_lch, viewing_white_xyz, xyz_to_lab
 from render.analysis.naming import munsell_to_lab
-from render.lamps import get_lamp
-from render.spectra import N_BINS, WAVELENGTHS_NM, band_power
-from render.vision import AdaptationState, ObserverSettings, ViewGeometry, ViewLight, render_display, synthetic
+from render.colour.lamps import get_lamp
+from render.colour.spectra import N_BINS, WAVELENGTHS_NM, band_power
+import synthetic
+from render.vision import AdaptationState, ObserverSettings, ViewGeometry, ViewLight, render_display
 from render.vision.display import linear_srgb_to_xyz
 
 TCS_KEYS = [f"TCS0{i}" for i in range(1, 9)]
@@ -165,8 +166,8 @@ def test_reference_white_and_mixture():
     assert daylight_white_xyz()[1] == pytest.approx(100.0)
     # XYZ is linear in reflectance (analytic): the pixel-weighted mixture's colour is the Lab of
     # the weighted mean XYZ, which is also what object_colour_stats averages.
-    from render.materials import d65_on_grid
-    from render.observers import tristimulus
+    from render.colour.materials import d65_on_grid
+    from render.colour.observers import tristimulus
 
     refl = tcs_reflectances(["TCS03", "TCS07"])
     w = np.array([30.0, 10.0])
@@ -363,7 +364,7 @@ def test_name_table_and_changes():
 
 def test_spectrum_strip_of_low_pressure_sodium_is_one_line():
     # The model puts 1.5 of 1.5216 relative power units in the D doublet (588.995, 589.592 nm,
-    # NIST ASD), i.e. 98.6 % (render.lamps; analytic from the line list).
+    # NIST ASD), i.e. 98.6 % (render.colour.lamps; analytic from the line list).
     strip = pictures.spectrum_strip(get_lamp("sodium-low-pressure").spd, width_px=800)
     px_nm = 400.0 / 800
     near = np.abs(strip.wavelengths_nm - 589.3) <= 2.0  # ±4 pixels at 0.5 nm per pixel

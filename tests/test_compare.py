@@ -20,7 +20,7 @@ from pathlib import Path
 import pytest
 
 from render.cli import main
-from render.compare import run_comparison
+from render.output.comparison import run_comparison
 
 ROOT = Path(__file__).resolve().parents[1]
 SCENES = ROOT / "scenes" / "tests"
@@ -95,7 +95,7 @@ def test_rerun_is_byte_identical(run, tmp_path):
 
 
 def test_command_line_setup_syntax(tmp_path):
-    from render.compare import parse_setup
+    from render.output.comparison import parse_setup
     from render.errors import InputError
     from render.scene import load_scene
 

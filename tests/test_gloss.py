@@ -1,4 +1,4 @@
-"""The specular layer for wet surfaces (render.gloss).
+"""The specular layer for wet surfaces (render.light.gloss).
 
 Sources: the GGX distribution is normalised, ∫ D(h) cos θ_h dω_h = 1 (Walter et al. 2007, eq. 4;
 analytic); Fresnel reflectance of water at normal incidence ((n-1)/(n+1))² (analytic); for a
@@ -14,7 +14,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from render.gloss import WATER_F0, ggx_d, schlick_fresnel, specular_brdf
+from render.light.gloss import WATER_F0, ggx_d, schlick_fresnel, specular_brdf
 from render.study import Study
 
 SCENES = Path(__file__).resolve().parents[1] / "scenes" / "tests"
@@ -68,7 +68,8 @@ def test_highlight_at_the_mirror_point_and_relight_is_exact():
 
 
 def test_wet_street_flag_adds_a_water_layer(tmp_path):
-    from render.scene import compile_scene, load_scene
+    from render.geometry.build import compile_scene
+    from render.scene import load_scene
 
     p = tmp_path / "wet.toml"
     p.write_text('[street]\nlength_m = 20.0\ncarriageway_width_m = 6.0\nwet = true\n\n[[views]]\nname = "v"\n'

@@ -1,4 +1,4 @@
-"""Tests of the lamp library (render.lamps) and lamp figures (render.lampfigures).
+"""Tests of the lamp library (render.colour.lamps) and lamp figures (render.colour.lamp_figures).
 
 Each check names what it is checked against. "Common practice, no source" marks lighting rules
 of thumb; "from memory" marks values written down without the document at hand.
@@ -16,14 +16,14 @@ import numpy as np
 import pytest
 
 from render.errors import InputError
-from render.lampfigures import (
+from render.colour.lamp_figures import (
     FIGURE_KEYS,
     figures_json,
     format_lamp_table,
     lamp_figures,
     plot_lamp_spectrum,
 )
-from render.lamps import (
+from render.colour.lamps import (
     LAMP_TYPES,
     Lamp,
     LineSpectrum,
@@ -32,8 +32,8 @@ from render.lamps import (
     get_lamp,
     load_lamp_file,
 )
-from render.observers import photopic, scale_to_photopic, sp_ratio
-from render.spectra import N_BINS, WAVELENGTHS_NM, band_power, centroid_nm
+from render.colour.observers import photopic, scale_to_photopic, sp_ratio
+from render.colour.spectra import N_BINS, WAVELENGTHS_NM, band_power, centroid_nm
 
 colour = pytest.importorskip("colour")
 

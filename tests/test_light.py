@@ -17,7 +17,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from render.observers import KM_LM_PER_W, KM_SCOTOPIC_LM_PER_W, cmfs_xyz, photopic_lef, scotopic_lef
+from render.colour.observers import KM_LM_PER_W, KM_SCOTOPIC_LM_PER_W, cmfs_xyz, photopic_lef, scotopic_lef
 from render.study import Study
 
 SCENES = Path(__file__).resolve().parents[1] / "scenes" / "tests"
@@ -59,8 +59,8 @@ def test_rendered_luminance_is_rho_e_over_pi(plane):
     np.testing.assert_allclose(b.value_cd_m2[surf, 0] * math.pi, e_expected, rtol=5e-3)
     # Colorimetry: Y = ρ_v·E/π with ρ_v the luminous reflectance under the lamp, computed here
     # independently from the material and lamp spectra: Σρ s V / Σ s V.
-    from render.lamps import get_lamp
-    from render.materials import get_material
+    from render.colour.lamps import get_lamp
+    from render.colour.materials import get_material
 
     rho = get_material("object-white").reflectance
     s = get_lamp("led-4000k-cie-b3").spd
@@ -80,7 +80,7 @@ def test_rendered_luminance_is_rho_e_over_pi(plane):
 
 
 def test_flux_conservation_in_closed_box():
-    from render.photometry import luminous_flux_lm
+    from render.light.photometry import luminous_flux_lm
 
     study = Study(SCENES / "closed_box.toml")
     lights = study.lights()
@@ -139,8 +139,8 @@ def test_dimming_and_lumens_scale_linearly(plane):
 
 def test_visible_opening_has_intensity_over_projected_area():
     # Look up at the opening from below: L = I / (A·cos θ) (definition of luminance).
-    from render.integrator import cast_view, evaluate_light
-    from render.cameras import Camera
+    from render.light.integrator import cast_view, evaluate_light
+    from render.rays.cameras import Camera
 
     study = Study(SCENES / "point_over_plane.toml")
     lights = study.lights()

@@ -18,7 +18,7 @@ import numpy as np
 import pytest
 
 from render.errors import InputError
-from render.materials import (
+from render.colour.materials import (
     CLIP_TOLERANCE,
     MATERIALS_ENV,
     REQUIRED_KEYS,
@@ -32,7 +32,7 @@ from render.materials import (
     material_table,
     plot_material,
 )
-from render.spectra import N_BINS, WAVELENGTHS_NM
+from render.colour.spectra import N_BINS, WAVELENGTHS_NM
 
 # colour-science warns when it aligns a 360-830 nm sample to D65's 300-780 nm; expected here.
 pytestmark = pytest.mark.filterwarnings("ignore::colour.utilities.ColourRuntimeWarning")

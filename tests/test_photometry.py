@@ -1,4 +1,4 @@
-"""Tests for render.photometry (LM-63 reading, symmetry, flux, orientation, plots).
+"""Tests for render.light.photometry (LM-63 reading, symmetry, flux, orientation, plots).
 
 Sources of the checks:
 * LM-63 field order and angle conventions: ANSI/IESNA LM-63-2002 and IES LM-63-2019
@@ -19,7 +19,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from render import photometry as P
+from render.light import photometry as P
 from render.errors import InputError
 
 DATA = Path(__file__).parent / "data" / "photometry"

@@ -1,9 +1,9 @@
-"""The consultation report (render.report), without a browser.
+"""The consultation report (render.output.report), without a browser.
 
 The HTML is checked with Python's own parser (``html.parser`` of the standard library), so what
 "renders as text" means here is what an HTML5 tokenizer makes of the page, not what our code
 thinks it wrote. Inputs are synthetic (numpy-generated images written with imageio); the lamp
-figures are real ones from ``render.lampfigures`` for built-in lamps and for a 520 nm line lamp,
+figures are real ones from ``render.colour.lamp_figures`` for built-in lamps and for a 520 nm line lamp,
 whose CCT is undefined by CIE S 017:2020, 17-23-068 Note 1 (see tests/test_lamps.py).
 """
 
@@ -23,9 +23,9 @@ import imageio.v3 as iio
 import numpy as np
 import pytest
 
-from render.lampfigures import lamp_figures
-from render.lamps import get_lamp, load_lamp_file
-from render.report import DASH, LAMP_COLUMNS, MINUS, RULES, format_value, write_report
+from render.colour.lamp_figures import lamp_figures
+from render.colour.lamps import get_lamp, load_lamp_file
+from render.output.report import DASH, LAMP_COLUMNS, MINUS, RULES, format_value, write_report
 
 HOSTILE_SCRIPT = "<script>alert(1)</script>"
 HOSTILE_ATTR = '"><img src=x onerror=alert(1)>'

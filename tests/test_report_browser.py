@@ -29,7 +29,7 @@ import numpy as np
 import pytest
 
 from render.fileio import atomic_write_bytes
-from render.report import write_report
+from render.output.report import write_report
 from test_report import make_inputs
 
 CHROMIUM = Path("/usr/bin/chromium")

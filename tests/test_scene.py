@@ -14,7 +14,8 @@ import numpy as np
 import pytest
 
 from render.errors import InputError
-from render.scene import check_scene, compile_scene, load_scene
+from render.geometry.build import compile_scene
+from render.scene import check_scene, load_scene
 
 ROOT = Path(__file__).resolve().parents[1]
 SCENES = ROOT / "scenes"
@@ -266,8 +267,8 @@ def test_column_puts_lens_at_luminaire_position():
 
 def test_default_slot_materials_exist():
     # Slots the scene does not assign fall back to these library materials.
-    from render.materials import material_library
-    from render.scene.compile import DEFAULT_SLOT_MATERIALS
+    from render.colour.materials import material_library
+    from render.geometry.build import DEFAULT_SLOT_MATERIALS
 
     missing = sorted(set(DEFAULT_SLOT_MATERIALS.values()) - set(material_library()))
     assert not missing, missing

@@ -1,4 +1,4 @@
-"""Tests for render.shapes (primitives, OBJ reader, transforms) and render.objects (street
+"""Tests for render.geometry.shapes (primitives, OBJ reader, transforms) and render.geometry.objects (street
 objects and their parameter registry).
 
 Check values come from analytic geometry; each check names its source beside it. Closedness
@@ -16,10 +16,10 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from render import objects as O
-from render import shapes as S
+from render.geometry import objects as O
+from render.geometry import shapes as S
 from render.errors import InputError
-from render.geometry import face_normals, flat_normals
+from render.geometry.mesh import face_normals, flat_normals
 
 DATA = Path(__file__).parent / "data" / "obj"
 

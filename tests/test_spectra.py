@@ -1,4 +1,4 @@
-"""Tests of render.spectra (the grid, moving spectra onto it) and render.observers.
+"""Tests of render.colour.spectra (the grid, moving spectra onto it) and render.colour.observers.
 
 Each check names what it is checked against: analytic results, CIE tables (as bundled with
 colour-science) or colour-science's own computations.
@@ -11,8 +11,8 @@ import warnings
 import numpy as np
 import pytest
 
-from render.lamps import density_on_grid
-from render.observers import (
+from render.colour.lamps import density_on_grid
+from render.colour.observers import (
     KM_LM_PER_W,
     KM_SCOTOPIC_LM_PER_W,
     cmfs_xyz,
@@ -25,7 +25,7 @@ from render.observers import (
     sp_ratio,
     tristimulus,
 )
-from render.spectra import (
+from render.colour.spectra import (
     BIN_EDGES_NM,
     N_BINS,
     WAVELENGTHS_NM,
@@ -58,7 +58,7 @@ def _cct_ohno(XYZ):
 
 def _trapezoid_clipped(x, y, lo, hi):
     """Analytic integral of the piecewise-linear function through (x, y), zero outside
-    [x0, xn], over [lo, hi] -- written independently of render.spectra."""
+    [x0, xn], over [lo, hi] -- written independently of render.colour.spectra."""
     total = 0.0
     for x0, x1, y0, y1 in zip(x[:-1], x[1:], y[:-1], y[1:]):
         a, b = max(x0, lo), min(x1, hi)
@@ -192,7 +192,7 @@ def test_observer_tables_match_colour_science_at_the_bin_centres():
 
 def test_equal_energy_sp_ratio_vs_independent_integration():
     # Reference library: integrate colour-science's V(λ) and V'(λ) tables directly with the
-    # trapezoid rule over 380-780 nm (independent of render.observers); equal-energy S/P is
+    # trapezoid rule over 380-780 nm (independent of render.colour.observers); equal-energy S/P is
     # 1700·∫V' / 683·∫V.
     from colour.colorimetry import SDS_LEFS_PHOTOPIC, SDS_LEFS_SCOTOPIC
 

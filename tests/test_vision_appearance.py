@@ -10,8 +10,8 @@ import colour
 import numpy as np
 import pytest
 
-from render.observers import cmfs_xyz
-from render.vision import synthetic
+from render.colour.observers import cmfs_xyz
+import synthetic
 from render.vision.adaptation import adaptation_state
 from render.vision.appearance import (
     CAO_2008_CONE_PEAKS,

@@ -16,10 +16,10 @@ import numpy as np
 import pytest
 from PIL import Image
 
-from render import observers
-from render.spectra import WAVELENGTHS_NM, deposit_lines
+from render.colour import observers
+from render.colour.spectra import WAVELENGTHS_NM, deposit_lines
 from render.vision import ViewLight, ObserverSettings, ViewGeometry, render_display
-from render.vision import synthetic
+import synthetic
 from render.vision.display import (
     chromatic_adaptation_cat16,
     display_white_xyz,
@@ -224,9 +224,9 @@ def test_incomplete_adaptation_keeps_coloured_light_coloured():
     # white's own light (D65) the step is the identity.
     import colour
 
-    from render.lamps import get_lamp
+    from render.colour.lamps import get_lamp
     from render.vision.display import chromatic_adaptation_incomplete, incomplete_adaptation_gains
-    from render.vision.synthetic import surface_buffers
+    from synthetic import surface_buffers
 
     grey = np.full((1, 401), 0.2)
     xyz, _, white, _ = surface_buffers(grey, get_lamp("sodium-low-pressure").spd, 1.0)

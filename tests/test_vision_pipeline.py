@@ -14,7 +14,7 @@ from PIL import Image
 
 from render.errors import InputError
 from render.vision import ViewLight, ObserverSettings, ViewGeometry, render_display, shared_display
-from render.vision import synthetic
+import synthetic
 from render.vision.display import linear_srgb_to_xyz
 from render.vision.tonemap import blackwell_threshold_cd_m2, highlight_rolloff, ward_scale_factor
 

@@ -502,7 +502,7 @@ wavelength_nm,reflectance
 ...
 ```
 
-Rules checked when a file is read (`render.materials.load_material_csv`; each mistake is reported
+Rules checked when a file is read (`render.colour.materials.load_material_csv`; each mistake is reported
 with the file and line):
 
 - every line before the column row is a `# key: value` line (blank lines are ignored);
@@ -517,7 +517,7 @@ with the file and line):
 **Sampling.** Files keep their source's sampling (10 nm for earthlib and the ColorChecker, 5 nm
 for the CIE test colour samples); nothing is resampled or smoothed when a file is built. When a
 file is read, the samples are joined by straight lines and averaged over each 1 nm bin of the
-lampcast grid (`render.spectra.bin_mean`). Keeping the source samples makes every file checkable
+lampcast grid (`render.colour.spectra.bin_mean`). Keeping the source samples makes every file checkable
 against its source, value for value.
 
 **Completion.** Where a source does not cover 380-780 nm, the missing end is filled by holding the
@@ -582,7 +582,7 @@ The build is deterministic (same inputs, byte-identical files).
 def render_readme(directory: Path) -> str:
     if str(REPO) not in sys.path:
         sys.path.insert(0, str(REPO))
-    from render.materials import material_library, material_table
+    from render.colour.materials import material_library, material_table
 
     short_licence = {
         LIC_UCSB: "MIT (earthlib); UCSB data, credit the source",

@@ -18,11 +18,12 @@ from pathlib import Path
 import numpy as np
 
 ROOT = Path(__file__).resolve().parents[1]
-if str(ROOT) not in sys.path:
-    sys.path.insert(0, str(ROOT))
+for _folder in (ROOT, ROOT / "tests"):  # the package, and the synthetic patch charts of the tests
+    if str(_folder) not in sys.path:
+        sys.path.insert(0, str(_folder))
 
 from render.vision import ViewLight, ObserverSettings, ViewGeometry, render_display, shared_display  # noqa: E402
-from render.vision import synthetic  # noqa: E402
+import synthetic  # noqa: E402
 from render.vision.display import write_png  # noqa: E402
 
 LEVELS_CD_M2 = (10.0, 3.0, 1.0, 0.3, 0.1, 0.03, 0.01)

@@ -6,7 +6,7 @@ The four distributions are models of our own, not data of any product (each file
 its ``[TEST]`` and ``[MANUFAC]`` keywords and lists the model parameters). They are written as
 ANSI/IESNA LM-63-2002 type C files with relative photometry whose rated lamp flux equals the
 luminaire flux (light output ratio 1, the usual convention for LED luminaires): each table is
-scaled so that the exact integral of its bilinear interpolant (render.photometry.luminous_flux_lm)
+scaled so that the exact integral of its bilinear interpolant (render.light.photometry.luminous_flux_lm)
 equals the rated lumens before the values are rounded to 0.00001 cd.
 
 Directions in the luminaire frame (x = C 0, y = C 90 "street side", z up, γ from nadir):
@@ -30,7 +30,7 @@ ROOT = Path(__file__).resolve().parents[1]
 if str(ROOT) not in sys.path:
     sys.path.insert(0, str(ROOT))
 
-from render.photometry import luminous_flux_lm, parse_lm63, summarise  # noqa: E402
+from render.light.photometry import luminous_flux_lm, parse_lm63, summarise  # noqa: E402
 
 GENERIC_TEXT = "lampcast generic model, not a product"
 

@@ -21,8 +21,8 @@ ROOT = Path(__file__).resolve().parents[1]
 if str(ROOT) not in sys.path:
     sys.path.insert(0, str(ROOT))
 
-from render.colorimetry import resolve  # noqa: E402
-from render.lights import channel_factors  # noqa: E402
+from render.colour.colorimetry import resolve  # noqa: E402
+from render.light.luminaires import channel_factors  # noqa: E402
 from render.study import RenderedView, Study  # noqa: E402
 from render.vision.display import write_png  # noqa: E402
 

@@ -5,7 +5,8 @@
   :func:`colour_analysis` that assembles them.
 * :mod:`render.analysis.naming` -- basic colour terms (Berlin & Kay) from the nearest
   Centore (2020) prototype in CAM16-UCS; the "name it" table.
-* :mod:`render.analysis.pictures` -- outlined view, swatch sheet, ΔE00 heat map, spectrum
+* :mod:`render.analysis.run` -- one view under several setups to JSON (pictures in
+  :mod:`render.output.colour_pictures`): outlined view, swatch sheet, ΔE00 heat map, spectrum
   strips (PNG, written atomically).
 """
 

@@ -100,8 +100,8 @@ from typing import Mapping, Sequence
 
 import numpy as np
 
-from render import observers
-from render.spectra import N_BINS
+from render.colour import observers
+from render.colour.spectra import N_BINS
 
 #: ΔE00 below which two colours are taken as indistinguishable (≈ 1 JND; common practice).
 IMPERCEPTIBLE_DE00 = 1.0
@@ -131,8 +131,8 @@ SIGNIFICANT_LUMINANCE = 4
 
 @lru_cache(maxsize=1)
 def daylight_white_xyz() -> np.ndarray:
-    """XYZ of the perfect diffuser under CIE D65, Y = 100, CIE 1931 2° (render.observers)."""
-    from render.materials import d65_on_grid
+    """XYZ of the perfect diffuser under CIE D65, Y = 100, CIE 1931 2° (render.colour.observers)."""
+    from render.colour.materials import d65_on_grid
 
     xyz = observers.tristimulus(d65_on_grid())
     out = 100.0 * xyz / xyz[1]
@@ -169,7 +169,7 @@ def lab_to_lch(lab) -> np.ndarray:
 
 def reference_xyz(reflectance) -> np.ndarray:
     """XYZ (..., 3) of reflectance(s) (..., N_BINS) under D65, perfect diffuser Y = 100."""
-    from render.materials import d65_on_grid
+    from render.colour.materials import d65_on_grid
 
     rho = np.asarray(reflectance, dtype=np.float64)
     if rho.shape[-1] != N_BINS:
@@ -181,8 +181,8 @@ def reference_xyz(reflectance) -> np.ndarray:
 def reference_colour(reflectance) -> np.ndarray:
     """Daylight reference colour: CIELAB of reflectance(s) under CIE D65.
 
-    CIE 1931 2° observer (:func:`render.observers.cmfs_xyz`), D65 from colour-science on the
-    lampcast grid (:func:`render.materials.d65_on_grid`), perfect diffuser Y = 100 and
+    CIE 1931 2° observer (:func:`render.colour.observers.cmfs_xyz`), D65 from colour-science on the
+    lampcast grid (:func:`render.colour.materials.d65_on_grid`), perfect diffuser Y = 100 and
     reference white = that diffuser: the colour of the surface at a comfortable photopic level
     with complete adaptation (CIELAB is relative, so the level itself does not enter).
 

@@ -73,7 +73,7 @@ def analyse_view_colours(study, rendered: list, displays: list, observer, labels
 def colour_pictures(result: dict, rendered: list, displays: list, lamps: list[tuple[str, np.ndarray]], out_dir: Path,
                     prefix: str = "", text: dict[str, str] | None = None) -> dict[str, Path]:
     """Outlined view, swatch sheet, ΔE00 heat map and spectrum strips for ``result``."""
-    from render.analysis import pictures
+    from render.output import colour_pictures as pictures
 
     out_dir.mkdir(parents=True, exist_ok=True)
     names = [o["name"] for o in result["objects"]]

@@ -232,7 +232,7 @@ class _Context:
         if ref is None:
             return
         if self._materials is None:
-            from render.materials import material_library
+            from render.colour.materials import material_library
 
             self._materials = set(material_library())
         if ref not in self._materials:
@@ -246,7 +246,7 @@ class _Context:
             if not target.is_file():
                 self.problems.add(where, f"lamp file {str(target)!r} does not exist")
                 return
-            from render.lamps import load_lamp_file
+            from render.colour.lamps import load_lamp_file
 
             try:
                 load_lamp_file(target)
@@ -254,7 +254,7 @@ class _Context:
                 self.problems.extend(err)
             return
         if self._lamps is None:
-            from render.lamps import builtin_lamps
+            from render.colour.lamps import builtin_lamps
 
             self._lamps = set(builtin_lamps())
         if ref not in self._lamps:
@@ -268,7 +268,7 @@ class _Context:
             if not target.is_file():
                 self.problems.add(where, f"photometric file {str(target)!r} does not exist")
                 return
-            from render.photometry import load_photometry
+            from render.light.photometry import load_photometry
 
             try:
                 load_photometry(str(target))
@@ -276,7 +276,7 @@ class _Context:
                 self.problems.extend(err)
             return
         if self._photometry is None:
-            from render.photometry import builtin_photometry_ids
+            from render.light.photometry import builtin_photometry_ids
 
             self._photometry = set(builtin_photometry_ids())
         if ref not in self._photometry:
@@ -375,8 +375,8 @@ def _position(value, where: str, ctx: _Context, street: Street | None, default_h
 
 
 def _objects(entries: list, ctx: _Context, street: Street | None) -> list[StreetObject]:
-    from render.objects import OBJECT_BUILDERS, validate_params
-    from render.scene.compile import object_slots
+    from render.geometry.objects import OBJECT_BUILDERS, validate_params
+    from render.geometry.build import object_slots
 
     out = []
     for i, entry in enumerate(entries):
@@ -424,7 +424,7 @@ def _geometry(entries: list, ctx: _Context) -> list[StreetObject]:
         slots = None
         if kind == "obj" and g["file"] is not None:
             target = ctx.resolve(g["file"])
-            from render.shapes import load_obj
+            from render.geometry.shapes import load_obj
 
             try:
                 parts = load_obj(target, scale=g["scale"] or 1.0, up_axis=g["up_axis"] or "z")
@@ -448,7 +448,7 @@ def _geometry(entries: list, ctx: _Context) -> list[StreetObject]:
 
 
 def _frontages(entries: list, ctx: _Context) -> list[Frontage]:
-    from render.scene.compile import object_slots
+    from render.geometry.build import object_slots
 
     out = []
     for i, entry in enumerate(entries):
@@ -561,8 +561,8 @@ def _expand_row(r: dict, where: str, street: Street) -> list[Luminaire]:
 
 def _gloss(entries: list, ctx: _Context, street: Street | None) -> dict[str, tuple[float, float]]:
     """Specular layers per material: ``[[gloss]]`` entries, and ``street.wet`` for the street's
-    walking and driving surfaces (water film, :mod:`render.gloss`)."""
-    from render.gloss import WATER_F0, WET_ROUGHNESS
+    walking and driving surfaces (water film, :mod:`render.light.gloss`)."""
+    from render.light.gloss import WATER_F0, WET_ROUGHNESS
 
     out: dict[str, tuple[float, float]] = {}
     if street is not None and street.wet:
@@ -673,7 +673,7 @@ def load_scene(path: str | Path) -> Scene:
 def check_scene(path: str | Path) -> Scene:
     """Load a scene and compile its geometry (so that every mistake a render would meet is
     found), without casting a ray."""
-    from render.scene.compile import compile_scene
+    from render.geometry.build import compile_scene
 
     scene = load_scene(path)
     compile_scene(scene)

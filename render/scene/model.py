@@ -40,7 +40,7 @@ class Street:
     line_material: str
     left: StreetSide  # +y
     right: StreetSide  # -y
-    wet: bool = False  # water film on carriageway, footways and lines (render.gloss)
+    wet: bool = False  # water film on carriageway, footways and lines (render.light.gloss)
 
     def side(self, name: str) -> StreetSide:
         return self.left if name == "left" else self.right

@@ -136,7 +136,7 @@ def _fallback_white() -> tuple[tuple[float, float, float], float]:
     """CIE D65 (white XYZ with Y = 1, S/P) on the lampcast grid, for a black field."""
     import colour
 
-    from render import observers
+    from render.colour import observers
 
     sd = colour.SDS_ILLUMINANTS["D65"].copy().align(colour.SpectralShape(380, 780, 1))
     spd = np.asarray(sd.values, dtype=np.float64)

@@ -94,7 +94,7 @@ ROD_STRENGTH = np.array([0.2, 0.2, 0.3])
 @lru_cache(maxsize=1)
 def cone_peak_sensitivities() -> np.ndarray:
     """Peak of each cone fundamental (L, M, S) of :data:`XYZ_TO_LMS` on the lampcast grid."""
-    from render.observers import cmfs_xyz
+    from render.colour.observers import cmfs_xyz
 
     return (cmfs_xyz() @ XYZ_TO_LMS.T).max(axis=0)
 
@@ -111,8 +111,8 @@ def extra_channel_weights() -> np.ndarray:
     """
     import colour
 
-    from render.observers import KM_LM_PER_W, photopic_lef
-    from render.spectra import BIN_WIDTH_NM, WAVELENGTHS_NM
+    from render.colour.observers import KM_LM_PER_W, photopic_lef
+    from render.colour.spectra import BIN_WIDTH_NM, WAVELENGTHS_NM
 
     sd = colour.colorimetry.MSDS_CMFS_LMS["Smith & Pokorny 1975 Normal Trichromats"].copy()
     sd = sd.align(colour.SpectralShape(float(WAVELENGTHS_NM[0]), float(WAVELENGTHS_NM[-1]), BIN_WIDTH_NM))

@@ -12,7 +12,7 @@ and ``m`` belongs to the *adaptation* state through ``m = a + b·log10(L_mes)`` 
 (scotopic, L_mes = L_s) when L_mes ≤ 0.005 cd/m².
 
 ``V'(λ0)`` is the scotopic efficiency at 555 nm; CIE 191 writes it as 683/1699. Here it is
-``Km / K'm`` with lampcast's constants (683/1700, :mod:`render.observers`), so that the term
+``Km / K'm`` with lampcast's constants (683/1700, :mod:`render.colour.observers`), so that the term
 ``L_s·V'(λ0)`` equals 683·∫L(λ)V'(λ)dλ whichever K'm the scotopic buffer was made with, and S/P
 = 1 gives L_mes = L_p exactly. The difference from 683/1699 in the denominator is 0.06 %.
 
@@ -32,7 +32,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from render.observers import KM_LM_PER_W, KM_SCOTOPIC_LM_PER_W
+from render.colour.observers import KM_LM_PER_W, KM_SCOTOPIC_LM_PER_W
 
 #: MES2 constants a, b of ``m = a + b·log10(L_mes)`` (CIE 191:2010; from memory).
 MES2_A = 0.7670

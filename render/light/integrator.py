@@ -10,12 +10,12 @@ Km·Σ s_c V Δλ = 1):
 so a view needs only, per camera sample, the value ``E_c/π`` (the luminance a perfect white
 diffuser would have, cd/m²) for each channel and *which* reflectance it was. Visible luminous
 openings are stored the same way with the luminance of the opening and the response of a white
-(ρ = 1) surface. The colorimetric tables R (:mod:`render.colorimetry`) are computed once on the
+(ρ = 1) surface. The colorimetric tables R (:mod:`render.colour.colorimetry`) are computed once on the
 1 nm grid, so the spectral resolution costs nothing per pixel, and relighting (new lamps,
 lumens or dimming per group) needs no ray at all.
 
 Point illuminance follows the inverse-square and cosine laws, E = I(C, γ)·cos θ / d², with
-I from the luminaire's LM-63 table (:mod:`render.photometry`) in its oriented frame and a shadow
+I from the luminaire's LM-63 table (:mod:`render.light.photometry`) in its oriented frame and a shadow
 ray per contributing luminaire.
 
 Luminaires whose *unshadowed* contribution at a point is below ``negligible_lx`` are skipped
@@ -35,10 +35,10 @@ import numba
 import numpy as np
 from numba import prange
 
-from render.bvh import BVH, build_bvh, face_forward, geometric_normal, intersect_any, intersect_closest, interpolate_normal
-from render.geometry import TriangleMesh
-from render.lights import LuminaireSet
-from render.photometry import direction_to_c_gamma, intensity_lookup
+from render.rays.bvh import BVH, build_bvh, face_forward, geometric_normal, intersect_any, intersect_closest, interpolate_normal
+from render.geometry.mesh import TriangleMesh
+from render.light.luminaires import LuminaireSet
+from render.light.photometry import direction_to_c_gamma, intensity_lookup
 
 #: Default bound below which a luminaire's unshadowed contribution is skipped, lx. 1e-3 lx is
 #: far below the lowest maintained-illuminance minimum of the residential lighting classes
@@ -307,7 +307,7 @@ def direct_illuminance_lx(
     points_m, normals
         (N, 3) positions (m) and unit normals of the receiving surface (the side that receives).
     lights
-        From :func:`render.lights.luminaire_set`.
+        From :func:`render.light.luminaires.luminaire_set`.
     bvh
         Occluders for shadow rays (None: no shadows).
     active
@@ -380,7 +380,7 @@ class LightBuffers:
     object_id : (S,) int32 -- object index of the surface seen (-1 none).
     material_names : names behind ``response``.
     spec_cd_m2 : (S, C) float32 -- per channel, the luminance of the specular layer
-        (:mod:`render.gloss`; spectrally neutral, white response), at full output.
+        (:mod:`render.light.gloss`; spectrally neutral, white response), at full output.
     material_gloss : (M, 2) -- per material index, the specular layer's F0 and GGX α
         (F0 = 0: none).
     """
@@ -415,7 +415,7 @@ def cast_view(mesh: TriangleMesh, bvh: BVH, lights: LuminaireSet, camera, spp: i
 
     Returns a :class:`LightBuffers` with zero ``value_cd_m2``; fill it with
     :func:`evaluate_light`."""
-    from render.cameras import camera_rays, tile_pixels
+    from render.rays.cameras import camera_rays, tile_pixels
 
     W, H = camera.width_px, camera.height_px
     S = W * H * spp
@@ -518,7 +518,7 @@ def evaluate_light(buffers: LightBuffers, lights: LuminaireSet, bvh: BVH, *, neg
         diffuse = e.copy()
         chunk_spec = np.zeros((sl.stop - sl.start, lights.n_channels))
         if np.any(glossy):
-            from render.gloss import schlick_fresnel, specular_brdf
+            from render.light.gloss import schlick_fresnel, specular_brdf
 
             g = np.nonzero(glossy)[0]
             n_g = nrm[p[g]]

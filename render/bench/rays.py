@@ -1,12 +1,12 @@
 """Benchmarks (speed is measured here, never in the tests).
 
     python -m render.bench rays [--width 960 --height 540 --spp 1 --seed 0 ...]
-    python -m render.bench light [--width 1280 --height 720 --spp 4 ...]   (render.bench_light)
+    python -m render.bench light [--width 1280 --height 720 --spp 4 ...]   (render.bench.light)
 
 ``rays`` builds the BVH of (a) the demo street, when the scene loader and ``scenes/demo/*.toml``
 are present, and (b) a seeded synthetic stress scene of >= 250 000 triangles (random boxes and
 spheres on a ground plane); then it casts primary rays from a camera (pixels in 4 x 4 blocks,
-as :mod:`render.aov` casts them), shadow rays from the primary hits to a point light, and
+as :mod:`render.rays.aov` casts them), shadow rays from the primary hits to a point light, and
 incoherent diffuse-bounce rays from the primary hits, and prints rays per second after JIT
 warm-up (best of ``--repeat`` runs, the contenders alternating). When the optional
 ``embreex`` package is importable, the same triangles and rays go through Embree too and the
@@ -25,8 +25,8 @@ from dataclasses import dataclass
 import numba
 import numpy as np
 
-from render.bvh import BVH, build_bvh, intersect_any, intersect_closest
-from render.cameras import Camera, camera_rays, tile_pixels
+from render.rays.bvh import BVH, build_bvh, intersect_any, intersect_closest
+from render.rays.cameras import Camera, camera_rays, tile_pixels
 
 # --------------------------------------------------------------------------------------------
 # Stress scene
@@ -139,7 +139,7 @@ def _bounce_rays(origins, directions, hits, triangles_m, seed, offset_m=1e-4):
     """Incoherent rays: from the primary hits into cosine-distributed random directions about
     the face normal turned towards the eye (a diffuse bounce), origin pushed ``offset_m`` off
     the surface."""
-    from render.bvh import face_forward, geometric_normal
+    from render.rays.bvh import face_forward, geometric_normal
 
     m = hits.hit
     p = origins[m] + hits.t[m, None] * directions[m]
@@ -190,7 +190,7 @@ def _run_case(case: _Case, args) -> None:
     print(f"BVH build {build_s:.3f} s (one core), {bvh.n_nodes} inner nodes, depth {bvh.depth}, SAH cost {bvh.sah_cost:.2f}, arrays {bvh.nbytes / 2**20:.1f} MiB ({bvh.nbytes} B)")
 
     cam = case.camera
-    # Pixels in 4 x 4 blocks, the order render.aov casts them in (consecutive rays coherent).
+    # Pixels in 4 x 4 blocks, the order render.rays.aov casts them in (consecutive rays coherent).
     pixels = tile_pixels(cam, 0, 0, cam.width_px, cam.height_px, block_px=4)
     o, d, _ = camera_rays(cam, args.spp, args.seed, pixels)
     intersect_closest(bvh, o[:1024], d[:1024])  # JIT warm-up
@@ -251,7 +251,8 @@ def _run_case(case: _Case, args) -> None:
 def _demo_case(args) -> _Case | None:
     paths = sorted(glob.glob(os.path.join(args.scenes, "demo", "*.toml")))
     try:
-        from render.scene import compile_scene, load_scene  # written concurrently; may be absent
+        from render.geometry.build import compile_scene
+        from render.scene import load_scene
     except Exception:  # noqa: BLE001
         return None
     if not paths:
@@ -299,9 +300,8 @@ def _warm_threads() -> bool:
     return True
 
 
-def build_parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(prog="python -m render.bench", description="lampcast benchmarks")
-    sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
+def add_parser(sub) -> None:
+    """Register the ``rays`` sub-command on an argparse sub-parser set."""
     rays = sub.add_parser("rays", help="BVH build time and ray-casting throughput (Mrays/s), with an Embree comparison when embreex is installed")
     rays.add_argument("--width", type=int, default=960, help="image width in pixels for the stress scene (default 960; the demo uses its view's size)")
     rays.add_argument("--height", type=int, default=540, help="image height in pixels for the stress scene (default 540)")
@@ -312,16 +312,3 @@ def build_parser() -> argparse.ArgumentParser:
     rays.add_argument("--no-embree", action="store_true", help="skip the Embree comparison")
     rays.add_argument("--no-single", action="store_true", help="skip the single-thread measurement")
     rays.set_defaults(func=cmd_rays)
-    from render.bench_light import add_parser as add_light
-
-    add_light(sub)
-    return parser
-
-
-def main(argv: list[str] | None = None) -> int:
-    args = build_parser().parse_args(argv)
-    return int(args.func(args))
-
-
-if __name__ == "__main__":
-    sys.exit(main())

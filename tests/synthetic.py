@@ -2,7 +2,7 @@
 
 Surfaces of known spectral reflectance (e.g. the colour-science ColorChecker averages) lit by a
 known lamp spectrum are turned into the buffer contract of the stage (absolute XYZ and
-scotopic luminance in cd/m²) with :mod:`render.observers`. A Lambertian surface of reflectance
+scotopic luminance in cd/m²) with :mod:`render.colour.observers`. A Lambertian surface of reflectance
 ρ(λ) under spectral irradiance E(λ) has spectral radiance ρ(λ)E(λ)/π; the lamp spectrum is
 scaled so that a perfect white diffuser has the requested luminance.
 """
@@ -11,8 +11,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from render import observers
-from render.spectra import BIN_WIDTH_NM, WAVELENGTHS_NM
+from render.colour import observers
+from render.colour.spectra import BIN_WIDTH_NM, WAVELENGTHS_NM
 
 
 def _shape():

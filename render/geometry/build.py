@@ -1,7 +1,7 @@
 """Compile a checked :class:`~render.scene.model.Scene` into one triangle soup.
 
 Everything becomes triangles with a material index and an object index
-(:class:`~render.geometry.TriangleMesh`): the street builder's surfaces (carriageway, kerbs,
+(:class:`~render.geometry.mesh.TriangleMesh`): the street builder's surfaces (carriageway, kerbs,
 verges, footways, front gardens, centre line), building fronts, parametric street objects, free
 geometry, markings and luminaire columns. Object indices follow the scene's own names, so later
 analyses can speak of "the blue car".
@@ -15,7 +15,7 @@ from functools import lru_cache
 import numpy as np
 
 from render.errors import input_error
-from render.geometry import TriangleMesh, flat_normals
+from render.geometry.mesh import TriangleMesh, flat_normals
 from render.scene.model import Frontage, Marking, Scene, Street, StreetObject
 
 #: Height of markings above the surface under them, m (keeps them the closest hit).
@@ -152,13 +152,13 @@ def _street(b: _Builder, street: Street) -> None:
 
 
 def _placed(parts, position, heading_deg):
-    from render.shapes import transform_parts
+    from render.geometry.shapes import transform_parts
 
     return transform_parts(parts, position, heading_deg)
 
 
 def _frontage(b: _Builder, f: Frontage, street: Street | None, source: str) -> None:
-    from render.objects import house_front, shop_front
+    from render.geometry.objects import house_front, shop_front
 
     sign = 1.0 if f.side == "left" else -1.0
     building_y = street.building_line_y(f.side) if street is not None else 0.0
@@ -180,7 +180,7 @@ def _frontage(b: _Builder, f: Frontage, street: Street | None, source: str) -> N
 
 
 def _object(b: _Builder, o: StreetObject, source: str) -> None:
-    from render.objects import OBJECT_BUILDERS
+    from render.geometry.objects import OBJECT_BUILDERS
 
     function = OBJECT_BUILDERS[o.kind][0]
     try:
@@ -193,7 +193,7 @@ def _object(b: _Builder, o: StreetObject, source: str) -> None:
 
 
 def _geometry(b: _Builder, o: StreetObject) -> None:
-    from render import shapes
+    from render.geometry import shapes
 
     p = o.params
     kind = o.kind
@@ -215,7 +215,7 @@ def _geometry(b: _Builder, o: StreetObject) -> None:
 
 
 def _marking_polygon(points, z) -> np.ndarray:
-    from render.shapes import flat_region
+    from render.geometry.shapes import flat_region
 
     parts = flat_region(points, z)
     return np.concatenate([p.triangles_m for p in parts])
@@ -267,7 +267,7 @@ def _marking(b: _Builder, m: Marking, street: Street | None) -> None:
 
 
 def _columns(b: _Builder, scene: Scene) -> None:
-    from render.objects import lamp_column
+    from render.geometry.objects import lamp_column
 
     for lum in scene.luminaires:
         if lum.column_base_m is None:
@@ -287,7 +287,7 @@ def _columns(b: _Builder, scene: Scene) -> None:
 
 
 def compile_scene(scene: Scene) -> TriangleMesh:
-    """All the scene's surfaces as one :class:`~render.geometry.TriangleMesh`.
+    """All the scene's surfaces as one :class:`~render.geometry.mesh.TriangleMesh`.
 
     The mesh also carries ``mesh.objects``: one :class:`ObjectInfo` per object index.
     """
@@ -315,7 +315,7 @@ def compile_scene(scene: Scene) -> TriangleMesh:
 @lru_cache(maxsize=None)
 def object_slots(kind: str) -> tuple[str, ...]:
     """Material slot names of a parametric object kind (built once with default parameters)."""
-    from render.objects import OBJECT_BUILDERS
+    from render.geometry.objects import OBJECT_BUILDERS
 
     result = OBJECT_BUILDERS[kind][0]()
     parts = getattr(result, "parts", result)

@@ -19,10 +19,10 @@ from pathlib import Path
 import numba
 import numpy as np
 
-from render.bvh import BVH, interpolate_normal, intersect_closest
-from render.cameras import Camera, camera_rays, iter_tiles, tile_pixels
+from render.rays.bvh import BVH, interpolate_normal, intersect_closest
+from render.rays.cameras import Camera, camera_rays, iter_tiles, tile_pixels
 from render.fileio import atomic_write_bytes
-from render.geometry import TriangleMesh
+from render.geometry.mesh import TriangleMesh
 
 # Pixels per tile edge when casting (bounds memory: tile_px^2 * spp rays at a time).
 _TILE_PX = 128
@@ -100,11 +100,11 @@ def render_aovs(mesh: TriangleMesh, bvh: BVH, camera: Camera, samples_per_pixel:
     mesh
         The triangles (with normals and ids) that ``bvh`` was built from.
     bvh
-        :func:`render.bvh.build_bvh` of ``mesh.triangles_m``.
+        :func:`render.rays.bvh.build_bvh` of ``mesh.triangles_m``.
     camera
         The view.
     samples_per_pixel, seed
-        Stratified jittered samples per pixel and their seed (see :mod:`render.cameras`).
+        Stratified jittered samples per pixel and their seed (see :mod:`render.rays.cameras`).
 
     Returns
     -------

@@ -1,11 +1,11 @@
 """The lamp library: built-in street-lamp spectra and user lamp files.
 
 A :class:`Lamp` holds a **relative spectral power density** on the one grid of
-:mod:`render.spectra` (401 bins of 1 nm, 380-780 nm), **normalised to unit total power**:
+:mod:`render.colour.spectra` (401 bins of 1 nm, 380-780 nm), **normalised to unit total power**:
 ``lamp.spd.sum() * BIN_WIDTH_NM == 1`` over 380-780 nm, so ``lamp.spd`` is in nm⁻¹ (share of the
 visible power per nm). Absolute spectra follow from a photometric quantity, e.g.
-``render.observers.scale_to_photopic(lamp.spd, 12000.0)`` is the spectral flux in W/nm of a lamp
-emitting 12 000 lm, and ``render.observers.photopic(lamp.spd)`` is its luminous efficacy of
+``render.colour.observers.scale_to_photopic(lamp.spd, 12000.0)`` is the spectral flux in W/nm of a lamp
+emitting 12 000 lm, and ``render.colour.observers.photopic(lamp.spd)`` is its luminous efficacy of
 radiation in lm/W.
 
 Built-in lamps
@@ -21,13 +21,13 @@ from three kinds of source, always named in ``Lamp.source``:
   are marked "from memory" or derived from a named table, or analytic bands (amber LEDs).
 
 A tabulated spectrum is a density sampled every 5 nm; it is moved onto the grid with
-:func:`render.spectra.bin_density` (joined by straight lines and integrated over each 1 nm bin,
+:func:`render.colour.spectra.bin_density` (joined by straight lines and integrated over each 1 nm bin,
 so band powers are conserved). A table that starts at 380 nm or ends at 780 nm holds its end
 value over the grid's outer half bin (379.5-380 nm, 780-780.5 nm). At 5 nm a discharge lamp's
 emission lines are smeared into 10 nm wide triangles; the lamps concerned say so in their notes.
 
 A line source is a :class:`LineSpectrum` -- lines ``(wavelength_nm, relative power)`` plus an
-optional continuum density -- put on the grid with :func:`render.spectra.deposit_lines`, which
+optional continuum density -- put on the grid with :func:`render.colour.spectra.deposit_lines`, which
 conserves each line's power and mean wavelength.
 
 Lamp files
@@ -82,7 +82,7 @@ import numpy as np
 
 from render.fileio import read_user_text
 from render.errors import ProblemList, did_you_mean, input_error
-from render.spectra import (
+from render.colour.spectra import (
     BIN_WIDTH_NM,
     N_BINS,
     WAVELENGTH_MAX_NM,
@@ -130,7 +130,7 @@ class Lamp:
     notes
         Caveats: resolution of the data, values from memory, modelling choices.
     spd
-        Relative spectral power density on :data:`render.spectra.WAVELENGTHS_NM`, nm⁻¹,
+        Relative spectral power density on :data:`render.colour.spectra.WAVELENGTHS_NM`, nm⁻¹,
         normalised so that ``spd.sum() * BIN_WIDTH_NM == 1`` (read-only).
     lines
         For modelled line sources: ``(wavelength_nm, share of total power)`` of each line, in
@@ -187,7 +187,7 @@ class LineSpectrum:
 
 
 def density_on_grid(wavelengths_nm, density) -> np.ndarray:
-    """Move a sampled spectral density onto the grid with :func:`render.spectra.bin_density`.
+    """Move a sampled spectral density onto the grid with :func:`render.colour.spectra.bin_density`.
 
     Samples starting exactly at 380 nm (ending exactly at 780 nm) are extended by holding the
     end value over the grid's outer half bin, so that a table covering 380-780 nm fills the

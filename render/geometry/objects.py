@@ -1,9 +1,9 @@
 """Parametric street objects: bins, cars, trees, hedges, bollards, shelters, signs, people,
-lamp columns and building frontages, as :class:`render.shapes.Part` lists with named slots.
+lamp columns and building frontages, as :class:`render.geometry.shapes.Part` lists with named slots.
 
 Every builder works in a local frame: origin at the centre of the ground contact, +x the
 object's forward direction, y to its left, z up, metres; the lowest point is at z = 0. Place
-the result with :func:`render.shapes.transform_parts` (``heading_deg`` turns local +x towards
+the result with :func:`render.geometry.shapes.transform_parts` (``heading_deg`` turns local +x towards
 world +y). What "forward" means per object:
 
 - car, wheelie bin, pedestrian: the way it faces (bonnet, bin front lip, face);
@@ -26,9 +26,9 @@ from typing import Any, Callable, NamedTuple
 
 import numpy as np
 
-from . import shapes as sh
-from .errors import did_you_mean
-from .shapes import Part
+from render.geometry import shapes as sh
+from render.errors import did_you_mean
+from render.geometry.shapes import Part
 
 __all__ = [
     "ParameterError",

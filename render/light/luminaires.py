@@ -2,9 +2,9 @@
 tables, gathered into *light channels*.
 
 A **light channel** is a set of luminaires that share a group, a photometric distribution, a
-lumen rating, a dimming level and a lamp. Light buffers (:mod:`render.integrator`) keep one value
+lumen rating, a dimming level and a lamp. Light buffers (:mod:`render.light.integrator`) keep one value
 per channel, evaluated at full output (dimming 1), so that a lamp swap, a lumens change or a
-dimming change per group is exact without casting a ray (:mod:`render.colorimetry` applies them).
+dimming change per group is exact without casting a ray (:mod:`render.colour.colorimetry` applies them).
 Changing the photometric distribution changes where the light goes and needs a new light
 evaluation (the camera rays are reused).
 """
@@ -92,7 +92,7 @@ def setting_for(setup: Setup | None, group: str) -> GroupSetting:
 
 def luminaire_set(scene: Scene, setup: Setup | None = None) -> LuminaireSet:
     """Resolve the scene's luminaires (with a setup's photometry and lumens, if given)."""
-    from render import photometry as ph
+    from render.light import photometry as ph
 
     problems = ProblemList(scene.path)
     tables: dict[tuple, int] = {}

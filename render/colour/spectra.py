@@ -17,7 +17,7 @@ Two kinds of spectral quantity are distinguished:
 Reflectances (dimensionless, 0-1) are moved with the same band integral divided by the bin width,
 i.e. as the bin's mean value (:func:`bin_mean`).
 
-Photometric constants and the observer functions are in :mod:`render.observers`.
+Photometric constants and the observer functions are in :mod:`render.colour.observers`.
 """
 
 from __future__ import annotations

@@ -23,8 +23,8 @@ import numba
 import numpy as np
 from numba import prange
 
-from render.observers import KM_LM_PER_W, KM_SCOTOPIC_LM_PER_W, cmfs_xyz, photopic_lef, scotopic_lef
-from render.spectra import BIN_WIDTH_NM
+from render.colour.observers import KM_LM_PER_W, KM_SCOTOPIC_LM_PER_W, cmfs_xyz, photopic_lef, scotopic_lef
+from render.colour.spectra import BIN_WIDTH_NM
 
 
 def unit_photopic(spd: np.ndarray) -> np.ndarray:
@@ -160,7 +160,7 @@ def resolve(buffers, factors: np.ndarray, lamp_spds: list[np.ndarray], reflectan
     Parameters
     ----------
     buffers
-        :class:`render.integrator.LightBuffers`.
+        :class:`render.light.integrator.LightBuffers`.
     factors
         (C,) multiplier per channel (dimming, lumens change).
     lamp_spds

@@ -99,7 +99,7 @@ from render.errors import InputError, Problem, did_you_mean, input_error
 FEET_TO_M = 0.3048
 
 #: Folder of the built-in generic LM-63 files (``<id>.ies``).
-BUILTIN_PHOTOMETRY_DIR = Path(__file__).resolve().parent / "data" / "photometry"
+BUILTIN_PHOTOMETRY_DIR = Path(__file__).resolve().parents[1] / "data" / "photometry"
 
 _ANGLE_TOL_DEG = 1e-6
 _EDITION_LINES = {

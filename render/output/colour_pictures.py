@@ -10,7 +10,7 @@ screen is nearly proportional to wavelength (``sin θ = λ/d``), so the strip ma
 linearly to the horizontal axis (380-780 nm by default). Each column shows
 
 * **colour**: the chromaticity of the monochromatic light at the column's centre wavelength
-  (CIE 1931 2° colour-matching functions, :func:`render.observers.cmfs_xyz`), brought into
+  (CIE 1931 2° colour-matching functions, :func:`render.colour.observers.cmfs_xyz`), brought into
   sRGB by *hue-preserving desaturation*: the most saturated sRGB colour with the same Oklab
   hue (Ottosson 2020), found on the gamut's ring of full-saturation colours
   (:func:`monochromatic_display_rgb`), largest channel 1.
@@ -36,7 +36,7 @@ from typing import Mapping, Sequence
 import numpy as np
 
 from render.fileio import atomic_path
-from render.spectra import BIN_EDGES_NM, BIN_WIDTH_NM, WAVELENGTHS_NM
+from render.colour.spectra import BIN_EDGES_NM, BIN_WIDTH_NM, WAVELENGTHS_NM
 
 #: Outline colours of the outlined view (our own palette; cycled).
 OUTLINE_COLOURS = ("#ffd23f", "#3bceac", "#ee4266", "#7c9cff", "#f9a03f", "#b5e48c", "#f78fb3", "#c8b6ff")
@@ -362,7 +362,7 @@ def monochromatic_display_rgb(wavelengths_nm) -> np.ndarray:
     """
     import colour
 
-    from render.observers import cmfs_xyz
+    from render.colour.observers import cmfs_xyz
 
     wl = np.atleast_1d(np.asarray(wavelengths_nm, dtype=np.float64))
     cmf = cmfs_xyz()

@@ -19,7 +19,7 @@ from pathlib import Path
 
 import numpy as np
 
-from render.colorimetry import ViewColorimetry
+from render.colour.colorimetry import ViewColorimetry
 from render.fileio import atomic_path
 
 CHANNELS = ("X", "Y", "Z", "Ys")

@@ -934,7 +934,7 @@ _PACKET = 16
 # A packet is traced together only if all its directions are within this angle of the first
 # ray's and share its projection axes (kx, ky, kz); otherwise its rays go one by one. Shadow
 # rays converging on a light still share most nodes at wider spreads, hence the wider limit
-# for occlusion queries (both values tuned on the stress scene of render.bench).
+# for occlusion queries (both values tuned on the stress scene of render.bench.rays).
 _PACKET_MAX_ANGLE_RAD = 0.1
 _PACKET_MAX_ANGLE_ANY_RAD = 0.5
 _PACKET_COS = float(np.cos(_PACKET_MAX_ANGLE_RAD))

@@ -21,7 +21,7 @@ from pathlib import Path
 
 import numpy as np
 
-DEMO = Path(__file__).resolve().parents[1] / "scenes" / "demo" / "linden_row.toml"
+DEMO = Path(__file__).resolve().parents[2] / "scenes" / "demo" / "linden_row.toml"
 
 
 def _timed(fn, repeat: int = 1):
@@ -61,22 +61,22 @@ def long_street(scene, n_luminaires: int, spacing_m: float = 28.0):
 
 
 def _render(study, camera, spp, seed, step_nm=1):
-    from render.integrator import cast_view, evaluate_light
-    from render.lights import channel_factors, luminaire_set
+    from render.light.integrator import cast_view, evaluate_light
+    from render.light.luminaires import channel_factors, luminaire_set
 
     lights = luminaire_set(study.scene)
     buffers = cast_view(study.mesh, study.bvh, lights, camera, spp, seed)
     evaluate_light(buffers, lights, study.bvh)
     factors, lamps = channel_factors(lights)
-    from render.colorimetry import resolve
+    from render.colour.colorimetry import resolve
 
     return buffers, lights, resolve(buffers, factors, study.lamp_spds(lamps), study.reflectances, step_nm)
 
 
 def cmd_light(args) -> int:
-    from render.cameras import Camera
-    from render.colorimetry import resolve
-    from render.lights import channel_factors
+    from render.rays.cameras import Camera
+    from render.colour.colorimetry import resolve
+    from render.light.luminaires import channel_factors
     from render.study import Study
 
     study = Study(args.scene)
@@ -122,15 +122,3 @@ def add_parser(sub) -> None:
     p.add_argument("--spp", type=int, default=4)
     p.add_argument("--repeat", type=int, default=1)
     p.set_defaults(func=cmd_light)
-
-
-def main(argv=None) -> int:
-    parser = argparse.ArgumentParser(prog="python -m render.bench_light", description=__doc__.splitlines()[0])
-    sub = parser.add_subparsers(dest="command", required=True)
-    add_parser(sub)
-    args = parser.parse_args(argv)
-    return args.func(args)
-
-
-if __name__ == "__main__":
-    raise SystemExit(main())

@@ -17,7 +17,7 @@ from functools import lru_cache
 
 import numpy as np
 
-from render.spectra import BIN_WIDTH_NM, WAVELENGTHS_NM
+from render.colour.spectra import BIN_WIDTH_NM, WAVELENGTHS_NM
 
 #: Maximum photopic luminous efficacy, lm/W (CIE).
 KM_LM_PER_W = 683.0

@@ -19,7 +19,7 @@ and the samples::
     ...
 
 Files keep the sampling of their source (e.g. 10 nm); :func:`load_material_csv` moves the
-samples onto the lampcast grid with :func:`render.spectra.bin_mean` (joins the samples with
+samples onto the lampcast grid with :func:`render.colour.spectra.bin_mean` (joins the samples with
 straight lines and takes the mean over each 1 nm bin).
 
 Validation (every rejection is an :class:`~render.errors.InputError` naming the file and line):
@@ -51,7 +51,7 @@ import numpy as np
 
 from render.fileio import read_user_text, save_figure
 from render.errors import InputError, Problem, ProblemList, did_you_mean, input_error
-from render.spectra import WAVELENGTH_MAX_NM, WAVELENGTH_MIN_NM, WAVELENGTHS_NM, bin_mean
+from render.colour.spectra import WAVELENGTH_MAX_NM, WAVELENGTH_MIN_NM, WAVELENGTHS_NM, bin_mean
 
 #: Header keys every material file must have.
 REQUIRED_KEYS = (
@@ -96,7 +96,7 @@ class Material:
     completion
         How the file's rows were extended to cover 380-780 nm (or why no completion was needed).
     reflectance
-        Bin means on :data:`render.spectra.WAVELENGTHS_NM`, shape ``(N_BINS,)``, within [0, 1],
+        Bin means on :data:`render.colour.spectra.WAVELENGTHS_NM`, shape ``(N_BINS,)``, within [0, 1],
         read-only.
     path
         The file it was read from.
@@ -144,7 +144,7 @@ def load_material_csv(path: str | Path) -> Material:
     Returns
     -------
     Material
-        With the reflectance moved onto the grid by :func:`render.spectra.bin_mean`.
+        With the reflectance moved onto the grid by :func:`render.colour.spectra.bin_mean`.
 
     Raises
     ------
@@ -408,10 +408,10 @@ def luminous_reflectance(reflectance, illuminant: np.ndarray | None = None) -> f
     """Photopic luminous reflectance ``Y/100`` of gridded reflectance(s) under an illuminant.
 
     ``Σ ρ S ȳ / Σ S ȳ`` with ȳ = V(λ) of the CIE 1931 2° observer
-    (:func:`render.observers.tristimulus`), the illuminant ``S`` on the grid (default D65,
+    (:func:`render.colour.observers.tristimulus`), the illuminant ``S`` on the grid (default D65,
     :func:`d65_on_grid`). Dimensionless, 0-1; the last axis of ``reflectance`` is wavelength.
     """
-    from render.observers import tristimulus
+    from render.colour.observers import tristimulus
 
     s = d65_on_grid() if illuminant is None else np.asarray(illuminant, dtype=np.float64)
     rho = np.asarray(reflectance, dtype=np.float64)

@@ -21,7 +21,7 @@ import numpy as np
 from render import __version__
 from render.errors import did_you_mean, input_error
 from render.fileio import atomic_path, atomic_write_text, file_stem
-from render.provenance import image_metadata
+from render.output.provenance import image_metadata
 from render.scene.model import GroupSetting, Setup
 
 #: Cautions shown with every comparison (the report adds its standing caution: an illustrative
@@ -45,7 +45,7 @@ def parse_setup(text: str, scene, label: str) -> Setup:
     separated by commas, optionally for one group as ``GROUP:key=value,...``, several groups
     separated by ``;`` (e.g. ``"street:lamp=led-3000k-cie-b2,dimming=0.8;bus stop:lamp=led-2700k-cie-b1"``).
     """
-    from render.lamps import get_lamp
+    from render.colour.lamps import get_lamp
 
     text = text.strip()
     if text in scene.setups:
@@ -105,7 +105,7 @@ def luminance_stats(rendered) -> dict:
 
 
 def setup_description(study, setup: Setup, lights) -> dict:
-    from render.lights import channel_factors, setting_for
+    from render.light.luminaires import channel_factors, setting_for
 
     factors, lamps = channel_factors(lights, setup)
     groups: dict[str, dict] = {}
@@ -274,8 +274,8 @@ def run_comparison(scene, before: str, after: str, views: list[str] | None = Non
     """Render every view before and after and write images, ``metrics.json`` and ``report.html``
     (with the colour analysis of the tagged objects in the view showing most of them, unless
     ``colour=False``). ``scene`` is a scene file or a :class:`~render.study.Study`."""
-    from render.lampfigures import figures_json, lamp_figures
-    from render.lamps import get_lamp
+    from render.colour.lamp_figures import figures_json, lamp_figures
+    from render.colour.lamps import get_lamp
     from render.study import Study
 
     study = scene if isinstance(scene, Study) else Study(scene)
@@ -372,7 +372,7 @@ def run_comparison(scene, before: str, after: str, views: list[str] | None = Non
     atomic_write_text(out / "metrics.json", json.dumps(metrics, indent=2, sort_keys=False, ensure_ascii=False) + "\n")
     report_path = None
     if report:
-        from render.report import write_report
+        from render.output.report import write_report
 
         report_path = write_report(out, metrics)
     return ComparisonResult(out, metrics, report_path)

@@ -303,7 +303,7 @@ def tile_pixels(camera: Camera, x0: int, y0: int, x1: int, y1: int, block_px: in
     ``block_px = 1`` lists them row by row. A larger value lists them in square blocks of
     ``block_px x block_px`` pixels (blocks row by row, pixels row by row inside a block), which
     keeps consecutive rays close together: the ray caster traces runs of similar rays together
-    (:func:`render.bvh.intersect_closest`), so 4 x 4 blocks are faster than long rows.
+    (:func:`render.rays.bvh.intersect_closest`), so 4 x 4 blocks are faster than long rows.
     """
     x0, x1 = max(0, int(x0)), min(camera.width_px, int(x1))
     y0, y1 = max(0, int(y0)), min(camera.height_px, int(y1))

@@ -2,7 +2,7 @@
 
 Every generator returns a list of :class:`Part`: triangles (metres), per-vertex shading
 normals and a material *slot* name (``"body"``, ``"glass"``, ``"tyre"`` ...) that the scene
-builder maps to a material. Conventions are those of :mod:`render.geometry`: right-handed, z up,
+builder maps to a material. Conventions are those of :mod:`render.geometry.mesh`: right-handed, z up,
 triangles counter-clockwise seen from the front, so the face normal points outward. Closed
 solids (boxes, cylinders with caps, spheres, extrusions) are watertight: every edge is shared
 by exactly two triangles that traverse it in opposite directions.
@@ -28,9 +28,9 @@ from typing import Iterable, Mapping, Sequence
 
 import numpy as np
 
-from .errors import ProblemList, input_error
-from .fileio import read_user_text
-from .geometry import face_normals, flat_normals
+from render.errors import ProblemList, input_error
+from render.fileio import read_user_text
+from render.geometry.mesh import face_normals, flat_normals
 
 __all__ = [
     "Part",

@@ -1,6 +1,6 @@
 """Colour and photometric figures of a lamp, the lamp table, JSON and spectrum plots.
 
-:func:`lamp_figures` computes, from a :class:`render.lamps.Lamp`'s 1 nm spectrum:
+:func:`lamp_figures` computes, from a :class:`render.colour.lamps.Lamp`'s 1 nm spectrum:
 
 * chromaticity x, y (CIE 1931 2°) and u, v (CIE 1960 UCS);
 * CCT and Duv by Ohno (2013), *LEUKOS* 10(1), "Practical use and calculation of CCT and Duv"
@@ -10,7 +10,7 @@
   reference illuminant;
 * CIE 224:2017 colour fidelity index Rf (``colour.colour_fidelity_index``, ``'CIE 2017'``);
 * ANSI/IES TM-30-18 fidelity Rf and gamut Rg (``'ANSI/IES TM-30-18'``);
-* S/P ratio K'm∫SV' / Km∫SV (:func:`render.observers.sp_ratio`);
+* S/P ratio K'm∫SV' / Km∫SV (:func:`render.colour.observers.sp_ratio`);
 * luminous efficacy of radiation, lm per W of 380-780 nm optical power;
 * blue fraction: the share of the 380-780 nm power below 500 nm (the 500 nm bin counts half);
 * notch-filterable fraction: the share of the 380-780 nm power within ±2 nm (five 1 nm bins)
@@ -46,10 +46,10 @@ from typing import Sequence
 
 import numpy as np
 
-from render.lamps import Lamp
+from render.colour.lamps import Lamp
 from render.fileio import save_figure
-from render.observers import photopic, photopic_lef, scotopic_lef, sp_ratio, tristimulus
-from render.spectra import BIN_WIDTH_NM, WAVELENGTHS_NM
+from render.colour.observers import photopic, photopic_lef, scotopic_lef, sp_ratio, tristimulus
+from render.colour.spectra import BIN_WIDTH_NM, WAVELENGTHS_NM
 
 #: Largest |Duv| for which a CCT is given (CIE S 017:2020, term 17-23-068, Note 1).
 DUV_LIMIT_CCT = 0.05

@@ -1,0 +1,3 @@
+"""Benchmarks: scripts that print figures and ratios (``python -m render.bench``)."""
+
+__all__: list[str] = []

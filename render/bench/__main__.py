@@ -1,0 +1,29 @@
+"""``python -m render.bench COMMAND``: benchmarks that print figures and ratios side by side.
+
+* ``rays`` -- BVH build time and ray throughput, with an Embree comparison (:mod:`render.bench.rays`).
+* ``light`` -- full render vs relight, luminaire-count scaling, 1 nm vs 5 nm (:mod:`render.bench.light`).
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+
+from render.bench import light, rays
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(prog="python -m render.bench", description="lampcast benchmarks")
+    sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
+    rays.add_parser(sub)
+    light.add_parser(sub)
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    args = build_parser().parse_args(argv)
+    return int(args.func(args))
+
+
+if __name__ == "__main__":
+    sys.exit(main())
