@@ -20,7 +20,6 @@ from render.fileio import file_stem
 from render.output.provenance import image_metadata
 from render.output.report import STANDING_CAUTION as CAUTION  # one wording of the caution everywhere
 
-
 REPO_ROOT = Path(__file__).resolve().parents[1]
 DEMO_SCENE = REPO_ROOT / "scenes" / "demo" / "linden_row.toml"
 
@@ -32,6 +31,7 @@ def _out_dir(path: str | None, default: str) -> Path:
 
 
 # --- lamps -----------------------------------------------------------------------------------
+
 
 def cmd_lamps(args) -> int:
     from render.colour.lamp_figures import figures_json, format_lamp_table, lamp_figures, plot_lamp_spectrum
@@ -53,6 +53,7 @@ def cmd_lamps(args) -> int:
 
 # --- materials -------------------------------------------------------------------------------
 
+
 def cmd_materials(args) -> int:
     from render.colour.materials import format_material_table, material_library, material_table, plot_material
 
@@ -72,6 +73,7 @@ def cmd_materials(args) -> int:
 
 # --- photometry ----------------------------------------------------------------------------
 
+
 def cmd_photometry(args) -> int:
     from render.light.photometry import describe_photometry_file
 
@@ -86,6 +88,7 @@ def cmd_photometry(args) -> int:
 
 
 # --- check -----------------------------------------------------------------------------------
+
 
 def cmd_check(args) -> int:
     from render.geometry.build import compile_scene
@@ -107,6 +110,7 @@ def cmd_check(args) -> int:
 
 # --- render ----------------------------------------------------------------------------------
 
+
 def _setup_from_args(study, args):
     """The setup named by --setup, or one made from --lamp (all groups), or None."""
     from render.colour.lamps import get_lamp
@@ -119,8 +123,12 @@ def _setup_from_args(study, args):
 
 
 #: Observer options of the command line and the settings they set.
-OBSERVER_FLAGS = {"age": "age_years", "pigmentation": "pigmentation", "adaptation": "adaptation_cd_m2",
-                  "display_peak": "display_peak_cd_m2"}
+OBSERVER_FLAGS = {
+    "age": "age_years",
+    "pigmentation": "pigmentation",
+    "adaptation": "adaptation_cd_m2",
+    "display_peak": "display_peak_cd_m2",
+}
 
 
 def _observer_from_args(study, args):
@@ -139,14 +147,18 @@ def _observer_from_args(study, args):
     try:
         return replace(obs, **changes)
     except InputError as err:
-        raise InputError([Problem("command line", flag_of.get(p.where, p.where), p.message) for p in err.problems]) from None
+        raise InputError(
+            [Problem("command line", flag_of.get(p.where, p.where), p.message) for p in err.problems]
+        ) from None
 
 
 def _write_rendered(rendered, out: Path, stem: str, displays: dict, meta: dict) -> list[Path]:
     """EXR of the absolute light, and a PNG (8- and 16-bit) per display mode."""
     from render.output.hdr import write_exr
 
-    written = [write_exr(out / f"{stem}.exr", rendered.colorimetry, {k.replace("lampcast.", ""): v for k, v in meta.items()})]
+    written = [
+        write_exr(out / f"{stem}.exr", rendered.colorimetry, {k.replace("lampcast.", ""): v for k, v in meta.items()})
+    ]
     for mode, result in displays.items():
         extra = {**meta, "lampcast.mode": mode}
         written.append(result.write_png(out / f"{stem}-{mode}.png", 8, extra))
@@ -158,8 +170,10 @@ def _luminance_line(rendered) -> str:
     Y = rendered.colorimetry.luminance_cd_m2
     lum = rendered.colorimetry.luminaire_mask
     surf = Y[~lum] if lum is not None else Y
-    return (f"{rendered.name} / {rendered.setup or 'scene lamps'}: {Y.shape[1]}x{Y.shape[0]} px; luminance of surfaces seen: "
-            f"mean {surf.mean():.3g} cd/m², median {np.median(surf):.3g} cd/m²; brightest pixel {Y.max():.3g} cd/m²")
+    return (
+        f"{rendered.name} / {rendered.setup or 'scene lamps'}: {Y.shape[1]}x{Y.shape[0]} px; luminance of surfaces seen: "
+        f"mean {surf.mean():.3g} cd/m², median {np.median(surf):.3g} cd/m²; brightest pixel {Y.max():.3g} cd/m²"
+    )
 
 
 def cmd_render(args) -> int:
@@ -180,7 +194,10 @@ def cmd_render(args) -> int:
         written += list(write_aov_previews(aovs, out, file_stem(view.name)))
     setup = _setup_from_args(study, args)
     if not study.scene.luminaires:
-        print(f"note: {args.scene} has no luminaires: only the night sky's darkness is rendered (no sky light is modelled)", file=sys.stderr)
+        print(
+            f"note: {args.scene} has no luminaires: only the night sky's darkness is rendered (no sky light is modelled)",
+            file=sys.stderr,
+        )
     rendered = study.render_view(view.name, setup, samples_per_pixel=spp, seed=seed, width_px=args.width, progress=True)
     modes = args.mode or ["adapted", "photometric"]
     displays = {mode: study.display(rendered, mode, observer) for mode in modes}
@@ -201,7 +218,11 @@ def _render_setups(study, view, texts: list[str] | None, spp: int | None, width:
 
     texts = texts or list(study.scene.setups)
     if not texts:
-        raise input_error(study.scene.path, "setups", "the scene has no [setups.NAME]; give --setup (a setup name, a lamp id or key=value items)")
+        raise input_error(
+            study.scene.path,
+            "setups",
+            "the scene has no [setups.NAME]; give --setup (a setup name, a lamp id or key=value items)",
+        )
     setups = [parse_setup(t, study.scene, "--setup") for t in texts]
     first = study.render_view(view.name, setups[0], samples_per_pixel=spp, width_px=width, progress=True)
     rendered = [first]
@@ -238,6 +259,7 @@ def cmd_relight(args) -> int:
 
 # --- colours -----------------------------------------------------------------------------------
 
+
 def cmd_colours(args) -> int:
     """Colour discrimination and naming of the tagged objects in one view, under each setup."""
     from render.analysis.naming import format_name_table
@@ -256,11 +278,24 @@ def cmd_colours(args) -> int:
     out = _out_dir(args.out, f"{Path(args.scene).stem}-colours")
     text = image_metadata(study, first, "colour analysis", observer, study.scene.render.seed, first.buffers.spp)
     text["lampcast.setup"] = "; ".join(s.name for s in setups)
-    pictures = colour_pictures(result, rendered, displays, study.setup_lamps(rendered, setups), out, prefix=file_stem(view.name) + "-", text=text)
+    pictures = colour_pictures(
+        result,
+        rendered,
+        displays,
+        study.setup_lamps(rendered, setups),
+        out,
+        prefix=file_stem(view.name) + "-",
+        text=text,
+    )
     written = [write_colour_json(result, out / f"{file_stem(view.name)}-colours.json"), *pictures.values()]
     rows = []
     for o in result["objects"]:
-        row = {"object": o["name"], "daylight": result["daylight"]["objects"][o["name"]]["name"], "setups": {}, "changed": []}
+        row = {
+            "object": o["name"],
+            "daylight": result["daylight"]["objects"][o["name"]]["name"],
+            "setups": {},
+            "changed": [],
+        }
         for s in result["setups"]:
             seen = result["setups"][s]["objects"][o["name"]]
             row["setups"][s] = seen["name"] if seen["visible"] else None
@@ -273,13 +308,16 @@ def cmd_colours(args) -> int:
         pairs = result["setups"][s]["confusions"]
         print(f"\n{s}: {len(pairs)} pair(s) distinct in daylight become hard to tell apart")
         for c in pairs:
-            print(f"  {c['a']} / {c['b']}: ΔE00 {c['daylight_delta_e00']:.1f} in daylight → {c['delta_e00']:.2f} ({c['level']})")
+            print(
+                f"  {c['a']} / {c['b']}: ΔE00 {c['daylight_delta_e00']:.1f} in daylight → {c['delta_e00']:.2f} ({c['level']})"
+            )
     for path in written:
         print(path)
     return 0
 
 
 # --- compare and demo --------------------------------------------------------------------------
+
 
 def cmd_compare(args) -> int:
     from render.output.comparison import run_comparison
@@ -289,8 +327,17 @@ def cmd_compare(args) -> int:
     observer = _observer_from_args(study, args)
     out = args.out or str(Path("outputs") / f"{Path(args.scene).stem}-compare")
     print(CAUTION, file=sys.stderr)
-    result = run_comparison(study, args.before, args.after, args.views, out, width_px=args.width,
-                            samples_per_pixel=args.spp, observer=observer, report=not args.no_report)
+    result = run_comparison(
+        study,
+        args.before,
+        args.after,
+        args.views,
+        out,
+        width_px=args.width,
+        samples_per_pixel=args.spp,
+        observer=observer,
+        report=not args.no_report,
+    )
     for line in result.metrics["summary"]:
         print(f"- {line}")
     print(f"written to {result.out_dir}/" + (f" (open {result.report})" if result.report else ""))
@@ -299,14 +346,27 @@ def cmd_compare(args) -> int:
 
 def cmd_demo(args) -> int:
     """The main job on the bundled demo street: sodium before, warm-white LED after."""
-    ns = argparse.Namespace(scene=str(DEMO_SCENE), before="sodium", after="led-warm", views=args.views,
-                            out=args.out or "outputs/demo", width=args.width, spp=args.spp, no_report=False,
-                            age=args.age, pigmentation=None, adaptation=None, display_peak=None, no_glare=False,
-                            no_acuity=False)
+    ns = argparse.Namespace(
+        scene=str(DEMO_SCENE),
+        before="sodium",
+        after="led-warm",
+        views=args.views,
+        out=args.out or "outputs/demo",
+        width=args.width,
+        spp=args.spp,
+        no_report=False,
+        age=args.age,
+        pigmentation=None,
+        adaptation=None,
+        display_peak=None,
+        no_glare=False,
+        no_acuity=False,
+    )
     return cmd_compare(ns)
 
 
 # --- parser ----------------------------------------------------------------------------------
+
 
 def _positive_int(text: str) -> int:
     try:
@@ -330,8 +390,12 @@ def _observer_options(p) -> None:
 
 def _run_options(p, out_default: str) -> None:
     """Options every rendering command shares."""
-    p.add_argument("--spp", type=_positive_int, help="samples per pixel (default: the scene's render.samples_per_pixel)")
-    p.add_argument("--width", type=_positive_int, help="override the image width in pixels (the height keeps the aspect ratio)")
+    p.add_argument(
+        "--spp", type=_positive_int, help="samples per pixel (default: the scene's render.samples_per_pixel)"
+    )
+    p.add_argument(
+        "--width", type=_positive_int, help="override the image width in pixels (the height keeps the aspect ratio)"
+    )
     p.add_argument("--out", help=f"output folder (default {out_default})")
 
 
@@ -346,17 +410,31 @@ def build_parser() -> argparse.ArgumentParser:
     p = sub.add_parser("lamps", help="list built-in lamps (or lamp files) with their colour and photometric figures")
     p.add_argument("ids", nargs="*", metavar="ID", help="lamp ids or spectrum files (default: all built-in lamps)")
     p.add_argument("--json", action="store_true", help="print JSON instead of a table")
-    p.add_argument("--plots", nargs="?", const="outputs/lamps", metavar="DIR", help="also write a spectrum plot per lamp (default DIR outputs/lamps)")
+    p.add_argument(
+        "--plots",
+        nargs="?",
+        const="outputs/lamps",
+        metavar="DIR",
+        help="also write a spectrum plot per lamp (default DIR outputs/lamps)",
+    )
     p.set_defaults(func=cmd_lamps)
 
     p = sub.add_parser("materials", help="list the surface materials with their sources")
     p.add_argument("--json", action="store_true", help="print JSON instead of a table")
-    p.add_argument("--plots", nargs="?", const="outputs/materials", metavar="DIR", help="also write a reflectance plot per material")
+    p.add_argument(
+        "--plots",
+        nargs="?",
+        const="outputs/materials",
+        metavar="DIR",
+        help="also write a reflectance plot per material",
+    )
     p.set_defaults(func=cmd_materials)
 
     p = sub.add_parser("photometry", help="summarise an LM-63 photometric file (flux, peak, ULOR) and plot it")
     p.add_argument("file", help="LM-63 (.ies) file or a built-in generic distribution id")
-    p.add_argument("--plot", metavar="PNG", help="where to write the polar plot (default outputs/photometry/NAME-polar.png)")
+    p.add_argument(
+        "--plot", metavar="PNG", help="where to write the polar plot (default outputs/photometry/NAME-polar.png)"
+    )
     p.add_argument("--no-plot", action="store_true", help="do not write a polar plot")
     p.add_argument("--out", help="output folder for the default plot path")
     p.set_defaults(func=cmd_photometry)
@@ -370,28 +448,49 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--view", help="view name (default: the scene's first view)")
     p.add_argument("--setup", help="a setup named in the scene's [setups] (default: the lamps the scene gives)")
     p.add_argument("--lamp", help="one lamp id (or spectrum file) for every luminaire")
-    p.add_argument("--aov", action="store_true", help="also write depth, normal, material-id and object-id images and arrays")
-    p.add_argument("--mode", action="append", choices=("adapted", "shared", "photometric"),
-                   help="display mode (repeat for several; default adapted and photometric): adapted = for an eye adapted "
-                        "to this image; shared = one adaptation state for a set (the same as adapted for one image); "
-                        "photometric = false-colour luminance with a cd/m² legend")
+    p.add_argument(
+        "--aov", action="store_true", help="also write depth, normal, material-id and object-id images and arrays"
+    )
+    p.add_argument(
+        "--mode",
+        action="append",
+        choices=("adapted", "shared", "photometric"),
+        help="display mode (repeat for several; default adapted and photometric): adapted = for an eye adapted "
+        "to this image; shared = one adaptation state for a set (the same as adapted for one image); "
+        "photometric = false-colour luminance with a cd/m² legend",
+    )
     p.add_argument("--seed", type=int, help="random seed (default: the scene's render.seed)")
     _observer_options(p)
     _run_options(p, "outputs/SCENE")
     p.set_defaults(func=cmd_render)
 
-    p = sub.add_parser("relight", help="render a view once and re-light it for several setups without casting camera rays")
+    p = sub.add_parser(
+        "relight", help="render a view once and re-light it for several setups without casting camera rays"
+    )
     p.add_argument("scene", help="scene file (TOML)")
     p.add_argument("--view", help="view name (default: the scene's first view)")
-    p.add_argument("--setup", dest="setups", action="append", metavar="NAME", help="setup to render (repeat; default: every setup in the scene)")
+    p.add_argument(
+        "--setup",
+        dest="setups",
+        action="append",
+        metavar="NAME",
+        help="setup to render (repeat; default: every setup in the scene)",
+    )
     _observer_options(p)
     _run_options(p, "outputs/SCENE")
     p.set_defaults(func=cmd_relight)
 
-    p = sub.add_parser("colours", help="can people tell the tagged objects' colours apart? names, CIEDE2000, confusions, pictures")
+    p = sub.add_parser(
+        "colours", help="can people tell the tagged objects' colours apart? names, CIEDE2000, confusions, pictures"
+    )
     p.add_argument("scene", help="scene file (TOML)")
-    p.add_argument("--setup", dest="setups", action="append", metavar="SETUP",
-                   help="setup to analyse (repeat; a scene setup, a lamp id or key=value items; default every setup in the scene)")
+    p.add_argument(
+        "--setup",
+        dest="setups",
+        action="append",
+        metavar="SETUP",
+        help="setup to analyse (repeat; a scene setup, a lamp id or key=value items; default every setup in the scene)",
+    )
     p.add_argument("--view", help="view name (default: the scene's first view)")
     _observer_options(p)
     _run_options(p, "outputs/SCENE-colours")
@@ -399,11 +498,17 @@ def build_parser() -> argparse.ArgumentParser:
 
     p = sub.add_parser("compare", help="before and after: images, false colour, metrics.json and report.html per view")
     p.add_argument("scene", help="scene file (TOML)")
-    p.add_argument("--before", required=True, metavar="SETUP",
-                   help="a setup named in the scene, a lamp id, or key=value items (lamp, lumens, dimming, photometry), "
-                        "per group as 'GROUP:lamp=ID,dimming=0.8;GROUP2:...'")
+    p.add_argument(
+        "--before",
+        required=True,
+        metavar="SETUP",
+        help="a setup named in the scene, a lamp id, or key=value items (lamp, lumens, dimming, photometry), "
+        "per group as 'GROUP:lamp=ID,dimming=0.8;GROUP2:...'",
+    )
     p.add_argument("--after", required=True, metavar="SETUP", help="as --before")
-    p.add_argument("--view", dest="views", action="append", metavar="NAME", help="view to render (repeat; default all views)")
+    p.add_argument(
+        "--view", dest="views", action="append", metavar="NAME", help="view to render (repeat; default all views)"
+    )
     p.add_argument("--no-report", action="store_true", help="skip report.html")
     _observer_options(p)
     _run_options(p, "outputs/SCENE-compare")

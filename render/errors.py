@@ -12,9 +12,9 @@ Internal bugs stay ordinary Python exceptions.
 from __future__ import annotations
 
 import difflib
+from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Iterable, Sequence
 
 
 @dataclass(frozen=True)

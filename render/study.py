@@ -24,9 +24,9 @@ import numpy as np
 
 from render.colour.colorimetry import ViewColorimetry, resolve
 from render.errors import did_you_mean, input_error
+from render.geometry.build import compile_scene
 from render.light.integrator import NEGLIGIBLE_LX, LightBuffers, cast_view, direct_illuminance_lx, evaluate_light
 from render.light.luminaires import LuminaireSet, channel_factors, luminaire_set, needs_new_evaluation
-from render.geometry.build import compile_scene
 from render.scene import Scene, load_scene
 from render.scene.model import Setup
 
@@ -74,14 +74,20 @@ class Study:
         from render.colour.materials import get_material, material_library
 
         lib = material_library()
-        return np.array([get_material(m, lib, source=str(self.scene.path)).reflectance for m in self.mesh.material_names])
+        return np.array(
+            [get_material(m, lib, source=str(self.scene.path)).reflectance for m in self.mesh.material_names]
+        )
 
     def setup(self, name: str | Setup | None) -> Setup | None:
         if name is None or isinstance(name, Setup):
             return name
         if name not in self.scene.setups:
             names = list(self.scene.setups)
-            raise input_error(self.scene.path, "setups", f"no setup named {name!r}{did_you_mean(name, names)}; setups: {', '.join(names) or '(none)'}")
+            raise input_error(
+                self.scene.path,
+                "setups",
+                f"no setup named {name!r}{did_you_mean(name, names)}; setups: {', '.join(names) or '(none)'}",
+            )
         return self.scene.setups[name]
 
     def lights(self, setup: str | Setup | None = None) -> LuminaireSet:
@@ -117,12 +123,22 @@ class Study:
                 lamps.setdefault(lamp_id, spd)
         return list(lamps.items())
 
-    def colorimetry(self, buffers: LightBuffers, lights: LuminaireSet, setup: str | Setup | None = None) -> ViewColorimetry:
+    def colorimetry(
+        self, buffers: LightBuffers, lights: LuminaireSet, setup: str | Setup | None = None
+    ) -> ViewColorimetry:
         factors, lamps = channel_factors(lights, self.setup(setup))
         return resolve(buffers, factors, self.lamp_spds(lamps), self.reflectances)
 
-    def render_view(self, view: str | None = None, setup: str | Setup | None = None, *, samples_per_pixel: int | None = None,
-                    seed: int | None = None, width_px: int | None = None, progress: bool = False) -> RenderedView:
+    def render_view(
+        self,
+        view: str | None = None,
+        setup: str | Setup | None = None,
+        *,
+        samples_per_pixel: int | None = None,
+        seed: int | None = None,
+        width_px: int | None = None,
+        progress: bool = False,
+    ) -> RenderedView:
         """Cast the view's camera rays, evaluate the light of ``setup`` and resolve colorimetry."""
         v = self.scene.view(view)
         camera = self.camera(v.name, width_px)
@@ -132,7 +148,9 @@ class Study:
         lights = luminaire_set(self.scene, s)
         buffers = cast_view(self.mesh, self.bvh, lights, camera, spp, seed, progress=progress)
         evaluate_light(buffers, lights, self.bvh, negligible_lx=self.negligible_lx, progress=progress)
-        return RenderedView(v.name, s.name if s else None, camera, buffers, lights, self.colorimetry(buffers, lights, s))
+        return RenderedView(
+            v.name, s.name if s else None, camera, buffers, lights, self.colorimetry(buffers, lights, s)
+        )
 
     def relight(self, rendered: RenderedView, setup: str | Setup | None, *, progress: bool = False) -> RenderedView:
         """The same view under another setup. Lamps, lumens and dimming are applied to the kept
@@ -145,7 +163,9 @@ class Study:
             evaluate_light(buffers, lights, self.bvh, negligible_lx=self.negligible_lx, progress=progress)
         else:
             lights, buffers = rendered.lights, rendered.buffers
-        return RenderedView(rendered.name, s.name if s else None, rendered.camera, buffers, lights, self.colorimetry(buffers, lights, s))
+        return RenderedView(
+            rendered.name, s.name if s else None, rendered.camera, buffers, lights, self.colorimetry(buffers, lights, s)
+        )
 
     @property
     def observer(self):
@@ -158,8 +178,13 @@ class Study:
         from render.vision.pipeline import ViewLight
 
         c = rendered.colorimetry
-        return ViewLight(c.xyz_cd_m2, c.scotopic_cd_m2, luminaire_mask=c.luminaire_mask, white_xyz=c.white_xyz,
-                         white_scotopic=c.white_scotopic)
+        return ViewLight(
+            c.xyz_cd_m2,
+            c.scotopic_cd_m2,
+            luminaire_mask=c.luminaire_mask,
+            white_xyz=c.white_xyz,
+            white_scotopic=c.white_scotopic,
+        )
 
     def display_both(self, rendered: list[RenderedView], observer=None):
         """``(shared, adapted)`` display lists of the same views, computing glare once per view."""
@@ -191,12 +216,16 @@ class Study:
             from render.vision.falsecolour import shared_range_decades
 
             lo_hi = shared_range_decades([x.xyz_cd_m2[..., 1] for x in lights])
-            results = [render_display(x, g, observer, mode, photometric_range_cd_m2=lo_hi) for x, g in zip(lights, geoms)]
+            results = [
+                render_display(x, g, observer, mode, photometric_range_cd_m2=lo_hi) for x, g in zip(lights, geoms)
+            ]
         else:
             results = [render_display(x, g, observer, mode) for x, g in zip(lights, geoms)]
         return results if isinstance(rendered, list) else results[0]
 
-    def illuminance_lx(self, points_m, normals, setup: str | Setup | None = None, *, shadows: bool = True, per_group: bool = False):
+    def illuminance_lx(
+        self, points_m, normals, setup: str | Setup | None = None, *, shadows: bool = True, per_group: bool = False
+    ):
         """Direct illuminance (lx) at points on surfaces with the given unit normals, with the
         setup's lamps, lumens and dimming and the maintenance factor; shadows from the scene's
         geometry. Returns (N,) total, or a dict group -> (N,) with ``per_group``."""

@@ -54,8 +54,9 @@ def surface_buffers(reflectances: np.ndarray, spd: np.ndarray, white_luminance_c
     return xyz, scot, observers.tristimulus(radiance_white), float(observers.scotopic(radiance_white))
 
 
-def patch_image(values: np.ndarray, rows: int, cols: int, patch_px: int, gap_px: int = 0,
-                background=None) -> np.ndarray:
+def patch_image(
+    values: np.ndarray, rows: int, cols: int, patch_px: int, gap_px: int = 0, background=None
+) -> np.ndarray:
     """Lay ``rows·cols`` per-patch values (N, ...) out as an image of square patches.
 
     ``background`` fills the gaps (default zeros).
@@ -71,5 +72,5 @@ def patch_image(values: np.ndarray, rows: int, cols: int, patch_px: int, gap_px:
         r, c = divmod(k, cols)
         y0 = gap_px + r * (patch_px + gap_px)
         x0 = gap_px + c * (patch_px + gap_px)
-        img[y0:y0 + patch_px, x0:x0 + patch_px] = values[k]
+        img[y0 : y0 + patch_px, x0 : x0 + patch_px] = values[k]
     return img

@@ -7,6 +7,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
+from render.geometry.mesh import flat_normals
 from render.rays.bvh import (
     build_bvh,
     face_forward,
@@ -15,7 +16,6 @@ from render.rays.bvh import (
     intersect_any,
     intersect_closest,
 )
-from render.geometry.mesh import flat_normals
 
 # --------------------------------------------------------------------------------------------
 # Helpers
@@ -45,8 +45,33 @@ def box_triangles(lo, hi):
     """12 outward counter-clockwise triangles of the axis-aligned box [lo, hi]."""
     x0, y0, z0 = lo
     x1, y1, z1 = hi
-    c = np.array([[x0, y0, z0], [x1, y0, z0], [x1, y1, z0], [x0, y1, z0], [x0, y0, z1], [x1, y0, z1], [x1, y1, z1], [x0, y1, z1]], float)
-    faces = [(0, 2, 1), (0, 3, 2), (4, 5, 6), (4, 6, 7), (0, 1, 5), (0, 5, 4), (2, 3, 7), (2, 7, 6), (1, 2, 6), (1, 6, 5), (3, 0, 4), (3, 4, 7)]
+    c = np.array(
+        [
+            [x0, y0, z0],
+            [x1, y0, z0],
+            [x1, y1, z0],
+            [x0, y1, z0],
+            [x0, y0, z1],
+            [x1, y0, z1],
+            [x1, y1, z1],
+            [x0, y1, z1],
+        ],
+        float,
+    )
+    faces = [
+        (0, 2, 1),
+        (0, 3, 2),
+        (4, 5, 6),
+        (4, 6, 7),
+        (0, 1, 5),
+        (0, 5, 4),
+        (2, 3, 7),
+        (2, 7, 6),
+        (1, 2, 6),
+        (1, 6, 5),
+        (3, 0, 4),
+        (3, 4, 7),
+    ]
     return c[np.array(faces)]
 
 
@@ -54,7 +79,9 @@ def uv_sphere(radius, n_lat, n_lon):
     """Latitude/longitude sphere at the origin with every vertex on the sphere, outward CCW."""
     th = np.linspace(0, np.pi, n_lat + 1)
     ph = np.linspace(0, 2 * np.pi, n_lon + 1)
-    g = radius * np.stack([np.sin(th)[:, None] * np.cos(ph), np.sin(th)[:, None] * np.sin(ph), np.cos(th)[:, None] * np.ones_like(ph)], -1)
+    g = radius * np.stack(
+        [np.sin(th)[:, None] * np.cos(ph), np.sin(th)[:, None] * np.sin(ph), np.cos(th)[:, None] * np.ones_like(ph)], -1
+    )
     tris = []
     for i in range(n_lat):
         for j in range(n_lon):
@@ -98,7 +125,9 @@ def test_ray_plane_distance_and_barycentrics():
     bvh = build_bvh(quad)
     rng = np.random.default_rng(1)
     o = np.column_stack([rng.uniform(-3, 3, (500, 2)), rng.uniform(2, 6, 500)])
-    d = np.column_stack([rng.uniform(-0.5, 0.5, (500, 2)), -rng.uniform(0.5, 2.0, 500)])  # not unit length; all within the quad
+    d = np.column_stack(
+        [rng.uniform(-0.5, 0.5, (500, 2)), -rng.uniform(0.5, 2.0, 500)]
+    )  # not unit length; all within the quad
     hits = intersect_closest(bvh, o, d)
     assert np.all(hits.hit)
     np.testing.assert_allclose(hits.t, (h - o[:, 2]) / d[:, 2], rtol=1e-12)
@@ -174,7 +203,11 @@ def test_ray_box_distance_and_normals():
     np.testing.assert_allclose(geometric_normal(tris, hits)[clear], expected[clear], atol=1e-12)
     np.testing.assert_allclose(interpolate_normal(flat_normals(tris), hits)[clear], expected[clear], atol=1e-12)
     # Axis-parallel rays (zero direction components) hit the face they point at.
-    ax = intersect_closest(bvh, np.array([[5.0, 0.0, 1.0], [0.0, 0.0, 9.0], [0.0, -7.0, 1.0]]), np.array([[-1.0, 0, 0], [0, 0, -2.0], [0, 1.0, 0]]))
+    ax = intersect_closest(
+        bvh,
+        np.array([[5.0, 0.0, 1.0], [0.0, 0.0, 9.0], [0.0, -7.0, 1.0]]),
+        np.array([[-1.0, 0, 0], [0, 0, -2.0], [0, 1.0, 0]]),
+    )
     np.testing.assert_allclose(ax.t, [3.5, 3.25, 5.0], rtol=1e-15)
 
 
@@ -354,7 +387,9 @@ def test_degenerate_and_duplicate_triangles():
     for packets in (True, False):
         hits = intersect_closest(bvh, o, target - o, packets=packets)
         np.testing.assert_array_equal(hits.triangle, 2)
-    exact = intersect_closest(bvh, np.array([[0.5, 0.5, 1.0], [0.3, 0.3, 1.0]]), np.array([[-1.0, -1.0, -2.0], [0.0, 0.0, -1.0]]))
+    exact = intersect_closest(
+        bvh, np.array([[0.5, 0.5, 1.0], [0.3, 0.3, 1.0]]), np.array([[-1.0, -1.0, -2.0], [0.0, 0.0, -1.0]])
+    )
     assert np.all(exact.triangle == 2)
 
 
@@ -376,7 +411,9 @@ def test_interpolated_shading_normals():
     np.testing.assert_allclose(got, want, atol=1e-12)
     np.testing.assert_allclose(geometric_normal(tri, hits), np.tile([0, 0, 1.0], (len(pts), 1)), atol=1e-15)
     # face_forward turns normals against the incoming ray.
-    np.testing.assert_allclose(face_forward(np.tile([0, 0, 1.0], (2, 1)), np.array([[0, 0, 1.0], [0, 0, -1.0]])), [[0, 0, -1.0], [0, 0, 1.0]])
+    np.testing.assert_allclose(
+        face_forward(np.tile([0, 0, 1.0], (2, 1)), np.array([[0, 0, 1.0], [0, 0, -1.0]])), [[0, 0, -1.0], [0, 0, 1.0]]
+    )
 
 
 def test_bvh_covers_every_triangle_once(soup_scene):
@@ -392,7 +429,9 @@ def test_bvh_covers_every_triangle_once(soup_scene):
                 first, cnt = -ch - 1, bvh.node_count[n, c]
                 v = bvh.tri_vertices[first : first + cnt].reshape(-1, 3)
                 if cnt:
-                    assert np.all(v >= bvh.node_bounds[n, :3, c].astype(float)) and np.all(v <= bvh.node_bounds[n, 3:, c].astype(float))
+                    assert np.all(v >= bvh.node_bounds[n, :3, c].astype(float)) and np.all(
+                        v <= bvh.node_bounds[n, 3:, c].astype(float)
+                    )
     assert bvh.depth < 128 and bvh.nbytes > 0
 
 

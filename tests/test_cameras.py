@@ -7,6 +7,7 @@ import math
 import numpy as np
 import pytest
 
+from render.errors import InputError
 from render.rays.cameras import (
     Camera,
     angle_to_deg,
@@ -19,7 +20,6 @@ from render.rays.cameras import (
     project,
     tile_pixels,
 )
-from render.errors import InputError
 
 
 def make_camera(**kw):
@@ -189,7 +189,15 @@ def test_stratified_jitter(spp):
 
 def test_bad_camera_lists_every_problem():
     with pytest.raises(InputError) as err:
-        Camera(position_m=(0, 0, 0), target_m=(0, 0, 0), hfov_deg=180.0, width_px=0, height_px=2.5, source="street.toml", where="views[1]")
+        Camera(
+            position_m=(0, 0, 0),
+            target_m=(0, 0, 0),
+            hfov_deg=180.0,
+            width_px=0,
+            height_px=2.5,
+            source="street.toml",
+            where="views[1]",
+        )
     text = str(err.value)
     for key in ("views[1].target_m", "views[1].hfov_deg", "views[1].width_px", "views[1].height_px"):
         assert key in text
@@ -216,8 +224,8 @@ def test_from_view_accepts_scene_views():
 
 
 def _aov_scene():
-    from render.rays.bvh import build_bvh
     from render.geometry.mesh import TriangleMesh, flat_normals
+    from render.rays.bvh import build_bvh
 
     ground = np.array([[[-50, -50, 0], [50, -50, 0], [50, 50, 0]], [[-50, -50, 0], [50, 50, 0], [-50, 50, 0]]], float)
     # A wall facing -x at x = 10 (two triangles, CCW seen from -x).
@@ -259,15 +267,17 @@ def test_render_aovs_against_analytic_depth():
 def test_write_aov_previews_and_atomic_writes(tmp_path):
     import imageio.v3 as iio
 
-    from render.rays.aov import render_aovs, write_aov_previews
     from render.fileio import atomic_path, atomic_write_bytes
+    from render.rays.aov import render_aovs, write_aov_previews
 
     mesh, bvh = _aov_scene()
     cam = Camera(position_m=(0.0, 0.0, 1.5), target_m=(10.0, 0.0, 1.5), hfov_deg=60.0, width_px=16, height_px=10)
     aov = render_aovs(mesh, bvh, cam)
     written = write_aov_previews(aov, tmp_path / "out", "street")
     paths = dict(zip(["depth", "normal", "material", "object", "coverage", "npz"], written))
-    assert [p.name for p in written] == [f"street-{k}.png" for k in ("depth", "normal", "material", "object", "coverage")] + ["street-aov.npz"]
+    assert [p.name for p in written] == [
+        f"street-{k}.png" for k in ("depth", "normal", "material", "object", "coverage")
+    ] + ["street-aov.npz"]
     assert sorted(p.name for p in (tmp_path / "out").iterdir()) == sorted(p.name for p in written)
     grey = iio.imread(paths["depth"])
     assert grey.shape == (10, 16) and np.all(grey[np.isinf(aov["depth_m"])] == 0)

@@ -118,8 +118,10 @@ def test_render_aov_outputs(tmp_path, capsys):
 
 def test_scene_without_luminaires_renders_dark_with_a_note(tmp_path, capsys):
     scene = tmp_path / "dark.toml"
-    scene.write_text('[street]\nlength_m = 20.0\ncarriageway_width_m = 6.0\n\n[[views]]\nname = "v"\n'
-                     'position_m = [1.0, 0.0]\ntarget_m = [10.0, 0.0, 0.0]\nresolution = [32, 18]\n')
+    scene.write_text(
+        '[street]\nlength_m = 20.0\ncarriageway_width_m = 6.0\n\n[[views]]\nname = "v"\n'
+        "position_m = [1.0, 0.0]\ntarget_m = [10.0, 0.0, 0.0]\nresolution = [32, 18]\n"
+    )
     assert main(["render", str(scene), "--out", str(tmp_path), "--mode", "adapted"]) == 0
     assert "no luminaires" in capsys.readouterr().err
     from render.output.hdr import read_exr

@@ -10,6 +10,7 @@ import json
 
 import numpy as np
 import pytest
+import synthetic
 
 from render.analysis import (
     SetupView,
@@ -31,12 +32,11 @@ from render.analysis import (
     ring_background,
     white_mesopic_cd_m2,
 )
-from render.output import colour_pictures as pictures
 from render.analysis.colours import adapted_xyz, daylight_white_xyz, lab_to_lch, viewing_white_xyz, xyz_to_lab
 from render.analysis.naming import munsell_to_lab
 from render.colour.lamps import get_lamp
 from render.colour.spectra import N_BINS, WAVELENGTHS_NM, band_power
-import synthetic
+from render.output import colour_pictures as pictures
 from render.vision import AdaptationState, ObserverSettings, ViewGeometry, ViewLight, render_display
 from render.vision.display import linear_srgb_to_xyz
 
@@ -95,8 +95,10 @@ def lightness_share(lab):
     out = []
     for i, j in zip(*PAIRS):
         only_l = np.concatenate([[lab[j, 0]], lab[i, 1:]])
-        out.append(float(colour.delta_E(lab[i], only_l, method="CIE 2000")) /
-                   float(colour.delta_E(lab[i], lab[j], method="CIE 2000")))
+        out.append(
+            float(colour.delta_E(lab[i], only_l, method="CIE 2000"))
+            / float(colour.delta_E(lab[i], lab[j], method="CIE 2000"))
+        )
     return np.array(out)
 
 
@@ -132,8 +134,9 @@ def test_delta_e_matrix_sharma_pairs(row):
 def test_delta_e_matrix_self_zero_and_not_visible():
     # A reflectance compared with itself: ΔE00 = 0 (definition).
     refl = tcs_reflectances(["TCS01", "TCS05"])
-    labs = np.vstack([reference_colour(refl[0]), reference_colour(refl[0]), reference_colour(refl[1]),
-                      np.full(3, np.nan)])
+    labs = np.vstack(
+        [reference_colour(refl[0]), reference_colour(refl[0]), reference_colour(refl[1]), np.full(3, np.nan)]
+    )
     de = delta_e_matrix(labs)
     assert de[0, 1] == 0.0 and np.all(np.diag(de)[:3] == 0.0)
     assert de[0, 2] > 10.0
@@ -141,6 +144,7 @@ def test_delta_e_matrix_self_zero_and_not_visible():
 
 
 # ---------------------------------------------------------------------- daylight reference
+
 
 @pytest.mark.filterwarnings("ignore:Aligning")
 def test_reference_colour_against_colour_science():
@@ -154,8 +158,12 @@ def test_reference_colour_against_colour_science():
     xy = colour.CCS_ILLUMINANTS["CIE 1931 2 Degree Standard Observer"]["D65"]
     refl = tcs_reflectances([f"TCS{i:02d}" for i in range(1, 15)])
     ours = reference_colour(refl)
-    theirs = np.stack([colour.XYZ_to_Lab(colour.sd_to_XYZ(SDS_TCS["CIE 1995"][f"TCS{i:02d}"], cmfs, d65) / 100, xy)
-                       for i in range(1, 15)])
+    theirs = np.stack(
+        [
+            colour.XYZ_to_Lab(colour.sd_to_XYZ(SDS_TCS["CIE 1995"][f"TCS{i:02d}"], cmfs, d65) / 100, xy)
+            for i in range(1, 15)
+        ]
+    )
     de = delta_e_matrix(np.vstack([ours, theirs]))[np.arange(14), np.arange(14) + 14]
     assert de.max() < 0.1
 
@@ -183,9 +191,17 @@ def test_reference_white_and_mixture():
 def test_white_luminance_mes2():
     # CIE 191:2010 MES2: S/P = 1 gives L_mes = L_p at every m; the grey-world default takes the
     # adaptation field as a Y_b = 20 background (CIECAM02 typical conditions): white = L_a / 0.2.
-    state = AdaptationState(photopic_cd_m2=1.0, scotopic_cd_m2=1.0, mesopic_cd_m2=1.0, m=0.7,
-                            white_xyz=(0.95, 1.0, 1.09), white_sp_ratio=1.0, pupil_diameter_mm=5.0,
-                            chromatic_adaptation_degree=0.8, field_deg=20.0)
+    state = AdaptationState(
+        photopic_cd_m2=1.0,
+        scotopic_cd_m2=1.0,
+        mesopic_cd_m2=1.0,
+        m=0.7,
+        white_xyz=(0.95, 1.0, 1.09),
+        white_sp_ratio=1.0,
+        pupil_diameter_mm=5.0,
+        chromatic_adaptation_degree=0.8,
+        field_deg=20.0,
+    )
     assert white_mesopic_cd_m2(state) == pytest.approx(5.0)
     assert white_mesopic_cd_m2(state, 3.0) == pytest.approx(3.0)
     # m = 0 (scotopic): L_mes is the scotopic luminance.
@@ -194,6 +210,7 @@ def test_white_luminance_mes2():
 
 
 # ------------------------------------------------------------------------ object statistics
+
 
 def test_object_colour_stats_mean_in_xyz_and_visibility():
     a, b = np.array([60.0, 40.0, 10.0]), np.array([5.0, 4.0, 20.0])
@@ -255,6 +272,7 @@ def test_confusions_thresholds():
 
 # ------------------------------------------------------------------- the real vision chain
 
+
 def test_adapted_xyz_matches_the_display_step():
     # The analysis taps the vision stage's chromatic adaptation; the stage's own display output
     # (mode 'fixed': linear, no roll-off) must equal it scaled by exposure/peak for in-gamut
@@ -304,8 +322,9 @@ def test_low_pressure_sodium_collapses_hue_to_lightness():
         assert len(confusions(day, de, TCS_KEYS)) >= 3
 
 
-@pytest.mark.parametrize("lamp, white", [("D65", 200.0), ("led-4000k-violet-cie-v2", 1.0),
-                                         ("led-4000k-violet-cie-v2", 100.0)])
+@pytest.mark.parametrize(
+    "lamp, white", [("D65", 200.0), ("led-4000k-violet-cie-v2", 1.0), ("led-4000k-violet-cie-v2", 100.0)]
+)
 def test_broad_spectra_keep_the_samples_distinct(lamp, white):
     # The same pairs under D65 and a high-Ra violet-pumped LED (CIE LED-V2) stay distinct: no
     # pair falls below the "hard" threshold (3, common practice), hues stay spread out, and the
@@ -325,16 +344,33 @@ def test_broad_spectra_keep_the_samples_distinct(lamp, white):
 # ColorChecker patches named as their patch names (McCamy, Marcus & Davidson 1976 patch names;
 # "dark skin" called brown, "blue sky" blue, "foliage" green: common practice, no source).
 COLORCHECKER_NAMES = {
-    "dark skin": "brown", "blue sky": "blue", "foliage": "green", "orange": "orange", "purple": "purple",
-    "blue": "blue", "green": "green", "red": "red", "yellow": "yellow", "white 9.5 (.05 D)": "white",
-    "neutral 5 (.70 D)": "grey", "black 2 (1.5 D)": "black",
+    "dark skin": "brown",
+    "blue sky": "blue",
+    "foliage": "green",
+    "orange": "orange",
+    "purple": "purple",
+    "blue": "blue",
+    "green": "green",
+    "red": "red",
+    "yellow": "yellow",
+    "white 9.5 (.05 D)": "white",
+    "neutral 5 (.70 D)": "grey",
+    "black 2 (1.5 D)": "black",
 }
 # Munsell chips well inside each category, chosen as typical (common practice, no source),
 # converted with colour-science's Munsell renotation.
 TYPICAL_CHIPS = {
-    "5R 4/14": "red", "2.5YR 6/14": "orange", "5Y 8.5/12": "yellow", "2.5G 5/10": "green",
-    "5PB 4/12": "blue", "5P 3/10": "purple", "5RP 7/8": "pink", "5YR 3/4": "brown", "N9.5": "white",
-    "N5": "grey", "N1": "black",
+    "5R 4/14": "red",
+    "2.5YR 6/14": "orange",
+    "5Y 8.5/12": "yellow",
+    "2.5G 5/10": "green",
+    "5PB 4/12": "blue",
+    "5P 3/10": "purple",
+    "5RP 7/8": "pink",
+    "5YR 3/4": "brown",
+    "N9.5": "white",
+    "N5": "grey",
+    "N1": "black",
 }
 
 
@@ -351,8 +387,11 @@ def test_colour_names_of_typical_samples():
 
 
 def test_name_table_and_changes():
-    rows = name_table(["car", "bin"], np.array([munsell_to_lab("2.5G 5/10"), munsell_to_lab("5PB 4/12")]),
-                      {"sodium": np.array([munsell_to_lab("5YR 3/4"), [np.nan] * 3])})
+    rows = name_table(
+        ["car", "bin"],
+        np.array([munsell_to_lab("2.5G 5/10"), munsell_to_lab("5PB 4/12")]),
+        {"sodium": np.array([munsell_to_lab("5YR 3/4"), [np.nan] * 3])},
+    )
     assert rows[0] == {"object": "car", "daylight": "green", "setups": {"sodium": "brown"}, "changed": ["sodium"]}
     assert rows[1]["setups"]["sodium"] is None and rows[1]["changed"] == []
     assert [c["text"] for c in name_changes(rows)] == ["car: green → brown"]
@@ -361,6 +400,7 @@ def test_name_table_and_changes():
 
 
 # ------------------------------------------------------------------------- spectrum strips
+
 
 def test_spectrum_strip_of_low_pressure_sodium_is_one_line():
     # The model puts 1.5 of 1.5216 relative power units in the D doublet (588.995, 589.592 nm,
@@ -398,6 +438,7 @@ def test_spectrum_strip_of_led_covers_the_visible():
 
 # ------------------------------------------------------------------------ the whole analysis
 
+
 def _street_setups():
     refl = tcs_reflectances()
     objects = [TaggedObject(k + 1, f"sample {k + 1}", refl[k]) for k in range(8)]
@@ -430,12 +471,16 @@ def test_colour_analysis_structure(tmp_path):
     assert s1["visible"] and s1["pixels"] == 20 * 20 and s1["background"] == "ring 4 px"
     # Contrast against the 20 % grey ground, from the same luminances (definition).
     assert s1["weber_contrast"] == pytest.approx(
-        (s1["luminance_cd_m2"] - s1["background_luminance_cd_m2"]) / s1["background_luminance_cd_m2"], abs=2e-3)
+        (s1["luminance_cd_m2"] - s1["background_luminance_cd_m2"]) / s1["background_luminance_cd_m2"], abs=2e-3
+    )
     # Complete discounting of a line source's colour leaves only lightness: every sample is
     # named black, grey or white (analytic: all share the light's chromaticity).
     disc = colour_analysis(objects, {k: v[0] for k, v in setups.items()}, naming_adaptation="discounted")
-    assert {o["name"] for k, o in disc["setups"]["low-pressure sodium"]["objects"].items() if o["visible"]} \
-        <= {"black", "grey", "white"}
+    assert {o["name"] for k, o in disc["setups"]["low-pressure sodium"]["objects"].items() if o["visible"]} <= {
+        "black",
+        "grey",
+        "white",
+    }
     with pytest.raises(ValueError):
         colour_analysis(objects, {}, naming_adaptation="guess")
 
@@ -459,13 +504,25 @@ def test_pictures_are_written(tmp_path):
             terms[i][j] = o["name"]
     paths = [
         pictures.swatch_sheet(names, cols, labs, tmp_path / "swatches.png", terms=terms, title="as seen"),
-        pictures.delta_e_heatmap({"daylight": np.array(out["daylight"]["delta_e00"], float),
-                                  "LPS": np.array(out["setups"]["low-pressure sodium"]["delta_e00"], float)},
-                                 names, tmp_path / "heatmap.png"),
-        pictures.outlined_view(setups["LED"][1].srgb8, setups["LED"][0].object_id,
-                               {o.id: o.name for o in objects}, tmp_path / "view.png", title="LED"),
-        pictures.spectrum_strip_figure([("LPS", get_lamp("sodium-low-pressure").spd),
-                                        ("LED 3000 K", get_lamp("led-3000k-cie-b2").spd)], tmp_path / "strips.png"),
+        pictures.delta_e_heatmap(
+            {
+                "daylight": np.array(out["daylight"]["delta_e00"], float),
+                "LPS": np.array(out["setups"]["low-pressure sodium"]["delta_e00"], float),
+            },
+            names,
+            tmp_path / "heatmap.png",
+        ),
+        pictures.outlined_view(
+            setups["LED"][1].srgb8,
+            setups["LED"][0].object_id,
+            {o.id: o.name for o in objects},
+            tmp_path / "view.png",
+            title="LED",
+        ),
+        pictures.spectrum_strip_figure(
+            [("LPS", get_lamp("sodium-low-pressure").spd), ("LED 3000 K", get_lamp("led-3000k-cie-b2").spd)],
+            tmp_path / "strips.png",
+        ),
     ]
     for p in paths:
         img = iio.imread(p)

@@ -35,8 +35,17 @@ def run(tmp_path_factory):
 
 def test_every_output_written(run):
     view_dir = next(p for p in run.out_dir.iterdir() if p.is_dir())
-    for name in ("before.png", "after.png", "before-adapted.png", "after-adapted.png", "side-by-side.png", "wipe.gif",
-                 "before-falsecolour.png", "after-falsecolour.png", "falsecolour-legend.png"):
+    for name in (
+        "before.png",
+        "after.png",
+        "before-adapted.png",
+        "after-adapted.png",
+        "side-by-side.png",
+        "wipe.gif",
+        "before-falsecolour.png",
+        "after-falsecolour.png",
+        "falsecolour-legend.png",
+    ):
         assert (view_dir / name).stat().st_size > 0, name
     assert (run.out_dir / "metrics.json").exists() and (run.out_dir / "report.html").exists()
 
@@ -54,8 +63,15 @@ def test_png_metadata_traces_the_run(run):
 
 def test_report_escapes_scene_text(run):
     page = (run.out_dir / "report.html").read_text()
-    for raw in ("<script>alert('street')</script>", "<img src=x onerror=alert(1)>", "<svg onload=alert(2)>",
-                "<b>bold</b>", "<i>lamps</i>", "<em>before</em>", "<script>document.title='x'</script>"):
+    for raw in (
+        "<script>alert('street')</script>",
+        "<img src=x onerror=alert(1)>",
+        "<svg onload=alert(2)>",
+        "<b>bold</b>",
+        "<i>lamps</i>",
+        "<em>before</em>",
+        "<script>document.title='x'</script>",
+    ):
         assert raw not in page, raw
     assert html.escape("<script>alert('street')</script> & Co", quote=True) in page
     assert html.escape("<svg onload=alert(2)>", quote=True) in page
@@ -78,7 +94,18 @@ def test_report_numbers_equal_metrics_and_lamp_figures(run, capsys):
     assert main(["lamps", *metrics["lamps"], "--json"]) == 0
     printed = {row["id"]: row for row in json.loads(capsys.readouterr().out)}
     for lamp_id, figures in metrics["lamps"].items():
-        for key in ("cct_K", "ra", "r9", "rf_cie2017", "rf_tm30", "rg_tm30", "sp_ratio", "ler_lm_per_w", "blue_fraction", "notch_fraction"):
+        for key in (
+            "cct_K",
+            "ra",
+            "r9",
+            "rf_cie2017",
+            "rf_tm30",
+            "rg_tm30",
+            "sp_ratio",
+            "ler_lm_per_w",
+            "blue_fraction",
+            "notch_fraction",
+        ):
             a, b = figures.get(key), printed[lamp_id].get(key)
             if a is None or b is None:
                 assert a is None and b is None, (lamp_id, key)
@@ -95,8 +122,8 @@ def test_rerun_is_byte_identical(run, tmp_path):
 
 
 def test_command_line_setup_syntax(tmp_path):
-    from render.output.comparison import parse_setup
     from render.errors import InputError
+    from render.output.comparison import parse_setup
     from render.scene import load_scene
 
     scene = load_scene(ROOT / "scenes" / "demo" / "linden_row.toml")
@@ -135,9 +162,24 @@ def test_interrupted_run_leaves_no_half_written_final_file(tmp_path):
     # name must be complete (temporary files start with "." and are ignored by readers).
     for delay in (0.0, 0.15, 0.4):
         out = tmp_path / f"kill{delay}"
-        proc = subprocess.Popen([sys.executable, "-m", "render", "compare", str(SCENES / "markup_names.toml"),
-                                 "--before", "old", "--after", "new <u>LED</u>", "--out", str(out)],
-                                stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, cwd=ROOT)
+        proc = subprocess.Popen(
+            [
+                sys.executable,
+                "-m",
+                "render",
+                "compare",
+                str(SCENES / "markup_names.toml"),
+                "--before",
+                "old",
+                "--after",
+                "new <u>LED</u>",
+                "--out",
+                str(out),
+            ],
+            stdout=subprocess.DEVNULL,
+            stderr=subprocess.DEVNULL,
+            cwd=ROOT,
+        )
         deadline = time.time() + 120
         while time.time() < deadline and not (out.exists() and any(out.rglob("*.png"))):
             time.sleep(0.01)

@@ -37,7 +37,9 @@ def test_ggx_distribution_is_normalised(alpha):
 
 def test_water_f0():
     assert WATER_F0 == pytest.approx(((1.333 - 1) / (1.333 + 1)) ** 2) and 0.019 < WATER_F0 < 0.021
-    assert schlick_fresnel(1.0, WATER_F0) == pytest.approx(WATER_F0) and schlick_fresnel(0.0, WATER_F0) == pytest.approx(1.0)
+    assert schlick_fresnel(1.0, WATER_F0) == pytest.approx(WATER_F0) and schlick_fresnel(
+        0.0, WATER_F0
+    ) == pytest.approx(1.0)
 
 
 @pytest.mark.parametrize("theta_deg", [0.0, 30.0, 60.0])
@@ -72,8 +74,10 @@ def test_wet_street_flag_adds_a_water_layer(tmp_path):
     from render.scene import load_scene
 
     p = tmp_path / "wet.toml"
-    p.write_text('[street]\nlength_m = 20.0\ncarriageway_width_m = 6.0\nwet = true\n\n[[views]]\nname = "v"\n'
-                 'position_m = [1.0, 0.0]\ntarget_m = [10.0, 0.0, 0.0]\n')
+    p.write_text(
+        '[street]\nlength_m = 20.0\ncarriageway_width_m = 6.0\nwet = true\n\n[[views]]\nname = "v"\n'
+        "position_m = [1.0, 0.0]\ntarget_m = [10.0, 0.0, 0.0]\n"
+    )
     mesh = compile_scene(load_scene(p))
     gloss = dict(zip(mesh.material_names, mesh.material_gloss[:, 0]))
     assert gloss["asphalt-worn"] == pytest.approx(WATER_F0) and gloss["concrete-kerb"] == 0.0

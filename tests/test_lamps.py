@@ -15,7 +15,6 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from render.errors import InputError
 from render.colour.lamp_figures import (
     FIGURE_KEYS,
     figures_json,
@@ -25,15 +24,16 @@ from render.colour.lamp_figures import (
 )
 from render.colour.lamps import (
     LAMP_TYPES,
+    SODIUM_LOW_PRESSURE_LINES,
     Lamp,
     LineSpectrum,
-    SODIUM_LOW_PRESSURE_LINES,
     builtin_lamps,
     get_lamp,
     load_lamp_file,
 )
 from render.colour.observers import photopic, scale_to_photopic, sp_ratio
 from render.colour.spectra import N_BINS, WAVELENGTHS_NM, band_power, centroid_nm
+from render.errors import InputError
 
 colour = pytest.importorskip("colour")
 
@@ -119,6 +119,7 @@ def test_tabulated_lamp_matches_its_colour_science_table(lamps):
 
 # --- line sources ----------------------------------------------------------------------------
 
+
 def test_line_source_power_conserved_on_the_grid():
     # Analytic: deposit_lines conserves power, so the gridded LPS model holds the sum of its
     # line powers (to 0.1 %, the project's tolerance).
@@ -157,6 +158,7 @@ def test_mercury_line_model_peaks_at_nist_lines(lamps):
 
 # --- figures: rules of thumb and reference values ---------------------------------------------
 
+
 @pytest.mark.parametrize(
     "lamp_id, lo, hi",
     [
@@ -191,7 +193,10 @@ def test_ra_of_fl2_matches_colour_science_example(figures):
     assert figures["fluorescent-cie-fl2"]["ra"] == pytest.approx(64.2337, abs=0.1)
 
 
-@pytest.mark.parametrize("key, lamp_id", [("HP1", "sodium-high-pressure-cie-hp1"), ("LED-B3", "led-4000k-cie-b3"), ("HP3", "metal-halide-cie-hp3")])
+@pytest.mark.parametrize(
+    "key, lamp_id",
+    [("HP1", "sodium-high-pressure-cie-hp1"), ("LED-B3", "led-4000k-cie-b3"), ("HP3", "metal-halide-cie-hp3")],
+)
 def test_indices_match_colour_science_on_original_tables(figures, key, lamp_id):
     # Reference library: colour-science's Ra, Rf (CIE 2017) and TM-30 Rf/Rg on the original 5 nm
     # tables; gridding to 1 nm changes them by little.
@@ -272,6 +277,7 @@ def test_photopic_scaling_of_a_lamp(lamps):
 
 # --- table, JSON, plot -----------------------------------------------------------------------
 
+
 def test_table_and_json(lamps, figures):
     figs = list(figures.values())
     table = format_lamp_table(figs)
@@ -304,6 +310,7 @@ def test_plot_is_written_atomically(tmp_path, lamps):
 
 
 # --- get_lamp --------------------------------------------------------------------------------
+
 
 def test_get_lamp_by_id_and_unknown_ids(lamps):
     assert get_lamp("led-4000k-cie-b3") is lamps["led-4000k-cie-b3"]

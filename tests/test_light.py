@@ -54,7 +54,7 @@ def test_rendered_luminance_is_rho_e_over_pi(plane):
     p = b.point_m[surf].astype(np.float64)
     intensity = 10000.0 / (4.0 * math.pi)
     d2 = ((p - [0.0, 0.0, 5.0]) ** 2).sum(axis=1)
-    e_expected = intensity * 5.0 / d2 ** 1.5  # cos θ = h / d on the plane
+    e_expected = intensity * 5.0 / d2**1.5  # cos θ = h / d on the plane
     # Buffers hold E/π of a white diffuser, cd/m².
     np.testing.assert_allclose(b.value_cd_m2[surf, 0] * math.pi, e_expected, rtol=5e-3)
     # Colorimetry: Y = ρ_v·E/π with ρ_v the luminous reflectance under the lamp, computed here
@@ -75,7 +75,11 @@ def test_rendered_luminance_is_rho_e_over_pi(plane):
     rho_x = float((rho * s * cmfs_xyz()[:, 0]).sum() / (s * photopic_lef()).sum())
     np.testing.assert_allclose(X[full], per_pixel[full].mean(axis=1) * rho_x / rho_v, rtol=5e-3)
     Ys = view.colorimetry.scotopic_cd_m2.reshape(-1)
-    sp = KM_SCOTOPIC_LM_PER_W * float((rho * s * scotopic_lef()).sum()) / (KM_LM_PER_W * float((rho * s * photopic_lef()).sum()))
+    sp = (
+        KM_SCOTOPIC_LM_PER_W
+        * float((rho * s * scotopic_lef()).sum())
+        / (KM_LM_PER_W * float((rho * s * photopic_lef()).sum()))
+    )
     np.testing.assert_allclose(Ys[full], Y[full] * sp, rtol=5e-3)
 
 
@@ -126,15 +130,24 @@ def test_relight_equals_fresh_render(plane):
         relit = plane.relight(base, setup)
         fresh = plane.render_view("above", setup)
         np.testing.assert_allclose(relit.colorimetry.xyz_cd_m2, fresh.colorimetry.xyz_cd_m2, rtol=1e-6, atol=1e-9)
-        np.testing.assert_allclose(relit.colorimetry.scotopic_cd_m2, fresh.colorimetry.scotopic_cd_m2, rtol=1e-6, atol=1e-9)
+        np.testing.assert_allclose(
+            relit.colorimetry.scotopic_cd_m2, fresh.colorimetry.scotopic_cd_m2, rtol=1e-6, atol=1e-9
+        )
 
 
 def test_dimming_and_lumens_scale_linearly(plane):
     base = plane.render_view("above", "sodium")
     dimmed = plane.relight(base, "dimmed-hps")
-    hps = plane.relight(base, plane.scene.setups["dimmed-hps"].__class__("hps", "", {"*": type(plane.scene.setups["dimmed-hps"].groups["*"])(lamp="sodium-high-pressure-cie-hp1")}))
+    hps = plane.relight(
+        base,
+        plane.scene.setups["dimmed-hps"].__class__(
+            "hps", "", {"*": type(plane.scene.setups["dimmed-hps"].groups["*"])(lamp="sodium-high-pressure-cie-hp1")}
+        ),
+    )
     # 6000 lm at half output is 0.3 of 10 000 lm at full output (definition of the setup).
-    np.testing.assert_allclose(dimmed.colorimetry.luminance_cd_m2, 0.3 * hps.colorimetry.luminance_cd_m2, rtol=1e-6, atol=1e-12)
+    np.testing.assert_allclose(
+        dimmed.colorimetry.luminance_cd_m2, 0.3 * hps.colorimetry.luminance_cd_m2, rtol=1e-6, atol=1e-12
+    )
 
 
 def test_visible_opening_has_intensity_over_projected_area():

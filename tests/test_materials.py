@@ -17,7 +17,6 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from render.errors import InputError
 from render.colour.materials import (
     CLIP_TOLERANCE,
     MATERIALS_ENV,
@@ -33,6 +32,7 @@ from render.colour.materials import (
     plot_material,
 )
 from render.colour.spectra import N_BINS, WAVELENGTHS_NM
+from render.errors import InputError
 
 # colour-science warns when it aligns a 360-830 nm sample to D65's 300-780 nm; expected here.
 pytestmark = pytest.mark.filterwarnings("ignore::colour.utilities.ColourRuntimeWarning")
@@ -79,13 +79,48 @@ def test_library_size_and_required_categories(lib):
     # Categories the issue asks for (asphalt/concrete as road and paving, kerb and road paints,
     # brick as masonry, roof tile, metal, glass, wood, bark/grass/foliage as vegetation, soil,
     # gravel as stone, coloured objects as object paint).
-    required = {"road", "paving", "kerb", "paint", "masonry", "roof", "metal", "glass", "wood",
-                "vegetation", "soil", "stone", "object paint"}
+    required = {
+        "road",
+        "paving",
+        "kerb",
+        "paint",
+        "masonry",
+        "roof",
+        "metal",
+        "glass",
+        "wood",
+        "vegetation",
+        "soil",
+        "stone",
+        "object paint",
+    }
     assert required <= categories, required - categories
-    for mid in ("asphalt-new", "asphalt-worn", "concrete-paving", "concrete-kerb", "paint-road-white",
-                "paint-road-yellow", "paint-kerb-red", "brick", "roof-tile", "metal-galvanised",
-                "glass-clear", "wood", "bark", "soil", "gravel", "grass", "foliage", "object-red",
-                "object-blue", "object-green", "object-yellow", "skin-light", "skin-dark", "object-grey"):
+    for mid in (
+        "asphalt-new",
+        "asphalt-worn",
+        "concrete-paving",
+        "concrete-kerb",
+        "paint-road-white",
+        "paint-road-yellow",
+        "paint-kerb-red",
+        "brick",
+        "roof-tile",
+        "metal-galvanised",
+        "glass-clear",
+        "wood",
+        "bark",
+        "soil",
+        "gravel",
+        "grass",
+        "foliage",
+        "object-red",
+        "object-blue",
+        "object-green",
+        "object-yellow",
+        "skin-light",
+        "skin-dark",
+        "object-grey",
+    ):
         assert mid in lib, mid
 
 
@@ -303,7 +338,9 @@ def test_material_table_rows_and_text(lib):
     assert [r["id"] for r in rows] == sorted(lib)
     json.dumps(rows)  # JSON-ready
     row = next(r for r in rows if r["id"] == "object-grey")
-    assert row["luminous_reflectance_d65"] == pytest.approx(luminous_reflectance(lib["object-grey"].reflectance), abs=1e-4)
+    assert row["luminous_reflectance_d65"] == pytest.approx(
+        luminous_reflectance(lib["object-grey"].reflectance), abs=1e-4
+    )
     assert row["measured_range_nm"] == [380.0, 730.0]
     text = format_material_table(rows)
     for mid in lib:

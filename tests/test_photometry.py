@@ -19,8 +19,8 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from render.light import photometry as P
 from render.errors import InputError
+from render.light import photometry as P
 
 DATA = Path(__file__).parent / "data" / "photometry"
 
@@ -29,16 +29,26 @@ def read(name: str) -> P.Photometry:
     return P.read_lm63(DATA / name)
 
 
-def lm63_from_function(tmp_path: Path, func, vertical_deg, horizontal_deg=(0.0,), name="made.ies",
-                       lumens=1000.0, ptype=1) -> P.Photometry:
+def lm63_from_function(
+    tmp_path: Path, func, vertical_deg, horizontal_deg=(0.0,), name="made.ies", lumens=1000.0, ptype=1
+) -> P.Photometry:
     """Write an LM-63-2002 file of I = func(h, v) and read it back (exercises the parser)."""
     v = np.asarray(vertical_deg, float)
     h = np.asarray(horizontal_deg, float)
     rows = [" ".join(f"{func(hh, vv):.12g}" for vv in v) for hh in h]
-    text = "\n".join([
-        "IESNA:LM-63-2002", "[TEST] generated in a test", "TILT=NONE",
-        f"1 {lumens:g} 1 {v.size} {h.size} {ptype} 2 0 0 0", "1 1 0",
-        " ".join(f"{a:.12g}" for a in v), " ".join(f"{a:.12g}" for a in h), *rows, ""])
+    text = "\n".join(
+        [
+            "IESNA:LM-63-2002",
+            "[TEST] generated in a test",
+            "TILT=NONE",
+            f"1 {lumens:g} 1 {v.size} {h.size} {ptype} 2 0 0 0",
+            "1 1 0",
+            " ".join(f"{a:.12g}" for a in v),
+            " ".join(f"{a:.12g}" for a in h),
+            *rows,
+            "",
+        ]
+    )
     path = tmp_path / name
     path.write_text(text)
     return P.read_lm63(path)
@@ -49,12 +59,15 @@ def lm63_from_function(tmp_path: Path, func, vertical_deg, horizontal_deg=(0.0,)
 # --------------------------------------------------------------------------------------------
 
 
-@pytest.mark.parametrize("name, edition", [
-    ("rotational_1995.ies", "LM-63-1995"),     # first line IESNA:LM-63-1995 (LM-63, from memory)
-    ("quadrant_2002_feet.ies", "LM-63-2002"),  # IESNA:LM-63-2002
-    ("bilateral_0_180_2019.ies", "LM-63-2019"),  # IES:LM-63-2019
-    ("legacy_1986.ies", "LM-63-1986"),         # no edition line in the 1986 form
-])
+@pytest.mark.parametrize(
+    "name, edition",
+    [
+        ("rotational_1995.ies", "LM-63-1995"),  # first line IESNA:LM-63-1995 (LM-63, from memory)
+        ("quadrant_2002_feet.ies", "LM-63-2002"),  # IESNA:LM-63-2002
+        ("bilateral_0_180_2019.ies", "LM-63-2019"),  # IES:LM-63-2019
+        ("legacy_1986.ies", "LM-63-1986"),  # no edition line in the 1986 form
+    ],
+)
 def test_edition_line(name, edition):
     assert read(name).edition == edition
 
@@ -126,17 +139,36 @@ def test_wrapped_values_with_commas():
 
 WRITTEN = {
     "rotational_1995.ies": ("rotational", [0], [0, 45, 90, 135, 180], [[100, 80, 50, 20, 0]]),
-    "quadrant_2002_feet.ies": ("quadrant", [0, 45, 90], [0, 30, 60, 90],
-                               [[200, 180, 120, 10], [210, 190, 130, 15], [220, 200, 140, 20]]),
-    "bilateral_0_180_2019.ies": ("bilateral-0-180", [0, 90, 180], [0, 45, 90, 135, 180],
-                                 [[100, 90, 60, 10, 0], [150, 120, 70, 12, 0], [80, 70, 40, 8, 0]]),
-    "bilateral_90_270.ies": ("bilateral-90-270", [90, 135, 180, 225, 270], [0, 30, 60, 90],
-                             [[300, 250, 150, 0], [200, 220, 180, 0], [150, 200, 240, 0],
-                              [120, 130, 100, 0], [100, 90, 50, 0]]),
-    "full_0_270.ies": ("none", [0, 90, 180, 270], [0, 45, 90],
-                       [[10, 20, 30], [40, 50, 60], [70, 80, 90], [100, 110, 120]]),
-    "full_0_360.ies": ("none", [0, 90, 180, 270, 360], [0, 45, 90],
-                       [[10, 20, 30], [40, 50, 60], [70, 80, 90], [100, 110, 120], [10, 20, 30]]),
+    "quadrant_2002_feet.ies": (
+        "quadrant",
+        [0, 45, 90],
+        [0, 30, 60, 90],
+        [[200, 180, 120, 10], [210, 190, 130, 15], [220, 200, 140, 20]],
+    ),
+    "bilateral_0_180_2019.ies": (
+        "bilateral-0-180",
+        [0, 90, 180],
+        [0, 45, 90, 135, 180],
+        [[100, 90, 60, 10, 0], [150, 120, 70, 12, 0], [80, 70, 40, 8, 0]],
+    ),
+    "bilateral_90_270.ies": (
+        "bilateral-90-270",
+        [90, 135, 180, 225, 270],
+        [0, 30, 60, 90],
+        [[300, 250, 150, 0], [200, 220, 180, 0], [150, 200, 240, 0], [120, 130, 100, 0], [100, 90, 50, 0]],
+    ),
+    "full_0_270.ies": (
+        "none",
+        [0, 90, 180, 270],
+        [0, 45, 90],
+        [[10, 20, 30], [40, 50, 60], [70, 80, 90], [100, 110, 120]],
+    ),
+    "full_0_360.ies": (
+        "none",
+        [0, 90, 180, 270, 360],
+        [0, 45, 90],
+        [[10, 20, 30], [40, 50, 60], [70, 80, 90], [100, 110, 120], [10, 20, 30]],
+    ),
     "upward_only.ies": ("rotational", [0], [90, 120, 150, 180], [[50, 40, 20, 5]]),
 }
 
@@ -232,9 +264,9 @@ def test_tilt_include():
     ph = read("tilt_include.ies")
     assert ph.tilt.geometry == 1 and ph.tilt.origin == "INCLUDE"
     np.testing.assert_array_equal(ph.tilt.angles_deg, [0, 15, 30, 45, 60])
-    assert P.tilt_factor(ph, 22.5) == pytest.approx(0.925)   # linear between 0.95 and 0.9
+    assert P.tilt_factor(ph, 22.5) == pytest.approx(0.925)  # linear between 0.95 and 0.9
     assert P.tilt_factor(ph, -30.0) == pytest.approx(0.9)
-    assert P.tilt_factor(ph, 80.0) == pytest.approx(0.8)     # held at the last value
+    assert P.tilt_factor(ph, 80.0) == pytest.approx(0.8)  # held at the last value
     tilted = P.apply_tilt(ph, 30.0)
     np.testing.assert_allclose(tilted.candela_cd, 0.9 * ph.candela_cd)
     np.testing.assert_array_equal(ph.file_candela_cd[0], [100, 80, 60])  # data follow the tilt block
@@ -318,8 +350,12 @@ def test_lambertian_flux_is_pi_i0(tmp_path, step_deg, rel):
     # interpolant of cos γ, so the error falls as step²: |error| ≤ step²/8 · I0 pointwise
     # (linear interpolation bound), which gives the tolerances used.
     i0 = 800.0
-    ph = lm63_from_function(tmp_path, lambda h, v: i0 * math.cos(math.radians(v)),
-                            np.linspace(0, 90, int(round(90 / step_deg)) + 1), horizontal_deg=(0, 90))
+    ph = lm63_from_function(
+        tmp_path,
+        lambda h, v: i0 * math.cos(math.radians(v)),
+        np.linspace(0, 90, int(round(90 / step_deg)) + 1),
+        horizontal_deg=(0, 90),
+    )
     assert P.luminous_flux_lm(ph) == pytest.approx(math.pi * i0, rel=rel)
     assert P.ulor(ph) == 0.0
 
@@ -329,8 +365,15 @@ def test_flux_matches_scipy_quadrature_of_the_interpolant():
     from scipy.integrate import dblquad
 
     ph = read("bilateral_90_270.ies")
-    ref, _ = dblquad(lambda g, c: P.intensity_cd(ph, math.degrees(c), math.degrees(g)) * math.sin(g),
-                     0.0, 2 * math.pi, 0.0, math.pi / 2, epsabs=1e-6, epsrel=1e-9)
+    ref, _ = dblquad(
+        lambda g, c: P.intensity_cd(ph, math.degrees(c), math.degrees(g)) * math.sin(g),
+        0.0,
+        2 * math.pi,
+        0.0,
+        math.pi / 2,
+        epsabs=1e-6,
+        epsrel=1e-9,
+    )
     assert P.luminous_flux_lm(ph) == pytest.approx(ref, rel=1e-6)
 
 
@@ -340,8 +383,12 @@ def test_zonal_flux_with_a_split_inside_a_cell():
     import scipy.integrate
 
     ph = read("rotational_1995.ies")
-    lower, _ = scipy.integrate.quad(lambda g: P.intensity_cd(ph, 0.0, math.degrees(g)) * math.sin(g),
-                                    0.0, math.radians(60.0), points=[math.radians(45.0)])
+    lower, _ = scipy.integrate.quad(
+        lambda g: P.intensity_cd(ph, 0.0, math.degrees(g)) * math.sin(g),
+        0.0,
+        math.radians(60.0),
+        points=[math.radians(45.0)],
+    )
     assert P.zonal_flux_lm(ph, 0.0, 60.0) == pytest.approx(2 * math.pi * lower, rel=1e-9)
 
 
@@ -376,8 +423,9 @@ def test_builtin_road_optic_properties():
     np.testing.assert_allclose(P.intensity_cd(ph, 30.0, g), P.intensity_cd(ph, 150.0, g), rtol=1e-6)
 
 
-@pytest.mark.parametrize("ident", ["generic-road-asymmetric", "generic-post-top",
-                                   "generic-full-cutoff", "generic-isotropic"])
+@pytest.mark.parametrize(
+    "ident", ["generic-road-asymmetric", "generic-post-top", "generic-full-cutoff", "generic-isotropic"]
+)
 def test_builtin_files_are_generic_and_integrate_to_rated_lumens(ident):
     ph = P.load_photometry(ident)
     assert "not a product" in ph.keywords["TEST"] and "not a product" in ph.keywords["MANUFAC"]
@@ -391,7 +439,8 @@ def test_builtin_files_regenerate_identically(monkeypatch):
     import sys
 
     spec = importlib.util.spec_from_file_location(
-        "make_generic_photometry", Path(__file__).parents[1] / "tools" / "make_generic_photometry.py")
+        "make_generic_photometry", Path(__file__).parents[1] / "tools" / "make_generic_photometry.py"
+    )
     tool = importlib.util.module_from_spec(spec)
     monkeypatch.setitem(sys.modules, spec.name, tool)  # dataclasses look their module up there
     spec.loader.exec_module(tool)
@@ -419,8 +468,8 @@ def test_rotation_matrix_is_proper_orthonormal():
 def test_world_to_c_gamma_basic_directions():
     r = P.luminaire_rotation(0.0, 0.0)
     c, g = P.world_to_c_gamma([[0, 0, -1], [0, 1, 0], [1, 0, 0], [0, 0, 1], [-1, 0, -1]], r)
-    np.testing.assert_allclose(g, [0, 90, 90, 180, 45], atol=1e-12)   # straight down = γ 0
-    np.testing.assert_allclose(c[1:3], [90, 0], atol=1e-12)           # local +y = C 90, γ 90
+    np.testing.assert_allclose(g, [0, 90, 90, 180, 45], atol=1e-12)  # straight down = γ 0
+    np.testing.assert_allclose(c[1:3], [90, 0], atol=1e-12)  # local +y = C 90, γ 90
     assert c[4] == pytest.approx(180.0)
 
 
@@ -482,11 +531,11 @@ def test_type_b_values_on_the_axes():
     ph = read("type_b_2002.ies")
     assert ph.photometric_type == "B" and ph.symmetry == "b-h"
     assert P.intensity_cd(ph, 0.0, 0.0) == pytest.approx(100.0)
-    assert P.intensity_cd(ph, 90.0, 45.0) == pytest.approx(60.0)    # H 0, V +45
-    assert P.intensity_cd(ph, 270.0, 45.0) == pytest.approx(50.0)   # H 0, V -45
-    assert P.intensity_cd(ph, 0.0, 30.0) == pytest.approx(80.0)     # H +30, V 0
-    assert P.intensity_cd(ph, 180.0, 30.0) == pytest.approx(80.0)   # H -30 mirrored
-    assert P.intensity_cd(ph, 0.0, 120.0) == 0.0                    # behind the floodlight
+    assert P.intensity_cd(ph, 90.0, 45.0) == pytest.approx(60.0)  # H 0, V +45
+    assert P.intensity_cd(ph, 270.0, 45.0) == pytest.approx(50.0)  # H 0, V -45
+    assert P.intensity_cd(ph, 0.0, 30.0) == pytest.approx(80.0)  # H +30, V 0
+    assert P.intensity_cd(ph, 180.0, 30.0) == pytest.approx(80.0)  # H -30 mirrored
+    assert P.intensity_cd(ph, 0.0, 120.0) == 0.0  # behind the floodlight
 
 
 def test_type_b_angle_conversion_round_trip():
@@ -510,12 +559,18 @@ def test_type_b_hemisphere_fluxes(tmp_path):
     # constant I over the front hemisphere -> 2πI; I0 cos H cos V = I0 cos(angle from the beam)
     # -> π I0 (analytic). The resampled table must keep these within the interpolation error.
     v = np.arange(-90.0, 90.1, 5.0)
-    const = lm63_from_function(tmp_path, lambda h, vv: 50.0, v, horizontal_deg=np.arange(-90.0, 90.1, 5.0),
-                               name="b1.ies", ptype=2)
+    const = lm63_from_function(
+        tmp_path, lambda h, vv: 50.0, v, horizontal_deg=np.arange(-90.0, 90.1, 5.0), name="b1.ies", ptype=2
+    )
     assert P.luminous_flux_lm(const) == pytest.approx(2 * math.pi * 50.0, rel=1e-9)
-    lam = lm63_from_function(tmp_path, lambda h, vv: 50.0 * math.cos(math.radians(h)) * math.cos(math.radians(vv)),
-                             np.arange(0.0, 90.1, 2.5), horizontal_deg=np.arange(0.0, 90.1, 2.5),
-                             name="b2.ies", ptype=2)
+    lam = lm63_from_function(
+        tmp_path,
+        lambda h, vv: 50.0 * math.cos(math.radians(h)) * math.cos(math.radians(vv)),
+        np.arange(0.0, 90.1, 2.5),
+        horizontal_deg=np.arange(0.0, 90.1, 2.5),
+        name="b2.ies",
+        ptype=2,
+    )
     assert lam.symmetry == "b-hv"
     assert P.luminous_flux_lm(lam) == pytest.approx(math.pi * 50.0, rel=2e-3)
 
@@ -550,6 +605,6 @@ def test_plot_polar_writes_png_atomically(tmp_path):
     out = tmp_path / "plots" / "road.png"
     P.plot_polar(P.load_photometry("generic-road-asymmetric"), out)
     assert out.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
-    assert [p.name for p in out.parent.iterdir()] == ["road.png"]   # no temporary file left
+    assert [p.name for p in out.parent.iterdir()] == ["road.png"]  # no temporary file left
     text = P.describe_photometry_file("absolute_2002.ies", base_dir=DATA, plot_path=tmp_path / "abs.png")
     assert (tmp_path / "abs.png").is_file() and "polar plot" in text

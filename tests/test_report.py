@@ -34,6 +34,7 @@ HOSTILE_AMP = "Tom & Jerry's lane"
 
 # --- synthetic inputs (also used by tests/test_report_browser.py) ------------------------------
 
+
 def _street_image(width: int, height: int, warm: bool, gain: float, seed: int) -> np.ndarray:
     """An 8-bit sRGB picture of a street-like pattern: dark sky, lit road, two pools of light
     (smooth, so that a sub-pixel shift on screen changes little)."""
@@ -78,8 +79,12 @@ def _write(out_dir: Path, rel: str, pixels: np.ndarray, **kwargs) -> str:
 
 
 def _stats(lum: np.ndarray) -> dict:
-    return {"mean": float(lum.mean()), "min": float(lum.min()), "median": float(np.median(lum)),
-            "p95": float(np.percentile(lum, 95))}
+    return {
+        "mean": float(lum.mean()),
+        "min": float(lum.min()),
+        "median": float(np.median(lum)),
+        "p95": float(np.percentile(lum, 95)),
+    }
 
 
 def green_line_lamp(tmp_path: Path) -> dict:
@@ -90,8 +95,15 @@ def green_line_lamp(tmp_path: Path) -> dict:
     return json.loads(json.dumps(lamp_figures(load_lamp_file(path))))
 
 
-def make_inputs(out_dir: Path, *, scene_name: str = "Linden Row, east end", view_names=("kerbside", "crossing"),
-                width: int = 320, height: int = 200, green_lamp_dir: Path | None = None) -> dict:
+def make_inputs(
+    out_dir: Path,
+    *,
+    scene_name: str = "Linden Row, east end",
+    view_names=("kerbside", "crossing"),
+    width: int = 320,
+    height: int = 200,
+    green_lamp_dir: Path | None = None,
+) -> dict:
     """Write synthetic images for the views into ``out_dir`` and return a metrics dict of the
     compare contract (as metrics.json would hold it)."""
     out_dir.mkdir(parents=True, exist_ok=True)
@@ -103,31 +115,44 @@ def make_inputs(out_dir: Path, *, scene_name: str = "Linden Row, east end", view
         before_adapted = _street_image(width, height, True, 1.3, 30 + i)
         after_adapted = _street_image(width, height, False, 1.3, 40 + i)
         lum_b, lum_a = _luminance(width, height, 1.5), _luminance(width, height, 0.9)
-        wipe = np.stack([np.where(np.arange(width)[None, :, None] < k * width // 4, after_shared, before_shared)
-                         for k in range(5)])
+        wipe = np.stack(
+            [np.where(np.arange(width)[None, :, None] < k * width // 4, after_shared, before_shared) for k in range(5)]
+        )
         images = {
             "before_shared": _write(out_dir, f"{d}/before_shared.png", before_shared),
             "after_shared": _write(out_dir, f"{d}/after_shared.png", after_shared),
             "before_adapted": _write(out_dir, f"{d}/before_adapted.png", before_adapted),
             "after_adapted": _write(out_dir, f"{d}/after_adapted.png", after_adapted),
-            "side_by_side": _write(out_dir, f"{d}/side_by_side.png", np.concatenate([before_shared, after_shared], axis=1)),
+            "side_by_side": _write(
+                out_dir, f"{d}/side_by_side.png", np.concatenate([before_shared, after_shared], axis=1)
+            ),
             "wipe": _write(out_dir, f"{d}/wipe.gif", wipe, duration=300, loop=0),
             "falsecolour_before": _write(out_dir, f"{d}/falsecolour_before.png", _falsecolour(lum_b, 0.01, 10.0)),
             "falsecolour_after": _write(out_dir, f"{d}/falsecolour_after.png", _falsecolour(lum_a, 0.01, 10.0)),
             "falsecolour_legend": _write(out_dir, f"{d}/falsecolour_legend.png", _legend(height)),
         }
-        views.append({
-            "name": view_name, "notes": f"Eye height 1.6 m, looking along the street ({view_name}).",
-            "images": images,
-            "luminance_cd_m2": {"before": _stats(lum_b), "after": _stats(lum_a)},
-            "adaptation_cd_m2": {"before": float(np.median(lum_b)), "after": float(np.median(lum_a)),
-                                 "shared": float(np.sqrt(np.median(lum_b) * np.median(lum_a)))},
-        })
-    lamps = {lid: json.loads(json.dumps(lamp_figures(get_lamp(lid))))
-             for lid in ("sodium-high-pressure-cie-hp1", "led-3000k-cie-b2", "led-2700k-cie-b1")}
+        views.append(
+            {
+                "name": view_name,
+                "notes": f"Eye height 1.6 m, looking along the street ({view_name}).",
+                "images": images,
+                "luminance_cd_m2": {"before": _stats(lum_b), "after": _stats(lum_a)},
+                "adaptation_cd_m2": {
+                    "before": float(np.median(lum_b)),
+                    "after": float(np.median(lum_a)),
+                    "shared": float(np.sqrt(np.median(lum_b) * np.median(lum_a))),
+                },
+            }
+        )
+    lamps = {
+        lid: json.loads(json.dumps(lamp_figures(get_lamp(lid))))
+        for lid in ("sodium-high-pressure-cie-hp1", "led-3000k-cie-b2", "led-2700k-cie-b1")
+    }
     after_lamps = ["led-3000k-cie-b2", "led-2700k-cie-b1"]
-    groups_after = {"main road": {"lamp": "led-3000k-cie-b2", "lumens": 6200.0, "dimming": 0.8},
-                    "footpath": {"lamp": "led-2700k-cie-b1", "lumens": None, "dimming": 1.0}}
+    groups_after = {
+        "main road": {"lamp": "led-3000k-cie-b2", "lumens": 6200.0, "dimming": 0.8},
+        "footpath": {"lamp": "led-2700k-cie-b1", "lumens": None, "dimming": 1.0},
+    }
     if green_lamp_dir is not None:
         green = green_line_lamp(green_lamp_dir)
         lamps[green["id"]] = green
@@ -135,30 +160,51 @@ def make_inputs(out_dir: Path, *, scene_name: str = "Linden Row, east end", view
         groups_after["feature"] = {"lamp": green["id"], "lumens": 300.0, "dimming": 0.5}
     return {
         "tool": {"name": "lampcast", "version": "0.1.0"},
-        "scene": {"name": scene_name, "description": "A residential street of terraced houses.",
-                  "notes": "Demo street of our own.", "file": "scenes/demo/linden_row.toml",
-                  "sha256": hashlib.sha256(b"synthetic scene").hexdigest()},
+        "scene": {
+            "name": scene_name,
+            "description": "A residential street of terraced houses.",
+            "notes": "Demo street of our own.",
+            "file": "scenes/demo/linden_row.toml",
+            "sha256": hashlib.sha256(b"synthetic scene").hexdigest(),
+        },
         "observer": {"age_years": 60.0, "pigmentation": 0.5, "display_peak_cd_m2": 200.0, "adaptation_cd_m2": None},
         "settings": {"samples_per_pixel": 16, "seed": 7, "width_px": width, "height_px": height},
         "setups": {
-            "before": {"name": "sodium, as built", "description": "High-pressure sodium lanterns.",
-                       "lamps": ["sodium-high-pressure-cie-hp1"],
-                       "groups": {"*": {"lamp": "sodium-high-pressure-cie-hp1", "lumens": None, "dimming": 1.0}}},
-            "after": {"name": "warm LED proposal", "description": "3000 K LED on the road, 2700 K on the path.",
-                      "lamps": after_lamps, "groups": groups_after},
+            "before": {
+                "name": "sodium, as built",
+                "description": "High-pressure sodium lanterns.",
+                "lamps": ["sodium-high-pressure-cie-hp1"],
+                "groups": {"*": {"lamp": "sodium-high-pressure-cie-hp1", "lumens": None, "dimming": 1.0}},
+            },
+            "after": {
+                "name": "warm LED proposal",
+                "description": "3000 K LED on the road, 2700 K on the path.",
+                "lamps": after_lamps,
+                "groups": groups_after,
+            },
         },
         "lamps": lamps,
         "views": views,
-        "summary": ["The street will look about 40% darker to a driver arriving from the main road.",
-                    "Colours of cars and bins will be easier to tell apart."],
+        "summary": [
+            "The street will look about 40% darker to a driver arriving from the main road.",
+            "Colours of cars and bins will be easier to tell apart.",
+        ],
         "cautions": ["Surface reflectances are library values, not measured on this street."],
-        "extra_sections": [{
-            "title": "Colour differences", "html_id": "colour",
-            "paragraphs": ["How far selected surfaces move in colour between the two lightings."],
-            "tables": [{"caption": "CIEDE2000 between before and after", "columns": ["surface", "ΔE00", "samples"],
-                        "rows": [["red car", 12.3456, 40], ["green bin", 3.14159, 12], ["kerb", None, 0]]}],
-            "images": [views[0]["images"]["side_by_side"]],
-        }],
+        "extra_sections": [
+            {
+                "title": "Colour differences",
+                "html_id": "colour",
+                "paragraphs": ["How far selected surfaces move in colour between the two lightings."],
+                "tables": [
+                    {
+                        "caption": "CIEDE2000 between before and after",
+                        "columns": ["surface", "ΔE00", "samples"],
+                        "rows": [["red car", 12.3456, 40], ["green bin", 3.14159, 12], ["kerb", None, 0]],
+                    }
+                ],
+                "images": [views[0]["images"]["side_by_side"]],
+            }
+        ],
     }
 
 
@@ -235,6 +281,7 @@ def report(tmp_path_factory):
 
 # --- tests -------------------------------------------------------------------------------------
 
+
 def test_write_report_returns_the_report_path(report):
     out, _, path, text = report
     assert path == out / "report.html" and path.is_file()
@@ -300,25 +347,28 @@ def test_output_is_deterministic(tmp_path):
     assert write_report(tmp_path, json.loads(json.dumps(metrics))).read_bytes() == first
 
 
-@pytest.mark.parametrize("value, rule, shown", [
-    # Worked by hand from the definitions of significant figures and decimal rounding
-    # (common practice, no source).
-    (0.012345, "sig3", "0.0123"),
-    (0.09996, "sig3", "0.100"),
-    (1234.5, "sig3", "1230"),
-    (12.0, "sig3", "12.0"),
-    (0.0, "sig3", "0"),
-    (-0.5, "sig3", MINUS + "0.500"),
-    (-45.378, "fixed0", MINUS + "45"),
-    (2.5, "fixed0", "2"),  # 2.5 is exact in binary: ties to even
-    (0.00321, "signed4", "+0.0032"),
-    (-0.00004, "signed4", "0.0000"),
-    (0.4567, "percent1", "45.7"),
-    (0.8, "percent0", "80"),
-    (16, "int", "16"),
-    (None, "fixed2", DASH),
-    (float("nan"), "sig3", DASH),
-])
+@pytest.mark.parametrize(
+    "value, rule, shown",
+    [
+        # Worked by hand from the definitions of significant figures and decimal rounding
+        # (common practice, no source).
+        (0.012345, "sig3", "0.0123"),
+        (0.09996, "sig3", "0.100"),
+        (1234.5, "sig3", "1230"),
+        (12.0, "sig3", "12.0"),
+        (0.0, "sig3", "0"),
+        (-0.5, "sig3", MINUS + "0.500"),
+        (-45.378, "fixed0", MINUS + "45"),
+        (2.5, "fixed0", "2"),  # 2.5 is exact in binary: ties to even
+        (0.00321, "signed4", "+0.0032"),
+        (-0.00004, "signed4", "0.0000"),
+        (0.4567, "percent1", "45.7"),
+        (0.8, "percent0", "80"),
+        (16, "int", "16"),
+        (None, "fixed2", DASH),
+        (float("nan"), "sig3", DASH),
+    ],
+)
 def test_format_value_worked_examples(value, rule, shown):
     assert format_value(value, rule) == shown
 
@@ -381,7 +431,7 @@ def test_data_metric_cells_reproduce_metrics_json(report):
 def test_no_external_references(report):
     _, _, _, text = report
     lowered = text.lower()
-    for needle in ("http://", "https://", "@import", "url(", 'src="//', 'href="//', "ftp://", "<link rel=\"stylesheet"):
+    for needle in ("http://", "https://", "@import", "url(", 'src="//', 'href="//', "ftp://", '<link rel="stylesheet'):
         assert needle not in lowered, needle
     for n in parse(text).root.iter():
         for name in ("src", "href", "action", "poster", "data"):
@@ -389,7 +439,9 @@ def test_no_external_references(report):
                 v = n.attrs[name]
                 assert v.startswith("data:") or v.startswith("#"), (n.tag, name, v[:60])
     # A Content-Security-Policy forbids any fetch but data: images and the hashed inline code.
-    assert re.search(r'http-equiv="Content-Security-Policy" content="default-src &#x27;none&#x27;; img-src data:;', text)
+    assert re.search(
+        r'http-equiv="Content-Security-Policy" content="default-src &#x27;none&#x27;; img-src data:;', text
+    )
 
 
 def test_csp_hashes_match_inline_code(report):

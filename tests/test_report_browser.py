@@ -27,14 +27,22 @@ from pathlib import Path
 import imageio.v3 as iio
 import numpy as np
 import pytest
+from test_report import make_inputs
 
 from render.fileio import atomic_write_bytes
 from render.output.report import write_report
-from test_report import make_inputs
 
 CHROMIUM = Path("/usr/bin/chromium")
-CHROMIUM_ARGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-                 "--disable-background-networking", "--disable-component-update", "--disable-sync"]
+CHROMIUM_ARGS = [
+    "--headless",
+    "--no-sandbox",
+    "--disable-gpu",
+    "--disable-quic",
+    "--no-first-run",
+    "--disable-background-networking",
+    "--disable-component-update",
+    "--disable-sync",
+]
 WIDTH, HEIGHT = 320, 200
 
 
@@ -118,8 +126,11 @@ def test_report_in_headless_chromium(served_report, tmp_path):
             atomic_write_bytes(keep / name, png)
         return png
 
-    images = {k: iio.imread(source / v)[..., :3].astype(np.int16) for k, v in metrics["views"][0]["images"].items()
-              if v.endswith(".png")}
+    images = {
+        k: iio.imread(source / v)[..., :3].astype(np.int16)
+        for k, v in metrics["views"][0]["images"].items()
+        if v.endswith(".png")
+    }
     left, right = slice(10, WIDTH // 2 - 10), slice(WIDTH // 2 + 10, WIDTH - 10)
 
     console, errors, requests = [], [], []
@@ -160,7 +171,9 @@ def test_report_in_headless_chromium(served_report, tmp_path):
             assert slider.input_value() == "0"
             all_after = _pixels(save("slider_0_shared.png", stage.screenshot()))
             assert not np.array_equal(all_after, mid)
-            assert _matches(all_after, images["after_shared"], left) and _matches(all_after, images["after_shared"], right)
+            assert _matches(all_after, images["after_shared"], left) and _matches(
+                all_after, images["after_shared"], right
+            )
             page.keyboard.press("ArrowRight")
             assert slider.input_value() == "1"
             assert slider.get_attribute("aria-valuetext") == "divide at 1% of the width"
@@ -181,7 +194,9 @@ def test_report_in_headless_chromium(served_report, tmp_path):
             assert page.locator("#compare-0").get_attribute("data-exposure") == "adapted"
             adapted = _pixels(save("slider_50_adapted.png", stage.screenshot()))
             assert not np.array_equal(adapted, mid)
-            assert _matches(adapted, images["before_adapted"], left) and _matches(adapted, images["after_adapted"], right)
+            assert _matches(adapted, images["before_adapted"], left) and _matches(
+                adapted, images["after_adapted"], right
+            )
             assert page.locator("#stage-0 img.before.adapted").is_visible()
             assert not page.locator("#stage-0 img.before.shared").is_visible()
             save("view_0_section.png", page.locator("#view-0").screenshot())

@@ -60,6 +60,7 @@ def test_demo_has_tagged_objects_and_two_setups():
 
 # ---- error classes: each message names the file and the key (or line) ----------------------
 
+
 def test_unknown_key_with_did_you_mean(tmp_path):
     p = write(tmp_path, BASE.replace("length_m = 30.0", "lenght_m = 30.0\nlength_m = 30.0"))
     (problem,) = problems_of(p)
@@ -103,20 +104,29 @@ def test_negative_size(tmp_path):
 
 
 def test_unknown_material(tmp_path):
-    p = write(tmp_path, BASE.replace("carriageway_width_m = 6.0", 'carriageway_width_m = 6.0\ncarriageway_material = "asphalt-wron"'))
+    p = write(
+        tmp_path,
+        BASE.replace("carriageway_width_m = 6.0", 'carriageway_width_m = 6.0\ncarriageway_material = "asphalt-wron"'),
+    )
     (problem,) = problems_of(p)
     assert problem.where == "street.carriageway_material"
     assert "unknown material 'asphalt-wron'" in problem.message and "did you mean 'asphalt-worn'" in problem.message
 
 
 def test_unknown_lamp(tmp_path):
-    text = BASE + '\n[[luminaire_rows]]\nspacing_m = 20.0\ncount = 1\nmounting_height_m = 6.0\nlamp = "led-4000k-cie-b33"\n'
+    text = (
+        BASE
+        + '\n[[luminaire_rows]]\nspacing_m = 20.0\ncount = 1\nmounting_height_m = 6.0\nlamp = "led-4000k-cie-b33"\n'
+    )
     (problem,) = problems_of(write(tmp_path, text))
     assert problem.where == "luminaire_rows[0].lamp" and "unknown lamp" in problem.message
 
 
 def test_unknown_photometry(tmp_path):
-    text = BASE + '\n[[luminaires]]\nposition_m = [5.0, 3.0, 6.0]\nlamp = "led-4000k-cie-b3"\nphotometry = "generic-post-topp"\n'
+    text = (
+        BASE
+        + '\n[[luminaires]]\nposition_m = [5.0, 3.0, 6.0]\nlamp = "led-4000k-cie-b3"\nphotometry = "generic-post-topp"\n'
+    )
     (problem,) = problems_of(write(tmp_path, text))
     assert problem.where == "luminaires[0].photometry" and "did you mean 'generic-post-top'" in problem.message
 
@@ -142,13 +152,16 @@ def test_toml_syntax_error_names_line(tmp_path):
 
 
 def test_object_parameter_checked_by_name_type_and_range(tmp_path):
-    text = BASE + """
+    text = (
+        BASE
+        + """
 [[objects]]
 kind = "car"
 position_m = [5.0, 2.0]
 params = { body_stlye = "van", length_m = 50.0 }
 materials = { bodywork = "object-red" }
 """
+    )
     problems = problems_of(write(tmp_path, text))
     wheres = {p.where for p in problems}
     assert {"objects[0].params.body_stlye", "objects[0].params.length_m", "objects[0].materials.bodywork"} <= wheres
@@ -161,7 +174,9 @@ def test_unknown_object_kind(tmp_path):
 
 
 def test_several_mistakes_reported_together(tmp_path):
-    text = BASE.replace("length_m = 30.0", "length_m = -1.0").replace("resolution = [16, 9]", "resolution = [16, 9]\nhfov_deg = 400.0")
+    text = BASE.replace("length_m = 30.0", "length_m = -1.0").replace(
+        "resolution = [16, 9]", "resolution = [16, 9]\nhfov_deg = 400.0"
+    )
     text += '\n[[luminaire_rows]]\nspacing_m = 20.0\ncount = 1\nmounting_height_m = 6.0\nlamp = "no-such-lamp"\n'
     problems = problems_of(write(tmp_path, text))
     wheres = {p.where for p in problems}
@@ -169,7 +184,9 @@ def test_several_mistakes_reported_together(tmp_path):
 
 
 def test_duplicate_names_and_unknown_setup_group(tmp_path):
-    text = BASE + """
+    text = (
+        BASE
+        + """
 [[objects]]
 kind = "bollard"
 name = "post"
@@ -188,6 +205,7 @@ group = "main"
 [setups.x.groups.mian]
 lamp = "led-3000k-cie-b2"
 """
+    )
     problems = problems_of(write(tmp_path, text))
     messages = " | ".join(f"{p.where}: {p.message}" for p in problems)
     assert "objects[1].name" in messages and "already used" in messages
@@ -204,6 +222,7 @@ def test_cli_check_exits_2_without_traceback(tmp_path, capsys):
 
 
 # ---- placement and geometry (analytic, from the documented cross-section) --------------------
+
 
 def test_row_layouts_positions():
     scene = load_scene(SCENES / "tests" / "all_kinds.toml")
@@ -246,8 +265,25 @@ def test_every_kind_compiles_with_unit_normals():
     assert np.all(np.isfinite(mesh.triangles_m))
     assert np.allclose(np.linalg.norm(mesh.normals, axis=-1), 1.0, atol=1e-6)
     kinds = {o.kind for o in mesh.objects}
-    for kind in ("car", "wheelie_bin", "tree", "hedge", "bollard", "bus_shelter", "sign", "pedestrian",
-                 "box", "cylinder", "sphere", "extrusion", "obj", "marking", "lamp column", "house frontage", "shop frontage"):
+    for kind in (
+        "car",
+        "wheelie_bin",
+        "tree",
+        "hedge",
+        "bollard",
+        "bus_shelter",
+        "sign",
+        "pedestrian",
+        "box",
+        "cylinder",
+        "sphere",
+        "extrusion",
+        "obj",
+        "marking",
+        "lamp column",
+        "house frontage",
+        "shop frontage",
+    ):
         assert kind in kinds, kind
     car = next(o for o in mesh.objects if o.name == "car")
     assert car.inspect

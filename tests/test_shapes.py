@@ -16,9 +16,9 @@ from pathlib import Path
 import numpy as np
 import pytest
 
+from render.errors import InputError
 from render.geometry import objects as O
 from render.geometry import shapes as S
-from render.errors import InputError
 from render.geometry.mesh import face_normals, flat_normals
 
 DATA = Path(__file__).parent / "data" / "obj"
@@ -116,12 +116,15 @@ def test_box_min_max_and_face_slots():
     assert S.signed_volume_m3(parts) == pytest.approx(6.0, rel=1e-12)  # analytic 1·2·3
 
 
-@pytest.mark.parametrize("kwargs, word", [
-    (dict(centre_m=(0, 0, 0), size_m=(1, -1, 1)), "size_m"),
-    (dict(centre_m=(0, 0, 0), size_m=(1, 1, float("nan"))), "size_m"),
-    (dict(min_m=(0, 0, 0), max_m=(1, 0, 1)), "max_m"),
-    (dict(centre_m=(0, 0, 0)), "either"),
-])
+@pytest.mark.parametrize(
+    "kwargs, word",
+    [
+        (dict(centre_m=(0, 0, 0), size_m=(1, -1, 1)), "size_m"),
+        (dict(centre_m=(0, 0, 0), size_m=(1, 1, float("nan"))), "size_m"),
+        (dict(min_m=(0, 0, 0), max_m=(1, 0, 1)), "max_m"),
+        (dict(centre_m=(0, 0, 0)), "either"),
+    ],
+)
 def test_box_bad_arguments(kwargs, word):
     with pytest.raises(ValueError, match=word):
         S.box(**kwargs)
@@ -212,11 +215,13 @@ def test_icosahedron_volume_exact():
     # Regular icosahedron of circumradius R has edge a = R / sin(2π/5) and volume
     # V = (5/12)(3 + √5) a³ (standard polyhedron formulas).
     a = r / math.sin(2 * math.pi / 5)
-    assert S.signed_volume_m3(parts) == pytest.approx(5 / 12 * (3 + math.sqrt(5)) * a ** 3, rel=1e-12)
+    assert S.signed_volume_m3(parts) == pytest.approx(5 / 12 * (3 + math.sqrt(5)) * a**3, rel=1e-12)
 
 
-@pytest.mark.parametrize("method, kw", [("ico", dict(subdivisions=1)), ("ico", dict(subdivisions=3)),
-                                        ("uv", dict(segments=8)), ("uv", dict(segments=24))])
+@pytest.mark.parametrize(
+    "method, kw",
+    [("ico", dict(subdivisions=1)), ("ico", dict(subdivisions=3)), ("uv", dict(segments=8)), ("uv", dict(segments=24))],
+)
 def test_sphere_within_tessellation_bounds(method, kw):
     c, r = np.array([1.0, -2.0, 3.0]), 0.8
     parts = S.sphere(c, r, method=method, **kw)
@@ -233,9 +238,9 @@ def test_sphere_within_tessellation_bounds(method, kw):
     fn = face_normals(t)
     r_in = np.min(np.einsum("ij,ij->i", fn, t[:, 0] - c))
     vol = S.signed_volume_m3(parts)
-    assert 4 / 3 * math.pi * r_in ** 3 < vol < 4 / 3 * math.pi * r ** 3
+    assert 4 / 3 * math.pi * r_in**3 < vol < 4 / 3 * math.pi * r**3
     if method == "ico" and kw["subdivisions"] == 3:
-        assert vol == pytest.approx(4 / 3 * math.pi * r ** 3, rel=0.01)
+        assert vol == pytest.approx(4 / 3 * math.pi * r**3, rel=0.01)
 
 
 def test_ellipsoid_is_scaled_sphere():
@@ -247,7 +252,7 @@ def test_ellipsoid_is_scaled_sphere():
     assert S.signed_volume_m3(ell) == pytest.approx(np.prod(radii) * S.signed_volume_m3(unit), rel=1e-12)
     # Normal of x²/a² + y²/b² + z²/c² = 1 is the gradient (x/a², y/b², z/c²).
     p = ell[0].triangles_m.reshape(-1, 3)
-    g = p / radii ** 2
+    g = p / radii**2
     assert np.allclose(ell[0].normals.reshape(-1, 3), g / np.linalg.norm(g, axis=1, keepdims=True), atol=1e-12)
 
 
@@ -281,8 +286,9 @@ def test_triangulate_star_polygon():
     idx = S.triangulate_polygon(pts)
     assert idx.shape == (12, 3)
     t = pts[idx]
-    signed = 0.5 * ((t[:, 1, 0] - t[:, 0, 0]) * (t[:, 2, 1] - t[:, 0, 1])
-                    - (t[:, 1, 1] - t[:, 0, 1]) * (t[:, 2, 0] - t[:, 0, 0]))
+    signed = 0.5 * (
+        (t[:, 1, 0] - t[:, 0, 0]) * (t[:, 2, 1] - t[:, 0, 1]) - (t[:, 1, 1] - t[:, 0, 1]) * (t[:, 2, 0] - t[:, 0, 0])
+    )
     assert np.all(signed > 0)
     # Analytic area of the star: 14 triangles (centre, outer, inner) with sides 1 and 0.4 at
     # angle π/7: 14 · ½ · 1 · 0.4 · sin(π/7).
@@ -299,12 +305,15 @@ def test_triangulate_keeps_collinear_points():
     assert np.all(e1[:, 0] * e2[:, 1] - e1[:, 1] * e2[:, 0] > 0)
 
 
-@pytest.mark.parametrize("outline, word", [
-    ([(0, 0), (2, 0), (0, 2), (2, 2)], "crosses"),       # bow tie
-    ([(0, 0), (1, 0), (1, 0), (0, 1)], "repeats"),
-    ([(0, 0), (1, 0), (2, 0)], "doubles back"),          # collinear: no area
-    ([(0, 0), (2, 0), (2, 2), (1, 2), (1, 3), (1, 2), (0, 2)], "doubles back"),
-])
+@pytest.mark.parametrize(
+    "outline, word",
+    [
+        ([(0, 0), (2, 0), (0, 2), (2, 2)], "crosses"),  # bow tie
+        ([(0, 0), (1, 0), (1, 0), (0, 1)], "repeats"),
+        ([(0, 0), (1, 0), (2, 0)], "doubles back"),  # collinear: no area
+        ([(0, 0), (2, 0), (2, 2), (1, 2), (1, 3), (1, 2), (0, 2)], "doubles back"),
+    ],
+)
 def test_bad_polygons(outline, word):
     with pytest.raises(ValueError, match=word):
         S.extrude(outline, 1.0)
@@ -418,22 +427,25 @@ def test_obj_concave_face_ear_clipped():
     assert np.allclose(face_normals(parts[0].triangles_m), [0, 0, 1])
 
 
-@pytest.mark.parametrize("name, line, words", [
-    ("bad_number.obj", 3, "'x'"),
-    ("nan_vertex.obj", 3, "finite"),
-    ("short_vertex.obj", 2, "v x y z"),
-    ("bad_index.obj", 5, "out of range"),
-    ("bad_negative.obj", 4, "out of range"),
-    ("zero_index.obj", 4, "start at 1"),
-    ("bad_normal_index.obj", 5, "normal index"),
-    ("short_face.obj", 4, "at least 3"),
-    ("bad_reference.obj", 4, "face reference"),
-    ("usemtl_no_name.obj", 4, "usemtl"),
-    ("zero_normal.obj", 4, "zero length"),
-    ("bowtie_face.obj", 5, "crosses itself"),
-    ("not_utf8.obj", 4, "UTF-8"),
-    ("no_faces.obj", None, "no faces"),
-])
+@pytest.mark.parametrize(
+    "name, line, words",
+    [
+        ("bad_number.obj", 3, "'x'"),
+        ("nan_vertex.obj", 3, "finite"),
+        ("short_vertex.obj", 2, "v x y z"),
+        ("bad_index.obj", 5, "out of range"),
+        ("bad_negative.obj", 4, "out of range"),
+        ("zero_index.obj", 4, "start at 1"),
+        ("bad_normal_index.obj", 5, "normal index"),
+        ("short_face.obj", 4, "at least 3"),
+        ("bad_reference.obj", 4, "face reference"),
+        ("usemtl_no_name.obj", 4, "usemtl"),
+        ("zero_normal.obj", 4, "zero length"),
+        ("bowtie_face.obj", 5, "crosses itself"),
+        ("not_utf8.obj", 4, "UTF-8"),
+        ("no_faces.obj", None, "no faces"),
+    ],
+)
 def test_obj_malformed(name, line, words):
     with pytest.raises(InputError) as info:
         S.load_obj(DATA / name)
@@ -457,8 +469,18 @@ def test_obj_unreadable_and_several_problems(tmp_path):
 # Street objects
 # ---------------------------------------------------------------------------------------------
 
-CLOSED_KINDS = ["wheelie_bin", "tree", "hedge", "bollard", "bus_shelter", "sign", "pedestrian", "lamp_column",
-                "house_front", "shop_front"]
+CLOSED_KINDS = [
+    "wheelie_bin",
+    "tree",
+    "hedge",
+    "bollard",
+    "bus_shelter",
+    "sign",
+    "pedestrian",
+    "lamp_column",
+    "house_front",
+    "shop_front",
+]
 
 
 @pytest.mark.parametrize("kind", list(O.OBJECT_BUILDERS))
@@ -484,7 +506,7 @@ def test_car_dimensions_and_counts(style):
     d = O.CAR_STYLES[style]
     assert np.allclose(hi - lo, [d["length_m"], d["width_m"], d["height_m"]], atol=1e-9)
     assert np.allclose((hi + lo)[:2], 0.0, atol=1e-9)  # centred on the ground-contact origin
-    assert lo[2] == pytest.approx(0.0, abs=1e-12)       # tyres touch the ground
+    assert lo[2] == pytest.approx(0.0, abs=1e-12)  # tyres touch the ground
     assert 200 <= S.count_triangles(parts) <= 800
     # Glass faces outward: away from the car's vertical centre line at mid height.
     glass = [p for p in parts if p.slot == "glass"][0]
@@ -595,23 +617,23 @@ def test_lamp_column_opening():
 
 def test_validate_params_messages():
     assert O.validate_params("car", {"body_style": "van", "length_m": 5}) == []
-    (key, msg), = O.validate_params("tre", {})
+    ((key, msg),) = O.validate_params("tre", {})
     assert key == "kind" and "did you mean 'tree'" in msg
-    (key, msg), = O.validate_params("tree", {"canopy_raduis_m": 2.0})
+    ((key, msg),) = O.validate_params("tree", {"canopy_raduis_m": 2.0})
     assert key == "canopy_raduis_m" and "did you mean 'canopy_radius_m'" in msg
-    (key, msg), = O.validate_params("car", {"length_m": "long"})
+    ((key, msg),) = O.validate_params("car", {"length_m": "long"})
     assert key == "length_m" and "number" in msg
-    (key, msg), = O.validate_params("wheelie_bin", {"capacity_l": True})
+    ((key, msg),) = O.validate_params("wheelie_bin", {"capacity_l": True})
     assert key == "capacity_l" and "whole number" in msg
-    (key, msg), = O.validate_params("wheelie_bin", {"capacity_l": 200})
+    ((key, msg),) = O.validate_params("wheelie_bin", {"capacity_l": 200})
     assert "expected one of" in msg
-    (key, msg), = O.validate_params("car", {"body_style": "hatchbak"})
+    ((key, msg),) = O.validate_params("car", {"body_style": "hatchbak"})
     assert "did you mean 'hatchback'" in msg
-    (key, msg), = O.validate_params("lamp_column", {"height_m": 0.5})
+    ((key, msg),) = O.validate_params("lamp_column", {"height_m": 0.5})
     assert key == "height_m" and ">= 1.5" in msg
-    (key, msg), = O.validate_params("tree", {"trunk_height_m": 0})
+    ((key, msg),) = O.validate_params("tree", {"trunk_height_m": 0})
     assert key == "trunk_height_m" and "> 0" in msg
-    (key, msg), = O.validate_params("tree", {"trunk_radius_m": 1.5, "canopy_radius_m": 1.0})
+    ((key, msg),) = O.validate_params("tree", {"trunk_radius_m": 1.5, "canopy_radius_m": 1.0})
     assert key == "trunk_radius_m"  # cross-check from the builder
     assert len(O.validate_params("hedge", {"length_m": -1, "heigt_m": 1})) == 2
     with pytest.raises(ValueError, match="unknown parameter"):
@@ -620,6 +642,7 @@ def test_validate_params_messages():
 
 def test_registry_specs_match_builders():
     import inspect
+
     for kind, entry in O.OBJECT_BUILDERS.items():
         sig = inspect.signature(entry.function)
         for spec in entry.params:

@@ -72,6 +72,7 @@ def _trapezoid_clipped(x, y, lo, hi):
 
 # --- the grid --------------------------------------------------------------------------------
 
+
 def test_grid_is_380_to_780_at_1nm():
     # Definition in render/spectra.py's docstring (the one grid of the project).
     assert N_BINS == 401
@@ -81,6 +82,7 @@ def test_grid_is_380_to_780_at_1nm():
 
 
 # --- bin_density: analytic integrals of piecewise-linear functions ----------------------------
+
 
 @pytest.mark.parametrize("seed", [0, 1, 2])
 def test_bin_density_conserves_total_power_inside_grid(seed):
@@ -135,6 +137,7 @@ def test_bin_mean_holds_constant_reflectance_and_needs_full_coverage():
 
 # --- deposit_lines: exact power and mean wavelength -------------------------------------------
 
+
 def test_deposit_lines_conserves_power_and_mean_wavelength():
     # Analytic: linear sharing between the two nearest bin centres keeps sum(p) and sum(p*w).
     rng = np.random.default_rng(11)
@@ -161,6 +164,7 @@ def test_band_power_of_a_line():
 
 
 # --- observers: photometric constants ---------------------------------------------------------
+
 
 def test_one_watt_at_555nm_is_683_lumen():
     # SI definition of the candela / CIE: Km = 683 lm/W and V(555 nm) = 1 (CIE 1924 table).
@@ -225,6 +229,7 @@ def test_scaling_to_1000_lm_gives_1000_lm():
 
 
 # --- colorimetry of tabulated illuminants -----------------------------------------------------
+
 
 def _grid(key):
     sd = colour.SDS_ILLUMINANTS[key]

@@ -59,7 +59,7 @@ def test_grating_contrast_follows_gaussian_mtf():
     s_px = float(sigma_px.mean())
     k = int(np.searchsorted(levels, s_px, side="right") - 1)
     t = (s_px - levels[k]) / (levels[k + 1] - levels[k])
-    mtf = [math.exp(-2 * math.pi**2 * (lv * g.deg_per_px_centre) ** 2 * nu**2) for lv in levels[k:k + 2]]
+    mtf = [math.exp(-2 * math.pi**2 * (lv * g.deg_per_px_centre) ** 2 * nu**2) for lv in levels[k : k + 2]]
     expected = 0.5 * ((1 - t) * mtf[0] + t * mtf[1])
     assert _contrast(out) == pytest.approx(expected, rel=0.02)
     assert _contrast(out) < 0.5 * 0.6

@@ -9,9 +9,9 @@ illuminants from colour-science.
 import colour
 import numpy as np
 import pytest
+import synthetic
 
 from render.colour.observers import cmfs_xyz
-import synthetic
 from render.vision.adaptation import adaptation_state
 from render.vision.appearance import (
     CAO_2008_CONE_PEAKS,

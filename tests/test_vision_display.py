@@ -14,21 +14,21 @@ import colour
 import imageio.v3 as iio
 import numpy as np
 import pytest
+import synthetic
 from PIL import Image
 
 from render.colour import observers
 from render.colour.spectra import WAVELENGTHS_NM, deposit_lines
-from render.vision import ViewLight, ObserverSettings, ViewGeometry, render_display
-import synthetic
+from render.vision import ObserverSettings, ViewGeometry, ViewLight, render_display
 from render.vision.display import (
     chromatic_adaptation_cat16,
     display_white_xyz,
     gamut_map_oklab,
+    linear_srgb_to_xyz,
     quantise,
     srgb_decode,
     srgb_encode,
     write_png,
-    linear_srgb_to_xyz,
     xyz_to_linear_srgb,
 )
 
@@ -60,8 +60,12 @@ def test_cat16_full_and_partial_match_colour_science():
     assert np.allclose(chromatic_adaptation_cat16(xyz, w_a, 1.0), ref, atol=1e-12)
     # Partial adaptation D = 0.7 toward the display white: Zhai & Luo (2018) two-step CAT16 with
     # the baseline illuminant equal to the display white and D_d = 1 is the same one-step form.
-    ref = colour.adaptation.chromatic_adaptation_Zhai2018(
-        xyz * 100, w_a * 100, w_d * 100, D_b=0.7, D_d=1.0, XYZ_wo=w_d * 100, transform="CAT16") / 100
+    ref = (
+        colour.adaptation.chromatic_adaptation_Zhai2018(
+            xyz * 100, w_a * 100, w_d * 100, D_b=0.7, D_d=1.0, XYZ_wo=w_d * 100, transform="CAT16"
+        )
+        / 100
+    )
     assert np.allclose(chromatic_adaptation_cat16(xyz, w_a, 0.7), ref, atol=1e-10)
     # The display white is a fixed point for any D.
     assert np.allclose(chromatic_adaptation_cat16(w_d, w_d, 0.3), w_d, atol=1e-14)
@@ -128,9 +132,9 @@ def _decode_png_rgb16(data: bytes) -> np.ndarray:
     assert data[:8] == b"\x89PNG\r\n\x1a\n"
     pos, idat, hdr = 8, b"", None
     while pos < len(data):
-        n, kind = struct.unpack(">I4s", data[pos:pos + 8])
-        body = data[pos + 8:pos + 8 + n]
-        crc = struct.unpack(">I", data[pos + 8 + n:pos + 12 + n])[0]
+        n, kind = struct.unpack(">I4s", data[pos : pos + 8])
+        body = data[pos + 8 : pos + 8 + n]
+        crc = struct.unpack(">I", data[pos + 8 + n : pos + 12 + n])[0]
         assert zlib.crc32(kind + body) & 0xFFFFFFFF == crc
         if kind == b"IHDR":
             hdr = struct.unpack(">IIBBBBB", body)
@@ -169,24 +173,34 @@ def _colour_science_srgb(rho, spd, degree):
     if degree == 1.0:
         return colour.XYZ_to_sRGB(xyz, illuminant=colour.XYZ_to_xy(xyz_w), chromatic_adaptation_transform="CAT16")
     d65 = display_white_xyz()
-    adapted = colour.adaptation.chromatic_adaptation_Zhai2018(
-        xyz * 100, xyz_w * 100, d65 * 100, D_b=degree, D_d=1.0, XYZ_wo=d65 * 100, transform="CAT16") / 100
+    adapted = (
+        colour.adaptation.chromatic_adaptation_Zhai2018(
+            xyz * 100, xyz_w * 100, d65 * 100, D_b=degree, D_d=1.0, XYZ_wo=d65 * 100, transform="CAT16"
+        )
+        / 100
+    )
     return colour.XYZ_to_sRGB(adapted, chromatic_adaptation_transform=None)
 
 
 @pytest.mark.filterwarnings("ignore:.*shape could not be honoured")
-@pytest.mark.parametrize("lamp,patch,degree", [
-    ("D65", "moderate red", 1.0), ("D65", "blue sky", 1.0), ("D65", "neutral 6.5 (.44 D)", 1.0),
-    ("A", "moderate red", 1.0), ("A", "foliage", 1.0), ("A", "purple", 0.7),
-])
+@pytest.mark.parametrize(
+    "lamp,patch,degree",
+    [
+        ("D65", "moderate red", 1.0),
+        ("D65", "blue sky", 1.0),
+        ("D65", "neutral 6.5 (.44 D)", 1.0),
+        ("A", "moderate red", 1.0),
+        ("A", "foliage", 1.0),
+        ("A", "purple", 0.7),
+    ],
+)
 def test_end_to_end_patch_matches_colour_science(lamp, patch, degree):
     # Photopic (white 200 cd/m², adaptation ~ patch level), glare and acuity off, fixed linear
     # exposure putting the white diffuser at the display peak.
     white = 200.0
     buffers, rho, spd = _patch_scene(lamp, patch, white)
     g = ViewGeometry(10.0, 9, 9)
-    obs = ObserverSettings(glare=False, acuity=False, chromatic_adaptation_degree=degree,
-                           adaptation_cd_m2=100.0)
+    obs = ObserverSettings(glare=False, acuity=False, chromatic_adaptation_degree=degree, adaptation_cd_m2=100.0)
     res = render_display(buffers, g, obs, mode="fixed", exposure=obs.display_peak_cd_m2 / white)
     ref = _colour_science_srgb(rho, spd, degree)
     got = srgb_encode(res.linear_srgb[4, 4])
@@ -203,8 +217,9 @@ def test_neutral_is_grey_at_default_settings(lamp):
     # default D it keeps a trace of E's colour relative to D65 (pinkish: R > G).
     spd = synthetic.illuminant_spd(lamp)
     xyz, s, wx, ws = synthetic.surface_buffers(np.full((1, spd.size), 0.2), spd, 300.0)
-    buffers = ViewLight(np.broadcast_to(xyz[0], (9, 9, 3)).copy(), np.full((9, 9), s[0]),
-                           white_xyz=wx, white_scotopic=ws)
+    buffers = ViewLight(
+        np.broadcast_to(xyz[0], (9, 9, 3)).copy(), np.full((9, 9), s[0]), white_xyz=wx, white_scotopic=ws
+    )
     g = ViewGeometry(10.0, 9, 9)
     res = render_display(buffers, g, ObserverSettings(glare=False), mode="adapted")
     rgb = res.linear_srgb[4, 4]
@@ -223,10 +238,10 @@ def test_incomplete_adaptation_keeps_coloured_light_coloured():
     # yellow-orange after adaptation (common observation, no source), while under the display
     # white's own light (D65) the step is the identity.
     import colour
+    from synthetic import surface_buffers
 
     from render.colour.lamps import get_lamp
     from render.vision.display import chromatic_adaptation_incomplete, incomplete_adaptation_gains
-    from synthetic import surface_buffers
 
     grey = np.full((1, 401), 0.2)
     xyz, _, white, _ = surface_buffers(grey, get_lamp("sodium-low-pressure").spd, 1.0)

@@ -51,8 +51,13 @@ def test_scattered_fraction_is_the_integral_of_the_spread(model, lo, hi):
     # F = ∫ f(θ) cos θ dΩ = 2π ∫ f(θ) cos θ sin θ dθ (θ in radians for the measure), by quad.
     age, p = 55.0, 0.7
     f = (lambda t: cie146_general(t, age, p)) if model == "cie146-general" else (lambda t: stiles_holladay(t, age))
-    ref, _ = quad(lambda r: f(math.degrees(r)) * math.cos(r) * math.sin(r), math.radians(lo), math.radians(hi),
-                  limit=200, points=[math.radians(lo) * 3, math.radians(1.0)])
+    ref, _ = quad(
+        lambda r: f(math.degrees(r)) * math.cos(r) * math.sin(r),
+        math.radians(lo),
+        math.radians(hi),
+        limit=200,
+        points=[math.radians(lo) * 3, math.radians(1.0)],
+    )
     assert scattered_fraction(model, age, p) == pytest.approx(2 * math.pi * ref, rel=1e-6)
 
 

@@ -10,11 +10,11 @@ adaptation.
 
 import numpy as np
 import pytest
+import synthetic
 from PIL import Image
 
 from render.errors import InputError
-from render.vision import ViewLight, ObserverSettings, ViewGeometry, render_display, shared_display
-import synthetic
+from render.vision import ObserverSettings, ViewGeometry, ViewLight, render_display, shared_display
 from render.vision.display import linear_srgb_to_xyz
 from render.vision.tonemap import blackwell_threshold_cd_m2, highlight_rolloff, ward_scale_factor
 
@@ -96,7 +96,8 @@ def test_photometric_mode_and_png_metadata(tmp_path):
     path = adapted.write_png(tmp_path / "view.png", bits=16)
     with Image.open(path) as im:
         assert float(im.text["lampcast.adaptation_photopic_cd_m2"]) == pytest.approx(
-            adapted.state.photopic_cd_m2, rel=1e-5)
+            adapted.state.photopic_cd_m2, rel=1e-5
+        )
         assert im.text["lampcast.mode"] == "adapted"
 
 

@@ -109,111 +109,347 @@ class Pick:
 
 EARTHLIB_PICKS: tuple[Pick, ...] = (
     # road surfaces
-    Pick("asphalt-new", "Asphalt road surface, new", "road", "rpaeye.010-", ("built", "road"), LIC_UCSB,
-         "Dark, hydrocarbon-dominated asphalt carriageway (earthlib class 'road'; code rpae-y-, read as a young "
-         "asphalt road). Chosen as a middle member of the darkest asphalt-road group; Herold & Roberts "
-         "found asphalt brightening as it ages." + UCSB_NOTE),
-    Pick("asphalt-weathered", "Asphalt road surface, weathered", "road", "rpaemm.001-", ("built", "road"), LIC_UCSB,
-         "Asphalt carriageway of middle age (earthlib class 'road'; code rpae-m-)." + UCSB_NOTE),
-    Pick("asphalt-worn", "Asphalt road surface, old and worn", "road", "rpaeop.004-", ("built", "road"), LIC_UCSB,
-         "Old asphalt carriageway with exposed, lighter aggregate (earthlib class 'road'; code rpae-o-)."
-         + UCSB_NOTE),
-    Pick("asphalt-car-park", "Asphalt car park surface", "road", "ppaemf.001-", ("built", "parking_lot"), LIC_UCSB,
-         "Asphalt parking-lot surface (earthlib class 'parking_lot')." + UCSB_NOTE),
-    Pick("concrete-road", "Concrete road surface", "road", "rpcsye.001-", ("built", "road"), LIC_UCSB,
-         "Concrete carriageway (earthlib class 'road'; code rpcs, read as paved concrete)." + UCSB_NOTE),
+    Pick(
+        "asphalt-new",
+        "Asphalt road surface, new",
+        "road",
+        "rpaeye.010-",
+        ("built", "road"),
+        LIC_UCSB,
+        "Dark, hydrocarbon-dominated asphalt carriageway (earthlib class 'road'; code rpae-y-, read as a young "
+        "asphalt road). Chosen as a middle member of the darkest asphalt-road group; Herold & Roberts "
+        "found asphalt brightening as it ages." + UCSB_NOTE,
+    ),
+    Pick(
+        "asphalt-weathered",
+        "Asphalt road surface, weathered",
+        "road",
+        "rpaemm.001-",
+        ("built", "road"),
+        LIC_UCSB,
+        "Asphalt carriageway of middle age (earthlib class 'road'; code rpae-m-)." + UCSB_NOTE,
+    ),
+    Pick(
+        "asphalt-worn",
+        "Asphalt road surface, old and worn",
+        "road",
+        "rpaeop.004-",
+        ("built", "road"),
+        LIC_UCSB,
+        "Old asphalt carriageway with exposed, lighter aggregate (earthlib class 'road'; code rpae-o-)." + UCSB_NOTE,
+    ),
+    Pick(
+        "asphalt-car-park",
+        "Asphalt car park surface",
+        "road",
+        "ppaemf.001-",
+        ("built", "parking_lot"),
+        LIC_UCSB,
+        "Asphalt parking-lot surface (earthlib class 'parking_lot')." + UCSB_NOTE,
+    ),
+    Pick(
+        "concrete-road",
+        "Concrete road surface",
+        "road",
+        "rpcsye.001-",
+        ("built", "road"),
+        LIC_UCSB,
+        "Concrete carriageway (earthlib class 'road'; code rpcs, read as paved concrete)." + UCSB_NOTE,
+    ),
     # footways and kerbs
-    Pick("concrete-paving", "Concrete footway paving", "paving", "spcemg.001-", ("built", "sidewalk"), LIC_UCSB,
-         "Concrete sidewalk of typical brightness for the group (earthlib class 'sidewalk')." + UCSB_NOTE),
-    Pick("concrete-paving-light", "Concrete footway paving, light", "paving", "spceye.001-", ("built", "sidewalk"),
-         LIC_UCSB, "Light-toned concrete sidewalk, among the brightest of the group (earthlib class 'sidewalk')."
-         + UCSB_NOTE),
-    Pick("concrete-kerb", "Concrete kerb (footway concrete stands in)", "kerb", "spcsmg.001-", ("built", "sidewalk"),
-         LIC_UCSB, "earthlib has no kerb class; a concrete sidewalk sample stands in for a concrete kerb "
-         "(earthlib class 'sidewalk')." + UCSB_NOTE),
+    Pick(
+        "concrete-paving",
+        "Concrete footway paving",
+        "paving",
+        "spcemg.001-",
+        ("built", "sidewalk"),
+        LIC_UCSB,
+        "Concrete sidewalk of typical brightness for the group (earthlib class 'sidewalk')." + UCSB_NOTE,
+    ),
+    Pick(
+        "concrete-paving-light",
+        "Concrete footway paving, light",
+        "paving",
+        "spceye.001-",
+        ("built", "sidewalk"),
+        LIC_UCSB,
+        "Light-toned concrete sidewalk, among the brightest of the group (earthlib class 'sidewalk')." + UCSB_NOTE,
+    ),
+    Pick(
+        "concrete-kerb",
+        "Concrete kerb (footway concrete stands in)",
+        "kerb",
+        "spcsmg.001-",
+        ("built", "sidewalk"),
+        LIC_UCSB,
+        "earthlib has no kerb class; a concrete sidewalk sample stands in for a concrete kerb "
+        "(earthlib class 'sidewalk')." + UCSB_NOTE,
+    ),
     # paints
-    Pick("paint-road-white", "White road-marking paint", "paint", "trawyg.001-", ("built", "paint"), LIC_UCSB,
-         "White traffic paint on asphalt in good condition (earthlib class 'paint'; flat, high spectrum; code "
-         "traw read as traffic paint, white)." + UCSB_NOTE),
-    Pick("paint-road-white-worn", "White road-marking paint, worn", "paint", "trawmm.001-", ("built", "paint"),
-         LIC_UCSB, "White traffic paint, darker and worn (earthlib class 'paint')." + UCSB_NOTE),
-    Pick("paint-road-yellow", "Yellow road-marking paint", "paint", "trayye.001-", ("built", "paint"), LIC_UCSB,
-         "Yellow traffic paint (earthlib class 'paint'; reflectance rises steeply from 500 to 560 nm; code tray "
-         "read as traffic paint, yellow)." + UCSB_NOTE),
-    Pick("paint-kerb-red", "Red kerb paint", "paint", "tccrye.001-", ("built", "paint"), LIC_UCSB,
-         "Red paint on a concrete kerb (earthlib class 'paint'; reflectance low below 580 nm and high above "
-         "620 nm; code tccr read as traffic paint on a concrete curb, red)." + UCSB_NOTE),
-    Pick("paint-road-blue", "Blue surface paint", "paint", "tpabmg.001-", ("built", "paint"), LIC_UCSB,
-         "Blue paint on asphalt, as used for reserved parking bays (earthlib class 'paint'; peak near 450 nm)."
-         + UCSB_NOTE),
+    Pick(
+        "paint-road-white",
+        "White road-marking paint",
+        "paint",
+        "trawyg.001-",
+        ("built", "paint"),
+        LIC_UCSB,
+        "White traffic paint on asphalt in good condition (earthlib class 'paint'; flat, high spectrum; code "
+        "traw read as traffic paint, white)." + UCSB_NOTE,
+    ),
+    Pick(
+        "paint-road-white-worn",
+        "White road-marking paint, worn",
+        "paint",
+        "trawmm.001-",
+        ("built", "paint"),
+        LIC_UCSB,
+        "White traffic paint, darker and worn (earthlib class 'paint')." + UCSB_NOTE,
+    ),
+    Pick(
+        "paint-road-yellow",
+        "Yellow road-marking paint",
+        "paint",
+        "trayye.001-",
+        ("built", "paint"),
+        LIC_UCSB,
+        "Yellow traffic paint (earthlib class 'paint'; reflectance rises steeply from 500 to 560 nm; code tray "
+        "read as traffic paint, yellow)." + UCSB_NOTE,
+    ),
+    Pick(
+        "paint-kerb-red",
+        "Red kerb paint",
+        "paint",
+        "tccrye.001-",
+        ("built", "paint"),
+        LIC_UCSB,
+        "Red paint on a concrete kerb (earthlib class 'paint'; reflectance low below 580 nm and high above "
+        "620 nm; code tccr read as traffic paint on a concrete curb, red)." + UCSB_NOTE,
+    ),
+    Pick(
+        "paint-road-blue",
+        "Blue surface paint",
+        "paint",
+        "tpabmg.001-",
+        ("built", "paint"),
+        LIC_UCSB,
+        "Blue paint on asphalt, as used for reserved parking bays (earthlib class 'paint'; peak near 450 nm)."
+        + UCSB_NOTE,
+    ),
     # masonry
-    Pick("brick", "Red brick", "masonry", "subrmg.001-", ("built", "sidewalk"), LIC_UCSB,
-         "Red brick pavers in a footway (earthlib class 'sidewalk'; red-brown spectrum; code subr read as "
-         "sidewalk, brick); stands in for brick walls too." + UCSB_NOTE),
-    Pick("concrete", "Concrete, structural", "masonry", "rbcsyg.005-", ("built", "bridge"), LIC_UCSB,
-         "Concrete bridge surface (earthlib class 'bridge'); a generic grey concrete for walls and structures."
-         + UCSB_NOTE),
+    Pick(
+        "brick",
+        "Red brick",
+        "masonry",
+        "subrmg.001-",
+        ("built", "sidewalk"),
+        LIC_UCSB,
+        "Red brick pavers in a footway (earthlib class 'sidewalk'; red-brown spectrum; code subr read as "
+        "sidewalk, brick); stands in for brick walls too." + UCSB_NOTE,
+    ),
+    Pick(
+        "concrete",
+        "Concrete, structural",
+        "masonry",
+        "rbcsyg.005-",
+        ("built", "bridge"),
+        LIC_UCSB,
+        "Concrete bridge surface (earthlib class 'bridge'); a generic grey concrete for walls and structures."
+        + UCSB_NOTE,
+    ),
     # roofs
-    Pick("roof-tile", "Clay roof tile, red", "roof", "fttrme.001-", ("built", "tile"), LIC_UCSB,
-         "Red clay (terracotta) roof tile (earthlib class 'tile')." + UCSB_NOTE),
-    Pick("roof-tile-concrete", "Concrete roof tile, grey", "roof", "fsfnye.012-", ("built", "concrete_tile"),
-         LIC_UCSB, "Grey concrete roof tile (earthlib class 'concrete_tile')." + UCSB_NOTE),
-    Pick("roof-shingle", "Composition (asphalt) roof shingle, grey", "roof", "fscemg.002-",
-         ("built", "comp_shingle"), LIC_UCSB, "Grey composition shingle roof (earthlib class 'comp_shingle')."
-         + UCSB_NOTE),
-    Pick("roof-shingle-wood", "Wood shingle roof", "roof", "fswnog.001-", ("built", "wood_shingle"), LIC_UCSB,
-         "Weathered wood shingle roof (earthlib class 'wood_shingle')." + UCSB_NOTE),
-    Pick("roof-asphalt", "Asphalt (tar) roof", "roof", "frrkof.002-", ("built", "asphalt"), LIC_UCSB,
-         "Dark asphalt roofing (earthlib class 'asphalt'; roofing code prefix f)." + UCSB_NOTE),
+    Pick(
+        "roof-tile",
+        "Clay roof tile, red",
+        "roof",
+        "fttrme.001-",
+        ("built", "tile"),
+        LIC_UCSB,
+        "Red clay (terracotta) roof tile (earthlib class 'tile')." + UCSB_NOTE,
+    ),
+    Pick(
+        "roof-tile-concrete",
+        "Concrete roof tile, grey",
+        "roof",
+        "fsfnye.012-",
+        ("built", "concrete_tile"),
+        LIC_UCSB,
+        "Grey concrete roof tile (earthlib class 'concrete_tile')." + UCSB_NOTE,
+    ),
+    Pick(
+        "roof-shingle",
+        "Composition (asphalt) roof shingle, grey",
+        "roof",
+        "fscemg.002-",
+        ("built", "comp_shingle"),
+        LIC_UCSB,
+        "Grey composition shingle roof (earthlib class 'comp_shingle')." + UCSB_NOTE,
+    ),
+    Pick(
+        "roof-shingle-wood",
+        "Wood shingle roof",
+        "roof",
+        "fswnog.001-",
+        ("built", "wood_shingle"),
+        LIC_UCSB,
+        "Weathered wood shingle roof (earthlib class 'wood_shingle')." + UCSB_NOTE,
+    ),
+    Pick(
+        "roof-asphalt",
+        "Asphalt (tar) roof",
+        "roof",
+        "frrkof.002-",
+        ("built", "asphalt"),
+        LIC_UCSB,
+        "Dark asphalt roofing (earthlib class 'asphalt'; roofing code prefix f)." + UCSB_NOTE,
+    ),
     # metal and glass
-    Pick("metal-galvanised", "Metal sheet, light grey (galvanised steel stand-in)", "metal", "fozkyg.001-",
-         ("built", "metal"), LIC_UCSB,
-         "Flat, light-grey metal roofing sheet (earthlib class 'metal'); stands in for galvanised steel "
-         "columns and poles. Field-measured diffuse reflectance; metal's specular part is not modelled."
-         + UCSB_NOTE),
-    Pick("metal-weathered", "Metal sheet, weathered", "metal", "foznof.002-", ("built", "metal"), LIC_UCSB,
-         "Old metal roofing sheet whose reflectance rises towards red (earthlib class 'metal')." + UCSB_NOTE),
-    Pick("metal-painted-dark", "Metal sheet, dark (dark-painted furniture stand-in)", "metal", "fozkmg.001-",
-         ("built", "metal"), LIC_UCSB,
-         "Dark, slightly bluish-grey metal roofing sheet (earthlib class 'metal'; whether painted is not "
-         "recorded); stands in for dark-painted street furniture." + UCSB_NOTE),
-    Pick("manhole-cover", "Cast-iron manhole cover", "metal", "mozkmm.001-", ("built", "manhole"), LIC_UCSB,
-         "Manhole cover in a street (earthlib class 'manhole'; flat grey spectrum)." + UCSB_NOTE),
-    Pick("glass-roof", "Glass roofing (field spectrum)", "glass", "folwmm.001-", ("built", "glass"), LIC_UCSB,
-         "Field spectrum of a glass roof (earthlib class 'glass'). Its reflectance (about 0.7) is far above "
-         "the about 0.08 of a clean clear pane (common practice, no source) and must include light from "
-         "under the glass or a coating; not for window panes (use glass-clear)." + UCSB_NOTE),
+    Pick(
+        "metal-galvanised",
+        "Metal sheet, light grey (galvanised steel stand-in)",
+        "metal",
+        "fozkyg.001-",
+        ("built", "metal"),
+        LIC_UCSB,
+        "Flat, light-grey metal roofing sheet (earthlib class 'metal'); stands in for galvanised steel "
+        "columns and poles. Field-measured diffuse reflectance; metal's specular part is not modelled." + UCSB_NOTE,
+    ),
+    Pick(
+        "metal-weathered",
+        "Metal sheet, weathered",
+        "metal",
+        "foznof.002-",
+        ("built", "metal"),
+        LIC_UCSB,
+        "Old metal roofing sheet whose reflectance rises towards red (earthlib class 'metal')." + UCSB_NOTE,
+    ),
+    Pick(
+        "metal-painted-dark",
+        "Metal sheet, dark (dark-painted furniture stand-in)",
+        "metal",
+        "fozkmg.001-",
+        ("built", "metal"),
+        LIC_UCSB,
+        "Dark, slightly bluish-grey metal roofing sheet (earthlib class 'metal'; whether painted is not "
+        "recorded); stands in for dark-painted street furniture." + UCSB_NOTE,
+    ),
+    Pick(
+        "manhole-cover",
+        "Cast-iron manhole cover",
+        "metal",
+        "mozkmm.001-",
+        ("built", "manhole"),
+        LIC_UCSB,
+        "Manhole cover in a street (earthlib class 'manhole'; flat grey spectrum)." + UCSB_NOTE,
+    ),
+    Pick(
+        "glass-roof",
+        "Glass roofing (field spectrum)",
+        "glass",
+        "folwmm.001-",
+        ("built", "glass"),
+        LIC_UCSB,
+        "Field spectrum of a glass roof (earthlib class 'glass'). Its reflectance (about 0.7) is far above "
+        "the about 0.08 of a clean clear pane (common practice, no source) and must include light from "
+        "under the glass or a coating; not for window panes (use glass-clear)." + UCSB_NOTE,
+    ),
     # wood and vegetation
-    Pick("wood", "Wood, weathered", "wood", "oldwood", ("npv", "wood"), LIC_JFSP,
-         "Old, grey-brown weathered wood (earthlib class 'wood'; JFSP sample name 'oldwood'); for doors, "
-         "benches and fences."),
-    Pick("wood-cut", "Wood, freshly cut", "wood", "crosscut", ("npv", "wood"), LIC_JFSP,
-         "Freshly cut wood cross-section (earthlib class 'wood'; JFSP sample name 'crosscut')."),
-    Pick("bark", "Tree bark", "vegetation", "coulbark", ("npv", "bark"), LIC_JFSP,
-         "Tree bark (earthlib class 'bark'; JFSP sample name 'coulbark'); for tree trunks."),
-    Pick("grass", "Grass (simulated canopy)", "vegetation", "v-LAI-2.5-LMA-0.012-CHL-40.5-N-1.9",
-         ("vegetation", "canopy"), LIC_PROSAIL,
-         "SIMULATED, not measured: a green canopy modelled with PROSAIL (leaf area index 2.5, chlorophyll "
-         "40.5, leaf mass per area 0.012, leaf structure N 1.9, as the sample name says); earthlib has no "
-         "measured green grass. Stands in for lawns and verges."),
-    Pick("foliage", "Tree foliage (simulated canopy)", "vegetation", "v-LAI-4.2-LMA-0.012-CHL-37.0-N-1.8",
-         ("vegetation", "canopy"), LIC_PROSAIL,
-         "SIMULATED, not measured: a dense green canopy modelled with PROSAIL (leaf area index 4.2, chlorophyll "
-         "37.0, leaf mass per area 0.012, leaf structure N 1.8, as the sample name says). For tree crowns and "
-         "hedges."),
-    Pick("grass-dry", "Dry grass with some green", "vegetation", "Grass_dry.9+.1green", ("npv", "litter"),
-         LIC_USGS,
-         "Measured dry grass, read from the sample name as about 90 % dry and 10 % green (earthlib class "
-         "'litter', source notes 'usgs')."),
+    Pick(
+        "wood",
+        "Wood, weathered",
+        "wood",
+        "oldwood",
+        ("npv", "wood"),
+        LIC_JFSP,
+        "Old, grey-brown weathered wood (earthlib class 'wood'; JFSP sample name 'oldwood'); for doors, "
+        "benches and fences.",
+    ),
+    Pick(
+        "wood-cut",
+        "Wood, freshly cut",
+        "wood",
+        "crosscut",
+        ("npv", "wood"),
+        LIC_JFSP,
+        "Freshly cut wood cross-section (earthlib class 'wood'; JFSP sample name 'crosscut').",
+    ),
+    Pick(
+        "bark",
+        "Tree bark",
+        "vegetation",
+        "coulbark",
+        ("npv", "bark"),
+        LIC_JFSP,
+        "Tree bark (earthlib class 'bark'; JFSP sample name 'coulbark'); for tree trunks.",
+    ),
+    Pick(
+        "grass",
+        "Grass (simulated canopy)",
+        "vegetation",
+        "v-LAI-2.5-LMA-0.012-CHL-40.5-N-1.9",
+        ("vegetation", "canopy"),
+        LIC_PROSAIL,
+        "SIMULATED, not measured: a green canopy modelled with PROSAIL (leaf area index 2.5, chlorophyll "
+        "40.5, leaf mass per area 0.012, leaf structure N 1.9, as the sample name says); earthlib has no "
+        "measured green grass. Stands in for lawns and verges.",
+    ),
+    Pick(
+        "foliage",
+        "Tree foliage (simulated canopy)",
+        "vegetation",
+        "v-LAI-4.2-LMA-0.012-CHL-37.0-N-1.8",
+        ("vegetation", "canopy"),
+        LIC_PROSAIL,
+        "SIMULATED, not measured: a dense green canopy modelled with PROSAIL (leaf area index 4.2, chlorophyll "
+        "37.0, leaf mass per area 0.012, leaf structure N 1.8, as the sample name says). For tree crowns and "
+        "hedges.",
+    ),
+    Pick(
+        "grass-dry",
+        "Dry grass with some green",
+        "vegetation",
+        "Grass_dry.9+.1green",
+        ("npv", "litter"),
+        LIC_USGS,
+        "Measured dry grass, read from the sample name as about 90 % dry and 10 % green (earthlib class "
+        "'litter', source notes 'usgs').",
+    ),
     # soil and stone
-    Pick("soil", "Garden soil", "soil", "lrxnxx.009-", ("bare", "soil"), LIC_UCSB,
-         "Bare urban soil from Santa Barbara (earthlib class 'soil')."),
-    Pick("soil-dirt", "Bare earth path", "soil", "lcxnxx.001-", ("bare", "dirt"), LIC_UCSB,
-         "Bare compacted dirt (earthlib class 'dirt')."),
-    Pick("sand", "Sand", "soil", "lbxsxx.003-", ("bare", "sand"), LIC_UCSB,
-         "Beach sand from Santa Barbara (earthlib class 'sand')."),
-    Pick("gravel", "Gravel", "stone", "mugexx.001-", ("bare", "gravel"), LIC_UCSB,
-         "Loose gravel surface (earthlib class 'gravel', LEVEL_2 'bare')."),
+    Pick(
+        "soil",
+        "Garden soil",
+        "soil",
+        "lrxnxx.009-",
+        ("bare", "soil"),
+        LIC_UCSB,
+        "Bare urban soil from Santa Barbara (earthlib class 'soil').",
+    ),
+    Pick(
+        "soil-dirt",
+        "Bare earth path",
+        "soil",
+        "lcxnxx.001-",
+        ("bare", "dirt"),
+        LIC_UCSB,
+        "Bare compacted dirt (earthlib class 'dirt').",
+    ),
+    Pick(
+        "sand",
+        "Sand",
+        "soil",
+        "lbxsxx.003-",
+        ("bare", "sand"),
+        LIC_UCSB,
+        "Beach sand from Santa Barbara (earthlib class 'sand').",
+    ),
+    Pick(
+        "gravel",
+        "Gravel",
+        "stone",
+        "mugexx.001-",
+        ("bare", "gravel"),
+        LIC_UCSB,
+        "Loose gravel surface (earthlib class 'gravel', LEVEL_2 'bare').",
+    ),
 )
 
 #: CIE 13.3 test colour samples: our id, name (ISCC-NBS style names from memory), and use hints.
@@ -258,12 +494,22 @@ CHECKER_PICKS: tuple[tuple[str, str, str, str], ...] = (
 
 #: Stand-ins built from a ColorChecker patch for surfaces without an open measured spectrum.
 STANDIN_PICKS: tuple[tuple[str, str, str, str, str], ...] = (
-    ("black 2 (1.5 D)", "rubber-black", "Black rubber (stand-in)", "rubber",
-     "Stand-in: the source packages hold no measured tyre or rubber spectrum; this is the ColorChecker "
-     "black 2 patch (same data as object-black), a neutral black of luminous reflectance about 0.03."),
-    ("neutral 3.5 (1.05 D)", "fabric-dark", "Dark fabric (stand-in)", "fabric",
-     "Stand-in: the source packages hold no measured fabric spectrum; this is the ColorChecker neutral 3.5 "
-     "patch (same data as object-dark-grey), a neutral dark grey for dark clothing."),
+    (
+        "black 2 (1.5 D)",
+        "rubber-black",
+        "Black rubber (stand-in)",
+        "rubber",
+        "Stand-in: the source packages hold no measured tyre or rubber spectrum; this is the ColorChecker "
+        "black 2 patch (same data as object-black), a neutral black of luminous reflectance about 0.03.",
+    ),
+    (
+        "neutral 3.5 (1.05 D)",
+        "fabric-dark",
+        "Dark fabric (stand-in)",
+        "fabric",
+        "Stand-in: the source packages hold no measured fabric spectrum; this is the ColorChecker neutral 3.5 "
+        "patch (same data as object-dark-grey), a neutral dark grey for dark clothing.",
+    ),
 )
 
 # N-BK7 Sellmeier coefficients (SCHOTT optical glass data sheet; from memory): B in 1, C in µm².
@@ -393,79 +639,99 @@ def build_all() -> dict[str, str]:
 
     for pick in EARTHLIB_PICKS:
         rows, extra = earthlib_rows(pick, lib, names, meta)
-        add(pick.id, {
-            "name": pick.name,
-            "description": pick.description,
-            "category": pick.category,
-            "source": f"earthlib {el_version} (PyPI), full_library (data/spectra.sli)",
-            "sample_id": extra["_sample_id"],
-            "licence": pick.licence,
-            "measured_range_nm": extra["_measured"],
-            "completion": EARTHLIB_COMPLETION,
-            "source_metadata": extra["source_metadata"],
-        }, rows)
+        add(
+            pick.id,
+            {
+                "name": pick.name,
+                "description": pick.description,
+                "category": pick.category,
+                "source": f"earthlib {el_version} (PyPI), full_library (data/spectra.sli)",
+                "sample_id": extra["_sample_id"],
+                "licence": pick.licence,
+                "measured_range_nm": extra["_measured"],
+                "completion": EARTHLIB_COMPLETION,
+                "source_metadata": extra["source_metadata"],
+            },
+            rows,
+        )
 
     from colour.quality.datasets.tcs import APPROXIMATE_MUNSELL_NOTATIONS_TCS_CIE1995 as MUNSELL
 
     for key, mid, name, use in TCS_PICKS:
-        add(mid, {
-            "name": name,
-            "description": (
-                f"CIE 13.3-1995 test colour sample {key} (approximate Munsell notation {MUNSELL[key]}), a "
-                f"measured Munsell paint chip used for colour rendering. Typical use: {use}. Colour name from "
-                "memory; data from colour-science."
-            ),
-            "category": "object paint",
-            "source": f"colour-science {cs_version} SDS_TCS['CIE 1995'] (CIE 13.3 test colour sample {int(key[3:])})",
-            "sample_id": key,
-            "licence": LIC_TCS,
-            "measured_range_nm": "360-830",
-            "completion": TCS_COMPLETION,
-        }, tcs_rows(key))
+        add(
+            mid,
+            {
+                "name": name,
+                "description": (
+                    f"CIE 13.3-1995 test colour sample {key} (approximate Munsell notation {MUNSELL[key]}), a "
+                    f"measured Munsell paint chip used for colour rendering. Typical use: {use}. Colour name from "
+                    "memory; data from colour-science."
+                ),
+                "category": "object paint",
+                "source": f"colour-science {cs_version} SDS_TCS['CIE 1995'] (CIE 13.3 test colour sample {int(key[3:])})",
+                "sample_id": key,
+                "licence": LIC_TCS,
+                "measured_range_nm": "360-830",
+                "completion": TCS_COMPLETION,
+            },
+            tcs_rows(key),
+        )
 
     for patch, mid, name, use in CHECKER_PICKS:
-        add(mid, {
-            "name": name,
-            "description": (
-                f"Average of 30 ColorChecker Classic charts measured by BabelColor, patch '{patch}' (a matte "
-                f"paint patch). Typical use: {use}."
-            ),
-            "category": "object paint",
-            "source": f"colour-science {cs_version} BabelColor Average (SDS_COLOURCHECKERS['BabelColor Average'])",
-            "sample_id": patch,
-            "licence": LIC_BABEL,
-            "measured_range_nm": "380-730",
-            "completion": BABEL_COMPLETION,
-        }, checker_rows(patch))
+        add(
+            mid,
+            {
+                "name": name,
+                "description": (
+                    f"Average of 30 ColorChecker Classic charts measured by BabelColor, patch '{patch}' (a matte "
+                    f"paint patch). Typical use: {use}."
+                ),
+                "category": "object paint",
+                "source": f"colour-science {cs_version} BabelColor Average (SDS_COLOURCHECKERS['BabelColor Average'])",
+                "sample_id": patch,
+                "licence": LIC_BABEL,
+                "measured_range_nm": "380-730",
+                "completion": BABEL_COMPLETION,
+            },
+            checker_rows(patch),
+        )
 
     for patch, mid, name, category, description in STANDIN_PICKS:
-        add(mid, {
-            "name": name,
-            "description": description,
-            "category": category,
-            "source": f"colour-science {cs_version} BabelColor Average (SDS_COLOURCHECKERS['BabelColor Average'])",
-            "sample_id": patch,
-            "licence": LIC_BABEL,
-            "measured_range_nm": "380-730",
-            "completion": BABEL_COMPLETION,
-        }, checker_rows(patch))
+        add(
+            mid,
+            {
+                "name": name,
+                "description": description,
+                "category": category,
+                "source": f"colour-science {cs_version} BabelColor Average (SDS_COLOURCHECKERS['BabelColor Average'])",
+                "sample_id": patch,
+                "licence": LIC_BABEL,
+                "measured_range_nm": "380-730",
+                "completion": BABEL_COMPLETION,
+            },
+            checker_rows(patch),
+        )
 
-    add("glass-clear", {
-        "name": "Clear window glass (computed)",
-        "description": (
-            "COMPUTED, not measured: normal-incidence reflectance of a clear, non-absorbing glass pane, "
-            "Fresnel R = ((n-1)/(n+1))^2 per face and 2R/(1+R) for the two faces with multiple reflections; "
-            "n(lambda) from the SCHOTT N-BK7 Sellmeier formula (n_d = 1.5168) as a proxy for soda-lime float "
-            "glass (n_d about 1.52). Treats the pane as a diffuse reflector and ignores light coming through "
-            "it from behind. For windows and glazing."
-        ),
-        "category": "glass",
-        "source": "computed: Fresnel equations with the SCHOTT N-BK7 Sellmeier dispersion formula",
-        "sample_id": "N-BK7 Sellmeier B = 1.03961212, 0.231792344, 1.01046945; C = 0.00600069867, 0.0200179144, 103.560653 um^2",
-        "licence": LIC_COMPUTED,
-        "measured_range_nm": "380-780",
-        "completion": "None needed: computed every 5 nm over 380-780 nm.",
-    }, glass_rows())
+    add(
+        "glass-clear",
+        {
+            "name": "Clear window glass (computed)",
+            "description": (
+                "COMPUTED, not measured: normal-incidence reflectance of a clear, non-absorbing glass pane, "
+                "Fresnel R = ((n-1)/(n+1))^2 per face and 2R/(1+R) for the two faces with multiple reflections; "
+                "n(lambda) from the SCHOTT N-BK7 Sellmeier formula (n_d = 1.5168) as a proxy for soda-lime float "
+                "glass (n_d about 1.52). Treats the pane as a diffuse reflector and ignores light coming through "
+                "it from behind. For windows and glazing."
+            ),
+            "category": "glass",
+            "source": "computed: Fresnel equations with the SCHOTT N-BK7 Sellmeier dispersion formula",
+            "sample_id": "N-BK7 Sellmeier B = 1.03961212, 0.231792344, 1.01046945; C = 0.00600069867, 0.0200179144, 103.560653 um^2",
+            "licence": LIC_COMPUTED,
+            "measured_range_nm": "380-780",
+            "completion": "None needed: computed every 5 nm over 380-780 nm.",
+        },
+        glass_rows(),
+    )
 
     return dict(sorted(files.items()))
 
@@ -601,8 +867,15 @@ def render_readme(directory: Path) -> str:
     for r in rows:
         lo, hi = r["measured_range_nm"]
         src = r["source"].split(" (")[0] if not r["source"].startswith("colour-science 0.4.7 SDS_TCS") else r["source"]
-        cells = [f"`{r['id']}`", r["category"], f"{r['luminous_reflectance_d65']:.3f}", src,
-                 r["sample_id"], f"{lo:g}-{hi:g}", short_licence.get(r["licence"], r["licence"])]
+        cells = [
+            f"`{r['id']}`",
+            r["category"],
+            f"{r['luminous_reflectance_d65']:.3f}",
+            src,
+            r["sample_id"],
+            f"{lo:g}-{hi:g}",
+            short_licence.get(r["licence"], r["licence"]),
+        ]
         out.append("| " + " | ".join(c.replace("|", "/") for c in cells) + " |")
     out.append("")
     return "\n".join(out)
@@ -637,13 +910,20 @@ def main(argv: list[str] | None = None) -> int:
         fresh = Path(tmp)
         write_tree(fresh, files)
         wanted = sorted(p.name for p in fresh.iterdir())
-        have = sorted(p.name for p in args.out.glob("*.csv")) + (["README.md"] if (args.out / "README.md").exists() else [])
-        differ = [n for n in wanted if not (args.out / n).exists() or not filecmp.cmp(fresh / n, args.out / n, shallow=False)]
+        have = sorted(p.name for p in args.out.glob("*.csv")) + (
+            ["README.md"] if (args.out / "README.md").exists() else []
+        )
+        differ = [
+            n for n in wanted if not (args.out / n).exists() or not filecmp.cmp(fresh / n, args.out / n, shallow=False)
+        ]
         extra = sorted(set(have) - set(wanted))
         for n in differ[:5]:
             a = (args.out / n).read_text(encoding="utf-8").splitlines() if (args.out / n).exists() else []
             b = (fresh / n).read_text(encoding="utf-8").splitlines()
-            sys.stdout.writelines(line + "\n" for line in list(difflib.unified_diff(a, b, f"{args.out}/{n}", f"fresh/{n}", lineterm=""))[:20])
+            sys.stdout.writelines(
+                line + "\n"
+                for line in list(difflib.unified_diff(a, b, f"{args.out}/{n}", f"fresh/{n}", lineterm=""))[:20]
+            )
     if differ or extra:
         print(f"materials differ from a fresh build: {len(differ)} changed or missing, {len(extra)} extra {extra}")
         return 1

@@ -22,8 +22,9 @@ for _folder in (ROOT, ROOT / "tests"):  # the package, and the synthetic patch c
     if str(_folder) not in sys.path:
         sys.path.insert(0, str(_folder))
 
-from render.vision import ViewLight, ObserverSettings, ViewGeometry, render_display, shared_display  # noqa: E402
 import synthetic  # noqa: E402
+
+from render.vision import ObserverSettings, ViewGeometry, ViewLight, render_display, shared_display  # noqa: E402
 from render.vision.display import write_png  # noqa: E402
 
 LEVELS_CD_M2 = (10.0, 3.0, 1.0, 0.3, 0.1, 0.03, 0.01)
@@ -68,16 +69,28 @@ def main(argv=None) -> int:
             ax.set_title(f"white {lv:g} cd/m²\nL_a {st.mesopic_cd_m2:.3g}, m {st.m:.2f}", fontsize=7)
             if col == 0:
                 ax.set_ylabel(name, fontsize=9)
-    fig.suptitle(f"ColorChecker under {args.lamp}, dimmed (observer {observer.age_years:g} y, "
-                 f"display {observer.display_peak_cd_m2:g} cd/m²)", fontsize=9)
+    fig.suptitle(
+        f"ColorChecker under {args.lamp}, dimmed (observer {observer.age_years:g} y, "
+        f"display {observer.display_peak_cd_m2:g} cd/m²)",
+        fontsize=9,
+    )
     fig.tight_layout()
     canvas.draw()
     rgb = np.asarray(canvas.buffer_rgba())[..., :3].copy()
-    out = write_png(args.out, rgb, {"Software": "lampcast tools/dimming_strip.py", "lampcast.lamp": args.lamp,
-                                    "lampcast.levels_cd_m2": " ".join(f"{v:g}" for v in LEVELS_CD_M2)})
+    out = write_png(
+        args.out,
+        rgb,
+        {
+            "Software": "lampcast tools/dimming_strip.py",
+            "lampcast.lamp": args.lamp,
+            "lampcast.levels_cd_m2": " ".join(f"{v:g}" for v in LEVELS_CD_M2),
+        },
+    )
     for lv, a, s in zip(LEVELS_CD_M2, adapted, shared):
-        print(f"white {lv:6g} cd/m²: adapted L_a={a.state.mesopic_cd_m2:.4g} m={a.state.m:.3f} "
-              f"scale={a.diagnostics['display_scale']:.3g} | shared scale={s.diagnostics['display_scale']:.3g}")
+        print(
+            f"white {lv:6g} cd/m²: adapted L_a={a.state.mesopic_cd_m2:.4g} m={a.state.m:.3f} "
+            f"scale={a.diagnostics['display_scale']:.3g} | shared scale={s.diagnostics['display_scale']:.3g}"
+        )
     print(f"wrote {out}")
     return 0
 

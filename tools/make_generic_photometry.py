@@ -61,13 +61,13 @@ def _direction(c_deg, g_deg):
 
 
 # (a) asymmetric road optic ---------------------------------------------------------------------
-ROAD_LOBE_GAMMA_DEG = 66.0      # elevation of the two main lobes from nadir
+ROAD_LOBE_GAMMA_DEG = 66.0  # elevation of the two main lobes from nadir
 ROAD_LOBE_C_DEG = (15.0, 165.0)  # the lobes point along the road, 15° toward the street side
-ROAD_LOBE_KAPPA = 14.0           # lobe concentration: exp(κ (cos θ − 1)), θ from the lobe axis
-ROAD_FILL = 0.30                 # weight of the cos γ fill under the luminaire
-ROAD_FRONT = (0.40, 50.0, 5.0)   # street-side lobe: weight, γ of its axis (in C 90), κ
-ROAD_STREET_BIAS = 0.55          # factor (1 + s sin γ sin C)/(1 + s): more to C 90 than C 270
-ROAD_CUTOFF_DEG = (72.0, 80.0)   # raised-cosine cutoff: full below 72°, zero from 80°
+ROAD_LOBE_KAPPA = 14.0  # lobe concentration: exp(κ (cos θ − 1)), θ from the lobe axis
+ROAD_FILL = 0.30  # weight of the cos γ fill under the luminaire
+ROAD_FRONT = (0.40, 50.0, 5.0)  # street-side lobe: weight, γ of its axis (in C 90), κ
+ROAD_STREET_BIAS = 0.55  # factor (1 + s sin γ sin C)/(1 + s): more to C 90 than C 270
+ROAD_CUTOFF_DEG = (72.0, 80.0)  # raised-cosine cutoff: full below 72°, zero from 80°
 
 
 def road_model(c_deg, g_deg):
@@ -85,10 +85,10 @@ def road_model(c_deg, g_deg):
 
 
 # (b) symmetric post-top lantern ------------------------------------------------------------------
-POST_DOWN = 0.35            # weight of the cos γ part (downward only)
-POST_SIDE = 0.65            # weight of the sin^p γ side part
-POST_SIDE_POWER = 1.5       # p
-POST_UP_END_DEG = 115.0     # the side part fades (raised cosine) from 90° to zero at this γ
+POST_DOWN = 0.35  # weight of the cos γ part (downward only)
+POST_SIDE = 0.65  # weight of the sin^p γ side part
+POST_SIDE_POWER = 1.5  # p
+POST_UP_END_DEG = 115.0  # the side part fades (raised cosine) from 90° to zero at this γ
 
 
 def post_top_model(c_deg, g_deg):
@@ -99,8 +99,8 @@ def post_top_model(c_deg, g_deg):
 
 
 # (c) full-cutoff area light ----------------------------------------------------------------------
-AREA_WIDE = 2.5              # batwing term: 1 + w sin^4 γ
-AREA_SQUARE = 0.15           # plan-view squaring: 1 − q sin² γ cos 4C (more toward the diagonals)
+AREA_WIDE = 2.5  # batwing term: 1 + w sin^4 γ
+AREA_SQUARE = 0.15  # plan-view squaring: 1 − q sin² γ cos 4C (more toward the diagonals)
 AREA_CUTOFF_DEG = (70.0, 85.0)
 
 
@@ -131,7 +131,9 @@ MODELS = [
     Model(
         "generic-road-asymmetric",
         "Generic asymmetric road optic (analytic model)",
-        rated_lm=6000.0, input_watts=45.0, opening_wlh_m=(0.25, 0.50, 0.0),
+        rated_lm=6000.0,
+        input_watts=45.0,
+        opening_wlh_m=(0.25, 0.50, 0.0),
         horizontal_deg=_steps((0.0, 360.0, 5.0)),
         vertical_deg=_steps((0.0, 60.0, 5.0), (60.0, 90.0, 2.5)),
         parameters=[
@@ -147,7 +149,9 @@ MODELS = [
     Model(
         "generic-post-top",
         "Generic rotationally symmetric post-top lantern (analytic model)",
-        rated_lm=4000.0, input_watts=35.0, opening_wlh_m=(-0.40, -0.40, 0.30),
+        rated_lm=4000.0,
+        input_watts=35.0,
+        opening_wlh_m=(-0.40, -0.40, 0.30),
         horizontal_deg=np.array([0.0]),
         vertical_deg=_steps((0.0, 180.0, 5.0)),
         parameters=[
@@ -160,7 +164,9 @@ MODELS = [
     Model(
         "generic-full-cutoff",
         "Generic full-cutoff area light (analytic model)",
-        rated_lm=10000.0, input_watts=75.0, opening_wlh_m=(0.40, 0.40, 0.0),
+        rated_lm=10000.0,
+        input_watts=75.0,
+        opening_wlh_m=(0.40, 0.40, 0.0),
         horizontal_deg=_steps((0.0, 90.0, 5.0)),
         vertical_deg=_steps((0.0, 70.0, 5.0), (70.0, 90.0, 2.5)),
         parameters=[
@@ -173,7 +179,9 @@ MODELS = [
     Model(
         "generic-isotropic",
         "Generic isotropic point source (for tests)",
-        rated_lm=1000.0, input_watts=0.0, opening_wlh_m=(0.0, 0.0, 0.0),
+        rated_lm=1000.0,
+        input_watts=0.0,
+        opening_wlh_m=(0.0, 0.0, 0.0),
         horizontal_deg=np.array([0.0]),
         vertical_deg=_steps((0.0, 180.0, 5.0)),
         parameters=["I = constant over the sphere = rated lumens / (4 pi)."],
@@ -189,7 +197,7 @@ def _fmt(v: float) -> str:
 
 def _wrap(values, per_line: int = 10) -> list[str]:
     vals = [_fmt(float(v)) for v in values]
-    return [" ".join(vals[k:k + per_line]) for k in range(0, len(vals), per_line)]
+    return [" ".join(vals[k : k + per_line]) for k in range(0, len(vals), per_line)]
 
 
 def lm63_text(model: Model, table: np.ndarray) -> str:
@@ -235,8 +243,9 @@ def build_all() -> dict[str, str]:
 
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--out", default=str(ROOT / "render" / "data" / "photometry"),
-                        help="folder for the <id>.ies files")
+    parser.add_argument(
+        "--out", default=str(ROOT / "render" / "data" / "photometry"), help="folder for the <id>.ies files"
+    )
     args = parser.parse_args(argv)
     out = Path(args.out)
     out.mkdir(parents=True, exist_ok=True)
@@ -246,9 +255,11 @@ def main(argv: list[str] | None = None) -> int:
         tmp.write_text(text, encoding="ascii", newline="\r\n")
         tmp.replace(path)
         s = summarise(parse_lm63(text, source=str(path)))
-        print(f"{ident:26s} flux {s['flux_lm']:9.2f} lm  rated {s['rated_lm']:8.1f} lm  "
-              f"ratio {s['flux_ratio']:.6f}  ULOR {s['ulor']:.4f}  "
-              f"peak {s['peak_cd']:8.1f} cd at C {s['peak_c_deg']:.1f} g {s['peak_gamma_deg']:.1f}")
+        print(
+            f"{ident:26s} flux {s['flux_lm']:9.2f} lm  rated {s['rated_lm']:8.1f} lm  "
+            f"ratio {s['flux_ratio']:.6f}  ULOR {s['ulor']:.4f}  "
+            f"peak {s['peak_cd']:8.1f} cd at C {s['peak_c_deg']:.1f} g {s['peak_gamma_deg']:.1f}"
+        )
     return 0
 
 

@@ -53,8 +53,17 @@ def main(argv=None) -> int:
     mean = float(base.colorimetry.luminance_cd_m2.reshape(-1)[surf].mean())
     factors, lamps = channel_factors(base.lights, study.setup(args.setup))
     spds = study.lamp_spds(lamps)
-    frames = [RenderedView(base.name, f"{level:g} cd/m²", base.camera, b, base.lights,
-                           resolve(b, factors * (level / mean), spds, study.reflectances)) for level in LEVELS_CD_M2]
+    frames = [
+        RenderedView(
+            base.name,
+            f"{level:g} cd/m²",
+            base.camera,
+            b,
+            base.lights,
+            resolve(b, factors * (level / mean), spds, study.reflectances),
+        )
+        for level in LEVELS_CD_M2
+    ]
     adapted = [study.display(f, "adapted") for f in frames]
     shared = study.display(frames, "shared")
     gap = np.full((22 + frames[0].camera.height_px, 4, 3), 255, np.uint8)
@@ -65,9 +74,16 @@ def main(argv=None) -> int:
             tiles += [_label(r.srgb8, f"{name}, {level:g} cd/m2"), gap]
         rows.append(np.concatenate(tiles[:-1], axis=1))
     strip = np.concatenate([rows[0], np.full((6, rows[0].shape[1], 3), 255, np.uint8), rows[1]], axis=0)
-    path = write_png(args.out, strip, {"Software": "lampcast tools/view_dimming_strip.py",
-                                       "lampcast.scene": Path(args.scene).name, "lampcast.view": base.name,
-                                       "lampcast.setup": args.setup})
+    path = write_png(
+        args.out,
+        strip,
+        {
+            "Software": "lampcast tools/view_dimming_strip.py",
+            "lampcast.scene": Path(args.scene).name,
+            "lampcast.view": base.name,
+            "lampcast.setup": args.setup,
+        },
+    )
     print(path)
     return 0
 

@@ -94,9 +94,9 @@ defined, keys in a fixed order)::
 
 from __future__ import annotations
 
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from functools import lru_cache
-from typing import Mapping, Sequence
 
 import numpy as np
 
@@ -128,6 +128,7 @@ SIGNIFICANT_LUMINANCE = 4
 
 
 # ------------------------------------------------------------------------ whites and CIELAB
+
 
 @lru_cache(maxsize=1)
 def daylight_white_xyz() -> np.ndarray:
@@ -166,6 +167,7 @@ def lab_to_lch(lab) -> np.ndarray:
 
 
 # ----------------------------------------------------------------------- daylight reference
+
 
 def reference_xyz(reflectance) -> np.ndarray:
     """XYZ (..., 3) of reflectance(s) (..., N_BINS) under D65, perfect diffuser Y = 100."""
@@ -229,6 +231,7 @@ def reference_colour_mixture(reflectances, pixel_counts) -> np.ndarray:
 
 # ---------------------------------------------------------------- the vision stage's colours
 
+
 def adapted_xyz(xyz_perceived_cd_m2, state, observer) -> np.ndarray:
     """The vision stage's chromatic adaptation (first part of ``to_display``), XYZ in cd/m².
 
@@ -239,8 +242,9 @@ def adapted_xyz(xyz_perceived_cd_m2, state, observer) -> np.ndarray:
     return adapt_to_display_white(np.asarray(xyz_perceived_cd_m2, dtype=np.float64), state, observer)
 
 
-def white_mesopic_cd_m2(state, white_photopic_cd_m2: float | None = None,
-                        white_scotopic_cd_m2: float | None = None) -> float:
+def white_mesopic_cd_m2(
+    state, white_photopic_cd_m2: float | None = None, white_scotopic_cd_m2: float | None = None
+) -> float:
     """Perceived (MES2 mesopic) luminance of the reference white, cd/m²: ``Y_white`` before
     scaling to 100.
 
@@ -341,8 +345,9 @@ def perceived_view(buffers, geometry, observer=None, state=None) -> PerceivedVie
     buffers.check(geometry)
     xyz_r, scot_r, lms_r, _ = _pipeline.retinal_image(buffers, geometry, observer)
     if state is None:
-        state = _pipeline.measure_adaptation(xyz_r, scot_r, geometry, observer,
-                                             _pipeline.exclusion_mask(buffers, observer), buffers)
+        state = _pipeline.measure_adaptation(
+            xyz_r, scot_r, geometry, observer, _pipeline.exclusion_mask(buffers, observer), buffers
+        )
     xyz_p, lmes = _pipeline.perceived_xyz(xyz_r, scot_r, state, observer, lms_r)
     if observer.acuity:
         local = _acuity.local_adaptation_cd_m2(xyz_r[..., 1], geometry)
@@ -351,6 +356,7 @@ def perceived_view(buffers, geometry, observer=None, state=None) -> PerceivedVie
 
 
 # ------------------------------------------------------------------------- object statistics
+
 
 def _object_masks(object_id: np.ndarray, object_ids: Sequence[int], erode_px: int):
     from scipy.ndimage import binary_erosion
@@ -365,8 +371,15 @@ def _object_masks(object_id: np.ndarray, object_ids: Sequence[int], erode_px: in
         yield int(k), mask
 
 
-def object_colour_stats(perceived_xyz, object_id, object_ids: Sequence[int], min_pixels: int = MIN_PIXELS, *,
-                        erode_px: int = 0, white_xyz=None) -> dict[int, dict]:
+def object_colour_stats(
+    perceived_xyz,
+    object_id,
+    object_ids: Sequence[int],
+    min_pixels: int = MIN_PIXELS,
+    *,
+    erode_px: int = 0,
+    white_xyz=None,
+) -> dict[int, dict]:
     """Mean colour of each tagged object over its visible pixels.
 
     Parameters
@@ -407,8 +420,9 @@ def object_colour_stats(perceived_xyz, object_id, object_ids: Sequence[int], min
     return out
 
 
-def object_mean(values, object_id, object_ids: Sequence[int], min_pixels: int = 1, *,
-                erode_px: int = 0) -> dict[int, float | None]:
+def object_mean(
+    values, object_id, object_ids: Sequence[int], min_pixels: int = 1, *, erode_px: int = 0
+) -> dict[int, float | None]:
     """Mean of a scalar image (e.g. luminance, cd/m²) over each object's pixels (None if fewer
     than ``min_pixels``)."""
     v = np.asarray(values, dtype=np.float64)
@@ -454,6 +468,7 @@ def luminance_contrast(object_luminance, background_luminance):
 
 # ------------------------------------------------------------------------ colour differences
 
+
 def delta_e_matrix(labs) -> np.ndarray:
     """Pairwise CIEDE2000 (CIE 142-2001; colour-science ``delta_E(method="CIE 2000")``).
 
@@ -471,9 +486,14 @@ def delta_e_matrix(labs) -> np.ndarray:
     return de
 
 
-def confusions(daylight_de, night_de, names: Sequence[str], hard: float = HARD_DE00,
-               imperceptible: float = IMPERCEPTIBLE_DE00,
-               distinct_in_daylight: float = DISTINCT_IN_DAYLIGHT_DE00) -> list[dict]:
+def confusions(
+    daylight_de,
+    night_de,
+    names: Sequence[str],
+    hard: float = HARD_DE00,
+    imperceptible: float = IMPERCEPTIBLE_DE00,
+    distinct_in_daylight: float = DISTINCT_IN_DAYLIGHT_DE00,
+) -> list[dict]:
     """Pairs that are distinct in daylight and hard to tell apart under a setup.
 
     A pair (i, j) is listed when ``daylight_de[i, j] ≥ distinct_in_daylight`` and
@@ -493,14 +513,21 @@ def confusions(daylight_de, night_de, names: Sequence[str], hard: float = HARD_D
             if not (np.isfinite(d) and np.isfinite(e)):
                 continue
             if d >= distinct_in_daylight and e < hard:
-                out.append({"a": names[i], "b": names[j], "daylight_delta_e00": float(d),
-                            "delta_e00": float(e),
-                            "level": "imperceptible" if e < imperceptible else "hard"})
+                out.append(
+                    {
+                        "a": names[i],
+                        "b": names[j],
+                        "daylight_delta_e00": float(d),
+                        "delta_e00": float(e),
+                        "level": "imperceptible" if e < imperceptible else "hard",
+                    }
+                )
     out.sort(key=lambda p: (p["delta_e00"], p["a"], p["b"]))
     return out
 
 
 # ------------------------------------------------------------------------------ the analysis
+
 
 @dataclass(frozen=True)
 class TaggedObject:
@@ -562,7 +589,7 @@ class SetupView:
     exclude: np.ndarray | None = None
 
     @classmethod
-    def from_view(cls, view: PerceivedView, object_id, **kwargs) -> "SetupView":
+    def from_view(cls, view: PerceivedView, object_id, **kwargs) -> SetupView:
         """Build from :func:`perceived_view`'s result."""
         return cls(view.xyz_cd_m2, object_id, view.state, view.observer, **kwargs)
 
@@ -603,18 +630,21 @@ def _json_safe(value):
     return value
 
 
-def method_notes(hard: float = HARD_DE00, imperceptible: float = IMPERCEPTIBLE_DE00,
-                 distinct_in_daylight: float = DISTINCT_IN_DAYLIGHT_DE00) -> dict:
+def method_notes(
+    hard: float = HARD_DE00,
+    imperceptible: float = IMPERCEPTIBLE_DE00,
+    distinct_in_daylight: float = DISTINCT_IN_DAYLIGHT_DE00,
+) -> dict:
     """The method statements that go with every analysis (JSON-safe)."""
     from render.analysis.naming import naming_model_notes
 
     return {
         "colour_as_seen": "mean over the object's visible pixels of the vision stage's perceived XYZ "
-                          "(CIE 191 MES2 luminance, rod intrusion, glare, acuity), after its chromatic "
-                          "adaptation to the display white, relative to a perfect white diffuser under the "
-                          "setup's light (Y = 100); mean taken in XYZ, then CIELAB",
+        "(CIE 191 MES2 luminance, rod intrusion, glare, acuity), after its chromatic "
+        "adaptation to the display white, relative to a perfect white diffuser under the "
+        "setup's light (Y = 100); mean taken in XYZ, then CIELAB",
         "daylight_reference": "same reflectance under CIE D65, CIE 1931 2 degree observer, perfect diffuser "
-                              "Y = 100, complete adaptation",
+        "Y = 100, complete adaptation",
         "colour_difference": "CIEDE2000 (CIE 142-2001) on those CIELAB values",
         "thresholds": {
             "imperceptible_delta_e00": imperceptible,
@@ -625,18 +655,24 @@ def method_notes(hard: float = HARD_DE00, imperceptible: float = IMPERCEPTIBLE_D
             "distinct_in_daylight_source": "lampcast's choice: ten JNDs, clearly different at a glance",
         },
         "contrast": "Weber contrast (L_obj - L_bg)/L_bg of the mesopic luminance; background a ring "
-                    "around the object or a named background object",
+        "around the object or a named background object",
         "caveat": "CIEDE2000 has no light-level term: thresholds rise at low luminance, so night "
-                  "differences read as more visible than they are",
+        "differences read as more visible than they are",
         "naming": naming_model_notes(),
     }
 
 
-def colour_analysis(objects: Sequence[TaggedObject], setups: Mapping[str, SetupView], *,
-                    min_pixels: int = MIN_PIXELS, erode_px: int = 0, hard: float = HARD_DE00,
-                    imperceptible: float = IMPERCEPTIBLE_DE00,
-                    distinct_in_daylight: float = DISTINCT_IN_DAYLIGHT_DE00,
-                    naming_adaptation: str = "as-seen") -> dict:
+def colour_analysis(
+    objects: Sequence[TaggedObject],
+    setups: Mapping[str, SetupView],
+    *,
+    min_pixels: int = MIN_PIXELS,
+    erode_px: int = 0,
+    hard: float = HARD_DE00,
+    imperceptible: float = IMPERCEPTIBLE_DE00,
+    distinct_in_daylight: float = DISTINCT_IN_DAYLIGHT_DE00,
+    naming_adaptation: str = "as-seen",
+) -> dict:
     """The whole colour analysis as a JSON-safe dict (structure in the module text).
 
     Parameters
@@ -677,8 +713,11 @@ def colour_analysis(objects: Sequence[TaggedObject], setups: Mapping[str, SetupV
     }
     for o, lab, nm in zip(objects, day_lab, day_names):
         daylight["objects"][o.name] = {
-            "lab": _vec(lab, ROUND_LAB), "lch": _vec(lab_to_lch(lab), ROUND_LAB),
-            "name": nm["term"], "name_margin": _num(nm["margin"], ROUND_DE), "name_runner_up": nm["runner_up"],
+            "lab": _vec(lab, ROUND_LAB),
+            "lch": _vec(lab_to_lch(lab), ROUND_LAB),
+            "name": nm["term"],
+            "name_margin": _num(nm["margin"], ROUND_DE),
+            "name_runner_up": nm["runner_up"],
         }
 
     out_setups = {}
@@ -687,16 +726,23 @@ def colour_analysis(objects: Sequence[TaggedObject], setups: Mapping[str, SetupV
         rel = relative_colour_image(sv.perceived_xyz_cd_m2, sv.state, sv.observer, white)
         stats = object_colour_stats(rel, sv.object_id, ids, min_pixels, erode_px=erode_px)
         if naming_adaptation == "discounted":
-            naming_stats = object_colour_stats(discount_light_colour(rel, sv.state, sv.observer), sv.object_id,
-                                               ids, min_pixels, erode_px=erode_px)
+            naming_stats = object_colour_stats(
+                discount_light_colour(rel, sv.state, sv.observer), sv.object_id, ids, min_pixels, erode_px=erode_px
+            )
         else:
             naming_stats = stats
-        lum = (np.asarray(sv.perceived_xyz_cd_m2, dtype=np.float64)[..., 1] if sv.luminance_cd_m2 is None
-               else np.asarray(sv.luminance_cd_m2, dtype=np.float64))
+        lum = (
+            np.asarray(sv.perceived_xyz_cd_m2, dtype=np.float64)[..., 1]
+            if sv.luminance_cd_m2 is None
+            else np.asarray(sv.luminance_cd_m2, dtype=np.float64)
+        )
         lum_obj = object_mean(lum, sv.object_id, ids, min_pixels, erode_px=erode_px)
         oid = np.asarray(sv.object_id)
-        labs = np.stack([stats[k]["lab"] if stats[k]["visible"] else np.full(3, np.nan) for k in ids]) \
-            if ids else np.zeros((0, 3))
+        labs = (
+            np.stack([stats[k]["lab"] if stats[k]["visible"] else np.full(3, np.nan) for k in ids])
+            if ids
+            else np.zeros((0, 3))
+        )
         de = delta_e_matrix(labs)
         per_obj = {}
         changes = []
@@ -710,8 +756,9 @@ def colour_analysis(objects: Sequence[TaggedObject], setups: Mapping[str, SetupV
                 bg_l = object_mean(lum, oid, [o.background], 1).get(int(o.background))
                 bg_name = next((p.name for p in objects if p.id == o.background), f"id {o.background}")
                 bg_label = f"object {bg_name}"
-            contrast = (luminance_contrast(lum_obj[o.id], bg_l)
-                        if lum_obj[o.id] is not None and bg_l is not None else None)
+            contrast = (
+                luminance_contrast(lum_obj[o.id], bg_l) if lum_obj[o.id] is not None and bg_l is not None else None
+            )
             changed = bool(nm is not None and nm["term"] != day_names[i]["term"])
             per_obj[o.name] = {
                 "visible": bool(st["visible"]),
@@ -724,16 +771,25 @@ def colour_analysis(objects: Sequence[TaggedObject], setups: Mapping[str, SetupV
                 "name_runner_up": None if nm is None else nm["runner_up"],
                 "daylight_name": day_names[i]["term"],
                 "name_changed": changed,
-                "delta_e00_to_daylight": (None if st["lab"] is None else
-                                          _num(delta_e_matrix(np.stack([st["lab"], day_lab[i]]))[0, 1], ROUND_DE)),
+                "delta_e00_to_daylight": (
+                    None
+                    if st["lab"] is None
+                    else _num(delta_e_matrix(np.stack([st["lab"], day_lab[i]]))[0, 1], ROUND_DE)
+                ),
                 "luminance_cd_m2": _sig(lum_obj[o.id]),
                 "background": bg_label,
                 "background_luminance_cd_m2": _sig(bg_l),
                 "weber_contrast": _num(contrast, ROUND_CONTRAST),
             }
             if changed:
-                changes.append({"object": o.name, "daylight": day_names[i]["term"], "seen": nm["term"],
-                                "text": f"{o.name}: {day_names[i]['term']} → {nm['term']}"})
+                changes.append(
+                    {
+                        "object": o.name,
+                        "daylight": day_names[i]["term"],
+                        "seen": nm["term"],
+                        "text": f"{o.name}: {day_names[i]['term']} → {nm['term']}",
+                    }
+                )
         conf = confusions(day_de, de, names, hard, imperceptible, distinct_in_daylight)
         for c in conf:
             c["daylight_delta_e00"] = _num(c["daylight_delta_e00"], ROUND_DE)
@@ -749,8 +805,7 @@ def colour_analysis(objects: Sequence[TaggedObject], setups: Mapping[str, SetupV
         }
 
     return {
-        "method": {**method_notes(hard, imperceptible, distinct_in_daylight),
-                   "naming_adaptation": naming_adaptation},
+        "method": {**method_notes(hard, imperceptible, distinct_in_daylight), "naming_adaptation": naming_adaptation},
         "objects": [{"id": o.id, "name": o.name} for o in objects],
         "daylight": daylight,
         "setups": out_setups,

@@ -57,14 +57,13 @@ under reference conditions. The loss of colour at night is the vision stage's bu
 
 from __future__ import annotations
 
+from collections.abc import Mapping, Sequence
 from functools import lru_cache
-from typing import Mapping, Sequence
 
 import numpy as np
 
 #: The eleven basic colour terms (Berlin & Kay 1969), in their order.
-BASIC_TERMS = ("black", "white", "grey", "red", "green", "yellow", "blue", "brown", "orange", "pink",
-               "purple")
+BASIC_TERMS = ("black", "white", "grey", "red", "green", "yellow", "blue", "brown", "orange", "pink", "purple")
 
 #: Prototype of each term in Munsell notation (illuminant C); see the module text for sources.
 PROTOTYPES_MUNSELL = {
@@ -82,8 +81,11 @@ PROTOTYPES_MUNSELL = {
 }
 
 PROTOTYPE_SOURCE = {
-    term: ("lampcast's choice (Centore 2020 gives no black)" if term == "black" else
-           "Centore 2020, JAIC 25:24-54, polyhedron centroid")
+    term: (
+        "lampcast's choice (Centore 2020 gives no black)"
+        if term == "black"
+        else "Centore 2020, JAIC 25:24-54, polyhedron centroid"
+    )
     for term in BASIC_TERMS
 }
 
@@ -96,10 +98,10 @@ def naming_model_notes() -> dict:
     """The naming model and its sources, JSON-safe."""
     return {
         "model": "nearest category prototype in CAM16-UCS (Li et al. 2017), reference conditions "
-                 "D65, L_A = 63.7 cd/m2, Y_b = 20, average surround",
+        "D65, L_A = 63.7 cd/m2, Y_b = 20, average surround",
         "terms": "Berlin & Kay (1969) eleven basic colour terms",
         "prototypes": "Centore (2020) J. Int. Colour Assoc. 25:24-54, polyhedron centroids (Munsell, "
-                      "illuminant C); black = N 1.5/ (lampcast's choice)",
+        "illuminant C); black = N 1.5/ (lampcast's choice)",
         "prototypes_munsell": dict(PROTOTYPES_MUNSELL),
         "margin": "distance to the runner-up minus distance to the chosen term, CAM16-UCS units",
     }
@@ -122,9 +124,17 @@ def lab_to_cam16ucs(lab) -> np.ndarray:
     xyz = np.asarray(colour.Lab_to_XYZ(lab, xy), dtype=np.float64) * 100.0
     white = np.asarray(colour.xy_to_XYZ(xy), dtype=np.float64) * 100.0
     with np.errstate(invalid="ignore", divide="ignore"):
-        return np.asarray(colour.XYZ_to_CAM16UCS(
-            xyz, XYZ_w=white, L_A=NAMING_ADAPTING_LUMINANCE_CD_M2, Y_b=NAMING_BACKGROUND_Y,
-            surround=colour.VIEWING_CONDITIONS_CAM16["Average"], discount_illuminant=True), dtype=np.float64)
+        return np.asarray(
+            colour.XYZ_to_CAM16UCS(
+                xyz,
+                XYZ_w=white,
+                L_A=NAMING_ADAPTING_LUMINANCE_CD_M2,
+                Y_b=NAMING_BACKGROUND_Y,
+                surround=colour.VIEWING_CONDITIONS_CAM16["Average"],
+                discount_illuminant=True,
+            ),
+            dtype=np.float64,
+        )
 
 
 def munsell_to_lab(notation: str) -> np.ndarray:
@@ -167,9 +177,12 @@ def colour_name_details(lab) -> dict | None:
         return None
     d = term_distances(lab)
     order = np.argsort(d, kind="stable")
-    return {"term": BASIC_TERMS[order[0]], "margin": float(d[order[1]] - d[order[0]]),
-            "runner_up": BASIC_TERMS[order[1]],
-            "distances": {t: float(v) for t, v in zip(BASIC_TERMS, d)}}
+    return {
+        "term": BASIC_TERMS[order[0]],
+        "margin": float(d[order[1]] - d[order[0]]),
+        "runner_up": BASIC_TERMS[order[1]],
+        "distances": {t: float(v) for t, v in zip(BASIC_TERMS, d)},
+    }
 
 
 def colour_name(lab) -> tuple[str | None, float | None]:
@@ -209,8 +222,14 @@ def name_table(object_names: Sequence[str], daylight_labs, setup_labs: Mapping[s
     rows = []
     for i, name in enumerate(object_names):
         seen = {k: v[i][0] for k, v in per_setup.items()}
-        rows.append({"object": name, "daylight": day[i][0], "setups": seen,
-                     "changed": [k for k, t in seen.items() if t is not None and t != day[i][0]]})
+        rows.append(
+            {
+                "object": name,
+                "daylight": day[i][0],
+                "setups": seen,
+                "changed": [k for k, t in seen.items() if t is not None and t != day[i][0]],
+            }
+        )
     return rows
 
 
@@ -221,8 +240,15 @@ def name_changes(rows: Sequence[dict]) -> list[dict]:
     for r in rows:
         for setup in r["changed"]:
             seen = r["setups"][setup]
-            out.append({"object": r["object"], "setup": setup, "daylight": r["daylight"], "seen": seen,
-                        "text": f"{r['object']}: {r['daylight']} → {seen}"})
+            out.append(
+                {
+                    "object": r["object"],
+                    "setup": setup,
+                    "daylight": r["daylight"],
+                    "seen": seen,
+                    "text": f"{r['object']}: {r['daylight']} → {seen}",
+                }
+            )
     return out
 
 

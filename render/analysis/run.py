@@ -70,8 +70,15 @@ def analyse_view_colours(study, rendered: list, displays: list, observer, labels
     return colour_analysis(objects, setups)
 
 
-def colour_pictures(result: dict, rendered: list, displays: list, lamps: list[tuple[str, np.ndarray]], out_dir: Path,
-                    prefix: str = "", text: dict[str, str] | None = None) -> dict[str, Path]:
+def colour_pictures(
+    result: dict,
+    rendered: list,
+    displays: list,
+    lamps: list[tuple[str, np.ndarray]],
+    out_dir: Path,
+    prefix: str = "",
+    text: dict[str, str] | None = None,
+) -> dict[str, Path]:
     """Outlined view, swatch sheet, ΔE00 heat map and spectrum strips for ``result``."""
     from render.output import colour_pictures as pictures
 
@@ -81,8 +88,14 @@ def colour_pictures(result: dict, rendered: list, displays: list, lamps: list[tu
     written: dict[str, Path] = {}
     object_id = pixel_object_ids(rendered[0].buffers)
     labels = {o["id"]: o["name"] for o in result["objects"]}
-    written["outlined"] = pictures.outlined_view(displays[-1].srgb8, object_id, labels, out_dir / f"{prefix}objects.png",
-                                                 title=f"tagged objects ({setups[-1]})", png_text=text)
+    written["outlined"] = pictures.outlined_view(
+        displays[-1].srgb8,
+        object_id,
+        labels,
+        out_dir / f"{prefix}objects.png",
+        title=f"tagged objects ({setups[-1]})",
+        png_text=text,
+    )
     labs = np.full((len(names), 1 + len(setups), 3), np.nan)
     terms = [[None] * (1 + len(setups)) for _ in names]
     for i, name in enumerate(names):
@@ -94,15 +107,26 @@ def colour_pictures(result: dict, rendered: list, displays: list, lamps: list[tu
             if seen["lab"] is not None:
                 labs[i, j + 1] = seen["lab"]
             terms[i][j + 1] = seen["name"]
-    written["swatches"] = pictures.swatch_sheet(names, ["daylight (D65)", *setups], labs, out_dir / f"{prefix}swatches.png",
-                                                terms=terms, title="object colours: daylight and as seen at night", png_text=text)
+    written["swatches"] = pictures.swatch_sheet(
+        names,
+        ["daylight (D65)", *setups],
+        labs,
+        out_dir / f"{prefix}swatches.png",
+        terms=terms,
+        title="object colours: daylight and as seen at night",
+        png_text=text,
+    )
     matrices = {"daylight (D65)": np.array(result["daylight"]["delta_e00"], dtype=float)}
     for s in setups:
-        matrices[s] = np.array([[np.nan if v is None else v for v in row] for row in result["setups"][s]["delta_e00"]], dtype=float)
-    written["heatmap"] = pictures.delta_e_heatmap(matrices, names, out_dir / f"{prefix}delta-e00.png",
-                                                  title="CIEDE2000 between tagged objects", png_text=text)
-    written["spectra"] = pictures.spectrum_strip_figure(lamps, out_dir / f"{prefix}spectrum-strips.png",
-                                                        title="the lamps' light spread by a grating", png_text=text)
+        matrices[s] = np.array(
+            [[np.nan if v is None else v for v in row] for row in result["setups"][s]["delta_e00"]], dtype=float
+        )
+    written["heatmap"] = pictures.delta_e_heatmap(
+        matrices, names, out_dir / f"{prefix}delta-e00.png", title="CIEDE2000 between tagged objects", png_text=text
+    )
+    written["spectra"] = pictures.spectrum_strip_figure(
+        lamps, out_dir / f"{prefix}spectrum-strips.png", title="the lamps' light spread by a grating", png_text=text
+    )
     return written
 
 
@@ -139,7 +163,8 @@ def colour_report_section(result: dict, pictures: dict[str, Path], out_dir: Path
         f"daylight but below {t['hard_delta_e00']:g} (hard to tell apart) or "
         f"{t['imperceptible_delta_e00']:g} (imperceptible) under a setup (common practice thresholds). "
         "Contrast is Weber luminance contrast against the object's surroundings: lightness survives where hue does not. "
-        + result["method"]["caveat"] + ".",
+        + result["method"]["caveat"]
+        + ".",
     ]
     changes = [c["text"] for s in setups for c in result["setups"][s]["name_changes"]]
     if changes:
@@ -150,8 +175,11 @@ def colour_report_section(result: dict, pictures: dict[str, Path], out_dir: Path
         "paragraphs": paragraphs,
         "tables": [
             {"caption": "Name it: daylight name and predicted night name per object", "columns": columns, "rows": rows},
-            {"caption": "Pairs that become hard to tell apart", "columns": ["setup", "object", "object", "ΔE00 daylight", "ΔE00 seen", "level"],
-             "rows": confusion_rows},
+            {
+                "caption": "Pairs that become hard to tell apart",
+                "columns": ["setup", "object", "object", "ΔE00 daylight", "ΔE00 seen", "level"],
+                "rows": confusion_rows,
+            },
         ],
         "images": [str(p.relative_to(out_dir)) for p in pictures.values()],
     }

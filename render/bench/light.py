@@ -14,7 +14,6 @@
 
 from __future__ import annotations
 
-import argparse
 import copy
 import time
 from pathlib import Path
@@ -47,14 +46,32 @@ def long_street(scene, n_luminaires: int, spacing_m: float = 28.0):
     fronts = []
     for k in range(repeats):
         for f in scene.frontages:
-            fronts.append(replace(f, start_m=f.start_m + k * scene.street.length_m, tag=replace(f.tag, name=f"{f.tag.name} {k}")))
+            fronts.append(
+                replace(f, start_m=f.start_m + k * scene.street.length_m, tag=replace(f.tag, name=f"{f.tag.name} {k}"))
+            )
     s.frontages = fronts
     template = scene.luminaires[-1]  # a row luminaire of the demo
-    row = {"count": n_luminaires, "end_m": None, "start_m": 6.0, "spacing_m": spacing_m, "layout": "staggered",
-           "side": "left", "setback_m": 0.5, "outreach_m": 0.5, "mounting_height_m": template.position_m[2] - scene.street.kerb_height_m,
-           "rotation_deg": 0.0, "column": True, "name": "bench", "group": template.group, "tilt_deg": 0.0,
-           "photometry": template.photometry, "lamp": template.lamp, "lumens": template.lumens,
-           "maintenance_factor": template.maintenance_factor, "dimming": template.dimming}
+    row = {
+        "count": n_luminaires,
+        "end_m": None,
+        "start_m": 6.0,
+        "spacing_m": spacing_m,
+        "layout": "staggered",
+        "side": "left",
+        "setback_m": 0.5,
+        "outreach_m": 0.5,
+        "mounting_height_m": template.position_m[2] - scene.street.kerb_height_m,
+        "rotation_deg": 0.0,
+        "column": True,
+        "name": "bench",
+        "group": template.group,
+        "tilt_deg": 0.0,
+        "photometry": template.photometry,
+        "lamp": template.lamp,
+        "lumens": template.lumens,
+        "maintenance_factor": template.maintenance_factor,
+        "dimming": template.dimming,
+    }
     s.luminaires = _expand_row(row, "bench", s.street)
     s.setups = {}
     return s
@@ -74,41 +91,51 @@ def _render(study, camera, spp, seed, step_nm=1):
 
 
 def cmd_light(args) -> int:
-    from render.rays.cameras import Camera
     from render.colour.colorimetry import resolve
     from render.light.luminaires import channel_factors
+    from render.rays.cameras import Camera
     from render.study import Study
 
     study = Study(args.scene)
     _ = study.bvh, study.reflectances
     v = study.scene.view(args.view)
-    camera = Camera(position_m=v.position_m, target_m=v.target_m, hfov_deg=v.hfov_deg, width_px=args.width, height_px=args.height)
+    camera = Camera(
+        position_m=v.position_m, target_m=v.target_m, hfov_deg=v.hfov_deg, width_px=args.width, height_px=args.height
+    )
     small = Camera(position_m=v.position_m, target_m=v.target_m, hfov_deg=v.hfov_deg, width_px=64, height_px=36)
     _render(study, small, 1, 0)  # JIT warm-up
-    print(f"scene {Path(args.scene).name}, view '{v.name}', {args.width}x{args.height} px, {args.spp} samples/px, "
-          f"{study.mesh.n_triangles} triangles, {len(study.scene.luminaires)} luminaires")
+    print(
+        f"scene {Path(args.scene).name}, view '{v.name}', {args.width}x{args.height} px, {args.spp} samples/px, "
+        f"{study.mesh.n_triangles} triangles, {len(study.scene.luminaires)} luminaires"
+    )
 
     t_full, (buffers, lights, _) = _timed(lambda: _render(study, camera, args.spp, 0), args.repeat)
     print(f"full render (camera rays + direct light + colorimetry): {t_full:.3f} s")
     factors, lamps = channel_factors(lights)
     new = study.lamp_spds(["led-4000k-cie-b3"] * len(lamps))
     t_relight, _ = _timed(lambda: resolve(buffers, factors, new, study.reflectances), max(args.repeat, 3))
-    print(f"relight for a new lamp (no rays): {t_relight * 1000:.1f} ms; full/relight = {t_full / t_relight:.0f} (goal >= 50)")
+    print(
+        f"relight for a new lamp (no rays): {t_relight * 1000:.1f} ms; full/relight = {t_full / t_relight:.0f} (goal >= 50)"
+    )
 
     t1, _ = _timed(lambda: resolve(buffers, factors, new, study.reflectances, 1), max(args.repeat, 3))
     t5, _ = _timed(lambda: resolve(buffers, factors, new, study.reflectances, 5), max(args.repeat, 3))
     t_1nm = t_full - t_relight + t1
     t_5nm = t_full - t_relight + t5
-    print(f"render with colorimetry on the 1 nm grid: {t_1nm:.3f} s, on a 5 nm grid: {t_5nm:.3f} s; "
-          f"1 nm / 5 nm = {t_1nm / t_5nm:.3f} (goal <= 1.1; colorimetry alone {t1 * 1000:.1f} vs {t5 * 1000:.1f} ms)")
+    print(
+        f"render with colorimetry on the 1 nm grid: {t_1nm:.3f} s, on a 5 nm grid: {t_5nm:.3f} s; "
+        f"1 nm / 5 nm = {t_1nm / t_5nm:.3f} (goal <= 1.1; colorimetry alone {t1 * 1000:.1f} vs {t5 * 1000:.1f} ms)"
+    )
 
     times = {}
     for n in (10, 100):
         st = Study(long_street(study.scene, n))
         _ = st.bvh, st.reflectances
         _render(st, small, 1, 0)
-        times[n], (b, lights_n, _) = _timed(lambda: _render(st, camera, args.spp, 0), args.repeat)
-        print(f"{n:3d} luminaires ({st.scene.street.length_m:.0f} m street, {st.mesh.n_triangles} triangles): {times[n]:.3f} s")
+        times[n], (b, lights_n, _) = _timed(lambda st=st: _render(st, camera, args.spp, 0), args.repeat)
+        print(
+            f"{n:3d} luminaires ({st.scene.street.length_m:.0f} m street, {st.mesh.n_triangles} triangles): {times[n]:.3f} s"
+        )
     print(f"100 / 10 luminaires = {times[100] / times[10]:.2f} (goal <= 3)")
     return 0
 

@@ -15,10 +15,8 @@ throughput ratio (ours / Embree) is printed, with the agreement of the two resul
 
 from __future__ import annotations
 
-import argparse
 import glob
 import os
-import sys
 import time
 from dataclasses import dataclass
 
@@ -76,7 +74,15 @@ def stress_scene(seed: int = 0, n_boxes: int = 12000, n_spheres: int = 300, exte
     plane. Returns (F, 3, 3) triangles; F = 2 + 12 n_boxes + 360 n_spheres (252 002 by default)."""
     rng = np.random.default_rng(seed)
     half = extent_m / 2.0
-    out = [np.array([[[-2 * half, -2 * half, 0], [2 * half, -2 * half, 0], [2 * half, 2 * half, 0]], [[-2 * half, -2 * half, 0], [2 * half, 2 * half, 0], [-2 * half, 2 * half, 0]]], float)]
+    out = [
+        np.array(
+            [
+                [[-2 * half, -2 * half, 0], [2 * half, -2 * half, 0], [2 * half, 2 * half, 0]],
+                [[-2 * half, -2 * half, 0], [2 * half, 2 * half, 0], [-2 * half, 2 * half, 0]],
+            ],
+            float,
+        )
+    ]
     unit = _box_triangles(np.array([-0.5, -0.5, 0.0]), np.array([0.5, 0.5, 1.0]))
     size = rng.uniform([0.3, 0.3, 0.3], [4.0, 4.0, 6.0], (n_boxes, 3))
     heading = rng.uniform(0.0, 2.0 * np.pi, n_boxes)
@@ -152,7 +158,11 @@ def _bounce_rays(origins, directions, hits, triangles_m, seed, offset_m=1e-4):
     t1 = np.cross(n, a)
     t1 /= np.linalg.norm(t1, axis=1, keepdims=True)
     t2 = np.cross(n, t1)
-    d = (r * np.cos(phi))[:, None] * t1 + (r * np.sin(phi))[:, None] * t2 + np.sqrt(np.maximum(0.0, 1.0 - r * r))[:, None] * n
+    d = (
+        (r * np.cos(phi))[:, None] * t1
+        + (r * np.sin(phi))[:, None] * t2
+        + np.sqrt(np.maximum(0.0, 1.0 - r * r))[:, None] * n
+    )
     return np.ascontiguousarray(p + offset_m * n), np.ascontiguousarray(d)
 
 
@@ -187,7 +197,9 @@ def _run_case(case: _Case, args) -> None:
     t0 = time.perf_counter()
     bvh: BVH = build_bvh(tris)
     build_s = time.perf_counter() - t0
-    print(f"BVH build {build_s:.3f} s (one core), {bvh.n_nodes} inner nodes, depth {bvh.depth}, SAH cost {bvh.sah_cost:.2f}, arrays {bvh.nbytes / 2**20:.1f} MiB ({bvh.nbytes} B)")
+    print(
+        f"BVH build {build_s:.3f} s (one core), {bvh.n_nodes} inner nodes, depth {bvh.depth}, SAH cost {bvh.sah_cost:.2f}, arrays {bvh.nbytes / 2**20:.1f} MiB ({bvh.nbytes} B)"
+    )
 
     cam = case.camera
     # Pixels in 4 x 4 blocks, the order render.rays.aov casts them in (consecutive rays coherent).
@@ -200,7 +212,9 @@ def _run_case(case: _Case, args) -> None:
     intersect_any(bvh, so[:1024], sd[:1024], t_max[:1024])
     bo, bd = _bounce_rays(o, d, hits, tris, args.seed)
     threads = numba.get_num_threads()
-    print(f"camera {cam.width_px}x{cam.height_px}, {args.spp} spp; light at {tuple(np.round(case.light_m, 2))} m; ours: {threads} threads (numba prange), Embree: embreex, 1 thread, float32, one rtcIntersect/rtcOccluded per ray")
+    print(
+        f"camera {cam.width_px}x{cam.height_px}, {args.spp} spp; light at {tuple(np.round(case.light_m, 2))} m; ours: {threads} threads (numba prange), Embree: embreex, 1 thread, float32, one rtcIntersect/rtcOccluded per ray"
+    )
 
     emb = None if args.no_embree else _embree()
     scene = None
@@ -217,7 +231,9 @@ def _run_case(case: _Case, args) -> None:
         ("shadow to light (occlusion)", so, sd, t_max),
         ("diffuse bounce, incoherent (closest hit)", bo, bd, None),
     ]
-    print(f"{'rays':44s} {'count':>8s} {'ours Mrays/s':>13s} {'1 thread':>9s} {'Embree':>8s} {'ours/Embree':>12s}  agreement")
+    print(
+        f"{'rays':44s} {'count':>8s} {'ours Mrays/s':>13s} {'1 thread':>9s} {'Embree':>8s} {'ours/Embree':>12s}  agreement"
+    )
     for name, ro, rd, tm in sets:
         if tm is None:
             fns = {"ours": lambda ro=ro, rd=rd: intersect_closest(bvh, ro, rd)}
@@ -231,7 +247,9 @@ def _run_case(case: _Case, args) -> None:
                 fns["embree"] = lambda o32=o32, d32=d32: scene.run(o32, d32, output=1)
             else:
                 tm32 = tm.astype(np.float32)
-                fns["embree"] = lambda o32=o32, d32=d32, tm32=tm32: scene.run(o32, d32, dists=tm32.copy(), query="OCCLUDED")
+                fns["embree"] = lambda o32=o32, d32=d32, tm32=tm32: scene.run(
+                    o32, d32, dists=tm32.copy(), query="OCCLUDED"
+                )
         best = _interleaved(fns, args.repeat)
         n = ro.shape[0]
         one = f"{_mrays(n, best['one']):9.2f}" if "one" in best else f"{'-':>9s}"
@@ -279,7 +297,9 @@ def _demo_case(args) -> _Case | None:
 
 
 def cmd_rays(args) -> int:
-    print(f"numba {numba.__version__}, threading layer {numba.threading_layer() if _warm_threads() else '?'}, {numba.get_num_threads()} threads, {os.cpu_count()} CPUs")
+    print(
+        f"numba {numba.__version__}, threading layer {numba.threading_layer() if _warm_threads() else '?'}, {numba.get_num_threads()} threads, {os.cpu_count()} CPUs"
+    )
     if hasattr(os, "getloadavg"):
         print(f"load average before the run {os.getloadavg()[0]:.2f} (other processes on the machine skew the figures)")
     demo = _demo_case(args)
@@ -289,7 +309,9 @@ def cmd_rays(args) -> int:
         _run_case(demo, args)
     tris = stress_scene(args.seed)
     cam = Camera(**STRESS_CAMERA, width_px=args.width, height_px=args.height)
-    _run_case(_Case("synthetic stress scene (seeded boxes and spheres on a ground plane)", tris, cam, STRESS_LIGHT_M), args)
+    _run_case(
+        _Case("synthetic stress scene (seeded boxes and spheres on a ground plane)", tris, cam, STRESS_LIGHT_M), args
+    )
     return 0
 
 
@@ -302,12 +324,24 @@ def _warm_threads() -> bool:
 
 def add_parser(sub) -> None:
     """Register the ``rays`` sub-command on an argparse sub-parser set."""
-    rays = sub.add_parser("rays", help="BVH build time and ray-casting throughput (Mrays/s), with an Embree comparison when embreex is installed")
-    rays.add_argument("--width", type=int, default=960, help="image width in pixels for the stress scene (default 960; the demo uses its view's size)")
-    rays.add_argument("--height", type=int, default=540, help="image height in pixels for the stress scene (default 540)")
+    rays = sub.add_parser(
+        "rays",
+        help="BVH build time and ray-casting throughput (Mrays/s), with an Embree comparison when embreex is installed",
+    )
+    rays.add_argument(
+        "--width",
+        type=int,
+        default=960,
+        help="image width in pixels for the stress scene (default 960; the demo uses its view's size)",
+    )
+    rays.add_argument(
+        "--height", type=int, default=540, help="image height in pixels for the stress scene (default 540)"
+    )
     rays.add_argument("--spp", type=int, default=1, help="samples per pixel (default 1)")
     rays.add_argument("--seed", type=int, default=0, help="seed of the stress scene and the ray jitter (default 0)")
-    rays.add_argument("--repeat", type=int, default=5, help="timed runs per measurement; the best is reported (default 5)")
+    rays.add_argument(
+        "--repeat", type=int, default=5, help="timed runs per measurement; the best is reported (default 5)"
+    )
     rays.add_argument("--scenes", default="scenes", help="folder holding demo/*.toml (default ./scenes)")
     rays.add_argument("--no-embree", action="store_true", help="skip the Embree comparison")
     rays.add_argument("--no-single", action="store_true", help="skip the single-thread measurement")

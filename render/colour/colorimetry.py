@@ -154,7 +154,9 @@ class ViewColorimetry:
         return self.xyz_cd_m2[..., 1]
 
 
-def resolve(buffers, factors: np.ndarray, lamp_spds: list[np.ndarray], reflectances: np.ndarray, step_nm: int = 1) -> ViewColorimetry:
+def resolve(
+    buffers, factors: np.ndarray, lamp_spds: list[np.ndarray], reflectances: np.ndarray, step_nm: int = 1
+) -> ViewColorimetry:
     """Images from light buffers.
 
     Parameters
@@ -180,12 +182,24 @@ def resolve(buffers, factors: np.ndarray, lamp_spds: list[np.ndarray], reflectan
         else:
             lamp_of_channel[c] = len(spd_list)
             spd_list.append(np.asarray(spd))
-    table = response_table(reflectances, np.array(spd_list), step_nm) if spd_list else np.zeros((len(reflectances) + 1, 1, 4))
+    table = (
+        response_table(reflectances, np.array(spd_list), step_nm)
+        if spd_list
+        else np.zeros((len(reflectances) + 1, 1, 4))
+    )
     n_pix = buffers.width_px * buffers.height_px
     out = np.zeros((n_pix, 4))
     spec = buffers.spec_cd_m2 if buffers.spec_cd_m2 is not None else np.zeros_like(buffers.value_cd_m2)
-    _resolve_kernel(buffers.response, buffers.value_cd_m2, spec, np.ascontiguousarray(factors, np.float64), lamp_of_channel,
-                    np.ascontiguousarray(table), buffers.spp, out)
+    _resolve_kernel(
+        buffers.response,
+        buffers.value_cd_m2,
+        spec,
+        np.ascontiguousarray(factors, np.float64),
+        lamp_of_channel,
+        np.ascontiguousarray(table),
+        buffers.spp,
+        out,
+    )
     out = out.reshape(buffers.height_px, buffers.width_px, 4)
     # The illuminant's colour: each channel's mean white-diffuser luminance over the lit surfaces
     # seen, times the white response of its lamp.
@@ -197,6 +211,9 @@ def resolve(buffers, factors: np.ndarray, lamp_spds: list[np.ndarray], reflectan
             white += mean[c] * table[-1, lamp_of_channel[c]]
     mask = _any_per_pixel(buffers.emitter, buffers.spp).reshape(buffers.height_px, buffers.width_px)
     return ViewColorimetry(
-        np.ascontiguousarray(out[..., :3]), np.ascontiguousarray(out[..., 3]), mask,
-        white[:3] if white[1] > 0 else None, float(white[3]) if white[1] > 0 else None,
+        np.ascontiguousarray(out[..., :3]),
+        np.ascontiguousarray(out[..., 3]),
+        mask,
+        white[:3] if white[1] > 0 else None,
+        float(white[3]) if white[1] > 0 else None,
     )

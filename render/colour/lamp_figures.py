@@ -40,16 +40,16 @@ import copy
 import json
 import math
 import warnings
+from collections.abc import Sequence
 from functools import lru_cache
 from pathlib import Path
-from typing import Sequence
 
 import numpy as np
 
 from render.colour.lamps import Lamp
-from render.fileio import save_figure
 from render.colour.observers import photopic, photopic_lef, scotopic_lef, sp_ratio, tristimulus
 from render.colour.spectra import BIN_WIDTH_NM, WAVELENGTHS_NM
+from render.fileio import save_figure
 
 #: Largest |Duv| for which a CCT is given (CIE S 017:2020, term 17-23-068, Note 1).
 DUV_LIMIT_CCT = 0.05
@@ -161,7 +161,9 @@ def _figures_of_spectrum(spd_bytes: bytes) -> tuple[dict, tuple[str, ...], dict]
             )
             cct_ok = None
         elif not CCT_RANGE_OHNO_K[0] <= cct <= CCT_RANGE_OHNO_K[1]:
-            undefined["cct_K"] = f"CCT {cct:.0f} K is outside the {CCT_RANGE_OHNO_K[0]:.0f}-{CCT_RANGE_OHNO_K[1]:.0f} K range of the method"
+            undefined["cct_K"] = (
+                f"CCT {cct:.0f} K is outside the {CCT_RANGE_OHNO_K[0]:.0f}-{CCT_RANGE_OHNO_K[1]:.0f} K range of the method"
+            )
             cct_ok = None
         else:
             cct_ok = cct
@@ -272,7 +274,9 @@ def format_lamp_table(figures: Sequence[dict]) -> str:
     warnings are listed under the table.
     """
     id_width = max([len("lamp")] + [len(f["id"]) for f in figures])
-    widths = [id_width if key == "id" else max(width, len(head), len(unit)) for head, unit, key, width, _ in _TABLE_COLUMNS]
+    widths = [
+        id_width if key == "id" else max(width, len(head), len(unit)) for head, unit, key, width, _ in _TABLE_COLUMNS
+    ]
     head = "  ".join(h.ljust(w) if k == "id" else h.rjust(w) for (h, _, k, _, _), w in zip(_TABLE_COLUMNS, widths))
     units = "  ".join(u.ljust(w) if k == "id" else u.rjust(w) for (_, u, k, _, _), w in zip(_TABLE_COLUMNS, widths))
     lines = [head, units, "-" * len(head)]
@@ -327,6 +331,7 @@ def figures_json(figures: Sequence[dict]) -> str:
 
 
 # --- plots -----------------------------------------------------------------------------------
+
 
 def _title(lamp: Lamp, fig: dict) -> str:
     parts = []

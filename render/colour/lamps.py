@@ -73,15 +73,13 @@ from __future__ import annotations
 
 import math
 import re
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from functools import lru_cache
 from pathlib import Path
-from typing import Sequence
 
 import numpy as np
 
-from render.fileio import read_user_text
-from render.errors import ProblemList, did_you_mean, input_error
 from render.colour.spectra import (
     BIN_WIDTH_NM,
     N_BINS,
@@ -90,6 +88,8 @@ from render.colour.spectra import (
     bin_density,
     deposit_lines,
 )
+from render.errors import ProblemList, did_you_mean, input_error
+from render.fileio import read_user_text
 
 #: Lamp types known to lampcast; a lamp file's ``# type:`` must be one of these.
 LAMP_TYPES = (
@@ -415,8 +415,7 @@ def _builtin_specs():
         id="sodium-high-pressure-white-cie-hp2",
         name="White high-pressure sodium, CIE HP2",
         type="colour-improved high-pressure sodium",
-        description="CIE illuminant HP2, a colour-enhanced ('white') high-pressure sodium lamp "
-        "(about 2500 K).",
+        description="CIE illuminant HP2, a colour-enhanced ('white') high-pressure sodium lamp (about 2500 K).",
         source=_cie("HP2", "HP"),
         notes=(NOTE_5NM_LINES,),
         spectrum=_tabulated("illuminant", "HP2"),
@@ -599,8 +598,7 @@ def _builtin_specs():
         name="Narrow-band amber LED (model)",
         type="amber LED",
         description="Direct-emitting (AlInGaP) amber LED: a narrow band centred at 590 nm.",
-        source="Model (no open measured spectrum bundled): Gaussian band centred at 590 nm, "
-        "FWHM 15 nm.",
+        source="Model (no open measured spectrum bundled): Gaussian band centred at 590 nm, FWHM 15 nm.",
         notes=("Modelled; centre and width are from memory of typical amber LED data sheets.",),
         spectrum=_band(590.0, 7.5, 7.5),
     )
@@ -764,7 +762,10 @@ def load_lamp_file(path: str | Path) -> Lamp:
     if rows and all(_number(f) is None for f in rows[0][1]) and rows[0][1][0].lower() not in ("line", "continuum"):
         rows = rows[1:]
     if not rows:
-        problems.add(f"lines 1-{n_lines}" if n_lines else "", "no data rows; expected rows of 'wavelength_nm, relative_power' (or 'line, wavelength_nm, power')")
+        problems.add(
+            f"lines 1-{n_lines}" if n_lines else "",
+            "no data rows; expected rows of 'wavelength_nm, relative_power' (or 'line, wavelength_nm, power')",
+        )
         problems.raise_if_any()
 
     is_lines = any(fields[0].lower() in ("line", "continuum") for _, fields in rows)
@@ -777,7 +778,9 @@ def load_lamp_file(path: str | Path) -> Lamp:
     first, last = rows[0][0], rows[-1][0]
     density = spectrum.density() if isinstance(spectrum, LineSpectrum) else spectrum
     if not float(density.sum()) > 0:
-        raise input_error(src, f"lines {first}-{last}", "no power between 380 and 780 nm; a lamp must emit visible light")
+        raise input_error(
+            src, f"lines {first}-{last}", "no power between 380 and 780 nm; a lamp must emit visible light"
+        )
     return make_lamp(
         id=_slug(path.stem),
         name=header.get("name") or path.stem,
@@ -818,10 +821,15 @@ def _check_increasing(samples: list[tuple[int, float, float]], what: str, proble
     """Report the first row whose wavelength does not increase (later ones usually follow from it)."""
     for (_, w0, _), (n1, w1, _) in zip(samples, samples[1:]):
         if w1 == w0:
-            problems.add(f"line {n1}", f"wavelength {w1:g} nm repeats the previous row; {what} wavelengths must be strictly increasing")
+            problems.add(
+                f"line {n1}",
+                f"wavelength {w1:g} nm repeats the previous row; {what} wavelengths must be strictly increasing",
+            )
             return
         if w1 < w0:
-            problems.add(f"line {n1}", f"wavelength {w1:g} nm follows {w0:g} nm; {what} wavelengths must be strictly increasing")
+            problems.add(
+                f"line {n1}", f"wavelength {w1:g} nm follows {w0:g} nm; {what} wavelengths must be strictly increasing"
+            )
             return
 
 
@@ -916,9 +924,7 @@ def _parse_lines_rows(rows, problems: ProblemList):
     notes = []
     outside = [w for _, w, _ in lines if not WAVELENGTH_MIN_NM <= w <= WAVELENGTH_MAX_NM]
     if outside:
-        notes.append(
-            "Lines outside 380-780 nm left out: " + ", ".join(f"{w:g} nm" for w in outside) + "."
-        )
+        notes.append("Lines outside 380-780 nm left out: " + ", ".join(f"{w:g} nm" for w in outside) + ".")
     spectrum = LineSpectrum(
         [(w, p) for _, w, p in lines],
         ([w for _, w, _ in continuum], [p for _, _, p in continuum]) if continuum else None,

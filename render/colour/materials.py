@@ -49,9 +49,9 @@ from pathlib import Path
 
 import numpy as np
 
-from render.fileio import read_user_text, save_figure
-from render.errors import InputError, Problem, ProblemList, did_you_mean, input_error
 from render.colour.spectra import WAVELENGTH_MAX_NM, WAVELENGTH_MIN_NM, WAVELENGTHS_NM, bin_mean
+from render.errors import InputError, Problem, ProblemList, did_you_mean, input_error
+from render.fileio import read_user_text, save_figure
 
 #: Header keys every material file must have.
 REQUIRED_KEYS = (
@@ -157,7 +157,8 @@ def load_material_csv(path: str | Path) -> Material:
     lines = text.splitlines()
     if not any(s.strip() for s in lines):
         raise input_error(
-            src, "line 1",
+            src,
+            "line 1",
             f"the file is empty; expected '# key: value' header lines ({', '.join(REQUIRED_KEYS)}), "
             f"then '{COLUMNS_ROW}' and the samples",
         )
@@ -198,7 +199,9 @@ def load_material_csv(path: str | Path) -> Material:
             continue
         fields = [f.strip() for f in stripped.split(",")]
         if len(fields) != 2:
-            problems.add(f"line {number}", f"expected two numbers 'wavelength_nm,reflectance', got {len(fields)} field(s)")
+            problems.add(
+                f"line {number}", f"expected two numbers 'wavelength_nm,reflectance', got {len(fields)} field(s)"
+            )
             continue
         wl, value = _parse_float(fields[0]), _parse_float(fields[1])
         if wl is None:
@@ -346,7 +349,11 @@ def material_library(directory: str | Path | None = None) -> dict[str, Material]
         If the folder is missing or holds no material, or with the problems of every bad file.
     """
     folder = Path(directory) if directory is not None else default_materials_dir()
-    src = str(folder) if directory is not None or not os.environ.get(MATERIALS_ENV, "").strip() else f"{MATERIALS_ENV}={folder}"
+    src = (
+        str(folder)
+        if directory is not None or not os.environ.get(MATERIALS_ENV, "").strip()
+        else f"{MATERIALS_ENV}={folder}"
+    )
     if not folder.is_dir():
         raise input_error(src, "", "not a folder; expected a folder of material CSV files")
     files = sorted(p for p in folder.glob("*.csv") if p.is_file())
@@ -382,7 +389,8 @@ def get_material(
         return lib[material_id]
     raise InputError(
         Problem(
-            source, where,
+            source,
+            where,
             f"unknown material {material_id!r}{did_you_mean(material_id, lib)}; `lampcast materials` lists them",
         )
     )
@@ -512,11 +520,18 @@ def plot_material(material: Material, path: str | Path) -> Path:
     if lo > WAVELENGTH_MIN_NM:
         ax.axvspan(WAVELENGTH_MIN_NM, min(lo, WAVELENGTH_MAX_NM), color="0.9", lw=0, label="completed")
     if hi < WAVELENGTH_MAX_NM:
-        ax.axvspan(max(hi, WAVELENGTH_MIN_NM), WAVELENGTH_MAX_NM, color="0.9", lw=0,
-                   label=None if lo > WAVELENGTH_MIN_NM else "completed")
+        ax.axvspan(
+            max(hi, WAVELENGTH_MIN_NM),
+            WAVELENGTH_MAX_NM,
+            color="0.9",
+            lw=0,
+            label=None if lo > WAVELENGTH_MIN_NM else "completed",
+        )
     ax.plot(WAVELENGTHS_NM, material.reflectance, color="k", lw=1.2, label="on the 1 nm grid")
     sel = (material.sample_wavelengths_nm >= WAVELENGTH_MIN_NM) & (material.sample_wavelengths_nm <= WAVELENGTH_MAX_NM)
-    ax.plot(material.sample_wavelengths_nm[sel], material.sample_values[sel], "o", ms=2.5, color="C0", label="file samples")
+    ax.plot(
+        material.sample_wavelengths_nm[sel], material.sample_values[sel], "o", ms=2.5, color="C0", label="file samples"
+    )
     top = float(np.max(material.reflectance))
     ax.set_xlim(WAVELENGTH_MIN_NM, WAVELENGTH_MAX_NM)
     ax.set_ylim(0.0, 1.0 if top > 0.5 else max(0.05, 1.15 * top))

@@ -95,7 +95,9 @@ def scale_to_photopic(density, target) -> np.ndarray:
     p = photopic(density)
     if not np.all(p > 0):
         raise ValueError("spectrum has no photopic content to scale")
-    return density * (np.asarray(target, dtype=np.float64) / p)[..., None] if density.ndim > 1 else density * (target / p)
+    return (
+        density * (np.asarray(target, dtype=np.float64) / p)[..., None] if density.ndim > 1 else density * (target / p)
+    )
 
 
 def scale_to_scotopic(density, target) -> np.ndarray:

@@ -35,9 +35,7 @@ WAVELENGTHS_NM.setflags(write=False)
 #: Number of bins.
 N_BINS = WAVELENGTHS_NM.size
 #: Bin edges, nm (402 values).
-BIN_EDGES_NM = np.concatenate(
-    [WAVELENGTHS_NM - 0.5 * BIN_WIDTH_NM, [WAVELENGTHS_NM[-1] + 0.5 * BIN_WIDTH_NM]]
-)
+BIN_EDGES_NM = np.concatenate([WAVELENGTHS_NM - 0.5 * BIN_WIDTH_NM, [WAVELENGTHS_NM[-1] + 0.5 * BIN_WIDTH_NM]])
 BIN_EDGES_NM.setflags(write=False)
 
 
@@ -97,8 +95,7 @@ def bin_mean(wavelengths_nm, values) -> np.ndarray:
     x, y = _check_samples(wavelengths_nm, values)
     if x[0] > WAVELENGTH_MIN_NM + 1e-9 or x[-1] < WAVELENGTH_MAX_NM - 1e-9:
         raise ValueError(
-            f"samples cover {x[0]:g}-{x[-1]:g} nm; the grid needs "
-            f"{WAVELENGTH_MIN_NM:g}-{WAVELENGTH_MAX_NM:g} nm"
+            f"samples cover {x[0]:g}-{x[-1]:g} nm; the grid needs {WAVELENGTH_MIN_NM:g}-{WAVELENGTH_MAX_NM:g} nm"
         )
     # Hold end values over the outer half bins.
     lo, hi = BIN_EDGES_NM[0], BIN_EDGES_NM[-1]

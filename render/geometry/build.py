@@ -10,7 +10,7 @@ analyses can speak of "the blue car".
 from __future__ import annotations
 
 from dataclasses import dataclass
-from functools import lru_cache
+from functools import cache
 
 import numpy as np
 
@@ -23,14 +23,38 @@ MARKING_LIFT_M = 0.002
 
 #: Material used for a slot that the scene does not assign (slot name -> material id).
 DEFAULT_SLOT_MATERIALS = {
-    "body": "object-grey", "glass": "glass-clear", "tyre": "rubber-black", "lights": "object-white",
-    "lid": "object-green", "wheels": "rubber-black", "trunk": "bark", "canopy": "foliage",
-    "foliage": "foliage", "post": "metal-painted-dark", "band": "object-white", "frame": "metal-painted-dark",
-    "roof": "roof-tile", "bench": "wood", "pole": "metal-galvanised", "panel": "object-white",
-    "back": "metal-galvanised", "legs": "fabric-dark", "torso": "object-blue", "arms": "object-blue",
-    "head": "skin-light", "arm": "metal-galvanised", "housing": "metal-painted-dark", "facade": "brick",
-    "window": "glass-clear", "door": "wood", "fascia": "object-green", "rim": "metal-galvanised",
-    "trim": "object-black", "tail_lights": "object-red", "lens": "glass-clear", "*": "concrete",
+    "body": "object-grey",
+    "glass": "glass-clear",
+    "tyre": "rubber-black",
+    "lights": "object-white",
+    "lid": "object-green",
+    "wheels": "rubber-black",
+    "trunk": "bark",
+    "canopy": "foliage",
+    "foliage": "foliage",
+    "post": "metal-painted-dark",
+    "band": "object-white",
+    "frame": "metal-painted-dark",
+    "roof": "roof-tile",
+    "bench": "wood",
+    "pole": "metal-galvanised",
+    "panel": "object-white",
+    "back": "metal-galvanised",
+    "legs": "fabric-dark",
+    "torso": "object-blue",
+    "arms": "object-blue",
+    "head": "skin-light",
+    "arm": "metal-galvanised",
+    "housing": "metal-painted-dark",
+    "facade": "brick",
+    "window": "glass-clear",
+    "door": "wood",
+    "fascia": "object-green",
+    "rim": "metal-galvanised",
+    "trim": "object-black",
+    "tail_lights": "object-red",
+    "lens": "glass-clear",
+    "*": "concrete",
 }
 
 
@@ -86,13 +110,19 @@ class _Builder:
         if triangles.shape[0] == 0:
             return
         self.tris.append(triangles)
-        self.normals.append(flat_normals(triangles) if normals is None else np.asarray(normals, dtype=np.float64).reshape(-1, 3, 3))
+        self.normals.append(
+            flat_normals(triangles) if normals is None else np.asarray(normals, dtype=np.float64).reshape(-1, 3, 3)
+        )
         self.mat.append(np.full(triangles.shape[0], self.material_index(material), np.int32))
         self.obj.append(np.full(triangles.shape[0], obj, np.int32))
 
     def add_parts(self, parts, materials: dict[str, str], obj: int) -> None:
         for part in parts:
-            material = materials.get(part.slot) or materials.get("*") or DEFAULT_SLOT_MATERIALS.get(part.slot, DEFAULT_SLOT_MATERIALS["*"])
+            material = (
+                materials.get(part.slot)
+                or materials.get("*")
+                or DEFAULT_SLOT_MATERIALS.get(part.slot, DEFAULT_SLOT_MATERIALS["*"])
+            )
             self.add(part.triangles_m, material, obj, part.normals)
 
     def mesh(self) -> TriangleMesh:
@@ -101,8 +131,12 @@ class _Builder:
             mesh = TriangleMesh(empty, empty, np.zeros(0, np.int32), np.zeros(0, np.int32), self.material_names, [])
         else:
             mesh = TriangleMesh(
-                np.concatenate(self.tris), np.concatenate(self.normals), np.concatenate(self.mat),
-                np.concatenate(self.obj), list(self.material_names), [o.name for o in self.objects],
+                np.concatenate(self.tris),
+                np.concatenate(self.normals),
+                np.concatenate(self.mat),
+                np.concatenate(self.obj),
+                list(self.material_names),
+                [o.name for o in self.objects],
             )
         mesh.objects = list(self.objects)  # type: ignore[attr-defined]
         return mesh
@@ -306,13 +340,15 @@ def compile_scene(scene: Scene) -> TriangleMesh:
     _columns(b, scene)
     mesh = b.mesh()
     # Specular layer per material index: (F0, GGX alpha); F0 = 0 means none.
-    mesh.material_gloss = np.array([scene.gloss.get(m, (0.0, 1.0)) for m in mesh.material_names], np.float64).reshape(-1, 2)  # type: ignore[attr-defined]
+    mesh.material_gloss = np.array([scene.gloss.get(m, (0.0, 1.0)) for m in mesh.material_names], np.float64).reshape(
+        -1, 2
+    )  # type: ignore[attr-defined]
     if not np.all(np.isfinite(mesh.triangles_m)):
         raise input_error(scene.path, "", "the scene's geometry has non-finite coordinates")
     return mesh
 
 
-@lru_cache(maxsize=None)
+@cache
 def object_slots(kind: str) -> tuple[str, ...]:
     """Material slot names of a parametric object kind (built once with default parameters)."""
     from render.geometry.objects import OBJECT_BUILDERS

@@ -21,13 +21,14 @@ scene loader validates ``[[objects]]`` entries with :func:`validate_params` agai
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass, field
-from typing import Any, Callable, NamedTuple
+from typing import Any, NamedTuple
 
 import numpy as np
 
-from render.geometry import shapes as sh
 from render.errors import did_you_mean
+from render.geometry import shapes as sh
 from render.geometry.shapes import Part
 
 __all__ = [
@@ -85,8 +86,11 @@ def _num(key: str, value, lo: float | None = None, hi: float | None = None, *, l
 
 def _choice(key: str, value, choices) -> Any:
     if value not in choices:
-        raise ParameterError(key, f"expected one of {', '.join(map(repr, choices))}, got {value!r}"
-                             + (did_you_mean(str(value), map(str, choices)) if isinstance(value, str) else ""))
+        raise ParameterError(
+            key,
+            f"expected one of {', '.join(map(repr, choices))}, got {value!r}"
+            + (did_you_mean(str(value), map(str, choices)) if isinstance(value, str) else ""),
+        )
     return value
 
 
@@ -158,8 +162,11 @@ def wheelie_bin(capacity_l: int = 240, *, segments: int = 12) -> list[Part]:
         wheel_centres = [(-dep / 2 + r, sgn * (w / 2 - 0.025 - ww / 2), r) for sgn in (1, -1)]
         axis = [(0.0, ww / 2, 0.0)] * 2
         # Handle bar across the back, just under the lid.
-        parts += sh.box(min_m=(-dep / 2, -w / 2 + 0.06, h - lid_t - 0.06),
-                        max_m=(-dep / 2 + 0.05, w / 2 - 0.06, h - lid_t), slot="body")
+        parts += sh.box(
+            min_m=(-dep / 2, -w / 2 + 0.06, h - lid_t - 0.06),
+            max_m=(-dep / 2 + 0.05, w / 2 - 0.06, h - lid_t),
+            slot="body",
+        )
     else:
         r = 0.10  # 200 mm castors (common practice, no source)
         ww = 0.05
@@ -171,8 +178,11 @@ def wheelie_bin(capacity_l: int = 240, *, segments: int = 12) -> list[Part]:
         axis = [(0.0, ww / 2, 0.0)] * 4
         for sx in (1, -1):
             for sy in (1, -1):  # castor forks from the wheel hub up to the body
-                parts += sh.box(min_m=(sx * cx - 0.04, sy * cy - 0.045, r),
-                                max_m=(sx * cx + 0.04, sy * cy + 0.045, z0 + 0.01), slot="body")
+                parts += sh.box(
+                    min_m=(sx * cx - 0.04, sy * cy - 0.045, r),
+                    max_m=(sx * cx + 0.04, sy * cy + 0.045, z0 + 0.01),
+                    slot="body",
+                )
     zt = h - lid_t
     corners = []
     for i in range(8):
@@ -197,21 +207,86 @@ def wheelie_bin(capacity_l: int = 240, *, segments: int = 12) -> list[Part]:
 # measured from the rear end; "cabin" = (base rear, roof rear, roof front, base front) of the
 # greenhouse side outline; "b_pillar" = u of the B-pillar; heights are fractions of height_m.
 CAR_STYLES: dict[str, dict[str, Any]] = {
-    "hatchback": dict(length_m=4.10, width_m=1.75, height_m=1.48, clearance=0.11, wheel_r=0.21, belt=0.60,
-                      front_overhang=0.20, rear_overhang=0.16, cabin=(0.02, 0.10, 0.60, 0.76), b_pillar=0.42,
-                      rear_glass=True, rear_side_glass=True, tail_dx=0.015, tumblehome=0.12),
-    "saloon": dict(length_m=4.70, width_m=1.82, height_m=1.45, clearance=0.10, wheel_r=0.22, belt=0.60,
-                   front_overhang=0.19, rear_overhang=0.22, cabin=(0.17, 0.30, 0.64, 0.77), b_pillar=0.48,
-                   rear_glass=True, rear_side_glass=True, tail_dx=0.02, tumblehome=0.12),
-    "estate": dict(length_m=4.75, width_m=1.82, height_m=1.50, clearance=0.10, wheel_r=0.22, belt=0.60,
-                   front_overhang=0.19, rear_overhang=0.21, cabin=(0.02, 0.05, 0.63, 0.77), b_pillar=0.47,
-                   rear_glass=True, rear_side_glass=True, tail_dx=0.015, tumblehome=0.10),
-    "suv": dict(length_m=4.50, width_m=1.85, height_m=1.68, clearance=0.12, wheel_r=0.21, belt=0.61,
-                front_overhang=0.19, rear_overhang=0.19, cabin=(0.02, 0.06, 0.64, 0.77), b_pillar=0.46,
-                rear_glass=True, rear_side_glass=True, tail_dx=0.015, tumblehome=0.10),
-    "van": dict(length_m=5.00, width_m=2.00, height_m=2.00, clearance=0.09, wheel_r=0.16, belt=0.50,
-                front_overhang=0.17, rear_overhang=0.19, cabin=(0.0, 0.0, 0.75, 0.85), b_pillar=0.64,
-                rear_glass=False, rear_side_glass=False, tail_dx=0.0, tumblehome=0.03),
+    "hatchback": dict(
+        length_m=4.10,
+        width_m=1.75,
+        height_m=1.48,
+        clearance=0.11,
+        wheel_r=0.21,
+        belt=0.60,
+        front_overhang=0.20,
+        rear_overhang=0.16,
+        cabin=(0.02, 0.10, 0.60, 0.76),
+        b_pillar=0.42,
+        rear_glass=True,
+        rear_side_glass=True,
+        tail_dx=0.015,
+        tumblehome=0.12,
+    ),
+    "saloon": dict(
+        length_m=4.70,
+        width_m=1.82,
+        height_m=1.45,
+        clearance=0.10,
+        wheel_r=0.22,
+        belt=0.60,
+        front_overhang=0.19,
+        rear_overhang=0.22,
+        cabin=(0.17, 0.30, 0.64, 0.77),
+        b_pillar=0.48,
+        rear_glass=True,
+        rear_side_glass=True,
+        tail_dx=0.02,
+        tumblehome=0.12,
+    ),
+    "estate": dict(
+        length_m=4.75,
+        width_m=1.82,
+        height_m=1.50,
+        clearance=0.10,
+        wheel_r=0.22,
+        belt=0.60,
+        front_overhang=0.19,
+        rear_overhang=0.21,
+        cabin=(0.02, 0.05, 0.63, 0.77),
+        b_pillar=0.47,
+        rear_glass=True,
+        rear_side_glass=True,
+        tail_dx=0.015,
+        tumblehome=0.10,
+    ),
+    "suv": dict(
+        length_m=4.50,
+        width_m=1.85,
+        height_m=1.68,
+        clearance=0.12,
+        wheel_r=0.21,
+        belt=0.61,
+        front_overhang=0.19,
+        rear_overhang=0.19,
+        cabin=(0.02, 0.06, 0.64, 0.77),
+        b_pillar=0.46,
+        rear_glass=True,
+        rear_side_glass=True,
+        tail_dx=0.015,
+        tumblehome=0.10,
+    ),
+    "van": dict(
+        length_m=5.00,
+        width_m=2.00,
+        height_m=2.00,
+        clearance=0.09,
+        wheel_r=0.16,
+        belt=0.50,
+        front_overhang=0.17,
+        rear_overhang=0.19,
+        cabin=(0.0, 0.0, 0.75, 0.85),
+        b_pillar=0.64,
+        rear_glass=False,
+        rear_side_glass=False,
+        tail_dx=0.0,
+        tumblehome=0.03,
+    ),
 }
 
 
@@ -252,8 +327,14 @@ def _clip_half_plane(poly: np.ndarray, axis: int, value: float, keep_greater: bo
     return np.array(out).reshape(-1, 2)
 
 
-def car(body_style: str = "hatchback", length_m: float | None = None, width_m: float | None = None,
-        height_m: float | None = None, *, wheel_segments: int = 14) -> list[Part]:
+def car(
+    body_style: str = "hatchback",
+    length_m: float | None = None,
+    width_m: float | None = None,
+    height_m: float | None = None,
+    *,
+    wheel_segments: int = 14,
+) -> list[Part]:
     """A recognisable low-poly car or van.
 
     Parameters
@@ -285,18 +366,18 @@ def car(body_style: str = "hatchback", length_m: float | None = None, width_m: f
     if not 2.0 <= L / W <= 3.5:
         raise ParameterError("", f"length_m / width_m must be in 2.0..3.5 for a car shape, got {L / W:.2f}")
 
-    proud = 0.005                      # lights / glass stand this far off the body
+    proud = 0.005  # lights / glass stand this far off the body
     xf, xr = L / 2 - proud, -L / 2 + proud
-    zc = style["clearance"] * H         # sill height
-    zb = style["belt"] * H              # beltline (top of the lower body)
-    r = style["wheel_r"] * H            # tyre radius
-    ra = 1.12 * r                       # wheel-arch radius
+    zc = style["clearance"] * H  # sill height
+    zb = style["belt"] * H  # beltline (top of the lower body)
+    r = style["wheel_r"] * H  # tyre radius
+    ra = 1.12 * r  # wheel-arch radius
     x_fa = L / 2 - style["front_overhang"] * L
     x_ra = -L / 2 + style["rear_overhang"] * L
     dzb = zb - zc
-    cf = 0.22 * dzb                     # front lower chamfer
-    cr = 0.15 * dzb                     # rear lower chamfer
-    z_nose = zc + 0.62 * dzb            # top of the front face
+    cf = 0.22 * dzb  # front lower chamfer
+    cr = 0.15 * dzb  # rear lower chamfer
+    z_nose = zc + 0.62 * dzb  # top of the front face
     van = body_style == "van"
     nose_dx = (0.03 if van else 0.06) * L
     bonnet_drop = (0.05 if van else 0.12) * dzb
@@ -310,9 +391,18 @@ def car(body_style: str = "hatchback", length_m: float | None = None, width_m: f
         phis = np.linspace(math.pi + alpha, -alpha, 9)
         return [(xw + ra * math.cos(p), r + ra * math.sin(p)) for p in phis]
 
-    lower = [(xr + cr, zc)] + arch(x_ra) + arch(x_fa) + [
-        (xf - cf, zc), (xf, zc + cf), (xf, z_nose), (xf - nose_dx, zb - bonnet_drop), (ub_f, zb),
-    ]
+    lower = (
+        [(xr + cr, zc)]
+        + arch(x_ra)
+        + arch(x_fa)
+        + [
+            (xf - cf, zc),
+            (xf, zc + cf),
+            (xf, z_nose),
+            (xf - nose_dx, zb - bonnet_drop),
+            (ub_f, zb),
+        ]
+    )
     lower.append((xr + tail_dx, zb) if tail_dx > 0 else (xr, zb))
     if tail_drop > 0:
         lower.append((xr, zb - tail_drop))
@@ -391,14 +481,26 @@ def car(body_style: str = "hatchback", length_m: float | None = None, width_m: f
         for sgn in (1, -1):
             # Arch liner just inboard of the tyre, so the arch does not show daylight.
             y_l = sgn * (W / 2 - 0.015 - tw - 0.01)
-            parts += sh.panel(np.column_stack([liner[:, 0], np.full(len(liner), y_l), liner[:, 1]]),
-                              facing=(0.0, sgn, 0.0), slot="trim")
+            parts += sh.panel(
+                np.column_stack([liner[:, 0], np.full(len(liner), y_l), liner[:, 1]]),
+                facing=(0.0, sgn, 0.0),
+                slot="trim",
+            )
             y_out = sgn * (W / 2 - 0.015)
             y_in = sgn * (W / 2 - 0.015 - tw)
-            parts += sh.cylinder((xw, y_in, r), (xw, y_out, r), r, segments=wheel_segments, start_dir=(0, 0, -1),
-                                 slot="tyre")
-            disc = sh.lathe([[0.62 * r, 0.0], [0.0, 0.0]], base_m=(xw, y_out + sgn * 0.003, r), axis=(0, sgn, 0),
-                            segments=wheel_segments, capped=False, start_dir=(0, 0, -1), smooth=False, slot="rim")
+            parts += sh.cylinder(
+                (xw, y_in, r), (xw, y_out, r), r, segments=wheel_segments, start_dir=(0, 0, -1), slot="tyre"
+            )
+            disc = sh.lathe(
+                [[0.62 * r, 0.0], [0.0, 0.0]],
+                base_m=(xw, y_out + sgn * 0.003, r),
+                axis=(0, sgn, 0),
+                segments=wheel_segments,
+                capped=False,
+                start_dir=(0, 0, -1),
+                smooth=False,
+                slot="rim",
+            )
             parts += disc
     return sh.merge_parts(parts)
 
@@ -408,9 +510,17 @@ def car(body_style: str = "hatchback", length_m: float | None = None, width_m: f
 # ---------------------------------------------------------------------------------------------
 
 
-def tree(trunk_height_m: float = 2.5, trunk_radius_m: float = 0.15, canopy_radius_m: float = 2.0,
-         canopy_shape: str = "sphere", *, canopy_height_m: float | None = None, lumpiness: float = 0.08,
-         seed: int = 0, subdivisions: int = 2) -> list[Part]:
+def tree(
+    trunk_height_m: float = 2.5,
+    trunk_radius_m: float = 0.15,
+    canopy_radius_m: float = 2.0,
+    canopy_shape: str = "sphere",
+    *,
+    canopy_height_m: float | None = None,
+    lumpiness: float = 0.08,
+    seed: int = 0,
+    subdivisions: int = 2,
+) -> list[Part]:
     """A street tree: a tapered trunk and a closed canopy.
 
     Parameters
@@ -461,13 +571,25 @@ def tree(trunk_height_m: float = 2.5, trunk_radius_m: float = 0.15, canopy_radiu
             g = np.mean(np.sin(d @ waves.T + phases), axis=1)  # in [-1, 1]
             return 1.0 + lump * g * (1.0 - d[:, 2] ** 2)
 
-        parts += sh.ellipsoid((0, 0, th + ch / 2), (cr, cr, ch / 2), subdivisions=subdivisions,
-                              warp=warp if lump > 0 else None, slot="canopy")
+        parts += sh.ellipsoid(
+            (0, 0, th + ch / 2),
+            (cr, cr, ch / 2),
+            subdivisions=subdivisions,
+            warp=warp if lump > 0 else None,
+            slot="canopy",
+        )
     return sh.merge_parts(parts)
 
 
-def hedge(length_m: float = 3.0, height_m: float = 1.2, depth_m: float = 0.8, *, roughness_m: float = 0.05,
-          spacing_m: float = 0.35, seed: int = 0) -> list[Part]:
+def hedge(
+    length_m: float = 3.0,
+    height_m: float = 1.2,
+    depth_m: float = 0.8,
+    *,
+    roughness_m: float = 0.05,
+    spacing_m: float = 0.35,
+    seed: int = 0,
+) -> list[Part]:
     """A clipped hedge: a closed block with a gently domed, slightly irregular top.
 
     ``length_m`` runs along local x (forward), ``depth_m`` across (y); the top varies by up to
@@ -494,8 +616,12 @@ def hedge(length_m: float = 3.0, height_m: float = 1.2, depth_m: float = 0.8, *,
     a, b, c, d = top[:-1, :-1], top[1:, :-1], top[1:, 1:], top[:-1, 1:]
     tris = [np.stack([a, b, c], -2).reshape(-1, 3, 3), np.stack([a, c, d], -2).reshape(-1, 3, 3)]
     # Boundary loop, counter-clockwise seen from above.
-    loop = ([top[i, 0] for i in range(nx)] + [top[nx - 1, j] for j in range(1, ny)]
-            + [top[i, ny - 1] for i in range(nx - 2, -1, -1)] + [top[0, j] for j in range(ny - 2, 0, -1)])
+    loop = (
+        [top[i, 0] for i in range(nx)]
+        + [top[nx - 1, j] for j in range(1, ny)]
+        + [top[i, ny - 1] for i in range(nx - 2, -1, -1)]
+        + [top[0, j] for j in range(ny - 2, 0, -1)]
+    )
     loop = np.array(loop)
     ground = loop.copy()
     ground[:, 2] = 0.0
@@ -507,8 +633,9 @@ def hedge(length_m: float = 3.0, height_m: float = 1.2, depth_m: float = 0.8, *,
     return [sh.flat_part(np.concatenate(tris), "foliage")]
 
 
-def bollard(height_m: float = 0.9, radius_m: float = 0.08, *, band_height_m: float = 0.06,
-            segments: int = 16) -> list[Part]:
+def bollard(
+    height_m: float = 0.9, radius_m: float = 0.08, *, band_height_m: float = 0.06, segments: int = 16
+) -> list[Part]:
     """A round street bollard with a chamfered top and a reflective band.
 
     Typical 0.9–1.0 m high, 0.1–0.2 m diameter (common practice, no source). The band
@@ -543,7 +670,7 @@ def bus_shelter(length_m: float = 4.0, depth_m: float = 1.5, height_m: float = 2
     L = _num("length_m", length_m, 1.0, 20.0)
     D = _num("depth_m", depth_m, 0.6, 5.0)
     H = _num("height_m", height_m, 2.0, 5.0)
-    p = 0.06          # post section
+    p = 0.06  # post section
     roof_t = 0.08
     zr = H - roof_t
     parts: list[Part] = []
@@ -560,8 +687,9 @@ def bus_shelter(length_m: float = 4.0, depth_m: float = 1.5, height_m: float = 2
     parts += sh.box(min_m=(-D / 2, -L / 2, zr), max_m=(D / 2, L / 2, H), slot="roof")
     g = 0.01
     gz0, gz1 = 0.1, zr - rail
-    parts += sh.box(min_m=(-D / 2 + p / 2 - g / 2, -L / 2 + p, gz0), max_m=(-D / 2 + p / 2 + g / 2, L / 2 - p, gz1),
-                    slot="glass")
+    parts += sh.box(
+        min_m=(-D / 2 + p / 2 - g / 2, -L / 2 + p, gz0), max_m=(-D / 2 + p / 2 + g / 2, L / 2 - p, gz1), slot="glass"
+    )
     for sy in (1, -1):
         yc = sy * (L / 2 - p / 2)
         parts += sh.box(min_m=(-D / 2 + p, yc - g / 2, gz0), max_m=(D / 2 - p, yc + g / 2, gz1), slot="glass")
@@ -575,8 +703,15 @@ def bus_shelter(length_m: float = 4.0, depth_m: float = 1.5, height_m: float = 2
     return sh.merge_parts(parts)
 
 
-def sign(height_m: float = 2.7, panel_width_m: float = 0.6, panel_height_m: float = 0.6, shape: str = "rect", *,
-         pole_radius_m: float = 0.038, thickness_m: float = 0.004) -> list[Part]:
+def sign(
+    height_m: float = 2.7,
+    panel_width_m: float = 0.6,
+    panel_height_m: float = 0.6,
+    shape: str = "rect",
+    *,
+    pole_radius_m: float = 0.038,
+    thickness_m: float = 0.004,
+) -> list[Part]:
     """A post-mounted traffic sign facing +x.
 
     ``height_m`` is the top of the panel above ground; the panel (``panel_width_m`` across y,
@@ -619,15 +754,28 @@ def pedestrian(height_m: float = 1.75) -> list[Part]:
     parts: list[Part] = []
     hip = 0.48 * H
     for sgn in (1, -1):
-        parts += sh.lathe([[0.050 * s, 0.0], [0.062 * s, 0.25 * H], [0.080 * s, hip]], base_m=(0, sgn * 0.095 * s, 0),
-                          segments=8, slot="legs")
-    torso = sh.lathe([[0.150 * s, 0.0], [0.175 * s, 0.24 * H], [0.190 * s, 0.32 * H], [0.11 * s, 0.37 * H]],
-                     segments=12, slot="torso")
+        parts += sh.lathe(
+            [[0.050 * s, 0.0], [0.062 * s, 0.25 * H], [0.080 * s, hip]],
+            base_m=(0, sgn * 0.095 * s, 0),
+            segments=8,
+            slot="legs",
+        )
+    torso = sh.lathe(
+        [[0.150 * s, 0.0], [0.175 * s, 0.24 * H], [0.190 * s, 0.32 * H], [0.11 * s, 0.37 * H]],
+        segments=12,
+        slot="torso",
+    )
     parts += sh.affine_parts(torso, np.diag([0.62, 1.0, 1.0]), (0.0, 0.0, hip - 0.02 * H))
     sh_z = hip - 0.02 * H + 0.33 * H
     for sgn in (1, -1):
-        parts += sh.frustum((0.0, sgn * 0.205 * s, sh_z), (0.02 * s, sgn * 0.235 * s, 0.47 * H), 0.045 * s, 0.035 * s,
-                            segments=8, slot="arms")
+        parts += sh.frustum(
+            (0.0, sgn * 0.205 * s, sh_z),
+            (0.02 * s, sgn * 0.235 * s, 0.47 * H),
+            0.045 * s,
+            0.035 * s,
+            segments=8,
+            slot="arms",
+        )
     head_r = 0.115 * s
     neck_top = H - 2 * head_r + 0.02 * s
     parts += sh.cylinder((0, 0, sh_z - 0.03 * H), (0, 0, neck_top + 0.02 * s), 0.05 * s, segments=8, slot="head")
@@ -673,10 +821,19 @@ class LampColumn:
     opening: LightOpening
 
 
-def lamp_column(height_m: float = 6.0, outreach_m: float = 0.5, arm_tilt_deg: float = 5.0, *,
-                base_radius_m: float = 0.07, top_radius_m: float = 0.04, arm_radius_m: float = 0.025,
-                housing_length_m: float = 0.6, housing_width_m: float = 0.28, housing_height_m: float = 0.1,
-                segments: int = 12) -> LampColumn:
+def lamp_column(
+    height_m: float = 6.0,
+    outreach_m: float = 0.5,
+    arm_tilt_deg: float = 5.0,
+    *,
+    base_radius_m: float = 0.07,
+    top_radius_m: float = 0.04,
+    arm_radius_m: float = 0.025,
+    housing_length_m: float = 0.6,
+    housing_width_m: float = 0.28,
+    housing_height_m: float = 0.1,
+    segments: int = 12,
+) -> LampColumn:
     """A street-light column with a straight bracket arm and a flat lantern.
 
     Parameters
@@ -708,14 +865,14 @@ def lamp_column(height_m: float = 6.0, outreach_m: float = 0.5, arm_tilt_deg: fl
     if rt > rb:
         raise ParameterError("top_radius_m", f"must not exceed base_radius_m ({rb:g}), got {rt:g}")
     t = math.radians(tilt)
-    f = np.array([math.cos(t), 0.0, math.sin(t)])   # along the arm
+    f = np.array([math.cos(t), 0.0, math.sin(t)])  # along the arm
     up = np.array([-math.sin(t), 0.0, math.cos(t)])  # lantern's up
     y = np.array([0.0, 1.0, 0.0])
     opening = np.array([out, 0.0, h])
-    rear = opening - f * hl / 2 + up * hh / 2      # where the arm meets the lantern
+    rear = opening - f * hl / 2 + up * hh / 2  # where the arm meets the lantern
     parts: list[Part] = []
     if rear[0] > rt:
-        z_top = rear[2] - rear[0] * math.tan(t)    # arm continues the lantern axis back to the column
+        z_top = rear[2] - rear[0] * math.tan(t)  # arm continues the lantern axis back to the column
         if z_top <= 0.5:
             raise ParameterError("arm_tilt_deg", "the arm would meet the column below 0.5 m; reduce tilt or outreach")
         parts += sh.frustum((0, 0, 0), (0, 0, z_top + ra), rb, rt, segments=segments, slot="pole")
@@ -732,8 +889,7 @@ def lamp_column(height_m: float = 6.0, outreach_m: float = 0.5, arm_tilt_deg: fl
         corners.append(opening + f * hl * (ix - 0.5) + y * hw * (iy - 0.5) + up * hh * iz)
     parts += sh.hexahedron(corners, slot="housing", face_slots={"-z": "lens"})
     nadir = -up
-    return LampColumn(sh.merge_parts(parts),
-                      LightOpening(opening, nadir, f, float(tilt), (float(hl), float(hw))))
+    return LampColumn(sh.merge_parts(parts), LightOpening(opening, nadir, f, float(tilt), (float(hl), float(hw))))
 
 
 # ---------------------------------------------------------------------------------------------
@@ -748,8 +904,9 @@ def _door_slot(door: str, n: int) -> int | None:
     return {"left": 0, "centre": n // 2, "right": n - 1}[door]
 
 
-def _block_and_roof(w: float, h: float, d: float, roof: str, roof_height: float, overhang: float,
-                    proud: float) -> list[Part]:
+def _block_and_roof(
+    w: float, h: float, d: float, roof: str, roof_height: float, overhang: float, proud: float
+) -> list[Part]:
     parts = sh.box(min_m=(-d / 2, -w / 2, 0.0), max_m=(d / 2 - proud, w / 2, h), slot="facade")
     if roof == "pitched":
         xf = d / 2 - proud + overhang
@@ -761,8 +918,9 @@ def _block_and_roof(w: float, h: float, d: float, roof: str, roof_height: float,
     return parts
 
 
-def _windows_row(x0: float, x1: float, w: float, n: int, z0: float, ww: float, wh: float,
-                 skip: int | None = None) -> list[Part]:
+def _windows_row(
+    x0: float, x1: float, w: float, n: int, z0: float, ww: float, wh: float, skip: int | None = None
+) -> list[Part]:
     parts = []
     for k in range(n):
         if k == skip:
@@ -772,10 +930,23 @@ def _windows_row(x0: float, x1: float, w: float, n: int, z0: float, ww: float, w
     return parts
 
 
-def house_front(width_m: float = 6.0, height_m: float = 5.6, depth_m: float = 8.0, *, storeys: int = 2,
-                windows: int = 2, door: str = "left", window_width_m: float = 1.1, window_height_m: float = 1.3,
-                sill_m: float = 0.9, door_width_m: float = 1.0, door_height_m: float = 2.1, roof: str = "pitched",
-                roof_height_m: float = 2.5, overhang_m: float = 0.25) -> list[Part]:
+def house_front(
+    width_m: float = 6.0,
+    height_m: float = 5.6,
+    depth_m: float = 8.0,
+    *,
+    storeys: int = 2,
+    windows: int = 2,
+    door: str = "left",
+    window_width_m: float = 1.1,
+    window_height_m: float = 1.3,
+    sill_m: float = 0.9,
+    door_width_m: float = 1.0,
+    door_height_m: float = 2.1,
+    roof: str = "pitched",
+    roof_height_m: float = 2.5,
+    overhang_m: float = 0.25,
+) -> list[Part]:
     """A simple house: a walled block with window and door panels 3 cm proud of the facade
     (+x) and a pitched (ridge parallel to the facade) or flat roof.
 
@@ -821,10 +992,22 @@ def house_front(width_m: float = 6.0, height_m: float = 5.6, depth_m: float = 8.
     return sh.merge_parts(parts)
 
 
-def shop_front(width_m: float = 6.0, height_m: float = 7.0, depth_m: float = 10.0, *, storeys: int = 2,
-               windows: int = 2, door: str = "right", shop_storey_m: float = 3.6, fascia_height_m: float = 0.6,
-               window_width_m: float = 1.1, window_height_m: float = 1.3, roof: str = "flat",
-               roof_height_m: float = 2.5, overhang_m: float = 0.0) -> list[Part]:
+def shop_front(
+    width_m: float = 6.0,
+    height_m: float = 7.0,
+    depth_m: float = 10.0,
+    *,
+    storeys: int = 2,
+    windows: int = 2,
+    door: str = "right",
+    shop_storey_m: float = 3.6,
+    fascia_height_m: float = 0.6,
+    window_width_m: float = 1.1,
+    window_height_m: float = 1.3,
+    roof: str = "flat",
+    roof_height_m: float = 2.5,
+    overhang_m: float = 0.0,
+) -> list[Part]:
     """A shop: a ground-floor shop front (large window over a stall riser, a door at one side,
     a fascia board above) under ``storeys - 1`` upper floors with ``windows`` each.
 
@@ -936,7 +1119,7 @@ class BuiltObject:
     points_m: dict[str, np.ndarray] = field(default_factory=dict)
     directions: dict[str, np.ndarray] = field(default_factory=dict)
 
-    def placed(self, position_m=(0.0, 0.0, 0.0), heading_deg: float = 0.0, scale: float = 1.0) -> "BuiltObject":
+    def placed(self, position_m=(0.0, 0.0, 0.0), heading_deg: float = 0.0, scale: float = 1.0) -> BuiltObject:
         return BuiltObject(
             self.kind,
             sh.transform_parts(self.parts, position_m, heading_deg, scale),
@@ -950,81 +1133,117 @@ def _P(name, type_, default, unit="", lo=None, hi=None, excl=False, choices=None
 
 
 OBJECT_BUILDERS: dict[str, ObjectKind] = {
-    "wheelie_bin": ObjectKind(wheelie_bin, (
-        _P("capacity_l", "int", 240, "L", choices=tuple(BIN_SIZES), doc="nominal capacity"),
-    ), "wheeled waste container"),
-    "car": ObjectKind(car, (
-        _P("body_style", "str", "hatchback", choices=tuple(CAR_STYLES)),
-        _P("length_m", "float", None, "m", 2.0, 8.0, doc="overall length (default per style)"),
-        _P("width_m", "float", None, "m", 1.2, 2.8, doc="overall width without mirrors (default per style)"),
-        _P("height_m", "float", None, "m", 0.9, 3.5, doc="overall height (default per style)"),
-    ), "parked car or van"),
-    "tree": ObjectKind(tree, (
-        _P("trunk_height_m", "float", 2.5, "m", 0.0, 30.0, True, doc="clear stem height"),
-        _P("trunk_radius_m", "float", 0.15, "m", 0.0, 2.0, True),
-        _P("canopy_radius_m", "float", 2.0, "m", 0.0, 20.0, True),
-        _P("canopy_shape", "str", "sphere", choices=("sphere", "cone", "ellipsoid")),
-        _P("canopy_height_m", "float", None, "m", 0.0, 40.0, True, doc="vertical extent (ellipsoid, cone)"),
-        _P("lumpiness", "float", 0.08, "", 0.0, 0.3),
-        _P("seed", "int", 0, "", 0, 2**31 - 1),
-    ), "street tree"),
-    "hedge": ObjectKind(hedge, (
-        _P("length_m", "float", 3.0, "m", 0.0, 200.0, True),
-        _P("height_m", "float", 1.2, "m", 0.0, 10.0, True),
-        _P("depth_m", "float", 0.8, "m", 0.0, 10.0, True),
-        _P("roughness_m", "float", 0.05, "m", 0.0, 1.0),
-        _P("seed", "int", 0, "", 0, 2**31 - 1),
-    ), "clipped hedge along local x"),
-    "bollard": ObjectKind(bollard, (
-        _P("height_m", "float", 0.9, "m", 0.2, 3.0),
-        _P("radius_m", "float", 0.08, "m", 0.01, 1.0),
-        _P("band_height_m", "float", 0.06, "m", 0.0, 0.5, True),
-    ), "round bollard with reflective band"),
-    "bus_shelter": ObjectKind(bus_shelter, (
-        _P("length_m", "float", 4.0, "m", 1.0, 20.0),
-        _P("depth_m", "float", 1.5, "m", 0.6, 5.0),
-        _P("height_m", "float", 2.5, "m", 2.0, 5.0),
-    ), "glazed bus shelter, open side +x"),
-    "sign": ObjectKind(sign, (
-        _P("height_m", "float", 2.7, "m", 0.3, 10.0, doc="top of the panel"),
-        _P("panel_width_m", "float", 0.6, "m", 0.05, 5.0),
-        _P("panel_height_m", "float", 0.6, "m", 0.05, 5.0),
-        _P("shape", "str", "rect", choices=("rect", "circle", "triangle")),
-    ), "post-mounted sign facing +x"),
-    "pedestrian": ObjectKind(pedestrian, (
-        _P("height_m", "float", 1.75, "m", 0.5, 2.5),
-    ), "standing figure facing +x"),
-    "lamp_column": ObjectKind(lamp_column, (
-        _P("height_m", "float", 6.0, "m", 1.5, 30.0, doc="mounting height of the opening centre"),
-        _P("outreach_m", "float", 0.5, "m", 0.0, 6.0),
-        _P("arm_tilt_deg", "float", 5.0, "deg", -15.0, 45.0),
-        _P("housing_length_m", "float", 0.6, "m", 0.05, 3.0),
-        _P("housing_width_m", "float", 0.28, "m", 0.05, 3.0),
-    ), "street-light column with bracket arm (arm along +x)"),
-    "house_front": ObjectKind(house_front, (
-        _P("width_m", "float", 6.0, "m", 2.0, 100.0, doc="frontage along local y"),
-        _P("height_m", "float", 5.6, "m", 2.2, 60.0, doc="eaves height"),
-        _P("depth_m", "float", 8.0, "m", 1.0, 100.0),
-        _P("storeys", "int", 2, "", 1, 20),
-        _P("windows", "int", 2, "", 1, 30, doc="windows per storey"),
-        _P("door", "str", "left", choices=("left", "centre", "right", "none")),
-        _P("window_width_m", "float", 1.1, "m", 0.2, 10.0),
-        _P("window_height_m", "float", 1.3, "m", 0.2, 10.0),
-        _P("roof", "str", "pitched", choices=("pitched", "flat")),
-        _P("roof_height_m", "float", 2.5, "m", 0.2, 20.0),
-        _P("overhang_m", "float", 0.25, "m", 0.0, 2.0),
-    ), "house with facade on +x"),
-    "shop_front": ObjectKind(shop_front, (
-        _P("width_m", "float", 6.0, "m", 3.0, 100.0),
-        _P("height_m", "float", 7.0, "m", 3.0, 60.0, doc="eaves height"),
-        _P("depth_m", "float", 10.0, "m", 1.0, 100.0),
-        _P("storeys", "int", 2, "", 1, 20),
-        _P("windows", "int", 2, "", 1, 30, doc="windows per upper storey"),
-        _P("door", "str", "right", choices=("left", "centre", "right")),
-        _P("shop_storey_m", "float", 3.6, "m", 2.6, 8.0),
-        _P("fascia_height_m", "float", 0.6, "m", 0.2, 2.0),
-        _P("roof", "str", "flat", choices=("pitched", "flat")),
-    ), "shop with fascia and large window on +x"),
+    "wheelie_bin": ObjectKind(
+        wheelie_bin,
+        (_P("capacity_l", "int", 240, "L", choices=tuple(BIN_SIZES), doc="nominal capacity"),),
+        "wheeled waste container",
+    ),
+    "car": ObjectKind(
+        car,
+        (
+            _P("body_style", "str", "hatchback", choices=tuple(CAR_STYLES)),
+            _P("length_m", "float", None, "m", 2.0, 8.0, doc="overall length (default per style)"),
+            _P("width_m", "float", None, "m", 1.2, 2.8, doc="overall width without mirrors (default per style)"),
+            _P("height_m", "float", None, "m", 0.9, 3.5, doc="overall height (default per style)"),
+        ),
+        "parked car or van",
+    ),
+    "tree": ObjectKind(
+        tree,
+        (
+            _P("trunk_height_m", "float", 2.5, "m", 0.0, 30.0, True, doc="clear stem height"),
+            _P("trunk_radius_m", "float", 0.15, "m", 0.0, 2.0, True),
+            _P("canopy_radius_m", "float", 2.0, "m", 0.0, 20.0, True),
+            _P("canopy_shape", "str", "sphere", choices=("sphere", "cone", "ellipsoid")),
+            _P("canopy_height_m", "float", None, "m", 0.0, 40.0, True, doc="vertical extent (ellipsoid, cone)"),
+            _P("lumpiness", "float", 0.08, "", 0.0, 0.3),
+            _P("seed", "int", 0, "", 0, 2**31 - 1),
+        ),
+        "street tree",
+    ),
+    "hedge": ObjectKind(
+        hedge,
+        (
+            _P("length_m", "float", 3.0, "m", 0.0, 200.0, True),
+            _P("height_m", "float", 1.2, "m", 0.0, 10.0, True),
+            _P("depth_m", "float", 0.8, "m", 0.0, 10.0, True),
+            _P("roughness_m", "float", 0.05, "m", 0.0, 1.0),
+            _P("seed", "int", 0, "", 0, 2**31 - 1),
+        ),
+        "clipped hedge along local x",
+    ),
+    "bollard": ObjectKind(
+        bollard,
+        (
+            _P("height_m", "float", 0.9, "m", 0.2, 3.0),
+            _P("radius_m", "float", 0.08, "m", 0.01, 1.0),
+            _P("band_height_m", "float", 0.06, "m", 0.0, 0.5, True),
+        ),
+        "round bollard with reflective band",
+    ),
+    "bus_shelter": ObjectKind(
+        bus_shelter,
+        (
+            _P("length_m", "float", 4.0, "m", 1.0, 20.0),
+            _P("depth_m", "float", 1.5, "m", 0.6, 5.0),
+            _P("height_m", "float", 2.5, "m", 2.0, 5.0),
+        ),
+        "glazed bus shelter, open side +x",
+    ),
+    "sign": ObjectKind(
+        sign,
+        (
+            _P("height_m", "float", 2.7, "m", 0.3, 10.0, doc="top of the panel"),
+            _P("panel_width_m", "float", 0.6, "m", 0.05, 5.0),
+            _P("panel_height_m", "float", 0.6, "m", 0.05, 5.0),
+            _P("shape", "str", "rect", choices=("rect", "circle", "triangle")),
+        ),
+        "post-mounted sign facing +x",
+    ),
+    "pedestrian": ObjectKind(pedestrian, (_P("height_m", "float", 1.75, "m", 0.5, 2.5),), "standing figure facing +x"),
+    "lamp_column": ObjectKind(
+        lamp_column,
+        (
+            _P("height_m", "float", 6.0, "m", 1.5, 30.0, doc="mounting height of the opening centre"),
+            _P("outreach_m", "float", 0.5, "m", 0.0, 6.0),
+            _P("arm_tilt_deg", "float", 5.0, "deg", -15.0, 45.0),
+            _P("housing_length_m", "float", 0.6, "m", 0.05, 3.0),
+            _P("housing_width_m", "float", 0.28, "m", 0.05, 3.0),
+        ),
+        "street-light column with bracket arm (arm along +x)",
+    ),
+    "house_front": ObjectKind(
+        house_front,
+        (
+            _P("width_m", "float", 6.0, "m", 2.0, 100.0, doc="frontage along local y"),
+            _P("height_m", "float", 5.6, "m", 2.2, 60.0, doc="eaves height"),
+            _P("depth_m", "float", 8.0, "m", 1.0, 100.0),
+            _P("storeys", "int", 2, "", 1, 20),
+            _P("windows", "int", 2, "", 1, 30, doc="windows per storey"),
+            _P("door", "str", "left", choices=("left", "centre", "right", "none")),
+            _P("window_width_m", "float", 1.1, "m", 0.2, 10.0),
+            _P("window_height_m", "float", 1.3, "m", 0.2, 10.0),
+            _P("roof", "str", "pitched", choices=("pitched", "flat")),
+            _P("roof_height_m", "float", 2.5, "m", 0.2, 20.0),
+            _P("overhang_m", "float", 0.25, "m", 0.0, 2.0),
+        ),
+        "house with facade on +x",
+    ),
+    "shop_front": ObjectKind(
+        shop_front,
+        (
+            _P("width_m", "float", 6.0, "m", 3.0, 100.0),
+            _P("height_m", "float", 7.0, "m", 3.0, 60.0, doc="eaves height"),
+            _P("depth_m", "float", 10.0, "m", 1.0, 100.0),
+            _P("storeys", "int", 2, "", 1, 20),
+            _P("windows", "int", 2, "", 1, 30, doc="windows per upper storey"),
+            _P("door", "str", "right", choices=("left", "centre", "right")),
+            _P("shop_storey_m", "float", 3.6, "m", 2.6, 8.0),
+            _P("fascia_height_m", "float", 0.6, "m", 0.2, 2.0),
+            _P("roof", "str", "flat", choices=("pitched", "flat")),
+        ),
+        "shop with fascia and large window on +x",
+    ),
 }
 
 
@@ -1053,25 +1272,37 @@ def validate_params(kind: str, params: dict[str, Any]) -> list[tuple[str, str]]:
     involved. The builder is run for those cross-checks (a few milliseconds).
     """
     if kind not in OBJECT_BUILDERS:
-        return [("kind", f"unknown object kind {kind!r}; expected one of {', '.join(OBJECT_BUILDERS)}"
-                 + did_you_mean(str(kind), OBJECT_BUILDERS))]
+        return [
+            (
+                "kind",
+                f"unknown object kind {kind!r}; expected one of {', '.join(OBJECT_BUILDERS)}"
+                + did_you_mean(str(kind), OBJECT_BUILDERS),
+            )
+        ]
     entry = OBJECT_BUILDERS[kind]
     specs = {p.name: p for p in entry.params}
     problems: list[tuple[str, str]] = []
     for key, value in params.items():
         spec = specs.get(key)
         if spec is None:
-            problems.append((key, f"unknown parameter for {kind}; expected one of {', '.join(specs)}"
-                             + did_you_mean(key, specs)))
+            problems.append(
+                (key, f"unknown parameter for {kind}; expected one of {', '.join(specs)}" + did_you_mean(key, specs))
+            )
             continue
         unit = f" {spec.unit}" if spec.unit else ""
         if not _type_ok(spec, value):
-            problems.append((key, f"expected {_TYPE_WORDS[spec.type]}{' (' + spec.unit + ')' if spec.unit else ''}, "
-                                  f"got {value!r}"))
+            problems.append(
+                (key, f"expected {_TYPE_WORDS[spec.type]}{' (' + spec.unit + ')' if spec.unit else ''}, got {value!r}")
+            )
             continue
         if spec.choices is not None and value not in spec.choices:
-            problems.append((key, f"expected one of {', '.join(map(repr, spec.choices))}, got {value!r}"
-                             + (did_you_mean(value, spec.choices) if isinstance(value, str) else "")))
+            problems.append(
+                (
+                    key,
+                    f"expected one of {', '.join(map(repr, spec.choices))}, got {value!r}"
+                    + (did_you_mean(value, spec.choices) if isinstance(value, str) else ""),
+                )
+            )
             continue
         if spec.type in ("float", "int"):
             v = float(value)
@@ -1109,6 +1340,7 @@ def build_object(kind: str, params: dict[str, Any] | None = None) -> BuiltObject
     result = OBJECT_BUILDERS[kind].function(**params)
     if isinstance(result, LampColumn):
         o = result.opening
-        return BuiltObject(kind, result.parts, {"light_centre_m": o.centre_m},
-                           {"light_nadir": o.nadir, "light_forward": o.forward})
+        return BuiltObject(
+            kind, result.parts, {"light_centre_m": o.centre_m}, {"light_nadir": o.nadir, "light_forward": o.forward}
+        )
     return BuiltObject(kind, result)

@@ -23,8 +23,8 @@ direction and z up, then placed with :func:`transform_parts` (heading measured f
 from __future__ import annotations
 
 import math
+from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass
-from typing import Iterable, Mapping, Sequence
 
 import numpy as np
 
@@ -194,16 +194,16 @@ def affine_parts(parts: Iterable[Part], matrix, offset_m=(0.0, 0.0, 0.0)) -> lis
     return out
 
 
-def transform_parts(parts: Iterable[Part], position_m=(0.0, 0.0, 0.0), heading_deg: float = 0.0,
-                    scale: float = 1.0) -> list[Part]:
+def transform_parts(
+    parts: Iterable[Part], position_m=(0.0, 0.0, 0.0), heading_deg: float = 0.0, scale: float = 1.0
+) -> list[Part]:
     """Place parts built in a local frame: uniform ``scale``, turn by ``heading_deg`` about +z
     (from +x towards +y), then move the local origin to ``position_m``."""
     s = _positive("scale", scale)
     return affine_parts(parts, rotation_z(heading_deg) * s, position_m)
 
 
-def transform_points(points_m, position_m=(0.0, 0.0, 0.0), heading_deg: float = 0.0,
-                     scale: float = 1.0) -> np.ndarray:
+def transform_points(points_m, position_m=(0.0, 0.0, 0.0), heading_deg: float = 0.0, scale: float = 1.0) -> np.ndarray:
     """The same placement as :func:`transform_parts` for points (..., 3)."""
     p = np.asarray(points_m, dtype=np.float64)
     s = _positive("scale", scale)
@@ -343,7 +343,8 @@ def _check_simple(p: np.ndarray, name: str) -> None:
             ii, jj = np.argwhere(hit)[0]
             ii, jj = int(rows[ii]), int(jj)
             raise ValueError(
-                f"{name}: the outline crosses itself (edge {ii}-{(ii + 1) % n} meets edge {jj}-{(jj + 1) % n})")
+                f"{name}: the outline crosses itself (edge {ii}-{(ii + 1) % n} meets edge {jj}-{(jj + 1) % n})"
+            )
 
 
 def triangulate_polygon(outline_xy, *, name: str = "outline") -> np.ndarray:
@@ -396,7 +397,8 @@ def triangulate_polygon(outline_xy, *, name: str = "outline") -> np.ndarray:
                 inside = (e1 >= -eps) & (e2 >= -eps) & (e3 >= -eps)
                 # A point coinciding with a, b or c is not inside.
                 same = (np.linalg.norm(pts - a, axis=1) <= 1e-12 * scale) | (
-                    np.linalg.norm(pts - c, axis=1) <= 1e-12 * scale)
+                    np.linalg.norm(pts - c, axis=1) <= 1e-12 * scale
+                )
                 if np.any(inside & ~same):
                     continue
             cut = k
@@ -413,11 +415,13 @@ def _polygon_basis(points: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarr
     """Newell normal of a 3-D polygon and an in-plane basis (u, v) with u × v = normal."""
     a = points
     b = np.roll(points, -1, axis=0)
-    newell = np.array([
-        np.sum((a[:, 1] - b[:, 1]) * (a[:, 2] + b[:, 2])),
-        np.sum((a[:, 2] - b[:, 2]) * (a[:, 0] + b[:, 0])),
-        np.sum((a[:, 0] - b[:, 0]) * (a[:, 1] + b[:, 1])),
-    ])
+    newell = np.array(
+        [
+            np.sum((a[:, 1] - b[:, 1]) * (a[:, 2] + b[:, 2])),
+            np.sum((a[:, 2] - b[:, 2]) * (a[:, 0] + b[:, 0])),
+            np.sum((a[:, 0] - b[:, 0]) * (a[:, 1] + b[:, 1])),
+        ]
+    )
     size = float(np.linalg.norm(newell))
     if size == 0.0:
         return newell, newell, newell, 0.0
@@ -489,8 +493,16 @@ def hexahedron(corners_m, *, slot: str = "body", face_slots: Mapping[str, str] |
     return merge_parts(parts)
 
 
-def box(*, centre_m=None, size_m=None, min_m=None, max_m=None, yaw_deg: float = 0.0, slot: str = "body",
-        face_slots: Mapping[str, str] | None = None) -> list[Part]:
+def box(
+    *,
+    centre_m=None,
+    size_m=None,
+    min_m=None,
+    max_m=None,
+    yaw_deg: float = 0.0,
+    slot: str = "body",
+    face_slots: Mapping[str, str] | None = None,
+) -> list[Part]:
     """A closed box, 12 triangles, flat normals.
 
     Give either ``centre_m`` and ``size_m`` (3 numbers, each > 0) or ``min_m`` and ``max_m``
@@ -588,8 +600,18 @@ def _revolve(profile: np.ndarray, n: int, cap_from: int, cap_to: int, smooth: bo
     return cat(body_t), cat(body_n), cat(cap_t), cat(cap_n)
 
 
-def lathe(profile_rz, *, base_m=(0.0, 0.0, 0.0), axis=(0.0, 0.0, 1.0), segments: int = 16, capped: bool = True,
-          start_dir=None, smooth: bool = True, slot: str = "body", cap_slot: str | None = None) -> list[Part]:
+def lathe(
+    profile_rz,
+    *,
+    base_m=(0.0, 0.0, 0.0),
+    axis=(0.0, 0.0, 1.0),
+    segments: int = 16,
+    capped: bool = True,
+    start_dir=None,
+    smooth: bool = True,
+    slot: str = "body",
+    cap_slot: str | None = None,
+) -> list[Part]:
     """A surface of revolution: the polyline ``profile_rz`` of (radius_m, height_m) points,
     turned about the line through ``base_m`` along ``axis``.
 
@@ -640,8 +662,18 @@ def lathe(profile_rz, *, base_m=(0.0, 0.0, 0.0), axis=(0.0, 0.0, 1.0), segments:
     return merge_parts(parts)
 
 
-def frustum(p0_m, p1_m, radius0_m: float, radius1_m: float, *, segments: int = 16, capped: bool = True,
-            start_dir=None, slot: str = "body", cap_slot: str | None = None) -> list[Part]:
+def frustum(
+    p0_m,
+    p1_m,
+    radius0_m: float,
+    radius1_m: float,
+    *,
+    segments: int = 16,
+    capped: bool = True,
+    start_dir=None,
+    slot: str = "body",
+    cap_slot: str | None = None,
+) -> list[Part]:
     """A truncated cone from ``p0_m`` (radius ``radius0_m``) to ``p1_m`` (radius ``radius1_m``);
     one radius may be 0 (a cone). Inscribed regular ``segments``-gon cross-sections; smooth
     side normals, flat caps."""
@@ -654,25 +686,53 @@ def frustum(p0_m, p1_m, radius0_m: float, radius1_m: float, *, segments: int = 1
     length = float(np.linalg.norm(p1 - p0))
     if length == 0:
         raise ValueError("frustum: p0_m and p1_m must differ")
-    return lathe([[r0, 0.0], [r1, length]], base_m=p0, axis=p1 - p0, segments=segments, capped=capped,
-                 start_dir=start_dir, slot=slot, cap_slot=cap_slot)
+    return lathe(
+        [[r0, 0.0], [r1, length]],
+        base_m=p0,
+        axis=p1 - p0,
+        segments=segments,
+        capped=capped,
+        start_dir=start_dir,
+        slot=slot,
+        cap_slot=cap_slot,
+    )
 
 
-def cylinder(p0_m, p1_m, radius_m: float, *, segments: int = 16, capped: bool = True, start_dir=None,
-             slot: str = "body", cap_slot: str | None = None) -> list[Part]:
+def cylinder(
+    p0_m,
+    p1_m,
+    radius_m: float,
+    *,
+    segments: int = 16,
+    capped: bool = True,
+    start_dir=None,
+    slot: str = "body",
+    cap_slot: str | None = None,
+) -> list[Part]:
     """A cylinder with axis ``p0_m`` -> ``p1_m``; the cross-section is the regular
     ``segments``-gon inscribed in the circle of ``radius_m``. Smooth side normals, flat caps."""
     r = _positive("radius_m", radius_m)
-    return frustum(p0_m, p1_m, r, r, segments=segments, capped=capped, start_dir=start_dir, slot=slot,
-                   cap_slot=cap_slot)
+    return frustum(
+        p0_m, p1_m, r, r, segments=segments, capped=capped, start_dir=start_dir, slot=slot, cap_slot=cap_slot
+    )
 
 
-def cone(base_m, apex_m, radius_m: float, *, segments: int = 16, capped: bool = True, start_dir=None,
-         slot: str = "body", cap_slot: str | None = None) -> list[Part]:
+def cone(
+    base_m,
+    apex_m,
+    radius_m: float,
+    *,
+    segments: int = 16,
+    capped: bool = True,
+    start_dir=None,
+    slot: str = "body",
+    cap_slot: str | None = None,
+) -> list[Part]:
     """A cone with its base disc (``radius_m``) centred at ``base_m`` and its tip at ``apex_m``."""
     r = _positive("radius_m", radius_m)
-    return frustum(base_m, apex_m, r, 0.0, segments=segments, capped=capped, start_dir=start_dir, slot=slot,
-                   cap_slot=cap_slot)
+    return frustum(
+        base_m, apex_m, r, 0.0, segments=segments, capped=capped, start_dir=start_dir, slot=slot, cap_slot=cap_slot
+    )
 
 
 # ---------------------------------------------------------------------------------------------
@@ -685,8 +745,9 @@ def _icosahedron() -> tuple[np.ndarray, np.ndarray]:
     z = 1 / math.sqrt(5)
     rho = 2 / math.sqrt(5)
     upper = [(rho * math.cos(2 * math.pi * k / 5), rho * math.sin(2 * math.pi * k / 5), z) for k in range(5)]
-    lower = [(rho * math.cos(2 * math.pi * (k + 0.5) / 5), rho * math.sin(2 * math.pi * (k + 0.5) / 5), -z)
-             for k in range(5)]
+    lower = [
+        (rho * math.cos(2 * math.pi * (k + 0.5) / 5), rho * math.sin(2 * math.pi * (k + 0.5) / 5), -z) for k in range(5)
+    ]
     v = np.array([(0.0, 0.0, 1.0)] + upper + lower + [(0.0, 0.0, -1.0)])
     faces = []
     for k in range(5):
@@ -717,8 +778,11 @@ def _subdivide(v: np.ndarray, f: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 
 def _unit_sphere(method: str, subdivisions: int, segments: int) -> tuple[np.ndarray, np.ndarray]:
     if method == "ico":
-        if (isinstance(subdivisions, bool) or not isinstance(subdivisions, (int, np.integer))
-                or not 0 <= subdivisions <= 6):
+        if (
+            isinstance(subdivisions, bool)
+            or not isinstance(subdivisions, (int, np.integer))
+            or not 0 <= subdivisions <= 6
+        ):
             raise ValueError(f"subdivisions must be an integer in 0..6, got {subdivisions!r}")
         v, f = _icosahedron()
         for _ in range(int(subdivisions)):
@@ -728,11 +792,14 @@ def _unit_sphere(method: str, subdivisions: int, segments: int) -> tuple[np.ndar
         stacks = max(2, n // 2)
         phi = np.pi * np.arange(1, stacks) / stacks
         theta = 2 * np.pi * np.arange(n) / n
-        ring = np.stack([
-            np.outer(np.sin(phi), np.cos(theta)).ravel(),
-            np.outer(np.sin(phi), np.sin(theta)).ravel(),
-            np.repeat(np.cos(phi), n),
-        ], axis=1)
+        ring = np.stack(
+            [
+                np.outer(np.sin(phi), np.cos(theta)).ravel(),
+                np.outer(np.sin(phi), np.sin(theta)).ravel(),
+                np.repeat(np.cos(phi), n),
+            ],
+            axis=1,
+        )
         v = np.vstack([[0.0, 0.0, 1.0], ring, [0.0, 0.0, -1.0]])
         south = v.shape[0] - 1
         f = []
@@ -755,20 +822,23 @@ def _unit_sphere(method: str, subdivisions: int, segments: int) -> tuple[np.ndar
     return v, f
 
 
-def sphere(centre_m, radius_m: float, *, method: str = "ico", subdivisions: int = 2, segments: int = 16,
-           slot: str = "body") -> list[Part]:
+def sphere(
+    centre_m, radius_m: float, *, method: str = "ico", subdivisions: int = 2, segments: int = 16, slot: str = "body"
+) -> list[Part]:
     """A closed sphere with smooth (radial) normals; all vertices lie on the sphere.
 
     ``method="ico"``: subdivided icosahedron, 20·4^subdivisions triangles, with a vertex at
     each pole. ``method="uv"``: ``segments`` around and ``segments // 2`` stacks
     (2·segments·(stacks − 1) triangles).
     """
-    return ellipsoid(centre_m, (radius_m, radius_m, radius_m), method=method, subdivisions=subdivisions,
-                     segments=segments, slot=slot)
+    return ellipsoid(
+        centre_m, (radius_m, radius_m, radius_m), method=method, subdivisions=subdivisions, segments=segments, slot=slot
+    )
 
 
-def ellipsoid(centre_m, radii_m, *, method: str = "ico", subdivisions: int = 2, segments: int = 16,
-              slot: str = "body", warp=None) -> list[Part]:
+def ellipsoid(
+    centre_m, radii_m, *, method: str = "ico", subdivisions: int = 2, segments: int = 16, slot: str = "body", warp=None
+) -> list[Part]:
     """A closed axis-aligned ellipsoid (semi-axes ``radii_m``), smooth normals.
 
     ``warp``, if given, is a function of the unit directions (k, 3) returning radial factors
@@ -808,8 +878,15 @@ def _vertex_normals(v: np.ndarray, f: np.ndarray) -> np.ndarray:
 # ---------------------------------------------------------------------------------------------
 
 
-def extrude(outline_xy, height_m: float, *, z0_m: float = 0.0, slot: str = "body", top_slot: str | None = None,
-            bottom_slot: str | None = None) -> list[Part]:
+def extrude(
+    outline_xy,
+    height_m: float,
+    *,
+    z0_m: float = 0.0,
+    slot: str = "body",
+    top_slot: str | None = None,
+    bottom_slot: str | None = None,
+) -> list[Part]:
     """A closed prism: the simple polygon ``outline_xy`` (either orientation, may be concave)
     raised from ``z0_m`` by ``height_m``. Caps by ear clipping (:func:`triangulate_polygon`);
     flat normals everywhere. Volume = polygon area × height exactly.
@@ -826,19 +903,31 @@ def extrude(outline_xy, height_m: float, *, z0_m: float = 0.0, slot: str = "body
     top_tris = top[tri_idx]
     bottom_tris = bottom[tri_idx][:, [0, 2, 1]]
     nxt = np.roll(np.arange(len(p)), -1)
-    sides = np.concatenate([
-        np.stack([bottom, bottom[nxt], top[nxt]], axis=1),
-        np.stack([bottom, top[nxt], top], axis=1),
-    ])
-    return merge_parts([
-        flat_part(sides, slot),
-        flat_part(bottom_tris, bottom_slot or slot),
-        flat_part(top_tris, top_slot or slot),
-    ])
+    sides = np.concatenate(
+        [
+            np.stack([bottom, bottom[nxt], top[nxt]], axis=1),
+            np.stack([bottom, top[nxt], top], axis=1),
+        ]
+    )
+    return merge_parts(
+        [
+            flat_part(sides, slot),
+            flat_part(bottom_tris, bottom_slot or slot),
+            flat_part(top_tris, top_slot or slot),
+        ]
+    )
 
 
-def sweep_rect(path_xy, width_m: float, height_m: float, *, z0_m: float = 0.0, slot: str = "body",
-               top_slot: str | None = None, max_miter: float = 4.0) -> list[Part]:
+def sweep_rect(
+    path_xy,
+    width_m: float,
+    height_m: float,
+    *,
+    z0_m: float = 0.0,
+    slot: str = "body",
+    top_slot: str | None = None,
+    max_miter: float = 4.0,
+) -> list[Part]:
     """A rectangle profile (``width_m`` across, ``height_m`` up) swept along an open polyline in
     the ground plane, with mitred joints: a kerb, a low wall, a hedge along a curve.
 
@@ -929,9 +1018,40 @@ def panel(points_m, *, facing=None, slot: str = "body") -> list[Part]:
 
 _Y_UP_TO_Z_UP = np.array([[1.0, 0.0, 0.0], [0.0, 0.0, -1.0], [0.0, 1.0, 0.0]])
 _MAX_PROBLEMS = 20
-_IGNORED = {"vp", "o", "g", "s", "mtllib", "l", "p", "cstype", "deg", "bmat", "step", "curv", "curv2", "surf",
-            "parm", "trim", "hole", "scrv", "sp", "end", "con", "mg", "lod", "usemap", "maplib", "shadow_obj",
-            "trace_obj", "ctech", "stech", "bevel", "c_interp", "d_interp"}
+_IGNORED = {
+    "vp",
+    "o",
+    "g",
+    "s",
+    "mtllib",
+    "l",
+    "p",
+    "cstype",
+    "deg",
+    "bmat",
+    "step",
+    "curv",
+    "curv2",
+    "surf",
+    "parm",
+    "trim",
+    "hole",
+    "scrv",
+    "sp",
+    "end",
+    "con",
+    "mg",
+    "lod",
+    "usemap",
+    "maplib",
+    "shadow_obj",
+    "trace_obj",
+    "ctech",
+    "stech",
+    "bevel",
+    "c_interp",
+    "d_interp",
+}
 
 
 def _obj_numbers(tokens: Sequence[str]) -> tuple[list[float] | None, str]:
@@ -952,8 +1072,14 @@ def _bad(tok: str) -> str:
     return f" ({tok!r} is not a finite number)" if tok else ""
 
 
-def load_obj(path, *, scale: float = 1.0, up_axis: str = "z", slot_map: Mapping[str, str] | None = None,
-             default_slot: str = "body") -> list[Part]:
+def load_obj(
+    path,
+    *,
+    scale: float = 1.0,
+    up_axis: str = "z",
+    slot_map: Mapping[str, str] | None = None,
+    default_slot: str = "body",
+) -> list[Part]:
     """Read a Wavefront OBJ file into parts, one per material slot.
 
     Supported: ``v`` (3 coordinates, optionally a 4th weight or 3 colour values, which are
@@ -1053,8 +1179,9 @@ def load_obj(path, *, scale: float = 1.0, up_axis: str = "z", slot_map: Mapping[
                     break
                 resolved = []
                 where_ref = f" in {ref!r}" if "/" in ref else ""
-                for tok, count, what in zip(parts, (len(verts), n_tex, len(norms)),
-                                            ("vertex", "texture coordinate", "normal")):
+                for tok, count, what in zip(
+                    parts, (len(verts), n_tex, len(norms)), ("vertex", "texture coordinate", "normal")
+                ):
                     if tok == "":
                         resolved.append(None)
                         continue
@@ -1084,7 +1211,7 @@ def load_obj(path, *, scale: float = 1.0, up_axis: str = "z", slot_map: Mapping[
             if ok:
                 faces.append((vi, ni if has_normals else None, slot, line_no))
         elif key == "usemtl":
-            name = content[len("usemtl"):].strip()
+            name = content[len("usemtl") :].strip()
             if not name:
                 problem(line_no, "expected 'usemtl name'")
                 continue

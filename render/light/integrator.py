@@ -35,10 +35,18 @@ import numba
 import numpy as np
 from numba import prange
 
-from render.rays.bvh import BVH, build_bvh, face_forward, geometric_normal, intersect_any, intersect_closest, interpolate_normal
 from render.geometry.mesh import TriangleMesh
 from render.light.luminaires import LuminaireSet
 from render.light.photometry import direction_to_c_gamma, intensity_lookup
+from render.rays.bvh import (
+    BVH,
+    build_bvh,
+    face_forward,
+    geometric_normal,
+    interpolate_normal,
+    intersect_any,
+    intersect_closest,
+)
 
 #: Default bound below which a luminaire's unshadowed contribution is skipped, lx. 1e-3 lx is
 #: far below the lowest maintained-illuminance minimum of the residential lighting classes
@@ -112,8 +120,34 @@ def _cell_lists(x0, y0, cell, nx, ny, z_lo, z_hi, pos, tilt_abs, table, scale, g
 
 
 @numba.njit(cache=True, nogil=True, parallel=True)
-def _candidates(points, normals, active, rot, pos, scale, table, c_grid, g_grid, n_c, n_g, cd, clearance,
-                x0, y0, cell, nx, ny, cell_start, cell_items, eps, counts, out_lum, out_e, out_dir, out_tmax):
+def _candidates(
+    points,
+    normals,
+    active,
+    rot,
+    pos,
+    scale,
+    table,
+    c_grid,
+    g_grid,
+    n_c,
+    n_g,
+    cd,
+    clearance,
+    x0,
+    y0,
+    cell,
+    nx,
+    ny,
+    cell_start,
+    cell_items,
+    eps,
+    counts,
+    out_lum,
+    out_e,
+    out_dir,
+    out_tmax,
+):
     """Per point, the luminaires whose unshadowed contribution reaches ``eps``: written to row
     ``i`` of the (N, K) outputs (K = the longest cell list), their number to ``counts[i]``."""
     N = points.shape[0]
@@ -200,7 +234,9 @@ class CullGrid:
         return float(self.cell_items.size) / max(self.nx * self.ny, 1)
 
 
-def cull_grid(lights: LuminaireSet, points_m: np.ndarray, negligible_lx: float = NEGLIGIBLE_LX, cell_m: float = CELL_M) -> CullGrid:
+def cull_grid(
+    lights: LuminaireSet, points_m: np.ndarray, negligible_lx: float = NEGLIGIBLE_LX, cell_m: float = CELL_M
+) -> CullGrid:
     """Per ground-plane cell over the points' extent, the luminaires that can matter there."""
     pts = np.asarray(points_m, np.float64).reshape(-1, 3)
     finite = np.all(np.isfinite(pts), axis=1)
@@ -213,8 +249,24 @@ def cull_grid(lights: LuminaireSet, points_m: np.ndarray, negligible_lx: float =
     mask = np.zeros((nx * ny, lights.n_luminaires), np.bool_)
     # Angle between each luminaire's own z axis and world z (its tilt), degrees.
     tilt = np.degrees(np.arccos(np.clip(lights.rotation[:, 2, 2], -1.0, 1.0)))
-    _cell_lists(float(lo[0]), float(lo[1]), float(cell_m), nx, ny, float(lo[2]), float(hi[2]), lights.position_m,
-                tilt, lights.table, lights.scale, lights.g_grid, lights.n_g, lights.i_max_beyond, float(negligible_lx), mask)
+    _cell_lists(
+        float(lo[0]),
+        float(lo[1]),
+        float(cell_m),
+        nx,
+        ny,
+        float(lo[2]),
+        float(hi[2]),
+        lights.position_m,
+        tilt,
+        lights.table,
+        lights.scale,
+        lights.g_grid,
+        lights.n_g,
+        lights.i_max_beyond,
+        float(negligible_lx),
+        mask,
+    )
     counts = mask.sum(axis=1)
     start = np.concatenate([[0], np.cumsum(counts)]).astype(np.int64)
     items = np.nonzero(mask)[1].astype(np.int64)
@@ -240,13 +292,24 @@ class DirectPairs:
     blocked: np.ndarray
 
 
-def direct_pairs(points_m, normals, lights: LuminaireSet, bvh: BVH | None, *, active=None,
-                 negligible_lx: float = NEGLIGIBLE_LX, grid: CullGrid | None = None, offset_normals=None) -> DirectPairs:
+def direct_pairs(
+    points_m,
+    normals,
+    lights: LuminaireSet,
+    bvh: BVH | None,
+    *,
+    active=None,
+    negligible_lx: float = NEGLIGIBLE_LX,
+    grid: CullGrid | None = None,
+    offset_normals=None,
+) -> DirectPairs:
     """The (point, luminaire) pairs of :func:`direct_illuminance_lx`, before summing."""
     pts = np.ascontiguousarray(points_m, np.float64).reshape(-1, 3)
     nrm = np.ascontiguousarray(normals, np.float64).reshape(-1, 3)
     n = pts.shape[0]
-    empty = DirectPairs(np.zeros(0, np.int64), np.zeros(0, np.int64), np.zeros(0), np.zeros((0, 3)), np.zeros(0, np.bool_))
+    empty = DirectPairs(
+        np.zeros(0, np.int64), np.zeros(0, np.int64), np.zeros(0), np.zeros((0, 3)), np.zeros(0, np.bool_)
+    )
     if n == 0 or lights.n_luminaires == 0:
         return empty
     act = np.ones(n, np.bool_) if active is None else np.ascontiguousarray(active, np.bool_)
@@ -262,9 +325,34 @@ def direct_pairs(points_m, normals, lights: LuminaireSet, bvh: BVH | None, *, ac
     e_k = np.zeros((n, K))
     dir_k = np.zeros((n, K, 3))
     tmax_k = np.zeros((n, K))
-    _candidates(pts, nrm, act, lights.rotation, lights.position_m, lights.scale, lights.table, lights.c_grid,
-                lights.g_grid, lights.n_c, lights.n_g, lights.cd_table, clearance, grid.x0, grid.y0, grid.cell_m,
-                grid.nx, grid.ny, grid.cell_start, grid.cell_items, float(negligible_lx), counts, lum_k, e_k, dir_k, tmax_k)
+    _candidates(
+        pts,
+        nrm,
+        act,
+        lights.rotation,
+        lights.position_m,
+        lights.scale,
+        lights.table,
+        lights.c_grid,
+        lights.g_grid,
+        lights.n_c,
+        lights.n_g,
+        lights.cd_table,
+        clearance,
+        grid.x0,
+        grid.y0,
+        grid.cell_m,
+        grid.nx,
+        grid.ny,
+        grid.cell_start,
+        grid.cell_items,
+        float(negligible_lx),
+        counts,
+        lum_k,
+        e_k,
+        dir_k,
+        tmax_k,
+    )
     valid = np.arange(K)[None, :] < counts[:, None]
     point, slot = np.nonzero(valid)
     m = point.size
@@ -325,8 +413,16 @@ def direct_illuminance_lx(
     """
     n = np.asarray(points_m).reshape(-1, 3).shape[0]
     out = np.zeros((n, lights.n_channels))
-    pairs = direct_pairs(points_m, normals, lights, bvh, active=active, negligible_lx=negligible_lx, grid=grid,
-                         offset_normals=offset_normals)
+    pairs = direct_pairs(
+        points_m,
+        normals,
+        lights,
+        bvh,
+        active=active,
+        negligible_lx=negligible_lx,
+        grid=grid,
+        offset_normals=offset_normals,
+    )
     if pairs.point.size:
         lit = ~pairs.blocked
         _scatter_add(out, pairs.point[lit], lights.channel[pairs.lum[lit]], pairs.e_lx[lit])
@@ -410,7 +506,17 @@ class LightBuffers:
         return int(self.response.shape[0])
 
 
-def cast_view(mesh: TriangleMesh, bvh: BVH, lights: LuminaireSet, camera, spp: int, seed: int, *, tile_rows: int = 32, progress: bool = False):
+def cast_view(
+    mesh: TriangleMesh,
+    bvh: BVH,
+    lights: LuminaireSet,
+    camera,
+    spp: int,
+    seed: int,
+    *,
+    tile_rows: int = 32,
+    progress: bool = False,
+):
     """Primary rays of a view: hits against the scene and the luminous openings.
 
     Returns a :class:`LightBuffers` with zero ``value_cd_m2``; fill it with
@@ -474,13 +580,34 @@ def cast_view(mesh: TriangleMesh, bvh: BVH, lights: LuminaireSet, camera, spp: i
     gloss = getattr(mesh, "material_gloss", None)
     if gloss is None:
         gloss = np.tile([0.0, 1.0], (len(mesh.material_names), 1))
-    return LightBuffers(W, H, spp, response, np.zeros((S, lights.n_channels), np.float32), point, normal, geo, emitter,
-                        dirs, obj, list(mesh.material_names), list(lights.channels),
-                        np.zeros((S, lights.n_channels), np.float32), np.asarray(gloss, np.float64))
+    return LightBuffers(
+        W,
+        H,
+        spp,
+        response,
+        np.zeros((S, lights.n_channels), np.float32),
+        point,
+        normal,
+        geo,
+        emitter,
+        dirs,
+        obj,
+        list(mesh.material_names),
+        list(lights.channels),
+        np.zeros((S, lights.n_channels), np.float32),
+        np.asarray(gloss, np.float64),
+    )
 
 
-def evaluate_light(buffers: LightBuffers, lights: LuminaireSet, bvh: BVH, *, negligible_lx: float = NEGLIGIBLE_LX,
-                   chunk: int = 1 << 18, progress: bool = False) -> LightBuffers:
+def evaluate_light(
+    buffers: LightBuffers,
+    lights: LuminaireSet,
+    bvh: BVH,
+    *,
+    negligible_lx: float = NEGLIGIBLE_LX,
+    chunk: int = 1 << 18,
+    progress: bool = False,
+) -> LightBuffers:
     """Fill ``buffers.value_cd_m2`` from ``lights`` (direct light with shadows, and visible
     openings). Returns the same object (values replaced)."""
     buffers.channels = list(lights.channels)
@@ -498,7 +625,11 @@ def evaluate_light(buffers: LightBuffers, lights: LuminaireSet, bvh: BVH, *, neg
         from tqdm import tqdm
 
         starts = tqdm(starts, desc="direct light", unit="chunk", leave=False)
-    gloss = buffers.material_gloss if buffers.material_gloss is not None else np.tile([0.0, 1.0], (len(buffers.material_names), 1))
+    gloss = (
+        buffers.material_gloss
+        if buffers.material_gloss is not None
+        else np.tile([0.0, 1.0], (len(buffers.material_names), 1))
+    )
     spec = np.zeros((S, lights.n_channels), np.float32)
     for s0 in starts:
         sl = slice(s0, min(S, s0 + chunk))
@@ -506,8 +637,16 @@ def evaluate_light(buffers: LightBuffers, lights: LuminaireSet, bvh: BVH, *, neg
         if not np.any(act):
             continue
         nrm = buffers.normal[sl].astype(np.float64)
-        pairs = direct_pairs(pts_all[sl], nrm, lights, bvh, active=act, negligible_lx=negligible_lx, grid=grid,
-                             offset_normals=buffers.geo_normal[sl].astype(np.float64))
+        pairs = direct_pairs(
+            pts_all[sl],
+            nrm,
+            lights,
+            bvh,
+            active=act,
+            negligible_lx=negligible_lx,
+            grid=grid,
+            offset_normals=buffers.geo_normal[sl].astype(np.float64),
+        )
         if not pairs.point.size:
             continue
         lit = ~pairs.blocked
@@ -537,9 +676,22 @@ def evaluate_light(buffers: LightBuffers, lights: LuminaireSet, bvh: BVH, *, neg
     if lights.n_luminaires and np.any(em >= 0):
         area = lights.opening_m[:, 0] * lights.opening_m[:, 1]
         out = np.zeros((S, lights.n_channels))
-        _emitter_values(buffers.direction.astype(np.float64), em, lights.rotation, lights.position_m, lights.scale,
-                        lights.table, lights.c_grid, lights.g_grid, lights.n_c, lights.n_g, lights.cd_table, area,
-                        lights.channel, out)
+        _emitter_values(
+            buffers.direction.astype(np.float64),
+            em,
+            lights.rotation,
+            lights.position_m,
+            lights.scale,
+            lights.table,
+            lights.c_grid,
+            lights.g_grid,
+            lights.n_c,
+            lights.n_g,
+            lights.cd_table,
+            area,
+            lights.channel,
+            out,
+        )
         sel = em >= 0
         value[sel] = out[sel].astype(np.float32)
     buffers.value_cd_m2 = value

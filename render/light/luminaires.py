@@ -12,6 +12,7 @@ evaluation (the camera rays are reused).
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+
 import numpy as np
 
 from render.errors import InputError, ProblemList
@@ -153,9 +154,21 @@ def luminaire_set(scene: Scene, setup: Setup | None = None) -> LuminaireSet:
         length, width = abs(p.opening_length_m or 0.0), abs(p.opening_width_m or 0.0)
         opening[i] = (length, width) if length > 0 and width > 0 else DEFAULT_OPENING_M
     return LuminaireSet(
-        names=[r[0].name for r in rows], channels=channels, position_m=position, rotation=rotation,
-        scale=scale, table=table, c_grid=c_grid, g_grid=g_grid, n_c=n_c, n_g=n_g, cd_table=cd,
-        i_max_beyond=beyond, channel=channel, opening_m=opening, photometries=loaded,
+        names=[r[0].name for r in rows],
+        channels=channels,
+        position_m=position,
+        rotation=rotation,
+        scale=scale,
+        table=table,
+        c_grid=c_grid,
+        g_grid=g_grid,
+        n_c=n_c,
+        n_g=n_g,
+        cd_table=cd,
+        i_max_beyond=beyond,
+        channel=channel,
+        opening_m=opening,
+        photometries=loaded,
     )
 
 

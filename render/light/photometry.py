@@ -85,15 +85,15 @@ from __future__ import annotations
 import math
 import os
 import re
+from collections.abc import Sequence
 from dataclasses import dataclass, field, replace
 from pathlib import Path
-from typing import Sequence
 
 import numba
 import numpy as np
 
-from render.fileio import read_user_bytes, save_figure
 from render.errors import InputError, Problem, did_you_mean, input_error
+from render.fileio import read_user_bytes, save_figure
 
 #: One foot in metres (international foot).
 FEET_TO_M = 0.3048
@@ -110,8 +110,7 @@ _EDITION_LINES = {
     "IESNA:LM-63-1991": "LM-63-1991",
     "IESNA:LM-63-1986": "LM-63-1986",
 }
-_VERTICAL_TEXT = {"downward": "downward only (γ 0-90)", "upward": "upward only (γ 90-180)",
-                  "full": "γ 0-180"}
+_VERTICAL_TEXT = {"downward": "downward only (γ 0-90)", "upward": "upward only (γ 90-180)", "full": "γ 0-180"}
 _SYMMETRY_TEXT = {
     "rotational": "rotationally symmetric (one C plane)",
     "quadrant": "symmetric in each quadrant (C 0-90)",
@@ -279,9 +278,7 @@ class _Tokens:
 
     def number(self, what: str) -> tuple[float, int]:
         if self.pos >= len(self.items):
-            raise self._error(
-                self.last_line, f"the file ends before the {what}; the data are truncated"
-            )
+            raise self._error(self.last_line, f"the file ends before the {what}; the data are truncated")
         text, line = self.items[self.pos]
         self.pos += 1
         try:
@@ -368,7 +365,8 @@ def parse_lm63(text: str, source: str = "<lm63 text>", base_dir: str | os.PathLi
         i += 1
     elif head.startswith(("IESNA:LM-63", "IES:LM-63")):
         raise input_error(
-            source, f"line {i + 1}",
+            source,
+            f"line {i + 1}",
             f"unknown LM-63 edition '{lines[i].strip()}'; expected one of "
             "IESNA:LM-63-1995, IESNA:LM-63-2002, IES:LM-63-2019",
         )
@@ -407,9 +405,9 @@ def parse_lm63(text: str, source: str = "<lm63 text>", base_dir: str | os.PathLi
         i += 1
     if tilt_line_no is None:
         raise input_error(
-            source, f"line {n_lines}",
-            "no TILT= line found; expected 'TILT=NONE', 'TILT=INCLUDE' or 'TILT=<file>' "
-            "after the keyword lines",
+            source,
+            f"line {n_lines}",
+            "no TILT= line found; expected 'TILT=NONE', 'TILT=INCLUDE' or 'TILT=<file>' after the keyword lines",
         )
 
     tokens = _Tokens(_tokenise(lines[i:], i + 1), source, n_lines)
@@ -430,9 +428,9 @@ def parse_lm63(text: str, source: str = "<lm63 text>", base_dir: str | os.PathLi
             tilt_text = _decode(tilt_path.read_bytes())
         except OSError as exc:
             raise input_error(
-                source, f"line {tilt_line_no}",
-                f"cannot read the tilt file '{tilt_value}' (looked for {tilt_path}): "
-                f"{exc.strerror or exc}",
+                source,
+                f"line {tilt_line_no}",
+                f"cannot read the tilt file '{tilt_value}' (looked for {tilt_path}): {exc.strerror or exc}",
             ) from None
         tilt_lines = tilt_text.splitlines()
         tilt_tokens = _Tokens(_tokenise(tilt_lines, 1), str(tilt_path), max(len(tilt_lines), 1))
@@ -473,8 +471,11 @@ def parse_lm63(text: str, source: str = "<lm63 text>", base_dir: str | os.PathLi
     ballast_factor, ln = tokens.number("ballast factor")
     if ballast_factor <= 0:
         raise err(ln, f"expected a ballast factor > 0, found {ballast_factor:g}")
-    second_what = "file generation type" if edition == "LM-63-2019" else (
-        "future-use field" if edition in ("LM-63-1995", "LM-63-2002") else "ballast-lamp photometric factor")
+    second_what = (
+        "file generation type"
+        if edition == "LM-63-2019"
+        else ("future-use field" if edition in ("LM-63-1995", "LM-63-2002") else "ballast-lamp photometric factor")
+    )
     second, ln = tokens.number(second_what)
     if second <= 0:
         raise err(ln, f"expected the {second_what} > 0, found {second:g}")
@@ -500,8 +501,11 @@ def parse_lm63(text: str, source: str = "<lm63 text>", base_dir: str | os.PathLi
     bad = np.flatnonzero(cd < 0)
     if bad.size:
         k = int(bad[0])
-        raise err(int(cd_lines[k]), f"negative candela value {cd[k]:g} (horizontal angle "
-                  f"{h_deg[k // n_v]:g}°, vertical angle {v_deg[k % n_v]:g}°); expected ≥ 0")
+        raise err(
+            int(cd_lines[k]),
+            f"negative candela value {cd[k]:g} (horizontal angle "
+            f"{h_deg[k // n_v]:g}°, vertical angle {v_deg[k % n_v]:g}°); expected ≥ 0",
+        )
 
     if edition == "LM-63-2019":
         ballast_lamp_factor, file_generation_type = 1.0, second
@@ -560,8 +564,9 @@ def _frozen(a: np.ndarray) -> np.ndarray:
 def _parse_tilt(tokens: _Tokens, origin: str) -> TiltData:
     geometry, ln = tokens.integer("lamp-to-luminaire geometry of the tilt data")
     if geometry not in (1, 2, 3):
-        raise input_error(tokens.source, f"line {ln}",
-                          f"expected a lamp-to-luminaire geometry of 1, 2 or 3, found {geometry}")
+        raise input_error(
+            tokens.source, f"line {ln}", f"expected a lamp-to-luminaire geometry of 1, 2 or 3, found {geometry}"
+        )
     n, ln = tokens.integer("number of tilt angles")
     if n < 1:
         raise input_error(tokens.source, f"line {ln}", f"expected at least 1 tilt angle, found {n}")
@@ -571,8 +576,9 @@ def _parse_tilt(tokens: _Tokens, origin: str) -> TiltData:
     bad = np.flatnonzero(factors < 0)
     if bad.size:
         k = int(bad[0])
-        raise input_error(tokens.source, f"line {f_lines[k]}",
-                          f"negative tilt multiplying factor {factors[k]:g}; expected ≥ 0")
+        raise input_error(
+            tokens.source, f"line {f_lines[k]}", f"negative tilt multiplying factor {factors[k]:g}; expected ≥ 0"
+        )
     return TiltData(geometry, _frozen(angles), _frozen(factors), origin)
 
 
@@ -582,8 +588,7 @@ def _check_increasing(a: np.ndarray, lines: np.ndarray, what: str, source: str) 
     bad = np.flatnonzero(np.diff(a) <= 0)
     if bad.size:
         k = int(bad[0]) + 1
-        raise input_error(source, f"line {lines[k]}",
-                          f"{what} angles must increase: {a[k]:g} follows {a[k - 1]:g}")
+        raise input_error(source, f"line {lines[k]}", f"{what} angles must increase: {a[k]:g} follows {a[k - 1]:g}")
 
 
 def _near(x: float, target: float) -> bool:
@@ -592,22 +597,28 @@ def _near(x: float, target: float) -> bool:
 
 def _check_type_c_ranges(v, v_lines, h, h_lines, source) -> None:
     if not (_near(v[0], 0.0) or _near(v[0], 90.0)):
-        raise input_error(source, f"line {v_lines[0]}",
-                          f"type C vertical angles must start at 0 or 90 degrees, found {v[0]:g}")
+        raise input_error(
+            source, f"line {v_lines[0]}", f"type C vertical angles must start at 0 or 90 degrees, found {v[0]:g}"
+        )
     if not (_near(v[-1], 90.0) or _near(v[-1], 180.0)):
-        raise input_error(source, f"line {v_lines[-1]}",
-                          f"type C vertical angles must end at 90 or 180 degrees, found {v[-1]:g}")
+        raise input_error(
+            source, f"line {v_lines[-1]}", f"type C vertical angles must end at 90 or 180 degrees, found {v[-1]:g}"
+        )
     first, last = h[0], h[-1]
     ok = (
         (h.size == 1 and _near(first, 0.0))
-        or (h.size > 1 and _near(first, 0.0) and (_near(last, 90.0) or _near(last, 180.0)
-                                                   or (180.0 < last <= 360.0 + _ANGLE_TOL_DEG)))
+        or (
+            h.size > 1
+            and _near(first, 0.0)
+            and (_near(last, 90.0) or _near(last, 180.0) or (180.0 < last <= 360.0 + _ANGLE_TOL_DEG))
+        )
         or (h.size > 1 and _near(first, 90.0) and _near(last, 270.0))
     )
     if not ok:
         where = h_lines[0] if not (_near(first, 0.0) or _near(first, 90.0)) else h_lines[-1]
         raise input_error(
-            source, f"line {where}",
+            source,
+            f"line {where}",
             f"type C horizontal angles {first:g}..{last:g} are not one of the LM-63 symmetry cases: "
             "a single 0, 0-90, 0-180, 0 to more than 180 (up to 360), or 90-270",
         )
@@ -616,14 +627,17 @@ def _check_type_c_ranges(v, v_lines, h, h_lines, source) -> None:
 def _check_type_b_ranges(v, v_lines, h, h_lines, source) -> str:
     for a, lines, what in ((h, h_lines, "horizontal"), (v, v_lines, "vertical")):
         if not (_near(a[0], -90.0) or _near(a[0], 0.0)):
-            raise input_error(source, f"line {lines[0]}",
-                              f"type B {what} angles must start at -90 or 0 degrees, found {a[0]:g}")
+            raise input_error(
+                source, f"line {lines[0]}", f"type B {what} angles must start at -90 or 0 degrees, found {a[0]:g}"
+            )
         if not _near(a[-1], 90.0):
-            raise input_error(source, f"line {lines[-1]}",
-                              f"type B {what} angles must end at 90 degrees, found {a[-1]:g}")
+            raise input_error(
+                source, f"line {lines[-1]}", f"type B {what} angles must end at 90 degrees, found {a[-1]:g}"
+            )
     mirror_h, mirror_v = _near(h[0], 0.0), _near(v[0], 0.0)
     return {(False, False): "b-none", (True, False): "b-h", (False, True): "b-v", (True, True): "b-hv"}[
-        (mirror_h, mirror_v)]
+        (mirror_h, mirror_v)
+    ]
 
 
 def _expand_type_c(h: np.ndarray, table: np.ndarray) -> tuple[np.ndarray, np.ndarray, str]:
@@ -646,14 +660,14 @@ def _expand_type_c(h: np.ndarray, table: np.ndarray) -> tuple[np.ndarray, np.nda
         for k, a in enumerate(h):
             pairs.append((a, k))
             if a <= 180.0 + _ANGLE_TOL_DEG:
-                pairs.append((180.0 - a, k))      # mirror of C in 90..180 -> 0..90
+                pairs.append((180.0 - a, k))  # mirror of C in 90..180 -> 0..90
             if a >= 180.0 - _ANGLE_TOL_DEG:
-                pairs.append((540.0 - a, k))      # mirror of C in 180..270 -> 270..360
+                pairs.append((540.0 - a, k))  # mirror of C in 180..270 -> 270..360
     else:
         symmetry = "none"
         pairs = [(a, k) for k, a in enumerate(h)]
         if last < 360.0 - _ANGLE_TOL_DEG:
-            pairs.append((360.0, 0))               # periodic: C 360 is C 0
+            pairs.append((360.0, 0))  # periodic: C 360 is C 0
     pairs.sort(key=lambda p: p[0])
     angles: list[float] = []
     rows: list[int] = []
@@ -852,8 +866,11 @@ def intensity_toward(rotation, c_grid, g_grid, cd_table, dx, dy, dz):
 
 def lookup_tables(photometry: Photometry) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """``(c_grid, g_grid, cd_table)`` as contiguous float64 arrays for the numba kernels."""
-    return (np.ascontiguousarray(photometry.c_deg), np.ascontiguousarray(photometry.gamma_deg),
-            np.ascontiguousarray(photometry.candela_cd))
+    return (
+        np.ascontiguousarray(photometry.c_deg),
+        np.ascontiguousarray(photometry.gamma_deg),
+        np.ascontiguousarray(photometry.candela_cd),
+    )
 
 
 def intensity_cd(photometry: Photometry, c_deg, gamma_deg):
@@ -991,8 +1008,11 @@ def apply_tilt(photometry: Photometry, tilt_deg: float) -> Photometry:
     k = tilt_factor(photometry, tilt_deg)
     if k == 1.0:
         return photometry
-    return replace(photometry, candela_cd=_frozen(photometry.candela_cd * k),
-                   file_candela_cd=_frozen(photometry.file_candela_cd * k))
+    return replace(
+        photometry,
+        candela_cd=_frozen(photometry.candela_cd * k),
+        file_candela_cd=_frozen(photometry.file_candela_cd * k),
+    )
 
 
 # --------------------------------------------------------------------------------------------
@@ -1017,11 +1037,14 @@ def load_photometry(ref: str | os.PathLike, base_dir: str | os.PathLike | None =
         path = Path(base_dir) / path
     if path.is_file():
         return read_lm63(path)
-    raise InputError(Problem(
-        text, "",
-        f"no built-in photometry of that name and no file at {path}; built-in ids are "
-        f"{', '.join(ids)}{did_you_mean(text, ids)}",
-    ))
+    raise InputError(
+        Problem(
+            text,
+            "",
+            f"no built-in photometry of that name and no file at {path}; built-in ids are "
+            f"{', '.join(ids)}{did_you_mean(text, ids)}",
+        )
+    )
 
 
 # --------------------------------------------------------------------------------------------
@@ -1080,16 +1103,19 @@ def format_summary(summary: dict) -> str:
     if s["absolute"]:
         lines.append("rated lumens    none: absolute photometry (the values are the luminaire's own)")
     else:
-        lines.append(f"rated lumens    {s['rated_lm']:.1f} lm ({s['lamp_count']} lamp(s)); "
-                     f"flux / rated = {s['flux_ratio']:.4f}")
+        lines.append(
+            f"rated lumens    {s['rated_lm']:.1f} lm ({s['lamp_count']} lamp(s)); flux / rated = {s['flux_ratio']:.4f}"
+        )
     lines.append(f"upward          {s['upward_flux_lm']:.1f} lm; ULOR (upward / total) = {s['ulor']:.4f}")
     lines.append(f"peak            {s['peak_cd']:.1f} cd at C {s['peak_c_deg']:.1f}°, γ {s['peak_gamma_deg']:.1f}°")
     if s["input_watts"] > 0:
         lines.append(f"input power     {s['input_watts']:.1f} W; {s['efficacy_lm_per_w']:.1f} lm/W")
     else:
         lines.append("input power     not given")
-    lines.append(f"opening         {s['opening_shape']}, width {s['opening_width_m']:.3f} m, "
-                 f"length {s['opening_length_m']:.3f} m, height {s['opening_height_m']:.3f} m")
+    lines.append(
+        f"opening         {s['opening_shape']}, width {s['opening_width_m']:.3f} m, "
+        f"length {s['opening_length_m']:.3f} m, height {s['opening_height_m']:.3f} m"
+    )
     lines.append(f"tilt data       {s['tilt'] or 'none'}")
     return "\n".join(lines)
 
@@ -1115,8 +1141,7 @@ def plot_polar(photometry: Photometry, path: str | os.PathLike, title: str | Non
     ax = fig.add_subplot(projection="polar")
     ax.set_theta_zero_location("S")
     ax.set_theta_direction(1)
-    for (c_right, c_left), style, label in (((0.0, 180.0), "-", "C 0 – C 180"),
-                                           ((90.0, 270.0), "--", "C 90 – C 270")):
+    for (c_right, c_left), style, label in (((0.0, 180.0), "-", "C 0 – C 180"), ((90.0, 270.0), "--", "C 90 – C 270")):
         right = intensity_cd(ph, c_right, g) * k
         left = intensity_cd(ph, c_left, g) * k
         theta = np.radians(np.concatenate([-g[::-1], g]))
@@ -1132,8 +1157,9 @@ def plot_polar(photometry: Photometry, path: str | os.PathLike, title: str | Non
     return path
 
 
-def describe_photometry_file(ref: str | os.PathLike, base_dir: str | os.PathLike | None = None,
-                             plot_path: str | os.PathLike | None = None) -> str:
+def describe_photometry_file(
+    ref: str | os.PathLike, base_dir: str | os.PathLike | None = None, plot_path: str | os.PathLike | None = None
+) -> str:
     """What ``lampcast photometry FILE`` prints: load ``ref`` (built-in id or path), optionally
     write a polar plot to ``plot_path``, and return the formatted summary."""
     ph = load_photometry(ref, base_dir=base_dir)

@@ -28,15 +28,15 @@ why a line source cannot render hue.
 from __future__ import annotations
 
 import textwrap
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from functools import lru_cache
 from pathlib import Path
-from typing import Mapping, Sequence
 
 import numpy as np
 
-from render.fileio import atomic_path
 from render.colour.spectra import BIN_EDGES_NM, BIN_WIDTH_NM, WAVELENGTHS_NM
+from render.fileio import atomic_path
 
 #: Outline colours of the outlined view (our own palette; cycled).
 OUTLINE_COLOURS = ("#ffd23f", "#3bceac", "#ee4266", "#7c9cff", "#f9a03f", "#b5e48c", "#f78fb3", "#c8b6ff")
@@ -52,6 +52,7 @@ HEATMAP_CLASSES = (
 
 
 # ------------------------------------------------------------------------------- helpers
+
 
 def _figure(width_in: float, height_in: float, dpi: float = 100.0):
     from matplotlib.figure import Figure
@@ -116,8 +117,18 @@ def _text_colour(rgb) -> str:
 
 # --------------------------------------------------------------------------- outlined view
 
-def outlined_view(srgb, object_id, labels: Mapping[int, str], path, *, min_width_px: int = 960,
-                  title: str | None = None, line_px: float = 2.0, png_text: Mapping[str, str] | None = None) -> Path:
+
+def outlined_view(
+    srgb,
+    object_id,
+    labels: Mapping[int, str],
+    path,
+    *,
+    min_width_px: int = 960,
+    title: str | None = None,
+    line_px: float = 2.0,
+    png_text: Mapping[str, str] | None = None,
+) -> Path:
     """The view with tagged objects outlined and labelled, as a PNG.
 
     Parameters
@@ -157,8 +168,15 @@ def outlined_view(srgb, object_id, labels: Mapping[int, str], path, *, min_width
     ax.set_ylim(h, 0)
     ax.set_axis_off()
     if title:
-        fig.text(0.5, 1.0 - 0.5 * title_in / (h * scale / dpi + title_in), title, ha="center", va="center",
-                 color="white", fontsize=12)
+        fig.text(
+            0.5,
+            1.0 - 0.5 * title_in / (h * scale / dpi + title_in),
+            title,
+            ha="center",
+            va="center",
+            color="white",
+            fontsize=12,
+        )
     xs = np.arange(w) + 0.5
     ys = np.arange(h) + 0.5
     lw = line_px * 72.0 / dpi
@@ -169,24 +187,46 @@ def outlined_view(srgb, object_id, labels: Mapping[int, str], path, *, min_width
             continue
         colour = OUTLINE_COLOURS[n % len(OUTLINE_COLOURS)]
         padded = np.pad(mask.astype(float), 1)
-        cs = ax.contour(np.concatenate([[xs[0] - 1], xs, [xs[-1] + 1]]),
-                        np.concatenate([[ys[0] - 1], ys, [ys[-1] + 1]]), padded, levels=[0.5],
-                        colors=[colour], linewidths=lw)
+        cs = ax.contour(
+            np.concatenate([[xs[0] - 1], xs, [xs[-1] + 1]]),
+            np.concatenate([[ys[0] - 1], ys, [ys[-1] + 1]]),
+            padded,
+            levels=[0.5],
+            colors=[colour],
+            linewidths=lw,
+        )
         cs.set_path_effects(stroke)
         rows, cols = np.nonzero(mask)
         top = rows.min()
         cx = 0.5 * (cols.min() + cols.max() + 1)
         above = top > 0.06 * h
-        ax.text(cx, top - 0.01 * h if above else rows.max() + 1 + 0.01 * h, str(text), ha="center",
-                va="bottom" if above else "top", fontsize=10, color="black", clip_on=True,
-                bbox=dict(boxstyle="round,pad=0.25", facecolor=colour, edgecolor="black", linewidth=0.8))
+        ax.text(
+            cx,
+            top - 0.01 * h if above else rows.max() + 1 + 0.01 * h,
+            str(text),
+            ha="center",
+            va="bottom" if above else "top",
+            fontsize=10,
+            color="black",
+            clip_on=True,
+            bbox=dict(boxstyle="round,pad=0.25", facecolor=colour, edgecolor="black", linewidth=0.8),
+        )
     return _save(fig, path, text=png_text)
 
 
 # ----------------------------------------------------------------------------- swatch sheet
 
-def swatch_sheet(object_names: Sequence[str], column_labels: Sequence[str], labs, path, *,
-                 terms=None, title: str | None = None, png_text: Mapping[str, str] | None = None) -> Path:
+
+def swatch_sheet(
+    object_names: Sequence[str],
+    column_labels: Sequence[str],
+    labs,
+    path,
+    *,
+    terms=None,
+    title: str | None = None,
+    png_text: Mapping[str, str] | None = None,
+) -> Path:
     """Swatch sheet: one row per object, one column per condition (daylight | before | after).
 
     Parameters
@@ -229,8 +269,16 @@ def swatch_sheet(object_names: Sequence[str], column_labels: Sequence[str], labs
     if title:
         ax.text(W / 2, 0.3, title, ha="center", va="center", fontsize=12, weight="bold")
     for j, lab in enumerate(column_labels):
-        ax.text(label_w + (j + 0.5) * cell_w, top_in - 0.12, "\n".join(textwrap.wrap(str(lab), 20)) or " ",
-                ha="center", va="bottom", fontsize=9, weight="bold", linespacing=1.1)
+        ax.text(
+            label_w + (j + 0.5) * cell_w,
+            top_in - 0.12,
+            "\n".join(textwrap.wrap(str(lab), 20)) or " ",
+            ha="center",
+            va="bottom",
+            fontsize=9,
+            weight="bold",
+            linespacing=1.1,
+        )
     for i, name in enumerate(object_names):
         y0 = top_in + i * cell_h
         ax.text(label_w - 0.12, y0 + 0.38, name, ha="right", va="center", fontsize=10)
@@ -239,29 +287,64 @@ def swatch_sheet(object_names: Sequence[str], column_labels: Sequence[str], labs
             sw, sh = cell_w - 0.16, 0.6
             c = rgb[i, j]
             if not np.all(np.isfinite(c)):
-                ax.add_patch(Rectangle((x0, y0 + 0.08), sw, sh, facecolor="#e6e6e6", edgecolor="#999999",
-                                       hatch="///", linewidth=0.8))
-                ax.text(x0 + sw / 2, y0 + 0.08 + sh / 2, "not visible", ha="center", va="center", fontsize=8,
-                        color="#555555")
+                ax.add_patch(
+                    Rectangle(
+                        (x0, y0 + 0.08), sw, sh, facecolor="#e6e6e6", edgecolor="#999999", hatch="///", linewidth=0.8
+                    )
+                )
+                ax.text(
+                    x0 + sw / 2,
+                    y0 + 0.08 + sh / 2,
+                    "not visible",
+                    ha="center",
+                    va="center",
+                    fontsize=8,
+                    color="#555555",
+                )
                 continue
             ax.add_patch(Rectangle((x0, y0 + 0.08), sw, sh, facecolor=c, edgecolor="#777777", linewidth=0.6))
             if terms is not None:
                 t = terms[i][j]
                 base = terms[i][0]
                 text = "" if t is None else (f"→ {t}" if j > 0 and t != base else t)
-                ax.text(x0 + sw / 2, y0 + 0.08 + sh / 2, text, ha="center", va="center", fontsize=9,
-                        color=_text_colour(c), weight="bold" if text.startswith("→") else "normal")
-            L, C, h = labs[i, j, 0], np.hypot(labs[i, j, 1], labs[i, j, 2]), \
-                np.degrees(np.arctan2(labs[i, j, 2], labs[i, j, 1])) % 360
-            ax.text(x0 + sw / 2, y0 + 0.08 + sh + 0.1, f"L* {L:.0f}  C* {C:.0f}  h {h:.0f}°", ha="center",
-                    va="center", fontsize=7, color="#333333")
+                ax.text(
+                    x0 + sw / 2,
+                    y0 + 0.08 + sh / 2,
+                    text,
+                    ha="center",
+                    va="center",
+                    fontsize=9,
+                    color=_text_colour(c),
+                    weight="bold" if text.startswith("→") else "normal",
+                )
+            L, C, h = (
+                labs[i, j, 0],
+                np.hypot(labs[i, j, 1], labs[i, j, 2]),
+                np.degrees(np.arctan2(labs[i, j, 2], labs[i, j, 1])) % 360,
+            )
+            ax.text(
+                x0 + sw / 2,
+                y0 + 0.08 + sh + 0.1,
+                f"L* {L:.0f}  C* {C:.0f}  h {h:.0f}°",
+                ha="center",
+                va="center",
+                fontsize=7,
+                color="#333333",
+            )
     return _save(fig, path, text=png_text)
 
 
 # ---------------------------------------------------------------------------- ΔE00 heat map
 
-def delta_e_heatmap(matrices: Mapping[str, np.ndarray], names: Sequence[str], path, *,
-                    title: str | None = None, png_text: Mapping[str, str] | None = None) -> Path:
+
+def delta_e_heatmap(
+    matrices: Mapping[str, np.ndarray],
+    names: Sequence[str],
+    path,
+    *,
+    title: str | None = None,
+    png_text: Mapping[str, str] | None = None,
+) -> Path:
     """Heat map(s) of pairwise ΔE00, one panel per condition, values written in the cells.
 
     Colour scale (ours): :data:`HEATMAP_CLASSES` -- imperceptible (< 1), hard (1-3),
@@ -295,23 +378,30 @@ def delta_e_heatmap(matrices: Mapping[str, np.ndarray], names: Sequence[str], pa
         left = name_in + p * (panel_w + 0.35)
         ax = fig.add_axes([left / width, (name_in + 0.75) / height, panel_w / width, n * cell / height])
         shown = np.where(np.eye(n, dtype=bool), np.nan, mat)
-        ax.imshow(np.ma.masked_invalid(shown), cmap=cmap, norm=norm, interpolation="nearest",
-                  extent=(0, n, n, 0))
+        ax.imshow(np.ma.masked_invalid(shown), cmap=cmap, norm=norm, interpolation="nearest", extent=(0, n, n, 0))
         for i in range(n):
             for j in range(n):
                 v = mat[i, j]
                 if i == j:
                     ax.add_patch(Rectangle((j, i), 1, 1, facecolor="#f4f4f4", edgecolor="none"))
                 elif not np.isfinite(v):
-                    ax.add_patch(Rectangle((j, i), 1, 1, facecolor="#eeeeee", hatch="///", edgecolor="#aaaaaa",
-                                           linewidth=0))
+                    ax.add_patch(
+                        Rectangle((j, i), 1, 1, facecolor="#eeeeee", hatch="///", edgecolor="#aaaaaa", linewidth=0)
+                    )
                     ax.text(j + 0.5, i + 0.5, "n/v", ha="center", va="center", fontsize=7, color="#666666")
                 else:
                     k = int(np.searchsorted(bounds[1:], v, side="right"))
                     bg = HEATMAP_CLASSES[min(k, len(HEATMAP_CLASSES) - 1)][1]
                     txt = _text_colour(np.array(to_rgb(bg)))
-                    ax.text(j + 0.5, i + 0.5, f"{v:.1f}" if v < 10 else f"{v:.0f}", ha="center", va="center",
-                            fontsize=8, color=txt)
+                    ax.text(
+                        j + 0.5,
+                        i + 0.5,
+                        f"{v:.1f}" if v < 10 else f"{v:.0f}",
+                        ha="center",
+                        va="center",
+                        fontsize=8,
+                        color=txt,
+                    )
         ax.set_xticks(np.arange(n) + 0.5)
         ax.set_yticks(np.arange(n) + 0.5)
         ax.set_xticklabels(names, rotation=60, ha="right", fontsize=8)
@@ -325,12 +415,21 @@ def delta_e_heatmap(matrices: Mapping[str, np.ndarray], names: Sequence[str], pa
             s.set_visible(False)
         ax.set_title(label, fontsize=10, pad=6)
     handles = [Patch(facecolor=c, edgecolor="#888888", label=t) for _, c, t in HEATMAP_CLASSES]
-    fig.legend(handles=handles, loc="lower center", ncol=min(5, len(handles)), fontsize=8, frameon=False,
-               title="CIEDE2000", title_fontsize=8, bbox_to_anchor=(0.5, 0.0))
+    fig.legend(
+        handles=handles,
+        loc="lower center",
+        ncol=min(5, len(handles)),
+        fontsize=8,
+        frameon=False,
+        title="CIEDE2000",
+        title_fontsize=8,
+        bbox_to_anchor=(0.5, 0.0),
+    )
     return _save(fig, path, text=png_text)
 
 
 # --------------------------------------------------------------------------- spectrum strips
+
 
 @lru_cache(maxsize=1)
 def _hue_ring(samples_per_edge: int = 256) -> tuple[np.ndarray, np.ndarray]:
@@ -408,8 +507,9 @@ def column_power(density, edges_nm) -> np.ndarray:
     return np.diff(at)
 
 
-def spectrum_strip(spd, width_px: int = 800, height_px: int = 48,
-                   wavelength_range_nm: tuple[float, float] = (380.0, 780.0)) -> SpectrumStrip:
+def spectrum_strip(
+    spd, width_px: int = 800, height_px: int = 48, wavelength_range_nm: tuple[float, float] = (380.0, 780.0)
+) -> SpectrumStrip:
     """The spectrum strip of a lamp (see module text).
 
     Parameters
@@ -437,8 +537,15 @@ def spectrum_strip(spd, width_px: int = 800, height_px: int = 48,
     return SpectrumStrip(image, centres, power, rgb)
 
 
-def spectrum_strip_figure(lamps: Sequence[tuple[str, np.ndarray]], path, *, title: str | None = None,
-                          wavelength_range_nm: tuple[float, float] = (380.0, 780.0), width_px: int = 800, png_text: Mapping[str, str] | None = None) -> Path:
+def spectrum_strip_figure(
+    lamps: Sequence[tuple[str, np.ndarray]],
+    path,
+    *,
+    title: str | None = None,
+    wavelength_range_nm: tuple[float, float] = (380.0, 780.0),
+    width_px: int = 800,
+    png_text: Mapping[str, str] | None = None,
+) -> Path:
     """One panel per lamp: its relative spectral power (curve filled with the spectral colours)
     above the spectrum strip a grating would show. ``lamps``: ``(label, spd)`` pairs."""
     from matplotlib.patches import Polygon
@@ -467,9 +574,15 @@ def spectrum_strip_figure(lamps: Sequence[tuple[str, np.ndarray]], path, *, titl
         rel = strip.column_power / strip.column_power.max()
         ax = fig.add_axes([left, (y_top - panel_h) / height, right - left, panel_h / height])
         ax.imshow(rainbow_img, extent=(lo, hi, 0, 1.05), aspect="auto", interpolation="bilinear")
-        poly = Polygon(np.column_stack([np.r_[strip.wavelengths_nm[0], strip.wavelengths_nm, strip.wavelengths_nm[-1]],
-                                        np.r_[0, rel, 0]]), closed=True, transform=ax.transData,
-                       facecolor="none", edgecolor="none")
+        poly = Polygon(
+            np.column_stack(
+                [np.r_[strip.wavelengths_nm[0], strip.wavelengths_nm, strip.wavelengths_nm[-1]], np.r_[0, rel, 0]]
+            ),
+            closed=True,
+            transform=ax.transData,
+            facecolor="none",
+            edgecolor="none",
+        )
         ax.add_patch(poly)
         ax.images[0].set_clip_path(poly)
         ax.plot(strip.wavelengths_nm, rel, color="#222222", linewidth=0.9)

@@ -55,8 +55,12 @@ def parse_setup(text: str, scene, label: str) -> Setup:
             get_lamp(text, base_dir=scene.base_dir, source=label)
         except Exception:
             names = list(scene.setups)
-            raise input_error(label, "", f"{text!r} is neither a setup of {scene.path.name} ({', '.join(names) or 'none'})"
-                              f"{did_you_mean(text, names)} nor a lamp id; `lampcast lamps` lists lamps") from None
+            raise input_error(
+                label,
+                "",
+                f"{text!r} is neither a setup of {scene.path.name} ({', '.join(names) or 'none'})"
+                f"{did_you_mean(text, names)} nor a lamp id; `lampcast lamps` lists lamps",
+            ) from None
         return Setup(text, f"every luminaire with lamp {text}", {"*": GroupSetting(lamp=text)})
     groups: dict[str, GroupSetting] = {}
     for part in filter(None, (p.strip() for p in text.split(";"))):
@@ -64,20 +68,31 @@ def parse_setup(text: str, scene, label: str) -> Setup:
         if ":" in part.split("=", 1)[0]:
             group, part = (x.strip() for x in part.split(":", 1))
             if group not in scene.groups:
-                raise input_error(label, group, f"no luminaire group {group!r}{did_you_mean(group, scene.groups)}; groups: {', '.join(scene.groups)}")
+                raise input_error(
+                    label,
+                    group,
+                    f"no luminaire group {group!r}{did_you_mean(group, scene.groups)}; groups: {', '.join(scene.groups)}",
+                )
         values: dict = {}
         for item in filter(None, (i.strip() for i in part.split(","))):
             if "=" not in item:
                 raise input_error(label, item, "expected key=value")
             key, value = (x.strip() for x in item.split("=", 1))
             if key not in SETUP_KEYS:
-                raise input_error(label, key, f"unknown setup key{did_you_mean(key, SETUP_KEYS)}; keys: {', '.join(SETUP_KEYS)}")
+                raise input_error(
+                    label, key, f"unknown setup key{did_you_mean(key, SETUP_KEYS)}; keys: {', '.join(SETUP_KEYS)}"
+                )
             if key in ("lumens", "dimming"):
                 try:
                     number = float(value)
                 except ValueError:
                     raise input_error(label, key, f"expected a number, got {value!r}") from None
-                if not math.isfinite(number) or number < 0 or (key == "dimming" and number > 1) or (key == "lumens" and number == 0):
+                if (
+                    not math.isfinite(number)
+                    or number < 0
+                    or (key == "dimming" and number > 1)
+                    or (key == "lumens" and number == 0)
+                ):
                     raise input_error(label, key, "lumens must be above 0; dimming within 0-1")
                 values[key] = number
             else:
@@ -101,7 +116,12 @@ def luminance_stats(rendered) -> dict:
     y = _surface_luminance(rendered)
     if y.size == 0:
         return {"mean": None, "min": None, "median": None, "p95": None}
-    return {"mean": float(y.mean()), "min": float(y.min()), "median": float(np.median(y)), "p95": float(np.percentile(y, 95))}
+    return {
+        "mean": float(y.mean()),
+        "min": float(y.min()),
+        "median": float(np.median(y)),
+        "p95": float(np.percentile(y, 95)),
+    }
 
 
 def setup_description(study, setup: Setup, lights) -> dict:
@@ -111,9 +131,15 @@ def setup_description(study, setup: Setup, lights) -> dict:
     groups: dict[str, dict] = {}
     for k, ch in enumerate(lights.channels):
         s = setting_for(setup, ch.group)
-        groups.setdefault(ch.group, {"lamp": lamps[k], "photometry": s.photometry or ch.photometry,
-                                     "lumens": s.lumens if s.lumens is not None else ch.lumens,
-                                     "dimming": s.dimming if s.dimming is not None else ch.dimming})
+        groups.setdefault(
+            ch.group,
+            {
+                "lamp": lamps[k],
+                "photometry": s.photometry or ch.photometry,
+                "lumens": s.lumens if s.lumens is not None else ch.lumens,
+                "dimming": s.dimming if s.dimming is not None else ch.dimming,
+            },
+        )
     return {"name": setup.name, "description": setup.description, "lamps": sorted(set(lamps)), "groups": groups}
 
 
@@ -139,7 +165,8 @@ def wipe_frames(before: np.ndarray, after: np.ndarray, n: int = 16, max_width_px
     while before.shape[1] > max_width_px:
         h2, w2 = before.shape[0] // 2 * 2, before.shape[1] // 2 * 2
         before, after = (
-            x[:h2, :w2].reshape(h2 // 2, 2, w2 // 2, 2, 3).mean(axis=(1, 3)).round().astype(np.uint8) for x in (before, after)
+            x[:h2, :w2].reshape(h2 // 2, 2, w2 // 2, 2, 3).mean(axis=(1, 3)).round().astype(np.uint8)
+            for x in (before, after)
         )
     w = before.shape[1]
     frames = []
@@ -148,7 +175,7 @@ def wipe_frames(before: np.ndarray, after: np.ndarray, n: int = 16, max_width_px
         f = before.copy()
         f[:, :x] = after[:, :x]
         if 0 < x < w:
-            f[:, max(x - 1, 0): x + 1] = 255
+            f[:, max(x - 1, 0) : x + 1] = 255
         frames.append(f)
     return frames
 
@@ -196,23 +223,31 @@ def summary_sentences(metrics: dict) -> list[str]:
     ra_b, ra_a = fig(before, "ra"), fig(after, "ra")
     if ra_b is not None and ra_a is not None:
         better = "better" if ra_a > ra_b + 5 else "worse" if ra_a < ra_b - 5 else "about the same"
-        out.append(f"Colour rendering: the after lamps render colours {better} than the before lamps "
-                   f"(CIE 13.3 Ra {ra_b:.0f} before, {ra_a:.0f} after; 100 matches the reference light, and very low or negative values mean many colours look alike).")
+        out.append(
+            f"Colour rendering: the after lamps render colours {better} than the before lamps "
+            f"(CIE 13.3 Ra {ra_b:.0f} before, {ra_a:.0f} after; 100 matches the reference light, and very low or negative values mean many colours look alike)."
+        )
     sp_b, sp_a = fig(before, "sp_ratio"), fig(after, "sp_ratio")
     if sp_b and sp_a:
-        out.append(f"Night-vision effectiveness: the after light has an S/P ratio of {sp_a:.2f} against {sp_b:.2f}; "
-                   "a higher ratio means the eye's rods respond more to it, so the street can look brighter at the same photopic level.")
+        out.append(
+            f"Night-vision effectiveness: the after light has an S/P ratio of {sp_a:.2f} against {sp_b:.2f}; "
+            "a higher ratio means the eye's rods respond more to it, so the street can look brighter at the same photopic level."
+        )
     bf_b, bf_a = fig(before, "blue_fraction"), fig(after, "blue_fraction")
     if bf_b is not None and bf_a is not None:
-        out.append(f"Blue content: {bf_a * 100:.0f} % of the after light is below 500 nm ({bf_b * 100:.0f} % before); "
-                   "blue light scatters more in the sky and matters to wildlife and sleep.")
+        out.append(
+            f"Blue content: {bf_a * 100:.0f} % of the after light is below 500 nm ({bf_b * 100:.0f} % before); "
+            "blue light scatters more in the sky and matters to wildlife and sleep."
+        )
     for v in metrics["views"]:
         lb, la = v["luminance_cd_m2"]["before"]["mean"], v["luminance_cd_m2"]["after"]["mean"]
         if lb and la:
             ratio = la / lb
             change = "brighter" if ratio > 1.1 else "darker" if ratio < 0.9 else "about as bright"
-            out.append(f"View '{v['name']}': surfaces are {change} after the change (mean luminance {lb:.3g} → {la:.3g} cd/m², "
-                       f"×{ratio:.2f}).")
+            out.append(
+                f"View '{v['name']}': surfaces are {change} after the change (mean luminance {lb:.3g} → {la:.3g} cd/m², "
+                f"×{ratio:.2f})."
+            )
     return out
 
 
@@ -250,14 +285,21 @@ def _colour_section(study, setups, observer, colour_view, out: Path, metrics: di
     cdir = out / "colours"
     text = image_metadata(study, rb, "colour analysis", observer, study.scene.render.seed, rb.buffers.spp)
     text["lampcast.setup"] = f"before={setups['before'].name}; after={setups['after'].name}"
-    pics = colour_pictures(result, [rb, ra], shared, study.setup_lamps([rb, ra], [setups['before'], setups['after']]), cdir, text=text)
+    pics = colour_pictures(
+        result, [rb, ra], shared, study.setup_lamps([rb, ra], [setups["before"], setups["after"]]), cdir, text=text
+    )
     write_colour_json(result, cdir / "colours.json")
     section = colour_report_section(result, pics, out)
-    section["paragraphs"].insert(0, f"Analysed in view '{name}' (the view showing most tagged objects), both setups in shared exposure.")
+    section["paragraphs"].insert(
+        0, f"Analysed in view '{name}' (the view showing most tagged objects), both setups in shared exposure."
+    )
     metrics["extra_sections"].append(section)
-    metrics["colours"] = {"view": name, "file": "colours/colours.json",
-                          "confusions": {s: result["setups"][s]["confusions"] for s in result["setups"]},
-                          "name_changes": {s: result["setups"][s]["name_changes"] for s in result["setups"]}}
+    metrics["colours"] = {
+        "view": name,
+        "file": "colours/colours.json",
+        "confusions": {s: result["setups"][s]["confusions"] for s in result["setups"]},
+        "name_changes": {s: result["setups"][s]["name_changes"] for s in result["setups"]},
+    }
 
 
 @dataclass
@@ -267,10 +309,21 @@ class ComparisonResult:
     report: Path | None
 
 
-def run_comparison(scene, before: str, after: str, views: list[str] | None = None, out_dir: str | Path = "outputs/compare",
-                   *, width_px: int | None = None, samples_per_pixel: int | None = None, observer=None,
-                   report: bool = True, progress: bool = True, extra_sections: list | None = None,
-                   colour: bool = True) -> ComparisonResult:
+def run_comparison(
+    scene,
+    before: str,
+    after: str,
+    views: list[str] | None = None,
+    out_dir: str | Path = "outputs/compare",
+    *,
+    width_px: int | None = None,
+    samples_per_pixel: int | None = None,
+    observer=None,
+    report: bool = True,
+    progress: bool = True,
+    extra_sections: list | None = None,
+    colour: bool = True,
+) -> ComparisonResult:
     """Render every view before and after and write images, ``metrics.json`` and ``report.html``
     (with the colour analysis of the tagged objects in the view showing most of them, unless
     ``colour=False``). ``scene`` is a scene file or a :class:`~render.study.Study`."""
@@ -291,11 +344,21 @@ def run_comparison(scene, before: str, after: str, views: list[str] | None = Non
     seed = scene.render.seed
     metrics: dict = {
         "tool": {"name": "lampcast", "version": __version__},
-        "scene": {"name": scene.name, "description": scene.description, "notes": "", "file": scene.path.name,
-                  "sha256": study.scene_sha256},
-        "observer": {"age_years": observer.age_years, "pigmentation": observer.pigmentation,
-                     "display_peak_cd_m2": observer.display_peak_cd_m2, "adaptation_cd_m2": observer.adaptation_cd_m2,
-                     "glare": observer.glare, "acuity": observer.acuity},
+        "scene": {
+            "name": scene.name,
+            "description": scene.description,
+            "notes": "",
+            "file": scene.path.name,
+            "sha256": study.scene_sha256,
+        },
+        "observer": {
+            "age_years": observer.age_years,
+            "pigmentation": observer.pigmentation,
+            "display_peak_cd_m2": observer.display_peak_cd_m2,
+            "adaptation_cd_m2": observer.adaptation_cd_m2,
+            "glare": observer.glare,
+            "acuity": observer.acuity,
+        },
         "settings": {"samples_per_pixel": spp, "seed": seed, "width_px": None, "height_px": None},
         "setups": {},
         "lamps": {},
@@ -325,16 +388,27 @@ def run_comparison(scene, before: str, after: str, views: list[str] | None = Non
 
         from render.vision.display import write_png
 
-        for key, r, sh, ad, fc in (("before", rb, shared[0], adapted[0], false[0]), ("after", ra, shared[1], adapted[1], false[1])):
+        for key, r, sh, ad, fc in (
+            ("before", rb, shared[0], adapted[0], false[0]),
+            ("after", ra, shared[1], adapted[1], false[1]),
+        ):
             sh.write_png(vdir / f"{key}.png", 8, meta(r, "shared"))
             ad.write_png(vdir / f"{key}-adapted.png", 8, meta(r, "adapted"))
             write_png(vdir / f"{key}-falsecolour.png", fc, meta(r, "photometric"))
             images[f"{key}_shared"] = f"{vdir.name}/{key}.png"
             images[f"{key}_adapted"] = f"{vdir.name}/{key}-adapted.png"
             images[f"falsecolour_{key}"] = f"{vdir.name}/{key}-falsecolour.png"
-        write_png(vdir / "falsecolour-legend.png", legend, {**meta(rb, "photometric legend"),
-                                                             "lampcast.setup": f"before={setups['before'].name}; after={setups['after'].name}"})
-        sbs = side_by_side(shared[0].srgb8, shared[1].srgb8, f"before: {setups['before'].name}", f"after: {setups['after'].name}")
+        write_png(
+            vdir / "falsecolour-legend.png",
+            legend,
+            {
+                **meta(rb, "photometric legend"),
+                "lampcast.setup": f"before={setups['before'].name}; after={setups['after'].name}",
+            },
+        )
+        sbs = side_by_side(
+            shared[0].srgb8, shared[1].srgb8, f"before: {setups['before'].name}", f"after: {setups['after'].name}"
+        )
         write_png(vdir / "side-by-side.png", sbs, meta(rb, "shared side by side"))
         images["side_by_side"] = f"{vdir.name}/side-by-side.png"
         write_gif(vdir / "wipe.gif", wipe_frames(shared[0].srgb8, shared[1].srgb8))
@@ -346,17 +420,25 @@ def run_comparison(scene, before: str, after: str, views: list[str] | None = Non
             if colour_view is None or seen > colour_view[0]:
                 colour_view = (seen, name, rb, ra, shared)
         states = [shared[0].state, adapted[0].state, adapted[1].state]
-        metrics["views"].append({
-            "name": name,
-            "notes": scene.view(name).notes,
-            "images": images,
-            "luminance_cd_m2": {"before": luminance_stats(rb), "after": luminance_stats(ra)},
-            # Photopic adaptation luminance of the observer (CIE TN 007 field, see render.vision.adaptation).
-            "adaptation_cd_m2": {"shared": states[0].photopic_cd_m2, "before": states[1].photopic_cd_m2,
-                                 "after": states[2].photopic_cd_m2},
-            "mesopic_adaptation_cd_m2": {"shared": states[0].mesopic_cd_m2, "before": states[1].mesopic_cd_m2,
-                                         "after": states[2].mesopic_cd_m2},
-        })
+        metrics["views"].append(
+            {
+                "name": name,
+                "notes": scene.view(name).notes,
+                "images": images,
+                "luminance_cd_m2": {"before": luminance_stats(rb), "after": luminance_stats(ra)},
+                # Photopic adaptation luminance of the observer (CIE TN 007 field, see render.vision.adaptation).
+                "adaptation_cd_m2": {
+                    "shared": states[0].photopic_cd_m2,
+                    "before": states[1].photopic_cd_m2,
+                    "after": states[2].photopic_cd_m2,
+                },
+                "mesopic_adaptation_cd_m2": {
+                    "shared": states[0].mesopic_cd_m2,
+                    "before": states[1].mesopic_cd_m2,
+                    "after": states[2].mesopic_cd_m2,
+                },
+            }
+        )
     if colour_view is not None:
         _colour_section(study, setups, observer, colour_view, out, metrics)
     for key in ("before", "after"):

@@ -56,5 +56,5 @@ def read_exr(path: str | Path) -> tuple[ViewColorimetry, dict[str, str]]:
         ch = f.channels()
         xyz = np.stack([ch[c].pixels for c in CHANNELS[:3]], axis=-1).astype(np.float64)
         ys = ch[CHANNELS[3]].pixels.astype(np.float64)
-        meta = {k[len("lampcast_"):]: str(v) for k, v in f.header().items() if k.startswith("lampcast_")}
+        meta = {k[len("lampcast_") :]: str(v) for k, v in f.header().items() if k.startswith("lampcast_")}
     return ViewColorimetry(xyz, ys), meta

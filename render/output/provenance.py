@@ -23,8 +23,8 @@ def image_metadata(study, rendered, mode: str, observer, seed: int, spp: int) ->
         "lampcast.view": rendered.name,
         "lampcast.mode": mode,
         "lampcast.observer": f"age {observer.age_years:g} y, pigmentation {observer.pigmentation:g}, "
-                             f"display peak {observer.display_peak_cd_m2:g} cd/m², glare {'on' if observer.glare else 'off'}, "
-                             f"acuity {'on' if observer.acuity else 'off'}",
+        f"display peak {observer.display_peak_cd_m2:g} cd/m², glare {'on' if observer.glare else 'off'}, "
+        f"acuity {'on' if observer.acuity else 'off'}",
         "lampcast.seed": str(seed),
         "lampcast.samples_per_pixel": str(spp),
     }

@@ -39,8 +39,9 @@ import hashlib
 import html
 import math
 import re
+from collections.abc import Iterable, Mapping, Sequence
 from pathlib import Path
-from typing import Any, Iterable, Mapping, Sequence
+from typing import Any
 
 from render.fileio import atomic_write_text
 
@@ -104,17 +105,28 @@ LAMP_COLUMNS: tuple[tuple[str, str, str, str], ...] = (
 #: Plain-language meaning of the lamp figures, shown under the lamp tables.
 LAMP_FIGURE_HELP: tuple[tuple[str, str], ...] = (
     ("CCT", "how warm (low kelvin, yellowish) or cool (high kelvin, bluish) the white of the light looks."),
-    ("Duv", "how far the light's colour lies from the line of ideal warm-to-cool whites; near 0 is neutral, "
-            "positive is greenish, negative pinkish."),
-    ("Ra, R9, Rf", "how faithfully colours look compared with a reference light of the same CCT; 100 is "
-                   "best. R9 is for strong reds, which some lamps render poorly."),
+    (
+        "Duv",
+        "how far the light's colour lies from the line of ideal warm-to-cool whites; near 0 is neutral, "
+        "positive is greenish, negative pinkish.",
+    ),
+    (
+        "Ra, R9, Rf",
+        "how faithfully colours look compared with a reference light of the same CCT; 100 is "
+        "best. R9 is for strong reds, which some lamps render poorly.",
+    ),
     ("TM-30 Rg", "whether colours look more (above 100) or less (below 100) saturated than under the reference."),
     ("S/P", "the lamp's effect on night-time (rod) vision relative to its effect on daytime vision."),
-    ("Efficacy (of radiation)", "lumens per watt of emitted light; this is not the electrical efficiency of a luminaire."),
-    ("Blue", "share of the emitted power below 500 nm, the band that matters most for sky glow and "
-                      "for wildlife."),
-    ("Notch (filterable fraction)", "share of the power in the lamp's strongest 4 nm band, which a narrow "
-                                  "filter (for example at an observatory) could remove."),
+    (
+        "Efficacy (of radiation)",
+        "lumens per watt of emitted light; this is not the electrical efficiency of a luminaire.",
+    ),
+    ("Blue", "share of the emitted power below 500 nm, the band that matters most for sky glow and for wildlife."),
+    (
+        "Notch (filterable fraction)",
+        "share of the power in the lamp's strongest 4 nm band, which a narrow "
+        "filter (for example at an observatory) could remove.",
+    ),
 )
 
 #: Luminance statistics of a view: (key, heading).
@@ -126,6 +138,7 @@ _ID_SAFE = re.compile(r"^[A-Za-z][A-Za-z0-9_-]*$")
 
 
 # --- numbers ---------------------------------------------------------------------------------
+
 
 def format_value(value: Any, rule: str) -> str:
     """The text shown for ``value`` under display rule ``rule`` (see :data:`RULES`).
@@ -177,6 +190,7 @@ def _significant(value: float, digits: int) -> str:
 
 
 # --- HTML building ---------------------------------------------------------------------------
+
 
 class Markup(str):
     """A string that is already HTML; anything else is escaped when it is put into a page."""
@@ -234,8 +248,15 @@ def join(*parts: Any) -> Markup:
     return Markup(_content(parts))
 
 
-def number_cell(path: str, value: Any, rule: str, tag: str = "td", reason: str | None = None,
-                note: Markup | None = None, show_reason: bool = False) -> Markup:
+def number_cell(
+    path: str,
+    value: Any,
+    rule: str,
+    tag: str = "td",
+    reason: str | None = None,
+    note: Markup | None = None,
+    show_reason: bool = False,
+) -> Markup:
     """A table cell showing ``value`` under ``rule``, with ``data-metric``/``-value``/``-rule``.
 
     An undefined value shows :data:`DASH`, with ``reason`` as its tooltip (``title``) and as
@@ -256,8 +277,14 @@ def number_cell(path: str, value: Any, rule: str, tag: str = "td", reason: str |
     return element(tag, attrs, text, hidden, note)
 
 
-def table(table_id: str, title: str, rows: Sequence[Markup], head: Markup | None = None,
-          cls: str = "figures", scrolls: bool = False) -> Markup:
+def table(
+    table_id: str,
+    title: str,
+    rows: Sequence[Markup],
+    head: Markup | None = None,
+    cls: str = "figures",
+    scrolls: bool = False,
+) -> Markup:
     """A titled table. The title is a paragraph named by ``aria-labelledby`` (so it wraps at the
     page width, not the table's); a table that may be wider than the page (``scrolls``) sits in
     a focusable region, so that it can be scrolled with the keyboard."""
@@ -266,14 +293,20 @@ def table(table_id: str, title: str, rows: Sequence[Markup], head: Markup | None
     if scrolls:
         wrap.update({"role": "region", "tabindex": "0", "aria-labelledby": title_id})
     return element(
-        "div", wrap,
+        "div",
+        wrap,
         element("p", {"class": "table-title", "id": title_id}, title),
-        element("table", {"class": cls, "id": table_id, "aria-labelledby": title_id},
-                element("thead", {}, head) if head is not None else None, element("tbody", {}, rows)),
+        element(
+            "table",
+            {"class": cls, "id": table_id, "aria-labelledby": title_id},
+            element("thead", {}, head) if head is not None else None,
+            element("tbody", {}, rows),
+        ),
     )
 
 
 # --- images ----------------------------------------------------------------------------------
+
 
 def _image_info(data: bytes) -> tuple[str, int | None, int | None]:
     """(MIME type, width px, height px) from the file's signature and header."""
@@ -323,6 +356,7 @@ class _Images:
 
 # --- page parts ------------------------------------------------------------------------------
 
+
 def _slug(text: str) -> str:
     """An id-safe form of ``text`` (letters, digits, ``_`` and ``-``)."""
     slug = re.sub(r"[^A-Za-z0-9_-]+", "-", str(text)).strip("-")
@@ -343,18 +377,25 @@ def _header(metrics: Mapping, nav: Sequence[tuple[str, str]]) -> Markup:
     scene = metrics.get("scene", {})
     cautions = [STANDING_CAUTION] + [c for c in metrics.get("cautions", []) if c != STANDING_CAUTION]
     return element(
-        "header", {"class": "page-head"},
+        "header",
+        {"class": "page-head"},
         element("p", {"class": "kicker"}, "Street lighting change \u2014 consultation preview"),
         element("h1", {}, scene.get("name", "")),
         element("p", {"class": "lede"}, scene.get("description", "")) if scene.get("description") else None,
         element("p", {"class": "scene-notes"}, scene.get("notes", "")) if scene.get("notes") else None,
         element(
-            "section", {"class": "cautions", "aria-labelledby": "cautions-title"},
+            "section",
+            {"class": "cautions", "aria-labelledby": "cautions-title"},
             element("h2", {"id": "cautions-title"}, "Please read first"),
             element("ul", {}, [element("li", {}, c) for c in cautions]),
         ),
-        element("nav", {"aria-label": "Contents"},
-                element("ul", {}, [element("li", {}, element("a", {"href": f"#{anchor}"}, label)) for anchor, label in nav])),
+        element(
+            "nav",
+            {"aria-label": "Contents"},
+            element(
+                "ul", {}, [element("li", {}, element("a", {"href": f"#{anchor}"}, label)) for anchor, label in nav]
+            ),
+        ),
     )
 
 
@@ -363,13 +404,17 @@ def _summary(metrics: Mapping) -> Markup:
     items = []
     for key in _ordered_setups(setups):
         setup = setups[key]
-        items.append(element(
-            "li", {},
-            element("strong", {}, f"{key.capitalize()}: {setup.get('name', key)}"),
-            f" \u2014 {setup.get('description')}" if setup.get("description") else None,
-        ))
+        items.append(
+            element(
+                "li",
+                {},
+                element("strong", {}, f"{key.capitalize()}: {setup.get('name', key)}"),
+                f" \u2014 {setup.get('description')}" if setup.get("description") else None,
+            )
+        )
     return element(
-        "section", {"id": "summary", "aria-labelledby": "summary-title"},
+        "section",
+        {"id": "summary", "aria-labelledby": "summary-title"},
         element("h2", {"id": "summary-title"}, "In short"),
         element("ul", {"class": "summary"}, [element("li", {}, s) for s in metrics.get("summary", [])]),
         element("h3", {}, "The two lightings compared"),
@@ -385,14 +430,17 @@ def _compare_figure(i: int, view: Mapping, metrics: Mapping, images: _Images) ->
 
     def layer(which: str, setup_name: str) -> list[Markup]:
         return [
-            images.img(imgs[f"{which}_{exposure}"],
-                       f"{which.capitalize()} ({setup_name}), view \u201c{name}\u201d, {exposure} exposure",
-                       cls=f"{which} {exposure}")
+            images.img(
+                imgs[f"{which}_{exposure}"],
+                f"{which.capitalize()} ({setup_name}), view \u201c{name}\u201d, {exposure} exposure",
+                cls=f"{which} {exposure}",
+            )
             for exposure in ("shared", "adapted")
         ]
 
     stage = element(
-        "div", {"class": "stage", "id": f"stage-{i}"},
+        "div",
+        {"class": "stage", "id": f"stage-{i}"},
         layer("before", before),
         element("div", {"class": "after-layer"}, layer("after", after)),
         element("span", {"class": "divider", "aria-hidden": "true"}),
@@ -401,55 +449,104 @@ def _compare_figure(i: int, view: Mapping, metrics: Mapping, images: _Images) ->
     )
     # The range sits in the same shrink-to-fit box as the image (its label outside it), so the
     # slider is as wide as the picture and its value is the divide's position.
-    slider = element("input", {"type": "range", "id": slider_id, "class": "divide", "min": "0", "max": "100",
-                               "step": "1", "value": "50", "aria-valuetext": "divide at 50% of the width"})
-    slider_label = element("label", {"for": slider_id, "class": "slider-label"},
-                           "Move the divide with the slider or the arrow keys: left of the line is before, "
-                           "right of it is after.")
+    slider = element(
+        "input",
+        {
+            "type": "range",
+            "id": slider_id,
+            "class": "divide",
+            "min": "0",
+            "max": "100",
+            "step": "1",
+            "value": "50",
+            "aria-valuetext": "divide at 50% of the width",
+        },
+    )
+    slider_label = element(
+        "label",
+        {"for": slider_id, "class": "slider-label"},
+        "Move the divide with the slider or the arrow keys: left of the line is before, right of it is after.",
+    )
     radios = []
     for exposure, label in (("shared", "Shared exposure"), ("adapted", "Adapted exposure")):
         rid = f"exposure-{i}-{exposure}"
-        radios.append(element("span", {"class": "choice"},
-                              element("input", {"type": "radio", "name": f"exposure-{i}", "id": rid, "value": exposure,
-                                                "checked": exposure == "shared", "aria-describedby": help_id}),
-                              element("label", {"for": rid}, label)))
+        radios.append(
+            element(
+                "span",
+                {"class": "choice"},
+                element(
+                    "input",
+                    {
+                        "type": "radio",
+                        "name": f"exposure-{i}",
+                        "id": rid,
+                        "value": exposure,
+                        "checked": exposure == "shared",
+                        "aria-describedby": help_id,
+                    },
+                ),
+                element("label", {"for": rid}, label),
+            )
+        )
     toggle = element(
-        "fieldset", {"class": "exposure"},
+        "fieldset",
+        {"class": "exposure"},
         element("legend", {}, "Exposure"),
         radios,
-        element("div", {"id": help_id, "class": "help"},
-                [element("p", {}, EXPOSURE_HELP[e]) for e in ("shared", "adapted")]),
+        element(
+            "div", {"id": help_id, "class": "help"}, [element("p", {}, EXPOSURE_HELP[e]) for e in ("shared", "adapted")]
+        ),
     )
     return element(
-        "figure", {"class": "compare", "data-exposure": "shared", "id": f"compare-{i}"},
+        "figure",
+        {"class": "compare", "data-exposure": "shared", "id": f"compare-{i}"},
         element("div", {"class": "stage-wrap"}, stage, slider),
         slider_label,
         toggle,
-        element("figcaption", {}, f"View \u201c{name}\u201d: before ({before}) and after ({after}). "
-                                  "Without scripts the divide stays in the middle."),
+        element(
+            "figcaption",
+            {},
+            f"View \u201c{name}\u201d: before ({before}) and after ({after}). "
+            "Without scripts the divide stays in the middle.",
+        ),
     )
 
 
 def _luminance_table(i: int, view: Mapping, metrics: Mapping) -> Markup:
     lum = view.get("luminance_cd_m2", {})
-    head = element("tr", {}, element("th", {"scope": "col"}, "lighting"),
-                   [element("th", {"scope": "col", "class": "num"}, label) for _, label in LUMINANCE_STATS])
+    head = element(
+        "tr",
+        {},
+        element("th", {"scope": "col"}, "lighting"),
+        [element("th", {"scope": "col", "class": "num"}, label) for _, label in LUMINANCE_STATS],
+    )
     rows = []
     for key in ("before", "after"):
         stats = lum.get(key, {})
-        rows.append(element(
-            "tr", {},
-            element("th", {"scope": "row"}, f"{key}: {_setup_name(metrics, key)}"),
-            [number_cell(f"views.{i}.luminance_cd_m2.{key}.{stat}", stats.get(stat), "sig3",
-                         reason="not given") for stat, _ in LUMINANCE_STATS],
-        ))
+        rows.append(
+            element(
+                "tr",
+                {},
+                element("th", {"scope": "row"}, f"{key}: {_setup_name(metrics, key)}"),
+                [
+                    number_cell(f"views.{i}.luminance_cd_m2.{key}.{stat}", stats.get(stat), "sig3", reason="not given")
+                    for stat, _ in LUMINANCE_STATS
+                ],
+            )
+        )
     adapt = view.get("adaptation_cd_m2", {})
     adapt_rows = [
-        element("tr", {}, element("th", {"scope": "row"}, label),
-                number_cell(f"views.{i}.adaptation_cd_m2.{key}", adapt.get(key), "sig3", reason="not given"))
-        for key, label in (("before", f"adapted, before: {_setup_name(metrics, 'before')}"),
-                           ("after", f"adapted, after: {_setup_name(metrics, 'after')}"),
-                           ("shared", "shared exposure"))
+        element(
+            "tr",
+            {},
+            element("th", {"scope": "row"}, label),
+            number_cell(f"views.{i}.adaptation_cd_m2.{key}", adapt.get(key), "sig3", reason="not given"),
+        )
+        for key, label in (
+            ("before", f"adapted, before: {_setup_name(metrics, 'before')}"),
+            ("after", f"adapted, after: {_setup_name(metrics, 'after')}"),
+            ("shared", "shared exposure"),
+        )
     ]
     return join(
         table(f"luminance-{i}", "Luminance of the rendered view (cd/m\u00b2)", rows, head),
@@ -463,32 +560,68 @@ def _view_section(i: int, view: Mapping, metrics: Mapping, images: _Images) -> M
     before, after = _setup_name(metrics, "before"), _setup_name(metrics, "after")
     title_id = f"view-{i}-title"
     falsecolour = element(
-        "div", {"class": "fc-row"},
-        element("figure", {}, images.img(imgs["falsecolour_before"], f"False-colour luminance map, before ({before}), view \u201c{name}\u201d"),
-                element("figcaption", {}, f"before: {before}")),
-        element("figure", {}, images.img(imgs["falsecolour_after"], f"False-colour luminance map, after ({after}), view \u201c{name}\u201d"),
-                element("figcaption", {}, f"after: {after}")),
-        element("figure", {"class": "legend"},
-                images.img(imgs["falsecolour_legend"], "Legend of both false-colour maps: luminance in cd/m\u00b2 on a logarithmic scale"),
-                element("figcaption", {}, "legend (shared)")),
+        "div",
+        {"class": "fc-row"},
+        element(
+            "figure",
+            {},
+            images.img(
+                imgs["falsecolour_before"], f"False-colour luminance map, before ({before}), view \u201c{name}\u201d"
+            ),
+            element("figcaption", {}, f"before: {before}"),
+        ),
+        element(
+            "figure",
+            {},
+            images.img(
+                imgs["falsecolour_after"], f"False-colour luminance map, after ({after}), view \u201c{name}\u201d"
+            ),
+            element("figcaption", {}, f"after: {after}"),
+        ),
+        element(
+            "figure",
+            {"class": "legend"},
+            images.img(
+                imgs["falsecolour_legend"],
+                "Legend of both false-colour maps: luminance in cd/m\u00b2 on a logarithmic scale",
+            ),
+            element("figcaption", {}, "legend (shared)"),
+        ),
     )
     return element(
-        "section", {"class": "view", "id": f"view-{i}", "aria-labelledby": title_id},
+        "section",
+        {"class": "view", "id": f"view-{i}", "aria-labelledby": title_id},
         element("h2", {"id": title_id}, f"View: {name}"),
         element("p", {"class": "view-notes"}, view.get("notes")) if view.get("notes") else None,
         _compare_figure(i, view, metrics, images),
         element("h3", {}, "How bright the surfaces are"),
-        element("p", {}, "False colour shows luminance (how bright each surface is, in cd/m\u00b2) with one scale for "
-                         "both lightings: the same colour means the same luminance."),
+        element(
+            "p",
+            {},
+            "False colour shows luminance (how bright each surface is, in cd/m\u00b2) with one scale for "
+            "both lightings: the same colour means the same luminance.",
+        ),
         falsecolour,
         _luminance_table(i, view, metrics),
         element("h3", {}, "Side by side"),
-        element("figure", {"class": "wide"},
-                images.img(imgs["side_by_side"], f"Before ({before}) and after ({after}) side by side, view \u201c{name}\u201d")),
+        element(
+            "figure",
+            {"class": "wide"},
+            images.img(
+                imgs["side_by_side"], f"Before ({before}) and after ({after}) side by side, view \u201c{name}\u201d"
+            ),
+        ),
         element("h3", {}, "Wipe animation"),
-        element("figure", {"class": "wide"},
-                images.img(imgs["wipe"], f"Animation wiping between before ({before}) and after ({after}), view \u201c{name}\u201d"),
-                element("figcaption", {}, "The animation repeats; the slider above shows the same comparison at your own pace.")),
+        element(
+            "figure",
+            {"class": "wide"},
+            images.img(
+                imgs["wipe"], f"Animation wiping between before ({before}) and after ({after}), view \u201c{name}\u201d"
+            ),
+            element(
+                "figcaption", {}, "The animation repeats; the slider above shows the same comparison at your own pace."
+            ),
+        ),
     )
 
 
@@ -507,14 +640,21 @@ class _Footnotes:
     def render(self) -> Markup:
         if not self.items:
             return Markup("")
-        return element("ol", {"class": "notes", "aria-label": "Notes on the lamp figures"},
-                       [element("li", {"id": f"note-{n}"}, text) for n, text in enumerate(self.items, 1)])
+        return element(
+            "ol",
+            {"class": "notes", "aria-label": "Notes on the lamp figures"},
+            [element("li", {"id": f"note-{n}"}, text) for n, text in enumerate(self.items, 1)],
+        )
 
 
 def _lamp_row(lamp_id: str, fig: Mapping | None, notes: _Footnotes) -> Markup:
     if fig is None:
-        return element("tr", {}, element("th", {"scope": "row"}, lamp_id),
-                       element("td", {"colspan": str(len(LAMP_COLUMNS))}, "no figures given for this lamp"))
+        return element(
+            "tr",
+            {},
+            element("th", {"scope": "row"}, lamp_id),
+            element("td", {"colspan": str(len(LAMP_COLUMNS))}, "no figures given for this lamp"),
+        )
     undefined = fig.get("undefined", {}) or {}
     warnings = list(fig.get("warnings", []) or [])
     cie133 = [w for w in warnings if w.startswith("CIE 13.3")]
@@ -532,8 +672,13 @@ def _lamp_row(lamp_id: str, fig: Mapping | None, notes: _Footnotes) -> Markup:
     for w in warnings:
         if w not in cie133:
             notes.mark(f"{lamp_id}: {w}")
-    head = element("th", {"scope": "row"}, element("span", {"class": "lamp-name"}, fig.get("name") or lamp_id),
-                   element("br"), element("span", {"class": "lamp-id"}, lamp_id))
+    head = element(
+        "th",
+        {"scope": "row"},
+        element("span", {"class": "lamp-name"}, fig.get("name") or lamp_id),
+        element("br"),
+        element("span", {"class": "lamp-id"}, lamp_id),
+    )
     return element("tr", {}, head, cells)
 
 
@@ -543,19 +688,31 @@ def _groups_table(key: str, setup: Mapping) -> Markup:
     for group in sorted(groups):
         g = groups[group]
         base = f"setups.{key}.groups.{group}"
-        rows.append(element(
-            "tr", {},
-            element("th", {"scope": "row"}, "all luminaires" if group == "*" else group),
-            element("td", {}, g.get("lamp", "")),
-            number_cell(f"{base}.lumens", g.get("lumens"), "fixed0",
-                        reason="not set: the photometric file's rated flux is used"),
-            number_cell(f"{base}.dimming", g.get("dimming"), "percent0", reason="not set"),
-        ))
+        rows.append(
+            element(
+                "tr",
+                {},
+                element("th", {"scope": "row"}, "all luminaires" if group == "*" else group),
+                element("td", {}, g.get("lamp", "")),
+                number_cell(
+                    f"{base}.lumens",
+                    g.get("lumens"),
+                    "fixed0",
+                    reason="not set: the photometric file's rated flux is used",
+                ),
+                number_cell(f"{base}.dimming", g.get("dimming"), "percent0", reason="not set"),
+            )
+        )
     if not rows:
         return Markup("")
-    head = element("tr", {}, element("th", {"scope": "col"}, "luminaire group"), element("th", {"scope": "col"}, "lamp"),
-                   element("th", {"scope": "col", "class": "num"}, "luminous flux (lm)"),
-                   element("th", {"scope": "col", "class": "num"}, "output (% of full)"))
+    head = element(
+        "tr",
+        {},
+        element("th", {"scope": "col"}, "luminaire group"),
+        element("th", {"scope": "col"}, "lamp"),
+        element("th", {"scope": "col", "class": "num"}, "luminous flux (lm)"),
+        element("th", {"scope": "col", "class": "num"}, "output (% of full)"),
+    )
     return table(f"groups-{_slug(key)}", f"Luminaire groups, {key}: {setup.get('name', key)}", rows, head)
 
 
@@ -564,29 +721,56 @@ def _lamps_section(metrics: Mapping) -> Markup:
     lamps = metrics.get("lamps", {})
     notes = _Footnotes()
     blocks = []
-    head = element("tr", {}, element("th", {"scope": "col"}, "lamp"),
-                   [element("th", {"scope": "col", "class": "num"}, heading, element("br"),
-                            element("span", {"class": "unit"}, unit) if unit else None)
-                    for _, heading, unit, _ in LAMP_COLUMNS])
+    head = element(
+        "tr",
+        {},
+        element("th", {"scope": "col"}, "lamp"),
+        [
+            element(
+                "th",
+                {"scope": "col", "class": "num"},
+                heading,
+                element("br"),
+                element("span", {"class": "unit"}, unit) if unit else None,
+            )
+            for _, heading, unit, _ in LAMP_COLUMNS
+        ],
+    )
     for key in _ordered_setups(setups):
         setup = setups[key]
         lamp_ids = list(dict.fromkeys(setup.get("lamps", []) or []))
         rows = [_lamp_row(lamp_id, lamps.get(lamp_id), notes) for lamp_id in lamp_ids]
         title = f"{key.capitalize()}: {setup.get('name', key)}"
-        blocks.append(join(
-            element("h3", {}, title),
-            element("p", {}, setup.get("description")) if setup.get("description") else None,
-            _groups_table(key, setup),
-            table(f"lamps-{_slug(key)}", f"Lamp figures, {key}: {setup.get('name', key)}", rows, head,
-                  cls="figures lamps", scrolls=True),
-        ))
-    glossary = element("dl", {"class": "glossary"},
-                       [join(element("dt", {}, term), element("dd", {}, text)) for term, text in LAMP_FIGURE_HELP])
+        blocks.append(
+            join(
+                element("h3", {}, title),
+                element("p", {}, setup.get("description")) if setup.get("description") else None,
+                _groups_table(key, setup),
+                table(
+                    f"lamps-{_slug(key)}",
+                    f"Lamp figures, {key}: {setup.get('name', key)}",
+                    rows,
+                    head,
+                    cls="figures lamps",
+                    scrolls=True,
+                ),
+            )
+        )
+    glossary = element(
+        "dl",
+        {"class": "glossary"},
+        [join(element("dt", {}, term), element("dd", {}, text)) for term, text in LAMP_FIGURE_HELP],
+    )
     return element(
-        "section", {"id": "lamps", "aria-labelledby": "lamps-title"},
+        "section",
+        {"id": "lamps", "aria-labelledby": "lamps-title"},
         element("h2", {"id": "lamps-title"}, "The lamps"),
-        element("p", {}, f"Figures of each lamp's spectrum. {DASH} marks a figure that is not defined for that "
-                         "lamp; the numbered note says why (the reason also shows when the pointer rests on the dash)."),
+        element(
+            "p",
+            {},
+            f"Figures of each lamp's spectrum. {DASH} marks a figure that is not defined for that "
+            "lamp; the numbered note says why (the reason also shows when the pointer rests on the dash).",
+        ),
         blocks,
         notes.render(),
         element("h3", {}, "What the figures mean"),
@@ -621,14 +805,20 @@ def _extra_sections(metrics: Mapping, images: _Images, taken: set[str]) -> tuple
                         cells.append(number_cell(path, value, rule))
                 rows.append(element("tr", {}, cells))
             tables.append(table(f"{anchor}-table-{t}", spec.get("caption", ""), rows, head, scrolls=True))
-        figures = [element("figure", {"class": "wide"}, images.img(rel, f"{title}: figure {k + 1}"))
-                   for k, rel in enumerate(section.get("images", []) or [])]
-        out.append(element(
-            "section", {"id": anchor, "class": "extra", "aria-labelledby": f"{anchor}-title"},
-            element("h2", {"id": f"{anchor}-title"}, title),
-            [element("p", {}, p) for p in section.get("paragraphs", []) or []],
-            tables, figures,
-        ))
+        figures = [
+            element("figure", {"class": "wide"}, images.img(rel, f"{title}: figure {k + 1}"))
+            for k, rel in enumerate(section.get("images", []) or [])
+        ]
+        out.append(
+            element(
+                "section",
+                {"id": anchor, "class": "extra", "aria-labelledby": f"{anchor}-title"},
+                element("h2", {"id": f"{anchor}-title"}, title),
+                [element("p", {}, p) for p in section.get("paragraphs", []) or []],
+                tables,
+                figures,
+            )
+        )
         nav.append((anchor, title))
     return out, nav
 
@@ -640,8 +830,7 @@ def _observer_section(metrics: Mapping) -> Markup:
         ("age_years", "observer age (years)", "fixed0", "not given"),
         ("pigmentation", "eye pigmentation (0 very dark \u2026 1 light blue; CIE 146)", "fixed2", "not given"),
         ("display_peak_cd_m2", "display peak luminance assumed (cd/m\u00b2)", "sig3", "not given"),
-        ("adaptation_cd_m2", "adaptation luminance (cd/m\u00b2)", "sig3",
-         "not set: each view uses its own level"),
+        ("adaptation_cd_m2", "adaptation luminance (cd/m\u00b2)", "sig3", "not set: each view uses its own level"),
     ]
     set_rows = [
         ("samples_per_pixel", "samples per pixel", "int"),
@@ -651,16 +840,35 @@ def _observer_section(metrics: Mapping) -> Markup:
     ]
 
     return element(
-        "section", {"id": "observer", "aria-labelledby": "observer-title"},
+        "section",
+        {"id": "observer", "aria-labelledby": "observer-title"},
         element("h2", {"id": "observer-title"}, "Observer and settings"),
-        table("observer-table", "Observer modelled", [
-            element("tr", {}, element("th", {"scope": "row"}, label),
-                    number_cell(f"observer.{key}", obs.get(key), rule, reason=reason, show_reason=True))
-            for key, label, rule, reason in obs_rows]),
-        table("settings-table", "Render settings", [
-            element("tr", {}, element("th", {"scope": "row"}, label),
-                    number_cell(f"settings.{key}", settings.get(key), rule, reason="not given"))
-            for key, label, rule in set_rows]),
+        table(
+            "observer-table",
+            "Observer modelled",
+            [
+                element(
+                    "tr",
+                    {},
+                    element("th", {"scope": "row"}, label),
+                    number_cell(f"observer.{key}", obs.get(key), rule, reason=reason, show_reason=True),
+                )
+                for key, label, rule, reason in obs_rows
+            ],
+        ),
+        table(
+            "settings-table",
+            "Render settings",
+            [
+                element(
+                    "tr",
+                    {},
+                    element("th", {"scope": "row"}, label),
+                    number_cell(f"settings.{key}", settings.get(key), rule, reason="not given"),
+                )
+                for key, label, rule in set_rows
+            ],
+        ),
     )
 
 
@@ -668,11 +876,26 @@ def _footer(metrics: Mapping) -> Markup:
     tool = metrics.get("tool", {})
     scene = metrics.get("scene", {})
     return element(
-        "footer", {"class": "page-foot"}, element("div", {"class": "foot-rule"},
-        element("p", {}, f"Made with {tool.get('name', 'lampcast')} {tool.get('version', '')}. "
-                         "Every number in this report is in metrics.json next to it."),
-        element("p", {}, "Scene file: ", element("code", {}, scene.get("file", "")),
-                ", SHA-256 ", element("code", {"class": "hash"}, scene.get("sha256", "")))),
+        "footer",
+        {"class": "page-foot"},
+        element(
+            "div",
+            {"class": "foot-rule"},
+            element(
+                "p",
+                {},
+                f"Made with {tool.get('name', 'lampcast')} {tool.get('version', '')}. "
+                "Every number in this report is in metrics.json next to it.",
+            ),
+            element(
+                "p",
+                {},
+                "Scene file: ",
+                element("code", {}, scene.get("file", "")),
+                ", SHA-256 ",
+                element("code", {"class": "hash"}, scene.get("sha256", "")),
+            ),
+        ),
     )
 
 
@@ -802,21 +1025,32 @@ def render_report(metrics: Mapping, out_dir: Path) -> str:
     body = join(
         element("a", {"class": "skip", "href": "#main"}, "Skip to the content"),
         _header(metrics, nav),
-        element("main", {"id": "main"}, _summary(metrics), view_sections, _lamps_section(metrics), extras,
-                _observer_section(metrics)),
+        element(
+            "main",
+            {"id": "main"},
+            _summary(metrics),
+            view_sections,
+            _lamps_section(metrics),
+            extras,
+            _observer_section(metrics),
+        ),
         _footer(metrics),
         Markup(f"<script>{_JS}</script>"),
     )
     if images.problems:
         raise ValueError("report images:\n" + "\n".join(images.problems))
-    csp = (f"default-src 'none'; img-src data:; style-src {_csp_hash(_CSS)}; script-src {_csp_hash(_JS)}; "
-           "base-uri 'none'; form-action 'none'")
+    csp = (
+        f"default-src 'none'; img-src data:; style-src {_csp_hash(_CSS)}; script-src {_csp_hash(_JS)}; "
+        "base-uri 'none'; form-action 'none'"
+    )
     scene_name = metrics.get("scene", {}).get("name", "")
     head = join(
         Markup('<meta charset="utf-8">'),
         element("meta", {"name": "viewport", "content": "width=device-width, initial-scale=1"}),
         element("meta", {"http-equiv": "Content-Security-Policy", "content": csp}),
-        element("meta", {"name": "generator", "content": f"lampcast {metrics.get('tool', {}).get('version', '')}".strip()}),
+        element(
+            "meta", {"name": "generator", "content": f"lampcast {metrics.get('tool', {}).get('version', '')}".strip()}
+        ),
         element("title", {}, f"{scene_name} \u2014 street lighting preview"),
         element("link", {"rel": "icon", "href": "data:,"}),
         Markup(f"<style>{_CSS}</style>"),

@@ -19,10 +19,10 @@ from pathlib import Path
 import numba
 import numpy as np
 
-from render.rays.bvh import BVH, interpolate_normal, intersect_closest
-from render.rays.cameras import Camera, camera_rays, iter_tiles, tile_pixels
 from render.fileio import atomic_write_bytes
 from render.geometry.mesh import TriangleMesh
+from render.rays.bvh import BVH, interpolate_normal, intersect_closest
+from render.rays.cameras import Camera, camera_rays, iter_tiles, tile_pixels
 
 # Pixels per tile edge when casting (bounds memory: tile_px^2 * spp rays at a time).
 _TILE_PX = 128
@@ -92,7 +92,9 @@ def _reduce_samples(obj, mat, t, nrm, out_depth, out_normal, out_mat, out_obj, o
         out_mat[p] = best_mat
 
 
-def render_aovs(mesh: TriangleMesh, bvh: BVH, camera: Camera, samples_per_pixel: int = 1, seed: int = 0) -> dict[str, np.ndarray]:
+def render_aovs(
+    mesh: TriangleMesh, bvh: BVH, camera: Camera, samples_per_pixel: int = 1, seed: int = 0
+) -> dict[str, np.ndarray]:
     """Primary-ray AOVs of ``mesh`` seen by ``camera``.
 
     Parameters
@@ -140,8 +142,15 @@ def render_aovs(mesh: TriangleMesh, bvh: BVH, camera: Camera, samples_per_pixel:
         t_obj = np.empty(n, np.int32)
         t_cov = np.empty(n)
         _reduce_samples(
-            s_obj.reshape(n, spp), s_mat.reshape(n, spp), hits.t.reshape(n, spp), s_nrm.reshape(n, spp, 3),
-            t_depth, t_normal, t_mat, t_obj, t_cov,
+            s_obj.reshape(n, spp),
+            s_mat.reshape(n, spp),
+            hits.t.reshape(n, spp),
+            s_nrm.reshape(n, spp, 3),
+            t_depth,
+            t_normal,
+            t_mat,
+            t_obj,
+            t_cov,
         )
         depth[pix] = t_depth
         normal[pix] = t_normal
@@ -255,7 +264,13 @@ def write_aov_previews(aovs: dict[str, np.ndarray], out_dir: str | Path, stem: s
         "coverage": out / f"{stem}-coverage.png",
         "npz": out / f"{stem}-aov.npz",
     }
-    atomic_write_bytes(paths["depth"], _png_bytes(depth_to_grey(aovs["depth_m"], near, far), {"depth_range_m": f"{near:.6g} {far:.6g}", "depth_ramp": "white = near, dark grey = far, black = no hit"}))
+    atomic_write_bytes(
+        paths["depth"],
+        _png_bytes(
+            depth_to_grey(aovs["depth_m"], near, far),
+            {"depth_range_m": f"{near:.6g} {far:.6g}", "depth_ramp": "white = near, dark grey = far, black = no hit"},
+        ),
+    )
     atomic_write_bytes(paths["normal"], _png_bytes(normals_to_rgb(aovs["normal"])))
     atomic_write_bytes(paths["material"], _png_bytes(ids_to_rgb(aovs["material_id"])))
     atomic_write_bytes(paths["object"], _png_bytes(ids_to_rgb(aovs["object_id"])))

@@ -437,7 +437,20 @@ def _build_kernel(lo, hi, cen, n_bins, max_leaf, c_trav, c_isect):
 
     # The root is always an inner node (so that traversal can start by testing its children).
     _range_bounds(idx, lo, hi, 0, n_tri, box)
-    mid, _ = _binned_sah_split(idx, lo, hi, cen, 0, n_tri, max(_half_area(box[0], box[1], box[2], box[3], box[4], box[5]), 1e-300), n_bins, c_trav, c_isect, left_box, right_box)
+    mid, _ = _binned_sah_split(
+        idx,
+        lo,
+        hi,
+        cen,
+        0,
+        n_tri,
+        max(_half_area(box[0], box[1], box[2], box[3], box[4], box[5]), 1e-300),
+        n_bins,
+        c_trav,
+        c_isect,
+        left_box,
+        right_box,
+    )
     if mid < 0:
         mid = _median_split(idx, cen, 0, n_tri)
         _range_bounds(idx, lo, hi, 0, mid, left_box)
@@ -466,13 +479,22 @@ def _build_kernel(lo, hi, cen, n_bins, max_leaf, c_trav, c_isect):
         slot = w_slot[sp]
         depth = w_depth[sp]
         n = end - start
-        area = _half_area(bounds[parent, slot, 0], bounds[parent, slot, 1], bounds[parent, slot, 2], bounds[parent, slot, 3], bounds[parent, slot, 4], bounds[parent, slot, 5])
+        area = _half_area(
+            bounds[parent, slot, 0],
+            bounds[parent, slot, 1],
+            bounds[parent, slot, 2],
+            bounds[parent, slot, 3],
+            bounds[parent, slot, 4],
+            bounds[parent, slot, 5],
+        )
         leaf_cost = c_isect * n
         mid = -1
         cost = np.inf
         if n > 1:
             if depth <= _MAX_SAH_DEPTH and area > 0.0:
-                mid, cost = _binned_sah_split(idx, lo, hi, cen, start, end, area, n_bins, c_trav, c_isect, left_box, right_box)
+                mid, cost = _binned_sah_split(
+                    idx, lo, hi, cen, start, end, area, n_bins, c_trav, c_isect, left_box, right_box
+                )
             if n <= max_leaf and (mid < 0 or leaf_cost <= cost):
                 mid = -1
             elif mid < 0:
@@ -629,7 +651,14 @@ def _outward_float32(values: np.ndarray, down: bool) -> np.ndarray:
     return f
 
 
-def build_bvh(triangles_m: np.ndarray, *, n_bins: int = 16, max_leaf_size: int = 8, traversal_cost: float = 1.0, intersection_cost: float = 1.0) -> BVH:
+def build_bvh(
+    triangles_m: np.ndarray,
+    *,
+    n_bins: int = 16,
+    max_leaf_size: int = 8,
+    traversal_cost: float = 1.0,
+    intersection_cost: float = 1.0,
+) -> BVH:
     """Build a BVH over a triangle soup with the binned SAH (Wald 2007).
 
     Parameters
@@ -656,7 +685,9 @@ def build_bvh(triangles_m: np.ndarray, *, n_bins: int = 16, max_leaf_size: int =
     lo = tris.min(axis=1)
     hi = tris.max(axis=1)
     cen = 0.5 * (lo + hi)  # box centroid: cheaper than and as good as the triangle centroid
-    bounds, child, count, idx, n_nodes, depth = _build_kernel(lo, hi, cen, int(n_bins), int(max_leaf_size), float(traversal_cost), float(intersection_cost))
+    bounds, child, count, idx, n_nodes, depth = _build_kernel(
+        lo, hi, cen, int(n_bins), int(max_leaf_size), float(traversal_cost), float(intersection_cost)
+    )
     bounds, child, count = bounds[:n_nodes], child[:n_nodes], count[:n_nodes]
     cost = float(_sah_cost(bounds, child, count, float(traversal_cost), float(intersection_cost)))
     # (n, c, k) -> (n, k, c): both children's value of one bound adjacent in memory.
@@ -942,7 +973,9 @@ _PACKET_COS_ANY = float(np.cos(_PACKET_MAX_ANGLE_ANY_RAD))
 
 # Lane state lives in one flat float64 array, field f of lane r at f * _PACKET + r: a single
 # base pointer with constant offsets lets the vectoriser prove that the fields do not overlap.
-_F_OX, _F_OY, _F_OZ, _F_IX, _F_IY, _F_IZ, _F_PX, _F_PY, _F_PZ, _F_SX, _F_SY, _F_SZ, _F_TB, _F_BJ, _F_BU, _F_BV = range(16)
+_F_OX, _F_OY, _F_OZ, _F_IX, _F_IY, _F_IZ, _F_PX, _F_PY, _F_PZ, _F_SX, _F_SY, _F_SZ, _F_TB, _F_BJ, _F_BU, _F_BV = range(
+    16
+)
 _N_FIELDS = 16
 _OX, _OY, _OZ = _F_OX * _PACKET, _F_OY * _PACKET, _F_OZ * _PACKET
 _IX, _IY, _IZ = _F_IX * _PACKET, _F_IY * _PACKET, _F_IZ * _PACKET
@@ -1245,7 +1278,27 @@ _CHUNK_ITEMS = 4
 
 
 @numba.njit(cache=True, nogil=True, parallel=True, error_model="numpy")
-def _closest_batch(nb, ni, wb, wi, wide_stack, tv, ti, origins, directions, t_min, t_max, n_lanes, width, use_packets, packet_cos, out_t, out_tri, out_u, out_v):
+def _closest_batch(
+    nb,
+    ni,
+    wb,
+    wi,
+    wide_stack,
+    tv,
+    ti,
+    origins,
+    directions,
+    t_min,
+    t_max,
+    n_lanes,
+    width,
+    use_packets,
+    packet_cos,
+    out_t,
+    out_tri,
+    out_u,
+    out_v,
+):
     n_rays = origins.shape[0]
     per_item = _PACKET * _PACKETS_PER_ITEM
     n_items = (n_rays + per_item - 1) // per_item
@@ -1284,7 +1337,9 @@ def _closest_batch(nb, ni, wb, wi, wide_stack, tv, ti, origins, directions, t_mi
                     out_u[i] = 0.0
                     out_v[i] = 0.0
                     continue
-                t, j, u, v = _closest_one(wb, wi, tv, ti, origins[i], directions[i], t_min, t_max[i], st_node, st_t, work, width)
+                t, j, u, v = _closest_one(
+                    wb, wi, tv, ti, origins[i], directions[i], t_min, t_max[i], st_node, st_t, work, width
+                )
                 if j >= 0:
                     out_t[i] = t
                     out_tri[i] = j
@@ -1298,7 +1353,9 @@ def _closest_batch(nb, ni, wb, wi, wide_stack, tv, ti, origins, directions, t_mi
 
 
 @numba.njit(cache=True, nogil=True, parallel=True, error_model="numpy")
-def _any_batch(nb, ni, wb, wi, wide_stack, tv, origins, directions, t_min, t_max, n_lanes, width, use_packets, packet_cos, out):
+def _any_batch(
+    nb, ni, wb, wi, wide_stack, tv, origins, directions, t_min, t_max, n_lanes, width, use_packets, packet_cos, out
+):
     n_rays = origins.shape[0]
     per_item = _PACKET * _PACKETS_PER_ITEM
     n_items = (n_rays + per_item - 1) // per_item
@@ -1344,7 +1401,9 @@ def _ray_arrays(origins, directions, t_max):
     return o, d, tm
 
 
-def intersect_closest(bvh: BVH, origins: np.ndarray, directions: np.ndarray, t_min: float = 0.0, t_max=None, *, packets: bool = True) -> Hits:
+def intersect_closest(
+    bvh: BVH, origins: np.ndarray, directions: np.ndarray, t_min: float = 0.0, t_max=None, *, packets: bool = True
+) -> Hits:
     """Closest hit of each ray ``origin + t * direction`` with ``t_min < t < t_max``.
 
     Parameters
@@ -1381,11 +1440,33 @@ def intersect_closest(bvh: BVH, origins: np.ndarray, directions: np.ndarray, t_m
     # The lane count and tree width are passed at run time so that LLVM vectorises the loops
     # over them instead of unrolling them.
     with numba.parallel_chunksize(_CHUNK_ITEMS):
-        _closest_batch(bvh.nodes, bvh.nodes_i32, bvh.wide_nodes, bvh.wide_nodes_i32, bvh.wide_stack, bvh.tri_vertices, bvh.tri_index, o, d, float(t_min), tm, _PACKET, _WIDE, bool(packets), _PACKET_COS, out_t, out_tri, out_u, out_v)
+        _closest_batch(
+            bvh.nodes,
+            bvh.nodes_i32,
+            bvh.wide_nodes,
+            bvh.wide_nodes_i32,
+            bvh.wide_stack,
+            bvh.tri_vertices,
+            bvh.tri_index,
+            o,
+            d,
+            float(t_min),
+            tm,
+            _PACKET,
+            _WIDE,
+            bool(packets),
+            _PACKET_COS,
+            out_t,
+            out_tri,
+            out_u,
+            out_v,
+        )
     return Hits(out_t, out_tri, out_u, out_v)
 
 
-def intersect_any(bvh: BVH, origins: np.ndarray, directions: np.ndarray, t_max=None, t_min: float = 0.0, *, packets: bool = True) -> np.ndarray:
+def intersect_any(
+    bvh: BVH, origins: np.ndarray, directions: np.ndarray, t_max=None, t_min: float = 0.0, *, packets: bool = True
+) -> np.ndarray:
     """Occlusion test for shadow rays: (N,) bool, True if any hit has ``t_min < t < t_max``.
 
     Same ray conventions as :func:`intersect_closest`; stops at the first hit found. For a
@@ -1398,7 +1479,23 @@ def intersect_any(bvh: BVH, origins: np.ndarray, directions: np.ndarray, t_max=N
         return np.zeros(n, np.bool_)
     out = np.empty(n, np.bool_)  # every entry is written by the kernel
     with numba.parallel_chunksize(_CHUNK_ITEMS):
-        _any_batch(bvh.nodes, bvh.nodes_i32, bvh.wide_nodes, bvh.wide_nodes_i32, bvh.wide_stack, bvh.tri_vertices, o, d, float(t_min), tm, _PACKET, _WIDE, bool(packets), _PACKET_COS_ANY, out)
+        _any_batch(
+            bvh.nodes,
+            bvh.nodes_i32,
+            bvh.wide_nodes,
+            bvh.wide_nodes_i32,
+            bvh.wide_stack,
+            bvh.tri_vertices,
+            o,
+            d,
+            float(t_min),
+            tm,
+            _PACKET,
+            _WIDE,
+            bool(packets),
+            _PACKET_COS_ANY,
+            out,
+        )
     return out
 
 

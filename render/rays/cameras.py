@@ -25,8 +25,9 @@ are generated in.
 from __future__ import annotations
 
 import math
+from collections.abc import Iterator
 from dataclasses import dataclass, field
-from typing import Any, Iterator
+from typing import Any
 
 import numba
 import numpy as np
@@ -94,7 +95,9 @@ class Camera:
         tgt = _vec3(self.target_m)
         up = _vec3(self.up)
         if pos is None:
-            problems.add(key("position_m"), f"expected three finite numbers (x, y, z) in metres, got {self.position_m!r}")
+            problems.add(
+                key("position_m"), f"expected three finite numbers (x, y, z) in metres, got {self.position_m!r}"
+            )
         if tgt is None:
             problems.add(key("target_m"), f"expected three finite numbers (x, y, z) in metres, got {self.target_m!r}")
         if up is None or not np.any(up):
@@ -108,11 +111,18 @@ class Camera:
                     problems.add(key("up"), "must not be parallel to the viewing direction (target_m - position_m)")
         try:
             fov = float(self.hfov_deg)
-            fov_ok = isinstance(self.hfov_deg, (int, float, np.number)) and not isinstance(self.hfov_deg, bool) and 0.0 < fov < 180.0
+            fov_ok = (
+                isinstance(self.hfov_deg, (int, float, np.number))
+                and not isinstance(self.hfov_deg, bool)
+                and 0.0 < fov < 180.0
+            )
         except (TypeError, ValueError):
             fov_ok = False
         if not fov_ok:
-            problems.add(key("hfov_deg"), f"expected a horizontal field of view in degrees, 0 < hfov_deg < 180, got {self.hfov_deg!r}")
+            problems.add(
+                key("hfov_deg"),
+                f"expected a horizontal field of view in degrees, 0 < hfov_deg < 180, got {self.hfov_deg!r}",
+            )
         for name in ("width_px", "height_px"):
             value = getattr(self, name)
             if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or value < 1:
@@ -126,7 +136,7 @@ class Camera:
         self.height_px = int(self.height_px)
 
     @classmethod
-    def from_view(cls, view: Any, *, source: str = "scene", where: str = "views[0]") -> "Camera":
+    def from_view(cls, view: Any, *, source: str = "scene", where: str = "views[0]") -> Camera:
         """A camera from any object (or mapping) with ``position_m``, ``target_m``,
         ``hfov_deg``, ``width_px``, ``height_px`` and optionally ``up``."""
         get = view.get if isinstance(view, dict) else lambda k, d=None: getattr(view, k, d)
@@ -208,7 +218,9 @@ def seed_key(seed: int) -> np.uint64:
 
 
 @numba.njit(cache=True, nogil=True, parallel=True)
-def _ray_kernel(pixels, width, height, spp, grid, key, jitter, pos, right, up, fwd, half_w, half_h, out_o, out_d, out_p):
+def _ray_kernel(
+    pixels, width, height, spp, grid, key, jitter, pos, right, up, fwd, half_w, half_h, out_o, out_d, out_p
+):
     n_cells = grid * grid
     for k in prange(pixels.shape[0]):
         p = pixels[k]
@@ -248,12 +260,22 @@ def _ray_kernel(pixels, width, height, spp, grid, key, jitter, pos, right, up, f
 
 
 def _check_spp(samples_per_pixel) -> int:
-    if isinstance(samples_per_pixel, bool) or not isinstance(samples_per_pixel, (int, np.integer)) or not 1 <= samples_per_pixel <= MAX_SAMPLES_PER_PIXEL:
-        raise input_error("render settings", "samples_per_pixel", f"expected a whole number from 1 to {MAX_SAMPLES_PER_PIXEL}, got {samples_per_pixel!r}")
+    if (
+        isinstance(samples_per_pixel, bool)
+        or not isinstance(samples_per_pixel, (int, np.integer))
+        or not 1 <= samples_per_pixel <= MAX_SAMPLES_PER_PIXEL
+    ):
+        raise input_error(
+            "render settings",
+            "samples_per_pixel",
+            f"expected a whole number from 1 to {MAX_SAMPLES_PER_PIXEL}, got {samples_per_pixel!r}",
+        )
     return int(samples_per_pixel)
 
 
-def camera_rays(camera: Camera, samples_per_pixel: int = 1, seed: int = 0, pixels: np.ndarray | None = None, *, jitter: bool = True):
+def camera_rays(
+    camera: Camera, samples_per_pixel: int = 1, seed: int = 0, pixels: np.ndarray | None = None, *, jitter: bool = True
+):
     """Primary rays through the pixels of ``camera``.
 
     Parameters
@@ -293,7 +315,24 @@ def camera_rays(camera: Camera, samples_per_pixel: int = 1, seed: int = 0, pixel
     out_d = np.empty((n, 3))
     out_p = np.empty(n, np.int64)
     if n:
-        _ray_kernel(pix, camera.width_px, camera.height_px, spp, grid, seed_key(seed), bool(jitter), np.asarray(camera.position_m), r, u, f, half_w, half_h, out_o, out_d, out_p)
+        _ray_kernel(
+            pix,
+            camera.width_px,
+            camera.height_px,
+            spp,
+            grid,
+            seed_key(seed),
+            bool(jitter),
+            np.asarray(camera.position_m),
+            r,
+            u,
+            f,
+            half_w,
+            half_h,
+            out_o,
+            out_d,
+            out_p,
+        )
     return out_o, out_d, out_p
 
 

@@ -51,7 +51,9 @@ TOP_LEVEL = {
 
 GLOSS_SPEC = {
     "material": Field("str"),
-    "specular_reflectance": Field("float", default=0.02, min=0.0, max=1.0, help="Fresnel reflectance at normal incidence"),
+    "specular_reflectance": Field(
+        "float", default=0.02, min=0.0, max=1.0, help="Fresnel reflectance at normal incidence"
+    ),
     "roughness": Field("float", default=0.1, min=0.01, max=1.0, help="GGX roughness alpha"),
 }
 
@@ -64,7 +66,9 @@ SCENE_INFO = {
 SIDE_SPEC = {
     "footway_width_m": Field("float", default=2.0, unit=M, min=0.0, max=20.0),
     "verge_width_m": Field("float", default=0.0, unit=M, min=0.0, max=20.0),
-    "frontage_depth_m": Field("float", default=3.0, unit=M, min=0.0, max=50.0, help="front gardens between footway and building line"),
+    "frontage_depth_m": Field(
+        "float", default=3.0, unit=M, min=0.0, max=50.0, help="front gardens between footway and building line"
+    ),
     "footway_material": Field("str", default=None),
     "verge_material": Field("str", default=None),
     "frontage_material": Field("str", default=None),
@@ -236,7 +240,9 @@ class _Context:
 
             self._materials = set(material_library())
         if ref not in self._materials:
-            self.problems.add(where, f"unknown material {ref!r}{did_you_mean(ref, self._materials)}; `lampcast materials` lists them")
+            self.problems.add(
+                where, f"unknown material {ref!r}{did_you_mean(ref, self._materials)}; `lampcast materials` lists them"
+            )
 
     def lamp(self, ref: str | None, where: str) -> None:
         if ref is None:
@@ -258,7 +264,9 @@ class _Context:
 
             self._lamps = set(builtin_lamps())
         if ref not in self._lamps:
-            self.problems.add(where, f"unknown lamp {ref!r}{did_you_mean(ref, self._lamps)}; `lampcast lamps` lists them")
+            self.problems.add(
+                where, f"unknown lamp {ref!r}{did_you_mean(ref, self._lamps)}; `lampcast lamps` lists them"
+            )
 
     def photometry(self, ref: str | None, where: str) -> None:
         if ref is None:
@@ -304,7 +312,9 @@ def _problem(path, where, message):
 
 
 def _tag(checked: dict, default_name: str) -> Tag:
-    return Tag(name=checked.get("name") or default_name, inspect=bool(checked.get("inspect")), notes=checked.get("notes") or "")
+    return Tag(
+        name=checked.get("name") or default_name, inspect=bool(checked.get("inspect")), notes=checked.get("notes") or ""
+    )
 
 
 def _point_list(value, where: str, problems: ProblemList, min_points: int) -> list[tuple[float, float]] | None:
@@ -347,20 +357,36 @@ def _street(table: dict, ctx: _Context) -> Street | None:
             else:
                 ctx.material(t[key], f"street.{side}.{key}")
         sides[side] = StreetSide(**t)
-    for key in ("carriageway_material", "kerb_material", "footway_material", "verge_material", "frontage_material", "line_material"):
+    for key in (
+        "carriageway_material",
+        "kerb_material",
+        "footway_material",
+        "verge_material",
+        "frontage_material",
+        "line_material",
+    ):
         ctx.material(s[key], f"street.{key}")
     if any(s[k] is None for k in ("length_m", "carriageway_width_m")):
         return None
     return Street(
-        length_m=s["length_m"], carriageway_width_m=s["carriageway_width_m"], lanes=s["lanes"] or 2,
-        kerb_height_m=s["kerb_height_m"], kerb_width_m=s["kerb_width_m"],
-        carriageway_material=s["carriageway_material"], kerb_material=s["kerb_material"],
-        centre_line=s["centre_line"] or "dashed", line_material=s["line_material"],
-        left=sides["left"], right=sides["right"], wet=bool(s["wet"]),
+        length_m=s["length_m"],
+        carriageway_width_m=s["carriageway_width_m"],
+        lanes=s["lanes"] or 2,
+        kerb_height_m=s["kerb_height_m"],
+        kerb_width_m=s["kerb_width_m"],
+        carriageway_material=s["carriageway_material"],
+        kerb_material=s["kerb_material"],
+        centre_line=s["centre_line"] or "dashed",
+        line_material=s["line_material"],
+        left=sides["left"],
+        right=sides["right"],
+        wet=bool(s["wet"]),
     )
 
 
-def _position(value, where: str, ctx: _Context, street: Street | None, default_height: float = 0.0) -> tuple[float, float, float] | None:
+def _position(
+    value, where: str, ctx: _Context, street: Street | None, default_height: float = 0.0
+) -> tuple[float, float, float] | None:
     """[x, y] (z from the street surface plus ``default_height``) or [x, y, z]."""
     if isinstance(value, list) and len(value) == 2:
         xy = check_value(value, Field("vec2", unit=M), where, ctx.problems)
@@ -375,8 +401,8 @@ def _position(value, where: str, ctx: _Context, street: Street | None, default_h
 
 
 def _objects(entries: list, ctx: _Context, street: Street | None) -> list[StreetObject]:
-    from render.geometry.objects import OBJECT_BUILDERS, validate_params
     from render.geometry.build import object_slots
+    from render.geometry.objects import OBJECT_BUILDERS, validate_params
 
     out = []
     for i, entry in enumerate(entries):
@@ -384,7 +410,10 @@ def _objects(entries: list, ctx: _Context, street: Street | None) -> list[Street
         o = check_table(entry, OBJECT_SPEC, where, ctx.problems)
         kind = o["kind"]
         if kind is not None and kind not in OBJECT_BUILDERS:
-            ctx.problems.add(f"{where}.kind", f"unknown object kind {kind!r}{did_you_mean(kind, OBJECT_BUILDERS)}; kinds: {', '.join(OBJECT_BUILDERS)}")
+            ctx.problems.add(
+                f"{where}.kind",
+                f"unknown object kind {kind!r}{did_you_mean(kind, OBJECT_BUILDERS)}; kinds: {', '.join(OBJECT_BUILDERS)}",
+            )
             kind = None
         pos = _position(o["position_m"], f"{where}.position_m", ctx, street) if "position_m" in entry else None
         if "position_m" not in entry:
@@ -396,7 +425,9 @@ def _objects(entries: list, ctx: _Context, street: Street | None) -> list[Street
         materials = _materials_table(o["materials"] or {}, f"{where}.materials", ctx, tuple(object_slots(kind)))
         if pos is None or o["heading_deg"] is None:
             continue
-        out.append(StreetObject(kind, _tag(o, f"{kind} {i + 1}"), pos, o["heading_deg"], dict(o["params"]), materials, where))
+        out.append(
+            StreetObject(kind, _tag(o, f"{kind} {i + 1}"), pos, o["heading_deg"], dict(o["params"]), materials, where)
+        )
     return out
 
 
@@ -437,13 +468,24 @@ def _geometry(entries: list, ctx: _Context) -> list[StreetObject]:
         if kind == "obj" and slots and g["material"] is None:
             missing = [s for s in slots if s not in materials]
             if missing:
-                ctx.problems.add(f"{where}.materials", f"no material for OBJ material name(s) {', '.join(missing)}; give `material` or a `materials` entry per name")
+                ctx.problems.add(
+                    f"{where}.materials",
+                    f"no material for OBJ material name(s) {', '.join(missing)}; give `material` or a `materials` entry per name",
+                )
         if kind is None or g["position_m"] is None:
             continue
-        params = {k: g[k] for k in ("size_m", "radius_m", "height_m", "outline_m", "file", "scale", "up_axis", "smooth", "_parts") if k in g}
+        params = {
+            k: g[k]
+            for k in ("size_m", "radius_m", "height_m", "outline_m", "file", "scale", "up_axis", "smooth", "_parts")
+            if k in g
+        }
         if g["material"] is not None:
             materials.setdefault("*", g["material"])
-        out.append(StreetObject(kind, _tag(g, f"{kind} {i + 1}"), g["position_m"], g["heading_deg"] or 0.0, params, materials, where))
+        out.append(
+            StreetObject(
+                kind, _tag(g, f"{kind} {i + 1}"), g["position_m"], g["heading_deg"] or 0.0, params, materials, where
+            )
+        )
     return out
 
 
@@ -459,7 +501,20 @@ def _frontages(entries: list, ctx: _Context) -> list[Frontage]:
         materials = _materials_table(f["materials"] or {}, f"{where}.materials", ctx, slots)
         if any(f[k] is None for k in ("side", "start_m", "length_m", "height_m", "depth_m", "units")):
             continue
-        out.append(Frontage(f["side"], kind, f["start_m"], f["length_m"], f["units"], f["height_m"], f["depth_m"], materials, _tag(f, f"{kind} frontage {i + 1}"), where))
+        out.append(
+            Frontage(
+                f["side"],
+                kind,
+                f["start_m"],
+                f["length_m"],
+                f["units"],
+                f["height_m"],
+                f["depth_m"],
+                materials,
+                _tag(f, f"{kind} frontage {i + 1}"),
+                where,
+            )
+        )
     return out
 
 
@@ -470,13 +525,21 @@ def _markings(entries: list, ctx: _Context) -> list[Marking]:
         m = check_table(entry, MARKING_SPEC, where, ctx.problems)
         ctx.material(m["material"], f"{where}.material")
         min_points = 2 if m["kind"] == "line" else 3
-        pts = _point_list(entry.get("points_m"), f"{where}.points_m", ctx.problems, min_points) if "points_m" in entry else None
+        pts = (
+            _point_list(entry.get("points_m"), f"{where}.points_m", ctx.problems, min_points)
+            if "points_m" in entry
+            else None
+        )
         if None in (m["kind"], m["material"], pts, m["width_m"]):
             continue
         if m["kind"] == "line" and (m["dash_m"] > 0) != (m["gap_m"] > 0):
             ctx.problems.add(f"{where}.gap_m", "a dashed line needs both dash_m and gap_m above 0")
             continue
-        out.append(Marking(m["kind"], pts, m["width_m"], m["dash_m"], m["gap_m"], m["material"], _tag(m, f"marking {i + 1}"), where))
+        out.append(
+            Marking(
+                m["kind"], pts, m["width_m"], m["dash_m"], m["gap_m"], m["material"], _tag(m, f"marking {i + 1}"), where
+            )
+        )
     return out
 
 
@@ -493,8 +556,14 @@ def _luminaires(singles: list, rows: list, ctx: _Context, street: Street | None)
         _light_refs(s, where, ctx)
         if any(s[k] is None for k in ("position_m", "lamp", "photometry", "rotation_deg", "tilt_deg")):
             continue
-        base = (s["position_m"][0], s["position_m"][1], street.ground_z(s["position_m"][1]) if street else 0.0) if s["column"] else None
-        out.append(_make_luminaire(s, s["name"] or f"luminaire {i + 1}", s["position_m"], base, s["rotation_deg"], where))
+        base = (
+            (s["position_m"][0], s["position_m"][1], street.ground_z(s["position_m"][1]) if street else 0.0)
+            if s["column"]
+            else None
+        )
+        out.append(
+            _make_luminaire(s, s["name"] or f"luminaire {i + 1}", s["position_m"], base, s["rotation_deg"], where)
+        )
     for i, entry in enumerate(rows):
         where = f"luminaire_rows[{i}]"
         r = check_table(entry, ROW_SPEC, where, ctx.problems)
@@ -508,7 +577,22 @@ def _luminaires(singles: list, rows: list, ctx: _Context, street: Street | None)
         if street is None:
             ctx.problems.add(where, "luminaire rows are placed relative to the street: add a [street] table")
             continue
-        if any(r[k] is None for k in ("spacing_m", "mounting_height_m", "lamp", "photometry", "start_m", "setback_m", "outreach_m", "rotation_deg", "tilt_deg", "side", "layout")):
+        if any(
+            r[k] is None
+            for k in (
+                "spacing_m",
+                "mounting_height_m",
+                "lamp",
+                "photometry",
+                "start_m",
+                "setback_m",
+                "outreach_m",
+                "rotation_deg",
+                "tilt_deg",
+                "side",
+                "layout",
+            )
+        ):
             continue
         out.extend(_expand_row(r, where, street))
     names = [lum.name for lum in out]
@@ -521,9 +605,18 @@ def _luminaires(singles: list, rows: list, ctx: _Context, street: Street | None)
 
 def _make_luminaire(c: dict, name: str, position, base, rotation_deg: float, where: str) -> Luminaire:
     return Luminaire(
-        name=name, group=c["group"] or "main", position_m=tuple(position), column_base_m=base,
-        rotation_deg=rotation_deg, tilt_deg=c["tilt_deg"], photometry=c["photometry"], lamp=c["lamp"],
-        lumens=c["lumens"], maintenance_factor=c["maintenance_factor"], dimming=c["dimming"], where=where,
+        name=name,
+        group=c["group"] or "main",
+        position_m=tuple(position),
+        column_base_m=base,
+        rotation_deg=rotation_deg,
+        tilt_deg=c["tilt_deg"],
+        photometry=c["photometry"],
+        lamp=c["lamp"],
+        lumens=c["lumens"],
+        maintenance_factor=c["maintenance_factor"],
+        dimming=c["dimming"],
+        where=where,
     )
 
 
@@ -566,7 +659,12 @@ def _gloss(entries: list, ctx: _Context, street: Street | None) -> dict[str, tup
 
     out: dict[str, tuple[float, float]] = {}
     if street is not None and street.wet:
-        for m in {street.carriageway_material, street.left.footway_material, street.right.footway_material, street.line_material}:
+        for m in {
+            street.carriageway_material,
+            street.left.footway_material,
+            street.right.footway_material,
+            street.line_material,
+        }:
             out[m] = (WATER_F0, WET_ROUGHNESS)
     for i, entry in enumerate(entries):
         where = f"gloss[{i}]"
@@ -585,7 +683,9 @@ def _views(entries: list, ctx: _Context, street: Street | None) -> list[View]:
         v = check_table(entry, VIEW_SPEC, where, ctx.problems)
         kind = v["kind"] or "custom"
         if "position_m" not in entry:
-            ctx.problems.add(f"{where}.position_m", "missing; expected [x, y] (eye height from the view kind) or [x, y, z] in m")
+            ctx.problems.add(
+                f"{where}.position_m", "missing; expected [x, y] (eye height from the view kind) or [x, y, z] in m"
+            )
             continue
         pos = _position(entry["position_m"], f"{where}.position_m", ctx, street, EYE_HEIGHT_M[kind])
         if v["name"] in names:
@@ -598,9 +698,14 @@ def _views(entries: list, ctx: _Context, street: Street | None) -> list[View]:
             continue
         d = [t - p for t, p in zip(v["target_m"], pos)]
         if math.hypot(d[0], d[1]) < 1e-6 * math.sqrt(sum(c * c for c in d)):
-            ctx.problems.add(f"{where}.target_m", "a view looking straight up or down needs a small horizontal offset of the target (the image's up direction is +z)")
+            ctx.problems.add(
+                f"{where}.target_m",
+                "a view looking straight up or down needs a small horizontal offset of the target (the image's up direction is +z)",
+            )
             continue
-        out.append(View(v["name"], kind, pos, v["target_m"], v["hfov_deg"], v["resolution"][0], v["resolution"][1], v["notes"]))
+        out.append(
+            View(v["name"], kind, pos, v["target_m"], v["hfov_deg"], v["resolution"][0], v["resolution"][1], v["notes"])
+        )
     return out
 
 
@@ -616,13 +721,18 @@ def _setups(table: dict, ctx: _Context, groups: list[str]) -> dict[str, Setup]:
         for group, gentry in (s["groups"] or {}).items():
             gwhere = f"{where}.groups.{group}"
             if group not in groups:
-                ctx.problems.add(gwhere, f"no luminaire group named {group!r}{did_you_mean(group, groups)}; groups: {', '.join(groups) or '(none)'}")
+                ctx.problems.add(
+                    gwhere,
+                    f"no luminaire group named {group!r}{did_you_mean(group, groups)}; groups: {', '.join(groups) or '(none)'}",
+                )
                 continue
             g = check_table(gentry, GROUP_SETTING_SPEC, gwhere, ctx.problems)
             _light_refs(g, gwhere, ctx)
             settings[group] = GroupSetting(g["lamp"], g["photometry"], g["lumens"], g["dimming"])
         if not settings:
-            ctx.problems.add(where, "a setup needs a lamp (or photometry, lumens, dimming) for all luminaires or per group")
+            ctx.problems.add(
+                where, "a setup needs a lamp (or photometry, lumens, dimming) for all luminaires or per group"
+            )
         out[name] = Setup(name, s["description"] or "", settings)
     return out
 
@@ -664,9 +774,19 @@ def load_scene(path: str | Path) -> Scene:
         names[item.tag.name] = item.where
     problems.raise_if_any()
     return Scene(
-        path=path, name=info["name"], description=info["description"], street=street,
-        frontages=frontages, objects=objects, markings=markings, luminaires=luminaires, views=views,
-        render=RenderSettings(**render), observer=observer, setups=setups, gloss=gloss,
+        path=path,
+        name=info["name"],
+        description=info["description"],
+        street=street,
+        frontages=frontages,
+        objects=objects,
+        markings=markings,
+        luminaires=luminaires,
+        views=views,
+        render=RenderSettings(**render),
+        observer=observer,
+        setups=setups,
+        gloss=gloss,
     )
 
 

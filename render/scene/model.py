@@ -52,7 +52,13 @@ class Street:
     def building_line_y(self, side: str) -> float:
         """y of the building line (back of footway + verge + frontage) on ``side``."""
         s = self.side(side)
-        half = 0.5 * self.carriageway_width_m + self.kerb_width_m + s.verge_width_m + s.footway_width_m + s.frontage_depth_m
+        half = (
+            0.5 * self.carriageway_width_m
+            + self.kerb_width_m
+            + s.verge_width_m
+            + s.footway_width_m
+            + s.frontage_depth_m
+        )
         return half if side == "left" else -half
 
     def ground_z(self, y_m: float) -> float:
@@ -195,7 +201,9 @@ class Scene:
             if v.name == name:
                 return v
         names = [v.name for v in self.views]
-        raise input_error(self.path, "views", f"no view named {name!r}{did_you_mean(name, names)}; views: {', '.join(names)}")
+        raise input_error(
+            self.path, "views", f"no view named {name!r}{did_you_mean(name, names)}; views: {', '.join(names)}"
+        )
 
     @property
     def groups(self) -> list[str]:

@@ -9,8 +9,9 @@ its key path, so that all the mistakes in a scene file are reported together.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Any, Callable
+from typing import Any
 
 from render.errors import ProblemList, did_you_mean
 
@@ -45,9 +46,17 @@ class Field:
 
 def _describe(field: Field) -> str:
     kinds = {
-        "float": "a number", "int": "a whole number", "str": "a text string", "bool": "true or false",
-        "vec2": "a list of 2 numbers", "vec3": "a list of 3 numbers", "int2": "a list of 2 whole numbers",
-        "table": "a table", "list": "a list of tables", "strlist": "a list of text strings", "any": "a value",
+        "float": "a number",
+        "int": "a whole number",
+        "str": "a text string",
+        "bool": "true or false",
+        "vec2": "a list of 2 numbers",
+        "vec3": "a list of 3 numbers",
+        "int2": "a list of 2 whole numbers",
+        "table": "a table",
+        "list": "a list of tables",
+        "strlist": "a list of text strings",
+        "any": "a value",
     }
     text = kinds[field.kind]
     if field.unit:

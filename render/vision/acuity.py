@@ -54,8 +54,9 @@ def local_adaptation_cd_m2(luminance_cd_m2: np.ndarray, geometry: ViewGeometry) 
     return gaussian_filter(np.asarray(luminance_cd_m2, dtype=np.float64), sigma_px, mode="nearest")
 
 
-def apply_acuity(image: np.ndarray, local_luminance_cd_m2: np.ndarray, geometry: ViewGeometry,
-                 levels_px=BLUR_LEVELS_PX) -> tuple[np.ndarray, np.ndarray]:
+def apply_acuity(
+    image: np.ndarray, local_luminance_cd_m2: np.ndarray, geometry: ViewGeometry, levels_px=BLUR_LEVELS_PX
+) -> tuple[np.ndarray, np.ndarray]:
     """Blur ``image`` (H, W, C) by the luminance-dependent acuity loss.
 
     Each pixel gets the blend of the two blurred copies whose σ (pixels) bracket its required

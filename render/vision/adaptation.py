@@ -37,9 +37,9 @@ Other published pieces used here
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass, replace
 from functools import lru_cache
-from typing import Sequence
 
 import numpy as np
 
@@ -144,8 +144,13 @@ def _fallback_white() -> tuple[tuple[float, float, float], float]:
     return tuple(float(v) for v in xyz / xyz[1]), float(observers.sp_ratio(spd))
 
 
-def field_means(xyz_cd_m2: np.ndarray, scotopic_cd_m2: np.ndarray, geometry: ViewGeometry,
-                field_deg: float, exclude: np.ndarray | None = None) -> tuple[np.ndarray, float]:
+def field_means(
+    xyz_cd_m2: np.ndarray,
+    scotopic_cd_m2: np.ndarray,
+    geometry: ViewGeometry,
+    field_deg: float,
+    exclude: np.ndarray | None = None,
+) -> tuple[np.ndarray, float]:
     """Solid-angle-weighted mean XYZ (cd/m²) and scotopic luminance over the central field.
 
     Pixels where ``exclude`` is true are left out. Returns ``(xyz_mean (3,), scotopic_mean)``;
@@ -163,8 +168,9 @@ def field_means(xyz_cd_m2: np.ndarray, scotopic_cd_m2: np.ndarray, geometry: Vie
     return xyz, s
 
 
-def _state_from_means(xyz_mean: np.ndarray, s_mean: float, field_deg: float, override_cd_m2,
-                      white_xyz, white_scotopic, degree, how: str) -> AdaptationState:
+def _state_from_means(
+    xyz_mean: np.ndarray, s_mean: float, field_deg: float, override_cd_m2, white_xyz, white_scotopic, degree, how: str
+) -> AdaptationState:
     if white_xyz is not None:
         wx = np.asarray(white_xyz, dtype=np.float64)
         if not (wx.shape == (3,) and wx[1] > 0):
@@ -189,16 +195,31 @@ def _state_from_means(xyz_mean: np.ndarray, s_mean: float, field_deg: float, ove
     lmes, m = float(lmes), float(m)
     d = degree_of_adaptation(lmes) if degree is None else float(degree)
     return AdaptationState(
-        photopic_cd_m2=lp, scotopic_cd_m2=ls, mesopic_cd_m2=lmes, m=m, white_xyz=white,
-        white_sp_ratio=white_sp, pupil_diameter_mm=pupil_diameter_mm(lp, field_deg),
-        chromatic_adaptation_degree=d, field_deg=float(field_deg), how=how,
+        photopic_cd_m2=lp,
+        scotopic_cd_m2=ls,
+        mesopic_cd_m2=lmes,
+        m=m,
+        white_xyz=white,
+        white_sp_ratio=white_sp,
+        pupil_diameter_mm=pupil_diameter_mm(lp, field_deg),
+        chromatic_adaptation_degree=d,
+        field_deg=float(field_deg),
+        how=how,
     )
 
 
-def adaptation_state(xyz_cd_m2: np.ndarray, scotopic_cd_m2: np.ndarray, geometry: ViewGeometry, *,
-                     field_deg: float = 20.0, exclude: np.ndarray | None = None,
-                     override_cd_m2: float | None = None, white_xyz=None, white_scotopic=None,
-                     chromatic_adaptation_degree: float | None = None) -> AdaptationState:
+def adaptation_state(
+    xyz_cd_m2: np.ndarray,
+    scotopic_cd_m2: np.ndarray,
+    geometry: ViewGeometry,
+    *,
+    field_deg: float = 20.0,
+    exclude: np.ndarray | None = None,
+    override_cd_m2: float | None = None,
+    white_xyz=None,
+    white_scotopic=None,
+    chromatic_adaptation_degree: float | None = None,
+) -> AdaptationState:
     """Adaptation state of an observer looking along the view's optical axis.
 
     Parameters
@@ -220,14 +241,20 @@ def adaptation_state(xyz_cd_m2: np.ndarray, scotopic_cd_m2: np.ndarray, geometry
         D; default from the CIECAM02/CAM16 formula at the MES2 adaptation luminance.
     """
     xyz_mean, s_mean = field_means(xyz_cd_m2, scotopic_cd_m2, geometry, field_deg, exclude)
-    return _state_from_means(xyz_mean, s_mean, field_deg, override_cd_m2, white_xyz, white_scotopic,
-                             chromatic_adaptation_degree, "measured")
+    return _state_from_means(
+        xyz_mean, s_mean, field_deg, override_cd_m2, white_xyz, white_scotopic, chromatic_adaptation_degree, "measured"
+    )
 
 
-def shared_adaptation_state(views: Sequence[tuple[np.ndarray, np.ndarray, ViewGeometry, np.ndarray | None]],
-                            *, field_deg: float = 20.0, override_cd_m2: float | None = None,
-                            white_xyz=None, white_scotopic=None,
-                            chromatic_adaptation_degree: float | None = None) -> AdaptationState:
+def shared_adaptation_state(
+    views: Sequence[tuple[np.ndarray, np.ndarray, ViewGeometry, np.ndarray | None]],
+    *,
+    field_deg: float = 20.0,
+    override_cd_m2: float | None = None,
+    white_xyz=None,
+    white_scotopic=None,
+    chromatic_adaptation_degree: float | None = None,
+) -> AdaptationState:
     """One adaptation state for a set of views (e.g. before and after).
 
     Each view is ``(xyz_cd_m2, scotopic_cd_m2, geometry, exclude)``. The field means of the
@@ -239,8 +266,9 @@ def shared_adaptation_state(views: Sequence[tuple[np.ndarray, np.ndarray, ViewGe
     means = [field_means(x, s, g, field_deg, e) for x, s, g, e in views]
     xyz_mean = np.mean([m[0] for m in means], axis=0)
     s_mean = float(np.mean([m[1] for m in means]))
-    return _state_from_means(xyz_mean, s_mean, field_deg, override_cd_m2, white_xyz, white_scotopic,
-                             chromatic_adaptation_degree, "shared")
+    return _state_from_means(
+        xyz_mean, s_mean, field_deg, override_cd_m2, white_xyz, white_scotopic, chromatic_adaptation_degree, "shared"
+    )
 
 
 def with_degree(state: AdaptationState, degree: float) -> AdaptationState:

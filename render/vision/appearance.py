@@ -71,11 +71,13 @@ from render.vision.adaptation import AdaptationState
 from render.vision.mesopic import V_PRIME_LAMBDA0
 
 #: XYZ -> MacLeod-Boynton LMS (Smith & Pokorny 1975 fundamentals; S = Z). From memory.
-XYZ_TO_LMS = np.array([
-    [0.15514, 0.54312, -0.03286],
-    [-0.15514, 0.45684, 0.03286],
-    [0.0, 0.0, 1.0],
-])
+XYZ_TO_LMS = np.array(
+    [
+        [0.15514, 0.54312, -0.03286],
+        [-0.15514, 0.45684, 0.03286],
+        [0.0, 0.0, 1.0],
+    ]
+)
 LMS_TO_XYZ = np.linalg.inv(XYZ_TO_LMS)
 
 #: Cao et al. (2008) Table 1 peak cone sensitivities, for comparison only (from memory).
@@ -143,20 +145,24 @@ def lms_to_xyz(lms) -> np.ndarray:
 
 def _pathway_matrix() -> np.ndarray:
     k3, rw, p, s = PATHWAY_SURROUND_K3, PATHWAY_WHITE_RATIO, PATHWAY_L_WEIGHT, PATHWAY_STATIC_SATURATION
-    a = np.array([
-        [-(k3 + rw), 1.0 + k3 * rw, 0.0],
-        [p * k3, (1.0 - p) * k3, 1.0],
-        [p * s, (1.0 - p) * s, 0.0],
-    ])
+    a = np.array(
+        [
+            [-(k3 + rw), 1.0 + k3 * rw, 0.0],
+            [p * k3, (1.0 - p) * k3, 1.0],
+            [p * s, (1.0 - p) * s, 0.0],
+        ]
+    )
     return (PATHWAY_K / s) * a
 
 
 #: Opponent (M−L, S−(L+M), L+M) increments back to (L, M, S) increments.
-OPPONENT_TO_LMS = np.array([
-    [-0.5, 0.0, 0.5],
-    [0.5, 0.0, 0.5],
-    [0.0, 1.0, 1.0],
-])
+OPPONENT_TO_LMS = np.array(
+    [
+        [-0.5, 0.0, 0.5],
+        [0.5, 0.0, 0.5],
+        [0.0, 1.0, 1.0],
+    ]
+)
 
 
 def pathway_gains(q_adapt_td: np.ndarray, q_rod_adapt_td: float) -> np.ndarray:
@@ -183,9 +189,14 @@ def rod_share(state: AdaptationState, v0: float = V_PRIME_LAMBDA0) -> float:
     return rod / (cone + rod)
 
 
-def rod_intrusion(xyz_cd_m2: np.ndarray, scotopic_cd_m2: np.ndarray, mesopic_cd_m2: np.ndarray,
-                  state: AdaptationState, lms_cd_m2: np.ndarray | None = None,
-                  enabled: bool = True) -> np.ndarray:
+def rod_intrusion(
+    xyz_cd_m2: np.ndarray,
+    scotopic_cd_m2: np.ndarray,
+    mesopic_cd_m2: np.ndarray,
+    state: AdaptationState,
+    lms_cd_m2: np.ndarray | None = None,
+    enabled: bool = True,
+) -> np.ndarray:
     """Perceived colour (as absolute XYZ, cd/m², Y = mesopic luminance) under rod intrusion.
 
     Parameters

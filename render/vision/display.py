@@ -25,12 +25,11 @@
 from __future__ import annotations
 
 import math
-
 import struct
 import zlib
+from collections.abc import Mapping
 from functools import lru_cache
 from pathlib import Path
-from typing import Mapping
 
 import numba
 import numpy as np
@@ -60,8 +59,7 @@ def display_white_xyz() -> np.ndarray:
     return _constants()[2].copy()
 
 
-def chromatic_adaptation_cat16(xyz, source_white_xyz, degree: float,
-                               destination_white_xyz=None) -> np.ndarray:
+def chromatic_adaptation_cat16(xyz, source_white_xyz, degree: float, destination_white_xyz=None) -> np.ndarray:
     """One-step CAT16 von Kries adaptation with degree D from a source to a destination white.
 
     ``xyz`` (..., 3) any scale; whites are normalised to Y = 1 internally. Destination default:
@@ -79,8 +77,9 @@ def chromatic_adaptation_cat16(xyz, source_white_xyz, degree: float,
     return apply_matrix(full, xyz)
 
 
-def incomplete_adaptation_gains(source_white_xyz, adapting_cd_m2: float, discounting: float = 0.0,
-                                destination_white_xyz=None) -> np.ndarray:
+def incomplete_adaptation_gains(
+    source_white_xyz, adapting_cd_m2: float, discounting: float = 0.0, destination_white_xyz=None
+) -> np.ndarray:
     """Per-cone von Kries gains (CAT16 space) for *incomplete* adaptation to a coloured light.
 
     Hunt's cone-specific degree of adaptation, in the form RLAB uses (Fairchild 1996,
@@ -110,8 +109,9 @@ def incomplete_adaptation_gains(source_white_xyz, adapting_cd_m2: float, discoun
     return (p + d * (1.0 - p)) * rd / rs
 
 
-def chromatic_adaptation_incomplete(xyz, source_white_xyz, adapting_cd_m2: float, discounting: float = 0.0,
-                                    destination_white_xyz=None) -> np.ndarray:
+def chromatic_adaptation_incomplete(
+    xyz, source_white_xyz, adapting_cd_m2: float, discounting: float = 0.0, destination_white_xyz=None
+) -> np.ndarray:
     """Apply :func:`incomplete_adaptation_gains` in CAT16 space to XYZ (..., 3)."""
     _, _, _, m = _constants()
     gain = incomplete_adaptation_gains(source_white_xyz, adapting_cd_m2, discounting, destination_white_xyz)
@@ -125,9 +125,14 @@ def apply_matrix(matrix, v) -> np.ndarray:
     m = np.asarray(matrix, dtype=np.float64)
     v = np.asarray(v, dtype=np.float64)
     a, b, c = v[..., 0], v[..., 1], v[..., 2]
-    return np.stack([m[0, 0] * a + m[0, 1] * b + m[0, 2] * c,
-                     m[1, 0] * a + m[1, 1] * b + m[1, 2] * c,
-                     m[2, 0] * a + m[2, 1] * b + m[2, 2] * c], axis=-1)
+    return np.stack(
+        [
+            m[0, 0] * a + m[0, 1] * b + m[0, 2] * c,
+            m[1, 0] * a + m[1, 1] * b + m[1, 2] * c,
+            m[2, 0] * a + m[2, 1] * b + m[2, 2] * c,
+        ],
+        axis=-1,
+    )
 
 
 def xyz_to_linear_srgb(xyz) -> np.ndarray:
@@ -218,8 +223,9 @@ def _gamut_kernel(lab, to_lms, to_xyz, to_rgb, iterations, tol, out):
             r2 = to_rgb[2, 0] * x + to_rgb[2, 1] * y + to_rgb[2, 2] * z
             if it == iterations:
                 break
-            inside = (r0 >= -tol and r0 <= 1.0 + tol and r1 >= -tol and r1 <= 1.0 + tol
-                      and r2 >= -tol and r2 <= 1.0 + tol)
+            inside = (
+                r0 >= -tol and r0 <= 1.0 + tol and r1 >= -tol and r1 <= 1.0 + tol and r2 >= -tol and r2 <= 1.0 + tol
+            )
             if inside:
                 lo = mid
             else:
@@ -240,13 +246,21 @@ def gamut_map_oklab(xyz, iterations: int = 30, tol: float = 1e-9) -> tuple[np.nd
         m1, m2 = _oklab_matrices()
         lab = np.ascontiguousarray(xyz_to_oklab(xyz[out]))
         mapped = np.empty_like(lab)
-        _gamut_kernel(lab, np.ascontiguousarray(np.linalg.inv(m2)), np.ascontiguousarray(np.linalg.inv(m1)),
-                      np.ascontiguousarray(_constants()[0]), int(iterations), float(tol), mapped)
+        _gamut_kernel(
+            lab,
+            np.ascontiguousarray(np.linalg.inv(m2)),
+            np.ascontiguousarray(np.linalg.inv(m1)),
+            np.ascontiguousarray(_constants()[0]),
+            int(iterations),
+            float(tol),
+            mapped,
+        )
         rgb[out] = mapped
     return np.clip(rgb, 0.0, 1.0), out
 
 
 # --------------------------------------------------------------------------------------- PNG
+
 
 def _chunk(kind: bytes, data: bytes) -> bytes:
     return struct.pack(">I", len(data)) + kind + data + struct.pack(">I", zlib.crc32(kind + data) & 0xFFFFFFFF)
@@ -267,9 +281,11 @@ def png_bytes(image: np.ndarray, text: Mapping[str, str] | None = None) -> bytes
     stride = w * 3 * (depth // 8)
     rows = np.frombuffer(raw, dtype=np.uint8).reshape(h, stride)
     filtered = np.concatenate([np.zeros((h, 1), np.uint8), rows], axis=1)  # filter type 0
-    parts = [b"\x89PNG\r\n\x1a\n",
-             _chunk(b"IHDR", struct.pack(">IIBBBBB", w, h, depth, 2, 0, 0, 0)),
-             _chunk(b"sRGB", b"\x00")]
+    parts = [
+        b"\x89PNG\r\n\x1a\n",
+        _chunk(b"IHDR", struct.pack(">IIBBBBB", w, h, depth, 2, 0, 0, 0)),
+        _chunk(b"sRGB", b"\x00"),
+    ]
     for key, value in (text or {}).items():
         k = str(key).encode("latin-1", "replace")
         if not 1 <= len(k) <= 79 or b"\x00" in k:

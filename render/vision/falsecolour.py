@@ -95,13 +95,14 @@ def _format_cd(v: float) -> str:
     return f"{v:.{max(0, -math.floor(math.log10(v)))}f}".rstrip("0").rstrip(".") if v >= 1e-4 else f"{v:.0e}"
 
 
-def legend_strip(height_px: int, lo_cd_m2: float, hi_cd_m2: float,
-                 label: str = "luminance (cd/m²)", width_px: int = 120) -> np.ndarray:
+def legend_strip(
+    height_px: int, lo_cd_m2: float, hi_cd_m2: float, label: str = "luminance (cd/m²)", width_px: int = 120
+) -> np.ndarray:
     """A vertical legend (height_px, width_px, 3), linear sRGB: the ramp with decade ticks."""
+    import matplotlib.cm as cm
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.colors import ListedColormap, LogNorm
     from matplotlib.figure import Figure
-    import matplotlib.cm as cm
 
     dpi = 100.0
     fig = Figure(figsize=(width_px / dpi, height_px / dpi), dpi=dpi, facecolor="white")
@@ -130,8 +131,12 @@ def legend_strip(height_px: int, lo_cd_m2: float, hi_cd_m2: float,
     return srgb_decode(rgba)
 
 
-def false_colour_with_legend(luminance_cd_m2: np.ndarray, range_cd_m2: tuple[float, float] | None = None,
-                             label: str = "luminance (cd/m²)", legend_width_px: int = 120):
+def false_colour_with_legend(
+    luminance_cd_m2: np.ndarray,
+    range_cd_m2: tuple[float, float] | None = None,
+    label: str = "luminance (cd/m²)",
+    legend_width_px: int = 120,
+):
     """False-colour image with its legend to the right: ``(image (H, W + legend, 3) linear
     sRGB, (lo, hi))``."""
     lo, hi = auto_range_decades(luminance_cd_m2) if range_cd_m2 is None else range_cd_m2

@@ -104,8 +104,15 @@ def scattered_fraction(model: str, age_years: float, pigmentation: float) -> flo
     return float(2.0 * math.pi * simpson(g, x=np.log(t)))
 
 
-def glare_kernel(deg_per_cell: float, half_size: tuple[int, int], model: str, age_years: float,
-                 pigmentation: float, supersample: int = 8, supersample_radius: int = 8) -> np.ndarray:
+def glare_kernel(
+    deg_per_cell: float,
+    half_size: tuple[int, int],
+    model: str,
+    age_years: float,
+    pigmentation: float,
+    supersample: int = 8,
+    supersample_radius: int = 8,
+) -> np.ndarray:
     """Kernel on an equiangular grid: mean of ``f(θ)·max(cos θ, 0)`` over each cell, sr⁻¹.
 
     Shape ``(2·hy + 1, 2·hx + 1)``, centre cell at ``(hy, hx)``; cells within
@@ -154,12 +161,22 @@ def _sample(grid, gx, gy):
     fy = (gy - y0)[:, None]
     g = grid.reshape(c, -1).T
     i00 = y0 * w + x0
-    return (g[i00] * (1 - fx) * (1 - fy) + g[i00 + 1] * fx * (1 - fy)
-            + g[i00 + w] * (1 - fx) * fy + g[i00 + w + 1] * fx * fy)
+    return (
+        g[i00] * (1 - fx) * (1 - fy)
+        + g[i00 + 1] * fx * (1 - fy)
+        + g[i00 + w] * (1 - fx) * fy
+        + g[i00 + w + 1] * fx * fy
+    )
 
 
-def veiling_luminance(channels_cd_m2: np.ndarray, geometry: ViewGeometry, *, age_years: float,
-                      pigmentation: float, model: str = "cie146-general") -> np.ndarray:
+def veiling_luminance(
+    channels_cd_m2: np.ndarray,
+    geometry: ViewGeometry,
+    *,
+    age_years: float,
+    pigmentation: float,
+    model: str = "cie146-general",
+) -> np.ndarray:
     """Veiling luminance (H, W, C) that the view's own light scatters in the eye, cd/m².
 
     ``channels_cd_m2`` is (H, W, C): any luminance-like channels (X, Y, Z, scotopic) that
@@ -191,13 +208,19 @@ def veiling_luminance(channels_cd_m2: np.ndarray, geometry: ViewGeometry, *, age
     veil = np.empty_like(grid)
     for i in range(c):
         full = scipy.fft.irfft2(scipy.fft.rfft2(grid[i], shape, workers=-1) * kf, shape, workers=-1)
-        veil[i] = full[hy:hy + gh, hx:hx + gw]
+        veil[i] = full[hy : hy + gh, hx : hx + gw]
     np.maximum(veil, 0.0, out=veil)  # FFT round-off
     return _sample(veil, gx, gy).reshape(h, w, c)
 
 
-def retinal_channels(channels_cd_m2: np.ndarray, geometry: ViewGeometry, *, age_years: float,
-                     pigmentation: float, model: str = "cie146-general"):
+def retinal_channels(
+    channels_cd_m2: np.ndarray,
+    geometry: ViewGeometry,
+    *,
+    age_years: float,
+    pigmentation: float,
+    model: str = "cie146-general",
+):
     """Channels (H, W, C) as imaged on the retina: ``(channels·(1 − F) + veil, veil, F)``."""
     ch = np.asarray(channels_cd_m2, dtype=np.float64)
     veil = veiling_luminance(ch, geometry, age_years=age_years, pigmentation=pigmentation, model=model)
@@ -205,8 +228,15 @@ def retinal_channels(channels_cd_m2: np.ndarray, geometry: ViewGeometry, *, age_
     return ch * (1.0 - frac) + veil, veil, frac
 
 
-def apply_glare(xyz_cd_m2: np.ndarray, scotopic_cd_m2: np.ndarray, geometry: ViewGeometry, *,
-                age_years: float, pigmentation: float, model: str = "cie146-general"):
+def apply_glare(
+    xyz_cd_m2: np.ndarray,
+    scotopic_cd_m2: np.ndarray,
+    geometry: ViewGeometry,
+    *,
+    age_years: float,
+    pigmentation: float,
+    model: str = "cie146-general",
+):
     """Retinal image with disability glare: ``(xyz, scotopic, veil_Y, F)``.
 
     ``xyz·(1 − F) + veil`` and likewise for the scotopic buffer, with F the scattered
@@ -215,6 +245,5 @@ def apply_glare(xyz_cd_m2: np.ndarray, scotopic_cd_m2: np.ndarray, geometry: Vie
     xyz = np.asarray(xyz_cd_m2, dtype=np.float64)
     s = np.asarray(scotopic_cd_m2, dtype=np.float64)
     stack = np.concatenate([xyz, s[..., None]], axis=-1)
-    out, veil, frac = retinal_channels(stack, geometry, age_years=age_years, pigmentation=pigmentation,
-                                       model=model)
+    out, veil, frac = retinal_channels(stack, geometry, age_years=age_years, pigmentation=pigmentation, model=model)
     return out[..., :3], out[..., 3], veil[..., 1], frac

@@ -66,8 +66,9 @@ def _phi(m, lp, ls, v0):
     return adaptation_coefficient(mesopic_luminance(m, lp, ls, v0)) - m
 
 
-def solve_mes2(photopic_cd_m2, scotopic_cd_m2, *, v0: float = V_PRIME_LAMBDA0, scan: int = 33,
-               iterations: int = 60) -> tuple[np.ndarray, np.ndarray]:
+def solve_mes2(
+    photopic_cd_m2, scotopic_cd_m2, *, v0: float = V_PRIME_LAMBDA0, scan: int = 33, iterations: int = 60
+) -> tuple[np.ndarray, np.ndarray]:
     """Self-consistent MES2 adaptation state: ``(L_mes, m)`` for each element.
 
     Parameters

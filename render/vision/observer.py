@@ -2,8 +2,9 @@
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass, fields
-from typing import Any, Mapping
+from typing import Any
 
 from render.errors import ProblemList, did_you_mean
 
@@ -94,8 +95,11 @@ class ObserverSettings:
             if not isinstance(getattr(self, key), bool):
                 p.add(key, f"expected true or false, got {getattr(self, key)!r}")
         if self.glare_model not in GLARE_MODELS:
-            p.add("glare_model", f"expected one of {', '.join(GLARE_MODELS)}, got {self.glare_model!r}"
-                  + did_you_mean(str(self.glare_model), GLARE_MODELS))
+            p.add(
+                "glare_model",
+                f"expected one of {', '.join(GLARE_MODELS)}, got {self.glare_model!r}"
+                + did_you_mean(str(self.glare_model), GLARE_MODELS),
+            )
         p.raise_if_any()
 
     @classmethod

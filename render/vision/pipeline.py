@@ -24,9 +24,9 @@ exposure, no highlight roll-off: for checks against colorimetry).
 
 from __future__ import annotations
 
-from dataclasses import dataclass, replace, field
+from collections.abc import Sequence
+from dataclasses import dataclass, field, replace
 from pathlib import Path
-from typing import Sequence
 
 import numpy as np
 
@@ -138,11 +138,15 @@ def _fmt(value) -> str:
 
 def _check_mode(mode: str) -> None:
     if mode not in MODES:
-        raise InputError(Problem("vision", "mode", f"expected one of {', '.join(MODES)}, got {mode!r}"
-                                 + did_you_mean(str(mode), MODES)))
+        raise InputError(
+            Problem(
+                "vision", "mode", f"expected one of {', '.join(MODES)}, got {mode!r}" + did_you_mean(str(mode), MODES)
+            )
+        )
 
 
 # ------------------------------------------------------------------------------ the steps
+
 
 def retinal_image(buffers: ViewLight, geometry: ViewGeometry, observer: ObserverSettings):
     """Step 1: the view as imaged on the retina, with disability glare if enabled.
@@ -155,13 +159,19 @@ def retinal_image(buffers: ViewLight, geometry: ViewGeometry, observer: Observer
     if not observer.glare:
         return xyz, scot, lms, {"glare": "off"}
     parts = [xyz, scot[..., None]] + ([lms] if lms is not None else [])
-    out, veil, frac = _glare.retinal_channels(np.concatenate(parts, axis=-1), geometry,
-                                              age_years=observer.age_years,
-                                              pigmentation=observer.pigmentation,
-                                              model=observer.glare_model)
-    diag = {"glare": observer.glare_model, "glare_scattered_fraction": frac,
-            "glare_veil_max_cd_m2": float(veil[..., 1].max()),
-            "glare_veil_mean_cd_m2": float(veil[..., 1].mean())}
+    out, veil, frac = _glare.retinal_channels(
+        np.concatenate(parts, axis=-1),
+        geometry,
+        age_years=observer.age_years,
+        pigmentation=observer.pigmentation,
+        model=observer.glare_model,
+    )
+    diag = {
+        "glare": observer.glare_model,
+        "glare_scattered_fraction": frac,
+        "glare_veil_max_cd_m2": float(veil[..., 1].max()),
+        "glare_veil_mean_cd_m2": float(veil[..., 1].mean()),
+    }
     return out[..., :3], out[..., 3], (out[..., 4:7] if lms is not None else None), diag
 
 
@@ -172,32 +182,47 @@ def exclusion_mask(buffers: ViewLight, observer: ObserverSettings) -> np.ndarray
     return _adaptation.luminaire_mask(buffers.xyz_cd_m2, observer.luminaire_threshold_cd_m2)
 
 
-def measure_adaptation(retina_xyz, retina_scot, geometry: ViewGeometry, observer: ObserverSettings,
-                       exclude: np.ndarray | None, buffers: ViewLight | None = None):
+def measure_adaptation(
+    retina_xyz,
+    retina_scot,
+    geometry: ViewGeometry,
+    observer: ObserverSettings,
+    exclude: np.ndarray | None,
+    buffers: ViewLight | None = None,
+):
     """Step 2: the adaptation state of one view (see :func:`render.vision.adaptation.adaptation_state`)."""
     white = (None, None) if buffers is None else (buffers.white_xyz, buffers.white_scotopic)
     return _adaptation.adaptation_state(
-        retina_xyz, retina_scot, geometry, field_deg=observer.adaptation_field_deg, exclude=exclude,
-        override_cd_m2=observer.adaptation_cd_m2, white_xyz=white[0], white_scotopic=white[1],
-        chromatic_adaptation_degree=observer.chromatic_adaptation_degree)
+        retina_xyz,
+        retina_scot,
+        geometry,
+        field_deg=observer.adaptation_field_deg,
+        exclude=exclude,
+        override_cd_m2=observer.adaptation_cd_m2,
+        white_xyz=white[0],
+        white_scotopic=white[1],
+        chromatic_adaptation_degree=observer.chromatic_adaptation_degree,
+    )
 
 
-def perceived_xyz(retina_xyz, retina_scot, state: _adaptation.AdaptationState, observer: ObserverSettings,
-                  lms=None) -> tuple[np.ndarray, np.ndarray]:
+def perceived_xyz(
+    retina_xyz, retina_scot, state: _adaptation.AdaptationState, observer: ObserverSettings, lms=None
+) -> tuple[np.ndarray, np.ndarray]:
     """Steps 3-4: perceived colour as XYZ with Y = MES2 luminance; returns ``(xyz, L_mes)``."""
     lmes = _mesopic.mesopic_image(retina_xyz[..., 1], retina_scot, state.m)
-    xyz = _appearance.rod_intrusion(retina_xyz, retina_scot, lmes, state, lms_cd_m2=lms,
-                                    enabled=observer.rod_intrusion)
+    xyz = _appearance.rod_intrusion(retina_xyz, retina_scot, lmes, state, lms_cd_m2=lms, enabled=observer.rod_intrusion)
     return xyz, lmes
 
 
-def display_scale(state: _adaptation.AdaptationState, observer: ObserverSettings, mode: str,
-                  exposure: float | None) -> float:
+def display_scale(
+    state: _adaptation.AdaptationState, observer: ObserverSettings, mode: str, exposure: float | None
+) -> float:
     """Display cd/m² per perceived scene cd/m²: Ward (1994) for the state, or ``exposure``."""
     if mode == "fixed":
         if exposure is None or not exposure > 0:
-            raise InputError(Problem("vision", "exposure", "mode 'fixed' needs an exposure > 0 "
-                                     "(display cd/m² per scene cd/m²)"))
+            raise InputError(
+                Problem("vision", "exposure", "mode 'fixed' needs an exposure > 0 (display cd/m² per scene cd/m²)")
+            )
         return float(exposure)
     return _tonemap.ward_scale_factor(state.mesopic_cd_m2, observer.display_peak_cd_m2)
 
@@ -214,12 +239,14 @@ def adapt_to_display_white(xyz_perceived, state: _adaptation.AdaptationState, ob
     return _display.chromatic_adaptation_cat16(xyz_perceived, state.white_xyz, state.chromatic_adaptation_degree)
 
 
-def to_display(xyz_perceived, state: _adaptation.AdaptationState, observer: ObserverSettings,
-               scale: float, rolloff: bool = True) -> tuple[np.ndarray, dict]:
+def to_display(
+    xyz_perceived, state: _adaptation.AdaptationState, observer: ObserverSettings, scale: float, rolloff: bool = True
+) -> tuple[np.ndarray, dict]:
     """Step 6: chromatic adaptation, tone scale, gamut mapping -> linear sRGB in [0, 1]."""
     adapted = adapt_to_display_white(xyz_perceived, state, observer)
-    rel = _tonemap.to_display_relative(adapted, scale, observer.display_peak_cd_m2,
-                                       knee=_tonemap.HIGHLIGHT_KNEE if rolloff else None)
+    rel = _tonemap.to_display_relative(
+        adapted, scale, observer.display_peak_cd_m2, knee=_tonemap.HIGHLIGHT_KNEE if rolloff else None
+    )
     rgb, out = _display.gamut_map_oklab(rel)
     return rgb, {"display_scale": scale, "out_of_gamut_fraction": float(out.mean())}
 
@@ -247,9 +274,15 @@ def _map_with_state(buffers, geometry, observer, state, retina, mode, exposure):
     return DisplayResult(rgb, s8, s16, state, diag)
 
 
-def photometric_display(buffers: ViewLight, geometry: ViewGeometry, observer: ObserverSettings, *,
-                        quantity: str = "photopic", range_cd_m2: tuple[float, float] | None = None,
-                        state: _adaptation.AdaptationState | None = None) -> DisplayResult:
+def photometric_display(
+    buffers: ViewLight,
+    geometry: ViewGeometry,
+    observer: ObserverSettings,
+    *,
+    quantity: str = "photopic",
+    range_cd_m2: tuple[float, float] | None = None,
+    state: _adaptation.AdaptationState | None = None,
+) -> DisplayResult:
     """False-colour map of the physical luminance (no eye effects) with a cd/m² legend.
 
     ``quantity``: ``photopic`` (Y), ``scotopic`` or ``mesopic`` (MES2 with the view's
@@ -257,8 +290,14 @@ def photometric_display(buffers: ViewLight, geometry: ViewGeometry, observer: Ob
     """
     buffers.check(geometry)
     if quantity not in PHOTOMETRIC_QUANTITIES:
-        raise InputError(Problem("vision", "quantity", f"expected one of {', '.join(PHOTOMETRIC_QUANTITIES)}, "
-                                 f"got {quantity!r}" + did_you_mean(str(quantity), PHOTOMETRIC_QUANTITIES)))
+        raise InputError(
+            Problem(
+                "vision",
+                "quantity",
+                f"expected one of {', '.join(PHOTOMETRIC_QUANTITIES)}, "
+                f"got {quantity!r}" + did_you_mean(str(quantity), PHOTOMETRIC_QUANTITIES),
+            )
+        )
     xyz = np.asarray(buffers.xyz_cd_m2, dtype=np.float64)
     scot = np.asarray(buffers.scotopic_cd_m2, dtype=np.float64)
     if quantity == "photopic":
@@ -271,16 +310,23 @@ def photometric_display(buffers: ViewLight, geometry: ViewGeometry, observer: Ob
         lum, label = _mesopic.mesopic_image(xyz[..., 1], scot, state.m), "mesopic luminance (cd/m²)"
     img, (lo, hi) = _falsecolour.false_colour_with_legend(lum, range_cd_m2, label)
     s8, s16 = _encode(img)
-    return DisplayResult(img, s8, s16, None, {"mode": "photometric", "quantity": quantity,
-                                               "range_lo_cd_m2": lo, "range_hi_cd_m2": hi})
+    return DisplayResult(
+        img, s8, s16, None, {"mode": "photometric", "quantity": quantity, "range_lo_cd_m2": lo, "range_hi_cd_m2": hi}
+    )
 
 
-def render_display(buffers: ViewLight, view_geometry: ViewGeometry,
-                   observer: ObserverSettings | None = None, mode: str = "adapted", *,
-                   state: _adaptation.AdaptationState | None = None, exposure: float | None = None,
-                   photometric_quantity: str = "photopic",
-                   photometric_range_cd_m2: tuple[float, float] | None = None,
-                   retina=None) -> DisplayResult:
+def render_display(
+    buffers: ViewLight,
+    view_geometry: ViewGeometry,
+    observer: ObserverSettings | None = None,
+    mode: str = "adapted",
+    *,
+    state: _adaptation.AdaptationState | None = None,
+    exposure: float | None = None,
+    photometric_quantity: str = "photopic",
+    photometric_range_cd_m2: tuple[float, float] | None = None,
+    retina=None,
+) -> DisplayResult:
     """Turn one view's light buffers into a display image.
 
     Parameters
@@ -312,19 +358,25 @@ def render_display(buffers: ViewLight, view_geometry: ViewGeometry,
     _check_mode(mode)
     buffers.check(view_geometry)
     if mode == "photometric":
-        return photometric_display(buffers, view_geometry, observer, quantity=photometric_quantity,
-                                   range_cd_m2=photometric_range_cd_m2)
+        return photometric_display(
+            buffers, view_geometry, observer, quantity=photometric_quantity, range_cd_m2=photometric_range_cd_m2
+        )
     if mode == "shared" and state is None:
         raise ValueError("mode 'shared' needs the shared adaptation state; use shared_display()")
     retina = retinal_image(buffers, view_geometry, observer) if retina is None else retina
     if state is None:
-        state = measure_adaptation(retina[0], retina[1], view_geometry, observer,
-                                   exclusion_mask(buffers, observer), buffers)
+        state = measure_adaptation(
+            retina[0], retina[1], view_geometry, observer, exclusion_mask(buffers, observer), buffers
+        )
     return _map_with_state(buffers, view_geometry, observer, state, retina, mode, exposure)
 
 
-def shared_display(buffers_list: Sequence[ViewLight], view_geometries: Sequence[ViewGeometry] | ViewGeometry,
-                   observer: ObserverSettings | None = None, retinas=None) -> list[DisplayResult]:
+def shared_display(
+    buffers_list: Sequence[ViewLight],
+    view_geometries: Sequence[ViewGeometry] | ViewGeometry,
+    observer: ObserverSettings | None = None,
+    retinas=None,
+) -> list[DisplayResult]:
     """Map a set of views (e.g. before and after) with **one** adaptation state and scale.
 
     The state comes from the views' adaptation fields averaged with equal weight
@@ -344,9 +396,12 @@ def shared_display(buffers_list: Sequence[ViewLight], view_geometries: Sequence[
     first = buffers_list[0]
     state = _adaptation.shared_adaptation_state(
         [(r[0], r[1], g, exclusion_mask(b, observer)) for r, g, b in zip(retinas, view_geometries, buffers_list)],
-        field_deg=observer.adaptation_field_deg, override_cd_m2=observer.adaptation_cd_m2,
-        white_xyz=first.white_xyz, white_scotopic=first.white_scotopic,
-        chromatic_adaptation_degree=observer.chromatic_adaptation_degree)
+        field_deg=observer.adaptation_field_deg,
+        override_cd_m2=observer.adaptation_cd_m2,
+        white_xyz=first.white_xyz,
+        white_scotopic=first.white_scotopic,
+        chromatic_adaptation_degree=observer.chromatic_adaptation_degree,
+    )
     # One luminance adaptation for all views; each keeps the colour of its own light as its
     # adapting white (an observer in each street adapts to that street's light).
     out = []

@@ -53,8 +53,9 @@ def highlight_rolloff(y, knee: float = HIGHLIGHT_KNEE) -> np.ndarray:
     return np.where(y <= knee, y, knee + (1.0 - knee) * (1.0 - np.exp(-over / (1.0 - knee))))
 
 
-def to_display_relative(xyz_cd_m2: np.ndarray, scale: float, display_peak_cd_m2: float,
-                        knee: float | None = HIGHLIGHT_KNEE) -> np.ndarray:
+def to_display_relative(
+    xyz_cd_m2: np.ndarray, scale: float, display_peak_cd_m2: float, knee: float | None = HIGHLIGHT_KNEE
+) -> np.ndarray:
     """Display-relative XYZ (Y = 1 at the display peak) of scene XYZ in cd/m².
 
     ``Y_rel = scale·Y/peak``, then :func:`highlight_rolloff` on Y with chromaticity kept

@@ -46,7 +46,7 @@ class ViewGeometry:
         problems.raise_if_any()
 
     @classmethod
-    def of(cls, camera) -> "ViewGeometry":
+    def of(cls, camera) -> ViewGeometry:
         """The geometry of any object with ``hfov_deg``, ``width_px`` and ``height_px``
         attributes (e.g. the renderer's camera; same pixel conventions)."""
         return cls(float(camera.hfov_deg), int(camera.width_px), int(camera.height_px))
