@@ -2,9 +2,23 @@
 
 The package is laid out in the order data flows through it:
 
-scene -> geometry -> rays -> light buffers -> colorimetry -> vision -> images and reports
+scene -> geometry -> rays -> light -> colour -> vision -> analysis -> output
 
 See DEVELOPERS.md at the repository root for the map of modules.
 """
 
-__version__ = "0.1.0"
+import os as _os
+
+from render.resources import installed_version as _installed_version
+from render.resources import numba_cache_dir as _numba_cache_dir
+
+__all__ = ["__version__"]
+
+__version__: str = _installed_version()
+
+# Before any kernel module imports numba: a read-only installation caches compiled kernels in
+# a per-user folder (see render.resources.numba_cache_dir).
+_cache = _numba_cache_dir()
+if _cache is not None:
+    _os.environ["NUMBA_CACHE_DIR"] = str(_cache)
+del _cache

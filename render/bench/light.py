@@ -20,7 +20,9 @@ from pathlib import Path
 
 import numpy as np
 
-DEMO = Path(__file__).resolve().parents[2] / "scenes" / "demo" / "linden_row.toml"
+from render.resources import demo_scene_path
+
+DEMO = demo_scene_path()
 
 
 def _timed(fn, repeat: int = 1):
