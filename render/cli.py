@@ -15,13 +15,13 @@ from pathlib import Path
 import numpy as np
 
 from render import __version__
+from render.resources import demo_scene_path
 from render.errors import InputError, Problem, input_error
 from render.fileio import file_stem
 from render.output.provenance import image_metadata
 from render.output.report import STANDING_CAUTION as CAUTION  # one wording of the caution everywhere
 
-REPO_ROOT = Path(__file__).resolve().parents[1]
-DEMO_SCENE = REPO_ROOT / "scenes" / "demo" / "linden_row.toml"
+DEMO_SCENE = demo_scene_path()
 
 
 def _out_dir(path: str | None, default: str) -> Path:

@@ -324,15 +324,15 @@ def _check_rows(rows: list[tuple[int, float, float]], problems: ProblemList) -> 
 def default_materials_dir() -> Path:
     """The folder :func:`material_library` reads when given none.
 
-    ``$LAMPCAST_MATERIALS`` if set (and not empty), else the repository's ``materials/``
-    folder (``Path(render.__file__).resolve().parents[1] / "materials"``).
+    ``$LAMPCAST_MATERIALS`` if set (and not empty), else the library shipped with lampcast
+    (the repository's ``materials/``, package data of an installed lampcast).
     """
     env = os.environ.get(MATERIALS_ENV, "").strip()
     if env:
         return Path(env).expanduser()
-    import render
+    from render.resources import bundled_path
 
-    return Path(render.__file__).resolve().parents[1] / "materials"
+    return bundled_path("materials")
 
 
 def material_library(directory: str | Path | None = None) -> dict[str, Material]:
