@@ -38,6 +38,7 @@ from numba import prange
 from render.geometry.mesh import TriangleMesh
 from render.light.luminaires import LuminaireSet
 from render.light.photometry import direction_to_c_gamma, intensity_lookup
+from render.progress import progress_bar
 from render.rays.bvh import (
     BVH,
     build_bvh,
@@ -535,11 +536,7 @@ def cast_view(
     em_tris = emitter_triangles(lights)
     em_bvh = build_bvh(em_tris) if lights.n_luminaires else None
     n_mat = len(mesh.material_names)
-    rows = range(0, H, tile_rows)
-    if progress:
-        from tqdm import tqdm
-
-        rows = tqdm(rows, desc="camera rays", unit="tile", leave=False)
+    rows = progress_bar(range(0, H, tile_rows), "camera rays", quiet=not progress, unit="tile")
     k = np.arange(spp, dtype=np.int64)
     for y0 in rows:
         y1 = min(H, y0 + tile_rows)
@@ -620,11 +617,7 @@ def evaluate_light(
     if grid is not None and grid.cell_items.size:
         # Keep the per-point candidate arrays (chunk × longest cell list) to a few million entries.
         chunk = max(4096, min(chunk, (1 << 22) // max(int(np.diff(grid.cell_start).max()), 1)))
-    starts = range(0, S, chunk)
-    if progress:
-        from tqdm import tqdm
-
-        starts = tqdm(starts, desc="direct light", unit="chunk", leave=False)
+    starts = progress_bar(range(0, S, chunk), "direct light", quiet=not progress, unit="chunk")
     gloss = (
         buffers.material_gloss
         if buffers.material_gloss is not None
