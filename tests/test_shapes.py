@@ -1,5 +1,5 @@
-"""Tests for render.geometry.shapes (primitives, OBJ reader, transforms) and render.geometry.objects (street
-objects and their parameter registry).
+"""Tests for render.geometry.shapes (primitives, transforms), render.geometry.objfile (the OBJ
+reader) and render.geometry.objects (street objects and their parameter declarations).
 
 Check values come from analytic geometry; each check names its source beside it. Closedness
 and orientation are checked independently of the implementation: vertices are matched by
@@ -20,6 +20,7 @@ from render.errors import InputError
 from render.geometry import objects as O
 from render.geometry import shapes as S
 from render.geometry.mesh import face_normals, flat_normals
+from render.geometry.objfile import load_obj
 
 DATA = Path(__file__).parent / "data" / "obj"
 
@@ -391,7 +392,7 @@ def test_transform_bad_scale():
 
 
 def test_obj_cube_with_normals():
-    parts = S.load_obj(DATA / "cube_vn.obj")
+    parts = load_obj(DATA / "cube_vn.obj")
     assert [p.slot for p in parts] == ["paint"] and parts[0].n_triangles == 12
     assert_closed(parts)
     # Cube of side 2: V = 8, A = 24 (analytic); normals taken from the vn records (face-aligned).
@@ -401,12 +402,12 @@ def test_obj_cube_with_normals():
 
 
 def test_obj_quad_ignored_statements_and_up_axis():
-    parts = S.load_obj(DATA / "quad.obj", slot_map={"marking_white": "marking"})
+    parts = load_obj(DATA / "quad.obj", slot_map={"marking_white": "marking"})
     assert [p.slot for p in parts] == ["marking"] and parts[0].n_triangles == 2
     assert S.surface_area_m2(parts) == pytest.approx(1.0, rel=1e-12)  # unit square
     assert np.allclose(parts[0].normals, [0, 0, 1])
     # y-up file: its +z becomes -y, scale 0.5 halves lengths (area × 0.25).
-    yup = S.load_obj(DATA / "quad.obj", up_axis="y", scale=0.5)
+    yup = load_obj(DATA / "quad.obj", up_axis="y", scale=0.5)
     assert np.allclose(yup[0].normals, [0, -1, 0])
     assert np.allclose(face_normals(yup[0].triangles_m), [0, -1, 0])
     assert S.surface_area_m2(yup) == pytest.approx(0.25, rel=1e-12)
@@ -414,14 +415,14 @@ def test_obj_quad_ignored_statements_and_up_axis():
 
 
 def test_obj_negative_indices_and_materials():
-    parts = S.load_obj(DATA / "cube_negative.obj")
+    parts = load_obj(DATA / "cube_negative.obj")
     assert {p.slot: p.n_triangles for p in parts} == {"side": 8, "cap": 4}
     assert_closed(parts)
     assert S.signed_volume_m3(parts) == pytest.approx(1.0, rel=1e-12)  # unit cube
 
 
 def test_obj_concave_face_ear_clipped():
-    parts = S.load_obj(DATA / "concave_face.obj", default_slot="plate")
+    parts = load_obj(DATA / "concave_face.obj", default_slot="plate")
     assert parts[0].slot == "plate" and parts[0].n_triangles == 4
     assert S.surface_area_m2(parts) == pytest.approx(3.0, rel=1e-12)  # L-hexagon: 2·1 + 1·1
     assert np.allclose(face_normals(parts[0].triangles_m), [0, 0, 1])
@@ -448,7 +449,7 @@ def test_obj_concave_face_ear_clipped():
 )
 def test_obj_malformed(name, line, words):
     with pytest.raises(InputError) as info:
-        S.load_obj(DATA / name)
+        load_obj(DATA / name)
     problem = info.value.problems[0]
     assert problem.source.endswith(name)
     assert problem.where == (f"line {line}" if line else "")
@@ -457,11 +458,11 @@ def test_obj_malformed(name, line, words):
 
 def test_obj_unreadable_and_several_problems(tmp_path):
     with pytest.raises(InputError, match="cannot read"):
-        S.load_obj(tmp_path / "missing.obj")
+        load_obj(tmp_path / "missing.obj")
     f = tmp_path / "two.obj"
     f.write_text("v 0 0 0\nv 1 0 q\nv 1 1 0\nf 1 2 3\nf 1 2 7\n")
     with pytest.raises(InputError) as info:
-        S.load_obj(f)
+        load_obj(f)
     assert [p.where for p in info.value.problems] == ["line 2", "line 5"]
 
 
@@ -648,3 +649,59 @@ def test_registry_specs_match_builders():
         for spec in entry.params:
             assert spec.name in sig.parameters, (kind, spec.name)
             assert sig.parameters[spec.name].default == spec.default, (kind, spec.name)
+
+
+def test_one_declaration_drives_signature_checks_and_registry():
+    # The builders' signatures, their checks and the scene registry all come from the
+    # ParamSpec declarations (common practice, no source: a single source of truth).
+    import inspect
+
+    sig = inspect.signature(O.tree)
+    assert sig.parameters["canopy_shape"].kind is inspect.Parameter.POSITIONAL_OR_KEYWORD
+    assert sig.parameters["lumpiness"].kind is inspect.Parameter.KEYWORD_ONLY
+    assert sig.parameters["lumpiness"].default == O.tree.spec("lumpiness").default == 0.08
+    # A direct call and a scene file's params are checked by the same rule, with the same words.
+    ((key, msg),) = O.validate_params("lamp_column", {"height_m": 0.5})
+    with pytest.raises(O.ParameterError) as err:
+        O.lamp_column(height_m=0.5)
+    assert (err.value.key, err.value.message) == (key, msg) == ("height_m", "must be >= 1.5 m, got 0.5")
+    with pytest.raises(O.ParameterError, match="whole number"):
+        O.house_front(storeys=2.5)
+    with pytest.raises(O.ParameterError, match="expected one of"):
+        O.sign(shape="hexagon")
+    # Builder details are checked too but cannot be set from a scene file.
+    with pytest.raises(O.ParameterError, match="pole_radius_m"):
+        O.sign(pole_radius_m=0.0)
+    assert "pole_radius_m" not in {p.name for p in O.OBJECT_BUILDERS["sign"].params}
+    ((key, msg),) = O.validate_params("sign", {"pole_radius_m": 0.05})
+    assert key == "pole_radius_m" and "unknown parameter" in msg
+    # Values reach the body as plain Python numbers (a TOML integer for a float parameter).
+    lo, hi = S.bounds_m(O.bus_shelter(np.int64(5), 1.4, 2.6))
+    assert np.allclose(hi - lo, [1.4, 5.0, 2.6], atol=1e-12)
+    # The generated docstring lists every parameter with its range and default.
+    assert "height_m : float; m; 1.5 <= value <= 30; default 6.0" in O.lamp_column.__doc__
+
+
+def test_parametric_refuses_a_second_declaration():
+    spec = O.ParamSpec("size_m", "float", 1.0, "m", 0.0, 2.0)
+
+    def with_default(size_m: float = 1.0):
+        return size_m
+
+    def misnamed(length_m: float):
+        return length_m
+
+    with pytest.raises(TypeError, match="default in the body"):
+        O.parametric(spec)(with_default)
+    with pytest.raises(TypeError, match="differ"):
+        O.parametric(spec)(misnamed)
+    with pytest.raises(ValueError, match="breaks its own declaration"):
+        O.ParamSpec("size_m", "float", 3.0, "m", 0.0, 2.0)
+
+
+def test_obj_bad_arguments():
+    # Arguments, not file content: plain ValueError naming the argument.
+    with pytest.raises(ValueError, match="scale"):
+        load_obj(DATA / "quad.obj", scale=0.0)
+    with pytest.raises(ValueError, match="up_axis"):
+        load_obj(DATA / "quad.obj", up_axis="x")

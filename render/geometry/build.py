@@ -216,7 +216,7 @@ def _frontage(b: _Builder, f: Frontage, street: Street | None, source: str) -> N
 def _object(b: _Builder, o: StreetObject, source: str) -> None:
     from render.geometry.objects import OBJECT_BUILDERS
 
-    function = OBJECT_BUILDERS[o.kind][0]
+    function = OBJECT_BUILDERS[o.kind].function
     try:
         parts = function(**o.params)
     except ValueError as err:
@@ -241,7 +241,9 @@ def _geometry(b: _Builder, o: StreetObject) -> None:
     elif kind == "extrusion":
         parts = shapes.extrude(p["outline_m"], p["height_m"])
     elif kind == "obj":
-        parts = p.get("_parts") or shapes.load_obj(p["file"], scale=p["scale"], up_axis=p["up_axis"])
+        from render.geometry.objfile import load_obj
+
+        parts = p.get("_parts") or load_obj(p["file"], scale=p["scale"], up_axis=p["up_axis"])
     else:  # pragma: no cover - the loader checks kinds
         raise ValueError(kind)
     obj = b.new_object(o.tag.name, kind, o.tag.inspect, o.where)
@@ -314,8 +316,15 @@ def _columns(b: _Builder, scene: Scene) -> None:
         height = float(top[2] - base[2])
         if height <= 0.5:
             continue
-        tilt = float(np.clip(lum.tilt_deg, -15.0, 45.0))
-        column = lamp_column(height_m=height, outreach_m=min(outreach, 6.0), arm_tilt_deg=tilt)
+        # The column is drawn within its declared ranges even when the luminaire is placed beyond them.
+        tilt_spec, outreach_spec = lamp_column.spec("arm_tilt_deg"), lamp_column.spec("outreach_m")
+        tilt = float(np.clip(lum.tilt_deg, tilt_spec.minimum, tilt_spec.maximum))
+        try:
+            column = lamp_column(height_m=height, outreach_m=min(outreach, outreach_spec.maximum), arm_tilt_deg=tilt)
+        except ValueError as err:
+            raise input_error(
+                scene.path, lum.where, f"cannot draw the lamp column ({err}); give `column = false` to leave it out"
+            ) from None
         obj = b.new_object(f"column {lum.name}", "lamp column", False, lum.where)
         b.add_parts(_placed(column.parts, tuple(base), heading), {}, obj)
 
@@ -353,6 +362,6 @@ def object_slots(kind: str) -> tuple[str, ...]:
     """Material slot names of a parametric object kind (built once with default parameters)."""
     from render.geometry.objects import OBJECT_BUILDERS
 
-    result = OBJECT_BUILDERS[kind][0]()
+    result = OBJECT_BUILDERS[kind].function()
     parts = getattr(result, "parts", result)
     return tuple(sorted({p.slot for p in parts}))

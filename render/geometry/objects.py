@@ -12,18 +12,31 @@ world +y). What "forward" means per object:
   facade), so that their length/width runs along local y;
 - lamp column: the direction of the bracket arm (over the road).
 
-Typical dimensions are common practice with no single source; each default says so. Bad
-parameters raise :class:`ParameterError` (a ``ValueError`` carrying the parameter name); the
-scene loader validates ``[[objects]]`` entries with :func:`validate_params` against
-:data:`OBJECT_BUILDERS` and reports key paths itself.
+Parameters are declared once, as :class:`ParamSpec` records given to the :func:`parametric`
+decorator: name, type, default, unit, bounds, choices and description. The builder's public
+signature (defaults included), the checks of each value and their messages, the scene-file
+registry :data:`OBJECT_BUILDERS` and :func:`validate_params` all derive from them; the body of a
+builder declares its parameters without defaults and receives checked values. What is left in a
+body are the checks that involve several parameters (a trunk wider than its canopy), which
+raise :class:`ParameterError` (a ``ValueError`` carrying the parameter name). The scene loader
+validates ``[[objects]]`` entries with :func:`validate_params` and reports key paths itself.
+
+Typical dimensions are common practice with no single source; each default says so.
+
+References
+----------
+- Sutherland, I. E. and Hodgman, G. W. (1974), "Reentrant polygon clipping", Commun. ACM
+  17(1): the half-plane clipping of the side-window outlines.
 """
 
 from __future__ import annotations
 
+import functools
+import inspect
 import math
-from collections.abc import Callable
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
-from typing import Any, NamedTuple
+from typing import Any, Generic, TypeVar
 
 import numpy as np
 
@@ -34,6 +47,9 @@ from render.geometry.shapes import Part
 __all__ = [
     "ParameterError",
     "ParamSpec",
+    "Builder",
+    "parametric",
+    "parameters_doc",
     "ObjectKind",
     "BuiltObject",
     "LightOpening",
@@ -67,31 +83,184 @@ class ParameterError(ValueError):
 
 
 # ---------------------------------------------------------------------------------------------
-# Small helpers
+# Parameter declarations
 # ---------------------------------------------------------------------------------------------
 
-
-def _num(key: str, value, lo: float | None = None, hi: float | None = None, *, lo_open: bool = False) -> float:
-    if isinstance(value, bool) or not isinstance(value, (int, float, np.integer, np.floating)):
-        raise ParameterError(key, f"expected a number, got {value!r}")
-    v = float(value)
-    if not math.isfinite(v):
-        raise ParameterError(key, f"expected a finite number, got {value!r}")
-    if lo is not None and (v < lo or (lo_open and v == lo)):
-        raise ParameterError(key, f"must be {'>' if lo_open else '>='} {lo:g}, got {v:g}")
-    if hi is not None and v > hi:
-        raise ParameterError(key, f"must be <= {hi:g}, got {v:g}")
-    return v
+_TYPE_WORDS = {"float": "a number", "int": "a whole number", "str": "a string", "bool": "true or false"}
 
 
-def _choice(key: str, value, choices) -> Any:
-    if value not in choices:
-        raise ParameterError(
-            key,
-            f"expected one of {', '.join(map(repr, choices))}, got {value!r}"
-            + (did_you_mean(str(value), map(str, choices)) if isinstance(value, str) else ""),
+def _num_text(x: float) -> str:
+    """A bound as text: whole numbers in full (2147483647, not 2.14748e+09), others as ``:g``."""
+    return str(int(x)) if float(x).is_integer() and abs(x) < 1e15 else f"{x:g}"
+
+
+@dataclass(frozen=True)
+class ParamSpec:
+    """One builder parameter: the single declaration of its type, default, unit and bounds.
+
+    ``type`` is ``"float"`` (accepts integers too), ``"int"``, ``"str"`` or ``"bool"``;
+    ``default`` ``None`` means "derived from other parameters" (``None`` is then also accepted
+    as a value); ``minimum``/``maximum`` are inclusive unless ``exclusive_minimum``;
+    ``choices`` lists the allowed values. ``scene`` is False for builder details a scene file
+    cannot set (mesh resolution, small fixed dimensions).
+    """
+
+    name: str
+    type: str
+    default: Any
+    unit: str = ""
+    minimum: float | None = None
+    maximum: float | None = None
+    exclusive_minimum: bool = False
+    choices: tuple | None = None
+    doc: str = ""
+    scene: bool = True
+
+    def __post_init__(self) -> None:
+        if self.type not in _TYPE_WORDS:
+            raise ValueError(f"{self.name}: unknown parameter type {self.type!r}")
+        if self.default is not None and self.problem(self.default) is not None:
+            raise ValueError(f"{self.name}: the default {self.default!r} breaks its own declaration")
+
+    def _type_ok(self, value: Any) -> bool:
+        if self.type == "bool":
+            return isinstance(value, (bool, np.bool_))
+        if isinstance(value, (bool, np.bool_)):
+            return False
+        if self.type == "float":
+            return isinstance(value, (int, float, np.integer, np.floating))
+        if self.type == "int":
+            return isinstance(value, (int, np.integer))
+        return isinstance(value, str)
+
+    def problem(self, value: Any) -> str | None:
+        """What is wrong with ``value`` for this parameter, or None when it is acceptable."""
+        if value is None and self.default is None:
+            return None
+        unit = f" {self.unit}" if self.unit else ""
+        if not self._type_ok(value):
+            return f"expected {_TYPE_WORDS[self.type]}{' (' + self.unit + ')' if self.unit else ''}, got {value!r}"
+        if self.choices is not None and value not in self.choices:
+            return f"expected one of {', '.join(map(repr, self.choices))}, got {value!r}" + (
+                did_you_mean(value, map(str, self.choices)) if isinstance(value, str) else ""
+            )
+        if self.type in ("float", "int"):
+            v = float(value)
+            if not math.isfinite(v):
+                return f"expected a finite number{unit}, got {value!r}"
+            if self.minimum is not None and (v < self.minimum or (self.exclusive_minimum and v == self.minimum)):
+                op = ">" if self.exclusive_minimum else ">="
+                return f"must be {op} {_num_text(self.minimum)}{unit}, got {value!r}"
+            if self.maximum is not None and v > self.maximum:
+                return f"must be <= {_num_text(self.maximum)}{unit}, got {value!r}"
+        return None
+
+    def checked(self, value: Any) -> Any:
+        """``value`` as the builder receives it (a Python float, int, str or bool); raises
+        :class:`ParameterError` with :meth:`problem`'s message."""
+        message = self.problem(value)
+        if message is not None:
+            raise ParameterError(self.name, message)
+        if value is None:
+            return None
+        return {"float": float, "int": int, "str": str, "bool": bool}[self.type](value)
+
+
+def _P(
+    name: str,
+    type_: str,
+    default: Any,
+    unit: str = "",
+    lo: float | None = None,
+    hi: float | None = None,
+    excl: bool = False,
+    choices: tuple | None = None,
+    doc: str = "",
+    scene: bool = True,
+) -> ParamSpec:
+    """Short positional form of :class:`ParamSpec` for the declarations below."""
+    return ParamSpec(name, type_, default, unit, lo, hi, excl, choices, doc, scene)
+
+
+T = TypeVar("T")
+
+
+class Builder(Generic[T]):
+    """A builder function whose parameters come from :class:`ParamSpec` declarations.
+
+    Calling it binds the arguments to the signature derived from the specs (positional or
+    keyword-only as in the body's own signature, defaults from the specs), checks each value
+    with :meth:`ParamSpec.checked` and calls the body with the checked values.
+    """
+
+    def __init__(self, body: Callable[..., T], specs: tuple[ParamSpec, ...]):
+        body_sig = inspect.signature(body)
+        names = [p.name for p in body_sig.parameters.values()]
+        if names != [s.name for s in specs]:
+            raise TypeError(f"{body.__name__}: body parameters {names} differ from the declared ones")
+        for p in body_sig.parameters.values():
+            if p.default is not inspect.Parameter.empty:
+                raise TypeError(f"{body.__name__}: {p.name} has a default in the body; declare it in its ParamSpec")
+        self.body = body
+        self.specs = specs
+        self.__signature__ = body_sig.replace(
+            parameters=[p.replace(default=s.default) for p, s in zip(body_sig.parameters.values(), specs)]
         )
-    return value
+        functools.update_wrapper(self, body)
+        self.__doc__ = (inspect.cleandoc(body.__doc__ or "") + "\n\n" + parameters_doc(specs)).strip()
+
+    def __call__(self, *args: Any, **kwargs: Any) -> T:
+        bound = self.__signature__.bind(*args, **kwargs)
+        bound.apply_defaults()
+        return self.body(**{s.name: s.checked(bound.arguments[s.name]) for s in self.specs})
+
+    def spec(self, name: str) -> ParamSpec:
+        """The declaration of parameter ``name``."""
+        for s in self.specs:
+            if s.name == name:
+                return s
+        raise KeyError(name)
+
+    def __repr__(self) -> str:
+        return f"<object builder {self.__name__}{self.__signature__}>"
+
+
+def parameters_doc(specs: tuple[ParamSpec, ...]) -> str:
+    """A numpydoc "Parameters" section listing ``specs``: type, unit, range or choices,
+    default and description (builder details a scene file cannot set are marked)."""
+    lines = ["Parameters", "----------"]
+    for s in specs:
+        facts = [{"float": "float", "int": "int", "str": "str", "bool": "bool"}[s.type]]
+        if s.unit:
+            facts.append(s.unit)
+        if s.choices is not None:
+            facts.append("one of " + ", ".join(map(repr, s.choices)))
+        elif s.minimum is not None or s.maximum is not None:
+            lo = "" if s.minimum is None else f"{_num_text(s.minimum)} {'<' if s.exclusive_minimum else '<='} "
+            hi = "" if s.maximum is None else f" <= {_num_text(s.maximum)}"
+            facts.append(f"{lo}value{hi}")
+        facts.append("default derived" if s.default is None else f"default {s.default!r}")
+        if not s.scene:
+            facts.append("not settable in scene files")
+        lines.append(f"{s.name} : {'; '.join(facts)}")
+        if s.doc:
+            lines.append(f"    {s.doc[0].upper()}{s.doc[1:]}.")
+    return "\n".join(lines)
+
+
+def parametric(*specs: ParamSpec) -> Callable[[Callable[..., T]], Builder[T]]:
+    """Decorator: turn a body declaring its parameters without defaults into a :class:`Builder`
+    whose defaults, checks and messages come from ``specs`` (one per body parameter, in order)."""
+
+    def wrap(body: Callable[..., T]) -> Builder[T]:
+        return Builder(body, specs)
+
+    return wrap
+
+
+# ---------------------------------------------------------------------------------------------
+# Small helpers
+# ---------------------------------------------------------------------------------------------
 
 
 def _extrude_xz(profile_xz, y_min: float, y_max: float, slot: str, cap_slot: str | None = None) -> list[Part]:
@@ -136,20 +305,25 @@ BIN_SIZES: dict[int, dict[str, float]] = {
 }
 
 
-def wheelie_bin(capacity_l: int = 240, *, segments: int = 12) -> list[Part]:
+@parametric(
+    _P(
+        "capacity_l",
+        "int",
+        240,
+        "L",
+        choices=tuple(BIN_SIZES),
+        doc="nominal capacity: 120, 240, 360 (two wheels and a handle at the back) or 660, 1100 "
+        "(four castors); outer sizes in BIN_SIZES (common practice, no source)",
+    ),
+    _P("segments", "int", 12, "", 3, doc="facets around each wheel", scene=False),
+)
+def wheelie_bin(capacity_l: int, *, segments: int) -> list[Part]:
     """A wheeled waste container.
-
-    Parameters
-    ----------
-    capacity_l
-        Nominal volume in litres: 120, 240, 360 (two wheels at the back, handle at the back) or
-        660, 1100 (four castors). Outer sizes in :data:`BIN_SIZES` (common practice, no source).
 
     Slots ``body``, ``lid``, ``wheels``. Forward (+x) is the front lip, away from the handle.
     Overall bounds: x ±depth/2, y ±width/2, z 0..height.
     """
-    cap = _choice("capacity_l", capacity_l, tuple(BIN_SIZES))
-    d = BIN_SIZES[cap]
+    d = BIN_SIZES[capacity_l]
     h, w, dep = d["height_m"], d["width_m"], d["depth_m"]
     lid_t = 0.04
     parts: list[Part] = []
@@ -327,24 +501,25 @@ def _clip_half_plane(poly: np.ndarray, axis: int, value: float, keep_greater: bo
     return np.array(out).reshape(-1, 2)
 
 
+@parametric(
+    _P("body_style", "str", "hatchback", choices=tuple(CAR_STYLES), doc="body style; 'van' is a panel van"),
+    _P("length_m", "float", None, "m", 2.0, 8.0, doc="overall length (default per style)"),
+    _P("width_m", "float", None, "m", 1.2, 2.8, doc="overall width without mirrors (default per style)"),
+    _P("height_m", "float", None, "m", 0.9, 3.5, doc="overall height (default per style)"),
+    _P("wheel_segments", "int", 14, "", 3, doc="facets around each wheel", scene=False),
+)
 def car(
-    body_style: str = "hatchback",
-    length_m: float | None = None,
-    width_m: float | None = None,
-    height_m: float | None = None,
+    body_style: str,
+    length_m: float | None,
+    width_m: float | None,
+    height_m: float | None,
     *,
-    wheel_segments: int = 14,
+    wheel_segments: int,
 ) -> list[Part]:
     """A recognisable low-poly car or van.
 
-    Parameters
-    ----------
-    body_style
-        ``"hatchback"``, ``"saloon"``, ``"estate"``, ``"van"`` (panel van) or ``"suv"``.
-    length_m, width_m, height_m
-        Overall size (excluding mirrors); defaults per style in :data:`CAR_STYLES` (common
-        practice, no source). The proportions (wheel size, beltline, greenhouse) scale with the
-        overall size.
+    Default sizes per style are in :data:`CAR_STYLES` (common practice, no source); the
+    proportions (wheel size, beltline, greenhouse) scale with the overall size.
 
     Construction: the lower body is a chamfered side outline with wheel-arch notches extruded
     across the width; the greenhouse is a trapezoid outline (sloped windscreen and rear window)
@@ -355,10 +530,10 @@ def car(
     Slots ``body`` (paint), ``glass``, ``tyre``, ``rim`` (wheel discs), ``trim`` (black arch
     liners), ``lights`` (front lamps), ``tail_lights``. Forward is +x; bounds x ±length/2, y ±width/2, z 0..height.
     """
-    style = CAR_STYLES[_choice("body_style", body_style, tuple(CAR_STYLES))]
-    L = _num("length_m", style["length_m"] if length_m is None else length_m, 2.0, 8.0)
-    W = _num("width_m", style["width_m"] if width_m is None else width_m, 1.2, 2.8)
-    H = _num("height_m", style["height_m"] if height_m is None else height_m, 0.9, 3.5)
+    style = CAR_STYLES[body_style]
+    L = style["length_m"] if length_m is None else length_m
+    W = style["width_m"] if width_m is None else width_m
+    H = style["height_m"] if height_m is None else height_m
     if not 2.2 <= L / H <= 4.5:
         raise ParameterError("", f"length_m / height_m must be in 2.2..4.5 for a car shape, got {L / H:.2f}")
     if not 0.8 <= W / H <= 2.2:
@@ -510,42 +685,58 @@ def car(
 # ---------------------------------------------------------------------------------------------
 
 
+@parametric(
+    _P(
+        "trunk_height_m",
+        "float",
+        2.5,
+        "m",
+        0.0,
+        30.0,
+        True,
+        doc="clear stem height, ground to the lowest point of the canopy (street trees about 2-3 m; "
+        "common practice, no source)",
+    ),
+    _P("trunk_radius_m", "float", 0.15, "m", 0.0, 2.0, True, doc="trunk radius at the ground (70 % at the top)"),
+    _P("canopy_radius_m", "float", 2.0, "m", 0.0, 20.0, True, doc="horizontal radius of the canopy"),
+    _P(
+        "canopy_shape",
+        "str",
+        "sphere",
+        choices=("sphere", "cone", "ellipsoid"),
+        doc="'ellipsoid' is canopy_height_m high (default 1.5 x the diameter); 'cone' is a conifer "
+        "(default height 2.5 x the radius)",
+    ),
+    _P("canopy_height_m", "float", None, "m", 0.0, 40.0, True, doc="vertical extent (ellipsoid, cone)"),
+    _P(
+        "lumpiness",
+        "float",
+        0.08,
+        "",
+        0.0,
+        0.3,
+        doc="relative radial irregularity of sphere and ellipsoid canopies (0 = smooth); top and bottom "
+        "points stay in place",
+    ),
+    _P("seed", "int", 0, "", 0, 2**31 - 1, doc="makes the lumpiness repeatable"),
+    _P("subdivisions", "int", 2, "", 0, doc="icosphere subdivisions of the canopy", scene=False),
+)
 def tree(
-    trunk_height_m: float = 2.5,
-    trunk_radius_m: float = 0.15,
-    canopy_radius_m: float = 2.0,
-    canopy_shape: str = "sphere",
+    trunk_height_m: float,
+    trunk_radius_m: float,
+    canopy_radius_m: float,
+    canopy_shape: str,
     *,
-    canopy_height_m: float | None = None,
-    lumpiness: float = 0.08,
-    seed: int = 0,
-    subdivisions: int = 2,
+    canopy_height_m: float | None,
+    lumpiness: float,
+    seed: int,
+    subdivisions: int,
 ) -> list[Part]:
     """A street tree: a tapered trunk and a closed canopy.
 
-    Parameters
-    ----------
-    trunk_height_m
-        Clear stem height: ground to the lowest point of the canopy (common practice for
-        street trees about 2–3 m, no source).
-    trunk_radius_m
-        Trunk radius at the ground (tapering to 70 % at the top).
-    canopy_radius_m
-        Horizontal radius of the canopy.
-    canopy_shape
-        ``"sphere"``, ``"ellipsoid"`` (vertical extent ``canopy_height_m``, default 1.5 × the
-        diameter) or ``"cone"`` (a conifer; height ``canopy_height_m``, default 2.5 × radius).
-    lumpiness
-        Relative radial irregularity of sphere/ellipsoid canopies (0 = smooth); deterministic
-        for a given ``seed``; the top and bottom points are kept in place.
-
     Slots ``trunk``, ``canopy``. Overall height: trunk_height_m + canopy vertical extent.
     """
-    th = _num("trunk_height_m", trunk_height_m, 0.0, 30.0, lo_open=True)
-    tr = _num("trunk_radius_m", trunk_radius_m, 0.0, 2.0, lo_open=True)
-    cr = _num("canopy_radius_m", canopy_radius_m, 0.0, 20.0, lo_open=True)
-    shape = _choice("canopy_shape", canopy_shape, ("sphere", "cone", "ellipsoid"))
-    lump = _num("lumpiness", lumpiness, 0.0, 0.3)
+    th, tr, cr, shape, lump = trunk_height_m, trunk_radius_m, canopy_radius_m, canopy_shape, lumpiness
     if tr >= cr:
         raise ParameterError("trunk_radius_m", f"must be smaller than canopy_radius_m ({cr:g}), got {tr:g}")
     if shape == "sphere":
@@ -553,9 +744,9 @@ def tree(
             raise ParameterError("canopy_height_m", "a spherical canopy is 2 × canopy_radius_m high; use 'ellipsoid'")
         ch = 2 * cr
     elif shape == "ellipsoid":
-        ch = 3.0 * cr if canopy_height_m is None else _num("canopy_height_m", canopy_height_m, 0.0, 40.0, lo_open=True)
+        ch = 3.0 * cr if canopy_height_m is None else canopy_height_m
     else:
-        ch = 2.5 * cr if canopy_height_m is None else _num("canopy_height_m", canopy_height_m, 0.0, 40.0, lo_open=True)
+        ch = 2.5 * cr if canopy_height_m is None else canopy_height_m
     parts: list[Part] = []
     top_z = th + (0.5 * ch if shape != "cone" else 0.3 * ch)
     parts += sh.frustum((0, 0, 0), (0, 0, top_z), tr, 0.7 * tr, segments=10, slot="trunk")
@@ -581,14 +772,22 @@ def tree(
     return sh.merge_parts(parts)
 
 
+@parametric(
+    _P("length_m", "float", 3.0, "m", 0.0, 200.0, True, doc="along local x"),
+    _P("height_m", "float", 1.2, "m", 0.0, 10.0, True, doc="highest point of the top"),
+    _P("depth_m", "float", 0.8, "m", 0.0, 10.0, True, doc="across, along local y"),
+    _P("roughness_m", "float", 0.05, "m", 0.0, 1.0, doc="how much the top varies"),
+    _P("spacing_m", "float", 0.35, "m", 0.05, doc="grid step of the top surface", scene=False),
+    _P("seed", "int", 0, "", 0, 2**31 - 1, doc="makes the roughness repeatable"),
+)
 def hedge(
-    length_m: float = 3.0,
-    height_m: float = 1.2,
-    depth_m: float = 0.8,
+    length_m: float,
+    height_m: float,
+    depth_m: float,
     *,
-    roughness_m: float = 0.05,
-    spacing_m: float = 0.35,
-    seed: int = 0,
+    roughness_m: float,
+    spacing_m: float,
+    seed: int,
 ) -> list[Part]:
     """A clipped hedge: a closed block with a gently domed, slightly irregular top.
 
@@ -596,11 +795,7 @@ def hedge(
     ``roughness_m`` (deterministic for ``seed``) and its highest point is exactly ``height_m``.
     Slot ``foliage``.
     """
-    L = _num("length_m", length_m, 0.0, 200.0, lo_open=True)
-    H = _num("height_m", height_m, 0.0, 10.0, lo_open=True)
-    D = _num("depth_m", depth_m, 0.0, 10.0, lo_open=True)
-    rough = _num("roughness_m", roughness_m, 0.0, None)
-    step = _num("spacing_m", spacing_m, 0.05, None)
+    L, H, D, rough, step = length_m, height_m, depth_m, roughness_m, spacing_m
     if rough >= 0.5 * H:
         raise ParameterError("roughness_m", f"must be below half of height_m ({H:g}), got {rough:g}")
     nx = max(2, int(math.ceil(L / step)) + 1)
@@ -633,17 +828,19 @@ def hedge(
     return [sh.flat_part(np.concatenate(tris), "foliage")]
 
 
-def bollard(
-    height_m: float = 0.9, radius_m: float = 0.08, *, band_height_m: float = 0.06, segments: int = 16
-) -> list[Part]:
+@parametric(
+    _P("height_m", "float", 0.9, "m", 0.2, 3.0),
+    _P("radius_m", "float", 0.08, "m", 0.01, 1.0),
+    _P("band_height_m", "float", 0.06, "m", 0.0, 0.5, True, doc="reflective band, 0.1 m below the top"),
+    _P("segments", "int", 16, "", 3, doc="facets around the post", scene=False),
+)
+def bollard(height_m: float, radius_m: float, *, band_height_m: float, segments: int) -> list[Part]:
     """A round street bollard with a chamfered top and a reflective band.
 
     Typical 0.9–1.0 m high, 0.1–0.2 m diameter (common practice, no source). The band
     (``band_height_m`` high, 2 mm proud) sits 0.1 m below the top. Slots ``post``, ``band``.
     """
-    h = _num("height_m", height_m, 0.2, 3.0)
-    r = _num("radius_m", radius_m, 0.01, 1.0)
-    bh = _num("band_height_m", band_height_m, 0.0, None, lo_open=True)
+    h, r, bh = height_m, radius_m, band_height_m
     if bh + 0.1 + 0.2 * r >= h:
         raise ParameterError("band_height_m", "the band does not fit below the top")
     ch = min(0.2 * r, 0.3 * h)
@@ -659,7 +856,12 @@ def bollard(
 # ---------------------------------------------------------------------------------------------
 
 
-def bus_shelter(length_m: float = 4.0, depth_m: float = 1.5, height_m: float = 2.5) -> list[Part]:
+@parametric(
+    _P("length_m", "float", 4.0, "m", 1.0, 20.0, doc="along local y"),
+    _P("depth_m", "float", 1.5, "m", 0.6, 5.0),
+    _P("height_m", "float", 2.5, "m", 2.0, 5.0),
+)
+def bus_shelter(length_m: float, depth_m: float, height_m: float) -> list[Part]:
     """A glazed bus shelter open at the front (+x), its length along local y.
 
     Typical 3–6 m long, 1.3–1.8 m deep, about 2.5 m high (common practice, no source).
@@ -667,9 +869,7 @@ def bus_shelter(length_m: float = 4.0, depth_m: float = 1.5, height_m: float = 2
     end panels (``glass``) and a bench against the back (``bench``). Bounds: x ±depth/2,
     y ±length/2, z 0..height.
     """
-    L = _num("length_m", length_m, 1.0, 20.0)
-    D = _num("depth_m", depth_m, 0.6, 5.0)
-    H = _num("height_m", height_m, 2.0, 5.0)
+    L, D, H = length_m, depth_m, height_m
     p = 0.06  # post section
     roof_t = 0.08
     zr = H - roof_t
@@ -703,14 +903,22 @@ def bus_shelter(length_m: float = 4.0, depth_m: float = 1.5, height_m: float = 2
     return sh.merge_parts(parts)
 
 
+@parametric(
+    _P("height_m", "float", 2.7, "m", 0.3, 10.0, doc="top of the panel"),
+    _P("panel_width_m", "float", 0.6, "m", 0.05, 5.0),
+    _P("panel_height_m", "float", 0.6, "m", 0.05, 5.0),
+    _P("shape", "str", "rect", choices=("rect", "circle", "triangle")),
+    _P("pole_radius_m", "float", 0.038, "m", 0.005, 0.3, scene=False),
+    _P("thickness_m", "float", 0.004, "m", 0.0005, 0.1, doc="panel thickness", scene=False),
+)
 def sign(
-    height_m: float = 2.7,
-    panel_width_m: float = 0.6,
-    panel_height_m: float = 0.6,
-    shape: str = "rect",
+    height_m: float,
+    panel_width_m: float,
+    panel_height_m: float,
+    shape: str,
     *,
-    pole_radius_m: float = 0.038,
-    thickness_m: float = 0.004,
+    pole_radius_m: float,
+    thickness_m: float,
 ) -> list[Part]:
     """A post-mounted traffic sign facing +x.
 
@@ -720,12 +928,7 @@ def sign(
     Typical lower edge 2.1 m above a footway, 76 mm posts (common practice, no source).
     Slots ``pole``, ``panel`` (the sign face), ``back`` (rear and edges).
     """
-    h = _num("height_m", height_m, 0.3, 10.0)
-    pw = _num("panel_width_m", panel_width_m, 0.05, 5.0)
-    ph = _num("panel_height_m", panel_height_m, 0.05, 5.0)
-    kind = _choice("shape", shape, ("rect", "circle", "triangle"))
-    rp = _num("pole_radius_m", pole_radius_m, 0.005, 0.3)
-    t = _num("thickness_m", thickness_m, 0.0005, 0.1)
+    h, pw, ph, kind, rp, t = height_m, panel_width_m, panel_height_m, shape, pole_radius_m, thickness_m
     if ph >= h:
         raise ParameterError("panel_height_m", f"must be below height_m ({h:g}), got {ph:g}")
     zc = h - ph / 2
@@ -742,14 +945,15 @@ def sign(
     return sh.merge_parts(parts)
 
 
-def pedestrian(height_m: float = 1.75) -> list[Part]:
+@parametric(_P("height_m", "float", 1.75, "m", 0.5, 2.5, doc="top of the head"))
+def pedestrian(height_m: float) -> list[Part]:
     """A simple standing figure facing +x, arms at the sides.
 
     Proportions scale with ``height_m`` (rough adult proportions, common practice, no
     source: crotch at 0.47 H, shoulders at 0.82 H, head 0.13 H). Slots ``legs``, ``torso``
     (clothing), ``arms`` (sleeves), ``head`` (skin: head and neck). Top of head at height_m.
     """
-    H = _num("height_m", height_m, 0.5, 2.5)
+    H = height_m
     s = H / 1.75
     parts: list[Part] = []
     hip = 0.48 * H
@@ -821,31 +1025,57 @@ class LampColumn:
     opening: LightOpening
 
 
+@parametric(
+    _P(
+        "height_m",
+        "float",
+        6.0,
+        "m",
+        1.5,
+        30.0,
+        doc="mounting height, ground to the centre of the luminous opening (residential streets "
+        "typically 4-6 m, main roads 8-12 m; common practice, no source)",
+    ),
+    _P(
+        "outreach_m",
+        "float",
+        0.5,
+        "m",
+        0.0,
+        6.0,
+        doc="column axis to the opening centre, horizontally (typically 0-1.5 m; 0 is a post-top lantern)",
+    ),
+    _P(
+        "arm_tilt_deg",
+        "float",
+        5.0,
+        "deg",
+        -15.0,
+        45.0,
+        doc="upward tilt of arm and lantern (typically 0-15 deg; common practice, no source)",
+    ),
+    _P("base_radius_m", "float", 0.07, "m", 0.01, 1.0, scene=False),
+    _P("top_radius_m", "float", 0.04, "m", 0.005, 1.0, scene=False),
+    _P("arm_radius_m", "float", 0.025, "m", 0.005, 0.5, scene=False),
+    _P("housing_length_m", "float", 0.6, "m", 0.05, 3.0),
+    _P("housing_width_m", "float", 0.28, "m", 0.05, 3.0),
+    _P("housing_height_m", "float", 0.1, "m", 0.01, 1.0, scene=False),
+    _P("segments", "int", 12, "", 3, doc="facets around the column", scene=False),
+)
 def lamp_column(
-    height_m: float = 6.0,
-    outreach_m: float = 0.5,
-    arm_tilt_deg: float = 5.0,
+    height_m: float,
+    outreach_m: float,
+    arm_tilt_deg: float,
     *,
-    base_radius_m: float = 0.07,
-    top_radius_m: float = 0.04,
-    arm_radius_m: float = 0.025,
-    housing_length_m: float = 0.6,
-    housing_width_m: float = 0.28,
-    housing_height_m: float = 0.1,
-    segments: int = 12,
+    base_radius_m: float,
+    top_radius_m: float,
+    arm_radius_m: float,
+    housing_length_m: float,
+    housing_width_m: float,
+    housing_height_m: float,
+    segments: int,
 ) -> LampColumn:
     """A street-light column with a straight bracket arm and a flat lantern.
-
-    Parameters
-    ----------
-    height_m
-        Mounting height: ground to the centre of the luminous opening (residential streets
-        typically 4–6 m, main roads 8–12 m; common practice, no source).
-    outreach_m
-        Horizontal distance from the column axis to the opening centre (typically 0–1.5 m);
-        0 gives a post-top lantern centred over the column.
-    arm_tilt_deg
-        Upward tilt of arm and lantern (typically 0–15°, common practice, no source).
 
     Returns
     -------
@@ -853,15 +1083,9 @@ def lamp_column(
     lens is the opening face) and ``opening`` (:class:`LightOpening`, local frame; +x is the
     arm direction). Parts lie at z >= 0 with the column base at the origin.
     """
-    h = _num("height_m", height_m, 1.5, 30.0)
-    out = _num("outreach_m", outreach_m, 0.0, 6.0)
-    tilt = _num("arm_tilt_deg", arm_tilt_deg, -15.0, 45.0)
-    rb = _num("base_radius_m", base_radius_m, 0.01, 1.0)
-    rt = _num("top_radius_m", top_radius_m, 0.005, 1.0)
-    ra = _num("arm_radius_m", arm_radius_m, 0.005, 0.5)
-    hl = _num("housing_length_m", housing_length_m, 0.05, 3.0)
-    hw = _num("housing_width_m", housing_width_m, 0.05, 3.0)
-    hh = _num("housing_height_m", housing_height_m, 0.01, 1.0)
+    h, out, tilt = height_m, outreach_m, arm_tilt_deg
+    rb, rt, ra = base_radius_m, top_radius_m, arm_radius_m
+    hl, hw, hh = housing_length_m, housing_width_m, housing_height_m
     if rt > rb:
         raise ParameterError("top_radius_m", f"must not exceed base_radius_m ({rb:g}), got {rt:g}")
     t = math.radians(tilt)
@@ -930,22 +1154,38 @@ def _windows_row(
     return parts
 
 
+@parametric(
+    _P("width_m", "float", 6.0, "m", 2.0, 100.0, doc="frontage along local y"),
+    _P("height_m", "float", 5.6, "m", 2.2, 60.0, doc="eaves height"),
+    _P("depth_m", "float", 8.0, "m", 1.0, 100.0),
+    _P("storeys", "int", 2, "", 1, 20),
+    _P("windows", "int", 2, "", 1, 30, doc="windows per storey"),
+    _P("door", "str", "left", choices=("left", "centre", "right", "none"), doc="seen from the street"),
+    _P("window_width_m", "float", 1.1, "m", 0.2, 10.0),
+    _P("window_height_m", "float", 1.3, "m", 0.2, 10.0),
+    _P("sill_m", "float", 0.9, "m", 0.0, 5.0, doc="window sill above each floor", scene=False),
+    _P("door_width_m", "float", 1.0, "m", 0.5, 5.0, scene=False),
+    _P("door_height_m", "float", 2.1, "m", 1.5, 6.0, scene=False),
+    _P("roof", "str", "pitched", choices=("pitched", "flat")),
+    _P("roof_height_m", "float", 2.5, "m", 0.2, 20.0, doc="ridge above the eaves (pitched roofs)"),
+    _P("overhang_m", "float", 0.25, "m", 0.0, 2.0, doc="eaves beyond the front and back walls (pitched roofs)"),
+)
 def house_front(
-    width_m: float = 6.0,
-    height_m: float = 5.6,
-    depth_m: float = 8.0,
+    width_m: float,
+    height_m: float,
+    depth_m: float,
     *,
-    storeys: int = 2,
-    windows: int = 2,
-    door: str = "left",
-    window_width_m: float = 1.1,
-    window_height_m: float = 1.3,
-    sill_m: float = 0.9,
-    door_width_m: float = 1.0,
-    door_height_m: float = 2.1,
-    roof: str = "pitched",
-    roof_height_m: float = 2.5,
-    overhang_m: float = 0.25,
+    storeys: int,
+    windows: int,
+    door: str,
+    window_width_m: float,
+    window_height_m: float,
+    sill_m: float,
+    door_width_m: float,
+    door_height_m: float,
+    roof: str,
+    roof_height_m: float,
+    overhang_m: float,
 ) -> list[Part]:
     """A simple house: a walled block with window and door panels 3 cm proud of the facade
     (+x) and a pitched (ridge parallel to the facade) or flat roof.
@@ -957,20 +1197,9 @@ def house_front(
     0.15 m slab. Typical sizes are common practice, no source. Slots ``facade``, ``window``,
     ``door``, ``roof``.
     """
-    w = _num("width_m", width_m, 2.0, 100.0)
-    h = _num("height_m", height_m, 2.2, 60.0)
-    d = _num("depth_m", depth_m, 1.0, 100.0)
-    ns = _int("storeys", storeys, 1, 20)
-    nw = _int("windows", windows, 1, 30)
-    dr = _choice("door", door, ("left", "centre", "right", "none"))
-    ww = _num("window_width_m", window_width_m, 0.2, 10.0)
-    wh = _num("window_height_m", window_height_m, 0.2, 10.0)
-    sill = _num("sill_m", sill_m, 0.0, 5.0)
-    dw = _num("door_width_m", door_width_m, 0.5, 5.0)
-    dh = _num("door_height_m", door_height_m, 1.5, 6.0)
-    rf = _choice("roof", roof, ("pitched", "flat"))
-    rh = _num("roof_height_m", roof_height_m, 0.2, 20.0)
-    oh = _num("overhang_m", overhang_m, 0.0, 2.0)
+    w, h, d, ns, nw, dr = width_m, height_m, depth_m, storeys, windows, door
+    ww, wh, sill, dw, dh = window_width_m, window_height_m, sill_m, door_width_m, door_height_m
+    rf, rh, oh = roof, roof_height_m, overhang_m
     storey = h / ns
     if sill + wh > storey - 0.15:
         raise ParameterError("window_height_m", f"sill_m + window_height_m must fit in a storey of {storey:.2f} m")
@@ -992,21 +1221,36 @@ def house_front(
     return sh.merge_parts(parts)
 
 
+@parametric(
+    _P("width_m", "float", 6.0, "m", 3.0, 100.0, doc="frontage along local y"),
+    _P("height_m", "float", 7.0, "m", 3.0, 60.0, doc="eaves height"),
+    _P("depth_m", "float", 10.0, "m", 1.0, 100.0),
+    _P("storeys", "int", 2, "", 1, 20),
+    _P("windows", "int", 2, "", 1, 30, doc="windows per upper storey"),
+    _P("door", "str", "right", choices=("left", "centre", "right"), doc="seen from the street"),
+    _P("shop_storey_m", "float", 3.6, "m", 2.6, 8.0, doc="height of the ground floor"),
+    _P("fascia_height_m", "float", 0.6, "m", 0.2, 2.0),
+    _P("window_width_m", "float", 1.1, "m", 0.2, 10.0, doc="upper-storey windows", scene=False),
+    _P("window_height_m", "float", 1.3, "m", 0.2, 10.0, doc="upper-storey windows", scene=False),
+    _P("roof", "str", "flat", choices=("pitched", "flat")),
+    _P("roof_height_m", "float", 2.5, "m", 0.2, 20.0, scene=False),
+    _P("overhang_m", "float", 0.0, "m", 0.0, 2.0, scene=False),
+)
 def shop_front(
-    width_m: float = 6.0,
-    height_m: float = 7.0,
-    depth_m: float = 10.0,
+    width_m: float,
+    height_m: float,
+    depth_m: float,
     *,
-    storeys: int = 2,
-    windows: int = 2,
-    door: str = "right",
-    shop_storey_m: float = 3.6,
-    fascia_height_m: float = 0.6,
-    window_width_m: float = 1.1,
-    window_height_m: float = 1.3,
-    roof: str = "flat",
-    roof_height_m: float = 2.5,
-    overhang_m: float = 0.0,
+    storeys: int,
+    windows: int,
+    door: str,
+    shop_storey_m: float,
+    fascia_height_m: float,
+    window_width_m: float,
+    window_height_m: float,
+    roof: str,
+    roof_height_m: float,
+    overhang_m: float,
 ) -> list[Part]:
     """A shop: a ground-floor shop front (large window over a stall riser, a door at one side,
     a fascia board above) under ``storeys - 1`` upper floors with ``windows`` each.
@@ -1015,19 +1259,9 @@ def shop_front(
     ``facade``, ``window``, ``door``, ``fascia``, ``roof``. Typical sizes common practice, no
     source.
     """
-    w = _num("width_m", width_m, 3.0, 100.0)
-    h = _num("height_m", height_m, 3.0, 60.0)
-    d = _num("depth_m", depth_m, 1.0, 100.0)
-    ns = _int("storeys", storeys, 1, 20)
-    nw = _int("windows", windows, 1, 30)
-    dr = _choice("door", door, ("left", "centre", "right"))
-    gs = _num("shop_storey_m", shop_storey_m, 2.6, 8.0)
-    fh = _num("fascia_height_m", fascia_height_m, 0.2, 2.0)
-    ww = _num("window_width_m", window_width_m, 0.2, 10.0)
-    wh = _num("window_height_m", window_height_m, 0.2, 10.0)
-    rf = _choice("roof", roof, ("pitched", "flat"))
-    rh = _num("roof_height_m", roof_height_m, 0.2, 20.0)
-    oh = _num("overhang_m", overhang_m, 0.0, 2.0)
+    w, h, d, ns, nw, dr = width_m, height_m, depth_m, storeys, windows, door
+    gs, fh, ww, wh = shop_storey_m, fascia_height_m, window_width_m, window_height_m
+    rf, rh, oh = roof, roof_height_m, overhang_m
     if gs > h:
         raise ParameterError("shop_storey_m", f"must not exceed height_m ({h:g}), got {gs:g}")
     if ns > 1 and (h - gs) / (ns - 1) < 2.2:
@@ -1068,45 +1302,22 @@ def shop_front(
     return sh.merge_parts(parts)
 
 
-def _int(key: str, value, lo: int, hi: int) -> int:
-    if isinstance(value, bool) or not isinstance(value, (int, np.integer)):
-        raise ParameterError(key, f"expected a whole number, got {value!r}")
-    if not lo <= value <= hi:
-        raise ParameterError(key, f"must be in {lo}..{hi}, got {value}")
-    return int(value)
-
-
 # ---------------------------------------------------------------------------------------------
 # Registry for scene files
 # ---------------------------------------------------------------------------------------------
 
 
 @dataclass(frozen=True)
-class ParamSpec:
-    """One builder parameter as a scene file gives it.
+class ObjectKind:
+    """A registry entry: the builder and a one-line description."""
 
-    ``type`` is ``"float"`` (accepts integers too), ``"int"``, ``"str"`` or ``"bool"``;
-    ``default`` ``None`` means "derived from other parameters"; ``minimum``/``maximum`` are
-    inclusive unless ``exclusive_minimum``; ``choices`` lists the allowed values.
-    """
-
-    name: str
-    type: str
-    default: Any
-    unit: str = ""
-    minimum: float | None = None
-    maximum: float | None = None
-    exclusive_minimum: bool = False
-    choices: tuple | None = None
-    doc: str = ""
-
-
-class ObjectKind(NamedTuple):
-    """A registry entry: the builder, its parameter specs and a one-line description."""
-
-    function: Callable[..., Any]
-    params: tuple[ParamSpec, ...]
+    function: Builder[Any]
     doc: str
+
+    @property
+    def params(self) -> tuple[ParamSpec, ...]:
+        """The builder's parameters that a scene file may set."""
+        return tuple(s for s in self.function.specs if s.scene)
 
 
 @dataclass
@@ -1120,6 +1331,7 @@ class BuiltObject:
     directions: dict[str, np.ndarray] = field(default_factory=dict)
 
     def placed(self, position_m=(0.0, 0.0, 0.0), heading_deg: float = 0.0, scale: float = 1.0) -> BuiltObject:
+        """The object moved to ``position_m``, turned by ``heading_deg`` and scaled."""
         return BuiltObject(
             self.kind,
             sh.transform_parts(self.parts, position_m, heading_deg, scale),
@@ -1128,146 +1340,29 @@ class BuiltObject:
         )
 
 
-def _P(name, type_, default, unit="", lo=None, hi=None, excl=False, choices=None, doc=""):
-    return ParamSpec(name, type_, default, unit, lo, hi, excl, choices, doc)
-
-
+#: Object kinds of ``[[objects]]`` in scene files: kind name -> builder and description.
 OBJECT_BUILDERS: dict[str, ObjectKind] = {
-    "wheelie_bin": ObjectKind(
-        wheelie_bin,
-        (_P("capacity_l", "int", 240, "L", choices=tuple(BIN_SIZES), doc="nominal capacity"),),
-        "wheeled waste container",
-    ),
-    "car": ObjectKind(
-        car,
-        (
-            _P("body_style", "str", "hatchback", choices=tuple(CAR_STYLES)),
-            _P("length_m", "float", None, "m", 2.0, 8.0, doc="overall length (default per style)"),
-            _P("width_m", "float", None, "m", 1.2, 2.8, doc="overall width without mirrors (default per style)"),
-            _P("height_m", "float", None, "m", 0.9, 3.5, doc="overall height (default per style)"),
-        ),
-        "parked car or van",
-    ),
-    "tree": ObjectKind(
-        tree,
-        (
-            _P("trunk_height_m", "float", 2.5, "m", 0.0, 30.0, True, doc="clear stem height"),
-            _P("trunk_radius_m", "float", 0.15, "m", 0.0, 2.0, True),
-            _P("canopy_radius_m", "float", 2.0, "m", 0.0, 20.0, True),
-            _P("canopy_shape", "str", "sphere", choices=("sphere", "cone", "ellipsoid")),
-            _P("canopy_height_m", "float", None, "m", 0.0, 40.0, True, doc="vertical extent (ellipsoid, cone)"),
-            _P("lumpiness", "float", 0.08, "", 0.0, 0.3),
-            _P("seed", "int", 0, "", 0, 2**31 - 1),
-        ),
-        "street tree",
-    ),
-    "hedge": ObjectKind(
-        hedge,
-        (
-            _P("length_m", "float", 3.0, "m", 0.0, 200.0, True),
-            _P("height_m", "float", 1.2, "m", 0.0, 10.0, True),
-            _P("depth_m", "float", 0.8, "m", 0.0, 10.0, True),
-            _P("roughness_m", "float", 0.05, "m", 0.0, 1.0),
-            _P("seed", "int", 0, "", 0, 2**31 - 1),
-        ),
-        "clipped hedge along local x",
-    ),
-    "bollard": ObjectKind(
-        bollard,
-        (
-            _P("height_m", "float", 0.9, "m", 0.2, 3.0),
-            _P("radius_m", "float", 0.08, "m", 0.01, 1.0),
-            _P("band_height_m", "float", 0.06, "m", 0.0, 0.5, True),
-        ),
-        "round bollard with reflective band",
-    ),
-    "bus_shelter": ObjectKind(
-        bus_shelter,
-        (
-            _P("length_m", "float", 4.0, "m", 1.0, 20.0),
-            _P("depth_m", "float", 1.5, "m", 0.6, 5.0),
-            _P("height_m", "float", 2.5, "m", 2.0, 5.0),
-        ),
-        "glazed bus shelter, open side +x",
-    ),
-    "sign": ObjectKind(
-        sign,
-        (
-            _P("height_m", "float", 2.7, "m", 0.3, 10.0, doc="top of the panel"),
-            _P("panel_width_m", "float", 0.6, "m", 0.05, 5.0),
-            _P("panel_height_m", "float", 0.6, "m", 0.05, 5.0),
-            _P("shape", "str", "rect", choices=("rect", "circle", "triangle")),
-        ),
-        "post-mounted sign facing +x",
-    ),
-    "pedestrian": ObjectKind(pedestrian, (_P("height_m", "float", 1.75, "m", 0.5, 2.5),), "standing figure facing +x"),
-    "lamp_column": ObjectKind(
-        lamp_column,
-        (
-            _P("height_m", "float", 6.0, "m", 1.5, 30.0, doc="mounting height of the opening centre"),
-            _P("outreach_m", "float", 0.5, "m", 0.0, 6.0),
-            _P("arm_tilt_deg", "float", 5.0, "deg", -15.0, 45.0),
-            _P("housing_length_m", "float", 0.6, "m", 0.05, 3.0),
-            _P("housing_width_m", "float", 0.28, "m", 0.05, 3.0),
-        ),
-        "street-light column with bracket arm (arm along +x)",
-    ),
-    "house_front": ObjectKind(
-        house_front,
-        (
-            _P("width_m", "float", 6.0, "m", 2.0, 100.0, doc="frontage along local y"),
-            _P("height_m", "float", 5.6, "m", 2.2, 60.0, doc="eaves height"),
-            _P("depth_m", "float", 8.0, "m", 1.0, 100.0),
-            _P("storeys", "int", 2, "", 1, 20),
-            _P("windows", "int", 2, "", 1, 30, doc="windows per storey"),
-            _P("door", "str", "left", choices=("left", "centre", "right", "none")),
-            _P("window_width_m", "float", 1.1, "m", 0.2, 10.0),
-            _P("window_height_m", "float", 1.3, "m", 0.2, 10.0),
-            _P("roof", "str", "pitched", choices=("pitched", "flat")),
-            _P("roof_height_m", "float", 2.5, "m", 0.2, 20.0),
-            _P("overhang_m", "float", 0.25, "m", 0.0, 2.0),
-        ),
-        "house with facade on +x",
-    ),
-    "shop_front": ObjectKind(
-        shop_front,
-        (
-            _P("width_m", "float", 6.0, "m", 3.0, 100.0),
-            _P("height_m", "float", 7.0, "m", 3.0, 60.0, doc="eaves height"),
-            _P("depth_m", "float", 10.0, "m", 1.0, 100.0),
-            _P("storeys", "int", 2, "", 1, 20),
-            _P("windows", "int", 2, "", 1, 30, doc="windows per upper storey"),
-            _P("door", "str", "right", choices=("left", "centre", "right")),
-            _P("shop_storey_m", "float", 3.6, "m", 2.6, 8.0),
-            _P("fascia_height_m", "float", 0.6, "m", 0.2, 2.0),
-            _P("roof", "str", "flat", choices=("pitched", "flat")),
-        ),
-        "shop with fascia and large window on +x",
-    ),
+    "wheelie_bin": ObjectKind(wheelie_bin, "wheeled waste container"),
+    "car": ObjectKind(car, "parked car or van"),
+    "tree": ObjectKind(tree, "street tree"),
+    "hedge": ObjectKind(hedge, "clipped hedge along local x"),
+    "bollard": ObjectKind(bollard, "round bollard with reflective band"),
+    "bus_shelter": ObjectKind(bus_shelter, "glazed bus shelter, open side +x"),
+    "sign": ObjectKind(sign, "post-mounted sign facing +x"),
+    "pedestrian": ObjectKind(pedestrian, "standing figure facing +x"),
+    "lamp_column": ObjectKind(lamp_column, "street-light column with bracket arm (arm along +x)"),
+    "house_front": ObjectKind(house_front, "house with facade on +x"),
+    "shop_front": ObjectKind(shop_front, "shop with fascia and large window on +x"),
 }
 
 
-def _type_ok(spec: ParamSpec, value) -> bool:
-    if spec.type == "float":
-        return isinstance(value, (int, float)) and not isinstance(value, bool)
-    if spec.type == "int":
-        return isinstance(value, int) and not isinstance(value, bool)
-    if spec.type == "str":
-        return isinstance(value, str)
-    if spec.type == "bool":
-        return isinstance(value, bool)
-    raise AssertionError(spec.type)
-
-
-_TYPE_WORDS = {"float": "a number", "int": "a whole number", "str": "a string", "bool": "true or false"}
-
-
-def validate_params(kind: str, params: dict[str, Any]) -> list[tuple[str, str]]:
+def validate_params(kind: str, params: Mapping[str, Any]) -> list[tuple[str, str]]:
     """Check ``[[objects]]`` parameters for ``kind`` against :data:`OBJECT_BUILDERS`.
 
     Returns ``(key, message)`` pairs (empty when all is well): unknown kind (key ``"kind"``)
-    or parameter (with a did-you-mean hint), wrong type, out of range, not one of the
-    choices; then, if each parameter is fine on its own, the builder's own cross-checks
+    or parameter (with a did-you-mean hint), then each value against its
+    :class:`ParamSpec` (:meth:`ParamSpec.problem`: wrong type, not one of the choices, out of
+    range); then, if each parameter is fine on its own, the builder's own cross-checks
     (e.g. a trunk wider than its canopy), with key ``""`` when several parameters are
     involved. The builder is run for those cross-checks (a few milliseconds).
     """
@@ -1289,33 +1384,9 @@ def validate_params(kind: str, params: dict[str, Any]) -> list[tuple[str, str]]:
                 (key, f"unknown parameter for {kind}; expected one of {', '.join(specs)}" + did_you_mean(key, specs))
             )
             continue
-        unit = f" {spec.unit}" if spec.unit else ""
-        if not _type_ok(spec, value):
-            problems.append(
-                (key, f"expected {_TYPE_WORDS[spec.type]}{' (' + spec.unit + ')' if spec.unit else ''}, got {value!r}")
-            )
-            continue
-        if spec.choices is not None and value not in spec.choices:
-            problems.append(
-                (
-                    key,
-                    f"expected one of {', '.join(map(repr, spec.choices))}, got {value!r}"
-                    + (did_you_mean(value, spec.choices) if isinstance(value, str) else ""),
-                )
-            )
-            continue
-        if spec.type in ("float", "int"):
-            v = float(value)
-            if not math.isfinite(v):
-                problems.append((key, f"expected a finite number{unit}, got {value!r}"))
-                continue
-            if spec.minimum is not None and (v < spec.minimum or (spec.exclusive_minimum and v == spec.minimum)):
-                op = ">" if spec.exclusive_minimum else ">="
-                problems.append((key, f"must be {op} {spec.minimum:g}{unit}, got {value!r}"))
-                continue
-            if spec.maximum is not None and v > spec.maximum:
-                problems.append((key, f"must be <= {spec.maximum:g}{unit}, got {value!r}"))
-                continue
+        message = spec.problem(value)
+        if message is not None:
+            problems.append((key, message))
     if problems:
         return problems
     try:
@@ -1327,7 +1398,7 @@ def validate_params(kind: str, params: dict[str, Any]) -> list[tuple[str, str]]:
     return problems
 
 
-def build_object(kind: str, params: dict[str, Any] | None = None) -> BuiltObject:
+def build_object(kind: str, params: Mapping[str, Any] | None = None) -> BuiltObject:
     """Validate and build one registry object; ValueError listing the problems if any.
 
     Lamp columns carry ``points_m["light_centre_m"]`` and ``directions["light_nadir"]``,
