@@ -1,4 +1,5 @@
-"""Tests for render.light.photometry (LM-63 reading, symmetry, flux, orientation, plots).
+"""Tests for render.light.photometry (LM-63 reading, symmetry, flux, orientation) and its sheet
+(render.output.photometry_sheet: summary, text, polar plot).
 
 Sources of the checks:
 * LM-63 field order and angle conventions: ANSI/IESNA LM-63-2002 and IES LM-63-2019
@@ -13,6 +14,7 @@ The files in tests/data/photometry are hand-written for these tests.
 
 from __future__ import annotations
 
+import json
 import math
 from pathlib import Path
 
@@ -21,6 +23,7 @@ import pytest
 
 from render.errors import InputError
 from render.light import photometry as P
+from render.output import photometry_sheet as sheet
 
 DATA = Path(__file__).parent / "data" / "photometry"
 
@@ -591,20 +594,22 @@ def test_builtin_ids_and_loading(tmp_path):
 
 
 def test_summary_and_text():
-    s = P.summarise(P.load_photometry("generic-isotropic"))
+    summary = sheet.summarise(P.load_photometry("generic-isotropic"))
+    s = summary.to_json()
+    assert json.loads(json.dumps(s)) == s  # plain JSON values (common practice, no source)
     assert s["flux_ratio"] == pytest.approx(1.0, abs=1e-6)
     assert s["ulor"] == pytest.approx(0.5)
     assert s["symmetry"] == "rotational" and s["photometric_type"] == "C"
-    text = P.format_summary(s)
+    text = sheet.format_summary(summary)
     assert "ULOR" in text and "1000.0 lm" in text
-    absolute = P.format_summary(P.summarise(read("absolute_2002.ies")))
+    absolute = sheet.format_summary(sheet.summarise(read("absolute_2002.ies")))
     assert "absolute photometry" in absolute
 
 
 def test_plot_polar_writes_png_atomically(tmp_path):
     out = tmp_path / "plots" / "road.png"
-    P.plot_polar(P.load_photometry("generic-road-asymmetric"), out)
+    sheet.plot_polar(P.load_photometry("generic-road-asymmetric"), out)
     assert out.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
     assert [p.name for p in out.parent.iterdir()] == ["road.png"]  # no temporary file left
-    text = P.describe_photometry_file("absolute_2002.ies", base_dir=DATA, plot_path=tmp_path / "abs.png")
+    text = sheet.describe_photometry_file("absolute_2002.ies", base_dir=DATA, plot_path=tmp_path / "abs.png")
     assert (tmp_path / "abs.png").is_file() and "polar plot" in text

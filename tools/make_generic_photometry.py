@@ -1,6 +1,6 @@
 """Write lampcast's generic LM-63 photometric files from documented analytic models.
 
-    /work/venv/bin/python tools/make_generic_photometry.py [--out render/data/photometry]
+    python tools/make_generic_photometry.py [--out render/data/photometry]
 
 The four distributions are models of our own, not data of any product (each file says so in
 its ``[TEST]`` and ``[MANUFAC]`` keywords and lists the model parameters). They are written as
@@ -30,7 +30,8 @@ ROOT = Path(__file__).resolve().parents[1]
 if str(ROOT) not in sys.path:
     sys.path.insert(0, str(ROOT))
 
-from render.light.photometry import luminous_flux_lm, parse_lm63, summarise  # noqa: E402
+from render.light.photometry import luminous_flux_lm, parse_lm63  # noqa: E402
+from render.output.photometry_sheet import summarise  # noqa: E402
 
 GENERIC_TEXT = "lampcast generic model, not a product"
 
@@ -256,9 +257,9 @@ def main(argv: list[str] | None = None) -> int:
         tmp.replace(path)
         s = summarise(parse_lm63(text, source=str(path)))
         print(
-            f"{ident:26s} flux {s['flux_lm']:9.2f} lm  rated {s['rated_lm']:8.1f} lm  "
-            f"ratio {s['flux_ratio']:.6f}  ULOR {s['ulor']:.4f}  "
-            f"peak {s['peak_cd']:8.1f} cd at C {s['peak_c_deg']:.1f} g {s['peak_gamma_deg']:.1f}"
+            f"{ident:26s} flux {s.flux_lm:9.2f} lm  rated {s.rated_lm:8.1f} lm  "
+            f"ratio {s.flux_ratio:.6f}  ULOR {s.ulor:.4f}  "
+            f"peak {s.peak_cd:8.1f} cd at C {s.peak_c_deg:.1f} g {s.peak_gamma_deg:.1f}"
         )
     return 0
 

@@ -1,0 +1,79 @@
+"""Built-in generic distributions, and loading a distribution by id or by file path.
+
+lampcast ships four generic LM-63 files (``generic-isotropic``, ``generic-full-cutoff``,
+``generic-post-top``, ``generic-road-asymmetric``) as package data in
+``render/data/photometry/``. They are analytic models of our own, not the data of any product;
+``render/data/photometry/README.md`` describes the models and ``tools/make_generic_photometry.py``
+writes them. They are found with :mod:`importlib.resources`, so an installed wheel reads them
+wherever it is installed.
+
+A scene names a distribution either by a built-in id or by the path of an LM-63 file
+(:func:`load_photometry`); both are read by :func:`render.light.photometry.lm63.read_lm63`.
+
+References
+----------
+- ANSI/IESNA LM-63-2002, "Standard file format for the electronic transfer of photometric data"
+  (the format of the built-in files) **(from memory)**.
+- Python documentation, :mod:`importlib.resources` (package data).
+"""
+
+from __future__ import annotations
+
+import importlib.resources
+import os
+from importlib.resources.abc import Traversable
+from pathlib import Path
+
+from render.errors import InputError, Problem, did_you_mean
+from render.light.photometry.lm63 import read_lm63
+from render.light.photometry.model import Photometry
+
+__all__ = ["BUILTIN_PHOTOMETRY_DIR", "builtin_photometry_ids", "load_photometry"]
+
+#: Folder of the built-in generic LM-63 files (``<id>.ies``), package data of ``render``.
+BUILTIN_PHOTOMETRY_DIR: Traversable = importlib.resources.files("render") / "data" / "photometry"
+
+_SUFFIX = ".ies"
+
+
+def builtin_photometry_ids() -> list[str]:
+    """Ids of the generic distributions shipped in ``render/data/photometry``, sorted."""
+    return sorted(
+        entry.name[: -len(_SUFFIX)]
+        for entry in BUILTIN_PHOTOMETRY_DIR.iterdir()
+        if entry.name.endswith(_SUFFIX) and entry.is_file()
+    )
+
+
+def _read_builtin(ident: str) -> Photometry:
+    with importlib.resources.as_file(BUILTIN_PHOTOMETRY_DIR / f"{ident}{_SUFFIX}") as path:
+        return read_lm63(path)
+
+
+def load_photometry(ref: str | os.PathLike, base_dir: str | os.PathLike | None = None) -> Photometry:
+    """Load a built-in distribution by id (see :func:`builtin_photometry_ids`) or an LM-63 file
+    by path (relative paths are taken from ``base_dir``, default the current folder).
+
+    Raises
+    ------
+    InputError
+        If ``ref`` is neither a built-in id nor an existing file (with a suggestion for a
+        misspelt id), or the file is malformed.
+    """
+    text = str(ref)
+    ids = builtin_photometry_ids()
+    if text in ids:
+        return _read_builtin(text)
+    path = Path(text)
+    if not path.is_absolute() and base_dir is not None:
+        path = Path(base_dir) / path
+    if path.is_file():
+        return read_lm63(path)
+    raise InputError(
+        Problem(
+            text,
+            "",
+            f"no built-in photometry of that name and no file at {path}; built-in ids are "
+            f"{', '.join(ids)}{did_you_mean(text, ids)}",
+        )
+    )
