@@ -35,6 +35,7 @@ from pathlib import Path
 
 import numpy as np
 
+from render.colour.oklab import xyz_to_oklab
 from render.colour.spectra import BIN_EDGES_NM, BIN_WIDTH_NM, WAVELENGTHS_NM
 from render.fileio import atomic_path
 
@@ -435,14 +436,12 @@ def delta_e_heatmap(
 def _hue_ring(samples_per_edge: int = 256) -> tuple[np.ndarray, np.ndarray]:
     """The sRGB gamut's ring of most saturated colours (red-yellow-green-cyan-blue-magenta,
     one channel 1 and one 0) with its Oklab hue, unwrapped to increase from red's."""
-    import colour
-
     from render.vision.display import linear_srgb_to_xyz
 
     corners = np.array([[1, 0, 0], [1, 1, 0], [0, 1, 0], [0, 1, 1], [0, 0, 1], [1, 0, 1], [1, 0, 0]], float)
     t = np.linspace(0.0, 1.0, samples_per_edge, endpoint=False)[:, None]
     ring = np.concatenate([a + t * (b - a) for a, b in zip(corners[:-1], corners[1:])])
-    lab = np.asarray(colour.XYZ_to_Oklab(linear_srgb_to_xyz(ring)), dtype=np.float64)
+    lab = xyz_to_oklab(linear_srgb_to_xyz(ring))
     hue = np.unwrap(np.arctan2(lab[:, 2], lab[:, 1]))
     hue = np.maximum.accumulate(hue)  # guard against tiny non-monotonic wiggles
     return hue, ring
@@ -459,15 +458,13 @@ def monochromatic_display_rgb(wavelengths_nm) -> np.ndarray:
     keeps the dominant wavelength but not the perceived hue (Abney effect) and turns the
     long-wave reds pink.
     """
-    import colour
-
     from render.colour.observers import cmfs_xyz
 
     wl = np.atleast_1d(np.asarray(wavelengths_nm, dtype=np.float64))
     cmf = cmfs_xyz()
     xyz = np.stack([np.interp(wl, WAVELENGTHS_NM, cmf[:, c]) for c in range(3)], axis=-1)
     xyz = xyz / np.maximum(xyz.sum(axis=-1, keepdims=True), 1e-300)
-    lab = np.asarray(colour.XYZ_to_Oklab(xyz), dtype=np.float64)
+    lab = xyz_to_oklab(xyz)
     hue = np.arctan2(lab[:, 2], lab[:, 1])
     ring_hue, ring = _hue_ring()
     h = ring_hue[0] + np.mod(hue - ring_hue[0], 2.0 * np.pi)

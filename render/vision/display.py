@@ -12,7 +12,7 @@
   piecewise transfer curve ``12.92·x`` (x ≤ 0.0031308) / ``1.055·x^(1/2.4) − 0.055``.
 * Gamut mapping: colours outside sRGB (a low-pressure sodium lamp's near-monochromatic light
   is far outside) keep their Oklab lightness and hue (Ottosson 2020, "A perceptual color space
-  for image processing"; colour-science ``XYZ_to_Oklab``) and lose chroma until they fit:
+  for image processing"; :mod:`render.colour.oklab`) and lose chroma until they fit:
   bisection on chroma in OkLCh, as in the gamut-mapping algorithm of the W3C CSS Color Module
   Level 4 (without its just-noticeable-difference clipping shortcut). Lightness is first
   clipped to [0, 1].
@@ -34,6 +34,7 @@ from pathlib import Path
 import numba
 import numpy as np
 
+from render.colour.oklab import MATRIX_LAB_TO_LMS, MATRIX_LMS_TO_XYZ, xyz_to_oklab
 from render.fileio import atomic_write_bytes
 
 
@@ -145,25 +146,6 @@ def linear_srgb_to_xyz(rgb) -> np.ndarray:
     return apply_matrix(_constants()[1], rgb)
 
 
-def _oklab_matrices():
-    """Oklab's two matrices (Ottosson 2020), taken from colour-science."""
-    from colour.models import oklab
-
-    return oklab.MATRIX_1_XYZ_TO_LMS, oklab.MATRIX_2_LMS_TO_LAB
-
-
-def xyz_to_oklab(xyz) -> np.ndarray:
-    """Oklab of XYZ (Ottosson 2020): LMS = M1·XYZ, Lab = M2·cbrt(LMS); same as colour-science."""
-    m1, m2 = _oklab_matrices()
-    return apply_matrix(m2, np.cbrt(apply_matrix(m1, xyz)))
-
-
-def oklab_to_xyz(lab) -> np.ndarray:
-    """Inverse of :func:`xyz_to_oklab`."""
-    m1, m2 = _oklab_matrices()
-    return apply_matrix(np.linalg.inv(m1), apply_matrix(np.linalg.inv(m2), lab) ** 3)
-
-
 def srgb_encode(linear) -> np.ndarray:
     """IEC 61966-2-1 sRGB transfer curve (input clipped to [0, 1])."""
     x = np.clip(np.asarray(linear, dtype=np.float64), 0.0, 1.0)
@@ -243,13 +225,12 @@ def gamut_map_oklab(xyz, iterations: int = 30, tol: float = 1e-9) -> tuple[np.nd
     rgb = xyz_to_linear_srgb(xyz)
     out = ~_in_gamut(rgb, tol)
     if np.any(out):
-        m1, m2 = _oklab_matrices()
         lab = np.ascontiguousarray(xyz_to_oklab(xyz[out]))
         mapped = np.empty_like(lab)
         _gamut_kernel(
             lab,
-            np.ascontiguousarray(np.linalg.inv(m2)),
-            np.ascontiguousarray(np.linalg.inv(m1)),
+            np.ascontiguousarray(MATRIX_LAB_TO_LMS),
+            np.ascontiguousarray(MATRIX_LMS_TO_XYZ),
             np.ascontiguousarray(_constants()[0]),
             int(iterations),
             float(tol),

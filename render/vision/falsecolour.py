@@ -24,6 +24,7 @@ from functools import lru_cache
 
 import numpy as np
 
+from render.colour.oklab import oklab_to_xyz, xyz_to_oklab
 from render.vision.display import gamut_map_oklab, srgb_decode, srgb_encode
 
 RAMP_LIGHTNESS = (0.22, 0.94)
@@ -32,26 +33,22 @@ RAMP_CHROMA = (0.075, 0.055)
 
 
 def _ramp_raw(t: np.ndarray) -> np.ndarray:
-    import colour
-
     lightness = RAMP_LIGHTNESS[0] + (RAMP_LIGHTNESS[1] - RAMP_LIGHTNESS[0]) * t
     hue = np.radians(RAMP_HUE_DEG[0] + (RAMP_HUE_DEG[1] - RAMP_HUE_DEG[0]) * t)
     chroma = RAMP_CHROMA[0] + RAMP_CHROMA[1] * np.sin(np.pi * t)
     lab = np.stack([lightness, chroma * np.cos(hue), chroma * np.sin(hue)], axis=-1)
-    rgb, _ = gamut_map_oklab(np.asarray(colour.Oklab_to_XYZ(lab), dtype=np.float64))
+    rgb, _ = gamut_map_oklab(oklab_to_xyz(lab))
     return rgb
 
 
 @lru_cache(maxsize=8)
 def luminance_ramp(n: int = 256) -> np.ndarray:
     """The false-colour ramp, (n, 3) linear sRGB, perceptually evenly spaced (Oklab)."""
-    import colour
-
     from render.vision.display import linear_srgb_to_xyz
 
     t = np.linspace(0.0, 1.0, 2001)
     rgb = _ramp_raw(t)
-    lab = np.asarray(colour.XYZ_to_Oklab(linear_srgb_to_xyz(rgb)), dtype=np.float64)
+    lab = xyz_to_oklab(linear_srgb_to_xyz(rgb))
     arc = np.concatenate([[0.0], np.cumsum(np.linalg.norm(np.diff(lab, axis=0), axis=1))])
     even = np.interp(np.linspace(0.0, arc[-1], n), arc, t)
     out = _ramp_raw(even)
