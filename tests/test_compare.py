@@ -159,7 +159,8 @@ def _valid(path: Path) -> bool:
 
 def test_interrupted_run_leaves_no_half_written_final_file(tmp_path):
     # Kill the comparison at several moments while it writes; every file that has its final
-    # name must be complete (temporary files start with "." and are ignored by readers).
+    # name must be complete (temporary files start with "." and are ignored by readers). The
+    # child must really have been writing when killed: otherwise there is nothing to check.
     for delay in (0.0, 0.15, 0.4):
         out = tmp_path / f"kill{delay}"
         proc = subprocess.Popen(
@@ -181,14 +182,21 @@ def test_interrupted_run_leaves_no_half_written_final_file(tmp_path):
             cwd=ROOT,
         )
         deadline = time.time() + 120
-        while time.time() < deadline and not (out.exists() and any(out.rglob("*.png"))):
+        while time.time() < deadline and proc.poll() is None and not (out.exists() and any(out.rglob("*.png"))):
             time.sleep(0.01)
         time.sleep(delay)
         proc.send_signal(signal.SIGKILL)
         proc.wait()
-        for path in out.rglob("*"):
-            if path.is_file() and not path.name.startswith("."):
-                assert _valid(path), path
+        # Killed mid-run (not finished, not failed on its own before the kill) ...
+        assert proc.returncode == -signal.SIGKILL, f"the comparison ended with {proc.returncode} before the kill"
+        files = [path for path in out.rglob("*") if path.is_file()] if out.exists() else []
+        final = [path for path in files if not path.name.startswith(".")]
+        in_progress = [path for path in files if path.name.startswith(".")]
+        # ... after writing: at least one output under its final name, or a temporary file
+        # that was being written when the signal came.
+        assert final or in_progress, "the comparison wrote nothing before it was killed"
+        for path in final:
+            assert _valid(path), path
 
 
 def test_every_png_carries_provenance(run):
