@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import contextlib
 import os
+import re
 import tempfile
 from collections.abc import Iterator
 from pathlib import Path
@@ -91,6 +92,22 @@ def read_user_text(path: str | os.PathLike, kind: str, expected: str) -> str:
     except UnicodeDecodeError as err:
         line = data[: err.start].count(b"\n") + 1
         raise input_error(path, f"line {line}", f"not UTF-8 text; expected {expected}") from None
+
+
+_EXTENSION = re.compile(r"\.[A-Za-z][A-Za-z0-9]*$")
+
+
+def looks_like_path(ref: str) -> bool:
+    """Whether a reference to a lamp or a photometric distribution names a file, not a built-in id.
+
+    Built-in ids are words joined by hyphens (``led-3000k-cie-b2``, ``generic-isotropic``); a
+    file reference holds a folder separator (``/`` or ``\\``) or ends in a file extension: a dot
+    followed by a letter and letters or digits (``.csv``, ``.ies``, ``.ldt``, ``.lines``). A dot
+    before digits is not an extension, so a dataset key such as ``FL3.1`` is still an id (and
+    gets the hint to the built-in lamp made from it).
+    """
+    text = str(ref).strip()
+    return "/" in text or "\\" in text or _EXTENSION.search(text) is not None
 
 
 def file_stem(text: str) -> str:

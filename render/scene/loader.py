@@ -13,6 +13,7 @@ import tomllib
 from pathlib import Path
 
 from render.errors import InputError, ProblemList, did_you_mean
+from render.fileio import looks_like_path
 from render.scene.model import (
     Frontage,
     GroupSetting,
@@ -228,10 +229,6 @@ class _Context:
         p = Path(ref)
         return p if p.is_absolute() else (self.path.parent / p)
 
-    @staticmethod
-    def _looks_like_path(ref: str) -> bool:
-        return "/" in ref or "\\" in ref or "." in Path(ref).name
-
     def material(self, ref: str | None, where: str) -> None:
         if ref is None:
             return
@@ -247,7 +244,7 @@ class _Context:
     def lamp(self, ref: str | None, where: str) -> None:
         if ref is None:
             return
-        if self._looks_like_path(ref):
+        if looks_like_path(ref):
             target = self.resolve(ref)
             if not target.is_file():
                 self.problems.add(where, f"lamp file {str(target)!r} does not exist")
@@ -271,7 +268,7 @@ class _Context:
     def photometry(self, ref: str | None, where: str) -> None:
         if ref is None:
             return
-        if self._looks_like_path(ref):
+        if looks_like_path(ref):
             target = self.resolve(ref)
             if not target.is_file():
                 self.problems.add(where, f"photometric file {str(target)!r} does not exist")
@@ -455,7 +452,7 @@ def _geometry(entries: list, ctx: _Context) -> list[StreetObject]:
         slots = None
         if kind == "obj" and g["file"] is not None:
             target = ctx.resolve(g["file"])
-            from render.geometry.shapes import load_obj
+            from render.geometry.objfile import load_obj
 
             try:
                 parts = load_obj(target, scale=g["scale"] or 1.0, up_axis=g["up_axis"] or "z")
