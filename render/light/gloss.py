@@ -18,11 +18,23 @@ interface transmits, E·(1 − F(n·l)) (a common layering approximation, no sou
 A film of water (n ≈ 1.33) has F0 = ((n − 1)/(n + 1))² ≈ 0.020 (Fresnel equations at normal
 incidence, analytic). The roughness used for a wet street, α = 0.1, is common practice, no
 source.
+
+References
+----------
+- B. Walter, S. R. Marschner, H. Li, K. E. Torrance (2007), "Microfacet models for refraction
+  through rough surfaces", Eurographics Symposium on Rendering: GGX distribution (eq. 33),
+  Smith G1 for GGX (eq. 34), the microfacet BRDF (eq. 20) **(equation numbers from memory)**.
+- C. Schlick (1994), "An inexpensive BRDF model for physically-based rendering", Computer
+  Graphics Forum 13(3): the Fresnel approximation.
+- Fresnel equations at normal incidence, R = ((n₁ − n₂)/(n₁ + n₂))² (analytic).
 """
 
 from __future__ import annotations
 
 import numpy as np
+import numpy.typing as npt
+
+__all__ = ["WATER_F0", "WET_ROUGHNESS", "ggx_d", "schlick_fresnel", "smith_g1", "specular_brdf"]
 
 #: F0 of water (n = 1.333): ((n - 1) / (n + 1))², analytic.
 WATER_F0 = ((1.333 - 1.0) / (1.333 + 1.0)) ** 2
@@ -30,27 +42,29 @@ WATER_F0 = ((1.333 - 1.0) / (1.333 + 1.0)) ** 2
 WET_ROUGHNESS = 0.1
 
 
-def schlick_fresnel(cos_theta, f0):
+def schlick_fresnel(cos_theta: npt.ArrayLike, f0: npt.ArrayLike) -> np.ndarray:
     """Schlick's approximation of Fresnel reflectance at incidence cosine ``cos_theta``."""
     c = np.clip(np.asarray(cos_theta, np.float64), 0.0, 1.0)
     return f0 + (1.0 - f0) * (1.0 - c) ** 5
 
 
-def ggx_d(cos_h, alpha):
+def ggx_d(cos_h: npt.ArrayLike, alpha: npt.ArrayLike) -> np.ndarray:
     """GGX normal distribution D(h) (1/sr) for the cosine of the half-vector angle."""
     a2 = np.asarray(alpha, np.float64) ** 2
     c2 = np.asarray(cos_h, np.float64) ** 2
     return a2 / (np.pi * (c2 * (a2 - 1.0) + 1.0) ** 2)
 
 
-def smith_g1(cos_x, alpha):
-    """Smith masking for GGX, one direction."""
+def smith_g1(cos_x: npt.ArrayLike, alpha: npt.ArrayLike) -> np.ndarray:
+    """Smith masking G1 for GGX, one direction, at the cosine ``cos_x`` to the normal."""
     c = np.clip(np.asarray(cos_x, np.float64), 1e-9, 1.0)
     a2 = np.asarray(alpha, np.float64) ** 2
     return 2.0 * c / (c + np.sqrt(a2 + (1.0 - a2) * c * c))
 
 
-def specular_brdf(normal, to_light, to_eye, f0, alpha):
+def specular_brdf(
+    normal: npt.ArrayLike, to_light: npt.ArrayLike, to_eye: npt.ArrayLike, f0: npt.ArrayLike, alpha: npt.ArrayLike
+) -> np.ndarray:
     """f_s (1/sr) for unit vectors (N, 3): surface normal, toward the light, toward the eye;
     0 where either direction is below the surface."""
     n = np.asarray(normal, np.float64)

@@ -24,19 +24,32 @@ uniform grid over the ground plane lists, per cell, the luminaires whose conserv
 (largest intensity at or beyond the smallest possible γ, over the smallest possible distance) can
 reach the bound in that cell; so the work per point grows with the luminaires *near* it, not
 with all of them.
+
+References
+----------
+- Inverse-square and cosine laws of illuminance from a point source, E = I·cos θ / d²
+  (analytic; the photometric distance law).
+- Lambertian reflection, L = ρ·E/π (analytic).
+- Luminance of a luminous opening seen at angle θ from its normal, L = I / (A·cos θ): the
+  definition of luminance (CIE S 017:2020, ILV) **(from memory)**.
+- ANSI/IESNA LM-63-2002, IES LM-63-2019: the C-γ intensity tables (:mod:`render.light.photometry`)
+  **(from memory)**.
+- The culling bound and grid are our own construction (the bound never underestimates a
+  contribution), no source.
 """
 
 from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numba
 import numpy as np
 from numba import prange
 
 from render.geometry.mesh import TriangleMesh
-from render.light.luminaires import LuminaireSet
+from render.light.luminaires import Channel, LuminaireSet
 from render.light.photometry import direction_to_c_gamma, intensity_lookup
 from render.progress import progress_bar
 from render.rays.bvh import (
@@ -48,6 +61,25 @@ from render.rays.bvh import (
     intersect_any,
     intersect_closest,
 )
+
+if TYPE_CHECKING:
+    from render.rays.cameras import Camera
+
+__all__ = [
+    "CELL_M",
+    "NEGLIGIBLE_LX",
+    "SHADOW_CLEARANCE_M",
+    "SURFACE_OFFSET_M",
+    "CullGrid",
+    "DirectPairs",
+    "LightBuffers",
+    "cast_view",
+    "cull_grid",
+    "direct_illuminance_lx",
+    "direct_pairs",
+    "emitter_triangles",
+    "evaluate_light",
+]
 
 #: Default bound below which a luminaire's unshadowed contribution is skipped, lx. 1e-3 lx is
 #: far below the lowest maintained-illuminance minimum of the residential lighting classes
@@ -222,6 +254,11 @@ def _emitter_values(directions, lum_of, rot, pos, scale, table, c_grid, g_grid, 
 
 @dataclass
 class CullGrid:
+    """Luminaires that can matter, per cell of a uniform grid over the ground plane.
+
+    Cell ``(ix, iy)`` (index ``iy * nx + ix``) covers x in ``[x0 + ix·cell_m, x0 + (ix+1)·cell_m)``
+    and likewise in y; its luminaires are ``cell_items[cell_start[i] : cell_start[i + 1]]``."""
+
     x0: float
     y0: float
     cell_m: float
@@ -232,6 +269,7 @@ class CullGrid:
 
     @property
     def mean_per_cell(self) -> float:
+        """Mean number of listed luminaires per cell."""
         return float(self.cell_items.size) / max(self.nx * self.ny, 1)
 
 
@@ -294,15 +332,15 @@ class DirectPairs:
 
 
 def direct_pairs(
-    points_m,
-    normals,
+    points_m: np.ndarray,
+    normals: np.ndarray,
     lights: LuminaireSet,
     bvh: BVH | None,
     *,
-    active=None,
+    active: np.ndarray | None = None,
     negligible_lx: float = NEGLIGIBLE_LX,
     grid: CullGrid | None = None,
-    offset_normals=None,
+    offset_normals: np.ndarray | None = None,
 ) -> DirectPairs:
     """The (point, luminaire) pairs of :func:`direct_illuminance_lx`, before summing."""
     pts = np.ascontiguousarray(points_m, np.float64).reshape(-1, 3)
@@ -476,6 +514,7 @@ class LightBuffers:
     direction : (S, 3) float32 -- camera ray directions.
     object_id : (S,) int32 -- object index of the surface seen (-1 none).
     material_names : names behind ``response``.
+    channels : the light channels behind the second axis of ``value_cd_m2``.
     spec_cd_m2 : (S, C) float32 -- per channel, the luminance of the specular layer
         (:mod:`render.light.gloss`; spectrally neutral, white response), at full output.
     material_gloss : (M, 2) -- per material index, the specular layer's F0 and GGX α
@@ -494,16 +533,18 @@ class LightBuffers:
     direction: np.ndarray
     object_id: np.ndarray
     material_names: list[str]
-    channels: list
+    channels: list[Channel]
     spec_cd_m2: np.ndarray | None = None
     material_gloss: np.ndarray | None = None
 
     @property
     def emitter_response(self) -> int:
+        """The ``response`` value that marks a visible luminous opening."""
         return len(self.material_names)
 
     @property
     def n_samples(self) -> int:
+        """Number of camera samples, S."""
         return int(self.response.shape[0])
 
 
@@ -511,13 +552,13 @@ def cast_view(
     mesh: TriangleMesh,
     bvh: BVH,
     lights: LuminaireSet,
-    camera,
+    camera: Camera,
     spp: int,
     seed: int,
     *,
     tile_rows: int = 32,
     progress: bool = False,
-):
+) -> LightBuffers:
     """Primary rays of a view: hits against the scene and the luminous openings.
 
     Returns a :class:`LightBuffers` with zero ``value_cd_m2``; fill it with

@@ -1,5 +1,7 @@
-"""Luminaires as the light evaluation sees them: arrays of positions, orientations and candela
-tables, gathered into *light channels*.
+"""Luminaires as arrays for the light evaluation, gathered into light channels.
+
+:func:`luminaire_set` turns a scene's luminaires into arrays of positions, orientations and
+candela tables (:class:`LuminaireSet`) for the numba kernels of :mod:`render.light.integrator`.
 
 A **light channel** is a set of luminaires that share a group, a photometric distribution, a
 lumen rating, a dimming level and a lamp. Light buffers (:mod:`render.light.integrator`) keep one value
@@ -7,6 +9,11 @@ per channel, evaluated at full output (dimming 1), so that a lamp swap, a lumens
 dimming change per group is exact without casting a ray (:mod:`render.colour.colorimetry` applies them).
 Changing the photometric distribution changes where the light goes and needs a new light
 evaluation (the camera rays are reused).
+
+References
+----------
+- ANSI/IESNA LM-63-2002, IES LM-63-2019: the photometric frame, luminous opening and relative
+  versus absolute photometry (via :mod:`render.light.photometry`) **(from memory)**.
 """
 
 from __future__ import annotations
@@ -16,7 +23,25 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from render.errors import InputError, ProblemList
-from render.scene.model import GroupSetting, Scene, Setup
+from render.light.photometry import (
+    Photometry,
+    apply_tilt,
+    load_photometry,
+    luminaire_rotation,
+    luminous_flux_lm,
+    scale_to_lumens,
+)
+from render.scene.model import GroupSetting, Luminaire, Scene, Setup
+
+__all__ = [
+    "DEFAULT_OPENING_M",
+    "Channel",
+    "LuminaireSet",
+    "channel_factors",
+    "luminaire_set",
+    "needs_new_evaluation",
+    "setting_for",
+]
 
 #: Opening size used when a photometric file gives zero luminous dimensions, m (length along
 #: C0, width along C90). Common practice for a residential lantern, no source.
@@ -40,6 +65,8 @@ class LuminaireSet:
 
     Attributes
     ----------
+    names : (L,) the luminaires' names.
+    channels : the light channels, in channel-index order.
     position_m : (L, 3) centre of each luminous opening.
     rotation : (L, 3, 3) luminaire-to-world matrices (photometric frame: x = C0, y = C90,
         z up, γ = 0 toward -z).
@@ -50,6 +77,7 @@ class LuminaireSet:
     i_max_beyond : (P, ng) max over C of the intensity at γ >= g_grid[j], cd (for culling).
     channel : (L,) channel index of each luminaire.
     opening_m : (L, 2) luminous opening length (along C0) and width (along C90), m.
+    photometries : (P,) the distributions behind ``cd_table`` (scaled and tilted).
     """
 
     names: list[str]
@@ -66,14 +94,16 @@ class LuminaireSet:
     i_max_beyond: np.ndarray
     channel: np.ndarray
     opening_m: np.ndarray
-    photometries: list = field(default_factory=list)
+    photometries: list[Photometry] = field(default_factory=list)
 
     @property
     def n_luminaires(self) -> int:
+        """Number of luminaires, L."""
         return int(self.position_m.shape[0])
 
     @property
     def n_channels(self) -> int:
+        """Number of light channels."""
         return len(self.channels)
 
 
@@ -92,28 +122,32 @@ def setting_for(setup: Setup | None, group: str) -> GroupSetting:
 
 
 def luminaire_set(scene: Scene, setup: Setup | None = None) -> LuminaireSet:
-    """Resolve the scene's luminaires (with a setup's photometry and lumens, if given)."""
-    from render.light import photometry as ph
+    """Resolve the scene's luminaires (with a setup's photometry and lumens, if given).
 
+    Raises
+    ------
+    InputError
+        Listing every photometric reference that cannot be loaded.
+    """
     problems = ProblemList(scene.path)
     tables: dict[tuple, int] = {}
-    loaded: list = []
+    loaded: list[Photometry] = []
     channels: list[Channel] = []
-    rows = []
+    rows: list[tuple[Luminaire, int, int]] = []
     for lum in scene.luminaires:
         s = setting_for(setup, lum.group)
         ref = s.photometry or lum.photometry
         try:
-            photometry = ph.load_photometry(ref, base_dir=scene.base_dir)
+            photometry = load_photometry(ref, base_dir=scene.base_dir)
         except InputError as err:
             problems.extend(err)
             continue
         lumens = s.lumens if s.lumens is not None else lum.lumens
         if lumens is None:
-            lumens = photometry.rated_lumens_lm if not photometry.is_absolute else ph.luminous_flux_lm(photometry)
+            lumens = photometry.rated_lumens_lm if not photometry.is_absolute else luminous_flux_lm(photometry)
         key = (ref, float(lumens), float(lum.tilt_deg))
         if key not in tables:
-            scaled = ph.apply_tilt(ph.scale_to_lumens(photometry, lumens), lum.tilt_deg)
+            scaled = apply_tilt(scale_to_lumens(photometry, lumens), lum.tilt_deg)
             tables[key] = len(loaded)
             loaded.append(scaled)
         lamp = s.lamp or lum.lamp
@@ -146,7 +180,7 @@ def luminaire_set(scene: Scene, setup: Setup | None = None) -> LuminaireSet:
     opening = np.zeros((L, 2))
     for i, (lum, t, c) in enumerate(rows):
         position[i] = lum.position_m
-        rotation[i] = ph.luminaire_rotation(lum.rotation_deg, lum.tilt_deg)
+        rotation[i] = luminaire_rotation(lum.rotation_deg, lum.tilt_deg)
         scale[i] = lum.maintenance_factor
         table[i] = t
         channel[i] = c
