@@ -314,7 +314,7 @@ def test_env_var_overrides_default_folder(tmp_path, monkeypatch):
     assert default_materials_dir() == tmp_path
     assert list(material_library()) == ["brick"]
     monkeypatch.delenv(MATERIALS_ENV)
-    assert default_materials_dir() == MATERIALS
+    assert default_materials_dir().resolve() == MATERIALS.resolve()  # the bundled link to materials/
 
 
 def test_env_var_pointing_nowhere_is_an_input_error(tmp_path, monkeypatch):
