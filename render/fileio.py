@@ -12,6 +12,7 @@ from __future__ import annotations
 import contextlib
 import os
 import re
+import stat
 import tempfile
 from collections.abc import Iterator
 from pathlib import Path
@@ -25,8 +26,8 @@ def atomic_path(path: str | os.PathLike) -> Iterator[Path]:
     exception it is deleted and ``path`` is left untouched. The parent folder is created if
     needed; the file gets ordinary read permissions (0644), as outputs are for sharing.
 
-    >>> with atomic_path("out/image.png") as tmp:  # doctest: +SKIP
-    ...     imageio.v3.imwrite(tmp, pixels, extension=".png")
+    >>> with atomic_path("out/wipe.gif") as tmp:  # doctest: +SKIP
+    ...     imageio.v3.imwrite(tmp, frames, extension=".gif")
     """
     final = Path(path)
     final.parent.mkdir(parents=True, exist_ok=True)
@@ -60,25 +61,38 @@ def atomic_write_text(path: str | os.PathLike, text: str, encoding: str = "utf-8
     return atomic_write_bytes(path, text.encode(encoding))
 
 
-def save_figure(fig, path: str | os.PathLike, **savefig_kwargs) -> Path:
-    """Save a matplotlib figure as PNG atomically; returns the path."""
-    with atomic_path(path) as tmp:
-        with open(tmp, "wb") as fh:
-            fig.savefig(fh, format="png", **savefig_kwargs)
-    return Path(path)
-
-
 def read_user_bytes(path: str | os.PathLike, kind: str) -> bytes:
-    """The bytes of a user's input file; a missing or unreadable file is an
-    :class:`~render.errors.InputError` naming it (``kind`` says what it is, e.g. "lamp file")."""
-    from render.errors import input_error
+    """The bytes of a user's input file, read safely.
 
+    Only a regular file is read (not a device such as ``/dev/zero``, a pipe or a folder), and
+    only up to the size limit for its ``kind`` (:data:`render.limits.FILE_SIZE_LIMITS_BYTES`);
+    a path with a NUL byte, a missing, unreadable, special or oversized file is an
+    :class:`~render.errors.InputError` naming it (``kind`` says what it is, e.g. "lamp file").
+    The file's content is never quoted in these messages.
+    """
+    from render.errors import input_error
+    from render.limits import file_size_limit_bytes
+
+    text = os.fspath(path)
+    if "\x00" in text:
+        raise input_error(repr(text), "", f"cannot read the {kind}: the file name contains a NUL byte")
+    limit = file_size_limit_bytes(kind)
     try:
-        return Path(path).read_bytes()
+        info = os.stat(text)
+        if not stat.S_ISREG(info.st_mode):
+            raise input_error(path, "", f"cannot read the {kind}: not a regular file")
+        if info.st_size > limit:
+            raise input_error(path, "", f"the {kind} is {info.st_size:,} bytes; lampcast reads at most {limit:,}")
+        with open(text, "rb") as fh:
+            data = fh.read(limit + 1)
     except FileNotFoundError:
         raise input_error(path, "", f"cannot read the {kind}: file not found") from None
-    except OSError as err:
-        raise input_error(path, "", f"cannot read the {kind}: {err.strerror or err}") from None
+    except (OSError, ValueError) as err:
+        reason = getattr(err, "strerror", None) or str(err)
+        raise input_error(path, "", f"cannot read the {kind}: {reason}") from None
+    if len(data) > limit:  # grew while being read
+        raise input_error(path, "", f"the {kind} is larger than {limit:,} bytes, the most lampcast reads")
+    return data
 
 
 def read_user_text(path: str | os.PathLike, kind: str, expected: str) -> str:

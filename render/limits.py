@@ -1,0 +1,154 @@
+"""Resource limits: how large an input, an image or a run may be, declared in one place.
+
+Every reader and every command-line option that could make lampcast allocate, read or loop
+without bound checks against a limit here, and names the key or option and the limit in its
+message. The scene schema (:mod:`render.scene.loader`) and the command line
+(:mod:`render.cli`) take their bounds from these constants, so a scene key and the option that
+overrides it can never disagree.
+
+The limits are generous for real streets (a 2 km street, 8K images, 10 000 luminaires, tens of
+millions of triangles) and small enough that a typing slip or a hostile file fails at once with
+a message instead of exhausting memory or hanging.
+
+References
+----------
+- Python documentation, :func:`os.stat` and :mod:`stat` (regular-file test); Linux
+  ``/proc/meminfo`` (``MemAvailable``) for the memory a run can have.
+"""
+
+from __future__ import annotations
+
+import os
+from dataclasses import dataclass
+from pathlib import Path
+
+from render.errors import input_error
+
+__all__ = [
+    "FILE_SIZE_LIMITS_BYTES",
+    "MAX_CAMERA_SAMPLES",
+    "MAX_GENERATED_LUMINAIRES",
+    "MAX_IMAGE_SIDE_PX",
+    "MAX_LM63_ANGLES",
+    "MAX_LM63_TILT_ANGLES",
+    "MAX_SAMPLES_PER_PIXEL",
+    "MAX_TRIANGLES",
+    "MemoryEstimate",
+    "available_memory_bytes",
+    "check_count",
+    "check_memory",
+    "file_size_limit_bytes",
+    "render_memory_estimate",
+]
+
+MiB = 1024 * 1024
+
+MAX_IMAGE_SIDE_PX = 8192
+"""Width or height of a view in pixels (scene ``resolution``, ``--width``)."""
+
+MAX_SAMPLES_PER_PIXEL = 4096
+"""Camera samples per pixel (scene ``render.samples_per_pixel``, ``--spp``)."""
+
+MAX_CAMERA_SAMPLES = 2**31 - 1
+"""Camera samples of one view (width × height × samples per pixel): sample indices are int32."""
+
+MAX_GENERATED_LUMINAIRES = 10_000
+"""Luminaires in one scene, singles plus every position a luminaire row generates."""
+
+MAX_TRIANGLES = 50_000_000
+"""Triangles in one compiled scene (about 4 GB of vertex data in float64 with the BVH)."""
+
+MAX_LM63_ANGLES = 100_000
+"""Vertical or horizontal angles in an LM-63 file (real files have fewer than 1000)."""
+
+MAX_LM63_TILT_ANGLES = 10_000
+"""Angles of an LM-63 tilt table."""
+
+FILE_SIZE_LIMITS_BYTES: dict[str, int] = {
+    "scene file": 16 * MiB,
+    "photometric file": 16 * MiB,
+    "tilt file": 1 * MiB,
+    "lamp file": 16 * MiB,
+    "material file": 4 * MiB,
+    "OBJ file": 1024 * MiB,
+    "mesh file": 1024 * MiB,
+}
+"""Largest input file of each kind lampcast reads; the key is the kind named in messages."""
+
+_DEFAULT_FILE_LIMIT_BYTES = 16 * MiB
+
+
+def file_size_limit_bytes(kind: str) -> int:
+    """The size limit for an input file of the given kind (16 MiB for kinds not listed)."""
+    return FILE_SIZE_LIMITS_BYTES.get(kind, _DEFAULT_FILE_LIMIT_BYTES)
+
+
+def check_count(value: float, limit: float, source: str | Path, where: str, what: str) -> int:
+    """``value`` as an int when ``0 <= value <= limit``; else an :class:`InputError` naming
+    ``where`` (a key, option or line), what is counted and the limit. Non-finite values count
+    as over the limit."""
+    try:
+        number = float(value)
+    except (TypeError, ValueError, OverflowError):
+        raise input_error(source, where, f"{what} must be a whole number, got {value!r}") from None
+    if not (number == number) or number < 0 or number > limit:  # NaN, negative, too many
+        shown = f"{value:.4g}" if isinstance(value, float) else str(value)
+        if len(shown) > 40:
+            shown = shown[:20] + "…"
+        raise input_error(source, where, f"{what} is {shown}; lampcast allows 0 to {limit:,}")
+    return int(number)
+
+
+def available_memory_bytes() -> int | None:
+    """Memory a new allocation can have now (``MemAvailable`` of ``/proc/meminfo``), or None
+    where the system does not say."""
+    try:
+        with open("/proc/meminfo", encoding="ascii") as fh:
+            for line in fh:
+                if line.startswith("MemAvailable:"):
+                    return int(line.split()[1]) * 1024
+    except (OSError, ValueError, IndexError):
+        pass
+    try:
+        return os.sysconf("SC_AVPHYS_PAGES") * os.sysconf("SC_PAGE_SIZE")
+    except (ValueError, OSError, AttributeError):
+        return None
+
+
+@dataclass(frozen=True)
+class MemoryEstimate:
+    """What a run is expected to hold in memory at its peak."""
+
+    bytes: int
+    what: str
+
+
+# Peak bytes per camera sample of a render: ray origin and direction, hit record, light-buffer
+# values per channel, colorimetry (measured on the demo: about 240 B per sample at 5 channels).
+_BYTES_PER_SAMPLE = 160
+_BYTES_PER_SAMPLE_CHANNEL = 16
+# Peak bytes per pixel of the vision stage (float64 X, Y, Z, Y' and glare grids).
+_BYTES_PER_PIXEL_VISION = 600
+
+
+def render_memory_estimate(width_px: int, height_px: int, spp: int, n_channels: int) -> MemoryEstimate:
+    """An upper estimate of one view's peak memory (camera samples, light buffers, vision)."""
+    samples = int(width_px) * int(height_px) * int(spp)
+    total = samples * (_BYTES_PER_SAMPLE + _BYTES_PER_SAMPLE_CHANNEL * max(1, int(n_channels)))
+    total += int(width_px) * int(height_px) * _BYTES_PER_PIXEL_VISION
+    return MemoryEstimate(
+        total, f"{width_px}×{height_px} pixels at {spp} samples per pixel, {n_channels} light channels"
+    )
+
+
+def check_memory(estimate: MemoryEstimate, source: str | Path, where: str, available: int | None = None) -> None:
+    """An :class:`InputError` before a run starts when its estimate exceeds the memory available
+    (``available`` defaults to :func:`available_memory_bytes`; unknown means no check)."""
+    available = available_memory_bytes() if available is None else available
+    if available is not None and estimate.bytes > available:
+        raise input_error(
+            source,
+            where,
+            f"{estimate.what} needs about {estimate.bytes / 2**30:.1f} GiB, but about "
+            f"{available / 2**30:.1f} GiB is available; lower the resolution or the samples per pixel",
+        )
