@@ -268,7 +268,8 @@ def test_write_aov_previews_and_atomic_writes(tmp_path):
     import imageio.v3 as iio
 
     from render.fileio import atomic_path, atomic_write_bytes
-    from render.rays.aov import render_aovs, write_aov_previews
+    from render.output.aov_previews import write_aov_previews
+    from render.rays.aov import render_aovs
 
     mesh, bvh = _aov_scene()
     cam = Camera(position_m=(0.0, 0.0, 1.5), target_m=(10.0, 0.0, 1.5), hfov_deg=60.0, width_px=16, height_px=10)

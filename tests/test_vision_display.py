@@ -3,19 +3,15 @@
 Sources: IEC 61966-2-1 sRGB as implemented by colour-science (``cctf_encoding``,
 ``XYZ_to_sRGB``); CAT16 chromatic adaptation as implemented by colour-science
 (``chromatic_adaptation`` Von Kries/CAT16, ``chromatic_adaptation_Zhai2018``); Oklab via
-colour-science; sodium D lines from NIST ASD (reference notes); the PNG format as read by
-Pillow (through imageio and directly); ColorChecker reflectances and CIE illuminants D65 and A
-from colour-science, integrated by ``colour.sd_to_XYZ``.
+colour-science; sodium D lines from NIST ASD (reference notes); ColorChecker reflectances and
+CIE illuminants D65 and A from colour-science, integrated by ``colour.sd_to_XYZ``. (The PNG
+writer's tests are in ``test_images.py``.)
 """
 
-import os
-
 import colour
-import imageio.v3 as iio
 import numpy as np
 import pytest
 import synthetic
-from PIL import Image
 
 from render.colour import observers
 from render.colour.spectra import WAVELENGTHS_NM, deposit_lines
@@ -28,7 +24,6 @@ from render.vision.display import (
     quantise,
     srgb_decode,
     srgb_encode,
-    write_png,
     xyz_to_linear_srgb,
 )
 
@@ -101,51 +96,6 @@ def test_in_gamut_colours_unchanged():
 def test_quantise():
     assert quantise(np.array([0.0, 0.5, 1.0, 1.2]), 8).tolist() == [0, 128, 255, 255]
     assert quantise(np.array([0.0, 0.5, 1.0]), 16).tolist() == [0, 32768, 65535]
-
-
-@pytest.mark.parametrize("bits", [8, 16])
-def test_png_round_trip_with_text(tmp_path, bits):
-    rng = np.random.default_rng(3)
-    top = 255 if bits == 8 else 65535
-    img = rng.integers(0, top + 1, (7, 11, 3)).astype(np.uint8 if bits == 8 else np.uint16)
-    path = write_png(tmp_path / "x.png", img, {"Software": "lampcast", "lampcast.mode": "adapted"})
-    back = iio.imread(path)
-    # Pillow (behind imageio) reads 16-bit RGB PNGs as 8-bit, keeping the high byte.
-    assert np.array_equal(back, img if bits == 8 else (img >> 8).astype(np.uint8))
-    with Image.open(path) as im:
-        assert im.text["Software"] == "lampcast" and im.text["lampcast.mode"] == "adapted"
-        assert im.size == (11, 7)
-    if bits == 16:
-        assert np.array_equal(_decode_png_rgb16(path.read_bytes()), img)
-    # Atomic write: no temporary file left behind; overwriting replaces the file.
-    write_png(path, img[::-1], {"a": "b"})
-    assert np.array_equal(iio.imread(path), img[::-1] if bits == 8 else (img[::-1] >> 8).astype(np.uint8))
-    assert sorted(os.listdir(tmp_path)) == ["x.png"]
-
-
-def _decode_png_rgb16(data: bytes) -> np.ndarray:
-    """Minimal reader written from the PNG specification (chunk layout, CRC-32, zlib IDAT,
-    filter type 0 rows) for the full 16-bit check that Pillow cannot make."""
-    import struct
-    import zlib
-
-    assert data[:8] == b"\x89PNG\r\n\x1a\n"
-    pos, idat, hdr = 8, b"", None
-    while pos < len(data):
-        n, kind = struct.unpack(">I4s", data[pos : pos + 8])
-        body = data[pos + 8 : pos + 8 + n]
-        crc = struct.unpack(">I", data[pos + 8 + n : pos + 12 + n])[0]
-        assert zlib.crc32(kind + body) & 0xFFFFFFFF == crc
-        if kind == b"IHDR":
-            hdr = struct.unpack(">IIBBBBB", body)
-        elif kind == b"IDAT":
-            idat += body
-        pos += 12 + n
-    w, h, depth, ctype = hdr[:4]
-    assert depth == 16 and ctype == 2
-    raw = np.frombuffer(zlib.decompress(idat), dtype=np.uint8).reshape(h, 1 + w * 6)
-    assert np.all(raw[:, 0] == 0)
-    return raw[:, 1:].copy().view(">u2").reshape(h, w, 3).astype(np.uint16)
 
 
 # --------------------------------------------------------------------- end to end

@@ -14,6 +14,7 @@ import synthetic
 from PIL import Image
 
 from render.errors import InputError
+from render.output.images import write_png
 from render.vision import ObserverSettings, ViewGeometry, ViewLight, render_display, shared_display
 from render.vision.display import linear_srgb_to_xyz
 from render.vision.tonemap import blackwell_threshold_cd_m2, highlight_rolloff, ward_scale_factor
@@ -93,7 +94,7 @@ def test_photometric_mode_and_png_metadata(tmp_path):
     assert res.linear_srgb.shape == (32, 48 + 120, 3)
     assert res.state is None and res.diagnostics["quantity"] == "photopic"
     adapted = render_display(street_like(), G, ObserverSettings(), "adapted")
-    path = adapted.write_png(tmp_path / "view.png", bits=16)
+    path = write_png(tmp_path / "view.png", adapted.srgb16, adapted.png_text())
     with Image.open(path) as im:
         assert float(im.text["lampcast.adaptation_photopic_cd_m2"]) == pytest.approx(
             adapted.state.photopic_cd_m2, rel=1e-5

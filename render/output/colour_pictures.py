@@ -1,7 +1,7 @@
 """Pictures for the colour analysis: outlined view, swatch sheet, ΔE00 heat map, spectrum strips.
 
-All PNGs are written atomically (:func:`render.fileio.atomic_path`) with matplotlib's
-object-oriented API (``matplotlib.figure.Figure``; no pyplot state).
+Pictures are drawn with matplotlib's object-oriented API (``matplotlib.figure.Figure``; no
+pyplot state) and written by :func:`render.output.images.write_figure_png`.
 
 Spectrum strip (what a diffraction grating would show)
 ------------------------------------------------------
@@ -37,7 +37,7 @@ import numpy as np
 
 from render.colour.oklab import xyz_to_oklab
 from render.colour.spectra import BIN_EDGES_NM, BIN_WIDTH_NM, WAVELENGTHS_NM
-from render.fileio import atomic_path
+from render.output.images import write_figure_png
 
 #: Outline colours of the outlined view (our own palette; cycled).
 OUTLINE_COLOURS = ("#ffd23f", "#3bceac", "#ee4266", "#7c9cff", "#f9a03f", "#b5e48c", "#f78fb3", "#c8b6ff")
@@ -63,13 +63,7 @@ def _figure(width_in: float, height_in: float, dpi: float = 100.0):
 
 def _save(fig, path, dpi: float | None = None, text: Mapping[str, str] | None = None) -> Path:
     """PNG, written atomically, with ``text`` as PNG text metadata (how the picture was made)."""
-    from render import __version__
-
-    path = Path(path)
-    metadata = {"Software": f"lampcast {__version__}", **(text or {})}
-    with atomic_path(path) as tmp:
-        fig.savefig(tmp, format="png", dpi=dpi or fig.dpi, facecolor=fig.get_facecolor(), metadata=metadata)
-    return path
+    return write_figure_png(fig, path, text, dpi=dpi)
 
 
 def _as_float_rgb(srgb) -> np.ndarray:

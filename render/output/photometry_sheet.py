@@ -23,7 +23,6 @@ from pathlib import Path
 
 import numpy as np
 
-from render.fileio import save_figure
 from render.light.photometry import (
     Photometry,
     intensity_cd,
@@ -33,6 +32,7 @@ from render.light.photometry import (
     ulor,
     zonal_flux_lm,
 )
+from render.output.images import write_figure_png
 
 __all__ = ["PhotometrySummary", "describe_photometry_file", "format_summary", "plot_polar", "summarise"]
 
@@ -207,7 +207,7 @@ def plot_polar(photometry: Photometry, path: str | os.PathLike, title: str | Non
     ax.set_title(title or ph.name, pad=14)
     ax.legend(loc="upper right", bbox_to_anchor=(1.12, 1.08), fontsize=8)
     fig.text(0.5, 0.02, f"radius: {unit}; γ = 0° at the bottom (nadir)", ha="center", fontsize=8)
-    save_figure(fig, path)
+    write_figure_png(fig, path)
     return path
 
 

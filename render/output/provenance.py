@@ -5,26 +5,38 @@ from __future__ import annotations
 import hashlib
 from pathlib import Path
 
+__all__ = ["scene_sha256", "view_metadata", "image_metadata"]
+
 
 def scene_sha256(path: str | Path) -> str:
     """SHA-256 of the scene file's bytes (hex)."""
     return hashlib.sha256(Path(path).read_bytes()).hexdigest()
 
 
-def image_metadata(study, rendered, mode: str, observer, seed: int, spp: int) -> dict[str, str]:
-    """PNG/EXR text metadata: how an image was made (no timestamps, so reruns are identical)."""
+def view_metadata(study, view: str, mode: str, seed: int, spp: int) -> dict[str, str]:
+    """PNG/EXR text metadata of an image of the scene's geometry alone (no setup, no observer,
+    e.g. the inspection images of ``render --aov``): tool, scene and its hash, view, mode,
+    seed and samples per pixel. No timestamps, so reruns are identical."""
     from render import __version__
 
     return {
         "Software": f"lampcast {__version__}",
         "lampcast.scene": study.scene.path.name,
         "lampcast.scene_sha256": study.scene_sha256,
-        "lampcast.setup": rendered.setup or "(scene)",
-        "lampcast.view": rendered.name,
+        "lampcast.view": view,
         "lampcast.mode": mode,
+        "lampcast.seed": str(seed),
+        "lampcast.samples_per_pixel": str(spp),
+    }
+
+
+def image_metadata(study, rendered, mode: str, observer, seed: int, spp: int) -> dict[str, str]:
+    """PNG/EXR text metadata: how an image was made (no timestamps, so reruns are identical):
+    :func:`view_metadata` plus the setup and the observer."""
+    return {
+        **view_metadata(study, rendered.name, mode, seed, spp),
+        "lampcast.setup": rendered.setup or "(scene)",
         "lampcast.observer": f"age {observer.age_years:g} y, pigmentation {observer.pigmentation:g}, "
         f"display peak {observer.display_peak_cd_m2:g} cd/m², glare {'on' if observer.glare else 'off'}, "
         f"acuity {'on' if observer.acuity else 'off'}",
-        "lampcast.seed": str(seed),
-        "lampcast.samples_per_pixel": str(spp),
     }

@@ -2,7 +2,8 @@
 
 :func:`render_aovs` casts the primary rays of a camera and keeps, per pixel, the distance to the
 first surface, its shading normal, its material and object, and the fraction of samples that
-hit anything. :func:`write_aov_previews` writes PNG previews and the raw arrays.
+hit anything. The preview colourings below turn them into display arrays;
+:func:`render.output.aov_previews.write_aov_previews` writes the files.
 
 Per-pixel rule with several samples: the object seen by most samples wins (background, id -1,
 takes part; a tie goes to the object met first in sample order). ``depth_m`` and ``normal``
@@ -13,13 +14,10 @@ those samples saw, so an edge pixel never gets a depth or normal of no real surf
 from __future__ import annotations
 
 import colorsys
-import io
-from pathlib import Path
 
 import numba
 import numpy as np
 
-from render.fileio import atomic_write_bytes
 from render.geometry.mesh import TriangleMesh
 from render.rays.bvh import BVH, interpolate_normal, intersect_closest
 from render.rays.cameras import Camera, camera_rays, iter_tiles, tile_pixels
@@ -221,62 +219,3 @@ def normals_to_rgb(normal: np.ndarray) -> np.ndarray:
     rgb = np.round((np.clip(n, -1.0, 1.0) + 1.0) * 0.5 * 255.0).astype(np.uint8)
     rgb[~np.any(n != 0.0, axis=-1)] = 0
     return rgb
-
-
-def _png_bytes(image: np.ndarray, text: dict[str, str] | None = None) -> bytes:
-    import imageio.v3 as iio
-
-    kwargs = {}
-    if text:
-        # Pillow (imageio's PNG writer) stores these as PNG tEXt chunks.
-        from PIL.PngImagePlugin import PngInfo
-
-        info = PngInfo()
-        for key, value in text.items():
-            info.add_text(key, value)
-        kwargs["pnginfo"] = info
-    return iio.imwrite("<bytes>", image, extension=".png", **kwargs)
-
-
-def write_aov_previews(aovs: dict[str, np.ndarray], out_dir: str | Path, stem: str) -> list[Path]:
-    """Write PNG previews and the raw arrays of :func:`render_aovs`, atomically.
-
-    Files (in ``out_dir``, created if missing):
-
-    * ``<stem>-depth.png``: grey ramp, white at the nearest hit to dark grey at the farthest,
-      black background; the range is stored in the PNG text field ``depth_range_m``
-      ("near far") and in the ``.npz``.
-    * ``<stem>-normal.png``: world normal (x, y, z) in [-1, 1] as RGB in [0, 255].
-    * ``<stem>-material.png``, ``<stem>-object.png``: ids as colours of :func:`id_palette`.
-    * ``<stem>-coverage.png``: hit fraction as grey.
-    * ``<stem>-aov.npz``: every array, plus ``depth_range_m``.
-
-    Returns the paths written, in the order listed above.
-    """
-    out = Path(out_dir)
-    out.mkdir(parents=True, exist_ok=True)
-    near, far = depth_range_m(aovs["depth_m"])
-    paths = {
-        "depth": out / f"{stem}-depth.png",
-        "normal": out / f"{stem}-normal.png",
-        "material": out / f"{stem}-material.png",
-        "object": out / f"{stem}-object.png",
-        "coverage": out / f"{stem}-coverage.png",
-        "npz": out / f"{stem}-aov.npz",
-    }
-    atomic_write_bytes(
-        paths["depth"],
-        _png_bytes(
-            depth_to_grey(aovs["depth_m"], near, far),
-            {"depth_range_m": f"{near:.6g} {far:.6g}", "depth_ramp": "white = near, dark grey = far, black = no hit"},
-        ),
-    )
-    atomic_write_bytes(paths["normal"], _png_bytes(normals_to_rgb(aovs["normal"])))
-    atomic_write_bytes(paths["material"], _png_bytes(ids_to_rgb(aovs["material_id"])))
-    atomic_write_bytes(paths["object"], _png_bytes(ids_to_rgb(aovs["object_id"])))
-    coverage = np.round(np.clip(aovs["coverage"], 0.0, 1.0) * 255.0).astype(np.uint8)
-    atomic_write_bytes(paths["coverage"], _png_bytes(coverage))
-    buf = io.BytesIO()
-    np.savez_compressed(buf, depth_range_m=np.array([near, far]), **{k: np.asarray(v) for k, v in aovs.items()})
-    atomic_write_bytes(paths["npz"], buf.getvalue())
-    return list(paths.values())

@@ -1,4 +1,4 @@
-"""Display encoding: chromatic adaptation to the display white, sRGB, gamut mapping, PNG.
+"""Display encoding: chromatic adaptation to the display white, sRGB, gamut mapping.
 
 * Chromatic adaptation: CAT16 (Li et al. 2017, Color Res. Appl. 42(6); matrix from
   colour-science ``colour.adaptation.CAT_CAT16``) in its one-step von Kries form with a degree
@@ -16,26 +16,20 @@
   bisection on chroma in OkLCh, as in the gamut-mapping algorithm of the W3C CSS Color Module
   Level 4 (without its just-noticeable-difference clipping shortcut). Lightness is first
   clipped to [0, 1].
-* PNG: written by a small encoder here (PNG specification, ISO/IEC 15948:2004 / W3C PNG 2nd
-  ed.: signature, IHDR, sRGB chunk, tEXt chunks, zlib IDAT, IEND) for 8- and 16-bit RGB,
-  atomically: a temporary file in the destination folder, flushed and fsynced, then
-  ``os.replace``.
+
+The stage returns arrays (quantised with :func:`quantise`); PNG files are written by
+:mod:`render.output.images`.
 """
 
 from __future__ import annotations
 
 import math
-import struct
-import zlib
-from collections.abc import Mapping
 from functools import lru_cache
-from pathlib import Path
 
 import numba
 import numpy as np
 
 from render.colour.oklab import MATRIX_LAB_TO_LMS, MATRIX_LMS_TO_XYZ, xyz_to_oklab
-from render.fileio import atomic_write_bytes
 
 
 @lru_cache(maxsize=1)
@@ -238,45 +232,3 @@ def gamut_map_oklab(xyz, iterations: int = 30, tol: float = 1e-9) -> tuple[np.nd
         )
         rgb[out] = mapped
     return np.clip(rgb, 0.0, 1.0), out
-
-
-# --------------------------------------------------------------------------------------- PNG
-
-
-def _chunk(kind: bytes, data: bytes) -> bytes:
-    return struct.pack(">I", len(data)) + kind + data + struct.pack(">I", zlib.crc32(kind + data) & 0xFFFFFFFF)
-
-
-def png_bytes(image: np.ndarray, text: Mapping[str, str] | None = None) -> bytes:
-    """PNG file contents for an (H, W, 3) uint8 or uint16 RGB image with tEXt metadata.
-
-    Declares sRGB (sRGB chunk, perceptual intent). Keywords must be 1-79 Latin-1 characters;
-    text is Latin-1 (characters outside it are replaced by '?').
-    """
-    img = np.asarray(image)
-    if img.ndim != 3 or img.shape[2] != 3 or img.dtype not in (np.uint8, np.uint16):
-        raise ValueError("expected an (H, W, 3) uint8 or uint16 array")
-    h, w, _ = img.shape
-    depth = 8 if img.dtype == np.uint8 else 16
-    raw = img.astype(">u2").tobytes() if depth == 16 else img.tobytes()
-    stride = w * 3 * (depth // 8)
-    rows = np.frombuffer(raw, dtype=np.uint8).reshape(h, stride)
-    filtered = np.concatenate([np.zeros((h, 1), np.uint8), rows], axis=1)  # filter type 0
-    parts = [
-        b"\x89PNG\r\n\x1a\n",
-        _chunk(b"IHDR", struct.pack(">IIBBBBB", w, h, depth, 2, 0, 0, 0)),
-        _chunk(b"sRGB", b"\x00"),
-    ]
-    for key, value in (text or {}).items():
-        k = str(key).encode("latin-1", "replace")
-        if not 1 <= len(k) <= 79 or b"\x00" in k:
-            raise ValueError(f"bad PNG text keyword {key!r}")
-        parts.append(_chunk(b"tEXt", k + b"\x00" + str(value).encode("latin-1", "replace")))
-    parts.append(_chunk(b"IDAT", zlib.compress(filtered.tobytes(), 6)))
-    parts.append(_chunk(b"IEND", b""))
-    return b"".join(parts)
-
-
-def write_png(path: str | Path, image: np.ndarray, text: Mapping[str, str] | None = None) -> Path:
-    """Write an 8- or 16-bit RGB PNG atomically (temp file in the same folder + os.replace)."""
-    return atomic_write_bytes(path, png_bytes(image, text))

@@ -14,7 +14,8 @@ Order of the steps (each a pure function of explicit inputs, in its own module):
 5. **Acuity loss** (:mod:`~render.vision.acuity`, Ward Larson et al. 1997).
 6. **Display** (:mod:`~render.vision.tonemap`, :mod:`~render.vision.display`): CAT16 to the
    display white with degree D, Ward (1994) contrast-based scale factor (or a fixed exposure),
-   highlight roll-off, Oklab gamut mapping, IEC 61966-2-1 encoding, 8/16-bit PNG.
+   highlight roll-off, Oklab gamut mapping, IEC 61966-2-1 encoding, 8- and 16-bit arrays
+   (written as PNGs by :mod:`render.output.images`, with :meth:`DisplayResult.png_text`).
 
 Modes: ``adapted`` (each image for an observer adapted to it), ``shared`` (one adaptation state
 and one scale factor for a set of images, :func:`shared_display`), ``photometric`` (false-colour
@@ -26,7 +27,6 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass, field, replace
-from pathlib import Path
 
 import numpy as np
 
@@ -119,13 +119,6 @@ class DisplayResult:
                 text[f"lampcast.{key}"] = _fmt(value)
         text.update(extra or {})
         return text
-
-    def write_png(self, path: str | Path, bits: int = 8, extra_text: dict | None = None) -> Path:
-        """Write the image as an 8- or 16-bit sRGB PNG (atomic) with metadata."""
-        img = self.srgb8 if bits == 8 else self.srgb16 if bits == 16 else None
-        if img is None:
-            raise ValueError("bits must be 8 or 16")
-        return _display.write_png(path, img, self.png_text(extra_text))
 
 
 def _fmt(value) -> str:
