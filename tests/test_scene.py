@@ -167,6 +167,31 @@ materials = { bodywork = "object-red" }
     assert {"objects[0].params.body_stlye", "objects[0].params.length_m", "objects[0].materials.bodywork"} <= wheres
 
 
+def test_object_parameter_message_comes_from_its_declaration(tmp_path):
+    # The scene check and a direct builder call report the same words (one declaration).
+    from render.geometry.objects import ParameterError, bollard
+
+    text = BASE + '\n[[objects]]\nkind = "bollard"\nposition_m = [5.0, 4.0]\nparams = { height_m = 5 }\n'
+    (problem,) = problems_of(write(tmp_path, text))
+    with pytest.raises(ParameterError) as err:
+        bollard(height_m=5)
+    assert problem.where == "objects[0].params.height_m" and problem.message == err.value.message
+    assert problem.message == "must be <= 3 m, got 5"
+
+
+def test_lamp_column_out_of_drawable_range_is_an_input_error(tmp_path):
+    # A mounting height the column builder cannot draw is reported against the luminaire, not
+    # raised as a traceback; `column = false` leaves the column out and the scene compiles.
+    text = BASE + '\n[[luminaires]]\nposition_m = [5.0, 3.0, 40.0]\nlamp = "led-4000k-cie-b3"\n'
+    scene = load_scene(write(tmp_path, text))
+    with pytest.raises(InputError) as info:
+        compile_scene(scene)
+    (problem,) = info.value.problems
+    assert problem.where == "luminaires[0]" and "height_m" in problem.message and "column = false" in problem.message
+    no_column = load_scene(write(tmp_path, text.replace("[5.0, 3.0, 40.0]", "[5.0, 3.0, 40.0]\ncolumn = false")))
+    assert compile_scene(no_column).n_triangles > 0
+
+
 def test_unknown_object_kind(tmp_path):
     text = BASE + '\n[[objects]]\nkind = "wheely_bin"\nposition_m = [5.0, 4.0]\n'
     (problem,) = problems_of(write(tmp_path, text))

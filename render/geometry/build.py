@@ -18,11 +18,13 @@ from render.errors import input_error
 from render.geometry.mesh import TriangleMesh, flat_normals
 from render.scene.model import Frontage, Marking, Scene, Street, StreetObject
 
+__all__ = ["MARKING_LIFT_M", "DEFAULT_SLOT_MATERIALS", "ObjectInfo", "compile_scene", "object_slots"]
+
 #: Height of markings above the surface under them, m (keeps them the closest hit).
 MARKING_LIFT_M = 0.002
 
 #: Material used for a slot that the scene does not assign (slot name -> material id).
-DEFAULT_SLOT_MATERIALS = {
+DEFAULT_SLOT_MATERIALS: dict[str, str] = {
     "body": "object-grey",
     "glass": "glass-clear",
     "tyre": "rubber-black",

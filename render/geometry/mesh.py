@@ -1,9 +1,14 @@
-"""Triangle soup: the one geometric representation the ray caster sees.
+"""Triangle mesh: the triangle soup that is the one geometric representation the ray caster sees.
 
 A scene (see :mod:`render.scene`) is compiled to a :class:`TriangleMesh`: every surface becomes
 triangles in world coordinates (metres; x along the street, y across it, z up; right-handed),
 each carrying a material index and an object index, with per-vertex shading normals (equal to
 the face normal for flat-shaded parts).
+
+References
+----------
+- Face normals: the normalised cross product of two edges of a counter-clockwise triangle
+  (right-hand rule), a standard result.
 """
 
 from __future__ import annotations
@@ -11,6 +16,9 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
+from numpy.typing import ArrayLike
+
+__all__ = ["TriangleMesh", "face_normals", "flat_normals", "concatenate"]
 
 
 @dataclass
@@ -53,7 +61,7 @@ class TriangleMesh:
         return int(self.triangles_m.shape[0])
 
 
-def face_normals(triangles_m: np.ndarray) -> np.ndarray:
+def face_normals(triangles_m: ArrayLike) -> np.ndarray:
     """Unit geometric normals (F, 3) of counter-clockwise triangles (F, 3, 3).
 
     Degenerate triangles get a zero normal.
@@ -64,7 +72,7 @@ def face_normals(triangles_m: np.ndarray) -> np.ndarray:
     return np.divide(n, length, out=np.zeros_like(n), where=length > 0)
 
 
-def flat_normals(triangles_m: np.ndarray) -> np.ndarray:
+def flat_normals(triangles_m: ArrayLike) -> np.ndarray:
     """Per-vertex shading normals (F, 3, 3) equal to each face normal."""
     n = face_normals(triangles_m)
     return np.repeat(n[:, None, :], 3, axis=1)

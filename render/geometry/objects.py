@@ -39,6 +39,7 @@ from dataclasses import dataclass, field
 from typing import Any, Generic, TypeVar
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from render.errors import did_you_mean
 from render.geometry import shapes as sh
@@ -1330,7 +1331,9 @@ class BuiltObject:
     points_m: dict[str, np.ndarray] = field(default_factory=dict)
     directions: dict[str, np.ndarray] = field(default_factory=dict)
 
-    def placed(self, position_m=(0.0, 0.0, 0.0), heading_deg: float = 0.0, scale: float = 1.0) -> BuiltObject:
+    def placed(
+        self, position_m: ArrayLike = (0.0, 0.0, 0.0), heading_deg: float = 0.0, scale: float = 1.0
+    ) -> BuiltObject:
         """The object moved to ``position_m``, turned by ``heading_deg`` and scaled."""
         return BuiltObject(
             self.kind,

@@ -33,15 +33,17 @@ References
 from __future__ import annotations
 
 import math
-from collections.abc import Iterable, Mapping
+from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from render.geometry.mesh import flat_normals
 
 __all__ = [
     "Part",
+    "PartsLike",
     "flat_part",
     "merge_parts",
     "count_triangles",
@@ -109,6 +111,10 @@ class Part:
         return int(self.triangles_m.shape[0])
 
 
+#: What the whole-part measures accept: one part, several, or an (F, 3, 3) triangle array.
+PartsLike = Part | Iterable[Part] | np.ndarray
+
+
 def flat_part(triangles_m: np.ndarray, slot: str) -> Part:
     """A :class:`Part` whose shading normals are the face normals."""
     t = np.asarray(triangles_m, dtype=np.float64).reshape(-1, 3, 3)
@@ -131,7 +137,7 @@ def count_triangles(parts: Iterable[Part]) -> int:
     return int(sum(p.n_triangles for p in parts))
 
 
-def _all_triangles(parts_or_triangles) -> np.ndarray:
+def _all_triangles(parts_or_triangles: PartsLike) -> np.ndarray:
     if isinstance(parts_or_triangles, np.ndarray):
         return parts_or_triangles.reshape(-1, 3, 3)
     if isinstance(parts_or_triangles, Part):
@@ -142,7 +148,7 @@ def _all_triangles(parts_or_triangles) -> np.ndarray:
     return np.concatenate([p.triangles_m for p in parts])
 
 
-def bounds_m(parts) -> tuple[np.ndarray, np.ndarray]:
+def bounds_m(parts: PartsLike) -> tuple[np.ndarray, np.ndarray]:
     """Axis-aligned bounds ``(min_xyz, max_xyz)`` of parts (or a triangle array), metres."""
     t = _all_triangles(parts).reshape(-1, 3)
     if t.shape[0] == 0:
@@ -150,7 +156,7 @@ def bounds_m(parts) -> tuple[np.ndarray, np.ndarray]:
     return t.min(axis=0), t.max(axis=0)
 
 
-def signed_volume_m3(parts) -> float:
+def signed_volume_m3(parts: PartsLike) -> float:
     """Enclosed volume by the divergence theorem, V = Σ v0·(v1 × v2) / 6.
 
     Positive for a closed surface whose normals point outward; meaningless for open surfaces.
@@ -159,7 +165,7 @@ def signed_volume_m3(parts) -> float:
     return float(np.einsum("ij,ij->i", t[:, 0], np.cross(t[:, 1], t[:, 2])).sum() / 6.0)
 
 
-def surface_area_m2(parts) -> float:
+def surface_area_m2(parts: PartsLike) -> float:
     """Total triangle area, m²."""
     t = _all_triangles(parts)
     return float(0.5 * np.linalg.norm(np.cross(t[:, 1] - t[:, 0], t[:, 2] - t[:, 0]), axis=1).sum())
@@ -177,7 +183,7 @@ def rotation_z(heading_deg: float) -> np.ndarray:
     return np.array([[c, -s, 0.0], [s, c, 0.0], [0.0, 0.0, 1.0]])
 
 
-def affine_parts(parts: Iterable[Part], matrix, offset_m=(0.0, 0.0, 0.0)) -> list[Part]:
+def affine_parts(parts: Iterable[Part], matrix: ArrayLike, offset_m: ArrayLike = (0.0, 0.0, 0.0)) -> list[Part]:
     """Apply ``x -> matrix @ x + offset_m`` to parts.
 
     Normals are transformed by the inverse transpose and renormalised; a mirroring matrix
@@ -203,7 +209,7 @@ def affine_parts(parts: Iterable[Part], matrix, offset_m=(0.0, 0.0, 0.0)) -> lis
 
 
 def transform_parts(
-    parts: Iterable[Part], position_m=(0.0, 0.0, 0.0), heading_deg: float = 0.0, scale: float = 1.0
+    parts: Iterable[Part], position_m: ArrayLike = (0.0, 0.0, 0.0), heading_deg: float = 0.0, scale: float = 1.0
 ) -> list[Part]:
     """Place parts built in a local frame: uniform ``scale``, turn by ``heading_deg`` about +z
     (from +x towards +y), then move the local origin to ``position_m``."""
@@ -211,14 +217,16 @@ def transform_parts(
     return affine_parts(parts, rotation_z(heading_deg) * s, position_m)
 
 
-def transform_points(points_m, position_m=(0.0, 0.0, 0.0), heading_deg: float = 0.0, scale: float = 1.0) -> np.ndarray:
+def transform_points(
+    points_m: ArrayLike, position_m: ArrayLike = (0.0, 0.0, 0.0), heading_deg: float = 0.0, scale: float = 1.0
+) -> np.ndarray:
     """The same placement as :func:`transform_parts` for points (..., 3)."""
     p = np.asarray(points_m, dtype=np.float64)
     s = _positive("scale", scale)
     return p @ (rotation_z(heading_deg) * s).T + _vector("position_m", position_m)
 
 
-def transform_directions(directions, heading_deg: float = 0.0) -> np.ndarray:
+def transform_directions(directions: ArrayLike, heading_deg: float = 0.0) -> np.ndarray:
     """Turn direction vectors (..., 3) by ``heading_deg`` about +z (no scale, no move)."""
     return np.asarray(directions, dtype=np.float64) @ rotation_z(heading_deg).T
 
@@ -293,7 +301,7 @@ def _unit(v: np.ndarray) -> np.ndarray:
 # ---------------------------------------------------------------------------------------------
 
 
-def polygon_area_m2(outline_xy) -> float:
+def polygon_area_m2(outline_xy: ArrayLike) -> float:
     """Signed area of a 2-D polygon by the shoelace formula (positive if counter-clockwise)."""
     p = np.asarray(outline_xy, dtype=np.float64).reshape(-1, 2)
     x, y = p[:, 0], p[:, 1]
@@ -355,7 +363,7 @@ def _check_simple(p: np.ndarray, name: str) -> None:
             )
 
 
-def triangulate_polygon(outline_xy, *, name: str = "outline") -> np.ndarray:
+def triangulate_polygon(outline_xy: ArrayLike, *, name: str = "outline") -> np.ndarray:
     """Triangulate a simple 2-D polygon (convex or concave, no holes) by ear clipping.
 
     Parameters
@@ -478,7 +486,7 @@ _HEX_FACES = {
 }
 
 
-def hexahedron(corners_m, *, slot: str = "body", face_slots: Mapping[str, str] | None = None) -> list[Part]:
+def hexahedron(corners_m: ArrayLike, *, slot: str = "body", face_slots: Mapping[str, str] | None = None) -> list[Part]:
     """A closed six-faced solid from 8 corners (a box, a tapered bin body, a tilted lantern).
 
     Parameters
@@ -507,10 +515,10 @@ def hexahedron(corners_m, *, slot: str = "body", face_slots: Mapping[str, str] |
 
 def box(
     *,
-    centre_m=None,
-    size_m=None,
-    min_m=None,
-    max_m=None,
+    centre_m: ArrayLike | None = None,
+    size_m: ArrayLike | None = None,
+    min_m: ArrayLike | None = None,
+    max_m: ArrayLike | None = None,
     yaw_deg: float = 0.0,
     slot: str = "body",
     face_slots: Mapping[str, str] | None = None,
@@ -613,13 +621,13 @@ def _revolve(profile: np.ndarray, n: int, cap_from: int, cap_to: int, smooth: bo
 
 
 def lathe(
-    profile_rz,
+    profile_rz: ArrayLike,
     *,
-    base_m=(0.0, 0.0, 0.0),
-    axis=(0.0, 0.0, 1.0),
+    base_m: ArrayLike = (0.0, 0.0, 0.0),
+    axis: ArrayLike = (0.0, 0.0, 1.0),
     segments: int = 16,
     capped: bool = True,
-    start_dir=None,
+    start_dir: ArrayLike | None = None,
     smooth: bool = True,
     slot: str = "body",
     cap_slot: str | None = None,
@@ -675,14 +683,14 @@ def lathe(
 
 
 def frustum(
-    p0_m,
-    p1_m,
+    p0_m: ArrayLike,
+    p1_m: ArrayLike,
     radius0_m: float,
     radius1_m: float,
     *,
     segments: int = 16,
     capped: bool = True,
-    start_dir=None,
+    start_dir: ArrayLike | None = None,
     slot: str = "body",
     cap_slot: str | None = None,
 ) -> list[Part]:
@@ -711,13 +719,13 @@ def frustum(
 
 
 def cylinder(
-    p0_m,
-    p1_m,
+    p0_m: ArrayLike,
+    p1_m: ArrayLike,
     radius_m: float,
     *,
     segments: int = 16,
     capped: bool = True,
-    start_dir=None,
+    start_dir: ArrayLike | None = None,
     slot: str = "body",
     cap_slot: str | None = None,
 ) -> list[Part]:
@@ -730,13 +738,13 @@ def cylinder(
 
 
 def cone(
-    base_m,
-    apex_m,
+    base_m: ArrayLike,
+    apex_m: ArrayLike,
     radius_m: float,
     *,
     segments: int = 16,
     capped: bool = True,
-    start_dir=None,
+    start_dir: ArrayLike | None = None,
     slot: str = "body",
     cap_slot: str | None = None,
 ) -> list[Part]:
@@ -835,7 +843,13 @@ def _unit_sphere(method: str, subdivisions: int, segments: int) -> tuple[np.ndar
 
 
 def sphere(
-    centre_m, radius_m: float, *, method: str = "ico", subdivisions: int = 2, segments: int = 16, slot: str = "body"
+    centre_m: ArrayLike,
+    radius_m: float,
+    *,
+    method: str = "ico",
+    subdivisions: int = 2,
+    segments: int = 16,
+    slot: str = "body",
 ) -> list[Part]:
     """A closed sphere with smooth (radial) normals; all vertices lie on the sphere.
 
@@ -849,7 +863,14 @@ def sphere(
 
 
 def ellipsoid(
-    centre_m, radii_m, *, method: str = "ico", subdivisions: int = 2, segments: int = 16, slot: str = "body", warp=None
+    centre_m: ArrayLike,
+    radii_m: ArrayLike,
+    *,
+    method: str = "ico",
+    subdivisions: int = 2,
+    segments: int = 16,
+    slot: str = "body",
+    warp: Callable[[np.ndarray], np.ndarray] | None = None,
 ) -> list[Part]:
     """A closed axis-aligned ellipsoid (semi-axes ``radii_m``), smooth normals.
 
@@ -891,7 +912,7 @@ def _vertex_normals(v: np.ndarray, f: np.ndarray) -> np.ndarray:
 
 
 def extrude(
-    outline_xy,
+    outline_xy: ArrayLike,
     height_m: float,
     *,
     z0_m: float = 0.0,
@@ -931,7 +952,7 @@ def extrude(
 
 
 def sweep_rect(
-    path_xy,
+    path_xy: ArrayLike,
     width_m: float,
     height_m: float,
     *,
@@ -972,7 +993,7 @@ def sweep_rect(
     return extrude(outline, height_m, z0_m=z0_m, slot=slot, top_slot=top_slot)
 
 
-def flat_region(outline_xy, z_m: float = 0.0, *, slot: str = "marking") -> list[Part]:
+def flat_region(outline_xy: ArrayLike, z_m: float = 0.0, *, slot: str = "marking") -> list[Part]:
     """A flat, up-facing polygon at height ``z_m`` (road marking, cycle-lane surfacing): the
     outline may be given in either orientation and may be concave; one-sided, normal +z."""
     p = _points("outline_xy", outline_xy, 2, 3)
@@ -985,7 +1006,7 @@ def flat_region(outline_xy, z_m: float = 0.0, *, slot: str = "marking") -> list[
     return [Part(tri, nrm, slot)]
 
 
-def strip(p0_xy, p1_xy, width_m: float, z_m: float = 0.0, *, slot: str = "marking") -> list[Part]:
+def strip(p0_xy: ArrayLike, p1_xy: ArrayLike, width_m: float, z_m: float = 0.0, *, slot: str = "marking") -> list[Part]:
     """An up-facing rectangle of ``width_m`` centred on the segment ``p0_xy`` -> ``p1_xy`` at
     height ``z_m`` (a line marking, a dash)."""
     a = _vector("p0_xy", p0_xy, 2)
@@ -998,7 +1019,7 @@ def strip(p0_xy, p1_xy, width_m: float, z_m: float = 0.0, *, slot: str = "markin
     return flat_region([a - n, b - n, b + n, a + n], z_m, slot=slot)
 
 
-def quad(p0_m, p1_m, p2_m, p3_m, *, slot: str = "body") -> list[Part]:
+def quad(p0_m: ArrayLike, p1_m: ArrayLike, p2_m: ArrayLike, p3_m: ArrayLike, *, slot: str = "body") -> list[Part]:
     """A one-sided quadrilateral, counter-clockwise seen from its front: triangles
     (p0, p1, p2) and (p0, p2, p3); flat normals."""
     pts = [_vector(f"p{i}_m", p) for i, p in enumerate((p0_m, p1_m, p2_m, p3_m))]
@@ -1008,7 +1029,7 @@ def quad(p0_m, p1_m, p2_m, p3_m, *, slot: str = "body") -> list[Part]:
     return [flat_part(tri, slot)]
 
 
-def panel(points_m, *, facing=None, slot: str = "body") -> list[Part]:
+def panel(points_m: ArrayLike, *, facing: ArrayLike | None = None, slot: str = "body") -> list[Part]:
     """A one-sided flat polygon from (n, 3) corners (convex or concave, nearly planar).
 
     The winding gives the front (counter-clockwise seen from the front); if ``facing`` is
