@@ -21,7 +21,7 @@ import pytest
 from PIL import Image
 
 from render.cli import main
-from render.output.images import figure_pixels, png_bytes, write_figure_png, write_png
+from render.output.images import figure_pixels, fit_width, png_bytes, write_figure_png, write_png
 
 SCENES = Path(__file__).resolve().parents[1] / "scenes" / "tests"
 
@@ -178,6 +178,19 @@ def test_figure_matches_matplotlib_png(tmp_path):
     assert figure_pixels(fig, dpi=100).shape == (240, 320, 4) and fig.dpi == 50  # dpi restored
     with Image.open(ours) as im:
         assert im.text["lampcast.kind"] == "test"
+
+
+def test_fit_width_averages_in_linear_light():
+    # A 1-pixel black/white checkerboard halved has linear-light mean 0.5, which the sRGB curve
+    # (IEC 61966-2-1: 1.055 * 0.5**(1/2.4) - 0.055 = 0.7354) encodes as 188 of 255; averaging
+    # the encoded values instead would give 128 (analytic).
+    board = (np.indices((64, 96)).sum(axis=0) % 2 * 255).astype(np.uint8)
+    small = fit_width(np.repeat(board[..., None], 3, axis=2), 48)
+    assert small.shape == (32, 48, 3) and np.all(small == 188)
+    # A uniform colour is kept exactly; an image that fits is returned as it is.
+    flat = np.full((30, 100, 3), (200, 100, 50), np.uint8)
+    assert np.array_equal(fit_width(flat, 40), np.full((12, 40, 3), (200, 100, 50), np.uint8))
+    assert fit_width(flat, 100) is flat
 
 
 def test_render_aov_pngs_carry_provenance_and_rerun_identically(tmp_path):

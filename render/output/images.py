@@ -17,6 +17,11 @@ Every PNG carries ``Software`` = ``lampcast <version>`` unless the caller's text
 callers that know the run (scene, view, seed, ...) add the entries of
 :func:`render.output.provenance.image_metadata`.
 
+:func:`fit_width` shrinks a display image for small files (the frames of the wipe GIF):
+scikit-image's anti-aliased resize (Gaussian pre-filter, bilinear sampling) applied in linear
+light, so that fine light and dark detail averages to the right brightness instead of the
+darker average of the encoded values.
+
 References
 ----------
 - ISO/IEC 15948:2004 / W3C, "Portable Network Graphics (PNG) Specification (Second
@@ -24,6 +29,8 @@ References
   "Image file compression made easy", Graphics Gems II), filter selection heuristic (section
   12.8), ``tEXt``/``iTXt`` and ``sRGB`` chunks.
 - RFC 1950 / RFC 1951: the zlib stream inside ``IDAT`` (Python's :mod:`zlib`).
+- IEC 61966-2-1:1999 (sRGB transfer curve, through :mod:`render.vision.display`) and
+  scikit-image ``skimage.transform.resize`` (van der Walt et al. 2014, PeerJ 2:e453).
 """
 
 from __future__ import annotations
@@ -39,7 +46,7 @@ import numpy as np
 
 from render.fileio import atomic_write_bytes
 
-__all__ = ["png_bytes", "write_png", "figure_pixels", "write_figure_png"]
+__all__ = ["png_bytes", "write_png", "figure_pixels", "write_figure_png", "fit_width"]
 
 #: PNG colour types by channel count: grey, grey + alpha, RGB, RGBA.
 _COLOUR_TYPE = {1: 0, 2: 4, 3: 2, 4: 6}
@@ -160,3 +167,29 @@ def write_figure_png(
     rgba = figure_pixels(fig, dpi)
     image = rgba[..., :3] if np.all(rgba[..., 3] == 255) else rgba
     return write_png(path, image, text)
+
+
+def fit_width(image: np.ndarray, max_width_px: int) -> np.ndarray:
+    """An 8-bit sRGB image (H, W, 3) scaled down to ``max_width_px`` wide (aspect kept, height
+    rounded), or returned as it is when not wider.
+
+    Decoded to linear light (IEC 61966-2-1), resized by :func:`skimage.transform.resize` with
+    anti-aliasing (mirror boundaries, so a pattern keeps its mean up to the edges), encoded and
+    quantised again. Deterministic.
+    """
+    from skimage.transform import resize
+
+    from render.vision.display import quantise, srgb_decode, srgb_encode
+
+    img = np.asarray(image)
+    if img.ndim != 3 or img.dtype != np.uint8:
+        raise ValueError(f"expected an (H, W, channels) uint8 image, got {img.dtype} {img.shape}")
+    if max_width_px < 1:
+        raise ValueError(f"max_width_px must be at least 1, got {max_width_px}")
+    h, w = img.shape[:2]
+    if w <= max_width_px:
+        return img
+    out_h = max(1, round(h * max_width_px / w))
+    linear = srgb_decode(img / 255.0)
+    small = resize(linear, (out_h, max_width_px, img.shape[2]), order=1, mode="reflect", anti_aliasing=True)
+    return quantise(srgb_encode(small), 8)
