@@ -34,13 +34,14 @@ def _out_dir(path: str | None, default: str) -> Path:
 
 
 def cmd_lamps(args) -> int:
-    from render.colour.lamp_figures import figures_json, format_lamp_table, lamp_figures, plot_lamp_spectrum
+    from render.colour.lamp_figures import lamp_figures
     from render.colour.lamps import builtin_lamps, get_lamp
+    from render.output.lamp_sheet import format_lamp_table, lamp_figures_json, plot_lamp_spectrum
 
     lamps = [get_lamp(ref, base_dir=Path.cwd()) for ref in args.ids] if args.ids else list(builtin_lamps().values())
     figures = [lamp_figures(lamp) for lamp in lamps]
     if args.json:
-        print(figures_json(figures))
+        print(lamp_figures_json(figures))
     else:
         print(format_lamp_table(figures))
     if args.plots:
@@ -55,7 +56,8 @@ def cmd_lamps(args) -> int:
 
 
 def cmd_materials(args) -> int:
-    from render.colour.materials import format_material_table, material_library, material_table, plot_material
+    from render.colour.materials import material_library
+    from render.output.material_sheet import format_material_table, material_table, plot_material
 
     lib = material_library()
     rows = material_table(lib)

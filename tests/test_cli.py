@@ -35,7 +35,7 @@ def test_lamps_json_matches_library(capsys):
     rows = json.loads(capsys.readouterr().out)
     assert [r["id"] for r in rows] == ["sodium-low-pressure", "led-3000k-cie-b2"]
     direct = lamp_figures(get_lamp("led-3000k-cie-b2"))
-    assert rows[1]["sp_ratio"] == pytest.approx(direct["sp_ratio"], rel=1e-3)
+    assert rows[1]["sp_ratio"] == pytest.approx(direct.sp_ratio, rel=1e-3)
 
 
 def test_unknown_lamp_exits_2(capsys):

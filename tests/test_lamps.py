@@ -1,4 +1,5 @@
-"""Tests of the lamp library (render.colour.lamps) and lamp figures (render.colour.lamp_figures).
+"""Tests of the lamp library (render.colour.lamps), lamp figures (render.colour.lamp_figures) and
+the lamp sheet (render.output.lamp_sheet).
 
 Each check names what it is checked against. "Common practice, no source" marks lighting rules
 of thumb; "from memory" marks values written down without the document at hand.
@@ -6,6 +7,7 @@ of thumb; "from memory" marks values written down without the document at hand.
 
 from __future__ import annotations
 
+import hashlib
 import json
 import math
 import re
@@ -15,25 +17,20 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from render.colour.lamp_figures import (
-    FIGURE_KEYS,
-    figures_json,
-    format_lamp_table,
-    lamp_figures,
-    plot_lamp_spectrum,
-)
+from render.colour.lamp_figures import FIGURE_KEYS, LampFigures, lamp_figures
 from render.colour.lamps import (
     LAMP_TYPES,
-    SODIUM_LOW_PRESSURE_LINES,
     Lamp,
     LineSpectrum,
     builtin_lamps,
     get_lamp,
     load_lamp_file,
 )
+from render.colour.lamps.catalogue import catalogue_entries
 from render.colour.observers import photopic, scale_to_photopic, sp_ratio
 from render.colour.spectra import N_BINS, WAVELENGTHS_NM, band_power, centroid_nm
 from render.errors import InputError
+from render.output.lamp_sheet import format_lamp_table, lamp_figures_json, plot_lamp_spectrum
 
 colour = pytest.importorskip("colour")
 
@@ -46,7 +43,7 @@ def lamps() -> dict[str, Lamp]:
 
 
 @pytest.fixture(scope="module")
-def figures(lamps) -> dict[str, dict]:
+def figures(lamps) -> dict[str, LampFigures]:
     return {k: lamp_figures(v) for k, v in lamps.items()}
 
 
@@ -97,6 +94,39 @@ def test_builtin_lamps_are_complete_and_well_formed(lamps):
         assert lamp.spd.sum() == pytest.approx(1.0, rel=1e-12)
 
 
+# Regression pin, not an external check: SHA-256 over every built-in lamp's texts (id, name, type,
+# description, source, notes), spectrum bytes and line list, computed from the lamps as the
+# catalogue generator in Python built them before the catalogue became a data file
+# (render/data/lamps/catalogue.toml). It changes if a lamp's data or texts, the gridding
+# arithmetic or colour-science's bundled tables change; then check the figures and update it on
+# purpose.
+CATALOGUE_PIN = "accf1fea622fb62e43742be4f212e8ec0b236c6bc0f0f4c855a585e057756378"
+
+
+def test_catalogue_data_builds_the_pinned_lamps(lamps):
+    digest = hashlib.sha256()
+    for lamp_id, lamp in lamps.items():
+        for text in (lamp_id, lamp.name, lamp.type, lamp.description, lamp.source, *lamp.notes):
+            digest.update(text.encode() + b"\0")
+        digest.update(lamp.spd.tobytes())
+        digest.update(repr(lamp.lines).encode())
+    assert len(lamps) == 35
+    assert digest.hexdigest() == CATALOGUE_PIN
+
+
+def test_catalogue_entries_match_the_lamps(lamps):
+    # Project requirement: the data file lists every built-in lamp once, in listing order, and
+    # every tabulated lamp cites the dataset key it is built from.
+    entries = catalogue_entries()
+    assert list(entries) == list(lamps)
+    for entry in entries.values():
+        lamp = lamps[entry.id]
+        assert (lamp.name, lamp.type, lamp.source, lamp.notes) == (entry.name, entry.type, entry.source, entry.notes)
+        if entry.dataset is not None:
+            attribute, key = entry.dataset
+            assert f"colour.{attribute}['{key}']" in lamp.source
+
+
 def test_5nm_discharge_tables_say_their_lines_are_hidden(lamps):
     # Project requirement: lamps tabulated at 5 nm with emission lines say so.
     for lamp in lamps.values():
@@ -123,8 +153,9 @@ def test_tabulated_lamp_matches_its_colour_science_table(lamps):
 def test_line_source_power_conserved_on_the_grid():
     # Analytic: deposit_lines conserves power, so the gridded LPS model holds the sum of its
     # line powers (to 0.1 %, the project's tolerance).
-    spectrum = LineSpectrum([(w, p) for w, p, _ in SODIUM_LOW_PRESSURE_LINES])
-    total = sum(p for _, p, _ in SODIUM_LOW_PRESSURE_LINES)
+    lines = [(line["nm"], line["power"]) for line in catalogue_entries()["sodium-low-pressure"].spectrum["lines"]]
+    spectrum = LineSpectrum(lines)
+    total = sum(p for _, p in lines)
     assert spectrum.density().sum() == pytest.approx(total, rel=1e-3)
 
 
@@ -173,24 +204,24 @@ def test_mercury_line_model_peaks_at_nist_lines(lamps):
     ],
 )
 def test_sp_ratio_rules_of_thumb(figures, lamp_id, lo, hi):
-    assert lo <= figures[lamp_id]["sp_ratio"] <= hi
+    assert lo <= figures[lamp_id].sp_ratio <= hi
 
 
 def test_colour_rendering_of_sodium_lamps(figures):
     # Reference notes (common practice, no source): Ra of LPS strongly negative; standard HPS
     # about 20-25 (range 10-30 here); HP1's tabulated Ra is lower.
-    assert figures["sodium-low-pressure"]["ra"] < 0
-    assert 10 <= figures["sodium-high-pressure-measured"]["ra"] <= 30
-    assert figures["sodium-high-pressure-cie-hp1"]["ra"] < figures["sodium-high-pressure-measured"]["ra"]
+    assert figures["sodium-low-pressure"].ra < 0
+    assert 10 <= figures["sodium-high-pressure-measured"].ra <= 30
+    assert figures["sodium-high-pressure-cie-hp1"].ra < figures["sodium-high-pressure-measured"].ra
     # CIE 13.3 validity: LPS lies beyond DC = 5.4e-3 of its reference, and we say so.
-    assert figures["sodium-low-pressure"]["cri_dc"] > 5.4e-3
-    assert any(w.startswith("CIE 13.3") for w in figures["sodium-low-pressure"]["warnings"])
+    assert figures["sodium-low-pressure"].cri_dc > 5.4e-3
+    assert any(w.startswith("CIE 13.3") for w in figures["sodium-low-pressure"].warnings)
 
 
 def test_ra_of_fl2_matches_colour_science_example(figures):
     # colour-science docstring of colour_rendering_index: FL2 Ra = 64.2337... (5 nm table);
     # our 1 nm gridding must not move it by more than 0.1.
-    assert figures["fluorescent-cie-fl2"]["ra"] == pytest.approx(64.2337, abs=0.1)
+    assert figures["fluorescent-cie-fl2"].ra == pytest.approx(64.2337, abs=0.1)
 
 
 @pytest.mark.parametrize(
@@ -207,47 +238,47 @@ def test_indices_match_colour_science_on_original_tables(figures, key, lamp_id):
         rf = colour.colour_fidelity_index(sd, method="CIE 2017")
         tm = colour.colour_fidelity_index(sd, additional_data=True, method="ANSI/IES TM-30-18")
     fig = figures[lamp_id]
-    assert fig["ra"] == pytest.approx(ra, abs=1.0)
-    assert fig["rf_cie2017"] == pytest.approx(rf, abs=1.0)
-    assert fig["rf_tm30"] == pytest.approx(tm.R_f, abs=1.0)
-    assert fig["rg_tm30"] == pytest.approx(tm.R_g, abs=1.5)
+    assert fig.ra == pytest.approx(ra, abs=1.0)
+    assert fig.rf_cie2017 == pytest.approx(rf, abs=1.0)
+    assert fig.rf_tm30 == pytest.approx(tm.R_f, abs=1.0)
+    assert fig.rg_tm30 == pytest.approx(tm.R_g, abs=1.5)
 
 
 def test_cct_of_cie_lamps_vs_cie15(figures):
     # CIE 15:2018 Tables 11/12 (from memory): HP1 1959 K, LED-B3 4103 K; HP4 4002 K.
-    assert figures["sodium-high-pressure-cie-hp1"]["cct_K"] == pytest.approx(1959, abs=5)
-    assert figures["led-4000k-cie-b3"]["cct_K"] == pytest.approx(4103, abs=3)
-    assert figures["metal-halide-cie-hp4"]["cct_K"] == pytest.approx(4002, abs=5)
+    assert figures["sodium-high-pressure-cie-hp1"].cct_K == pytest.approx(1959, abs=5)
+    assert figures["led-4000k-cie-b3"].cct_K == pytest.approx(4103, abs=3)
+    assert figures["metal-halide-cie-hp4"].cct_K == pytest.approx(4002, abs=5)
 
 
 def test_luminous_efficacy_and_fractions(lamps, figures):
     # Analytic: LER of monochromatic light is Km·V(λ); the narrow-band amber LED (590 nm,
     # FWHM 15 nm) must lie below Km·V(555) = 683 and near Km·V(590) = 683·0.757 = 517 lm/W
     # (V(590) from the CIE 1924 table).
-    assert figures["led-amber-narrow-band"]["ler_lm_per_w"] == pytest.approx(517, rel=0.03)
+    assert figures["led-amber-narrow-band"].ler_lm_per_w == pytest.approx(517, rel=0.03)
     # Definition (±2 nm of the peak bin): LPS puts > 95 % in its doublet, which lies inside
     # that band; a broadband LED puts only a few per cent there.
-    assert figures["sodium-low-pressure"]["notch_fraction"] > 0.95
-    assert figures["led-4000k-cie-b3"]["notch_fraction"] < 0.05
+    assert figures["sodium-low-pressure"].notch_fraction > 0.95
+    assert figures["led-4000k-cie-b3"].notch_fraction < 0.05
     # Definition: blue fraction is the share below 500 nm.
     spd = lamps["led-4000k-cie-b3"].spd
     expected = spd[WAVELENGTHS_NM < 500].sum() + 0.5 * spd[WAVELENGTHS_NM == 500].sum()
-    assert figures["led-4000k-cie-b3"]["blue_fraction"] == pytest.approx(expected)
-    assert figures["sodium-low-pressure"]["blue_fraction"] < 0.01
+    assert figures["led-4000k-cie-b3"].blue_fraction == pytest.approx(expected)
+    assert figures["sodium-low-pressure"].blue_fraction < 0.01
 
 
 def test_every_builtin_lamp_has_finite_figures(lamps, figures):
     # Project requirement: every built-in lamp computes without exceptions and without NaN.
     for lamp_id, fig in figures.items():
-        assert list(fig)[: len(FIGURE_KEYS)] == list(FIGURE_KEYS)
+        assert list(fig.to_json())[: len(FIGURE_KEYS)] == list(FIGURE_KEYS)
         for key in FIGURE_KEYS:
-            value = fig[key]
+            value = getattr(fig, key)
             if value is None:
-                assert key in fig["undefined"], (lamp_id, key)
+                assert key in fig.undefined, (lamp_id, key)
             elif isinstance(value, float):
                 assert math.isfinite(value), (lamp_id, key)
-        assert fig["sp_ratio"] is not None and fig["ler_lm_per_w"] is not None
-        assert fig["cct_K"] is None or 1000 <= fig["cct_K"] <= 100000
+        assert fig.sp_ratio is not None and fig.ler_lm_per_w is not None
+        assert fig.cct_K is None or 1000 <= fig.cct_K <= 100000
 
 
 def test_cct_undefined_far_from_planckian_locus(tmp_path):
@@ -256,12 +287,12 @@ def test_cct_undefined_far_from_planckian_locus(tmp_path):
     path = tmp_path / "green.csv"
     path.write_text("# name: green line\nline, 520.0, 1.0\n")
     fig = lamp_figures(load_lamp_file(path))
-    assert fig["duv"] > 0.05
+    assert fig.duv > 0.05
     for key in ("cct_K", "ra", "r9", "rf_cie2017", "rf_tm30", "rg_tm30"):
-        assert fig[key] is None
-        assert fig["undefined"][key]
-    assert "Duv" in fig["undefined"]["cct_K"]
-    data = json.loads(figures_json([fig]))
+        assert getattr(fig, key) is None
+        assert fig.undefined[key]
+    assert "Duv" in fig.undefined["cct_K"]
+    data = json.loads(lamp_figures_json([fig]))
     assert data[0]["cct_K"] is None
     assert "n/a" in format_lamp_table([fig])
 
@@ -285,19 +316,20 @@ def test_table_and_json(lamps, figures):
     assert "CCT" in lines[0] and "lm/W" in lines[1] and "K" in lines[1]
     for lamp_id in lamps:
         assert any(line.startswith(lamp_id + " ") for line in lines)
-    text = figures_json(figs)
+    text = lamp_figures_json(figs)
     assert "NaN" not in text
     data = json.loads(text)
     assert [row["id"] for row in data] == list(lamps)
     assert list(data[0]) == list(FIGURE_KEYS) + ["undefined", "warnings"]
     assert isinstance(data[0]["cct_K"], int)
-    assert figures_json(figs) == text  # stable
+    assert lamp_figures_json(figs) == text  # stable
 
 
 def test_figures_json_never_writes_nan():
-    fig = {key: None for key in FIGURE_KEYS}
-    fig.update(id="x", name="x", type="other", sp_ratio=float("nan"), ler_lm_per_w=float("inf"))
-    data = json.loads(figures_json([fig]))
+    values = {key: None for key in FIGURE_KEYS}
+    values.update(id="x", name="x", type="other", sp_ratio=float("nan"), ler_lm_per_w=float("inf"))
+    fig = LampFigures(**values)
+    data = json.loads(lamp_figures_json([fig]))
     assert data[0]["sp_ratio"] is None and data[0]["ler_lm_per_w"] is None
 
 
@@ -323,6 +355,25 @@ def test_get_lamp_by_id_and_unknown_ids(lamps):
     with pytest.raises(InputError) as err:
         get_lamp("HP1")
     assert "sodium-high-pressure-cie-hp1" in str(err.value)
+
+
+def test_dataset_keys_with_a_dot_are_ids_and_extensions_are_files(tmp_path):
+    # Project rule (one path-likeness rule, render.fileio.looks_like_path): a dot before digits
+    # is part of a dataset key, a dot before letters starts a file extension.
+    with pytest.raises(InputError) as err:
+        get_lamp("FL3.1")
+    assert "the built-in lamp made from the 'FL3.1' table is 'fluorescent-cie-fl3-1'" in str(err.value)
+    with pytest.raises(InputError) as err:
+        get_lamp("kerbside.spd", base_dir=tmp_path)
+    assert "lamp file not found" in str(err.value)
+
+
+def test_figures_record_round_trip(figures):
+    # Common practice, no source: the published record reads back into the same record.
+    for fig in figures.values():
+        data = fig.to_json()
+        assert LampFigures.from_json(data).to_json() == data
+        assert json.loads(json.dumps(data)) == data
 
 
 def test_get_lamp_from_file_relative_to_base_dir(tmp_path):

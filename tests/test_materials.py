@@ -23,16 +23,14 @@ from render.colour.materials import (
     REQUIRED_KEYS,
     Material,
     default_materials_dir,
-    format_material_table,
     get_material,
     load_material_csv,
     luminous_reflectance,
     material_library,
-    material_table,
-    plot_material,
 )
 from render.colour.spectra import N_BINS, WAVELENGTHS_NM
 from render.errors import InputError
+from render.output.material_sheet import format_material_table, material_table, plot_material
 
 # colour-science warns when it aligns a 360-830 nm sample to D65's 300-780 nm; expected here.
 pytestmark = pytest.mark.filterwarnings("ignore::colour.utilities.ColourRuntimeWarning")

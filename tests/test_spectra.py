@@ -11,7 +11,6 @@ import warnings
 import numpy as np
 import pytest
 
-from render.colour.lamps import density_on_grid
 from render.colour.observers import (
     KM_LM_PER_W,
     KM_SCOTOPIC_LM_PER_W,
@@ -33,6 +32,7 @@ from render.colour.spectra import (
     bin_density,
     bin_mean,
     centroid_nm,
+    density_on_grid,
     deposit_lines,
 )
 

@@ -848,7 +848,8 @@ The build is deterministic (same inputs, byte-identical files).
 def render_readme(directory: Path) -> str:
     if str(REPO) not in sys.path:
         sys.path.insert(0, str(REPO))
-    from render.colour.materials import material_library, material_table
+    from render.colour.materials import material_library
+    from render.output.material_sheet import material_table
 
     short_licence = {
         LIC_UCSB: "MIT (earthlib); UCSB data, credit the source",

@@ -13,21 +13,35 @@ the lamp's S/P ratio. The last row (ρ = 1) serves visible luminous openings. Th
 the number of wavelength bins.
 
 :func:`resolve` combines buffers, per-channel factors and lamps into images.
+
+References
+----------
+- CIE 15:2004 / CIE 015:2018 *Colorimetry*: tristimulus values X, Y, Z with the CIE 1931 2°
+  colour-matching functions and Km = 683 lm/W.
+- CIE 1951 scotopic luminous efficiency V'(λ) with K'm = 1700 lm/W (scotopic luminance).
 """
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numba
 import numpy as np
 from numba import prange
+from numpy.typing import ArrayLike
 
 from render.colour.observers import KM_LM_PER_W, KM_SCOTOPIC_LM_PER_W, cmfs_xyz, photopic_lef, scotopic_lef
 from render.colour.spectra import BIN_WIDTH_NM
 
+if TYPE_CHECKING:
+    from render.light.integrator import LightBuffers
 
-def unit_photopic(spd: np.ndarray) -> np.ndarray:
+__all__ = ["ViewColorimetry", "coarsen", "resolve", "response_table", "unit_photopic"]
+
+
+def unit_photopic(spd: ArrayLike) -> np.ndarray:
     """A lamp spectrum scaled so that Km·Σ s V Δλ = 1 (one photopic unit)."""
     spd = np.asarray(spd, np.float64)
     p = KM_LM_PER_W * float(spd @ photopic_lef()) * BIN_WIDTH_NM
@@ -36,7 +50,7 @@ def unit_photopic(spd: np.ndarray) -> np.ndarray:
     return spd / p
 
 
-def coarsen(values: np.ndarray, step_bins: int, mean: bool) -> np.ndarray:
+def coarsen(values: ArrayLike, step_bins: int, mean: bool) -> np.ndarray:
     """Spectra on a coarser grid of ``step_bins`` 1 nm bins per band (last axis): band sums of
     densities (power conserved) or band means of reflectances and observer functions."""
     v = np.asarray(values, np.float64)
@@ -51,7 +65,7 @@ def coarsen(values: np.ndarray, step_bins: int, mean: bool) -> np.ndarray:
     return bands.sum(axis=-1) / counts if mean else bands.sum(axis=-1)
 
 
-def response_table(reflectances: np.ndarray, lamp_spds: np.ndarray, step_nm: int = 1) -> np.ndarray:
+def response_table(reflectances: ArrayLike, lamp_spds: ArrayLike, step_nm: int = 1) -> np.ndarray:
     """``R`` of shape (K + 1, M, 4) for K reflectances (K, N_BINS) and M lamps (M, N_BINS);
     row K is the white (ρ = 1) response used for luminous openings.
 
@@ -155,7 +169,11 @@ class ViewColorimetry:
 
 
 def resolve(
-    buffers, factors: np.ndarray, lamp_spds: list[np.ndarray], reflectances: np.ndarray, step_nm: int = 1
+    buffers: LightBuffers,
+    factors: ArrayLike,
+    lamp_spds: Sequence[np.ndarray],
+    reflectances: ArrayLike,
+    step_nm: int = 1,
 ) -> ViewColorimetry:
     """Images from light buffers.
 

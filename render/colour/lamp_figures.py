@@ -1,6 +1,7 @@
-"""Colour and photometric figures of a lamp, the lamp table, JSON and spectrum plots.
+"""Colour and photometric figures of a lamp: CCT, rendering indices, S/P, efficacy, fractions.
 
-:func:`lamp_figures` computes, from a :class:`render.colour.lamps.Lamp`'s 1 nm spectrum:
+:func:`lamp_figures` computes, from a :class:`render.colour.lamps.Lamp`'s 1 nm spectrum, a
+:class:`LampFigures` record:
 
 * chromaticity x, y (CIE 1931 2°) and u, v (CIE 1960 UCS);
 * CCT and Duv by Ohno (2013), *LEUKOS* 10(1), "Practical use and calculation of CCT and Duv"
@@ -17,7 +18,7 @@
   of the strongest bin -- what an ideal 4 nm wide notch filter on the lamp's peak could remove;
 * peak wavelength (centre of the strongest bin).
 
-Where a figure is undefined its value is ``None`` and ``figures["undefined"][key]`` gives the
+Where a figure is undefined its value is ``None`` and ``figures.undefined[key]`` gives the
 reason; it is never a number. The conventions used:
 
 * CCT is not given when the chromaticity lies more than Duv = 0.05 from the Planckian locus
@@ -28,28 +29,52 @@ reason; it is never a number. The conventions used:
   the CCT is undefined, or outside 1000-25 000 K (where the CIE daylight series and the CIE 224
   reference are defined), Ra, R9, Rf and Rg are ``None``.
 * CIE 13.3-1995 asks that the lamp's chromaticity lie within DC = 5.4·10⁻³ of its reference;
-  beyond that Ra and R9 are still given, with a warning in ``figures["warnings"]``.
+  beyond that Ra and R9 are still given, with a warning in ``figures.warnings``.
 
 colour-science's own warnings are silenced; those that bear on a figure are kept in
-``figures["warnings"]`` with the prefix ``colour-science:``.
+``figures.warnings`` with the prefix ``colour-science:``. :meth:`LampFigures.to_json` gives the
+record ``lampcast lamps --json`` prints (floats rounded as :data:`FIGURE_KEYS` says); the table,
+the JSON text and the spectrum plots are in :mod:`render.output.lamp_sheet`.
+
+References
+----------
+- Y. Ohno, "Practical use and calculation of CCT and Duv", *LEUKOS* 10(1), 2014 (2013 online).
+- CIE 13.3-1995, *Method of measuring and specifying colour rendering properties of light
+  sources* (Ra, R9, DC).
+- CIE 224:2017, *Colour fidelity index for accurate scientific use* (Rf).
+- ANSI/IES TM-30-18, *Method for evaluating light source color rendition* (Rf, Rg).
+- CIE S 017:2020, *International Lighting Vocabulary*, 17-23-068 (limits of CCT).
+- CIE 1951 scotopic and CIE 1924 photopic luminous efficiency functions (S/P ratio, LER).
+- colour-science (``colour.temperature``, ``colour.colour_rendering_index``,
+  ``colour.colour_fidelity_index``), the implementations used.
 """
 
 from __future__ import annotations
 
-import copy
-import json
 import math
 import warnings
-from collections.abc import Sequence
+from collections.abc import Mapping
+from dataclasses import dataclass, field, fields
 from functools import lru_cache
-from pathlib import Path
+from typing import Any
 
 import numpy as np
 
 from render.colour.lamps import Lamp
-from render.colour.observers import photopic, photopic_lef, scotopic_lef, sp_ratio, tristimulus
+from render.colour.observers import photopic, sp_ratio, tristimulus
 from render.colour.spectra import BIN_WIDTH_NM, WAVELENGTHS_NM
-from render.fileio import save_figure
+
+__all__ = [
+    "BLUE_LIMIT_NM",
+    "CCT_RANGE_OHNO_K",
+    "CCT_RANGE_REFERENCE_K",
+    "DC_LIMIT_CIE133",
+    "DUV_LIMIT_CCT",
+    "FIGURE_KEYS",
+    "NOTCH_HALF_WIDTH_NM",
+    "LampFigures",
+    "lamp_figures",
+]
 
 #: Largest |Duv| for which a CCT is given (CIE S 017:2020, term 17-23-068, Note 1).
 DUV_LIMIT_CCT = 0.05
@@ -64,28 +89,80 @@ NOTCH_HALF_WIDTH_NM = 2.0
 #: Upper limit of the "blue" band, nm.
 BLUE_LIMIT_NM = 500.0
 
-#: Keys of :func:`lamp_figures`, in output order, with (unit, decimals for JSON/table).
-FIGURE_KEYS = {
-    "id": ("", None),
-    "name": ("", None),
-    "type": ("", None),
-    "x": ("", 4),
-    "y": ("", 4),
-    "u": ("", 4),
-    "v": ("", 4),
-    "cct_K": ("K", 0),
-    "duv": ("", 4),
-    "ra": ("", 1),
-    "r9": ("", 1),
-    "cri_dc": ("", 4),
-    "rf_cie2017": ("", 1),
-    "rf_tm30": ("", 1),
-    "rg_tm30": ("", 1),
-    "sp_ratio": ("", 3),
-    "ler_lm_per_w": ("lm/W", 1),
-    "blue_fraction": ("", 4),
-    "notch_fraction": ("", 4),
-    "peak_nm": ("nm", 0),
+
+def _figure(unit: str = "", decimals: int | None = None) -> Any:
+    """A field of :class:`LampFigures` with its unit and the decimals it is published with."""
+    return field(metadata={"unit": unit, "decimals": decimals})
+
+
+def _round(value: Any, decimals: int | None) -> Any:
+    """A figure as published: ``None`` for NaN or infinity, floats rounded to ``decimals``
+    (an int when 0), text unchanged."""
+    if value is None or isinstance(value, (str, bool)):
+        return value
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
+    if decimals is None:
+        return value
+    value = round(float(value), decimals)
+    return int(value) if decimals == 0 else value
+
+
+@dataclass(frozen=True)
+class LampFigures:
+    """Colour and photometric figures of one lamp (see the module docstring).
+
+    Units: ``cct_K`` K, ``ler_lm_per_w`` lm per W of 380-780 nm optical power, ``peak_nm`` nm,
+    fractions 0-1; the rest dimensionless. A figure that is not defined is ``None`` and
+    ``undefined`` gives the reason; ``warnings`` lists caveats (validity limits, colour-science
+    warnings that bear on a figure).
+    """
+
+    id: str = _figure()
+    name: str = _figure()
+    type: str = _figure()
+    x: float = _figure(decimals=4)
+    y: float = _figure(decimals=4)
+    u: float = _figure(decimals=4)
+    v: float = _figure(decimals=4)
+    cct_K: float | None = _figure("K", 0)
+    duv: float | None = _figure(decimals=4)
+    ra: float | None = _figure(decimals=1)
+    r9: float | None = _figure(decimals=1)
+    cri_dc: float | None = _figure(decimals=4)
+    rf_cie2017: float | None = _figure(decimals=1)
+    rf_tm30: float | None = _figure(decimals=1)
+    rg_tm30: float | None = _figure(decimals=1)
+    sp_ratio: float | None = _figure(decimals=3)
+    ler_lm_per_w: float | None = _figure("lm/W", 1)
+    blue_fraction: float = _figure(decimals=4)
+    notch_fraction: float = _figure(decimals=4)
+    peak_nm: float = _figure("nm", 0)
+    undefined: Mapping[str, str] = field(default_factory=dict)
+    warnings: tuple[str, ...] = ()
+
+    def to_json(self) -> dict[str, Any]:
+        """The record ``lampcast lamps --json`` prints: the figures in :data:`FIGURE_KEYS` order,
+        rounded to their decimals, ``None`` for undefined or non-finite ones (never NaN), then
+        ``undefined`` (figure -> reason, in the same order) and ``warnings``."""
+        out = {key: _round(getattr(self, key), decimals) for key, (_, decimals) in FIGURE_KEYS.items()}
+        out["undefined"] = {k: self.undefined[k] for k in FIGURE_KEYS if k in self.undefined}
+        out["warnings"] = list(self.warnings)
+        return out
+
+    @classmethod
+    def from_json(cls, data: Mapping[str, Any]) -> LampFigures:
+        """The record of a :meth:`to_json` result (figures as published, i.e. rounded)."""
+        return cls(
+            **{key: data.get(key) for key in FIGURE_KEYS},
+            undefined=dict(data.get("undefined") or {}),
+            warnings=tuple(data.get("warnings") or ()),
+        )
+
+
+#: The figures of :class:`LampFigures`, in output order, with (unit, decimals for JSON/table).
+FIGURE_KEYS: dict[str, tuple[str, int | None]] = {
+    f.name: (f.metadata["unit"], f.metadata["decimals"]) for f in fields(LampFigures) if "unit" in f.metadata
 }
 
 
@@ -226,171 +303,13 @@ def _relevant_warning(message: str) -> bool:
     return not any(word in message.lower() for word in routine)
 
 
-def lamp_figures(lamp: Lamp) -> dict:
+def lamp_figures(lamp: Lamp) -> LampFigures:
     """Colour and photometric figures of a lamp (see the module docstring).
 
-    Returns
-    -------
-    dict
-        Keys in the order of :data:`FIGURE_KEYS`, then ``"undefined"`` (figure -> reason) and
-        ``"warnings"`` (list of str). Units: ``cct_K`` K, ``ler_lm_per_w`` lm/W, ``peak_nm``
-        nm, fractions 0-1; the rest dimensionless. Cached on the spectrum, so computing all
-        built-in lamps twice costs about as much as once.
+    Cached on the spectrum, so computing all built-in lamps twice costs about as much as once.
     """
     values, notes, undefined = _figures_of_spectrum(np.ascontiguousarray(lamp.spd, dtype=np.float64).tobytes())
-    out: dict = {"id": lamp.id, "name": lamp.name, "type": lamp.type}
-    for key in FIGURE_KEYS:
-        if key not in out:
-            out[key] = values.get(key)
-    out["undefined"] = dict(undefined)
-    out["warnings"] = list(notes)
-    return copy.deepcopy(out)
-
-
-# --- table and JSON --------------------------------------------------------------------------
-
-_TABLE_COLUMNS = (
-    # (header, unit, key, width, format)
-    ("lamp", "", "id", 0, None),
-    ("CCT", "K", "cct_K", 6, "{:.0f}"),
-    ("Duv", "", "duv", 7, "{:+.4f}"),
-    ("Ra", "", "ra", 6, "{:.1f}"),
-    ("R9", "", "r9", 6, "{:.0f}"),
-    ("Rf", "CIE224", "rf_cie2017", 6, "{:.1f}"),
-    ("Rg", "TM-30", "rg_tm30", 6, "{:.1f}"),
-    ("S/P", "", "sp_ratio", 5, "{:.2f}"),
-    ("LER", "lm/W", "ler_lm_per_w", 5, "{:.0f}"),
-    ("blue", "<500nm%", "blue_fraction", 7, "{:.1%}"),
-    ("notch", "±2nm%", "notch_fraction", 6, "{:.1%}"),
-    ("x", "", "x", 6, "{:.4f}"),
-    ("y", "", "y", 6, "{:.4f}"),
-)
-
-
-def format_lamp_table(figures: Sequence[dict]) -> str:
-    """A fixed-width text table of :func:`lamp_figures` results, one lamp per row.
-
-    Undefined figures show as ``n/a``; a ``*`` marks a figure with a warning. Reasons and
-    warnings are listed under the table.
-    """
-    id_width = max([len("lamp")] + [len(f["id"]) for f in figures])
-    widths = [
-        id_width if key == "id" else max(width, len(head), len(unit)) for head, unit, key, width, _ in _TABLE_COLUMNS
-    ]
-    head = "  ".join(h.ljust(w) if k == "id" else h.rjust(w) for (h, _, k, _, _), w in zip(_TABLE_COLUMNS, widths))
-    units = "  ".join(u.ljust(w) if k == "id" else u.rjust(w) for (_, u, k, _, _), w in zip(_TABLE_COLUMNS, widths))
-    lines = [head, units, "-" * len(head)]
-    footnotes: list[str] = []
-    for fig in figures:
-        cells = []
-        flagged = {"ra", "r9"} if any(w.startswith("CIE 13.3") for w in fig.get("warnings", [])) else set()
-        for (_, _, key, _, fmt), width in zip(_TABLE_COLUMNS, widths):
-            if key == "id":
-                cells.append(fig["id"].ljust(width))
-                continue
-            value = fig.get(key)
-            text = "n/a" if value is None else fmt.format(value).replace("%", "")
-            if key in flagged and value is not None:
-                text += "*"
-            cells.append(text.rjust(width))
-        lines.append("  ".join(cells).rstrip())
-        reasons: dict[str, list[str]] = {}
-        for key, why in fig.get("undefined", {}).items():
-            reasons.setdefault(why, []).append(key)
-        for why, keys in reasons.items():
-            footnotes.append(f"{fig['id']}: {', '.join(keys)} n/a -- {why}")
-        for w in fig.get("warnings", []):
-            footnotes.append(f"{fig['id']}: {'* ' if w.startswith('CIE 13.3') else ''}{w}")
-    if footnotes:
-        lines += ["", *footnotes]
-    return "\n".join(lines)
-
-
-def _round(key: str, value):
-    if value is None or isinstance(value, (str, bool)):
-        return value
-    if isinstance(value, float) and not math.isfinite(value):
-        return None
-    decimals = FIGURE_KEYS.get(key, ("", 6))[1]
-    if decimals is None:
-        return value
-    value = round(float(value), decimals)
-    return int(value) if decimals == 0 else value
-
-
-def figures_json(figures: Sequence[dict]) -> str:
-    """JSON text of a list of :func:`lamp_figures` results: stable key order, floats rounded
-    (see :data:`FIGURE_KEYS`), ``null`` for undefined figures, never NaN."""
-    rows = []
-    for fig in figures:
-        row = {key: _round(key, fig.get(key)) for key in FIGURE_KEYS}
-        row["undefined"] = {k: fig.get("undefined", {})[k] for k in FIGURE_KEYS if k in fig.get("undefined", {})}
-        row["warnings"] = list(fig.get("warnings", []))
-        rows.append(row)
-    return json.dumps(rows, indent=2, ensure_ascii=False, allow_nan=False)
-
-
-# --- plots -----------------------------------------------------------------------------------
-
-
-def _title(lamp: Lamp, fig: dict) -> str:
-    parts = []
-    parts.append("CCT n/a" if fig["cct_K"] is None else f"{fig['cct_K']:.0f} K")
-    parts.append("Ra n/a" if fig["ra"] is None else f"Ra {fig['ra']:.0f}")
-    parts.append(f"S/P {fig['sp_ratio']:.2f}")
-    parts.append(f"{fig['ler_lm_per_w']:.0f} lm/W")
-    return f"{lamp.id}\n{lamp.name} -- " + ", ".join(parts)
-
-
-def plot_lamp_spectrum(lamp: Lamp, path: str | Path, dpi: int = 110) -> Path:
-    """Write a PNG of the lamp's relative spectrum with V(λ) and V'(λ).
-
-    Top panel: the spectrum per 1 nm bin scaled to a peak of 1 (steps), V(λ) and V'(λ); the
-    modelled emission lines are marked. Bottom panel: the same spectrum on a log scale, so that
-    weak lines and the continuum are visible. The file is written atomically (temporary file
-    in the same folder, then ``os.replace``).
-
-    Returns the path written.
-    """
-    from matplotlib.backends.backend_agg import FigureCanvasAgg
-    from matplotlib.figure import Figure
-
-    path = Path(path)
-    fig_values = lamp_figures(lamp)
-    rel = lamp.spd_peak_normalised()
-    peak = float(lamp.spd.max())
-    edges = np.concatenate([WAVELENGTHS_NM - 0.5 * BIN_WIDTH_NM, [WAVELENGTHS_NM[-1] + 0.5 * BIN_WIDTH_NM]])
-
-    figure = Figure(figsize=(8.0, 5.6))
-    FigureCanvasAgg(figure)
-    top, bottom = figure.subplots(2, 1, sharex=True, gridspec_kw={"height_ratios": [2.2, 1.0]})
-    top.stairs(rel, edges, fill=True, color="0.25", alpha=0.35, linewidth=0)
-    top.stairs(rel, edges, color="0.1", linewidth=0.9, label="lamp, relative power per nm")
-    top.plot(WAVELENGTHS_NM, photopic_lef(), color="tab:green", linewidth=1.2, label="V(λ) photopic")
-    top.plot(WAVELENGTHS_NM, scotopic_lef(), color="tab:blue", linewidth=1.2, linestyle="--", label="V'(λ) scotopic")
-    if lamp.lines:
-        wl = np.array([w for w, _ in lamp.lines])
-        height = np.array([p for _, p in lamp.lines]) / BIN_WIDTH_NM / peak
-        top.vlines(wl, 0.0, np.minimum(height, 1.0), color="tab:red", linewidth=1.0, label="emission lines")
-        top.plot(wl, np.minimum(height, 1.0), "v", color="tab:red", markersize=4)
-    top.set_ylim(0.0, 1.08)
-    top.set_ylabel("relative (peak = 1)")
-    top.legend(loc="best", fontsize=7, framealpha=0.85)
-    top.set_title(_title(lamp, fig_values), fontsize=9)
-
-    floor = 1e-5
-    bottom.stairs(np.maximum(rel, floor), edges, color="0.1", linewidth=0.8, baseline=floor)
-    if lamp.lines:
-        bottom.plot(wl, np.clip(height, floor, None), "v", color="tab:red", markersize=3)
-    bottom.set_yscale("log")
-    bottom.set_ylim(floor, 2.0)
-    bottom.set_ylabel("log scale")
-    bottom.set_xlabel("wavelength (nm)")
-    bottom.set_xlim(WAVELENGTHS_NM[0] - 0.5, WAVELENGTHS_NM[-1] + 0.5)
-    for ax in (top, bottom):
-        ax.set_axisbelow(True)
-        ax.grid(True, color="0.9", linewidth=0.6)
-    figure.subplots_adjust(left=0.09, right=0.98, top=0.9, bottom=0.09, hspace=0.08)
-
-    save_figure(figure, path, dpi=dpi)
-    return path
+    figures = {key: values.get(key) for key in FIGURE_KEYS if key not in ("id", "name", "type")}
+    return LampFigures(
+        id=lamp.id, name=lamp.name, type=lamp.type, **figures, undefined=dict(undefined), warnings=tuple(notes)
+    )

@@ -36,6 +36,14 @@ Validation (every rejection is an :class:`~render.errors.InputError` naming the 
 The photopic luminous reflectance listed by ``lampcast materials`` is the reflectance weighted by
 CIE standard illuminant D65 and the CIE 1931 ȳ(λ) = V(λ) function:
 ``Y/100 = Σ ρ(λ) S_D65(λ) ȳ(λ) / Σ S_D65(λ) ȳ(λ)`` (CIE 15:2004, reflecting object colours).
+The listing itself (table, JSON, plots) is in :mod:`render.output.material_sheet`.
+
+References
+----------
+- CIE 15:2004 *Colorimetry*, 3rd ed.: tristimulus values of reflecting objects, CIE standard
+  illuminant D65, the CIE 1931 2° observer.
+- The reflectance data's own sources are named in each file's header (``source``,
+  ``sample_id``, ``licence``); ``materials/README.md`` lists them.
 """
 
 from __future__ import annotations
@@ -46,12 +54,14 @@ import re
 from dataclasses import dataclass, field
 from functools import lru_cache
 from pathlib import Path
+from typing import Any
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from render.colour.spectra import WAVELENGTH_MAX_NM, WAVELENGTH_MIN_NM, WAVELENGTHS_NM, bin_mean
 from render.errors import InputError, Problem, ProblemList, did_you_mean, input_error
-from render.fileio import read_user_text, save_figure
+from render.fileio import read_user_text
 
 #: Header keys every material file must have.
 REQUIRED_KEYS = (
@@ -119,7 +129,27 @@ class Material:
     path: Path
     sample_wavelengths_nm: np.ndarray = field(repr=False, default_factory=lambda: np.zeros(0))
     sample_values: np.ndarray = field(repr=False, default_factory=lambda: np.zeros(0))
-    extra: dict = field(repr=False, default_factory=dict)
+    extra: dict[str, str] = field(repr=False, default_factory=dict)
+
+    def to_json(self) -> dict[str, Any]:
+        """The material's record in ``lampcast materials --json``.
+
+        Keys: ``id``, ``category``, ``name``, ``luminous_reflectance_d65`` (photopic, Y/100 under
+        CIE D65, :func:`luminous_reflectance`, 4 decimals), ``measured_range_nm``
+        (``[first, last]``), ``source``, ``sample_id``, ``licence``, ``completion``, ``path``.
+        """
+        return {
+            "id": self.id,
+            "category": self.category,
+            "name": self.name,
+            "luminous_reflectance_d65": round(luminous_reflectance(self.reflectance), 4),
+            "measured_range_nm": [self.measured_range_nm[0], self.measured_range_nm[1]],
+            "source": self.source,
+            "sample_id": self.sample_id,
+            "licence": self.licence,
+            "completion": self.completion,
+            "path": str(self.path),
+        }
 
 
 # --- reading ---------------------------------------------------------------------------------
@@ -412,7 +442,7 @@ def d65_on_grid() -> np.ndarray:
     return out
 
 
-def luminous_reflectance(reflectance, illuminant: np.ndarray | None = None) -> float | np.ndarray:
+def luminous_reflectance(reflectance: ArrayLike, illuminant: ArrayLike | None = None) -> float | np.ndarray:
     """Photopic luminous reflectance ``Y/100`` of gridded reflectance(s) under an illuminant.
 
     ``Σ ρ S ȳ / Σ S ȳ`` with ȳ = V(λ) of the CIE 1931 2° observer
@@ -427,126 +457,6 @@ def luminous_reflectance(reflectance, illuminant: np.ndarray | None = None) -> f
     return float(y) if np.ndim(y) == 0 else y
 
 
-# --- listing and plots -----------------------------------------------------------------------
-
-
-def material_table(lib: dict[str, Material]) -> list[dict]:
-    """One JSON-ready row per material, in id order.
-
-    Keys: ``id``, ``category``, ``name``, ``luminous_reflectance_d65`` (photopic, Y/100 under
-    CIE D65, :func:`luminous_reflectance`), ``measured_range_nm`` (``[first, last]``),
-    ``source``, ``sample_id``, ``licence``, ``completion``, ``path``.
-    """
-    rows = []
-    for mid in sorted(lib):
-        m = lib[mid]
-        rows.append(
-            {
-                "id": m.id,
-                "category": m.category,
-                "name": m.name,
-                "luminous_reflectance_d65": round(luminous_reflectance(m.reflectance), 4),
-                "measured_range_nm": [m.measured_range_nm[0], m.measured_range_nm[1]],
-                "source": m.source,
-                "sample_id": m.sample_id,
-                "licence": m.licence,
-                "completion": m.completion,
-                "path": str(m.path),
-            }
-        )
-    return rows
-
-
-def _clip_text(text: str, width: int) -> str:
-    return text if len(text) <= width else text[: width - 3] + "..."
-
-
-def _short_source(source: str) -> str:
-    """The dataset and version part of a ``source`` line (text before ' (' or ',')."""
-    return source.split(" (")[0].split(",")[0].strip()
-
-
-def format_material_table(rows: list[dict]) -> str:
-    """Plain-text table of :func:`material_table` rows: id, category, luminous reflectance
-    under D65, measured range, source and name."""
-    head = ("id", "category", "Y(D65)", "measured nm", "source", "name")
-    body = []
-    for r in rows:
-        lo, hi = r["measured_range_nm"]
-        body.append(
-            (
-                r["id"],
-                r["category"],
-                f"{r['luminous_reflectance_d65']:.3f}",
-                f"{lo:g}-{hi:g}",
-                _clip_text(_short_source(r["source"]), 40),
-                _clip_text(r["name"], 44),
-            )
-        )
-    widths = [max(len(h), *(len(b[i]) for b in body)) if body else len(h) for i, h in enumerate(head)]
-    align_right = {2}
-
-    def fmt(cells) -> str:
-        return "  ".join(
-            c.rjust(w) if i in align_right else c.ljust(w) for i, (c, w) in enumerate(zip(cells, widths))
-        ).rstrip()
-
-    lines = [fmt(head), fmt(["-" * w for w in widths])]
-    lines += [fmt(b) for b in body]
-    lines.append("")
-    lines.append(
-        f"{len(rows)} materials. Y(D65): photopic luminous reflectance under CIE illuminant D65 "
-        "(CIE 1931 2-degree observer). Sources, sample ids and licences: `lampcast materials --json` "
-        "or materials/README.md."
-    )
-    return "\n".join(lines)
-
-
-def plot_material(material: Material, path: str | Path) -> Path:
-    """Write a PNG plot of a material's reflectance (grid and source samples).
-
-    The range outside the measurement (filled by the stated completion) is shaded. Written to a
-    temporary file in the same folder and moved into place with :func:`os.replace`, so a
-    half-written plot never carries the final name. Returns the path.
-    """
-    from matplotlib.backends.backend_agg import FigureCanvasAgg
-    from matplotlib.figure import Figure
-
-    path = Path(path)
-    fig = Figure(figsize=(6.4, 3.6), dpi=100)
-    FigureCanvasAgg(fig)
-    ax = fig.add_subplot(1, 1, 1)
-    lo, hi = material.measured_range_nm
-    if lo > WAVELENGTH_MIN_NM:
-        ax.axvspan(WAVELENGTH_MIN_NM, min(lo, WAVELENGTH_MAX_NM), color="0.9", lw=0, label="completed")
-    if hi < WAVELENGTH_MAX_NM:
-        ax.axvspan(
-            max(hi, WAVELENGTH_MIN_NM),
-            WAVELENGTH_MAX_NM,
-            color="0.9",
-            lw=0,
-            label=None if lo > WAVELENGTH_MIN_NM else "completed",
-        )
-    ax.plot(WAVELENGTHS_NM, material.reflectance, color="k", lw=1.2, label="on the 1 nm grid")
-    sel = (material.sample_wavelengths_nm >= WAVELENGTH_MIN_NM) & (material.sample_wavelengths_nm <= WAVELENGTH_MAX_NM)
-    ax.plot(
-        material.sample_wavelengths_nm[sel], material.sample_values[sel], "o", ms=2.5, color="C0", label="file samples"
-    )
-    top = float(np.max(material.reflectance))
-    ax.set_xlim(WAVELENGTH_MIN_NM, WAVELENGTH_MAX_NM)
-    ax.set_ylim(0.0, 1.0 if top > 0.5 else max(0.05, 1.15 * top))
-    ax.set_xlabel("wavelength (nm)")
-    ax.set_ylabel("reflectance")
-    y = luminous_reflectance(material.reflectance)
-    ax.set_title(f"{material.id}: {_clip_text(material.name, 60)}  (Y(D65) = {y:.3f})", fontsize=9)
-    ax.legend(fontsize=7, loc="best")
-    fig.tight_layout(rect=(0.0, 0.04, 1.0, 1.0))
-    fig.text(0.01, 0.01, _clip_text(f"{material.source} | {material.sample_id}", 120), fontsize=6, color="0.35")
-
-    save_figure(fig, path)
-    return path
-
-
 __all__ = [
     "CLIP_TOLERANCE",
     "COLUMNS_ROW",
@@ -557,11 +467,8 @@ __all__ = [
     "REQUIRED_KEYS",
     "d65_on_grid",
     "default_materials_dir",
-    "format_material_table",
     "get_material",
     "load_material_csv",
     "luminous_reflectance",
     "material_library",
-    "material_table",
-    "plot_material",
 ]

@@ -9,6 +9,14 @@
 Data come from colour-science (``colour.MSDS_CMFS``, ``SDS_LEFS_*``), tabulated at 1 nm, and are
 taken at the grid's bin centres (the tables are smooth at 1 nm, so centre value and bin mean
 agree to well below 0.1 %).
+
+References
+----------
+- CIE 015:2018 *Colorimetry*, 4th ed.: the CIE 1931 2° standard observer, Km and K'm.
+- CIE 18:2019 *The basis of physical photometry*, 3rd ed.: Km = 683 lm/W, K'm = 1700 lm/W.
+- CIE 1924 photopic V(λ) and CIE 1951 scotopic V'(λ) luminous efficiency functions, as
+  tabulated in colour-science (``colour.MSDS_CMFS``, ``SDS_LEFS_PHOTOPIC``,
+  ``SDS_LEFS_SCOTOPIC``).
 """
 
 from __future__ import annotations
@@ -16,8 +24,23 @@ from __future__ import annotations
 from functools import lru_cache
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from render.colour.spectra import BIN_WIDTH_NM, WAVELENGTHS_NM
+
+__all__ = [
+    "KM_LM_PER_W",
+    "KM_SCOTOPIC_LM_PER_W",
+    "cmfs_xyz",
+    "photopic",
+    "photopic_lef",
+    "scale_to_photopic",
+    "scale_to_scotopic",
+    "scotopic",
+    "scotopic_lef",
+    "sp_ratio",
+    "tristimulus",
+]
 
 #: Maximum photopic luminous efficacy, lm/W (CIE).
 KM_LM_PER_W = 683.0
@@ -62,7 +85,7 @@ def scotopic_lef() -> np.ndarray:
     return out
 
 
-def photopic(density) -> np.ndarray:
+def photopic(density: ArrayLike) -> np.ndarray:
     """Photopic quantity Km·Σ S(λ)V(λ)Δλ of gridded densities (last axis = wavelength).
 
     W/nm gives lm; W/(sr·nm) gives cd; W/(m²·sr·nm) gives cd/m²; W/(m²·nm) gives lx.
@@ -70,22 +93,22 @@ def photopic(density) -> np.ndarray:
     return KM_LM_PER_W * np.asarray(density, dtype=np.float64) @ photopic_lef() * BIN_WIDTH_NM
 
 
-def scotopic(density) -> np.ndarray:
+def scotopic(density: ArrayLike) -> np.ndarray:
     """Scotopic quantity K'm·Σ S(λ)V'(λ)Δλ of gridded densities (last axis = wavelength)."""
     return KM_SCOTOPIC_LM_PER_W * np.asarray(density, dtype=np.float64) @ scotopic_lef() * BIN_WIDTH_NM
 
 
-def tristimulus(density) -> np.ndarray:
+def tristimulus(density: ArrayLike) -> np.ndarray:
     """Absolute CIE XYZ, Km·Σ S(λ)·x̄ȳz̄(λ)Δλ, of gridded densities; Y is photopic (e.g. cd/m²)."""
     return KM_LM_PER_W * np.asarray(density, dtype=np.float64) @ cmfs_xyz() * BIN_WIDTH_NM
 
 
-def sp_ratio(density) -> np.ndarray:
+def sp_ratio(density: ArrayLike) -> np.ndarray:
     """Scotopic-to-photopic ratio S/P = K'm∫SV' / Km∫SV (dimensionless)."""
     return scotopic(density) / photopic(density)
 
 
-def scale_to_photopic(density, target) -> np.ndarray:
+def scale_to_photopic(density: ArrayLike, target: ArrayLike) -> np.ndarray:
     """Scale a relative spectral density so that its photopic integral equals ``target``.
 
     With a relative spectral power distribution and ``target`` a luminous flux in lm the result
@@ -100,7 +123,7 @@ def scale_to_photopic(density, target) -> np.ndarray:
     )
 
 
-def scale_to_scotopic(density, target) -> np.ndarray:
+def scale_to_scotopic(density: ArrayLike, target: float) -> np.ndarray:
     """Scale a relative spectral density so that its scotopic integral equals ``target``."""
     density = np.asarray(density, dtype=np.float64)
     s = float(scotopic(density))

@@ -18,11 +18,34 @@ Reflectances (dimensionless, 0-1) are moved with the same band integral divided 
 i.e. as the bin's mean value (:func:`bin_mean`).
 
 Photometric constants and the observer functions are in :mod:`render.colour.observers`.
+
+References
+----------
+- CIE 015:2018 *Colorimetry*, 4th ed.: the visible range 380-780 nm and 1 nm (or 5 nm) tables.
+- Piecewise-linear interpolation of tabulated spectra with exact integration over each bin, and
+  the two-bin deposition of lines: our own choices, checked analytically in
+  ``tests/test_spectra.py``.
 """
 
 from __future__ import annotations
 
 import numpy as np
+from numpy.typing import ArrayLike
+
+__all__ = [
+    "BIN_EDGES_NM",
+    "BIN_WIDTH_NM",
+    "N_BINS",
+    "WAVELENGTHS_NM",
+    "WAVELENGTH_MAX_NM",
+    "WAVELENGTH_MIN_NM",
+    "band_power",
+    "bin_density",
+    "bin_mean",
+    "centroid_nm",
+    "density_on_grid",
+    "deposit_lines",
+]
 
 #: First and last bin centre of the grid, nm.
 WAVELENGTH_MIN_NM = 380.0
@@ -53,7 +76,7 @@ def _piecewise_linear_integral(x: np.ndarray, y: np.ndarray, edges: np.ndarray) 
     return np.diff(at_edges)
 
 
-def _check_samples(wavelengths_nm, values) -> tuple[np.ndarray, np.ndarray]:
+def _check_samples(wavelengths_nm: ArrayLike, values: ArrayLike) -> tuple[np.ndarray, np.ndarray]:
     x = np.asarray(wavelengths_nm, dtype=np.float64)
     y = np.asarray(values, dtype=np.float64)
     if x.ndim != 1 or y.shape != x.shape or x.size < 2:
@@ -63,7 +86,7 @@ def _check_samples(wavelengths_nm, values) -> tuple[np.ndarray, np.ndarray]:
     return x, y
 
 
-def bin_density(wavelengths_nm, density) -> np.ndarray:
+def bin_density(wavelengths_nm: ArrayLike, density: ArrayLike) -> np.ndarray:
     """Move a spectral density onto the grid, conserving the power in every bin.
 
     The samples are joined by straight lines (zero outside the sampled range) and the result is
@@ -85,7 +108,24 @@ def bin_density(wavelengths_nm, density) -> np.ndarray:
     return _piecewise_linear_integral(x, y, BIN_EDGES_NM) / BIN_WIDTH_NM
 
 
-def bin_mean(wavelengths_nm, values) -> np.ndarray:
+def density_on_grid(wavelengths_nm: ArrayLike, density: ArrayLike) -> np.ndarray:
+    """Move a tabulated spectral density onto the grid with :func:`bin_density`, ends held.
+
+    Samples starting exactly at 380 nm (ending exactly at 780 nm) are extended by holding the
+    end value over the grid's outer half bin, so that a table covering 380-780 nm fills the
+    first and last bins; otherwise the density is zero outside the samples.
+    """
+    x = np.asarray(wavelengths_nm, dtype=np.float64)
+    y = np.asarray(density, dtype=np.float64)
+    half = 0.5 * BIN_WIDTH_NM
+    if abs(x[0] - WAVELENGTH_MIN_NM) < 1e-9:
+        x, y = np.concatenate([[WAVELENGTH_MIN_NM - half], x]), np.concatenate([[y[0]], y])
+    if abs(x[-1] - WAVELENGTH_MAX_NM) < 1e-9:
+        x, y = np.concatenate([x, [WAVELENGTH_MAX_NM + half]]), np.concatenate([y, [y[-1]]])
+    return bin_density(x, y)
+
+
+def bin_mean(wavelengths_nm: ArrayLike, values: ArrayLike) -> np.ndarray:
     """Mean of a smooth quantity (e.g. reflectance) over each bin.
 
     Unlike :func:`bin_density` the samples must cover the whole grid, ``[380, 780]`` nm, with
@@ -106,7 +146,7 @@ def bin_mean(wavelengths_nm, values) -> np.ndarray:
     return _piecewise_linear_integral(x, y, BIN_EDGES_NM) / BIN_WIDTH_NM
 
 
-def deposit_lines(wavelengths_nm, powers) -> np.ndarray:
+def deposit_lines(wavelengths_nm: ArrayLike, powers: ArrayLike) -> np.ndarray:
     """Put emission lines onto the grid as a density (power per nm).
 
     Each line's power is shared between the two nearest bin centres with weights ``1 - |d|``
@@ -142,14 +182,14 @@ def deposit_lines(wavelengths_nm, powers) -> np.ndarray:
     return out / BIN_WIDTH_NM
 
 
-def band_power(density: np.ndarray, lo_nm: float = WAVELENGTH_MIN_NM, hi_nm: float = WAVELENGTH_MAX_NM) -> float:
+def band_power(density: ArrayLike, lo_nm: float = WAVELENGTH_MIN_NM, hi_nm: float = WAVELENGTH_MAX_NM) -> float:
     """Power of a gridded density over the bins whose centres lie in ``[lo_nm, hi_nm]``."""
     density = np.asarray(density, dtype=np.float64)
     sel = (WAVELENGTHS_NM >= lo_nm - 1e-9) & (WAVELENGTHS_NM <= hi_nm + 1e-9)
     return float(density[..., sel].sum(axis=-1) * BIN_WIDTH_NM)
 
 
-def centroid_nm(density: np.ndarray, lo_nm: float = WAVELENGTH_MIN_NM, hi_nm: float = WAVELENGTH_MAX_NM) -> float:
+def centroid_nm(density: ArrayLike, lo_nm: float = WAVELENGTH_MIN_NM, hi_nm: float = WAVELENGTH_MAX_NM) -> float:
     """Power-weighted mean wavelength of a gridded density within ``[lo_nm, hi_nm]``, nm."""
     density = np.asarray(density, dtype=np.float64)
     sel = (WAVELENGTHS_NM >= lo_nm - 1e-9) & (WAVELENGTHS_NM <= hi_nm + 1e-9)

@@ -327,7 +327,7 @@ def run_comparison(
     """Render every view before and after and write images, ``metrics.json`` and ``report.html``
     (with the colour analysis of the tagged objects in the view showing most of them, unless
     ``colour=False``). ``scene`` is a scene file or a :class:`~render.study.Study`."""
-    from render.colour.lamp_figures import figures_json, lamp_figures
+    from render.colour.lamp_figures import lamp_figures
     from render.colour.lamps import get_lamp
     from render.study import Study
 
@@ -446,7 +446,7 @@ def run_comparison(
             if lamp_id not in metrics["lamps"]:
                 # The same rounding as `lampcast lamps --json`, so both agree exactly.
                 f = lamp_figures(get_lamp(lamp_id, base_dir=scene.base_dir))
-                metrics["lamps"][lamp_id] = json.loads(figures_json([f]))[0]
+                metrics["lamps"][lamp_id] = f.to_json()
     lamps = metrics.pop("lamps")
     metrics = _clean(metrics)
     metrics["lamps"] = lamps
