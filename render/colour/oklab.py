@@ -14,9 +14,8 @@ false-colour ramp (:mod:`render.vision.falsecolour`) and the colour pictures
 (:mod:`render.output.colour_pictures`) all use it.
 
 The matrices are Ottosson's published ones (ten significant digits); their inverses are
-computed here in double precision. The products are written out per channel: on millions of
-pixels that is faster than a matrix library call on 3-vectors, and it gives the same bits on
-every machine.
+computed here in double precision. The products go through
+:func:`render.colour.matrices.apply_matrix` (the same bits on every machine).
 
 References
 ----------
@@ -29,6 +28,9 @@ References
 from __future__ import annotations
 
 import numpy as np
+from numpy.typing import ArrayLike
+
+from render.colour.matrices import apply_matrix
 
 __all__ = [
     "MATRIX_LAB_TO_LMS",
@@ -64,24 +66,11 @@ for _m in (MATRIX_XYZ_TO_LMS, MATRIX_LMS_TO_LAB, MATRIX_LMS_TO_XYZ, MATRIX_LAB_T
 del _m
 
 
-def _times(matrix: np.ndarray, v: np.ndarray) -> np.ndarray:
-    """``v @ matrix.T`` for (..., 3) arrays, one multiply-add chain per output channel."""
-    a, b, c = v[..., 0], v[..., 1], v[..., 2]
-    return np.stack(
-        [
-            matrix[0, 0] * a + matrix[0, 1] * b + matrix[0, 2] * c,
-            matrix[1, 0] * a + matrix[1, 1] * b + matrix[1, 2] * c,
-            matrix[2, 0] * a + matrix[2, 1] * b + matrix[2, 2] * c,
-        ],
-        axis=-1,
-    )
-
-
-def xyz_to_oklab(xyz: np.ndarray) -> np.ndarray:
+def xyz_to_oklab(xyz: ArrayLike) -> np.ndarray:
     """Oklab L, a, b of CIE XYZ (D65 white at Y = 1), arrays of shape (..., 3)."""
-    return _times(MATRIX_LMS_TO_LAB, np.cbrt(_times(MATRIX_XYZ_TO_LMS, np.asarray(xyz, dtype=np.float64))))
+    return apply_matrix(MATRIX_LMS_TO_LAB, np.cbrt(apply_matrix(MATRIX_XYZ_TO_LMS, xyz)))
 
 
-def oklab_to_xyz(lab: np.ndarray) -> np.ndarray:
+def oklab_to_xyz(lab: ArrayLike) -> np.ndarray:
     """CIE XYZ (D65 white at Y = 1) of Oklab L, a, b; the inverse of :func:`xyz_to_oklab`."""
-    return _times(MATRIX_LMS_TO_XYZ, _times(MATRIX_LAB_TO_LMS, np.asarray(lab, dtype=np.float64)) ** 3)
+    return apply_matrix(MATRIX_LMS_TO_XYZ, apply_matrix(MATRIX_LAB_TO_LMS, lab) ** 3)

@@ -67,6 +67,7 @@ from functools import lru_cache
 
 import numpy as np
 
+from render.colour.matrices import apply_matrix
 from render.vision.adaptation import AdaptationState
 from render.vision.mesopic import V_PRIME_LAMBDA0
 
@@ -131,15 +132,11 @@ def extra_channel_weights() -> np.ndarray:
 
 def xyz_to_lms(xyz) -> np.ndarray:
     """MacLeod-Boynton cone signals from XYZ (last axis), same units as XYZ."""
-    from render.vision.display import apply_matrix
-
     return apply_matrix(XYZ_TO_LMS, xyz)
 
 
 def lms_to_xyz(lms) -> np.ndarray:
     """Inverse of :func:`xyz_to_lms`."""
-    from render.vision.display import apply_matrix
-
     return apply_matrix(LMS_TO_XYZ, lms)
 
 

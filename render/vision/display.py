@@ -29,6 +29,7 @@ from functools import lru_cache
 import numba
 import numpy as np
 
+from render.colour.matrices import apply_matrix
 from render.colour.oklab import MATRIX_LAB_TO_LMS, MATRIX_LMS_TO_XYZ, xyz_to_oklab
 
 
@@ -112,22 +113,6 @@ def chromatic_adaptation_incomplete(
     gain = incomplete_adaptation_gains(source_white_xyz, adapting_cd_m2, discounting, destination_white_xyz)
     full = np.linalg.inv(m) @ np.diag(gain) @ m
     return apply_matrix(full, xyz)
-
-
-def apply_matrix(matrix, v) -> np.ndarray:
-    """``v @ matrix.T`` for (..., 3) arrays, written out per channel (much faster than a BLAS
-    call on millions of 3-vectors)."""
-    m = np.asarray(matrix, dtype=np.float64)
-    v = np.asarray(v, dtype=np.float64)
-    a, b, c = v[..., 0], v[..., 1], v[..., 2]
-    return np.stack(
-        [
-            m[0, 0] * a + m[0, 1] * b + m[0, 2] * c,
-            m[1, 0] * a + m[1, 1] * b + m[1, 2] * c,
-            m[2, 0] * a + m[2, 1] * b + m[2, 2] * c,
-        ],
-        axis=-1,
-    )
 
 
 def xyz_to_linear_srgb(xyz) -> np.ndarray:
