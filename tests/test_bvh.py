@@ -7,6 +7,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
+from render.bench.scenes import box_triangles, uv_sphere_triangles
 from render.geometry.mesh import flat_normals
 from render.rays.bvh import (
     build_bvh,
@@ -39,58 +40,6 @@ def brute_force(origins, directions, tris):
         t = np.einsum("fk,nfk->nf", e2, q) * inv
     ok = (det != 0) & (u >= 0) & (v >= 0) & (u + v <= 1) & (t > 0)
     return np.where(ok, t, np.inf), u, v
-
-
-def box_triangles(lo, hi):
-    """12 outward counter-clockwise triangles of the axis-aligned box [lo, hi]."""
-    x0, y0, z0 = lo
-    x1, y1, z1 = hi
-    c = np.array(
-        [
-            [x0, y0, z0],
-            [x1, y0, z0],
-            [x1, y1, z0],
-            [x0, y1, z0],
-            [x0, y0, z1],
-            [x1, y0, z1],
-            [x1, y1, z1],
-            [x0, y1, z1],
-        ],
-        float,
-    )
-    faces = [
-        (0, 2, 1),
-        (0, 3, 2),
-        (4, 5, 6),
-        (4, 6, 7),
-        (0, 1, 5),
-        (0, 5, 4),
-        (2, 3, 7),
-        (2, 7, 6),
-        (1, 2, 6),
-        (1, 6, 5),
-        (3, 0, 4),
-        (3, 4, 7),
-    ]
-    return c[np.array(faces)]
-
-
-def uv_sphere(radius, n_lat, n_lon):
-    """Latitude/longitude sphere at the origin with every vertex on the sphere, outward CCW."""
-    th = np.linspace(0, np.pi, n_lat + 1)
-    ph = np.linspace(0, 2 * np.pi, n_lon + 1)
-    g = radius * np.stack(
-        [np.sin(th)[:, None] * np.cos(ph), np.sin(th)[:, None] * np.sin(ph), np.cos(th)[:, None] * np.ones_like(ph)], -1
-    )
-    tris = []
-    for i in range(n_lat):
-        for j in range(n_lon):
-            a, b, c, d = g[i, j], g[i + 1, j], g[i + 1, j + 1], g[i, j + 1]
-            if i != 0:
-                tris.append((a, b, d))
-            if i != n_lat - 1:
-                tris.append((b, c, d))
-    return np.array(tris)
 
 
 def random_soup(rng, n, spread=5.0, size=0.8):
@@ -147,7 +96,7 @@ def test_ray_sphere_within_tessellation_bound():
     # least R cos g). Hence a ray's first hit lies between its entries into the spheres of
     # radius R and R cos(g), and rays missing the outer sphere miss the mesh.
     radius = 2.0
-    tris = uv_sphere(radius, 48, 96)
+    tris = uv_sphere_triangles((0.0, 0.0, 0.0), radius, 48, 96)
     unit = tris / np.linalg.norm(tris, axis=2, keepdims=True)
     cos_g = min(np.einsum("fk,fk->f", unit[:, a], unit[:, b]).min() for a, b in ((0, 1), (1, 2), (0, 2)))
     r_in = radius * cos_g

@@ -5,16 +5,24 @@
 
 ``rays`` builds the BVH of (a) the demo street, when the scene loader and ``scenes/demo/*.toml``
 are present, and (b) a seeded synthetic stress scene of >= 250 000 triangles (random boxes and
-spheres on a ground plane); then it casts primary rays from a camera (pixels in 4 x 4 blocks,
-as :mod:`render.rays.aov` casts them), shadow rays from the primary hits to a point light, and
-incoherent diffuse-bounce rays from the primary hits, and prints rays per second after JIT
-warm-up (best of ``--repeat`` runs, the contenders alternating). When the optional
+spheres on a ground plane, :func:`render.bench.scenes.stress_scene`); then it casts primary
+rays from a camera (pixels in 4 x 4 blocks, as :mod:`render.rays.aov` casts them), shadow rays
+from the primary hits to a point light, and incoherent diffuse-bounce rays from the primary
+hits, and prints rays per second after JIT warm-up (best of ``--repeat`` runs, the contenders alternating). When the optional
 ``embreex`` package is importable, the same triangles and rays go through Embree too and the
 throughput ratio (ours / Embree) is printed, with the agreement of the two results.
+
+References
+----------
+- Pharr, Jakob & Humphreys, "Physically Based Rendering", 3rd ed., 2016, section 13.6.3
+  (cosine-weighted hemisphere sampling by Malley's method, for the bounce rays).
+- Wald, Woop, Benthin, Johnson & Ernst, "Embree: A Kernel Framework for Efficient CPU Ray
+  Tracing", ACM Transactions on Graphics 33(4), 2014 (the comparison library).
 """
 
 from __future__ import annotations
 
+import argparse
 import glob
 import os
 import time
@@ -23,83 +31,13 @@ from dataclasses import dataclass
 import numba
 import numpy as np
 
-from render.rays.bvh import BVH, build_bvh, intersect_any, intersect_closest
+from render.bench.scenes import stress_scene
+from render.rays.bvh import BVH, build_bvh, face_forward, geometric_normal, intersect_any, intersect_closest
 from render.rays.cameras import Camera, camera_rays, tile_pixels
 
-# --------------------------------------------------------------------------------------------
-# Stress scene
-# --------------------------------------------------------------------------------------------
+__all__ = ["DEMO_FALLBACK_CAMERA", "STRESS_CAMERA", "STRESS_LIGHT_M", "add_parser", "cmd_rays"]
 
-
-def _box_triangles(lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
-    """(12, 3, 3) triangles of the axis-aligned box [lo, hi], outward counter-clockwise."""
-    x0, y0, z0 = lo
-    x1, y1, z1 = hi
-    c = np.array(
-        [[x0, y0, z0], [x1, y0, z0], [x1, y1, z0], [x0, y1, z0], [x0, y0, z1], [x1, y0, z1], [x1, y1, z1], [x0, y1, z1]]
-    )
-    faces = [
-        (0, 2, 1), (0, 3, 2),  # bottom (-z)
-        (4, 5, 6), (4, 6, 7),  # top (+z)
-        (0, 1, 5), (0, 5, 4),  # -y
-        (2, 3, 7), (2, 7, 6),  # +y
-        (1, 2, 6), (1, 6, 5),  # +x
-        (3, 0, 4), (3, 4, 7),  # -x
-    ]  # fmt: skip
-    return c[np.array(faces)]
-
-
-def uv_sphere_triangles(centre_m, radius_m: float, n_lat: int, n_lon: int) -> np.ndarray:
-    """(2 n_lon (n_lat - 1), 3, 3) triangles of a latitude/longitude sphere, vertices on it."""
-    theta = np.linspace(0.0, np.pi, n_lat + 1)
-    phi = np.linspace(0.0, 2.0 * np.pi, n_lon + 1)
-    st, ct = np.sin(theta), np.cos(theta)
-    grid = np.stack(
-        [st[:, None] * np.cos(phi)[None, :], st[:, None] * np.sin(phi)[None, :], np.repeat(ct[:, None], n_lon + 1, 1)],
-        axis=-1,
-    )
-    tris = []
-    for i in range(n_lat):
-        for j in range(n_lon):
-            a, b, c, d = grid[i, j], grid[i + 1, j], grid[i + 1, j + 1], grid[i, j + 1]
-            if i != 0:
-                tris.append((a, b, d))
-            if i != n_lat - 1:
-                tris.append((b, c, d))
-    return np.asarray(centre_m, dtype=np.float64) + radius_m * np.asarray(tris)
-
-
-def stress_scene(seed: int = 0, n_boxes: int = 12000, n_spheres: int = 300, extent_m: float = 200.0) -> np.ndarray:
-    """Seeded synthetic scene (benchmark only): boxes (rotated about z) and spheres on a ground
-    plane. Returns (F, 3, 3) triangles; F = 2 + 12 n_boxes + 360 n_spheres (252 002 by default)."""
-    rng = np.random.default_rng(seed)
-    half = extent_m / 2.0
-    out = [
-        np.array(
-            [
-                [[-2 * half, -2 * half, 0], [2 * half, -2 * half, 0], [2 * half, 2 * half, 0]],
-                [[-2 * half, -2 * half, 0], [2 * half, 2 * half, 0], [-2 * half, 2 * half, 0]],
-            ],
-            float,
-        )
-    ]
-    unit = _box_triangles(np.array([-0.5, -0.5, 0.0]), np.array([0.5, 0.5, 1.0]))
-    size = rng.uniform([0.3, 0.3, 0.3], [4.0, 4.0, 6.0], (n_boxes, 3))
-    heading = rng.uniform(0.0, 2.0 * np.pi, n_boxes)
-    pos = np.column_stack([rng.uniform(-half, half, (n_boxes, 2)), np.zeros(n_boxes)])
-    c, s = np.cos(heading), np.sin(heading)
-    rot = np.zeros((n_boxes, 3, 3))
-    rot[:, 0, 0], rot[:, 0, 1], rot[:, 1, 0], rot[:, 1, 1], rot[:, 2, 2] = c, -s, s, c, 1.0
-    scaled = unit[None, :, :, :] * size[:, None, None, :]  # (B, 12, 3, 3)
-    boxes = np.einsum("bij,btvj->btvi", rot, scaled) + pos[:, None, None, :]
-    out.append(boxes.reshape(-1, 3, 3))
-    for _ in range(n_spheres):
-        r = rng.uniform(0.5, 3.0)
-        centre = [rng.uniform(-half, half), rng.uniform(-half, half), r + rng.uniform(0.0, 4.0)]
-        out.append(uv_sphere_triangles(centre, r, 10, 20))
-    return np.concatenate(out)
-
-
+# Views of the stress scene (render.bench.scenes.stress_scene) and of the demo street.
 STRESS_CAMERA = dict(position_m=(-110.0, -20.0, 12.0), target_m=(0.0, 0.0, 0.0), hfov_deg=70.0)
 STRESS_LIGHT_M = np.array([-20.0, -5.0, 25.0])
 DEMO_FALLBACK_CAMERA = dict(position_m=(-5.0, -3.0, 1.6), target_m=(40.0, 0.0, 1.0), hfov_deg=60.0)
@@ -145,8 +83,6 @@ def _bounce_rays(origins, directions, hits, triangles_m, seed, offset_m=1e-4):
     """Incoherent rays: from the primary hits into cosine-distributed random directions about
     the face normal turned towards the eye (a diffuse bounce), origin pushed ``offset_m`` off
     the surface."""
-    from render.rays.bvh import face_forward, geometric_normal
-
     m = hits.hit
     p = origins[m] + hits.t[m, None] * directions[m]
     n = face_forward(geometric_normal(triangles_m, hits)[m], directions[m])
@@ -296,7 +232,8 @@ def _demo_case(args) -> _Case | None:
     return _Case(f"demo street ({os.path.basename(paths[0])})", mesh.triangles_m, camera, light)
 
 
-def cmd_rays(args) -> int:
+def cmd_rays(args: argparse.Namespace) -> int:
+    """Run the ``rays`` benchmark with parsed command-line ``args``; returns the exit status."""
     print(
         f"numba {numba.__version__}, threading layer {numba.threading_layer() if _warm_threads() else '?'}, {numba.get_num_threads()} threads, {os.cpu_count()} CPUs"
     )
@@ -322,7 +259,7 @@ def _warm_threads() -> bool:
     return True
 
 
-def add_parser(sub) -> None:
+def add_parser(sub: argparse._SubParsersAction) -> None:
     """Register the ``rays`` sub-command on an argparse sub-parser set."""
     rays = sub.add_parser(
         "rays",

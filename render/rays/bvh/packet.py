@@ -1,0 +1,263 @@
+"""Packet traversal of the binary tree: runs of consecutive rays with similar directions.
+
+:data:`PACKET` consecutive rays whose directions are close (camera rays of neighbouring pixels,
+shadow rays towards one lamp) share one traversal: a node's child is entered when any lane hits
+its box, and when both are, the child most lanes reach first is descended first. The per-lane
+work is in plain counted loops over lane state held in one flat array, which LLVM vectorises.
+Each lane computes exactly the floating-point operations single-ray traversal computes for that
+ray (the same slab and triangle functions), and exact ties in ``t`` go to the lower triangle
+index, so a ray's result never depends on the path that traced it.
+
+References
+----------
+- Wald, Slusallek, Benthin & Wagner, "Interactive Rendering with Coherent Ray Tracing",
+  Computer Graphics Forum 20(3), 2001 (packets).
+- Ize, "Robust BVH Ray Traversal", JCGT 2(2), 2013 (box test, :mod:`render.rays.bvh.slab`).
+- Woop, Benthin & Wald, "Watertight Ray/Triangle Intersection", JCGT 2(1), 2013
+  (:mod:`render.rays.bvh.triangle`).
+"""
+
+from __future__ import annotations
+
+import numba
+import numpy as np
+
+from render.rays.bvh.slab import safe_inverse, slab_interval, valid_ray
+from render.rays.bvh.triangle import intersect_triangle, ray_shear, triangle_vertices
+
+__all__ = [
+    "LANE_FIELDS",
+    "PACKET",
+    "PACKET_COS",
+    "PACKET_COS_ANY",
+    "lane_result",
+    "packet_load",
+    "packet_trace",
+]
+
+PACKET = 16
+# A packet is traced together only if all its directions are within this angle of the first
+# ray's and share its projection axes (kx, ky, kz); otherwise its rays go one by one. Shadow
+# rays converging on a light still share most nodes at wider spreads, hence the wider limit
+# for occlusion queries (both values tuned on the stress scene of render.bench.rays).
+_PACKET_MAX_ANGLE_RAD = 0.1
+_PACKET_MAX_ANGLE_ANY_RAD = 0.5
+PACKET_COS = float(np.cos(_PACKET_MAX_ANGLE_RAD))
+PACKET_COS_ANY = float(np.cos(_PACKET_MAX_ANGLE_ANY_RAD))
+
+# Lane state lives in one flat float64 array, field f of lane r at f * PACKET + r: a single
+# base pointer with constant offsets lets the vectoriser prove that the fields do not overlap.
+# O: origin, I: inverse direction, P: origin permuted to (kx, ky, kz), S: shear, TB: best t
+# so far (the moving t_max; -inf for an unused or occluded lane), BJ: its triangle (-1: none;
+# occlusion: 1 when occluded), BU, BV: its barycentrics.
+LANE_FIELDS = 16
+_OX, _OY, _OZ, _IX, _IY, _IZ, _PX, _PY, _PZ, _SX, _SY, _SZ, _TB, _BJ, _BU, _BV = (
+    f * PACKET for f in range(LANE_FIELDS)
+)
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def packet_load(
+    lane: np.ndarray,
+    origins: np.ndarray,
+    directions: np.ndarray,
+    t_max: np.ndarray,
+    start: int,
+    n: int,
+    cos_max: float,
+) -> tuple[bool, tuple[int, int, int]]:
+    """Fill the lane state for rays ``start .. start + n - 1`` (n <= PACKET).
+
+    Unused lanes get t_max = -inf so that they never enter a box. Returns ``(coherent, k)``:
+    whether the rays may be traced together (all valid, within ``cos_max`` of the first ray's
+    direction and with its axes), and those axes ``k`` = (kx, ky, kz).
+    """
+    d0x = directions[start, 0]
+    d0y = directions[start, 1]
+    d0z = directions[start, 2]
+    n0 = np.sqrt(d0x * d0x + d0y * d0y + d0z * d0z)
+    kx0, ky0, kz0, _, _, _ = ray_shear(d0x, d0y, d0z)
+    coherent = True
+    for r in range(PACKET):
+        if r < n:
+            i = start + r
+            o = (origins[i, 0], origins[i, 1], origins[i, 2])
+            d = (directions[i, 0], directions[i, 1], directions[i, 2])
+            tb = t_max[i]
+        else:  # an unused lane: a finite dummy ray that enters no box
+            o = (0.0, 0.0, 0.0)
+            d = (1.0, 1.0, 1.0)
+            tb = -np.inf
+        dx, dy, dz = d
+        kx, ky, kz, sx, sy, sz = ray_shear(dx, dy, dz)
+        if r < n:
+            if kx != kx0 or ky != ky0 or not valid_ray(origins, directions, start + r):
+                coherent = False
+            if dx * d0x + dy * d0y + dz * d0z < cos_max * n0 * np.sqrt(dx * dx + dy * dy + dz * dz):
+                coherent = False
+        lane[_OX + r] = o[0]
+        lane[_OY + r] = o[1]
+        lane[_OZ + r] = o[2]
+        lane[_IX + r] = safe_inverse(dx)
+        lane[_IY + r] = safe_inverse(dy)
+        lane[_IZ + r] = safe_inverse(dz)
+        lane[_PX + r] = o[kx]
+        lane[_PY + r] = o[ky]
+        lane[_PZ + r] = o[kz]
+        lane[_SX + r] = sx
+        lane[_SY + r] = sy
+        lane[_SZ + r] = sz
+        lane[_TB + r] = tb
+        lane[_BJ + r] = -1.0
+        lane[_BU + r] = 0.0
+        lane[_BV + r] = 0.0
+    return coherent, (kx0, ky0, kz0)
+
+
+@numba.njit(cache=True, nogil=True, inline="always")
+def lane_result(lane: np.ndarray, r: int) -> tuple[float, int, float, float]:
+    """Lane ``r``'s result ``(t, triangle, u, v)`` after :func:`packet_trace`: triangle -1 for
+    a miss; for an occlusion query triangle 1 means occluded."""
+    return lane[_TB + r], np.int64(lane[_BJ + r]), lane[_BU + r], lane[_BV + r]
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def _packet_boxes(nb, node, lane, n_lanes, t_min):
+    """Slab test of both children of ``node`` for every lane.
+
+    Returns (lanes entering child 0, lanes entering child 1, lanes entering both, of which
+    nearer to child 1).
+    """
+    lo0 = (np.float64(nb[node, 0]), np.float64(nb[node, 2]), np.float64(nb[node, 4]))
+    hi0 = (np.float64(nb[node, 6]), np.float64(nb[node, 8]), np.float64(nb[node, 10]))
+    lo1 = (np.float64(nb[node, 1]), np.float64(nb[node, 3]), np.float64(nb[node, 5]))
+    hi1 = (np.float64(nb[node, 7]), np.float64(nb[node, 9]), np.float64(nb[node, 11]))
+    h0 = 0
+    h1 = 0
+    both = 0
+    vote1 = 0
+    for r in range(n_lanes):
+        origin = (lane[_OX + r], lane[_OY + r], lane[_OZ + r])
+        inverse = (lane[_IX + r], lane[_IY + r], lane[_IZ + r])
+        tb = lane[_TB + r]
+        near0, far0 = slab_interval(lo0, hi0, origin, inverse)
+        near1, far1 = slab_interval(lo1, hi1, origin, inverse)
+        near0 = max(near0, t_min)
+        near1 = max(near1, t_min)
+        k0 = near0 <= min(far0, tb)
+        k1 = near1 <= min(far1, tb)
+        h0 += k0
+        h1 += k1
+        both += k0 & k1
+        vote1 += k0 & k1 & (near1 < near0)
+    return h0, h1, both, vote1
+
+
+@numba.njit(cache=True, nogil=True, inline="always")
+def _lane_hit(lane, r, tri):
+    """Watertight test of triangle ``tri`` (permuted vertices) against lane ``r``."""
+    p = (lane[_PX + r], lane[_PY + r], lane[_PZ + r])
+    s = (lane[_SX + r], lane[_SY + r], lane[_SZ + r])
+    return intersect_triangle(tri, p, s)
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def _leaf_closest(tv, ti, first, count, lane, n_lanes, t_min, k):
+    """Leaf triangles against every lane; keeps each lane's closest hit (BJ = original
+    triangle index; ties in t go to the lower index)."""
+    for j in range(first, first + count):
+        tri = triangle_vertices(tv, j, k)
+        fj = np.float64(ti[j])
+        for r in range(n_lanes):
+            hit, t, u, v = _lane_hit(lane, r, tri)
+            tb = lane[_TB + r]
+            bj = lane[_BJ + r]
+            upd = hit & (t > t_min) & ((t < tb) | ((t == tb) & (fj < bj)))
+            lane[_TB + r] = t if upd else tb
+            lane[_BJ + r] = fj if upd else bj
+            lane[_BU + r] = u if upd else lane[_BU + r]
+            lane[_BV + r] = v if upd else lane[_BV + r]
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def _leaf_any(tv, first, count, lane, n_lanes, t_min, k):
+    """Occlusion test of leaf triangles for every lane; an occluded lane gets TB = -inf (it
+    then enters no more boxes) and BJ = 1. Returns the number of lanes newly occluded."""
+    newly = 0
+    for j in range(first, first + count):
+        tri = triangle_vertices(tv, j, k)
+        for r in range(n_lanes):
+            hit, t, _, _ = _lane_hit(lane, r, tri)
+            tb = lane[_TB + r]
+            upd = hit & (t > t_min) & (t < tb)
+            lane[_TB + r] = -np.inf if upd else tb
+            lane[_BJ + r] = 1.0 if upd else lane[_BJ + r]
+            newly += upd
+    return newly
+
+
+@numba.njit(cache=True, nogil=True, inline="always")
+def _visit_leaf(nb_i32, node, c, tv, ti, lane, n_lanes, t_min, k, occlusion):
+    """Test leaf child ``c`` of ``node``; returns the lanes it newly occluded (0 for closest)."""
+    first = -nb_i32[node, 12 + c] - 1
+    count = nb_i32[node, 14 + c]
+    if occlusion:
+        return _leaf_any(tv, first, count, lane, n_lanes, t_min, k)
+    _leaf_closest(tv, ti, first, count, lane, n_lanes, t_min, k)
+    return 0
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def packet_trace(
+    nb: np.ndarray,
+    ni: np.ndarray,
+    tv: np.ndarray,
+    ti: np.ndarray,
+    lane: np.ndarray,
+    n_lanes: int,
+    t_min: float,
+    k: tuple[int, int, int],
+    st_node: np.ndarray,
+    occlusion: bool,
+) -> None:
+    """Trace one loaded packet through the binary tree (``nb``/``ni`` its float32/int32 views;
+    ``tv``/``ti`` the BVH's triangles and index; ``st_node`` a scratch stack). Closest hit, or
+    with ``occlusion`` any hit, stopping when every lane that can be hit is occluded. Results stay
+    in ``lane`` (:func:`lane_result`)."""
+    node = 0
+    sp = 0
+    left = 0  # lanes not yet occluded
+    for r in range(n_lanes):
+        left += lane[_TB + r] > t_min
+    while True:
+        h0, h1, both, vote1 = _packet_boxes(nb, node, lane, n_lanes, t_min)
+        nxt = -1
+        if h0 > 0:
+            ch = ni[node, 12]
+            if ch < 0:
+                left -= _visit_leaf(ni, node, 0, tv, ti, lane, n_lanes, t_min, k, occlusion)
+            else:
+                nxt = ch
+        if h1 > 0:
+            ch = ni[node, 13]
+            if ch < 0:
+                left -= _visit_leaf(ni, node, 1, tv, ti, lane, n_lanes, t_min, k, occlusion)
+            elif nxt < 0:
+                nxt = ch
+            elif 2 * vote1 > both:
+                # most lanes reach child 1 first: descend it, keep child 0 for later
+                st_node[sp] = nxt
+                sp += 1
+                nxt = ch
+            else:
+                st_node[sp] = ch
+                sp += 1
+        if occlusion and left <= 0:
+            return
+        if nxt >= 0:
+            node = nxt
+            continue
+        if sp == 0:
+            return
+        sp -= 1
+        node = st_node[sp]
