@@ -8,6 +8,7 @@
 * :mod:`render.colour.materials` -- measured surface reflectances with provenance.
 * :mod:`render.colour.colorimetry` -- response tables and light buffers to absolute X, Y, Z, Y'.
 * :mod:`render.colour.oklab` -- the one route into and out of Oklab.
+* :mod:`render.colour.matrices` -- a 3×3 colour matrix applied to every colour of an image.
 
 Tables, JSON and plots of lamps and materials are in :mod:`render.output.lamp_sheet` and
 :mod:`render.output.material_sheet`.
