@@ -5,11 +5,10 @@ Glare spread functions (θ the angle between glare source and line of sight, deg
 perpendicular to the line of sight):
 
 * CIE 146:2002 general disability glare equation, 0.1° < θ < 100°, age A (years), eye
-  pigmentation p (0 very dark ... 1 blue eyes) -- from memory, see
-  /work/shared/reference-notes.md:
+  pigmentation p (0 very dark, 0.5 brown, 1.0 light, 1.2 very light blue eyes):
   ``10/θ³ + (5/θ² + 0.1·p/θ)·(1 + (A/62.5)⁴) + 0.0025·p``
-* CIE 146:2002 age-adjusted Stiles-Holladay equation, 1° < θ < 30° (also Vos 2003, Clin.
-  Exp. Optom. 86(6)): ``10·(1 + (A/70)⁴)/θ²``.
+* CIE 146:2002 age-adjusted Stiles-Holladay equation, 1° < θ < 30°:
+  ``10·(1 + (A/70)⁴)/θ²``.
 
 Applying it to an image
 -----------------------
@@ -34,24 +33,51 @@ total light reaching the retina is conserved instead of growing by F (about 25 %
 general equation at 25 years, most of it within 1° of the source). Veil and attenuation are
 applied identically to X, Y, Z and the scotopic luminance (the spread is taken as wavelength
 independent; the pigmentation term's reddish bias is ignored).
+
+References
+----------
+- CIE 146:2002, "CIE equations for disability glare" (CIE Collection on Glare 2002): the
+  three equations and their domains. The domains and the role of p above 30° are as in the
+  CIE's published summary; the general equation's coefficients and the pigmentation scale are
+  from secondary sources (docs/references.md).
+- J. J. Vos (2003), "On the cause of disability glare and its dependence on glare angle, age
+  and ocular pigmentation", Clinical and Experimental Optometry 86(6), 363-370: the
+  age-adjusted Stiles-Holladay equation as printed in its abstract.
+- J. P. Snyder (1987), "Map Projections: A Working Manual", USGS Professional Paper 1395:
+  the azimuthal equidistant projection.
 """
 
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from functools import lru_cache
 
 import numpy as np
+import numpy.typing as npt
 import scipy.fft
 
 from render.vision.view import ViewGeometry
+
+__all__ = [
+    "CIE146_GENERAL_RANGE_DEG",
+    "STILES_HOLLADAY_RANGE_DEG",
+    "apply_glare",
+    "glare_kernel",
+    "gsf_cie146_general",
+    "gsf_stiles_holladay_age",
+    "retinal_channels",
+    "scattered_fraction",
+    "spread_function",
+    "veiling_luminance",
+]
 
 #: Validity ranges (degrees) of the two spread functions (CIE 146:2002).
 CIE146_GENERAL_RANGE_DEG = (0.1, 100.0)
 STILES_HOLLADAY_RANGE_DEG = (1.0, 30.0)
 
 
-def gsf_cie146_general(theta_deg, age_years: float, pigmentation: float) -> np.ndarray:
+def gsf_cie146_general(theta_deg: npt.ArrayLike, age_years: float, pigmentation: float) -> np.ndarray:
     """CIE 146:2002 general disability glare equation, ``L_veil/E_glare`` in sr⁻¹.
 
     ``10/θ³ + (5/θ² + 0.1·p/θ)·(1 + (A/62.5)⁴) + 0.0025·p``, θ in degrees (valid 0.1°-100°).
@@ -62,14 +88,16 @@ def gsf_cie146_general(theta_deg, age_years: float, pigmentation: float) -> np.n
         return 10.0 / t**3 + (5.0 / t**2 + 0.1 * pigmentation / t) * age + 0.0025 * pigmentation
 
 
-def gsf_stiles_holladay_age(theta_deg, age_years: float) -> np.ndarray:
+def gsf_stiles_holladay_age(theta_deg: npt.ArrayLike, age_years: float) -> np.ndarray:
     """CIE 146:2002 age-adjusted Stiles-Holladay, ``10·(1 + (A/70)⁴)/θ²`` sr⁻¹ (1°-30°)."""
     t = np.asarray(theta_deg, dtype=np.float64)
     with np.errstate(divide="ignore"):
         return 10.0 * (1.0 + (age_years / 70.0) ** 4) / t**2
 
 
-def spread_function(model: str, age_years: float, pigmentation: float):
+def spread_function(
+    model: str, age_years: float, pigmentation: float
+) -> tuple[Callable[[npt.ArrayLike], np.ndarray], tuple[float, float]]:
     """``(f(θ_deg), (θ_min, θ_max))`` for a model name (see :data:`render.vision.observer.GLARE_MODELS`)."""
     if model == "cie146-general":
         return (lambda t: gsf_cie146_general(t, age_years, pigmentation)), CIE146_GENERAL_RANGE_DEG
@@ -220,7 +248,7 @@ def retinal_channels(
     age_years: float,
     pigmentation: float,
     model: str = "cie146-general",
-):
+) -> tuple[np.ndarray, np.ndarray, float]:
     """Channels (H, W, C) as imaged on the retina: ``(channels·(1 − F) + veil, veil, F)``."""
     ch = np.asarray(channels_cd_m2, dtype=np.float64)
     veil = veiling_luminance(ch, geometry, age_years=age_years, pigmentation=pigmentation, model=model)
@@ -236,7 +264,7 @@ def apply_glare(
     age_years: float,
     pigmentation: float,
     model: str = "cie146-general",
-):
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, float]:
     """Retinal image with disability glare: ``(xyz, scotopic, veil_Y, F)``.
 
     ``xyz·(1 − F) + veil`` and likewise for the scotopic buffer, with F the scattered

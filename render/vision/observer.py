@@ -8,7 +8,10 @@ from typing import Any
 
 from render.errors import ProblemList, did_you_mean
 
+#: Glare spread functions the vision stage offers (:mod:`render.vision.glare`).
 GLARE_MODELS = ("cie146-general", "stiles-holladay")
+#: Largest eye pigmentation factor of CIE 146:2002's scale (very light blue eyes).
+PIGMENTATION_MAX = 1.2
 
 
 @dataclass(frozen=True)
@@ -22,9 +25,9 @@ class ObserverSettings:
         median age of adult residents (our choice; CIE 140 / EN 13201-3 use 23 years for the
         threshold increment of drivers, which would understate glare for most residents).
     pigmentation
-        Eye pigmentation factor p of CIE 146:2002, 0 (very dark eyes) ... 1 (blue eyes).
-        Default 0.5, the middle of the scale (CIE 146 associates about 0.5 with brown eyes;
-        from memory).
+        Eye pigmentation factor p of CIE 146:2002: 0 (very dark eyes), 0.5 (brown), 1.0 (light),
+        1.2 (very light blue); the scale is from secondary sources (docs/references.md).
+        Default 0.5, brown eyes.
     adaptation_cd_m2
         Photopic adaptation luminance, cd/m², to use instead of the one measured from the view;
         ``None`` measures it (see :mod:`render.vision.adaptation`).
@@ -85,7 +88,7 @@ class ObserverSettings:
                 p.add(key, f"expected a number in {bracket}{lo:g}, {hi:g}], got {getattr(self, key)!r}")
 
         number("age_years", 0.0, 120.0)
-        number("pigmentation", 0.0, 1.0)
+        number("pigmentation", 0.0, PIGMENTATION_MAX)
         number("adaptation_cd_m2", 0.0, 1e6, lo_open=True, allow_none=True)
         number("adaptation_field_deg", 0.0, 180.0, lo_open=True)
         number("display_peak_cd_m2", 0.0, 1e5, lo_open=True)
