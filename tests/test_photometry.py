@@ -9,6 +9,9 @@ Sources of the checks:
   hemisphere → πI0; hemispherical constant → 2πI.
 * Quadrature of the interpolated table: scipy.integrate.quad (reference library).
 * Rotations: elementary vector geometry (orthonormal matrices, known directions).
+* Hostile input (counts, tilt references, overflow): the project's input rule (an InputError
+  naming the file and the line) and render/limits.py; overflow of binary64 (largest finite
+  about 1.8e308): IEEE 754-2019.
 The files in tests/data/photometry are hand-written for these tests.
 """
 
@@ -20,8 +23,9 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from fuzzing import time_limit
 
-from render.errors import InputError
+from render.errors import InputError, Problem
 from render.light import photometry as P
 from render.output import photometry_sheet as sheet
 
@@ -324,6 +328,234 @@ def test_missing_file_is_input_error(tmp_path):
     with pytest.raises(InputError) as info:
         P.read_lm63(tmp_path / "absent.ies")
     assert "cannot read" in str(info.value)
+
+
+# --------------------------------------------------------------------------------------------
+# Hostile input: counts, tilt references, overflow (each names the file and the line)
+# --------------------------------------------------------------------------------------------
+
+
+def hostile_lm63(
+    tmp_path: Path,
+    *,
+    tilt: str = "NONE",
+    tilt_block: tuple[str, ...] = (),
+    counts: str = "3 1",
+    multiplier: str = "1",
+    ballast: str = "1",
+    candela: str = "100 80 60",
+    name: str = "hostile.ies",
+) -> Path:
+    """A small LM-63-2002 file with one field replaced; without tilt_block its lines are
+    1 edition, 2 [TEST], 3 TILT=, 4 lamps/lumens/multiplier/counts..., 5 ballast line,
+    6 vertical angles, 7 horizontal angles, 8 candela."""
+    lines = [
+        "IESNA:LM-63-2002",
+        "[TEST] hostile input test",
+        f"TILT={tilt}",
+        *tilt_block,
+        f"1 1000 {multiplier} {counts} 1 2 0 0 0",
+        f"{ballast} 1 0",
+        "0 45 90",
+        "0",
+        candela,
+        "",
+    ]
+    path = tmp_path / name
+    path.write_bytes("\n".join(lines).encode("utf-8"))
+    return path
+
+
+def problem_of(path: Path, **kwargs) -> Problem:
+    """The one problem reading ``path`` reports (within 10 s: a hang fails the test)."""
+    with time_limit(10.0), pytest.raises(InputError) as info:
+        P.read_lm63(path, **kwargs)
+    (problem,) = info.value.problems
+    return problem
+
+
+@pytest.mark.parametrize(
+    "counts, what",
+    [
+        ("1e300 1", "vertical angles"),
+        ("1000000000000 1", "vertical angles"),
+        ("3 1e300", "horizontal angles"),
+        ("3 1000000000000", "horizontal angles"),
+    ],
+)
+def test_huge_angle_count_refused_at_its_line_before_allocating(tmp_path, counts, what):
+    # Counts above render.limits.MAX_LM63_ANGLES are refused at the count's line (4), before
+    # any array is made (formerly "Maximum allowed dimension exceeded" / MemoryError).
+    path = hostile_lm63(tmp_path, counts=counts)
+    problem = problem_of(path)
+    assert (problem.source, problem.where) == (str(path), "line 4")
+    assert what in problem.message and "100,000" in problem.message
+
+
+def test_counts_larger_than_the_data_refused_before_allocating(tmp_path):
+    # Both counts within the limit, 2 x 100 000 angles present, but the 10^10 candela values
+    # they call for are not: refused before the table is allocated (formerly an 80 GB array).
+    path = tmp_path / "counts.ies"
+    angles = " ".join(["0"] * 200_000)
+    path.write_text(f"IESNA:LM-63-2002\nTILT=NONE\n1 1000 1 100000 100000 1 2 0 0 0\n1 1 0\n{angles}\n")
+    problem = problem_of(path)
+    assert problem.where == "line 5"  # where the data end
+    assert "truncated" in problem.message and "line 3" in problem.message  # the counts' line
+
+
+def test_tilt_include_huge_count_refused_at_its_line(tmp_path):
+    path = hostile_lm63(tmp_path, tilt="INCLUDE", tilt_block=("1", "1e12", "0 90", "1 1"))
+    problem = problem_of(path)
+    assert (problem.source, problem.where) == (str(path), "line 5")
+    assert "tilt angles" in problem.message and "10,000" in problem.message
+
+
+def test_nul_byte_in_tilt_file_name(tmp_path):
+    path = hostile_lm63(tmp_path, tilt="tilt\x00.tlt")
+    problem = problem_of(path)
+    assert (problem.source, problem.where) == (str(path), "line 3")
+    assert "NUL" in problem.message
+
+
+def test_tilt_file_must_be_a_regular_file(tmp_path):
+    # TILT=/dev/zero formerly read without end; a device, a pipe or a folder is refused.
+    target = "/dev/zero" if Path("/dev/zero").exists() else str(tmp_path)
+    path = hostile_lm63(tmp_path, tilt=target)
+    problem = problem_of(path)
+    assert (problem.source, problem.where) == (str(path), "line 3")
+    assert "not a regular file" in problem.message
+
+
+def test_tilt_file_size_is_capped(tmp_path):
+    # render.limits: a tilt file is read only up to 1 MiB.
+    (tmp_path / "big.tlt").write_bytes(b" " * (1024 * 1024 + 1))
+    path = hostile_lm63(tmp_path, tilt="big.tlt")
+    problem = problem_of(path)
+    assert (problem.source, problem.where) == (str(path), "line 3")
+    assert "1,048,577 bytes" in problem.message
+
+
+@pytest.mark.parametrize(
+    "content, line",
+    [
+        ("SECRET-TOKEN:x:0:0:root:/root\n", 1),  # not a number at all
+        ("2\nSECRET-TOKEN\n", 2),
+        ("2\n3.25\n0 90\n1 1\n", 2),  # a count that is not whole: its value is not shown either
+        ("7\n", 1),  # geometry out of range
+    ],
+)
+def test_tilt_file_content_is_never_quoted(tmp_path, content, line):
+    # Messages about a tilt file say what was expected and at which line, never what is there:
+    # TILT= may name any file (formerly TILT=/etc/passwd printed its first line).
+    secret = tmp_path / "elsewhere" / "secret.txt"
+    secret.parent.mkdir()
+    secret.write_text(content)
+    path = hostile_lm63(tmp_path, tilt=str(secret))  # an absolute path: allowed unless strict
+    problem = problem_of(path)
+    assert (problem.source, problem.where) == (str(secret), f"line {line}")
+    assert f"line 3 of {path}" in problem.message  # where the tilt file was named
+    for text in ("SECRET", "root", "3.25", "7"):
+        assert text not in problem.message.replace(str(path), "").replace(str(secret), "")
+
+
+@pytest.mark.skipif(not Path("/etc/passwd").is_file(), reason="no /etc/passwd on this system")
+def test_tilt_etc_passwd_is_not_echoed(tmp_path):
+    path = hostile_lm63(tmp_path, tilt="/etc/passwd")
+    problem = problem_of(path)
+    assert "root:" not in str(problem) and problem.where.startswith("line ")
+
+
+def test_strict_paths_keep_tilt_files_inside_the_allowed_root(tmp_path):
+    scene_dir = tmp_path / "scene"
+    scene_dir.mkdir()
+    tilt_text = "1\n2\n0 90\n1 0.5\n"
+    (tmp_path / "outside.tlt").write_text(tilt_text)
+    (scene_dir / "inside.tlt").write_text(tilt_text)
+    (scene_dir / "link.tlt").symlink_to(tmp_path / "outside.tlt")
+    outside = hostile_lm63(scene_dir, tilt="../outside.tlt", name="outside.ies")
+    absolute_inside = hostile_lm63(scene_dir, tilt=str(scene_dir / "inside.tlt"), name="abs.ies")
+    link = hostile_lm63(scene_dir, tilt="link.tlt", name="link.ies")
+    # By default (not strict) a tilt file may be anywhere, relative or absolute.
+    for path in (outside, absolute_inside, link):
+        assert P.read_lm63(path).tilt.factors[-1] == 0.5
+    # Strict: the resolved tilt file must lie inside allowed_root (a symlink out does not count).
+    assert P.read_lm63(absolute_inside, allowed_root=scene_dir).tilt.geometry == 1
+    for path in (outside, link):
+        problem = problem_of(path, allowed_root=scene_dir)
+        assert (problem.source, problem.where) == (str(path), "line 3")
+        assert "outside" in problem.message and str(scene_dir.resolve()) in problem.message
+    # The photometric file itself is held to the same root.
+    problem = problem_of(absolute_inside, allowed_root=tmp_path / "elsewhere")
+    assert problem.source == str(absolute_inside) and "outside" in problem.message
+
+
+def test_candela_overflowing_after_the_multiplier(tmp_path):
+    # 1e308 is a finite double, x 10 is not (IEEE 754): refused at the value's line, after scaling.
+    path = hostile_lm63(tmp_path, multiplier="10", candela="100 1e308 60")
+    problem = problem_of(path)
+    assert (problem.source, problem.where) == (str(path), "line 8")
+    assert "1e+308" in problem.message and "finite" in problem.message
+
+
+def test_factors_overflowing_together(tmp_path):
+    # multiplier x ballast factor overflows although each is finite: the multiplier's line.
+    path = hostile_lm63(tmp_path, multiplier="1e300", ballast="1e10", candela="0 0 0")
+    problem = problem_of(path)
+    assert (problem.source, problem.where) == (str(path), "line 4")
+    assert "finite" in problem.message
+
+
+def test_candela_too_large_for_a_finite_flux(tmp_path):
+    # A finite table whose flux (about 4 pi x peak) is not a finite double cannot be scaled or
+    # integrated: refused at the peak's line.
+    path = hostile_lm63(tmp_path, candela="100 1e308 60")
+    problem = problem_of(path)
+    assert (problem.source, problem.where) == (str(path), "line 8")
+    assert "flux" in problem.message
+
+
+@pytest.mark.parametrize(
+    "field, value, line, fragment",
+    [
+        # LM-63 (from memory): the candela multiplier and the ballast factor are positive
+        # factors, candela values are intensities (>= 0); zero candela is allowed.
+        ("multiplier", "0", 4, "candela multiplier > 0"),
+        ("multiplier", "-1", 4, "candela multiplier > 0"),
+        ("ballast", "0", 5, "ballast factor > 0"),
+        ("ballast", "-0.9", 5, "ballast factor > 0"),
+        ("candela", "100 -1 60", 8, "negative candela"),
+        ("candela", "100 nan 60", 8, "finite number"),
+        ("candela", "100 -inf 60", 8, "finite number"),
+    ],
+)
+def test_factor_and_candela_signs(tmp_path, field, value, line, fragment):
+    path = hostile_lm63(tmp_path, **{field: value})
+    problem = problem_of(path)
+    assert (problem.source, problem.where) == (str(path), f"line {line}")
+    assert fragment in problem.message
+
+
+def test_zero_candela_values_are_allowed(tmp_path):
+    assert P.read_lm63(hostile_lm63(tmp_path, candela="0 0 0")).candela_cd.max() == 0.0
+
+
+def test_load_photometry_passes_strict_paths_down(tmp_path):
+    path = hostile_lm63(tmp_path)
+    assert P.load_photometry(path.name, base_dir=tmp_path, allowed_root=tmp_path).edition == "LM-63-2002"
+    with pytest.raises(InputError, match="outside"):
+        P.load_photometry(path.name, base_dir=tmp_path, allowed_root=tmp_path / "sub")
+    assert P.load_photometry("generic-isotropic", allowed_root=tmp_path).symmetry == "rotational"
+
+
+def test_many_more_lines_do_not_hang(tmp_path):
+    # A hang guard, not a speed test: each [MORE] line formerly copied the whole keyword value
+    # read so far (quadratic; 200 000 lines ran past the 10 s guard).
+    path = tmp_path / "more.ies"
+    more = "[MORE] abcdefgh\n" * 200_000
+    path.write_text(f"IESNA:LM-63-2002\n[TEST] x\n{more}TILT=NONE\n1 1000 1 3 1 1 2 0 0 0\n1 1 0\n0 45 90\n0\n1 2 3\n")
+    with time_limit(10.0):
+        ph = P.read_lm63(path)
+    assert ph.keywords["TEST"] == "x" + "\nabcdefgh" * 200_000
 
 
 # --------------------------------------------------------------------------------------------

@@ -50,9 +50,17 @@ def _read_builtin(ident: str) -> Photometry:
         return read_lm63(path)
 
 
-def load_photometry(ref: str | os.PathLike, base_dir: str | os.PathLike | None = None) -> Photometry:
+def load_photometry(
+    ref: str | os.PathLike,
+    base_dir: str | os.PathLike | None = None,
+    *,
+    allowed_root: str | os.PathLike | None = None,
+) -> Photometry:
     """Load a built-in distribution by id (see :func:`builtin_photometry_ids`) or an LM-63 file
     by path (relative paths are taken from ``base_dir``, default the current folder).
+
+    With ``allowed_root`` (strict paths) an LM-63 file and its tilt file must lie inside that
+    folder (:func:`render.light.photometry.lm63.read_lm63`); built-in ids are always allowed.
 
     Raises
     ------
@@ -68,7 +76,7 @@ def load_photometry(ref: str | os.PathLike, base_dir: str | os.PathLike | None =
     if not path.is_absolute() and base_dir is not None:
         path = Path(base_dir) / path
     if path.is_file():
-        return read_lm63(path)
+        return read_lm63(path, allowed_root=allowed_root)
     raise InputError(
         Problem(
             text,

@@ -31,6 +31,34 @@ Values are separated by commas and/or white space and may wrap across lines anyw
 value keeps its line number so that a mistake is reported as ``file: line N: ...``
 (:class:`render.errors.InputError`).
 
+Hostile and broken input
+------------------------
+Whatever a file holds, the reader returns a :class:`Photometry` whose numbers are all finite or
+raises :class:`~render.errors.InputError` naming the file and the line:
+
+* the photometric file is read with :func:`render.fileio.read_user_bytes` (a regular file, at
+  most the "photometric file" size in :data:`render.limits.FILE_SIZE_LIMITS_BYTES`);
+* counts are checked against :data:`render.limits.MAX_LM63_ANGLES` and
+  :data:`~render.limits.MAX_LM63_TILT_ANGLES` and against the number of values actually in the
+  file before any array of their size is made;
+* candela values are checked after the candela multiplier and the ballast factors: each must be
+  finite and at most :data:`LARGEST_INTENSITY_CD` (also times the largest tilt factor), so that
+  the flux and every scaling stay finite (IEEE 754 binary64). Candela values and tilt factors
+  must be ≥ 0 (zero is allowed), the multiplier and the ballast factors > 0: LM-63 defines
+  them as intensities and multiplying factors and gives negative values no meaning
+  **(from memory)**.
+
+Tilt files and paths
+--------------------
+``TILT=<file>`` names a tilt file relative to the photometric file's folder (for
+:func:`parse_lm63`, ``base_dir``). **By default absolute paths and paths outside that folder
+(``../``, symbolic links) are allowed.** With ``allowed_root`` (the scene loader passes it for
+``--strict-paths``) the photometric file and its tilt file must resolve, symbolic links
+followed, inside that folder. A tilt file is read like any user file, as a "tilt file" (regular,
+size-capped); a file name with a NUL byte is refused. Since ``TILT=`` may point at any file,
+messages about a tilt file never quote its content: they say what was expected and at which
+line of the tilt file, and which line of which photometric file named it.
+
 Symmetry (type C)
 -----------------
 Vertical angles γ run 0–90 (downward only), 90–180 (upward only) or 0–180; the missing
@@ -54,14 +82,16 @@ References
   transfer of photometric data" **(from memory)**.
 - I. Ashdown, "Parsing the IESNA LM-63 photometric data file" (1998): the 1986/1991 ballast-lamp
   photometric factor and its "future use" successor.
+- IEEE 754-2019, "Standard for floating-point arithmetic": the largest finite binary64 number.
 """
 
 from __future__ import annotations
 
+import itertools
 import math
 import os
 import re
-from collections.abc import Sequence
+from collections.abc import Iterator
 from pathlib import Path
 
 import numpy as np
@@ -75,11 +105,16 @@ from render.light.photometry.model import (
     c_gamma_to_type_b,
     frozen_array,
 )
+from render.limits import MAX_LM63_ANGLES, MAX_LM63_TILT_ANGLES, check_count
 
-__all__ = ["FEET_TO_M", "parse_lm63", "read_lm63"]
+__all__ = ["FEET_TO_M", "LARGEST_INTENSITY_CD", "parse_lm63", "read_lm63"]
 
 #: One foot in metres (international foot).
 FEET_TO_M = 0.3048
+
+#: The largest intensity a table may hold, cd: its flux bound 4π·I (lm) must stay a finite
+#: double (IEEE 754 binary64, largest about 1.8e308), so that flux, scaling and tilt stay finite.
+LARGEST_INTENSITY_CD = float(np.finfo(np.float64).max) / (4.0 * math.pi)
 
 _EDITION_LINES = {
     "IESNA:LM-63-1995": "LM-63-1995",
@@ -92,69 +127,166 @@ _EDITION_LINES = {
 
 
 # --------------------------------------------------------------------------------------------
-# Tokens with line numbers
+# Lines and tokens with line numbers
 # --------------------------------------------------------------------------------------------
 
-_SPLIT = re.compile(r"[,\s]+")
+_LINE_END = re.compile(r"\r\n|\r|\n")
+_KEYWORD = re.compile(r"^\s*\[([^\]]*)\]\s?(.*)$")
+
+# Value separators: a comma or any character str.isspace() accepts (all below U+3001), the
+# same set str.split() splits on, so that the vectorised tokeniser and the bulk conversion agree.
+_SEPARATOR_TABLE = np.array([chr(c).isspace() or c == ord(",") for c in range(0x3001)], dtype=bool)
+_CHUNK = 65_536  # values converted per bulk step (bounds the temporary list of strings)
+
+
+def _lines(text: str) -> Iterator[tuple[int, str, int]]:
+    """(line number from 1, line, offset just past its end) for each line, one at a time; lines
+    end at CR LF, CR or LF, and a final line break does not start another line."""
+    pos, n, number = 0, len(text), 0
+    while pos < n:
+        number += 1
+        m = _LINE_END.search(text, pos)
+        if m is None:
+            yield number, text[pos:], n
+            return
+        yield number, text[pos : m.start()], m.end()
+        pos = m.end()
+
+
+def _shown(text: str, limit: int = 40) -> str:
+    """``text`` quoted for a message: at most ``limit`` characters, control characters escaped."""
+    short = text if len(text) <= limit else text[:limit] + "…"
+    safe = "".join(c if c.isprintable() else c.encode("unicode_escape").decode("ascii") for c in short)
+    return f"'{safe}'"
 
 
 class _Tokens:
-    """The numeric part of a file: (text, line number) pairs consumed in order."""
+    """The numeric part of a file: values separated by commas and/or white space, each with its
+    line number, consumed in order.
 
-    def __init__(self, items: list[tuple[str, int]], source: str, last_line: int):
-        self.items = items
-        self.pos = 0
+    The text is split once, vectorised (token start, end and line as integer arrays: a few
+    bytes per character, no Python object per value); values are converted to floats only when
+    read. With ``echo`` False (a tilt file, which ``TILT=`` may point anywhere) messages say
+    what was expected and where, never what the file holds; ``context`` is added to every
+    message (e.g. which file named this one).
+    """
+
+    def __init__(self, text: str, first_line: int, source: str, *, echo: bool = True, context: str = ""):
+        self.text = text
         self.source = source
-        self.last_line = last_line
+        self.echo = echo
+        self.context = context
+        codes = np.frombuffer(text.encode("utf-32-le", "surrogatepass"), dtype="<u4")
+        if codes.size == 0:
+            codes = np.array([32], dtype="<u4")  # one separator: no values
+        sep = np.zeros(codes.size, dtype=bool)
+        low = codes < _SEPARATOR_TABLE.size
+        sep[low] = _SEPARATOR_TABLE[codes[low]]
+        word = ~sep
+        index = np.int32 if codes.size < 2**31 - 1 else np.int64
+        self.starts = np.flatnonzero(word & np.concatenate(([True], sep[:-1]))).astype(index)
+        self.ends = (np.flatnonzero(word & np.concatenate((sep[1:], [True]))) + 1).astype(index)
+        newline = (codes == 10) | ((codes == 13) & np.concatenate((codes[1:] != 10, [True])))
+        self.lines = (first_line + np.searchsorted(np.flatnonzero(newline), self.starts)).astype(index)
+        self.pos = 0
+        # Where "the file ends": the line of the last value (or, with none, the line before).
+        self.last_line = int(self.lines[-1]) if self.lines.size else max(first_line - 1, 1)
 
-    def _error(self, line: int, message: str) -> InputError:
-        return input_error(self.source, f"line {line}", message)
+    def error(self, line: int, message: str) -> InputError:
+        return input_error(self.source, f"line {line}", message + self.context)
+
+    def found(self, text: str) -> str:
+        """``", found '...'"`` when the file's content may be quoted, else nothing."""
+        return f", found {_shown(text)}" if self.echo else ""
+
+    def remaining(self) -> int:
+        return int(self.starts.size) - self.pos
 
     def line_of(self, index: int) -> int:
-        return self.items[index][1]
+        return int(self.lines[index])
+
+    def _word(self, index: int) -> str:
+        return self.text[int(self.starts[index]) : int(self.ends[index])]
 
     def number(self, what: str) -> tuple[float, int]:
-        if self.pos >= len(self.items):
-            raise self._error(self.last_line, f"the file ends before the {what}; the data are truncated")
-        text, line = self.items[self.pos]
+        if self.pos >= self.starts.size:
+            raise self.error(self.last_line, f"the file ends before the {what}; the data are truncated")
+        text, line = self._word(self.pos), self.line_of(self.pos)
         self.pos += 1
         try:
             value = float(text)
         except ValueError:
-            raise self._error(line, f"expected the {what} (a number), found '{text}'") from None
+            raise self.error(line, f"expected the {what} (a number){self.found(text)}") from None
         if not math.isfinite(value):
-            raise self._error(line, f"expected the {what} (a finite number), found '{text}'")
+            raise self.error(line, f"expected the {what} (a finite number){self.found(text)}")
         return value, line
 
     def integer(self, what: str) -> tuple[int, int]:
         value, line = self.number(what)
         if abs(value - round(value)) > 1e-9:
-            raise self._error(line, f"expected the {what} (a whole number), found {value:g}")
+            raise self.error(line, f"expected the {what} (a whole number){self.found(f'{value:g}')}")
         return int(round(value)), line
 
+    def count(self, noun: str, minimum: int, limit: int) -> tuple[int, int]:
+        """A count of ``noun`` between ``minimum`` and ``limit`` (render.limits), checked before
+        anything of that size exists."""
+        value, line = self.number(f"number of {noun}")
+        if abs(value - round(value)) > 1e-9:
+            raise self.error(line, f"expected the number of {noun} (a whole number){self.found(f'{value:g}')}")
+        if value < minimum:
+            raise self.error(line, f"expected at least {minimum} {noun}{self.found(f'{value:g}')}")
+        if value > limit:
+            if not self.echo:
+                raise self.error(line, f"the number of {noun} is more than lampcast allows ({limit:,})")
+            try:
+                check_count(value, limit, self.source, f"line {line}", f"the number of {noun}")
+            except InputError as err:
+                raise self.error(line, err.problems[0].message) from None
+        return int(round(value)), line
+
+    def require(self, needed: int, count_lines: str, what: str) -> None:
+        """An error unless ``needed`` values remain (checked before they are allocated)."""
+        have = self.remaining()
+        if needed > have:
+            raise self.error(
+                self.last_line,
+                f"the file ends after {have:,} of the {needed:,} values that the count(s) on line "
+                f"{count_lines} call for ({what}); the data are truncated or a count is wrong",
+            )
+
     def numbers(self, n: int, what: str) -> tuple[np.ndarray, np.ndarray]:
+        """The next ``n`` values (finite floats) and their line numbers."""
+        if n > self.remaining():
+            raise self.error(
+                self.last_line, f"the file ends after {self.remaining()} of the {n} {what}; the data are truncated"
+            )
         values = np.empty(n, dtype=np.float64)
-        lines = np.empty(n, dtype=np.int64)
-        for k in range(n):
-            if self.pos >= len(self.items):
-                raise self._error(
-                    self.last_line,
-                    f"the file ends after {k} of the {n} {what}; the data are truncated",
-                )
-            values[k], lines[k] = self.number(f"{what} (value {k + 1} of {n})")
-        return values, lines
-
-    def remaining(self) -> int:
-        return len(self.items) - self.pos
-
-
-def _tokenise(lines: Sequence[str], first_line_no: int) -> list[tuple[str, int]]:
-    out: list[tuple[str, int]] = []
-    for k, text in enumerate(lines):
-        for word in _SPLIT.split(text.strip()):
-            if word:
-                out.append((word, first_line_no + k))
-    return out
+        first = self.pos
+        for a in range(0, n, _CHUNK):
+            b = min(a + _CHUNK, n)
+            lo, hi = first + a, first + b
+            words = self.text[int(self.starts[lo]) : int(self.ends[hi - 1])].replace(",", " ").split()
+            try:
+                values[a:b] = np.fromiter(map(float, words), dtype=np.float64, count=b - a)
+            except ValueError:
+                for k in range(lo, hi):
+                    try:
+                        float(self._word(k))
+                    except ValueError:
+                        raise self.error(
+                            self.line_of(k),
+                            f"expected the {what} (value {k - first + 1} of {n}, a number){self.found(self._word(k))}",
+                        ) from None
+                raise  # pragma: no cover - the tokeniser and str.split() agree on separators
+        bad = np.flatnonzero(~np.isfinite(values))
+        if bad.size:
+            k = first + int(bad[0])
+            raise self.error(
+                self.line_of(k),
+                f"expected the {what} (value {k - first + 1} of {n}, a finite number){self.found(self._word(k))}",
+            )
+        self.pos += n
+        return values, self.lines[first : first + n].astype(np.int64)
 
 
 def _decode(data: bytes) -> str:
@@ -165,15 +297,25 @@ def _decode(data: bytes) -> str:
         return data.decode("cp1252", errors="replace")
 
 
+def _inside(path: Path, root: Path) -> bool:
+    """Whether ``path`` (symbolic links followed) lies inside the folder ``root``."""
+    try:
+        return path.resolve().is_relative_to(root.resolve())
+    except (OSError, RuntimeError, ValueError):
+        return False
+
+
 # --------------------------------------------------------------------------------------------
 # Parsing
 # --------------------------------------------------------------------------------------------
 
 
-def read_lm63(path: str | os.PathLike) -> Photometry:
+def read_lm63(path: str | os.PathLike, *, allowed_root: str | os.PathLike | None = None) -> Photometry:
     """Read an LM-63 photometric file (see the module notes for the format).
 
-    A ``TILT=<file>`` tilt file is looked up relative to the photometric file's folder.
+    A ``TILT=<file>`` tilt file is looked up relative to the photometric file's folder. With
+    ``allowed_root`` (strict paths) the photometric file and its tilt file must both lie inside
+    that folder once symbolic links are followed.
 
     Raises
     ------
@@ -181,73 +323,86 @@ def read_lm63(path: str | os.PathLike) -> Photometry:
         If the file cannot be read or is malformed (names the file and line).
     """
     path = Path(path)
-    return parse_lm63(_decode(read_user_bytes(path, "photometric file")), source=str(path), base_dir=path.parent)
+    if allowed_root is not None and not _inside(path, Path(allowed_root)):
+        raise input_error(
+            path,
+            "",
+            f"the photometric file is outside {Path(allowed_root).resolve()}; with strict paths "
+            "only files inside that folder are read",
+        )
+    return parse_lm63(
+        _decode(read_user_bytes(path, "photometric file")),
+        source=str(path),
+        base_dir=path.parent,
+        allowed_root=allowed_root,
+    )
 
 
-def parse_lm63(text: str, source: str = "<lm63 text>", base_dir: str | os.PathLike | None = None) -> Photometry:
-    """Parse LM-63 text; ``source`` names the input in error messages and ``base_dir`` is where
-    a ``TILT=<file>`` is looked for (default: the current folder)."""
-    lines = text.splitlines()
-    n_lines = len(lines)
-    i = 0
-    while i < n_lines and not lines[i].strip():
-        i += 1
-    if i >= n_lines:
+def parse_lm63(
+    text: str,
+    source: str = "<lm63 text>",
+    base_dir: str | os.PathLike | None = None,
+    *,
+    allowed_root: str | os.PathLike | None = None,
+) -> Photometry:
+    """Parse LM-63 text; ``source`` names the input in error messages, ``base_dir`` is where a
+    relative ``TILT=<file>`` is looked for (default: the current folder) and ``allowed_root``,
+    when given, the folder a tilt file must lie in (strict paths)."""
+    lines = _lines(text)
+    first = next((item for item in lines if item[1].strip()), None)
+    if first is None:
         raise input_error(source, "", "the file is empty; expected LM-63 photometric data")
 
     # --- edition line -------------------------------------------------------------------------
-    head = lines[i].strip().upper().replace(" ", "")
-    edition = _EDITION_LINES.get(head)
-    if edition is not None:
-        i += 1
-    elif head.startswith(("IESNA:LM-63", "IES:LM-63")):
-        raise input_error(
-            source,
-            f"line {i + 1}",
-            f"unknown LM-63 edition '{lines[i].strip()}'; expected one of "
-            "IESNA:LM-63-1995, IESNA:LM-63-2002, IES:LM-63-2019",
-        )
-    else:
+    line_no, head, _ = first
+    key = head.strip().upper().replace(" ", "")
+    edition = _EDITION_LINES.get(key)
+    header: Iterator[tuple[int, str, int]] = lines
+    if edition is None:
+        if key.startswith(("IESNA:LM-63", "IES:LM-63")):
+            raise input_error(
+                source,
+                f"line {line_no}",
+                f"unknown LM-63 edition {_shown(head.strip())}; expected one of "
+                "IESNA:LM-63-1995, IESNA:LM-63-2002, IES:LM-63-2019",
+            )
         edition = "LM-63-1986"  # no edition line: the 1986 form, header lines are free text
+        header = itertools.chain([first], lines)
 
-    # --- keywords up to TILT= -----------------------------------------------------------------
-    keywords: dict[str, str] = {}
+    # --- keywords up to TILT= (read line by line: the data after it may be large) ------------
+    keywords: dict[str, list[str]] = {}  # [MORE] lines collected, joined once at the end
     labels: list[str] = []
     last_key: str | None = None
-    tilt_line_no = None
+    tilt_line_no: int | None = None
     tilt_value = ""
-    keyword_re = re.compile(r"^\s*\[([^\]]*)\]\s?(.*)$")
-    while i < n_lines:
-        raw = lines[i]
+    data_start = len(text)
+    for line_no, raw, end in header:
         stripped = raw.strip()
         if stripped.upper().replace(" ", "").startswith("TILT="):
-            tilt_line_no = i + 1
+            tilt_line_no = line_no
             tilt_value = stripped.split("=", 1)[1].strip()
-            i += 1
+            data_start = end
             break
-        m = keyword_re.match(raw)
+        m = _KEYWORD.match(raw)
         if m:
-            key = m.group(1).strip().upper()
+            word = m.group(1).strip().upper()
             value = m.group(2).rstrip()
-            if key == "MORE" and last_key is not None:
-                keywords[last_key] = keywords[last_key] + "\n" + value
-            elif key in keywords:
-                keywords[key] = keywords[key] + "\n" + value
-                last_key = key
+            if word == "MORE" and last_key is not None:
+                keywords[last_key].append(value)
             else:
-                keywords[key] = value
-                last_key = key
+                keywords.setdefault(word, []).append(value)
+                last_key = word
         elif stripped:
             labels.append(stripped)
-        i += 1
     if tilt_line_no is None:
         raise input_error(
             source,
-            f"line {n_lines}",
+            f"line {line_no}",
             "no TILT= line found; expected 'TILT=NONE', 'TILT=INCLUDE' or 'TILT=<file>' after the keyword lines",
         )
+    joined = {word: "\n".join(parts) for word, parts in keywords.items()}
 
-    tokens = _Tokens(_tokenise(lines[i:], i + 1), source, n_lines)
+    tokens = _Tokens(text[data_start:], tilt_line_no + 1, source)
 
     # --- tilt ---------------------------------------------------------------------------------
     tilt: TiltData | None = None
@@ -256,27 +411,11 @@ def parse_lm63(text: str, source: str = "<lm63 text>", base_dir: str | os.PathLi
         tilt = None
     elif upper == "INCLUDE":
         tilt = _parse_tilt(tokens, "INCLUDE")
-    elif not tilt_value:
-        raise input_error(source, f"line {tilt_line_no}", "expected NONE, INCLUDE or a file name after 'TILT='")
     else:
-        base = Path(base_dir) if base_dir is not None else Path.cwd()
-        tilt_path = base / tilt_value
-        try:
-            tilt_text = _decode(tilt_path.read_bytes())
-        except OSError as exc:
-            raise input_error(
-                source,
-                f"line {tilt_line_no}",
-                f"cannot read the tilt file '{tilt_value}' (looked for {tilt_path}): {exc.strerror or exc}",
-            ) from None
-        tilt_lines = tilt_text.splitlines()
-        tilt_tokens = _Tokens(_tokenise(tilt_lines, 1), str(tilt_path), max(len(tilt_lines), 1))
-        tilt = _parse_tilt(tilt_tokens, str(tilt_path))
+        tilt = _read_tilt_file(tilt_value, source, tilt_line_no, base_dir, allowed_root)
 
     # --- the two parameter lines ------------------------------------------------------------
-    def err(line: int, message: str) -> InputError:
-        return input_error(source, f"line {line}", message)
-
+    err = tokens.error
     lamp_count, ln = tokens.integer("number of lamps")
     if lamp_count < 1:
         raise err(ln, f"expected a number of lamps of at least 1, found {lamp_count}")
@@ -285,15 +424,13 @@ def parse_lm63(text: str, source: str = "<lm63 text>", base_dir: str | os.PathLi
         lumens_per_lamp = -1.0
     elif lumens_per_lamp <= 0:
         raise err(ln, f"expected lumens per lamp > 0, or -1 for absolute photometry, found {lumens_per_lamp:g}")
-    multiplier, ln = tokens.number("candela multiplier")
+    elif not math.isfinite(lamp_count * lumens_per_lamp):
+        raise err(ln, f"the rated flux, {lamp_count:.4g} lamps × {lumens_per_lamp:g} lm, is not a finite number")
+    multiplier, ln_mult = tokens.number("candela multiplier")
     if multiplier <= 0:
-        raise err(ln, f"expected a candela multiplier > 0, found {multiplier:g}")
-    n_v, ln_nv = tokens.integer("number of vertical angles")
-    if n_v < 2:
-        raise err(ln_nv, f"expected at least 2 vertical angles, found {n_v}")
-    n_h, ln_nh = tokens.integer("number of horizontal angles")
-    if n_h < 1:
-        raise err(ln_nh, f"expected at least 1 horizontal angle, found {n_h}")
+        raise err(ln_mult, f"expected a candela multiplier > 0, found {multiplier:g}")
+    n_v, ln_nv = tokens.count("vertical angles", 2, MAX_LM63_ANGLES)
+    n_h, ln_nh = tokens.count("horizontal angles", 1, MAX_LM63_ANGLES)
     ptype, ln = tokens.integer("photometric type")
     if ptype == 3:
         raise err(ln, "photometric type 3 (type A) is not supported; lampcast reads type C (1) and type B (2)")
@@ -320,6 +457,13 @@ def parse_lm63(text: str, source: str = "<lm63 text>", base_dir: str | os.PathLi
     if input_watts < 0:
         raise err(ln, f"expected input watts ≥ 0, found {input_watts:g}")
 
+    # Every value the counts call for must be present before any array of their size is made.
+    count_lines = f"{ln_nv}" if ln_nv == ln_nh else f"{ln_nv} and {ln_nh}"
+    tokens.require(
+        n_v + n_h + n_v * n_h,
+        count_lines,
+        f"{n_v:,} vertical angles, {n_h:,} horizontal angles and {n_v:,} × {n_h:,} candela values",
+    )
     v_deg, v_lines = tokens.numbers(n_v, "vertical angles")
     h_deg, h_lines = tokens.numbers(n_h, "horizontal angles")
     cd, cd_lines = tokens.numbers(n_v * n_h, "candela values")
@@ -349,7 +493,14 @@ def parse_lm63(text: str, source: str = "<lm63 text>", base_dir: str | os.PathLi
     else:
         ballast_lamp_factor, file_generation_type = second, None
     scale = multiplier * ballast_factor * ballast_lamp_factor
-    table = cd.reshape(n_h, n_v) * scale
+    factors_text = f"candela multiplier {multiplier:g} × ballast factor {ballast_factor:g}" + (
+        f" × ballast-lamp factor {ballast_lamp_factor:g}" if ballast_lamp_factor != 1.0 else ""
+    )
+    if not (math.isfinite(scale) and scale > 0):
+        raise err(ln_mult, f"the {factors_text} is {scale:g}; expected a finite number > 0")
+    with np.errstate(over="ignore"):
+        table = cd.reshape(n_h, n_v) * scale
+    _check_intensities(table, cd, cd_lines, scale, factors_text, tilt, source)
 
     if ptype == 1:
         _check_type_c_ranges(v_deg, v_lines, h_deg, h_lines, source)
@@ -385,41 +536,115 @@ def parse_lm63(text: str, source: str = "<lm63 text>", base_dir: str | os.PathLi
         file_horizontal_deg=frozen_array(h_deg),
         file_vertical_deg=frozen_array(v_deg),
         file_candela_cd=frozen_array(table),
-        keywords=keywords,
+        keywords=joined,
         label_lines=tuple(labels),
         tilt=tilt,
         file_generation_type=file_generation_type,
     )
 
 
-def _parse_tilt(tokens: _Tokens, origin: str) -> TiltData:
-    geometry, ln = tokens.integer("lamp-to-luminaire geometry of the tilt data")
-    if geometry not in (1, 2, 3):
-        raise input_error(
-            tokens.source, f"line {ln}", f"expected a lamp-to-luminaire geometry of 1, 2 or 3, found {geometry}"
-        )
-    n, ln = tokens.integer("number of tilt angles")
-    if n < 1:
-        raise input_error(tokens.source, f"line {ln}", f"expected at least 1 tilt angle, found {n}")
-    angles, a_lines = tokens.numbers(n, "tilt angles")
-    factors, f_lines = tokens.numbers(n, "tilt multiplying factors")
-    _check_increasing(angles, a_lines, "tilt", tokens.source)
-    bad = np.flatnonzero(factors < 0)
+def _check_intensities(
+    table: np.ndarray,
+    cd: np.ndarray,
+    cd_lines: np.ndarray,
+    scale: float,
+    factors_text: str,
+    tilt: TiltData | None,
+    source: str,
+) -> None:
+    """Intensities after the factors must be finite, and small enough that the flux bound
+    4π·I, also with the largest tilt factor, stays finite (:data:`LARGEST_INTENSITY_CD`)."""
+    flat = table.reshape(-1)
+    bad = np.flatnonzero(~np.isfinite(flat))
     if bad.size:
         k = int(bad[0])
         raise input_error(
-            tokens.source, f"line {f_lines[k]}", f"negative tilt multiplying factor {factors[k]:g}; expected ≥ 0"
+            source,
+            f"line {cd_lines[k]}",
+            f"candela value {cd[k]:g} × the {factors_text} is not a finite number (it overflows); "
+            "expected intensities that stay finite after the factors",
         )
+    k = int(np.argmax(flat)) if flat.size else 0
+    peak = float(flat[k]) if flat.size else 0.0
+    if peak > LARGEST_INTENSITY_CD:
+        raise input_error(
+            source,
+            f"line {cd_lines[k]}",
+            f"candela value {cd[k]:g} gives {peak:.4g} cd after the factors, too large for the "
+            f"luminous flux to be a finite number; lampcast reads intensities up to {LARGEST_INTENSITY_CD:.3g} cd",
+        )
+    if tilt is not None and tilt.factors.size and peak > 0:
+        f = float(np.max(tilt.factors))
+        if peak * f > LARGEST_INTENSITY_CD:
+            raise input_error(
+                source,
+                f"line {cd_lines[k]}",
+                f"candela value {cd[k]:g} × the largest tilt factor ({f:.4g}) exceeds "
+                f"{LARGEST_INTENSITY_CD:.3g} cd, too large for the luminous flux to be a finite number",
+            )
+
+
+def _read_tilt_file(
+    name: str,
+    source: str,
+    line: int,
+    base_dir: str | os.PathLike | None,
+    allowed_root: str | os.PathLike | None,
+) -> TiltData:
+    """The tilt data of ``TILT=<name>`` (on ``line`` of ``source``), read as module notes say."""
+    where = f"line {line}"
+    if not name:
+        raise input_error(source, where, "expected NONE, INCLUDE or a file name after 'TILT='")
+    if "\x00" in name:
+        raise input_error(source, where, "the tilt file name after 'TILT=' contains a NUL byte")
+    base = Path(base_dir) if base_dir is not None else Path.cwd()
+    path = base / name
+    if allowed_root is not None and not _inside(path, Path(allowed_root)):
+        raise input_error(
+            source,
+            where,
+            f"the tilt file {_shown(name, 200)} ({path}) is outside {Path(allowed_root).resolve()}; "
+            "with strict paths only files inside that folder are read",
+        )
+    try:
+        data = read_user_bytes(path, "tilt file")
+    except InputError as exc:
+        raise input_error(
+            source, where, f"{exc.problems[0].message} (TILT={_shown(name, 200)}, looked for {path})"
+        ) from None
+    tokens = _Tokens(
+        _decode(data), 1, str(path), echo=False, context=f" (the tilt file named on line {line} of {source})"
+    )
+    return _parse_tilt(tokens, str(path))
+
+
+def _parse_tilt(tokens: _Tokens, origin: str) -> TiltData:
+    geometry, ln = tokens.integer("lamp-to-luminaire geometry of the tilt data")
+    if geometry not in (1, 2, 3):
+        raise tokens.error(ln, f"expected a lamp-to-luminaire geometry of 1, 2 or 3{tokens.found(str(geometry))}")
+    n, ln = tokens.count("tilt angles", 1, MAX_LM63_TILT_ANGLES)
+    tokens.require(2 * n, str(ln), f"{n:,} tilt angles and {n:,} multiplying factors")
+    angles, a_lines = tokens.numbers(n, "tilt angles")
+    factors, f_lines = tokens.numbers(n, "tilt multiplying factors")
+    _check_increasing(angles, a_lines, "tilt", tokens.source, echo=tokens.echo, context=tokens.context)
+    bad = np.flatnonzero(factors < 0)
+    if bad.size:
+        k = int(bad[0])
+        shown = f" {factors[k]:g}" if tokens.echo else ""
+        raise tokens.error(int(f_lines[k]), f"negative tilt multiplying factor{shown}; expected ≥ 0")
     return TiltData(geometry, frozen_array(angles), frozen_array(factors), origin)
 
 
-def _check_increasing(a: np.ndarray, lines: np.ndarray, what: str, source: str) -> None:
+def _check_increasing(
+    a: np.ndarray, lines: np.ndarray, what: str, source: str, *, echo: bool = True, context: str = ""
+) -> None:
     if a.size < 2:
         return
     bad = np.flatnonzero(np.diff(a) <= 0)
     if bad.size:
         k = int(bad[0]) + 1
-        raise input_error(source, f"line {lines[k]}", f"{what} angles must increase: {a[k]:g} follows {a[k - 1]:g}")
+        shown = f": {a[k]:g} follows {a[k - 1]:g}" if echo else f" (value {k + 1} does not exceed value {k})"
+        raise input_error(source, f"line {lines[k]}", f"{what} angles must increase{shown}{context}")
 
 
 def _near(x: float, target: float) -> bool:
