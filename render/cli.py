@@ -290,29 +290,13 @@ def cmd_colours(args) -> int:
         text=text,
     )
     written = [write_colour_json(result, out / f"{file_stem(view.name)}-colours.json"), *pictures.values()]
-    rows = []
-    for o in result["objects"]:
-        row = {
-            "object": o["name"],
-            "daylight": result["daylight"]["objects"][o["name"]]["name"],
-            "setups": {},
-            "changed": [],
-        }
-        for s in result["setups"]:
-            seen = result["setups"][s]["objects"][o["name"]]
-            row["setups"][s] = seen["name"] if seen["visible"] else None
-            if seen["visible"] and seen["name_changed"]:
-                row["changed"].append(s)
-        rows.append(row)
     print(f"Colour names in view '{view.name}' (daylight vs as seen):")
-    print(format_name_table(rows))
-    for s in result["setups"]:
-        pairs = result["setups"][s]["confusions"]
+    print(format_name_table(result.name_rows()))
+    for s, seen in result.setups.items():
+        pairs = seen.confusions
         print(f"\n{s}: {len(pairs)} pair(s) distinct in daylight become hard to tell apart")
         for c in pairs:
-            print(
-                f"  {c['a']} / {c['b']}: ΔE00 {c['daylight_delta_e00']:.1f} in daylight → {c['delta_e00']:.2f} ({c['level']})"
-            )
+            print(f"  {c.a} / {c.b}: ΔE00 {c.daylight_delta_e00:.1f} in daylight → {c.delta_e00:.2f} ({c.level})")
     for path in written:
         print(path)
     return 0
@@ -340,7 +324,7 @@ def cmd_compare(args) -> int:
         observer=observer,
         report=not args.no_report,
     )
-    for line in result.metrics["summary"]:
+    for line in result.metrics.summary:
         print(f"- {line}")
     print(f"written to {result.out_dir}/" + (f" (open {result.report})" if result.report else ""))
     return 0

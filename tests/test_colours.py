@@ -266,8 +266,8 @@ def test_confusions_thresholds():
     out = confusions(day, night, names)
     # a-b: 25 -> 0.6 imperceptible; a-c: 12 -> 2.5 hard; b-c: 3.0 is not below 3; a-d was not
     # distinct in daylight (5 < 10); b-d undefined.
-    assert [(c["a"], c["b"], c["level"]) for c in out] == [("a", "b", "imperceptible"), ("a", "c", "hard")]
-    assert confusions(day, night, names, distinct_in_daylight=4.0)[1]["b"] == "d"
+    assert [(c.a, c.b, c.level) for c in out] == [("a", "b", "imperceptible"), ("a", "c", "hard")]
+    assert confusions(day, night, names, distinct_in_daylight=4.0)[1].b == "d"
 
 
 # ------------------------------------------------------------------- the real vision chain
@@ -455,7 +455,8 @@ def _street_setups():
 
 def test_colour_analysis_structure(tmp_path):
     objects, setups = _street_setups()
-    out = colour_analysis(objects, {k: v[0] for k, v in setups.items()})
+    result = colour_analysis(objects, {k: v[0] for k, v in setups.items()})
+    out = result.to_json()
     text = json.dumps(out, ensure_ascii=False, allow_nan=False)  # JSON-safe: no NaN
     assert json.loads(text) == out
     assert list(out) == ["method", "objects", "daylight", "setups"]
@@ -476,7 +477,7 @@ def test_colour_analysis_structure(tmp_path):
     # Complete discounting of a line source's colour leaves only lightness: every sample is
     # named black, grey or white (analytic: all share the light's chromaticity).
     disc = colour_analysis(objects, {k: v[0] for k, v in setups.items()}, naming_adaptation="discounted")
-    assert {o["name"] for k, o in disc["setups"]["low-pressure sodium"]["objects"].items() if o["visible"]} <= {
+    assert {o.name for o in disc.setups["low-pressure sodium"].objects.values() if o.visible} <= {
         "black",
         "grey",
         "white",
@@ -491,23 +492,23 @@ def test_pictures_are_written(tmp_path):
     objects, setups = _street_setups()
     out = colour_analysis(objects, {k: v[0] for k, v in setups.items()})
     names = [o.name for o in objects]
-    cols = ["daylight (D65)"] + list(out["setups"])
+    cols = ["daylight (D65)"] + list(out.setups)
     labs = np.full((len(names), len(cols), 3), np.nan)
     terms = [[None] * len(cols) for _ in names]
     for i, n in enumerate(names):
-        labs[i, 0] = out["daylight"]["objects"][n]["lab"]
-        terms[i][0] = out["daylight"]["objects"][n]["name"]
-        for j, s in enumerate(out["setups"], start=1):
-            o = out["setups"][s]["objects"][n]
-            if o["lab"] is not None:
-                labs[i, j] = o["lab"]
-            terms[i][j] = o["name"]
+        labs[i, 0] = out.daylight.objects[n].lab
+        terms[i][0] = out.daylight.objects[n].name
+        for j, s in enumerate(out.setups, start=1):
+            o = out.setups[s].objects[n]
+            if o.lab is not None:
+                labs[i, j] = o.lab
+            terms[i][j] = o.name
     paths = [
         pictures.swatch_sheet(names, cols, labs, tmp_path / "swatches.png", terms=terms, title="as seen"),
         pictures.delta_e_heatmap(
             {
-                "daylight": np.array(out["daylight"]["delta_e00"], float),
-                "LPS": np.array(out["setups"]["low-pressure sodium"]["delta_e00"], float),
+                "daylight": np.array(out.daylight.delta_e00, float),
+                "LPS": np.array(out.setups["low-pressure sodium"].delta_e00, float),
             },
             names,
             tmp_path / "heatmap.png",
@@ -545,8 +546,8 @@ def test_demo_street_before_lamp_confuses_a_pair_the_after_lamp_separates():
     after = study.relight(before, "led-warm")
     shown = study.display([before, after], "shared")
     result = analyse_view_colours(study, [before, after], shown, study.observer, ["before", "after"])
-    confused = {(c["a"], c["b"]) for c in result["setups"]["before"]["confusions"]}
-    names = [o["name"] for o in result["objects"]]
-    after_de = result["setups"]["after"]["delta_e00"]
+    confused = {(c.a, c.b) for c in result.setups["before"].confusions}
+    names = result.object_names
+    after_de = result.setups["after"].delta_e00
     separated = [pair for pair in confused if after_de[names.index(pair[0])][names.index(pair[1])] >= 3.0]
     assert separated, (confused, after_de)

@@ -17,6 +17,7 @@ import sys
 import time
 from pathlib import Path
 
+import markupsafe
 import pytest
 
 from render.cli import main
@@ -57,7 +58,7 @@ def test_png_metadata_traces_the_run(run):
     text = Image.open(view_dir / "before.png").text
     assert text["lampcast.mode"] == "shared" and text["lampcast.setup"] == "old"
     assert text["lampcast.view"] == "<svg onload=alert(2)>"
-    assert text["lampcast.scene_sha256"] == run.metrics["scene"]["sha256"]
+    assert text["lampcast.scene_sha256"] == run.metrics.scene.sha256
     assert "age 40" in text["lampcast.observer"] and text["lampcast.seed"] == "0"
 
 
@@ -73,8 +74,8 @@ def test_report_escapes_scene_text(run):
         "<script>document.title='x'</script>",
     ):
         assert raw not in page, raw
-    assert html.escape("<script>alert('street')</script> & Co", quote=True) in page
-    assert html.escape("<svg onload=alert(2)>", quote=True) in page
+    assert markupsafe.escape("<script>alert('street')</script> & Co") in page
+    assert markupsafe.escape("<svg onload=alert(2)>") in page
 
 
 def test_report_numbers_equal_metrics_and_lamp_figures(run, capsys):
@@ -111,6 +112,19 @@ def test_report_numbers_equal_metrics_and_lamp_figures(run, capsys):
                 assert a is None and b is None, (lamp_id, key)
             else:
                 assert a == b, (lamp_id, key)
+
+
+def test_metrics_json_reads_back_into_the_same_records_and_report(run):
+    # metrics.json is the records' to_json(); read back, they give the same JSON and the same
+    # report bytes (the report shows the records, so it can be made again from the file).
+    from render.output.metrics import ComparisonMetrics
+    from render.output.report import render_report
+
+    stored = json.loads((run.out_dir / "metrics.json").read_text(encoding="utf-8"))
+    again = ComparisonMetrics.from_json(stored)
+    assert again == run.metrics
+    assert again.to_json() == stored
+    assert render_report(again, run.out_dir) == (run.out_dir / "report.html").read_text(encoding="utf-8")
 
 
 def test_rerun_is_byte_identical(run, tmp_path):
@@ -205,4 +219,4 @@ def test_every_png_carries_provenance(run):
     for path in run.out_dir.rglob("*.png"):
         text = Image.open(path).text
         assert text.get("Software", "").startswith("lampcast"), path
-        assert text.get("lampcast.scene_sha256") == run.metrics["scene"]["sha256"], path
+        assert text.get("lampcast.scene_sha256") == run.metrics.scene.sha256, path

@@ -87,4 +87,6 @@ def test_wheel_carries_the_data(tmp_path):
         assert f"render/bundled/materials/{csv.name}" in names
     assert "render/bundled/scenes/demo/linden_row.toml" in names
     assert any(n.startswith("render/data/photometry/") and n.endswith(".ies") for n in names)
+    for template in (ROOT / "render" / "output" / "report" / "templates").iterdir():
+        assert f"render/output/report/templates/{template.name}" in names  # the report's template files
     assert not any(n.startswith("tests/") for n in names)

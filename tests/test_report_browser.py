@@ -27,10 +27,9 @@ from pathlib import Path
 import imageio.v3 as iio
 import numpy as np
 import pytest
-from test_report import make_inputs
+from test_report import make_inputs, write_report_of
 
 from render.fileio import atomic_write_bytes
-from render.output.report import write_report
 
 CHROMIUM = Path("/usr/bin/chromium")
 CHROMIUM_ARGS = [
@@ -81,7 +80,7 @@ def served_report(tmp_path):
     """(url, metrics, source folder, server log) of a report served from 127.0.0.1."""
     source = tmp_path / "out"
     metrics = make_inputs(source, width=WIDTH, height=HEIGHT, green_lamp_dir=tmp_path)
-    report = write_report(source, metrics)
+    report = write_report_of(source, metrics)
     site = tmp_path / "site"
     site.mkdir()
     shutil.copyfile(report, site / "report.html")

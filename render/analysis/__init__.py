@@ -1,11 +1,13 @@
 """Analyses of rendered views: telling colours apart at night.
 
 * :mod:`render.analysis.colours` -- object colours as seen (after the vision stage) and under
-  daylight, CIEDE2000 matrices, confusable pairs, luminance contrast, and the JSON-safe
-  :func:`colour_analysis` that assembles them.
+  daylight, CIEDE2000 matrices, confusable pairs, luminance contrast, and
+  :func:`colour_analysis` that assembles them into a :class:`ColourAnalysis` record
+  (``to_json()``: the content of ``colours.json``).
 * :mod:`render.analysis.naming` -- basic colour terms (Berlin & Kay) from the nearest
   Centore (2020) prototype in CAM16-UCS; the "name it" table.
-* :mod:`render.analysis.run` -- one view under several setups to JSON (pictures in
+* :mod:`render.analysis.run` -- one rendered view under several setups to a
+  :class:`ColourAnalysis`, its JSON file and its pictures (drawn by
   :mod:`render.output.colour_pictures`): outlined view, swatch sheet, ΔE00 heat map, spectrum
   strips (PNG, written atomically).
 """
@@ -14,6 +16,7 @@ from render.analysis.colours import (
     DISTINCT_IN_DAYLIGHT_DE00,
     HARD_DE00,
     IMPERCEPTIBLE_DE00,
+    ColourAnalysis,
     PerceivedView,
     SetupView,
     TaggedObject,
@@ -37,6 +40,7 @@ __all__ = [
     "DISTINCT_IN_DAYLIGHT_DE00",
     "HARD_DE00",
     "IMPERCEPTIBLE_DE00",
+    "ColourAnalysis",
     "PerceivedView",
     "SetupView",
     "TaggedObject",

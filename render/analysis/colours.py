@@ -61,10 +61,12 @@ luminance (the perceived Y in cd/m², CIE 191:2010), with the background chosen 
 named background object (kerb against road) or a ring of pixels around the object
 (:func:`ring_background`).
 
-JSON structure
---------------
-:func:`colour_analysis` returns a JSON-safe dict (floats rounded, ``None`` for anything not
-defined, keys in a fixed order)::
+The result and its JSON structure
+---------------------------------
+:func:`colour_analysis` returns a :class:`ColourAnalysis` (frozen records: :class:`SetupColours`,
+:class:`SeenColour`, :class:`DaylightColour`, :class:`Confusion`, :class:`NameChange`) holding
+the figures as published; :meth:`ColourAnalysis.to_json` gives the JSON-safe dict written to
+``colours.json`` (floats rounded, ``None`` for anything not defined, keys in a fixed order)::
 
     {
       "method": {...},                           # colour space, thresholds and their sources
@@ -90,18 +92,87 @@ defined, keys in a fixed order)::
                             "text": "car: green → brown"}, ...]},
         ...}
     }
+
+References
+----------
+* CIE 15:2004, Colorimetry (CIELAB, CIE 1931 2° observer, illuminant D65).
+* CIE 142-2001 / ISO/CIE 11664-6:2014, the CIEDE2000 colour-difference formula.
+* CIE 191:2010, recommended system for mesopic photometry (MES2).
+* CIE 159:2004, CIECAM02 (typical background Y_b = 20).
+* Li, Li, Wang, Zu, Luo, Cui, Melgosa, Brill & Pointer (2017), comprehensive colour solutions:
+  CAM16, CAT16 and CAM16-UCS, Color Research & Application 42.
+* Cao, Pokorny, Smith & Zele (2008), rod contributions to colour perception, Vision Research 48.
 """
 
 from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, fields, replace
 from functools import lru_cache
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from render.colour import observers
 from render.colour.spectra import N_BINS
+
+if TYPE_CHECKING:
+    from render.vision.adaptation import AdaptationState
+    from render.vision.observer import ObserverSettings
+    from render.vision.pipeline import ViewLight
+    from render.vision.view import ViewGeometry
+
+__all__ = [
+    "CAVEAT",
+    "DISTINCT_IN_DAYLIGHT_DE00",
+    "GREY_WORLD_FRACTION",
+    "HARD_DE00",
+    "IMPERCEPTIBLE_DE00",
+    "MIN_PIXELS",
+    "NAMING_ADAPTATIONS",
+    "RING_WIDTH_PX",
+    "ROUND_CONTRAST",
+    "ROUND_DE",
+    "ROUND_LAB",
+    "SIGNIFICANT_LUMINANCE",
+    "AnalysedObject",
+    "ColourAnalysis",
+    "ColourThresholds",
+    "Confusion",
+    "DaylightColour",
+    "DaylightColours",
+    "Matrix",
+    "NameChange",
+    "PerceivedView",
+    "SeenColour",
+    "SetupColours",
+    "SetupView",
+    "TaggedObject",
+    "Triple",
+    "adapted_white_xyz",
+    "adapted_xyz",
+    "colour_analysis",
+    "confusions",
+    "daylight_white_xyz",
+    "delta_e_matrix",
+    "discount_light_colour",
+    "lab_to_lch",
+    "luminance_contrast",
+    "method_notes",
+    "mixture_reflectance",
+    "object_colour_stats",
+    "object_mean",
+    "perceived_view",
+    "reference_colour",
+    "reference_colour_mixture",
+    "reference_xyz",
+    "relative_colour_image",
+    "ring_background",
+    "viewing_white_xyz",
+    "white_mesopic_cd_m2",
+    "xyz_to_lab",
+]
 
 #: ΔE00 below which two colours are taken as indistinguishable (≈ 1 JND; common practice).
 IMPERCEPTIBLE_DE00 = 1.0
@@ -109,6 +180,11 @@ IMPERCEPTIBLE_DE00 = 1.0
 HARD_DE00 = 3.0
 #: ΔE00 from which two colours count as clearly distinct in daylight (our choice; see module).
 DISTINCT_IN_DAYLIGHT_DE00 = 10.0
+#: What the thresholds leave out (stated with every analysis).
+CAVEAT = (
+    "CIEDE2000 has no light-level term: thresholds rise at low luminance, so night "
+    "differences read as more visible than they are"
+)
 #: Default minimum number of visible pixels for an object to be given a colour.
 MIN_PIXELS = 20
 #: Default width of the background ring around an object, pixels.
@@ -149,7 +225,7 @@ def viewing_white_xyz() -> np.ndarray:
     return 100.0 * display_white_xyz()
 
 
-def xyz_to_lab(xyz, white_xyz) -> np.ndarray:
+def xyz_to_lab(xyz: ArrayLike, white_xyz: ArrayLike) -> np.ndarray:
     """CIELAB (CIE 15:2004) of XYZ (..., 3) on the scale of ``white_xyz`` (3,) (e.g. Y = 100)."""
     import colour
 
@@ -158,7 +234,7 @@ def xyz_to_lab(xyz, white_xyz) -> np.ndarray:
     return np.asarray(colour.XYZ_to_Lab(xyz, colour.XYZ_to_xy(w / w[1])), dtype=np.float64)
 
 
-def lab_to_lch(lab) -> np.ndarray:
+def lab_to_lch(lab: ArrayLike) -> np.ndarray:
     """CIE LCh_ab (lightness, chroma, hue angle in degrees 0-360) of CIELAB (..., 3)."""
     lab = np.asarray(lab, dtype=np.float64)
     c = np.hypot(lab[..., 1], lab[..., 2])
@@ -169,7 +245,7 @@ def lab_to_lch(lab) -> np.ndarray:
 # ----------------------------------------------------------------------- daylight reference
 
 
-def reference_xyz(reflectance) -> np.ndarray:
+def reference_xyz(reflectance: ArrayLike) -> np.ndarray:
     """XYZ (..., 3) of reflectance(s) (..., N_BINS) under D65, perfect diffuser Y = 100."""
     from render.colour.materials import d65_on_grid
 
@@ -180,7 +256,7 @@ def reference_xyz(reflectance) -> np.ndarray:
     return 100.0 * observers.tristimulus(rho * s) / observers.tristimulus(s)[1]
 
 
-def reference_colour(reflectance) -> np.ndarray:
+def reference_colour(reflectance: ArrayLike) -> np.ndarray:
     """Daylight reference colour: CIELAB of reflectance(s) under CIE D65.
 
     CIE 1931 2° observer (:func:`render.colour.observers.cmfs_xyz`), D65 from colour-science on the
@@ -200,7 +276,7 @@ def reference_colour(reflectance) -> np.ndarray:
     return xyz_to_lab(reference_xyz(reflectance), daylight_white_xyz())
 
 
-def mixture_reflectance(reflectances, pixel_counts) -> np.ndarray:
+def mixture_reflectance(reflectances: ArrayLike, pixel_counts: ArrayLike) -> np.ndarray:
     """Pixel-count weighted mean reflectance of an object seen with several materials.
 
     An object whose visible pixels show ``k`` materials (a car: paint, glass, tyres) reflects,
@@ -224,7 +300,7 @@ def mixture_reflectance(reflectances, pixel_counts) -> np.ndarray:
     return (w[:, None] * r).sum(axis=0) / w.sum()
 
 
-def reference_colour_mixture(reflectances, pixel_counts) -> np.ndarray:
+def reference_colour_mixture(reflectances: ArrayLike, pixel_counts: ArrayLike) -> np.ndarray:
     """:func:`reference_colour` of :func:`mixture_reflectance` (CIELAB, (3,))."""
     return reference_colour(mixture_reflectance(reflectances, pixel_counts))
 
@@ -232,7 +308,7 @@ def reference_colour_mixture(reflectances, pixel_counts) -> np.ndarray:
 # ---------------------------------------------------------------- the vision stage's colours
 
 
-def adapted_xyz(xyz_perceived_cd_m2, state, observer) -> np.ndarray:
+def adapted_xyz(xyz_perceived_cd_m2: ArrayLike, state: AdaptationState, observer: ObserverSettings) -> np.ndarray:
     """The vision stage's chromatic adaptation (first part of ``to_display``), XYZ in cd/m².
 
     The same step as the display (:func:`render.vision.pipeline.adapt_to_display_white`).
@@ -243,7 +319,7 @@ def adapted_xyz(xyz_perceived_cd_m2, state, observer) -> np.ndarray:
 
 
 def white_mesopic_cd_m2(
-    state, white_photopic_cd_m2: float | None = None, white_scotopic_cd_m2: float | None = None
+    state: AdaptationState, white_photopic_cd_m2: float | None = None, white_scotopic_cd_m2: float | None = None
 ) -> float:
     """Perceived (MES2 mesopic) luminance of the reference white, cd/m²: ``Y_white`` before
     scaling to 100.
@@ -269,7 +345,12 @@ def white_mesopic_cd_m2(
     return out
 
 
-def relative_colour_image(xyz_perceived_cd_m2, state, observer, white_cd_m2: float | None = None) -> np.ndarray:
+def relative_colour_image(
+    xyz_perceived_cd_m2: ArrayLike,
+    state: AdaptationState,
+    observer: ObserverSettings,
+    white_cd_m2: float | None = None,
+) -> np.ndarray:
     """Perceived colours in the adapted viewing condition, relative to the white (Y = 100).
 
     The reference white is a perfect white diffuser under the setup's light: its perceived
@@ -285,12 +366,12 @@ def relative_colour_image(xyz_perceived_cd_m2, state, observer, white_cd_m2: flo
     return adapted_xyz(xyz_perceived_cd_m2, state, observer) * (100.0 / (white * white_adapted[1]))
 
 
-def adapted_white_xyz(state, observer) -> np.ndarray:
+def adapted_white_xyz(state: AdaptationState, observer: ObserverSettings) -> np.ndarray:
     """The reference white after :func:`adapted_xyz`, for a perceived luminance of 1 (3,)."""
     return adapted_xyz(np.asarray(state.white_xyz, dtype=np.float64), state, observer)
 
 
-def discount_light_colour(xyz_relative, state, observer) -> np.ndarray:
+def discount_light_colour(xyz_relative: ArrayLike, state: AdaptationState, observer: ObserverSettings) -> np.ndarray:
     """Colours re-adapted completely to the setup's white: CAT16 with D = 1 from the adapted
     white (:func:`adapted_white_xyz`) to the viewing white, white kept at Y = 100.
 
@@ -325,11 +406,16 @@ class PerceivedView:
 
     xyz_cd_m2: np.ndarray
     mesopic_cd_m2: np.ndarray
-    state: object
-    observer: object
+    state: AdaptationState
+    observer: ObserverSettings
 
 
-def perceived_view(buffers, geometry, observer=None, state=None) -> PerceivedView:
+def perceived_view(
+    buffers: ViewLight,
+    geometry: ViewGeometry,
+    observer: ObserverSettings | None = None,
+    state: AdaptationState | None = None,
+) -> PerceivedView:
     """Run the vision stage up to the perceived colour for one view.
 
     Calls :func:`render.vision.pipeline.retinal_image`, ``measure_adaptation`` (unless
@@ -372,14 +458,14 @@ def _object_masks(object_id: np.ndarray, object_ids: Sequence[int], erode_px: in
 
 
 def object_colour_stats(
-    perceived_xyz,
-    object_id,
+    perceived_xyz: ArrayLike,
+    object_id: ArrayLike,
     object_ids: Sequence[int],
     min_pixels: int = MIN_PIXELS,
     *,
     erode_px: int = 0,
-    white_xyz=None,
-) -> dict[int, dict]:
+    white_xyz: ArrayLike | None = None,
+) -> dict[int, dict[str, Any]]:
     """Mean colour of each tagged object over its visible pixels.
 
     Parameters
@@ -421,7 +507,7 @@ def object_colour_stats(
 
 
 def object_mean(
-    values, object_id, object_ids: Sequence[int], min_pixels: int = 1, *, erode_px: int = 0
+    values: ArrayLike, object_id: ArrayLike, object_ids: Sequence[int], min_pixels: int = 1, *, erode_px: int = 0
 ) -> dict[int, float | None]:
     """Mean of a scalar image (e.g. luminance, cd/m²) over each object's pixels (None if fewer
     than ``min_pixels``)."""
@@ -432,7 +518,9 @@ def object_mean(
     return out
 
 
-def ring_background(mask, luminance, width_px: float = RING_WIDTH_PX, exclude=None) -> tuple[float | None, int]:
+def ring_background(
+    mask: ArrayLike, luminance: ArrayLike, width_px: float = RING_WIDTH_PX, exclude: ArrayLike | None = None
+) -> tuple[float | None, int]:
     """Mean luminance of the ring of pixels around an object: its local background.
 
     The ring is every pixel outside ``mask`` within ``width_px`` (Euclidean distance between
@@ -455,7 +543,7 @@ def ring_background(mask, luminance, width_px: float = RING_WIDTH_PX, exclude=No
     return (float(lum[ring].mean()) if n else None), n
 
 
-def luminance_contrast(object_luminance, background_luminance):
+def luminance_contrast(object_luminance: ArrayLike, background_luminance: ArrayLike) -> float | np.ndarray:
     """Weber contrast ``(L_obj − L_bg) / L_bg`` (dimensionless; NaN where L_bg ≤ 0).
 
     Positive: the object is brighter than its background; −1: a black object. Broadcasts.
@@ -469,7 +557,7 @@ def luminance_contrast(object_luminance, background_luminance):
 # ------------------------------------------------------------------------ colour differences
 
 
-def delta_e_matrix(labs) -> np.ndarray:
+def delta_e_matrix(labs: ArrayLike) -> np.ndarray:
     """Pairwise CIEDE2000 (CIE 142-2001; colour-science ``delta_E(method="CIE 2000")``).
 
     ``labs`` (n, 3) CIELAB; rows of NaN (objects not visible) give NaN rows and columns.
@@ -487,13 +575,13 @@ def delta_e_matrix(labs) -> np.ndarray:
 
 
 def confusions(
-    daylight_de,
-    night_de,
+    daylight_de: ArrayLike,
+    night_de: ArrayLike,
     names: Sequence[str],
     hard: float = HARD_DE00,
     imperceptible: float = IMPERCEPTIBLE_DE00,
     distinct_in_daylight: float = DISTINCT_IN_DAYLIGHT_DE00,
-) -> list[dict]:
+) -> list[Confusion]:
     """Pairs that are distinct in daylight and hard to tell apart under a setup.
 
     A pair (i, j) is listed when ``daylight_de[i, j] ≥ distinct_in_daylight`` and
@@ -513,16 +601,9 @@ def confusions(
             if not (np.isfinite(d) and np.isfinite(e)):
                 continue
             if d >= distinct_in_daylight and e < hard:
-                out.append(
-                    {
-                        "a": names[i],
-                        "b": names[j],
-                        "daylight_delta_e00": float(d),
-                        "delta_e00": float(e),
-                        "level": "imperceptible" if e < imperceptible else "hard",
-                    }
-                )
-    out.sort(key=lambda p: (p["delta_e00"], p["a"], p["b"]))
+                level = "imperceptible" if e < imperceptible else "hard"
+                out.append(Confusion(names[i], names[j], float(d), float(e), level))
+    out.sort(key=lambda p: (p.delta_e00, p.a, p.b))
     return out
 
 
@@ -581,39 +662,280 @@ class SetupView:
 
     perceived_xyz_cd_m2: np.ndarray
     object_id: np.ndarray
-    state: object
-    observer: object
+    state: AdaptationState
+    observer: ObserverSettings
     white_photopic_cd_m2: float | None = None
     white_scotopic_cd_m2: float | None = None
     luminance_cd_m2: np.ndarray | None = None
     exclude: np.ndarray | None = None
 
     @classmethod
-    def from_view(cls, view: PerceivedView, object_id, **kwargs) -> SetupView:
+    def from_view(cls, view: PerceivedView, object_id: np.ndarray, **kwargs: Any) -> SetupView:
         """Build from :func:`perceived_view`'s result."""
         return cls(view.xyz_cd_m2, object_id, view.state, view.observer, **kwargs)
 
 
-def _num(x, digits: int):
+# ------------------------------------------------------------------------------ the result
+
+#: A CIELAB, LCh or XYZ triple as published (rounded; ``None`` for an undefined component).
+Triple = tuple[float | None, float | None, float | None]
+#: A square ΔE00 matrix as published, in the order of :attr:`ColourAnalysis.objects`.
+Matrix = tuple[tuple[float | None, ...], ...]
+
+
+@dataclass(frozen=True)
+class ColourThresholds:
+    """The ΔE00 thresholds of :func:`confusions` (values and sources: the module text)."""
+
+    imperceptible_delta_e00: float = IMPERCEPTIBLE_DE00
+    hard_delta_e00: float = HARD_DE00
+    distinct_in_daylight_delta_e00: float = DISTINCT_IN_DAYLIGHT_DE00
+
+
+@dataclass(frozen=True)
+class AnalysedObject:
+    """One tagged object of the analysis: its id in the object-id image and its label."""
+
+    id: int
+    name: str
+
+    def to_json(self) -> dict[str, Any]:
+        return {"id": self.id, "name": self.name}
+
+
+@dataclass(frozen=True)
+class DaylightColour:
+    """An object's daylight reference colour (:func:`reference_colour`) and its name."""
+
+    lab: Triple
+    lch: Triple
+    name: str | None
+    name_margin: float | None
+    name_runner_up: str | None
+
+    def to_json(self) -> dict[str, Any]:
+        return _record_json(self)
+
+
+@dataclass(frozen=True)
+class SeenColour:
+    """An object as seen under one setup: colour, name, difference to daylight, contrast.
+
+    ``lab``, ``lch``, ``xyz_relative``, the name fields and ``delta_e00_to_daylight`` are
+    ``None`` when the object has fewer visible pixels than the analysis asks for
+    (``visible`` false). ``background`` says what the contrast is taken against.
+    """
+
+    visible: bool
+    pixels: int
+    lab: Triple | None
+    lch: Triple | None
+    xyz_relative: Triple | None
+    name: str | None
+    name_margin: float | None
+    name_runner_up: str | None
+    daylight_name: str | None
+    name_changed: bool
+    delta_e00_to_daylight: float | None
+    luminance_cd_m2: float | None
+    background: str
+    background_luminance_cd_m2: float | None
+    weber_contrast: float | None
+
+    def to_json(self) -> dict[str, Any]:
+        return _record_json(self)
+
+
+@dataclass(frozen=True)
+class Confusion:
+    """A pair distinct in daylight that is hard to tell apart under a setup (:func:`confusions`).
+
+    ``level`` is ``"imperceptible"`` or ``"hard"``.
+    """
+
+    a: str
+    b: str
+    daylight_delta_e00: float | None
+    delta_e00: float | None
+    level: str
+
+    def to_json(self) -> dict[str, Any]:
+        return _record_json(self)
+
+
+@dataclass(frozen=True)
+class NameChange:
+    """An object whose predicted colour name under a setup differs from its daylight name."""
+
+    object: str
+    daylight: str | None
+    seen: str | None
+
+    @property
+    def text(self) -> str:
+        """E.g. ``"car: green → brown"``."""
+        return f"{self.object}: {self.daylight} → {self.seen}"
+
+    def to_json(self) -> dict[str, Any]:
+        return {**_record_json(self), "text": self.text}
+
+
+@dataclass(frozen=True)
+class DaylightColours:
+    """The daylight reference of every object and their pairwise ΔE00."""
+
+    conditions: str
+    objects: Mapping[str, DaylightColour]
+    delta_e00: Matrix
+
+    def to_json(self) -> dict[str, Any]:
+        return {
+            "conditions": self.conditions,
+            "objects": {name: c.to_json() for name, c in self.objects.items()},
+            "delta_e00": _matrix_json(self.delta_e00),
+        }
+
+
+@dataclass(frozen=True)
+class SetupColours:
+    """Everything the analysis finds for one setup.
+
+    Attributes
+    ----------
+    state
+        The adaptation state the colours were seen with
+        (:class:`~render.vision.adaptation.AdaptationState`; anything without ``as_dict``
+        is published as an empty mapping).
+    white_mesopic_cd_m2
+        Perceived luminance of the reference white (:func:`white_mesopic_cd_m2`).
+    objects
+        Object name -> :class:`SeenColour`, in the order of :attr:`ColourAnalysis.objects`.
+    delta_e00
+        Pairwise ΔE00 of the colours as seen (``None`` where an object is not visible).
+    confusions, name_changes
+        The confusable pairs (smallest ΔE00 first) and the names that change.
+    """
+
+    state: AdaptationState = field(repr=False)
+    white_mesopic_cd_m2: float | None
+    objects: Mapping[str, SeenColour]
+    delta_e00: Matrix
+    confusions: tuple[Confusion, ...]
+    name_changes: tuple[NameChange, ...]
+
+    def to_json(self) -> dict[str, Any]:
+        adaptation = _json_safe(self.state.as_dict()) if hasattr(self.state, "as_dict") else {}
+        adaptation["white_mesopic_cd_m2"] = self.white_mesopic_cd_m2
+        return {
+            "adaptation": adaptation,
+            "objects": {name: c.to_json() for name, c in self.objects.items()},
+            "delta_e00": _matrix_json(self.delta_e00),
+            "confusions": [c.to_json() for c in self.confusions],
+            "name_changes": [c.to_json() for c in self.name_changes],
+        }
+
+
+@dataclass(frozen=True)
+class ColourAnalysis:
+    """The colour analysis of one view under several setups (:func:`colour_analysis`).
+
+    Figures are held as they are published (rounded: :data:`ROUND_LAB`, :data:`ROUND_DE`,
+    :data:`ROUND_CONTRAST` decimals, :data:`SIGNIFICANT_LUMINANCE` significant figures for
+    luminances); :meth:`to_json` gives the JSON structure of the module text.
+
+    Attributes
+    ----------
+    thresholds
+        The ΔE00 thresholds the confusions were found with.
+    naming_adaptation
+        One of :data:`NAMING_ADAPTATIONS`.
+    objects
+        The tagged objects, in the order of every matrix.
+    daylight
+        Their daylight reference colours.
+    setups
+        Setup label -> :class:`SetupColours`, in the order given.
+    """
+
+    thresholds: ColourThresholds
+    naming_adaptation: str
+    objects: tuple[AnalysedObject, ...]
+    daylight: DaylightColours
+    setups: Mapping[str, SetupColours]
+
+    @property
+    def object_names(self) -> list[str]:
+        return [o.name for o in self.objects]
+
+    def method_notes(self) -> dict[str, Any]:
+        """The method statements of this analysis (JSON-safe; :func:`method_notes`)."""
+        t = self.thresholds
+        notes = method_notes(t.hard_delta_e00, t.imperceptible_delta_e00, t.distinct_in_daylight_delta_e00)
+        return {**notes, "naming_adaptation": self.naming_adaptation}
+
+    def name_rows(self) -> list[dict[str, Any]]:
+        """The rows of :func:`render.analysis.naming.format_name_table`: per object its daylight
+        name, the name seen under each setup (``None``: not visible) and the setups under which
+        the name changes."""
+        rows = []
+        for name in self.object_names:
+            seen = {label: s.objects[name] for label, s in self.setups.items()}
+            rows.append(
+                {
+                    "object": name,
+                    "daylight": self.daylight.objects[name].name,
+                    "setups": {label: c.name if c.visible else None for label, c in seen.items()},
+                    "changed": [label for label, c in seen.items() if c.visible and c.name_changed],
+                }
+            )
+        return rows
+
+    def to_json(self) -> dict[str, Any]:
+        """The JSON structure of the module text (JSON-safe: no NaN, keys in a fixed order)."""
+        return {
+            "method": self.method_notes(),
+            "objects": [o.to_json() for o in self.objects],
+            "daylight": self.daylight.to_json(),
+            "setups": {label: s.to_json() for label, s in self.setups.items()},
+        }
+
+
+def _record_json(record) -> dict[str, Any]:
+    """A flat record's fields in declaration order, tuples as lists."""
+    return {f.name: _json_value(getattr(record, f.name)) for f in fields(record)}
+
+
+def _json_value(value):
+    return [_json_value(v) for v in value] if isinstance(value, tuple) else value
+
+
+def _matrix_json(m: Matrix) -> list[list[float | None]]:
+    return [list(row) for row in m]
+
+
+# ------------------------------------------------------------------------------ the analysis
+
+
+def _num(x, digits: int) -> float | None:
     if x is None:
         return None
     x = float(x)
     return round(x, digits) if np.isfinite(x) else None
 
 
-def _sig(x, digits: int = SIGNIFICANT_LUMINANCE):
+def _sig(x, digits: int = SIGNIFICANT_LUMINANCE) -> float | None:
     if x is None or not np.isfinite(x):
         return None
     x = float(x)
     return float(f"{x:.{digits}g}")
 
 
-def _vec(v, digits: int):
-    return None if v is None else [_num(x, digits) for x in np.asarray(v, dtype=np.float64)]
+def _vec(v, digits: int) -> Triple | None:
+    return None if v is None else tuple(_num(x, digits) for x in np.asarray(v, dtype=np.float64))
 
 
-def _matrix(m, digits: int):
-    return [[_num(x, digits) for x in row] for row in np.asarray(m, dtype=np.float64)]
+def _matrix(m, digits: int) -> Matrix:
+    return tuple(tuple(_num(x, digits) for x in row) for row in np.asarray(m, dtype=np.float64))
 
 
 def _json_safe(value):
@@ -634,7 +956,7 @@ def method_notes(
     hard: float = HARD_DE00,
     imperceptible: float = IMPERCEPTIBLE_DE00,
     distinct_in_daylight: float = DISTINCT_IN_DAYLIGHT_DE00,
-) -> dict:
+) -> dict[str, Any]:
     """The method statements that go with every analysis (JSON-safe)."""
     from render.analysis.naming import naming_model_notes
 
@@ -656,8 +978,7 @@ def method_notes(
         },
         "contrast": "Weber contrast (L_obj - L_bg)/L_bg of the mesopic luminance; background a ring "
         "around the object or a named background object",
-        "caveat": "CIEDE2000 has no light-level term: thresholds rise at low luminance, so night "
-        "differences read as more visible than they are",
+        "caveat": CAVEAT,
         "naming": naming_model_notes(),
     }
 
@@ -672,8 +993,8 @@ def colour_analysis(
     imperceptible: float = IMPERCEPTIBLE_DE00,
     distinct_in_daylight: float = DISTINCT_IN_DAYLIGHT_DE00,
     naming_adaptation: str = "as-seen",
-) -> dict:
-    """The whole colour analysis as a JSON-safe dict (structure in the module text).
+) -> ColourAnalysis:
+    """The whole colour analysis (its JSON structure: the module text).
 
     Parameters
     ----------
@@ -706,19 +1027,20 @@ def colour_analysis(
     day_lab = np.stack([reference_colour(o.reflectance) for o in objects]) if objects else np.zeros((0, 3))
     day_de = delta_e_matrix(day_lab)
     day_names = [colour_name_details(lab) for lab in day_lab]
-    daylight = {
-        "conditions": "CIE D65, CIE 1931 2 degree observer, perfect diffuser Y = 100",
-        "objects": {},
-        "delta_e00": _matrix(day_de, ROUND_DE),
-    }
-    for o, lab, nm in zip(objects, day_lab, day_names):
-        daylight["objects"][o.name] = {
-            "lab": _vec(lab, ROUND_LAB),
-            "lch": _vec(lab_to_lch(lab), ROUND_LAB),
-            "name": nm["term"],
-            "name_margin": _num(nm["margin"], ROUND_DE),
-            "name_runner_up": nm["runner_up"],
-        }
+    daylight = DaylightColours(
+        conditions="CIE D65, CIE 1931 2 degree observer, perfect diffuser Y = 100",
+        objects={
+            o.name: DaylightColour(
+                lab=_vec(lab, ROUND_LAB),
+                lch=_vec(lab_to_lch(lab), ROUND_LAB),
+                name=nm["term"],
+                name_margin=_num(nm["margin"], ROUND_DE),
+                name_runner_up=nm["runner_up"],
+            )
+            for o, lab, nm in zip(objects, day_lab, day_names)
+        },
+        delta_e00=_matrix(day_de, ROUND_DE),
+    )
 
     out_setups = {}
     for label, sv in setups.items():
@@ -760,53 +1082,46 @@ def colour_analysis(
                 luminance_contrast(lum_obj[o.id], bg_l) if lum_obj[o.id] is not None and bg_l is not None else None
             )
             changed = bool(nm is not None and nm["term"] != day_names[i]["term"])
-            per_obj[o.name] = {
-                "visible": bool(st["visible"]),
-                "pixels": int(st["pixels"]),
-                "lab": _vec(st["lab"], ROUND_LAB),
-                "lch": _vec(None if st["lab"] is None else lab_to_lch(st["lab"]), ROUND_LAB),
-                "xyz_relative": _vec(st["xyz"], ROUND_LAB),
-                "name": None if nm is None else nm["term"],
-                "name_margin": None if nm is None else _num(nm["margin"], ROUND_DE),
-                "name_runner_up": None if nm is None else nm["runner_up"],
-                "daylight_name": day_names[i]["term"],
-                "name_changed": changed,
-                "delta_e00_to_daylight": (
+            per_obj[o.name] = SeenColour(
+                visible=bool(st["visible"]),
+                pixels=int(st["pixels"]),
+                lab=_vec(st["lab"], ROUND_LAB),
+                lch=_vec(None if st["lab"] is None else lab_to_lch(st["lab"]), ROUND_LAB),
+                xyz_relative=_vec(st["xyz"], ROUND_LAB),
+                name=None if nm is None else nm["term"],
+                name_margin=None if nm is None else _num(nm["margin"], ROUND_DE),
+                name_runner_up=None if nm is None else nm["runner_up"],
+                daylight_name=day_names[i]["term"],
+                name_changed=changed,
+                delta_e00_to_daylight=(
                     None
                     if st["lab"] is None
                     else _num(delta_e_matrix(np.stack([st["lab"], day_lab[i]]))[0, 1], ROUND_DE)
                 ),
-                "luminance_cd_m2": _sig(lum_obj[o.id]),
-                "background": bg_label,
-                "background_luminance_cd_m2": _sig(bg_l),
-                "weber_contrast": _num(contrast, ROUND_CONTRAST),
-            }
+                luminance_cd_m2=_sig(lum_obj[o.id]),
+                background=bg_label,
+                background_luminance_cd_m2=_sig(bg_l),
+                weber_contrast=_num(contrast, ROUND_CONTRAST),
+            )
             if changed:
-                changes.append(
-                    {
-                        "object": o.name,
-                        "daylight": day_names[i]["term"],
-                        "seen": nm["term"],
-                        "text": f"{o.name}: {day_names[i]['term']} → {nm['term']}",
-                    }
-                )
-        conf = confusions(day_de, de, names, hard, imperceptible, distinct_in_daylight)
-        for c in conf:
-            c["daylight_delta_e00"] = _num(c["daylight_delta_e00"], ROUND_DE)
-            c["delta_e00"] = _num(c["delta_e00"], ROUND_DE)
-        adaptation = _json_safe(sv.state.as_dict()) if hasattr(sv.state, "as_dict") else {}
-        adaptation["white_mesopic_cd_m2"] = _sig(white)
-        out_setups[label] = {
-            "adaptation": adaptation,
-            "objects": per_obj,
-            "delta_e00": _matrix(de, ROUND_DE),
-            "confusions": conf,
-            "name_changes": changes,
-        }
+                changes.append(NameChange(o.name, day_names[i]["term"], nm["term"]))
+        conf = tuple(
+            replace(c, daylight_delta_e00=_num(c.daylight_delta_e00, ROUND_DE), delta_e00=_num(c.delta_e00, ROUND_DE))
+            for c in confusions(day_de, de, names, hard, imperceptible, distinct_in_daylight)
+        )
+        out_setups[label] = SetupColours(
+            state=sv.state,
+            white_mesopic_cd_m2=_sig(white),
+            objects=per_obj,
+            delta_e00=_matrix(de, ROUND_DE),
+            confusions=conf,
+            name_changes=tuple(changes),
+        )
 
-    return {
-        "method": {**method_notes(hard, imperceptible, distinct_in_daylight), "naming_adaptation": naming_adaptation},
-        "objects": [{"id": o.id, "name": o.name} for o in objects],
-        "daylight": daylight,
-        "setups": out_setups,
-    }
+    return ColourAnalysis(
+        thresholds=ColourThresholds(imperceptible, hard, distinct_in_daylight),
+        naming_adaptation=naming_adaptation,
+        objects=tuple(AnalysedObject(o.id, o.name) for o in objects),
+        daylight=daylight,
+        setups=out_setups,
+    )

@@ -1,22 +1,47 @@
-"""The colour analysis of one view under several setups, from rendered views to JSON and pictures.
+"""Running the colour analysis: one rendered view under several setups, to a record and pictures.
 
-Used by ``lampcast colours`` and by the comparison report. The inputs come from the renderer's
-light buffers (object ids and materials per camera sample) and from the vision stage's display
-results (the adaptation state each image was made with).
+Used by ``lampcast colours`` and by the comparison (:mod:`render.output.comparison`). The
+inputs come from the renderer's light buffers (object ids and materials per camera sample) and
+from the vision stage's display results (the adaptation state each image was made with); the
+result is a :class:`~render.analysis.colours.ColourAnalysis`, written as JSON by
+:func:`write_colour_json` and drawn by :func:`colour_pictures` (the drawing itself is
+:mod:`render.output.colour_pictures`).
+
+References
+----------
+The methods are those of :mod:`render.analysis.colours` (CIELAB, CIEDE2000, CIE 191:2010 MES2)
+and :mod:`render.analysis.naming`; this module only gathers their inputs.
 """
 
 from __future__ import annotations
 
 import json
+from collections.abc import Mapping, Sequence
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
 
-from render.analysis.colours import SetupView, TaggedObject, colour_analysis, mixture_reflectance, perceived_view
+from render.analysis.colours import (
+    ColourAnalysis,
+    SetupView,
+    TaggedObject,
+    colour_analysis,
+    mixture_reflectance,
+    perceived_view,
+)
 from render.fileio import atomic_write_text
 
+if TYPE_CHECKING:
+    from render.light.integrator import LightBuffers
+    from render.study import RenderedView, Study
+    from render.vision.observer import ObserverSettings
+    from render.vision.pipeline import DisplayResult
 
-def pixel_object_ids(buffers) -> np.ndarray:
+__all__ = ["analyse_view_colours", "colour_pictures", "pixel_object_ids", "tagged_objects", "write_colour_json"]
+
+
+def pixel_object_ids(buffers: LightBuffers) -> np.ndarray:
     """(H, W) object index per pixel where every camera sample of the pixel sees the same
     object and no luminous opening, else -1 (edges and mixed pixels are left out)."""
     ids = buffers.object_id.reshape(-1, buffers.spp)
@@ -26,7 +51,7 @@ def pixel_object_ids(buffers) -> np.ndarray:
     return out.reshape(buffers.height_px, buffers.width_px).astype(np.int32)
 
 
-def tagged_objects(study, buffers) -> list[TaggedObject]:
+def tagged_objects(study: Study, buffers: LightBuffers) -> list[TaggedObject]:
     """The scene's objects flagged ``inspect``, each with the pixel-count weighted mixture of the
     reflectances seen on it (a car: body paint, glass, tyres as they appear in the view)."""
     objects = []
@@ -51,12 +76,18 @@ def tagged_objects(study, buffers) -> list[TaggedObject]:
     return objects
 
 
-def analyse_view_colours(study, rendered: list, displays: list, observer, labels: list[str] | None = None) -> dict:
-    """The JSON-safe colour analysis (:func:`render.analysis.colours.colour_analysis`) of one view
+def analyse_view_colours(
+    study: Study,
+    rendered: Sequence[RenderedView],
+    displays: Sequence[DisplayResult],
+    observer: ObserverSettings,
+    labels: Sequence[str] | None = None,
+) -> ColourAnalysis:
+    """The colour analysis (:func:`render.analysis.colours.colour_analysis`) of one view
     rendered under several setups, using the adaptation state of each displayed image."""
     from render.vision.view import ViewGeometry
 
-    labels = labels or [r.setup or "scene" for r in rendered]
+    labels = list(labels or [r.setup or "scene" for r in rendered])
     object_id = pixel_object_ids(rendered[0].buffers)
     objects = tagged_objects(study, rendered[0].buffers)
     setups = {}
@@ -71,42 +102,42 @@ def analyse_view_colours(study, rendered: list, displays: list, observer, labels
 
 
 def colour_pictures(
-    result: dict,
-    rendered: list,
-    displays: list,
-    lamps: list[tuple[str, np.ndarray]],
+    result: ColourAnalysis,
+    rendered: Sequence[RenderedView],
+    displays: Sequence[DisplayResult],
+    lamps: Sequence[tuple[str, np.ndarray]],
     out_dir: Path,
     prefix: str = "",
-    text: dict[str, str] | None = None,
+    text: Mapping[str, str] | None = None,
 ) -> dict[str, Path]:
-    """Outlined view, swatch sheet, ΔE00 heat map and spectrum strips for ``result``."""
+    """Outlined view, swatch sheet, ΔE00 heat map and spectrum strips for ``result``; returns
+    the paths written by picture (``outlined``, ``swatches``, ``heatmap``, ``spectra``)."""
     from render.output import colour_pictures as pictures
 
     out_dir.mkdir(parents=True, exist_ok=True)
-    names = [o["name"] for o in result["objects"]]
-    setups = list(result["setups"])
+    names = result.object_names
+    setups = list(result.setups)
     written: dict[str, Path] = {}
     object_id = pixel_object_ids(rendered[0].buffers)
-    labels = {o["id"]: o["name"] for o in result["objects"]}
     written["outlined"] = pictures.outlined_view(
         displays[-1].srgb8,
         object_id,
-        labels,
+        {o.id: o.name for o in result.objects},
         out_dir / f"{prefix}objects.png",
         title=f"tagged objects ({setups[-1]})",
         png_text=text,
     )
     labs = np.full((len(names), 1 + len(setups), 3), np.nan)
-    terms = [[None] * (1 + len(setups)) for _ in names]
+    terms: list[list[str | None]] = [[None] * (1 + len(setups)) for _ in names]
     for i, name in enumerate(names):
-        day = result["daylight"]["objects"][name]
-        labs[i, 0] = day["lab"]
-        terms[i][0] = day["name"]
+        day = result.daylight.objects[name]
+        labs[i, 0] = day.lab
+        terms[i][0] = day.name
         for j, s in enumerate(setups):
-            seen = result["setups"][s]["objects"][name]
-            if seen["lab"] is not None:
-                labs[i, j + 1] = seen["lab"]
-            terms[i][j + 1] = seen["name"]
+            seen = result.setups[s].objects[name]
+            if seen.lab is not None:
+                labs[i, j + 1] = seen.lab
+            terms[i][j + 1] = seen.name
     written["swatches"] = pictures.swatch_sheet(
         names,
         ["daylight (D65)", *setups],
@@ -116,70 +147,23 @@ def colour_pictures(
         title="object colours: daylight and as seen at night",
         png_text=text,
     )
-    matrices = {"daylight (D65)": np.array(result["daylight"]["delta_e00"], dtype=float)}
+    matrices = {"daylight (D65)": _matrix_array(result.daylight.delta_e00)}
     for s in setups:
-        matrices[s] = np.array(
-            [[np.nan if v is None else v for v in row] for row in result["setups"][s]["delta_e00"]], dtype=float
-        )
+        matrices[s] = _matrix_array(result.setups[s].delta_e00)
     written["heatmap"] = pictures.delta_e_heatmap(
         matrices, names, out_dir / f"{prefix}delta-e00.png", title="CIEDE2000 between tagged objects", png_text=text
     )
     written["spectra"] = pictures.spectrum_strip_figure(
-        lamps, out_dir / f"{prefix}spectrum-strips.png", title="the lamps' light spread by a grating", png_text=text
+        list(lamps), out_dir / f"{prefix}spectrum-strips.png", title="the lamps' light spread by a grating", png_text=text
     )
     return written
 
 
-def write_colour_json(result: dict, path: Path) -> Path:
-    return atomic_write_text(path, json.dumps(result, ensure_ascii=False, indent=1) + "\n")
+def _matrix_array(matrix) -> np.ndarray:
+    """A published ΔE00 matrix as floats, NaN where undefined."""
+    return np.array([[np.nan if v is None else v for v in row] for row in matrix], dtype=float)
 
 
-def colour_report_section(result: dict, pictures: dict[str, Path], out_dir: Path) -> dict:
-    """An ``extra_sections`` entry of the comparison report: the "name it" table, the pairs that
-    become hard to tell apart, and the pictures."""
-    setups = list(result["setups"])
-    rows = []
-    for o in result["objects"]:
-        name = o["name"]
-        day = result["daylight"]["objects"][name]
-        row = [name, day["name"]]
-        for s in setups:
-            seen = result["setups"][s]["objects"][name]
-            row += [seen["name"] if seen["visible"] else "not visible", seen["weber_contrast"]]
-        rows.append(row)
-    columns = ["object", "daylight name"]
-    for s in setups:
-        columns += [f"seen under {s}", f"contrast ({s})"]
-    confusion_rows = []
-    for s in setups:
-        for c in result["setups"][s]["confusions"]:
-            confusion_rows.append([s, c["a"], c["b"], c["daylight_delta_e00"], c["delta_e00"], c["level"]])
-    t = result["method"]["thresholds"]
-    paragraphs = [
-        "Each tagged object's colour as a resident would see it after adapting to the street (night-vision "
-        "stage: mesopic luminance, rod intrusion, adaptation) is compared with its colour in daylight. Names are "
-        "the eleven basic colour terms predicted from the nearest published colour-name centroid (Centore 2020).",
-        f"Pairs listed below are at least {t['distinct_in_daylight_delta_e00']:g} CIEDE2000 apart in "
-        f"daylight but below {t['hard_delta_e00']:g} (hard to tell apart) or "
-        f"{t['imperceptible_delta_e00']:g} (imperceptible) under a setup (common practice thresholds). "
-        "Contrast is Weber luminance contrast against the object's surroundings: lightness survives where hue does not. "
-        + result["method"]["caveat"]
-        + ".",
-    ]
-    changes = [c["text"] for s in setups for c in result["setups"][s]["name_changes"]]
-    if changes:
-        paragraphs.append("Names that change at night: " + "; ".join(sorted(set(changes))) + ".")
-    return {
-        "title": "Telling colours apart",
-        "html_id": "colours",
-        "paragraphs": paragraphs,
-        "tables": [
-            {"caption": "Name it: daylight name and predicted night name per object", "columns": columns, "rows": rows},
-            {
-                "caption": "Pairs that become hard to tell apart",
-                "columns": ["setup", "object", "object", "ΔE00 daylight", "ΔE00 seen", "level"],
-                "rows": confusion_rows,
-            },
-        ],
-        "images": [str(p.relative_to(out_dir)) for p in pictures.values()],
-    }
+def write_colour_json(result: ColourAnalysis, path: Path) -> Path:
+    """Write :meth:`ColourAnalysis.to_json` to ``path`` (atomically, UTF-8); return the path."""
+    return atomic_write_text(path, json.dumps(result.to_json(), ensure_ascii=False, indent=1) + "\n")

@@ -6,38 +6,91 @@ it changes a photometric distribution). Both are shown through the night-vision 
 ``shared`` exposure (one adaptation state: their true brightness relation), in ``adapted``
 exposure (each for an eye adapted to it) and as false-colour luminance with one shared legend.
 
-Everything written is listed in ``metrics.json`` together with the figures the report shows.
+Everything written is listed in ``metrics.json`` together with the figures the report shows:
+the typed records of :mod:`render.output.metrics` (:class:`~render.output.metrics.ComparisonMetrics`),
+rounded once when they are made, so ``metrics.json`` and the report show the same numbers.
+
+References
+----------
+* CIE 13.3-1995, colour rendering index (Ra) in the summary sentences; the S/P ratio and the
+  blue fraction are the lamp figures of :mod:`render.colour.lamp_figures`.
+* The adaptation levels are those of :mod:`render.vision.adaptation` (photopic, and the
+  CIE 191:2010 MES2 mesopic luminance).
 """
 
 from __future__ import annotations
 
 import json
 import math
-from dataclasses import dataclass
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, replace
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from render import __version__
+from render.analysis.colours import CAVEAT as COLOUR_CAVEAT
+from render.analysis.colours import ColourAnalysis, Confusion
 from render.errors import did_you_mean, input_error
 from render.fileio import atomic_path, atomic_write_text, file_stem
+from render.output.metrics import (
+    AdaptationLevels,
+    BeforeAfter,
+    ColourSummary,
+    ComparisonMetrics,
+    GroupLighting,
+    LuminanceStats,
+    ObserverInfo,
+    RenderSettings,
+    ReportSection,
+    ReportTable,
+    SceneInfo,
+    SetupDescription,
+    ToolInfo,
+    ViewImages,
+    ViewMetrics,
+    published,
+)
 from render.output.provenance import image_metadata
-from render.scene.model import GroupSetting, Setup
+from render.scene.model import GroupSetting, Scene, Setup
+
+if TYPE_CHECKING:
+    from render.light.luminaires import LuminaireSet
+    from render.study import RenderedView, Study
+    from render.vision.observer import ObserverSettings
+    from render.vision.pipeline import DisplayResult
+
+__all__ = [
+    "CAUTIONS",
+    "SETUP_KEYS",
+    "ComparisonResult",
+    "colour_report_section",
+    "false_colour_pair",
+    "luminance_stats",
+    "parse_setup",
+    "run_comparison",
+    "setup_description",
+    "side_by_side",
+    "summary_sentences",
+    "wipe_frames",
+    "write_gif",
+]
 
 #: Cautions shown with every comparison (the report adds its standing caution: an illustrative
 #: preview, not a design or compliance calculation; local codes and licensed practice decide).
-CAUTIONS = [
+CAUTIONS = (
     "The images use published average-observer models of night vision, glare and colour appearance.",
     "Only direct light from the luminaires is modelled so far: light reflected between surfaces and light "
     "from the night sky are left out, so shadowed surfaces show as black and minimum luminances as 0.",
     "Real eyes differ: age, eye conditions, medication and fatigue change how bright, glary and colourful a "
     "street looks. A printed or on-screen image cannot reproduce night-time luminance exactly.",
-]
+)
 
 SETUP_KEYS = ("lamp", "lumens", "dimming", "photometry")
 
 
-def parse_setup(text: str, scene, label: str) -> Setup:
+def parse_setup(text: str, scene: Scene, label: str) -> Setup:
     """A setup from the command line.
 
     ``text`` is one of: a setup named in the scene; a lamp id or spectrum file (every
@@ -103,7 +156,7 @@ def parse_setup(text: str, scene, label: str) -> Setup:
     return Setup(text, f"command-line setup {text}", groups)
 
 
-def _surface_luminance(rendered) -> np.ndarray:
+def _surface_luminance(rendered: RenderedView) -> np.ndarray:
     """Luminance (cd/m²) of the pixels that show a surface (no sky, no luminous openings)."""
     b = rendered.buffers
     surf = ((b.response >= 0) & (b.response != b.emitter_response)).reshape(-1, b.spp).all(axis=1)
@@ -111,36 +164,31 @@ def _surface_luminance(rendered) -> np.ndarray:
     return Y[surf]
 
 
-def luminance_stats(rendered) -> dict:
+def luminance_stats(rendered: RenderedView) -> LuminanceStats:
     """Mean, minimum, median and 95th percentile of the luminance of surfaces seen, cd/m²."""
-    y = _surface_luminance(rendered)
-    if y.size == 0:
-        return {"mean": None, "min": None, "median": None, "p95": None}
-    return {
-        "mean": float(y.mean()),
-        "min": float(y.min()),
-        "median": float(np.median(y)),
-        "p95": float(np.percentile(y, 95)),
-    }
+    return LuminanceStats.of(_surface_luminance(rendered))
 
 
-def setup_description(study, setup: Setup, lights) -> dict:
+def setup_description(setup: Setup, lights: LuminaireSet) -> SetupDescription:
+    """The published description of ``setup`` as evaluated with ``lights``: the lamps it uses
+    and, per luminaire group, lamp, photometry, flux and dimming (the setup's values where it
+    sets them, else the scene's)."""
     from render.light.luminaires import channel_factors, setting_for
 
-    factors, lamps = channel_factors(lights, setup)
-    groups: dict[str, dict] = {}
+    _, lamps = channel_factors(lights, setup)
+    groups: dict[str, GroupLighting] = {}
     for k, ch in enumerate(lights.channels):
         s = setting_for(setup, ch.group)
         groups.setdefault(
             ch.group,
-            {
-                "lamp": lamps[k],
-                "photometry": s.photometry or ch.photometry,
-                "lumens": s.lumens if s.lumens is not None else ch.lumens,
-                "dimming": s.dimming if s.dimming is not None else ch.dimming,
-            },
+            GroupLighting(
+                lamp=lamps[k],
+                photometry=s.photometry or ch.photometry,
+                lumens=published(s.lumens if s.lumens is not None else ch.lumens),
+                dimming=published(s.dimming if s.dimming is not None else ch.dimming),
+            ),
         )
-    return {"name": setup.name, "description": setup.description, "lamps": sorted(set(lamps)), "groups": groups}
+    return SetupDescription(setup.name, setup.description, tuple(sorted(set(lamps))), groups)
 
 
 def _caption(image: np.ndarray, text: str) -> np.ndarray:
@@ -155,19 +203,18 @@ def _caption(image: np.ndarray, text: str) -> np.ndarray:
 
 
 def side_by_side(before: np.ndarray, after: np.ndarray, before_label: str, after_label: str) -> np.ndarray:
+    """The two 8-bit sRGB images next to each other, each under a caption band."""
     gap = np.full((before.shape[0] + max(28, before.shape[0] // 14), 8, 3), 255, np.uint8)
     return np.concatenate([_caption(before, before_label), gap, _caption(after, after_label)], axis=1)
 
 
-def wipe_frames(before: np.ndarray, after: np.ndarray, n: int = 16, max_width_px: int = 640) -> list[np.ndarray]:
+def wipe_frames(before: np.ndarray, after: np.ndarray, n: int = 16, max_width_px: int = 480) -> list[np.ndarray]:
     """Frames of a wipe from before to after and back, with a white divider; images wider than
-    ``max_width_px`` are halved (box filter) first, which keeps the GIF small and quick to write."""
-    while before.shape[1] > max_width_px:
-        h2, w2 = before.shape[0] // 2 * 2, before.shape[1] // 2 * 2
-        before, after = (
-            x[:h2, :w2].reshape(h2 // 2, 2, w2 // 2, 2, 3).mean(axis=(1, 3)).round().astype(np.uint8)
-            for x in (before, after)
-        )
+    ``max_width_px`` are first scaled down to that width (:func:`render.output.images.fit_width`:
+    anti-aliased, in linear light), which keeps the GIF small and quick to write."""
+    from render.output.images import fit_width
+
+    before, after = fit_width(before, max_width_px), fit_width(after, max_width_px)
     w = before.shape[1]
     frames = []
     positions = list(np.linspace(0, w, n // 2).astype(int))
@@ -180,7 +227,8 @@ def wipe_frames(before: np.ndarray, after: np.ndarray, n: int = 16, max_width_px
     return frames
 
 
-def write_gif(path: Path, frames: list[np.ndarray], duration_ms: int = 90) -> Path:
+def write_gif(path: Path, frames: Sequence[np.ndarray], duration_ms: int = 90) -> Path:
+    """Write an endlessly looping GIF of ``frames`` (atomically); return ``path``."""
     import imageio.v3 as iio
 
     with atomic_path(path) as tmp:
@@ -188,70 +236,45 @@ def write_gif(path: Path, frames: list[np.ndarray], duration_ms: int = 90) -> Pa
     return path
 
 
-def _round(x, digits=4):
-    if x is None or (isinstance(x, float) and not math.isfinite(x)):
-        return None
-    if isinstance(x, float):
-        return float(f"{x:.{digits}g}")
-    return x
-
-
-def _clean(obj):
-    if isinstance(obj, dict):
-        return {str(k): _clean(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [_clean(v) for v in obj]
-    if isinstance(obj, (np.floating, float)):
-        return _round(float(obj))
-    if isinstance(obj, np.integer):
-        return int(obj)
-    if isinstance(obj, np.ndarray):
-        return _clean(obj.tolist())
-    return obj
-
-
-def summary_sentences(metrics: dict) -> list[str]:
-    """Plain-language statements of what changes, computed from the figures."""
+def summary_sentences(metrics: ComparisonMetrics) -> list[str]:
+    """Plain-language statements of what changes, computed from the published figures."""
     out = []
-    before, after = metrics["setups"]["before"], metrics["setups"]["after"]
-    lamps = metrics["lamps"]
 
-    def fig(setup, key):
-        vals = [lamps[l].get(key) for l in setup["lamps"] if lamps.get(l) and lamps[l].get(key) is not None]
-        return float(np.mean(vals)) if vals else None
+    def fig(key: str) -> tuple[float | None, float | None]:
+        return metrics.lamp_figure_mean(key, "before"), metrics.lamp_figure_mean(key, "after")
 
-    ra_b, ra_a = fig(before, "ra"), fig(after, "ra")
+    ra_b, ra_a = fig("ra")
     if ra_b is not None and ra_a is not None:
         better = "better" if ra_a > ra_b + 5 else "worse" if ra_a < ra_b - 5 else "about the same"
         out.append(
             f"Colour rendering: the after lamps render colours {better} than the before lamps "
             f"(CIE 13.3 Ra {ra_b:.0f} before, {ra_a:.0f} after; 100 matches the reference light, and very low or negative values mean many colours look alike)."
         )
-    sp_b, sp_a = fig(before, "sp_ratio"), fig(after, "sp_ratio")
+    sp_b, sp_a = fig("sp_ratio")
     if sp_b and sp_a:
         out.append(
             f"Night-vision effectiveness: the after light has an S/P ratio of {sp_a:.2f} against {sp_b:.2f}; "
             "a higher ratio means the eye's rods respond more to it, so the street can look brighter at the same photopic level."
         )
-    bf_b, bf_a = fig(before, "blue_fraction"), fig(after, "blue_fraction")
+    bf_b, bf_a = fig("blue_fraction")
     if bf_b is not None and bf_a is not None:
         out.append(
             f"Blue content: {bf_a * 100:.0f} % of the after light is below 500 nm ({bf_b * 100:.0f} % before); "
             "blue light scatters more in the sky and matters to wildlife and sleep."
         )
-    for v in metrics["views"]:
-        lb, la = v["luminance_cd_m2"]["before"]["mean"], v["luminance_cd_m2"]["after"]["mean"]
+    for v in metrics.views:
+        lb, la = v.luminance_cd_m2.before.mean, v.luminance_cd_m2.after.mean
         if lb and la:
             ratio = la / lb
             change = "brighter" if ratio > 1.1 else "darker" if ratio < 0.9 else "about as bright"
             out.append(
-                f"View '{v['name']}': surfaces are {change} after the change (mean luminance {lb:.3g} → {la:.3g} cd/m², "
+                f"View '{v.name}': surfaces are {change} after the change (mean luminance {lb:.3g} → {la:.3g} cd/m², "
                 f"×{ratio:.2f})."
             )
     return out
 
 
-def false_colour_pair(before, after) -> tuple[list[np.ndarray], np.ndarray]:
+def false_colour_pair(before: RenderedView, after: RenderedView) -> tuple[list[np.ndarray], np.ndarray]:
     """False-colour luminance images (8-bit sRGB) of two views on one log scale, and the legend.
 
     The scale is :func:`render.vision.falsecolour.shared_range_decades` (whole decades) on our
@@ -266,7 +289,7 @@ def false_colour_pair(before, after) -> tuple[list[np.ndarray], np.ndarray]:
     return images, legend
 
 
-def _tagged_objects_visible(study, rendered, min_pixels: int = 20) -> int:
+def _tagged_objects_visible(study: Study, rendered: RenderedView, min_pixels: int = 20) -> int:
     from render.analysis.run import pixel_object_ids
 
     ids = pixel_object_ids(rendered.buffers)
@@ -275,183 +298,228 @@ def _tagged_objects_visible(study, rendered, min_pixels: int = 20) -> int:
     return int(sum(counts[i] >= min_pixels for i in tagged))
 
 
-def _colour_section(study, setups, observer, colour_view, out: Path, metrics: dict) -> None:
-    """Colour analysis of the tagged objects in one view: colours/ folder and a report section."""
-    from render.analysis.run import analyse_view_colours, colour_pictures, colour_report_section, write_colour_json
+def colour_report_section(result: ColourAnalysis, pictures: Mapping[str, Path], out_dir: Path) -> ReportSection:
+    """The report section of a colour analysis: the "name it" table, the pairs that become hard
+    to tell apart, and the pictures (paths relative to ``out_dir``). Numbers are published
+    (:func:`render.output.metrics.published`)."""
+    setups = list(result.setups)
+    rows = []
+    for name in result.object_names:
+        row: list = [name, result.daylight.objects[name].name]
+        for s in setups:
+            seen = result.setups[s].objects[name]
+            row += [seen.name if seen.visible else "not visible", published(seen.weber_contrast)]
+        rows.append(tuple(row))
+    columns = ["object", "daylight name"]
+    for s in setups:
+        columns += [f"seen under {s}", f"contrast ({s})"]
+    confusion_rows = [
+        (s, c.a, c.b, published(c.daylight_delta_e00), published(c.delta_e00), c.level)
+        for s in setups
+        for c in result.setups[s].confusions
+    ]
+    t = result.thresholds
+    paragraphs = [
+        "Each tagged object's colour as a resident would see it after adapting to the street (night-vision "
+        "stage: mesopic luminance, rod intrusion, adaptation) is compared with its colour in daylight. Names are "
+        "the eleven basic colour terms predicted from the nearest published colour-name centroid (Centore 2020).",
+        f"Pairs listed below are at least {t.distinct_in_daylight_delta_e00:g} CIEDE2000 apart in "
+        f"daylight but below {t.hard_delta_e00:g} (hard to tell apart) or "
+        f"{t.imperceptible_delta_e00:g} (imperceptible) under a setup (common practice thresholds). "
+        "Contrast is Weber luminance contrast against the object's surroundings: lightness survives where hue does not. "
+        + COLOUR_CAVEAT
+        + ".",
+    ]
+    changes = [c.text for s in setups for c in result.setups[s].name_changes]
+    if changes:
+        paragraphs.append("Names that change at night: " + "; ".join(sorted(set(changes))) + ".")
+    return ReportSection(
+        title="Telling colours apart",
+        html_id="colours",
+        paragraphs=tuple(paragraphs),
+        tables=(
+            ReportTable("Name it: daylight name and predicted night name per object", tuple(columns), tuple(rows)),
+            ReportTable(
+                "Pairs that become hard to tell apart",
+                ("setup", "object", "object", "ΔE00 daylight", "ΔE00 seen", "level"),
+                tuple(confusion_rows),
+            ),
+        ),
+        images=tuple(str(p.relative_to(out_dir)) for p in pictures.values()),
+    )
 
-    _, name, rb, ra, shared = colour_view
-    labels = [f"before: {setups['before'].name}", f"after: {setups['after'].name}"]
+
+def _published_confusion(c: Confusion) -> Confusion:
+    return replace(c, daylight_delta_e00=published(c.daylight_delta_e00), delta_e00=published(c.delta_e00))
+
+
+def _colour_analysis(
+    study: Study,
+    setups: BeforeAfter[Setup],
+    observer: ObserverSettings,
+    view: tuple[str, RenderedView, RenderedView, Sequence[DisplayResult]],
+    out: Path,
+) -> tuple[ReportSection, ColourSummary]:
+    """Colour analysis of the tagged objects in one view: the colours/ folder, the report
+    section and the summary for ``metrics.json``."""
+    from render.analysis.run import analyse_view_colours, colour_pictures, write_colour_json
+
+    name, rb, ra, shared = view
+    labels = [f"before: {setups.before.name}", f"after: {setups.after.name}"]
     result = analyse_view_colours(study, [rb, ra], shared, observer, labels)
     cdir = out / "colours"
     text = image_metadata(study, rb, "colour analysis", observer, study.scene.render.seed, rb.buffers.spp)
-    text["lampcast.setup"] = f"before={setups['before'].name}; after={setups['after'].name}"
+    text["lampcast.setup"] = f"before={setups.before.name}; after={setups.after.name}"
     pics = colour_pictures(
-        result, [rb, ra], shared, study.setup_lamps([rb, ra], [setups["before"], setups["after"]]), cdir, text=text
+        result, [rb, ra], shared, study.setup_lamps([rb, ra], [setups.before, setups.after]), cdir, text=text
     )
     write_colour_json(result, cdir / "colours.json")
     section = colour_report_section(result, pics, out)
-    section["paragraphs"].insert(
-        0, f"Analysed in view '{name}' (the view showing most tagged objects), both setups in shared exposure."
+    section = replace(
+        section,
+        paragraphs=(
+            f"Analysed in view '{name}' (the view showing most tagged objects), both setups in shared exposure.",
+            *section.paragraphs,
+        ),
     )
-    metrics["extra_sections"].append(section)
-    metrics["colours"] = {
-        "view": name,
-        "file": "colours/colours.json",
-        "confusions": {s: result["setups"][s]["confusions"] for s in result["setups"]},
-        "name_changes": {s: result["setups"][s]["name_changes"] for s in result["setups"]},
-    }
+    summary = ColourSummary(
+        view=name,
+        file="colours/colours.json",
+        confusions={s: tuple(map(_published_confusion, r.confusions)) for s, r in result.setups.items()},
+        name_changes={s: r.name_changes for s, r in result.setups.items()},
+    )
+    return section, summary
 
 
-@dataclass
+@dataclass(frozen=True)
 class ComparisonResult:
+    """What :func:`run_comparison` made: the output folder, the figures (also in
+    ``metrics.json``) and the report's path (``None`` without a report)."""
+
     out_dir: Path
-    metrics: dict
+    metrics: ComparisonMetrics
     report: Path | None
 
 
 def run_comparison(
-    scene,
+    scene: str | Path | Study,
     before: str,
     after: str,
-    views: list[str] | None = None,
+    views: Sequence[str] | None = None,
     out_dir: str | Path = "outputs/compare",
     *,
     width_px: int | None = None,
     samples_per_pixel: int | None = None,
-    observer=None,
+    observer: ObserverSettings | None = None,
     report: bool = True,
     progress: bool = True,
-    extra_sections: list | None = None,
+    extra_sections: Sequence[ReportSection] = (),
     colour: bool = True,
 ) -> ComparisonResult:
     """Render every view before and after and write images, ``metrics.json`` and ``report.html``
     (with the colour analysis of the tagged objects in the view showing most of them, unless
     ``colour=False``). ``scene`` is a scene file or a :class:`~render.study.Study`."""
-    from render.colour.lamp_figures import lamp_figures
+    from render.colour.lamp_figures import LampFigures, lamp_figures
     from render.colour.lamps import get_lamp
+    from render.output.images import write_png
     from render.study import Study
 
     study = scene if isinstance(scene, Study) else Study(scene)
     scene = study.scene
-    setups = {"before": parse_setup(before, scene, "--before"), "after": parse_setup(after, scene, "--after")}
+    setups = BeforeAfter(parse_setup(before, scene, "--before"), parse_setup(after, scene, "--after"))
     observer = observer or study.observer
-    view_names = views or [v.name for v in scene.views]
+    view_names = list(views or [v.name for v in scene.views])
     for name in view_names:
         scene.view(name)  # unknown views fail before any work
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
     spp = samples_per_pixel or scene.render.samples_per_pixel
     seed = scene.render.seed
-    metrics: dict = {
-        "tool": {"name": "lampcast", "version": __version__},
-        "scene": {
-            "name": scene.name,
-            "description": scene.description,
-            "notes": "",
-            "file": scene.path.name,
-            "sha256": study.scene_sha256,
-        },
-        "observer": {
-            "age_years": observer.age_years,
-            "pigmentation": observer.pigmentation,
-            "display_peak_cd_m2": observer.display_peak_cd_m2,
-            "adaptation_cd_m2": observer.adaptation_cd_m2,
-            "glare": observer.glare,
-            "acuity": observer.acuity,
-        },
-        "settings": {"samples_per_pixel": spp, "seed": seed, "width_px": None, "height_px": None},
-        "setups": {},
-        "lamps": {},
-        "views": [],
-        "summary": [],
-        "cautions": list(CAUTIONS),
-        "extra_sections": list(extra_sections or []),
-    }
+    pair = f"before={setups.before.name}; after={setups.after.name}"
+    descriptions: BeforeAfter[SetupDescription] | None = None
+    camera = None
+    view_metrics: list[ViewMetrics] = []
     colour_view = None
     for name in view_names:
         vdir = out / file_stem(name)
         vdir.mkdir(exist_ok=True)
-        rb = study.render_view(name, setups["before"], samples_per_pixel=spp, width_px=width_px, progress=progress)
-        ra = study.relight(rb, setups["after"], progress=progress)
-        for key, r in (("before", rb), ("after", ra)):
-            metrics["setups"].setdefault(key, setup_description(study, setups[key], r.lights))
-        metrics["settings"]["width_px"] = rb.camera.width_px
-        metrics["settings"]["height_px"] = rb.camera.height_px
+        rb = study.render_view(name, setups.before, samples_per_pixel=spp, width_px=width_px, progress=progress)
+        ra = study.relight(rb, setups.after, progress=progress)
+        if descriptions is None:
+            descriptions = BeforeAfter(
+                setup_description(setups.before, rb.lights), setup_description(setups.after, ra.lights)
+            )
+        camera = rb.camera
         shared, adapted = study.display_both([rb, ra], observer)
         false, legend = false_colour_pair(rb, ra)
-        images: dict[str, str] = {}
+        images = ViewImages.in_folder(vdir.name)
 
-        def meta(r, mode):
+        def meta(r: RenderedView, mode: str) -> dict[str, str]:
             m = image_metadata(study, r, mode, observer, seed, spp)
-            m["lampcast.comparison"] = f"before={setups['before'].name}; after={setups['after'].name}"
+            m["lampcast.comparison"] = pair
             return m
-
-        from render.vision.display import write_png
 
         for key, r, sh, ad, fc in (
             ("before", rb, shared[0], adapted[0], false[0]),
             ("after", ra, shared[1], adapted[1], false[1]),
         ):
-            sh.write_png(vdir / f"{key}.png", 8, meta(r, "shared"))
-            ad.write_png(vdir / f"{key}-adapted.png", 8, meta(r, "adapted"))
-            write_png(vdir / f"{key}-falsecolour.png", fc, meta(r, "photometric"))
-            images[f"{key}_shared"] = f"{vdir.name}/{key}.png"
-            images[f"{key}_adapted"] = f"{vdir.name}/{key}-adapted.png"
-            images[f"falsecolour_{key}"] = f"{vdir.name}/{key}-falsecolour.png"
-        write_png(
-            vdir / "falsecolour-legend.png",
-            legend,
-            {
-                **meta(rb, "photometric legend"),
-                "lampcast.setup": f"before={setups['before'].name}; after={setups['after'].name}",
-            },
-        )
+            write_png(out / images.shared(key), sh.srgb8, sh.png_text(meta(r, "shared")))
+            write_png(out / images.adapted(key), ad.srgb8, ad.png_text(meta(r, "adapted")))
+            write_png(out / images.falsecolour(key), fc, meta(r, "photometric"))
+        write_png(out / images.falsecolour_legend, legend, {**meta(rb, "photometric legend"), "lampcast.setup": pair})
         sbs = side_by_side(
-            shared[0].srgb8, shared[1].srgb8, f"before: {setups['before'].name}", f"after: {setups['after'].name}"
+            shared[0].srgb8, shared[1].srgb8, f"before: {setups.before.name}", f"after: {setups.after.name}"
         )
-        write_png(vdir / "side-by-side.png", sbs, meta(rb, "shared side by side"))
-        images["side_by_side"] = f"{vdir.name}/side-by-side.png"
-        write_gif(vdir / "wipe.gif", wipe_frames(shared[0].srgb8, shared[1].srgb8))
-        images["wipe"] = f"{vdir.name}/wipe.gif"
-        images["falsecolour_legend"] = f"{vdir.name}/falsecolour-legend.png"
+        write_png(out / images.side_by_side, sbs, meta(rb, "shared side by side"))
+        write_gif(out / images.wipe, wipe_frames(shared[0].srgb8, shared[1].srgb8))
         if colour and any(o.inspect for o in study.mesh.objects):
             # Keep the view that shows the most tagged objects for the colour analysis.
             seen = _tagged_objects_visible(study, rb)
             if colour_view is None or seen > colour_view[0]:
-                colour_view = (seen, name, rb, ra, shared)
+                colour_view = (seen, (name, rb, ra, shared))
         states = [shared[0].state, adapted[0].state, adapted[1].state]
-        metrics["views"].append(
-            {
-                "name": name,
-                "notes": scene.view(name).notes,
-                "images": images,
-                "luminance_cd_m2": {"before": luminance_stats(rb), "after": luminance_stats(ra)},
+        view_metrics.append(
+            ViewMetrics(
+                name=name,
+                notes=scene.view(name).notes,
+                images=images,
+                luminance_cd_m2=BeforeAfter(luminance_stats(rb), luminance_stats(ra)),
                 # Photopic adaptation luminance of the observer (CIE TN 007 field, see render.vision.adaptation).
-                "adaptation_cd_m2": {
-                    "shared": states[0].photopic_cd_m2,
-                    "before": states[1].photopic_cd_m2,
-                    "after": states[2].photopic_cd_m2,
-                },
-                "mesopic_adaptation_cd_m2": {
-                    "shared": states[0].mesopic_cd_m2,
-                    "before": states[1].mesopic_cd_m2,
-                    "after": states[2].mesopic_cd_m2,
-                },
-            }
+                adaptation_cd_m2=AdaptationLevels(
+                    *(published(s.photopic_cd_m2) for s in states),
+                ),
+                mesopic_adaptation_cd_m2=AdaptationLevels(
+                    *(published(s.mesopic_cd_m2) for s in states),
+                ),
+            )
         )
+    sections = tuple(extra_sections)
+    colours = None
     if colour_view is not None:
-        _colour_section(study, setups, observer, colour_view, out, metrics)
-    for key in ("before", "after"):
-        for lamp_id in metrics["setups"][key]["lamps"]:
-            if lamp_id not in metrics["lamps"]:
+        section, colours = _colour_analysis(study, setups, observer, colour_view[1], out)
+        sections += (section,)
+    lamps: dict[str, LampFigures] = {}
+    for _, description in descriptions.items():
+        for lamp_id in description.lamps:
+            if lamp_id not in lamps:
                 # The same rounding as `lampcast lamps --json`, so both agree exactly.
                 f = lamp_figures(get_lamp(lamp_id, base_dir=scene.base_dir))
-                metrics["lamps"][lamp_id] = f.to_json()
-    lamps = metrics.pop("lamps")
-    metrics = _clean(metrics)
-    metrics["lamps"] = lamps
-    metrics["summary"] = summary_sentences(metrics)
-    atomic_write_text(out / "metrics.json", json.dumps(metrics, indent=2, sort_keys=False, ensure_ascii=False) + "\n")
+                lamps[lamp_id] = LampFigures.from_json(f.to_json())
+    metrics = ComparisonMetrics(
+        tool=ToolInfo("lampcast", __version__),
+        scene=SceneInfo(scene.name, scene.description, "", scene.path.name, study.scene_sha256),
+        observer=ObserverInfo.of(observer),
+        settings=RenderSettings(spp, seed, camera.width_px, camera.height_px),
+        setups=descriptions,
+        views=tuple(view_metrics),
+        cautions=tuple(CAUTIONS),
+        extra_sections=sections,
+        colours=colours,
+        lamps=lamps,
+    )
+    metrics = replace(metrics, summary=tuple(summary_sentences(metrics)))
+    text = json.dumps(metrics.to_json(), indent=2, sort_keys=False, ensure_ascii=False) + "\n"
+    atomic_write_text(out / "metrics.json", text)
     report_path = None
     if report:
         from render.output.report import write_report

@@ -1,0 +1,521 @@
+"""The comparison's figures as typed records: what ``metrics.json`` holds and the report shows.
+
+:class:`ComparisonMetrics` is the result of :func:`render.output.comparison.run_comparison`:
+the tool and scene, the observer and render settings, the two setups, per view its images,
+luminance statistics and adaptation levels, the plain-language summary, the cautions, extra
+report sections (the colour analysis' section among them) and the lamp figures.
+:meth:`ComparisonMetrics.to_json` gives the content of ``metrics.json``;
+:meth:`ComparisonMetrics.from_json` reads it back (so a report can be made again from the
+file), and ``from_json(m.to_json()) == m``.
+
+Every figure is held as it is published: the comparison rounds each float (outside the lamp
+figures) to :data:`PUBLISHED_DIGITS` significant figures when it makes a record
+(:func:`published`), so the report, which shows these records, shows exactly the numbers of
+``metrics.json``. The lamp figures are :class:`~render.colour.lamp_figures.LampFigures` as
+published (the records of ``lampcast lamps --json``, with their own rounding).
+
+References
+----------
+The luminance statistics are of the rendered surface luminance (cd/m²); the adaptation levels
+are those of :mod:`render.vision.adaptation` (photopic, and CIE 191:2010 MES2 mesopic).
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass, fields
+from typing import TYPE_CHECKING, Any, Generic, TypeVar
+
+import numpy as np
+
+from render.analysis.colours import Confusion, NameChange
+from render.colour.lamp_figures import LampFigures
+
+if TYPE_CHECKING:
+    from render.vision.observer import ObserverSettings
+
+__all__ = [
+    "PUBLISHED_DIGITS",
+    "AdaptationLevels",
+    "BeforeAfter",
+    "Cell",
+    "ColourSummary",
+    "ComparisonMetrics",
+    "GroupLighting",
+    "LuminanceStats",
+    "ObserverInfo",
+    "RenderSettings",
+    "ReportSection",
+    "ReportTable",
+    "SceneInfo",
+    "SetupDescription",
+    "ToolInfo",
+    "ViewImages",
+    "ViewMetrics",
+    "published",
+]
+
+#: Significant figures of every float the comparison publishes (outside the lamp figures).
+PUBLISHED_DIGITS = 4
+
+#: A table cell of a report section: text, a number, or ``None`` (not defined).
+Cell = str | int | float | bool | None
+
+T = TypeVar("T")
+
+
+def published(value: Any, digits: int = PUBLISHED_DIGITS) -> Any:
+    """A value as the comparison publishes it: floats to ``digits`` significant figures
+    (NaN and infinities become ``None``), numpy scalars as Python numbers, anything else
+    unchanged."""
+    if isinstance(value, np.integer):
+        return int(value)
+    if isinstance(value, np.floating):
+        value = float(value)
+    if isinstance(value, float):
+        return float(f"{value:.{digits}g}") if math.isfinite(value) else None
+    return value
+
+
+def _json(value: Any) -> Any:
+    """A record's value in JSON form: records by their ``to_json``, tuples as lists."""
+    if hasattr(value, "to_json"):
+        return value.to_json()
+    if isinstance(value, tuple):
+        return [_json(v) for v in value]
+    if isinstance(value, Mapping):
+        return {str(k): _json(v) for k, v in value.items()}
+    return value
+
+
+def _fields_json(record: Any) -> dict[str, Any]:
+    return {f.name: _json(getattr(record, f.name)) for f in fields(record)}
+
+
+# --- small records ---------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class ToolInfo:
+    """The program that made the comparison."""
+
+    name: str
+    version: str
+
+    def to_json(self) -> dict[str, Any]:
+        return _fields_json(self)
+
+    @classmethod
+    def from_json(cls, data: Mapping[str, Any]) -> ToolInfo:
+        return cls(str(data.get("name", "lampcast")), str(data.get("version", "")))
+
+
+@dataclass(frozen=True)
+class SceneInfo:
+    """The scene compared: name, description, notes, file name and SHA-256 of the file."""
+
+    name: str
+    description: str
+    notes: str
+    file: str
+    sha256: str
+
+    def to_json(self) -> dict[str, Any]:
+        return _fields_json(self)
+
+    @classmethod
+    def from_json(cls, data: Mapping[str, Any]) -> SceneInfo:
+        return cls(*(str(data.get(f.name) or "") for f in fields(cls)))
+
+
+@dataclass(frozen=True)
+class ObserverInfo:
+    """The observer the images were made for (``None``: not given)."""
+
+    age_years: float | None
+    pigmentation: float | None
+    display_peak_cd_m2: float | None
+    adaptation_cd_m2: float | None
+    glare: bool | None = None
+    acuity: bool | None = None
+
+    @classmethod
+    def of(cls, observer: ObserverSettings) -> ObserverInfo:
+        """The published settings of ``observer``."""
+        return cls(
+            published(observer.age_years),
+            published(observer.pigmentation),
+            published(observer.display_peak_cd_m2),
+            published(observer.adaptation_cd_m2),
+            observer.glare,
+            observer.acuity,
+        )
+
+    def to_json(self) -> dict[str, Any]:
+        return _fields_json(self)
+
+    @classmethod
+    def from_json(cls, data: Mapping[str, Any]) -> ObserverInfo:
+        return cls(*(data.get(f.name) for f in fields(cls)))
+
+
+@dataclass(frozen=True)
+class RenderSettings:
+    """Samples per pixel, random seed and image size of the rendered views."""
+
+    samples_per_pixel: int | None
+    seed: int | None
+    width_px: int | None
+    height_px: int | None
+
+    def to_json(self) -> dict[str, Any]:
+        return _fields_json(self)
+
+    @classmethod
+    def from_json(cls, data: Mapping[str, Any]) -> RenderSettings:
+        return cls(*(data.get(f.name) for f in fields(cls)))
+
+
+@dataclass(frozen=True)
+class GroupLighting:
+    """How one luminaire group is lit in a setup: lamp, photometry, flux (lm), dimming (0-1).
+
+    ``lumens`` ``None``: the photometric file's rated flux; ``dimming`` ``None``: not set.
+    """
+
+    lamp: str
+    photometry: str | None = None
+    lumens: float | None = None
+    dimming: float | None = None
+
+    def to_json(self) -> dict[str, Any]:
+        return _fields_json(self)
+
+    @classmethod
+    def from_json(cls, data: Mapping[str, Any]) -> GroupLighting:
+        return cls(str(data.get("lamp", "")), data.get("photometry"), data.get("lumens"), data.get("dimming"))
+
+
+@dataclass(frozen=True)
+class SetupDescription:
+    """One compared setup: its name, description, the lamps it uses and its groups.
+
+    ``groups`` maps a luminaire group (``"*"``: every luminaire) to its :class:`GroupLighting`.
+    """
+
+    name: str
+    description: str
+    lamps: tuple[str, ...]
+    groups: Mapping[str, GroupLighting]
+
+    def to_json(self) -> dict[str, Any]:
+        return _fields_json(self)
+
+    @classmethod
+    def from_json(cls, data: Mapping[str, Any]) -> SetupDescription:
+        groups = data.get("groups") or {}
+        return cls(
+            str(data.get("name") or ""),
+            str(data.get("description") or ""),
+            tuple(data.get("lamps") or ()),
+            {str(k): GroupLighting.from_json(v) for k, v in groups.items()},
+        )
+
+
+@dataclass(frozen=True)
+class BeforeAfter(Generic[T]):
+    """A pair of anything, one for the "before" and one for the "after" setup."""
+
+    before: T
+    after: T
+
+    def items(self) -> tuple[tuple[str, T], tuple[str, T]]:
+        """``(("before", before), ("after", after))``."""
+        return (("before", self.before), ("after", self.after))
+
+    def to_json(self) -> dict[str, Any]:
+        return {"before": _json(self.before), "after": _json(self.after)}
+
+
+@dataclass(frozen=True)
+class LuminanceStats:
+    """Mean, minimum, median and 95th percentile of the luminance of the surfaces seen, cd/m²
+    (``None`` when a view shows no surface)."""
+
+    mean: float | None
+    min: float | None
+    median: float | None
+    p95: float | None
+
+    @classmethod
+    def of(cls, luminance_cd_m2: np.ndarray) -> LuminanceStats:
+        """The published statistics of the luminances given (any shape)."""
+        y = np.asarray(luminance_cd_m2, dtype=np.float64).ravel()
+        if y.size == 0:
+            return cls(None, None, None, None)
+        return cls(
+            published(float(y.mean())),
+            published(float(y.min())),
+            published(float(np.median(y))),
+            published(float(np.percentile(y, 95))),
+        )
+
+    def to_json(self) -> dict[str, Any]:
+        return _fields_json(self)
+
+    @classmethod
+    def from_json(cls, data: Mapping[str, Any]) -> LuminanceStats:
+        return cls(*(data.get(f.name) for f in fields(cls)))
+
+
+@dataclass(frozen=True)
+class AdaptationLevels:
+    """The adaptation luminance (cd/m²) of the images: shared exposure, and each setup adapted."""
+
+    shared: float | None
+    before: float | None
+    after: float | None
+
+    def to_json(self) -> dict[str, Any]:
+        return _fields_json(self)
+
+    @classmethod
+    def from_json(cls, data: Mapping[str, Any]) -> AdaptationLevels:
+        return cls(*(data.get(f.name) for f in fields(cls)))
+
+
+@dataclass(frozen=True)
+class ViewImages:
+    """The images of one view, as paths relative to the output folder."""
+
+    before_shared: str
+    before_adapted: str
+    falsecolour_before: str
+    after_shared: str
+    after_adapted: str
+    falsecolour_after: str
+    side_by_side: str
+    wipe: str
+    falsecolour_legend: str
+
+    @classmethod
+    def in_folder(cls, folder: str) -> ViewImages:
+        """The file names the comparison writes into ``folder``."""
+        return cls(
+            before_shared=f"{folder}/before.png",
+            before_adapted=f"{folder}/before-adapted.png",
+            falsecolour_before=f"{folder}/before-falsecolour.png",
+            after_shared=f"{folder}/after.png",
+            after_adapted=f"{folder}/after-adapted.png",
+            falsecolour_after=f"{folder}/after-falsecolour.png",
+            side_by_side=f"{folder}/side-by-side.png",
+            wipe=f"{folder}/wipe.gif",
+            falsecolour_legend=f"{folder}/falsecolour-legend.png",
+        )
+
+    def shared(self, key: str) -> str:
+        """The shared-exposure image of setup ``key`` ("before" or "after")."""
+        return getattr(self, f"{key}_shared")
+
+    def adapted(self, key: str) -> str:
+        """The adapted-exposure image of setup ``key``."""
+        return getattr(self, f"{key}_adapted")
+
+    def falsecolour(self, key: str) -> str:
+        """The false-colour luminance image of setup ``key``."""
+        return getattr(self, f"falsecolour_{key}")
+
+    def to_json(self) -> dict[str, Any]:
+        return _fields_json(self)
+
+    @classmethod
+    def from_json(cls, data: Mapping[str, Any]) -> ViewImages:
+        return cls(**{f.name: str(data[f.name]) for f in fields(cls)})
+
+
+@dataclass(frozen=True)
+class ViewMetrics:
+    """One view: its images, the surface luminance before and after, the adaptation levels."""
+
+    name: str
+    notes: str
+    images: ViewImages
+    luminance_cd_m2: BeforeAfter[LuminanceStats]
+    adaptation_cd_m2: AdaptationLevels
+    mesopic_adaptation_cd_m2: AdaptationLevels | None = None
+
+    def to_json(self) -> dict[str, Any]:
+        out = _fields_json(self)
+        if self.mesopic_adaptation_cd_m2 is None:
+            del out["mesopic_adaptation_cd_m2"]
+        return out
+
+    @classmethod
+    def from_json(cls, data: Mapping[str, Any]) -> ViewMetrics:
+        lum = data.get("luminance_cd_m2") or {}
+        mesopic = data.get("mesopic_adaptation_cd_m2")
+        return cls(
+            str(data.get("name") or ""),
+            str(data.get("notes") or ""),
+            ViewImages.from_json(data["images"]),
+            BeforeAfter(
+                LuminanceStats.from_json(lum.get("before") or {}), LuminanceStats.from_json(lum.get("after") or {})
+            ),
+            AdaptationLevels.from_json(data.get("adaptation_cd_m2") or {}),
+            None if mesopic is None else AdaptationLevels.from_json(mesopic),
+        )
+
+
+@dataclass(frozen=True)
+class ReportTable:
+    """A table of a report section: caption, column headings, rows of :data:`Cell`."""
+
+    caption: str
+    columns: tuple[str, ...]
+    rows: tuple[tuple[Cell, ...], ...]
+
+    def to_json(self) -> dict[str, Any]:
+        return _fields_json(self)
+
+    @classmethod
+    def from_json(cls, data: Mapping[str, Any]) -> ReportTable:
+        return cls(
+            str(data.get("caption") or ""),
+            tuple(str(c) for c in data.get("columns") or ()),
+            tuple(tuple(row) for row in data.get("rows") or ()),
+        )
+
+
+@dataclass(frozen=True)
+class ReportSection:
+    """A further section of the report (the colour analysis is one): a title, an anchor name
+    (``html_id``; made unique and safe by the report), paragraphs, tables and images (paths
+    relative to the output folder)."""
+
+    title: str
+    html_id: str
+    paragraphs: tuple[str, ...] = ()
+    tables: tuple[ReportTable, ...] = ()
+    images: tuple[str, ...] = ()
+
+    def to_json(self) -> dict[str, Any]:
+        return _fields_json(self)
+
+    @classmethod
+    def from_json(cls, data: Mapping[str, Any]) -> ReportSection:
+        return cls(
+            str(data.get("title") or ""),
+            str(data.get("html_id") or ""),
+            tuple(str(p) for p in data.get("paragraphs") or ()),
+            tuple(ReportTable.from_json(t) for t in data.get("tables") or ()),
+            tuple(str(i) for i in data.get("images") or ()),
+        )
+
+
+@dataclass(frozen=True)
+class ColourSummary:
+    """Where the colour analysis is (view, JSON file) and, per setup label, its confusable
+    pairs and name changes."""
+
+    view: str
+    file: str
+    confusions: Mapping[str, tuple[Confusion, ...]]
+    name_changes: Mapping[str, tuple[NameChange, ...]]
+
+    def to_json(self) -> dict[str, Any]:
+        return _fields_json(self)
+
+    @classmethod
+    def from_json(cls, data: Mapping[str, Any]) -> ColourSummary:
+        return cls(
+            str(data.get("view") or ""),
+            str(data.get("file") or ""),
+            {
+                str(k): tuple(Confusion(**{f.name: c[f.name] for f in fields(Confusion)}) for c in v)
+                for k, v in (data.get("confusions") or {}).items()
+            },
+            {
+                str(k): tuple(NameChange(c["object"], c["daylight"], c["seen"]) for c in v)
+                for k, v in (data.get("name_changes") or {}).items()
+            },
+        )
+
+
+# --- the whole ---------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class ComparisonMetrics:
+    """Everything a comparison publishes (the content of ``metrics.json``; module text).
+
+    Attributes
+    ----------
+    tool, scene, observer, settings
+        Provenance: program, scene, observer modelled, render settings.
+    setups
+        The "before" and "after" setups.
+    views
+        One :class:`ViewMetrics` per view, in the order rendered.
+    summary
+        Plain-language statements of what changes (:func:`render.output.comparison.summary_sentences`).
+    cautions
+        What the images do and do not show.
+    extra_sections
+        Further report sections, e.g. the colour analysis.
+    colours
+        Where the colour analysis is and what it found (``None`` without tagged objects).
+    lamps
+        Lamp id -> :class:`~render.colour.lamp_figures.LampFigures` (as published) of every
+        lamp either setup uses.
+    """
+
+    tool: ToolInfo
+    scene: SceneInfo
+    observer: ObserverInfo
+    settings: RenderSettings
+    setups: BeforeAfter[SetupDescription]
+    views: tuple[ViewMetrics, ...]
+    summary: tuple[str, ...] = ()
+    cautions: tuple[str, ...] = ()
+    extra_sections: tuple[ReportSection, ...] = ()
+    colours: ColourSummary | None = None
+    lamps: Mapping[str, LampFigures] | None = None
+
+    def to_json(self) -> dict[str, Any]:
+        """The content of ``metrics.json`` (JSON-safe; keys in a fixed order)."""
+        out = _fields_json(self)
+        if self.colours is None:
+            del out["colours"]
+        return out
+
+    @classmethod
+    def from_json(cls, data: Mapping[str, Any]) -> ComparisonMetrics:
+        """The records of a ``metrics.json`` content (e.g. ``json.load`` of the file)."""
+        setups = data.get("setups") or {}
+        colours = data.get("colours")
+        return cls(
+            tool=ToolInfo.from_json(data.get("tool") or {}),
+            scene=SceneInfo.from_json(data.get("scene") or {}),
+            observer=ObserverInfo.from_json(data.get("observer") or {}),
+            settings=RenderSettings.from_json(data.get("settings") or {}),
+            setups=BeforeAfter(
+                SetupDescription.from_json(setups.get("before") or {}),
+                SetupDescription.from_json(setups.get("after") or {}),
+            ),
+            views=tuple(ViewMetrics.from_json(v) for v in data.get("views") or ()),
+            summary=tuple(str(s) for s in data.get("summary") or ()),
+            cautions=tuple(str(c) for c in data.get("cautions") or ()),
+            extra_sections=tuple(ReportSection.from_json(s) for s in data.get("extra_sections") or ()),
+            colours=None if colours is None else ColourSummary.from_json(colours),
+            lamps={str(k): LampFigures.from_json(v) for k, v in (data.get("lamps") or {}).items()},
+        )
+
+    def lamp_figure_mean(self, key: str, setup: str) -> float | None:
+        """Mean of lamp figure ``key`` over the lamps of setup ``setup`` ("before"/"after")
+        that define it (``None`` if none does)."""
+        lamps = self.lamps or {}
+        description = getattr(self.setups, setup)
+        values = [getattr(lamps[lamp], key) for lamp in description.lamps if lamp in lamps]
+        values = [v for v in values if v is not None]
+        return float(np.mean(values)) if values else None

@@ -1,0 +1,505 @@
+"""The report's content as a view model: tables, cells, images and anchors for the template.
+
+:func:`build_page` turns the comparison's records (:class:`~render.output.metrics.ComparisonMetrics`)
+into a :class:`Page`: every number becomes a :class:`NumberCell` that knows its dotted path in
+``metrics.json`` (``views.0.luminance_cd_m2.before.mean``), its exact value and its display rule
+(:mod:`render.output.report.numbers`); every image an embedded ``data:`` URI; every anchor a
+unique, id-safe name. The template (``templates/report.html.j2``) only lays these out and adds
+the page's fixed wording; it reads no dictionaries of figures.
+
+The order is fixed (setups before, after; groups by name; lamps in the order a setup lists them;
+footnotes numbered in order of first use), so the same records give the same page.
+
+References
+----------
+Display rules: :mod:`render.output.report.numbers`. The lamp figures shown are those of
+:mod:`render.colour.lamp_figures` (CIE 13.3-1995 Ra and R9, CIE 224:2017 Rf, ANSI/IES TM-30 Rf
+and Rg, CIE S 017 CCT and Duv, S/P ratio).
+"""
+
+from __future__ import annotations
+
+import re
+from collections.abc import Sequence
+from dataclasses import dataclass
+from typing import Any, ClassVar
+
+from render.colour.lamp_figures import LampFigures
+from render.output.metrics import (
+    ComparisonMetrics,
+    ReportSection,
+    SceneInfo,
+    SetupDescription,
+    ToolInfo,
+    ViewMetrics,
+)
+from render.output.report.images import EmbeddedImage, ImageFolder
+from render.output.report.numbers import format_value
+
+__all__ = [
+    "LAMP_COLUMNS",
+    "LUMINANCE_STATS",
+    "OBSERVER_ROWS",
+    "SETTINGS_ROWS",
+    "STANDING_CAUTION",
+    "ExtraPart",
+    "Footnote",
+    "Heading",
+    "NumberCell",
+    "Page",
+    "Row",
+    "RowHead",
+    "SetupPart",
+    "Table",
+    "TextCell",
+    "ViewPart",
+    "build_page",
+]
+
+#: Shown first among the cautions, whatever the metrics say.
+STANDING_CAUTION = (
+    "This is an illustrative preview of how the street may look, not a lighting design and not a "
+    "compliance calculation. Lighting classes and compliance are decided by local codes and "
+    "standards and by qualified, licensed lighting practitioners."
+)
+
+#: Lamp figure columns: (figure key, heading, unit, display rule).
+LAMP_COLUMNS: tuple[tuple[str, str, str, str], ...] = (
+    ("cct_K", "CCT", "K", "fixed0"),
+    ("duv", "Duv", "", "signed4"),
+    ("ra", "Ra", "CIE 13.3", "fixed0"),
+    ("r9", "R9", "CIE 13.3", "fixed0"),
+    ("rf_cie2017", "Rf", "CIE 224", "fixed0"),
+    ("rf_tm30", "Rf", "TM-30", "fixed0"),
+    ("rg_tm30", "Rg", "TM-30", "fixed0"),
+    ("sp_ratio", "S/P", "", "fixed2"),
+    ("ler_lm_per_w", "Efficacy", "lm/W of light", "fixed0"),
+    ("blue_fraction", "Blue", "% below 500 nm", "percent1"),
+    ("notch_fraction", "Notch", "% within \u00b12 nm", "percent1"),
+)
+
+#: Luminance statistics of a view: (field of LuminanceStats, heading).
+LUMINANCE_STATS = (("mean", "mean"), ("min", "minimum"), ("median", "median"), ("p95", "95th percentile"))
+
+#: Observer rows: (field of ObserverInfo, label, display rule, why a value may be missing).
+OBSERVER_ROWS = (
+    ("age_years", "observer age (years)", "fixed0", "not given"),
+    ("pigmentation", "eye pigmentation (0 very dark \u2026 1.2 very light blue; CIE 146)", "fixed2", "not given"),
+    ("display_peak_cd_m2", "display peak luminance assumed (cd/m\u00b2)", "sig3", "not given"),
+    ("adaptation_cd_m2", "adaptation luminance (cd/m\u00b2)", "sig3", "not set: each view uses its own level"),
+)
+
+#: Render setting rows: (field of RenderSettings, label, display rule).
+SETTINGS_ROWS = (
+    ("samples_per_pixel", "samples per pixel", "int"),
+    ("seed", "random seed", "int"),
+    ("width_px", "image width (px)", "int"),
+    ("height_px", "image height (px)", "int"),
+)
+
+_ID_SAFE = re.compile(r"^[A-Za-z][A-Za-z0-9_-]*$")
+
+#: Anchors of the page's own parts (extra sections get others).
+_FIXED_ANCHORS = frozenset(
+    {"main", "summary", "lamps", "observer", "cautions-title", "summary-title", "lamps-title", "observer-title"}
+)
+
+
+# --- the view model ----------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class Footnote:
+    """A numbered note marker (the notes are listed under the lamp tables)."""
+
+    number: int
+
+
+@dataclass(frozen=True)
+class NumberCell:
+    """A table cell showing a figure of ``metrics.json``.
+
+    ``path`` is the figure's dotted path in ``metrics.json``, ``value`` its exact value, ``rule``
+    the display rule. An undefined value shows a dash with ``reason`` as tooltip and as text
+    (visually hidden unless ``show_reason``); ``note`` is a footnote marker after the value.
+    """
+
+    path: str
+    value: Any
+    rule: str
+    reason: str | None = None
+    show_reason: bool = False
+    note: Footnote | None = None
+    kind: ClassVar[str] = "number"
+
+    @property
+    def text(self) -> str:
+        """The value as shown (:func:`~render.output.report.numbers.format_value`)."""
+        return format_value(self.value, self.rule)
+
+    @property
+    def defined(self) -> bool:
+        return self.value is not None
+
+    @property
+    def data_value(self) -> str:
+        """The exact value as written in ``data-value``: Python ``repr``, or ``null``."""
+        return "null" if self.value is None else repr(self.value)
+
+
+@dataclass(frozen=True)
+class TextCell:
+    """A table cell of text (``colspan``: columns it spans)."""
+
+    text: str
+    colspan: int | None = None
+    kind: ClassVar[str] = "text"
+
+
+@dataclass(frozen=True)
+class RowHead:
+    """A row heading; ``sub`` is a second, smaller line (a lamp's id under its name)."""
+
+    text: str
+    sub: str | None = None
+
+
+@dataclass(frozen=True)
+class Row:
+    head: RowHead | None
+    cells: tuple[NumberCell | TextCell, ...]
+
+
+@dataclass(frozen=True)
+class Heading:
+    """A column heading; ``numeric`` right-aligns it; a ``unit`` (even empty) goes on a line
+    of its own."""
+
+    text: str
+    numeric: bool = False
+    unit: str | None = None
+
+
+@dataclass(frozen=True)
+class Table:
+    """A titled table. ``scrolls``: it may be wider than the page and sits in a focusable,
+    scrollable region."""
+
+    id: str
+    title: str
+    rows: tuple[Row, ...]
+    head: tuple[Heading, ...] = ()
+    css: str = "figures"
+    scrolls: bool = False
+
+
+@dataclass(frozen=True)
+class ViewPart:
+    """One view's part of the page: its images and its luminance and adaptation tables."""
+
+    index: int
+    name: str
+    notes: str
+    before: str
+    after: str
+    before_shared: EmbeddedImage
+    before_adapted: EmbeddedImage
+    after_shared: EmbeddedImage
+    after_adapted: EmbeddedImage
+    falsecolour_before: EmbeddedImage
+    falsecolour_after: EmbeddedImage
+    falsecolour_legend: EmbeddedImage
+    side_by_side: EmbeddedImage
+    wipe: EmbeddedImage
+    luminance: Table
+    adaptation: Table
+
+
+@dataclass(frozen=True)
+class SetupPart:
+    """One setup: ``key`` ("before"/"after"), name, description, its groups and lamp figures."""
+
+    key: str
+    name: str
+    description: str
+    groups: Table | None
+    lamps: Table
+
+
+@dataclass(frozen=True)
+class ExtraPart:
+    """A further section (the colour analysis), under a unique anchor."""
+
+    anchor: str
+    title: str
+    paragraphs: tuple[str, ...]
+    tables: tuple[Table, ...]
+    figures: tuple[EmbeddedImage, ...]
+
+
+@dataclass(frozen=True)
+class Page:
+    """Everything the template shows.
+
+    ``nav`` is the table of contents as (anchor, label); ``notes`` the lamp-figure footnotes
+    in number order.
+    """
+
+    scene: SceneInfo
+    tool: ToolInfo
+    cautions: tuple[str, ...]
+    nav: tuple[tuple[str, str], ...]
+    summary: tuple[str, ...]
+    setups: tuple[SetupPart, ...]
+    views: tuple[ViewPart, ...]
+    notes: tuple[str, ...]
+    extras: tuple[ExtraPart, ...]
+    observer: Table
+    settings: Table
+
+
+# --- building it -------------------------------------------------------------------------------
+
+
+def _slug(text: str) -> str:
+    """An id-safe form of ``text`` (letters, digits, ``_`` and ``-``)."""
+    slug = re.sub(r"[^A-Za-z0-9_-]+", "-", str(text)).strip("-")
+    return slug if slug and slug[0].isalpha() else f"x{slug}"
+
+
+class _Footnotes:
+    """Numbered notes in order of first use; the same text gets the same number."""
+
+    def __init__(self) -> None:
+        self.items: list[str] = []
+
+    def mark(self, text: str) -> Footnote:
+        if text not in self.items:
+            self.items.append(text)
+        return Footnote(self.items.index(text) + 1)
+
+
+def _setup_name(setup: SetupDescription, key: str) -> str:
+    return setup.name or key
+
+
+def _view_part(i: int, view: ViewMetrics, metrics: ComparisonMetrics, images: ImageFolder) -> ViewPart:
+    before = _setup_name(metrics.setups.before, "before")
+    after = _setup_name(metrics.setups.after, "after")
+    names = {"before": before, "after": after}
+    lum_rows = tuple(
+        Row(
+            RowHead(f"{key}: {names[key]}"),
+            tuple(
+                NumberCell(f"views.{i}.luminance_cd_m2.{key}.{stat}", getattr(stats, stat), "sig3", reason="not given")
+                for stat, _ in LUMINANCE_STATS
+            ),
+        )
+        for key, stats in view.luminance_cd_m2.items()
+    )
+    luminance = Table(
+        f"luminance-{i}",
+        "Luminance of the rendered view (cd/m\u00b2)",
+        lum_rows,
+        head=(Heading("lighting"), *(Heading(label, numeric=True) for _, label in LUMINANCE_STATS)),
+    )
+    levels = view.adaptation_cd_m2
+    adaptation = Table(
+        f"adaptation-{i}",
+        "Adaptation luminance the images were made for (cd/m\u00b2)",
+        tuple(
+            Row(
+                RowHead(label),
+                (NumberCell(f"views.{i}.adaptation_cd_m2.{key}", getattr(levels, key), "sig3", reason="not given"),),
+            )
+            for key, label in (
+                ("before", f"adapted, before: {before}"),
+                ("after", f"adapted, after: {after}"),
+                ("shared", "shared exposure"),
+            )
+        ),
+    )
+    img = view.images
+    return ViewPart(
+        index=i,
+        name=view.name,
+        notes=view.notes or "",
+        before=before,
+        after=after,
+        before_shared=images.get(img.before_shared),
+        before_adapted=images.get(img.before_adapted),
+        after_shared=images.get(img.after_shared),
+        after_adapted=images.get(img.after_adapted),
+        falsecolour_before=images.get(img.falsecolour_before),
+        falsecolour_after=images.get(img.falsecolour_after),
+        falsecolour_legend=images.get(img.falsecolour_legend),
+        side_by_side=images.get(img.side_by_side),
+        wipe=images.get(img.wipe),
+        luminance=luminance,
+        adaptation=adaptation,
+    )
+
+
+def _lamp_row(lamp_id: str, fig: LampFigures | None, notes: _Footnotes) -> Row:
+    if fig is None:
+        return Row(RowHead(lamp_id), (TextCell("no figures given for this lamp", colspan=len(LAMP_COLUMNS)),))
+    undefined = fig.undefined
+    warnings = list(fig.warnings)
+    cie133 = [w for w in warnings if w.startswith("CIE 13.3")]
+    cells = []
+    for key, _, _, rule in LAMP_COLUMNS:
+        value = getattr(fig, key)
+        note = reason = None
+        if value is None:
+            reason = undefined.get(key, "not given")
+            note = notes.mark(f"{lamp_id}: {reason}")
+        elif key in ("ra", "r9") and cie133:
+            note = notes.mark(f"{lamp_id}: {cie133[0]}")
+        cells.append(NumberCell(f"lamps.{lamp_id}.{key}", value, rule, reason=reason, note=note))
+    for w in warnings:
+        if w not in cie133:
+            notes.mark(f"{lamp_id}: {w}")
+    return Row(RowHead(fig.name or lamp_id, sub=lamp_id), tuple(cells))
+
+
+def _groups_table(key: str, setup: SetupDescription) -> Table | None:
+    rows = []
+    for group in sorted(setup.groups):
+        g = setup.groups[group]
+        base = f"setups.{key}.groups.{group}"
+        rows.append(
+            Row(
+                RowHead("all luminaires" if group == "*" else group),
+                (
+                    TextCell(g.lamp),
+                    NumberCell(
+                        f"{base}.lumens",
+                        g.lumens,
+                        "fixed0",
+                        reason="not set: the photometric file's rated flux is used",
+                    ),
+                    NumberCell(f"{base}.dimming", g.dimming, "percent0", reason="not set"),
+                ),
+            )
+        )
+    if not rows:
+        return None
+    head = (
+        Heading("luminaire group"),
+        Heading("lamp"),
+        Heading("luminous flux (lm)", numeric=True),
+        Heading("output (% of full)", numeric=True),
+    )
+    return Table(f"groups-{_slug(key)}", f"Luminaire groups, {key}: {_setup_name(setup, key)}", tuple(rows), head)
+
+
+def _setup_parts(metrics: ComparisonMetrics, notes: _Footnotes) -> tuple[SetupPart, ...]:
+    lamps = metrics.lamps or {}
+    head = (Heading("lamp"), *(Heading(heading, numeric=True, unit=unit) for _, heading, unit, _ in LAMP_COLUMNS))
+    parts = []
+    for key, setup in metrics.setups.items():
+        rows = tuple(_lamp_row(lamp_id, lamps.get(lamp_id), notes) for lamp_id in dict.fromkeys(setup.lamps))
+        lamp_table = Table(
+            f"lamps-{_slug(key)}",
+            f"Lamp figures, {key}: {_setup_name(setup, key)}",
+            rows,
+            head,
+            css="figures lamps",
+            scrolls=True,
+        )
+        parts.append(SetupPart(key, _setup_name(setup, key), setup.description, _groups_table(key, setup), lamp_table))
+    return tuple(parts)
+
+
+def _extra_cell(path: str, value: Any) -> NumberCell | TextCell:
+    if value is None:
+        return NumberCell(path, None, "sig3", reason="not defined")
+    if isinstance(value, (bool, str)):
+        return TextCell(str(value))
+    return NumberCell(path, value, "int" if isinstance(value, int) else "sig3")
+
+
+def _extra_parts(
+    sections: Sequence[ReportSection], images: ImageFolder, taken: set[str]
+) -> tuple[tuple[ExtraPart, ...], list[tuple[str, str]]]:
+    parts, nav = [], []
+    for s, section in enumerate(sections):
+        wanted = section.html_id
+        anchor = wanted if _ID_SAFE.match(wanted) else "extra-" + re.sub(r"[^A-Za-z0-9_-]+", "-", wanted).strip("-")
+        base, n = anchor, 2
+        while anchor in taken or anchor == "extra-":
+            anchor, n = f"{base}-{n}", n + 1
+        taken.add(anchor)
+        tables = tuple(
+            Table(
+                f"{anchor}-table-{t}",
+                spec.caption,
+                tuple(
+                    Row(
+                        None,
+                        tuple(
+                            _extra_cell(f"extra_sections.{s}.tables.{t}.rows.{r}.{c}", value)
+                            for c, value in enumerate(row)
+                        ),
+                    )
+                    for r, row in enumerate(spec.rows)
+                ),
+                head=tuple(Heading(c) for c in spec.columns),
+                scrolls=True,
+            )
+            for t, spec in enumerate(section.tables)
+        )
+        parts.append(
+            ExtraPart(anchor, section.title, section.paragraphs, tables, tuple(images.get(i) for i in section.images))
+        )
+        nav.append((anchor, section.title))
+    return tuple(parts), nav
+
+
+def build_page(metrics: ComparisonMetrics, images: ImageFolder) -> Page:
+    """The :class:`Page` of ``metrics``; images are read through ``images`` (whose
+    ``problems`` list anything missing)."""
+    views = tuple(_view_part(i, v, metrics, images) for i, v in enumerate(metrics.views))
+    taken = set(_FIXED_ANCHORS) | {f"view-{i}" for i in range(len(views))}
+    extras, extra_nav = _extra_parts(metrics.extra_sections, images, taken)
+    nav = [("summary", "In short")]
+    nav += [(f"view-{v.index}", f"View: {v.name}") for v in views]
+    nav += [("lamps", "The lamps"), *extra_nav, ("observer", "Observer and settings")]
+    notes = _Footnotes()
+    setups = _setup_parts(metrics, notes)
+    observer = Table(
+        "observer-table",
+        "Observer modelled",
+        tuple(
+            Row(
+                RowHead(label),
+                (NumberCell(f"observer.{key}", getattr(metrics.observer, key), rule, reason=reason, show_reason=True),),
+            )
+            for key, label, rule, reason in OBSERVER_ROWS
+        ),
+    )
+    settings = Table(
+        "settings-table",
+        "Render settings",
+        tuple(
+            Row(
+                RowHead(label),
+                (NumberCell(f"settings.{key}", getattr(metrics.settings, key), rule, reason="not given"),),
+            )
+            for key, label, rule in SETTINGS_ROWS
+        ),
+    )
+    cautions = (STANDING_CAUTION, *(c for c in metrics.cautions if c != STANDING_CAUTION))
+    return Page(
+        scene=metrics.scene,
+        tool=metrics.tool,
+        cautions=cautions,
+        nav=tuple(nav),
+        summary=metrics.summary,
+        setups=setups,
+        views=views,
+        notes=tuple(notes.items),
+        extras=extras,
+        observer=observer,
+        settings=settings,
+    )
