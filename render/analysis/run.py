@@ -154,7 +154,10 @@ def colour_pictures(
         matrices, names, out_dir / f"{prefix}delta-e00.png", title="CIEDE2000 between tagged objects", png_text=text
     )
     written["spectra"] = pictures.spectrum_strip_figure(
-        list(lamps), out_dir / f"{prefix}spectrum-strips.png", title="the lamps' light spread by a grating", png_text=text
+        list(lamps),
+        out_dir / f"{prefix}spectrum-strips.png",
+        title="the lamps' light spread by a grating",
+        png_text=text,
     )
     return written
 
