@@ -7,6 +7,10 @@ Public entry points:
 * :class:`ViewLight` (input contract), :class:`ViewGeometry`, :class:`ObserverSettings`,
   :class:`DisplayResult`, :class:`AdaptationState`.
 * :func:`extra_channel_weights` -- an optional extra renderer channel (exact cone signals).
+
+References
+----------
+Each module names the methods it uses; docs/references.md lists them all.
 """
 
 from render.vision.adaptation import AdaptationState

@@ -18,16 +18,35 @@ Typical values: R ≈ 31 cycles/degree at 1 cd/m², 5 at 0.01 and 3 at 0.001 cd/
 0.007°, 0.03° and 0.05°; at the pixel pitch of a wide street view (~0.1°) the blur only shows
 at very low light or in narrow (zoomed) views, which is the honest result: the display itself
 cannot show detail the eye would resolve.
+
+References
+----------
+- G. Ward Larson, H. Rushmeier, C. Piatko (1997), "A visibility matching tone reproduction
+  operator for high dynamic range scenes", IEEE TVCG 3(4): the acuity function R(L_a) and
+  the foveal sample **(from memory)**.
+- S. Shaler (1937), "The relation between visual acuity and illumination", Journal of
+  General Physiology 21: the data behind R(L_a) (cited through Ward Larson et al.).
 """
 
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 
 import numpy as np
+import numpy.typing as npt
 from scipy.ndimage import gaussian_filter
 
 from render.vision.view import ViewGeometry
+
+__all__ = [
+    "BLUR_LEVELS_PX",
+    "FOVEAL_FIELD_DEG",
+    "apply_acuity",
+    "blur_sigma_deg",
+    "local_adaptation_cd_m2",
+    "resolvable_frequency_cpd",
+]
 
 #: Blur levels (σ in pixels) blended per pixel; level 0 is the unblurred image.
 BLUR_LEVELS_PX = (0.0, 0.5, 1.0, 2.0, 4.0, 8.0, 16.0)
@@ -35,7 +54,7 @@ BLUR_LEVELS_PX = (0.0, 0.5, 1.0, 2.0, 4.0, 8.0, 16.0)
 FOVEAL_FIELD_DEG = 1.0
 
 
-def resolvable_frequency_cpd(adaptation_cd_m2) -> np.ndarray:
+def resolvable_frequency_cpd(adaptation_cd_m2: npt.ArrayLike) -> np.ndarray:
     """Highest resolvable spatial frequency, cycles/degree (Ward Larson et al. 1997 after
     Shaler 1937; from memory): ``17.25·atan(1.4·log10 L + 0.35) + 25.72``, floored at 0.5."""
     la = np.maximum(np.asarray(adaptation_cd_m2, dtype=np.float64), 1e-12)
@@ -43,19 +62,22 @@ def resolvable_frequency_cpd(adaptation_cd_m2) -> np.ndarray:
     return np.maximum(r, 0.5)
 
 
-def blur_sigma_deg(adaptation_cd_m2) -> np.ndarray:
+def blur_sigma_deg(adaptation_cd_m2: npt.ArrayLike) -> np.ndarray:
     """Gaussian σ, degrees, that removes detail above the resolvable frequency: 1/(2R·√12)."""
     return 1.0 / (2.0 * resolvable_frequency_cpd(adaptation_cd_m2) * math.sqrt(12.0))
 
 
-def local_adaptation_cd_m2(luminance_cd_m2: np.ndarray, geometry: ViewGeometry) -> np.ndarray:
+def local_adaptation_cd_m2(luminance_cd_m2: npt.ArrayLike, geometry: ViewGeometry) -> np.ndarray:
     """Photopic luminance averaged over a 1° foveal field around each pixel, cd/m²."""
     sigma_px = 0.5 * FOVEAL_FIELD_DEG / geometry.deg_per_px_centre
     return gaussian_filter(np.asarray(luminance_cd_m2, dtype=np.float64), sigma_px, mode="nearest")
 
 
 def apply_acuity(
-    image: np.ndarray, local_luminance_cd_m2: np.ndarray, geometry: ViewGeometry, levels_px=BLUR_LEVELS_PX
+    image: npt.ArrayLike,
+    local_luminance_cd_m2: npt.ArrayLike,
+    geometry: ViewGeometry,
+    levels_px: Sequence[float] = BLUR_LEVELS_PX,
 ) -> tuple[np.ndarray, np.ndarray]:
     """Blur ``image`` (H, W, C) by the luminance-dependent acuity loss.
 

@@ -32,6 +32,20 @@ Other published pieces used here
 * Degree of chromatic adaptation: CIECAM02 (CIE 159:2004) / CAM16 (Li et al. 2017)
   ``D = F·[1 − (1/3.6)·exp((−L_A − 42)/92)]`` with F = 1 (average surround: the observer is
   immersed in the scene), L_A the adaptation luminance in cd/m².
+
+References
+----------
+- CIE 191:2010, "Recommended system for mesopic photometry based on visual performance".
+- CIE TN 007:2017, "Interim recommendation for practical application of the CIE system for
+  mesopic photometry in outdoor lighting" **(not read, title from memory; our reading is stated
+  above)**.
+- S. A. Stanley, A. B. Davies (1995), "The effect of field of view size on steady-state pupil
+  diameter", Ophthalmic and Physiological Optics 15(6) **(from memory)**.
+- A. B. Watson, J. I. Yellott (2012), "A unified formula for light-adapted pupil size",
+  Journal of Vision 12(10):12 **(from memory)**.
+- CIE 159:2004, "A colour appearance model for colour management systems: CIECAM02", and
+  C. Li et al. (2017), "Comprehensive color solutions: CAM16, CAT16, and CAM16-UCS", Color
+  Research & Application 42(6): the degree of adaptation D.
 """
 
 from __future__ import annotations
@@ -42,9 +56,22 @@ from dataclasses import dataclass, replace
 from functools import lru_cache
 
 import numpy as np
+import numpy.typing as npt
 
 from render.vision.mesopic import solve_mes2
 from render.vision.view import ViewGeometry
+
+__all__ = [
+    "AdaptationState",
+    "adaptation_state",
+    "central_field_mask",
+    "degree_of_adaptation",
+    "field_means",
+    "luminaire_mask",
+    "pupil_diameter_mm",
+    "shared_adaptation_state",
+    "with_degree",
+]
 
 
 @dataclass(frozen=True)
@@ -82,7 +109,8 @@ class AdaptationState:
     field_deg: float
     how: str = "measured"
 
-    def as_dict(self) -> dict:
+    def as_dict(self) -> dict[str, object]:
+        """The state as plain numbers and strings, keyed for metadata and reports."""
         return {
             "adaptation_photopic_cd_m2": self.photopic_cd_m2,
             "adaptation_scotopic_cd_m2": self.scotopic_cd_m2,
@@ -126,7 +154,7 @@ def central_field_mask(geometry: ViewGeometry, field_deg: float) -> np.ndarray:
     return mask
 
 
-def luminaire_mask(xyz_cd_m2: np.ndarray, threshold_cd_m2: float) -> np.ndarray:
+def luminaire_mask(xyz_cd_m2: npt.ArrayLike, threshold_cd_m2: float) -> np.ndarray:
     """Pixels whose photopic luminance exceeds ``threshold_cd_m2`` (luminaire openings)."""
     return np.asarray(xyz_cd_m2)[..., 1] > threshold_cd_m2
 
@@ -145,8 +173,8 @@ def _fallback_white() -> tuple[tuple[float, float, float], float]:
 
 
 def field_means(
-    xyz_cd_m2: np.ndarray,
-    scotopic_cd_m2: np.ndarray,
+    xyz_cd_m2: npt.ArrayLike,
+    scotopic_cd_m2: npt.ArrayLike,
     geometry: ViewGeometry,
     field_deg: float,
     exclude: np.ndarray | None = None,
@@ -216,8 +244,8 @@ def adaptation_state(
     field_deg: float = 20.0,
     exclude: np.ndarray | None = None,
     override_cd_m2: float | None = None,
-    white_xyz=None,
-    white_scotopic=None,
+    white_xyz: npt.ArrayLike | None = None,
+    white_scotopic: float | None = None,
     chromatic_adaptation_degree: float | None = None,
 ) -> AdaptationState:
     """Adaptation state of an observer looking along the view's optical axis.
@@ -251,8 +279,8 @@ def shared_adaptation_state(
     *,
     field_deg: float = 20.0,
     override_cd_m2: float | None = None,
-    white_xyz=None,
-    white_scotopic=None,
+    white_xyz: npt.ArrayLike | None = None,
+    white_scotopic: float | None = None,
     chromatic_adaptation_degree: float | None = None,
 ) -> AdaptationState:
     """One adaptation state for a set of views (e.g. before and after).

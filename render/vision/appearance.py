@@ -59,6 +59,21 @@ transform of CIE XYZ (from memory; it is exact for the Judd-Vos modified XYZ and
 approximation for CIE 1931):  L = 0.15514 X + 0.54312 Y − 0.03286 Z,
 M = −0.15514 X + 0.45684 Y + 0.03286 Z, and S = Z (so S/(L+M) = 1 for the equal-energy white).
 The renderer may instead integrate :func:`extra_channel_weights` to give exact cone signals.
+
+References
+----------
+- D. Cao, J. Pokorny, V. C. Smith, A. J. Zele (2008), "Rod contributions to color perception:
+  linear with rod contrast", Vision Research 48(26): the pathway model and its constants
+  **(from memory)**.
+- A. G. Kirk, J. F. O'Brien (2011), "Perceptually based tone mapping for low-light
+  conditions", ACM Transactions on Graphics 30(4), 42: the model applied to images
+  **(from memory)**.
+- V. C. Smith, J. Pokorny (1975), "Spectral sensitivity of the foveal cone photopigments
+  between 400 and 500 nm", Vision Research 15: the cone fundamentals (colour-science's table
+  for :func:`extra_channel_weights`; the XYZ transform from memory).
+- D. I. A. MacLeod, R. M. Boynton (1979), "Chromaticity diagram showing cone excitation by
+  stimuli of equal luminance", JOSA 69(8): the troland scaling of the cone signals.
+- CIE 191:2010 (MES2): the rod share and the output luminance.
 """
 
 from __future__ import annotations
@@ -66,10 +81,33 @@ from __future__ import annotations
 from functools import lru_cache
 
 import numpy as np
+import numpy.typing as npt
 
 from render.colour.matrices import apply_matrix
 from render.vision.adaptation import AdaptationState
 from render.vision.mesopic import V_PRIME_LAMBDA0
+
+__all__ = [
+    "CAO_2008_CONE_PEAKS",
+    "GAIN_CONSTANT",
+    "LMS_TO_XYZ",
+    "OPPONENT_TO_LMS",
+    "PATHWAY_K",
+    "PATHWAY_L_WEIGHT",
+    "PATHWAY_STATIC_SATURATION",
+    "PATHWAY_SURROUND_K3",
+    "PATHWAY_WHITE_RATIO",
+    "ROD_STRENGTH",
+    "XYZ_TO_LMS",
+    "cone_peak_sensitivities",
+    "extra_channel_weights",
+    "lms_to_xyz",
+    "pathway_gains",
+    "rod_increment_per_troland",
+    "rod_intrusion",
+    "rod_share",
+    "xyz_to_lms",
+]
 
 #: XYZ -> MacLeod-Boynton LMS (Smith & Pokorny 1975 fundamentals; S = Z). From memory.
 XYZ_TO_LMS = np.array(
@@ -130,12 +168,12 @@ def extra_channel_weights() -> np.ndarray:
     return out
 
 
-def xyz_to_lms(xyz) -> np.ndarray:
+def xyz_to_lms(xyz: npt.ArrayLike) -> np.ndarray:
     """MacLeod-Boynton cone signals from XYZ (last axis), same units as XYZ."""
     return apply_matrix(XYZ_TO_LMS, xyz)
 
 
-def lms_to_xyz(lms) -> np.ndarray:
+def lms_to_xyz(lms: npt.ArrayLike) -> np.ndarray:
     """Inverse of :func:`xyz_to_lms`."""
     return apply_matrix(LMS_TO_XYZ, lms)
 
@@ -162,7 +200,7 @@ OPPONENT_TO_LMS = np.array(
 )
 
 
-def pathway_gains(q_adapt_td: np.ndarray, q_rod_adapt_td: float) -> np.ndarray:
+def pathway_gains(q_adapt_td: npt.ArrayLike, q_rod_adapt_td: float) -> np.ndarray:
     """Cone-pathway gains ``g_X = [1 + 0.33·(q_X + κ_X·q_R)/m_X]^(−1/2)`` (Cao et al. 2008)
     for the adapting field's cone (3,) and rod excitations, trolands."""
     q = np.maximum(np.asarray(q_adapt_td, dtype=np.float64), 0.0)
@@ -170,7 +208,7 @@ def pathway_gains(q_adapt_td: np.ndarray, q_rod_adapt_td: float) -> np.ndarray:
     return 1.0 / np.sqrt(1.0 + GAIN_CONSTANT * (q + ROD_STRENGTH * qr) / cone_peak_sensitivities())
 
 
-def rod_increment_per_troland(gains: np.ndarray) -> np.ndarray:
+def rod_increment_per_troland(gains: npt.ArrayLike) -> np.ndarray:
     """Cone-signal increments (ΔL, ΔM, ΔS) per scotopic troland of rod excitation
     (Cao et al. 2008 pathway model with the given gains), before any strength scaling."""
     x = ROD_STRENGTH * np.asarray(gains, dtype=np.float64) / cone_peak_sensitivities()
@@ -187,11 +225,11 @@ def rod_share(state: AdaptationState, v0: float = V_PRIME_LAMBDA0) -> float:
 
 
 def rod_intrusion(
-    xyz_cd_m2: np.ndarray,
-    scotopic_cd_m2: np.ndarray,
-    mesopic_cd_m2: np.ndarray,
+    xyz_cd_m2: npt.ArrayLike,
+    scotopic_cd_m2: npt.ArrayLike,
+    mesopic_cd_m2: npt.ArrayLike,
     state: AdaptationState,
-    lms_cd_m2: np.ndarray | None = None,
+    lms_cd_m2: npt.ArrayLike | None = None,
     enabled: bool = True,
 ) -> np.ndarray:
     """Perceived colour (as absolute XYZ, cd/m², Y = mesopic luminance) under rod intrusion.

@@ -19,6 +19,16 @@
 
 The stage returns arrays (quantised with :func:`quantise`); PNG files are written by
 :mod:`render.output.images`.
+
+References
+----------
+- C. Li et al. (2017), "Comprehensive color solutions: CAM16, CAT16, and CAM16-UCS", Color
+  Research & Application 42(6): CAT16 (matrix as in colour-science).
+- M. D. Fairchild (1996), "Refinement of the RLAB color space", Color Research & Application
+  21: Hunt's cone-specific incomplete adaptation **(from memory)**.
+- IEC 61966-2-1:1999, sRGB: matrix (through colour-science), white and transfer curve.
+- B. Ottosson (2020), "A perceptual color space for image processing" (Oklab).
+- W3C, CSS Color Module Level 4, gamut mapping at constant OkLCh lightness and hue.
 """
 
 from __future__ import annotations
@@ -28,9 +38,23 @@ from functools import lru_cache
 
 import numba
 import numpy as np
+import numpy.typing as npt
 
 from render.colour.matrices import apply_matrix
 from render.colour.oklab import MATRIX_LAB_TO_LMS, MATRIX_LMS_TO_XYZ, xyz_to_oklab
+
+__all__ = [
+    "chromatic_adaptation_cat16",
+    "chromatic_adaptation_incomplete",
+    "display_white_xyz",
+    "gamut_map_oklab",
+    "incomplete_adaptation_gains",
+    "linear_srgb_to_xyz",
+    "quantise",
+    "srgb_decode",
+    "srgb_encode",
+    "xyz_to_linear_srgb",
+]
 
 
 @lru_cache(maxsize=1)
@@ -55,7 +79,12 @@ def display_white_xyz() -> np.ndarray:
     return _constants()[2].copy()
 
 
-def chromatic_adaptation_cat16(xyz, source_white_xyz, degree: float, destination_white_xyz=None) -> np.ndarray:
+def chromatic_adaptation_cat16(
+    xyz: npt.ArrayLike,
+    source_white_xyz: npt.ArrayLike,
+    degree: float,
+    destination_white_xyz: npt.ArrayLike | None = None,
+) -> np.ndarray:
     """One-step CAT16 von Kries adaptation with degree D from a source to a destination white.
 
     ``xyz`` (..., 3) any scale; whites are normalised to Y = 1 internally. Destination default:
@@ -74,7 +103,10 @@ def chromatic_adaptation_cat16(xyz, source_white_xyz, degree: float, destination
 
 
 def incomplete_adaptation_gains(
-    source_white_xyz, adapting_cd_m2: float, discounting: float = 0.0, destination_white_xyz=None
+    source_white_xyz: npt.ArrayLike,
+    adapting_cd_m2: float,
+    discounting: float = 0.0,
+    destination_white_xyz: npt.ArrayLike | None = None,
 ) -> np.ndarray:
     """Per-cone von Kries gains (CAT16 space) for *incomplete* adaptation to a coloured light.
 
@@ -106,7 +138,11 @@ def incomplete_adaptation_gains(
 
 
 def chromatic_adaptation_incomplete(
-    xyz, source_white_xyz, adapting_cd_m2: float, discounting: float = 0.0, destination_white_xyz=None
+    xyz: npt.ArrayLike,
+    source_white_xyz: npt.ArrayLike,
+    adapting_cd_m2: float,
+    discounting: float = 0.0,
+    destination_white_xyz: npt.ArrayLike | None = None,
 ) -> np.ndarray:
     """Apply :func:`incomplete_adaptation_gains` in CAT16 space to XYZ (..., 3)."""
     _, _, _, m = _constants()
@@ -115,29 +151,29 @@ def chromatic_adaptation_incomplete(
     return apply_matrix(full, xyz)
 
 
-def xyz_to_linear_srgb(xyz) -> np.ndarray:
+def xyz_to_linear_srgb(xyz: npt.ArrayLike) -> np.ndarray:
     """Linear sRGB of relative XYZ (display white Y = 1), IEC 61966-2-1 matrix."""
     return apply_matrix(_constants()[0], xyz)
 
 
-def linear_srgb_to_xyz(rgb) -> np.ndarray:
+def linear_srgb_to_xyz(rgb: npt.ArrayLike) -> np.ndarray:
     """Inverse of :func:`xyz_to_linear_srgb`."""
     return apply_matrix(_constants()[1], rgb)
 
 
-def srgb_encode(linear) -> np.ndarray:
+def srgb_encode(linear: npt.ArrayLike) -> np.ndarray:
     """IEC 61966-2-1 sRGB transfer curve (input clipped to [0, 1])."""
     x = np.clip(np.asarray(linear, dtype=np.float64), 0.0, 1.0)
     return np.where(x <= 0.0031308, 12.92 * x, 1.055 * np.power(x, 1.0 / 2.4) - 0.055)
 
 
-def srgb_decode(encoded) -> np.ndarray:
+def srgb_decode(encoded: npt.ArrayLike) -> np.ndarray:
     """Inverse of :func:`srgb_encode`."""
     v = np.clip(np.asarray(encoded, dtype=np.float64), 0.0, 1.0)
     return np.where(v <= 0.04045, v / 12.92, ((v + 0.055) / 1.055) ** 2.4)
 
 
-def quantise(encoded, bits: int) -> np.ndarray:
+def quantise(encoded: npt.ArrayLike, bits: int) -> np.ndarray:
     """Round encoded values in [0, 1] to unsigned integers of 8 or 16 bits."""
     if bits not in (8, 16):
         raise ValueError("bits must be 8 or 16")
@@ -196,7 +232,7 @@ def _gamut_kernel(lab, to_lms, to_xyz, to_rgb, iterations, tol, out):
         out[i, 2] = r2
 
 
-def gamut_map_oklab(xyz, iterations: int = 30, tol: float = 1e-9) -> tuple[np.ndarray, np.ndarray]:
+def gamut_map_oklab(xyz: npt.ArrayLike, iterations: int = 30, tol: float = 1e-9) -> tuple[np.ndarray, np.ndarray]:
     """Linear sRGB in [0, 1] for relative XYZ, out-of-gamut colours mapped at constant Oklab
     lightness and hue (chroma reduced by bisection; Ottosson 2020's space, the constant-hue
     chroma reduction of CSS Color 4). Returns ``(rgb, was_out_of_gamut)``."""

@@ -1,4 +1,13 @@
-"""Who is looking: the observer and display settings of the vision stage."""
+"""Who is looking: the observer and display settings of the vision stage.
+
+References
+----------
+- CIE 146:2002, "CIE equations for disability glare": age and eye pigmentation of the glare
+  spread (:mod:`render.vision.glare`; docs/references.md).
+- CIE 140:2000 / EN 13201-3:2015: the 23-year observer of the threshold increment
+  **(from memory)**, mentioned to explain our different default.
+- IEC 61966-2-1:1999: the sRGB reference display white of 80 cd/m².
+"""
 
 from __future__ import annotations
 
@@ -7,6 +16,8 @@ from dataclasses import dataclass, fields
 from typing import Any
 
 from render.errors import ProblemList, did_you_mean
+
+__all__ = ["GLARE_MODELS", "PIGMENTATION_MAX", "ObserverSettings"]
 
 #: Glare spread functions the vision stage offers (:mod:`render.vision.glare`).
 GLARE_MODELS = ("cie146-general", "stiles-holladay")
@@ -68,7 +79,7 @@ class ObserverSettings:
     chromatic_adaptation_degree: float | None = None
     luminaire_threshold_cd_m2: float = 1000.0
 
-    def __post_init__(self):
+    def __post_init__(self) -> None:
         self.validate()
 
     def validate(self, source: str = "observer") -> None:
@@ -106,7 +117,9 @@ class ObserverSettings:
         p.raise_if_any()
 
     @classmethod
-    def from_mapping(cls, values: Mapping[str, Any], source: str = "observer", where: str = "observer"):
+    def from_mapping(
+        cls, values: Mapping[str, Any], source: str = "observer", where: str = "observer"
+    ) -> ObserverSettings:
         """Build settings from a mapping (e.g. a scene file's ``[observer]`` table).
 
         Unknown keys and bad values are reported together as one

@@ -21,6 +21,14 @@ Modes: ``adapted`` (each image for an observer adapted to it), ``shared`` (one a
 and one scale factor for a set of images, :func:`shared_display`), ``photometric`` (false-colour
 luminance with a legend, :mod:`~render.vision.falsecolour`) and ``fixed`` (a given linear
 exposure, no highlight roll-off: for checks against colorimetry).
+
+References
+----------
+The sources of each step are listed in its module: CIE 146:2002 (glare), CIE 191:2010 and
+CIE TN 007:2017 (adaptation, mesopic luminance), Cao et al. 2008 and Kirk & O'Brien 2011
+(rod intrusion), Ward Larson, Rushmeier & Piatko 1997 (acuity), Ward 1994 (tone scale), CAT16
+(Li et al. 2017), Ottosson 2020 (Oklab) and IEC 61966-2-1:1999 (sRGB); docs/references.md
+says how each was checked.
 """
 
 from __future__ import annotations
@@ -29,6 +37,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass, field, replace
 
 import numpy as np
+import numpy.typing as npt
 
 from render.errors import InputError, Problem, did_you_mean
 from render.vision import acuity as _acuity
@@ -42,7 +51,26 @@ from render.vision import tonemap as _tonemap
 from render.vision.observer import ObserverSettings
 from render.vision.view import ViewGeometry
 
+__all__ = [
+    "MODES",
+    "PHOTOMETRIC_QUANTITIES",
+    "DisplayResult",
+    "ViewLight",
+    "adapt_to_display_white",
+    "display_scale",
+    "exclusion_mask",
+    "measure_adaptation",
+    "perceived_xyz",
+    "photometric_display",
+    "render_display",
+    "retinal_image",
+    "shared_display",
+    "to_display",
+]
+
+#: Display modes of the vision stage (module text).
 MODES = ("adapted", "shared", "photometric", "fixed")
+#: Luminances a false-colour (photometric) image can show.
 PHOTOMETRIC_QUANTITIES = ("photopic", "mesopic", "scotopic")
 
 
@@ -109,7 +137,7 @@ class DisplayResult:
     state: _adaptation.AdaptationState | None
     diagnostics: dict = field(default_factory=dict)
 
-    def png_text(self, extra: dict | None = None) -> dict:
+    def png_text(self, extra: dict[str, str] | None = None) -> dict[str, str]:
         """tEXt metadata describing how the image was made."""
         text = {"Software": "lampcast vision stage"}
         for key, value in self.diagnostics.items():
@@ -141,7 +169,9 @@ def _check_mode(mode: str) -> None:
 # ------------------------------------------------------------------------------ the steps
 
 
-def retinal_image(buffers: ViewLight, geometry: ViewGeometry, observer: ObserverSettings):
+def retinal_image(
+    buffers: ViewLight, geometry: ViewGeometry, observer: ObserverSettings
+) -> tuple[np.ndarray, np.ndarray, np.ndarray | None, dict[str, object]]:
     """Step 1: the view as imaged on the retina, with disability glare if enabled.
 
     Returns ``(xyz, scotopic, lms or None, diagnostics)``.
@@ -176,13 +206,13 @@ def exclusion_mask(buffers: ViewLight, observer: ObserverSettings) -> np.ndarray
 
 
 def measure_adaptation(
-    retina_xyz,
-    retina_scot,
+    retina_xyz: npt.ArrayLike,
+    retina_scot: npt.ArrayLike,
     geometry: ViewGeometry,
     observer: ObserverSettings,
     exclude: np.ndarray | None,
     buffers: ViewLight | None = None,
-):
+) -> _adaptation.AdaptationState:
     """Step 2: the adaptation state of one view (see :func:`render.vision.adaptation.adaptation_state`)."""
     white = (None, None) if buffers is None else (buffers.white_xyz, buffers.white_scotopic)
     return _adaptation.adaptation_state(
@@ -199,7 +229,11 @@ def measure_adaptation(
 
 
 def perceived_xyz(
-    retina_xyz, retina_scot, state: _adaptation.AdaptationState, observer: ObserverSettings, lms=None
+    retina_xyz: np.ndarray,
+    retina_scot: np.ndarray,
+    state: _adaptation.AdaptationState,
+    observer: ObserverSettings,
+    lms: np.ndarray | None = None,
 ) -> tuple[np.ndarray, np.ndarray]:
     """Steps 3-4: perceived colour as XYZ with Y = MES2 luminance; returns ``(xyz, L_mes)``."""
     lmes = _mesopic.mesopic_image(retina_xyz[..., 1], retina_scot, state.m)
@@ -220,7 +254,9 @@ def display_scale(
     return _tonemap.ward_scale_factor(state.mesopic_cd_m2, observer.display_peak_cd_m2)
 
 
-def adapt_to_display_white(xyz_perceived, state: _adaptation.AdaptationState, observer: ObserverSettings) -> np.ndarray:
+def adapt_to_display_white(
+    xyz_perceived: npt.ArrayLike, state: _adaptation.AdaptationState, observer: ObserverSettings
+) -> np.ndarray:
     """Step 6a: chromatic adaptation from the adapting white to the display white.
 
     Default (``observer.chromatic_adaptation_degree`` unset): sensory, cone-specific incomplete
@@ -233,8 +269,12 @@ def adapt_to_display_white(xyz_perceived, state: _adaptation.AdaptationState, ob
 
 
 def to_display(
-    xyz_perceived, state: _adaptation.AdaptationState, observer: ObserverSettings, scale: float, rolloff: bool = True
-) -> tuple[np.ndarray, dict]:
+    xyz_perceived: npt.ArrayLike,
+    state: _adaptation.AdaptationState,
+    observer: ObserverSettings,
+    scale: float,
+    rolloff: bool = True,
+) -> tuple[np.ndarray, dict[str, float]]:
     """Step 6: chromatic adaptation, tone scale, gamut mapping -> linear sRGB in [0, 1]."""
     adapted = adapt_to_display_white(xyz_perceived, state, observer)
     rel = _tonemap.to_display_relative(

@@ -22,17 +22,34 @@ Highlights: a linear map puts luminaire openings far above the display's white; 
 ``y = k + (1 − k)·(1 − exp(−(x − k)/(1 − k)))`` (value and slope continuous at the knee;
 common practice, no source). Chromaticity is kept; colours that leave the gamut are handled by
 :func:`render.vision.display.gamut_map_oklab`.
+
+References
+----------
+- G. Ward (1994), "A contrast-based scalefactor for luminance display", Graphics Gems IV,
+  pp. 415-421 **(from memory)**.
+- CIE 19/2.1 (1981), "An analytic model for describing the influence of lighting parameters
+  upon visual performance": Blackwell's threshold-versus-intensity function, as used by Ward
+  **(from memory)**.
 """
 
 from __future__ import annotations
 
 import numpy as np
+import numpy.typing as npt
+
+__all__ = [
+    "HIGHLIGHT_KNEE",
+    "blackwell_threshold_cd_m2",
+    "highlight_rolloff",
+    "to_display_relative",
+    "ward_scale_factor",
+]
 
 #: Highlight knee as a fraction of display peak (common practice, no source).
 HIGHLIGHT_KNEE = 0.8
 
 
-def blackwell_threshold_cd_m2(adaptation_cd_m2) -> np.ndarray:
+def blackwell_threshold_cd_m2(adaptation_cd_m2: npt.ArrayLike) -> np.ndarray:
     """Blackwell (CIE 1981) just-visible luminance difference, ``0.0594·(1.219 + L^0.4)^2.5``."""
     la = np.maximum(np.asarray(adaptation_cd_m2, dtype=np.float64), 0.0)
     return 0.0594 * (1.219 + la**0.4) ** 2.5
@@ -44,7 +61,7 @@ def ward_scale_factor(world_adaptation_cd_m2: float, display_peak_cd_m2: float) 
     return float(blackwell_threshold_cd_m2(l_da) / blackwell_threshold_cd_m2(world_adaptation_cd_m2))
 
 
-def highlight_rolloff(y, knee: float = HIGHLIGHT_KNEE) -> np.ndarray:
+def highlight_rolloff(y: npt.ArrayLike, knee: float = HIGHLIGHT_KNEE) -> np.ndarray:
     """Compress relative display luminance above ``knee`` smoothly toward 1 (C¹ at the knee)."""
     y = np.asarray(y, dtype=np.float64)
     if knee >= 1.0:
@@ -54,7 +71,7 @@ def highlight_rolloff(y, knee: float = HIGHLIGHT_KNEE) -> np.ndarray:
 
 
 def to_display_relative(
-    xyz_cd_m2: np.ndarray, scale: float, display_peak_cd_m2: float, knee: float | None = HIGHLIGHT_KNEE
+    xyz_cd_m2: npt.ArrayLike, scale: float, display_peak_cd_m2: float, knee: float | None = HIGHLIGHT_KNEE
 ) -> np.ndarray:
     """Display-relative XYZ (Y = 1 at the display peak) of scene XYZ in cd/m².
 

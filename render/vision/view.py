@@ -7,16 +7,26 @@ and the angle per pixel at the image centre.
 
 Conventions: pinhole camera, pixel ``(row 0, column 0)`` is the top-left pixel, pixel centres
 at half-integer positions; camera axes x to the right, y up, z forward (the optical axis).
+
+References
+----------
+- Solid angle of a rectangle in a plane seen from a point off its corner: analytic geometry,
+  a standard result.
+- J. P. Snyder (1987), "Map Projections: A Working Manual", USGS Professional Paper 1395:
+  the azimuthal equidistant projection.
 """
 
 from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
 from render.errors import ProblemList
+
+__all__ = ["ViewGeometry"]
 
 
 @dataclass(frozen=True)
@@ -35,7 +45,7 @@ class ViewGeometry:
     width_px: int
     height_px: int
 
-    def __post_init__(self):
+    def __post_init__(self) -> None:
         problems = ProblemList("view")
         if not (isinstance(self.hfov_deg, (int, float)) and 0.0 < float(self.hfov_deg) < 180.0):
             problems.add("hfov_deg", f"expected a number of degrees in (0, 180), got {self.hfov_deg!r}")
@@ -46,7 +56,7 @@ class ViewGeometry:
         problems.raise_if_any()
 
     @classmethod
-    def of(cls, camera) -> ViewGeometry:
+    def of(cls, camera: Any) -> ViewGeometry:
         """The geometry of any object with ``hfov_deg``, ``width_px`` and ``height_px``
         attributes (e.g. the renderer's camera; same pixel conventions)."""
         return cls(float(camera.hfov_deg), int(camera.width_px), int(camera.height_px))
