@@ -53,6 +53,19 @@ Input is CIELAB relative to a D65 white (the analysis's colours, see
 :mod:`render.analysis.colours`): the colour as the adapted observer sees it, named as if shown
 under reference conditions. The loss of colour at night is the vision stage's business
 (rod intrusion, incomplete adaptation), not the naming model's.
+
+References
+----------
+- B. Berlin, P. Kay (1969), "Basic color terms: their universality and evolution", University
+  of California Press: the eleven basic terms.
+- P. Centore (2020), "Beige, aqua, fuchsia, etc.: Definitions for some non-basic surface colour
+  names", Journal of the International Colour Association 25, 24-54: the prototypes (see the
+  module text for how they were read).
+- C. Li et al. (2017), "Comprehensive color solutions: CAM16, CAT16, and CAM16-UCS", Color
+  Research & Application 42(6): CAM16-UCS and CAT16 (colour-science's implementations).
+- ASTM D1535 and the 1943 Munsell renotation (colour-science ``munsell_colour_to_xyY``).
+- CIE 142-2001, "Improvement to industrial colour-difference evaluation": the 1000 lx of the
+  reference conditions.
 """
 
 from __future__ import annotations
@@ -61,6 +74,26 @@ from collections.abc import Mapping, Sequence
 from functools import lru_cache
 
 import numpy as np
+import numpy.typing as npt
+
+__all__ = [
+    "BASIC_TERMS",
+    "NAMING_ADAPTING_LUMINANCE_CD_M2",
+    "NAMING_BACKGROUND_Y",
+    "PROTOTYPES_MUNSELL",
+    "PROTOTYPE_SOURCE",
+    "colour_name",
+    "colour_name_details",
+    "colour_names",
+    "format_name_table",
+    "lab_to_cam16ucs",
+    "munsell_to_lab",
+    "name_changes",
+    "name_table",
+    "naming_model_notes",
+    "prototypes",
+    "term_distances",
+]
 
 #: The eleven basic colour terms (Berlin & Kay 1969), in their order.
 BASIC_TERMS = ("black", "white", "grey", "red", "green", "yellow", "blue", "brown", "orange", "pink", "purple")
@@ -80,6 +113,7 @@ PROTOTYPES_MUNSELL = {
     "purple": "6.81P 3.53/6.45",
 }
 
+#: Where each prototype comes from, in words (for reports).
 PROTOTYPE_SOURCE = {
     term: (
         "lampcast's choice (Centore 2020 gives no black)"
@@ -94,7 +128,7 @@ NAMING_ADAPTING_LUMINANCE_CD_M2 = 1000.0 * 0.2 / np.pi
 NAMING_BACKGROUND_Y = 20.0
 
 
-def naming_model_notes() -> dict:
+def naming_model_notes() -> dict[str, object]:
     """The naming model and its sources, JSON-safe."""
     return {
         "model": "nearest category prototype in CAM16-UCS (Li et al. 2017), reference conditions "
@@ -114,7 +148,7 @@ def _d65_xy() -> np.ndarray:
     return np.asarray(colour.CCS_ILLUMINANTS["CIE 1931 2 Degree Standard Observer"]["D65"], dtype=np.float64)
 
 
-def lab_to_cam16ucs(lab) -> np.ndarray:
+def lab_to_cam16ucs(lab: npt.ArrayLike) -> np.ndarray:
     """CAM16-UCS J', a', b' of CIELAB (..., 3) relative to D65, in the naming model's
     reference viewing conditions."""
     import colour
@@ -161,14 +195,14 @@ def prototypes() -> tuple[tuple[str, ...], np.ndarray, np.ndarray]:
     return BASIC_TERMS, lab, ucs
 
 
-def term_distances(lab) -> np.ndarray:
+def term_distances(lab: npt.ArrayLike) -> np.ndarray:
     """CAM16-UCS distance from CIELAB colour(s) (..., 3) to each prototype, (..., 11)."""
     _, _, ucs = prototypes()
     j = lab_to_cam16ucs(lab)
     return np.linalg.norm(j[..., None, :] - ucs, axis=-1)
 
 
-def colour_name_details(lab) -> dict | None:
+def colour_name_details(lab: npt.ArrayLike | None) -> dict[str, object] | None:
     """Term, margin, runner-up and all distances for one CIELAB colour (None if undefined)."""
     if lab is None:
         return None
@@ -185,7 +219,7 @@ def colour_name_details(lab) -> dict | None:
     }
 
 
-def colour_name(lab) -> tuple[str | None, float | None]:
+def colour_name(lab: npt.ArrayLike | None) -> tuple[str | None, float | None]:
     """Basic colour term of a CIELAB colour (D65 white) and its naming margin.
 
     Returns ``(term, margin)``: the nearest prototype in CAM16-UCS and how much nearer it is
@@ -195,12 +229,14 @@ def colour_name(lab) -> tuple[str | None, float | None]:
     return (None, None) if d is None else (d["term"], d["margin"])
 
 
-def colour_names(labs) -> list[tuple[str | None, float | None]]:
+def colour_names(labs: npt.ArrayLike) -> list[tuple[str | None, float | None]]:
     """:func:`colour_name` of each row of ``labs`` (n, 3)."""
     return [colour_name(row) for row in np.asarray(labs, dtype=np.float64).reshape(-1, 3)]
 
 
-def name_table(object_names: Sequence[str], daylight_labs, setup_labs: Mapping[str, object]) -> list[dict]:
+def name_table(
+    object_names: Sequence[str], daylight_labs: npt.ArrayLike, setup_labs: Mapping[str, npt.ArrayLike]
+) -> list[dict]:
     """A colour-naming experiment's table: daylight name vs predicted name under each setup.
 
     Parameters
