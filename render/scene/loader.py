@@ -3,6 +3,10 @@
 :func:`load_scene` returns a :class:`~render.scene.model.Scene` or raises one
 :class:`~render.errors.InputError` listing *every* mistake found, each naming the file and the
 key path (or line, for TOML syntax errors and OBJ files).
+
+References
+----------
+- TOML v1.0.0, read with Python's :mod:`tomllib` (syntax errors carry line and column).
 """
 
 from __future__ import annotations
@@ -30,6 +34,8 @@ from render.scene.model import (
     luminaire_groups,
 )
 from render.scene.schema import Field, check_table, check_value, join
+
+__all__ = ["check_scene", "load_scene"]
 
 M = "m"
 DEG = "degrees"

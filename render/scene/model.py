@@ -3,15 +3,39 @@
 Coordinates: metres, right-handed, **x along the street** (0 at the start, increasing to
 ``street.length_m``), **y across it** (0 on the carriageway centre line, +y to the left when
 looking along +x), **z up** (0 on the carriageway surface).
+
+The dataclasses are plain records of lampcast's own schema (``scenes/README.md``); no published
+method is involved.
 """
 
 from __future__ import annotations
 
+from collections.abc import Iterable
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+__all__ = [
+    "Frontage",
+    "GroupSetting",
+    "Luminaire",
+    "Marking",
+    "RenderSettings",
+    "Scene",
+    "Setup",
+    "Street",
+    "StreetObject",
+    "StreetSide",
+    "Tag",
+    "Vec2",
+    "Vec3",
+    "View",
+    "luminaire_groups",
+]
+
+#: A point or vector in the street's plane, m.
 Vec2 = tuple[float, float]
+#: A point or vector in the world, m.
 Vec3 = tuple[float, float, float]
 
 
@@ -29,6 +53,8 @@ class StreetSide:
 
 @dataclass
 class Street:
+    """The street's cross-section and length: carriageway, kerbs and the two sides."""
+
     length_m: float
     carriageway_width_m: float
     lanes: int
@@ -43,6 +69,7 @@ class Street:
     wet: bool = False  # water film on carriageway, footways and lines (render.light.gloss)
 
     def side(self, name: str) -> StreetSide:
+        """The side called ``name`` ("left" is +y, anything else the right)."""
         return self.left if name == "left" else self.right
 
     def kerb_edge_y(self, side: str) -> float:
@@ -90,6 +117,8 @@ class StreetObject:
 
 @dataclass
 class Frontage:
+    """A row of house or shop fronts along one side of the street."""
+
     side: str
     kind: str  # "house" | "shop"
     start_m: float
@@ -136,6 +165,8 @@ class Luminaire:
 
 @dataclass
 class View:
+    """A named camera: where it stands, what it looks at, its field of view and image size."""
+
     name: str
     kind: str  # pedestrian | driver | window | aerial | custom
     position_m: Vec3
@@ -148,12 +179,16 @@ class View:
 
 @dataclass
 class RenderSettings:
+    """Camera samples per pixel and the random seed of the scene's renders."""
+
     samples_per_pixel: int = 4
     seed: int = 0
 
 
 @dataclass
 class GroupSetting:
+    """What a setup changes for one luminaire group (``None``: keep the scene's value)."""
+
     lamp: str | None = None
     photometry: str | None = None
     lumens: float | None = None
@@ -171,6 +206,8 @@ class Setup:
 
 @dataclass
 class Scene:
+    """A loaded and checked scene file (:func:`render.scene.load_scene`)."""
+
     path: Path
     name: str
     description: str
@@ -188,9 +225,11 @@ class Scene:
 
     @property
     def base_dir(self) -> Path:
+        """The scene file's folder, against which relative file references resolve."""
         return self.path.parent
 
     def view(self, name: str | None = None) -> View:
+        """The view called ``name`` (default: the first); an unknown name is an InputError."""
         from render.errors import did_you_mean, input_error
 
         if not self.views:
@@ -207,9 +246,10 @@ class Scene:
 
     @property
     def groups(self) -> list[str]:
+        """The luminaire group names, in order of first appearance."""
         return luminaire_groups(self.luminaires)
 
 
-def luminaire_groups(luminaires) -> list[str]:
+def luminaire_groups(luminaires: Iterable[Luminaire]) -> list[str]:
     """Group names of luminaires, in order of first appearance."""
     return list(dict.fromkeys(lum.group for lum in luminaires))

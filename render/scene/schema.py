@@ -4,6 +4,11 @@ A *spec* is a mapping from key to :class:`Field`. :func:`check_table` walks one 
 defaults, converts values and records every problem (unknown key with a did-you-mean, missing
 key, wrong type, out of range, non-finite number) in a :class:`~render.errors.ProblemList` under
 its key path, so that all the mistakes in a scene file are reported together.
+
+References
+----------
+- TOML v1.0.0 (the value types a table can hold), read with Python's :mod:`tomllib`.
+- Python documentation, :func:`difflib.get_close_matches` (the did-you-mean suggestions).
 """
 
 from __future__ import annotations
@@ -14,6 +19,8 @@ from dataclasses import dataclass
 from typing import Any
 
 from render.errors import ProblemList, did_you_mean
+
+__all__ = ["Field", "check_table", "check_value", "join"]
 
 _MISSING = object()
 
@@ -41,6 +48,7 @@ class Field:
 
     @property
     def required(self) -> bool:
+        """True when the key has no default and must be given."""
         return self.default is _MISSING
 
 
@@ -88,7 +96,7 @@ def _check_bounds(value: float, field: Field, where: str, problems: ProblemList)
     return True
 
 
-def check_value(value, field: Field, where: str, problems: ProblemList):
+def check_value(value: Any, field: Field, where: str, problems: ProblemList) -> Any:
     """Convert and check one value; returns the converted value or ``None`` after a problem."""
     kind = field.kind
     if kind == "any":
@@ -161,12 +169,12 @@ def join(prefix: str, key: str | int) -> str:
 
 
 def check_table(
-    table: dict,
+    table: dict[str, Any],
     spec: dict[str, Field],
     where: str,
     problems: ProblemList,
     extra: Callable[[str], bool] | None = None,
-) -> dict:
+) -> dict[str, Any]:
     """Check ``table`` against ``spec``; returns a dict with every spec key (defaults filled,
     ``None`` where a problem was recorded). Keys for which ``extra(key)`` is true are passed
     through unchecked."""
