@@ -7,6 +7,11 @@ names the file, the place in it (a line number or a key path such as
 with status 2; it never shows a traceback for a user mistake.
 
 Internal bugs stay ordinary Python exceptions.
+
+References
+----------
+- Python documentation, :func:`difflib.get_close_matches` (Ratcliff-Obershelp similarity) for
+  the did-you-mean suggestions.
 """
 
 from __future__ import annotations
@@ -15,6 +20,8 @@ import difflib
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
+
+__all__ = ["InputError", "Problem", "ProblemList", "did_you_mean", "input_error"]
 
 
 @dataclass(frozen=True)
@@ -46,7 +53,7 @@ class Problem:
 class InputError(Exception):
     """One or more problems with user input; ``str()`` lists them all, one per line."""
 
-    def __init__(self, problems: Problem | Sequence[Problem]):
+    def __init__(self, problems: Problem | Sequence[Problem]) -> None:
         if isinstance(problems, Problem):
             problems = [problems]
         self.problems: list[Problem] = list(problems)
@@ -74,20 +81,23 @@ class ProblemList:
     render.errors.InputError: street.toml: views.a.fov_deg: expected a number of degrees in (0, 180)
     """
 
-    def __init__(self, source: str | Path):
+    def __init__(self, source: str | Path) -> None:
         self.source = str(source)
         self.items: list[Problem] = []
 
     def add(self, where: str, message: str, source: str | Path | None = None) -> None:
+        """Record one problem at ``where`` (in ``source``, default the list's own file)."""
         self.items.append(Problem(str(source) if source is not None else self.source, where, message))
 
     def extend(self, error: InputError) -> None:
+        """Record every problem of another :class:`InputError`."""
         self.items.extend(error.problems)
 
     def __bool__(self) -> bool:
         return bool(self.items)
 
     def raise_if_any(self) -> None:
+        """Raise one :class:`InputError` holding every recorded problem, if there is any."""
         if self.items:
             raise InputError(self.items)
 

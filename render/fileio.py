@@ -5,6 +5,11 @@ moved into place with :func:`os.replace` (atomic on POSIX and Windows when sourc
 are on the same file system). An interrupted run therefore leaves either the previous file or
 the complete new one under the final name, never a half-written file; at worst a stray
 temporary ``.<stem>.<random>.tmp<suffix>`` remains.
+
+References
+----------
+- POSIX ``rename()`` (atomic replacement of the target name) and ``fsync()``; Python
+  documentation, :func:`os.replace`, :func:`os.fsync`, :func:`tempfile.mkstemp`.
 """
 
 from __future__ import annotations
@@ -16,6 +21,16 @@ import stat
 import tempfile
 from collections.abc import Iterator
 from pathlib import Path
+
+__all__ = [
+    "atomic_path",
+    "atomic_write_bytes",
+    "atomic_write_text",
+    "file_stem",
+    "looks_like_path",
+    "read_user_bytes",
+    "read_user_text",
+]
 
 
 @contextlib.contextmanager

@@ -12,6 +12,11 @@ view's camera rays once and keeps its :class:`~render.light.integrator.LightBuff
 :meth:`Study.relight` re-colours them for another setup without casting a ray (a setup that
 changes a photometric distribution re-evaluates the light at the stored hit points, still
 without casting camera rays).
+
+References
+----------
+The methods are those of the modules it calls: direct light (:mod:`render.light.integrator`),
+colorimetry (:mod:`render.colour.colorimetry`) and the vision stage (:mod:`render.vision`).
 """
 
 from __future__ import annotations
@@ -19,8 +24,10 @@ from __future__ import annotations
 from dataclasses import dataclass
 from functools import cached_property
 from pathlib import Path
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
+import numpy.typing as npt
 
 from render.colour.colorimetry import ViewColorimetry, resolve
 from render.errors import did_you_mean, input_error
@@ -30,6 +37,15 @@ from render.light.luminaires import LuminaireSet, channel_factors, luminaire_set
 from render.scene import Scene, load_scene
 from render.scene.model import Setup
 
+if TYPE_CHECKING:
+    from render.geometry.mesh import TriangleMesh
+    from render.rays.bvh import BVH
+    from render.rays.cameras import Camera
+    from render.vision.observer import ObserverSettings
+    from render.vision.pipeline import DisplayResult, ViewLight
+
+__all__ = ["RenderedView", "Study"]
+
 
 @dataclass
 class RenderedView:
@@ -38,7 +54,7 @@ class RenderedView:
 
     name: str
     setup: str | None
-    camera: object
+    camera: Any  # render.rays.cameras.Camera
     buffers: LightBuffers
     lights: LuminaireSet
     colorimetry: ViewColorimetry
@@ -47,7 +63,7 @@ class RenderedView:
 class Study:
     """A scene ready to render: compiled geometry, BVH, material reflectances."""
 
-    def __init__(self, scene: Scene | str | Path, *, negligible_lx: float = NEGLIGIBLE_LX):
+    def __init__(self, scene: Scene | str | Path, *, negligible_lx: float = NEGLIGIBLE_LX) -> None:
         self.scene = scene if isinstance(scene, Scene) else load_scene(scene)
         self.negligible_lx = negligible_lx
 
@@ -59,11 +75,13 @@ class Study:
         return scene_sha256(self.scene.path)
 
     @cached_property
-    def mesh(self):
+    def mesh(self) -> TriangleMesh:
+        """The scene compiled to triangles (once)."""
         return compile_scene(self.scene)
 
     @cached_property
-    def bvh(self):
+    def bvh(self) -> BVH:
+        """The bounding volume hierarchy over the mesh (built once)."""
         from render.rays.bvh import build_bvh
 
         return build_bvh(self.mesh.triangles_m)
@@ -79,6 +97,8 @@ class Study:
         )
 
     def setup(self, name: str | Setup | None) -> Setup | None:
+        """The scene's setup called ``name`` (a :class:`Setup` or ``None`` passes through); an
+        unknown name is an :class:`~render.errors.InputError`."""
         if name is None or isinstance(name, Setup):
             return name
         if name not in self.scene.setups:
@@ -91,9 +111,11 @@ class Study:
         return self.scene.setups[name]
 
     def lights(self, setup: str | Setup | None = None) -> LuminaireSet:
+        """The scene's luminaires under ``setup``, ready for the integrator."""
         return luminaire_set(self.scene, self.setup(setup))
 
-    def camera(self, view: str | None = None, width_px: int | None = None):
+    def camera(self, view: str | None = None, width_px: int | None = None) -> Camera:
+        """The camera of a view, optionally at another width (height kept in proportion)."""
         from render.rays.cameras import Camera
 
         v = self.scene.view(view)
@@ -104,6 +126,7 @@ class Study:
         return Camera(position_m=v.position_m, target_m=v.target_m, hfov_deg=v.hfov_deg, width_px=w, height_px=h)
 
     def lamp_spds(self, lamps: list[str]) -> list[np.ndarray]:
+        """The spectrum of each lamp reference (built-in id or file, read once each)."""
         from render.colour.lamps import get_lamp
 
         cache: dict[str, np.ndarray] = {}
@@ -114,7 +137,9 @@ class Study:
             out.append(cache[ref])
         return out
 
-    def setup_lamps(self, rendered: list[RenderedView], setups: list) -> list[tuple[str, np.ndarray]]:
+    def setup_lamps(
+        self, rendered: list[RenderedView], setups: list[str | Setup | None]
+    ) -> list[tuple[str, np.ndarray]]:
         """``(lamp id, spectrum)`` of every lamp the setups put into the rendered views, each once."""
         lamps: dict[str, np.ndarray] = {}
         for r, s in zip(rendered, setups):
@@ -126,6 +151,7 @@ class Study:
     def colorimetry(
         self, buffers: LightBuffers, lights: LuminaireSet, setup: str | Setup | None = None
     ) -> ViewColorimetry:
+        """Absolute colorimetry of kept buffers under ``setup``'s lamps, lumens and dimming."""
         factors, lamps = channel_factors(lights, self.setup(setup))
         return resolve(buffers, factors, self.lamp_spds(lamps), self.reflectances)
 
@@ -168,12 +194,13 @@ class Study:
         )
 
     @property
-    def observer(self):
+    def observer(self) -> ObserverSettings:
+        """The scene's observer settings, or the defaults."""
         from render.vision.observer import ObserverSettings
 
         return self.scene.observer or ObserverSettings()
 
-    def view_light(self, rendered: RenderedView):
+    def view_light(self, rendered: RenderedView) -> ViewLight:
         """The vision stage's input for a rendered view."""
         from render.vision.pipeline import ViewLight
 
@@ -186,7 +213,9 @@ class Study:
             white_scotopic=c.white_scotopic,
         )
 
-    def display_both(self, rendered: list[RenderedView], observer=None):
+    def display_both(
+        self, rendered: list[RenderedView], observer: ObserverSettings | None = None
+    ) -> tuple[list[DisplayResult], list[DisplayResult]]:
         """``(shared, adapted)`` display lists of the same views, computing glare once per view."""
         from render.vision.pipeline import render_display, retinal_image, shared_display
         from render.vision.view import ViewGeometry
@@ -199,7 +228,12 @@ class Study:
         adapted = [render_display(x, g, observer, "adapted", retina=r) for x, g, r in zip(lights, geoms, retinas)]
         return shared, adapted
 
-    def display(self, rendered: list[RenderedView] | RenderedView, mode: str = "adapted", observer=None):
+    def display(
+        self,
+        rendered: list[RenderedView] | RenderedView,
+        mode: str = "adapted",
+        observer: ObserverSettings | None = None,
+    ) -> list[DisplayResult] | DisplayResult:
         """Night-vision display images (:class:`render.vision.pipeline.DisplayResult`) of one or
         several rendered views. ``shared`` gives all of them one adaptation state (their true
         brightness relation); ``adapted`` adapts each to itself; ``photometric`` is false colour."""
@@ -224,8 +258,14 @@ class Study:
         return results if isinstance(rendered, list) else results[0]
 
     def illuminance_lx(
-        self, points_m, normals, setup: str | Setup | None = None, *, shadows: bool = True, per_group: bool = False
-    ):
+        self,
+        points_m: npt.ArrayLike,
+        normals: npt.ArrayLike,
+        setup: str | Setup | None = None,
+        *,
+        shadows: bool = True,
+        per_group: bool = False,
+    ) -> np.ndarray | dict[str, np.ndarray]:
         """Direct illuminance (lx) at points on surfaces with the given unit normals, with the
         setup's lamps, lumens and dimming and the maintenance factor; shadows from the scene's
         geometry. Returns (N,) total, or a dict group -> (N,) with ``per_group``."""

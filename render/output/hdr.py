@@ -11,6 +11,12 @@ atomically: an interrupted write never leaves a file with the final name.
 
 Display images are made from the same colorimetry by the night-vision stage
 (:mod:`render.vision`).
+
+References
+----------
+- OpenEXR file format (Academy Software Foundation), through the ``OpenEXR`` Python bindings:
+  32-bit float channels, ZIP compression, string header attributes.
+- CIE 015:2018 *Colorimetry*: X, Y, Z with the CIE 1931 2° observer; CIE 1951 V'(λ) for ``Ys``.
 """
 
 from __future__ import annotations
@@ -22,6 +28,9 @@ import numpy as np
 from render.colour.colorimetry import ViewColorimetry
 from render.fileio import atomic_path
 
+__all__ = ["CHANNELS", "read_exr", "write_exr"]
+
+#: Channel names of a lampcast EXR, in order.
 CHANNELS = ("X", "Y", "Z", "Ys")
 
 

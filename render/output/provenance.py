@@ -1,11 +1,25 @@
-"""Where an output came from: hashes of inputs, for image metadata and reports."""
+"""Where an output came from: hashes of inputs, for image metadata and reports.
+
+The text goes into PNG ``tEXt``/``iTXt`` chunks (:mod:`render.output.images`) and EXR header
+attributes (:mod:`render.output.hdr`); it holds no timestamps, so reruns give the same bytes.
+
+References
+----------
+- FIPS 180-4, Secure Hash Standard (SHA-256), through Python's :mod:`hashlib`.
+- ISO/IEC 15948:2004 (PNG): the ``Software`` keyword of the text chunks.
+"""
 
 from __future__ import annotations
 
 import hashlib
 from pathlib import Path
+from typing import TYPE_CHECKING
 
-__all__ = ["scene_sha256", "view_metadata", "image_metadata"]
+if TYPE_CHECKING:
+    from render.study import RenderedView, Study
+    from render.vision.observer import ObserverSettings
+
+__all__ = ["image_metadata", "scene_sha256", "view_metadata"]
 
 
 def scene_sha256(path: str | Path) -> str:
@@ -13,7 +27,7 @@ def scene_sha256(path: str | Path) -> str:
     return hashlib.sha256(Path(path).read_bytes()).hexdigest()
 
 
-def view_metadata(study, view: str, mode: str, seed: int, spp: int) -> dict[str, str]:
+def view_metadata(study: Study, view: str, mode: str, seed: int, spp: int) -> dict[str, str]:
     """PNG/EXR text metadata of an image of the scene's geometry alone (no setup, no observer,
     e.g. the inspection images of ``render --aov``): tool, scene and its hash, view, mode,
     seed and samples per pixel. No timestamps, so reruns are identical."""
@@ -30,7 +44,9 @@ def view_metadata(study, view: str, mode: str, seed: int, spp: int) -> dict[str,
     }
 
 
-def image_metadata(study, rendered, mode: str, observer, seed: int, spp: int) -> dict[str, str]:
+def image_metadata(
+    study: Study, rendered: RenderedView, mode: str, observer: ObserverSettings, seed: int, spp: int
+) -> dict[str, str]:
     """PNG/EXR text metadata: how an image was made (no timestamps, so reruns are identical):
     :func:`view_metadata` plus the setup and the observer."""
     return {
