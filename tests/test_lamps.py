@@ -176,7 +176,7 @@ def test_sodium_d_line_centroid(lamps):
     # NIST ASD: D2 588.995 nm, D1 589.592 nm; the sodium D line is conventionally 589.3 nm.
     lamp = lamps["sodium-low-pressure"]
     assert centroid_nm(lamp.spd, 585.0, 594.0) == pytest.approx(589.3, abs=1.0)
-    # Reference notes (common practice, no source): nearly all visible power is in the doublet.
+    # Common practice, no source (docs/references.md): nearly all visible power is in the doublet.
     assert band_power(lamp.spd, 588.0, 591.0) > 0.95
 
 
@@ -193,7 +193,7 @@ def test_mercury_line_model_peaks_at_nist_lines(lamps):
 @pytest.mark.parametrize(
     "lamp_id, lo, hi",
     [
-        # Common practice, no source (reference notes): S/P of LPS about 0.25.
+        # Common practice, no source (docs/references.md): S/P of LPS about 0.25.
         ("sodium-low-pressure", 0.2, 0.3),
         # Common practice, no source: standard HPS about 0.6-0.65.
         ("sodium-high-pressure-cie-hp1", 0.55, 0.7),
@@ -208,7 +208,7 @@ def test_sp_ratio_rules_of_thumb(figures, lamp_id, lo, hi):
 
 
 def test_colour_rendering_of_sodium_lamps(figures):
-    # Reference notes (common practice, no source): Ra of LPS strongly negative; standard HPS
+    # Common practice, no source (docs/references.md): Ra of LPS strongly negative; standard HPS
     # about 20-25 (range 10-30 here); HP1's tabulated Ra is lower.
     assert figures["sodium-low-pressure"].ra < 0
     assert 10 <= figures["sodium-high-pressure-measured"].ra <= 30

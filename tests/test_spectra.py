@@ -173,7 +173,7 @@ def test_one_watt_at_555nm_is_683_lumen():
 
 
 def test_scotopic_and_photopic_agree_at_555nm():
-    # Reference notes (CIE): K'm·V'(555) equals Km·V(555), V'(555) = 683/1699 = 0.402, so
+    # CIE (docs/references.md): K'm·V'(555) equals Km·V(555), V'(555) = 683/1699 = 0.402, so
     # S/P of 555 nm light is 1700·0.402/683 = 1.0006.
     assert float(sp_ratio(deposit_lines(555.0, 1.0))) == pytest.approx(1700.0 * 0.402 / 683.0, rel=1e-6)
     assert float(sp_ratio(deposit_lines(555.0, 1.0))) == pytest.approx(1.0, abs=2e-3)

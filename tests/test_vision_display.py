@@ -3,7 +3,7 @@
 Sources: IEC 61966-2-1 sRGB as implemented by colour-science (``cctf_encoding``,
 ``XYZ_to_sRGB``); CAT16 chromatic adaptation as implemented by colour-science
 (``chromatic_adaptation`` Von Kries/CAT16, ``chromatic_adaptation_Zhai2018``); Oklab via
-colour-science; sodium D lines from NIST ASD (reference notes); ColorChecker reflectances and
+colour-science; sodium D lines from NIST ASD (docs/references.md); ColorChecker reflectances and
 CIE illuminants D65 and A from colour-science, integrated by ``colour.sd_to_XYZ``. (The PNG
 writer's tests are in ``test_images.py``.)
 """
