@@ -1,8 +1,19 @@
 """The ``lampcast`` command line (also ``python -m render``).
 
-Each sub-command is a thin wrapper: it parses options, calls the library and prints. A user
-mistake (:class:`~render.errors.InputError`) is printed as one line per problem and the command
-exits with status 2, without a traceback.
+Each sub-command is a thin wrapper: it parses options, calls the library and prints.
+
+Conventions shared by every command:
+
+- ``--quiet`` (``-q``): no progress bars and no status notes on standard error (errors and
+  warnings are still shown). Progress bars are drawn only when standard error is a terminal
+  (:mod:`render.progress`); the flag is passed down as an argument, never set globally.
+- ``--json`` on every command that prints figures: the figures go to standard output as one JSON
+  document and nothing else is printed there (notes go to standard error).
+- Exit status: 0 done; 2 a user mistake (an :class:`~render.errors.InputError` printed one line
+  per problem, an argparse usage error, no command given) or an operating-system error on an
+  output (unwritable folder, full disk, permission denied: one line); 130 interrupted (Ctrl-C);
+  1 a bug in lampcast: a short message names the file in the per-user cache where the
+  traceback was saved (:func:`save_traceback`). No case shows a traceback.
 """
 
 from __future__ import annotations
@@ -10,16 +21,40 @@ from __future__ import annotations
 import argparse
 import json
 import sys
+from collections.abc import Sequence
 from pathlib import Path
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
 from render import __version__
-from render.resources import demo_scene_path
 from render.errors import InputError, Problem, input_error
 from render.fileio import file_stem
 from render.output.provenance import image_metadata
 from render.output.report import STANDING_CAUTION as CAUTION  # one wording of the caution everywhere
+from render.resources import demo_scene_path
+
+if TYPE_CHECKING:
+    from render.scene.model import Setup, View
+    from render.study import RenderedView, Study
+    from render.vision.observer import ObserverSettings
+
+__all__ = [
+    "DEMO_SCENE",
+    "OBSERVER_FLAGS",
+    "build_parser",
+    "cmd_check",
+    "cmd_colours",
+    "cmd_compare",
+    "cmd_demo",
+    "cmd_lamps",
+    "cmd_materials",
+    "cmd_photometry",
+    "cmd_relight",
+    "cmd_render",
+    "main",
+    "save_traceback",
+]
 
 DEMO_SCENE = demo_scene_path()
 
@@ -30,10 +65,41 @@ def _out_dir(path: str | None, default: str) -> Path:
     return out
 
 
+def _note(args: argparse.Namespace, text: str) -> None:
+    """A status note on standard error, left out with ``--quiet``."""
+    if not getattr(args, "quiet", False):
+        print(text, file=sys.stderr)
+
+
+def _json_safe(value: Any) -> Any:
+    """``value`` with numpy scalars and arrays as Python numbers and lists, paths as strings,
+    typed results through their ``to_json()``, and non-finite numbers as null (strict JSON)."""
+    if hasattr(value, "to_json"):
+        value = value.to_json()
+    if isinstance(value, dict):
+        return {str(k): _json_safe(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_json_safe(v) for v in value]
+    if isinstance(value, np.ndarray):
+        return _json_safe(value.tolist())
+    if isinstance(value, np.generic):
+        value = value.item()
+    if isinstance(value, float) and not np.isfinite(value):
+        return None
+    if isinstance(value, Path):
+        return str(value)
+    return value
+
+
+def _print_json(data: Any) -> None:
+    """The one JSON document a ``--json`` command prints on standard output."""
+    print(json.dumps(_json_safe(data), indent=2, ensure_ascii=False, allow_nan=False))
+
+
 # --- lamps -----------------------------------------------------------------------------------
 
 
-def cmd_lamps(args) -> int:
+def cmd_lamps(args: argparse.Namespace) -> int:
     from render.colour.lamp_figures import lamp_figures
     from render.colour.lamps import builtin_lamps, get_lamp
     from render.output.lamp_sheet import format_lamp_table, lamp_figures_json, plot_lamp_spectrum
@@ -48,14 +114,14 @@ def cmd_lamps(args) -> int:
         out = _out_dir(args.plots, "lamps")
         for lamp in lamps:
             plot_lamp_spectrum(lamp, out / f"{lamp.id}.png")
-        print(f"spectrum plots written to {out}/", file=sys.stderr)
+        _note(args, f"spectrum plots written to {out}/")
     return 0
 
 
 # --- materials -------------------------------------------------------------------------------
 
 
-def cmd_materials(args) -> int:
+def cmd_materials(args: argparse.Namespace) -> int:
     from render.colour.materials import material_library
     from render.output.material_sheet import format_material_table, material_table, plot_material
 
@@ -69,51 +135,71 @@ def cmd_materials(args) -> int:
         out = _out_dir(args.plots, "materials")
         for material in lib.values():
             plot_material(material, out / f"{material.id}.png")
-        print(f"reflectance plots written to {out}/", file=sys.stderr)
+        _note(args, f"reflectance plots written to {out}/")
     return 0
 
 
 # --- photometry ----------------------------------------------------------------------------
 
 
-def cmd_photometry(args) -> int:
-    from render.light.photometry import describe_photometry_file
+def cmd_photometry(args: argparse.Namespace) -> int:
+    """Key figures of a photometric file; a polar plot only with ``--plot PNG``."""
+    from render.light.photometry import load_photometry
+    from render.output.photometry_sheet import format_summary, plot_polar, summarise
 
-    plot = args.plot
-    if plot is None and not args.no_plot:
-        out = _out_dir(args.out, "photometry")
-        plot = str(out / f"{Path(args.file).stem}-polar.png")
-    print(describe_photometry_file(args.file, base_dir=Path.cwd(), plot_path=plot))
-    if plot:
-        print(f"polar plot written to {plot}", file=sys.stderr)
+    photometry = load_photometry(args.file, base_dir=Path.cwd())
+    summary = summarise(photometry)
+    plot = plot_polar(photometry, args.plot) if args.plot else None
+    if args.json:
+        _print_json({**summary.to_json(), "plot": plot})
+        return 0
+    print(format_summary(summary))
+    if plot is not None:
+        print(f"polar plot      {plot}")
     return 0
 
 
 # --- check -----------------------------------------------------------------------------------
 
 
-def cmd_check(args) -> int:
+def cmd_check(args: argparse.Namespace) -> int:
+    """Check a scene file and print what it holds (the problems found are an InputError)."""
     from render.geometry.build import compile_scene
     from render.scene import check_scene
 
     scene = check_scene(args.scene)
     mesh = compile_scene(scene)
-    inspect = [o.name for o in mesh.objects if o.inspect]
+    figures = {
+        "scene": str(args.scene),
+        "ok": True,
+        "triangles": mesh.n_triangles,
+        "objects": len(mesh.objects),
+        "materials": len(mesh.material_names),
+        "luminaires": len(scene.luminaires),
+        "groups": list(scene.groups),
+        "views": [v.name for v in scene.views],
+        "setups": list(scene.setups),
+        "inspected_objects": [o.name for o in mesh.objects if o.inspect],
+    }
+    if args.json:
+        _print_json(figures)
+        return 0
+    f = figures
     print(f"{args.scene}: OK")
-    print(f"  {mesh.n_triangles} triangles, {len(mesh.objects)} objects, {len(mesh.material_names)} materials")
-    print(f"  {len(scene.luminaires)} luminaires in groups: {', '.join(scene.groups) or '(none)'}")
-    print(f"  views: {', '.join(v.name for v in scene.views)}")
-    if scene.setups:
-        print(f"  setups: {', '.join(scene.setups)}")
-    if inspect:
-        print(f"  inspected objects: {', '.join(inspect)}")
+    print(f"  {f['triangles']} triangles, {f['objects']} objects, {f['materials']} materials")
+    print(f"  {f['luminaires']} luminaires in groups: {', '.join(f['groups']) or '(none)'}")
+    print(f"  views: {', '.join(f['views'])}")
+    if f["setups"]:
+        print(f"  setups: {', '.join(f['setups'])}")
+    if f["inspected_objects"]:
+        print(f"  inspected objects: {', '.join(f['inspected_objects'])}")
     return 0
 
 
 # --- render ----------------------------------------------------------------------------------
 
 
-def _setup_from_args(study, args):
+def _setup_from_args(study: Study, args: argparse.Namespace) -> Setup | None:
     """The setup named by --setup, or one made from --lamp (all groups), or None."""
     from render.colour.lamps import get_lamp
     from render.scene.model import GroupSetting, Setup
@@ -133,7 +219,7 @@ OBSERVER_FLAGS = {
 }
 
 
-def _observer_from_args(study, args):
+def _observer_from_args(study: Study, args: argparse.Namespace) -> ObserverSettings:
     """The scene's observer with command-line overrides."""
     from dataclasses import replace
 
@@ -154,31 +240,63 @@ def _observer_from_args(study, args):
         ) from None
 
 
-def _write_rendered(rendered, out: Path, stem: str, displays: dict, meta: dict) -> list[Path]:
+def _write_rendered(rendered: RenderedView, out: Path, stem: str, displays: dict, meta: dict) -> list[Path]:
     """EXR of the absolute light, and a PNG (8- and 16-bit) per display mode."""
     from render.output.hdr import write_exr
+    from render.output.images import write_png
 
     written = [
         write_exr(out / f"{stem}.exr", rendered.colorimetry, {k.replace("lampcast.", ""): v for k, v in meta.items()})
     ]
     for mode, result in displays.items():
         extra = {**meta, "lampcast.mode": mode}
-        written.append(result.write_png(out / f"{stem}-{mode}.png", 8, extra))
-        written.append(result.write_png(out / f"{stem}-{mode}-16bit.png", 16, extra))
+        written.append(write_png(out / f"{stem}-{mode}.png", result.srgb8, result.png_text(extra)))
+        written.append(write_png(out / f"{stem}-{mode}-16bit.png", result.srgb16, result.png_text(extra)))
     return written
 
 
-def _luminance_line(rendered) -> str:
+def _image_figures(rendered: RenderedView, files: Sequence[Path]) -> dict[str, Any]:
+    """The figures ``render`` and ``relight`` print for one image: its size, the luminance of the
+    surfaces seen (:func:`render.output.comparison.luminance_stats`, the same figures as the
+    comparison's), the brightest pixel, and the files written."""
+    from render.output.comparison import luminance_stats
+
     Y = rendered.colorimetry.luminance_cd_m2
-    lum = rendered.colorimetry.luminaire_mask
-    surf = Y[~lum] if lum is not None else Y
-    return (
-        f"{rendered.name} / {rendered.setup or 'scene lamps'}: {Y.shape[1]}x{Y.shape[0]} px; luminance of surfaces seen: "
-        f"mean {surf.mean():.3g} cd/m², median {np.median(surf):.3g} cd/m²; brightest pixel {Y.max():.3g} cd/m²"
-    )
+    return {
+        "view": rendered.name,
+        "setup": rendered.setup,
+        "width_px": int(Y.shape[1]),
+        "height_px": int(Y.shape[0]),
+        "surface_luminance_cd_m2": _json_safe(luminance_stats(rendered)),
+        "brightest_pixel_cd_m2": float(Y.max()),
+        "files": [str(p) for p in files],
+    }
 
 
-def cmd_render(args) -> int:
+def _print_images(args: argparse.Namespace, images: list[dict[str, Any]]) -> None:
+    """``render``/``relight`` output: JSON with ``--json``, else a line of figures per image and
+    the files written."""
+    if args.json:
+        _print_json({"scene": str(args.scene), "images": images})
+        return
+
+    def cd(x: float | None) -> str:
+        return "n/a" if x is None else f"{x:.3g} cd/m²"
+
+    for f in images:
+        stats = f["surface_luminance_cd_m2"]
+        print(
+            f"{f['view']} / {f['setup'] or 'scene lamps'}: {f['width_px']}x{f['height_px']} px; "
+            f"luminance of surfaces seen: mean {cd(stats['mean'])}, median {cd(stats['median'])}; "
+            f"brightest pixel {cd(f['brightest_pixel_cd_m2'])}"
+        )
+    for f in images:
+        for path in f["files"]:
+            print(path)
+
+
+def cmd_render(args: argparse.Namespace) -> int:
+    """Render one view: an absolute EXR and display PNGs (and AOV images with ``--aov``)."""
     from render.study import Study
 
     study = Study(args.scene)
@@ -189,31 +307,37 @@ def cmd_render(args) -> int:
     observer = _observer_from_args(study, args)
     written: list[Path] = []
     if args.aov:
-        from render.rays.aov import render_aovs, write_aov_previews
+        from render.output.aov_previews import write_aov_previews
+        from render.output.provenance import view_metadata
+        from render.rays.aov import render_aovs
 
         camera = study.camera(view.name, args.width)
         aovs = render_aovs(study.mesh, study.bvh, camera, samples_per_pixel=spp, seed=seed)
-        written += list(write_aov_previews(aovs, out, file_stem(view.name)))
+        meta = view_metadata(study, view.name, "aov", seed, spp)
+        written += write_aov_previews(aovs, out, file_stem(view.name), meta)
     setup = _setup_from_args(study, args)
     if not study.scene.luminaires:
         print(
             f"note: {args.scene} has no luminaires: only the night sky's darkness is rendered (no sky light is modelled)",
             file=sys.stderr,
         )
-    rendered = study.render_view(view.name, setup, samples_per_pixel=spp, seed=seed, width_px=args.width, progress=True)
+    rendered = study.render_view(
+        view.name, setup, samples_per_pixel=spp, seed=seed, width_px=args.width, progress=not args.quiet
+    )
     modes = args.mode or ["adapted", "photometric"]
     displays = {mode: study.display(rendered, mode, observer) for mode in modes}
     stem = file_stem(f"{view.name}-{rendered.setup or 'scene'}")
     written += _write_rendered(rendered, out, stem, displays, image_metadata(study, rendered, "", observer, seed, spp))
-    print(_luminance_line(rendered))
-    for path in written:
-        print(path)
+    _print_images(args, [_image_figures(rendered, written)])
     return 0
 
 
-def _render_setups(study, view, texts: list[str] | None, spp: int | None, width: int | None):
+def _render_setups(
+    study: Study, view: View, texts: list[str] | None, spp: int | None, width: int | None, *, quiet: bool
+) -> tuple[list[Setup], list[RenderedView]]:
     """Cast a view once under the first setup and re-light it for the others; setups are
-    scene setup names, lamp ids or key=value items (see render.output.comparison.parse_setup)."""
+    scene setup names, lamp ids or key=value items (see render.output.comparison.parse_setup).
+    ``quiet`` leaves out the progress bars and the re-light timings."""
     import time
 
     from render.output.comparison import parse_setup
@@ -226,16 +350,17 @@ def _render_setups(study, view, texts: list[str] | None, spp: int | None, width:
             "the scene has no [setups.NAME]; give --setup (a setup name, a lamp id or key=value items)",
         )
     setups = [parse_setup(t, study.scene, "--setup") for t in texts]
-    first = study.render_view(view.name, setups[0], samples_per_pixel=spp, width_px=width, progress=True)
+    first = study.render_view(view.name, setups[0], samples_per_pixel=spp, width_px=width, progress=not quiet)
     rendered = [first]
     for s in setups[1:]:
         t0 = time.perf_counter()
-        rendered.append(study.relight(first, s))
-        print(f"relit {view.name} for {s.name} in {(time.perf_counter() - t0) * 1000:.0f} ms", file=sys.stderr)
+        rendered.append(study.relight(first, s, progress=not quiet))
+        if not quiet:
+            print(f"relit {view.name} for {s.name} in {(time.perf_counter() - t0) * 1000:.0f} ms", file=sys.stderr)
     return setups, rendered
 
 
-def cmd_relight(args) -> int:
+def cmd_relight(args: argparse.Namespace) -> int:
     """Render a view once, then re-light it for each setup without casting camera rays."""
     from render.study import Study
 
@@ -245,24 +370,23 @@ def cmd_relight(args) -> int:
     spp = args.spp or study.scene.render.samples_per_pixel
     seed = study.scene.render.seed
     observer = _observer_from_args(study, args)
-    _, rendered = _render_setups(study, view, args.setups, spp, args.width)
+    _, rendered = _render_setups(study, view, args.setups, spp, args.width, quiet=args.quiet)
     # One adaptation state for all: the images keep their true brightness relation.
     shared = study.display(rendered, "shared", observer)
     photometric = study.display(rendered, "photometric", observer)
-    written = []
+    images = []
     for r, sh, ph in zip(rendered, shared, photometric):
         meta = image_metadata(study, r, "", observer, seed, spp)
-        written += _write_rendered(r, out, file_stem(f"{view.name}-{r.setup}"), {"shared": sh, "photometric": ph}, meta)
-        print(_luminance_line(r))
-    for path in written:
-        print(path)
+        written = _write_rendered(r, out, file_stem(f"{view.name}-{r.setup}"), {"shared": sh, "photometric": ph}, meta)
+        images.append(_image_figures(r, written))
+    _print_images(args, images)
     return 0
 
 
 # --- colours -----------------------------------------------------------------------------------
 
 
-def cmd_colours(args) -> int:
+def cmd_colours(args: argparse.Namespace) -> int:
     """Colour discrimination and naming of the tagged objects in one view, under each setup."""
     from render.analysis.naming import format_name_table
     from render.analysis.run import analyse_view_colours, colour_pictures, write_colour_json
@@ -273,11 +397,11 @@ def cmd_colours(args) -> int:
     view = study.scene.view(args.view)
     if not any(o.inspect for o in study.mesh.objects):
         raise input_error(args.scene, "", "no object has `inspect = true`: tag the objects to analyse")
-    setups, rendered = _render_setups(study, view, args.setups, args.spp, args.width)
+    out = _out_dir(args.out, f"{Path(args.scene).stem}-colours")
+    setups, rendered = _render_setups(study, view, args.setups, args.spp, args.width, quiet=args.quiet)
     first = rendered[0]
     displays = study.display(rendered, "shared", observer)
     result = analyse_view_colours(study, rendered, displays, observer, [s.name for s in setups])
-    out = _out_dir(args.out, f"{Path(args.scene).stem}-colours")
     text = image_metadata(study, first, "colour analysis", observer, study.scene.render.seed, first.buffers.spp)
     text["lampcast.setup"] = "; ".join(s.name for s in setups)
     pictures = colour_pictures(
@@ -290,6 +414,9 @@ def cmd_colours(args) -> int:
         text=text,
     )
     written = [write_colour_json(result, out / f"{file_stem(view.name)}-colours.json"), *pictures.values()]
+    if args.json:
+        _print_json({"scene": str(args.scene), "view": view.name, "analysis": result, "files": written})
+        return 0
     print(f"Colour names in view '{view.name}' (daylight vs as seen):")
     print(format_name_table(result.name_rows()))
     for s, seen in result.setups.items():
@@ -305,14 +432,15 @@ def cmd_colours(args) -> int:
 # --- compare and demo --------------------------------------------------------------------------
 
 
-def cmd_compare(args) -> int:
+def cmd_compare(args: argparse.Namespace) -> int:
+    """Before and after: images, metrics.json and report.html per view; prints the summary."""
     from render.output.comparison import run_comparison
     from render.study import Study
 
     study = Study(args.scene)
     observer = _observer_from_args(study, args)
-    out = args.out or str(Path("outputs") / f"{Path(args.scene).stem}-compare")
-    print(CAUTION, file=sys.stderr)
+    out = _out_dir(args.out, f"{Path(args.scene).stem}-compare")
+    _note(args, CAUTION)
     result = run_comparison(
         study,
         args.before,
@@ -323,14 +451,29 @@ def cmd_compare(args) -> int:
         samples_per_pixel=args.spp,
         observer=observer,
         report=not args.no_report,
+        progress=not args.quiet,
     )
-    for line in result.metrics.summary:
+    metrics = _json_safe(result.metrics)
+    if args.json:
+        views = [{k: v[k] for k in v if k not in ("images", "notes")} for v in metrics["views"]]
+        _print_json(
+            {
+                "scene": str(args.scene),
+                "summary": metrics["summary"],
+                "views": views,
+                "out_dir": result.out_dir,
+                "metrics_json": Path(result.out_dir) / "metrics.json",
+                "report": result.report,
+            }
+        )
+        return 0
+    for line in metrics["summary"]:
         print(f"- {line}")
     print(f"written to {result.out_dir}/" + (f" (open {result.report})" if result.report else ""))
     return 0
 
 
-def cmd_demo(args) -> int:
+def cmd_demo(args: argparse.Namespace) -> int:
     """The main job on the bundled demo street: sodium before, warm-white LED after."""
     ns = argparse.Namespace(
         scene=str(DEMO_SCENE),
@@ -347,6 +490,8 @@ def cmd_demo(args) -> int:
         display_peak=None,
         no_glare=False,
         no_acuity=False,
+        quiet=args.quiet,
+        json=args.json,
     )
     return cmd_compare(ns)
 
@@ -364,17 +509,17 @@ def _positive_int(text: str) -> int:
     return value
 
 
-def _observer_options(p) -> None:
+def _observer_options(p: argparse.ArgumentParser) -> None:
     g = p.add_argument_group("observer (defaults from the scene's [observer] table)")
     g.add_argument("--age", type=float, metavar="YEARS", help="observer age (glare grows with age; CIE 146)")
-    g.add_argument("--pigmentation", type=float, metavar="P", help="eye pigmentation, 0 very dark ... 1 blue eyes")
+    g.add_argument("--pigmentation", type=float, metavar="P", help="eye pigmentation, 0 dark ... 1.2 light blue")
     g.add_argument("--adaptation", type=float, metavar="CD_M2", help="adaptation luminance instead of the measured one")
     g.add_argument("--display-peak", type=float, metavar="CD_M2", help="luminance of the display's white (default 100)")
     g.add_argument("--no-glare", action="store_true", help="leave out disability glare")
     g.add_argument("--no-acuity", action="store_true", help="leave out the low-light loss of acuity")
 
 
-def _run_options(p, out_default: str) -> None:
+def _run_options(p: argparse.ArgumentParser, out_default: str) -> None:
     """Options every rendering command shares."""
     p.add_argument(
         "--spp", type=_positive_int, help="samples per pixel (default: the scene's render.samples_per_pixel)"
@@ -385,7 +530,19 @@ def _run_options(p, out_default: str) -> None:
     p.add_argument("--out", help=f"output folder (default {out_default})")
 
 
+def _output_options(p: argparse.ArgumentParser) -> None:
+    """Options every command shares: ``--quiet`` and ``--json``."""
+    g = p.add_argument_group("output")
+    g.add_argument(
+        "-q", "--quiet", action="store_true", help="no progress bars or status notes (errors and warnings still shown)"
+    )
+    g.add_argument(
+        "--json", action="store_true", help="print the figures as one JSON document on standard output, nothing else"
+    )
+
+
 def build_parser() -> argparse.ArgumentParser:
+    """The ``lampcast`` argument parser with every sub-command."""
     parser = argparse.ArgumentParser(
         prog="lampcast",
         description="Spectral night-time previews of a street under candidate street lamps. " + CAUTION,
@@ -395,7 +552,6 @@ def build_parser() -> argparse.ArgumentParser:
 
     p = sub.add_parser("lamps", help="list built-in lamps (or lamp files) with their colour and photometric figures")
     p.add_argument("ids", nargs="*", metavar="ID", help="lamp ids or spectrum files (default: all built-in lamps)")
-    p.add_argument("--json", action="store_true", help="print JSON instead of a table")
     p.add_argument(
         "--plots",
         nargs="?",
@@ -406,7 +562,6 @@ def build_parser() -> argparse.ArgumentParser:
     p.set_defaults(func=cmd_lamps)
 
     p = sub.add_parser("materials", help="list the surface materials with their sources")
-    p.add_argument("--json", action="store_true", help="print JSON instead of a table")
     p.add_argument(
         "--plots",
         nargs="?",
@@ -416,13 +571,9 @@ def build_parser() -> argparse.ArgumentParser:
     )
     p.set_defaults(func=cmd_materials)
 
-    p = sub.add_parser("photometry", help="summarise an LM-63 photometric file (flux, peak, ULOR) and plot it")
+    p = sub.add_parser("photometry", help="summarise an LM-63 photometric file (flux, peak, ULOR); plot it on request")
     p.add_argument("file", help="LM-63 (.ies) file or a built-in generic distribution id")
-    p.add_argument(
-        "--plot", metavar="PNG", help="where to write the polar plot (default outputs/photometry/NAME-polar.png)"
-    )
-    p.add_argument("--no-plot", action="store_true", help="do not write a polar plot")
-    p.add_argument("--out", help="output folder for the default plot path")
+    p.add_argument("--plot", metavar="PNG", help="also write a polar plot to this file")
     p.set_defaults(func=cmd_photometry)
 
     p = sub.add_parser("check", help="check a scene file without rendering; lists every problem found")
@@ -505,15 +656,59 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--age", type=float, metavar="YEARS", help="observer age")
     _run_options(p, "outputs/demo")
     p.set_defaults(func=cmd_demo)
+    for command in sub.choices.values():
+        _output_options(command)
     return parser
 
 
+# --- the one top-level handler -----------------------------------------------------------------
+
+
+def save_traceback(error: BaseException, argv: Sequence[str] | None = None) -> Path | None:
+    """Write ``error``'s traceback (with the version and the command line) atomically to a new
+    file in the per-user cache (``$XDG_CACHE_HOME/lampcast/crashes``, see
+    :func:`render.resources.user_cache_dir`), or, if that cannot be written, to a new private
+    temporary folder. Returns the file, or None if neither could be written."""
+    import os
+    import platform
+    import tempfile
+    import time
+    import traceback
+
+    from render.fileio import atomic_write_text
+    from render.resources import user_cache_dir
+
+    command = " ".join(["lampcast", *(sys.argv[1:] if argv is None else argv)])
+    text = (
+        f"lampcast {__version__}, Python {platform.python_version()} on {platform.platform()}\n"
+        f"command: {command}\n\n" + "".join(traceback.format_exception(error))
+    )
+    name = f"crash-{time.strftime('%Y%m%d-%H%M%S')}-{os.getpid()}.txt"
+    try:
+        return atomic_write_text(user_cache_dir() / "crashes" / name, text)
+    except OSError:
+        pass
+    try:
+        return atomic_write_text(Path(tempfile.mkdtemp(prefix="lampcast-crash-")) / name, text)
+    except OSError:
+        return None
+
+
+def _os_error_line(error: OSError) -> str:
+    """One line for an operating-system error: the file(s) and the system's reason."""
+    where = " -> ".join(str(f) for f in (error.filename, error.filename2) if f is not None)
+    reason = error.strerror or str(error) or type(error).__name__
+    return f"error: {where}: {reason}" if where else f"error: {reason}"
+
+
 def main(argv: list[str] | None = None) -> int:
+    """Run ``lampcast`` with ``argv`` (default the process's arguments); returns the exit status
+    (see the module documentation). argparse usage errors exit with status 2 as usual."""
     parser = build_parser()
     args = parser.parse_args(argv)
     if not getattr(args, "func", None):
-        parser.print_help()
-        return 0
+        parser.print_help(sys.stderr)
+        return 2
     try:
         return int(args.func(args) or 0)
     except InputError as err:
@@ -527,6 +722,19 @@ def main(argv: list[str] | None = None) -> int:
         devnull = os.open(os.devnull, os.O_WRONLY)
         os.dup2(devnull, sys.stdout.fileno())
         return 0
+    except OSError as err:
+        # An unwritable output folder, a full disk, a permission denied: the user can fix it.
+        print(_os_error_line(err), file=sys.stderr)
+        return 2
     except KeyboardInterrupt:
-        print("interrupted", file=sys.stderr)
         return 130
+    except Exception as err:  # anything else is a bug in lampcast
+        saved = save_traceback(err, argv)
+        first = (str(err).splitlines() or [""])[0][:200]
+        where = f"the traceback is saved in {saved}" if saved else "the traceback could not be saved"
+        print(
+            f"error: this is a bug in lampcast ({type(err).__name__}: {first}); {where}. "
+            "Please report it with that file.",
+            file=sys.stderr,
+        )
+        return 1

@@ -8,7 +8,11 @@ status 2 without a traceback.
 
 from __future__ import annotations
 
+import errno
 import json
+import os
+import subprocess
+import sys
 from pathlib import Path
 
 import numpy as np
@@ -128,3 +132,217 @@ def test_scene_without_luminaires_renders_dark_with_a_note(tmp_path, capsys):
 
     colorimetry, _ = read_exr(tmp_path / "v-scene.exr")
     assert np.all(colorimetry.xyz_cd_m2 == 0.0)  # direct light only: no source, no light
+
+
+# ---- command-line conventions: usage, --quiet, --json, one-line errors, the bug handler -------
+# These check the program's own documented conventions (README "Commands"), not physics; where a
+# JSON figure is checked, it is against the library's value or an analytic one named beside it.
+
+ROOT = Path(__file__).resolve().parents[1]
+FIGURE_COMMANDS = ("photometry", "check", "render", "relight", "colours", "compare", "demo", "lamps", "materials")
+
+
+@pytest.fixture(autouse=True)
+def _crash_files_in_tmp(tmp_path, monkeypatch):
+    """Tracebacks of unexpected failures go to a per-test cache folder, not the user's."""
+    monkeypatch.setenv("XDG_CACHE_HOME", str(tmp_path / "cache"))
+
+
+def _lampcast(args: list[str], cwd: Path, **kwargs) -> subprocess.CompletedProcess:
+    """``python -m render ARGS`` in a separate process (exit codes and stderr as a user sees them)."""
+    return subprocess.run(
+        [sys.executable, "-m", "render", *args], cwd=cwd, capture_output=True, text=True, timeout=300, **kwargs
+    )
+
+
+def test_no_command_prints_usage_and_exits_2(capsys, tmp_path):
+    assert main([]) == 2
+    captured = capsys.readouterr()
+    assert captured.out == "" and "usage: lampcast" in captured.err and "render" in captured.err
+    proc = _lampcast([], tmp_path)
+    assert proc.returncode == 2 and "usage: lampcast" in proc.stderr and "Traceback" not in proc.stderr
+    # argparse's own usage errors keep their status 2.
+    with pytest.raises(SystemExit) as info:
+        main(["render"])
+    assert info.value.code == 2
+
+
+def test_every_command_takes_quiet_and_the_figure_commands_take_json(capsys):
+    for command in FIGURE_COMMANDS:
+        with pytest.raises(SystemExit):
+            main([command, "--help"])
+        text = capsys.readouterr().out
+        assert "--quiet" in text and "--json" in text, command
+
+
+@pytest.mark.parametrize("command", ["render", "compare"])
+def test_unwritable_out_is_one_line_and_exit_2(command, capsys):
+    args = [command, str(SCENES / "point_over_plane.toml"), "--out", "/dev/null/x"]
+    if command == "compare":
+        args += ["--before", "sodium", "--after", "road-optic"]
+    assert main(args) == 2
+    err = capsys.readouterr().err
+    assert "Traceback" not in err and len(err.strip().splitlines()) == 1, err
+    assert "/dev/null/x" in err
+
+
+def test_unwritable_out_in_a_real_process(tmp_path):
+    proc = _lampcast(["render", str(SCENES / "point_over_plane.toml"), "--out", "/dev/null/x"], tmp_path)
+    assert proc.returncode == 2, proc.stderr
+    assert "Traceback" not in proc.stderr and len(proc.stderr.strip().splitlines()) == 1, proc.stderr
+
+
+@pytest.mark.parametrize(
+    "error",
+    [
+        OSError(errno.ENOSPC, "No space left on device", "outputs/above-scene.exr"),
+        PermissionError(errno.EACCES, "Permission denied", "outputs/above-scene.png"),
+    ],
+)
+def test_os_errors_from_outputs_are_one_line_and_exit_2(error, monkeypatch, capsys):
+    import render.cli as cli
+
+    def fail(args):
+        raise error
+
+    monkeypatch.setattr(cli, "cmd_render", fail)
+    assert main(["render", str(SCENES / "point_over_plane.toml")]) == 2
+    err = capsys.readouterr().err
+    assert "Traceback" not in err and len(err.strip().splitlines()) == 1, err
+    assert error.filename in err and error.strerror in err
+
+
+def test_unexpected_exception_saves_traceback_and_exits_1(monkeypatch, capsys, tmp_path):
+    import render.cli as cli
+
+    def broken(args):
+        raise RuntimeError("deliberately injected failure")
+
+    monkeypatch.setattr(cli, "cmd_check", broken)
+    monkeypatch.setenv("XDG_CACHE_HOME", str(tmp_path / "cache"))
+    assert main(["check", str(SCENES / "point_over_plane.toml")]) == 1
+    err = capsys.readouterr().err
+    assert "Traceback" not in err and "bug in lampcast" in err
+    saved = [p for p in (tmp_path / "cache").rglob("*") if p.is_file()]
+    assert len(saved) == 1 and str(saved[0]) in err
+    text = saved[0].read_text()
+    assert "Traceback" in text and "RuntimeError: deliberately injected failure" in text
+
+
+def test_keyboard_interrupt_exits_130_quietly(monkeypatch, capsys):
+    import render.cli as cli
+
+    def interrupted(args):
+        raise KeyboardInterrupt
+
+    monkeypatch.setattr(cli, "cmd_check", interrupted)
+    assert main(["check", str(SCENES / "point_over_plane.toml")]) == 130
+    assert capsys.readouterr().err == ""
+
+
+def test_photometry_writes_a_plot_only_when_asked(tmp_path, monkeypatch, capsys):
+    monkeypatch.chdir(tmp_path)
+    assert main(["photometry", "generic-isotropic"]) == 0
+    assert "ULOR" in capsys.readouterr().out
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_photometry_json(capsys):
+    assert main(["photometry", "generic-isotropic", "--json"]) == 0
+    s = json.loads(capsys.readouterr().out)
+    # generic-isotropic: 1000 lm spread evenly over the sphere (analytic: I = Φ / 4π, ULOR = 1/2).
+    assert s["flux_lm"] == pytest.approx(1000.0, rel=1e-6)
+    assert s["peak_cd"] == pytest.approx(1000.0 / (4 * np.pi), rel=1e-6)
+    assert s["ulor"] == pytest.approx(0.5, abs=1e-9)
+
+
+def test_check_json(capsys):
+    from render.geometry.build import compile_scene
+    from render.scene import check_scene
+
+    scene_path = SCENES / "markup_names.toml"
+    assert main(["check", str(scene_path), "--json"]) == 0
+    s = json.loads(capsys.readouterr().out)
+    scene = check_scene(scene_path)
+    mesh = compile_scene(scene)
+    assert s["triangles"] == mesh.n_triangles and s["objects"] == len(mesh.objects)
+    assert s["luminaires"] == len(scene.luminaires) and s["views"] == [v.name for v in scene.views]
+    assert s["setups"] == list(scene.setups) and s["inspected_objects"] == ["<b>bold</b> car"]
+
+
+def test_relight_json_matches_library(tmp_path, capsys):
+    from render.output.comparison import luminance_stats
+    from render.study import Study
+
+    scene = SCENES / "point_over_plane.toml"
+    assert main(["relight", str(scene), "--out", str(tmp_path), "--json", "--setup", "sodium"]) == 0
+    s = json.loads(capsys.readouterr().out)
+    (row,) = s["images"]
+    direct = luminance_stats(Study(scene).render_view("above", "sodium")).to_json()
+    assert row["setup"] == "sodium" and row["view"] == "above"
+    assert row["surface_luminance_cd_m2"]["mean"] == pytest.approx(direct["mean"], rel=1e-6)
+    assert all(Path(p).is_file() for p in row["files"])
+
+
+def test_render_json_and_nothing_else_on_stdout(tmp_path, capsys):
+    assert main(["render", str(SCENES / "point_over_plane.toml"), "--out", str(tmp_path), "--json"]) == 0
+    s = json.loads(capsys.readouterr().out)  # fails if anything else was printed
+    assert s["images"][0]["width_px"] == 64 and s["images"][0]["height_px"] == 48
+
+
+def test_colours_json_is_the_written_analysis(tmp_path, capsys):
+    assert main(["colours", str(SCENES / "markup_names.toml"), "--out", str(tmp_path), "--json"]) == 0
+    s = json.loads(capsys.readouterr().out)
+    written = json.loads(next(tmp_path.glob("*-colours.json")).read_text())
+    assert s["analysis"] == written
+    assert [o["name"] for o in s["analysis"]["objects"]] == ["<b>bold</b> car"]
+
+
+def test_compare_json_summary(tmp_path, capsys):
+    out = tmp_path / "cmp"
+    args = ["compare", str(SCENES / "markup_names.toml"), "--before", "old", "--after", "new <u>LED</u>"]
+    assert main([*args, "--out", str(out), "--no-report", "--json"]) == 0
+    s = json.loads(capsys.readouterr().out)
+    metrics = json.loads((out / "metrics.json").read_text())
+    assert s["summary"] == metrics["summary"] and len(s["summary"]) >= 1
+    assert s["views"][0]["luminance_cd_m2"] == metrics["views"][0]["luminance_cd_m2"]
+
+
+def test_no_progress_bars_when_stderr_is_not_a_terminal(tmp_path, capsys):
+    assert main(["render", str(SCENES / "point_over_plane.toml"), "--out", str(tmp_path)]) == 0
+    err = capsys.readouterr().err
+    assert "camera rays" not in err and "direct light" not in err and "\r" not in err
+
+
+def _stderr_on_a_terminal(args: list[str], cwd: Path) -> tuple[int, str]:
+    """Run lampcast with stderr on a pseudo-terminal; returns the exit code and what it showed."""
+    import fcntl
+    import pty
+    import struct
+    import termios
+
+    master, slave = pty.openpty()
+    # A new pseudo-terminal is 0 columns wide, and tqdm trims its bar to the width: make it 80.
+    fcntl.ioctl(slave, termios.TIOCSWINSZ, struct.pack("HHHH", 24, 80, 0, 0))
+    proc = subprocess.Popen([sys.executable, "-m", "render", *args], cwd=cwd, stdout=subprocess.DEVNULL, stderr=slave)
+    os.close(slave)
+    shown = bytearray()
+    while True:
+        try:
+            data = os.read(master, 4096)
+        except OSError:  # EIO: the child closed the terminal
+            break
+        if not data:
+            break
+        shown += data
+    os.close(master)
+    return proc.wait(timeout=300), shown.decode("utf-8", "replace")
+
+
+@pytest.mark.skipif(os.name != "posix", reason="needs a pseudo-terminal")
+def test_quiet_hides_progress_bars_on_a_terminal(tmp_path):
+    args = ["render", str(SCENES / "point_over_plane.toml"), "--out", str(tmp_path)]
+    code, shown = _stderr_on_a_terminal(args, tmp_path)
+    assert code == 0 and "camera rays" in shown  # the bars are there on a terminal...
+    code, shown = _stderr_on_a_terminal([*args, "--quiet"], tmp_path)
+    assert code == 0 and "camera rays" not in shown and "direct light" not in shown  # ...and not with --quiet
