@@ -31,7 +31,10 @@ __all__ = [
     "MAX_IMAGE_SIDE_PX",
     "MAX_LM63_ANGLES",
     "MAX_LM63_TILT_ANGLES",
+    "MAX_PROBLEMS_PER_FILE",
     "MAX_SAMPLES_PER_PIXEL",
+    "MAX_SPECTRUM_ROWS",
+    "MAX_TABLE_WAVELENGTH_NM",
     "MAX_TRIANGLES",
     "MemoryEstimate",
     "available_memory_bytes",
@@ -63,6 +66,16 @@ MAX_LM63_ANGLES = 100_000
 
 MAX_LM63_TILT_ANGLES = 10_000
 """Angles of an LM-63 tilt table."""
+
+MAX_SPECTRUM_ROWS = 100_000
+"""Data rows of a lamp file or a material file (a 0.01 nm table of 380-780 nm has 40 001)."""
+
+MAX_TABLE_WAVELENGTH_NM = 100_000.0
+"""Largest wavelength a lamp or material table may hold, nm (100 µm, far beyond any
+spectroradiometer); with it the integrals over a table stay finite in double precision."""
+
+MAX_PROBLEMS_PER_FILE = 10
+"""Problems a line-by-line reader reports for one file before it skips the rest of the file."""
 
 FILE_SIZE_LIMITS_BYTES: dict[str, int] = {
     "scene file": 16 * MiB,

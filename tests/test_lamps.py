@@ -462,3 +462,121 @@ def test_many_bad_rows_are_capped(tmp_path):
     with pytest.raises(InputError) as err:
         load_lamp_file(path)
     assert 10 <= len(err.value.problems) <= 12
+
+
+# --- numbers at the edge of double precision, separators, size (render.limits) -------------------
+
+# Every case: a lamp file that must be refused with an InputError naming the file and the line,
+# and saying what was expected. Binary64 limits (largest finite about 1.8e308, 1e400 parses to
+# infinity): IEEE 754-2008. The rule itself is the project's (bad input -> InputError).
+_TABLE = [(380 + 20 * i, "1.0") for i in range(21)]  # 380-780 nm every 20 nm; data on lines 1-21
+
+
+def _table(replace: dict[int, tuple[str, str]] | None = None, sep: str = ", ") -> str:
+    rows = list(_TABLE)
+    for index, row in (replace or {}).items():
+        rows[index] = row
+    return "".join(f"{w}{sep}{p}\n" for w, p in rows)
+
+
+OVERFLOW_FILES = [
+    # (file text, where, words in the message)
+    # One power of 1e308 among powers of 1: its 20 nm trapezoids hold 1e309, beyond binary64.
+    (_table({5: ("480", "1e308")}), "line 6", "integral of the spectrum overflows"),
+    (_table({i: (str(380 + 20 * i), "1e308") for i in range(21)}), "line 2", "overflows"),
+    (_table({5: ("480", "1.7976931348623157e308")}), "line 6", "overflows"),
+    (_table({5: ("480", "1e400")}), "line 6", "beyond the range of double precision"),
+    (_table({5: ("480", "-1e400")}), "line 6", "beyond the range of double precision"),
+    (_table({5: ("480", "inf")}), "line 6", "must be finite"),
+    (_table({5: ("480", "NaN")}), "line 6", "must be finite"),
+    (_table({5: ("480", "-1e308")}), "line 6", "non-negative"),
+    (_table({20: ("1e308", "1.0")}), "line 21", "beyond 100,000 nm"),
+    (_table({20: ("1e400", "1.0")}), "line 21", "beyond the range of double precision"),
+    (_table({0: ("-1e308", "1.0")}), "line 1", "must be positive"),
+    # Lines file: the running total of line powers overflows on the second line.
+    ("line, 588.995, 1e308\nline, 589.592, 1e308\n", "line 2", "overflows"),
+    ("line, 589.0, 1.0\ncontinuum, 400, 1e308\ncontinuum, 700, 1e308\n", "line 3", "overflows"),
+    ("line, 589.0, 1e400\n", "line 1", "beyond the range of double precision"),
+    ("line, 1e308, 1.0\nline, 589.0, 1.0\n", "line 1", "beyond 100,000 nm"),
+    ("line, 589.0, 1.0\ncontinuum, 400, 0.1\ncontinuum, 1e308, 0.1\n", "line 3", "beyond 100,000 nm"),
+]
+
+
+@pytest.mark.parametrize("text, where, words", OVERFLOW_FILES)
+def test_numbers_beyond_double_precision_are_input_errors(tmp_path, text, where, words):
+    path = tmp_path / "edge.csv"
+    path.write_text(text)
+    with pytest.raises(InputError) as err:
+        load_lamp_file(path)
+    problem = err.value.problems[0]
+    assert (problem.source, problem.where) == (str(path), where), str(err.value)
+    assert words in problem.message, problem.message
+    assert "no power between" not in str(err.value)  # the misleading message the overflow gave
+    assert "expected" in problem.message or "must be" in problem.message
+
+
+SEPARATOR_FILES = [
+    # European spreadsheets: ';' between fields and a decimal comma (common practice, no source).
+    (_table(sep=";"), "line 1", "separated by ';' (semicolons)"),
+    (_table(sep="; "), "line 1", "separated by ';' (semicolons)"),
+    ("wavelength_nm;relative_power\n" + _table(sep=";"), "line 1", "';' (semicolons)"),
+    ("".join(f"{w};{p.replace('.', ',')}\n" for w, p in _TABLE), "line 1", "decimal commas"),
+    ("".join(f"{w}\t{p.replace('.', ',')}\n" for w, p in _TABLE), "line 1", "separated by tabs"),
+    ("".join(f"{w} {p.replace('.', ',')}\n" for w, p in _TABLE), "line 1", "separated by spaces"),
+    ("line; 589.0; 1.0\n", "line 1", "';' (semicolons)"),
+]
+
+
+@pytest.mark.parametrize("text, where, words", SEPARATOR_FILES)
+def test_wrong_separator_is_named(tmp_path, text, where, words):
+    path = tmp_path / "semicolons.csv"
+    path.write_text(text)
+    with pytest.raises(InputError) as err:
+        load_lamp_file(path)
+    assert len(err.value.problems) == 1  # one message for the file, not one per row
+    problem = err.value.problems[0]
+    assert (problem.source, problem.where) == (str(path), where)
+    assert words in problem.message and "decimal point" in problem.message
+
+
+def test_tabs_and_spaces_separate_fields_as_commas_do(tmp_path):
+    # The documented format: commas, or white space in a line without a comma.
+    spectra = []
+    for name, sep in (("commas.csv", ", "), ("tabs.csv", "\t"), ("spaces.csv", "   ")):
+        (tmp_path / name).write_text(_table({7: ("520", "0.25")}, sep=sep))
+        spectra.append(load_lamp_file(tmp_path / name).spd)
+    assert spectra[0].tobytes() == spectra[1].tobytes() == spectra[2].tobytes()
+
+
+def test_too_many_rows_is_refused_before_reading_them(tmp_path):
+    from render.limits import MAX_SPECTRUM_ROWS
+
+    path = tmp_path / "huge.csv"
+    path.write_text("# name: too long\n" + "500, 1\n" * (MAX_SPECTRUM_ROWS + 1))
+    with pytest.raises(InputError) as err:
+        load_lamp_file(path)
+    problem = err.value.problems[0]
+    assert problem.where == f"lines 2-{MAX_SPECTRUM_ROWS + 2}"
+    assert f"{MAX_SPECTRUM_ROWS + 1}" in problem.message and f"{MAX_SPECTRUM_ROWS:,}" in problem.message
+
+
+def test_subnormal_line_power_normalises_exactly(tmp_path):
+    # Analytic: one line carries all the power, at its own wavelength (deposit_lines conserves
+    # power and mean wavelength). At 1e-320 (a subnormal binary64, IEEE 754) the two bin shares
+    # round to multiples of 4.9e-324 unless the powers are scaled first.
+    path = tmp_path / "faint.csv"
+    path.write_text("line, 589.3, 1e-320\n")
+    lamp = load_lamp_file(path)
+    assert lamp.lines == ((589.3, 1.0),)
+    assert lamp.spd.sum() == pytest.approx(1.0, rel=1e-12)
+    assert centroid_nm(lamp.spd) == pytest.approx(589.3, rel=1e-12)
+
+
+def test_long_fields_are_cut_in_messages(tmp_path):
+    # Project rule: a message names the place and what was expected; it does not reprint a
+    # megabyte of the file.
+    path = tmp_path / "long.csv"
+    path.write_text(_table({3: ("440", "x" * 100_000)}))
+    with pytest.raises(InputError) as err:
+        load_lamp_file(path)
+    assert err.value.problems[0].where == "line 4" and len(str(err.value)) < 300

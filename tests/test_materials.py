@@ -355,3 +355,117 @@ def test_plot_is_written_atomically(lib, tmp_path):
     out = plot_material(lib["asphalt-new"], tmp_path / "plots" / "asphalt-new.png")
     assert out.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
     assert [p.name for p in out.parent.iterdir()] == ["asphalt-new.png"]
+
+
+# --- numbers at the edge of double precision, separators, size (render.limits) -------------------
+
+# A committed file, changed line by line; each change must be refused naming the file and the line
+# and saying what was expected. Binary64 limits (largest finite about 1.8e308; 1e400 parses to
+# infinity): IEEE 754-2008. The rule itself is the project's (bad input -> InputError).
+_BRICK = (MATERIALS / "brick.csv").read_text(encoding="utf-8").splitlines()
+_COLUMNS = _BRICK.index("wavelength_nm,reflectance")  # 0-based; file line _COLUMNS + 1
+
+
+def _line_of(wavelength: str) -> int:
+    return next(i for i, s in enumerate(_BRICK) if s.startswith(wavelength + ",")) + 1
+
+
+def _brick(tmp_path: Path, lines: list[str]) -> Path:
+    path = tmp_path / "brick.csv"
+    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    return path
+
+
+def _replaced(wavelength: str, row: str) -> list[str]:
+    lines = list(_BRICK)
+    lines[_line_of(wavelength) - 1] = row
+    return lines
+
+
+EDGE_CASES = [
+    # (file lines, line, words in the message)
+    (_replaced("500", "500,nan"), _line_of("500"), "not finite"),
+    (_replaced("500", "500,inf"), _line_of("500"), "not finite"),
+    (_replaced("500", "500,1e400"), _line_of("500"), "beyond the range of double precision"),
+    (_replaced("500", "500,-1e400"), _line_of("500"), "beyond the range of double precision"),
+    (_replaced("500", "500,1e308"), _line_of("500"), "outside [0, 1]"),
+    (_replaced("500", "1e400,0.2"), _line_of("500"), "beyond the range of double precision"),
+    # A first row at -1e308 nm was accepted and gave a reflectance of 0 at every wavelength.
+    (_BRICK[: _COLUMNS + 1] + ["-1e308,0.5"] + _BRICK[_COLUMNS + 1 :], _COLUMNS + 2, "outside 0-100,000 nm"),
+    (_BRICK[: _COLUMNS + 1] + ["0,0.5"] + _BRICK[_COLUMNS + 1 :], _COLUMNS + 2, "outside 0-100,000 nm"),
+    (_BRICK + ["1e308,0.5"], len(_BRICK) + 1, "outside 0-100,000 nm"),
+    # measured_range_nm of 400 nines parsed to infinity and was written to the JSON listing.
+    (
+        [f"# measured_range_nm: 400-{'9' * 400}" if s.startswith("# measured_range_nm") else s for s in _BRICK],
+        next(i for i, s in enumerate(_BRICK) if s.startswith("# measured_range_nm")) + 1,
+        "expected 'first-last' in nm",
+    ),
+]
+
+
+@pytest.mark.parametrize("lines, line, expected", EDGE_CASES)
+def test_numbers_beyond_double_precision_are_input_errors(tmp_path, lines, line, expected):
+    path = _brick(tmp_path, lines)
+    with pytest.raises(InputError) as err:
+        load_material_csv(path)
+    problem = err.value.problems[0]
+    assert (problem.source, problem.where) == (str(path), f"line {line}"), str(err.value)
+    assert expected in problem.message and "expected" in problem.message, problem.message
+
+
+def _with_separator(sep: str, decimal: str = ".") -> list[str]:
+    return [s if s.startswith("#") else s.replace(",", sep).replace(".", decimal) for s in _BRICK]
+
+
+@pytest.mark.parametrize(
+    "lines, words",
+    [
+        # European spreadsheets: ';' between fields, decimal commas (common practice, no source).
+        (_with_separator(";"), "separated by ';' (semicolons)"),
+        (_with_separator(";", ","), "separated by ';' (semicolons)"),
+        (_with_separator("\t"), "separated by tabs"),
+        (_with_separator("\t", ","), "separated by tabs"),
+        (_with_separator(" "), "separated by spaces"),
+    ],
+)
+def test_wrong_separator_is_named_once(tmp_path, lines, words):
+    path = _brick(tmp_path, lines)
+    with pytest.raises(InputError) as err:
+        load_material_csv(path)
+    assert len(err.value.problems) == 1, str(err.value)  # one message, not one per row
+    problem = err.value.problems[0]
+    assert problem.where == f"line {_COLUMNS + 1}"
+    assert words in problem.message and "one comma" in problem.message and "decimal point" in problem.message
+
+
+def test_separator_in_data_rows_is_named_at_the_first(tmp_path):
+    lines = [s if s.startswith("#") or s.startswith("wave") else s.replace(",", ";") for s in _BRICK]
+    with pytest.raises(InputError) as err:
+        load_material_csv(_brick(tmp_path, lines))
+    assert [p.where for p in err.value.problems] == [f"line {_COLUMNS + 2}"]
+    assert "';' (semicolons)" in err.value.problems[0].message
+
+
+def test_too_many_rows_is_refused(tmp_path):
+    from render.limits import MAX_SPECTRUM_ROWS
+
+    head = _BRICK[: _COLUMNS + 1]
+    rows = [f"{380 + 400 * i / MAX_SPECTRUM_ROWS:.5f},0.5" for i in range(MAX_SPECTRUM_ROWS + 1)]
+    path = _brick(tmp_path, head + rows)
+    with pytest.raises(InputError) as err:
+        load_material_csv(path)
+    problem = err.value.problems[0]
+    assert problem.where == f"lines {_COLUMNS + 1}-{_COLUMNS + 2 + MAX_SPECTRUM_ROWS}"
+    assert f"{MAX_SPECTRUM_ROWS:,}" in problem.message
+
+
+def test_problems_are_capped_and_fields_cut(tmp_path):
+    from render.limits import MAX_PROBLEMS_PER_FILE
+
+    # Project rule: a message names the line and what was expected, without reprinting the file.
+    path = _brick(tmp_path, _BRICK[: _COLUMNS + 1] + [f"{380 + i},{'x' * 1000}" for i in range(1000)])
+    with pytest.raises(InputError) as err:
+        load_material_csv(path)
+    assert MAX_PROBLEMS_PER_FILE <= len(err.value.problems) <= MAX_PROBLEMS_PER_FILE + 3
+    assert any("the rest of the file was not checked" in p.message for p in err.value.problems)
+    assert len(str(err.value)) < 3000

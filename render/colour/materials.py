@@ -26,12 +26,18 @@ Validation (every rejection is an :class:`~render.errors.InputError` naming the 
 
 * all :data:`REQUIRED_KEYS` present, no key twice, ``id`` equal to the file name without
   ``.csv`` and made of lowercase letters, digits and hyphens;
-* the column row ``wavelength_nm,reflectance``, then rows of two finite numbers;
-* wavelengths strictly increasing (no duplicates), covering 380-780 nm, at least
-  :data:`MIN_ROWS` rows and no gap wider than :data:`MAX_STEP_NM` inside 380-780 nm;
+* ``measured_range_nm`` is ``first-last`` in nm, finite and increasing;
+* the column row ``wavelength_nm,reflectance``, then rows of two finite numbers separated by a
+  comma, with a decimal point (a semicolon, tab or space separator is an error that names it);
+  at most :data:`render.limits.MAX_SPECTRUM_ROWS` rows;
+* wavelengths positive and at most :data:`render.limits.MAX_TABLE_WAVELENGTH_NM`, strictly
+  increasing (no duplicates), covering 380-780 nm, at least :data:`MIN_ROWS` rows and no gap
+  wider than :data:`MAX_STEP_NM` inside 380-780 nm;
 * reflectances in [0, 1]. Values within :data:`CLIP_TOLERANCE` outside that interval
   (measurement noise, e.g. -0.003 or 1.004) are clipped to 0 or 1; anything further out is
   an error.
+
+At most :data:`render.limits.MAX_PROBLEMS_PER_FILE` line problems are reported per file.
 
 The photopic luminous reflectance listed by ``lampcast materials`` is the reflectance weighted by
 CIE standard illuminant D65 and the CIE 1931 ȳ(λ) = V(λ) function:
@@ -62,6 +68,7 @@ from numpy.typing import ArrayLike
 from render.colour.spectra import WAVELENGTH_MAX_NM, WAVELENGTH_MIN_NM, WAVELENGTHS_NM, bin_mean
 from render.errors import InputError, Problem, ProblemList, did_you_mean, input_error
 from render.fileio import read_user_text
+from render.limits import MAX_PROBLEMS_PER_FILE, MAX_SPECTRUM_ROWS, MAX_TABLE_WAVELENGTH_NM, check_count
 
 #: Header keys every material file must have.
 REQUIRED_KEYS = (
@@ -89,6 +96,7 @@ MATERIALS_ENV = "LAMPCAST_MATERIALS"
 _ID_RE = re.compile(r"^[a-z0-9]+(?:-[a-z0-9]+)*$")
 _KEY_RE = re.compile(r"^#\s*([A-Za-z][A-Za-z0-9_]*)\s*:(.*)$")
 _RANGE_RE = re.compile(r"^\s*(\d+(?:\.\d+)?)\s*(?:-|–|to)\s*(\d+(?:\.\d+)?)\s*$")
+_EXAMPLE_ROWS = f"'{COLUMNS_ROW}' and then rows such as '380,0.0829'"
 
 
 @dataclass(frozen=True, eq=False)
@@ -157,10 +165,43 @@ class Material:
 
 def _parse_float(text: str) -> float | None:
     try:
-        value = float(text)
+        return float(text)
     except ValueError:
         return None
-    return value if math.isfinite(value) else None
+
+
+def _shown(text: str, limit: int = 40) -> str:
+    """Text of the file as quoted in a message (``repr``, long text cut)."""
+    return repr(text) if len(text) <= limit else repr(text[: limit - 1]) + "…"
+
+
+def _separator(line: str) -> str | None:
+    """The separator a data or column row uses instead of one comma, or None."""
+    if ";" in line:
+        return "';' (semicolons)"
+    if any(len(f.split()) > 1 for f in line.split(",")):  # white space between two fields
+        return "tabs" if "\t" in line else "spaces"
+    return None
+
+
+def _separator_message(line: str, what: str) -> str:
+    decimal = " and the commas look like decimal commas" if "," in line else ""
+    return (
+        f"fields are separated by {what}{decimal}; a material file separates the wavelength and the "
+        f"reflectance by one comma and writes numbers with a decimal point: {_EXAMPLE_ROWS}"
+    )
+
+
+def _number_problem(text: str, name: str, expected: str) -> str | None:
+    """What is wrong with a number field, or None if it is a finite number."""
+    value = _parse_float(text)
+    if value is None:
+        return f"{name} {_shown(text)} is not a number; expected {expected}"
+    if math.isnan(value) or (math.isinf(value) and "inf" in text.lower()):
+        return f"{name} {_shown(text)} is not finite; expected {expected}"
+    if math.isinf(value):
+        return f"{name} {_shown(text)} is beyond the range of double precision (about ±1.8e308); expected {expected}"
+    return None
 
 
 def load_material_csv(path: str | Path) -> Material:
@@ -198,8 +239,26 @@ def load_material_csv(path: str | Path) -> Material:
     header_line: dict[str, int] = {}
     columns_line = 0
     rows: list[tuple[int, float, float]] = []  # (line, wavelength, value)
+    # Counted before the rows are parsed: at most MAX_SPECTRUM_ROWS sample rows after the column row.
+    data_lines = [n for n, line in enumerate(lines, start=1) if line.strip() and not line.strip().startswith("#")]
+    if data_lines:
+        check_count(
+            len(data_lines) - 1,
+            MAX_SPECTRUM_ROWS,
+            src,
+            f"lines {data_lines[0]}-{data_lines[-1]}",
+            "the number of sample rows",
+        )
+    separator_reported = False
+    cut_short = False
 
     for number, line in enumerate(lines, start=1):
+        if len(problems.items) >= MAX_PROBLEMS_PER_FILE:
+            problems.add(
+                f"line {number}", f"more than {MAX_PROBLEMS_PER_FILE} problems; the rest of the file was not checked"
+            )
+            cut_short = True
+            break
         stripped = line.strip()
         if not stripped:
             continue
@@ -211,12 +270,19 @@ def load_material_csv(path: str | Path) -> Material:
                     continue
                 key, value = match.group(1).lower(), match.group(2).strip()
                 if key in header:
-                    problems.add(f"line {number}", f"key '{key}' given twice (first on line {header_line[key]})")
+                    problems.add(f"line {number}", f"key {_shown(key)} given twice (first on line {header_line[key]})")
                     continue
                 header[key], header_line[key] = value, number
                 continue
             if stripped.replace(" ", "").lower() == COLUMNS_ROW:
                 columns_line = number
+                continue
+            wrong = _separator(stripped)
+            if wrong and re.split(r"[\s,;]+", stripped.lower()) == COLUMNS_ROW.split(","):
+                # The column row with another separator: say which, once for the file.
+                columns_line = number
+                problems.add(f"line {number}", _separator_message(stripped, wrong))
+                separator_reported = True
                 continue
             problems.add(
                 f"line {number}",
@@ -227,20 +293,37 @@ def load_material_csv(path: str | Path) -> Material:
         if stripped.startswith("#"):
             problems.add(f"line {number}", "header lines must come before the data rows")
             continue
+        wrong = _separator(stripped)
+        if wrong:
+            if not separator_reported:  # every row is written the same way: one message
+                problems.add(f"line {number}", _separator_message(stripped, wrong))
+                separator_reported = True
+            continue
         fields = [f.strip() for f in stripped.split(",")]
         if len(fields) != 2:
             problems.add(
                 f"line {number}", f"expected two numbers 'wavelength_nm,reflectance', got {len(fields)} field(s)"
             )
             continue
-        wl, value = _parse_float(fields[0]), _parse_float(fields[1])
-        if wl is None:
-            problems.add(f"line {number}", f"wavelength {fields[0]!r} is not a number; expected nm")
-        if value is None:
-            problems.add(f"line {number}", f"reflectance {fields[1]!r} is not a number; expected a value in [0, 1]")
-        if wl is not None and value is not None:
-            rows.append((number, wl, value))
+        wl_problem = _number_problem(
+            fields[0], "wavelength", f"a wavelength in nm between 0 and {MAX_TABLE_WAVELENGTH_NM:,.0f}"
+        )
+        value_problem = _number_problem(fields[1], "reflectance", "a value in [0, 1]")
+        if wl_problem is None:
+            wl = float(fields[0])
+            if not 0 < wl <= MAX_TABLE_WAVELENGTH_NM:
+                wl_problem = (
+                    f"wavelength {wl:g} nm is outside 0-{MAX_TABLE_WAVELENGTH_NM:,.0f} nm; expected a "
+                    f"positive wavelength in nm of at most {MAX_TABLE_WAVELENGTH_NM:,.0f}"
+                )
+        for message in (wl_problem, value_problem):
+            if message:
+                problems.add(f"line {number}", message)
+        if wl_problem is None and value_problem is None:
+            rows.append((number, float(fields[0]), float(fields[1])))
 
+    if cut_short:  # what follows would judge a file only partly read
+        problems.raise_if_any()
     end_of_header = abs(columns_line) if columns_line else len(lines)
     if not columns_line:
         problems.add(f"line {end_of_header}", f"no column row '{COLUMNS_ROW}' and no samples")
@@ -261,19 +344,21 @@ def load_material_csv(path: str | Path) -> Material:
     if material_id:
         where = f"line {header_line['id']}"
         if not _ID_RE.match(material_id):
-            problems.add(where, f"id {material_id!r} must be lowercase letters, digits and single hyphens")
+            problems.add(where, f"id {_shown(material_id)} must be lowercase letters, digits and single hyphens")
         elif material_id != path.stem:
-            problems.add(where, f"id {material_id!r} must equal the file name without .csv ({path.stem!r})")
+            problems.add(where, f"id {_shown(material_id)} must equal the file name without .csv ({path.stem!r})")
 
     measured = (math.nan, math.nan)
     if header.get("measured_range_nm"):
         match = _RANGE_RE.match(header["measured_range_nm"])
-        if match and float(match.group(1)) < float(match.group(2)):
-            measured = (float(match.group(1)), float(match.group(2)))
+        first, last = (float(match.group(1)), float(match.group(2))) if match else (math.nan, math.nan)
+        if first < last <= MAX_TABLE_WAVELENGTH_NM:  # False for NaN; bounds a number too long to be finite
+            measured = (first, last)
         else:
             problems.add(
                 f"line {header_line['measured_range_nm']}",
-                f"measured_range_nm {header['measured_range_nm']!r}: expected 'first-last' in nm, e.g. '400-2450'",
+                f"measured_range_nm {_shown(header['measured_range_nm'])}: expected 'first-last' in nm, increasing "
+                f"and at most {MAX_TABLE_WAVELENGTH_NM:,.0f}, e.g. '400-2450'",
             )
 
     values = _check_rows(rows, problems)
@@ -341,7 +426,8 @@ def _check_rows(rows: list[tuple[int, float, float]], problems: ProblemList) -> 
         if value < -CLIP_TOLERANCE or value > 1.0 + CLIP_TOLERANCE:
             problems.add(
                 f"line {line}",
-                f"reflectance {value:g} is outside [0, 1] (values within {CLIP_TOLERANCE:g} of it are clipped)",
+                f"reflectance {value:g} is outside [0, 1]; expected a value in [0, 1] (values within "
+                f"{CLIP_TOLERANCE:g} of it are clipped)",
             )
         else:
             out[i] = min(max(value, 0.0), 1.0)

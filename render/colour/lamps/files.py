@@ -5,13 +5,19 @@
 ``# key: value`` set the lamp's ``name``, ``description``, ``type`` (one of
 :data:`render.colour.lamps.model.LAMP_TYPES`), ``source`` and ``notes`` (may be repeated, one
 note each). Other comments are ignored, except that a key that looks like a misspelt known key
-is an error. Fields are separated by commas (or by white space in a line without a comma).
+is an error. Fields are separated by commas (or by white space -- spaces or tabs -- in a line
+without a comma), with a decimal point; a semicolon, or white space between numbers next to a
+comma (a decimal comma), is an error naming the separator found. Every number is finite;
+wavelengths are positive and at most :data:`render.limits.MAX_TABLE_WAVELENGTH_NM`; a file holds
+at most :data:`render.limits.MAX_SPECTRUM_ROWS` data rows.
 
 1. **Spectrum CSV** (a continuum): rows ``wavelength_nm, relative_power_per_nm``, after an
    optional row of column names. Wavelengths strictly increasing and covering at least
    400-700 nm; powers finite and non-negative. The samples are joined by straight lines, taken
    as zero outside the file's range, and integrated over each 1 nm bin; anything outside
-   380-780 nm is not modelled. Example::
+   380-780 nm is not modelled. The integral of the samples (trapezoids, in the file's own unit)
+   must stay finite in double precision (below about 1.8e308): a row where it overflows is an
+   error -- only the shape matters, so such a file is divided by a constant. Example::
 
        # name: Kerbside LED sample
        # type: phosphor LED
@@ -29,9 +35,12 @@ is an error. Fields are separated by commas (or by white space in a line without
    ``line`` rows are emission lines of negligible width, in any order, no wavelength twice;
    lines outside 380-780 nm are left out (with a note on the lamp). ``continuum`` rows are
    optional (at least two if any, increasing wavelength) and give a background density in the
-   same relative power unit per nm, zero outside their range.
+   same relative power unit per nm, zero outside their range. The running total of the line
+   powers and the continuum's integral, in file order, must stay finite.
 
-Either way the result is normalised to unit total power over 380-780 nm. The lamp's id is the
+Either way the result is normalised to unit total power over 380-780 nm (computed on the powers
+scaled by a power of two, which is exact, so that no intermediate sum overflows or loses
+precision to subnormal numbers). The lamp's id is the
 file name without its extension, lowercased with hyphens (``Kerbside_LED.csv`` ->
 ``kerbside-led``); its type defaults to ``other``. A mistake raises
 :class:`render.errors.InputError` naming the file and line.
@@ -49,20 +58,28 @@ import re
 from collections.abc import Sequence
 from pathlib import Path
 
+import numpy as np
+
 from render.colour.lamps.model import LAMP_TYPES, Lamp, LineSpectrum, make_lamp
 from render.colour.spectra import WAVELENGTH_MAX_NM, WAVELENGTH_MIN_NM, density_on_grid
 from render.errors import ProblemList, did_you_mean, input_error
 from render.fileio import read_user_text
+from render.limits import MAX_PROBLEMS_PER_FILE, MAX_SPECTRUM_ROWS, MAX_TABLE_WAVELENGTH_NM, check_count
 
-__all__ = ["FILE_MIN_COVERAGE_NM", "HEADER_KEYS", "MAX_ROW_PROBLEMS", "load_lamp_file"]
+__all__ = ["FILE_MIN_COVERAGE_NM", "HEADER_KEYS", "load_lamp_file"]
 
 #: A continuum lamp file must cover at least this band, nm.
 FILE_MIN_COVERAGE_NM = (400.0, 700.0)
 #: The ``# key: value`` header keys of a lamp file.
 HEADER_KEYS = ("name", "description", "type", "source", "notes")
-#: Row problems reported per file before the rest of the rows are skipped.
-MAX_ROW_PROBLEMS = 10
-_KEY_LINE = re.compile(r"^#\s*([A-Za-z][A-Za-z_-]*)\s*:\s*(.*?)\s*$")
+# The value is stripped afterwards: a lazy group before ``\s*$`` is quadratic in a run of spaces.
+_KEY_LINE = re.compile(r"^#\s*([A-Za-z][A-Za-z_-]*)\s*:(.*)$")
+# Keys longer than this are not compared with the header keys for a did-you-mean hint.
+_MAX_HINT_KEY_CHARS = 40
+# White space between two numbers inside a comma-separated field: tabs or spaces as separators
+# next to decimal commas.
+_SPACE_BETWEEN_NUMBERS = re.compile(r"[0-9.]\s+[-+]?[0-9.]")
+_EXAMPLE_ROW = "'555, 0.82' or '555<tab>0.82'"
 
 
 def _split(line: str) -> list[str]:
@@ -77,6 +94,30 @@ def _number(text: str) -> float | None:
     return value
 
 
+def _shown(text: str, limit: int = 40) -> str:
+    """A field of the file as quoted in a message: control characters escaped, long text cut."""
+    if not text.isprintable():
+        text = text.encode("unicode_escape").decode("ascii")
+    return text if len(text) <= limit else text[: limit - 1] + "…"
+
+
+def _separator_problem(line: str) -> str | None:
+    """What is wrong with the separators of a data row, or None."""
+    if ";" in line:
+        decimal = " (the commas look like decimal commas)" if "," in line else ""
+        return (
+            f"fields are separated by ';' (semicolons){decimal}; a lamp file separates fields by "
+            f"commas, or by spaces or tabs, and writes numbers with a decimal point, e.g. {_EXAMPLE_ROW}"
+        )
+    if "," in line and any(_SPACE_BETWEEN_NUMBERS.search(f.strip()) for f in line.split(",")):
+        what = "tabs" if "\t" in line else "spaces"
+        return (
+            f"fields are separated by {what} and the commas look like decimal commas; write numbers "
+            f"with a decimal point, e.g. {_EXAMPLE_ROW}"
+        )
+    return None
+
+
 def _slug(text: str) -> str:
     slug = re.sub(r"[^a-z0-9]+", "-", text.lower()).strip("-")
     return slug or "lamp"
@@ -88,52 +129,65 @@ def load_lamp_file(path: str | Path) -> Lamp:
     Raises
     ------
     InputError
-        Naming the file and line: unreadable or empty file, non-numeric or missing fields,
-        unsorted or repeated wavelengths, negative or non-finite power, a spectrum not covering
-        400-700 nm, no power in 380-780 nm, an unknown lamp type.
+        Naming the file and line: unreadable or empty file, non-numeric or missing fields, a
+        semicolon or decimal-comma separator, too many rows, unsorted or repeated wavelengths,
+        a wavelength out of range, negative or non-finite power, an integral that overflows, a
+        spectrum not covering 400-700 nm, no power in 380-780 nm, an unknown lamp type.
     """
     path = Path(path)
     src = str(path)
     text = read_user_text(path, "lamp file", "a UTF-8 lamp file (plain ASCII is fine)")
-    n_lines = len(text.splitlines())
+    lines = text.splitlines()
+    n_lines = len(lines)
 
     problems = ProblemList(src)
     header: dict[str, str] = {}
     header_line: dict[str, int] = {}
     notes: list[str] = []
-    rows: list[tuple[int, list[str]]] = []
-    for number, raw in enumerate(text.splitlines(), start=1):
+    data: list[tuple[int, str]] = []
+    for number, raw in enumerate(lines, start=1):
         line = raw.strip()
         if not line:
             continue
         if line.startswith("#"):
-            match = _KEY_LINE.match(line)
-            if match and not rows:
-                key = match.group(1).lower()
+            match = None if data else _KEY_LINE.match(line)
+            if match:
+                key, value = match.group(1).lower(), match.group(2).strip()
                 if key in HEADER_KEYS:
                     if key == "notes":
-                        notes.append(match.group(2))
+                        notes.append(value)
                     else:
-                        header[key] = match.group(2)
+                        header[key] = value
                         header_line[key] = number
-                elif did_you_mean(key, HEADER_KEYS):
+                elif len(key) <= _MAX_HINT_KEY_CHARS and did_you_mean(key, HEADER_KEYS):
+                    if _too_many(problems, number):
+                        problems.raise_if_any()
                     problems.add(
                         f"line {number}",
                         f"unknown header key '{match.group(1)}'{did_you_mean(key, HEADER_KEYS)}; "
                         f"header keys are {', '.join(HEADER_KEYS)}",
                     )
             continue
-        rows.append((number, _split(line)))
+        data.append((number, line))
 
     canonical_types = {t.lower(): t for t in LAMP_TYPES}
     if "type" in header and header["type"].lower() in canonical_types:
         header["type"] = canonical_types[header["type"].lower()]
     elif "type" in header:
+        hint = did_you_mean(header["type"], LAMP_TYPES) if len(header["type"]) <= _MAX_HINT_KEY_CHARS else ""
         problems.add(
             f"line {header_line['type']}",
-            f"unknown lamp type '{header['type']}'{did_you_mean(header['type'], LAMP_TYPES)}; "
-            f"expected one of: {', '.join(LAMP_TYPES)}",
+            f"unknown lamp type '{_shown(header['type'])}'{hint}; expected one of: {', '.join(LAMP_TYPES)}",
         )
+    if data:
+        # Counted before the rows are split, so a huge file is refused before it is held twice.
+        check_count(len(data), MAX_SPECTRUM_ROWS, src, f"lines {data[0][0]}-{data[-1][0]}", "the number of data rows")
+    for number, line in data:
+        wrong = _separator_problem(line)
+        if wrong:  # one message for the file: every row is written the same way
+            problems.add(f"line {number}", wrong)
+            problems.raise_if_any()
+    rows = [(number, _split(line)) for number, line in data]
     # An optional row of column names (no numeric field) before the data.
     if rows and all(_number(f) is None for f in rows[0][1]) and rows[0][1][0].lower() not in ("line", "continuum"):
         rows = rows[1:]
@@ -157,7 +211,7 @@ def load_lamp_file(path: str | Path) -> Lamp:
         raise input_error(
             src, f"lines {first}-{last}", "no power between 380 and 780 nm; a lamp must emit visible light"
         )
-    return make_lamp(
+    lamp = make_lamp(
         id=_slug(path.stem),
         name=header.get("name") or path.stem,
         type=header.get("type", "other"),
@@ -167,6 +221,17 @@ def load_lamp_file(path: str | Path) -> Lamp:
         spectrum=spectrum,
         origin=src,
     )
+    # The normalised spectrum, checked after every scaling: finite and non-negative.
+    if not (np.all(np.isfinite(lamp.spd)) and float(lamp.spd.min()) >= 0.0):
+        raise input_error(
+            src,
+            f"lines {first}-{last}",
+            "the spectrum does not normalise to finite, non-negative values; expected relative powers of ordinary size",
+        )
+    return lamp
+
+
+_FINITE = "a finite number"
 
 
 def _parse_numbers(number: int, fields: list[str], names: Sequence[str], problems: ProblemList) -> list[float] | None:
@@ -177,13 +242,34 @@ def _parse_numbers(number: int, fields: list[str], names: Sequence[str], problem
     for name, text in zip(names, fields):
         value = _number(text)
         if value is None:
-            problems.add(f"line {number}", f"{name} '{text}' is not a number")
+            problems.add(f"line {number}", f"{name} '{_shown(text)}' is not a number")
             return None
-        if not math.isfinite(value):
-            problems.add(f"line {number}", f"{name} must be finite, found '{text}'")
+        if math.isnan(value) or (math.isinf(value) and "inf" in text.lower()):
+            problems.add(f"line {number}", f"{name} must be finite, found '{_shown(text)}'; expected {_FINITE}")
+            return None
+        if math.isinf(value):
+            problems.add(
+                f"line {number}",
+                f"{name} '{_shown(text)}' is beyond the range of double precision (about ±1.8e308); "
+                f"expected {_FINITE}",
+            )
             return None
         values.append(value)
     return values
+
+
+def _check_wavelength(number: int, w: float, problems: ProblemList) -> bool:
+    if w <= 0:
+        problems.add(f"line {number}", f"wavelength must be positive, found {w:g} nm")
+        return False
+    if w > MAX_TABLE_WAVELENGTH_NM:
+        problems.add(
+            f"line {number}",
+            f"wavelength {w:g} nm is beyond {MAX_TABLE_WAVELENGTH_NM:,.0f} nm; expected a wavelength in nm "
+            f"between 0 and {MAX_TABLE_WAVELENGTH_NM:,.0f}",
+        )
+        return False
+    return True
 
 
 def _check_power(number: int, what: str, value: float, problems: ProblemList) -> bool:
@@ -210,10 +296,34 @@ def _check_increasing(samples: list[tuple[int, float, float]], what: str, proble
 
 
 def _too_many(problems: ProblemList, number: int) -> bool:
-    if len(problems.items) < MAX_ROW_PROBLEMS:
+    if len(problems.items) < MAX_PROBLEMS_PER_FILE:
         return False
-    problems.add(f"line {number}", f"more than {MAX_ROW_PROBLEMS} problems; the rest of the file was not checked")
+    problems.add(f"line {number}", f"more than {MAX_PROBLEMS_PER_FILE} problems; the rest of the file was not checked")
     return True
+
+
+_OVERFLOW_HINT = (
+    "expected relative powers whose integral stays below about 1.8e308 (only the shape of a lamp "
+    "spectrum matters: divide the powers by a constant)"
+)
+
+
+def _trapezoid_overflow(samples: list[tuple[int, float, float]], total: float = 0.0) -> tuple[int, float] | None:
+    """The first sample at which the running trapezoid integral (the arithmetic of the gridding,
+    ``0.5 * (p0 + p1) * (w1 - w0)``) stops being finite, as ``(line, power)``; or None."""
+    for (_, w0, p0), (n1, w1, p1) in zip(samples, samples[1:]):
+        total += 0.5 * (p0 + p1) * (w1 - w0)  # Python floats overflow to inf, without an exception
+        if not math.isfinite(total):
+            return n1, p1
+    return None
+
+
+def _scaled(powers: Sequence[float], peak: float) -> list[float]:
+    """``powers`` times ``2**-e``, with ``peak * 2**-e`` in [0.5, 1): exact (a power of two),
+    it keeps every intermediate sum of the gridding finite and lifts subnormal powers to normal
+    numbers."""
+    exponent = math.frexp(peak)[1] if peak > 0 else 0
+    return [math.ldexp(p, -exponent) for p in powers]
 
 
 def _parse_spectrum_rows(rows, problems: ProblemList):
@@ -225,10 +335,7 @@ def _parse_spectrum_rows(rows, problems: ProblemList):
         if values is None:
             continue
         w, p = values
-        if w <= 0:
-            problems.add(f"line {number}", f"wavelength must be positive, found {w:g} nm")
-            continue
-        if _check_power(number, "relative power", p, problems):
+        if _check_wavelength(number, w, problems) and _check_power(number, "relative power", p, problems):
             samples.append((number, w, p))
     if problems or not samples:
         return None, []
@@ -248,8 +355,16 @@ def _parse_spectrum_rows(rows, problems: ProblemList):
         )
     if problems:
         return None, []
+    overflow = _trapezoid_overflow(samples)
+    if overflow:
+        number, p = overflow
+        problems.add(
+            f"line {number}",
+            f"the integral of the spectrum overflows at this row (relative power {p:g}); {_OVERFLOW_HINT}",
+        )
+        return None, []
     w = [s[1] for s in samples]
-    p = [s[2] for s in samples]
+    p = _scaled([s[2] for s in samples], max(s[2] for s in samples))
     notes = []
     if w[0] > WAVELENGTH_MIN_NM or w[-1] < WAVELENGTH_MAX_NM:
         notes.append(f"The file covers {w[0]:g}-{w[-1]:g} nm; the spectrum is taken as zero outside it.")
@@ -266,7 +381,7 @@ def _parse_lines_rows(rows, problems: ProblemList):
         if kind not in ("line", "continuum"):
             problems.add(
                 f"line {number}",
-                f"row starts with '{fields[0]}'; in a lines file every row starts with 'line' or 'continuum'",
+                f"row starts with '{_shown(fields[0])}'; in a lines file every row starts with 'line' or 'continuum'",
             )
             continue
         names = ("wavelength_nm", "relative_power") if kind == "line" else ("wavelength_nm", "relative_power_per_nm")
@@ -277,10 +392,7 @@ def _parse_lines_rows(rows, problems: ProblemList):
         if values is None:
             continue
         w, p = values
-        if w <= 0:
-            problems.add(f"line {number}", f"wavelength must be positive, found {w:g} nm")
-            continue
-        if _check_power(number, names[1].replace("_", " "), p, problems):
+        if _check_wavelength(number, w, problems) and _check_power(number, names[1].replace("_", " "), p, problems):
             (lines if kind == "line" else continuum).append((number, w, p))
     seen: dict[float, int] = {}
     for number, w, _ in lines:
@@ -293,12 +405,42 @@ def _parse_lines_rows(rows, problems: ProblemList):
         _check_increasing(continuum, "continuum", problems)
     if problems:
         return None, []
+    overflow = _lines_overflow(lines, continuum)
+    if overflow:
+        number, p = overflow
+        problems.add(
+            f"line {number}",
+            f"the total of the line powers and the continuum's integral overflows at this row (power {p:g}); "
+            f"{_OVERFLOW_HINT}",
+        )
+        return None, []
     notes = []
     outside = [w for _, w, _ in lines if not WAVELENGTH_MIN_NM <= w <= WAVELENGTH_MAX_NM]
     if outside:
-        notes.append("Lines outside 380-780 nm left out: " + ", ".join(f"{w:g} nm" for w in outside) + ".")
+        shown = ", ".join(f"{w:g} nm" for w in outside[:20]) + (
+            f" and {len(outside) - 20} more" if len(outside) > 20 else ""
+        )
+        notes.append("Lines outside 380-780 nm left out: " + shown + ".")
+    peak = max(p for _, _, p in lines + continuum)
+    line_powers, continuum_powers = _scaled([p for _, _, p in lines], peak), _scaled([p for _, _, p in continuum], peak)
     spectrum = LineSpectrum(
-        [(w, p) for _, w, p in lines],
-        ([w for _, w, _ in continuum], [p for _, _, p in continuum]) if continuum else None,
+        [(w, p) for (_, w, _), p in zip(lines, line_powers)],
+        ([w for _, w, _ in continuum], continuum_powers) if continuum else None,
     )
     return spectrum, notes
+
+
+def _lines_overflow(
+    lines: list[tuple[int, float, float]], continuum: list[tuple[int, float, float]]
+) -> tuple[int, float] | None:
+    """The first row, in file order, at which the running total of line powers and continuum
+    trapezoids stops being finite, as ``(line, power)``; or None."""
+    # Each row's contribution: a line its power, a continuum row the trapezoid up to it.
+    parts = [(number, p, p) for number, _, p in lines]
+    parts += [(n1, p1, 0.5 * (p0 + p1) * (w1 - w0)) for (_, w0, p0), (n1, w1, p1) in zip(continuum, continuum[1:])]
+    total = 0.0
+    for number, p, part in sorted(parts):
+        total += part  # Python floats overflow to inf, without an exception
+        if not math.isfinite(total):
+            return number, p
+    return None
