@@ -140,10 +140,8 @@ def _packet_boxes(nb, node, lane, n_lanes, t_min):
         origin = (lane[_OX + r], lane[_OY + r], lane[_OZ + r])
         inverse = (lane[_IX + r], lane[_IY + r], lane[_IZ + r])
         tb = lane[_TB + r]
-        near0, far0 = slab_interval(lo0, hi0, origin, inverse)
-        near1, far1 = slab_interval(lo1, hi1, origin, inverse)
-        near0 = max(near0, t_min)
-        near1 = max(near1, t_min)
+        near0, far0 = slab_interval(lo0, hi0, origin, inverse, t_min)
+        near1, far1 = slab_interval(lo1, hi1, origin, inverse, t_min)
         k0 = near0 <= min(far0, tb)
         k1 = near1 <= min(far1, tb)
         h0 += k0

@@ -39,10 +39,10 @@ def _ray_constants(o, d):
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
-def _wide_boxes(wb, node, origin, inverse, work, width):
-    """Slab interval of every child box of wide ``node``: near in ``work[c]``, far in
-    ``work[WIDE + c]``. ``width`` (= WIDE) is passed at run time so that the loop is
-    vectorised rather than unrolled."""
+def _wide_boxes(wb, node, origin, inverse, t_min, work, width):
+    """Slab interval of every child box of wide ``node``: near (at least ``t_min``) in
+    ``work[c]``, far in ``work[WIDE + c]``. ``width`` (= WIDE) is passed at run time so that
+    the loop is vectorised rather than unrolled."""
     for c in range(width):
         lo = (np.float64(wb[node, c]), np.float64(wb[node, WIDE + c]), np.float64(wb[node, 2 * WIDE + c]))
         hi = (
@@ -50,7 +50,7 @@ def _wide_boxes(wb, node, origin, inverse, work, width):
             np.float64(wb[node, 4 * WIDE + c]),
             np.float64(wb[node, 5 * WIDE + c]),
         )
-        work[c], work[WIDE + c] = slab_interval(lo, hi, origin, inverse)
+        work[c], work[WIDE + c] = slab_interval(lo, hi, origin, inverse, t_min)
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
@@ -80,11 +80,11 @@ def closest_one(
     node = 0
     sp = 0
     while True:
-        _wide_boxes(wb, node, origin, inverse, work, width)
+        _wide_boxes(wb, node, origin, inverse, t_min, work, width)
         nxt = -1
         nxt_t = 0.0
         for c in range(WIDE):
-            near = max(work[c], t_min)
+            near = work[c]
             if not near <= min(work[WIDE + c], best_t):
                 continue
             ch = wi[node, 6 * WIDE + c]
@@ -143,9 +143,9 @@ def any_one(
     node = 0
     sp = 0
     while True:
-        _wide_boxes(wb, node, origin, inverse, work, width)
+        _wide_boxes(wb, node, origin, inverse, t_min, work, width)
         for c in range(WIDE):
-            if not max(work[c], t_min) <= min(work[WIDE + c], t_max):
+            if not work[c] <= min(work[WIDE + c], t_max):
                 continue
             ch = wi[node, 6 * WIDE + c]
             if ch >= 0:

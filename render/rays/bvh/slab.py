@@ -58,16 +58,17 @@ def slab_interval(
     hi: tuple[float, float, float],
     origin: tuple[float, float, float],
     inverse: tuple[float, float, float],
+    t_min: float,
 ) -> tuple[float, float]:
-    """``(near, far)`` ray parameters of the box ``[lo, hi]`` (float64 corners); the ray enters
-    it for ``t`` in ``[max(near, t_min), min(far, t_max)]`` when that is not empty. ``far``
-    carries the robust scaling of Ize 2013. ``inverse`` is :func:`safe_inverse` per axis."""
+    """``(near, far)`` ray parameters of the box ``[lo, hi]`` (float64 corners), ``near`` no
+    less than ``t_min``: the ray enters the box where ``near <= min(far, t_max)``. ``far``
+    carries the robust scaling of Ize 2013; ``inverse`` is :func:`safe_inverse` per axis."""
     a = (lo[0] - origin[0]) * inverse[0]
     b = (hi[0] - origin[0]) * inverse[0]
     c = (lo[1] - origin[1]) * inverse[1]
     d = (hi[1] - origin[1]) * inverse[1]
     e = (lo[2] - origin[2]) * inverse[2]
     f = (hi[2] - origin[2]) * inverse[2]
-    near = max(max(min(a, b), min(c, d)), min(e, f))
+    near = max(max(min(a, b), min(c, d)), max(min(e, f), t_min))
     far = min(min(max(a, b), max(c, d)), max(e, f)) * ROBUST_FAR
     return near, far
