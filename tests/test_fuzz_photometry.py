@@ -15,9 +15,10 @@ Three generators feed :func:`render.light.photometry.read_lm63`:
 Each input only has to keep the reader contract of ``tests/fuzzing.py`` (a result or an
 InputError, within the time limit, never quoting another file: no "root:" of /etc/passwd, no
 marker of the secret file), and a result has to be usable: every number finite, intensities
-≥ 0, a finite flux, finite after the tilt factor. With and without strict paths
-(``allowed_root``). The CI budget is small; ``LAMPCAST_FUZZ=long`` or
-``LAMPCAST_FUZZ_EXAMPLES=N`` runs deeper (the number of inputs read is printed with ``-s``).
+≥ 0, a finite flux, finite after the tilt factor, with no numpy overflow or invalid-value
+warning on the way. Inputs are read with and without strict paths (``allowed_root``). The CI
+budget is small; ``LAMPCAST_FUZZ=long`` or ``LAMPCAST_FUZZ_EXAMPLES=N`` runs deeper (the
+number of inputs read is printed with ``-s``).
 
 Sources: the contract is the project's own input rule (see tests/fuzzing.py); the LM-63 field
 order is ANSI/IESNA LM-63-2002 and IES LM-63-2019 **(from memory)**; binary64 limits: IEEE 754.
@@ -29,6 +30,7 @@ import math
 import os
 import re
 import shutil
+import warnings
 from collections import Counter
 from pathlib import Path
 
@@ -190,10 +192,12 @@ def read_case(data: bytes, fuzz_dir: Path, strict: bool, counter: str) -> P.Phot
     path.write_bytes(data)
     INPUTS_READ[counter] += 1
     root = fuzz_dir if strict else None
-    ph = reader_contract(lambda: P.read_lm63(path, allowed_root=root), forbidden_in_message=FORBIDDEN)
-    if ph is not None:
-        PARSED[counter] += 1
-        check_result(ph)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", RuntimeWarning)  # no overflow or 0/0 on the way either
+        ph = reader_contract(lambda: P.read_lm63(path, allowed_root=root), forbidden_in_message=FORBIDDEN)
+        if ph is not None:
+            PARSED[counter] += 1
+            check_result(ph)
     return ph
 
 

@@ -535,6 +535,17 @@ def test_factor_and_candela_signs(tmp_path, field, value, line, fragment):
     assert fragment in problem.message
 
 
+@pytest.mark.parametrize("angles", ["0 5e-324 90", "0 1e-9 90", "0 90 90.0000001"])
+def test_angles_closer_than_the_angle_tolerance(tmp_path, angles):
+    # Found by the fuzz suite: vertical angles 0 and 5e-324 (distinct doubles, equal in
+    # radians) gave a NaN flux. Angles closer than model.ANGLE_TOL_DEG are the same angle.
+    path = hostile_lm63(tmp_path)
+    path.write_text(path.read_text().replace("0 45 90", angles))
+    problem = problem_of(path)
+    assert (problem.source, problem.where) == (str(path), "line 6")
+    assert "vertical angles must increase" in problem.message
+
+
 def test_zero_candela_values_are_allowed(tmp_path):
     assert P.read_lm63(hostile_lm63(tmp_path, candela="0 0 0")).candela_cd.max() == 0.0
 

@@ -638,13 +638,20 @@ def _parse_tilt(tokens: _Tokens, origin: str) -> TiltData:
 def _check_increasing(
     a: np.ndarray, lines: np.ndarray, what: str, source: str, *, echo: bool = True, context: str = ""
 ) -> None:
+    """Angles must increase by more than :data:`ANGLE_TOL_DEG` (closer angles are the same
+    angle, and a narrower cell would make the flux weights divide by zero)."""
     if a.size < 2:
         return
-    bad = np.flatnonzero(np.diff(a) <= 0)
+    with np.errstate(over="ignore"):
+        bad = np.flatnonzero(~(np.diff(a) > ANGLE_TOL_DEG))
     if bad.size:
         k = int(bad[0]) + 1
         shown = f": {a[k]:g} follows {a[k - 1]:g}" if echo else f" (value {k + 1} does not exceed value {k})"
-        raise input_error(source, f"line {lines[k]}", f"{what} angles must increase{shown}{context}")
+        raise input_error(
+            source,
+            f"line {lines[k]}",
+            f"{what} angles must increase, each by more than {ANGLE_TOL_DEG:g}°{shown}{context}",
+        )
 
 
 def _near(x: float, target: float) -> bool:
