@@ -307,11 +307,13 @@ def cmd_render(args: argparse.Namespace) -> int:
     observer = _observer_from_args(study, args)
     written: list[Path] = []
     if args.aov:
+        from render.limits import check_render_size
         from render.output.aov_previews import write_aov_previews
         from render.output.provenance import view_metadata
         from render.rays.aov import render_aovs
 
         camera = study.camera(view.name, args.width)
+        check_render_size(camera.width_px, camera.height_px, spp, 1, study.scene.path, f"view {view.name!r}")
         aovs = render_aovs(study.mesh, study.bvh, camera, samples_per_pixel=spp, seed=seed)
         meta = view_metadata(study, view.name, "aov", seed, spp)
         written += write_aov_previews(aovs, out, file_stem(view.name), meta)

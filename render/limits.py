@@ -27,10 +27,13 @@ from render.errors import input_error
 __all__ = [
     "FILE_SIZE_LIMITS_BYTES",
     "MAX_CAMERA_SAMPLES",
+    "MAX_COORDINATE_M",
     "MAX_GENERATED_LUMINAIRES",
     "MAX_IMAGE_SIDE_PX",
     "MAX_LM63_ANGLES",
     "MAX_LM63_TILT_ANGLES",
+    "MAX_MARKING_DASHES",
+    "MAX_POLYGON_VERTICES",
     "MAX_PROBLEMS_PER_FILE",
     "MAX_SAMPLES_PER_PIXEL",
     "MAX_SPECTRUM_ROWS",
@@ -40,6 +43,7 @@ __all__ = [
     "available_memory_bytes",
     "check_count",
     "check_memory",
+    "check_render_size",
     "file_size_limit_bytes",
     "render_memory_estimate",
 ]
@@ -60,6 +64,18 @@ MAX_GENERATED_LUMINAIRES = 10_000
 
 MAX_TRIANGLES = 50_000_000
 """Triangles in one compiled scene (about 4 GB of vertex data in float64 with the BVH)."""
+
+MAX_POLYGON_VERTICES = 1000
+"""Vertices of one polygon lampcast triangulates (an OBJ face, a marking polygon, an extrusion
+outline): ear clipping takes time growing with the square of this or faster."""
+
+MAX_MARKING_DASHES = 100_000
+"""Dashes of all dashed marking lines in one scene (a 2 km street with 1 m dashes has 1000)."""
+
+MAX_COORDINATE_M = 10_000.0
+"""Largest distance of any scene coordinate from the origin along an axis, m (positions,
+targets, outlines, sizes, OBJ vertices after scaling): a street is at most 2 km long, and within
+10 km single precision still resolves a millimetre."""
 
 MAX_LM63_ANGLES = 100_000
 """Vertical or horizontal angles in an LM-63 file (real files have fewer than 1000)."""
@@ -96,19 +112,20 @@ def file_size_limit_bytes(kind: str) -> int:
     return FILE_SIZE_LIMITS_BYTES.get(kind, _DEFAULT_FILE_LIMIT_BYTES)
 
 
-def check_count(value: float, limit: float, source: str | Path, where: str, what: str) -> int:
-    """``value`` as an int when ``0 <= value <= limit``; else an :class:`InputError` naming
-    ``where`` (a key, option or line), what is counted and the limit. Non-finite values count
-    as over the limit."""
+def check_count(value: float, limit: float, source: str | Path, where: str, what: str, minimum: int = 0) -> int:
+    """``value`` as an int when ``minimum <= value <= limit``; else an :class:`InputError`
+    naming ``where`` (a key, option or line), what is counted and the limits. Non-finite values
+    count as over the limit."""
     try:
         number = float(value)
     except (TypeError, ValueError, OverflowError):
         raise input_error(source, where, f"{what} must be a whole number, got {value!r}") from None
-    if not (number == number) or number < 0 or number > limit:  # NaN, negative, too many
-        shown = f"{value:.4g}" if isinstance(value, float) else str(value)
-        if len(shown) > 40:
-            shown = shown[:20] + "…"
-        raise input_error(source, where, f"{what} is {shown}; lampcast allows 0 to {limit:,}")
+    if not (number == number) or number < minimum or number > limit:  # NaN, too few, too many
+        if isinstance(value, int) and not isinstance(value, bool):
+            shown = f"{value:,}" if abs(value) < 10**30 else f"about {number:.3g}"
+        else:
+            shown = f"{number:.4g}"
+        raise input_error(source, where, f"{what} is {shown}; lampcast allows {minimum:,} to {limit:,}")
     return int(number)
 
 
@@ -162,6 +179,20 @@ def check_memory(estimate: MemoryEstimate, source: str | Path, where: str, avail
         raise input_error(
             source,
             where,
-            f"{estimate.what} needs about {estimate.bytes / 2**30:.1f} GiB, but about "
+            f"{estimate.what} need about {estimate.bytes / 2**30:.1f} GiB, but about "
             f"{available / 2**30:.1f} GiB is available; lower the resolution or the samples per pixel",
         )
+
+
+def check_render_size(width_px: int, height_px: int, spp: int, n_channels: int, source: str | Path, where: str) -> None:
+    """Refuse, before any allocation, a view larger than the limits or than the memory available:
+    an :class:`InputError` naming ``where`` (the view, or the ``--width``/``--spp`` options)."""
+    for value, limit, what in (
+        (width_px, MAX_IMAGE_SIDE_PX, "the image width in pixels"),
+        (height_px, MAX_IMAGE_SIDE_PX, "the image height in pixels"),
+        (spp, MAX_SAMPLES_PER_PIXEL, "the samples per pixel"),
+    ):
+        check_count(value, limit, source, where, what, minimum=1)
+    samples = int(width_px) * int(height_px) * int(spp)
+    check_count(samples, MAX_CAMERA_SAMPLES, source, where, "the number of camera samples of the view", minimum=1)
+    check_memory(render_memory_estimate(width_px, height_px, spp, n_channels), source, where)

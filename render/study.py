@@ -34,6 +34,7 @@ from render.errors import did_you_mean, input_error
 from render.geometry.build import compile_scene
 from render.light.integrator import NEGLIGIBLE_LX, LightBuffers, cast_view, direct_illuminance_lx, evaluate_light
 from render.light.luminaires import LuminaireSet, channel_factors, luminaire_set, needs_new_evaluation
+from render.limits import check_render_size
 from render.scene import Scene, load_scene
 from render.scene.model import Setup
 
@@ -172,6 +173,8 @@ class Study:
         seed = self.scene.render.seed if seed is None else seed
         s = self.setup(setup)
         lights = luminaire_set(self.scene, s)
+        where = f"view {v.name!r}" + (" with --width/--spp" if width_px or samples_per_pixel else "")
+        check_render_size(camera.width_px, camera.height_px, spp, lights.n_channels, self.scene.path, where)
         buffers = cast_view(self.mesh, self.bvh, lights, camera, spp, seed, progress=progress)
         evaluate_light(buffers, lights, self.bvh, negligible_lx=self.negligible_lx, progress=progress)
         return RenderedView(

@@ -34,10 +34,10 @@ import numpy as np
 from numba import prange
 
 from render.errors import ProblemList, input_error
+from render.limits import MAX_SAMPLES_PER_PIXEL
 
 # Samples per pixel above this are refused (a user typo such as 40000 would otherwise try to
 # allocate gigabytes of rays).
-MAX_SAMPLES_PER_PIXEL = 4096
 
 
 def _vec3(value: Any) -> np.ndarray | None:
