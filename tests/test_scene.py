@@ -12,6 +12,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from fuzzing import time_limit
 
 from render.errors import InputError
 from render.geometry.build import compile_scene
@@ -333,3 +334,246 @@ def test_default_slot_materials_exist():
 
     missing = sorted(set(DEFAULT_SLOT_MATERIALS.values()) - set(material_library()))
     assert not missing, missing
+
+
+# ---- hostile input: an InputError naming the file and the key, never a traceback or a hang ----
+# Source of the contract: the project's input rule (scenes/README.md, "Referenced files and
+# limits"); the limits are lampcast's own (render/limits.py), binary64 range from IEEE 754.
+
+
+def one_problem_at(path: Path, where: str, *, strict_paths: bool = False):
+    """The problem ``load_scene`` reports at ``where`` (the test fails if there is none)."""
+    with time_limit(10.0):
+        with pytest.raises(InputError) as info:
+            load_scene(path, strict_paths=strict_paths) if strict_paths else load_scene(path)
+    found = [p for p in info.value.problems if p.where == where]
+    assert found, [str(p) for p in info.value.problems]
+    assert found[0].source == str(path)
+    return found[0]
+
+
+HUGE_INT = "1" + "0" * 400  # above the largest binary64 number, about 1.8e308
+
+
+@pytest.mark.parametrize(
+    "old, new, where",
+    [
+        ("carriageway_width_m = 6.0", f"carriageway_width_m = 6.0\nkerb_width_m = {HUGE_INT}", "street.kerb_width_m"),
+        ("resolution = [16, 9]", f"resolution = [{HUGE_INT}, 9]", "views[0].resolution[0]"),
+        ("target_m = [20.0, 0.0, 0.0]", f"target_m = [20.0, -{HUGE_INT}, 0.0]", "views[0].target_m[1]"),
+        ("position_m = [1.0, 0.0]", f"position_m = [{HUGE_INT}, 0.0]", "views[0].position_m[0]"),
+        ("carriageway_width_m = 6.0", f"carriageway_width_m = 6.0\nlanes = {HUGE_INT}", "street.lanes"),
+    ],
+)
+def test_integer_too_large_for_a_float(tmp_path, old, new, where):
+    problem = one_problem_at(write(tmp_path, BASE.replace(old, new)), where)
+    assert "finite" in problem.message or "at most" in problem.message
+    assert HUGE_INT not in problem.message  # a 401-digit number is not echoed in full
+
+
+def test_integer_beyond_python_conversion_limit(tmp_path):
+    # More digits than Python converts to a string (4300, the default of sys.int_max_str_digits).
+    p = write(tmp_path, BASE.replace("length_m = 30.0", "length_m = 1" + "0" * 5000))
+    problem = one_problem_at(p, f"line {BASE.splitlines().index('length_m = 30.0') + 1}")
+    assert "digits" in problem.message
+
+
+def test_deeply_nested_array(tmp_path):
+    p = write(tmp_path, BASE + "\n[render]\nseed = " + "[" * 5000 + "]" * 5000 + "\n")
+    with time_limit(10.0), pytest.raises(InputError) as info:
+        load_scene(p)
+    assert info.value.problems[0].source == str(p) and "nested" in info.value.problems[0].message
+
+
+ROW = '\n[[luminaire_rows]]\nlamp = "led-4000k-cie-b3"\nmounting_height_m = 6.0\n'
+
+
+@pytest.mark.parametrize(
+    "keys, where, words",
+    [
+        ("spacing_m = 1e-300\nend_m = 1e308", "luminaire_rows[0].end_m", "30 m (street.length_m)"),  # was OverflowError
+        ("spacing_m = 0.001\nend_m = 1e6", "luminaire_rows[0].end_m", "30 m (street.length_m)"),  # was a hang
+        ("spacing_m = 1e-300\nend_m = 30.0", "luminaire_rows[0].end_m", "more luminaires than can be counted"),
+        ("spacing_m = 5e-324\nend_m = 30.0", "luminaire_rows[0].end_m", "more luminaires than can be counted"),
+        ("spacing_m = 0.001\nend_m = 30.0", "luminaire_rows[0].end_m", "30,001 luminaires"),
+        ("spacing_m = 1.0\nstart_m = -1e6\nend_m = 10.0", "luminaire_rows[0].start_m", "30 m (street.length_m)"),
+        ("spacing_m = 1.0\nstart_m = 20.0\nend_m = 10.0", "luminaire_rows[0].end_m", "30 m (street.length_m)"),
+        ("spacing_m = 10.0\ncount = 5", "luminaire_rows[0].count", "30 m (street.length_m)"),  # reaches 40 m
+    ],
+)
+def test_row_positions_bounded_by_the_street_and_the_limit(tmp_path, keys, where, words):
+    problem = one_problem_at(write(tmp_path, BASE + ROW + keys + "\n"), where)
+    assert words in problem.message
+
+
+def test_generated_luminaires_bounded_across_rows_and_singles(tmp_path):
+    from render.limits import MAX_GENERATED_LUMINAIRES
+
+    # 2000 m at 0.25 m spacing: 8001 positions, twice for "opposite" (16 002) > 10 000.
+    text = BASE.replace("length_m = 30.0", "length_m = 2000.0")
+    p = write(tmp_path, text + ROW + 'layout = "opposite"\nspacing_m = 0.25\nend_m = 2000.0\n')
+    problem = one_problem_at(p, "luminaire_rows[0].end_m")
+    assert f"{MAX_GENERATED_LUMINAIRES:,}" in problem.message and "16,002" in problem.message
+    # Each row alone is within the limit; the second one takes the total over it:
+    # 1 single + 8001 + 2 × 1000 (opposite) = 10 002.
+    single = '\n[[luminaires]]\nposition_m = [5.0, 3.0, 6.0]\nlamp = "led-4000k-cie-b3"\n'
+    first = ROW + "spacing_m = 0.25\nend_m = 2000.0\n"
+    second = ROW + 'layout = "opposite"\nspacing_m = 1.0\ncount = {}\n'
+    p = write(tmp_path, text + single + first + second.format(1000))
+    problem = one_problem_at(p, "luminaire_rows[1].count")
+    assert "10,002" in problem.message and "2,000 luminaires" in problem.message
+    # At the limit exactly: loads.
+    p = write(tmp_path, text + single + first + second.format(999))
+    with time_limit(20.0):
+        assert len(load_scene(p).luminaires) == MAX_GENERATED_LUMINAIRES
+
+
+OBJ_ENTRY = '\n[[geometry]]\nkind = "obj"\nmaterial = "wood"\nfile = {}\n'
+
+
+def test_obj_file_name_with_nul_byte(tmp_path):
+    problem = one_problem_at(write(tmp_path, BASE + OBJ_ENTRY.format('"a\\u0000b.obj"')), "geometry[0].file")
+    assert "NUL" in problem.message
+
+
+@pytest.mark.parametrize("target", ["/dev/zero", "folder"])
+def test_obj_file_not_a_regular_file(tmp_path, target):
+    (tmp_path / "folder").mkdir()
+    problem = one_problem_at(write(tmp_path, BASE + OBJ_ENTRY.format(f'"{target}"')), "geometry[0].file")
+    assert "not a regular file" in problem.message
+
+
+@pytest.mark.parametrize(
+    "key, value",
+    [
+        ("lamp", '"/dev/zero"'),
+        ("lamp", '"x\\u0000.csv"'),
+        ("photometry", '"/dev/zero"'),
+        ("photometry", '"y\\u0000.ies"'),
+    ],
+)
+def test_lamp_and_photometry_references_checked(tmp_path, key, value):
+    entry = {"lamp": '"led-4000k-cie-b3"', "photometry": '"generic-isotropic"'}
+    entry[key] = value
+    text = BASE + "\n[[luminaires]]\nposition_m = [5.0, 3.0, 6.0]\n" + "".join(f"{k} = {v}\n" for k, v in entry.items())
+    problem = one_problem_at(write(tmp_path, text), f"luminaires[0].{key}")
+    assert "not a regular file" in problem.message or "NUL" in problem.message
+
+
+def test_references_resolve_against_the_scene_folder(tmp_path, monkeypatch):
+    scene_dir = tmp_path / "scene"
+    (scene_dir / "meshes").mkdir(parents=True)
+    (scene_dir / "meshes" / "tri.obj").write_text("v 0 0 0\nv 1 0 0\nv 0 1 0\nf 1 2 3\n")
+    p = write(scene_dir, BASE + OBJ_ENTRY.format('"meshes/tri.obj"'))
+    monkeypatch.chdir(tmp_path)  # not the scene's folder
+    scene = load_scene(p)
+    assert scene.objects[0].params["file"] == str(scene_dir / "meshes" / "tri.obj")
+
+
+def _strict_fixture(tmp_path: Path) -> Path:
+    """A scene folder with a mesh, a lamp file and a photometric file inside, copies of them
+    outside, and a symbolic link from inside to outside."""
+    inside, outside = tmp_path / "scene", tmp_path / "elsewhere"
+    inside.mkdir()
+    outside.mkdir()
+    photometry = SCENES.parent / "tests" / "data" / "photometry"
+    for folder in (inside, outside):
+        (folder / "tri.obj").write_text("v 0 0 0\nv 1 0 0\nv 0 1 0\nf 1 2 3\n")
+        (folder / "lamp.csv").write_text(
+            "wavelength_nm, relative_power\n" + "".join(f"{w}, 1.0\n" for w in range(380, 781, 10))
+        )
+        (folder / "lum.ies").write_bytes((photometry / "rotational_1995.ies").read_bytes())
+        (folder / "tilt.ies").write_bytes((photometry / "tilt_file.ies").read_bytes())
+        (folder / "tilt_file.tlt").write_bytes((photometry / "tilt_file.tlt").read_bytes())
+    # A photometric file inside whose tilt file is outside.
+    text = (photometry / "tilt_file.ies").read_text().replace("TILT=tilt_file.tlt", "TILT=../elsewhere/tilt_file.tlt")
+    (inside / "tilt_out.ies").write_text(text)
+    (inside / "link.obj").symlink_to(outside / "tri.obj")
+    return inside
+
+
+def _strict_scene(folder: Path, obj: str = "tri.obj", lamp: str = "lamp.csv", photometry: str = "lum.ies") -> Path:
+    text = BASE + OBJ_ENTRY.format(f'"{obj}"')
+    text += f'\n[[luminaires]]\nposition_m = [5.0, 3.0, 6.0]\nlamp = "{lamp}"\nphotometry = "{photometry}"\n'
+    return write(folder, text)
+
+
+@pytest.mark.parametrize(
+    "kwargs, where",
+    [
+        ({"obj": "{outside}/tri.obj"}, "geometry[0].file"),  # absolute
+        ({"obj": "../elsewhere/tri.obj"}, "geometry[0].file"),  # '..' out of the folder
+        ({"obj": "link.obj"}, "geometry[0].file"),  # symbolic link out of the folder
+        ({"lamp": "../elsewhere/lamp.csv"}, "luminaires[0].lamp"),
+        ({"photometry": "{outside}/lum.ies"}, "luminaires[0].photometry"),
+        ({"photometry": "tilt_out.ies"}, None),  # the tilt file, checked by the LM-63 reader
+    ],
+)
+def test_strict_paths(tmp_path, kwargs, where):
+    inside = _strict_fixture(tmp_path)
+    kwargs_given = kwargs
+    kwargs = {k: v.format(outside=tmp_path / "elsewhere") for k, v in kwargs.items()}
+    # Everything inside: loads with and without strict paths.
+    assert load_scene(_strict_scene(inside), strict_paths=True).reference_root == inside.resolve()
+    p = _strict_scene(inside, **kwargs)
+    assert load_scene(p).reference_root is None  # allowed by default
+    with pytest.raises(InputError) as info:
+        load_scene(p, strict_paths=True)
+    problem = info.value.problems[0]
+    if where is None:
+        assert "tilt" in problem.message and "outside" in problem.message
+    else:
+        assert (problem.source, problem.where) == (str(p), where)
+        assert ("absolute" if "{outside}" in next(iter(kwargs_given.values())) else "outside") in problem.message
+
+
+def test_strict_paths_rejects_bundled_scene_reaching_out_of_its_folder():
+    # all_kinds.toml takes its OBJ from tests/data: allowed by default, refused with strict paths.
+    path = SCENES / "tests" / "all_kinds.toml"
+    load_scene(path)
+    with pytest.raises(InputError) as info:
+        load_scene(path, strict_paths=True)
+    assert [p.where for p in info.value.problems] == ["geometry[4].file"]
+
+
+# ---- limits from render/limits.py (one declaration for scene keys and options) --------------
+
+
+def test_image_and_sample_limits_come_from_render_limits(tmp_path):
+    from render import limits
+    from render.scene.loader import RENDER_SPEC, VIEW_SPEC
+
+    assert VIEW_SPEC["resolution"].max == limits.MAX_IMAGE_SIDE_PX
+    assert RENDER_SPEC["samples_per_pixel"].max == limits.MAX_SAMPLES_PER_PIXEL
+    side = limits.MAX_IMAGE_SIDE_PX
+    p = write(tmp_path, BASE.replace("resolution = [16, 9]", f"resolution = [{side + 1}, 9]"))
+    assert f"{side}" in one_problem_at(p, "views[0].resolution[0]").message
+    p = write(tmp_path, BASE + f"\n[render]\nsamples_per_pixel = {limits.MAX_SAMPLES_PER_PIXEL + 1}\n")
+    assert f"{limits.MAX_SAMPLES_PER_PIXEL}" in one_problem_at(p, "render.samples_per_pixel").message
+    # Within both limits, but more camera samples than an int32 index can count.
+    p = write(tmp_path, BASE.replace("[16, 9]", f"[{side}, {side}]") + "\n[render]\nsamples_per_pixel = 64\n")
+    assert f"{limits.MAX_CAMERA_SAMPLES:,}" in one_problem_at(p, "views[0].resolution").message
+
+
+def test_triangle_limit_after_compile(tmp_path, monkeypatch):
+    from render import limits
+
+    scene = load_scene(write(tmp_path, BASE))
+    n = compile_scene(scene).n_triangles
+    monkeypatch.setattr(limits, "MAX_TRIANGLES", n - 1)
+    with pytest.raises(InputError) as info:
+        compile_scene(scene)
+    (problem,) = info.value.problems
+    assert problem.source == str(scene.path) and f"{n:,}" in problem.message and f"{n - 1:,}" in problem.message
+
+
+def test_check_reports_a_view_that_needs_more_memory_than_available(tmp_path, monkeypatch):
+    from render import limits
+
+    p = write(tmp_path, BASE)
+    check_scene(p)
+    monkeypatch.setattr(limits, "available_memory_bytes", lambda: 1000)
+    with pytest.raises(InputError) as info:
+        check_scene(p)
+    (problem,) = info.value.problems
+    assert problem.where == "views[0].resolution" and "16×9 pixels" in problem.message and "GiB" in problem.message

@@ -14,6 +14,7 @@ from functools import cache
 
 import numpy as np
 
+from render import limits
 from render.errors import input_error
 from render.geometry.mesh import TriangleMesh, flat_normals
 from render.scene.model import Frontage, Marking, Scene, Street, StreetObject
@@ -349,6 +350,9 @@ def compile_scene(scene: Scene) -> TriangleMesh:
     for m in scene.markings:
         _marking(b, m, scene.street)
     _columns(b, scene)
+    limits.check_count(
+        sum(t.shape[0] for t in b.tris), limits.MAX_TRIANGLES, scene.path, "", "the number of triangles in the scene"
+    )
     mesh = b.mesh()
     # Specular layer per material index: (F0, GGX alpha); F0 = 0 means none.
     mesh.material_gloss = np.array([scene.gloss.get(m, (0.0, 1.0)) for m in mesh.material_names], np.float64).reshape(

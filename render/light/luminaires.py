@@ -138,7 +138,7 @@ def luminaire_set(scene: Scene, setup: Setup | None = None) -> LuminaireSet:
         s = setting_for(setup, lum.group)
         ref = s.photometry or lum.photometry
         try:
-            photometry = load_photometry(ref, base_dir=scene.base_dir)
+            photometry = load_photometry(ref, base_dir=scene.base_dir, allowed_root=scene.reference_root)
         except InputError as err:
             problems.extend(err)
             continue

@@ -222,6 +222,9 @@ class Scene:
     setups: dict[str, Setup] = field(default_factory=dict)
     sky_material: str | None = None
     gloss: dict[str, tuple[float, float]] = field(default_factory=dict)  # material -> (F0, GGX alpha)
+    #: With strict paths, the folder every referenced file must lie in (the scene's folder,
+    #: symbolic links resolved); None when referenced files may lie anywhere.
+    reference_root: Path | None = None
 
     @property
     def base_dir(self) -> Path:

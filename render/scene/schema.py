@@ -13,14 +13,16 @@ References
 
 from __future__ import annotations
 
+import json
 import math
+import re
 from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any
 
 from render.errors import ProblemList, did_you_mean
 
-__all__ = ["Field", "check_table", "check_value", "join"]
+__all__ = ["Field", "check_table", "check_value", "join", "shown"]
 
 _MISSING = object()
 
@@ -76,6 +78,26 @@ def _number(value) -> bool:
     return isinstance(value, (int, float)) and not isinstance(value, bool)
 
 
+def shown(value: Any, limit: int = 60) -> str:
+    """A value as quoted in a message: an integer of many digits by its length, anything else
+    by its ``repr`` cut to ``limit`` characters (a scene value can be megabytes long)."""
+    if isinstance(value, int) and not isinstance(value, bool) and abs(value) >= 10**20:
+        return f"an integer of {len(str(abs(value)))} digits"
+    text = repr(value)
+    return text if len(text) <= limit else text[: limit - 1] + "…"
+
+
+def _as_float(value: int | float, field: Field, where: str, problems: ProblemList) -> float | None:
+    """A TOML number as a float; an integer beyond the binary64 range (about 1.8e308) is a
+    problem, not an OverflowError."""
+    try:
+        return float(value)
+    except OverflowError:
+        unit = f" {field.unit}" if field.unit else ""
+        problems.add(where, f"expected a finite number{unit}, got {shown(value)} (too large)")
+        return None
+
+
 def _check_bounds(value: float, field: Field, where: str, problems: ProblemList) -> bool:
     unit = f" {field.unit}" if field.unit else ""
     if not math.isfinite(value):
@@ -96,75 +118,80 @@ def _check_bounds(value: float, field: Field, where: str, problems: ProblemList)
     return True
 
 
+def _checked_number(value: Any, field: Field, where: str, problems: ProblemList, whole: bool) -> float | int | None:
+    """One number of a ``float``/``int``-like field, converted and within the field's bounds."""
+    number = _as_float(value, field, where, problems)
+    if number is None:
+        return None
+    if whole and not (math.isfinite(number) and number.is_integer()):
+        problems.add(where, f"expected {_describe(Field('int', unit=field.unit))}, got {shown(value)}")
+        return None
+    if not _check_bounds(number, field, where, problems):
+        return None
+    return int(value) if whole else number
+
+
 def check_value(value: Any, field: Field, where: str, problems: ProblemList) -> Any:
     """Convert and check one value; returns the converted value or ``None`` after a problem."""
     kind = field.kind
     if kind == "any":
         return value
-    if kind == "float":
+    if kind in ("float", "int"):
         if not _number(value):
-            problems.add(where, f"expected {_describe(field)}, got {type(value).__name__} {value!r}")
+            problems.add(where, f"expected {_describe(field)}, got {type(value).__name__} {shown(value)}")
             return None
-        value = float(value)
-        return value if _check_bounds(value, field, where, problems) else None
-    if kind == "int":
-        if isinstance(value, bool) or not isinstance(value, int):
-            if isinstance(value, float) and value.is_integer():
-                value = int(value)
-            else:
-                problems.add(where, f"expected {_describe(field)}, got {value!r}")
-                return None
-        return value if _check_bounds(float(value), field, where, problems) else None
+        return _checked_number(value, field, where, problems, whole=kind == "int")
     if kind == "bool":
         if not isinstance(value, bool):
-            problems.add(where, f"expected true or false, got {value!r}")
+            problems.add(where, f"expected true or false, got {shown(value)}")
             return None
         return value
     if kind == "str":
         if not isinstance(value, str):
-            problems.add(where, f"expected a text string, got {value!r}")
+            problems.add(where, f"expected a text string, got {shown(value)}")
             return None
         if field.choices is not None and value not in field.choices:
             options = ", ".join(repr(c) for c in field.choices)
-            problems.add(where, f"expected one of {options}, got {value!r}{did_you_mean(value, field.choices)}")
+            problems.add(where, f"expected one of {options}, got {shown(value)}{did_you_mean(value, field.choices)}")
             return None
         return value
     if kind == "strlist":
         if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
-            problems.add(where, f"expected a list of text strings, got {value!r}")
+            problems.add(where, f"expected a list of text strings, got {shown(value)}")
             return None
         return list(value)
     if kind in ("vec2", "vec3", "int2"):
         n = 3 if kind == "vec3" else 2
         if not isinstance(value, list) or len(value) != n or not all(_number(v) for v in value):
-            problems.add(where, f"expected {_describe(field)}, got {value!r}")
+            problems.add(where, f"expected {_describe(field)}, got {shown(value)}")
             return None
-        if kind == "int2":
-            if not all(float(v).is_integer() for v in value):
-                problems.add(where, f"expected {_describe(field)}, got {value!r}")
-                return None
-            out = tuple(int(v) for v in value)
-        else:
-            out = tuple(float(v) for v in value)
-        ok = all(_check_bounds(float(v), field, f"{where}[{i}]", problems) for i, v in enumerate(out))
-        return out if ok else None
+        out = [_checked_number(v, field, f"{where}[{i}]", problems, whole=kind == "int2") for i, v in enumerate(value)]
+        return None if any(v is None for v in out) else tuple(out)
     if kind == "table":
         if not isinstance(value, dict):
-            problems.add(where, f"expected a table, got {value!r}")
+            problems.add(where, f"expected a table, got {shown(value)}")
             return None
         return value
     if kind == "list":
         if not isinstance(value, list) or not all(isinstance(v, dict) for v in value):
-            problems.add(where, f"expected a list of tables ([[...]] entries), got {value!r}")
+            problems.add(where, f"expected a list of tables ([[...]] entries), got {shown(value)}")
             return None
         return value
     raise ValueError(f"unknown field kind {kind!r}")  # pragma: no cover - programming error
 
 
+_BARE_KEY = re.compile(r"[A-Za-z0-9_-]{1,60}")
+
+
 def join(prefix: str, key: str | int) -> str:
-    """Key path ``prefix.key`` (or ``prefix[i]`` for list indices)."""
+    """Key path ``prefix.key`` (or ``prefix[i]`` for list indices). A key that is not a TOML
+    bare key (letters, digits, ``_``, ``-``) is shown quoted with its control characters
+    escaped, and cut after 60 characters."""
     if isinstance(key, int):
         return f"{prefix}[{key}]"
+    if not _BARE_KEY.fullmatch(key):
+        key = json.dumps(key if len(key) <= 60 else key[:59] + "…", ensure_ascii=False)
+        key = "".join(c if c.isprintable() else c.encode("unicode_escape").decode("ascii") for c in key)
     return f"{prefix}.{key}" if prefix else key
 
 
@@ -180,7 +207,7 @@ def check_table(
     through unchecked."""
     out: dict[str, Any] = {}
     if not isinstance(table, dict):
-        problems.add(where, f"expected a table, got {table!r}")
+        problems.add(where, f"expected a table, got {shown(table)}")
         return {k: (None if f.required else f.default) for k, f in spec.items()}
     for key, value in table.items():
         if key in spec:
