@@ -15,6 +15,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from fuzzing import time_limit
 
 from render.errors import InputError
 from render.geometry import objects as O
@@ -464,6 +465,90 @@ def test_obj_unreadable_and_several_problems(tmp_path):
     with pytest.raises(InputError) as info:
         load_obj(f)
     assert [p.where for p in info.value.problems] == ["line 2", "line 5"]
+
+
+def test_obj_line_continuations(tmp_path):
+    # A trailing backslash joins the next line (Wavefront OBJ spec, Appendix B1), also for a
+    # comment. 60 000 continued lines (600 kB) used to take seconds (quadratic joining); the
+    # result is checked here, not the time.
+    n = 60_000
+    lines = ["v 0 0 0", "v 1 0 0", "v 1 1 0", "v 0 1 0"]
+    lines += ["# a comment continued over many lines \\"] + ["f 1 2 3 \\"] * n + ["end of the comment"]
+    lines += ["f 1 \\", "  2 \\", "  3 4"]  # one quad whose references span three lines
+    lines += ["v 0 0 q"]  # a mistake after the continuations: its line number counts every line
+    f = tmp_path / "continued.obj"
+    f.write_text("\n".join(lines) + "\n")
+    with pytest.raises(InputError) as info:
+        load_obj(f)
+    assert [p.where for p in info.value.problems] == [f"line {len(lines)}"]
+    f.write_text("\n".join(lines[:-1]) + "\n")
+    (part,) = load_obj(f)
+    assert part.n_triangles == 2 and S.surface_area_m2([part]) == pytest.approx(1.0, rel=1e-12)  # unit square
+    # The whole face on continued lines, one reference per line, and a continuation at the end
+    # of the file (joins nothing).
+    refs = "".join(f"{k} \\\n" for k in (1, 2, 3))
+    f.write_text("v 0 0 0\nv 1 0 0\nv 0 1 0\nf \\\n" + refs)
+    assert load_obj(f)[0].n_triangles == 1
+
+
+def test_obj_line_numbers_count_only_line_breaks(tmp_path):
+    # A form feed or a Unicode line separator inside a line is not a line break for the line
+    # numbers in messages (editors count LF, CRLF and CR).
+    f = tmp_path / "ff.obj"
+    f.write_bytes("v 0 0 0\x0c\r\nv 1 0 0\u2028\rv 0 1 q\nf 1 2 3\n".encode())
+    with pytest.raises(InputError) as info:
+        load_obj(f)
+    assert [p.where for p in info.value.problems] == ["line 3"]
+
+
+def test_obj_coordinates_and_normals_stay_finite(tmp_path):
+    f = tmp_path / "big.obj"
+    # Coordinates beyond the scene's extent after scaling: refused at their line.
+    from render.limits import MAX_COORDINATE_M
+
+    f.write_text(f"v 0 0 0\nv {MAX_COORDINATE_M * 2} 0 0\nv 0 1 0\nf 1 2 3\n")
+    with pytest.raises(InputError) as info:
+        load_obj(f)
+    assert [p.where for p in info.value.problems] == ["line 2"]
+    assert load_obj(f, scale=0.25)[0].n_triangles == 1
+    f.write_text("v 0 0 0\nv 1e300 0 0\nv 0 1 0\nf 1 2 3\n")
+    with pytest.raises(InputError):
+        load_obj(f, scale=1e10)  # 1e310 is not finite
+    # Normals of any finite length are normalised (1e300 squared overflows, 1e-300 underflows).
+    for c in ("1e300", "1e-300", "5e-324"):
+        f.write_text(f"v 0 0 0\nv 1 0 0\nv 0 1 0\nvn 0 0 {c}\nf 1//1 2//1 3//1\n")
+        (part,) = load_obj(f)
+        assert np.allclose(part.normals, [0.0, 0.0, 1.0], rtol=0, atol=1e-15), c
+
+
+def test_obj_counts_are_bounded(tmp_path, monkeypatch):
+    from render import limits
+
+    f = tmp_path / "many.obj"
+    f.write_text("v 0 0 0\nv 1 0 0\nv 0 1 0\nv 1 1 0\n" + "f 1 2 4 3\n" * 4)
+    assert sum(p.n_triangles for p in load_obj(f)) == 8
+    monkeypatch.setattr(limits, "MAX_TRIANGLES", 7)
+    with pytest.raises(InputError) as info:
+        load_obj(f)
+    assert [p.where for p in info.value.problems] == ["line 8"] and "7" in info.value.problems[0].message
+    monkeypatch.undo()
+    # A face with more vertices than lampcast triangulates.
+    n = limits.MAX_POLYGON_VERTICES + 1
+    ring = "".join(f"v {math.cos(2 * math.pi * k / n)} {math.sin(2 * math.pi * k / n)} 0\n" for k in range(n))
+    f.write_text(ring + "f " + " ".join(str(k + 1) for k in range(n)) + "\n")
+    with pytest.raises(InputError) as info:
+        load_obj(f)
+    assert [p.where for p in info.value.problems] == [f"line {n + 1}"]
+    f.write_text(ring + "f " + " ".join(str(k + 1) for k in range(n - 1)) + "\n")
+    assert load_obj(f)[0].n_triangles == n - 3
+
+
+def test_obj_hostile_file_names(tmp_path):
+    with pytest.raises(InputError, match="NUL"):
+        load_obj(tmp_path / "a\x00b.obj")
+    for target in ("/dev/zero", tmp_path):
+        with time_limit(10.0), pytest.raises(InputError, match="not a regular file"):
+            load_obj(target)
 
 
 # ---------------------------------------------------------------------------------------------

@@ -2,8 +2,17 @@
 
 Only the reader lives here; the primitives it produces and the polygon triangulation it uses
 are in :mod:`render.geometry.shapes`. Mistakes in the file raise
-:class:`~render.errors.InputError` naming the file and line (up to 20 at once); bad arguments
+:class:`~render.errors.InputError` naming the file and line (up to
+:data:`render.limits.MAX_PROBLEMS_PER_FILE` at once); bad arguments
 (``scale``, ``up_axis``) raise :class:`ValueError`.
+
+Against hostile files: the file is read as a size-capped regular file
+(:func:`render.fileio.read_user_text`, kind "OBJ file"); reading is linear in its size
+(continued lines are joined once, vertices and face references are kept in flat arrays); the
+vertices, triangles and vertices per face are counted against :mod:`render.limits` as they are
+read; every coordinate after scaling is finite and within
+:data:`render.limits.MAX_COORDINATE_M`, and normals are normalised without overflow, so the
+parts returned are finite. Line numbers count line breaks (LF, CR LF or CR) as editors do.
 
 References
 ----------
@@ -18,10 +27,13 @@ from __future__ import annotations
 
 import math
 import os
-from collections.abc import Mapping, Sequence
+import re
+from array import array
+from collections.abc import Iterator, Mapping, Sequence
 
 import numpy as np
 
+from render import limits
 from render.errors import ProblemList, input_error
 from render.fileio import read_user_text
 from render.geometry.mesh import face_normals
@@ -32,41 +44,6 @@ __all__ = ["load_obj"]
 #: Turn of a y-up file into our z-up frame: its +y becomes +z and its +z becomes -y (a proper
 #: rotation, so the winding is kept).
 _Y_UP_TO_Z_UP = np.array([[1.0, 0.0, 0.0], [0.0, 0.0, -1.0], [0.0, 1.0, 0.0]])
-_MAX_PROBLEMS = 20
-_IGNORED = {
-    "vp",
-    "o",
-    "g",
-    "s",
-    "mtllib",
-    "l",
-    "p",
-    "cstype",
-    "deg",
-    "bmat",
-    "step",
-    "curv",
-    "curv2",
-    "surf",
-    "parm",
-    "trim",
-    "hole",
-    "scrv",
-    "sp",
-    "end",
-    "con",
-    "mg",
-    "lod",
-    "usemap",
-    "maplib",
-    "shadow_obj",
-    "trace_obj",
-    "ctech",
-    "stech",
-    "bevel",
-    "c_interp",
-    "d_interp",
-}
 
 
 def _obj_numbers(tokens: Sequence[str]) -> tuple[list[float] | None, str]:
@@ -84,7 +61,11 @@ def _obj_numbers(tokens: Sequence[str]) -> tuple[list[float] | None, str]:
 
 
 def _bad(tok: str) -> str:
-    return f" ({tok!r} is not a finite number)" if tok else ""
+    return f" ({_shown(tok)!r} is not a finite number)" if tok else ""
+
+
+def _shown(tok: str, limit: int = 40) -> str:
+    return tok if len(tok) <= limit else tok[: limit - 1] + "…"
 
 
 def _scale_factor(scale: float) -> float:
@@ -94,6 +75,44 @@ def _scale_factor(scale: float) -> float:
     if not math.isfinite(scale) or scale <= 0:
         raise ValueError(f"scale must be a finite number > 0, got {scale!r}")
     return float(scale)
+
+
+_LINE_BREAK = re.compile(r"\r\n|\r|\n")
+
+
+def _statements(text: str) -> Iterator[tuple[int, str]]:
+    """(line number, statement without its comment) of every non-empty statement. A line
+    ending in a backslash continues on the next line (joined with a space); the pieces are
+    collected and joined once, so the work is linear in the text."""
+    pieces: list[str] = []
+    first = 0
+    for number, line in enumerate(_LINE_BREAK.split(text), start=1):
+        stripped = line.rstrip()
+        if not pieces:
+            first = number
+        if stripped.endswith("\\"):
+            pieces.append(stripped[:-1])
+            continue
+        if pieces:
+            pieces.append(line)
+            line = " ".join(pieces)
+            pieces = []
+        content = line.split("#", 1)[0].strip()
+        if content:
+            yield first, content
+    if pieces:  # a continuation on the last line joins nothing
+        content = " ".join(pieces).split("#", 1)[0].strip()
+        if content:
+            yield first, content
+
+
+def _unit_vectors(v: np.ndarray) -> np.ndarray:
+    """Rows of ``v`` scaled to unit length without overflow or underflow (scaled by their
+    largest component first); zero rows stay zero."""
+    big = np.max(np.abs(v), axis=1, keepdims=True) if v.shape[0] else np.zeros((0, 1))
+    w = np.divide(v, big, out=np.zeros_like(v), where=big > 0)
+    length = np.linalg.norm(w, axis=1, keepdims=True)
+    return np.divide(w, length, out=np.zeros_like(w), where=length > 0)
 
 
 def load_obj(
@@ -128,9 +147,14 @@ def load_obj(
     ------
     render.errors.InputError
         Naming the file and line for an unreadable file, a malformed statement (bad or
-        non-finite number, missing coordinates), an index of 0 or out of range, a face with
-        fewer than 3 vertices, a zero-length normal, a self-intersecting polygon face, or a
-        file with no faces. Up to 20 problems are reported together.
+        non-finite number, missing coordinates), a coordinate beyond
+        :data:`render.limits.MAX_COORDINATE_M` after scaling, an index of 0 or out of range, a
+        face with fewer than 3 or more than :data:`render.limits.MAX_POLYGON_VERTICES`
+        vertices, a zero-length normal, a self-intersecting polygon face, more vertices than
+        3 × :data:`render.limits.MAX_TRIANGLES` or more triangles than
+        :data:`~render.limits.MAX_TRIANGLES`, or a file with no faces. Up to
+        :data:`~render.limits.MAX_PROBLEMS_PER_FILE` problems are reported together (the file
+        is not read past the last of them).
     ValueError
         For a bad ``scale`` or ``up_axis`` (arguments, not file content).
     """
@@ -139,49 +163,63 @@ def load_obj(
         raise ValueError(f"up_axis must be 'z' or 'y', got {up_axis!r}")
     src = str(path)
     text = read_user_text(path, "OBJ file", "a Wavefront OBJ text file")
+    max_triangles = limits.MAX_TRIANGLES
+    max_vertices = 3 * max_triangles
+    max_face = limits.MAX_POLYGON_VERTICES
+    max_coordinate = limits.MAX_COORDINATE_M
 
     problems = ProblemList(src)
-    verts: list[list[float]] = []
-    norms: list[list[float]] = []
-    n_tex = 0
-    slot = default_slot
-    # Faces: (vertex indices, normal indices or None, slot, line number)
-    faces: list[tuple[list[int], list[int] | None, str, int]] = []
+    verts = array("d")  # x, y, z of every vertex (scaled)
+    norms = array("d")
+    n_verts = n_norms = n_tex = 0
+    slots: dict[str, int] = {}
+    slot = slots.setdefault(default_slot, 0)
+    # Faces as flat arrays: vertex refs, normal refs (-1: none), and per face its first ref,
+    # its size, its slot and its line.
+    face_v = array("q")
+    face_n = array("q")
+    face_start = array("q")
+    face_size = array("q")
+    face_slot = array("q")
+    face_line = array("q")
+    n_triangles = 0
 
     def problem(line_no: int, message: str) -> None:
-        if len(problems.items) < _MAX_PROBLEMS:
-            problems.add(f"line {line_no}", message)
+        problems.add(f"line {line_no}", message)
+        if len(problems.items) >= limits.MAX_PROBLEMS_PER_FILE:  # the rest of the file is not read
+            problems.raise_if_any()
 
-    lines = text.splitlines()
-    i = 0
-    while i < len(lines):
-        line_no = i + 1
-        raw = lines[i]
-        while raw.rstrip().endswith("\\") and i + 1 < len(lines):
-            i += 1
-            raw = raw.rstrip()[:-1] + " " + lines[i]
-        i += 1
-        content = raw.split("#", 1)[0].strip()
-        if not content:
-            continue
+    for line_no, content in _statements(text):
         tokens = content.split()
         key, args = tokens[0], tokens[1:]
         if key == "v":
             nums, bad = _obj_numbers(args)
             if nums is None or len(nums) not in (3, 4, 6, 7):
                 problem(line_no, "expected 'v x y z' with finite numbers (optionally w, or r g b)" + _bad(bad))
-                verts.append([0.0, 0.0, 0.0])  # keep later indices aligned
-                continue
-            verts.append(nums[:3])
+                nums = [0.0, 0.0, 0.0]  # keep later indices aligned
+            xyz = [c * s for c in nums[:3]]
+            if not all(abs(c) <= max_coordinate for c in xyz):  # also catches inf and NaN
+                problem(
+                    line_no,
+                    f"a coordinate of {max(abs(c) for c in xyz):g} m (after scaling by {s:g}); lampcast takes "
+                    f"coordinates up to {max_coordinate:g} m from the origin",
+                )
+                xyz = [0.0, 0.0, 0.0]
+            verts.extend(xyz)
+            n_verts += 1
+            if n_verts > max_vertices:
+                limits.check_count(n_verts, max_vertices, src, f"line {line_no}", "the number of vertices")
         elif key == "vn":
             nums, bad = _obj_numbers(args)
             if nums is None or len(nums) != 3:
                 problem(line_no, "expected 'vn x y z' with three finite numbers" + _bad(bad))
-                norms.append([0.0, 0.0, 1.0])
-                continue
-            if math.hypot(*nums) == 0:
+                nums = [0.0, 0.0, 1.0]
+            elif not any(nums):
                 problem(line_no, "normal of zero length")
-            norms.append(nums)
+            norms.extend(nums)
+            n_norms += 1
+            if n_norms > max_vertices:
+                limits.check_count(n_norms, max_vertices, src, f"line {line_no}", "the number of normals")
         elif key == "vt":
             nums, bad = _obj_numbers(args)
             if nums is None or not 1 <= len(nums) <= 3:
@@ -191,95 +229,171 @@ def load_obj(
             if len(args) < 3:
                 problem(line_no, f"a face needs at least 3 vertices, got {len(args)}")
                 continue
-            vi: list[int] = []
-            ni: list[int] = []
-            has_normals = True
-            ok = True
-            for ref in args:
-                parts = ref.split("/")
-                if len(parts) > 3 or parts[0] == "":
-                    problem(line_no, f"bad face reference {ref!r}; expected v, v/vt, v//vn or v/vt/vn")
-                    ok = False
-                    break
-                resolved = []
-                where_ref = f" in {ref!r}" if "/" in ref else ""
-                for tok, count, what in zip(
-                    parts, (len(verts), n_tex, len(norms)), ("vertex", "texture coordinate", "normal")
-                ):
-                    if tok == "":
-                        resolved.append(None)
-                        continue
-                    try:
-                        k = int(tok)
-                    except ValueError:
-                        problem(line_no, f"bad {what} index {tok!r}{where_ref}; expected an integer")
-                        ok = False
-                        break
-                    if k == 0:
-                        problem(line_no, f"{what} index 0{where_ref}; OBJ indices start at 1 (or count back from -1)")
-                        ok = False
-                        break
-                    k = k - 1 if k > 0 else count + k
-                    if not 0 <= k < count:
-                        problem(line_no, f"{what} index {tok}{where_ref} is out of range (there are {count} so far)")
-                        ok = False
-                        break
-                    resolved.append(k)
-                if not ok:
-                    break
-                vi.append(resolved[0])
-                if len(resolved) == 3 and resolved[2] is not None:
-                    ni.append(resolved[2])
-                else:
-                    has_normals = False
-            if ok:
-                faces.append((vi, ni if has_normals else None, slot, line_no))
+            if len(args) > max_face:
+                problem(line_no, f"a face of {len(args):,} vertices; lampcast triangulates at most {max_face:,}")
+                continue
+            refs = _face_refs(args, n_verts, n_tex, n_norms, line_no, problem)
+            if refs is None:
+                continue
+            vi, ni = refs
+            face_start.append(len(face_v))
+            face_size.append(len(vi))
+            face_slot.append(slot)
+            face_line.append(line_no)
+            face_v.extend(vi)
+            face_n.extend(ni)
+            n_triangles += len(vi) - 2
+            if n_triangles > max_triangles:
+                limits.check_count(n_triangles, max_triangles, src, f"line {line_no}", "the number of triangles")
         elif key == "usemtl":
             name = content[len("usemtl") :].strip()
             if not name:
                 problem(line_no, "expected 'usemtl name'")
                 continue
-            slot = slot_map.get(name, name) if slot_map else name
-        elif key in _IGNORED:
-            continue
-        else:
-            continue  # unknown statement: ignored
+            slot = slots.setdefault(slot_map.get(name, name) if slot_map else name, len(slots))
+        # Other statements (o, g, s, mtllib, vp, l, p, curves and surfaces, unknown keywords) are ignored.
     problems.raise_if_any()
-    if not faces:
+    if not face_start:
         raise input_error(src, "", "the OBJ file has no faces ('f' statements)")
 
-    V = np.asarray(verts, dtype=np.float64) * s
-    N = np.asarray(norms, dtype=np.float64).reshape(-1, 3)
-    if N.shape[0]:
-        N = N / np.maximum(np.linalg.norm(N, axis=1, keepdims=True), 1e-300)
+    V = np.frombuffer(verts, dtype=np.float64).reshape(-1, 3)
+    N = _unit_vectors(np.frombuffer(norms, dtype=np.float64).reshape(-1, 3))
     if up_axis == "y":
         V = V @ _Y_UP_TO_Z_UP.T
         N = N @ _Y_UP_TO_Z_UP.T
-
-    by_slot: dict[str, tuple[list[np.ndarray], list[np.ndarray]]] = {}
-    for vi, ni, face_slot, line_no in faces:
-        pts = V[vi]
-        try:
-            local = triangulate_polygon_3d(pts, "face")
-        except ValueError:
-            problem(line_no, "the polygon face crosses itself")
-            continue
-        if local.shape[0] == 0:
-            continue
-        tri = pts[local]
-        fn = face_normals(tri)
-        keep = np.linalg.norm(fn, axis=1) > 0
-        if not np.any(keep):
-            continue
-        if ni is not None:
-            nrm = N[np.asarray(ni)][local]
-        else:
-            nrm = np.repeat(fn[:, None, :], 3, axis=1)
-        group = by_slot.setdefault(face_slot, ([], []))
-        group[0].append(tri[keep])
-        group[1].append(nrm[keep])
+    tri_v, tri_n, tri_face = _triangulate(V, face_v, face_n, face_start, face_size, face_line, problem)
     problems.raise_if_any()
-    parts = [Part(np.concatenate(t), np.concatenate(n), name) for name, (t, n) in by_slot.items()]
+
+    tri = V[tri_v]  # (T, 3, 3)
+    fn = face_normals(tri)
+    keep = np.any(fn != 0, axis=1)
+    tri, fn, tri_n, tri_face = tri[keep], fn[keep], tri_n[keep], tri_face[keep]
+    nrm = np.repeat(fn[:, None, :], 3, axis=1)
+    smooth = np.all(tri_n >= 0, axis=1)
+    nrm[smooth] = N[tri_n[smooth]]
+    tri_slot = np.frombuffer(face_slot, dtype=np.int64)[tri_face]
+    names = {k: name for name, k in slots.items()}
+    parts = []
+    # Parts in the order their slot first appears among the triangles kept, triangles in file order.
+    order = np.unique(tri_slot, return_index=True)
+    for k in order[0][np.argsort(order[1])]:
+        mask = tri_slot == k
+        parts.append(Part(tri[mask], nrm[mask], names[int(k)]))
     if not parts:
         raise input_error(src, "", "the OBJ file has no faces with non-zero area")
     return parts
+
+
+def _face_refs(args: list[str], n_verts: int, n_tex: int, n_norms: int, line_no: int, problem):
+    """The vertex and normal indices (0-based; normals all -1 unless every reference has one)
+    of one face's references, or None after a problem."""
+    vi: list[int] = []
+    ni: list[int] = []
+    for ref in args:
+        parts = ref.split("/")
+        if len(parts) > 3 or parts[0] == "":
+            problem(line_no, f"bad face reference {_shown(ref)!r}; expected v, v/vt, v//vn or v/vt/vn")
+            return None
+        where_ref = f" in {_shown(ref)!r}" if "/" in ref else ""
+        resolved: list[int | None] = []
+        for tok, count, what in zip(parts, (n_verts, n_tex, n_norms), ("vertex", "texture coordinate", "normal")):
+            if tok == "":
+                resolved.append(None)
+                continue
+            try:
+                k = int(tok)
+            except ValueError:  # not an integer, or more than 4300 digits
+                problem(line_no, f"bad {what} index {_shown(tok)!r}{where_ref}; expected an integer")
+                return None
+            if k == 0:
+                problem(line_no, f"{what} index 0{where_ref}; OBJ indices start at 1 (or count back from -1)")
+                return None
+            k = k - 1 if k > 0 else count + k
+            if not 0 <= k < count:
+                problem(line_no, f"{what} index {_shown(tok)}{where_ref} is out of range (there are {count} so far)")
+                return None
+            resolved.append(k)
+        vi.append(resolved[0])
+        ni.append(resolved[2] if len(resolved) == 3 and resolved[2] is not None else -1)
+    if min(ni) < 0:
+        ni = [-1] * len(ni)
+    return vi, ni
+
+
+def _strictly_convex(P: np.ndarray) -> np.ndarray:
+    """Which of the polygons ``P`` (F, n, 3) are strictly convex with a margin: the test of
+    :func:`render.geometry.shapes.triangulate_polygon_3d` (every turn left in the Newell plane,
+    turning once around), batched, with a margin of 1e-9 on the sine of each turn and 1e-7 rad
+    on the total so that a polygon passing here is fanned there too (rounding cannot differ by
+    that much). Polygons that fail go through that function one by one."""
+    a = P
+    b = np.roll(P, -1, axis=1)
+    newell = np.stack(
+        [
+            ((a[..., 1] - b[..., 1]) * (a[..., 2] + b[..., 2])).sum(axis=-1),
+            ((a[..., 2] - b[..., 2]) * (a[..., 0] + b[..., 0])).sum(axis=-1),
+            ((a[..., 0] - b[..., 0]) * (a[..., 1] + b[..., 1])).sum(axis=-1),
+        ],
+        axis=-1,
+    )
+    size = np.linalg.norm(newell, axis=-1, keepdims=True)
+    nrm = np.divide(newell, size, out=np.zeros_like(newell), where=size > 0)
+    helper = np.eye(3)[np.argmin(np.abs(nrm), axis=-1)]
+    u = np.cross(helper, nrm)
+    u_len = np.linalg.norm(u, axis=-1, keepdims=True)
+    u = np.divide(u, u_len, out=np.zeros_like(u), where=u_len > 0)
+    v = np.cross(nrm, u)
+    q = np.stack([np.einsum("fnk,fk->fn", P, u), np.einsum("fnk,fk->fn", P, v)], axis=-1)
+    d = np.roll(q, -1, axis=1) - q
+    d1 = np.roll(d, -1, axis=1)
+    turn = d[..., 0] * d1[..., 1] - d[..., 1] * d1[..., 0]
+    margin = 1e-9 * np.linalg.norm(d, axis=-1) * np.linalg.norm(d1, axis=-1)
+    ok = (size[:, 0] > 0) & np.all(turn > margin, axis=-1)
+    total = np.arctan2(turn, (d * d1).sum(axis=-1)).sum(axis=-1)
+    return ok & (np.abs(total - 2 * np.pi) < 1e-7)
+
+
+def _triangulate(V, face_v, face_n, face_start, face_size, face_line, problem):
+    """Triangles of every face as (T, 3) vertex indices, (T, 3) normal indices (-1: flat) and
+    (T,) face numbers, in file order. Triangles are taken as they are and strictly convex
+    polygons fanned, all at once (:func:`_strictly_convex`); other polygons go through
+    :func:`render.geometry.shapes.triangulate_polygon_3d` one by one (fan or ear clipping)."""
+    fv = np.frombuffer(face_v, dtype=np.int64)
+    fnr = np.frombuffer(face_n, dtype=np.int64)
+    start = np.frombuffer(face_start, dtype=np.int64)
+    size = np.frombuffer(face_size, dtype=np.int64)
+    chunks_v = []
+    chunks_n = []
+    chunks_f = []
+    three = np.flatnonzero(size == 3)
+    cols = start[three, None] + np.arange(3)
+    chunks_v.append(fv[cols])
+    chunks_n.append(fnr[cols])
+    chunks_f.append(three)
+    one_by_one = []
+    for n in np.unique(size[size > 3]):
+        faces = np.flatnonzero(size == n)
+        cols = start[faces, None] + np.arange(n)
+        convex = _strictly_convex(V[fv[cols]])
+        fan = np.stack([np.zeros(n - 2, np.int64), np.arange(1, n - 1), np.arange(2, n)], axis=1)  # (n-2, 3)
+        chunks_v.append(fv[cols[convex]][:, fan].reshape(-1, 3))
+        chunks_n.append(fnr[cols[convex]][:, fan].reshape(-1, 3))
+        chunks_f.append(np.repeat(faces[convex], n - 2))
+        one_by_one.extend(faces[~convex])
+    for f in sorted(one_by_one):
+        idx = np.arange(start[f], start[f] + size[f])
+        try:
+            local = triangulate_polygon_3d(V[fv[idx]], "face")
+        except ValueError as err:
+            problem(int(face_line[f]), f"the polygon face crosses itself or is degenerate ({err})")
+            continue
+        if local.shape[0] == 0:
+            continue
+        chunks_v.append(fv[idx][local])
+        chunks_n.append(fnr[idx][local])
+        chunks_f.append(np.full(local.shape[0], f, dtype=np.int64))
+    tri_v = np.concatenate(chunks_v).reshape(-1, 3)
+    tri_n = np.concatenate(chunks_n).reshape(-1, 3)
+    tri_face = np.concatenate(chunks_f)
+    order = np.argsort(tri_face, kind="stable")
+    return tri_v[order], tri_n[order], tri_face[order]
