@@ -390,8 +390,9 @@ def cmd_relight(args: argparse.Namespace) -> int:
 
 def cmd_colours(args: argparse.Namespace) -> int:
     """Colour discrimination and naming of the tagged objects in one view, under each setup."""
-    from render.analysis.naming import format_name_table
-    from render.analysis.run import analyse_view_colours, colour_pictures, write_colour_json
+    from render.analysis.view_colours import analyse_view_colours
+    from render.output.colour_files import write_colour_json, write_colour_pictures
+    from render.output.colour_text import format_name_table
     from render.study import Study
 
     study = Study(args.scene)
@@ -406,7 +407,7 @@ def cmd_colours(args: argparse.Namespace) -> int:
     result = analyse_view_colours(study, rendered, displays, observer, [s.name for s in setups])
     text = image_metadata(study, first, "colour analysis", observer, study.scene.render.seed, first.buffers.spp)
     text["lampcast.setup"] = "; ".join(s.name for s in setups)
-    pictures = colour_pictures(
+    pictures = write_colour_pictures(
         result,
         rendered,
         displays,

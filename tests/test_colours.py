@@ -19,7 +19,6 @@ from render.analysis import (
     colour_name,
     confusions,
     delta_e_matrix,
-    format_name_table,
     luminance_contrast,
     mixture_reflectance,
     name_changes,
@@ -37,6 +36,7 @@ from render.analysis.naming import munsell_to_lab
 from render.colour.lamps import get_lamp
 from render.colour.spectra import N_BINS, WAVELENGTHS_NM, band_power
 from render.output import colour_pictures as pictures
+from render.output.colour_text import format_name_table
 from render.vision import AdaptationState, ObserverSettings, ViewGeometry, ViewLight, render_display
 from render.vision.display import linear_srgb_to_xyz
 
@@ -538,7 +538,7 @@ def test_demo_street_before_lamp_confuses_a_pair_the_after_lamp_separates():
     # thresholds are the analysis' documented ones (ΔE00 < 3 hard to tell apart, common practice).
     from pathlib import Path
 
-    from render.analysis.run import analyse_view_colours
+    from render.analysis.view_colours import analyse_view_colours
     from render.study import Study
 
     study = Study(Path(__file__).resolve().parents[1] / "scenes" / "demo" / "linden_row.toml")

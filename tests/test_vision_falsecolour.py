@@ -1,4 +1,4 @@
-"""False-colour luminance maps (render.vision.falsecolour).
+"""False-colour luminance maps (render.vision.falsecolour) and their legend (render.output.luminance_legend).
 
 Sources: CIELAB lightness and Oklab from colour-science; colour-vision-deficiency simulation of
 Machado, Oliveira & Fernandes (2009) as implemented by colour-science
@@ -11,14 +11,9 @@ import colour
 import numpy as np
 import pytest
 
+from render.output.luminance_legend import false_colour_with_legend, legend_strip
 from render.vision.display import linear_srgb_to_xyz
-from render.vision.falsecolour import (
-    auto_range_decades,
-    false_colour,
-    false_colour_with_legend,
-    legend_strip,
-    luminance_ramp,
-)
+from render.vision.falsecolour import auto_range_decades, false_colour, luminance_ramp
 
 
 def lightness(rgb_linear):

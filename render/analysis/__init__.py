@@ -5,11 +5,11 @@
   :func:`colour_analysis` that assembles them into a :class:`ColourAnalysis` record
   (``to_json()``: the content of ``colours.json``).
 * :mod:`render.analysis.naming` -- basic colour terms (Berlin & Kay) from the nearest
-  Centore (2020) prototype in CAM16-UCS; the "name it" table.
-* :mod:`render.analysis.run` -- one rendered view under several setups to a
-  :class:`ColourAnalysis`, its JSON file and its pictures (drawn by
-  :mod:`render.output.colour_pictures`): outlined view, swatch sheet, ΔE00 heat map, spectrum
-  strips (PNG, written atomically).
+  Centore (2020) prototype in CAM16-UCS; the rows of the "name it" table (printed by
+  :mod:`render.output.colour_text`).
+* :mod:`render.analysis.view_colours` -- one rendered view under several setups to a
+  :class:`ColourAnalysis` (its JSON file and pictures are written by
+  :mod:`render.output.colour_files`).
 """
 
 from render.analysis.colours import (
@@ -33,7 +33,7 @@ from render.analysis.colours import (
     ring_background,
     white_mesopic_cd_m2,
 )
-from render.analysis.naming import BASIC_TERMS, colour_name, format_name_table, name_changes, name_table
+from render.analysis.naming import BASIC_TERMS, colour_name, name_changes, name_table
 
 __all__ = [
     "BASIC_TERMS",
@@ -48,7 +48,6 @@ __all__ = [
     "colour_name",
     "confusions",
     "delta_e_matrix",
-    "format_name_table",
     "luminance_contrast",
     "mixture_reflectance",
     "name_changes",

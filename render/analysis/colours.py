@@ -874,7 +874,7 @@ class ColourAnalysis:
         return {**notes, "naming_adaptation": self.naming_adaptation}
 
     def name_rows(self) -> list[dict[str, Any]]:
-        """The rows of :func:`render.analysis.naming.format_name_table`: per object its daylight
+        """The rows of :func:`render.output.colour_text.format_name_table`: per object its daylight
         name, the name seen under each setup (``None``: not visible) and the setups under which
         the name changes."""
         rows = []

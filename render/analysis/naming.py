@@ -85,7 +85,6 @@ __all__ = [
     "colour_name",
     "colour_name_details",
     "colour_names",
-    "format_name_table",
     "lab_to_cam16ucs",
     "munsell_to_lab",
     "name_changes",
@@ -286,22 +285,3 @@ def name_changes(rows: Sequence[dict]) -> list[dict]:
                 }
             )
     return out
-
-
-def format_name_table(rows: Sequence[dict]) -> str:
-    """Plain-text "name it" table (object, daylight, one column per setup; changed names
-    marked with *; '-' for not visible)."""
-    setups = list(rows[0]["setups"]) if rows else []
-    header = ["object", "daylight"] + setups
-    body = []
-    for r in rows:
-        cells = [r["object"], r["daylight"] or "-"]
-        for s in setups:
-            t = r["setups"][s]
-            cells.append("-" if t is None else (t + " *" if s in r["changed"] else t))
-        body.append(cells)
-    widths = [max(len(str(c)) for c in col) for col in zip(header, *body)] if body else [len(h) for h in header]
-    lines = ["  ".join(str(c).ljust(w) for c, w in zip(header, widths)).rstrip()]
-    lines.append("  ".join("-" * w for w in widths))
-    lines += ["  ".join(str(c).ljust(w) for c, w in zip(cells, widths)).rstrip() for cells in body]
-    return "\n".join(lines)

@@ -279,8 +279,9 @@ def false_colour_pair(before: RenderedView, after: RenderedView) -> tuple[list[n
 
     The scale is :func:`render.vision.falsecolour.shared_range_decades` (whole decades) on our
     own perceptually ordered ramp."""
+    from render.output.luminance_legend import legend_strip
     from render.vision.display import quantise, srgb_encode
-    from render.vision.falsecolour import false_colour, legend_strip, shared_range_decades
+    from render.vision.falsecolour import false_colour, shared_range_decades
 
     ys = [r.colorimetry.luminance_cd_m2 for r in (before, after)]
     lo, hi = shared_range_decades(ys)
@@ -290,7 +291,7 @@ def false_colour_pair(before: RenderedView, after: RenderedView) -> tuple[list[n
 
 
 def _tagged_objects_visible(study: Study, rendered: RenderedView, min_pixels: int = 20) -> int:
-    from render.analysis.run import pixel_object_ids
+    from render.analysis.view_colours import pixel_object_ids
 
     ids = pixel_object_ids(rendered.buffers)
     tagged = [i for i, o in enumerate(study.mesh.objects) if o.inspect]
@@ -362,7 +363,8 @@ def _colour_analysis(
 ) -> tuple[ReportSection, ColourSummary]:
     """Colour analysis of the tagged objects in one view: the colours/ folder, the report
     section and the summary for ``metrics.json``."""
-    from render.analysis.run import analyse_view_colours, colour_pictures, write_colour_json
+    from render.analysis.view_colours import analyse_view_colours
+    from render.output.colour_files import write_colour_json, write_colour_pictures
 
     name, rb, ra, shared = view
     labels = [f"before: {setups.before.name}", f"after: {setups.after.name}"]
@@ -370,7 +372,7 @@ def _colour_analysis(
     cdir = out / "colours"
     text = image_metadata(study, rb, "colour analysis", observer, study.scene.render.seed, rb.buffers.spp)
     text["lampcast.setup"] = f"before={setups.before.name}; after={setups.after.name}"
-    pics = colour_pictures(
+    pics = write_colour_pictures(
         result, [rb, ra], shared, study.setup_lamps([rb, ra], [setups.before, setups.after]), cdir, text=text
     )
     write_colour_json(result, cdir / "colours.json")

@@ -1,4 +1,4 @@
-"""False-colour luminance maps with a labelled legend in cd/m².
+"""False-colour luminance maps: the colour ramp and the mapping of luminance in cd/m² onto it.
 
 The colour ramp is lampcast's own: a path in OkLCh (Oklab, Ottosson 2020, in polar form) from a
 dark blue-violet to a light yellow through teal,
@@ -15,6 +15,8 @@ protanopia, deuteranopia and tritanopia.
 
 Luminance is mapped on a log10 scale between two decades (automatic: the decades around the
 0.5th and 99.5th percentiles of the positive values, at least one decade apart, or given).
+The legend that labels the ramp in cd/m² is a picture, drawn by
+:mod:`render.output.luminance_legend`.
 
 References
 ----------
@@ -35,7 +37,7 @@ import numpy as np
 import numpy.typing as npt
 
 from render.colour.oklab import oklab_to_xyz, xyz_to_oklab
-from render.vision.display import gamut_map_oklab, srgb_decode, srgb_encode
+from render.vision.display import gamut_map_oklab
 
 __all__ = [
     "RAMP_CHROMA",
@@ -43,8 +45,6 @@ __all__ = [
     "RAMP_LIGHTNESS",
     "auto_range_decades",
     "false_colour",
-    "false_colour_with_legend",
-    "legend_strip",
     "luminance_ramp",
     "shared_range_decades",
 ]
@@ -107,61 +107,3 @@ def false_colour(luminance_cd_m2: npt.ArrayLike, lo_cd_m2: float, hi_cd_m2: floa
     t = (np.log10(v) - math.log10(lo_cd_m2)) / (math.log10(hi_cd_m2) - math.log10(lo_cd_m2))
     idx = np.clip(np.rint(t * (n - 1)), 0, n - 1).astype(np.int64)
     return ramp[idx]
-
-
-def _format_cd(v: float) -> str:
-    if v >= 1:
-        return f"{v:g}"
-    return f"{v:.{max(0, -math.floor(math.log10(v)))}f}".rstrip("0").rstrip(".") if v >= 1e-4 else f"{v:.0e}"
-
-
-def legend_strip(
-    height_px: int, lo_cd_m2: float, hi_cd_m2: float, label: str = "luminance (cd/m²)", width_px: int = 120
-) -> np.ndarray:
-    """A vertical legend (height_px, width_px, 3), linear sRGB: the ramp with decade ticks."""
-    import matplotlib.cm as cm
-    from matplotlib.backends.backend_agg import FigureCanvasAgg
-    from matplotlib.colors import ListedColormap, LogNorm
-    from matplotlib.figure import Figure
-
-    dpi = 100.0
-    fig = Figure(figsize=(width_px / dpi, height_px / dpi), dpi=dpi, facecolor="white")
-    canvas = FigureCanvasAgg(fig)
-    h = max(height_px, 1)
-    pad_px = min(12.0, 0.08 * h)
-    ax = fig.add_axes([0.08, pad_px / h, 0.18, max(1.0 - 2 * pad_px / h, 0.05)])
-    cmap = ListedColormap(srgb_encode(luminance_ramp(256)))
-    sm = cm.ScalarMappable(norm=LogNorm(lo_cd_m2, hi_cd_m2), cmap=cmap)
-    cb = fig.colorbar(sm, cax=ax)
-    decades = range(round(math.log10(lo_cd_m2)), round(math.log10(hi_cd_m2)) + 1)
-    ticks = [10.0**d for d in decades]
-    cb.set_ticks(ticks)
-    cb.set_ticklabels([_format_cd(t) for t in ticks])
-    cb.minorticks_off()
-    fontsize = max(5.0, min(9.0, h / 30.0))
-    ax.tick_params(labelsize=fontsize)
-    cb.set_label(label, fontsize=fontsize)
-    canvas.draw()
-    rgba = np.asarray(canvas.buffer_rgba())[..., :3].astype(np.float64) / 255.0
-    if rgba.shape[0] != height_px or rgba.shape[1] != width_px:  # rounding of figure size
-        out = np.ones((height_px, width_px, 3))
-        hh, ww = min(height_px, rgba.shape[0]), min(width_px, rgba.shape[1])
-        out[:hh, :ww] = rgba[:hh, :ww]
-        rgba = out
-    return srgb_decode(rgba)
-
-
-def false_colour_with_legend(
-    luminance_cd_m2: npt.ArrayLike,
-    range_cd_m2: tuple[float, float] | None = None,
-    label: str = "luminance (cd/m²)",
-    legend_width_px: int = 120,
-) -> tuple[np.ndarray, tuple[float, float]]:
-    """False-colour image with its legend to the right: ``(image (H, W + legend, 3) linear
-    sRGB, (lo, hi))``."""
-    lo, hi = auto_range_decades(luminance_cd_m2) if range_cd_m2 is None else range_cd_m2
-    if not (0 < lo < hi):
-        raise ValueError("false-colour range must satisfy 0 < lo < hi (cd/m²)")
-    img = false_colour(luminance_cd_m2, lo, hi)
-    legend = legend_strip(img.shape[0], lo, hi, label, legend_width_px)
-    return np.concatenate([img, legend], axis=1), (lo, hi)

@@ -19,7 +19,8 @@ Order of the steps (each a pure function of explicit inputs, in its own module):
 
 Modes: ``adapted`` (each image for an observer adapted to it), ``shared`` (one adaptation state
 and one scale factor for a set of images, :func:`shared_display`), ``photometric`` (false-colour
-luminance with a legend, :mod:`~render.vision.falsecolour`) and ``fixed`` (a given linear
+luminance with a legend: ramp and mapping in :mod:`~render.vision.falsecolour`, the legend, a
+picture with text, drawn by :mod:`render.output.luminance_legend`) and ``fixed`` (a given linear
 exposure, no highlight roll-off: for checks against colorimetry).
 
 References
@@ -44,7 +45,6 @@ from render.vision import acuity as _acuity
 from render.vision import adaptation as _adaptation
 from render.vision import appearance as _appearance
 from render.vision import display as _display
-from render.vision import falsecolour as _falsecolour
 from render.vision import glare as _glare
 from render.vision import mesopic as _mesopic
 from render.vision import tonemap as _tonemap
@@ -341,7 +341,11 @@ def photometric_display(
         if state is None:
             state = measure_adaptation(xyz, scot, geometry, observer, exclusion_mask(buffers, observer), buffers)
         lum, label = _mesopic.mesopic_image(xyz[..., 1], scot, state.m), "mesopic luminance (cd/m²)"
-    img, (lo, hi) = _falsecolour.false_colour_with_legend(lum, range_cd_m2, label)
+    # The ramp and the mapping are this stage's (render.vision.falsecolour); the legend beside
+    # them is a picture with text, drawn by the output layer.
+    from render.output.luminance_legend import false_colour_with_legend
+
+    img, (lo, hi) = false_colour_with_legend(lum, range_cd_m2, label)
     s8, s16 = _encode(img)
     return DisplayResult(
         img, s8, s16, None, {"mode": "photometric", "quantity": quantity, "range_lo_cd_m2": lo, "range_hi_cd_m2": hi}

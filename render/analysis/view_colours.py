@@ -1,11 +1,10 @@
-"""Running the colour analysis: one rendered view under several setups, to a record and pictures.
+"""Colour analysis of a rendered view: its inputs gathered from the renderer and the vision stage.
 
 Used by ``lampcast colours`` and by the comparison (:mod:`render.output.comparison`). The
 inputs come from the renderer's light buffers (object ids and materials per camera sample) and
 from the vision stage's display results (the adaptation state each image was made with); the
-result is a :class:`~render.analysis.colours.ColourAnalysis`, written as JSON by
-:func:`write_colour_json` and drawn by :func:`colour_pictures` (the drawing itself is
-:mod:`render.output.colour_pictures`).
+result is a :class:`~render.analysis.colours.ColourAnalysis`. Its files (``colours.json`` and
+the pictures) are written by :mod:`render.output.colour_files`.
 
 References
 ----------
@@ -15,9 +14,7 @@ and :mod:`render.analysis.naming`; this module only gathers their inputs.
 
 from __future__ import annotations
 
-import json
-from collections.abc import Mapping, Sequence
-from pathlib import Path
+from collections.abc import Sequence
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -30,7 +27,6 @@ from render.analysis.colours import (
     mixture_reflectance,
     perceived_view,
 )
-from render.fileio import atomic_write_text
 
 if TYPE_CHECKING:
     from render.light.integrator import LightBuffers
@@ -38,7 +34,7 @@ if TYPE_CHECKING:
     from render.vision.observer import ObserverSettings
     from render.vision.pipeline import DisplayResult
 
-__all__ = ["analyse_view_colours", "colour_pictures", "pixel_object_ids", "tagged_objects", "write_colour_json"]
+__all__ = ["analyse_view_colours", "pixel_object_ids", "tagged_objects"]
 
 
 def pixel_object_ids(buffers: LightBuffers) -> np.ndarray:
@@ -99,74 +95,3 @@ def analyse_view_colours(
             kwargs.update(white_photopic_cd_m2=float(c.white_xyz[1]), white_scotopic_cd_m2=c.white_scotopic)
         setups[label] = SetupView.from_view(pv, object_id, **kwargs)
     return colour_analysis(objects, setups)
-
-
-def colour_pictures(
-    result: ColourAnalysis,
-    rendered: Sequence[RenderedView],
-    displays: Sequence[DisplayResult],
-    lamps: Sequence[tuple[str, np.ndarray]],
-    out_dir: Path,
-    prefix: str = "",
-    text: Mapping[str, str] | None = None,
-) -> dict[str, Path]:
-    """Outlined view, swatch sheet, ΔE00 heat map and spectrum strips for ``result``; returns
-    the paths written by picture (``outlined``, ``swatches``, ``heatmap``, ``spectra``)."""
-    from render.output import colour_pictures as pictures
-
-    out_dir.mkdir(parents=True, exist_ok=True)
-    names = result.object_names
-    setups = list(result.setups)
-    written: dict[str, Path] = {}
-    object_id = pixel_object_ids(rendered[0].buffers)
-    written["outlined"] = pictures.outlined_view(
-        displays[-1].srgb8,
-        object_id,
-        {o.id: o.name for o in result.objects},
-        out_dir / f"{prefix}objects.png",
-        title=f"tagged objects ({setups[-1]})",
-        png_text=text,
-    )
-    labs = np.full((len(names), 1 + len(setups), 3), np.nan)
-    terms: list[list[str | None]] = [[None] * (1 + len(setups)) for _ in names]
-    for i, name in enumerate(names):
-        day = result.daylight.objects[name]
-        labs[i, 0] = day.lab
-        terms[i][0] = day.name
-        for j, s in enumerate(setups):
-            seen = result.setups[s].objects[name]
-            if seen.lab is not None:
-                labs[i, j + 1] = seen.lab
-            terms[i][j + 1] = seen.name
-    written["swatches"] = pictures.swatch_sheet(
-        names,
-        ["daylight (D65)", *setups],
-        labs,
-        out_dir / f"{prefix}swatches.png",
-        terms=terms,
-        title="object colours: daylight and as seen at night",
-        png_text=text,
-    )
-    matrices = {"daylight (D65)": _matrix_array(result.daylight.delta_e00)}
-    for s in setups:
-        matrices[s] = _matrix_array(result.setups[s].delta_e00)
-    written["heatmap"] = pictures.delta_e_heatmap(
-        matrices, names, out_dir / f"{prefix}delta-e00.png", title="CIEDE2000 between tagged objects", png_text=text
-    )
-    written["spectra"] = pictures.spectrum_strip_figure(
-        list(lamps),
-        out_dir / f"{prefix}spectrum-strips.png",
-        title="the lamps' light spread by a grating",
-        png_text=text,
-    )
-    return written
-
-
-def _matrix_array(matrix) -> np.ndarray:
-    """A published ΔE00 matrix as floats, NaN where undefined."""
-    return np.array([[np.nan if v is None else v for v in row] for row in matrix], dtype=float)
-
-
-def write_colour_json(result: ColourAnalysis, path: Path) -> Path:
-    """Write :meth:`ColourAnalysis.to_json` to ``path`` (atomically, UTF-8); return the path."""
-    return atomic_write_text(path, json.dumps(result.to_json(), ensure_ascii=False, indent=1) + "\n")

@@ -1,0 +1,106 @@
+"""Files of the colour analysis: ``colours.json`` and the four pictures, written atomically.
+
+``lampcast colours`` and the comparison's ``colours/`` folder write what
+:func:`render.analysis.view_colours.analyse_view_colours` found: the record as JSON
+(:meth:`~render.analysis.colours.ColourAnalysis.to_json`, :func:`write_colour_json`) and the
+pictures (:func:`write_colour_pictures`): the view with the tagged objects outlined, the swatch
+sheet, the ΔE00 heat map and the lamps' spectrum strips. This module gathers each picture's
+inputs from the analysis record and the rendered views; the drawing is
+:mod:`render.output.colour_pictures`.
+
+References
+----------
+The figures are those of :mod:`render.analysis.colours` (CIELAB, CIEDE2000) and
+:mod:`render.analysis.naming`; the pictures' methods are listed in
+:mod:`render.output.colour_pictures`.
+"""
+
+from __future__ import annotations
+
+import json
+from collections.abc import Mapping, Sequence
+from pathlib import Path
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from render.analysis.view_colours import pixel_object_ids
+from render.fileio import atomic_write_text
+from render.output import colour_pictures as pictures
+
+if TYPE_CHECKING:
+    from render.analysis.colours import ColourAnalysis
+    from render.study import RenderedView
+    from render.vision.pipeline import DisplayResult
+
+__all__ = ["write_colour_json", "write_colour_pictures"]
+
+
+def write_colour_pictures(
+    result: ColourAnalysis,
+    rendered: Sequence[RenderedView],
+    displays: Sequence[DisplayResult],
+    lamps: Sequence[tuple[str, np.ndarray]],
+    out_dir: Path,
+    prefix: str = "",
+    text: Mapping[str, str] | None = None,
+) -> dict[str, Path]:
+    """Write the outlined view, swatch sheet, ΔE00 heat map and spectrum strips of ``result``
+    into ``out_dir`` (file names start with ``prefix``; ``text``: PNG provenance text); returns
+    the paths written by picture (``outlined``, ``swatches``, ``heatmap``, ``spectra``)."""
+    out_dir.mkdir(parents=True, exist_ok=True)
+    names = result.object_names
+    setups = list(result.setups)
+    written: dict[str, Path] = {}
+    object_id = pixel_object_ids(rendered[0].buffers)
+    written["outlined"] = pictures.outlined_view(
+        displays[-1].srgb8,
+        object_id,
+        {o.id: o.name for o in result.objects},
+        out_dir / f"{prefix}objects.png",
+        title=f"tagged objects ({setups[-1]})",
+        png_text=text,
+    )
+    labs = np.full((len(names), 1 + len(setups), 3), np.nan)
+    terms: list[list[str | None]] = [[None] * (1 + len(setups)) for _ in names]
+    for i, name in enumerate(names):
+        day = result.daylight.objects[name]
+        labs[i, 0] = day.lab
+        terms[i][0] = day.name
+        for j, s in enumerate(setups):
+            seen = result.setups[s].objects[name]
+            if seen.lab is not None:
+                labs[i, j + 1] = seen.lab
+            terms[i][j + 1] = seen.name
+    written["swatches"] = pictures.swatch_sheet(
+        names,
+        ["daylight (D65)", *setups],
+        labs,
+        out_dir / f"{prefix}swatches.png",
+        terms=terms,
+        title="object colours: daylight and as seen at night",
+        png_text=text,
+    )
+    matrices = {"daylight (D65)": _matrix_array(result.daylight.delta_e00)}
+    for s in setups:
+        matrices[s] = _matrix_array(result.setups[s].delta_e00)
+    written["heatmap"] = pictures.delta_e_heatmap(
+        matrices, names, out_dir / f"{prefix}delta-e00.png", title="CIEDE2000 between tagged objects", png_text=text
+    )
+    written["spectra"] = pictures.spectrum_strip_figure(
+        list(lamps),
+        out_dir / f"{prefix}spectrum-strips.png",
+        title="the lamps' light spread by a grating",
+        png_text=text,
+    )
+    return written
+
+
+def _matrix_array(matrix: Sequence[Sequence[float | None]]) -> np.ndarray:
+    """A published ΔE00 matrix as floats, NaN where undefined."""
+    return np.array([[np.nan if v is None else v for v in row] for row in matrix], dtype=float)
+
+
+def write_colour_json(result: ColourAnalysis, path: Path) -> Path:
+    """Write :meth:`ColourAnalysis.to_json` to ``path`` (atomically, UTF-8); return the path."""
+    return atomic_write_text(path, json.dumps(result.to_json(), ensure_ascii=False, indent=1) + "\n")
