@@ -17,6 +17,7 @@ The files in tests/data/photometry are hand-written for these tests.
 
 from __future__ import annotations
 
+import dataclasses
 import json
 import math
 from pathlib import Path
@@ -212,6 +213,21 @@ def test_bilateral_90_270_road_like_street_side():
     assert P.intensity_cd(ph, 0.0, 60.0) == pytest.approx(240.0)
     assert P.intensity_cd(ph, 315.0, 30.0) == pytest.approx(130.0)
     assert P.intensity_cd(ph, 112.5, 0.0) == pytest.approx(250.0)  # midway 300 .. 200
+
+
+def test_bilateral_90_270_without_a_c180_plane():
+    # Bilateral about the C 90-270 plane (LM-63, from memory): I(C) = I(180 - C) for C in 0..90
+    # and I(C) = I(540 - C) for C in 270..360. Planes 90, 150, 210, 270 with no C 180: the C 0
+    # plane mirrors C 180, which the interpolation in C puts halfway between 20 and 40 cd.
+    text = "IESNA:LM-63-2002\nTILT=NONE\n1 1000 1 2 4 1 2 0 0 0\n1 1 0\n0 90\n90 150 210 270\n"
+    ph = P.parse_lm63(text + "10 10\n20 20\n40 40\n50 50\n")
+    assert ph.symmetry == "bilateral-90-270"
+    for c in (0.0, 10.0, 30.0, 60.0, 90.0):
+        assert P.intensity_cd(ph, c, 0.0) == pytest.approx(P.intensity_cd(ph, 180.0 - c, 0.0), abs=1e-12)
+    for c in (270.0, 300.0, 330.0, 350.0, 360.0):
+        assert P.intensity_cd(ph, c, 0.0) == pytest.approx(P.intensity_cd(ph, 540.0 - c, 0.0), abs=1e-12)
+    assert P.intensity_cd(ph, 0.0, 0.0) == pytest.approx(30.0)
+    assert P.intensity_cd(ph, 30.0, 0.0) == pytest.approx(20.0)  # mirrors the C 150 plane
 
 
 def test_full_range_wraps_periodically():
@@ -546,6 +562,15 @@ def test_angles_closer_than_the_angle_tolerance(tmp_path, angles):
     assert "vertical angles must increase" in problem.message
 
 
+def test_scale_to_lumens_refuses_a_scale_that_overflows(tmp_path):
+    # Rated flux 1e-300 lm scaled to 1e10 lm: a factor of 1e310 is not a finite double (IEEE 754).
+    ph = P.read_lm63(hostile_lm63(tmp_path, candela="100 80 60"))
+    tiny = dataclasses.replace(ph, lumens_per_lamp=1e-300)
+    with pytest.raises(ValueError, match="finite"):
+        P.scale_to_lumens(tiny, 1e10)
+    assert np.all(np.isfinite(P.scale_to_lumens(ph, 1e10).candela_cd))
+
+
 def test_zero_candela_values_are_allowed(tmp_path):
     assert P.read_lm63(hostile_lm63(tmp_path, candela="0 0 0")).candela_cd.max() == 0.0
 
@@ -556,6 +581,16 @@ def test_load_photometry_passes_strict_paths_down(tmp_path):
     with pytest.raises(InputError, match="outside"):
         P.load_photometry(path.name, base_dir=tmp_path, allowed_root=tmp_path / "sub")
     assert P.load_photometry("generic-isotropic", allowed_root=tmp_path).symmetry == "rotational"
+
+
+@pytest.mark.parametrize("ref", ["/dev/zero", "folder", "bad\x00name.ies"])
+def test_load_photometry_explains_files_it_will_not_read(tmp_path, ref):
+    (tmp_path / "folder").mkdir()
+    if ref == "/dev/zero" and not Path(ref).exists():
+        pytest.skip("no /dev/zero on this system")
+    with time_limit(10.0), pytest.raises(InputError) as info:
+        P.load_photometry(ref, base_dir=tmp_path)
+    assert "not a regular file" in str(info.value) or "NUL" in str(info.value)
 
 
 def test_many_more_lines_do_not_hang(tmp_path):

@@ -66,7 +66,7 @@ def load_photometry(
     ------
     InputError
         If ``ref`` is neither a built-in id nor an existing file (with a suggestion for a
-        misspelt id), or the file is malformed.
+        misspelt id), is not a regular file within the size limit, or is malformed.
     """
     text = str(ref)
     ids = builtin_photometry_ids()
@@ -75,7 +75,7 @@ def load_photometry(
     path = Path(text)
     if not path.is_absolute() and base_dir is not None:
         path = Path(base_dir) / path
-    if path.is_file():
+    if "\x00" in text or path.exists():  # read_lm63 explains a NUL, a device or a folder
         return read_lm63(path, allowed_root=allowed_root)
     raise InputError(
         Problem(

@@ -119,8 +119,9 @@ def scale_to_lumens(photometry: Photometry, lumens: float) -> Photometry:
     * Absolute photometry: ``lumens`` is the luminaire's emitted flux; intensities scale by
       ``lumens / luminous_flux_lm``; the copy stays absolute.
 
-    Raises ``ValueError`` for ``lumens ≤ 0`` or an absolute file emitting no flux (callers
-    validate user input and report it as :class:`render.errors.InputError`).
+    Raises ``ValueError`` for ``lumens ≤ 0``, an absolute file emitting no flux, or a scale
+    that would make an intensity overflow (callers validate user input and report it as
+    :class:`render.errors.InputError`).
     """
     lumens = float(lumens)
     if not (lumens > 0 and math.isfinite(lumens)):
@@ -134,6 +135,12 @@ def scale_to_lumens(photometry: Photometry, lumens: float) -> Photometry:
     else:
         k = lumens / photometry.rated_lumens_lm
         per_lamp = lumens / photometry.lamp_count
+    peak = float(np.max(photometry.candela_cd, initial=0.0))
+    if not (math.isfinite(k) and math.isfinite(peak * k * 4.0 * math.pi)):
+        raise ValueError(
+            f"{photometry.source}: scaling to {lumens:g} lm multiplies the intensities by {k:.4g}; "
+            "they would not stay finite"
+        )
     return replace(
         photometry,
         candela_cd=frozen_array(photometry.candela_cd * k),

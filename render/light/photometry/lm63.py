@@ -720,6 +720,13 @@ def _expand_type_c(h: np.ndarray, table: np.ndarray) -> tuple[np.ndarray, np.nda
             pairs += [(a, k), (360.0 - a, k)]
     elif _near(first, 90.0):
         symmetry = "bilateral-90-270"
+        if not np.any(np.abs(h - 180.0) <= ANGLE_TOL_DEG):
+            # C 0 and C 360 mirror C 180: without a measured C 180 plane, add the plane the
+            # interpolation in C gives there (linear between its neighbours).
+            j = int(np.searchsorted(h, 180.0))
+            w = (180.0 - h[j - 1]) / (h[j] - h[j - 1])
+            h = np.insert(h, j, 180.0)
+            table = np.insert(table, j, (1.0 - w) * table[j - 1] + w * table[j], axis=0)
         for k, a in enumerate(h):
             pairs.append((a, k))
             if a <= 180.0 + ANGLE_TOL_DEG:
