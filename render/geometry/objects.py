@@ -156,6 +156,17 @@ class ParamSpec:
                 return f"must be <= {_num_text(self.maximum)}{unit}, got {value!r}"
         return None
 
+    def range_text(self, value_text: Callable[[Any], str] = repr) -> str:
+        """The allowed values in words: ``"one of 'a', 'b'"``, ``"0.2 <= value <= 10"``,
+        ``"0 < value"`` or ``""`` (no bound); choices are written with ``value_text``."""
+        if self.choices is not None:
+            return "one of " + ", ".join(map(value_text, self.choices))
+        if self.minimum is None and self.maximum is None:
+            return ""
+        lo = "" if self.minimum is None else f"{_num_text(self.minimum)} {'<' if self.exclusive_minimum else '<='} "
+        hi = "" if self.maximum is None else f" <= {_num_text(self.maximum)}"
+        return f"{lo}value{hi}"
+
     def checked(self, value: Any) -> Any:
         """``value`` as the builder receives it (a Python float, int, str or bool); raises
         :class:`ParameterError` with :meth:`problem`'s message."""
@@ -234,12 +245,8 @@ def parameters_doc(specs: tuple[ParamSpec, ...]) -> str:
         facts = [{"float": "float", "int": "int", "str": "str", "bool": "bool"}[s.type]]
         if s.unit:
             facts.append(s.unit)
-        if s.choices is not None:
-            facts.append("one of " + ", ".join(map(repr, s.choices)))
-        elif s.minimum is not None or s.maximum is not None:
-            lo = "" if s.minimum is None else f"{_num_text(s.minimum)} {'<' if s.exclusive_minimum else '<='} "
-            hi = "" if s.maximum is None else f" <= {_num_text(s.maximum)}"
-            facts.append(f"{lo}value{hi}")
+        if s.range_text():
+            facts.append(s.range_text())
         facts.append("default derived" if s.default is None else f"default {s.default!r}")
         if not s.scene:
             facts.append("not settable in scene files")
@@ -830,8 +837,8 @@ def hedge(
 
 
 @parametric(
-    _P("height_m", "float", 0.9, "m", 0.2, 3.0),
-    _P("radius_m", "float", 0.08, "m", 0.01, 1.0),
+    _P("height_m", "float", 0.9, "m", 0.2, 3.0, doc="overall height"),
+    _P("radius_m", "float", 0.08, "m", 0.01, 1.0, doc="radius of the post"),
     _P("band_height_m", "float", 0.06, "m", 0.0, 0.5, True, doc="reflective band, 0.1 m below the top"),
     _P("segments", "int", 16, "", 3, doc="facets around the post", scene=False),
 )
@@ -859,8 +866,8 @@ def bollard(height_m: float, radius_m: float, *, band_height_m: float, segments:
 
 @parametric(
     _P("length_m", "float", 4.0, "m", 1.0, 20.0, doc="along local y"),
-    _P("depth_m", "float", 1.5, "m", 0.6, 5.0),
-    _P("height_m", "float", 2.5, "m", 2.0, 5.0),
+    _P("depth_m", "float", 1.5, "m", 0.6, 5.0, doc="front to back, along local x"),
+    _P("height_m", "float", 2.5, "m", 2.0, 5.0, doc="ground to the top of the roof"),
 )
 def bus_shelter(length_m: float, depth_m: float, height_m: float) -> list[Part]:
     """A glazed bus shelter open at the front (+x), its length along local y.
@@ -906,9 +913,15 @@ def bus_shelter(length_m: float, depth_m: float, height_m: float) -> list[Part]:
 
 @parametric(
     _P("height_m", "float", 2.7, "m", 0.3, 10.0, doc="top of the panel"),
-    _P("panel_width_m", "float", 0.6, "m", 0.05, 5.0),
-    _P("panel_height_m", "float", 0.6, "m", 0.05, 5.0),
-    _P("shape", "str", "rect", choices=("rect", "circle", "triangle")),
+    _P("panel_width_m", "float", 0.6, "m", 0.05, 5.0, doc="panel width, along local y"),
+    _P("panel_height_m", "float", 0.6, "m", 0.05, 5.0, doc="panel height"),
+    _P(
+        "shape",
+        "str",
+        "rect",
+        choices=("rect", "circle", "triangle"),
+        doc="panel outline; 'circle' is an ellipse if width and height differ, 'triangle' has its apex up",
+    ),
     _P("pole_radius_m", "float", 0.038, "m", 0.005, 0.3, scene=False),
     _P("thickness_m", "float", 0.004, "m", 0.0005, 0.1, doc="panel thickness", scene=False),
 )
@@ -1058,8 +1071,8 @@ class LampColumn:
     _P("base_radius_m", "float", 0.07, "m", 0.01, 1.0, scene=False),
     _P("top_radius_m", "float", 0.04, "m", 0.005, 1.0, scene=False),
     _P("arm_radius_m", "float", 0.025, "m", 0.005, 0.5, scene=False),
-    _P("housing_length_m", "float", 0.6, "m", 0.05, 3.0),
-    _P("housing_width_m", "float", 0.28, "m", 0.05, 3.0),
+    _P("housing_length_m", "float", 0.6, "m", 0.05, 3.0, doc="lantern and its luminous opening, along the arm"),
+    _P("housing_width_m", "float", 0.28, "m", 0.05, 3.0, doc="lantern and its luminous opening, across the arm"),
     _P("housing_height_m", "float", 0.1, "m", 0.01, 1.0, scene=False),
     _P("segments", "int", 12, "", 3, doc="facets around the column", scene=False),
 )
@@ -1158,16 +1171,16 @@ def _windows_row(
 @parametric(
     _P("width_m", "float", 6.0, "m", 2.0, 100.0, doc="frontage along local y"),
     _P("height_m", "float", 5.6, "m", 2.2, 60.0, doc="eaves height"),
-    _P("depth_m", "float", 8.0, "m", 1.0, 100.0),
-    _P("storeys", "int", 2, "", 1, 20),
+    _P("depth_m", "float", 8.0, "m", 1.0, 100.0, doc="front to back, along local x"),
+    _P("storeys", "int", 2, "", 1, 20, doc="floors, of equal height"),
     _P("windows", "int", 2, "", 1, 30, doc="windows per storey"),
     _P("door", "str", "left", choices=("left", "centre", "right", "none"), doc="seen from the street"),
-    _P("window_width_m", "float", 1.1, "m", 0.2, 10.0),
-    _P("window_height_m", "float", 1.3, "m", 0.2, 10.0),
+    _P("window_width_m", "float", 1.1, "m", 0.2, 10.0, doc="width of each window"),
+    _P("window_height_m", "float", 1.3, "m", 0.2, 10.0, doc="height of each window"),
     _P("sill_m", "float", 0.9, "m", 0.0, 5.0, doc="window sill above each floor", scene=False),
     _P("door_width_m", "float", 1.0, "m", 0.5, 5.0, scene=False),
     _P("door_height_m", "float", 2.1, "m", 1.5, 6.0, scene=False),
-    _P("roof", "str", "pitched", choices=("pitched", "flat")),
+    _P("roof", "str", "pitched", choices=("pitched", "flat"), doc="a ridge parallel to the facade, or a 0.15 m slab"),
     _P("roof_height_m", "float", 2.5, "m", 0.2, 20.0, doc="ridge above the eaves (pitched roofs)"),
     _P("overhang_m", "float", 0.25, "m", 0.0, 2.0, doc="eaves beyond the front and back walls (pitched roofs)"),
 )
@@ -1225,15 +1238,15 @@ def house_front(
 @parametric(
     _P("width_m", "float", 6.0, "m", 3.0, 100.0, doc="frontage along local y"),
     _P("height_m", "float", 7.0, "m", 3.0, 60.0, doc="eaves height"),
-    _P("depth_m", "float", 10.0, "m", 1.0, 100.0),
-    _P("storeys", "int", 2, "", 1, 20),
+    _P("depth_m", "float", 10.0, "m", 1.0, 100.0, doc="front to back, along local x"),
+    _P("storeys", "int", 2, "", 1, 20, doc="floors, the shop floor included"),
     _P("windows", "int", 2, "", 1, 30, doc="windows per upper storey"),
     _P("door", "str", "right", choices=("left", "centre", "right"), doc="seen from the street"),
     _P("shop_storey_m", "float", 3.6, "m", 2.6, 8.0, doc="height of the ground floor"),
-    _P("fascia_height_m", "float", 0.6, "m", 0.2, 2.0),
+    _P("fascia_height_m", "float", 0.6, "m", 0.2, 2.0, doc="sign board above the shop window"),
     _P("window_width_m", "float", 1.1, "m", 0.2, 10.0, doc="upper-storey windows", scene=False),
     _P("window_height_m", "float", 1.3, "m", 0.2, 10.0, doc="upper-storey windows", scene=False),
-    _P("roof", "str", "flat", choices=("pitched", "flat")),
+    _P("roof", "str", "flat", choices=("pitched", "flat"), doc="a ridge parallel to the facade, or a 0.15 m slab"),
     _P("roof_height_m", "float", 2.5, "m", 0.2, 20.0, scene=False),
     _P("overhang_m", "float", 0.0, "m", 0.0, 2.0, scene=False),
 )
