@@ -24,8 +24,8 @@ for _folder in (ROOT, ROOT / "tests"):  # the package, and the synthetic patch c
 
 import synthetic  # noqa: E402
 
-from render.vision import ObserverSettings, ViewGeometry, ViewLight, render_display, shared_display  # noqa: E402
 from render.output.images import write_png  # noqa: E402
+from render.vision import ObserverSettings, ViewGeometry, ViewLight, render_display, shared_display  # noqa: E402
 
 LEVELS_CD_M2 = (10.0, 3.0, 1.0, 0.3, 0.1, 0.03, 0.01)
 

@@ -23,8 +23,8 @@ if str(ROOT) not in sys.path:
 
 from render.colour.colorimetry import resolve  # noqa: E402
 from render.light.luminaires import channel_factors  # noqa: E402
-from render.study import RenderedView, Study  # noqa: E402
 from render.output.images import write_png  # noqa: E402
+from render.study import RenderedView, Study  # noqa: E402
 
 LEVELS_CD_M2 = (10.0, 3.0, 1.0, 0.3, 0.1, 0.03, 0.01)
 
