@@ -371,6 +371,27 @@ def test_integer_too_large_for_a_float(tmp_path, old, new, where):
     assert HUGE_INT not in problem.message  # a 401-digit number is not echoed in full
 
 
+@pytest.mark.parametrize(
+    "entry, where",
+    [
+        (f"\n[observer]\nage_years = {HUGE_INT}\n", "observer.age_years"),
+        (
+            f'\n[[objects]]\nkind = "bollard"\nposition_m = [5.0, 4.0]\nparams = {{ height_m = {HUGE_INT} }}\n',
+            "objects[0].params.height_m",
+        ),
+        (
+            f'\n[[objects]]\nkind = "hedge"\nposition_m = [5.0, 4.0]\nparams = {{ seed = [1, {HUGE_INT}] }}\n',
+            "objects[0].params.seed[1]",
+        ),
+    ],
+)
+def test_integer_too_large_for_a_float_in_tables_checked_elsewhere(tmp_path, entry, where):
+    # Observer settings and object parameters are checked by their own modules; an integer
+    # beyond binary64 is reported by the scene reader first (was OverflowError).
+    problem = one_problem_at(write(tmp_path, BASE + entry), where)
+    assert "too large" in problem.message
+
+
 def test_integer_beyond_python_conversion_limit(tmp_path):
     # More digits than Python converts to a string (4300, the default of sys.int_max_str_digits).
     p = write(tmp_path, BASE.replace("length_m = 30.0", "length_m = 1" + "0" * 5000))

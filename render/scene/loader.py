@@ -421,6 +421,26 @@ def _parse_toml(path: Path) -> dict:
         ) from None
 
 
+def _report_oversized_integers(value, where: str, ctx: _Context) -> bool:
+    """Report every integer in ``value`` (a table handed to another module's checks: object
+    parameters, observer settings) too large for a float, as :func:`check_value` does for the
+    scene's own keys; True if there was one."""
+    found = False
+    if isinstance(value, dict):
+        for key, item in value.items():
+            found |= _report_oversized_integers(item, join(where, key), ctx)
+    elif isinstance(value, list):
+        for i, item in enumerate(value):
+            found |= _report_oversized_integers(item, join(where, i), ctx)
+    elif isinstance(value, int) and not isinstance(value, bool):
+        try:
+            float(value)
+        except OverflowError:
+            ctx.problems.add(where, f"expected a finite number, got {shown(value)} (too large)")
+            return True
+    return found
+
+
 def _tag(checked: dict, default_name: str) -> Tag:
     return Tag(
         name=checked.get("name") or default_name, inspect=bool(checked.get("inspect")), notes=checked.get("notes") or ""
@@ -547,7 +567,7 @@ def _objects(entries: list, ctx: _Context, street: Street | None) -> list[Street
         pos = _position(o["position_m"], f"{where}.position_m", ctx, street) if "position_m" in entry else None
         if "position_m" not in entry:
             ctx.problems.add(f"{where}.position_m", "missing; expected [x, y] or [x, y, z] in m")
-        if kind is None or o["params"] is None:
+        if kind is None or o["params"] is None or _report_oversized_integers(o["params"], f"{where}.params", ctx):
             continue
         for key, message in validate_params(kind, o["params"]):
             ctx.problems.add(f"{where}.params.{key}" if key else f"{where}.params", message)
@@ -988,7 +1008,7 @@ def load_scene(path: str | os.PathLike, *, strict_paths: bool = False) -> Scene:
     if not (top["views"] or []):
         problems.add("views", "the scene needs at least one [[views]] entry")
     observer = None
-    if top["observer"] is not None:
+    if top["observer"] is not None and not _report_oversized_integers(top["observer"], "observer", ctx):
         from render.vision.observer import ObserverSettings
 
         try:
