@@ -11,8 +11,9 @@ Generators, for each reader:
   valid spectrum and lines files written here, and every committed material in ``materials/``:
   byte flips, numbers replaced by huge, tiny, negative, NaN, infinite or unparsable values
   (``1e400``, 400 nines), truncation, duplicated, deleted or shuffled lines, NUL bytes, byte-order
-  marks, CRLF or CR line ends, very long lines (long runs of spaces, digits or one field) and
-  swapped separators (``;``, tabs, spaces, decimal commas);
+  marks, CRLF or CR line ends, very long lines (long runs of spaces, digits or one field), one
+  line repeated up to past the row limit, and swapped separators (``;``, tabs, spaces, decimal
+  commas);
 * structured random files: a header, rows of wavelengths (sorted or not, in or far outside
   380-780 nm) and powers or reflectances of one magnitude up to the edge of binary64, with a few
   fields replaced by hostile values and a random separator, line end and encoding;
@@ -46,6 +47,7 @@ from hypothesis import strategies as st
 from render.colour.lamps import LAMP_TYPES, Lamp, load_lamp_file
 from render.colour.materials import REQUIRED_KEYS, Material, load_material_csv, luminous_reflectance
 from render.colour.spectra import N_BINS
+from render.limits import MAX_SPECTRUM_ROWS
 
 REPO = Path(__file__).resolve().parents[1]
 LAMP_DATA = Path(__file__).parent / "data" / "lamps"
@@ -281,6 +283,13 @@ def _mutated(data, seed: bytes) -> bytes:
     content = seed
     for _ in range(data.draw(st.integers(1, 4), label="mutations")):
         content = mutate(content, data.draw)
+    # Now and then, last (a large file makes every later mutation slow): one line repeated up
+    # to and past render.limits.MAX_SPECTRUM_ROWS.
+    if data.draw(st.sampled_from([False] * 19 + [True]), label="many lines"):
+        lines = content.split(b"\n")
+        k = data.draw(st.integers(0, len(lines) - 1))
+        n = data.draw(st.sampled_from([1000, 20_000, MAX_SPECTRUM_ROWS - 50, MAX_SPECTRUM_ROWS + 1]))
+        content = b"\n".join(lines[:k] + [lines[k]] * n + lines[k:])
     return content
 
 
@@ -525,3 +534,14 @@ def test_every_seed_is_read_within_the_contract(fuzz_dir):
         assert (lamp is not None) == (name in VALID_LAMP_SEEDS), name
     for stem, data in MATERIAL_SEEDS.items():
         assert read_material(data, stem, fuzz_dir, "seeds") is not None, stem
+
+
+def test_many_unknown_header_keys_do_not_hang(tmp_path):
+    # Found reading files near the size limit: every unknown '# key:' comment was
+    # compared with the header keys for a did-you-mean hint (difflib, about 15 µs each), so a
+    # 10 MB file of unknown keys took over 10 s. The contract's time limit is what fails here.
+    path = tmp_path / "keys.csv"
+    letters = [f"{a}{b}{c}{d}" for a in "kmvw" for b in "abcdefghijklmnopqrstuvwxyz" for c in "aeiou" for d in "xyz"]
+    keys = "".join(f"# {k}{j}: x\n" for j in ("", "q", "qq", "qqq") for k in letters).encode() * 160
+    path.write_bytes(keys + VALID_LAMP_SEEDS["spectrum.csv"])
+    assert reader_contract(lambda: load_lamp_file(path)) is not None

@@ -557,7 +557,8 @@ def test_too_many_rows_is_refused_before_reading_them(tmp_path):
         load_lamp_file(path)
     problem = err.value.problems[0]
     assert problem.where == f"lines 2-{MAX_SPECTRUM_ROWS + 2}"
-    assert f"{MAX_SPECTRUM_ROWS + 1}" in problem.message and f"{MAX_SPECTRUM_ROWS:,}" in problem.message
+    assert any(f"{MAX_SPECTRUM_ROWS + 1:{group}}" in problem.message for group in ("", ","))
+    assert f"{MAX_SPECTRUM_ROWS:,}" in problem.message
 
 
 def test_subnormal_line_power_normalises_exactly(tmp_path):

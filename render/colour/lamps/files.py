@@ -5,7 +5,7 @@
 ``# key: value`` set the lamp's ``name``, ``description``, ``type`` (one of
 :data:`render.colour.lamps.model.LAMP_TYPES`), ``source`` and ``notes`` (may be repeated, one
 note each). Other comments are ignored, except that a key that looks like a misspelt known key
-is an error. Fields are separated by commas (or by white space -- spaces or tabs -- in a line
+is an error (looked for among the header's first 1000 unknown keys). Fields are separated by commas (or by white space -- spaces or tabs -- in a line
 without a comma), with a decimal point; a semicolon, or white space between numbers next to a
 comma (a decimal comma), is an error naming the separator found. Every number is finite;
 wavelengths are positive and at most :data:`render.limits.MAX_TABLE_WAVELENGTH_NM`; a file holds
@@ -76,6 +76,9 @@ HEADER_KEYS = ("name", "description", "type", "source", "notes")
 _KEY_LINE = re.compile(r"^#\s*([A-Za-z][A-Za-z_-]*)\s*:(.*)$")
 # Keys longer than this are not compared with the header keys for a did-you-mean hint.
 _MAX_HINT_KEY_CHARS = 40
+# Unknown keys compared with the header keys per file: a written header has a few, and each
+# comparison (difflib) costs about 15 µs, too much for a million of them.
+_MAX_HINTED_KEYS = 1000
 # White space between two numbers inside a comma-separated field: tabs or spaces as separators
 # next to decimal commas.
 _SPACE_BETWEEN_NUMBERS = re.compile(r"[0-9.]\s+[-+]?[0-9.]")
@@ -145,6 +148,7 @@ def load_lamp_file(path: str | Path) -> Lamp:
     header_line: dict[str, int] = {}
     notes: list[str] = []
     data: list[tuple[int, str]] = []
+    hinted = 0  # unknown keys compared with the header keys so far
     for number, raw in enumerate(lines, start=1):
         line = raw.strip()
         if not line:
@@ -159,14 +163,16 @@ def load_lamp_file(path: str | Path) -> Lamp:
                     else:
                         header[key] = value
                         header_line[key] = number
-                elif len(key) <= _MAX_HINT_KEY_CHARS and did_you_mean(key, HEADER_KEYS):
-                    if _too_many(problems, number):
+                elif len(key) <= _MAX_HINT_KEY_CHARS and hinted < _MAX_HINTED_KEYS:
+                    hinted += 1
+                    hint = did_you_mean(key, HEADER_KEYS)
+                    if hint and _too_many(problems, number):
                         problems.raise_if_any()
-                    problems.add(
-                        f"line {number}",
-                        f"unknown header key '{match.group(1)}'{did_you_mean(key, HEADER_KEYS)}; "
-                        f"header keys are {', '.join(HEADER_KEYS)}",
-                    )
+                    if hint:
+                        problems.add(
+                            f"line {number}",
+                            f"unknown header key '{match.group(1)}'{hint}; header keys are {', '.join(HEADER_KEYS)}",
+                        )
             continue
         data.append((number, line))
 
@@ -250,8 +256,7 @@ def _parse_numbers(number: int, fields: list[str], names: Sequence[str], problem
         if math.isinf(value):
             problems.add(
                 f"line {number}",
-                f"{name} '{_shown(text)}' is beyond the range of double precision (about ±1.8e308); "
-                f"expected {_FINITE}",
+                f"{name} '{_shown(text)}' is beyond the range of double precision (about ±1.8e308); expected {_FINITE}",
             )
             return None
         values.append(value)
