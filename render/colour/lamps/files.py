@@ -99,9 +99,10 @@ def _number(text: str) -> float | None:
 
 def _shown(text: str, limit: int = 40) -> str:
     """A field of the file as quoted in a message: control characters escaped, long text cut."""
+    cut, text = len(text) > limit, text[:limit]
     if not text.isprintable():
-        text = text.encode("unicode_escape").decode("ascii")
-    return text if len(text) <= limit else text[: limit - 1] + "…"
+        text = text.encode("unicode_escape").decode("ascii")[:limit]
+    return text + "…" if cut else text
 
 
 def _separator_problem(line: str) -> str | None:
