@@ -598,3 +598,32 @@ def test_check_reports_a_view_that_needs_more_memory_than_available(tmp_path, mo
         check_scene(p)
     (problem,) = info.value.problems
     assert problem.where == "views[0].resolution" and "16×9 pixels" in problem.message and "GiB" in problem.message
+
+
+@pytest.mark.parametrize(
+    "entry, where",
+    [
+        ('\n[[geometry]]\nkind = "box"\nsize_m = [1e-300, 1, 1]\nmaterial = "wood"\n', "geometry[0].size_m[0]"),
+        ('\n[[geometry]]\nkind = "sphere"\nradius_m = 5e-324\nmaterial = "wood"\n', "geometry[0].radius_m"),
+        (
+            '\n[[markings]]\nkind = "line"\npoints_m = [[0, 0], [1e-300, 0], [5, 0]]\nmaterial = "paint-road-white"\n',
+            "markings[0].points_m[1]",
+        ),
+        ("\n[street.left]\nfootway_width_m = 1e-300\n", "street.left.footway_width_m"),
+    ],
+)
+def test_sizes_below_a_millimetre(tmp_path, entry, where):
+    # Sizes far below a millimetre gave triangles whose normals underflow to zero (a sphere of
+    # radius 5e-324 also NaN normals): refused at the key. Common practice, no source: nothing
+    # drawn on a street is thinner than 1 mm.
+    text = (
+        BASE.replace("carriageway_width_m = 6.0\n", "carriageway_width_m = 6.0\n" + entry)
+        if "street." in where
+        else BASE + entry
+    )
+    problem = one_problem_at(write(tmp_path, text), where)
+    assert "0.001" in problem.message
+    # At 1 mm: compiles with unit normals everywhere.
+    small = text.replace("1e-300", "0.001").replace("5e-324", "0.001").replace("[1e-300, 0]", "[0.001, 0]")
+    mesh = compile_scene(load_scene(write(tmp_path, small)))
+    assert np.allclose(np.linalg.norm(mesh.normals, axis=-1), 1.0, rtol=0, atol=1e-9)

@@ -56,12 +56,16 @@ from render.scene.model import (
 )
 from render.scene.schema import Field, check_table, check_value, join, shown
 
-__all__ = ["COORD", "check_scene", "light_channel_count", "load_scene"]
+__all__ = ["COORD", "MIN_SIZE_M", "check_scene", "light_channel_count", "load_scene"]
 
 M = "m"
 DEG = "degrees"
 #: Bounds of a coordinate in a scene, m (:data:`render.limits.MAX_COORDINATE_M`).
 COORD = {"min": -MAX_COORDINATE_M, "max": MAX_COORDINATE_M}
+#: Smallest length, width, height, depth, radius or size of anything the scene draws, m: below
+#: a millimetre the triangles of an object degenerate (their normals underflow) and nothing
+#: real on a street is that thin.
+MIN_SIZE_M = 0.001
 
 TOP_LEVEL = {
     "scene": Field("table", default={}),
@@ -94,10 +98,16 @@ SCENE_INFO = {
 }
 
 SIDE_SPEC = {
-    "footway_width_m": Field("float", default=2.0, unit=M, min=0.0, max=20.0),
-    "verge_width_m": Field("float", default=0.0, unit=M, min=0.0, max=20.0),
+    "footway_width_m": Field("float", default=2.0, unit=M, min=0.0, nonzero_min=MIN_SIZE_M, max=20.0),
+    "verge_width_m": Field("float", default=0.0, unit=M, min=0.0, nonzero_min=MIN_SIZE_M, max=20.0),
     "frontage_depth_m": Field(
-        "float", default=3.0, unit=M, min=0.0, max=50.0, help="front gardens between footway and building line"
+        "float",
+        default=3.0,
+        unit=M,
+        min=0.0,
+        nonzero_min=MIN_SIZE_M,
+        max=50.0,
+        help="front gardens between footway and building line",
     ),
     "footway_material": Field("str", default=None),
     "verge_material": Field("str", default=None),
@@ -105,11 +115,11 @@ SIDE_SPEC = {
 }
 
 STREET_SPEC = {
-    "length_m": Field("float", unit=M, above=0.0, max=2000.0),
-    "carriageway_width_m": Field("float", unit=M, above=0.0, max=60.0),
+    "length_m": Field("float", unit=M, above=0.0, min=MIN_SIZE_M, max=2000.0),
+    "carriageway_width_m": Field("float", unit=M, above=0.0, min=MIN_SIZE_M, max=60.0),
     "lanes": Field("int", default=2, min=1, max=8),
-    "kerb_height_m": Field("float", default=0.12, unit=M, min=0.0, max=0.5),
-    "kerb_width_m": Field("float", default=0.15, unit=M, min=0.0, max=1.0),
+    "kerb_height_m": Field("float", default=0.12, unit=M, min=0.0, nonzero_min=MIN_SIZE_M, max=0.5),
+    "kerb_width_m": Field("float", default=0.15, unit=M, min=0.0, nonzero_min=MIN_SIZE_M, max=1.0),
     "carriageway_material": Field("str", default="asphalt-worn"),
     "kerb_material": Field("str", default="concrete-kerb"),
     "footway_material": Field("str", default="concrete-paving"),
@@ -132,10 +142,10 @@ FRONTAGE_SPEC = {
     "side": Field("str", choices=("left", "right")),
     "kind": Field("str", default="house", choices=("house", "shop")),
     "start_m": Field("float", unit=M, **COORD),
-    "length_m": Field("float", unit=M, above=0.0, max=2000.0),
+    "length_m": Field("float", unit=M, above=0.0, min=MIN_SIZE_M, max=2000.0),
     "units": Field("int", default=1, min=1, max=200),
-    "height_m": Field("float", default=7.5, unit=M, above=0.0, max=200.0),
-    "depth_m": Field("float", default=8.0, unit=M, above=0.0, max=100.0),
+    "height_m": Field("float", default=7.5, unit=M, above=0.0, min=MIN_SIZE_M, max=200.0),
+    "depth_m": Field("float", default=8.0, unit=M, above=0.0, min=MIN_SIZE_M, max=100.0),
     "materials": Field("table", default={}),
     **TAG_FIELDS,
 }
@@ -156,9 +166,9 @@ GEOMETRY_SPEC = {
     "materials": Field("table", default={}),
     "position_m": Field("vec3", default=(0.0, 0.0, 0.0), unit=M, **COORD),
     "heading_deg": Field("float", default=0.0, unit=DEG),
-    "size_m": Field("vec3", default=None, unit=M, above=0.0, max=MAX_COORDINATE_M),
-    "radius_m": Field("float", default=None, unit=M, above=0.0, max=MAX_COORDINATE_M),
-    "height_m": Field("float", default=None, unit=M, above=0.0, max=MAX_COORDINATE_M),
+    "size_m": Field("vec3", default=None, unit=M, above=0.0, min=MIN_SIZE_M, max=MAX_COORDINATE_M),
+    "radius_m": Field("float", default=None, unit=M, above=0.0, min=MIN_SIZE_M, max=MAX_COORDINATE_M),
+    "height_m": Field("float", default=None, unit=M, above=0.0, min=MIN_SIZE_M, max=MAX_COORDINATE_M),
     "outline_m": Field("any", default=None),
     "file": Field("str", default=None),
     "scale": Field("float", default=1.0, above=0.0),
@@ -170,9 +180,9 @@ GEOMETRY_SPEC = {
 MARKING_SPEC = {
     "kind": Field("str", choices=("line", "polygon")),
     "points_m": Field("any"),
-    "width_m": Field("float", default=0.1, unit=M, above=0.0, max=20.0),
-    "dash_m": Field("float", default=0.0, unit=M, min=0.0, max=MAX_COORDINATE_M),
-    "gap_m": Field("float", default=0.0, unit=M, min=0.0, max=MAX_COORDINATE_M),
+    "width_m": Field("float", default=0.1, unit=M, above=0.0, min=MIN_SIZE_M, max=20.0),
+    "dash_m": Field("float", default=0.0, unit=M, min=0.0, nonzero_min=MIN_SIZE_M, max=MAX_COORDINATE_M),
+    "gap_m": Field("float", default=0.0, unit=M, min=0.0, nonzero_min=MIN_SIZE_M, max=MAX_COORDINATE_M),
     "material": Field("str"),
     **TAG_FIELDS,
 }
@@ -670,6 +680,19 @@ def _frontages(entries: list, ctx: _Context) -> list[Frontage]:
     return out
 
 
+def _points_apart(points: list[tuple[float, float]], where: str, problems: ProblemList) -> bool:
+    """Whether consecutive points of a line are the same point (skipped) or at least
+    :data:`MIN_SIZE_M` apart; a problem at the first that is not."""
+    for i, (a, b) in enumerate(zip(points[:-1], points[1:])):
+        if 0.0 < math.dist(a, b) < MIN_SIZE_M:
+            problems.add(
+                f"{where}[{i + 1}]",
+                f"{math.dist(a, b):g} m from the point before; points of a line are at least {MIN_SIZE_M:g} m apart",
+            )
+            return False
+    return True
+
+
 def _dash_count(points: list[tuple[float, float]], dash_m: float, gap_m: float) -> float:
     """An upper bound of the dashes a dashed line is drawn with (each segment starts at most
     one extra piece)."""
@@ -693,6 +716,8 @@ def _markings(entries: list, ctx: _Context) -> list[Marking]:
             else None
         )
         if None in (m["kind"], m["material"], pts, m["width_m"], m["dash_m"], m["gap_m"]):
+            continue
+        if m["kind"] == "line" and not _points_apart(pts, f"{where}.points_m", ctx.problems):
             continue
         if m["kind"] == "line" and (m["dash_m"] > 0) != (m["gap_m"] > 0):
             ctx.problems.add(f"{where}.gap_m", "a dashed line needs both dash_m and gap_m above 0")

@@ -35,7 +35,8 @@ class Field:
     ``"table"`` (any table, checked by the caller), ``"list"`` (a list of tables, checked by the
     caller), ``"strlist"`` or ``"any"``.
     Numeric bounds: ``min``/``max`` inclusive, ``above`` exclusive lower bound, ``below``
-    exclusive upper bound. ``unit`` is used in messages.
+    exclusive upper bound, ``nonzero_min`` the least magnitude of a value that is not 0 (a width
+    that may be 0 for none). ``unit`` is used in messages.
     """
 
     kind: str
@@ -45,6 +46,7 @@ class Field:
     max: float | None = None
     above: float | None = None
     below: float | None = None
+    nonzero_min: float | None = None
     choices: tuple | None = None
     help: str = ""
 
@@ -103,17 +105,21 @@ def _check_bounds(value: float, field: Field, where: str, problems: ProblemList)
     if not math.isfinite(value):
         problems.add(where, f"expected a finite number{unit}, got {value!r}")
         return False
+    # The exclusive bounds first: "more than 0" says more about -30 m than "at least 1 mm".
+    if field.above is not None and not value > field.above:
+        problems.add(where, f"expected more than {field.above:g}{unit}, got {value:g}")
+        return False
+    if field.below is not None and not value < field.below:
+        problems.add(where, f"expected less than {field.below:g}{unit}, got {value:g}")
+        return False
     if field.min is not None and value < field.min:
         problems.add(where, f"expected at least {field.min:g}{unit}, got {value:g}")
         return False
     if field.max is not None and value > field.max:
         problems.add(where, f"expected at most {field.max:g}{unit}, got {value:g}")
         return False
-    if field.above is not None and not value > field.above:
-        problems.add(where, f"expected more than {field.above:g}{unit}, got {value:g}")
-        return False
-    if field.below is not None and not value < field.below:
-        problems.add(where, f"expected less than {field.below:g}{unit}, got {value:g}")
+    if field.nonzero_min is not None and 0 < abs(value) < field.nonzero_min:
+        problems.add(where, f"expected 0 or at least {field.nonzero_min:g}{unit}, got {value:g}")
         return False
     return True
 
