@@ -78,23 +78,17 @@ def packet_load(
     n0 = np.sqrt(d0x * d0x + d0y * d0y + d0z * d0z)
     kx0, ky0, kz0, _, _, _ = ray_shear(d0x, d0y, d0z)
     coherent = True
-    for r in range(PACKET):
-        if r < n:
-            i = start + r
-            o = (origins[i, 0], origins[i, 1], origins[i, 2])
-            d = (directions[i, 0], directions[i, 1], directions[i, 2])
-            tb = t_max[i]
-        else:  # an unused lane: a finite dummy ray that enters no box
-            o = (0.0, 0.0, 0.0)
-            d = (1.0, 1.0, 1.0)
-            tb = -np.inf
-        dx, dy, dz = d
+    for r in range(n):
+        i = start + r
+        dx = directions[i, 0]
+        dy = directions[i, 1]
+        dz = directions[i, 2]
         kx, ky, kz, sx, sy, sz = ray_shear(dx, dy, dz)
-        if r < n:
-            if kx != kx0 or ky != ky0 or not valid_ray(origins, directions, start + r):
-                coherent = False
-            if dx * d0x + dy * d0y + dz * d0z < cos_max * n0 * np.sqrt(dx * dx + dy * dy + dz * dz):
-                coherent = False
+        if kx != kx0 or ky != ky0 or not valid_ray(origins, directions, i):
+            coherent = False
+        if dx * d0x + dy * d0y + dz * d0z < cos_max * n0 * np.sqrt(dx * dx + dy * dy + dz * dz):
+            coherent = False
+        o = (origins[i, 0], origins[i, 1], origins[i, 2])
         lane[_OX + r] = o[0]
         lane[_OY + r] = o[1]
         lane[_OZ + r] = o[2]
@@ -107,10 +101,19 @@ def packet_load(
         lane[_SX + r] = sx
         lane[_SY + r] = sy
         lane[_SZ + r] = sz
-        lane[_TB + r] = tb
+        lane[_TB + r] = t_max[i]
         lane[_BJ + r] = -1.0
         lane[_BU + r] = 0.0
         lane[_BV + r] = 0.0
+    for r in range(n, PACKET):  # unused lanes: a finite dummy ray that enters no box
+        for f in range(LANE_FIELDS):
+            lane[f * PACKET + r] = 0.0
+        lane[_IX + r] = 1.0
+        lane[_IY + r] = 1.0
+        lane[_IZ + r] = 1.0
+        lane[_SZ + r] = 1.0
+        lane[_TB + r] = -np.inf
+        lane[_BJ + r] = -1.0
     return coherent, (kx0, ky0, kz0)
 
 
