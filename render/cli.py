@@ -574,8 +574,8 @@ def build_parser() -> argparse.ArgumentParser:
     )
     p.set_defaults(func=cmd_materials)
 
-    p = sub.add_parser("photometry", help="summarise an LM-63 photometric file (flux, peak, ULOR); plot it on request")
-    p.add_argument("file", help="LM-63 (.ies) file or a built-in generic distribution id")
+    p = sub.add_parser("photometry", help="summarise an LM-63 or EULUMDAT photometric file (flux, peak, ULOR); plot it on request")
+    p.add_argument("file", help="LM-63 (.ies) or EULUMDAT (.ldt) file, or a built-in generic distribution id")
     p.add_argument("--plot", metavar="PNG", help="also write a polar plot to this file")
     p.set_defaults(func=cmd_photometry)
 

@@ -28,6 +28,8 @@ __all__ = [
     "FILE_SIZE_LIMITS_BYTES",
     "MAX_CAMERA_SAMPLES",
     "MAX_COORDINATE_M",
+    "MAX_EULUMDAT_ANGLES",
+    "MAX_EULUMDAT_LAMP_SETS",
     "MAX_GENERATED_LUMINAIRES",
     "MAX_IMAGE_SIDE_PX",
     "MAX_LM63_ANGLES",
@@ -82,6 +84,13 @@ MAX_LM63_ANGLES = 100_000
 
 MAX_LM63_TILT_ANGLES = 10_000
 """Angles of an LM-63 tilt table."""
+
+MAX_EULUMDAT_ANGLES = 3601
+"""C-planes or γ angles in an EULUMDAT file (the layout foresees at most 721 C-planes and 361 γ
+angles, 0.5° steps; 0.1° steps are allowed)."""
+
+MAX_EULUMDAT_LAMP_SETS = 1000
+"""Lamp sets in an EULUMDAT file (real files have one to a few)."""
 
 MAX_SPECTRUM_ROWS = 100_000
 """Data rows of a lamp file or a material file (a 0.01 nm table of 380-780 nm has 40 001)."""

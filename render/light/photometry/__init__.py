@@ -1,4 +1,4 @@
-"""Luminaire photometry: ANSI/IES LM-63 files, the C-γ intensity table, flux and orientation.
+"""Luminaire photometry: ANSI/IES LM-63 and EULUMDAT files, the C-γ intensity table, flux and orientation.
 
 The package reads in data-flow order; each module can be read on its own:
 
@@ -6,6 +6,8 @@ The package reads in data-flow order; each module can be read on its own:
   and type B angle conventions;
 * :mod:`.lm63` -- the LM-63 reader (1986–2019 editions, tilt data, symmetry expansion, type B
   resampling); the only place that parses LM-63 text;
+* :mod:`.eulumdat` -- the EULUMDAT (``.ldt``) reader, giving the same model;
+* :mod:`.formats` -- which photometric format a text resembles (dispatch and messages);
 * :mod:`.kernels` -- luminaire orientation and the numba intensity lookups;
 * :mod:`.integrals` -- exact flux, zonal flux, ULOR, peak intensity, lumen scaling and tilt;
 * :mod:`.builtin` -- the generic distributions shipped as package data, and loading by id or path.
@@ -20,6 +22,8 @@ References
 """
 
 from render.light.photometry.builtin import BUILTIN_PHOTOMETRY_DIR, builtin_photometry_ids, load_photometry
+from render.light.photometry.eulumdat import parse_eulumdat, read_eulumdat
+from render.light.photometry.formats import guess_photometric_format
 from render.light.photometry.integrals import (
     apply_tilt,
     luminous_flux_lm,
@@ -57,6 +61,7 @@ __all__ = [
     "c_gamma_to_direction",
     "c_gamma_to_type_b",
     "direction_to_c_gamma",
+    "guess_photometric_format",
     "intensity_cd",
     "intensity_lookup",
     "intensity_toward",
@@ -65,7 +70,9 @@ __all__ = [
     "luminaire_rotation",
     "luminous_flux_lm",
     "parse_lm63",
+    "parse_eulumdat",
     "peak_intensity",
+    "read_eulumdat",
     "read_lm63",
     "scale_to_lumens",
     "tilt_factor",

@@ -7,8 +7,12 @@ lampcast ships four generic LM-63 files (``generic-isotropic``, ``generic-full-c
 writes them. They are found with :mod:`importlib.resources`, so an installed wheel reads them
 wherever it is installed.
 
-A scene names a distribution either by a built-in id or by the path of an LM-63 file
-(:func:`load_photometry`); both are read by :func:`render.light.photometry.lm63.read_lm63`.
+A scene names a distribution either by a built-in id or by the path of an LM-63 or EULUMDAT
+file (:func:`load_photometry`). A path ending in ``.ldt`` is read by
+:func:`render.light.photometry.eulumdat.read_eulumdat`, one ending in ``.ies`` (and the built-in
+files) by :func:`render.light.photometry.lm63.read_lm63`; any other name by the reader whose
+format the start of the file resembles (:func:`render.light.photometry.formats.guess_photometric_format`),
+LM-63 when it resembles neither.
 
 References
 ----------
@@ -25,7 +29,10 @@ from importlib.resources.abc import Traversable
 from pathlib import Path
 
 from render.errors import InputError, Problem, did_you_mean
-from render.light.photometry.lm63 import read_lm63
+from render.fileio import read_user_bytes
+from render.light.photometry.eulumdat import parse_eulumdat, read_eulumdat
+from render.light.photometry.formats import guess_photometric_format
+from render.light.photometry.lm63 import _decode, _inside, read_lm63
 from render.light.photometry.model import Photometry
 
 __all__ = ["BUILTIN_PHOTOMETRY_DIR", "builtin_photometry_ids", "load_photometry"]
@@ -56,11 +63,11 @@ def load_photometry(
     *,
     allowed_root: str | os.PathLike | None = None,
 ) -> Photometry:
-    """Load a built-in distribution by id (see :func:`builtin_photometry_ids`) or an LM-63 file
-    by path (relative paths are taken from ``base_dir``, default the current folder).
+    """Load a built-in distribution by id (see :func:`builtin_photometry_ids`) or an LM-63 or
+    EULUMDAT file (module notes) by path (relative paths are taken from ``base_dir``, default the current folder).
 
-    With ``allowed_root`` (strict paths) an LM-63 file and its tilt file must lie inside that
-    folder (:func:`render.light.photometry.lm63.read_lm63`); built-in ids are always allowed.
+    With ``allowed_root`` (strict paths) a photometric file (and an LM-63 file's tilt file) must
+    lie inside that folder; built-in ids are always allowed.
 
     Raises
     ------
@@ -76,7 +83,7 @@ def load_photometry(
     if not path.is_absolute() and base_dir is not None:
         path = Path(base_dir) / path
     if "\x00" in text or path.exists():  # read_lm63 explains a NUL, a device or a folder
-        return read_lm63(path, allowed_root=allowed_root)
+        return _read_file(path, allowed_root)
     raise InputError(
         Problem(
             text,
@@ -85,3 +92,18 @@ def load_photometry(
             f"{', '.join(ids)}{did_you_mean(text, ids)}",
         )
     )
+
+
+def _read_file(path: Path, allowed_root: str | os.PathLike | None) -> Photometry:
+    """Read ``path`` with the reader its extension, else its content, calls for (module notes)."""
+    suffix = path.suffix.lower()
+    if suffix == ".ldt":
+        return read_eulumdat(path, allowed_root=allowed_root)
+    if suffix == ".ies" or "\x00" in str(path):
+        return read_lm63(path, allowed_root=allowed_root)
+    if allowed_root is not None and not _inside(path, Path(allowed_root)):
+        return read_lm63(path, allowed_root=allowed_root)  # explains the strict-paths refusal
+    text = _decode(read_user_bytes(path, "photometric file"))
+    if guess_photometric_format(text) == "eulumdat":
+        return parse_eulumdat(text, source=str(path))
+    return read_lm63(path, allowed_root=allowed_root)
