@@ -583,6 +583,49 @@ def test_load_photometry_passes_strict_paths_down(tmp_path):
     assert P.load_photometry("generic-isotropic", allowed_root=tmp_path).symmetry == "rotational"
 
 
+_HEAD = "IESNA:LM-63-2002\n[TEST] x\nTILT=NONE\n"
+
+
+@pytest.mark.parametrize(
+    "body, line, fragments",
+    [
+        # 5 vertical angles declared (line 4), 3 written on line 6: the angle line is named.
+        ("1 1000 1 5 1 1 2 0 0 0\n1 1 0\n0 45 90\n0\n100 90 80 70 60\n", 6, ["3 vertical angles", "line 4 declares 5"]),
+        # 3 horizontal angles declared, 2 written on line 7 (the next value, 1000, is above 360°).
+        (
+            "1 1000 1 3 3 1 2 0 0 0\n1 1 0\n0 45 90\n0 90\n1000 800 600\n1100 850 610\n",
+            7,
+            ["2 horizontal angles", "line 4 declares 3"],
+        ),
+    ],
+)
+def test_fewer_angles_than_declared_names_the_angle_line(tmp_path, body, line, fragments):
+    # The angle lines' own count is the mistake; the old message named only the end of the file
+    # and the count line (project rule: errors name the line at fault; no outside source).
+    path = tmp_path / "short.ies"
+    path.write_text(_HEAD + body)
+    with pytest.raises(InputError) as err:
+        P.read_lm63(path)
+    message = str(err.value)
+    assert f"line {line}:" in message and all(f in message for f in fragments), message
+
+
+@pytest.mark.parametrize(
+    "text, looks_like",
+    [
+        # EULUMDAT head: company, Ityp, Isym, Mc, Dc, Ng, Dg, ... (P. Bourke, "ldt EULUMDAT file format")
+        ("maker\n1\n1\n1\n0\n3\n45\nreport\nname\n" + "0\n" * 30, "EULUMDAT"),
+        ('<?xml version="1.0"?>\n<LuminaireOpticalData/>\n', "XML"),
+        ("CIBSE TM14 photometric data\n1 2 3\n", "TM14"),
+    ],
+)
+def test_other_formats_given_to_the_lm63_reader_are_named(tmp_path, text, looks_like):
+    path = tmp_path / "other.ies"
+    path.write_text(text)
+    with pytest.raises(InputError, match=f"line 1: this looks like .*{looks_like}.*not an LM-63 file"):
+        P.read_lm63(path)
+
+
 @pytest.mark.parametrize("ref", ["/dev/zero", "folder", "bad\x00name.ies"])
 def test_load_photometry_explains_files_it_will_not_read(tmp_path, ref):
     (tmp_path / "folder").mkdir()

@@ -98,6 +98,7 @@ import numpy as np
 
 from render.errors import InputError, input_error
 from render.fileio import read_user_bytes
+from render.light.photometry.formats import FORMAT_NAMES, guess_photometric_format
 from render.light.photometry.model import (
     ANGLE_TOL_DEG,
     Photometry,
@@ -395,6 +396,14 @@ def parse_lm63(
         elif stripped:
             labels.append(stripped)
     if tilt_line_no is None:
+        guess = guess_photometric_format(text)
+        if guess is not None and guess != "lm63":
+            raise input_error(
+                source,
+                "line 1",
+                f"this looks like {FORMAT_NAMES[guess]}, not an LM-63 file: it has no TILT= line"
+                + ("; give it the extension .ldt" if guess == "eulumdat" else ""),
+            )
         raise input_error(
             source,
             f"line {line_no}",
@@ -459,6 +468,8 @@ def parse_lm63(
 
     # Every value the counts call for must be present before any array of their size is made.
     count_lines = f"{ln_nv}" if ln_nv == ln_nh else f"{ln_nv} and {ln_nh}"
+    if tokens.remaining() < n_v + n_h + n_v * n_h:
+        _raise_angle_count_hint(tokens, n_v, n_h, ln_nv, ln_nh)
     tokens.require(
         n_v + n_h + n_v * n_h,
         count_lines,
@@ -541,6 +552,39 @@ def parse_lm63(
         tilt=tilt,
         file_generation_type=file_generation_type,
     )
+
+
+def _raise_angle_count_hint(tokens: _Tokens, n_v: int, n_h: int, ln_nv: int, ln_nh: int) -> None:
+    """With fewer values in the file than the counts call for, raise an error naming the angle
+    line when the angles seem fewer than declared: a value at the start of a new line that does
+    not increase, or exceeds the largest angle (vertical 180°, horizontal 360°), where the
+    vertical (or horizontal) angles should go on marks where the written angles really end. Returns without raising when no such place is found (the
+    caller's count check then reports)."""
+    start = tokens.pos
+    n = min(n_v + n_h, tokens.remaining())
+    values: list[float] = []
+    for k in range(start, start + n):
+        try:
+            values.append(float(tokens._word(k)))
+        except ValueError:
+            break
+    blocks = ((0, n_v, "vertical", ln_nv, 180.0), (n_v, n_h, "horizontal", ln_nh, 360.0))
+    for first, count, what, ln_count, largest in blocks:
+        for j in range(first + 1, min(first + count, len(values))):
+            new_line = tokens.line_of(start + j) != tokens.line_of(start + j - 1)
+            if new_line and not (values[j - 1] < values[j] <= largest + ANGLE_TOL_DEG):
+                written = j - first
+                first_line, last_line = tokens.line_of(start + first), tokens.line_of(start + j - 1)
+                lines = f"line {first_line}" if first_line == last_line else f"lines {first_line}-{last_line}"
+                raise tokens.error(
+                    first_line,
+                    f"{lines} hold(s) {written} {what} angles, but line {ln_count} declares {count}: "
+                    f"the next value, {values[j]:g} on line {tokens.line_of(start + j)}, does not "
+                    f"continue them (not larger, or above {largest:g}°), so the {what} angles seem to "
+                    "end there; correct the count or the angles",
+                )
+        if len(values) < first + count:
+            return
 
 
 def _check_intensities(
