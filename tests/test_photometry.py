@@ -927,6 +927,36 @@ def test_summary_and_text():
     assert "absolute photometry" in absolute
 
 
+@pytest.mark.parametrize(
+    "ref", ["generic-road-asymmetric", "generic-isotropic", "absolute_2002.ies", "bilateral_90_270.ies"]
+)
+def test_polar_plot_outer_ring_above_the_peak_and_planes_named(ref):
+    # The whole curve must lie inside the outer ring (the peak below or on the outermost radial
+    # tick), the rings at round values, and the legend must name the C-planes drawn; the title
+    # and alt text state the file and the peak (common practice for data sheets, no source).
+    ph = P.load_photometry(ref, base_dir=DATA)
+    fig, alt = sheet.polar_figure(ph)
+    ax = fig.axes[0]
+    k = 1.0 if ph.is_absolute else 1000.0 / ph.rated_lumens_lm
+    peak = P.peak_intensity(ph)[0] * k
+    ticks = [t for t in ax.get_yticks() if t <= ax.get_ylim()[1] + 1e-9]
+    assert ticks[-1] >= peak and ax.get_ylim()[1] == ticks[-1]
+    step = ticks[1] - ticks[0]
+    mantissa = step / 10 ** math.floor(math.log10(step))
+    assert any(abs(mantissa - m) < 1e-9 for m in (1, 2, 2.5, 5))  # a round ring step
+    assert ticks[-1] / step == pytest.approx(round(ticks[-1] / step), abs=1e-9)  # rings at its multiples
+    assert [t.get_text() for t in ax.get_legend().get_texts()] == ["C0–C180", "C90–C270"]
+    assert Path(ph.source).name in alt and f"{peak:.4g}" in alt and "C0–C180" in alt
+    assert f"{peak:.4g}" in ax.get_title()
+
+
+def test_round_ring_above():
+    # round values (1, 2, 2.5, 5 × 10^k steps) strictly above the value; arithmetic, no source
+    assert sheet.round_ring_above(1234.0) == (1400.0, 200.0)
+    assert sheet.round_ring_above(100.0) == (120.0, 20.0)
+    assert sheet.round_ring_above(0.0) == (1.0, 0.25)
+
+
 def test_plot_polar_writes_png_atomically(tmp_path):
     out = tmp_path / "plots" / "road.png"
     sheet.plot_polar(P.load_photometry("generic-road-asymmetric"), out)

@@ -4,14 +4,15 @@
 :class:`PhotometrySummary` (flux by exact integration of the interpolated table, upward flux and
 ULOR, peak intensity, efficacy, the file's header data); :meth:`PhotometrySummary.to_json` gives
 them as plain JSON values, :func:`format_summary` as the text ``lampcast photometry`` prints, and
-:func:`plot_polar` draws the C 0–180 and C 90–270 planes of the distribution.
+:func:`polar_figure` / :func:`plot_polar` draw the C0–C180 and C90–C270 planes of the distribution
+inside a round outer ring above the peak, with the planes named in the legend and an alt text.
 
 References
 ----------
-- ANSI/IESNA LM-63-2002 and IES LM-63-2019: the header fields shown (editions, symmetry, luminous
-  opening, tilt) **(from memory)**.
-- Polar intensity diagram in two C planes, γ = 0 at the bottom: common practice for luminaire
-  data sheets, no source.
+- ANSI/IESNA LM-63-2002 and IES LM-63-2019, EULUMDAT (see :mod:`render.light.photometry.eulumdat`):
+  the header fields shown (editions, symmetry, luminous opening, tilt) **(from memory)**.
+- Polar intensity diagram in two C planes, γ = 0 at the bottom, rings at round values: common
+  practice for luminaire data sheets, no source.
 """
 
 from __future__ import annotations
@@ -20,6 +21,7 @@ import dataclasses
 import os
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 
@@ -34,7 +36,16 @@ from render.light.photometry import (
 )
 from render.output.images import write_figure_png
 
-__all__ = ["PhotometrySummary", "describe_photometry_file", "format_summary", "plot_polar", "summarise"]
+__all__ = [
+    "POLAR_PLANES",
+    "PhotometrySummary",
+    "describe_photometry_file",
+    "format_summary",
+    "plot_polar",
+    "polar_figure",
+    "round_ring_above",
+    "summarise",
+]
 
 _VERTICAL_TEXT = {"downward": "downward only (γ 0-90)", "upward": "upward only (γ 90-180)", "full": "γ 0-180"}
 _SYMMETRY_TEXT = {
@@ -174,41 +185,80 @@ def format_summary(summary: PhotometrySummary) -> str:
     return "\n".join(lines)
 
 
-def plot_polar(photometry: Photometry, path: str | os.PathLike, title: str | None = None) -> Path:
-    """Polar intensity diagram of the C 0–180 and C 90–270 planes, written as PNG atomically.
+def round_ring_above(value: float) -> tuple[float, float]:
+    """The outer ring of a polar plot and its ring step: the first multiple of a round step
+    (1, 2, 2.5 or 5 × 10^k, about four to eight rings) strictly above ``value`` (1 and 0.25 for
+    a value ≤ 0)."""
+    if not (value > 0 and np.isfinite(value)):
+        return 1.0, 0.25
+    exponent = 10.0 ** np.floor(np.log10(value))
+    for mantissa in (0.1, 0.2, 0.25, 0.5, 1.0, 2.0):
+        step = mantissa * exponent
+        if value / step <= 8.0:
+            break
+    outer = (np.floor(value / step) + 1.0) * step
+    return float(outer), float(step)
 
-    γ = 0 (nadir) points down; C 0 / C 90 are drawn to the right, C 180 / C 270 to the left.
+
+#: The two planes drawn: (plane to the right, plane to the left), line style, legend label.
+POLAR_PLANES = (((0.0, 180.0), "-", "C0–C180"), ((90.0, 270.0), "--", "C90–C270"))
+
+
+def polar_figure(photometry: Photometry, title: str | None = None) -> tuple[Any, str]:
+    """The polar intensity diagram of the C0–C180 and C90–C270 planes as a matplotlib figure,
+    and its alt text (what it shows: the file, the planes, the peak, the outer ring).
+
+    γ = 0 (nadir) points down; C0 / C90 are drawn to the right, C180 / C270 to the left.
     Relative photometry is drawn in cd per 1000 lm of rated lamp flux, absolute photometry in cd.
+    The outer ring is a round value above the peak intensity (:func:`round_ring_above`), so the
+    whole curve lies inside it.
     """
-    from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure
 
     ph = photometry
-    path = Path(path)
     g = np.linspace(0.0, 180.0, 361)
     if ph.is_absolute:
-        k, unit = 1.0, "cd"
+        k, unit, unit_short = 1.0, "cd", "cd"
     else:
-        k, unit = 1000.0 / ph.rated_lumens_lm, "cd per 1000 lm (rated lamp flux)"
+        k, unit, unit_short = 1000.0 / ph.rated_lumens_lm, "cd per 1000 lm (rated lamp flux)", "cd/klm"
+    peak_cd, peak_c, peak_g = peak_intensity(ph)
+    peak = peak_cd * k
     fig = Figure(figsize=(6.0, 6.4), dpi=120)
-    FigureCanvasAgg(fig)
     ax = fig.add_subplot(projection="polar")
     ax.set_theta_zero_location("S")
     ax.set_theta_direction(1)
-    for (c_right, c_left), style, label in (((0.0, 180.0), "-", "C 0 – C 180"), ((90.0, 270.0), "--", "C 90 – C 270")):
+    drawn = 0.0
+    for (c_right, c_left), style, label in POLAR_PLANES:
         right = intensity_cd(ph, c_right, g) * k
         left = intensity_cd(ph, c_left, g) * k
         theta = np.radians(np.concatenate([-g[::-1], g]))
         r = np.concatenate([left[::-1], right])
+        drawn = max(drawn, float(np.max(r)))
         ax.plot(theta, r, style, lw=1.6, label=label)
+    outer, step = round_ring_above(max(peak, drawn))
     ax.set_thetagrids(range(0, 360, 30), labels=[f"{a if a <= 180 else 360 - a}°" for a in range(0, 360, 30)])
-    ax.set_ylim(bottom=0)
+    ax.set_rticks(np.arange(step, outer + 0.5 * step, step))
+    ax.set_ylim(0.0, outer)
     ax.set_rlabel_position(100)
-    ax.set_title(title or ph.name, pad=14)
-    ax.legend(loc="upper right", bbox_to_anchor=(1.12, 1.08), fontsize=8)
-    fig.text(0.5, 0.02, f"radius: {unit}; γ = 0° at the bottom (nadir)", ha="center", fontsize=8)
-    write_figure_png(fig, path)
-    return path
+    name = Path(ph.source).name
+    peak_text = f"peak {peak:.4g} {unit_short} at C {peak_c:g}°, γ {peak_g:g}°"
+    ax.set_title(title or f"{ph.name} ({name})\n{peak_text}", pad=14, fontsize=10)
+    ax.legend(loc="upper right", bbox_to_anchor=(1.12, 1.08), fontsize=8, title="plane", title_fontsize=8)
+    fig.text(0.5, 0.02, f"radius: {unit}; outer ring {outer:g}; γ = 0° at the bottom (nadir)", ha="center", fontsize=8)
+    alt = (
+        f"Polar intensity diagram of {name}: the C0–C180 plane (solid) and the C90–C270 plane "
+        f"(dashed), γ = 0° (straight down) at the bottom, C0 and C90 to the right; {peak_text}; "
+        f"outer ring {outer:g} {unit_short}."
+    )
+    return fig, alt
+
+
+def plot_polar(photometry: Photometry, path: str | os.PathLike, title: str | None = None) -> Path:
+    """Write the polar intensity diagram of :func:`polar_figure` as a PNG, atomically, with its
+    title and alt text in the PNG's ``Title`` and ``Description`` text chunks."""
+    fig, alt = polar_figure(photometry, title)
+    heading = fig.axes[0].get_title().replace("\n", "; ")
+    return write_figure_png(fig, Path(path), {"Title": heading, "Description": alt})
 
 
 def describe_photometry_file(
