@@ -43,9 +43,9 @@ def test_every_output_written(run):
         "after-adapted.png",
         "side-by-side.png",
         "wipe.gif",
-        "before-falsecolour.png",
-        "after-falsecolour.png",
-        "falsecolour-legend.png",
+        "luminance-before.png",
+        "luminance-after.png",
+        "luminance-legend.png",
     ):
         assert (view_dir / name).stat().st_size > 0, name
     assert (run.out_dir / "metrics.json").exists() and (run.out_dir / "report.html").exists()
@@ -220,3 +220,16 @@ def test_every_png_carries_provenance(run):
         text = Image.open(path).text
         assert text.get("Software", "").startswith("lampcast"), path
         assert text.get("lampcast.scene_sha256") == run.metrics.scene.sha256, path
+
+
+def test_luminance_maps_are_named_as_such(run):
+    # Issue 12, item 8: the pictures of luminance are "luminance maps" in file names, metrics keys
+    # and headings (plain wording for residents; common practice, no source).
+    files = [p.name for p in run.out_dir.rglob("*") if p.is_file()]
+    assert not [f for f in files if "falsecolour" in f or "false-colour" in f]
+    text = (run.out_dir / "metrics.json").read_text(encoding="utf-8") + (run.out_dir / "report.html").read_text(
+        encoding="utf-8"
+    )
+    assert "falsecolour" not in text and "false-colour" not in text.lower() and "false colour" not in text.lower()
+    assert "Luminance map" in (run.out_dir / "report.html").read_text(encoding="utf-8")
+    assert "luminance-before.png" in files

@@ -133,9 +133,9 @@ def make_inputs(
                 out_dir, f"{d}/side_by_side.png", np.concatenate([before_shared, after_shared], axis=1)
             ),
             "wipe": _write(out_dir, f"{d}/wipe.gif", wipe, duration=300, loop=0),
-            "falsecolour_before": _write(out_dir, f"{d}/falsecolour_before.png", _falsecolour(lum_b, 0.01, 10.0)),
-            "falsecolour_after": _write(out_dir, f"{d}/falsecolour_after.png", _falsecolour(lum_a, 0.01, 10.0)),
-            "falsecolour_legend": _write(out_dir, f"{d}/falsecolour_legend.png", _legend(height)),
+            "luminance_before": _write(out_dir, f"{d}/luminance_before.png", _falsecolour(lum_b, 0.01, 10.0)),
+            "luminance_after": _write(out_dir, f"{d}/luminance_after.png", _falsecolour(lum_a, 0.01, 10.0)),
+            "luminance_legend": _write(out_dir, f"{d}/luminance_legend.png", _legend(height)),
         }
         views.append(
             {

@@ -4,7 +4,7 @@ For each view the camera rays are cast once; the "before" setup is evaluated on 
 "after" setup re-lights the same buffers (re-evaluating the light at the kept hit points only if
 it changes a photometric distribution). Both are shown through the night-vision stage in
 ``shared`` exposure (one adaptation state: their true brightness relation), in ``adapted``
-exposure (each for an eye adapted to it) and as false-colour luminance with one shared legend.
+exposure (each for an eye adapted to it) and as luminance maps maps with one shared legend.
 
 Everything written is listed in ``metrics.json`` together with the figures the report shows:
 the typed records of :mod:`render.output.metrics` (:class:`~render.output.metrics.ComparisonMetrics`),
@@ -66,7 +66,7 @@ __all__ = [
     "SETUP_KEYS",
     "ComparisonResult",
     "colour_report_section",
-    "false_colour_pair",
+    "luminance_map_pair",
     "luminance_stats",
     "parse_setup",
     "run_comparison",
@@ -274,8 +274,8 @@ def summary_sentences(metrics: ComparisonMetrics) -> list[str]:
     return out
 
 
-def false_colour_pair(before: RenderedView, after: RenderedView) -> tuple[list[np.ndarray], np.ndarray]:
-    """False-colour luminance images (8-bit sRGB) of two views on one log scale, and the legend.
+def luminance_map_pair(before: RenderedView, after: RenderedView) -> tuple[list[np.ndarray], np.ndarray]:
+    """Luminance maps (8-bit sRGB) of two views on one log scale, and the legend.
 
     The scale is :func:`render.vision.falsecolour.shared_range_decades` (whole decades) on our
     own perceptually ordered ramp."""
@@ -453,7 +453,7 @@ def run_comparison(
             )
         camera = rb.camera
         shared, adapted = study.display_both([rb, ra], observer)
-        false, legend = false_colour_pair(rb, ra)
+        false, legend = luminance_map_pair(rb, ra)
         images = ViewImages.in_folder(vdir.name)
 
         def meta(r: RenderedView, mode: str) -> dict[str, str]:
@@ -467,8 +467,8 @@ def run_comparison(
         ):
             write_png(out / images.shared(key), sh.srgb8, sh.png_text(meta(r, "shared")))
             write_png(out / images.adapted(key), ad.srgb8, ad.png_text(meta(r, "adapted")))
-            write_png(out / images.falsecolour(key), fc, meta(r, "photometric"))
-        write_png(out / images.falsecolour_legend, legend, {**meta(rb, "photometric legend"), "lampcast.setup": pair})
+            write_png(out / images.luminance_map(key), fc, meta(r, "photometric"))
+        write_png(out / images.luminance_legend, legend, {**meta(rb, "photometric legend"), "lampcast.setup": pair})
         sbs = side_by_side(
             shared[0].srgb8, shared[1].srgb8, f"before: {setups.before.name}", f"after: {setups.after.name}"
         )

@@ -291,13 +291,13 @@ class ViewImages:
 
     before_shared: str
     before_adapted: str
-    falsecolour_before: str
+    luminance_before: str
     after_shared: str
     after_adapted: str
-    falsecolour_after: str
+    luminance_after: str
     side_by_side: str
     wipe: str
-    falsecolour_legend: str
+    luminance_legend: str
 
     @classmethod
     def in_folder(cls, folder: str) -> ViewImages:
@@ -305,13 +305,13 @@ class ViewImages:
         return cls(
             before_shared=f"{folder}/before.png",
             before_adapted=f"{folder}/before-adapted.png",
-            falsecolour_before=f"{folder}/before-falsecolour.png",
+            luminance_before=f"{folder}/luminance-before.png",
             after_shared=f"{folder}/after.png",
             after_adapted=f"{folder}/after-adapted.png",
-            falsecolour_after=f"{folder}/after-falsecolour.png",
+            luminance_after=f"{folder}/luminance-after.png",
             side_by_side=f"{folder}/side-by-side.png",
             wipe=f"{folder}/wipe.gif",
-            falsecolour_legend=f"{folder}/falsecolour-legend.png",
+            luminance_legend=f"{folder}/luminance-legend.png",
         )
 
     def shared(self, key: str) -> str:
@@ -322,9 +322,9 @@ class ViewImages:
         """The adapted-exposure image of setup ``key``."""
         return getattr(self, f"{key}_adapted")
 
-    def falsecolour(self, key: str) -> str:
-        """The false-colour luminance image of setup ``key``."""
-        return getattr(self, f"falsecolour_{key}")
+    def luminance_map(self, key: str) -> str:
+        """The luminance map of setup ``key``."""
+        return getattr(self, f"luminance_{key}")
 
     def to_json(self) -> dict[str, Any]:
         return _fields_json(self)

@@ -8,7 +8,7 @@
   not a compliance calculation);
 * the plain-language summary;
 * per view: a before/after slider (a range input moving a CSS clip of the "after" image over
-  the "before" image), a shared/adapted exposure switch, the false-colour luminance maps with
+  the "before" image), a shared/adapted exposure switch, the luminance maps with
   their legend, the side-by-side image, the wipe animation and a luminance table;
 * per lighting setup: its luminaire groups and the lamp figures (CCT, Duv, Ra, R9, CIE 224 Rf,
   TM-30 Rf/Rg, S/P, luminous efficacy of radiation, blue and notch-filterable fractions);

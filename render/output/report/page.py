@@ -206,9 +206,9 @@ class ViewPart:
     before_adapted: EmbeddedImage
     after_shared: EmbeddedImage
     after_adapted: EmbeddedImage
-    falsecolour_before: EmbeddedImage
-    falsecolour_after: EmbeddedImage
-    falsecolour_legend: EmbeddedImage
+    luminance_before: EmbeddedImage
+    luminance_after: EmbeddedImage
+    luminance_legend: EmbeddedImage
     side_by_side: EmbeddedImage
     wipe: EmbeddedImage
     luminance: Table
@@ -330,9 +330,9 @@ def _view_part(i: int, view: ViewMetrics, metrics: ComparisonMetrics, images: Im
         before_adapted=images.get(img.before_adapted),
         after_shared=images.get(img.after_shared),
         after_adapted=images.get(img.after_adapted),
-        falsecolour_before=images.get(img.falsecolour_before),
-        falsecolour_after=images.get(img.falsecolour_after),
-        falsecolour_legend=images.get(img.falsecolour_legend),
+        luminance_before=images.get(img.luminance_before),
+        luminance_after=images.get(img.luminance_after),
+        luminance_legend=images.get(img.luminance_legend),
         side_by_side=images.get(img.side_by_side),
         wipe=images.get(img.wipe),
         luminance=luminance,
