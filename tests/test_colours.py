@@ -551,3 +551,100 @@ def test_demo_street_before_lamp_confuses_a_pair_the_after_lamp_separates():
     after_de = result.setups["after"].delta_e00
     separated = [pair for pair in confused if after_de[names.index(pair[0])][names.index(pair[1])] >= 3.0]
     assert separated, (confused, after_de)
+
+
+# ---------------------------------------------------------------- the main surface (issue 12.3)
+
+_VAN_SCENE = """
+[scene]
+name = "one van"
+
+[street]
+length_m = 30.0
+carriageway_width_m = 6.0
+
+[[objects]]
+kind = "car"
+name = "orange van"
+inspect = true
+position_m = [12.0, 2.2]
+params = {{ body_style = "van" }}
+materials = {{ body = "object-orange", glass = "{glass}", tyre = "{tyre}" }}
+{extra}
+
+[[luminaire_rows]]
+spacing_m = 25.0
+count = 2
+start_m = 3.0
+mounting_height_m = 5.0
+lamp = "led-3000k-cie-b2"
+
+[[views]]
+name = "front"
+position_m = [24.0, 2.0]
+target_m = [12.0, 2.2, 1.0]
+resolution = [96, 54]
+
+[[views]]
+name = "side"
+position_m = [12.0, -3.0]
+target_m = [12.0, 2.2, 1.0]
+resolution = [96, 54]
+
+[render]
+samples_per_pixel = 1
+"""
+
+
+def _van_study(tmp_path, glass="glass-clear", tyre="rubber-black", extra=""):
+    from render.study import Study
+
+    path = tmp_path / f"van-{glass}-{tyre}-{len(extra)}.toml"
+    path.write_text(_VAN_SCENE.format(glass=glass, tyre=tyre, extra=extra), encoding="utf-8")
+    return Study(path)
+
+
+def _van_analysis(study, view):
+    from render.analysis.view_colours import analyse_view_colours
+
+    rendered = study.render_view(view, samples_per_pixel=1)
+    shown = study.display([rendered], "shared")
+    return analyse_view_colours(study, [rendered], shown, study.observer, ["night"])
+
+
+def test_object_colour_is_its_main_surface_whatever_the_view_and_the_glass(tmp_path):
+    # The daylight reference of a car is its body paint alone (CIE 15:2004 D65 CIELAB of the
+    # paint's reflectance, via reference_colour), in every view; glass and tyres neither change
+    # the daylight colour nor the colour seen at night (the same body pixels are averaged).
+    from render.colour.materials import material_library
+
+    paint = reference_colour(material_library()["object-orange"].reflectance)
+    plain = _van_study(tmp_path)
+    odd = _van_study(tmp_path, glass="object-blue", tyre="object-white")
+    for view in ("front", "side"):
+        a = _van_analysis(plain, view)
+        b = _van_analysis(odd, view)
+        day_a = a.daylight.objects["orange van"]
+        day_b = b.daylight.objects["orange van"]
+        assert np.allclose(day_a.lab, paint, atol=0.01), (view, day_a.lab, paint)
+        assert day_a == day_b
+        assert day_a.name == colour_name(paint)[0] == "orange"
+        seen_a = a.setups["night"].objects["orange van"]
+        seen_b = b.setups["night"].objects["orange van"]
+        assert seen_a.visible and seen_a.pixels == seen_b.pixels
+        assert seen_a.name == seen_b.name
+        assert delta_e_matrix(np.array([seen_a.lab, seen_b.lab]))[0, 1] < 1.0  # IMPERCEPTIBLE_DE00
+
+
+def test_colour_slot_in_the_scene_overrides_the_kind_main_surface(tmp_path):
+    # A scene may name another slot as the object's colour: the daylight reference is then that
+    # slot's material (CIE 15:2004 D65 CIELAB of object-blue); an unknown slot is an input error.
+    from render.colour.materials import material_library
+    from render.errors import InputError
+
+    study = _van_study(tmp_path, glass="object-blue", extra='colour_slot = "glass"')
+    a = _van_analysis(study, "side")
+    blue = reference_colour(material_library()["object-blue"].reflectance)
+    assert np.allclose(a.daylight.objects["orange van"].lab, blue, atol=0.01)
+    with pytest.raises(InputError, match="colour_slot"):
+        _van_study(tmp_path, extra='colour_slot = "bonnet"')

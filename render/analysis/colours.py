@@ -4,10 +4,13 @@ What is compared
 ----------------
 For every tagged object and every lighting setup, the analysis compares
 
-* its **colour as seen**: the mean over the object's visible pixels of the perceived colour the
-  night-vision stage computes, in the stage's adapted viewing condition (below), and
-* its **daylight reference**: the same reflectance under CIE illuminant D65 at a comfortable
-  photopic level, CIE 1931 2° observer, perfect diffuser Y = 100 (:func:`reference_colour`).
+* its **colour as seen**: the mean over the visible pixels of the object's main surface (a
+  car's body paint, a sign's face: :attr:`render.geometry.build.ObjectInfo.main_material`;
+  glass and tyres left out) of the perceived colour the night-vision stage computes, in the
+  stage's adapted viewing condition (below), and
+* its **daylight reference**: the main surface's reflectance under CIE illuminant D65 at a
+  comfortable photopic level, CIE 1931 2° observer, perfect diffuser Y = 100
+  (:func:`reference_colour`), computed once from the reflectance, not from a view.
 
 The adapted viewing condition (which step of the vision stage, and why)
 ----------------------------------------------------------------------
@@ -961,11 +964,11 @@ def method_notes(
     from render.analysis.naming import naming_model_notes
 
     return {
-        "colour_as_seen": "mean over the object's visible pixels of the vision stage's perceived XYZ "
+        "colour_as_seen": "mean over the visible pixels of the object's main surface of the vision stage's perceived XYZ "
         "(CIE 191 MES2 luminance, rod intrusion, glare, acuity), after its chromatic "
         "adaptation to the display white, relative to a perfect white diffuser under the "
         "setup's light (Y = 100); mean taken in XYZ, then CIELAB",
-        "daylight_reference": "same reflectance under CIE D65, CIE 1931 2 degree observer, perfect diffuser "
+        "daylight_reference": "the main surface's reflectance under CIE D65, CIE 1931 2 degree observer, perfect diffuser "
         "Y = 100, complete adaptation",
         "colour_difference": "CIEDE2000 (CIE 142-2001) on those CIELAB values",
         "thresholds": {

@@ -34,7 +34,13 @@ if TYPE_CHECKING:
     from render.vision.observer import ObserverSettings
     from render.vision.pipeline import DisplayResult
 
-__all__ = ["analyse_view_colours", "pixel_object_ids", "tagged_objects"]
+__all__ = [
+    "analyse_view_colours",
+    "main_material_indices",
+    "pixel_main_surface_ids",
+    "pixel_object_ids",
+    "tagged_objects",
+]
 
 
 def pixel_object_ids(buffers: LightBuffers) -> np.ndarray:
@@ -47,22 +53,45 @@ def pixel_object_ids(buffers: LightBuffers) -> np.ndarray:
     return out.reshape(buffers.height_px, buffers.width_px).astype(np.int32)
 
 
-def tagged_objects(study: Study, buffers: LightBuffers) -> list[TaggedObject]:
-    """The scene's objects flagged ``inspect``, each with the pixel-count weighted mixture of the
-    reflectances seen on it (a car: body paint, glass, tyres as they appear in the view)."""
+def main_material_indices(study: Study) -> np.ndarray:
+    """(n_objects,) index into the mesh's materials of each object's main surface
+    (:attr:`render.geometry.build.ObjectInfo.main_material`), -1 where it has none."""
+    names = list(study.mesh.material_names)
+    return np.array(
+        [names.index(o.main_material) if o.main_material in names else -1 for o in study.mesh.objects], dtype=np.int32
+    ).reshape(-1)
+
+
+def pixel_main_surface_ids(buffers: LightBuffers, main_material: np.ndarray) -> np.ndarray:
+    """(H, W) object index per pixel where every camera sample of the pixel sees the same
+    object's main surface (its material is ``main_material[object]``) and no luminous opening,
+    else -1: the pixels an object's colour as seen is taken from (glass, tyres, edges and mixed
+    pixels are left out)."""
+    ids = buffers.object_id.reshape(-1, buffers.spp)
+    mats = buffers.response.reshape(-1, buffers.spp)
+    main = np.asarray(main_material, dtype=np.int32)
+    sample_main = np.full(ids.shape, -2, dtype=np.int32)
+    known = (ids >= 0) & (ids < main.size)
+    sample_main[known] = main[ids[known]]
+    on_main = (mats == sample_main) & (sample_main >= 0)
+    whole = pixel_object_ids(buffers).reshape(-1)
+    out = np.where(on_main.all(axis=1), whole, -1)
+    return out.reshape(buffers.height_px, buffers.width_px).astype(np.int32)
+
+
+def tagged_objects(study: Study) -> list[TaggedObject]:
+    """The scene's objects flagged ``inspect``, each with the reflectance of its main surface
+    (a car's body paint, a sign's face; :attr:`~render.geometry.build.ObjectInfo.main_material`):
+    the daylight reference does not depend on the view. An object without a main surface gets
+    the surface-area weighted mixture of its materials."""
+    main = main_material_indices(study)
     objects = []
     for index, info in enumerate(study.mesh.objects):
         if not info.inspect:
             continue
-        sel = buffers.object_id == index
-        mats = buffers.response[sel]
-        mats = mats[(mats >= 0) & (mats < len(study.mesh.material_names))]
-        if mats.size:
-            ids, counts = np.unique(mats, return_counts=True)
-            refl = mixture_reflectance(study.reflectances[ids], counts)
+        if main[index] >= 0:
+            refl = np.asarray(study.reflectances[main[index]], dtype=np.float64)
         else:
-            # Not seen in this view (reported as not visible): its daylight reference is the
-            # surface-area weighted mixture of all its materials.
             tris = study.mesh.triangles_m[study.mesh.object_id == index]
             area = 0.5 * np.linalg.norm(np.cross(tris[:, 1] - tris[:, 0], tris[:, 2] - tris[:, 0]), axis=1)
             mat = study.mesh.material_id[study.mesh.object_id == index]
@@ -84,13 +113,18 @@ def analyse_view_colours(
     from render.vision.view import ViewGeometry
 
     labels = list(labels or [r.setup or "scene" for r in rendered])
-    object_id = pixel_object_ids(rendered[0].buffers)
-    objects = tagged_objects(study, rendered[0].buffers)
+    buffers = rendered[0].buffers
+    object_id = pixel_main_surface_ids(buffers, main_material_indices(study))
+    objects = tagged_objects(study)
+    # A tagged object's other surfaces (glass, tyres) are never its own or another's background.
+    tagged = np.array([o.id for o in objects], dtype=np.int32)
+    other_surfaces = np.isin(pixel_object_ids(buffers), tagged) & (object_id < 0)
     setups = {}
     for label, r, d in zip(labels, rendered, displays):
         pv = perceived_view(study.view_light(r), ViewGeometry.of(r.camera), observer, state=d.state)
         c = r.colorimetry
-        kwargs = {"exclude": c.luminaire_mask}
+        exclude = other_surfaces if c.luminaire_mask is None else (np.asarray(c.luminaire_mask, bool) | other_surfaces)
+        kwargs = {"exclude": exclude}
         if c.white_xyz is not None:
             kwargs.update(white_photopic_cd_m2=float(c.white_xyz[1]), white_scotopic_cd_m2=c.white_scotopic)
         setups[label] = SetupView.from_view(pv, object_id, **kwargs)

@@ -69,6 +69,10 @@ class ObjectInfo:
     kind: str
     inspect: bool
     where: str
+    #: Material of the object's main surface (its colour in the colour analysis): the
+    #: material of the kind's ``main_slot`` or the scene's ``colour_slot``; for free geometry
+    #: the material covering most of its area.
+    main_material: str | None = None
 
 
 def _quad(p0, p1, p2, p3) -> np.ndarray:
@@ -86,6 +90,11 @@ def _wall_y(x0, x1, y, z0, z1, facing: float) -> np.ndarray:
     if facing > 0:
         return _quad((x1, y, z0), (x0, y, z0), (x0, y, z1), (x1, y, z1))
     return _quad((x0, y, z0), (x1, y, z0), (x1, y, z1), (x0, y, z1))
+
+
+def _slot_material(materials: dict[str, str], slot: str) -> str:
+    """The material of ``slot``: the scene's entry, its ``*`` entry, or the default."""
+    return materials.get(slot) or materials.get("*") or DEFAULT_SLOT_MATERIALS.get(slot, DEFAULT_SLOT_MATERIALS["*"])
 
 
 class _Builder:
@@ -119,14 +128,21 @@ class _Builder:
         self.mat.append(np.full(triangles.shape[0], self.material_index(material), np.int32))
         self.obj.append(np.full(triangles.shape[0], obj, np.int32))
 
-    def add_parts(self, parts, materials: dict[str, str], obj: int) -> None:
+    def add_parts(self, parts, materials: dict[str, str], obj: int, main_slot: str | None = None) -> None:
+        """Add ``parts`` with their slots' materials; record the object's main material (that
+        of ``main_slot``, or without one the material covering most area)."""
+        area: dict[str, float] = {}
         for part in parts:
-            material = (
-                materials.get(part.slot)
-                or materials.get("*")
-                or DEFAULT_SLOT_MATERIALS.get(part.slot, DEFAULT_SLOT_MATERIALS["*"])
-            )
+            material = _slot_material(materials, part.slot)
             self.add(part.triangles_m, material, obj, part.normals)
+            t = np.asarray(part.triangles_m, dtype=np.float64).reshape(-1, 3, 3)
+            a = 0.5 * np.linalg.norm(np.cross(t[:, 1] - t[:, 0], t[:, 2] - t[:, 0]), axis=1).sum()
+            area[material] = area.get(material, 0.0) + float(a)
+        info = self.objects[obj]
+        if main_slot is not None:
+            info.main_material = _slot_material(materials, main_slot)
+        elif area and info.main_material is None:
+            info.main_material = max(sorted(area), key=lambda m: area[m])
 
     def mesh(self) -> TriangleMesh:
         if not self.tris:
@@ -204,8 +220,11 @@ def _frontage(b: _Builder, f: Frontage, street: Street | None, source: str) -> N
     # face the carriageway and stand them behind the building line.
     heading = -90.0 if f.side == "left" else 90.0
     width = f.length_m / f.units
+    from render.geometry.objects import OBJECT_BUILDERS
+
     obj = b.new_object(f.tag.name, f.kind + " frontage", f.tag.inspect, f.where)
     builder = shop_front if f.kind == "shop" else house_front
+    main_slot = OBJECT_BUILDERS["shop_front" if f.kind == "shop" else "house_front"].main_slot
     for k in range(f.units):
         x_mid = f.start_m + (k + 0.5) * width
         try:
@@ -213,7 +232,7 @@ def _frontage(b: _Builder, f: Frontage, street: Street | None, source: str) -> N
         except ValueError as err:
             raise input_error(source, f.where, f"cannot build the {f.kind} fronts: {err}") from None
         centre_y = building_y + sign * 0.5 * f.depth_m
-        b.add_parts(_placed(parts, (x_mid, centre_y, z), heading), f.materials, obj)
+        b.add_parts(_placed(parts, (x_mid, centre_y, z), heading), f.materials, obj, main_slot)
 
 
 def _object(b: _Builder, o: StreetObject, source: str) -> None:
@@ -226,7 +245,8 @@ def _object(b: _Builder, o: StreetObject, source: str) -> None:
         raise input_error(source, o.where + ".params", str(err)) from None
     parts = getattr(parts, "parts", parts)
     obj = b.new_object(o.tag.name, o.kind, o.tag.inspect, o.where)
-    b.add_parts(_placed(parts, o.position_m, o.heading_deg), o.materials, obj)
+    main_slot = o.tag.colour_slot or OBJECT_BUILDERS[o.kind].main_slot
+    b.add_parts(_placed(parts, o.position_m, o.heading_deg), o.materials, obj, main_slot)
 
 
 def _geometry(b: _Builder, o: StreetObject) -> None:
@@ -289,6 +309,7 @@ def _line_segments(points, dash: float, gap: float):
 
 def _marking(b: _Builder, m: Marking, street: Street | None) -> None:
     obj = b.new_object(m.tag.name, "marking", m.tag.inspect, m.where)
+    b.objects[obj].main_material = m.material
 
     def lift(y):
         return (street.ground_z(y) if street is not None else 0.0) + MARKING_LIFT_M

@@ -1323,10 +1323,15 @@ def shop_front(
 
 @dataclass(frozen=True)
 class ObjectKind:
-    """A registry entry: the builder and a one-line description."""
+    """A registry entry: the builder, a one-line description and the main surface.
+
+    ``main_slot`` is the slot whose material is the object's colour (a car's body paint, a
+    sign's face): the colour analysis names and compares that surface only.
+    """
 
     function: Builder[Any]
     doc: str
+    main_slot: str
 
     @property
     def params(self) -> tuple[ParamSpec, ...]:
@@ -1356,19 +1361,19 @@ class BuiltObject:
         )
 
 
-#: Object kinds of ``[[objects]]`` in scene files: kind name -> builder and description.
+#: Object kinds of ``[[objects]]`` in scene files: kind name -> builder, description, main surface slot.
 OBJECT_BUILDERS: dict[str, ObjectKind] = {
-    "wheelie_bin": ObjectKind(wheelie_bin, "wheeled waste container"),
-    "car": ObjectKind(car, "parked car or van"),
-    "tree": ObjectKind(tree, "street tree"),
-    "hedge": ObjectKind(hedge, "clipped hedge along local x"),
-    "bollard": ObjectKind(bollard, "round bollard with reflective band"),
-    "bus_shelter": ObjectKind(bus_shelter, "glazed bus shelter, open side +x"),
-    "sign": ObjectKind(sign, "post-mounted sign facing +x"),
-    "pedestrian": ObjectKind(pedestrian, "standing figure facing +x"),
-    "lamp_column": ObjectKind(lamp_column, "street-light column with bracket arm (arm along +x)"),
-    "house_front": ObjectKind(house_front, "house with facade on +x"),
-    "shop_front": ObjectKind(shop_front, "shop with fascia and large window on +x"),
+    "wheelie_bin": ObjectKind(wheelie_bin, "wheeled waste container", "body"),
+    "car": ObjectKind(car, "parked car or van", "body"),
+    "tree": ObjectKind(tree, "street tree", "canopy"),
+    "hedge": ObjectKind(hedge, "clipped hedge along local x", "foliage"),
+    "bollard": ObjectKind(bollard, "round bollard with reflective band", "post"),
+    "bus_shelter": ObjectKind(bus_shelter, "glazed bus shelter, open side +x", "frame"),
+    "sign": ObjectKind(sign, "post-mounted sign facing +x", "panel"),
+    "pedestrian": ObjectKind(pedestrian, "standing figure facing +x", "torso"),
+    "lamp_column": ObjectKind(lamp_column, "street-light column with bracket arm (arm along +x)", "pole"),
+    "house_front": ObjectKind(house_front, "house with facade on +x", "facade"),
+    "shop_front": ObjectKind(shop_front, "shop with fascia and large window on +x", "fascia"),
 }
 
 

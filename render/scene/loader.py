@@ -26,6 +26,7 @@ import os
 import re
 import stat
 import tomllib
+from dataclasses import replace
 from pathlib import Path
 
 from render import limits
@@ -156,6 +157,9 @@ OBJECT_SPEC = {
     "heading_deg": Field("float", default=0.0, unit=DEG),
     "params": Field("table", default={}),
     "materials": Field("table", default={}),
+    "colour_slot": Field(
+        "str", default=None, help="slot whose colour is the object's colour (default: the kind's main surface)"
+    ),
     **TAG_FIELDS,
 }
 
@@ -582,11 +586,18 @@ def _objects(entries: list, ctx: _Context, street: Street | None) -> list[Street
         for key, message in validate_params(kind, o["params"]):
             ctx.problems.add(f"{where}.params.{key}" if key else f"{where}.params", message)
         materials = _materials_table(o["materials"] or {}, f"{where}.materials", ctx, tuple(object_slots(kind)))
+        colour_slot = o["colour_slot"]
+        if colour_slot is not None and colour_slot not in object_slots(kind):
+            ctx.problems.add(
+                f"{where}.colour_slot",
+                f"{kind} has no slot {colour_slot!r}{did_you_mean(colour_slot, object_slots(kind))}; "
+                f"slots: {', '.join(object_slots(kind))}",
+            )
+            colour_slot = None
         if pos is None or o["heading_deg"] is None:
             continue
-        out.append(
-            StreetObject(kind, _tag(o, f"{kind} {i + 1}"), pos, o["heading_deg"], dict(o["params"]), materials, where)
-        )
+        tag = replace(_tag(o, f"{kind} {i + 1}"), colour_slot=colour_slot)
+        out.append(StreetObject(kind, tag, pos, o["heading_deg"], dict(o["params"]), materials, where))
     return out
 
 

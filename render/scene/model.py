@@ -95,11 +95,16 @@ class Street:
 
 @dataclass
 class Tag:
-    """Name and analysis flag of something in the scene ("the blue car", inspect = true)."""
+    """Name and analysis flag of something in the scene ("the blue car", inspect = true).
+
+    ``colour_slot``: the material slot whose colour is the object's colour in the colour
+    analysis; ``None`` for the kind's main surface (``ObjectKind.main_slot``).
+    """
 
     name: str
     inspect: bool = False
     notes: str = ""
+    colour_slot: str | None = None
 
 
 @dataclass
