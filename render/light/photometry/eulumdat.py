@@ -97,7 +97,6 @@ from __future__ import annotations
 
 import math
 import os
-import re
 from pathlib import Path
 
 import numpy as np
@@ -119,10 +118,10 @@ from render.limits import MAX_EULUMDAT_ANGLES, MAX_EULUMDAT_LAMP_SETS, check_cou
 
 __all__ = ["parse_eulumdat", "read_eulumdat"]
 
-_LINE_END = re.compile(r"\r\n|\r|\n")
 _SYMMETRY = {0: "none", 1: "rotational", 2: "bilateral-0-180", 3: "bilateral-90-270", 4: "quadrant"}
 _N_HEADER = 26  # lines 1..26 (26 = number of lamp sets)
 _N_DIRECT_RATIOS = 10
+_CHUNK = 65_536  # numeric lines converted per step (bounds the temporary list of strings)
 
 
 def read_eulumdat(path: str | os.PathLike, *, allowed_root: str | os.PathLike | None = None) -> Photometry:
@@ -148,26 +147,35 @@ def read_eulumdat(path: str | os.PathLike, *, allowed_root: str | os.PathLike | 
 
 
 class _Lines:
-    """The file's lines (numbered from 1), read one field at a time."""
+    """The file's lines (numbered from 1), read one field at a time.
+
+    The text is kept as UTF-8 bytes with line breaks (CR LF, CR, LF) made LF, indexed by the
+    positions of its line breaks (one integer per line, no Python object per line); a line is
+    decoded only when read, numeric lines in chunks."""
 
     def __init__(self, text: str, source: str):
-        lines = _LINE_END.split(text)
-        if lines and lines[-1] == "":
-            lines.pop()  # a final line break does not start another line
-        while lines and not lines[-1].strip():
-            lines.pop()  # trailing blank lines
-        self.lines = lines
+        data = text.replace("\r\n", "\n").replace("\r", "\n").encode("utf-8", "surrogatepass")
+        end = len(data.rstrip())  # trailing blank lines (and a final line break) start no line
+        self.data = data
+        self.breaks = np.flatnonzero(np.frombuffer(data, dtype=np.uint8) == 10)
+        self.n_lines = int(np.searchsorted(self.breaks, end)) + (1 if end > 0 else 0)
         self.source = source
         self.pos = 0
+
+    def _span(self, first: int, stop: int) -> str:
+        """Lines ``first`` .. ``stop - 1`` (0-based) as one text joined by LF."""
+        a = 0 if first == 0 else int(self.breaks[first - 1]) + 1
+        b = int(self.breaks[stop - 1]) if stop - 1 < self.breaks.size else len(self.data)
+        return self.data[a:b].decode("utf-8", "surrogatepass")
 
     def error(self, line: int, message: str):
         return input_error(self.source, f"line {line}", message)
 
     def text(self, what: str) -> tuple[str, int]:
-        if self.pos >= len(self.lines):
-            raise self.error(max(len(self.lines), 1), f"the file ends before the {what} (line {self.pos + 1})")
+        if self.pos >= self.n_lines:
+            raise self.error(max(self.n_lines, 1), f"the file ends before the {what} (line {self.pos + 1})")
         self.pos += 1
-        return self.lines[self.pos - 1].strip(), self.pos
+        return self._span(self.pos - 1, self.pos).strip(), self.pos
 
     def number(self, what: str) -> tuple[float, int]:
         raw, line = self.text(what)
@@ -192,22 +200,26 @@ class _Lines:
     def numbers(self, n: int, what: str) -> tuple[np.ndarray, int]:
         """The next ``n`` lines as finite floats, and the line number of the first."""
         first = self.pos
-        if first + n > len(self.lines):  # pragma: no cover - counts are checked before
-            raise self.error(len(self.lines), f"the file ends before the {what}")
-        chunk = [s.strip().replace(",", ".") for s in self.lines[first : first + n]]
-        try:
-            values = np.fromiter(map(float, chunk), dtype=np.float64, count=n)
-        except ValueError:
-            values = None
-        if values is None or not np.all(np.isfinite(values)):
-            for k in range(n):
-                if _to_float(self.lines[first + k].strip()) is None:
-                    raise self.error(
-                        first + k + 1,
-                        f"expected the {what} (value {k + 1} of {n}, one finite number on the line), "
-                        f"found {_shown(self.lines[first + k].strip())}",
-                    )
-            raise self.error(first + 1, f"expected the {what}, one finite number per line")  # pragma: no cover
+        if first + n > self.n_lines:  # pragma: no cover - counts are checked before
+            raise self.error(self.n_lines, f"the file ends before the {what}")
+        values = np.empty(n, dtype=np.float64)
+        for a in range(0, n, _CHUNK):
+            b = min(a + _CHUNK, n)
+            lines = self._span(first + a, first + b).split("\n")
+            try:
+                values[a:b] = np.fromiter((float(x.strip().replace(",", ".")) for x in lines), np.float64, b - a)
+                ok = bool(np.all(np.isfinite(values[a:b])))
+            except ValueError:
+                ok = False
+            if not ok:
+                for k, raw in enumerate(lines):
+                    if _to_float(raw.strip()) is None:
+                        raise self.error(
+                            first + a + k + 1,
+                            f"expected the {what} (value {a + k + 1} of {n}, one finite number on the line), "
+                            f"found {_shown(raw.strip())}",
+                        )
+                raise self.error(first + a + 1, f"expected the {what}, one finite number per line")  # pragma: no cover
         self.pos += n
         return values, first + 1
 
@@ -301,7 +313,7 @@ def parse_eulumdat(text: str, source: str = "<eulumdat text>") -> Photometry:
     else:
         stored = mc // 2 + 1
     needed = _N_HEADER + 6 * n_sets + _N_DIRECT_RATIOS + mc + ng + stored * ng
-    have = len(f.lines)
+    have = f.n_lines
     if needed > have:
         raise err(
             max(have, 1),
