@@ -389,22 +389,32 @@ def cmd_relight(args: argparse.Namespace) -> int:
 
 
 def cmd_colours(args: argparse.Namespace) -> int:
-    """Colour discrimination and naming of the tagged objects in one view, under each setup."""
-    from render.analysis.view_colours import analyse_view_colours
+    """Colour discrimination and naming of the tagged objects under each setup, each object in
+    the chosen view (--view, else the scene's [colour] view) or in the view showing it best."""
+    from collections import Counter
+
+    from render.analysis.view_colours import analyse_colours
     from render.output.colour_files import write_colour_json, write_colour_pictures
     from render.output.colour_text import format_name_table
     from render.study import Study
 
     study = Study(args.scene)
     observer = _observer_from_args(study, args)
-    view = study.scene.view(args.view)
+    chosen = args.view or study.scene.colour_view
+    views = [study.scene.view(chosen)] if chosen else list(study.scene.views)
     if not any(o.inspect for o in study.mesh.objects):
         raise input_error(args.scene, "", "no object has `inspect = true`: tag the objects to analyse")
     out = _out_dir(args.out, f"{Path(args.scene).stem}-colours")
-    setups, rendered = _render_setups(study, view, args.setups, args.spp, args.width, quiet=args.quiet)
+    renders = {}
+    for v in views:
+        setups, rendered = _render_setups(study, v, args.setups, args.spp, args.width, quiet=args.quiet)
+        renders[v.name] = (rendered, study.display(rendered, "shared", observer))
+    result = analyse_colours(study, renders, observer, [s.name for s in setups], chosen)
+    # The outlined picture shows the view most objects are analysed in.
+    used = Counter(o.view for o in result.objects)
+    view = study.scene.view(max(renders, key=lambda n: (used[n], -list(renders).index(n))))
+    rendered, displays = renders[view.name]
     first = rendered[0]
-    displays = study.display(rendered, "shared", observer)
-    result = analyse_view_colours(study, rendered, displays, observer, [s.name for s in setups])
     text = image_metadata(study, first, "colour analysis", observer, study.scene.render.seed, first.buffers.spp)
     text["lampcast.setup"] = "; ".join(s.name for s in setups)
     pictures = write_colour_pictures(
@@ -420,7 +430,8 @@ def cmd_colours(args: argparse.Namespace) -> int:
     if args.json:
         _print_json({"scene": str(args.scene), "view": view.name, "analysis": result, "files": written})
         return 0
-    print(f"Colour names in view '{view.name}' (daylight vs as seen):")
+    where = f"in view '{view.name}'" if chosen else "(each object in the view showing most of it)"
+    print(f"Colour names {where} (daylight vs as seen):")
     print(format_name_table(result.name_rows()))
     for s, seen in result.setups.items():
         pairs = seen.confusions
@@ -631,7 +642,13 @@ def build_parser() -> argparse.ArgumentParser:
         metavar="SETUP",
         help="setup to analyse (repeat; a scene setup, a lamp id or key=value items; default every setup in the scene)",
     )
-    p.add_argument("--view", help="view name (default: the scene's first view)")
+    p.add_argument(
+        "--view",
+        "--colour-view",
+        dest="view",
+        help="view to analyse every object in (default: the scene's [colour] view, else each object in the view "
+        "showing most of its main surface)",
+    )
     _observer_options(p)
     _run_options(p, "outputs/SCENE-colours")
     p.set_defaults(func=cmd_colours)

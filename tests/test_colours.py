@@ -648,3 +648,122 @@ def test_colour_slot_in_the_scene_overrides_the_kind_main_surface(tmp_path):
     assert np.allclose(a.daylight.objects["orange van"].lab, blue, atol=0.01)
     with pytest.raises(InputError, match="colour_slot"):
         _van_study(tmp_path, extra='colour_slot = "bonnet"')
+
+
+# ------------------------------------------------------------- the view of each object (issue 12.4)
+
+_TWO_OBJECTS_SCENE = """
+[scene]
+name = "a van and a bin far apart"
+
+[street]
+length_m = 60.0
+carriageway_width_m = 6.0
+
+[[objects]]
+kind = "car"
+name = "orange van"
+inspect = true
+position_m = [8.0, 2.2]
+params = {{ body_style = "van" }}
+materials = {{ body = "object-orange" }}
+
+[[objects]]
+kind = "wheelie_bin"
+name = "green bin"
+inspect = true
+position_m = [50.0, -4.0]
+materials = {{ body = "object-green" }}
+
+[[luminaire_rows]]
+spacing_m = 20.0
+count = 3
+start_m = 5.0
+mounting_height_m = 5.0
+lamp = "led-3000k-cie-b2"
+
+[[views]]
+name = "van"
+position_m = [16.0, 0.0]
+target_m = [8.0, 2.2, 1.0]
+resolution = [96, 54]
+
+[[views]]
+name = "bin"
+position_m = [44.0, -2.0]
+target_m = [50.0, -4.0, 0.5]
+resolution = [96, 54]
+{extra}
+[render]
+samples_per_pixel = 1
+
+[setups.night]
+lamp = "led-3000k-cie-b2"
+"""
+
+
+def _two_object_study(tmp_path, extra=""):
+    from render.study import Study
+
+    path = tmp_path / f"two-{len(extra)}.toml"
+    path.write_text(_TWO_OBJECTS_SCENE.format(extra=extra), encoding="utf-8")
+    return Study(path)
+
+
+def _rendered_views(study):
+    out = {}
+    for view in ("van", "bin"):
+        r = study.render_view(view, "night", samples_per_pixel=1)
+        out[view] = ([r], study.display([r], "shared"))
+    return out
+
+
+def test_each_object_is_analysed_in_the_view_showing_it_best(tmp_path):
+    # Two tagged objects that no single view shows together: both must be visible, each in its
+    # own view (common practice, no source: an object seen somewhere is never "not visible").
+    from render.analysis.view_colours import analyse_colours, main_surface_pixels
+
+    study = _two_object_study(tmp_path)
+    views = _rendered_views(study)
+    ids = {o.name: i for i, o in enumerate(study.mesh.objects)}
+    in_van = main_surface_pixels(study, views["van"][0][0])
+    in_bin = main_surface_pixels(study, views["bin"][0][0])
+    assert in_van[ids["orange van"]] > in_bin[ids["orange van"]]
+    assert in_bin[ids["green bin"]] > in_van[ids["green bin"]]
+    result = analyse_colours(study, views, study.observer, ["night"])
+    assert {o.name: o.view for o in result.objects} == {"orange van": "van", "green bin": "bin"}
+    seen = result.setups["night"].objects
+    assert seen["orange van"].visible and seen["green bin"].visible
+    assert [o["view"] for o in result.to_json()["objects"]] == ["van", "bin"]
+    # a chosen view analyses every object there (the bin is then not visible)
+    forced = analyse_colours(study, views, study.observer, ["night"], view="van")
+    assert {o.view for o in forced.objects} == {"van"}
+    assert not forced.setups["night"].objects["green bin"].visible
+
+
+def test_scene_colour_view_chooses_the_view_and_is_checked(tmp_path):
+    from render.analysis.view_colours import analyse_colours
+    from render.errors import InputError
+
+    study = _two_object_study(tmp_path, '\n[colour]\nview = "bin"\n')
+    assert study.scene.colour_view == "bin"
+    result = analyse_colours(study, _rendered_views(study), study.observer, ["night"])
+    assert {o.view for o in result.objects} == {"bin"}
+    with pytest.raises(InputError, match="colour.view"):
+        _two_object_study(tmp_path, '\n[colour]\nview = "bins"\n')
+
+
+def test_colours_command_colour_view(tmp_path, capsys):
+    # `lampcast colours --colour-view NAME` analyses every object in that view; without it the
+    # table names each object's own view (common practice, no source).
+    from render.cli import main
+
+    study = _two_object_study(tmp_path)
+    assert main(["colours", str(study.scene.path), "--out", str(tmp_path / "best"), "--quiet"]) == 0
+    best = json.loads(next((tmp_path / "best").glob("*-colours.json")).read_text(encoding="utf-8"))
+    assert [o["view"] for o in best["objects"]] == ["van", "bin"]
+    capsys.readouterr()
+    assert main(["colours", str(study.scene.path), "--colour-view", "bin", "--out", str(tmp_path / "bin")]) == 0
+    assert "in view 'bin'" in capsys.readouterr().out
+    forced = json.loads((tmp_path / "bin" / "bin-colours.json").read_text(encoding="utf-8"))
+    assert [o["view"] for o in forced["objects"]] == ["bin", "bin"]

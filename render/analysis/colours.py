@@ -697,13 +697,18 @@ class ColourThresholds:
 
 @dataclass(frozen=True)
 class AnalysedObject:
-    """One tagged object of the analysis: its id in the object-id image and its label."""
+    """One tagged object of the analysis: its id in the object-id image, its label and the
+    view it was analysed in (``None`` when the analysis had one unnamed view)."""
 
     id: int
     name: str
+    view: str | None = None
 
     def to_json(self) -> dict[str, Any]:
-        return {"id": self.id, "name": self.name}
+        out: dict[str, Any] = {"id": self.id, "name": self.name}
+        if self.view is not None:
+            out["view"] = self.view
+        return out
 
 
 @dataclass(frozen=True)
@@ -877,15 +882,17 @@ class ColourAnalysis:
         return {**notes, "naming_adaptation": self.naming_adaptation}
 
     def name_rows(self) -> list[dict[str, Any]]:
-        """The rows of :func:`render.output.colour_text.format_name_table`: per object its daylight
-        name, the name seen under each setup (``None``: not visible) and the setups under which
+        """The rows of :func:`render.output.colour_text.format_name_table`: per object the view
+        it was analysed in (``None``: the one view), its daylight name, the name seen under each setup (``None``: not visible) and the setups under which
         the name changes."""
         rows = []
-        for name in self.object_names:
+        for obj in self.objects:
+            name = obj.name
             seen = {label: s.objects[name] for label, s in self.setups.items()}
             rows.append(
                 {
                     "object": name,
+                    "view": obj.view,
                     "daylight": self.daylight.objects[name].name,
                     "setups": {label: c.name if c.visible else None for label, c in seen.items()},
                     "changed": [label for label, c in seen.items() if c.visible and c.name_changed],
@@ -986,10 +993,42 @@ def method_notes(
     }
 
 
+@dataclass(frozen=True)
+class _SeenIn:
+    """The per-view figures :func:`colour_analysis` takes an object's colour from."""
+
+    stats: dict[int, dict[str, Any]]
+    naming_stats: dict[int, dict[str, Any]]
+    lum: np.ndarray
+    lum_obj: dict[int, float | None]
+    oid: np.ndarray
+
+
+def _seen_in(sv: SetupView, ids: list[int], min_pixels: int, erode_px: int, naming_adaptation: str) -> _SeenIn:
+    """Colour statistics and luminances of the objects ``ids`` in one setup view."""
+    white = white_mesopic_cd_m2(sv.state, sv.white_photopic_cd_m2, sv.white_scotopic_cd_m2)
+    rel = relative_colour_image(sv.perceived_xyz_cd_m2, sv.state, sv.observer, white)
+    stats = object_colour_stats(rel, sv.object_id, ids, min_pixels, erode_px=erode_px)
+    if naming_adaptation == "discounted":
+        naming_stats = object_colour_stats(
+            discount_light_colour(rel, sv.state, sv.observer), sv.object_id, ids, min_pixels, erode_px=erode_px
+        )
+    else:
+        naming_stats = stats
+    lum = (
+        np.asarray(sv.perceived_xyz_cd_m2, dtype=np.float64)[..., 1]
+        if sv.luminance_cd_m2 is None
+        else np.asarray(sv.luminance_cd_m2, dtype=np.float64)
+    )
+    lum_obj = object_mean(lum, sv.object_id, ids, min_pixels, erode_px=erode_px)
+    return _SeenIn(stats, naming_stats, lum, lum_obj, np.asarray(sv.object_id))
+
+
 def colour_analysis(
     objects: Sequence[TaggedObject],
-    setups: Mapping[str, SetupView],
+    setups: Mapping[str, SetupView | Mapping[int, SetupView]],
     *,
+    object_views: Mapping[int, str] | None = None,
     min_pixels: int = MIN_PIXELS,
     erode_px: int = 0,
     hard: float = HARD_DE00,
@@ -1004,7 +1043,11 @@ def colour_analysis(
     objects
         The tagged objects (their order is the order of every matrix).
     setups
-        Setup label -> :class:`SetupView` (kept in the given order).
+        Setup label -> :class:`SetupView` (kept in the given order), or -> object id ->
+        :class:`SetupView` when each object is seen in its own view (the setup's adaptation
+        state and white are then those of the first object's view).
+    object_views
+        Object id -> name of the view it is analysed in (published with the objects).
     min_pixels, erode_px
         See :func:`object_colour_stats`.
     hard, imperceptible, distinct_in_daylight
@@ -1046,23 +1089,20 @@ def colour_analysis(
     )
 
     out_setups = {}
-    for label, sv in setups.items():
-        white = white_mesopic_cd_m2(sv.state, sv.white_photopic_cd_m2, sv.white_scotopic_cd_m2)
-        rel = relative_colour_image(sv.perceived_xyz_cd_m2, sv.state, sv.observer, white)
-        stats = object_colour_stats(rel, sv.object_id, ids, min_pixels, erode_px=erode_px)
-        if naming_adaptation == "discounted":
-            naming_stats = object_colour_stats(
-                discount_light_colour(rel, sv.state, sv.observer), sv.object_id, ids, min_pixels, erode_px=erode_px
-            )
-        else:
-            naming_stats = stats
-        lum = (
-            np.asarray(sv.perceived_xyz_cd_m2, dtype=np.float64)[..., 1]
-            if sv.luminance_cd_m2 is None
-            else np.asarray(sv.luminance_cd_m2, dtype=np.float64)
-        )
-        lum_obj = object_mean(lum, sv.object_id, ids, min_pixels, erode_px=erode_px)
-        oid = np.asarray(sv.object_id)
+    for label, given in setups.items():
+        per_object = {k: given for k in ids} if isinstance(given, SetupView) else {k: given[k] for k in ids}
+        first = given if isinstance(given, SetupView) else (per_object[ids[0]] if ids else None)
+        if first is None:
+            raise ValueError("a setup given per object needs at least one object")
+        seen_in: dict[int, _SeenIn] = {}
+        for sv in {id(v): v for v in per_object.values()}.values():
+            group = [k for k in ids if per_object[k] is sv]
+            seen_in[id(sv)] = _seen_in(sv, group, min_pixels, erode_px, naming_adaptation)
+        views_of = {k: seen_in[id(per_object[k])] for k in ids}
+        stats = {k: views_of[k].stats[k] for k in ids}
+        naming_stats = {k: views_of[k].naming_stats[k] for k in ids}
+        lum_obj = {k: views_of[k].lum_obj[k] for k in ids}
+        white = white_mesopic_cd_m2(first.state, first.white_photopic_cd_m2, first.white_scotopic_cd_m2)
         labs = (
             np.stack([stats[k]["lab"] if stats[k]["visible"] else np.full(3, np.nan) for k in ids])
             if ids
@@ -1074,6 +1114,7 @@ def colour_analysis(
         for i, o in enumerate(objects):
             st = stats[o.id]
             nm = colour_name_details(naming_stats[o.id]["lab"]) if st["visible"] else None
+            lum, oid, sv = views_of[o.id].lum, views_of[o.id].oid, per_object[o.id]
             if o.background is None:
                 bg_l, _ = ring_background(oid == o.id, lum, o.ring_px, sv.exclude)
                 bg_label = f"ring {o.ring_px:g} px"
@@ -1113,7 +1154,7 @@ def colour_analysis(
             for c in confusions(day_de, de, names, hard, imperceptible, distinct_in_daylight)
         )
         out_setups[label] = SetupColours(
-            state=sv.state,
+            state=first.state,
             white_mesopic_cd_m2=_sig(white),
             objects=per_obj,
             delta_e00=_matrix(de, ROUND_DE),
@@ -1124,7 +1165,7 @@ def colour_analysis(
     return ColourAnalysis(
         thresholds=ColourThresholds(imperceptible, hard, distinct_in_daylight),
         naming_adaptation=naming_adaptation,
-        objects=tuple(AnalysedObject(o.id, o.name) for o in objects),
+        objects=tuple(AnalysedObject(o.id, o.name, (object_views or {}).get(o.id)) for o in objects),
         daylight=daylight,
         setups=out_setups,
     )

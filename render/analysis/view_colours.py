@@ -14,7 +14,7 @@ and :mod:`render.analysis.naming`; this module only gathers their inputs.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -35,7 +35,10 @@ if TYPE_CHECKING:
     from render.vision.pipeline import DisplayResult
 
 __all__ = [
+    "analyse_colours",
     "analyse_view_colours",
+    "best_views",
+    "main_surface_pixels",
     "main_material_indices",
     "pixel_main_surface_ids",
     "pixel_object_ids",
@@ -101,6 +104,76 @@ def tagged_objects(study: Study) -> list[TaggedObject]:
     return objects
 
 
+def main_surface_pixels(study: Study, rendered: RenderedView) -> dict[int, int]:
+    """Tagged object id -> number of pixels showing only its main surface in ``rendered``."""
+    ids = pixel_main_surface_ids(rendered.buffers, main_material_indices(study))
+    counts = np.bincount(ids[ids >= 0].ravel(), minlength=len(study.mesh.objects))
+    return {i: int(counts[i]) for i, o in enumerate(study.mesh.objects) if o.inspect}
+
+
+def best_views(study: Study, views: Mapping[str, RenderedView], view: str | None = None) -> dict[int, str]:
+    """Tagged object id -> the view it is analysed in: ``view`` for every object when given,
+    else the view showing most pixels of the object's main surface (the first such view on a
+    tie, the first view when no view shows it)."""
+    names = list(views)
+    if not names:
+        raise ValueError("no views to choose from")
+    if view is not None:
+        if view not in views:
+            raise ValueError(f"view {view!r} is not among the rendered views {names}")
+        return {i: view for i, o in enumerate(study.mesh.objects) if o.inspect}
+    counts = {name: main_surface_pixels(study, r) for name, r in views.items()}
+    return {k: max(names, key=lambda n: (counts[n][k], -names.index(n))) for k in counts[names[0]]}
+
+
+def _setup_views(
+    study: Study,
+    rendered: Sequence[RenderedView],
+    displays: Sequence[DisplayResult],
+    observer: ObserverSettings,
+    tagged: np.ndarray,
+) -> list[SetupView]:
+    """One :class:`SetupView` per setup of one view: main-surface pixels as object ids, the
+    luminous openings and the tagged objects' other surfaces (glass, tyres) never background."""
+    from render.vision.view import ViewGeometry
+
+    buffers = rendered[0].buffers
+    object_id = pixel_main_surface_ids(buffers, main_material_indices(study))
+    other_surfaces = np.isin(pixel_object_ids(buffers), tagged) & (object_id < 0)
+    out = []
+    for r, d in zip(rendered, displays):
+        pv = perceived_view(study.view_light(r), ViewGeometry.of(r.camera), observer, state=d.state)
+        c = r.colorimetry
+        exclude = other_surfaces if c.luminaire_mask is None else (np.asarray(c.luminaire_mask, bool) | other_surfaces)
+        kwargs: dict = {"exclude": exclude}
+        if c.white_xyz is not None:
+            kwargs.update(white_photopic_cd_m2=float(c.white_xyz[1]), white_scotopic_cd_m2=c.white_scotopic)
+        out.append(SetupView.from_view(pv, object_id, **kwargs))
+    return out
+
+
+def analyse_colours(
+    study: Study,
+    views: Mapping[str, tuple[Sequence[RenderedView], Sequence[DisplayResult]]],
+    observer: ObserverSettings,
+    labels: Sequence[str],
+    view: str | None = None,
+) -> ColourAnalysis:
+    """The colour analysis of the tagged objects over several views, each view rendered under
+    the same setups (``labels``, in order): each object is analysed in ``view`` if given, else
+    in the scene's ``[colour] view``, else in the view showing most of its main surface
+    (:func:`best_views`). The record's objects name the view each was analysed in."""
+    scene_view = study.scene.colour_view
+    chosen = view if view is not None else (scene_view if scene_view in views else None)
+    where = best_views(study, {name: r[0] for name, (r, _) in views.items()}, chosen)
+    objects = tagged_objects(study)
+    tagged = np.array([o.id for o in objects], dtype=np.int32)
+    used = [name for name in views if name in where.values()]
+    per_view = {name: _setup_views(study, *views[name], observer, tagged) for name in used}
+    setups = {label: {o.id: per_view[where[o.id]][j] for o in objects} for j, label in enumerate(labels)}
+    return colour_analysis(objects, setups, object_views=where)
+
+
 def analyse_view_colours(
     study: Study,
     rendered: Sequence[RenderedView],
@@ -110,22 +183,8 @@ def analyse_view_colours(
 ) -> ColourAnalysis:
     """The colour analysis (:func:`render.analysis.colours.colour_analysis`) of one view
     rendered under several setups, using the adaptation state of each displayed image."""
-    from render.vision.view import ViewGeometry
-
     labels = list(labels or [r.setup or "scene" for r in rendered])
-    buffers = rendered[0].buffers
-    object_id = pixel_main_surface_ids(buffers, main_material_indices(study))
     objects = tagged_objects(study)
-    # A tagged object's other surfaces (glass, tyres) are never its own or another's background.
     tagged = np.array([o.id for o in objects], dtype=np.int32)
-    other_surfaces = np.isin(pixel_object_ids(buffers), tagged) & (object_id < 0)
-    setups = {}
-    for label, r, d in zip(labels, rendered, displays):
-        pv = perceived_view(study.view_light(r), ViewGeometry.of(r.camera), observer, state=d.state)
-        c = r.colorimetry
-        exclude = other_surfaces if c.luminaire_mask is None else (np.asarray(c.luminaire_mask, bool) | other_surfaces)
-        kwargs = {"exclude": exclude}
-        if c.white_xyz is not None:
-            kwargs.update(white_photopic_cd_m2=float(c.white_xyz[1]), white_scotopic_cd_m2=c.white_scotopic)
-        setups[label] = SetupView.from_view(pv, object_id, **kwargs)
+    setups = dict(zip(labels, _setup_views(study, rendered, displays, observer, tagged)))
     return colour_analysis(objects, setups)

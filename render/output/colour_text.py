@@ -19,13 +19,15 @@ __all__ = ["format_name_table"]
 
 
 def format_name_table(rows: Sequence[dict]) -> str:
-    """Plain-text "name it" table (object, daylight, one column per setup; changed names
+    """Plain-text "name it" table (object, the view it was analysed in when the rows name one,
+    daylight, one column per setup; changed names
     marked with *; '-' for not visible)."""
     setups = list(rows[0]["setups"]) if rows else []
-    header = ["object", "daylight"] + setups
+    with_view = any(r.get("view") is not None for r in rows)
+    header = ["object", *(["view"] if with_view else []), "daylight"] + setups
     body = []
     for r in rows:
-        cells = [r["object"], r["daylight"] or "-"]
+        cells = [r["object"], *([r.get("view") or "-"] if with_view else []), r["daylight"] or "-"]
         for s in setups:
             t = r["setups"][s]
             cells.append("-" if t is None else (t + " *" if s in r["changed"] else t))

@@ -82,6 +82,12 @@ TOP_LEVEL = {
     "observer": Field("table", default={}),
     "setups": Field("table", default={}),
     "gloss": Field("list", default=[]),
+    "colour": Field("table", default={}),
+}
+
+#: ``[colour]``: settings of the colour analysis.
+COLOUR_SPEC = {
+    "view": Field("str", default=None, help="view the colour analysis uses (default: each object's best view)"),
 }
 
 GLOSS_SPEC = {
@@ -1052,6 +1058,12 @@ def load_scene(path: str | os.PathLike, *, strict_paths: bool = False) -> Scene:
         except InputError as err:
             problems.extend(err)
     setups = _setups(top["setups"] or {}, ctx, luminaire_groups(luminaires))
+    colour = check_table(top["colour"] or {}, COLOUR_SPEC, "colour", problems)
+    if colour["view"] is not None and colour["view"] not in {v.name for v in views}:
+        problems.add(
+            "colour.view",
+            f"no view named {shown(colour['view'])}{did_you_mean(colour['view'], [v.name for v in views])}",
+        )
     gloss = _gloss(top["gloss"] or [], ctx, street)
     if top["street"] is None and not objects and not frontages:
         problems.add("", "the scene has no [street], [[objects]], [[geometry]] or [[frontages]]: nothing to render")
@@ -1078,6 +1090,7 @@ def load_scene(path: str | os.PathLike, *, strict_paths: bool = False) -> Scene:
         setups=setups,
         gloss=gloss,
         reference_root=ctx.reference_root,
+        colour_view=colour["view"],
     )
 
 

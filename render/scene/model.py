@@ -230,6 +230,8 @@ class Scene:
     #: With strict paths, the folder every referenced file must lie in (the scene's folder,
     #: symbolic links resolved); None when referenced files may lie anywhere.
     reference_root: Path | None = None
+    #: ``[colour] view``: the view the colour analysis uses; None: each object's best view.
+    colour_view: str | None = None
 
     @property
     def base_dir(self) -> Path:
