@@ -627,3 +627,33 @@ def test_sizes_below_a_millimetre(tmp_path, entry, where):
     small = text.replace("1e-300", "0.001").replace("5e-324", "0.001").replace("[1e-300, 0]", "[0.001, 0]")
     mesh = compile_scene(load_scene(write(tmp_path, small)))
     assert np.allclose(np.linalg.norm(mesh.normals, axis=-1), 1.0, rtol=0, atol=1e-9)
+
+
+@pytest.mark.parametrize("value", [HUGE_INT, '"high"', "-1.0"])
+def test_bad_street_value_does_not_break_the_rest_of_the_check(tmp_path, value):
+    # A street key with a problem used to leave None in the street, and placing a row or an
+    # [x, y] object on it raised TypeError (fuzz finding): the problem is reported, alone.
+    text = BASE.replace("carriageway_width_m = 6.0", f"carriageway_width_m = 6.0\nkerb_height_m = {value}")
+    text += ROW + "spacing_m = 10.0\ncount = 2\n"
+    text += '\n[[objects]]\nkind = "bollard"\nposition_m = [5.0, 4.0]\n'
+    with pytest.raises(InputError) as info:
+        load_scene(write(tmp_path, text))
+    assert [p.where for p in info.value.problems] == ["street.kerb_height_m"]
+    # With a bad carriageway width the rows are not placed, and not blamed on a missing street.
+    text = (
+        BASE.replace("carriageway_width_m = 6.0", f"carriageway_width_m = {value}")
+        + ROW
+        + "spacing_m = 10.0\ncount = 2\n"
+    )
+    with pytest.raises(InputError) as info:
+        load_scene(write(tmp_path, text))
+    assert [p.where for p in info.value.problems] == ["street.carriageway_width_m"]
+
+
+def test_flush_kerb_has_no_zero_area_face(tmp_path):
+    # kerb_height_m = 0 (or -0.0) is allowed; the kerb face had zero area and zero normals (fuzz
+    # finding). Unit normals: the mesh contract (render/geometry/mesh.py).
+    for value in ("0.0", "-0.0"):
+        text = BASE.replace("carriageway_width_m = 6.0", f"carriageway_width_m = 6.0\nkerb_height_m = {value}")
+        mesh = compile_scene(load_scene(write(tmp_path, text)))
+        assert np.allclose(np.linalg.norm(mesh.normals, axis=-1), 1.0, rtol=0, atol=1e-9)

@@ -171,7 +171,8 @@ def _street(b: _Builder, street: Street) -> None:
         sign = 1.0 if side == "left" else -1.0
         s = street.side(side)
         kerb = b.new_object(f"kerb {side}", "street")
-        b.add(_wall_y(0.0, L, sign * half, 0.0, kh, -sign), street.kerb_material, kerb)
+        if kh > 0:  # no kerb face for a flush kerb (it would have zero area)
+            b.add(_wall_y(0.0, L, sign * half, 0.0, kh, -sign), street.kerb_material, kerb)
         y = half
         bands = [
             (street.kerb_width_m, street.kerb_material, kerb, None),

@@ -515,11 +515,25 @@ def _materials_table(value: dict, where: str, ctx: _Context, slots: tuple[str, .
     return out
 
 
+def _defaults_after_problems(checked: dict, spec: dict[str, Field]) -> dict:
+    """``checked`` with each value that had a problem (None) replaced by its key's default, so
+    that the rest of the scene is checked against a complete street; the problem itself is
+    reported all the same."""
+    return {
+        k: (spec[k].default if v is None and not spec[k].required and spec[k].default is not None else v)
+        for k, v in checked.items()
+    }
+
+
 def _street(table: dict, ctx: _Context) -> Street | None:
-    s = check_table(table, STREET_SPEC, "street", ctx.problems)
+    """The street, or None when its length or carriageway width has a problem."""
+    s = _defaults_after_problems(check_table(table, STREET_SPEC, "street", ctx.problems), STREET_SPEC)
     sides = {}
     for side in ("left", "right"):
-        t = check_table(s["left" if side == "left" else "right"] or {}, SIDE_SPEC, f"street.{side}", ctx.problems)
+        t = _defaults_after_problems(
+            check_table(s["left" if side == "left" else "right"] or {}, SIDE_SPEC, f"street.{side}", ctx.problems),
+            SIDE_SPEC,
+        )
         for key in ("footway_material", "verge_material", "frontage_material"):
             if t[key] is None:
                 t[key] = s[key]
@@ -762,7 +776,9 @@ def _light_refs(checked: dict, where: str, ctx: _Context) -> None:
     ctx.photometry(checked["photometry"], f"{where}.photometry")
 
 
-def _luminaires(singles: list, rows: list, ctx: _Context, street: Street | None) -> list[Luminaire]:
+def _luminaires(singles: list, rows: list, ctx: _Context, street: Street | None, street_given: bool) -> list[Luminaire]:
+    """Single luminaires and the positions of rows (placed on the street: with a [street]
+    table whose length or width has a problem, rows are not placed)."""
     out: list[Luminaire] = []
     if len(singles) > MAX_GENERATED_LUMINAIRES:
         ctx.problems.add(
@@ -797,7 +813,8 @@ def _luminaires(singles: list, rows: list, ctx: _Context, street: Street | None)
             ctx.problems.add(f"{where}.end_m", "give either `count` or `end_m`, not both")
             continue
         if street is None:
-            ctx.problems.add(where, "luminaire rows are placed relative to the street: add a [street] table")
+            if not street_given:
+                ctx.problems.add(where, "luminaire rows are placed relative to the street: add a [street] table")
             continue
         if any(
             r[k] is None
@@ -1044,7 +1061,9 @@ def load_scene(path: str | os.PathLike, *, strict_paths: bool = False) -> Scene:
     frontages = _frontages(top["frontages"] or [], ctx)
     objects = _objects(top["objects"] or [], ctx, street) + _geometry(top["geometry"] or [], ctx)
     markings = _markings(top["markings"] or [], ctx)
-    luminaires = _luminaires(top["luminaires"] or [], top["luminaire_rows"] or [], ctx, street)
+    luminaires = _luminaires(
+        top["luminaires"] or [], top["luminaire_rows"] or [], ctx, street, top["street"] is not None
+    )
     render = check_table(top["render"] or {}, RENDER_SPEC, "render", problems)
     views = _views(top["views"] or [], ctx, street, render["samples_per_pixel"])
     if not (top["views"] or []):
