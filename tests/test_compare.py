@@ -36,15 +36,16 @@ def run(tmp_path_factory):
 
 def test_every_output_written(run):
     view_dir = next(p for p in run.out_dir.iterdir() if p.is_dir())
+    option = run.metrics.options[0]
     for name in (
-        "before.png",
-        "after.png",
-        "before-adapted.png",
-        "after-adapted.png",
-        "side-by-side.png",
-        "wipe.gif",
+        "shared-before.png",
+        f"shared-{option}.png",
+        "adapted-before.png",
+        f"adapted-{option}.png",
+        f"side-by-side-{option}.png",
+        f"wipe-{option}.gif",
         "luminance-before.png",
-        "luminance-after.png",
+        f"luminance-{option}.png",
         "luminance-legend.png",
     ):
         assert (view_dir / name).stat().st_size > 0, name
@@ -55,7 +56,7 @@ def test_png_metadata_traces_the_run(run):
     from PIL import Image
 
     view_dir = next(p for p in run.out_dir.iterdir() if p.is_dir())
-    text = Image.open(view_dir / "before.png").text
+    text = Image.open(view_dir / "shared-before.png").text
     assert text["lampcast.mode"] == "shared" and text["lampcast.setup"] == "old"
     assert text["lampcast.view"] == "<svg onload=alert(2)>"
     assert text["lampcast.scene_sha256"] == run.metrics.scene.sha256
@@ -233,3 +234,66 @@ def test_luminance_maps_are_named_as_such(run):
     assert "falsecolour" not in text and "false-colour" not in text.lower() and "false colour" not in text.lower()
     assert "Luminance map" in (run.out_dir / "report.html").read_text(encoding="utf-8")
     assert "luminance-before.png" in files
+
+
+def test_several_options_in_one_report(tmp_path, monkeypatch):
+    # Issue 12, "choices, not just a pair": one before and several options in one run. The
+    # camera rays are cast once per view (every option relights the same buffers), metrics.json
+    # holds every option, the report lets the reader pick which two to show and has one column
+    # per lighting in the luminance table. Common practice, no source.
+    from render.output.metrics import ComparisonMetrics
+    from render.study import Study
+
+    study = Study(SCENES / "markup_names.toml")
+    casts = []
+    render_view = study.render_view
+    monkeypatch.setattr(study, "render_view", lambda *a, **k: casts.append(a[0]) or render_view(*a, **k))
+    options = ["new <u>LED</u>", "led-3000k-cie-b2", "led-3000k-cie-b2"]
+    result = run_comparison(study, "old", options, None, tmp_path, progress=False, colour=False)
+    views = [v.name for v in study.scene.views]
+    assert casts == views
+    m = result.metrics
+    assert list(m.setups)[0] == "before" and len(m.options) == 3
+    assert len(set(m.options)) == 3  # the same option twice gets its own key and files
+    assert [m.setups[k].name for k in m.options] == options
+    stored = json.loads((tmp_path / "metrics.json").read_text(encoding="utf-8"))
+    assert list(stored["setups"]) == ["before", *m.options]
+    assert ComparisonMetrics.from_json(stored) == m
+    for v in m.views:
+        assert set(v.luminance_cd_m2) == {"before", *m.options}
+        for path in v.images.files():
+            assert (tmp_path / path).is_file(), path
+        assert len(set(v.images.files())) == len(v.images.files())
+    page = (tmp_path / "report.html").read_text(encoding="utf-8")
+    assert page.count('class="pick-right"') == len(views)
+    right = re.search(r'<select id="right-0" class="pick-right">(.*?)</select>', page).group(1)
+    assert right.count("<option") == 4
+    head = re.search(r'<table class="figures" id="luminance-0".*?</thead>', page, re.S).group(0)
+    assert head.count("<th ") == 5  # the statistic, then one column per lighting
+    assert len(set(re.findall(r'<th scope="col" class="num">(.*?)</th>', head))) == 4  # each told apart
+    for key in m.options:
+        assert f'data-metric="views.0.luminance_cd_m2.{key}.mean"' in page
+
+
+def test_second_after_flag_adds_an_option(tmp_path):
+    # Issue 12: a second --after used to replace the first silently.
+    out = tmp_path / "cli"
+    code = main(
+        [
+            "compare",
+            str(SCENES / "markup_names.toml"),
+            "--before",
+            "old",
+            "--after",
+            "new <u>LED</u>",
+            "--after",
+            "led-3000k-cie-b2",
+            "--out",
+            str(out),
+            "--no-report",
+            "--quiet",
+        ]
+    )
+    assert code == 0
+    stored = json.loads((out / "metrics.json").read_text(encoding="utf-8"))
+    assert [s["name"] for s in stored["setups"].values()] == ["old", "new <u>LED</u>", "led-3000k-cie-b2"]

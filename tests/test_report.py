@@ -96,6 +96,11 @@ def green_line_lamp(tmp_path: Path) -> dict:
     return json.loads(json.dumps(lamp_figures(load_lamp_file(path)).to_json()))
 
 
+def image_paths(images: dict) -> list[str]:
+    """Every image path of a view's ``images`` object in metrics.json."""
+    return [p for v in images.values() for p in (v.values() if isinstance(v, dict) else [v])]
+
+
 def write_report_of(out_dir: Path, metrics: dict) -> Path:
     """The report of a metrics dict as metrics.json holds it (read back into the typed records)."""
     return write_report(out_dir, ComparisonMetrics.from_json(metrics))
@@ -125,16 +130,22 @@ def make_inputs(
             [np.where(np.arange(width)[None, :, None] < k * width // 4, after_shared, before_shared) for k in range(5)]
         )
         images = {
-            "before_shared": _write(out_dir, f"{d}/before_shared.png", before_shared),
-            "after_shared": _write(out_dir, f"{d}/after_shared.png", after_shared),
-            "before_adapted": _write(out_dir, f"{d}/before_adapted.png", before_adapted),
-            "after_adapted": _write(out_dir, f"{d}/after_adapted.png", after_adapted),
-            "side_by_side": _write(
-                out_dir, f"{d}/side_by_side.png", np.concatenate([before_shared, after_shared], axis=1)
-            ),
-            "wipe": _write(out_dir, f"{d}/wipe.gif", wipe, duration=300, loop=0),
-            "luminance_before": _write(out_dir, f"{d}/luminance_before.png", _falsecolour(lum_b, 0.01, 10.0)),
-            "luminance_after": _write(out_dir, f"{d}/luminance_after.png", _falsecolour(lum_a, 0.01, 10.0)),
+            "shared": {
+                "before": _write(out_dir, f"{d}/before_shared.png", before_shared),
+                "after": _write(out_dir, f"{d}/after_shared.png", after_shared),
+            },
+            "adapted": {
+                "before": _write(out_dir, f"{d}/before_adapted.png", before_adapted),
+                "after": _write(out_dir, f"{d}/after_adapted.png", after_adapted),
+            },
+            "luminance": {
+                "before": _write(out_dir, f"{d}/luminance_before.png", _falsecolour(lum_b, 0.01, 10.0)),
+                "after": _write(out_dir, f"{d}/luminance_after.png", _falsecolour(lum_a, 0.01, 10.0)),
+            },
+            "side_by_side": {
+                "after": _write(out_dir, f"{d}/side_by_side.png", np.concatenate([before_shared, after_shared], axis=1))
+            },
+            "wipe": {"after": _write(out_dir, f"{d}/wipe.gif", wipe, duration=300, loop=0)},
             "luminance_legend": _write(out_dir, f"{d}/luminance_legend.png", _legend(height)),
         }
         views.append(
@@ -208,7 +219,7 @@ def make_inputs(
                         "rows": [["red car", 12.3456, 40], ["green bin", 3.14159, 12], ["kerb", None, 0]],
                     }
                 ],
-                "images": [views[0]["images"]["side_by_side"]],
+                "images": [views[0]["images"]["side_by_side"]["after"]],
             }
         ],
     }
@@ -496,9 +507,13 @@ def test_controls_are_labelled_and_images_have_alt_text(report):
         assert labels.get(control.attrs["id"], "").strip(), control.attrs
     for img in (n for n in nodes if n.tag == "img"):
         assert img.attrs.get("alt", "").strip()
-    # Every image of every view is in the page, each embedded once per use.
+    # Every image of every view is in the page, each embedded once per use: per view every
+    # setup's shared and adapted image (left of the divide), the right-hand pair, a luminance
+    # map per setup, the legend, and per option a side-by-side image and a wipe.
     imgs = [n for n in nodes if n.tag == "img"]
-    assert len(imgs) == len(metrics["views"]) * 9 + len(metrics["extra_sections"][0]["images"])
+    n_setups = len(metrics["setups"])
+    per_view = 2 * n_setups + 2 + n_setups + 1 + 2 * (n_setups - 1)
+    assert len(imgs) == len(metrics["views"]) * per_view + len(metrics["extra_sections"][0]["images"])
     # Slider labels name the setups.
     tags = [n.text() for n in nodes if n.tag == "span" and "tag" in n.attrs.get("class", "").split()]
     assert tags.count(f"before: {metrics['setups']['before']['name']}") == len(metrics["views"])
@@ -520,7 +535,7 @@ def test_cautions_and_footer(report):
 def test_embedded_images_are_the_files(report):
     out, metrics, _, text = report
     srcs = {n.attrs["src"] for n in parse(text).root.iter() if n.tag == "img"}
-    for rel in metrics["views"][0]["images"].values():
+    for rel in image_paths(metrics["views"][0]["images"]):
         data = (out / rel).read_bytes()
         mime = "image/gif" if rel.endswith(".gif") else "image/png"
         assert f"data:{mime};base64,{base64.b64encode(data).decode('ascii')}" in srcs
@@ -528,8 +543,8 @@ def test_embedded_images_are_the_files(report):
 
 def test_missing_image_is_an_error_and_leaves_no_report(tmp_path):
     metrics = make_inputs(tmp_path, view_names=("kerbside",))
-    (tmp_path / metrics["views"][0]["images"]["wipe"]).unlink()
-    metrics["views"][0]["images"]["side_by_side"] = "../outside.png"
+    (tmp_path / metrics["views"][0]["images"]["wipe"]["after"]).unlink()
+    metrics["views"][0]["images"]["side_by_side"]["after"] = "../outside.png"
     with pytest.raises(ValueError) as info:
         write_report_of(tmp_path, metrics)
     assert "wipe.gif" in str(info.value) and "outside.png" in str(info.value)

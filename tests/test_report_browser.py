@@ -125,10 +125,11 @@ def test_report_in_headless_chromium(served_report, tmp_path):
             atomic_write_bytes(keep / name, png)
         return png
 
+    view_images = metrics["views"][0]["images"]
     images = {
-        k: iio.imread(source / v)[..., :3].astype(np.int16)
-        for k, v in metrics["views"][0]["images"].items()
-        if v.endswith(".png")
+        f"{key}_{mode}": iio.imread(source / view_images[mode][key])[..., :3].astype(np.int16)
+        for mode in ("shared", "adapted")
+        for key in ("before", "after")
     }
     left, right = slice(10, WIDTH // 2 - 10), slice(WIDTH // 2 + 10, WIDTH - 10)
 
@@ -144,7 +145,9 @@ def test_report_in_headless_chromium(served_report, tmp_path):
             page.goto(url, wait_until="load")
             # Every embedded image decodes (a broken data URI would give naturalWidth 0).
             assert page.evaluate("Array.from(document.images).every(i => i.complete && i.naturalWidth > 0)")
-            assert page.evaluate("document.images.length") == len(metrics["views"]) * 9 + 1
+            # Per view: before and after in both exposures left of the divide, the right-hand
+            # pair, two luminance maps and their legend, one side-by-side image and one wipe.
+            assert page.evaluate("document.images.length") == len(metrics["views"]) * 11 + 1
             save("report_full_page.png", page.screenshot(full_page=True))
 
             stage = page.locator("#stage-0")
@@ -196,8 +199,8 @@ def test_report_in_headless_chromium(served_report, tmp_path):
             assert _matches(adapted, images["before_adapted"], left) and _matches(
                 adapted, images["after_adapted"], right
             )
-            assert page.locator("#stage-0 img.before.adapted").is_visible()
-            assert not page.locator("#stage-0 img.before.shared").is_visible()
+            assert page.locator('#stage-0 img.left.adapted[data-setup="before"]').is_visible()
+            assert not page.locator('#stage-0 img.left.shared[data-setup="before"]').is_visible()
             save("view_0_section.png", page.locator("#view-0").screenshot())
             save("lamps_section.png", page.locator("#lamps").screenshot())
             page.keyboard.press("ArrowLeft")
@@ -222,3 +225,59 @@ def test_report_in_headless_chromium(served_report, tmp_path):
     assert seen == ["/report.html"], seen  # the server saw the page and nothing else
     for name in ("report_full_page.png", "slider_50_shared.png", "slider_0_shared.png", "slider_50_adapted.png"):
         assert (shots_dir / name).stat().st_size > 0
+
+
+def test_choosing_the_two_lightings_shown(tmp_path):
+    # Issue 12, "choices, not just a pair": with a third lighting the reader picks which two the
+    # slider shows (before and any option, or two options); pixels left and right of the divide
+    # must then be those of the chosen image files (same tolerance as above).
+    _require_browser()
+    from playwright.sync_api import sync_playwright
+    from test_report import _street_image, _write
+
+    source = tmp_path / "out"
+    metrics = make_inputs(source, view_names=("kerbside",), width=WIDTH, height=HEIGHT)
+    view = metrics["views"][0]
+    third = {
+        "shared": _street_image(WIDTH, HEIGHT, False, 0.4, 77),
+        "adapted": _street_image(WIDTH, HEIGHT, True, 0.5, 78),
+    }
+    for mode in ("shared", "adapted", "luminance"):
+        pixels = third.get(mode, third["shared"])
+        view["images"][mode]["dim"] = _write(source, f"views/v0/{mode}_dim.png", pixels)
+    view["images"]["side_by_side"]["dim"] = view["images"]["side_by_side"]["after"]
+    view["images"]["wipe"]["dim"] = view["images"]["wipe"]["after"]
+    view["luminance_cd_m2"]["dim"] = view["luminance_cd_m2"]["after"]
+    view["adaptation_cd_m2"]["dim"] = view["adaptation_cd_m2"]["after"]
+    metrics["setups"]["dim"] = {**metrics["setups"]["after"], "name": "warm LED at half output"}
+    report = write_report_of(source, metrics)
+    files = {
+        (key, mode): iio.imread(source / view["images"][mode][key])[..., :3].astype(np.int16)
+        for key in ("before", "after", "dim")
+        for mode in ("shared", "adapted")
+    }
+    left, right = slice(10, WIDTH // 2 - 10), slice(WIDTH // 2 + 10, WIDTH - 10)
+    errors = []
+    with sync_playwright() as p:
+        browser = p.chromium.launch(executable_path=str(CHROMIUM), headless=True, args=CHROMIUM_ARGS)
+        try:
+            page = browser.new_page(viewport={"width": 1280, "height": 900}, device_scale_factor=1)
+            page.on("pageerror", lambda e: errors.append(str(e)))
+            page.goto(report.as_uri(), wait_until="load")
+            stage = page.locator("#stage-0")
+            shot = _pixels(stage.screenshot())
+            assert _matches(shot, files["before", "shared"], left) and _matches(shot, files["after", "shared"], right)
+            page.select_option("#right-0", "dim")
+            shot = _pixels(stage.screenshot())
+            assert _matches(shot, files["before", "shared"], left) and _matches(shot, files["dim", "shared"], right)
+            assert page.locator("#stage-0 .tag-after").text_content() == "option: warm LED at half output"
+            page.select_option("#left-0", "after")
+            shot = _pixels(stage.screenshot())
+            assert _matches(shot, files["after", "shared"], left) and _matches(shot, files["dim", "shared"], right)
+            assert not _matches(shot, files["before", "shared"], left)
+            page.locator("#exposure-0-adapted").check()
+            shot = _pixels(stage.screenshot())
+            assert _matches(shot, files["after", "adapted"], left) and _matches(shot, files["dim", "adapted"], right)
+        finally:
+            browser.close()
+    assert not errors, errors

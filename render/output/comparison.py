@@ -1,10 +1,11 @@
-"""Before and after: the comparison run behind ``lampcast compare`` and ``lampcast demo``.
+"""Before and options: the comparison run behind ``lampcast compare`` and ``lampcast demo``.
 
-For each view the camera rays are cast once; the "before" setup is evaluated on them and the
-"after" setup re-lights the same buffers (re-evaluating the light at the kept hit points only if
-it changes a photometric distribution). Both are shown through the night-vision stage in
-``shared`` exposure (one adaptation state: their true brightness relation), in ``adapted``
-exposure (each for an eye adapted to it) and as luminance maps maps with one shared legend.
+For each view the camera rays are cast once; the "before" setup is evaluated on them and every
+option (an "after" setup; one or several) re-lights the same buffers (re-evaluating the light
+at the kept hit points only if it changes a photometric distribution). All are shown through
+the night-vision stage in ``shared`` exposure (one adaptation state: their true brightness
+relation), in ``adapted`` exposure (each for an eye adapted to it) and as luminance maps with
+one shared legend.
 
 Everything written is listed in ``metrics.json`` together with the figures the report shows:
 the typed records of :mod:`render.output.metrics` (:class:`~render.output.metrics.ComparisonMetrics`),
@@ -35,8 +36,9 @@ from render.analysis.colours import ColourAnalysis, Confusion
 from render.errors import did_you_mean, input_error
 from render.fileio import atomic_path, atomic_write_text, file_stem
 from render.output.metrics import (
+    BEFORE,
+    RESERVED_KEYS,
     AdaptationLevels,
-    BeforeAfter,
     ColourSummary,
     ComparisonMetrics,
     GroupLighting,
@@ -71,7 +73,9 @@ __all__ = [
     "parse_setup",
     "run_comparison",
     "setup_description",
+    "setup_keys",
     "side_by_side",
+    "unique_stems",
     "summary_sentences",
     "wipe_frames",
     "write_gif",
@@ -237,53 +241,82 @@ def write_gif(path: Path, frames: Sequence[np.ndarray], duration_ms: int = 90) -
 
 
 def summary_sentences(metrics: ComparisonMetrics) -> list[str]:
-    """Plain-language statements of what changes, computed from the published figures."""
+    """Plain-language statements of what changes, computed from the published figures: each
+    option against the "before" setup (with one option it is called "the after" lighting)."""
     out = []
+    single = len(metrics.options) == 1
+    names = {k: metrics.setups[k].name or k for k in metrics.options}
 
-    def fig(key: str) -> tuple[float | None, float | None]:
-        return metrics.lamp_figure_mean(key, "before"), metrics.lamp_figure_mean(key, "after")
+    def who(key: str) -> str:
+        return "after" if single else f"'{names[key]}'"
 
-    ra_b, ra_a = fig("ra")
-    if ra_b is not None and ra_a is not None:
-        better = "better" if ra_a > ra_b + 5 else "worse" if ra_a < ra_b - 5 else "about the same"
-        out.append(
-            f"Colour rendering: the after lamps render colours {better} than the before lamps "
-            f"(CIE 13.3 Ra {ra_b:.0f} before, {ra_a:.0f} after; 100 matches the reference light, and very low or negative values mean many colours look alike)."
-        )
-    sp_b, sp_a = fig("sp_ratio")
-    if sp_b and sp_a:
-        out.append(
-            f"Night-vision effectiveness: the after light has an S/P ratio of {sp_a:.2f} against {sp_b:.2f}; "
-            "a higher ratio means the eye's rods respond more to it, so the street can look brighter at the same photopic level."
-        )
-    bf_b, bf_a = fig("blue_fraction")
-    if bf_b is not None and bf_a is not None:
-        out.append(
-            f"Blue content: {bf_a * 100:.0f} % of the after light is below 500 nm ({bf_b * 100:.0f} % before); "
-            "blue light scatters more in the sky and matters to wildlife and sleep."
-        )
-    for v in metrics.views:
-        lb, la = v.luminance_cd_m2.before.mean, v.luminance_cd_m2.after.mean
-        if lb and la:
-            ratio = la / lb
-            change = "brighter" if ratio > 1.1 else "darker" if ratio < 0.9 else "about as bright"
+    for key in metrics.options:
+        ra_b, ra_a = metrics.lamp_figure_mean("ra", BEFORE), metrics.lamp_figure_mean("ra", key)
+        if ra_b is not None and ra_a is not None:
+            better = "better" if ra_a > ra_b + 5 else "worse" if ra_a < ra_b - 5 else "about the same"
             out.append(
-                f"View '{v.name}': surfaces are {change} after the change (mean luminance {lb:.3g} → {la:.3g} cd/m², "
-                f"×{ratio:.2f})."
+                f"Colour rendering: the {who(key)} lamps render colours {better} than the before lamps "
+                f"(CIE 13.3 Ra {ra_b:.0f} before, {ra_a:.0f} {who(key)}; 100 matches the reference light, and very low or negative values mean many colours look alike)."
             )
+        sp_b, sp_a = metrics.lamp_figure_mean("sp_ratio", BEFORE), metrics.lamp_figure_mean("sp_ratio", key)
+        if sp_b and sp_a:
+            out.append(
+                f"Night-vision effectiveness: the {who(key)} light has an S/P ratio of {sp_a:.2f} against {sp_b:.2f}; "
+                "a higher ratio means the eye's rods respond more to it, so the street can look brighter at the same photopic level."
+            )
+        bf_b, bf_a = metrics.lamp_figure_mean("blue_fraction", BEFORE), metrics.lamp_figure_mean("blue_fraction", key)
+        if bf_b is not None and bf_a is not None:
+            out.append(
+                f"Blue content: {bf_a * 100:.0f} % of the {who(key)} light is below 500 nm ({bf_b * 100:.0f} % before); "
+                "blue light scatters more in the sky and matters to wildlife and sleep."
+            )
+    for v in metrics.views:
+        for key in metrics.options:
+            lb, la = v.luminance_cd_m2[BEFORE].mean, v.luminance_cd_m2[key].mean
+            if lb and la:
+                ratio = la / lb
+                change = "brighter" if ratio > 1.1 else "darker" if ratio < 0.9 else "about as bright"
+                when = "after the change" if single else f"under '{names[key]}'"
+                out.append(
+                    f"View '{v.name}': surfaces are {change} {when} (mean luminance {lb:.3g} → {la:.3g} cd/m², "
+                    f"×{ratio:.2f})."
+                )
     return out
 
 
-def luminance_map_pair(before: RenderedView, after: RenderedView) -> tuple[list[np.ndarray], np.ndarray]:
-    """Luminance maps (8-bit sRGB) of two views on one log scale, and the legend.
+def unique_stems(names: Sequence[str], reserved: frozenset[str] = frozenset()) -> list[str]:
+    """File-name stems (:func:`render.fileio.file_stem`) of ``names``, made unique in order:
+    a stem already taken (by an earlier name or in ``reserved``) gets the first free suffix
+    ``-2``, ``-3``, ... (compared without regard to case, for case-insensitive file systems).
+    The same names give the same stems."""
+    taken = {r.lower() for r in reserved}
+    out = []
+    for name in names:
+        base = file_stem(name)
+        stem, n = base, 2
+        while stem.lower() in taken:
+            stem, n = f"{base}-{n}", n + 1
+        taken.add(stem.lower())
+        out.append(stem)
+    return out
 
-    The scale is :func:`render.vision.falsecolour.shared_range_decades` (whole decades) on our
-    own perceptually ordered ramp."""
+
+def setup_keys(setups: Sequence[Setup]) -> list[str]:
+    """The keys of the compared setups: :data:`~render.output.metrics.BEFORE` for the first,
+    then a unique file-name stem of each option's name (never a reserved key)."""
+    return [BEFORE, *unique_stems([s.name for s in setups[1:]], RESERVED_KEYS)]
+
+
+def luminance_map_pair(rendered: Sequence[RenderedView]) -> tuple[list[np.ndarray], np.ndarray]:
+    """Luminance maps (8-bit sRGB) of the rendered views on one log scale, and the legend.
+
+    The scale is :func:`render.vision.falsecolour.shared_range_decades` (whole decades) over
+    all of them, on our own perceptually ordered ramp."""
     from render.output.luminance_legend import legend_strip
     from render.vision.display import quantise, srgb_encode
     from render.vision.falsecolour import false_colour, shared_range_decades
 
-    ys = [r.colorimetry.luminance_cd_m2 for r in (before, after)]
+    ys = [r.colorimetry.luminance_cd_m2 for r in rendered]
     lo, hi = shared_range_decades(ys)
     images = [quantise(srgb_encode(false_colour(y, lo, hi)), 8) for y in ys]
     legend = quantise(srgb_encode(legend_strip(ys[0].shape[0], lo, hi, "luminance (cd/m²)", 120)), 8)
@@ -354,33 +387,41 @@ def _published_confusion(c: Confusion) -> Confusion:
     return replace(c, daylight_delta_e00=published(c.daylight_delta_e00), delta_e00=published(c.delta_e00))
 
 
+def _labels(setups: Sequence[Setup]) -> list[str]:
+    """How the setups are labelled in the colour analysis: "before: NAME", then "after: NAME"
+    with one option or "option: NAME" with several."""
+    word = "after" if len(setups) == 2 else "option"
+    return [f"before: {setups[0].name}", *(f"{word}: {s.name}" for s in setups[1:])]
+
+
 def _colour_analysis(
     study: Study,
-    setups: BeforeAfter[Setup],
+    setups: Sequence[Setup],
     observer: ObserverSettings,
-    view: tuple[str, RenderedView, RenderedView, Sequence[DisplayResult]],
+    view: tuple[str, Sequence[RenderedView], Sequence[DisplayResult]],
     out: Path,
 ) -> tuple[ReportSection, ColourSummary]:
-    """Colour analysis of the tagged objects in one view: the colours/ folder, the report
-    section and the summary for ``metrics.json``."""
+    """Colour analysis of the tagged objects in one view under every setup: the colours/
+    folder, the report section and the summary for ``metrics.json``."""
     from render.analysis.view_colours import analyse_view_colours
     from render.output.colour_files import write_colour_json, write_colour_pictures
 
-    name, rb, ra, shared = view
-    labels = [f"before: {setups.before.name}", f"after: {setups.after.name}"]
-    result = analyse_view_colours(study, [rb, ra], shared, observer, labels)
+    name, rendered, shared = view
+    result = analyse_view_colours(study, list(rendered), shared, observer, _labels(setups))
     cdir = out / "colours"
-    text = image_metadata(study, rb, "colour analysis", observer, study.scene.render.seed, rb.buffers.spp)
-    text["lampcast.setup"] = f"before={setups.before.name}; after={setups.after.name}"
+    text = image_metadata(
+        study, rendered[0], "colour analysis", observer, study.scene.render.seed, rendered[0].buffers.spp
+    )
+    text["lampcast.setup"] = _comparison_text(setups)
     pics = write_colour_pictures(
-        result, [rb, ra], shared, study.setup_lamps([rb, ra], [setups.before, setups.after]), cdir, text=text
+        result, list(rendered), shared, study.setup_lamps(list(rendered), list(setups)), cdir, text=text
     )
     write_colour_json(result, cdir / "colours.json")
     section = colour_report_section(result, pics, out)
     section = replace(
         section,
         paragraphs=(
-            f"Analysed in view '{name}' (the view showing most tagged objects), both setups in shared exposure.",
+            f"Analysed in view '{name}' (the view showing most tagged objects), every setup in shared exposure.",
             *section.paragraphs,
         ),
     )
@@ -391,6 +432,14 @@ def _colour_analysis(
         name_changes={s: r.name_changes for s, r in result.setups.items()},
     )
     return section, summary
+
+
+def _comparison_text(setups: Sequence[Setup]) -> str:
+    """The setups compared, as written into image metadata ("before=A; after=B" with one
+    option, "before=A; options=B, C" with several)."""
+    if len(setups) == 2:
+        return f"before={setups[0].name}; after={setups[1].name}"
+    return f"before={setups[0].name}; options=" + ", ".join(s.name for s in setups[1:])
 
 
 @dataclass(frozen=True)
@@ -406,7 +455,7 @@ class ComparisonResult:
 def run_comparison(
     scene: str | Path | Study,
     before: str,
-    after: str,
+    after: str | Sequence[str],
     views: Sequence[str] | None = None,
     out_dir: str | Path = "outputs/compare",
     *,
@@ -418,9 +467,12 @@ def run_comparison(
     extra_sections: Sequence[ReportSection] = (),
     colour: bool = True,
 ) -> ComparisonResult:
-    """Render every view before and after and write images, ``metrics.json`` and ``report.html``
-    (with the colour analysis of the tagged objects in the view showing most of them, unless
-    ``colour=False``). ``scene`` is a scene file or a :class:`~render.study.Study`."""
+    """Render every view under the "before" setup and relight it under each option (``after``:
+    one setup or several), and write images, ``metrics.json`` and ``report.html`` (with the
+    colour analysis of the tagged objects in the view showing most of them, unless
+    ``colour=False``). ``scene`` is a scene file or a :class:`~render.study.Study`.
+
+    The camera rays are cast once per view; every option relights the same buffers."""
     from render.colour.lamp_figures import LampFigures, lamp_figures
     from render.colour.lamps import get_lamp
     from render.output.images import write_png
@@ -428,7 +480,11 @@ def run_comparison(
 
     study = scene if isinstance(scene, Study) else Study(scene)
     scene = study.scene
-    setups = BeforeAfter(parse_setup(before, scene, "--before"), parse_setup(after, scene, "--after"))
+    options = [after] if isinstance(after, str) else list(after)
+    if not options:
+        raise input_error("--after", "", "give at least one option to compare with the before setup")
+    setups = [parse_setup(before, scene, "--before"), *(parse_setup(o, scene, "--after") for o in options)]
+    keys = setup_keys(setups)
     observer = observer or study.observer
     view_names = list(views or [v.name for v in scene.views])
     for name in view_names:
@@ -437,61 +493,57 @@ def run_comparison(
     out.mkdir(parents=True, exist_ok=True)
     spp = samples_per_pixel or scene.render.samples_per_pixel
     seed = scene.render.seed
-    pair = f"before={setups.before.name}; after={setups.after.name}"
-    descriptions: BeforeAfter[SetupDescription] | None = None
+    compared = _comparison_text(setups)
+    descriptions: dict[str, SetupDescription] | None = None
     camera = None
     view_metrics: list[ViewMetrics] = []
     colour_view = None
     for name in view_names:
         vdir = out / file_stem(name)
         vdir.mkdir(exist_ok=True)
-        rb = study.render_view(name, setups.before, samples_per_pixel=spp, width_px=width_px, progress=progress)
-        ra = study.relight(rb, setups.after, progress=progress)
+        rb = study.render_view(name, setups[0], samples_per_pixel=spp, width_px=width_px, progress=progress)
+        rendered = [rb, *(study.relight(rb, s, progress=progress) for s in setups[1:])]
         if descriptions is None:
-            descriptions = BeforeAfter(
-                setup_description(setups.before, rb.lights), setup_description(setups.after, ra.lights)
-            )
+            descriptions = {k: setup_description(s, r.lights) for k, s, r in zip(keys, setups, rendered)}
         camera = rb.camera
-        shared, adapted = study.display_both([rb, ra], observer)
-        false, legend = luminance_map_pair(rb, ra)
-        images = ViewImages.in_folder(vdir.name)
+        shared, adapted = study.display_both(rendered, observer)
+        maps, legend = luminance_map_pair(rendered)
+        images = ViewImages.in_folder(vdir.name, keys)
 
         def meta(r: RenderedView, mode: str) -> dict[str, str]:
             m = image_metadata(study, r, mode, observer, seed, spp)
-            m["lampcast.comparison"] = pair
+            m["lampcast.comparison"] = compared
             return m
 
-        for key, r, sh, ad, fc in (
-            ("before", rb, shared[0], adapted[0], false[0]),
-            ("after", ra, shared[1], adapted[1], false[1]),
-        ):
-            write_png(out / images.shared(key), sh.srgb8, sh.png_text(meta(r, "shared")))
-            write_png(out / images.adapted(key), ad.srgb8, ad.png_text(meta(r, "adapted")))
-            write_png(out / images.luminance_map(key), fc, meta(r, "photometric"))
-        write_png(out / images.luminance_legend, legend, {**meta(rb, "photometric legend"), "lampcast.setup": pair})
-        sbs = side_by_side(
-            shared[0].srgb8, shared[1].srgb8, f"before: {setups.before.name}", f"after: {setups.after.name}"
-        )
-        write_png(out / images.side_by_side, sbs, meta(rb, "shared side by side"))
-        write_gif(out / images.wipe, wipe_frames(shared[0].srgb8, shared[1].srgb8))
+        for key, r, sh, ad, lm in zip(keys, rendered, shared, adapted, maps):
+            write_png(out / images.shared[key], sh.srgb8, sh.png_text(meta(r, "shared")))
+            write_png(out / images.adapted[key], ad.srgb8, ad.png_text(meta(r, "adapted")))
+            write_png(out / images.luminance[key], lm, meta(r, "photometric"))
+        write_png(out / images.luminance_legend, legend, {**meta(rb, "photometric legend"), "lampcast.setup": compared})
+        word = "after" if len(setups) == 2 else "option"
+        for key, s, r, sh in zip(keys[1:], setups[1:], rendered[1:], shared[1:]):
+            sbs = side_by_side(shared[0].srgb8, sh.srgb8, f"before: {setups[0].name}", f"{word}: {s.name}")
+            write_png(out / images.side_by_side[key], sbs, meta(r, "shared side by side"))
+            write_gif(out / images.wipe[key], wipe_frames(shared[0].srgb8, sh.srgb8))
         if colour and any(o.inspect for o in study.mesh.objects):
             # Keep the view that shows the most tagged objects for the colour analysis.
             seen = _tagged_objects_visible(study, rb)
             if colour_view is None or seen > colour_view[0]:
-                colour_view = (seen, (name, rb, ra, shared))
-        states = [shared[0].state, adapted[0].state, adapted[1].state]
+                colour_view = (seen, (name, rendered, shared))
         view_metrics.append(
             ViewMetrics(
                 name=name,
                 notes=scene.view(name).notes,
                 images=images,
-                luminance_cd_m2=BeforeAfter(luminance_stats(rb), luminance_stats(ra)),
+                luminance_cd_m2={k: luminance_stats(r) for k, r in zip(keys, rendered)},
                 # Photopic adaptation luminance of the observer (CIE TN 007 field, see render.vision.adaptation).
                 adaptation_cd_m2=AdaptationLevels(
-                    *(published(s.photopic_cd_m2) for s in states),
+                    published(shared[0].state.photopic_cd_m2),
+                    {k: published(a.state.photopic_cd_m2) for k, a in zip(keys, adapted)},
                 ),
                 mesopic_adaptation_cd_m2=AdaptationLevels(
-                    *(published(s.mesopic_cd_m2) for s in states),
+                    published(shared[0].state.mesopic_cd_m2),
+                    {k: published(a.state.mesopic_cd_m2) for k, a in zip(keys, adapted)},
                 ),
             )
         )
@@ -501,7 +553,7 @@ def run_comparison(
         section, colours = _colour_analysis(study, setups, observer, colour_view[1], out)
         sections += (section,)
     lamps: dict[str, LampFigures] = {}
-    for _, description in descriptions.items():
+    for description in descriptions.values():
         for lamp_id in description.lamps:
             if lamp_id not in lamps:
                 # The same rounding as `lampcast lamps --json`, so both agree exactly.

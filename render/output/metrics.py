@@ -1,7 +1,8 @@
 """The comparison's figures as typed records: what ``metrics.json`` holds and the report shows.
 
 :class:`ComparisonMetrics` is the result of :func:`render.output.comparison.run_comparison`:
-the tool and scene, the observer and render settings, the two setups, per view its images,
+the tool and scene, the observer and render settings, the "before" setup and the options
+compared with it, per view its images,
 luminance statistics and adaptation levels, the plain-language summary, the cautions, extra
 report sections (the colour analysis' section among them) and the lamp figures.
 :meth:`ComparisonMetrics.to_json` gives the content of ``metrics.json``;
@@ -23,9 +24,9 @@ are those of :mod:`render.vision.adaptation` (photopic, and CIE 191:2010 MES2 me
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, fields
-from typing import TYPE_CHECKING, Any, Generic, TypeVar
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
@@ -37,8 +38,9 @@ if TYPE_CHECKING:
 
 __all__ = [
     "PUBLISHED_DIGITS",
+    "RESERVED_KEYS",
     "AdaptationLevels",
-    "BeforeAfter",
+    "BEFORE",
     "Cell",
     "ColourSummary",
     "ComparisonMetrics",
@@ -62,7 +64,12 @@ PUBLISHED_DIGITS = 4
 #: A table cell of a report section: text, a number, or ``None`` (not defined).
 Cell = str | int | float | bool | None
 
-T = TypeVar("T")
+#: The key of the "before" setup; the options have keys of their own (:data:`RESERVED_KEYS`
+#: are never an option's key).
+BEFORE = "before"
+#: Keys no option may have: the before setup's, and the names used beside setup keys in JSON
+#: objects and file names (``shared`` adaptation, ``luminance-legend.png``).
+RESERVED_KEYS = frozenset({BEFORE, "shared", "legend"})
 
 
 def published(value: Any, digits: int = PUBLISHED_DIGITS) -> Any:
@@ -224,21 +231,6 @@ class SetupDescription:
 
 
 @dataclass(frozen=True)
-class BeforeAfter(Generic[T]):
-    """A pair of anything, one for the "before" and one for the "after" setup."""
-
-    before: T
-    after: T
-
-    def items(self) -> tuple[tuple[str, T], tuple[str, T]]:
-        """``(("before", before), ("after", after))``."""
-        return (("before", self.before), ("after", self.after))
-
-    def to_json(self) -> dict[str, Any]:
-        return {"before": _json(self.before), "after": _json(self.after)}
-
-
-@dataclass(frozen=True)
 class LuminanceStats:
     """Mean, minimum, median and 95th percentile of the luminance of the surfaces seen, cd/m²
     (``None`` when a view shows no surface)."""
@@ -271,77 +263,86 @@ class LuminanceStats:
 
 @dataclass(frozen=True)
 class AdaptationLevels:
-    """The adaptation luminance (cd/m²) of the images: shared exposure, and each setup adapted."""
+    """The adaptation luminance (cd/m²) of the images: shared exposure, and each setup adapted
+    (setup key -> level). In JSON one flat object: ``{"shared": ..., "before": ..., KEY: ...}``
+    (``shared`` is never a setup key, :data:`RESERVED_KEYS`)."""
 
     shared: float | None
-    before: float | None
-    after: float | None
+    adapted: Mapping[str, float | None]
 
     def to_json(self) -> dict[str, Any]:
-        return _fields_json(self)
+        return {"shared": self.shared, **{str(k): v for k, v in self.adapted.items()}}
 
     @classmethod
     def from_json(cls, data: Mapping[str, Any]) -> AdaptationLevels:
-        return cls(*(data.get(f.name) for f in fields(cls)))
+        return cls(data.get("shared"), {str(k): v for k, v in data.items() if k != "shared"})
 
 
 @dataclass(frozen=True)
 class ViewImages:
-    """The images of one view, as paths relative to the output folder."""
+    """The images of one view, as paths relative to the output folder.
 
-    before_shared: str
-    before_adapted: str
-    luminance_before: str
-    after_shared: str
-    after_adapted: str
-    luminance_after: str
-    side_by_side: str
-    wipe: str
+    ``shared``, ``adapted`` and ``luminance`` map every setup key (``"before"`` and each
+    option) to its shared-exposure image, adapted-exposure image and luminance map;
+    ``side_by_side`` and ``wipe`` map each option's key to its image beside / wiping into the
+    "before" image; ``luminance_legend`` is the legend of the luminance maps.
+    """
+
+    shared: Mapping[str, str]
+    adapted: Mapping[str, str]
+    luminance: Mapping[str, str]
+    side_by_side: Mapping[str, str]
+    wipe: Mapping[str, str]
     luminance_legend: str
 
     @classmethod
-    def in_folder(cls, folder: str) -> ViewImages:
-        """The file names the comparison writes into ``folder``."""
+    def in_folder(cls, folder: str, keys: Sequence[str]) -> ViewImages:
+        """The file names the comparison writes into ``folder`` for setup ``keys`` (the first
+        is the "before" setup, the others the options)."""
+        options = list(keys[1:])
         return cls(
-            before_shared=f"{folder}/before.png",
-            before_adapted=f"{folder}/before-adapted.png",
-            luminance_before=f"{folder}/luminance-before.png",
-            after_shared=f"{folder}/after.png",
-            after_adapted=f"{folder}/after-adapted.png",
-            luminance_after=f"{folder}/luminance-after.png",
-            side_by_side=f"{folder}/side-by-side.png",
-            wipe=f"{folder}/wipe.gif",
+            shared={k: f"{folder}/shared-{k}.png" for k in keys},
+            adapted={k: f"{folder}/adapted-{k}.png" for k in keys},
+            luminance={k: f"{folder}/luminance-{k}.png" for k in keys},
+            side_by_side={k: f"{folder}/side-by-side-{k}.png" for k in options},
+            wipe={k: f"{folder}/wipe-{k}.gif" for k in options},
             luminance_legend=f"{folder}/luminance-legend.png",
         )
 
-    def shared(self, key: str) -> str:
-        """The shared-exposure image of setup ``key`` ("before" or "after")."""
-        return getattr(self, f"{key}_shared")
-
-    def adapted(self, key: str) -> str:
-        """The adapted-exposure image of setup ``key``."""
-        return getattr(self, f"{key}_adapted")
-
-    def luminance_map(self, key: str) -> str:
-        """The luminance map of setup ``key``."""
-        return getattr(self, f"luminance_{key}")
+    def files(self) -> tuple[str, ...]:
+        """Every image path, in a fixed order."""
+        out: list[str] = []
+        for group in (self.shared, self.adapted, self.luminance, self.side_by_side, self.wipe):
+            out += group.values()
+        return (*out, self.luminance_legend)
 
     def to_json(self) -> dict[str, Any]:
         return _fields_json(self)
 
     @classmethod
     def from_json(cls, data: Mapping[str, Any]) -> ViewImages:
-        return cls(**{f.name: str(data[f.name]) for f in fields(cls)})
+        def paths(key: str) -> dict[str, str]:
+            return {str(k): str(v) for k, v in (data.get(key) or {}).items()}
+
+        return cls(
+            paths("shared"),
+            paths("adapted"),
+            paths("luminance"),
+            paths("side_by_side"),
+            paths("wipe"),
+            str(data["luminance_legend"]),
+        )
 
 
 @dataclass(frozen=True)
 class ViewMetrics:
-    """One view: its images, the surface luminance before and after, the adaptation levels."""
+    """One view: its images, the surface luminance under every setup (setup key -> statistics),
+    the adaptation levels."""
 
     name: str
     notes: str
     images: ViewImages
-    luminance_cd_m2: BeforeAfter[LuminanceStats]
+    luminance_cd_m2: Mapping[str, LuminanceStats]
     adaptation_cd_m2: AdaptationLevels
     mesopic_adaptation_cd_m2: AdaptationLevels | None = None
 
@@ -359,9 +360,7 @@ class ViewMetrics:
             str(data.get("name") or ""),
             str(data.get("notes") or ""),
             ViewImages.from_json(data["images"]),
-            BeforeAfter(
-                LuminanceStats.from_json(lum.get("before") or {}), LuminanceStats.from_json(lum.get("after") or {})
-            ),
+            {str(k): LuminanceStats.from_json(v or {}) for k, v in lum.items()},
             AdaptationLevels.from_json(data.get("adaptation_cd_m2") or {}),
             None if mesopic is None else AdaptationLevels.from_json(mesopic),
         )
@@ -454,7 +453,8 @@ class ComparisonMetrics:
     tool, scene, observer, settings
         Provenance: program, scene, observer modelled, render settings.
     setups
-        The "before" and "after" setups.
+        Setup key -> :class:`SetupDescription`: first the "before" setup (key :data:`BEFORE`),
+        then every option compared with it, in the order given.
     views
         One :class:`ViewMetrics` per view, in the order rendered.
     summary
@@ -474,7 +474,7 @@ class ComparisonMetrics:
     scene: SceneInfo
     observer: ObserverInfo
     settings: RenderSettings
-    setups: BeforeAfter[SetupDescription]
+    setups: Mapping[str, SetupDescription]
     views: tuple[ViewMetrics, ...]
     summary: tuple[str, ...] = ()
     cautions: tuple[str, ...] = ()
@@ -499,10 +499,10 @@ class ComparisonMetrics:
             scene=SceneInfo.from_json(data.get("scene") or {}),
             observer=ObserverInfo.from_json(data.get("observer") or {}),
             settings=RenderSettings.from_json(data.get("settings") or {}),
-            setups=BeforeAfter(
-                SetupDescription.from_json(setups.get("before") or {}),
-                SetupDescription.from_json(setups.get("after") or {}),
-            ),
+            setups={
+                str(k): SetupDescription.from_json(v or {})
+                for k, v in sorted(setups.items(), key=lambda kv: kv[0] != BEFORE)
+            },
             views=tuple(ViewMetrics.from_json(v) for v in data.get("views") or ()),
             summary=tuple(str(s) for s in data.get("summary") or ()),
             cautions=tuple(str(c) for c in data.get("cautions") or ()),
@@ -511,11 +511,16 @@ class ComparisonMetrics:
             lamps={str(k): LampFigures.from_json(v) for k, v in (data.get("lamps") or {}).items()},
         )
 
+    @property
+    def options(self) -> tuple[str, ...]:
+        """The keys of the options (every setup but the "before" one), in order."""
+        return tuple(k for k in self.setups if k != BEFORE)
+
     def lamp_figure_mean(self, key: str, setup: str) -> float | None:
-        """Mean of lamp figure ``key`` over the lamps of setup ``setup`` ("before"/"after")
-        that define it (``None`` if none does)."""
+        """Mean of lamp figure ``key`` over the lamps of setup ``setup`` (a setup key) that
+        define it (``None`` if none does)."""
         lamps = self.lamps or {}
-        description = getattr(self.setups, setup)
+        description = self.setups[setup]
         values = [getattr(lamps[lamp], key) for lamp in description.lamps if lamp in lamps]
         values = [v for v in values if v is not None]
         return float(np.mean(values)) if values else None

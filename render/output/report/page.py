@@ -7,8 +7,9 @@ into a :class:`Page`: every number becomes a :class:`NumberCell` that knows its 
 unique, id-safe name. The template (``templates/report.html.j2``) only lays these out and adds
 the page's fixed wording; it reads no dictionaries of figures.
 
-The order is fixed (setups before, after; groups by name; lamps in the order a setup lists them;
-footnotes numbered in order of first use), so the same records give the same page.
+The order is fixed (the "before" setup, then the options in order; groups by name; lamps in
+the order a setup lists them; footnotes numbered in order of first use), so the same records
+give the same page.
 
 References
 ----------
@@ -26,6 +27,7 @@ from typing import Any, ClassVar
 
 from render.colour.lamp_figures import LampFigures
 from render.output.metrics import (
+    BEFORE,
     ComparisonMetrics,
     ReportSection,
     SceneInfo,
@@ -49,6 +51,7 @@ __all__ = [
     "Page",
     "Row",
     "RowHead",
+    "SetupImages",
     "SetupPart",
     "Table",
     "TextCell",
@@ -194,36 +197,59 @@ class Table:
 
 
 @dataclass(frozen=True)
+class SetupImages:
+    """One setup's pictures of a view: ``key`` (``"before"`` or an option's key), its label
+    (``"before: NAME"``, ``"after: NAME"`` or ``"option: NAME"``), shared and adapted exposure
+    and luminance map; for an option also its side-by-side image and wipe (else ``None``)."""
+
+    key: str
+    name: str
+    label: str
+    shared: EmbeddedImage
+    adapted: EmbeddedImage
+    luminance: EmbeddedImage
+    side_by_side: EmbeddedImage | None = None
+    wipe: EmbeddedImage | None = None
+
+
+@dataclass(frozen=True)
 class ViewPart:
-    """One view's part of the page: its images and its luminance and adaptation tables."""
+    """One view's part of the page: every setup's images (the "before" first; ``right`` is
+    the one shown right of the divide at first: the first option), the luminance legend, and
+    the luminance and adaptation tables."""
 
     index: int
     name: str
     notes: str
-    before: str
-    after: str
-    before_shared: EmbeddedImage
-    before_adapted: EmbeddedImage
-    after_shared: EmbeddedImage
-    after_adapted: EmbeddedImage
-    luminance_before: EmbeddedImage
-    luminance_after: EmbeddedImage
+    setups: tuple[SetupImages, ...]
     luminance_legend: EmbeddedImage
-    side_by_side: EmbeddedImage
-    wipe: EmbeddedImage
     luminance: Table
     adaptation: Table
+
+    @property
+    def left(self) -> SetupImages:
+        return self.setups[0]
+
+    @property
+    def right(self) -> SetupImages:
+        return self.setups[1] if len(self.setups) > 1 else self.setups[0]
+
+    @property
+    def options(self) -> tuple[SetupImages, ...]:
+        return self.setups[1:]
 
 
 @dataclass(frozen=True)
 class SetupPart:
-    """One setup: ``key`` ("before"/"after"), name, description, its groups and lamp figures."""
+    """One setup: ``key`` ("before" or an option's key), name, description, its groups and lamp
+    figures; ``label`` is how the page names it ("before: NAME", "after: NAME", "option: NAME")."""
 
     key: str
     name: str
     description: str
     groups: Table | None
     lamps: Table
+    label: str = ""
 
 
 @dataclass(frozen=True)
@@ -283,58 +309,83 @@ def _setup_name(setup: SetupDescription, key: str) -> str:
     return setup.name or key
 
 
+def _labels(metrics: ComparisonMetrics) -> dict[str, str]:
+    """Setup key -> label: "before: NAME", then "after: NAME" with one option, "option: NAME"
+    with several (a name given twice is told apart by its key)."""
+    word = "after" if len(metrics.options) == 1 else "option"
+    names = [_setup_name(setup, key) for key, setup in metrics.setups.items()]
+    return {
+        key: f"{'before' if key == BEFORE else word}: {name}" + (f" ({key})" if names.count(name) > 1 else "")
+        for key, name in zip(metrics.setups, names)
+    }
+
+
 def _view_part(i: int, view: ViewMetrics, metrics: ComparisonMetrics, images: ImageFolder) -> ViewPart:
-    before = _setup_name(metrics.setups.before, "before")
-    after = _setup_name(metrics.setups.after, "after")
-    names = {"before": before, "after": after}
-    lum_rows = tuple(
-        Row(
-            RowHead(f"{key}: {names[key]}"),
-            tuple(
-                NumberCell(f"views.{i}.luminance_cd_m2.{key}.{stat}", getattr(stats, stat), "sig3", reason="not given")
-                for stat, _ in LUMINANCE_STATS
-            ),
-        )
-        for key, stats in view.luminance_cd_m2.items()
-    )
+    keys = list(metrics.setups)
+    labels = _labels(metrics)
     luminance = Table(
         f"luminance-{i}",
         "Luminance of the rendered view (cd/m\u00b2)",
-        lum_rows,
-        head=(Heading("lighting"), *(Heading(label, numeric=True) for _, label in LUMINANCE_STATS)),
+        tuple(
+            Row(
+                RowHead(label),
+                tuple(
+                    NumberCell(
+                        f"views.{i}.luminance_cd_m2.{key}.{stat}",
+                        getattr(view.luminance_cd_m2.get(key), stat, None),
+                        "sig3",
+                        reason="not given",
+                    )
+                    for key in keys
+                ),
+            )
+            for stat, label in LUMINANCE_STATS
+        ),
+        head=(Heading("statistic"), *(Heading(labels[k], numeric=True) for k in keys)),
+        scrolls=True,
     )
     levels = view.adaptation_cd_m2
     adaptation = Table(
         f"adaptation-{i}",
         "Adaptation luminance the images were made for (cd/m\u00b2)",
-        tuple(
+        (
+            *(
+                Row(
+                    RowHead(f"adapted, {labels[key]}"),
+                    (
+                        NumberCell(
+                            f"views.{i}.adaptation_cd_m2.{key}", levels.adapted.get(key), "sig3", reason="not given"
+                        ),
+                    ),
+                )
+                for key in keys
+            ),
             Row(
-                RowHead(label),
-                (NumberCell(f"views.{i}.adaptation_cd_m2.{key}", getattr(levels, key), "sig3", reason="not given"),),
-            )
-            for key, label in (
-                ("before", f"adapted, before: {before}"),
-                ("after", f"adapted, after: {after}"),
-                ("shared", "shared exposure"),
-            )
+                RowHead("shared exposure"),
+                (NumberCell(f"views.{i}.adaptation_cd_m2.shared", levels.shared, "sig3", reason="not given"),),
+            ),
         ),
     )
     img = view.images
+    parts = tuple(
+        SetupImages(
+            key=key,
+            name=_setup_name(metrics.setups[key], key),
+            label=labels[key],
+            shared=images.get(img.shared[key]),
+            adapted=images.get(img.adapted[key]),
+            luminance=images.get(img.luminance[key]),
+            side_by_side=images.get(img.side_by_side[key]) if key in img.side_by_side else None,
+            wipe=images.get(img.wipe[key]) if key in img.wipe else None,
+        )
+        for key in keys
+    )
     return ViewPart(
         index=i,
         name=view.name,
         notes=view.notes or "",
-        before=before,
-        after=after,
-        before_shared=images.get(img.before_shared),
-        before_adapted=images.get(img.before_adapted),
-        after_shared=images.get(img.after_shared),
-        after_adapted=images.get(img.after_adapted),
-        luminance_before=images.get(img.luminance_before),
-        luminance_after=images.get(img.luminance_after),
+        setups=parts,
         luminance_legend=images.get(img.luminance_legend),
-        side_by_side=images.get(img.side_by_side),
-        wipe=images.get(img.wipe),
         luminance=luminance,
         adaptation=adaptation,
     )
@@ -362,7 +413,7 @@ def _lamp_row(lamp_id: str, fig: LampFigures | None, notes: _Footnotes) -> Row:
     return Row(RowHead(fig.name or lamp_id, sub=lamp_id), tuple(cells))
 
 
-def _groups_table(key: str, setup: SetupDescription) -> Table | None:
+def _groups_table(key: str, setup: SetupDescription, label: str) -> Table | None:
     rows = []
     for group in sorted(setup.groups):
         g = setup.groups[group]
@@ -390,24 +441,34 @@ def _groups_table(key: str, setup: SetupDescription) -> Table | None:
         Heading("luminous flux (lm)", numeric=True),
         Heading("output (% of full)", numeric=True),
     )
-    return Table(f"groups-{_slug(key)}", f"Luminaire groups, {key}: {_setup_name(setup, key)}", tuple(rows), head)
+    return Table(f"groups-{_slug(key)}", f"Luminaire groups, {label}", tuple(rows), head)
 
 
 def _setup_parts(metrics: ComparisonMetrics, notes: _Footnotes) -> tuple[SetupPart, ...]:
     lamps = metrics.lamps or {}
     head = (Heading("lamp"), *(Heading(heading, numeric=True, unit=unit) for _, heading, unit, _ in LAMP_COLUMNS))
     parts = []
+    labels = _labels(metrics)
     for key, setup in metrics.setups.items():
         rows = tuple(_lamp_row(lamp_id, lamps.get(lamp_id), notes) for lamp_id in dict.fromkeys(setup.lamps))
         lamp_table = Table(
             f"lamps-{_slug(key)}",
-            f"Lamp figures, {key}: {_setup_name(setup, key)}",
+            f"Lamp figures, {labels[key]}",
             rows,
             head,
             css="figures lamps",
             scrolls=True,
         )
-        parts.append(SetupPart(key, _setup_name(setup, key), setup.description, _groups_table(key, setup), lamp_table))
+        parts.append(
+            SetupPart(
+                key,
+                _setup_name(setup, key),
+                setup.description,
+                _groups_table(key, setup, labels[key]),
+                lamp_table,
+                labels[key],
+            )
+        )
     return tuple(parts)
 
 
