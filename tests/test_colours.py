@@ -767,3 +767,37 @@ def test_colours_command_colour_view(tmp_path, capsys):
     assert "in view 'bin'" in capsys.readouterr().out
     forced = json.loads((tmp_path / "bin" / "bin-colours.json").read_text(encoding="utf-8"))
     assert [o["view"] for o in forced["objects"]] == ["bin", "bin"]
+
+
+# ------------------------------------------------------------ empty and merged tables (issue 12.5)
+
+
+def test_name_changes_have_one_column_per_lighting_and_empty_pairs_say_none():
+    # Low-pressure sodium collapses hue (CIE 13.3 samples under a line source, see
+    # test_low_pressure_sodium_collapses_hue_to_lightness); the broad LED keeps the samples
+    # apart: no confusable pair, said in words (common practice, no source).
+    from render.output.colour_text import format_confusions, format_name_changes
+
+    objects, setups = _street_setups()
+    result = colour_analysis(objects, {k: v[0] for k, v in setups.items()})
+    rows = result.name_change_rows()
+    assert rows and all(list(r["setups"]) == ["low-pressure sodium", "LED"] for r in rows)
+    for r in rows:
+        day = result.daylight.objects[r["object"]].name
+        for label in ("low-pressure sodium", "LED"):
+            seen = result.setups[label].objects[r["object"]]
+            assert r["setups"][label] == seen.name
+            assert (label in r["changed"]) == (seen.name != day)
+    table = format_name_changes(result).splitlines()
+    header = table[1].split()
+    assert header[:2] == ["object", "daylight"] and "LED" in header and "low-pressure" in header
+    assert len(table) == 3 + len(rows)
+    text = format_confusions(result)
+    assert "  LED: none" in text.splitlines()
+    lps = [line for line in text.splitlines() if line.startswith("    ")]
+    assert len(lps) == len(result.setups["low-pressure sodium"].confusions) >= 3
+    assert len(result.confusion_rows()) == len(lps)
+    led_only = colour_analysis(objects, {"LED": setups["LED"][0]})
+    assert format_confusions(led_only).endswith("LED: none")
+    if not led_only.name_change_rows():
+        assert format_name_changes(led_only) == "Names that change at night: none"

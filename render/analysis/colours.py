@@ -900,6 +900,17 @@ class ColourAnalysis:
             )
         return rows
 
+    def name_change_rows(self) -> list[dict[str, Any]]:
+        """The rows of :meth:`name_rows` whose name changes under at least one setup: one
+        column per lighting (``setups``: the name seen under each, ``None``: not visible;
+        ``changed``: the setups under which it differs from the daylight name)."""
+        return [r for r in self.name_rows() if r["changed"]]
+
+    def confusion_rows(self) -> list[dict[str, Any]]:
+        """Every confusable pair under every setup, in setup order then smallest ΔE00 first:
+        ``{"setup", "a", "b", "daylight_delta_e00", "delta_e00", "level"}`` (empty: none)."""
+        return [{"setup": label, **c.to_json()} for label, s in self.setups.items() for c in s.confusions]
+
     def to_json(self) -> dict[str, Any]:
         """The JSON structure of the module text (JSON-safe: no NaN, keys in a fixed order)."""
         return {

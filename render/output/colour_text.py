@@ -14,8 +14,15 @@ prototypes, CAM16-UCS); the layout is our own, no source.
 from __future__ import annotations
 
 from collections.abc import Sequence
+from typing import TYPE_CHECKING
 
-__all__ = ["format_name_table"]
+if TYPE_CHECKING:
+    from render.analysis.colours import ColourAnalysis
+
+__all__ = ["NONE", "format_confusions", "format_name_changes", "format_name_table"]
+
+#: What an empty list says, in words.
+NONE = "none"
 
 
 def format_name_table(rows: Sequence[dict]) -> str:
@@ -36,4 +43,34 @@ def format_name_table(rows: Sequence[dict]) -> str:
     lines = ["  ".join(str(c).ljust(w) for c, w in zip(header, widths)).rstrip()]
     lines.append("  ".join("-" * w for w in widths))
     lines += ["  ".join(str(c).ljust(w) for c, w in zip(cells, widths)).rstrip() for cells in body]
+    return "\n".join(lines)
+
+
+def format_name_changes(result: ColourAnalysis) -> str:
+    """ "Names that change at night": one column per lighting (the name seen there, * where it
+    differs from the daylight name, '-' not visible), only the objects whose name changes under
+    some lighting; ``"Names that change at night: none"`` when no name changes."""
+    rows = result.name_change_rows()
+    if not rows:
+        return f"Names that change at night: {NONE}"
+    return "Names that change at night:\n" + format_name_table(rows)
+
+
+def format_confusions(result: ColourAnalysis) -> str:
+    """ "Pairs that become hard to tell apart": per lighting the pairs distinct in daylight
+    that fall below the threshold, or ``none`` in words."""
+    t = result.thresholds
+    lines = [
+        f"Pairs that become hard to tell apart (at least {t.distinct_in_daylight_delta_e00:g} ΔE00 apart in "
+        f"daylight, below {t.hard_delta_e00:g} at night):"
+    ]
+    for label, seen in result.setups.items():
+        if not seen.confusions:
+            lines.append(f"  {label}: {NONE}")
+            continue
+        lines.append(f"  {label}:")
+        for c in seen.confusions:
+            lines.append(
+                f"    {c.a} / {c.b}: ΔE00 {c.daylight_delta_e00:.1f} in daylight → {c.delta_e00:.2f} ({c.level})"
+            )
     return "\n".join(lines)
