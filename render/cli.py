@@ -395,7 +395,7 @@ def cmd_colours(args: argparse.Namespace) -> int:
 
     from render.analysis.view_colours import analyse_colours
     from render.output.colour_files import write_colour_json, write_colour_pictures
-    from render.output.colour_text import format_name_table
+    from render.output.colour_text import format_confusions, format_name_changes, format_name_table
     from render.study import Study
 
     study = Study(args.scene)
@@ -433,11 +433,10 @@ def cmd_colours(args: argparse.Namespace) -> int:
     where = f"in view '{view.name}'" if chosen else "with each object in the view showing most of it"
     print(f"Colour names {where} (daylight vs as seen):")
     print(format_name_table(result.name_rows()))
-    for s, seen in result.setups.items():
-        pairs = seen.confusions
-        print(f"\n{s}: {len(pairs)} pair(s) distinct in daylight become hard to tell apart")
-        for c in pairs:
-            print(f"  {c.a} / {c.b}: ΔE00 {c.daylight_delta_e00:.1f} in daylight → {c.delta_e00:.2f} ({c.level})")
+    print()
+    print(format_name_changes(result))
+    print()
+    print(format_confusions(result))
     for path in written:
         print(path)
     return 0
@@ -447,7 +446,7 @@ def cmd_colours(args: argparse.Namespace) -> int:
 
 
 def cmd_compare(args: argparse.Namespace) -> int:
-    """Before and after: images, metrics.json and report.html per view; prints the summary."""
+    """Before and options: images, metrics.json and report.html per view; prints the summary."""
     from render.output.comparison import run_comparison
     from render.study import Study
 
@@ -488,11 +487,12 @@ def cmd_compare(args: argparse.Namespace) -> int:
 
 
 def cmd_demo(args: argparse.Namespace) -> int:
-    """The main job on the bundled demo street: sodium before, warm-white LED after."""
+    """The main job on the bundled demo street: sodium before; two options, 3000 K LED at full
+    output and the same dimmed to 50 % (relit from the same rays)."""
     ns = argparse.Namespace(
         scene=str(DEMO_SCENE),
         before="sodium",
-        after="led-warm",
+        after=["led-3000k", "led-3000k-half"],
         views=args.views,
         out=args.out or "outputs/demo",
         width=args.width,
@@ -585,7 +585,9 @@ def build_parser() -> argparse.ArgumentParser:
     )
     p.set_defaults(func=cmd_materials)
 
-    p = sub.add_parser("photometry", help="summarise an LM-63 or EULUMDAT photometric file (flux, peak, ULOR); plot it on request")
+    p = sub.add_parser(
+        "photometry", help="summarise an LM-63 or EULUMDAT photometric file (flux, peak, ULOR); plot it on request"
+    )
     p.add_argument("file", help="LM-63 (.ies) or EULUMDAT (.ldt) file, or a built-in generic distribution id")
     p.add_argument("--plot", metavar="PNG", help="also write a polar plot to this file")
     p.set_defaults(func=cmd_photometry)
@@ -653,7 +655,10 @@ def build_parser() -> argparse.ArgumentParser:
     _run_options(p, "outputs/SCENE-colours")
     p.set_defaults(func=cmd_colours)
 
-    p = sub.add_parser("compare", help="before and after: images, false colour, metrics.json and report.html per view")
+    p = sub.add_parser(
+        "compare",
+        help="before and options: images, luminance maps, metrics.json and report.html per view (--after repeats)",
+    )
     p.add_argument("scene", help="scene file (TOML)")
     p.add_argument(
         "--before",
@@ -662,7 +667,13 @@ def build_parser() -> argparse.ArgumentParser:
         help="a setup named in the scene, a lamp id, or key=value items (lamp, lumens, dimming, photometry), "
         "per group as 'GROUP:lamp=ID,dimming=0.8;GROUP2:...'",
     )
-    p.add_argument("--after", required=True, metavar="SETUP", help="as --before")
+    p.add_argument(
+        "--after",
+        required=True,
+        action="append",
+        metavar="SETUP",
+        help="an option to compare with the before setup, as --before (repeat for several options)",
+    )
     p.add_argument(
         "--view", dest="views", action="append", metavar="NAME", help="view to render (repeat; default all views)"
     )
@@ -671,7 +682,10 @@ def build_parser() -> argparse.ArgumentParser:
     _run_options(p, "outputs/SCENE-compare")
     p.set_defaults(func=cmd_compare)
 
-    p = sub.add_parser("demo", help="run the main job on the bundled demo street: sodium before, warm-white LED after")
+    p = sub.add_parser(
+        "demo",
+        help="run the main job on the bundled demo street: sodium before; 3000 K LED, full and dimmed to 50 %%",
+    )
     p.add_argument("--view", dest="views", action="append", metavar="NAME", help="view to render (default all)")
     p.add_argument("--age", type=float, metavar="YEARS", help="observer age")
     _run_options(p, "outputs/demo")

@@ -346,3 +346,21 @@ def test_quiet_hides_progress_bars_on_a_terminal(tmp_path):
     assert code == 0 and "camera rays" in shown  # the bars are there on a terminal...
     code, shown = _stderr_on_a_terminal([*args, "--quiet"], tmp_path)
     assert code == 0 and "camera rays" not in shown and "direct light" not in shown  # ...and not with --quiet
+
+
+def test_demo_shows_before_and_two_options(tmp_path):
+    # Issue 12: the demo report shows the before lighting and two options, the 3000 K LED and
+    # the same dimmed to 50 %. The dimmed option differs from the full one only by its dimming,
+    # so its surface luminance is half (direct light is linear in flux: common practice, no source).
+    out = tmp_path / "demo"
+    assert main(["demo", "--view", "footway", "--width", "96", "--spp", "1", "--out", str(out), "--quiet"]) == 0
+    stored = json.loads((out / "metrics.json").read_text(encoding="utf-8"))
+    setups = list(stored["setups"].values())
+    assert [s["name"] for s in setups] == ["sodium", "led-3000k", "led-3000k-half"]
+    full, half = setups[1]["groups"], setups[2]["groups"]
+    assert {g["lamp"] for g in full.values()} == {g["lamp"] for g in half.values()} == {"led-3000k-cie-b2"}
+    assert {g["dimming"] for g in half.values()} == {0.5}
+    lum = stored["views"][0]["luminance_cd_m2"]
+    keys = list(stored["setups"])
+    assert lum[keys[2]]["mean"] == pytest.approx(0.5 * lum[keys[1]]["mean"], rel=2e-3)  # 4 significant figures
+    assert "option: led-3000k-half" in (out / "report.html").read_text(encoding="utf-8")
