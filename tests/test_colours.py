@@ -801,3 +801,32 @@ def test_name_changes_have_one_column_per_lighting_and_empty_pairs_say_none():
     assert format_confusions(led_only).endswith("LED: none")
     if not led_only.name_change_rows():
         assert format_name_changes(led_only) == "Names that change at night: none"
+
+
+# ------------------------------------------------------------------ pictures a council can read
+
+
+def test_outlined_view_labels_do_not_overlap():
+    # Three objects side by side with the same top edge and long names: centred above each
+    # object (the former placement) the labels overlap; greedy placement separates them
+    # (geometry of the boxes, analytic).
+    from render.output.colour_pictures import place_labels
+
+    anchors = [(20.0, 40.0, 60.0), (30.0, 40.0, 60.0), (40.0, 40.0, 60.0)]
+    sizes = [(30.0, 8.0)] * 3
+    naive = [(cx - 15.0, top - 8.0, cx + 15.0, top) for cx, top, _ in anchors]
+    assert _box_overlap(naive[0], naive[1]) > 0  # the test case does overlap when centred
+    boxes = place_labels(anchors, sizes, 100.0, 100.0)
+    assert len(boxes) == 3
+    for i in range(3):
+        x0, y0, x1, y1 = boxes[i]
+        assert x1 - x0 == pytest.approx(30.0) and y1 - y0 == pytest.approx(8.0)
+        assert 0.0 <= x0 and x1 <= 100.0 and 0.0 <= y0 and y1 <= 100.0
+        for j in range(i):
+            assert _box_overlap(boxes[i], boxes[j]) == 0.0, (boxes[i], boxes[j])
+    # A label that fits just above its object goes there.
+    assert place_labels([(50.0, 40.0, 60.0)], [(10.0, 8.0)], 100.0, 100.0) == [(45.0, 32.0, 55.0, 40.0)]
+
+
+def _box_overlap(a, b):
+    return max(0.0, min(a[2], b[2]) - max(a[0], b[0])) * max(0.0, min(a[3], b[3]) - max(a[1], b[1]))

@@ -55,6 +55,49 @@ HEATMAP_CLASSES = (
 # ------------------------------------------------------------------------------- helpers
 
 
+def _overlap(a: tuple[float, float, float, float], b: tuple[float, float, float, float]) -> float:
+    """Overlap area of two boxes ``(x0, y0, x1, y1)``."""
+    return max(0.0, min(a[2], b[2]) - max(a[0], b[0])) * max(0.0, min(a[3], b[3]) - max(a[1], b[1]))
+
+
+def place_labels(
+    anchors: Sequence[tuple[float, float, float]],
+    sizes: Sequence[tuple[float, float]],
+    width: float,
+    height: float,
+    gap: float = 0.0,
+) -> list[tuple[float, float, float, float]]:
+    """Boxes ``(x0, y0, x1, y1)`` (image coordinates, y down) for labels that do not overlap,
+    by greedy placement (our own simple scheme, no source).
+
+    Each label ``k`` belongs to an object spanning ``anchors[k] = (centre_x, top_y, bottom_y)``
+    and has size ``sizes[k] = (w, h)``. Labels are placed in order of their object's top edge
+    (then centre, then index); each takes the first candidate that lies in the image and
+    overlaps no label placed before: just above its object, just below, then further above and
+    further below in steps of its height. When every candidate overlaps, the one with the least
+    overlap is used. Boxes are kept horizontally inside the image where they fit.
+    """
+    boxes: list[tuple[float, float, float, float] | None] = [None] * len(anchors)
+    order = sorted(range(len(anchors)), key=lambda k: (anchors[k][1], anchors[k][0], k))
+    placed: list[tuple[float, float, float, float]] = []
+    for k in order:
+        cx, top, bottom = anchors[k]
+        w, h = sizes[k]
+        x0 = min(max(cx - 0.5 * w, 0.0), max(width - w, 0.0))
+        steps = int(np.ceil(height / max(h, 1e-9))) + 1
+        tops = []
+        for i in range(steps):
+            tops += [top - gap - (i + 1) * h, bottom + gap + i * h]
+        candidates = [(x0, y, x0 + w, y + h) for y in tops]
+        inside = [c for c in candidates if c[1] >= 0.0 and c[3] <= height] or candidates[:2]
+        best = next((c for c in inside if all(_overlap(c, q) == 0.0 for q in placed)), None)
+        if best is None:
+            best = min(inside, key=lambda c: sum(_overlap(c, q) for q in placed))
+        boxes[k] = best
+        placed.append(best)
+    return [b for b in boxes if b is not None]
+
+
 def _figure(width_in: float, height_in: float, dpi: float = 100.0):
     from matplotlib.figure import Figure
 
@@ -176,10 +219,19 @@ def outlined_view(
     ys = np.arange(h) + 0.5
     lw = line_px * 72.0 / dpi
     stroke = [pe.Stroke(linewidth=lw + 2.0, foreground="black"), pe.Normal()]
+    # Label boxes in image pixels: a 10 pt label is about 0.6 em per character wide and 1.7 em
+    # high with its padding (common practice, no source), at this figure's output scale.
+    em_px = 10.0 * dpi / 72.0 / scale
+    shown_labels = []
     for n, (k, text) in enumerate(labels.items()):
         mask = oid == int(k)
-        if not mask.any():
-            continue
+        if mask.any():
+            rows, cols = np.nonzero(mask)
+            anchor = (0.5 * (cols.min() + cols.max() + 1), float(rows.min()), float(rows.max() + 1))
+            size = ((0.62 * len(str(text)) + 0.8) * em_px, 1.75 * em_px)
+            shown_labels.append((n, str(text), mask, anchor, size))
+    boxes = place_labels([s[3] for s in shown_labels], [s[4] for s in shown_labels], w, h, gap=0.01 * h)
+    for (n, text, mask, _, _), box in zip(shown_labels, boxes):
         colour = OUTLINE_COLOURS[n % len(OUTLINE_COLOURS)]
         padded = np.pad(mask.astype(float), 1)
         cs = ax.contour(
@@ -191,16 +243,12 @@ def outlined_view(
             linewidths=lw,
         )
         cs.set_path_effects(stroke)
-        rows, cols = np.nonzero(mask)
-        top = rows.min()
-        cx = 0.5 * (cols.min() + cols.max() + 1)
-        above = top > 0.06 * h
         ax.text(
-            cx,
-            top - 0.01 * h if above else rows.max() + 1 + 0.01 * h,
-            str(text),
+            0.5 * (box[0] + box[2]),
+            0.5 * (box[1] + box[3]),
+            text,
             ha="center",
-            va="bottom" if above else "top",
+            va="center",
             fontsize=10,
             color="black",
             clip_on=True,
