@@ -200,10 +200,17 @@ def cmd_check(args: argparse.Namespace) -> int:
 
 
 def _setup_from_args(study: Study, args: argparse.Namespace) -> Setup | None:
-    """The setup named by --setup, or one made from --lamp (all groups), or None."""
+    """The setup named by --setup, or one made from --lamp (all groups), or None; both given
+    is an error naming both."""
     from render.colour.lamps import get_lamp
     from render.scene.model import GroupSetting, Setup
 
+    if getattr(args, "lamp", None) and getattr(args, "setup", None):
+        raise input_error(
+            "command line",
+            "--setup, --lamp",
+            f"--setup {args.setup!r} and --lamp {args.lamp!r} both choose the lamps: give one of them",
+        )
     if getattr(args, "lamp", None):
         get_lamp(args.lamp, base_dir=Path.cwd(), source="--lamp")
         return Setup(f"lamp {args.lamp}", f"all luminaires with lamp {args.lamp}", {"*": GroupSetting(lamp=args.lamp)})

@@ -364,3 +364,14 @@ def test_demo_shows_before_and_two_options(tmp_path):
     keys = list(stored["setups"])
     assert lum[keys[2]]["mean"] == pytest.approx(0.5 * lum[keys[1]]["mean"], rel=2e-3)  # 4 significant figures
     assert "option: led-3000k-half" in (out / "report.html").read_text(encoding="utf-8")
+
+
+def test_setup_and_lamp_together_is_an_error_naming_both(tmp_path, capsys):
+    # Issue 12: `render --setup X --lamp Y` used to let --lamp win silently.
+    scene = Path(__file__).resolve().parents[1] / "scenes" / "demo" / "linden_row.toml"
+    out = tmp_path / "out"
+    code = main(["render", str(scene), "--setup", "sodium", "--lamp", "led-3000k-cie-b2", "--out", str(out)])
+    err = capsys.readouterr().err
+    assert code == 2
+    assert "--setup" in err and "--lamp" in err and "sodium" in err and "led-3000k-cie-b2" in err
+    assert not [p for p in tmp_path.rglob("*") if p.is_file()]  # nothing rendered
