@@ -767,6 +767,12 @@ def test_colours_command_colour_view(tmp_path, capsys):
     assert "in view 'bin'" in capsys.readouterr().out
     forced = json.loads((tmp_path / "bin" / "bin-colours.json").read_text(encoding="utf-8"))
     assert [o["view"] for o in forced["objects"]] == ["bin", "bin"]
+    # every picture carries its alt text as the PNG's Description (PNG 1.2 text keywords)
+    from PIL import Image
+
+    for png in (tmp_path / "bin").glob("*.png"):
+        with Image.open(png) as im:
+            assert len(im.info.get("Description", "")) > 40, png.name
 
 
 # ------------------------------------------------------------ empty and merged tables (issue 12.5)
@@ -830,3 +836,24 @@ def test_outlined_view_labels_do_not_overlap():
 
 def _box_overlap(a, b):
     return max(0.0, min(a[2], b[2]) - max(a[0], b[0])) * max(0.0, min(a[3], b[3]) - max(a[1], b[1]))
+
+
+def test_alt_texts_say_what_each_picture_shows(tmp_path):
+    # Alt text names what is drawn (WCAG 2.1 success criterion 1.1.1, non-text content): the
+    # objects outlined and those not visible, the lightings of the swatches, the confusable
+    # pairs of the ΔE00 matrices (or that there are none), the lamps of the spectrum strips.
+    from render.output.colour_files import colour_picture_alt_texts
+
+    objects, setups = _street_setups()
+    result = colour_analysis(objects, {k: v[0] for k, v in setups.items()})
+    alt = colour_picture_alt_texts(result, ["sodium-low-pressure", "led-4000k-violet-cie-v2"])
+    assert set(alt) == {"outlined", "swatches", "heatmap", "spectra"}
+    assert "8 tagged objects outlined" in alt["outlined"] and "Not visible there: hidden." in alt["outlined"]
+    assert "low-pressure sodium, LED" in alt["swatches"]
+    for r in result.name_change_rows():
+        assert r["object"] in alt["swatches"]
+    for c in result.confusion_rows():
+        assert f"{c['a']} and {c['b']} under {c['setup']}" in alt["heatmap"]
+    assert "sodium-low-pressure, led-4000k-violet-cie-v2" in alt["spectra"]
+    led_only = colour_analysis(objects, {"LED": setups["LED"][0]})
+    assert "No pair becomes hard to tell apart." in colour_picture_alt_texts(led_only)["heatmap"]

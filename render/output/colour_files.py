@@ -33,7 +33,7 @@ if TYPE_CHECKING:
     from render.study import RenderedView
     from render.vision.pipeline import DisplayResult
 
-__all__ = ["write_colour_json", "write_colour_pictures"]
+__all__ = ["colour_picture_alt_texts", "write_colour_json", "write_colour_pictures"]
 
 
 def write_colour_pictures(
@@ -52,6 +52,11 @@ def write_colour_pictures(
     names = result.object_names
     setups = list(result.setups)
     written: dict[str, Path] = {}
+    alt = colour_picture_alt_texts(result, [name for name, _ in lamps])
+
+    def described(key: str) -> dict[str, str]:
+        return {**(text or {}), "Description": alt[key]}
+
     object_id = pixel_object_ids(rendered[0].buffers)
     written["outlined"] = pictures.outlined_view(
         displays[-1].srgb8,
@@ -59,7 +64,7 @@ def write_colour_pictures(
         {o.id: o.name for o in result.objects},
         out_dir / f"{prefix}objects.png",
         title=f"tagged objects ({setups[-1]})",
-        png_text=text,
+        png_text=described("outlined"),
     )
     labs = np.full((len(names), 1 + len(setups), 3), np.nan)
     terms: list[list[str | None]] = [[None] * (1 + len(setups)) for _ in names]
@@ -79,21 +84,73 @@ def write_colour_pictures(
         out_dir / f"{prefix}swatches.png",
         terms=terms,
         title="object colours: daylight and as seen at night",
-        png_text=text,
+        png_text=described("swatches"),
     )
     matrices = {"daylight (D65)": _matrix_array(result.daylight.delta_e00)}
     for s in setups:
         matrices[s] = _matrix_array(result.setups[s].delta_e00)
     written["heatmap"] = pictures.delta_e_heatmap(
-        matrices, names, out_dir / f"{prefix}delta-e00.png", title="CIEDE2000 between tagged objects", png_text=text
+        matrices,
+        names,
+        out_dir / f"{prefix}delta-e00.png",
+        title="CIEDE2000 between tagged objects",
+        png_text=described("heatmap"),
     )
     written["spectra"] = pictures.spectrum_strip_figure(
         list(lamps),
         out_dir / f"{prefix}spectrum-strips.png",
         title="the lamps' light spread by a grating",
-        png_text=text,
+        png_text=described("spectra"),
     )
     return written
+
+
+def colour_picture_alt_texts(result: ColourAnalysis, lamp_names: Sequence[str] = ()) -> dict[str, str]:
+    """What each picture of :func:`write_colour_pictures` shows, in words (alt text), keyed
+    like its result (``outlined``, ``swatches``, ``heatmap``, ``spectra``); also written into
+    each PNG as its ``Description``."""
+    names = result.object_names
+    setups = list(result.setups)
+    last = setups[-1] if setups else "the scene's light"
+    views = sorted({o.view for o in result.objects if o.view is not None})
+    where = f" in view{'s' if len(views) > 1 else ''} {', '.join(repr(v) for v in views)}" if views else ""
+    seen = [n for n in names if setups and result.setups[last].objects[n].visible]
+    hidden = [n for n in names if n not in seen]
+    outlined = f"The street{where} under {last} with {_count(len(seen), 'tagged object')} outlined and labelled"
+    outlined += f": {', '.join(seen)}." if seen else "."
+    if hidden:
+        outlined += f" Not visible there: {', '.join(hidden)}."
+    changes = []
+    for r in result.name_change_rows():
+        under = "; ".join(f"{label}: {r['setups'][label]}" for label in r["changed"])
+        changes.append(f"{r['object']} ({under})")
+    swatches = (
+        f"Colour swatches of {_count(len(names), 'tagged object')}, one row per object: its daylight colour, then "
+        f"its colour as seen under {', '.join(setups) or 'no lighting'}, each with its predicted colour name. "
+        + (f"Names that change at night: {', '.join(changes)}." if changes else "No name changes at night.")
+    )
+    pairs = [f"{c['a']} and {c['b']} under {c['setup']} (ΔE00 {c['delta_e00']:.1f})" for c in result.confusion_rows()]
+    heatmap = (
+        "CIEDE2000 colour differences between every pair of tagged objects, in daylight and under "
+        f"{', '.join(setups) or 'no lighting'}; below {result.thresholds.hard_delta_e00:g} two colours are hard to "
+        "tell apart. "
+        + (
+            f"Pairs that become hard to tell apart: {', '.join(pairs)}."
+            if pairs
+            else "No pair becomes hard to tell apart."
+        )
+    )
+    spectra = (
+        f"The light of {', '.join(lamp_names)} spread by wavelength from violet to red, one strip per lamp: "
+        "a lamp whose light is a few narrow lines renders few hues."
+        if lamp_names
+        else "The lamps' light spread by wavelength from violet to red, one strip per lamp."
+    )
+    return {"outlined": outlined, "swatches": swatches, "heatmap": heatmap, "spectra": spectra}
+
+
+def _count(n: int, noun: str) -> str:
+    return f"{n} {noun}" + ("" if n == 1 else "s")
 
 
 def _matrix_array(matrix: Sequence[Sequence[float | None]]) -> np.ndarray:
