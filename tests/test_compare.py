@@ -46,9 +46,9 @@ def test_every_output_written(run):
         f"wipe-{option}.gif",
         "luminance-before.png",
         f"luminance-{option}.png",
-        "luminance-legend.png",
     ):
         assert (view_dir / name).stat().st_size > 0, name
+    assert (run.out_dir / "luminance-legend.png").stat().st_size > 0
     assert (run.out_dir / "metrics.json").exists() and (run.out_dir / "report.html").exists()
 
 
@@ -234,6 +234,49 @@ def test_luminance_maps_are_named_as_such(run):
     assert "falsecolour" not in text and "false-colour" not in text.lower() and "false colour" not in text.lower()
     assert "Luminance map" in (run.out_dir / "report.html").read_text(encoding="utf-8")
     assert "luminance-before.png" in files
+
+
+def test_one_luminance_scale_and_legend_per_report(tmp_path):
+    # Issue 12, item 7: one luminance-map scale for every view and option of a report, with its
+    # legend once. The demo's footway and aerial views (0.0001-1 and 0.001-10 cd/m² on their own)
+    # and both options must share the scale (whole decades over all images, at most four below
+    # the top: common practice, no source).
+    import numpy as np
+    from PIL import Image
+
+    from render.output.comparison import luminance_scale
+    from render.study import Study
+
+    study = Study(ROOT / "scenes" / "demo" / "linden_row.toml")
+    result = run_comparison(
+        study,
+        "sodium",
+        ["led-3000k", "led-3000k-half"],
+        ["footway", "aerial"],
+        tmp_path,
+        width_px=64,
+        samples_per_pixel=1,
+        progress=False,
+        colour=False,
+        report=True,
+    )
+    assert len(result.metrics.views) == 2
+    lo, hi = result.metrics.luminance_scale_cd_m2
+    legends = [p for p in tmp_path.rglob("*legend*")]
+    assert legends == [tmp_path / "luminance-legend.png"]
+    scales = {
+        Image.open(tmp_path / path).text["lampcast.luminance_scale_cd_m2"]
+        for v in result.metrics.views
+        for path in v.images.luminance.values()
+    }
+    assert scales == {f"{lo:g} to {hi:g}"}
+    page = (tmp_path / "report.html").read_text(encoding="utf-8")
+    assert page.count("Legend of every luminance map") == 1
+    # The scale is taken over every image together, not per view.
+    a, b = np.full((4, 4), 2e-3), np.full((4, 4), 5.0)
+    joint = luminance_scale([a, b])
+    assert joint[0] <= 2e-3 and joint[1] >= 5.0
+    assert joint != luminance_scale([a]) and joint != luminance_scale([b])
 
 
 def test_several_options_in_one_report(tmp_path, monkeypatch):

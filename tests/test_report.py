@@ -146,7 +146,6 @@ def make_inputs(
                 "after": _write(out_dir, f"{d}/side_by_side.png", np.concatenate([before_shared, after_shared], axis=1))
             },
             "wipe": {"after": _write(out_dir, f"{d}/wipe.gif", wipe, duration=300, loop=0)},
-            "luminance_legend": _write(out_dir, f"{d}/luminance_legend.png", _legend(height)),
         }
         views.append(
             {
@@ -202,6 +201,8 @@ def make_inputs(
         },
         "lamps": lamps,
         "views": views,
+        "luminance_legend": _write(out_dir, "luminance_legend.png", _legend(height)),
+        "luminance_scale_cd_m2": [0.01, 10.0],
         "summary": [
             "The street will look about 40% darker to a driver arriving from the main road.",
             "Colours of cars and bins will be easier to tell apart.",
@@ -509,11 +510,12 @@ def test_controls_are_labelled_and_images_have_alt_text(report):
         assert img.attrs.get("alt", "").strip()
     # Every image of every view is in the page, each embedded once per use: per view every
     # setup's shared and adapted image (left of the divide), the right-hand pair, a luminance
-    # map per setup, the legend, and per option a side-by-side image and a wipe.
+    # map per setup, and per option a side-by-side image and a wipe; the legend once.
     imgs = [n for n in nodes if n.tag == "img"]
     n_setups = len(metrics["setups"])
-    per_view = 2 * n_setups + 2 + n_setups + 1 + 2 * (n_setups - 1)
-    assert len(imgs) == len(metrics["views"]) * per_view + len(metrics["extra_sections"][0]["images"])
+    per_view = 2 * n_setups + 2 + n_setups + 2 * (n_setups - 1)
+    extra = len(metrics["extra_sections"][0]["images"])
+    assert len(imgs) == len(metrics["views"]) * per_view + 1 + extra  # one legend for the report
     # Slider labels name the setups.
     tags = [n.text() for n in nodes if n.tag == "span" and "tag" in n.attrs.get("class", "").split()]
     assert tags.count(f"before: {metrics['setups']['before']['name']}") == len(metrics["views"])

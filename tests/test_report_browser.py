@@ -146,8 +146,8 @@ def test_report_in_headless_chromium(served_report, tmp_path):
             # Every embedded image decodes (a broken data URI would give naturalWidth 0).
             assert page.evaluate("Array.from(document.images).every(i => i.complete && i.naturalWidth > 0)")
             # Per view: before and after in both exposures left of the divide, the right-hand
-            # pair, two luminance maps and their legend, one side-by-side image and one wipe.
-            assert page.evaluate("document.images.length") == len(metrics["views"]) * 11 + 1
+            # pair, two luminance maps, one side-by-side image and one wipe; one legend for all.
+            assert page.evaluate("document.images.length") == len(metrics["views"]) * 10 + 1 + 1
             save("report_full_page.png", page.screenshot(full_page=True))
 
             stage = page.locator("#stage-0")

@@ -4,8 +4,8 @@ For each view the camera rays are cast once; the "before" setup is evaluated on 
 option (an "after" setup; one or several) re-lights the same buffers (re-evaluating the light
 at the kept hit points only if it changes a photometric distribution). All are shown through
 the night-vision stage in ``shared`` exposure (one adaptation state: their true brightness
-relation), in ``adapted`` exposure (each for an eye adapted to it) and as luminance maps with
-one shared legend.
+relation), in ``adapted`` exposure (each for an eye adapted to it) and as luminance maps on
+one scale for the whole report (every view, every setup), with one legend.
 
 Everything written is listed in ``metrics.json`` together with the figures the report shows:
 the typed records of :mod:`render.output.metrics` (:class:`~render.output.metrics.ComparisonMetrics`),
@@ -65,10 +65,13 @@ if TYPE_CHECKING:
 
 __all__ = [
     "CAUTIONS",
+    "LUMINANCE_LEGEND",
     "SETUP_KEYS",
     "ComparisonResult",
     "colour_report_section",
-    "luminance_map_pair",
+    "luminance_legend",
+    "luminance_maps",
+    "luminance_scale",
     "luminance_stats",
     "parse_setup",
     "run_comparison",
@@ -92,6 +95,9 @@ CAUTIONS = (
 )
 
 SETUP_KEYS = ("lamp", "lumens", "dimming", "photometry")
+
+#: The one legend of a report's luminance maps (their scale is shared by every view and setup).
+LUMINANCE_LEGEND = "luminance-legend.png"
 
 
 def parse_setup(text: str, scene: Scene, label: str) -> Setup:
@@ -307,20 +313,30 @@ def setup_keys(setups: Sequence[Setup]) -> list[str]:
     return [BEFORE, *unique_stems([s.name for s in setups[1:]], RESERVED_KEYS)]
 
 
-def luminance_map_pair(rendered: Sequence[RenderedView]) -> tuple[list[np.ndarray], np.ndarray]:
-    """Luminance maps (8-bit sRGB) of the rendered views on one log scale, and the legend.
+def luminance_scale(luminances_cd_m2: Sequence[np.ndarray]) -> tuple[float, float]:
+    """The one (lo, hi) luminance-map scale in cd/m² of a report: whole decades
+    (:func:`render.vision.falsecolour.shared_range_decades`) over every image given (every view
+    under every setup)."""
+    from render.vision.falsecolour import shared_range_decades
 
-    The scale is :func:`render.vision.falsecolour.shared_range_decades` (whole decades) over
-    all of them, on our own perceptually ordered ramp."""
+    return shared_range_decades(luminances_cd_m2)
+
+
+def luminance_maps(luminances_cd_m2: Sequence[np.ndarray], lo_cd_m2: float, hi_cd_m2: float) -> list[np.ndarray]:
+    """Luminance maps (8-bit sRGB) of the images on the log scale [lo, hi] (our own perceptually
+    ordered ramp, :func:`render.vision.falsecolour.false_colour`)."""
+    from render.vision.display import quantise, srgb_encode
+    from render.vision.falsecolour import false_colour
+
+    return [quantise(srgb_encode(false_colour(y, lo_cd_m2, hi_cd_m2)), 8) for y in luminances_cd_m2]
+
+
+def luminance_legend(height_px: int, lo_cd_m2: float, hi_cd_m2: float) -> np.ndarray:
+    """The legend (8-bit sRGB) of luminance maps on the scale [lo, hi]."""
     from render.output.luminance_legend import legend_strip
     from render.vision.display import quantise, srgb_encode
-    from render.vision.falsecolour import false_colour, shared_range_decades
 
-    ys = [r.colorimetry.luminance_cd_m2 for r in rendered]
-    lo, hi = shared_range_decades(ys)
-    images = [quantise(srgb_encode(false_colour(y, lo, hi)), 8) for y in ys]
-    legend = quantise(srgb_encode(legend_strip(ys[0].shape[0], lo, hi, "luminance (cd/m²)", 120)), 8)
-    return images, legend
+    return quantise(srgb_encode(legend_strip(height_px, lo_cd_m2, hi_cd_m2, "luminance (cd/m²)", 120)), 8)
 
 
 def _tagged_objects_visible(study: Study, rendered: RenderedView, min_pixels: int = 20) -> int:
@@ -498,6 +514,7 @@ def run_comparison(
     camera = None
     view_metrics: list[ViewMetrics] = []
     colour_view = None
+    pending: list[tuple[ViewImages, list[dict[str, str]], list[np.ndarray]]] = []
     for name in view_names:
         vdir = out / file_stem(name)
         vdir.mkdir(exist_ok=True)
@@ -507,7 +524,6 @@ def run_comparison(
             descriptions = {k: setup_description(s, r.lights) for k, s, r in zip(keys, setups, rendered)}
         camera = rb.camera
         shared, adapted = study.display_both(rendered, observer)
-        maps, legend = luminance_map_pair(rendered)
         images = ViewImages.in_folder(vdir.name, keys)
 
         def meta(r: RenderedView, mode: str) -> dict[str, str]:
@@ -515,11 +531,13 @@ def run_comparison(
             m["lampcast.comparison"] = compared
             return m
 
-        for key, r, sh, ad, lm in zip(keys, rendered, shared, adapted, maps):
+        # The luminance maps wait for every view: their scale is one for the whole report.
+        pending.append(
+            (images, [meta(r, "photometric") for r in rendered], [r.colorimetry.luminance_cd_m2 for r in rendered])
+        )
+        for key, r, sh, ad in zip(keys, rendered, shared, adapted):
             write_png(out / images.shared[key], sh.srgb8, sh.png_text(meta(r, "shared")))
             write_png(out / images.adapted[key], ad.srgb8, ad.png_text(meta(r, "adapted")))
-            write_png(out / images.luminance[key], lm, meta(r, "photometric"))
-        write_png(out / images.luminance_legend, legend, {**meta(rb, "photometric legend"), "lampcast.setup": compared})
         word = "after" if len(setups) == 2 else "option"
         for key, s, r, sh in zip(keys[1:], setups[1:], rendered[1:], shared[1:]):
             sbs = side_by_side(shared[0].srgb8, sh.srgb8, f"before: {setups[0].name}", f"{word}: {s.name}")
@@ -547,6 +565,15 @@ def run_comparison(
                 ),
             )
         )
+    lo, hi = luminance_scale([y for *_, ys in pending for y in ys])
+    scale_text = {"lampcast.luminance_scale_cd_m2": f"{lo:g} to {hi:g}"}
+    for images, metas, ys in pending:
+        for key, m, lm in zip(keys, metas, luminance_maps(ys, lo, hi)):
+            write_png(out / images.luminance[key], lm, {**m, **scale_text})
+    legend_text = {**pending[0][1][0], "lampcast.mode": "photometric legend", "lampcast.setup": compared, **scale_text}
+    legend_text.pop("lampcast.view", None)  # one legend for every view
+    write_png(out / LUMINANCE_LEGEND, luminance_legend(pending[0][2][0].shape[0], lo, hi), legend_text)
+    del pending
     sections = tuple(extra_sections)
     colours = None
     if colour_view is not None:
@@ -570,6 +597,8 @@ def run_comparison(
         extra_sections=sections,
         colours=colours,
         lamps=lamps,
+        luminance_legend=LUMINANCE_LEGEND,
+        luminance_scale_cd_m2=(published(lo), published(hi)),
     )
     metrics = replace(metrics, summary=tuple(summary_sentences(metrics)))
     text = json.dumps(metrics.to_json(), indent=2, sort_keys=False, ensure_ascii=False) + "\n"

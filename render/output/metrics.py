@@ -285,7 +285,8 @@ class ViewImages:
     ``shared``, ``adapted`` and ``luminance`` map every setup key (``"before"`` and each
     option) to its shared-exposure image, adapted-exposure image and luminance map;
     ``side_by_side`` and ``wipe`` map each option's key to its image beside / wiping into the
-    "before" image; ``luminance_legend`` is the legend of the luminance maps.
+    "before" image. The legend of the luminance maps is the report's
+    (:attr:`ComparisonMetrics.luminance_legend`): one scale for every view.
     """
 
     shared: Mapping[str, str]
@@ -293,7 +294,6 @@ class ViewImages:
     luminance: Mapping[str, str]
     side_by_side: Mapping[str, str]
     wipe: Mapping[str, str]
-    luminance_legend: str
 
     @classmethod
     def in_folder(cls, folder: str, keys: Sequence[str]) -> ViewImages:
@@ -306,7 +306,6 @@ class ViewImages:
             luminance={k: f"{folder}/luminance-{k}.png" for k in keys},
             side_by_side={k: f"{folder}/side-by-side-{k}.png" for k in options},
             wipe={k: f"{folder}/wipe-{k}.gif" for k in options},
-            luminance_legend=f"{folder}/luminance-legend.png",
         )
 
     def files(self) -> tuple[str, ...]:
@@ -314,7 +313,7 @@ class ViewImages:
         out: list[str] = []
         for group in (self.shared, self.adapted, self.luminance, self.side_by_side, self.wipe):
             out += group.values()
-        return (*out, self.luminance_legend)
+        return tuple(out)
 
     def to_json(self) -> dict[str, Any]:
         return _fields_json(self)
@@ -330,7 +329,6 @@ class ViewImages:
             paths("luminance"),
             paths("side_by_side"),
             paths("wipe"),
-            str(data["luminance_legend"]),
         )
 
 
@@ -481,6 +479,8 @@ class ComparisonMetrics:
     extra_sections: tuple[ReportSection, ...] = ()
     colours: ColourSummary | None = None
     lamps: Mapping[str, LampFigures] | None = None
+    luminance_legend: str | None = None
+    luminance_scale_cd_m2: tuple[float, float] | None = None
 
     def to_json(self) -> dict[str, Any]:
         """The content of ``metrics.json`` (JSON-safe; keys in a fixed order)."""
@@ -494,6 +494,7 @@ class ComparisonMetrics:
         """The records of a ``metrics.json`` content (e.g. ``json.load`` of the file)."""
         setups = data.get("setups") or {}
         colours = data.get("colours")
+        scale = data.get("luminance_scale_cd_m2")
         return cls(
             tool=ToolInfo.from_json(data.get("tool") or {}),
             scene=SceneInfo.from_json(data.get("scene") or {}),
@@ -509,6 +510,8 @@ class ComparisonMetrics:
             extra_sections=tuple(ReportSection.from_json(s) for s in data.get("extra_sections") or ()),
             colours=None if colours is None else ColourSummary.from_json(colours),
             lamps={str(k): LampFigures.from_json(v) for k, v in (data.get("lamps") or {}).items()},
+            luminance_legend=data.get("luminance_legend"),
+            luminance_scale_cd_m2=None if scale is None else (scale[0], scale[1]),
         )
 
     @property

@@ -104,7 +104,18 @@ _ID_SAFE = re.compile(r"^[A-Za-z][A-Za-z0-9_-]*$")
 
 #: Anchors of the page's own parts (extra sections get others).
 _FIXED_ANCHORS = frozenset(
-    {"main", "summary", "lamps", "observer", "cautions-title", "summary-title", "lamps-title", "observer-title"}
+    {
+        "main",
+        "summary",
+        "lamps",
+        "observer",
+        "cautions-title",
+        "summary-title",
+        "lamps-title",
+        "observer-title",
+        "luminance-scale",
+        "luminance-scale-title",
+    }
 )
 
 
@@ -215,14 +226,13 @@ class SetupImages:
 @dataclass(frozen=True)
 class ViewPart:
     """One view's part of the page: every setup's images (the "before" first; ``right`` is
-    the one shown right of the divide at first: the first option), the luminance legend, and
-    the luminance and adaptation tables."""
+    the one shown right of the divide at first: the first option) and the luminance and
+    adaptation tables."""
 
     index: int
     name: str
     notes: str
     setups: tuple[SetupImages, ...]
-    luminance_legend: EmbeddedImage
     luminance: Table
     adaptation: Table
 
@@ -282,6 +292,8 @@ class Page:
     extras: tuple[ExtraPart, ...]
     observer: Table
     settings: Table
+    luminance_legend: EmbeddedImage | None = None
+    luminance_scale: tuple[NumberCell, NumberCell] | None = None
 
 
 # --- building it -------------------------------------------------------------------------------
@@ -385,7 +397,6 @@ def _view_part(i: int, view: ViewMetrics, metrics: ComparisonMetrics, images: Im
         name=view.name,
         notes=view.notes or "",
         setups=parts,
-        luminance_legend=images.get(img.luminance_legend),
         luminance=luminance,
         adaptation=adaptation,
     )
@@ -524,6 +535,8 @@ def build_page(metrics: ComparisonMetrics, images: ImageFolder) -> Page:
     taken = set(_FIXED_ANCHORS) | {f"view-{i}" for i in range(len(views))}
     extras, extra_nav = _extra_parts(metrics.extra_sections, images, taken)
     nav = [("summary", "In short")]
+    if metrics.luminance_legend is not None:
+        nav.append(("luminance-scale", "Luminance maps: the scale"))
     nav += [(f"view-{v.index}", f"View: {v.name}") for v in views]
     nav += [("lamps", "The lamps"), *extra_nav, ("observer", "Observer and settings")]
     notes = _Footnotes()
@@ -563,4 +576,10 @@ def build_page(metrics: ComparisonMetrics, images: ImageFolder) -> Page:
         extras=extras,
         observer=observer,
         settings=settings,
+        luminance_legend=None if metrics.luminance_legend is None else images.get(metrics.luminance_legend),
+        luminance_scale=None
+        if metrics.luminance_scale_cd_m2 is None
+        else tuple(
+            NumberCell(f"luminance_scale_cd_m2.{k}", v, "sig3") for k, v in enumerate(metrics.luminance_scale_cd_m2)
+        ),
     )
