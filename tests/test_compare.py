@@ -340,3 +340,28 @@ def test_second_after_flag_adds_an_option(tmp_path):
     assert code == 0
     stored = json.loads((out / "metrics.json").read_text(encoding="utf-8"))
     assert [s["name"] for s in stored["setups"].values()] == ["old", "new <u>LED</u>", "led-3000k-cie-b2"]
+
+
+def test_views_with_one_file_stem_do_not_overwrite_each_other(tmp_path):
+    # Issue 12, item 1: "bins & cars" and "bins / cars" (or "a b" and "a-b") gave one folder, so
+    # the second view's pictures stood beside the first view's numbers. Each view now gets its
+    # own folder (a suffix, in view order) and metrics.json and the report point at its files.
+    from PIL import Image
+
+    text = (SCENES / "markup_names.toml").read_text(encoding="utf-8")
+    view = text[text.index("[[views]]") : text.index("[render]")]
+    names = ["bins & cars", "bins / cars", "a b", "a-b", "colours"]
+    views = "".join(
+        view.replace('"<svg onload=alert(2)>"', f'"{n}"').replace("[25.0, 0.0, 1.0]", f"[25.0, {k}.0, 1.0]")
+        for k, n in enumerate(names)
+    )
+    scene = tmp_path / "same_stems.toml"
+    scene.write_text(text.replace(view, views), encoding="utf-8")
+    out = tmp_path / "out"
+    result = run_comparison(scene, "old", "new <u>LED</u>", None, out, progress=False, colour=False)
+    folders = [v.images.shared["before"].split("/")[0] for v in result.metrics.views]
+    assert folders == ["bins---cars", "bins---cars-2", "a-b", "a-b-2", "colours-2"]
+    for v in result.metrics.views:
+        assert Image.open(out / v.images.shared["before"]).text["lampcast.view"] == v.name
+    again = run_comparison(scene, "old", "new <u>LED</u>", None, tmp_path / "again", progress=False, colour=False)
+    assert [v.images for v in again.metrics.views] == [v.images for v in result.metrics.views]

@@ -514,9 +514,12 @@ def run_comparison(
     camera = None
     view_metrics: list[ViewMetrics] = []
     colour_view = None
+    # Views whose names give one file stem ("a b", "a-b") get distinct folders; "colours" is
+    # the colour analysis' folder.
+    folders = dict(zip(view_names, unique_stems(view_names, frozenset({"colours"}))))
     pending: list[tuple[ViewImages, list[dict[str, str]], list[np.ndarray]]] = []
     for name in view_names:
-        vdir = out / file_stem(name)
+        vdir = out / folders[name]
         vdir.mkdir(exist_ok=True)
         rb = study.render_view(name, setups[0], samples_per_pixel=spp, width_px=width_px, progress=progress)
         rendered = [rb, *(study.relight(rb, s, progress=progress) for s in setups[1:])]
