@@ -857,3 +857,34 @@ def test_alt_texts_say_what_each_picture_shows(tmp_path):
     assert "sodium-low-pressure, led-4000k-violet-cie-v2" in alt["spectra"]
     led_only = colour_analysis(objects, {"LED": setups["LED"][0]})
     assert "No pair becomes hard to tell apart." in colour_picture_alt_texts(led_only)["heatmap"]
+
+
+def test_many_objects_get_a_ranked_list_of_the_closest_pairs_at_report_width(tmp_path):
+    # 16 objects under daylight and four lightings: the full matrices would be over 40 inches
+    # wide (8 pt numbers scaled to a quarter at report width); the ranked list keeps the report
+    # width at 100 dpi and ranks pairs by their smallest night ΔE00 (definition, analytic).
+    import imageio.v3 as iio
+
+    from render.output.colour_pictures import (
+        REPORT_WIDTH_IN,
+        closest_pairs,
+        closest_pairs_figure,
+        heatmap_fits,
+        heatmap_width_in,
+    )
+
+    names = [f"object number {k}" for k in range(16)]
+    assert not heatmap_fits(names, 5) and heatmap_width_in(names, 5) > 3 * REPORT_WIDTH_IN
+    assert heatmap_fits(["car", "bin", "sign"], 3)
+    rng = np.random.default_rng(7)
+    day = rng.uniform(10, 60, (16, 16))
+    night = rng.uniform(0.5, 40, (16, 16))
+    night[3, 9] = night[9, 3] = 0.2
+    night[2, 5] = night[5, 2] = np.nan  # not visible: ranked last
+    mats = {"daylight (D65)": (day + day.T) / 2, "night": (night + night.T) / 2}
+    ranked = closest_pairs(mats, names, 200)
+    assert ranked[0] == (3, 9) and ranked[-1] == (2, 5) and len(ranked) == 16 * 15 // 2
+    vals = [mats["night"][i, j] for i, j in ranked[:-1]]
+    assert vals == sorted(vals)
+    path = closest_pairs_figure(mats, names, tmp_path / "pairs.png", count=15, title="closest pairs")
+    assert iio.imread(path).shape[1] <= round(REPORT_WIDTH_IN * 100)

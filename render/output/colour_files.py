@@ -33,7 +33,10 @@ if TYPE_CHECKING:
     from render.study import RenderedView
     from render.vision.pipeline import DisplayResult
 
-__all__ = ["colour_picture_alt_texts", "write_colour_json", "write_colour_pictures"]
+__all__ = ["CLOSEST_PAIRS", "colour_picture_alt_texts", "write_colour_json", "write_colour_pictures"]
+
+#: Pairs shown when the ΔE00 matrices are too wide for the report (the closest first).
+CLOSEST_PAIRS = 15
 
 
 def write_colour_pictures(
@@ -89,13 +92,22 @@ def write_colour_pictures(
     matrices = {"daylight (D65)": _matrix_array(result.daylight.delta_e00)}
     for s in setups:
         matrices[s] = _matrix_array(result.setups[s].delta_e00)
-    written["heatmap"] = pictures.delta_e_heatmap(
-        matrices,
-        names,
-        out_dir / f"{prefix}delta-e00.png",
-        title="CIEDE2000 between tagged objects",
-        png_text=described("heatmap"),
-    )
+    # The matrices when they can be read at report width, else the closest pairs ranked.
+    heatmap_path = out_dir / f"{prefix}delta-e00.png"
+    if pictures.heatmap_fits(names, len(matrices)):
+        written["heatmap"] = pictures.delta_e_heatmap(
+            matrices, names, heatmap_path, title="CIEDE2000 between tagged objects", png_text=described("heatmap")
+        )
+    else:
+        shown = min(CLOSEST_PAIRS, len(names) * (len(names) - 1) // 2)
+        written["heatmap"] = pictures.closest_pairs_figure(
+            matrices,
+            names,
+            heatmap_path,
+            count=CLOSEST_PAIRS,
+            title=f"the {shown} closest pairs of tagged objects (CIEDE2000)",
+            png_text=described("heatmap"),
+        )
     written["spectra"] = pictures.spectrum_strip_figure(
         list(lamps),
         out_dir / f"{prefix}spectrum-strips.png",
@@ -130,8 +142,16 @@ def colour_picture_alt_texts(result: ColourAnalysis, lamp_names: Sequence[str] =
         + (f"Names that change at night: {', '.join(changes)}." if changes else "No name changes at night.")
     )
     pairs = [f"{c['a']} and {c['b']} under {c['setup']} (ΔE00 {c['delta_e00']:.1f})" for c in result.confusion_rows()]
+    pair_count = len(names) * (len(names) - 1) // 2
+    whole = pictures.heatmap_fits(names, 1 + len(setups))
     heatmap = (
-        "CIEDE2000 colour differences between every pair of tagged objects, in daylight and under "
+        (
+            "CIEDE2000 colour differences between every pair of tagged objects"
+            if whole
+            else f"The {min(CLOSEST_PAIRS, pair_count)} closest of the {pair_count} pairs of tagged objects, "
+            "ranked by their smallest CIEDE2000 colour difference at night, with their differences"
+        )
+        + ", in daylight and under "
         f"{', '.join(setups) or 'no lighting'}; below {result.thresholds.hard_delta_e00:g} two colours are hard to "
         "tell apart. "
         + (

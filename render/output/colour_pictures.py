@@ -380,6 +380,113 @@ def swatch_sheet(
 # ---------------------------------------------------------------------------- ΔE00 heat map
 
 
+#: Width of the report's pictures, inches at 100 dpi (the report's 72 rem column at 16 px).
+REPORT_WIDTH_IN = 11.5
+#: Side of one heat-map cell, inches.
+HEATMAP_CELL_IN = 0.48
+
+
+def _heatmap_name_in(names: Sequence[str]) -> float:
+    return 0.12 + 0.075 * max((len(s) for s in names), default=1)
+
+
+def heatmap_width_in(names: Sequence[str], panels: int) -> float:
+    """Width of :func:`delta_e_heatmap`'s figure, inches (at 100 dpi: pixels / 100)."""
+    n = len(names)
+    return _heatmap_name_in(names) + panels * n * HEATMAP_CELL_IN + (panels - 1) * 0.35 + 0.3
+
+
+def heatmap_fits(names: Sequence[str], panels: int, width_in: float = REPORT_WIDTH_IN) -> bool:
+    """Whether the heat map is at most ``width_in`` wide, so its 8 pt numbers are read at
+    report width without being scaled down."""
+    return heatmap_width_in(names, panels) <= width_in
+
+
+def closest_pairs(matrices: Mapping[str, np.ndarray], names: Sequence[str], count: int) -> list[tuple[int, int]]:
+    """The ``count`` pairs ``(i, j)``, i < j, with the smallest ΔE00 under any condition but the
+    first (the daylight reference); pairs undefined everywhere (not visible) last, then by
+    index."""
+    mats = [np.asarray(m, dtype=np.float64) for m in list(matrices.values())[1:]] or [
+        np.asarray(m, dtype=np.float64) for m in matrices.values()
+    ]
+    n = len(names)
+    keys = []
+    for i in range(n):
+        for j in range(i + 1, n):
+            vals = [m[i, j] for m in mats if np.isfinite(m[i, j])]
+            keys.append((min(vals) if vals else np.inf, i, j))
+    keys.sort()
+    return [(i, j) for _, i, j in keys[:count]]
+
+
+def closest_pairs_figure(
+    matrices: Mapping[str, np.ndarray],
+    names: Sequence[str],
+    path,
+    *,
+    count: int = 15,
+    title: str | None = None,
+    width_in: float = REPORT_WIDTH_IN,
+    png_text: Mapping[str, str] | None = None,
+) -> Path:
+    """The ``count`` closest pairs of objects (:func:`closest_pairs`) as a ranked table: one row
+    per pair, one column per condition with its ΔE00 in a cell coloured by
+    :data:`HEATMAP_CLASSES` ("n/v": not visible). Fits ``width_in`` for any number of objects:
+    what the heat map becomes when it is too wide to read at report width."""
+    from matplotlib.colors import to_rgb
+    from matplotlib.patches import Patch, Rectangle
+
+    names = list(names)
+    n = len(names)
+    panels = list(matrices.items())
+    for label, mat in panels:
+        if np.shape(mat) != (n, n):
+            raise ValueError(f"matrix {label!r} must be ({n}, {n})")
+    pairs = closest_pairs(matrices, names, count)
+    row_in = 0.3
+    top_in = 0.95 if title else 0.55
+    height = top_in + (len(pairs) + 1) * row_in + 0.8
+    fig = _figure(width_in, height)
+    fig.patch.set_facecolor("white")
+    if title:
+        fig.text(0.5, 1 - 0.3 / height, title, ha="center", va="center", fontsize=12, weight="bold")
+    ax = fig.add_axes([0.02, 0.8 / height, 0.96, (len(pairs) + 1) * row_in / height])
+    pair_w = 0.42
+    col_w = (1.0 - pair_w) / max(len(panels), 1)
+    ax.set_xlim(0, 1)
+    ax.set_ylim(len(pairs) + 1, 0)
+    ax.set_axis_off()
+    ax.text(0.005, 0.5, "pair (closest first)", ha="left", va="center", fontsize=9, weight="bold")
+    for p, (label, _) in enumerate(panels):
+        ax.text(pair_w + (p + 0.5) * col_w, 0.5, label, ha="center", va="center", fontsize=9, weight="bold")
+    bounds = [b for b, _, _ in HEATMAP_CLASSES]
+    for r, (i, j) in enumerate(pairs, start=1):
+        ax.text(0.005, r + 0.5, f"{r}. {names[i]} / {names[j]}", ha="left", va="center", fontsize=9)
+        for p, (_, mat) in enumerate(panels):
+            v = float(np.asarray(mat, dtype=np.float64)[i, j])
+            x0 = pair_w + p * col_w
+            if not np.isfinite(v):
+                ax.add_patch(Rectangle((x0 + 0.004, r + 0.06), col_w - 0.008, 0.88, facecolor="#eeeeee"))
+                ax.text(x0 + 0.5 * col_w, r + 0.5, "n/v", ha="center", va="center", fontsize=9, color="#666666")
+                continue
+            bg = HEATMAP_CLASSES[min(int(np.searchsorted(bounds, v, side="right")), len(HEATMAP_CLASSES) - 1)][1]
+            ax.add_patch(Rectangle((x0 + 0.004, r + 0.06), col_w - 0.008, 0.88, facecolor=bg))
+            txt = _text_colour(np.array(to_rgb(bg)))
+            ax.text(x0 + 0.5 * col_w, r + 0.5, f"{v:.1f}", ha="center", va="center", fontsize=9, color=txt)
+    handles = [Patch(facecolor=c, edgecolor="#888888", label=t) for _, c, t in HEATMAP_CLASSES]
+    fig.legend(
+        handles=handles,
+        loc="lower center",
+        ncol=len(handles),
+        fontsize=8,
+        frameon=False,
+        title="CIEDE2000",
+        title_fontsize=8,
+        bbox_to_anchor=(0.5, 0.0),
+    )
+    return _save(fig, path, text=png_text)
+
+
 def delta_e_heatmap(
     matrices: Mapping[str, np.ndarray],
     names: Sequence[str],
@@ -406,10 +513,10 @@ def delta_e_heatmap(
     bounds = [0.0] + [b for b, _, _ in HEATMAP_CLASSES[:-1]] + [1e9]
     cmap = ListedColormap([c for _, c, _ in HEATMAP_CLASSES])
     norm = BoundaryNorm(bounds, cmap.N)
-    cell = 0.48
-    name_in = 0.12 + 0.075 * max((len(s) for s in names), default=1)
+    cell = HEATMAP_CELL_IN
+    name_in = _heatmap_name_in(names)
     panel_w = n * cell
-    width = name_in + len(panels) * panel_w + (len(panels) - 1) * 0.35 + 0.3
+    width = heatmap_width_in(names, len(panels))
     top_in = 0.95 if title else 0.55
     height = top_in + n * cell + name_in + 0.75
     fig = _figure(width, height)
