@@ -365,3 +365,45 @@ def test_views_with_one_file_stem_do_not_overwrite_each_other(tmp_path):
         assert Image.open(out / v.images.shared["before"]).text["lampcast.view"] == v.name
     again = run_comparison(scene, "old", "new <u>LED</u>", None, tmp_path / "again", progress=False, colour=False)
     assert [v.images for v in again.metrics.views] == [v.images for v in result.metrics.views]
+
+
+def test_flux_columns_and_setup_wide_lumens_note(tmp_path):
+    # Issue 12, item 2: the luminaire table showed the file's rated lamp lumens where the light
+    # used another flux. Now rated lamp lumens, the lumens used, the luminaire output and the LOR
+    # are separate, labelled columns. Light output ratio = luminaire flux / lamp flux (its
+    # definition in the CIE International Lighting Vocabulary, CIE S 017, from memory), and with
+    # a relative file the scene's lumens are lamp lumens. A setup-level `lumens` that changes
+    # every group (the demo's led-3000k sets 4000 lm for all, the bus stop sets its own) is a note.
+    from render.light.photometry import load_photometry, luminous_flux_lm
+    from render.output.metrics import published
+
+    result = run_comparison(
+        ROOT / "scenes" / "demo" / "linden_row.toml",
+        "sodium",
+        "led-3000k",
+        ["footway"],
+        tmp_path,
+        width_px=48,
+        samples_per_pixel=1,
+        progress=False,
+        colour=False,
+    )
+    source = load_photometry("generic-road-asymmetric")
+    rated = source.rated_lumens_lm
+    lor = luminous_flux_lm(source) / rated
+    before = result.metrics.setups["before"].groups["street"]
+    assert before.rated_lamp_lumens == published(rated)
+    assert before.lumens == 5000.0  # the scene's lamp lumens
+    assert before.luminaire_lumens == published(5000.0 * lor)
+    assert before.light_output_ratio == published(lor)
+    option = result.metrics.setups[result.metrics.options[0]]
+    assert option.groups["street"].lumens == 4000.0
+    assert option.groups["street"].luminaire_lumens == published(4000.0 * lor)
+    (note,) = option.notes
+    assert "4000" in note and "changes the lumens of every luminaire group" in note
+    assert "own: street (groups with their own lumens: bus stop)" in note
+    assert result.metrics.setups["before"].notes == ()
+    page = (tmp_path / "report.html").read_text(encoding="utf-8")
+    for heading in ("rated lamp lumens (lm)", "lumens used (lm)", "luminaire output (lm)", ">LOR<"):
+        assert heading in page, heading
+    assert markupsafe.escape(note) in page

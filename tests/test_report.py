@@ -166,14 +166,35 @@ def make_inputs(
     }
     after_lamps = ["led-3000k-cie-b2", "led-2700k-cie-b1"]
     groups_after = {
-        "main road": {"lamp": "led-3000k-cie-b2", "lumens": 6200.0, "dimming": 0.8},
-        "footpath": {"lamp": "led-2700k-cie-b1", "lumens": None, "dimming": 1.0},
+        "main road": {
+            "lamp": "led-3000k-cie-b2",
+            "lumens": 6200.0,
+            "dimming": 0.8,
+            "rated_lamp_lumens": 8000.0,
+            "luminaire_lumens": 4960.0,
+            "light_output_ratio": 0.8,
+        },
+        "footpath": {
+            "lamp": "led-2700k-cie-b1",
+            "lumens": None,
+            "dimming": 1.0,
+            "rated_lamp_lumens": None,
+            "luminaire_lumens": 1800.0,
+            "light_output_ratio": None,
+        },
     }
     if green_lamp_dir is not None:
         green = green_line_lamp(green_lamp_dir)
         lamps[green["id"]] = green
         after_lamps.append(green["id"])
-        groups_after["feature"] = {"lamp": green["id"], "lumens": 300.0, "dimming": 0.5}
+        groups_after["feature"] = {
+            "lamp": green["id"],
+            "lumens": 300.0,
+            "dimming": 0.5,
+            "rated_lamp_lumens": 300.0,
+            "luminaire_lumens": 240.0,
+            "light_output_ratio": 0.8,
+        }
     return {
         "tool": {"name": "lampcast", "version": "0.1.0"},
         "scene": {
@@ -190,7 +211,16 @@ def make_inputs(
                 "name": "sodium, as built",
                 "description": "High-pressure sodium lanterns.",
                 "lamps": ["sodium-high-pressure-cie-hp1"],
-                "groups": {"*": {"lamp": "sodium-high-pressure-cie-hp1", "lumens": None, "dimming": 1.0}},
+                "groups": {
+                    "*": {
+                        "lamp": "sodium-high-pressure-cie-hp1",
+                        "lumens": None,
+                        "dimming": 1.0,
+                        "rated_lamp_lumens": 6600.0,
+                        "luminaire_lumens": 5280.0,
+                        "light_output_ratio": 0.8,
+                    }
+                },
             },
             "after": {
                 "name": "warm LED proposal",

@@ -179,26 +179,58 @@ def luminance_stats(rendered: RenderedView) -> LuminanceStats:
     return LuminanceStats.of(_surface_luminance(rendered))
 
 
-def setup_description(setup: Setup, lights: LuminaireSet) -> SetupDescription:
+def setup_description(setup: Setup, lights: LuminaireSet, scene: Scene | None = None) -> SetupDescription:
     """The published description of ``setup`` as evaluated with ``lights``: the lamps it uses
-    and, per luminaire group, lamp, photometry, flux and dimming (the setup's values where it
-    sets them, else the scene's)."""
+    and, per luminaire group, lamp, photometry, lumens and dimming (the setup's values where it
+    sets them, else the scene's) with the flux figures of :class:`GroupLighting` (the file's
+    rated lamp lumens need ``scene``, to read the file), and a note when a setup-wide ``lumens``
+    changes every group."""
     from render.light.luminaires import channel_factors, setting_for
+    from render.light.photometry import load_photometry, luminous_flux_lm
 
     _, lamps = channel_factors(lights, setup)
     groups: dict[str, GroupLighting] = {}
     for k, ch in enumerate(lights.channels):
+        if ch.group in groups:
+            continue
         s = setting_for(setup, ch.group)
-        groups.setdefault(
-            ch.group,
-            GroupLighting(
-                lamp=lamps[k],
-                photometry=s.photometry or ch.photometry,
-                lumens=published(s.lumens if s.lumens is not None else ch.lumens),
-                dimming=published(s.dimming if s.dimming is not None else ch.dimming),
-            ),
+        lumens = s.lumens if s.lumens is not None else ch.lumens
+        # The distribution as evaluated (scaled to the channel's lumens); a lumens change of
+        # the setup scales its flux in proportion (as the relighting does).
+        (first,) = np.flatnonzero(lights.channel == k)[:1]
+        scaled = lights.photometries[int(lights.table[first])]
+        luminaire_lm = luminous_flux_lm(scaled) * lumens / ch.lumens
+        rated = lor = None
+        if not scaled.is_absolute:
+            lor = luminaire_lm / lumens
+            if scene is not None:
+                source = load_photometry(
+                    s.photometry or ch.photometry, base_dir=scene.base_dir, allowed_root=scene.reference_root
+                )
+                rated = source.rated_lumens_lm
+        groups[ch.group] = GroupLighting(
+            lamp=lamps[k],
+            photometry=s.photometry or ch.photometry,
+            lumens=published(lumens),
+            dimming=published(s.dimming if s.dimming is not None else ch.dimming),
+            rated_lamp_lumens=published(rated),
+            luminaire_lumens=published(luminaire_lm),
+            light_output_ratio=published(lor),
         )
-    return SetupDescription(setup.name, setup.description, tuple(sorted(set(lamps))), groups)
+    notes = []
+    common = setup.groups.get("*")
+    if common is not None and common.lumens is not None:
+        changed = sorted(g for g in groups if setup.groups.get(g, GroupSetting()).lumens is None)
+        kept = sorted(g for g in groups if g not in changed)
+        if changed:
+            notes.append(
+                f"lumens = {common.lumens:g} is set for the whole setup, so it changes the lumens of every "
+                f"luminaire group that does not set its own: {', '.join(changed)}"
+                + (f" (groups with their own lumens: {', '.join(kept)})" if kept else "")
+                + "."
+            )
+
+    return SetupDescription(setup.name, setup.description, tuple(sorted(set(lamps))), groups, tuple(notes))
 
 
 def _caption(image: np.ndarray, text: str) -> np.ndarray:
@@ -524,7 +556,7 @@ def run_comparison(
         rb = study.render_view(name, setups[0], samples_per_pixel=spp, width_px=width_px, progress=progress)
         rendered = [rb, *(study.relight(rb, s, progress=progress) for s in setups[1:])]
         if descriptions is None:
-            descriptions = {k: setup_description(s, r.lights) for k, s, r in zip(keys, setups, rendered)}
+            descriptions = {k: setup_description(s, r.lights, scene) for k, s, r in zip(keys, setups, rendered)}
         camera = rb.camera
         shared, adapted = study.display_both(rendered, observer)
         images = ViewImages.in_folder(vdir.name, keys)

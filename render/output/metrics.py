@@ -188,33 +188,48 @@ class RenderSettings:
 class GroupLighting:
     """How one luminaire group is lit in a setup: lamp, photometry, flux (lm), dimming (0-1).
 
-    ``lumens`` ``None``: the photometric file's rated flux; ``dimming`` ``None``: not set.
+    ``lumens`` is the scene's ``lumens`` as used: the lamp lumens for a relative photometric
+    file, the luminaire's output for an absolute one (``None``: the file's own flux);
+    ``dimming`` ``None``: not set. The flux figures, at full output (before maintenance factor
+    and dimming): ``rated_lamp_lumens`` the file's rated lamp lumens (``None`` for absolute
+    photometry, which has no lamp), ``luminaire_lumens`` the integrated flux of the
+    distribution as used, ``light_output_ratio`` their ratio to the lamp lumens used (LOR;
+    ``None`` for absolute photometry).
     """
 
     lamp: str
     photometry: str | None = None
     lumens: float | None = None
     dimming: float | None = None
+    rated_lamp_lumens: float | None = None
+    luminaire_lumens: float | None = None
+    light_output_ratio: float | None = None
 
     def to_json(self) -> dict[str, Any]:
         return _fields_json(self)
 
     @classmethod
     def from_json(cls, data: Mapping[str, Any]) -> GroupLighting:
-        return cls(str(data.get("lamp", "")), data.get("photometry"), data.get("lumens"), data.get("dimming"))
+        return cls(
+            str(data.get("lamp", "")),
+            *(data.get(f.name) for f in fields(cls) if f.name != "lamp"),
+        )
 
 
 @dataclass(frozen=True)
 class SetupDescription:
     """One compared setup: its name, description, the lamps it uses and its groups.
 
-    ``groups`` maps a luminaire group (``"*"``: every luminaire) to its :class:`GroupLighting`.
+    ``groups`` maps a luminaire group (``"*"``: every luminaire) to its :class:`GroupLighting`;
+    ``notes`` say what the reader should know about it (a setup-wide ``lumens`` that changes
+    every group).
     """
 
     name: str
     description: str
     lamps: tuple[str, ...]
     groups: Mapping[str, GroupLighting]
+    notes: tuple[str, ...] = ()
 
     def to_json(self) -> dict[str, Any]:
         return _fields_json(self)
@@ -227,6 +242,7 @@ class SetupDescription:
             str(data.get("description") or ""),
             tuple(data.get("lamps") or ()),
             {str(k): GroupLighting.from_json(v) for k, v in groups.items()},
+            tuple(str(n) for n in data.get("notes") or ()),
         )
 
 

@@ -260,6 +260,7 @@ class SetupPart:
     groups: Table | None
     lamps: Table
     label: str = ""
+    notes: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -435,10 +436,23 @@ def _groups_table(key: str, setup: SetupDescription, label: str) -> Table | None
                 (
                     TextCell(g.lamp),
                     NumberCell(
+                        f"{base}.rated_lamp_lumens",
+                        g.rated_lamp_lumens,
+                        "fixed0",
+                        reason="not given; an absolute photometric file has no lamp lumens",
+                    ),
+                    NumberCell(
                         f"{base}.lumens",
                         g.lumens,
                         "fixed0",
                         reason="not set: the photometric file's rated flux is used",
+                    ),
+                    NumberCell(f"{base}.luminaire_lumens", g.luminaire_lumens, "fixed0", reason="not given"),
+                    NumberCell(
+                        f"{base}.light_output_ratio",
+                        g.light_output_ratio,
+                        "fixed2",
+                        reason="not given; an absolute photometric file has no lamp lumens",
                     ),
                     NumberCell(f"{base}.dimming", g.dimming, "percent0", reason="not set"),
                 ),
@@ -449,10 +463,13 @@ def _groups_table(key: str, setup: SetupDescription, label: str) -> Table | None
     head = (
         Heading("luminaire group"),
         Heading("lamp"),
-        Heading("luminous flux (lm)", numeric=True),
+        Heading("rated lamp lumens (lm)", numeric=True, unit="in the photometric file"),
+        Heading("lumens used (lm)", numeric=True, unit="lamp lumens; luminaire output for an absolute file"),
+        Heading("luminaire output (lm)", numeric=True, unit="flux of the distribution as used"),
+        Heading("LOR", numeric=True, unit="luminaire output / lamp lumens"),
         Heading("output (% of full)", numeric=True),
     )
-    return Table(f"groups-{_slug(key)}", f"Luminaire groups, {label}", tuple(rows), head)
+    return Table(f"groups-{_slug(key)}", f"Luminaire groups, {label}", tuple(rows), head, scrolls=True)
 
 
 def _setup_parts(metrics: ComparisonMetrics, notes: _Footnotes) -> tuple[SetupPart, ...]:
@@ -478,6 +495,7 @@ def _setup_parts(metrics: ComparisonMetrics, notes: _Footnotes) -> tuple[SetupPa
                 _groups_table(key, setup, labels[key]),
                 lamp_table,
                 labels[key],
+                setup.notes,
             )
         )
     return tuple(parts)
