@@ -7,9 +7,9 @@
 * :mod:`render.analysis.naming` -- basic colour terms (Berlin & Kay) from the nearest
   Centore (2020) prototype in CAM16-UCS; the rows of the "name it" table (printed by
   :mod:`render.output.colour_text`).
-* :mod:`render.analysis.view_colours` -- one rendered view under several setups to a
-  :class:`ColourAnalysis` (its JSON file and pictures are written by
-  :mod:`render.output.colour_files`).
+* :mod:`render.analysis.view_colours` -- rendered views under several setups to a
+  :class:`ColourAnalysis`: each object's main surface, each object in its chosen or best view
+  (its JSON file and pictures are written by :mod:`render.output.colour_files`).
 """
 
 from render.analysis.colours import (

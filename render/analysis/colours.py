@@ -73,7 +73,7 @@ the figures as published; :meth:`ColourAnalysis.to_json` gives the JSON-safe dic
 
     {
       "method": {...},                           # colour space, thresholds and their sources
-      "objects": [{"id": 3, "name": "car"}, ...],           # the order of every matrix
+      "objects": [{"id": 3, "name": "car", "view": "kerb"}, ...],  # matrix order; view: where analysed
       "daylight": {
         "conditions": "...",
         "objects": {"car": {"lab": [L, a, b], "lch": [L, C, h], "name": "green",

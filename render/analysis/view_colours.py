@@ -1,9 +1,16 @@
-"""Colour analysis of a rendered view: its inputs gathered from the renderer and the vision stage.
+"""Colour analysis of rendered views: its inputs gathered from the renderer and the vision stage.
 
 Used by ``lampcast colours`` and by the comparison (:mod:`render.output.comparison`). The
 inputs come from the renderer's light buffers (object ids and materials per camera sample) and
 from the vision stage's display results (the adaptation state each image was made with); the
-result is a :class:`~render.analysis.colours.ColourAnalysis`. Its files (``colours.json`` and
+result is a :class:`~render.analysis.colours.ColourAnalysis`.
+
+An object's colour is that of its main surface (:attr:`render.geometry.build.ObjectInfo.main_material`:
+the kind's ``main_slot`` or the scene's ``colour_slot``): its daylight reference is that
+material's reflectance, its colour seen only the pixels whose every camera sample sees that
+surface (:func:`pixel_main_surface_ids`). Over several views (:func:`analyse_colours`) each
+object is analysed in the chosen view or in the one showing most of its main surface
+(:func:`best_views`). Its files (``colours.json`` and
 the pictures) are written by :mod:`render.output.colour_files`.
 
 References

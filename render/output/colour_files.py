@@ -4,7 +4,9 @@
 :func:`render.analysis.view_colours.analyse_view_colours` found: the record as JSON
 (:meth:`~render.analysis.colours.ColourAnalysis.to_json`, :func:`write_colour_json`) and the
 pictures (:func:`write_colour_pictures`): the view with the tagged objects outlined, the swatch
-sheet, the ΔE00 heat map and the lamps' spectrum strips. This module gathers each picture's
+sheet, the ΔE00 heat map (or, when it would be too wide to read at report width, the closest
+pairs ranked) and the lamps' spectrum strips, each with its alt text
+(:func:`colour_picture_alt_texts`, also the PNG's ``Description``). This module gathers each picture's
 inputs from the analysis record and the rendered views; the drawing is
 :mod:`render.output.colour_pictures`.
 
