@@ -463,10 +463,10 @@ def _groups_table(key: str, setup: SetupDescription, label: str) -> Table | None
     head = (
         Heading("luminaire group"),
         Heading("lamp"),
-        Heading("rated lamp lumens (lm)", numeric=True, unit="in the photometric file"),
-        Heading("lumens used (lm)", numeric=True, unit="lamp lumens; luminaire output for an absolute file"),
-        Heading("luminaire output (lm)", numeric=True, unit="flux of the distribution as used"),
-        Heading("LOR", numeric=True, unit="luminaire output / lamp lumens"),
+        Heading("rated lamp lumens (lm)", numeric=True, unit="photometric file"),
+        Heading("lumens used (lm)", numeric=True, unit="lamp; output if absolute"),
+        Heading("luminaire output (lm)", numeric=True, unit="as used"),
+        Heading("LOR", numeric=True, unit="output / lamp"),
         Heading("output (% of full)", numeric=True),
     )
     return Table(f"groups-{_slug(key)}", f"Luminaire groups, {label}", tuple(rows), head, scrolls=True)
