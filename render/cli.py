@@ -167,7 +167,7 @@ def cmd_check(args: argparse.Namespace) -> int:
     from render.geometry.build import compile_scene
     from render.scene import check_scene
 
-    scene = check_scene(args.scene)
+    scene = check_scene(args.scene, strict_paths=args.strict_paths)
     mesh = compile_scene(scene)
     figures = {
         "scene": str(args.scene),
@@ -304,9 +304,7 @@ def _print_images(args: argparse.Namespace, images: list[dict[str, Any]]) -> Non
 
 def cmd_render(args: argparse.Namespace) -> int:
     """Render one view: an absolute EXR and display PNGs (and AOV images with ``--aov``)."""
-    from render.study import Study
-
-    study = Study(args.scene)
+    study = _study(args)
     view = study.scene.view(args.view)
     out = _out_dir(args.out, Path(args.scene).stem)
     spp = args.spp or study.scene.render.samples_per_pixel
@@ -371,9 +369,7 @@ def _render_setups(
 
 def cmd_relight(args: argparse.Namespace) -> int:
     """Render a view once, then re-light it for each setup without casting camera rays."""
-    from render.study import Study
-
-    study = Study(args.scene)
+    study = _study(args)
     view = study.scene.view(args.view)
     out = _out_dir(args.out, Path(args.scene).stem)
     spp = args.spp or study.scene.render.samples_per_pixel
@@ -403,9 +399,8 @@ def cmd_colours(args: argparse.Namespace) -> int:
     from render.analysis.view_colours import analyse_colours
     from render.output.colour_files import write_colour_json, write_colour_pictures
     from render.output.colour_text import format_confusions, format_name_changes, format_name_table
-    from render.study import Study
 
-    study = Study(args.scene)
+    study = _study(args)
     observer = _observer_from_args(study, args)
     chosen = args.view or study.scene.colour_view
     views = [study.scene.view(chosen)] if chosen else list(study.scene.views)
@@ -455,9 +450,8 @@ def cmd_colours(args: argparse.Namespace) -> int:
 def cmd_compare(args: argparse.Namespace) -> int:
     """Before and options: images, metrics.json and report.html per view; prints the summary."""
     from render.output.comparison import run_comparison
-    from render.study import Study
 
-    study = Study(args.scene)
+    study = _study(args)
     observer = _observer_from_args(study, args)
     out = _out_dir(args.out, f"{Path(args.scene).stem}-compare")
     _note(args, CAUTION)
@@ -551,6 +545,25 @@ def _run_options(p: argparse.ArgumentParser, out_default: str) -> None:
     p.add_argument("--out", help=f"output folder (default {out_default})")
 
 
+def _scene_argument(p: argparse.ArgumentParser) -> None:
+    """The SCENE argument and ``--strict-paths`` of every command that reads a scene."""
+    p.add_argument("scene", help="scene file (TOML)")
+    p.add_argument(
+        "--strict-paths",
+        action="store_true",
+        help="for scenes from elsewhere: every file the scene names (OBJ, lamp, photometry, tilt) must lie "
+        "inside the scene's folder (no absolute paths, no '..', no links out)",
+    )
+
+
+def _study(args: argparse.Namespace) -> Study:
+    """The scene of ``args`` loaded (with ``--strict-paths`` if given) and ready to render."""
+    from render.scene import load_scene
+    from render.study import Study
+
+    return Study(load_scene(args.scene, strict_paths=getattr(args, "strict_paths", False)))
+
+
 def _output_options(p: argparse.ArgumentParser) -> None:
     """Options every command shares: ``--quiet`` and ``--json``."""
     g = p.add_argument_group("output")
@@ -600,11 +613,11 @@ def build_parser() -> argparse.ArgumentParser:
     p.set_defaults(func=cmd_photometry)
 
     p = sub.add_parser("check", help="check a scene file without rendering; lists every problem found")
-    p.add_argument("scene", help="scene file (TOML)")
+    _scene_argument(p)
     p.set_defaults(func=cmd_check)
 
     p = sub.add_parser("render", help="render one view of a scene (absolute X, Y, Z, scotopic EXR and a preview)")
-    p.add_argument("scene", help="scene file (TOML)")
+    _scene_argument(p)
     p.add_argument("--view", help="view name (default: the scene's first view)")
     p.add_argument("--setup", help="a setup named in the scene's [setups] (default: the lamps the scene gives)")
     p.add_argument("--lamp", help="one lamp id (or spectrum file) for every luminaire")
@@ -627,7 +640,7 @@ def build_parser() -> argparse.ArgumentParser:
     p = sub.add_parser(
         "relight", help="render a view once and re-light it for several setups without casting camera rays"
     )
-    p.add_argument("scene", help="scene file (TOML)")
+    _scene_argument(p)
     p.add_argument("--view", help="view name (default: the scene's first view)")
     p.add_argument(
         "--setup",
@@ -643,7 +656,7 @@ def build_parser() -> argparse.ArgumentParser:
     p = sub.add_parser(
         "colours", help="can people tell the tagged objects' colours apart? names, CIEDE2000, confusions, pictures"
     )
-    p.add_argument("scene", help="scene file (TOML)")
+    _scene_argument(p)
     p.add_argument(
         "--setup",
         dest="setups",
@@ -666,7 +679,7 @@ def build_parser() -> argparse.ArgumentParser:
         "compare",
         help="before and options: images, luminance maps, metrics.json and report.html per view (--after repeats)",
     )
-    p.add_argument("scene", help="scene file (TOML)")
+    _scene_argument(p)
     p.add_argument(
         "--before",
         required=True,

@@ -375,3 +375,21 @@ def test_setup_and_lamp_together_is_an_error_naming_both(tmp_path, capsys):
     assert code == 2
     assert "--setup" in err and "--lamp" in err and "sodium" in err and "led-3000k-cie-b2" in err
     assert not [p for p in tmp_path.rglob("*") if p.is_file()]  # nothing rendered
+
+
+def test_strict_paths_flag_confines_referenced_files(tmp_path, capsys):
+    # A scene naming a lamp file outside its folder: allowed by default, refused with
+    # --strict-paths (hostile-input rule: scenes from elsewhere may not read the machine's files).
+    lamp = tmp_path / "outside.csv"
+    lamp.write_text("wavelength_nm,power\n380,1\n780,1\n")
+    folder = tmp_path / "scene"
+    folder.mkdir()
+    text = (SCENES / "minimal_street.toml").read_text()
+    scene = folder / "s.toml"
+    scene.write_text(text.replace('lamp = "', 'lamp = "../outside.csv" # ', 1))
+    assert main(["check", str(scene), "--quiet"]) == 0
+    capsys.readouterr()
+    assert main(["check", str(scene), "--strict-paths", "--quiet"]) == 2
+    err = capsys.readouterr().err
+    assert "Traceback" not in err and "lamp" in err
+    assert main(["render", str(scene), "--strict-paths", "--quiet", "--out", str(tmp_path / "o")]) == 2
