@@ -316,6 +316,12 @@ def test_several_options_in_one_report(tmp_path, monkeypatch):
     assert len(set(re.findall(r'<th scope="col" class="num">(.*?)</th>', head))) == 4  # each told apart
     for key in m.options:
         assert f'data-metric="views.0.luminance_cd_m2.{key}.mean"' in page
+    # Reruns stay byte-identical with several options.
+    again = run_comparison(study, "old", options, None, tmp_path / "again", progress=False, colour=False)
+    files = sorted(p.relative_to(tmp_path) for p in tmp_path.rglob("*") if p.is_file() and "again" not in p.parts)
+    assert files == sorted(p.relative_to(again.out_dir) for p in again.out_dir.rglob("*") if p.is_file())
+    for rel in files:
+        assert (tmp_path / rel).read_bytes() == (again.out_dir / rel).read_bytes(), rel
 
 
 def test_second_after_flag_adds_an_option(tmp_path):
