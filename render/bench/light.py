@@ -39,7 +39,7 @@ def long_street(scene, n_luminaires: int, spacing_m: float = 28.0):
     """The demo scene stretched to carry ``n_luminaires`` staggered luminaires."""
     from dataclasses import replace
 
-    from render.scene.loader import _expand_row
+    from render.scene.loader import expand_row
 
     s = copy.deepcopy(scene)
     length = max(scene.street.length_m, n_luminaires * spacing_m)
@@ -74,7 +74,7 @@ def long_street(scene, n_luminaires: int, spacing_m: float = 28.0):
         "maintenance_factor": template.maintenance_factor,
         "dimming": template.dimming,
     }
-    s.luminaires = _expand_row(row, "bench", s.street)
+    s.luminaires = expand_row(row, n_luminaires, "bench", s.street)
     s.setups = {}
     return s
 

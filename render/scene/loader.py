@@ -57,7 +57,7 @@ from render.scene.model import (
 )
 from render.scene.schema import Field, check_table, check_value, join, shown
 
-__all__ = ["COORD", "MIN_SIZE_M", "check_scene", "light_channel_count", "load_scene"]
+__all__ = ["COORD", "MIN_SIZE_M", "check_scene", "expand_row", "light_channel_count", "load_scene"]
 
 M = "m"
 DEG = "degrees"
@@ -83,6 +83,13 @@ TOP_LEVEL = {
     "setups": Field("table", default={}),
     "gloss": Field("list", default=[]),
     "colour": Field("table", default={}),
+    "compare": Field("table", default={}),
+}
+
+#: ``[compare]``: what ``lampcast compare`` compares when the command line does not say.
+COMPARE_SPEC = {
+    "before": Field("str", default=None, help="the setup (of [setups]) compared with the options"),
+    "options": Field("strlist", default=[], help="the setups (of [setups]) compared with the before setup"),
 }
 
 #: ``[colour]``: settings of the colour analysis.
@@ -852,7 +859,7 @@ def _luminaires(singles: list, rows: list, ctx: _Context, street: Street | None,
             total = MAX_GENERATED_LUMINAIRES + 1  # later rows are not expanded either
             continue
         total += n * per_position
-        out.extend(_expand_row(r, n, where, street))
+        out.extend(expand_row(r, n, where, street))
     seen: set[str] = set()
     for lum in out:
         if lum.name in seen:
@@ -914,7 +921,7 @@ def _make_luminaire(c: dict, name: str, position, base, rotation_deg: float, whe
     )
 
 
-def _expand_row(r: dict, n: int, where: str, street: Street) -> list[Luminaire]:
+def expand_row(r: dict, n: int, where: str, street: Street) -> list[Luminaire]:
     """The ``n`` positions of a row (:func:`_row_positions`): columns ``setback_m`` behind the
     kerb face, the luminous opening ``outreach_m`` from the column toward the carriageway at
     ``mounting_height_m``. The photometric C90 half-plane (street side) faces across the
@@ -1083,6 +1090,17 @@ def load_scene(path: str | os.PathLike, *, strict_paths: bool = False) -> Scene:
             "colour.view",
             f"no view named {shown(colour['view'])}{did_you_mean(colour['view'], [v.name for v in views])}",
         )
+    compare = check_table(top["compare"] or {}, COMPARE_SPEC, "compare", problems)
+    for key, names in (
+        ("before", [compare["before"]] if compare["before"] is not None else []),
+        ("options", compare["options"] or []),
+    ):
+        for i, name in enumerate(names):
+            if name not in setups:
+                where = "compare.before" if key == "before" else f"compare.options[{i}]"
+                problems.add(where, f"no setup named {shown(name)}{did_you_mean(name, list(setups))} in [setups]")
+    if (compare["before"] is None) != (not compare["options"]) and top["compare"]:
+        problems.add("compare", "give both `before` (one setup) and `options` (a list of setups)")
     gloss = _gloss(top["gloss"] or [], ctx, street)
     if top["street"] is None and not objects and not frontages:
         problems.add("", "the scene has no [street], [[objects]], [[geometry]] or [[frontages]]: nothing to render")
@@ -1110,6 +1128,8 @@ def load_scene(path: str | os.PathLike, *, strict_paths: bool = False) -> Scene:
         gloss=gloss,
         reference_root=ctx.reference_root,
         colour_view=colour["view"],
+        compare_before=compare["before"],
+        compare_options=tuple(compare["options"] or ()),
     )
 
 
