@@ -109,9 +109,9 @@ from render.light.photometry.lm63 import (
     _check_intensities,
     _decode,
     _expand_type_c,
-    _inside,
     _near,
     _shown,
+    require_inside,
 )
 from render.light.photometry.model import Photometry, frozen_array
 from render.limits import MAX_EULUMDAT_ANGLES, MAX_EULUMDAT_LAMP_SETS, check_count
@@ -136,13 +136,7 @@ def read_eulumdat(path: str | os.PathLike, *, allowed_root: str | os.PathLike | 
         If the file cannot be read or is malformed (names the file and line).
     """
     path = Path(path)
-    if allowed_root is not None and not _inside(path, Path(allowed_root)):
-        raise input_error(
-            path,
-            "",
-            f"the photometric file is outside {Path(allowed_root).resolve()}; with strict paths "
-            "only files inside that folder are read",
-        )
+    require_inside(path, allowed_root)
     return parse_eulumdat(_decode(read_user_bytes(path, "photometric file")), source=str(path))
 
 

@@ -306,6 +306,18 @@ def _inside(path: Path, root: Path) -> bool:
         return False
 
 
+def require_inside(path: Path, allowed_root: str | os.PathLike | None) -> None:
+    """With strict paths (``allowed_root`` set), an :class:`InputError` unless the photometric
+    file ``path`` lies inside that folder once symbolic links are followed."""
+    if allowed_root is not None and not _inside(path, Path(allowed_root)):
+        raise input_error(
+            path,
+            "",
+            f"the photometric file is outside {Path(allowed_root).resolve()}; with strict paths "
+            "only files inside that folder are read",
+        )
+
+
 # --------------------------------------------------------------------------------------------
 # Parsing
 # --------------------------------------------------------------------------------------------
@@ -324,13 +336,7 @@ def read_lm63(path: str | os.PathLike, *, allowed_root: str | os.PathLike | None
         If the file cannot be read or is malformed (names the file and line).
     """
     path = Path(path)
-    if allowed_root is not None and not _inside(path, Path(allowed_root)):
-        raise input_error(
-            path,
-            "",
-            f"the photometric file is outside {Path(allowed_root).resolve()}; with strict paths "
-            "only files inside that folder are read",
-        )
+    require_inside(path, allowed_root)
     return parse_lm63(
         _decode(read_user_bytes(path, "photometric file")),
         source=str(path),
