@@ -454,11 +454,20 @@ def cmd_compare(args: argparse.Namespace) -> int:
     study = _study(args)
     observer = _observer_from_args(study, args)
     out = _out_dir(args.out, f"{Path(args.scene).stem}-compare")
+    before = args.before or study.scene.compare_before
+    after = args.after or list(study.scene.compare_options)
+    if not before or not after:
+        missing = " and ".join(f for f, v in (("--before", before), ("--after", after)) if not v)
+        raise input_error(
+            "command line",
+            missing,
+            f"give {missing}, or a [compare] table (before = SETUP, options = [SETUP, ...]) in {Path(args.scene).name}",
+        )
     _note(args, CAUTION)
     result = run_comparison(
         study,
-        args.before,
-        args.after,
+        before,
+        after,
         args.views,
         out,
         width_px=args.width,
@@ -492,8 +501,8 @@ def cmd_demo(args: argparse.Namespace) -> int:
     output and the same dimmed to 50 % (relit from the same rays)."""
     ns = argparse.Namespace(
         scene=str(DEMO_SCENE),
-        before="sodium",
-        after=["led-3000k", "led-3000k-half"],
+        before=None,  # the demo scene's [compare]: sodium; led-3000k, led-3000k-half
+        after=None,
         views=args.views,
         out=args.out or "outputs/demo",
         width=args.width,
@@ -682,17 +691,16 @@ def build_parser() -> argparse.ArgumentParser:
     _scene_argument(p)
     p.add_argument(
         "--before",
-        required=True,
         metavar="SETUP",
         help="a setup named in the scene, a lamp id, or key=value items (lamp, lumens, dimming, photometry), "
-        "per group as 'GROUP:lamp=ID,dimming=0.8;GROUP2:...'",
+        "per group as 'GROUP:lamp=ID,dimming=0.8;GROUP2:...' (default: the scene's [compare] before)",
     )
     p.add_argument(
         "--after",
-        required=True,
         action="append",
         metavar="SETUP",
-        help="an option to compare with the before setup, as --before (repeat for several options)",
+        help="an option to compare with the before setup, as --before (repeat for several options; "
+        "default: the scene's [compare] options)",
     )
     p.add_argument(
         "--view", dest="views", action="append", metavar="NAME", help="view to render (repeat; default all views)"

@@ -393,3 +393,42 @@ def test_strict_paths_flag_confines_referenced_files(tmp_path, capsys):
     err = capsys.readouterr().err
     assert "Traceback" not in err and "lamp" in err
     assert main(["render", str(scene), "--strict-paths", "--quiet", "--out", str(tmp_path / "o")]) == 2
+
+
+def test_compare_takes_before_and_options_from_the_scene(tmp_path, capsys):
+    # Issue 12: the options may be listed in the scene ([compare] before / options); setups not
+    # in [setups] are named with the key, and without either source compare names both flags.
+    from render.errors import InputError
+    from render.scene import load_scene
+
+    demo = Path(__file__).resolve().parents[1] / "scenes" / "demo" / "linden_row.toml"
+    scene = load_scene(demo)
+    assert scene.compare_before == "sodium" and scene.compare_options == ("led-3000k", "led-3000k-half")
+    text = demo.read_text(encoding="utf-8")
+    bad = tmp_path / "bad.toml"
+    bad.write_text(text.replace('options = ["led-3000k", "led-3000k-half"]', 'options = ["led-3000", "led-warm"]'))
+    with pytest.raises(InputError, match=r"compare.options\[0\].*led-3000.*did you mean 'led-3000k'"):
+        load_scene(bad)
+    half = tmp_path / "half.toml"
+    half.write_text(text.replace('options = ["led-3000k", "led-3000k-half"]\n', ""))
+    with pytest.raises(InputError, match="give both `before`"):
+        load_scene(half)
+    bare = tmp_path / "bare.toml"
+    start = text.index("[compare]")
+    bare.write_text(text[:start], encoding="utf-8")
+    code = main(["compare", str(bare), "--after", "led-3000k", "--out", str(tmp_path / "o"), "--quiet"])
+    assert code == 2 and "--before" in capsys.readouterr().err
+
+
+def test_out_of_memory_is_one_line_exit_2(monkeypatch, capsys):
+    # A run that outgrows the machine despite the limits: one line, exit 2, no traceback
+    # (hostile-input rule: never a traceback for an input the user can reduce).
+    import render.cli as cli
+
+    def exhausted(args):
+        raise MemoryError
+
+    monkeypatch.setattr(cli, "cmd_lamps", exhausted)
+    assert main(["lamps", "--quiet"]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and "memory" in err and "Traceback" not in err

@@ -232,6 +232,10 @@ class Scene:
     reference_root: Path | None = None
     #: ``[colour] view``: the view the colour analysis uses; None: each object's best view.
     colour_view: str | None = None
+    #: ``[compare]``: the setup ``compare`` uses as "before" and the options compared with it
+    #: (None and empty: the command line says).
+    compare_before: str | None = None
+    compare_options: tuple[str, ...] = ()
 
     @property
     def base_dir(self) -> Path:
