@@ -790,6 +790,14 @@ def main(argv: list[str] | None = None) -> int:
         return 2
     except KeyboardInterrupt:
         return 130
+    except MemoryError:
+        # The limits refuse what is known to be too large before it starts; an input that still
+        # outgrows the machine (a huge mesh near the file-size cap) is the user's to reduce.
+        print(
+            "error: not enough memory for this run; use smaller inputs (meshes, resolution, samples per pixel)",
+            file=sys.stderr,
+        )
+        return 2
     except Exception as err:  # anything else is a bug in lampcast
         saved = save_traceback(err, argv)
         first = (str(err).splitlines() or [""])[0][:200]
