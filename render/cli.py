@@ -163,12 +163,15 @@ def cmd_photometry(args: argparse.Namespace) -> int:
 
 
 def cmd_check(args: argparse.Namespace) -> int:
-    """Check a scene file and print what it holds (the problems found are an InputError)."""
+    """Check a scene file and print what it holds (the problems found are an InputError), then
+    one ``warning:`` line per likely mistake (:mod:`render.scene.warnings`; exit status 0)."""
     from render.geometry.build import compile_scene
     from render.scene import check_scene
+    from render.scene.warnings import scene_warnings
 
     scene = check_scene(args.scene, strict_paths=args.strict_paths)
     mesh = compile_scene(scene)
+    warnings = scene_warnings(scene)
     figures = {
         "scene": str(args.scene),
         "ok": True,
@@ -180,6 +183,7 @@ def cmd_check(args: argparse.Namespace) -> int:
         "views": [v.name for v in scene.views],
         "setups": list(scene.setups),
         "inspected_objects": [o.name for o in mesh.objects if o.inspect],
+        "warnings": [{"where": w.where, "message": w.message} for w in warnings],
     }
     if args.json:
         _print_json(figures)
@@ -193,6 +197,8 @@ def cmd_check(args: argparse.Namespace) -> int:
         print(f"  setups: {', '.join(f['setups'])}")
     if f["inspected_objects"]:
         print(f"  inspected objects: {', '.join(f['inspected_objects'])}")
+    for w in warnings:
+        print(f"warning: {w}")
     return 0
 
 
@@ -475,6 +481,7 @@ def cmd_compare(args: argparse.Namespace) -> int:
         observer=observer,
         report=not args.no_report,
         progress=not args.quiet,
+        colour_view=args.colour_view,
     )
     metrics = _json_safe(result.metrics)
     if args.json:
@@ -504,6 +511,7 @@ def cmd_demo(args: argparse.Namespace) -> int:
         before=None,  # the demo scene's [compare]: sodium; led-3000k, led-3000k-half
         after=None,
         views=args.views,
+        colour_view=None,
         out=args.out or "outputs/demo",
         width=args.width,
         spp=args.spp,
@@ -704,6 +712,12 @@ def build_parser() -> argparse.ArgumentParser:
     )
     p.add_argument(
         "--view", dest="views", action="append", metavar="NAME", help="view to render (repeat; default all views)"
+    )
+    p.add_argument(
+        "--colour-view",
+        metavar="NAME",
+        help="view to analyse every tagged object's colour in (default: the scene's [colour] view, else each "
+        "object in the view showing most of its main surface)",
     )
     p.add_argument("--no-report", action="store_true", help="skip report.html")
     _observer_options(p)

@@ -371,13 +371,32 @@ def luminance_legend(height_px: int, lo_cd_m2: float, hi_cd_m2: float) -> np.nda
     return quantise(srgb_encode(legend_strip(height_px, lo_cd_m2, hi_cd_m2, "luminance (cd/m²)", 120)), 8)
 
 
-def _tagged_objects_visible(study: Study, rendered: RenderedView, min_pixels: int = 20) -> int:
-    from render.analysis.view_colours import pixel_object_ids
+class _ColourViews:
+    """The views the colour analysis will need, kept while the comparison renders view after
+    view: with a chosen view only that one; else, per tagged object, the view showing most of
+    its main surface so far (the first on a tie, as
+    :func:`render.analysis.view_colours.best_views`), every other view dropped as soon as no
+    object needs it (memory stays bounded by the number of tagged objects)."""
 
-    ids = pixel_object_ids(rendered.buffers)
-    tagged = [i for i, o in enumerate(study.mesh.objects) if o.inspect]
-    counts = np.bincount(ids[ids >= 0].ravel(), minlength=len(study.mesh.objects))
-    return int(sum(counts[i] >= min_pixels for i in tagged))
+    def __init__(self, chosen: str | None) -> None:
+        self.chosen = chosen
+        self.kept: dict[str, tuple[list[RenderedView], list[DisplayResult]]] = {}
+        self._best: dict[int, tuple[int, str]] = {}
+
+    def offer(self, study: Study, name: str, rendered: list[RenderedView], shared: list[DisplayResult]) -> None:
+        from render.analysis.view_colours import main_surface_pixels
+
+        if self.chosen is not None:
+            if name == self.chosen:
+                self.kept[name] = (rendered, shared)
+            return
+        for k, n in main_surface_pixels(study, rendered[0]).items():
+            if k not in self._best or n > self._best[k][0]:
+                self._best[k] = (n, name)
+        wanted = {v for _, v in self._best.values()}
+        self.kept = {v: x for v, x in self.kept.items() if v in wanted}
+        if name in wanted:
+            self.kept[name] = (rendered, shared)
 
 
 def colour_report_section(result: ColourAnalysis, pictures: Mapping[str, Path], out_dir: Path) -> ReportSection:
@@ -385,14 +404,16 @@ def colour_report_section(result: ColourAnalysis, pictures: Mapping[str, Path], 
     to tell apart, and the pictures (paths relative to ``out_dir``). Numbers are published
     (:func:`render.output.metrics.published`)."""
     setups = list(result.setups)
+    with_view = any(o.view is not None for o in result.objects)
     rows = []
+    views = {o.name: o.view for o in result.objects}
     for name in result.object_names:
-        row: list = [name, result.daylight.objects[name].name]
+        row: list = [name, *([views[name] or ""] if with_view else []), result.daylight.objects[name].name]
         for s in setups:
             seen = result.setups[s].objects[name]
             row += [seen.name if seen.visible else "not visible", published(seen.weber_contrast)]
         rows.append(tuple(row))
-    columns = ["object", "daylight name"]
+    columns = ["object", *(["view"] if with_view else []), "daylight name"]
     for s in setups:
         columns += [f"seen under {s}", f"contrast ({s})"]
     confusion_rows = [
@@ -446,16 +467,23 @@ def _colour_analysis(
     study: Study,
     setups: Sequence[Setup],
     observer: ObserverSettings,
-    view: tuple[str, Sequence[RenderedView], Sequence[DisplayResult]],
+    views: _ColourViews,
     out: Path,
 ) -> tuple[ReportSection, ColourSummary]:
-    """Colour analysis of the tagged objects in one view under every setup: the colours/
-    folder, the report section and the summary for ``metrics.json``."""
-    from render.analysis.view_colours import analyse_view_colours
+    """Colour analysis of the tagged objects under every setup, each object in the chosen view
+    or in the view showing most of its main surface: the colours/ folder, the report section
+    and the summary for ``metrics.json``. The pictures show the view most objects are
+    analysed in."""
+    from collections import Counter
+
+    from render.analysis.view_colours import analyse_colours
     from render.output.colour_files import write_colour_json, write_colour_pictures
 
-    name, rendered, shared = view
-    result = analyse_view_colours(study, list(rendered), shared, observer, _labels(setups))
+    result = analyse_colours(study, views.kept, observer, _labels(setups), views.chosen)
+    order = list(views.kept)
+    used = Counter(o.view for o in result.objects)
+    name = max(order, key=lambda n: (used[n], -order.index(n)))
+    rendered, shared = views.kept[name]
     cdir = out / "colours"
     text = image_metadata(
         study, rendered[0], "colour analysis", observer, study.scene.render.seed, rendered[0].buffers.spp
@@ -466,13 +494,14 @@ def _colour_analysis(
     )
     write_colour_json(result, cdir / "colours.json")
     section = colour_report_section(result, pics, out)
-    section = replace(
-        section,
-        paragraphs=(
-            f"Analysed in view '{name}' (the view showing most tagged objects), every setup in shared exposure.",
-            *section.paragraphs,
-        ),
-    )
+    if views.chosen is not None:
+        where = f"Analysed in view '{name}' (chosen for the colour analysis), every setup in shared exposure."
+    else:
+        where = (
+            "Each tagged object is analysed in the view showing most of its main surface (the table names it), "
+            f"every setup in shared exposure; the outlined picture shows view '{name}'."
+        )
+    section = replace(section, paragraphs=(where, *section.paragraphs))
     summary = ColourSummary(
         view=name,
         file="colours/colours.json",
@@ -514,11 +543,14 @@ def run_comparison(
     progress: bool = True,
     extra_sections: Sequence[ReportSection] = (),
     colour: bool = True,
+    colour_view: str | None = None,
 ) -> ComparisonResult:
     """Render every view under the "before" setup and relight it under each option (``after``:
     one setup or several), and write images, ``metrics.json`` and ``report.html`` (with the
-    colour analysis of the tagged objects in the view showing most of them, unless
-    ``colour=False``). ``scene`` is a scene file or a :class:`~render.study.Study`.
+    colour analysis of the tagged objects, unless ``colour=False``: every object in
+    ``colour_view`` if given, else in the scene's ``[colour] view`` if rendered, else each in
+    the view showing most of its main surface). ``scene`` is a scene file or a
+    :class:`~render.study.Study`.
 
     The camera rays are cast once per view; every option relights the same buffers."""
     from render.colour.lamp_figures import LampFigures, lamp_figures
@@ -537,6 +569,16 @@ def run_comparison(
     view_names = list(views or [v.name for v in scene.views])
     for name in view_names:
         scene.view(name)  # unknown views fail before any work
+    if colour_view is not None and colour_view not in view_names:
+        raise input_error(
+            "--colour-view",
+            colour_view,
+            f"{colour_view!r} is not among the compared views ({', '.join(view_names)})"
+            f"{did_you_mean(colour_view, view_names)}",
+        )
+    chosen = colour_view or (scene.colour_view if scene.colour_view in view_names else None)
+    analyse = colour and any(o.inspect for o in study.mesh.objects)
+    colour_views = _ColourViews(chosen)
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
     spp = samples_per_pixel or scene.render.samples_per_pixel
@@ -545,7 +587,6 @@ def run_comparison(
     descriptions: dict[str, SetupDescription] | None = None
     camera = None
     view_metrics: list[ViewMetrics] = []
-    colour_view = None
     # Views whose names give one file stem ("a b", "a-b") get distinct folders; "colours" is
     # the colour analysis' folder.
     folders = dict(zip(view_names, unique_stems(view_names, frozenset({"colours"}))))
@@ -578,11 +619,8 @@ def run_comparison(
             sbs = side_by_side(shared[0].srgb8, sh.srgb8, f"before: {setups[0].name}", f"{word}: {s.name}")
             write_png(out / images.side_by_side[key], sbs, meta(r, "shared side by side"))
             write_gif(out / images.wipe[key], wipe_frames(shared[0].srgb8, sh.srgb8))
-        if colour and any(o.inspect for o in study.mesh.objects):
-            # Keep the view that shows the most tagged objects for the colour analysis.
-            seen = _tagged_objects_visible(study, rb)
-            if colour_view is None or seen > colour_view[0]:
-                colour_view = (seen, (name, rendered, shared))
+        if analyse:
+            colour_views.offer(study, name, rendered, shared)
         view_metrics.append(
             ViewMetrics(
                 name=name,
@@ -611,8 +649,8 @@ def run_comparison(
     del pending
     sections = tuple(extra_sections)
     colours = None
-    if colour_view is not None:
-        section, colours = _colour_analysis(study, setups, observer, colour_view[1], out)
+    if analyse:
+        section, colours = _colour_analysis(study, setups, observer, colour_views, out)
         sections += (section,)
     lamps: dict[str, LampFigures] = {}
     for description in descriptions.values():
