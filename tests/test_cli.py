@@ -268,6 +268,23 @@ def test_check_json(capsys):
     assert s["triangles"] == mesh.n_triangles and s["objects"] == len(mesh.objects)
     assert s["luminaires"] == len(scene.luminaires) and s["views"] == [v.name for v in scene.views]
     assert s["setups"] == list(scene.setups) and s["inspected_objects"] == ["<b>bold</b> car"]
+    assert s["warnings"] == []
+
+
+def test_check_prints_warnings_and_exits_0(tmp_path, capsys):
+    # A field of view of 1.2° (radians typed as degrees): a warning naming the key, exit 0,
+    # the summary unchanged; in --json the same warning in the "warnings" list.
+    text = (SCENES / "point_over_plane.toml").read_text().replace("hfov_deg = 70.0", "hfov_deg = 1.2")
+    scene = tmp_path / "narrow.toml"
+    scene.write_text(text)
+    assert main(["check", str(scene)]) == 0
+    out = capsys.readouterr().out.splitlines()
+    assert out[0] == f"{scene}: OK"
+    (line,) = [x for x in out if x.startswith("warning:")]
+    assert line.startswith(f"warning: {scene}: views[0].hfov_deg: ")
+    assert main(["check", str(scene), "--json"]) == 0
+    (w,) = json.loads(capsys.readouterr().out)["warnings"]
+    assert w["where"] == "views[0].hfov_deg" and "1.2°" in w["message"]
 
 
 def test_relight_json_matches_library(tmp_path, capsys):

@@ -657,3 +657,27 @@ def test_flush_kerb_has_no_zero_area_face(tmp_path):
         text = BASE.replace("carriageway_width_m = 6.0", f"carriageway_width_m = 6.0\nkerb_height_m = {value}")
         mesh = compile_scene(load_scene(write(tmp_path, text)))
         assert np.allclose(np.linalg.norm(mesh.normals, axis=-1), 1.0, rtol=0, atol=1e-9)
+
+
+# ---- warnings of `check`: allowed values that are probably mistakes --------------------------
+# The thresholds are lampcast's own (scenes/README.md "Warnings"; common practice, no source).
+
+
+def warnings_of(path: Path) -> list:
+    from render.scene.warnings import scene_warnings
+
+    return scene_warnings(check_scene(path))
+
+
+def test_demo_scene_has_no_warnings():
+    assert warnings_of(SCENES / "demo" / "linden_row.toml") == []
+
+
+def test_narrow_field_of_view_warns_at_its_key(tmp_path):
+    # 1.2 typed for 1.2 rad (68.8°): a telephoto of 1.2° is not a street view.
+    p = write(tmp_path, BASE.replace("resolution = [16, 9]", "resolution = [16, 9]\nhfov_deg = 1.2"))
+    (w,) = warnings_of(p)
+    assert w.source == str(p) and w.where == "views[0].hfov_deg"
+    assert "1.2°" in w.message and "69°" in w.message  # 1.2 rad = 68.75° (analytic)
+    ok = write(tmp_path, BASE.replace("resolution = [16, 9]", "resolution = [16, 9]\nhfov_deg = 5.0"), "ok.toml")
+    assert warnings_of(ok) == []
