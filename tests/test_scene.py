@@ -681,3 +681,17 @@ def test_narrow_field_of_view_warns_at_its_key(tmp_path):
     assert "1.2°" in w.message and "69°" in w.message  # 1.2 rad = 68.75° (analytic)
     ok = write(tmp_path, BASE.replace("resolution = [16, 9]", "resolution = [16, 9]\nhfov_deg = 5.0"), "ok.toml")
     assert warnings_of(ok) == []
+
+
+@pytest.mark.parametrize("first, second", [("bins & cars", "bins / cars"), ("a b", "a-b"), ("Kerb", "kerb")])
+def test_view_names_giving_one_output_name_warn_naming_both(tmp_path, first, second):
+    # Output names keep letters, digits, '-' and '_' (render.fileio.file_stem): these pairs
+    # give one name, so their files would only be told apart by an added number.
+    text = BASE.replace('name = "v"', f'name = "{first}"') + BASE[BASE.index("[[views]]") :].replace(
+        'name = "v"', f'name = "{second}"'
+    )
+    (w,) = warnings_of(write(tmp_path, text))
+    assert w.where == "views[1].name" and repr(first) in w.message and repr(second) in w.message
+    assert "views[0]" in w.message
+    distinct = text.replace(f'name = "{second}"', 'name = "other"')
+    assert warnings_of(write(tmp_path, distinct, "ok.toml")) == []

@@ -12,9 +12,10 @@ from __future__ import annotations
 import math
 
 from render.errors import Problem
+from render.fileio import file_stem
 from render.scene.model import Scene
 
-__all__ = ["NARROW_HFOV_DEG", "narrow_fields_of_view", "scene_warnings"]
+__all__ = ["NARROW_HFOV_DEG", "clashing_view_names", "narrow_fields_of_view", "scene_warnings"]
 
 #: A horizontal field of view below this, degrees, is probably radians typed as degrees
 #: (common practice, no source: the narrowest street views are telephoto shots near 10°).
@@ -37,6 +38,30 @@ def narrow_fields_of_view(scene: Scene) -> list[Problem]:
     return out
 
 
+def clashing_view_names(scene: Scene) -> list[Problem]:
+    """Views whose names give the same output file name (:func:`render.fileio.file_stem`, e.g.
+    "bins & cars" and "bins / cars"): the outputs are told apart by a number added to the
+    later name (compared without regard to case, as case-insensitive file systems do), which the
+    warning tells the user. One warning per later view, naming the first."""
+    out = []
+    first: dict[str, int] = {}
+    for i, view in enumerate(scene.views):
+        stem = file_stem(view.name)
+        if stem.lower() not in first:
+            first[stem.lower()] = i
+            continue
+        j = first[stem.lower()]
+        out.append(
+            Problem(
+                str(scene.path),
+                f"views[{i}].name",
+                f"the views {scene.views[j].name!r} (views[{j}]) and {view.name!r} both give the output name "
+                f"{file_stem(scene.views[j].name)!r}: the later view's files get a number added; give names that differ in letters or digits",
+            )
+        )
+    return out
+
+
 def scene_warnings(scene: Scene) -> list[Problem]:
     """Every warning about ``scene``, in the order of the list in ``scenes/README.md``."""
-    return [*narrow_fields_of_view(scene)]
+    return [*narrow_fields_of_view(scene), *clashing_view_names(scene)]
