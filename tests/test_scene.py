@@ -695,3 +695,15 @@ def test_view_names_giving_one_output_name_warn_naming_both(tmp_path, first, sec
     assert "views[0]" in w.message
     distinct = text.replace(f'name = "{second}"', 'name = "other"')
     assert warnings_of(write(tmp_path, distinct, "ok.toml")) == []
+
+
+def test_two_luminaires_in_one_place_warn_naming_both(tmp_path):
+    # A single luminaire 0.05 m from the second position of a row: one lantern given twice.
+    row = BASE + ROW + "spacing_m = 10.0\ncount = 3\n"
+    x, y, z = load_scene(write(tmp_path, row, "row.toml")).luminaires[1].position_m
+    single = '\n[[luminaires]]\nname = "extra"\nposition_m = [{}, {}, {}]\nlamp = "led-4000k-cie-b3"\n'
+    (w,) = warnings_of(write(tmp_path, row + single.format(x + 0.05, y, z)))
+    assert w.where == "luminaire_rows[0] position 2" and "'extra'" in w.message
+    assert "luminaires[0].position_m" in w.message and "0.05 m" in w.message
+    # 0.2 m apart: two lanterns, no warning.
+    assert warnings_of(write(tmp_path, row + single.format(x + 0.2, y, z), "apart.toml")) == []

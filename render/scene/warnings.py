@@ -11,15 +11,31 @@ from __future__ import annotations
 
 import math
 
+import numpy as np
+from scipy.spatial import cKDTree
+
 from render.errors import Problem
 from render.fileio import file_stem
 from render.scene.model import Scene
 
-__all__ = ["NARROW_HFOV_DEG", "clashing_view_names", "narrow_fields_of_view", "scene_warnings"]
+__all__ = [
+    "COINCIDENT_M",
+    "NARROW_HFOV_DEG",
+    "clashing_view_names",
+    "coincident_luminaires",
+    "luminaire_key",
+    "narrow_fields_of_view",
+    "scene_warnings",
+]
 
 #: A horizontal field of view below this, degrees, is probably radians typed as degrees
 #: (common practice, no source: the narrowest street views are telephoto shots near 10°).
 NARROW_HFOV_DEG = 5.0
+#: Two luminous openings closer than this, m, are one luminaire given twice (common practice,
+#: no source: real lanterns are at least their own width, some 0.3 m, apart).
+COINCIDENT_M = 0.1
+#: At most this many warnings of one kind are listed, then how many more there are.
+MAX_LISTED = 20
 
 
 def narrow_fields_of_view(scene: Scene) -> list[Problem]:
@@ -62,6 +78,46 @@ def clashing_view_names(scene: Scene) -> list[Problem]:
     return out
 
 
+def luminaire_key(scene: Scene, index: int) -> str:
+    """Where luminaire ``index`` of ``scene.luminaires`` is given: ``luminaires[i].position_m``
+    for a single one, ``luminaire_rows[j] position k`` (k from 1, in the row's order of
+    placement) for one placed by a row."""
+    lum = scene.luminaires[index]
+    if lum.where.startswith("luminaires["):
+        return f"{lum.where}.position_m"
+    k = sum(1 for other in scene.luminaires[:index] if other.where == lum.where) + 1
+    return f"{lum.where} position {k}"
+
+
+def _capped(problems: list[Problem], source: str, where: str, what: str) -> list[Problem]:
+    if len(problems) <= MAX_LISTED:
+        return problems
+    more = len(problems) - MAX_LISTED
+    return [*problems[:MAX_LISTED], Problem(source, where, f"and {more:,} more {what}")]
+
+
+def coincident_luminaires(scene: Scene) -> list[Problem]:
+    """Pairs of luminaires whose luminous openings are within :data:`COINCIDENT_M` of each
+    other, each naming both (the later one's key first)."""
+    if len(scene.luminaires) < 2:
+        return []
+    points = np.array([lum.position_m for lum in scene.luminaires], dtype=np.float64)
+    pairs = sorted(cKDTree(points).query_pairs(COINCIDENT_M))
+    out = []
+    for i, j in pairs:
+        a, b = scene.luminaires[i], scene.luminaires[j]
+        distance = float(np.linalg.norm(points[i] - points[j]))
+        out.append(
+            Problem(
+                str(scene.path),
+                luminaire_key(scene, j),
+                f"luminaire {b.name!r} is {distance:.3g} m from {a.name!r} ({luminaire_key(scene, i)}): "
+                f"two luminaires in one place (closer than {COINCIDENT_M:g} m) light the street twice",
+            )
+        )
+    return _capped(out, str(scene.path), "luminaires", "pairs of luminaires in one place")
+
+
 def scene_warnings(scene: Scene) -> list[Problem]:
     """Every warning about ``scene``, in the order of the list in ``scenes/README.md``."""
-    return [*narrow_fields_of_view(scene), *clashing_view_names(scene)]
+    return [*narrow_fields_of_view(scene), *clashing_view_names(scene), *coincident_luminaires(scene)]
