@@ -500,3 +500,40 @@ def test_compare_analyses_each_object_in_the_view_showing_it(tmp_path):
     assert [o["view"] for o in _colours_json(tmp_path / "van")["objects"]] == ["van", "van"]
     with pytest.raises(Exception, match="colour-view"):
         run_comparison(scene, "old", "new", ["van"], tmp_path / "x", progress=False, colour_view="bin")
+
+
+def test_report_colour_tables_per_lighting_and_picture_alt_texts(tmp_path):
+    # Issue 12.5 and the pictures' alt text: "Names that change at night" has one column per
+    # lighting, "Pairs that become hard to tell apart" says "none" in words for a lighting
+    # without such pairs, and every colour picture's <img> carries the text its PNG is described
+    # with (WCAG 2.1 success criterion 1.1.1, text alternatives; PNG 1.2 Description keyword).
+    from PIL import Image
+
+    scene = _two_objects(tmp_path)
+    out = tmp_path / "cmp"
+    result = run_comparison(scene, "old", ["new", "old"], None, out, progress=False)
+    section = next(s for s in result.metrics.extra_sections if s.html_id == "colours")
+    data = _colours_json(out)
+    labels = list(data["setups"])
+    assert len(labels) == 3
+    changes = next(t for t in section.tables if t.caption.startswith("Names that change at night"))
+    assert changes.columns == ("object", "view", "daylight name", *(f"seen under {s}" for s in labels))
+    changed = [o for o in data["objects"] if any(
+        data["setups"][s]["objects"][o["name"]]["name_changed"] for s in labels)]  # fmt: skip
+    assert len(changes.rows) == max(1, len(changed))
+    pairs = next(t for t in section.tables if t.caption == "Pairs that become hard to tell apart")
+    for s in labels:
+        mine = [r for r in pairs.rows if r[0] == s]
+        expected = data["setups"][s]["confusions"]
+        assert [r[1] for r in mine] == ([f"{c['a']} / {c['b']}" for c in expected] or ["none"])
+    page = (out / "report.html").read_text(encoding="utf-8")
+    colours = page[page.index('<section id="colours"') :]
+    colours = colours[: colours.index("</section>")]
+    assert "<td>none</td>" in colours or not any(r[1] == "none" for r in pairs.rows)
+    alts = [html.unescape(a) for a in re.findall(r'<img[^>]* alt="([^"]*)"', colours)]
+    described = []
+    for rel in section.images:
+        with Image.open(out / rel) as im:
+            described.append(im.info["Description"])
+    assert alts == described and all(len(a) > 40 for a in alts)
+    assert section.image_alts == tuple(described)

@@ -399,10 +399,17 @@ class _ColourViews:
             self.kept[name] = (rendered, shared)
 
 
-def colour_report_section(result: ColourAnalysis, pictures: Mapping[str, Path], out_dir: Path) -> ReportSection:
-    """The report section of a colour analysis: the "name it" table, the pairs that become hard
-    to tell apart, and the pictures (paths relative to ``out_dir``). Numbers are published
+def colour_report_section(
+    result: ColourAnalysis, pictures: Mapping[str, Path], out_dir: Path, alts: Mapping[str, str] | None = None
+) -> ReportSection:
+    """The report section of a colour analysis: the "name it" table, the names that change at
+    night (one column per lighting), the pairs that become hard to tell apart (per lighting,
+    "none" in words where there are none), and the pictures (paths relative to ``out_dir``)
+    with their alt texts (``alts``, keyed like ``pictures``:
+    :func:`render.output.colour_files.colour_picture_alt_texts`). Numbers are published
     (:func:`render.output.metrics.published`)."""
+    from render.output.colour_text import NONE
+
     setups = list(result.setups)
     with_view = any(o.view is not None for o in result.objects)
     rows = []
@@ -416,13 +423,25 @@ def colour_report_section(result: ColourAnalysis, pictures: Mapping[str, Path], 
     columns = ["object", *(["view"] if with_view else []), "daylight name"]
     for s in setups:
         columns += [f"seen under {s}", f"contrast ({s})"]
-    confusion_rows = [
-        (s, c.a, c.b, published(c.daylight_delta_e00), published(c.delta_e00), c.level)
-        for s in setups
-        for c in result.setups[s].confusions
-    ]
+    change_rows = []
+    for r in result.name_change_rows():
+        cells = [r["object"], *([r["view"] or ""] if with_view else []), r["daylight"] or ""]
+        for s in setups:
+            seen = r["setups"][s]
+            cells.append("not visible" if seen is None else (f"{seen} *" if s in r["changed"] else seen))
+        change_rows.append(tuple(cells))
+    if not change_rows:
+        change_rows.append((NONE, *([""] if with_view else []), "", *("" for _ in setups)))
+    confusions = result.confusion_rows()
+    confusion_rows = []
+    for s in setups:
+        mine = [c for c in confusions if c["setup"] == s]
+        confusion_rows += [
+            (s, f"{c['a']} / {c['b']}", published(c["daylight_delta_e00"]), published(c["delta_e00"]), c["level"])
+            for c in mine
+        ] or [(s, NONE, "", "", "")]
     t = result.thresholds
-    paragraphs = [
+    paragraphs = (
         "Each tagged object's colour as a resident would see it after adapting to the street (night-vision "
         "stage: mesopic luminance, rod intrusion, adaptation) is compared with its colour in daylight. Names are "
         "the eleven basic colour terms predicted from the nearest published colour-name centroid (Centore 2020).",
@@ -432,23 +451,27 @@ def colour_report_section(result: ColourAnalysis, pictures: Mapping[str, Path], 
         "Contrast is Weber luminance contrast against the object's surroundings: lightness survives where hue does not. "
         + COLOUR_CAVEAT
         + ".",
-    ]
-    changes = [c.text for s in setups for c in result.setups[s].name_changes]
-    if changes:
-        paragraphs.append("Names that change at night: " + "; ".join(sorted(set(changes))) + ".")
+    )
+    alts = alts or {}
     return ReportSection(
         title="Telling colours apart",
         html_id="colours",
-        paragraphs=tuple(paragraphs),
+        paragraphs=paragraphs,
         tables=(
             ReportTable("Name it: daylight name and predicted night name per object", tuple(columns), tuple(rows)),
             ReportTable(
+                "Names that change at night (* the name differs from the daylight name)",
+                ("object", *(["view"] if with_view else []), "daylight name", *(f"seen under {s}" for s in setups)),
+                tuple(change_rows),
+            ),
+            ReportTable(
                 "Pairs that become hard to tell apart",
-                ("setup", "object", "object", "ΔE00 daylight", "ΔE00 seen", "level"),
+                ("setup", "pair", "ΔE00 daylight", "ΔE00 seen", "level"),
                 tuple(confusion_rows),
             ),
         ),
         images=tuple(str(p.relative_to(out_dir)) for p in pictures.values()),
+        image_alts=tuple(alts.get(k, "") for k in pictures),
     )
 
 
@@ -477,7 +500,7 @@ def _colour_analysis(
     from collections import Counter
 
     from render.analysis.view_colours import analyse_colours
-    from render.output.colour_files import write_colour_json, write_colour_pictures
+    from render.output.colour_files import colour_picture_alt_texts, write_colour_json, write_colour_pictures
 
     result = analyse_colours(study, views.kept, observer, _labels(setups), views.chosen)
     order = list(views.kept)
@@ -489,11 +512,11 @@ def _colour_analysis(
         study, rendered[0], "colour analysis", observer, study.scene.render.seed, rendered[0].buffers.spp
     )
     text["lampcast.setup"] = _comparison_text(setups)
-    pics = write_colour_pictures(
-        result, list(rendered), shared, study.setup_lamps(list(rendered), list(setups)), cdir, text=text
-    )
+    lamps = study.setup_lamps(list(rendered), list(setups))
+    pics = write_colour_pictures(result, list(rendered), shared, lamps, cdir, text=text)
     write_colour_json(result, cdir / "colours.json")
-    section = colour_report_section(result, pics, out)
+    alts = colour_picture_alt_texts(result, [lamp for lamp, _ in lamps])
+    section = colour_report_section(result, pics, out, alts)
     if views.chosen is not None:
         where = f"Analysed in view '{name}' (chosen for the colour analysis), every setup in shared exposure."
     else:

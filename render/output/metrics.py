@@ -403,14 +403,16 @@ class ReportTable:
 @dataclass(frozen=True)
 class ReportSection:
     """A further section of the report (the colour analysis is one): a title, an anchor name
-    (``html_id``; made unique and safe by the report), paragraphs, tables and images (paths
-    relative to the output folder)."""
+    (``html_id``; made unique and safe by the report), paragraphs, tables, images (paths
+    relative to the output folder) and what each image shows in words (``image_alts``, one per
+    image; the report's alt text, a generic one where missing or empty)."""
 
     title: str
     html_id: str
     paragraphs: tuple[str, ...] = ()
     tables: tuple[ReportTable, ...] = ()
     images: tuple[str, ...] = ()
+    image_alts: tuple[str, ...] = ()
 
     def to_json(self) -> dict[str, Any]:
         return _fields_json(self)
@@ -423,6 +425,7 @@ class ReportSection:
             tuple(str(p) for p in data.get("paragraphs") or ()),
             tuple(ReportTable.from_json(t) for t in data.get("tables") or ()),
             tuple(str(i) for i in data.get("images") or ()),
+            tuple(str(a) for a in data.get("image_alts") or ()),
         )
 
 

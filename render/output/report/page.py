@@ -272,6 +272,8 @@ class ExtraPart:
     paragraphs: tuple[str, ...]
     tables: tuple[Table, ...]
     figures: tuple[EmbeddedImage, ...]
+    #: Alt text of each figure ("TITLE: figure N" where the section gives none).
+    alts: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -539,8 +541,15 @@ def _extra_parts(
             )
             for t, spec in enumerate(section.tables)
         )
+        given = section.image_alts
+        alts = tuple(
+            (given[k] if k < len(given) and given[k] else f"{section.title}: figure {k + 1}")
+            for k in range(len(section.images))
+        )
         parts.append(
-            ExtraPart(anchor, section.title, section.paragraphs, tables, tuple(images.get(i) for i in section.images))
+            ExtraPart(
+                anchor, section.title, section.paragraphs, tables, tuple(images.get(i) for i in section.images), alts
+            )
         )
         nav.append((anchor, section.title))
     return tuple(parts), nav
