@@ -707,3 +707,17 @@ def test_two_luminaires_in_one_place_warn_naming_both(tmp_path):
     assert "luminaires[0].position_m" in w.message and "0.05 m" in w.message
     # 0.2 m apart: two lanterns, no warning.
     assert warnings_of(write(tmp_path, row + single.format(x + 0.2, y, z), "apart.toml")) == []
+
+
+def test_objects_and_luminaires_outside_the_street_warn_at_their_keys(tmp_path):
+    # The street of BASE is 30 m long; 40 m along it (10 m past its end) and 100 m across it
+    # are outside; 30.5 m along (within the 1 m margin of scenes/README.md) is not.
+    bin_at = '\n[[objects]]\nkind = "wheelie_bin"\nposition_m = [{}, 0.0]\n'
+    lamp_at = '\n[[luminaires]]\nposition_m = [10.0, {}, 6.0]\nlamp = "led-4000k-cie-b3"\n'
+    text = BASE + bin_at.format(40.0) + lamp_at.format(100.0)
+    warned = warnings_of(write(tmp_path, text))
+    assert [w.where for w in warned] == ["objects[0].position_m", "luminaires[0].position_m"]
+    assert "x = 40 m" in warned[0].message and "x from 0 to 30 m" in warned[0].message
+    assert "y = 100 m" in warned[1].message
+    inside = BASE + bin_at.format(30.5) + lamp_at.format(-3.0)
+    assert warnings_of(write(tmp_path, inside, "inside.toml")) == []

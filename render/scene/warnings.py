@@ -25,7 +25,10 @@ __all__ = [
     "coincident_luminaires",
     "luminaire_key",
     "narrow_fields_of_view",
+    "outside_street",
     "scene_warnings",
+    "street_bounds",
+    "STREET_MARGIN_M",
 ]
 
 #: A horizontal field of view below this, degrees, is probably radians typed as degrees
@@ -34,6 +37,10 @@ NARROW_HFOV_DEG = 5.0
 #: Two luminous openings closer than this, m, are one luminaire given twice (common practice,
 #: no source: real lanterns are at least their own width, some 0.3 m, apart).
 COINCIDENT_M = 0.1
+#: How far beyond the street's ends and building depth something may stand before it is
+#: "outside the street", m (common practice, no source: a column or a bin a little past the
+#: modelled length is ordinary).
+STREET_MARGIN_M = 1.0
 #: At most this many warnings of one kind are listed, then how many more there are.
 MAX_LISTED = 20
 
@@ -118,6 +125,53 @@ def coincident_luminaires(scene: Scene) -> list[Problem]:
     return _capped(out, str(scene.path), "luminaires", "pairs of luminaires in one place")
 
 
+def street_bounds(scene: Scene) -> tuple[tuple[float, float], tuple[float, float]] | None:
+    """``((x_min, x_max), (y_min, y_max))`` of the street, m: its length, and across it the
+    carriageway, kerbs, verges, footways, front gardens and the deepest frontage of each side;
+    None for a scene without a street."""
+    street = scene.street
+    if street is None:
+        return None
+    depth = {
+        side: max((f.depth_m for f in scene.frontages if f.side == side), default=0.0) for side in ("left", "right")
+    }
+    return (
+        (0.0, street.length_m),
+        (street.building_line_y("right") - depth["right"], street.building_line_y("left") + depth["left"]),
+    )
+
+
+def outside_street(scene: Scene) -> list[Problem]:
+    """Objects, free geometry and luminaires placed more than :data:`STREET_MARGIN_M` beyond
+    the street (:func:`street_bounds`), each naming its position key."""
+    bounds = street_bounds(scene)
+    if bounds is None:
+        return []
+    (x0, x1), (y0, y1) = bounds
+    items = [(f"{o.where}.position_m", f"{o.tag.name!r}", o.position_m) for o in scene.objects]
+    items += [
+        (luminaire_key(scene, k), f"luminaire {lum.name!r}", lum.position_m) for k, lum in enumerate(scene.luminaires)
+    ]
+    out = []
+    for where, what, (x, y, _z) in items:
+        if x0 - STREET_MARGIN_M <= x <= x1 + STREET_MARGIN_M and y0 - STREET_MARGIN_M <= y <= y1 + STREET_MARGIN_M:
+            continue
+        out.append(
+            Problem(
+                str(scene.path),
+                where,
+                f"{what} at x = {x:g} m, y = {y:g} m is outside the street (x from {x0:g} to {x1:g} m along it, "
+                f"y from {y0:g} to {y1:g} m across it, frontages included, give or take {STREET_MARGIN_M:g} m)",
+            )
+        )
+    return _capped(out, str(scene.path), "objects", "objects or luminaires outside the street")
+
+
 def scene_warnings(scene: Scene) -> list[Problem]:
     """Every warning about ``scene``, in the order of the list in ``scenes/README.md``."""
-    return [*narrow_fields_of_view(scene), *clashing_view_names(scene), *coincident_luminaires(scene)]
+    return [
+        *narrow_fields_of_view(scene),
+        *clashing_view_names(scene),
+        *coincident_luminaires(scene),
+        *outside_street(scene),
+    ]
