@@ -721,3 +721,15 @@ def test_objects_and_luminaires_outside_the_street_warn_at_their_keys(tmp_path):
     assert "y = 100 m" in warned[1].message
     inside = BASE + bin_at.format(30.5) + lamp_at.format(-3.0)
     assert warnings_of(write(tmp_path, inside, "inside.toml")) == []
+
+
+def test_camera_inside_a_solid_warns_at_the_view_position(tmp_path):
+    # A closed box (outward faces) around the camera at (1, 0, 1.6): every probe ray meets the
+    # inside of a face (analytic: the box spans x -1..3, y -2..2, z 0.5..4.5, clear of the
+    # road). Moved 10 m along the street, the camera sees its outside only.
+    box = '\n[[geometry]]\nkind = "box"\nsize_m = [4.0, 4.0, 4.0]\nposition_m = [{}, 0.0, 0.5]\nmaterial = "object-black"\n'
+    (w,) = warnings_of(write(tmp_path, BASE + box.format(1.0)))
+    assert w.where == "views[0].position_m" and "7 of 7 rays" in w.message
+    assert warnings_of(write(tmp_path, BASE + box.format(11.0), "outside.toml")) == []
+    # The flux test scene puts its camera inside a closed cube on purpose.
+    assert [w.where for w in warnings_of(SCENES / "tests" / "closed_box.toml")] == ["views[0].position_m"]

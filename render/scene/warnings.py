@@ -21,6 +21,7 @@ from render.scene.model import Scene
 __all__ = [
     "COINCIDENT_M",
     "NARROW_HFOV_DEG",
+    "cameras_inside_solids",
     "clashing_view_names",
     "coincident_luminaires",
     "luminaire_key",
@@ -28,6 +29,7 @@ __all__ = [
     "outside_street",
     "scene_warnings",
     "street_bounds",
+    "SOLID_PROBE_M",
     "STREET_MARGIN_M",
 ]
 
@@ -41,6 +43,9 @@ COINCIDENT_M = 0.1
 #: "outside the street", m (common practice, no source: a column or a bin a little past the
 #: modelled length is ordinary).
 STREET_MARGIN_M = 1.0
+#: A camera whose probe rays mostly meet a back face closer than this, m, is inside a solid
+#: (common practice, no source: cars, bins and house units are smaller).
+SOLID_PROBE_M = 20.0
 #: At most this many warnings of one kind are listed, then how many more there are.
 MAX_LISTED = 20
 
@@ -167,11 +172,40 @@ def outside_street(scene: Scene) -> list[Problem]:
     return _capped(out, str(scene.path), "objects", "objects or luminaires outside the street")
 
 
+def cameras_inside_solids(scene: Scene, triangles_m: np.ndarray, bvh) -> list[Problem]:
+    """Views whose camera stands inside a solid: of seven probe rays from the camera (the six
+    axis directions and the view direction) more than half meet a back face within
+    :data:`SOLID_PROBE_M` (:func:`render.rays.sanity.back_face_fraction`). ``triangles_m`` and
+    ``bvh``: the compiled scene and its BVH."""
+    from render.rays.sanity import AXIS_DIRECTIONS, back_face_fraction
+
+    out = []
+    for i, view in enumerate(scene.views):
+        look = np.subtract(view.target_m, view.position_m)
+        directions = np.vstack([AXIS_DIRECTIONS, look])
+        fraction = back_face_fraction(bvh, triangles_m, np.asarray(view.position_m), directions, SOLID_PROBE_M)
+        if fraction > 0.5:
+            out.append(
+                Problem(
+                    str(scene.path),
+                    f"views[{i}].position_m",
+                    f"the camera of view {view.name!r} seems to be inside a solid: {round(fraction * 7)} of 7 rays "
+                    f"from it meet the inside of a surface within {SOLID_PROBE_M:g} m",
+                )
+            )
+    return out
+
+
 def scene_warnings(scene: Scene) -> list[Problem]:
-    """Every warning about ``scene``, in the order of the list in ``scenes/README.md``."""
+    """Every warning about ``scene``, in the order of the list in ``scenes/README.md``. The
+    checks that cast rays compile the scene and build its BVH (:class:`render.study.Study`)."""
+    from render.study import Study
+
+    study = Study(scene)
     return [
         *narrow_fields_of_view(scene),
         *clashing_view_names(scene),
         *coincident_luminaires(scene),
         *outside_street(scene),
+        *cameras_inside_solids(scene, study.mesh.triangles_m, study.bvh),
     ]
