@@ -733,3 +733,17 @@ def test_camera_inside_a_solid_warns_at_the_view_position(tmp_path):
     assert warnings_of(write(tmp_path, BASE + box.format(11.0), "outside.toml")) == []
     # The flux test scene puts its camera inside a closed cube on purpose.
     assert [w.where for w in warnings_of(SCENES / "tests" / "closed_box.toml")] == ["views[0].position_m"]
+
+
+def test_setup_lumens_replacing_every_group_warns_at_its_key(tmp_path):
+    # Two groups ("street" and "bus stop") and a setup whose lumens covers both: a warning at
+    # setups.bright.lumens; the same setup giving the bus stop its own lumens does not warn.
+    lamps = (
+        '\n[[luminaires]]\nposition_m = [5.0, 3.0, 6.0]\nlamp = "led-4000k-cie-b3"\ngroup = "street"\n'
+        '\n[[luminaires]]\nposition_m = [15.0, -3.0, 4.0]\nlamp = "led-4000k-cie-b3"\ngroup = "bus stop"\n'
+    )
+    setup = '\n[setups.bright]\nlamp = "led-4000k-cie-b3"\nlumens = 4000.0\n'
+    (w,) = warnings_of(write(tmp_path, BASE + lamps + setup))
+    assert w.where == "setups.bright.lumens" and "'street', 'bus stop'" in w.message and "4000 lm" in w.message
+    own = setup + '\n[setups.bright.groups."bus stop"]\nlumens = 2500.0\n'
+    assert warnings_of(write(tmp_path, BASE + lamps + own, "own.toml")) == []

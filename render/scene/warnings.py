@@ -17,6 +17,7 @@ from scipy.spatial import cKDTree
 from render.errors import Problem
 from render.fileio import file_stem
 from render.scene.model import Scene
+from render.scene.schema import join
 
 __all__ = [
     "COINCIDENT_M",
@@ -28,6 +29,7 @@ __all__ = [
     "narrow_fields_of_view",
     "outside_street",
     "scene_warnings",
+    "setup_lumens_for_every_group",
     "street_bounds",
     "SOLID_PROBE_M",
     "STREET_MARGIN_M",
@@ -172,6 +174,32 @@ def outside_street(scene: Scene) -> list[Problem]:
     return _capped(out, str(scene.path), "objects", "objects or luminaires outside the street")
 
 
+def setup_lumens_for_every_group(scene: Scene) -> list[Problem]:
+    """Setups whose own ``lumens`` (for all luminaires) replaces the lumens of every one of the
+    scene's two or more luminaire groups, no group setting its own: usually one group (a bus
+    stop lantern, say) was meant to keep another flux."""
+    groups = scene.groups
+    if len(groups) < 2:
+        return []
+    out = []
+    for name, setup in scene.setups.items():
+        base = setup.groups.get("*")
+        if base is None or base.lumens is None:
+            continue
+        if any(g in setup.groups and setup.groups[g].lumens is not None for g in groups):
+            continue
+        out.append(
+            Problem(
+                str(scene.path),
+                f"{join('setups', name)}.lumens",
+                f"lumens = {base.lumens:g} sets every luminaire group ({', '.join(repr(g) for g in groups)}) to "
+                f"{base.lumens:g} lm; to keep another flux for a group, give its lumens under "
+                f"[{join('setups', name)}.groups]",
+            )
+        )
+    return out
+
+
 def cameras_inside_solids(scene: Scene, triangles_m: np.ndarray, bvh) -> list[Problem]:
     """Views whose camera stands inside a solid: of seven probe rays from the camera (the six
     axis directions and the view direction) more than half meet a back face within
@@ -208,4 +236,5 @@ def scene_warnings(scene: Scene) -> list[Problem]:
         *coincident_luminaires(scene),
         *outside_street(scene),
         *cameras_inside_solids(scene, study.mesh.triangles_m, study.bvh),
+        *setup_lumens_for_every_group(scene),
     ]
