@@ -715,7 +715,7 @@ def test_objects_and_luminaires_outside_the_street_warn_at_their_keys(tmp_path):
     bin_at = '\n[[objects]]\nkind = "wheelie_bin"\nposition_m = [{}, 0.0]\n'
     lamp_at = '\n[[luminaires]]\nposition_m = [10.0, {}, 6.0]\nlamp = "led-4000k-cie-b3"\n'
     text = BASE + bin_at.format(40.0) + lamp_at.format(100.0)
-    warned = warnings_of(write(tmp_path, text))
+    warned = [w for w in warnings_of(write(tmp_path, text)) if "outside the street" in w.message]
     assert [w.where for w in warned] == ["objects[0].position_m", "luminaires[0].position_m"]
     assert "x = 40 m" in warned[0].message and "x from 0 to 30 m" in warned[0].message
     assert "y = 100 m" in warned[1].message
@@ -747,3 +747,14 @@ def test_setup_lumens_replacing_every_group_warns_at_its_key(tmp_path):
     assert w.where == "setups.bright.lumens" and "'street', 'bus stop'" in w.message and "4000 lm" in w.message
     own = setup + '\n[setups.bright.groups."bus stop"]\nlumens = 2500.0\n'
     assert warnings_of(write(tmp_path, BASE + lamps + own, "own.toml")) == []
+
+
+def test_view_seeing_no_lit_surface_warns(tmp_path):
+    # A luminaire 6 m above the road at x = 25 m. Looking at the road, the view sees lit asphalt;
+    # looking 68° up with a 30° field of view it sees only sky (the lantern is 10° up, below the
+    # picture: analytic from the positions), so its preview is black.
+    lamp = '\n[[luminaires]]\nposition_m = [25.0, 0.0, 6.0]\nlamp = "led-4000k-cie-b3"\ncolumn = false\n'
+    assert warnings_of(write(tmp_path, BASE + lamp)) == []
+    up = BASE.replace("target_m = [20.0, 0.0, 0.0]", "target_m = [20.0, 0.0, 50.0]\nhfov_deg = 30.0")
+    (w,) = warnings_of(write(tmp_path, up + lamp, "up.toml"))
+    assert w.where == "views[0]" and "'v'" in w.message

@@ -24,6 +24,7 @@ __all__ = [
     "NARROW_HFOV_DEG",
     "cameras_inside_solids",
     "clashing_view_names",
+    "dark_views",
     "coincident_luminaires",
     "luminaire_key",
     "narrow_fields_of_view",
@@ -31,6 +32,7 @@ __all__ = [
     "scene_warnings",
     "setup_lumens_for_every_group",
     "street_bounds",
+    "PREVIEW_WIDTH_PX",
     "SOLID_PROBE_M",
     "STREET_MARGIN_M",
 ]
@@ -48,6 +50,8 @@ STREET_MARGIN_M = 1.0
 #: A camera whose probe rays mostly meet a back face closer than this, m, is inside a solid
 #: (common practice, no source: cars, bins and house units are smaller).
 SOLID_PROBE_M = 20.0
+#: Width of the one-sample-per-pixel preview render that looks for a lit surface in a view.
+PREVIEW_WIDTH_PX = 32
 #: At most this many warnings of one kind are listed, then how many more there are.
 MAX_LISTED = 20
 
@@ -224,6 +228,27 @@ def cameras_inside_solids(scene: Scene, triangles_m: np.ndarray, bvh) -> list[Pr
     return out
 
 
+def dark_views(scene: Scene, study) -> list[Problem]:
+    """Views that see no surface lit by the scene's luminaires (their own lamps): every pixel of
+    a :data:`PREVIEW_WIDTH_PX`-wide render at one sample per pixel has luminance 0. Nothing is
+    said for a scene without luminaires. ``study``: a :class:`render.study.Study` of ``scene``."""
+    if not scene.luminaires:
+        return []
+    out = []
+    for i, view in enumerate(scene.views):
+        preview = study.render_view(view.name, None, width_px=PREVIEW_WIDTH_PX, samples_per_pixel=1)
+        if not np.any(preview.colorimetry.luminance_cd_m2 > 0.0):
+            out.append(
+                Problem(
+                    str(scene.path),
+                    f"views[{i}]",
+                    f"view {view.name!r} sees no surface the luminaires light (a {preview.camera.width_px}×"
+                    f"{preview.camera.height_px}-pixel preview is black): check its position_m and target_m",
+                )
+            )
+    return out
+
+
 def scene_warnings(scene: Scene) -> list[Problem]:
     """Every warning about ``scene``, in the order of the list in ``scenes/README.md``. The
     checks that cast rays compile the scene and build its BVH (:class:`render.study.Study`)."""
@@ -237,4 +262,5 @@ def scene_warnings(scene: Scene) -> list[Problem]:
         *outside_street(scene),
         *cameras_inside_solids(scene, study.mesh.triangles_m, study.bvh),
         *setup_lumens_for_every_group(scene),
+        *dark_views(scene, study),
     ]
