@@ -537,3 +537,88 @@ def test_report_colour_tables_per_lighting_and_picture_alt_texts(tmp_path):
             described.append(im.info["Description"])
     assert alts == described and all(len(a) > 40 for a in alts)
     assert section.image_alts == tuple(described)
+
+
+# ------------------------------------------------------------ luminance per region (issue 12.6)
+
+_REGIONS = """
+[scene]
+name = "a street with fronts"
+
+[street]
+length_m = 40.0
+carriageway_width_m = 6.0
+
+[street.left]
+footway_width_m = 2.0
+
+[street.right]
+footway_width_m = 2.0
+
+[[frontages]]
+side = "left"
+start_m = 0.0
+length_m = 40.0
+units = 4
+
+[[objects]]
+kind = "wheelie_bin"
+name = "green bin"
+inspect = true
+position_m = [22.0, 4.5]
+materials = { body = "object-green" }
+
+[[luminaire_rows]]
+layout = "one-side"
+side = "left"
+start_m = 5.0
+spacing_m = 15.0
+count = 3
+mounting_height_m = 6.0
+lamp = "led-3000k-cie-b2"
+
+[[views]]
+name = "along"
+position_m = [2.0, -1.5]
+target_m = [30.0, 1.0, 1.0]
+resolution = [96, 54]
+
+[render]
+samples_per_pixel = 1
+"""
+
+
+def test_luminance_per_region_a_resident_recognises(tmp_path):
+    # Luminance is linear in the luminaire flux (analytic: the photometric definition of
+    # luminance, CIE S 017:2020 ILV): the same lamp dimmed to 50 % gives half the luminance in
+    # every region, to the published 4 significant digits. Each
+    # region's figures come from its own pixels (sky left out), are in metrics.json and in the
+    # report under the same path.
+    scene = tmp_path / "regions.toml"
+    scene.write_text(_REGIONS, encoding="utf-8")
+    out = tmp_path / "out"
+    result = run_comparison(
+        scene, "lamp=led-3000k-cie-b2", "lamp=led-3000k-cie-b2,dimming=0.5", None, out, progress=False, colour=False
+    )
+    view = result.metrics.views[0]
+    names = [r.name for r in view.regions]
+    assert names == ["carriageway", "footway left", "footway right", "house fronts", "green bin"]
+    before, option = result.metrics.setups
+    for region in view.regions:
+        full, half = region.luminance_cd_m2[before], region.luminance_cd_m2[option]
+        assert full.mean > 0 and region.pixels > 0
+        assert half.mean == pytest.approx(0.5 * full.mean, rel=2e-3), region.name
+        assert half.min == pytest.approx(0.5 * full.min, rel=2e-3, abs=1e-12), region.name
+    assert sum(r.pixels for r in view.regions[:4]) < 96 * 54  # the sky is no region
+    road = view.regions[0].luminance_cd_m2
+    assert f"the carriageway is darker after the change (mean luminance {road[before].mean:.3g} → " in " ".join(
+        result.metrics.summary
+    )
+    data = json.loads((out / "metrics.json").read_text(encoding="utf-8"))
+    assert [r["name"] for r in data["views"][0]["regions"]] == names
+    page = (out / "report.html").read_text(encoding="utf-8")
+    for r, region in enumerate(view.regions):
+        path = f"views.0.regions.{r}.luminance_cd_m2.{option}.mean"
+        assert f'data-metric="{path}"' in page
+        assert f'data-metric="{path}" data-value="{region.luminance_cd_m2[option].mean!r}"' in page
+        assert f'<th scope="row">{html.escape(region.name)}</th>' in page

@@ -5,7 +5,10 @@ option (an "after" setup; one or several) re-lights the same buffers (re-evaluat
 at the kept hit points only if it changes a photometric distribution). All are shown through
 the night-vision stage in ``shared`` exposure (one adaptation state: their true brightness
 relation), in ``adapted`` exposure (each for an eye adapted to it) and as luminance maps on
-one scale for the whole report (every view, every setup), with one legend.
+one scale for the whole report (every view, every setup), with one legend. Luminance figures
+are given per region a resident recognises (:func:`luminance_regions`: the carriageway, each
+footway, the house and shop fronts, each tagged object; from the pixels that show only it) as
+well as over every surface seen; the summary speaks of the carriageway where a view shows it.
 
 Everything written is listed in ``metrics.json`` together with the figures the report shows:
 the typed records of :mod:`render.output.metrics` (:class:`~render.output.metrics.ComparisonMetrics`),
@@ -44,6 +47,7 @@ from render.output.metrics import (
     GroupLighting,
     LuminanceStats,
     ObserverInfo,
+    RegionLuminance,
     RenderSettings,
     ReportSection,
     ReportTable,
@@ -58,6 +62,7 @@ from render.output.provenance import image_metadata
 from render.scene.model import GroupSetting, Scene, Setup
 
 if TYPE_CHECKING:
+    from render.geometry.build import ObjectInfo
     from render.light.luminaires import LuminaireSet
     from render.study import RenderedView, Study
     from render.vision.observer import ObserverSettings
@@ -72,7 +77,9 @@ __all__ = [
     "luminance_legend",
     "luminance_maps",
     "luminance_scale",
+    "luminance_regions",
     "luminance_stats",
+    "region_luminance",
     "parse_setup",
     "run_comparison",
     "setup_description",
@@ -177,6 +184,49 @@ def _surface_luminance(rendered: RenderedView) -> np.ndarray:
 def luminance_stats(rendered: RenderedView) -> LuminanceStats:
     """Mean, minimum, median and 95th percentile of the luminance of surfaces seen, cd/m²."""
     return LuminanceStats.of(_surface_luminance(rendered))
+
+
+def luminance_regions(objects: Sequence[ObjectInfo]) -> list[tuple[str, str, list[int]]]:
+    """The regions a resident recognises, as (name, kind, object indices): the carriageway (with
+    its centre line), each footway, the house fronts and the shop fronts (every frontage of
+    that kind), then each tagged object; regions without objects are left out."""
+    regions: list[tuple[str, str, list[int]]] = []
+
+    def add(name: str, kind: str, members: list[int]) -> None:
+        if members:
+            regions.append((name, kind, members))
+
+    street = [(i, o) for i, o in enumerate(objects) if o.kind in ("street", "marking")]
+    add("carriageway", "carriageway", [i for i, o in street if o.name in ("carriageway", "centre line")])
+    for side in ("left", "right"):
+        add(f"footway {side}", "footway", [i for i, o in street if o.kind == "street" and o.name == f"footway {side}"])
+    for kind in ("house", "shop"):
+        add(f"{kind} fronts", f"{kind} fronts", [i for i, o in enumerate(objects) if o.kind == f"{kind} frontage"])
+    for i, o in enumerate(objects):
+        if o.inspect:
+            add(o.name, "tagged object", [i])
+    return regions
+
+
+def region_luminance(
+    object_id: np.ndarray,
+    regions: Sequence[tuple[str, str, list[int]]],
+    luminances_cd_m2: Mapping[str, np.ndarray],
+) -> tuple[RegionLuminance, ...]:
+    """Per region the luminance statistics under each setup (setup key -> (H, W) luminance) over
+    the pixels whose object (``object_id``, -1: none or mixed) belongs to it; regions the view
+    does not show are left out."""
+    out = []
+    for name, kind, members in regions:
+        mask = np.isin(object_id, members)
+        n = int(mask.sum())
+        if n:
+            out.append(
+                RegionLuminance(
+                    name, kind, n, {k: LuminanceStats.of(np.asarray(y)[mask]) for k, y in luminances_cd_m2.items()}
+                )
+            )
+    return tuple(out)
 
 
 def setup_description(setup: Setup, lights: LuminaireSet, scene: Scene | None = None) -> SetupDescription:
@@ -309,14 +359,19 @@ def summary_sentences(metrics: ComparisonMetrics) -> list[str]:
                 "blue light scatters more in the sky and matters to wildlife and sleep."
             )
     for v in metrics.views:
+        # The carriageway where the view shows it, else every surface seen.
+        road = next((r for r in v.regions if r.kind == "carriageway"), None)
+        stats, what, verb = (
+            (v.luminance_cd_m2, "surfaces", "are") if road is None else (road.luminance_cd_m2, "the carriageway", "is")
+        )
         for key in metrics.options:
-            lb, la = v.luminance_cd_m2[BEFORE].mean, v.luminance_cd_m2[key].mean
+            lb, la = stats[BEFORE].mean, stats[key].mean
             if lb and la:
                 ratio = la / lb
                 change = "brighter" if ratio > 1.1 else "darker" if ratio < 0.9 else "about as bright"
                 when = "after the change" if single else f"under '{names[key]}'"
                 out.append(
-                    f"View '{v.name}': surfaces are {change} {when} (mean luminance {lb:.3g} → {la:.3g} cd/m², "
+                    f"View '{v.name}': {what} {verb} {change} {when} (mean luminance {lb:.3g} → {la:.3g} cd/m², "
                     f"×{ratio:.2f})."
                 )
     return out
@@ -576,6 +631,7 @@ def run_comparison(
     :class:`~render.study.Study`.
 
     The camera rays are cast once per view; every option relights the same buffers."""
+    from render.analysis.view_colours import pixel_object_ids
     from render.colour.lamp_figures import LampFigures, lamp_figures
     from render.colour.lamps import get_lamp
     from render.output.images import write_png
@@ -601,6 +657,7 @@ def run_comparison(
         )
     chosen = colour_view or (scene.colour_view if scene.colour_view in view_names else None)
     analyse = colour and any(o.inspect for o in study.mesh.objects)
+    regions = luminance_regions(study.mesh.objects)
     colour_views = _ColourViews(chosen)
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
@@ -658,6 +715,11 @@ def run_comparison(
                 mesopic_adaptation_cd_m2=AdaptationLevels(
                     published(shared[0].state.mesopic_cd_m2),
                     {k: published(a.state.mesopic_cd_m2) for k, a in zip(keys, adapted)},
+                ),
+                regions=region_luminance(
+                    pixel_object_ids(rb.buffers),
+                    regions,
+                    {k: r.colorimetry.luminance_cd_m2 for k, r in zip(keys, rendered)},
                 ),
             )
         )

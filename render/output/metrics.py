@@ -48,6 +48,7 @@ __all__ = [
     "LuminanceStats",
     "ObserverInfo",
     "RenderSettings",
+    "RegionLuminance",
     "ReportSection",
     "ReportTable",
     "SceneInfo",
@@ -349,9 +350,33 @@ class ViewImages:
 
 
 @dataclass(frozen=True)
+class RegionLuminance:
+    """The luminance of one region a resident recognises in one view (the carriageway, a
+    footway, the house fronts, a tagged object): setup key -> statistics over the pixels that
+    show only that region (``pixels`` of them; edges and luminous openings left out)."""
+
+    name: str
+    kind: str
+    pixels: int
+    luminance_cd_m2: Mapping[str, LuminanceStats]
+
+    def to_json(self) -> dict[str, Any]:
+        return _fields_json(self)
+
+    @classmethod
+    def from_json(cls, data: Mapping[str, Any]) -> RegionLuminance:
+        return cls(
+            str(data.get("name") or ""),
+            str(data.get("kind") or ""),
+            int(data.get("pixels") or 0),
+            {str(k): LuminanceStats.from_json(v or {}) for k, v in (data.get("luminance_cd_m2") or {}).items()},
+        )
+
+
+@dataclass(frozen=True)
 class ViewMetrics:
     """One view: its images, the surface luminance under every setup (setup key -> statistics),
-    the adaptation levels."""
+    the adaptation levels and the luminance per region the view shows (:class:`RegionLuminance`)."""
 
     name: str
     notes: str
@@ -359,6 +384,7 @@ class ViewMetrics:
     luminance_cd_m2: Mapping[str, LuminanceStats]
     adaptation_cd_m2: AdaptationLevels
     mesopic_adaptation_cd_m2: AdaptationLevels | None = None
+    regions: tuple[RegionLuminance, ...] = ()
 
     def to_json(self) -> dict[str, Any]:
         out = _fields_json(self)
@@ -377,6 +403,7 @@ class ViewMetrics:
             {str(k): LuminanceStats.from_json(v or {}) for k, v in lum.items()},
             AdaptationLevels.from_json(data.get("adaptation_cd_m2") or {}),
             None if mesopic is None else AdaptationLevels.from_json(mesopic),
+            tuple(RegionLuminance.from_json(r) for r in data.get("regions") or ()),
         )
 
 

@@ -21,7 +21,7 @@ and Rg, CIE S 017 CCT and Duv, S/P ratio).
 from __future__ import annotations
 
 import re
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any, ClassVar
 
@@ -226,8 +226,8 @@ class SetupImages:
 @dataclass(frozen=True)
 class ViewPart:
     """One view's part of the page: every setup's images (the "before" first; ``right`` is
-    the one shown right of the divide at first: the first option) and the luminance and
-    adaptation tables."""
+    the one shown right of the divide at first: the first option), the luminance and
+    adaptation tables and the luminance per region (``None`` when the view shows no region)."""
 
     index: int
     name: str
@@ -235,6 +235,7 @@ class ViewPart:
     setups: tuple[SetupImages, ...]
     luminance: Table
     adaptation: Table
+    regions: Table | None = None
 
     @property
     def left(self) -> SetupImages:
@@ -402,6 +403,40 @@ def _view_part(i: int, view: ViewMetrics, metrics: ComparisonMetrics, images: Im
         setups=parts,
         luminance=luminance,
         adaptation=adaptation,
+        regions=_region_table(i, view, keys, labels),
+    )
+
+
+def _region_table(i: int, view: ViewMetrics, keys: list[str], labels: Mapping[str, str]) -> Table | None:
+    """Mean and minimum luminance per region the view shows (carriageway, footways, fronts,
+    tagged objects), one column pair per setup."""
+    if not view.regions:
+        return None
+    stats = (("mean", "mean"), ("min", "minimum"))
+    return Table(
+        f"regions-{i}",
+        "Luminance per region the view shows (cd/m\u00b2; sky, luminaires and edges left out)",
+        tuple(
+            Row(
+                RowHead(region.name),
+                tuple(
+                    NumberCell(
+                        f"views.{i}.regions.{r}.luminance_cd_m2.{key}.{stat}",
+                        getattr(region.luminance_cd_m2.get(key), stat, None),
+                        "sig3",
+                        reason="not given",
+                    )
+                    for key in keys
+                    for stat, _ in stats
+                ),
+            )
+            for r, region in enumerate(view.regions)
+        ),
+        head=(
+            Heading("region"),
+            *(Heading(f"{label}, {labels[key]}", numeric=True) for key in keys for _, label in stats),
+        ),
+        scrolls=True,
     )
 
 
