@@ -171,7 +171,7 @@ def cmd_check(args: argparse.Namespace) -> int:
 
     scene = check_scene(args.scene, strict_paths=args.strict_paths)
     mesh = compile_scene(scene)
-    warnings = scene_warnings(scene)
+    warnings = scene_warnings(scene, mesh)
     figures = {
         "scene": str(args.scene),
         "ok": True,

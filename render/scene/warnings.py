@@ -10,6 +10,7 @@ warning is a :class:`~render.errors.Problem` naming the file and the key path, l
 from __future__ import annotations
 
 import math
+from typing import TYPE_CHECKING
 
 import numpy as np
 from scipy.spatial import cKDTree
@@ -18,6 +19,9 @@ from render.errors import Problem
 from render.fileio import file_stem
 from render.scene.model import Scene
 from render.scene.schema import join
+
+if TYPE_CHECKING:
+    from render.geometry.mesh import TriangleMesh
 
 __all__ = [
     "COINCIDENT_M",
@@ -249,12 +253,15 @@ def dark_views(scene: Scene, study) -> list[Problem]:
     return out
 
 
-def scene_warnings(scene: Scene) -> list[Problem]:
+def scene_warnings(scene: Scene, mesh: TriangleMesh | None = None) -> list[Problem]:
     """Every warning about ``scene``, in the order of the list in ``scenes/README.md``. The
-    checks that cast rays compile the scene and build its BVH (:class:`render.study.Study`)."""
+    checks that cast rays build the scene's BVH (:class:`render.study.Study`) over ``mesh``, the
+    scene already compiled (default: compiled here)."""
     from render.study import Study
 
     study = Study(scene)
+    if mesh is not None:
+        study.mesh = mesh  # the Study's cached compile, given rather than made again
     return [
         *narrow_fields_of_view(scene),
         *clashing_view_names(scene),
