@@ -185,11 +185,9 @@ class _Lines:
         return int(round(value)), line
 
     def count(self, what: str, minimum: int, limit: int) -> tuple[int, int]:
-        value, line = self.number(what)
-        if abs(value - round(value)) > 1e-9:
-            raise self.error(line, f"expected the {what} (a whole number), found {value:g}")
+        value, line = self.integer(what)
         check_count(value, limit, self.source, f"line {line}", f"the {what}", minimum)
-        return int(round(value)), line
+        return value, line
 
     def numbers(self, n: int, what: str) -> tuple[np.ndarray, int]:
         """The next ``n`` lines as finite floats, and the line number of the first."""
