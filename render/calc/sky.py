@@ -1,0 +1,235 @@
+"""Light to the sky: direct upward flux, light reflected upward, and a sky-glow weighted figure.
+
+* **Direct upward flux** of a luminaire: the flux its distribution sends above the horizontal.
+  Untilted, that is the exact zonal flux Φ(90°..180°) of :mod:`render.light.photometry.integrals`
+  (so ``upward_flux_lm / luminous_flux_lm`` is its :func:`~render.light.photometry.ulor`). A
+  luminaire tilted in its mounting (``tilt_deg``, the orientation of
+  :func:`render.light.photometry.luminaire_rotation`) is integrated over the world's upper
+  hemisphere instead, Φ↑ = ∫∫ I(C(θ, φ), γ(θ, φ)) sin θ dθ dφ, by the midpoint rule on a fine
+  (θ, φ) grid (a numerical quadrature; its error is checked against an analytic case in the
+  tests). The photometry passed is the one the luminaire uses (lumens and LM-63 tilt factors
+  already applied).
+* **Reflected upward flux**: a matt (Lambertian) patch of area A with illuminance E and
+  photometric reflectance ρ emits ρ·E·A lm; a patch whose normal has upward component n_z sends
+  the share (1 + n_z)/2 of it into the upper hemisphere (the view factor of a tilted plane to the
+  sky; 1 for a horizontal patch facing up, ½ for a wall). No interreflection is followed.
+* **Photometric reflectance** of a material under a lamp: ρ_v = Σ ρ(λ) s(λ) V(λ) / Σ s(λ) V(λ).
+* **Sky-glow weighting**: the upward lumens of each lamp times a per-lumen spectral weight,
+  relative to the before setup. Two weightings, both stated as *indicators*, not a sky-glow model:
+  Rayleigh scattering, w_R = V(λ₀)·Σ s (λ₀/λ)⁴ / Σ s V with λ₀ = 555 nm (so monochromatic 555 nm light
+  weighs 1 per lumen; molecular scattering goes as λ⁻⁴), and the scotopic-to-photopic ratio,
+  w_S = K'm Σ s V' / (Km Σ s V), the S/P ratio, for a dark-adapted observer's view of the sky.
+* **Notch-filterable share**: what an ideal narrow notch filter on the lamp's strongest line
+  could remove, as a share of the lamp's radiant power: the ``notch_fraction`` of
+  :func:`render.colour.lamp_figures.lamp_figures` (its definition is there).
+
+References
+----------
+- Upward light output ratio and sky glow: CIE 126:1997, "Guidelines for minimizing sky glow"
+  **(from memory)**; CIE 150:2017, "Guide on the limitation of the effects of obtrusive light
+  from outdoor lighting installations" **(from memory)**.
+- Rayleigh scattering cross-section ∝ λ⁻⁴: Lord Rayleigh (1899), "On the transmission of light
+  through an atmosphere containing small particles in suspension", *Phil. Mag.* 47; the use of a
+  spectral weighting of lamp spectra for sky glow: Falchi et al. (2011), *J. Environ. Manage.*
+  92, "Limiting the impact of light pollution on human health, environment and stellar
+  visibility" **(from memory)**.
+- CIE 1924 photopic V(λ), CIE 1951 scotopic V'(λ), Km = 683 lm/W, K'm = 1700 lm/W: CIE 018:2019
+  via colour-science's tables (:mod:`render.colour.observers`).
+- View factor of a tilted plane to the sky hemisphere, (1 + cos β)/2: standard radiative-transfer
+  result (e.g. Howell, Siegel & Mengüç, *Thermal Radiation Heat Transfer*) **(from memory)**.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import asdict, dataclass
+from typing import Any
+
+import numpy as np
+import numpy.typing as npt
+
+from render.colour.observers import photopic_lef, sp_ratio
+from render.colour.spectra import WAVELENGTHS_NM
+from render.light.photometry import intensity_cd, luminaire_rotation, world_to_c_gamma, zonal_flux_lm
+from render.light.photometry.model import Photometry
+
+__all__ = [
+    "RAYLEIGH_REFERENCE_NM",
+    "SkyFigures",
+    "SkyGlowRelative",
+    "direct_upward_flux_lm",
+    "notch_filterable_fraction",
+    "photometric_reflectance",
+    "rayleigh_weight_per_lm",
+    "reflected_upward_flux_lm",
+    "scotopic_weight_per_lm",
+    "sky_figures",
+    "sky_glow_relative",
+    "upward_flux_lm",
+]
+
+#: Wavelength at which the Rayleigh weight per lumen of monochromatic light is 1, nm.
+RAYLEIGH_REFERENCE_NM = 555.0
+
+
+def upward_flux_lm(photometry: Photometry, tilt_deg: float = 0.0, steps_per_degree: int = 4) -> float:
+    """Flux, lm, the distribution sends above the horizontal when mounted with ``tilt_deg``.
+
+    Untilted: the exact zonal flux Φ(γ 90°..180°). Tilted: the midpoint rule over the world's
+    upper hemisphere with ``steps_per_degree`` cells per degree in zenith angle and azimuth."""
+    if float(tilt_deg) == 0.0:
+        return zonal_flux_lm(photometry, 90.0, 180.0)
+    n_t = 90 * int(steps_per_degree)
+    n_p = 360 * int(steps_per_degree)
+    dt = math.pi / 2.0 / n_t
+    dp = 2.0 * math.pi / n_p
+    theta = (np.arange(n_t) + 0.5) * dt  # zenith angle, 0 = straight up
+    phi = (np.arange(n_p) + 0.5) * dp
+    st, ct = np.sin(theta)[:, None], np.cos(theta)[:, None]
+    dirs = np.stack(np.broadcast_arrays(st * np.cos(phi)[None, :], st * np.sin(phi)[None, :], ct), axis=-1)
+    c, g = world_to_c_gamma(dirs.reshape(-1, 3), luminaire_rotation(0.0, tilt_deg))
+    cd = np.asarray(intensity_cd(photometry, c, g)).reshape(n_t, n_p)
+    return float((cd * np.sin(theta)[:, None]).sum() * dt * dp)
+
+
+def direct_upward_flux_lm(
+    photometries: Sequence[Photometry],
+    tilts_deg: Sequence[float] | None = None,
+    output_factors: Sequence[float] | None = None,
+) -> float:
+    """Total direct upward flux, lm, of several luminaires: Σ factor_i · Φ↑(photometry_i, tilt_i)
+    (``output_factors`` are dimming levels, 1 when not given)."""
+    n = len(photometries)
+    tilts = [0.0] * n if tilts_deg is None else list(tilts_deg)
+    factors = [1.0] * n if output_factors is None else list(output_factors)
+    if len(tilts) != n or len(factors) != n:
+        raise ValueError("photometries, tilts_deg and output_factors must have the same length")
+    cache: dict[tuple[int, float], float] = {}
+    total = 0.0
+    for p, t, f in zip(photometries, tilts, factors, strict=True):
+        key = (id(p), float(t))
+        if key not in cache:
+            cache[key] = upward_flux_lm(p, t)
+        total += float(f) * cache[key]
+    return total
+
+
+def reflected_upward_flux_lm(
+    illuminance_lx: npt.ArrayLike,
+    reflectance: npt.ArrayLike,
+    area_m2: npt.ArrayLike,
+    normal_z: npt.ArrayLike | None = None,
+) -> float:
+    """Flux, lm, matt patches reflect into the upper hemisphere: Σ ρ·E·A·(1 + n_z)/2
+    (``normal_z`` 1, i.e. horizontal patches facing up, when not given)."""
+    e = np.asarray(illuminance_lx, dtype=np.float64)
+    rho = np.asarray(reflectance, dtype=np.float64)
+    a = np.asarray(area_m2, dtype=np.float64)
+    up = np.ones(1) if normal_z is None else (1.0 + np.clip(np.asarray(normal_z, dtype=np.float64), -1.0, 1.0)) / 2.0
+    return float(np.sum(rho * e * a * up))
+
+
+def photometric_reflectance(reflectance: npt.ArrayLike, spd: npt.ArrayLike) -> float:
+    """ρ_v = Σ ρ s V / Σ s V of a gridded reflectance under a gridded lamp spectrum."""
+    v = photopic_lef()
+    sv = np.asarray(spd, dtype=np.float64) * v
+    return float(np.sum(np.asarray(reflectance, dtype=np.float64) * sv) / np.sum(sv))
+
+
+def rayleigh_weight_per_lm(spd: npt.ArrayLike) -> float:
+    """Rayleigh-weighted power per photopic lumen, relative to monochromatic 555 nm light:
+    V(λ₀)·Σ s (λ₀/λ)⁴ / Σ s V (Km and the bin width cancel; see the module docstring)."""
+    s = np.asarray(spd, dtype=np.float64)
+    w = (RAYLEIGH_REFERENCE_NM / WAVELENGTHS_NM) ** 4
+    v0 = float(np.interp(RAYLEIGH_REFERENCE_NM, WAVELENGTHS_NM, photopic_lef()))
+    return float(np.sum(s * w) / np.sum(s * photopic_lef()) * v0)
+
+
+def scotopic_weight_per_lm(spd: npt.ArrayLike) -> float:
+    """Scotopic lumens per photopic lumen (the S/P ratio, K'm Σ s V' / Km Σ s V)."""
+    return float(sp_ratio(np.asarray(spd, dtype=np.float64)))
+
+
+def notch_filterable_fraction(lamp) -> float:
+    """Share of a :class:`render.colour.lamps.Lamp`'s radiant power an ideal notch filter on its
+    strongest line could remove (``lamp_figures(lamp).notch_fraction``)."""
+    from render.colour.lamp_figures import lamp_figures
+
+    return float(lamp_figures(lamp).notch_fraction)
+
+
+@dataclass(frozen=True)
+class SkyFigures:
+    """Light to the sky of one setup. Fluxes in lm; ``*_weighted_lm`` are upward lumens times the
+    per-lumen weight of their lamp's spectrum (lm-equivalents of 555 nm light for Rayleigh,
+    scotopic lm for scotopic); ``notch_fraction`` is flux-weighted over the lamps."""
+
+    direct_upward_lm: float
+    reflected_upward_lm: float
+    upward_lm: float
+    street_length_m: float
+    upward_lm_per_m: float
+    rayleigh_weighted_lm: float
+    scotopic_weighted_lm: float
+    notch_fraction: float | None
+
+    def to_json(self) -> dict[str, Any]:
+        return asdict(self)
+
+
+def sky_figures(
+    direct_upward_lm: Sequence[float],
+    reflected_upward_lm: Sequence[float],
+    spds: Sequence[npt.ArrayLike],
+    street_length_m: float,
+    notch_fractions: Sequence[float] | None = None,
+) -> SkyFigures:
+    """The figures of one setup from per-lamp parts: ``direct_upward_lm[i]`` and
+    ``reflected_upward_lm[i]`` are the upward lumens lit by lamp spectrum ``spds[i]`` (one entry
+    per lamp type of the setup)."""
+    if not (len(direct_upward_lm) == len(reflected_upward_lm) == len(spds)):
+        raise ValueError("one direct flux, reflected flux and spectrum per lamp")
+    if not (math.isfinite(street_length_m) and street_length_m > 0.0):
+        raise ValueError("street_length_m must be positive")
+    parts = [float(d) + float(r) for d, r in zip(direct_upward_lm, reflected_upward_lm, strict=True)]
+    total = sum(parts)
+    notch = None
+    if notch_fractions is not None and total > 0.0:
+        notch = sum(p * float(f) for p, f in zip(parts, notch_fractions, strict=True)) / total
+    return SkyFigures(
+        direct_upward_lm=float(sum(direct_upward_lm)),
+        reflected_upward_lm=float(sum(reflected_upward_lm)),
+        upward_lm=total,
+        street_length_m=float(street_length_m),
+        upward_lm_per_m=total / float(street_length_m),
+        rayleigh_weighted_lm=sum(p * rayleigh_weight_per_lm(s) for p, s in zip(parts, spds, strict=True)),
+        scotopic_weighted_lm=sum(p * scotopic_weight_per_lm(s) for p, s in zip(parts, spds, strict=True)),
+        notch_fraction=notch,
+    )
+
+
+@dataclass(frozen=True)
+class SkyGlowRelative:
+    """An option's upward light relative to the before setup (1 = the same; ``None`` when the
+    before setup sends none up)."""
+
+    upward: float | None
+    rayleigh_weighted: float | None
+    scotopic_weighted: float | None
+
+    def to_json(self) -> dict[str, Any]:
+        return asdict(self)
+
+
+def sky_glow_relative(before: SkyFigures, option: SkyFigures) -> SkyGlowRelative:
+    """Ratios option / before of the upward, Rayleigh-weighted and scotopic-weighted lumens."""
+
+    def ratio(a: float, b: float) -> float | None:
+        return a / b if b > 0.0 else None
+
+    return SkyGlowRelative(
+        upward=ratio(option.upward_lm, before.upward_lm),
+        rayleigh_weighted=ratio(option.rayleigh_weighted_lm, before.rayleigh_weighted_lm),
+        scotopic_weighted=ratio(option.scotopic_weighted_lm, before.scotopic_weighted_lm),
+    )
