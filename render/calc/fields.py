@@ -1,0 +1,213 @@
+"""Calculation fields: grids of points on the lanes and footways between two luminaires.
+
+A *field* covers the street between two consecutive luminaires of a row, of length S (the
+spacing). Points lie on a regular grid, in the middle of cells, so that the grid is the same
+whichever luminaire one starts from:
+
+* **along the street**: N points spaced D = S/N, N = 10 for S ≤ 30 m, otherwise the smallest
+  integer N with D ≤ 3 m; the first point D/2 from the field's start (the first luminaire);
+* **across each lane** of width W (the carriageway split into ``street.lanes`` equal lanes):
+  three points spaced d = W/3, the first d/2 from the lane's edge;
+* **across a footway** of width W: n points spaced d = W/n, the first d/2 from its edge, with
+  n = 3 unless the footway is wider than 4.5 m, where n is the smallest integer with d ≤ 1.5 m
+  (the rule for areas other than driving lanes as remembered from EN 13201-3; with the
+  footway widths of residential streets it gives three points).
+
+Coordinates are the scene's: x along the street, y across (+y is the left side), z up. Lane
+points lie on the carriageway (z = 0), footway points on the footway surface (z = the kerb
+height). Lanes are numbered from the right (−y) kerb: "lane 1" is the rightmost.
+
+:func:`evaluate_field` gives the horizontal illuminance at the points with the scene's direct
+light (:func:`render.study.Study.illuminance_lx`: the setup's lumens, dimming and maintenance
+factor, shadows from the geometry), and its mean Ē, minimum, maximum and overall uniformity
+U0 = Emin/Ē. Interreflected light is not included, as in the standard's calculation.
+
+Not done here: the luminance grid's observer positions, semicylindrical and vertical
+illuminance on footways, the edge illuminance ratio, and fields of staggered or opposite rows
+(a field is taken between consecutive luminaires of one row only).
+
+References
+----------
+* EN 13201-3:2015 *Road lighting — Part 3: Calculation of performance*, and CIE 140-2000
+  *Road lighting calculations*: the field between two luminaires of a row, N and D along, three
+  points per lane at d = W/3, the first points at D/2 and d/2. *memory* (with secondary notes
+  that quote the same rules); the footway rule for widths over 4.5 m is *memory* only.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from render.errors import input_error
+from render.scene.model import Scene, Setup, Street
+
+if TYPE_CHECKING:
+    from render.study import Study
+
+__all__ = [
+    "CalculationField",
+    "FieldResult",
+    "evaluate_field",
+    "footway_across",
+    "lane_across",
+    "points_along",
+    "row_fields",
+    "row_positions",
+    "street_fields",
+]
+
+#: Longest spacing (m) with ten points along; beyond it D ≤ 3 m (EN 13201-3 / CIE 140, memory).
+TEN_POINT_SPACING_M = 30.0
+#: Largest point spacing along the street for S > 30 m (EN 13201-3 / CIE 140, memory).
+MAX_ALONG_M = 3.0
+#: Largest point spacing across areas other than lanes (EN 13201-3, memory).
+MAX_ACROSS_M = 1.5
+#: Points across a lane, and the fewest across a footway (EN 13201-3 / CIE 140, memory).
+POINTS_ACROSS = 3
+#: Tolerance on the spacing rules so that 36 m / 12 = 3 m counts as D ≤ 3 m.
+_RULE_EPS = 1e-9
+
+
+@dataclass(frozen=True)
+class CalculationField:
+    """A grid of calculation points on one lane or footway.
+
+    ``points_m`` and ``normals`` are (n, 3) in row-major order of ``shape`` = (along, across):
+    point ``i * shape[1] + j`` is the i-th along the street and the j-th across (from −y)."""
+
+    name: str
+    points_m: np.ndarray
+    normals: np.ndarray
+    shape: tuple[int, int]
+    spacing_m: tuple[float, float]  # (D along, d across)
+
+
+@dataclass(frozen=True)
+class FieldResult:
+    """Horizontal illuminance on one field, with its summary figures."""
+
+    name: str
+    setup: str | None
+    illuminance_lx: np.ndarray  # (along, across)
+    mean_lx: float
+    min_lx: float
+    max_lx: float
+    u0: float  # Emin / Ē (0 when Ē is 0)
+
+    def to_json(self) -> dict[str, Any]:
+        """The result as plain JSON types (the grid as a list of rows along the street)."""
+        return {
+            "name": self.name,
+            "setup": self.setup,
+            "illuminance_lx": self.illuminance_lx.tolist(),
+            "mean_lx": self.mean_lx,
+            "min_lx": self.min_lx,
+            "max_lx": self.max_lx,
+            "u0": self.u0,
+        }
+
+
+def points_along(spacing_m: float) -> tuple[int, float]:
+    """(N, D): the number of points and their spacing along a field of length ``spacing_m``."""
+    if not spacing_m > 0:
+        raise ValueError(f"field length must be positive, got {spacing_m}")
+    if spacing_m <= TEN_POINT_SPACING_M:
+        n = 10
+    else:
+        n = math.ceil(spacing_m / MAX_ALONG_M - _RULE_EPS)
+    return n, spacing_m / n
+
+
+def lane_across(width_m: float) -> tuple[int, float]:
+    """(n, d) across a driving lane: three points, d = W/3."""
+    if not width_m > 0:
+        raise ValueError(f"lane width must be positive, got {width_m}")
+    return POINTS_ACROSS, width_m / POINTS_ACROSS
+
+
+def footway_across(width_m: float) -> tuple[int, float]:
+    """(n, d) across a footway: at least three points, more when d would exceed 1.5 m."""
+    if not width_m > 0:
+        raise ValueError(f"footway width must be positive, got {width_m}")
+    n = max(POINTS_ACROSS, math.ceil(width_m / MAX_ACROSS_M - _RULE_EPS))
+    return n, width_m / n
+
+
+def _grid(name: str, x0: float, length_m: float, y0: float, width_m: float, z: float, across) -> CalculationField:
+    n_along, d_along = points_along(length_m)
+    n_across, d_across = across(width_m)
+    xs = x0 + d_along * (np.arange(n_along) + 0.5)
+    ys = y0 + d_across * (np.arange(n_across) + 0.5)
+    gx, gy = np.meshgrid(xs, ys, indexing="ij")
+    pts = np.stack([gx.ravel(), gy.ravel(), np.full(gx.size, z)], axis=1)
+    normals = np.tile([0.0, 0.0, 1.0], (pts.shape[0], 1))
+    return CalculationField(name, pts, normals, (n_along, n_across), (d_along, d_across))
+
+
+def street_fields(street: Street, x_start_m: float, spacing_m: float) -> list[CalculationField]:
+    """The fields of ``street`` from ``x_start_m`` over ``spacing_m``: one per lane ("lane 1"
+    at −y first), then "footway right" and "footway left" where the footway has a width."""
+    half = 0.5 * street.carriageway_width_m
+    lane_w = street.carriageway_width_m / street.lanes
+    fields = [
+        _grid(f"lane {k + 1}", x_start_m, spacing_m, -half + k * lane_w, lane_w, 0.0, lane_across)
+        for k in range(street.lanes)
+    ]
+    for side in ("right", "left"):
+        s = street.side(side)
+        if s.footway_width_m <= 0:
+            continue
+        inner = half + street.kerb_width_m + s.verge_width_m
+        y0 = inner if side == "left" else -(inner + s.footway_width_m)
+        fields.append(
+            _grid(f"footway {side}", x_start_m, spacing_m, y0, s.footway_width_m, street.kerb_height_m, footway_across)
+        )
+    return fields
+
+
+def row_positions(scene: Scene, row: int = 0) -> np.ndarray:
+    """(n, 3) positions of the luminaires of the scene's ``luminaire_rows[row]``, sorted along x."""
+    where = f"luminaire_rows[{row}]"
+    pos = [lum.position_m for lum in scene.luminaires if lum.where == where]
+    if not pos:
+        raise input_error(scene.path, where, "no such luminaire row: calculation fields need a row of luminaires")
+    p = np.array(pos, dtype=np.float64).reshape(-1, 3)
+    return p[np.argsort(p[:, 0], kind="stable")]
+
+
+def row_fields(scene: Scene, row: int = 0, pair: int = 0) -> list[CalculationField]:
+    """The fields between luminaires ``pair`` and ``pair + 1`` (along x) of ``luminaire_rows[row]``."""
+    where = f"luminaire_rows[{row}]"
+    if scene.street is None:
+        raise input_error(scene.path, "street", "calculation fields need a [street] section")
+    pos = row_positions(scene, row)
+    if not 0 <= pair < len(pos) - 1:
+        raise input_error(
+            scene.path, where, f"a field needs luminaires {pair} and {pair + 1} of the row; it has {len(pos)}"
+        )
+    x0, x1 = float(pos[pair, 0]), float(pos[pair + 1, 0])
+    if not x1 > x0:
+        raise input_error(scene.path, where, "two luminaires of the row stand at the same x: no field between them")
+    return street_fields(scene.street, x0, x1 - x0)
+
+
+def evaluate_field(study: Study, field: CalculationField, setup: str | Setup | None = None) -> FieldResult:
+    """Horizontal illuminance on ``field`` under ``setup`` (direct light, shadows, the setup's
+    lumens, dimming and maintenance factor), with Ē, Emin, Emax and U0 = Emin/Ē."""
+    e = np.asarray(study.illuminance_lx(field.points_m, field.normals, setup), np.float64)
+    grid = e.reshape(field.shape)
+    mean = float(grid.mean())
+    lo = float(grid.min())
+    return FieldResult(
+        name=field.name,
+        setup=setup.name if isinstance(setup, Setup) else setup,
+        illuminance_lx=grid,
+        mean_lx=mean,
+        min_lx=lo,
+        max_lx=float(grid.max()),
+        u0=lo / mean if mean > 0 else 0.0,
+    )
