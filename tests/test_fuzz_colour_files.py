@@ -33,14 +33,12 @@ subnormal 4.9e-324, ``1e400`` parses to infinity): IEEE 754-2008.
 from __future__ import annotations
 
 import math
-import os
 import re
-from collections import Counter
 from pathlib import Path
 
 import numpy as np
 import pytest
-from fuzzing import fuzz_settings, reader_contract
+from fuzzing import BYTE_MUTATIONS, ODD_NUMBER_TEXT, InputTally, fuzz_settings, reader_contract
 from hypothesis import given
 from hypothesis import strategies as st
 
@@ -105,16 +103,7 @@ HOSTILE_NUMBERS = [
     "nan",
     "NaN",
     "-nan",
-    "inf",
-    "-inf",
-    "Infinity",
-    "1_000",
-    "0x10",
-    "1e",
-    "+",
-    "--1",
-    "１",
-    "",
+    *ODD_NUMBER_TEXT,
     "1,5",
     "1;5",
     "\x00",
@@ -122,23 +111,15 @@ HOSTILE_NUMBERS = [
     "\ufeff1",
 ]
 
-INPUTS_READ: Counter[str] = Counter()  # inputs read, per reader and generator
-PARSED: Counter[str] = Counter()  # of those, read without an InputError
+#: Inputs read per reader and generator, and of those how many parsed.
+TALLY = InputTally("lamp and material file fuzz")
+report_inputs_read = TALLY.report_fixture()
 
 
 @pytest.fixture(scope="module")
 def fuzz_dir(tmp_path_factory) -> Path:
     """One folder for the inputs (module-scoped: hypothesis runs many inputs per test)."""
     return tmp_path_factory.mktemp("colour-files-fuzz")
-
-
-@pytest.fixture(scope="module", autouse=True)
-def report_inputs_read():
-    yield
-    if os.environ.get("LAMPCAST_FUZZ") or os.environ.get("LAMPCAST_FUZZ_EXAMPLES"):
-        total = sum(INPUTS_READ.values())
-        parts = ", ".join(f"{k} {n} ({PARSED[k]} parsed)" for k, n in sorted(INPUTS_READ.items()))
-        print(f"\nlamp and material file fuzz: {total} inputs read: {parts}")
 
 
 def check_lamp(lamp: Lamp) -> None:
@@ -165,26 +146,16 @@ def check_material(material: Material) -> None:
 def read_lamp(data: bytes, fuzz_dir: Path, counter: str) -> Lamp | None:
     path = fuzz_dir / "case.csv"
     path.write_bytes(data)
-    INPUTS_READ[counter] += 1
-    lamp = reader_contract(lambda: load_lamp_file(path))
-    if lamp is not None:
-        PARSED[counter] += 1
-        check_lamp(lamp)
-    return lamp
+    return TALLY.read(counter, lambda: load_lamp_file(path), check_lamp, numpy_warnings_fail=False)
 
 
 def read_material(data: bytes, stem: str, fuzz_dir: Path, counter: str) -> Material | None:
     path = fuzz_dir / f"{stem}.csv"  # the id must equal the file name
     path.write_bytes(data)
-    INPUTS_READ[counter] += 1
     try:
-        material = reader_contract(lambda: load_material_csv(path))
+        return TALLY.read(counter, lambda: load_material_csv(path), check_material, numpy_warnings_fail=False)
     finally:
         path.unlink()
-    if material is not None:
-        PARSED[counter] += 1
-        check_material(material)
-    return material
 
 
 # --------------------------------------------------------------------------------------------
@@ -236,11 +207,8 @@ SEPARATORS = [
 
 def mutate(data: bytes, draw) -> bytes:
     kind = draw(st.sampled_from(MUTATIONS))
-    if kind == "flip":
-        if not data:
-            return data
-        k = draw(st.integers(0, len(data) - 1))
-        return data[:k] + bytes([draw(st.integers(0, 255))]) + data[k + 1 :]
+    if kind in BYTE_MUTATIONS:
+        return BYTE_MUTATIONS[kind](data, draw)
     if kind == "number":
         spans = [m.span() for m in _NUMBER.finditer(data)]
         if not spans:
@@ -250,11 +218,6 @@ def mutate(data: bytes, draw) -> bytes:
         if draw(st.integers(0, 4)) == 0:  # the same value in every number of the file
             return _NUMBER.sub(lambda m: new.encode("utf-8"), data)
         return data[:a] + new.encode("utf-8") + data[b:]
-    if kind == "truncate":
-        return data[: draw(st.integers(0, len(data)))]
-    if kind == "nul":
-        k = draw(st.integers(0, len(data)))
-        return data[:k] + b"\x00" + data[k:]
     if kind == "bom":
         k = draw(st.sampled_from([0, 0, len(data)]) | st.integers(0, len(data)))
         return data[:k] + _BOM + data[k:]
@@ -264,19 +227,10 @@ def mutate(data: bytes, draw) -> bytes:
         old, new = draw(st.sampled_from(SEPARATORS))
         return data.replace(old, new)
     lines = data.split(b"\n")
-    if kind == "duplicate_line":
-        k = draw(st.integers(0, len(lines) - 1))
-        return b"\n".join(lines[: k + 1] + [lines[k]] * draw(st.integers(1, 3)) + lines[k + 1 :])
-    if kind == "delete_line":
-        k = draw(st.integers(0, len(lines) - 1))
-        return b"\n".join(lines[:k] + lines[k + 1 :])
     if kind == "shuffle":
         return b"\n".join(draw(st.permutations(lines)))
-    if kind == "long_line":
-        k = draw(st.integers(0, len(lines)))
-        return b"\n".join(lines[:k] + [draw(st.sampled_from(LONG_LINES))] + lines[k:])
-    k = draw(st.integers(0, len(data)))
-    return data[:k] + draw(st.binary(max_size=12) | st.text(max_size=12).map(str.encode)) + data[k:]
+    k = draw(st.integers(0, len(lines)))  # "long_line"
+    return b"\n".join(lines[:k] + [draw(st.sampled_from(LONG_LINES))] + lines[k:])
 
 
 def _mutated(data, seed: bytes) -> bytes:

@@ -24,14 +24,11 @@ layout as cited in render/light/photometry/eulumdat.py; binary64 limits: IEEE 75
 
 from __future__ import annotations
 
-import os
-import warnings
-from collections import Counter
 from pathlib import Path
 
 import numpy as np
 import pytest
-from fuzzing import fuzz_settings, reader_contract
+from fuzzing import BYTE_MUTATIONS, InputTally, fuzz_settings, spoil_fields
 from hypothesis import given
 from hypothesis import strategies as st
 from test_eulumdat import ldt_text
@@ -46,8 +43,8 @@ SEED_BYTES = [p.read_bytes() for p in sorted(TESTS_DATA.glob("*.ldt"))] + [
     for isym, mc in ((0, 12), (1, 1), (2, 12), (3, 12), (4, 12))
 ]
 
-INPUTS_READ: Counter[str] = Counter()
-PARSED: Counter[str] = Counter()
+TALLY = InputTally("EULUMDAT fuzz")  # inputs read per generator, and of those how many parsed
+report_inputs_read = TALLY.report_fixture()
 
 
 @pytest.fixture(scope="module")
@@ -60,27 +57,11 @@ def read_case(data: bytes, fuzz_dir: Path, how: int, counter: str) -> P.Photomet
     (2); strict paths for how 1 and 2."""
     path = fuzz_dir / ("case.txt" if how == 2 else "case.ldt")
     path.write_bytes(data)
-    INPUTS_READ[counter] += 1
     if how == 0:
         read = lambda: P.read_eulumdat(path)  # noqa: E731
     else:
         read = lambda: P.load_photometry(path, allowed_root=fuzz_dir)  # noqa: E731
-    with warnings.catch_warnings():
-        warnings.simplefilter("error", RuntimeWarning)
-        ph = reader_contract(read)
-        if ph is not None:
-            PARSED[counter] += 1
-            check_result(ph)
-    return ph
-
-
-@pytest.fixture(scope="module", autouse=True)
-def report_inputs_read():
-    yield
-    if os.environ.get("LAMPCAST_FUZZ") or os.environ.get("LAMPCAST_FUZZ_EXAMPLES"):
-        total = sum(INPUTS_READ.values())
-        parts = ", ".join(f"{k} {n} ({PARSED[k]} parsed)" for k, n in sorted(INPUTS_READ.items()))
-        print(f"\nEULUMDAT fuzz: {total} inputs read: {parts}")
+    return TALLY.read(counter, read, check_result)
 
 
 HOSTILE = st.one_of(
@@ -96,29 +77,12 @@ MUTATIONS = ["flip", "line", "truncate", "duplicate_line", "delete_line", "nul",
 
 def mutate(data: bytes, draw) -> bytes:
     kind = draw(st.sampled_from(MUTATIONS))
-    lines = data.split(b"\n")
-    if kind == "flip":
-        if not data:
-            return data
-        k = draw(st.integers(0, len(data) - 1))
-        return data[:k] + bytes([draw(st.integers(0, 255))]) + data[k + 1 :]
     if kind == "line":
+        lines = data.split(b"\n")
         k = draw(st.integers(0, len(lines) - 1))
         lines[k] = draw(HOSTILE).encode("utf-8", "surrogatepass")
         return b"\n".join(lines)
-    if kind == "truncate":
-        return data[: draw(st.integers(0, len(data)))]
-    if kind == "duplicate_line":
-        k = draw(st.integers(0, len(lines) - 1))
-        return b"\n".join(lines[: k + 1] + [lines[k]] * draw(st.integers(1, 3)) + lines[k + 1 :])
-    if kind == "delete_line":
-        k = draw(st.integers(0, len(lines) - 1))
-        return b"\n".join(lines[:k] + lines[k + 1 :])
-    if kind == "nul":
-        k = draw(st.integers(0, len(data)))
-        return data[:k] + b"\x00" + data[k:]
-    k = draw(st.integers(0, len(data)))
-    return data[:k] + draw(st.binary(max_size=12) | st.text(max_size=12).map(str.encode)) + data[k:]
+    return BYTE_MUTATIONS[kind](data, draw)
 
 
 @fuzz_settings()
@@ -156,14 +120,7 @@ def eulumdat_file(draw) -> bytes:
         cfli=draw(st.sampled_from([1.0, 0.0, 1e300]) | st.floats(1e-3, 10)),
         decimal_comma=draw(st.booleans()),
     )
-    lines = text.split("\n")
-    for _ in range(draw(st.integers(0, 3))):
-        lines[draw(st.integers(0, len(lines) - 1))] = draw(HOSTILE)
-    change = draw(st.sampled_from(["none", "none", "none", "drop", "extra"]))
-    if change == "drop":
-        lines = lines[: -draw(st.integers(1, len(lines)))]
-    elif change == "extra":
-        lines += draw(st.lists(st.floats(0, 100).map(str), min_size=1, max_size=5))
+    lines = spoil_fields(draw, text.split("\n"), HOSTILE)
     ending = draw(st.sampled_from(["\n", "\r\n", "\r"]))
     encoding = draw(st.sampled_from(["utf-8", "utf-8-sig", "cp1252", "latin-1"]))
     return ending.join(lines).encode(encoding, "replace")

@@ -27,16 +27,21 @@ order is ANSI/IESNA LM-63-2002 and IES LM-63-2019 **(from memory)**; binary64 li
 from __future__ import annotations
 
 import math
-import os
 import re
 import shutil
-import warnings
-from collections import Counter
 from pathlib import Path
 
 import numpy as np
 import pytest
-from fuzzing import fuzz_settings, reader_contract
+from fuzzing import (
+    BYTE_MUTATIONS,
+    HOSTILE_FILE_REFERENCES,
+    ODD_NUMBER_TEXT,
+    InputTally,
+    fuzz_settings,
+    replace_token,
+    spoil_fields,
+)
 from hypothesis import given
 from hypothesis import strategies as st
 
@@ -73,16 +78,7 @@ HOSTILE_NUMBERS = [
     "2.0000000001",
     "nan",
     "NaN",
-    "inf",
-    "-inf",
-    "Infinity",
-    "1_000",
-    "0x10",
-    "1e",
-    "+",
-    "--1",
-    "１",
-    "",
+    *ODD_NUMBER_TEXT,
     ",",
     "1,2",
     "\x00",
@@ -97,12 +93,7 @@ TILT_VARIANTS = [
     "sub/deeper/tilt.tlt",
     "sub/../tilt_file.tlt",
     "../outside.tlt",
-    "{outside}",
-    "/dev/zero",
-    "/dev/null",
-    "/etc/passwd",
-    "../" * 40 + "etc/passwd",
-    "secret.txt",
+    *HOSTILE_FILE_REFERENCES,
     "sub/secret-link.tlt",
     "missing.tlt",
     "sub/missing/deeper.tlt",
@@ -122,8 +113,8 @@ TILT_VARIANTS = [
     " INCLUDE ",
 ]
 
-INPUTS_READ: Counter[str] = Counter()  # inputs read, per generator
-PARSED: Counter[str] = Counter()  # of those, read without an InputError
+TALLY = InputTally("LM-63 fuzz")  # inputs read per generator, and of those how many parsed
+report_inputs_read = TALLY.report_fixture()
 
 
 @pytest.fixture(scope="module")
@@ -190,24 +181,10 @@ def check_result(ph: P.Photometry) -> None:
 def read_case(data: bytes, fuzz_dir: Path, strict: bool, counter: str) -> P.Photometry | None:
     path = fuzz_dir / "case.ies"
     path.write_bytes(data)
-    INPUTS_READ[counter] += 1
     root = fuzz_dir if strict else None
-    with warnings.catch_warnings():
-        warnings.simplefilter("error", RuntimeWarning)  # no overflow or 0/0 on the way either
-        ph = reader_contract(lambda: P.read_lm63(path, allowed_root=root), forbidden_in_message=FORBIDDEN)
-        if ph is not None:
-            PARSED[counter] += 1
-            check_result(ph)
-    return ph
-
-
-@pytest.fixture(scope="module", autouse=True)
-def report_inputs_read():
-    yield
-    if os.environ.get("LAMPCAST_FUZZ") or os.environ.get("LAMPCAST_FUZZ_EXAMPLES"):
-        total = sum(INPUTS_READ.values())
-        parts = ", ".join(f"{k} {n} ({PARSED[k]} parsed)" for k, n in sorted(INPUTS_READ.items()))
-        print(f"\nLM-63 fuzz: {total} inputs read: {parts}")
+    return TALLY.read(
+        counter, lambda: P.read_lm63(path, allowed_root=root), check_result, forbidden_in_message=FORBIDDEN
+    )
 
 
 # --------------------------------------------------------------------------------------------
@@ -221,37 +198,14 @@ MUTATIONS = ["flip", "token", "truncate", "duplicate_line", "delete_line", "nul"
 
 def mutate(data: bytes, draw, fuzz_dir: Path) -> bytes:
     kind = draw(st.sampled_from(MUTATIONS))
-    if kind == "flip":
-        if not data:
-            return data
-        k = draw(st.integers(0, len(data) - 1))
-        return data[:k] + bytes([draw(st.integers(0, 255))]) + data[k + 1 :]
     if kind == "token":
-        spans = [m.span() for m in _TOKEN.finditer(data)]
-        if not spans:
-            return data
-        a, b = spans[draw(st.integers(0, len(spans) - 1))]
-        new = draw(st.sampled_from(HOSTILE_NUMBERS) | st.floats().map(repr) | st.integers().map(str))
-        return data[:a] + new.encode("utf-8") + data[b:]
-    if kind == "truncate":
-        return data[: draw(st.integers(0, len(data)))]
-    lines = data.split(b"\n")
-    if kind == "duplicate_line":
-        k = draw(st.integers(0, len(lines) - 1))
-        return b"\n".join(lines[: k + 1] + [lines[k]] * draw(st.integers(1, 3)) + lines[k + 1 :])
-    if kind == "delete_line":
-        k = draw(st.integers(0, len(lines) - 1))
-        return b"\n".join(lines[:k] + lines[k + 1 :])
-    if kind == "nul":
-        k = draw(st.integers(0, len(data)))
-        return data[:k] + b"\x00" + data[k:]
+        return replace_token(data, draw, _TOKEN, HOSTILE_NUMBERS)
     if kind == "tilt":
         tilt = b"TILT=" + tilt_variant(draw(st.integers(0, len(TILT_VARIANTS) - 1)), fuzz_dir)
         if _TILT_LINE.search(data):
             return _TILT_LINE.sub(lambda m: tilt, data, count=1)
         return tilt + b"\n" + data
-    k = draw(st.integers(0, len(data)))
-    return data[:k] + draw(st.binary(max_size=12) | st.text(max_size=12).map(str.encode)) + data[k:]
+    return BYTE_MUTATIONS[kind](data, draw)
 
 
 @fuzz_settings()
@@ -349,13 +303,7 @@ def lm63_file(draw, fuzz_dir: Path) -> bytes:
         *cd,
     ]
     fields = [f if isinstance(f, str) else f"{f:.17g}" for f in fields]
-    for _ in range(draw(st.integers(0, 3))):  # hostile values in random fields
-        fields[draw(st.integers(0, len(fields) - 1))] = draw(HOSTILE)
-    change = draw(st.sampled_from(["none", "none", "none", "drop", "extra"]))
-    if change == "drop":
-        fields = fields[: -draw(st.integers(1, len(fields)))]
-    elif change == "extra":
-        fields += draw(st.lists(st.floats(0, 100).map(str), min_size=1, max_size=5))
+    fields = spoil_fields(draw, fields, HOSTILE)  # hostile values in random fields
     lines += [f"TILT={tilt_ref}", sep.join(fields)]
     encoding = draw(st.sampled_from(["utf-8", "utf-8-sig", "cp1252", "latin-1"]))
     return "\n".join(lines).encode(encoding, "replace")

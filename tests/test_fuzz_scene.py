@@ -35,16 +35,25 @@ from __future__ import annotations
 import copy
 import json
 import math
-import os
 import re
 import shutil
-import warnings
-from collections import Counter
 from pathlib import Path
 
 import numpy as np
 import pytest
-from fuzzing import fuzz_settings, reader_contract
+from fuzzing import (
+    BYTE_MUTATIONS,
+    HOSTILE_FILE_REFERENCES,
+    InputTally,
+    checked_read,
+    delete_line,
+    duplicate_line,
+    fuzz_settings,
+    insert_junk,
+    insert_nul,
+    replace_token,
+    truncate,
+)
 from hypothesis import given
 from hypothesis import strategies as st
 
@@ -63,9 +72,9 @@ PHOTOMETRY_DATA = ROOT / "tests" / "data" / "photometry"
 SECRET_MARKER = "SECRET-MARKER-5c1e"
 FORBIDDEN = ("root:", SECRET_MARKER)  # text of other files that no message may show
 
-INPUTS_READ: Counter[str] = Counter()  # inputs read, per generator
-PARSED: Counter[str] = Counter()  # of those, read without an InputError
-COMPILED: Counter[str] = Counter()  # of those, compiled as well
+#: Inputs read per generator, of those how many read without an InputError and how many compiled.
+TALLY = InputTally("scene and OBJ fuzz", ("read", "compiled"))
+report_inputs_read = TALLY.report_fixture()
 
 #: Scenes cheaper than this (objects, frontage units, markings, luminaires) are compiled too.
 COMPILE_BUDGET = 300
@@ -86,12 +95,7 @@ FILE_VARIANTS = [
     "sub/../tri.obj",
     "./tri.obj",
     "../outside.obj",
-    "{outside}",
-    "/dev/zero",
-    "/dev/null",
-    "/etc/passwd",
-    "../" * 40 + "etc/passwd",
-    "secret.txt",
+    *HOSTILE_FILE_REFERENCES,
     "missing.obj",
     "sub/missing/deeper.obj",
     "sub",
@@ -347,10 +351,9 @@ def mutate_doc(doc: dict, draw, fuzz_dir: Path) -> None:
 def mutate_text(text: str, draw) -> str:
     op = draw(st.sampled_from(["truncate", "nul", "flip", "duplicate_line", "huge_number", "deep", "bom"]))
     if op == "truncate":
-        return text[: draw(st.integers(0, len(text)))]
+        return truncate(text, draw)
     if op == "nul":
-        k = draw(st.integers(0, len(text)))
-        return text[:k] + "\x00" + text[k:]
+        return insert_nul(text, draw)
     if op == "flip":
         if not text:
             return text
@@ -398,30 +401,17 @@ def check_mesh(mesh) -> None:
 def read_scene(text: str, fuzz_dir: Path, strict: bool, counter: str) -> None:
     path = fuzz_dir / "case.toml"
     path.write_bytes(text.encode("utf-8", "surrogatepass"))
-    INPUTS_READ[counter] += 1
-    with warnings.catch_warnings():
-        warnings.simplefilter("error", RuntimeWarning)  # no overflow or 0/0 on the way either
-        scene = reader_contract(lambda: load_scene(path, strict_paths=strict), forbidden_in_message=FORBIDDEN)
-        if scene is None:
-            return
-        PARSED[counter] += 1
-        check_scene_result(scene)
-        cost, triangles = scene_cost(scene)
-        if cost > COMPILE_BUDGET or triangles > COMPILE_TRIANGLES:
-            return
-        mesh = reader_contract(lambda: compile_scene(scene), forbidden_in_message=FORBIDDEN)
-        if mesh is not None:
-            COMPILED[counter] += 1
-            check_mesh(mesh)
-
-
-@pytest.fixture(scope="module", autouse=True)
-def report_inputs_read():
-    yield
-    if os.environ.get("LAMPCAST_FUZZ") or os.environ.get("LAMPCAST_FUZZ_EXAMPLES"):
-        total = sum(INPUTS_READ.values())
-        parts = ", ".join(f"{k} {n} ({PARSED[k]} read, {COMPILED[k]} compiled)" for k, n in sorted(INPUTS_READ.items()))
-        print(f"\nscene and OBJ fuzz: {total} inputs read: {parts}")
+    # No numpy overflow or 0/0 on the way either, in reading or in compiling.
+    read = lambda: load_scene(path, strict_paths=strict)  # noqa: E731
+    scene = TALLY.read(counter, read, check_scene_result, forbidden_in_message=FORBIDDEN)
+    if scene is None:
+        return
+    cost, triangles = scene_cost(scene)
+    if cost > COMPILE_BUDGET or triangles > COMPILE_TRIANGLES:
+        return
+    mesh = checked_read(lambda: compile_scene(scene), check_mesh, forbidden_in_message=FORBIDDEN)
+    if mesh is not None:
+        TALLY.count("compiled", counter)
 
 
 @fuzz_settings(default=100)
@@ -482,18 +472,10 @@ OBJ_VALID = [
 
 def mutate_obj(data: bytes, draw) -> bytes:
     kind = draw(st.sampled_from(OBJ_MUTATIONS))
-    if kind == "flip":
-        if not data:
-            return data
-        k = draw(st.integers(0, len(data) - 1))
-        return data[:k] + bytes([draw(st.integers(0, 255))]) + data[k + 1 :]
+    if kind in ("flip", "truncate"):
+        return BYTE_MUTATIONS[kind](data, draw)
     if kind == "token":
-        spans = [m.span() for m in _OBJ_TOKEN.finditer(data)]
-        if not spans:
-            return data
-        a, b = spans[draw(st.integers(0, len(spans) - 1))]
-        new = draw(st.sampled_from(HOSTILE_OBJ_TOKENS) | st.floats().map(repr) | st.integers().map(str))
-        return data[:a] + new.encode("utf-8") + data[b:]
+        return replace_token(data, draw, _OBJ_TOKEN, HOSTILE_OBJ_TOKENS)
     if kind == "number":  # a number replaced by a nearby one (often still a valid file)
         spans = [m.span() for m in _OBJ_NUMBER.finditer(data)]
         if not spans:
@@ -501,22 +483,18 @@ def mutate_obj(data: bytes, draw) -> bytes:
         a, b = spans[draw(st.integers(0, len(spans) - 1))]
         value = float(data[a:b]) + draw(st.sampled_from([-1.0, 1.0, 0.5, 1e-9, -1e-12]))
         return data[:a] + (str(int(value)) if b"." not in data[a:b] else repr(value)).encode() + data[b:]
-    if kind == "truncate":
-        return data[: draw(st.integers(0, len(data)))]
     lines = data.split(b"\n")
     k = draw(st.integers(0, len(lines) - 1))
     if kind == "duplicate_line":
-        return b"\n".join(lines[: k + 1] + [lines[k]] * draw(st.integers(1, 50)) + lines[k + 1 :])
+        return duplicate_line(lines, draw, k, most=50)
     if kind == "delete_line":
-        return b"\n".join(lines[:k] + lines[k + 1 :])
+        return delete_line(lines, draw, k)
     if kind == "continue":  # a backslash at the end of a line, or of many
         n = draw(st.integers(1, 20))
         return b"\n".join(line + b" \\" if k <= i < k + n else line for i, line in enumerate(lines))
     if kind == "nul":
-        k = draw(st.integers(0, len(data)))
-        return data[:k] + b"\x00" + data[k:]
-    k = draw(st.integers(0, len(data)))
-    return data[:k] + draw(st.binary(max_size=12) | st.text(max_size=12).map(str.encode)) + data[k:]
+        return insert_nul(data, draw)
+    return insert_junk(data, draw)
 
 
 HOSTILE_COORDINATE = st.one_of(
@@ -624,14 +602,10 @@ def check_parts(parts) -> None:
 def read_obj(data: bytes, fuzz_dir: Path, arguments: tuple[float, str], counter: str) -> None:
     path = fuzz_dir / "case.obj"
     path.write_bytes(data)
-    INPUTS_READ[counter] += 1
     scale, up_axis = arguments
-    with warnings.catch_warnings():
-        warnings.simplefilter("error", RuntimeWarning)
-        parts = reader_contract(lambda: load_obj(path, scale=scale, up_axis=up_axis), forbidden_in_message=FORBIDDEN)
-        if parts is not None:
-            PARSED[counter] += 1
-            check_parts(parts)
+    TALLY.read(
+        counter, lambda: load_obj(path, scale=scale, up_axis=up_axis), check_parts, forbidden_in_message=FORBIDDEN
+    )
 
 
 @fuzz_settings()
