@@ -11,6 +11,7 @@ import json
 import numpy as np
 import pytest
 import synthetic
+from scenes_for_tests import TWO_OBJECTS_SETUPS_NIGHT, write_two_objects_scene
 
 from render.analysis import (
     SetupView,
@@ -652,62 +653,11 @@ def test_colour_slot_in_the_scene_overrides_the_kind_main_surface(tmp_path):
 
 # ------------------------------------------------------------- the view of each object (issue 12.4)
 
-_TWO_OBJECTS_SCENE = """
-[scene]
-name = "a van and a bin far apart"
-
-[street]
-length_m = 60.0
-carriageway_width_m = 6.0
-
-[[objects]]
-kind = "car"
-name = "orange van"
-inspect = true
-position_m = [8.0, 2.2]
-params = {{ body_style = "van" }}
-materials = {{ body = "object-orange" }}
-
-[[objects]]
-kind = "wheelie_bin"
-name = "green bin"
-inspect = true
-position_m = [50.0, -4.0]
-materials = {{ body = "object-green" }}
-
-[[luminaire_rows]]
-spacing_m = 20.0
-count = 3
-start_m = 5.0
-mounting_height_m = 5.0
-lamp = "led-3000k-cie-b2"
-
-[[views]]
-name = "van"
-position_m = [16.0, 0.0]
-target_m = [8.0, 2.2, 1.0]
-resolution = [96, 54]
-
-[[views]]
-name = "bin"
-position_m = [44.0, -2.0]
-target_m = [50.0, -4.0, 0.5]
-resolution = [96, 54]
-{extra}
-[render]
-samples_per_pixel = 1
-
-[setups.night]
-lamp = "led-3000k-cie-b2"
-"""
-
 
 def _two_object_study(tmp_path, extra=""):
     from render.study import Study
 
-    path = tmp_path / f"two-{len(extra)}.toml"
-    path.write_text(_TWO_OBJECTS_SCENE.format(extra=extra), encoding="utf-8")
-    return Study(path)
+    return Study(write_two_objects_scene(tmp_path, extra, setups=TWO_OBJECTS_SETUPS_NIGHT))
 
 
 def _rendered_views(study):

@@ -19,6 +19,7 @@ from pathlib import Path
 
 import markupsafe
 import pytest
+from scenes_for_tests import write_two_objects_scene
 
 from render.cli import main
 from render.output.comparison import run_comparison
@@ -417,64 +418,6 @@ def test_flux_columns_and_setup_wide_lumens_note(tmp_path):
 
 # ------------------------------------------------------------ colour view choice (issue 12.4)
 
-_TWO_OBJECTS = """
-[scene]
-name = "a van and a bin far apart"
-
-[street]
-length_m = 60.0
-carriageway_width_m = 6.0
-
-[[objects]]
-kind = "car"
-name = "orange van"
-inspect = true
-position_m = [8.0, 2.2]
-params = {{ body_style = "van" }}
-materials = {{ body = "object-orange" }}
-
-[[objects]]
-kind = "wheelie_bin"
-name = "green bin"
-inspect = true
-position_m = [50.0, -4.0]
-materials = {{ body = "object-green" }}
-
-[[luminaire_rows]]
-spacing_m = 20.0
-count = 3
-start_m = 5.0
-mounting_height_m = 5.0
-lamp = "led-3000k-cie-b2"
-
-[[views]]
-name = "van"
-position_m = [16.0, 0.0]
-target_m = [8.0, 2.2, 1.0]
-resolution = [96, 54]
-
-[[views]]
-name = "bin"
-position_m = [44.0, -2.0]
-target_m = [50.0, -4.0, 0.5]
-resolution = [96, 54]
-{extra}
-[render]
-samples_per_pixel = 1
-
-[setups.old]
-lamp = "sodium-low-pressure"
-
-[setups.new]
-lamp = "led-3000k-cie-b2"
-"""
-
-
-def _two_objects(tmp_path, extra=""):
-    path = tmp_path / f"two-{len(extra)}.toml"
-    path.write_text(_TWO_OBJECTS.format(extra=extra), encoding="utf-8")
-    return path
-
 
 def _colours_json(out):
     return json.loads((out / "colours" / "colours.json").read_text(encoding="utf-8"))
@@ -483,7 +426,7 @@ def _colours_json(out):
 def test_compare_analyses_each_object_in_the_view_showing_it(tmp_path):
     # No single view shows both tagged objects: each is analysed in its own view and neither is
     # "not visible" (common practice, no source: an object seen somewhere is never unseen).
-    scene = _two_objects(tmp_path)
+    scene = write_two_objects_scene(tmp_path)
     result = run_comparison(scene, "old", "new", None, tmp_path / "best", progress=False)
     data = _colours_json(tmp_path / "best")
     assert [o["view"] for o in data["objects"]] == ["van", "bin"]
@@ -495,7 +438,7 @@ def test_compare_analyses_each_object_in_the_view_showing_it(tmp_path):
     assert main(["compare", str(scene), "--before", "old", "--after", "new", "--colour-view", "bin", "--no-report",
                  "--quiet", "--out", str(tmp_path / "bin")]) == 0  # fmt: skip
     assert [o["view"] for o in _colours_json(tmp_path / "bin")["objects"]] == ["bin", "bin"]
-    from_scene = _two_objects(tmp_path, '\n[colour]\nview = "van"\n')
+    from_scene = write_two_objects_scene(tmp_path, '\n[colour]\nview = "van"\n')
     run_comparison(from_scene, "old", "new", None, tmp_path / "van", progress=False, report=False)
     assert [o["view"] for o in _colours_json(tmp_path / "van")["objects"]] == ["van", "van"]
     with pytest.raises(Exception, match="colour-view"):
@@ -509,7 +452,7 @@ def test_report_colour_tables_per_lighting_and_picture_alt_texts(tmp_path):
     # with (WCAG 2.1 success criterion 1.1.1, text alternatives; PNG 1.2 Description keyword).
     from PIL import Image
 
-    scene = _two_objects(tmp_path)
+    scene = write_two_objects_scene(tmp_path)
     out = tmp_path / "cmp"
     result = run_comparison(scene, "old", ["new", "old"], None, out, progress=False)
     section = next(s for s in result.metrics.extra_sections if s.html_id == "colours")
