@@ -16,12 +16,14 @@ import pytest
 
 from render.calc import (
     FieldResult,
+    evaluate_face_field,
     evaluate_field,
     footway_across,
     lane_across,
     points_along,
     row_fields,
     row_positions,
+    semicylindrical_illuminance_lx,
     street_fields,
 )
 from render.errors import InputError
@@ -231,3 +233,80 @@ def test_named_setup_scales_by_lumens_and_dimming(plane):
     r = evaluate_field(plane, f, "dimmed-hps")
     assert r.setup == "dimmed-hps"
     np.testing.assert_allclose(r.illuminance_lx, 0.3 * base.illuminance_lx, rtol=1e-12)
+
+
+# --- semicylindrical and vertical illuminance at 1.5 m on footways -----------------------------
+
+
+def test_face_field_point_source_closed_form(plane):
+    # Isotropic I = 10000/(4π) cd at (0, 0, 5) (the scene file). A point at 1.5 m sees it at
+    # distance d, elevation ε, azimuth α from the facing direction. Vertical plane facing f:
+    # E_v = I cos ε max(cos α, 0)/d² (cosine law, analytic). Semicylinder facing f:
+    # E_sc = I cos ε (1 + cos α)/(π d²) (the average over its curved face; derived by hand).
+    intensity = 10000.0 / (4.0 * math.pi)
+    for f in street_fields(_street(), -13.0, 30.0)[2:]:
+        for facing in ((1.0, 0.0, 0.0), (-1.0, 0.0, 0.0)):
+            r = evaluate_face_field(plane, f, facing=facing)
+            assert r.height_m == 1.5 and r.facing == facing
+            p = f.points_m + [0.0, 0.0, 1.5]
+            v = np.array([0.0, 0.0, 5.0]) - p
+            d = np.linalg.norm(v, axis=1)
+            elev = np.arcsin(v[:, 2] / d)
+            alpha = np.arctan2(v[:, 1], v[:, 0]) - math.atan2(facing[1], facing[0])
+            e_v = intensity * np.cos(elev) * np.maximum(np.cos(alpha), 0.0) / d**2
+            e_sc = intensity * np.cos(elev) * (1.0 + np.cos(alpha)) / (math.pi * d**2)
+            np.testing.assert_allclose(r.vertical_lx.ravel(), e_v, rtol=1e-6, atol=1e-9)
+            np.testing.assert_allclose(r.semicylindrical_lx.ravel(), e_sc, rtol=1e-6)
+            data = json.loads(json.dumps(r.to_json()))
+            assert data["semicylindrical_min_lx"] == pytest.approx(e_sc.min(), rel=1e-6)
+
+
+def test_semicylindrical_is_mean_of_vertical_planes(minimal):
+    # Definition (the average illuminance on a half-cylinder's curved face): E_sc =
+    # (1/π) ∫ E_v(φ) dφ over the vertical planes facing φ ∈ [-π/2, π/2] from the facing
+    # direction. Midpoint rule over 720 planes with the scene's real (asymmetric) optics and
+    # shadows; the integrand has kinks, so the rule is good to about 1e-4 (analytic bound).
+    f = row_fields(minimal.scene)[3]
+    p = f.points_m[::4] + [0.0, 0.0, 1.5]
+    k = 720
+    phi = -0.5 * math.pi + math.pi * (np.arange(k) + 0.5) / k
+    normals = np.stack([np.cos(phi), np.sin(phi), np.zeros(k)], axis=1)
+    ev = np.array([minimal.illuminance_lx(np.tile(q, (k, 1)), normals) for q in p])
+    expected = ev.mean(axis=1)
+    got = semicylindrical_illuminance_lx(minimal, p, (1.0, 0.0, 0.0))
+    assert expected.max() > 1.0
+    np.testing.assert_allclose(got, expected, rtol=2e-4, atol=1e-6)
+
+
+def test_face_field_scales_with_dimming(minimal):
+    # Linearity (analytic): dimming 0.35 scales every value by 0.35.
+    f = row_fields(minimal.scene)[2]
+    base = evaluate_face_field(minimal, f, facing=(-1.0, 0.0, 0.0))
+    dim = evaluate_face_field(minimal, f, Setup("dim", "", {"*": GroupSetting(dimming=0.35)}), facing=(-1.0, 0.0, 0.0))
+    assert dim.setup == "dim"
+    assert base.semicylindrical_lx.max() > 1.0
+    np.testing.assert_allclose(dim.semicylindrical_lx, 0.35 * base.semicylindrical_lx, rtol=1e-12)
+    np.testing.assert_allclose(dim.vertical_lx, 0.35 * base.vertical_lx, rtol=1e-12)
+
+
+def test_semicylindrical_counts_shadows(tmp_path):
+    # The point-over-plane scene plus a wall (x 2.0-2.2 m, y ±1 m, 4 m high) between the source
+    # at (0, 0, 5) and a point at (4, 0, 1.5): the ray to the source crosses x = 2.1 m at
+    # z = 1.5 + 3.5 · 1.9/4 = 3.16 m, under the wall's top, so the point is in shadow (geometry
+    # by hand); beside the wall, at (4, 3, 1.5), it is lit and follows the closed form.
+    text = (SCENES / "point_over_plane.toml").read_text()
+    wall = (
+        '[[geometry]]\nkind = "box"\nname = "wall"\nsize_m = [0.2, 2.0, 4.0]\n'
+        'position_m = [2.1, 0.0, 0.0]\nmaterial = "object-white"\n\n'
+    )
+    scene = tmp_path / "walled.toml"
+    scene.write_text(text.replace("[[luminaires]]", wall + "[[luminaires]]", 1))
+    study = Study(scene)
+    p = np.array([[4.0, 0.0, 1.5], [4.0, 3.0, 1.5]])
+    e = semicylindrical_illuminance_lx(study, p, (-1.0, 0.0, 0.0))
+    assert e[0] == 0.0
+    v = np.array([0.0, 0.0, 5.0]) - p[1]
+    d = np.linalg.norm(v)
+    cos_elev, cos_alpha = math.hypot(v[0], v[1]) / d, -v[0] / math.hypot(v[0], v[1])
+    expected = 10000.0 / (4.0 * math.pi) * cos_elev * (1.0 + cos_alpha) / (math.pi * d * d)
+    assert e[1] == pytest.approx(expected, rel=1e-6)

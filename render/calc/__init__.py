@@ -1,7 +1,8 @@
 """Calculation fields: the numbers a lighting designer checks, computed from the scene's light.
 
 * :mod:`.fields` -- the calculation grids of EN 13201-3:2015 / CIE 140 on the carriageway's
-  lanes and the footways, and their horizontal illuminance (Ē, Emin, Emax, U0).
+  lanes and the footways, their horizontal illuminance (Ē, Emin, Emax, U0), and on footways the
+  semicylindrical and vertical illuminance at 1.5 m.
 
 References
 ----------
@@ -10,24 +11,30 @@ EN 13201-3:2015 and CIE 140-2000 (road lighting calculations); see :mod:`.fields
 
 from render.calc.fields import (
     CalculationField,
+    FaceResult,
     FieldResult,
+    evaluate_face_field,
     evaluate_field,
     footway_across,
     lane_across,
     points_along,
     row_fields,
     row_positions,
+    semicylindrical_illuminance_lx,
     street_fields,
 )
 
 __all__ = [
     "CalculationField",
+    "FaceResult",
     "FieldResult",
+    "evaluate_face_field",
     "evaluate_field",
     "footway_across",
     "lane_across",
     "points_along",
     "row_fields",
     "row_positions",
+    "semicylindrical_illuminance_lx",
     "street_fields",
 ]

@@ -22,16 +22,29 @@ light (:func:`render.study.Study.illuminance_lx`: the setup's lumens, dimming an
 factor, shadows from the geometry), and its mean Ē, minimum, maximum and overall uniformity
 U0 = Emin/Ē. Interreflected light is not included, as in the standard's calculation.
 
-Not done here: the luminance grid's observer positions, semicylindrical and vertical
-illuminance on footways, the edge illuminance ratio, and fields of staggered or opposite rows
-(a field is taken between consecutive luminaires of one row only).
+On footways, :func:`evaluate_face_field` gives the semicylindrical and vertical illuminance at
+1.5 m above the field's points (for recognising faces), facing one horizontal direction (call it
+once for +x and once for −x: the two directions along the street, as remembered from
+EN 13201-3). The semicylindrical illuminance is the illuminance averaged over the curved face
+of a small vertical half-cylinder, i.e. (1/π) ∫ E_v(φ) dφ over the vertical planes facing
+φ ∈ [−π/2, π/2] from the facing direction. For one luminaire seen at elevation ε and azimuth α
+from the facing direction, with normal illuminance E_n = I/d², the integral is closed:
+E_sc = E_n·cos ε·(1 + cos α)/π. It is evaluated per (point, luminaire) pair from the kernel's
+horizontal illuminance E_h = E_n·sin ε and the unit direction u toward the luminaire:
+E_sc = E_h/u_z·(|u_xy| + u·f)/π (f the facing direction), so luminaires at or below the
+point's height are not counted (none in a street layout).
+
+Not done here: the luminance grid's observer positions, the edge illuminance ratio, and fields
+of staggered or opposite rows (a field is taken between consecutive luminaires of one row only).
 
 References
 ----------
 * EN 13201-3:2015 *Road lighting — Part 3: Calculation of performance*, and CIE 140-2000
   *Road lighting calculations*: the field between two luminaires of a row, N and D along, three
   points per lane at d = W/3, the first points at D/2 and d/2. *memory* (with secondary notes
-  that quote the same rules); the footway rule for widths over 4.5 m is *memory* only.
+  that quote the same rules); the footway rule for widths over 4.5 m, the 1.5 m height and the
+  two facing directions along the street are *memory* only. The closed form of the
+  semicylindrical illuminance of a point source is derived above (*own*).
 """
 
 from __future__ import annotations
@@ -43,6 +56,8 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from render.errors import input_error
+from render.light.integrator import direct_pairs
+from render.light.luminaires import channel_factors
 from render.scene.model import Scene, Setup, Street
 
 if TYPE_CHECKING:
@@ -50,13 +65,16 @@ if TYPE_CHECKING:
 
 __all__ = [
     "CalculationField",
+    "FaceResult",
     "FieldResult",
+    "evaluate_face_field",
     "evaluate_field",
     "footway_across",
     "lane_across",
     "points_along",
     "row_fields",
     "row_positions",
+    "semicylindrical_illuminance_lx",
     "street_fields",
 ]
 
@@ -68,6 +86,8 @@ MAX_ALONG_M = 3.0
 MAX_ACROSS_M = 1.5
 #: Points across a lane, and the fewest across a footway (EN 13201-3 / CIE 140, memory).
 POINTS_ACROSS = 3
+#: Height (m) above the footway of the semicylindrical and vertical illuminance (EN 13201-3, memory).
+FACE_HEIGHT_M = 1.5
 #: Tolerance on the spacing rules so that 36 m / 12 = 3 m counts as D ≤ 3 m.
 _RULE_EPS = 1e-9
 
@@ -108,6 +128,33 @@ class FieldResult:
             "min_lx": self.min_lx,
             "max_lx": self.max_lx,
             "u0": self.u0,
+        }
+
+
+@dataclass(frozen=True)
+class FaceResult:
+    """Semicylindrical and vertical illuminance on a footway field at a height, facing one way."""
+
+    name: str
+    setup: str | None
+    facing: tuple[float, float, float]
+    height_m: float
+    semicylindrical_lx: np.ndarray  # (along, across)
+    vertical_lx: np.ndarray  # (along, across)
+
+    def to_json(self) -> dict[str, Any]:
+        """The result as plain JSON types, with the mean and minimum of each grid."""
+        return {
+            "name": self.name,
+            "setup": self.setup,
+            "facing": list(self.facing),
+            "height_m": self.height_m,
+            "semicylindrical_lx": self.semicylindrical_lx.tolist(),
+            "semicylindrical_mean_lx": float(self.semicylindrical_lx.mean()),
+            "semicylindrical_min_lx": float(self.semicylindrical_lx.min()),
+            "vertical_lx": self.vertical_lx.tolist(),
+            "vertical_mean_lx": float(self.vertical_lx.mean()),
+            "vertical_min_lx": float(self.vertical_lx.min()),
         }
 
 
@@ -210,4 +257,56 @@ def evaluate_field(study: Study, field: CalculationField, setup: str | Setup | N
         min_lx=lo,
         max_lx=float(grid.max()),
         u0=lo / mean if mean > 0 else 0.0,
+    )
+
+
+def semicylindrical_illuminance_lx(
+    study: Study, points_m: np.ndarray, facing: np.ndarray, setup: str | Setup | None = None
+) -> np.ndarray:
+    """(N,) semicylindrical illuminance (lx) at ``points_m`` of small vertical half-cylinders
+    facing the horizontal directions ``facing`` ((3,) or (N, 3)), under ``setup``, with shadows
+    (the closed form per luminaire in the module text)."""
+    pts = np.ascontiguousarray(points_m, np.float64).reshape(-1, 3)
+    n = pts.shape[0]
+    f = np.broadcast_to(np.asarray(facing, np.float64), (n, 3)).copy()
+    f[:, 2] = 0.0
+    f /= np.linalg.norm(f, axis=1, keepdims=True)
+    s = study.setup(setup)
+    lights = study.lights(s)
+    up = np.tile([0.0, 0.0, 1.0], (n, 1))
+    pairs = direct_pairs(pts, up, lights, study.bvh, negligible_lx=study.negligible_lx)
+    u = pairs.direction
+    keep = ~pairs.blocked & (u[:, 2] > 0)
+    u = u[keep]
+    point = pairs.point[keep]
+    factors, _ = channel_factors(lights, s)
+    e_n = pairs.e_lx[keep] / u[:, 2] * factors[lights.channel[pairs.lum[keep]]]
+    shape = np.hypot(u[:, 0], u[:, 1]) + np.einsum("ij,ij->i", u, f[point])
+    return np.bincount(point, weights=e_n * shape / np.pi, minlength=n)
+
+
+def evaluate_face_field(
+    study: Study,
+    field: CalculationField,
+    setup: str | Setup | None = None,
+    *,
+    facing: tuple[float, float, float] = (1.0, 0.0, 0.0),
+    height_m: float = FACE_HEIGHT_M,
+) -> FaceResult:
+    """Semicylindrical and vertical illuminance ``height_m`` above the points of ``field``
+    (a footway), facing the horizontal direction ``facing``, under ``setup``."""
+    f = np.array(facing, np.float64)
+    f[2] = 0.0
+    f /= np.linalg.norm(f)
+    pts = field.points_m + [0.0, 0.0, height_m]
+    normals = np.tile(f, (pts.shape[0], 1))
+    e_sc = semicylindrical_illuminance_lx(study, pts, f, setup)
+    e_v = np.asarray(study.illuminance_lx(pts, normals, setup), np.float64)
+    return FaceResult(
+        name=field.name,
+        setup=setup.name if isinstance(setup, Setup) else setup,
+        facing=(float(f[0]), float(f[1]), float(f[2])),
+        height_m=float(height_m),
+        semicylindrical_lx=e_sc.reshape(field.shape),
+        vertical_lx=e_v.reshape(field.shape),
     )
