@@ -106,6 +106,7 @@ FILE_SIZE_LIMITS_BYTES: dict[str, int] = {
     "scene file": 16 * MiB,
     "photometric file": 16 * MiB,
     "tilt file": 1 * MiB,
+    "r-table file": 1 * MiB,
     "lamp file": 16 * MiB,
     "material file": 4 * MiB,
     "OBJ file": 1024 * MiB,
