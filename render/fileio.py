@@ -30,6 +30,7 @@ __all__ = [
     "looks_like_path",
     "read_user_bytes",
     "read_user_text",
+    "read_user_toml",
 ]
 
 
@@ -121,6 +122,41 @@ def read_user_text(path: str | os.PathLike, kind: str, expected: str) -> str:
     except UnicodeDecodeError as err:
         line = data[: err.start].count(b"\n") + 1
         raise input_error(path, f"line {line}", f"not UTF-8 text; expected {expected}") from None
+
+
+_TOML_LINE = re.compile(r"\(at line (\d+), column (\d+)\)")
+_LONG_NUMBER = re.compile(r"[0-9A-Fa-f_]{4300,}")
+
+
+def _most_nested_line(text: str) -> str:
+    """The line holding the most opening brackets: where a too-deeply nested value is."""
+    counts = [line.count("[") + line.count("{") for line in text.split("\n")]
+    return f"line {counts.index(max(counts)) + 1}" if counts else ""
+
+
+def read_user_toml(path: str | os.PathLike, kind: str, expected: str) -> dict:
+    """A user's TOML file (a scene, a class file) as a dict, read through
+    :func:`read_user_text`. A syntax error, a number of more than 4300 digits (Python's limit on
+    integer text) or nesting too deep to read is an :class:`~render.errors.InputError` naming
+    the line."""
+    import tomllib
+
+    from render.errors import input_error
+
+    text = read_user_text(path, kind, expected)
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as err:
+        message = str(err)
+        match = _TOML_LINE.search(message)
+        where = f"line {match.group(1)}" if match else ""
+        raise input_error(path, where, f"TOML syntax error: {_TOML_LINE.sub('', message).strip()}") from None
+    except ValueError:  # an integer of more than 4300 digits
+        match = _LONG_NUMBER.search(text)
+        where = f"line {text.count(chr(10), 0, match.start()) + 1}" if match else ""
+        raise input_error(path, where, f"a number of more than 4300 digits; no {kind} value needs that many") from None
+    except RecursionError:
+        raise input_error(path, _most_nested_line(text), "arrays or tables nested too deeply to read") from None
 
 
 _EXTENSION = re.compile(r"\.[A-Za-z][A-Za-z0-9]*$")

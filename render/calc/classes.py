@@ -45,7 +45,6 @@ from __future__ import annotations
 
 import math
 import os
-import re
 import tomllib
 from collections.abc import Mapping
 from dataclasses import dataclass
@@ -55,7 +54,7 @@ from typing import Any
 
 import numpy as np
 
-from render.errors import ProblemList, did_you_mean, input_error
+from render.errors import ProblemList, did_you_mean
 
 __all__ = [
     "CAUTION",
@@ -294,27 +293,15 @@ def parse_classes(data: Mapping[str, Any], source: str) -> dict[str, LightingCla
     return out
 
 
-_TOML_LINE = re.compile(r"\(at line (\d+), column (\d+)\)")
-
-
 def read_class_file(path: str | os.PathLike) -> dict[str, LightingClass]:
     """The classes of a user's class file (TOML, the schema of the shipped presets).
 
     A syntax error is an :class:`InputError` naming the line; a wrong key or value one naming
     the key path (:func:`parse_classes`).
     """
-    from render.fileio import read_user_text
+    from render.fileio import read_user_toml
 
-    text = read_user_text(path, "class file", "a UTF-8 TOML class file")
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as err:
-        message = str(err)
-        match = _TOML_LINE.search(message)
-        where = f"line {match.group(1)}" if match else ""
-        raise input_error(path, where, f"TOML syntax error: {_TOML_LINE.sub('', message).strip()}") from None
-    except (ValueError, RecursionError):  # a number of thousands of digits, or deep nesting
-        raise input_error(path, "", "not a readable class file (a huge number or deeply nested arrays)") from None
+    data = read_user_toml(path, "class file", "a UTF-8 TOML class file")
     return parse_classes(data, str(path))
 
 

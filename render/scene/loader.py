@@ -23,14 +23,12 @@ from __future__ import annotations
 
 import math
 import os
-import re
 import stat
-import tomllib
 from dataclasses import replace
 from pathlib import Path
 
 from render import limits
-from render.errors import InputError, Problem, ProblemList, did_you_mean
+from render.errors import InputError, ProblemList, did_you_mean
 from render.fileio import looks_like_path
 from render.limits import (
     MAX_COORDINATE_M,
@@ -406,46 +404,10 @@ def _resolved(path: Path) -> Path | None:
         return None
 
 
-#: The position of a line in :mod:`tomllib`'s messages.
-_TOML_LINE = re.compile(r"\(at line (\d+), column (\d+)\)")
-# Python converts at most 4300 digits to an int by default (sys.int_max_str_digits); tomllib
-# then raises ValueError. Any run of that many digits (or hex digits) is where that happened.
-_LONG_NUMBER = re.compile(r"[0-9A-Fa-f_]{4300,}")
-
-
-def _line_of(text: str, index: int) -> str:
-    return f"line {text.count(chr(10), 0, index) + 1}"
-
-
-def _most_nested_line(text: str) -> str:
-    """The line holding the most opening brackets: where a too-deeply nested value is."""
-    lines = text.split("\n")
-    counts = [line.count("[") + line.count("{") for line in lines]
-    return f"line {counts.index(max(counts)) + 1}" if counts else ""
-
-
 def _parse_toml(path: Path) -> dict:
-    from render.fileio import read_user_text
+    from render.fileio import read_user_toml
 
-    text = read_user_text(path, "scene file", "a UTF-8 TOML scene file")
-    try:
-        return tomllib.loads(text)
-    except tomllib.TOMLDecodeError as err:
-        message = str(err)
-        match = _TOML_LINE.search(message)
-        where = f"line {match.group(1)}" if match else ""
-        message = _TOML_LINE.sub("", message).strip()
-        raise InputError([Problem(str(path), where, f"TOML syntax error: {message}")]) from None
-    except ValueError:  # an integer of more than 4300 digits
-        match = _LONG_NUMBER.search(text)
-        where = _line_of(text, match.start()) if match else ""
-        raise InputError(
-            [Problem(str(path), where, "a number of more than 4300 digits; no scene value needs that many")]
-        ) from None
-    except RecursionError:
-        raise InputError(
-            [Problem(str(path), _most_nested_line(text), "arrays or tables nested too deeply to read")]
-        ) from None
+    return read_user_toml(path, "scene file", "a UTF-8 TOML scene file")
 
 
 def _report_oversized_integers(value, where: str, ctx: _Context) -> bool:
