@@ -5,11 +5,16 @@
   semicylindrical and vertical illuminance at 1.5 m.
 * :mod:`.classes` -- the lighting classes of EN 13201-2:2015 (P, M, C) as data, user class files,
   and a pass/fail check of achieved figures with margins, mesopic for P classes per CIE 191.
+* :mod:`.road` -- road luminance for the standard observer from a user's r-table (lampcast's own
+  CSV layout; none shipped) or, without one, the Lambertian result: L̄, U0, Ul.
+* :mod:`.ti` -- the threshold increment TI from the luminaires' veiling luminance (20° screening
+  angle, observer age).
 
 References
 ----------
 EN 13201-3:2015 and CIE 140-2000 (road lighting calculations); see :mod:`.fields`.
 EN 13201-2:2015 (lighting classes) and CIE 191:2010 (mesopic photometry); see :mod:`.classes`.
+CIE 140-2000 / EN 13201-3:2015 (road luminance, threshold increment); see :mod:`.road`, :mod:`.ti`.
 """
 
 from render.calc.classes import ClassCheck, ClassFigures, LightingClass, check_class, lighting_classes
@@ -27,6 +32,15 @@ from render.calc.fields import (
     semicylindrical_illuminance_lx,
     street_fields,
 )
+from render.calc.road import (
+    LuminanceResult,
+    RTable,
+    evaluate_luminance_field,
+    parse_r_table,
+    read_r_table,
+    road_luminance_cd_m2,
+)
+from render.calc.ti import TIResult, threshold_increment, veiling_luminance_cd_m2
 
 __all__ = [
     "CalculationField",
@@ -35,15 +49,24 @@ __all__ = [
     "FaceResult",
     "FieldResult",
     "LightingClass",
+    "LuminanceResult",
+    "RTable",
+    "TIResult",
     "check_class",
     "evaluate_face_field",
     "evaluate_field",
+    "evaluate_luminance_field",
     "footway_across",
     "lane_across",
     "lighting_classes",
+    "parse_r_table",
     "points_along",
+    "read_r_table",
+    "road_luminance_cd_m2",
     "row_fields",
     "row_positions",
     "semicylindrical_illuminance_lx",
     "street_fields",
+    "threshold_increment",
+    "veiling_luminance_cd_m2",
 ]
