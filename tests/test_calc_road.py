@@ -203,3 +203,22 @@ def test_observer_and_field_figures():
         np.testing.assert_allclose(res.luminance_cd_m2["lane 2"], direct, rtol=1e-12)
     matt = evaluate_luminance_field(lights, lanes, reflectance=0.1)
     assert matt[0].model == "lambertian"
+
+
+def test_matt_luminance_agrees_with_the_scene_illuminance():
+    # L = ρ·E/π (analytic, Lambertian) with E from the scene's own direct-light evaluation
+    # (render.study, shadows off): the intensities, rotations and scaling of a real street's
+    # asymmetric luminaires are taken the same way as in the images.
+    from pathlib import Path
+
+    from render.light.luminaires import luminaire_set
+    from render.study import Study
+
+    study = Study(Path(__file__).resolve().parent.parent / "scenes" / "tests" / "minimal_street.toml")
+    lights = luminaire_set(study.scene)
+    xs, ys = np.meshgrid(np.linspace(2.0, 38.0, 7), np.linspace(-2.5, 2.5, 3))
+    pts = np.stack([xs.ravel(), ys.ravel(), np.zeros(xs.size)], axis=1)
+    e = study.illuminance_lx(pts, np.tile([0.0, 0.0, 1.0], (len(pts), 1)), shadows=False)
+    L = road_luminance_cd_m2(lights, pts, np.array([-60.0, 0.0, 1.5]), reflectance=0.1)
+    assert e.min() > 0.0
+    np.testing.assert_allclose(L, 0.1 * e / math.pi, rtol=1e-6)

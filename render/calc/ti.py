@@ -88,6 +88,8 @@ def veiling_luminance_cd_m2(
     screening angle above the line of sight."""
     eye = np.asarray(eye_m, dtype=np.float64).reshape(3)
     sight = _line_of_sight()
+    down = math.radians(LINE_OF_SIGHT_DOWN_DEG)
+    up = np.array([math.sin(down), 0.0, math.cos(down)])  # perpendicular to the sight, upward
     intensity = luminaire_intensities_cd(lights, eye[None, :], setup)[:, 0]
     total = 0.0
     for k in range(lights.n_luminaires):
@@ -100,9 +102,6 @@ def veiling_luminance_cd_m2(
         if cos_t <= 0.0:
             continue  # behind the eye
         # elevation above the line of sight, in the vertical plane of the line of sight
-        up = np.array(
-            [math.sin(math.radians(LINE_OF_SIGHT_DOWN_DEG)), 0.0, math.cos(math.radians(LINE_OF_SIGHT_DOWN_DEG))]
-        )
         elevation = math.degrees(math.atan2(float(u @ up), cos_t))
         if elevation > SCREENING_ANGLE_DEG:
             continue
