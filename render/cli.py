@@ -43,6 +43,7 @@ __all__ = [
     "DEMO_SCENE",
     "OBSERVER_FLAGS",
     "build_parser",
+    "cmd_calc",
     "cmd_check",
     "cmd_colours",
     "cmd_compare",
@@ -450,6 +451,57 @@ def cmd_colours(args: argparse.Namespace) -> int:
     return 0
 
 
+# --- calc --------------------------------------------------------------------------------------
+
+
+def cmd_calc(args: argparse.Namespace) -> int:
+    """Calculation fields, road luminance, TI, upward flux and a class check per setup
+    (:mod:`render.calc.run`); ``--csv DIR`` also writes one CSV per field and setup."""
+    from render.calc.classes import CAUTION as CALC_CAUTION
+    from render.calc.classes import lighting_classes
+    from render.calc.road import read_r_table
+    from render.calc.run import run_calculation
+    from render.errors import did_you_mean
+    from render.output.calc_text import format_calculation, write_field_csvs
+
+    lighting_class = None
+    if args.lighting_class is not None or args.classes is not None:
+        classes = lighting_classes(args.classes)
+        if args.lighting_class is None:
+            raise input_error("command line", "--classes", "a class file is used with --class NAME")
+        if args.lighting_class not in classes:
+            names = list(classes)
+            raise input_error(
+                "command line",
+                "--class",
+                f"no lighting class {args.lighting_class!r}{did_you_mean(args.lighting_class, names)}; "
+                f"classes: {', '.join(names)}",
+            )
+        lighting_class = classes[args.lighting_class]
+    if args.q0 is not None and args.r_table is None:
+        raise input_error("command line", "--q0", "--q0 scales an r-table: give --r-table FILE too")
+    if args.q0 is not None and not (np.isfinite(args.q0) and args.q0 > 0):
+        raise input_error("command line", "--q0", f"expected a positive number, got {args.q0}")
+    if args.age is not None and not (np.isfinite(args.age) and 0 < args.age <= 120):
+        raise input_error("command line", "--age", f"expected an age in years from 0 to 120, got {args.age}")
+    r_table = read_r_table(args.r_table) if args.r_table is not None else None
+    study = _study(args)
+    setups = args.setups or [None]
+    for name in setups:
+        study.setup(name)
+    _note(args, CALC_CAUTION)
+    kwargs = {} if args.age is None else {"age_years": args.age}
+    report = run_calculation(study, setups, lighting_class=lighting_class, r_table=r_table, q0_sr=args.q0, **kwargs)
+    written = write_field_csvs(study.scene, report, args.csv) if args.csv else []
+    if args.json:
+        _print_json({**report.to_json(), "csv_files": written})
+        return 0
+    print(format_calculation(report))
+    if written:
+        print(f"CSV files written to {args.csv}/")
+    return 0
+
+
 # --- compare and demo --------------------------------------------------------------------------
 
 
@@ -723,6 +775,30 @@ def build_parser() -> argparse.ArgumentParser:
     _observer_options(p)
     _run_options(p, "outputs/SCENE-compare")
     p.set_defaults(func=cmd_compare)
+
+    p = sub.add_parser(
+        "calc",
+        help="calculation fields, road luminance, TI, upward flux and a lighting-class check per setup",
+    )
+    _scene_argument(p)
+    p.add_argument(
+        "--setup",
+        dest="setups",
+        action="append",
+        metavar="NAME",
+        help="setup to calculate (repeat; default: the lamps the scene gives)",
+    )
+    p.add_argument(
+        "--class", dest="lighting_class", metavar="NAME", help="lighting class to check against (e.g. P4, M3, C2)"
+    )
+    p.add_argument("--classes", metavar="FILE", help="a class file (TOML) adding or replacing classes")
+    p.add_argument(
+        "--r-table", metavar="FILE", help="road r-table CSV (see scenes/README.md; default: Lambertian road)"
+    )
+    p.add_argument("--q0", type=float, metavar="X", help="the road's Q0 (sr⁻¹), scaling the r-table")
+    p.add_argument("--age", type=float, metavar="YEARS", help="observer age for TI (default 23)")
+    p.add_argument("--csv", metavar="DIR", help="also write one CSV of grid values per field and setup")
+    p.set_defaults(func=cmd_calc)
 
     p = sub.add_parser(
         "demo",

@@ -139,7 +139,18 @@ def test_scene_without_luminaires_renders_dark_with_a_note(tmp_path, capsys):
 # JSON figure is checked, it is against the library's value or an analytic one named beside it.
 
 ROOT = Path(__file__).resolve().parents[1]
-FIGURE_COMMANDS = ("photometry", "check", "render", "relight", "colours", "compare", "demo", "lamps", "materials")
+FIGURE_COMMANDS = (
+    "photometry",
+    "check",
+    "calc",
+    "render",
+    "relight",
+    "colours",
+    "compare",
+    "demo",
+    "lamps",
+    "materials",
+)
 
 
 @pytest.fixture(autouse=True)

@@ -1,0 +1,109 @@
+"""``lampcast calc``: the command's figures against the calculation library and analytic checks."""
+
+from __future__ import annotations
+
+import csv
+import json
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from render.calc.fields import evaluate_field, row_fields
+from render.cli import main
+from render.study import Study
+
+MINIMAL = Path(__file__).resolve().parent.parent / "scenes" / "tests" / "minimal_street.toml"
+
+
+def _run_json(capsys, argv: list[str]) -> dict:
+    assert main(argv) == 0
+    return json.loads(capsys.readouterr().out)
+
+
+@pytest.fixture(scope="module")
+def minimal_json() -> dict:
+    import contextlib
+    import io
+
+    out = io.StringIO()
+    with contextlib.redirect_stdout(out):
+        assert main(["calc", str(MINIMAL), "--json", "-q"]) == 0
+    return json.loads(out.getvalue())
+
+
+def test_calc_json_fields_equal_the_library(minimal_json):
+    # Reference: the library's evaluate_field on the same fields (render.calc.fields).
+    study = Study(MINIMAL)
+    fields = row_fields(study.scene)
+    got = {f["name"]: f for f in minimal_json["setups"][0]["fields"]}
+    assert set(got) == {f.name for f in fields}
+    for field in fields:
+        ref = evaluate_field(study, field)
+        assert got[field.name]["mean_lx"] == ref.mean_lx
+        assert got[field.name]["u0"] == ref.u0
+        np.testing.assert_array_equal(np.array(got[field.name]["illuminance_lx"]), ref.illuminance_lx)
+    s = minimal_json["setups"][0]
+    assert s["luminance_model"] == "lambertian"
+    assert len(s["luminance"]) == 2  # one observer per lane
+    assert "not a certificate" in minimal_json["caution"]
+
+
+def test_doubling_lumens_doubles_every_value(tmp_path, capsys):
+    # Analytic: illuminance is linear in the luminaires' flux (common practice, no source).
+    scene = tmp_path / "street.toml"
+    scene.write_text(
+        MINIMAL.read_text(encoding="utf-8") + "\n[setups.base]\nlumens = 3000.0\n\n[setups.double]\nlumens = 6000.0\n",
+        encoding="utf-8",
+    )
+    data = _run_json(capsys, ["calc", str(scene), "--setup", "base", "--setup", "double", "--json", "-q"])
+    base, double = data["setups"]
+    assert (base["setup"], double["setup"]) == ("base", "double")
+    for f0, f1 in zip(base["fields"], double["fields"], strict=True):
+        assert f0["mean_lx"] > 0
+        assert f1["mean_lx"] == pytest.approx(2.0 * f0["mean_lx"], rel=1e-12)
+        np.testing.assert_allclose(np.array(f1["illuminance_lx"]), 2.0 * np.array(f0["illuminance_lx"]), rtol=1e-12)
+        assert f1["u0"] == pytest.approx(f0["u0"], rel=1e-12)
+    for l0, l1 in zip(base["luminance"], double["luminance"], strict=True):
+        assert l1["mean_cd_m2"] == pytest.approx(2.0 * l0["mean_cd_m2"], rel=1e-12)
+
+
+def test_class_check_gives_verdict_and_margins(capsys):
+    # Margins as defined in render.calc.classes: achieved/required - 1 for a minimum.
+    data = _run_json(capsys, ["calc", str(MINIMAL), "--class", "P4", "--json", "-q"])
+    check = data["setups"][0]["class_check"]
+    assert check["class"] == "P4"
+    assert check["verdict"] in ("pass", "fail")
+    by_key = {c["key"]: c for c in check["criteria"]}
+    mean = by_key["mean_illuminance_lx"]
+    assert mean["margin"] == pytest.approx(mean["achieved"] / mean["required"] - 1.0, rel=1e-12)
+    lanes = [f for f in data["setups"][0]["fields"] if f["name"].startswith("lane ")]
+    all_lanes = np.concatenate([np.ravel(f["illuminance_lx"]) for f in lanes])
+    assert mean["achieved"] == pytest.approx(float(all_lanes.mean()), rel=1e-12)
+    assert by_key["min_illuminance_lx"]["achieved"] == float(all_lanes.min())
+    assert main(["calc", str(MINIMAL), "--class", "P4", "-q"]) == 0
+    text = capsys.readouterr().out
+    assert "class P4" in text and "margin" in text and "not a certificate" in text
+
+
+def test_csv_values_equal_the_json_grid(tmp_path, capsys):
+    out = tmp_path / "grids"
+    data = _run_json(capsys, ["calc", str(MINIMAL), "--csv", str(out), "--json", "-q"])
+    files = [Path(p) for p in data["csv_files"]]
+    assert len(files) == len(data["setups"][0]["fields"]) == 4
+    study = Study(MINIMAL)
+    points = {f.name: f.points_m for f in row_fields(study.scene)}
+    for field, path in zip(data["setups"][0]["fields"], files, strict=True):
+        assert path.parent == out and path.exists()
+        with path.open(encoding="utf-8", newline="") as fh:
+            rows = list(csv.reader(fh))
+        assert rows[0] == ["x_m", "y_m", "illuminance_lx"]
+        values = np.array(rows[1:], dtype=np.float64)
+        np.testing.assert_array_equal(values[:, 2], np.ravel(field["illuminance_lx"]))
+        np.testing.assert_array_equal(values[:, :2], points[field["name"]][:, :2])
+
+
+def test_bad_class_name_exits_2_naming_the_option(capsys):
+    assert main(["calc", str(MINIMAL), "--class", "P9", "-q"]) == 2
+    err = capsys.readouterr().err
+    assert "--class" in err and "P9" in err
