@@ -9,15 +9,21 @@
   CSV layout; none shipped) or, without one, the Lambertian result: L̄, U0, Ul.
 * :mod:`.ti` -- the threshold increment TI from the luminaires' veiling luminance (20° screening
   angle, observer age).
+* :mod:`.edge` -- the edge illuminance ratio R_EI on strips beside each carriageway edge.
+* :mod:`.obtrusive` -- obtrusive light: vertical illuminance on house fronts and luminous
+  intensity toward their windows, against user-chosen limits.
 
 References
 ----------
 EN 13201-3:2015 and CIE 140-2000 (road lighting calculations); see :mod:`.fields`.
 EN 13201-2:2015 (lighting classes) and CIE 191:2010 (mesopic photometry); see :mod:`.classes`.
 CIE 140-2000 / EN 13201-3:2015 (road luminance, threshold increment); see :mod:`.road`, :mod:`.ti`.
+EN 13201-2:2015 / CIE 140-2000 (edge illuminance ratio); see :mod:`.edge`.
+CIE 150:2017 (obtrusive light); see :mod:`.obtrusive`.
 """
 
 from render.calc.classes import ClassCheck, ClassFigures, LightingClass, check_class, lighting_classes
+from render.calc.edge import EdgeResult, edge_illuminance_ratio, edge_strip_width_m, edge_strips
 from render.calc.fields import (
     CalculationField,
     FaceResult,
@@ -31,6 +37,13 @@ from render.calc.fields import (
     row_positions,
     semicylindrical_illuminance_lx,
     street_fields,
+)
+from render.calc.obtrusive import (
+    ObtrusiveLimits,
+    ObtrusiveResult,
+    evaluate_obtrusive,
+    facade_field,
+    facade_fields,
 )
 from render.calc.road import (
     LuminanceResult,
@@ -46,16 +59,25 @@ __all__ = [
     "CalculationField",
     "ClassCheck",
     "ClassFigures",
+    "EdgeResult",
     "FaceResult",
     "FieldResult",
     "LightingClass",
     "LuminanceResult",
+    "ObtrusiveLimits",
+    "ObtrusiveResult",
     "RTable",
     "TIResult",
     "check_class",
+    "edge_illuminance_ratio",
+    "edge_strip_width_m",
+    "edge_strips",
     "evaluate_face_field",
     "evaluate_field",
     "evaluate_luminance_field",
+    "evaluate_obtrusive",
+    "facade_field",
+    "facade_fields",
     "footway_across",
     "lane_across",
     "lighting_classes",
