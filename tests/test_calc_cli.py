@@ -107,3 +107,21 @@ def test_bad_class_name_exits_2_naming_the_option(capsys):
     assert main(["calc", str(MINIMAL), "--class", "P9", "-q"]) == 2
     err = capsys.readouterr().err
     assert "--class" in err and "P9" in err
+
+
+def test_r_table_is_labelled_and_q0_scales_luminance(tmp_path, capsys):
+    # The r-table is scaled by Q0(road)/Q0(table) (render.calc.road, CIE 140 convention, memory):
+    # doubling --q0 doubles every luminance.
+    table = tmp_path / "r.csv"
+    table.write_text("scale,0.0001\nq0,0.07\ntan_gamma,0,180\n0,300,200\n12,100,50\n", encoding="utf-8")
+    runs = [
+        _run_json(capsys, ["calc", str(MINIMAL), "--r-table", str(table), "--q0", str(q0), "--json", "-q"])
+        for q0 in (0.07, 0.14)
+    ]
+    one, two = (r["setups"][0] for r in runs)
+    assert one["luminance_model"] == "r-table" and one["road_reflectance"] is None
+    for a, b in zip(one["luminance"], two["luminance"], strict=True):
+        assert a["mean_cd_m2"] > 0
+        assert b["mean_cd_m2"] == pytest.approx(2.0 * a["mean_cd_m2"], rel=1e-12)
+    assert main(["calc", str(MINIMAL), "--q0", "0.1", "-q"]) == 2
+    assert "--q0" in capsys.readouterr().err
