@@ -34,8 +34,9 @@ horizontal illuminance E_h = E_n·sin ε and the unit direction u toward the lum
 E_sc = E_h/u_z·(|u_xy| + u·f)/π (f the facing direction), so luminaires at or below the
 point's height are not counted (none in a street layout).
 
-Not done here: the luminance grid's observer positions, the edge illuminance ratio, and fields
-of staggered or opposite rows (a field is taken between consecutive luminaires of one row only).
+Elsewhere: the luminance grid's observer positions (:mod:`render.calc.road`), the edge
+illuminance ratio (:mod:`render.calc.edge`). Not done: fields of staggered or opposite rows (a
+field is taken between consecutive luminaires of one row only).
 
 References
 ----------
