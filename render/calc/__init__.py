@@ -1,4 +1,4 @@
-"""Calculation fields: the numbers a lighting designer checks, computed from the scene's light.
+"""Calculations: the numbers a lighting designer checks, computed from the scene's light.
 
 * :mod:`.fields` -- the calculation grids of EN 13201-3:2015 / CIE 140 on the carriageway's
   lanes and the footways, their horizontal illuminance (Ē, Emin, Emax, U0), and on footways the
@@ -12,6 +12,10 @@
 * :mod:`.edge` -- the edge illuminance ratio R_EI on strips beside each carriageway edge.
 * :mod:`.obtrusive` -- obtrusive light: vertical illuminance on house fronts and luminous
   intensity toward their windows, against user-chosen limits.
+* :mod:`.energy` -- input watts, dimming schedules, annual kWh, cost and CO₂ per setup.
+* :mod:`.sky` -- direct and reflected upward flux, sky-glow weighting, notch-filterable share.
+* :mod:`.run` -- the whole calculation of a scene per setup (:class:`~render.calc.run.CalculationReport`),
+  behind ``lampcast calc``.
 
 References
 ----------
