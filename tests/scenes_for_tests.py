@@ -8,7 +8,9 @@ from __future__ import annotations
 
 from pathlib import Path
 
-__all__ = ["TWO_OBJECTS_SETUPS_NIGHT", "TWO_OBJECTS_SETUPS_OLD_NEW", "write_two_objects_scene"]
+from render.scene.model import Street, StreetSide
+
+__all__ = ["TWO_OBJECTS_SETUPS_NIGHT", "TWO_OBJECTS_SETUPS_OLD_NEW", "street_model", "write_two_objects_scene"]
 
 _TWO_OBJECTS_SCENE = """
 [scene]
@@ -79,3 +81,31 @@ def write_two_objects_scene(folder: Path, extra: str = "", setups: str = TWO_OBJ
     path = folder / f"two-{len(extra)}.toml"
     path.write_text(_TWO_OBJECTS_SCENE.format(extra=extra, setups=setups), encoding="utf-8")
     return path
+
+
+def street_model(
+    width_m: float = 7.0, lanes: int = 2, footway_m: float = 2.0, verge_m: float = 0.5, kerb_h: float = 0.12
+) -> Street:
+    """A 100 m straight street with the same footway and verge on both sides (the calculation
+    tests work their expected grids out by hand from these widths)."""
+    side = StreetSide(
+        footway_width_m=footway_m,
+        verge_width_m=verge_m,
+        frontage_depth_m=3.0,
+        footway_material="concrete-paving",
+        verge_material="grass",
+        frontage_material="grass",
+    )
+    return Street(
+        length_m=100.0,
+        carriageway_width_m=width_m,
+        lanes=lanes,
+        kerb_height_m=kerb_h,
+        kerb_width_m=0.15,
+        carriageway_material="asphalt-worn",
+        kerb_material="concrete-kerb",
+        centre_line="none",
+        line_material="paint-road-white",
+        left=side,
+        right=side,
+    )

@@ -13,6 +13,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from scenes_for_tests import street_model
 
 from render.calc import (
     FieldResult,
@@ -27,34 +28,10 @@ from render.calc import (
     street_fields,
 )
 from render.errors import InputError
-from render.scene.model import GroupSetting, Setup, Street, StreetSide
+from render.scene.model import GroupSetting, Setup
 from render.study import Study
 
 SCENES = Path(__file__).resolve().parents[1] / "scenes" / "tests"
-
-
-def _street(width_m: float = 7.0, lanes: int = 2, footway_m: float = 2.0, kerb_h: float = 0.12) -> Street:
-    side = StreetSide(
-        footway_width_m=footway_m,
-        verge_width_m=0.5,
-        frontage_depth_m=3.0,
-        footway_material="concrete-paving",
-        verge_material="grass",
-        frontage_material="grass",
-    )
-    return Street(
-        length_m=100.0,
-        carriageway_width_m=width_m,
-        lanes=lanes,
-        kerb_height_m=kerb_h,
-        kerb_width_m=0.15,
-        carriageway_material="asphalt-worn",
-        kerb_material="concrete-kerb",
-        centre_line="none",
-        line_material="paint-road-white",
-        left=side,
-        right=side,
-    )
 
 
 @pytest.fixture(scope="module")
@@ -100,7 +77,7 @@ def test_grid_geometry_s30_by_hand():
     # Carriageway 7 m in two lanes of 3.5 m from x = 10 m, S = 30 m (worked by hand):
     # along x = 10 + 1.5 + 3 i, i = 0..9; lane 1 (right, y from -3.5): y = -3.5 + 0.5833,
     # -3.5 + 1.75, -3.5 + 2.9167; lane 2 from y = 0.
-    fields = {f.name: f for f in street_fields(_street(), 10.0, 30.0)}
+    fields = {f.name: f for f in street_fields(street_model(), 10.0, 30.0)}
     assert list(fields) == ["lane 1", "lane 2", "footway right", "footway left"]
     lane1 = fields["lane 1"]
     assert lane1.shape == (10, 3)
@@ -123,7 +100,7 @@ def test_grid_geometry_s30_by_hand():
 
 def test_grid_geometry_s36_by_hand():
     # S = 36 m: N = 12, D = 3 m, first row at 1.5 m, last at 34.5 m (worked by hand).
-    f = street_fields(_street(), 0.0, 36.0)[0]
+    f = street_fields(street_model(), 0.0, 36.0)[0]
     assert f.shape == (12, 3)
     xs = f.points_m.reshape(12, 3, 3)[:, 0, 0]
     np.testing.assert_allclose(xs, 1.5 + 3.0 * np.arange(12), rtol=0, atol=1e-12)
@@ -156,7 +133,7 @@ def test_isotropic_source_grid_is_inverse_square_cosine(plane):
     # Isotropic 10 000 lm, maintenance factor 1 (the scene file): I = 10000 / (4π) cd at
     # (0, 0, 5). Horizontal illuminance E = I cos θ / d² = I h / d³ with h = 5 - z (analytic).
     intensity = 10000.0 / (4.0 * math.pi)
-    for f in street_fields(_street(), -13.0, 30.0):
+    for f in street_fields(street_model(), -13.0, 30.0):
         r = evaluate_field(plane, f)
         d_vec = np.array([0.0, 0.0, 5.0]) - f.points_m
         d = np.linalg.norm(d_vec, axis=1)
@@ -168,7 +145,7 @@ def test_isotropic_source_grid_is_inverse_square_cosine(plane):
 
 def test_field_summary_figures(plane):
     # Ē, Emin, Emax and U0 = Emin/Ē (EN 13201-2:2015 definition of U0, from memory) of the grid.
-    f = street_fields(_street(), -13.0, 30.0)[0]
+    f = street_fields(street_model(), -13.0, 30.0)[0]
     r = evaluate_field(plane, f)
     assert isinstance(r, FieldResult)
     g = r.illuminance_lx
@@ -189,7 +166,7 @@ def test_centred_source_gives_mirror_symmetric_grids(plane):
     # Source above (0, 0): a field from x = -15 over 30 m and a street symmetric about y = 0.
     # Mirroring x reverses the rows; mirroring y swaps lane 1 with lane 2 and the two footways,
     # reversing the points across.
-    res = {f.name: evaluate_field(plane, f).illuminance_lx for f in street_fields(_street(), -15.0, 30.0)}
+    res = {f.name: evaluate_field(plane, f).illuminance_lx for f in street_fields(street_model(), -15.0, 30.0)}
     for g in res.values():
         np.testing.assert_allclose(g, g[::-1, :], rtol=1e-12)
     np.testing.assert_allclose(res["lane 1"], res["lane 2"][:, ::-1], rtol=1e-12)
@@ -211,7 +188,7 @@ def test_two_identical_luminaires_give_symmetric_field(minimal):
 def test_doubling_lumens_doubles_and_dimming_scales(plane, minimal):
     for study in (plane, minimal):
         rated = study.lights().channels[0].lumens
-        fields = row_fields(study.scene) if study.scene.street else street_fields(_street(), -13.0, 30.0)
+        fields = row_fields(study.scene) if study.scene.street else street_fields(street_model(), -13.0, 30.0)
         double = Setup("double", "", {"*": GroupSetting(lumens=2.0 * rated)})
         dim = Setup("dim", "", {"*": GroupSetting(dimming=0.35)})
         for f in fields:
@@ -228,7 +205,7 @@ def test_doubling_lumens_doubles_and_dimming_scales(plane, minimal):
 def test_named_setup_scales_by_lumens_and_dimming(plane):
     # point_over_plane's "dimmed-hps": 6000 lm of the 10 000 lm rating at dimming 0.5 -> 0.3
     # (the scene file; analytic).
-    f = street_fields(_street(), -13.0, 30.0)[2]
+    f = street_fields(street_model(), -13.0, 30.0)[2]
     base = evaluate_field(plane, f)
     r = evaluate_field(plane, f, "dimmed-hps")
     assert r.setup == "dimmed-hps"
@@ -244,7 +221,7 @@ def test_face_field_point_source_closed_form(plane):
     # E_v = I cos ε max(cos α, 0)/d² (cosine law, analytic). Semicylinder facing f:
     # E_sc = I cos ε (1 + cos α)/(π d²) (the average over its curved face; derived by hand).
     intensity = 10000.0 / (4.0 * math.pi)
-    for f in street_fields(_street(), -13.0, 30.0)[2:]:
+    for f in street_fields(street_model(), -13.0, 30.0)[2:]:
         for facing in ((1.0, 0.0, 0.0), (-1.0, 0.0, 0.0)):
             r = evaluate_face_field(plane, f, facing=facing)
             assert r.height_m == 1.5 and r.facing == facing
