@@ -15,24 +15,14 @@
 from __future__ import annotations
 
 import copy
-import time
 from pathlib import Path
 
 import numpy as np
 
+from render.bench.timing import Spread, interleaved, ratios
 from render.resources import demo_scene_path
 
 DEMO = demo_scene_path()
-
-
-def _timed(fn, repeat: int = 1):
-    best = float("inf")
-    out = None
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        out = fn()
-        best = min(best, time.perf_counter() - t0)
-    return best, out
 
 
 def long_street(scene, n_luminaires: int, spacing_m: float = 28.0):
@@ -111,34 +101,46 @@ def cmd_light(args) -> int:
         f"{study.mesh.n_triangles} triangles, {len(study.scene.luminaires)} luminaires"
     )
 
-    t_full, (buffers, lights, _) = _timed(lambda: _render(study, camera, args.spp, 0), args.repeat)
-    print(f"full render (camera rays + direct light + colorimetry): {t_full:.3f} s")
+    repeat = max(args.repeat, 3)
+    full = _render(study, camera, args.spp, 0)
+    buffers, lights, _ = full
     factors, lamps = channel_factors(lights)
     new = study.lamp_spds(["led-4000k-cie-b3"] * len(lamps))
-    t_relight, _ = _timed(lambda: resolve(buffers, factors, new, study.reflectances), max(args.repeat, 3))
+    t, _ = interleaved(
+        {
+            "full": lambda: _render(study, camera, args.spp, 0),
+            "relight": lambda: resolve(buffers, factors, new, study.reflectances),
+            "1nm": lambda: resolve(buffers, factors, new, study.reflectances, 1),
+            "5nm": lambda: resolve(buffers, factors, new, study.reflectances, 5),
+        },
+        repeat,
+    )
+    print(f"figures are min / median / max over {repeat} rounds, the measurements alternating within a round")
+    print(f"full render (camera rays + direct light + colorimetry): {t['full'].text()} s")
     print(
-        f"relight for a new lamp (no rays): {t_relight * 1000:.1f} ms; full/relight = {t_full / t_relight:.0f} (goal >= 50)"
+        f"relight for a new lamp (no rays): {t['relight'].text(1000, '.1f')} ms; "
+        f"full/relight = {ratios(t['full'], t['relight']).text(1, '.0f')} (goal >= 50)"
+    )
+    # A render whose colorimetry runs on the 1 nm or the 5 nm grid: the rest of the render is the same.
+    rest = Spread(tuple(f - r for f, r in zip(t["full"].values, t["relight"].values)))
+    t1 = Spread(tuple(x + y for x, y in zip(rest.values, t["1nm"].values)))
+    t5 = Spread(tuple(x + y for x, y in zip(rest.values, t["5nm"].values)))
+    print(
+        f"render with colorimetry on the 1 nm grid: {t1.text()} s, on a 5 nm grid: {t5.text()} s; "
+        f"1 nm / 5 nm = {ratios(t1, t5).text()} (goal <= 1.1; colorimetry alone "
+        f"{t['1nm'].text(1000, '.1f')} vs {t['5nm'].text(1000, '.1f')} ms)"
     )
 
-    t1, _ = _timed(lambda: resolve(buffers, factors, new, study.reflectances, 1), max(args.repeat, 3))
-    t5, _ = _timed(lambda: resolve(buffers, factors, new, study.reflectances, 5), max(args.repeat, 3))
-    t_1nm = t_full - t_relight + t1
-    t_5nm = t_full - t_relight + t5
-    print(
-        f"render with colorimetry on the 1 nm grid: {t_1nm:.3f} s, on a 5 nm grid: {t_5nm:.3f} s; "
-        f"1 nm / 5 nm = {t_1nm / t_5nm:.3f} (goal <= 1.1; colorimetry alone {t1 * 1000:.1f} vs {t5 * 1000:.1f} ms)"
-    )
-
-    times = {}
+    studies = {}
     for n in (10, 100):
         st = Study(long_street(study.scene, n))
         _ = st.bvh, st.reflectances
         _render(st, small, 1, 0)
-        times[n], (b, lights_n, _) = _timed(lambda st=st: _render(st, camera, args.spp, 0), args.repeat)
-        print(
-            f"{n:3d} luminaires ({st.scene.street.length_m:.0f} m street, {st.mesh.n_triangles} triangles): {times[n]:.3f} s"
-        )
-    print(f"100 / 10 luminaires = {times[100] / times[10]:.2f} (goal <= 3)")
+        studies[n] = st
+        print(f"{n:3d} luminaires: {st.scene.street.length_m:.0f} m street, {st.mesh.n_triangles} triangles")
+    t, _ = interleaved({n: (lambda st=st: _render(st, camera, args.spp, 0)) for n, st in studies.items()}, args.repeat)
+    print(f"render with 10 luminaires: {t[10].text()} s; with 100: {t[100].text()} s")
+    print(f"100 / 10 luminaires = {ratios(t[100], t[10]).text(1, '.2f')} (goal <= 3)")
     return 0
 
 
@@ -149,5 +151,7 @@ def add_parser(sub) -> None:
     p.add_argument("--width", type=int, default=1280)
     p.add_argument("--height", type=int, default=720)
     p.add_argument("--spp", type=int, default=4)
-    p.add_argument("--repeat", type=int, default=1)
+    p.add_argument(
+        "--repeat", type=int, default=3, help="rounds per measurement (default 3, at least 3 for the fast ones)"
+    )
     p.set_defaults(func=cmd_light)

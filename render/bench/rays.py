@@ -8,7 +8,7 @@ are present, and (b) a seeded synthetic stress scene of >= 250 000 triangles (ra
 spheres on a ground plane, :func:`render.bench.scenes.stress_scene`); then it casts primary
 rays from a camera (pixels in 4 x 4 blocks, as :mod:`render.rays.aov` casts them), shadow rays
 from the primary hits to a point light, and incoherent diffuse-bounce rays from the primary
-hits, and prints rays per second after JIT warm-up (best of ``--repeat`` runs, the contenders alternating). When the optional
+hits, and prints rays per second after JIT warm-up (medians of ``--repeat`` rounds, the contenders alternating; ratios as min / median / max over rounds). When the optional
 ``embreex`` package is importable, the same triangles and rays go through Embree too and the
 throughput ratio (ours / Embree) is printed, with the agreement of the two results.
 
@@ -32,6 +32,7 @@ import numba
 import numpy as np
 
 from render.bench.scenes import stress_scene
+from render.bench.timing import interleaved, ratios
 from render.rays.bvh import BVH, build_bvh, face_forward, geometric_normal, intersect_any, intersect_closest
 from render.rays.cameras import Camera, camera_rays, tile_pixels
 
@@ -102,18 +103,6 @@ def _bounce_rays(origins, directions, hits, triangles_m, seed, offset_m=1e-4):
     return np.ascontiguousarray(p + offset_m * n), np.ascontiguousarray(d)
 
 
-def _interleaved(fns: dict, repeat: int) -> dict:
-    """Best time of each function over ``repeat`` rounds, the functions alternating within a
-    round (so that a busy moment on a shared machine hurts all of them alike)."""
-    best = {k: np.inf for k in fns}
-    for _ in range(repeat):
-        for k, fn in fns.items():
-            t0 = time.perf_counter()
-            fn()
-            best[k] = min(best[k], time.perf_counter() - t0)
-    return best
-
-
 def _single_thread(fn):
     def run():
         threads = numba.get_num_threads()
@@ -168,7 +157,7 @@ def _run_case(case: _Case, args) -> None:
         ("diffuse bounce, incoherent (closest hit)", bo, bd, None),
     ]
     print(
-        f"{'rays':44s} {'count':>8s} {'ours Mrays/s':>13s} {'1 thread':>9s} {'Embree':>8s} {'ours/Embree':>12s}  agreement"
+        f"{'rays':44s} {'count':>8s} {'ours Mrays/s':>13s} {'1 thread':>9s} {'Embree':>8s} {'ours/Embree min/med/max':>18s}  agreement"
     )
     for name, ro, rd, tm in sets:
         if tm is None:
@@ -186,9 +175,9 @@ def _run_case(case: _Case, args) -> None:
                 fns["embree"] = lambda o32=o32, d32=d32, tm32=tm32: scene.run(
                     o32, d32, dists=tm32.copy(), query="OCCLUDED"
                 )
-        best = _interleaved(fns, args.repeat)
+        spread, _ = interleaved(fns, args.repeat)
         n = ro.shape[0]
-        one = f"{_mrays(n, best['one']):9.2f}" if "one" in best else f"{'-':>9s}"
+        one = f"{_mrays(n, spread['one'].median):9.2f}" if "one" in spread else f"{'-':>9s}"
         if scene is not None:
             ours_result = fns["ours"]()
             emb_result = fns["embree"]()
@@ -196,10 +185,11 @@ def _run_case(case: _Case, args) -> None:
                 agree = f"same triangle {np.mean(np.asarray(emb_result['primID']) == ours_result.triangle):.3%}"
             else:
                 agree = f"same occlusion {np.mean((np.asarray(emb_result) != -1) == ours_result):.3%}"
-            emb_s, ratio = f"{_mrays(n, best['embree']):8.2f}", f"{best['embree'] / best['ours']:12.2f}"
+            emb_s = f"{_mrays(n, spread['embree'].median):8.2f}"
+            ratio = f"{ratios(spread['embree'], spread['ours']).text(1, '.2f'):>18s}"
         else:
-            emb_s, ratio, agree = f"{'-':>8s}", f"{'-':>12s}", "embreex not importable (or --no-embree)"
-        print(f"{name:44s} {n:8d} {_mrays(n, best['ours']):13.2f} {one} {emb_s} {ratio}  {agree}")
+            emb_s, ratio, agree = f"{'-':>8s}", f"{'-':>18s}", "embreex not importable (or --no-embree)"
+        print(f"{name:44s} {n:8d} {_mrays(n, spread['ours'].median):13.2f} {one} {emb_s} {ratio}  {agree}")
 
 
 def _demo_case(args) -> _Case | None:
@@ -277,7 +267,10 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
     rays.add_argument("--spp", type=int, default=1, help="samples per pixel (default 1)")
     rays.add_argument("--seed", type=int, default=0, help="seed of the stress scene and the ray jitter (default 0)")
     rays.add_argument(
-        "--repeat", type=int, default=5, help="timed runs per measurement; the best is reported (default 5)"
+        "--repeat",
+        type=int,
+        default=5,
+        help="rounds per measurement; Mrays/s are medians, ratios min / median / max over rounds (default 5)",
     )
     rays.add_argument("--scenes", default="scenes", help="folder holding demo/*.toml (default ./scenes)")
     rays.add_argument("--no-embree", action="store_true", help="skip the Embree comparison")
