@@ -32,7 +32,7 @@ from render.errors import InputError, Problem, did_you_mean
 from render.fileio import read_user_bytes
 from render.light.photometry.eulumdat import parse_eulumdat, read_eulumdat
 from render.light.photometry.formats import guess_photometric_format
-from render.light.photometry.lm63 import _decode, _inside, read_lm63
+from render.light.photometry.lm63 import _decode, parse_lm63, read_lm63, require_inside
 from render.light.photometry.model import Photometry
 
 __all__ = ["BUILTIN_PHOTOMETRY_DIR", "builtin_photometry_ids", "load_photometry"]
@@ -101,9 +101,8 @@ def _read_file(path: Path, allowed_root: str | os.PathLike | None) -> Photometry
         return read_eulumdat(path, allowed_root=allowed_root)
     if suffix == ".ies" or "\x00" in str(path):
         return read_lm63(path, allowed_root=allowed_root)
-    if allowed_root is not None and not _inside(path, Path(allowed_root)):
-        return read_lm63(path, allowed_root=allowed_root)  # explains the strict-paths refusal
-    text = _decode(read_user_bytes(path, "photometric file"))
+    require_inside(path, allowed_root)
+    text = _decode(read_user_bytes(path, "photometric file"))  # read once, then parsed by its format
     if guess_photometric_format(text) == "eulumdat":
         return parse_eulumdat(text, source=str(path))
-    return read_lm63(path, allowed_root=allowed_root)
+    return parse_lm63(text, source=str(path), base_dir=path.parent, allowed_root=allowed_root)
