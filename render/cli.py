@@ -166,12 +166,10 @@ def cmd_photometry(args: argparse.Namespace) -> int:
 def cmd_check(args: argparse.Namespace) -> int:
     """Check a scene file and print what it holds (the problems found are an InputError), then
     one ``warning:`` line per likely mistake (:mod:`render.scene.warnings`; exit status 0)."""
-    from render.geometry.build import compile_scene
-    from render.scene import check_scene
+    from render.scene.loader import check_scene_mesh
     from render.scene.warnings import scene_warnings
 
-    scene = check_scene(args.scene, strict_paths=args.strict_paths)
-    mesh = compile_scene(scene)
+    scene, mesh = check_scene_mesh(args.scene, strict_paths=args.strict_paths)
     warnings = scene_warnings(scene, mesh)
     figures = {
         "scene": str(args.scene),

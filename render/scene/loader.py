@@ -26,6 +26,7 @@ import os
 import stat
 from dataclasses import replace
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from render import limits
 from render.errors import InputError, ProblemList, did_you_mean
@@ -55,7 +56,10 @@ from render.scene.model import (
 )
 from render.scene.schema import Field, check_table, check_value, join, shown
 
-__all__ = ["COORD", "MIN_SIZE_M", "check_scene", "expand_row", "light_channel_count", "load_scene"]
+if TYPE_CHECKING:
+    from render.geometry.mesh import TriangleMesh
+
+__all__ = ["COORD", "MIN_SIZE_M", "check_scene", "check_scene_mesh", "expand_row", "light_channel_count", "load_scene"]
 
 M = "m"
 DEG = "degrees"
@@ -1121,13 +1125,18 @@ def light_channel_count(scene: Scene) -> int:
 
 def check_scene(path: str | os.PathLike, *, strict_paths: bool = False) -> Scene:
     """Load a scene and compile its geometry (so that every mistake a render would meet is
-    found), without casting a ray. A view whose render would need more memory than is
-    available now (:func:`render.limits.render_memory_estimate`) is a problem naming the view's
-    ``resolution`` key."""
+    found), without casting a ray; see :func:`check_scene_mesh`."""
+    return check_scene_mesh(path, strict_paths=strict_paths)[0]
+
+
+def check_scene_mesh(path: str | os.PathLike, *, strict_paths: bool = False) -> tuple[Scene, TriangleMesh]:
+    """The checked scene and its compiled mesh (compiled once). A view whose render would need
+    more memory than is available now (:func:`render.limits.render_memory_estimate`) is a
+    problem naming the view's ``resolution`` key."""
     from render.geometry.build import compile_scene
 
     scene = load_scene(path, strict_paths=strict_paths)
-    compile_scene(scene)
+    mesh = compile_scene(scene)
     problems = ProblemList(scene.path)
     n_channels = light_channel_count(scene)
     for i, view in enumerate(scene.views):
@@ -1139,4 +1148,4 @@ def check_scene(path: str | os.PathLike, *, strict_paths: bool = False) -> Scene
         except InputError as err:
             problems.extend(err)
     problems.raise_if_any()
-    return scene
+    return scene, mesh
