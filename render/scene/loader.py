@@ -26,7 +26,7 @@ import os
 import stat
 from dataclasses import replace
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 from render import limits
 from render.errors import InputError, ProblemList, did_you_mean
@@ -40,6 +40,8 @@ from render.limits import (
     MAX_SAMPLES_PER_PIXEL,
 )
 from render.scene.model import (
+    CalcSettings,
+    EnergySettings,
     Frontage,
     GroupSetting,
     Luminaire,
@@ -86,6 +88,34 @@ TOP_LEVEL = {
     "gloss": Field("list", default=[]),
     "colour": Field("table", default={}),
     "compare": Field("table", default={}),
+    "calc": Field("table", default={}),
+    "energy": Field("table", default={}),
+}
+
+#: ``[calc]``: what ``lampcast calc`` checks when the command line does not say.
+CALC_SPEC = {
+    "lighting_class": Field("str", default=None, help="lighting class checked, e.g. P4, M3, C2"),
+    "classes_file": Field("str", default=None, help="a class file (TOML) adding or replacing classes"),
+    "observer_age_years": Field("float", default=23.0, unit="years", above=0.0, max=120.0),
+    "traffic": Field("str", default="two-way", choices=("two-way", "one-way")),
+    "include_objects": Field("any", default=[], help='names of objects that obstruct light, or "all"'),
+    "mesopic": Field("bool", default=False, help="mesopic P-class illuminance (CIE 191)"),
+    "facade_heights_m": Field("any", default=[1.5, 4.5], help="heights of the obtrusive-light points, m"),
+    "facade_spacing_m": Field("float", default=3.0, unit=M, min=0.1, max=100.0),
+    "max_facade_illuminance_lx": Field("float", default=None, unit="lx", min=0.0, max=1e6),
+    "max_intensity_toward_windows_cd": Field("float", default=None, unit="cd", min=0.0, max=1e9),
+}
+
+#: ``[energy]``: the site's figures for the energy calculation.
+ENERGY_SPEC = {
+    "annual_burning_hours_h": Field("float", default=4100.0, unit="h", min=0.0, max=8784.0),
+    "night_hours": Field("float", default=12.0, unit="h", above=0.0, max=24.0),
+    "tariff_per_kwh": Field("float", default=0.0, min=0.0, max=1e4, help="cost of a kWh"),
+    "currency": Field("str", default="", help="the tariff's currency, a label"),
+    "grid_factor_kg_per_kwh": Field("float", default=0.0, unit="kg/kWh", min=0.0, max=10.0),
+    "lifetime_h": Field("float", default=None, unit="h", above=0.0, max=1e7),
+    "constant_light_output": Field("bool", default=False),
+    "minimum_power_fraction": Field("float", default=0.0, min=0.0, max=1.0),
 }
 
 #: ``[compare]``: what ``lampcast compare`` compares when the command line does not say.
@@ -144,6 +174,9 @@ STREET_SPEC = {
     "centre_line": Field("str", default="dashed", choices=("none", "dashed", "solid")),
     "wet": Field("bool", default=False, help="a film of water on carriageway and footways"),
     "line_material": Field("str", default="paint-road-white"),
+    "r_table": Field("str", default=None, help="the carriageway's r-table CSV (lampcast's layout)"),
+    "q0_sr": Field("float", default=None, unit="1/sr", above=0.0, max=1.0, help="the road's Q0, scaling the r-table"),
+    "r_table_views": Field("str", default="driver", choices=("none", "driver", "all")),
     "left": Field("table", default={}),
     "right": Field("table", default={}),
 }
@@ -266,12 +299,20 @@ SETUP_SPEC = {
     "photometry": Field("str", default=None),
     "lumens": LIGHT_FIELDS["lumens"],
     "dimming": Field("float", default=None, min=0.0, max=1.0),
+    "input_watts": Field("float", default=None, unit="W", above=0.0, max=1e5, help="input power per luminaire"),
+    "schedule": Field("any", default=[], help="[[start_h, end_h, level], ...] after dusk"),
     "groups": Field("table", default={}),
 }
-GROUP_SETTING_SPEC = {k: SETUP_SPEC[k] for k in ("lamp", "photometry", "lumens", "dimming")}
+GROUP_SETTING_SPEC = {k: SETUP_SPEC[k] for k in ("lamp", "photometry", "lumens", "dimming", "input_watts")}
 
 #: What each kind of referenced file is called in messages (and in the file-size limits).
-_REFERENCE_KINDS = {"obj": "OBJ file", "lamp": "lamp file", "photometry": "photometric file"}
+_REFERENCE_KINDS = {
+    "obj": "OBJ file",
+    "lamp": "lamp file",
+    "photometry": "photometric file",
+    "r_table": "r-table file",
+    "classes": "class file",
+}
 
 
 class _Context:
@@ -398,6 +439,31 @@ class _Context:
             self._photometry = set(builtin_photometry_ids())
         if ref not in self._photometry:
             self.problems.add(where, f"unknown photometry {shown(ref)}{did_you_mean(ref, self._photometry)}")
+
+    def data_file(self, ref: str | None, where: str, kind: str) -> Path | None:
+        """An r-table or class file a scene key names, read once to report its problems; the
+        path (None when it is missing or has a problem)."""
+        if ref is None:
+            return None
+        target = self.reference(ref, where, kind)
+        if target is None:
+            return None
+        if self.first_read(kind, target):
+            before = len(self.problems.items)
+            try:
+                if kind == "r_table":
+                    from render.calc.road import read_r_table
+
+                    read_r_table(target)
+                else:
+                    from render.calc.classes import read_class_file
+
+                    read_class_file(target)
+            except InputError as err:
+                self.problems.extend(err)
+            if len(self.problems.items) > before:
+                return None
+        return target
 
 
 def _resolved(path: Path) -> Path | None:
@@ -537,6 +603,9 @@ def _street(table: dict, ctx: _Context) -> Street | None:
         left=sides["left"],
         right=sides["right"],
         wet=bool(s["wet"]),
+        r_table_file=ctx.data_file(s["r_table"], "street.r_table", "r_table"),
+        q0_sr=s["q0_sr"],
+        r_table_views=s["r_table_views"] or "driver",
     )
 
 
@@ -991,8 +1060,8 @@ def _setups(table: dict, ctx: _Context, groups: list[str]) -> dict[str, Setup]:
         s = check_table(entry, SETUP_SPEC, where, ctx.problems)
         _light_refs({"lamp": s["lamp"], "photometry": s["photometry"]}, where, ctx)
         settings = {}
-        if any(s[k] is not None for k in ("lamp", "photometry", "lumens", "dimming")):
-            settings["*"] = GroupSetting(s["lamp"], s["photometry"], s["lumens"], s["dimming"])
+        if any(s[k] is not None for k in ("lamp", "photometry", "lumens", "dimming", "input_watts")):
+            settings["*"] = GroupSetting(s["lamp"], s["photometry"], s["lumens"], s["dimming"], s["input_watts"])
         for group, gentry in (s["groups"] or {}).items():
             gwhere = join(f"{where}.groups", group)
             if group not in groups:
@@ -1004,13 +1073,89 @@ def _setups(table: dict, ctx: _Context, groups: list[str]) -> dict[str, Setup]:
                 continue
             g = check_table(gentry, GROUP_SETTING_SPEC, gwhere, ctx.problems)
             _light_refs(g, gwhere, ctx)
-            settings[group] = GroupSetting(g["lamp"], g["photometry"], g["lumens"], g["dimming"])
+            settings[group] = GroupSetting(g["lamp"], g["photometry"], g["lumens"], g["dimming"], g["input_watts"])
         if not settings:
             ctx.problems.add(
                 where, "a setup needs a lamp (or photometry, lumens, dimming) for all luminaires or per group"
             )
-        out[name] = Setup(name, s["description"] or "", settings)
+        out[name] = Setup(name, s["description"] or "", settings, _schedule(s["schedule"], f"{where}.schedule", ctx))
     return out
+
+
+def _schedule(value: Any, where: str, ctx: _Context) -> tuple[tuple[float, float, float], ...]:
+    """A setup's dimming schedule: a list of [start hour after dusk, end hour, level] steps
+    (checked again against ``[energy] night_hours`` by :func:`_energy`)."""
+    if value is None or value == []:
+        return ()
+    if not isinstance(value, list) or len(value) > 48:
+        ctx.problems.add(where, f"expected a list of at most 48 [start_h, end_h, level] steps, got {shown(value)}")
+        return ()
+    steps = []
+    for i, step in enumerate(value):
+        ok = (
+            isinstance(step, list)
+            and len(step) == 3
+            and all(isinstance(v, int | float) and not isinstance(v, bool) and math.isfinite(v) for v in step)
+        )
+        if not ok:
+            ctx.problems.add(f"{where}[{i}]", f"expected [start_h, end_h, level] (three numbers), got {shown(step)}")
+            return ()
+        steps.append((float(step[0]), float(step[1]), float(step[2])))
+    return tuple(steps)
+
+
+def _calc(table: dict, ctx: _Context, objects: list[StreetObject]) -> CalcSettings:
+    """``[calc]``: defaults of ``lampcast calc``."""
+    c = _defaults_after_problems(check_table(table, CALC_SPEC, "calc", ctx.problems), CALC_SPEC)
+    names = [o.tag.name for o in objects]
+    include = c["include_objects"]
+    chosen: tuple[str, ...] = ()
+    if include == "all":
+        chosen = tuple(names)
+    elif isinstance(include, list) and all(isinstance(n, str) for n in include):
+        for i, n in enumerate(include):
+            if n not in names:
+                ctx.problems.add(f"calc.include_objects[{i}]", f"no object named {shown(n)}{did_you_mean(n, names)}")
+        chosen = tuple(include)
+    else:
+        ctx.problems.add("calc.include_objects", f'expected a list of object names or "all", got {shown(include)}')
+    heights = c["facade_heights_m"]
+    if not (
+        isinstance(heights, list)
+        and 1 <= len(heights) <= 20
+        and all(isinstance(h, int | float) and not isinstance(h, bool) and 0 < h <= 200 for h in heights)
+    ):
+        ctx.problems.add("calc.facade_heights_m", f"expected 1 to 20 heights in m (0 to 200), got {shown(heights)}")
+        heights = [1.5, 4.5]
+    return CalcSettings(
+        lighting_class=c["lighting_class"],
+        classes_file=ctx.data_file(c["classes_file"], "calc.classes_file", "classes"),
+        observer_age_years=c["observer_age_years"] or 23.0,
+        traffic=c["traffic"] or "two-way",
+        include_objects=chosen,
+        mesopic=bool(c["mesopic"]),
+        facade_heights_m=tuple(float(h) for h in heights),
+        facade_spacing_m=c["facade_spacing_m"] or 3.0,
+        max_facade_illuminance_lx=c["max_facade_illuminance_lx"],
+        max_intensity_toward_windows_cd=c["max_intensity_toward_windows_cd"],
+    )
+
+
+def _energy(table: dict, ctx: _Context, setups: dict[str, Setup]) -> EnergySettings:
+    """``[energy]``: the site's energy figures; each setup's schedule is checked against them."""
+    from render.calc.energy import DimmingSchedule
+
+    e = _defaults_after_problems(check_table(table, ENERGY_SPEC, "energy", ctx.problems), ENERGY_SPEC)
+    settings = EnergySettings(**{k: v for k, v in e.items() if v is not None})
+    for name, setup in setups.items():
+        try:
+            DimmingSchedule.from_tuples(
+                setup.schedule, settings.night_hours, settings.minimum_power_fraction, source=str(ctx.path)
+            )
+        except InputError as err:
+            for problem in err.problems:
+                ctx.problems.add(f"{join('setups', name)}.schedule", f"{problem.where}: {problem.message}")
+    return settings
 
 
 def load_scene(path: str | os.PathLike, *, strict_paths: bool = False) -> Scene:
@@ -1057,6 +1202,8 @@ def load_scene(path: str | os.PathLike, *, strict_paths: bool = False) -> Scene:
             f"no view named {shown(colour['view'])}{did_you_mean(colour['view'], [v.name for v in views])}",
         )
     compare = check_table(top["compare"] or {}, COMPARE_SPEC, "compare", problems)
+    calc = _calc(top["calc"] or {}, ctx, objects)
+    energy = _energy(top["energy"] or {}, ctx, setups)
     for key, names in (
         ("before", [compare["before"]] if compare["before"] is not None else []),
         ("options", compare["options"] or []),
@@ -1096,6 +1243,8 @@ def load_scene(path: str | os.PathLike, *, strict_paths: bool = False) -> Scene:
         colour_view=colour["view"],
         compare_before=compare["before"],
         compare_options=tuple(compare["options"] or ()),
+        calc=calc,
+        energy=energy,
     )
 
 

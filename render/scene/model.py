@@ -16,6 +16,8 @@ from pathlib import Path
 from typing import Any
 
 __all__ = [
+    "CalcSettings",
+    "EnergySettings",
     "Frontage",
     "GroupSetting",
     "Luminaire",
@@ -67,6 +69,13 @@ class Street:
     left: StreetSide  # +y
     right: StreetSide  # -y
     wet: bool = False  # water film on carriageway, footways and lines (render.light.gloss)
+    #: ``r_table``: the carriageway's r-table file (lampcast's CSV layout, render.calc.road);
+    #: None: the carriageway material's own reflection.
+    r_table_file: Path | None = None
+    #: ``q0_sr``: the road's average luminance coefficient Q0, scaling the r-table (None: as given).
+    q0_sr: float | None = None
+    #: ``r_table_views``: which views' images use the r-table: "none", "driver" or "all".
+    r_table_views: str = "driver"
 
     def side(self, name: str) -> StreetSide:
         """The side called ``name`` ("left" is +y, anything else the right)."""
@@ -198,15 +207,60 @@ class GroupSetting:
     photometry: str | None = None
     lumens: float | None = None
     dimming: float | None = None
+    #: Input power per luminaire, W (None: the photometric file's input watts).
+    input_watts: float | None = None
 
 
 @dataclass
 class Setup:
-    """A named lighting setup: per group (``"*"`` for all) lamp, photometry, lumens, dimming."""
+    """A named lighting setup: per group (``"*"`` for all) lamp, photometry, lumens, dimming
+    and input watts, and the setup's dimming schedule over the night."""
 
     name: str
     description: str
     groups: dict[str, GroupSetting]
+    #: ``schedule``: (start hour after dusk, end hour, light level) steps; empty: the setup's
+    #: dimming all night (render.calc.energy).
+    schedule: tuple[tuple[float, float, float], ...] = ()
+
+
+@dataclass(frozen=True)
+class CalcSettings:
+    """``[calc]``: what ``lampcast calc`` checks by default (the command line may override)."""
+
+    #: Lighting class checked (None: no class check).
+    lighting_class: str | None = None
+    #: A class file adding or replacing classes (None: the shipped presets only).
+    classes_file: Path | None = None
+    #: Observer age for the threshold increment, years.
+    observer_age_years: float = 23.0
+    #: "two-way": observers in each lane looking both ways along the street; "one-way": along +x.
+    traffic: str = "two-way"
+    #: Names of the objects that obstruct light in the calculations ("all": every object).
+    #: The default, none, is the empty road the standard's calculation assumes.
+    include_objects: tuple[str, ...] = ()
+    #: Adjust P-class illuminance for mesopic vision (CIE 191) with the lamp's S/P ratio.
+    mesopic: bool = False
+    #: Heights above the facade's foot of the obtrusive-light points, m, and their spacing.
+    facade_heights_m: tuple[float, ...] = (1.5, 4.5)
+    facade_spacing_m: float = 3.0
+    #: User-chosen obtrusive-light limits (None: not checked; lampcast claims no defaults).
+    max_facade_illuminance_lx: float | None = None
+    max_intensity_toward_windows_cd: float | None = None
+
+
+@dataclass(frozen=True)
+class EnergySettings:
+    """``[energy]``: the site's figures the energy calculation needs (render.calc.energy)."""
+
+    annual_burning_hours_h: float = 4100.0
+    night_hours: float = 12.0
+    tariff_per_kwh: float = 0.0
+    currency: str = ""
+    grid_factor_kg_per_kwh: float = 0.0
+    lifetime_h: float | None = None
+    constant_light_output: bool = False
+    minimum_power_fraction: float = 0.0
 
 
 @dataclass
@@ -236,6 +290,9 @@ class Scene:
     #: (None and empty: the command line says).
     compare_before: str | None = None
     compare_options: tuple[str, ...] = ()
+    #: ``[calc]`` and ``[energy]``: calculation defaults and the site's energy figures.
+    calc: CalcSettings = field(default_factory=CalcSettings)
+    energy: EnergySettings = field(default_factory=EnergySettings)
 
     @property
     def base_dir(self) -> Path:
