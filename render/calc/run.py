@@ -50,7 +50,17 @@ from render.light.luminaires import channel_factors
 if TYPE_CHECKING:
     from render.study import Study
 
-__all__ = ["CalculationReport", "SetupCalculation", "run_calculation", "setup_calculation"]
+__all__ = ["CalculationReport", "Headline", "SetupCalculation", "run_calculation", "setup_calculation"]
+
+
+@dataclass(frozen=True)
+class Headline:
+    """One headline figure of a setup, for tables and bar charts (``value`` None: not computed)."""
+
+    key: str  # stable identifier, e.g. "carriageway_mean_lx"
+    label: str  # short label with the symbol, e.g. "carriageway Ē"
+    unit: str  # "lx", "cd/m²", "%", "lm", "kWh/year", "" for ratios
+    value: float | None
 
 
 @dataclass(frozen=True)
@@ -89,10 +99,26 @@ class SetupCalculation:
             threshold_increment_pct=self.ti_max_percent,
         )
 
+    def headline(self) -> tuple[Headline, ...]:
+        """The setup's headline figures, in a fixed order (the same keys for every setup)."""
+        figures = self.carriageway_figures("P")
+        lum = self.luminance
+        return (
+            Headline("carriageway_mean_lx", "carriageway Ē", "lx", figures.mean_illuminance_lx),
+            Headline("carriageway_min_lx", "carriageway Emin", "lx", figures.min_illuminance_lx),
+            Headline("carriageway_u0", "carriageway U0 (E)", "", figures.overall_uniformity),
+            Headline("road_mean_cd_m2", "road L̄ (worst observer)", "cd/m²", figures.mean_luminance_cd_m2),
+            Headline("road_u0", "road U0 (L)", "", min(r.u0 for r in lum) if lum else None),
+            Headline("road_ul", "road Ul", "", figures.longitudinal_uniformity),
+            Headline("ti_max_percent", "TI (worst)", "%", self.ti_max_percent),
+            Headline("direct_upward_lm", "direct upward flux", "lm", self.direct_upward_lm),
+        )
+
     def to_json(self) -> dict[str, Any]:
         """The figures as plain JSON types."""
         return {
             "setup": self.setup,
+            "headline": {h.key: h.value for h in self.headline()},
             "fields": [f.to_json() for f in self.fields],
             "faces": [f.to_json() for f in self.faces],
             "luminance_model": self.luminance_model,
