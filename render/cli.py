@@ -457,9 +457,9 @@ def cmd_calc(args: argparse.Namespace) -> int:
     (:mod:`render.calc.run`); ``--csv DIR`` also writes one CSV per field and setup."""
     from render.calc.classes import CAUTION as CALC_CAUTION
     from render.calc.classes import lighting_classes
-    from render.calc.road import read_r_table
     from render.calc.run import run_calculation
     from render.errors import did_you_mean
+    from render.light.rtable import read_r_table
     from render.output.calc_text import format_calculation, write_field_csvs
 
     lighting_class = None

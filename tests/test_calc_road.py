@@ -15,17 +15,11 @@ import numpy as np
 import pytest
 
 from render.calc.fields import CalculationField
-from render.calc.road import (
-    evaluate_luminance_field,
-    lane_observer_m,
-    parse_r_table,
-    r_value,
-    read_r_table,
-    road_luminance_cd_m2,
-)
+from render.calc.road import evaluate_luminance_field, lane_observer_m, road_luminance_cd_m2
 from render.errors import InputError
 from render.light.luminaires import Channel, LuminaireSet
 from render.light.photometry import intensity_cd, load_photometry
+from render.light.rtable import parse_r_table, r_value, read_r_table
 from render.limits import FILE_SIZE_LIMITS_BYTES
 
 # generic-isotropic: 1000 lm spread evenly, 1000/(4π) cd, as stored in its table (to 7 digits)

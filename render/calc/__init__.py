@@ -5,8 +5,8 @@
   semicylindrical and vertical illuminance at 1.5 m.
 * :mod:`.classes` -- the lighting classes of EN 13201-2:2015 (P, M, C) as data, user class files,
   and a pass/fail check of achieved figures with margins, mesopic for P classes per CIE 191.
-* :mod:`.road` -- road luminance for the standard observer from a user's r-table (lampcast's own
-  CSV layout; none shipped) or, without one, the Lambertian result: L̄, U0, Ul.
+* :mod:`.road` -- road luminance for the standard observer from a user's r-table
+  (:mod:`render.light.rtable`; none shipped) or, without one, the Lambertian result: L̄, U0, Ul.
 * :mod:`.ti` -- the threshold increment TI from the luminaires' veiling luminance (20° screening
   angle, observer age).
 * :mod:`.edge` -- the edge illuminance ratio R_EI on strips beside each carriageway edge.
@@ -49,14 +49,7 @@ from render.calc.obtrusive import (
     facade_field,
     facade_fields,
 )
-from render.calc.road import (
-    LuminanceResult,
-    RTable,
-    evaluate_luminance_field,
-    parse_r_table,
-    read_r_table,
-    road_luminance_cd_m2,
-)
+from render.calc.road import LuminanceResult, evaluate_luminance_field, road_luminance_cd_m2
 from render.calc.ti import TIResult, threshold_increment, veiling_luminance_cd_m2
 
 __all__ = [
@@ -70,7 +63,6 @@ __all__ = [
     "LuminanceResult",
     "ObtrusiveLimits",
     "ObtrusiveResult",
-    "RTable",
     "TIResult",
     "check_class",
     "edge_illuminance_ratio",
@@ -85,9 +77,7 @@ __all__ = [
     "footway_across",
     "lane_across",
     "lighting_classes",
-    "parse_r_table",
     "points_along",
-    "read_r_table",
     "road_luminance_cd_m2",
     "row_fields",
     "row_positions",

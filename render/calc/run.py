@@ -42,10 +42,11 @@ import numpy as np
 
 from render.calc.classes import CAUTION, ClassCheck, ClassFigures, LightingClass, check_class
 from render.calc.fields import FaceResult, FieldResult, evaluate_face_field, evaluate_field, row_fields
-from render.calc.road import LuminanceResult, RTable, evaluate_luminance_field
+from render.calc.road import LuminanceResult, evaluate_luminance_field
 from render.calc.sky import direct_upward_flux_lm, photometric_reflectance
 from render.calc.ti import DEFAULT_AGE_YEARS, TIResult, threshold_increment
 from render.light.luminaires import channel_factors
+from render.light.rtable import RTable
 
 if TYPE_CHECKING:
     from render.study import Study

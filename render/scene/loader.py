@@ -452,7 +452,7 @@ class _Context:
             before = len(self.problems.items)
             try:
                 if kind == "r_table":
-                    from render.calc.road import read_r_table
+                    from render.light.rtable import read_r_table
 
                     read_r_table(target)
                 else:

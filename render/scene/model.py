@@ -69,7 +69,7 @@ class Street:
     left: StreetSide  # +y
     right: StreetSide  # -y
     wet: bool = False  # water film on carriageway, footways and lines (render.light.gloss)
-    #: ``r_table``: the carriageway's r-table file (lampcast's CSV layout, render.calc.road);
+    #: ``r_table``: the carriageway's r-table file (lampcast's CSV layout, render.light.rtable);
     #: None: the carriageway material's own reflection.
     r_table_file: Path | None = None
     #: ``q0_sr``: the road's average luminance coefficient Q0, scaling the r-table (None: as given).
