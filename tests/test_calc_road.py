@@ -3,8 +3,9 @@
 Sources: the reduced luminance coefficient r = q·cos³γ and the luminance L = r·I/h² of
 CIE 140-2000 (from memory, see docs/references.md); for a Lambertian surface q = ρ/π, so
 r = (ρ/π)·cos³γ and L = ρ·E/π with E = I·h/d³ (analytic, derived in render.calc.road);
-bilinear interpolation worked by hand; the observer 1.5 m high and 60 m before the field
-(CIE 140 / EN 13201-3, from memory).
+bilinear interpolation worked by hand; the observer 1.5 m high and 60 m before the field,
+or 60 m beyond it for traffic along −x (CIE 140 / EN 13201-3, from memory); mirror symmetry
+of the two directions of traffic (analytic).
 """
 
 from __future__ import annotations
@@ -15,7 +16,12 @@ import numpy as np
 import pytest
 
 from render.calc.fields import CalculationField
-from render.calc.road import evaluate_luminance_field, lane_observer_m, road_luminance_cd_m2
+from render.calc.road import (
+    evaluate_luminance_field,
+    lane_observer_m,
+    luminaire_intensities_cd,
+    road_luminance_cd_m2,
+)
 from render.errors import InputError
 from render.light.luminaires import Channel, LuminaireSet
 from render.light.photometry import intensity_cd, load_photometry
@@ -216,3 +222,136 @@ def test_matt_luminance_agrees_with_the_scene_illuminance():
     L = road_luminance_cd_m2(lights, pts, np.array([-60.0, 0.0, 1.5]), reflectance=0.1)
     assert e.min() > 0.0
     np.testing.assert_allclose(L, 0.1 * e / math.pi, rtol=1e-6)
+
+
+# --- both directions of traffic -------------------------------------------------------------
+
+ASYMMETRIC = load_photometry("generic-road-asymmetric")
+MIRROR_X = np.diag([-1.0, 1.0, 1.0])
+
+
+def make_asymmetric_lights(positions: list[tuple[float, float, float]], rotations: list[np.ndarray]) -> LuminaireSet:
+    """generic-road-asymmetric luminaires (at their rated lumens) with the given luminaire-to-world
+    matrices, built without a scene."""
+    n = len(positions)
+    return LuminaireSet(
+        names=[f"l{i}" for i in range(n)],
+        channels=[Channel("g", "generic-road-asymmetric", 6000.0, 1.0, "lamp")],
+        position_m=np.array(positions, dtype=np.float64),
+        rotation=np.ascontiguousarray(np.array(rotations, dtype=np.float64)),
+        scale=np.ones(n),
+        table=np.zeros(n, dtype=np.int64),
+        c_grid=np.zeros((1, 1)),
+        g_grid=np.zeros((1, 1)),
+        n_c=np.zeros(1, dtype=np.int64),
+        n_g=np.zeros(1, dtype=np.int64),
+        cd_table=np.zeros((1, 1, 1)),
+        i_max_beyond=np.zeros((1, 1)),
+        channel=np.zeros(n, dtype=np.int64),
+        opening_m=np.zeros((n, 2)),
+        photometries=[ASYMMETRIC],
+    )
+
+
+#: The field of the mirror checks: 0 to 30 m along x, two 3.5 m lanes.
+FIELD_X0, FIELD_X1 = 0.0, 30.0
+#: Asymmetric luminaires, turned and tilted so that the layout is not symmetric along x:
+#: (x, y, z, rotation_deg, tilt_deg); a row on the right side throwing toward +y and one on
+#: the left throwing toward −y.
+ASYMMETRIC_LAYOUT = [
+    (-30.0, -4.5, 8.0, 12.0, 5.0),
+    (0.0, -4.5, 8.0, 12.0, 5.0),
+    (30.0, -4.5, 8.0, 12.0, 5.0),
+    (60.0, -4.5, 8.0, 12.0, 5.0),
+    (15.0, 4.5, 9.0, 200.0, 0.0),
+    (45.0, 4.5, 9.0, 200.0, 0.0),
+]
+
+
+def asymmetric_layout(mirrored: bool = False) -> LuminaireSet:
+    """The layout above, or its mirror image about the field's middle: x → x0 + x1 − x, and
+    each luminaire-to-world matrix R → M·R·M with M = diag(−1, 1, 1). M·R·M is a proper rotation,
+    and it mirrors the distribution exactly because generic-road-asymmetric is symmetric about
+    its C 90°–270° plane (C → 180° − C; checked in the test that uses it)."""
+    from render.light.photometry import luminaire_rotation
+
+    positions, rotations = [], []
+    for x, y, z, rot, tilt in ASYMMETRIC_LAYOUT:
+        r = luminaire_rotation(rot, tilt)
+        if mirrored:
+            x, r = FIELD_X0 + FIELD_X1 - x, MIRROR_X @ r @ MIRROR_X
+        positions.append((x, y, z))
+        rotations.append(r)
+    return make_asymmetric_lights(positions, rotations)
+
+
+def glossy_csv() -> str:
+    """A hand-made non-Lambertian r-table (× 10⁴): r falls with β (light toward the observer is
+    reflected more) and with tan γ, over the standard range of tan γ up to 12."""
+    betas = [0, 15, 30, 60, 90, 120, 150, 180]
+    tans = [0, 0.25, 0.5, 0.75, 1, 1.5, 2, 3, 4, 6, 8, 10, 12]
+    lines = ["# hand-made glossy table", "scale,0.0001", "q0,0.07", "tan_gamma," + ",".join(map(str, betas))]
+    for t in tans:
+        cos3 = (1.0 / math.sqrt(1.0 + t * t)) ** 3
+        row = [(300.0 + 500.0 * math.cos(math.radians(b / 2.0)) ** 4 * min(t, 2.0)) * cos3 for b in betas]
+        lines.append(f"{t:g}," + ",".join(f"{r:.6f}" for r in row))
+    return "\n".join(lines) + "\n"
+
+
+def two_lanes() -> list[CalculationField]:
+    return [lane_field("lane 1", -3.5, 3.5, FIELD_X1 - FIELD_X0), lane_field("lane 2", 0.0, 3.5, FIELD_X1 - FIELD_X0)]
+
+
+def test_observer_beyond_the_field_for_traffic_along_minus_x():
+    # CIE 140-2000 / EN 13201-3 observer geometry (from memory): 1.5 m high at the lane's
+    # centre, 60 m upstream of the field: before its start for +x traffic, beyond its end for −x.
+    lane = lane_field("lane 1", -3.5, 3.5)  # field from 0 to 30 m
+    assert lane_observer_m(lane, 1) == pytest.approx([-60.0, -1.75, 1.5])
+    assert lane_observer_m(lane, -1) == pytest.approx([90.0, -1.75, 1.5])
+    assert lane_observer_m(lane) == pytest.approx(lane_observer_m(lane, 1))
+    with pytest.raises(ValueError, match="direction"):
+        lane_observer_m(lane, 0)
+
+
+def test_mirrored_layout_seen_from_minus_x_gives_the_same_luminance():
+    # Analytic (mirror symmetry): the layout mirrored about the field's middle, seen by the −x
+    # observer, is the original seen by the +x observer point for point (rows in reverse order).
+    table = parse_r_table(glossy_csv())
+    lanes = two_lanes()
+    original, mirror = asymmetric_layout(), asymmetric_layout(mirrored=True)
+    # The mirrored luminaires send toward mirrored points what the originals send (the
+    # distribution's C → 180° − C symmetry, to the table's printed digits).
+    pts = np.concatenate([lane.points_m for lane in lanes])
+    mirrored_pts = pts * [-1.0, 1.0, 1.0] + [FIELD_X0 + FIELD_X1, 0.0, 0.0]
+    np.testing.assert_allclose(
+        luminaire_intensities_cd(mirror, mirrored_pts), luminaire_intensities_cd(original, pts), rtol=1e-6
+    )
+    forward = evaluate_luminance_field(original, lanes, r_table=table, direction=1)
+    backward = evaluate_luminance_field(mirror, lanes, r_table=table, direction=-1)
+    # The layout is not symmetric along x: the two directions differ on the original.
+    other_way = evaluate_luminance_field(original, lanes, r_table=table, direction=-1)
+    assert abs(other_way[0].mean_cd_m2 / forward[0].mean_cd_m2 - 1.0) > 0.01
+    assert abs(other_way[0].ul / forward[0].ul - 1.0) > 0.01
+    for f, b in zip(forward, backward, strict=True):
+        assert (f.direction, b.direction) == (1, -1)
+        assert f.observer_lane == b.observer_lane
+        assert b.observer_m == pytest.approx((FIELD_X0 + FIELD_X1 - f.observer_m[0], *f.observer_m[1:]))
+        for name in f.luminance_cd_m2:
+            np.testing.assert_allclose(b.luminance_cd_m2[name][::-1], f.luminance_cd_m2[name], rtol=1e-6)
+        assert b.mean_cd_m2 == pytest.approx(f.mean_cd_m2, rel=1e-6)
+        assert b.min_cd_m2 == pytest.approx(f.min_cd_m2, rel=1e-6)
+        assert b.u0 == pytest.approx(f.u0, rel=1e-6)
+        assert b.ul == pytest.approx(f.ul, rel=1e-6)
+        assert 0.0 < f.u0 < 1.0 and 0.0 < f.ul < 1.0
+
+
+def test_luminance_result_records_its_direction():
+    lanes = two_lanes()
+    results = evaluate_luminance_field(make_lights([(0.0, -4.0, 8.0)]), lanes, reflectance=0.1, direction=-1)
+    assert [r.direction for r in results] == [-1, -1]
+    assert results[0].to_json()["direction"] == -1
+    assert isinstance(results[0].to_json()["direction"], int)
+    default = evaluate_luminance_field(make_lights([(0.0, -4.0, 8.0)]), lanes, reflectance=0.1)
+    assert [r.direction for r in default] == [1, 1]
+    with pytest.raises(ValueError, match="direction"):
+        evaluate_luminance_field(make_lights([(0.0, -4.0, 8.0)]), lanes, reflectance=0.1, direction=2)

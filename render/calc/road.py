@@ -11,17 +11,23 @@ r-table convention). Shadows are ignored for road luminance, as in the standard 
 Without an r-table the result is the Lambertian one, L = ρ·E/π with E the horizontal
 illuminance (``model = "lambertian"`` in the result, labelled as such).
 
-:func:`evaluate_luminance_field` places the standard observer 1.5 m above the road, 60 m
-before the field's start (looking along +x), at the centre of each lane in turn, and gives for
-each position the luminance over all the lanes' points, L̄, Lmin, U0 = Lmin/L̄, and the
-longitudinal uniformity Ul = Lmin/Lmax along the centre line of the observer's lane (the
-middle row of three points across the lane).
+:func:`evaluate_luminance_field` places the standard observer 1.5 m above the road at the
+centre of each lane in turn, for one direction of traffic: ``direction = +1`` (traffic along
++x) puts the eye 60 m before the field's start looking along +x, ``direction = -1`` (traffic
+along −x) 60 m beyond the field's end looking along −x. For each position it gives the
+luminance over all the lanes' points, L̄, Lmin, U0 = Lmin/L̄, and the longitudinal uniformity
+Ul = Lmin/Lmax along the centre line of the observer's lane (the middle row of three points
+across the lane), the same line whichever way the observer looks. The direction enters the
+luminance only through β, the angle between the vertical plane through the eye and the point
+and the vertical plane through the point and the luminaire; a two-way road is judged by the
+worst figure over both directions (:func:`render.calc.ti.road_worst_case`).
 
 References
 ----------
 * CIE 140-2000 *Road lighting calculations* and EN 13201-3:2015: L = Σ r·I/h², the r-table
   layout (β 0–180°, tan γ 0–12, values × 10⁴), Q0, the observer 1.5 m high and 60 m before the
-  field at each lane's centre, U0 and Ul. *memory*.
+  field at each lane's centre (for each direction of traffic on a two-way road), U0 and Ul.
+  *memory*.
 * r = q·cos³γ and the Lambertian r = (ρ/π)·cos³γ: derived from L = q·E, E = I·cos³γ/h²
   (*own*).
 """
@@ -42,6 +48,7 @@ from render.light.rtable import RTable, r_value
 from render.scene.model import Setup
 
 __all__ = [
+    "DIRECTIONS",
     "OBSERVER_DISTANCE_M",
     "OBSERVER_HEIGHT_M",
     "LuminanceResult",
@@ -49,12 +56,22 @@ __all__ = [
     "lane_observer_m",
     "luminaire_intensities_cd",
     "road_luminance_cd_m2",
+    "traffic_direction",
 ]
 
 #: Eye height of the standard observer above the road, m (CIE 140 / EN 13201-3, memory).
 OBSERVER_HEIGHT_M = 1.5
 #: Distance of the standard observer before the field's start, m (CIE 140 / EN 13201-3, memory).
 OBSERVER_DISTANCE_M = 60.0
+#: The two directions of traffic along the street: +1 along +x, −1 along −x.
+DIRECTIONS = (1, -1)
+
+
+def traffic_direction(direction: int) -> int:
+    """``direction`` checked to be +1 (traffic along +x) or −1 (along −x), as an int."""
+    if direction not in DIRECTIONS:
+        raise ValueError(f"direction of traffic must be +1 or -1, got {direction!r}")
+    return int(direction)
 
 
 def luminaire_intensities_cd(lights: LuminaireSet, points_m: np.ndarray, setup: Setup | None = None) -> np.ndarray:
@@ -124,6 +141,7 @@ class LuminanceResult:
 
     observer_lane: str
     observer_m: tuple[float, float, float]
+    direction: int  # +1: the observer looks along +x, −1: along −x
     model: str  # "r-table" or "lambertian"
     luminance_cd_m2: dict[str, np.ndarray]  # lane name -> (along, across)
     mean_cd_m2: float
@@ -136,6 +154,7 @@ class LuminanceResult:
         return {
             "observer_lane": self.observer_lane,
             "observer_m": list(self.observer_m),
+            "direction": self.direction,
             "model": self.model,
             "luminance_cd_m2": {k: v.tolist() for k, v in self.luminance_cd_m2.items()},
             "mean_cd_m2": self.mean_cd_m2,
@@ -145,12 +164,18 @@ class LuminanceResult:
         }
 
 
-def lane_observer_m(lane: CalculationField) -> np.ndarray:
+def lane_observer_m(lane: CalculationField, direction: int = 1) -> np.ndarray:
     """The standard observer for a lane field: at the lane's centre, 1.5 m above the road,
-    60 m before the field's start (the first grid row is D/2 after the start)."""
+    60 m upstream of the field for traffic in ``direction``: before the field's start for +1
+    (the first grid row is D/2 after the start), beyond its end for −1 (the last row is D/2
+    before the end)."""
+    d = traffic_direction(direction)
     pts = lane.points_m
-    x0 = float(pts[:, 0].min()) - lane.spacing_m[0] / 2.0
-    return np.array([x0 - OBSERVER_DISTANCE_M, float(pts[:, 1].mean()), float(pts[:, 2].mean()) + OBSERVER_HEIGHT_M])
+    half = lane.spacing_m[0] / 2.0
+    entry = float(pts[:, 0].min()) - half if d > 0 else float(pts[:, 0].max()) + half
+    return np.array(
+        [entry - d * OBSERVER_DISTANCE_M, float(pts[:, 1].mean()), float(pts[:, 2].mean()) + OBSERVER_HEIGHT_M]
+    )
 
 
 def evaluate_luminance_field(
@@ -160,13 +185,16 @@ def evaluate_luminance_field(
     r_table: RTable | None = None,
     reflectance: float | None = None,
     road_q0_sr: float | None = None,
+    direction: int = 1,
 ) -> list[LuminanceResult]:
     """Road luminance over the lane fields of one carriageway field, one result per observer
-    position (the standard observer at the centre of each lane in turn)."""
+    position (the standard observer at the centre of each lane in turn, for traffic in
+    ``direction``: +1 along +x, −1 along −x)."""
+    d = traffic_direction(direction)
     model = "lambertian" if r_table is None else "r-table"
     results = []
     for lane in lanes:
-        eye = lane_observer_m(lane)
+        eye = lane_observer_m(lane, d)
         grids = {
             other.name: road_luminance_cd_m2(
                 lights, other.points_m, eye, setup, r_table, reflectance, road_q0_sr
@@ -182,6 +210,7 @@ def evaluate_luminance_field(
             LuminanceResult(
                 observer_lane=lane.name,
                 observer_m=(float(eye[0]), float(eye[1]), float(eye[2])),
+                direction=d,
                 model=model,
                 luminance_cd_m2=grids,
                 mean_cd_m2=mean,

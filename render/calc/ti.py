@@ -12,23 +12,30 @@ constant. The threshold increment, in percent, from the average road luminance L
     TI = 65·Lv/L̄^0.8   for L̄ ≤ 5 cd/m²,   TI = 95·Lv/L̄^1.05   above.
 
 lampcast's observer (:func:`threshold_increment`) stands at each lane's centre, the eye
-1.5 m above the road, and moves along the street over the field: one position 60 m before
-each row of the field's grid points (the luminance observer moved forward by the grid
-spacing D each time); TI is the largest over these positions. The line of sight is along +x,
-1° below the horizontal toward the road. The vehicle roof screens the sky: a luminaire whose
-direction, projected on the vertical plane of the line of sight, is more than 20° above the
-line of sight (above the screening plane through the eye that holds the lateral direction)
-is not counted, nor a luminaire behind the eye (θ ≥ 90°). Shadows from other geometry are
+1.5 m above the road, and moves along the street over the field in the direction of traffic:
+one position 60 m upstream of each row of the field's grid points (the luminance observer
+moved forward by the grid spacing D each time); TI is the largest over these positions. For
+``direction = +1`` (traffic along +x) the eye is 60 m before the row and the line of sight is
+along +x; for ``direction = -1`` it is 60 m beyond the row, looking along −x; either way the
+line of sight is 1° below the horizontal toward the road. The vehicle roof screens the sky:
+a luminaire whose direction, projected on the vertical plane of the line of sight, is more
+than 20° above the line of sight (above the screening plane through the eye that holds the
+lateral direction) is not counted, nor a luminaire behind the eye (θ ≥ 90°). Shadows from other geometry are
 ignored. The equation is used beyond its 1.5°–60° range of validity without warning.
+
+A two-way road is judged by its worst observer: :func:`road_worst_case` takes the luminance
+results and TI results of every lane and direction and gives the lowest L̄, U0 and Ul and the
+highest TI, each with the observer (lane, direction) that gave it.
 
 References
 ----------
 * CIE 140-2000 *Road lighting calculations* and EN 13201-3:2015: the veiling-luminance
   equation with 9.86 and 66.4, the two TI forms with 65, 0.8, 95, 1.05 and the 5 cd/m² limit,
-  the 20° screening angle, the 1° line of sight, the observer moving over the field; default
-  age 23 years. *memory*, with *secondary* notes quoting the TI forms: none of these constants
-  was checked against the documents. The placement of the screening plane relative to the
-  line of sight (rather than the horizontal) is lampcast's reading (*own*).
+  the 20° screening angle, the 1° line of sight, the observer moving over the field, the
+  observer positions for each direction of traffic; default age 23 years. *memory*, with
+  *secondary* notes quoting the TI forms: none of these constants was checked against the
+  documents. The placement of the screening plane relative to the line of sight (rather than
+  the horizontal) is lampcast's reading (*own*).
 * CIE 146:2002 / Vos (2003): the Stiles–Holladay constant 10 that K(23) reproduces
   (*summary*, see docs/references.md).
 """
@@ -36,13 +43,20 @@ References
 from __future__ import annotations
 
 import math
+from collections.abc import Iterable
 from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
 
 from render.calc.fields import CalculationField
-from render.calc.road import OBSERVER_DISTANCE_M, OBSERVER_HEIGHT_M, luminaire_intensities_cd
+from render.calc.road import (
+    OBSERVER_DISTANCE_M,
+    OBSERVER_HEIGHT_M,
+    LuminanceResult,
+    luminaire_intensities_cd,
+    traffic_direction,
+)
 from render.light.luminaires import LuminaireSet
 from render.scene.model import Setup
 
@@ -52,7 +66,9 @@ __all__ = [
     "SCREENING_ANGLE_DEG",
     "TIResult",
     "TI_LUMINANCE_LIMIT_CD_M2",
+    "RoadWorstCase",
     "age_factor",
+    "road_worst_case",
     "threshold_increment",
     "ti_percent",
     "veiling_luminance_cd_m2",
@@ -73,9 +89,12 @@ def age_factor(age_years: float = DEFAULT_AGE_YEARS) -> float:
     return 9.86 * (1.0 + (age_years / 66.4) ** 4)
 
 
-def _line_of_sight() -> np.ndarray:
+def _sight_and_up(direction: int) -> tuple[np.ndarray, np.ndarray]:
+    """The line of sight (along ``direction``·x, 1° down) and the unit vector perpendicular to
+    it in its vertical plane, pointing up."""
     a = math.radians(LINE_OF_SIGHT_DOWN_DEG)
-    return np.array([math.cos(a), 0.0, -math.sin(a)])
+    d = float(direction)
+    return np.array([d * math.cos(a), 0.0, -math.sin(a)]), np.array([d * math.sin(a), 0.0, math.cos(a)])
 
 
 def veiling_luminance_cd_m2(
@@ -83,13 +102,12 @@ def veiling_luminance_cd_m2(
     eye_m: np.ndarray,
     setup: Setup | None = None,
     age_years: float = DEFAULT_AGE_YEARS,
+    direction: int = 1,
 ) -> float:
-    """Veiling luminance (cd/m²) at ``eye_m`` looking along +x, 1° down, with the 20°
-    screening angle above the line of sight."""
+    """Veiling luminance (cd/m²) at ``eye_m`` looking along +x (``direction`` +1) or −x (−1),
+    1° down, with the 20° screening angle above the line of sight."""
     eye = np.asarray(eye_m, dtype=np.float64).reshape(3)
-    sight = _line_of_sight()
-    down = math.radians(LINE_OF_SIGHT_DOWN_DEG)
-    up = np.array([math.sin(down), 0.0, math.cos(down)])  # perpendicular to the sight, upward
+    sight, up = _sight_and_up(traffic_direction(direction))
     intensity = luminaire_intensities_cd(lights, eye[None, :], setup)[:, 0]
     total = 0.0
     for k in range(lights.n_luminaires):
@@ -124,12 +142,13 @@ def ti_percent(veiling_cd_m2: float, mean_luminance_cd_m2: float) -> float:
 
 @dataclass(frozen=True)
 class TIResult:
-    """The largest threshold increment over the observer positions of one lane."""
+    """The largest threshold increment over the observer positions of one lane and direction."""
 
     lane: str
     ti_percent: float
     veiling_cd_m2: float
     eye_m: tuple[float, float, float]
+    direction: int  # +1: the observer looks along +x, −1: along −x
     age_years: float
 
     def to_json(self) -> dict[str, Any]:
@@ -139,6 +158,7 @@ class TIResult:
             "ti_percent": self.ti_percent,
             "veiling_cd_m2": self.veiling_cd_m2,
             "eye_m": list(self.eye_m),
+            "direction": self.direction,
             "age_years": self.age_years,
         }
 
@@ -149,17 +169,21 @@ def threshold_increment(
     mean_luminance_cd_m2: float,
     setup: Setup | None = None,
     age_years: float = DEFAULT_AGE_YEARS,
+    direction: int = 1,
 ) -> TIResult:
-    """The largest TI for the observer at ``lane``'s centre moving over the field (one eye
-    position 60 m before each row of grid points), with the road's average luminance L̄."""
+    """The largest TI for the observer at ``lane``'s centre moving over the field in
+    ``direction`` (+1: one eye position 60 m before each row of grid points, looking along +x;
+    −1: 60 m beyond each row, looking along −x), with the road's average luminance L̄ (for
+    the same lane and direction)."""
+    d = traffic_direction(direction)
     pts = lane.points_m
     y = float(pts[:, 1].mean())
     z = float(pts[:, 2].mean()) + OBSERVER_HEIGHT_M
     rows_x = np.unique(np.round(pts[:, 0], 9))
     best: tuple[float, np.ndarray] | None = None
     for x in rows_x:
-        eye = np.array([x - OBSERVER_DISTANCE_M, y, z])
-        lv = veiling_luminance_cd_m2(lights, eye, setup, age_years)
+        eye = np.array([x - d * OBSERVER_DISTANCE_M, y, z])
+        lv = veiling_luminance_cd_m2(lights, eye, setup, age_years, d)
         if best is None or lv > best[0]:
             best = (lv, eye)
     assert best is not None
@@ -169,5 +193,67 @@ def threshold_increment(
         ti_percent=ti_percent(lv, mean_luminance_cd_m2),
         veiling_cd_m2=lv,
         eye_m=(float(eye[0]), float(eye[1]), float(eye[2])),
+        direction=d,
         age_years=age_years,
+    )
+
+
+@dataclass(frozen=True)
+class RoadWorstCase:
+    """The worst road-luminance figures and TI over every observer of a carriageway (each lane
+    and direction of traffic), each with the observer that gave it as (lane, direction).
+
+    ``ti_percent`` and ``ti_observer`` are None when no TI was computed."""
+
+    mean_cd_m2: float  # lowest L̄
+    mean_observer: tuple[str, int]
+    u0: float  # lowest U0 of luminance
+    u0_observer: tuple[str, int]
+    ul: float  # lowest Ul
+    ul_observer: tuple[str, int]
+    ti_percent: float | None  # highest TI
+    ti_observer: tuple[str, int] | None
+
+    def to_json(self) -> dict[str, Any]:
+        """The figures as plain JSON types, each observer as {"lane", "direction"}."""
+
+        def who(o: tuple[str, int] | None) -> dict[str, Any] | None:
+            return None if o is None else {"lane": o[0], "direction": o[1]}
+
+        return {
+            "mean_cd_m2": self.mean_cd_m2,
+            "mean_observer": who(self.mean_observer),
+            "u0": self.u0,
+            "u0_observer": who(self.u0_observer),
+            "ul": self.ul,
+            "ul_observer": who(self.ul_observer),
+            "ti_percent": self.ti_percent,
+            "ti_observer": who(self.ti_observer),
+        }
+
+
+def road_worst_case(luminance: Iterable[LuminanceResult], ti: Iterable[TIResult] = ()) -> RoadWorstCase:
+    """The lowest L̄, U0 and Ul over ``luminance`` and the highest TI over ``ti`` (results for
+    any lanes and directions), each with its observer; on a tie the first result wins."""
+    lum = list(luminance)
+    if not lum:
+        raise ValueError("the worst case needs at least one luminance result")
+    tis = list(ti)
+
+    def at(r: LuminanceResult) -> tuple[str, int]:
+        return (r.observer_lane, r.direction)
+
+    mean = min(lum, key=lambda r: r.mean_cd_m2)
+    u0 = min(lum, key=lambda r: r.u0)
+    ul = min(lum, key=lambda r: r.ul)
+    worst_ti = max(tis, key=lambda t: t.ti_percent) if tis else None
+    return RoadWorstCase(
+        mean_cd_m2=mean.mean_cd_m2,
+        mean_observer=at(mean),
+        u0=u0.u0,
+        u0_observer=at(u0),
+        ul=ul.ul,
+        ul_observer=at(ul),
+        ti_percent=worst_ti.ti_percent if worst_ti is not None else None,
+        ti_observer=(worst_ti.lane, worst_ti.direction) if worst_ti is not None else None,
     )
