@@ -453,50 +453,74 @@ def cmd_colours(args: argparse.Namespace) -> int:
 
 
 def cmd_calc(args: argparse.Namespace) -> int:
-    """Calculation fields, road luminance, TI, upward flux and a class check per setup
-    (:mod:`render.calc.run`); ``--csv DIR`` also writes one CSV per field and setup."""
+    """Calculation fields, road luminance, TI, obtrusive light, sky, energy and a class check per
+    setup (:mod:`render.calc.run`); the scene's ``[calc]`` gives the defaults the options
+    override. ``--csv DIR`` also writes one CSV per field and setup."""
     from render.calc.classes import CAUTION as CALC_CAUTION
-    from render.calc.classes import lighting_classes
-    from render.calc.run import run_calculation
-    from render.errors import did_you_mean
-    from render.light.rtable import read_r_table
+    from render.calc.run import calc_options, run_calculation
     from render.output.calc_text import format_calculation, write_field_csvs
 
-    lighting_class = None
-    if args.lighting_class is not None or args.classes is not None:
-        classes = lighting_classes(args.classes)
-        if args.lighting_class is None:
-            raise input_error("command line", "--classes", "a class file is used with --class NAME")
-        if args.lighting_class not in classes:
-            names = list(classes)
-            raise input_error(
-                "command line",
-                "--class",
-                f"no lighting class {args.lighting_class!r}{did_you_mean(args.lighting_class, names)}; "
-                f"classes: {', '.join(names)}",
-            )
-        lighting_class = classes[args.lighting_class]
-    if args.q0 is not None and args.r_table is None:
-        raise input_error("command line", "--q0", "--q0 scales an r-table: give --r-table FILE too")
     if args.q0 is not None and not (np.isfinite(args.q0) and args.q0 > 0):
         raise input_error("command line", "--q0", f"expected a positive number, got {args.q0}")
     if args.age is not None and not (np.isfinite(args.age) and 0 < args.age <= 120):
         raise input_error("command line", "--age", f"expected an age in years from 0 to 120, got {args.age}")
-    r_table = read_r_table(args.r_table) if args.r_table is not None else None
     study = _study(args)
-    setups = args.setups or [None]
+    scene = study.scene
+    if args.q0 is not None and args.r_table is None and (scene.street is None or scene.street.r_table_file is None):
+        raise input_error(
+            "command line", "--q0", "--q0 scales an r-table: give --r-table FILE (or [street] r_table in the scene)"
+        )
+    if args.classes is not None and args.lighting_class is None and scene.calc.lighting_class is None:
+        raise input_error("command line", "--classes", "a class file is used with --class NAME")
+    include = None
+    if args.include_objects is not None:
+        text = args.include_objects.strip()
+        include = (
+            "all"
+            if text == "all"
+            else ()
+            if text in ("", "none")
+            else tuple(n.strip() for n in text.split(",") if n.strip())
+        )
+    overrides = {}
+    if args.no_class:
+        overrides["lighting_class"] = None
+    elif args.lighting_class is not None:
+        overrides["lighting_class"] = args.lighting_class
+    options = calc_options(
+        scene,
+        classes_file=args.classes,
+        r_table_file=args.r_table,
+        q0_sr=args.q0,
+        age_years=args.age,
+        traffic=args.traffic,
+        include_objects=include,
+        mesopic=True if args.mesopic else None,
+        **overrides,
+    )
+    setups = args.setups or ([scene.compare_before, *scene.compare_options] if scene.compare_before else [None])
     for name in setups:
         study.setup(name)
     _note(args, CALC_CAUTION)
-    kwargs = {} if args.age is None else {"age_years": args.age}
-    report = run_calculation(study, setups, lighting_class=lighting_class, r_table=r_table, q0_sr=args.q0, **kwargs)
-    written = write_field_csvs(study.scene, report, args.csv) if args.csv else []
+    report = run_calculation(study, setups, options)
+    written = write_field_csvs(scene, report, args.csv) if args.csv else []
+    pictures = []
+    if args.pictures:
+        from render.calc.plan import plan_illuminance
+        from render.calc.run import calc_study
+        from render.output.calc_pictures import write_calc_pictures
+
+        used = calc_study(study, options.include_objects)
+        plans = {s: plan_illuminance(used, s) for s in setups}
+        pictures = write_calc_pictures(report, plans, args.pictures)
     if args.json:
-        _print_json({**report.to_json(), "csv_files": written})
+        _print_json({**report.to_json(), "csv_files": written, "pictures": pictures})
         return 0
     print(format_calculation(report))
     if written:
         print(f"CSV files written to {args.csv}/")
+    if pictures:
+        print(f"pictures written to {args.pictures}/")
     return 0
 
 
@@ -784,18 +808,34 @@ def build_parser() -> argparse.ArgumentParser:
         dest="setups",
         action="append",
         metavar="NAME",
-        help="setup to calculate (repeat; default: the lamps the scene gives)",
+        help="setup to calculate (repeat; the first is the before; default: [compare], else the scene's lamps)",
     )
     p.add_argument(
-        "--class", dest="lighting_class", metavar="NAME", help="lighting class to check against (e.g. P4, M3, C2)"
+        "--class",
+        dest="lighting_class",
+        metavar="NAME",
+        help="lighting class to check against (e.g. P4, M3, C2; default: [calc] lighting_class)",
     )
+    p.add_argument("--no-class", action="store_true", help="no class check, whatever [calc] says")
     p.add_argument("--classes", metavar="FILE", help="a class file (TOML) adding or replacing classes")
     p.add_argument(
         "--r-table", metavar="FILE", help="road r-table CSV (see scenes/README.md; default: Lambertian road)"
     )
     p.add_argument("--q0", type=float, metavar="X", help="the road's Q0 (sr⁻¹), scaling the r-table")
-    p.add_argument("--age", type=float, metavar="YEARS", help="observer age for TI (default 23)")
+    p.add_argument("--age", type=float, metavar="YEARS", help="observer age for TI (default: [calc], else 23)")
+    p.add_argument(
+        "--traffic",
+        choices=("two-way", "one-way"),
+        help="observers looking both ways along the street, or along +x only (default: [calc], else two-way)",
+    )
+    p.add_argument(
+        "--include-objects",
+        metavar="NAMES",
+        help='objects that obstruct light: "all", "none" or NAME,NAME (default: [calc], else none: an empty road)',
+    )
+    p.add_argument("--mesopic", action="store_true", help="P classes: compare illuminance in mesopic photometry")
     p.add_argument("--csv", metavar="DIR", help="also write one CSV of grid values per field and setup")
+    p.add_argument("--pictures", metavar="DIR", help="also write the isolux plan, heat map and bar chart PNGs")
     p.set_defaults(func=cmd_calc)
 
     p = sub.add_parser(

@@ -32,8 +32,16 @@ import numpy.typing as npt
 from render.colour.colorimetry import ViewColorimetry, resolve
 from render.errors import did_you_mean, input_error
 from render.geometry.build import compile_scene
-from render.light.integrator import NEGLIGIBLE_LX, LightBuffers, cast_view, direct_illuminance_lx, evaluate_light
+from render.light.integrator import (
+    NEGLIGIBLE_LX,
+    SURFACE_OFFSET_M,
+    LightBuffers,
+    cast_view,
+    direct_illuminance_lx,
+    evaluate_light,
+)
 from render.light.luminaires import LuminaireSet, channel_factors, luminaire_set, needs_new_evaluation
+from render.light.rtable import view_road_shading
 from render.limits import check_render_size
 from render.scene import Scene, load_scene
 from render.scene.model import Setup
@@ -64,9 +72,17 @@ class RenderedView:
 class Study:
     """A scene ready to render: compiled geometry, BVH, material reflectances."""
 
-    def __init__(self, scene: Scene | str | Path, *, negligible_lx: float = NEGLIGIBLE_LX) -> None:
+    def __init__(
+        self,
+        scene: Scene | str | Path,
+        *,
+        negligible_lx: float = NEGLIGIBLE_LX,
+        shadow_offset_m: float = SURFACE_OFFSET_M,
+    ) -> None:
         self.scene = scene if isinstance(scene, Scene) else load_scene(scene)
         self.negligible_lx = negligible_lx
+        #: How far above a surface the shadow rays of :meth:`illuminance_lx` start, m.
+        self.shadow_offset_m = shadow_offset_m
 
     @cached_property
     def scene_sha256(self) -> str:
@@ -175,7 +191,8 @@ class Study:
         lights = luminaire_set(self.scene, s)
         where = f"view {v.name!r}" + (" with --width/--spp" if width_px or samples_per_pixel else "")
         check_render_size(camera.width_px, camera.height_px, spp, lights.n_channels, self.scene.path, where)
-        buffers = cast_view(self.mesh, self.bvh, lights, camera, spp, seed, progress=progress)
+        road = view_road_shading(self.scene, v, self.mesh, self.reflectances)
+        buffers = cast_view(self.mesh, self.bvh, lights, camera, spp, seed, progress=progress, road=road)
         evaluate_light(buffers, lights, self.bvh, negligible_lx=self.negligible_lx, progress=progress)
         return RenderedView(
             v.name, s.name if s else None, camera, buffers, lights, self.colorimetry(buffers, lights, s)
@@ -277,7 +294,14 @@ class Study:
         pts = np.asarray(points_m, np.float64).reshape(-1, 3)
         nrm = np.asarray(normals, np.float64).reshape(-1, 3)
         nrm = nrm / np.linalg.norm(nrm, axis=1, keepdims=True)
-        e = direct_illuminance_lx(pts, nrm, lights, self.bvh if shadows else None, negligible_lx=self.negligible_lx)
+        e = direct_illuminance_lx(
+            pts,
+            nrm,
+            lights,
+            self.bvh if shadows else None,
+            negligible_lx=self.negligible_lx,
+            shadow_offset_m=self.shadow_offset_m,
+        )
         factors, _ = channel_factors(lights, s)
         e = e * factors
         if not per_group:

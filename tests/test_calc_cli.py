@@ -45,7 +45,14 @@ def test_calc_json_fields_equal_the_library(minimal_json):
         np.testing.assert_array_equal(np.array(got[field.name]["illuminance_lx"]), ref.illuminance_lx)
     s = minimal_json["setups"][0]
     assert s["luminance_model"] == "lambertian"
-    assert len(s["luminance"]) == 2  # one observer per lane
+    # One observer per lane and direction of traffic (two-way by default; EN 13201-3, memory).
+    assert len(s["luminance"]) == 4
+    assert sorted((r["observer_lane"], r["direction"]) for r in s["luminance"]) == [
+        ("lane 1", -1),
+        ("lane 1", 1),
+        ("lane 2", -1),
+        ("lane 2", 1),
+    ]
     assert "not a certificate" in minimal_json["caution"]
 
 

@@ -28,6 +28,16 @@ The model, stated once:
   model). The lifetime in hours gives the life in years (lifetime ÷ annual burning hours) and the
   energy over the life.
 
+**A setup's energy** (:func:`setup_energy`): the scene's luminaires are grouped by input power
+and light level. A luminaire's input power is the setup's ``input_watts`` (per group, else for
+all), otherwise its photometric file's input watts; when the setup or the scene sets lumens
+other than the file's rated flux, the file's watts are scaled by lumens/rated flux (constant
+efficacy, labelled so in the result, as an estimate). Its light level over the night is the
+setup's ``schedule`` when given (levels are fractions of the luminaire's full output, so a
+setup that shows the dimmed state keeps the night's real schedule), otherwise the setup's
+dimming all night. Luminaires whose power is unknown leave the setup's energy "not computed",
+with the reason.
+
 References
 ----------
 - ANSI/IESNA LM-63-2002 and IES LM-63-2019: input watts and ballast factor of a photometric
@@ -57,7 +67,10 @@ __all__ = [
     "EnergyDifference",
     "EnergyInputs",
     "EnergyResult",
+    "LuminairePower",
+    "SetupEnergy",
     "annual_energy",
+    "setup_energy",
     "energy_difference",
     "input_watts",
     "mean_power_fraction",
@@ -269,4 +282,114 @@ def energy_difference(before: EnergyResult, option: EnergyResult) -> EnergyDiffe
         annual_cost=option.annual_cost - before.annual_cost,
         annual_co2_kg=option.annual_co2_kg - before.annual_co2_kg,
         relative=d / before.annual_kwh if before.annual_kwh > 0.0 else None,
+    )
+
+
+@dataclass(frozen=True)
+class LuminairePower:
+    """Luminaires of one setup that draw the same power at the same light level."""
+
+    group: str
+    count: int
+    input_watts_w: float
+    watts_source: str  # "setup", "photometric file" or "photometric file scaled to lumens"
+    dimming: float  # the light level without a schedule
+    maintenance_factor: float = 1.0
+
+
+@dataclass(frozen=True)
+class SetupEnergy:
+    """A setup's annual energy: one :class:`EnergyResult` per :class:`LuminairePower` part and
+    their sums (cost in ``currency``, CO₂ in kg)."""
+
+    setup: str | None
+    parts: tuple[LuminairePower, ...]
+    results: tuple[EnergyResult, ...]
+    annual_kwh: float
+    annual_cost: float
+    currency: str
+    annual_co2_kg: float
+    installed_watts_w: float
+    lifetime_years: float | None
+
+    def to_json(self) -> dict[str, Any]:
+        return {
+            "setup": self.setup,
+            "parts": [asdict(p) for p in self.parts],
+            "results": [r.to_json() for r in self.results],
+            "annual_kwh": self.annual_kwh,
+            "annual_cost": self.annual_cost,
+            "currency": self.currency,
+            "annual_co2_kg": self.annual_co2_kg,
+            "installed_watts_w": self.installed_watts_w,
+            "lifetime_years": self.lifetime_years,
+        }
+
+    def as_result(self) -> EnergyResult:
+        """The sums as one :class:`EnergyResult` (for :func:`energy_difference`)."""
+        first = self.results[0]
+        return EnergyResult(
+            inputs=first.inputs,
+            mean_power_fraction=first.mean_power_fraction,
+            lifetime_power_fraction=first.lifetime_power_fraction,
+            annual_kwh_per_luminaire=self.annual_kwh / max(1, sum(p.count for p in self.parts)),
+            annual_kwh=self.annual_kwh,
+            annual_cost=self.annual_cost,
+            annual_co2_kg=self.annual_co2_kg,
+            lifetime_years=self.lifetime_years,
+            lifetime_kwh_per_luminaire=None,
+        )
+
+
+def setup_energy(
+    parts: Sequence[LuminairePower],
+    schedule_steps: Sequence[tuple[float, float, float]],
+    *,
+    setup: str | None = None,
+    annual_burning_hours_h: float = DEFAULT_ANNUAL_BURNING_HOURS,
+    night_hours: float = DEFAULT_NIGHT_HOURS,
+    tariff_per_kwh: float = 0.0,
+    currency: str = "",
+    grid_factor_kg_per_kwh: float = 0.0,
+    lifetime_h: float | None = None,
+    constant_light_output: bool = False,
+    minimum_power_fraction: float = 0.0,
+    source: str = "energy",
+) -> SetupEnergy:
+    """The annual energy of a setup's luminaire parts (model in the module text): with
+    ``schedule_steps`` every part follows that schedule, otherwise its own dimming all night."""
+    if not parts:
+        raise input_error(source, "luminaires", "no luminaires: nothing draws power")
+    results = []
+    for part in parts:
+        steps = (
+            list(schedule_steps) if schedule_steps else ([(0.0, night_hours, part.dimming)] if part.dimming < 1 else [])
+        )
+        schedule = DimmingSchedule.from_tuples(steps, night_hours, minimum_power_fraction, source=source)
+        results.append(
+            annual_energy(
+                EnergyInputs(
+                    input_watts_w=part.input_watts_w,
+                    n_luminaires=part.count,
+                    schedule=schedule,
+                    annual_burning_hours_h=annual_burning_hours_h,
+                    tariff_per_kwh=tariff_per_kwh,
+                    grid_factor_kg_per_kwh=grid_factor_kg_per_kwh,
+                    maintenance_factor=part.maintenance_factor,
+                    constant_light_output=constant_light_output,
+                    lifetime_h=lifetime_h,
+                ),
+                source,
+            )
+        )
+    return SetupEnergy(
+        setup=setup,
+        parts=tuple(parts),
+        results=tuple(results),
+        annual_kwh=sum(r.annual_kwh for r in results),
+        annual_cost=sum(r.annual_cost for r in results),
+        currency=currency,
+        annual_co2_kg=sum(r.annual_co2_kg for r in results),
+        installed_watts_w=sum(p.input_watts_w * p.count for p in parts),
+        lifetime_years=results[0].lifetime_years,
     )

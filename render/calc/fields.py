@@ -275,7 +275,9 @@ def semicylindrical_illuminance_lx(
     s = study.setup(setup)
     lights = study.lights(s)
     up = np.tile([0.0, 0.0, 1.0], (n, 1))
-    pairs = direct_pairs(pts, up, lights, study.bvh, negligible_lx=study.negligible_lx)
+    pairs = direct_pairs(
+        pts, up, lights, study.bvh, negligible_lx=study.negligible_lx, shadow_offset_m=study.shadow_offset_m
+    )
     u = pairs.direction
     keep = ~pairs.blocked & (u[:, 2] > 0)
     u = u[keep]

@@ -8,20 +8,31 @@ and the footways) and computes
   (:func:`render.calc.fields.evaluate_field`);
 * on footways, the semicylindrical and vertical illuminance at 1.5 m facing both ways along the
   street (:func:`render.calc.fields.evaluate_face_field`);
-* the road luminance seen by the standard observer from each lane's centre
-  (:func:`render.calc.road.evaluate_luminance_field`): from the user's r-table when one is
-  given, otherwise Lambertian with the carriageway material's photometric reflectance under
-  the setup's first lamp (labelled ``"lambertian"``);
-* the threshold increment per lane (:func:`render.calc.ti.threshold_increment`, the largest
-  over the observer's positions) with the lane's average luminance, and its maximum over lanes;
-* the direct upward flux of all the setup's luminaires (:func:`render.calc.sky.direct_upward_flux_lm`)
-  and that flux per metre of the modelled street (light reflected upward is not included here);
+* the edge illuminance ratio on both sides of the carriageway (:mod:`render.calc.edge`);
+* the road luminance seen by the standard observer from each lane's centre, for both directions
+  of traffic on a two-way street (``[calc] traffic``)
+  (:func:`render.calc.road.evaluate_luminance_field`): from the r-table when one is given
+  (``[street] r_table`` or the command line), otherwise Lambertian with the carriageway
+  material's photometric reflectance under the setup's first lamp (labelled ``"lambertian"``);
+* the threshold increment per lane and direction (:func:`render.calc.ti.threshold_increment`,
+  the largest over the observer's positions) with that observer's average luminance;
+* the worst observer (:func:`render.calc.ti.road_worst_case`): lowest L̄, U0 and Ul and highest
+  TI over lanes and directions, the figures a class check uses;
+* obtrusive light on the frontages' facades (:mod:`render.calc.obtrusive`) against the limits
+  of ``[calc]``;
+* light to the sky (:mod:`render.calc.sky`): the luminaires' direct upward flux, the light the
+  lit ground reflects upward, both per metre of street, the Rayleigh- and scotopic-weighted
+  figures relative to the first setup (the "before"), and the notch-filterable share;
+* energy (:func:`render.calc.energy.setup_energy`) from the setups' input watts and schedules
+  and ``[energy]``, and its difference from the first setup;
 * with a lighting class, the class check (:func:`render.calc.classes.check_class`) of the
   figures the class's series refers to: for M classes the luminance figures (L̄, U0 and Ul of
-  luminance, TI; the worst observer position), otherwise the carriageway's illuminance (Ē,
-  Emin and U0 over all its lanes).
+  luminance, TI; the worst observer) and the edge ratio, otherwise the carriageway's illuminance
+  (Ē, Emin and U0 over all its lanes), mesopic per CIE 191 where asked (P classes).
 
-Energy figures need inputs the scene does not hold yet and are not part of the run.
+The calculation sees the street, the frontages, the markings, the luminaires and their columns,
+and of the scene's objects only those ``[calc] include_objects`` names (default none: the empty
+road the standard's calculation assumes; parked cars would otherwise shadow grid points).
 
 Caution: a design check for discussion, not a certificate; verify against the current
 edition and local codes.
@@ -30,28 +41,61 @@ References
 ----------
 EN 13201-3:2015 and CIE 140-2000 (fields, luminance, TI) and EN 13201-2:2015 (classes): see
 :mod:`render.calc.fields`, :mod:`render.calc.road`, :mod:`render.calc.ti` and
-:mod:`render.calc.classes`.
+:mod:`render.calc.classes`. EN 13201-5:2015 (energy): see :mod:`render.calc.energy`.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from render.calc.classes import CAUTION, ClassCheck, ClassFigures, LightingClass, check_class
+from render.calc.classes import CAUTION, ClassCheck, ClassFigures, LightingClass, check_class, lighting_classes
+from render.calc.edge import EdgeResult, edge_illuminance_ratio
+from render.calc.energy import EnergyDifference, LuminairePower, SetupEnergy, energy_difference, setup_energy
 from render.calc.fields import FaceResult, FieldResult, evaluate_face_field, evaluate_field, row_fields
+from render.calc.obtrusive import ObtrusiveLimits, ObtrusiveResult, evaluate_obtrusive, facade_fields
 from render.calc.road import LuminanceResult, evaluate_luminance_field
-from render.calc.sky import direct_upward_flux_lm, photometric_reflectance
-from render.calc.ti import DEFAULT_AGE_YEARS, TIResult, threshold_increment
-from render.light.luminaires import channel_factors
-from render.light.rtable import RTable
+from render.calc.sky import (
+    SkyFigures,
+    SkyGlowRelative,
+    ground_patches,
+    notch_filterable_fraction,
+    photometric_reflectance,
+    sky_figures,
+    sky_glow_relative,
+    upward_flux_lm,
+)
+from render.calc.ti import DEFAULT_AGE_YEARS, RoadWorstCase, TIResult, road_worst_case, threshold_increment
+from render.errors import did_you_mean, input_error
+from render.light.luminaires import channel_factors, setting_for
+from render.light.rtable import RTable, read_r_table
+from render.scene.model import EnergySettings, Scene
 
 if TYPE_CHECKING:
     from render.study import Study
 
-__all__ = ["CalculationReport", "Headline", "SetupCalculation", "run_calculation", "setup_calculation"]
+__all__ = [
+    "CalcOptions",
+    "CalculationReport",
+    "Headline",
+    "SetupCalculation",
+    "calc_options",
+    "calc_study",
+    "run_calculation",
+    "setup_calculation",
+]
+
+#: Start of the calculation's shadow rays above the point's surface, m: road markings lie 2 mm
+#: proud of the carriageway (render.geometry.build.MARKING_LIFT_M) and must not shadow the
+#: points beneath them; anything thinner than this above a point is not an obstacle (own
+#: choice; the points stay where they are, only the shadow test starts higher).
+CALC_SHADOW_OFFSET_M = 0.01
+
+#: Patch size of the lit ground whose reflected light goes to the sky, m (own choice; the
+#: figure changes by well under 1 % between 0.5 m and 1 m patches on the demo street).
+GROUND_PATCH_M = 1.0
 
 
 @dataclass(frozen=True)
@@ -65,54 +109,207 @@ class Headline:
 
 
 @dataclass(frozen=True)
+class CalcOptions:
+    """Everything a calculation depends on besides the scene's geometry and setups: the scene's
+    ``[calc]`` and ``[energy]`` with the command line's overrides (:func:`calc_options`)."""
+
+    lighting_class: LightingClass | None = None
+    r_table: RTable | None = None
+    q0_sr: float | None = None
+    age_years: float = DEFAULT_AGE_YEARS
+    traffic: str = "two-way"
+    include_objects: tuple[str, ...] = ()
+    mesopic: bool = False
+    facade_heights_m: tuple[float, ...] = (1.5, 4.5)
+    facade_spacing_m: float = 3.0
+    obtrusive_limits: ObtrusiveLimits = field(default_factory=ObtrusiveLimits)
+    energy: EnergySettings = field(default_factory=EnergySettings)
+
+    @property
+    def directions(self) -> tuple[int, ...]:
+        """Directions of traffic the observers look in (+1 along +x, −1 along −x)."""
+        return (1, -1) if self.traffic == "two-way" else (1,)
+
+    def to_json(self) -> dict[str, Any]:
+        """The options as plain JSON types (the class and r-table by name)."""
+        return {
+            "lighting_class": self.lighting_class.name if self.lighting_class is not None else None,
+            "r_table": self.r_table.source if self.r_table is not None else None,
+            "q0_sr": self.q0_sr,
+            "age_years": self.age_years,
+            "traffic": self.traffic,
+            "include_objects": list(self.include_objects),
+            "mesopic": self.mesopic,
+            "facade_heights_m": list(self.facade_heights_m),
+            "facade_spacing_m": self.facade_spacing_m,
+            "max_facade_illuminance_lx": self.obtrusive_limits.max_vertical_lx,
+            "max_intensity_toward_windows_cd": self.obtrusive_limits.max_intensity_cd,
+            "energy": dict(vars(self.energy)),
+        }
+
+
+_UNSET: Any = object()
+
+
+def calc_options(
+    scene: Scene,
+    *,
+    lighting_class: str | None = _UNSET,
+    classes_file: str | None = None,
+    r_table_file: str | None = None,
+    q0_sr: float | None = None,
+    age_years: float | None = None,
+    traffic: str | None = None,
+    include_objects: tuple[str, ...] | str | None = None,
+    mesopic: bool | None = None,
+) -> CalcOptions:
+    """The scene's ``[calc]``, ``[energy]`` and ``[street]`` r-table with the given overrides
+    (``None``: the scene's value; ``include_objects`` may be ``"all"``; ``lighting_class``
+    given as ``None`` turns the class check off). Unknown class or object names are an
+    :class:`~render.errors.InputError` naming the option."""
+    c = scene.calc
+    where = "command line"
+    classes_path = classes_file if classes_file is not None else c.classes_file
+    name = c.lighting_class if lighting_class is _UNSET else lighting_class
+    cls = None
+    if name is not None:
+        classes = lighting_classes(classes_path)
+        if name not in classes:
+            source, key = (scene.path, "calc.lighting_class") if lighting_class is _UNSET else (where, "--class")
+            raise input_error(
+                source,
+                key,
+                f"no lighting class {name!r}{did_you_mean(name, list(classes))}; classes: {', '.join(classes)}",
+            )
+        cls = classes[name]
+    street = scene.street
+    table = None
+    q0 = q0_sr
+    if r_table_file is not None:
+        table = read_r_table(r_table_file)
+    elif street is not None and street.r_table_file is not None:
+        table = read_r_table(street.r_table_file)
+        q0 = q0 if q0 is not None else street.q0_sr
+    names = [o.tag.name for o in scene.objects]
+    if include_objects is None:
+        chosen = c.include_objects
+    elif include_objects == "all":
+        chosen = tuple(names)
+    else:
+        chosen = tuple(include_objects)
+        for n in chosen:
+            if n not in names:
+                raise input_error(where, "--include-objects", f"no object named {n!r}{did_you_mean(n, names)}")
+    return CalcOptions(
+        lighting_class=cls,
+        r_table=table,
+        q0_sr=q0,
+        age_years=age_years if age_years is not None else c.observer_age_years,
+        traffic=traffic if traffic is not None else c.traffic,
+        include_objects=chosen,
+        mesopic=mesopic if mesopic is not None else c.mesopic,
+        facade_heights_m=c.facade_heights_m,
+        facade_spacing_m=c.facade_spacing_m,
+        obtrusive_limits=ObtrusiveLimits(c.max_facade_illuminance_lx, c.max_intensity_toward_windows_cd),
+        energy=scene.energy,
+    )
+
+
+def calc_study(study: Study, include_objects: tuple[str, ...]) -> Study:
+    """The study the calculation uses: the scene with only the named objects (the street,
+    frontages, markings and luminaires stay) and shadow rays starting
+    :data:`CALC_SHADOW_OFFSET_M` above the points; with every object included it shares
+    ``study``'s compiled geometry."""
+    from render.study import Study
+
+    keep = set(include_objects)
+    objects = [o for o in study.scene.objects if o.tag.name in keep]
+    same = len(objects) == len(study.scene.objects)
+    used = Study(
+        study.scene if same else replace(study.scene, objects=objects),
+        negligible_lx=study.negligible_lx,
+        shadow_offset_m=CALC_SHADOW_OFFSET_M,
+    )
+    if same:
+        for name in ("mesh", "bvh", "reflectances"):
+            if name in study.__dict__:
+                used.__dict__[name] = study.__dict__[name]
+    return used
+
+
+@dataclass(frozen=True)
 class SetupCalculation:
     """The figures of one setup (``setup`` None: the scene's own lamps)."""
 
     setup: str | None
     fields: tuple[FieldResult, ...]
     faces: tuple[FaceResult, ...]
-    luminance: tuple[LuminanceResult, ...]
+    edge: tuple[EdgeResult, ...]
+    luminance: tuple[LuminanceResult, ...]  # every lane × direction
     luminance_model: str  # "r-table" or "lambertian"
     road_reflectance: float | None  # photometric reflectance of the Lambertian model
-    ti: tuple[TIResult, ...]
-    ti_max_percent: float | None
-    direct_upward_lm: float
-    street_length_m: float
-    direct_upward_lm_per_m: float
+    ti: tuple[TIResult, ...]  # every lane × direction
+    worst: RoadWorstCase | None
+    obtrusive: tuple[ObtrusiveResult, ...]
+    sky: SkyFigures
+    sky_relative: SkyGlowRelative | None  # to the first setup of the run (None for that one)
+    energy: SetupEnergy | None
+    energy_note: str  # why energy is not computed ("" when it is)
+    energy_vs_before: EnergyDifference | None
     class_check: ClassCheck | None
+
+    @property
+    def ti_max_percent(self) -> float | None:
+        """The highest TI over every observer."""
+        return self.worst.ti_percent if self.worst is not None else None
+
+    @property
+    def direct_upward_lm(self) -> float:
+        return self.sky.direct_upward_lm
 
     def carriageway_figures(self, series: str = "P") -> ClassFigures:
         """The figures a class check of ``series`` compares (see the module text)."""
         lanes = [f for f in self.fields if f.name.startswith("lane ")]
         grid = np.concatenate([f.illuminance_lx.ravel() for f in lanes])
         mean = float(grid.mean())
-        lum = self.luminance
+        w = self.worst
         return ClassFigures(
-            mean_luminance_cd_m2=min(r.mean_cd_m2 for r in lum) if lum else None,
+            mean_luminance_cd_m2=w.mean_cd_m2 if w is not None else None,
             mean_illuminance_lx=mean,
             min_illuminance_lx=float(grid.min()),
             overall_uniformity=(
-                (min(r.u0 for r in lum) if lum else None)
-                if series == "M"
-                else (float(grid.min()) / mean if mean > 0 else 0.0)
+                (w.u0 if w is not None else None) if series == "M" else (float(grid.min()) / mean if mean > 0 else 0.0)
             ),
-            longitudinal_uniformity=min(r.ul for r in lum) if lum else None,
+            longitudinal_uniformity=w.ul if w is not None else None,
             threshold_increment_pct=self.ti_max_percent,
+            edge_illuminance_ratio=min((e.ratio for e in self.edge), default=None),
         )
 
     def headline(self) -> tuple[Headline, ...]:
         """The setup's headline figures, in a fixed order (the same keys for every setup)."""
         figures = self.carriageway_figures("P")
-        lum = self.luminance
+        w = self.worst
+        e = self.energy
+        rel = self.sky_relative
+        facade = max((o.max_vertical_lx for o in self.obtrusive), default=None)
+        toward = max((o.max_intensity_cd for o in self.obtrusive), default=None)
         return (
             Headline("carriageway_mean_lx", "carriageway Ē", "lx", figures.mean_illuminance_lx),
             Headline("carriageway_min_lx", "carriageway Emin", "lx", figures.min_illuminance_lx),
             Headline("carriageway_u0", "carriageway U0 (E)", "", figures.overall_uniformity),
             Headline("road_mean_cd_m2", "road L̄ (worst observer)", "cd/m²", figures.mean_luminance_cd_m2),
-            Headline("road_u0", "road U0 (L)", "", min(r.u0 for r in lum) if lum else None),
-            Headline("road_ul", "road Ul", "", figures.longitudinal_uniformity),
+            Headline("road_u0", "road U0 (L, worst)", "", w.u0 if w is not None else None),
+            Headline("road_ul", "road Ul (worst)", "", figures.longitudinal_uniformity),
             Headline("ti_max_percent", "TI (worst)", "%", self.ti_max_percent),
-            Headline("direct_upward_lm", "direct upward flux", "lm", self.direct_upward_lm),
+            Headline("edge_ratio", "edge ratio R_EI (lower side)", "", figures.edge_illuminance_ratio),
+            Headline("facade_max_lx", "facade E_v (highest)", "lx", facade),
+            Headline("window_intensity_max_cd", "intensity toward windows (highest)", "cd", toward),
+            Headline("upward_lm_per_m", "upward flux per metre", "lm/m", self.sky.upward_lm_per_m),
+            Headline(
+                "rayleigh_relative", "Rayleigh-weighted upward, relative", "", rel.rayleigh_weighted if rel else None
+            ),
+            Headline("annual_kwh", "annual energy", "kWh/year", e.annual_kwh if e is not None else None),
+            Headline("annual_co2_kg", "annual CO₂", "kg/year", e.annual_co2_kg if e is not None else None),
         )
 
     def to_json(self) -> dict[str, Any]:
@@ -122,42 +319,132 @@ class SetupCalculation:
             "headline": {h.key: h.value for h in self.headline()},
             "fields": [f.to_json() for f in self.fields],
             "faces": [f.to_json() for f in self.faces],
+            "edge": [e.to_json() for e in self.edge],
             "luminance_model": self.luminance_model,
             "road_reflectance": self.road_reflectance,
             "luminance": [r.to_json() for r in self.luminance],
             "ti": [t.to_json() for t in self.ti],
-            "ti_max_percent": self.ti_max_percent,
-            "direct_upward_lm": self.direct_upward_lm,
-            "street_length_m": self.street_length_m,
-            "direct_upward_lm_per_m": self.direct_upward_lm_per_m,
+            "worst_observer": self.worst.to_json() if self.worst is not None else None,
+            "obtrusive": [o.to_json() for o in self.obtrusive],
+            "sky": self.sky.to_json(),
+            "sky_relative_to_before": self.sky_relative.to_json() if self.sky_relative is not None else None,
+            "energy": self.energy.to_json() if self.energy is not None else None,
+            "energy_note": self.energy_note,
+            "energy_vs_before": self.energy_vs_before.to_json() if self.energy_vs_before is not None else None,
             "class_check": self.class_check.to_json() if self.class_check is not None else None,
         }
 
 
 @dataclass(frozen=True)
 class CalculationReport:
-    """The calculation of a scene for several setups, with the standing caution."""
+    """The calculation of a scene for several setups (the first is the "before" the others are
+    compared with), the options used, and the standing caution."""
 
     scene: str
     setups: tuple[SetupCalculation, ...]
-    lighting_class: str | None
-    r_table: str | None
-    q0_sr: float | None
-    age_years: float
+    options: CalcOptions
     caution: str = CAUTION
+
+    @property
+    def lighting_class(self) -> str | None:
+        return self.options.lighting_class.name if self.options.lighting_class is not None else None
+
+    @property
+    def age_years(self) -> float:
+        return self.options.age_years
 
     def to_json(self) -> dict[str, Any]:
         """The report as plain JSON types."""
         return {
             "scene": self.scene,
-            "lighting_class": self.lighting_class,
-            "r_table": self.r_table,
-            "q0_sr": self.q0_sr,
-            "age_years": self.age_years,
-            "energy": "not computed: the scene holds no energy inputs",
+            "before": self.setups[0].setup if self.setups else None,
+            "options": self.options.to_json(),
             "setups": [s.to_json() for s in self.setups],
             "caution": self.caution,
         }
+
+
+def _sky(study: Study, lights, setup, reflect_lx: dict[str, np.ndarray], patches, length_m: float) -> SkyFigures:
+    """Direct and reflected upward flux per lamp of the setup (module text of render.calc.sky)."""
+    from render.colour.lamps import get_lamp
+    from render.colour.materials import get_material, material_library
+
+    factors, lamps = channel_factors(lights, setup)
+    order = list(dict.fromkeys(lamps))
+    direct = dict.fromkeys(order, 0.0)
+    tilts = [lum.tilt_deg for lum in study.scene.luminaires]
+    cache: dict[tuple[int, float], float] = {}
+    for k in range(lights.n_luminaires):
+        p = lights.photometries[int(lights.table[k])]
+        key = (int(lights.table[k]), float(tilts[k]))
+        if key not in cache:
+            cache[key] = upward_flux_lm(p, tilts[k])
+        ch = int(lights.channel[k])
+        direct[lamps[ch]] += float(lights.scale[k]) * float(factors[ch]) * cache[key]
+    library = material_library()
+    reflect = [get_material(m, library, source=str(study.scene.path)).reflectance for m in patches.materials]
+    spds = dict(zip(order, study.lamp_spds(order), strict=True))
+    reflected = dict.fromkeys(order, 0.0)
+    group_lamp = {ch.group: lamps[i] for i, ch in enumerate(lights.channels)}
+    for group, e in reflect_lx.items():
+        lamp = group_lamp[group]
+        rho = np.array([photometric_reflectance(r, spds[lamp]) for r in reflect])[patches.material_index]
+        reflected[lamp] += float(np.sum(rho * e * patches.area_m2))
+    base = study.scene.base_dir
+    notch = [notch_filterable_fraction(get_lamp(ref, base_dir=base, source=str(study.scene.path))) for ref in order]
+    return sky_figures(
+        [direct[r] for r in order], [reflected[r] for r in order], [spds[r] for r in order], length_m, notch
+    )
+
+
+def _energy(study: Study, lights, setup) -> tuple[SetupEnergy | None, str]:
+    """The setup's energy, or None and the reason."""
+    from render.light.photometry import load_photometry
+
+    scene = study.scene
+    settings = scene.energy
+    parts: dict[tuple, int] = {}
+    missing: list[str] = []
+    for lum in scene.luminaires:
+        s = setting_for(setup, lum.group)
+        dimming = s.dimming if s.dimming is not None else lum.dimming
+        if s.input_watts is not None:
+            watts, source = float(s.input_watts), "setup"
+        else:
+            ref = s.photometry or lum.photometry
+            p = load_photometry(ref, base_dir=scene.base_dir, allowed_root=scene.reference_root)
+            if not (np.isfinite(p.input_watts) and p.input_watts > 0):
+                missing.append(lum.group)
+                continue
+            watts, source = float(p.input_watts), "photometric file"
+            lumens = s.lumens if s.lumens is not None else lum.lumens
+            rated = p.rated_lumens_lm if not p.is_absolute else None
+            if lumens is not None and rated and abs(lumens - rated) > 1e-6 * rated:
+                watts, source = watts * lumens / rated, "photometric file scaled to lumens"
+        key = (lum.group, watts, source, float(dimming), float(lum.maintenance_factor))
+        parts[key] = parts.get(key, 0) + 1
+    if missing:
+        groups = ", ".join(sorted(set(missing)))
+        return None, (
+            f"not computed: no input watts for the luminaires of group(s) {groups} "
+            "(give input_watts in the setup, or use a photometric file that states them)"
+        )
+    e = settings
+    result = setup_energy(
+        [LuminairePower(g, n, w, src, d, mf) for (g, w, src, d, mf), n in parts.items()],
+        setup.schedule if setup is not None else (),
+        setup=setup.name if setup is not None else None,
+        annual_burning_hours_h=e.annual_burning_hours_h,
+        night_hours=e.night_hours,
+        tariff_per_kwh=e.tariff_per_kwh,
+        currency=e.currency,
+        grid_factor_kg_per_kwh=e.grid_factor_kg_per_kwh,
+        lifetime_h=e.lifetime_h,
+        constant_light_output=e.constant_light_output,
+        minimum_power_fraction=e.minimum_power_fraction,
+        source=str(scene.path),
+    )
+    return result, ""
 
 
 def _road_reflectance(study: Study, setup) -> float:
@@ -172,19 +459,32 @@ def _road_reflectance(study: Study, setup) -> float:
     return photometric_reflectance(material.reflectance, spd)
 
 
-def setup_calculation(
-    study: Study,
-    setup: str | None = None,
-    *,
-    lighting_class: LightingClass | None = None,
-    r_table: RTable | None = None,
-    q0_sr: float | None = None,
-    age_years: float = DEFAULT_AGE_YEARS,
-) -> SetupCalculation:
-    """The figures of one setup (the module text lists them)."""
+def _s_p_ratio(study: Study, lights, setup, lanes) -> float:
+    """S/P ratio of the light on the carriageway: Σ_g SP_g·E_g / Σ_g E_g over the groups."""
+    from render.colour.observers import sp_ratio
+
+    pts = np.concatenate([f.points_m for f in lanes])
+    nrm = np.concatenate([f.normals for f in lanes])
+    per_group = study.illuminance_lx(pts, nrm, setup, per_group=True)
+    _, lamps = channel_factors(lights, setup)
+    group_lamp = {ch.group: lamps[i] for i, ch in enumerate(lights.channels)}
+    weights = {g: float(np.mean(e)) for g, e in per_group.items()}
+    total = sum(weights.values())
+    if total <= 0:
+        return float(sp_ratio(study.lamp_spds([lamps[0]])[0]))
+    return sum(w * float(sp_ratio(study.lamp_spds([group_lamp[g]])[0])) for g, w in weights.items()) / total
+
+
+def setup_calculation(study: Study, setup: str | None = None, options: CalcOptions | None = None) -> SetupCalculation:
+    """The figures of one setup (the module text lists them) on ``study`` as given (see
+    :func:`calc_study` for leaving out the scene's objects)."""
+    opts = options if options is not None else CalcOptions()
     s = study.setup(setup)
     lights = study.lights(s)
-    fields = row_fields(study.scene)
+    scene = study.scene
+    street = scene.street
+    fields = row_fields(scene)
+    assert street is not None
     results = tuple(evaluate_field(study, f, s) for f in fields)
     faces = tuple(
         evaluate_face_field(study, f, s, facing=facing)
@@ -193,64 +493,84 @@ def setup_calculation(
         for facing in ((1.0, 0.0, 0.0), (-1.0, 0.0, 0.0))
     )
     lanes = [f for f in fields if f.name.startswith("lane ")]
-    reflectance = None if r_table is not None else _road_reflectance(study, s)
-    luminance = tuple(evaluate_luminance_field(lights, lanes, s, r_table, reflectance, q0_sr))
-    ti = tuple(
-        threshold_increment(lights, lane, r.mean_cd_m2, s, age_years)
-        for lane, r in zip(lanes, luminance, strict=True)
-        if r.mean_cd_m2 > 0
+    x0 = float(min(f.points_m[:, 0].min() - f.spacing_m[0] / 2 for f in lanes))
+    spacing = float(lanes[0].shape[0] * lanes[0].spacing_m[0])
+    edge = tuple(edge_illuminance_ratio(study, street, x0, spacing, s))
+    reflectance = None if opts.r_table is not None else _road_reflectance(study, s)
+    luminance: list[LuminanceResult] = []
+    ti: list[TIResult] = []
+    for direction in opts.directions:
+        lum = evaluate_luminance_field(lights, lanes, s, opts.r_table, reflectance, opts.q0_sr, direction=direction)
+        luminance.extend(lum)
+        ti.extend(
+            threshold_increment(lights, lane, r.mean_cd_m2, s, opts.age_years, direction=direction)
+            for lane, r in zip(lanes, lum, strict=True)
+            if r.mean_cd_m2 > 0
+        )
+    worst = road_worst_case(luminance, ti) if luminance else None
+    obtrusive = ()
+    if scene.frontages:
+        obtrusive = tuple(
+            evaluate_obtrusive(study, f, s, opts.obtrusive_limits)
+            for f in facade_fields(scene, spacing_m=opts.facade_spacing_m, heights_m=opts.facade_heights_m)
+            if f.points_m.size
+        )
+    patches = ground_patches(street, GROUND_PATCH_M)
+    ground_lx = study.illuminance_lx(
+        patches.points_m, np.tile([0.0, 0.0, 1.0], (len(patches.area_m2), 1)), s, per_group=True
     )
-    factors, _ = channel_factors(lights, s)
-    tilts = [lum.tilt_deg for lum in study.scene.luminaires]
-    if len(tilts) != lights.n_luminaires:
-        raise RuntimeError("the luminaire set does not follow the scene's luminaires")
-    upward = direct_upward_flux_lm(
-        [lights.photometries[int(t)] for t in lights.table],
-        tilts,
-        [float(lights.scale[k]) * float(factors[int(lights.channel[k])]) for k in range(lights.n_luminaires)],
-    )
-    assert study.scene.street is not None
-    length = float(study.scene.street.length_m)
+    sky = _sky(study, lights, s, ground_lx, patches, float(street.length_m))
+    energy, note = _energy(study, lights, s)
     calc = SetupCalculation(
         setup=s.name if s is not None else None,
         fields=results,
         faces=faces,
-        luminance=luminance,
-        luminance_model="lambertian" if r_table is None else "r-table",
+        edge=edge,
+        luminance=tuple(luminance),
+        luminance_model="lambertian" if opts.r_table is None else "r-table",
         road_reflectance=reflectance,
-        ti=ti,
-        ti_max_percent=max((t.ti_percent for t in ti), default=None),
-        direct_upward_lm=upward,
-        street_length_m=length,
-        direct_upward_lm_per_m=upward / length,
+        ti=tuple(ti),
+        worst=worst,
+        obtrusive=obtrusive,
+        sky=sky,
+        sky_relative=None,
+        energy=energy,
+        energy_note=note,
+        energy_vs_before=None,
         class_check=None,
     )
-    if lighting_class is None:
+    cls = opts.lighting_class
+    if cls is None:
         return calc
-    figures = calc.carriageway_figures(lighting_class.series)
-    return replace(calc, class_check=check_class(lighting_class, figures))
+    figures = calc.carriageway_figures(cls.series)
+    sp = _s_p_ratio(study, lights, s, lanes) if opts.mesopic and cls.series == "P" else None
+    return replace(calc, class_check=check_class(cls, figures, s_p_ratio=sp))
 
 
-def run_calculation(
-    study: Study,
-    setups: list[str | None],
-    *,
-    lighting_class: LightingClass | None = None,
-    r_table: RTable | None = None,
-    q0_sr: float | None = None,
-    age_years: float = DEFAULT_AGE_YEARS,
-) -> CalculationReport:
-    """The calculation of every setup in ``setups`` (``None``: the scene's own lamps)."""
-    return CalculationReport(
-        scene=str(study.scene.path),
-        setups=tuple(
-            setup_calculation(
-                study, s, lighting_class=lighting_class, r_table=r_table, q0_sr=q0_sr, age_years=age_years
-            )
-            for s in setups
-        ),
-        lighting_class=lighting_class.name if lighting_class is not None else None,
-        r_table=r_table.source if r_table is not None else None,
-        q0_sr=q0_sr,
-        age_years=age_years,
-    )
+def run_calculation(study: Study, setups: list[str | None], options: CalcOptions | None = None) -> CalculationReport:
+    """The calculation of every setup in ``setups`` (``None``: the scene's own lamps); the first
+    is the "before" the others' sky-glow and energy are compared with. ``options`` default to
+    the scene's own (:func:`calc_options`)."""
+    opts = options if options is not None else calc_options(study.scene)
+    if opts.mesopic and opts.lighting_class is not None and opts.lighting_class.series != "P":
+        raise input_error(
+            "calculation options",
+            "mesopic",
+            f"the mesopic adjustment (CIE 191) applies to P classes, not to {opts.lighting_class.name}",
+        )
+    used = calc_study(study, opts.include_objects)
+    out = [setup_calculation(used, s, opts) for s in setups]
+    first = out[0] if out else None
+    for i in range(1, len(out)):
+        c = out[i]
+        assert first is not None
+        out[i] = replace(
+            c,
+            sky_relative=sky_glow_relative(first.sky, c.sky),
+            energy_vs_before=(
+                energy_difference(first.energy.as_result(), c.energy.as_result())
+                if first.energy is not None and c.energy is not None
+                else None
+            ),
+        )
+    return CalculationReport(scene=str(study.scene.path), setups=tuple(out), options=opts)

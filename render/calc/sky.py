@@ -13,6 +13,13 @@
   photometric reflectance ρ emits ρ·E·A lm; a patch whose normal has upward component n_z sends
   the share (1 + n_z)/2 of it into the upper hemisphere (the view factor of a tilted plane to the
   sky; 1 for a horizontal patch facing up, ½ for a wall). No interreflection is followed.
+* **Lit ground** (:func:`ground_patches`): the street's ground from building line to building
+  line over its length (carriageway, kerb tops, verges, footways, front gardens), cut into
+  patches about ``spacing_m`` square, each with its area and material; the setup's direct
+  illuminance at the patch centres (with shadows) times the material's photometric reflectance
+  under the lamp lighting it gives the reflected upward flux. Facades and objects are left out
+  (a wall sends half its reflected light up; house fronts receive far less light than the
+  ground), so the figure is a lower bound, stated so.
 * **Photometric reflectance** of a material under a lamp: ρ_v = Σ ρ(λ) s(λ) V(λ) / Σ s(λ) V(λ).
 * **Sky-glow weighting**: the upward lumens of each lamp times a per-lumen spectral weight,
   relative to the before setup. Two weightings, both stated as *indicators*, not a sky-glow model:
@@ -53,9 +60,12 @@ from render.colour.observers import photopic_lef, sp_ratio
 from render.colour.spectra import WAVELENGTHS_NM
 from render.light.photometry import intensity_cd, luminaire_rotation, world_to_c_gamma, zonal_flux_lm
 from render.light.photometry.model import Photometry
+from render.scene.model import Street
 
 __all__ = [
     "RAYLEIGH_REFERENCE_NM",
+    "GroundPatches",
+    "ground_patches",
     "SkyFigures",
     "SkyGlowRelative",
     "direct_upward_flux_lm",
@@ -128,6 +138,54 @@ def reflected_upward_flux_lm(
     a = np.asarray(area_m2, dtype=np.float64)
     up = np.ones(1) if normal_z is None else (1.0 + np.clip(np.asarray(normal_z, dtype=np.float64), -1.0, 1.0)) / 2.0
     return float(np.sum(rho * e * a * up))
+
+
+@dataclass(frozen=True)
+class GroundPatches:
+    """Horizontal patches of the street's ground: centres (n, 3), areas (n,) and the index of
+    each patch's material in ``materials``."""
+
+    points_m: np.ndarray
+    area_m2: np.ndarray
+    material_index: np.ndarray
+    materials: tuple[str, ...]
+
+
+def ground_patches(street: Street, spacing_m: float = 1.0) -> GroundPatches:
+    """The street's ground in patches of about ``spacing_m`` (module text): the bands across
+    the street as :mod:`render.geometry.build` lays them, each split into whole cells."""
+    if not (math.isfinite(spacing_m) and spacing_m > 0):
+        raise ValueError(f"patch spacing must be positive, got {spacing_m}")
+    half = 0.5 * street.carriageway_width_m
+    bands: list[tuple[float, float, float, str]] = [(-half, half, 0.0, street.carriageway_material)]
+    for side in ("left", "right"):
+        sign = 1.0 if side == "left" else -1.0
+        s = street.side(side)
+        y = half
+        for width, material in (
+            (street.kerb_width_m, street.kerb_material),
+            (s.verge_width_m, s.verge_material),
+            (s.footway_width_m, s.footway_material),
+            (s.frontage_depth_m, s.frontage_material),
+        ):
+            if width > 0:
+                y0, y1 = sorted((sign * y, sign * (y + width)))
+                bands.append((y0, y1, street.kerb_height_m, material))
+                y += width
+    materials = tuple(dict.fromkeys(b[3] for b in bands))
+    n_x = max(1, math.ceil(street.length_m / spacing_m))
+    dx = street.length_m / n_x
+    xs = dx * (np.arange(n_x) + 0.5)
+    pts, areas, index = [], [], []
+    for y0, y1, z, material in bands:
+        n_y = max(1, math.ceil((y1 - y0) / spacing_m))
+        dy = (y1 - y0) / n_y
+        ys = y0 + dy * (np.arange(n_y) + 0.5)
+        gx, gy = np.meshgrid(xs, ys, indexing="ij")
+        pts.append(np.stack([gx.ravel(), gy.ravel(), np.full(gx.size, z)], axis=1))
+        areas.append(np.full(gx.size, dx * dy))
+        index.append(np.full(gx.size, materials.index(material), np.int64))
+    return GroundPatches(np.concatenate(pts), np.concatenate(areas), np.concatenate(index), materials)
 
 
 def photometric_reflectance(reflectance: npt.ArrayLike, spd: npt.ArrayLike) -> float:

@@ -350,6 +350,7 @@ def direct_pairs(
         np.zeros(0, np.int64), np.zeros(0, np.int64), np.zeros(0), np.zeros((0, 3)), np.zeros(0, np.bool_)
     )
     if n == 0 or lights.n_luminaires == 0:
+    shadow_offset_m: float = SURFACE_OFFSET_M,
         return empty
     act = np.ones(n, np.bool_) if active is None else np.ascontiguousarray(active, np.bool_)
     act = act & np.all(np.isfinite(pts), axis=1)
@@ -405,7 +406,7 @@ def direct_pairs(
         off = nrm if offset_normals is None else np.ascontiguousarray(offset_normals, np.float64).reshape(-1, 3)
         # Offset along the receiving side of the geometric normal.
         side = np.sign(np.einsum("ij,ij->i", off[point], direction))
-        origins = pts[point] + (SURFACE_OFFSET_M * side)[:, None] * off[point]
+        origins = pts[point] + (shadow_offset_m * side)[:, None] * off[point]
         # Trace luminaire by luminaire: consecutive shadow rays from neighbouring points toward
         # one luminaire are coherent, which the packet traversal rewards.
         order = np.argsort(lum, kind="stable")
@@ -435,6 +436,7 @@ def direct_illuminance_lx(
         (N, 3) positions (m) and unit normals of the receiving surface (the side that receives).
     lights
         From :func:`render.light.luminaires.luminaire_set`.
+    shadow_offset_m: float = SURFACE_OFFSET_M,
     bvh
         Occluders for shadow rays (None: no shadows).
     active
@@ -453,6 +455,9 @@ def direct_illuminance_lx(
     n = np.asarray(points_m).reshape(-1, 3).shape[0]
     out = np.zeros((n, lights.n_channels))
     pairs = direct_pairs(
+    shadow_offset_m
+        How far along them shadow rays start (calculation points use a larger offset so that
+        layers a few millimetres proud of a surface, such as road markings, do not shadow it).
         points_m,
         normals,
         lights,
@@ -470,6 +475,7 @@ def direct_illuminance_lx(
 
 # ------------------------------------------------------------------------------------------
 # Luminous openings as geometry
+        shadow_offset_m=shadow_offset_m,
 # ------------------------------------------------------------------------------------------
 
 

@@ -118,6 +118,7 @@ def setting_for(setup: Setup | None, group: str) -> GroupSetting:
         photometry=own.photometry or base.photometry,
         lumens=own.lumens if own.lumens is not None else base.lumens,
         dimming=own.dimming if own.dimming is not None else base.dimming,
+        input_watts=own.input_watts if own.input_watts is not None else base.input_watts,
     )
 
 

@@ -10,6 +10,8 @@ from __future__ import annotations
 import os
 from pathlib import Path
 
+import numpy as np
+
 from render.calc.fields import row_fields
 from render.calc.run import CalculationReport
 from render.fileio import atomic_write_text, file_stem
@@ -22,9 +24,18 @@ def _num(x: float | None, digits: int = 2) -> str:
     return "-" if x is None else f"{x:.{digits}f}"
 
 
+def _way(direction: int) -> str:
+    return "+x" if direction > 0 else "-x"
+
+
 def format_calculation(report: CalculationReport) -> str:
-    """The report as text: per setup, fields, faces, luminance, TI, upward flux and class check."""
-    lines = [f"{report.scene}: calculation (observer age {report.age_years:g} years)"]
+    """The report as text: per setup, fields, faces, edge ratio, luminance and TI per observer,
+    the worst observer, obtrusive light, sky, energy and the class check."""
+    o = report.options
+    objects = (
+        "objects included: " + ", ".join(o.include_objects) if o.include_objects else "an empty road (objects left out)"
+    )
+    lines = [f"{report.scene}: calculation (observer age {o.age_years:g} years, {o.traffic} traffic, {objects})"]
     for s in report.setups:
         lines.append("")
         lines.append(f"setup: {s.setup or '(the scene as given)'}")
@@ -33,29 +44,84 @@ def format_calculation(report: CalculationReport) -> str:
             lines.append(f"  {f.name:<16}{_num(f.mean_lx):>9}{_num(f.min_lx):>9}{_num(f.max_lx):>9}{_num(f.u0):>7}")
         for face in s.faces:
             sc, v = face.semicylindrical_lx, face.vertical_lx
-            way = "+x" if face.facing[0] > 0 else "-x"
             lines.append(
-                f"  {face.name} at {face.height_m:g} m facing {way}: "
+                f"  {face.name} at {face.height_m:g} m facing {_way(int(np.sign(face.facing[0])))}: "
                 f"E_sc mean {sc.mean():.2f} lx, min {sc.min():.2f} lx; E_v mean {v.mean():.2f} lx, min {v.min():.2f} lx"
+            )
+        for e in s.edge:
+            lines.append(
+                f"  edge ratio R_EI {e.side}: {e.ratio:.2f} (outside {e.outside_mean_lx:.2f} lx / "
+                f"inside {e.inside_mean_lx:.2f} lx, strips {e.strip_width_m:g} m)"
             )
         label = s.luminance_model
         if s.road_reflectance is not None:
             label += f", road reflectance {s.road_reflectance:.3f}"
         lines.append(f"  road luminance ({label}):")
-        lines.append(f"  {'observer in':<16}{'L̄ cd/m²':>10}{'U0':>7}{'Ul':>7}{'TI %':>8}")
-        ti = {t.lane: t.ti_percent for t in s.ti}
+        lines.append(f"  {'observer in':<16}{'looking':>8}{'L̄ cd/m²':>10}{'U0':>7}{'Ul':>7}{'TI %':>8}")
+        ti = {(t.lane, t.direction): t.ti_percent for t in s.ti}
         for r in s.luminance:
             lines.append(
-                f"  {r.observer_lane:<16}{_num(r.mean_cd_m2, 3):>10}{_num(r.u0):>7}{_num(r.ul):>7}"
-                f"{_num(ti.get(r.observer_lane), 1):>8}"
+                f"  {r.observer_lane:<16}{_way(r.direction):>8}{_num(r.mean_cd_m2, 3):>10}{_num(r.u0):>7}"
+                f"{_num(r.ul):>7}{_num(ti.get((r.observer_lane, r.direction)), 1):>8}"
             )
+        w = s.worst
+        if w is not None:
+            ti_part = (
+                f", TI {w.ti_percent:.1f} % ({w.ti_observer[0]}, {_way(w.ti_observer[1])})"
+                if w.ti_percent is not None and w.ti_observer is not None
+                else ", TI not computed"
+            )
+            lines.append(
+                f"  worst observer: L̄ {w.mean_cd_m2:.3f} cd/m² ({w.mean_observer[0]}, {_way(w.mean_observer[1])}), "
+                f"U0 {w.u0:.2f}, Ul {w.ul:.2f}{ti_part}"
+            )
+        for ob in s.obtrusive:
+            verdict = (
+                ""
+                if ob.limits.max_vertical_lx is None and ob.limits.max_intensity_cd is None
+                else (" - within the limits" if ob.passes else " - ABOVE a limit")
+            )
+            lines.append(
+                f"  facade {ob.name}: E_v up to {ob.max_vertical_lx:.2f} lx, intensity toward its windows up to "
+                f"{ob.max_intensity_cd:.0f} cd{verdict}"
+            )
+        sky = s.sky
         lines.append(
-            f"  direct upward flux {s.direct_upward_lm:.1f} lm, {s.direct_upward_lm_per_m:.2f} lm per metre "
-            f"of street ({s.street_length_m:g} m; reflected light not included)"
+            f"  to the sky: {sky.upward_lm:.1f} lm ({sky.direct_upward_lm:.1f} direct + {sky.reflected_upward_lm:.1f} "
+            f"reflected by the ground), {sky.upward_lm_per_m:.2f} lm per metre of street ({sky.street_length_m:g} m)"
         )
+        if s.sky_relative is not None:
+            r = s.sky_relative
+            lines.append(
+                f"  relative to {report.setups[0].setup or 'the first setup'}: upward x{_num(r.upward)}, "
+                f"Rayleigh-weighted x{_num(r.rayleigh_weighted)}, scotopic-weighted x{_num(r.scotopic_weighted)}"
+            )
+        if sky.notch_fraction is not None:
+            lines.append(
+                f"  a notch filter on the strongest line could remove {100 * sky.notch_fraction:.0f} % of the power"
+            )
+        if s.energy is not None:
+            en = s.energy
+            cur = f" {en.currency}" if en.currency else ""
+            lines.append(
+                f"  energy: {en.installed_watts_w:.0f} W installed, {en.annual_kwh:.0f} kWh/year, "
+                f"{en.annual_cost:.0f}{cur}/year, {en.annual_co2_kg:.0f} kg CO2/year"
+            )
+            if s.energy_vs_before is not None:
+                d = s.energy_vs_before
+                rel = "" if d.relative is None else f" ({100 * d.relative:+.0f} %)"
+                lines.append(
+                    f"  energy vs {report.setups[0].setup or 'the first setup'}: {d.annual_kwh:+.0f} kWh/year{rel}"
+                )
+        else:
+            lines.append(f"  energy: {s.energy_note}")
         c = s.class_check
         if c is not None:
             lines.append(f"  class {c.lighting_class.name} ({c.lighting_class.source}): {c.verdict}")
+            if c.mesopic is not None:
+                lines.append(
+                    f"    mesopic (CIE 191): S/P {c.mesopic.s_p_ratio:.2f}, factor {c.mesopic.factor:.3f} on illuminance"
+                )
             for k in c.criteria:
                 unit = f" {k.unit}" if k.unit else ""
                 margin = "-" if k.margin is None else f"{100 * k.margin:+.0f} %"
@@ -64,7 +130,6 @@ def format_calculation(report: CalculationReport) -> str:
                     f"{k.status} (margin {margin})"
                 )
     lines.append("")
-    lines.append("energy: not computed (the scene holds no energy inputs)")
     lines.append(f"caution: {report.caution}")
     return "\n".join(lines)
 
