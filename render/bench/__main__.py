@@ -2,6 +2,7 @@
 
 * ``rays`` -- BVH build time and ray throughput, with an Embree comparison (:mod:`render.bench.rays`).
 * ``light`` -- full render vs relight, luminaire-count scaling, 1 nm vs 5 nm (:mod:`render.bench.light`).
+* ``calc`` -- a full calculation of a scene vs one view's render (:mod:`render.bench.calc`).
 """
 
 from __future__ import annotations
@@ -9,7 +10,7 @@ from __future__ import annotations
 import argparse
 import sys
 
-from render.bench import light, rays
+from render.bench import calc, light, rays
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -17,6 +18,7 @@ def build_parser() -> argparse.ArgumentParser:
     sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
     rays.add_parser(sub)
     light.add_parser(sub)
+    calc.add_parser(sub)
     return parser
 
 
