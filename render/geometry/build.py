@@ -106,6 +106,8 @@ class _Builder:
         self.mat: list[np.ndarray] = []
         self.obj: list[np.ndarray] = []
         self.material_names: list[str] = []
+        #: Object index of the street builder's carriageway (-1: no street).
+        self.carriageway_object = -1
         self.objects: list[ObjectInfo] = []
 
     def material_index(self, material: str) -> int:
@@ -158,6 +160,9 @@ class _Builder:
                 [o.name for o in self.objects],
             )
         mesh.objects = list(self.objects)  # type: ignore[attr-defined]
+        # The carriageway's own triangles (not other surfaces of its material), for the r-table
+        # shading of images (render.light.rtable).
+        mesh.carriageway_object = self.carriageway_object  # type: ignore[attr-defined]
         return mesh
 
 
@@ -166,6 +171,7 @@ def _street(b: _Builder, street: Street) -> None:
     half = 0.5 * street.carriageway_width_m
     kh = street.kerb_height_m
     carriageway = b.new_object("carriageway", "street")
+    b.carriageway_object = carriageway
     b.add(_ground_rect(0.0, L, -half, half, 0.0), street.carriageway_material, carriageway)
     for side in ("left", "right"):
         sign = 1.0 if side == "left" else -1.0
@@ -357,7 +363,9 @@ def _columns(b: _Builder, scene: Scene) -> None:
 def compile_scene(scene: Scene) -> TriangleMesh:
     """All the scene's surfaces as one :class:`~render.geometry.mesh.TriangleMesh`.
 
-    The mesh also carries ``mesh.objects``: one :class:`ObjectInfo` per object index.
+    The mesh also carries ``mesh.objects``: one :class:`ObjectInfo` per object index, and
+    ``mesh.carriageway_object``: the object index of the street's carriageway (-1 without a
+    street), whose triangles alone an r-table shades.
     """
     b = _Builder()
     if scene.street is not None:

@@ -14,6 +14,12 @@ openings are stored the same way with the luminance of the opening and the respo
 1 nm grid, so the spectral resolution costs nothing per pixel, and relighting (new lamps,
 lumens or dimming per group) needs no ray at all.
 
+Where the scene gives the carriageway an r-table (:mod:`render.light.rtable`) and the view is
+one it applies to, the carriageway's samples keep ``E_c·q/ρ̄`` instead of ``E_c/π``, with q the
+table's luminance coefficient for that luminaire's direction and the view's direction, and ρ̄
+the material's equal-energy luminous reflectance: the response table still multiplies by ρ(λ),
+so the buffers stay independent of the lamp and relighting stays a gather-multiply.
+
 Point illuminance follows the inverse-square and cosine laws, E = I(C, γ)·cos θ / d², with
 I from the luminaire's LM-63 table (:mod:`render.light.photometry`) in its oriented frame and a shadow
 ray per contributing luminaire.
@@ -30,6 +36,8 @@ References
 - Inverse-square and cosine laws of illuminance from a point source, E = I·cos θ / d²
   (analytic; the photometric distance law).
 - Lambertian reflection, L = ρ·E/π (analytic).
+- Road reflection tables, L = q·E with q = r/cos³γ: CIE 140-2000 (:mod:`render.light.rtable`)
+  **(from memory)**.
 - Luminance of a luminous opening seen at angle θ from its normal, L = I / (A·cos θ): the
   definition of luminance (CIE S 017:2020, ILV) **(from memory)**.
 - ANSI/IESNA LM-63-2002, IES LM-63-2019: the C-γ intensity tables (:mod:`render.light.photometry`)
@@ -63,6 +71,7 @@ from render.rays.bvh import (
 )
 
 if TYPE_CHECKING:
+    from render.light.rtable import RoadShading
     from render.rays.cameras import Camera
 
 __all__ = [
@@ -341,6 +350,7 @@ def direct_pairs(
     negligible_lx: float = NEGLIGIBLE_LX,
     grid: CullGrid | None = None,
     offset_normals: np.ndarray | None = None,
+    shadow_offset_m: float = SURFACE_OFFSET_M,
 ) -> DirectPairs:
     """The (point, luminaire) pairs of :func:`direct_illuminance_lx`, before summing."""
     pts = np.ascontiguousarray(points_m, np.float64).reshape(-1, 3)
@@ -350,7 +360,6 @@ def direct_pairs(
         np.zeros(0, np.int64), np.zeros(0, np.int64), np.zeros(0), np.zeros((0, 3)), np.zeros(0, np.bool_)
     )
     if n == 0 or lights.n_luminaires == 0:
-    shadow_offset_m: float = SURFACE_OFFSET_M,
         return empty
     act = np.ones(n, np.bool_) if active is None else np.ascontiguousarray(active, np.bool_)
     act = act & np.all(np.isfinite(pts), axis=1)
@@ -427,6 +436,7 @@ def direct_illuminance_lx(
     negligible_lx: float = NEGLIGIBLE_LX,
     grid: CullGrid | None = None,
     offset_normals: np.ndarray | None = None,
+    shadow_offset_m: float = SURFACE_OFFSET_M,
 ) -> np.ndarray:
     """Direct illuminance (lx) per light channel at points on surfaces with the given normals.
 
@@ -436,7 +446,6 @@ def direct_illuminance_lx(
         (N, 3) positions (m) and unit normals of the receiving surface (the side that receives).
     lights
         From :func:`render.light.luminaires.luminaire_set`.
-    shadow_offset_m: float = SURFACE_OFFSET_M,
     bvh
         Occluders for shadow rays (None: no shadows).
     active
@@ -446,6 +455,9 @@ def direct_illuminance_lx(
     offset_normals
         Normals to offset shadow-ray origins along (default ``normals``; use the geometric
         normal for rendered surfaces).
+    shadow_offset_m
+        How far along them shadow rays start (calculation points use a larger offset so that
+        layers a few millimetres proud of a surface, such as road markings, do not shadow it).
 
     Returns
     -------
@@ -455,9 +467,6 @@ def direct_illuminance_lx(
     n = np.asarray(points_m).reshape(-1, 3).shape[0]
     out = np.zeros((n, lights.n_channels))
     pairs = direct_pairs(
-    shadow_offset_m
-        How far along them shadow rays start (calculation points use a larger offset so that
-        layers a few millimetres proud of a surface, such as road markings, do not shadow it).
         points_m,
         normals,
         lights,
@@ -466,6 +475,7 @@ def direct_illuminance_lx(
         negligible_lx=negligible_lx,
         grid=grid,
         offset_normals=offset_normals,
+        shadow_offset_m=shadow_offset_m,
     )
     if pairs.point.size:
         lit = ~pairs.blocked
@@ -475,7 +485,6 @@ def direct_illuminance_lx(
 
 # ------------------------------------------------------------------------------------------
 # Luminous openings as geometry
-        shadow_offset_m=shadow_offset_m,
 # ------------------------------------------------------------------------------------------
 
 
@@ -525,6 +534,9 @@ class LightBuffers:
         (:mod:`render.light.gloss`; spectrally neutral, white response), at full output.
     material_gloss : (M, 2) -- per material index, the specular layer's F0 and GGX α
         (F0 = 0: none).
+    road : the r-table shading of the carriageway in this view
+        (:class:`render.light.rtable.RoadShading`), or None: its samples keep E·q/ρ̄ per
+        channel instead of E/π.
     """
 
     width_px: int
@@ -542,6 +554,7 @@ class LightBuffers:
     channels: list[Channel]
     spec_cd_m2: np.ndarray | None = None
     material_gloss: np.ndarray | None = None
+    road: RoadShading | None = None
 
     @property
     def emitter_response(self) -> int:
@@ -564,9 +577,12 @@ def cast_view(
     *,
     tile_rows: int = 32,
     progress: bool = False,
+    road: RoadShading | None = None,
 ) -> LightBuffers:
     """Primary rays of a view: hits against the scene and the luminous openings.
 
+    ``road``: the view's r-table shading of the carriageway
+    (:func:`render.light.rtable.view_road_shading`), kept in the buffers for every evaluation.
     Returns a :class:`LightBuffers` with zero ``value_cd_m2``; fill it with
     :func:`evaluate_light`."""
     from render.rays.cameras import camera_rays, tile_pixels
@@ -640,6 +656,7 @@ def cast_view(
         list(lights.channels),
         np.zeros((S, lights.n_channels), np.float32),
         np.asarray(gloss, np.float64),
+        road,
     )
 
 
@@ -707,6 +724,20 @@ def evaluate_light(
             to_eye = -buffers.direction[sl][p[g]].astype(np.float64)
             f_s = specular_brdf(n_g, l[g], to_eye, f0[g], gloss[mat[g], 1])
             _scatter_add(chunk_spec, p[g], lights.channel[k[g]], e[g] * f_s)
+        if buffers.road is not None:
+            # The carriageway's base reflects by the r-table, L = q·E (render.light.rtable):
+            # its value becomes E·q/ρ̄ in place of E/π; a water film's layer stays on top.
+            road = np.nonzero(buffers.object_id[sl][p] == buffers.road.object_id)[0]
+            if road.size:
+                from render.light.rtable import road_q_sr
+
+                q = road_q_sr(
+                    buffers.road.table,
+                    buffers.direction[sl][p[road]].astype(np.float64),
+                    l[road],
+                    buffers.road.q_scale,
+                )
+                diffuse[road] *= buffers.road.diffuse_factor(q)
         chunk_e = np.zeros((sl.stop - sl.start, lights.n_channels))
         _scatter_add(chunk_e, p, lights.channel[k], diffuse)
         value[sl] = (chunk_e / math.pi).astype(np.float32)

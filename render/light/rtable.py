@@ -42,13 +42,37 @@ from __future__ import annotations
 import math
 import os
 from dataclasses import dataclass
+from pathlib import Path
+from typing import TYPE_CHECKING
 
+import numba
 import numpy as np
+from numba import prange
 
 from render.errors import input_error
 from render.fileio import read_user_text
 
-__all__ = ["RTable", "lambertian_r_table", "parse_r_table", "r_value", "read_r_table"]
+if TYPE_CHECKING:
+    from render.geometry.mesh import TriangleMesh
+    from render.scene.model import Scene, View
+
+__all__ = [
+    "R_TABLE_VIEWS",
+    "RTable",
+    "RoadShading",
+    "lambertian_r_table",
+    "parse_r_table",
+    "r_lookup",
+    "r_table_applies",
+    "r_value",
+    "read_r_table",
+    "road_q_sr",
+    "view_road_shading",
+]
+
+#: The values of ``street.r_table_views``: which views' images shade the carriageway with the
+#: r-table (none; views of kind "driver"; every view).
+R_TABLE_VIEWS = ("none", "driver", "all")
 
 
 @dataclass(frozen=True)
@@ -167,3 +191,161 @@ def r_value(table: RTable, beta_deg: np.ndarray, tan_gamma: np.ndarray) -> np.nd
     r = table.r_sr
     out = (1 - v) * ((1 - u) * r[j, i] + u * r[j, i + 1]) + v * ((1 - u) * r[j + 1, i] + u * r[j + 1, i + 1])
     return np.where(t > table.tan_gamma[-1] + 1e-12, 0.0, out)
+
+
+# ------------------------------------------------------------------------------------------
+# The r-table as the carriageway's BRDF in images
+# ------------------------------------------------------------------------------------------
+
+
+@numba.njit(cache=True, nogil=True)
+def _grid_index(grid, x):
+    """The cell ``i`` (0 … n − 2) and the fraction ``u`` (clipped to 0 … 1) of ``x`` on an
+    increasing grid: :func:`_interp_index` for one value."""
+    lo = 0
+    hi = grid.shape[0]
+    while lo < hi:  # the number of grid values <= x (numpy's searchsorted, side "right")
+        mid = (lo + hi) // 2
+        if grid[mid] <= x:
+            lo = mid + 1
+        else:
+            hi = mid
+    i = min(max(lo - 1, 0), grid.shape[0] - 2)
+    u = (x - grid[i]) / (grid[i + 1] - grid[i])
+    return i, min(max(u, 0.0), 1.0)
+
+
+@numba.njit(cache=True, nogil=True)
+def r_lookup(beta_grid, tan_grid, r_sr, beta_deg, tan_gamma):
+    """r (sr⁻¹) at one (β, tan γ): :func:`r_value` inside numba kernels (same folding of β,
+    bilinear interpolation, β held at the table's first or last column, 0 beyond the last
+    tan γ row)."""
+    if tan_gamma > tan_grid[tan_grid.shape[0] - 1] + 1e-12:
+        return 0.0
+    b = abs((beta_deg + 180.0) % 360.0 - 180.0)
+    i, u = _grid_index(beta_grid, b)
+    j, v = _grid_index(tan_grid, tan_gamma)
+    return (1 - v) * ((1 - u) * r_sr[j, i] + u * r_sr[j, i + 1]) + v * (
+        (1 - u) * r_sr[j + 1, i] + u * r_sr[j + 1, i + 1]
+    )
+
+
+@numba.njit(cache=True, nogil=True, parallel=True)
+def _road_q_kernel(view_dir, to_light, beta_grid, tan_grid, r_sr, scale, out):
+    """q = scale·r(β, tan γ)/cos³γ per (view direction, direction toward the luminaire) pair."""
+    for m in prange(out.shape[0]):
+        lx = to_light[m, 0]
+        ly = to_light[m, 1]
+        lz = to_light[m, 2]
+        if lz <= 0.0:  # a luminaire at or below the surface's height adds nothing
+            out[m] = 0.0
+            continue
+        horizontal = math.sqrt(lx * lx + ly * ly)
+        # β: from the horizontal direction observer → point to the horizontal direction
+        # point → luminaire; 0 with the luminaire straight above the point.
+        beta = 0.0
+        if horizontal > 1e-12:
+            beta = math.degrees(math.atan2(ly, lx) - math.atan2(view_dir[m, 1], view_dir[m, 0]))
+        r = r_lookup(beta_grid, tan_grid, r_sr, beta, horizontal / lz)
+        # cos γ = lz for a unit vector; q = r / cos³γ.
+        out[m] = scale * r / (lz * lz * lz)
+
+
+def road_q_sr(table: RTable, view_dir: np.ndarray, to_light: np.ndarray, scale: float = 1.0) -> np.ndarray:
+    """Luminance coefficients q = scale·r(β, tan γ)/cos³γ (sr⁻¹) of a horizontal road surface.
+
+    ``view_dir`` (M, 3): directions from the observer toward the points (only their horizontal
+    part counts); ``to_light`` (M, 3): unit vectors from the points toward the luminaires. γ is
+    measured from the vertical, β as in the module text. L = q·E with E the horizontal
+    illuminance from that luminaire."""
+    v = np.ascontiguousarray(view_dir, np.float64).reshape(-1, 3)
+    lv = np.ascontiguousarray(to_light, np.float64).reshape(-1, 3)
+    out = np.zeros(lv.shape[0])
+    if out.size:
+        _road_q_kernel(
+            v,
+            lv,
+            np.ascontiguousarray(table.beta_deg, np.float64),
+            np.ascontiguousarray(table.tan_gamma, np.float64),
+            np.ascontiguousarray(table.r_sr, np.float64),
+            float(scale),
+            out,
+        )
+    return out
+
+
+@dataclass(frozen=True)
+class RoadShading:
+    """The carriageway of one view shaded with an r-table (see the module text).
+
+    ``object_id``: the carriageway's object index in the compiled mesh (only its triangles use
+    the table); ``q_scale``: Q0(road)/Q0(table), 1 when the scene gives no ``q0_sr``;
+    ``mean_reflectance``: ρ̄ = Σ ρ V / Σ V of the carriageway material."""
+
+    table: RTable
+    object_id: int
+    q_scale: float
+    mean_reflectance: float
+
+    def diffuse_factor(self, q_sr: np.ndarray) -> np.ndarray:
+        """The factor that turns the white-diffuser value E/π into the value the light buffers
+        keep for the carriageway, E·q/ρ̄ (the response table then multiplies by ρ(λ))."""
+        if not self.mean_reflectance > 0.0:
+            return np.zeros_like(q_sr)
+        return q_sr * (math.pi / self.mean_reflectance)
+
+
+def r_table_applies(r_table_views: str, view_kind: str) -> bool:
+    """Whether a view of kind ``view_kind`` uses the r-table under ``street.r_table_views``."""
+    return r_table_views == "all" or (r_table_views == "driver" and view_kind == "driver")
+
+
+def view_road_shading(scene: Scene, view: View, mesh: TriangleMesh, reflectances: np.ndarray) -> RoadShading | None:
+    """The r-table shading of ``view``'s carriageway, or None (no street, no ``street.r_table``,
+    or a view ``street.r_table_views`` leaves out).
+
+    ``reflectances`` (K, N_BINS): the reflectance of each material index of ``mesh``.
+
+    Raises
+    ------
+    InputError
+        The table cannot be read, lies outside the scene's folder under strict paths, or gives
+        no Q0 while the scene asks for ``q0_sr``."""
+    street = scene.street
+    if street is None or street.r_table_file is None or not r_table_applies(street.r_table_views, view.kind):
+        return None
+    object_id = int(getattr(mesh, "carriageway_object", -1))
+    on_road = np.nonzero(mesh.object_id == object_id)[0] if object_id >= 0 else np.zeros(0, np.int64)
+    if on_road.size == 0:
+        return None
+    path = Path(street.r_table_file)
+    root = scene.reference_root
+    if root is not None and not _inside(path, Path(root)):
+        raise input_error(
+            scene.path,
+            "street.r_table",
+            f"the r-table file is outside {Path(root).resolve()}; with strict paths only files inside that folder are read",
+        )
+    table = read_r_table(path)
+    q_scale = 1.0
+    if street.q0_sr is not None:
+        if table.q0_sr is None:
+            raise input_error(
+                scene.path,
+                "street.q0_sr",
+                f"the r-table {path.name} gives no Q0 (a 'q0,VALUE' line), so it cannot be scaled to the road's Q0",
+            )
+        q_scale = float(street.q0_sr) / table.q0_sr
+    from render.colour.materials import luminous_reflectance
+
+    rho = np.asarray(reflectances, np.float64)[int(mesh.material_id[on_road[0]])]
+    mean = float(luminous_reflectance(rho, np.ones_like(rho)))
+    return RoadShading(table=table, object_id=object_id, q_scale=q_scale, mean_reflectance=mean)
+
+
+def _inside(path: Path, root: Path) -> bool:
+    """Whether ``path`` (symbolic links followed) lies inside the folder ``root``."""
+    try:
+        return path.resolve().is_relative_to(root.resolve())
+    except (OSError, RuntimeError, ValueError):
+        return False
