@@ -474,3 +474,36 @@ def test_q0_without_the_tables_q0_is_an_input_error(tmp_path):
     path = _write(tmp_path, "scene.toml", _scene_text('r_table = "hand.csv"\nq0_sr = 0.07'))
     with pytest.raises(InputError, match="q0_sr"):
         Study(path).render_view("driver")
+
+
+def test_image_to_figure_ratio_is_the_documented_spectral_factor(tmp_path):
+    # A coloured road: the image's luminance is q·E·ρ_v(lamp)/ρ̄ (render.light.rtable, the
+    # spectral rule q_λ = q·ρ(λ)/ρ̄), so image / calculation at the pixel's own sample points is
+    # ρ_v(lamp)/ρ̄ with ρ_v = Σ ρ s V/Σ s V (CIE 15 luminous reflectance) and ρ̄ its
+    # equal-energy value. The module text lists 1.063 for asphalt-worn under low-pressure
+    # sodium (rounded to 3 decimals).
+    from render.colour.lamps import get_lamp
+    from render.colour.materials import luminous_reflectance
+
+    _write(tmp_path, "hand.csv", _hand_table_text())
+    setups = """
+[setups.sox]
+lamp = "sodium-low-pressure"
+"""
+    path = _write(tmp_path, "scene.toml", _scene_text('r_table = "hand.csv"', extra=setups))
+    study = Study(path)
+    view = study.render_view("driver", "sox")
+    rho = study.reflectances[study.mesh.material_names.index("asphalt-worn")]
+    factor = luminous_reflectance(rho, get_lamp("sodium-low-pressure").spd) / luminous_reflectance(
+        rho, np.ones_like(rho)
+    )
+    assert round(factor, 3) == 1.063
+    b = view.buffers
+    eye = np.asarray(view.camera.position_m, np.float64)
+    y = view.colorimetry.luminance_cd_m2.reshape(-1)
+    pixels = [p for p in range(y.size) if np.all(b.object_id[p * b.spp : (p + 1) * b.spp] == b.road.object_id)]
+    assert len(pixels) > 100
+    for p in pixels[:: len(pixels) // 7][:7]:
+        pts = b.point_m[p * b.spp : (p + 1) * b.spp].astype(np.float64)
+        calc = road_luminance_cd_m2(view.lights, pts, eye, study.setup("sox"), b.road.table).mean()
+        assert y[p] == pytest.approx(factor * calc, rel=1e-6)

@@ -29,12 +29,52 @@ The table is photometric (one number per geometry, no spectrum). It serves the r
 calculation (:mod:`render.calc.road`) and, where the scene asks, the carriageway's reflection in
 images (:mod:`render.light.integrator`).
 
+**In images.** With ``street.r_table`` set, views chosen by ``street.r_table_views`` ("driver":
+views of kind driver, the default; "all"; "none") shade the street builder's carriageway
+triangles (``mesh.carriageway_object``; not other surfaces of the same material) with the
+table's BRDF instead of Lambert's: per luminaire, L = q·E with q = r(β, tan γ)/cos³γ, β from
+the horizontal direction of the camera ray (observer → point) to the horizontal direction
+point → luminaire, γ from the vertical, r scaled by Q0(road)/Q0(table) when ``q0_sr`` is
+given. :func:`r_lookup` interpolates inside the numba kernel exactly as :func:`r_value` does
+for the calculation, so a driver's image and the road-luminance figures agree. The table is
+applied whatever the viewing angle; it is measured for an observer looking down about 1°, so
+for views from higher up ("all") it is an extrapolation.
+
+*Spectrum.* The table has no spectrum, the material has: the image uses
+q_λ = q·ρ(λ)/ρ̄ with ρ(λ) the carriageway material's reflectance and ρ̄ = Σ ρ V / Σ V its
+equal-energy luminous reflectance. The light buffers then keep E·q/ρ̄ per light channel (no
+lamp in it) and the response table multiplies by ρ(λ) and the lamp as for any surface, so
+relighting for another lamp, lumens or dimming costs what it did. The consequence: the image's
+luminance is q·E_v·ρ_v(lamp)/ρ̄, with ρ_v(lamp) = Σ ρ s V / Σ s V the material's luminous
+reflectance under the lamp; it equals the table's q·E exactly for a spectrally flat road and
+is off by the factor ρ_v(lamp)/ρ̄ otherwise (the calculation, :mod:`render.calc.road`, uses
+q·E). Measured for the bundled asphalts (2026-12-02), ρ̄ and the factor under low-pressure
+sodium / high-pressure sodium (CIE HP1) / LED 3000 K (CIE B2) / LED 4000 K (CIE B3):
+
+=================  =====  =====  =====  =====  =====
+material           ρ̄      SOX    HP1    B2     B3
+=================  =====  =====  =====  =====  =====
+asphalt-new        0.057  1.035  1.029  1.013  1.006
+asphalt-worn       0.122  1.063  1.053  1.023  1.011
+asphalt-weathered  0.083  1.050  1.042  1.018  1.009
+asphalt-car-park   0.071  1.046  1.039  1.017  1.007
+=================  =====  =====  =====  =====  =====
+
+so images of these reddish-grey asphalts are 1–6 % brighter than the table says, most under
+sodium light.
+
+*Wet roads.* r-tables of wet surfaces are separate tables; lampcast applies the one table as
+the *dry* base: with ``street.wet`` the water film's specular layer (:mod:`render.light.gloss`)
+stays on top and the base under it receives E·(1 − F), as a Lambertian base does.
+
 References
 ----------
 * CIE 140-2000 *Road lighting calculations* and EN 13201-3:2015: the r-table layout (β 0–180°,
   tan γ 0–12, values × 10⁴) and Q0. *memory*.
 * r = q·cos³γ and the Lambertian r = (ρ/π)·cos³γ: derived from L = q·E, E = I·cos³γ/h²
   (*own*).
+* The spectral rule q_λ = q·ρ(λ)/ρ̄ and the dry-base rule for wet roads are lampcast's own
+  choices (*own*), made so that relighting needs no new light evaluation.
 """
 
 from __future__ import annotations
