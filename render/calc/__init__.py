@@ -8,7 +8,7 @@
 * :mod:`.road` -- road luminance for the standard observer from a user's r-table
   (:mod:`render.light.rtable`; none shipped) or, without one, the Lambertian result: L̄, U0, Ul.
 * :mod:`.ti` -- the threshold increment TI from the luminaires' veiling luminance (20° screening
-  angle, observer age).
+  angle, observer age), and the worst observer over lanes and both directions of traffic.
 * :mod:`.edge` -- the edge illuminance ratio R_EI on strips beside each carriageway edge.
 * :mod:`.obtrusive` -- obtrusive light: vertical illuminance on house fronts and luminous
   intensity toward their windows, against user-chosen limits.
@@ -50,7 +50,7 @@ from render.calc.obtrusive import (
     facade_fields,
 )
 from render.calc.road import LuminanceResult, evaluate_luminance_field, road_luminance_cd_m2
-from render.calc.ti import TIResult, threshold_increment, veiling_luminance_cd_m2
+from render.calc.ti import RoadWorstCase, TIResult, road_worst_case, threshold_increment, veiling_luminance_cd_m2
 
 __all__ = [
     "CalculationField",
@@ -63,6 +63,7 @@ __all__ = [
     "LuminanceResult",
     "ObtrusiveLimits",
     "ObtrusiveResult",
+    "RoadWorstCase",
     "TIResult",
     "check_class",
     "edge_illuminance_ratio",
@@ -79,6 +80,7 @@ __all__ = [
     "lighting_classes",
     "points_along",
     "road_luminance_cd_m2",
+    "road_worst_case",
     "row_fields",
     "row_positions",
     "semicylindrical_illuminance_lx",
