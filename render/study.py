@@ -47,6 +47,7 @@ from render.scene import Scene, load_scene
 from render.scene.model import Setup
 
 if TYPE_CHECKING:
+    from render.colour.materials import Material
     from render.geometry.mesh import TriangleMesh
     from render.rays.bvh import BVH
     from render.rays.cameras import Camera
@@ -104,11 +105,18 @@ class Study:
         return build_bvh(self.mesh.triangles_m)
 
     @cached_property
+    def materials(self) -> dict[str, Material]:
+        """The material library (:func:`render.colour.materials.material_library`, read once)."""
+        from render.colour.materials import material_library
+
+        return material_library()
+
+    @cached_property
     def reflectances(self) -> np.ndarray:
         """(K, N_BINS) reflectance of each material index of the mesh."""
-        from render.colour.materials import get_material, material_library
+        from render.colour.materials import get_material
 
-        lib = material_library()
+        lib = self.materials
         return np.array(
             [get_material(m, lib, source=str(self.scene.path)).reflectance for m in self.mesh.material_names]
         )
@@ -128,8 +136,16 @@ class Study:
         return self.scene.setups[name]
 
     def lights(self, setup: str | Setup | None = None) -> LuminaireSet:
-        """The scene's luminaires under ``setup``, ready for the integrator."""
-        return luminaire_set(self.scene, self.setup(setup))
+        """The scene's luminaires under ``setup``, ready for the integrator (resolved once per
+        setup of the scene; a :class:`Setup` from elsewhere is resolved each time)."""
+        s = self.setup(setup)
+        key = s.name if s is not None else None
+        if s is not None and self.scene.setups.get(s.name) is not s:
+            return luminaire_set(self.scene, s)
+        cache = self.__dict__.setdefault("_lights_by_setup", {})
+        if key not in cache:
+            cache[key] = luminaire_set(self.scene, s)
+        return cache[key]
 
     def camera(self, view: str | None = None, width_px: int | None = None) -> Camera:
         """The camera of a view, optionally at another width (height kept in proportion)."""
@@ -290,7 +306,7 @@ class Study:
         setup's lamps, lumens and dimming and the maintenance factor; shadows from the scene's
         geometry. Returns (N,) total, or a dict group -> (N,) with ``per_group``."""
         s = self.setup(setup)
-        lights = luminaire_set(self.scene, s)
+        lights = self.lights(s)
         pts = np.asarray(points_m, np.float64).reshape(-1, 3)
         nrm = np.asarray(normals, np.float64).reshape(-1, 3)
         nrm = nrm / np.linalg.norm(nrm, axis=1, keepdims=True)

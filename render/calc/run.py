@@ -231,7 +231,7 @@ def calc_study(study: Study, include_objects: tuple[str, ...]) -> Study:
         shadow_offset_m=CALC_SHADOW_OFFSET_M,
     )
     if same:
-        for name in ("mesh", "bvh", "reflectances"):
+        for name in ("mesh", "bvh", "reflectances", "materials"):
             if name in study.__dict__:
                 used.__dict__[name] = study.__dict__[name]
     return used
@@ -367,7 +367,7 @@ class CalculationReport:
 def _sky(study: Study, lights, setup, reflect_lx: dict[str, np.ndarray], patches, length_m: float) -> SkyFigures:
     """Direct and reflected upward flux per lamp of the setup (module text of render.calc.sky)."""
     from render.colour.lamps import get_lamp
-    from render.colour.materials import get_material, material_library
+    from render.colour.materials import get_material
 
     factors, lamps = channel_factors(lights, setup)
     order = list(dict.fromkeys(lamps))
@@ -381,7 +381,7 @@ def _sky(study: Study, lights, setup, reflect_lx: dict[str, np.ndarray], patches
             cache[key] = upward_flux_lm(p, tilts[k])
         ch = int(lights.channel[k])
         direct[lamps[ch]] += float(lights.scale[k]) * float(factors[ch]) * cache[key]
-    library = material_library()
+    library = study.materials
     reflect = [get_material(m, library, source=str(study.scene.path)).reflectance for m in patches.materials]
     spds = dict(zip(order, study.lamp_spds(order), strict=True))
     reflected = dict.fromkeys(order, 0.0)
@@ -449,11 +449,11 @@ def _energy(study: Study, lights, setup) -> tuple[SetupEnergy | None, str]:
 
 def _road_reflectance(study: Study, setup) -> float:
     """Photometric reflectance of the carriageway material under the setup's first lamp."""
-    from render.colour.materials import get_material, material_library
+    from render.colour.materials import get_material
 
     street = study.scene.street
     assert street is not None
-    material = get_material(street.carriageway_material, material_library(), source=str(study.scene.path))
+    material = get_material(street.carriageway_material, study.materials, source=str(study.scene.path))
     _, lamps = channel_factors(study.lights(setup), setup)
     spd = study.lamp_spds(lamps[:1])[0]
     return photometric_reflectance(material.reflectance, spd)

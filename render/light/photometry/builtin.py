@@ -25,8 +25,11 @@ from __future__ import annotations
 
 import importlib.resources
 import os
+from functools import lru_cache
 from importlib.resources.abc import Traversable
 from pathlib import Path
+
+import numpy as np
 
 from render.errors import InputError, Problem, did_you_mean
 from render.fileio import read_user_bytes
@@ -52,9 +55,16 @@ def builtin_photometry_ids() -> list[str]:
     )
 
 
+@lru_cache(maxsize=32)
 def _read_builtin(ident: str) -> Photometry:
+    """A shipped distribution, parsed once per process (package data does not change; its
+    arrays are made read-only so that no caller can alter the shared copy)."""
     with importlib.resources.as_file(BUILTIN_PHOTOMETRY_DIR / f"{ident}{_SUFFIX}") as path:
-        return read_lm63(path)
+        photometry = read_lm63(path)
+    for value in vars(photometry).values():
+        if isinstance(value, np.ndarray):
+            value.setflags(write=False)
+    return photometry
 
 
 def load_photometry(
