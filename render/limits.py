@@ -35,6 +35,7 @@ __all__ = [
     "MAX_LM63_ANGLES",
     "MAX_LM63_TILT_ANGLES",
     "MAX_MARKING_DASHES",
+    "MAX_PLAN_POINTS",
     "MAX_POLYGON_VERTICES",
     "MAX_PROBLEMS_PER_FILE",
     "MAX_SAMPLES_PER_PIXEL",
@@ -73,6 +74,10 @@ outline): ear clipping takes time growing with the square of this or faster."""
 
 MAX_MARKING_DASHES = 100_000
 """Dashes of all dashed marking lines in one scene (a 2 km street with 1 m dashes has 1000)."""
+
+MAX_PLAN_POINTS = 1_000_000
+"""Points of one illuminance plan (:mod:`render.calc.plan`): a 2 km street 60 m wide at the
+default 0.5 m spacing has about 480 000."""
 
 MAX_COORDINATE_M = 10_000.0
 """Largest distance of any scene coordinate from the origin along an axis, m (positions,
