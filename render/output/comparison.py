@@ -10,6 +10,14 @@ are given per region a resident recognises (:func:`luminance_regions`: the carri
 footway, the house and shop fronts, each tagged object; from the pixels that show only it) as
 well as over every surface seen; the summary speaks of the carriageway where a view shows it.
 
+When the scene has a ``[street]`` and a first luminaire row of at least two luminaires, the
+setups are also calculated (:func:`render.calc.run.run_calculation`: fields, road luminance,
+TI, class check, obtrusive light, sky, energy), with an illuminance plan per setup
+(:func:`render.calc.plan.compute_plan`) and the pictures of
+:func:`render.output.calc_pictures.write_calc_pictures` in the ``calculation/`` folder; every
+number goes into ``metrics.json`` under ``"calculation"`` (:func:`calculation_json`) and the
+report's "Calculations" section shows them.
+
 Everything written is listed in ``metrics.json`` together with the figures the report shows:
 the typed records of :mod:`render.output.metrics` (:class:`~render.output.metrics.ComparisonMetrics`),
 rounded once when they are made, so ``metrics.json`` and the report show the same numbers.
@@ -29,14 +37,14 @@ import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, replace
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
 from render import __version__
 from render.analysis.colours import CAVEAT as COLOUR_CAVEAT
 from render.analysis.colours import ColourAnalysis, Confusion
-from render.errors import did_you_mean, input_error
+from render.errors import InputError, did_you_mean, input_error
 from render.fileio import atomic_path, atomic_write_text, file_stem
 from render.output.metrics import (
     BEFORE,
@@ -62,6 +70,7 @@ from render.output.provenance import image_metadata
 from render.scene.model import GroupSetting, Scene, Setup
 
 if TYPE_CHECKING:
+    from render.calc.run import CalculationReport
     from render.geometry.build import ObjectInfo
     from render.light.luminaires import LuminaireSet
     from render.study import RenderedView, Study
@@ -69,10 +78,13 @@ if TYPE_CHECKING:
     from render.vision.pipeline import DisplayResult
 
 __all__ = [
+    "CALCULATION_FOLDER",
     "CAUTIONS",
     "LUMINANCE_LEGEND",
     "SETUP_KEYS",
     "ComparisonResult",
+    "calculation_absent_reason",
+    "calculation_json",
     "colour_report_section",
     "luminance_legend",
     "luminance_maps",
@@ -105,6 +117,9 @@ SETUP_KEYS = ("lamp", "lumens", "dimming", "photometry")
 
 #: The one legend of a report's luminance maps (their scale is shared by every view and setup).
 LUMINANCE_LEGEND = "luminance-legend.png"
+
+#: Folder of the calculation's pictures in the output folder (never a view's folder).
+CALCULATION_FOLDER = "calculation"
 
 
 def parse_setup(text: str, scene: Scene, label: str) -> Setup:
@@ -597,6 +612,97 @@ def _comparison_text(setups: Sequence[Setup]) -> str:
     return f"before={setups[0].name}; options=" + ", ".join(s.name for s in setups[1:])
 
 
+def calculation_absent_reason(scene: Scene) -> str | None:
+    """Why the comparison cannot calculate ``scene`` (no ``[street]``, no luminaire row, fewer
+    than two luminaires in the first row), or ``None`` when it can."""
+    from render.calc.fields import row_positions
+
+    if scene.street is None:
+        return "Not calculated: the scene has no [street], on which the calculation fields lie."
+    try:
+        n = len(row_positions(scene))
+    except InputError:
+        return "Not calculated: the scene has no luminaire row; the fields lie between two luminaires of a row."
+    if n < 2:
+        return (
+            "Not calculated: the scene's first luminaire row has fewer than two luminaires; "
+            "the fields lie between two luminaires of a row."
+        )
+    return None
+
+
+def _json_safe(value: Any) -> Any:
+    """``value`` with tuples as lists, numpy numbers as Python numbers and non-finite floats
+    as ``None`` (JSON has no NaN), so that it equals what ``metrics.json`` reads back."""
+    if isinstance(value, Mapping):
+        return {str(k): _json_safe(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_json_safe(v) for v in value]
+    if isinstance(value, np.generic):
+        value = value.item()
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
+    return value
+
+
+#: Keys the report adds beside :meth:`~render.calc.run.CalculationReport.to_json`.
+_CALC_REPORT_KEYS = ("setup_keys", "headline_figures", "pictures", "picture_alts")
+
+
+def calculation_json(
+    report: CalculationReport | None,
+    keys: Sequence[str] = (),
+    pictures: Sequence[str] = (),
+    alts: Sequence[str] = (),
+    absent: str | None = None,
+) -> dict[str, Any]:
+    """What ``metrics.json`` holds under ``"calculation"``: the report's
+    :meth:`~render.calc.run.CalculationReport.to_json` (every number, non-finite ones as
+    ``null``) with ``setup_keys`` (the comparison's key of each setup, in order),
+    ``headline_figures`` (key, label and unit of each headline figure, in order), ``pictures``
+    (paths relative to the output folder) and ``picture_alts``; or ``{"absent": reason}``."""
+    if report is None:
+        return {"absent": absent or "Not calculated."}
+    data = _json_safe(report.to_json())
+    taken = [k for k in _CALC_REPORT_KEYS if k in data]
+    if taken:
+        raise RuntimeError(f"the calculation's JSON already has the report's keys {taken}")
+    heads = report.setups[0].headline() if report.setups else ()
+    data.update(
+        setup_keys=list(keys),
+        headline_figures=[{"key": h.key, "label": h.label, "unit": h.unit} for h in heads],
+        pictures=list(pictures),
+        picture_alts=list(alts),
+    )
+    return data
+
+
+def _calculation(
+    study: Study, setups: Sequence[Setup], keys: Sequence[str], out: Path, text: Mapping[str, str]
+) -> dict[str, Any]:
+    """Calculate every setup (:func:`render.calc.run.run_calculation`), draw the plans and
+    pictures into ``out/calculation`` and return :func:`calculation_json` of it all."""
+    from render.calc.plan import compute_plan
+    from render.calc.run import calc_study, run_calculation
+    from render.output.calc_pictures import calc_picture_alt_texts, write_calc_pictures
+
+    absent = calculation_absent_reason(study.scene)
+    if absent is not None:
+        return calculation_json(None, absent=absent)
+    report = run_calculation(study, list(setups))
+    used = calc_study(study, report.options.include_objects)
+    plans = {s.name: compute_plan(used, s) for s in setups}
+    word = "after" if len(setups) == 2 else "option"
+    labels = {s.name: f"{'before' if i == 0 else word}: {s.name}" for i, s in enumerate(setups)}
+    paths = write_calc_pictures(report, plans, out / CALCULATION_FOLDER, labels=labels, text=text)
+    return calculation_json(
+        report,
+        keys,
+        [p.relative_to(out).as_posix() for p in paths],
+        calc_picture_alt_texts(report, labels),
+    )
+
+
 @dataclass(frozen=True)
 class ComparisonResult:
     """What :func:`run_comparison` made: the output folder, the figures (also in
@@ -622,12 +728,14 @@ def run_comparison(
     extra_sections: Sequence[ReportSection] = (),
     colour: bool = True,
     colour_view: str | None = None,
+    calculation: bool = True,
 ) -> ComparisonResult:
     """Render every view under the "before" setup and relight it under each option (``after``:
     one setup or several), and write images, ``metrics.json`` and ``report.html`` (with the
     colour analysis of the tagged objects, unless ``colour=False``: every object in
     ``colour_view`` if given, else in the scene's ``[colour] view`` if rendered, else each in
-    the view showing most of its main surface). ``scene`` is a scene file or a
+    the view showing most of its main surface) and, unless ``calculation=False``, the
+    calculation of every setup (module text). ``scene`` is a scene file or a
     :class:`~render.study.Study`.
 
     The camera rays are cast once per view; every option relights the same buffers."""
@@ -668,8 +776,8 @@ def run_comparison(
     camera = None
     view_metrics: list[ViewMetrics] = []
     # Views whose names give one file stem ("a b", "a-b") get distinct folders; "colours" is
-    # the colour analysis' folder.
-    folders = dict(zip(view_names, unique_stems(view_names, frozenset({"colours"}))))
+    # the colour analysis' folder, "calculation" the calculation's.
+    folders = dict(zip(view_names, unique_stems(view_names, frozenset({"colours", CALCULATION_FOLDER}))))
     pending: list[tuple[ViewImages, list[dict[str, str]], list[np.ndarray]]] = []
     for name in view_names:
         vdir = out / folders[name]
@@ -737,6 +845,10 @@ def run_comparison(
     if analyse:
         section, colours = _colour_analysis(study, setups, observer, colour_views, out)
         sections += (section,)
+    calc = None
+    if calculation:
+        calc_text = {"lampcast.scene_sha256": study.scene_sha256, "lampcast.comparison": compared}
+        calc = _calculation(study, setups, keys, out, calc_text)
     lamps: dict[str, LampFigures] = {}
     for description in descriptions.values():
         for lamp_id in description.lamps:
@@ -757,6 +869,7 @@ def run_comparison(
         lamps=lamps,
         luminance_legend=LUMINANCE_LEGEND,
         luminance_scale_cd_m2=(published(lo), published(hi)),
+        calculation=calc,
     )
     metrics = replace(metrics, summary=tuple(summary_sentences(metrics)))
     text = json.dumps(metrics.to_json(), indent=2, sort_keys=False, ensure_ascii=False) + "\n"

@@ -512,6 +512,10 @@ class ComparisonMetrics:
     lamps
         Lamp id -> :class:`~render.colour.lamp_figures.LampFigures` (as published) of every
         lamp either setup uses.
+    calculation
+        The calculation of the compared setups as ``lampcast calc --json`` gives it
+        (:meth:`render.calc.run.CalculationReport.to_json`) with the report's additions, or why
+        it is absent (:func:`render.output.comparison.calculation_json`); ``None``: not run.
     """
 
     tool: ToolInfo
@@ -527,12 +531,14 @@ class ComparisonMetrics:
     lamps: Mapping[str, LampFigures] | None = None
     luminance_legend: str | None = None
     luminance_scale_cd_m2: tuple[float, float] | None = None
+    calculation: Mapping[str, Any] | None = None
 
     def to_json(self) -> dict[str, Any]:
         """The content of ``metrics.json`` (JSON-safe; keys in a fixed order)."""
         out = _fields_json(self)
-        if self.colours is None:
-            del out["colours"]
+        for key in ("colours", "calculation"):
+            if out[key] is None:
+                del out[key]
         return out
 
     @classmethod
@@ -558,6 +564,7 @@ class ComparisonMetrics:
             lamps={str(k): LampFigures.from_json(v) for k, v in (data.get("lamps") or {}).items()},
             luminance_legend=data.get("luminance_legend"),
             luminance_scale_cd_m2=None if scale is None else (scale[0], scale[1]),
+            calculation=data.get("calculation"),
         )
 
     @property

@@ -12,8 +12,10 @@
   their legend, the side-by-side image, the wipe animation and a luminance table;
 * per lighting setup: its luminaire groups and the lamp figures (CCT, Duv, Ra, R9, CIE 224 Rf,
   TM-30 Rf/Rg, S/P, luminous efficacy of radiation, blue and notch-filterable fractions);
-* further sections (the colour analysis), the observer and render settings, and a footer with
-  the tool version and the scene hash.
+* further sections (the colour analysis); the calculations (headline figures per setup, the
+  class check, the isolux plan, grid heat map and bar chart, the standing caution) when the
+  comparison ran them; the observer and render settings, and a footer with the tool version
+  and the scene hash.
 
 How it is made:
 

@@ -44,6 +44,7 @@ __all__ = [
     "OBSERVER_ROWS",
     "SETTINGS_ROWS",
     "STANDING_CAUTION",
+    "CalculationPart",
     "ExtraPart",
     "Footnote",
     "Heading",
@@ -115,6 +116,8 @@ _FIXED_ANCHORS = frozenset(
         "observer-title",
         "luminance-scale",
         "luminance-scale-title",
+        "calculation",
+        "calculation-title",
     }
 )
 
@@ -278,6 +281,20 @@ class ExtraPart:
 
 
 @dataclass(frozen=True)
+class CalculationPart:
+    """The "Calculations" section: what was calculated (``paragraphs``), the standing caution,
+    the tables (headline figures per setup, class checks) and pictures with their alt texts;
+    ``absent`` says why there is no calculation (then nothing else is shown)."""
+
+    paragraphs: tuple[str, ...]
+    caution: str
+    tables: tuple[Table, ...]
+    figures: tuple[EmbeddedImage, ...]
+    alts: tuple[str, ...]
+    absent: str | None = None
+
+
+@dataclass(frozen=True)
 class Page:
     """Everything the template shows.
 
@@ -298,6 +315,7 @@ class Page:
     settings: Table
     luminance_legend: EmbeddedImage | None = None
     luminance_scale: tuple[NumberCell, NumberCell] | None = None
+    calculation: CalculationPart | None = None
 
 
 # --- building it -------------------------------------------------------------------------------
@@ -590,6 +608,104 @@ def _extra_parts(
     return tuple(parts), nav
 
 
+#: What the "Calculations" section says before its tables (the figures' own notes follow).
+CALCULATION_TEXT = (
+    "Figures an engineer checks, computed from the same scene and the same direct light as the images "
+    "(no interreflections): horizontal illuminance on the calculation fields between the first two luminaires "
+    "of the first row (grids after EN 13201-3 / CIE 140), road luminance and threshold increment for the "
+    "standard observer, upward light, obtrusive light and energy where the scene gives their inputs. "
+    "A dash marks a figure that was not computed.",
+)
+
+
+def _calculation_part(metrics: ComparisonMetrics, images: ImageFolder) -> CalculationPart | None:
+    """The "Calculations" section from ``metrics.calculation`` (``None`` when not run)."""
+    calc = metrics.calculation
+    if calc is None:
+        return None
+    if "absent" in calc:
+        return CalculationPart((), "", (), (), (), absent=str(calc["absent"]))
+    labels = _labels(metrics)
+    setups = list(calc.get("setups") or ())
+    keys = list(calc.get("setup_keys") or ())
+    # A calculation stored without the comparison's keys names its setups itself.
+    names = [labels.get(k, k) for k in keys] + [str(s.get("setup")) for s in setups[len(keys) :]]
+    head = (
+        Heading("figure"),
+        Heading("unit"),
+        *(Heading(n, numeric=True) for n in names),
+    )
+    rows = tuple(
+        Row(
+            RowHead(str(f.get("label", f["key"]))),
+            (
+                TextCell(str(f.get("unit") or "")),
+                *(
+                    NumberCell(
+                        f"calculation.setups.{i}.headline.{f['key']}",
+                        (s.get("headline") or {}).get(f["key"]),
+                        "sig3",
+                        reason="not computed",
+                    )
+                    for i, s in enumerate(setups)
+                ),
+            ),
+        )
+        for f in calc.get("headline_figures") or ()
+    )
+    tables = [Table("calculation-headline", "Headline figures per lighting", rows, head, scrolls=True)]
+    for i, s in enumerate(setups):
+        check = s.get("class_check")
+        if not check:
+            continue
+        base = f"calculation.setups.{i}.class_check.criteria"
+        tables.append(
+            Table(
+                f"calculation-class-{i}",
+                f"Class {check.get('class')} check, {names[i]}: {check.get('verdict')} "
+                f"(class values: {check.get('source')})",
+                tuple(
+                    Row(
+                        RowHead(f"{c.get('symbol')} ({c.get('bound')})"),
+                        (
+                            TextCell(str(c.get("unit") or "")),
+                            NumberCell(f"{base}.{j}.required", c.get("required"), "sig3"),
+                            NumberCell(f"{base}.{j}.achieved", c.get("achieved"), "sig3", reason="not computed"),
+                            NumberCell(f"{base}.{j}.margin", c.get("margin"), "percent0", reason="not computed"),
+                            TextCell(str(c.get("status"))),
+                            TextCell(str(c.get("photometry"))),
+                        ),
+                    )
+                    for j, c in enumerate(check.get("criteria") or ())
+                ),
+                (
+                    Heading("criterion"),
+                    Heading("unit"),
+                    Heading("class value", numeric=True),
+                    Heading("achieved", numeric=True),
+                    Heading("margin (%)", numeric=True),
+                    Heading("result"),
+                    Heading("photometry"),
+                ),
+                scrolls=True,
+            )
+        )
+    pictures = [str(p) for p in calc.get("pictures") or ()]
+    given = [str(a) for a in calc.get("picture_alts") or ()]
+    alts = tuple(
+        given[k] if k < len(given) and given[k] else f"Calculations: figure {k + 1}" for k in range(len(pictures))
+    )
+    caution = str(calc.get("caution") or "").strip()
+    caution = caution[:1].upper() + caution[1:] + ("" if caution.endswith(".") else ".")
+    return CalculationPart(
+        paragraphs=CALCULATION_TEXT,
+        caution=caution,
+        tables=tuple(tables),
+        figures=tuple(images.get(p) for p in pictures),
+        alts=alts,
+    )
+
+
 def build_page(metrics: ComparisonMetrics, images: ImageFolder) -> Page:
     """The :class:`Page` of ``metrics``; images are read through ``images`` (whose
     ``problems`` list anything missing)."""
@@ -600,7 +716,11 @@ def build_page(metrics: ComparisonMetrics, images: ImageFolder) -> Page:
     if metrics.luminance_legend is not None:
         nav.append(("luminance-scale", "Luminance maps: the scale"))
     nav += [(f"view-{v.index}", f"View: {v.name}") for v in views]
-    nav += [("lamps", "The lamps"), *extra_nav, ("observer", "Observer and settings")]
+    calculation = _calculation_part(metrics, images)
+    nav += [("lamps", "The lamps"), *extra_nav]
+    if calculation is not None:
+        nav.append(("calculation", "Calculations"))
+    nav.append(("observer", "Observer and settings"))
     notes = _Footnotes()
     setups = _setup_parts(metrics, notes)
     observer = Table(
@@ -639,6 +759,7 @@ def build_page(metrics: ComparisonMetrics, images: ImageFolder) -> Page:
         observer=observer,
         settings=settings,
         luminance_legend=None if metrics.luminance_legend is None else images.get(metrics.luminance_legend),
+        calculation=calculation,
         luminance_scale=None
         if metrics.luminance_scale_cd_m2 is None
         else tuple(

@@ -1,0 +1,109 @@
+"""The compare report's "Calculations" section and the "calculation" record of metrics.json.
+
+Checks are against the project's own calculation, which other tests tie to outside sources
+(tests/test_calc_*.py: analytic point-source results, the EN 13201 grid rules): metrics.json
+must hold exactly what :func:`render.calc.run.run_calculation` gives for the same setups, and the
+report must show exactly what metrics.json holds (the report's one rounding function).
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pytest
+from scenes_for_tests import write_two_objects_scene
+from test_report import parse, resolve
+
+from render.calc.classes import CAUTION
+from render.calc.run import run_calculation
+from render.output.comparison import parse_setup, run_comparison
+from render.output.report import format_value
+from render.study import Study
+
+SCENES = Path(__file__).resolve().parents[1] / "scenes" / "tests"
+
+#: The two-objects scene with a P-class check in its [calc] table.
+_CALC = """
+[calc]
+lighting_class = "P3"
+"""
+
+
+@pytest.fixture(scope="module")
+def compared(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("calc-report")
+    scene = write_two_objects_scene(folder, _CALC)
+    out = folder / "out"
+    run_comparison(scene, "old", "new", ["van"], out, samples_per_pixel=1, progress=False, colour=False)
+    metrics = json.loads((out / "metrics.json").read_text(encoding="utf-8"))
+    return scene, out, metrics, (out / "report.html").read_text(encoding="utf-8")
+
+
+def _section(text: str):
+    (section,) = [n for n in parse(text).root.iter() if n.tag == "section" and n.attrs.get("id") == "calculation"]
+    return section
+
+
+def test_metrics_hold_the_calculation_run_calculation_gives(compared):
+    scene, _, metrics, _ = compared
+    study = Study(scene)
+    setups = [parse_setup("old", study.scene, "--before"), parse_setup("new", study.scene, "--after")]
+    direct = json.loads(json.dumps(run_calculation(study, setups).to_json()))
+    stored = metrics["calculation"]
+    assert {k: stored[k] for k in direct} == direct
+    assert stored["setup_keys"] == ["before", "new"]
+    assert [f["key"] for f in stored["headline_figures"]] == list(direct["setups"][0]["headline"])
+    assert stored["setups"][0]["class_check"]["class"] == "P3"
+
+
+def test_report_section_shows_the_metrics(compared):
+    _, out, metrics, text = compared
+    section = _section(text)
+    cells = [n for n in section.iter() if "data-metric" in n.attrs]
+    paths = set()
+    for cell in cells:
+        path, rule = cell.attrs["data-metric"], cell.attrs["data-rule"]
+        value = resolve(metrics, path)
+        assert json.loads(cell.attrs["data-value"]) == value, path
+        shown = cell.children[0] if cell.children and isinstance(cell.children[0], str) else ""
+        assert shown == format_value(value, rule), path
+        paths.add(path)
+    calc = metrics["calculation"]
+    for i, _ in enumerate(calc["setups"]):
+        for figure in calc["headline_figures"]:
+            assert f"calculation.setups.{i}.headline.{figure['key']}" in paths
+        for j, _ in enumerate(calc["setups"][i]["class_check"]["criteria"]):
+            assert f"calculation.setups.{i}.class_check.criteria.{j}.achieved" in paths
+    words = section.text()
+    assert "Headline figures per lighting" in words and "Class P3 check" in words
+    assert CAUTION[:1].upper() + CAUTION[1:] in words  # the standing caution, as a sentence
+    # The three pictures, each embedded with its alt text, and in the contents.
+    images = [n for n in section.iter() if n.tag == "img"]
+    assert len(images) == len(calc["pictures"]) == 3
+    for img in images:
+        assert img.attrs["src"].startswith("data:image/png;base64,") and img.attrs["alt"].strip()
+    for rel in calc["pictures"]:
+        assert (out / rel).is_file()
+    assert 'href="#calculation"' in text
+
+
+def test_scene_without_street_says_why(tmp_path):
+    out = tmp_path / "out"
+    run_comparison(
+        SCENES / "point_over_plane.toml",
+        "sodium",
+        "dimmed-hps",
+        None,
+        out,
+        width_px=32,
+        samples_per_pixel=1,
+        progress=False,
+        colour=False,
+    )
+    metrics = json.loads((out / "metrics.json").read_text(encoding="utf-8"))
+    assert set(metrics["calculation"]) == {"absent"} and "[street]" in metrics["calculation"]["absent"]
+    section = _section((out / "report.html").read_text(encoding="utf-8"))
+    assert "no [street]" in section.text()
+    assert not [n for n in section.iter() if n.tag in ("img", "table")]
+    assert not (out / "calculation").exists()
