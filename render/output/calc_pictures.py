@@ -17,7 +17,8 @@ with one panel per setup so the setups compare at a glance:
   (:meth:`~render.calc.run.SetupCalculation.headline`): one small panel per figure with its
   unit in the title, one bar per setup with its value; a figure that was not computed says so
   in its panel; where a class check exists, the class limit of the matching criterion is a
-  dashed line (criteria compared in mesopic photometry are left out: their bars are photopic).
+  dashed line, its value in the panel's title (criteria compared in mesopic photometry are
+  left out: their bars are photopic).
 
 The figures and fields are read through the report's public records only, so figures added to
 the headline later appear without changes here. Colour maps are perceptually uniform and keep
@@ -377,7 +378,10 @@ def bar_chart(
         h = figures[k]
         values = [head[k].value for head in heads]
         unit = f" ({h.unit})" if h.unit else ""
-        ax.set_title(f"{h.label}{unit}", fontsize=7.5)
+        limit_text = ""
+        if h.key in limits:
+            limit_text = f"\n- - {limits[h.key][1]} {format_value(limits[h.key][0], 'sig3')}"
+        ax.set_title(f"{h.label}{unit}{limit_text}", fontsize=7.5)
         shown = [v for v in values if v is not None and math.isfinite(v)]
         top = max([*shown, 0.0])
         if h.key in limits:
@@ -388,11 +392,18 @@ def bar_chart(
                 ax.text(i, 0.05 * top, "not\ncomputed", ha="center", va="bottom", fontsize=6, color="#505050")
                 continue
             ax.bar(i, v, color=colours[i], width=0.7)
-            ax.text(i, v, format_value(v, "sig3"), ha="center", va="bottom", fontsize=6.5)
+            ax.text(
+                i,
+                v,
+                format_value(v, "sig3"),
+                ha="center",
+                va="bottom",
+                fontsize=6.5,
+                zorder=4,
+                bbox={"facecolor": "white", "edgecolor": "none", "pad": 0.6},
+            )
         if h.key in limits:
-            limit, what = limits[h.key]
-            ax.axhline(limit, color="black", linestyle="--", linewidth=0.9)
-            ax.text(n - 0.5, limit, f"{what} {format_value(limit, 'sig3')}", ha="right", va="bottom", fontsize=6)
+            ax.axhline(limits[h.key][0], color="black", linestyle="--", linewidth=0.9)
         ax.set_xlim(-0.6, n - 0.4)
         ax.set_ylim(0.0, 1.18 * top)
         ax.set_xticks([])
