@@ -23,6 +23,7 @@ from collections.abc import Iterator
 from pathlib import Path
 
 __all__ = [
+    "is_inside",
     "atomic_path",
     "atomic_write_bytes",
     "atomic_write_text",
@@ -160,6 +161,14 @@ def read_user_toml(path: str | os.PathLike, kind: str, expected: str) -> dict:
 
 
 _EXTENSION = re.compile(r"\.[A-Za-z][A-Za-z0-9]*$")
+
+
+def is_inside(path: str | os.PathLike, root: str | os.PathLike) -> bool:
+    """Whether ``path`` (symbolic links followed) lies inside the folder ``root`` (strict paths)."""
+    try:
+        return Path(path).resolve().is_relative_to(Path(root).resolve())
+    except (OSError, RuntimeError, ValueError):
+        return False
 
 
 def looks_like_path(ref: str) -> bool:

@@ -12,10 +12,9 @@ import pytest
 from render.calc import run as calc_run
 from render.calc.fields import evaluate_field, row_fields
 from render.calc.run import calc_options, calc_study, run_calculation
-from render.calc.sky import photometric_reflectance
 from render.cli import main
 from render.colour.lamps import get_lamp
-from render.colour.materials import get_material, material_library
+from render.colour.materials import get_material, luminous_reflectance, material_library
 from render.study import Study
 
 MINIMAL = Path(__file__).resolve().parent.parent / "scenes" / "tests" / "minimal_street.toml"
@@ -201,7 +200,7 @@ def test_reflected_and_direct_upward_flux_analytic(tmp_path):
         * _rectangle_solid_angle(0.0, street.length_m, -y_edge, y_edge, lum.position_m[0], lum.position_m[1], 6.0)
         for lum in study.scene.luminaires
     )
-    rho = photometric_reflectance(
+    rho = luminous_reflectance(
         get_material("concrete-paving", material_library()).reflectance, get_lamp("led-4000k-cie-b3").spd
     )
     # Midpoint rule on 1 m patches under sources 6 m high: error well under 0.2 % here.
@@ -284,3 +283,34 @@ def test_calc_shadow_offset_clears_markings():
     from render.geometry.build import MARKING_LIFT_M
 
     assert calc_run.CALC_SHADOW_OFFSET_M > 2 * MARKING_LIFT_M
+
+
+def test_scene_r_table_keys_are_checked_on_load(tmp_path, capsys):
+    # lampcast's r-table layout (render.light.rtable): Q0 scaling needs the table's own Q0.
+    (tmp_path / "r.csv").write_text("scale,0.0001\ntan_gamma,0,180\n0,300,200\n12,100,50\n", encoding="utf-8")
+    base = BASE.replace("carriageway_width_m = 6.0", 'carriageway_width_m = 6.0\nr_table = "r.csv"\nq0_sr = 0.07')
+    path = _scene(tmp_path, "", base=base)
+    assert main(["check", str(path), "-q"]) == 2
+    assert "street.q0_sr" in capsys.readouterr().err
+    no_table = _scene(
+        tmp_path, "", base=BASE.replace("carriageway_width_m = 6.0", "carriageway_width_m = 6.0\nq0_sr = 0.07")
+    )
+    assert main(["check", str(no_table), "-q"]) == 2
+    assert "give `r_table`" in capsys.readouterr().err
+    (tmp_path / "bad.csv").write_text("scale,0.0001\ntan_gamma,0,180\n0,300,x\n", encoding="utf-8")
+    bad = _scene(
+        tmp_path, "", base=BASE.replace("carriageway_width_m = 6.0", 'carriageway_width_m = 6.0\nr_table = "bad.csv"')
+    )
+    assert main(["check", str(bad), "-q"]) == 2
+    err = capsys.readouterr().err
+    assert "bad.csv" in err and "line 3" in err
+
+
+def test_scene_r_table_is_the_calculation_default(tmp_path):
+    (tmp_path / "r.csv").write_text("scale,0.0001\nq0,0.07\ntan_gamma,0,180\n0,300,200\n12,100,50\n", encoding="utf-8")
+    base = BASE.replace("carriageway_width_m = 6.0", 'carriageway_width_m = 6.0\nr_table = "r.csv"\nq0_sr = 0.14')
+    study = Study(_scene(tmp_path, "", base=base))
+    opts = calc_options(study.scene)
+    assert opts.r_table is not None and opts.q0_sr == 0.14
+    setup = run_calculation(study, [None], opts).setups[0]
+    assert setup.luminance_model == "r-table" and setup.road_reflectance is None

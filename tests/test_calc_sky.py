@@ -13,7 +13,6 @@ from colour.colorimetry import SDS_LEFS_PHOTOPIC
 from render.calc.sky import (
     direct_upward_flux_lm,
     notch_filterable_fraction,
-    photometric_reflectance,
     rayleigh_weight_per_lm,
     reflected_upward_flux_lm,
     scotopic_weight_per_lm,
@@ -23,6 +22,7 @@ from render.calc.sky import (
 )
 from render.colour.lamps import make_lamp
 from render.colour.lamps.model import LAMP_TYPES, LineSpectrum
+from render.colour.materials import luminous_reflectance
 from render.colour.spectra import WAVELENGTHS_NM
 from render.light.photometry import load_photometry, luminous_flux_lm, ulor
 from render.light.photometry.model import frozen_array
@@ -83,18 +83,18 @@ def test_reflected_upward_flux_of_a_lit_plane():
     assert reflected_upward_flux_lm([10.0, 30.0], [0.2, 0.1], [1.0, 3.0]) == pytest.approx(2.0 + 9.0, rel=1e-12)
 
 
-def test_photometric_reflectance():
+def test_photometric_reflectance_under_a_lamp():
     # Analytic: a grey reflectance keeps its value under any lamp; under monochromatic light the
     # photometric reflectance is the reflectance at that line.
     lamp = _mono(589.0) + 0.5 * _mono(450.0)
-    assert photometric_reflectance(np.full(WAVELENGTHS_NM.size, 0.3), lamp) == pytest.approx(0.3, rel=1e-12)
+    assert luminous_reflectance(np.full(WAVELENGTHS_NM.size, 0.3), lamp) == pytest.approx(0.3, rel=1e-12)
     step = np.where(WAVELENGTHS_NM < 500.0, 0.8, 0.1)
-    assert photometric_reflectance(step, _mono(589.0)) == pytest.approx(0.1, rel=1e-12)
+    assert luminous_reflectance(step, _mono(589.0)) == pytest.approx(0.1, rel=1e-12)
     # By hand with colour-science's V table: Σ ρ s V / Σ s V for two lines.
     v450 = SDS_LEFS_PHOTOPIC["CIE 1924 Photopic Standard Observer"][450]
     v589 = SDS_LEFS_PHOTOPIC["CIE 1924 Photopic Standard Observer"][589]
     expected = (0.8 * 0.5 * v450 + 0.1 * v589) / (0.5 * v450 + v589)
-    assert photometric_reflectance(step, lamp) == pytest.approx(expected, rel=1e-9)
+    assert luminous_reflectance(step, lamp) == pytest.approx(expected, rel=1e-9)
 
 
 def test_rayleigh_weight_of_monochromatic_lines_by_hand():

@@ -62,12 +62,12 @@ from render.calc.sky import (
     SkyGlowRelative,
     ground_patches,
     notch_filterable_fraction,
-    photometric_reflectance,
     sky_figures,
     sky_glow_relative,
     upward_flux_lm,
 )
 from render.calc.ti import DEFAULT_AGE_YEARS, RoadWorstCase, TIResult, road_worst_case, threshold_increment
+from render.colour.materials import luminous_reflectance
 from render.errors import did_you_mean, input_error
 from render.light.luminaires import channel_factors, setting_for
 from render.light.rtable import RTable, read_r_table
@@ -388,7 +388,7 @@ def _sky(study: Study, lights, setup, reflect_lx: dict[str, np.ndarray], patches
     group_lamp = {ch.group: lamps[i] for i, ch in enumerate(lights.channels)}
     for group, e in reflect_lx.items():
         lamp = group_lamp[group]
-        rho = np.array([photometric_reflectance(r, spds[lamp]) for r in reflect])[patches.material_index]
+        rho = np.array([luminous_reflectance(r, spds[lamp]) for r in reflect])[patches.material_index]
         reflected[lamp] += float(np.sum(rho * e * patches.area_m2))
     base = study.scene.base_dir
     notch = [notch_filterable_fraction(get_lamp(ref, base_dir=base, source=str(study.scene.path))) for ref in order]
@@ -456,7 +456,7 @@ def _road_reflectance(study: Study, setup) -> float:
     material = get_material(street.carriageway_material, study.materials, source=str(study.scene.path))
     _, lamps = channel_factors(study.lights(setup), setup)
     spd = study.lamp_spds(lamps[:1])[0]
-    return photometric_reflectance(material.reflectance, spd)
+    return luminous_reflectance(material.reflectance, spd)
 
 
 def _s_p_ratio(study: Study, lights, setup, lanes) -> float:

@@ -20,7 +20,8 @@
   under the lamp lighting it gives the reflected upward flux. Facades and objects are left out
   (a wall sends half its reflected light up; house fronts receive far less light than the
   ground), so the figure is a lower bound, stated so.
-* **Photometric reflectance** of a material under a lamp: ρ_v = Σ ρ(λ) s(λ) V(λ) / Σ s(λ) V(λ).
+* **Photometric reflectance** of a material under a lamp: ρ_v = Σ ρ(λ) s(λ) V(λ) / Σ s(λ) V(λ)
+  (:func:`render.colour.materials.luminous_reflectance` with the lamp as illuminant).
 * **Sky-glow weighting**: the upward lumens of each lamp times a per-lumen spectral weight,
   relative to the before setup. Two weightings, both stated as *indicators*, not a sky-glow model:
   Rayleigh scattering, w_R = V(λ₀)·Σ s (λ₀/λ)⁴ / Σ s V with λ₀ = 555 nm (so monochromatic 555 nm light
@@ -70,7 +71,6 @@ __all__ = [
     "SkyGlowRelative",
     "direct_upward_flux_lm",
     "notch_filterable_fraction",
-    "photometric_reflectance",
     "rayleigh_weight_per_lm",
     "reflected_upward_flux_lm",
     "scotopic_weight_per_lm",
@@ -186,13 +186,6 @@ def ground_patches(street: Street, spacing_m: float = 1.0) -> GroundPatches:
         areas.append(np.full(gx.size, dx * dy))
         index.append(np.full(gx.size, materials.index(material), np.int64))
     return GroundPatches(np.concatenate(pts), np.concatenate(areas), np.concatenate(index), materials)
-
-
-def photometric_reflectance(reflectance: npt.ArrayLike, spd: npt.ArrayLike) -> float:
-    """ρ_v = Σ ρ s V / Σ s V of a gridded reflectance under a gridded lamp spectrum."""
-    v = photopic_lef()
-    sv = np.asarray(spd, dtype=np.float64) * v
-    return float(np.sum(np.asarray(reflectance, dtype=np.float64) * sv) / np.sum(sv))
 
 
 def rayleigh_weight_per_lm(spd: npt.ArrayLike) -> float:

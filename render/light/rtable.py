@@ -90,7 +90,7 @@ import numpy as np
 from numba import prange
 
 from render.errors import input_error
-from render.fileio import read_user_text
+from render.fileio import is_inside, read_user_text
 
 if TYPE_CHECKING:
     from render.geometry.mesh import TriangleMesh
@@ -360,7 +360,7 @@ def view_road_shading(scene: Scene, view: View, mesh: TriangleMesh, reflectances
         return None
     path = Path(street.r_table_file)
     root = scene.reference_root
-    if root is not None and not _inside(path, Path(root)):
+    if root is not None and not is_inside(path, root):
         raise input_error(
             scene.path,
             "street.r_table",
@@ -381,11 +381,3 @@ def view_road_shading(scene: Scene, view: View, mesh: TriangleMesh, reflectances
     rho = np.asarray(reflectances, np.float64)[int(mesh.material_id[on_road[0]])]
     mean = float(luminous_reflectance(rho, np.ones_like(rho)))
     return RoadShading(table=table, object_id=object_id, q_scale=q_scale, mean_reflectance=mean)
-
-
-def _inside(path: Path, root: Path) -> bool:
-    """Whether ``path`` (symbolic links followed) lies inside the folder ``root``."""
-    try:
-        return path.resolve().is_relative_to(root.resolve())
-    except (OSError, RuntimeError, ValueError):
-        return False

@@ -588,6 +588,17 @@ def _street(table: dict, ctx: _Context) -> Street | None:
         "line_material",
     ):
         ctx.material(s[key], f"street.{key}")
+    r_table = ctx.data_file(s["r_table"], "street.r_table", "r_table")
+    if s["q0_sr"] is not None and s["r_table"] is None:
+        ctx.problems.add("street.q0_sr", "q0_sr scales an r-table: give `r_table` too")
+    elif s["q0_sr"] is not None and r_table is not None:
+        from render.light.rtable import read_r_table
+
+        if read_r_table(r_table).q0_sr is None:
+            ctx.problems.add(
+                "street.q0_sr",
+                f"the r-table {r_table.name} gives no Q0 (a 'q0,VALUE' line), so it cannot be scaled to the road's Q0",
+            )
     if any(s[k] is None for k in ("length_m", "carriageway_width_m")):
         return None
     return Street(
@@ -603,7 +614,7 @@ def _street(table: dict, ctx: _Context) -> Street | None:
         left=sides["left"],
         right=sides["right"],
         wet=bool(s["wet"]),
-        r_table_file=ctx.data_file(s["r_table"], "street.r_table", "r_table"),
+        r_table_file=r_table,
         q0_sr=s["q0_sr"],
         r_table_views=s["r_table_views"] or "driver",
     )

@@ -97,7 +97,7 @@ from pathlib import Path
 import numpy as np
 
 from render.errors import InputError, input_error
-from render.fileio import read_user_bytes
+from render.fileio import is_inside, read_user_bytes
 from render.light.photometry.formats import FORMAT_NAMES, guess_photometric_format
 from render.light.photometry.model import (
     ANGLE_TOL_DEG,
@@ -298,18 +298,10 @@ def _decode(data: bytes) -> str:
         return data.decode("cp1252", errors="replace")
 
 
-def _inside(path: Path, root: Path) -> bool:
-    """Whether ``path`` (symbolic links followed) lies inside the folder ``root``."""
-    try:
-        return path.resolve().is_relative_to(root.resolve())
-    except (OSError, RuntimeError, ValueError):
-        return False
-
-
 def require_inside(path: Path, allowed_root: str | os.PathLike | None) -> None:
     """With strict paths (``allowed_root`` set), an :class:`InputError` unless the photometric
     file ``path`` lies inside that folder once symbolic links are followed."""
-    if allowed_root is not None and not _inside(path, Path(allowed_root)):
+    if allowed_root is not None and not is_inside(path, allowed_root):
         raise input_error(
             path,
             "",
@@ -649,7 +641,7 @@ def _read_tilt_file(
         raise input_error(source, where, "the tilt file name after 'TILT=' contains a NUL byte")
     base = Path(base_dir) if base_dir is not None else Path.cwd()
     path = base / name
-    if allowed_root is not None and not _inside(path, Path(allowed_root)):
+    if allowed_root is not None and not is_inside(path, allowed_root):
         raise input_error(
             source,
             where,
