@@ -506,12 +506,12 @@ def cmd_calc(args: argparse.Namespace) -> int:
     written = write_field_csvs(scene, report, args.csv) if args.csv else []
     pictures = []
     if args.pictures:
-        from render.calc.plan import plan_illuminance
+        from render.calc.plan import compute_plan
         from render.calc.run import calc_study
         from render.output.calc_pictures import write_calc_pictures
 
         used = calc_study(study, options.include_objects)
-        plans = {s: plan_illuminance(used, s) for s in setups}
+        plans = {s: compute_plan(used, s) for s in setups}
         pictures = write_calc_pictures(report, plans, args.pictures)
     if args.json:
         _print_json({**report.to_json(), "csv_files": written, "pictures": pictures})

@@ -132,3 +132,13 @@ def test_r_table_is_labelled_and_q0_scales_luminance(tmp_path, capsys):
         assert b["mean_cd_m2"] == pytest.approx(2.0 * a["mean_cd_m2"], rel=1e-12)
     assert main(["calc", str(MINIMAL), "--q0", "0.1", "-q"]) == 2
     assert "--q0" in capsys.readouterr().err
+
+
+def test_pictures_option_writes_the_three_pngs(tmp_path, capsys):
+    # PNG signature (ISO/IEC 15948): the three calculation pictures are written and listed.
+    out = tmp_path / "pictures"
+    data = _run_json(capsys, ["calc", str(MINIMAL), "--pictures", str(out), "--json", "-q"])
+    files = sorted(Path(p).name for p in data["pictures"])
+    assert files == ["figures.png", "grid-illuminance.png", "isolux.png"]
+    for name in files:
+        assert (out / name).read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
