@@ -214,7 +214,9 @@ def test_sky_glow_relative_scales_with_lumens(tmp_path):
     path = _scene(tmp_path, "[setups.a]\nlumens = 3000.0\n\n[setups.b]\nlumens = 6000.0\n")
     report = run_calculation(Study(path), ["a", "b"])
     rel = report.setups[1].sky_relative
-    assert report.setups[0].sky_relative is None and rel is not None
+    own = report.setups[0].sky_relative
+    assert own is not None and own.upward == own.rayleigh_weighted == own.scotopic_weighted == 1.0
+    assert rel is not None
     # Exact but for the contributions below Study.negligible_lx the light evaluation skips,
     # which do not double with the lumens: agreement to 1e-5.
     for value in (rel.upward, rel.rayleigh_weighted, rel.scotopic_weighted):

@@ -252,7 +252,7 @@ class SetupCalculation:
     worst: RoadWorstCase | None
     obtrusive: tuple[ObtrusiveResult, ...]
     sky: SkyFigures
-    sky_relative: SkyGlowRelative | None  # to the first setup of the run (None for that one)
+    sky_relative: SkyGlowRelative | None  # to the first setup of the run (1 for that one)
     energy: SetupEnergy | None
     energy_note: str  # why energy is not computed ("" when it is)
     energy_vs_before: EnergyDifference | None
@@ -561,6 +561,8 @@ def run_calculation(study: Study, setups: list[str | None], options: CalcOptions
     used = calc_study(study, opts.include_objects)
     out = [setup_calculation(used, s, opts) for s in setups]
     first = out[0] if out else None
+    if first is not None:
+        out[0] = first = replace(first, sky_relative=sky_glow_relative(first.sky, first.sky))
     for i in range(1, len(out)):
         c = out[i]
         assert first is not None
