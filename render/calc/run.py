@@ -46,7 +46,7 @@ EN 13201-3:2015 and CIE 140-2000 (fields, luminance, TI) and EN 13201-2:2015 (cl
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field, replace
+from dataclasses import asdict, dataclass, field, replace
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -429,20 +429,12 @@ def _energy(study: Study, lights, setup) -> tuple[SetupEnergy | None, str]:
             f"not computed: no input watts for the luminaires of group(s) {groups} "
             "(give input_watts in the setup, or use a photometric file that states them)"
         )
-    e = settings
     result = setup_energy(
         [LuminairePower(g, n, w, src, d, mf) for (g, w, src, d, mf), n in parts.items()],
         setup.schedule if setup is not None else (),
         setup=setup.name if setup is not None else None,
-        annual_burning_hours_h=e.annual_burning_hours_h,
-        night_hours=e.night_hours,
-        tariff_per_kwh=e.tariff_per_kwh,
-        currency=e.currency,
-        grid_factor_kg_per_kwh=e.grid_factor_kg_per_kwh,
-        lifetime_h=e.lifetime_h,
-        constant_light_output=e.constant_light_output,
-        minimum_power_fraction=e.minimum_power_fraction,
         source=str(scene.path),
+        **asdict(settings),  # EnergySettings' fields are setup_energy's keywords
     )
     return result, ""
 
