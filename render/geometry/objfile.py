@@ -6,6 +6,12 @@ are in :mod:`render.geometry.shapes`. Mistakes in the file raise
 :data:`render.limits.MAX_PROBLEMS_PER_FILE` at once); bad arguments
 (``scale``, ``up_axis``) raise :class:`ValueError`.
 
+An ordinary file (printable ASCII, no continued lines, every face reference written the same
+way, no mistake) is read all at once with numpy (``_read_fast``: a million triangles in about a
+second); anything else, and every file with a mistake, is read statement by statement
+(``_read_statements``), which names the line of each mistake. Both give the same arrays, bit
+for bit (``tests/test_objfile_whole.py``).
+
 Against hostile files: the file is read as a size-capped regular file
 (:func:`render.fileio.read_user_text`, kind "OBJ file"); reading is linear in its size
 (continued lines are joined once, vertices and face references are kept in flat arrays); the
@@ -30,6 +36,7 @@ import os
 import re
 from array import array
 from collections.abc import Iterator, Mapping, Sequence
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -115,59 +122,37 @@ def _unit_vectors(v: np.ndarray) -> np.ndarray:
     return np.divide(w, length, out=np.zeros_like(w), where=length > 0)
 
 
-def load_obj(
-    path: str | os.PathLike,
-    *,
-    scale: float = 1.0,
-    up_axis: str = "z",
-    slot_map: Mapping[str, str] | None = None,
-    default_slot: str = "body",
-) -> list[Part]:
-    """Read a Wavefront OBJ file into parts, one per material slot.
+@dataclass(frozen=True)
+class _Statements:
+    """What an OBJ file's statements hold, in file order: vertices (scaled, file frame), raw
+    normals, the material slots by name, and the faces as flat arrays: vertex and normal
+    references (0-based; normals -1 for a face without them), each face's first reference, size,
+    slot and line."""
 
-    Supported: ``v`` (3 coordinates, optionally a 4th weight or 3 colour values, which are
-    ignored), ``vn``, ``vt`` (counted for index checks only), ``f`` with ``v``, ``v/vt``,
-    ``v//vn`` and ``v/vt/vn`` references (1-based; negative indices count back from the latest
-    vertex), polygon faces (fan for convex, ear clipping otherwise), ``usemtl`` (the material
-    name becomes the slot, through ``slot_map`` if given; faces before any ``usemtl`` get
-    ``default_slot``), line continuation with a trailing backslash and ``#`` comments. Other
-    statements (``o``, ``g``, ``s``, ``mtllib``, lines, curves, unknown keywords) are ignored.
-    Faces whose references all carry normals use them (normalised) as shading normals, others
-    are flat. Zero-area triangles are dropped.
+    vertices: np.ndarray
+    normals: np.ndarray
+    slots: dict[str, int]
+    face_v: np.ndarray
+    face_n: np.ndarray
+    face_start: np.ndarray
+    face_size: np.ndarray
+    face_slot: np.ndarray
+    face_line: np.ndarray
 
-    Parameters
-    ----------
-    scale
-        Factor from file units to metres (e.g. 0.01 for centimetres).
-    up_axis
-        ``"z"`` (file is z-up, used as is) or ``"y"`` (file is y-up: turned so that its +y
-        becomes +z and its +z becomes −y; a proper rotation, winding kept).
 
-    Raises
-    ------
-    render.errors.InputError
-        Naming the file and line for an unreadable file, a malformed statement (bad or
-        non-finite number, missing coordinates), a coordinate beyond
-        :data:`render.limits.MAX_COORDINATE_M` after scaling, an index of 0 or out of range, a
-        face with fewer than 3 or more than :data:`render.limits.MAX_POLYGON_VERTICES`
-        vertices, a zero-length normal, a self-intersecting polygon face, more vertices than
-        3 × :data:`render.limits.MAX_TRIANGLES` or more triangles than
-        :data:`~render.limits.MAX_TRIANGLES`, or a file with no faces. Up to
-        :data:`~render.limits.MAX_PROBLEMS_PER_FILE` problems are reported together (the file
-        is not read past the last of them).
-    ValueError
-        For a bad ``scale`` or ``up_axis`` (arguments, not file content).
-    """
-    s = _scale_factor(scale)
-    if up_axis not in ("z", "y"):
-        raise ValueError(f"up_axis must be 'z' or 'y', got {up_axis!r}")
-    src = str(path)
-    text = read_user_text(path, "OBJ file", "a Wavefront OBJ text file")
-    max_triangles = limits.MAX_TRIANGLES
-    max_vertices = 3 * max_triangles
-    max_face = limits.MAX_POLYGON_VERTICES
-    max_coordinate = limits.MAX_COORDINATE_M
-
+def _read_statements(
+    text: str,
+    s: float,
+    src: str,
+    max_vertices: int,
+    max_triangles: int,
+    max_face: int,
+    max_coordinate: float,
+    slot_map: Mapping[str, str] | None,
+    default_slot: str,
+) -> _Statements:
+    """Read the statements one by one, reporting every mistake with its line (the reference
+    reader: :func:`_read_fast` gives the same result for the files it accepts)."""
     problems = ProblemList(src)
     verts = array("d")  # x, y, z of every vertex (scaled)
     norms = array("d")
@@ -253,14 +238,306 @@ def load_obj(
             slot = slots.setdefault(slot_map.get(name, name) if slot_map else name, len(slots))
         # Other statements (o, g, s, mtllib, vp, l, p, curves and surfaces, unknown keywords) are ignored.
     problems.raise_if_any()
-    if not face_start:
+
+    def ints(a: array) -> np.ndarray:
+        return np.frombuffer(a, dtype=np.int64) if len(a) else np.zeros(0, np.int64)
+
+    return _Statements(
+        np.frombuffer(verts, dtype=np.float64).reshape(-1, 3) if n_verts else np.zeros((0, 3)),
+        np.frombuffer(norms, dtype=np.float64).reshape(-1, 3) if n_norms else np.zeros((0, 3)),
+        slots,
+        ints(face_v),
+        ints(face_n),
+        ints(face_start),
+        ints(face_size),
+        ints(face_slot),
+        ints(face_line),
+    )
+
+
+# --- the whole-file reader ----------------------------------------------------------------------
+
+# Text the whole-file reader leaves to the statement reader: anything but printable ASCII, tabs
+# and line breaks (Python's split() knows more white space than spaces and tabs; line numbers
+# count only LF, CR LF and CR), and backslashes (continued lines).
+_PLAIN_BYTES = bytes([9, 10, 13, *range(0x20, 0x5C), *range(0x5D, 0x7F)])
+_COMMENT = re.compile(r"#[^\n]*")
+_LEADING_SPACE = re.compile(r"^[ \t]+", re.MULTILINE)
+_SPACE, _TAB, _LF, _SLASH = 32, 9, 10, 47
+
+
+class _Unusual(Exception):
+    """The whole-file reader met something it leaves to the statement reader."""
+
+
+def _tokens_per_line(body: bytes, n_lines: int) -> tuple[np.ndarray, np.ndarray]:
+    """For ``body`` (``n_lines`` lines joined by LF, fields separated by spaces or tabs): the
+    number of tokens on each line and the byte offset where each token starts."""
+    if not n_lines:
+        return np.zeros(0, np.int64), np.zeros(0, np.int64)
+    b = np.frombuffer(body, dtype=np.uint8)
+    sep = (b == _SPACE) | (b == _TAB) | (b == _LF)
+    start = ~sep
+    start[1:] &= sep[:-1]
+    token_at = np.flatnonzero(start)
+    line_ends = np.flatnonzero(b == _LF)
+    cut = np.searchsorted(token_at, line_ends)
+    counts = np.diff(np.concatenate([[0], cut, [token_at.size]]))
+    if counts.size != n_lines:  # pragma: no cover - lines hold no LF
+        raise _Unusual
+    return counts, token_at
+
+
+def _floats(tokens: list[str]) -> np.ndarray:
+    """Tokens as finite floats, exactly as ``float(token)`` reads them."""
+    try:
+        out = np.fromiter(map(float, tokens), dtype=np.float64, count=len(tokens))
+    except ValueError:
+        raise _Unusual from None
+    if not np.all(np.isfinite(out)):
+        raise _Unusual
+    return out
+
+
+def _ints(tokens: list[str]) -> np.ndarray:
+    """Tokens as integers, exactly as ``int(token)`` reads them (int64)."""
+    try:
+        return np.fromiter(map(int, tokens), dtype=np.int64, count=len(tokens))
+    except (ValueError, OverflowError):
+        raise _Unusual from None
+
+
+def _numbers(lines: list[str], key_chars: int, allowed: tuple[int, ...]) -> tuple[np.ndarray, np.ndarray]:
+    """The numbers of statements whose keyword is ``key_chars`` long: (all numbers in order,
+    count per statement), every count one of ``allowed``."""
+    body = "\n".join([line[key_chars:] for line in lines])
+    counts, _ = _tokens_per_line(body.encode("ascii"), len(lines))
+    if not np.all(np.isin(counts, allowed)):
+        raise _Unusual
+    return _floats(body.split()), counts
+
+
+def _first_three(values: np.ndarray, counts: np.ndarray) -> np.ndarray:
+    """(n, 3): the first three numbers of each statement."""
+    first = np.concatenate([[0], np.cumsum(counts)[:-1]]) if counts.size else np.zeros(0, np.int64)
+    return values[first[:, None] + np.arange(3)]
+
+
+def _resolve(raw: np.ndarray, count_so_far: np.ndarray) -> np.ndarray:
+    """OBJ references (1-based, negative counting back) as 0-based indices, checked in range."""
+    if np.any(raw == 0):
+        raise _Unusual
+    out = np.where(raw > 0, raw - 1, count_so_far + raw)
+    if np.any((out < 0) | (out >= count_so_far)):
+        raise _Unusual
+    return out
+
+
+def _face_numbers(lines: list[str], max_face: int) -> tuple[np.ndarray, list[np.ndarray]]:
+    """Sizes of the faces and their references as columns (vertex; vertex, texture; vertex,
+    normal; or vertex, texture, normal), all references of the file written alike."""
+    body = "\n".join([line[1:] for line in lines])
+    raw = body.encode("ascii")
+    sizes, token_at = _tokens_per_line(raw, len(lines))
+    if sizes.size and (sizes.min() < 3 or sizes.max() > max_face):
+        raise _Unusual
+    n_refs = int(sizes.sum())
+    slash_at = np.flatnonzero(np.frombuffer(raw, dtype=np.uint8) == _SLASH)
+    per_ref = np.bincount(np.searchsorted(token_at, slash_at, side="right") - 1, minlength=n_refs)
+    kind = int(per_ref[0]) if n_refs else 0
+    if n_refs and (per_ref.min() != kind or per_ref.max() != kind):
+        raise _Unusual
+    if kind == 0:
+        columns = 1
+    elif kind == 1:  # v/vt
+        body, columns = body.replace("/", " "), 2
+    elif kind == 2 and body.count("//") == n_refs:  # v//vn
+        body, columns = body.replace("//", " "), -2
+    elif kind == 2 and "//" not in body:  # v/vt/vn
+        body, columns = body.replace("/", " "), 3
+    else:
+        raise _Unusual
+    tokens = body.split()
+    if len(tokens) != n_refs * abs(columns):  # an empty field (5/ or /5) joined its neighbour
+        raise _Unusual
+    values = _ints(tokens).reshape(n_refs, abs(columns))
+    names = {1: ("v",), 2: ("v", "vt"), -2: ("v", "vn"), 3: ("v", "vt", "vn")}[columns]
+    return sizes, [values[:, k] for k in range(len(names))], names
+
+
+def _read_fast(
+    text: str,
+    s: float,
+    max_vertices: int,
+    max_triangles: int,
+    max_face: int,
+    max_coordinate: float,
+    slot_map: Mapping[str, str] | None,
+    default_slot: str,
+) -> _Statements | None:
+    """Read an ordinary OBJ file all at once with numpy, giving what :func:`_read_statements`
+    gives; None for anything else (a mistake, continued lines, other characters, references
+    written in different ways, counts beyond the limits), which that reader then reports."""
+    if not text.isascii() or text.encode("ascii").translate(None, _PLAIN_BYTES):
+        return None
+    try:
+        return _read_plain(text, s, max_vertices, max_triangles, max_face, max_coordinate, slot_map, default_slot)
+    except _Unusual:
+        return None
+
+
+def _read_plain(text, s, max_vertices, max_triangles, max_face, max_coordinate, slot_map, default_slot):
+    if "\r" in text:
+        text = text.replace("\r\n", "\n").replace("\r", "\n")  # line numbers as _statements counts them
+    if "#" in text:
+        text = _COMMENT.sub("", text)
+    b = np.frombuffer(text.encode("ascii") + b"\n\n\n", dtype=np.uint8)
+    starts = np.concatenate([[0], np.flatnonzero(b[:-3] == _LF) + 1])
+    if np.any((b[starts] == _SPACE) | (b[starts] == _TAB)):  # indented statements
+        text = _LEADING_SPACE.sub("", text)
+        b = np.frombuffer(text.encode("ascii") + b"\n\n\n", dtype=np.uint8)
+        starts = np.concatenate([[0], np.flatnonzero(b[:-3] == _LF) + 1])
+    lines = text.split("\n")
+    c0, c1, c2 = b[starts], b[starts + 1], b[starts + 2]
+    space1 = (c1 == _SPACE) | (c1 == _TAB)
+    space2 = (c2 == _SPACE) | (c2 == _TAB)
+    is_v = (c0 == ord("v")) & space1
+    is_vn = (c0 == ord("v")) & (c1 == ord("n")) & space2
+    is_vt = (c0 == ord("v")) & (c1 == ord("t")) & space2
+    is_f = (c0 == ord("f")) & space1
+    # A keyword alone on its line is a mistake.
+    if np.any(((c0 == ord("v")) | (c0 == ord("f"))) & (c1 == _LF)) or np.any(
+        (c0 == ord("v")) & ((c1 == ord("n")) | (c1 == ord("t"))) & (c2 == _LF)
+    ):
+        raise _Unusual
+    if int(is_v.sum()) > max_vertices or int(is_vn.sum()) > max_vertices:
+        raise _Unusual
+
+    v_lines = np.flatnonzero(is_v)
+    values, counts = _numbers([lines[i] for i in v_lines], 1, (3, 4, 6, 7))
+    with np.errstate(over="ignore"):  # an overflow is beyond the coordinate limit below
+        vertices = _first_three(values, counts) * s
+    if not np.all(np.abs(vertices) <= max_coordinate):
+        raise _Unusual
+    values, _ = _numbers([lines[i] for i in np.flatnonzero(is_vn)], 2, (3,))
+    normals = values.reshape(-1, 3)
+    if np.any(np.all(normals == 0, axis=1)):
+        raise _Unusual
+    _numbers([lines[i] for i in np.flatnonzero(is_vt)], 2, (1, 2, 3))
+
+    slots: dict[str, int] = {}
+    slots.setdefault(default_slot, 0)
+    mtl_lines: list[int] = []
+    mtl_slots: list[int] = []
+    for i in np.flatnonzero(c0 == ord("u")):
+        content = lines[i].strip()
+        if content.split()[0] != "usemtl":
+            continue
+        name = content[len("usemtl") :].strip()
+        if not name:
+            raise _Unusual
+        mtl_lines.append(int(i))
+        mtl_slots.append(slots.setdefault(slot_map.get(name, name) if slot_map else name, len(slots)))
+
+    f_lines = np.flatnonzero(is_f)
+    sizes, columns, names = _face_numbers([lines[i] for i in f_lines], max_face)
+    if int((sizes - 2).sum()) > max_triangles:
+        raise _Unusual
+    so_far = {"v": np.cumsum(is_v), "vt": np.cumsum(is_vt), "vn": np.cumsum(is_vn)}
+    resolved = {name: _resolve(column, np.repeat(so_far[name][f_lines], sizes)) for name, column in zip(names, columns)}
+    face_v = resolved["v"]
+    face_n = resolved.get("vn", np.full(face_v.size, -1, np.int64))
+    before = np.searchsorted(np.asarray(mtl_lines, dtype=np.int64), f_lines, side="right") - 1
+    face_slot = np.where(before >= 0, np.asarray([0, *mtl_slots], dtype=np.int64)[before + 1], 0)
+    face_start = np.concatenate([[0], np.cumsum(sizes)[:-1]]).astype(np.int64) if sizes.size else sizes
+    return _Statements(
+        vertices,
+        normals,
+        slots,
+        face_v,
+        face_n,
+        face_start,
+        sizes.astype(np.int64),
+        face_slot.astype(np.int64),
+        (f_lines + 1).astype(np.int64),
+    )
+
+
+def load_obj(
+    path: str | os.PathLike,
+    *,
+    scale: float = 1.0,
+    up_axis: str = "z",
+    slot_map: Mapping[str, str] | None = None,
+    default_slot: str = "body",
+) -> list[Part]:
+    """Read a Wavefront OBJ file into parts, one per material slot.
+
+    Supported: ``v`` (3 coordinates, optionally a 4th weight or 3 colour values, which are
+    ignored), ``vn``, ``vt`` (counted for index checks only), ``f`` with ``v``, ``v/vt``,
+    ``v//vn`` and ``v/vt/vn`` references (1-based; negative indices count back from the latest
+    vertex), polygon faces (fan for convex, ear clipping otherwise), ``usemtl`` (the material
+    name becomes the slot, through ``slot_map`` if given; faces before any ``usemtl`` get
+    ``default_slot``), line continuation with a trailing backslash and ``#`` comments. Other
+    statements (``o``, ``g``, ``s``, ``mtllib``, lines, curves, unknown keywords) are ignored.
+    Faces whose references all carry normals use them (normalised) as shading normals, others
+    are flat. Zero-area triangles are dropped.
+
+    Parameters
+    ----------
+    scale
+        Factor from file units to metres (e.g. 0.01 for centimetres).
+    up_axis
+        ``"z"`` (file is z-up, used as is) or ``"y"`` (file is y-up: turned so that its +y
+        becomes +z and its +z becomes −y; a proper rotation, winding kept).
+
+    Raises
+    ------
+    render.errors.InputError
+        Naming the file and line for an unreadable file, a malformed statement (bad or
+        non-finite number, missing coordinates), a coordinate beyond
+        :data:`render.limits.MAX_COORDINATE_M` after scaling, an index of 0 or out of range, a
+        face with fewer than 3 or more than :data:`render.limits.MAX_POLYGON_VERTICES`
+        vertices, a zero-length normal, a self-intersecting polygon face, more vertices than
+        3 × :data:`render.limits.MAX_TRIANGLES` or more triangles than
+        :data:`~render.limits.MAX_TRIANGLES`, or a file with no faces. Up to
+        :data:`~render.limits.MAX_PROBLEMS_PER_FILE` problems are reported together (the file
+        is not read past the last of them).
+    ValueError
+        For a bad ``scale`` or ``up_axis`` (arguments, not file content).
+    """
+    s = _scale_factor(scale)
+    if up_axis not in ("z", "y"):
+        raise ValueError(f"up_axis must be 'z' or 'y', got {up_axis!r}")
+    src = str(path)
+    text = read_user_text(path, "OBJ file", "a Wavefront OBJ text file")
+    max_triangles = limits.MAX_TRIANGLES
+    max_vertices = 3 * max_triangles
+    max_face = limits.MAX_POLYGON_VERTICES
+    max_coordinate = limits.MAX_COORDINATE_M
+
+    read = _read_fast(text, s, max_vertices, max_triangles, max_face, max_coordinate, slot_map, default_slot)
+    if read is None:  # anything unusual, and every mistake, takes the statement-by-statement reader
+        read = _read_statements(
+            text, s, src, max_vertices, max_triangles, max_face, max_coordinate, slot_map, default_slot
+        )
+    if not read.face_start.size:
         raise input_error(src, "", "the OBJ file has no faces ('f' statements)")
 
-    V = np.frombuffer(verts, dtype=np.float64).reshape(-1, 3)
-    N = _unit_vectors(np.frombuffer(norms, dtype=np.float64).reshape(-1, 3))
+    problems = ProblemList(src)
+
+    def problem(line_no: int, message: str) -> None:
+        problems.add(f"line {line_no}", message)
+        if len(problems.items) >= limits.MAX_PROBLEMS_PER_FILE:
+            problems.raise_if_any()
+
+    V = read.vertices
+    N = _unit_vectors(read.normals)
     if up_axis == "y":
         V = V @ _Y_UP_TO_Z_UP.T
         N = N @ _Y_UP_TO_Z_UP.T
+    face_v, face_n, face_start, face_size = read.face_v, read.face_n, read.face_start, read.face_size
+    face_slot, face_line, slots = read.face_slot, read.face_line, read.slots
     tri_v, tri_n, tri_face = _triangulate(V, face_v, face_n, face_start, face_size, face_line, problem)
     problems.raise_if_any()
 
@@ -271,7 +548,7 @@ def load_obj(
     nrm = np.repeat(fn[:, None, :], 3, axis=1)
     smooth = np.all(tri_n >= 0, axis=1)
     nrm[smooth] = N[tri_n[smooth]]
-    tri_slot = np.frombuffer(face_slot, dtype=np.int64)[tri_face]
+    tri_slot = face_slot[tri_face]
     names = {k: name for name, k in slots.items()}
     parts = []
     # Parts in the order their slot first appears among the triangles kept, triangles in file order.
@@ -358,10 +635,7 @@ def _triangulate(V, face_v, face_n, face_start, face_size, face_line, problem):
     (T,) face numbers, in file order. Triangles are taken as they are and strictly convex
     polygons fanned, all at once (:func:`_strictly_convex`); other polygons go through
     :func:`render.geometry.shapes.triangulate_polygon_3d` one by one (fan or ear clipping)."""
-    fv = np.frombuffer(face_v, dtype=np.int64)
-    fnr = np.frombuffer(face_n, dtype=np.int64)
-    start = np.frombuffer(face_start, dtype=np.int64)
-    size = np.frombuffer(face_size, dtype=np.int64)
+    fv, fnr, start, size = face_v, face_n, face_start, face_size
     chunks_v = []
     chunks_n = []
     chunks_f = []

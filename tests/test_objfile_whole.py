@@ -1,0 +1,170 @@
+"""The OBJ reader's whole-file path against its statement-by-statement path.
+
+:func:`render.geometry.objfile.load_obj` reads an ordinary file all at once with numpy
+(``_read_fast``) and leaves anything else -- every mistake, continued lines, other characters,
+references written in different ways -- to the statement reader (``_read_statements``), which
+names the file and line of each mistake. The two must agree exactly (same arrays, bit for bit)
+on every file the whole-file path accepts, and the whole-file path must decline every file the
+statement reader refuses. Reference: the statement reader, itself checked against the Wavefront
+OBJ specification (Appendix B1) in ``tests/test_shapes.py``; the inputs are the fuzz suite's
+(``tests/test_fuzz_scene.py``) and hand-written variants of each statement form.
+"""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+import numpy as np
+import pytest
+from fuzzing import fuzz_settings
+from hypothesis import given
+from hypothesis import strategies as st
+from test_fuzz_scene import OBJ_ARGUMENTS, OBJ_SEED_BYTES, OBJ_SEEDS, mutate_obj, obj_text
+
+from render import limits
+from render.errors import InputError
+from render.geometry import objfile
+
+DATA = Path(__file__).parent / "data" / "obj"
+FIELDS = ("vertices", "normals", "face_v", "face_n", "face_start", "face_size", "face_slot", "face_line")
+
+
+def _both(text: str, scale: float = 1.0, slot_map=None):
+    """(whole-file result or None, statement result or the InputError it raised)."""
+    args = (
+        limits.MAX_TRIANGLES * 3,
+        limits.MAX_TRIANGLES,
+        limits.MAX_POLYGON_VERTICES,
+        limits.MAX_COORDINATE_M,
+        slot_map,
+        "body",
+    )
+    fast = objfile._read_fast(text, scale, *args)
+    try:
+        slow = objfile._read_statements(text, scale, "case.obj", *args)
+    except InputError as err:
+        slow = err
+    return fast, slow
+
+
+def _assert_same(fast, slow) -> None:
+    if isinstance(slow, InputError):
+        assert fast is None, f"the whole-file reader accepted a file the statement reader refuses: {slow}"
+        return
+    if fast is None:
+        return
+    for name in FIELDS:
+        a, b = getattr(fast, name), getattr(slow, name)
+        assert a.dtype == b.dtype and a.shape == b.shape, name
+        assert a.tobytes() == b.tobytes(), name
+    assert fast.slots == slow.slots
+
+
+def _grid(n: int, form: str) -> str:
+    """A grid of n × n quads, half as two triangles and half as quads, with normals and texture
+    coordinates, references written as ``form``."""
+    lines = [f"v {i * 0.5:.3f} {j * 0.25:g} {math.sin(i + j):.17g}" for i in range(n + 1) for j in range(n + 1)]
+    lines += ["vn 0 0 1", "vn 0.1 0 1", "vt 0 0", "vt 1 0 0", "vt 0.5"]
+    lines.append("usemtl first")
+    for i in range(n):
+        for j in range(n):
+            a, b, c, d = (
+                i * (n + 1) + j + 1,
+                (i + 1) * (n + 1) + j + 1,
+                (i + 1) * (n + 1) + j + 2,
+                i * (n + 1) + j + 2,
+            )
+            refs = [form.format(v=k, t=1 + k % 3, n=1 + k % 2) for k in (a, b, c, d)]
+            if (i + j) % 2:
+                lines += ["f " + " ".join(refs[:3]), "f " + " ".join([refs[0], refs[2], refs[3]])]
+            else:
+                lines.append("f " + " ".join(refs))
+        if i == n // 2:
+            lines.append("usemtl second")
+    return "\n".join(lines) + "\n"
+
+
+@pytest.mark.parametrize("form", ["{v}", "{v}/{t}", "{v}//{n}", "{v}/{t}/{n}"])
+def test_every_reference_form_read_whole(form):
+    text = _grid(6, form)
+    fast, slow = _both(text)
+    assert fast is not None, "an ordinary file takes the whole-file path"
+    _assert_same(fast, slow)
+
+
+@pytest.mark.parametrize(
+    "change",
+    [
+        lambda t: t.replace("\n", "\r\n"),  # CR LF line breaks
+        lambda t: t.replace("\n", "\r"),  # CR line breaks
+        lambda t: t.replace(" ", "\t"),  # tabs
+        lambda t: t.replace(" ", "   "),  # runs of spaces
+        lambda t: t.replace("\nf ", "\n  f "),  # indented statements
+        lambda t: "# a comment\n" + t.replace("\nvn", " # trailing\nvn") + "# end",  # comments, no final LF
+        lambda t: t.replace("v 0.000 0 0\n", "v 0.000 0 0 1\n").replace("v 0.000 0.25", "v 0.000 0.25 0 0.1 0.2 0.3"),
+        lambda t: "o thing\ng group\ns 1\nmtllib x.mtl\nvp 1 2\n" + t,  # ignored statements
+        lambda t: t.replace("usemtl second", "usemtl  two words "),
+        lambda t: t.replace(" 1/", " -1/").replace("f 2 ", "f -3 "),  # negative references
+    ],
+)
+def test_variants_read_whole_and_alike(change):
+    for form in ("{v}", "{v}/{t}/{n}", "{v}//{n}"):
+        text = change(_grid(4, form))
+        fast, slow = _both(text, slot_map={"first": "paint"})
+        assert not isinstance(slow, InputError), slow
+        assert fast is not None
+        _assert_same(fast, slow)
+
+
+@pytest.mark.parametrize("path", OBJ_SEEDS, ids=lambda p: p.name)
+def test_test_files(path):
+    text = path.read_bytes().decode("utf-8", "replace")
+    for scale in (1.0, 1e10):
+        _assert_same(*_both(text, scale))
+
+
+def test_mistakes_are_left_to_the_statement_reader():
+    base = "v 0 0 0\nv 1 0 0\nv 0 1 0\nvn 0 0 1\n"
+    for tail in [
+        "f 1 2 4\n",  # out of range
+        "f 0 1 2\n",  # index 0
+        "f 1 2\n",  # too few
+        "f 1 2 3\nv\n",  # keyword alone
+        "f 1//1 2/1 3\n",  # forms mixed
+        "f 1/ 2/ 3/\n",  # empty texture field
+        "f 1//1 2//1 //1\n",  # empty vertex field
+        "f 1 2 3 \\\n 1\n",  # continued line
+        "vn 0 0 0\nf 1 2 3\n",  # zero normal
+        "v nan 0 0\nf 1 2 3\n",
+        "v 1_0 0 0\nf 1 2 3\n",  # accepted by both (Python's float reads it), agreeing
+        "f 1 2 3\nusemtl\n",
+        "f 1 2 9223372036854775808\n",
+        "f 1 2 3 2\n",  # a polygon that folds back: the statement reader's triangulation decides
+    ]:
+        _assert_same(*_both(base + tail))
+
+
+@fuzz_settings()
+@given(text=obj_text(), arguments=OBJ_ARGUMENTS)
+def test_random_files_alike(text, arguments):
+    _assert_same(*_both(text, arguments[0]))
+
+
+@fuzz_settings()
+@given(data=st.data())
+def test_mutated_files_alike(data):
+    content = OBJ_SEED_BYTES[data.draw(st.integers(0, len(OBJ_SEED_BYTES) - 1))]
+    for _ in range(data.draw(st.integers(1, 3))):
+        content = mutate_obj(content, data.draw)
+    text = content.decode("utf-8", "replace")
+    _assert_same(*_both(text, data.draw(OBJ_ARGUMENTS)[0]))
+
+
+def test_large_grid_alike():
+    # 20 000 triangles in all four forms: the whole-file path's offsets stay aligned at size.
+    for form in ("{v}", "{v}/{t}/{n}"):
+        fast, slow = _both(_grid(100, form))
+        assert fast is not None
+        _assert_same(fast, slow)
+        assert np.unique(fast.face_slot).tolist() == [1, 2]
