@@ -449,6 +449,52 @@ def cmd_colours(args: argparse.Namespace) -> int:
     return 0
 
 
+# --- study -------------------------------------------------------------------------------------
+
+
+def cmd_study(args: argparse.Namespace) -> int:
+    """A design study (:mod:`render.studies`): every scene variant × setup, on Dask."""
+    import importlib.util
+
+    missing = [m for m in ("dask", "distributed", "pyarrow") if importlib.util.find_spec(m) is None]
+    if missing:
+        raise input_error(
+            "command line",
+            "study",
+            f"design studies need {', '.join(missing)}: install them with pip install 'lampcast[study]'",
+        )
+    from render.studies import read_study, run_study
+
+    if args.workers is not None and not 0 <= args.workers <= 1024:
+        raise input_error("command line", "--workers", f"expected 0 (serial) to 1024 workers, got {args.workers}")
+    spec = read_study(args.study)
+    out = _out_dir(args.out, f"{Path(args.study).stem}-study")
+    _note(args, CAUTION)
+    run = run_study(
+        spec, out, workers=args.workers, scheduler=args.scheduler, quiet=args.quiet, dashboard=args.dashboard
+    )
+    n_rows = len(run.table.get("key", []))
+    if args.json:
+        _print_json(
+            {
+                "study": str(args.study),
+                "rows": n_rows,
+                "computed_variants": [r.variant for r in run.computed],
+                "skipped_variants": list(run.skipped_variants),
+                "csv": run.csv,
+                "parquet": run.parquet,
+                "report": run.report,
+                "workers": run.workers,
+            }
+        )
+        return 0
+    print(
+        f"{n_rows} rows ({len(run.computed)} variant(s) computed, {len(run.skipped_variants)} kept from before); "
+        f"written to {run.out_dir}/" + (f" (open {run.report})" if run.report else "")
+    )
+    return 0
+
+
 # --- calc --------------------------------------------------------------------------------------
 
 
@@ -837,6 +883,16 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--csv", metavar="DIR", help="also write one CSV of grid values per field and setup")
     p.add_argument("--pictures", metavar="DIR", help="also write the isolux plan, heat map and bar chart PNGs")
     p.set_defaults(func=cmd_calc)
+
+    p = sub.add_parser("study", help="a design study: scene variants x setups on Dask, ranked, in one table")
+    p.add_argument("study", help="study file (TOML; see scenes/README.md)")
+    p.add_argument("--scheduler", metavar="ADDRESS", help="an existing Dask scheduler (default: a local cluster)")
+    p.add_argument(
+        "--workers", type=int, metavar="N", help="local worker processes (default: one per core; 0: serial, no Dask)"
+    )
+    p.add_argument("--dashboard", action="store_true", help="start Dask's dashboard and print its address")
+    p.add_argument("--out", metavar="DIR", help="output folder (default: outputs/STUDY-study)")
+    p.set_defaults(func=cmd_study)
 
     p = sub.add_parser(
         "demo",

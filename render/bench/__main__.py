@@ -3,6 +3,7 @@
 * ``rays`` -- BVH build time and ray throughput, with an Embree comparison (:mod:`render.bench.rays`).
 * ``light`` -- full render vs relight, luminaire-count scaling, 1 nm vs 5 nm (:mod:`render.bench.light`).
 * ``calc`` -- a full calculation of a scene vs one view's render (:mod:`render.bench.calc`).
+* ``study`` -- design-study throughput on 1 and 2 Dask workers (:mod:`render.bench.study`).
 """
 
 from __future__ import annotations
@@ -11,6 +12,7 @@ import argparse
 import sys
 
 from render.bench import calc, light, rays
+from render.bench import study as study_bench
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -19,6 +21,7 @@ def build_parser() -> argparse.ArgumentParser:
     rays.add_parser(sub)
     light.add_parser(sub)
     calc.add_parser(sub)
+    study_bench.add_parser(sub)
     return parser
 
 

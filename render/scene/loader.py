@@ -61,7 +61,16 @@ from render.scene.schema import Field, check_table, check_value, join, shown
 if TYPE_CHECKING:
     from render.geometry.mesh import TriangleMesh
 
-__all__ = ["COORD", "MIN_SIZE_M", "check_scene", "check_scene_mesh", "expand_row", "light_channel_count", "load_scene"]
+__all__ = [
+    "COORD",
+    "MIN_SIZE_M",
+    "check_scene",
+    "check_scene_mesh",
+    "expand_row",
+    "light_channel_count",
+    "load_scene",
+    "load_scene_document",
+]
 
 M = "m"
 DEG = "degrees"
@@ -1181,7 +1190,14 @@ def load_scene(path: str | os.PathLike, *, strict_paths: bool = False) -> Scene:
     the files read again at render time are held to it as well.
     """
     path = Path(path)
-    doc = _parse_toml(path)
+    return load_scene_document(_parse_toml(path), path, strict_paths=strict_paths)
+
+
+def load_scene_document(doc: dict, path: str | os.PathLike, *, strict_paths: bool = False) -> Scene:
+    """Check an already parsed scene document (a TOML table, e.g. a study's variant of a
+    template scene) as :func:`load_scene` does; ``path`` names it in messages and its folder is
+    where referenced files resolve."""
+    path = Path(path)
     problems = ProblemList(path)
     ctx = _Context(path, problems, strict_paths=strict_paths)
     top = check_table(doc, TOP_LEVEL, "", problems)
