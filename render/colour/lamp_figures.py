@@ -63,6 +63,7 @@ import numpy as np
 from render.colour.lamps import Lamp
 from render.colour.observers import photopic, sp_ratio, tristimulus
 from render.colour.spectra import BIN_WIDTH_NM, WAVELENGTHS_NM
+from render.colour.tables import stored_lamp_figures
 
 __all__ = [
     "BLUE_LIMIT_NM",
@@ -73,6 +74,7 @@ __all__ = [
     "FIGURE_KEYS",
     "NOTCH_HALF_WIDTH_NM",
     "LampFigures",
+    "computed_lamp_figures",
     "lamp_figures",
 ]
 
@@ -297,6 +299,13 @@ def _figures_of_spectrum(spd_bytes: bytes) -> tuple[dict, tuple[str, ...], dict]
     return values, tuple(notes), undefined
 
 
+def computed_lamp_figures(spd: np.ndarray) -> tuple[dict, tuple[str, ...], dict]:
+    """``(values, notes, undefined)`` of a gridded spectrum computed with colour-science, never
+    the stored figures (``tools/make_colour_tables.py`` stores these for the built-in lamps)."""
+    values, notes, undefined = _figures_of_spectrum(np.ascontiguousarray(spd, dtype=np.float64).tobytes())
+    return dict(values), notes, dict(undefined)
+
+
 def _relevant_warning(message: str) -> bool:
     """colour-science warnings worth passing on (not the routine ones about shapes/interpolation)."""
     routine = ("interval", "shape", "align", "interpolat", "extrapolat", "aligning")
@@ -306,9 +315,14 @@ def _relevant_warning(message: str) -> bool:
 def lamp_figures(lamp: Lamp) -> LampFigures:
     """Colour and photometric figures of a lamp (see the module docstring).
 
-    Cached on the spectrum, so computing all built-in lamps twice costs about as much as once.
+    A built-in lamp's figures are read from ``render/data/colour/lamp_figures.json`` (computed
+    with colour-science by ``tools/make_colour_tables.py``, keyed by the spectrum, so a changed
+    spectrum is computed afresh); others are computed and cached on the spectrum, so computing
+    a lamp twice costs about as much as once.
     """
-    values, notes, undefined = _figures_of_spectrum(np.ascontiguousarray(lamp.spd, dtype=np.float64).tobytes())
+    spd = np.ascontiguousarray(lamp.spd, dtype=np.float64)
+    stored = stored_lamp_figures(spd)
+    values, notes, undefined = stored if stored is not None else _figures_of_spectrum(spd.tobytes())
     figures = {key: values.get(key) for key in FIGURE_KEYS if key not in ("id", "name", "type")}
     return LampFigures(
         id=lamp.id, name=lamp.name, type=lamp.type, **figures, undefined=dict(undefined), warnings=tuple(notes)

@@ -518,12 +518,13 @@ def get_material(
 @lru_cache(maxsize=1)
 def d65_on_grid() -> np.ndarray:
     """CIE standard illuminant D65 (relative SPD, colour-science ``SDS_ILLUMINANTS['D65']``,
-    5 nm) at the grid's bin centres by linear interpolation, the interpolation CIE 15:2004
-    recommends for D65 (from memory). Read-only, shape ``(N_BINS,)``."""
-    import colour
+    5 nm, stored in ``render/data/colour/spectra.csv``) at the grid's bin centres by linear
+    interpolation, the interpolation CIE 15:2004 recommends for D65 (from memory). Read-only,
+    shape ``(N_BINS,)``."""
+    from render.colour.tables import reference_spectrum
 
-    sd = colour.SDS_ILLUMINANTS["D65"]
-    out = np.interp(WAVELENGTHS_NM, sd.wavelengths, sd.values)
+    wavelengths, values = reference_spectrum("SDS_ILLUMINANTS", "D65")
+    out = np.interp(WAVELENGTHS_NM, wavelengths, values)
     out.setflags(write=False)
     return out
 

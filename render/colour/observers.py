@@ -8,7 +8,8 @@
 
 Data come from colour-science (``colour.MSDS_CMFS``, ``SDS_LEFS_*``), tabulated at 1 nm, and are
 taken at the grid's bin centres (the tables are smooth at 1 nm, so centre value and bin mean
-agree to well below 0.1 %).
+agree to well below 0.1 %); they are stored in ``render/data/colour/observers.csv``
+(:mod:`render.colour.tables`), so that using them does not import colour-science.
 
 References
 ----------
@@ -26,7 +27,8 @@ from functools import lru_cache
 import numpy as np
 from numpy.typing import ArrayLike
 
-from render.colour.spectra import BIN_WIDTH_NM, WAVELENGTHS_NM
+from render.colour.spectra import BIN_WIDTH_NM
+from render.colour.tables import observer_table
 
 __all__ = [
     "KM_LM_PER_W",
@@ -48,41 +50,23 @@ KM_LM_PER_W = 683.0
 KM_SCOTOPIC_LM_PER_W = 1700.0
 
 
-def _on_grid(sd) -> np.ndarray:
-    import colour
-
-    shape = colour.SpectralShape(float(WAVELENGTHS_NM[0]), float(WAVELENGTHS_NM[-1]), BIN_WIDTH_NM)
-    return np.asarray(sd.copy().align(shape).values, dtype=np.float64)
-
-
 @lru_cache(maxsize=1)
 def cmfs_xyz() -> np.ndarray:
     """CIE 1931 2° colour-matching functions on the grid, shape (N_BINS, 3)."""
-    import colour
-
-    out = _on_grid(colour.MSDS_CMFS["CIE 1931 2 Degree Standard Observer"])
+    table = observer_table()
+    out = np.ascontiguousarray(np.column_stack([table["x_bar"], table["y_bar"], table["z_bar"]]))
     out.setflags(write=False)
     return out
 
 
-@lru_cache(maxsize=1)
 def photopic_lef() -> np.ndarray:
-    """CIE 1924 photopic luminous efficiency V(λ) on the grid."""
-    from colour.colorimetry import SDS_LEFS_PHOTOPIC
-
-    out = _on_grid(SDS_LEFS_PHOTOPIC["CIE 1924 Photopic Standard Observer"])
-    out.setflags(write=False)
-    return out
+    """CIE 1924 photopic luminous efficiency V(λ) on the grid (read-only)."""
+    return observer_table()["v_photopic"]
 
 
-@lru_cache(maxsize=1)
 def scotopic_lef() -> np.ndarray:
-    """CIE 1951 scotopic luminous efficiency V'(λ) on the grid."""
-    from colour.colorimetry import SDS_LEFS_SCOTOPIC
-
-    out = _on_grid(SDS_LEFS_SCOTOPIC["CIE 1951 Scotopic Standard Observer"])
-    out.setflags(write=False)
-    return out
+    """CIE 1951 scotopic luminous efficiency V'(λ) on the grid (read-only)."""
+    return observer_table()["v_scotopic"]
 
 
 def photopic(density: ArrayLike) -> np.ndarray:

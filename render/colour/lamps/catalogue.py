@@ -28,7 +28,8 @@ References
 - Y. Ohno and W. Davis, NIST CQS simulation 7.4 spreadsheet (2008), lamp spectra.
 - NIST Atomic Spectra Database (line wavelengths in air).
 - colour-science, ``colour.SDS_ILLUMINANTS`` and ``colour.SDS_LIGHT_SOURCES`` (the bundled
-  copies of those tables).
+  copies of those tables), stored in ``render/data/colour/spectra.csv`` by
+  ``tools/make_colour_tables.py`` so that building the lamps does not import colour-science.
 """
 
 from __future__ import annotations
@@ -52,6 +53,7 @@ from render.colour.spectra import (
     bin_density,
     density_on_grid,
 )
+from render.colour.tables import reference_spectrum
 
 __all__ = [
     "CATALOGUE_RESOURCE",
@@ -162,12 +164,11 @@ def catalogue_entries() -> dict[str, CatalogueEntry]:
 # --- spectrum builders -------------------------------------------------------------------------
 
 
-def _table(entry: CatalogueEntry):
-    """The colour-science spectral distribution an entry is built from."""
-    import colour
-
+def _table(entry: CatalogueEntry) -> tuple[np.ndarray, np.ndarray]:
+    """``(wavelengths_nm, values)`` of the colour-science table an entry is built from, as
+    stored in ``render/data/colour/spectra.csv`` (:mod:`render.colour.tables`)."""
     attribute, key = entry.dataset
-    return getattr(colour, attribute)[key]
+    return reference_spectrum(attribute, key)
 
 
 def lines_from_table(
@@ -224,15 +225,15 @@ def _spectrum(entry: CatalogueEntry) -> LineSpectrum | np.ndarray:
     spec = entry.spectrum
     kind = spec["kind"]
     if kind == "table":
-        sd = _table(entry)
-        return density_on_grid(sd.wavelengths, sd.values)
+        wavelengths, values = _table(entry)
+        return density_on_grid(wavelengths, values)
     if kind == "lines":
         return LineSpectrum([(float(line["nm"]), float(line["power"])) for line in spec["lines"]])
     if kind == "lines-from-table":
-        sd = _table(entry)
+        wavelengths, values = _table(entry)
         groups = [[(float(line["nm"]), float(line["share"])) for line in group] for group in spec["line_groups"]]
-        lines, continuum = lines_from_table(sd.wavelengths, sd.values, groups, float(spec["window_nm"]))
-        return LineSpectrum(lines, (sd.wavelengths, continuum))
+        lines, continuum = lines_from_table(wavelengths, values, groups, float(spec["window_nm"]))
+        return LineSpectrum(lines, (wavelengths, continuum))
     return sum(
         float(b["weight"]) * gaussian_band(float(b["peak_nm"]), float(b["hwhm_below_nm"]), float(b["hwhm_above_nm"]))
         for b in spec["bands"]
