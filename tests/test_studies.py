@@ -185,3 +185,44 @@ def test_study_bench_smoke(capsys):
     assert bench_main(["study", "--quick"]) == 0
     lines = capsys.readouterr().out.splitlines()
     assert [line.split()[0] for line in lines[1:]] == ["1", "2", "2/1", "worker"]
+
+
+RED_BIN = """
+[[objects]]
+kind = "wheelie_bin"
+name = "red bin"
+inspect = true
+position_m = [51.2, -4.0]
+materials = { body = "object-red" }
+"""
+
+
+def test_colour_figures_and_thumbnails_do_not_depend_on_the_cast_setup(tmp_path):
+    # Direct light relights exactly (the buffers are lamp-independent, DEVELOPERS.md): a row's
+    # colour figures are the same whether its setup was cast or relit from another's rays.
+    from scenes_for_tests import write_two_objects_scene
+
+    scene = write_two_objects_scene(tmp_path, extra=RED_BIN)
+    figures = {}
+    for order in (("old", "new"), ("new", "old")):
+        study = tmp_path / f"study-{order[0]}.toml"
+        study.write_text(
+            f'[study]\nname = "colours"\nscenes = ["{scene.name}"]\n\n[compute]\n'
+            f'setups = ["{order[0]}", "{order[1]}"]\ncolours = true\ncolour_view = "bin"\n'
+            'thumbnails = ["bin"]\nthumbnail_width = 48\n',
+            encoding="utf-8",
+        )
+        out = tmp_path / f"out-{order[0]}"
+        run = run_study(read_study(study), out, workers=0, report=False)
+        t = run.table
+        for i, setup in enumerate(t["setup"]):
+            figures[(order[0], setup)] = (t["colour_hard_pairs"][i], t["colour_min_delta_e00"][i])
+            png = out / t["thumbnail_bin"][i]
+            assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    for setup in ("old", "new"):
+        hard, de = figures[("old", setup)]
+        assert isinstance(hard, int) and de is not None
+        assert figures[("new", setup)] == figures[("old", setup)]
+    # Under low-pressure sodium (nearly monochromatic 589 nm light, one cone ratio: analytic)
+    # the red and green bins look far more alike than under the white LED.
+    assert figures[("old", "old")][1] < 0.5 * figures[("old", "new")][1]
