@@ -252,14 +252,17 @@ class Study:
     def display_both(
         self, rendered: list[RenderedView], observer: ObserverSettings | None = None
     ) -> tuple[list[DisplayResult], list[DisplayResult]]:
-        """``(shared, adapted)`` display lists of the same views, computing glare once per view."""
-        from render.vision.pipeline import render_display, retinal_image, shared_display
+        """``(shared, adapted)`` display lists of the same views, computing glare once per view
+        and setup and the glare optics once per view geometry. Each result keeps what the
+        observer perceives (:attr:`~render.vision.pipeline.DisplayResult.perceived`) for the
+        colour analysis."""
+        from render.vision.pipeline import render_display, retinal_images, shared_display
         from render.vision.view import ViewGeometry
 
         observer = observer or self.observer
         lights = [self.view_light(r) for r in rendered]
         geoms = [ViewGeometry.of(r.camera) for r in rendered]
-        retinas = [retinal_image(x, g, observer) for x, g in zip(lights, geoms)]
+        retinas = retinal_images(lights, geoms, observer)
         shared = shared_display(lights, geoms, observer, retinas=retinas)
         adapted = [render_display(x, g, observer, "adapted", retina=r) for x, g, r in zip(lights, geoms, retinas)]
         return shared, adapted
@@ -273,7 +276,7 @@ class Study:
         """Night-vision display images (:class:`render.vision.pipeline.DisplayResult`) of one or
         several rendered views. ``shared`` gives all of them one adaptation state (their true
         brightness relation); ``adapted`` adapts each to itself; ``photometric`` is false colour."""
-        from render.vision.pipeline import render_display, shared_display
+        from render.vision.pipeline import render_display, retinal_images, shared_display
         from render.vision.view import ViewGeometry
 
         items = rendered if isinstance(rendered, list) else [rendered]
@@ -289,8 +292,11 @@ class Study:
             results = [
                 render_display(x, g, observer, mode, photometric_range_cd_m2=lo_hi) for x, g in zip(lights, geoms)
             ]
-        else:
+        elif mode == "photometric":
             results = [render_display(x, g, observer, mode) for x, g in zip(lights, geoms)]
+        else:
+            retinas = retinal_images(lights, geoms, observer)
+            results = [render_display(x, g, observer, mode, retina=r) for x, g, r in zip(lights, geoms, retinas)]
         return results if isinstance(rendered, list) else results[0]
 
     def illuminance_lx(

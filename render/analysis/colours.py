@@ -123,7 +123,7 @@ from render.colour.spectra import N_BINS
 if TYPE_CHECKING:
     from render.vision.adaptation import AdaptationState
     from render.vision.observer import ObserverSettings
-    from render.vision.pipeline import ViewLight
+    from render.vision.pipeline import PerceivedView, ViewLight
     from render.vision.view import ViewGeometry
 
 __all__ = [
@@ -147,7 +147,6 @@ __all__ = [
     "DaylightColours",
     "Matrix",
     "NameChange",
-    "PerceivedView",
     "SeenColour",
     "SetupColours",
     "SetupView",
@@ -390,29 +389,6 @@ def discount_light_colour(xyz_relative: ArrayLike, state: AdaptationState, obser
     return chromatic_adaptation_cat16(xyz_relative, w, 1.0, viewing_white_xyz())
 
 
-@dataclass
-class PerceivedView:
-    """One view seen by the observer: the vision stage's steps 1-5 (no display mapping).
-
-    Attributes
-    ----------
-    xyz_cd_m2
-        (H, W, 3) perceived XYZ, cd/m², Y = MES2 mesopic luminance (``perceived_xyz``, after
-        acuity loss if the observer has it on).
-    mesopic_cd_m2
-        (H, W) mesopic luminance (before acuity blur), cd/m².
-    state
-        The adaptation state used.
-    observer
-        The observer settings used.
-    """
-
-    xyz_cd_m2: np.ndarray
-    mesopic_cd_m2: np.ndarray
-    state: AdaptationState
-    observer: ObserverSettings
-
-
 def perceived_view(
     buffers: ViewLight,
     geometry: ViewGeometry,
@@ -432,16 +408,16 @@ def perceived_view(
 
     observer = observer or ObserverSettings()
     buffers.check(geometry)
-    xyz_r, scot_r, lms_r, _ = _pipeline.retinal_image(buffers, geometry, observer)
+    retina = _pipeline.retinal_image(buffers, geometry, observer)
+    xyz_r, scot_r = retina.xyz_cd_m2, retina.scotopic_cd_m2
     if state is None:
         state = _pipeline.measure_adaptation(
             xyz_r, scot_r, geometry, observer, _pipeline.exclusion_mask(buffers, observer), buffers
         )
-    xyz_p, lmes = _pipeline.perceived_xyz(xyz_r, scot_r, state, observer, lms_r)
+    xyz_p, lmes = _pipeline.perceived_xyz(xyz_r, scot_r, state, observer, retina.lms_cd_m2)
     if observer.acuity:
-        local = _acuity.local_adaptation_cd_m2(xyz_r[..., 1], geometry)
-        xyz_p, _ = _acuity.apply_acuity(xyz_p, local, geometry)
-    return PerceivedView(xyz_p, lmes, state, observer)
+        xyz_p, _ = _acuity.apply_acuity(xyz_p, retina.local_adaptation_cd_m2, geometry)
+    return _pipeline.PerceivedView(xyz_p, lmes, state, observer)
 
 
 # ------------------------------------------------------------------------- object statistics
@@ -647,7 +623,7 @@ class SetupView:
     Attributes
     ----------
     perceived_xyz_cd_m2
-        (H, W, 3) the vision stage's perceived XYZ, cd/m² (:attr:`PerceivedView.xyz_cd_m2`).
+        (H, W, 3) the vision stage's perceived XYZ, cd/m² (:attr:`render.vision.pipeline.PerceivedView.xyz_cd_m2`).
     object_id
         (H, W) integer object-id image of the same view.
     state

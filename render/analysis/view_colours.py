@@ -2,8 +2,9 @@
 
 Used by ``lampcast colours`` and by the comparison (:mod:`render.output.comparison`). The
 inputs come from the renderer's light buffers (object ids and materials per camera sample) and
-from the vision stage's display results (the adaptation state each image was made with); the
-result is a :class:`~render.analysis.colours.ColourAnalysis`.
+from the vision stage's display results (the adaptation state each image was made with, and
+what the observer perceives in it, so the stage is not run again); the result is a
+:class:`~render.analysis.colours.ColourAnalysis`.
 
 An object's colour is that of its main surface (:attr:`render.geometry.build.ObjectInfo.main_material`:
 the kind's ``main_slot`` or the scene's ``colour_slot``): its daylight reference is that
@@ -149,7 +150,10 @@ def _setup_views(
     other_surfaces = np.isin(pixel_object_ids(buffers), tagged) & (object_id < 0)
     out = []
     for r, d in zip(rendered, displays):
-        pv = perceived_view(study.view_light(r), ViewGeometry.of(r.camera), observer, state=d.state)
+        pv = d.perceived
+        if pv is None or pv.observer != observer or pv.state != d.state:
+            # Only a display without what it was made from runs the stage again.
+            pv = perceived_view(study.view_light(r), ViewGeometry.of(r.camera), observer, state=d.state)
         c = r.colorimetry
         exclude = other_surfaces if c.luminaire_mask is None else (np.asarray(c.luminaire_mask, bool) | other_surfaces)
         kwargs: dict = {"exclude": exclude}

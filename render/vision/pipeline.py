@@ -36,6 +36,7 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass, field, replace
+from typing import NamedTuple
 
 import numpy as np
 import numpy.typing as npt
@@ -55,15 +56,19 @@ __all__ = [
     "MODES",
     "PHOTOMETRIC_QUANTITIES",
     "DisplayResult",
+    "PerceivedView",
+    "Retina",
     "ViewLight",
     "adapt_to_display_white",
     "display_scale",
     "exclusion_mask",
+    "glare_optics",
     "measure_adaptation",
     "perceived_xyz",
     "photometric_display",
     "render_display",
     "retinal_image",
+    "retinal_images",
     "shared_display",
     "to_display",
 ]
@@ -116,6 +121,50 @@ class ViewLight:
 
 
 @dataclass
+class PerceivedView:
+    """One view seen by the observer: the vision stage's steps 1-5 (no display mapping).
+
+    Attributes
+    ----------
+    xyz_cd_m2
+        (H, W, 3) perceived XYZ, cd/m², Y = MES2 mesopic luminance (:func:`perceived_xyz`, after
+        the acuity loss if the observer has it on).
+    mesopic_cd_m2
+        (H, W) mesopic luminance (before the acuity blur), cd/m².
+    state
+        The adaptation state used.
+    observer
+        The observer settings used.
+    """
+
+    xyz_cd_m2: np.ndarray
+    mesopic_cd_m2: np.ndarray
+    state: _adaptation.AdaptationState
+    observer: ObserverSettings
+
+
+class Retina(NamedTuple):
+    """Step 1 for one image (:func:`retinal_image`): the view as imaged on the retina.
+
+    Attributes
+    ----------
+    xyz_cd_m2, scotopic_cd_m2, lms_cd_m2
+        Retinal XYZ (H, W, 3), scotopic luminance (H, W) and cone signals (H, W, 3) or ``None``.
+    diagnostics
+        Glare figures (veil, scattered fraction), copied into each display's diagnostics.
+    local_adaptation_cd_m2
+        (H, W) photopic luminance over the foveal field of each pixel (the acuity step's
+        input), made once here when the observer has the acuity loss on, else ``None``.
+    """
+
+    xyz_cd_m2: np.ndarray
+    scotopic_cd_m2: np.ndarray
+    lms_cd_m2: np.ndarray | None
+    diagnostics: dict[str, object]
+    local_adaptation_cd_m2: np.ndarray | None = None
+
+
+@dataclass
 class DisplayResult:
     """Display-referred output of the vision stage for one view.
 
@@ -129,6 +178,10 @@ class DisplayResult:
         The adaptation state used (``None`` in photometric mode).
     diagnostics
         Numbers worth reporting (scale factor, glare fraction, out-of-gamut share, ...).
+    perceived
+        What the observer perceives before the display mapping (steps 1-5 with ``state``),
+        kept so that analyses of the same image (the colour analysis) need not run the stage
+        again; ``None`` in photometric mode.
     """
 
     linear_srgb: np.ndarray
@@ -136,6 +189,7 @@ class DisplayResult:
     srgb16: np.ndarray
     state: _adaptation.AdaptationState | None
     diagnostics: dict = field(default_factory=dict)
+    perceived: PerceivedView | None = None
 
     def png_text(self, extra: dict[str, str] | None = None) -> dict[str, str]:
         """tEXt metadata describing how the image was made."""
@@ -169,18 +223,36 @@ def _check_mode(mode: str) -> None:
 # ------------------------------------------------------------------------------ the steps
 
 
+def _local_adaptation(xyz: np.ndarray, geometry: ViewGeometry, observer: ObserverSettings) -> np.ndarray | None:
+    return _acuity.local_adaptation_cd_m2(xyz[..., 1], geometry) if observer.acuity else None
+
+
+def glare_optics(geometry: ViewGeometry, observer: ObserverSettings) -> _glare.GlareOptics | None:
+    """The view's :class:`~render.vision.glare.GlareOptics` for the observer's eye (``None``
+    when the observer has glare off): make it once and pass it to every :func:`retinal_image`
+    of the view."""
+    if not observer.glare:
+        return None
+    return _glare.glare_optics(
+        geometry, age_years=observer.age_years, pigmentation=observer.pigmentation, model=observer.glare_model
+    )
+
+
 def retinal_image(
-    buffers: ViewLight, geometry: ViewGeometry, observer: ObserverSettings
-) -> tuple[np.ndarray, np.ndarray, np.ndarray | None, dict[str, object]]:
+    buffers: ViewLight,
+    geometry: ViewGeometry,
+    observer: ObserverSettings,
+    optics: _glare.GlareOptics | None = None,
+) -> Retina:
     """Step 1: the view as imaged on the retina, with disability glare if enabled.
 
-    Returns ``(xyz, scotopic, lms or None, diagnostics)``.
+    ``optics``: the view's :func:`glare_optics`, if already made (else made here).
     """
     xyz = np.asarray(buffers.xyz_cd_m2, dtype=np.float64)
     scot = np.asarray(buffers.scotopic_cd_m2, dtype=np.float64)
     lms = None if buffers.lms_cd_m2 is None else np.asarray(buffers.lms_cd_m2, dtype=np.float64)
     if not observer.glare:
-        return xyz, scot, lms, {"glare": "off"}
+        return Retina(xyz, scot, lms, {"glare": "off"}, _local_adaptation(xyz, geometry, observer))
     parts = [xyz, scot[..., None]] + ([lms] if lms is not None else [])
     out, veil, frac = _glare.retinal_channels(
         np.concatenate(parts, axis=-1),
@@ -188,6 +260,7 @@ def retinal_image(
         age_years=observer.age_years,
         pigmentation=observer.pigmentation,
         model=observer.glare_model,
+        optics=optics,
     )
     diag = {
         "glare": observer.glare_model,
@@ -195,7 +268,29 @@ def retinal_image(
         "glare_veil_max_cd_m2": float(veil[..., 1].max()),
         "glare_veil_mean_cd_m2": float(veil[..., 1].mean()),
     }
-    return out[..., :3], out[..., 3], (out[..., 4:7] if lms is not None else None), diag
+    xyz_r = out[..., :3]
+    return Retina(
+        xyz_r,
+        out[..., 3],
+        (out[..., 4:7] if lms is not None else None),
+        diag,
+        _local_adaptation(xyz_r, geometry, observer),
+    )
+
+
+def retinal_images(
+    buffers_list: Sequence[ViewLight], geometries: Sequence[ViewGeometry], observer: ObserverSettings
+) -> list[Retina]:
+    """:func:`retinal_image` of several images, the glare optics made once per distinct view
+    geometry and shared (e.g. one view under a before setup and every option)."""
+    optics: dict[ViewGeometry, _glare.GlareOptics | None] = {}
+    out = []
+    for b, g in zip(buffers_list, geometries, strict=True):
+        b.check(g)
+        if g not in optics:
+            optics[g] = glare_optics(g, observer)
+        out.append(retinal_image(b, g, observer, optics[g]))
+    return out
 
 
 def exclusion_mask(buffers: ViewLight, observer: ObserverSettings) -> np.ndarray:
@@ -290,10 +385,14 @@ def _encode(linear):
 
 
 def _map_with_state(buffers, geometry, observer, state, retina, mode, exposure):
-    xyz_r, scot_r, lms_r, diag = retina
+    retina = Retina(*retina)
+    xyz_r, scot_r, lms_r = retina.xyz_cd_m2, retina.scotopic_cd_m2, retina.lms_cd_m2
+    diag = dict(retina.diagnostics)  # each display its own (one retina may serve several)
     xyz_p, lmes = perceived_xyz(xyz_r, scot_r, state, observer, lms_r)
     if observer.acuity:
-        local = _acuity.local_adaptation_cd_m2(xyz_r[..., 1], geometry)
+        local = retina.local_adaptation_cd_m2
+        if local is None:
+            local = _acuity.local_adaptation_cd_m2(xyz_r[..., 1], geometry)
         xyz_p, sigma = _acuity.apply_acuity(xyz_p, local, geometry)
         diag["acuity_sigma_px_max"] = float(sigma.max())
     else:
@@ -304,7 +403,7 @@ def _map_with_state(buffers, geometry, observer, state, retina, mode, exposure):
     diag["mode"] = mode
     diag["mesopic_mean_cd_m2"] = float(lmes.mean())
     s8, s16 = _encode(rgb)
-    return DisplayResult(rgb, s8, s16, state, diag)
+    return DisplayResult(rgb, s8, s16, state, diag, PerceivedView(xyz_p, lmes, state, observer))
 
 
 def photometric_display(
@@ -362,7 +461,7 @@ def render_display(
     exposure: float | None = None,
     photometric_quantity: str = "photopic",
     photometric_range_cd_m2: tuple[float, float] | None = None,
-    retina=None,
+    retina: Retina | None = None,
 ) -> DisplayResult:
     """Turn one view's light buffers into a display image.
 
@@ -384,7 +483,7 @@ def render_display(
     photometric_quantity, photometric_range_cd_m2
         ``photometric`` mode: which luminance and the legend range (default automatic).
     retina
-        The result of :func:`retinal_image` for these buffers, if already computed.
+        The :class:`Retina` of :func:`retinal_image` for these buffers, if already computed.
 
     Returns
     -------
@@ -412,13 +511,14 @@ def shared_display(
     buffers_list: Sequence[ViewLight],
     view_geometries: Sequence[ViewGeometry] | ViewGeometry,
     observer: ObserverSettings | None = None,
-    retinas=None,
+    retinas: Sequence[Retina] | None = None,
 ) -> list[DisplayResult]:
     """Map a set of views (e.g. before and after) with **one** adaptation state and scale.
 
     The state comes from the views' adaptation fields averaged with equal weight
     (:func:`render.vision.adaptation.shared_adaptation_state`), after glare; then every view
-    is mapped with it, so their true brightness relation is kept.
+    is mapped with it, so their true brightness relation is kept. ``retinas``: the views'
+    :func:`retinal_images`, if already computed.
     """
     observer = observer or ObserverSettings()
     if isinstance(view_geometries, ViewGeometry):
@@ -426,10 +526,7 @@ def shared_display(
     if len(view_geometries) != len(buffers_list):
         raise ValueError("one view geometry per buffer set")
     if retinas is None:
-        retinas = []
-        for b, g in zip(buffers_list, view_geometries):
-            b.check(g)
-            retinas.append(retinal_image(b, g, observer))
+        retinas = retinal_images(buffers_list, view_geometries, observer)
     first = buffers_list[0]
     state = _adaptation.shared_adaptation_state(
         [(r[0], r[1], g, exclusion_mask(b, observer)) for r, g, b in zip(retinas, view_geometries, buffers_list)],
