@@ -30,8 +30,6 @@ import numpy as np
 from render import __version__
 from render.errors import InputError, Problem, input_error
 from render.fileio import file_stem
-from render.output.provenance import image_metadata
-from render.output.report import STANDING_CAUTION as CAUTION  # one wording of the caution everywhere
 from render.resources import demo_scene_path
 
 if TYPE_CHECKING:
@@ -339,6 +337,8 @@ def cmd_render(args: argparse.Namespace) -> int:
     modes = args.mode or ["adapted", "photometric"]
     displays = {mode: study.display(rendered, mode, observer) for mode in modes}
     stem = file_stem(f"{view.name}-{rendered.setup or 'scene'}")
+    from render.output.provenance import image_metadata
+
     written += _write_rendered(rendered, out, stem, displays, image_metadata(study, rendered, "", observer, seed, spp))
     _print_images(args, [_image_figures(rendered, written)])
     return 0
@@ -385,6 +385,8 @@ def cmd_relight(args: argparse.Namespace) -> int:
     shared = study.display(rendered, "shared", observer)
     photometric = study.display(rendered, "photometric", observer)
     images = []
+    from render.output.provenance import image_metadata
+
     for r, sh, ph in zip(rendered, shared, photometric):
         meta = image_metadata(study, r, "", observer, seed, spp)
         written = _write_rendered(r, out, file_stem(f"{view.name}-{r.setup}"), {"shared": sh, "photometric": ph}, meta)
@@ -422,6 +424,8 @@ def cmd_colours(args: argparse.Namespace) -> int:
     view = study.scene.view(max(renders, key=lambda n: (used[n], -list(renders).index(n))))
     rendered, displays = renders[view.name]
     first = rendered[0]
+    from render.output.provenance import image_metadata
+
     text = image_metadata(study, first, "colour analysis", observer, study.scene.render.seed, first.buffers.spp)
     text["lampcast.setup"] = "; ".join(s.name for s in setups)
     pictures = write_colour_pictures(
@@ -469,7 +473,7 @@ def cmd_study(args: argparse.Namespace) -> int:
         raise input_error("command line", "--workers", f"expected 0 (serial) to 1024 workers, got {args.workers}")
     spec = read_study(args.study)
     out = _out_dir(args.out, f"{Path(args.study).stem}-study")
-    _note(args, CAUTION)
+    _note(args, _caution())
     run = run_study(
         spec, out, workers=args.workers, scheduler=args.scheduler, quiet=args.quiet, dashboard=args.dashboard
     )
@@ -589,7 +593,7 @@ def cmd_compare(args: argparse.Namespace) -> int:
             missing,
             f"give {missing}, or a [compare] table (before = SETUP, options = [SETUP, ...]) in {Path(args.scene).name}",
         )
-    _note(args, CAUTION)
+    _note(args, _caution())
     result = run_comparison(
         study,
         before,
@@ -712,11 +716,32 @@ def _output_options(p: argparse.ArgumentParser) -> None:
     )
 
 
+#: The command's description; ``--help`` adds the standing caution of the report.
+DESCRIPTION = "Spectral night-time previews of a street under candidate street lamps."
+
+
+def _caution() -> str:
+    """The one wording of the standing caution (:data:`render.output.report.STANDING_CAUTION`),
+    imported when a command shows it: the report package takes longer to import than a quick
+    command may."""
+    from render.output.report import STANDING_CAUTION
+
+    return STANDING_CAUTION
+
+
+class _TopParser(argparse.ArgumentParser):
+    """The top-level parser: its help ends the description with the standing caution."""
+
+    def format_help(self) -> str:
+        self.description = f"{DESCRIPTION} {_caution()}"
+        return super().format_help()
+
+
 def build_parser() -> argparse.ArgumentParser:
     """The ``lampcast`` argument parser with every sub-command."""
-    parser = argparse.ArgumentParser(
+    parser = _TopParser(
         prog="lampcast",
-        description="Spectral night-time previews of a street under candidate street lamps. " + CAUTION,
+        description=DESCRIPTION,
     )
     parser.add_argument("--version", action="version", version=f"lampcast {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")

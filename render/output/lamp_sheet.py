@@ -25,7 +25,6 @@ from render.colour.lamp_figures import LampFigures, lamp_figures
 from render.colour.lamps import Lamp
 from render.colour.observers import photopic_lef, scotopic_lef
 from render.colour.spectra import BIN_EDGES_NM, BIN_WIDTH_NM, WAVELENGTHS_NM
-from render.output.images import write_figure_png
 
 __all__ = ["format_lamp_table", "lamp_figures_json", "plot_lamp_spectrum"]
 
@@ -150,6 +149,8 @@ def plot_lamp_spectrum(lamp: Lamp, path: str | Path, dpi: int = 110) -> Path:
         ax.set_axisbelow(True)
         ax.grid(True, color="0.9", linewidth=0.6)
     figure.subplots_adjust(left=0.09, right=0.98, top=0.9, bottom=0.09, hspace=0.08)
+
+    from render.output.images import write_figure_png  # numba comes with it: only when plotting
 
     write_figure_png(figure, path, dpi=dpi)
     return path

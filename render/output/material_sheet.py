@@ -22,7 +22,6 @@ import numpy as np
 
 from render.colour.materials import Material, luminous_reflectance
 from render.colour.spectra import WAVELENGTH_MAX_NM, WAVELENGTH_MIN_NM, WAVELENGTHS_NM
-from render.output.images import write_figure_png
 
 __all__ = ["format_material_table", "material_table", "plot_material"]
 
@@ -118,6 +117,8 @@ def plot_material(material: Material, path: str | Path) -> Path:
     ax.legend(fontsize=7, loc="best")
     fig.tight_layout(rect=(0.0, 0.04, 1.0, 1.0))
     fig.text(0.01, 0.01, _clip_text(f"{material.source} | {material.sample_id}", 120), fontsize=6, color="0.35")
+
+    from render.output.images import write_figure_png  # numba comes with it: only when plotting
 
     write_figure_png(fig, path)
     return path
