@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 import math
+import sys
 from pathlib import Path
 
 import pytest
@@ -226,3 +227,46 @@ def test_colour_figures_and_thumbnails_do_not_depend_on_the_cast_setup(tmp_path)
     # Under low-pressure sodium (nearly monochromatic 589 nm light, one cone ratio: analytic)
     # the red and green bins look far more alike than under the white LED.
     assert figures[("old", "old")][1] < 0.5 * figures[("old", "new")][1]
+
+
+def test_existing_scheduler_address(tmp_path):
+    # A cluster started elsewhere, reached by its scheduler address (Dask's Client(address)).
+    from dask.distributed import LocalCluster
+
+    spec = read_study(_study(tmp_path))
+    serial = run_study(spec, tmp_path / "serial", workers=0, report=False)
+    with LocalCluster(n_workers=1, threads_per_worker=1, processes=True, dashboard_address=None) as cluster:
+        remote = run_study(spec, tmp_path / "remote", scheduler=cluster.scheduler_address, report=False)
+    assert remote.table == serial.table
+
+
+def test_a_killed_study_resumes_where_it_stopped(tmp_path):
+    # A real stop: the study process is killed once its first rows are kept; the rerun computes
+    # only the variants that were not finished and gives the full table.
+    import os
+    import signal
+    import subprocess
+    import time
+
+    path = _study(tmp_path)
+    out = tmp_path / "out"
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "render", "study", str(path), "--workers", "0", "--out", str(out), "-q"],
+        stdout=subprocess.DEVNULL,
+        stderr=subprocess.PIPE,
+    )
+    rows = out / "rows"
+    deadline = time.monotonic() + 300
+    while time.monotonic() < deadline and proc.poll() is None:
+        if rows.is_dir() and len(list(rows.glob("*.json"))) >= 2:
+            os.kill(proc.pid, signal.SIGKILL)
+            break
+        time.sleep(0.05)
+    _, err = proc.communicate()
+    kept = len(list(rows.glob("*.json")))
+    assert 2 <= kept < 6, f"the study should have been stopped part way; it said: {err.decode()[-2000:]}"
+    again = run_study(read_study(path), out, workers=0, report=False)
+    assert len(again.skipped_variants) == kept // 2
+    assert len(again.computed) == 3 - kept // 2
+    full = run_study(read_study(path), tmp_path / "fresh", workers=0, report=False)
+    assert again.table == full.table
