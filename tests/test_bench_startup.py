@@ -1,0 +1,45 @@
+"""The start-up benchmark (render.bench.startup) runs and prints its rows.
+
+A smoke test of the script only (project rule: speed is never a timed test, so no figure is
+checked): ``--quick`` on a small test scene, the table's rows in order. The generated OBJ grid
+is checked against its closed form: 2 n² triangles of a square grid of side 10 m, read by the
+whole-file path of the OBJ reader. Source: none needed (common practice, no source).
+"""
+
+from __future__ import annotations
+
+import re
+from pathlib import Path
+
+import pytest
+
+from render.bench.__main__ import main
+from render.bench.startup import obj_grid_text
+from render.geometry import objfile
+from render.geometry.shapes import surface_area_m2
+
+MINIMAL = Path(__file__).resolve().parent.parent / "scenes" / "tests" / "minimal_street.toml"
+FIGURES = re.compile(r"^(check|lamps|materials|obj) +([0-9.]+) / ([0-9.]+) / ([0-9.]+) s$")
+
+
+def test_quick_bench_prints_the_command_and_obj_rows(capsys):
+    assert main(["startup", "--quick", "--scene", str(MINIMAL)]) == 0
+    out = capsys.readouterr().out.splitlines()
+    rows = {m.group(1): m for line in out if (m := FIGURES.match(line))}
+    assert list(rows) == ["check", "lamps", "materials", "obj"]
+    for m in rows.values():
+        lo, mid, hi = (float(m.group(k)) for k in (2, 3, 4))
+        assert 0.0 < lo <= mid <= hi
+    assert any(line.startswith("lampcast check/lamps/materials as new processes (minimal_street.toml)") for line in out)
+    assert any("OBJ load + compile of 2,048 triangles" in line for line in out)
+
+
+def test_generated_obj_grid(tmp_path):
+    path = tmp_path / "grid.obj"
+    path.write_text(obj_grid_text(200), encoding="ascii")
+    assert objfile._read_fast(path.read_text(), 1.0, 10**6, 10**6, 100, 1e4, None, "body") is not None
+    parts = objfile.load_obj(path)
+    assert [p.slot for p in parts] == ["ground", "kerb"]
+    assert sum(p.n_triangles for p in parts) == 2 * 10**2  # n = ceil(sqrt(200 / 2)) = 10
+    # The waved surface z = 0.2 sin x cos y is a little larger than its 10 m × 10 m plan.
+    assert surface_area_m2(parts) == pytest.approx(100.0, rel=0.02) and surface_area_m2(parts) > 100.0
