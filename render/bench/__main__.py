@@ -4,6 +4,7 @@
 * ``light`` -- full render vs relight, luminaire-count scaling, 1 nm vs 5 nm (:mod:`render.bench.light`).
 * ``calc`` -- a full calculation of a scene vs one view's render (:mod:`render.bench.calc`).
 * ``study`` -- design-study throughput on 1 and 2 Dask workers (:mod:`render.bench.study`).
+* ``startup`` -- quick commands as new processes, a 1M-triangle OBJ, a cold demo (:mod:`render.bench.startup`).
 """
 
 from __future__ import annotations
@@ -11,7 +12,7 @@ from __future__ import annotations
 import argparse
 import sys
 
-from render.bench import calc, light, rays
+from render.bench import calc, light, rays, startup
 from render.bench import study as study_bench
 
 
@@ -22,6 +23,7 @@ def build_parser() -> argparse.ArgumentParser:
     light.add_parser(sub)
     calc.add_parser(sub)
     study_bench.add_parser(sub)
+    startup.add_parser(sub)
     return parser
 
 
