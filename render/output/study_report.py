@@ -24,6 +24,7 @@ __all__ = ["write_study_report"]
 SHOWN = (
     "label",
     "setup",
+    "note",
     "annual_kwh",
     "annual_cost",
     "currency",
@@ -37,7 +38,6 @@ SHOWN = (
     "upward_lm_per_m",
     "colour_hard_pairs",
     "colour_min_delta_e00",
-    "note",
 )
 
 
@@ -47,7 +47,9 @@ def _format(value: Any) -> tuple[str, bool]:
     if isinstance(value, bool) or isinstance(value, str):
         return str(value), True
     if isinstance(value, float):
-        return (f"{value:.3g}" if math.isfinite(value) else str(value)), False
+        if not math.isfinite(value):
+            return str(value), False
+        return (f"{value:,.0f}" if abs(value) >= 100 else f"{value:.3g}"), False
     return str(value), False
 
 
@@ -104,13 +106,9 @@ def write_study_report(spec: StudySpec, table: dict[str, list[Any]], out_dir: st
             cells.append({"value": text, "text": is_text})
         rows.append({"rank": rank, "front": front[i], "cells": cells})
     pictures = []
-    plots = [
-        ("class_margin_min", "smallest class margin (fraction; ≥ 0 meets the class)", "energy-vs-class-margin.png")
-    ]
+    plots = [("class_margin_min", "smallest class margin (≥ 0 meets the class)", "energy-vs-class-margin.png")]
     if "colour_min_delta_e00" in table:
-        plots.append(
-            ("colour_min_delta_e00", "smallest ΔE00 between objects distinct in daylight", "energy-vs-colour.png")
-        )
+        plots.append(("colour_min_delta_e00", "smallest ΔE00 of distinct objects", "energy-vs-colour.png"))
     for column, label, name in plots:
         path = _plot(table, front, column, label, out / name)
         if path is not None:
