@@ -138,15 +138,11 @@ def _surface_sums(response, value, emitter_response):
     return n, sums
 
 
-@numba.njit(cache=True, nogil=True, parallel=True)
-def _any_per_pixel(emitter, spp):
-    out = np.zeros(emitter.shape[0] // spp, np.bool_)
-    for p in prange(out.shape[0]):
-        for s in range(p * spp, p * spp + spp):
-            if emitter[s] >= 0:
-                out[p] = True
-                break
-    return out
+def _any_per_pixel(emitter: np.ndarray, spp: int) -> np.ndarray:
+    """Per pixel: does any of its ``spp`` consecutive samples see a luminous opening (numpy:
+    one pass, and no kernel to compile on first use)."""
+    n_pix = emitter.shape[0] // spp
+    return np.asarray(emitter[: n_pix * spp].reshape(n_pix, spp) >= 0).any(axis=1)
 
 
 @dataclass
