@@ -33,6 +33,7 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 
+import numba
 import numpy as np
 import numpy.typing as npt
 from scipy.ndimage import gaussian_filter
@@ -88,17 +89,56 @@ def apply_acuity(
     img = np.asarray(image, dtype=np.float64)
     sigma_px = blur_sigma_deg(local_luminance_cd_m2) / geometry.deg_per_px_centre
     levels = np.asarray(levels_px, dtype=np.float64)
-    s = np.clip(sigma_px, 0.0, levels[-1])
-    k = np.clip(np.searchsorted(levels, s, side="right") - 1, 0, len(levels) - 2)
-    t = (s - levels[k]) / (levels[k + 1] - levels[k])
-    out = np.zeros_like(img)
-    for i in range(len(levels)):
-        wgt = np.where(k == i, 1.0 - t, 0.0) + np.where(k + 1 == i, t, 0.0)
-        if not np.any(wgt > 0):
-            continue
+    shape = np.broadcast_shapes(img.shape[:-1], np.shape(sigma_px))
+    sigma = np.ascontiguousarray(np.broadcast_to(sigma_px, shape).reshape(-1))
+    lower = np.empty(sigma.size, dtype=np.int64)
+    frac = np.empty(sigma.size)
+    used = np.zeros(len(levels), dtype=np.bool_)
+    _bracket_levels(sigma, levels, lower, frac, used)
+    out = np.zeros((sigma.size, img.shape[-1]))
+    for i in np.flatnonzero(used):
         if levels[i] == 0.0:
             blurred = img
         else:
             blurred = gaussian_filter(img, sigma=(levels[i], levels[i], 0), mode="nearest")
-        out += wgt[..., None] * blurred
-    return out, sigma_px
+        _add_level(
+            out,
+            np.ascontiguousarray(np.broadcast_to(blurred, (*shape, img.shape[-1])).reshape(sigma.size, -1)),
+            lower,
+            frac,
+            i,
+        )
+    return out.reshape(*shape, img.shape[-1]), sigma_px
+
+
+@numba.njit(cache=True, nogil=True)
+def _bracket_levels(sigma, levels, lower, frac, used):
+    """Per pixel the blur level below its σ (clipped to the levels' range) and the linear
+    weight of the level above; ``used[i]``: some pixel gives level i a weight above 0."""
+    n = levels.size
+    for p in range(sigma.size):
+        s = min(max(sigma[p], 0.0), levels[n - 1])
+        k = np.searchsorted(levels, s, side="right") - 1
+        k = min(max(k, 0), n - 2)
+        t = (s - levels[k]) / (levels[k + 1] - levels[k])
+        lower[p] = k
+        frac[p] = t
+        if 1.0 - t > 0.0:
+            used[k] = True
+        if t > 0.0:
+            used[k + 1] = True
+
+
+@numba.njit(cache=True, nogil=True, parallel=True)
+def _add_level(out, blurred, lower, frac, level):
+    """Add blur level ``level`` with its per-pixel weight (1 − t below, t above) to ``out``."""
+    for p in numba.prange(out.shape[0]):
+        k = lower[p]
+        if k == level:
+            w = 1.0 - frac[p]
+        elif k + 1 == level:
+            w = frac[p]
+        else:
+            continue
+        for c in range(out.shape[1]):
+            out[p, c] += w * blurred[p, c]

@@ -154,6 +154,15 @@ def central_field_mask(geometry: ViewGeometry, field_deg: float) -> np.ndarray:
     return mask
 
 
+@lru_cache(maxsize=8)
+def _field_weights(geometry: ViewGeometry, field_deg: float) -> np.ndarray:
+    """(H, W) solid angle of each pixel of the central field, 0 outside it (read-only; a view's
+    setups and display modes all measure the same field)."""
+    w = geometry.solid_angle_sr() * central_field_mask(geometry, field_deg)
+    w.setflags(write=False)
+    return w
+
+
 def luminaire_mask(xyz_cd_m2: npt.ArrayLike, threshold_cd_m2: float) -> np.ndarray:
     """Pixels whose photopic luminance exceeds ``threshold_cd_m2`` (luminaire openings)."""
     return np.asarray(xyz_cd_m2)[..., 1] > threshold_cd_m2
@@ -184,10 +193,9 @@ def field_means(
     Pixels where ``exclude`` is true are left out. Returns ``(xyz_mean (3,), scotopic_mean)``;
     zeros if nothing is left.
     """
-    mask = central_field_mask(geometry, field_deg)
+    w = _field_weights(geometry, float(field_deg))
     if exclude is not None:
-        mask = mask & ~np.asarray(exclude, dtype=bool)
-    w = geometry.solid_angle_sr() * mask
+        w = w * ~np.asarray(exclude, dtype=bool)
     total = w.sum()
     if total <= 0:
         return np.zeros(3), 0.0

@@ -80,6 +80,7 @@ from __future__ import annotations
 
 from functools import lru_cache
 
+import numba
 import numpy as np
 import numpy.typing as npt
 
@@ -256,16 +257,24 @@ def rod_intrusion(
     rod-modified appearance (see module text). Exactly the input when m = 1.
     """
     xyz = np.asarray(xyz_cd_m2, dtype=np.float64)
-    lmes = np.maximum(np.asarray(mesopic_cd_m2, dtype=np.float64), 0.0)
+    shape = np.broadcast_shapes(xyz.shape[:-1], np.shape(mesopic_cd_m2), np.shape(scotopic_cd_m2))
+    xyz = np.ascontiguousarray(np.broadcast_to(xyz, (*shape, 3)).reshape(-1, 3))
+    lmes = np.ascontiguousarray(np.broadcast_to(np.asarray(mesopic_cd_m2, dtype=np.float64), shape).reshape(-1))
     white = np.asarray(state.white_xyz, dtype=np.float64)
     w_r = rod_share(state) if enabled else 0.0
-    if w_r <= 0.0:
-        base = xyz
-    else:
+    # Per-pixel work in one pass (_rod_kernel); the constants of the adapting white here.
+    rod_unit = np.zeros(3)
+    gain = np.ones(3)
+    w_c = 1.0
+    lms = np.zeros((0, 3))
+    qr = np.zeros(0)
+    if w_r > 0.0:
         area_mm2 = np.pi * (0.5 * state.pupil_diameter_mm) ** 2
-        lms = xyz_to_lms(xyz) if lms_cd_m2 is None else np.asarray(lms_cd_m2, dtype=np.float64)
-        q = np.maximum(lms, 0.0)
-        qr = np.maximum(np.asarray(scotopic_cd_m2, dtype=np.float64), 0.0)
+        if lms_cd_m2 is not None:
+            lms = np.asarray(lms_cd_m2, dtype=np.float64)
+            lms = np.ascontiguousarray(np.broadcast_to(lms, (*shape, 3)).reshape(-1, 3))
+        qr = np.asarray(scotopic_cd_m2, dtype=np.float64)
+        qr = np.ascontiguousarray(np.broadcast_to(qr, shape).reshape(-1))
         lw = max(state.photopic_cd_m2, 1e-12)
         # Adapting white at the adaptation luminance: cone and rod signals (cd/m² units; the
         # pupil area only matters for the gains, which need trolands).
@@ -275,13 +284,46 @@ def rod_intrusion(
         # Rod part normalised so that, for the white, it carries the white's L + M.
         rod_unit = d * ((q_w[0] + q_w[1]) / (d[0] + d[1]) / qr_w)
         w_c = 1.0 - w_r
-        q_hat = w_c * q + w_r * qr[..., None] * rod_unit
         q_hat_w = w_c * q_w + w_r * qr_w * rod_unit
-        base = lms_to_xyz(q_hat * (q_w / q_hat_w))
-    y = base[..., 1]
-    ok = y > 1e-300
-    scale = np.divide(lmes, y, out=np.zeros_like(lmes), where=ok)
-    out = base * scale[..., None]
-    # Stimuli with no photopic signal at all: show the white's chromaticity at their L_mes.
-    out = np.where(ok[..., None], out, white * lmes[..., None])
-    return out
+        gain = q_w / q_hat_w
+    out = np.empty_like(xyz)
+    _rod_kernel(xyz, lms, qr, lmes, XYZ_TO_LMS, LMS_TO_XYZ, rod_unit, gain, w_c, w_r, white, out)
+    return out.reshape(*shape, 3)
+
+
+@numba.njit(cache=True, nogil=True, parallel=True)
+def _rod_kernel(xyz, lms, qr, lmes, to_lms, to_xyz, rod_unit, gain, w_c, w_r, white, out):
+    """Per pixel: ``q̂ = w_c·max(q, 0) + w_r·max(q_R, 0)·rod_unit``, back to XYZ with the white's
+    von Kries gain, then scaled to the pixel's mesopic luminance (:func:`rod_intrusion`).
+    ``w_r = 0`` keeps the input XYZ; ``lms`` empty: cone signals from XYZ."""
+    for i in numba.prange(xyz.shape[0]):
+        x = xyz[i, 0]
+        y = xyz[i, 1]
+        z = xyz[i, 2]
+        if w_r > 0.0:
+            if lms.shape[0] > 0:
+                l0 = lms[i, 0]
+                l1 = lms[i, 1]
+                l2 = lms[i, 2]
+            else:
+                l0 = to_lms[0, 0] * x + to_lms[0, 1] * y + to_lms[0, 2] * z
+                l1 = to_lms[1, 0] * x + to_lms[1, 1] * y + to_lms[1, 2] * z
+                l2 = to_lms[2, 0] * x + to_lms[2, 1] * y + to_lms[2, 2] * z
+            r = w_r * max(qr[i], 0.0)
+            h0 = (w_c * max(l0, 0.0) + r * rod_unit[0]) * gain[0]
+            h1 = (w_c * max(l1, 0.0) + r * rod_unit[1]) * gain[1]
+            h2 = (w_c * max(l2, 0.0) + r * rod_unit[2]) * gain[2]
+            x = to_xyz[0, 0] * h0 + to_xyz[0, 1] * h1 + to_xyz[0, 2] * h2
+            y = to_xyz[1, 0] * h0 + to_xyz[1, 1] * h1 + to_xyz[1, 2] * h2
+            z = to_xyz[2, 0] * h0 + to_xyz[2, 1] * h1 + to_xyz[2, 2] * h2
+        lm = max(lmes[i], 0.0)
+        if y > 1e-300:
+            scale = lm / y
+            out[i, 0] = x * scale
+            out[i, 1] = y * scale
+            out[i, 2] = z * scale
+        else:
+            # No photopic signal at all: the white's chromaticity at the pixel's L_mes.
+            out[i, 0] = white[0] * lm
+            out[i, 1] = white[1] * lm
+            out[i, 2] = white[2] * lm
