@@ -14,7 +14,13 @@ from render.resources import numba_cache_dir as _numba_cache_dir
 
 __all__ = ["__version__"]
 
-__version__: str = _installed_version()
+
+def __getattr__(name: str) -> str:
+    """``render.__version__``, read from the installed metadata when first asked for."""
+    if name == "__version__":
+        return _installed_version()
+    raise AttributeError(f"module 'render' has no attribute {name!r}")
+
 
 # Before any kernel module imports numba: a read-only installation caches compiled kernels in
 # a per-user folder (see render.resources.numba_cache_dir).

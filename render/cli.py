@@ -27,7 +27,6 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from render import __version__
 from render.errors import InputError, Problem, input_error
 from render.fileio import file_stem
 from render.resources import demo_scene_path
@@ -716,6 +715,19 @@ def _output_options(p: argparse.ArgumentParser) -> None:
     )
 
 
+class _VersionAction(argparse.Action):
+    """``--version``: print lampcast's version (read from the installed metadata only then)."""
+
+    def __init__(self, option_strings, dest=argparse.SUPPRESS, default=argparse.SUPPRESS, help=None):
+        super().__init__(option_strings, dest=dest, default=default, nargs=0, help="show the version and exit")
+
+    def __call__(self, parser, namespace, values, option_string=None):
+        from render.resources import installed_version
+
+        print(f"lampcast {installed_version()}")
+        parser.exit()
+
+
 #: The command's description; ``--help`` adds the standing caution of the report.
 DESCRIPTION = "Spectral night-time previews of a street under candidate street lamps."
 
@@ -743,7 +755,7 @@ def build_parser() -> argparse.ArgumentParser:
         prog="lampcast",
         description=DESCRIPTION,
     )
-    parser.add_argument("--version", action="version", version=f"lampcast {__version__}")
+    parser.add_argument("--version", action=_VersionAction)
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
 
     p = sub.add_parser("lamps", help="list built-in lamps (or lamp files) with their colour and photometric figures")
@@ -947,11 +959,11 @@ def save_traceback(error: BaseException, argv: Sequence[str] | None = None) -> P
     import traceback
 
     from render.fileio import atomic_write_text
-    from render.resources import user_cache_dir
+    from render.resources import installed_version, user_cache_dir
 
     command = " ".join(["lampcast", *(sys.argv[1:] if argv is None else argv)])
     text = (
-        f"lampcast {__version__}, Python {platform.python_version()} on {platform.platform()}\n"
+        f"lampcast {installed_version()}, Python {platform.python_version()} on {platform.platform()}\n"
         f"command: {command}\n\n" + "".join(traceback.format_exception(error))
     )
     name = f"crash-{time.strftime('%Y%m%d-%H%M%S')}-{os.getpid()}.txt"

@@ -21,9 +21,9 @@ References
 
 from __future__ import annotations
 
-import importlib.metadata
 import os
 from collections.abc import Callable, Mapping
+from functools import lru_cache
 from importlib.resources import files
 from pathlib import Path
 
@@ -43,10 +43,14 @@ DISTRIBUTION = "lampcast"
 _UNKNOWN_VERSION = "0+unknown"
 
 
+@lru_cache(maxsize=1)
 def installed_version() -> str:
     """lampcast's version, read from the installed distribution's metadata (``pyproject.toml``
     is its one source); ``0+unknown`` when the package runs from a folder that was never
-    installed."""
+    installed. Read once per process, when first asked for (:mod:`importlib.metadata` takes
+    longer to import than the rest of a quick command's start)."""
+    import importlib.metadata
+
     try:
         return importlib.metadata.version(DISTRIBUTION)
     except importlib.metadata.PackageNotFoundError:
