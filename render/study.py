@@ -10,8 +10,8 @@
 A :class:`Study` compiles the scene and builds its BVH once. :meth:`Study.render_view` casts a
 view's camera rays once and keeps its :class:`~render.light.integrator.LightBuffers`;
 :meth:`Study.relight` re-colours them for another setup without casting a ray (a setup that
-changes a photometric distribution re-evaluates the light at the stored hit points, still
-without casting camera rays).
+changes a photometric distribution re-evaluates the light at the same hit points, casting the
+view's camera samples again tile by tile rather than keeping their geometry in memory).
 
 References
 ----------
@@ -36,9 +36,9 @@ from render.light.integrator import (
     NEGLIGIBLE_LX,
     SURFACE_OFFSET_M,
     LightBuffers,
-    cast_view,
     direct_illuminance_lx,
     evaluate_light,
+    render_buffers,
 )
 from render.light.luminaires import LuminaireSet, channel_factors, luminaire_set, needs_new_evaluation
 from render.light.rtable import view_road_shading
@@ -204,12 +204,21 @@ class Study:
         spp = samples_per_pixel or self.scene.render.samples_per_pixel
         seed = self.scene.render.seed if seed is None else seed
         s = self.setup(setup)
-        lights = luminaire_set(self.scene, s)
+        lights = self.lights(s)
         where = f"view {v.name!r}" + (" with --width/--spp" if width_px or samples_per_pixel else "")
         check_render_size(camera.width_px, camera.height_px, spp, lights.n_channels, self.scene.path, where)
         road = view_road_shading(self.scene, v, self.mesh, self.reflectances)
-        buffers = cast_view(self.mesh, self.bvh, lights, camera, spp, seed, progress=progress, road=road)
-        evaluate_light(buffers, lights, self.bvh, negligible_lx=self.negligible_lx, progress=progress)
+        buffers = render_buffers(
+            self.mesh,
+            self.bvh,
+            lights,
+            camera,
+            spp,
+            seed,
+            road=road,
+            negligible_lx=self.negligible_lx,
+            progress=progress,
+        )
         return RenderedView(
             v.name, s.name if s else None, camera, buffers, lights, self.colorimetry(buffers, lights, s)
         )
@@ -217,10 +226,10 @@ class Study:
     def relight(self, rendered: RenderedView, setup: str | Setup | None, *, progress: bool = False) -> RenderedView:
         """The same view under another setup. Lamps, lumens and dimming are applied to the kept
         buffers without any ray; a changed photometric distribution re-evaluates the light at
-        the kept hit points (shadow rays only)."""
+        the same hit points (the camera samples cast again, tile by tile, with shadow rays)."""
         s = self.setup(setup)
         if needs_new_evaluation(rendered.lights, s):
-            lights = luminaire_set(self.scene, s)
+            lights = self.lights(s)
             buffers = LightBuffers(**{**rendered.buffers.__dict__})
             evaluate_light(buffers, lights, self.bvh, negligible_lx=self.negligible_lx, progress=progress)
         else:

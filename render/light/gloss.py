@@ -31,10 +31,22 @@ References
 
 from __future__ import annotations
 
+import math
+
+import numba
 import numpy as np
 import numpy.typing as npt
 
-__all__ = ["WATER_F0", "WET_ROUGHNESS", "ggx_d", "schlick_fresnel", "smith_g1", "specular_brdf"]
+__all__ = [
+    "WATER_F0",
+    "WET_ROUGHNESS",
+    "fresnel_one",
+    "ggx_d",
+    "schlick_fresnel",
+    "smith_g1",
+    "specular_brdf",
+    "specular_one",
+]
 
 #: F0 of water (n = 1.333): ((n - 1) / (n + 1))², analytic.
 WATER_F0 = ((1.333 - 1.0) / (1.333 + 1.0)) ** 2
@@ -42,24 +54,92 @@ WATER_F0 = ((1.333 - 1.0) / (1.333 + 1.0)) ** 2
 WET_ROUGHNESS = 0.1
 
 
+# The formulas, once, as numba scalar functions; the array functions below and the light
+# kernels (render.light.integrator) call them.
+
+
+@numba.njit(cache=True, nogil=True)
+def fresnel_one(cos_theta: float, f0: float) -> float:
+    """Schlick's Fresnel reflectance at incidence cosine ``cos_theta`` (clipped to 0 … 1)."""
+    c = min(max(cos_theta, 0.0), 1.0)
+    return f0 + (1.0 - f0) * math.pow(1.0 - c, 5.0)
+
+
+@numba.njit(cache=True, nogil=True)
+def _ggx_one(cos_h: float, alpha: float) -> float:
+    a2 = alpha * alpha
+    c2 = cos_h * cos_h
+    s = c2 * (a2 - 1.0) + 1.0
+    return a2 / (math.pi * (s * s))
+
+
+@numba.njit(cache=True, nogil=True)
+def _g1_one(cos_x: float, alpha: float) -> float:
+    c = min(max(cos_x, 1e-9), 1.0)
+    a2 = alpha * alpha
+    return 2.0 * c / (c + math.sqrt(a2 + (1.0 - a2) * c * c))
+
+
+@numba.njit(cache=True, nogil=True)
+def specular_one(nx, ny, nz, lx, ly, lz, vx, vy, vz, f0, alpha):
+    """f_s (1/sr) for one unit normal ``n``, direction toward the light ``l`` and toward the eye
+    ``v``; 0 where either direction is below the surface."""
+    ci = nx * lx + ny * ly + nz * lz
+    co = nx * vx + ny * vy + nz * vz
+    hx = lx + vx
+    hy = ly + vy
+    hz = lz + vz
+    h = max(math.sqrt(hx * hx + hy * hy + hz * hz), 1e-12)
+    hx /= h
+    hy /= h
+    hz /= h
+    if not (ci > 0.0 and co > 0.0):
+        return 0.0
+    ch = nx * hx + ny * hy + nz * hz
+    vh = vx * hx + vy * hy + vz * hz
+    f = _ggx_one(ch, alpha) * _g1_one(ci, alpha) * _g1_one(co, alpha) * fresnel_one(vh, f0)
+    return f / (4.0 * max(ci, 1e-9) * max(co, 1e-9))
+
+
+@numba.njit(cache=True, nogil=True)
+def _pairs(kind, a, b, out):
+    for i in range(out.shape[0]):
+        if kind == 0:
+            out[i] = fresnel_one(a[i], b[i])
+        elif kind == 1:
+            out[i] = _ggx_one(a[i], b[i])
+        else:
+            out[i] = _g1_one(a[i], b[i])
+
+
+@numba.njit(cache=True, nogil=True)
+def _brdf_many(n, l, v, f0, alpha, out):
+    for i in range(out.shape[0]):
+        out[i] = specular_one(
+            n[i, 0], n[i, 1], n[i, 2], l[i, 0], l[i, 1], l[i, 2], v[i, 0], v[i, 1], v[i, 2], f0[i], alpha[i]
+        )
+
+
+def _elementwise(kind: int, a: npt.ArrayLike, b: npt.ArrayLike) -> np.ndarray:
+    x, y = np.broadcast_arrays(np.asarray(a, np.float64), np.asarray(b, np.float64))
+    out = np.empty(x.shape)
+    _pairs(kind, np.ascontiguousarray(x).reshape(-1), np.ascontiguousarray(y).reshape(-1), out.reshape(-1))
+    return out[()] if out.ndim == 0 else out
+
+
 def schlick_fresnel(cos_theta: npt.ArrayLike, f0: npt.ArrayLike) -> np.ndarray:
     """Schlick's approximation of Fresnel reflectance at incidence cosine ``cos_theta``."""
-    c = np.clip(np.asarray(cos_theta, np.float64), 0.0, 1.0)
-    return f0 + (1.0 - f0) * (1.0 - c) ** 5
+    return _elementwise(0, cos_theta, f0)
 
 
 def ggx_d(cos_h: npt.ArrayLike, alpha: npt.ArrayLike) -> np.ndarray:
     """GGX normal distribution D(h) (1/sr) for the cosine of the half-vector angle."""
-    a2 = np.asarray(alpha, np.float64) ** 2
-    c2 = np.asarray(cos_h, np.float64) ** 2
-    return a2 / (np.pi * (c2 * (a2 - 1.0) + 1.0) ** 2)
+    return _elementwise(1, cos_h, alpha)
 
 
 def smith_g1(cos_x: npt.ArrayLike, alpha: npt.ArrayLike) -> np.ndarray:
     """Smith masking G1 for GGX, one direction, at the cosine ``cos_x`` to the normal."""
-    c = np.clip(np.asarray(cos_x, np.float64), 1e-9, 1.0)
-    a2 = np.asarray(alpha, np.float64) ** 2
-    return 2.0 * c / (c + np.sqrt(a2 + (1.0 - a2) * c * c))
+    return _elementwise(2, cos_x, alpha)
 
 
 def specular_brdf(
@@ -67,15 +147,11 @@ def specular_brdf(
 ) -> np.ndarray:
     """f_s (1/sr) for unit vectors (N, 3): surface normal, toward the light, toward the eye;
     0 where either direction is below the surface."""
-    n = np.asarray(normal, np.float64)
-    l = np.asarray(to_light, np.float64)
-    v = np.asarray(to_eye, np.float64)
-    ci = np.einsum("ij,ij->i", n, l)
-    co = np.einsum("ij,ij->i", n, v)
-    h = l + v
-    h /= np.maximum(np.linalg.norm(h, axis=1, keepdims=True), 1e-12)
-    ch = np.einsum("ij,ij->i", n, h)
-    vh = np.einsum("ij,ij->i", v, h)
-    ok = (ci > 0) & (co > 0)
-    f = ggx_d(ch, alpha) * smith_g1(ci, alpha) * smith_g1(co, alpha) * schlick_fresnel(vh, f0)
-    return np.where(ok, f / (4.0 * np.maximum(ci, 1e-9) * np.maximum(co, 1e-9)), 0.0)
+    n, l, v = (np.ascontiguousarray(x, np.float64).reshape(-1, 3) for x in (normal, to_light, to_eye))
+    m = max(n.shape[0], l.shape[0], v.shape[0])
+    n, l, v = (np.ascontiguousarray(np.broadcast_to(x, (m, 3))) for x in (n, l, v))
+    f = np.ascontiguousarray(np.broadcast_to(np.asarray(f0, np.float64), (m,)))
+    a = np.ascontiguousarray(np.broadcast_to(np.asarray(alpha, np.float64), (m,)))
+    out = np.empty(m)
+    _brdf_many(n, l, v, f, a, out)
+    return out

@@ -29,7 +29,18 @@ there (no shadow ray): the error per skipped luminaire is below that bound by co
 uniform grid over the ground plane lists, per cell, the luminaires whose conservative bound
 (largest intensity at or beyond the smallest possible γ, over the smallest possible distance) can
 reach the bound in that cell; so the work per point grows with the luminaires *near* it, not
-with all of them.
+with all of them. A point outside the grid's box tests every luminaire, so a grid built once
+over the scene's bounds serves every view (:func:`scene_cull_grid`, kept with the luminaires).
+
+**One pass per sample.** A view is rendered in tiles of camera samples: rays, closest hits,
+what each hit sees (:func:`render.rays.bvh.shade_hits`), then one numba kernel per sample that
+culls, looks up the intensity, traces the shadow ray, applies the gloss layer and the r-table
+and adds the result into the sample's per-channel sums, with no per-(point, luminaire) arrays.
+Hit points, normals and ray directions are kept as float32 and the light is evaluated at these
+float32 values (in float64 arithmetic), so a view re-evaluated from its kept samples and a
+view rendered afresh agree to the bit. Only what colorimetry and the analyses read stays per
+sample (material, object, opening, and the light values); the hit geometry of a view is cast
+again on request (:meth:`LightBuffers.sample_geometry`), so memory does not hold it.
 
 References
 ----------
@@ -57,18 +68,16 @@ import numpy as np
 from numba import prange
 
 from render.geometry.mesh import TriangleMesh
+from render.light.gloss import fresnel_one, specular_one
 from render.light.luminaires import Channel, LuminaireSet
 from render.light.photometry import direction_to_c_gamma, intensity_lookup
+from render.light.rtable import road_q_one
 from render.progress import progress_bar
-from render.rays.bvh import (
-    BVH,
-    build_bvh,
-    face_forward,
-    geometric_normal,
-    interpolate_normal,
-    intersect_any,
-    intersect_closest,
-)
+from render.rays.bvh import BVH, build_bvh, intersect_any, intersect_closest, shade_hits
+from render.rays.bvh.layout import STACK_SIZE, WIDE
+from render.rays.bvh.packet import LANE_FIELDS, PACKET, PACKET_COS_ANY, lane_result, packet_load, packet_trace
+from render.rays.bvh.single import any_one
+from render.rays.bvh.slab import valid_ray
 
 if TYPE_CHECKING:
     from render.light.rtable import RoadShading
@@ -79,15 +88,20 @@ __all__ = [
     "NEGLIGIBLE_LX",
     "SHADOW_CLEARANCE_M",
     "SURFACE_OFFSET_M",
+    "TILE_SAMPLES",
     "CullGrid",
     "DirectPairs",
     "LightBuffers",
+    "SampleGeometry",
+    "ViewRays",
     "cast_view",
     "cull_grid",
     "direct_illuminance_lx",
     "direct_pairs",
     "emitter_triangles",
     "evaluate_light",
+    "render_buffers",
+    "scene_cull_grid",
 ]
 
 #: Default bound below which a luminaire's unshadowed contribution is skipped, lx. 1e-3 lx is
@@ -100,8 +114,16 @@ NEGLIGIBLE_LX = 1e-3
 SHADOW_CLEARANCE_M = 0.05
 #: Offset of shadow-ray origins along the geometric normal, m.
 SURFACE_OFFSET_M = 1e-4
-#: Culling grid cell size, m.
+#: Culling grid cell size, m (larger where the grid would otherwise exceed _MAX_CELLS).
 CELL_M = 8.0
+#: Camera samples per tile: what a render holds at a time besides its per-sample results.
+TILE_SAMPLES = 1 << 17
+# Most cells of a culling grid (its mask is cells × luminaires booleans).
+_MAX_CELLS = 1 << 16
+# Samples per parallel work item of the light kernel (scratch arrays are made once per item).
+_BLOCK = 64
+# Margin around the scene's bounds for its culling grid, m.
+_GRID_MARGIN_M = 0.01
 
 
 # ------------------------------------------------------------------------------------------
@@ -117,12 +139,16 @@ def _intensity(lights_rot, c_grid, g_grid, n_c, n_g, cd, k, t, dx, dy, dz):
 
 
 @numba.njit(cache=True, nogil=True)
-def _cell_of(x, y, x0, y0, cell, nx, ny):
-    ix = int((x - x0) / cell)
-    iy = int((y - y0) / cell)
-    ix = min(max(ix, 0), nx - 1)
-    iy = min(max(iy, 0), ny - 1)
-    return iy * nx + ix
+def _cell_of(x, y, z, box, cell, nx, ny):
+    """Cell index of a point, or -1 outside the grid's box ``(x0, y0, z_lo, z_hi)`` (every
+    luminaire is then a candidate)."""
+    if not (z >= box[2] and z <= box[3]):
+        return -1
+    fx = (x - box[0]) / cell
+    fy = (y - box[1]) / cell
+    if not (fx >= 0.0 and fy >= 0.0 and fx < nx and fy < ny):
+        return -1
+    return int(fy) * nx + int(fx)
 
 
 @numba.njit(cache=True, nogil=True, parallel=True)
@@ -161,6 +187,24 @@ def _cell_lists(x0, y0, cell, nx, ny, z_lo, z_hi, pos, tilt_abs, table, scale, g
             out_mask[ci, k] = bound >= eps
 
 
+@numba.njit(cache=True, nogil=True)
+def _unshadowed(px, py, pz, nx_, ny_, nz_, k, rot, pos, scale, table, c_grid, g_grid, n_c, n_g, cd):
+    """Luminaire k's unshadowed illuminance (lx) at a point with unit normal n, and the
+    distance to it; (0, 0) when it is behind the surface or at the point."""
+    dx = px - pos[k, 0]
+    dy = py - pos[k, 1]
+    dz = pz - pos[k, 2]
+    d2 = dx * dx + dy * dy + dz * dz
+    if d2 <= 1e-12:
+        return 0.0, 0.0
+    d = math.sqrt(d2)
+    cos_s = -(nx_ * dx + ny_ * dy + nz_ * dz) / d
+    if cos_s <= 0.0:
+        return 0.0, 0.0
+    inten = _intensity(rot, c_grid, g_grid, n_c, n_g, cd, k, table[k], dx, dy, dz)
+    return scale[k] * inten * cos_s / d2, d
+
+
 @numba.njit(cache=True, nogil=True, parallel=True)
 def _candidates(
     points,
@@ -176,8 +220,7 @@ def _candidates(
     n_g,
     cd,
     clearance,
-    x0,
-    y0,
+    box,
     cell,
     nx,
     ny,
@@ -191,7 +234,7 @@ def _candidates(
     out_tmax,
 ):
     """Per point, the luminaires whose unshadowed contribution reaches ``eps``: written to row
-    ``i`` of the (N, K) outputs (K = the longest cell list), their number to ``counts[i]``."""
+    ``i`` of the (N, K) outputs, their number to ``counts[i]``."""
     N = points.shape[0]
     for i in prange(N):
         counts[i] = 0
@@ -200,41 +243,264 @@ def _candidates(
         px = points[i, 0]
         py = points[i, 1]
         pz = points[i, 2]
-        nx_ = normals[i, 0]
-        ny_ = normals[i, 1]
-        nz_ = normals[i, 2]
-        ci = _cell_of(px, py, x0, y0, cell, nx, ny)
+        ci = _cell_of(px, py, pz, box, cell, nx, ny)
+        q0 = cell_start[ci] if ci >= 0 else 0
+        q1 = cell_start[ci + 1] if ci >= 0 else pos.shape[0]
         w = 0
-        for q in range(cell_start[ci], cell_start[ci + 1]):
-            k = cell_items[q]
-            dx = px - pos[k, 0]
-            dy = py - pos[k, 1]
-            dz = pz - pos[k, 2]
-            d2 = dx * dx + dy * dy + dz * dz
-            if d2 <= 1e-12:
-                continue
-            d = math.sqrt(d2)
-            cos_s = -(nx_ * dx + ny_ * dy + nz_ * dz) / d
-            if cos_s <= 0.0:
-                continue
-            inten = _intensity(rot, c_grid, g_grid, n_c, n_g, cd, k, table[k], dx, dy, dz)
-            e = scale[k] * inten * cos_s / d2
-            if e < eps:
+        for q in range(q0, q1):
+            k = cell_items[q] if ci >= 0 else q
+            e, d = _unshadowed(
+                px,
+                py,
+                pz,
+                normals[i, 0],
+                normals[i, 1],
+                normals[i, 2],
+                k,
+                rot,
+                pos,
+                scale,
+                table,
+                c_grid,
+                g_grid,
+                n_c,
+                n_g,
+                cd,
+            )
+            if e < eps or d == 0.0:
                 continue
             out_lum[i, w] = k
             out_e[i, w] = e
-            out_dir[i, w, 0] = -dx / d
-            out_dir[i, w, 1] = -dy / d
-            out_dir[i, w, 2] = -dz / d
+            out_dir[i, w, 0] = -(px - pos[k, 0]) / d
+            out_dir[i, w, 1] = -(py - pos[k, 1]) / d
+            out_dir[i, w, 2] = -(pz - pos[k, 2]) / d
             out_tmax[i, w] = max(d - clearance[k], 0.0)
             w += 1
         counts[i] = w
 
 
-@numba.njit(cache=True, nogil=True)
-def _scatter_add(out, rows, cols, values):
-    for w in range(rows.shape[0]):
-        out[rows[w], cols[w]] += values[w]
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def _shadow_block(tree, wide_stack, n_pairs, lum_of, origin, direction, t_max, blocked, scratch):
+    """Shadow rays of one block's (point, luminaire) pairs: the rays toward one luminaire are
+    traced together, :data:`PACKET` at a time, through the binary tree when their directions
+    agree (:func:`render.rays.bvh.packet.packet_trace`), else one by one through the wide tree;
+    either way each ray's answer is the same (:mod:`render.rays.bvh.query`)."""
+    nb, ni, wb, wi, tv, ti = tree
+    lane, st_node, work, ro, rd, rt, members, done = scratch
+    for p in range(n_pairs):
+        done[p] = False
+    for first in range(n_pairs):
+        if done[first]:
+            continue
+        k = lum_of[first]
+        p = first
+        while p < n_pairs:
+            # Gather the next packet of pairs toward luminaire k.
+            n = 0
+            while p < n_pairs and n < PACKET:
+                if not done[p] and lum_of[p] == k:
+                    for c in range(3):
+                        ro[n, c] = origin[p, c]
+                        rd[n, c] = direction[p, c]
+                    rt[n] = t_max[p]
+                    members[n] = p
+                    done[p] = True
+                    n += 1
+                p += 1
+            if n == 0:
+                break
+            coherent = False
+            axes = (0, 0, 0)
+            if n > 1:
+                coherent, axes = packet_load(lane, ro, rd, rt, 0, n, PACKET_COS_ANY)
+            if coherent:
+                packet_trace(nb, ni, tv, ti, lane, PACKET, 0.0, axes, st_node, True)
+                for r in range(n):
+                    blocked[members[r]] = lane_result(lane, r)[1] > 0
+            else:
+                for r in range(n):
+                    blocked[members[r]] = valid_ray(ro, rd, r) and any_one(
+                        wb, wi, tv, ro[r], rd[r], 0.0, rt[r], st_node, work, WIDE
+                    )
+
+
+@numba.njit(cache=True, nogil=True, parallel=True, error_model="numpy")
+def _direct_light(
+    points,
+    normals,
+    offset_normals,
+    view_dirs,
+    material,
+    obj,
+    active,
+    lum,
+    grid,
+    tree,
+    wide_stack,
+    shadows,
+    shadow_offset,
+    eps,
+    gloss,
+    road,
+    road_object,
+    road_scale,
+    road_factor,
+    divisor,
+    out_value,
+    out_spec,
+):
+    """Direct light at N points, one pass per block of points: culling and intensity per
+    (point, luminaire), the block's shadow rays (:func:`_shadow_block`), then per point the
+    gloss layer and the r-table, summed per channel. Only the block's pairs are held.
+
+    ``lum`` = the luminaire arrays (rotation, position, scale, table, C and γ grids and their
+    lengths, candela tables, channel, shadow clearance); ``grid`` = (box, cell size, nx, ny,
+    cell_start, cell_items) of a :class:`CullGrid`; ``tree`` = the BVH's binary nodes, their
+    int32 view, the wide nodes, their int32 view, triangle vertices and triangle index.
+    ``out_value[i, c]`` gets the channel's sum of the diffuse part over ``divisor`` (π: the
+    white diffuser's luminance; 1: illuminance), ``out_spec[i, c]`` the specular layer's
+    luminance (when ``out_spec`` has rows). The sums run over the luminaires in index order,
+    in float64."""
+    rot, pos, scale, table, c_grid, g_grid, n_c, n_g, cd, channel, clearance = lum
+    box, cell, nx, ny, cell_start, cell_items = grid
+    n = points.shape[0]
+    n_ch = out_value.shape[1]
+    with_spec = out_spec.shape[0] > 0
+    n_blocks = (n + _BLOCK - 1) // _BLOCK
+    for b in prange(n_blocks):
+        i0 = b * _BLOCK
+        i1 = min(n, i0 + _BLOCK)
+        # Room for the block's candidates: each point's cell list, or every luminaire.
+        cap = 0
+        for i in range(i0, i1):
+            if active[i]:
+                ci = _cell_of(points[i, 0], points[i, 1], points[i, 2], box, cell, nx, ny)
+                cap += cell_start[ci + 1] - cell_start[ci] if ci >= 0 else pos.shape[0]
+        count = np.zeros(i1 - i0, np.int64)
+        lum_of = np.empty(cap, np.int64)
+        e_of = np.empty(cap)
+        origin = np.empty((cap, 3))
+        direction = np.empty((cap, 3))
+        t_max = np.empty(cap)
+        blocked = np.zeros(cap, np.bool_)
+        scratch = (
+            np.empty(LANE_FIELDS * PACKET),
+            np.empty(max(STACK_SIZE, wide_stack), np.int64),
+            np.empty(2 * WIDE),
+            np.empty((PACKET, 3)),
+            np.empty((PACKET, 3)),
+            np.empty(PACKET),
+            np.empty(PACKET, np.int64),
+            np.empty(cap, np.bool_),
+        )
+        acc = np.zeros(n_ch)
+        acc_s = np.zeros(n_ch)
+        # Candidates: unshadowed contributions that reach eps.
+        w = 0
+        for i in range(i0, i1):
+            px = points[i, 0]
+            py = points[i, 1]
+            pz = points[i, 2]
+            if not (active[i] and np.isfinite(px) and np.isfinite(py) and np.isfinite(pz)):
+                continue
+            ci = _cell_of(px, py, pz, box, cell, nx, ny)
+            q0 = cell_start[ci] if ci >= 0 else 0
+            q1 = cell_start[ci + 1] if ci >= 0 else pos.shape[0]
+            start = w
+            for q in range(q0, q1):
+                k = cell_items[q] if ci >= 0 else q
+                e, d = _unshadowed(
+                    px,
+                    py,
+                    pz,
+                    normals[i, 0],
+                    normals[i, 1],
+                    normals[i, 2],
+                    k,
+                    rot,
+                    pos,
+                    scale,
+                    table,
+                    c_grid,
+                    g_grid,
+                    n_c,
+                    n_g,
+                    cd,
+                )
+                if e < eps or d == 0.0:
+                    continue
+                lx = -(px - pos[k, 0]) / d
+                ly = -(py - pos[k, 1]) / d
+                lz = -(pz - pos[k, 2]) / d
+                # Shadow-ray origin offset along the receiving side of the geometric normal.
+                gx = offset_normals[i, 0]
+                gy = offset_normals[i, 1]
+                gz = offset_normals[i, 2]
+                step = shadow_offset * np.sign(gx * lx + gy * ly + gz * lz)
+                origin[w, 0] = px + step * gx
+                origin[w, 1] = py + step * gy
+                origin[w, 2] = pz + step * gz
+                direction[w, 0] = lx
+                direction[w, 1] = ly
+                direction[w, 2] = lz
+                t_max[w] = max(d - clearance[k], 0.0)
+                lum_of[w] = k
+                e_of[w] = e
+                w += 1
+            count[i - i0] = w - start
+        if shadows:
+            _shadow_block(tree, wide_stack, w, lum_of, origin, direction, t_max, blocked, scratch)
+        # Sums per point, in candidate (luminaire index) order.
+        w = 0
+        for i in range(i0, i1):
+            m = material[i]
+            f0 = gloss[m, 0] if m >= 0 and m < gloss.shape[0] else 0.0
+            on_road = road_object >= 0 and obj[i] == road_object
+            for c in range(n_ch):
+                acc[c] = 0.0
+                acc_s[c] = 0.0
+            for _ in range(count[i - i0]):
+                if blocked[w]:
+                    w += 1
+                    continue
+                k = lum_of[w]
+                e = e_of[w]
+                lx = direction[w, 0]
+                ly = direction[w, 1]
+                lz = direction[w, 2]
+                w += 1
+                ch = channel[k]
+                diffuse = e
+                if f0 > 0.0:
+                    # The base receives what the interface transmits (render.light.gloss).
+                    nx_ = normals[i, 0]
+                    ny_ = normals[i, 1]
+                    nz_ = normals[i, 2]
+                    diffuse = e * (1.0 - fresnel_one(nx_ * lx + ny_ * ly + nz_ * lz, f0))
+                    if with_spec:
+                        f_s = specular_one(
+                            nx_,
+                            ny_,
+                            nz_,
+                            lx,
+                            ly,
+                            lz,
+                            -view_dirs[i, 0],
+                            -view_dirs[i, 1],
+                            -view_dirs[i, 2],
+                            f0,
+                            gloss[m, 1],
+                        )
+                        acc_s[ch] += e * f_s
+                if on_road:
+                    # L = q·E (render.light.rtable): the value becomes E·q/ρ̄ in place of E/π.
+                    qv = road_q_one(view_dirs[i, 0], view_dirs[i, 1], lx, ly, lz, road[0], road[1], road[2], road_scale)
+                    diffuse *= qv * road_factor
+                acc[ch] += diffuse
+            for c in range(n_ch):
+                out_value[i, c] = acc[c] / divisor
+                if with_spec:
+                    out_spec[i, c] = acc_s[c]
 
 
 @numba.njit(cache=True, nogil=True, parallel=True)
@@ -257,7 +523,7 @@ def _emitter_values(directions, lum_of, rot, pos, scale, table, c_grid, g_grid, 
 
 
 # ------------------------------------------------------------------------------------------
-# Direct illuminance at points
+# Culling grids
 # ------------------------------------------------------------------------------------------
 
 
@@ -266,7 +532,9 @@ class CullGrid:
     """Luminaires that can matter, per cell of a uniform grid over the ground plane.
 
     Cell ``(ix, iy)`` (index ``iy * nx + ix``) covers x in ``[x0 + ix·cell_m, x0 + (ix+1)·cell_m)``
-    and likewise in y; its luminaires are ``cell_items[cell_start[i] : cell_start[i + 1]]``."""
+    and likewise in y, for heights ``z_lo`` to ``z_hi``; its luminaires are
+    ``cell_items[cell_start[i] : cell_start[i + 1]]``. A point outside that box takes every
+    luminaire as a candidate."""
 
     x0: float
     y0: float
@@ -275,32 +543,37 @@ class CullGrid:
     ny: int
     cell_start: np.ndarray
     cell_items: np.ndarray
+    z_lo: float = 0.0
+    z_hi: float = 0.0
 
     @property
     def mean_per_cell(self) -> float:
         """Mean number of listed luminaires per cell."""
         return float(self.cell_items.size) / max(self.nx * self.ny, 1)
 
+    def kernel_args(self) -> tuple:
+        """The grid as the light kernels take it."""
+        box = np.array([self.x0, self.y0, self.z_lo, self.z_hi], np.float64)
+        return box, float(self.cell_m), int(self.nx), int(self.ny), self.cell_start, self.cell_items
 
-def cull_grid(
-    lights: LuminaireSet, points_m: np.ndarray, negligible_lx: float = NEGLIGIBLE_LX, cell_m: float = CELL_M
-) -> CullGrid:
-    """Per ground-plane cell over the points' extent, the luminaires that can matter there."""
-    pts = np.asarray(points_m, np.float64).reshape(-1, 3)
-    finite = np.all(np.isfinite(pts), axis=1)
-    if not np.any(finite) or lights.n_luminaires == 0:
-        return CullGrid(0.0, 0.0, cell_m, 1, 1, np.zeros(2, np.int64), np.zeros(0, np.int64))
-    lo = pts[finite].min(axis=0)
-    hi = pts[finite].max(axis=0)
-    nx = max(1, int(math.ceil((hi[0] - lo[0]) / cell_m + 1e-9)))
-    ny = max(1, int(math.ceil((hi[1] - lo[1]) / cell_m + 1e-9)))
+
+def _grid_over(lights: LuminaireSet, lo: np.ndarray, hi: np.ndarray, negligible_lx: float, cell_m: float) -> CullGrid:
+    """The culling grid over the box ``lo``-``hi`` (metres); cells grow past ``cell_m`` where
+    the grid would have more than ``_MAX_CELLS``."""
+    span_x = max(float(hi[0] - lo[0]), 0.0)
+    span_y = max(float(hi[1] - lo[1]), 0.0)
+    cell = float(cell_m)
+    while math.ceil(span_x / cell + 1e-9) * math.ceil(span_y / cell + 1e-9) > _MAX_CELLS:
+        cell *= 2.0
+    nx = max(1, int(math.ceil(span_x / cell + 1e-9)))
+    ny = max(1, int(math.ceil(span_y / cell + 1e-9)))
     mask = np.zeros((nx * ny, lights.n_luminaires), np.bool_)
     # Angle between each luminaire's own z axis and world z (its tilt), degrees.
     tilt = np.degrees(np.arccos(np.clip(lights.rotation[:, 2, 2], -1.0, 1.0)))
     _cell_lists(
         float(lo[0]),
         float(lo[1]),
-        float(cell_m),
+        cell,
         nx,
         ny,
         float(lo[2]),
@@ -318,11 +591,75 @@ def cull_grid(
     counts = mask.sum(axis=1)
     start = np.concatenate([[0], np.cumsum(counts)]).astype(np.int64)
     items = np.nonzero(mask)[1].astype(np.int64)
-    return CullGrid(float(lo[0]), float(lo[1]), float(cell_m), nx, ny, start, items)
+    return CullGrid(float(lo[0]), float(lo[1]), cell, nx, ny, start, items, float(lo[2]), float(hi[2]))
+
+
+def cull_grid(
+    lights: LuminaireSet, points_m: np.ndarray, negligible_lx: float = NEGLIGIBLE_LX, cell_m: float = CELL_M
+) -> CullGrid:
+    """Per ground-plane cell over the points' extent, the luminaires that can matter there."""
+    pts = np.asarray(points_m, np.float64).reshape(-1, 3)
+    finite = np.all(np.isfinite(pts), axis=1)
+    if not np.any(finite) or lights.n_luminaires == 0:
+        return CullGrid(0.0, 0.0, cell_m, 1, 1, np.zeros(2, np.int64), np.zeros(0, np.int64))
+    return _grid_over(lights, pts[finite].min(axis=0), pts[finite].max(axis=0), negligible_lx, cell_m)
+
+
+def scene_cull_grid(lights: LuminaireSet, bvh: BVH, negligible_lx: float = NEGLIGIBLE_LX) -> CullGrid | None:
+    """The culling grid over the bounds of ``bvh``'s triangles (with a 1 cm margin), built once
+    per luminaire set, bound and scene (kept in ``lights.cull_grids``); None without triangles
+    or luminaires."""
+    if bvh.n_triangles == 0 or lights.n_luminaires == 0:
+        return None
+    tv = bvh.tri_vertices.reshape(-1, 3, 3)
+    lo = tv.min(axis=(0, 1)) - _GRID_MARGIN_M
+    hi = tv.max(axis=(0, 1)) + _GRID_MARGIN_M
+    key = (float(negligible_lx), tuple(lo.tolist()), tuple(hi.tolist()))
+    if key not in lights.cull_grids:
+        lights.cull_grids[key] = _grid_over(lights, lo, hi, negligible_lx, CELL_M)
+    return lights.cull_grids[key]
 
 
 def _clearance(lights: LuminaireSet) -> np.ndarray:
     return SHADOW_CLEARANCE_M + 0.5 * np.hypot(lights.opening_m[:, 0], lights.opening_m[:, 1])
+
+
+def _luminaire_args(lights: LuminaireSet) -> tuple:
+    return (
+        lights.rotation,
+        lights.position_m,
+        lights.scale,
+        lights.table,
+        lights.c_grid,
+        lights.g_grid,
+        lights.n_c,
+        lights.n_g,
+        lights.cd_table,
+        lights.channel,
+        _clearance(lights),
+    )
+
+
+_NO_TREE = (
+    np.zeros((1, 16), np.float32),
+    np.zeros((1, 16), np.int32),
+    np.zeros((1, 64), np.float32),
+    np.zeros((1, 64), np.int32),
+    np.zeros((1, 9)),
+    np.zeros(1, np.int32),
+)
+
+
+def _tree_args(bvh: BVH | None) -> tuple[tuple, int, bool]:
+    if bvh is None or not bvh.n_triangles:
+        return _NO_TREE, 1, False
+    tree = (bvh.nodes, bvh.nodes_i32, bvh.wide_nodes, bvh.wide_nodes_i32, bvh.tri_vertices, bvh.tri_index)
+    return tree, int(bvh.wide_stack), True
+
+
+# ------------------------------------------------------------------------------------------
+# Direct illuminance at points
+# ------------------------------------------------------------------------------------------
 
 
 @dataclass
@@ -365,8 +702,20 @@ def direct_pairs(
     act = act & np.all(np.isfinite(pts), axis=1)
     if grid is None:
         grid = cull_grid(lights, pts[act], negligible_lx)
-    clearance = _clearance(lights)
-    K = int(np.diff(grid.cell_start).max()) if grid.cell_items.size else 0
+    box, cell, gnx, gny, start, items = grid.kernel_args()
+    # Candidates per point: at most the longest cell list, or every luminaire for a point
+    # outside the grid's box.
+    inside = (
+        (pts[:, 2] >= box[2])
+        & (pts[:, 2] <= box[3])
+        & (pts[:, 0] >= box[0])
+        & (pts[:, 1] >= box[1])
+        & ((pts[:, 0] - box[0]) / cell < gnx)
+        & ((pts[:, 1] - box[1]) / cell < gny)
+    )
+    K = int(np.diff(start).max()) if items.size else 0
+    if np.any(act & ~inside):
+        K = lights.n_luminaires
     if K == 0:
         return empty
     counts = np.zeros(n, np.int64)
@@ -387,14 +736,13 @@ def direct_pairs(
         lights.n_c,
         lights.n_g,
         lights.cd_table,
-        clearance,
-        grid.x0,
-        grid.y0,
-        grid.cell_m,
-        grid.nx,
-        grid.ny,
-        grid.cell_start,
-        grid.cell_items,
+        _clearance(lights),
+        box,
+        cell,
+        gnx,
+        gny,
+        start,
+        items,
         float(negligible_lx),
         counts,
         lum_k,
@@ -452,6 +800,8 @@ def direct_illuminance_lx(
         (N,) bool, points to evaluate (others get 0).
     negligible_lx
         Skip a luminaire at a point when its unshadowed contribution is below this.
+    grid
+        The culling grid (default: one over the points' extent).
     offset_normals
         Normals to offset shadow-ray origins along (default ``normals``; use the geometric
         normal for rendered surfaces).
@@ -462,25 +812,50 @@ def direct_illuminance_lx(
     Returns
     -------
     (N, n_channels) float64 illuminance in lx at full output (channel dimming not applied;
-    maintenance factor applied).
+    maintenance factor applied): the sum, over the luminaires in index order, of the pairs of
+    :func:`direct_pairs` that are not shadowed.
     """
-    n = np.asarray(points_m).reshape(-1, 3).shape[0]
+    pts = np.ascontiguousarray(points_m, np.float64).reshape(-1, 3)
+    nrm = np.ascontiguousarray(normals, np.float64).reshape(-1, 3)
+    n = pts.shape[0]
     out = np.zeros((n, lights.n_channels))
-    pairs = direct_pairs(
-        points_m,
-        normals,
-        lights,
-        bvh,
-        active=active,
-        negligible_lx=negligible_lx,
-        grid=grid,
-        offset_normals=offset_normals,
-        shadow_offset_m=shadow_offset_m,
+    if n == 0 or lights.n_luminaires == 0:
+        return out
+    act = np.ones(n, np.bool_) if active is None else np.ascontiguousarray(active, np.bool_).reshape(-1)
+    if grid is None:
+        grid = cull_grid(lights, pts[act], negligible_lx)
+    off = nrm if offset_normals is None else np.ascontiguousarray(offset_normals, np.float64).reshape(-1, 3)
+    tree, stack, shadows = _tree_args(bvh)
+    no_ids = np.full(n, -1, np.int32)
+    _direct_light(
+        pts,
+        nrm,
+        off,
+        nrm,
+        no_ids,
+        no_ids,
+        act,
+        _luminaire_args(lights),
+        grid.kernel_args(),
+        tree,
+        stack,
+        shadows,
+        float(shadow_offset_m),
+        float(negligible_lx),
+        _NO_GLOSS,
+        _NO_ROAD,
+        -1,
+        1.0,
+        0.0,
+        1.0,
+        out,
+        np.zeros((0, lights.n_channels)),
     )
-    if pairs.point.size:
-        lit = ~pairs.blocked
-        _scatter_add(out, pairs.point[lit], lights.channel[pairs.lum[lit]], pairs.e_lx[lit])
     return out
+
+
+_NO_GLOSS = np.array([[0.0, 1.0]])
+_NO_ROAD = (np.zeros(2), np.zeros(2), np.zeros((2, 2)))
 
 
 # ------------------------------------------------------------------------------------------
@@ -511,6 +886,30 @@ def emitter_triangles(lights: LuminaireSet, drop_m: float = 0.002) -> np.ndarray
 
 
 @dataclass
+class SampleGeometry:
+    """What the camera samples of a view hit: (S, 3) float32 hit points (NaN where no surface
+    is seen), shading and geometric normals turned toward the eye, and ray directions."""
+
+    point_m: np.ndarray
+    normal: np.ndarray
+    geo_normal: np.ndarray
+    direction: np.ndarray
+
+
+@dataclass
+class ViewRays:
+    """How a view's camera samples are cast, so that they can be cast again (they depend only
+    on the camera, the samples per pixel and the seed): the scene, its BVH, the luminous
+    openings' BVH (None without luminaires)."""
+
+    mesh: TriangleMesh
+    bvh: BVH
+    camera: Camera
+    seed: int
+    emitter_bvh: BVH | None
+
+
+@dataclass
 class LightBuffers:
     """What a view keeps so that it can be re-coloured and re-lit without casting camera rays.
 
@@ -523,10 +922,7 @@ class LightBuffers:
         luminous opening, -1 for nothing (night sky).
     value_cd_m2 : (S, C) float32 -- per channel, E/π of the surface (cd/m², the luminance of a
         white diffuser there) or the opening's luminance, at full output.
-    point_m, normal, geo_normal : (S, 3) float32 -- hit points and normals (for re-evaluation
-        with other photometry and for later analyses).
     emitter : (S,) int32 -- luminaire index of a visible opening, else -1.
-    direction : (S, 3) float32 -- camera ray directions.
     object_id : (S,) int32 -- object index of the surface seen (-1 none).
     material_names : names behind ``response``.
     channels : the light channels behind the second axis of ``value_cd_m2``.
@@ -537,6 +933,10 @@ class LightBuffers:
     road : the r-table shading of the carriageway in this view
         (:class:`render.light.rtable.RoadShading`), or None: its samples keep E·q/ρ̄ per
         channel instead of E/π.
+    rays : how the samples were cast (:class:`ViewRays`), to cast them again.
+    geometry : the samples' :class:`SampleGeometry` when kept (:func:`cast_view` keeps it;
+        :func:`render_buffers` does not, and :meth:`sample_geometry` casts it on request).
+        ``point_m``, ``normal``, ``geo_normal`` and ``direction`` read it.
     """
 
     width_px: int
@@ -544,17 +944,15 @@ class LightBuffers:
     spp: int
     response: np.ndarray
     value_cd_m2: np.ndarray
-    point_m: np.ndarray
-    normal: np.ndarray
-    geo_normal: np.ndarray
     emitter: np.ndarray
-    direction: np.ndarray
     object_id: np.ndarray
     material_names: list[str]
     channels: list[Channel]
     spec_cd_m2: np.ndarray | None = None
     material_gloss: np.ndarray | None = None
     road: RoadShading | None = None
+    rays: ViewRays | None = None
+    geometry: SampleGeometry | None = None
 
     @property
     def emitter_response(self) -> int:
@@ -566,6 +964,302 @@ class LightBuffers:
         """Number of camera samples, S."""
         return int(self.response.shape[0])
 
+    def sample_geometry(self) -> SampleGeometry:
+        """The samples' hit geometry: kept, or cast again from :attr:`rays` (and then kept)."""
+        if self.geometry is None:
+            if self.rays is None:
+                raise ValueError("these light buffers keep neither the samples' geometry nor how to cast it")
+            self.geometry = _empty_geometry(self.n_samples)
+            for tile in _cast_tiles(self.rays, self.spp):
+                _keep_geometry(self.geometry, tile)
+        return self.geometry
+
+    @property
+    def point_m(self) -> np.ndarray:
+        """(S, 3) float32 hit points, NaN where no surface is seen."""
+        return self.sample_geometry().point_m
+
+    @property
+    def normal(self) -> np.ndarray:
+        """(S, 3) float32 shading normals, toward the eye."""
+        return self.sample_geometry().normal
+
+    @property
+    def geo_normal(self) -> np.ndarray:
+        """(S, 3) float32 geometric normals, toward the eye."""
+        return self.sample_geometry().geo_normal
+
+    @property
+    def direction(self) -> np.ndarray:
+        """(S, 3) float32 camera ray directions."""
+        return self.sample_geometry().direction
+
+
+@dataclass
+class _Tile:
+    """One tile of camera samples: where they go in the view (``index``) and what they hit."""
+
+    index: np.ndarray
+    point: np.ndarray
+    normal: np.ndarray
+    geo: np.ndarray
+    direction: np.ndarray
+    response: np.ndarray
+    object_id: np.ndarray
+    emitter: np.ndarray
+
+
+def _empty_geometry(n: int) -> SampleGeometry:
+    return SampleGeometry(
+        np.full((n, 3), np.nan, np.float32),
+        np.zeros((n, 3), np.float32),
+        np.zeros((n, 3), np.float32),
+        np.zeros((n, 3), np.float32),
+    )
+
+
+def _keep_geometry(geometry: SampleGeometry, tile: _Tile) -> None:
+    geometry.point_m[tile.index] = tile.point
+    geometry.normal[tile.index] = tile.normal
+    geometry.geo_normal[tile.index] = tile.geo
+    geometry.direction[tile.index] = tile.direction
+
+
+def _view_rays(mesh: TriangleMesh, bvh: BVH, lights: LuminaireSet, camera: Camera, seed: int) -> ViewRays:
+    em_bvh = build_bvh(emitter_triangles(lights)) if lights.n_luminaires else None
+    return ViewRays(mesh, bvh, camera, int(seed), em_bvh)
+
+
+def _tile_rows(width_px: int, spp: int) -> int:
+    """Pixel rows per tile: about :data:`TILE_SAMPLES` samples, a multiple of 4 rows (the
+    4 × 4 pixel blocks of the ray order)."""
+    rows = max(1, TILE_SAMPLES // max(1, width_px * spp))
+    return max(4, rows - rows % 4)
+
+
+def _cast_tiles(rays: ViewRays, spp: int, *, progress: bool = False, label: str = "camera rays"):
+    """Cast the view's camera samples tile by tile; yields a :class:`_Tile` per tile."""
+    from render.rays.cameras import camera_rays, tile_pixels
+
+    camera, mesh = rays.camera, rays.mesh
+    W, H = camera.width_px, camera.height_px
+    step = _tile_rows(W, spp)
+    k = np.arange(spp, dtype=np.int64)
+    triangles = np.ascontiguousarray(mesh.triangles_m, np.float64).reshape(-1, 3, 3)
+    vertex_normals = np.ascontiguousarray(mesh.normals, np.float64).reshape(-1, 3, 3)
+    material_id = np.ascontiguousarray(mesh.material_id, np.int32)
+    object_id = np.ascontiguousarray(mesh.object_id, np.int32)
+    n_mat = len(mesh.material_names)
+    rows = progress_bar(range(0, H, step), label, quiet=not progress, unit="tile")
+    for y0 in rows:
+        y1 = min(H, y0 + step)
+        # 4 x 4 pixel blocks keep consecutive rays coherent for the packet traversal.
+        pixels = tile_pixels(camera, 0, y0, W, y1, block_px=4)
+        o, d, _ = camera_rays(camera, spp, rays.seed, pixels)
+        hits = intersect_closest(rays.bvh, o, d)
+        if rays.emitter_bvh is not None:
+            em = intersect_closest(rays.emitter_bvh, o, d, t_max=hits.t).triangle
+        else:
+            em = np.full(o.shape[0], -1, np.int32)
+        n = o.shape[0]
+        tile = _Tile(
+            (pixels[:, None] * spp + k[None, :]).reshape(-1),
+            np.empty((n, 3), np.float32),
+            np.empty((n, 3), np.float32),
+            np.empty((n, 3), np.float32),
+            np.empty((n, 3), np.float32),
+            np.empty(n, np.int32),
+            np.empty(n, np.int32),
+            np.empty(n, np.int32),
+        )
+        shade_hits(
+            o,
+            d,
+            hits.t,
+            hits.triangle,
+            hits.u,
+            hits.v,
+            triangles,
+            vertex_normals,
+            material_id,
+            object_id,
+            em,
+            n_mat,
+            tile.point,
+            tile.normal,
+            tile.geo,
+            tile.direction,
+            tile.response,
+            tile.object_id,
+            tile.emitter,
+        )
+        yield tile
+
+
+def _material_gloss(mesh: TriangleMesh) -> np.ndarray:
+    gloss = getattr(mesh, "material_gloss", None)
+    if gloss is None:
+        gloss = np.tile([0.0, 1.0], (len(mesh.material_names), 1))
+    return np.ascontiguousarray(gloss, np.float64)
+
+
+def _new_buffers(
+    mesh: TriangleMesh, lights: LuminaireSet, rays: ViewRays, spp: int, road: RoadShading | None
+) -> LightBuffers:
+    camera = rays.camera
+    S = camera.width_px * camera.height_px * spp
+    C = lights.n_channels
+    return LightBuffers(
+        camera.width_px,
+        camera.height_px,
+        spp,
+        np.full(S, -1, np.int32),
+        np.zeros((S, C), np.float32),
+        np.full(S, -1, np.int32),
+        np.full(S, -1, np.int32),
+        list(mesh.material_names),
+        list(lights.channels),
+        np.zeros((S, C), np.float32),
+        _material_gloss(mesh),
+        road,
+        rays,
+    )
+
+
+class _LightPass:
+    """The light kernels' arguments for one luminaire set, BVH and view (built once)."""
+
+    def __init__(self, buffers: LightBuffers, lights: LuminaireSet, bvh: BVH, negligible_lx: float) -> None:
+        self.lights = lights
+        self.n_channels = lights.n_channels
+        self.lum = _luminaire_args(lights)
+        grid = scene_cull_grid(lights, bvh, negligible_lx)
+        self.grid = grid.kernel_args() if grid is not None else None
+        self.tree, self.stack, self.shadows = _tree_args(bvh)
+        self.negligible_lx = float(negligible_lx)
+        self.gloss = (
+            buffers.material_gloss
+            if buffers.material_gloss is not None
+            else np.tile([0.0, 1.0], (len(buffers.material_names), 1))
+        )
+        road = buffers.road
+        if road is not None:
+            t = road.table
+            self.road = tuple(np.ascontiguousarray(a, np.float64) for a in (t.beta_deg, t.tan_gamma, t.r_sr))
+            self.road_object, self.road_scale, self.road_factor = (
+                int(road.object_id),
+                float(road.q_scale),
+                road.value_factor,
+            )
+        else:
+            self.road, self.road_object, self.road_scale, self.road_factor = _NO_ROAD, -1, 1.0, 0.0
+        self.area = lights.opening_m[:, 0] * lights.opening_m[:, 1]
+
+    def evaluate(self, point, normal, geo, direction, response, object_id, emitter, emitter_response):
+        """(value, spec) float32 (n, C) for n samples given as float32 geometry and int32 ids."""
+        n = response.shape[0]
+        value = np.zeros((n, self.n_channels))
+        spec = np.zeros((n, self.n_channels))
+        surf = (response >= 0) & (response != emitter_response)
+        if self.grid is not None and np.any(surf):
+            view_dirs = direction.astype(np.float64)
+            _direct_light(
+                point.astype(np.float64),
+                normal.astype(np.float64),
+                geo.astype(np.float64),
+                view_dirs,
+                response,
+                object_id,
+                surf,
+                self.lum,
+                self.grid,
+                self.tree,
+                self.stack,
+                self.shadows,
+                SURFACE_OFFSET_M,
+                self.negligible_lx,
+                self.gloss,
+                self.road,
+                self.road_object,
+                self.road_scale,
+                self.road_factor,
+                math.pi,
+                value,
+                spec,
+            )
+        value = value.astype(np.float32)
+        spec = spec.astype(np.float32)
+        lights = self.lights
+        sel = emitter >= 0
+        if lights.n_luminaires and np.any(sel):
+            out = np.zeros((n, self.n_channels))
+            _emitter_values(
+                direction.astype(np.float64),
+                emitter,
+                lights.rotation,
+                lights.position_m,
+                lights.scale,
+                lights.table,
+                lights.c_grid,
+                lights.g_grid,
+                lights.n_c,
+                lights.n_g,
+                lights.cd_table,
+                self.area,
+                lights.channel,
+                out,
+            )
+            value[sel] = out[sel].astype(np.float32)
+        return value, spec
+
+
+def render_buffers(
+    mesh: TriangleMesh,
+    bvh: BVH,
+    lights: LuminaireSet,
+    camera: Camera,
+    spp: int,
+    seed: int,
+    *,
+    road: RoadShading | None = None,
+    negligible_lx: float = NEGLIGIBLE_LX,
+    keep_geometry: bool = False,
+    progress: bool = False,
+) -> LightBuffers:
+    """Render a view's light buffers in one pass over tiles of camera samples: cast, shade the
+    hits and evaluate the light (direct light with shadows, visible openings) per tile, so that
+    only the per-sample results grow with the view (the hit geometry is kept only with
+    ``keep_geometry``; :meth:`LightBuffers.sample_geometry` casts it again on request).
+
+    ``road``: the view's r-table shading of the carriageway
+    (:func:`render.light.rtable.view_road_shading`). The result is the same, to the bit, as
+    :func:`cast_view` followed by :func:`evaluate_light`."""
+    rays = _view_rays(mesh, bvh, lights, camera, seed)
+    buffers = _new_buffers(mesh, lights, rays, spp, road)
+    if keep_geometry:
+        buffers.geometry = _empty_geometry(buffers.n_samples)
+    light = _LightPass(buffers, lights, bvh, negligible_lx)
+    for tile in _cast_tiles(rays, spp, progress=progress, label="render"):
+        i = tile.index
+        buffers.response[i] = tile.response
+        buffers.object_id[i] = tile.object_id
+        buffers.emitter[i] = tile.emitter
+        value, spec = light.evaluate(
+            tile.point,
+            tile.normal,
+            tile.geo,
+            tile.direction,
+            tile.response,
+            tile.object_id,
+            tile.emitter,
+            buffers.emitter_response,
+        )
+        buffers.value_cd_m2[i] = value
+        buffers.spec_cd_m2[i] = spec
+        if keep_geometry:
+            _keep_geometry(buffers.geometry, tile)
+    return buffers
+
 
 def cast_view(
     mesh: TriangleMesh,
@@ -575,89 +1269,25 @@ def cast_view(
     spp: int,
     seed: int,
     *,
-    tile_rows: int = 32,
     progress: bool = False,
     road: RoadShading | None = None,
 ) -> LightBuffers:
-    """Primary rays of a view: hits against the scene and the luminous openings.
+    """Primary rays of a view: hits against the scene and the luminous openings, with their
+    geometry kept.
 
     ``road``: the view's r-table shading of the carriageway
     (:func:`render.light.rtable.view_road_shading`), kept in the buffers for every evaluation.
     Returns a :class:`LightBuffers` with zero ``value_cd_m2``; fill it with
-    :func:`evaluate_light`."""
-    from render.rays.cameras import camera_rays, tile_pixels
-
-    W, H = camera.width_px, camera.height_px
-    S = W * H * spp
-    response = np.full(S, -1, np.int32)
-    obj = np.full(S, -1, np.int32)
-    emitter = np.full(S, -1, np.int32)
-    point = np.full((S, 3), np.nan, np.float32)
-    normal = np.zeros((S, 3), np.float32)
-    geo = np.zeros((S, 3), np.float32)
-    dirs = np.zeros((S, 3), np.float32)
-    em_tris = emitter_triangles(lights)
-    em_bvh = build_bvh(em_tris) if lights.n_luminaires else None
-    n_mat = len(mesh.material_names)
-    rows = progress_bar(range(0, H, tile_rows), "camera rays", quiet=not progress, unit="tile")
-    k = np.arange(spp, dtype=np.int64)
-    for y0 in rows:
-        y1 = min(H, y0 + tile_rows)
-        # 4 x 4 pixel blocks keep consecutive rays coherent for the packet traversal.
-        pixels = tile_pixels(camera, 0, y0, W, y1, block_px=4)
-        o, d, _ = camera_rays(camera, spp, seed, pixels)
-        sl = (pixels[:, None] * spp + k[None, :]).reshape(-1)
-        hits = intersect_closest(bvh, o, d)
-        hit = hits.hit
-        if em_bvh is not None:
-            eh = intersect_closest(em_bvh, o, d, t_max=hits.t)
-            is_em = eh.hit
-        else:
-            is_em = np.zeros(hit.shape, bool)
-        surf = hit & ~is_em
-        r = np.full(hit.shape, -1, np.int32)
-        r[surf] = mesh.material_id[hits.triangle[surf]]
-        r[is_em] = n_mat
-        response[sl] = r
-        ob = np.full(hit.shape, -1, np.int32)
-        ob[surf] = mesh.object_id[hits.triangle[surf]]
-        obj[sl] = ob
-        em = np.full(hit.shape, -1, np.int32)
-        if em_bvh is not None:
-            em[is_em] = eh.triangle[is_em] // 2
-        emitter[sl] = em
-        p = hits.points_m(o, d)
-        p[~surf] = np.nan
-        point[sl] = p
-        ng = face_forward(geometric_normal(mesh.triangles_m, hits), d)
-        ns = face_forward(interpolate_normal(mesh.normals, hits), d)
-        # Shading normals that face away from the eye are replaced by the geometric normal.
-        bad = np.einsum("ij,ij->i", ns, d) > 0
-        ns[bad] = ng[bad]
-        normal[sl] = ns
-        geo[sl] = ng
-        dirs[sl] = d
-    gloss = getattr(mesh, "material_gloss", None)
-    if gloss is None:
-        gloss = np.tile([0.0, 1.0], (len(mesh.material_names), 1))
-    return LightBuffers(
-        W,
-        H,
-        spp,
-        response,
-        np.zeros((S, lights.n_channels), np.float32),
-        point,
-        normal,
-        geo,
-        emitter,
-        dirs,
-        obj,
-        list(mesh.material_names),
-        list(lights.channels),
-        np.zeros((S, lights.n_channels), np.float32),
-        np.asarray(gloss, np.float64),
-        road,
-    )
+    :func:`evaluate_light` (:func:`render_buffers` does both in one pass)."""
+    rays = _view_rays(mesh, bvh, lights, camera, seed)
+    buffers = _new_buffers(mesh, lights, rays, spp, road)
+    buffers.geometry = _empty_geometry(buffers.n_samples)
+    for tile in _cast_tiles(rays, spp, progress=progress):
+        buffers.response[tile.index] = tile.response
+        buffers.object_id[tile.index] = tile.object_id
+        buffers.emitter[tile.index] = tile.emitter
+        _keep_geometry(buffers.geometry, tile)
+    return buffers
 
 
 def evaluate_light(
@@ -666,104 +1296,43 @@ def evaluate_light(
     bvh: BVH,
     *,
     negligible_lx: float = NEGLIGIBLE_LX,
-    chunk: int = 1 << 18,
+    chunk: int = TILE_SAMPLES,
     progress: bool = False,
 ) -> LightBuffers:
-    """Fill ``buffers.value_cd_m2`` from ``lights`` (direct light with shadows, and visible
-    openings). Returns the same object (values replaced)."""
+    """Fill ``buffers.value_cd_m2`` and ``spec_cd_m2`` from ``lights`` (direct light with
+    shadows, and visible openings) at the samples' kept geometry, or, where the buffers do not
+    keep it, casting the camera samples again tile by tile (the same hits, so the same values).
+    Returns the same object (values replaced)."""
     buffers.channels = list(lights.channels)
     S = buffers.n_samples
     value = np.zeros((S, lights.n_channels), np.float32)
-    surf = buffers.response >= 0
-    surf &= buffers.response != buffers.emitter_response
-    pts_all = buffers.point_m.astype(np.float64)
-    grid = cull_grid(lights, pts_all[surf], negligible_lx) if np.any(surf) else None
-    if grid is not None and grid.cell_items.size:
-        # Keep the per-point candidate arrays (chunk × longest cell list) to a few million entries.
-        chunk = max(4096, min(chunk, (1 << 22) // max(int(np.diff(grid.cell_start).max()), 1)))
-    starts = progress_bar(range(0, S, chunk), "direct light", quiet=not progress, unit="chunk")
-    gloss = (
-        buffers.material_gloss
-        if buffers.material_gloss is not None
-        else np.tile([0.0, 1.0], (len(buffers.material_names), 1))
-    )
     spec = np.zeros((S, lights.n_channels), np.float32)
-    for s0 in starts:
-        sl = slice(s0, min(S, s0 + chunk))
-        act = surf[sl]
-        if not np.any(act):
-            continue
-        nrm = buffers.normal[sl].astype(np.float64)
-        pairs = direct_pairs(
-            pts_all[sl],
-            nrm,
-            lights,
-            bvh,
-            active=act,
-            negligible_lx=negligible_lx,
-            grid=grid,
-            offset_normals=buffers.geo_normal[sl].astype(np.float64),
-        )
-        if not pairs.point.size:
-            continue
-        lit = ~pairs.blocked
-        p, k, e, l = pairs.point[lit], pairs.lum[lit], pairs.e_lx[lit], pairs.direction[lit]
-        mat = buffers.response[sl][p]
-        f0 = gloss[mat, 0]
-        glossy = f0 > 0.0
-        diffuse = e.copy()
-        chunk_spec = np.zeros((sl.stop - sl.start, lights.n_channels))
-        if np.any(glossy):
-            from render.light.gloss import schlick_fresnel, specular_brdf
-
-            g = np.nonzero(glossy)[0]
-            n_g = nrm[p[g]]
-            cos_i = np.einsum("ij,ij->i", n_g, l[g])
-            # The base receives what the interface transmits.
-            diffuse[g] = e[g] * (1.0 - schlick_fresnel(cos_i, f0[g]))
-            to_eye = -buffers.direction[sl][p[g]].astype(np.float64)
-            f_s = specular_brdf(n_g, l[g], to_eye, f0[g], gloss[mat[g], 1])
-            _scatter_add(chunk_spec, p[g], lights.channel[k[g]], e[g] * f_s)
-        if buffers.road is not None:
-            # The carriageway's base reflects by the r-table, L = q·E (render.light.rtable):
-            # its value becomes E·q/ρ̄ in place of E/π; a water film's layer stays on top.
-            road = np.nonzero(buffers.object_id[sl][p] == buffers.road.object_id)[0]
-            if road.size:
-                from render.light.rtable import road_q_sr
-
-                q = road_q_sr(
-                    buffers.road.table,
-                    buffers.direction[sl][p[road]].astype(np.float64),
-                    l[road],
-                    buffers.road.q_scale,
-                )
-                diffuse[road] *= buffers.road.diffuse_factor(q)
-        chunk_e = np.zeros((sl.stop - sl.start, lights.n_channels))
-        _scatter_add(chunk_e, p, lights.channel[k], diffuse)
-        value[sl] = (chunk_e / math.pi).astype(np.float32)
-        spec[sl] = chunk_spec.astype(np.float32)
-    buffers.spec_cd_m2 = spec
-    em = buffers.emitter
-    if lights.n_luminaires and np.any(em >= 0):
-        area = lights.opening_m[:, 0] * lights.opening_m[:, 1]
-        out = np.zeros((S, lights.n_channels))
-        _emitter_values(
-            buffers.direction.astype(np.float64),
-            em,
-            lights.rotation,
-            lights.position_m,
-            lights.scale,
-            lights.table,
-            lights.c_grid,
-            lights.g_grid,
-            lights.n_c,
-            lights.n_g,
-            lights.cd_table,
-            area,
-            lights.channel,
-            out,
-        )
-        sel = em >= 0
-        value[sel] = out[sel].astype(np.float32)
+    light = _LightPass(buffers, lights, bvh, negligible_lx)
+    resp, obj, em = buffers.response, buffers.object_id, buffers.emitter
+    if buffers.geometry is not None:
+        g = buffers.geometry
+        starts = progress_bar(range(0, S, chunk), "direct light", quiet=not progress, unit="chunk")
+        for s0 in starts:
+            sl = slice(s0, min(S, s0 + chunk))
+            value[sl], spec[sl] = light.evaluate(
+                g.point_m[sl],
+                g.normal[sl],
+                g.geo_normal[sl],
+                g.direction[sl],
+                resp[sl],
+                obj[sl],
+                em[sl],
+                buffers.emitter_response,
+            )
+    elif buffers.rays is not None:
+        for tile in _cast_tiles(buffers.rays, buffers.spp, progress=progress, label="direct light"):
+            i = tile.index
+            # The kept ids, not the new cast's: the openings are those of the first cast.
+            value[i], spec[i] = light.evaluate(
+                tile.point, tile.normal, tile.geo, tile.direction, resp[i], obj[i], em[i], buffers.emitter_response
+            )
+    else:
+        raise ValueError("these light buffers keep neither the samples' geometry nor how to cast them")
     buffers.value_cd_m2 = value
+    buffers.spec_cd_m2 = spec
     return buffers

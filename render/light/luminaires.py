@@ -78,6 +78,8 @@ class LuminaireSet:
     channel : (L,) channel index of each luminaire.
     opening_m : (L, 2) luminous opening length (along C0) and width (along C90), m.
     photometries : (P,) the distributions behind ``cd_table`` (scaled and tilted).
+    cull_grids : culling grids built for these luminaires (:func:`render.light.integrator.cull_grid`),
+        kept so that each is built once.
     """
 
     names: list[str]
@@ -95,6 +97,7 @@ class LuminaireSet:
     channel: np.ndarray
     opening_m: np.ndarray
     photometries: list[Photometry] = field(default_factory=list)
+    cull_grids: dict = field(default_factory=dict, repr=False, compare=False)
 
     @property
     def n_luminaires(self) -> int:

@@ -106,6 +106,7 @@ __all__ = [
     "r_table_applies",
     "r_value",
     "read_r_table",
+    "road_q_one",
     "road_q_sr",
     "view_road_shading",
 ]
@@ -270,25 +271,39 @@ def r_lookup(beta_grid, tan_grid, r_sr, beta_deg, tan_gamma):
     )
 
 
+@numba.njit(cache=True, nogil=True)
+def road_q_one(view_x, view_y, lx, ly, lz, beta_grid, tan_grid, r_sr, scale):
+    """q = scale·r(β, tan γ)/cos³γ (sr⁻¹) for one horizontal view direction (view_x, view_y)
+    (observer → point) and one unit vector (lx, ly, lz) from the point toward the luminaire:
+    :func:`road_q_sr` inside numba kernels."""
+    if lz <= 0.0:  # a luminaire at or below the surface's height adds nothing
+        return 0.0
+    horizontal = math.sqrt(lx * lx + ly * ly)
+    # β: from the horizontal direction observer → point to the horizontal direction
+    # point → luminaire; 0 with the luminaire straight above the point.
+    beta = 0.0
+    if horizontal > 1e-12:
+        beta = math.degrees(math.atan2(ly, lx) - math.atan2(view_y, view_x))
+    r = r_lookup(beta_grid, tan_grid, r_sr, beta, horizontal / lz)
+    # cos γ = lz for a unit vector; q = r / cos³γ.
+    return scale * r / (lz * lz * lz)
+
+
 @numba.njit(cache=True, nogil=True, parallel=True)
 def _road_q_kernel(view_dir, to_light, beta_grid, tan_grid, r_sr, scale, out):
-    """q = scale·r(β, tan γ)/cos³γ per (view direction, direction toward the luminaire) pair."""
+    """:func:`road_q_one` per (view direction, direction toward the luminaire) pair."""
     for m in prange(out.shape[0]):
-        lx = to_light[m, 0]
-        ly = to_light[m, 1]
-        lz = to_light[m, 2]
-        if lz <= 0.0:  # a luminaire at or below the surface's height adds nothing
-            out[m] = 0.0
-            continue
-        horizontal = math.sqrt(lx * lx + ly * ly)
-        # β: from the horizontal direction observer → point to the horizontal direction
-        # point → luminaire; 0 with the luminaire straight above the point.
-        beta = 0.0
-        if horizontal > 1e-12:
-            beta = math.degrees(math.atan2(ly, lx) - math.atan2(view_dir[m, 1], view_dir[m, 0]))
-        r = r_lookup(beta_grid, tan_grid, r_sr, beta, horizontal / lz)
-        # cos γ = lz for a unit vector; q = r / cos³γ.
-        out[m] = scale * r / (lz * lz * lz)
+        out[m] = road_q_one(
+            view_dir[m, 0],
+            view_dir[m, 1],
+            to_light[m, 0],
+            to_light[m, 1],
+            to_light[m, 2],
+            beta_grid,
+            tan_grid,
+            r_sr,
+            scale,
+        )
 
 
 def road_q_sr(table: RTable, view_dir: np.ndarray, to_light: np.ndarray, scale: float = 1.0) -> np.ndarray:
@@ -332,7 +347,12 @@ class RoadShading:
         keep for the carriageway, E·q/ρ̄ (the response table then multiplies by ρ(λ))."""
         if not self.mean_reflectance > 0.0:
             return np.zeros_like(q_sr)
-        return q_sr * (math.pi / self.mean_reflectance)
+        return q_sr * self.value_factor
+
+    @property
+    def value_factor(self) -> float:
+        """π/ρ̄, the factor on q in :meth:`diffuse_factor` (0 for a black carriageway)."""
+        return math.pi / self.mean_reflectance if self.mean_reflectance > 0.0 else 0.0
 
 
 def r_table_applies(r_table_views: str, view_kind: str) -> bool:

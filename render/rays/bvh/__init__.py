@@ -3,7 +3,7 @@
 Build a :class:`BVH` once with :func:`build_bvh`, then cast arrays of rays with
 :func:`intersect_closest` (closest hit: :class:`Hits`) or :func:`intersect_any` (occlusion);
 :func:`interpolate_normal`, :func:`geometric_normal` and :func:`face_forward` turn hits into
-normals. Rays are ``origin + t * direction`` with hits counted for ``t_min < t < t_max``.
+normals; :func:`shade_hits` does all of it per camera sample in one kernel. Rays are ``origin + t * direction`` with hits counted for ``t_min < t < t_max``.
 
 The modules, each readable alone, in the order data flows through them:
 
@@ -28,7 +28,7 @@ cache (``__pycache__/*.nbi``, ``*.nbc``, or the folder ``NUMBA_CACHE_DIR`` names
 from render.rays.bvh.build import build_bvh
 from render.rays.bvh.layout import BVH, Hits
 from render.rays.bvh.query import intersect_any, intersect_closest
-from render.rays.bvh.shading import face_forward, geometric_normal, interpolate_normal
+from render.rays.bvh.shading import face_forward, geometric_normal, interpolate_normal, shade_hits
 
 __all__ = [
     "BVH",
@@ -39,4 +39,5 @@ __all__ = [
     "interpolate_normal",
     "intersect_any",
     "intersect_closest",
+    "shade_hits",
 ]

@@ -8,11 +8,15 @@ References
 
 from __future__ import annotations
 
+import math
+
+import numba
 import numpy as np
+from numba import prange
 
 from render.rays.bvh.layout import Hits
 
-__all__ = ["face_forward", "geometric_normal", "interpolate_normal"]
+__all__ = ["face_forward", "geometric_normal", "interpolate_normal", "shade_hits"]
 
 
 def interpolate_normal(mesh_normals: np.ndarray, hits: Hits) -> np.ndarray:
@@ -57,3 +61,97 @@ def face_forward(normals: np.ndarray, directions: np.ndarray) -> np.ndarray:
     n = np.asarray(normals, dtype=np.float64)
     s = np.einsum("ij,ij->i", n, np.asarray(directions, dtype=np.float64))
     return np.where((s > 0.0)[:, None], -n, n)
+
+
+@numba.njit(cache=True, nogil=True, parallel=True)
+def shade_hits(
+    origins,
+    directions,
+    t,
+    triangle,
+    u,
+    v,
+    triangles_m,
+    vertex_normals,
+    material_id,
+    object_id,
+    emitter_triangle,
+    n_materials,
+    out_point,
+    out_normal,
+    out_geo,
+    out_direction,
+    out_response,
+    out_object,
+    out_emitter,
+):
+    """What a camera sample sees, in one pass per hit (camera rays, :mod:`render.light.integrator`).
+
+    Per ray ``i``: the hit point (NaN unless a surface is seen), the shading normal
+    (:func:`interpolate_normal`) and the geometric normal (:func:`geometric_normal`), both turned
+    toward the eye (:func:`face_forward`; a shading normal still facing away takes the
+    geometric one), the ray direction, the material index (``n_materials`` for a luminous
+    opening, -1 for nothing), the object index and the luminaire of a visible opening
+    (``emitter_triangle // 2``, -1 for none). The arithmetic is that of the array functions
+    above, operation for operation; outputs are float32 and int32."""
+    for i in prange(t.shape[0]):
+        dx = directions[i, 0]
+        dy = directions[i, 1]
+        dz = directions[i, 2]
+        out_direction[i, 0] = dx
+        out_direction[i, 1] = dy
+        out_direction[i, 2] = dz
+        j = triangle[i]
+        em = emitter_triangle[i]
+        surface = j >= 0 and em < 0
+        out_emitter[i] = em // 2 if em >= 0 else -1
+        out_response[i] = material_id[j] if surface else (n_materials if em >= 0 else -1)
+        out_object[i] = object_id[j] if surface else -1
+        if surface:
+            for c in range(3):
+                out_point[i, c] = origins[i, c] + t[i] * directions[i, c]
+        else:
+            for c in range(3):
+                out_point[i, c] = np.nan
+        if j < 0:
+            for c in range(3):
+                out_normal[i, c] = 0.0
+                out_geo[i, c] = 0.0
+            continue
+        # Geometric normal: (v1 - v0) × (v2 - v0), unit length (0 if degenerate).
+        ax = triangles_m[j, 1, 0] - triangles_m[j, 0, 0]
+        ay = triangles_m[j, 1, 1] - triangles_m[j, 0, 1]
+        az = triangles_m[j, 1, 2] - triangles_m[j, 0, 2]
+        bx = triangles_m[j, 2, 0] - triangles_m[j, 0, 0]
+        by = triangles_m[j, 2, 1] - triangles_m[j, 0, 1]
+        bz = triangles_m[j, 2, 2] - triangles_m[j, 0, 2]
+        gx = ay * bz - az * by
+        gy = az * bx - ax * bz
+        gz = ax * by - ay * bx
+        length = math.sqrt(gx * gx + gy * gy + gz * gz)
+        if length > 0.0:
+            gx, gy, gz = gx / length, gy / length, gz / length
+        else:
+            gx, gy, gz = 0.0, 0.0, 0.0
+        if gx * dx + gy * dy + gz * dz > 0.0:
+            gx, gy, gz = -gx, -gy, -gz
+        # Shading normal: Phong interpolation of the vertex normals.
+        w = 1.0 - u[i] - v[i]
+        sx = w * vertex_normals[j, 0, 0] + u[i] * vertex_normals[j, 1, 0] + v[i] * vertex_normals[j, 2, 0]
+        sy = w * vertex_normals[j, 0, 1] + u[i] * vertex_normals[j, 1, 1] + v[i] * vertex_normals[j, 2, 1]
+        sz = w * vertex_normals[j, 0, 2] + u[i] * vertex_normals[j, 1, 2] + v[i] * vertex_normals[j, 2, 2]
+        length = math.sqrt(sx * sx + sy * sy + sz * sz)
+        if length > 0.0:
+            sx, sy, sz = sx / length, sy / length, sz / length
+        else:
+            sx, sy, sz = 0.0, 0.0, 0.0
+        if sx * dx + sy * dy + sz * dz > 0.0:
+            sx, sy, sz = -sx, -sy, -sz
+        if sx * dx + sy * dy + sz * dz > 0.0:
+            sx, sy, sz = gx, gy, gz
+        out_normal[i, 0] = sx
+        out_normal[i, 1] = sy
+        out_normal[i, 2] = sz
+        out_geo[i, 0] = gx
+        out_geo[i, 1] = gy
+        out_geo[i, 2] = gz
