@@ -31,6 +31,7 @@ References
 
 from __future__ import annotations
 
+import dataclasses
 import functools
 import inspect
 import math
@@ -197,6 +198,32 @@ def _P(
 T = TypeVar("T")
 
 
+#: Results each builder keeps (the objects of a large scene's check and compilation).
+_BUILT_KEPT = 64
+
+
+def _read_only(result: Any) -> Any:
+    """``result`` (parts, or a dataclass holding parts and points) with every array read-only."""
+    if isinstance(result, np.ndarray):
+        result.setflags(write=False)
+    elif isinstance(result, (list, tuple)):
+        for item in result:
+            _read_only(item)
+    elif dataclasses.is_dataclass(result):
+        for f in dataclasses.fields(result):
+            _read_only(getattr(result, f.name))
+    return result
+
+
+def _own_list(result: Any) -> Any:
+    """A kept result with its own (shallow) list of parts, so that a caller may extend it."""
+    if isinstance(result, list):
+        return list(result)
+    if dataclasses.is_dataclass(result) and isinstance(getattr(result, "parts", None), list):
+        return dataclasses.replace(result, parts=list(result.parts))
+    return result
+
+
 class Builder(Generic[T]):
     """A builder function whose parameters come from :class:`ParamSpec` declarations.
 
@@ -215,6 +242,7 @@ class Builder(Generic[T]):
                 raise TypeError(f"{body.__name__}: {p.name} has a default in the body; declare it in its ParamSpec")
         self.body = body
         self.specs = specs
+        self._built: dict[tuple[str, ...], Any] = {}
         self.__signature__ = body_sig.replace(
             parameters=[p.replace(default=s.default) for p, s in zip(body_sig.parameters.values(), specs)]
         )
@@ -224,7 +252,18 @@ class Builder(Generic[T]):
     def __call__(self, *args: Any, **kwargs: Any) -> T:
         bound = self.__signature__.bind(*args, **kwargs)
         bound.apply_defaults()
-        return self.body(**{s.name: s.checked(bound.arguments[s.name]) for s in self.specs})
+        checked = {s.name: s.checked(bound.arguments[s.name]) for s in self.specs}
+        # The same object is often built twice (a scene's check runs the builder, compiling the
+        # scene runs it again): the last results are kept, keyed by the values' exact text,
+        # with read-only arrays, and each call gets its own list of the shared parts.
+        key = tuple(repr(v) for v in checked.values())
+        built = self._built.pop(key, None)
+        if built is None:
+            built = _read_only(self.body(**checked))
+        self._built[key] = built
+        while len(self._built) > _BUILT_KEPT:
+            del self._built[next(iter(self._built))]
+        return _own_list(built)
 
     def spec(self, name: str) -> ParamSpec:
         """The declaration of parameter ``name``."""
