@@ -274,6 +274,8 @@ def _geometry(b: _Builder, o: StreetObject) -> None:
         from render.geometry.objfile import load_obj
 
         parts = p.get("_parts") or load_obj(p["file"], scale=p["scale"], up_axis=p["up_axis"])
+    elif kind == "mesh":
+        parts = p["_mesh"].parts(o.materials)
     else:  # pragma: no cover - the loader checks kinds
         raise ValueError(kind)
     obj = b.new_object(o.tag.name, kind, o.tag.inspect, o.where)
@@ -373,7 +375,7 @@ def compile_scene(scene: Scene) -> TriangleMesh:
     for f in scene.frontages:
         _frontage(b, f, scene.street, str(scene.path))
     for o in scene.objects:
-        if o.kind in ("box", "cylinder", "sphere", "extrusion", "obj"):
+        if o.kind in ("box", "cylinder", "sphere", "extrusion", "obj", "mesh"):
             _geometry(b, o)
         else:
             _object(b, o, str(scene.path))

@@ -220,7 +220,7 @@ OBJECT_SPEC = {
     **TAG_FIELDS,
 }
 
-GEOMETRY_KINDS = ("box", "cylinder", "sphere", "extrusion", "obj")
+GEOMETRY_KINDS = ("box", "cylinder", "sphere", "extrusion", "obj", "mesh")
 GEOMETRY_SPEC = {
     "kind": Field("str", choices=GEOMETRY_KINDS),
     "material": Field("str", default=None),
@@ -317,6 +317,7 @@ GROUP_SETTING_SPEC = {k: SETUP_SPEC[k] for k in ("lamp", "photometry", "lumens",
 #: What each kind of referenced file is called in messages (and in the file-size limits).
 _REFERENCE_KINDS = {
     "obj": "OBJ file",
+    "mesh": "mesh file",
     "lamp": "lamp file",
     "photometry": "photometric file",
     "r_table": "r-table file",
@@ -695,11 +696,12 @@ def _geometry(entries: list, ctx: _Context) -> list[StreetObject]:
             "sphere": ("radius_m",),
             "extrusion": ("outline_m", "height_m"),
             "obj": ("file",),
+            "mesh": ("file",),
         }.get(kind, ())
         for key in needs:
             if key not in entry:
                 ctx.problems.add(f"{where}.{key}", f"missing; a {kind} needs {', '.join(needs)}")
-        if kind != "obj" and g["material"] is None and "material" not in entry:
+        if kind not in ("obj", "mesh") and g["material"] is None and "material" not in entry:
             ctx.problems.add(f"{where}.material", "missing; expected a material id")
         ctx.material(g["material"], f"{where}.material")
         if kind == "extrusion" and "outline_m" in entry:
@@ -719,7 +721,17 @@ def _geometry(entries: list, ctx: _Context) -> list[StreetObject]:
                 g["file"] = str(target)
             else:
                 g["file"] = None
+        if kind == "mesh" and g["file"] is not None:
+            slots = _mesh_file(g, entry, where, ctx)
         materials = _materials_table(g["materials"] or {}, f"{where}.materials", ctx, tuple(slots) if slots else None)
+        if kind == "mesh" and "_mesh" in g and g["material"] is None:
+            missing = g["_mesh"].unmapped(materials)
+            if missing:
+                ctx.problems.add(
+                    f"{where}.materials",
+                    f"no material for mesh or material name(s) {', '.join(shown(m) for m in missing)}; "
+                    "give `material` or a `materials` entry per name",
+                )
         if kind == "obj" and slots and g["material"] is None:
             missing = [s for s in slots if s not in materials]
             if missing:
@@ -731,7 +743,18 @@ def _geometry(entries: list, ctx: _Context) -> list[StreetObject]:
             continue
         params = {
             k: g[k]
-            for k in ("size_m", "radius_m", "height_m", "outline_m", "file", "scale", "up_axis", "smooth", "_parts")
+            for k in (
+                "size_m",
+                "radius_m",
+                "height_m",
+                "outline_m",
+                "file",
+                "scale",
+                "up_axis",
+                "smooth",
+                "_parts",
+                "_mesh",
+            )
             if k in g
         }
         if g["material"] is not None:
@@ -742,6 +765,25 @@ def _geometry(entries: list, ctx: _Context) -> list[StreetObject]:
             )
         )
     return out
+
+
+def _mesh_file(g: dict, entry: dict, where: str, ctx: _Context) -> list[str] | None:
+    """Read a ``mesh`` geometry's file (:mod:`render.geometry.meshfiles`) into ``g["_mesh"]``;
+    its mesh and material names (the keys ``materials`` may give), or None after a problem."""
+    target = ctx.reference(g["file"], f"{where}.file", "mesh")
+    if target is None:
+        g["file"] = None
+        return None
+    from render.geometry.meshfiles import read_mesh
+
+    g["file"] = str(target)
+    try:
+        mesh = read_mesh(target, scale=g["scale"] or 1.0, up_axis=g["up_axis"] if "up_axis" in entry else None)
+    except InputError as err:
+        ctx.problems.extend(err)
+        return None
+    g["_mesh"] = mesh
+    return list(mesh.names)
 
 
 def _frontages(entries: list, ctx: _Context) -> list[Frontage]:

@@ -31,6 +31,7 @@ __all__ = [
     "dark_views",
     "coincident_luminaires",
     "luminaire_key",
+    "mesh_features_ignored",
     "narrow_fields_of_view",
     "outside_street",
     "scene_warnings",
@@ -253,6 +254,24 @@ def dark_views(scene: Scene, study) -> list[Problem]:
     return out
 
 
+def mesh_features_ignored(scene: Scene) -> list[Problem]:
+    """A ``mesh`` geometry whose file has textures, texture coordinates or vertex colours:
+    lampcast draws its surfaces in the materials the scene gives and ignores those."""
+    out = []
+    for o in scene.objects:
+        mesh = o.params.get("_mesh") if o.kind == "mesh" else None
+        if mesh is not None and mesh.ignored:
+            out.append(
+                Problem(
+                    str(scene.path),
+                    join(o.where, "file"),
+                    f"{mesh.path.rsplit('/', 1)[-1]} has {', '.join(mesh.ignored)}, which lampcast ignores: "
+                    "surfaces take the materials of `material` and `materials`",
+                )
+            )
+    return out
+
+
 def scene_warnings(scene: Scene, mesh: TriangleMesh | None = None) -> list[Problem]:
     """Every warning about ``scene``, in the order of the list in ``scenes/README.md``. The
     checks that cast rays build the scene's BVH (:class:`render.study.Study`) over ``mesh``, the
@@ -270,4 +289,5 @@ def scene_warnings(scene: Scene, mesh: TriangleMesh | None = None) -> list[Probl
         *cameras_inside_solids(scene, study.mesh.triangles_m, study.bvh),
         *setup_lumens_for_every_group(scene),
         *dark_views(scene, study),
+        *mesh_features_ignored(scene),
     ]
