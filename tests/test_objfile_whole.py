@@ -124,6 +124,12 @@ def test_test_files(path):
         _assert_same(*_both(text, scale))
 
 
+def test_signs_and_leading_zeros_read_whole():
+    fast, slow = _both("v 0 0 0\nv 1 0 0\nv 0 1 0\nf 1 2 0003\nf -3 +2 -1\n")
+    assert fast is not None and fast.face_v.tolist() == [0, 1, 2, 0, 1, 2]
+    _assert_same(fast, slow)
+
+
 def test_mistakes_are_left_to_the_statement_reader():
     base = "v 0 0 0\nv 1 0 0\nv 0 1 0\nvn 0 0 1\n"
     for tail in [
@@ -141,6 +147,12 @@ def test_mistakes_are_left_to_the_statement_reader():
         "f 1 2 3\nusemtl\n",
         "f 1 2 9223372036854775808\n",
         "f 1 2 3 2\n",  # a polygon that folds back: the statement reader's triangulation decides
+        "f 1 2- 3\n",  # a minus sign inside a reference
+        "f 1 2 --3\n",
+        "f 1 2 -\n",
+        "f 1 2 99999999999999999999999\n",  # beyond int64 (numpy saturates; out of range either way)
+        "f 1 2 -99999999999999999999999\n",
+        "f 1 2 0003\nf -1 -2 +1\n",  # leading zeros and signs: read as int() reads them
     ]:
         _assert_same(*_both(base + tail))
 

@@ -307,6 +307,34 @@ def _ints(tokens: list[str]) -> np.ndarray:
         raise _Unusual from None
 
 
+_INT_BYTES = b"0123456789- \t\n"
+_MINUS, _ZERO, _NINE = 45, 48, 57
+
+
+def _int_tokens(raw: bytes, expected: int) -> np.ndarray:
+    """The ``expected`` white-space separated integers of ``raw``, as ``int(token)`` reads
+    them. Text of digits, spaces and minus signs (each starting a token, before a digit) is
+    read by numpy in one pass (a number beyond int64 saturates there and then fails the range
+    check); anything else token by token."""
+    if raw.translate(None, _INT_BYTES):
+        tokens = raw.split()
+        if len(tokens) != expected:
+            raise _Unusual
+        return _ints([t.decode("ascii") for t in tokens])
+    b = np.frombuffer(raw, dtype=np.uint8)
+    minus = np.flatnonzero(b == _MINUS)
+    if minus.size:
+        after = b[np.minimum(minus + 1, b.size - 1)]
+        before = b[np.maximum(minus - 1, 0)]
+        starts_token = (minus == 0) | (before == _SPACE) | (before == _TAB) | (before == _LF)
+        if not np.all((minus + 1 < b.size) & (after >= _ZERO) & (after <= _NINE) & starts_token):
+            raise _Unusual
+    values = np.fromstring(raw, dtype=np.int64, sep=" ")
+    if values.size != expected:
+        raise _Unusual
+    return values
+
+
 def _numbers(lines: list[str], key_chars: int, allowed: tuple[int, ...]) -> tuple[np.ndarray, np.ndarray]:
     """The numbers of statements whose keyword is ``key_chars`` long: (all numbers in order,
     count per statement), every count one of ``allowed``."""
@@ -357,10 +385,8 @@ def _face_numbers(lines: list[str], max_face: int) -> tuple[np.ndarray, list[np.
         body, columns = body.replace("/", " "), 3
     else:
         raise _Unusual
-    tokens = body.split()
-    if len(tokens) != n_refs * abs(columns):  # an empty field (5/ or /5) joined its neighbour
-        raise _Unusual
-    values = _ints(tokens).reshape(n_refs, abs(columns))
+    # An empty field (5/ or /5) joins its neighbour: the count tells.
+    values = _int_tokens(body.encode("ascii"), n_refs * abs(columns)).reshape(n_refs, abs(columns))
     names = {1: ("v",), 2: ("v", "vt"), -2: ("v", "vn"), 3: ("v", "vt", "vn")}[columns]
     return sizes, [values[:, k] for k in range(len(names))], names
 
@@ -544,16 +570,23 @@ def load_obj(
     tri = V[tri_v]  # (T, 3, 3)
     fn = face_normals(tri)
     keep = np.any(fn != 0, axis=1)
-    tri, fn, tri_n, tri_face = tri[keep], fn[keep], tri_n[keep], tri_face[keep]
-    nrm = np.repeat(fn[:, None, :], 3, axis=1)
+    if not keep.all():  # (copies of a million triangles are left out when nothing is dropped)
+        tri, fn, tri_n, tri_face = tri[keep], fn[keep], tri_n[keep], tri_face[keep]
     smooth = np.all(tri_n >= 0, axis=1)
-    nrm[smooth] = N[tri_n[smooth]]
+    if smooth.all():
+        nrm = N[tri_n]
+    else:
+        nrm = np.repeat(fn[:, None, :], 3, axis=1)
+        nrm[smooth] = N[tri_n[smooth]]
     tri_slot = face_slot[tri_face]
     names = {k: name for name, k in slots.items()}
     parts = []
     # Parts in the order their slot first appears among the triangles kept, triangles in file order.
     order = np.unique(tri_slot, return_index=True)
     for k in order[0][np.argsort(order[1])]:
+        if order[0].size == 1:
+            parts.append(Part(tri, nrm, names[int(k)]))
+            break
         mask = tri_slot == k
         parts.append(Part(tri[mask], nrm[mask], names[int(k)]))
     if not parts:
@@ -669,5 +702,7 @@ def _triangulate(V, face_v, face_n, face_start, face_size, face_line, problem):
     tri_v = np.concatenate(chunks_v).reshape(-1, 3)
     tri_n = np.concatenate(chunks_n).reshape(-1, 3)
     tri_face = np.concatenate(chunks_f)
+    if tri_face.size < 2 or np.all(tri_face[1:] >= tri_face[:-1]):  # already in file order
+        return tri_v, tri_n, tri_face
     order = np.argsort(tri_face, kind="stable")
     return tri_v[order], tri_n[order], tri_face[order]
