@@ -34,6 +34,10 @@ horizontal illuminance E_h = E_n·sin ε and the unit direction u toward the lum
 E_sc = E_h/u_z·(|u_xy| + u·f)/π (f the facing direction), so luminaires at or below the
 point's height are not counted (none in a street layout).
 
+A row along a road (``luminaire_rows.road``) gets the same grids laid along the road's
+centreline between two of its luminaires (:func:`road_row_fields`), where the road does not
+bend between them; curved stretches are refused for now.
+
 Elsewhere: the luminance grid's observer positions (:mod:`render.calc.road`), the edge
 illuminance ratio (:mod:`render.calc.edge`). Not done: fields of staggered or opposite rows (a
 field is taken between consecutive luminaires of one row only).
@@ -73,6 +77,7 @@ __all__ = [
     "footway_across",
     "lane_across",
     "points_along",
+    "road_row_fields",
     "row_fields",
     "row_positions",
     "semicylindrical_illuminance_lx",
@@ -227,9 +232,44 @@ def row_positions(scene: Scene, row: int = 0) -> np.ndarray:
     return p[np.argsort(p[:, 0], kind="stable")]
 
 
-def row_fields(scene: Scene, row: int = 0, pair: int = 0) -> list[CalculationField]:
-    """The fields between luminaires ``pair`` and ``pair + 1`` (along x) of ``luminaire_rows[row]``."""
+def road_row_fields(scene: Scene, row: int = 0, pair: int = 0) -> list[CalculationField]:
+    """The fields between luminaires ``pair`` and ``pair + 1`` (along the road) of a row on a
+    road (``luminaire_rows[row].road``): :func:`street_fields` of the road's cross-section laid
+    along its centreline (x → distance along, y → offset across, + left), for a stretch with no
+    bend between the two luminaires; a curved stretch is an InputError."""
+    from render.geometry.roads import road_centreline
+
     where = f"luminaire_rows[{row}]"
+    lums = [lum for lum in scene.luminaires if lum.where == where]
+    road = next(r for r in scene.roads if r.name == lums[0].road)
+    s = np.unique([lum.s_m for lum in lums])
+    if not 0 <= pair < len(s) - 1:
+        raise input_error(
+            scene.path, where, f"a field needs positions {pair} and {pair + 1} along the row; it has {len(s)}"
+        )
+    s0, s1 = float(s[pair]), float(s[pair + 1])
+    cl = road_centreline(road)
+    if not cl.straight_between(s0, s1):
+        raise input_error(
+            scene.path,
+            where,
+            f"calculation fields on a curved stretch are not supported yet: {road.name!r} bends between the "
+            f"row's luminaires at {s0:g} m and {s1:g} m along it",
+        )
+    out = []
+    for f in street_fields(road.section, s0, s1 - s0):
+        xy = cl.point(f.points_m[:, 0], f.points_m[:, 1])
+        pts = np.column_stack([xy, f.points_m[:, 2]])
+        out.append(CalculationField(f.name, pts, f.normals, f.shape, f.spacing_m))
+    return out
+
+
+def row_fields(scene: Scene, row: int = 0, pair: int = 0) -> list[CalculationField]:
+    """The fields between luminaires ``pair`` and ``pair + 1`` (along x) of ``luminaire_rows[row]``
+    (a row along a road: :func:`road_row_fields`)."""
+    where = f"luminaire_rows[{row}]"
+    if any(lum.where == where and lum.road is not None for lum in scene.luminaires):
+        return road_row_fields(scene, row, pair)
     if scene.street is None:
         raise input_error(scene.path, "street", "calculation fields need a [street] section")
     pos = row_positions(scene, row)

@@ -108,6 +108,8 @@ class _Builder:
         self.material_names: list[str] = []
         #: Object index of the street builder's carriageway (-1: no street).
         self.carriageway_object = -1
+        #: Object indices of every carriageway: the street's and each road's.
+        self.carriageway_objects: list[int] = []
         self.objects: list[ObjectInfo] = []
 
     def material_index(self, material: str) -> int:
@@ -163,6 +165,7 @@ class _Builder:
         # The carriageway's own triangles (not other surfaces of its material), for the r-table
         # shading of images (render.light.rtable).
         mesh.carriageway_object = self.carriageway_object  # type: ignore[attr-defined]
+        mesh.carriageway_objects = tuple(self.carriageway_objects)  # type: ignore[attr-defined]
         return mesh
 
 
@@ -172,6 +175,7 @@ def _street(b: _Builder, street: Street) -> None:
     kh = street.kerb_height_m
     carriageway = b.new_object("carriageway", "street")
     b.carriageway_object = carriageway
+    b.carriageway_objects.append(carriageway)
     b.add(_ground_rect(0.0, L, -half, half, 0.0), street.carriageway_material, carriageway)
     for side in ("left", "right"):
         sign = 1.0 if side == "left" else -1.0
@@ -321,6 +325,8 @@ def _marking(b: _Builder, m: Marking, street: Street | None) -> None:
     b.objects[obj].main_material = m.material
 
     def lift(y):
+        if m.ground_m is not None:  # a marking along a road
+            return m.ground_m + MARKING_LIFT_M
         return (street.ground_z(y) if street is not None else 0.0) + MARKING_LIFT_M
 
     if m.kind == "polygon":
@@ -367,11 +373,16 @@ def compile_scene(scene: Scene) -> TriangleMesh:
 
     The mesh also carries ``mesh.objects``: one :class:`ObjectInfo` per object index, and
     ``mesh.carriageway_object``: the object index of the street's carriageway (-1 without a
-    street), whose triangles alone an r-table shades.
+    street), whose triangles alone an r-table shades; ``mesh.carriageway_objects``: those of
+    the street's and every road's carriageway (``[[roads]]``, :mod:`render.geometry.roads`).
     """
     b = _Builder()
     if scene.street is not None:
         _street(b, scene.street)
+    if scene.roads:
+        from render.geometry.roads import add_roads
+
+        add_roads(b, scene.roads, scene.path)
     for f in scene.frontages:
         _frontage(b, f, scene.street, str(scene.path))
     for o in scene.objects:

@@ -47,6 +47,7 @@ from render.scene.model import (
     Luminaire,
     Marking,
     RenderSettings,
+    Road,
     Scene,
     Setup,
     Street,
@@ -84,6 +85,7 @@ MIN_SIZE_M = 0.001
 TOP_LEVEL = {
     "scene": Field("table", default={}),
     "street": Field("table", default=None),
+    "roads": Field("list", default=[]),
     "frontages": Field("list", default=[]),
     "objects": Field("list", default=[]),
     "geometry": Field("list", default=[]),
@@ -190,6 +192,39 @@ STREET_SPEC = {
     "right": Field("table", default={}),
 }
 
+#: The keys a ``[[roads]]`` entry shares with ``[street]`` (its cross-section).
+ROAD_SECTION_KEYS = (
+    "lanes",
+    "kerb_height_m",
+    "kerb_width_m",
+    "carriageway_material",
+    "kerb_material",
+    "footway_material",
+    "verge_material",
+    "frontage_material",
+    "centre_line",
+    "line_material",
+    "left",
+    "right",
+)
+ROAD_SPEC = {
+    "name": Field("str", help="the road's name, unique among roads"),
+    "points_m": Field("any", help="the centreline, [[x, y], ...], at least 2 points"),
+    "corner_radius_m": Field("float", default=None, unit=M, above=0.0, min=MIN_SIZE_M, max=MAX_COORDINATE_M),
+    "max_chord_error_m": Field("float", default=0.01, unit=M, min=1e-4, max=1.0),
+    "carriageway_width_m": replace(STREET_SPEC["carriageway_width_m"], default=None),
+    "lane_width_m": Field("float", default=None, unit=M, above=0.0, min=MIN_SIZE_M, max=20.0),
+    "junction_kerb_radius_m": Field("float", default=6.0, unit=M, above=0.0, min=MIN_SIZE_M, max=200.0),
+    **{k: STREET_SPEC[k] for k in ROAD_SECTION_KEYS},
+}
+#: ``position_along`` of an object: a place given along a road.
+ALONG_SPEC = {
+    "road": Field("str", help="a [[roads]] name"),
+    "s_m": Field("float", unit=M, min=0.0, max=MAX_COORDINATE_M, help="distance along the road"),
+    "offset_m": Field("float", default=0.0, unit=M, **COORD),
+    "height_m": Field("float", default=0.0, unit=M, **COORD),
+}
+
 TAG_FIELDS = {
     "name": Field("str", default=None),
     "inspect": Field("bool", default=False),
@@ -210,7 +245,8 @@ FRONTAGE_SPEC = {
 
 OBJECT_SPEC = {
     "kind": Field("str"),
-    "position_m": Field("any"),
+    "position_m": Field("any", default=None, help="[x, y] or [x, y, z] in m (or position_along)"),
+    "position_along": Field("table", default=None, help="{ road, s_m, offset_m } instead of position_m"),
     "heading_deg": Field("float", default=0.0, unit=DEG),
     "params": Field("table", default={}),
     "materials": Field("table", default={}),
@@ -245,6 +281,7 @@ MARKING_SPEC = {
     "dash_m": Field("float", default=0.0, unit=M, min=0.0, nonzero_min=MIN_SIZE_M, max=MAX_COORDINATE_M),
     "gap_m": Field("float", default=0.0, unit=M, min=0.0, nonzero_min=MIN_SIZE_M, max=MAX_COORDINATE_M),
     "material": Field("str"),
+    "road": Field("str", default=None, help="points_m are [s_m, offset_m] along this road"),
     **TAG_FIELDS,
 }
 
@@ -268,6 +305,7 @@ LUMINAIRE_SPEC = {
 
 ROW_SPEC = {
     "name": Field("str", default=None),
+    "road": Field("str", default=None, help="a [[roads]] name: positions along that road"),
     "layout": Field("str", default="one-side", choices=("one-side", "opposite", "staggered")),
     "side": Field("str", default="left", choices=("left", "right")),
     "start_m": Field("float", default=0.0, unit=M, help="from 0 to street.length_m"),
@@ -574,20 +612,20 @@ def _defaults_after_problems(checked: dict, spec: dict[str, Field]) -> dict:
     }
 
 
-def _street(table: dict, ctx: _Context) -> Street | None:
-    """The street, or None when its length or carriageway width has a problem."""
-    s = _defaults_after_problems(check_table(table, STREET_SPEC, "street", ctx.problems), STREET_SPEC)
+def _sides(s: dict, where: str, ctx: _Context) -> dict[str, StreetSide]:
+    """The two sides of a checked ``[street]`` or ``[[roads]]`` table ``s`` at ``where`` (their
+    materials defaulting to the table's), with every material checked."""
     sides = {}
     for side in ("left", "right"):
         t = _defaults_after_problems(
-            check_table(s["left" if side == "left" else "right"] or {}, SIDE_SPEC, f"street.{side}", ctx.problems),
+            check_table(s["left" if side == "left" else "right"] or {}, SIDE_SPEC, f"{where}.{side}", ctx.problems),
             SIDE_SPEC,
         )
         for key in ("footway_material", "verge_material", "frontage_material"):
             if t[key] is None:
                 t[key] = s[key]
             else:
-                ctx.material(t[key], f"street.{side}.{key}")
+                ctx.material(t[key], f"{where}.{side}.{key}")
         sides[side] = StreetSide(**t)
     for key in (
         "carriageway_material",
@@ -597,7 +635,118 @@ def _street(table: dict, ctx: _Context) -> Street | None:
         "frontage_material",
         "line_material",
     ):
-        ctx.material(s[key], f"street.{key}")
+        ctx.material(s[key], f"{where}.{key}")
+    return sides
+
+
+def _roads(entries: list, ctx: _Context) -> list[Road]:
+    """The ``[[roads]]``: checked keys, centrelines (corner arcs fitting, offsets not folding),
+    unique names."""
+    from render.geometry.roads import RoadError, centreline, fold_problem
+
+    out: list[Road] = []
+    names: set[str] = set()
+    for i, entry in enumerate(entries):
+        where = f"roads[{i}]"
+        r = _defaults_after_problems(check_table(entry, ROAD_SPEC, where, ctx.problems), ROAD_SPEC)
+        sides = _sides(r, where, ctx)
+        points = (
+            _point_list(entry["points_m"], f"{where}.points_m", ctx.problems, 2)
+            if isinstance(entry, dict) and "points_m" in entry
+            else None
+        )
+        if r["name"] is not None:
+            if r["name"] in names:
+                ctx.problems.add(f"{where}.name", f"the road name {shown(r['name'])} is used more than once")
+            names.add(r["name"])
+        width, lane = r["carriageway_width_m"], r["lane_width_m"]
+        if width is None and lane is None and isinstance(entry, dict) and "carriageway_width_m" not in entry:
+            ctx.problems.add(f"{where}.carriageway_width_m", "missing; give carriageway_width_m or lane_width_m")
+        elif width is not None and lane is not None:
+            ctx.problems.add(f"{where}.lane_width_m", "give either carriageway_width_m or lane_width_m, not both")
+            width = None
+        elif width is None and lane is not None and r["lanes"] is not None:
+            width = r["lanes"] * lane
+            if width > STREET_SPEC["carriageway_width_m"].max:
+                ctx.problems.add(f"{where}.lane_width_m", f"lanes × lane_width_m is {width:g} m, more than 60 m")
+                width = None
+        if points is None or width is None or r["name"] is None:
+            continue
+        try:
+            cl = centreline(points, r["corner_radius_m"], r["max_chord_error_m"])
+        except RoadError as err:
+            ctx.problems.add(f"{where}.{err.key}", str(err))
+            continue
+        section = Street(
+            length_m=cl.length_m,
+            carriageway_width_m=width,
+            lanes=r["lanes"] or 2,
+            kerb_height_m=r["kerb_height_m"],
+            kerb_width_m=r["kerb_width_m"],
+            carriageway_material=r["carriageway_material"],
+            kerb_material=r["kerb_material"],
+            centre_line=r["centre_line"] or "dashed",
+            line_material=r["line_material"],
+            left=sides["left"],
+            right=sides["right"],
+        )
+        road = Road(
+            r["name"],
+            tuple(points),
+            section,
+            r["corner_radius_m"],
+            r["max_chord_error_m"],
+            r["junction_kerb_radius_m"],
+            where,
+        )
+        fold = fold_problem(road, cl)
+        if fold is not None:
+            ctx.problems.add(f"{where}.{'corner_radius_m' if road.corner_radius_m else 'points_m'}", fold)
+            continue
+        out.append(road)
+    return out
+
+
+def _road_named(name: str, roads: list[Road], where: str, ctx: _Context) -> Road | None:
+    """The road called ``name``, or None after a problem at ``where``."""
+    for road in roads:
+        if road.name == name:
+            return road
+    known = [r.name for r in roads]
+    ctx.problems.add(
+        where, f"no road named {shown(name)}{did_you_mean(name, known)}; roads: {', '.join(known) or '(none)'}"
+    )
+    return None
+
+
+def _along(value, where: str, ctx: _Context, roads: list[Road]) -> tuple[tuple[float, float, float], float] | None:
+    """An object's ``position_along``: the world position and the road's heading there (deg)."""
+    from render.geometry.roads import road_centreline
+
+    a = check_table(value, ALONG_SPEC, where, ctx.problems)
+    if any(a[k] is None for k in ALONG_SPEC):
+        return None
+    road = _road_named(a["road"], roads, f"{where}.road", ctx)
+    if road is None:
+        return None
+    if a["s_m"] > road.section.length_m:
+        ctx.problems.add(
+            f"{where}.s_m",
+            f"expected 0 to {road.section.length_m:g} m (the length of {shown(road.name)}), got {a['s_m']:g}",
+        )
+        return None
+    cl = road_centreline(road)
+    xy = cl.point(a["s_m"], a["offset_m"])
+    _, tangent = cl.frame(a["s_m"])
+    z = road.section.ground_z(a["offset_m"]) + a["height_m"]
+    heading = math.degrees(math.atan2(tangent[1], tangent[0]))
+    return (float(xy[0]), float(xy[1]), z), heading
+
+
+def _street(table: dict, ctx: _Context) -> Street | None:
+    """The street, or None when its length or carriageway width has a problem."""
+    s = _defaults_after_problems(check_table(table, STREET_SPEC, "street", ctx.problems), STREET_SPEC)
+    sides = _sides(s, "street", ctx)
     r_table = ctx.data_file(s["r_table"], "street.r_table", "r_table")
     if s["q0_sr"] is not None and s["r_table"] is None:
         ctx.problems.add("street.q0_sr", "q0_sr scales an r-table: give `r_table` too")
@@ -646,7 +795,7 @@ def _position(
     return None
 
 
-def _objects(entries: list, ctx: _Context, street: Street | None) -> list[StreetObject]:
+def _objects(entries: list, ctx: _Context, street: Street | None, roads: list[Road] = ()) -> list[StreetObject]:
     from render.geometry.build import object_slots
     from render.geometry.objects import OBJECT_BUILDERS, validate_params
 
@@ -661,9 +810,16 @@ def _objects(entries: list, ctx: _Context, street: Street | None) -> list[Street
                 f"unknown object kind {kind!r}{did_you_mean(kind, OBJECT_BUILDERS)}; kinds: {', '.join(OBJECT_BUILDERS)}",
             )
             kind = None
-        pos = _position(o["position_m"], f"{where}.position_m", ctx, street) if "position_m" in entry else None
-        if "position_m" not in entry:
-            ctx.problems.add(f"{where}.position_m", "missing; expected [x, y] or [x, y, z] in m")
+        road_heading = 0.0
+        if isinstance(entry, dict) and entry.get("position_along") is not None:
+            if "position_m" in entry:
+                ctx.problems.add(f"{where}.position_along", "give either position_m or position_along, not both")
+            placed = _along(o["position_along"], f"{where}.position_along", ctx, list(roads))
+            pos, road_heading = placed if placed is not None else (None, 0.0)
+        else:
+            pos = _position(o["position_m"], f"{where}.position_m", ctx, street) if "position_m" in entry else None
+            if "position_m" not in entry:
+                ctx.problems.add(f"{where}.position_m", "missing; expected [x, y] or [x, y, z] in m")
         if kind is None or o["params"] is None or _report_oversized_integers(o["params"], f"{where}.params", ctx):
             continue
         for key, message in validate_params(kind, o["params"]):
@@ -680,7 +836,8 @@ def _objects(entries: list, ctx: _Context, street: Street | None) -> list[Street
         if pos is None or o["heading_deg"] is None:
             continue
         tag = replace(_tag(o, f"{kind} {i + 1}"), colour_slot=colour_slot)
-        out.append(StreetObject(kind, tag, pos, o["heading_deg"], dict(o["params"]), materials, where))
+        heading = o["heading_deg"] + road_heading
+        out.append(StreetObject(kind, tag, pos, heading, dict(o["params"]), materials, where))
     return out
 
 
@@ -835,7 +992,40 @@ def _dash_count(points: list[tuple[float, float]], dash_m: float, gap_m: float) 
     return sum(math.dist(a, b) / period + 2.0 for a, b in zip(points[:-1], points[1:]))
 
 
-def _markings(entries: list, ctx: _Context) -> list[Marking]:
+def _marking_along(
+    pts: list[tuple[float, float]], road: Road, polygon: bool, where: str, ctx: _Context
+) -> tuple[list[tuple[float, float]], float] | None:
+    """A marking's ``[s_m, offset_m]`` points along ``road`` as world points following its
+    bends, and the height of the surface under them; None after a problem."""
+    from render.geometry.roads import path_along, road_centreline
+    from render.geometry.shapes import triangulate_polygon
+
+    length = road.section.length_m
+    for k, (s, _) in enumerate(pts):
+        if not 0.0 <= s <= length:
+            ctx.problems.add(
+                f"{where}[{k}]",
+                f"s_m must lie on {shown(road.name)}, 0 to {length:g} m, got {s:g} (points are [s_m, offset_m])",
+            )
+            return None
+    world = [tuple(map(float, q)) for q in path_along(road_centreline(road), pts, closed=polygon)]
+    if polygon:
+        if len(world) > MAX_POLYGON_VERTICES:
+            ctx.problems.add(
+                where,
+                f"the outline follows the road with {len(world):,} points; lampcast triangulates at most {MAX_POLYGON_VERTICES:,}",
+            )
+            return None
+        try:
+            triangulate_polygon(world, name="the outline along the road")
+        except ValueError as err:
+            ctx.problems.add(where, str(err))
+            return None
+    offsets = [o for _, o in pts]
+    return world, road.section.ground_z(sum(offsets) / len(offsets))
+
+
+def _markings(entries: list, ctx: _Context, roads: list[Road] = ()) -> list[Marking]:
     out = []
     dashes = 0.0
     for i, entry in enumerate(entries):
@@ -854,6 +1044,13 @@ def _markings(entries: list, ctx: _Context) -> list[Marking]:
             continue
         if m["kind"] == "line" and not _points_apart(pts, f"{where}.points_m", ctx.problems):
             continue
+        ground = None
+        if m["road"] is not None:
+            road = _road_named(m["road"], list(roads), f"{where}.road", ctx)
+            along = _marking_along(pts, road, m["kind"] == "polygon", f"{where}.points_m", ctx) if road else None
+            if along is None:
+                continue
+            pts, ground = along
         if m["kind"] == "line" and (m["dash_m"] > 0) != (m["gap_m"] > 0):
             ctx.problems.add(f"{where}.gap_m", "a dashed line needs both dash_m and gap_m above 0")
             continue
@@ -869,7 +1066,15 @@ def _markings(entries: list, ctx: _Context) -> list[Marking]:
                 continue
         out.append(
             Marking(
-                m["kind"], pts, m["width_m"], m["dash_m"], m["gap_m"], m["material"], _tag(m, f"marking {i + 1}"), where
+                m["kind"],
+                pts,
+                m["width_m"],
+                m["dash_m"],
+                m["gap_m"],
+                m["material"],
+                _tag(m, f"marking {i + 1}"),
+                where,
+                ground_m=ground,
             )
         )
     return out
@@ -880,7 +1085,9 @@ def _light_refs(checked: dict, where: str, ctx: _Context) -> None:
     ctx.photometry(checked["photometry"], f"{where}.photometry")
 
 
-def _luminaires(singles: list, rows: list, ctx: _Context, street: Street | None, street_given: bool) -> list[Luminaire]:
+def _luminaires(
+    singles: list, rows: list, ctx: _Context, street: Street | None, street_given: bool, roads: list[Road] = ()
+) -> list[Luminaire]:
     """Single luminaires and the positions of rows (placed on the street: with a [street]
     table whose length or width has a problem, rows are not placed)."""
     out: list[Luminaire] = []
@@ -916,7 +1123,12 @@ def _luminaires(singles: list, rows: list, ctx: _Context, street: Street | None,
         if r["count"] is not None and "end_m" in entry:
             ctx.problems.add(f"{where}.end_m", "give either `count` or `end_m`, not both")
             continue
-        if street is None:
+        road = None
+        if r["road"] is not None:
+            road = _road_named(r["road"], list(roads), f"{where}.road", ctx)
+            if road is None:
+                continue
+        elif street is None:
             if not street_given:
                 ctx.problems.add(where, "luminaire rows are placed relative to the street: add a [street] table")
             continue
@@ -937,7 +1149,10 @@ def _luminaires(singles: list, rows: list, ctx: _Context, street: Street | None,
             )
         ):
             continue
-        n = _row_positions(r, where, street, ctx.problems)
+        along = street if road is None else road.section
+        n = _row_positions(
+            r, where, along, ctx.problems, "street.length_m" if road is None else f"{road.where}'s length"
+        )
         if n is None:
             continue
         per_position = 2 if r["layout"] == "opposite" else 1
@@ -956,7 +1171,7 @@ def _luminaires(singles: list, rows: list, ctx: _Context, street: Street | None,
             total = MAX_GENERATED_LUMINAIRES + 1  # later rows are not expanded either
             continue
         total += n * per_position
-        out.extend(expand_row(r, n, where, street))
+        out.extend(expand_row(r, n, where, along, road))
     seen: set[str] = set()
     for lum in out:
         if lum.name in seen:
@@ -966,7 +1181,9 @@ def _luminaires(singles: list, rows: list, ctx: _Context, street: Street | None,
     return out
 
 
-def _row_positions(r: dict, where: str, street: Street, problems: ProblemList) -> int | float | None:
+def _row_positions(
+    r: dict, where: str, street: Street, problems: ProblemList, length_name: str = "street.length_m"
+) -> int | float | None:
     """How many positions along the street a row has (counted before any is made; a float
     when too many for an int), or None after a problem. ``start_m`` and ``end_m`` (or the last
     position of ``count``) must lie on the street, 0 to ``street.length_m``."""
@@ -975,7 +1192,7 @@ def _row_positions(r: dict, where: str, street: Street, problems: ProblemList) -
     if not 0.0 <= start <= length:
         problems.add(
             f"{where}.start_m",
-            f"expected a position along the street, 0 to {length:g} m (street.length_m), got {start:g}",
+            f"expected a position along the street, 0 to {length:g} m ({length_name}), got {start:g}",
         )
         return None
     if r["count"] is not None:
@@ -984,7 +1201,7 @@ def _row_positions(r: dict, where: str, street: Street, problems: ProblemList) -
             problems.add(
                 f"{where}.count",
                 f"{r['count']} positions {spacing:g} m apart from {start:g} m reach {last:g} m, beyond the street's "
-                f"end at {length:g} m (street.length_m)",
+                f"end at {length:g} m ({length_name})",
             )
             return None
         return r["count"]
@@ -992,7 +1209,7 @@ def _row_positions(r: dict, where: str, street: Street, problems: ProblemList) -
     if not start <= end <= length:
         problems.add(
             f"{where}.end_m",
-            f"expected a position along the street from start_m ({start:g} m) to {length:g} m (street.length_m), got {end:g}",
+            f"expected a position along the street from start_m ({start:g} m) to {length:g} m ({length_name}), got {end:g}",
         )
         return None
     steps = (end - start) / spacing  # at most 2000 / 5e-324: finite or +inf, never NaN
@@ -1018,12 +1235,17 @@ def _make_luminaire(c: dict, name: str, position, base, rotation_deg: float, whe
     )
 
 
-def expand_row(r: dict, n: int, where: str, street: Street) -> list[Luminaire]:
+def expand_row(r: dict, n: int, where: str, street: Street, road: Road | None = None) -> list[Luminaire]:
     """The ``n`` positions of a row (:func:`_row_positions`): columns ``setback_m`` behind the
     kerb face, the luminous opening ``outreach_m`` from the column toward the carriageway at
     ``mounting_height_m``. The photometric C90 half-plane (street side) faces across the
-    carriageway."""
+    carriageway. With a ``road`` (whose cross-section ``street`` is), positions are distances
+    along its centreline and offsets along the local normal, the C0 axis turned with the road."""
     xs = [r["start_m"] + k * r["spacing_m"] for k in range(n)]
+    if road is not None:
+        from render.geometry.roads import road_centreline
+
+        cl = road_centreline(road)
     other = "right" if r["side"] == "left" else "left"
     out = []
     for k, x in enumerate(xs):
@@ -1042,8 +1264,18 @@ def expand_row(r: dict, n: int, where: str, street: Street) -> list[Luminaire]:
             rotation = (180.0 if side == "left" else 0.0) + r["rotation_deg"]
             base_name = r["name"] or f"row {where.split('[')[1].rstrip(']')}"
             name = f"{base_name} {side[0].upper()}{k + 1}" if r["layout"] == "opposite" else f"{base_name} #{k + 1}"
-            base = (x, column_y, ground) if r["column"] else None
-            out.append(_make_luminaire(r, name, (x, lum_y, ground + r["mounting_height_m"]), base, rotation, where))
+            if road is None:
+                base = (x, column_y, ground) if r["column"] else None
+                out.append(_make_luminaire(r, name, (x, lum_y, ground + r["mounting_height_m"]), base, rotation, where))
+                continue
+            (cx, cy), (lx, ly) = cl.point([x, x], [column_y, lum_y])
+            _, tangent = cl.frame(x)
+            rotation += math.degrees(math.atan2(tangent[1], tangent[0]))
+            base = (float(cx), float(cy), ground) if r["column"] else None
+            lum = _make_luminaire(
+                r, name, (float(lx), float(ly), ground + r["mounting_height_m"]), base, rotation, where
+            )
+            out.append(replace(lum, road=road.name, s_m=x))
     return out
 
 
@@ -1245,11 +1477,12 @@ def load_scene_document(doc: dict, path: str | os.PathLike, *, strict_paths: boo
     top = check_table(doc, TOP_LEVEL, "", problems)
     info = check_table(top["scene"] or {}, SCENE_INFO, "scene", problems)
     street = _street(top["street"], ctx) if top["street"] is not None else None
+    roads = _roads(top["roads"] or [], ctx)
     frontages = _frontages(top["frontages"] or [], ctx)
-    objects = _objects(top["objects"] or [], ctx, street) + _geometry(top["geometry"] or [], ctx)
-    markings = _markings(top["markings"] or [], ctx)
+    objects = _objects(top["objects"] or [], ctx, street, roads) + _geometry(top["geometry"] or [], ctx)
+    markings = _markings(top["markings"] or [], ctx, roads)
     luminaires = _luminaires(
-        top["luminaires"] or [], top["luminaire_rows"] or [], ctx, street, top["street"] is not None
+        top["luminaires"] or [], top["luminaire_rows"] or [], ctx, street, top["street"] is not None, roads
     )
     render = check_table(top["render"] or {}, RENDER_SPEC, "render", problems)
     views = _views(top["views"] or [], ctx, street, render["samples_per_pixel"])
@@ -1284,8 +1517,10 @@ def load_scene_document(doc: dict, path: str | os.PathLike, *, strict_paths: boo
     if (compare["before"] is None) != (not compare["options"]) and top["compare"]:
         problems.add("compare", "give both `before` (one setup) and `options` (a list of setups)")
     gloss = _gloss(top["gloss"] or [], ctx, street)
-    if top["street"] is None and not objects and not frontages:
-        problems.add("", "the scene has no [street], [[objects]], [[geometry]] or [[frontages]]: nothing to render")
+    if top["street"] is None and not top["roads"] and not objects and not frontages:
+        problems.add(
+            "", "the scene has no [street], [[roads]], [[objects]], [[geometry]] or [[frontages]]: nothing to render"
+        )
     names: dict[str, str] = {}
     for item in [*frontages, *objects, *markings]:
         if item.tag.name in names:
@@ -1314,6 +1549,7 @@ def load_scene_document(doc: dict, path: str | os.PathLike, *, strict_paths: boo
         compare_options=tuple(compare["options"] or ()),
         calc=calc,
         energy=energy,
+        roads=roads,
     )
 
 

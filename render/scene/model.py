@@ -23,6 +23,7 @@ __all__ = [
     "Luminaire",
     "Marking",
     "RenderSettings",
+    "Road",
     "Scene",
     "Setup",
     "Street",
@@ -103,6 +104,21 @@ class Street:
 
 
 @dataclass
+class Road:
+    """A road along a centreline polyline (``[[roads]]``, render.geometry.roads): the
+    cross-section of a :class:`Street` following ``points_m``; ``section.length_m`` is the
+    length of the centreline after its corners are rounded."""
+
+    name: str
+    points_m: tuple[Vec2, ...]
+    section: Street
+    corner_radius_m: float | None  # None: sharp (mitred) corners
+    max_chord_error_m: float  # arcs drawn as chords within this distance of the true arc
+    junction_kerb_radius_m: float  # kerb radius where this road's end meets another road
+    where: str  # key path in the scene file, for messages
+
+
+@dataclass
 class Tag:
     """Name and analysis flag of something in the scene ("the blue car", inspect = true).
 
@@ -157,6 +173,8 @@ class Marking:
     material: str
     tag: Tag
     where: str
+    #: Height of the surface under the marking, m (markings along a road); None: the street's.
+    ground_m: float | None = None
 
 
 @dataclass
@@ -175,6 +193,10 @@ class Luminaire:
     maintenance_factor: float
     dimming: float
     where: str
+    #: The road a row's luminaire stands along (``luminaire_rows.road``) and its distance
+    #: along that road's centreline, m; None for the [street] and single luminaires.
+    road: str | None = None
+    s_m: float | None = None
 
 
 @dataclass
@@ -293,6 +315,8 @@ class Scene:
     #: ``[calc]`` and ``[energy]``: calculation defaults and the site's energy figures.
     calc: CalcSettings = field(default_factory=CalcSettings)
     energy: EnergySettings = field(default_factory=EnergySettings)
+    #: ``[[roads]]``: roads along polylines (render.geometry.roads).
+    roads: list[Road] = field(default_factory=list)
 
     @property
     def base_dir(self) -> Path:
