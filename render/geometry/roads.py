@@ -483,6 +483,8 @@ def find_arms(roads: list[Road], cls: list[Centreline]) -> list[Arm]:
     arms = []
     for j, (road, cl) in enumerate(zip(roads, cls)):
         for at_start, end in ((True, cl.points[0]), (False, cl.points[-1])):
+            met_end = None
+            on_through = False
             for i, (other, ocl) in enumerate(zip(roads, cls)):
                 if i == j:
                     continue
@@ -490,13 +492,17 @@ def find_arms(roads: list[Road], cls: list[Centreline]) -> list[Arm]:
                 if dist > JUNCTION_TOLERANCE_M:
                     continue
                 if s <= JUNCTION_TOLERANCE_M or s >= ocl.length_m - JUNCTION_TOLERANCE_M:
-                    raise RoadError(
-                        "points_m",
-                        f"{road.where} ({road.name!r}) meets {other.where} ({other.name!r}) end to end; "
-                        "join them into one road's points_m (a road may bend) or end one on the other's centreline",
-                        road.where,
-                    )
+                    met_end = other
+                    continue
                 arms.append(Arm(i, j, at_start, s))
+                on_through = True
+            if met_end is not None and not on_through:  # ends meeting on a third road form a cross
+                raise RoadError(
+                    "points_m",
+                    f"{road.where} ({road.name!r}) meets {met_end.where} ({met_end.name!r}) end to end; "
+                    "join them into one road's points_m (a road may bend) or end one on the other's centreline",
+                    road.where,
+                )
     return arms
 
 
@@ -746,7 +752,7 @@ def _build_arm(
 
 def _crossing(roads: list[Road], cls: list[Centreline], arms: list[Arm]) -> tuple[str, str] | None:
     """(key, message) for two roads whose centrelines cross away from a junction arm's point."""
-    ends = {(a.branch, a.through) for a in arms}
+    meeting = [cls[a.branch].points[0 if a.at_start else -1] for a in arms]
     for i in range(len(roads)):
         for j in range(i + 1, len(roads)):
             p, r = cls[i].points[:-1], np.diff(cls[i].points, axis=0)
@@ -759,12 +765,7 @@ def _crossing(roads: list[Road], cls: list[Centreline], arms: list[Arm]) -> tupl
             hit = (denom != 0) & (t >= 0) & (t <= 1) & (u >= 0) & (u <= 1)
             for a, k in zip(*np.nonzero(hit)):
                 x = p[a] + t[a, k] * r[a]
-                at_end = any(
-                    np.hypot(*(x - cls[m].points[idx])) <= 2 * JUNCTION_TOLERANCE_M
-                    for m in (i, j)
-                    for idx in (0, -1)
-                    if (m, j if m == i else i) in ends
-                )
+                at_end = any(np.hypot(*(x - m)) <= 2 * JUNCTION_TOLERANCE_M for m in meeting)
                 if not at_end:
                     return (
                         f"{roads[j].where}.points_m",
