@@ -89,26 +89,29 @@ def apply_acuity(
     img = np.asarray(image, dtype=np.float64)
     sigma_px = blur_sigma_deg(local_luminance_cd_m2) / geometry.deg_per_px_centre
     levels = np.asarray(levels_px, dtype=np.float64)
-    shape = np.broadcast_shapes(img.shape[:-1], np.shape(sigma_px))
-    sigma = np.ascontiguousarray(np.broadcast_to(sigma_px, shape).reshape(-1))
-    lower = np.empty(sigma.size, dtype=np.int64)
-    frac = np.empty(sigma.size)
+    shape = img.shape[:2]
+    sigma = np.ascontiguousarray(np.broadcast_to(sigma_px, shape))
+    lower = np.empty(shape, dtype=np.int64)
+    frac = np.empty(shape)
     used = np.zeros(len(levels), dtype=np.bool_)
     _bracket_levels(sigma, levels, lower, frac, used)
-    out = np.zeros((sigma.size, img.shape[-1]))
+    out = np.zeros(img.shape)
     for i in np.flatnonzero(used):
         if levels[i] == 0.0:
-            blurred = img
-        else:
-            blurred = gaussian_filter(img, sigma=(levels[i], levels[i], 0), mode="nearest")
-        _add_level(
-            out,
-            np.ascontiguousarray(np.broadcast_to(blurred, (*shape, img.shape[-1])).reshape(sigma.size, -1)),
-            lower,
-            frac,
-            i,
-        )
-    return out.reshape(*shape, img.shape[-1]), sigma_px
+            _add_level(out, np.ascontiguousarray(img), 0, 0, lower, frac, i)
+            continue
+        # The blur is needed only where some pixel uses this level (its own level or the one
+        # below is this level's lower neighbour): over their bounding box widened by the
+        # kernel's reach (scipy's radius, 4σ), the same values as a blur of the whole image,
+        # since each output value reads input within the reach only and the image's own edges
+        # are extended alike.
+        rows, cols = np.nonzero((lower == i) | (lower == i - 1))
+        reach = int(4.0 * float(levels[i]) + 0.5)
+        y0, y1 = max(int(rows.min()) - reach, 0), min(int(rows.max()) + reach + 1, shape[0])
+        x0, x1 = max(int(cols.min()) - reach, 0), min(int(cols.max()) + reach + 1, shape[1])
+        blurred = gaussian_filter(img[y0:y1, x0:x1], sigma=(levels[i], levels[i], 0), mode="nearest")
+        _add_level(out, blurred, y0, x0, lower, frac, i)
+    return out, sigma_px
 
 
 @numba.njit(cache=True, nogil=True)
@@ -116,29 +119,32 @@ def _bracket_levels(sigma, levels, lower, frac, used):
     """Per pixel the blur level below its σ (clipped to the levels' range) and the linear
     weight of the level above; ``used[i]``: some pixel gives level i a weight above 0."""
     n = levels.size
-    for p in range(sigma.size):
-        s = min(max(sigma[p], 0.0), levels[n - 1])
-        k = np.searchsorted(levels, s, side="right") - 1
-        k = min(max(k, 0), n - 2)
-        t = (s - levels[k]) / (levels[k + 1] - levels[k])
-        lower[p] = k
-        frac[p] = t
-        if 1.0 - t > 0.0:
-            used[k] = True
-        if t > 0.0:
-            used[k + 1] = True
+    for y in range(sigma.shape[0]):
+        for x in range(sigma.shape[1]):
+            s = min(max(sigma[y, x], 0.0), levels[n - 1])
+            k = np.searchsorted(levels, s, side="right") - 1
+            k = min(max(k, 0), n - 2)
+            t = (s - levels[k]) / (levels[k + 1] - levels[k])
+            lower[y, x] = k
+            frac[y, x] = t
+            if 1.0 - t > 0.0:
+                used[k] = True
+            if t > 0.0:
+                used[k + 1] = True
 
 
 @numba.njit(cache=True, nogil=True, parallel=True)
-def _add_level(out, blurred, lower, frac, level):
-    """Add blur level ``level`` with its per-pixel weight (1 − t below, t above) to ``out``."""
-    for p in numba.prange(out.shape[0]):
-        k = lower[p]
-        if k == level:
-            w = 1.0 - frac[p]
-        elif k + 1 == level:
-            w = frac[p]
-        else:
-            continue
-        for c in range(out.shape[1]):
-            out[p, c] += w * blurred[p, c]
+def _add_level(out, blurred, y0, x0, lower, frac, level):
+    """Add blur level ``level`` with its per-pixel weight (1 − t below, t above) to ``out``;
+    ``blurred`` covers the pixels from ``(y0, x0)`` on, every pixel that uses the level."""
+    for y in numba.prange(blurred.shape[0]):
+        for x in range(blurred.shape[1]):
+            k = lower[y0 + y, x0 + x]
+            if k == level:
+                w = 1.0 - frac[y0 + y, x0 + x]
+            elif k + 1 == level:
+                w = frac[y0 + y, x0 + x]
+            else:
+                continue
+            for c in range(out.shape[2]):
+                out[y0 + y, x0 + x, c] += w * blurred[y, x, c]

@@ -268,11 +268,12 @@ def retinal_image(
         "glare_veil_max_cd_m2": float(veil[..., 1].max()),
         "glare_veil_mean_cd_m2": float(veil[..., 1].mean()),
     }
-    xyz_r = out[..., :3]
+    # Each channel group contiguous: the later steps read them many times.
+    xyz_r = np.ascontiguousarray(out[..., :3])
     return Retina(
         xyz_r,
-        out[..., 3],
-        (out[..., 4:7] if lms is not None else None),
+        np.ascontiguousarray(out[..., 3]),
+        (np.ascontiguousarray(out[..., 4:7]) if lms is not None else None),
         diag,
         _local_adaptation(xyz_r, geometry, observer),
     )
