@@ -27,7 +27,7 @@ import pytest
 
 from render.errors import InputError
 from render.geometry.build import compile_scene
-from render.geometry.roads import road_centreline, side_depth_m
+from render.geometry.roads import side_depth_m
 from render.scene.loader import load_scene_document
 
 VIEW = {"name": "v", "position_m": [1.0, -1.0], "target_m": [30.0, 0.0, 0.0], "resolution": [64, 36]}
@@ -120,26 +120,29 @@ def distance_to_polyline(points: np.ndarray, line: np.ndarray) -> np.ndarray:
 
 
 def test_footway_widths_are_constant_round_a_circular_arc(tmp_path):
-    # Analytic: the footway lies between circles of radii r ∓ d about the arc's centre, d the
-    # distances from the centreline to its edges; measured between the two offset curves at
-    # every vertex of the arc, and each edge's distance from the centre.
+    # Analytic: round the arc each footway lies between the circles of radii r ∓ d0 and r ∓ d1
+    # about its centre (d0, d1 the distances from the centreline to its edges): every vertex of
+    # the built footway on the arc lies on one of the two circles, and the distance from each
+    # vertex of one edge to the other edge (the width) is d1 − d0, within the chord error.
     s = scene(
         tmp_path, roads=[{**BEND, "carriageway_width_m": 6.0, "left": {"footway_width_m": 2.0, "verge_width_m": 0.4}}]
     )
     road = s.roads[0]
-    cl = road_centreline(road)
+    mesh = compile_scene(s)
     half = 3.0
     for side, sign in (("left", 1.0), ("right", -1.0)):
-        inner_d = half + road.section.kerb_width_m + road.section.side(side).verge_width_m
+        d0 = half + road.section.kerb_width_m + road.section.side(side).verge_width_m
         width = road.section.side(side).footway_width_m
-        inner = cl.offset(sign * inner_d)
-        outer = cl.offset(sign * (inner_d + width))
-        arc = on_arc(inner)
-        assert arc.sum() > 20  # many stations on the arc
-        np.testing.assert_allclose(distance_to_polyline(inner[arc], outer), width, atol=CHORD)
-        np.testing.assert_allclose(distance_to_polyline(outer[on_arc(outer)], inner), width, atol=CHORD)
-        radius = RADIUS - sign * inner_d
-        np.testing.assert_allclose(np.linalg.norm(inner[arc] - CENTRE, axis=1), radius, atol=CHORD)
+        vertices = object_triangles(mesh, f"footway {side}").reshape(-1, 3)[:, :2]
+        vertices = np.unique(vertices[on_arc(vertices)], axis=0)
+        radius = np.linalg.norm(vertices - CENTRE, axis=1)
+        inner = np.abs(radius - (RADIUS - sign * d0)) <= CHORD
+        outer = np.abs(radius - (RADIUS - sign * (d0 + width))) <= CHORD
+        assert np.all(inner | outer) and inner.sum() > 20 and outer.sum() > 20
+        order = lambda v: v[np.argsort(np.arctan2(v[:, 1] - CENTRE[1], v[:, 0] - CENTRE[0]))]  # noqa: E731
+        inner_edge, outer_edge = order(vertices[inner]), order(vertices[outer])
+        np.testing.assert_allclose(distance_to_polyline(inner_edge[1:-1], outer_edge), width, atol=CHORD)
+        np.testing.assert_allclose(distance_to_polyline(outer_edge[1:-1], inner_edge), width, atol=CHORD)
 
 
 def test_carriageway_round_an_arc_has_the_annulus_sectors_area_and_no_holes(tmp_path):
