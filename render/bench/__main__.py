@@ -5,6 +5,7 @@
 * ``calc`` -- a full calculation of a scene vs one view's render (:mod:`render.bench.calc`).
 * ``study`` -- design-study throughput on 1 and 2 Dask workers (:mod:`render.bench.study`).
 * ``startup`` -- quick commands as new processes, a 1M-triangle OBJ, a cold demo (:mod:`render.bench.startup`).
+* ``vision`` -- the vision stage of a comparison, glare optics shared vs per image (:mod:`render.bench.vision`).
 """
 
 from __future__ import annotations
@@ -14,6 +15,7 @@ import sys
 
 from render.bench import calc, light, rays, startup
 from render.bench import study as study_bench
+from render.bench import vision as vision_bench
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -24,6 +26,7 @@ def build_parser() -> argparse.ArgumentParser:
     calc.add_parser(sub)
     study_bench.add_parser(sub)
     startup.add_parser(sub)
+    vision_bench.add_parser(sub)
     return parser
 
 
