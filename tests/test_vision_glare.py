@@ -256,3 +256,74 @@ def test_energy_is_conserved_up_to_light_leaving_the_view():
     assert (1 - frac) * before < after <= before * (1 + 1e-9)
     # Most of the scattered light stays within a 70° view.
     assert after > (1 - 0.3 * frac) * before
+
+
+def _bilinear_weights(gx, gy):
+    x0, y0 = np.floor(gx).astype(int), np.floor(gy).astype(int)
+    fx, fy = gx - x0, gy - y0
+    return [
+        (y0, x0, (1 - fx) * (1 - fy)),
+        (y0, x0 + 1, fx * (1 - fy)),
+        (y0 + 1, x0, (1 - fx) * fy),
+        (y0 + 1, x0 + 1, fx * fy),
+    ]
+
+
+@pytest.mark.parametrize("model", ["cie146-general", "stiles-holladay"])
+def test_fft_convolution_equals_the_direct_sum_on_the_grid(model):
+    # The veil is a linear convolution on the equidistant grid (module text); transforms of
+    # g + h points must give it without wrap-around. Reference: the same bilinear splat and
+    # read-back written out here, and the convolution summed directly in space
+    # (scipy.signal.convolve, method "direct") with the module's kernel. A bright corner pixel
+    # is the case where wrap-around would show first.
+    from scipy.signal import convolve
+
+    from render.vision.glare import glare_kernel, glare_optics, spread_function
+
+    g = ViewGeometry(70.0, 41, 29)
+    rng = np.random.default_rng(5)
+    img = rng.uniform(0.0, 1.0, (29, 41, 2))
+    img[0, 0] = 1e4
+    img[28, 40, 1] = 1e3
+    optics = glare_optics(g, age_years=55.0, pigmentation=0.7, model=model)
+    veil = veiling_luminance(img, g, age_years=55.0, pigmentation=0.7, model=model, optics=optics)
+    gh, gw = optics.grid_shape
+    gx, gy = np.asarray(optics.grid_x), np.asarray(optics.grid_y)
+    e = img.reshape(-1, 2) * g.solid_angle_sr().reshape(-1, 1)
+    grid = np.zeros((2, gh, gw))
+    for yy, xx, w in _bilinear_weights(gx, gy):
+        for c in range(2):
+            np.add.at(grid[c], (yy, xx), e[:, c] * w)
+    _, (lo, hi) = spread_function(model, 55.0, 0.7)
+    reach = int(np.ceil(min(hi, 90.0) / g.deg_per_px_centre)) + 1
+    hy, hx = min(gh - 1, reach), min(gw - 1, reach)
+    kernel = glare_kernel(g.deg_per_px_centre, (hy, hx), model, 55.0, 0.7)
+    ref = np.zeros_like(veil)
+    for c in range(2):
+        full = convolve(grid[c], kernel, mode="full", method="direct")[hy : hy + gh, hx : hx + gw]
+        ref[..., c] = sum(w * full[yy, xx] for yy, xx, w in _bilinear_weights(gx, gy)).reshape(29, 41)
+    assert np.allclose(veil, ref, rtol=1e-12, atol=1e-15 * ref.max())
+
+
+def test_glare_optics_are_shared_only_with_their_view_and_eye():
+    # One view's optics serve every setup seen from it and give the same bits as optics made
+    # for the call (the shared spectrum is the one the call would make); another view or eye
+    # is refused (common practice, no source).
+    from render.vision.glare import glare_optics
+
+    g = ViewGeometry(50.0, 60, 40)
+    rng = np.random.default_rng(2)
+    optics = glare_optics(g, age_years=40.0, pigmentation=0.5)
+    for _ in range(2):
+        img = rng.uniform(0.0, 5.0, (40, 60, 3))
+        own = veiling_luminance(img, g, age_years=40.0, pigmentation=0.5)
+        shared = veiling_luminance(img, g, age_years=40.0, pigmentation=0.5, optics=optics)
+        assert np.array_equal(own, shared)
+    img = np.ones((40, 60, 1))
+    with pytest.raises(ValueError, match="another view or eye"):
+        veiling_luminance(img, g, age_years=70.0, pigmentation=0.5, optics=optics)
+    with pytest.raises(ValueError, match="another view or eye"):
+        veiling_luminance(img, g, age_years=40.0, pigmentation=0.5, model="stiles-holladay", optics=optics)
+    other = ViewGeometry(51.0, 60, 40)
+    with pytest.raises(ValueError, match="another view or eye"):
+        veiling_luminance(img, other, age_years=40.0, pigmentation=0.5, optics=optics)

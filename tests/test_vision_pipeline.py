@@ -112,3 +112,27 @@ def test_mode_errors():
         render_display(street_like(), G, ObserverSettings(), "shared")
     with pytest.raises(ValueError):
         render_display(street_like(), ViewGeometry(30.0, 10, 10), ObserverSettings())
+
+
+def test_kept_perceived_images_are_what_the_analysis_would_compute_and_diagnostics_are_per_display():
+    # A display keeps the perceived image it was made from; the colour analysis reads it
+    # instead of running the stage again, so it must be exactly what perceived_view computes
+    # with the display's state (render.analysis.colours, same steps in the same order). One
+    # retina serves a shared and an adapted display: each keeps its own mode and scale.
+    from render.analysis.colours import perceived_view
+    from render.vision.pipeline import retinal_images
+
+    views = [street_like(0.3, lantern=True), street_like(1.0, lantern=True)]
+    obs = ObserverSettings()
+    retinas = retinal_images(views, [G, G], obs)
+    shared = shared_display(views, G, obs, retinas=retinas)
+    adapted = [render_display(v, G, obs, "adapted", retina=r) for v, r in zip(views, retinas)]
+    for v, d in zip(views, shared + adapted):
+        again = perceived_view(v, G, obs, state=d.state)
+        assert np.array_equal(d.perceived.xyz_cd_m2, again.xyz_cd_m2)
+        assert np.array_equal(d.perceived.mesopic_cd_m2, again.mesopic_cd_m2)
+        assert d.perceived.state == d.state and d.perceived.observer == obs
+    for s, a in zip(shared, adapted):
+        assert s.diagnostics["mode"] == "shared" and a.diagnostics["mode"] == "adapted"
+        assert s.diagnostics["display_scale"] == pytest.approx(ward_scale_factor(s.state.mesopic_cd_m2, 100.0))
+        assert a.diagnostics["display_scale"] == pytest.approx(ward_scale_factor(a.state.mesopic_cd_m2, 100.0))
