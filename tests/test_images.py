@@ -10,6 +10,7 @@ PNG output as the reference for figures; ``hashlib`` for the scene hash.
 from __future__ import annotations
 
 import hashlib
+import io
 import os
 import struct
 import zlib
@@ -21,7 +22,16 @@ import pytest
 from PIL import Image
 
 from render.cli import main
-from render.output.images import figure_pixels, fit_width, png_bytes, write_figure_png, write_png
+from render.output.images import (
+    animated_webp_bytes,
+    figure_pixels,
+    fit_width,
+    gif_bytes,
+    png_bytes,
+    webp_bytes,
+    write_figure_png,
+    write_png,
+)
 
 SCENES = Path(__file__).resolve().parents[1] / "scenes" / "tests"
 
@@ -217,3 +227,47 @@ def test_render_aov_pngs_carry_provenance_and_rerun_identically(tmp_path):
         # Same scene and seed: the same bytes.
         assert (runs[0] / name).read_bytes() == (runs[1] / name).read_bytes(), name
     assert (runs[0] / "above-aov.npz").read_bytes() == (runs[1] / "above-aov.npz").read_bytes()
+
+
+def test_palette_png_is_colour_type_3_with_its_palette():
+    # ISO/IEC 15948 colour type 3: IHDR depth 8, a PLTE chunk of 3-byte entries, indices in IDAT;
+    # Pillow (an independent reader) must give back the palette's colours at the indices.
+    rng = np.random.default_rng(7)
+    palette = rng.integers(0, 256, (37, 3), dtype=np.uint8)
+    indices = rng.integers(0, 37, (23, 31), dtype=np.uint8)
+    data = png_bytes(indices, {"a": "b"}, palette=palette)
+    assert data[24:26] == b"\x08\x03" and b"PLTE" in data[: data.index(b"IDAT")]
+    with Image.open(io.BytesIO(data)) as im:
+        assert im.mode == "P" and im.text["a"] == "b"
+        assert np.array_equal(np.asarray(im.convert("RGB")), palette[indices])
+    assert png_bytes(indices, {"a": "b"}, palette=palette) == data
+    with pytest.raises(ValueError):
+        png_bytes(indices, palette=palette[:5])  # an index beyond the palette
+    with pytest.raises(ValueError):
+        png_bytes(indices, palette=np.zeros((257, 3), np.uint8))
+
+
+def test_gif_and_webp_writers():
+    # GIF89a (looping, per-frame duration, comment) and WebP (RFC 9649) read back by Pillow;
+    # lossless WebP gives the same pixels, and every writer the same bytes for the same frames.
+    rng = np.random.default_rng(8)
+    frames = [rng.integers(0, 256, (20, 30, 3), dtype=np.uint8) for _ in range(3)]
+    gif = gif_bytes(frames, 120, {"lampcast.picture": "rendered"})
+    with Image.open(io.BytesIO(gif)) as im:
+        assert im.n_frames == 3 and im.info["loop"] == 0 and im.info["duration"] == 120
+        assert b"lampcast.picture: rendered" in im.info["comment"]
+    assert gif_bytes(frames, 120, {"lampcast.picture": "rendered"}) == gif
+    still = webp_bytes(frames[0])
+    with Image.open(io.BytesIO(still)) as im:
+        assert np.array_equal(np.asarray(im.convert("RGB")), frames[0])
+    assert webp_bytes(frames[0]) == still and webp_bytes(frames[0], 80) == webp_bytes(frames[0], 80)
+    anim = animated_webp_bytes(frames, [100, 200, 300])
+    with Image.open(io.BytesIO(anim)) as im:
+        assert im.n_frames == 3 and im.info.get("loop") == 0
+        for k, frame in enumerate(frames):
+            im.seek(k)
+            im.load()
+            assert im.info["duration"] == 100 * (k + 1)
+            assert np.array_equal(np.asarray(im.convert("RGB")), frame)
+    with pytest.raises(ValueError):
+        webp_bytes(frames[0], 101)

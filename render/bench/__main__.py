@@ -3,6 +3,7 @@
 * ``rays`` -- BVH build time and ray throughput, with an Embree comparison (:mod:`render.bench.rays`).
 * ``light`` -- full render vs relight, luminaire-count scaling, 1 nm vs 5 nm (:mod:`render.bench.light`).
 * ``calc`` -- a full calculation of a scene vs one view's render (:mod:`render.bench.calc`).
+* ``report`` -- report.html's size, bytes per embedded image kind, figure drawing time (:mod:`render.bench.report`).
 * ``study`` -- design-study throughput on 1 and 2 Dask workers (:mod:`render.bench.study`).
 * ``startup`` -- quick commands as new processes, a 1M-triangle OBJ, a cold demo (:mod:`render.bench.startup`).
 * ``vision`` -- the vision stage of a comparison, glare optics shared vs per image (:mod:`render.bench.vision`).
@@ -13,7 +14,7 @@ from __future__ import annotations
 import argparse
 import sys
 
-from render.bench import calc, light, rays, startup
+from render.bench import calc, light, rays, report, startup
 from render.bench import study as study_bench
 from render.bench import vision as vision_bench
 
@@ -24,6 +25,7 @@ def build_parser() -> argparse.ArgumentParser:
     rays.add_parser(sub)
     light.add_parser(sub)
     calc.add_parser(sub)
+    report.add_parser(sub)
     study_bench.add_parser(sub)
     startup.add_parser(sub)
     vision_bench.add_parser(sub)

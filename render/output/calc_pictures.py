@@ -306,7 +306,7 @@ def grid_heatmap(
                             va="center",
                             fontsize=5.5,
                             color="black" if norm(v) > 0.55 else "white",
-                        )
+                        ).set_in_layout(False)
         if len(near):
             ax.plot(
                 near[:, 0],
@@ -401,7 +401,7 @@ def bar_chart(
                 fontsize=6.5,
                 zorder=4,
                 bbox={"facecolor": "white", "edgecolor": "none", "pad": 0.6},
-            )
+            ).set_in_layout(False)
         if h.key in limits:
             ax.axhline(limits[h.key][0], color="black", linestyle="--", linewidth=0.9)
         ax.set_xlim(-0.6, n - 0.4)

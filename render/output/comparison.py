@@ -45,7 +45,7 @@ from render import __version__
 from render.analysis.colours import CAVEAT as COLOUR_CAVEAT
 from render.analysis.colours import ColourAnalysis, Confusion
 from render.errors import InputError, did_you_mean, input_error
-from render.fileio import atomic_path, atomic_write_text, file_stem
+from render.fileio import atomic_write_text, file_stem
 from render.output.metrics import (
     BEFORE,
     RESERVED_KEYS,
@@ -100,7 +100,6 @@ __all__ = [
     "unique_stems",
     "summary_sentences",
     "wipe_frames",
-    "write_gif",
 ]
 
 #: Cautions shown with every comparison (the report adds its standing caution: an illustrative
@@ -332,15 +331,6 @@ def wipe_frames(before: np.ndarray, after: np.ndarray, n: int = 16, max_width_px
             f[:, max(x - 1, 0) : x + 1] = 255
         frames.append(f)
     return frames
-
-
-def write_gif(path: Path, frames: Sequence[np.ndarray], duration_ms: int = 90) -> Path:
-    """Write an endlessly looping GIF of ``frames`` (atomically); return ``path``."""
-    import imageio.v3 as iio
-
-    with atomic_path(path) as tmp:
-        iio.imwrite(tmp, np.stack(frames), extension=".gif", duration=duration_ms, loop=0)
-    return path
 
 
 def summary_sentences(metrics: ComparisonMetrics) -> list[str]:
@@ -742,7 +732,7 @@ def run_comparison(
     from render.analysis.view_colours import pixel_object_ids
     from render.colour.lamp_figures import LampFigures, lamp_figures
     from render.colour.lamps import get_lamp
-    from render.output.images import write_png
+    from render.output.images import CHART, PICTURE_KEY, RENDERED, write_gif, write_png
     from render.study import Study
 
     study = scene if isinstance(scene, Study) else Study(scene)
@@ -793,6 +783,7 @@ def run_comparison(
         def meta(r: RenderedView, mode: str) -> dict[str, str]:
             m = image_metadata(study, r, mode, observer, seed, spp)
             m["lampcast.comparison"] = compared
+            m[PICTURE_KEY] = RENDERED
             return m
 
         # The luminance maps wait for every view: their scale is one for the whole report.
@@ -806,7 +797,7 @@ def run_comparison(
         for key, s, r, sh in zip(keys[1:], setups[1:], rendered[1:], shared[1:]):
             sbs = side_by_side(shared[0].srgb8, sh.srgb8, f"before: {setups[0].name}", f"{word}: {s.name}")
             write_png(out / images.side_by_side[key], sbs, meta(r, "shared side by side"))
-            write_gif(out / images.wipe[key], wipe_frames(shared[0].srgb8, sh.srgb8))
+            write_gif(out / images.wipe[key], wipe_frames(shared[0].srgb8, sh.srgb8), text=meta(r, "shared wipe"))
         if analyse:
             colour_views.offer(study, name, rendered, shared)
         view_metrics.append(
@@ -836,7 +827,13 @@ def run_comparison(
     for images, metas, ys in pending:
         for key, m, lm in zip(keys, metas, luminance_maps(ys, lo, hi)):
             write_png(out / images.luminance[key], lm, {**m, **scale_text})
-    legend_text = {**pending[0][1][0], "lampcast.mode": "photometric legend", "lampcast.setup": compared, **scale_text}
+    legend_text = {
+        **pending[0][1][0],
+        "lampcast.mode": "photometric legend",
+        "lampcast.setup": compared,
+        **scale_text,
+        PICTURE_KEY: CHART,
+    }
     legend_text.pop("lampcast.view", None)  # one legend for every view
     write_png(out / LUMINANCE_LEGEND, luminance_legend(pending[0][2][0].shape[0], lo, hi), legend_text)
     del pending

@@ -1,17 +1,33 @@
-"""PNG files: the one writer every image and figure of lampcast goes through.
+"""Image files: the one writer of each format every image and figure of lampcast goes through.
 
 :func:`png_bytes` encodes a numpy image, :func:`write_png` writes it atomically
 (:func:`render.fileio.atomic_write_bytes`), :func:`figure_pixels` and :func:`write_figure_png`
 do the same for a matplotlib figure (drawn by the Agg renderer, then through the same
-encoder). Other modules hold arrays; only this one turns them into PNG files.
+encoder). :func:`gif_bytes` / :func:`write_gif` make the looping GIF animations (the wipes),
+:func:`webp_bytes` and :func:`animated_webp_bytes` the compact copies the report embeds
+(:mod:`render.output.report.images`). Other modules hold arrays; only this one turns them into
+image files.
+
+Every image lampcast writes says what kind of picture it is under :data:`PICTURE_KEY`:
+:data:`RENDERED` (a rendered view or a map of one: continuous tones, shown to the eye) or
+:data:`CHART` (drawn lines, text and flat colours: figures, legends). The report chooses its
+compact encoding by it; the files themselves are always written in full.
 
 The encoder follows the PNG specification: signature, ``IHDR``, an ``sRGB`` chunk (rendering
 intent perceptual: every image we write is sRGB-encoded), one ``tEXt`` chunk per metadata
 entry (``iTXt``, UTF-8, for values outside Latin-1), one zlib ``IDAT`` and ``IEND``. Images are
 grey (H, W), RGB (H, W, 3) or RGBA (H, W, 4), 8 or 16 bits per channel. Each row gets the
 filter type (None, Sub, Up, Average, Paeth) with the smallest sum of absolute filtered bytes,
-the heuristic the specification recommends for true-colour images. There is no time chunk and
-the zlib level is fixed, so the same pixels and text always give the same bytes.
+the heuristic the specification recommends for true-colour images. Palette images (colour type
+3, a ``PLTE`` chunk of at most 256 colours) are written with filter type None on every row,
+as the specification recommends for them. There is no time chunk and the zlib level is fixed,
+so the same pixels and text always give the same bytes.
+
+GIF animations are Pillow's GIF89a writer (each frame quantised to its own palette, frames that
+repeat the previous one merged into a longer one) with a comment extension holding the text
+entries; WebP files are Pillow's libwebp encoder at fixed settings (lossless, or lossy at a
+given quality), single-threaded and without metadata chunks. Neither holds a timestamp, so the
+same frames give the same bytes.
 
 Every PNG carries ``Software`` = ``lampcast <version>`` unless the caller's text sets it;
 callers that know the run (scene, view, seed, ...) add the entries of
@@ -29,16 +45,20 @@ References
   "Image file compression made easy", Graphics Gems II), filter selection heuristic (section
   12.8), ``tEXt``/``iTXt`` and ``sRGB`` chunks.
 - RFC 1950 / RFC 1951: the zlib stream inside ``IDAT`` (Python's :mod:`zlib`).
+- CompuServe, "Graphics Interchange Format Version 89a" (1990): comment extension, looping.
+- Google, "WebP Container Specification" and "WebP Lossless Bitstream Specification"
+  (RFC 9649, 2024), through Pillow's libwebp binding.
 - IEC 61966-2-1:1999 (sRGB transfer curve, through :mod:`render.vision.display`) and
   scikit-image ``skimage.transform.resize`` (van der Walt et al. 2014, PeerJ 2:e453).
 """
 
 from __future__ import annotations
 
+import io
 import os
 import struct
 import zlib
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from pathlib import Path
 from typing import Any
 
@@ -47,7 +67,33 @@ import numpy as np
 
 from render.fileio import atomic_write_bytes
 
-__all__ = ["png_bytes", "write_png", "figure_pixels", "write_figure_png", "fit_width"]
+__all__ = [
+    "CHART",
+    "PICTURE_KEY",
+    "RENDERED",
+    "WEBP_METHOD",
+    "animated_webp_bytes",
+    "figure_pixels",
+    "fit_width",
+    "gif_bytes",
+    "png_bytes",
+    "webp_bytes",
+    "write_figure_png",
+    "write_gif",
+    "write_png",
+]
+
+#: Text key naming what kind of picture an image is: :data:`RENDERED` or :data:`CHART`.
+PICTURE_KEY = "lampcast.picture"
+#: A rendered view or a map of one (continuous tones).
+RENDERED = "rendered"
+#: A drawn figure or legend (lines, text, flat colours).
+CHART = "chart"
+#: libwebp's effort (0 fastest .. 6 smallest); 2 is within 3 % of 4's size at half its time
+#: on the demo's views (measured with ``python -m render.bench report``).
+WEBP_METHOD = 2
+#: Effort of lossless WebP (its "quality" setting, 0-100).
+_WEBP_LOSSLESS_EFFORT = 50
 
 #: PNG colour types by channel count: grey, grey + alpha, RGB, RGBA.
 _COLOUR_TYPE = {1: 0, 2: 4, 3: 2, 4: 6}
@@ -131,35 +177,52 @@ def _filtered_rows(rows: np.ndarray, bpp: int) -> np.ndarray:
     return out
 
 
-def png_bytes(image: np.ndarray, text: Mapping[str, Any] | None = None) -> bytes:
+def png_bytes(image: np.ndarray, text: Mapping[str, Any] | None = None, *, palette: np.ndarray | None = None) -> bytes:
     """PNG file contents for a grey (H, W), grey-alpha (H, W, 2), RGB (H, W, 3) or RGBA
     (H, W, 4) uint8 or uint16 image, sRGB, with ``text`` as metadata chunks (in the given
     order, after ``Software``).
 
+    With ``palette`` ((N, 3) uint8 sRGB colours, 1 <= N <= 256), ``image`` is (H, W) uint8
+    indices into it and the file is a palette image (colour type 3).
+
     Keywords must be 1-79 Latin-1 characters; values are any text (``str()`` of the value).
     """
     img = np.asarray(image)
-    if img.ndim == 2:
-        img = img[:, :, None]
-    if img.ndim != 3 or img.shape[2] not in _COLOUR_TYPE or img.dtype not in (np.uint8, np.uint16):
-        raise ValueError(
-            f"expected an (H, W), (H, W, 3) or (H, W, 4) uint8 or uint16 image, got {img.dtype} {img.shape}"
-        )
-    h, w, channels = img.shape
+    if palette is not None:
+        plte = np.asarray(palette)
+        if plte.dtype != np.uint8 or plte.ndim != 2 or plte.shape[1] != 3 or not 1 <= len(plte) <= 256:
+            raise ValueError(f"a palette is (N, 3) uint8 with 1 <= N <= 256, got {plte.dtype} {plte.shape}")
+        if img.ndim != 2 or img.dtype != np.uint8:
+            raise ValueError(f"a palette image is (H, W) uint8 indices, got {img.dtype} {img.shape}")
+        if img.size and int(img.max()) >= len(plte):
+            raise ValueError(f"palette index {int(img.max())} beyond the {len(plte)} colours")
+        h, w = img.shape
+        colour_type, depth = 3, 8
+        filtered = np.concatenate([np.zeros((h, 1), np.uint8), img], axis=1)  # filter type None
+    else:
+        if img.ndim == 2:
+            img = img[:, :, None]
+        if img.ndim != 3 or img.shape[2] not in _COLOUR_TYPE or img.dtype not in (np.uint8, np.uint16):
+            raise ValueError(
+                f"expected an (H, W), (H, W, 3) or (H, W, 4) uint8 or uint16 image, got {img.dtype} {img.shape}"
+            )
+        h, w, channels = img.shape
+        colour_type, depth = _COLOUR_TYPE[channels], 8 if img.dtype == np.uint8 else 16
     if h == 0 or w == 0:
         raise ValueError("a PNG needs at least one pixel")
-    depth = 8 if img.dtype == np.uint8 else 16
-    raw = np.ascontiguousarray(img.astype(">u2") if depth == 16 else img).view(np.uint8).reshape(h, -1)
-    filtered = _filtered_rows(raw, channels * depth // 8)
+    if palette is None:
+        raw = np.ascontiguousarray(img.astype(">u2") if depth == 16 else img).view(np.uint8).reshape(h, -1)
+        filtered = _filtered_rows(raw, channels * depth // 8)
     from render import __version__
 
     metadata = {"Software": f"lampcast {__version__}", **{str(k): v for k, v in (text or {}).items()}}
     parts = [
         b"\x89PNG\r\n\x1a\n",
-        _chunk(b"IHDR", struct.pack(">IIBBBBB", w, h, depth, _COLOUR_TYPE[channels], 0, 0, 0)),
+        _chunk(b"IHDR", struct.pack(">IIBBBBB", w, h, depth, colour_type, 0, 0, 0)),
         _chunk(b"sRGB", b"\x00"),
+        *(() if palette is None else (_chunk(b"PLTE", np.ascontiguousarray(plte).tobytes()),)),
         *(_text_chunk(k, v) for k, v in metadata.items()),
-        _chunk(b"IDAT", zlib.compress(filtered.tobytes(), _ZLIB_LEVEL)),
+        _chunk(b"IDAT", zlib.compress(np.ascontiguousarray(filtered).tobytes(), _ZLIB_LEVEL)),
         _chunk(b"IEND", b""),
     ]
     return b"".join(parts)
@@ -191,10 +254,82 @@ def write_figure_png(
     fig: Any, path: str | os.PathLike, text: Mapping[str, Any] | None = None, *, dpi: float | None = None
 ) -> Path:
     """Write a matplotlib figure as a PNG through :func:`write_png` (RGB when the figure is
-    opaque, RGBA otherwise); returns the path."""
+    opaque, RGBA otherwise), marked a :data:`CHART` unless ``text`` says otherwise; returns the
+    path."""
     rgba = figure_pixels(fig, dpi)
     image = rgba[..., :3] if np.all(rgba[..., 3] == 255) else rgba
-    return write_png(path, image, text)
+    return write_png(path, image, {PICTURE_KEY: CHART, **(text or {})})
+
+
+def _frames_rgb(frames: Sequence[np.ndarray]) -> list[np.ndarray]:
+    out = [np.asarray(f) for f in frames]
+    if not out or any(f.ndim != 3 or f.shape[2] != 3 or f.dtype != np.uint8 or f.shape != out[0].shape for f in out):
+        raise ValueError("expected one or more (H, W, 3) uint8 frames of one size")
+    return out
+
+
+def gif_bytes(frames: Sequence[np.ndarray], duration_ms: int = 90, text: Mapping[str, Any] | None = None) -> bytes:
+    """An endlessly looping GIF89a of ``frames`` ((H, W, 3) uint8 sRGB, ``duration_ms`` each),
+    with ``Software`` and ``text`` as "key: value" lines of its comment."""
+    from PIL import Image
+
+    from render import __version__
+
+    images = [Image.fromarray(f) for f in _frames_rgb(frames)]
+    metadata = {"Software": f"lampcast {__version__}", **{str(k): v for k, v in (text or {}).items()}}
+    comment = "\n".join(f"{k}: {v}" for k, v in metadata.items()).encode("utf-8")
+    buf = io.BytesIO()
+    images[0].save(
+        buf, "GIF", save_all=True, append_images=images[1:], duration=int(duration_ms), loop=0, comment=comment
+    )
+    return buf.getvalue()
+
+
+def write_gif(
+    path: str | os.PathLike, frames: Sequence[np.ndarray], duration_ms: int = 90, text: Mapping[str, Any] | None = None
+) -> Path:
+    """Write :func:`gif_bytes` of ``frames`` atomically; returns the path."""
+    return atomic_write_bytes(path, gif_bytes(frames, duration_ms, text))
+
+
+def webp_bytes(image: np.ndarray, quality: int | None = None) -> bytes:
+    """A WebP of an (H, W, 3) uint8 sRGB image: lossless when ``quality`` is ``None``, else
+    lossy at that quality (0-100; libwebp codes colour at half resolution, 4:2:0). No metadata."""
+    from PIL import Image
+
+    (img,) = _frames_rgb([image])
+    buf = io.BytesIO()
+    Image.fromarray(img).save(buf, "WEBP", **_webp_options(quality))
+    return buf.getvalue()
+
+
+def animated_webp_bytes(frames: Sequence[np.ndarray], durations_ms: Sequence[int], quality: int | None = None) -> bytes:
+    """An endlessly looping animated WebP of ``frames`` ((H, W, 3) uint8 sRGB) shown for
+    ``durations_ms`` each; lossless when ``quality`` is ``None``, else lossy at that quality."""
+    from PIL import Image
+
+    images = [Image.fromarray(f) for f in _frames_rgb(frames)]
+    if len(durations_ms) != len(images):
+        raise ValueError(f"{len(images)} frames but {len(durations_ms)} durations")
+    buf = io.BytesIO()
+    images[0].save(
+        buf,
+        "WEBP",
+        save_all=True,
+        append_images=images[1:],
+        duration=[int(d) for d in durations_ms],
+        loop=0,
+        **_webp_options(quality),
+    )
+    return buf.getvalue()
+
+
+def _webp_options(quality: int | None) -> dict[str, Any]:
+    if quality is None:
+        return {"lossless": True, "quality": _WEBP_LOSSLESS_EFFORT, "method": WEBP_METHOD}
+    if not 0 <= quality <= 100:
+        raise ValueError(f"WebP quality must be 0-100, got {quality}")
+    return {"lossless": False, "quality": int(quality), "method": WEBP_METHOD}
 
 
 def fit_width(image: np.ndarray, max_width_px: int) -> np.ndarray:

@@ -63,8 +63,10 @@ def csp_hash(text: str) -> str:
     return "'sha256-" + base64.b64encode(hashlib.sha256(text.encode("utf-8")).digest()).decode("ascii") + "'"
 
 
-def render_report(metrics: ComparisonMetrics, out_dir: Path) -> str:
-    """The report's HTML text (see :func:`write_report`); images are read from ``out_dir``.
+def render_report(metrics: ComparisonMetrics, out_dir: Path, images: ImageFolder | None = None) -> str:
+    """The report's HTML text (see :func:`write_report`); images are read from ``out_dir``
+    (through ``images`` when given, whose :attr:`~ImageFolder.embedded` then tells how each was
+    embedded).
 
     Raises
     ------
@@ -72,7 +74,7 @@ def render_report(metrics: ComparisonMetrics, out_dir: Path) -> str:
         When an image the metrics name is missing, outside ``out_dir`` or not an image (all
         such problems listed together).
     """
-    images = ImageFolder(Path(out_dir))
+    images = ImageFolder(Path(out_dir)) if images is None else images
     page = build_page(metrics, images)
     if images.problems:
         raise ValueError("report images:\n" + "\n".join(images.problems))
@@ -87,7 +89,8 @@ def render_report(metrics: ComparisonMetrics, out_dir: Path) -> str:
 def write_report(out_dir: Path, metrics: ComparisonMetrics) -> Path:
     """Write ``out_dir/report.html`` (atomically) from the comparison's ``metrics``; return its path.
 
-    The image paths in ``metrics`` are relative to ``out_dir`` and are embedded as data URIs.
+    The image paths in ``metrics`` are relative to ``out_dir`` and are embedded as data URIs,
+    compactly (:func:`render.output.report.images.compact_image`); the files stay as they are.
     The same metrics and images give byte-identical output. To make the report again from a
     ``metrics.json``, pass ``ComparisonMetrics.from_json(json.load(file))``.
     """

@@ -11,6 +11,15 @@
       stage.style.setProperty('--pos', range.value + '%');
       range.setAttribute('aria-valuetext', 'divide at ' + range.value + '% of the width');
     }
+    // The left layer's copy of the first right-hand picture is written once, in the right layer.
+    Array.prototype.forEach.call(fig.querySelectorAll('.left-layer img[data-copy]'), function (im) {
+      var mode = im.classList.contains('adapted') ? 'adapted' : 'shared';
+      var source = fig.querySelector('.after-layer img.' + mode);
+      if (source) {
+        im.src = source.src;
+        im.removeAttribute('data-copy');
+      }
+    });
     var left = fig.querySelector('select.pick-left');
     var right = fig.querySelector('select.pick-right');
     function label(select) { return select.options[select.selectedIndex].text; }
