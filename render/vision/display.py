@@ -164,7 +164,10 @@ def linear_srgb_to_xyz(rgb: npt.ArrayLike) -> np.ndarray:
 def srgb_encode(linear: npt.ArrayLike) -> np.ndarray:
     """IEC 61966-2-1 sRGB transfer curve (input clipped to [0, 1])."""
     x = np.clip(np.asarray(linear, dtype=np.float64), 0.0, 1.0)
-    return np.where(x <= 0.0031308, 12.92 * x, 1.055 * np.power(x, 1.0 / 2.4) - 0.055)
+    out = np.asarray(12.92 * x)
+    curve = x > 0.0031308  # the power law only where it applies
+    out[curve] = 1.055 * np.power(x[curve], 1.0 / 2.4) - 0.055
+    return out
 
 
 def srgb_decode(encoded: npt.ArrayLike) -> np.ndarray:
@@ -180,10 +183,6 @@ def quantise(encoded: npt.ArrayLike, bits: int) -> np.ndarray:
     top = (1 << bits) - 1
     out = np.rint(np.clip(np.asarray(encoded, dtype=np.float64), 0.0, 1.0) * top)
     return out.astype(np.uint8 if bits == 8 else np.uint16)
-
-
-def _in_gamut(rgb, tol):
-    return np.all((rgb >= -tol) & (rgb <= 1.0 + tol), axis=-1)
 
 
 #: Pixels per block of the gamut-mapping kernel: each block's bisection runs one step for all
@@ -248,15 +247,49 @@ def _gamut_kernel(lab, to_lms, to_xyz, to_rgb, iterations, tol, out):
             out[start + j, 2] = r2
 
 
+@numba.njit(cache=True, nogil=True, parallel=True)
+def _rgb_and_gamut(xyz, to_rgb, tol, rgb, outside):
+    """Linear sRGB of each XYZ (one multiply-add chain per channel) and whether it lies
+    outside the sRGB cube by more than ``tol``."""
+    top = 1.0 + tol
+    for i in numba.prange(xyz.shape[0]):
+        x = xyz[i, 0]
+        y = xyz[i, 1]
+        z = xyz[i, 2]
+        r0 = to_rgb[0, 0] * x + to_rgb[0, 1] * y + to_rgb[0, 2] * z
+        r1 = to_rgb[1, 0] * x + to_rgb[1, 1] * y + to_rgb[1, 2] * z
+        r2 = to_rgb[2, 0] * x + to_rgb[2, 1] * y + to_rgb[2, 2] * z
+        rgb[i, 0] = r0
+        rgb[i, 1] = r1
+        rgb[i, 2] = r2
+        outside[i] = not ((r0 >= -tol) & (r0 <= top) & (r1 >= -tol) & (r1 <= top) & (r2 >= -tol) & (r2 <= top))
+
+
+@numba.njit(cache=True, nogil=True)
+def _place_and_clip(rgb, outside, mapped):
+    """Put the mapped colours in place of the ones outside (in order), clip all to [0, 1]."""
+    j = 0
+    for i in range(rgb.shape[0]):
+        if outside[i]:
+            for c in range(3):
+                rgb[i, c] = mapped[j, c]
+            j += 1
+        for c in range(3):
+            rgb[i, c] = min(max(rgb[i, c], 0.0), 1.0)
+
+
 def gamut_map_oklab(xyz: npt.ArrayLike, iterations: int = 30, tol: float = 1e-9) -> tuple[np.ndarray, np.ndarray]:
     """Linear sRGB in [0, 1] for relative XYZ, out-of-gamut colours mapped at constant Oklab
     lightness and hue (chroma reduced by bisection; Ottosson 2020's space, the constant-hue
     chroma reduction of CSS Color 4). Returns ``(rgb, was_out_of_gamut)``."""
     xyz = np.asarray(xyz, dtype=np.float64)
-    rgb = xyz_to_linear_srgb(xyz)
-    out = ~_in_gamut(rgb, tol)
+    flat = np.ascontiguousarray(xyz.reshape(-1, 3))
+    rgb = np.empty_like(flat)
+    out = np.empty(flat.shape[0], dtype=np.bool_)
+    _rgb_and_gamut(flat, np.ascontiguousarray(_constants()[0]), float(tol), rgb, out)
+    mapped = np.empty((0, 3))
     if np.any(out):
-        lab = np.ascontiguousarray(xyz_to_oklab(xyz[out]))
+        lab = np.ascontiguousarray(xyz_to_oklab(flat[out]))
         mapped = np.empty_like(lab)
         _gamut_kernel(
             lab,
@@ -267,5 +300,5 @@ def gamut_map_oklab(xyz: npt.ArrayLike, iterations: int = 30, tol: float = 1e-9)
             float(tol),
             mapped,
         )
-        rgb[out] = mapped
-    return np.clip(rgb, 0.0, 1.0), out
+    _place_and_clip(rgb, out, mapped)
+    return rgb.reshape(xyz.shape), out.reshape(xyz.shape[:-1])
