@@ -109,6 +109,7 @@ References
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field, fields, replace
 from functools import lru_cache
@@ -514,12 +515,23 @@ def ring_background(
         raise ValueError("mask and luminance must have one shape")
     if not m.any():
         return None, 0
-    d = distance_transform_edt(~m)
+    # The ring lies within width_px of the mask: the distances there are the same over the
+    # mask's bounding box widened by that much as over the whole image, and the ring's pixels
+    # come in the same order.
+    box: tuple[slice, slice] = (slice(None), slice(None))
+    if math.isfinite(float(width_px)):
+        reach = int(math.ceil(float(width_px))) + 1
+        rows, cols = np.flatnonzero(m.any(axis=1)), np.flatnonzero(m.any(axis=0))
+        box = (
+            slice(max(int(rows[0]) - reach, 0), int(rows[-1]) + reach + 1),
+            slice(max(int(cols[0]) - reach, 0), int(cols[-1]) + reach + 1),
+        )
+    d = distance_transform_edt(~m[box])
     ring = (d > 0) & (d <= float(width_px))
     if exclude is not None:
-        ring &= ~np.asarray(exclude, dtype=bool)
+        ring &= ~np.asarray(exclude, dtype=bool)[box]
     n = int(ring.sum())
-    return (float(lum[ring].mean()) if n else None), n
+    return (float(lum[box][ring].mean()) if n else None), n
 
 
 def luminance_contrast(object_luminance: ArrayLike, background_luminance: ArrayLike) -> float | np.ndarray:

@@ -112,17 +112,24 @@ def tagged_objects(study: Study) -> list[TaggedObject]:
     return objects
 
 
-def main_surface_pixels(study: Study, rendered: RenderedView) -> dict[int, int]:
-    """Tagged object id -> number of pixels showing only its main surface in ``rendered``."""
-    ids = pixel_main_surface_ids(rendered.buffers, main_material_indices(study))
+def main_surface_pixels(study: Study, rendered: RenderedView, surface_ids: np.ndarray | None = None) -> dict[int, int]:
+    """Tagged object id -> number of pixels showing only its main surface in ``rendered``
+    (``surface_ids``: its :func:`pixel_main_surface_ids`, if already made)."""
+    ids = pixel_main_surface_ids(rendered.buffers, main_material_indices(study)) if surface_ids is None else surface_ids
     counts = np.bincount(ids[ids >= 0].ravel(), minlength=len(study.mesh.objects))
     return {i: int(counts[i]) for i, o in enumerate(study.mesh.objects) if o.inspect}
 
 
-def best_views(study: Study, views: Mapping[str, RenderedView], view: str | None = None) -> dict[int, str]:
+def best_views(
+    study: Study,
+    views: Mapping[str, RenderedView],
+    view: str | None = None,
+    surface_ids: Mapping[str, np.ndarray] | None = None,
+) -> dict[int, str]:
     """Tagged object id -> the view it is analysed in: ``view`` for every object when given,
     else the view showing most pixels of the object's main surface (the first such view on a
-    tie, the first view when no view shows it)."""
+    tie, the first view when no view shows it). ``surface_ids``: each view's
+    :func:`pixel_main_surface_ids`, if already made."""
     names = list(views)
     if not names:
         raise ValueError("no views to choose from")
@@ -130,7 +137,8 @@ def best_views(study: Study, views: Mapping[str, RenderedView], view: str | None
         if view not in views:
             raise ValueError(f"view {view!r} is not among the rendered views {names}")
         return {i: view for i, o in enumerate(study.mesh.objects) if o.inspect}
-    counts = {name: main_surface_pixels(study, r) for name, r in views.items()}
+    surface_ids = surface_ids or {}
+    counts = {name: main_surface_pixels(study, r, surface_ids.get(name)) for name, r in views.items()}
     return {k: max(names, key=lambda n: (counts[n][k], -names.index(n))) for k in counts[names[0]]}
 
 
@@ -140,13 +148,15 @@ def _setup_views(
     displays: Sequence[DisplayResult],
     observer: ObserverSettings,
     tagged: np.ndarray,
+    object_id: np.ndarray | None = None,
 ) -> list[SetupView]:
     """One :class:`SetupView` per setup of one view: main-surface pixels as object ids, the
     luminous openings and the tagged objects' other surfaces (glass, tyres) never background."""
     from render.vision.view import ViewGeometry
 
     buffers = rendered[0].buffers
-    object_id = pixel_main_surface_ids(buffers, main_material_indices(study))
+    if object_id is None:
+        object_id = pixel_main_surface_ids(buffers, main_material_indices(study))
     other_surfaces = np.isin(pixel_object_ids(buffers), tagged) & (object_id < 0)
     out = []
     for r, d in zip(rendered, displays):
@@ -176,11 +186,17 @@ def analyse_colours(
     (:func:`best_views`). The record's objects name the view each was analysed in."""
     scene_view = study.scene.colour_view
     chosen = view if view is not None else (scene_view if scene_view in views else None)
-    where = best_views(study, {name: r[0] for name, (r, _) in views.items()}, chosen)
+    main = main_material_indices(study)
+    surface_ids = {
+        name: pixel_main_surface_ids(r[0].buffers, main)
+        for name, (r, _) in views.items()
+        if chosen is None or name == chosen
+    }
+    where = best_views(study, {name: r[0] for name, (r, _) in views.items()}, chosen, surface_ids)
     objects = tagged_objects(study)
     tagged = np.array([o.id for o in objects], dtype=np.int32)
     used = [name for name in views if name in where.values()]
-    per_view = {name: _setup_views(study, *views[name], observer, tagged) for name in used}
+    per_view = {name: _setup_views(study, *views[name], observer, tagged, surface_ids[name]) for name in used}
     setups = {label: {o.id: per_view[where[o.id]][j] for o in objects} for j, label in enumerate(labels)}
     return colour_analysis(objects, setups, object_views=where)
 
