@@ -855,7 +855,7 @@ def run_comparison(
                 lamps[lamp_id] = LampFigures.from_json(f.to_json())
     metrics = ComparisonMetrics(
         tool=ToolInfo("lampcast", __version__),
-        scene=SceneInfo(scene.name, scene.description, "", scene.path.name, study.scene_sha256),
+        scene=SceneInfo(scene.name, scene.description, "", scene.path.name, study.scene_sha256, scene.attribution),
         observer=ObserverInfo.of(observer),
         settings=RenderSettings(spp, seed, camera.width_px, camera.height_px),
         setups=descriptions,

@@ -128,6 +128,8 @@ class SceneInfo:
     notes: str
     file: str
     sha256: str
+    #: ``[scene] attribution`` (e.g. a map licence), shown in the report's footer; "" for none.
+    attribution: str = ""
 
     def to_json(self) -> dict[str, Any]:
         return _fields_json(self)

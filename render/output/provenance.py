@@ -33,7 +33,7 @@ def view_metadata(study: Study, view: str, mode: str, seed: int, spp: int) -> di
     seed and samples per pixel. No timestamps, so reruns are identical."""
     from render import __version__
 
-    return {
+    meta = {
         "Software": f"lampcast {__version__}",
         "lampcast.scene": study.scene.path.name,
         "lampcast.scene_sha256": study.scene_sha256,
@@ -42,6 +42,9 @@ def view_metadata(study: Study, view: str, mode: str, seed: int, spp: int) -> di
         "lampcast.seed": str(seed),
         "lampcast.samples_per_pixel": str(spp),
     }
+    if study.scene.attribution:  # the scene's data require it (e.g. a map licence): [scene] attribution
+        meta["lampcast.attribution"] = study.scene.attribution
+    return meta
 
 
 def image_metadata(

@@ -152,6 +152,7 @@ SCENE_INFO = {
     "name": Field("str", default="untitled street"),
     "description": Field("str", default=""),
     "notes": Field("str", default=""),
+    "attribution": Field("str", default="", help="the attribution the scene's data require, carried into outputs"),
 }
 
 SIDE_SPEC = {
@@ -1533,6 +1534,7 @@ def load_scene_document(doc: dict, path: str | os.PathLike, *, strict_paths: boo
         path=path,
         name=info["name"],
         description=info["description"],
+        attribution=info["attribution"] or "",
         street=street,
         frontages=frontages,
         objects=objects,

@@ -315,6 +315,9 @@ class Scene:
     #: ``[calc]`` and ``[energy]``: calculation defaults and the site's energy figures.
     calc: CalcSettings = field(default_factory=CalcSettings)
     energy: EnergySettings = field(default_factory=EnergySettings)
+    #: ``[scene] attribution``: what the scene's data require outputs to carry (e.g. a map
+    #: licence), written into image metadata and the report; "" for none.
+    attribution: str = ""
     #: ``[[roads]]``: roads along polylines (render.geometry.roads).
     roads: list[Road] = field(default_factory=list)
 
