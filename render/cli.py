@@ -45,6 +45,7 @@ __all__ = [
     "cmd_colours",
     "cmd_compare",
     "cmd_demo",
+    "cmd_import_map",
     "cmd_lamps",
     "cmd_materials",
     "cmd_photometry",
@@ -449,6 +450,29 @@ def cmd_colours(args: argparse.Namespace) -> int:
     print(format_confusions(result))
     for path in written:
         print(path)
+    return 0
+
+
+# --- import-map --------------------------------------------------------------------------------
+
+
+def cmd_import_map(args: argparse.Namespace) -> int:
+    from render.mapdata.importer import import_map, parse_centre
+
+    try:
+        centre = parse_centre(args.centre)
+    except ValueError as err:
+        raise input_error("--centre", "", str(err)) from None
+    result = import_map(
+        args.extract, centre, args.radius_m, args.out, name=args.name, attribution=args.attribution or None
+    )
+    if args.json:
+        _print_json({"scene": result.path, "counts": result.counts, "left_out": result.left_out})
+    else:
+        counts = ", ".join(f"{n} {k}" for k, n in result.counts.items())
+        _note(args, f"wrote {result.path}: {counts}")
+        for reason, n in sorted(result.left_out.items()):
+            _note(args, f"left out: {n} {reason}")
     return 0
 
 
@@ -920,6 +944,20 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--csv", metavar="DIR", help="also write one CSV of grid values per field and setup")
     p.add_argument("--pictures", metavar="DIR", help="also write the isolux plan, heat map and bar chart PNGs")
     p.set_defaults(func=cmd_calc)
+
+    p = sub.add_parser(
+        "import-map", help="an editable scene from an OpenStreetMap extract (.osm, .osm.pbf) around a centre"
+    )
+    p.add_argument("extract", help="the map extract (.osm XML or .osm.pbf)")
+    p.add_argument("--centre", required=True, metavar="LAT,LON", help="centre of the scene, degrees (WGS84)")
+    p.add_argument("--radius-m", type=float, required=True, metavar="R", help="radius of the scene, m (1 to 5000)")
+    p.add_argument("--out", required=True, metavar="SCENE.toml", help="the scene file to write")
+    p.add_argument("--name", help="the scene's name (default: the extract's file name)")
+    p.add_argument(
+        "--attribution",
+        help="the data's attribution carried into outputs (default: © OpenStreetMap contributors, ODbL)",
+    )
+    p.set_defaults(func=cmd_import_map)
 
     p = sub.add_parser("study", help="a design study: scene variants x setups on Dask, ranked, in one table")
     p.add_argument("study", help="study file (TOML; see scenes/README.md)")

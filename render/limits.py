@@ -34,6 +34,7 @@ __all__ = [
     "MAX_IMAGE_SIDE_PX",
     "MAX_LM63_ANGLES",
     "MAX_LM63_TILT_ANGLES",
+    "MAX_MAP_FEATURES",
     "MAX_MARKING_DASHES",
     "MAX_PLAN_POINTS",
     "MAX_POLYGON_VERTICES",
@@ -104,6 +105,10 @@ MAX_TABLE_WAVELENGTH_NM = 100_000.0
 """Largest wavelength a lamp or material table may hold, nm (100 µm, far beyond any
 spectroradiometer); with it the integrals over a table stay finite in double precision."""
 
+MAX_MAP_FEATURES = 100_000
+"""Buildings, roads, trees, lamps, hedges and walls ``lampcast import-map`` keeps from one
+extract (a dense town centre of 1 km radius has some 10 000)."""
+
 MAX_PROBLEMS_PER_FILE = 10
 """Problems a line-by-line reader reports for one file before it skips the rest of the file."""
 
@@ -116,6 +121,7 @@ FILE_SIZE_LIMITS_BYTES: dict[str, int] = {
     "material file": 4 * MiB,
     "OBJ file": 1024 * MiB,
     "mesh file": 1024 * MiB,
+    "map extract": 1024 * MiB,
 }
 """Largest input file of each kind lampcast reads; the key is the kind named in messages."""
 
