@@ -66,8 +66,11 @@ def highlight_rolloff(y: npt.ArrayLike, knee: float = HIGHLIGHT_KNEE) -> np.ndar
     y = np.asarray(y, dtype=np.float64)
     if knee >= 1.0:
         return np.minimum(y, 1.0)
-    over = np.maximum(y - knee, 0.0)
-    return np.where(y <= knee, y, knee + (1.0 - knee) * (1.0 - np.exp(-over / (1.0 - knee))))
+    out = np.array(y)
+    above = y > knee  # the exponential only where it applies
+    over = y[above] - knee
+    out[above] = knee + (1.0 - knee) * (1.0 - np.exp(-over / (1.0 - knee)))
+    return out
 
 
 def to_display_relative(
@@ -81,5 +84,6 @@ def to_display_relative(
     xyz = np.asarray(xyz_cd_m2, dtype=np.float64) * (scale / display_peak_cd_m2)
     y = xyz[..., 1]
     y_new = np.minimum(y, 1.0) if knee is None else highlight_rolloff(y, knee)
-    ratio = np.divide(y_new, y, out=np.ones_like(y), where=y > 0)
-    return xyz * ratio[..., None]
+    changed = (y_new != y) & (y > 0)  # elsewhere the ratio is 1: the colour stays as it is
+    xyz[changed] *= (y_new[changed] / y[changed])[:, None]
+    return xyz
