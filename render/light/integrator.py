@@ -138,6 +138,48 @@ def _intensity(lights_rot, c_grid, g_grid, n_c, n_g, cd, k, t, dx, dy, dz):
     return intensity_lookup(c_grid[t, : n_c[t]], g_grid[t, : n_g[t]], cd[t, : n_c[t], : n_g[t]], c, g)
 
 
+@numba.njit(cache=True, nogil=True, inline="always")
+def _cell(grid, t, n, inv_step, x):
+    """``render.light.photometry.kernels._bracket`` on row t of a padded grid of n values, for
+    x strictly inside it: the same cell (the one i with grid[i] <= x < grid[i + 1]) found from a
+    guess on an even spacing and corrected, and the same fraction."""
+    i = int((x - grid[t, 0]) * inv_step)
+    i = min(max(i, 0), n - 2)
+    while i > 0 and grid[t, i] > x:
+        i -= 1
+    while i < n - 2 and grid[t, i + 1] <= x:
+        i += 1
+    return i, (x - grid[t, i]) / (grid[t, i + 1] - grid[t, i])
+
+
+@numba.njit(cache=True, nogil=True, inline="always")
+def _intensity_fast(rot, c_grid, g_grid, n_c, n_g, inv_c, inv_g, cd, k, t, dx, dy, dz):
+    """:func:`_intensity`, with the table cells found by :func:`_cell`: the same value to the bit."""
+    c, g = direction_to_c_gamma(rot[k], dx, dy, dz)
+    ng = n_g[t]
+    if not (g >= g_grid[t, 0] - 1e-9 and g <= g_grid[t, ng - 1] + 1e-9):
+        return 0.0
+    nc = n_c[t]
+    cc = c % 360.0
+    if cc < 0.0:
+        cc += 360.0
+    if cc <= c_grid[t, 0]:
+        i, u = 0, 0.0
+    elif cc >= c_grid[t, nc - 1]:
+        i, u = nc - 2, 1.0
+    else:
+        i, u = _cell(c_grid, t, nc, inv_c[t], cc)
+    if g <= g_grid[t, 0]:
+        j, v = 0, 0.0
+    elif g >= g_grid[t, ng - 1]:
+        j, v = ng - 2, 1.0
+    else:
+        j, v = _cell(g_grid, t, ng, inv_g[t], g)
+    a = (1.0 - v) * cd[t, i, j] + v * cd[t, i, j + 1]
+    b = (1.0 - v) * cd[t, i + 1, j] + v * cd[t, i + 1, j + 1]
+    return (1.0 - u) * a + u * b
+
+
 @numba.njit(cache=True, nogil=True)
 def _cell_of(x, y, z, box, cell, nx, ny):
     """Cell index of a point, or -1 outside the grid's box ``(x0, y0, z_lo, z_hi)`` (every
@@ -187,10 +229,11 @@ def _cell_lists(x0, y0, cell, nx, ny, z_lo, z_hi, pos, tilt_abs, table, scale, g
             out_mask[ci, k] = bound >= eps
 
 
-@numba.njit(cache=True, nogil=True)
-def _unshadowed(px, py, pz, nx_, ny_, nz_, k, rot, pos, scale, table, c_grid, g_grid, n_c, n_g, cd):
+@numba.njit(cache=True, nogil=True, inline="always")
+def _unshadowed(px, py, pz, nx_, ny_, nz_, k, lum):
     """Luminaire k's unshadowed illuminance (lx) at a point with unit normal n, and the
     distance to it; (0, 0) when it is behind the surface or at the point."""
+    rot, pos, scale, table, c_grid, g_grid, n_c, n_g, inv_c, inv_g, cd, channel, clearance = lum
     dx = px - pos[k, 0]
     dy = py - pos[k, 1]
     dz = pz - pos[k, 2]
@@ -201,40 +244,17 @@ def _unshadowed(px, py, pz, nx_, ny_, nz_, k, rot, pos, scale, table, c_grid, g_
     cos_s = -(nx_ * dx + ny_ * dy + nz_ * dz) / d
     if cos_s <= 0.0:
         return 0.0, 0.0
-    inten = _intensity(rot, c_grid, g_grid, n_c, n_g, cd, k, table[k], dx, dy, dz)
+    inten = _intensity_fast(rot, c_grid, g_grid, n_c, n_g, inv_c, inv_g, cd, k, table[k], dx, dy, dz)
     return scale[k] * inten * cos_s / d2, d
 
 
 @numba.njit(cache=True, nogil=True, parallel=True)
-def _candidates(
-    points,
-    normals,
-    active,
-    rot,
-    pos,
-    scale,
-    table,
-    c_grid,
-    g_grid,
-    n_c,
-    n_g,
-    cd,
-    clearance,
-    box,
-    cell,
-    nx,
-    ny,
-    cell_start,
-    cell_items,
-    eps,
-    counts,
-    out_lum,
-    out_e,
-    out_dir,
-    out_tmax,
-):
+def _candidates(points, normals, active, lum, grid, eps, counts, out_lum, out_e, out_dir, out_tmax):
     """Per point, the luminaires whose unshadowed contribution reaches ``eps``: written to row
-    ``i`` of the (N, K) outputs, their number to ``counts[i]``."""
+    ``i`` of the (N, K) outputs, their number to ``counts[i]`` (``lum`` and ``grid`` as for
+    :func:`_direct_light`)."""
+    rot, pos, scale, table, c_grid, g_grid, n_c, n_g, inv_c, inv_g, cd, channel, clearance = lum
+    box, cell, nx, ny, cell_start, cell_items = grid
     N = points.shape[0]
     for i in prange(N):
         counts[i] = 0
@@ -249,24 +269,7 @@ def _candidates(
         w = 0
         for q in range(q0, q1):
             k = cell_items[q] if ci >= 0 else q
-            e, d = _unshadowed(
-                px,
-                py,
-                pz,
-                normals[i, 0],
-                normals[i, 1],
-                normals[i, 2],
-                k,
-                rot,
-                pos,
-                scale,
-                table,
-                c_grid,
-                g_grid,
-                n_c,
-                n_g,
-                cd,
-            )
+            e, d = _unshadowed(px, py, pz, normals[i, 0], normals[i, 1], normals[i, 2], k, lum)
             if e < eps or d == 0.0:
                 continue
             out_lum[i, w] = k
@@ -361,7 +364,7 @@ def _direct_light(
     white diffuser's luminance; 1: illuminance), ``out_spec[i, c]`` the specular layer's
     luminance (when ``out_spec`` has rows). The sums run over the luminaires in index order,
     in float64."""
-    rot, pos, scale, table, c_grid, g_grid, n_c, n_g, cd, channel, clearance = lum
+    rot, pos, scale, table, c_grid, g_grid, n_c, n_g, inv_c, inv_g, cd, channel, clearance = lum
     box, cell, nx, ny, cell_start, cell_items = grid
     n = points.shape[0]
     n_ch = out_value.shape[1]
@@ -409,24 +412,7 @@ def _direct_light(
             start = w
             for q in range(q0, q1):
                 k = cell_items[q] if ci >= 0 else q
-                e, d = _unshadowed(
-                    px,
-                    py,
-                    pz,
-                    normals[i, 0],
-                    normals[i, 1],
-                    normals[i, 2],
-                    k,
-                    rot,
-                    pos,
-                    scale,
-                    table,
-                    c_grid,
-                    g_grid,
-                    n_c,
-                    n_g,
-                    cd,
-                )
+                e, d = _unshadowed(px, py, pz, normals[i, 0], normals[i, 1], normals[i, 2], k, lum)
                 if e < eps or d == 0.0:
                     continue
                 lx = -(px - pos[k, 0]) / d
@@ -634,10 +620,21 @@ def _luminaire_args(lights: LuminaireSet) -> tuple:
         lights.g_grid,
         lights.n_c,
         lights.n_g,
+        _inverse_step(lights.c_grid, lights.n_c),
+        _inverse_step(lights.g_grid, lights.n_g),
         lights.cd_table,
         lights.channel,
         _clearance(lights),
     )
+
+
+def _inverse_step(grid: np.ndarray, n: np.ndarray) -> np.ndarray:
+    """Per table row, 1 / the mean spacing of its n values (the guess of :func:`_cell`)."""
+    out = np.ones(grid.shape[0])
+    for t in range(grid.shape[0]):
+        span = grid[t, n[t] - 1] - grid[t, 0] if n[t] > 1 else 0.0
+        out[t] = (n[t] - 1) / span if span > 0.0 else 0.0
+    return out
 
 
 _NO_TREE = (
@@ -727,22 +724,8 @@ def direct_pairs(
         pts,
         nrm,
         act,
-        lights.rotation,
-        lights.position_m,
-        lights.scale,
-        lights.table,
-        lights.c_grid,
-        lights.g_grid,
-        lights.n_c,
-        lights.n_g,
-        lights.cd_table,
-        _clearance(lights),
-        box,
-        cell,
-        gnx,
-        gny,
-        start,
-        items,
+        _luminaire_args(lights),
+        grid.kernel_args(),
         float(negligible_lx),
         counts,
         lum_k,
@@ -1239,7 +1222,7 @@ def render_buffers(
     if keep_geometry:
         buffers.geometry = _empty_geometry(buffers.n_samples)
     light = _LightPass(buffers, lights, bvh, negligible_lx)
-    for tile in _cast_tiles(rays, spp, progress=progress, label="render"):
+    for tile in _cast_tiles(rays, spp, progress=progress):
         i = tile.index
         buffers.response[i] = tile.response
         buffers.object_id[i] = tile.object_id
