@@ -4,6 +4,7 @@
 * ``light`` -- full render vs relight, luminaire-count scaling, 1 nm vs 5 nm (:mod:`render.bench.light`).
 * ``calc`` -- a full calculation of a scene vs one view's render (:mod:`render.bench.calc`).
 * ``report`` -- report.html's size, bytes per embedded image kind, figure drawing time (:mod:`render.bench.report`).
+* ``peer`` -- a direct-light render against Mitsuba 3, side by side (:mod:`render.bench.peer`).
 * ``study`` -- design-study throughput on 1 and 2 Dask workers (:mod:`render.bench.study`).
 * ``startup`` -- quick commands as new processes, a 1M-triangle OBJ, a cold demo (:mod:`render.bench.startup`).
 * ``vision`` -- the vision stage of a comparison, glare optics shared vs per image (:mod:`render.bench.vision`).
@@ -14,7 +15,7 @@ from __future__ import annotations
 import argparse
 import sys
 
-from render.bench import calc, light, rays, report, startup
+from render.bench import calc, light, peer, rays, report, startup
 from render.bench import study as study_bench
 from render.bench import vision as vision_bench
 
@@ -26,6 +27,7 @@ def build_parser() -> argparse.ArgumentParser:
     light.add_parser(sub)
     calc.add_parser(sub)
     report.add_parser(sub)
+    peer.add_parser(sub)
     study_bench.add_parser(sub)
     startup.add_parser(sub)
     vision_bench.add_parser(sub)

@@ -9,12 +9,17 @@
   frontage pattern repeated), seen from the same viewpoint -- the real case of a long street,
   where far luminaires are skipped because their contribution is provably negligible;
 * colorimetry on 5 nm vs 1 nm grids (goal <= 1.1×): the per-pixel cost does not depend on the
-  number of wavelength bins, only the small response table does.
+  number of wavelength bins, only the small response table does;
+* with ``--memory``: the peak resident memory of :meth:`render.study.Study.render_view` of the
+  same view at 1920×1080 and 3840×2160 (4 samples per pixel; goals <= 1 GB and <= 3 GB), each in
+  a fresh process (``resource.getrusage``), so that nothing else in this one counts.
 """
 
 from __future__ import annotations
 
 import copy
+import subprocess
+import sys
 from pathlib import Path
 
 import numpy as np
@@ -70,16 +75,42 @@ def long_street(scene, n_luminaires: int, spacing_m: float = 28.0):
 
 
 def _render(study, camera, spp, seed, step_nm=1):
-    from render.light.integrator import cast_view, evaluate_light
+    from render.light.integrator import render_buffers
     from render.light.luminaires import channel_factors, luminaire_set
 
     lights = luminaire_set(study.scene)
-    buffers = cast_view(study.mesh, study.bvh, lights, camera, spp, seed)
-    evaluate_light(buffers, lights, study.bvh)
+    buffers = render_buffers(study.mesh, study.bvh, lights, camera, spp, seed)
     factors, lamps = channel_factors(lights)
     from render.colour.colorimetry import resolve
 
     return buffers, lights, resolve(buffers, factors, study.lamp_spds(lamps), study.reflectances, step_nm)
+
+
+#: Render sizes and memory goals (bytes) of ``--memory``.
+MEMORY_SIZES = ((1920, 1080, 1e9), (3840, 2160, 3e9))
+
+_MEMORY_SCRIPT = """
+import resource, sys, time
+from render.study import Study
+study = Study(sys.argv[1])
+view = sys.argv[2] if sys.argv[2] != "-" else None
+t = time.perf_counter()
+study.render_view(view, width_px=int(sys.argv[3]), samples_per_pixel=int(sys.argv[4]))
+print(time.perf_counter() - t, resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * 1024)
+"""
+
+
+def peak_memory(scene: str, view: str | None, width_px: int, spp: int) -> tuple[float, int]:
+    """Seconds and peak resident bytes of one ``render_view`` in a fresh Python process (Linux
+    reports ``ru_maxrss`` in KiB)."""
+    run = subprocess.run(
+        [sys.executable, "-c", _MEMORY_SCRIPT, scene, view or "-", str(width_px), str(spp)],
+        capture_output=True,
+        text=True,
+        check=True,
+    )
+    seconds, peak = run.stdout.split()[-2:]
+    return float(seconds), int(peak)
 
 
 def cmd_light(args) -> int:
@@ -141,6 +172,13 @@ def cmd_light(args) -> int:
     t, _ = interleaved({n: (lambda st=st: _render(st, camera, args.spp, 0)) for n, st in studies.items()}, args.repeat)
     print(f"render with 10 luminaires: {t[10].text()} s; with 100: {t[100].text()} s")
     print(f"100 / 10 luminaires = {ratios(t[100], t[10]).text(1, '.2f')} (goal <= 3)")
+    if args.memory:
+        for width, height, goal in MEMORY_SIZES:
+            seconds, peak = peak_memory(args.scene, args.view, width, args.spp)
+            print(
+                f"peak memory of render_view at {width}x{height}, {args.spp} samples/px: {peak / 1e9:.2f} GB "
+                f"(goal <= {goal / 1e9:.0f} GB; {seconds:.1f} s, one run in a fresh process)"
+            )
     return 0
 
 
@@ -154,4 +192,5 @@ def add_parser(sub) -> None:
     p.add_argument(
         "--repeat", type=int, default=3, help="rounds per measurement (default 3, at least 3 for the fast ones)"
     )
+    p.add_argument("--memory", action="store_true", help="also the peak memory of a 1920x1080 and a 3840x2160 render")
     p.set_defaults(func=cmd_light)
