@@ -153,6 +153,10 @@ def test_mistakes_are_left_to_the_statement_reader():
         "f 1 2 99999999999999999999999\n",  # beyond int64 (numpy saturates; out of range either way)
         "f 1 2 -99999999999999999999999\n",
         "f 1 2 0003\nf -1 -2 +1\n",  # leading zeros and signs: read as int() reads them
+        "v v 1 2\nf 1 2 3\n",  # a keyword where a number belongs
+        "vn vn 0 1\nf 1//1 2//1 3//1\n",
+        "v 1 1 1 1\nv 2 2\nf 1 2 3\n",  # counts that add up to whole statements
+        "f 1 2 3\nv 0 0 1\nf 1 2 5\nvn 1 0 0\nf 1//2 2//1 3//2\n",  # statements interleaved
     ]:
         _assert_same(*_both(base + tail))
 

@@ -338,6 +338,14 @@ def _int_tokens(raw: bytes, expected: int) -> np.ndarray:
 def _numbers(lines: list[str], key_chars: int, allowed: tuple[int, ...]) -> tuple[np.ndarray, np.ndarray]:
     """The numbers of statements whose keyword is ``key_chars`` long: (all numbers in order,
     count per statement), every count one of ``allowed``."""
+    n = len(lines)
+    if n:  # every statement with the first allowed count: the keywords fall every count + 1 tokens
+        tokens = "\n".join(lines).split()
+        stride = allowed[0] + 1
+        if len(tokens) == stride * n and tokens[::stride].count(lines[0][:key_chars]) == n:
+            # A keyword is no number, so the n keywords are exactly these tokens.
+            del tokens[::stride]
+            return _floats(tokens), np.full(n, allowed[0], dtype=np.int64)
     body = "\n".join([line[key_chars:] for line in lines])
     counts, _ = _tokens_per_line(body.encode("ascii"), len(lines))
     if not np.all(np.isin(counts, allowed)):
@@ -412,6 +420,13 @@ def _read_fast(
         return None
 
 
+def _lines_at(lines: list[str], at: np.ndarray) -> list[str]:
+    """``lines[i] for i in at`` (a slice when they follow one another)."""
+    if at.size and at[-1] - at[0] + 1 == at.size:
+        return lines[int(at[0]) : int(at[-1]) + 1]
+    return [lines[i] for i in at]
+
+
 def _read_plain(text, s, max_vertices, max_triangles, max_face, max_coordinate, slot_map, default_slot):
     if "\r" in text:
         text = text.replace("\r\n", "\n").replace("\r", "\n")  # line numbers as _statements counts them
@@ -440,16 +455,16 @@ def _read_plain(text, s, max_vertices, max_triangles, max_face, max_coordinate, 
         raise _Unusual
 
     v_lines = np.flatnonzero(is_v)
-    values, counts = _numbers([lines[i] for i in v_lines], 1, (3, 4, 6, 7))
+    values, counts = _numbers(_lines_at(lines, v_lines), 1, (3, 4, 6, 7))
     with np.errstate(over="ignore"):  # an overflow is beyond the coordinate limit below
         vertices = _first_three(values, counts) * s
     if not np.all(np.abs(vertices) <= max_coordinate):
         raise _Unusual
-    values, _ = _numbers([lines[i] for i in np.flatnonzero(is_vn)], 2, (3,))
+    values, _ = _numbers(_lines_at(lines, np.flatnonzero(is_vn)), 2, (3,))
     normals = values.reshape(-1, 3)
     if np.any(np.all(normals == 0, axis=1)):
         raise _Unusual
-    _numbers([lines[i] for i in np.flatnonzero(is_vt)], 2, (1, 2, 3))
+    _numbers(_lines_at(lines, np.flatnonzero(is_vt)), 2, (1, 2, 3))
 
     slots: dict[str, int] = {}
     slots.setdefault(default_slot, 0)
@@ -466,7 +481,7 @@ def _read_plain(text, s, max_vertices, max_triangles, max_face, max_coordinate, 
         mtl_slots.append(slots.setdefault(slot_map.get(name, name) if slot_map else name, len(slots)))
 
     f_lines = np.flatnonzero(is_f)
-    sizes, columns, names = _face_numbers([lines[i] for i in f_lines], max_face)
+    sizes, columns, names = _face_numbers(_lines_at(lines, f_lines), max_face)
     if int((sizes - 2).sum()) > max_triangles:
         raise _Unusual
     so_far = {"v": np.cumsum(is_v), "vt": np.cumsum(is_vt), "vn": np.cumsum(is_vn)}
