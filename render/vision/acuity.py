@@ -105,10 +105,11 @@ def apply_acuity(
         # kernel's reach (scipy's radius, 4σ), the same values as a blur of the whole image,
         # since each output value reads input within the reach only and the image's own edges
         # are extended alike.
-        rows, cols = np.nonzero((lower == i) | (lower == i - 1))
+        near = (lower == i) | (lower == i - 1)
+        rows, cols = np.flatnonzero(near.any(axis=1)), np.flatnonzero(near.any(axis=0))
         reach = int(4.0 * float(levels[i]) + 0.5)
-        y0, y1 = max(int(rows.min()) - reach, 0), min(int(rows.max()) + reach + 1, shape[0])
-        x0, x1 = max(int(cols.min()) - reach, 0), min(int(cols.max()) + reach + 1, shape[1])
+        y0, y1 = max(int(rows[0]) - reach, 0), min(int(rows[-1]) + reach + 1, shape[0])
+        x0, x1 = max(int(cols[0]) - reach, 0), min(int(cols[-1]) + reach + 1, shape[1])
         blurred = gaussian_filter(img[y0:y1, x0:x1], sigma=(levels[i], levels[i], 0), mode="nearest")
         _add_level(out, blurred, y0, x0, lower, frac, i)
     return out, sigma_px
