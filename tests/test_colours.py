@@ -838,3 +838,27 @@ def test_many_objects_get_a_ranked_list_of_the_closest_pairs_at_report_width(tmp
     assert vals == sorted(vals)
     path = closest_pairs_figure(mats, names, tmp_path / "pairs.png", count=15, title="closest pairs")
     assert iio.imread(path).shape[1] <= round(REPORT_WIDTH_IN * 100)
+
+
+def test_ring_background_equals_a_whole_image_distance_transform():
+    # The ring is every pixel outside the object within the ring width (Euclidean distance
+    # between pixel centres). Reference: scipy.ndimage.distance_transform_edt over the whole
+    # image (the module measures over less where that gives the same pixels), for objects
+    # in the middle, at the edges and in pieces.
+    from scipy.ndimage import distance_transform_edt
+
+    rng = np.random.default_rng(8)
+    for k in range(40):
+        h, w = (int(v) for v in rng.integers(6, 70, 2))
+        mask = np.zeros((h, w), bool)
+        y, x = int(rng.integers(0, h)), int(rng.integers(0, w))
+        mask[y : y + int(rng.integers(1, 15)), x : x + int(rng.integers(1, 15))] = True
+        if k % 2:
+            mask |= rng.random((h, w)) < 0.005
+        lum = rng.uniform(0.1, 3.0, (h, w))
+        exclude = rng.random((h, w)) < 0.1
+        width = float(rng.choice([1.0, 2.5, 4.0, 9.0]))
+        d = distance_transform_edt(~mask)
+        ring = (d > 0) & (d <= width) & ~exclude
+        expected = (float(lum[ring].mean()) if ring.any() else None, int(ring.sum()))
+        assert ring_background(mask, lum, width, exclude) == expected

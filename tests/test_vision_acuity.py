@@ -71,3 +71,30 @@ def test_bright_scene_keeps_detail_and_mean():
     out, sigma_px = apply_acuity(img, np.full(img.shape[:2], 100.0), g)
     assert _contrast(out) > 0.5 * 0.98
     assert out[..., 1].mean() == pytest.approx(img[..., 1].mean(), rel=1e-6)
+
+
+def test_blend_equals_whole_image_gaussian_blurs_where_levels_are_needed_in_patches():
+    # A dark patch in a bright view needs the wider blur levels only around it; the module
+    # blurs over less than the image there. Reference: every level blurred over the whole
+    # image with scipy.ndimage.gaussian_filter (mode "nearest", the module's documented
+    # filter) and blended as the module text says (linear in σ between the bracketing levels).
+    from scipy.ndimage import gaussian_filter
+
+    g = ViewGeometry(3.0, 120, 80)
+    rng = np.random.default_rng(4)
+    img = rng.uniform(0.0, 1.0, (80, 120, 3))
+    lum = np.full((80, 120), 100.0)
+    lum[10:25, 90:115] = 1e-4  # a dark corner: σ of several pixels there
+    lum[60:70, 5:12] = 1e-2
+    out, sigma_px = apply_acuity(img, lum, g)
+    levels = np.array(BLUR_LEVELS_PX)
+    s = np.clip(sigma_px, 0.0, levels[-1])
+    k = np.clip(np.searchsorted(levels, s, side="right") - 1, 0, len(levels) - 2)
+    t = (s - levels[k]) / (levels[k + 1] - levels[k])
+    blurred = [img if lv == 0 else gaussian_filter(img, (lv, lv, 0), mode="nearest") for lv in levels]
+    ref = np.zeros_like(img)
+    for i in range(len(levels)):
+        wgt = np.where(k == i, 1.0 - t, 0.0) + np.where(k + 1 == i, t, 0.0)
+        ref += wgt[..., None] * blurred[i]
+    assert len(set(k.ravel())) >= 3  # several levels in play, the wide ones in patches only
+    assert np.allclose(out, ref, rtol=1e-14, atol=0.0)
