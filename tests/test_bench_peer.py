@@ -55,6 +55,8 @@ def test_bench_says_when_mitsuba_is_missing(monkeypatch, capsys):
     out = capsys.readouterr().out
     assert "Mitsuba 3 is not installed" in out
     assert "48×27 px" in out and "1 samples per pixel" in out
+    # Seconds and processor seconds per render, each min / median / max.
+    assert "seconds per render" in out and "processor seconds per render" in out
     rows = [line for line in out.splitlines() if line.startswith("  lampcast ")]
-    assert len(rows) == 1 and len(rows[0].split()[1:]) == 5 and rows[0].count(" / ") == 2  # min / median / max
+    assert len(rows) == 2 and all(len(r.split()[1:]) == 5 and r.count(" / ") == 2 for r in rows)
     assert "/ mitsuba" not in out

@@ -47,12 +47,13 @@ import argparse
 import subprocess
 import sys
 import tempfile
+import time
 from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 
-from render.bench.timing import interleaved, ratios
+from render.bench.timing import Spread, interleaved, ratios
 from render.resources import demo_scene_path
 
 __all__ = ["PEER_VARIANTS", "PeerScene", "add_parser", "cmd_peer", "peer_scene", "peer_scene_file", "write_ply"]
@@ -307,16 +308,33 @@ def cmd_peer(args: argparse.Namespace) -> int:
     else:
         ours()
     rounds = max(1, int(args.rounds))
-    spread, _ = interleaved(fns, rounds)
+    cpu: dict[str, list[float]] = {name: [] for name in fns}
+
+    def with_cpu(name, fn):
+        def run():
+            t0 = time.process_time()
+            fn()
+            cpu[name].append(time.process_time() - t0)
+
+        return run
+
+    spread, _ = interleaved({name: with_cpu(name, fn) for name, fn in fns.items()}, rounds)
     print(f"seconds per render, min / median / max over {rounds} rounds, the renderers alternating:")
     for name, s in spread.items():
         print(f"  {name:32s} {s.text(1, '.3f')}")
+    print("processor seconds per render (both threads; on a shared machine the fairer figure):")
+    for name, values in cpu.items():
+        print(f"  {name:32s} {Spread(tuple(values)).text(1, '.3f')}")
     for name, s in spread.items():
         if name == "lampcast":
             continue
         r = ratios(spread["lampcast"], s)
         print(
             f"  lampcast / {name:21s} {r.text(1, '.2f')}  (goal <= 1); per round {', '.join(f'{v:.2f}' for v in r.values)}"
+        )
+        c = ratios(Spread(tuple(cpu["lampcast"])), Spread(tuple(cpu[name])))
+        print(
+            f"  processor time, lampcast / {name}: {c.text(1, '.2f')}; per round {', '.join(f'{v:.2f}' for v in c.values)}"
         )
     return 0
 

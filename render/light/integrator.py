@@ -122,6 +122,8 @@ TILE_SAMPLES = 1 << 17
 _MAX_CELLS = 1 << 16
 # Samples per parallel work item of the light kernel (scratch arrays are made once per item).
 _BLOCK = 64
+# Blocks of _BLOCK samples a thread takes at a time from the light kernel's work.
+_CHUNK_BLOCKS = 4
 # Margin around the scene's bounds for its culling grid, m.
 _GRID_MARGIN_M = 0.01
 
@@ -1146,30 +1148,32 @@ class _LightPass:
         surf = (response >= 0) & (response != emitter_response)
         if self.grid is not None and np.any(surf):
             view_dirs = direction.astype(np.float64)
-            _direct_light(
-                point.astype(np.float64),
-                normal.astype(np.float64),
-                geo.astype(np.float64),
-                view_dirs,
-                response,
-                object_id,
-                surf,
-                self.lum,
-                self.grid,
-                self.tree,
-                self.stack,
-                self.shadows,
-                SURFACE_OFFSET_M,
-                self.negligible_lx,
-                self.gloss,
-                self.road,
-                self.road_object,
-                self.road_scale,
-                self.road_factor,
-                math.pi,
-                value,
-                spec,
-            )
+            # Blocks handed out a few at a time: a busy thread does not hold up the others.
+            with numba.parallel_chunksize(_CHUNK_BLOCKS):
+                _direct_light(
+                    point.astype(np.float64),
+                    normal.astype(np.float64),
+                    geo.astype(np.float64),
+                    view_dirs,
+                    response,
+                    object_id,
+                    surf,
+                    self.lum,
+                    self.grid,
+                    self.tree,
+                    self.stack,
+                    self.shadows,
+                    SURFACE_OFFSET_M,
+                    self.negligible_lx,
+                    self.gloss,
+                    self.road,
+                    self.road_object,
+                    self.road_scale,
+                    self.road_factor,
+                    math.pi,
+                    value,
+                    spec,
+                )
         value = value.astype(np.float32)
         spec = spec.astype(np.float32)
         lights = self.lights
