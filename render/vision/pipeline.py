@@ -23,6 +23,12 @@ luminance with a legend: ramp and mapping in :mod:`~render.vision.falsecolour`, 
 picture with text, drawn by :mod:`render.output.luminance_legend`) and ``fixed`` (a given linear
 exposure, no highlight roll-off: for checks against colorimetry).
 
+Work shared between images: the glare optics of a view (grid, pixel places, kernel spectrum;
+:func:`glare_optics`) serve every setup seen from it (:func:`retinal_images`); one
+:class:`Retina` serves the shared and the adapted display of an image; and each display keeps
+the perceived image it was made from (:attr:`DisplayResult.perceived`), which the colour
+analysis reads instead of running steps 1-5 again.
+
 References
 ----------
 The sources of each step are listed in its module: CIE 146:2002 (glare), CIE 191:2010 and
