@@ -261,20 +261,18 @@ class Study:
     def display_both(
         self, rendered: list[RenderedView], observer: ObserverSettings | None = None
     ) -> tuple[list[DisplayResult], list[DisplayResult]]:
-        """``(shared, adapted)`` display lists of the same views, computing glare once per view
-        and setup and the glare optics once per view geometry. Each result keeps what the
+        """``(shared, adapted)`` display lists of the same views
+        (:func:`render.vision.pipeline.shared_and_adapted`): glare once per view and setup, the
+        glare optics once per view geometry, two images at a time. Each result keeps what the
         observer perceives (:attr:`~render.vision.pipeline.DisplayResult.perceived`) for the
         colour analysis."""
-        from render.vision.pipeline import render_display, retinal_images, shared_display
+        from render.vision.pipeline import DISPLAY_WORKERS, shared_and_adapted
         from render.vision.view import ViewGeometry
 
         observer = observer or self.observer
         lights = [self.view_light(r) for r in rendered]
         geoms = [ViewGeometry.of(r.camera) for r in rendered]
-        retinas = retinal_images(lights, geoms, observer)
-        shared = shared_display(lights, geoms, observer, retinas=retinas)
-        adapted = [render_display(x, g, observer, "adapted", retina=r) for x, g, r in zip(lights, geoms, retinas)]
-        return shared, adapted
+        return shared_and_adapted(lights, geoms, observer, workers=DISPLAY_WORKERS)
 
     def display(
         self,
@@ -285,7 +283,7 @@ class Study:
         """Night-vision display images (:class:`render.vision.pipeline.DisplayResult`) of one or
         several rendered views. ``shared`` gives all of them one adaptation state (their true
         brightness relation); ``adapted`` adapts each to itself; ``photometric`` is false colour."""
-        from render.vision.pipeline import render_display, retinal_images, shared_display
+        from render.vision.pipeline import DISPLAY_WORKERS, render_display, retinal_images, shared_display
         from render.vision.view import ViewGeometry
 
         items = rendered if isinstance(rendered, list) else [rendered]
@@ -293,7 +291,7 @@ class Study:
         lights = [self.view_light(r) for r in items]
         geoms = [ViewGeometry.of(r.camera) for r in items]
         if mode == "shared":
-            results = shared_display(lights, geoms, observer)
+            results = shared_display(lights, geoms, observer, workers=DISPLAY_WORKERS)
         elif mode == "photometric" and len(items) > 1:
             from render.vision.falsecolour import shared_range_decades
 
@@ -304,7 +302,7 @@ class Study:
         elif mode == "photometric":
             results = [render_display(x, g, observer, mode) for x, g in zip(lights, geoms)]
         else:
-            retinas = retinal_images(lights, geoms, observer)
+            retinas = retinal_images(lights, geoms, observer, DISPLAY_WORKERS)
             results = [render_display(x, g, observer, mode, retina=r) for x, g, r in zip(lights, geoms, retinas)]
         return results if isinstance(rendered, list) else results[0]
 

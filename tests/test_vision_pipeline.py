@@ -136,3 +136,20 @@ def test_kept_perceived_images_are_what_the_analysis_would_compute_and_diagnosti
         assert s.diagnostics["mode"] == "shared" and a.diagnostics["mode"] == "adapted"
         assert s.diagnostics["display_scale"] == pytest.approx(ward_scale_factor(s.state.mesopic_cd_m2, 100.0))
         assert a.diagnostics["display_scale"] == pytest.approx(ward_scale_factor(a.state.mesopic_cd_m2, 100.0))
+
+
+def test_shared_and_adapted_on_threads_equals_the_modes_one_by_one():
+    # shared_and_adapted makes the same images as shared_display and render_display in
+    # "adapted" mode, whichever thread makes each (each image is a pure function of its
+    # inputs; common practice, no source).
+    from render.vision.pipeline import shared_and_adapted
+
+    views = [street_like(0.2, lantern=True), street_like(1.0), street_like(3.0, lantern=True)]
+    obs = ObserverSettings()
+    shared = shared_display(views, G, obs)
+    adapted = [render_display(v, G, obs, "adapted") for v in views]
+    for workers in (1, 2):
+        s2, a2 = shared_and_adapted(views, G, obs, workers=workers)
+        for one, two in zip(shared + adapted, s2 + a2):
+            assert np.array_equal(one.srgb16, two.srgb16) and np.array_equal(one.linear_srgb, two.linear_srgb)
+            assert one.state == two.state and one.diagnostics == two.diagnostics

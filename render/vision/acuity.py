@@ -134,11 +134,11 @@ def _bracket_levels(sigma, levels, lower, frac, used):
                 used[k + 1] = True
 
 
-@numba.njit(cache=True, nogil=True, parallel=True)
+@numba.njit(cache=True, nogil=True)
 def _add_level(out, blurred, y0, x0, lower, frac, level):
     """Add blur level ``level`` with its per-pixel weight (1 − t below, t above) to ``out``;
     ``blurred`` covers the pixels from ``(y0, x0)`` on, every pixel that uses the level."""
-    for y in numba.prange(blurred.shape[0]):
+    for y in range(blurred.shape[0]):
         for x in range(blurred.shape[1]):
             k = lower[y0 + y, x0 + x]
             if k == level:

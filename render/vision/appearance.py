@@ -291,12 +291,12 @@ def rod_intrusion(
     return out.reshape(*shape, 3)
 
 
-@numba.njit(cache=True, nogil=True, parallel=True)
+@numba.njit(cache=True, nogil=True)
 def _rod_kernel(xyz, lms, qr, lmes, to_lms, to_xyz, rod_unit, gain, w_c, w_r, white, out):
     """Per pixel: ``q̂ = w_c·max(q, 0) + w_r·max(q_R, 0)·rod_unit``, back to XYZ with the white's
     von Kries gain, then scaled to the pixel's mesopic luminance (:func:`rod_intrusion`).
     ``w_r = 0`` keeps the input XYZ; ``lms`` empty: cone signals from XYZ."""
-    for i in numba.prange(xyz.shape[0]):
+    for i in range(xyz.shape[0]):
         x = xyz[i, 0]
         y = xyz[i, 1]
         z = xyz[i, 2]

@@ -208,7 +208,7 @@ def _oklab_to_rgb(L, aa, bb, to_lms, to_xyz, to_rgb):
     return r0, r1, r2
 
 
-@numba.njit(cache=True, nogil=True, parallel=True)
+@numba.njit(cache=True, nogil=True)
 def _gamut_kernel(lab, to_lms, to_xyz, to_rgb, iterations, tol, out):
     """Per pixel: bisection on Oklab chroma at constant lightness and hue until the colour is
     inside the sRGB cube; writes the linear sRGB of the largest chroma found inside. Pixels go
@@ -216,7 +216,7 @@ def _gamut_kernel(lab, to_lms, to_xyz, to_rgb, iterations, tol, out):
     n = lab.shape[0]
     nblocks = (n + _GAMUT_BLOCK - 1) // _GAMUT_BLOCK
     top = 1.0 + tol
-    for blk in numba.prange(nblocks):
+    for blk in range(nblocks):
         start = blk * _GAMUT_BLOCK
         m = min(n, start + _GAMUT_BLOCK) - start
         light = np.empty(m)
@@ -247,12 +247,12 @@ def _gamut_kernel(lab, to_lms, to_xyz, to_rgb, iterations, tol, out):
             out[start + j, 2] = r2
 
 
-@numba.njit(cache=True, nogil=True, parallel=True)
+@numba.njit(cache=True, nogil=True)
 def _rgb_and_gamut(xyz, to_rgb, tol, rgb, outside):
     """Linear sRGB of each XYZ (one multiply-add chain per channel) and whether it lies
     outside the sRGB cube by more than ``tol``."""
     top = 1.0 + tol
-    for i in numba.prange(xyz.shape[0]):
+    for i in range(xyz.shape[0]):
         x = xyz[i, 0]
         y = xyz[i, 1]
         z = xyz[i, 2]

@@ -228,11 +228,11 @@ def _splat_kernel(gx, gy, channels, solid_angle, out):
             out[k, y0 + 1, x0 + 1] += e * w11
 
 
-@numba.njit(cache=True, nogil=True, parallel=True)
+@numba.njit(cache=True, nogil=True)
 def _sample_kernel(grid, gx, gy, out):
     """Bilinear interpolation of ``grid`` (C, h, w) at ``(gx[i], gy[i])`` into ``out`` (N, C)."""
     c, h, w = grid.shape
-    for i in numba.prange(gx.size):
+    for i in range(gx.size):
         x0 = min(max(int(math.floor(gx[i])), 0), w - 2)
         y0 = min(max(int(math.floor(gy[i])), 0), h - 2)
         fx = gx[i] - x0

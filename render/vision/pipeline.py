@@ -25,9 +25,12 @@ exposure, no highlight roll-off: for checks against colorimetry).
 
 Work shared between images: the glare optics of a view (grid, pixel places, kernel spectrum;
 :func:`glare_optics`) serve every setup seen from it (:func:`retinal_images`); one
-:class:`Retina` serves the shared and the adapted display of an image; and each display keeps
-the perceived image it was made from (:attr:`DisplayResult.perceived`), which the colour
-analysis reads instead of running steps 1-5 again.
+:class:`Retina` serves the shared and the adapted display of an image
+(:func:`shared_and_adapted`); and each display keeps the perceived image it was made from
+(:attr:`DisplayResult.perceived`), which the colour analysis reads instead of running steps
+1-5 again. Images are independent once the shared state is known, so the functions that make
+several take ``workers``: that many threads, each image the same whichever thread makes it
+(the numba kernels of the stage are serial and safe to run side by side).
 
 References
 ----------
@@ -40,9 +43,10 @@ says how each was checked.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field, replace
-from typing import NamedTuple
+from typing import NamedTuple, TypeVar
 
 import numpy as np
 import numpy.typing as npt
@@ -59,6 +63,7 @@ from render.vision.observer import ObserverSettings
 from render.vision.view import ViewGeometry
 
 __all__ = [
+    "DISPLAY_WORKERS",
     "MODES",
     "PHOTOMETRIC_QUANTITIES",
     "DisplayResult",
@@ -75,12 +80,31 @@ __all__ = [
     "render_display",
     "retinal_image",
     "retinal_images",
+    "shared_and_adapted",
     "shared_display",
     "to_display",
 ]
 
 #: Display modes of the vision stage (module text).
 MODES = ("adapted", "shared", "photometric", "fixed")
+
+#: Threads :func:`shared_and_adapted` is given by the Python API (two images at a time: each
+#: thread holds one image's intermediates, a few hundred MB at 4K).
+DISPLAY_WORKERS = 2
+
+_T = TypeVar("_T")
+
+
+def _each(fn: Callable[..., _T], items: Sequence[tuple], workers: int) -> list[_T]:
+    """``fn(*item)`` for every item, in order, on up to ``workers`` threads. The steps spend
+    their time in numpy, scipy and numba code that releases the interpreter lock, and each
+    image is a pure function of its inputs, so the results do not depend on the threads."""
+    if workers <= 1 or len(items) <= 1:
+        return [fn(*item) for item in items]
+    with ThreadPoolExecutor(max_workers=min(int(workers), len(items))) as pool:
+        return list(pool.map(lambda item: fn(*item), items))
+
+
 #: Luminances a false-colour (photometric) image can show.
 PHOTOMETRIC_QUANTITIES = ("photopic", "mesopic", "scotopic")
 
@@ -286,18 +310,21 @@ def retinal_image(
 
 
 def retinal_images(
-    buffers_list: Sequence[ViewLight], geometries: Sequence[ViewGeometry], observer: ObserverSettings
+    buffers_list: Sequence[ViewLight],
+    geometries: Sequence[ViewGeometry],
+    observer: ObserverSettings,
+    workers: int = 1,
 ) -> list[Retina]:
     """:func:`retinal_image` of several images, the glare optics made once per distinct view
-    geometry and shared (e.g. one view under a before setup and every option)."""
+    geometry and shared (e.g. one view under a before setup and every option); ``workers``
+    threads (module text)."""
     optics: dict[ViewGeometry, _glare.GlareOptics | None] = {}
-    out = []
     for b, g in zip(buffers_list, geometries, strict=True):
         b.check(g)
         if g not in optics:
             optics[g] = glare_optics(g, observer)
-        out.append(retinal_image(b, g, observer, optics[g]))
-    return out
+    items = [(b, g, observer, optics[g]) for b, g in zip(buffers_list, geometries)]
+    return _each(retinal_image, items, workers)
 
 
 def exclusion_mask(buffers: ViewLight, observer: ObserverSettings) -> np.ndarray:
@@ -514,26 +541,13 @@ def render_display(
     return _map_with_state(buffers, view_geometry, observer, state, retina, mode, exposure)
 
 
-def shared_display(
+def _shared_states(
     buffers_list: Sequence[ViewLight],
-    view_geometries: Sequence[ViewGeometry] | ViewGeometry,
-    observer: ObserverSettings | None = None,
-    retinas: Sequence[Retina] | None = None,
-) -> list[DisplayResult]:
-    """Map a set of views (e.g. before and after) with **one** adaptation state and scale.
-
-    The state comes from the views' adaptation fields averaged with equal weight
-    (:func:`render.vision.adaptation.shared_adaptation_state`), after glare; then every view
-    is mapped with it, so their true brightness relation is kept. ``retinas``: the views'
-    :func:`retinal_images`, if already computed.
-    """
-    observer = observer or ObserverSettings()
-    if isinstance(view_geometries, ViewGeometry):
-        view_geometries = [view_geometries] * len(buffers_list)
-    if len(view_geometries) != len(buffers_list):
-        raise ValueError("one view geometry per buffer set")
-    if retinas is None:
-        retinas = retinal_images(buffers_list, view_geometries, observer)
+    view_geometries: Sequence[ViewGeometry],
+    observer: ObserverSettings,
+    retinas: Sequence[Retina],
+) -> tuple[list[_adaptation.AdaptationState], list[_adaptation.AdaptationState]]:
+    """Each view's state in the shared display, and its own (adapted) state."""
     first = buffers_list[0]
     state = _adaptation.shared_adaptation_state(
         [(r[0], r[1], g, exclusion_mask(b, observer)) for r, g, b in zip(retinas, view_geometries, buffers_list)],
@@ -545,9 +559,61 @@ def shared_display(
     )
     # One luminance adaptation for all views; each keeps the colour of its own light as its
     # adapting white (an observer in each street adapts to that street's light).
-    out = []
-    for b, g, r in zip(buffers_list, view_geometries, retinas):
-        own = measure_adaptation(r[0], r[1], g, observer, exclusion_mask(b, observer), b)
-        view_state = replace(state, white_xyz=own.white_xyz, white_sp_ratio=own.white_sp_ratio)
-        out.append(_map_with_state(b, g, observer, view_state, r, "shared", None))
-    return out
+    own = [
+        measure_adaptation(r[0], r[1], g, observer, exclusion_mask(b, observer), b)
+        for b, g, r in zip(buffers_list, view_geometries, retinas)
+    ]
+    shared = [replace(state, white_xyz=o.white_xyz, white_sp_ratio=o.white_sp_ratio) for o in own]
+    return shared, own
+
+
+def _views_and_retinas(buffers_list, view_geometries, observer, retinas, workers):
+    observer = observer or ObserverSettings()
+    if isinstance(view_geometries, ViewGeometry):
+        view_geometries = [view_geometries] * len(buffers_list)
+    if len(view_geometries) != len(buffers_list):
+        raise ValueError("one view geometry per buffer set")
+    if retinas is None:
+        retinas = retinal_images(buffers_list, view_geometries, observer, workers)
+    return list(view_geometries), observer, list(retinas)
+
+
+def shared_display(
+    buffers_list: Sequence[ViewLight],
+    view_geometries: Sequence[ViewGeometry] | ViewGeometry,
+    observer: ObserverSettings | None = None,
+    retinas: Sequence[Retina] | None = None,
+    workers: int = 1,
+) -> list[DisplayResult]:
+    """Map a set of views (e.g. before and after) with **one** adaptation state and scale.
+
+    The state comes from the views' adaptation fields averaged with equal weight
+    (:func:`render.vision.adaptation.shared_adaptation_state`), after glare; then every view
+    is mapped with it, so their true brightness relation is kept. ``retinas``: the views'
+    :func:`retinal_images`, if already computed; ``workers`` threads (module text).
+    """
+    geoms, observer, retinas = _views_and_retinas(buffers_list, view_geometries, observer, retinas, workers)
+    states, _ = _shared_states(buffers_list, geoms, observer, retinas)
+    items = [(b, g, observer, st, r, "shared", None) for b, g, r, st in zip(buffers_list, geoms, retinas, states)]
+    return _each(_map_with_state, items, workers)
+
+
+def shared_and_adapted(
+    buffers_list: Sequence[ViewLight],
+    view_geometries: Sequence[ViewGeometry] | ViewGeometry,
+    observer: ObserverSettings | None = None,
+    retinas: Sequence[Retina] | None = None,
+    workers: int = 1,
+) -> tuple[list[DisplayResult], list[DisplayResult]]:
+    """``(shared, adapted)``: :func:`shared_display` of the views and each view in ``adapted``
+    mode (:func:`render_display`), the same images, made from one retina per view and the
+    same adaptation measurements; ``workers`` threads (module text)."""
+    geoms, observer, retinas = _views_and_retinas(buffers_list, view_geometries, observer, retinas, workers)
+    shared_states, own_states = _shared_states(buffers_list, geoms, observer, retinas)
+    items = [
+        (b, g, observer, st, r, mode, None)
+        for mode, states in (("shared", shared_states), ("adapted", own_states))
+        for b, g, r, st in zip(buffers_list, geoms, retinas, states)
+    ]
+    maps = _each(_map_with_state, items, workers)
+    return maps[: len(buffers_list)], maps[len(buffers_list) :]
