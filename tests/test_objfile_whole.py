@@ -85,12 +85,37 @@ def _grid(n: int, form: str) -> str:
     return "\n".join(lines) + "\n"
 
 
+@pytest.mark.parametrize("kernel", [True, False], ids=["compiled", "tokens"])
 @pytest.mark.parametrize("form", ["{v}", "{v}/{t}", "{v}//{n}", "{v}/{t}/{n}"])
-def test_every_reference_form_read_whole(form):
+def test_every_reference_form_read_whole(form, kernel, monkeypatch):
+    # Face references are read by the compiled pass (render.geometry.objfaces) when written
+    # plainly, else token by token; both must agree with the statement reader.
+    from render.geometry import objfaces
+
     text = _grid(6, form)
+    read, used = objfaces.read_face_references, []
+
+    def spy(raw, n_faces):
+        used.append(read(raw, n_faces) if kernel else None)
+        return used[-1]
+
+    monkeypatch.setattr(objfaces, "read_face_references", spy)
     fast, slow = _both(text)
     assert fast is not None, "an ordinary file takes the whole-file path"
+    assert len(used) == 1 and (used[0] is not None) == kernel
     _assert_same(fast, slow)
+
+
+def test_compiled_face_pass_declines_all_but_the_plainest_writing():
+    from render.geometry.objfaces import read_face_references
+
+    text = b"v 1 2 3\nf 1//4 -2//5 3//6\nusemtl a/b\n# f 1 2 3\nf\t7//1\t8//2 9//3 10//4  \n"
+    sizes, numbers, form = read_face_references(text, 2)
+    assert form == 2 and sizes.tolist() == [3, 4]
+    assert numbers[:, 0].tolist() == [1, -2, 3, 7, 8, 9, 10] and numbers[:, 2].tolist() == [4, 5, 6, 1, 2, 3, 4]
+    for refs in [b"+1 2 3", b"1 2/3 4", b"1/ 2/ 3/", b"1//2//3 4 5", b"1 2 -", b"1 2 3_0", b"1 2 " + b"1" * 19]:
+        assert read_face_references(b"f " + refs + b"\n", 1) is None, refs
+    assert read_face_references(b"f 1 2 3\nf 1 2 3\n", 1) is None  # more face lines than counted
 
 
 @pytest.mark.parametrize(

@@ -263,7 +263,7 @@ def _read_statements(
 _PLAIN_BYTES = bytes([9, 10, 13, *range(0x20, 0x5C), *range(0x5D, 0x7F)])
 _COMMENT = re.compile(r"#[^\n]*")
 _LEADING_SPACE = re.compile(r"^[ \t]+", re.MULTILINE)
-_SPACE, _TAB, _LF, _SLASH = 32, 9, 10, 47
+_SPACE, _TAB, _LF, _SLASH, _HASH = 32, 9, 10, 47, 35
 
 
 class _Unusual(Exception):
@@ -369,9 +369,23 @@ def _resolve(raw: np.ndarray, count_so_far: np.ndarray) -> np.ndarray:
     return out
 
 
-def _face_numbers(lines: list[str], max_face: int) -> tuple[np.ndarray, list[np.ndarray]]:
-    """Sizes of the faces and their references as columns (vertex; vertex, texture; vertex,
-    normal; or vertex, texture, normal), all references of the file written alike."""
+def _face_numbers(
+    raw: bytes, all_lines: list[str], f_lines: np.ndarray, max_face: int
+) -> tuple[np.ndarray, list[np.ndarray], tuple[str, ...]]:
+    """Sizes of the faces, their references as columns (vertex; vertex, texture; vertex,
+    normal; or vertex, texture, normal) and the columns' names, all references of the file
+    written alike: by :func:`render.geometry.objfaces.read_face_references` when they are
+    written plainly, else token by token."""
+    from render.geometry.objfaces import FORMS, read_face_references
+
+    read = read_face_references(raw, f_lines.size)  # the plainest writing, in one compiled pass
+    if read is not None:
+        sizes, numbers, form = read
+        if sizes.size and (sizes.min() < 3 or sizes.max() > max_face):
+            raise _Unusual
+        columns = {0: (0,), 1: (0, 1), 2: (0, 2), 3: (0, 1, 2)}[form]
+        return sizes, [numbers[:, k] for k in columns], FORMS[form]
+    lines = _lines_at(all_lines, f_lines)
     body = "\n".join([line[1:] for line in lines])
     raw = body.encode("ascii")
     sizes, token_at = _tokens_per_line(raw, len(lines))
@@ -414,7 +428,7 @@ def _read_fast(
     written in different ways, counts beyond the limits), which that reader then reports."""
     if not text.isascii() or text.encode("ascii").translate(None, _PLAIN_BYTES):
         return None
-    try:
+    try:  # (the text is encoded again below, after its line breaks and comments are made plain)
         return _read_plain(text, s, max_vertices, max_triangles, max_face, max_coordinate, slot_map, default_slot)
     except _Unusual:
         return None
@@ -430,13 +444,20 @@ def _lines_at(lines: list[str], at: np.ndarray) -> list[str]:
 def _read_plain(text, s, max_vertices, max_triangles, max_face, max_coordinate, slot_map, default_slot):
     if "\r" in text:
         text = text.replace("\r\n", "\n").replace("\r", "\n")  # line numbers as _statements counts them
-    if "#" in text:
-        text = _COMMENT.sub("", text)
-    b = np.frombuffer(text.encode("ascii") + b"\n\n\n", dtype=np.uint8)
+    raw = text.encode("ascii") + b"\n\n\n"
+    b = np.frombuffer(raw, dtype=np.uint8)
     starts = np.concatenate([[0], np.flatnonzero(b[:-3] == _LF) + 1])
+    hashes = np.flatnonzero(b == _HASH)
+    # Comments inside statements are cut; whole comment lines are no statement anyway.
+    if hashes.size and not np.all((hashes == 0) | (b[hashes - 1] == _LF)):
+        text = _COMMENT.sub("", text)
+        raw = text.encode("ascii") + b"\n\n\n"
+        b = np.frombuffer(raw, dtype=np.uint8)
+        starts = np.concatenate([[0], np.flatnonzero(b[:-3] == _LF) + 1])
     if np.any((b[starts] == _SPACE) | (b[starts] == _TAB)):  # indented statements
         text = _LEADING_SPACE.sub("", text)
-        b = np.frombuffer(text.encode("ascii") + b"\n\n\n", dtype=np.uint8)
+        raw = text.encode("ascii") + b"\n\n\n"
+        b = np.frombuffer(raw, dtype=np.uint8)
         starts = np.concatenate([[0], np.flatnonzero(b[:-3] == _LF) + 1])
     lines = text.split("\n")
     c0, c1, c2 = b[starts], b[starts + 1], b[starts + 2]
@@ -481,7 +502,7 @@ def _read_plain(text, s, max_vertices, max_triangles, max_face, max_coordinate, 
         mtl_slots.append(slots.setdefault(slot_map.get(name, name) if slot_map else name, len(slots)))
 
     f_lines = np.flatnonzero(is_f)
-    sizes, columns, names = _face_numbers(_lines_at(lines, f_lines), max_face)
+    sizes, columns, names = _face_numbers(raw, lines, f_lines, max_face)
     if int((sizes - 2).sum()) > max_triangles:
         raise _Unusual
     so_far = {"v": np.cumsum(is_v), "vt": np.cumsum(is_vt), "vn": np.cumsum(is_vn)}
