@@ -7,13 +7,16 @@ the colour analysis reads. Two ways of doing that are timed side by side:
 
 * **shared** -- :meth:`render.study.Study.display_both`, as the comparison runs it: the glare
   optics (grid, pixel places, kernel spectrum; :func:`render.vision.glare.glare_optics`) made
-  once per view and shared by every setup, each image's retina made once for both exposures,
-  and the colour analysis taking the perceived images the shared displays keep
+  once per view and shared by every setup, each image's retina and adaptation measurements
+  made once for both exposures, two images at a time
+  (:data:`render.vision.pipeline.DISPLAY_WORKERS` threads), and the colour analysis taking the
+  perceived images the shared displays keep
   (:attr:`render.vision.pipeline.DisplayResult.perceived`), so it runs nothing;
-* **per image** -- the same images with the glare optics made for each image on its own and
-  the colour analysis running the stage again for each setup
-  (:func:`render.analysis.colours.perceived_view` with the shared display's state), as the
-  stage ran before the optics were shared and the perceived images kept.
+* **per image** -- the same images one at a time, with the glare optics made for each image
+  on its own, each exposure measuring its adaptation, and the colour analysis running the
+  stage again for each setup (:func:`render.analysis.colours.perceived_view` with the shared
+  display's state), as the stage ran before the optics were shared and the perceived images
+  kept.
 
 Both give the same images. The renders are made once, before anything is timed, and one small
 render goes through both paths first so that every numba kernel is compiled (or loaded from
