@@ -3,7 +3,7 @@
 See :mod:`render.vision.pipeline` for the order of the steps and the sources behind each.
 Public entry points:
 
-* :func:`render_display`, :func:`shared_display` -- the whole stage.
+* :func:`render_display`, :func:`shared_display`, :func:`shared_and_adapted` -- the whole stage.
 * :class:`ViewLight` (input contract), :class:`ViewGeometry`, :class:`ObserverSettings`,
   :class:`DisplayResult`, :class:`AdaptationState`.
 * :func:`extra_channel_weights` -- an optional extra renderer channel (exact cone signals).
@@ -22,6 +22,7 @@ from render.vision.pipeline import (
     ViewLight,
     photometric_display,
     render_display,
+    shared_and_adapted,
     shared_display,
 )
 from render.vision.view import ViewGeometry
@@ -36,5 +37,6 @@ __all__ = [
     "extra_channel_weights",
     "photometric_display",
     "render_display",
+    "shared_and_adapted",
     "shared_display",
 ]
