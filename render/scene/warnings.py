@@ -13,7 +13,6 @@ import math
 from typing import TYPE_CHECKING
 
 import numpy as np
-from scipy.spatial import cKDTree
 
 from render.errors import Problem
 from render.fileio import file_stem
@@ -26,6 +25,7 @@ if TYPE_CHECKING:
 __all__ = [
     "COINCIDENT_M",
     "NARROW_HFOV_DEG",
+    "close_pairs",
     "cameras_inside_solids",
     "clashing_view_names",
     "dark_views",
@@ -119,13 +119,29 @@ def _capped(problems: list[Problem], source: str, where: str, what: str) -> list
     return [*problems[:MAX_LISTED], Problem(source, where, f"and {more:,} more {what}")]
 
 
+def close_pairs(points: np.ndarray, radius_m: float) -> list[tuple[int, int]]:
+    """Sorted index pairs ``(i, j)``, ``i < j``, of points at most ``radius_m`` apart: a sweep
+    along x over the points sorted by x (no spatial index needed for a scene's luminaires)."""
+    order = np.argsort(points[:, 0], kind="stable")
+    xs = points[order, 0]
+    out = []
+    for a in range(len(order)):
+        b = a + 1
+        while b < len(order) and xs[b] - xs[a] <= radius_m:
+            i, j = int(order[a]), int(order[b])
+            if float(np.linalg.norm(points[i] - points[j])) <= radius_m:
+                out.append((min(i, j), max(i, j)))
+            b += 1
+    return sorted(out)
+
+
 def coincident_luminaires(scene: Scene) -> list[Problem]:
     """Pairs of luminaires whose luminous openings are within :data:`COINCIDENT_M` of each
     other, each naming both (the later one's key first)."""
     if len(scene.luminaires) < 2:
         return []
     points = np.array([lum.position_m for lum in scene.luminaires], dtype=np.float64)
-    pairs = sorted(cKDTree(points).query_pairs(COINCIDENT_M))
+    pairs = close_pairs(points, COINCIDENT_M)
     out = []
     for i, j in pairs:
         a, b = scene.luminaires[i], scene.luminaires[j]
