@@ -1,4 +1,6 @@
 """Scene warnings' helpers (render.scene.warnings) against reference libraries."""
+
+
 def test_close_pairs_equal_scipy_kdtree_pairs():
     # Reference library: scipy.spatial.cKDTree.query_pairs (pairs within r, i < j).
     import numpy as np
