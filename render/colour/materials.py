@@ -475,17 +475,30 @@ def material_library(directory: str | Path | None = None) -> dict[str, Material]
     files = sorted(p for p in folder.glob("*.csv") if p.is_file())
     if not files:
         raise input_error(src, "", "no material files (*.csv) in this folder")
+    stamp = tuple((p.name, *_stamp(p)) for p in files)
+    return dict(_read_library(str(folder), src, stamp))
+
+
+def _stamp(path: Path) -> tuple[int, int]:
+    info = path.stat()
+    return (info.st_mtime_ns, info.st_size)
+
+
+@lru_cache(maxsize=8)
+def _read_library(folder: str, src: str, stamp: tuple) -> tuple[tuple[str, Material], ...]:
+    """The materials of ``folder`` in id order, read once per state of its files (``stamp``:
+    each file's name, modification time and size, so an edited file is read again)."""
     problems = ProblemList(src)
     out: dict[str, Material] = {}
-    for p in files:
+    for name, *_ in stamp:
         try:
-            m = load_material_csv(p)
+            m = load_material_csv(Path(folder) / name)
         except InputError as err:
             problems.extend(err)
             continue
         out[m.id] = m
     problems.raise_if_any()
-    return dict(sorted(out.items()))
+    return tuple(sorted(out.items()))
 
 
 def get_material(

@@ -13,19 +13,34 @@ References
 Each module names the methods it uses; docs/references.md lists them all.
 """
 
-from render.vision.adaptation import AdaptationState
-from render.vision.appearance import extra_channel_weights
-from render.vision.observer import ObserverSettings
-from render.vision.pipeline import (
-    MODES,
-    DisplayResult,
-    ViewLight,
-    photometric_display,
-    render_display,
-    shared_and_adapted,
-    shared_display,
-)
-from render.vision.view import ViewGeometry
+from importlib import import_module
+from typing import Any
+
+#: Where each public name lives; imported on first use (module ``__getattr__``, PEP 562), so that
+#: importing one light module (e.g. :mod:`render.vision.observer` while a scene loads) does not
+#: pull in the whole stage and its scipy and numba dependencies.
+_HOMES = {
+    "AdaptationState": "render.vision.adaptation",
+    "extra_channel_weights": "render.vision.appearance",
+    "ObserverSettings": "render.vision.observer",
+    "MODES": "render.vision.pipeline",
+    "DisplayResult": "render.vision.pipeline",
+    "ViewLight": "render.vision.pipeline",
+    "photometric_display": "render.vision.pipeline",
+    "render_display": "render.vision.pipeline",
+    "shared_and_adapted": "render.vision.pipeline",
+    "shared_display": "render.vision.pipeline",
+    "ViewGeometry": "render.vision.view",
+}
+
+
+def __getattr__(name: str) -> Any:
+    if name in _HOMES:
+        value = getattr(import_module(_HOMES[name]), name)
+        globals()[name] = value
+        return value
+    raise AttributeError(f"module 'render.vision' has no attribute {name!r}")
+
 
 __all__ = [
     "AdaptationState",
