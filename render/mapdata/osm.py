@@ -162,6 +162,7 @@ def read_extract(path: str | os.PathLike, projection: LocalProjection, radius_m:
             else:
                 continue
             limits.check_count(kept + len(out.nodes), limits.MAX_MAP_FEATURES, src, "", "the map features")
-    except RuntimeError as err:
+    except (RuntimeError, ValueError, osmium.InvalidLocationError) as err:
+        # libosmium reports a broken file (bad XML, a malformed coordinate or attribute) this way
         raise input_error(src, "", f"cannot read the {KIND}: {str(err)[:200]}") from None
     return out
