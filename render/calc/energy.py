@@ -273,7 +273,7 @@ class EnergyDifference:
         return asdict(self)
 
 
-def energy_difference(before: EnergyResult, option: EnergyResult) -> EnergyDifference:
+def energy_difference(before: EnergyResult | SetupEnergy, option: EnergyResult | SetupEnergy) -> EnergyDifference:
     """Annual kWh, cost and CO₂ of ``option`` minus ``before``; ``relative`` is the kWh change
     as a fraction of ``before`` (``None`` when ``before`` uses none)."""
     d = option.annual_kwh - before.annual_kwh
@@ -324,21 +324,6 @@ class SetupEnergy:
             "installed_watts_w": self.installed_watts_w,
             "lifetime_years": self.lifetime_years,
         }
-
-    def as_result(self) -> EnergyResult:
-        """The sums as one :class:`EnergyResult` (for :func:`energy_difference`)."""
-        first = self.results[0]
-        return EnergyResult(
-            inputs=first.inputs,
-            mean_power_fraction=first.mean_power_fraction,
-            lifetime_power_fraction=first.lifetime_power_fraction,
-            annual_kwh_per_luminaire=self.annual_kwh / max(1, sum(p.count for p in self.parts)),
-            annual_kwh=self.annual_kwh,
-            annual_cost=self.annual_cost,
-            annual_co2_kg=self.annual_co2_kg,
-            lifetime_years=self.lifetime_years,
-            lifetime_kwh_per_luminaire=None,
-        )
 
 
 def setup_energy(

@@ -60,11 +60,11 @@ from render.calc.road import LuminanceResult, evaluate_luminance_field
 from render.calc.sky import (
     SkyFigures,
     SkyGlowRelative,
+    direct_upward_flux_lm,
     ground_patches,
     notch_filterable_fraction,
     sky_figures,
     sky_glow_relative,
-    upward_flux_lm,
 )
 from render.calc.ti import DEFAULT_AGE_YEARS, RoadWorstCase, TIResult, road_worst_case, threshold_increment
 from render.colour.materials import luminous_reflectance
@@ -371,16 +371,20 @@ def _sky(study: Study, lights, setup, reflect_lx: dict[str, np.ndarray], patches
 
     factors, lamps = channel_factors(lights, setup)
     order = list(dict.fromkeys(lamps))
-    direct = dict.fromkeys(order, 0.0)
     tilts = [lum.tilt_deg for lum in study.scene.luminaires]
-    cache: dict[tuple[int, float], float] = {}
-    for k in range(lights.n_luminaires):
-        p = lights.photometries[int(lights.table[k])]
-        key = (int(lights.table[k]), float(tilts[k]))
-        if key not in cache:
-            cache[key] = upward_flux_lm(p, tilts[k])
-        ch = int(lights.channel[k])
-        direct[lamps[ch]] += float(lights.scale[k]) * float(factors[ch]) * cache[key]
+    lamp_of = [lamps[int(lights.channel[k])] for k in range(lights.n_luminaires)]
+    direct = {
+        lamp: direct_upward_flux_lm(
+            [lights.photometries[int(lights.table[k])] for k in range(lights.n_luminaires) if lamp_of[k] == lamp],
+            [tilts[k] for k in range(lights.n_luminaires) if lamp_of[k] == lamp],
+            [
+                float(lights.scale[k]) * float(factors[int(lights.channel[k])])
+                for k in range(lights.n_luminaires)
+                if lamp_of[k] == lamp
+            ],
+        )
+        for lamp in order
+    }
     library = study.materials
     reflect = [get_material(m, library, source=str(study.scene.path)).reflectance for m in patches.materials]
     spds = dict(zip(order, study.lamp_spds(order), strict=True))
@@ -562,9 +566,7 @@ def run_calculation(study: Study, setups: list[str | None], options: CalcOptions
             c,
             sky_relative=sky_glow_relative(first.sky, c.sky),
             energy_vs_before=(
-                energy_difference(first.energy.as_result(), c.energy.as_result())
-                if first.energy is not None and c.energy is not None
-                else None
+                energy_difference(first.energy, c.energy) if first.energy is not None and c.energy is not None else None
             ),
         )
     return CalculationReport(scene=str(study.scene.path), setups=tuple(out), options=opts)

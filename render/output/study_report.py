@@ -92,7 +92,7 @@ def _plot(table: dict, front: list[bool], y: str, y_label: str, path: Path) -> P
 
 def write_study_report(spec: StudySpec, table: dict[str, list[Any]], out_dir: str | Path) -> Path:
     """Write ``study.html`` and its plots into ``out_dir``; returns the page's path."""
-    from render.output.report.document import _environment
+    from render.output.report.document import template_environment
 
     out = Path(out_dir)
     order = ranked(table, spec.objective, spec.goal)
@@ -117,7 +117,7 @@ def write_study_report(spec: StudySpec, table: dict[str, list[Any]], out_dir: st
     crit = criteria_present(table)
     front_text = ", ".join(f"{c} {'lower' if g == 'min' else 'higher'} is better" for c, g in crit) or "no criteria"
     html = (
-        _environment()
+        template_environment()
         .get_template("study.html.j2")
         .render(
             title=f"Study: {spec.name}",

@@ -27,7 +27,7 @@ from render.output.metrics import ComparisonMetrics
 from render.output.report.images import ImageFolder
 from render.output.report.page import build_page
 
-__all__ = ["REPORT_NAME", "csp_hash", "render_report", "write_report"]
+__all__ = ["REPORT_NAME", "csp_hash", "render_report", "template_environment", "write_report"]
 
 #: File name of the report inside the output folder.
 REPORT_NAME = "report.html"
@@ -38,7 +38,8 @@ _SCRIPT = "report.js"
 
 
 @lru_cache(maxsize=1)
-def _environment() -> jinja2.Environment:
+def template_environment() -> jinja2.Environment:
+    """The jinja2 environment of the packaged templates (autoescaping on, strict undefined)."""
     return jinja2.Environment(
         loader=jinja2.PackageLoader("render.output.report", "templates"),
         autoescape=True,
@@ -51,7 +52,7 @@ def _environment() -> jinja2.Environment:
 
 def _inline(name: str, tag: str) -> Markup:
     """The text of a packaged style sheet or script, to be inlined unescaped in ``<tag>``."""
-    env = _environment()
+    env = template_environment()
     text, _, _ = env.loader.get_source(env, name)
     if f"</{tag}" in text.lower():
         raise ValueError(f"{name} must not contain </{tag}")
@@ -83,7 +84,7 @@ def render_report(metrics: ComparisonMetrics, out_dir: Path, images: ImageFolder
         f"default-src 'none'; img-src data:; style-src {csp_hash(css)}; script-src {csp_hash(js)}; "
         "base-uri 'none'; form-action 'none'"
     )
-    return _environment().get_template(_TEMPLATE).render(page=page, css=css, js=js, csp=csp)
+    return template_environment().get_template(_TEMPLATE).render(page=page, css=css, js=js, csp=csp)
 
 
 def write_report(out_dir: Path, metrics: ComparisonMetrics) -> Path:
