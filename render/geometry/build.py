@@ -110,6 +110,8 @@ class _Builder:
         self.carriageway_object = -1
         #: Object indices of every carriageway: the street's and each road's.
         self.carriageway_objects: list[int] = []
+        #: The carriageway object of the street ("street") and of each road (its key path).
+        self.carriageway_of: dict[str, int] = {}
         self.objects: list[ObjectInfo] = []
 
     def material_index(self, material: str) -> int:
@@ -166,6 +168,7 @@ class _Builder:
         # shading of images (render.light.rtable).
         mesh.carriageway_object = self.carriageway_object  # type: ignore[attr-defined]
         mesh.carriageway_objects = tuple(self.carriageway_objects)  # type: ignore[attr-defined]
+        mesh.carriageway_of = dict(self.carriageway_of)  # type: ignore[attr-defined]
         return mesh
 
 
@@ -176,6 +179,7 @@ def _street(b: _Builder, street: Street) -> None:
     carriageway = b.new_object("carriageway", "street")
     b.carriageway_object = carriageway
     b.carriageway_objects.append(carriageway)
+    b.carriageway_of["street"] = carriageway
     b.add(_ground_rect(0.0, L, -half, half, 0.0), street.carriageway_material, carriageway)
     for side in ("left", "right"):
         sign = 1.0 if side == "left" else -1.0
@@ -374,7 +378,8 @@ def compile_scene(scene: Scene) -> TriangleMesh:
     The mesh also carries ``mesh.objects``: one :class:`ObjectInfo` per object index, and
     ``mesh.carriageway_object``: the object index of the street's carriageway (-1 without a
     street), whose triangles alone an r-table shades; ``mesh.carriageway_objects``: those of
-    the street's and every road's carriageway (``[[roads]]``, :mod:`render.geometry.roads`).
+    the street's and every road's carriageway (``[[roads]]``, :mod:`render.geometry.roads`);
+    ``mesh.carriageway_of``: the same by key path (``"street"``, ``"roads[i]"``).
     """
     b = _Builder()
     if scene.street is not None:

@@ -621,6 +621,7 @@ def _build_road(b, road: Road, cl: Centreline, cuts: _Cuts, where: str) -> dict[
 
     carriageway = obj("carriageway")
     b.carriageway_objects.append(carriageway)
+    b.carriageway_of[where] = carriageway
     for i0, i1 in pieces(cuts.carriageway):
         part = slice(i0, i1)
         b.add(_ground_strip(cl.offset(-half)[part], cl.offset(half)[part], 0.0), sec.carriageway_material, carriageway)

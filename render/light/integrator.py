@@ -1127,18 +1127,37 @@ class _LightPass:
             if buffers.material_gloss is not None
             else np.tile([0.0, 1.0], (len(buffers.material_names), 1))
         )
-        road = buffers.road
-        if road is not None:
-            t = road.table
-            self.road = tuple(np.ascontiguousarray(a, np.float64) for a in (t.beta_deg, t.tan_gamma, t.r_sr))
-            self.road_object, self.road_scale, self.road_factor = (
-                int(road.object_id),
-                float(road.q_scale),
-                road.value_factor,
+        # One kernel pass per r-table (render.light.rtable.RoadShading.groups): (table arrays,
+        # the carriageway objects it shades, Q0 scale, value factor).
+        self.road_groups = [
+            (
+                tuple(np.ascontiguousarray(a, np.float64) for a in (g.table.beta_deg, g.table.tan_gamma, g.table.r_sr)),
+                np.asarray(g.shaded_objects, np.int32),
+                float(g.q_scale),
+                g.value_factor,
             )
-        else:
-            self.road, self.road_object, self.road_scale, self.road_factor = _NO_ROAD, -1, 1.0, 0.0
+            for g in (buffers.road.groups if buffers.road is not None else ())
+        ]
         self.area = lights.opening_m[:, 0] * lights.opening_m[:, 1]
+
+    def _passes(self, object_id, surf):
+        """The light kernel's passes over a tile: (active samples, object ids, r-table arrays,
+        shaded object, Q0 scale, value factor). Without r-tables, or with one table on one
+        carriageway, one pass over every sample as ever; otherwise one pass per table over the
+        samples on its carriageways (their ids mapped to one shaded id) and one over the rest."""
+        groups = self.road_groups
+        if not groups:
+            return [(surf, object_id, _NO_ROAD, -1, 1.0, 0.0)]
+        if len(groups) == 1 and groups[0][1].size == 1:
+            road, ids, scale, factor = groups[0]
+            return [(surf, object_id, road, int(ids[0]), scale, factor)]
+        passes = []
+        rest = surf.copy()
+        for road, ids, scale, factor in groups:
+            on = surf & np.isin(object_id, ids)
+            rest &= ~on
+            passes.append((on, np.where(on, ids[0], -1).astype(np.int32), road, int(ids[0]), scale, factor))
+        return [(rest, object_id, _NO_ROAD, -1, 1.0, 0.0), *passes]
 
     def evaluate(self, point, normal, geo, direction, response, object_id, emitter, emitter_response):
         """(value, spec) float32 (n, C) for n samples given as float32 geometry and int32 ids."""
@@ -1148,32 +1167,37 @@ class _LightPass:
         surf = (response >= 0) & (response != emitter_response)
         if self.grid is not None and np.any(surf):
             view_dirs = direction.astype(np.float64)
-            # Blocks handed out a few at a time: a busy thread does not hold up the others.
-            with numba.parallel_chunksize(_CHUNK_BLOCKS):
-                _direct_light(
-                    point.astype(np.float64),
-                    normal.astype(np.float64),
-                    geo.astype(np.float64),
-                    view_dirs,
-                    response,
-                    object_id,
-                    surf,
-                    self.lum,
-                    self.grid,
-                    self.tree,
-                    self.stack,
-                    self.shadows,
-                    SURFACE_OFFSET_M,
-                    self.negligible_lx,
-                    self.gloss,
-                    self.road,
-                    self.road_object,
-                    self.road_scale,
-                    self.road_factor,
-                    math.pi,
-                    value,
-                    spec,
-                )
+            for active, obj, road, road_object, road_scale, road_factor in self._passes(object_id, surf):
+                out_value, out_spec = (value, spec) if active is surf else (np.zeros_like(value), np.zeros_like(spec))
+                # Blocks handed out a few at a time: a busy thread does not hold up the others.
+                with numba.parallel_chunksize(_CHUNK_BLOCKS):
+                    _direct_light(
+                        point.astype(np.float64),
+                        normal.astype(np.float64),
+                        geo.astype(np.float64),
+                        view_dirs,
+                        response,
+                        obj,
+                        active,
+                        self.lum,
+                        self.grid,
+                        self.tree,
+                        self.stack,
+                        self.shadows,
+                        SURFACE_OFFSET_M,
+                        self.negligible_lx,
+                        self.gloss,
+                        road,
+                        road_object,
+                        road_scale,
+                        road_factor,
+                        math.pi,
+                        out_value,
+                        out_spec,
+                    )
+                if active is not surf:  # the kernel leaves 0 at the samples it does not evaluate
+                    value += out_value
+                    spec += out_spec
         value = value.astype(np.float32)
         spec = spec.astype(np.float32)
         lights = self.lights

@@ -32,8 +32,11 @@ images (:mod:`render.light.integrator`).
 **In images.** With ``street.r_table`` set, views chosen by ``street.r_table_views`` ("driver":
 views of kind driver, the default; "all"; "none") shade the street builder's carriageway
 triangles (``mesh.carriageway_object``; not other surfaces of the same material) with the
-table's BRDF instead of Lambert's: per luminaire, L = q·E with q = r(β, tan γ)/cos³γ, β from
-the horizontal direction of the camera ray (observer → point) to the horizontal direction
+table's BRDF instead of Lambert's; each road (``[[roads]]``) does the same for its own
+carriageway (its junction mouths included) with its own ``r_table``, ``q0_sr`` and
+``r_table_views`` (:func:`view_road_shading`; the carriageways are found through
+``mesh.carriageway_of``, and each distinct table is one pass of the light kernel): per
+luminaire, L = q·E with q = r(β, tan γ)/cos³γ, β from the horizontal direction of the camera ray (observer → point) to the horizontal direction
 point → luminaire, γ from the vertical, r scaled by Q0(road)/Q0(table) when ``q0_sr`` is
 given. :func:`r_lookup` interpolates inside the numba kernel exactly as :func:`r_value` does
 for the calculation, so a driver's image and the road-luminance figures agree. The table is
@@ -81,7 +84,7 @@ from __future__ import annotations
 
 import math
 import os
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import TYPE_CHECKING
 
@@ -94,7 +97,7 @@ from render.fileio import is_inside, read_user_text
 
 if TYPE_CHECKING:
     from render.geometry.mesh import TriangleMesh
-    from render.scene.model import Scene, View
+    from render.scene.model import Scene, Street, View
 
 __all__ = [
     "R_TABLE_VIEWS",
@@ -331,16 +334,31 @@ def road_q_sr(table: RTable, view_dir: np.ndarray, to_light: np.ndarray, scale: 
 
 @dataclass(frozen=True)
 class RoadShading:
-    """The carriageway of one view shaded with an r-table (see the module text).
+    """The carriageways of one view shaded with an r-table (see the module text).
 
-    ``object_id``: the carriageway's object index in the compiled mesh (only its triangles use
-    the table); ``q_scale``: Q0(road)/Q0(table), 1 when the scene gives no ``q0_sr``;
-    ``mean_reflectance``: ρ̄ = Σ ρ V / Σ V of the carriageway material."""
+    ``object_id``: a carriageway's object index in the compiled mesh (only the triangles of the
+    carriageways in ``object_ids`` use the table); ``q_scale``: Q0(road)/Q0(table), 1 when the
+    scene gives no ``q0_sr``; ``mean_reflectance``: ρ̄ = Σ ρ V / Σ V of the carriageway
+    material. ``more``: the shading of other carriageways of the view with another table, Q0
+    or material (roads each naming their own), one :class:`RoadShading` each."""
 
     table: RTable
     object_id: int
     q_scale: float
     mean_reflectance: float
+    #: Every carriageway object this table shades (empty: ``object_id`` alone).
+    object_ids: tuple[int, ...] = ()
+    more: tuple[RoadShading, ...] = ()
+
+    @property
+    def shaded_objects(self) -> tuple[int, ...]:
+        """The object indices this table shades."""
+        return self.object_ids or (self.object_id,)
+
+    @property
+    def groups(self) -> tuple[RoadShading, ...]:
+        """This shading and the others of ``more``, one per table (each with no ``more``)."""
+        return (self, *self.more)
 
     def diffuse_factor(self, q_sr: np.ndarray) -> np.ndarray:
         """The factor that turns the white-diffuser value E/π into the value the light buffers
@@ -356,13 +374,25 @@ class RoadShading:
 
 
 def r_table_applies(r_table_views: str, view_kind: str) -> bool:
-    """Whether a view of kind ``view_kind`` uses the r-table under ``street.r_table_views``."""
+    """Whether a view of kind ``view_kind`` uses the r-table under ``r_table_views``."""
     return r_table_views == "all" or (r_table_views == "driver" and view_kind == "driver")
 
 
+def _carriageways(scene: Scene, mesh: TriangleMesh) -> list[tuple[str, Street, int]]:
+    """(key path, cross-section, carriageway object index) of the street and every road."""
+    where_of = dict(getattr(mesh, "carriageway_of", {}) or {})
+    out = []
+    if scene.street is not None:
+        out.append(("street", scene.street, where_of.get("street", int(getattr(mesh, "carriageway_object", -1)))))
+    for road in scene.roads:
+        out.append((road.where, road.section, where_of.get(road.where, -1)))
+    return out
+
+
 def view_road_shading(scene: Scene, view: View, mesh: TriangleMesh, reflectances: np.ndarray) -> RoadShading | None:
-    """The r-table shading of ``view``'s carriageway, or None (no street, no ``street.r_table``,
-    or a view ``street.r_table_views`` leaves out).
+    """The r-table shading of ``view``'s carriageways, or None: the ``[street]``'s and each
+    road's carriageway whose ``r_table`` is set and whose ``r_table_views`` take the view.
+    Carriageways with the same table file, Q0 and material share one group (one kernel pass).
 
     ``reflectances`` (K, N_BINS): the reflectance of each material index of ``mesh``.
 
@@ -370,34 +400,46 @@ def view_road_shading(scene: Scene, view: View, mesh: TriangleMesh, reflectances
     ------
     InputError
         The table cannot be read, lies outside the scene's folder under strict paths, or gives
-        no Q0 while the scene asks for ``q0_sr``."""
-    street = scene.street
-    if street is None or street.r_table_file is None or not r_table_applies(street.r_table_views, view.kind):
-        return None
-    object_id = int(getattr(mesh, "carriageway_object", -1))
-    on_road = np.nonzero(mesh.object_id == object_id)[0] if object_id >= 0 else np.zeros(0, np.int64)
-    if on_road.size == 0:
-        return None
-    path = Path(street.r_table_file)
-    root = scene.reference_root
-    if root is not None and not is_inside(path, root):
-        raise input_error(
-            scene.path,
-            "street.r_table",
-            f"the r-table file is outside {Path(root).resolve()}; with strict paths only files inside that folder are read",
-        )
-    table = read_r_table(path)
-    q_scale = 1.0
-    if street.q0_sr is not None:
-        if table.q0_sr is None:
-            raise input_error(
-                scene.path,
-                "street.q0_sr",
-                f"the r-table {path.name} gives no Q0 (a 'q0,VALUE' line), so it cannot be scaled to the road's Q0",
-            )
-        q_scale = float(street.q0_sr) / table.q0_sr
+        no Q0 while the scene asks for ``q0_sr`` (naming ``street.…`` or ``roads[i].…``)."""
     from render.colour.materials import luminous_reflectance
 
-    rho = np.asarray(reflectances, np.float64)[int(mesh.material_id[on_road[0]])]
-    mean = float(luminous_reflectance(rho, np.ones_like(rho)))
-    return RoadShading(table=table, object_id=object_id, q_scale=q_scale, mean_reflectance=mean)
+    groups: dict[tuple, list] = {}
+    for where, section, object_id in _carriageways(scene, mesh):
+        if section.r_table_file is None or not r_table_applies(section.r_table_views, view.kind) or object_id < 0:
+            continue
+        on_road = np.nonzero(mesh.object_id == object_id)[0]
+        if on_road.size == 0:
+            continue
+        path = Path(section.r_table_file)
+        root = scene.reference_root
+        if root is not None and not is_inside(path, root):
+            raise input_error(
+                scene.path,
+                f"{where}.r_table",
+                f"the r-table file is outside {Path(root).resolve()}; with strict paths only files inside that folder are read",
+            )
+        table = read_r_table(path)
+        q_scale = 1.0
+        if section.q0_sr is not None:
+            if table.q0_sr is None:
+                raise input_error(
+                    scene.path,
+                    f"{where}.q0_sr",
+                    f"the r-table {path.name} gives no Q0 (a 'q0,VALUE' line), so it cannot be scaled to the road's Q0",
+                )
+            q_scale = float(section.q0_sr) / table.q0_sr
+        material = int(mesh.material_id[on_road[0]])
+        key = (str(path), q_scale, material)
+        if key not in groups:
+            rho = np.asarray(reflectances, np.float64)[material]
+            groups[key] = [table, q_scale, float(luminous_reflectance(rho, np.ones_like(rho))), []]
+        groups[key][3].append(object_id)
+    shadings = [
+        RoadShading(
+            table=t, object_id=ids[0], q_scale=q, mean_reflectance=m, object_ids=tuple(ids) if len(ids) > 1 else ()
+        )
+        for t, q, m, ids in groups.values()
+    ]
+    if not shadings:
+        return None
+    return replace(shadings[0], more=tuple(shadings[1:]))

@@ -205,6 +205,10 @@ ROAD_SECTION_KEYS = (
     "frontage_material",
     "centre_line",
     "line_material",
+    "wet",
+    "r_table",
+    "q0_sr",
+    "r_table_views",
     "left",
     "right",
 )
@@ -651,6 +655,7 @@ def _roads(entries: list, ctx: _Context) -> list[Road]:
         where = f"roads[{i}]"
         r = _defaults_after_problems(check_table(entry, ROAD_SPEC, where, ctx.problems), ROAD_SPEC)
         sides = _sides(r, where, ctx)
+        r_table = _r_table(r, where, ctx)
         points = (
             _point_list(entry["points_m"], f"{where}.points_m", ctx.problems, 2)
             if isinstance(entry, dict) and "points_m" in entry
@@ -690,6 +695,10 @@ def _roads(entries: list, ctx: _Context) -> list[Road]:
             line_material=r["line_material"],
             left=sides["left"],
             right=sides["right"],
+            wet=bool(r["wet"]),
+            r_table_file=r_table,
+            q0_sr=r["q0_sr"],
+            r_table_views=r["r_table_views"] or "driver",
         )
         road = Road(
             r["name"],
@@ -744,21 +753,28 @@ def _along(value, where: str, ctx: _Context, roads: list[Road]) -> tuple[tuple[f
     return (float(xy[0]), float(xy[1]), z), heading
 
 
-def _street(table: dict, ctx: _Context) -> Street | None:
-    """The street, or None when its length or carriageway width has a problem."""
-    s = _defaults_after_problems(check_table(table, STREET_SPEC, "street", ctx.problems), STREET_SPEC)
-    sides = _sides(s, "street", ctx)
-    r_table = ctx.data_file(s["r_table"], "street.r_table", "r_table")
+def _r_table(s: dict, where: str, ctx: _Context) -> Path | None:
+    """The checked ``r_table`` file of a ``[street]`` or ``[[roads]]`` table ``s`` at ``where``,
+    with its ``q0_sr`` checked against it."""
+    r_table = ctx.data_file(s["r_table"], f"{where}.r_table", "r_table")
     if s["q0_sr"] is not None and s["r_table"] is None:
-        ctx.problems.add("street.q0_sr", "q0_sr scales an r-table: give `r_table` too")
+        ctx.problems.add(f"{where}.q0_sr", "q0_sr scales an r-table: give `r_table` too")
     elif s["q0_sr"] is not None and r_table is not None:
         from render.light.rtable import read_r_table
 
         if read_r_table(r_table).q0_sr is None:
             ctx.problems.add(
-                "street.q0_sr",
+                f"{where}.q0_sr",
                 f"the r-table {r_table.name} gives no Q0 (a 'q0,VALUE' line), so it cannot be scaled to the road's Q0",
             )
+    return r_table
+
+
+def _street(table: dict, ctx: _Context) -> Street | None:
+    """The street, or None when its length or carriageway width has a problem."""
+    s = _defaults_after_problems(check_table(table, STREET_SPEC, "street", ctx.problems), STREET_SPEC)
+    sides = _sides(s, "street", ctx)
+    r_table = _r_table(s, "street", ctx)
     if any(s[k] is None for k in ("length_m", "carriageway_width_m")):
         return None
     return Street(
@@ -1280,20 +1296,38 @@ def expand_row(r: dict, n: int, where: str, street: Street, road: Road | None = 
     return out
 
 
-def _gloss(entries: list, ctx: _Context, street: Street | None) -> dict[str, tuple[float, float]]:
-    """Specular layers per material: ``[[gloss]]`` entries, and ``street.wet`` for the street's
-    walking and driving surfaces (water film, :mod:`render.light.gloss`)."""
+def _wet_surfaces(section: Street) -> set[str]:
+    """The materials a water film covers on a wet street or road: carriageway, footways, line."""
+    return {
+        section.carriageway_material,
+        section.left.footway_material,
+        section.right.footway_material,
+        section.line_material,
+    }
+
+
+def _gloss(
+    entries: list, ctx: _Context, street: Street | None, roads: list[Road] = ()
+) -> dict[str, tuple[float, float]]:
+    """Specular layers per material: ``[[gloss]]`` entries, and ``wet`` of the street and of
+    each road for their walking and driving surfaces (water film, :mod:`render.light.gloss`).
+    The film is per material: a dry street or road sharing such a material with a wet one is a
+    problem naming the dry one's ``wet`` key."""
     from render.light.gloss import WATER_F0, WET_ROUGHNESS
 
     out: dict[str, tuple[float, float]] = {}
-    if street is not None and street.wet:
-        for m in {
-            street.carriageway_material,
-            street.left.footway_material,
-            street.right.footway_material,
-            street.line_material,
-        }:
-            out[m] = (WATER_F0, WET_ROUGHNESS)
+    sections = ([("street", street)] if street is not None else []) + [(r.where, r.section) for r in roads]
+    wet = {m: where for where, section in sections if section.wet for m in sorted(_wet_surfaces(section))}
+    for m in wet:
+        out[m] = (WATER_F0, WET_ROUGHNESS)
+    for where, section in sections:
+        shared = sorted(m for m in _wet_surfaces(section) if m in wet) if not section.wet else []
+        if shared:
+            ctx.problems.add(
+                f"{where}.wet",
+                f"{where} is dry but shares {', '.join(shown(m) for m in shared)} with {wet[shared[0]]}, which is wet; "
+                "the water film is per material: make both wet (`wet = true`) or give them different materials",
+            )
     for i, entry in enumerate(entries):
         where = f"gloss[{i}]"
         g = check_table(entry, GLOSS_SPEC, where, ctx.problems)
@@ -1517,7 +1551,7 @@ def load_scene_document(doc: dict, path: str | os.PathLike, *, strict_paths: boo
                 problems.add(where, f"no setup named {shown(name)}{did_you_mean(name, list(setups))} in [setups]")
     if (compare["before"] is None) != (not compare["options"]) and top["compare"]:
         problems.add("compare", "give both `before` (one setup) and `options` (a list of setups)")
-    gloss = _gloss(top["gloss"] or [], ctx, street)
+    gloss = _gloss(top["gloss"] or [], ctx, street, roads)
     if top["street"] is None and not top["roads"] and not objects and not frontages:
         problems.add(
             "", "the scene has no [street], [[roads]], [[objects]], [[geometry]] or [[frontages]]: nothing to render"
