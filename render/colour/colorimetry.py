@@ -1,18 +1,30 @@
-"""From light buffers to absolute colorimetry: X, Y, Z (Y in cd/m²) and scotopic luminance.
+"""From light buffers to absolute colorimetry: X, Y, Z (Y in cd/m²), scotopic luminance, or
+any other observer's responses.
 
-The **response table** ``R[k, l]`` holds, for reflectance ``k`` and lamp ``l``, the absolute
-X, Y, Z and scotopic Y' of the light a surface of that reflectance returns per cd/m² of
+The **response table** ``R[k, l, c]`` holds, for reflectance ``k``, lamp ``l`` and observer
+weight ``w_c``, the response to the light a surface of that reflectance returns per cd/m² of
 "white-diffuser luminance" (E/π) of that lamp's light:
+
+    R[k, l, c] = Σ ρ_k(λ) s_l(λ) w_c(λ) Δλ
+
+with ``s_l`` the lamp's spectral power distribution normalised so that Km·Σ s_l V Δλ = 1 and
+``w_c`` any weights on the grid (one column per response). The colorimetric weights
+(:func:`colorimetric_weights`) are Km·x̄, Km·ȳ, Km·z̄ and K'm·V':
 
     R[k, l] = (Km·Σ ρ_k s_l x̄ Δλ, Km·Σ ρ_k s_l ȳ Δλ, Km·Σ ρ_k s_l z̄ Δλ, K'm·Σ ρ_k s_l V' Δλ)
 
-with ``s_l`` the lamp's spectral power distribution normalised so that Km·Σ s_l V Δλ = 1. Its
-``Y`` entry is the luminous reflectance of ``k`` under lamp ``l``; its ``Y'`` entry for ρ = 1 is
-the lamp's S/P ratio. The last row (ρ = 1) serves visible luminous openings. The tables cost
+whose ``Y`` entry is the luminous reflectance of ``k`` under lamp ``l`` and whose ``Y'`` entry
+for ρ = 1 is the lamp's S/P ratio. Other weights give other responses from the same buffers
+with the same code: the colour-discrimination analysis passes the CIE 2006 cone fundamentals
+beside V' (:func:`render.vision.discrimination.cones.cone_rod_weights`); weights with more axes
+(``(N_BINS, n_nodes, C)``, e.g. each observer function times a hat function on coarser spectral
+nodes) give a table with those axes, ``(K + 1, M, n_nodes, C)``. The last row (ρ = 1) serves
+visible luminous openings and the spectrally neutral specular layer. The tables cost
 ``n_materials × n_lamps`` integrals on the 1 nm grid, once; per pixel the cost is independent of
 the number of wavelength bins.
 
-:func:`resolve` combines buffers, per-channel factors and lamps into images.
+:func:`resolve` combines buffers, per-channel factors and lamps into the colorimetric images
+(:class:`ViewColorimetry`); :func:`resolve_responses` does the same for any weights.
 
 References
 ----------
@@ -38,7 +50,15 @@ from render.colour.spectra import BIN_WIDTH_NM
 if TYPE_CHECKING:
     from render.light.integrator import LightBuffers
 
-__all__ = ["ViewColorimetry", "coarsen", "resolve", "response_table", "unit_photopic"]
+__all__ = [
+    "ViewColorimetry",
+    "coarsen",
+    "colorimetric_weights",
+    "resolve",
+    "resolve_responses",
+    "response_table",
+    "unit_photopic",
+]
 
 
 def unit_photopic(spd: ArrayLike) -> np.ndarray:
@@ -65,8 +85,17 @@ def coarsen(values: ArrayLike, step_bins: int, mean: bool) -> np.ndarray:
     return bands.sum(axis=-1) / counts if mean else bands.sum(axis=-1)
 
 
-def response_table(reflectances: ArrayLike, lamp_spds: ArrayLike, step_nm: int = 1) -> np.ndarray:
-    """``R`` of shape (K + 1, M, 4) for K reflectances (K, N_BINS) and M lamps (M, N_BINS);
+def colorimetric_weights() -> np.ndarray:
+    """(N_BINS, 4) weights Km·x̄, Km·ȳ, Km·z̄, K'm·V': the response table's default columns,
+    absolute X, Y, Z and scotopic Y' in cd/m² (CIE 15:2004, CIE 1951 scotopic)."""
+    return np.concatenate([KM_LM_PER_W * cmfs_xyz(), KM_SCOTOPIC_LM_PER_W * scotopic_lef()[:, None]], axis=1)
+
+
+def response_table(
+    reflectances: ArrayLike, lamp_spds: ArrayLike, step_nm: int = 1, weights: ArrayLike | None = None
+) -> np.ndarray:
+    """``R`` of shape (K + 1, M, *C) for K reflectances (K, N_BINS), M lamps (M, N_BINS) and
+    observer ``weights`` of shape (N_BINS, *C) (default :func:`colorimetric_weights`, C = 4);
     row K is the white (ρ = 1) response used for luminous openings.
 
     ``step_nm`` > 1 evaluates the integrals on a coarser grid (band means of reflectance and
@@ -75,52 +104,64 @@ def response_table(reflectances: ArrayLike, lamp_spds: ArrayLike, step_nm: int =
     n = photopic_lef().size
     rho = np.vstack([np.asarray(reflectances, np.float64).reshape(-1, n), np.ones((1, n))])
     s = np.vstack([unit_photopic(x) for x in np.asarray(lamp_spds, np.float64).reshape(-1, n)]) * BIN_WIDTH_NM
-    weights = np.concatenate([KM_LM_PER_W * cmfs_xyz(), KM_SCOTOPIC_LM_PER_W * scotopic_lef()[:, None]], axis=1)
+    w = colorimetric_weights() if weights is None else np.asarray(weights, np.float64)
+    if w.ndim < 1 or w.shape[0] != n:
+        raise ValueError(f"weights must have {n} rows, one per bin of the grid; got shape {w.shape}")
+    tail = w.shape[1:]
+    w = w.reshape(n, -1)
     if step_nm > 1:
         k = int(round(step_nm / BIN_WIDTH_NM))
-        rho, s, weights = coarsen(rho, k, True), coarsen(s, k, False), coarsen(weights.T, k, True).T
-    # (K+1, N) x (M, N) x (N, 4) -> (K+1, M, 4)
-    return np.einsum("kn,mn,nc->kmc", rho, s, weights)
+        rho, s, w = coarsen(rho, k, True), coarsen(s, k, False), coarsen(w.T, k, True).T
+    # (K+1, N) x (M, N) x (N, C) -> (K+1, M, C)
+    table = np.einsum("kn,mn,nc->kmc", rho, s, w)
+    return table.reshape(table.shape[:2] + tail)
+
+
+#: Responses the resolve kernel accumulates at once (tables are padded to a multiple of it).
+_GROUP = 4
 
 
 @numba.njit(cache=True, nogil=True, parallel=True)
 def _resolve_kernel(response, value, spec, factors, lamp_of_channel, table, spp, out):
+    # Four responses at a time in registers; ``table`` (K + 1, M, J) and ``out`` (P, J) have J a
+    # multiple of four. With J = 4 the sums run in the same order as one pass per response.
     n_pix = out.shape[0]
     C = value.shape[1]
     white = table.shape[0] - 1
     inv = 1.0 / spp
     for p in prange(n_pix):
-        a0 = 0.0
-        a1 = 0.0
-        a2 = 0.0
-        a3 = 0.0
-        for s in range(p * spp, p * spp + spp):
-            k = response[s]
-            if k < 0:
-                continue
-            for c in range(C):
-                v = value[s, c] * factors[c]
-                if v == 0.0:
+        for j in range(0, table.shape[2], 4):
+            a0 = 0.0
+            a1 = 0.0
+            a2 = 0.0
+            a3 = 0.0
+            for s in range(p * spp, p * spp + spp):
+                k = response[s]
+                if k < 0:
                     continue
-                l = lamp_of_channel[c]
-                a0 += v * table[k, l, 0]
-                a1 += v * table[k, l, 1]
-                a2 += v * table[k, l, 2]
-                a3 += v * table[k, l, 3]
-            # The specular layer is spectrally neutral: the lamp's own light (white response).
-            for c in range(C):
-                v = spec[s, c] * factors[c]
-                if v == 0.0:
-                    continue
-                l = lamp_of_channel[c]
-                a0 += v * table[white, l, 0]
-                a1 += v * table[white, l, 1]
-                a2 += v * table[white, l, 2]
-                a3 += v * table[white, l, 3]
-        out[p, 0] = a0 * inv
-        out[p, 1] = a1 * inv
-        out[p, 2] = a2 * inv
-        out[p, 3] = a3 * inv
+                for c in range(C):
+                    v = value[s, c] * factors[c]
+                    if v == 0.0:
+                        continue
+                    l = lamp_of_channel[c]
+                    a0 += v * table[k, l, j]
+                    a1 += v * table[k, l, j + 1]
+                    a2 += v * table[k, l, j + 2]
+                    a3 += v * table[k, l, j + 3]
+                # The specular layer is spectrally neutral: the lamp's own light (white response).
+                for c in range(C):
+                    v = spec[s, c] * factors[c]
+                    if v == 0.0:
+                        continue
+                    l = lamp_of_channel[c]
+                    a0 += v * table[white, l, j]
+                    a1 += v * table[white, l, j + 1]
+                    a2 += v * table[white, l, j + 2]
+                    a3 += v * table[white, l, j + 3]
+            out[p, j] = a0 * inv
+            out[p, j + 1] = a1 * inv
+            out[p, j + 2] = a2 * inv
+            out[p, j + 3] = a3 * inv
 
 
 @numba.njit(cache=True, nogil=True)
@@ -164,6 +205,78 @@ class ViewColorimetry:
         return self.xyz_cd_m2[..., 1]
 
 
+def _lamps_of_channels(lamp_spds: Sequence[np.ndarray]) -> tuple[list[np.ndarray], np.ndarray]:
+    """The distinct spectra among the channels' (each once, in order of first use) and, per
+    channel, the index of its spectrum among them."""
+    spd_list: list[np.ndarray] = []
+    lamp_of_channel = np.zeros(len(lamp_spds), np.int64)
+    for c, spd in enumerate(lamp_spds):
+        for j, other in enumerate(spd_list):
+            if other is spd or np.array_equal(other, spd):
+                lamp_of_channel[c] = j
+                break
+        else:
+            lamp_of_channel[c] = len(spd_list)
+            spd_list.append(np.asarray(spd))
+    return spd_list, lamp_of_channel
+
+
+def _resolve_table(buffers: LightBuffers, factors: ArrayLike, lamp_of_channel: np.ndarray, table: np.ndarray):
+    """(H, W, J) per-pixel responses of a flat table (K + 1, M, J) over the buffers."""
+    n_pix = buffers.width_px * buffers.height_px
+    n_out = table.shape[2]
+    pad = (-n_out) % _GROUP
+    if pad:
+        table = np.concatenate([table, np.zeros(table.shape[:2] + (pad,))], axis=2)
+    out = np.zeros((n_pix, n_out + pad))
+    spec = buffers.spec_cd_m2 if buffers.spec_cd_m2 is not None else np.zeros_like(buffers.value_cd_m2)
+    _resolve_kernel(
+        buffers.response,
+        buffers.value_cd_m2,
+        spec,
+        np.ascontiguousarray(factors, np.float64),
+        lamp_of_channel,
+        np.ascontiguousarray(table),
+        buffers.spp,
+        out,
+    )
+    return out[:, :n_out].reshape(buffers.height_px, buffers.width_px, n_out)
+
+
+def _channel_table(
+    lamp_spds: Sequence[np.ndarray], reflectances: ArrayLike, step_nm: int, weights: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """The flat response table (K + 1, M, J) of the channels' distinct lamps and each
+    channel's lamp index."""
+    spd_list, lamp_of_channel = _lamps_of_channels(lamp_spds)
+    n_out = int(np.prod(weights.shape[1:], dtype=np.int64))
+    if spd_list:
+        table = response_table(reflectances, np.array(spd_list), step_nm, weights).reshape(
+            len(reflectances) + 1, len(spd_list), n_out
+        )
+    else:
+        table = np.zeros((len(reflectances) + 1, 1, n_out))
+    return table, lamp_of_channel
+
+
+def resolve_responses(
+    buffers: LightBuffers,
+    factors: ArrayLike,
+    lamp_spds: Sequence[np.ndarray],
+    reflectances: ArrayLike,
+    weights: ArrayLike,
+    step_nm: int = 1,
+) -> np.ndarray:
+    """Per-pixel responses of any observer ``weights`` (N_BINS, *C) from light buffers:
+    (H, W, *C), the mean over each pixel's samples of Σ_channels value·factor·R[k, lamp]
+    (:func:`response_table`). Arguments as :func:`resolve`; e.g. the CIE 2006 cone signals and
+    scotopic luminance of :func:`render.vision.discrimination.cones.cone_rod_weights`."""
+    w = np.asarray(weights, np.float64)
+    table, lamp_of_channel = _channel_table(lamp_spds, reflectances, step_nm, w)
+    out = _resolve_table(buffers, factors, lamp_of_channel, table)
+    return out.reshape(out.shape[:2] + w.shape[1:])
+
+
 def resolve(
     buffers: LightBuffers,
     factors: ArrayLike,
@@ -186,35 +299,8 @@ def resolve(
     step_nm
         Spectral band width of the colorimetric integrals (see :func:`response_table`).
     """
-    spd_list: list[np.ndarray] = []
-    lamp_of_channel = np.zeros(len(lamp_spds), np.int64)
-    for c, spd in enumerate(lamp_spds):
-        for j, other in enumerate(spd_list):
-            if other is spd or np.array_equal(other, spd):
-                lamp_of_channel[c] = j
-                break
-        else:
-            lamp_of_channel[c] = len(spd_list)
-            spd_list.append(np.asarray(spd))
-    table = (
-        response_table(reflectances, np.array(spd_list), step_nm)
-        if spd_list
-        else np.zeros((len(reflectances) + 1, 1, 4))
-    )
-    n_pix = buffers.width_px * buffers.height_px
-    out = np.zeros((n_pix, 4))
-    spec = buffers.spec_cd_m2 if buffers.spec_cd_m2 is not None else np.zeros_like(buffers.value_cd_m2)
-    _resolve_kernel(
-        buffers.response,
-        buffers.value_cd_m2,
-        spec,
-        np.ascontiguousarray(factors, np.float64),
-        lamp_of_channel,
-        np.ascontiguousarray(table),
-        buffers.spp,
-        out,
-    )
-    out = out.reshape(buffers.height_px, buffers.width_px, 4)
+    table, lamp_of_channel = _channel_table(lamp_spds, reflectances, step_nm, colorimetric_weights())
+    out = _resolve_table(buffers, factors, lamp_of_channel, table)
     # The illuminant's colour: each channel's mean white-diffuser luminance over the lit surfaces
     # seen, times the white response of its lamp.
     n_surf, sums = _surface_sums(buffers.response, buffers.value_cd_m2, buffers.emitter_response)

@@ -30,7 +30,7 @@ References
 - CIE 191:2010 (MES2): the adaptation coefficient behind :func:`hue_availability`.
 """
 
-from render.vision.discrimination.cones import cone_fundamentals, cone_signals
+from render.vision.discrimination.cones import CONE_ROD_RESPONSES, cone_fundamentals, cone_rod_weights, cone_signals
 from render.vision.discrimination.csf import CHANNELS, disc_sensitivities, gabor_sensitivity, mechanism_contrasts
 from render.vision.discrimination.pairs import (
     EASY_MULTIPLE,
@@ -51,6 +51,7 @@ from render.vision.discrimination.pairs import (
 
 __all__ = [
     "CHANNELS",
+    "CONE_ROD_RESPONSES",
     "EASY_MULTIPLE",
     "HARD_MULTIPLE",
     "HUE_MIN_M",
@@ -59,6 +60,7 @@ __all__ = [
     "PairDiscrimination",
     "SurfaceSignals",
     "cone_fundamentals",
+    "cone_rod_weights",
     "cone_signals",
     "disc_diameter_deg",
     "disc_sensitivities",

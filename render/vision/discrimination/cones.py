@@ -43,10 +43,12 @@ from render.colour.observers import KM_LM_PER_W
 from render.colour.spectra import BIN_WIDTH_NM, WAVELENGTHS_NM
 
 __all__ = [
+    "CONE_ROD_RESPONSES",
     "L_WEIGHT",
     "M_WEIGHT",
     "S_OVER_LUMINANCE_D65",
     "cone_fundamentals",
+    "cone_rod_weights",
     "cone_signals",
 ]
 
@@ -55,6 +57,8 @@ L_WEIGHT = 0.68990272
 M_WEIGHT = 0.34832189
 #: S/(L + M) of D65 for which castleCSF's yellow-violet mechanism is balanced (1/50.9875).
 S_OVER_LUMINANCE_D65 = 1.0 / 50.9875
+#: The columns of :func:`cone_rod_weights`.
+CONE_ROD_RESPONSES = ("L", "M", "S", "scotopic")
 
 
 def _peak_normalised_fundamentals() -> np.ndarray:
@@ -91,3 +95,16 @@ def cone_signals(spectral_radiance: npt.ArrayLike) -> np.ndarray:
     Returns the last axis replaced by (L, M, S), with L + M the luminance in cd/m².
     """
     return np.asarray(spectral_radiance, dtype=np.float64) @ cone_fundamentals() * BIN_WIDTH_NM
+
+
+@lru_cache(maxsize=1)
+def cone_rod_weights() -> np.ndarray:
+    """(N_BINS, 4) observer weights L, M, S (:func:`cone_fundamentals`) and K'm·V'(λ) (scotopic
+    luminance, CIE 1951): the columns :data:`CONE_ROD_RESPONSES` of a response table
+    (:func:`render.colour.colorimetry.response_table`), so that the light buffers give each
+    pixel's cone signals (L + M in cd/m²) and scotopic luminance (cd/m²). Read-only."""
+    from render.colour.observers import KM_SCOTOPIC_LM_PER_W, scotopic_lef
+
+    w = np.concatenate([cone_fundamentals(), KM_SCOTOPIC_LM_PER_W * scotopic_lef()[:, None]], axis=1)
+    w.setflags(write=False)
+    return w
