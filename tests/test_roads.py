@@ -15,7 +15,8 @@ The checks and their sources:
   geometry), within the circular segments the chords leave out; no two ground triangles at one
   height cover the same point (a point-in-triangle count);
 * calculation fields on a straight stretch of a road are the street's grid turned with the
-  road (analytic rotation); every mistake an InputError naming the key.
+  road (analytic rotation; curved stretches: tests/test_calc_on_roads.py); every mistake an
+  InputError naming the key.
 """
 
 from __future__ import annotations
@@ -361,16 +362,6 @@ def test_positions_along_a_road_follow_its_shape(tmp_path):
         expected = start + ref.points_m[:, :1] * t + ref.points_m[:, 1:2] * n
         np.testing.assert_allclose(f.points_m[:, :2], expected, atol=1e-9)
         np.testing.assert_array_equal(f.points_m[:, 2], ref.points_m[:, 2])
-
-
-def test_fields_on_a_curved_stretch_are_refused(tmp_path):
-    rows = [{"road": "bend", "start_m": 50.0, "spacing_m": 30.0, "count": 2, "mounting_height_m": 6.0, "lamp": LAMP}]
-    s = scene(tmp_path, roads=[{**BEND, "carriageway_width_m": 6.0}], luminaire_rows=rows)
-    from render.calc.fields import row_fields
-
-    with pytest.raises(InputError, match="curved stretch are not supported yet") as err:
-        row_fields(s, 0, 0)
-    assert err.value.problems[0].where == "luminaire_rows[0]"
 
 
 @pytest.mark.parametrize(

@@ -18,6 +18,9 @@ inside on the carriageway (z = 0).
 
 Being a ratio, R_EI does not change with the setup's lumens, dimming or maintenance factor.
 
+On a road the strips follow it: laid along its centreline over the same distances along it as
+the fields (:func:`render.calc.fields.lay_along`), at the same offsets from the curved kerb.
+
 References
 ----------
 * CIE ILV (CIE S 017), term "surround ratio": the mean illuminance on strips adjacent to both
@@ -34,10 +37,11 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from render.calc.fields import CalculationField, evaluate_field, footway_across, points_along
+from render.calc.fields import CalculationField, evaluate_field, footway_across, lay_along, points_along
 from render.scene.model import Setup, Street
 
 if TYPE_CHECKING:
+    from render.geometry.roads import Centreline
     from render.study import Study
 
 __all__ = ["EdgeResult", "edge_illuminance_ratio", "edge_strip_width_m", "edge_strips"]
@@ -89,10 +93,12 @@ def _strip(name: str, street: Street, x0: float, length_m: float, y0: float, wid
 
 
 def edge_strips(
-    street: Street, x_start_m: float, spacing_m: float, side: str
+    street: Street, x_start_m: float, spacing_m: float, side: str, path: Centreline | None = None
 ) -> tuple[CalculationField, CalculationField]:
     """(inside, outside) strips on ``side`` ("right" at −y or "left" at +y) from ``x_start_m``
-    over ``spacing_m``."""
+    over ``spacing_m``; with ``path`` (a road's centreline, ``street`` its cross-section) the
+    strips are laid along it, x the distance along and y the offset across
+    (:func:`render.calc.fields.lay_along`)."""
     w = edge_strip_width_m(street, side)
     if not w > 0:
         raise ValueError(f"no room beside the carriageway on the {side} for an edge strip")
@@ -101,20 +107,29 @@ def edge_strips(
         inside_y0, outside_y0 = half - w, half
     else:
         inside_y0, outside_y0 = -half, -half - w
-    return (
+    strips = (
         _strip(f"edge {side} inside", street, x_start_m, spacing_m, inside_y0, w),
         _strip(f"edge {side} outside", street, x_start_m, spacing_m, outside_y0, w),
     )
+    if path is None:
+        return strips
+    return lay_along(strips[0], path), lay_along(strips[1], path)
 
 
 def edge_illuminance_ratio(
-    study: Study, street: Street, x_start_m: float, spacing_m: float, setup: str | Setup | None = None
+    study: Study,
+    street: Street,
+    x_start_m: float,
+    spacing_m: float,
+    setup: str | Setup | None = None,
+    path: Centreline | None = None,
 ) -> list[EdgeResult]:
     """R_EI on the right (−y) then the left (+y) side of the field from ``x_start_m`` over
-    ``spacing_m`` under ``setup`` (direct light with shadows, as :func:`evaluate_field`)."""
+    ``spacing_m`` under ``setup`` (direct light with shadows, as :func:`evaluate_field`); with
+    ``path`` on a road (``street`` its cross-section, distances along its centreline)."""
     out = []
     for side in ("right", "left"):
-        inside, outside = edge_strips(street, x_start_m, spacing_m, side)
+        inside, outside = edge_strips(street, x_start_m, spacing_m, side, path)
         e_in = evaluate_field(study, inside, setup)
         e_out = evaluate_field(study, outside, setup)
         out.append(

@@ -34,9 +34,18 @@ horizontal illuminance E_h = E_n·sin ε and the unit direction u toward the lum
 E_sc = E_h/u_z·(|u_xy| + u·f)/π (f the facing direction), so luminaires at or below the
 point's height are not counted (none in a street layout).
 
-A row along a road (``luminaire_rows.road``) gets the same grids laid along the road's
-centreline between two of its luminaires (:func:`road_row_fields`), where the road does not
-bend between them; curved stretches are refused for now.
+**Along a road.** A row along a road (``luminaire_rows.road``) gets the same grids laid along
+the road's centreline between two of its luminaires (:func:`road_row_fields`), straight or
+curved: the field's length S is the distance along the centreline between the two luminaires'
+stations (arc lengths measured along the drawn chords), the N points along it are spaced
+D = S/N in distance along the centreline by the rules above, and the points across a lane or
+footway lie at their offsets from the centreline along its local normal, so that each point
+keeps its stated distance from the curved kerb (the kerb is the offset curve at half the
+carriageway width). A field so laid (:func:`lay_along`) keeps its distances along and across
+(``along_m``, ``across_m``) and the centreline (``path``); the observers of the road
+luminance and TI, the edge strips, the facade points and the illuminance plan use them.
+Facing directions of the face fields are then given in the road's frame: x along the road
+(toward its last point), y across (+ left), z up.
 
 Elsewhere: the luminance grid's observer positions (:mod:`render.calc.road`), the edge
 illuminance ratio (:mod:`render.calc.edge`). Not done: fields of staggered or opposite rows (a
@@ -55,7 +64,7 @@ References
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -63,9 +72,10 @@ import numpy as np
 from render.errors import input_error
 from render.light.integrator import direct_pairs
 from render.light.luminaires import channel_factors
-from render.scene.model import Scene, Setup, Street
+from render.scene.model import Road, Scene, Setup, Street
 
 if TYPE_CHECKING:
+    from render.geometry.roads import Centreline
     from render.study import Study
 
 __all__ = [
@@ -76,9 +86,12 @@ __all__ = [
     "evaluate_field",
     "footway_across",
     "lane_across",
+    "lay_along",
     "points_along",
     "road_row_fields",
     "row_fields",
+    "row_road",
+    "row_section",
     "row_positions",
     "semicylindrical_illuminance_lx",
     "street_fields",
@@ -110,6 +123,32 @@ class CalculationField:
     normals: np.ndarray
     shape: tuple[int, int]
     spacing_m: tuple[float, float]  # (D along, d across)
+    #: The road's centreline the field is laid along (None: the [street], x along, y across).
+    path: Centreline | None = None
+    #: (n,) distance along the road and offset across it of each point (None: x and y).
+    along_m: np.ndarray | None = None
+    across_m: np.ndarray | None = None
+
+    @property
+    def along(self) -> np.ndarray:
+        """(n,) distance of each point along the street or road, m."""
+        return self.points_m[:, 0] if self.along_m is None else self.along_m
+
+    @property
+    def across(self) -> np.ndarray:
+        """(n,) offset of each point across the street or road (+ left), m."""
+        return self.points_m[:, 1] if self.across_m is None else self.across_m
+
+    def to_world(self, vectors: np.ndarray) -> np.ndarray:
+        """(n, 3) directions given in the field's frame (x along, y across, z up) per point, in
+        the world (unchanged on a [street])."""
+        v = np.broadcast_to(np.asarray(vectors, np.float64), self.points_m.shape)
+        if self.path is None:
+            return np.array(v)
+        _, t = self.path.frame(self.along)
+        n = np.stack([-t[:, 1], t[:, 0]], axis=1)
+        xy = v[:, :1] * t + v[:, 1:2] * n
+        return np.column_stack([xy, v[:, 2]])
 
 
 @dataclass(frozen=True)
@@ -232,16 +271,58 @@ def row_positions(scene: Scene, row: int = 0) -> np.ndarray:
     return p[np.argsort(p[:, 0], kind="stable")]
 
 
+def lay_along(field: CalculationField, path: Centreline) -> CalculationField:
+    """``field`` given in a road's own frame (x the distance along its centreline, y the offset
+    across it, + left) laid along the centreline ``path``: each point at its offset along the
+    local normal (:meth:`~render.geometry.roads.Centreline.point`), normals turned with the road."""
+    along = field.points_m[:, 0].copy()
+    across = field.points_m[:, 1].copy()
+    xy = path.point(along, across)
+    laid = CalculationField(
+        field.name,
+        np.column_stack([xy, field.points_m[:, 2]]),
+        field.normals,
+        field.shape,
+        field.spacing_m,
+        path,
+        along,
+        across,
+    )
+    return replace(laid, normals=laid.to_world(field.normals))
+
+
+def row_road(scene: Scene, row: int = 0) -> Road | None:
+    """The road ``luminaire_rows[row]`` stands along, or None (a row on the [street], or no such row)."""
+    where = f"luminaire_rows[{row}]"
+    name = next((lum.road for lum in scene.luminaires if lum.where == where and lum.road is not None), None)
+    return next((r for r in scene.roads if r.name == name), None) if name is not None else None
+
+
+def row_section(scene: Scene, row: int = 0) -> tuple[Street, Centreline | None, Road | None]:
+    """(cross-section, centreline, road) the fields of ``luminaire_rows[row]`` lie on: a row
+    along a road gives the road's; otherwise the [street] (centreline and road None). An
+    InputError without either."""
+    road = row_road(scene, row)
+    if road is not None:
+        from render.geometry.roads import road_centreline
+
+        return road.section, road_centreline(road), road
+    if scene.street is None:
+        raise input_error(scene.path, "street", "calculation fields need a [street] section or a row along a road")
+    return scene.street, None, None
+
+
 def road_row_fields(scene: Scene, row: int = 0, pair: int = 0) -> list[CalculationField]:
     """The fields between luminaires ``pair`` and ``pair + 1`` (along the road) of a row on a
-    road (``luminaire_rows[row].road``): :func:`street_fields` of the road's cross-section laid
-    along its centreline (x → distance along, y → offset across, + left), for a stretch with no
-    bend between the two luminaires; a curved stretch is an InputError."""
+    road (``luminaire_rows[row].road``): :func:`street_fields` of the road's cross-section over
+    the distance along its centreline between the two stations, laid along it
+    (:func:`lay_along`), on straight and curved stretches alike."""
     from render.geometry.roads import road_centreline
 
     where = f"luminaire_rows[{row}]"
     lums = [lum for lum in scene.luminaires if lum.where == where]
-    road = next(r for r in scene.roads if r.name == lums[0].road)
+    road = row_road(scene, row)
+    assert road is not None
     s = np.unique([lum.s_m for lum in lums])
     if not 0 <= pair < len(s) - 1:
         raise input_error(
@@ -249,19 +330,7 @@ def road_row_fields(scene: Scene, row: int = 0, pair: int = 0) -> list[Calculati
         )
     s0, s1 = float(s[pair]), float(s[pair + 1])
     cl = road_centreline(road)
-    if not cl.straight_between(s0, s1):
-        raise input_error(
-            scene.path,
-            where,
-            f"calculation fields on a curved stretch are not supported yet: {road.name!r} bends between the "
-            f"row's luminaires at {s0:g} m and {s1:g} m along it",
-        )
-    out = []
-    for f in street_fields(road.section, s0, s1 - s0):
-        xy = cl.point(f.points_m[:, 0], f.points_m[:, 1])
-        pts = np.column_stack([xy, f.points_m[:, 2]])
-        out.append(CalculationField(f.name, pts, f.normals, f.shape, f.spacing_m))
-    return out
+    return [lay_along(f, cl) for f in street_fields(road.section, s0, s1 - s0)]
 
 
 def row_fields(scene: Scene, row: int = 0, pair: int = 0) -> list[CalculationField]:
@@ -337,13 +406,15 @@ def evaluate_face_field(
     height_m: float = FACE_HEIGHT_M,
 ) -> FaceResult:
     """Semicylindrical and vertical illuminance ``height_m`` above the points of ``field``
-    (a footway), facing the horizontal direction ``facing``, under ``setup``."""
+    (a footway), facing the horizontal direction ``facing``, under ``setup``; on a field laid
+    along a road ``facing`` is in the road's frame (x along it, y across), so it turns with the
+    road from point to point."""
     f = np.array(facing, np.float64)
     f[2] = 0.0
     f /= np.linalg.norm(f)
     pts = field.points_m + [0.0, 0.0, height_m]
-    normals = np.tile(f, (pts.shape[0], 1))
-    e_sc = semicylindrical_illuminance_lx(study, pts, f, setup)
+    normals = field.to_world(f)
+    e_sc = semicylindrical_illuminance_lx(study, pts, normals, setup)
     e_v = np.asarray(study.illuminance_lx(pts, normals, setup), np.float64)
     return FaceResult(
         name=field.name,

@@ -17,6 +17,15 @@ business of :mod:`render.output.calc_pictures`.
 
 The number of points is bounded by :data:`render.limits.MAX_PLAN_POINTS`.
 
+**On a road.** A scene whose first luminaire row stands along a road (or, without a
+``[street]``, its first road) gets the plan of that road *developed*: x is the distance along
+its centreline (0 to its length), y the offset across it (+ left), the grid regular in these
+coordinates and each point placed at its offset along the local normal
+(:meth:`~render.geometry.roads.Centreline.point`), so the drawing is the road straightened out
+(:attr:`PlanResult.road` names it). The luminaires are drawn at their offsets from the
+centreline, a row's at its stations along the road and others where they project onto the
+centreline, those within 5 m of the plan's edges; the fields at their distances and offsets.
+
 References
 ----------
 Point-source illuminance E = I(θ)·cos θ / d² (inverse-square and cosine laws), as evaluated by
@@ -32,18 +41,28 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from render.calc.fields import row_fields
+from render.calc.fields import row_fields, row_road
 from render.errors import InputError, input_error
 from render.limits import MAX_PLAN_POINTS, check_count
-from render.scene.model import Scene, Setup, Street
+from render.scene.model import Road, Scene, Setup, Street
 
 if TYPE_CHECKING:
     from render.study import Study
 
-__all__ = ["DEFAULT_PLAN_SPACING_M", "PlanField", "PlanResult", "compute_plan", "plan_axes", "plan_fields"]
+__all__ = [
+    "DEFAULT_PLAN_SPACING_M",
+    "PlanField",
+    "PlanResult",
+    "compute_plan",
+    "plan_axes",
+    "plan_fields",
+    "plan_road",
+]
 
 #: Largest spacing of the plan's points, m (along and across the street).
 DEFAULT_PLAN_SPACING_M = 0.5
+#: A developed road plan draws the luminaires projecting within this distance of its edges, m.
+_LUMINAIRE_MARGIN_M = 5.0
 
 
 @dataclass(frozen=True)
@@ -84,6 +103,9 @@ class PlanResult:
     footway_y_m: tuple[tuple[float, float], ...]  # (inner, outer) edge of each footway with a width
     fields: tuple[PlanField, ...]  # the calculation fields (empty without a row of two luminaires)
     street_length_m: float
+    #: The road the plan is developed along (x its distance along, y its offset), or None: the
+    #: [street] (x and y the world's).
+    road: str | None = None
 
 
 def _axis(lo: float, hi: float, spacing_m: float) -> np.ndarray:
@@ -120,9 +142,18 @@ def plan_fields(scene: Scene) -> tuple[PlanField, ...]:
         return ()
     out = []
     for f in fields:
-        grid = f.points_m.reshape(*f.shape, 3)
-        out.append(PlanField(f.name, grid[:, 0, 0].copy(), grid[0, :, 1].copy(), f.spacing_m))
+        along, across = f.along.reshape(f.shape), f.across.reshape(f.shape)
+        out.append(PlanField(f.name, along[:, 0].copy(), across[0, :].copy(), f.spacing_m))
     return tuple(out)
+
+
+def plan_road(scene: Scene) -> Road | None:
+    """The road the plan is developed along: the first luminaire row's, or without a
+    ``[street]`` the first road; None for the ``[street]``'s plan."""
+    road = row_road(scene, 0)
+    if road is None and scene.street is None and scene.roads:
+        road = scene.roads[0]
+    return road
 
 
 def compute_plan(
@@ -132,9 +163,10 @@ def compute_plan(
     module text); an :class:`~render.errors.InputError` without a ``[street]`` or with more
     points than :data:`~render.limits.MAX_PLAN_POINTS`."""
     scene = study.scene
-    street = scene.street
+    road = plan_road(scene)
+    street = road.section if road is not None else scene.street
     if street is None:
-        raise input_error(scene.path, "street", "an illuminance plan needs a [street] section")
+        raise input_error(scene.path, "street", "an illuminance plan needs a [street] section or [[roads]]")
     if not (math.isfinite(spacing_m) and spacing_m > 0):
         raise input_error(scene.path, "plan spacing", f"expected a positive number of metres, got {spacing_m!r}")
     y0, y1 = _span_y(street)
@@ -144,6 +176,12 @@ def compute_plan(
     gy, gx = np.meshgrid(ys, xs, indexing="ij")
     gz = np.broadcast_to(np.array([street.ground_z(float(y)) for y in ys])[:, None], gx.shape)
     points = np.stack([gx.ravel(), gy.ravel(), gz.ravel()], axis=1)
+    cl = None
+    if road is not None:
+        from render.geometry.roads import road_centreline
+
+        cl = road_centreline(road)
+        points[:, :2] = cl.point(points[:, 0], points[:, 1])
     normals = np.broadcast_to(np.array([0.0, 0.0, 1.0]), points.shape)
     e = np.asarray(study.illuminance_lx(points, normals, setup), np.float64).reshape(gx.shape)
     half = 0.5 * street.carriageway_width_m
@@ -154,6 +192,16 @@ def compute_plan(
             inner = half + street.kerb_width_m + s.verge_width_m
             footways.append((sign * inner, sign * (inner + s.footway_width_m)))
     luminaires = np.array([lum.position_m[:2] for lum in scene.luminaires], np.float64).reshape(-1, 2)
+    if cl is not None and luminaires.size:
+        along, across, _ = cl.locate(luminaires)
+        # A row's luminaire keeps its station along the road (the nearest point of the
+        # centreline differs from it round a bend by a fraction of the chords' angle).
+        own = np.array(
+            [lum.s_m if lum.road == road.name and lum.s_m is not None else np.nan for lum in scene.luminaires]
+        )
+        along = np.where(np.isfinite(own), own, along)
+        near = (across >= y0 - _LUMINAIRE_MARGIN_M) & (across <= y1 + _LUMINAIRE_MARGIN_M)
+        luminaires = np.column_stack([along, across])[near]
     return PlanResult(
         setup=setup.name if isinstance(setup, Setup) else setup,
         x_m=xs,
@@ -164,4 +212,5 @@ def compute_plan(
         footway_y_m=tuple(footways),
         fields=plan_fields(scene),
         street_length_m=float(street.length_m),
+        road=road.name if road is not None else None,
     )

@@ -14,7 +14,11 @@ illuminance (``model = "lambertian"`` in the result, labelled as such).
 :func:`evaluate_luminance_field` places the standard observer 1.5 m above the road at the
 centre of each lane in turn, for one direction of traffic: ``direction = +1`` (traffic along
 +x) puts the eye 60 m before the field's start looking along +x, ``direction = -1`` (traffic
-along −x) 60 m beyond the field's end looking along −x. For each position it gives the
+along −x) 60 m beyond the field's end looking along −x. On a road (a field laid along its
+centreline, :func:`render.calc.fields.lay_along`) "along" is along the road toward its last
+point, and the 60 m are measured along the centreline (continued straight beyond the road's
+ends), the eye at the lane centre's offset there: the standard defines the observer for
+straight roads, and this is lampcast's reading for bends (*own*). For each position it gives the
 luminance over all the lanes' points, L̄, Lmin, U0 = Lmin/L̄, and the longitudinal uniformity
 Ul = Lmin/Lmax along the centre line of the observer's lane (the middle row of three points
 across the lane), the same line whichever way the observer looks. The direction enters the
@@ -54,6 +58,7 @@ __all__ = [
     "LuminanceResult",
     "evaluate_luminance_field",
     "lane_observer_m",
+    "lane_observers",
     "luminaire_intensities_cd",
     "road_luminance_cd_m2",
     "traffic_direction",
@@ -164,18 +169,49 @@ class LuminanceResult:
         }
 
 
+def _eye_at(lane: CalculationField, along_m: float) -> np.ndarray:
+    """The eye 1.5 m above the lane's centre at distance ``along_m`` along the street or road
+    (a road's centreline continued straight beyond its ends)."""
+    across = float(lane.across.mean())
+    z = float(lane.points_m[:, 2].mean()) + OBSERVER_HEIGHT_M
+    if lane.path is None:
+        return np.array([along_m, across, z])
+    x, y = lane.path.point(along_m, across)
+    return np.array([float(x), float(y), z])
+
+
 def lane_observer_m(lane: CalculationField, direction: int = 1) -> np.ndarray:
     """The standard observer for a lane field: at the lane's centre, 1.5 m above the road,
     60 m upstream of the field for traffic in ``direction``: before the field's start for +1
     (the first grid row is D/2 after the start), beyond its end for −1 (the last row is D/2
-    before the end)."""
+    before the end). On a road the 60 m are measured along its centreline (continued straight
+    beyond its ends) and the eye stands at the lane centre's offset there."""
     d = traffic_direction(direction)
-    pts = lane.points_m
+    along = lane.along
     half = lane.spacing_m[0] / 2.0
-    entry = float(pts[:, 0].min()) - half if d > 0 else float(pts[:, 0].max()) + half
-    return np.array(
-        [entry - d * OBSERVER_DISTANCE_M, float(pts[:, 1].mean()), float(pts[:, 2].mean()) + OBSERVER_HEIGHT_M]
-    )
+    entry = float(along.min()) - half if d > 0 else float(along.max()) + half
+    return _eye_at(lane, entry - d * OBSERVER_DISTANCE_M)
+
+
+def lane_observers(lane: CalculationField, direction: int = 1) -> list[tuple[np.ndarray, np.ndarray]]:
+    """The moving observer of the threshold increment (:func:`render.calc.ti.threshold_increment`):
+    per row of the lane's grid points, the eye 60 m upstream of the row (as
+    :func:`lane_observer_m`, along a road's centreline) and the horizontal unit direction of its
+    line of sight: along ±x on a [street]; on a road toward the lane centre's point of that row
+    (the same direction on a straight stretch; own choice for bends, where the standard's
+    observer is defined for straight roads)."""
+    d = traffic_direction(direction)
+    rows = np.unique(np.round(lane.along, 9))
+    out = []
+    for s in rows:
+        eye = _eye_at(lane, float(s) - d * OBSERVER_DISTANCE_M)
+        if lane.path is None:
+            sight = np.array([float(d), 0.0])
+        else:
+            ahead = _eye_at(lane, float(s))[:2] - eye[:2]
+            sight = ahead / np.hypot(*ahead)
+        out.append((eye, sight))
+    return out
 
 
 def evaluate_luminance_field(

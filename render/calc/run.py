@@ -30,6 +30,12 @@ and the footways) and computes
   luminance, TI; the worst observer) and the edge ratio, otherwise the carriageway's illuminance
   (Ē, Emin and U0 over all its lanes), mesopic per CIE 191 where asked (P classes).
 
+**On roads.** When the first row stands along a road (``luminaire_rows.road``) its fields,
+edge strips and observers follow that road (:func:`render.calc.fields.road_row_fields`, straight
+or curved), the road's r-table and carriageway material serve the luminance, and the sky
+figures take the ground of the street and every road (:func:`scene_ground_patches`), per metre
+of street and roads together.
+
 The calculation sees the street, the frontages, the markings, the luminaires and their columns,
 and of the scene's objects only those ``[calc] include_objects`` names (default none: the empty
 road the standard's calculation assumes; parked cars would otherwise shadow grid points).
@@ -46,6 +52,7 @@ EN 13201-3:2015 and CIE 140-2000 (fields, luminance, TI) and EN 13201-2:2015 (cl
 
 from __future__ import annotations
 
+import math
 from dataclasses import asdict, dataclass, field, replace
 from typing import TYPE_CHECKING, Any
 
@@ -54,10 +61,19 @@ import numpy as np
 from render.calc.classes import CAUTION, ClassCheck, ClassFigures, LightingClass, check_class, lighting_classes
 from render.calc.edge import EdgeResult, edge_illuminance_ratio
 from render.calc.energy import EnergyDifference, LuminairePower, SetupEnergy, energy_difference, setup_energy
-from render.calc.fields import FaceResult, FieldResult, evaluate_face_field, evaluate_field, row_fields
+from render.calc.fields import (
+    FaceResult,
+    FieldResult,
+    evaluate_face_field,
+    evaluate_field,
+    row_fields,
+    row_road,
+    row_section,
+)
 from render.calc.obtrusive import ObtrusiveLimits, ObtrusiveResult, evaluate_obtrusive, facade_fields
 from render.calc.road import LuminanceResult, evaluate_luminance_field
 from render.calc.sky import (
+    GroundPatches,
     SkyFigures,
     SkyGlowRelative,
     direct_upward_flux_lm,
@@ -71,7 +87,7 @@ from render.colour.materials import luminous_reflectance
 from render.errors import did_you_mean, input_error
 from render.light.luminaires import channel_factors, setting_for
 from render.light.rtable import RTable, read_r_table
-from render.scene.model import EnergySettings, Scene
+from render.scene.model import EnergySettings, Scene, Street
 
 if TYPE_CHECKING:
     from render.study import Study
@@ -84,6 +100,7 @@ __all__ = [
     "calc_options",
     "calc_study",
     "run_calculation",
+    "scene_ground_patches",
     "setup_calculation",
 ]
 
@@ -163,7 +180,8 @@ def calc_options(
     include_objects: tuple[str, ...] | str | None = None,
     mesopic: bool | None = None,
 ) -> CalcOptions:
-    """The scene's ``[calc]``, ``[energy]`` and ``[street]`` r-table with the given overrides
+    """The scene's ``[calc]``, ``[energy]`` and r-table (of the ``[street]``, or of the road the
+    first luminaire row stands along) with the given overrides
     (``None``: the scene's value; ``include_objects`` may be ``"all"``; ``lighting_class``
     given as ``None`` turns the class check off). Unknown class or object names are an
     :class:`~render.errors.InputError` naming the option."""
@@ -182,7 +200,8 @@ def calc_options(
                 f"no lighting class {name!r}{did_you_mean(name, list(classes))}; classes: {', '.join(classes)}",
             )
         cls = classes[name]
-    street = scene.street
+    road = row_road(scene)
+    street = road.section if road is not None else scene.street  # where the fields lie
     table = None
     q0 = q0_sr
     if r_table_file is not None:
@@ -443,16 +462,58 @@ def _energy(study: Study, lights, setup) -> tuple[SetupEnergy | None, str]:
     return result, ""
 
 
-def _road_reflectance(study: Study, setup) -> float:
-    """Photometric reflectance of the carriageway material under the setup's first lamp."""
+def _road_reflectance(study: Study, setup, street: Street) -> float:
+    """Photometric reflectance of the carriageway material of ``street`` (the [street] or the
+    cross-section of the road the fields lie on) under the setup's first lamp."""
     from render.colour.materials import get_material
 
-    street = study.scene.street
-    assert street is not None
     material = get_material(street.carriageway_material, study.materials, source=str(study.scene.path))
     _, lamps = channel_factors(study.lights(setup), setup)
     spd = study.lamp_spds(lamps[:1])[0]
     return luminous_reflectance(material.reflectance, spd)
+
+
+def scene_ground_patches(scene: Scene, spacing_m: float = GROUND_PATCH_M) -> tuple[GroundPatches, float]:
+    """The ground of the [street] and of every road in patches of about ``spacing_m``
+    (:func:`render.calc.sky.ground_patches` of each cross-section, a road's laid along its
+    centreline with each patch's area that of its four corners so mapped,
+    :meth:`~render.geometry.roads.Centreline.point`), and the length of street and roads
+    together, m (the upward flux is given per metre of it). Where roads meet, each road's bands
+    are counted whole (the junction mouths are not added, the cut-back corners not removed)."""
+    from render.geometry.roads import road_centreline
+
+    parts: list[GroundPatches] = []
+    length = 0.0
+    if scene.street is not None:
+        parts.append(ground_patches(scene.street, spacing_m))
+        length += float(scene.street.length_m)
+    for road in scene.roads:
+        p = ground_patches(road.section, spacing_m)
+        cl = road_centreline(road)
+        n_x = max(1, math.ceil(road.section.length_m / spacing_m))
+        dx = road.section.length_m / n_x
+        dy = p.area_m2 / dx
+        x, y = p.points_m[:, 0], p.points_m[:, 1]
+        corners = [cl.point(x + a * dx / 2, y + b * dy / 2) for a, b in ((-1, -1), (1, -1), (1, 1), (-1, 1))]
+        area = 0.5 * np.abs(sum(_cross2(corners[k], corners[(k + 1) % 4]) for k in range(4)))
+        points = np.column_stack([cl.point(x, y), p.points_m[:, 2]])
+        parts.append(GroundPatches(points, area, p.material_index, p.materials))
+        length += float(road.section.length_m)
+    materials = tuple(dict.fromkeys(m for p in parts for m in p.materials))
+    index = [np.array([materials.index(m) for m in p.materials], np.int64)[p.material_index] for p in parts]
+    return (
+        GroundPatches(
+            np.concatenate([p.points_m for p in parts]),
+            np.concatenate([p.area_m2 for p in parts]),
+            np.concatenate(index),
+            materials,
+        ),
+        length,
+    )
+
+
+def _cross2(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    return a[..., 0] * b[..., 1] - a[..., 1] * b[..., 0]
 
 
 def _s_p_ratio(study: Study, lights, setup, lanes) -> float:
@@ -478,9 +539,8 @@ def setup_calculation(study: Study, setup: str | None = None, options: CalcOptio
     s = study.setup(setup)
     lights = study.lights(s)
     scene = study.scene
-    street = scene.street
+    street, path, _ = row_section(scene)
     fields = row_fields(scene)
-    assert street is not None
     results = tuple(evaluate_field(study, f, s) for f in fields)
     faces = tuple(
         evaluate_face_field(study, f, s, facing=facing)
@@ -489,10 +549,10 @@ def setup_calculation(study: Study, setup: str | None = None, options: CalcOptio
         for facing in ((1.0, 0.0, 0.0), (-1.0, 0.0, 0.0))
     )
     lanes = [f for f in fields if f.name.startswith("lane ")]
-    x0 = float(min(f.points_m[:, 0].min() - f.spacing_m[0] / 2 for f in lanes))
+    x0 = float(min(f.along.min() - f.spacing_m[0] / 2 for f in lanes))
     spacing = float(lanes[0].shape[0] * lanes[0].spacing_m[0])
-    edge = tuple(edge_illuminance_ratio(study, street, x0, spacing, s))
-    reflectance = None if opts.r_table is not None else _road_reflectance(study, s)
+    edge = tuple(edge_illuminance_ratio(study, street, x0, spacing, s, path))
+    reflectance = None if opts.r_table is not None else _road_reflectance(study, s, street)
     luminance: list[LuminanceResult] = []
     ti: list[TIResult] = []
     for direction in opts.directions:
@@ -511,11 +571,11 @@ def setup_calculation(study: Study, setup: str | None = None, options: CalcOptio
             for f in facade_fields(scene, spacing_m=opts.facade_spacing_m, heights_m=opts.facade_heights_m)
             if f.points_m.size
         )
-    patches = ground_patches(street, GROUND_PATCH_M)
+    patches, length_m = scene_ground_patches(scene, GROUND_PATCH_M)
     ground_lx = study.illuminance_lx(
         patches.points_m, np.tile([0.0, 0.0, 1.0], (len(patches.area_m2), 1)), s, per_group=True
     )
-    sky = _sky(study, lights, s, ground_lx, patches, float(street.length_m))
+    sky = _sky(study, lights, s, ground_lx, patches, length_m)
     energy, note = _energy(study, lights, s)
     calc = SetupCalculation(
         setup=s.name if s is not None else None,

@@ -21,7 +21,10 @@ line of sight is 1° below the horizontal toward the road. The vehicle roof scre
 a luminaire whose direction, projected on the vertical plane of the line of sight, is more
 than 20° above the line of sight (above the screening plane through the eye that holds the
 lateral direction) is not counted, nor a luminaire behind the eye (θ ≥ 90°). Shadows from other geometry are
-ignored. The equation is used beyond its 1.5°–60° range of validity without warning.
+ignored. The equation is used beyond its 1.5°–60° range of validity without warning. On a
+road (a lane field laid along its centreline) the eye stands 60 m upstream of each row along
+the centreline and looks toward the lane centre of that row
+(:func:`render.calc.road.lane_observers`).
 
 A two-way road is judged by its worst observer: :func:`road_worst_case` takes the luminance
 results and TI results of every lane and direction and gives the lowest L̄, U0 and Ul and the
@@ -51,9 +54,8 @@ import numpy as np
 
 from render.calc.fields import CalculationField
 from render.calc.road import (
-    OBSERVER_DISTANCE_M,
-    OBSERVER_HEIGHT_M,
     LuminanceResult,
+    lane_observers,
     luminaire_intensities_cd,
     traffic_direction,
 )
@@ -89,12 +91,14 @@ def age_factor(age_years: float = DEFAULT_AGE_YEARS) -> float:
     return 9.86 * (1.0 + (age_years / 66.4) ** 4)
 
 
-def _sight_and_up(direction: int) -> tuple[np.ndarray, np.ndarray]:
-    """The line of sight (along ``direction``·x, 1° down) and the unit vector perpendicular to
-    it in its vertical plane, pointing up."""
+def _sight_and_up(direction: int, heading=None) -> tuple[np.ndarray, np.ndarray]:
+    """The line of sight (along ``direction``·x, or along the horizontal unit vector
+    ``heading``, 1° down) and the unit vector perpendicular to it in its vertical plane, pointing up."""
     a = math.radians(LINE_OF_SIGHT_DOWN_DEG)
-    d = float(direction)
-    return np.array([d * math.cos(a), 0.0, -math.sin(a)]), np.array([d * math.sin(a), 0.0, math.cos(a)])
+    hx, hy = (float(direction), 0.0) if heading is None else (float(heading[0]), float(heading[1]))
+    return np.array([hx * math.cos(a), hy * math.cos(a), -math.sin(a)]), np.array(
+        [hx * math.sin(a), hy * math.sin(a), math.cos(a)]
+    )
 
 
 def veiling_luminance_cd_m2(
@@ -103,11 +107,13 @@ def veiling_luminance_cd_m2(
     setup: Setup | None = None,
     age_years: float = DEFAULT_AGE_YEARS,
     direction: int = 1,
+    heading=None,
 ) -> float:
     """Veiling luminance (cd/m²) at ``eye_m`` looking along +x (``direction`` +1) or −x (−1),
-    1° down, with the 20° screening angle above the line of sight."""
+    or along the horizontal unit vector ``heading`` (a road), 1° down, with the 20° screening
+    angle above the line of sight."""
     eye = np.asarray(eye_m, dtype=np.float64).reshape(3)
-    sight, up = _sight_and_up(traffic_direction(direction))
+    sight, up = _sight_and_up(traffic_direction(direction), heading)
     intensity = luminaire_intensities_cd(lights, eye[None, :], setup)[:, 0]
     total = 0.0
     for k in range(lights.n_luminaires):
@@ -176,14 +182,9 @@ def threshold_increment(
     −1: 60 m beyond each row, looking along −x), with the road's average luminance L̄ (for
     the same lane and direction)."""
     d = traffic_direction(direction)
-    pts = lane.points_m
-    y = float(pts[:, 1].mean())
-    z = float(pts[:, 2].mean()) + OBSERVER_HEIGHT_M
-    rows_x = np.unique(np.round(pts[:, 0], 9))
     best: tuple[float, np.ndarray] | None = None
-    for x in rows_x:
-        eye = np.array([x - d * OBSERVER_DISTANCE_M, y, z])
-        lv = veiling_luminance_cd_m2(lights, eye, setup, age_years, d)
+    for eye, sight in lane_observers(lane, d):  # along x on a street; along its centreline on a road
+        lv = veiling_luminance_cd_m2(lights, eye, setup, age_years, d, None if lane.path is None else sight)
         if best is None or lv > best[0]:
             best = (lv, eye)
     assert best is not None

@@ -6,7 +6,9 @@ cross-section swept along a centreline polyline. This module makes its geometry:
 * :func:`centreline`: the polyline with each interior point optionally replaced by a circular
   arc of ``corner_radius_m`` tangent to both segments, tessellated into chords that stay within
   ``max_chord_error_m`` of the arc (the sagitta ``r·(1 − cos(φ/2))`` of a chord subtending φ),
-  with the distance ``s`` along it and a unit normal per segment (+ to the left).
+  taken at the road's reach (:func:`road_reach_m`: centreline to the farther building line) so
+  that every band edge on the outside of a bend keeps within it too, with the distance ``s``
+  along it and a unit normal per segment (+ to the left).
 * Offset curves: the point at lateral offset ``d`` of vertex ``i`` is ``p_i + d·m_i`` with the
   mitre vector ``m_i = (n_a + n_b)/(1 + n_a·n_b)`` of the normals of the two segments meeting
   there, so that each offset segment lies at exactly ``d`` from its centreline segment. A
@@ -67,6 +69,7 @@ __all__ = [
     "fold_problem",
     "path_along",
     "road_centreline",
+    "road_reach_m",
     "side_offsets",
     "street_as_road",
 ]
@@ -147,9 +150,38 @@ class Centreline:
         return self.points[i] + (s - self.s[i])[..., None] * t, t
 
     def point(self, s_m, offset_m) -> np.ndarray:
-        """World (x, y) (…, 2) at distances ``s_m`` along and ``offset_m`` across (+ left)."""
-        p, t = self.frame(s_m)
-        return p + np.asarray(offset_m, dtype=np.float64)[..., None] * _rot90(t)
+        """World (x, y) (…, 2) at distances ``s_m`` along and ``offset_m`` across (+ left): the
+        continuous map of the road's own frame, within segment i at fraction f of it
+        ``(1 − f)·(p_i + d·m_i) + f·(p_(i+1) + d·m_(i+1))`` with the vertices' mitre vectors m.
+        A line of constant offset d is the offset curve (:meth:`offset`), so a point keeps its
+        offset from the drawn kerb; round an arc the offset direction turns with the arc (on a
+        segment's own normal a point would stray by up to d·φ/2 for chords subtending φ); on
+        a straight stretch it is the point at d along the normal, except next to a bend, where
+        the offset direction starts to turn and moves the point by at most d·tan(τ/2)/2 along
+        the road (τ the turn at the nearer vertex: half a chord's angle where an arc begins).
+        Beyond the ends the first and last segments are continued straight."""
+        s = np.asarray(s_m, dtype=np.float64)
+        d = np.asarray(offset_m, dtype=np.float64)[..., None]
+        i = self.segment(s)
+        u = (s - self.s[i])[..., None]
+        f = u / (self.s[i + 1] - self.s[i])[..., None]
+        m = self.miters[i] + f * (self.miters[i + 1] - self.miters[i])  # exactly the normal where both agree
+        return self.points[i] + u * self.tangents[i] + d * m
+
+    def locate(self, xy) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """(s, signed offset (+ left), distance) of the nearest point of the polyline to each of
+        the points ``xy`` (k, 2)."""
+        p = np.asarray(xy, dtype=np.float64).reshape(-1, 2)
+        a = self.points[:-1]
+        seg_len = np.diff(self.s)
+        rel = p[:, None, :] - a[None, :, :]
+        u = np.clip(np.einsum("kij,ij->ki", rel, self.tangents), 0.0, seg_len)
+        near = a[None] + u[..., None] * self.tangents[None]
+        dist = np.hypot(*(p[:, None, :] - near).transpose(2, 0, 1))
+        i = np.argmin(dist, axis=1)
+        k = np.arange(p.shape[0])
+        side = _cross(self.tangents[i], p - near[k, i])
+        return self.s[i] + u[k, i], np.where(side >= 0, 1.0, -1.0) * dist[k, i], dist[k, i]
 
     def offset(self, d_m: float) -> np.ndarray:
         """The offset curve at ``d_m`` (+ left): (n, 2), one point per vertex."""
@@ -205,11 +237,16 @@ def _from_vertices(points: np.ndarray, bends: np.ndarray) -> Centreline:
 
 
 def centreline(
-    points_m, corner_radius_m: float | None = None, max_chord_error_m: float = DEFAULT_CHORD_ERROR_M
+    points_m,
+    corner_radius_m: float | None = None,
+    max_chord_error_m: float = DEFAULT_CHORD_ERROR_M,
+    reach_m: float = 0.0,
 ) -> Centreline:
     """The tessellated centreline of ``points_m`` (at least two points, consecutive points
     apart), with interior corners rounded by arcs of ``corner_radius_m`` (None: sharp,
-    mitred corners).
+    mitred corners). The arcs are cut into chords fine enough that every offset curve out to
+    ``reach_m`` on the outside of a bend (radius r + reach) stays within ``max_chord_error_m``
+    of its true arc, the centreline itself too.
 
     Raises
     ------
@@ -248,7 +285,7 @@ def centreline(
             f"arcs of {r:g} m at the corners of points_m[{k}] and points_m[{k + 1}] need {used[k]:.3f} m of the "
             f"{length[k]:.3f} m between them: give a smaller radius or points further apart",
         )
-    phi_max = 2.0 * math.acos(max(1.0 - max_chord_error_m / r, -1.0))
+    phi_max = 2.0 * math.acos(max(1.0 - max_chord_error_m / (r + max(reach_m, 0.0)), -1.0))
     verts: list[np.ndarray] = [p[:1]]
     bend_flags: list[np.ndarray] = [np.zeros(1, bool)]
     for k in range(1, p.shape[0] - 1):
@@ -296,9 +333,16 @@ def path_along(cl: Centreline, points, closed: bool = False) -> np.ndarray:
     return xy[:-1] if closed else xy
 
 
+def road_reach_m(section: Street) -> float:
+    """Distance from the centreline to the farther building line of ``section`` (the last
+    band's outer edge), m: the reach within which :func:`road_centreline` keeps arcs true."""
+    return 0.5 * section.carriageway_width_m + max(side_depth_m(section, "left"), side_depth_m(section, "right"))
+
+
 def road_centreline(road: Road) -> Centreline:
-    """The tessellated centreline of ``road``."""
-    return centreline(road.points_m, road.corner_radius_m, road.max_chord_error_m)
+    """The tessellated centreline of ``road``: its arcs in chords that keep every band edge and
+    the building lines within ``max_chord_error_m`` of their true arcs."""
+    return centreline(road.points_m, road.corner_radius_m, road.max_chord_error_m, road_reach_m(road.section))
 
 
 def street_as_road(street: Street, name: str = "street") -> Road:

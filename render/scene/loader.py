@@ -647,7 +647,7 @@ def _sides(s: dict, where: str, ctx: _Context) -> dict[str, StreetSide]:
 def _roads(entries: list, ctx: _Context) -> list[Road]:
     """The ``[[roads]]``: checked keys, centrelines (corner arcs fitting, offsets not folding),
     unique names."""
-    from render.geometry.roads import RoadError, centreline, fold_problem
+    from render.geometry.roads import RoadError, centreline, fold_problem, road_reach_m
 
     out: list[Road] = []
     names: set[str] = set()
@@ -678,13 +678,8 @@ def _roads(entries: list, ctx: _Context) -> list[Road]:
                 width = None
         if points is None or width is None or r["name"] is None:
             continue
-        try:
-            cl = centreline(points, r["corner_radius_m"], r["max_chord_error_m"])
-        except RoadError as err:
-            ctx.problems.add(f"{where}.{err.key}", str(err))
-            continue
         section = Street(
-            length_m=cl.length_m,
+            length_m=0.0,  # the centreline's, below
             carriageway_width_m=width,
             lanes=r["lanes"] or 2,
             kerb_height_m=r["kerb_height_m"],
@@ -700,10 +695,15 @@ def _roads(entries: list, ctx: _Context) -> list[Road]:
             q0_sr=r["q0_sr"],
             r_table_views=r["r_table_views"] or "driver",
         )
+        try:
+            cl = centreline(points, r["corner_radius_m"], r["max_chord_error_m"], road_reach_m(section))
+        except RoadError as err:
+            ctx.problems.add(f"{where}.{err.key}", str(err))
+            continue
         road = Road(
             r["name"],
             tuple(points),
-            section,
+            replace(section, length_m=cl.length_m),
             r["corner_radius_m"],
             r["max_chord_error_m"],
             r["junction_kerb_radius_m"],
