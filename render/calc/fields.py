@@ -145,8 +145,8 @@ class CalculationField:
         v = np.broadcast_to(np.asarray(vectors, np.float64), self.points_m.shape)
         if self.path is None:
             return np.array(v)
-        _, t = self.path.frame(self.along)
-        n = np.stack([-t[:, 1], t[:, 0]], axis=1)
+        n = self.path.across(self.along)  # turning with the road between a bend's vertices
+        t = np.stack([n[:, 1], -n[:, 0]], axis=1)
         xy = v[:, :1] * t + v[:, 1:2] * n
         return np.column_stack([xy, v[:, 2]])
 

@@ -20,6 +20,10 @@ above its foot (by default 1.5 m, a ground-floor window, and 4.5 m, an upstairs 
 heights at or above the frontage's height are left out), ``FACADE_OFFSET_M`` in front of the
 facade so that the facade and its proud window parts do not shadow them.
 
+A frontage along a road (``frontages.road``) gets the same points in the road's own frame (x
+the distance along it, y the offset across), laid along its centreline: in front of the
+curved facade, facing the road (:func:`facade_fields`).
+
 Both figures are compared with limits the user chooses (:class:`ObtrusiveLimits`): lampcast
 claims no default values. Published limits (e.g. per environmental zone, before and after a
 curfew) are for the user to look up in the edition they work to and enter.
@@ -41,7 +45,7 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from render.calc.fields import CalculationField
+from render.calc.fields import CalculationField, lay_along
 from render.calc.road import luminaire_intensities_cd
 from render.errors import input_error
 from render.scene.model import Frontage, Scene, Setup, Street
@@ -162,12 +166,30 @@ def facade_field(
 def facade_fields(
     scene: Scene, *, spacing_m: float = FACADE_SPACING_M, heights_m: tuple[float, ...] = WINDOW_HEIGHTS_M
 ) -> list[CalculationField]:
-    """One :func:`facade_field` per frontage of ``scene`` (in the scene file's order)."""
-    if scene.street is None:
-        raise input_error(scene.path, "street", "facade points need a [street] section (the building line)")
+    """One :func:`facade_field` per frontage of ``scene`` (in the scene file's order); a
+    frontage along a road gets the field of the road's cross-section laid along its centreline
+    (:func:`render.calc.fields.lay_along`: points at their distance along the road, in front
+    of the curved facade, normals toward the road)."""
+    from render.geometry.roads import road_centreline
+
     if not scene.frontages:
-        raise input_error(scene.path, "frontages", "facade points need at least one [[frontages]] entry")
-    return [facade_field(scene.street, f, spacing_m=spacing_m, heights_m=heights_m) for f in scene.frontages]
+        raise input_error(
+            scene.path,
+            "frontages",
+            "facade points need at least one [[frontages]] entry (along the [street] or a road)",
+        )
+    roads = {r.name: r for r in scene.roads}
+    out = []
+    for f in scene.frontages:
+        if f.road is not None:
+            road = roads[f.road]
+            field = facade_field(road.section, f, spacing_m=spacing_m, heights_m=heights_m)
+            out.append(lay_along(field, road_centreline(road)))
+            continue
+        if scene.street is None:
+            raise input_error(scene.path, "street", "facade points need a [street] section (the building line)")
+        out.append(facade_field(scene.street, f, spacing_m=spacing_m, heights_m=heights_m))
+    return out
 
 
 def evaluate_obtrusive(

@@ -2,8 +2,10 @@
 
 Everything becomes triangles with a material index and an object index
 (:class:`~render.geometry.mesh.TriangleMesh`): the street builder's surfaces (carriageway, kerbs,
-verges, footways, front gardens, centre line), building fronts, parametric street objects, free
-geometry, markings and luminaire columns. Object indices follow the scene's own names, so later
+verges, footways, front gardens, centre line), the roads (:mod:`render.geometry.roads`),
+building fronts (along the street, or along a road: built in the road's own frame and bent
+along its centreline), parametric street objects, free geometry, markings and luminaire
+columns. Object indices follow the scene's own names, so later
 analyses can speak of "the blue car".
 """
 
@@ -11,13 +13,17 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from functools import cache
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from render import limits
 from render.errors import input_error
 from render.geometry.mesh import TriangleMesh, flat_normals
-from render.scene.model import Frontage, Marking, Scene, Street, StreetObject
+from render.scene.model import Frontage, Marking, Road, Scene, Street, StreetObject
+
+if TYPE_CHECKING:
+    from render.geometry.roads import Centreline
 
 __all__ = ["MARKING_LIFT_M", "DEFAULT_SLOT_MATERIALS", "ObjectInfo", "compile_scene", "object_slots"]
 
@@ -225,7 +231,12 @@ def _placed(parts, position, heading_deg):
     return transform_parts(parts, position, heading_deg)
 
 
-def _frontage(b: _Builder, f: Frontage, street: Street | None, source: str) -> None:
+def _frontage(
+    b: _Builder, f: Frontage, street: Street | None, source: str, along: tuple[Road, Centreline] | None = None
+) -> None:
+    """A frontage's fronts behind the building line of ``street``, or with ``along`` (a road
+    and its centreline, ``street`` its cross-section) built in the road's own frame and bent
+    along it (:func:`render.geometry.roads.bend_along`)."""
     from render.geometry.objects import house_front, shop_front
 
     sign = 1.0 if f.side == "left" else -1.0
@@ -247,7 +258,54 @@ def _frontage(b: _Builder, f: Frontage, street: Street | None, source: str) -> N
         except ValueError as err:
             raise input_error(source, f.where, f"cannot build the {f.kind} fronts: {err}") from None
         centre_y = building_y + sign * 0.5 * f.depth_m
-        b.add_parts(_placed(parts, (x_mid, centre_y, z), heading), f.materials, obj, main_slot)
+        placed = _placed(parts, (x_mid, centre_y, z), heading)
+        if along is not None:
+            from render.geometry.roads import bend_along
+            from render.geometry.shapes import Part
+
+            placed = [Part(*bend_along(along[1], p.triangles_m, _vertex_normals(p)), p.slot) for p in placed]
+        b.add_parts(placed, f.materials, obj, main_slot)
+
+
+def _vertex_normals(part) -> np.ndarray:
+    """(n, 3, 3) normals of a part's vertices (its own, or each triangle's flat normal)."""
+    if part.normals is not None:
+        return np.asarray(part.normals, np.float64).reshape(-1, 3, 3)
+    return flat_normals(np.asarray(part.triangles_m, np.float64).reshape(-1, 3, 3))
+
+
+def _road_frontage(b: _Builder, f: Frontage, roads: dict[str, Road], cuts: dict[str, dict], source: str) -> None:
+    """A frontage along a road (``frontages.road``): no part of it where the road's side bands
+    are cut back for a junction; the back of its buildings must not fold round a bend."""
+    from render.geometry.roads import road_centreline
+
+    road = roads[f.road]
+    cl = road_centreline(road)
+    a, c = f.start_m, f.start_m + f.length_m
+    for lo, hi in cuts.get(road.where, {}).get(f.side, []):
+        if a < hi - 1e-9 and lo + 1e-9 < c:
+            raise input_error(
+                source,
+                f"{f.where}.start_m",
+                f"the {f.side} frontage from {a:g} to {c:g} m along {road.name!r} crosses a junction there "
+                f"({lo:.2f} to {hi:.2f} m along it, where the footway turns into the other road): split it "
+                "into frontages on either side of the junction",
+            )
+    sign = 1.0 if f.side == "left" else -1.0
+    back = sign * (abs(road.section.building_line_y(f.side)) + f.depth_m)
+    inside = (cl.s >= a - 1e-9) & (cl.s <= c + 1e-9)
+    o = cl.offset(back)
+    forward = np.einsum("ij,ij->i", np.diff(o, axis=0), cl.tangents)
+    seg = inside[:-1] & inside[1:]
+    if np.any(forward[seg] <= 1e-9):
+        i = int(np.nonzero(seg & (forward <= 1e-9))[0][0])
+        raise input_error(
+            source,
+            f"{f.where}.depth_m",
+            f"the back of the {f.side} frontage, {abs(back):.2f} m from the centreline of {road.name!r}, would fold over "
+            f"in the bend {cl.s[i]:.2f} m along it (the bend's radius is smaller): give a smaller depth_m",
+        )
+    _frontage(b, f, road.section, source, (road, cl))
 
 
 def _object(b: _Builder, o: StreetObject, source: str) -> None:
@@ -384,12 +442,17 @@ def compile_scene(scene: Scene) -> TriangleMesh:
     b = _Builder()
     if scene.street is not None:
         _street(b, scene.street)
+    cuts: dict[str, dict] = {}
     if scene.roads:
         from render.geometry.roads import add_roads
 
-        add_roads(b, scene.roads, scene.path)
+        cuts = add_roads(b, scene.roads, scene.path)
+    roads = {r.name: r for r in scene.roads}
     for f in scene.frontages:
-        _frontage(b, f, scene.street, str(scene.path))
+        if f.road is not None:
+            _road_frontage(b, f, roads, cuts, str(scene.path))
+        else:
+            _frontage(b, f, scene.street, str(scene.path))
     for o in scene.objects:
         if o.kind in ("box", "cylinder", "sphere", "extrusion", "obj", "mesh"):
             _geometry(b, o)

@@ -64,6 +64,7 @@ __all__ = [
     "Centreline",
     "RoadError",
     "add_roads",
+    "bend_along",
     "centreline",
     "find_arms",
     "fold_problem",
@@ -167,6 +168,16 @@ class Centreline:
         f = u / (self.s[i + 1] - self.s[i])[..., None]
         m = self.miters[i] + f * (self.miters[i + 1] - self.miters[i])  # exactly the normal where both agree
         return self.points[i] + u * self.tangents[i] + d * m
+
+    def across(self, s_m) -> np.ndarray:
+        """(…, 2) unit direction across the road (+ left) at distances ``s_m``: that in which
+        :meth:`point` moves with the offset (the blended mitre vectors), the segment's normal on
+        a straight stretch; the direction along the road is this turned 90° clockwise."""
+        s = np.asarray(s_m, dtype=np.float64)
+        i = self.segment(s)
+        f = ((s - self.s[i]) / (self.s[i + 1] - self.s[i]))[..., None]
+        m = self.miters[i] + f * (self.miters[i + 1] - self.miters[i])
+        return m / np.linalg.norm(m, axis=-1, keepdims=True)
 
     def locate(self, xy) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """(s, signed offset (+ left), distance) of the nearest point of the polyline to each of
@@ -309,6 +320,84 @@ def centreline(
     flags = np.concatenate(bend_flags)
     keep = np.concatenate([[True], np.hypot(*np.diff(v, axis=0).T) > 1e-9])
     return _from_vertices(v[keep], flags[keep])
+
+
+def _split_at(tris: np.ndarray, normals: np.ndarray, c: float) -> tuple[np.ndarray, np.ndarray]:
+    """Triangles (n, 3, 3) and their vertex normals cut by the plane x = ``c``: a triangle with
+    vertices on both sides becomes two (one vertex on the plane) or three, with the same
+    winding; the new vertices lie on the plane (x = ``c`` exactly), their normals interpolated.
+    The point on an edge is computed from its endpoint on the lower side, so two triangles
+    sharing the edge get the same point."""
+    side = tris[:, :, 0] - c
+    eps = 1e-12 * max(1.0, abs(c))
+    sign = np.where(side > eps, 1, np.where(side < -eps, -1, 0))
+    cross = np.any(sign > 0, axis=1) & np.any(sign < 0, axis=1)
+    if not np.any(cross):
+        return tris, normals
+    keep_t, keep_n = [tris[~cross]], [normals[~cross]]
+
+    def cut(a, b, na, nb, sa, sb):
+        low = (sa < 0)[:, None]  # from the endpoint below the plane
+        lo, hi = np.where(low, a, b), np.where(low, b, a)
+        nlo, nhi = np.where(low, na, nb), np.where(low, nb, na)
+        slo, shi = np.where(low[:, 0], sa, sb), np.where(low[:, 0], sb, sa)
+        t = (-slo / (shi - slo))[:, None]
+        p = lo + t * (hi - lo)
+        p[:, 0] = c
+        return p, nlo + t * (nhi - nlo)
+
+    T, N, S, G = tris[cross], normals[cross], side[cross], sign[cross]
+    on = np.any(G == 0, axis=1)
+    for mask, first in ((on, np.argmin(np.abs(G), axis=1)), (~on, None)):
+        if not np.any(mask):
+            continue
+        t, n, sd, g = T[mask], N[mask], S[mask], G[mask]
+        if first is None:  # the vertex alone on its side
+            first = np.array(
+                [[i for i in range(3) if row[i] != row[(i + 1) % 3] and row[i] != row[(i + 2) % 3]][0] for row in g]
+            )
+        else:
+            first = first[mask]
+        order = (first[:, None] + np.arange(3)[None]) % 3
+        k = np.arange(len(t))[:, None]
+        t, n, sd = t[k, order], n[k, order], sd[k, order]
+        v0, v1, v2 = t[:, 0], t[:, 1], t[:, 2]
+        n0, n1, n2 = n[:, 0], n[:, 1], n[:, 2]
+        if mask is on:
+            p, np_ = cut(v1, v2, n1, n2, sd[:, 1], sd[:, 2])
+            keep_t += [np.stack([v0, v1, p], 1), np.stack([v0, p, v2], 1)]
+            keep_n += [np.stack([n0, n1, np_], 1), np.stack([n0, np_, n2], 1)]
+        else:
+            p1, m1 = cut(v0, v1, n0, n1, sd[:, 0], sd[:, 1])
+            p2, m2 = cut(v0, v2, n0, n2, sd[:, 0], sd[:, 2])
+            keep_t += [np.stack([v0, p1, p2], 1), np.stack([p1, v1, v2], 1), np.stack([p1, v2, p2], 1)]
+            keep_n += [np.stack([n0, m1, m2], 1), np.stack([m1, n1, n2], 1), np.stack([m1, n2, m2], 1)]
+    return np.concatenate(keep_t), np.concatenate(keep_n)
+
+
+def bend_along(cl: Centreline, triangles, normals) -> tuple[np.ndarray, np.ndarray]:
+    """Triangles (n, 3, 3) given in a road's own frame (x the distance along the centreline,
+    y the offset across it, + left, z up) and their vertex normals, laid along the road: cut
+    at every vertex of the centreline they span (where the map changes), each vertex placed by
+    :meth:`Centreline.point` (a face of constant offset becomes the offset curve at that
+    distance from the curved kerb; the cut faces of two neighbours coincide, so a row of
+    buildings bends without gaps or overlaps) and the normals turned with the road."""
+    t = np.asarray(triangles, np.float64).reshape(-1, 3, 3)
+    n = np.asarray(normals, np.float64).reshape(-1, 3, 3)
+    if t.shape[0] == 0:
+        return t, n
+    lo, hi = float(t[:, :, 0].min()), float(t[:, :, 0].max())
+    for c in cl.s[(cl.s > lo) & (cl.s < hi)]:
+        t, n = _split_at(t, n, float(c))
+    flat = t.reshape(-1, 3)
+    xy = cl.point(flat[:, 0], flat[:, 1])
+    world = np.column_stack([xy, flat[:, 2]]).reshape(t.shape)
+    _, tangent = cl.frame(t[:, :, 0].mean(axis=1))  # per triangle: the segment it lies on
+    left = _rot90(tangent)
+    nw = n[:, :, :1] * tangent[:, None, :] + n[:, :, 1:2] * left[:, None, :]
+    nrm = np.concatenate([nw, n[:, :, 2:]], axis=2)
+    length = np.linalg.norm(nrm, axis=2, keepdims=True)
+    return world, nrm / np.where(length > 0, length, 1.0)
 
 
 def path_along(cl: Centreline, points, closed: bool = False) -> np.ndarray:
@@ -820,10 +909,11 @@ def _crossing(roads: list[Road], cls: list[Centreline], arms: list[Arm]) -> tupl
     return None
 
 
-def add_roads(b, roads: list[Road], source: str | Path) -> None:
+def add_roads(b, roads: list[Road], source: str | Path) -> dict[str, dict[str, list[tuple[float, float]]]]:
     """Add every road of the scene and their junctions to the builder ``b``
     (:class:`render.geometry.build._Builder`); a road that cannot be built is an InputError
-    naming its key."""
+    naming its key. Returns, per road (its key path) and side, the spans along it where its
+    side bands are cut back for a junction (where no frontage may stand)."""
     cls = []
     for road in roads:
         try:
@@ -873,3 +963,4 @@ def add_roads(b, roads: list[Road], source: str | Path) -> None:
         except RoadError as err:
             road = roads[shape.arm.branch]
             raise input_error(source, f"{road.where}.{err.key}", str(err)) from None
+    return {road.where: {side: sorted(c.sides[side]) for side in _SIDES} for road, c in zip(roads, cuts)}

@@ -237,6 +237,7 @@ TAG_FIELDS = {
 }
 
 FRONTAGE_SPEC = {
+    "road": Field("str", default=None, help="a [[roads]] name: start_m and length_m along that road"),
     "side": Field("str", choices=("left", "right")),
     "kind": Field("str", default="house", choices=("house", "shop")),
     "start_m": Field("float", unit=M, **COORD),
@@ -960,7 +961,8 @@ def _mesh_file(g: dict, entry: dict, where: str, ctx: _Context) -> list[str] | N
     return list(mesh.names)
 
 
-def _frontages(entries: list, ctx: _Context) -> list[Frontage]:
+def _frontages(entries: list, ctx: _Context, roads: list[Road] = ()) -> list[Frontage]:
+    """The ``[[frontages]]``; one along a road (``road``) must lie on it, 0 to its length."""
     from render.geometry.build import object_slots
 
     out = []
@@ -972,6 +974,23 @@ def _frontages(entries: list, ctx: _Context) -> list[Frontage]:
         materials = _materials_table(f["materials"] or {}, f"{where}.materials", ctx, slots)
         if any(f[k] is None for k in ("side", "start_m", "length_m", "height_m", "depth_m", "units")):
             continue
+        if f["road"] is not None:
+            road = _road_named(f["road"], list(roads), f"{where}.road", ctx)
+            if road is None:
+                continue
+            length = road.section.length_m
+            if f["start_m"] < 0:
+                ctx.problems.add(
+                    f"{where}.start_m", f"expected 0 to {length:g} m along {shown(road.name)}, got {f['start_m']:g}"
+                )
+                continue
+            if f["start_m"] + f["length_m"] > length * (1 + 1e-12):
+                ctx.problems.add(
+                    f"{where}.length_m",
+                    f"from start_m {f['start_m']:g} m the frontage reaches {f['start_m'] + f['length_m']:g} m, beyond the "
+                    f"end of {shown(road.name)} at {length:g} m",
+                )
+                continue
         out.append(
             Frontage(
                 f["side"],
@@ -984,6 +1003,7 @@ def _frontages(entries: list, ctx: _Context) -> list[Frontage]:
                 materials,
                 _tag(f, f"{kind} frontage {i + 1}"),
                 where,
+                f["road"],
             )
         )
     return out
@@ -1513,7 +1533,7 @@ def load_scene_document(doc: dict, path: str | os.PathLike, *, strict_paths: boo
     info = check_table(top["scene"] or {}, SCENE_INFO, "scene", problems)
     street = _street(top["street"], ctx) if top["street"] is not None else None
     roads = _roads(top["roads"] or [], ctx)
-    frontages = _frontages(top["frontages"] or [], ctx)
+    frontages = _frontages(top["frontages"] or [], ctx, roads)
     objects = _objects(top["objects"] or [], ctx, street, roads) + _geometry(top["geometry"] or [], ctx)
     markings = _markings(top["markings"] or [], ctx, roads)
     luminaires = _luminaires(

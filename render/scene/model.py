@@ -159,6 +159,9 @@ class Frontage:
     materials: dict[str, str]
     tag: Tag
     where: str
+    #: The road the fronts stand along (``frontages.road``: ``start_m``/``length_m`` along its
+    #: centreline, ``side`` its left or right); None: the [street].
+    road: str | None = None
 
 
 @dataclass
