@@ -403,9 +403,10 @@ def cmd_colours(args: argparse.Namespace) -> int:
     the chosen view (--view, else the scene's [colour] view) or in the view showing it best."""
     from collections import Counter
 
+    from render.analysis.colours import CAVEAT
     from render.analysis.view_colours import analyse_colours
     from render.output.colour_files import write_colour_json, write_colour_pictures
-    from render.output.colour_text import format_confusions, format_name_changes, format_name_table
+    from render.output.colour_text import format_confusions, format_name_changes, format_name_table, format_pairs
 
     study = _study(args)
     observer = _observer_from_args(study, args)
@@ -415,10 +416,17 @@ def cmd_colours(args: argparse.Namespace) -> int:
         raise input_error(args.scene, "", "no object has `inspect = true`: tag the objects to analyse")
     out = _out_dir(args.out, f"{Path(args.scene).stem}-colours")
     renders = {}
+    own_states = {}
     for v in views:
         setups, rendered = _render_setups(study, v, args.setups, args.spp, args.width, quiet=args.quiet)
-        renders[v.name] = (rendered, study.display(rendered, "shared", observer))
-    result = analyse_colours(study, renders, observer, [s.name for s in setups], chosen)
+        # The colours are those of the shared images; each setup's pairs are judged at the
+        # adaptation of its own (adapted) image.
+        shared, adapted = study.display_both(rendered, observer)
+        renders[v.name] = (rendered, shared)
+        own_states[v.name] = [d.state for d in adapted]
+    result = analyse_colours(
+        study, renders, observer, [s.name for s in setups], chosen, setups=setups, own_states=own_states
+    )
     # The outlined picture shows the view most objects are analysed in.
     used = Counter(o.view for o in result.objects)
     view = study.scene.view(max(renders, key=lambda n: (used[n], -list(renders).index(n))))
@@ -447,7 +455,11 @@ def cmd_colours(args: argparse.Namespace) -> int:
     print()
     print(format_name_changes(result))
     print()
+    print(format_pairs(result))
+    print()
     print(format_confusions(result))
+    print()
+    print(f"Caution: {CAVEAT}.")
     for path in written:
         print(path)
     return 0
@@ -852,7 +864,9 @@ def build_parser() -> argparse.ArgumentParser:
     p.set_defaults(func=cmd_relight)
 
     p = sub.add_parser(
-        "colours", help="can people tell the tagged objects' colours apart? names, CIEDE2000, confusions, pictures"
+        "colours",
+        help="can people tell the tagged objects' colours apart? names, CIEDE2000 and a light-level verdict per pair, "
+        "confusions, pictures",
     )
     _scene_argument(p)
     p.add_argument(

@@ -1,4 +1,4 @@
-"""Telling colours apart at night: object colours, CIEDE2000 matrices, confusions, contrast.
+"""Telling colours apart at night: object colours, CIEDE2000, discrimination, confusions, contrast.
 
 What is compared
 ----------------
@@ -34,9 +34,10 @@ computed on those CIELAB values. So a colour difference at night is measured as 
 observer would measure it between the two *appearances* the vision stage predicts: the loss of
 hue under a line source and the loss of colourfulness from rod intrusion and incomplete
 adaptation are included; the general rise of discrimination thresholds at low luminance is
-not (CIEDE2000 has no luminance-level term) -- the thresholds below are therefore optimistic at
-night. Lightness is relative to the white at the same light level; the absolute level is
-reported separately as luminance and Weber contrast.
+not (CIEDE2000 has no luminance-level term), so ΔE00 overstates how visible a difference is at
+night. That rise is what the discrimination model below adds. Lightness is relative to the
+white at the same light level; the absolute level is reported separately as luminance and
+Weber contrast.
 
 Why the object mean is taken in XYZ
 -----------------------------------
@@ -46,16 +47,42 @@ and it does not depend on how the pixels are split. CIELAB is non-linear, so a m
 values is biased by shading and noise toward darker, less colourful values. The mean is taken
 first, then converted.
 
-Thresholds (CIEDE2000 units)
-----------------------------
-* :data:`IMPERCEPTIBLE_DE00` = 1.0: about one just-noticeable difference for surface colours
-  in CIE 142-2001's reference conditions (common practice, no source for the exact value).
-* :data:`HARD_DE00` = 3.0: "hard to tell apart" unless the two are side by side (common
-  practice in colour tolerancing, no source).
-* :data:`DISTINCT_IN_DAYLIGHT_DE00` = 10.0: our choice. Ten JNDs: two surfaces this far apart
-  are clearly different colours at a glance in daylight, so a pair that falls below 3 at night
-  has lost a difference a resident relies on. Pairs below 10 in daylight are left out of the
-  confusion list (they are in the matrices).
+Can the pair be told apart at this light level? (the discrimination model)
+------------------------------------------------------------------------------
+Beside CIEDE2000, every pair of visible objects under every setup is judged by castleCSF
+(:mod:`render.vision.discrimination`: Ashraf, Mantiuk, Chapiro & Wuerger 2024), whose
+thresholds depend on the light level and the size of what is seen:
+
+* **signals**: per object the mean over its main-surface pixels of the CIE 2006 cone signals
+  L, M, S (L + M in cd/m²) and the scotopic luminance, from the light buffers (the absolute
+  spectral radiance through :func:`render.colour.colorimetry.resolve_responses`), not from the
+  display image; the glare veil is not added to them (it would lower both contrasts alike and
+  is in the adaptation luminance);
+* **size**: the diameter of the disc with the angular area of the object's main-surface pixels
+  (exact pixel solid angles of the view, :meth:`render.vision.view.ViewGeometry.solid_angle_sr`);
+  a pair is judged at the smaller of its two sizes;
+* **adaptation**: the photopic adaptation luminance of an observer adapted to that setup alone
+  (the view's measured :class:`~render.vision.adaptation.AdaptationState`, with glare), not the
+  shared state of the side-by-side images; a pair whose objects are analysed in two views is
+  judged at the lower of the two views' levels (as if seen side by side: our choice);
+* **result**: the pair's multiple of threshold and a verdict: ``easy`` (at least 3 times
+  threshold), ``hard`` (1-3), ``cannot`` (below 1); below castleCSF's fitted range (chromatic
+  data from 0.02 cd/m²) no multiple is extrapolated: ``likely cannot`` when an upper bound is
+  below 1, else ``unknown``, and the pair's note says so
+  (:func:`render.vision.discrimination.discriminate_signals`).
+
+The same adaptation state decides whether hue can be named
+(:func:`render.vision.discrimination.hue_availability`): where it cannot, the night name says
+"looks grey; colour not reliable at this light level" with the nearest achromatic term by
+lightness (:func:`render.analysis.naming.night_name`) instead of a hue.
+
+Pairs that become hard to tell apart
+------------------------------------
+:func:`confusions` lists the pairs at least :data:`DISTINCT_IN_DAYLIGHT_DE00` = 10 CIEDE2000
+apart in daylight (our choice: ten JNDs, clearly different colours at a glance, so a pair lost
+at night is a difference a resident relies on) whose verdict under a setup is ``hard``,
+``cannot`` or ``likely cannot`` (:data:`CONFUSED_VERDICTS`). Pairs closer than 10 in daylight
+are left out of the list (their figures are in :attr:`SetupColours.pairs`).
 
 Luminance contrast
 ------------------
@@ -67,7 +94,8 @@ named background object (kerb against road) or a ring of pixels around the objec
 The result and its JSON structure
 ---------------------------------
 :func:`colour_analysis` returns a :class:`ColourAnalysis` (frozen records: :class:`SetupColours`,
-:class:`SeenColour`, :class:`DaylightColour`, :class:`Confusion`, :class:`NameChange`) holding
+:class:`SeenColour`, :class:`DaylightColour`, :class:`SetupDiscrimination`,
+:class:`PairDifference`, :class:`NameChange`) holding
 the figures as published; :meth:`ColourAnalysis.to_json` gives the JSON-safe dict written to
 ``colours.json`` (floats rounded, ``None`` for anything not defined, keys in a fixed order)::
 
@@ -83,14 +111,21 @@ the figures as published; :meth:`ColourAnalysis.to_json` gives the JSON-safe dic
         "LED 3000 K": {
           "adaptation": {...},                   # AdaptationState.as_dict() + white luminance
           "objects": {"car": {"visible": true, "pixels": 812, "lab": [...], "lch": [...],
-                              "xyz_relative": [...], "name": "brown", "name_margin": 1.1,
-                              "name_runner_up": "green", "daylight_name": "green",
-                              "name_changed": true, "delta_e00_to_daylight": 23.4,
-                              "luminance_cd_m2": 0.41, "background": "ring 4 px",
-                              "background_luminance_cd_m2": 0.22, "weber_contrast": 0.86}, ...},
+                              "xyz_relative": [...], "name": "brown", "name_term": "brown",
+                              "name_margin": 1.1, "name_runner_up": "green", "hue": "available",
+                              "daylight_name": "green", "name_changed": true,
+                              "delta_e00_to_daylight": 23.4, "luminance_cd_m2": 0.41,
+                              "background": "ring 4 px", "background_luminance_cd_m2": 0.22,
+                              "weber_contrast": 0.86, "cone_lms": [L, M, S],
+                              "scotopic_cd_m2": 0.6, "size_deg": 1.9}, ...},
           "delta_e00": [[...], ...],
-          "confusions": [{"a": "car", "b": "hedge", "daylight_delta_e00": 18.2,
-                          "delta_e00": 2.1, "level": "hard"}, ...],
+          "discrimination": {"adaptation_cd_m2": 0.45, "mes2_m": 0.63, "in_range": true,
+                             "note": "", "hue": "available", "hue_reason": "",
+                             "threshold_multiple": [[...], ...]},
+          "pairs": [{"a": "car", "b": "hedge", "daylight_delta_e00": 18.2, "delta_e00": 2.1,
+                     "threshold_multiple": 1.7, "verdict": "hard", "upper_bound": null,
+                     "size_deg": 1.9, "adaptation_cd_m2": 0.45, "note": ""}, ...],
+          "confusions": [...],                   # the pairs of the list above, hardest first
           "name_changes": [{"object": "car", "daylight": "green", "seen": "brown",
                             "text": "car: green → brown"}, ...]},
         ...}
@@ -105,13 +140,15 @@ References
 * Li, Li, Wang, Zu, Luo, Cui, Melgosa, Brill & Pointer (2017), comprehensive colour solutions:
   CAM16, CAT16 and CAM16-UCS, Color Research & Application 42.
 * Cao, Pokorny, Smith & Zele (2008), rod contributions to colour perception, Vision Research 48.
+* Ashraf, Mantiuk, Chapiro & Wuerger (2024), castleCSF, Journal of Vision 24(4):5 (release
+  v0.2.4), through :mod:`render.vision.discrimination`.
 """
 
 from __future__ import annotations
 
 import math
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, field, fields, replace
+from dataclasses import dataclass, field, fields
 from functools import lru_cache
 from typing import TYPE_CHECKING, Any
 
@@ -120,19 +157,20 @@ from numpy.typing import ArrayLike
 
 from render.colour import observers
 from render.colour.spectra import N_BINS
+from render.vision.discrimination.pairs import EASY_MULTIPLE, HARD_MULTIPLE
 
 if TYPE_CHECKING:
     from render.vision.adaptation import AdaptationState
+    from render.vision.discrimination import HueAvailability, SurfaceSignals
     from render.vision.observer import ObserverSettings
     from render.vision.pipeline import PerceivedView, ViewLight
     from render.vision.view import ViewGeometry
 
 __all__ = [
     "CAVEAT",
+    "CONFUSED_VERDICTS",
     "DISTINCT_IN_DAYLIGHT_DE00",
     "GREY_WORLD_FRACTION",
-    "HARD_DE00",
-    "IMPERCEPTIBLE_DE00",
     "MIN_PIXELS",
     "NAMING_ADAPTATIONS",
     "RING_WIDTH_PX",
@@ -140,16 +178,18 @@ __all__ = [
     "ROUND_DE",
     "ROUND_LAB",
     "SIGNIFICANT_LUMINANCE",
+    "SIGNIFICANT_MULTIPLE",
     "AnalysedObject",
     "ColourAnalysis",
     "ColourThresholds",
-    "Confusion",
     "DaylightColour",
     "DaylightColours",
     "Matrix",
     "NameChange",
+    "PairDifference",
     "SeenColour",
     "SetupColours",
+    "SetupDiscrimination",
     "SetupView",
     "TaggedObject",
     "Triple",
@@ -177,16 +217,17 @@ __all__ = [
     "xyz_to_lab",
 ]
 
-#: ΔE00 below which two colours are taken as indistinguishable (≈ 1 JND; common practice).
-IMPERCEPTIBLE_DE00 = 1.0
-#: ΔE00 below which two colours are hard to tell apart (common practice, no source).
-HARD_DE00 = 3.0
 #: ΔE00 from which two colours count as clearly distinct in daylight (our choice; see module).
 DISTINCT_IN_DAYLIGHT_DE00 = 10.0
-#: What the thresholds leave out (stated with every analysis).
+#: Verdicts of the discrimination model that put a pair distinct in daylight on the list of
+#: pairs that become hard to tell apart (:func:`confusions`).
+CONFUSED_VERDICTS = ("hard", "cannot", "likely cannot")
+#: What the figures leave out (stated with every analysis).
 CAVEAT = (
-    "CIEDE2000 has no light-level term: thresholds rise at low luminance, so night "
-    "differences read as more visible than they are"
+    "CIEDE2000 has no light-level term, so at night its differences read as more visible than they are; the "
+    "verdicts (easy, hard, cannot) come from a published model of a typical observer's contrast sensitivity "
+    "(castleCSF, fitted to laboratory data down to 0.02 cd/m²), for two surfaces seen side by side and looked at; "
+    "real observers, ages, glances and eye conditions differ"
 )
 #: Default minimum number of visible pixels for an object to be given a colour.
 MIN_PIXELS = 20
@@ -204,6 +245,8 @@ ROUND_LAB = 2
 ROUND_DE = 2
 ROUND_CONTRAST = 3
 SIGNIFICANT_LUMINANCE = 4
+#: Significant figures of a published multiple of threshold.
+SIGNIFICANT_MULTIPLE = 3
 
 
 # ------------------------------------------------------------------------ whites and CIELAB
@@ -566,35 +609,28 @@ def delta_e_matrix(labs: ArrayLike) -> np.ndarray:
 
 
 def confusions(
-    daylight_de: ArrayLike,
-    night_de: ArrayLike,
-    names: Sequence[str],
-    hard: float = HARD_DE00,
-    imperceptible: float = IMPERCEPTIBLE_DE00,
-    distinct_in_daylight: float = DISTINCT_IN_DAYLIGHT_DE00,
-) -> list[Confusion]:
+    pairs: Sequence[PairDifference], distinct_in_daylight: float = DISTINCT_IN_DAYLIGHT_DE00
+) -> list[PairDifference]:
     """Pairs that are distinct in daylight and hard to tell apart under a setup.
 
-    A pair (i, j) is listed when ``daylight_de[i, j] ≥ distinct_in_daylight`` and
-    ``night_de[i, j] < hard``; its ``level`` is ``"imperceptible"`` below ``imperceptible``,
-    else ``"hard"``. Pairs with an undefined (NaN) difference are skipped. Sorted by the
-    night difference, smallest first. Thresholds: see the module text.
+    A pair is listed when its ``daylight_delta_e00 ≥ distinct_in_daylight`` and its verdict
+    (the discrimination model's, at the setup's light level and the pair's size) is one of
+    :data:`CONFUSED_VERDICTS`. Sorted hardest first: by the multiple of threshold (or, below
+    the model's range, its upper bound), then by name.
     """
-    day = np.asarray(daylight_de, dtype=np.float64)
-    night = np.asarray(night_de, dtype=np.float64)
-    n = len(names)
-    if day.shape != (n, n) or night.shape != (n, n):
-        raise ValueError("both matrices must be (n, n) for n names")
-    out = []
-    for i in range(n):
-        for j in range(i + 1, n):
-            d, e = day[i, j], night[i, j]
-            if not (np.isfinite(d) and np.isfinite(e)):
-                continue
-            if d >= distinct_in_daylight and e < hard:
-                level = "imperceptible" if e < imperceptible else "hard"
-                out.append(Confusion(names[i], names[j], float(d), float(e), level))
-    out.sort(key=lambda p: (p.delta_e00, p.a, p.b))
+    out = [
+        p
+        for p in pairs
+        if p.daylight_delta_e00 is not None
+        and p.daylight_delta_e00 >= distinct_in_daylight
+        and p.verdict in CONFUSED_VERDICTS
+    ]
+
+    def hardness(p: PairDifference) -> float:
+        x = p.threshold_multiple if p.threshold_multiple is not None else p.upper_bound
+        return math.inf if x is None else float(x)
+
+    out.sort(key=lambda p: (hardness(p), p.a, p.b))
     return out
 
 
@@ -649,6 +685,16 @@ class SetupView:
         (H, W) luminance for the contrasts; default the perceived Y (MES2 mesopic luminance).
     exclude
         (H, W) bool, pixels never used as background (luminaire openings, sky).
+    cone_rod_cd_m2
+        (H, W, 4) the CIE 2006 cone signals L, M, S (L + M in cd/m²) and the scotopic luminance
+        (cd/m²) of each pixel from the light buffers
+        (:func:`render.vision.discrimination.cone_rod_weights`); ``None``: pairs not judged.
+    solid_angle_sr
+        (H, W) solid angle of each pixel, sr (:meth:`render.vision.view.ViewGeometry.solid_angle_sr`);
+        ``None``: pairs not judged.
+    own_state
+        The adaptation state of an observer adapted to this setup alone, which the
+        discrimination model and the hue rule use; ``None``: ``state``.
     """
 
     perceived_xyz_cd_m2: np.ndarray
@@ -659,6 +705,14 @@ class SetupView:
     white_scotopic_cd_m2: float | None = None
     luminance_cd_m2: np.ndarray | None = None
     exclude: np.ndarray | None = None
+    cone_rod_cd_m2: np.ndarray | None = None
+    solid_angle_sr: np.ndarray | None = None
+    own_state: AdaptationState | None = None
+
+    @property
+    def discrimination_state(self) -> AdaptationState:
+        """The state the discrimination model and the hue rule use (``own_state`` or ``state``)."""
+        return self.own_state if self.own_state is not None else self.state
 
     @classmethod
     def from_view(cls, view: PerceivedView, object_id: np.ndarray, **kwargs: Any) -> SetupView:
@@ -676,11 +730,12 @@ Matrix = tuple[tuple[float | None, ...], ...]
 
 @dataclass(frozen=True)
 class ColourThresholds:
-    """The ΔE00 thresholds of :func:`confusions` (values and sources: the module text)."""
+    """The thresholds of :func:`confusions` and the verdicts (values and sources: the module
+    text and :mod:`render.vision.discrimination.pairs`)."""
 
-    imperceptible_delta_e00: float = IMPERCEPTIBLE_DE00
-    hard_delta_e00: float = HARD_DE00
     distinct_in_daylight_delta_e00: float = DISTINCT_IN_DAYLIGHT_DE00
+    easy_multiple: float = EASY_MULTIPLE
+    hard_multiple: float = HARD_MULTIPLE
 
 
 @dataclass(frozen=True)
@@ -715,11 +770,17 @@ class DaylightColour:
 
 @dataclass(frozen=True)
 class SeenColour:
-    """An object as seen under one setup: colour, name, difference to daylight, contrast.
+    """An object as seen under one setup: colour, name, difference to daylight, contrast, and
+    what the discrimination model is given.
 
     ``lab``, ``lch``, ``xyz_relative``, the name fields and ``delta_e00_to_daylight`` are
     ``None`` when the object has fewer visible pixels than the analysis asks for
-    (``visible`` false). ``background`` says what the contrast is taken against.
+    (``visible`` false). ``background`` says what the contrast is taken against. ``name`` is
+    the night name as shown: the basic term ``name_term``, or, where ``hue`` (the
+    :func:`render.vision.discrimination.hue_availability` level of the object's view) is not
+    ``"available"``, "looks TERM; colour not reliable at this light level" with an achromatic
+    term. ``cone_lms`` (L + M in cd/m²), ``scotopic_cd_m2`` and ``size_deg`` are the object's
+    mean cone signals, scotopic luminance and angular size (``None``: not given).
     """
 
     visible: bool
@@ -728,8 +789,10 @@ class SeenColour:
     lch: Triple | None
     xyz_relative: Triple | None
     name: str | None
+    name_term: str | None
     name_margin: float | None
     name_runner_up: str | None
+    hue: str | None
     daylight_name: str | None
     name_changed: bool
     delta_e00_to_daylight: float | None
@@ -737,26 +800,93 @@ class SeenColour:
     background: str
     background_luminance_cd_m2: float | None
     weber_contrast: float | None
+    cone_lms: Triple | None = None
+    scotopic_cd_m2: float | None = None
+    size_deg: float | None = None
 
     def to_json(self) -> dict[str, Any]:
         return _record_json(self)
 
 
 @dataclass(frozen=True)
-class Confusion:
-    """A pair distinct in daylight that is hard to tell apart under a setup (:func:`confusions`).
+class PairDifference:
+    """Two objects under one setup: CIEDE2000 beside the light-level-aware verdict.
 
-    ``level`` is ``"imperceptible"`` or ``"hard"``.
+    Attributes
+    ----------
+    a, b
+        The objects' names (in the order of :attr:`ColourAnalysis.objects`).
+    daylight_delta_e00, delta_e00
+        CIEDE2000 in daylight and between the colours as seen.
+    threshold_multiple
+        The pair's multiple of threshold (castleCSF); ``None`` when not judged or outside the
+        model's range.
+    verdict
+        ``easy``, ``hard``, ``cannot``, ``likely cannot`` or ``unknown``
+        (:data:`render.vision.discrimination.VERDICTS`).
+    upper_bound
+        Below the model's range: the upper bound of the multiple; else ``None``.
+    size_deg, adaptation_cd_m2
+        The angular size and photopic adaptation luminance the pair was judged at.
+    note
+        Empty, or why the verdict is limited (e.g. below the model's range).
     """
 
     a: str
     b: str
     daylight_delta_e00: float | None
     delta_e00: float | None
-    level: str
+    threshold_multiple: float | None
+    verdict: str
+    upper_bound: float | None = None
+    size_deg: float | None = None
+    adaptation_cd_m2: float | None = None
+    note: str = ""
 
     def to_json(self) -> dict[str, Any]:
         return _record_json(self)
+
+    @classmethod
+    def from_json(cls, data: Mapping[str, Any]) -> PairDifference:
+        """The record of :meth:`to_json`'s content (missing fields take their defaults)."""
+        given = {f.name: data[f.name] for f in fields(cls) if f.name in data}
+        given.setdefault("threshold_multiple", None)
+        given.setdefault("verdict", "unknown")
+        return cls(**given)
+
+
+@dataclass(frozen=True)
+class SetupDiscrimination:
+    """The discrimination model under one setup: the adaptation state the pairs were judged at
+    (of the first object's view; pairs across views name their own level), whether that is
+    within the model's range, whether hue is available there, and the matrix of multiples of
+    threshold (``None`` where not judged)."""
+
+    adaptation_cd_m2: float | None
+    mes2_m: float | None
+    in_range: bool
+    note: str
+    hue: str
+    hue_reason: str
+    threshold_multiple: Matrix
+
+    def to_json(self) -> dict[str, Any]:
+        out = _record_json(self)
+        out["threshold_multiple"] = _matrix_json(self.threshold_multiple)
+        return out
+
+    @classmethod
+    def from_json(cls, data: Mapping[str, Any]) -> SetupDiscrimination:
+        """The record of :meth:`to_json`'s content."""
+        return cls(
+            data.get("adaptation_cd_m2"),
+            data.get("mes2_m"),
+            bool(data.get("in_range")),
+            str(data.get("note") or ""),
+            str(data.get("hue") or ""),
+            str(data.get("hue_reason") or ""),
+            tuple(tuple(row) for row in data.get("threshold_multiple") or ()),
+        )
 
 
 @dataclass(frozen=True)
@@ -808,15 +938,22 @@ class SetupColours:
         Object name -> :class:`SeenColour`, in the order of :attr:`ColourAnalysis.objects`.
     delta_e00
         Pairwise ΔE00 of the colours as seen (``None`` where an object is not visible).
+    discrimination
+        The discrimination model's state and matrix (:class:`SetupDiscrimination`).
+    pairs
+        Every pair of visible objects (:class:`PairDifference`), in matrix order.
     confusions, name_changes
-        The confusable pairs (smallest ΔE00 first) and the names that change.
+        The pairs that become hard to tell apart (:func:`confusions`, hardest first) and the
+        names that change.
     """
 
     state: AdaptationState = field(repr=False)
     white_mesopic_cd_m2: float | None
     objects: Mapping[str, SeenColour]
     delta_e00: Matrix
-    confusions: tuple[Confusion, ...]
+    discrimination: SetupDiscrimination
+    pairs: tuple[PairDifference, ...]
+    confusions: tuple[PairDifference, ...]
     name_changes: tuple[NameChange, ...]
 
     def to_json(self) -> dict[str, Any]:
@@ -826,6 +963,8 @@ class SetupColours:
             "adaptation": adaptation,
             "objects": {name: c.to_json() for name, c in self.objects.items()},
             "delta_e00": _matrix_json(self.delta_e00),
+            "discrimination": self.discrimination.to_json(),
+            "pairs": [c.to_json() for c in self.pairs],
             "confusions": [c.to_json() for c in self.confusions],
             "name_changes": [c.to_json() for c in self.name_changes],
         }
@@ -842,7 +981,7 @@ class ColourAnalysis:
     Attributes
     ----------
     thresholds
-        The ΔE00 thresholds the confusions were found with.
+        The thresholds the confusions were found with.
     naming_adaptation
         One of :data:`NAMING_ADAPTATIONS`.
     objects
@@ -865,8 +1004,7 @@ class ColourAnalysis:
 
     def method_notes(self) -> dict[str, Any]:
         """The method statements of this analysis (JSON-safe; :func:`method_notes`)."""
-        t = self.thresholds
-        notes = method_notes(t.hard_delta_e00, t.imperceptible_delta_e00, t.distinct_in_daylight_delta_e00)
+        notes = method_notes(self.thresholds.distinct_in_daylight_delta_e00)
         return {**notes, "naming_adaptation": self.naming_adaptation}
 
     def name_rows(self) -> list[dict[str, Any]]:
@@ -895,9 +1033,27 @@ class ColourAnalysis:
         return [r for r in self.name_rows() if r["changed"]]
 
     def confusion_rows(self) -> list[dict[str, Any]]:
-        """Every confusable pair under every setup, in setup order then smallest ΔE00 first:
-        ``{"setup", "a", "b", "daylight_delta_e00", "delta_e00", "level"}`` (empty: none)."""
+        """Every pair that becomes hard to tell apart under every setup, in setup order then
+        hardest first: ``{"setup", **PairDifference.to_json()}`` (empty: none)."""
         return [{"setup": label, **c.to_json()} for label, s in self.setups.items() for c in s.confusions]
+
+    def pair_rows(self) -> list[dict[str, Any]]:
+        """Every pair of objects, in matrix order, with its figures under each setup:
+        ``{"a", "b", "daylight_delta_e00", "setups": {label: PairDifference or None}}``
+        (``None``: an object of the pair is not visible under that setup)."""
+        names = self.object_names
+        found = {label: {(p.a, p.b): p for p in s.pairs} for label, s in self.setups.items()}
+        day = self.daylight.delta_e00
+        return [
+            {
+                "a": names[i],
+                "b": names[j],
+                "daylight_delta_e00": day[i][j],
+                "setups": {label: found[label].get((names[i], names[j])) for label in self.setups},
+            }
+            for i in range(len(names))
+            for j in range(i + 1, len(names))
+        ]
 
     def to_json(self) -> dict[str, Any]:
         """The JSON structure of the module text (JSON-safe: no NaN, keys in a fixed order)."""
@@ -961,14 +1117,13 @@ def _json_safe(value):
     return value
 
 
-def method_notes(
-    hard: float = HARD_DE00,
-    imperceptible: float = IMPERCEPTIBLE_DE00,
-    distinct_in_daylight: float = DISTINCT_IN_DAYLIGHT_DE00,
-) -> dict[str, Any]:
+def method_notes(distinct_in_daylight: float = DISTINCT_IN_DAYLIGHT_DE00) -> dict[str, Any]:
     """The method statements that go with every analysis (JSON-safe)."""
     from render.analysis.naming import naming_model_notes
+    from render.vision.discrimination import castle_params as castle
 
+    lo, hi = castle.CHROMATIC_LUMINANCE_RANGE_CD_M2
+    r_lo, r_hi = castle.DISC_RADIUS_RANGE_DEG
     return {
         "colour_as_seen": "mean over the visible pixels of the object's main surface of the vision stage's perceived XYZ "
         "(CIE 191 MES2 luminance, rod intrusion, glare, acuity), after its chromatic "
@@ -976,14 +1131,32 @@ def method_notes(
         "setup's light (Y = 100); mean taken in XYZ, then CIELAB",
         "daylight_reference": "the main surface's reflectance under CIE D65, CIE 1931 2 degree observer, perfect diffuser "
         "Y = 100, complete adaptation",
-        "colour_difference": "CIEDE2000 (CIE 142-2001) on those CIELAB values",
+        "colour_difference": "CIEDE2000 (CIE 142-2001) on those CIELAB values; no light-level term",
+        "discrimination": {
+            "model": f"castleCSF (Ashraf, Mantiuk, Chapiro & Wuerger 2024, Journal of Vision 24(4):5), "
+            f"{castle.CASTLE_RELEASE}: achromatic, red-green and yellow-violet mechanisms, disc rule of "
+            "Ashraf, Mantiuk & Chapiro 2023",
+            "signals": "mean CIE 2006 cone signals (L + M in cd/m2) and scotopic luminance over the object's "
+            "main-surface pixels, from the rendered spectral radiance (light buffers), glare veil not added",
+            "stimulus": "the two surfaces as a disc of one on the other, looked at, static; disc diameter from the "
+            "smaller object's angular area",
+            "adaptation": "the photopic adaptation luminance of an observer adapted to that setup alone (the view's "
+            "measured adaptation state, glare included); pairs across two views at the lower level",
+            "verdicts": f"easy at {EASY_MULTIPLE:g} or more times threshold, hard from {HARD_MULTIPLE:g} to "
+            f"{EASY_MULTIPLE:g}, cannot below {HARD_MULTIPLE:g} (lampcast's cut-offs, no source: threshold is "
+            "laboratory detection)",
+            "fitted_range": f"chromatic data {lo:g}-{hi:g} cd/m2, disc radii {r_lo:.3g}-{r_hi:g} degrees (sizes "
+            f"outside clamped); below {lo:g} cd/m2 nothing is extrapolated: 'likely cannot' when an upper bound is "
+            "below 1, else 'unknown'",
+            "hue": "hue is named only where available (CIE 191 MES2 m at least that of the model's dimmest "
+            f"chromatic data and adaptation at least {lo:g} cd/m2); elsewhere the night name says "
+            "'looks TERM; colour not reliable at this light level' with an achromatic term",
+        },
         "thresholds": {
-            "imperceptible_delta_e00": imperceptible,
-            "imperceptible_source": "about one just-noticeable difference (common practice, no source)",
-            "hard_delta_e00": hard,
-            "hard_source": "hard to tell apart unless side by side (common practice, no source)",
             "distinct_in_daylight_delta_e00": distinct_in_daylight,
             "distinct_in_daylight_source": "lampcast's choice: ten JNDs, clearly different at a glance",
+            "hard_to_tell_apart": "pairs distinct in daylight whose verdict under a setup is "
+            + ", ".join(CONFUSED_VERDICTS),
         },
         "contrast": "Weber contrast (L_obj - L_bg)/L_bg of the mesopic luminance; background a ring "
         "around the object or a named background object",
@@ -1001,10 +1174,17 @@ class _SeenIn:
     lum: np.ndarray
     lum_obj: dict[int, float | None]
     oid: np.ndarray
+    signals: dict[int, SurfaceSignals]
+    size_deg: dict[int, float]
+    state: AdaptationState
+    hue: HueAvailability
 
 
 def _seen_in(sv: SetupView, ids: list[int], min_pixels: int, erode_px: int, naming_adaptation: str) -> _SeenIn:
-    """Colour statistics and luminances of the objects ``ids`` in one setup view."""
+    """Colour statistics, luminances and discrimination inputs of the objects ``ids`` in one
+    setup view."""
+    from render.vision.discrimination import SurfaceSignals, disc_diameter_deg, hue_availability
+
     white = white_mesopic_cd_m2(sv.state, sv.white_photopic_cd_m2, sv.white_scotopic_cd_m2)
     rel = relative_colour_image(sv.perceived_xyz_cd_m2, sv.state, sv.observer, white)
     stats = object_colour_stats(rel, sv.object_id, ids, min_pixels, erode_px=erode_px)
@@ -1020,7 +1200,52 @@ def _seen_in(sv: SetupView, ids: list[int], min_pixels: int, erode_px: int, nami
         else np.asarray(sv.luminance_cd_m2, dtype=np.float64)
     )
     lum_obj = object_mean(lum, sv.object_id, ids, min_pixels, erode_px=erode_px)
-    return _SeenIn(stats, naming_stats, lum, lum_obj, np.asarray(sv.object_id))
+    signals: dict[int, SurfaceSignals] = {}
+    if sv.cone_rod_cd_m2 is not None:
+        cone_rod = np.asarray(sv.cone_rod_cd_m2, dtype=np.float64)
+        if cone_rod.shape != np.shape(sv.object_id) + (4,):
+            raise ValueError("cone_rod_cd_m2 must be (H, W, 4) matching the (H, W) object_id image")
+        for k, mask in _object_masks(sv.object_id, ids, erode_px):
+            if stats[k]["visible"]:
+                lms_s = cone_rod[mask].mean(axis=0)
+                signals[k] = SurfaceSignals((float(lms_s[0]), float(lms_s[1]), float(lms_s[2])), float(lms_s[3]))
+    size_deg: dict[int, float] = {}
+    if sv.solid_angle_sr is not None:
+        solid = np.asarray(sv.solid_angle_sr, dtype=np.float64)
+        for k, mask in _object_masks(sv.object_id, ids, 0):
+            if stats[k]["visible"]:
+                size_deg[k] = disc_diameter_deg(float(solid[mask].sum()) * math.degrees(1.0) ** 2)
+    state = sv.discrimination_state
+    hue = hue_availability(state.photopic_cd_m2, state.m)
+    return _SeenIn(stats, naming_stats, lum, lum_obj, np.asarray(sv.object_id), signals, size_deg, state, hue)
+
+
+def _judge_pair(a: _SeenIn, b: _SeenIn, i: int, j: int):
+    """The discrimination model for objects ``i`` (seen in ``a``) and ``j`` (seen in ``b``), or
+    ``None`` and why not when an input is missing."""
+    from render.vision.discrimination import discriminate_signals
+
+    if i not in a.signals or j not in b.signals:
+        return None, "no light buffers: not judged"
+    if i not in a.size_deg or j not in b.size_deg:
+        return None, "angular size unknown: not judged"
+    adaptation = min(a.state.photopic_cd_m2, b.state.photopic_cd_m2)
+    size = min(a.size_deg[i], b.size_deg[j])
+    if not size > 0:
+        return None, "no angular size: not judged"
+    return discriminate_signals(a.signals[i], b.signals[j], adaptation, size), ""
+
+
+def _name_seen(lab, hue: HueAvailability) -> dict[str, Any] | None:
+    """The night name of a colour: its basic term where hue is available, else the achromatic
+    term by lightness said as "looks TERM; colour not reliable at this light level"."""
+    from render.analysis.naming import colour_name_details, lightness_name_details, night_name
+
+    if hue.available:
+        nm = colour_name_details(lab)
+        return None if nm is None else {**nm, "name": nm["term"]}
+    nm = lightness_name_details(lab)
+    return None if nm is None else {**nm, "name": night_name(nm["term"])}
 
 
 def colour_analysis(
@@ -1030,8 +1255,6 @@ def colour_analysis(
     object_views: Mapping[int, str] | None = None,
     min_pixels: int = MIN_PIXELS,
     erode_px: int = 0,
-    hard: float = HARD_DE00,
-    imperceptible: float = IMPERCEPTIBLE_DE00,
     distinct_in_daylight: float = DISTINCT_IN_DAYLIGHT_DE00,
     naming_adaptation: str = "as-seen",
 ) -> ColourAnalysis:
@@ -1049,13 +1272,13 @@ def colour_analysis(
         Object id -> name of the view it is analysed in (published with the objects).
     min_pixels, erode_px
         See :func:`object_colour_stats`.
-    hard, imperceptible, distinct_in_daylight
-        ΔE00 thresholds of :func:`confusions`.
+    distinct_in_daylight
+        Daylight ΔE00 from which a pair can be listed by :func:`confusions`.
     naming_adaptation
         ``"as-seen"`` (default): names of the colours as the vision stage predicts them seen;
         ``"discounted"``: names after complete adaptation to the setup's light
         (:func:`discount_light_colour`) -- the observer who has fully discounted the light's
-        colour. Colours, ΔE00 and confusions are always as seen.
+        colour. Colours, ΔE00 and the pairs' verdicts are always as seen.
     """
     if naming_adaptation not in NAMING_ADAPTATIONS:
         raise ValueError(f"naming_adaptation must be one of {NAMING_ADAPTATIONS}")
@@ -1112,8 +1335,9 @@ def colour_analysis(
         changes = []
         for i, o in enumerate(objects):
             st = stats[o.id]
-            nm = colour_name_details(naming_stats[o.id]["lab"]) if st["visible"] else None
-            lum, oid, sv = views_of[o.id].lum, views_of[o.id].oid, per_object[o.id]
+            seen = views_of[o.id]
+            nm = _name_seen(naming_stats[o.id]["lab"], seen.hue) if st["visible"] else None
+            lum, oid, sv = seen.lum, seen.oid, per_object[o.id]
             if o.background is None:
                 bg_l, _ = ring_background(oid == o.id, lum, o.ring_px, sv.exclude)
                 bg_label = f"ring {o.ring_px:g} px"
@@ -1125,15 +1349,18 @@ def colour_analysis(
                 luminance_contrast(lum_obj[o.id], bg_l) if lum_obj[o.id] is not None and bg_l is not None else None
             )
             changed = bool(nm is not None and nm["term"] != day_names[i]["term"])
+            signals = seen.signals.get(o.id)
             per_obj[o.name] = SeenColour(
                 visible=bool(st["visible"]),
                 pixels=int(st["pixels"]),
                 lab=_vec(st["lab"], ROUND_LAB),
                 lch=_vec(None if st["lab"] is None else lab_to_lch(st["lab"]), ROUND_LAB),
                 xyz_relative=_vec(st["xyz"], ROUND_LAB),
-                name=None if nm is None else nm["term"],
+                name=None if nm is None else nm["name"],
+                name_term=None if nm is None else nm["term"],
                 name_margin=None if nm is None else _num(nm["margin"], ROUND_DE),
                 name_runner_up=None if nm is None else nm["runner_up"],
+                hue=seen.hue.level,
                 daylight_name=day_names[i]["term"],
                 name_changed=changed,
                 delta_e00_to_daylight=(
@@ -1145,26 +1372,81 @@ def colour_analysis(
                 background=bg_label,
                 background_luminance_cd_m2=_sig(bg_l),
                 weber_contrast=_num(contrast, ROUND_CONTRAST),
+                cone_lms=None if signals is None else tuple(_sig(x) for x in signals.lms),
+                scotopic_cd_m2=None if signals is None else _sig(signals.scotopic_cd_m2),
+                size_deg=_sig(seen.size_deg.get(o.id)),
             )
             if changed:
-                changes.append(NameChange(o.name, day_names[i]["term"], nm["term"]))
-        conf = tuple(
-            replace(c, daylight_delta_e00=_num(c.daylight_delta_e00, ROUND_DE), delta_e00=_num(c.delta_e00, ROUND_DE))
-            for c in confusions(day_de, de, names, hard, imperceptible, distinct_in_daylight)
-        )
+                changes.append(NameChange(o.name, day_names[i]["term"], nm["name"]))
+        multiples = np.full((len(ids), len(ids)), np.nan)
+        pairs = []
+        for i in range(len(ids)):
+            for j in range(i + 1, len(ids)):
+                a, b = ids[i], ids[j]
+                if not (stats[a]["visible"] and stats[b]["visible"]):
+                    continue
+                result, why = _judge_pair(views_of[a], views_of[b], a, b)
+                if result is not None:
+                    multiples[i, j] = multiples[j, i] = result.multiple
+                pairs.append(
+                    PairDifference(
+                        a=names[i],
+                        b=names[j],
+                        daylight_delta_e00=_num(day_de[i, j], ROUND_DE),
+                        delta_e00=_num(de[i, j], ROUND_DE),
+                        threshold_multiple=None if result is None else _sig(result.multiple, SIGNIFICANT_MULTIPLE),
+                        verdict="unknown" if result is None else result.verdict,
+                        upper_bound=None if result is None else _sig(result.upper_bound, SIGNIFICANT_MULTIPLE),
+                        size_deg=None if result is None else _sig(result.size_deg),
+                        adaptation_cd_m2=None if result is None else _sig(result.adaptation_cd_m2),
+                        note=why if result is None else result.note,
+                    )
+                )
+        first_seen = views_of[ids[0]] if ids else _seen_in(first, [], min_pixels, erode_px, naming_adaptation)
         out_setups[label] = SetupColours(
             state=first.state,
             white_mesopic_cd_m2=_sig(white),
             objects=per_obj,
             delta_e00=_matrix(de, ROUND_DE),
-            confusions=conf,
+            discrimination=_setup_discrimination(first_seen, multiples),
+            pairs=tuple(pairs),
+            confusions=tuple(confusions(pairs, distinct_in_daylight)),
             name_changes=tuple(changes),
         )
 
     return ColourAnalysis(
-        thresholds=ColourThresholds(imperceptible, hard, distinct_in_daylight),
+        thresholds=ColourThresholds(distinct_in_daylight),
         naming_adaptation=naming_adaptation,
         objects=tuple(AnalysedObject(o.id, o.name, (object_views or {}).get(o.id)) for o in objects),
         daylight=daylight,
         setups=out_setups,
+    )
+
+
+def _setup_discrimination(seen: _SeenIn, multiples: np.ndarray) -> SetupDiscrimination:
+    """The :class:`SetupDiscrimination` of a setup whose (first) view is ``seen``."""
+    from render.vision.discrimination import castle_params as castle
+
+    lo, hi = castle.CHROMATIC_LUMINANCE_RANGE_CD_M2
+    lum = float(seen.state.photopic_cd_m2)
+    in_range = lo <= lum <= hi
+    if lum < lo:
+        note = (
+            f"adaptation {lum:.3g} cd/m² is below the discrimination model's fitted range ({lo:g} cd/m²): "
+            "multiples of threshold are not extrapolated"
+        )
+    elif lum > hi:
+        note = f"adaptation {lum:.3g} cd/m² is above the discrimination model's fitted range ({hi:g} cd/m²)"
+    else:
+        note = ""
+    diag = np.eye(multiples.shape[0], dtype=bool)
+    m = np.where(diag, 0.0, multiples)
+    return SetupDiscrimination(
+        adaptation_cd_m2=_sig(lum),
+        mes2_m=_num(seen.state.m, 3),
+        in_range=in_range,
+        note=note,
+        hue=seen.hue.level,
+        hue_reason=seen.hue.reason,
+        threshold_multiple=tuple(tuple(_sig(x, SIGNIFICANT_MULTIPLE) for x in row) for row in m),
     )

@@ -54,6 +54,14 @@ Input is CIELAB relative to a D65 white (the analysis's colours, see
 under reference conditions. The loss of colour at night is the vision stage's business
 (rod intrusion, incomplete adaptation), not the naming model's.
 
+Night names where hue is not available
+--------------------------------------
+Below the light level at which the discrimination model has chromatic data, or in rod vision
+(:func:`render.vision.discrimination.hue_availability`), no hue is named: the colour gets the
+achromatic term (black, grey, white) whose prototype's CAM16-UCS lightness J' is nearest
+(:func:`lightness_name_details`), said as "looks grey; colour not reliable at this light level"
+(:func:`night_name`). Lightness survives where hue does not; the phrase is lampcast's own.
+
 References
 ----------
 - B. Berlin, P. Kay (1969), "Basic color terms: their universality and evolution", University
@@ -77,7 +85,9 @@ import numpy as np
 import numpy.typing as npt
 
 __all__ = [
+    "ACHROMATIC_TERMS",
     "BASIC_TERMS",
+    "COLOUR_NOT_RELIABLE",
     "NAMING_ADAPTING_LUMINANCE_CD_M2",
     "NAMING_BACKGROUND_Y",
     "PROTOTYPES_MUNSELL",
@@ -86,16 +96,22 @@ __all__ = [
     "colour_name_details",
     "colour_names",
     "lab_to_cam16ucs",
+    "lightness_name_details",
     "munsell_to_lab",
     "name_changes",
     "name_table",
     "naming_model_notes",
+    "night_name",
     "prototypes",
     "term_distances",
 ]
 
 #: The eleven basic colour terms (Berlin & Kay 1969), in their order.
 BASIC_TERMS = ("black", "white", "grey", "red", "green", "yellow", "blue", "brown", "orange", "pink", "purple")
+#: The terms that name no hue, used where hue is not available at night.
+ACHROMATIC_TERMS = ("black", "grey", "white")
+#: What a night name says where hue is not available.
+COLOUR_NOT_RELIABLE = "colour not reliable at this light level"
 
 #: Prototype of each term in Munsell notation (illuminant C); see the module text for sources.
 PROTOTYPES_MUNSELL = {
@@ -216,6 +232,33 @@ def colour_name_details(lab: npt.ArrayLike | None) -> dict[str, object] | None:
         "runner_up": BASIC_TERMS[order[1]],
         "distances": {t: float(v) for t, v in zip(BASIC_TERMS, d)},
     }
+
+
+def lightness_name_details(lab: npt.ArrayLike | None) -> dict[str, object] | None:
+    """Like :func:`colour_name_details` among :data:`ACHROMATIC_TERMS` only, by the distance of
+    CAM16-UCS lightness J' alone (no hue, no chroma): the name of a colour whose hue is not
+    available. ``None`` for an undefined colour."""
+    if lab is None:
+        return None
+    lab = np.asarray(lab, dtype=np.float64)
+    if lab.shape != (3,) or not np.all(np.isfinite(lab)):
+        return None
+    terms, _, ucs = prototypes()
+    rows = [terms.index(t) for t in ACHROMATIC_TERMS]
+    d = np.abs(lab_to_cam16ucs(lab)[0] - ucs[rows, 0])
+    order = np.argsort(d, kind="stable")
+    return {
+        "term": ACHROMATIC_TERMS[order[0]],
+        "margin": float(d[order[1]] - d[order[0]]),
+        "runner_up": ACHROMATIC_TERMS[order[1]],
+        "distances": {t: float(v) for t, v in zip(ACHROMATIC_TERMS, d)},
+    }
+
+
+def night_name(term: str) -> str:
+    """The name shown where hue is not available: ``"looks TERM; colour not reliable at this
+    light level"``."""
+    return f"looks {term}; {COLOUR_NOT_RELIABLE}"
 
 
 def colour_name(lab: npt.ArrayLike | None) -> tuple[str | None, float | None]:

@@ -1,10 +1,18 @@
 """Colour analysis of rendered views: its inputs gathered from the renderer and the vision stage.
 
 Used by ``lampcast colours`` and by the comparison (:mod:`render.output.comparison`). The
-inputs come from the renderer's light buffers (object ids and materials per camera sample) and
-from the vision stage's display results (the adaptation state each image was made with, and
-what the observer perceives in it, so the stage is not run again); the result is a
-:class:`~render.analysis.colours.ColourAnalysis`.
+inputs come from the renderer's light buffers (object ids and materials per camera sample, and
+the absolute light from which :func:`cone_rod_image` resolves each pixel's CIE 2006 cone signals
+and scotopic luminance for the discrimination model) and from the vision stage's display
+results (the adaptation state each image was made with, and what the observer perceives in it,
+so the stage is not run again); the result is a :class:`~render.analysis.colours.ColourAnalysis`.
+
+The discrimination model judges each setup at the adaptation of an observer adapted to that
+setup alone. Images made in shared exposure carry the shared state (the mean of the setups):
+the callers pass each setup's own state (``own_states``: the states of the adapted images of
+the same views, which :func:`render.vision.pipeline.shared_and_adapted` makes together);
+without them it is measured here (:func:`own_adaptation_state`: the glare step and the
+adaptation measurement of the stage, as for an adapted image).
 
 An object's colour is that of its main surface (:attr:`render.geometry.build.ObjectInfo.main_material`:
 the kind's ``main_slot`` or the scene's ``colour_slot``): its daylight reference is that
@@ -16,8 +24,9 @@ the pictures) are written by :mod:`render.output.colour_files`.
 
 References
 ----------
-The methods are those of :mod:`render.analysis.colours` (CIELAB, CIEDE2000, CIE 191:2010 MES2)
-and :mod:`render.analysis.naming`; this module only gathers their inputs.
+The methods are those of :mod:`render.analysis.colours` (CIELAB, CIEDE2000, CIE 191:2010 MES2,
+castleCSF through :mod:`render.vision.discrimination`) and :mod:`render.analysis.naming`; this
+module only gathers their inputs.
 """
 
 from __future__ import annotations
@@ -38,7 +47,9 @@ from render.analysis.colours import (
 
 if TYPE_CHECKING:
     from render.light.integrator import LightBuffers
+    from render.scene.model import Setup
     from render.study import RenderedView, Study
+    from render.vision.adaptation import AdaptationState
     from render.vision.observer import ObserverSettings
     from render.vision.pipeline import DisplayResult
 
@@ -46,8 +57,10 @@ __all__ = [
     "analyse_colours",
     "analyse_view_colours",
     "best_views",
+    "cone_rod_image",
     "main_surface_pixels",
     "main_material_indices",
+    "own_adaptation_state",
     "pixel_main_surface_ids",
     "pixel_object_ids",
     "tagged_objects",
@@ -142,6 +155,40 @@ def best_views(
     return {k: max(names, key=lambda n: (counts[n][k], -names.index(n))) for k in counts[names[0]]}
 
 
+def cone_rod_image(study: Study, rendered: RenderedView, setup: str | Setup | None = None) -> np.ndarray:
+    """(H, W, 4) per pixel the CIE 2006 cone signals L, M, S (L + M in cd/m²) and the scotopic
+    luminance (cd/m²) of ``rendered`` under ``setup``'s lamps, lumens and dimming (default: the
+    setup it was rendered with), from its light buffers
+    (:func:`render.colour.colorimetry.resolve_responses` with
+    :func:`render.vision.discrimination.cone_rod_weights`)."""
+    from render.colour.colorimetry import resolve_responses
+    from render.light.luminaires import channel_factors
+    from render.vision.discrimination import cone_rod_weights
+
+    s = study.setup(rendered.setup if setup is None else setup)
+    factors, lamps = channel_factors(rendered.lights, s)
+    return resolve_responses(rendered.buffers, factors, study.lamp_spds(lamps), study.reflectances, cone_rod_weights())
+
+
+def own_adaptation_state(study: Study, rendered: RenderedView, observer: ObserverSettings) -> AdaptationState:
+    """The adaptation state of an observer adapted to ``rendered`` alone: the vision stage's
+    glare step and adaptation measurement (as for an adapted image)."""
+    from render.vision import pipeline
+    from render.vision.view import ViewGeometry
+
+    light = study.view_light(rendered)
+    geometry = ViewGeometry.of(rendered.camera)
+    retina = pipeline.retinal_image(light, geometry, observer)
+    return pipeline.measure_adaptation(
+        retina.xyz_cd_m2,
+        retina.scotopic_cd_m2,
+        geometry,
+        observer,
+        pipeline.exclusion_mask(light, observer),
+        light,
+    )
+
+
 def _setup_views(
     study: Study,
     rendered: Sequence[RenderedView],
@@ -149,17 +196,23 @@ def _setup_views(
     observer: ObserverSettings,
     tagged: np.ndarray,
     object_id: np.ndarray | None = None,
+    setups: Sequence[str | Setup | None] | None = None,
+    own_states: Sequence[AdaptationState] | None = None,
 ) -> list[SetupView]:
     """One :class:`SetupView` per setup of one view: main-surface pixels as object ids, the
-    luminous openings and the tagged objects' other surfaces (glass, tyres) never background."""
+    luminous openings and the tagged objects' other surfaces (glass, tyres) never background;
+    the cone signals of each setup (``setups``: the setups the views were rendered with, when
+    they are not the scene's own), the pixels' solid angles and each setup's own adaptation
+    state (``own_states``, else measured when the displays share one)."""
     from render.vision.view import ViewGeometry
 
     buffers = rendered[0].buffers
     if object_id is None:
         object_id = pixel_main_surface_ids(buffers, main_material_indices(study))
     other_surfaces = np.isin(pixel_object_ids(buffers), tagged) & (object_id < 0)
+    solid = ViewGeometry.of(rendered[0].camera).solid_angle_sr()
     out = []
-    for r, d in zip(rendered, displays):
+    for n, (r, d) in enumerate(zip(rendered, displays)):
         pv = d.perceived
         if pv is None or pv.observer != observer or pv.state != d.state:
             # Only a display without what it was made from runs the stage again.
@@ -169,6 +222,17 @@ def _setup_views(
         kwargs: dict = {"exclude": exclude}
         if c.white_xyz is not None:
             kwargs.update(white_photopic_cd_m2=float(c.white_xyz[1]), white_scotopic_cd_m2=c.white_scotopic)
+        if own_states is not None:
+            own = own_states[n]
+        elif pv.state.how.startswith("shared"):
+            own = own_adaptation_state(study, r, observer)
+        else:
+            own = pv.state
+        kwargs.update(
+            cone_rod_cd_m2=cone_rod_image(study, r, None if setups is None else setups[n]),
+            solid_angle_sr=solid,
+            own_state=own,
+        )
         out.append(SetupView.from_view(pv, object_id, **kwargs))
     return out
 
@@ -179,11 +243,19 @@ def analyse_colours(
     observer: ObserverSettings,
     labels: Sequence[str],
     view: str | None = None,
+    *,
+    setups: Sequence[str | Setup | None] | None = None,
+    own_states: Mapping[str, Sequence[AdaptationState]] | None = None,
 ) -> ColourAnalysis:
     """The colour analysis of the tagged objects over several views, each view rendered under
     the same setups (``labels``, in order): each object is analysed in ``view`` if given, else
     in the scene's ``[colour] view``, else in the view showing most of its main surface
-    (:func:`best_views`). The record's objects name the view each was analysed in."""
+    (:func:`best_views`). The record's objects name the view each was analysed in.
+
+    ``setups``: the setups behind ``labels`` when they are not the scene's own (e.g. a lamp id
+    given on the command line; default: each rendered view's own). ``own_states``: per view,
+    each setup's own adaptation state (e.g. the states of the adapted images); measured when
+    not given and the displays share one state."""
     scene_view = study.scene.colour_view
     chosen = view if view is not None else (scene_view if scene_view in views else None)
     main = main_material_indices(study)
@@ -196,7 +268,12 @@ def analyse_colours(
     objects = tagged_objects(study)
     tagged = np.array([o.id for o in objects], dtype=np.int32)
     used = [name for name in views if name in where.values()]
-    per_view = {name: _setup_views(study, *views[name], observer, tagged, surface_ids[name]) for name in used}
+    per_view = {
+        name: _setup_views(
+            study, *views[name], observer, tagged, surface_ids[name], setups, (own_states or {}).get(name)
+        )
+        for name in used
+    }
     setups = {label: {o.id: per_view[where[o.id]][j] for o in objects} for j, label in enumerate(labels)}
     return colour_analysis(objects, setups, object_views=where)
 
@@ -207,11 +284,16 @@ def analyse_view_colours(
     displays: Sequence[DisplayResult],
     observer: ObserverSettings,
     labels: Sequence[str] | None = None,
+    *,
+    setups: Sequence[str | Setup | None] | None = None,
+    own_states: Sequence[AdaptationState] | None = None,
 ) -> ColourAnalysis:
     """The colour analysis (:func:`render.analysis.colours.colour_analysis`) of one view
-    rendered under several setups, using the adaptation state of each displayed image."""
+    rendered under several setups, using the adaptation state of each displayed image for the
+    colours and each setup's own state for the discrimination model (``setups`` and
+    ``own_states`` as in :func:`analyse_colours`)."""
     labels = list(labels or [r.setup or "scene" for r in rendered])
     objects = tagged_objects(study)
     tagged = np.array([o.id for o in objects], dtype=np.int32)
-    setups = dict(zip(labels, _setup_views(study, rendered, displays, observer, tagged)))
-    return colour_analysis(objects, setups)
+    views = _setup_views(study, rendered, displays, observer, tagged, None, setups, own_states)
+    return colour_analysis(objects, dict(zip(labels, views)))

@@ -81,7 +81,7 @@ def write_colour_pictures(
             seen = result.setups[s].objects[name]
             if seen.lab is not None:
                 labs[i, j + 1] = seen.lab
-            terms[i][j + 1] = seen.name
+            terms[i][j + 1] = _swatch_term(seen)
     written["swatches"] = pictures.swatch_sheet(
         names,
         ["daylight (D65)", *setups],
@@ -143,7 +143,10 @@ def colour_picture_alt_texts(result: ColourAnalysis, lamp_names: Sequence[str] =
         f"its colour as seen under {', '.join(setups) or 'no lighting'}, each with its predicted colour name. "
         + (f"Names that change at night: {', '.join(changes)}." if changes else "No name changes at night.")
     )
-    pairs = [f"{c['a']} and {c['b']} under {c['setup']} (ΔE00 {c['delta_e00']:.1f})" for c in result.confusion_rows()]
+    pairs = [
+        f"{c['a']} and {c['b']} under {c['setup']} ({c['verdict']}: {_multiple_words(c)}, ΔE00 {c['delta_e00']:.1f})"
+        for c in result.confusion_rows()
+    ]
     pair_count = len(names) * (len(names) - 1) // 2
     whole = pictures.heatmap_fits(names, 1 + len(setups))
     heatmap = (
@@ -154,8 +157,8 @@ def colour_picture_alt_texts(result: ColourAnalysis, lamp_names: Sequence[str] =
             "ranked by their smallest CIEDE2000 colour difference at night, with their differences"
         )
         + ", in daylight and under "
-        f"{', '.join(setups) or 'no lighting'}; below {result.thresholds.hard_delta_e00:g} two colours are hard to "
-        "tell apart. "
+        f"{', '.join(setups) or 'no lighting'}. CIEDE2000 has no light-level term; which pairs become hard to tell "
+        "apart is judged by a model of contrast sensitivity at the street's light level. "
         + (
             f"Pairs that become hard to tell apart: {', '.join(pairs)}."
             if pairs
@@ -169,6 +172,21 @@ def colour_picture_alt_texts(result: ColourAnalysis, lamp_names: Sequence[str] =
         else "The lamps' light spread by wavelength from violet to red, one strip per lamp."
     )
     return {"outlined": outlined, "swatches": swatches, "heatmap": heatmap, "spectra": spectra}
+
+
+def _swatch_term(seen) -> str | None:
+    """The term printed on a swatch: the night name's term, marked where hue is not available."""
+    if seen.name_term is None or seen.hue == "available":
+        return seen.name_term
+    return f"{seen.name_term} (hue unsure)"
+
+
+def _multiple_words(pair: Mapping) -> str:
+    if pair.get("threshold_multiple") is not None:
+        return f"{pair['threshold_multiple']:.3g} times threshold"
+    if pair.get("upper_bound") is not None:
+        return f"below the model's range, at most {pair['upper_bound']:.2g} times threshold"
+    return "not judged"
 
 
 def _count(n: int, noun: str) -> str:

@@ -43,7 +43,7 @@ import numpy as np
 
 from render import __version__
 from render.analysis.colours import CAVEAT as COLOUR_CAVEAT
-from render.analysis.colours import ColourAnalysis, Confusion
+from render.analysis.colours import ColourAnalysis, PairDifference
 from render.errors import InputError, did_you_mean, input_error
 from render.fileio import atomic_write_text, file_stem
 from render.output.metrics import (
@@ -74,6 +74,7 @@ if TYPE_CHECKING:
     from render.geometry.build import ObjectInfo
     from render.light.luminaires import LuminaireSet
     from render.study import RenderedView, Study
+    from render.vision.adaptation import AdaptationState
     from render.vision.observer import ObserverSettings
     from render.vision.pipeline import DisplayResult
 
@@ -441,22 +442,35 @@ class _ColourViews:
     def __init__(self, chosen: str | None) -> None:
         self.chosen = chosen
         self.kept: dict[str, tuple[list[RenderedView], list[DisplayResult]]] = {}
+        #: Per kept view, each setup's own adaptation state (of its adapted image), when offered.
+        self.own_states: dict[str, list[AdaptationState]] = {}
         self._best: dict[int, tuple[int, str]] = {}
 
-    def offer(self, study: Study, name: str, rendered: list[RenderedView], shared: list[DisplayResult]) -> None:
+    def offer(
+        self,
+        study: Study,
+        name: str,
+        rendered: list[RenderedView],
+        shared: list[DisplayResult],
+        adapted: Sequence[DisplayResult] | None = None,
+    ) -> None:
+        """Keep the view if the analysis will need it (``adapted``: its adapted images, whose
+        states the discrimination model uses; measured again when not given)."""
         from render.analysis.view_colours import main_surface_pixels
 
-        if self.chosen is not None:
-            if name == self.chosen:
-                self.kept[name] = (rendered, shared)
-            return
-        for k, n in main_surface_pixels(study, rendered[0]).items():
-            if k not in self._best or n > self._best[k][0]:
-                self._best[k] = (n, name)
-        wanted = {v for _, v in self._best.values()}
+        if self.chosen is None:
+            for k, n in main_surface_pixels(study, rendered[0]).items():
+                if k not in self._best or n > self._best[k][0]:
+                    self._best[k] = (n, name)
+            wanted = {v for _, v in self._best.values()}
+        else:
+            wanted = {self.chosen}
         self.kept = {v: x for v, x in self.kept.items() if v in wanted}
+        self.own_states = {v: x for v, x in self.own_states.items() if v in wanted}
         if name in wanted:
             self.kept[name] = (rendered, shared)
+            if adapted is not None:
+                self.own_states[name] = [d.state for d in adapted]
 
 
 def colour_report_section(
@@ -464,11 +478,13 @@ def colour_report_section(
 ) -> ReportSection:
     """The report section of a colour analysis: the "name it" table, the names that change at
     night (one column per lighting), the pairs that become hard to tell apart (per lighting,
-    "none" in words where there are none), and the pictures (paths relative to ``out_dir``)
-    with their alt texts (``alts``, keyed like ``pictures``:
-    :func:`render.output.colour_files.colour_picture_alt_texts`). Numbers are published
-    (:func:`render.output.metrics.published`)."""
-    from render.output.colour_text import NONE
+    "none" in words where there are none), the light level each lighting's pairs were judged
+    at, every pair with CIEDE2000 beside the light-level model's multiple of threshold and
+    verdict, and the pictures (paths relative to ``out_dir``) with their alt texts (``alts``,
+    keyed like ``pictures``: :func:`render.output.colour_files.colour_picture_alt_texts`).
+    Numbers are published (:func:`render.output.metrics.published`)."""
+    from render.analysis.colours import CONFUSED_VERDICTS
+    from render.output.colour_text import NONE, setup_light_level
 
     setups = list(result.setups)
     with_view = any(o.view is not None for o in result.objects)
@@ -492,22 +508,55 @@ def colour_report_section(
         change_rows.append(tuple(cells))
     if not change_rows:
         change_rows.append((NONE, *([""] if with_view else []), "", *("" for _ in setups)))
-    confusions = result.confusion_rows()
     confusion_rows = []
     for s in setups:
-        mine = [c for c in confusions if c["setup"] == s]
         confusion_rows += [
-            (s, f"{c['a']} / {c['b']}", published(c["daylight_delta_e00"]), published(c["delta_e00"]), c["level"])
-            for c in mine
-        ] or [(s, NONE, "", "", "")]
+            (
+                s,
+                f"{c.a} / {c.b}",
+                published(c.daylight_delta_e00),
+                published(c.delta_e00),
+                *_multiple_cells(c),
+                c.verdict,
+            )
+            for c in result.setups[s].confusions
+        ] or [(s, NONE, "", "", "", "")]
+    level_rows = tuple(
+        (
+            s,
+            published(result.setups[s].discrimination.adaptation_cd_m2),
+            published(result.setups[s].discrimination.mes2_m),
+            setup_light_level(result.setups[s]),
+        )
+        for s in setups
+    )
+    pair_rows = []
+    for r in result.pair_rows():
+        cells: list = [f"{r['a']} / {r['b']}", published(r["daylight_delta_e00"])]
+        for s in setups:
+            p = r["setups"][s]
+            cells += ["not visible", "", ""] if p is None else [published(p.delta_e00), *_multiple_cells(p), p.verdict]
+        pair_rows.append(tuple(cells))
+    pair_columns = ["pair", "ΔE00 daylight"]
+    for s in setups:
+        pair_columns += [f"ΔE00 ({s})", f"× threshold ({s})", f"verdict ({s})"]
     t = result.thresholds
     paragraphs = (
         "Each tagged object's colour as a resident would see it after adapting to the street (night-vision "
         "stage: mesopic luminance, rod intrusion, adaptation) is compared with its colour in daylight. Names are "
-        "the eleven basic colour terms predicted from the nearest published colour-name centroid (Centore 2020).",
-        f"Pairs listed below are at least {t.distinct_in_daylight_delta_e00:g} CIEDE2000 apart in "
-        f"daylight but below {t.hard_delta_e00:g} (hard to tell apart) or "
-        f"{t.imperceptible_delta_e00:g} (imperceptible) under a setup (common practice thresholds). "
+        "the eleven basic colour terms predicted from the nearest published colour-name centroid (Centore 2020); "
+        "where the light is too low for hue to be seen, the name says 'colour not reliable at this light level' "
+        "instead of naming a hue.",
+        "Whether two objects can be told apart is judged at each lighting's own light level and at the size at "
+        "which the objects are seen, by a published model of contrast sensitivity (castleCSF, Ashraf et al. 2024) "
+        "applied to the light the two surfaces send to the eye: the pair's difference as a multiple of the "
+        f"threshold of a typical observer. Easy: at least {t.easy_multiple:g} times threshold; hard: "
+        f"{t.hard_multiple:g} to {t.easy_multiple:g} times (visible side by side, with attention); cannot: below "
+        "threshold. The model was fitted to laboratory data down to 0.02 cd/m²; below that no figure is "
+        "extrapolated and the table says so ('likely cannot' when even an upper bound is below threshold). "
+        "CIEDE2000 is shown beside it; it has no light-level term.",
+        f"Pairs listed as hard to tell apart are at least {t.distinct_in_daylight_delta_e00:g} CIEDE2000 apart in "
+        f"daylight and {', '.join(CONFUSED_VERDICTS)} under a lighting. "
         "Contrast is Weber luminance contrast against the object's surroundings: lightness survives where hue does not. "
         + COLOUR_CAVEAT
         + ".",
@@ -526,8 +575,18 @@ def colour_report_section(
             ),
             ReportTable(
                 "Pairs that become hard to tell apart",
-                ("setup", "pair", "ΔE00 daylight", "ΔE00 seen", "level"),
+                ("setup", "pair", "ΔE00 daylight", "ΔE00 seen", "× threshold", "verdict"),
                 tuple(confusion_rows),
+            ),
+            ReportTable(
+                "The light level each lighting's pairs are judged at",
+                ("setup", "adaptation (cd/m²)", "MES2 m", "in words"),
+                level_rows,
+            ),
+            ReportTable(
+                "Every pair: CIEDE2000 beside the light-level verdict (× threshold of a typical observer)",
+                tuple(pair_columns),
+                tuple(pair_rows),
             ),
         ),
         images=tuple(str(p.relative_to(out_dir)) for p in pictures.values()),
@@ -535,8 +594,26 @@ def colour_report_section(
     )
 
 
-def _published_confusion(c: Confusion) -> Confusion:
-    return replace(c, daylight_delta_e00=published(c.daylight_delta_e00), delta_e00=published(c.delta_e00))
+def _multiple_cells(pair: PairDifference) -> tuple:
+    """A pair's multiple of threshold as a report cell: the number, or below the model's range
+    the bound in words, or "not judged"."""
+    if pair.threshold_multiple is not None:
+        return (published(pair.threshold_multiple),)
+    if pair.upper_bound is not None:
+        return (f"below the model's range; at most {published(pair.upper_bound):g}",)
+    return (pair.note or "not judged",)
+
+
+def _published_pair(c: PairDifference) -> PairDifference:
+    return replace(
+        c,
+        daylight_delta_e00=published(c.daylight_delta_e00),
+        delta_e00=published(c.delta_e00),
+        threshold_multiple=published(c.threshold_multiple),
+        upper_bound=published(c.upper_bound),
+        size_deg=published(c.size_deg),
+        adaptation_cd_m2=published(c.adaptation_cd_m2),
+    )
 
 
 def _labels(setups: Sequence[Setup]) -> list[str]:
@@ -562,7 +639,9 @@ def _colour_analysis(
     from render.analysis.view_colours import analyse_colours
     from render.output.colour_files import colour_picture_alt_texts, write_colour_json, write_colour_pictures
 
-    result = analyse_colours(study, views.kept, observer, _labels(setups), views.chosen)
+    result = analyse_colours(
+        study, views.kept, observer, _labels(setups), views.chosen, setups=setups, own_states=views.own_states
+    )
     order = list(views.kept)
     used = Counter(o.view for o in result.objects)
     name = max(order, key=lambda n: (used[n], -order.index(n)))
@@ -588,8 +667,10 @@ def _colour_analysis(
     summary = ColourSummary(
         view=name,
         file="colours/colours.json",
-        confusions={s: tuple(map(_published_confusion, r.confusions)) for s, r in result.setups.items()},
+        confusions={s: tuple(map(_published_pair, r.confusions)) for s, r in result.setups.items()},
         name_changes={s: r.name_changes for s, r in result.setups.items()},
+        pairs={s: tuple(map(_published_pair, r.pairs)) for s, r in result.setups.items()},
+        discrimination={s: r.discrimination for s, r in result.setups.items()},
     )
     return section, summary
 

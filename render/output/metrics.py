@@ -25,12 +25,12 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, fields
+from dataclasses import dataclass, field, fields
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from render.analysis.colours import Confusion, NameChange
+from render.analysis.colours import NameChange, PairDifference, SetupDiscrimination
 from render.colour.lamp_figures import LampFigures
 
 if TYPE_CHECKING:
@@ -460,30 +460,37 @@ class ReportSection:
 
 @dataclass(frozen=True)
 class ColourSummary:
-    """Where the colour analysis is (view, JSON file) and, per setup label, its confusable
-    pairs and name changes."""
+    """Where the colour analysis is (view, JSON file) and, per setup label, its pairs that
+    become hard to tell apart, its name changes, every pair of visible objects with CIEDE2000
+    beside the light-level model's multiple of threshold and verdict
+    (:class:`~render.analysis.colours.PairDifference`), and the light level the pairs were
+    judged at (:class:`~render.analysis.colours.SetupDiscrimination`)."""
 
     view: str
     file: str
-    confusions: Mapping[str, tuple[Confusion, ...]]
+    confusions: Mapping[str, tuple[PairDifference, ...]]
     name_changes: Mapping[str, tuple[NameChange, ...]]
+    pairs: Mapping[str, tuple[PairDifference, ...]] = field(default_factory=dict)
+    discrimination: Mapping[str, SetupDiscrimination] = field(default_factory=dict)
 
     def to_json(self) -> dict[str, Any]:
         return _fields_json(self)
 
     @classmethod
     def from_json(cls, data: Mapping[str, Any]) -> ColourSummary:
+        def pairs(key: str) -> dict[str, tuple[PairDifference, ...]]:
+            return {str(k): tuple(PairDifference.from_json(c) for c in v) for k, v in (data.get(key) or {}).items()}
+
         return cls(
             str(data.get("view") or ""),
             str(data.get("file") or ""),
-            {
-                str(k): tuple(Confusion(**{f.name: c[f.name] for f in fields(Confusion)}) for c in v)
-                for k, v in (data.get("confusions") or {}).items()
-            },
+            pairs("confusions"),
             {
                 str(k): tuple(NameChange(c["object"], c["daylight"], c["seen"]) for c in v)
                 for k, v in (data.get("name_changes") or {}).items()
             },
+            pairs("pairs"),
+            {str(k): SetupDiscrimination.from_json(v) for k, v in (data.get("discrimination") or {}).items()},
         )
 
 
