@@ -209,3 +209,63 @@ def test_large_grid_alike():
         assert fast is not None
         _assert_same(fast, slow)
         assert np.unique(fast.face_slot).tolist() == [1, 2]
+
+
+_DECIMALS = st.builds(
+    lambda sign, whole, frac, exp: f"{sign}{whole}{frac}{exp}",
+    st.sampled_from(["", "-", "+"]),
+    st.from_regex(r"[0-9]{0,20}", fullmatch=True),
+    st.sampled_from(["", "."]).flatmap(
+        lambda p: st.from_regex(r"[0-9]{0,20}", fullmatch=True).map(lambda d: p + d if p else "")
+    ),
+    st.sampled_from(["", "e", "E"]).flatmap(
+        lambda e: st.from_regex(r"[-+]?[0-9]{1,4}", fullmatch=True).map(lambda d: e + d) if e else st.just("")
+    ),
+).filter(bool)
+
+
+@fuzz_settings()
+@given(
+    st.lists(
+        st.one_of(_DECIMALS, st.floats(allow_nan=False).map(repr), st.floats(-1e4, 1e4).map(lambda x: f"{x:.6f}")),
+        min_size=1,
+        max_size=8,
+    )
+)
+def test_compiled_numbers_are_what_float_reads(tokens):
+    # Reference: Python's float(), a correctly rounded decimal-to-binary conversion; the
+    # compiled pass must give the same bits for every number it takes, and take the numbers a
+    # modelling program writes (fixed notation, at most 15 significant digits).
+    from render.geometry.objfaces import read_line_numbers
+
+    text = ("v " + " ".join(tokens) + "\n").encode("ascii")
+    read = read_line_numbers(text, np.array([0]), 1, len(tokens))
+    try:
+        expected = [float(t) for t in tokens]
+    except ValueError:
+        assert read is None
+        return
+    if read is None:
+        return
+    values, counts = read
+    assert counts.tolist() == [len(tokens)]
+    assert values[0].tobytes() == np.array(expected).tobytes(), tokens
+
+
+@pytest.mark.parametrize(
+    "token", ["0.000000", "-0.000000", "12.345678", "-9999.999999", "1e-5", "+.5", "5.", "123456789012345"]
+)
+def test_compiled_numbers_take_what_modelling_programs_write(token):
+    from render.geometry.objfaces import read_line_numbers
+
+    read = read_line_numbers(f"vn {token}\n".encode("ascii"), np.array([0]), 2, 1)
+    assert read is not None and read[0][0, 0].tobytes() == np.float64(float(token)).tobytes()
+
+
+@pytest.mark.parametrize(
+    "token", ["1e23", "0.1e-30", "12345678901234567890", "1_0", "nan", "inf", "1.2.3", "-", ".", "1e", "1-2"]
+)
+def test_compiled_numbers_leave_the_rest_to_float(token):
+    from render.geometry.objfaces import read_line_numbers
+
+    assert read_line_numbers(f"v {token}\n".encode("ascii"), np.array([0]), 1, 1) is None

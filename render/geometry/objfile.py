@@ -35,14 +35,14 @@ import math
 import os
 import re
 from array import array
-from collections.abc import Iterator, Mapping, Sequence
+from collections.abc import Callable, Iterator, Mapping, Sequence
 from dataclasses import dataclass
 
 import numpy as np
 
 from render import limits
 from render.errors import ProblemList, input_error
-from render.fileio import read_user_text
+from render.fileio import read_user_bytes, read_user_text
 from render.geometry.mesh import face_normals
 from render.geometry.shapes import Part, triangulate_polygon_3d
 
@@ -261,8 +261,8 @@ def _read_statements(
 # and line breaks (Python's split() knows more white space than spaces and tabs; line numbers
 # count only LF, CR LF and CR), and backslashes (continued lines).
 _PLAIN_BYTES = bytes([9, 10, 13, *range(0x20, 0x5C), *range(0x5D, 0x7F)])
-_COMMENT = re.compile(r"#[^\n]*")
-_LEADING_SPACE = re.compile(r"^[ \t]+", re.MULTILINE)
+_COMMENT = re.compile(rb"#[^\n]*")
+_LEADING_SPACE = re.compile(rb"^[ \t]+", re.MULTILINE)
 _SPACE, _TAB, _LF, _SLASH, _HASH = 32, 9, 10, 47, 35
 
 
@@ -359,18 +359,44 @@ def _first_three(values: np.ndarray, counts: np.ndarray) -> np.ndarray:
     return values[first[:, None] + np.arange(3)]
 
 
-def _resolve(raw: np.ndarray, count_so_far: np.ndarray) -> np.ndarray:
-    """OBJ references (1-based, negative counting back) as 0-based indices, checked in range."""
-    if np.any(raw == 0):
-        raise _Unusual
-    out = np.where(raw > 0, raw - 1, count_so_far + raw)
-    if np.any((out < 0) | (out >= count_so_far)):
+def _line_numbers(
+    raw: bytes,
+    starts: np.ndarray,
+    at: np.ndarray,
+    key_chars: int,
+    allowed: tuple[int, ...],
+    keep: int,
+    lines: Callable[[], list[str]],
+) -> np.ndarray:
+    """(n, ``keep``): the first ``keep`` numbers of the statements on lines ``at`` (each
+    ``key_chars`` of keyword, then one of ``allowed`` numbers), read by the compiled pass
+    (:func:`render.geometry.objfaces.read_line_numbers`) when it reads them exactly, else token by
+    token (:func:`_numbers`)."""
+    from render.geometry.objfaces import read_line_numbers
+
+    read = read_line_numbers(raw, starts[at], key_chars, keep)
+    if read is not None:
+        first, counts = read
+        if counts.size and not np.all(np.isin(counts, allowed)):
+            raise _Unusual
+        return first
+    values, counts = _numbers(_lines_at(lines(), at), key_chars, allowed)
+    return _first_three(values, counts)[:, :keep] if keep else np.zeros((counts.size, 0))
+
+
+def _resolve(raw: np.ndarray, sizes: np.ndarray, count_before: np.ndarray) -> np.ndarray:
+    """OBJ references (1-based, negative counting back) of faces of ``sizes`` references as
+    0-based indices, checked in range (``count_before``: items before each face)."""
+    from render.geometry.objfaces import resolve_references
+
+    out = resolve_references(raw, sizes, count_before)
+    if out is None:
         raise _Unusual
     return out
 
 
 def _face_numbers(
-    raw: bytes, all_lines: list[str], f_lines: np.ndarray, max_face: int
+    raw: bytes, all_lines: Callable[[], list[str]], f_lines: np.ndarray, max_face: int
 ) -> tuple[np.ndarray, list[np.ndarray], tuple[str, ...]]:
     """Sizes of the faces, their references as columns (vertex; vertex, texture; vertex,
     normal; or vertex, texture, normal) and the columns' names, all references of the file
@@ -385,7 +411,7 @@ def _face_numbers(
             raise _Unusual
         columns = {0: (0,), 1: (0, 1), 2: (0, 2), 3: (0, 1, 2)}[form]
         return sizes, [numbers[:, k] for k in columns], FORMS[form]
-    lines = _lines_at(all_lines, f_lines)
+    lines = _lines_at(all_lines(), f_lines)
     body = "\n".join([line[1:] for line in lines])
     raw = body.encode("ascii")
     sizes, token_at = _tokens_per_line(raw, len(lines))
@@ -426,10 +452,29 @@ def _read_fast(
     """Read an ordinary OBJ file all at once with numpy, giving what :func:`_read_statements`
     gives; None for anything else (a mistake, continued lines, other characters, references
     written in different ways, counts beyond the limits), which that reader then reports."""
-    if not text.isascii() or text.encode("ascii").translate(None, _PLAIN_BYTES):
+    if not text.isascii():
         return None
-    try:  # (the text is encoded again below, after its line breaks and comments are made plain)
-        return _read_plain(text, s, max_vertices, max_triangles, max_face, max_coordinate, slot_map, default_slot)
+    return _read_fast_bytes(
+        text.encode("ascii"), s, max_vertices, max_triangles, max_face, max_coordinate, slot_map, default_slot
+    )
+
+
+def _read_fast_bytes(
+    data: bytes,
+    s: float,
+    max_vertices: int,
+    max_triangles: int,
+    max_face: int,
+    max_coordinate: float,
+    slot_map: Mapping[str, str] | None,
+    default_slot: str,
+) -> _Statements | None:
+    """:func:`_read_fast` of the file's bytes (plain ASCII text is its own bytes, so the file
+    need not be decoded and encoded again)."""
+    if data.translate(None, _PLAIN_BYTES):
+        return None
+    try:
+        return _read_plain(data, s, max_vertices, max_triangles, max_face, max_coordinate, slot_map, default_slot)
     except _Unusual:
         return None
 
@@ -441,25 +486,33 @@ def _lines_at(lines: list[str], at: np.ndarray) -> list[str]:
     return [lines[i] for i in at]
 
 
-def _read_plain(text, s, max_vertices, max_triangles, max_face, max_coordinate, slot_map, default_slot):
-    if "\r" in text:
-        text = text.replace("\r\n", "\n").replace("\r", "\n")  # line numbers as _statements counts them
-    raw = text.encode("ascii") + b"\n\n\n"
+def _read_plain(data, s, max_vertices, max_triangles, max_face, max_coordinate, slot_map, default_slot):
+    """The whole-file reader on plain ASCII bytes (raises :class:`_Unusual`)."""
+    if b"\r" in data:
+        data = data.replace(b"\r\n", b"\n").replace(b"\r", b"\n")  # line numbers as _statements counts them
+    raw = data + b"\n\n\n"
     b = np.frombuffer(raw, dtype=np.uint8)
     starts = np.concatenate([[0], np.flatnonzero(b[:-3] == _LF) + 1])
     hashes = np.flatnonzero(b == _HASH)
     # Comments inside statements are cut; whole comment lines are no statement anyway.
     if hashes.size and not np.all((hashes == 0) | (b[hashes - 1] == _LF)):
-        text = _COMMENT.sub("", text)
-        raw = text.encode("ascii") + b"\n\n\n"
+        data = _COMMENT.sub(b"", data)
+        raw = data + b"\n\n\n"
         b = np.frombuffer(raw, dtype=np.uint8)
         starts = np.concatenate([[0], np.flatnonzero(b[:-3] == _LF) + 1])
     if np.any((b[starts] == _SPACE) | (b[starts] == _TAB)):  # indented statements
-        text = _LEADING_SPACE.sub("", text)
-        raw = text.encode("ascii") + b"\n\n\n"
+        data = _LEADING_SPACE.sub(b"", data)
+        raw = data + b"\n\n\n"
         b = np.frombuffer(raw, dtype=np.uint8)
         starts = np.concatenate([[0], np.flatnonzero(b[:-3] == _LF) + 1])
-    lines = text.split("\n")
+    split: list[list[str]] = []
+
+    def lines() -> list[str]:
+        """The text's lines (split once, when a path below needs them)."""
+        if not split:
+            split.append(data.decode("ascii").split("\n"))
+        return split[0]
+
     c0, c1, c2 = b[starts], b[starts + 1], b[starts + 2]
     space1 = (c1 == _SPACE) | (c1 == _TAB)
     space2 = (c2 == _SPACE) | (c2 == _TAB)
@@ -476,23 +529,22 @@ def _read_plain(text, s, max_vertices, max_triangles, max_face, max_coordinate, 
         raise _Unusual
 
     v_lines = np.flatnonzero(is_v)
-    values, counts = _numbers(_lines_at(lines, v_lines), 1, (3, 4, 6, 7))
+    first = _line_numbers(raw, starts, v_lines, 1, (3, 4, 6, 7), 3, lines)
     with np.errstate(over="ignore"):  # an overflow is beyond the coordinate limit below
-        vertices = _first_three(values, counts) * s
+        vertices = first * s
     if not np.all(np.abs(vertices) <= max_coordinate):
         raise _Unusual
-    values, _ = _numbers(_lines_at(lines, np.flatnonzero(is_vn)), 2, (3,))
-    normals = values.reshape(-1, 3)
+    normals = _line_numbers(raw, starts, np.flatnonzero(is_vn), 2, (3,), 3, lines)
     if np.any(np.all(normals == 0, axis=1)):
         raise _Unusual
-    _numbers(_lines_at(lines, np.flatnonzero(is_vt)), 2, (1, 2, 3))
+    _line_numbers(raw, starts, np.flatnonzero(is_vt), 2, (1, 2, 3), 0, lines)
 
     slots: dict[str, int] = {}
     slots.setdefault(default_slot, 0)
     mtl_lines: list[int] = []
     mtl_slots: list[int] = []
     for i in np.flatnonzero(c0 == ord("u")):
-        content = lines[i].strip()
+        content = raw[starts[i] : raw.index(b"\n", starts[i])].decode("ascii").strip()
         if content.split()[0] != "usemtl":
             continue
         name = content[len("usemtl") :].strip()
@@ -505,8 +557,8 @@ def _read_plain(text, s, max_vertices, max_triangles, max_face, max_coordinate, 
     sizes, columns, names = _face_numbers(raw, lines, f_lines, max_face)
     if int((sizes - 2).sum()) > max_triangles:
         raise _Unusual
-    so_far = {"v": np.cumsum(is_v), "vt": np.cumsum(is_vt), "vn": np.cumsum(is_vn)}
-    resolved = {name: _resolve(column, np.repeat(so_far[name][f_lines], sizes)) for name, column in zip(names, columns)}
+    so_far = {"v": is_v, "vt": is_vt, "vn": is_vn}
+    resolved = {name: _resolve(column, sizes, np.cumsum(so_far[name])[f_lines]) for name, column in zip(names, columns)}
     face_v = resolved["v"]
     face_n = resolved.get("vn", np.full(face_v.size, -1, np.int64))
     before = np.searchsorted(np.asarray(mtl_lines, dtype=np.int64), f_lines, side="right") - 1
@@ -572,14 +624,17 @@ def load_obj(
     if up_axis not in ("z", "y"):
         raise ValueError(f"up_axis must be 'z' or 'y', got {up_axis!r}")
     src = str(path)
-    text = read_user_text(path, "OBJ file", "a Wavefront OBJ text file")
+    data = read_user_bytes(path, "OBJ file")
     max_triangles = limits.MAX_TRIANGLES
     max_vertices = 3 * max_triangles
     max_face = limits.MAX_POLYGON_VERTICES
     max_coordinate = limits.MAX_COORDINATE_M
 
-    read = _read_fast(text, s, max_vertices, max_triangles, max_face, max_coordinate, slot_map, default_slot)
+    read = _read_fast_bytes(data, s, max_vertices, max_triangles, max_face, max_coordinate, slot_map, default_slot)
     if read is None:  # anything unusual, and every mistake, takes the statement-by-statement reader
+        plain = not data.translate(None, _PLAIN_BYTES)  # then the bytes are the text
+        text = data.decode("ascii") if plain else read_user_text(path, "OBJ file", "a Wavefront OBJ text file")
+        del data
         read = _read_statements(
             text, s, src, max_vertices, max_triangles, max_face, max_coordinate, slot_map, default_slot
         )
