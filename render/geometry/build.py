@@ -334,6 +334,10 @@ def _geometry(b: _Builder, o: StreetObject) -> None:
         parts = shapes.cylinder((0.0, 0.0, 0.0), (0.0, 0.0, p["height_m"]), p["radius_m"])
     elif kind == "sphere":
         parts = shapes.sphere((0.0, 0.0, p["radius_m"]), p["radius_m"])
+    elif kind == "extrusion" and p.get("holes_m"):
+        from render.geometry.footprints import extrude_with_holes
+
+        parts = extrude_with_holes(p["outline_m"], p["holes_m"], p["height_m"])
     elif kind == "extrusion":
         parts = shapes.extrude(p["outline_m"], p["height_m"])
     elif kind == "obj":

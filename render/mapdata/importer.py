@@ -8,6 +8,10 @@ and writes a scene file (atomically) with:
   of their footprints; height from ``height``, else ``building:levels`` ×
   :data:`~render.mapdata.defaults.STOREY_HEIGHT_M`, else
   :data:`~render.mapdata.defaults.BUILDING_HEIGHT_M`, the choice written in the object's notes;
+  buildings mapped as multipolygon relations the same way, one extrusion per outer ring
+  (``building rID`` or ``building rID part K``) with its inner rings as open courtyards
+  (``holes_m``: walls facing into them, no roof over them; :mod:`render.geometry.footprints`);
+  an outer ring with courtyards touching it or each other is left out and counted;
 - trees (``natural=tree``) as ``tree`` objects, hedges (``barrier=hedge``) as ``hedge`` objects
   per segment, walls (``barrier=wall``) as extrusions per segment;
 - roads (``highway`` ways of a road type) as ``[[roads]]``, joined at shared nodes per name and
@@ -46,7 +50,7 @@ import numpy as np
 
 from render.errors import InputError, input_error
 from render.mapdata import defaults as D
-from render.mapdata.osm import MapExtract, MapWay, read_extract
+from render.mapdata.osm import MapArea, MapExtract, MapWay, read_extract
 from render.mapdata.projection import MAX_RADIUS_M, LocalProjection, max_position_error_m
 
 __all__ = ["ROAD_CLASSES", "SIMPLIFY_TOLERANCE_M", "ImportResult", "import_map", "parse_centre", "parse_metres"]
@@ -219,19 +223,7 @@ def _building(way: MapWay, radius_m: float) -> tuple[str | None, str]:
     if problem is not None:
         return None, "buildings with footprints lampcast cannot triangulate"
     tags = way.tags
-    height = parse_metres(tags.get("height"))
-    levels = parse_metres(tags.get("building:levels"))
-    if height is not None and 0 < height <= 200:
-        why = f"height {height:g} m from the `height` tag"
-    elif levels is not None and 0 < levels <= 60:
-        height = levels * D.STOREY_HEIGHT_M
-        why = (
-            f"height {height:g} m = building:levels {levels:g} x {D.STOREY_HEIGHT_M:g} m storey height "
-            "(no usable `height` tag)"
-        )
-    else:
-        height = D.BUILDING_HEIGHT_M
-        why = f"height {height:g} m: the default (no usable `height` or `building:levels` tag)"
+    height, why = _building_height(tags)
     material = D.BUILDING_MATERIALS.get(tags.get("building:material", ""), "brick")
     label = _name(tags)
     notes = f"OSM way {way.id} (building={tags.get('building')}{', ' + label if label else ''}); {why}"
@@ -240,6 +232,65 @@ def _building(way: MapWay, radius_m: float) -> tuple[str | None, str]:
         f"height_m = {_n(height)}\noutline_m = {_pts(outline)}\nnotes = {_q(notes)}\n"
     )
     return text, ""
+
+
+def _building_height(tags: dict[str, str]) -> tuple[float, str]:
+    """A building's height from ``height``, else ``building:levels`` x the storey height, else
+    the default, and the sentence saying which."""
+    height = parse_metres(tags.get("height"))
+    levels = parse_metres(tags.get("building:levels"))
+    if height is not None and 0 < height <= 200:
+        return height, f"height {height:g} m from the `height` tag"
+    if levels is not None and 0 < levels <= 60:
+        height = levels * D.STOREY_HEIGHT_M
+        return height, (
+            f"height {height:g} m = building:levels {levels:g} x {D.STOREY_HEIGHT_M:g} m storey height "
+            "(no usable `height` tag)"
+        )
+    return (
+        D.BUILDING_HEIGHT_M,
+        f"height {D.BUILDING_HEIGHT_M:g} m: the default (no usable `height` or `building:levels` tag)",
+    )
+
+
+def _area_buildings(area: MapArea, radius_m: float) -> tuple[list[str], list[str]]:
+    """([[geometry]] texts, reasons for the parts left out) of a multipolygon building: one
+    extrusion per outer ring, its inner rings as courtyards (``holes_m``)."""
+    from render.geometry.footprints import rings_problem
+
+    tags = area.tags
+    height, why = _building_height(tags)
+    material = D.BUILDING_MATERIALS.get(tags.get("building:material", ""), "brick")
+    label = _name(tags)
+    texts, left = [], []
+    for k, (outer, inners) in enumerate(area.polygons, start=1):
+        if np.any(np.hypot(outer[:, 0], outer[:, 1]) > radius_m):
+            left.append("buildings reaching out of the circle")
+            continue
+        outline = _dedup(outer, closed=True)
+        holes = [_dedup(inner, closed=True) for inner in inners]
+        if _polygon_ok(outline) is not None or any(_polygon_ok(h) is not None for h in holes):
+            left.append("buildings with footprints lampcast cannot triangulate")
+            continue
+        if holes and rings_problem(outline, holes) is not None:
+            left.append("multipolygon buildings whose courtyards touch their outline or each other")
+            continue
+        name = f"building r{area.id}" + (f" part {k}" if len(area.polygons) > 1 else "")
+        courtyards = (
+            f"; {len(holes)} courtyard{'s' if len(holes) > 1 else ''} (inner rings) left open as holes_m"
+            if holes
+            else ""
+        )
+        notes = (
+            f"OSM relation {area.id} (multipolygon, building={tags.get('building')}{', ' + label if label else ''}"
+            f"{f', outer ring {k} of {len(area.polygons)}' if len(area.polygons) > 1 else ''}); {why}{courtyards}"
+        )
+        hole_text = f"holes_m = [{', '.join(_pts(h) for h in holes)}]\n" if holes else ""
+        texts.append(
+            f'[[geometry]]\nname = "{name}"\nkind = "extrusion"\nmaterial = {_q(material)}\n'
+            f"height_m = {_n(height)}\noutline_m = {_pts(outline)}\n{hole_text}notes = {_q(notes)}\n"
+        )
+    return texts, left
 
 
 def _tree(node) -> str:
@@ -529,6 +580,12 @@ def _scene_text(
             path_ways.append(way)
         elif "highway" in tags:
             leave(f"highway={tags['highway'][:30]} ways")
+    for area in extract.areas:
+        texts, left = _area_buildings(area, radius_m)
+        blocks += texts
+        counts["buildings"] += len(texts)
+        for reason in left:
+            leave(reason)
     road_blocks, road_lines = [], []
     names: dict[str, int] = {}
     for road in _road_chains(road_ways):

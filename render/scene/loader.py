@@ -273,6 +273,7 @@ GEOMETRY_SPEC = {
     "radius_m": Field("float", default=None, unit=M, above=0.0, min=MIN_SIZE_M, max=MAX_COORDINATE_M),
     "height_m": Field("float", default=None, unit=M, above=0.0, min=MIN_SIZE_M, max=MAX_COORDINATE_M),
     "outline_m": Field("any", default=None),
+    "holes_m": Field("any", default=None, help="an extrusion's courtyards: [[[x, y], ...], ...]"),
     "file": Field("str", default=None),
     "scale": Field("float", default=1.0, above=0.0),
     "up_axis": Field("str", default="z", choices=("y", "z")),
@@ -881,6 +882,8 @@ def _geometry(entries: list, ctx: _Context) -> list[StreetObject]:
         ctx.material(g["material"], f"{where}.material")
         if kind == "extrusion" and "outline_m" in entry:
             g["outline_m"] = _point_list(entry["outline_m"], f"{where}.outline_m", ctx.problems, 3, polygon=True)
+        if isinstance(entry, dict) and entry.get("holes_m") is not None:
+            g["holes_m"] = _holes(entry["holes_m"], g.get("outline_m"), kind, f"{where}.holes_m", ctx)
         slots = None
         if kind == "obj" and g["file"] is not None:
             target = ctx.reference(g["file"], f"{where}.file", "obj")
@@ -923,6 +926,7 @@ def _geometry(entries: list, ctx: _Context) -> list[StreetObject]:
                 "radius_m",
                 "height_m",
                 "outline_m",
+                "holes_m",
                 "file",
                 "scale",
                 "up_axis",
@@ -940,6 +944,31 @@ def _geometry(entries: list, ctx: _Context) -> list[StreetObject]:
             )
         )
     return out
+
+
+def _holes(value, outline, kind: str | None, where: str, ctx: _Context) -> list | None:
+    """An extrusion's ``holes_m``: a list of simple polygons, each strictly inside the outline
+    and apart from the others (:func:`render.geometry.footprints.rings_problem`); None after a
+    problem."""
+    from render.geometry.footprints import rings_problem
+
+    if kind != "extrusion":
+        ctx.problems.add(where, 'holes_m belongs to kind = "extrusion" (its courtyards)')
+        return None
+    if not isinstance(value, list) or not value:
+        ctx.problems.add(where, f"expected a list of outlines [[[x, y], ...], ...], got {shown(value)}")
+        return None
+    holes = [_point_list(h, f"{where}[{k}]", ctx.problems, 3, polygon=True) for k, h in enumerate(value)]
+    if any(h is None for h in holes) or outline is None:
+        return None
+    if sum(len(h) for h in holes) + len(outline) > MAX_POLYGON_VERTICES:
+        ctx.problems.add(where, f"outline and courtyards have more than {MAX_POLYGON_VERTICES:,} points together")
+        return None
+    problem = rings_problem(outline, holes)
+    if problem is not None:
+        ctx.problems.add(f"{where}[{problem[0]}]", problem[1])
+        return None
+    return holes
 
 
 def _mesh_file(g: dict, entry: dict, where: str, ctx: _Context) -> list[str] | None:
