@@ -1,0 +1,322 @@
+"""Interreflected light by path tracing with next-event estimation, spectral at 1 nm.
+
+From a surface point ``x0`` seen by the camera (or a calculation point), a path samples a
+cosine-distributed direction (pdf cos θ/π) over the Lambertian base, finds the closest surface
+``x1`` with the single-ray traversal of the wide BVH, multiplies its throughput by the
+reflectance ``ρ_1(λ)`` on the 1 nm grid, and at ``x1`` connects to one luminaire chosen by
+importance with a shadow ray (next-event estimation); then it bounces again from ``x1``, up to
+a bounce limit, with Russian roulette from the third vertex on. With cosine sampling the
+cosine and 1/π of the Lambertian BRDF cancel, so a path adds, per vertex ``x_j``,
+
+    β(λ) · E_k(x_j) / (π·p_k)        β(λ) = Π_{i=1..j} ρ_i(λ) / (roulette survival probabilities)
+
+to its start point's ``E_ind(λ)/π`` for the channel of luminaire ``k`` -- the interreflected
+counterpart of the value the light buffers keep for direct light (the white-diffuser
+luminance, cd/m²). The start point's own reflectance is not in β: the response tables apply it
+exactly (:mod:`render.light.indirect.transport`).
+
+**Choosing the luminaire.** The candidates at ``x_j`` are the luminaires of its culling cell
+(:func:`render.light.integrator.scene_cull_grid`: those whose unshadowed light can reach the
+negligible bound somewhere in the cell; every luminaire outside the grid's box), so the work
+per vertex grows with the luminaires near it, not with all of them. Each candidate's
+unshadowed illuminance ``E_k = I_k(C, γ)·cos θ_k / d_k²`` is evaluated from its photometric
+table with :func:`render.light.photometry.intensity_lookup` (the lookup the direct light
+uses), and ``k`` is chosen with probability ``p_k = E_k / Σ_m E_m``, so that ``E_k/p_k = Σ_m E_m``
+whatever the choice: the only noise left from the choice is whether the chosen luminaire is
+shadowed. Luminaires left out of a cell contribute below the same bound as for direct light.
+
+**Surfaces.** Bounce vertices use the triangle's geometric normal, turned toward the arriving
+ray; the camera vertex samples around its shading normal and drops directions below its
+geometric surface. Materials with a specular layer (:mod:`render.light.gloss`) keep only their
+Lambertian base here, which receives what the interface transmits, ``1 − F(cos θ)`` (Schlick),
+for the light arriving at the camera vertex and at each next-event connection, as for direct
+light. The road's r-table applies to direct light only: interreflected light reaches the
+carriageway from every direction and is reflected by its Lambertian base.
+
+**Seeding.** Every random number is a SplitMix64 hash of (seed key, pixel or point, path,
+bounce, dimension): a path depends on nothing else, so tiles, threads and reruns give the same
+bits.
+
+References
+----------
+- J. T. Kajiya, "The rendering equation", SIGGRAPH 1986 (path tracing).
+- E. Veach, *Robust Monte Carlo Methods for Light Transport Simulation*, PhD thesis, Stanford
+  1997: next-event estimation (ch. 10? **from memory**), Russian roulette (sec. 2.5? **from
+  memory**).
+- Cosine-weighted hemisphere sampling by projecting a uniform disc sample (Malley's method):
+  M. Pharr, W. Jakob, G. Humphreys, *Physically Based Rendering*, 3rd ed., sec. 13.6.3.
+- T. Duff et al., "Building an orthonormal basis, revisited", JCGT 6(1), 2017.
+- G. L. Steele, D. Lea, C. H. Flood, "Fast splittable pseudorandom number generators",
+  OOPSLA 2014 (SplitMix64, :mod:`render.rays.cameras`).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numba
+import numpy as np
+from numba import prange
+
+from render.light.gloss import fresnel_one
+from render.light.integrator import _cell_of
+from render.light.photometry import direction_to_c_gamma, intensity_lookup
+from render.rays.bvh.layout import STACK_SIZE, WIDE
+from render.rays.bvh.single import any_one, closest_one
+from render.rays.cameras import _mix64
+
+__all__ = ["RR_FIRST_BOUNCE", "trace_paths"]
+
+#: Russian roulette decides whether a path goes on from this bounce vertex (1 = the first
+#: surface after the camera's): from the third vertex on.
+RR_FIRST_BOUNCE = 2
+# Hash fields: path index, bounce, dimension (bits).
+_BOUNCE_SHIFT = np.uint64(8)
+_PATH_SHIFT = np.uint64(24)
+_TO_UNIT = 1.0 / 9007199254740992.0  # 2⁻⁵³
+
+
+@numba.njit(cache=True, nogil=True, inline="always")
+def _rand(key, item, path, bounce, dim):
+    """Uniform float64 in [0, 1) from (key, item, path, bounce, dimension)."""
+    c = (np.uint64(path) << _PATH_SHIFT) | (np.uint64(bounce) << _BOUNCE_SHIFT) | np.uint64(dim)
+    h = _mix64(_mix64(key ^ _mix64(np.uint64(item))) ^ c)
+    return np.float64(h >> np.uint64(11)) * _TO_UNIT
+
+
+@numba.njit(cache=True, nogil=True, inline="always")
+def _cosine_direction(nx, ny, nz, u1, u2):
+    """Cosine-distributed unit direction about the unit normal n (pdf cos θ / π)."""
+    sign = math.copysign(1.0, nz)
+    a = -1.0 / (sign + nz)
+    b = nx * ny * a
+    t1x, t1y, t1z = 1.0 + sign * nx * nx * a, sign * b, -sign * nx
+    t2x, t2y, t2z = b, sign + ny * ny * a, -ny
+    r = math.sqrt(u1)
+    phi = 2.0 * math.pi * u2
+    lx = r * math.cos(phi)
+    ly = r * math.sin(phi)
+    lz = math.sqrt(max(0.0, 1.0 - u1))
+    return (
+        lx * t1x + ly * t2x + lz * nx,
+        lx * t1y + ly * t2y + lz * ny,
+        lx * t1z + ly * t2z + lz * nz,
+    )
+
+
+@numba.njit(cache=True, nogil=True, inline="always")
+def _unshadowed(px, py, pz, nx, ny, nz, k, lum):
+    """Luminaire k's unshadowed illuminance (lx, full output) at a point with unit normal n,
+    and the distance to it; (0, 0) behind the surface or at the luminaire."""
+    rot, pos, scale, table, c_grid, g_grid, n_c, n_g, inv_c, inv_g, cd, channel, clearance = lum
+    dx = px - pos[k, 0]
+    dy = py - pos[k, 1]
+    dz = pz - pos[k, 2]
+    d2 = dx * dx + dy * dy + dz * dz
+    if d2 <= 1e-12:
+        return 0.0, 0.0
+    d = math.sqrt(d2)
+    cos_s = -(nx * dx + ny * dy + nz * dz) / d
+    if cos_s <= 0.0:
+        return 0.0, 0.0
+    t = table[k]
+    c, g = direction_to_c_gamma(rot[k], dx, dy, dz)
+    inten = intensity_lookup(c_grid[t, : n_c[t]], g_grid[t, : n_g[t]], cd[t, : n_c[t], : n_g[t]], c, g)
+    return scale[k] * inten * cos_s / d2, d
+
+
+@numba.njit(cache=True, nogil=True, parallel=True, error_model="numpy")
+def trace_paths(
+    point,
+    normal,
+    geo,
+    material,
+    item_id,
+    spp,
+    n_paths,
+    key,
+    max_bounces,
+    rr_first,
+    per_sample,
+    rho,
+    f0,
+    band_start,
+    band_weight,
+    tri_normal,
+    tri_material,
+    tree,
+    wide_stack,
+    lum,
+    grid,
+    offset,
+    out,
+    out_paths,
+):
+    """Interreflected transport of G items of ``spp`` start samples each (a pixel's camera
+    samples, or one calculation point).
+
+    ``point``, ``normal`` (shading), ``geo`` (geometric) (G·spp, 3), both facing the side seen,
+    and ``material`` (G·spp,) of the start samples (outside 0 … K − 1: no path starts there);
+    ``item_id`` (G,) the id each item's random numbers hash (the view's pixel index).
+    ``n_paths`` paths per item start on its valid samples in turn; ``max_bounces`` vertices
+    after the start at most, Russian roulette deciding from vertex ``rr_first`` on whether to
+    go on. ``rho`` (K, N) reflectances, ``f0`` (K,) the specular layer's F0 (0: none);
+    ``band_start``, ``band_weight`` the stored basis (:class:`~render.light.indirect.transport.
+    TransportBasis`); ``tri_normal`` (F, 3) unit geometric normals and ``tri_material`` (F,) by
+    original triangle index; ``tree`` = (wide nodes, their int32 view, triangle vertices,
+    triangle index); ``lum`` as :func:`render.light.integrator._luminaire_args`; ``grid`` a
+    culling grid's kernel arguments; ``offset`` the ray-origin offset along the normal, m.
+
+    Writes ``out`` (rows, C, n_nodes): the mean over a row's paths of the node values of
+    E_ind/π·T per channel (rows are items, or samples with ``per_sample``), and ``out_paths``
+    (rows,) the number of paths averaged."""
+    wb, wi, tv, ti = tree
+    rot, pos, scale, table, c_grid, g_grid, n_c, n_g, inv_c, inv_g, cd, channel, clearance = lum
+    box, cell, gnx, gny, cell_start, cell_items = grid
+    G = item_id.shape[0]
+    K = rho.shape[0]
+    N = rho.shape[1]
+    C = out.shape[1]
+    n_nodes = out.shape[2]
+    width = band_weight.shape[1]
+    n_lum = pos.shape[0]
+    rows = spp if per_sample else 1
+    for g in prange(G):
+        s0 = g * spp
+        valid = np.empty(spp, np.int64)
+        nv = 0
+        for s in range(spp):
+            k0 = material[s0 + s]
+            if k0 >= 0 and k0 < K and np.isfinite(point[s0 + s, 0]):
+                valid[nv] = s
+                nv += 1
+        r0 = g * rows
+        for r in range(r0, r0 + rows):
+            out_paths[r] = 0
+            for c in range(C):
+                for j in range(n_nodes):
+                    out[r, c, j] = 0.0
+        if nv == 0 or n_paths == 0:
+            continue
+        acc = np.zeros((rows, C, N))
+        count = np.zeros(rows, np.int64)
+        beta = np.empty(N)
+        e_cand = np.empty(max(n_lum, 1))
+        st_node = np.empty(max(STACK_SIZE, wide_stack), np.int64)
+        st_t = np.empty(wide_stack)
+        work = np.empty(2 * WIDE)
+        o = np.empty(3)
+        d = np.empty(3)
+        gid = item_id[g]
+        for i in range(n_paths):
+            s = valid[i % nv]
+            a = s if per_sample else 0
+            count[a] += 1
+            idx = s0 + s
+            px = np.float64(point[idx, 0])
+            py = np.float64(point[idx, 1])
+            pz = np.float64(point[idx, 2])
+            sx = np.float64(normal[idx, 0])
+            sy = np.float64(normal[idx, 1])
+            sz = np.float64(normal[idx, 2])
+            gx = np.float64(geo[idx, 0])
+            gy = np.float64(geo[idx, 1])
+            gz = np.float64(geo[idx, 2])
+            k_prev = material[idx]
+            for n in range(N):
+                beta[n] = 1.0
+            weight = 1.0
+            for b in range(1, max_bounces + 1):
+                wx, wy, wz = _cosine_direction(sx, sy, sz, _rand(key, gid, i, b, 0), _rand(key, gid, i, b, 1))
+                if wx * gx + wy * gy + wz * gz <= 0.0:
+                    break
+                if f0[k_prev] > 0.0:
+                    # The base receives what the interface transmits (render.light.gloss).
+                    weight *= 1.0 - fresnel_one(wx * sx + wy * sy + wz * sz, f0[k_prev])
+                o[0] = px + offset * gx
+                o[1] = py + offset * gy
+                o[2] = pz + offset * gz
+                d[0] = wx
+                d[1] = wy
+                d[2] = wz
+                t, j, _, _ = closest_one(wb, wi, tv, ti, o, d, 0.0, np.inf, st_node, st_t, work, WIDE)
+                if j < 0:
+                    break
+                px = o[0] + t * wx
+                py = o[1] + t * wy
+                pz = o[2] + t * wz
+                gx = tri_normal[j, 0]
+                gy = tri_normal[j, 1]
+                gz = tri_normal[j, 2]
+                if gx * wx + gy * wy + gz * wz > 0.0:
+                    gx, gy, gz = -gx, -gy, -gz
+                sx, sy, sz = gx, gy, gz
+                k = tri_material[j]
+                for n in range(N):
+                    beta[n] *= rho[k, n]
+                # Next-event estimation: one luminaire of the vertex's culling cell.
+                ci = _cell_of(px, py, pz, box, cell, gnx, gny)
+                q0 = cell_start[ci] if ci >= 0 else 0
+                q1 = cell_start[ci + 1] if ci >= 0 else n_lum
+                total = 0.0
+                for q in range(q0, q1):
+                    kk = cell_items[q] if ci >= 0 else q
+                    e, _ = _unshadowed(px, py, pz, gx, gy, gz, kk, lum)
+                    e_cand[q - q0] = e
+                    total += e
+                if total > 0.0:
+                    u = _rand(key, gid, i, b, 2) * total
+                    m = q0
+                    run = e_cand[0]
+                    while run <= u and m < q1 - 1:
+                        m += 1
+                        run += e_cand[m - q0]
+                    while e_cand[m - q0] == 0.0:
+                        m -= 1
+                    kk = cell_items[m] if ci >= 0 else m
+                    lx = pos[kk, 0] - px
+                    ly = pos[kk, 1] - py
+                    lz = pos[kk, 2] - pz
+                    dist = math.sqrt(lx * lx + ly * ly + lz * lz)
+                    lx /= dist
+                    ly /= dist
+                    lz /= dist
+                    o[0] = px + offset * gx
+                    o[1] = py + offset * gy
+                    o[2] = pz + offset * gz
+                    d[0] = lx
+                    d[1] = ly
+                    d[2] = lz
+                    if not any_one(wb, wi, tv, o, d, 0.0, max(dist - clearance[kk], 0.0), st_node, work, WIDE):
+                        # E_k / p_k = Σ E: the cell's whole unshadowed light.
+                        v = weight * total / math.pi
+                        if f0[k] > 0.0:
+                            v *= 1.0 - fresnel_one(gx * lx + gy * ly + gz * lz, f0[k])
+                        ch = channel[kk]
+                        for n in range(N):
+                            acc[a, ch, n] += beta[n] * v
+                if b >= max_bounces:
+                    break
+                if b >= rr_first:
+                    top = 0.0
+                    for n in range(N):
+                        top = max(top, beta[n])
+                    survive = min(1.0, top * weight)
+                    if not (survive > 0.0) or _rand(key, gid, i, b, 3) >= survive:
+                        break
+                    weight /= survive
+                k_prev = k
+        for a in range(rows):
+            if count[a] == 0:
+                continue
+            r = r0 + a
+            out_paths[r] = count[a]
+            inv = 1.0 / count[a]
+            for c in range(C):
+                for j in range(n_nodes):
+                    v = 0.0
+                    for w in range(width):
+                        n = band_start[j] + w
+                        if n < N:
+                            v += band_weight[j, w] * acc[a, c, n]
+                    out[r, c, j] = v * inv

@@ -1,0 +1,354 @@
+"""Interreflected light of a view or of points: tracing, storage, and images from it.
+
+:func:`trace_view` casts a view's camera samples again tile by tile (they depend only on the
+camera, the samples per pixel and the seed; :mod:`render.light.integrator`), traces
+``samples_per_pixel`` interreflection paths per pixel from them
+(:func:`render.light.indirect.paths.trace_paths`) and keeps, per pixel and light channel, the
+node values of the transport (:mod:`render.light.indirect.transport`) as float16 relative to a
+per-pixel scale: :class:`IndirectBuffers`, 162 bytes per pixel and channel plus 8 per pixel.
+:func:`indirect_xyz` turns them into absolute X, Y, Z, Y' for any lamps, lumens and dimming per
+channel, to be added to the direct light's (a relight casts no ray).
+
+Per pixel rather than per camera sample: the paths of a pixel start on its camera samples in
+turn and their mean transport is applied to each sample's own material. This is exact where a
+pixel's samples see one material and, at edges between materials, mixes their transports; the
+error of that and of the other layouts is measured by ``python -m render.bench indirect
+--storage`` (stated in DEVELOPERS.md).
+
+:func:`transport_at_points` is the same tracing at arbitrary surface points (the checks, and
+calculations that include interreflected light).
+
+References
+----------
+The methods are those of :mod:`render.light.indirect.paths` and
+:mod:`render.light.indirect.transport`.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterator, Sequence
+from dataclasses import dataclass, field
+
+import numba
+import numpy as np
+from numpy.typing import ArrayLike
+
+from render.geometry.mesh import TriangleMesh, face_normals
+from render.light.indirect.paths import RR_FIRST_BOUNCE, trace_paths
+from render.light.indirect.transport import (
+    LAYOUT_BLOCK,
+    LAYOUT_PIXEL,
+    LAYOUT_SAMPLE,
+    NODE_STEP_NM,
+    TransportBasis,
+    lamp_indices,
+    resolve_transport,
+    transport_basis,
+    transport_table,
+)
+from render.light.integrator import (
+    NEGLIGIBLE_LX,
+    SURFACE_OFFSET_M,
+    LightBuffers,
+    _cast_tiles,
+    _luminaire_args,
+    _material_gloss,
+    scene_cull_grid,
+)
+from render.light.luminaires import LuminaireSet
+from render.rays.bvh import BVH
+from render.rays.cameras import seed_key
+
+__all__ = [
+    "DEFAULT_BOUNCES",
+    "DEFAULT_PATHS_PER_PIXEL",
+    "IndirectBuffers",
+    "IndirectSettings",
+    "PathTracer",
+    "indirect_xyz",
+    "pack_rows",
+    "trace_view",
+    "transport_at_points",
+    "view_transport_tiles",
+]
+
+#: Interreflections a path may have at most when the scene does not say (vertices after the
+#: surface the camera sees).
+DEFAULT_BOUNCES = 3
+#: Interreflection paths per pixel when the scene does not say.
+DEFAULT_PATHS_PER_PIXEL = 8
+# Salt of the paths' hash key, so that they never reuse the camera jitter's random numbers.
+_KEY_SALT = np.uint64(0xA5C3_96E1_D2B4_F078)
+# Pixels per parallel work item handed to a thread at a time.
+_CHUNK_PIXELS = 16
+
+_LAYOUTS = {"pixel": LAYOUT_PIXEL, "sample": LAYOUT_SAMPLE, "block": LAYOUT_BLOCK}
+
+
+@dataclass(frozen=True)
+class IndirectSettings:
+    """How interreflected light is traced: ``bounces`` (at most, ≥ 1), ``samples_per_pixel``
+    paths per pixel (or per point), the transport's node step (nm) and where Russian roulette
+    starts (see :data:`render.light.indirect.paths.RR_FIRST_BOUNCE`)."""
+
+    bounces: int = DEFAULT_BOUNCES
+    samples_per_pixel: int = DEFAULT_PATHS_PER_PIXEL
+    node_step_nm: int = NODE_STEP_NM
+    rr_first_bounce: int = RR_FIRST_BOUNCE
+
+    @property
+    def basis(self) -> TransportBasis:
+        return transport_basis(self.node_step_nm)
+
+
+@dataclass
+class IndirectBuffers:
+    """A view's interreflected transport, at full output per light channel.
+
+    ``values`` (rows, C, n_nodes) float16 node values of E_ind/π·T (cd/m² per unit transport)
+    relative to ``scale`` (rows,) float32; ``paths`` (rows,) the paths averaged in each row;
+    rows are pixels (``layout`` "pixel"), camera samples ("sample") or 2 × 2 pixel blocks
+    ("block", row-major over ⌈W/2⌉ columns)."""
+
+    width_px: int
+    height_px: int
+    spp: int
+    layout: str
+    settings: IndirectSettings
+    values: np.ndarray
+    scale: np.ndarray
+    paths: np.ndarray
+    channels: list = field(default_factory=list)
+
+    @property
+    def nbytes(self) -> int:
+        """Bytes held by the stored transport."""
+        return int(self.values.nbytes + self.scale.nbytes + self.paths.nbytes)
+
+
+def _rows(layout: str, width: int, height: int, spp: int) -> int:
+    if layout == "sample":
+        return width * height * spp
+    if layout == "block":
+        return ((width + 1) // 2) * ((height + 1) // 2)
+    return width * height
+
+
+class PathTracer:
+    """The path-tracing kernel's arguments for one scene, BVH, luminaire set and reflectances
+    (built once; :meth:`trace` runs it on any start samples)."""
+
+    def __init__(
+        self,
+        mesh: TriangleMesh,
+        bvh: BVH,
+        lights: LuminaireSet,
+        reflectances: ArrayLike,
+        settings: IndirectSettings,
+        *,
+        negligible_lx: float = NEGLIGIBLE_LX,
+        offset_m: float = SURFACE_OFFSET_M,
+    ) -> None:
+        if settings.bounces < 1:
+            raise ValueError("interreflection needs at least one bounce")
+        self.settings = settings
+        self.n_channels = lights.n_channels
+        basis = settings.basis
+        self.basis = basis
+        self.rho = np.ascontiguousarray(reflectances, np.float64)
+        self.f0 = np.ascontiguousarray(_material_gloss(mesh)[:, 0], np.float64)
+        if self.f0.shape[0] != self.rho.shape[0]:
+            raise ValueError(f"{self.rho.shape[0]} reflectances for {self.f0.shape[0]} materials")
+        self.tri_normal = np.ascontiguousarray(face_normals(mesh.triangles_m), np.float64)
+        self.tri_material = np.ascontiguousarray(mesh.material_id, np.int32)
+        self.tree = (bvh.wide_nodes, bvh.wide_nodes_i32, bvh.tri_vertices, bvh.tri_index)
+        self.wide_stack = int(bvh.wide_stack)
+        self.lum = _luminaire_args(lights)
+        grid = scene_cull_grid(lights, bvh, negligible_lx) if bvh.n_triangles else None
+        self.grid = grid.kernel_args() if grid is not None else None
+        self.offset_m = float(offset_m)
+
+    def trace(
+        self,
+        point: np.ndarray,
+        normal: np.ndarray,
+        geo: np.ndarray,
+        material: np.ndarray,
+        item_id: np.ndarray,
+        spp: int,
+        seed: int,
+        *,
+        per_sample: bool = False,
+    ) -> tuple[np.ndarray, np.ndarray]:
+        """Mean node values (rows, C, n_nodes) float64 and paths (rows,) of items of ``spp``
+        consecutive start samples (rows: items, or samples with ``per_sample``)."""
+        n_items = int(item_id.shape[0])
+        rows = n_items * spp if per_sample else n_items
+        out = np.zeros((rows, self.n_channels, self.basis.n_nodes))
+        paths = np.zeros(rows, np.int64)
+        if self.grid is None or n_items == 0 or self.n_channels == 0:
+            return out, paths
+        key = seed_key(seed) ^ _KEY_SALT
+        with numba.parallel_chunksize(_CHUNK_PIXELS):
+            trace_paths(
+                np.ascontiguousarray(point),
+                np.ascontiguousarray(normal),
+                np.ascontiguousarray(geo),
+                np.ascontiguousarray(material, np.int32),
+                np.ascontiguousarray(item_id, np.int64),
+                int(spp),
+                int(self.settings.samples_per_pixel),
+                key,
+                int(self.settings.bounces),
+                int(self.settings.rr_first_bounce),
+                bool(per_sample),
+                self.rho,
+                self.f0,
+                self.basis.band_start,
+                self.basis.band_weight,
+                self.tri_normal,
+                self.tri_material,
+                self.tree,
+                self.wide_stack,
+                self.lum,
+                self.grid,
+                self.offset_m,
+                out,
+                paths,
+            )
+        return out, paths
+
+
+def pack_rows(moments: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Rows (rows, C, n) as float16 relative to their largest magnitude, and that scale
+    (float32; rows of zeros keep scale 0)."""
+    m = np.asarray(moments, np.float64)
+    top = np.abs(m).reshape(m.shape[0], -1).max(axis=1) if m.size else np.zeros(m.shape[0])
+    scale = top.astype(np.float32)
+    inv = np.divide(1.0, scale.astype(np.float64), out=np.zeros(m.shape[0]), where=scale > 0)
+    return (m * inv[:, None, None]).astype(np.float16), scale
+
+
+def view_transport_tiles(
+    buffers: LightBuffers, tracer: PathTracer, seed: int, *, per_sample: bool = False, progress: bool = False
+) -> Iterator[tuple[np.ndarray, np.ndarray, np.ndarray]]:
+    """Per tile of the view's camera samples (cast again): the tile's sample indices, and the
+    mean node values and path counts per pixel (or per sample with ``per_sample``)."""
+    if buffers.rays is None:
+        raise ValueError("these light buffers do not keep how to cast their camera samples")
+    spp = buffers.spp
+    for tile in _cast_tiles(buffers.rays, spp, progress=progress, label="interreflection"):
+        pixel = tile.index[::spp] // spp
+        # The kept ids: the materials of the first cast (the same hits).
+        material = buffers.response[tile.index]
+        moments, paths = tracer.trace(
+            tile.point, tile.normal, tile.geo, material, pixel, spp, seed, per_sample=per_sample
+        )
+        yield tile.index, moments, paths
+
+
+def trace_view(
+    buffers: LightBuffers,
+    lights: LuminaireSet,
+    bvh: BVH,
+    reflectances: ArrayLike,
+    settings: IndirectSettings,
+    seed: int,
+    *,
+    layout: str = "pixel",
+    negligible_lx: float = NEGLIGIBLE_LX,
+    progress: bool = False,
+) -> IndirectBuffers:
+    """The view's interreflected transport (see the module text); ``buffers`` from
+    :func:`render.light.integrator.render_buffers` or :func:`~render.light.integrator.cast_view`
+    with the same ``lights``."""
+    if layout not in _LAYOUTS:
+        raise ValueError(f"layout must be one of {sorted(_LAYOUTS)}, got {layout!r}")
+    mesh = buffers.rays.mesh if buffers.rays is not None else None
+    if mesh is None:
+        raise ValueError("these light buffers do not keep how to cast their camera samples")
+    W, H, spp = buffers.width_px, buffers.height_px, buffers.spp
+    tracer = PathTracer(mesh, bvh, lights, reflectances, settings, negligible_lx=negligible_lx)
+    C, n = lights.n_channels, tracer.basis.n_nodes
+    rows = _rows(layout, W, H, spp)
+    values = np.zeros((rows, C, n), np.float16)
+    scale = np.zeros(rows, np.float32)
+    paths = np.zeros(rows, np.int32)
+    per_sample = layout == "sample"
+    for index, moments, count in view_transport_tiles(buffers, tracer, seed, per_sample=per_sample, progress=progress):
+        if layout == "sample":
+            where = index
+        else:
+            where = index[::spp] // spp
+        if layout == "block":
+            x, y = where % W, where // W
+            block = (y // 2) * ((W + 1) // 2) + x // 2
+            # Tiles hold whole 4-row bands, so a block's pixels are all in one tile.
+            ids, inverse = np.unique(block, return_inverse=True)
+            sums = np.zeros((ids.size, C, n))
+            np.add.at(sums, inverse, moments * count[:, None, None])
+            total = np.bincount(inverse, weights=count, minlength=ids.size)
+            moments = sums / np.maximum(total, 1)[:, None, None]
+            count = total.astype(np.int64)
+            where = ids
+        v, s = pack_rows(moments)
+        values[where] = v
+        scale[where] = s
+        paths[where] = count
+    return IndirectBuffers(W, H, spp, layout, settings, values, scale, paths, list(lights.channels))
+
+
+def indirect_xyz(
+    indirect: IndirectBuffers,
+    response: np.ndarray,
+    factors: ArrayLike,
+    lamp_spds: Sequence[np.ndarray],
+    reflectances: ArrayLike,
+) -> np.ndarray:
+    """Absolute X, Y, Z, Y' (H, W, 4) of the view's interreflected light for per-channel
+    ``factors`` (dimming, lumens) and lamps; ``response`` (S,) the camera samples' materials
+    (``LightBuffers.response``), ``reflectances`` (K, N_BINS) per material."""
+    lamp_of_channel, distinct = lamp_indices(lamp_spds)
+    n_pix = indirect.width_px * indirect.height_px
+    out = np.zeros((n_pix, 4))
+    if not distinct:
+        return out.reshape(indirect.height_px, indirect.width_px, 4)
+    table = transport_table(reflectances, np.array(distinct), indirect.settings.basis)
+    resolve_transport(
+        response,
+        indirect.spp,
+        indirect.width_px,
+        _LAYOUTS[indirect.layout],
+        indirect.values,
+        indirect.scale,
+        factors,
+        table,
+        lamp_of_channel,
+        out,
+    )
+    return out.reshape(indirect.height_px, indirect.width_px, 4)
+
+
+def transport_at_points(
+    points_m: ArrayLike,
+    normals: ArrayLike,
+    materials: ArrayLike,
+    tracer: PathTracer,
+    seed: int,
+    *,
+    geo_normals: ArrayLike | None = None,
+    first_id: int = 0,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Interreflected transport at surface points: (N, C, n_nodes) mean node values of
+    E_ind/π·T per channel (cd/m² per unit transport, full output) and the paths per point.
+
+    ``normals`` (N, 3) unit normals on the side that receives (``geo_normals`` the geometric
+    ones, default the same), ``materials`` (N,) the points' material indices (their gloss
+    layer's transmission applies; the reflectance itself is not in the result). Point ``i``
+    hashes id ``first_id + i``."""
+    pts = np.ascontiguousarray(points_m, np.float64).reshape(-1, 3)
+    nrm = np.ascontiguousarray(normals, np.float64).reshape(-1, 3)
+    geo = nrm if geo_normals is None else np.ascontiguousarray(geo_normals, np.float64).reshape(-1, 3)
+    mat = np.ascontiguousarray(materials, np.int32).reshape(-1)
+    ids = first_id + np.arange(pts.shape[0], dtype=np.int64)
+    return tracer.trace(pts, nrm, geo, mat, ids, 1, seed)
