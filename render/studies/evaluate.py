@@ -152,8 +152,10 @@ def _colour_figures(study, setups: tuple[str, ...], compute: ComputeSettings) ->
     first = study.render_view(view, setups[0])
     rendered = [first, *(study.relight(first, s) for s in setups[1:])]
     observer = study.observer
-    shared, _ = study.display_both(rendered, observer)
-    result = analyse_view_colours(study, rendered, shared, observer, list(setups))
+    shared, adapted = study.display_both(rendered, observer)
+    result = analyse_view_colours(
+        study, rendered, shared, observer, list(setups), own_states=[d.state for d in adapted]
+    )
     out = []
     daylight = result.daylight.delta_e00
     distinct = result.thresholds.distinct_in_daylight_delta_e00
