@@ -72,14 +72,15 @@ def format_multiple(pair: PairDifference) -> str:
     return "-"
 
 
-def setup_light_level(seen: SetupColours) -> str:
-    """Where a setup's pairs were judged: the adaptation luminance, hue, and any range note."""
+def setup_light_level(seen: SetupColours, with_level: bool = True) -> str:
+    """Where a setup's pairs were judged: the adaptation luminance (unless ``with_level`` is
+    false), whether hue is available there, and any note on the model's range."""
     d = seen.discrimination
     level = "-" if d.adaptation_cd_m2 is None else f"{d.adaptation_cd_m2:.3g} cd/m²"
     hue = {"available": "hue available", "unreliable": "hue not reliable", "none": "no hue (rod vision)"}.get(
         d.hue, d.hue
     )
-    return f"adaptation {level}, {hue}" + (f"; {d.note}" if d.note else "")
+    return (f"adaptation {level}, {hue}" if with_level else hue) + (f"; {d.note}" if d.note else "")
 
 
 def format_pairs(result: ColourAnalysis) -> str:

@@ -526,7 +526,7 @@ def colour_report_section(
             s,
             published(result.setups[s].discrimination.adaptation_cd_m2),
             published(result.setups[s].discrimination.mes2_m),
-            setup_light_level(result.setups[s]),
+            setup_light_level(result.setups[s], with_level=False),
         )
         for s in setups
     )
@@ -580,7 +580,7 @@ def colour_report_section(
             ),
             ReportTable(
                 "The light level each lighting's pairs are judged at",
-                ("setup", "adaptation (cd/m²)", "MES2 m", "in words"),
+                ("setup", "adaptation (cd/m²)", "MES2 m", "hue and the model's range"),
                 level_rows,
             ),
             ReportTable(
