@@ -42,14 +42,18 @@ from render.output.images import write_figure_png
 #: Outline colours of the outlined view (our own palette; cycled).
 OUTLINE_COLOURS = ("#ffd23f", "#3bceac", "#ee4266", "#7c9cff", "#f9a03f", "#b5e48c", "#f78fb3", "#c8b6ff")
 
-#: ΔE00 classes of the heat map: upper bounds and colours (our own colour scale).
+#: ΔE00 classes of the heat map: upper bounds, colours and labels (our own colour scale). The
+#: labels name ΔE00 bands only: CIEDE2000 has no light-level term, so whether a pair can be told
+#: apart at night is the discrimination model's verdict (the tables), not these bands.
 HEATMAP_CLASSES = (
-    (1.0, "#7b1e3a", "imperceptible (< 1)"),
-    (3.0, "#d9622b", "hard (1-3)"),
-    (10.0, "#f1d38a", "noticeable (3-10)"),
-    (20.0, "#9fd0c7", "distinct (10-20)"),
-    (np.inf, "#3c7a96", "very different (≥ 20)"),
+    (1.0, "#7b1e3a", "< 1 (about one JND in daylight)"),
+    (3.0, "#d9622b", "1-3"),
+    (10.0, "#f1d38a", "3-10"),
+    (20.0, "#9fd0c7", "10-20"),
+    (np.inf, "#3c7a96", "≥ 20"),
 )
+#: Title of the heat maps' legend.
+HEATMAP_LEGEND_TITLE = "CIEDE2000 (no light-level term: see the verdicts in the tables)"
 
 
 # ------------------------------------------------------------------------------- helpers
@@ -480,7 +484,7 @@ def closest_pairs_figure(
         ncol=len(handles),
         fontsize=8,
         frameon=False,
-        title="CIEDE2000",
+        title=HEATMAP_LEGEND_TITLE,
         title_fontsize=8,
         bbox_to_anchor=(0.5, 0.0),
     )
@@ -497,8 +501,8 @@ def delta_e_heatmap(
 ) -> Path:
     """Heat map(s) of pairwise ΔE00, one panel per condition, values written in the cells.
 
-    Colour scale (ours): :data:`HEATMAP_CLASSES` -- imperceptible (< 1), hard (1-3),
-    noticeable (3-10), distinct (10-20), very different (≥ 20). The diagonal is left blank;
+    Colour scale (ours): :data:`HEATMAP_CLASSES` -- ΔE00 below 1 (about one just-noticeable
+    difference in daylight), 1-3, 3-10, 10-20, 20 and above. The diagonal is left blank;
     NaN (an object not visible) is shown hatched as "n/v".
     """
     from matplotlib.colors import BoundaryNorm, ListedColormap, to_rgb
@@ -571,7 +575,7 @@ def delta_e_heatmap(
         ncol=min(5, len(handles)),
         fontsize=8,
         frameon=False,
-        title="CIEDE2000",
+        title=HEATMAP_LEGEND_TITLE,
         title_fontsize=8,
         bbox_to_anchor=(0.5, 0.0),
     )
