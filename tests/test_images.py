@@ -271,3 +271,64 @@ def test_gif_and_webp_writers():
             assert np.array_equal(np.asarray(im.convert("RGB")), frame)
     with pytest.raises(ValueError):
         webp_bytes(frames[0], 101)
+
+
+def test_repeated_gif_frames_quantised_once_give_pillows_own_file():
+    # A frame that occurs twice (a wipe there and back) is quantised once; the file must be the
+    # one Pillow's GIF89a writer makes from the RGB frames themselves (reference: Pillow).
+    from render import __version__
+
+    rng = np.random.default_rng(9)
+    base = rng.integers(0, 256, (24, 40, 3), dtype=np.uint8)
+    frames = []
+    for x in (0, 10, 20, 30, 30, 20, 10, 0):
+        f = base.copy()
+        f[:, :x] = 255 - f[:, :x]
+        frames.append(f)
+    text = {"lampcast.picture": "rendered"}
+    comment = "\n".join(f"{k}: {v}" for k, v in {"Software": f"lampcast {__version__}", **text}.items())
+    buf = io.BytesIO()
+    images = [Image.fromarray(f) for f in frames]
+    images[0].save(
+        buf, "GIF", save_all=True, append_images=images[1:], duration=90, loop=0, comment=comment.encode("utf-8")
+    )
+    assert gif_bytes(frames, 90, text) == buf.getvalue()
+
+
+def test_continuous_tones_and_charts_keep_their_pixels():
+    # Continuous-tone images are deflated with zlib's run-length strategy, charts at level 6:
+    # either way Pillow and imageio (independent PNG readers) give back the same pixels.
+    from render.output.images import CHART, PICTURE_KEY, RENDERED
+
+    y, x = np.mgrid[0:90, 0:120]
+    img = np.stack([(x * 2) % 256, (y * 3) % 256, (x * y) % 256], axis=-1).astype(np.uint8)
+    for kind in (RENDERED, CHART, None):
+        data = png_bytes(img, {PICTURE_KEY: kind} if kind else None)
+        assert np.array_equal(iio.imread(data, extension=".png"), img)
+        with Image.open(io.BytesIO(data)) as im:
+            assert np.array_equal(np.asarray(im), img)
+        assert png_bytes(img, {PICTURE_KEY: kind} if kind else None) == data
+
+
+def test_image_writer_writes_what_the_writers_write_and_raises_their_errors(tmp_path):
+    from render.output.images import ImageWriter, write_gif
+
+    rng = np.random.default_rng(10)
+    img = rng.integers(0, 256, (30, 40, 3), dtype=np.uint8)
+    frames = [img, img[::-1].copy()]
+    with ImageWriter() as writer:
+        writer.png(tmp_path / "a.png", img, {"k": "v"})
+        writer.gif(tmp_path / "a.gif", frames, 50, {"k": "v"})
+        writer.call(write_png, tmp_path / "b.png", img[:, ::-1].copy())
+    write_png(tmp_path / "c.png", img, {"k": "v"})
+    write_gif(tmp_path / "c.gif", frames, 50, {"k": "v"})
+    assert (tmp_path / "a.png").read_bytes() == (tmp_path / "c.png").read_bytes()
+    assert (tmp_path / "a.gif").read_bytes() == (tmp_path / "c.gif").read_bytes()
+    assert np.array_equal(iio.imread(tmp_path / "b.png"), img[:, ::-1])
+    writer = ImageWriter()
+    writer.png(tmp_path / "bad.png", img.astype(np.float32))
+    writer.png(tmp_path / "d.png", img)
+    with pytest.raises(ValueError, match="uint8 or uint16"):
+        writer.wait()
+    writer.close()
+    assert (tmp_path / "d.png").is_file() and not (tmp_path / "bad.png").exists()

@@ -35,6 +35,7 @@ from __future__ import annotations
 import json
 import math
 from collections.abc import Mapping, Sequence
+from concurrent.futures import Future
 from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
@@ -83,6 +84,7 @@ __all__ = [
     "CAUTIONS",
     "LUMINANCE_LEGEND",
     "SETUP_KEYS",
+    "WIPE_WIDTH_PX",
     "ComparisonResult",
     "calculation_absent_reason",
     "calculation_json",
@@ -315,7 +317,13 @@ def side_by_side(before: np.ndarray, after: np.ndarray, before_label: str, after
     return np.concatenate([_caption(before, before_label), gap, _caption(after, after_label)], axis=1)
 
 
-def wipe_frames(before: np.ndarray, after: np.ndarray, n: int = 16, max_width_px: int = 480) -> list[np.ndarray]:
+#: Width of the wipe animations, px (wider views are scaled down to it).
+WIPE_WIDTH_PX = 480
+
+
+def wipe_frames(
+    before: np.ndarray, after: np.ndarray, n: int = 16, max_width_px: int = WIPE_WIDTH_PX
+) -> list[np.ndarray]:
     """Frames of a wipe from before to after and back, with a white divider; images wider than
     ``max_width_px`` are first scaled down to that width (:func:`render.output.images.fit_width`:
     anti-aliased, in linear light), which keeps the GIF small and quick to write."""
@@ -774,6 +782,71 @@ def _calculation(
     )
 
 
+def _write_option_pictures(
+    side_path: Path,
+    wipe_path: Path,
+    before: np.ndarray,
+    before_small: np.ndarray,
+    after: np.ndarray,
+    labels: tuple[str, str],
+    side_text: Mapping[str, str],
+    wipe_text: Mapping[str, str],
+) -> Path:
+    """An option's side-by-side image and wipe (``before_small``: the before image already at
+    the wipe's width); runs on a writer thread."""
+    from render.output.images import write_gif, write_png
+
+    write_png(side_path, side_by_side(before, after, *labels), side_text)
+    return write_gif(wipe_path, wipe_frames(before_small, after), text=wipe_text)
+
+
+def _write_luminance_maps(
+    paths: Sequence[Path],
+    texts: Sequence[Mapping[str, str]],
+    luminances_cd_m2: Sequence[np.ndarray],
+    lo_cd_m2: float,
+    hi_cd_m2: float,
+) -> Path:
+    """A view's luminance maps on the report's scale; runs on a writer thread."""
+    from render.output.images import write_png
+
+    for path, text, lm in zip(paths, texts, luminance_maps(luminances_cd_m2, lo_cd_m2, hi_cd_m2), strict=True):
+        write_png(path, lm, text)
+    return paths[-1]
+
+
+class _ReportImages:
+    """The report's compact copies of the images written so far: each group of files (a
+    view's images, its luminance maps, the legend) is handed to the report's
+    :class:`~render.output.report.images.ImageFolder` once the writer has finished it, so that
+    its encodings run while later work goes on (``None`` folder: no report)."""
+
+    def __init__(self, out: Path | None) -> None:
+        from render.output.report.images import ImageFolder
+
+        self.folder = ImageFolder(out) if out is not None else None
+        self._waiting: list[tuple[list[Future], list[str]]] = []
+
+    def add(self, futures: list[Future], relpaths: Sequence[str]) -> None:
+        """Files ``relpaths`` (relative to the output folder), being written by ``futures``."""
+        if self.folder is not None:
+            self._waiting.append((futures, list(relpaths)))
+
+    def hand_over(self, wait: bool = False) -> None:
+        """Hand the groups whose files are written (every group with ``wait``) to the folder;
+        a writer's error is raised here."""
+        still = []
+        for futures, relpaths in self._waiting:
+            if wait or all(f.done() for f in futures):
+                for f in futures:
+                    f.result()
+                for rel in relpaths:
+                    self.folder.get(rel)
+            else:
+                still.append((futures, relpaths))
+        self._waiting = still
+
+
 @dataclass(frozen=True)
 class ComparisonResult:
     """What :func:`run_comparison` made: the output folder, the figures (also in
@@ -813,7 +886,7 @@ def run_comparison(
     from render.analysis.view_colours import pixel_object_ids
     from render.colour.lamp_figures import LampFigures, lamp_figures
     from render.colour.lamps import get_lamp
-    from render.output.images import CHART, PICTURE_KEY, RENDERED, write_gif, write_png
+    from render.output.images import CHART, PICTURE_KEY, RENDERED, ImageWriter, fit_width
     from render.study import Study
 
     study = scene if isinstance(scene, Study) else Study(scene)
@@ -850,79 +923,123 @@ def run_comparison(
     # the colour analysis' folder, "calculation" the calculation's.
     folders = dict(zip(view_names, unique_stems(view_names, frozenset({"colours", CALCULATION_FOLDER}))))
     pending: list[tuple[ViewImages, list[dict[str, str]], list[np.ndarray]]] = []
-    for name in view_names:
-        vdir = out / folders[name]
-        vdir.mkdir(exist_ok=True)
-        rb = study.render_view(name, setups[0], samples_per_pixel=spp, width_px=width_px, progress=progress)
-        rendered = [rb, *(study.relight(rb, s, progress=progress) for s in setups[1:])]
-        if descriptions is None:
-            descriptions = {k: setup_description(s, r.lights, scene) for k, s, r in zip(keys, setups, rendered)}
-        camera = rb.camera
-        shared, adapted = study.display_both(rendered, observer)
-        images = ViewImages.in_folder(vdir.name, keys)
+    # Image files are encoded and written on threads while the next view renders (the same
+    # bytes whenever they are written); the report's compact copies of the views' images are
+    # encoded while the colour and calculation figures are drawn.
+    writer = ImageWriter()
+    report_images = _ReportImages(out if report else None)
+    try:
+        for name in view_names:
+            report_images.hand_over()
+            vdir = out / folders[name]
+            vdir.mkdir(exist_ok=True)
+            rb = study.render_view(name, setups[0], samples_per_pixel=spp, width_px=width_px, progress=progress)
+            rendered = [rb, *(study.relight(rb, s, progress=progress) for s in setups[1:])]
+            if descriptions is None:
+                descriptions = {k: setup_description(s, r.lights, scene) for k, s, r in zip(keys, setups, rendered)}
+            camera = rb.camera
+            shared, adapted = study.display_both(rendered, observer)
+            images = ViewImages.in_folder(vdir.name, keys)
 
-        def meta(r: RenderedView, mode: str) -> dict[str, str]:
-            m = image_metadata(study, r, mode, observer, seed, spp)
-            m["lampcast.comparison"] = compared
-            m[PICTURE_KEY] = RENDERED
-            return m
+            def meta(r: RenderedView, mode: str) -> dict[str, str]:
+                m = image_metadata(study, r, mode, observer, seed, spp)
+                m["lampcast.comparison"] = compared
+                m[PICTURE_KEY] = RENDERED
+                return m
 
-        # The luminance maps wait for every view: their scale is one for the whole report.
-        pending.append(
-            (images, [meta(r, "photometric") for r in rendered], [r.colorimetry.luminance_cd_m2 for r in rendered])
-        )
-        for key, r, sh, ad in zip(keys, rendered, shared, adapted):
-            write_png(out / images.shared[key], sh.srgb8, sh.png_text(meta(r, "shared")))
-            write_png(out / images.adapted[key], ad.srgb8, ad.png_text(meta(r, "adapted")))
-        word = "after" if len(setups) == 2 else "option"
-        for key, s, r, sh in zip(keys[1:], setups[1:], rendered[1:], shared[1:]):
-            sbs = side_by_side(shared[0].srgb8, sh.srgb8, f"before: {setups[0].name}", f"{word}: {s.name}")
-            write_png(out / images.side_by_side[key], sbs, meta(r, "shared side by side"))
-            write_gif(out / images.wipe[key], wipe_frames(shared[0].srgb8, sh.srgb8), text=meta(r, "shared wipe"))
-        if analyse:
-            colour_views.offer(study, name, rendered, shared)
-        view_metrics.append(
-            ViewMetrics(
-                name=name,
-                notes=scene.view(name).notes,
-                images=images,
-                luminance_cd_m2={k: luminance_stats(r) for k, r in zip(keys, rendered)},
-                # Photopic adaptation luminance of the observer (CIE TN 007 field, see render.vision.adaptation).
-                adaptation_cd_m2=AdaptationLevels(
-                    published(shared[0].state.photopic_cd_m2),
-                    {k: published(a.state.photopic_cd_m2) for k, a in zip(keys, adapted)},
-                ),
-                mesopic_adaptation_cd_m2=AdaptationLevels(
-                    published(shared[0].state.mesopic_cd_m2),
-                    {k: published(a.state.mesopic_cd_m2) for k, a in zip(keys, adapted)},
-                ),
-                regions=region_luminance(
-                    pixel_object_ids(rb.buffers),
-                    regions,
-                    {k: r.colorimetry.luminance_cd_m2 for k, r in zip(keys, rendered)},
-                ),
+            # The luminance maps wait for every view: their scale is one for the whole report.
+            pending.append(
+                (images, [meta(r, "photometric") for r in rendered], [r.colorimetry.luminance_cd_m2 for r in rendered])
             )
-        )
-    lo, hi = luminance_scale([y for *_, ys in pending for y in ys])
-    scale_text = {"lampcast.luminance_scale_cd_m2": f"{lo:g} to {hi:g}"}
-    for images, metas, ys in pending:
-        for key, m, lm in zip(keys, metas, luminance_maps(ys, lo, hi)):
-            write_png(out / images.luminance[key], lm, {**m, **scale_text})
-    legend_text = {
-        **pending[0][1][0],
-        "lampcast.mode": "photometric legend",
-        "lampcast.setup": compared,
-        **scale_text,
-        PICTURE_KEY: CHART,
-    }
-    legend_text.pop("lampcast.view", None)  # one legend for every view
-    write_png(out / LUMINANCE_LEGEND, luminance_legend(pending[0][2][0].shape[0], lo, hi), legend_text)
-    del pending
-    sections = tuple(extra_sections)
-    colours = None
-    if analyse:
-        section, colours = _colour_analysis(study, setups, observer, colour_views, out)
-        sections += (section,)
+            written = []
+            for key, r, sh, ad in zip(keys, rendered, shared, adapted):
+                written.append(writer.png(out / images.shared[key], sh.srgb8, sh.png_text(meta(r, "shared"))))
+                written.append(writer.png(out / images.adapted[key], ad.srgb8, ad.png_text(meta(r, "adapted"))))
+            word = "after" if len(setups) == 2 else "option"
+            before_small = fit_width(shared[0].srgb8, WIPE_WIDTH_PX)
+            for key, s, r, sh in zip(keys[1:], setups[1:], rendered[1:], shared[1:]):
+                written.append(
+                    writer.call(
+                        _write_option_pictures,
+                        out / images.side_by_side[key],
+                        out / images.wipe[key],
+                        shared[0].srgb8,
+                        before_small,
+                        sh.srgb8,
+                        (f"before: {setups[0].name}", f"{word}: {s.name}"),
+                        meta(r, "shared side by side"),
+                        meta(r, "shared wipe"),
+                    )
+                )
+            report_images.add(
+                written,
+                [
+                    *images.shared.values(),
+                    *images.adapted.values(),
+                    *images.side_by_side.values(),
+                    *images.wipe.values(),
+                ],
+            )
+            if analyse:
+                colour_views.offer(study, name, rendered, shared)
+            view_metrics.append(
+                ViewMetrics(
+                    name=name,
+                    notes=scene.view(name).notes,
+                    images=images,
+                    luminance_cd_m2={k: luminance_stats(r) for k, r in zip(keys, rendered)},
+                    # Photopic adaptation luminance of the observer (CIE TN 007 field, see render.vision.adaptation).
+                    adaptation_cd_m2=AdaptationLevels(
+                        published(shared[0].state.photopic_cd_m2),
+                        {k: published(a.state.photopic_cd_m2) for k, a in zip(keys, adapted)},
+                    ),
+                    mesopic_adaptation_cd_m2=AdaptationLevels(
+                        published(shared[0].state.mesopic_cd_m2),
+                        {k: published(a.state.mesopic_cd_m2) for k, a in zip(keys, adapted)},
+                    ),
+                    regions=region_luminance(
+                        pixel_object_ids(rb.buffers),
+                        regions,
+                        {k: r.colorimetry.luminance_cd_m2 for k, r in zip(keys, rendered)},
+                    ),
+                )
+            )
+            del rendered, shared, adapted, rb
+        lo, hi = luminance_scale([y for *_, ys in pending for y in ys])
+        scale_text = {"lampcast.luminance_scale_cd_m2": f"{lo:g} to {hi:g}"}
+        for images, metas, ys in pending:
+            maps = writer.call(
+                _write_luminance_maps,
+                [out / images.luminance[key] for key in keys],
+                [{**m, **scale_text} for m in metas],
+                ys,
+                lo,
+                hi,
+            )
+            report_images.add([maps], [images.luminance[key] for key in keys])
+        legend_text = {
+            **pending[0][1][0],
+            "lampcast.mode": "photometric legend",
+            "lampcast.setup": compared,
+            **scale_text,
+            PICTURE_KEY: CHART,
+        }
+        legend_text.pop("lampcast.view", None)  # one legend for every view
+        legend = writer.png(out / LUMINANCE_LEGEND, luminance_legend(pending[0][2][0].shape[0], lo, hi), legend_text)
+        report_images.add([legend], [LUMINANCE_LEGEND])
+        del pending
+        report_images.hand_over()
+        sections = tuple(extra_sections)
+        colours = None
+        if analyse:
+            section, colours = _colour_analysis(study, setups, observer, colour_views, out)
+            sections += (section,)
+            report_images.add([], section.images)  # written already
+        del colour_views
+        report_images.hand_over(wait=True)
+        writer.wait()
+    finally:
+        writer.close()
     calc = None
     if calculation:
         calc_text = {"lampcast.scene_sha256": study.scene_sha256, "lampcast.comparison": compared}
@@ -956,5 +1073,5 @@ def run_comparison(
     if report:
         from render.output.report import write_report
 
-        report_path = write_report(out, metrics)
+        report_path = write_report(out, metrics, images=report_images.folder)
     return ComparisonResult(out, metrics, report_path)

@@ -87,13 +87,14 @@ def render_report(metrics: ComparisonMetrics, out_dir: Path, images: ImageFolder
     return template_environment().get_template(_TEMPLATE).render(page=page, css=css, js=js, csp=csp)
 
 
-def write_report(out_dir: Path, metrics: ComparisonMetrics) -> Path:
+def write_report(out_dir: Path, metrics: ComparisonMetrics, images: ImageFolder | None = None) -> Path:
     """Write ``out_dir/report.html`` (atomically) from the comparison's ``metrics``; return its path.
 
     The image paths in ``metrics`` are relative to ``out_dir`` and are embedded as data URIs,
     compactly (:func:`render.output.report.images.compact_image`); the files stay as they are.
-    The same metrics and images give byte-identical output. To make the report again from a
-    ``metrics.json``, pass ``ComparisonMetrics.from_json(json.load(file))``.
+    ``images``: an :class:`ImageFolder` of ``out_dir`` already asked for some of them (their
+    encodings under way). The same metrics and images give byte-identical output. To make the
+    report again from a ``metrics.json``, pass ``ComparisonMetrics.from_json(json.load(file))``.
     """
     out_dir = Path(out_dir)
-    return atomic_write_text(out_dir / REPORT_NAME, render_report(metrics, out_dir))
+    return atomic_write_text(out_dir / REPORT_NAME, render_report(metrics, out_dir, images))
