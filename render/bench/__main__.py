@@ -6,6 +6,7 @@
 * ``report`` -- report.html's size, bytes per embedded image kind, figure drawing time (:mod:`render.bench.report`).
 * ``peer`` -- a direct-light render against Mitsuba 3, side by side (:mod:`render.bench.peer`).
 * ``study`` -- design-study throughput on 1 and 2 Dask workers (:mod:`render.bench.study`).
+* ``demo`` -- the whole ``lampcast demo``, warm, optionally against another tree (:mod:`render.bench.demo`).
 * ``startup`` -- quick commands as new processes, a 1M-triangle OBJ, a cold demo (:mod:`render.bench.startup`).
 * ``vision`` -- the vision stage of a comparison, glare optics shared vs per image (:mod:`render.bench.vision`).
 """
@@ -15,7 +16,7 @@ from __future__ import annotations
 import argparse
 import sys
 
-from render.bench import calc, light, peer, rays, report, startup
+from render.bench import calc, demo, light, peer, rays, report, startup
 from render.bench import study as study_bench
 from render.bench import vision as vision_bench
 
@@ -30,6 +31,7 @@ def build_parser() -> argparse.ArgumentParser:
     peer.add_parser(sub)
     study_bench.add_parser(sub)
     startup.add_parser(sub)
+    demo.add_parser(sub)
     vision_bench.add_parser(sub)
     return parser
 
