@@ -548,6 +548,21 @@ def _shared_states(
     retinas: Sequence[Retina],
 ) -> tuple[list[_adaptation.AdaptationState], list[_adaptation.AdaptationState]]:
     """Each view's state in the shared display, and its own (adapted) state."""
+    own = [
+        measure_adaptation(r[0], r[1], g, observer, exclusion_mask(b, observer), b)
+        for b, g, r in zip(buffers_list, view_geometries, retinas)
+    ]
+    return _shared_from_own(buffers_list, view_geometries, observer, retinas, own), own
+
+
+def _shared_from_own(
+    buffers_list: Sequence[ViewLight],
+    view_geometries: Sequence[ViewGeometry],
+    observer: ObserverSettings,
+    retinas: Sequence[Retina],
+    own: Sequence[_adaptation.AdaptationState],
+) -> list[_adaptation.AdaptationState]:
+    """Each view's state in the shared display, given each view's own (adapted) state."""
     first = buffers_list[0]
     state = _adaptation.shared_adaptation_state(
         [(r[0], r[1], g, exclusion_mask(b, observer)) for r, g, b in zip(retinas, view_geometries, buffers_list)],
@@ -559,12 +574,7 @@ def _shared_states(
     )
     # One luminance adaptation for all views; each keeps the colour of its own light as its
     # adapting white (an observer in each street adapts to that street's light).
-    own = [
-        measure_adaptation(r[0], r[1], g, observer, exclusion_mask(b, observer), b)
-        for b, g, r in zip(buffers_list, view_geometries, retinas)
-    ]
-    shared = [replace(state, white_xyz=o.white_xyz, white_sp_ratio=o.white_sp_ratio) for o in own]
-    return shared, own
+    return [replace(state, white_xyz=o.white_xyz, white_sp_ratio=o.white_sp_ratio) for o in own]
 
 
 def _views_and_retinas(buffers_list, view_geometries, observer, retinas, workers):
@@ -607,13 +617,48 @@ def shared_and_adapted(
 ) -> tuple[list[DisplayResult], list[DisplayResult]]:
     """``(shared, adapted)``: :func:`shared_display` of the views and each view in ``adapted``
     mode (:func:`render_display`), the same images, made from one retina per view and the
-    same adaptation measurements; ``workers`` threads (module text)."""
-    geoms, observer, retinas = _views_and_retinas(buffers_list, view_geometries, observer, retinas, workers)
-    shared_states, own_states = _shared_states(buffers_list, geoms, observer, retinas)
-    items = [
-        (b, g, observer, st, r, mode, None)
-        for mode, states in (("shared", shared_states), ("adapted", own_states))
-        for b, g, r, st in zip(buffers_list, geoms, retinas, states)
-    ]
-    maps = _each(_map_with_state, items, workers)
-    return maps[: len(buffers_list)], maps[len(buffers_list) :]
+    same adaptation measurements; ``workers`` threads (module text). With several threads the
+    work is queued as it becomes possible: each image's adapted display as soon as its retina
+    and its own adaptation state are made, the shared displays once every retina is (the
+    shared state needs them all), so the threads do not wait for the slowest retina."""
+    observer = observer or ObserverSettings()
+    if isinstance(view_geometries, ViewGeometry):
+        view_geometries = [view_geometries] * len(buffers_list)
+    geoms = list(view_geometries)
+    if len(geoms) != len(buffers_list):
+        raise ValueError("one view geometry per buffer set")
+    if workers <= 1 or len(buffers_list) <= 1:
+        geoms, observer, retinas = _views_and_retinas(buffers_list, geoms, observer, retinas, workers)
+        shared_states, own_states = _shared_states(buffers_list, geoms, observer, retinas)
+        items = [
+            (b, g, observer, st, r, mode, None)
+            for mode, states in (("shared", shared_states), ("adapted", own_states))
+            for b, g, r, st in zip(buffers_list, geoms, retinas, states)
+        ]
+        maps = _each(_map_with_state, items, workers)
+        return maps[: len(buffers_list)], maps[len(buffers_list) :]
+    optics: dict[ViewGeometry, _glare.GlareOptics | None] = {}
+    for b, g in zip(buffers_list, geoms, strict=True):
+        b.check(g)
+        if retinas is None and g not in optics:
+            optics[g] = glare_optics(g, observer)
+
+    def retina_and_own(k: int) -> tuple[Retina, _adaptation.AdaptationState]:
+        b, g = buffers_list[k], geoms[k]
+        r = retinas[k] if retinas is not None else retinal_image(b, g, observer, optics[g])
+        return r, measure_adaptation(r[0], r[1], g, observer, exclusion_mask(b, observer), b)
+
+    with ThreadPoolExecutor(max_workers=int(workers)) as pool:
+        first = [pool.submit(retina_and_own, k) for k in range(len(buffers_list))]
+        made: list[tuple[Retina, _adaptation.AdaptationState]] = []
+        adapted = []
+        for k, f in enumerate(first):
+            r, own = f.result()
+            made.append((r, own))
+            adapted.append(pool.submit(_map_with_state, buffers_list[k], geoms[k], observer, own, r, "adapted", None))
+        shared_states = _shared_from_own(buffers_list, geoms, observer, [r for r, _ in made], [o for _, o in made])
+        shared = [
+            pool.submit(_map_with_state, b, g, observer, st, r, "shared", None)
+            for b, g, st, (r, _) in zip(buffers_list, geoms, shared_states, made)
+        ]
+        return [f.result() for f in shared], [f.result() for f in adapted]
