@@ -7,13 +7,16 @@ are in :mod:`render.geometry.shapes`. Mistakes in the file raise
 (``scale``, ``up_axis``) raise :class:`ValueError`.
 
 An ordinary file (printable ASCII, no continued lines, every face reference written the same
-way, no mistake) is read all at once with numpy (``_read_fast``: a million triangles in about a
-second); anything else, and every file with a mistake, is read statement by statement
+way, no mistake) is read all at once with numpy and the compiled passes of
+:mod:`render.geometry.objfaces` (``_read_fast``: the numbers of ``v``, ``vn`` and ``vt``
+statements and the face references each in one pass over the bytes; a million triangles in
+about a second); anything else, and every file with a mistake, is read statement by statement
 (``_read_statements``), which names the line of each mistake. Both give the same arrays, bit
 for bit (``tests/test_objfile_whole.py``).
 
 Against hostile files: the file is read as a size-capped regular file
-(:func:`render.fileio.read_user_text`, kind "OBJ file"); reading is linear in its size
+(:func:`render.fileio.read_user_bytes`, kind "OBJ file"; plain ASCII is its own text, anything
+else is read as UTF-8 by :func:`render.fileio.read_user_text`); reading is linear in its size
 (continued lines are joined once, vertices and face references are kept in flat arrays); the
 vertices, triangles and vertices per face are counted against :mod:`render.limits` as they are
 read; every coordinate after scaling is finite and within
