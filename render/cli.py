@@ -551,9 +551,12 @@ def cmd_calc(args: argparse.Namespace) -> int:
         raise input_error("command line", "--age", f"expected an age in years from 0 to 120, got {args.age}")
     study = _study(args)
     scene = study.scene
-    if args.q0 is not None and args.r_table is None and (scene.street is None or scene.street.r_table_file is None):
+    sections = ([scene.street] if scene.street is not None else []) + [road.section for road in scene.roads]
+    if args.q0 is not None and args.r_table is None and all(s.r_table_file is None for s in sections):
         raise input_error(
-            "command line", "--q0", "--q0 scales an r-table: give --r-table FILE (or [street] r_table in the scene)"
+            "command line",
+            "--q0",
+            "--q0 scales an r-table: give --r-table FILE (or r_table in the scene's [street] or [[roads]])",
         )
     if args.classes is not None and args.lighting_class is None and scene.calc.lighting_class is None:
         raise input_error("command line", "--classes", "a class file is used with --class NAME")

@@ -142,3 +142,44 @@ def test_pictures_option_writes_the_three_pngs(tmp_path, capsys):
     assert files == ["figures.png", "grid-illuminance.png", "isolux.png"]
     for name in files:
         assert (out / name).read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+def test_q0_scales_a_road_s_own_r_table(tmp_path, capsys):
+    # A scene with no [street], its r-table given on a road: --q0 is accepted and, as above,
+    # scales luminance in proportion (CIE 140 convention, memory).
+    table = tmp_path / "r.csv"
+    table.write_text("scale,0.0001\nq0,0.07\ntan_gamma,0,180\n0,300,200\n12,100,50\n", encoding="utf-8")
+    scene = tmp_path / "road.toml"
+    scene.write_text(
+        """
+[[roads]]
+name = "main"
+points_m = [[0.0, 0.0], [120.0, 0.0]]
+carriageway_width_m = 7.0
+r_table = "r.csv"
+
+[[luminaire_rows]]
+road = "main"
+start_m = 30.0
+spacing_m = 30.0
+count = 3
+mounting_height_m = 8.0
+photometry = "generic-road-asymmetric"
+lamp = "led-4000k-cie-b3"
+lumens = 10000.0
+column = false
+
+[[views]]
+name = "v"
+position_m = [1.0, -1.0]
+target_m = [30.0, 0.0, 0.0]
+resolution = [32, 18]
+""",
+        encoding="utf-8",
+    )
+    runs = [_run_json(capsys, ["calc", str(scene), "--q0", str(q0), "--json", "-q"]) for q0 in (0.07, 0.14)]
+    one, two = (r["setups"][0] for r in runs)
+    assert one["luminance_model"] == "r-table"
+    for a, b in zip(one["luminance"], two["luminance"], strict=True):
+        assert a["mean_cd_m2"] > 0
+        assert b["mean_cd_m2"] == pytest.approx(2.0 * a["mean_cd_m2"], rel=1e-12)

@@ -107,3 +107,59 @@ def test_scene_without_street_says_why(tmp_path):
     assert "no [street]" in section.text()
     assert not [n for n in section.iter() if n.tag in ("img", "table")]
     assert not (out / "calculation").exists()
+
+
+#: A road turning left round a 60 m arc with a row of two isotropic luminaires along it, no [street].
+_ROAD_SCENE = """
+[scene]
+name = "row along a bend"
+
+[[roads]]
+name = "bend"
+points_m = [[0.0, 0.0], [100.0, 0.0], [100.0, 100.0]]
+corner_radius_m = 60.0
+carriageway_width_m = 7.0
+
+[[luminaire_rows]]
+road = "bend"
+start_m = 50.0
+spacing_m = 30.0
+count = 2
+mounting_height_m = 8.0
+setback_m = 0.5
+outreach_m = 0.5
+photometry = "generic-isotropic"
+lamp = "led-4000k-cie-b3"
+lumens = 10000.0
+column = false
+
+[[views]]
+name = "v"
+position_m = [1.0, -1.0]
+target_m = [30.0, 0.0, 0.0]
+resolution = [32, 18]
+
+[setups.full]
+dimming = 1.0
+
+[setups.dimmed]
+dimming = 0.5
+"""
+
+
+def test_a_row_along_a_road_is_calculated_in_the_comparison(tmp_path):
+    # The comparison's record must be the project's calculation of the same setups (fields laid
+    # along the bend: tests/test_calc_on_roads.py ties them to analytic circle geometry and the
+    # inverse-square law), not the "no [street]" notice.
+    scene = tmp_path / "bend.toml"
+    scene.write_text(_ROAD_SCENE, encoding="utf-8")
+    out = tmp_path / "out"
+    run_comparison(scene, "full", "dimmed", None, out, samples_per_pixel=1, progress=False, colour=False)
+    metrics = json.loads((out / "metrics.json").read_text(encoding="utf-8"))
+    assert "absent" not in metrics["calculation"]
+    study = Study(scene)
+    setups = [parse_setup("full", study.scene, "--before"), parse_setup("dimmed", study.scene, "--after")]
+    direct = json.loads(json.dumps(run_calculation(study, setups).to_json()))
+    assert {k: metrics["calculation"][k] for k in direct} == direct
+    means = [s["fields"][0]["mean_lx"] for s in direct["setups"]]
+    assert means[1] == pytest.approx(0.5 * means[0], rel=1e-9)

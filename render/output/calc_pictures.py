@@ -208,7 +208,12 @@ def isolux_plan(
         )
         ax.set_ylabel("y across (m)", fontsize=8)
         ax.tick_params(labelsize=7)
-    axes[-1].set_xlabel("x along the street (m)", fontsize=8)
+    axes[-1].set_xlabel(
+        "x along the street (m)"
+        if first.road is None
+        else f"distance along the road '{first.road}' (m), the road drawn straight; y across it",
+        fontsize=8,
+    )
     handles = [
         Line2D(
             [], [], linestyle="none", marker="o", markerfacecolor="black", markeredgecolor="white", label="luminaire"

@@ -692,12 +692,16 @@ def _comparison_text(setups: Sequence[Setup]) -> str:
 
 
 def calculation_absent_reason(scene: Scene) -> str | None:
-    """Why the comparison cannot calculate ``scene`` (no ``[street]``, no luminaire row, fewer
-    than two luminaires in the first row), or ``None`` when it can."""
-    from render.calc.fields import row_positions
+    """Why the comparison cannot calculate ``scene`` (neither a ``[street]`` nor a first
+    luminaire row along a road, no luminaire row, fewer than two luminaires in the first row),
+    or ``None`` when it can."""
+    from render.calc.fields import row_positions, row_road
 
-    if scene.street is None:
-        return "Not calculated: the scene has no [street], on which the calculation fields lie."
+    if scene.street is None and row_road(scene) is None:
+        return (
+            "Not calculated: the scene has no [street] and no first luminaire row along a road, "
+            "on which the calculation fields lie."
+        )
     try:
         n = len(row_positions(scene))
     except InputError:
