@@ -253,7 +253,7 @@ def test_lightness_names_of_neutral_munsell_chips():
 # ----------------------------------------------------------- end to end through a rendered scene
 
 
-def test_pairs_reach_colours_json_metrics_json_and_the_report(tmp_path):
+def test_pairs_reach_colours_json_metrics_json_and_the_report(tmp_path, monkeypatch):
     # Source: the definitions (module texts of render.analysis.colours and render.output.metrics)
     # and the CIE 191 / TN 007 adaptation of render.vision: a comparison of a small rendered
     # scene (a van and a bin in two views) writes each pair's multiple of threshold and verdict
@@ -265,6 +265,10 @@ def test_pairs_reach_colours_json_metrics_json_and_the_report(tmp_path):
     from render.output.comparison import run_comparison
     from render.output.metrics import ComparisonMetrics
 
+    def measured_again(*args, **kwargs):
+        raise AssertionError("the comparison passes the adapted images' states; nothing is measured again")
+
+    monkeypatch.setattr("render.analysis.view_colours.own_adaptation_state", measured_again)
     scene = write_two_objects_scene(tmp_path)
     out = tmp_path / "cmp"
     result = run_comparison(scene, "old", "new", None, out, progress=False)

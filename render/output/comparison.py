@@ -985,7 +985,7 @@ def run_comparison(
                 ],
             )
             if analyse:
-                colour_views.offer(study, name, rendered, shared)
+                colour_views.offer(study, name, rendered, shared, adapted)
             view_metrics.append(
                 ViewMetrics(
                     name=name,
