@@ -169,7 +169,10 @@ def trace_paths(
 
     Writes ``out`` (rows, C, n_nodes): the mean over a row's paths of the node values of
     E_ind/π·T per channel (rows are items, or samples with ``per_sample``), and ``out_paths``
-    (rows,) the number of paths averaged."""
+    (rows,) the number of paths averaged. An item's row weighs each start sample alike (as the
+    response tables do) and, where its samples see several materials, each path's transport by
+    its sample's reflectance over the samples' mean reflectance ρ̄(λ), so that ρ̄·(the row) is
+    the mean of ρ_s·T_s over the samples, exactly at 1 nm."""
     wb, wi, tv, ti = tree
     rot, pos, scale, table, c_grid, g_grid, n_c, n_g, inv_c, inv_g, cd, channel, clearance = lum
     box, cell, gnx, gny, cell_start, cell_items = grid
@@ -201,6 +204,31 @@ def trace_paths(
         acc = np.zeros((rows, C, N))
         count = np.zeros(rows, np.int64)
         beta = np.empty(N)
+        # Each valid start sample stands for 1/nv of the item, as it does in the response
+        # tables (which apply each sample's own reflectance): what a path from sample v adds is
+        # weighted by n_paths / (nv_used · paths of v), and, where the samples see several
+        # materials, by ρ_v(λ) / ρ̄(λ) (ρ̄ the samples' mean reflectance), so that ρ̄ times the
+        # item's mean transport is the mean over samples of ρ_v·T_v, exactly at 1 nm. (Not in
+        # the throughput: Russian roulette decides as it would for the sample alone.)
+        used = min(nv, n_paths)
+        mixed = False
+        for v_ in range(1, nv):
+            if material[s0 + valid[v_]] != material[s0 + valid[0]]:
+                mixed = True
+        start = np.ones((nv, N))
+        if not per_sample:
+            mean = np.zeros(N)
+            if mixed:
+                for v_ in range(nv):
+                    k0 = material[s0 + valid[v_]]
+                    for n in range(N):
+                        mean[n] += rho[k0, n] / nv
+            for v_ in range(used):
+                f = n_paths / (used * (n_paths // used + (1 if v_ < n_paths % used else 0)))
+                k0 = material[s0 + valid[v_]]
+                for n in range(N):
+                    ratio = rho[k0, n] / mean[n] if mixed and mean[n] > 0.0 else 1.0
+                    start[v_, n] = f * ratio
         e_cand = np.empty(max(n_lum, 1))
         st_node = np.empty(max(STACK_SIZE, wide_stack), np.int64)
         st_t = np.empty(wide_stack)
@@ -209,7 +237,8 @@ def trace_paths(
         d = np.empty(3)
         gid = item_id[g]
         for i in range(n_paths):
-            s = valid[i % nv]
+            first = i % used
+            s = valid[first]
             a = s if per_sample else 0
             count[a] += 1
             idx = s0 + s
@@ -294,7 +323,7 @@ def trace_paths(
                             v *= 1.0 - fresnel_one(gx * lx + gy * ly + gz * lz, f0[k])
                         ch = channel[kk]
                         for n in range(N):
-                            acc[a, ch, n] += beta[n] * v
+                            acc[a, ch, n] += beta[n] * start[first, n] * v
                 if b >= max_bounces:
                     break
                 if b >= rr_first:

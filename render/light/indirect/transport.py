@@ -72,12 +72,6 @@ __all__ = [
 #: Spacing of the stored transport's nodes, nm (81 nodes over 380-780 nm).
 NODE_STEP_NM = 5
 
-#: Ways the transport can be laid out in memory (rows of the stored array): one row per pixel
-#: (what views keep), per camera sample, or per 2 × 2 block of pixels (for the measurements).
-LAYOUT_PIXEL = 0
-LAYOUT_SAMPLE = 1
-LAYOUT_BLOCK = 2
-
 
 @dataclass(frozen=True)
 class TransportBasis:
@@ -170,45 +164,30 @@ def half_table() -> np.ndarray:
     return table
 
 
-@numba.njit(cache=True, nogil=True, inline="always")
-def _row(layout, p, s, width, spp):
-    """Row of the stored transport that sample ``s`` of pixel ``p`` reads."""
-    if layout == LAYOUT_SAMPLE:
-        return p * spp + s
-    if layout == LAYOUT_BLOCK:
-        x = p % width
-        y = p // width
-        return (y // 2) * ((width + 1) // 2) + x // 2
-    return p
-
-
 @numba.njit(cache=True, nogil=True, parallel=True)
-def _resolve_kernel(response, n_materials, spp, width, layout, bits, half, scale, factors, lamp_of_channel, table, out):
+def _resolve_kernel(response, n_materials, spp, bits, half, scale, factors, lamp_of_channel, table, out):
     """out[p, :] += Σ over the pixel's samples seeing a surface of material k, over channels c
-    and nodes j: factor_c · stored[row, c, j] · Q[k, lamp_c, j, :] / spp. Samples of a pixel
-    that read the same row and see the same material are gathered first (usually one group)."""
+    and nodes j: factor_c · stored[p, c, j] · Q[k, lamp_c, j, :] / spp. Samples of a pixel
+    that see the same material are gathered first (usually one group)."""
     n_pix = out.shape[0]
     C = bits.shape[1]
     n = bits.shape[2]
     inv = 1.0 / spp
     for p in prange(n_pix):
         mats = np.empty(spp, np.int64)
-        rows = np.empty(spp, np.int64)
         counts = np.zeros(spp)
         g = 0
         for s in range(spp):
             k = response[p * spp + s]
             if k < 0 or k >= n_materials:
                 continue
-            r = _row(layout, p, s, width, spp)
             found = -1
             for q in range(g):
-                if mats[q] == k and rows[q] == r:
+                if mats[q] == k:
                     found = q
                     break
             if found < 0:
                 mats[g] = k
-                rows[g] = r
                 counts[g] = 1.0
                 g += 1
             else:
@@ -219,8 +198,7 @@ def _resolve_kernel(response, n_materials, spp, width, layout, bits, half, scale
         a3 = 0.0
         for q in range(g):
             k = mats[q]
-            r = rows[q]
-            w = counts[q] * inv * scale[r]
+            w = counts[q] * inv * scale[p]
             if w == 0.0:
                 continue
             for c in range(C):
@@ -229,7 +207,7 @@ def _resolve_kernel(response, n_materials, spp, width, layout, bits, half, scale
                     continue
                 l = lamp_of_channel[c]
                 for j in range(n):
-                    v = half[bits[r, c, j]]
+                    v = half[bits[p, c, j]]
                     if v == 0.0:
                         continue
                     v *= f
@@ -246,8 +224,6 @@ def _resolve_kernel(response, n_materials, spp, width, layout, bits, half, scale
 def resolve_transport(
     response: np.ndarray,
     spp: int,
-    width_px: int,
-    layout: int,
     values: np.ndarray,
     scale: np.ndarray,
     factors: ArrayLike,
@@ -258,16 +234,14 @@ def resolve_transport(
     """Add the interreflected X, Y, Z, Y' of every pixel to ``out`` (n_pix, 4).
 
     ``response`` (S,) the camera samples' materials (values outside ``table``'s materials --
-    nothing seen, a luminous opening -- get none); ``values`` (rows, C, n_nodes) float16 node
-    values relative to ``scale`` (rows,); ``table`` from :func:`transport_table`."""
+    nothing seen, a luminous opening -- get none); ``values`` (n_pix, C, n_nodes) float16 node
+    values relative to ``scale`` (n_pix,); ``table`` from :func:`transport_table`."""
     if values.dtype != np.float16:
         raise TypeError("the stored transport is float16")
     _resolve_kernel(
         np.ascontiguousarray(response, np.int32),
         int(table.shape[0]),
         int(spp),
-        int(width_px),
-        int(layout),
         np.ascontiguousarray(values).view(np.uint16),
         half_table(),
         np.ascontiguousarray(scale, np.float64),

@@ -10,10 +10,13 @@ per-pixel scale: :class:`IndirectBuffers`, 162 bytes per pixel and channel plus 
 channel, to be added to the direct light's (a relight casts no ray).
 
 Per pixel rather than per camera sample: the paths of a pixel start on its camera samples in
-turn and their mean transport is applied to each sample's own material. This is exact where a
-pixel's samples see one material and, at edges between materials, mixes their transports; the
-error of that and of the other layouts is measured by ``python -m render.bench indirect
---storage`` (stated in DEVELOPERS.md).
+turn and their mean transport is applied to each sample's own material. Where a pixel's
+samples see several materials (edges), each path is weighted by its sample's reflectance over
+the pixel's mean reflectance, so that the result is the mean of each sample's reflectance
+times its own transport, exactly on the 1 nm grid; what remains is the node representation of
+that weighted mean. The errors of this and of other layouts (a plain per-pixel mean, 2 × 2
+blocks, per camera sample) are measured by ``python -m render.bench indirect --storage``
+(stated in DEVELOPERS.md).
 
 :func:`transport_at_points` is the same tracing at arbitrary surface points (the checks, and
 calculations that include interreflected light).
@@ -36,9 +39,6 @@ from numpy.typing import ArrayLike
 from render.geometry.mesh import TriangleMesh, face_normals
 from render.light.indirect.paths import RR_FIRST_BOUNCE, trace_paths
 from render.light.indirect.transport import (
-    LAYOUT_BLOCK,
-    LAYOUT_PIXEL,
-    LAYOUT_SAMPLE,
     NODE_STEP_NM,
     TransportBasis,
     lamp_indices,
@@ -82,8 +82,6 @@ _KEY_SALT = np.uint64(0xA5C3_96E1_D2B4_F078)
 # Pixels per parallel work item handed to a thread at a time.
 _CHUNK_PIXELS = 16
 
-_LAYOUTS = {"pixel": LAYOUT_PIXEL, "sample": LAYOUT_SAMPLE, "block": LAYOUT_BLOCK}
-
 
 @dataclass(frozen=True)
 class IndirectSettings:
@@ -105,15 +103,13 @@ class IndirectSettings:
 class IndirectBuffers:
     """A view's interreflected transport, at full output per light channel.
 
-    ``values`` (rows, C, n_nodes) float16 node values of E_ind/π·T (cd/m² per unit transport)
-    relative to ``scale`` (rows,) float32; ``paths`` (rows,) the paths averaged in each row;
-    rows are pixels (``layout`` "pixel"), camera samples ("sample") or 2 × 2 pixel blocks
-    ("block", row-major over ⌈W/2⌉ columns)."""
+    ``values`` (n_pix, C, n_nodes) float16 node values of E_ind/π·T (cd/m² per unit
+    transport) relative to ``scale`` (n_pix,) float32 (a pixel's largest value); ``paths``
+    (n_pix,) the paths averaged in each pixel; ``spp`` the view's camera samples per pixel."""
 
     width_px: int
     height_px: int
     spp: int
-    layout: str
     settings: IndirectSettings
     values: np.ndarray
     scale: np.ndarray
@@ -124,14 +120,6 @@ class IndirectBuffers:
     def nbytes(self) -> int:
         """Bytes held by the stored transport."""
         return int(self.values.nbytes + self.scale.nbytes + self.paths.nbytes)
-
-
-def _rows(layout: str, width: int, height: int, spp: int) -> int:
-    if layout == "sample":
-        return width * height * spp
-    if layout == "block":
-        return ((width + 1) // 2) * ((height + 1) // 2)
-    return width * height
 
 
 class PathTracer:
@@ -255,47 +243,26 @@ def trace_view(
     settings: IndirectSettings,
     seed: int,
     *,
-    layout: str = "pixel",
     negligible_lx: float = NEGLIGIBLE_LX,
     progress: bool = False,
 ) -> IndirectBuffers:
-    """The view's interreflected transport (see the module text); ``buffers`` from
+    """The view's interreflected transport per pixel (see the module text); ``buffers`` from
     :func:`render.light.integrator.render_buffers` or :func:`~render.light.integrator.cast_view`
     with the same ``lights``."""
-    if layout not in _LAYOUTS:
-        raise ValueError(f"layout must be one of {sorted(_LAYOUTS)}, got {layout!r}")
     mesh = buffers.rays.mesh if buffers.rays is not None else None
     if mesh is None:
         raise ValueError("these light buffers do not keep how to cast their camera samples")
     W, H, spp = buffers.width_px, buffers.height_px, buffers.spp
     tracer = PathTracer(mesh, bvh, lights, reflectances, settings, negligible_lx=negligible_lx)
     C, n = lights.n_channels, tracer.basis.n_nodes
-    rows = _rows(layout, W, H, spp)
-    values = np.zeros((rows, C, n), np.float16)
-    scale = np.zeros(rows, np.float32)
-    paths = np.zeros(rows, np.int32)
-    per_sample = layout == "sample"
-    for index, moments, count in view_transport_tiles(buffers, tracer, seed, per_sample=per_sample, progress=progress):
-        if layout == "sample":
-            where = index
-        else:
-            where = index[::spp] // spp
-        if layout == "block":
-            x, y = where % W, where // W
-            block = (y // 2) * ((W + 1) // 2) + x // 2
-            # Tiles hold whole 4-row bands, so a block's pixels are all in one tile.
-            ids, inverse = np.unique(block, return_inverse=True)
-            sums = np.zeros((ids.size, C, n))
-            np.add.at(sums, inverse, moments * count[:, None, None])
-            total = np.bincount(inverse, weights=count, minlength=ids.size)
-            moments = sums / np.maximum(total, 1)[:, None, None]
-            count = total.astype(np.int64)
-            where = ids
-        v, s = pack_rows(moments)
-        values[where] = v
-        scale[where] = s
-        paths[where] = count
-    return IndirectBuffers(W, H, spp, layout, settings, values, scale, paths, list(lights.channels))
+    values = np.zeros((W * H, C, n), np.float16)
+    scale = np.zeros(W * H, np.float32)
+    paths = np.zeros(W * H, np.int32)
+    for index, moments, count in view_transport_tiles(buffers, tracer, seed, progress=progress):
+        pixel = index[::spp] // spp
+        values[pixel], scale[pixel] = pack_rows(moments)
+        paths[pixel] = count
+    return IndirectBuffers(W, H, spp, settings, values, scale, paths, list(lights.channels))
 
 
 def indirect_xyz(
@@ -317,8 +284,6 @@ def indirect_xyz(
     resolve_transport(
         response,
         indirect.spp,
-        indirect.width_px,
-        _LAYOUTS[indirect.layout],
         indirect.values,
         indirect.scale,
         factors,
