@@ -22,80 +22,15 @@ generic source of ``scenes/tests/point_over_plane.toml`` (10 000 lm, its intensi
 from __future__ import annotations
 
 import math
-from dataclasses import replace
-from pathlib import Path
 
 import numpy as np
 import pytest
+from indirect_scenes import FLUX_LM, box_faces_inside, grid_on_rectangle, isotropic_source, mesh_of, reflectance
 
-from render.colour.materials import material_library
 from render.geometry import shapes
-from render.geometry.mesh import TriangleMesh
 from render.light.indirect import IndirectSettings, PathTracer, transport_at_points
 from render.light.integrator import direct_illuminance_lx
-from render.light.luminaires import luminaire_set
 from render.rays.bvh import build_bvh, intersect_closest
-from render.scene import load_scene
-
-SCENES = Path(__file__).resolve().parents[1] / "scenes" / "tests"
-FLUX_LM = 10000.0
-
-
-def _lights(position_m):
-    scene = load_scene(SCENES / "point_over_plane.toml")
-    scene.luminaires = [replace(scene.luminaires[0], position_m=tuple(float(x) for x in position_m))]
-    return luminaire_set(scene)
-
-
-def _mesh(parts_by_material: list[list[shapes.Part]], names: list[str]) -> TriangleMesh:
-    tris, nrms, mats = [], [], []
-    for k, parts in enumerate(parts_by_material):
-        for p in parts:
-            tris.append(p.triangles_m)
-            nrms.append(p.normals)
-            mats.append(np.full(len(p.triangles_m), k, np.int32))
-    tri = np.concatenate(tris)
-    return TriangleMesh(tri, np.concatenate(nrms), np.concatenate(mats), np.zeros(len(tri), np.int32), names, ["x"])
-
-
-def _reflectance(name: str) -> np.ndarray:
-    return material_library()[name].reflectance
-
-
-def _grid_on_rectangle(origin, e1, e2, n1, n2, normal):
-    """Midpoints of an n1 × n2 grid on the rectangle origin + [0, 1]·e1 + [0, 1]·e2, each with
-    its cell area, and the given unit normal."""
-    u = (np.arange(n1) + 0.5) / n1
-    v = (np.arange(n2) + 0.5) / n2
-    uu, vv = np.meshgrid(u, v, indexing="ij")
-    pts = (
-        np.asarray(origin, float)
-        + uu.reshape(-1, 1) * np.asarray(e1, float)
-        + vv.reshape(-1, 1) * np.asarray(e2, float)
-    )
-    area = np.linalg.norm(np.cross(e1, e2)) / (n1 * n2)
-    return pts, np.full(len(pts), area), np.tile(np.asarray(normal, float), (len(pts), 1))
-
-
-def _box_faces_inside(lo, hi, n):
-    """Grid points on the six inner faces of the box [lo, hi], normals pointing inward."""
-    lo, hi = np.asarray(lo, float), np.asarray(hi, float)
-    size = hi - lo
-    out = []
-    for axis in range(3):
-        a, b = [i for i in range(3) if i != axis]
-        e1 = np.zeros(3)
-        e1[a] = size[a]
-        e2 = np.zeros(3)
-        e2[b] = size[b]
-        for side, sign in ((lo, 1.0), (hi, -1.0)):
-            origin = lo.copy()
-            origin[axis] = side[axis]
-            normal = np.zeros(3)
-            normal[axis] = sign
-            out.append(_grid_on_rectangle(origin, e1, e2, n, n, normal))
-    return tuple(np.concatenate(x) for x in zip(*out))
-
 
 # ------------------------------------------------------------------------------------------
 # Integrating sphere
@@ -106,15 +41,15 @@ def _box_faces_inside(lo, hi, n):
 def sphere():
     centre = np.array([0.0, 0.0, 5.0])
     parts = shapes.sphere(centre, 2.0, subdivisions=5)
-    mesh = _mesh([parts], ["wall"])
-    rho = _reflectance("object-yellow")[None]  # 0.05 to 0.80 across the visible range
+    mesh = mesh_of([parts], ["wall"])
+    rho = reflectance("object-yellow")[None]  # 0.05 to 0.80 across the visible range
     rng = np.random.default_rng(3)
     tri = mesh.triangles_m[rng.choice(mesh.n_triangles, 240, replace=False)]
     w = rng.dirichlet(np.ones(3), len(tri))
     pts = np.einsum("tv,tvc->tc", w, tri)
     inward = centre - pts
     inward /= np.linalg.norm(inward, axis=1, keepdims=True)
-    return mesh, build_bvh(mesh.triangles_m), _lights(centre), rho, pts, inward, shapes.surface_area_m2(parts)
+    return mesh, build_bvh(mesh.triangles_m), isotropic_source(centre), rho, pts, inward, shapes.surface_area_m2(parts)
 
 
 def _sphere_indirect_lx(sphere, bounces, paths, step_nm=5, seed=1):
@@ -187,11 +122,11 @@ def test_closed_box_conserves_energy():
     # nodes, so the balance holds bin by bin). Quadrature on a 12 × 12 grid per face; the
     # direct part's own quadrature (∫E_dir dA = Φ) bounds the grid's error.
     lo, hi = (-2.0, -3.0, 3.0), (3.0, 2.0, 8.0)
-    mesh = _mesh([shapes.box(min_m=lo, max_m=hi)], ["wall"])
+    mesh = mesh_of([shapes.box(min_m=lo, max_m=hi)], ["wall"])
     bvh = build_bvh(mesh.triangles_m)
-    lights = _lights((0.0, 0.0, 5.0))
-    rho = _reflectance("object-yellow")
-    pts, area, nrm = _box_faces_inside(lo, hi, 12)
+    lights = isotropic_source((0.0, 0.0, 5.0))
+    rho = reflectance("object-yellow")
+    pts, area, nrm = box_faces_inside(lo, hi, 12)
     e_dir = direct_illuminance_lx(pts, nrm, lights, bvh)[:, 0]
     quad_err = abs(float(e_dir @ area) / FLUX_LM - 1.0)
     assert quad_err < 0.01
@@ -239,15 +174,15 @@ def test_open_scene_energy_balance():
     floor = shapes.box(min_m=(-4.0, -4.0, -0.2), max_m=(4.0, 4.0, 0.0))
     wall_a = shapes.box(min_m=(-4.0, 4.0, -0.2), max_m=(4.0, 4.2, 4.0))
     wall_b = shapes.box(min_m=(-4.2, -4.0, -0.2), max_m=(-4.0, 4.2, 4.0))
-    mesh = _mesh([floor, wall_a + wall_b], ["floor", "wall"])
+    mesh = mesh_of([floor, wall_a + wall_b], ["floor", "wall"])
     bvh = build_bvh(mesh.triangles_m)
     source = np.array([0.0, 0.0, 3.0])
-    lights = _lights(source)
-    rho = np.vstack([_reflectance("concrete-paving-light"), _reflectance("object-yellow")])
+    lights = isotropic_source(source)
+    rho = np.vstack([reflectance("concrete-paving-light"), reflectance("object-yellow")])
     grids = [
-        _grid_on_rectangle((-4, -4, 0), (8, 0, 0), (0, 8, 0), 16, 16, (0, 0, 1)),
-        _grid_on_rectangle((-4, 4, 0), (8, 0, 0), (0, 0, 4), 16, 8, (0, -1, 0)),
-        _grid_on_rectangle((-4, -4, 0), (0, 8, 0), (0, 0, 4), 16, 8, (1, 0, 0)),
+        grid_on_rectangle((-4, -4, 0), (8, 0, 0), (0, 8, 0), 16, 16, (0, 0, 1)),
+        grid_on_rectangle((-4, 4, 0), (8, 0, 0), (0, 0, 4), 16, 8, (0, -1, 0)),
+        grid_on_rectangle((-4, -4, 0), (0, 8, 0), (0, 0, 4), 16, 8, (1, 0, 0)),
     ]
     pts, area, nrm = (np.concatenate(x) for x in zip(*grids))
     mat = np.concatenate([np.zeros(256, np.int32), np.ones(256, np.int32)])
@@ -288,10 +223,10 @@ def _floor_beside_wall(wall: str, bounces: int) -> tuple[np.ndarray, np.ndarray,
     0.5 m from a 5 m wall of material ``wall``, lit from above; and the reflectances."""
     floor = shapes.box(min_m=(-6.0, -6.0, -0.2), max_m=(6.0, 6.0, 0.0))
     side = shapes.box(min_m=(-6.0, 1.0, 0.0), max_m=(6.0, 1.2, 5.0))
-    mesh = _mesh([floor, side], ["object-white", wall])
+    mesh = mesh_of([floor, side], ["object-white", wall])
     bvh = build_bvh(mesh.triangles_m)
-    lights = _lights((0.0, -0.5, 4.0))
-    rho = np.vstack([_reflectance("object-white"), _reflectance(wall)])
+    lights = isotropic_source((0.0, -0.5, 4.0))
+    rho = np.vstack([reflectance("object-white"), reflectance(wall)])
     pts = np.array([[0.0, 0.5, 0.0], [1.0, 0.5, 0.0], [-1.0, 0.5, 0.0]])
     up = np.tile([0.0, 0.0, 1.0], (len(pts), 1))
     e_dir = direct_illuminance_lx(pts, up, lights, bvh)[:, 0]
@@ -335,13 +270,13 @@ def test_shadow_is_not_black_with_bounces():
     # lit floor around it (and none without bounces: the stored values then do not exist).
     floor = shapes.box(min_m=(-6.0, -6.0, -0.2), max_m=(6.0, 6.0, 0.0))
     block = shapes.box(min_m=(-0.5, -0.5, 1.0), max_m=(0.5, 0.5, 2.0))
-    mesh = _mesh([floor, block], ["object-white", "object-white"])
+    mesh = mesh_of([floor, block], ["object-white", "object-white"])
     bvh = build_bvh(mesh.triangles_m)
-    lights = _lights((0.0, 0.0, 4.0))
+    lights = isotropic_source((0.0, 0.0, 4.0))
     pt = np.array([[0.0, 0.0, 0.0]])
     up = np.array([[0.0, 0.0, 1.0]])
     assert direct_illuminance_lx(pt, up, lights, bvh)[0, 0] == 0.0
-    rho = np.vstack([_reflectance("object-white")] * 2)
+    rho = np.vstack([reflectance("object-white")] * 2)
     m, _ = transport_at_points(pt, up, [0], PathTracer(mesh, bvh, lights, rho, IndirectSettings(2, 256)), 1)
     assert np.all(m[0, 0] > 0.0)
 
