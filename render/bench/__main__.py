@@ -2,6 +2,7 @@
 
 * ``rays`` -- BVH build time and ray throughput, with an Embree comparison (:mod:`render.bench.rays`).
 * ``light`` -- full render vs relight, luminaire-count scaling, 1 nm vs 5 nm (:mod:`render.bench.light`).
+* ``indirect`` -- interreflection: time per path per pixel, 10 vs 100 luminaires, stored-transport errors (:mod:`render.bench.indirect`).
 * ``calc`` -- a full calculation of a scene vs one view's render (:mod:`render.bench.calc`).
 * ``report`` -- report.html's size, bytes per embedded image kind, figure drawing time (:mod:`render.bench.report`).
 * ``peer`` -- a direct-light render against Mitsuba 3, side by side (:mod:`render.bench.peer`).
@@ -16,7 +17,7 @@ from __future__ import annotations
 import argparse
 import sys
 
-from render.bench import calc, demo, light, peer, rays, report, startup
+from render.bench import calc, demo, indirect, light, peer, rays, report, startup
 from render.bench import study as study_bench
 from render.bench import vision as vision_bench
 
@@ -26,6 +27,7 @@ def build_parser() -> argparse.ArgumentParser:
     sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
     rays.add_parser(sub)
     light.add_parser(sub)
+    indirect.add_parser(sub)
     calc.add_parser(sub)
     report.add_parser(sub)
     peer.add_parser(sub)
