@@ -68,7 +68,14 @@ def test_every_built_in_lamp_has_its_colour_science_figures_stored():
     for lamp in builtin_lamps().values():
         stored = stored_lamp_figures(lamp.spd)
         assert stored is not None, f"{lamp.id}: run tools/make_colour_tables.py"
-        assert stored == computed_lamp_figures(lamp.spd), lamp.id
+        computed = computed_lamp_figures(lamp.spd)
+        assert stored[1:] == computed[1:], lamp.id
+        # colour-science's figures differ in their last digits between numpy/scipy builds and
+        # processors (up to ~1e-9 relative seen, in the nearly degenerate fits of line
+        # spectra); the stored values must agree far below any printed precision.
+        assert stored[0].keys() == computed[0].keys(), lamp.id
+        for key, value in stored[0].items():
+            assert value == pytest.approx(computed[0][key], rel=1e-7, abs=1e-12), (lamp.id, key)
 
 
 def test_a_changed_spectrum_is_computed_afresh():
