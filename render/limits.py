@@ -26,6 +26,7 @@ from render.errors import input_error
 
 __all__ = [
     "FILE_SIZE_LIMITS_BYTES",
+    "MAX_BOUNCES",
     "MAX_CAMERA_SAMPLES",
     "MAX_COORDINATE_M",
     "MAX_EULUMDAT_ANGLES",
@@ -59,6 +60,9 @@ MAX_IMAGE_SIDE_PX = 8192
 
 MAX_SAMPLES_PER_PIXEL = 4096
 """Camera samples per pixel (scene ``render.samples_per_pixel``, ``--spp``)."""
+
+MAX_BOUNCES = 64
+"""Interreflections a path may have (scene ``render.bounces``)."""
 
 MAX_CAMERA_SAMPLES = 2**31 - 1
 """Camera samples of one view (width × height × samples per pixel): sample indices are int32."""
@@ -180,13 +184,23 @@ _BYTES_PER_SAMPLE = 160
 _BYTES_PER_SAMPLE_CHANNEL = 16
 # Peak bytes per pixel of the vision stage (float64 X, Y, Z, Y' and glare grids).
 _BYTES_PER_PIXEL_VISION = 600
+# Bytes per pixel and light channel of the stored interreflected transport (81 float16 node
+# values, render.light.indirect), and per pixel (its float32 scale and int32 path count).
+_BYTES_PER_PIXEL_CHANNEL_INDIRECT = 162
+_BYTES_PER_PIXEL_INDIRECT = 8
 
 
-def render_memory_estimate(width_px: int, height_px: int, spp: int, n_channels: int) -> MemoryEstimate:
-    """An upper estimate of one view's peak memory (camera samples, light buffers, vision)."""
+def render_memory_estimate(
+    width_px: int, height_px: int, spp: int, n_channels: int, indirect: bool = False
+) -> MemoryEstimate:
+    """An upper estimate of one view's peak memory (camera samples, light buffers, vision, and
+    with ``indirect`` the interreflected transport)."""
     samples = int(width_px) * int(height_px) * int(spp)
     total = samples * (_BYTES_PER_SAMPLE + _BYTES_PER_SAMPLE_CHANNEL * max(1, int(n_channels)))
     total += int(width_px) * int(height_px) * _BYTES_PER_PIXEL_VISION
+    if indirect:
+        per_pixel = _BYTES_PER_PIXEL_INDIRECT + _BYTES_PER_PIXEL_CHANNEL_INDIRECT * max(1, int(n_channels))
+        total += int(width_px) * int(height_px) * per_pixel
     return MemoryEstimate(
         total, f"{width_px}×{height_px} pixels at {spp} samples per pixel, {n_channels} light channels"
     )
@@ -205,9 +219,12 @@ def check_memory(estimate: MemoryEstimate, source: str | Path, where: str, avail
         )
 
 
-def check_render_size(width_px: int, height_px: int, spp: int, n_channels: int, source: str | Path, where: str) -> None:
+def check_render_size(
+    width_px: int, height_px: int, spp: int, n_channels: int, source: str | Path, where: str, indirect: bool = False
+) -> None:
     """Refuse, before any allocation, a view larger than the limits or than the memory available:
-    an :class:`InputError` naming ``where`` (the view, or the ``--width``/``--spp`` options)."""
+    an :class:`InputError` naming ``where`` (the view, or the ``--width``/``--spp`` options);
+    ``indirect``: the view keeps interreflected light too."""
     for value, limit, what in (
         (width_px, MAX_IMAGE_SIDE_PX, "the image width in pixels"),
         (height_px, MAX_IMAGE_SIDE_PX, "the image height in pixels"),
@@ -216,4 +233,4 @@ def check_render_size(width_px: int, height_px: int, spp: int, n_channels: int, 
         check_count(value, limit, source, where, what, minimum=1)
     samples = int(width_px) * int(height_px) * int(spp)
     check_count(samples, MAX_CAMERA_SAMPLES, source, where, "the number of camera samples of the view", minimum=1)
-    check_memory(render_memory_estimate(width_px, height_px, spp, n_channels), source, where)
+    check_memory(render_memory_estimate(width_px, height_px, spp, n_channels, indirect), source, where)

@@ -49,6 +49,7 @@ from render.scene.model import Setup
 if TYPE_CHECKING:
     from render.colour.materials import Material
     from render.geometry.mesh import TriangleMesh
+    from render.light.indirect import IndirectSettings
     from render.rays.bvh import BVH
     from render.rays.cameras import Camera
     from render.vision.observer import ObserverSettings
@@ -184,9 +185,44 @@ class Study:
     def colorimetry(
         self, buffers: LightBuffers, lights: LuminaireSet, setup: str | Setup | None = None
     ) -> ViewColorimetry:
-        """Absolute colorimetry of kept buffers under ``setup``'s lamps, lumens and dimming."""
+        """Absolute colorimetry of kept buffers under ``setup``'s lamps, lumens and dimming,
+        with the interreflected light where the buffers keep it (``buffers.indirect``)."""
         factors, lamps = channel_factors(lights, self.setup(setup))
-        return resolve(buffers, factors, self.lamp_spds(lamps), self.reflectances)
+        spds = self.lamp_spds(lamps)
+        out = resolve(buffers, factors, spds, self.reflectances)
+        if buffers.indirect is not None:
+            from render.light.indirect import indirect_xyz
+
+            extra = indirect_xyz(buffers.indirect, buffers.response, factors, spds, self.reflectances)
+            out.xyz_cd_m2 += extra[..., :3]
+            out.scotopic_cd_m2 += extra[..., 3]
+        return out
+
+    def indirect_settings(self, bounces: int | None = None) -> IndirectSettings | None:
+        """How the scene's renders trace interreflected light (``[render] bounces`` and
+        ``indirect_samples_per_pixel``; ``bounces`` overrides), or None for direct light only."""
+        from render.light.indirect import IndirectSettings
+
+        n = self.scene.render.bounces if bounces is None else int(bounces)
+        if n <= 0:
+            return None
+        return IndirectSettings(bounces=n, samples_per_pixel=self.scene.render.indirect_samples_per_pixel)
+
+    def _trace_indirect(
+        self, buffers: LightBuffers, lights: LuminaireSet, settings: IndirectSettings, seed: int, progress: bool
+    ) -> None:
+        from render.light.indirect import trace_view
+
+        buffers.indirect = trace_view(
+            buffers,
+            lights,
+            self.bvh,
+            self.reflectances,
+            settings,
+            seed,
+            negligible_lx=self.negligible_lx,
+            progress=progress,
+        )
 
     def render_view(
         self,
@@ -196,9 +232,12 @@ class Study:
         samples_per_pixel: int | None = None,
         seed: int | None = None,
         width_px: int | None = None,
+        bounces: int | None = None,
         progress: bool = False,
     ) -> RenderedView:
-        """Cast the view's camera rays, evaluate the light of ``setup`` and resolve colorimetry."""
+        """Cast the view's camera rays, evaluate the light of ``setup`` (and, with bounces,
+        trace its interreflected light) and resolve colorimetry. ``bounces`` overrides the
+        scene's ``[render] bounces`` (0: direct light only)."""
         v = self.scene.view(view)
         camera = self.camera(v.name, width_px)
         spp = samples_per_pixel or self.scene.render.samples_per_pixel
@@ -206,7 +245,10 @@ class Study:
         s = self.setup(setup)
         lights = self.lights(s)
         where = f"view {v.name!r}" + (" with --width/--spp" if width_px or samples_per_pixel else "")
-        check_render_size(camera.width_px, camera.height_px, spp, lights.n_channels, self.scene.path, where)
+        indirect = self.indirect_settings(bounces)
+        check_render_size(
+            camera.width_px, camera.height_px, spp, lights.n_channels, self.scene.path, where, indirect is not None
+        )
         road = view_road_shading(self.scene, v, self.mesh, self.reflectances)
         buffers = render_buffers(
             self.mesh,
@@ -219,19 +261,25 @@ class Study:
             negligible_lx=self.negligible_lx,
             progress=progress,
         )
+        if indirect is not None:
+            self._trace_indirect(buffers, lights, indirect, seed, progress)
         return RenderedView(
             v.name, s.name if s else None, camera, buffers, lights, self.colorimetry(buffers, lights, s)
         )
 
     def relight(self, rendered: RenderedView, setup: str | Setup | None, *, progress: bool = False) -> RenderedView:
         """The same view under another setup. Lamps, lumens and dimming are applied to the kept
-        buffers without any ray; a changed photometric distribution re-evaluates the light at
-        the same hit points (the camera samples cast again, tile by tile, with shadow rays)."""
+        buffers (and interreflected light) without any ray; a changed photometric distribution
+        re-evaluates the light at the same hit points (the camera samples cast again, tile by
+        tile, with shadow rays) and traces the interreflected light again."""
         s = self.setup(setup)
         if needs_new_evaluation(rendered.lights, s):
             lights = self.lights(s)
             buffers = LightBuffers(**{**rendered.buffers.__dict__})
             evaluate_light(buffers, lights, self.bvh, negligible_lx=self.negligible_lx, progress=progress)
+            kept = rendered.buffers.indirect
+            if kept is not None:
+                self._trace_indirect(buffers, lights, kept.settings, kept.seed, progress)
         else:
             lights, buffers = rendered.lights, rendered.buffers
         return RenderedView(

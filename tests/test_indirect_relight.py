@@ -20,6 +20,8 @@ values the relight reuses: their only difference from the exact result is the st
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import numba
 import numpy as np
 import pytest
@@ -161,3 +163,88 @@ def test_view_bits_independent_of_tiles_and_threads(demo_view, monkeypatch):
     assert np.array_equal(again.scale, traced[5].scale)
     other = trace_view(rendered.buffers, rendered.lights, study.bvh, study.reflectances, settings, seed=3)
     assert not np.array_equal(other.values.view(np.uint16), traced[5].values.view(np.uint16))
+
+
+# ------------------------------------------------------------------------------------------
+# In renders: the scene's [render] bounces
+# ------------------------------------------------------------------------------------------
+
+
+def _demo_with_bounces(bounces: int) -> Study:
+    from render.scene import load_scene
+
+    scene = load_scene(demo_scene_path())
+    scene.render.bounces = bounces
+    scene.render.indirect_samples_per_pixel = 4
+    return Study(scene)
+
+
+def test_bounces_off_leaves_direct_light_unchanged():
+    # With bounces off the view is what the direct light alone gives (render_buffers and
+    # resolve, the code before interreflection), to the bit; with bounces on its direct part is
+    # the same and the image differs from it by exactly the interreflected term (to 1e-6).
+    from render.light.luminaires import channel_factors
+
+    off = _demo_with_bounces(0)
+    assert off.scene.render.bounces == 0
+    view_off = off.render_view(None, "sodium", width_px=64, samples_per_pixel=2)
+    assert view_off.buffers.indirect is None
+    lights = off.lights("sodium")
+    alone = integrator.render_buffers(off.mesh, off.bvh, lights, view_off.camera, 2, off.scene.render.seed)
+    factors, lamps = channel_factors(lights, off.setup("sodium"))
+    before = resolve(alone, factors, off.lamp_spds(lamps), off.reflectances)
+    assert np.array_equal(view_off.colorimetry.xyz_cd_m2, before.xyz_cd_m2)
+    assert np.array_equal(view_off.colorimetry.scotopic_cd_m2, before.scotopic_cd_m2)
+
+    on = _demo_with_bounces(2)
+    view_on = on.render_view(None, "sodium", width_px=64, samples_per_pixel=2)
+    assert view_on.buffers.indirect is not None
+    assert np.array_equal(view_on.buffers.value_cd_m2, view_off.buffers.value_cd_m2)
+    extra = indirect_xyz(
+        view_on.buffers.indirect, view_on.buffers.response, factors, on.lamp_spds(lamps), on.reflectances
+    )
+    assert extra[..., 1].max() > 0.0
+    np.testing.assert_allclose(view_on.colorimetry.xyz_cd_m2 - extra[..., :3], before.xyz_cd_m2, rtol=1e-6, atol=1e-12)
+    # The keyword overrides the scene: bounces=0 gives the direct light alone.
+    again = on.render_view(None, "sodium", width_px=64, samples_per_pixel=2, bounces=0)
+    assert np.array_equal(again.colorimetry.xyz_cd_m2, before.xyz_cd_m2)
+
+
+def test_relight_equals_fresh_render_with_interreflection():
+    # A new lamp: the relit view equals a render afresh with it (the paths do not depend on the
+    # lamp). A new photometric distribution: the relight traces the interreflection again and
+    # equals a render afresh too. (Lumens or dimming changed per group alter the luminaires'
+    # relative importance, hence the paths: equal only in expectation.)
+    from render.scene.model import GroupSetting, Setup
+
+    study = _demo_with_bounces(2)
+    first = study.render_view(None, "sodium", width_px=64, samples_per_pixel=2)
+    lamp = Setup("led", "", {"*": GroupSetting(lamp="led-4000k-cie-b3")})
+    relit = study.relight(first, lamp)
+    fresh = study.render_view(None, lamp, width_px=64, samples_per_pixel=2)
+    np.testing.assert_allclose(relit.colorimetry.xyz_cd_m2, fresh.colorimetry.xyz_cd_m2, rtol=1e-12, atol=1e-15)
+    optic = Setup("optic", "", {"*": GroupSetting(photometry="generic-full-cutoff")})
+    relit = study.relight(first, optic)
+    fresh = study.render_view(None, optic, width_px=64, samples_per_pixel=2)
+    assert relit.buffers.indirect is not first.buffers.indirect
+    assert np.array_equal(relit.buffers.indirect.values, fresh.buffers.indirect.values)
+    np.testing.assert_allclose(relit.colorimetry.xyz_cd_m2, fresh.colorimetry.xyz_cd_m2, rtol=1e-12, atol=1e-15)
+
+
+def test_render_keys_of_interreflection(tmp_path):
+    # [render] bounces and indirect_samples_per_pixel: read with their defaults (off, 8 paths),
+    # bounded by render.limits (a mistake names the key).
+    from render.errors import InputError
+    from render.limits import MAX_BOUNCES
+    from render.scene import load_scene
+
+    text = (Path(__file__).resolve().parents[1] / "scenes" / "tests" / "point_over_plane.toml").read_text("utf-8")
+    assert load_scene(demo_scene_path()).render.bounces == 0
+    path = tmp_path / "on.toml"
+    path.write_text(text.replace("[render]\n", "[render]\nbounces = 3\nindirect_samples_per_pixel = 16\n"), "utf-8")
+    render = load_scene(path).render
+    assert (render.bounces, render.indirect_samples_per_pixel) == (3, 16)
+    for bad, key in ((f"bounces = {MAX_BOUNCES + 1}", "bounces"), ("indirect_samples_per_pixel = 0", "indirect")):
+        path.write_text(text.replace("[render]\n", f"[render]\n{bad}\n"), "utf-8")
+        with pytest.raises(InputError, match=key):
+            load_scene(path)

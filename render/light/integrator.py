@@ -80,6 +80,7 @@ from render.rays.bvh.single import any_one
 from render.rays.bvh.slab import valid_ray
 
 if TYPE_CHECKING:
+    from render.light.indirect import IndirectBuffers
     from render.light.rtable import RoadShading
     from render.rays.cameras import Camera
 
@@ -922,6 +923,8 @@ class LightBuffers:
     geometry : the samples' :class:`SampleGeometry` when kept (:func:`cast_view` keeps it;
         :func:`render_buffers` does not, and :meth:`sample_geometry` casts it on request).
         ``point_m``, ``normal``, ``geo_normal`` and ``direction`` read it.
+    indirect : the view's interreflected light per pixel and channel
+        (:class:`render.light.indirect.IndirectBuffers`), or None for direct light only.
     """
 
     width_px: int
@@ -938,6 +941,7 @@ class LightBuffers:
     road: RoadShading | None = None
     rays: ViewRays | None = None
     geometry: SampleGeometry | None = None
+    indirect: IndirectBuffers | None = None
 
     @property
     def emitter_response(self) -> int:

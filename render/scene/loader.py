@@ -32,6 +32,7 @@ from render import limits
 from render.errors import InputError, ProblemList, did_you_mean
 from render.fileio import looks_like_path
 from render.limits import (
+    MAX_BOUNCES,
     MAX_COORDINATE_M,
     MAX_GENERATED_LUMINAIRES,
     MAX_IMAGE_SIDE_PX,
@@ -344,6 +345,10 @@ VIEW_SPEC = {
 RENDER_SPEC = {
     "samples_per_pixel": Field("int", default=4, min=1, max=MAX_SAMPLES_PER_PIXEL),
     "seed": Field("int", default=0, min=0, max=2**32 - 1),
+    "bounces": Field("int", default=0, min=0, max=MAX_BOUNCES, help="interreflections per path; 0: direct light only"),
+    "indirect_samples_per_pixel": Field(
+        "int", default=8, min=1, max=MAX_SAMPLES_PER_PIXEL, help="interreflection paths per pixel"
+    ),
 }
 
 
@@ -1680,7 +1685,7 @@ def check_scene_mesh(path: str | os.PathLike, *, strict_paths: bool = False) -> 
     n_channels = light_channel_count(scene)
     for i, view in enumerate(scene.views):
         estimate = limits.render_memory_estimate(
-            view.width_px, view.height_px, scene.render.samples_per_pixel, n_channels
+            view.width_px, view.height_px, scene.render.samples_per_pixel, n_channels, scene.render.bounces > 0
         )
         try:
             limits.check_memory(estimate, scene.path, f"views[{i}].resolution")

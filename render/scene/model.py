@@ -218,10 +218,14 @@ class View:
 
 @dataclass
 class RenderSettings:
-    """Camera samples per pixel and the random seed of the scene's renders."""
+    """Camera samples per pixel, the random seed, and interreflected light of the scene's
+    renders: ``bounces`` interreflections at most per path (0: direct light only),
+    ``indirect_samples_per_pixel`` paths per pixel (:mod:`render.light.indirect`)."""
 
     samples_per_pixel: int = 4
     seed: int = 0
+    bounces: int = 0
+    indirect_samples_per_pixel: int = 8
 
 
 @dataclass

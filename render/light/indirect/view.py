@@ -105,12 +105,14 @@ class IndirectBuffers:
 
     ``values`` (n_pix, C, n_nodes) float16 node values of E_ind/π·T (cd/m² per unit
     transport) relative to ``scale`` (n_pix,) float32 (a pixel's largest value); ``paths``
-    (n_pix,) the paths averaged in each pixel; ``spp`` the view's camera samples per pixel."""
+    (n_pix,) the paths averaged in each pixel; ``spp`` the view's camera samples per pixel;
+    ``settings`` and ``seed`` how the paths were traced."""
 
     width_px: int
     height_px: int
     spp: int
     settings: IndirectSettings
+    seed: int
     values: np.ndarray
     scale: np.ndarray
     paths: np.ndarray
@@ -262,7 +264,7 @@ def trace_view(
         pixel = index[::spp] // spp
         values[pixel], scale[pixel] = pack_rows(moments)
         paths[pixel] = count
-    return IndirectBuffers(W, H, spp, settings, values, scale, paths, list(lights.channels))
+    return IndirectBuffers(W, H, spp, settings, int(seed), values, scale, paths, list(lights.channels))
 
 
 def indirect_xyz(
