@@ -74,6 +74,8 @@ RR_FIRST_BOUNCE = 2
 _BOUNCE_SHIFT = np.uint64(8)
 _PATH_SHIFT = np.uint64(24)
 _TO_UNIT = 1.0 / 9007199254740992.0  # 2⁻⁵³
+# Items (pixels) per parallel work item: scratch arrays are made once per chunk.
+_ITEMS_PER_CHUNK = 16
 
 
 @numba.njit(cache=True, nogil=True, inline="always")
@@ -184,168 +186,188 @@ def trace_paths(
     width = band_weight.shape[1]
     n_lum = pos.shape[0]
     rows = spp if per_sample else 1
-    for g in prange(G):
-        s0 = g * spp
+    n_chunks = (G + _ITEMS_PER_CHUNK - 1) // _ITEMS_PER_CHUNK
+    for chunk in prange(n_chunks):
+        # Scratch for the chunk's items, made once.
         valid = np.empty(spp, np.int64)
-        nv = 0
-        for s in range(spp):
-            k0 = material[s0 + s]
-            if k0 >= 0 and k0 < K and np.isfinite(point[s0 + s, 0]):
-                valid[nv] = s
-                nv += 1
-        r0 = g * rows
-        for r in range(r0, r0 + rows):
-            out_paths[r] = 0
-            for c in range(C):
-                for j in range(n_nodes):
-                    out[r, c, j] = 0.0
-        if nv == 0 or n_paths == 0:
-            continue
-        acc = np.zeros((rows, C, N))
-        count = np.zeros(rows, np.int64)
+        acc = np.empty((rows, C, N))
+        count = np.empty(rows, np.int64)
         beta = np.empty(N)
-        # Each valid start sample stands for 1/nv of the item, as it does in the response
-        # tables (which apply each sample's own reflectance): what a path from sample v adds is
-        # weighted by n_paths / (nv_used · paths of v), and, where the samples see several
-        # materials, by ρ_v(λ) / ρ̄(λ) (ρ̄ the samples' mean reflectance), so that ρ̄ times the
-        # item's mean transport is the mean over samples of ρ_v·T_v, exactly at 1 nm. (Not in
-        # the throughput: Russian roulette decides as it would for the sample alone.)
-        used = min(nv, n_paths)
-        mixed = False
-        for v_ in range(1, nv):
-            if material[s0 + valid[v_]] != material[s0 + valid[0]]:
-                mixed = True
-        start = np.ones((nv, N))
-        if not per_sample:
-            mean = np.zeros(N)
-            if mixed:
-                for v_ in range(nv):
-                    k0 = material[s0 + valid[v_]]
-                    for n in range(N):
-                        mean[n] += rho[k0, n] / nv
-            for v_ in range(used):
-                f = n_paths / (used * (n_paths // used + (1 if v_ < n_paths % used else 0)))
-                k0 = material[s0 + valid[v_]]
-                for n in range(N):
-                    ratio = rho[k0, n] / mean[n] if mixed and mean[n] > 0.0 else 1.0
-                    start[v_, n] = f * ratio
+        n_mat = min(spp, K)
+        ratio = np.empty((n_mat, N))
+        mats = np.empty(n_mat, np.int64)
+        mat_of = np.empty(spp, np.int64)
+        mean = np.empty(N)
         e_cand = np.empty(max(n_lum, 1))
         st_node = np.empty(max(STACK_SIZE, wide_stack), np.int64)
         st_t = np.empty(wide_stack)
         work = np.empty(2 * WIDE)
         o = np.empty(3)
         d = np.empty(3)
-        gid = item_id[g]
-        for i in range(n_paths):
-            first = i % used
-            s = valid[first]
-            a = s if per_sample else 0
-            count[a] += 1
-            idx = s0 + s
-            px = np.float64(point[idx, 0])
-            py = np.float64(point[idx, 1])
-            pz = np.float64(point[idx, 2])
-            sx = np.float64(normal[idx, 0])
-            sy = np.float64(normal[idx, 1])
-            sz = np.float64(normal[idx, 2])
-            gx = np.float64(geo[idx, 0])
-            gy = np.float64(geo[idx, 1])
-            gz = np.float64(geo[idx, 2])
-            k_prev = material[idx]
-            for n in range(N):
-                beta[n] = 1.0
-            weight = 1.0
-            for b in range(1, max_bounces + 1):
-                wx, wy, wz = _cosine_direction(sx, sy, sz, _rand(key, gid, i, b, 0), _rand(key, gid, i, b, 1))
-                if wx * gx + wy * gy + wz * gz <= 0.0:
-                    break
-                if f0[k_prev] > 0.0:
-                    # The base receives what the interface transmits (render.light.gloss).
-                    weight *= 1.0 - fresnel_one(wx * sx + wy * sy + wz * sz, f0[k_prev])
-                o[0] = px + offset * gx
-                o[1] = py + offset * gy
-                o[2] = pz + offset * gz
-                d[0] = wx
-                d[1] = wy
-                d[2] = wz
-                t, j, _, _ = closest_one(wb, wi, tv, ti, o, d, 0.0, np.inf, st_node, st_t, work, WIDE)
-                if j < 0:
-                    break
-                px = o[0] + t * wx
-                py = o[1] + t * wy
-                pz = o[2] + t * wz
-                gx = tri_normal[j, 0]
-                gy = tri_normal[j, 1]
-                gz = tri_normal[j, 2]
-                if gx * wx + gy * wy + gz * wz > 0.0:
-                    gx, gy, gz = -gx, -gy, -gz
-                sx, sy, sz = gx, gy, gz
-                k = tri_material[j]
+        for g in range(chunk * _ITEMS_PER_CHUNK, min(G, (chunk + 1) * _ITEMS_PER_CHUNK)):
+            s0 = g * spp
+            r0 = g * rows
+            nv = 0
+            for s in range(spp):
+                k0 = material[s0 + s]
+                if k0 >= 0 and k0 < K and np.isfinite(point[s0 + s, 0]):
+                    valid[nv] = s
+                    nv += 1
+            for r in range(r0, r0 + rows):
+                out_paths[r] = 0
+                for c in range(C):
+                    for j in range(n_nodes):
+                        out[r, c, j] = 0.0
+            if nv == 0 or n_paths == 0:
+                continue
+            acc[:] = 0.0
+            count[:] = 0
+            # Each valid start sample stands for 1/nv of the item, as it does in the response
+            # tables (which apply each sample's own reflectance): what a path from sample v adds
+            # is weighted by n_paths / (used · paths of v), and, where the samples see several
+            # materials, by ρ_v(λ) / ρ̄(λ) (ρ̄ their mean reflectance), so that ρ̄ times the
+            # item's mean transport is the mean over samples of ρ_v·T_v, exactly at 1 nm. (Not
+            # in the throughput: Russian roulette decides as it would for the sample alone.)
+            used = min(nv, n_paths)
+            m = 0
+            for v_ in range(nv):
+                k0 = material[s0 + valid[v_]]
+                q = 0
+                while q < m and mats[q] != k0:
+                    q += 1
+                if q == m:
+                    mats[m] = k0
+                    m += 1
+                mat_of[v_] = q
+            mixed = m > 1 and not per_sample
+            if mixed:
+                mean[:] = 0.0
+                for v_ in range(nv):
+                    for n in range(N):
+                        mean[n] += rho[mats[mat_of[v_]], n] / nv
+                for q in range(m):
+                    for n in range(N):
+                        ratio[q, n] = rho[mats[q], n] / mean[n] if mean[n] > 0.0 else 1.0
+            gid = item_id[g]
+            for i in range(n_paths):
+                first = i % used
+                s = valid[first]
+                a = s if per_sample else 0
+                count[a] += 1
+                f = 1.0
+                if not per_sample:
+                    f = n_paths / (used * (n_paths // used + (1 if first < n_paths % used else 0)))
+                q_first = mat_of[first]
+                idx = s0 + s
+                px = np.float64(point[idx, 0])
+                py = np.float64(point[idx, 1])
+                pz = np.float64(point[idx, 2])
+                sx = np.float64(normal[idx, 0])
+                sy = np.float64(normal[idx, 1])
+                sz = np.float64(normal[idx, 2])
+                gx = np.float64(geo[idx, 0])
+                gy = np.float64(geo[idx, 1])
+                gz = np.float64(geo[idx, 2])
+                k_prev = material[idx]
                 for n in range(N):
-                    beta[n] *= rho[k, n]
-                # Next-event estimation: one luminaire of the vertex's culling cell.
-                ci = _cell_of(px, py, pz, box, cell, gnx, gny)
-                q0 = cell_start[ci] if ci >= 0 else 0
-                q1 = cell_start[ci + 1] if ci >= 0 else n_lum
-                total = 0.0
-                for q in range(q0, q1):
-                    kk = cell_items[q] if ci >= 0 else q
-                    e, _ = _unshadowed(px, py, pz, gx, gy, gz, kk, lum)
-                    e_cand[q - q0] = e
-                    total += e
-                if total > 0.0:
-                    u = _rand(key, gid, i, b, 2) * total
-                    m = q0
-                    run = e_cand[0]
-                    while run <= u and m < q1 - 1:
-                        m += 1
-                        run += e_cand[m - q0]
-                    while e_cand[m - q0] == 0.0:
-                        m -= 1
-                    kk = cell_items[m] if ci >= 0 else m
-                    lx = pos[kk, 0] - px
-                    ly = pos[kk, 1] - py
-                    lz = pos[kk, 2] - pz
-                    dist = math.sqrt(lx * lx + ly * ly + lz * lz)
-                    lx /= dist
-                    ly /= dist
-                    lz /= dist
+                    beta[n] = 1.0
+                weight = 1.0
+                for b in range(1, max_bounces + 1):
+                    wx, wy, wz = _cosine_direction(sx, sy, sz, _rand(key, gid, i, b, 0), _rand(key, gid, i, b, 1))
+                    if wx * gx + wy * gy + wz * gz <= 0.0:
+                        break
+                    if f0[k_prev] > 0.0:
+                        # The base receives what the interface transmits (render.light.gloss).
+                        weight *= 1.0 - fresnel_one(wx * sx + wy * sy + wz * sz, f0[k_prev])
                     o[0] = px + offset * gx
                     o[1] = py + offset * gy
                     o[2] = pz + offset * gz
-                    d[0] = lx
-                    d[1] = ly
-                    d[2] = lz
-                    if not any_one(wb, wi, tv, o, d, 0.0, max(dist - clearance[kk], 0.0), st_node, work, WIDE):
-                        # E_k / p_k = Σ E: the cell's whole unshadowed light.
-                        v = weight * total / math.pi
-                        if f0[k] > 0.0:
-                            v *= 1.0 - fresnel_one(gx * lx + gy * ly + gz * lz, f0[k])
-                        ch = channel[kk]
-                        for n in range(N):
-                            acc[a, ch, n] += beta[n] * start[first, n] * v
-                if b >= max_bounces:
-                    break
-                if b >= rr_first:
-                    top = 0.0
-                    for n in range(N):
-                        top = max(top, beta[n])
-                    survive = min(1.0, top * weight)
-                    if not (survive > 0.0) or _rand(key, gid, i, b, 3) >= survive:
+                    d[0] = wx
+                    d[1] = wy
+                    d[2] = wz
+                    t, j, _, _ = closest_one(wb, wi, tv, ti, o, d, 0.0, np.inf, st_node, st_t, work, WIDE)
+                    if j < 0:
                         break
-                    weight /= survive
-                k_prev = k
-        for a in range(rows):
-            if count[a] == 0:
-                continue
-            r = r0 + a
-            out_paths[r] = count[a]
-            inv = 1.0 / count[a]
-            for c in range(C):
-                for j in range(n_nodes):
-                    v = 0.0
-                    for w in range(width):
-                        n = band_start[j] + w
-                        if n < N:
-                            v += band_weight[j, w] * acc[a, c, n]
-                    out[r, c, j] = v * inv
+                    px = o[0] + t * wx
+                    py = o[1] + t * wy
+                    pz = o[2] + t * wz
+                    gx = tri_normal[j, 0]
+                    gy = tri_normal[j, 1]
+                    gz = tri_normal[j, 2]
+                    if gx * wx + gy * wy + gz * wz > 0.0:
+                        gx, gy, gz = -gx, -gy, -gz
+                    sx, sy, sz = gx, gy, gz
+                    k = tri_material[j]
+                    for n in range(N):
+                        beta[n] *= rho[k, n]
+                    # Next-event estimation: one luminaire of the vertex's culling cell.
+                    ci = _cell_of(px, py, pz, box, cell, gnx, gny)
+                    q0 = cell_start[ci] if ci >= 0 else 0
+                    q1 = cell_start[ci + 1] if ci >= 0 else n_lum
+                    total = 0.0
+                    for q in range(q0, q1):
+                        kk = cell_items[q] if ci >= 0 else q
+                        e, _ = _unshadowed(px, py, pz, gx, gy, gz, kk, lum)
+                        e_cand[q - q0] = e
+                        total += e
+                    if total > 0.0:
+                        u = _rand(key, gid, i, b, 2) * total
+                        pick = q0
+                        run = e_cand[0]
+                        while run <= u and pick < q1 - 1:
+                            pick += 1
+                            run += e_cand[pick - q0]
+                        while e_cand[pick - q0] == 0.0:
+                            pick -= 1
+                        kk = cell_items[pick] if ci >= 0 else pick
+                        lx = pos[kk, 0] - px
+                        ly = pos[kk, 1] - py
+                        lz = pos[kk, 2] - pz
+                        dist = math.sqrt(lx * lx + ly * ly + lz * lz)
+                        lx /= dist
+                        ly /= dist
+                        lz /= dist
+                        o[0] = px + offset * gx
+                        o[1] = py + offset * gy
+                        o[2] = pz + offset * gz
+                        d[0] = lx
+                        d[1] = ly
+                        d[2] = lz
+                        if not any_one(wb, wi, tv, o, d, 0.0, max(dist - clearance[kk], 0.0), st_node, work, WIDE):
+                            # E_k / p_k = Σ E: the cell's whole unshadowed light.
+                            v = weight * total / math.pi
+                            if f0[k] > 0.0:
+                                v *= 1.0 - fresnel_one(gx * lx + gy * ly + gz * lz, f0[k])
+                            ch = channel[kk]
+                            v *= f
+                            if mixed:
+                                for n in range(N):
+                                    acc[a, ch, n] += beta[n] * ratio[q_first, n] * v
+                            else:
+                                for n in range(N):
+                                    acc[a, ch, n] += beta[n] * v
+                    if b >= max_bounces:
+                        break
+                    if b >= rr_first:
+                        top = 0.0
+                        for n in range(N):
+                            top = max(top, beta[n])
+                        survive = min(1.0, top * weight)
+                        if not (survive > 0.0) or _rand(key, gid, i, b, 3) >= survive:
+                            break
+                        weight /= survive
+                    k_prev = k
+            for a in range(rows):
+                if count[a] == 0:
+                    continue
+                r = r0 + a
+                out_paths[r] = count[a]
+                inv = 1.0 / count[a]
+                for c in range(C):
+                    for j in range(n_nodes):
+                        v = 0.0
+                        for w in range(width):
+                            n = band_start[j] + w
+                            if n < N:
+                                v += band_weight[j, w] * acc[a, c, n]
+                        out[r, c, j] = v * inv
