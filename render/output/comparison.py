@@ -790,18 +790,18 @@ def _write_option_pictures(
     side_path: Path,
     wipe_path: Path,
     before: np.ndarray,
-    before_small: np.ndarray,
+    before_small: Future,
     after: np.ndarray,
     labels: tuple[str, str],
     side_text: Mapping[str, str],
     wipe_text: Mapping[str, str],
 ) -> Path:
-    """An option's side-by-side image and wipe (``before_small``: the before image already at
-    the wipe's width); runs on a writer thread."""
+    """An option's side-by-side image and wipe (``before_small``: the future of the before
+    image at the wipe's width, asked of the writer before this); runs on a writer thread."""
     from render.output.images import write_gif, write_png
 
     write_png(side_path, side_by_side(before, after, *labels), side_text)
-    return write_gif(wipe_path, wipe_frames(before_small, after), text=wipe_text)
+    return write_gif(wipe_path, wipe_frames(before_small.result(), after), text=wipe_text)
 
 
 def _write_luminance_maps(
@@ -960,7 +960,9 @@ def run_comparison(
                 written.append(writer.png(out / images.shared[key], sh.srgb8, sh.png_text(meta(r, "shared"))))
                 written.append(writer.png(out / images.adapted[key], ad.srgb8, ad.png_text(meta(r, "adapted"))))
             word = "after" if len(setups) == 2 else "option"
-            before_small = fit_width(shared[0].srgb8, WIPE_WIDTH_PX)
+            # Scaled once per view on a writer thread; asked for before the options' pictures, so
+            # it is under way (the threads take work in order) before any of them waits for it.
+            before_small = writer.call(fit_width, shared[0].srgb8, WIPE_WIDTH_PX)
             for key, s, r, sh in zip(keys[1:], setups[1:], rendered[1:], shared[1:]):
                 written.append(
                     writer.call(

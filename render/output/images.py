@@ -400,7 +400,8 @@ def fit_width(image: np.ndarray, max_width_px: int) -> np.ndarray:
 class ImageWriter:
     """Image files written on :data:`WRITER_THREADS` threads while the caller goes on (module
     text). :meth:`png` and :meth:`gif` take what :func:`write_png` and :func:`write_gif` take,
-    :meth:`call` any function that writes a file; each returns a future of its path. Use it as
+    :meth:`call` any function (one that writes a file, or makes what such a function needs);
+    each returns a future of its result (the path written). Work starts in the order asked. Use it as
     a context manager, or call :meth:`wait`: that waits for every file and raises the first
     error (in the order the files were asked for). The arrays handed over must not be changed
     until then."""
@@ -409,7 +410,7 @@ class ImageWriter:
         self._pool = ThreadPoolExecutor(max(1, int(threads)), thread_name_prefix="image-writer")
         self._futures: list[Future] = []
 
-    def call(self, fn: Callable[..., Path], *args: Any, **kwargs: Any) -> Future:
+    def call(self, fn: Callable[..., Any], *args: Any, **kwargs: Any) -> Future:
         """``fn(*args, **kwargs)`` on a writer thread."""
         future = self._pool.submit(fn, *args, **kwargs)
         self._futures.append(future)
@@ -429,8 +430,9 @@ class ImageWriter:
         """:func:`write_gif` on a writer thread."""
         return self.call(write_gif, path, frames, duration_ms, text)
 
-    def wait(self) -> list[Path]:
-        """Wait for every file asked for so far; their paths, or the first error raised."""
+    def wait(self) -> list[Any]:
+        """Wait for everything asked for so far; the results (paths of the files written), or
+        the first error raised."""
         futures, self._futures = self._futures, []
         for f in futures:
             f.exception()  # every one finished before any error is raised
