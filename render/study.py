@@ -354,6 +354,51 @@ class Study:
             results = [render_display(x, g, observer, mode, retina=r) for x, g, r in zip(lights, geoms, retinas)]
         return results if isinstance(rendered, list) else results[0]
 
+    def interreflected_illuminance_lx(
+        self,
+        points_m: npt.ArrayLike,
+        normals: npt.ArrayLike,
+        setup: str | Setup | None = None,
+        *,
+        bounces: int | None = None,
+        paths: int | None = None,
+        seed: int | None = None,
+    ) -> np.ndarray:
+        """Illuminance (lx) from interreflected light alone at points on surfaces with the
+        given unit normals, with the setup's lamps, lumens and dimming: a Monte Carlo estimate
+        (:mod:`render.light.indirect`) with ``paths`` per point (default the scene's
+        ``indirect_samples_per_pixel``) and up to ``bounces`` interreflections (default the
+        scene's, or :data:`render.light.indirect.DEFAULT_BOUNCES` where the scene has them
+        off). Not part of any standard's calculation, which takes direct light only."""
+        from render.light.indirect import (
+            DEFAULT_BOUNCES,
+            IndirectSettings,
+            PathTracer,
+            illuminance_from_transport,
+            transport_at_points,
+        )
+
+        s = self.setup(setup)
+        lights = self.lights(s)
+        pts = np.asarray(points_m, np.float64).reshape(-1, 3)
+        nrm = np.asarray(normals, np.float64).reshape(-1, 3)
+        nrm = nrm / np.linalg.norm(nrm, axis=1, keepdims=True)
+        render = self.scene.render
+        n = bounces if bounces is not None else (render.bounces or DEFAULT_BOUNCES)
+        settings = IndirectSettings(bounces=n, samples_per_pixel=paths or render.indirect_samples_per_pixel)
+        tracer = PathTracer(
+            self.mesh,
+            self.bvh,
+            lights,
+            self.reflectances,
+            settings,
+            negligible_lx=self.negligible_lx,
+            offset_m=self.shadow_offset_m,
+        )
+        moments, _ = transport_at_points(pts, nrm, None, tracer, render.seed if seed is None else seed)
+        factors, lamps = channel_factors(lights, s)
+        return illuminance_from_transport(moments, factors, self.lamp_spds(lamps), settings.basis)
+
     def illuminance_lx(
         self,
         points_m: npt.ArrayLike,

@@ -28,7 +28,7 @@ import pytest
 from indirect_scenes import FLUX_LM, box_faces_inside, grid_on_rectangle, isotropic_source, mesh_of, reflectance
 
 from render.geometry import shapes
-from render.light.indirect import IndirectSettings, PathTracer, transport_at_points
+from render.light.indirect import IndirectSettings, PathTracer, illuminance_from_transport, transport_at_points
 from render.light.integrator import direct_illuminance_lx
 from render.rays.bvh import build_bvh, intersect_closest
 
@@ -94,6 +94,25 @@ def test_sphere_all_reflections(sphere):
     a, b = e_ind[upper].mean(axis=0), e_ind[~upper].mean(axis=0)
     lum = slice(30, 50)  # the 530-625 nm bands, where the material is brightest
     np.testing.assert_allclose(a[lum], b[lum], rtol=0.03)
+
+
+def test_sphere_photopic_illuminance(sphere):
+    # The same sphere as illuminance under a lamp: E = (Φ/A)·Km·Σ s(λ)·ρ/(1 − ρ)·V(λ)·Δλ with s
+    # normalised to one photopic unit (analytic; CIE 15 for Km and V), within 1 %; bare points
+    # (the light arriving) and a setup dimmed by half gives half (the stored values per channel
+    # at full output, scaled afterwards).
+    from render.colour.colorimetry import unit_photopic
+    from render.colour.lamps import get_lamp
+    from render.colour.observers import photopic_lef
+
+    mesh, bvh, lights, rho, pts, inward, area = sphere
+    st = IndirectSettings(bounces=100, samples_per_pixel=256)
+    m, _ = transport_at_points(pts, inward, None, PathTracer(mesh, bvh, lights, rho, st), 1)
+    spd = get_lamp("sodium-high-pressure-cie-hp1").spd
+    e = illuminance_from_transport(m, [1.0], [spd], st.basis)
+    expected = FLUX_LM / area * 683.0 * float(np.sum(unit_photopic(spd) * rho[0] / (1.0 - rho[0]) * photopic_lef()))
+    assert abs(e.mean() / expected - 1.0) < 0.01
+    np.testing.assert_allclose(illuminance_from_transport(m, [0.5], [spd], st.basis), 0.5 * e, rtol=1e-12)
 
 
 def test_error_falls_as_inverse_square_root_of_paths(sphere):

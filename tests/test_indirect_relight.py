@@ -248,3 +248,16 @@ def test_render_keys_of_interreflection(tmp_path):
         path.write_text(text.replace("[render]\n", f"[render]\n{bad}\n"), "utf-8")
         with pytest.raises(InputError, match=key):
             load_scene(path)
+
+
+def test_study_interreflected_illuminance_scales_with_dimming():
+    # The demo's road between its luminaires: interreflected light is there, and the setup
+    # dimmed to 50 % gives exactly half of the same setup at full output (same lumens and lamp,
+    # the same paths; dimming is a factor on the stored values).
+    study = _demo_with_bounces(0)
+    pts = np.array([[20.0, 0.0, 0.0], [24.0, 2.0, 0.0], [30.0, -1.5, 0.0]])
+    up = np.tile([0.0, 0.0, 1.0], (3, 1))
+    full = study.interreflected_illuminance_lx(pts, up, "led-3000k", paths=64)
+    half = study.interreflected_illuminance_lx(pts, up, "led-3000k-half", paths=64)
+    assert np.all(full > 0.0)
+    np.testing.assert_allclose(half, 0.5 * full, rtol=1e-12)

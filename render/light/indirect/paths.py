@@ -140,6 +140,7 @@ def trace_paths(
     max_bounces,
     rr_first,
     per_sample,
+    start_gloss,
     rho,
     f0,
     band_start,
@@ -162,7 +163,9 @@ def trace_paths(
     ``item_id`` (G,) the id each item's random numbers hash (the view's pixel index).
     ``n_paths`` paths per item start on its valid samples in turn; ``max_bounces`` vertices
     after the start at most, Russian roulette deciding from vertex ``rr_first`` on whether to
-    go on. ``rho`` (K, N) reflectances, ``f0`` (K,) the specular layer's F0 (0: none);
+    go on; ``start_gloss``: the start samples' own specular layer lets through 1 − F of the
+    light they receive (surfaces seen; False for the light arriving at calculation points).
+    ``rho`` (K, N) reflectances, ``f0`` (K,) the specular layer's F0 (0: none);
     ``band_start``, ``band_weight`` the stored basis (:class:`~render.light.indirect.transport.
     TransportBasis`); ``tri_normal`` (F, 3) unit geometric normals and ``tri_material`` (F,) by
     original triangle index; ``tree`` = (wide nodes, their int32 view, triangle vertices,
@@ -276,7 +279,7 @@ def trace_paths(
                     wx, wy, wz = _cosine_direction(sx, sy, sz, _rand(key, gid, i, b, 0), _rand(key, gid, i, b, 1))
                     if wx * gx + wy * gy + wz * gz <= 0.0:
                         break
-                    if f0[k_prev] > 0.0:
+                    if f0[k_prev] > 0.0 and (b > 1 or start_gloss):
                         # The base receives what the interface transmits (render.light.gloss).
                         weight *= 1.0 - fresnel_one(wx * sx + wy * sy + wz * sz, f0[k_prev])
                     o[0] = px + offset * gx

@@ -65,6 +65,7 @@ __all__ = [
     "IndirectBuffers",
     "IndirectSettings",
     "PathTracer",
+    "illuminance_from_transport",
     "indirect_xyz",
     "pack_rows",
     "trace_view",
@@ -169,9 +170,12 @@ class PathTracer:
         seed: int,
         *,
         per_sample: bool = False,
+        start_gloss: bool = True,
     ) -> tuple[np.ndarray, np.ndarray]:
         """Mean node values (rows, C, n_nodes) float64 and paths (rows,) of items of ``spp``
-        consecutive start samples (rows: items, or samples with ``per_sample``)."""
+        consecutive start samples (rows: items, or samples with ``per_sample``);
+        ``start_gloss``: the start surfaces' specular layer takes its share of the light
+        (False: the light arriving, as at calculation points)."""
         n_items = int(item_id.shape[0])
         rows = n_items * spp if per_sample else n_items
         out = np.zeros((rows, self.n_channels, self.basis.n_nodes))
@@ -192,6 +196,7 @@ class PathTracer:
                 int(self.settings.bounces),
                 int(self.settings.rr_first_bounce),
                 bool(per_sample),
+                bool(start_gloss),
                 self.rho,
                 self.f0,
                 self.basis.band_start,
@@ -299,7 +304,7 @@ def indirect_xyz(
 def transport_at_points(
     points_m: ArrayLike,
     normals: ArrayLike,
-    materials: ArrayLike,
+    materials: ArrayLike | None,
     tracer: PathTracer,
     seed: int,
     *,
@@ -310,12 +315,31 @@ def transport_at_points(
     E_ind/π·T per channel (cd/m² per unit transport, full output) and the paths per point.
 
     ``normals`` (N, 3) unit normals on the side that receives (``geo_normals`` the geometric
-    ones, default the same), ``materials`` (N,) the points' material indices (their gloss
-    layer's transmission applies; the reflectance itself is not in the result). Point ``i``
-    hashes id ``first_id + i``."""
+    ones, default the same), ``materials`` (N,) the points' material indices, whose specular
+    layer lets through its share of the light (their reflectance itself is not in the result);
+    None: the light arriving at bare points (calculation points). Point ``i`` hashes id
+    ``first_id + i``."""
     pts = np.ascontiguousarray(points_m, np.float64).reshape(-1, 3)
     nrm = np.ascontiguousarray(normals, np.float64).reshape(-1, 3)
     geo = nrm if geo_normals is None else np.ascontiguousarray(geo_normals, np.float64).reshape(-1, 3)
-    mat = np.ascontiguousarray(materials, np.int32).reshape(-1)
+    bare = materials is None
+    mat = np.zeros(pts.shape[0], np.int32) if bare else np.ascontiguousarray(materials, np.int32).reshape(-1)
     ids = first_id + np.arange(pts.shape[0], dtype=np.int64)
-    return tracer.trace(pts, nrm, geo, mat, ids, 1, seed)
+    return tracer.trace(pts, nrm, geo, mat, ids, 1, seed, start_gloss=not bare)
+
+
+def illuminance_from_transport(
+    moments: np.ndarray, factors: ArrayLike, lamp_spds: Sequence[np.ndarray], basis: TransportBasis
+) -> np.ndarray:
+    """Photopic illuminance (lx) of interreflected light from node values (N, C, n_nodes) of
+    :func:`transport_at_points`, with per-channel ``factors`` and lamps: π·Σ_c f_c Σ_j b_cj·Y_j
+    with Y_j the luminance a white diffuser returns per unit node value of lamp c."""
+    lamp_of_channel, distinct = lamp_indices(lamp_spds)
+    out = np.zeros(moments.shape[0])
+    if not distinct:
+        return out
+    white = transport_table(np.ones((1, basis.reconstruction.shape[1])), np.array(distinct), basis)
+    f = np.asarray(factors, np.float64)
+    for c in range(moments.shape[1]):
+        out += f[c] * (moments[:, c, :] @ white[0, lamp_of_channel[c], :, 1])
+    return np.pi * out
