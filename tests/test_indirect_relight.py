@@ -205,6 +205,9 @@ def test_bounces_off_leaves_direct_light_unchanged():
     )
     assert extra[..., 1].max() > 0.0
     np.testing.assert_allclose(view_on.colorimetry.xyz_cd_m2 - extra[..., :3], before.xyz_cd_m2, rtol=1e-6, atol=1e-12)
+    assert view_on.buffers.indirect.settings.describe() == (
+        "interreflected light: up to 2 bounces, 4 paths per pixel (Monte Carlo), transport every 5 nm"
+    )
     # The keyword overrides the scene: bounces=0 gives the direct light alone.
     again = on.render_view(None, "sodium", width_px=64, samples_per_pixel=2, bounces=0)
     assert np.array_equal(again.colorimetry.xyz_cd_m2, before.xyz_cd_m2)

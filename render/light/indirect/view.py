@@ -99,6 +99,15 @@ class IndirectSettings:
     def basis(self) -> TransportBasis:
         return transport_basis(self.node_step_nm)
 
+    def describe(self) -> str:
+        """One line for an output's provenance or caption, e.g. "interreflected light: up to
+        3 bounces, 8 paths per pixel (Monte Carlo), transport every 5 nm"."""
+        return (
+            f"interreflected light: up to {self.bounces} bounce{'s' if self.bounces != 1 else ''}, "
+            f"{self.samples_per_pixel} path{'s' if self.samples_per_pixel != 1 else ''} per pixel (Monte Carlo), "
+            f"transport every {self.node_step_nm} nm"
+        )
+
 
 @dataclass
 class IndirectBuffers:
