@@ -24,7 +24,7 @@ as the specification recommends for them. The deflate settings are fixed per kin
 charts and palette images at zlib level 6 with the default strategy (flat colours and text:
 long repeated strings pay); every other image (continuous tones) with zlib's run-length
 strategy (``Z_RLE``: matches at distance one only). On the demo's 960 x 540 views the
-run-length strategy encodes 5-7 times as fast as level 6 for files 8-20 % larger; the pixels
+run-length strategy encodes 4-7 times as fast as level 6 for files 8-20 % larger; the pixels
 are the same. There is no time chunk, so the same pixels and text always give the same bytes.
 
 GIF animations are Pillow's GIF89a writer (each frame quantised to its own palette by Pillow's
