@@ -103,6 +103,21 @@ def test_least_spp_on_inverse_square_root_error():
     assert peer.least_spp(error_at, 0.5, start=4, max_spp=1024) == (4, {4: 0.5})
 
 
+def test_least_spp_scan_finds_a_lower_count_bisection_misses():
+    # Analytic: 1/sqrt(n), except that multiples of 5 reach 0.05. Doubling misses up to 64 and
+    # reaches at 128; bisection lands on 100 (the multiple of 5 it happens upon); the scan of
+    # 65 ... 99 finds 65, the least count above the last miss that reaches 0.1.
+    def error_at(spp):
+        return 0.05 if spp % 5 == 0 else 1.0 / np.sqrt(spp)
+
+    assert peer.least_spp(error_at, 0.1, start=4, max_spp=1024)[0] == 100
+    found, errors = peer.least_spp(error_at, 0.1, start=4, max_spp=1024, scan=True)
+    assert found == 65 and errors[65] == 0.05
+    # Where the error falls steadily the scan changes nothing.
+    steady = peer.least_spp(lambda n: 1.0 / np.sqrt(n), 0.1, start=4, max_spp=1024, scan=True)[0]
+    assert steady == 100
+
+
 def test_peer_scene_has_no_columns_and_isotropic_intensities():
     study = Study(peer.peer_scene_file(peer.DEMO))
     scene = peer.peer_scene(study, None, 64, 1)
