@@ -677,6 +677,7 @@ def cmd_demo(args: argparse.Namespace) -> int:
         out=args.out or "outputs/demo",
         width=args.width,
         spp=args.spp,
+        bounces=args.bounces,
         no_report=False,
         age=args.age,
         pigmentation=None,
@@ -703,6 +704,18 @@ def _positive_int(text: str) -> int:
     return value
 
 
+def _bounces(text: str) -> int:
+    from render.limits import MAX_BOUNCES
+
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a whole number, got {text!r}") from None
+    if not 0 <= value <= MAX_BOUNCES:
+        raise argparse.ArgumentTypeError(f"expected a whole number from 0 to {MAX_BOUNCES}, got {value}")
+    return value
+
+
 def _observer_options(p: argparse.ArgumentParser) -> None:
     g = p.add_argument_group("observer (defaults from the scene's [observer] table)")
     g.add_argument("--age", type=float, metavar="YEARS", help="observer age (glare grows with age; CIE 146)")
@@ -720,6 +733,11 @@ def _run_options(p: argparse.ArgumentParser, out_default: str) -> None:
     )
     p.add_argument(
         "--width", type=_positive_int, help="override the image width in pixels (the height keeps the aspect ratio)"
+    )
+    p.add_argument(
+        "--bounces",
+        type=_bounces,
+        help="interreflections per path, 0 for direct light only (default: the scene's render.bounces)",
     )
     p.add_argument("--out", help=f"output folder (default {out_default})")
 
@@ -740,7 +758,10 @@ def _study(args: argparse.Namespace) -> Study:
     from render.scene import load_scene
     from render.study import Study
 
-    return Study(load_scene(args.scene, strict_paths=getattr(args, "strict_paths", False)))
+    scene = load_scene(args.scene, strict_paths=getattr(args, "strict_paths", False))
+    if getattr(args, "bounces", None) is not None:
+        scene.render.bounces = args.bounces
+    return Study(scene)
 
 
 def _output_options(p: argparse.ArgumentParser) -> None:

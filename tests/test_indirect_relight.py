@@ -264,3 +264,23 @@ def test_study_interreflected_illuminance_scales_with_dimming():
     half = study.interreflected_illuminance_lx(pts, up, "led-3000k-half", paths=64)
     assert np.all(full > 0.0)
     np.testing.assert_allclose(half, 0.5 * full, rtol=1e-12)
+
+
+def test_command_line_bounces(tmp_path, capsys):
+    # --bounces overrides the scene's render.bounces for the rendering commands; out of range it
+    # is a usage error (exit 2) naming the option.
+    from render.cli import main
+
+    scene = str(Path(__file__).resolve().parents[1] / "scenes" / "tests" / "point_over_plane.toml")
+    assert main(["render", scene, "--width", "16", "--bounces", "1", "--out", str(tmp_path), "-q"]) == 0
+    assert (tmp_path / "above-scene.exr").exists()
+    import argparse
+
+    from render.cli import _study
+
+    assert _study(argparse.Namespace(scene=scene, bounces=2)).scene.render.bounces == 2
+    assert _study(argparse.Namespace(scene=scene, bounces=None)).scene.render.bounces == 0
+    with pytest.raises(SystemExit) as exit_info:
+        main(["render", scene, "--bounces", "65"])
+    assert exit_info.value.code == 2
+    assert "--bounces" in capsys.readouterr().err
