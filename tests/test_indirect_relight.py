@@ -93,6 +93,23 @@ def test_relight_every_builtin_lamp_within_goal(demo_view):
     assert worst_lum < GOAL_LUMINANCE
 
 
+def test_other_observer_weights(demo_view):
+    # Responses are linear in the observer weights: any columns of the colorimetric weights, in
+    # any number (five here, not a multiple of the kernel's four), give those columns of X, Y,
+    # Z, Y' (analytic).
+    from render.colour.colorimetry import colorimetric_weights
+    from render.light.indirect import indirect_responses
+
+    study, rendered, traced = demo_view
+    b = rendered.buffers
+    ones = np.ones(rendered.lights.n_channels)
+    spds = study.lamp_spds(["led-3000k-cie-b2"] * len(ones))
+    xyz = indirect_xyz(traced[5], b.response, ones, spds, study.reflectances)
+    cols = [1, 0, 2, 3, 1]
+    other = indirect_responses(traced[5], b.response, ones, spds, study.reflectances, colorimetric_weights()[:, cols])
+    np.testing.assert_allclose(other, xyz[..., cols], rtol=1e-12, atol=1e-15)
+
+
 def test_constant_transport_gives_the_direct_response():
     # Constants are in the hats' span: a transport of 1 at every node reproduces the direct
     # light's response table exactly (the partition of unity of the duals), for every material.

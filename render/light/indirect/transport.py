@@ -71,6 +71,8 @@ __all__ = [
 
 #: Spacing of the stored transport's nodes, nm (81 nodes over 380-780 nm).
 NODE_STEP_NM = 5
+# Pixels per parallel work item of the resolve kernel (its scratch is made once per item).
+_RESOLVE_CHUNK = 64
 
 
 @dataclass(frozen=True)
@@ -132,12 +134,17 @@ def transport_basis(step_nm: int = NODE_STEP_NM) -> TransportBasis:
     return TransportBasis(step, nodes, start, weight, dual)
 
 
-def transport_table(reflectances: ArrayLike, lamp_spds: ArrayLike, basis: TransportBasis) -> np.ndarray:
-    """``Q`` (K, M, n_nodes, 4): the absolute X, Y, Z, Y' per unit stored node value of a
-    surface of reflectance ``k`` lit through the transport by lamp ``l`` (the reflectances and
-    lamps on the 1 nm grid, lamps normalised to one photopic unit as for direct light)."""
-    weights = basis.reconstruction.T[:, :, None] * colorimetric_weights()[:, None, :]
-    table = response_table(reflectances, lamp_spds, weights=weights)
+def transport_table(
+    reflectances: ArrayLike, lamp_spds: ArrayLike, basis: TransportBasis, weights: ArrayLike | None = None
+) -> np.ndarray:
+    """``Q`` (K, M, n_nodes, J): per unit stored node value, the response of a surface of
+    reflectance ``k`` lit through the transport by lamp ``l`` (reflectances and lamps on the
+    1 nm grid, lamps normalised to one photopic unit as for direct light), for observer
+    ``weights`` (N_BINS, J) -- by default :func:`render.colour.colorimetry.colorimetric_weights`,
+    the absolute X, Y, Z, Y'."""
+    w = colorimetric_weights() if weights is None else np.asarray(weights, np.float64).reshape(N_BINS, -1)
+    nodes = basis.reconstruction.T[:, :, None] * w[:, None, :]
+    table = response_table(reflectances, lamp_spds, weights=nodes)
     return np.ascontiguousarray(table[:-1])
 
 
@@ -168,57 +175,62 @@ def half_table() -> np.ndarray:
 def _resolve_kernel(response, n_materials, spp, bits, half, scale, factors, lamp_of_channel, table, out):
     """out[p, :] += Σ over the pixel's samples seeing a surface of material k, over channels c
     and nodes j: factor_c · stored[p, c, j] · Q[k, lamp_c, j, :] / spp. Samples of a pixel
-    that see the same material are gathered first (usually one group)."""
+    that see the same material are gathered first (usually one group); the responses are
+    summed four at a time (``table``'s last axis is a multiple of four)."""
     n_pix = out.shape[0]
     C = bits.shape[1]
     n = bits.shape[2]
+    J = table.shape[3]
     inv = 1.0 / spp
-    for p in prange(n_pix):
+    n_chunks = (n_pix + _RESOLVE_CHUNK - 1) // _RESOLVE_CHUNK
+    for chunk in prange(n_chunks):
         mats = np.empty(spp, np.int64)
-        counts = np.zeros(spp)
-        g = 0
-        for s in range(spp):
-            k = response[p * spp + s]
-            if k < 0 or k >= n_materials:
-                continue
-            found = -1
-            for q in range(g):
-                if mats[q] == k:
-                    found = q
-                    break
-            if found < 0:
-                mats[g] = k
-                counts[g] = 1.0
-                g += 1
-            else:
-                counts[found] += 1.0
-        a0 = 0.0
-        a1 = 0.0
-        a2 = 0.0
-        a3 = 0.0
-        for q in range(g):
-            k = mats[q]
-            w = counts[q] * inv * scale[p]
-            if w == 0.0:
-                continue
-            for c in range(C):
-                f = w * factors[c]
-                if f == 0.0:
+        counts = np.empty(spp)
+        for p in range(chunk * _RESOLVE_CHUNK, min(n_pix, (chunk + 1) * _RESOLVE_CHUNK)):
+            g = 0
+            for s in range(spp):
+                k = response[p * spp + s]
+                if k < 0 or k >= n_materials:
                     continue
-                l = lamp_of_channel[c]
-                for j in range(n):
-                    v = half[bits[p, c, j]]
-                    if v == 0.0:
+                found = -1
+                for q in range(g):
+                    if mats[q] == k:
+                        found = q
+                        break
+                if found < 0:
+                    mats[g] = k
+                    counts[g] = 1.0
+                    g += 1
+                else:
+                    counts[found] += 1.0
+            for jj in range(0, J, 4):
+                a0 = 0.0
+                a1 = 0.0
+                a2 = 0.0
+                a3 = 0.0
+                for q in range(g):
+                    k = mats[q]
+                    w = counts[q] * inv * scale[p]
+                    if w == 0.0:
                         continue
-                    v *= f
-                    a0 += v * table[k, l, j, 0]
-                    a1 += v * table[k, l, j, 1]
-                    a2 += v * table[k, l, j, 2]
-                    a3 += v * table[k, l, j, 3]
-        out[p, 0] += a0
-        out[p, 1] += a1
-        out[p, 2] += a2
-        out[p, 3] += a3
+                    for c in range(C):
+                        f = w * factors[c]
+                        if f == 0.0:
+                            continue
+                        l = lamp_of_channel[c]
+                        for j in range(n):
+                            v = half[bits[p, c, j]]
+                            if v == 0.0:
+                                continue
+                            v *= f
+                            a0 += v * table[k, l, j, jj]
+                            a1 += v * table[k, l, j, jj + 1]
+                            a2 += v * table[k, l, j, jj + 2]
+                            a3 += v * table[k, l, j, jj + 3]
+                out[p, jj] += a0
+                out[p, jj + 1] += a1
+                out[p, jj + 2] += a2
+                out[p, jj + 3] += a3
 
 
 def resolve_transport(
@@ -231,13 +243,18 @@ def resolve_transport(
     lamp_of_channel: np.ndarray,
     out: np.ndarray,
 ) -> np.ndarray:
-    """Add the interreflected X, Y, Z, Y' of every pixel to ``out`` (n_pix, 4).
+    """Add the interreflected responses of every pixel to ``out`` (n_pix, J).
 
     ``response`` (S,) the camera samples' materials (values outside ``table``'s materials --
     nothing seen, a luminous opening -- get none); ``values`` (n_pix, C, n_nodes) float16 node
-    values relative to ``scale`` (n_pix,); ``table`` from :func:`transport_table`."""
+    values relative to ``scale`` (n_pix,); ``table`` (K, M, n_nodes, J) from
+    :func:`transport_table`."""
     if values.dtype != np.float16:
         raise TypeError("the stored transport is float16")
+    J = table.shape[3]
+    pad = (-J) % 4
+    padded = np.concatenate([table, np.zeros(table.shape[:3] + (pad,))], axis=3) if pad else table
+    acc = np.zeros((out.shape[0], J + pad))
     _resolve_kernel(
         np.ascontiguousarray(response, np.int32),
         int(table.shape[0]),
@@ -247,7 +264,8 @@ def resolve_transport(
         np.ascontiguousarray(scale, np.float64),
         np.ascontiguousarray(factors, np.float64),
         np.ascontiguousarray(lamp_of_channel, np.int64),
-        np.ascontiguousarray(table, np.float64),
-        out,
+        np.ascontiguousarray(padded, np.float64),
+        acc,
     )
+    out += acc[:, :J]
     return out

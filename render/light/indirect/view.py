@@ -36,6 +36,8 @@ import numba
 import numpy as np
 from numpy.typing import ArrayLike
 
+from render.colour.colorimetry import colorimetric_weights
+from render.colour.spectra import N_BINS
 from render.geometry.mesh import TriangleMesh, face_normals
 from render.light.indirect.paths import RR_FIRST_BOUNCE, trace_paths
 from render.light.indirect.transport import (
@@ -66,6 +68,7 @@ __all__ = [
     "IndirectSettings",
     "PathTracer",
     "illuminance_from_transport",
+    "indirect_responses",
     "indirect_xyz",
     "pack_rows",
     "trace_view",
@@ -291,23 +294,28 @@ def indirect_xyz(
     """Absolute X, Y, Z, Y' (H, W, 4) of the view's interreflected light for per-channel
     ``factors`` (dimming, lumens) and lamps; ``response`` (S,) the camera samples' materials
     (``LightBuffers.response``), ``reflectances`` (K, N_BINS) per material."""
+    return indirect_responses(indirect, response, factors, lamp_spds, reflectances)
+
+
+def indirect_responses(
+    indirect: IndirectBuffers,
+    response: np.ndarray,
+    factors: ArrayLike,
+    lamp_spds: Sequence[np.ndarray],
+    reflectances: ArrayLike,
+    weights: ArrayLike | None = None,
+) -> np.ndarray:
+    """The view's interreflected light (H, W, J) for observer ``weights`` (N_BINS, J), as
+    :func:`render.colour.colorimetry.resolve_responses` gives the direct light's (default: the
+    colorimetric weights, X, Y, Z, Y'); the other arguments as for :func:`indirect_xyz`."""
     lamp_of_channel, distinct = lamp_indices(lamp_spds)
     n_pix = indirect.width_px * indirect.height_px
-    out = np.zeros((n_pix, 4))
-    if not distinct:
-        return out.reshape(indirect.height_px, indirect.width_px, 4)
-    table = transport_table(reflectances, np.array(distinct), indirect.settings.basis)
-    resolve_transport(
-        response,
-        indirect.spp,
-        indirect.values,
-        indirect.scale,
-        factors,
-        table,
-        lamp_of_channel,
-        out,
-    )
-    return out.reshape(indirect.height_px, indirect.width_px, 4)
+    w = colorimetric_weights() if weights is None else np.asarray(weights, np.float64).reshape(N_BINS, -1)
+    out = np.zeros((n_pix, w.shape[1]))
+    if distinct:
+        table = transport_table(reflectances, np.array(distinct), indirect.settings.basis, w)
+        resolve_transport(response, indirect.spp, indirect.values, indirect.scale, factors, table, lamp_of_channel, out)
+    return out.reshape(indirect.height_px, indirect.width_px, w.shape[1])
 
 
 def transport_at_points(
