@@ -10,10 +10,11 @@ cosine and 1/π of the Lambertian BRDF cancel, so a path adds, per vertex ``x_j`
 
     β(λ) · E_k(x_j) / (π·p_k)        β(λ) = Π_{i=1..j} ρ_i(λ) / (roulette survival probabilities)
 
-to its start point's ``E_ind(λ)/π`` for the channel of luminaire ``k`` -- the interreflected
-counterpart of the value the light buffers keep for direct light (the white-diffuser
-luminance, cd/m²). The start point's own reflectance is not in β: the response tables apply it
-exactly (:mod:`render.light.indirect.transport`).
+to its start point's ``E_ind(λ)/π`` for the channel of luminaire ``k`` (Russian roulette lets a
+path go on past a vertex with probability q = min(1, max_λ β(λ)) and divides β by q) -- the
+interreflected counterpart of the value the light buffers keep for direct light (the
+white-diffuser luminance, cd/m²). The start point's own reflectance is not in β: the response
+tables apply it exactly (:mod:`render.light.indirect.transport`).
 
 **Choosing the luminaire.** The candidates at ``x_j`` are the luminaires of its culling cell
 (:func:`render.light.integrator.scene_cull_grid`: those whose unshadowed light can reach the
@@ -41,10 +42,11 @@ References
 ----------
 - J. T. Kajiya, "The rendering equation", SIGGRAPH 1986 (path tracing).
 - E. Veach, *Robust Monte Carlo Methods for Light Transport Simulation*, PhD thesis, Stanford
-  1997: next-event estimation (ch. 10? **from memory**), Russian roulette (sec. 2.5? **from
-  memory**).
+  1997: next-event estimation and Russian roulette **(from memory; section numbers not
+  checked)**.
 - Cosine-weighted hemisphere sampling by projecting a uniform disc sample (Malley's method):
-  M. Pharr, W. Jakob, G. Humphreys, *Physically Based Rendering*, 3rd ed., sec. 13.6.3.
+  M. Pharr, W. Jakob, G. Humphreys, *Physically Based Rendering*, 3rd ed., sec. 13.6.3
+  **(section number from memory)**.
 - T. Duff et al., "Building an orthonormal basis, revisited", JCGT 6(1), 2017.
 - G. L. Steele, D. Lea, C. H. Flood, "Fast splittable pseudorandom number generators",
   OOPSLA 2014 (SplitMix64, :mod:`render.rays.cameras`).
