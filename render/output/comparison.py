@@ -927,14 +927,14 @@ def run_comparison(
     # the colour analysis' folder, "calculation" the calculation's.
     folders = dict(zip(view_names, unique_stems(view_names, frozenset({"colours", CALCULATION_FOLDER}))))
     pending: list[tuple[ViewImages, list[dict[str, str]], list[np.ndarray]]] = []
-    # Image files are encoded and written on threads while the next view renders (the same
+    # Image files are encoded and written on a thread while the next view renders (the same
     # bytes whenever they are written); the report's compact copies of the views' images are
-    # encoded while the colour and calculation figures are drawn.
+    # encoded while the colour analysis runs and the colour and calculation figures are drawn
+    # (not earlier: beside the render's parallel kernels they would only slow them down).
     writer = ImageWriter()
     report_images = _ReportImages(out if report else None)
     try:
         for name in view_names:
-            report_images.hand_over()
             vdir = out / folders[name]
             vdir.mkdir(exist_ok=True)
             rb = study.render_view(name, setups[0], samples_per_pixel=spp, width_px=width_px, progress=progress)

@@ -35,7 +35,7 @@ have made of it. WebP files are Pillow's libwebp encoder at fixed settings (loss
 at a given quality), single-threaded and without metadata chunks. Neither holds a timestamp, so
 the same frames give the same bytes.
 
-:class:`ImageWriter` writes files on a few threads while the caller goes on: the encoders
+:class:`ImageWriter` writes files on threads of its own while the caller goes on: the encoders
 (zlib, the filter kernel, Pillow's quantiser and LZW coder, file writes) release the
 interpreter's lock, and each file is a pure function of its arguments, so the files are the
 same whichever thread writes them and whenever.
@@ -117,8 +117,10 @@ _ZLIB_LEVEL = 6
 #: zlib level and strategy of continuous-tone images (module text); with ``Z_RLE`` the level
 #: changes nothing but the header's level hint.
 _ZLIB_TONES = (6, zlib.Z_RLE)
-#: Threads of an :class:`ImageWriter`.
-WRITER_THREADS = 2
+#: Threads of an :class:`ImageWriter`: one, since the writes go on beside a render whose parallel
+#: kernels already use every processor (on the 2-core machine two writer threads cost the demo
+#: processor time and gained no wall time, median of 3 alternating rounds).
+WRITER_THREADS = 1
 
 
 def _chunk(kind: bytes, data: bytes) -> bytes:
