@@ -160,14 +160,24 @@ def cone_rod_image(study: Study, rendered: RenderedView, setup: str | Setup | No
     luminance (cd/m²) of ``rendered`` under ``setup``'s lamps, lumens and dimming (default: the
     setup it was rendered with), from its light buffers
     (:func:`render.colour.colorimetry.resolve_responses` with
-    :func:`render.vision.discrimination.cone_rod_weights`)."""
+    :func:`render.vision.discrimination.cone_rod_weights`), with the view's interreflected light
+    where the buffers keep it (``buffers.indirect``, resolved by
+    :func:`render.light.indirect.indirect_responses` with the same weights)."""
     from render.colour.colorimetry import resolve_responses
     from render.light.luminaires import channel_factors
     from render.vision.discrimination import cone_rod_weights
 
     s = study.setup(rendered.setup if setup is None else setup)
     factors, lamps = channel_factors(rendered.lights, s)
-    return resolve_responses(rendered.buffers, factors, study.lamp_spds(lamps), study.reflectances, cone_rod_weights())
+    buffers = rendered.buffers
+    spds = study.lamp_spds(lamps)
+    weights = cone_rod_weights()
+    out = resolve_responses(buffers, factors, spds, study.reflectances, weights)
+    if buffers.indirect is not None:
+        from render.light.indirect import indirect_responses
+
+        out = out + indirect_responses(buffers.indirect, buffers.response, factors, spds, study.reflectances, weights)
+    return out
 
 
 def own_adaptation_state(study: Study, rendered: RenderedView, observer: ObserverSettings) -> AdaptationState:
