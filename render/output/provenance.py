@@ -51,11 +51,17 @@ def image_metadata(
     study: Study, rendered: RenderedView, mode: str, observer: ObserverSettings, seed: int, spp: int
 ) -> dict[str, str]:
     """PNG/EXR text metadata: how an image was made (no timestamps, so reruns are identical):
-    :func:`view_metadata` plus the setup and the observer."""
-    return {
+    :func:`view_metadata` plus the setup and the observer, and how interreflected light was
+    traced (:meth:`render.light.indirect.IndirectSettings.describe`) when the view holds it
+    (none of this when it is direct light only, so such images keep their bytes)."""
+    meta = {
         **view_metadata(study, rendered.name, mode, seed, spp),
         "lampcast.setup": rendered.setup or "(scene)",
         "lampcast.observer": f"age {observer.age_years:g} y, pigmentation {observer.pigmentation:g}, "
         f"display peak {observer.display_peak_cd_m2:g} cd/m², glare {'on' if observer.glare else 'off'}, "
         f"acuity {'on' if observer.acuity else 'off'}",
     }
+    indirect = rendered.buffers.indirect
+    if indirect is not None:
+        meta["lampcast.interreflection"] = indirect.settings.describe()
+    return meta
