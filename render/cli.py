@@ -543,12 +543,15 @@ def cmd_calc(args: argparse.Namespace) -> int:
     override. ``--csv DIR`` also writes one CSV per field and setup."""
     from render.calc.classes import CAUTION as CALC_CAUTION
     from render.calc.run import calc_options, run_calculation
+    from render.limits import MAX_BOUNCES
     from render.output.calc_text import format_calculation, write_field_csvs
 
     if args.q0 is not None and not (np.isfinite(args.q0) and args.q0 > 0):
         raise input_error("command line", "--q0", f"expected a positive number, got {args.q0}")
     if args.age is not None and not (np.isfinite(args.age) and 0 < args.age <= 120):
         raise input_error("command line", "--age", f"expected an age in years from 0 to 120, got {args.age}")
+    if args.bounces is not None and not 0 <= args.bounces <= MAX_BOUNCES:
+        raise input_error("command line", "--bounces", f"expected 0 to {MAX_BOUNCES}, got {args.bounces}")
     study = _study(args)
     scene = study.scene
     sections = ([scene.street] if scene.street is not None else []) + [road.section for road in scene.roads]
@@ -584,6 +587,7 @@ def cmd_calc(args: argparse.Namespace) -> int:
         traffic=args.traffic,
         include_objects=include,
         mesopic=True if args.mesopic else None,
+        bounces=args.bounces,
         **overrides,
     )
     setups = args.setups or ([scene.compare_before, *scene.compare_options] if scene.compare_before else [None])
@@ -979,6 +983,13 @@ def build_parser() -> argparse.ArgumentParser:
         help='objects that obstruct light: "all", "none" or NAME,NAME (default: [calc], else none: an empty road)',
     )
     p.add_argument("--mesopic", action="store_true", help="P classes: compare illuminance in mesopic photometry")
+    p.add_argument(
+        "--bounces",
+        type=int,
+        metavar="N",
+        help="also give the fields' illuminance with interreflected light (up to N bounces, labelled; "
+        "not part of the EN 13201 calculation; class checks stay direct light; default 0)",
+    )
     p.add_argument("--csv", metavar="DIR", help="also write one CSV of grid values per field and setup")
     p.add_argument("--pictures", metavar="DIR", help="also write the isolux plan, heat map and bar chart PNGs")
     p.set_defaults(func=cmd_calc)

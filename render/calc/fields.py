@@ -79,6 +79,7 @@ if TYPE_CHECKING:
     from render.study import Study
 
 __all__ = [
+    "INTERREFLECTED_LABEL",
     "CalculationField",
     "FaceResult",
     "FieldResult",
@@ -109,6 +110,8 @@ POINTS_ACROSS = 3
 FACE_HEIGHT_M = 1.5
 #: Tolerance on the spacing rules so that 36 m / 12 = 3 m counts as D ≤ 3 m.
 _RULE_EPS = 1e-9
+#: The label of every figure that includes interreflected light (text, CSV, JSON, pictures).
+INTERREFLECTED_LABEL = "includes interreflected light (not part of the EN 13201 calculation)"
 
 
 @dataclass(frozen=True)
@@ -162,10 +165,20 @@ class FieldResult:
     min_lx: float
     max_lx: float
     u0: float  # Emin / Ē (0 when Ē is 0)
+    # Interreflected light alone on the same grid (None: not computed, direct light only). The
+    # figures above stay direct light, as the standard's calculation takes it.
+    interreflected_lx: np.ndarray | None = None
+
+    @property
+    def with_interreflected_lx(self) -> np.ndarray | None:
+        """Direct plus interreflected horizontal illuminance (None when not computed)."""
+        return None if self.interreflected_lx is None else self.illuminance_lx + self.interreflected_lx
 
     def to_json(self) -> dict[str, Any]:
-        """The result as plain JSON types (the grid as a list of rows along the street)."""
-        return {
+        """The result as plain JSON types (the grid as a list of rows along the street); with
+        interreflected light, its grid and the figures with it, labelled
+        (:data:`INTERREFLECTED_LABEL`)."""
+        out = {
             "name": self.name,
             "setup": self.setup,
             "illuminance_lx": self.illuminance_lx.tolist(),
@@ -174,6 +187,20 @@ class FieldResult:
             "max_lx": self.max_lx,
             "u0": self.u0,
         }
+        total = self.with_interreflected_lx
+        if total is not None:
+            assert self.interreflected_lx is not None
+            mean = float(total.mean())
+            out["with_interreflected"] = {
+                "label": INTERREFLECTED_LABEL,
+                "interreflected_lx": self.interreflected_lx.tolist(),
+                "illuminance_lx": total.tolist(),
+                "mean_lx": mean,
+                "min_lx": float(total.min()),
+                "max_lx": float(total.max()),
+                "u0": float(total.min()) / mean if mean > 0 else 0.0,
+            }
+        return out
 
 
 @dataclass(frozen=True)
@@ -352,13 +379,24 @@ def row_fields(scene: Scene, row: int = 0, pair: int = 0) -> list[CalculationFie
     return street_fields(scene.street, x0, x1 - x0)
 
 
-def evaluate_field(study: Study, field: CalculationField, setup: str | Setup | None = None) -> FieldResult:
+def evaluate_field(
+    study: Study, field: CalculationField, setup: str | Setup | None = None, *, bounces: int = 0
+) -> FieldResult:
     """Horizontal illuminance on ``field`` under ``setup`` (direct light, shadows, the setup's
-    lumens, dimming and maintenance factor), with Ē, Emin, Emax and U0 = Emin/Ē."""
+    lumens, dimming and maintenance factor), with Ē, Emin, Emax and U0 = Emin/Ē. With
+    ``bounces`` > 0 also the interreflected light on the same points
+    (:meth:`render.study.Study.interreflected_illuminance_lx`, up to ``bounces``
+    interreflections, the scene's ``indirect_samples_per_pixel`` paths per point and its seed),
+    kept apart in ``interreflected_lx``."""
     e = np.asarray(study.illuminance_lx(field.points_m, field.normals, setup), np.float64)
     grid = e.reshape(field.shape)
     mean = float(grid.mean())
     lo = float(grid.min())
+    extra = None
+    if bounces > 0:
+        extra = np.asarray(
+            study.interreflected_illuminance_lx(field.points_m, field.normals, setup, bounces=bounces), np.float64
+        ).reshape(field.shape)
     return FieldResult(
         name=field.name,
         setup=setup.name if isinstance(setup, Setup) else setup,
@@ -367,6 +405,7 @@ def evaluate_field(study: Study, field: CalculationField, setup: str | Setup | N
         min_lx=lo,
         max_lx=float(grid.max()),
         u0=lo / mean if mean > 0 else 0.0,
+        interreflected_lx=extra,
     )
 
 

@@ -5,7 +5,10 @@ the scene's first luminaire row (:func:`render.calc.fields.row_fields`: the carr
 and the footways) and computes
 
 * on every field, the horizontal illuminance grid with Ē, Emin, Emax and U0
-  (:func:`render.calc.fields.evaluate_field`);
+  (:func:`render.calc.fields.evaluate_field`); with ``bounces`` > 0 (``lampcast calc
+  --bounces N``) also the interreflected light on the same points and the figures with it,
+  beside the direct ones and labelled as not part of the EN 13201 calculation: the headline
+  figures, the class check and every other figure stay direct light;
 * on footways, the semicylindrical and vertical illuminance at 1.5 m facing both ways along the
   street (:func:`render.calc.fields.evaluate_face_field`);
 * the edge illuminance ratio on both sides of the carriageway (:mod:`render.calc.edge`);
@@ -141,6 +144,9 @@ class CalcOptions:
     facade_spacing_m: float = 3.0
     obtrusive_limits: ObtrusiveLimits = field(default_factory=ObtrusiveLimits)
     energy: EnergySettings = field(default_factory=EnergySettings)
+    # Interreflections for the fields' figures with interreflected light (0: direct light only).
+    # Those figures are given beside the direct ones; class checks and headlines stay direct.
+    bounces: int = 0
 
     @property
     def directions(self) -> tuple[int, ...]:
@@ -162,6 +168,7 @@ class CalcOptions:
             "max_facade_illuminance_lx": self.obtrusive_limits.max_vertical_lx,
             "max_intensity_toward_windows_cd": self.obtrusive_limits.max_intensity_cd,
             "energy": dict(vars(self.energy)),
+            **({"bounces": self.bounces} if self.bounces > 0 else {}),
         }
 
 
@@ -179,10 +186,11 @@ def calc_options(
     traffic: str | None = None,
     include_objects: tuple[str, ...] | str | None = None,
     mesopic: bool | None = None,
+    bounces: int | None = None,
 ) -> CalcOptions:
     """The scene's ``[calc]``, ``[energy]`` and r-table (of the ``[street]``, or of the road the
     first luminaire row stands along) with the given overrides
-    (``None``: the scene's value; ``include_objects`` may be ``"all"``; ``lighting_class``
+    (``None``: the scene's value, for ``bounces`` 0; ``include_objects`` may be ``"all"``; ``lighting_class``
     given as ``None`` turns the class check off). Unknown class or object names are an
     :class:`~render.errors.InputError` naming the option."""
     c = scene.calc
@@ -231,6 +239,7 @@ def calc_options(
         facade_spacing_m=c.facade_spacing_m,
         obtrusive_limits=ObtrusiveLimits(c.max_facade_illuminance_lx, c.max_intensity_toward_windows_cd),
         energy=scene.energy,
+        bounces=bounces if bounces is not None else 0,
     )
 
 
@@ -541,7 +550,7 @@ def setup_calculation(study: Study, setup: str | None = None, options: CalcOptio
     scene = study.scene
     street, path, _ = row_section(scene)
     fields = row_fields(scene)
-    results = tuple(evaluate_field(study, f, s) for f in fields)
+    results = tuple(evaluate_field(study, f, s, bounces=opts.bounces) for f in fields)
     faces = tuple(
         evaluate_face_field(study, f, s, facing=facing)
         for f in fields

@@ -20,6 +20,10 @@ with one panel per setup so the setups compare at a glance:
   dashed line, its value in the panel's title (criteria compared in mesopic photometry are
   left out: their bars are photopic).
 
+The pictures are direct light; when the calculation also took interreflected light
+(``lampcast calc --bounces N``) each says so in its title and metadata
+(:func:`interreflection_note`).
+
 The figures and fields are read through the report's public records only, so figures added to
 the headline later appear without changes here. Colour maps are perceptually uniform and keep
 their order in greyscale (viridis; Smith and van der Walt 2015). Pictures are drawn with
@@ -56,6 +60,7 @@ __all__ = [
     "calc_picture_alt_texts",
     "class_limits",
     "grid_heatmap",
+    "interreflection_note",
     "isolux_plan",
     "lux_levels",
     "setup_label",
@@ -136,8 +141,27 @@ def _png_text(report: CalculationReport, what: str, text: Mapping[str, str] | No
         "lampcast.mode": f"calculation {what}",
         "lampcast.scene": Path(report.scene).name,
         "lampcast.setups": "; ".join(setup_label(s.setup) for s in report.setups),
+        **({"lampcast.light": interreflection_note(report)} if report.options.bounces > 0 else {}),
         **(text or {}),
     }
+
+
+def interreflection_note(report: CalculationReport) -> str:
+    """What the pictures show when the calculation also took interreflected light: they stay
+    direct light; the figures with interreflected light are in the text, CSV and JSON."""
+    from render.calc.fields import INTERREFLECTED_LABEL
+
+    return (
+        "Direct light only, as EN 13201 calculates it. The fields' figures with interreflected light "
+        f"(up to {report.options.bounces} bounces) are in the text, CSV and JSON: {INTERREFLECTED_LABEL}."
+    )
+
+
+def _write(fig, path: Path, report: CalculationReport, what: str, text: Mapping[str, str] | None) -> Path:
+    """Write a calculation picture, labelled when the calculation also took interreflected light."""
+    if report.options.bounces > 0:
+        fig.suptitle(interreflection_note(report), fontsize=7, wrap=True)
+    return write_figure_png(fig, path, _png_text(report, what, text))
 
 
 def _street_panel(ax, plan: PlanResult) -> None:
@@ -229,7 +253,7 @@ def isolux_plan(
     )
     fig.legend(handles=handles, loc="outside lower center", ncols=5, fontsize=7, frameon=False, title=caption)
     fig.legends[0].get_title().set_fontsize(7)
-    return write_figure_png(fig, path, _png_text(report, "isolux plan", text))
+    return _write(fig, path, report, "isolux plan", text)
 
 
 def _cmap():
@@ -335,7 +359,7 @@ def grid_heatmap(
         bar = fig.colorbar(mesh, ax=list(axes), shrink=0.9, pad=0.01)
         bar.set_label("horizontal illuminance (lx)", fontsize=8)
         bar.ax.tick_params(labelsize=7)
-    return write_figure_png(fig, path, _png_text(report, "grid heat map", text))
+    return _write(fig, path, report, "grid heat map", text)
 
 
 def class_limits(s: SetupCalculation) -> dict[str, tuple[float, str]]:
@@ -415,7 +439,7 @@ def bar_chart(
         ax.tick_params(labelsize=6.5)
     handles = [Patch(color=colours[i], label=setup_label(s.setup, labels)) for i, s in enumerate(report.setups)]
     fig.legend(handles=handles, loc="outside lower center", ncols=min(n, 4), fontsize=7.5, frameon=False)
-    return write_figure_png(fig, path, _png_text(report, "headline figures", text))
+    return _write(fig, path, report, "headline figures", text)
 
 
 def calc_picture_alt_texts(report: CalculationReport, labels: Mapping[str | None, str] | None = None) -> list[str]:

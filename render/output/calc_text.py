@@ -2,7 +2,9 @@
 
 :func:`format_calculation` gives a compact table per setup (units in the headings) and the
 standing caution; :func:`write_field_csvs` writes one CSV per field and setup with the grid's
-points and horizontal illuminance (``x_m,y_m,illuminance_lx``), each file atomically.
+points and horizontal illuminance (``x_m,y_m,illuminance_lx``), each file atomically. Figures
+with interreflected light (``lampcast calc --bounces N``) are rows and columns of their own,
+labelled :data:`render.calc.fields.INTERREFLECTED_LABEL`; the direct figures stay as they are.
 """
 
 from __future__ import annotations
@@ -12,7 +14,7 @@ from pathlib import Path
 
 import numpy as np
 
-from render.calc.fields import row_fields
+from render.calc.fields import INTERREFLECTED_LABEL, row_fields
 from render.calc.run import CalculationReport
 from render.fileio import atomic_write_text, file_stem
 from render.scene.model import Scene
@@ -36,12 +38,24 @@ def format_calculation(report: CalculationReport) -> str:
         "objects included: " + ", ".join(o.include_objects) if o.include_objects else "an empty road (objects left out)"
     )
     lines = [f"{report.scene}: calculation (observer age {o.age_years:g} years, {o.traffic} traffic, {objects})"]
+    if o.bounces > 0:
+        lines.append(
+            f"fields also with interreflected light (up to {o.bounces} bounces), rows marked '+ interreflected': "
+            f"{INTERREFLECTED_LABEL}; every other figure and the class check are direct light only"
+        )
     for s in report.setups:
         lines.append("")
         lines.append(f"setup: {s.setup or '(the scene as given)'}")
         lines.append(f"  {'field':<16}{'Ē lx':>9}{'Emin lx':>9}{'Emax lx':>9}{'U0':>7}")
         for f in s.fields:
             lines.append(f"  {f.name:<16}{_num(f.mean_lx):>9}{_num(f.min_lx):>9}{_num(f.max_lx):>9}{_num(f.u0):>7}")
+            total = f.with_interreflected_lx
+            if total is not None:
+                mean, lo = float(total.mean()), float(total.min())
+                lines.append(
+                    f"  {'+ interreflected':<16}{_num(mean):>9}{_num(lo):>9}{_num(float(total.max())):>9}"
+                    f"{_num(lo / mean if mean > 0 else 0.0):>7}  ({INTERREFLECTED_LABEL})"
+                )
         for face in s.faces:
             sc, v = face.semicylindrical_lx, face.vertical_lx
             lines.append(
@@ -136,7 +150,10 @@ def format_calculation(report: CalculationReport) -> str:
 
 def write_field_csvs(scene: Scene, report: CalculationReport, out_dir: str | os.PathLike) -> list[Path]:
     """One CSV per setup and field in ``out_dir``: ``x_m,y_m,illuminance_lx`` per grid point,
-    in the order of the fields' points (along the street, then across). Returns the files."""
+    in the order of the fields' points (along the street, then across); with interreflected
+    light two more columns, ``interreflected_lx`` and
+    ``illuminance_incl_interreflected_not_en13201_lx`` (direct plus interreflected: not part of
+    the EN 13201 calculation). Returns the files."""
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
     fields = {f.name: f for f in row_fields(scene)}
@@ -145,8 +162,18 @@ def write_field_csvs(scene: Scene, report: CalculationReport, out_dir: str | os.
         for result in s.fields:
             field = fields[result.name]
             values = result.illuminance_lx.ravel()
-            rows = ["x_m,y_m,illuminance_lx"]
-            rows += [f"{p[0]!r},{p[1]!r},{float(e)!r}" for p, e in zip(field.points_m.tolist(), values, strict=True)]
+            extra = result.interreflected_lx
+            if extra is None:
+                rows = ["x_m,y_m,illuminance_lx"]
+                rows += [
+                    f"{p[0]!r},{p[1]!r},{float(e)!r}" for p, e in zip(field.points_m.tolist(), values, strict=True)
+                ]
+            else:
+                rows = ["x_m,y_m,illuminance_lx,interreflected_lx,illuminance_incl_interreflected_not_en13201_lx"]
+                rows += [
+                    f"{p[0]!r},{p[1]!r},{float(e)!r},{float(r)!r},{float(e + r)!r}"
+                    for p, e, r in zip(field.points_m.tolist(), values, extra.ravel(), strict=True)
+                ]
             stem = file_stem(f"{s.setup or 'scene'}-{result.name}")
             written.append(atomic_write_text(out / f"{stem}.csv", "\n".join(rows) + "\n"))
     return written
