@@ -65,7 +65,6 @@ from typing import TYPE_CHECKING
 
 import numba
 import numpy as np
-from numba import prange
 
 from render.geometry.mesh import TriangleMesh
 from render.light.gloss import fresnel_one, specular_one
@@ -78,6 +77,7 @@ from render.rays.bvh.layout import STACK_SIZE, WIDE
 from render.rays.bvh.packet import LANE_FIELDS, PACKET, PACKET_COS_ANY, lane_result, packet_load, packet_trace
 from render.rays.bvh.single import any_one
 from render.rays.bvh.slab import valid_ray
+from render.threads import run_split
 
 if TYPE_CHECKING:
     from render.light.indirect import IndirectBuffers
@@ -121,10 +121,13 @@ CELL_M = 8.0
 TILE_SAMPLES = 1 << 17
 # Most cells of a culling grid (its mask is cells × luminaires booleans).
 _MAX_CELLS = 1 << 16
-# Samples per parallel work item of the light kernel (scratch arrays are made once per item).
+# Samples per block of the light kernel (scratch arrays are made once per block).
 _BLOCK = 64
-# Blocks of _BLOCK samples a thread takes at a time from the light kernel's work.
+# Blocks of _BLOCK samples per work item of the light kernel; items are interleaved over the
+# threads (render.threads.run_split).
 _CHUNK_BLOCKS = 4
+# Points (or cells, or samples) per work item of the other kernels here.
+_ITEM = 256
 # Margin around the scene's bounds for its culling grid, m.
 _GRID_MARGIN_M = 0.01
 
@@ -196,11 +199,14 @@ def _cell_of(x, y, z, box, cell, nx, ny):
     return int(fy) * nx + int(fx)
 
 
-@numba.njit(cache=True, nogil=True, parallel=True)
-def _cell_lists(x0, y0, cell, nx, ny, z_lo, z_hi, pos, tilt_abs, table, scale, g_grid, n_g, beyond, eps, out_mask):
-    """out_mask[cell, k] = luminaire k may give more than eps somewhere in the cell."""
+@numba.njit(cache=True, nogil=True)
+def _cell_lists(
+    x0, y0, cell, nx, ny, z_lo, z_hi, pos, tilt_abs, table, scale, g_grid, n_g, beyond, eps, out_mask, first, stride
+):
+    """out_mask[cell, k] = luminaire k may give more than eps somewhere in the cell; cells
+    ``first, first + stride, ...`` (:func:`render.threads.run_split`)."""
     L = pos.shape[0]
-    for ci in prange(nx * ny):
+    for ci in range(first, nx * ny, stride):
         ix = ci % nx
         iy = ci // nx
         ax = x0 + ix * cell
@@ -251,48 +257,54 @@ def _unshadowed(px, py, pz, nx_, ny_, nz_, k, lum):
     return scale[k] * inten * cos_s / d2, d
 
 
-@numba.njit(cache=True, nogil=True, parallel=True)
-def _candidates(points, normals, active, lum, grid, eps, counts, out_lum, out_e, out_dir, out_tmax):
+@numba.njit(cache=True, nogil=True)
+def _candidates(points, normals, active, lum, grid, eps, counts, out_lum, out_e, out_dir, out_tmax, first, stride):
     """Per point, the luminaires whose unshadowed contribution reaches ``eps``: written to row
     ``i`` of the (N, K) outputs, their number to ``counts[i]`` (``lum`` and ``grid`` as for
-    :func:`_direct_light`)."""
+    :func:`_direct_light`); points ``first * _ITEM …`` in items of :data:`_ITEM`,
+    interleaved by ``stride``."""
     rot, pos, scale, table, c_grid, g_grid, n_c, n_g, inv_c, inv_g, cd, channel, clearance = lum
     box, cell, nx, ny, cell_start, cell_items = grid
     N = points.shape[0]
-    for i in prange(N):
-        counts[i] = 0
-        if not active[i]:
-            continue
-        px = points[i, 0]
-        py = points[i, 1]
-        pz = points[i, 2]
-        ci = _cell_of(px, py, pz, box, cell, nx, ny)
-        q0 = cell_start[ci] if ci >= 0 else 0
-        q1 = cell_start[ci + 1] if ci >= 0 else pos.shape[0]
-        w = 0
-        for q in range(q0, q1):
-            k = cell_items[q] if ci >= 0 else q
-            e, d = _unshadowed(px, py, pz, normals[i, 0], normals[i, 1], normals[i, 2], k, lum)
-            if e < eps or d == 0.0:
+    for item in range(first, (N + _ITEM - 1) // _ITEM, stride):
+        for i in range(item * _ITEM, min(N, (item + 1) * _ITEM)):
+            counts[i] = 0
+            if not active[i]:
                 continue
-            out_lum[i, w] = k
-            out_e[i, w] = e
-            out_dir[i, w, 0] = -(px - pos[k, 0]) / d
-            out_dir[i, w, 1] = -(py - pos[k, 1]) / d
-            out_dir[i, w, 2] = -(pz - pos[k, 2]) / d
-            out_tmax[i, w] = max(d - clearance[k], 0.0)
-            w += 1
-        counts[i] = w
+            px = points[i, 0]
+            py = points[i, 1]
+            pz = points[i, 2]
+            ci = _cell_of(px, py, pz, box, cell, nx, ny)
+            q0 = cell_start[ci] if ci >= 0 else 0
+            q1 = cell_start[ci + 1] if ci >= 0 else pos.shape[0]
+            w = 0
+            for q in range(q0, q1):
+                k = cell_items[q] if ci >= 0 else q
+                e, d = _unshadowed(px, py, pz, normals[i, 0], normals[i, 1], normals[i, 2], k, lum)
+                if e < eps or d == 0.0:
+                    continue
+                out_lum[i, w] = k
+                out_e[i, w] = e
+                out_dir[i, w, 0] = -(px - pos[k, 0]) / d
+                out_dir[i, w, 1] = -(py - pos[k, 1]) / d
+                out_dir[i, w, 2] = -(pz - pos[k, 2]) / d
+                out_tmax[i, w] = max(d - clearance[k], 0.0)
+                w += 1
+            counts[i] = w
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def _shadow_block(tree, wide_stack, n_pairs, lum_of, origin, direction, t_max, blocked, scratch):
+def _shadow_block(tree, n_pairs, lum_of, origin, direction, t_max, blocked, scratch, n_lanes, width):
     """Shadow rays of one block's (point, luminaire) pairs: the rays toward one luminaire are
     traced together, :data:`PACKET` at a time, through the binary tree when their directions
     agree (:func:`render.rays.bvh.packet.packet_trace`), else one by one through the wide tree;
-    either way each ray's answer is the same (:mod:`render.rays.bvh.query`)."""
+    either way each ray's answer is the same (:mod:`render.rays.bvh.query`). ``n_lanes`` and
+    ``width`` (= PACKET and WIDE, at run time) make the traversal kernels the same
+    specialisations :func:`render.rays.bvh.query._trace_batch` compiles."""
     nb, ni, wb, wi, tv, ti = tree
     lane, st_node, work, ro, rd, rt, members, done = scratch
+    zero = np.int64(0)  # not the literal 0: a literal argument is a kernel of its own
+    occlusion = np.bool_(True)
     for p in range(n_pairs):
         done[p] = False
     for first in range(n_pairs):
@@ -318,19 +330,19 @@ def _shadow_block(tree, wide_stack, n_pairs, lum_of, origin, direction, t_max, b
             coherent = False
             axes = (0, 0, 0)
             if n > 1:
-                coherent, axes = packet_load(lane, ro, rd, rt, 0, n, PACKET_COS_ANY)
+                coherent, axes = packet_load(lane, ro, rd, rt, zero, n, PACKET_COS_ANY)
             if coherent:
-                packet_trace(nb, ni, tv, ti, lane, PACKET, 0.0, axes, st_node, True)
+                packet_trace(nb, ni, tv, ti, lane, n_lanes, 0.0, axes, st_node, occlusion)
                 for r in range(n):
                     blocked[members[r]] = lane_result(lane, r)[1] > 0
             else:
                 for r in range(n):
                     blocked[members[r]] = valid_ray(ro, rd, r) and any_one(
-                        wb, wi, tv, ro[r], rd[r], 0.0, rt[r], st_node, work, WIDE
+                        wb, wi, tv, ro[r], rd[r], 0.0, rt[r], st_node, work, width
                     )
 
 
-@numba.njit(cache=True, nogil=True, parallel=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy")
 def _direct_light(
     points,
     normals,
@@ -354,6 +366,10 @@ def _direct_light(
     divisor,
     out_value,
     out_spec,
+    n_lanes,
+    width,
+    first,
+    stride,
 ):
     """Direct light at N points, one pass per block of points: culling and intensity per
     (point, luminaire), the block's shadow rays (:func:`_shadow_block`), then per point the
@@ -366,149 +382,161 @@ def _direct_light(
     ``out_value[i, c]`` gets the channel's sum of the diffuse part over ``divisor`` (π: the
     white diffuser's luminance; 1: illuminance), ``out_spec[i, c]`` the specular layer's
     luminance (when ``out_spec`` has rows). The sums run over the luminaires in index order,
-    in float64."""
+    in float64. Blocks are taken :data:`_CHUNK_BLOCKS` at a time, work items ``first, first +
+    stride, ...`` (:func:`render.threads.run_split`); ``n_lanes`` and ``width`` as for
+    :func:`_shadow_block`."""
     rot, pos, scale, table, c_grid, g_grid, n_c, n_g, inv_c, inv_g, cd, channel, clearance = lum
     box, cell, nx, ny, cell_start, cell_items = grid
     n = points.shape[0]
     n_ch = out_value.shape[1]
     with_spec = out_spec.shape[0] > 0
     n_blocks = (n + _BLOCK - 1) // _BLOCK
-    for b in prange(n_blocks):
-        i0 = b * _BLOCK
-        i1 = min(n, i0 + _BLOCK)
-        # Room for the block's candidates: each point's cell list, or every luminaire.
-        cap = 0
-        for i in range(i0, i1):
-            if active[i]:
-                ci = _cell_of(points[i, 0], points[i, 1], points[i, 2], box, cell, nx, ny)
-                cap += cell_start[ci + 1] - cell_start[ci] if ci >= 0 else pos.shape[0]
-        count = np.zeros(i1 - i0, np.int64)
-        lum_of = np.empty(cap, np.int64)
-        e_of = np.empty(cap)
-        origin = np.empty((cap, 3))
-        direction = np.empty((cap, 3))
-        t_max = np.empty(cap)
-        blocked = np.zeros(cap, np.bool_)
-        scratch = (
-            np.empty(LANE_FIELDS * PACKET),
-            np.empty(max(STACK_SIZE, wide_stack), np.int64),
-            np.empty(2 * WIDE),
-            np.empty((PACKET, 3)),
-            np.empty((PACKET, 3)),
-            np.empty(PACKET),
-            np.empty(PACKET, np.int64),
-            np.empty(cap, np.bool_),
-        )
-        acc = np.zeros(n_ch)
-        acc_s = np.zeros(n_ch)
-        # Candidates: unshadowed contributions that reach eps.
-        w = 0
-        for i in range(i0, i1):
-            px = points[i, 0]
-            py = points[i, 1]
-            pz = points[i, 2]
-            if not (active[i] and np.isfinite(px) and np.isfinite(py) and np.isfinite(pz)):
-                continue
-            ci = _cell_of(px, py, pz, box, cell, nx, ny)
-            q0 = cell_start[ci] if ci >= 0 else 0
-            q1 = cell_start[ci + 1] if ci >= 0 else pos.shape[0]
-            start = w
-            for q in range(q0, q1):
-                k = cell_items[q] if ci >= 0 else q
-                e, d = _unshadowed(px, py, pz, normals[i, 0], normals[i, 1], normals[i, 2], k, lum)
-                if e < eps or d == 0.0:
+    n_chunks = (n_blocks + _CHUNK_BLOCKS - 1) // _CHUNK_BLOCKS
+    for chunk in range(first, n_chunks, stride):
+        for b in range(chunk * _CHUNK_BLOCKS, min(n_blocks, (chunk + 1) * _CHUNK_BLOCKS)):
+            i0 = b * _BLOCK
+            i1 = min(n, i0 + _BLOCK)
+            # Room for the block's candidates: each point's cell list, or every luminaire.
+            cap = 0
+            for i in range(i0, i1):
+                if active[i]:
+                    ci = _cell_of(points[i, 0], points[i, 1], points[i, 2], box, cell, nx, ny)
+                    cap += cell_start[ci + 1] - cell_start[ci] if ci >= 0 else pos.shape[0]
+            count = np.zeros(i1 - i0, np.int64)
+            lum_of = np.empty(cap, np.int64)
+            e_of = np.empty(cap)
+            origin = np.empty((cap, 3))
+            direction = np.empty((cap, 3))
+            t_max = np.empty(cap)
+            blocked = np.zeros(cap, np.bool_)
+            scratch = (
+                np.empty(LANE_FIELDS * PACKET),
+                np.empty(max(STACK_SIZE, wide_stack), np.int64),
+                np.empty(2 * WIDE),
+                np.empty((PACKET, 3)),
+                np.empty((PACKET, 3)),
+                np.empty(PACKET),
+                np.empty(PACKET, np.int64),
+                np.empty(cap, np.bool_),
+            )
+            acc = np.zeros(n_ch)
+            acc_s = np.zeros(n_ch)
+            # Candidates: unshadowed contributions that reach eps (w an int64 from the start:
+            # with the literal 0, type inference would also compile _shadow_block for 0 pairs).
+            w = np.int64(0)
+            for i in range(i0, i1):
+                px = points[i, 0]
+                py = points[i, 1]
+                pz = points[i, 2]
+                if not (active[i] and np.isfinite(px) and np.isfinite(py) and np.isfinite(pz)):
                     continue
-                lx = -(px - pos[k, 0]) / d
-                ly = -(py - pos[k, 1]) / d
-                lz = -(pz - pos[k, 2]) / d
-                # Shadow-ray origin offset along the receiving side of the geometric normal.
-                gx = offset_normals[i, 0]
-                gy = offset_normals[i, 1]
-                gz = offset_normals[i, 2]
-                step = shadow_offset * np.sign(gx * lx + gy * ly + gz * lz)
-                origin[w, 0] = px + step * gx
-                origin[w, 1] = py + step * gy
-                origin[w, 2] = pz + step * gz
-                direction[w, 0] = lx
-                direction[w, 1] = ly
-                direction[w, 2] = lz
-                t_max[w] = max(d - clearance[k], 0.0)
-                lum_of[w] = k
-                e_of[w] = e
-                w += 1
-            count[i - i0] = w - start
-        if shadows:
-            _shadow_block(tree, wide_stack, w, lum_of, origin, direction, t_max, blocked, scratch)
-        # Sums per point, in candidate (luminaire index) order.
-        w = 0
-        for i in range(i0, i1):
-            m = material[i]
-            f0 = gloss[m, 0] if m >= 0 and m < gloss.shape[0] else 0.0
-            on_road = road_object >= 0 and obj[i] == road_object
-            for c in range(n_ch):
-                acc[c] = 0.0
-                acc_s[c] = 0.0
-            for _ in range(count[i - i0]):
-                if blocked[w]:
+                ci = _cell_of(px, py, pz, box, cell, nx, ny)
+                q0 = cell_start[ci] if ci >= 0 else 0
+                q1 = cell_start[ci + 1] if ci >= 0 else pos.shape[0]
+                start = w
+                for q in range(q0, q1):
+                    k = cell_items[q] if ci >= 0 else q
+                    e, d = _unshadowed(px, py, pz, normals[i, 0], normals[i, 1], normals[i, 2], k, lum)
+                    if e < eps or d == 0.0:
+                        continue
+                    lx = -(px - pos[k, 0]) / d
+                    ly = -(py - pos[k, 1]) / d
+                    lz = -(pz - pos[k, 2]) / d
+                    # Shadow-ray origin offset along the receiving side of the geometric normal.
+                    gx = offset_normals[i, 0]
+                    gy = offset_normals[i, 1]
+                    gz = offset_normals[i, 2]
+                    step = shadow_offset * np.sign(gx * lx + gy * ly + gz * lz)
+                    origin[w, 0] = px + step * gx
+                    origin[w, 1] = py + step * gy
+                    origin[w, 2] = pz + step * gz
+                    direction[w, 0] = lx
+                    direction[w, 1] = ly
+                    direction[w, 2] = lz
+                    t_max[w] = max(d - clearance[k], 0.0)
+                    lum_of[w] = k
+                    e_of[w] = e
                     w += 1
-                    continue
-                k = lum_of[w]
-                e = e_of[w]
-                lx = direction[w, 0]
-                ly = direction[w, 1]
-                lz = direction[w, 2]
-                w += 1
-                ch = channel[k]
-                diffuse = e
-                if f0 > 0.0:
-                    # The base receives what the interface transmits (render.light.gloss).
-                    nx_ = normals[i, 0]
-                    ny_ = normals[i, 1]
-                    nz_ = normals[i, 2]
-                    diffuse = e * (1.0 - fresnel_one(nx_ * lx + ny_ * ly + nz_ * lz, f0))
-                    if with_spec:
-                        f_s = specular_one(
-                            nx_,
-                            ny_,
-                            nz_,
-                            lx,
-                            ly,
-                            lz,
-                            -view_dirs[i, 0],
-                            -view_dirs[i, 1],
-                            -view_dirs[i, 2],
-                            f0,
-                            gloss[m, 1],
+                count[i - i0] = w - start
+            if shadows:
+                _shadow_block(tree, w, lum_of, origin, direction, t_max, blocked, scratch, n_lanes, width)
+            # Sums per point, in candidate (luminaire index) order.
+            w = 0
+            for i in range(i0, i1):
+                m = material[i]
+                f0 = gloss[m, 0] if m >= 0 and m < gloss.shape[0] else 0.0
+                on_road = road_object >= 0 and obj[i] == road_object
+                for c in range(n_ch):
+                    acc[c] = 0.0
+                    acc_s[c] = 0.0
+                for _ in range(count[i - i0]):
+                    if blocked[w]:
+                        w += 1
+                        continue
+                    k = lum_of[w]
+                    e = e_of[w]
+                    lx = direction[w, 0]
+                    ly = direction[w, 1]
+                    lz = direction[w, 2]
+                    w += 1
+                    ch = channel[k]
+                    diffuse = e
+                    if f0 > 0.0:
+                        # The base receives what the interface transmits (render.light.gloss).
+                        nx_ = normals[i, 0]
+                        ny_ = normals[i, 1]
+                        nz_ = normals[i, 2]
+                        diffuse = e * (1.0 - fresnel_one(nx_ * lx + ny_ * ly + nz_ * lz, f0))
+                        if with_spec:
+                            f_s = specular_one(
+                                nx_,
+                                ny_,
+                                nz_,
+                                lx,
+                                ly,
+                                lz,
+                                -view_dirs[i, 0],
+                                -view_dirs[i, 1],
+                                -view_dirs[i, 2],
+                                f0,
+                                gloss[m, 1],
+                            )
+                            acc_s[ch] += e * f_s
+                    if on_road:
+                        # L = q·E (render.light.rtable): the value becomes E·q/ρ̄ in place of E/π.
+                        qv = road_q_one(
+                            view_dirs[i, 0], view_dirs[i, 1], lx, ly, lz, road[0], road[1], road[2], road_scale
                         )
-                        acc_s[ch] += e * f_s
-                if on_road:
-                    # L = q·E (render.light.rtable): the value becomes E·q/ρ̄ in place of E/π.
-                    qv = road_q_one(view_dirs[i, 0], view_dirs[i, 1], lx, ly, lz, road[0], road[1], road[2], road_scale)
-                    diffuse *= qv * road_factor
-                acc[ch] += diffuse
-            for c in range(n_ch):
-                out_value[i, c] = acc[c] / divisor
-                if with_spec:
-                    out_spec[i, c] = acc_s[c]
+                        diffuse *= qv * road_factor
+                    acc[ch] += diffuse
+                for c in range(n_ch):
+                    out_value[i, c] = acc[c] / divisor
+                    if with_spec:
+                        out_spec[i, c] = acc_s[c]
 
 
-@numba.njit(cache=True, nogil=True, parallel=True)
-def _emitter_values(directions, lum_of, rot, pos, scale, table, c_grid, g_grid, n_c, n_g, cd, area, channel, out):
-    """Luminance (cd/m²) of visible luminous openings: I toward the eye / projected area."""
-    for i in prange(directions.shape[0]):
-        k = lum_of[i]
-        if k < 0:
-            continue
-        # Direction from the luminaire toward the eye is -ray direction.
-        dx = -directions[i, 0]
-        dy = -directions[i, 1]
-        dz = -directions[i, 2]
-        # Opening normal: the luminaire's nadir, rotation @ (0, 0, -1).
-        cos_v = -(rot[k, 0, 2] * dx + rot[k, 1, 2] * dy + rot[k, 2, 2] * dz)
-        if cos_v <= 1e-3:
-            continue
-        inten = _intensity(rot, c_grid, g_grid, n_c, n_g, cd, k, table[k], dx, dy, dz)
-        out[i, channel[k]] = scale[k] * inten / (area[k] * cos_v)
+@numba.njit(cache=True, nogil=True)
+def _emitter_values(
+    directions, lum_of, rot, pos, scale, table, c_grid, g_grid, n_c, n_g, cd, area, channel, out, first, stride
+):
+    """Luminance (cd/m²) of visible luminous openings: I toward the eye / projected area
+    (samples in items of :data:`_ITEM`, ``first, first + stride, ...``)."""
+    n = directions.shape[0]
+    for item in range(first, (n + _ITEM - 1) // _ITEM, stride):
+        for i in range(item * _ITEM, min(n, (item + 1) * _ITEM)):
+            k = lum_of[i]
+            if k < 0:
+                continue
+            # Direction from the luminaire toward the eye is -ray direction.
+            dx = -directions[i, 0]
+            dy = -directions[i, 1]
+            dz = -directions[i, 2]
+            # Opening normal: the luminaire's nadir, rotation @ (0, 0, -1).
+            cos_v = -(rot[k, 0, 2] * dx + rot[k, 1, 2] * dy + rot[k, 2, 2] * dz)
+            if cos_v <= 1e-3:
+                continue
+            inten = _intensity(rot, c_grid, g_grid, n_c, n_g, cd, k, table[k], dx, dy, dz)
+            out[i, channel[k]] = scale[k] * inten / (area[k] * cos_v)
 
 
 # ------------------------------------------------------------------------------------------
@@ -559,7 +587,9 @@ def _grid_over(lights: LuminaireSet, lo: np.ndarray, hi: np.ndarray, negligible_
     mask = np.zeros((nx * ny, lights.n_luminaires), np.bool_)
     # Angle between each luminaire's own z axis and world z (its tilt), degrees.
     tilt = np.degrees(np.arccos(np.clip(lights.rotation[:, 2, 2], -1.0, 1.0)))
-    _cell_lists(
+    run_split(
+        _cell_lists,
+        nx * ny,
         float(lo[0]),
         float(lo[1]),
         cell,
@@ -607,6 +637,11 @@ def scene_cull_grid(lights: LuminaireSet, bvh: BVH, negligible_lx: float = NEGLI
     if key not in lights.cull_grids:
         lights.cull_grids[key] = _grid_over(lights, lo, hi, negligible_lx, CELL_M)
     return lights.cull_grids[key]
+
+
+def _n_items(n: int, per_item: int) -> int:
+    """Work items of ``per_item`` for ``n`` elements."""
+    return (int(n) + per_item - 1) // per_item
 
 
 def _clearance(lights: LuminaireSet) -> np.ndarray:
@@ -723,7 +758,9 @@ def direct_pairs(
     e_k = np.zeros((n, K))
     dir_k = np.zeros((n, K, 3))
     tmax_k = np.zeros((n, K))
-    _candidates(
+    run_split(
+        _candidates,
+        _n_items(n, _ITEM),
         pts,
         nrm,
         act,
@@ -813,7 +850,9 @@ def direct_illuminance_lx(
     off = nrm if offset_normals is None else np.ascontiguousarray(offset_normals, np.float64).reshape(-1, 3)
     tree, stack, shadows = _tree_args(bvh)
     no_ids = np.full(n, -1, np.int32)
-    _direct_light(
+    run_split(
+        _direct_light,
+        _n_items(n, _BLOCK * _CHUNK_BLOCKS),
         pts,
         nrm,
         off,
@@ -836,6 +875,8 @@ def direct_illuminance_lx(
         1.0,
         out,
         np.zeros((0, lights.n_channels)),
+        PACKET,
+        WIDE,
     )
     return out
 
@@ -1173,32 +1214,34 @@ class _LightPass:
             view_dirs = direction.astype(np.float64)
             for active, obj, road, road_object, road_scale, road_factor in self._passes(object_id, surf):
                 out_value, out_spec = (value, spec) if active is surf else (np.zeros_like(value), np.zeros_like(spec))
-                # Blocks handed out a few at a time: a busy thread does not hold up the others.
-                with numba.parallel_chunksize(_CHUNK_BLOCKS):
-                    _direct_light(
-                        point.astype(np.float64),
-                        normal.astype(np.float64),
-                        geo.astype(np.float64),
-                        view_dirs,
-                        response,
-                        obj,
-                        active,
-                        self.lum,
-                        self.grid,
-                        self.tree,
-                        self.stack,
-                        self.shadows,
-                        SURFACE_OFFSET_M,
-                        self.negligible_lx,
-                        self.gloss,
-                        road,
-                        road_object,
-                        road_scale,
-                        road_factor,
-                        math.pi,
-                        out_value,
-                        out_spec,
-                    )
+                run_split(
+                    _direct_light,
+                    _n_items(n, _BLOCK * _CHUNK_BLOCKS),
+                    point.astype(np.float64),
+                    normal.astype(np.float64),
+                    geo.astype(np.float64),
+                    view_dirs,
+                    response,
+                    obj,
+                    active,
+                    self.lum,
+                    self.grid,
+                    self.tree,
+                    self.stack,
+                    self.shadows,
+                    SURFACE_OFFSET_M,
+                    self.negligible_lx,
+                    self.gloss,
+                    road,
+                    road_object,
+                    road_scale,
+                    road_factor,
+                    math.pi,
+                    out_value,
+                    out_spec,
+                    PACKET,
+                    WIDE,
+                )
                 if active is not surf:  # the kernel leaves 0 at the samples it does not evaluate
                     value += out_value
                     spec += out_spec
@@ -1208,7 +1251,9 @@ class _LightPass:
         sel = emitter >= 0
         if lights.n_luminaires and np.any(sel):
             out = np.zeros((n, self.n_channels))
-            _emitter_values(
+            run_split(
+                _emitter_values,
+                _n_items(n, _ITEM),
                 direction.astype(np.float64),
                 emitter,
                 lights.rotation,

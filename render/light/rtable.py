@@ -90,10 +90,10 @@ from typing import TYPE_CHECKING
 
 import numba
 import numpy as np
-from numba import prange
 
 from render.errors import input_error
 from render.fileio import is_inside, read_user_text
+from render.threads import run_split
 
 if TYPE_CHECKING:
     from render.geometry.mesh import TriangleMesh
@@ -117,6 +117,8 @@ __all__ = [
 #: The values of ``street.r_table_views``: which views' images shade the carriageway with the
 #: r-table (none; views of kind "driver"; every view).
 R_TABLE_VIEWS = ("none", "driver", "all")
+# Pairs per work item of the q kernel.
+_ITEM = 1024
 
 
 @dataclass(frozen=True)
@@ -292,21 +294,24 @@ def road_q_one(view_x, view_y, lx, ly, lz, beta_grid, tan_grid, r_sr, scale):
     return scale * r / (lz * lz * lz)
 
 
-@numba.njit(cache=True, nogil=True, parallel=True)
-def _road_q_kernel(view_dir, to_light, beta_grid, tan_grid, r_sr, scale, out):
-    """:func:`road_q_one` per (view direction, direction toward the luminaire) pair."""
-    for m in prange(out.shape[0]):
-        out[m] = road_q_one(
-            view_dir[m, 0],
-            view_dir[m, 1],
-            to_light[m, 0],
-            to_light[m, 1],
-            to_light[m, 2],
-            beta_grid,
-            tan_grid,
-            r_sr,
-            scale,
-        )
+@numba.njit(cache=True, nogil=True)
+def _road_q_kernel(view_dir, to_light, beta_grid, tan_grid, r_sr, scale, out, first, stride):
+    """:func:`road_q_one` per (view direction, direction toward the luminaire) pair, for the
+    pairs of items ``first, first + stride, ...`` of :data:`_ITEM` (:func:`render.threads.run_split`)."""
+    n = out.shape[0]
+    for item in range(first, (n + _ITEM - 1) // _ITEM, stride):
+        for m in range(item * _ITEM, min(n, (item + 1) * _ITEM)):
+            out[m] = road_q_one(
+                view_dir[m, 0],
+                view_dir[m, 1],
+                to_light[m, 0],
+                to_light[m, 1],
+                to_light[m, 2],
+                beta_grid,
+                tan_grid,
+                r_sr,
+                scale,
+            )
 
 
 def road_q_sr(table: RTable, view_dir: np.ndarray, to_light: np.ndarray, scale: float = 1.0) -> np.ndarray:
@@ -320,7 +325,9 @@ def road_q_sr(table: RTable, view_dir: np.ndarray, to_light: np.ndarray, scale: 
     lv = np.ascontiguousarray(to_light, np.float64).reshape(-1, 3)
     out = np.zeros(lv.shape[0])
     if out.size:
-        _road_q_kernel(
+        run_split(
+            _road_q_kernel,
+            (out.shape[0] + _ITEM - 1) // _ITEM,
             v,
             lv,
             np.ascontiguousarray(table.beta_deg, np.float64),

@@ -31,10 +31,10 @@ from typing import Any
 
 import numba
 import numpy as np
-from numba import prange
 
 from render.errors import ProblemList, input_error
 from render.limits import MAX_SAMPLES_PER_PIXEL
+from render.threads import run_split
 
 # Samples per pixel above this are refused (a user typo such as 40000 would otherwise try to
 # allocate gigabytes of rays).
@@ -190,6 +190,8 @@ class Camera:
 # Counter-based random numbers
 # --------------------------------------------------------------------------------------------
 
+# Pixels per work item of the ray kernel.
+_ITEM = 256
 _GOLDEN = np.uint64(0x9E3779B97F4A7C15)
 _MIX1 = np.uint64(0xBF58476D1CE4E5B9)
 _MIX2 = np.uint64(0x94D049BB133111EB)
@@ -217,46 +219,67 @@ def seed_key(seed: int) -> np.uint64:
     return np.uint64(rng.integers(0, np.iinfo(np.uint64).max, dtype=np.uint64, endpoint=True))
 
 
-@numba.njit(cache=True, nogil=True, parallel=True)
+@numba.njit(cache=True, nogil=True)
 def _ray_kernel(
-    pixels, width, height, spp, grid, key, jitter, pos, right, up, fwd, half_w, half_h, out_o, out_d, out_p
+    pixels,
+    width,
+    height,
+    spp,
+    grid,
+    key,
+    jitter,
+    pos,
+    right,
+    up,
+    fwd,
+    half_w,
+    half_h,
+    out_o,
+    out_d,
+    out_p,
+    first,
+    stride,
 ):
+    """The rays of the pixels in items ``first, first + stride, ...`` of :data:`_ITEM` pixels
+    (:func:`render.threads.run_split`)."""
     n_cells = grid * grid
-    for k in prange(pixels.shape[0]):
-        p = pixels[k]
-        px = np.float64(p % width)
-        py = np.float64(p // width)
-        pu = np.uint64(p)
-        if spp == n_cells:
-            rot = 0
-        else:
-            rot = np.int64(_mix64(key ^ _mix64(pu ^ _GOLDEN)) % np.uint64(n_cells))
-        for s in range(spp):
-            cell = (s + rot) % n_cells
-            cx = cell % grid
-            cy = cell // grid
-            if jitter:
-                jx = _uniform(key, pu, np.uint64(2 * s))
-                jy = _uniform(key, pu, np.uint64(2 * s + 1))
+    n = pixels.shape[0]
+    for item in range(first, (n + _ITEM - 1) // _ITEM, stride):
+        for k in range(item * _ITEM, min(n, (item + 1) * _ITEM)):
+            p = pixels[k]
+            px = np.float64(p % width)
+            py = np.float64(p // width)
+            pu = np.uint64(p)
+            if spp == n_cells:
+                rot = 0
             else:
-                jx = 0.5
-                jy = 0.5
-            x = px + (cx + jx) / grid
-            y = py + (cy + jy) / grid
-            a = (2.0 * x / width - 1.0) * half_w
-            b = (1.0 - 2.0 * y / height) * half_h
-            i = k * spp + s
-            dx = fwd[0] + a * right[0] + b * up[0]
-            dy = fwd[1] + a * right[1] + b * up[1]
-            dz = fwd[2] + a * right[2] + b * up[2]
-            inv = 1.0 / math.sqrt(dx * dx + dy * dy + dz * dz)
-            out_d[i, 0] = dx * inv
-            out_d[i, 1] = dy * inv
-            out_d[i, 2] = dz * inv
-            out_o[i, 0] = pos[0]
-            out_o[i, 1] = pos[1]
-            out_o[i, 2] = pos[2]
-            out_p[i] = p
+                rot = np.int64(_mix64(key ^ _mix64(pu ^ _GOLDEN)) % np.uint64(n_cells))
+            for s in range(spp):
+                cell = (s + rot) % n_cells
+                cx = cell % grid
+                cy = cell // grid
+                if jitter:
+                    jx = _uniform(key, pu, np.uint64(2 * s))
+                    jy = _uniform(key, pu, np.uint64(2 * s + 1))
+                else:
+                    jx = 0.5
+                    jy = 0.5
+                x = px + (cx + jx) / grid
+                y = py + (cy + jy) / grid
+                a = (2.0 * x / width - 1.0) * half_w
+                b = (1.0 - 2.0 * y / height) * half_h
+                i = k * spp + s
+                dx = fwd[0] + a * right[0] + b * up[0]
+                dy = fwd[1] + a * right[1] + b * up[1]
+                dz = fwd[2] + a * right[2] + b * up[2]
+                inv = 1.0 / math.sqrt(dx * dx + dy * dy + dz * dz)
+                out_d[i, 0] = dx * inv
+                out_d[i, 1] = dy * inv
+                out_d[i, 2] = dz * inv
+                out_o[i, 0] = pos[0]
+                out_o[i, 1] = pos[1]
+                out_o[i, 2] = pos[2]
+                out_p[i] = p
 
 
 def _check_spp(samples_per_pixel) -> int:
@@ -315,7 +338,9 @@ def camera_rays(
     out_d = np.empty((n, 3))
     out_p = np.empty(n, np.int64)
     if n:
-        _ray_kernel(
+        run_split(
+            _ray_kernel,
+            (pix.shape[0] + _ITEM - 1) // _ITEM,
             pix,
             camera.width_px,
             camera.height_px,

@@ -21,8 +21,10 @@ The modules, each readable alone, in the order data flows through them:
 
 The kernels are numba functions cached on disk; numba checks only a kernel's own file when it
 decides whether its cache is stale, and the small functions of ``slab`` and ``triangle`` are
-inlined into the traversal kernels. After editing any module here, delete the package's numba
-cache (``__pycache__/*.nbi``, ``*.nbc``, or the folder ``NUMBA_CACHE_DIR`` names).
+compiled into the traversal kernels. After editing any module here, delete the package's numba
+cache (``__pycache__/*.nbi``, ``*.nbc``, or the folder ``NUMBA_CACHE_DIR`` names). The batch
+kernels are serial and run side by side on threads (:mod:`render.threads`): a ``prange``
+kernel takes several times longer to compile.
 """
 
 from render.rays.bvh.build import build_bvh

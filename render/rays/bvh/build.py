@@ -287,23 +287,27 @@ def _build_kernel(lo, hi, cen, n_bins, max_leaf, c_trav, c_isect):
     right_box = np.empty(6)
     box = np.empty(6)
 
-    n_nodes = 1
+    # Indices passed to the kernels below as int64 values, not literals: numba compiles a
+    # called kernel once per literal argument value.
+    zero = np.int64(0)
+    one = np.int64(1)
+    n_nodes = one
     max_depth = 1
     if n_tri == 1:
-        _range_bounds(idx, lo, hi, 0, 1, box)
-        _put_box(bounds, 0, 0, box)
+        _range_bounds(idx, lo, hi, zero, one, box)
+        _put_box(bounds, zero, zero, box)
         child[0, 0] = -1
         count[0, 0] = 1
         return bounds, child, count, idx, 1, 1
 
     # The root is always an inner node (so that traversal can start by testing its children).
-    _range_bounds(idx, lo, hi, 0, n_tri, box)
+    _range_bounds(idx, lo, hi, zero, n_tri, box)
     mid, _ = _binned_sah_split(
         idx,
         lo,
         hi,
         cen,
-        0,
+        zero,
         n_tri,
         max(_half_area(box[0], box[1], box[2], box[3], box[4], box[5]), 1e-300),
         n_bins,
@@ -313,11 +317,11 @@ def _build_kernel(lo, hi, cen, n_bins, max_leaf, c_trav, c_isect):
         right_box,
     )
     if mid < 0:
-        mid = _median_split(idx, cen, 0, n_tri)
-        _range_bounds(idx, lo, hi, 0, mid, left_box)
+        mid = _median_split(idx, cen, zero, n_tri)
+        _range_bounds(idx, lo, hi, zero, mid, left_box)
         _range_bounds(idx, lo, hi, mid, n_tri, right_box)
-    _put_box(bounds, 0, 0, left_box)
-    _put_box(bounds, 0, 1, right_box)
+    _put_box(bounds, zero, zero, left_box)
+    _put_box(bounds, zero, one, right_box)
     sp = _push_children(work, 0, 0, mid, n_tri, 0, 2)
 
     while sp > 0:
@@ -357,8 +361,8 @@ def _build_kernel(lo, hi, cen, n_bins, max_leaf, c_trav, c_isect):
             max_depth = depth
         child[parent, slot] = node
         count[parent, slot] = 0
-        _put_box(bounds, node, 0, left_box)
-        _put_box(bounds, node, 1, right_box)
+        _put_box(bounds, node, zero, left_box)
+        _put_box(bounds, node, one, right_box)
         sp = _push_children(work, sp, start, mid, end, node, depth + 1)
     return bounds, child, count, idx, n_nodes, max_depth
 

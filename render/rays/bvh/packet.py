@@ -117,7 +117,7 @@ def packet_load(
     return coherent, (kx0, ky0, kz0)
 
 
-@numba.njit(cache=True, nogil=True, inline="always")
+@numba.njit(cache=True, nogil=True)
 def lane_result(lane: np.ndarray, r: int) -> tuple[float, int, float, float]:
     """Lane ``r``'s result ``(t, triangle, u, v)`` after :func:`packet_trace`: triangle -1 for
     a miss; for an occlusion query triangle 1 means occluded."""
@@ -154,7 +154,7 @@ def _packet_boxes(nb, node, lane, n_lanes, t_min):
     return h0, h1, both, vote1
 
 
-@numba.njit(cache=True, nogil=True, inline="always")
+@numba.njit(cache=True, nogil=True)
 def _lane_hit(lane, r, tri):
     """Watertight test of triangle ``tri`` (permuted vertices) against lane ``r``."""
     p = (lane[_PX + r], lane[_PY + r], lane[_PZ + r])
@@ -197,7 +197,7 @@ def _leaf_any(tv, first, count, lane, n_lanes, t_min, k):
     return newly
 
 
-@numba.njit(cache=True, nogil=True, inline="always")
+@numba.njit(cache=True, nogil=True)
 def _visit_leaf(nb_i32, node, c, tv, ti, lane, n_lanes, t_min, k, occlusion):
     """Test leaf child ``c`` of ``node``; returns the lanes it newly occluded (0 for closest)."""
     first = -nb_i32[node, 12 + c] - 1
@@ -225,7 +225,9 @@ def packet_trace(
     ``tv``/``ti`` the BVH's triangles and index; ``st_node`` a scratch stack). Closest hit, or
     with ``occlusion`` any hit, stopping when every lane that can be hit is occluded. Results stay
     in ``lane`` (:func:`lane_result`)."""
-    node = 0
+    # int64, not the literal 0: numba compiles a called kernel once per literal argument, and
+    # type inference would otherwise compile _packet_boxes for node = 0 as well.
+    node = np.int64(0)
     sp = 0
     left = 0  # lanes not yet occluded
     for r in range(n_lanes):

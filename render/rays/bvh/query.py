@@ -1,7 +1,8 @@
 """Batched ray queries: closest hit and any hit (occlusion) for arrays of rays.
 
-A batch is split over threads (numba ``prange``) in work items of a few packets. Within an
-item, each run of :data:`~render.rays.bvh.packet.PACKET` consecutive rays whose directions are
+A batch is split into work items of a few packets, interleaved over threads
+(:func:`render.threads.run_split`; the kernel itself is serial, which compiles several times
+faster than a ``prange`` loop). Within an item, each run of :data:`~render.rays.bvh.packet.PACKET` consecutive rays whose directions are
 close is traced as a packet through the binary tree (:mod:`render.rays.bvh.packet`); other rays
 go one by one through the 8-wide tree (:mod:`render.rays.bvh.single`). Both paths compute each
 ray with the same floating-point operations and break exact ties in ``t`` by the lower triangle
@@ -22,7 +23,6 @@ from __future__ import annotations
 
 import numba
 import numpy as np
-from numba import prange
 
 from render.rays.bvh.layout import BVH, STACK_SIZE, WIDE, Hits
 from render.rays.bvh.packet import (
@@ -36,13 +36,13 @@ from render.rays.bvh.packet import (
 )
 from render.rays.bvh.single import any_one, closest_one
 from render.rays.bvh.slab import valid_ray
+from render.threads import run_split
 
 __all__ = ["intersect_any", "intersect_closest"]
 
-# Packets per parallel work item, and work items handed to a thread at a time (dynamic
-# scheduling balances the cheap sky rays against the busy ones).
+# Packets per work item; items are interleaved over the threads, which balances the cheap sky
+# rays against the busy ones.
 _PACKETS_PER_ITEM = 4
-_CHUNK_ITEMS = 4
 
 
 @numba.njit(cache=True, nogil=True, inline="always")
@@ -60,24 +60,37 @@ def _store(i, t, j, u, v, out_t, out_tri, out_u, out_v):
         out_v[i] = 0.0
 
 
-@numba.njit(cache=True, nogil=True, parallel=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy")
 def _trace_batch(
-    tree, wide_stack, origins, directions, t_min, t_max, n_lanes, width, use_packets, packet_cos, occlusion, out
+    tree,
+    wide_stack,
+    origins,
+    directions,
+    t_min,
+    t_max,
+    n_lanes,
+    width,
+    use_packets,
+    packet_cos,
+    occlusion,
+    out,
+    first,
+    stride,
 ):
-    """Trace a batch through ``tree`` = (binary nodes, their int32 view, wide nodes, their int32
-    view, triangle vertices, triangle index). Closest hits go into ``out`` = (t, triangle, u, v,
-    _) or, with ``occlusion``, any hit into ``out[4]`` (the other outputs are then not
-    touched)."""
+    """Trace work items ``first, first + stride, ...`` of a batch through ``tree`` = (binary
+    nodes, their int32 view, wide nodes, their int32 view, triangle vertices, triangle index).
+    Closest hits go into ``out`` = (t, triangle, u, v, _) or, with ``occlusion``, any hit into
+    ``out[4]`` (the other outputs are then not touched)."""
     nb, ni, wb, wi, tv, ti = tree
     out_t, out_tri, out_u, out_v, out_hit = out
     n_rays = origins.shape[0]
     per_item = PACKET * _PACKETS_PER_ITEM
     n_items = (n_rays + per_item - 1) // per_item
-    for item in prange(n_items):
-        lane = np.empty(LANE_FIELDS * PACKET)
-        st_node = np.empty(max(STACK_SIZE, wide_stack), np.int64)
-        st_t = np.empty(wide_stack)
-        work = np.empty(2 * WIDE)
+    lane = np.empty(LANE_FIELDS * PACKET)
+    st_node = np.empty(max(STACK_SIZE, wide_stack), np.int64)
+    st_t = np.empty(wide_stack)
+    work = np.empty(2 * WIDE)
+    for item in range(first, n_items, stride):
         stop = min(n_rays, (item + 1) * per_item)
         for start in range(item * per_item, stop, PACKET):
             n = min(PACKET, stop - start)
@@ -141,21 +154,23 @@ def _run(
     """Run :func:`_trace_batch` on prepared rays (see :func:`intersect_closest`)."""
     # The lane count and tree width are passed at run time so that LLVM vectorises the loops
     # over them instead of unrolling them. Every entry of the requested outputs is written.
-    with numba.parallel_chunksize(_CHUNK_ITEMS):
-        _trace_batch(
-            (bvh.nodes, bvh.nodes_i32, bvh.wide_nodes, bvh.wide_nodes_i32, bvh.tri_vertices, bvh.tri_index),
-            bvh.wide_stack,
-            o,
-            d,
-            float(t_min),
-            tm,
-            PACKET,
-            WIDE,
-            bool(packets),
-            PACKET_COS_ANY if occlusion else PACKET_COS,
-            occlusion,
-            out,
-        )
+    per_item = PACKET * _PACKETS_PER_ITEM
+    run_split(
+        _trace_batch,
+        (o.shape[0] + per_item - 1) // per_item,
+        (bvh.nodes, bvh.nodes_i32, bvh.wide_nodes, bvh.wide_nodes_i32, bvh.tri_vertices, bvh.tri_index),
+        bvh.wide_stack,
+        o,
+        d,
+        float(t_min),
+        tm,
+        PACKET,
+        WIDE,
+        bool(packets),
+        PACKET_COS_ANY if occlusion else PACKET_COS,
+        occlusion,
+        out,
+    )
 
 
 def intersect_closest(

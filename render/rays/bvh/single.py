@@ -28,7 +28,7 @@ from render.rays.bvh.triangle import intersect_triangle, ray_shear, triangle_ver
 __all__ = ["any_one", "closest_one"]
 
 
-@numba.njit(cache=True, nogil=True, inline="always")
+@numba.njit(cache=True, nogil=True)
 def _ray_constants(o, d):
     """Axes ``k`` and shear ``s`` (Woop et al. 2013), the origin permuted to ``k`` and as is,
     and the inverse direction of one ray."""
@@ -38,7 +38,7 @@ def _ray_constants(o, d):
     return (kx, ky, kz), (o[kx], o[ky], o[kz]), (sx, sy, sz), origin, inverse
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
+@numba.njit(cache=True, nogil=True, error_model="numpy")
 def _wide_boxes(wb, node, origin, inverse, t_min, work, width):
     """Slab interval of every child box of wide ``node``: near (at least ``t_min``) in
     ``work[c]``, far in ``work[WIDE + c]``. ``width`` (= WIDE) is passed at run time so that

@@ -28,7 +28,7 @@ ROBUST_FAR = 1.0 + 2.0 * (3.0 * _F64_EPS) / (1.0 - 3.0 * _F64_EPS)
 BIG_INV = 1e300
 
 
-@numba.njit(cache=True, nogil=True, inline="always")
+@numba.njit(cache=True, nogil=True)
 def safe_inverse(d: float) -> float:
     """``1 / d`` clamped to ``[-BIG_INV, BIG_INV]`` (``BIG_INV`` for ``d == 0``)."""
     if d == 0.0:
@@ -41,7 +41,7 @@ def safe_inverse(d: float) -> float:
     return inv
 
 
-@numba.njit(cache=True, nogil=True, inline="always")
+@numba.njit(cache=True, nogil=True)
 def valid_ray(origins: np.ndarray, directions: np.ndarray, i: int) -> bool:
     """A ray can hit something only with a finite origin and a finite, non-zero direction."""
     ok = True
@@ -52,7 +52,7 @@ def valid_ray(origins: np.ndarray, directions: np.ndarray, i: int) -> bool:
     return ok and nonzero
 
 
-@numba.njit(cache=True, nogil=True, inline="always", error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy")
 def slab_interval(
     lo: tuple[float, float, float],
     hi: tuple[float, float, float],

@@ -9,7 +9,9 @@ between the triangles. The test is two-sided (no back-face culling) and runs in 
 
 :func:`intersect_triangle` is written without branches so that a packet's per-lane loop
 vectorises; single rays call it too, so a ray gets bit-identical results whichever path traces
-it. All functions here are inlined into their callers (``inline="always"``).
+it. The functions here are small numba functions compiled once each and linked into every
+traversal kernel, where LLVM inlines them (numba-level ``inline="always"`` would copy them
+into each caller's IR and lengthen every first compilation).
 
 References
 ----------
@@ -27,7 +29,7 @@ __all__ = ["intersect_triangle", "ray_shear", "triangle_vertices"]
 Vec3 = tuple[float, float, float]
 
 
-@numba.njit(cache=True, nogil=True, inline="always")
+@numba.njit(cache=True, nogil=True)
 def ray_shear(dx: float, dy: float, dz: float) -> tuple[int, int, int, float, float, float]:
     """Per-ray constants of the watertight test (Woop et al. 2013, section 3).
 
@@ -63,7 +65,7 @@ def ray_shear(dx: float, dy: float, dz: float) -> tuple[int, int, int, float, fl
     return kx, ky, kz, sx, sy, sz
 
 
-@numba.njit(cache=True, nogil=True, inline="always")
+@numba.njit(cache=True, nogil=True)
 def triangle_vertices(tv: np.ndarray, j: int, k: tuple[int, int, int]) -> tuple[Vec3, Vec3, Vec3]:
     """Vertices v0, v1, v2 of row ``j`` of ``tv`` (M, 9), each permuted to the axes ``k``
     = (kx, ky, kz) of :func:`ray_shear`."""
@@ -75,7 +77,7 @@ def triangle_vertices(tv: np.ndarray, j: int, k: tuple[int, int, int]) -> tuple[
     )
 
 
-@numba.njit(cache=True, nogil=True, inline="always", error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy")
 def intersect_triangle(tri: tuple[Vec3, Vec3, Vec3], p: Vec3, s: Vec3) -> tuple[bool, float, float, float]:
     """Watertight ray/triangle test (Woop, Benthin & Wald 2013).
 
