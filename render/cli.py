@@ -308,6 +308,7 @@ def _print_images(args: argparse.Namespace, images: list[dict[str, Any]]) -> Non
 def cmd_render(args: argparse.Namespace) -> int:
     """Render one view: an absolute EXR and display PNGs (and AOV images with ``--aov``)."""
     study = _study(args)
+    _start_warmup(args)
     view = study.scene.view(args.view)
     out = _out_dir(args.out, Path(args.scene).stem)
     spp = args.spp or study.scene.render.samples_per_pixel
@@ -624,6 +625,7 @@ def cmd_compare(args: argparse.Namespace) -> int:
     from render.output.comparison import run_comparison
 
     study = _study(args)
+    _start_warmup(args)
     observer = _observer_from_args(study, args)
     out = _out_dir(args.out, f"{Path(args.scene).stem}-compare")
     before = args.before or study.scene.compare_before
@@ -766,6 +768,14 @@ def _study(args: argparse.Namespace) -> Study:
     if getattr(args, "bounces", None) is not None:
         scene.render.bounces = args.bounces
     return Study(scene)
+
+
+def _start_warmup(args: argparse.Namespace) -> None:
+    """On a first run (kernels not yet cached), compile the later kernels in a helper process
+    while this one loads and traces (:mod:`render.warmup`; stopped by :func:`main`)."""
+    from render.warmup import start
+
+    start(args.scene)
 
 
 def _output_options(p: argparse.ArgumentParser) -> None:
@@ -1116,3 +1126,7 @@ def main(argv: list[str] | None = None) -> int:
             file=sys.stderr,
         )
         return 1
+    finally:
+        warmup = sys.modules.get("render.warmup")
+        if warmup is not None:
+            warmup.stop_all()

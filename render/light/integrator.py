@@ -60,6 +60,7 @@ References
 from __future__ import annotations
 
 import math
+import sys
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
@@ -96,6 +97,7 @@ __all__ = [
     "SampleGeometry",
     "ViewRays",
     "cast_view",
+    "compile_light_kernels",
     "cull_grid",
     "direct_illuminance_lx",
     "direct_pairs",
@@ -1212,6 +1214,9 @@ class _LightPass:
         surf = (response >= 0) & (response != emitter_response)
         if self.grid is not None and np.any(surf):
             view_dirs = direction.astype(np.float64)
+            warmup = sys.modules.get("render.warmup")
+            if warmup is not None:  # a first run: the light kernel may be compiling in a helper
+                warmup.wait_for_light_kernel()
             for active, obj, road, road_object, road_scale, road_factor in self._passes(object_id, surf):
                 out_value, out_spec = (value, spec) if active is surf else (np.zeros_like(value), np.zeros_like(spec))
                 run_split(
@@ -1250,27 +1255,54 @@ class _LightPass:
         lights = self.lights
         sel = emitter >= 0
         if lights.n_luminaires and np.any(sel):
-            out = np.zeros((n, self.n_channels))
-            run_split(
-                _emitter_values,
-                _n_items(n, _ITEM),
-                direction.astype(np.float64),
-                emitter,
-                lights.rotation,
-                lights.position_m,
-                lights.scale,
-                lights.table,
-                lights.c_grid,
-                lights.g_grid,
-                lights.n_c,
-                lights.n_g,
-                lights.cd_table,
-                self.area,
-                lights.channel,
-                out,
-            )
+            out = _opening_values(direction, emitter, lights, self.area)
             value[sel] = out[sel].astype(np.float32)
         return value, spec
+
+
+def _opening_values(direction: np.ndarray, emitter: np.ndarray, lights: LuminaireSet, area: np.ndarray) -> np.ndarray:
+    """(n, C) float64 luminance of the luminous opening each sample sees (``emitter`` >= 0),
+    per channel; 0 elsewhere."""
+    out = np.zeros((emitter.shape[0], lights.n_channels))
+    run_split(
+        _emitter_values,
+        _n_items(emitter.shape[0], _ITEM),
+        direction.astype(np.float64),
+        emitter,
+        lights.rotation,
+        lights.position_m,
+        lights.scale,
+        lights.table,
+        lights.c_grid,
+        lights.g_grid,
+        lights.n_c,
+        lights.n_g,
+        lights.cd_table,
+        area,
+        lights.channel,
+        out,
+    )
+    return out
+
+
+def compile_light_kernels(lights: LuminaireSet, which: tuple[str, ...] = ("direct", "openings", "pairs")) -> None:
+    """Compile (or load from numba's cache) the light kernels for the argument types a render
+    and a calculation of ``lights`` pass them, by running each on one sample without shadows:
+    ``direct`` light (:func:`direct_illuminance_lx`), luminous ``openings`` and the
+    candidate ``pairs`` of :func:`direct_pairs`. Used by :mod:`render.warmup`."""
+    if lights.n_luminaires == 0:
+        return
+    # One point above a grid of no height: outside it, so every luminaire is a candidate.
+    point = np.array([[0.0, 0.0, 1.0]])
+    normal = np.array([[0.0, 0.0, 1.0]])
+    grid = cull_grid(lights, np.zeros((0, 3)))
+    if "openings" in which:
+        direction = np.array([[0.0, 0.0, 1.0]], np.float32)
+        _opening_values(direction, np.zeros(1, np.int32), lights, lights.opening_m[:, 0] * lights.opening_m[:, 1])
+    if "direct" in which:
+        direct_illuminance_lx(point, normal, lights, None, grid=grid)
+    if "pairs" in which:
+        direct_pairs(point, normal, lights, None, grid=grid)
 
 
 def render_buffers(

@@ -1,0 +1,123 @@
+"""The helper process that compiles a command's later kernels on a first run (render.warmup).
+
+Checks of behaviour, not of physics: the helper must compile the very specialisations the
+command looks up (else it only costs time), must end with the command, and must not start
+when it cannot help. Common practice, no source.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import subprocess
+import sys
+import textwrap
+import time
+from pathlib import Path
+
+import pytest
+
+import render.warmup as warmup
+from render.resources import demo_scene_path
+
+ROOT = Path(__file__).resolve().parents[1]
+
+# Record the top-level kernels numba compiles (not those loaded from its cache) while running
+# CODE, and print their names as JSON on the last line.
+_LISTENER = textwrap.dedent(
+    """
+    import json, sys, threading
+    from numba.core import event
+    compiled, depth = [], threading.local()
+    class Listener(event.Listener):
+        def on_start(self, ev):
+            depth.n = getattr(depth, "n", 0) + 1
+        def on_end(self, ev):
+            depth.n -= 1
+            if depth.n == 0:
+                compiled.append(ev.data["dispatcher"].py_func.__qualname__)
+    event.register("numba:compile", Listener())
+    {code}
+    print(json.dumps(compiled))
+    """
+)
+
+
+def _compiled_by(code: str, cache: Path, tmp: Path) -> list[str]:
+    env = {**os.environ, "NUMBA_CACHE_DIR": str(cache), warmup.ENV_SWITCH: "0", "PYTHONPATH": str(ROOT)}
+    done = subprocess.run(
+        [sys.executable, "-c", _LISTENER.format(code=code)],
+        cwd=tmp,
+        env=env,
+        capture_output=True,
+        text=True,
+        timeout=900,
+        check=True,
+    )
+    return json.loads(done.stdout.strip().splitlines()[-1])
+
+
+def test_helper_compiles_what_the_command_then_loads(tmp_path):
+    """With a fresh kernel cache, the kernels the helper compiles for the demo are loaded from
+    the cache by the demo itself (a tiny one), not compiled again. Breaking the helper's
+    inputs (int64 opening indices for the openings kernel, say) makes the demo compile them
+    again, which this check catches (the tiny demo sees openings at 96 pixels wide)."""
+    cache = tmp_path / "numba"
+    scene = str(demo_scene_path())
+    helper = _compiled_by(f"from render.warmup import warm\nwarm({scene!r})", cache, tmp_path)
+    assert "_direct_light" in helper and "_emitter_values" in helper and "_candidates" in helper
+    out = tmp_path / "out"
+    command = _compiled_by(
+        "from render.cli import main\n"
+        f"assert main(['demo', '--width', '96', '--spp', '1', '--out', {str(out)!r}, '-q']) == 0",
+        cache,
+        tmp_path,
+    )
+    # The rod-intrusion kernel's array flags (read-only views or copies) follow the image's
+    # dtype path through the glare step, which a synthetic view does not reproduce.
+    again = set(helper) & set(command) - {"_rod_kernel"}
+    assert not again, f"compiled by the helper and again by the command: {sorted(again)}"
+    assert "_build_kernel" in command  # the command's own early kernels
+
+
+def test_helper_not_started_when_it_cannot_help(monkeypatch):
+    monkeypatch.setenv(warmup.ENV_SWITCH, "0")
+    assert warmup.start(demo_scene_path()) is None
+    monkeypatch.delenv(warmup.ENV_SWITCH)
+    monkeypatch.setattr(warmup, "kernels_cached", lambda: True)
+    assert warmup.start(demo_scene_path()) is None
+
+
+def test_helper_stops_with_the_command(monkeypatch, tmp_path):
+    """The command line's handler stops a helper still running when the command ends."""
+    started: list[warmup.Warmup] = []
+    real_start = warmup.start
+
+    def start(scene_path):
+        w = real_start(scene_path)
+        started.append(w)
+        return w
+
+    monkeypatch.setattr(warmup, "kernels_cached", lambda: False)
+    monkeypatch.setattr(warmup, "start", start)
+    from render.cli import main
+
+    t0 = time.monotonic()
+    assert main(["demo", "--width", "8", "--spp", "1", "--view", "footway", "--out", str(tmp_path / "o"), "-q"]) == 0
+    assert started and started[0] is not None
+    assert started[0].process.poll() is not None, "the helper outlived the command"
+    assert time.monotonic() - t0 < 600
+
+
+def test_close_stops_a_running_helper():
+    w = warmup.Warmup(subprocess.Popen([sys.executable, "-c", "import time; time.sleep(60)"]))
+    assert w.running()
+    t0 = time.monotonic()
+    w.close()
+    assert not w.running() and time.monotonic() - t0 < 10
+
+
+@pytest.mark.parametrize("value", ["0", "no", "off", "False"])
+def test_switch_values(monkeypatch, value):
+    monkeypatch.setenv(warmup.ENV_SWITCH, value)
+    assert warmup._switched_off()
