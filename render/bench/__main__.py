@@ -6,6 +6,7 @@
 * ``calc`` -- a full calculation of a scene vs one view's render (:mod:`render.bench.calc`).
 * ``report`` -- report.html's size, bytes per embedded image kind, figure drawing time (:mod:`render.bench.report`).
 * ``peer`` -- a direct-light render against Mitsuba 3, side by side (:mod:`render.bench.peer`).
+* ``peer-indirect`` -- interreflected light per region against Mitsuba 3's spectral path tracer (:mod:`render.bench.peer_indirect`).
 * ``study`` -- design-study throughput on 1 and 2 Dask workers (:mod:`render.bench.study`).
 * ``demo`` -- the whole ``lampcast demo``, warm, optionally against another tree (:mod:`render.bench.demo`).
 * ``startup`` -- quick commands as new processes, a 1M-triangle OBJ, a cold demo (:mod:`render.bench.startup`).
@@ -17,7 +18,7 @@ from __future__ import annotations
 import argparse
 import sys
 
-from render.bench import calc, demo, indirect, light, peer, rays, report, startup
+from render.bench import calc, demo, indirect, light, peer, peer_indirect, rays, report, startup
 from render.bench import study as study_bench
 from render.bench import vision as vision_bench
 
@@ -31,6 +32,7 @@ def build_parser() -> argparse.ArgumentParser:
     calc.add_parser(sub)
     report.add_parser(sub)
     peer.add_parser(sub)
+    peer_indirect.add_parser(sub)
     study_bench.add_parser(sub)
     startup.add_parser(sub)
     demo.add_parser(sub)
