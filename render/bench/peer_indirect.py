@@ -35,22 +35,25 @@ roulette is off on both sides (lampcast: it would start after the last bounce; M
 **Regions.** Pixel sets chosen once from a separate lampcast render (:data:`MASK_SEED`, its own
 camera samples, so the choice is independent of every estimate): the pixels all of whose
 samples see one surface, split by whether every sample is lit directly or every sample is in
-shadow; a pixel with a luminous opening in it is left out (a Mitsuba point light is invisible).
-With a box pixel filter on both sides a pixel's expected value is the mean over its area, the
-same for both renderers, so any set of pixels compares like with like. Per region: the mean
+shadow, less every pixel next to one outside that set (so no pixel straddles an edge or a
+shadow's border) and every pixel within two of a luminous opening (a Mitsuba point light is
+invisible); regions under :data:`MIN_REGION_PIXELS` are left out. With a box pixel filter on
+both sides a pixel's expected value is the mean over its area, the same for both renderers, so
+any set of pixels compares like with like. Per region: the mean
 luminance (cd/m²) of its pixels, estimated from independent passes (distinct seeds) on each
 side, and its Monte Carlo standard error, from each pixel's spread over the passes pooled over
 the region (:meth:`Estimate.of`; the pixels are estimated independently on both sides). The
-ratio's standard error combines both (independent) relative errors in quadrature. The interreflected
-part alone is lampcast's traced transport and Mitsuba's total minus its own direct-only
-render.
+ratio's standard error combines both (independent) relative errors in quadrature. The
+interreflected part alone is lampcast's traced transport and Mitsuba's total minus its own
+direct-only render.
 
 **What differs by design.** lampcast's direct light has no noise but where its stratified
 samples fall in a pixel; its interreflected light samples one direction per vertex and carries
 the whole spectrum at 1 nm (next-event estimation to the one luminaire); the transport is kept at
 its nodes (:data:`render.light.indirect.NODE_STEP_NM`, ``--node-step 1`` for the exact 1 nm
-basis) and as float16 per pixel. Mitsuba samples four wavelengths per path and one direction per
-vertex, so its images carry colour noise; it takes light from the luminaire only by its emitter
+basis) and as float16 per pixel. Mitsuba samples four wavelengths per path (its scalar spectral
+variants) and one direction per vertex, so its images carry colour noise, large under a line
+spectrum such as low-pressure sodium's; it takes light from the luminaire only by its emitter
 sampling (a point light cannot be hit).
 
 References
