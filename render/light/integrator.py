@@ -66,6 +66,7 @@ from typing import TYPE_CHECKING
 
 import numba
 import numpy as np
+from numba import prange
 
 from render.geometry.mesh import TriangleMesh
 from render.light.gloss import fresnel_one, specular_one
@@ -125,8 +126,7 @@ TILE_SAMPLES = 1 << 17
 _MAX_CELLS = 1 << 16
 # Samples per block of the light kernel (scratch arrays are made once per block).
 _BLOCK = 64
-# Blocks of _BLOCK samples per work item of the light kernel; items are interleaved over the
-# threads (render.threads.run_split).
+# Blocks of _BLOCK samples a thread takes at a time from the light kernel's work.
 _CHUNK_BLOCKS = 4
 # Points (or cells, or samples) per work item of the other kernels here.
 _ITEM = 256
@@ -259,40 +259,38 @@ def _unshadowed(px, py, pz, nx_, ny_, nz_, k, lum):
     return scale[k] * inten * cos_s / d2, d
 
 
-@numba.njit(cache=True, nogil=True)
-def _candidates(points, normals, active, lum, grid, eps, counts, out_lum, out_e, out_dir, out_tmax, first, stride):
+@numba.njit(cache=True, nogil=True, parallel=True)
+def _candidates(points, normals, active, lum, grid, eps, counts, out_lum, out_e, out_dir, out_tmax):
     """Per point, the luminaires whose unshadowed contribution reaches ``eps``: written to row
     ``i`` of the (N, K) outputs, their number to ``counts[i]`` (``lum`` and ``grid`` as for
-    :func:`_direct_light`); points ``first * _ITEM …`` in items of :data:`_ITEM`,
-    interleaved by ``stride``."""
+    :func:`_direct_light`). A ``prange`` loop like :func:`_direct_light`, for its speed."""
     rot, pos, scale, table, c_grid, g_grid, n_c, n_g, inv_c, inv_g, cd, channel, clearance = lum
     box, cell, nx, ny, cell_start, cell_items = grid
     N = points.shape[0]
-    for item in range(first, (N + _ITEM - 1) // _ITEM, stride):
-        for i in range(item * _ITEM, min(N, (item + 1) * _ITEM)):
-            counts[i] = 0
-            if not active[i]:
+    for i in prange(N):
+        counts[i] = 0
+        if not active[i]:
+            continue
+        px = points[i, 0]
+        py = points[i, 1]
+        pz = points[i, 2]
+        ci = _cell_of(px, py, pz, box, cell, nx, ny)
+        q0 = cell_start[ci] if ci >= 0 else 0
+        q1 = cell_start[ci + 1] if ci >= 0 else pos.shape[0]
+        w = 0
+        for q in range(q0, q1):
+            k = cell_items[q] if ci >= 0 else q
+            e, d = _unshadowed(px, py, pz, normals[i, 0], normals[i, 1], normals[i, 2], k, lum)
+            if e < eps or d == 0.0:
                 continue
-            px = points[i, 0]
-            py = points[i, 1]
-            pz = points[i, 2]
-            ci = _cell_of(px, py, pz, box, cell, nx, ny)
-            q0 = cell_start[ci] if ci >= 0 else 0
-            q1 = cell_start[ci + 1] if ci >= 0 else pos.shape[0]
-            w = 0
-            for q in range(q0, q1):
-                k = cell_items[q] if ci >= 0 else q
-                e, d = _unshadowed(px, py, pz, normals[i, 0], normals[i, 1], normals[i, 2], k, lum)
-                if e < eps or d == 0.0:
-                    continue
-                out_lum[i, w] = k
-                out_e[i, w] = e
-                out_dir[i, w, 0] = -(px - pos[k, 0]) / d
-                out_dir[i, w, 1] = -(py - pos[k, 1]) / d
-                out_dir[i, w, 2] = -(pz - pos[k, 2]) / d
-                out_tmax[i, w] = max(d - clearance[k], 0.0)
-                w += 1
-            counts[i] = w
+            out_lum[i, w] = k
+            out_e[i, w] = e
+            out_dir[i, w, 0] = -(px - pos[k, 0]) / d
+            out_dir[i, w, 1] = -(py - pos[k, 1]) / d
+            out_dir[i, w, 2] = -(pz - pos[k, 2]) / d
+            out_tmax[i, w] = max(d - clearance[k], 0.0)
+            w += 1
+        counts[i] = w
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
@@ -344,7 +342,7 @@ def _shadow_block(tree, n_pairs, lum_of, origin, direction, t_max, blocked, scra
                     )
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, parallel=True, error_model="numpy")
 def _direct_light(
     points,
     normals,
@@ -370,8 +368,6 @@ def _direct_light(
     out_spec,
     n_lanes,
     width,
-    first,
-    stride,
 ):
     """Direct light at N points, one pass per block of points: culling and intensity per
     (point, luminaire), the block's shadow rays (:func:`_shadow_block`), then per point the
@@ -384,137 +380,135 @@ def _direct_light(
     ``out_value[i, c]`` gets the channel's sum of the diffuse part over ``divisor`` (π: the
     white diffuser's luminance; 1: illuminance), ``out_spec[i, c]`` the specular layer's
     luminance (when ``out_spec`` has rows). The sums run over the luminaires in index order,
-    in float64. Blocks are taken :data:`_CHUNK_BLOCKS` at a time, work items ``first, first +
-    stride, ...`` (:func:`render.threads.run_split`); ``n_lanes`` and ``width`` as for
-    :func:`_shadow_block`."""
+    in float64. ``n_lanes`` and ``width`` as for :func:`_shadow_block`. Unlike the other
+    kernels here this one stays a ``prange`` loop: compiled serially it runs about 1.6 times
+    slower (numba compiles a parallel loop's body with its arrays marked as not aliasing each
+    other), and its longer compilation falls in the helper process of a first run
+    (:mod:`render.warmup`)."""
     rot, pos, scale, table, c_grid, g_grid, n_c, n_g, inv_c, inv_g, cd, channel, clearance = lum
     box, cell, nx, ny, cell_start, cell_items = grid
     n = points.shape[0]
     n_ch = out_value.shape[1]
     with_spec = out_spec.shape[0] > 0
     n_blocks = (n + _BLOCK - 1) // _BLOCK
-    n_chunks = (n_blocks + _CHUNK_BLOCKS - 1) // _CHUNK_BLOCKS
-    for chunk in range(first, n_chunks, stride):
-        for b in range(chunk * _CHUNK_BLOCKS, min(n_blocks, (chunk + 1) * _CHUNK_BLOCKS)):
-            i0 = b * _BLOCK
-            i1 = min(n, i0 + _BLOCK)
-            # Room for the block's candidates: each point's cell list, or every luminaire.
-            cap = 0
-            for i in range(i0, i1):
-                if active[i]:
-                    ci = _cell_of(points[i, 0], points[i, 1], points[i, 2], box, cell, nx, ny)
-                    cap += cell_start[ci + 1] - cell_start[ci] if ci >= 0 else pos.shape[0]
-            count = np.zeros(i1 - i0, np.int64)
-            lum_of = np.empty(cap, np.int64)
-            e_of = np.empty(cap)
-            origin = np.empty((cap, 3))
-            direction = np.empty((cap, 3))
-            t_max = np.empty(cap)
-            blocked = np.zeros(cap, np.bool_)
-            scratch = (
-                np.empty(LANE_FIELDS * PACKET),
-                np.empty(max(STACK_SIZE, wide_stack), np.int64),
-                np.empty(2 * WIDE),
-                np.empty((PACKET, 3)),
-                np.empty((PACKET, 3)),
-                np.empty(PACKET),
-                np.empty(PACKET, np.int64),
-                np.empty(cap, np.bool_),
-            )
-            acc = np.zeros(n_ch)
-            acc_s = np.zeros(n_ch)
-            # Candidates: unshadowed contributions that reach eps (w an int64 from the start:
-            # with the literal 0, type inference would also compile _shadow_block for 0 pairs).
-            w = np.int64(0)
-            for i in range(i0, i1):
-                px = points[i, 0]
-                py = points[i, 1]
-                pz = points[i, 2]
-                if not (active[i] and np.isfinite(px) and np.isfinite(py) and np.isfinite(pz)):
+    for b in prange(n_blocks):
+        i0 = b * _BLOCK
+        i1 = min(n, i0 + _BLOCK)
+        # Room for the block's candidates: each point's cell list, or every luminaire.
+        cap = 0
+        for i in range(i0, i1):
+            if active[i]:
+                ci = _cell_of(points[i, 0], points[i, 1], points[i, 2], box, cell, nx, ny)
+                cap += cell_start[ci + 1] - cell_start[ci] if ci >= 0 else pos.shape[0]
+        count = np.zeros(i1 - i0, np.int64)
+        lum_of = np.empty(cap, np.int64)
+        e_of = np.empty(cap)
+        origin = np.empty((cap, 3))
+        direction = np.empty((cap, 3))
+        t_max = np.empty(cap)
+        blocked = np.zeros(cap, np.bool_)
+        scratch = (
+            np.empty(LANE_FIELDS * PACKET),
+            np.empty(max(STACK_SIZE, wide_stack), np.int64),
+            np.empty(2 * WIDE),
+            np.empty((PACKET, 3)),
+            np.empty((PACKET, 3)),
+            np.empty(PACKET),
+            np.empty(PACKET, np.int64),
+            np.empty(cap, np.bool_),
+        )
+        acc = np.zeros(n_ch)
+        acc_s = np.zeros(n_ch)
+        # Candidates: unshadowed contributions that reach eps (w an int64 from the start:
+        # with the literal 0, type inference would also compile _shadow_block for 0 pairs).
+        w = np.int64(0)
+        for i in range(i0, i1):
+            px = points[i, 0]
+            py = points[i, 1]
+            pz = points[i, 2]
+            if not (active[i] and np.isfinite(px) and np.isfinite(py) and np.isfinite(pz)):
+                continue
+            ci = _cell_of(px, py, pz, box, cell, nx, ny)
+            q0 = cell_start[ci] if ci >= 0 else 0
+            q1 = cell_start[ci + 1] if ci >= 0 else pos.shape[0]
+            start = w
+            for q in range(q0, q1):
+                k = cell_items[q] if ci >= 0 else q
+                e, d = _unshadowed(px, py, pz, normals[i, 0], normals[i, 1], normals[i, 2], k, lum)
+                if e < eps or d == 0.0:
                     continue
-                ci = _cell_of(px, py, pz, box, cell, nx, ny)
-                q0 = cell_start[ci] if ci >= 0 else 0
-                q1 = cell_start[ci + 1] if ci >= 0 else pos.shape[0]
-                start = w
-                for q in range(q0, q1):
-                    k = cell_items[q] if ci >= 0 else q
-                    e, d = _unshadowed(px, py, pz, normals[i, 0], normals[i, 1], normals[i, 2], k, lum)
-                    if e < eps or d == 0.0:
-                        continue
-                    lx = -(px - pos[k, 0]) / d
-                    ly = -(py - pos[k, 1]) / d
-                    lz = -(pz - pos[k, 2]) / d
-                    # Shadow-ray origin offset along the receiving side of the geometric normal.
-                    gx = offset_normals[i, 0]
-                    gy = offset_normals[i, 1]
-                    gz = offset_normals[i, 2]
-                    step = shadow_offset * np.sign(gx * lx + gy * ly + gz * lz)
-                    origin[w, 0] = px + step * gx
-                    origin[w, 1] = py + step * gy
-                    origin[w, 2] = pz + step * gz
-                    direction[w, 0] = lx
-                    direction[w, 1] = ly
-                    direction[w, 2] = lz
-                    t_max[w] = max(d - clearance[k], 0.0)
-                    lum_of[w] = k
-                    e_of[w] = e
+                lx = -(px - pos[k, 0]) / d
+                ly = -(py - pos[k, 1]) / d
+                lz = -(pz - pos[k, 2]) / d
+                # Shadow-ray origin offset along the receiving side of the geometric normal.
+                gx = offset_normals[i, 0]
+                gy = offset_normals[i, 1]
+                gz = offset_normals[i, 2]
+                step = shadow_offset * np.sign(gx * lx + gy * ly + gz * lz)
+                origin[w, 0] = px + step * gx
+                origin[w, 1] = py + step * gy
+                origin[w, 2] = pz + step * gz
+                direction[w, 0] = lx
+                direction[w, 1] = ly
+                direction[w, 2] = lz
+                t_max[w] = max(d - clearance[k], 0.0)
+                lum_of[w] = k
+                e_of[w] = e
+                w += 1
+            count[i - i0] = w - start
+        if shadows:
+            _shadow_block(tree, w, lum_of, origin, direction, t_max, blocked, scratch, n_lanes, width)
+        # Sums per point, in candidate (luminaire index) order.
+        w = 0
+        for i in range(i0, i1):
+            m = material[i]
+            f0 = gloss[m, 0] if m >= 0 and m < gloss.shape[0] else 0.0
+            on_road = road_object >= 0 and obj[i] == road_object
+            for c in range(n_ch):
+                acc[c] = 0.0
+                acc_s[c] = 0.0
+            for _ in range(count[i - i0]):
+                if blocked[w]:
                     w += 1
-                count[i - i0] = w - start
-            if shadows:
-                _shadow_block(tree, w, lum_of, origin, direction, t_max, blocked, scratch, n_lanes, width)
-            # Sums per point, in candidate (luminaire index) order.
-            w = 0
-            for i in range(i0, i1):
-                m = material[i]
-                f0 = gloss[m, 0] if m >= 0 and m < gloss.shape[0] else 0.0
-                on_road = road_object >= 0 and obj[i] == road_object
-                for c in range(n_ch):
-                    acc[c] = 0.0
-                    acc_s[c] = 0.0
-                for _ in range(count[i - i0]):
-                    if blocked[w]:
-                        w += 1
-                        continue
-                    k = lum_of[w]
-                    e = e_of[w]
-                    lx = direction[w, 0]
-                    ly = direction[w, 1]
-                    lz = direction[w, 2]
-                    w += 1
-                    ch = channel[k]
-                    diffuse = e
-                    if f0 > 0.0:
-                        # The base receives what the interface transmits (render.light.gloss).
-                        nx_ = normals[i, 0]
-                        ny_ = normals[i, 1]
-                        nz_ = normals[i, 2]
-                        diffuse = e * (1.0 - fresnel_one(nx_ * lx + ny_ * ly + nz_ * lz, f0))
-                        if with_spec:
-                            f_s = specular_one(
-                                nx_,
-                                ny_,
-                                nz_,
-                                lx,
-                                ly,
-                                lz,
-                                -view_dirs[i, 0],
-                                -view_dirs[i, 1],
-                                -view_dirs[i, 2],
-                                f0,
-                                gloss[m, 1],
-                            )
-                            acc_s[ch] += e * f_s
-                    if on_road:
-                        # L = q·E (render.light.rtable): the value becomes E·q/ρ̄ in place of E/π.
-                        qv = road_q_one(
-                            view_dirs[i, 0], view_dirs[i, 1], lx, ly, lz, road[0], road[1], road[2], road_scale
-                        )
-                        diffuse *= qv * road_factor
-                    acc[ch] += diffuse
-                for c in range(n_ch):
-                    out_value[i, c] = acc[c] / divisor
+                    continue
+                k = lum_of[w]
+                e = e_of[w]
+                lx = direction[w, 0]
+                ly = direction[w, 1]
+                lz = direction[w, 2]
+                w += 1
+                ch = channel[k]
+                diffuse = e
+                if f0 > 0.0:
+                    # The base receives what the interface transmits (render.light.gloss).
+                    nx_ = normals[i, 0]
+                    ny_ = normals[i, 1]
+                    nz_ = normals[i, 2]
+                    diffuse = e * (1.0 - fresnel_one(nx_ * lx + ny_ * ly + nz_ * lz, f0))
                     if with_spec:
-                        out_spec[i, c] = acc_s[c]
+                        f_s = specular_one(
+                            nx_,
+                            ny_,
+                            nz_,
+                            lx,
+                            ly,
+                            lz,
+                            -view_dirs[i, 0],
+                            -view_dirs[i, 1],
+                            -view_dirs[i, 2],
+                            f0,
+                            gloss[m, 1],
+                        )
+                        acc_s[ch] += e * f_s
+                if on_road:
+                    # L = q·E (render.light.rtable): the value becomes E·q/ρ̄ in place of E/π.
+                    qv = road_q_one(view_dirs[i, 0], view_dirs[i, 1], lx, ly, lz, road[0], road[1], road[2], road_scale)
+                    diffuse *= qv * road_factor
+                acc[ch] += diffuse
+            for c in range(n_ch):
+                out_value[i, c] = acc[c] / divisor
+                if with_spec:
+                    out_spec[i, c] = acc_s[c]
 
 
 @numba.njit(cache=True, nogil=True)
@@ -641,6 +635,13 @@ def scene_cull_grid(lights: LuminaireSet, bvh: BVH, negligible_lx: float = NEGLI
     return lights.cull_grids[key]
 
 
+def _run_direct_light(*args) -> None:
+    """:func:`_direct_light` on numba's threads, blocks handed out a few at a time (a busy
+    thread does not hold up the others)."""
+    with numba.parallel_chunksize(_CHUNK_BLOCKS):
+        _direct_light(*args, PACKET, WIDE)
+
+
 def _n_items(n: int, per_item: int) -> int:
     """Work items of ``per_item`` for ``n`` elements."""
     return (int(n) + per_item - 1) // per_item
@@ -760,9 +761,7 @@ def direct_pairs(
     e_k = np.zeros((n, K))
     dir_k = np.zeros((n, K, 3))
     tmax_k = np.zeros((n, K))
-    run_split(
-        _candidates,
-        _n_items(n, _ITEM),
+    _candidates(
         pts,
         nrm,
         act,
@@ -852,9 +851,7 @@ def direct_illuminance_lx(
     off = nrm if offset_normals is None else np.ascontiguousarray(offset_normals, np.float64).reshape(-1, 3)
     tree, stack, shadows = _tree_args(bvh)
     no_ids = np.full(n, -1, np.int32)
-    run_split(
-        _direct_light,
-        _n_items(n, _BLOCK * _CHUNK_BLOCKS),
+    _run_direct_light(
         pts,
         nrm,
         off,
@@ -877,8 +874,6 @@ def direct_illuminance_lx(
         1.0,
         out,
         np.zeros((0, lights.n_channels)),
-        PACKET,
-        WIDE,
     )
     return out
 
@@ -1219,9 +1214,7 @@ class _LightPass:
                 warmup.wait_for_light_kernel()
             for active, obj, road, road_object, road_scale, road_factor in self._passes(object_id, surf):
                 out_value, out_spec = (value, spec) if active is surf else (np.zeros_like(value), np.zeros_like(spec))
-                run_split(
-                    _direct_light,
-                    _n_items(n, _BLOCK * _CHUNK_BLOCKS),
+                _run_direct_light(
                     point.astype(np.float64),
                     normal.astype(np.float64),
                     geo.astype(np.float64),
@@ -1244,8 +1237,6 @@ class _LightPass:
                     math.pi,
                     out_value,
                     out_spec,
-                    PACKET,
-                    WIDE,
                 )
                 if active is not surf:  # the kernel leaves 0 at the samples it does not evaluate
                     value += out_value
