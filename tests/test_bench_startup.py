@@ -43,3 +43,18 @@ def test_generated_obj_grid(tmp_path):
     assert sum(p.n_triangles for p in parts) == 2 * 10**2  # n = ceil(sqrt(200 / 2)) = 10
     # The waved surface z = 0.2 sin x cos y is a little larger than its 10 m × 10 m plan.
     assert surface_area_m2(parts) == pytest.approx(100.0, rel=0.02) and surface_area_m2(parts) > 100.0
+
+
+def test_cold_rows_side_by_side(capsys):
+    """The cold demo's rows and kernel table, printed from given figures (the runs themselves
+    take minutes; common practice, no source)."""
+    from render.bench.startup import ColdDemo, _print_cold
+    from render.bench.timing import Spread
+
+    before = ColdDemo(Spread((100.0, 110.0)), Spread((90.0, 95.0)), Spread((20.0, 22.0)), {"render.a.k": (5.0, 0.0)})
+    after = ColdDemo(Spread((40.0, 44.0)), Spread((70.0, 75.0)), Spread((20.0, 21.0)), {"render.a.k": (0.0, 4.0)})
+    _print_cold({"before": before, "after": after}, 2)
+    out = capsys.readouterr().out
+    assert "demo cold, wall s         100.0 / 105.0 / 110.0  40.0 / 42.0 / 44.0" in out
+    assert "demo cold - warm, wall s  80.0 / 84.0 / 88.0" in out
+    assert any(line.split() == ["a.k", "5.00", "0.00", "0.00", "4.00"] for line in out.splitlines())

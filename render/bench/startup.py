@@ -13,8 +13,14 @@ What a user waits for before anything is rendered:
   million: a grid of quads, half written as two triangles and half as quads, references
   ``v//vn``, two materials), in this process;
 * ``--cold`` (long) -- ``lampcast demo`` as a new process with ``NUMBA_CACHE_DIR`` pointing at a
-  new empty folder (every kernel compiled), then again with that folder filled (warm); the
-  difference is about the time spent compiling kernels.
+  new empty folder (every kernel compiled; on a first run the command compiles its later
+  kernels in a helper process, :mod:`render.warmup`), then again with that folder filled
+  (warm): wall seconds, and processor seconds of the command and its helper together. Then,
+  once more cold and with the compile log on, the first compilation of every kernel: processor
+  seconds of the compiling thread (numba's ``numba:compile`` events, a kernel's callees
+  included), in the command and in the helper. ``--against DIR`` runs the same rows, round by
+  round alternating, with the ``render`` package of another source tree (say a worktree of an
+  earlier commit: ``git worktree add /tmp/before HEAD~3``), side by side.
 
 The rows alternate within each round (:func:`render.bench.timing.interleaved`); each is printed
 as min / median / max over ``--rounds`` rounds. ``--quick`` (one round, a 2 000-triangle OBJ) is
@@ -24,19 +30,30 @@ a smoke run for tests; its figures measure nothing.
 from __future__ import annotations
 
 import argparse
+import json
 import math
 import os
+import resource
 import subprocess
 import sys
 import tempfile
 import time
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 
 from render.bench.timing import Spread, interleaved
 from render.resources import demo_scene_path
 
-__all__ = ["StartupBench", "add_parser", "cmd_startup", "obj_grid_text", "run_bench", "run_cold_demo"]
+__all__ = [
+    "ColdDemo",
+    "StartupBench",
+    "add_parser",
+    "cmd_startup",
+    "kernel_table",
+    "obj_grid_text",
+    "run_bench",
+    "run_cold_demo",
+]
 
 #: Triangles of the generated OBJ file.
 DEFAULT_TRIANGLES = 1_000_000
@@ -88,14 +105,16 @@ def _obj_scene(folder: Path, n_triangles: int) -> Path:
     return scene
 
 
-def _command(*args: str, env: dict[str, str] | None = None) -> None:
-    """Run ``python -m render ARGS`` to its end, output discarded; a failure stops the benchmark."""
+def _command(*args: str, env: dict[str, str] | None = None, cwd: Path | None = None) -> None:
+    """Run ``python -m render ARGS`` to its end, output discarded; a failure stops the benchmark.
+    ``cwd``: the folder it runs in (``-m`` puts it first on the module path)."""
     subprocess.run(
         [sys.executable, "-m", "render", *args],
         stdout=subprocess.DEVNULL,
         stderr=subprocess.DEVNULL,
         check=True,
         env=env,
+        cwd=cwd,
     )
 
 
@@ -121,19 +140,156 @@ def run_bench(*, rounds: int = 5, triangles: int = DEFAULT_TRIANGLES, scene: str
     return StartupBench(times, n_obj)
 
 
-def run_cold_demo(rounds: int = 1, width: int | None = None) -> dict[str, Spread]:
-    """``lampcast demo`` with an empty numba cache (cold) and then with it filled (warm), seconds."""
-    cold: list[float] = []
-    warm: list[float] = []
+# Installed as sitecustomize in the compile-log runs: every Python process of the command
+# (the command and its helper) appends the kernels it compiles, with the compiling thread's
+# processor seconds (callees included), to a JSON file named by its process id.
+_COMPILE_LOG = """
+import atexit, json, os, sys, threading, time
+from numba.core import event
+_log, _state = [], threading.local()
+class _Listener(event.Listener):
+    def on_start(self, ev):
+        stack = _state.__dict__.setdefault("stack", [])
+        stack.append(time.thread_time())
+    def on_end(self, ev):
+        stack = _state.stack
+        t0 = stack.pop()
+        if not stack:
+            f = ev.data["dispatcher"].py_func
+            _log.append([f.__module__ + "." + f.__qualname__, time.thread_time() - t0])
+event.register("numba:compile", _Listener())
+def _save():
+    role = "helper" if os.path.basename(sys.argv[0]) == "warmup.py" else "command"
+    path = os.path.join(os.environ["LAMPCAST_COMPILE_LOG"], f"{os.getpid()}.json")
+    with open(path, "w") as f:
+        json.dump({"role": role, "kernels": _log}, f)
+atexit.register(_save)
+"""
+
+
+@dataclass(frozen=True)
+class ColdDemo:
+    """Seconds per round of a cold and a warm ``lampcast demo``, and the first compilations
+    of one cold run: kernel -> (processor seconds in the command, in the helper)."""
+
+    cold_wall: Spread
+    cold_cpu: Spread
+    warm_wall: Spread
+    kernels: dict[str, tuple[float, float]] = field(default_factory=dict)
+
+
+def _demo(env: dict[str, str], out: Path, width: int | None) -> tuple[float, float]:
+    """One ``lampcast demo`` as a new process: (wall seconds, processor seconds of it and its
+    helper)."""
+    before = resource.getrusage(resource.RUSAGE_CHILDREN)
+    t0 = time.perf_counter()
+    # Run from the output's parent folder, so that PYTHONPATH decides which render is used.
+    _command("demo", "--out", str(out), "-q", *(["--width", str(width)] if width else []), env=env, cwd=out.parent)
+    wall = time.perf_counter() - t0
+    after = resource.getrusage(resource.RUSAGE_CHILDREN)
+    cpu = (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime)
+    return wall, cpu
+
+
+def _tree_env(tmp: Path, tree: Path | None, *extra: Path) -> dict[str, str]:
+    """The environment of a run: an empty kernel cache in ``tmp``, and the ``render`` package
+    of ``tree`` first on the path when given."""
+    paths = [str(p) for p in (*extra, tree) if p is not None]
+    old = os.environ.get("PYTHONPATH", "")
+    env = {**os.environ, "NUMBA_CACHE_DIR": str(tmp / "numba")}
+    env["PYTHONPATH"] = os.pathsep.join(paths + ([old] if old else []))
+    return env
+
+
+def kernel_table(tree: Path | None = None, width: int | None = None) -> dict[str, tuple[float, float]]:
+    """First compilation of every kernel in a cold ``lampcast demo`` with ``tree``'s
+    ``render`` (default this one): kernel -> (processor seconds in the command, in its
+    helper)."""
+    with tempfile.TemporaryDirectory(prefix="lampcast-kernels-") as tmp:
+        tmp = Path(tmp)
+        site = tmp / "site"
+        logs = tmp / "log"
+        site.mkdir()
+        logs.mkdir()
+        (site / "sitecustomize.py").write_text(_COMPILE_LOG, encoding="utf-8")
+        env = _tree_env(tmp, tree, site)
+        env["LAMPCAST_COMPILE_LOG"] = str(logs)
+        _demo(env, tmp / "out", width)
+        table: dict[str, list[float]] = {}
+        for path in logs.glob("*.json"):
+            data = json.loads(path.read_text(encoding="utf-8"))
+            col = 1 if data["role"] == "helper" else 0
+            for name, seconds in data["kernels"]:
+                table.setdefault(name, [0.0, 0.0])[col] += seconds
+    return {k: (v[0], v[1]) for k, v in table.items()}
+
+
+def run_cold_demo(
+    rounds: int = 1, width: int | None = None, trees: dict[str, Path | None] | None = None, kernels: bool = True
+) -> dict[str, ColdDemo]:
+    """``lampcast demo`` with an empty numba cache (cold) and then with it filled (warm), per
+    tree (default this one, as "after"), the trees alternating within a round; and, with
+    ``kernels``, one more cold run per tree with the compile log (:func:`kernel_table`)."""
+    trees = trees or {"after": None}
+    runs: dict[str, list[tuple[float, float, float]]] = {name: [] for name in trees}
     for _ in range(max(1, rounds)):
-        with tempfile.TemporaryDirectory(prefix="lampcast-cold-") as tmp:
-            env = {**os.environ, "NUMBA_CACHE_DIR": str(Path(tmp) / "numba")}
-            args = ["demo", "--out", str(Path(tmp) / "out"), "-q"] + (["--width", str(width)] if width else [])
-            for out in (cold, warm):
-                t0 = time.perf_counter()
-                _command(*args, env=env)
-                out.append(time.perf_counter() - t0)
-    return {"demo cold": Spread(tuple(cold)), "demo warm": Spread(tuple(warm))}
+        for name, tree in trees.items():
+            with tempfile.TemporaryDirectory(prefix="lampcast-cold-") as tmp:
+                tmp = Path(tmp)
+                env = _tree_env(tmp, tree)
+                cold_wall, cold_cpu = _demo(env, tmp / "out", width)
+                warm_wall, _ = _demo(env, tmp / "out", width)
+                runs[name].append((cold_wall, cold_cpu, warm_wall))
+    out = {}
+    for name, tree in trees.items():
+        cw, cc, ww = (Spread(tuple(r[i] for r in runs[name])) for i in range(3))
+        out[name] = ColdDemo(cw, cc, ww, kernel_table(tree, width) if kernels else {})
+    return out
+
+
+def _print_cold(demo: dict[str, ColdDemo], rounds: int) -> None:
+    names = list(demo)
+    print()
+    print(
+        f"cold lampcast demo (fresh numba cache) and warm, min / median / max over {rounds} round(s)"
+        + (", trees alternating" if len(names) > 1 else "")
+    )
+    rows = [("", *names)]
+    rows.append(("demo cold, wall s", *(demo[n].cold_wall.text(1, ".1f") for n in names)))
+    rows.append(("demo cold, processor s", *(demo[n].cold_cpu.text(1, ".1f") for n in names)))
+    rows.append(("demo warm, wall s", *(demo[n].warm_wall.text(1, ".1f") for n in names)))
+    rows.append(
+        (
+            "demo cold - warm, wall s",
+            *(
+                Spread(tuple(c - w for c, w in zip(demo[n].cold_wall.values, demo[n].warm_wall.values))).text(1, ".1f")
+                for n in names
+            ),
+        )
+    )
+    widths = [max(len(r[i]) for r in rows) for i in range(len(rows[0]))]
+    for r in rows:
+        print("  ".join(f"{c:<{w}}" for c, w in zip(r, widths)))
+    if not any(d.kernels for d in demo.values()):
+        return
+    print()
+    print("first compilation per kernel, processor seconds of the compiling thread (callees included), one cold run:")
+    print("command = in the command's process, helper = in its helper process (render.warmup)")
+    kernels = sorted(
+        {k for d in demo.values() for k in d.kernels},
+        key=lambda k: -max(sum(d.kernels.get(k, (0, 0))) for d in demo.values()),
+    )
+    head = ["kernel"] + [f"{n} {col}" for n in names for col in ("command", "helper")]
+    table = [head]
+    for k in kernels:
+        table.append(
+            [k.removeprefix("render.")]
+            + [f"{demo[n].kernels.get(k, (0.0, 0.0))[i]:.2f}" for n in names for i in (0, 1)]
+        )
+    table.append(["total"] + [f"{sum(v[i] for v in demo[n].kernels.values()):.2f}" for n in names for i in (0, 1)])
+    widths = [max(len(r[i]) for r in table) for i in range(len(head))]
+    for r in table:
+        print("  ".join(f"{c:<{w}}" if i == 0 else f"{c:>{w}}" for i, (c, w) in enumerate(zip(r, widths))))
 
 
 def cmd_startup(args: argparse.Namespace) -> int:
@@ -148,14 +304,17 @@ def cmd_startup(args: argparse.Namespace) -> int:
         print("quick run: a smoke test of the benchmark, not a measurement")
     print(f"min / median / max over {rounds} round(s), the rows alternating within a round, after one warm-up run")
     rows = [(name, spread.text(1, ".3f") + " s") for name, spread in bench.times.items()]
-    if args.cold:
-        demo = run_cold_demo(args.cold_rounds, QUICK_COLD_WIDTH if args.quick else None)
-        rows += [(name, spread.text(1, ".1f") + " s") for name, spread in demo.items()]
-        compile_s = Spread(tuple(c - w for c, w in zip(demo["demo cold"].values, demo["demo warm"].values)))
-        rows.append(("demo cold-warm", compile_s.text(1, ".1f") + " s"))
     width = max(len(r[0]) for r in rows)
     for label, text in rows:
         print(f"{label:<{width}}  {text}")
+    if args.cold:
+        trees = {"after": None}
+        if args.against:
+            trees = {"before": Path(args.against).resolve(), "after": None}
+        demo = run_cold_demo(args.cold_rounds, QUICK_COLD_WIDTH if args.quick else None, trees, not args.no_kernels)
+        if args.against:
+            print(f"before: the render package of {args.against}; after: this one")
+        _print_cold(demo, args.cold_rounds)
     return 0
 
 
@@ -176,5 +335,13 @@ def add_parser(sub) -> None:
         help="also lampcast demo with an empty numba cache, then warm (minutes per round)",
     )
     p.add_argument("--cold-rounds", type=int, default=1, help="rounds of the cold demo (default 1)")
+    p.add_argument(
+        "--against",
+        metavar="DIR",
+        default=None,
+        help="with --cold: also a source tree holding another render package (e.g. a git worktree of an earlier "
+        "commit), side by side as 'before'",
+    )
+    p.add_argument("--no-kernels", action="store_true", help="with --cold: leave out the per-kernel compile table")
     p.add_argument("--quick", action="store_true", help="smoke run: one round, a 2,000-triangle OBJ")
     p.set_defaults(func=cmd_startup)

@@ -381,10 +381,10 @@ def _direct_light(
     white diffuser's luminance; 1: illuminance), ``out_spec[i, c]`` the specular layer's
     luminance (when ``out_spec`` has rows). The sums run over the luminaires in index order,
     in float64. ``n_lanes`` and ``width`` as for :func:`_shadow_block`. Unlike the other
-    kernels here this one stays a ``prange`` loop: compiled serially it runs about 1.6 times
-    slower (numba compiles a parallel loop's body with its arrays marked as not aliasing each
-    other), and its longer compilation falls in the helper process of a first run
-    (:mod:`render.warmup`)."""
+    kernels here this one stays a ``prange`` loop: compiled serially it ran about 1.6 times
+    slower (measured; probably because numba compiles a parallel loop's body with its arrays
+    marked as not aliasing each other), and its longer compilation falls in the helper
+    process of a first run (:mod:`render.warmup`)."""
     rot, pos, scale, table, c_grid, g_grid, n_c, n_g, inv_c, inv_g, cd, channel, clearance = lum
     box, cell, nx, ny, cell_start, cell_items = grid
     n = points.shape[0]
