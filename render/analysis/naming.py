@@ -217,42 +217,42 @@ def term_distances(lab: npt.ArrayLike) -> np.ndarray:
     return np.linalg.norm(j[..., None, :] - ucs, axis=-1)
 
 
-def colour_name_details(lab: npt.ArrayLike | None) -> dict[str, object] | None:
-    """Term, margin, runner-up and all distances for one CIELAB colour (None if undefined)."""
+def _defined_lab(lab: npt.ArrayLike | None) -> np.ndarray | None:
+    """One CIELAB colour as a (3,) float array, or None when it is missing or not finite."""
     if lab is None:
         return None
     lab = np.asarray(lab, dtype=np.float64)
-    if lab.shape != (3,) or not np.all(np.isfinite(lab)):
-        return None
-    d = term_distances(lab)
+    return lab if lab.shape == (3,) and np.all(np.isfinite(lab)) else None
+
+
+def _nearest_terms(terms: tuple[str, ...], d: np.ndarray) -> dict[str, object]:
+    """Term, margin over the runner-up, runner-up and every distance ``d`` (one per term)."""
     order = np.argsort(d, kind="stable")
     return {
-        "term": BASIC_TERMS[order[0]],
+        "term": terms[order[0]],
         "margin": float(d[order[1]] - d[order[0]]),
-        "runner_up": BASIC_TERMS[order[1]],
-        "distances": {t: float(v) for t, v in zip(BASIC_TERMS, d)},
+        "runner_up": terms[order[1]],
+        "distances": {t: float(v) for t, v in zip(terms, d)},
     }
+
+
+def colour_name_details(lab: npt.ArrayLike | None) -> dict[str, object] | None:
+    """Term, margin, runner-up and all distances for one CIELAB colour (None if undefined)."""
+    lab = _defined_lab(lab)
+    return None if lab is None else _nearest_terms(BASIC_TERMS, term_distances(lab))
 
 
 def lightness_name_details(lab: npt.ArrayLike | None) -> dict[str, object] | None:
     """Like :func:`colour_name_details` among :data:`ACHROMATIC_TERMS` only, by the distance of
     CAM16-UCS lightness J' alone (no hue, no chroma): the name of a colour whose hue is not
     available. ``None`` for an undefined colour."""
+    lab = _defined_lab(lab)
     if lab is None:
-        return None
-    lab = np.asarray(lab, dtype=np.float64)
-    if lab.shape != (3,) or not np.all(np.isfinite(lab)):
         return None
     terms, _, ucs = prototypes()
     rows = [terms.index(t) for t in ACHROMATIC_TERMS]
     d = np.abs(lab_to_cam16ucs(lab)[0] - ucs[rows, 0])
-    order = np.argsort(d, kind="stable")
-    return {
-        "term": ACHROMATIC_TERMS[order[0]],
-        "margin": float(d[order[1]] - d[order[0]]),
-        "runner_up": ACHROMATIC_TERMS[order[1]],
-        "distances": {t: float(v) for t, v in zip(ACHROMATIC_TERMS, d)},
-    }
+    return _nearest_terms(ACHROMATIC_TERMS, d)
 
 
 def night_name(term: str) -> str:

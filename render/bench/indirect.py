@@ -85,10 +85,9 @@ def _xyz_rows(values, rows_of_sample, response, spp, factors, table, lamp_of_cha
 
 def storage_errors(study, rendered, paths: int, bounces: int, seed: int) -> None:
     """Print the measured errors of the stored transport (see the module text)."""
-    from render.colour.colorimetry import resolve
+    from render.colour.colorimetry import lamps_of_channels, resolve
     from render.colour.lamps.catalogue import builtin_lamps
     from render.light.indirect import IndirectSettings, PathTracer, indirect_xyz, trace_view, transport_table
-    from render.light.indirect.transport import lamp_indices
     from render.light.indirect.view import pack_rows, view_transport_tiles
     from render.light.luminaires import channel_factors
 
@@ -155,7 +154,7 @@ def storage_errors(study, rendered, paths: int, bounces: int, seed: int) -> None
         if other_lamp:
             lamps = [other_lamp] * C
         spds = study.lamp_spds(lamps)
-        lamp_of_channel, distinct = lamp_indices(spds)
+        distinct, lamp_of_channel = lamps_of_channels(spds)
         table = transport_table(study.reflectances, np.array(distinct), tracer.basis)
         d = resolve(buffers, factors, spds, study.reflectances)
         direct = np.concatenate([d.xyz_cd_m2, d.scotopic_cd_m2[..., None]], axis=-1)

@@ -54,6 +54,7 @@ __all__ = [
     "ViewColorimetry",
     "coarsen",
     "colorimetric_weights",
+    "lamps_of_channels",
     "resolve",
     "resolve_responses",
     "response_table",
@@ -205,7 +206,7 @@ class ViewColorimetry:
         return self.xyz_cd_m2[..., 1]
 
 
-def _lamps_of_channels(lamp_spds: Sequence[np.ndarray]) -> tuple[list[np.ndarray], np.ndarray]:
+def lamps_of_channels(lamp_spds: Sequence[np.ndarray]) -> tuple[list[np.ndarray], np.ndarray]:
     """The distinct spectra among the channels' (each once, in order of first use) and, per
     channel, the index of its spectrum among them."""
     spd_list: list[np.ndarray] = []
@@ -248,7 +249,7 @@ def _channel_table(
 ) -> tuple[np.ndarray, np.ndarray]:
     """The flat response table (K + 1, M, J) of the channels' distinct lamps and each
     channel's lamp index."""
-    spd_list, lamp_of_channel = _lamps_of_channels(lamp_spds)
+    spd_list, lamp_of_channel = lamps_of_channels(lamp_spds)
     n_out = int(np.prod(weights.shape[1:], dtype=np.int64))
     if spd_list:
         table = response_table(reflectances, np.array(spd_list), step_nm, weights).reshape(

@@ -61,8 +61,7 @@ import numpy as np
 from numba import prange
 
 from render.light.gloss import fresnel_one
-from render.light.integrator import _cell_of
-from render.light.photometry import direction_to_c_gamma, intensity_lookup
+from render.light.integrator import _cell_of, _unshadowed
 from render.rays.bvh.layout import STACK_SIZE, WIDE
 from render.rays.bvh.single import any_one, closest_one
 from render.rays.cameras import _mix64
@@ -106,27 +105,6 @@ def _cosine_direction(nx, ny, nz, u1, u2):
         lx * t1y + ly * t2y + lz * ny,
         lx * t1z + ly * t2z + lz * nz,
     )
-
-
-@numba.njit(cache=True, nogil=True, inline="always")
-def _unshadowed(px, py, pz, nx, ny, nz, k, lum):
-    """Luminaire k's unshadowed illuminance (lx, full output) at a point with unit normal n,
-    and the distance to it; (0, 0) behind the surface or at the luminaire."""
-    rot, pos, scale, table, c_grid, g_grid, n_c, n_g, inv_c, inv_g, cd, channel, clearance = lum
-    dx = px - pos[k, 0]
-    dy = py - pos[k, 1]
-    dz = pz - pos[k, 2]
-    d2 = dx * dx + dy * dy + dz * dz
-    if d2 <= 1e-12:
-        return 0.0, 0.0
-    d = math.sqrt(d2)
-    cos_s = -(nx * dx + ny * dy + nz * dz) / d
-    if cos_s <= 0.0:
-        return 0.0, 0.0
-    t = table[k]
-    c, g = direction_to_c_gamma(rot[k], dx, dy, dz)
-    inten = intensity_lookup(c_grid[t, : n_c[t]], g_grid[t, : n_g[t]], cd[t, : n_c[t], : n_g[t]], c, g)
-    return scale[k] * inten * cos_s / d2, d
 
 
 @numba.njit(cache=True, nogil=True, parallel=True, error_model="numpy")

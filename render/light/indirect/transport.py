@@ -47,7 +47,6 @@ References
 
 from __future__ import annotations
 
-from collections.abc import Sequence
 from dataclasses import dataclass
 from functools import lru_cache
 
@@ -63,7 +62,6 @@ __all__ = [
     "NODE_STEP_NM",
     "TransportBasis",
     "half_table",
-    "lamp_indices",
     "resolve_transport",
     "transport_basis",
     "transport_table",
@@ -146,21 +144,6 @@ def transport_table(
     nodes = basis.reconstruction.T[:, :, None] * w[:, None, :]
     table = response_table(reflectances, lamp_spds, weights=nodes)
     return np.ascontiguousarray(table[:-1])
-
-
-def lamp_indices(lamp_spds: Sequence[np.ndarray]) -> tuple[np.ndarray, list[np.ndarray]]:
-    """Per channel the index of its lamp among the distinct spectra, and those spectra."""
-    distinct: list[np.ndarray] = []
-    of_channel = np.zeros(len(lamp_spds), np.int64)
-    for c, spd in enumerate(lamp_spds):
-        for j, other in enumerate(distinct):
-            if other is spd or np.array_equal(other, spd):
-                of_channel[c] = j
-                break
-        else:
-            of_channel[c] = len(distinct)
-            distinct.append(np.asarray(spd))
-    return of_channel, distinct
 
 
 @lru_cache(maxsize=1)

@@ -36,14 +36,13 @@ import numba
 import numpy as np
 from numpy.typing import ArrayLike
 
-from render.colour.colorimetry import colorimetric_weights
+from render.colour.colorimetry import colorimetric_weights, lamps_of_channels
 from render.colour.spectra import N_BINS
 from render.geometry.mesh import TriangleMesh, face_normals
 from render.light.indirect.paths import RR_FIRST_BOUNCE, trace_paths
 from render.light.indirect.transport import (
     NODE_STEP_NM,
     TransportBasis,
-    lamp_indices,
     resolve_transport,
     transport_basis,
     transport_table,
@@ -308,7 +307,7 @@ def indirect_responses(
     """The view's interreflected light (H, W, J) for observer ``weights`` (N_BINS, J), as
     :func:`render.colour.colorimetry.resolve_responses` gives the direct light's (default: the
     colorimetric weights, X, Y, Z, Y'); the other arguments as for :func:`indirect_xyz`."""
-    lamp_of_channel, distinct = lamp_indices(lamp_spds)
+    distinct, lamp_of_channel = lamps_of_channels(lamp_spds)
     n_pix = indirect.width_px * indirect.height_px
     w = colorimetric_weights() if weights is None else np.asarray(weights, np.float64).reshape(N_BINS, -1)
     out = np.zeros((n_pix, w.shape[1]))
@@ -351,7 +350,7 @@ def illuminance_from_transport(
     """Photopic illuminance (lx) of interreflected light from node values (N, C, n_nodes) of
     :func:`transport_at_points`, with per-channel ``factors`` and lamps: π·Σ_c f_c Σ_j b_cj·Y_j
     with Y_j the luminance a white diffuser returns per unit node value of lamp c."""
-    lamp_of_channel, distinct = lamp_indices(lamp_spds)
+    distinct, lamp_of_channel = lamps_of_channels(lamp_spds)
     out = np.zeros(moments.shape[0])
     if not distinct:
         return out
