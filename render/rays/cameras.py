@@ -20,6 +20,25 @@ strata. Random numbers come from a counter-based hash of ``(key, pixel, sample, 
 generators", OOPSLA 2014), with ``key`` drawn once from ``numpy.random.default_rng(seed)``:
 the rays of a pixel depend only on the seed and the pixel, never on which tile or batch they
 are generated in.
+
+**Downward hemisphere camera** (:class:`DownwardHemisphereCamera`): a measuring plane rather
+than an eye. Its "pixels" are square cells of a horizontal plane at height ``plane_z_m`` (image
+row 0 is the cell row of largest y, column 0 that of smallest x, so the image is a plan with +y
+up); every sample starts at a point of its cell and goes down into the lower hemisphere,
+cosine-weighted about the downward vertical. The mean luminance L a cell's samples see, times
+π, estimates the exitance through the cell from below, M = ∫ L cos θ dω (lm/m² for L in
+cd/m²). Directions are stratified on the ``n x n`` grid of the unit square and mapped by
+Malley's method (uniform points on the unit disc, r = √u₁, φ = 2π u₂, lifted to the
+hemisphere: a cosine-weighted density cos θ / π); the points in the cell are stratified on the
+same grid with an independent per-cell rotation of the strata, so that each sample's point and
+direction are independent and uniform in the cell and cosine-distributed (no bias), while the
+samples of a cell fall in distinct strata of both. Random numbers come from the same
+counter-based hash, with their own counters.
+
+References (downward hemisphere camera): Malley's method, e.g. M. Pharr, W. Jakob and
+G. Humphreys, *Physically Based Rendering*, 3rd ed. (2016), §13.6.3 (cosine-weighted
+hemisphere sampling); exitance as the cosine-weighted integral of luminance: CIE S 017:2020
+(ILV) 17-21-080 "luminous exitance" **(from memory)**.
 """
 
 from __future__ import annotations
@@ -282,6 +301,137 @@ def _ray_kernel(
                 out_p[i] = p
 
 
+# Counter offset of a downward hemisphere camera's cell points (its directions use 2s, 2s + 1).
+_POINT_COUNTER = np.uint64(1 << 40)
+# Salt of the per-cell rotation of the point strata (independent of the direction strata's).
+_POINT_SALT = np.uint64(0xD1B54A32D192ED03)
+
+
+@numba.njit(cache=True, nogil=True)
+def _downward_ray_kernel(
+    pixels, width, height, spp, grid, key, jitter, x0, y0, cell, z, out_o, out_d, out_p, first, stride
+):
+    """The rays of a :class:`DownwardHemisphereCamera`'s cells in items ``first, first +
+    stride, ...`` of :data:`_ITEM` cells (module text)."""
+    n_cells = grid * grid
+    n = pixels.shape[0]
+    for item in range(first, (n + _ITEM - 1) // _ITEM, stride):
+        for k in range(item * _ITEM, min(n, (item + 1) * _ITEM)):
+            p = pixels[k]
+            col = np.float64(p % width)
+            row = np.float64(height - 1 - p // width)  # image row 0 is the largest y
+            pu = np.uint64(p)
+            rot_d = np.int64(_mix64(key ^ _mix64(pu ^ _GOLDEN)) % np.uint64(n_cells))
+            rot_p = np.int64(_mix64(key ^ _mix64(pu ^ _POINT_SALT)) % np.uint64(n_cells))
+            for s in range(spp):
+                cd = (s + rot_d) % n_cells
+                cp = (s + rot_p) % n_cells
+                if jitter:
+                    u1 = _uniform(key, pu, np.uint64(2 * s))
+                    u2 = _uniform(key, pu, np.uint64(2 * s + 1))
+                    v1 = _uniform(key, pu, _POINT_COUNTER + np.uint64(2 * s))
+                    v2 = _uniform(key, pu, _POINT_COUNTER + np.uint64(2 * s + 1))
+                else:
+                    u1 = u2 = v1 = v2 = 0.5
+                a = ((cd % grid) + u1) / grid
+                b = ((cd // grid) + u2) / grid
+                r = math.sqrt(a)
+                phi = 2.0 * math.pi * b
+                i = k * spp + s
+                out_d[i, 0] = r * math.cos(phi)
+                out_d[i, 1] = r * math.sin(phi)
+                out_d[i, 2] = -math.sqrt(max(0.0, 1.0 - a))
+                out_o[i, 0] = x0 + cell * (col + ((cp % grid) + v1) / grid)
+                out_o[i, 1] = y0 + cell * (row + ((cp // grid) + v2) / grid)
+                out_o[i, 2] = z
+                out_p[i] = p
+
+
+@dataclass(kw_only=True)
+class DownwardHemisphereCamera:
+    """A horizontal measuring plane seen as a camera: ``width_px`` x ``height_px`` square cells
+    of ``cell_m`` from the corner ``origin_xy_m`` (smallest x and y) at height ``plane_z_m``;
+    every sample goes down from a point of its cell, cosine-weighted (module text). π times a
+    cell's mean luminance is the exitance through it from below, lm/m².
+
+    It takes the place of a :class:`Camera` wherever camera samples are cast
+    (:func:`camera_rays`, :func:`tile_pixels`), so the light buffers of the plane are those of
+    a view: per sample and light channel, relit for any lamps, lumens and dimming."""
+
+    origin_xy_m: tuple[float, float]
+    plane_z_m: float
+    cell_m: float
+    width_px: int
+    height_px: int
+
+    def __post_init__(self) -> None:
+        xy = np.asarray(self.origin_xy_m, dtype=np.float64).reshape(-1)
+        if xy.shape != (2,) or not np.all(np.isfinite(xy)):
+            raise ValueError(f"origin_xy_m must be two finite numbers, got {self.origin_xy_m!r}")
+        if not (math.isfinite(self.plane_z_m) and math.isfinite(self.cell_m) and self.cell_m > 0.0):
+            raise ValueError(
+                f"need a finite plane height and a positive cell size, got {self.plane_z_m}, {self.cell_m}"
+            )
+        for name in ("width_px", "height_px"):
+            value = getattr(self, name)
+            if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or value < 1:
+                raise ValueError(f"{name} must be a whole number of cells >= 1, got {value!r}")
+        self.origin_xy_m = (float(xy[0]), float(xy[1]))
+        self.plane_z_m = float(self.plane_z_m)
+        self.cell_m = float(self.cell_m)
+        self.width_px = int(self.width_px)
+        self.height_px = int(self.height_px)
+
+    @property
+    def n_pixels(self) -> int:
+        return self.width_px * self.height_px
+
+    @property
+    def shape(self) -> tuple[int, int]:
+        """(height_px, width_px), the shape of the map (row 0: largest y)."""
+        return (self.height_px, self.width_px)
+
+    @property
+    def cell_area_m2(self) -> float:
+        return self.cell_m * self.cell_m
+
+    @property
+    def extent_m(self) -> tuple[float, float, float, float]:
+        """(x0, x1, y0, y1) of the plane, m."""
+        x0, y0 = self.origin_xy_m
+        return (x0, x0 + self.width_px * self.cell_m, y0, y0 + self.height_px * self.cell_m)
+
+    def rays(self, samples_per_pixel: int, seed: int, pixels: np.ndarray, *, jitter: bool = True):
+        """Origins, directions and cell indices of the samples of ``pixels`` (as
+        :func:`camera_rays`)."""
+        spp = _check_spp(samples_per_pixel)
+        grid = int(math.ceil(math.sqrt(spp)))
+        n = pixels.shape[0] * spp
+        out_o = np.empty((n, 3))
+        out_d = np.empty((n, 3))
+        out_p = np.empty(n, np.int64)
+        if n:
+            run_split(
+                _downward_ray_kernel,
+                (pixels.shape[0] + _ITEM - 1) // _ITEM,
+                pixels,
+                self.width_px,
+                self.height_px,
+                spp,
+                grid,
+                seed_key(seed),
+                bool(jitter),
+                self.origin_xy_m[0],
+                self.origin_xy_m[1],
+                self.cell_m,
+                self.plane_z_m,
+                out_o,
+                out_d,
+                out_p,
+            )
+        return out_o, out_d, out_p
+
+
 def _check_spp(samples_per_pixel) -> int:
     if (
         isinstance(samples_per_pixel, bool)
@@ -297,14 +447,19 @@ def _check_spp(samples_per_pixel) -> int:
 
 
 def camera_rays(
-    camera: Camera, samples_per_pixel: int = 1, seed: int = 0, pixels: np.ndarray | None = None, *, jitter: bool = True
+    camera: Camera | DownwardHemisphereCamera,
+    samples_per_pixel: int = 1,
+    seed: int = 0,
+    pixels: np.ndarray | None = None,
+    *,
+    jitter: bool = True,
 ):
     """Primary rays through the pixels of ``camera``.
 
     Parameters
     ----------
     camera
-        The camera.
+        The camera (a :class:`DownwardHemisphereCamera` gives its cells' downward samples).
     samples_per_pixel
         Rays per pixel (stratified, see the module docstring).
     seed
@@ -330,6 +485,8 @@ def camera_rays(
         pix = np.ascontiguousarray(pixels, dtype=np.int64).reshape(-1)
         if pix.size and (pix.min() < 0 or pix.max() >= camera.n_pixels):
             raise ValueError(f"pixel indices must be in [0, {camera.n_pixels})")
+    if isinstance(camera, DownwardHemisphereCamera):
+        return camera.rays(spp, seed, pix, jitter=jitter)
     grid = int(math.ceil(math.sqrt(spp)))
     r, u, f = camera.basis()
     half_w, half_h = camera.half_extent
@@ -361,7 +518,9 @@ def camera_rays(
     return out_o, out_d, out_p
 
 
-def tile_pixels(camera: Camera, x0: int, y0: int, x1: int, y1: int, block_px: int = 1) -> np.ndarray:
+def tile_pixels(
+    camera: Camera | DownwardHemisphereCamera, x0: int, y0: int, x1: int, y1: int, block_px: int = 1
+) -> np.ndarray:
     """Flat indices of the pixels with ``x0 <= x < x1`` and ``y0 <= y < y1``.
 
     ``block_px = 1`` lists them row by row. A larger value lists them in square blocks of
