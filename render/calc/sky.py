@@ -20,6 +20,32 @@
   under the lamp lighting it gives the reflected upward flux. Facades and objects are left out
   (a wall sends half its reflected light up; house fronts receive far less light than the
   ground), so the figure is a lower bound, stated so.
+* **Upward exitance map** (:class:`UpwardLight`, :class:`UpwardExitanceMap`): the light the
+  whole scene sends up, facades, roofs and objects included, measured where it leaves: on a
+  horizontal plane :data:`UPWARD_PLANE_CLEARANCE_M` above the scene's highest surface, over the
+  scene's horizontal bounds (the bounding box of every triangle the calculation sees: the
+  street and roads from building line to building line and beyond, frontages, roofs, columns,
+  the objects ``[calc] include_objects`` names), in square cells of
+  :data:`UPWARD_MAP_CELL_M` (coarser when the bounds would need more than
+  :data:`render.limits.MAX_PLAN_POINTS` cells). From every cell
+  :data:`UPWARD_MAP_RAYS_PER_CELL` rays go down into the lower hemisphere, cosine-weighted and
+  stratified, from stratified points of the cell
+  (:class:`render.rays.cameras.DownwardHemisphereCamera`); the mean luminance L they find,
+  times π, is the exitance through the cell, M = ∫ L cos θ dω, lm/m². The plane's samples are
+  light buffers like a view's (:func:`render.light.integrator.render_buffers`: per sample and
+  light channel, the surface's E/π and its specular layer), so every setup's lamps, lumens and
+  dimming relight them without a ray, and a setup that changes a photometric distribution
+  evaluates the light again at the same hits (as :meth:`render.study.Study.relight`). The
+  total reflected upward flux is Σ M·A over the cells. Included: every lit surface seen from
+  above, with its material's reflectance under the lamp (the colorimetric response tables) and
+  its specular layer; the carriageway Lambertian (the r-tables describe a driver's view, not the
+  sky's). Left out, and said so: the direct light of luminous openings seen from above (a
+  sample that meets an opening counts as seeing nothing; the direct upward flux covers that
+  light), and light leaving the scene's box sideways below the plane (the open ends of a street
+  canyon; it goes to the sky near the horizon). With interreflection (``lampcast calc
+  --bounces N``) the surfaces' interreflected light is added
+  (:func:`render.light.indirect.trace_view` on the plane's samples, relit like a view's);
+  without it, one reflection only.
 * **Photometric reflectance** of a material under a lamp: ρ_v = Σ ρ(λ) s(λ) V(λ) / Σ s(λ) V(λ)
   (:func:`render.colour.materials.luminous_reflectance` with the lamp as illuminant).
 * **Sky-glow weighting**: the upward lumens of each lamp times a per-lumen spectral weight,
@@ -43,6 +69,9 @@ References
   visibility" **(from memory)**.
 - CIE 1924 photopic V(λ), CIE 1951 scotopic V'(λ), Km = 683 lm/W, K'm = 1700 lm/W: CIE 018:2019
   via colour-science's tables (:mod:`render.colour.observers`).
+- Luminous exitance M = ∫ L cos θ dω (a Lambertian surface: M = πL = ρE): CIE S 017:2020 (ILV)
+  **(from memory)**; cosine-weighted hemisphere sampling (Malley's method): Pharr, Jakob &
+  Humphreys, *Physically Based Rendering*, 3rd ed. (2016), §13.6.3.
 - View factor of a tilted plane to the sky hemisphere, (1 + cos β)/2: standard radiative-transfer
   result (e.g. Howell, Siegel & Mengüç, *Thermal Radiation Heat Transfer*) **(from memory)**.
 """
@@ -52,7 +81,7 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import asdict, dataclass
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 import numpy.typing as npt
@@ -61,14 +90,32 @@ from render.colour.observers import photopic_lef, sp_ratio
 from render.colour.spectra import WAVELENGTHS_NM
 from render.light.photometry import intensity_cd, luminaire_rotation, world_to_c_gamma, zonal_flux_lm
 from render.light.photometry.model import Photometry
+from render.limits import MAX_PLAN_POINTS
+from render.rays.cameras import DownwardHemisphereCamera
 from render.scene.model import Street
+
+if TYPE_CHECKING:
+    from render.geometry.mesh import TriangleMesh
+    from render.light.integrator import LightBuffers
+    from render.light.luminaires import LuminaireSet
+    from render.rays.bvh import BVH
+    from render.scene.model import Setup
+    from render.study import Study
 
 __all__ = [
     "RAYLEIGH_REFERENCE_NM",
+    "UPWARD_MAP_CELL_M",
+    "UPWARD_MAP_RAYS_PER_CELL",
+    "UPWARD_PLANE_CLEARANCE_M",
     "GroundPatches",
     "ground_patches",
     "SkyFigures",
     "SkyGlowRelative",
+    "UpwardExitanceMap",
+    "UpwardLight",
+    "exitance_lm_m2",
+    "upward_buffers",
+    "upward_plane",
     "direct_upward_flux_lm",
     "notch_filterable_fraction",
     "rayleigh_weight_per_lm",
@@ -81,6 +128,13 @@ __all__ = [
 
 #: Wavelength at which the Rayleigh weight per lumen of monochromatic light is 1, nm.
 RAYLEIGH_REFERENCE_NM = 555.0
+#: Cell of the upward exitance map, m (own choice: the calculation's plan spacing).
+UPWARD_MAP_CELL_M = 0.5
+#: Rays per cell of the upward exitance map (own choice: a 2 x 2 stratification; the total
+#: flux averages over thousands of cells, so its Monte Carlo error stays small).
+UPWARD_MAP_RAYS_PER_CELL = 4
+#: Height of the measuring plane above the scene's highest surface, m (own choice).
+UPWARD_PLANE_CLEARANCE_M = 0.05
 
 
 def upward_flux_lm(photometry: Photometry, tilt_deg: float = 0.0, steps_per_degree: int = 4) -> float:
@@ -284,3 +338,213 @@ def sky_glow_relative(before: SkyFigures, option: SkyFigures) -> SkyGlowRelative
         rayleigh_weighted=ratio(option.rayleigh_weighted_lm, before.rayleigh_weighted_lm),
         scotopic_weighted=ratio(option.scotopic_weighted_lm, before.scotopic_weighted_lm),
     )
+
+
+# ------------------------------------------------------------------------------------------
+# Upward exitance map (module text)
+# ------------------------------------------------------------------------------------------
+
+
+def upward_plane(
+    triangles_m: npt.ArrayLike,
+    cell_m: float = UPWARD_MAP_CELL_M,
+    clearance_m: float = UPWARD_PLANE_CLEARANCE_M,
+    max_cells: int = MAX_PLAN_POINTS,
+) -> DownwardHemisphereCamera:
+    """The measuring plane over the horizontal bounds of ``triangles_m`` (F, 3, 3), in whole
+    cells of ``cell_m`` centred on them (coarser when more than ``max_cells`` would be needed),
+    ``clearance_m`` above the highest vertex."""
+    if not (math.isfinite(cell_m) and cell_m > 0.0):
+        raise ValueError(f"cell size must be positive, got {cell_m}")
+    t = np.asarray(triangles_m, np.float64).reshape(-1, 3)
+    if t.size == 0:
+        raise ValueError("no surfaces to measure above")
+    lo, hi = t.min(axis=0), t.max(axis=0)
+    size = np.maximum(hi[:2] - lo[:2], 1e-9)
+    cell = float(cell_m)
+    if float(np.prod(np.ceil(size / cell))) > max_cells:
+        cell = max(cell, math.sqrt(float(np.prod(size)) / max_cells))
+        while float(np.prod(np.ceil(size / cell))) > max_cells:
+            cell *= 1.01
+    n = np.maximum(1, np.ceil(size / cell - 1e-9)).astype(np.int64)
+    origin = lo[:2] - (n * cell - size) / 2.0
+    return DownwardHemisphereCamera(
+        origin_xy_m=(float(origin[0]), float(origin[1])),
+        plane_z_m=float(hi[2]) + float(clearance_m),
+        cell_m=cell,
+        width_px=int(n[0]),
+        height_px=int(n[1]),
+    )
+
+
+def upward_buffers(
+    mesh: TriangleMesh,
+    bvh: BVH,
+    lights: LuminaireSet,
+    plane: DownwardHemisphereCamera,
+    rays_per_cell: int,
+    seed: int,
+    *,
+    negligible_lx: float | None = None,
+) -> LightBuffers:
+    """The plane's light buffers (:func:`render.light.integrator.render_buffers` with the
+    plane as camera), with the samples that meet a luminous opening set to see nothing (their
+    direct light is not reflected light; the module text)."""
+    from render.light.integrator import NEGLIGIBLE_LX, render_buffers
+
+    buffers = render_buffers(
+        mesh,
+        bvh,
+        lights,
+        plane,
+        rays_per_cell,
+        seed,
+        negligible_lx=NEGLIGIBLE_LX if negligible_lx is None else negligible_lx,
+    )
+    opening = buffers.emitter >= 0
+    buffers.response[opening] = -1
+    buffers.emitter[opening] = -1
+    buffers.value_cd_m2[opening] = 0.0
+    if buffers.spec_cd_m2 is not None:
+        buffers.spec_cd_m2[opening] = 0.0
+    return buffers
+
+
+def exitance_lm_m2(
+    buffers: LightBuffers,
+    factors: npt.ArrayLike,
+    lamp_spds: Sequence[np.ndarray],
+    reflectances: npt.ArrayLike,
+) -> np.ndarray:
+    """(H, W) float64 upward exitance through each cell, lm/m²: π times the cell's mean
+    luminance (:func:`render.colour.colorimetry.resolve`, with the interreflected light where
+    the buffers keep it), for per-channel ``factors`` and lamp spectra."""
+    from render.colour.colorimetry import resolve
+
+    luminance = resolve(buffers, factors, lamp_spds, reflectances).xyz_cd_m2[..., 1].astype(np.float64)
+    if buffers.indirect is not None:
+        from render.light.indirect import indirect_xyz
+
+        luminance = luminance + indirect_xyz(buffers.indirect, buffers.response, factors, lamp_spds, reflectances)[
+            ..., 1
+        ].astype(np.float64)
+    return math.pi * luminance
+
+
+@dataclass(frozen=True)
+class UpwardExitanceMap:
+    """The upward exitance of one setup through the measuring plane (module text).
+
+    ``exitance_lm_m2`` (H, W): row 0 the cells of largest y, column 0 those of smallest x;
+    ``extent_m`` (x0, x1, y0, y1); ``bounces`` the interreflections included (0: one
+    reflection)."""
+
+    setup: str | None
+    exitance_lm_m2: np.ndarray
+    extent_m: tuple[float, float, float, float]
+    plane_z_m: float
+    cell_m: float
+    rays_per_cell: int
+    bounces: int
+
+    @property
+    def cell_area_m2(self) -> float:
+        return self.cell_m * self.cell_m
+
+    @property
+    def reflected_upward_lm(self) -> float:
+        """Total reflected upward flux through the plane, Σ M·A, lm."""
+        return float(self.exitance_lm_m2.sum() * self.cell_area_m2)
+
+    @property
+    def area_m2(self) -> float:
+        return float(self.exitance_lm_m2.size * self.cell_area_m2)
+
+    def to_json(self) -> dict[str, Any]:
+        """The map's summary (the cells themselves are in the picture, not in the JSON)."""
+        m = self.exitance_lm_m2
+        return {
+            "reflected_upward_lm": self.reflected_upward_lm,
+            "mean_exitance_lm_m2": float(m.mean()),
+            "max_exitance_lm_m2": float(m.max()),
+            "extent_m": list(self.extent_m),
+            "plane_z_m": self.plane_z_m,
+            "cell_m": self.cell_m,
+            "cells": [int(m.shape[1]), int(m.shape[0])],
+            "rays_per_cell": self.rays_per_cell,
+            "bounces": self.bounces,
+        }
+
+
+class UpwardLight:
+    """The measuring plane over ``study``'s scene cast once (under ``setup``'s lights) and
+    relit for any setup: :meth:`exitance` (module text). ``bounces`` > 0 adds interreflected
+    light traced with the scene's ``indirect_samples_per_pixel`` paths per cell."""
+
+    def __init__(
+        self,
+        study: Study,
+        setup: str | Setup | None = None,
+        *,
+        cell_m: float = UPWARD_MAP_CELL_M,
+        rays_per_cell: int = UPWARD_MAP_RAYS_PER_CELL,
+        seed: int | None = None,
+        bounces: int = 0,
+    ) -> None:
+        self.study = study
+        self.rays_per_cell = int(rays_per_cell)
+        self.seed = study.scene.render.seed if seed is None else int(seed)
+        self.bounces = int(bounces)
+        self.plane = upward_plane(study.mesh.triangles_m, cell_m)
+        self.lights = study.lights(setup)
+        self.buffers = upward_buffers(
+            study.mesh,
+            study.bvh,
+            self.lights,
+            self.plane,
+            self.rays_per_cell,
+            self.seed,
+            negligible_lx=study.negligible_lx,
+        )
+        self._trace(self.buffers, self.lights)
+
+    def _trace(self, buffers: LightBuffers, lights: LuminaireSet) -> None:
+        if self.bounces <= 0:
+            return
+        from render.light.indirect import IndirectSettings, trace_view
+
+        settings = IndirectSettings(
+            bounces=self.bounces, samples_per_pixel=self.study.scene.render.indirect_samples_per_pixel
+        )
+        study = self.study
+        buffers.indirect = trace_view(
+            buffers, lights, study.bvh, study.reflectances, settings, self.seed, negligible_lx=study.negligible_lx
+        )
+
+    def exitance(self, setup: str | Setup | None = None) -> UpwardExitanceMap:
+        """The map under ``setup``: lamps, lumens and dimming applied to the kept buffers; a
+        changed photometric distribution evaluated again at the same hits."""
+        from render.light.integrator import LightBuffers, evaluate_light
+        from render.light.luminaires import channel_factors, needs_new_evaluation
+
+        study = self.study
+        s = study.setup(setup)
+        lights, buffers = self.lights, self.buffers
+        if needs_new_evaluation(lights, s):
+            lights = study.lights(s)
+            buffers = LightBuffers(**{**self.buffers.__dict__})
+            buffers.indirect = None
+            evaluate_light(buffers, lights, study.bvh, negligible_lx=study.negligible_lx)
+            self._trace(buffers, lights)
+        factors, lamps = channel_factors(lights, s)
+        m = exitance_lm_m2(buffers, factors, study.lamp_spds(lamps), study.reflectances)
+        p = self.plane
+        return UpwardExitanceMap(
+            setup=s.name if s is not None else None,
+            exitance_lm_m2=m,
+            extent_m=p.extent_m,
+            plane_z_m=p.plane_z_m,
+            cell_m=p.cell_m,
+            rays_per_cell=self.rays_per_cell,
+            bounces=self.bounces,
+        )
