@@ -178,3 +178,38 @@ def test_provenance_states_the_interreflection(van_view):
     with_bounces = image_metadata(s, rendered, "", obs, 1, 1)
     assert with_bounces["lampcast.interreflection"] == rendered.buffers.indirect.settings.describe()
     assert "lampcast.interreflection" not in image_metadata(s, direct_only, "", obs, 1, 1)
+
+
+# ------------------------------------------------------------------------------------------
+# The comparison's report states the light modelled
+# ------------------------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize("bounces", [0, 1])
+def test_report_states_the_light_modelled(tmp_path, bounces):
+    # What a reader is told about shadows must match what was traced (common practice, no
+    # source): direct light only says so; with bounces the caution and the render settings
+    # give them, and metrics.json keeps them.
+    from render.output.comparison import CAUTIONS, run_comparison
+
+    path = write_two_objects_scene(tmp_path)
+    s = Study(path)
+    s.scene.render.bounces = bounces
+    s.scene.render.indirect_samples_per_pixel = 2
+    result = run_comparison(
+        s, "old", "new", ["van"], tmp_path / "out", width_px=24, samples_per_pixel=1, progress=False, colour=False
+    )
+    stored = json.loads((tmp_path / "out" / "metrics.json").read_text(encoding="utf-8"))
+    page = (tmp_path / "out" / "report.html").read_text(encoding="utf-8")
+    assert stored["settings"]["bounces"] == bounces
+    if bounces:
+        assert stored["settings"]["indirect_samples_per_pixel"] == 2
+        caution = next(c for c in result.metrics.cautions if c.startswith("Light reflected between surfaces"))
+        assert "up to 1 bounce, 2 paths per pixel" in caution
+        assert CAUTIONS[1] not in result.metrics.cautions
+        assert "paths per pixel for interreflected light" in page
+    else:
+        assert stored["settings"]["indirect_samples_per_pixel"] is None
+        assert CAUTIONS[1] in result.metrics.cautions
+        assert "paths per pixel for interreflected light" not in page
+    assert "interreflections traced" in page

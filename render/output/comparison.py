@@ -73,6 +73,7 @@ from render.scene.model import GroupSetting, Scene, Setup
 if TYPE_CHECKING:
     from render.calc.run import CalculationReport
     from render.geometry.build import ObjectInfo
+    from render.light.indirect import IndirectSettings
     from render.light.luminaires import LuminaireSet
     from render.study import RenderedView, Study
     from render.vision.adaptation import AdaptationState
@@ -82,6 +83,7 @@ if TYPE_CHECKING:
 __all__ = [
     "CALCULATION_FOLDER",
     "CAUTIONS",
+    "INTERREFLECTION_CAUTION",
     "LUMINANCE_LEGEND",
     "SETUP_KEYS",
     "WIPE_WIDTH_PX",
@@ -89,6 +91,7 @@ __all__ = [
     "calculation_absent_reason",
     "calculation_json",
     "colour_report_section",
+    "light_cautions",
     "luminance_legend",
     "luminance_maps",
     "luminance_scale",
@@ -107,13 +110,30 @@ __all__ = [
 
 #: Cautions shown with every comparison (the report adds its standing caution: an illustrative
 #: preview, not a design or compliance calculation; local codes and licensed practice decide).
+#: The second depends on the light modelled: :func:`light_cautions`.
 CAUTIONS = (
     "The images use published average-observer models of night vision, glare and colour appearance.",
-    "Only direct light from the luminaires is modelled so far: light reflected between surfaces and light "
+    "Only direct light from the luminaires is modelled: light reflected between surfaces and light "
     "from the night sky are left out, so shadowed surfaces show as black and minimum luminances as 0.",
     "Real eyes differ: age, eye conditions, medication and fatigue change how bright, glary and colourful a "
     "street looks. A printed or on-screen image cannot reproduce night-time luminance exactly.",
 )
+
+#: The second caution when interreflected light is traced (``{settings}``: its settings).
+INTERREFLECTION_CAUTION = (
+    "Light reflected between surfaces is included ({settings}): it is a Monte Carlo estimate, so deep "
+    "shadows can look grainy, and the calculations' figures stay direct light unless labelled otherwise."
+)
+
+
+def light_cautions(indirect: IndirectSettings | None) -> tuple[str, ...]:
+    """The comparison's cautions for the light modelled: :data:`CAUTIONS`, with the second
+    stating the interreflection settings when ``indirect`` is given (None: direct light only)."""
+    if indirect is None:
+        return CAUTIONS
+    settings = indirect.describe().removeprefix("interreflected light: ")
+    return (CAUTIONS[0], INTERREFLECTION_CAUTION.format(settings=settings), CAUTIONS[2])
+
 
 SETUP_KEYS = ("lamp", "lumens", "dimming", "photometry")
 
@@ -1057,14 +1077,22 @@ def run_comparison(
                 # The same rounding as `lampcast lamps --json`, so both agree exactly.
                 f = lamp_figures(get_lamp(lamp_id, base_dir=scene.base_dir))
                 lamps[lamp_id] = LampFigures.from_json(f.to_json())
+    indirect = study.indirect_settings()
     metrics = ComparisonMetrics(
         tool=ToolInfo("lampcast", __version__),
         scene=SceneInfo(scene.name, scene.description, "", scene.path.name, study.scene_sha256, scene.attribution),
         observer=ObserverInfo.of(observer),
-        settings=RenderSettings(spp, seed, camera.width_px, camera.height_px),
+        settings=RenderSettings(
+            spp,
+            seed,
+            camera.width_px,
+            camera.height_px,
+            indirect.bounces if indirect is not None else 0,
+            indirect.samples_per_pixel if indirect is not None else None,
+        ),
         setups=descriptions,
         views=tuple(view_metrics),
-        cautions=tuple(CAUTIONS),
+        cautions=light_cautions(indirect),
         extra_sections=sections,
         colours=colours,
         lamps=lamps,

@@ -172,12 +172,16 @@ class ObserverInfo:
 
 @dataclass(frozen=True)
 class RenderSettings:
-    """Samples per pixel, random seed and image size of the rendered views."""
+    """Samples per pixel, random seed and image size of the rendered views; ``bounces`` the
+    interreflections traced (0: direct light only) and ``indirect_samples_per_pixel`` their paths
+    per pixel (None without them; both None in files written before they were recorded)."""
 
     samples_per_pixel: int | None
     seed: int | None
     width_px: int | None
     height_px: int | None
+    bounces: int | None = None
+    indirect_samples_per_pixel: int | None = None
 
     def to_json(self) -> dict[str, Any]:
         return _fields_json(self)

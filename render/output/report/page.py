@@ -99,6 +99,8 @@ SETTINGS_ROWS = (
     ("seed", "random seed", "int"),
     ("width_px", "image width (px)", "int"),
     ("height_px", "image height (px)", "int"),
+    ("bounces", "interreflections traced (0: direct light only)", "int"),
+    ("indirect_samples_per_pixel", "paths per pixel for interreflected light", "int"),
 )
 
 _ID_SAFE = re.compile(r"^[A-Za-z][A-Za-z0-9_-]*$")
@@ -743,6 +745,10 @@ def build_page(metrics: ComparisonMetrics, images: ImageFolder) -> Page:
                 (NumberCell(f"settings.{key}", getattr(metrics.settings, key), rule, reason="not given"),),
             )
             for key, label, rule in SETTINGS_ROWS
+            # Interreflection rows only where recorded (older metrics files lack them), and
+            # paths per pixel only where interreflected light was traced.
+            if key != "bounces" or metrics.settings.bounces is not None
+            if key != "indirect_samples_per_pixel" or metrics.settings.bounces
         ),
     )
     cautions = (STANDING_CAUTION, *(c for c in metrics.cautions if c != STANDING_CAUTION))
