@@ -38,20 +38,36 @@ import numpy as np
 import numpy.typing as npt
 
 __all__ = [
+    "BASE_ALBEDO_PER_TRANSMITTANCE",
     "WATER_F0",
     "WET_ROUGHNESS",
+    "balance_heuristic",
     "fresnel_one",
     "ggx_d",
+    "layered_eval",
+    "layered_one",
+    "layered_pdf",
+    "layered_pdf_one",
+    "power_heuristic",
     "schlick_fresnel",
     "smith_g1",
     "specular_brdf",
+    "specular_lobe_probability",
     "specular_one",
+    "vndf_pdf",
+    "vndf_pdf_one",
+    "vndf_sample",
+    "vndf_sample_one",
 ]
 
 #: F0 of water (n = 1.333): ((n - 1) / (n + 1))², analytic.
 WATER_F0 = ((1.333 - 1.0) / (1.333 + 1.0)) ** 2
 #: GGX roughness α used for a wet street (common practice, no source).
 WET_ROUGHNESS = 0.1
+#: The base's directional albedo under the layer over its reflectance ρ, per unit 1 − F0:
+#: ∫ (1 − F(cos θ))·cos θ/π dω = (1 − F0)·(1 − 2·B(2, 6)) = (1 − F0)·20/21 for Schlick's F
+#: (B the beta function; analytic).
+BASE_ALBEDO_PER_TRANSMITTANCE = 20.0 / 21.0
 
 
 # The formulas, once, as numba scalar functions; the array functions below and the light
@@ -101,6 +117,154 @@ def specular_one(nx, ny, nz, lx, ly, lz, vx, vy, vz, f0, alpha):
     return f / (4.0 * max(ci, 1e-9) * max(co, 1e-9))
 
 
+# Sampling blocks for light bounced off the layer (path tracing): the visible-normal sampler
+# and its pdf, the one-sample choice between the two lobes, the heuristics that weight two
+# strategies, and the layered surface's value for a pair of directions.
+
+
+@numba.njit(cache=True, nogil=True)
+def vndf_sample_one(vx, vy, vz, alpha, u1, u2):
+    """A direction ``l`` reflected about a GGX normal sampled from the normals visible from ``v``
+    (Heitz 2018), in the local frame whose z axis is the surface normal; ``v`` unit, toward the
+    eye, ``u1, u2`` uniform in [0, 1). Returns ``(lx, ly, lz, pdf)``, the pdf of ``l`` in solid
+    angle (1/sr, :func:`vndf_pdf_one`). ``l`` may point below the surface (``lz <= 0``: the
+    layer reflects nothing there; the pdf still counts it). ``vz <= 0``: ``(0, 0, 0, 0)``."""
+    if not (vz > 0.0):
+        return 0.0, 0.0, 0.0, 0.0
+    # The view direction in the hemisphere configuration (the ellipsoid stretched to a sphere).
+    hx = alpha * vx
+    hy = alpha * vy
+    hz = vz
+    inv = 1.0 / math.sqrt(hx * hx + hy * hy + hz * hz)
+    hx *= inv
+    hy *= inv
+    hz *= inv
+    # A basis about it (any perpendicular when it is the pole).
+    lensq = hx * hx + hy * hy
+    if lensq > 0.0:
+        r_ = 1.0 / math.sqrt(lensq)
+        t1x, t1y, t1z = -hy * r_, hx * r_, 0.0
+    else:
+        t1x, t1y, t1z = 1.0, 0.0, 0.0
+    t2x = hy * t1z - hz * t1y
+    t2y = hz * t1x - hx * t1z
+    t2z = hx * t1y - hy * t1x
+    # A point of the projected hemisphere: a disc sample, its second half squeezed into the
+    # projection of the half-disc seen edge-on.
+    r = math.sqrt(u1)
+    phi = 2.0 * math.pi * u2
+    p1 = r * math.cos(phi)
+    p2 = r * math.sin(phi)
+    s = 0.5 * (1.0 + hz)
+    p2 = (1.0 - s) * math.sqrt(max(0.0, 1.0 - p1 * p1)) + s * p2
+    # Back onto the hemisphere, then to the ellipsoid configuration: the microfacet normal m.
+    pn = math.sqrt(max(0.0, 1.0 - p1 * p1 - p2 * p2))
+    nx = p1 * t1x + p2 * t2x + pn * hx
+    ny = p1 * t1y + p2 * t2y + pn * hy
+    nz = p1 * t1z + p2 * t2z + pn * hz
+    mx = alpha * nx
+    my = alpha * ny
+    mz = max(0.0, nz)
+    inv = 1.0 / math.sqrt(mx * mx + my * my + mz * mz)
+    mx *= inv
+    my *= inv
+    mz *= inv
+    vm = vx * mx + vy * my + vz * mz
+    lx = 2.0 * vm * mx - vx
+    ly = 2.0 * vm * my - vy
+    lz = 2.0 * vm * mz - vz
+    if not (vm > 0.0 and mz > 0.0):
+        return lx, ly, lz, 0.0
+    # pdf(l) = G1(v)·D(m)·(v·m)/cos θ_v · 1/(4·(v·m)): the visible normals' density times the
+    # Jacobian of the reflection.
+    return lx, ly, lz, _g1_one(vz, alpha) * _ggx_one(mz, alpha) / (4.0 * vz)
+
+
+@numba.njit(cache=True, nogil=True)
+def vndf_pdf_one(nx, ny, nz, lx, ly, lz, vx, vy, vz, alpha):
+    """Solid-angle pdf (1/sr) of direction ``l`` under :func:`vndf_sample_one` about the unit
+    normal ``n`` for the view ``v`` (any common frame): G1(v)·max(0, v·h)·D(h) /
+    (cos θ_v · 4·(v·h)) with ``h`` the unit half vector of ``l`` and ``v``; 0 where ``v`` is below
+    the surface or ``h`` is (no microfacet reflects ``v`` into ``l``)."""
+    cv = nx * vx + ny * vy + nz * vz
+    if not (cv > 0.0):
+        return 0.0
+    hx = lx + vx
+    hy = ly + vy
+    hz = lz + vz
+    h = math.sqrt(hx * hx + hy * hy + hz * hz)
+    if not (h > 1e-12):
+        return 0.0
+    ch = (nx * hx + ny * hy + nz * hz) / h
+    vh = (vx * hx + vy * hy + vz * hz) / h
+    if not (ch > 0.0 and vh > 0.0):
+        return 0.0
+    return _g1_one(cv, alpha) * max(0.0, vh) * _ggx_one(ch, alpha) / (cv * 4.0 * vh)
+
+
+@numba.njit(cache=True, nogil=True)
+def layered_one(nx, ny, nz, lx, ly, lz, vx, vy, vz, f0, alpha):
+    """The layered surface for light arriving from ``l`` and leaving toward ``v`` (unit vectors,
+    unit normal ``n``): ``(spec_cos, base_cos)``, both times cos θ_l (1/sr), so that
+    f·cos θ_l = spec_cos + ρ(λ)·base_cos. ``spec_cos`` = f_s·cos θ_l (:func:`specular_one`, white);
+    ``base_cos`` = (1 − F(n·l))·cos θ_l/π, the Lambertian base under what the interface
+    transmits, as the direct light has it (no factor for the way out through the interface).
+    Without a layer (``f0 <= 0``): ``(0, cos θ_l/π)``. Both 0 where ``l`` is below the surface."""
+    cl = nx * lx + ny * ly + nz * lz
+    if not (cl > 0.0):
+        return 0.0, 0.0
+    if not (f0 > 0.0):
+        return 0.0, cl / math.pi
+    spec = specular_one(nx, ny, nz, lx, ly, lz, vx, vy, vz, f0, alpha) * cl
+    return spec, (1.0 - fresnel_one(cl, f0)) * cl / math.pi
+
+
+@numba.njit(cache=True, nogil=True)
+def specular_lobe_probability(cos_v, f0, base_reflectance):
+    """Probability of sampling the specular lobe rather than the base at a vertex seen from a
+    direction at cosine ``cos_v``: the two lobes' estimated albedos, F(cos θ_v) for the specular
+    layer (its albedo for F0 = 1 is below 1 by masking only) against ρ̄·(1 − F0)·20/21 for the
+    base (exact under this layering, :data:`BASE_ALBEDO_PER_TRANSMITTANCE`), ``base_reflectance``
+    ρ̄ the base's luminous reflectance. 0 without a layer (``f0 <= 0``) or when neither lobe
+    reflects."""
+    if not (f0 > 0.0):
+        return 0.0
+    fs = fresnel_one(cos_v, f0)
+    fb = max(base_reflectance, 0.0) * (1.0 - f0) * BASE_ALBEDO_PER_TRANSMITTANCE
+    total = fs + fb
+    return fs / total if total > 0.0 else 0.0
+
+
+@numba.njit(cache=True, nogil=True)
+def layered_pdf_one(nx, ny, nz, lx, ly, lz, vx, vy, vz, alpha, p_spec):
+    """Solid-angle pdf (1/sr) of ``l`` when a vertex samples the specular lobe
+    (:func:`vndf_sample_one`) with probability ``p_spec`` and the base's cosine distribution
+    (cos θ/π) otherwise: p·pdf_s + (1 − p)·max(0, cos θ_l)/π."""
+    cl = max(0.0, nx * lx + ny * ly + nz * lz)
+    p_s = vndf_pdf_one(nx, ny, nz, lx, ly, lz, vx, vy, vz, alpha) if p_spec > 0.0 else 0.0
+    return p_spec * p_s + (1.0 - p_spec) * cl / math.pi
+
+
+@numba.njit(cache=True, nogil=True)
+def balance_heuristic(n_a, pdf_a, n_b, pdf_b):
+    """Weight of a sample of strategy a (``n_a`` samples, pdf ``pdf_a``) combined with strategy
+    b: n_a·p_a / (n_a·p_a + n_b·p_b) (Veach 1997); 0 where neither could have drawn it."""
+    a = n_a * pdf_a
+    t = a + n_b * pdf_b
+    return a / t if t > 0.0 else 0.0
+
+
+@numba.njit(cache=True, nogil=True)
+def power_heuristic(n_a, pdf_a, n_b, pdf_b):
+    """As :func:`balance_heuristic` with the power heuristic, exponent 2 (Veach 1997):
+    (n_a·p_a)² / ((n_a·p_a)² + (n_b·p_b)²)."""
+    a = n_a * pdf_a
+    b = n_b * pdf_b
+    a *= a
+    t = a + b * b
+    return a / t if t > 0.0 else 0.0
+
+
 @numba.njit(cache=True, nogil=True)
 def _pairs(kind, a, b, out):
     for i in range(out.shape[0]):
@@ -118,6 +282,33 @@ def _brdf_many(n, l, v, f0, alpha, out):
         out[i] = specular_one(
             n[i, 0], n[i, 1], n[i, 2], l[i, 0], l[i, 1], l[i, 2], v[i, 0], v[i, 1], v[i, 2], f0[i], alpha[i]
         )
+
+
+@numba.njit(cache=True, nogil=True)
+def _vndf_many(v, alpha, u, out_l, out_pdf):
+    for i in range(out_pdf.shape[0]):
+        lx, ly, lz, p = vndf_sample_one(v[i, 0], v[i, 1], v[i, 2], alpha[i], u[i, 0], u[i, 1])
+        out_l[i, 0] = lx
+        out_l[i, 1] = ly
+        out_l[i, 2] = lz
+        out_pdf[i] = p
+
+
+@numba.njit(cache=True, nogil=True)
+def _directional_many(kind, n, l, v, f0, alpha, out_a, out_b):
+    for i in range(out_a.shape[0]):
+        nx, ny, nz = n[i, 0], n[i, 1], n[i, 2]
+        lx, ly, lz = l[i, 0], l[i, 1], l[i, 2]
+        vx, vy, vz = v[i, 0], v[i, 1], v[i, 2]
+        if kind == 0:
+            out_a[i] = vndf_pdf_one(nx, ny, nz, lx, ly, lz, vx, vy, vz, alpha[i])
+        elif kind == 1:
+            a, b = layered_one(nx, ny, nz, lx, ly, lz, vx, vy, vz, f0[i], alpha[i])
+            out_a[i] = a
+            out_b[i] = b
+        else:
+            # f0 carries the probability of the specular lobe here.
+            out_a[i] = layered_pdf_one(nx, ny, nz, lx, ly, lz, vx, vy, vz, alpha[i], f0[i])
 
 
 def _elementwise(kind: int, a: npt.ArrayLike, b: npt.ArrayLike) -> np.ndarray:
@@ -154,4 +345,63 @@ def specular_brdf(
     a = np.ascontiguousarray(np.broadcast_to(np.asarray(alpha, np.float64), (m,)))
     out = np.empty(m)
     _brdf_many(n, l, v, f, a, out)
+    return out
+
+
+def _rows(
+    vectors: tuple[npt.ArrayLike, ...], scalars: tuple[npt.ArrayLike, ...]
+) -> tuple[list[np.ndarray], list[np.ndarray]]:
+    """Unit vectors as contiguous (m, 3) rows and scalars as (m,), broadcast to one length m."""
+    vs = [np.ascontiguousarray(x, np.float64).reshape(-1, 3) for x in vectors]
+    ss = [np.asarray(x, np.float64).reshape(-1) for x in scalars]
+    m = max(x.shape[0] for x in vs + ss)
+    vs = [np.ascontiguousarray(np.broadcast_to(x, (m, 3))) for x in vs]
+    ss = [np.ascontiguousarray(np.broadcast_to(x, (m,))) for x in ss]
+    return vs, ss
+
+
+def vndf_sample(to_eye: npt.ArrayLike, alpha: npt.ArrayLike, u: npt.ArrayLike) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`vndf_sample_one` for rows: unit directions toward the eye (N, 3) in the local frame
+    (z the normal), α, uniform numbers (N, 2). Returns the reflected directions (N, 3) and their
+    solid-angle pdfs (N,), 1/sr."""
+    uv = np.asarray(u, np.float64).reshape(-1, 2)
+    (v,), (a, u1, u2) = _rows((to_eye,), (alpha, uv[:, 0], uv[:, 1]))
+    uu = np.stack([u1, u2], axis=1)
+    out_l = np.empty((v.shape[0], 3))
+    out_pdf = np.empty(v.shape[0])
+    _vndf_many(v, a, uu, out_l, out_pdf)
+    return out_l, out_pdf
+
+
+def vndf_pdf(normal: npt.ArrayLike, to_light: npt.ArrayLike, to_eye: npt.ArrayLike, alpha: npt.ArrayLike) -> np.ndarray:
+    """:func:`vndf_pdf_one` for rows of unit vectors (N, 3): 1/sr."""
+    (n, l, v), (a,) = _rows((normal, to_light, to_eye), (alpha,))
+    out = np.empty(n.shape[0])
+    _directional_many(0, n, l, v, a, a, out, out)
+    return out
+
+
+def layered_eval(
+    normal: npt.ArrayLike, to_light: npt.ArrayLike, to_eye: npt.ArrayLike, f0: npt.ArrayLike, alpha: npt.ArrayLike
+) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`layered_one` for rows of unit vectors (N, 3): (specular f_s·cos θ_l, the base's
+    (1 − F(n·l))·cos θ_l/π), both 1/sr."""
+    (n, l, v), (f, a) = _rows((normal, to_light, to_eye), (f0, alpha))
+    spec = np.empty(n.shape[0])
+    base = np.empty(n.shape[0])
+    _directional_many(1, n, l, v, f, a, spec, base)
+    return spec, base
+
+
+def layered_pdf(
+    normal: npt.ArrayLike,
+    to_light: npt.ArrayLike,
+    to_eye: npt.ArrayLike,
+    alpha: npt.ArrayLike,
+    p_spec: npt.ArrayLike,
+) -> np.ndarray:
+    """:func:`layered_pdf_one` for rows of unit vectors (N, 3): 1/sr."""
+    (n, l, v), (a, p) = _rows((normal, to_light, to_eye), (alpha, p_spec))
+    out = np.empty(n.shape[0])
+    _directional_many(2, n, l, v, p, a, out, out)
     return out
