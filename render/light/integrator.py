@@ -162,15 +162,23 @@ def _cell(grid, t, n, inv_step, x):
 
 @numba.njit(cache=True, nogil=True, inline="always")
 def _intensity_fast(rot, c_grid, g_grid, n_c, n_g, inv_c, inv_g, cd, k, t, dx, dy, dz):
-    """:func:`_intensity`, with the table cells found by :func:`_cell`: the same value to the bit."""
-    c, g = direction_to_c_gamma(rot[k], dx, dy, dz)
+    """:func:`_intensity`, with the table cells found by :func:`_cell`: the same value to the bit.
+    (C, γ) as :func:`render.light.photometry.direction_to_c_gamma` computes them, from the
+    rotation's elements directly (no 3 × 3 view per call); C is already in [0, 360), so the
+    lookup's ``C % 360`` is left out."""
+    lx = rot[k, 0, 0] * dx + rot[k, 1, 0] * dy + rot[k, 2, 0] * dz
+    ly = rot[k, 0, 1] * dx + rot[k, 1, 1] * dy + rot[k, 2, 1] * dz
+    lz = rot[k, 0, 2] * dx + rot[k, 1, 2] * dy + rot[k, 2, 2] * dz
+    g = math.degrees(math.atan2(math.sqrt(lx * lx + ly * ly), -lz))
     ng = n_g[t]
     if not (g >= g_grid[t, 0] - 1e-9 and g <= g_grid[t, ng - 1] + 1e-9):
         return 0.0
-    nc = n_c[t]
-    cc = c % 360.0
+    cc = math.degrees(math.atan2(ly, lx))
     if cc < 0.0:
         cc += 360.0
+    if cc >= 360.0:
+        cc -= 360.0
+    nc = n_c[t]
     if cc <= c_grid[t, 0]:
         i, u = 0, 0.0
     elif cc >= c_grid[t, nc - 1]:
