@@ -200,13 +200,25 @@ class Study:
 
     def indirect_settings(self, bounces: int | None = None) -> IndirectSettings | None:
         """How the scene's renders trace interreflected light (``[render] bounces`` and
-        ``indirect_samples_per_pixel``; ``bounces`` overrides), or None for direct light only."""
+        ``indirect_samples_per_pixel``; ``bounces`` overrides) and the night's sky glow and
+        moonlight (``[night]``, traced even without bounces), or None for direct light only."""
         from render.light.indirect import IndirectSettings
 
         n = self.scene.render.bounces if bounces is None else int(bounces)
-        if n <= 0:
+        night = self.scene.night if self.scene.night.on else None
+        if n <= 0 and night is None:
             return None
-        return IndirectSettings(bounces=n, samples_per_pixel=self.scene.render.indirect_samples_per_pixel)
+        return IndirectSettings(
+            bounces=max(n, 0), samples_per_pixel=self.scene.render.indirect_samples_per_pixel, night=night
+        )
+
+    def night_spectra(self) -> np.ndarray:
+        """(2, N_BINS) the sky glow's spectrum (``[night] sky_spectrum``) and the moon's
+        (Planckian at ``moon_cct_k``), any scale."""
+        from render.light.indirect.night import planckian_spectrum
+
+        night = self.scene.night
+        return np.stack([self.lamp_spds([night.sky_spectrum])[0], planckian_spectrum(night.moon_cct_k)])
 
     def _trace_indirect(
         self, buffers: LightBuffers, lights: LuminaireSet, settings: IndirectSettings, seed: int, progress: bool
@@ -222,6 +234,7 @@ class Study:
             seed,
             negligible_lx=self.negligible_lx,
             progress=progress,
+            ambient_spds=self.night_spectra() if settings.ambient else None,
         )
 
     def render_view(

@@ -47,6 +47,7 @@ from render.scene.model import (
     GroupSetting,
     Luminaire,
     Marking,
+    NightLight,
     RenderSettings,
     Road,
     Scene,
@@ -102,6 +103,7 @@ TOP_LEVEL = {
     "compare": Field("table", default={}),
     "calc": Field("table", default={}),
     "energy": Field("table", default={}),
+    "night": Field("table", default={}),
 }
 
 #: ``[calc]``: what ``lampcast calc`` checks when the command line does not say.
@@ -349,6 +351,19 @@ RENDER_SPEC = {
     "indirect_samples_per_pixel": Field(
         "int", default=8, min=1, max=MAX_SAMPLES_PER_PIXEL, help="interreflection paths per pixel"
     ),
+}
+
+#: ``[night]``: sky glow and moonlight (render.light.indirect.night); off unless a level is given.
+#: Bounds are physical plausibility, not resources: the brightest urban night skies are of the
+#: order of 0.01 cd/m² and a full moon high in the sky gives about 0.3 lx (both from memory);
+#: the upper bounds leave room for twilight.
+NIGHT_SPEC = {
+    "sky_luminance_cd_m2": Field("float", default=0.0, unit="cd/m²", min=0.0, max=100.0, help="uniform sky dome"),
+    "sky_spectrum": Field("str", default=NightLight.sky_spectrum, help="lamp id or lamp file of the sky glow"),
+    "moon_illuminance_lx": Field("float", default=0.0, unit="lx", min=0.0, max=10.0, help="normal illuminance"),
+    "moon_elevation_deg": Field("float", default=NightLight.moon_elevation_deg, unit=DEG, above=0.0, max=90.0),
+    "moon_azimuth_deg": Field("float", default=NightLight.moon_azimuth_deg, unit=DEG, min=0.0, below=360.0),
+    "moon_cct_k": Field("float", default=NightLight.moon_cct_k, unit="K", min=1000.0, max=25000.0),
 }
 
 
@@ -1595,6 +1610,8 @@ def load_scene_document(doc: dict, path: str | os.PathLike, *, strict_paths: boo
     compare = check_table(top["compare"] or {}, COMPARE_SPEC, "compare", problems)
     calc = _calc(top["calc"] or {}, ctx, objects)
     energy = _energy(top["energy"] or {}, ctx, setups)
+    night = _defaults_after_problems(check_table(top["night"] or {}, NIGHT_SPEC, "night", problems), NIGHT_SPEC)
+    ctx.lamp(night["sky_spectrum"], "night.sky_spectrum")
     for key, names in (
         ("before", [compare["before"]] if compare["before"] is not None else []),
         ("options", compare["options"] or []),
@@ -1640,6 +1657,7 @@ def load_scene_document(doc: dict, path: str | os.PathLike, *, strict_paths: boo
         calc=calc,
         energy=energy,
         roads=roads,
+        night=NightLight(**night),
     )
 
 

@@ -22,6 +22,7 @@ __all__ = [
     "GroupSetting",
     "Luminaire",
     "Marking",
+    "NightLight",
     "RenderSettings",
     "Road",
     "Scene",
@@ -254,6 +255,38 @@ class Setup:
 
 
 @dataclass(frozen=True)
+class NightLight:
+    """``[night]``: the night's light besides the luminaires (off by default).
+
+    Urban sky glow as a uniform sky dome over the upper hemisphere of luminance
+    ``sky_luminance_cd_m2`` with the spectrum of the lamp reference ``sky_spectrum``; moonlight
+    as a parallel beam of normal illuminance ``moon_illuminance_lx`` from ``moon_elevation_deg``
+    above the horizon and ``moon_azimuth_deg`` (from +y toward +x: clockwise from north where
+    +y is north), with a Planckian spectrum at ``moon_cct_k``
+    (:mod:`render.light.indirect.night`)."""
+
+    sky_luminance_cd_m2: float = 0.0
+    sky_spectrum: str = "sodium-high-pressure-cie-hp1"
+    moon_illuminance_lx: float = 0.0
+    moon_elevation_deg: float = 30.0
+    moon_azimuth_deg: float = 180.0
+    moon_cct_k: float = 4100.0
+
+    @property
+    def sky_on(self) -> bool:
+        return self.sky_luminance_cd_m2 > 0.0
+
+    @property
+    def moon_on(self) -> bool:
+        return self.moon_illuminance_lx > 0.0
+
+    @property
+    def on(self) -> bool:
+        """Whether the scene has any night light besides the luminaires."""
+        return self.sky_on or self.moon_on
+
+
+@dataclass(frozen=True)
 class CalcSettings:
     """``[calc]``: what ``lampcast calc`` checks by default (the command line may override)."""
 
@@ -327,6 +360,8 @@ class Scene:
     attribution: str = ""
     #: ``[[roads]]``: roads along polylines (render.geometry.roads).
     roads: list[Road] = field(default_factory=list)
+    #: ``[night]``: sky glow and moonlight (off unless given).
+    night: NightLight = field(default_factory=NightLight)
 
     @property
     def base_dir(self) -> Path:

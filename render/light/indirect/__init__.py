@@ -5,6 +5,9 @@
   roulette, counter-based random numbers; throughput at 1 nm.
 * :mod:`render.light.indirect.transport` -- the stored transport: node values every 5 nm
   (L2 projection onto hat functions), float16 per pixel, and the response tables at the nodes.
+* :mod:`render.light.indirect.night` -- the night's other light: sky glow (a uniform sky dome)
+  and moonlight (a parallel beam), as lamp-independent ambient channels beside the
+  luminaires' (:func:`ambient_responses` at any level).
 * :mod:`render.light.indirect.view` -- a view's or a set of points' interreflected transport
   (:func:`trace_view`, :func:`transport_at_points`) and its absolute colorimetry for any lamps
   (:func:`indirect_xyz`).
@@ -17,6 +20,7 @@ from render.light.indirect.view import (
     IndirectBuffers,
     IndirectSettings,
     PathTracer,
+    ambient_responses,
     illuminance_from_transport,
     indirect_responses,
     indirect_xyz,
@@ -32,6 +36,7 @@ __all__ = [
     "IndirectSettings",
     "PathTracer",
     "TransportBasis",
+    "ambient_responses",
     "illuminance_from_transport",
     "indirect_responses",
     "indirect_xyz",

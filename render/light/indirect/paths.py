@@ -34,6 +34,13 @@ for the light arriving at the camera vertex and at each next-event connection, a
 light. The road's r-table applies to direct light only: interreflected light reaches the
 carriageway from every direction and is reflected by its Lambertian base.
 
+**Night light.** With sky glow and moonlight on (:mod:`render.light.indirect.night`) the same
+paths also carry two lamp-independent ambient channels: a direction that leaves the scene
+upward adds β times the sky's unit luminance (from the camera's surface too, the sky's direct
+light, and once more after the last bounce vertex), and every vertex, the camera's surface
+included, casts one shadow ray toward the moon and adds β·cos θ/π. They use no random number
+of their own, so with them off the paths are those without them, bit for bit.
+
 **Seeding.** Every random number is a SplitMix64 hash of (seed key, pixel or point, path,
 bounce, dimension): a path depends on nothing else, so tiles, threads and reruns give the same
 bits.
@@ -132,6 +139,10 @@ def trace_paths(
     lum,
     grid,
     offset,
+    n_amb,
+    sky_on,
+    moon_on,
+    moon,
     out,
     out_paths,
 ):
@@ -152,6 +163,14 @@ def trace_paths(
     triangle index); ``lum`` as :func:`render.light.integrator._luminaire_args`; ``grid`` a
     culling grid's kernel arguments; ``offset`` the ray-origin offset along the normal, m.
 
+    ``n_amb`` ambient channels (0, or 2: sky glow and moonlight,
+    :mod:`render.light.indirect.night`) follow the luminaires' channels in ``out``, for unit
+    level: with ``sky_on`` a direction that leaves the scene upward adds the sky's unit
+    luminance (from the start sample too, and one more direction after the last bounce
+    vertex), with ``moon_on`` every vertex, the start sample included, casts a shadow ray
+    along ``moon`` (unit vector toward the moon) and adds cos θ/π. Off (``n_amb`` 0), the
+    paths and their random numbers are those without these terms.
+
     Writes ``out`` (rows, C, n_nodes): the mean over a row's paths of the node values of
     E_ind/π·T per channel (rows are items, or samples with ``per_sample``), and ``out_paths``
     (rows,) the number of paths averaged. An item's row weighs each start sample alike (as the
@@ -165,6 +184,16 @@ def trace_paths(
     K = rho.shape[0]
     N = rho.shape[1]
     C = out.shape[1]
+    c_sky = C - n_amb
+    c_moon = c_sky + 1
+    do_sky = n_amb > 0 and sky_on
+    do_moon = n_amb > 0 and moon_on
+    mx = moon[0]
+    my = moon[1]
+    mz = moon[2]
+    # The sky needs one more direction after the last bounce vertex (its light reflected
+    # max_bounces times); luminaires and the moon are connected at vertices 1 … max_bounces.
+    last = max_bounces + 1 if do_sky else max_bounces
     n_nodes = out.shape[2]
     width = band_weight.shape[1]
     n_lum = pos.shape[0]
@@ -255,7 +284,28 @@ def trace_paths(
                 for n in range(N):
                     beta[n] = 1.0
                 weight = 1.0
-                for b in range(1, max_bounces + 1):
+                if do_moon:
+                    # The moon's direct light at the start sample (its shading normal, above
+                    # its geometric surface): one shadow ray.
+                    cm = mx * sx + my * sy + mz * sz
+                    if cm > 0.0 and mx * gx + my * gy + mz * gz > 0.0:
+                        o[0] = px + offset * gx
+                        o[1] = py + offset * gy
+                        o[2] = pz + offset * gz
+                        d[0] = mx
+                        d[1] = my
+                        d[2] = mz
+                        if not any_one(wb, wi, tv, o, d, 0.0, np.inf, st_node, work, WIDE):
+                            v = f * cm / math.pi
+                            if f0[k_prev] > 0.0 and start_gloss:
+                                v *= 1.0 - fresnel_one(cm, f0[k_prev])
+                            if mixed:
+                                for n in range(N):
+                                    acc[a, c_moon, n] += ratio[q_first, n] * v
+                            else:
+                                for n in range(N):
+                                    acc[a, c_moon, n] += v
+                for b in range(1, last + 1):
                     wx, wy, wz = _cosine_direction(sx, sy, sz, _rand(key, gid, i, b, 0), _rand(key, gid, i, b, 1))
                     if wx * gx + wy * gy + wz * gz <= 0.0:
                         break
@@ -270,6 +320,17 @@ def trace_paths(
                     d[2] = wz
                     t, j, _, _ = closest_one(wb, wi, tv, ti, o, d, 0.0, np.inf, st_node, st_t, work, WIDE)
                     if j < 0:
+                        if do_sky and wz > 0.0:
+                            # Left the scene toward the sky dome: its unit luminance.
+                            v = weight * f
+                            if mixed:
+                                for n in range(N):
+                                    acc[a, c_sky, n] += beta[n] * ratio[q_first, n] * v
+                            else:
+                                for n in range(N):
+                                    acc[a, c_sky, n] += beta[n] * v
+                        break
+                    if b > max_bounces:
                         break
                     px = o[0] + t * wx
                     py = o[1] + t * wy
@@ -329,7 +390,26 @@ def trace_paths(
                             else:
                                 for n in range(N):
                                     acc[a, ch, n] += beta[n] * v
-                    if b >= max_bounces:
+                    if do_moon:
+                        cm = mx * gx + my * gy + mz * gz
+                        if cm > 0.0:
+                            o[0] = px + offset * gx
+                            o[1] = py + offset * gy
+                            o[2] = pz + offset * gz
+                            d[0] = mx
+                            d[1] = my
+                            d[2] = mz
+                            if not any_one(wb, wi, tv, o, d, 0.0, np.inf, st_node, work, WIDE):
+                                v = weight * f * cm / math.pi
+                                if f0[k] > 0.0:
+                                    v *= 1.0 - fresnel_one(cm, f0[k])
+                                if mixed:
+                                    for n in range(N):
+                                        acc[a, c_moon, n] += beta[n] * ratio[q_first, n] * v
+                                else:
+                                    for n in range(N):
+                                        acc[a, c_moon, n] += beta[n] * v
+                    if b >= last:
                         break
                     if b >= rr_first:
                         top = 0.0

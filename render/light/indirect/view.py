@@ -36,9 +36,10 @@ import numba
 import numpy as np
 from numpy.typing import ArrayLike
 
-from render.colour.colorimetry import colorimetric_weights, lamps_of_channels
+from render.colour.colorimetry import colorimetric_weights, lamps_of_channels, response_table
 from render.colour.spectra import N_BINS
 from render.geometry.mesh import TriangleMesh, face_normals
+from render.light.indirect.night import AMBIENT_CHANNELS, NightLight, describe_night, moon_direction
 from render.light.indirect.paths import RR_FIRST_BOUNCE, trace_paths
 from render.light.indirect.transport import (
     NODE_STEP_NM,
@@ -66,6 +67,7 @@ __all__ = [
     "IndirectBuffers",
     "IndirectSettings",
     "PathTracer",
+    "ambient_responses",
     "illuminance_from_transport",
     "indirect_responses",
     "indirect_xyz",
@@ -88,14 +90,22 @@ _CHUNK_PIXELS = 16
 
 @dataclass(frozen=True)
 class IndirectSettings:
-    """How interreflected light is traced: ``bounces`` (at most, ≥ 1), ``samples_per_pixel``
-    paths per pixel (or per point), the transport's node step (nm) and where Russian roulette
-    starts (see :data:`render.light.indirect.paths.RR_FIRST_BOUNCE`)."""
+    """How interreflected light is traced: ``bounces`` (at most; ≥ 1, or 0 with night light:
+    its direct part only), ``samples_per_pixel`` paths per pixel (or per point), the
+    transport's node step (nm), where Russian roulette starts (see
+    :data:`render.light.indirect.paths.RR_FIRST_BOUNCE`) and the night's sky glow and
+    moonlight (:mod:`render.light.indirect.night`; None or off: none)."""
 
     bounces: int = DEFAULT_BOUNCES
     samples_per_pixel: int = DEFAULT_PATHS_PER_PIXEL
     node_step_nm: int = NODE_STEP_NM
     rr_first_bounce: int = RR_FIRST_BOUNCE
+    night: NightLight | None = None
+
+    @property
+    def ambient(self) -> bool:
+        """Whether the paths carry the night's ambient channels."""
+        return self.night is not None and self.night.on
 
     @property
     def basis(self) -> TransportBasis:
@@ -103,12 +113,19 @@ class IndirectSettings:
 
     def describe(self) -> str:
         """One line for an output's provenance or caption, e.g. "interreflected light: up to
-        3 bounces, 8 paths per pixel (Monte Carlo), transport every 5 nm"."""
-        return (
-            f"interreflected light: up to {self.bounces} bounce{'s' if self.bounces != 1 else ''}, "
-            f"{self.samples_per_pixel} path{'s' if self.samples_per_pixel != 1 else ''} per pixel (Monte Carlo), "
-            f"transport every {self.node_step_nm} nm"
-        )
+        3 bounces, 8 paths per pixel (Monte Carlo), transport every 5 nm" (and the night light
+        when on, :func:`render.light.indirect.night.describe_night`)."""
+        paths = f"{self.samples_per_pixel} path{'s' if self.samples_per_pixel != 1 else ''} per pixel (Monte Carlo)"
+        if self.bounces > 0:
+            text = (
+                f"interreflected light: up to {self.bounces} bounce{'s' if self.bounces != 1 else ''}, "
+                f"{paths}, transport every {self.node_step_nm} nm"
+            )
+        else:
+            text = f"no interreflected light; night light direct only, {paths}"
+        if self.ambient:
+            text += f"; {describe_night(self.night)}"
+        return text
 
 
 @dataclass
@@ -118,7 +135,12 @@ class IndirectBuffers:
     ``values`` (n_pix, C, n_nodes) float16 node values of E_ind/π·T (cd/m² per unit
     transport) relative to ``scale`` (n_pix,) float32 (a pixel's largest value); ``paths``
     (n_pix,) the paths averaged in each pixel; ``spp`` the view's camera samples per pixel;
-    ``settings`` and ``seed`` how the paths were traced."""
+    ``settings`` and ``seed`` how the paths were traced. With night light
+    (``settings.ambient``): ``ambient_values`` (n_pix, 2, n_nodes) float16 the sky glow's and
+    moonlight's transport per unit level (1 cd/m² of sky, 1 lx normal illuminance of moon),
+    the camera surface's direct light included, relative to ``ambient_scale`` (n_pix,)
+    float32; ``sky_seen`` (n_pix,) float32 the share of a pixel's camera samples that see the
+    sky; ``ambient_spds`` (2, N_BINS) the sky's and the moon's spectra."""
 
     width_px: int
     height_px: int
@@ -129,11 +151,16 @@ class IndirectBuffers:
     scale: np.ndarray
     paths: np.ndarray
     channels: list = field(default_factory=list)
+    ambient_values: np.ndarray | None = None
+    ambient_scale: np.ndarray | None = None
+    sky_seen: np.ndarray | None = None
+    ambient_spds: np.ndarray | None = None
 
     @property
     def nbytes(self) -> int:
         """Bytes held by the stored transport."""
-        return int(self.values.nbytes + self.scale.nbytes + self.paths.nbytes)
+        extra = sum(a.nbytes for a in (self.ambient_values, self.ambient_scale, self.sky_seen) if a is not None)
+        return int(self.values.nbytes + self.scale.nbytes + self.paths.nbytes + extra)
 
 
 class PathTracer:
@@ -151,10 +178,16 @@ class PathTracer:
         negligible_lx: float = NEGLIGIBLE_LX,
         offset_m: float = SURFACE_OFFSET_M,
     ) -> None:
-        if settings.bounces < 1:
+        if settings.bounces < 1 and not settings.ambient:
             raise ValueError("interreflection needs at least one bounce")
         self.settings = settings
-        self.n_channels = lights.n_channels
+        #: The luminaires' channels traced (none without bounces), then the ambient ones.
+        self.n_channels = lights.n_channels if settings.bounces > 0 else 0
+        self.n_ambient = AMBIENT_CHANNELS if settings.ambient else 0
+        night = settings.night if settings.ambient else None
+        self.sky_on = bool(night is not None and night.sky_on)
+        self.moon_on = bool(night is not None and night.moon_on)
+        self.moon = moon_direction(night) if night is not None else np.zeros(3)
         basis = settings.basis
         self.basis = basis
         self.rho = np.ascontiguousarray(reflectances, np.float64)
@@ -168,6 +201,9 @@ class PathTracer:
         self.lum = _luminaire_args(lights)
         grid = scene_cull_grid(lights, bvh, negligible_lx) if bvh.n_triangles else None
         self.grid = grid.kernel_args() if grid is not None else None
+        if self.grid is None and self.n_ambient and bvh.n_triangles:
+            # No luminaires: a grid whose box holds no point, so every vertex sees no candidate.
+            self.grid = (np.array([0.0, 0.0, 1.0, 0.0]), 1.0, 1, 1, np.zeros(2, np.int64), np.zeros(0, np.int64))
         self.offset_m = float(offset_m)
 
     def trace(
@@ -183,15 +219,16 @@ class PathTracer:
         per_sample: bool = False,
         start_gloss: bool = True,
     ) -> tuple[np.ndarray, np.ndarray]:
-        """Mean node values (rows, C, n_nodes) float64 and paths (rows,) of items of ``spp``
-        consecutive start samples (rows: items, or samples with ``per_sample``);
-        ``start_gloss``: the start surfaces' specular layer takes its share of the light
-        (False: the light arriving, as at calculation points)."""
+        """Mean node values (rows, C + A, n_nodes) float64 and paths (rows,) of items of ``spp``
+        consecutive start samples (rows: items, or samples with ``per_sample``): the
+        luminaires' C channels (none without bounces), then the A ambient ones (sky glow,
+        moonlight) with night light; ``start_gloss``: the start surfaces' specular layer takes
+        its share of the light (False: the light arriving, as at calculation points)."""
         n_items = int(item_id.shape[0])
         rows = n_items * spp if per_sample else n_items
-        out = np.zeros((rows, self.n_channels, self.basis.n_nodes))
+        out = np.zeros((rows, self.n_channels + self.n_ambient, self.basis.n_nodes))
         paths = np.zeros(rows, np.int64)
-        if self.grid is None or n_items == 0 or self.n_channels == 0:
+        if self.grid is None or n_items == 0 or out.shape[1] == 0:
             return out, paths
         key = seed_key(seed) ^ _KEY_SALT
         with numba.parallel_chunksize(_CHUNK_PIXELS):
@@ -219,6 +256,10 @@ class PathTracer:
                 self.lum,
                 self.grid,
                 self.offset_m,
+                self.n_ambient,
+                self.sky_on,
+                self.moon_on,
+                self.moon,
                 out,
                 paths,
             )
@@ -240,6 +281,11 @@ def view_transport_tiles(
 ) -> Iterator[tuple[np.ndarray, np.ndarray, np.ndarray]]:
     """Per tile of the view's camera samples (cast again): the tile's sample indices, and the
     mean node values and path counts per pixel (or per sample with ``per_sample``)."""
+    for tile, moments, paths in _transport_tiles(buffers, tracer, seed, per_sample, progress):
+        yield tile.index, moments, paths
+
+
+def _transport_tiles(buffers: LightBuffers, tracer: PathTracer, seed: int, per_sample: bool, progress: bool):
     if buffers.rays is None:
         raise ValueError("these light buffers do not keep how to cast their camera samples")
     spp = buffers.spp
@@ -250,7 +296,7 @@ def view_transport_tiles(
         moments, paths = tracer.trace(
             tile.point, tile.normal, tile.geo, material, pixel, spp, seed, per_sample=per_sample
         )
-        yield tile.index, moments, paths
+        yield tile, moments, paths
 
 
 def trace_view(
@@ -263,24 +309,40 @@ def trace_view(
     *,
     negligible_lx: float = NEGLIGIBLE_LX,
     progress: bool = False,
+    ambient_spds: ArrayLike | None = None,
 ) -> IndirectBuffers:
     """The view's interreflected transport per pixel (see the module text); ``buffers`` from
     :func:`render.light.integrator.render_buffers` or :func:`~render.light.integrator.cast_view`
-    with the same ``lights``."""
+    with the same ``lights``. With night light (``settings.ambient``) also its ambient
+    transport and the share of each pixel's samples that see the sky, and ``ambient_spds``
+    (2, N_BINS) the sky's and the moon's spectra (needed then)."""
     mesh = buffers.rays.mesh if buffers.rays is not None else None
     if mesh is None:
         raise ValueError("these light buffers do not keep how to cast their camera samples")
     W, H, spp = buffers.width_px, buffers.height_px, buffers.spp
     tracer = PathTracer(mesh, bvh, lights, reflectances, settings, negligible_lx=negligible_lx)
-    C, n = lights.n_channels, tracer.basis.n_nodes
+    C, A, n = tracer.n_channels, tracer.n_ambient, tracer.basis.n_nodes
+    if A and ambient_spds is None:
+        raise ValueError("night light needs the sky's and the moon's spectra")
     values = np.zeros((W * H, C, n), np.float16)
     scale = np.zeros(W * H, np.float32)
     paths = np.zeros(W * H, np.int32)
-    for index, moments, count in view_transport_tiles(buffers, tracer, seed, progress=progress):
-        pixel = index[::spp] // spp
-        values[pixel], scale[pixel] = pack_rows(moments)
+    amb = np.zeros((W * H, A, n), np.float16) if A else None
+    amb_scale = np.zeros(W * H, np.float32) if A else None
+    sky_seen = np.zeros(W * H, np.float32) if A else None
+    for tile, moments, count in _transport_tiles(buffers, tracer, seed, False, progress):
+        pixel = tile.index[::spp] // spp
+        values[pixel], scale[pixel] = pack_rows(moments[:, :C])
         paths[pixel] = count
-    return IndirectBuffers(W, H, spp, settings, int(seed), values, scale, paths, list(lights.channels))
+        if A:
+            amb[pixel], amb_scale[pixel] = pack_rows(moments[:, C:])
+            # Samples that leave the scene upward see the sky dome (below the horizon: nothing).
+            up = (tile.response < 0) & (tile.direction[:, 2] > 0.0)
+            sky_seen[pixel] = up.reshape(-1, spp).mean(axis=1)
+    spds = np.ascontiguousarray(ambient_spds, np.float64).reshape(A, N_BINS) if A else None
+    return IndirectBuffers(
+        W, H, spp, settings, int(seed), values, scale, paths, list(lights.channels), amb, amb_scale, sky_seen, spds
+    )
 
 
 def indirect_xyz(
@@ -311,10 +373,47 @@ def indirect_responses(
     n_pix = indirect.width_px * indirect.height_px
     w = colorimetric_weights() if weights is None else np.asarray(weights, np.float64).reshape(N_BINS, -1)
     out = np.zeros((n_pix, w.shape[1]))
-    if distinct:
+    if distinct and indirect.values.shape[1]:
         table = transport_table(reflectances, np.array(distinct), indirect.settings.basis, w)
         resolve_transport(response, indirect.spp, indirect.values, indirect.scale, factors, table, lamp_of_channel, out)
+    if indirect.ambient_values is not None:
+        _add_ambient(indirect, response, reflectances, w, indirect.settings.night, out)
     return out.reshape(indirect.height_px, indirect.width_px, w.shape[1])
+
+
+def ambient_responses(
+    indirect: IndirectBuffers,
+    response: np.ndarray,
+    reflectances: ArrayLike,
+    night: NightLight | None = None,
+    weights: ArrayLike | None = None,
+) -> np.ndarray:
+    """The night light's part alone (H, W, J) of the view (sky glow and moonlight on the
+    surfaces seen, and the sky seen), at the levels of ``night`` (default: those traced; a new
+    sky luminance or moon illuminance is a multiply; its moon direction and which terms are on
+    are those traced). Zero without night light."""
+    w = colorimetric_weights() if weights is None else np.asarray(weights, np.float64).reshape(N_BINS, -1)
+    out = np.zeros((indirect.width_px * indirect.height_px, w.shape[1]))
+    if indirect.ambient_values is not None:
+        _add_ambient(indirect, response, reflectances, w, night or indirect.settings.night, out)
+    return out.reshape(indirect.height_px, indirect.width_px, w.shape[1])
+
+
+def _add_ambient(
+    indirect: IndirectBuffers, response: np.ndarray, reflectances: ArrayLike, w: np.ndarray, night, out: np.ndarray
+) -> None:
+    """Add the ambient channels at ``night``'s levels (the sky's luminance, the moon's normal
+    illuminance) and the sky seen (its luminance, white response) to ``out`` (n_pix, J)."""
+    levels = np.array([night.sky_luminance_cd_m2, night.moon_illuminance_lx], np.float64)
+    spds = indirect.ambient_spds
+    table = transport_table(reflectances, spds, indirect.settings.basis, w)
+    resolve_transport(
+        response, indirect.spp, indirect.ambient_values, indirect.ambient_scale, levels, table, np.arange(2), out
+    )
+    if levels[0] > 0.0:
+        # A white (ρ = 1) response of the sky's spectrum at one photopic unit: its luminance.
+        white = response_table(np.zeros((0, N_BINS)), spds[:1], weights=w)[-1, 0]
+        out += (levels[0] * indirect.sky_seen.astype(np.float64))[:, None] * white[None, :]
 
 
 def transport_at_points(
