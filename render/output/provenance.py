@@ -52,7 +52,8 @@ def image_metadata(
 ) -> dict[str, str]:
     """PNG/EXR text metadata: how an image was made (no timestamps, so reruns are identical):
     :func:`view_metadata` plus the setup and the observer, and how interreflected light was
-    traced (:meth:`render.light.indirect.IndirectSettings.describe`) when the view holds it
+    traced (:meth:`render.light.indirect.IndirectSettings.describe`) when the view holds it,
+    and the night's sky glow and moonlight (``lampcast.night_light``) when on
     (none of this when it is direct light only, so such images keep their bytes)."""
     meta = {
         **view_metadata(study, rendered.name, mode, seed, spp),
@@ -64,4 +65,8 @@ def image_metadata(
     indirect = rendered.buffers.indirect
     if indirect is not None:
         meta["lampcast.interreflection"] = indirect.settings.describe()
+        if indirect.settings.ambient:
+            from render.light.indirect.night import describe_night
+
+            meta["lampcast.night_light"] = describe_night(indirect.settings.night)
     return meta

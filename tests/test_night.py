@@ -1,0 +1,328 @@
+"""The night's other light: urban sky glow as a uniform sky dome and moonlight as a parallel beam.
+
+Sources of the expected values:
+* a uniform sky of luminance L over an unobstructed horizontal plane gives E = π·L (analytic:
+  ∫ L cos θ dω over the hemisphere), so a white (ρ = 1) Lambertian diffuser there has the
+  luminance ρE/π = L (Lambertian reflection, analytic);
+* sky view factor at the centre line of a long street canyon of width W and height H,
+  SVF = cos β with tan β = 2H/W, and at a distance d from the foot of one long wall of height
+  H, SVF = (1 + d/√(d² + H²))/2: the configuration factor of a differential strip to an
+  infinitely long surface in 2-D, F = (sin φ₂ − sin φ₁)/2 with φ measured from the normal
+  (Siegel & Howell, *Thermal Radiation Heat Transfer*, configuration factors of infinitely long
+  geometries **(from memory)**; the canyon's form cos β is the street-canyon sky view factor of
+  urban climatology, T. R. Oke **(from memory)**); derived again in the comments below;
+* a parallel beam of normal illuminance E_n from elevation h gives E_n·sin h on horizontal
+  ground (cosine law, analytic) and a wall of height H casts a shadow H/tan h long
+  (elementary geometry);
+* Monte Carlo error of independent Bernoulli samples, √(p(1 − p)/N) (binomial variance).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import replace
+from pathlib import Path
+
+import numpy as np
+import pytest
+from indirect_scenes import isotropic_source, mesh_of
+
+from render.colour.colorimetry import colorimetric_weights
+from render.colour.spectra import N_BINS
+from render.geometry import shapes
+from render.light.indirect import IndirectSettings, PathTracer, trace_view, transport_at_points
+from render.light.indirect.night import NightLight, planckian_spectrum
+from render.light.indirect.view import ambient_responses, indirect_responses
+from render.light.integrator import render_buffers
+from render.rays.bvh import build_bvh
+from render.rays.cameras import Camera
+
+SKY, MOON = 0, 1
+
+
+def _quad(a, b, c, d) -> shapes.Part:
+    tri = np.array([[a, b, c], [a, c, d]], np.float64)
+    return shapes.flat_part(tri, "body")
+
+
+def _ground(half_m: float = 2000.0) -> shapes.Part:
+    s = half_m
+    return _quad((-s, -s, 0.0), (s, -s, 0.0), (s, s, 0.0), (-s, s, 0.0))
+
+
+def _wall(y_m: float, height_m: float, half_length_m: float = 2000.0, thickness_m: float = 0.2) -> list[shapes.Part]:
+    """A thin box along x from y_m to y_m + thickness (its faces outward)."""
+    L = half_length_m
+    return shapes.box(min_m=(-L, y_m, 0.0), max_m=(L, y_m + thickness_m, height_m))
+
+
+def _tracer(parts_by_material, night: NightLight, bounces: int = 0, paths: int = 256, rho=None):
+    mesh = mesh_of(parts_by_material, [f"m{i}" for i in range(len(parts_by_material))])
+    bvh = build_bvh(mesh.triangles_m)
+    # The luminaire is far away: its own channel is not looked at here.
+    lights = isotropic_source([0.0, 0.0, 5000.0])
+    if rho is None:
+        rho = np.zeros((len(parts_by_material), N_BINS))
+    st = IndirectSettings(bounces=bounces, samples_per_pixel=paths, night=night)
+    return mesh, bvh, lights, rho, PathTracer(mesh, bvh, lights, rho, st)
+
+
+def _up_points(xy) -> tuple[np.ndarray, np.ndarray]:
+    xy = np.atleast_2d(np.asarray(xy, np.float64))
+    pts = np.column_stack([xy, np.zeros(len(xy))])
+    return pts, np.tile([0.0, 0.0, 1.0], (len(xy), 1))
+
+
+# ------------------------------------------------------------------------------------------
+# Sky glow
+# ------------------------------------------------------------------------------------------
+
+
+def test_open_plane_receives_pi_times_sky_luminance():
+    # E = π·L on an unobstructed horizontal plane: the stored value is E/π per unit sky
+    # luminance, 1 in every band (every upward direction leaves the scene: no noise at all).
+    night = NightLight(sky_luminance_cd_m2=1.0)
+    *_, tracer = _tracer([[_ground()]], night, bounces=0, paths=64)
+    pts, nrm = _up_points(np.random.default_rng(2).uniform(-20, 20, (50, 2)))
+    m, n = transport_at_points(pts, nrm, None, tracer, 1)
+    assert m.shape == (50, 2, tracer.basis.n_nodes)  # no luminaire channel without bounces
+    np.testing.assert_allclose(m[:, SKY], 1.0, rtol=1e-12)
+    np.testing.assert_array_equal(m[:, MOON], 0.0)
+
+
+def test_white_diffuser_under_the_sky_shows_the_sky_luminance():
+    # In a view: a white (ρ = 1) Lambertian plane under a uniform sky of L has luminance L
+    # (Lambertian reflection of E = π·L), and the pixels that see the sky show L; a new sky
+    # luminance scales both exactly (relighting: a multiply).
+    night = NightLight(sky_luminance_cd_m2=0.004, sky_spectrum="led-4000k-cie-b3")
+    rho = np.ones((1, N_BINS))
+    mesh, bvh, lights, rho, _ = _tracer([[_ground()]], night, rho=rho)
+    camera = Camera(position_m=(0.0, 0.0, 1.6), target_m=(30.0, 0.0, 1.0), hfov_deg=60.0, width_px=24, height_px=16)
+    buffers = render_buffers(mesh, bvh, lights, camera, 2, 0)
+    from render.colour.lamps import get_lamp
+
+    spds = np.stack([get_lamp("led-4000k-cie-b3").spd, planckian_spectrum(4100.0)])
+    st = IndirectSettings(bounces=0, samples_per_pixel=8, night=night)
+    ind = trace_view(buffers, lights, bvh, rho, st, 0, ambient_spds=spds)
+    y = ambient_responses(ind, buffers.response, rho)[..., 1]
+    ground = (buffers.response.reshape(-1, 2) == 0).all(axis=1).reshape(16, 24)
+    sky = (buffers.response.reshape(-1, 2) < 0).all(axis=1).reshape(16, 24)
+    assert ground.sum() > 50 and sky.sum() > 50
+    np.testing.assert_allclose(y[ground], 0.004, rtol=2e-3)  # float16 storage of the transport
+    np.testing.assert_allclose(y[sky], 0.004, rtol=1e-12)
+    brighter = ambient_responses(ind, buffers.response, rho, replace(night, sky_luminance_cd_m2=0.04))
+    np.testing.assert_allclose(brighter, 10.0 * ambient_responses(ind, buffers.response, rho), rtol=1e-12)
+    # The luminaires' part does not hold the night light, and it adds to it.
+    full = indirect_responses(ind, buffers.response, [1.0], [get_lamp("led-4000k-cie-b3").spd], rho)
+    np.testing.assert_array_equal(full, ambient_responses(ind, buffers.response, rho))
+
+
+def _fraction_escaping(tracer, pts, nrm, seed=3):
+    m, n = transport_at_points(pts, nrm, None, tracer, seed)
+    return m[:, SKY, 40], int(n.sum())
+
+
+def test_canyon_centre_sky_view_factor():
+    # Centre line of a canyon W wide between walls H high: the walls are seen from
+    # φ₁ = β (tan β = (W/2)/H measured from the vertical ... ) -- in the 2-D configuration factor
+    # F = (sin φ₂ − sin φ₁)/2 of a horizontal strip, each wall spans φ from atan((W/2)/H) to 90°,
+    # so F_wall = (1 − (W/2)/√((W/2)² + H²))/2 and SVF = 1 − 2·F_wall = (W/2)/√((W/2)² + H²)
+    # = cos β with tan β = 2H/W. Walls black, no bounces: the sky's direct part alone.
+    W, H = 10.0, 10.0
+    night = NightLight(sky_luminance_cd_m2=1.0)
+    *_, tracer = _tracer([[_ground()], [*_wall(W / 2, H), *_wall(-W / 2 - 0.2, H)]], night, paths=512)
+    pts, nrm = _up_points(np.column_stack([np.linspace(-30, 30, 64), np.zeros(64)]))
+    f, n = _fraction_escaping(tracer, pts, nrm)
+    svf = math.cos(math.atan(2 * H / W))  # 0.4472
+    sigma = math.sqrt(svf * (1 - svf) / n)
+    assert abs(f.mean() - svf) < 4 * sigma, (f.mean(), svf, sigma)
+
+
+@pytest.mark.parametrize("d", [0.0, 3.0])
+def test_foot_of_a_long_wall_sky_view_factor(d):
+    # A point d from the foot of one long wall of height H: the wall spans φ from
+    # atan(d/H) to 90° from the vertical, F_wall = (1 − d/√(d² + H²))/2 and
+    # SVF = (1 + d/√(d² + H²))/2 (1/2 at the foot).
+    H = 6.0
+    night = NightLight(sky_luminance_cd_m2=1.0)
+    *_, tracer = _tracer([[_ground()], _wall(0.0, H)], night, paths=512)
+    # Points on the open side (y < 0) of the wall face y = 0, d before it (a millimetre off
+    # the foot for d = 0).
+    y = -max(d, 0.001)
+    pts, nrm = _up_points(np.column_stack([np.linspace(-30, 30, 64), np.full(64, y)]))
+    f, n = _fraction_escaping(tracer, pts, nrm)
+    svf = (1 + d / math.hypot(d, H)) / 2
+    sigma = math.sqrt(svf * (1 - svf) / n)
+    assert abs(f.mean() - svf) < 4 * sigma, (f.mean(), svf, sigma)
+
+
+def test_sky_reaches_shadows_through_bounces_and_scales_with_reflectance():
+    # Under a white wall the bounced sky adds to the direct part: with bounces the canyon floor
+    # receives more than its view factor; its light after one bounce is bounded by the wall's
+    # share of the view (1 − SVF) times the wall's reflectance and the sky the wall sees (< 1).
+    W, H = 10.0, 10.0
+    night = NightLight(sky_luminance_cd_m2=1.0)
+    rho = np.stack([np.zeros(N_BINS), np.full(N_BINS, 0.8)])
+    walls = [*_wall(W / 2, H), *_wall(-W / 2 - 0.2, H)]
+    *_, t0 = _tracer([[_ground()], walls], night, bounces=0, paths=512, rho=rho)
+    *_, t1 = _tracer([[_ground()], walls], night, bounces=1, paths=512, rho=rho)
+    pts, nrm = _up_points(np.column_stack([np.linspace(-30, 30, 64), np.zeros(64)]))
+    f0, _ = _fraction_escaping(t0, pts, nrm)
+    m1, _ = transport_at_points(pts, nrm, None, t1, 3)
+    svf = math.cos(math.atan(2 * H / W))
+    extra = m1[:, 1 + SKY, 40].mean() - f0.mean()  # channel 0 is the luminaire's
+    assert 0.05 < extra < 0.8 * (1 - svf)
+
+
+# ------------------------------------------------------------------------------------------
+# Moonlight
+# ------------------------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize("elevation", [20.0, 55.0])
+def test_moon_on_open_ground(elevation):
+    # E = E_n·sin h on horizontal ground (cosine law): stored E/π per unit E_n.
+    night = NightLight(moon_illuminance_lx=1.0, moon_elevation_deg=elevation, moon_azimuth_deg=123.0)
+    *_, tracer = _tracer([[_ground()]], night, paths=4)
+    pts, nrm = _up_points(np.random.default_rng(4).uniform(-20, 20, (20, 2)))
+    m, _ = transport_at_points(pts, nrm, None, tracer, 1)
+    np.testing.assert_allclose(m[:, MOON], math.sin(math.radians(elevation)) / math.pi, rtol=1e-12)
+    np.testing.assert_array_equal(m[:, SKY], 0.0)
+
+
+def test_moon_shadow_behind_a_wall():
+    # Moon toward −y (azimuth 180°, elevation h): a wall of height H whose back face is y = 0
+    # shades the ground from y = 0 to y = H/tan h and no further.
+    H, h = 4.0, 30.0
+    night = NightLight(moon_illuminance_lx=1.0, moon_elevation_deg=h, moon_azimuth_deg=180.0)
+    *_, tracer = _tracer([[_ground()], _wall(-0.2, H)], night, paths=1)
+    length = H / math.tan(math.radians(h))  # 6.93 m
+    y = np.concatenate([np.linspace(0.05, length - 0.02, 40), np.linspace(length + 0.02, 2 * length, 40)])
+    pts, nrm = _up_points(np.column_stack([np.zeros_like(y), y]))
+    m, _ = transport_at_points(pts, nrm, None, tracer, 1)
+    lit = m[:, MOON, 0] > 0
+    np.testing.assert_array_equal(lit, y > length)
+    np.testing.assert_allclose(m[lit, MOON], math.sin(math.radians(h)) / math.pi, rtol=1e-12)
+
+
+# ------------------------------------------------------------------------------------------
+# Relighting, seeding, bounces
+# ------------------------------------------------------------------------------------------
+
+
+def test_night_light_does_not_depend_on_the_luminaires():
+    # The ambient channels hold no luminaire: another luminaire (traced again) gives the same
+    # ambient transport to the bit, so a new lamp, lumens, dimming or photometry leaves them.
+    W, H = 10.0, 8.0
+    night = NightLight(sky_luminance_cd_m2=1.0, moon_illuminance_lx=1.0, moon_elevation_deg=40.0)
+    rho = np.stack([np.full(N_BINS, 0.3), np.full(N_BINS, 0.6)])
+    parts = [[_ground()], [*_wall(W / 2, H), *_wall(-W / 2 - 0.2, H)]]
+    mesh, bvh, lights, rho, tracer = _tracer(parts, night, bounces=3, paths=32, rho=rho)
+    moved = isotropic_source([3.0, 1.0, 6.0])
+    other = PathTracer(mesh, bvh, moved, rho, tracer.settings)
+    pts, nrm = _up_points(np.column_stack([np.linspace(-30, 30, 32), np.linspace(-4, 4, 32)]))
+    a, _ = transport_at_points(pts, nrm, None, tracer, 9)
+    b, _ = transport_at_points(pts, nrm, None, other, 9)
+    np.testing.assert_array_equal(a[:, 1:], b[:, 1:])
+    assert not np.array_equal(a[:, 0], b[:, 0])
+    # Same seed, same bits; the night light off leaves the luminaires' channel as it was.
+    np.testing.assert_array_equal(transport_at_points(pts, nrm, None, tracer, 9)[0], a)
+    plain = PathTracer(mesh, bvh, lights, rho, replace(tracer.settings, night=None))
+    c, _ = transport_at_points(pts, nrm, None, plain, 9)
+    assert c.shape[1] == 1
+    np.testing.assert_array_equal(c[:, 0], a[:, 0])
+
+
+def test_colorimetric_weights_of_the_sky_pixels():
+    # The sky seen has the sky spectrum's chromaticity: X/Y and Z/Y of the white response
+    # (CIE 15 colorimetry of the lamp spectrum).
+    from render.colour.lamps import get_lamp
+
+    spd = get_lamp("sodium-high-pressure-cie-hp1").spd
+    w = colorimetric_weights()
+    x, y, z = (spd @ w[:, :3]) / (spd @ w[:, 1])
+    night = NightLight(sky_luminance_cd_m2=0.01)
+    mesh, bvh, lights, rho, _ = _tracer([[_ground(50.0)]], night)
+    camera = Camera(position_m=(0.0, 0.0, 1.6), target_m=(0.0, 10.0, 20.0), hfov_deg=40.0, width_px=8, height_px=8)
+    buffers = render_buffers(mesh, bvh, lights, camera, 1, 0)
+    ind = trace_view(
+        buffers, lights, bvh, rho, IndirectSettings(0, 2, night=night), 0,
+        ambient_spds=np.stack([spd, planckian_spectrum(4100.0)]),
+    )  # fmt: skip
+    xyz = ambient_responses(ind, buffers.response, rho)
+    sky = buffers.response < 0
+    assert sky.all()
+    np.testing.assert_allclose(xyz[..., 1], 0.01, rtol=1e-12)
+    np.testing.assert_allclose(xyz[..., 0] / xyz[..., 1], x, rtol=1e-12)
+    np.testing.assert_allclose(xyz[..., 2] / xyz[..., 1], z, rtol=1e-12)
+
+
+# ------------------------------------------------------------------------------------------
+# Scene keys and the wiring of a render
+# ------------------------------------------------------------------------------------------
+
+MINIMAL = Path(__file__).resolve().parent.parent / "scenes" / "tests" / "minimal_street.toml"
+
+
+def _scene_with(tmp_path, night_table: str) -> Path:
+    p = tmp_path / "night.toml"
+    p.write_text(MINIMAL.read_text(encoding="utf-8") + "\n[night]\n" + night_table, encoding="utf-8")
+    return p
+
+
+@pytest.mark.parametrize(
+    ("table", "where", "words"),
+    [
+        ("sky_luminance_cd_m2 = -0.01\n", "night.sky_luminance_cd_m2", "cd/m²"),
+        ("moon_illuminance_lx = 100.0\n", "night.moon_illuminance_lx", "lx"),
+        ("moon_elevation_deg = 0.0\n", "night.moon_elevation_deg", "deg"),
+        ('sky_spectrum = "led-4000k-cie-b33"\n', "night.sky_spectrum", "unknown lamp"),
+        ("moon_lux = 0.1\n", "night.moon_lux", "moon_"),
+    ],
+)
+def test_night_keys_are_checked(tmp_path, table, where, words):
+    # Bad input names its key and what was expected (common practice, no source).
+    from render.errors import InputError
+    from render.scene import load_scene
+
+    with pytest.raises(InputError) as info:
+        load_scene(_scene_with(tmp_path, table))
+    (problem,) = info.value.problems
+    assert problem.where == where and words in problem.message, problem
+
+
+def test_off_by_default_and_on_without_bounces(tmp_path):
+    # A scene without [night] has none; with it and [render] bounces = 0 the night light is
+    # still traced (its direct part), the sky pixels show its luminance and the luminaires'
+    # direct light is unchanged to the bit.
+    from render.scene import load_scene
+    from render.study import Study
+
+    assert not load_scene(MINIMAL).night.on
+    off = Study(MINIMAL)
+    on = Study(_scene_with(tmp_path, "sky_luminance_cd_m2 = 0.002\nmoon_illuminance_lx = 0.2\n"))
+    a = off.render_view("look", width_px=32, samples_per_pixel=1)
+    b = on.render_view("look", width_px=32, samples_per_pixel=1)
+    assert a.buffers.indirect is None
+    ind = b.buffers.indirect
+    assert ind.settings.bounces == 0 and ind.values.shape[1] == 0
+    np.testing.assert_array_equal(a.buffers.value_cd_m2, b.buffers.value_cd_m2)
+    # Camera samples that leave the scene upward see the sky; below the horizon (past the
+    # street's end) they see nothing.
+    miss = b.buffers.response < 0
+    up = b.buffers.direction[:, 2] > 0
+    sky, below = miss & up, miss & ~up
+    assert sky.any() and below.any()
+    lum = b.colorimetry.luminance_cd_m2.reshape(-1)
+    np.testing.assert_allclose(lum[sky], 0.002, rtol=1e-9)
+    np.testing.assert_array_equal(lum[below], 0.0)
+    assert np.all(lum[~miss] > a.colorimetry.luminance_cd_m2.reshape(-1)[~miss])
+    assert "sky glow 0.002 cd/m²" in ind.settings.describe()
+    # Image provenance states it (common practice, no source).
+    from render.output.provenance import image_metadata
+    from render.vision.observer import ObserverSettings
+
+    meta = image_metadata(on, b, "", ObserverSettings(), 1, 1)
+    assert meta["lampcast.night_light"].startswith("night light: sky glow 0.002 cd/m²")
+    assert "moonlight 0.2 lx" in meta["lampcast.night_light"]
+    assert "lampcast.night_light" not in image_metadata(off, a, "", ObserverSettings(), 1, 1)
