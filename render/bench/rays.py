@@ -7,10 +7,13 @@
 are present, and (b) a seeded synthetic stress scene of >= 250 000 triangles (random boxes and
 spheres on a ground plane, :func:`render.bench.scenes.stress_scene`); then it casts primary
 rays from a camera (pixels in 4 x 4 blocks, as :mod:`render.rays.aov` casts them), shadow rays
-from the primary hits to a point light, and incoherent diffuse-bounce rays from the primary
-hits, and prints rays per second after JIT warm-up (medians of ``--repeat`` rounds, the contenders alternating; ratios as min / median / max over rounds). When the optional
+from the primary hits to a point light, incoherent diffuse-bounce rays from the primary
+hits and incoherent shadow rays from the bounce rays' hits to the light (the rays of a path
+tracer), and prints rays per second after JIT warm-up (medians of ``--repeat`` rounds, the
+contenders alternating; ratios as min / median / max over rounds). When the optional
 ``embreex`` package is importable, the same triangles and rays go through Embree too and the
-throughput ratio (ours / Embree) is printed, with the agreement of the two results.
+throughput ratios (ours on numba's threads / Embree, and ours on one thread / Embree, Embree
+being one thread) are printed, with the agreement of the two results.
 
 References
 ----------
@@ -136,6 +139,9 @@ def _run_case(case: _Case, args) -> None:
     t_max = np.full(so.shape[0], 1.0 - 1e-6)
     intersect_any(bvh, so[:1024], sd[:1024], t_max[:1024])
     bo, bd = _bounce_rays(o, d, hits, tris, args.seed)
+    # Incoherent shadow rays: from the bounce rays' hits to the light (a path's next-event rays).
+    bso, bsd = _shadow_rays(bo, bd, intersect_closest(bvh, bo, bd), case.light_m)
+    bs_t_max = np.full(bso.shape[0], 1.0 - 1e-6)
     threads = numba.get_num_threads()
     print(
         f"camera {cam.width_px}x{cam.height_px}, {args.spp} spp; light at {tuple(np.round(case.light_m, 2))} m; ours: {threads} threads (numba prange), Embree: embreex, 1 thread, float32, one rtcIntersect/rtcOccluded per ray"
@@ -155,9 +161,10 @@ def _run_case(case: _Case, args) -> None:
         ("primary (closest hit)", o, d, None),
         ("shadow to light (occlusion)", so, sd, t_max),
         ("diffuse bounce, incoherent (closest hit)", bo, bd, None),
+        ("bounce hits to light, incoherent (occlusion)", bso, bsd, bs_t_max),
     ]
     print(
-        f"{'rays':44s} {'count':>8s} {'ours Mrays/s':>13s} {'1 thread':>9s} {'Embree':>8s} {'ours/Embree min/med/max':>18s}  agreement"
+        f"{'rays':44s} {'count':>8s} {'ours Mrays/s':>13s} {'1 thread':>9s} {'Embree':>8s} {'ours/Embree min/med/max':>24s} {'1 thread/Embree min/med/max':>28s}  agreement"
     )
     for name, ro, rd, tm in sets:
         if tm is None:
@@ -186,9 +193,11 @@ def _run_case(case: _Case, args) -> None:
             else:
                 agree = f"same occlusion {np.mean((np.asarray(emb_result) != -1) == ours_result):.3%}"
             emb_s = f"{_mrays(n, spread['embree'].median):8.2f}"
-            ratio = f"{ratios(spread['embree'], spread['ours']).text(1, '.2f'):>18s}"
+            ratio = f"{ratios(spread['embree'], spread['ours']).text(1, '.2f'):>24s}"
+            one_ratio = ratios(spread["embree"], spread["one"]).text(1, ".2f") if "one" in spread else "-"
+            ratio += f" {one_ratio:>28s}"
         else:
-            emb_s, ratio, agree = f"{'-':>8s}", f"{'-':>18s}", "embreex not importable (or --no-embree)"
+            emb_s, ratio, agree = f"{'-':>8s}", f"{'-':>24s} {'-':>28s}", "embreex not importable (or --no-embree)"
         print(f"{name:44s} {n:8d} {_mrays(n, spread['ours'].median):13.2f} {one} {emb_s} {ratio}  {agree}")
 
 

@@ -90,6 +90,11 @@ def _trace_batch(
     st_node = np.empty(max(STACK_SIZE, wide_stack), np.int64)
     st_t = np.empty(wide_stack)
     work = np.empty(2 * WIDE)
+    # One ray's origin and direction, copied here rather than passed as views origins[i]:
+    # a view takes a reference to the batch's array, an atomic update of a count that the
+    # threads share.
+    o = np.empty(3)
+    d = np.empty(3)
     for item in range(first, n_items, stride):
         stop = min(n_rays, (item + 1) * per_item)
         for start in range(item * per_item, stop, PACKET):
@@ -109,16 +114,15 @@ def _trace_batch(
                 continue
             for i in range(start, start + n):
                 valid = valid_ray(origins, directions, i)
+                for q in range(3):
+                    o[q] = origins[i, q]
+                    d[q] = directions[i, q]
                 if occlusion:
-                    out_hit[i] = valid and any_one(
-                        wb, wi, tv, origins[i], directions[i], t_min, t_max[i], st_node, work, width
-                    )
+                    out_hit[i] = valid and any_one(wb, wi, tv, o, d, t_min, t_max[i], st_node, work, width)
                     continue
                 t, j, u, v = np.inf, -1, 0.0, 0.0
                 if valid:
-                    t, j, u, v = closest_one(
-                        wb, wi, tv, ti, origins[i], directions[i], t_min, t_max[i], st_node, st_t, work, width
-                    )
+                    t, j, u, v = closest_one(wb, wi, tv, ti, o, d, t_min, t_max[i], st_node, st_t, work, width)
                 _store(i, t, j, u, v, out_t, out_tri, out_u, out_v)
 
 

@@ -1,16 +1,23 @@
 """Single-ray traversal of the 8-wide tree, for rays that do not form coherent packets.
 
 The boxes of all :data:`~render.rays.bvh.layout.WIDE` children of a node are tested in one
-counted loop that LLVM vectorises; leaf children are intersected at once, and of the inner
-children the nearest is descended and the others pushed with their entry distance (closest
-hit) or pushed in order (any hit, which stops at the first hit found). Among hits at exactly
-the same ``t`` the lowest original triangle index wins, so the result does not depend on the
-order in which the tree is traversed.
+counted loop that LLVM vectorises, reading for each axis only the bound the ray meets first
+(near) and the one it leaves by (far), chosen once per ray by the signs of its direction
+(its octant); the loop yields a bit mask of the children entered. Closest hit: the children
+entered, inner nodes and leaves alike, are inserted into the stack by entry distance, so
+the nearest is always taken next and a leaf is only intersected when nothing nearer is
+left; entries farther than the best hit so far are dropped when popped. Any hit: leaves are
+intersected at once (the query stops at the first hit found) and inner children pushed.
+Among hits at exactly the same ``t`` the lowest original triangle index wins, so the result
+does not depend on the order in which the tree is traversed, and every box decision is the
+same float64 arithmetic as :func:`~render.rays.bvh.slab.slab_interval`.
 
 References
 ----------
 - Wald, Benthin & Boulos, "Getting rid of packets: efficient SIMD single-ray traversal using
   multi-branching BVHs", IEEE Symposium on Interactive Ray Tracing 2008.
+- Williams, Barrus, Morley & Shirley, "An efficient and robust ray-box intersection
+  algorithm", Journal of Graphics Tools 10(1), 2005 (near and far bounds by direction sign).
 - Ize, "Robust BVH Ray Traversal", JCGT 2(2), 2013 (box test, :mod:`render.rays.bvh.slab`).
 - Woop, Benthin & Wald, "Watertight Ray/Triangle Intersection", JCGT 2(1), 2013
   (:mod:`render.rays.bvh.triangle`).
@@ -22,35 +29,42 @@ import numba
 import numpy as np
 
 from render.rays.bvh.layout import WIDE
-from render.rays.bvh.slab import safe_inverse, slab_interval
+from render.rays.bvh.simd import lowest_bit, node_entry_mask
+from render.rays.bvh.slab import safe_inverse
 from render.rays.bvh.triangle import intersect_triangle, ray_shear, triangle_vertices
 
 __all__ = ["any_one", "closest_one"]
 
+# Column of the first child's hi bound of axis k is _HI + 8 k (lo: 8 k), see layout.BVH.
+_HI = 3 * WIDE
+# Columns of the first child's reference and leaf count.
+_REF = np.uint64(6 * WIDE)
+_COUNT = np.uint64(7 * WIDE)
+
 
 @numba.njit(cache=True, nogil=True)
-def _ray_constants(o, d):
-    """Axes ``k`` and shear ``s`` (Woop et al. 2013), the origin permuted to ``k`` and as is,
-    and the inverse direction of one ray."""
-    kx, ky, kz, sx, sy, sz = ray_shear(d[0], d[1], d[2])
-    origin = (o[0], o[1], o[2])
-    inverse = (safe_inverse(d[0]), safe_inverse(d[1]), safe_inverse(d[2]))
-    return (kx, ky, kz), (o[kx], o[ky], o[kz]), (sx, sy, sz), origin, inverse
+def _pick(v0: float, v1: float, v2: float, k: int) -> float:
+    """Component ``k`` of (v0, v1, v2), without the bounds check (and its exception path) of
+    indexing a tuple at run time."""
+    return v0 if k == 0 else (v1 if k == 1 else v2)
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
-def _wide_boxes(wb, node, origin, inverse, t_min, work, width):
-    """Slab interval of every child box of wide ``node``: near (at least ``t_min``) in
-    ``work[c]``, far in ``work[WIDE + c]``. ``width`` (= WIDE) is passed at run time so that
-    the loop is vectorised rather than unrolled."""
-    for c in range(width):
-        lo = (np.float64(wb[node, c]), np.float64(wb[node, WIDE + c]), np.float64(wb[node, 2 * WIDE + c]))
-        hi = (
-            np.float64(wb[node, 3 * WIDE + c]),
-            np.float64(wb[node, 4 * WIDE + c]),
-            np.float64(wb[node, 5 * WIDE + c]),
-        )
-        work[c], work[WIDE + c] = slab_interval(lo, hi, origin, inverse, t_min)
+@numba.njit(cache=True, nogil=True)
+def _octant_columns(ix: float, iy: float, iz: float) -> tuple[int, int, int, int, int, int]:
+    """Columns of the first child's near x, y, z and far x, y, z bound in a wide-node record
+    for a ray with inverse direction (ix, iy, iz). Unsigned, so that numba indexes with them
+    without a negative-index wraparound."""
+    nx = 0 if ix >= 0.0 else _HI
+    ny = WIDE if iy >= 0.0 else _HI + WIDE
+    nz = 2 * WIDE if iz >= 0.0 else _HI + 2 * WIDE
+    return (
+        np.uint64(nx),
+        np.uint64(ny),
+        np.uint64(nz),
+        np.uint64(_HI - nx),
+        np.uint64(_HI + 2 * WIDE - ny),
+        np.uint64(_HI + 4 * WIDE - nz),
+    )
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
@@ -70,56 +84,68 @@ def closest_one(
 ) -> tuple[float, int, float, float]:
     """Closest hit of the ray ``o + t d`` with ``t_min < t < t_max``: ``(t, triangle, u, v)``,
     triangle -1 for a miss. ``wb``/``wi`` are the wide tree's float32/int32 views, ``tv``/``ti``
-    the BVH's triangles and index; ``st_node``, ``st_t`` (stack) and ``work`` (2 WIDE) are
-    scratch arrays."""
-    k, p, s, origin, inverse = _ray_constants(o, d)
+    the BVH's triangles and index; ``st_node``, ``st_t`` (stack, ``BVH.wide_stack`` entries) and
+    ``work`` (at least WIDE) are scratch arrays."""
+    # Per-ray constants (written out here: a call returning them is not inlined, and its
+    # exception path would keep numba's reference counts of the arrays for every ray).
+    ox, oy, oz = o[0], o[1], o[2]
+    kx, ky, kz, sx, sy, sz = ray_shear(d[0], d[1], d[2])
+    k = (kx, ky, kz)
+    p = (_pick(ox, oy, oz, kx), _pick(ox, oy, oz, ky), _pick(ox, oy, oz, kz))
+    s = (sx, sy, sz)
+    origin = (ox, oy, oz)
+    inverse = (safe_inverse(d[0]), safe_inverse(d[1]), safe_inverse(d[2]))
+    cols = _octant_columns(inverse[0], inverse[1], inverse[2])
     best_t = t_max
     best_j = -1
     best_u = 0.0
     best_v = 0.0
-    node = 0
+    # A stack entry is an inner node (>= 0) or a leaf: -(first + 1) - (count << 32).
+    entry = np.int64(0)
     sp = 0
     while True:
-        _wide_boxes(wb, node, origin, inverse, t_min, work, width)
-        nxt = -1
-        nxt_t = 0.0
-        for c in range(WIDE):
-            near = work[c]
-            if not near <= min(work[WIDE + c], best_t):
+        if entry >= 0:
+            node = np.uint64(entry)
+            mask = node_entry_mask(wb, node, cols, origin, inverse, t_min, best_t, work)
+            if mask != 0 and mask & (mask - 1) == 0:
+                c = np.uint64(lowest_bit(mask))
+                ch = np.int64(wi[node, _REF + c])
+                entry = ch if ch >= 0 else ch - (np.int64(wi[node, _COUNT + c]) << 32)
                 continue
-            ch = wi[node, 6 * WIDE + c]
-            if ch < 0:
-                first = -ch - 1
-                for j in range(first, first + wi[node, 7 * WIDE + c]):
-                    hit, t, u, v = intersect_triangle(triangle_vertices(tv, j, k), p, s)
-                    if hit and t > t_min and (t < best_t or (t == best_t and ti[j] < best_j)):
-                        best_t = t
-                        best_j = ti[j]
-                        best_u = u
-                        best_v = v
-            elif nxt < 0:
-                nxt = ch
-                nxt_t = near
-            elif near < nxt_t:
-                st_node[sp] = nxt
-                st_t[sp] = nxt_t
+            base = sp
+            while mask != 0:
+                c = np.uint64(lowest_bit(mask))
+                mask &= mask - 1
+                ch = np.int64(wi[node, _REF + c])
+                e = ch if ch >= 0 else ch - (np.int64(wi[node, _COUNT + c]) << 32)
+                near = work[c]
+                # Keep this node's entries sorted, the nearest on top.
+                j = sp
+                while j > base and st_t[j - 1] < near:
+                    st_t[j] = st_t[j - 1]
+                    st_node[j] = st_node[j - 1]
+                    j -= 1
+                st_t[j] = near
+                st_node[j] = e
                 sp += 1
-                nxt = ch
-                nxt_t = near
-            else:
-                st_node[sp] = ch
-                st_t[sp] = near
-                sp += 1
-        if nxt >= 0 and nxt_t <= best_t:
-            node = nxt
-            continue
-        node = -1
+        else:
+            packed = -entry
+            first = (packed & 0xFFFFFFFF) - 1
+            for j in range(first, first + (packed >> 32)):
+                hit, t, u, v = intersect_triangle(triangle_vertices(tv, j, k), p, s)
+                if hit and t > t_min and (t < best_t or (t == best_t and ti[j] < best_j)):
+                    best_t = t
+                    best_j = ti[j]
+                    best_u = u
+                    best_v = v
+        found = False
         while sp > 0:
             sp -= 1
             if st_t[sp] <= best_t:
-                node = st_node[sp]
+                entry = st_node[sp]
+                found = True
                 break
-        if node < 0:
+        if not found:
             break
     return best_t, best_j, best_u, best_v
 
@@ -139,25 +165,34 @@ def any_one(
 ) -> bool:
     """True if the ray ``o + t d`` hits any triangle with ``t_min < t < t_max`` (stops at the
     first found). Arguments as for :func:`closest_one`."""
-    k, p, s, origin, inverse = _ray_constants(o, d)
-    node = 0
+    # Per-ray constants (written out here: a call returning them is not inlined, and its
+    # exception path would keep numba's reference counts of the arrays for every ray).
+    ox, oy, oz = o[0], o[1], o[2]
+    kx, ky, kz, sx, sy, sz = ray_shear(d[0], d[1], d[2])
+    k = (kx, ky, kz)
+    p = (_pick(ox, oy, oz, kx), _pick(ox, oy, oz, ky), _pick(ox, oy, oz, kz))
+    s = (sx, sy, sz)
+    origin = (ox, oy, oz)
+    inverse = (safe_inverse(d[0]), safe_inverse(d[1]), safe_inverse(d[2]))
+    cols = _octant_columns(inverse[0], inverse[1], inverse[2])
+    node = np.uint64(0)
     sp = 0
     while True:
-        _wide_boxes(wb, node, origin, inverse, t_min, work, width)
-        for c in range(WIDE):
-            if not work[c] <= min(work[WIDE + c], t_max):
-                continue
-            ch = wi[node, 6 * WIDE + c]
+        mask = node_entry_mask(wb, node, cols, origin, inverse, t_min, t_max, work)
+        while mask != 0:
+            c = np.uint64(lowest_bit(mask))
+            mask &= mask - 1
+            ch = wi[node, _REF + c]
             if ch >= 0:
                 st_node[sp] = ch
                 sp += 1
                 continue
             first = -ch - 1
-            for j in range(first, first + wi[node, 7 * WIDE + c]):
+            for j in range(first, first + wi[node, _COUNT + c]):
                 hit, t, _, _ = intersect_triangle(triangle_vertices(tv, j, k), p, s)
                 if hit and t > t_min and t < t_max:
                     return True
         if sp == 0:
             return False
         sp -= 1
-        node = st_node[sp]
+        node = np.uint64(st_node[sp])

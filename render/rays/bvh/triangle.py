@@ -58,10 +58,12 @@ def ray_shear(dx: float, dy: float, dz: float) -> tuple[int, int, int, float, fl
         tmp = kx
         kx = ky
         ky = tmp
-    d = (dx, dy, dz)
     sz = 1.0 / dkz
-    sx = d[kx] * sz
-    sy = d[ky] * sz
+    # Components picked by comparisons rather than by indexing a tuple, whose bounds check
+    # would give every caller an exception path (and keep numba's reference counts of the
+    # caller's arrays).
+    sx = (dx if kx == 0 else (dy if kx == 1 else dz)) * sz
+    sy = (dx if ky == 0 else (dy if ky == 1 else dz)) * sz
     return kx, ky, kz, sx, sy, sz
 
 
@@ -69,11 +71,17 @@ def ray_shear(dx: float, dy: float, dz: float) -> tuple[int, int, int, float, fl
 def triangle_vertices(tv: np.ndarray, j: int, k: tuple[int, int, int]) -> tuple[Vec3, Vec3, Vec3]:
     """Vertices v0, v1, v2 of row ``j`` of ``tv`` (M, 9), each permuted to the axes ``k``
     = (kx, ky, kz) of :func:`ray_shear`."""
-    kx, ky, kz = k
+    # Unsigned indices: numba then emits no negative-index wraparound for the nine loads.
+    r = np.uint64(j)
+    kx = np.uint64(k[0])
+    ky = np.uint64(k[1])
+    kz = np.uint64(k[2])
+    three = np.uint64(3)
+    six = np.uint64(6)
     return (
-        (tv[j, kx], tv[j, ky], tv[j, kz]),
-        (tv[j, 3 + kx], tv[j, 3 + ky], tv[j, 3 + kz]),
-        (tv[j, 6 + kx], tv[j, 6 + ky], tv[j, 6 + kz]),
+        (tv[r, kx], tv[r, ky], tv[r, kz]),
+        (tv[r, three + kx], tv[r, three + ky], tv[r, three + kz]),
+        (tv[r, six + kx], tv[r, six + ky], tv[r, six + kz]),
     )
 
 
