@@ -279,7 +279,9 @@ def layered_pdf_one(nx, ny, nz, lx, ly, lz, vx, vy, vz, alpha, p_spec):
 @numba.njit(cache=True, nogil=True)
 def balance_heuristic(n_a, pdf_a, n_b, pdf_b):
     """Weight of a sample of strategy a (``n_a`` samples, pdf ``pdf_a``) combined with strategy
-    b: n_a·p_a / (n_a·p_a + n_b·p_b) (Veach 1997); 0 where neither could have drawn it."""
+    b: n_a·p_a / (n_a·p_a + n_b·p_b) (Veach 1997); 0 where neither could have drawn it. Pdfs
+    finite: light from a point luminaire or the moon (no direction can hit it) takes weight 1
+    without a heuristic."""
     a = n_a * pdf_a
     t = a + n_b * pdf_b
     return a / t if t > 0.0 else 0.0
