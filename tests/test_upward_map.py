@@ -243,10 +243,15 @@ def test_relit_setup_equals_a_fresh_cast(point_scene, setup):
 
 def test_plane_covers_the_bounds_above_the_highest_surface():
     tri = np.array([[[0.0, 0.0, 0.0], [10.2, 0.0, 0.0], [0.0, 3.1, 7.0]]])
-    plane = upward_plane(tri, cell_m=0.5, clearance_m=0.05)
+    plane = upward_plane(tri, cell_m=0.5, clearance_m=0.05, margin_heights=0.0)
     x0, x1, y0, y1 = plane.extent_m
     assert x0 <= 0.0 and x1 >= 10.2 and y0 <= 0.0 and y1 >= 3.1
     assert (plane.width_px, plane.height_px) == (21, 7)
     assert plane.plane_z_m == pytest.approx(7.05)
+    # One height of margin: 7.05 m beyond the bounds on every side.
+    wide = upward_plane(tri, cell_m=0.5, clearance_m=0.05, margin_heights=1.0)
+    x0, x1, y0, y1 = wide.extent_m
+    assert x0 <= -7.05 and x1 >= 17.25 and y0 <= -7.05 and y1 >= 10.15
+    assert x1 - x0 < 24.3 + 0.5 and y1 - y0 < 17.2 + 0.5
     coarse = upward_plane(tri, cell_m=0.5, max_cells=20)
     assert coarse.n_pixels <= 20 and coarse.cell_m > 0.5
