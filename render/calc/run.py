@@ -25,7 +25,10 @@ and the footways) and computes
   of ``[calc]``;
 * light to the sky (:mod:`render.calc.sky`): the luminaires' direct upward flux, the light the
   lit ground reflects upward, both per metre of street, the Rayleigh- and scotopic-weighted
-  figures relative to the first setup (the "before"), and the notch-filterable share;
+  figures relative to the first setup (the "before"), and the notch-filterable share; beside
+  them the upward exitance map over the scene (:class:`render.calc.sky.UpwardLight`, cast once
+  for the run and relit per setup) and its total reflected upward flux, facades, roofs and the
+  calculation's objects included (with ``bounces`` > 0 also their interreflected light);
 * energy (:func:`render.calc.energy.setup_energy`) from the setups' input watts and schedules
   and ``[energy]``, and its difference from the first setup;
 * with a lighting class, the class check (:func:`render.calc.classes.check_class`) of the
@@ -79,6 +82,8 @@ from render.calc.sky import (
     GroundPatches,
     SkyFigures,
     SkyGlowRelative,
+    UpwardExitanceMap,
+    UpwardLight,
     direct_upward_flux_lm,
     ground_patches,
     notch_filterable_fraction,
@@ -285,6 +290,7 @@ class SetupCalculation:
     energy_note: str  # why energy is not computed ("" when it is)
     energy_vs_before: EnergyDifference | None
     class_check: ClassCheck | None
+    upward_map: UpwardExitanceMap | None = None  # the upward exitance map (render.calc.sky)
 
     @property
     def ti_max_percent(self) -> float | None:
@@ -360,6 +366,7 @@ class SetupCalculation:
             "energy_note": self.energy_note,
             "energy_vs_before": self.energy_vs_before.to_json() if self.energy_vs_before is not None else None,
             "class_check": self.class_check.to_json() if self.class_check is not None else None,
+            "upward_map": self.upward_map.to_json() if self.upward_map is not None else None,
         }
 
 
@@ -541,9 +548,12 @@ def _s_p_ratio(study: Study, lights, setup, lanes) -> float:
     return sum(w * float(sp_ratio(study.lamp_spds([group_lamp[g]])[0])) for g, w in weights.items()) / total
 
 
-def setup_calculation(study: Study, setup: str | None = None, options: CalcOptions | None = None) -> SetupCalculation:
+def setup_calculation(
+    study: Study, setup: str | None = None, options: CalcOptions | None = None, upward: UpwardLight | None = None
+) -> SetupCalculation:
     """The figures of one setup (the module text lists them) on ``study`` as given (see
-    :func:`calc_study` for leaving out the scene's objects)."""
+    :func:`calc_study` for leaving out the scene's objects); ``upward``: the upward exitance
+    map's plane already cast on ``study`` (cast here under this setup when not given)."""
     opts = options if options is not None else CalcOptions()
     s = study.setup(setup)
     lights = study.lights(s)
@@ -585,6 +595,12 @@ def setup_calculation(study: Study, setup: str | None = None, options: CalcOptio
         patches.points_m, np.tile([0.0, 0.0, 1.0], (len(patches.area_m2), 1)), s, per_group=True
     )
     sky = _sky(study, lights, s, ground_lx, patches, length_m)
+    if upward is None:
+        upward = UpwardLight(study, s, bounces=opts.bounces)
+    upward_map = upward.exitance(s)
+    sky = replace(
+        sky, reflected_upward_map_lm=upward_map.reflected_upward_lm, reflected_upward_map_bounces=upward_map.bounces
+    )
     energy, note = _energy(study, lights, s)
     calc = SetupCalculation(
         setup=s.name if s is not None else None,
@@ -603,6 +619,7 @@ def setup_calculation(study: Study, setup: str | None = None, options: CalcOptio
         energy_note=note,
         energy_vs_before=None,
         class_check=None,
+        upward_map=upward_map,
     )
     cls = opts.lighting_class
     if cls is None:
@@ -624,7 +641,8 @@ def run_calculation(study: Study, setups: list[str | None], options: CalcOptions
             f"the mesopic adjustment (CIE 191) applies to P classes, not to {opts.lighting_class.name}",
         )
     used = calc_study(study, opts.include_objects)
-    out = [setup_calculation(used, s, opts) for s in setups]
+    upward = UpwardLight(used, setups[0], bounces=opts.bounces) if setups else None
+    out = [setup_calculation(used, s, opts, upward) for s in setups]
     first = out[0] if out else None
     if first is not None:
         out[0] = first = replace(first, sky_relative=sky_glow_relative(first.sky, first.sky))

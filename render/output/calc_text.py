@@ -104,6 +104,17 @@ def format_calculation(report: CalculationReport) -> str:
             f"  to the sky: {sky.upward_lm:.1f} lm ({sky.direct_upward_lm:.1f} direct + {sky.reflected_upward_lm:.1f} "
             f"reflected by the ground), {sky.upward_lm_per_m:.2f} lm per metre of street ({sky.street_length_m:g} m)"
         )
+        if sky.reflected_upward_map_lm is not None:
+            bounced = (
+                f", interreflections up to {sky.reflected_upward_map_bounces} bounces"
+                if sky.reflected_upward_map_bounces
+                else ", one reflection"
+            )
+            lines.append(
+                f"  reflected upward through a plane above the scene: {sky.reflected_upward_map_lm:.1f} lm "
+                f"(facades, roofs and objects included{bounced}; the ground's {sky.reflected_upward_lm:.1f} lm "
+                "above count all its reflected light as going up)"
+            )
         if s.sky_relative is not None:
             r = s.sky_relative
             lines.append(
