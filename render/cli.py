@@ -307,8 +307,8 @@ def _print_images(args: argparse.Namespace, images: list[dict[str, Any]]) -> Non
 
 def cmd_render(args: argparse.Namespace) -> int:
     """Render one view: an absolute EXR and display PNGs (and AOV images with ``--aov``)."""
-    study = _study(args)
     _start_warmup(args)
+    study = _study(args)
     view = study.scene.view(args.view)
     out = _out_dir(args.out, Path(args.scene).stem)
     spp = args.spp or study.scene.render.samples_per_pixel
@@ -624,8 +624,8 @@ def cmd_compare(args: argparse.Namespace) -> int:
     """Before and options: images, metrics.json and report.html per view; prints the summary."""
     from render.output.comparison import run_comparison
 
-    study = _study(args)
     _start_warmup(args)
+    study = _study(args)
     observer = _observer_from_args(study, args)
     out = _out_dir(args.out, f"{Path(args.scene).stem}-compare")
     before = args.before or study.scene.compare_before
@@ -684,6 +684,7 @@ def cmd_demo(args: argparse.Namespace) -> int:
         width=args.width,
         spp=args.spp,
         bounces=args.bounces,
+        denoise=args.denoise,
         no_report=False,
         age=args.age,
         pigmentation=None,
@@ -745,6 +746,12 @@ def _run_options(p: argparse.ArgumentParser, out_default: str) -> None:
         type=_bounces,
         help="interreflections per path, 0 for direct light only (default: the scene's render.bounces)",
     )
+    p.add_argument(
+        "--denoise",
+        action="store_true",
+        help="filter the images' interreflected light, edge-aware, once per view (default: the scene's "
+        "render.indirect_denoise; calculations never)",
+    )
     p.add_argument("--out", help=f"output folder (default {out_default})")
 
 
@@ -767,12 +774,15 @@ def _study(args: argparse.Namespace) -> Study:
     scene = load_scene(args.scene, strict_paths=getattr(args, "strict_paths", False))
     if getattr(args, "bounces", None) is not None:
         scene.render.bounces = args.bounces
+    if getattr(args, "denoise", False):
+        scene.render.indirect_denoise = True
     return Study(scene)
 
 
 def _start_warmup(args: argparse.Namespace) -> None:
     """On a first run (kernels not yet cached), compile the later kernels in a helper process
-    while this one loads and traces (:mod:`render.warmup`; stopped by :func:`main`)."""
+    while this one loads the scene and traces (:mod:`render.warmup`; stopped by :func:`main`).
+    Called before the scene is loaded, so that the helper starts as early as it can."""
     from render.warmup import start
 
     start(args.scene)

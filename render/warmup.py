@@ -12,10 +12,21 @@ inputs of a few samples with the same array types (:func:`warm`), so it compiles
 specialisations the command will look up; results never depend on it (a kernel the helper
 has not finished is compiled by the command as usual).
 
-The helper writes nothing but the kernel cache, prints nothing, and ends with the command:
-:meth:`Warmup.close` stops it if it is still running (the command's handler calls it on
-every exit). The command waits for the helper's light kernel, the largest, rather than
-compile it a second time (:func:`wait_for_light_kernel`). The helper is not started when
+The work is split into steps in the order the command needs their kernels (:data:`STEPS`:
+the light kernel, the luminous openings, colorimetry with the vision stage and the image
+writer, the calculation). The command starts the helper as soon as it has parsed its
+arguments, before it loads the scene, and gives it a folder in which each step is claimed
+by whichever process takes it first (a file created exclusively) and marked done when it
+ends. The helper takes the steps from the front. The command waits for the light kernel,
+the largest, rather than compile it a second time (:func:`wait_for_light_kernel`): as long
+as the helper is still compiling it, however slowly a loaded machine lets it, and while it
+waits it takes the steps from the back itself (on a synthetic view of its own, never
+touching the command's data), so that neither process sits idle while the other compiles
+what it will need.
+
+The helper writes nothing but the kernel cache and the step files, prints nothing, and
+ends with the command: :meth:`Warmup.close` stops it if it is still running and removes the
+step folder (the command's handler calls it on every exit). The helper is not started when
 the light kernel is already cached, on a single core, when numba's cache cannot be written,
 or with ``LAMPCAST_WARMUP=0`` in the environment. It inherits ``NUMBA_CACHE_DIR``
 (:func:`render.resources.numba_cache_dir` sets it before numba is imported), so a read-only
@@ -25,55 +36,119 @@ References
 ----------
 - numba documentation, "Notes on Caching" (``cache=True``: one index and data file per
   function in ``__pycache__`` or ``NUMBA_CACHE_DIR``).
-- Python documentation, :mod:`subprocess` (``Popen``, ``terminate``, ``wait``).
+- Python documentation, :mod:`subprocess` (``Popen``, ``terminate``, ``wait``); :func:`os.open`
+  with ``O_CREAT | O_EXCL`` (creation that fails when the file exists: one claimant per step).
 """
 
 from __future__ import annotations
 
 import atexit
 import os
+import shutil
 import signal
 import subprocess
 import sys
+import tempfile
 import threading
+import time
 from pathlib import Path
 
-__all__ = ["ENV_SWITCH", "Warmup", "kernels_cached", "start", "stop_all", "wait_for_light_kernel", "warm"]
+__all__ = [
+    "ENV_SWITCH",
+    "STEPS",
+    "Warmup",
+    "kernels_cached",
+    "start",
+    "stop_all",
+    "wait_for_light_kernel",
+    "warm",
+]
 
 #: Environment variable that turns the helper process off (``0``, ``no``, ``false`` or ``off``).
 ENV_SWITCH = "LAMPCAST_WARMUP"
+#: The helper's steps, in the order a rendering command needs their kernels: the direct-light
+#: kernel, the luminous openings, colorimetry with the vision stage and the image writer,
+#: the calculation's kernels.
+STEPS = ("light", "openings", "vision", "calc")
 # Seconds the command waits for a stopped helper to exit before killing it.
 _STOP_WAIT_S = 5.0
-# Most seconds the command waits for the helper's light kernel, and how often it looks.
-_LIGHT_WAIT_S = 60.0
+# Most seconds the command waits for the helper's light kernel (a safety net only: it waits
+# while the helper is alive and compiling it), and how often it looks.
+_LIGHT_WAIT_S = 900.0
 _POLL_S = 0.05
 # Width of the tiny view the helper renders synthetically (pixels).
 _WIDTH_PX = 24
+# Name of the file that marks a step done, in the step folder.
+_DONE = "{}.done"
 # Helpers started by this process and not yet stopped.
 _running: list[Warmup] = []
 
 
-class Warmup:
-    """A running helper process (:func:`start`); :meth:`close` stops it. A context manager."""
+def _claim(board: Path, step: str) -> bool:
+    """Take ``step`` for this process: True if no process had taken it."""
+    try:
+        os.close(os.open(board / step, os.O_CREAT | os.O_EXCL | os.O_WRONLY))
+    except FileExistsError:
+        return False
+    except OSError:  # the folder is gone (the command ended): nothing more to do
+        return False
+    return True
 
-    def __init__(self, process: subprocess.Popen) -> None:
+
+def _mark_done(board: Path, step: str) -> None:
+    try:
+        os.close(os.open(board / _DONE.format(step), os.O_CREAT | os.O_WRONLY))
+    except OSError:
+        pass
+
+
+class Warmup:
+    """A running helper process (:func:`start`) and its step folder (``board``, see the
+    module text); :meth:`close` stops it. A context manager."""
+
+    def __init__(self, process: subprocess.Popen, scene_path: str | None = None, board: Path | None = None) -> None:
         self.process = process
+        self.scene_path = scene_path
+        self.board = board
+        self._steps: _Steps | None = None
 
     def running(self) -> bool:
         """Whether the helper is still compiling."""
         return self.process.poll() is None
 
+    def done(self, step: str) -> bool:
+        """Whether ``step`` has been finished (by either process)."""
+        return self.board is not None and (self.board / _DONE.format(step)).exists()
+
+    def assist(self) -> bool:
+        """Take the last step neither process has taken yet and run it in this process (on
+        data of its own); False when none is left."""
+        if self.board is None or self.scene_path is None:
+            return False
+        for step in reversed(STEPS):
+            if _claim(self.board, step):
+                if self._steps is None:
+                    self._steps = _Steps(self.scene_path)
+                try:
+                    self._steps.run(step)
+                finally:
+                    _mark_done(self.board, step)
+                return True
+        return False
+
     def close(self) -> None:
-        """Stop the helper if it is still running, and wait for it to exit."""
+        """Stop the helper if it is still running, wait for it to exit, and remove the step
+        folder."""
         p = self.process
-        if p.poll() is not None:
-            return
-        p.terminate()
-        try:
-            p.wait(timeout=_STOP_WAIT_S)
-        except subprocess.TimeoutExpired:
-            p.kill()
-            p.wait()
+        if p.poll() is None:
+            p.terminate()
+            try:
+                p.wait(timeout=_STOP_WAIT_S)
+            except subprocess.TimeoutExpired:
+                p.kill()
+                p.wait()
+        if self.board is not None:
+            shutil.rmtree(self.board, ignore_errors=True)
 
     def __enter__(self) -> Warmup:
         return self
@@ -113,15 +188,20 @@ def _cache_writable() -> bool:
 
 def wait_for_light_kernel() -> None:
     """If a helper of this process is still compiling the light kernel (its first step),
-    wait until numba's cache holds it (at most a couple of minutes, and no longer than the
-    helper runs) rather than compile it a second time; at once otherwise."""
-    import time
-
+    wait until it has finished it rather than compile it a second time, however long that
+    takes while the helper runs; meanwhile compile the steps from the back of :data:`STEPS`
+    here (:meth:`Warmup.assist`). At once when there is no helper or its light kernel is done."""
     if not _running:
         return
+    w = _running[-1]
     deadline = time.monotonic() + _LIGHT_WAIT_S
-    while any(w.running() for w in _running) and not kernels_cached() and time.monotonic() < deadline:
-        time.sleep(_POLL_S)
+    while w.running() and not w.done("light") and time.monotonic() < deadline:
+        try:
+            assisted = w.assist()
+        except Exception:  # a step of a synthetic view failed: the command compiles it when it comes
+            assisted = True
+        if not assisted:
+            time.sleep(_POLL_S)
 
 
 def stop_all() -> None:
@@ -145,18 +225,23 @@ def start(scene_path: str | os.PathLike) -> Warmup | None:
     if _switched_off() or _cores() < 2 or kernels_cached() or not _cache_writable():
         return None
     try:
+        board = Path(tempfile.mkdtemp(prefix="lampcast-warmup-"))
+    except OSError:
+        return None
+    try:
         process = subprocess.Popen(
-            [sys.executable, "-m", "render.warmup", str(scene_path)],
+            [sys.executable, "-m", "render.warmup", str(scene_path), str(board)],
             stdin=subprocess.DEVNULL,
             stdout=subprocess.DEVNULL,
             stderr=subprocess.DEVNULL,
             env={**os.environ, ENV_SWITCH: "0"},
         )
     except OSError:
+        shutil.rmtree(board, ignore_errors=True)
         return None
     if not _running:
         atexit.register(stop_all)
-    _running.append(Warmup(process))
+    _running.append(Warmup(process, str(scene_path), board))
     return _running[-1]
 
 
@@ -203,49 +288,79 @@ def _synthetic_view(study, setup, lights):
     )
 
 
-def warm(scene_path: str | os.PathLike) -> None:
-    """Compile (or load) the kernels a rendering command on ``scene_path`` needs after its
-    camera rays: the light kernels (:func:`render.light.integrator.compile_light_kernels`),
-    colorimetry, the vision stage and the image writer, on a synthetic view of a few samples,
-    then the calculation's intensity lookups. Each step stands alone: one that fails is left
-    to the command."""
-    import tempfile
+class _Steps:
+    """The steps of :data:`STEPS` for one scene, each run on inputs of a few samples with the
+    array types of a real command; the scene, its setups and luminaires loaded when a step
+    first needs them."""
 
-    from render.study import Study
+    def __init__(self, scene_path: str | os.PathLike) -> None:
+        self.scene_path = scene_path
 
-    study = Study(scene_path)
-    names = [study.scene.compare_before, *study.scene.compare_options] if study.scene.compare_before else []
-    setups = [study.setup(s) for s in names[:2]] or [study.setup(None)]
-    lights = [study.lights(s) for s in setups]
-    steps = []
+    def _load(self) -> None:
+        if hasattr(self, "study"):
+            return
+        from render.study import Study
 
-    def light() -> None:
+        study = Study(self.scene_path)
+        scene = study.scene
+        names = [scene.compare_before, *scene.compare_options] if scene.compare_before else []
+        self.setups = [study.setup(s) for s in names[:2]] or [study.setup(None)]
+        self.lights = [study.lights(s) for s in self.setups]
+        self.study = study
+
+    def run(self, step: str) -> None:
+        """Run ``step`` (one of :data:`STEPS`)."""
+        self._load()
+        getattr(self, f"_{step}")()
+
+    def _light(self) -> None:
         from render.light.integrator import compile_light_kernels
 
-        compile_light_kernels(lights[0], ("openings", "direct"))
+        compile_light_kernels(self.lights[0], ("direct",))
 
-    def vision() -> None:
+    def _openings(self) -> None:
+        from render.light.integrator import compile_light_kernels
+
+        compile_light_kernels(self.lights[0], ("openings",))
+
+    def _vision(self) -> None:
         from render.output.images import write_png
 
-        rendered = [_synthetic_view(study, s, x) for s, x in zip(setups, lights)]
+        study = self.study
+        rendered = [_synthetic_view(study, s, x) for s, x in zip(self.setups, self.lights)]
         shared, adapted = study.display_both(rendered, study.observer)
         with tempfile.TemporaryDirectory(prefix="lampcast-warmup-") as tmp:
             write_png(Path(tmp) / "view.png", adapted[0].srgb8)
 
-    def calc() -> None:
+    def _calc(self) -> None:
         from render.light.integrator import compile_light_kernels
         from render.light.photometry import intensity_cd
 
-        compile_light_kernels(lights[0], ("pairs",))
-        if lights[0].photometries:
-            intensity_cd(lights[0].photometries[0], [0.0, 10.0], [0.0, 30.0])
+        lights = self.lights[0]
+        compile_light_kernels(lights, ("pairs",))
+        if lights.photometries:
+            intensity_cd(lights.photometries[0], [0.0, 10.0], [0.0, 30.0])
 
-    steps = [light, vision, calc]
-    for step in steps:
+
+def warm(scene_path: str | os.PathLike, board: str | os.PathLike | None = None) -> None:
+    """Compile (or load) the kernels a rendering command on ``scene_path`` needs after its
+    camera rays, step by step in the order of :data:`STEPS`: the light kernels
+    (:func:`render.light.integrator.compile_light_kernels`), colorimetry, the vision stage
+    and the image writer on a synthetic view of a few samples, then the calculation's
+    kernels. With ``board`` (the command's step folder), only the steps no process has taken
+    yet, each marked done when it ends. Each step stands alone: one that fails is left to the
+    command."""
+    steps = _Steps(scene_path)
+    folder = Path(board) if board is not None else None
+    for step in STEPS:
+        if folder is not None and not _claim(folder, step):
+            continue
         try:
-            step()
+            steps.run(step)
         except Exception:  # left to the command, which compiles what it needs anyway
             pass
+        if folder is not None:
+            _mark_done(folder, step)
 
 
 def _exit_with_parent() -> None:
@@ -254,8 +369,6 @@ def _exit_with_parent() -> None:
     parent = os.getppid()
 
     def watch() -> None:
-        import time
-
         while os.getppid() == parent:
             time.sleep(0.5)
         os._exit(0)
@@ -264,15 +377,15 @@ def _exit_with_parent() -> None:
 
 
 def main(argv: list[str] | None = None) -> int:
-    """``python -m render.warmup SCENE``: the helper process."""
+    """``python -m render.warmup SCENE [STEP_FOLDER]``: the helper process."""
     args = sys.argv[1:] if argv is None else argv
-    if len(args) != 1:
+    if len(args) not in (1, 2):
         return 2
     # Stopped by the command: leave through Python so that a cache file being written is
     # removed rather than left half-written.
     signal.signal(signal.SIGTERM, lambda *_: sys.exit(0))
     _exit_with_parent()
-    warm(args[0])
+    warm(*args)
     return 0
 
 

@@ -121,3 +121,42 @@ def test_close_stops_a_running_helper():
 def test_switch_values(monkeypatch, value):
     monkeypatch.setenv(warmup.ENV_SWITCH, value)
     assert warmup._switched_off()
+
+
+def test_steps_are_shared_front_and_back(monkeypatch, tmp_path):
+    """Each step is taken by one process only: the helper from the front of STEPS, the
+    waiting command from the back; a step another process took is skipped."""
+    ran: list[str] = []
+    monkeypatch.setattr(warmup._Steps, "run", lambda self, step: ran.append(step))
+    board = tmp_path / "steps"
+    board.mkdir()
+    w = warmup.Warmup(subprocess.Popen([sys.executable, "-c", "pass"]), str(demo_scene_path()), board)
+    assert w.assist() and ran == [warmup.STEPS[-1]] and w.done(warmup.STEPS[-1])
+    warmup.warm(demo_scene_path(), board)  # the helper's side: every step but the one taken
+    assert ran == [warmup.STEPS[-1], *warmup.STEPS[:-1]]
+    assert all(w.done(s) for s in warmup.STEPS)
+    assert not w.assist() and len(ran) == len(warmup.STEPS)  # none left
+    w.close()
+    assert not board.exists()
+
+
+def test_command_waits_for_the_helpers_light_kernel(monkeypatch, tmp_path):
+    """The command waits while the helper compiles the light kernel, however long (no fixed
+    cut-off that would make it compile the kernel a second time), compiling the other steps
+    meanwhile, and goes on as soon as the helper marks the light kernel done."""
+    board = tmp_path / "steps"
+    board.mkdir()
+    for step in warmup.STEPS:  # every step taken, as by a helper
+        warmup._claim(board, step)
+    # A helper that marks the light kernel done after a while.
+    marker = board / "light.done"
+    code = f"import time, pathlib; time.sleep(1.5); pathlib.Path({str(marker)!r}).touch(); time.sleep(60)"
+    w = warmup.Warmup(subprocess.Popen([sys.executable, "-c", code]), str(demo_scene_path()), board)
+    monkeypatch.setattr(warmup, "_running", [w])
+    monkeypatch.setattr(warmup, "_LIGHT_WAIT_S", 30.0)
+    t0 = time.monotonic()
+    warmup.wait_for_light_kernel()
+    waited = time.monotonic() - t0
+    assert marker.exists() and w.running() and 1.0 <= waited < 20.0
+    w.close()
+    assert not w.running()
