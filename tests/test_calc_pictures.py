@@ -22,7 +22,9 @@ from render.errors import InputError
 from render.output.calc_pictures import (
     CALC_PICTURES,
     DPI,
+    UPWARD_PICTURE,
     WIDTH_IN,
+    calc_picture_alt_texts,
     class_limits,
     lux_levels,
     write_calc_pictures,
@@ -160,7 +162,7 @@ def pictures(minimal, tmp_path_factory):
 
 def test_pictures_are_written_as_pngs_of_the_expected_width(pictures):
     _, _, first, _ = pictures
-    assert [p.name for p in first] == list(CALC_PICTURES)
+    assert [p.name for p in first] == [*CALC_PICTURES, UPWARD_PICTURE]
     for p in first:
         width, height = _png_size(p.read_bytes())
         assert width == round(WIDTH_IN * DPI), p.name  # every picture has the report's width
@@ -180,6 +182,22 @@ def test_pictures_carry_what_they_show(pictures):
     text = Image.open(first[0]).text
     assert text["lampcast.mode"] == "calculation isolux plan"
     assert text["lampcast.scene"] == "minimal_street.toml" and text["lampcast.setups"] == "the scene as given; dim"
+
+
+def test_upward_map_picture_says_what_it_holds(pictures):
+    # One panel per setup on one scale; reflected light only, said in the metadata and alt text
+    # (common practice, no source).
+    from PIL import Image
+
+    report, _, first, _ = pictures
+    text = Image.open(first[-1]).text
+    assert text["lampcast.mode"] == "calculation upward exitance map"
+    assert "Reflected light only" in text["lampcast.light"] and "direct upward flux" in text["lampcast.light"]
+    alts = calc_picture_alt_texts(report)
+    assert len(alts) == len(first) and "lumens per square metre" in alts[-1]
+    # Without the map (a calculation record from elsewhere) the picture is not drawn.
+    bare = replace(report, setups=tuple(replace(s, upward_map=None) for s in report.setups))
+    assert len(calc_picture_alt_texts(bare)) == len(CALC_PICTURES)
 
 
 def test_missing_plan_is_an_error(pictures, tmp_path):

@@ -20,7 +20,16 @@ with one panel per setup so the setups compare at a glance:
   dashed line, its value in the panel's title (criteria compared in mesopic photometry are
   left out: their bars are photopic).
 
-The pictures are direct light; when the calculation also took interreflected light
+* ``upward-exitance.png`` (when the calculation has the upward exitance map,
+  :class:`render.calc.sky.UpwardExitanceMap`) -- the **light the street sends up**, seen from
+  above: the upward exitance through the measuring plane over the scene in lm/m², one cell
+  per map cell, x and y in metres at equal scale, one colour scale (0 to the largest cell of
+  any setup) and one colour bar for all setups, each panel titled with its total reflected
+  upward flux; the scene's outline (the bounds the plane covers before its margin) dashed.
+  Direct light of luminous openings is not in it; with ``--bounces N`` it includes the
+  interreflected light, and its title and metadata say so.
+
+The other pictures are direct light; when the calculation also took interreflected light
 (``lampcast calc --bounces N``) each says so in its title and metadata
 (:func:`interreflection_note`).
 
@@ -55,6 +64,7 @@ if TYPE_CHECKING:
 
 __all__ = [
     "CALC_PICTURES",
+    "UPWARD_PICTURE",
     "CLASS_LIMIT_FIGURES",
     "bar_chart",
     "calc_picture_alt_texts",
@@ -64,11 +74,15 @@ __all__ = [
     "isolux_plan",
     "lux_levels",
     "setup_label",
+    "upward_exitance_map",
     "write_calc_pictures",
 ]
 
-#: The files :func:`write_calc_pictures` writes, in order.
+#: The files :func:`write_calc_pictures` writes, in order (and :data:`UPWARD_PICTURE` last when
+#: the calculation has the upward exitance map).
 CALC_PICTURES = ("isolux.png", "grid-illuminance.png", "figures.png")
+#: The upward exitance map's picture.
+UPWARD_PICTURE = "upward-exitance.png"
 
 #: Headline figure key a class criterion limits, per criterion key (the M series' U0 is the
 #: road luminance's, the others' the carriageway illuminance's); criteria not listed get no line.
@@ -442,16 +456,95 @@ def bar_chart(
     return _write(fig, path, report, "headline figures", text)
 
 
+def _has_upward_maps(report: CalculationReport) -> bool:
+    return bool(report.setups) and all(s.upward_map is not None for s in report.setups)
+
+
+def upward_light_note(report: CalculationReport) -> str:
+    """What the upward exitance map holds: reflected light only, and which reflections."""
+    first = report.setups[0].upward_map
+    bounces = first.bounces if first is not None else 0
+    which = (
+        f"direct light reflected once and interreflected light up to {bounces} bounces"
+        if bounces
+        else "direct light reflected once (no interreflection)"
+    )
+    return f"Reflected light only: {which}; the luminaires' own upward light is the direct upward flux, not in the map."
+
+
+def upward_exitance_map(
+    report: CalculationReport,
+    path: str | os.PathLike,
+    *,
+    labels: Mapping[str | None, str] | None = None,
+    text: Mapping[str, str] | None = None,
+) -> Path:
+    """The upward exitance map of every setup of ``report`` (module text) to ``path``."""
+    from matplotlib.colors import Normalize
+    from matplotlib.patches import Rectangle
+
+    maps = [s.upward_map for s in report.setups]
+    if any(m is None for m in maps):
+        raise ValueError("the calculation has no upward exitance map")
+    vmax = max(float(m.exitance_lm_m2.max()) for m in maps)
+    norm = Normalize(0.0, vmax if vmax > 0 else 1.0)
+    first = maps[0]
+    x0, x1, y0, y1 = first.extent_m
+    axes_w = WIDTH_IN - 1.6
+    panel_h = min(4.5, max(1.0, axes_w * (y1 - y0) / (x1 - x0)))
+    fig = _figure(WIDTH_IN, len(maps) * (panel_h + 0.45) + 0.8)
+    axes = fig.subplots(len(maps), 1, squeeze=False)[:, 0]
+    image = None
+    for ax, s, m in zip(axes, report.setups, maps):
+        image = ax.imshow(
+            m.exitance_lm_m2, cmap=_cmap(), norm=norm, extent=m.extent_m, origin="upper", interpolation="nearest"
+        )
+        bx0, bx1, by0, by1 = m.bounds_m
+        ax.add_patch(
+            Rectangle((bx0, by0), bx1 - bx0, by1 - by0, fill=False, edgecolor="white", linewidth=0.7, linestyle="--")
+        )
+        ax.set_aspect("equal", adjustable="box")
+        ax.set_title(
+            f"{setup_label(s.setup, labels)} — reflected upward {format_value(m.reflected_upward_lm, 'sig3')} lm "
+            f"(largest {format_value(float(m.exitance_lm_m2.max()), 'sig3')} lm/m²)",
+            fontsize=9,
+            loc="left",
+        )
+        ax.set_ylabel("y (m)", fontsize=8)
+        ax.tick_params(labelsize=7)
+    axes[-1].set_xlabel(
+        f"x (m); a plane {format_value(first.plane_z_m, 'sig3')} m up, cells of {format_value(first.cell_m, 'sig3')} m, "
+        f"{first.rays_per_cell} rays each; dashed: the scene's bounds",
+        fontsize=8,
+    )
+    if image is not None:
+        bar = fig.colorbar(image, ax=list(axes), shrink=0.9, pad=0.01)
+        bar.set_label("upward exitance (lm/m²)", fontsize=8)
+        bar.ax.tick_params(labelsize=7)
+    note = upward_light_note(report)
+    fig.suptitle(note, fontsize=7, wrap=True)
+    return write_figure_png(
+        fig, path, _png_text(report, "upward exitance map", {"lampcast.light": note, **(text or {})})
+    )
+
+
 def calc_picture_alt_texts(report: CalculationReport, labels: Mapping[str | None, str] | None = None) -> list[str]:
-    """What each picture of :data:`CALC_PICTURES` shows, in words (the report's alt texts)."""
+    """What each picture of :data:`CALC_PICTURES` (and :data:`UPWARD_PICTURE` when the
+    calculation has the map) shows, in words (the report's alt texts)."""
     names = ", ".join(setup_label(s.setup, labels) for s in report.setups)
-    return [
+    out = [
         f"Isolux plan of the street, one panel per lighting ({names}): lines of equal horizontal illuminance "
         "in lux, luminaire positions and the calculation fields outlined",
         f"Heat map of the calculation grids' horizontal illuminance in lux, one panel per lighting ({names}), "
         "on one colour scale",
         f"Bar charts of the headline figures, one bar per lighting ({names}), with their units",
     ]
+    if _has_upward_maps(report):
+        out.append(
+            f"Map of the light the street reflects upward, seen from above, one panel per lighting ({names}): "
+            "upward exitance in lumens per square metre on one colour scale, with each lighting's total"
+        )
+    return out
 
 
 def write_calc_pictures(
@@ -463,7 +556,8 @@ def write_calc_pictures(
     text: Mapping[str, str] | None = None,
 ) -> list[Path]:
     """Write the isolux plan, the grid heat map and the headline bar chart of ``report``
-    (:data:`CALC_PICTURES`) into ``out_dir``; ``plans`` maps each setup of the report (its
+    (:data:`CALC_PICTURES`), and the upward exitance map (:data:`UPWARD_PICTURE`) when the
+    report has it, into ``out_dir``; ``plans`` maps each setup of the report (its
     :attr:`~render.calc.run.SetupCalculation.setup`) to its plan
     (:func:`render.calc.plan.compute_plan`). ``labels`` names the setups in the pictures
     (default: their names); ``text`` is added to each PNG's metadata. Returns the paths."""
@@ -473,8 +567,11 @@ def write_calc_pictures(
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
     isolux, grid, bars = (out / name for name in CALC_PICTURES)
-    return [
+    paths = [
         isolux_plan(report, plans, isolux, labels=labels, text=text),
         grid_heatmap(report, plans, grid, labels=labels, text=text),
         bar_chart(report, bars, labels=labels, text=text),
     ]
+    if _has_upward_maps(report):
+        paths.append(upward_exitance_map(report, out / UPWARD_PICTURE, labels=labels, text=text))
+    return paths
