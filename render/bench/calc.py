@@ -10,6 +10,11 @@ benchmark times both on the same scene (by default the bundled demo) and prints 
   ratio), road luminance and TI for every lane and direction, obtrusive light, sky and energy.
   Each call does what ``lampcast calc`` does after loading the scene, including building the
   geometry the calculation sees when it leaves the scene's objects out;
+* **upward map** -- the part of the calc that is the upward exitance map
+  (:class:`render.calc.sky.UpwardLight` cast on the calculation's scene and relit for every
+  setup, as :func:`~render.calc.run.run_calculation` does), timed on its own on the
+  calculation's scene built beforehand (its geometry and BVH every calc builds anyway); its
+  share of the calc is printed;
 * **render** -- :meth:`render.study.Study.render_view` of the scene's first view (or ``--view``)
   under the before setup, at the view's configured size and samples per pixel (camera rays,
   direct light with shadows, colorimetry; the BVH is built once beforehand).
@@ -57,6 +62,12 @@ class CalcBench:
     samples_per_pixel: int
     calc_s: Spread
     render_s: Spread
+    upward_s: Spread | None = None
+
+    @property
+    def upward_share(self) -> Spread | None:
+        """upward map / calc, round by round."""
+        return ratios(self.upward_s, self.calc_s) if self.upward_s is not None else None
 
     @property
     def ratio(self) -> Spread:
@@ -73,7 +84,8 @@ def run_bench(
     quick: bool = False,
 ) -> CalcBench:
     """Time the full calculation and the render of one view (see the module text)."""
-    from render.calc.run import calc_options, run_calculation
+    from render.calc.run import calc_options, calc_study, run_calculation
+    from render.calc.sky import UpwardLight
     from render.study import Study
 
     study = Study(scene)
@@ -92,9 +104,18 @@ def run_bench(
     study.render_view(v.name, setups[0], samples_per_pixel=1, width_px=32)
     run_calculation(study, setups[:1], options)
 
+    used = calc_study(study, options.include_objects)
+    _ = used.bvh, used.reflectances  # built by every calc anyway: not the map's cost
+
+    def upward() -> None:
+        light = UpwardLight(used, setups[0], bounces=options.bounces)
+        for s in setups:
+            light.exitance(s)
+
     times, _ = interleaved(
         {
             "calc": lambda: run_calculation(study, setups, options),
+            "upward map": upward,
             "render": lambda: study.render_view(v.name, setups[0], samples_per_pixel=spp, width_px=width),
         },
         1 if quick else rounds,
@@ -109,6 +130,7 @@ def run_bench(
         samples_per_pixel=spp,
         calc_s=times["calc"],
         render_s=times["render"],
+        upward_s=times["upward map"],
     )
 
 
@@ -131,6 +153,9 @@ def cmd_calc(args: argparse.Namespace) -> int:
         ("render", bench.render_s.text(1, ".3f") + " s"),
         ("calc/render", bench.ratio.text(1, ".3f")),
     ]
+    share = bench.upward_share
+    if bench.upward_s is not None and share is not None:
+        rows += [("upward map", bench.upward_s.text(1, ".3f") + " s"), ("upward map/calc", share.text(1, ".3f"))]
     width = max(len(r[0]) for r in rows)
     for label, text in rows:
         print(f"{label:<{width}}  {text}")
