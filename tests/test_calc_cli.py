@@ -134,12 +134,12 @@ def test_r_table_is_labelled_and_q0_scales_luminance(tmp_path, capsys):
     assert "--q0" in capsys.readouterr().err
 
 
-def test_pictures_option_writes_the_three_pngs(tmp_path, capsys):
-    # PNG signature (ISO/IEC 15948): the three calculation pictures are written and listed.
+def test_pictures_option_writes_the_four_pngs(tmp_path, capsys):
+    # PNG signature (ISO/IEC 15948): the four calculation pictures are written and listed.
     out = tmp_path / "pictures"
     data = _run_json(capsys, ["calc", str(MINIMAL), "--pictures", str(out), "--json", "-q"])
     files = sorted(Path(p).name for p in data["pictures"])
-    assert files == ["figures.png", "grid-illuminance.png", "isolux.png"]
+    assert files == ["figures.png", "grid-illuminance.png", "isolux.png", "upward-exitance.png"]
     for name in files:
         assert (out / name).read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
 

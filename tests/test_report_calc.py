@@ -78,9 +78,18 @@ def test_report_section_shows_the_metrics(compared):
     words = section.text()
     assert "Headline figures per lighting" in words and "Class P3 check" in words
     assert CAUTION[:1].upper() + CAUTION[1:] in words  # the standing caution, as a sentence
-    # The three pictures, each embedded with its alt text, and in the contents.
+    # The four pictures, each embedded with its alt text, and in the contents; the upward
+    # exitance map in the "Light to the sky" part with that part's table of every setup.
     images = [n for n in section.iter() if n.tag == "img"]
-    assert len(images) == len(calc["pictures"]) == 3
+    assert len(images) == len(calc["pictures"]) == 4
+    (sky,) = [n for n in section.iter() if n.tag == "section" and n.attrs.get("id") == "calculation-sky"]
+    assert (
+        "Light to the sky" in sky.text()
+        and "lumens per square metre" in [n.attrs["alt"] for n in sky.iter() if n.tag == "img"][0]
+    )
+    for i, _ in enumerate(calc["setups"]):
+        for figure in ("sky.reflected_upward_map_lm", "sky.reflected_upward_lm", "sky.direct_upward_lm"):
+            assert f"calculation.setups.{i}.{figure}" in paths
     for img in images:
         assert img.attrs["src"].startswith("data:image/png;base64,") and img.attrs["alt"].strip()
     for rel in calc["pictures"]:

@@ -120,6 +120,8 @@ _FIXED_ANCHORS = frozenset(
         "luminance-scale-title",
         "calculation",
         "calculation-title",
+        "calculation-sky",
+        "calculation-sky-title",
     }
 )
 
@@ -283,10 +285,23 @@ class ExtraPart:
 
 
 @dataclass(frozen=True)
+class SkyPart:
+    """The "Light to the sky" part of the calculations: what it shows (``paragraphs``), the
+    table of upward light per setup, and the upward exitance map's picture (None when the
+    calculation has no map) with its alt text."""
+
+    paragraphs: tuple[str, ...]
+    table: Table
+    figure: EmbeddedImage | None
+    alt: str
+
+
+@dataclass(frozen=True)
 class CalculationPart:
     """The "Calculations" section: what was calculated (``paragraphs``), the standing caution,
     the tables (headline figures per setup, class checks) and pictures with their alt texts;
-    ``absent`` says why there is no calculation (then nothing else is shown)."""
+    ``absent`` says why there is no calculation (then nothing else is shown); ``sky`` the
+    light to the sky (:class:`SkyPart`)."""
 
     paragraphs: tuple[str, ...]
     caution: str
@@ -294,6 +309,7 @@ class CalculationPart:
     figures: tuple[EmbeddedImage, ...]
     alts: tuple[str, ...]
     absent: str | None = None
+    sky: SkyPart | None = None
 
 
 @dataclass(frozen=True)
@@ -620,6 +636,77 @@ CALCULATION_TEXT = (
 )
 
 
+#: What the "Light to the sky" part says before its table.
+SKY_TEXT = (
+    "Light that leaves the street upward, where sky glow begins. The luminaires' direct upward flux is what "
+    "their distributions send above the horizontal. The light the street reflects upward is measured on a "
+    "horizontal plane just above the scene's highest surface, reaching beyond the scene by the plane's height: "
+    "rays go down from every cell of the plane, and the light they find gives the upward exitance through it "
+    "(lm/m\u00b2), which the map shows and whose sum is the reflected upward flux: ground, facades, roofs and the "
+    "calculation's objects included, the luminaires' own light not. Beside it, the ground's reflected light "
+    "counted as if all of it went up (the figure the upward totals and the weighted figures use): in a street "
+    "between houses some of it meets the facades instead, so it can be the larger of the two.",
+    "The weighted figures are indicators relative to the first lighting, not a sky-glow model: Rayleigh "
+    "weighting (scattering by air goes as the inverse fourth power of the wavelength) and the scotopic weighting "
+    "of a dark-adapted eye.",
+)
+
+#: The rows of the sky table: (label, unit, path under a setup's JSON, display rule).
+SKY_ROWS: tuple[tuple[str, str, str, str], ...] = (
+    ("direct upward flux", "lm", "sky.direct_upward_lm", "sig3"),
+    (
+        "reflected upward through the plane (ground, facades, roofs, objects)",
+        "lm",
+        "sky.reflected_upward_map_lm",
+        "sig3",
+    ),
+    ("reflected by the ground, counted whole", "lm", "sky.reflected_upward_lm", "sig3"),
+    ("largest upward exitance on the map", "lm/m\u00b2", "upward_map.max_exitance_lm_m2", "sig3"),
+    ("upward flux per metre of street (direct + ground)", "lm/m", "sky.upward_lm_per_m", "sig3"),
+    ("Rayleigh-weighted upward, relative", "", "sky_relative_to_before.rayleigh_weighted", "sig3"),
+    ("scotopic-weighted upward, relative", "", "sky_relative_to_before.scotopic_weighted", "sig3"),
+)
+
+
+def _json_at(record: Any, path: str) -> Any:
+    for key in path.split("."):
+        if not isinstance(record, dict):
+            return None
+        record = record.get(key)
+    return record
+
+
+def _sky_part(
+    setups: Sequence[dict[str, Any]], names: Sequence[str], figure: EmbeddedImage | None, alt: str
+) -> SkyPart | None:
+    """The "Light to the sky" part from the setups' JSON (None when they have no sky figures)."""
+    if not setups or not all(isinstance(s.get("sky"), dict) for s in setups):
+        return None
+    first_map = setups[0].get("upward_map") or {}
+    bounces = int(first_map.get("bounces") or 0)
+    note = (
+        f" The map includes interreflected light (up to {bounces} bounces)."
+        if bounces
+        else " The map holds light reflected once (no interreflections)."
+    )
+    rows = tuple(
+        Row(
+            RowHead(label),
+            (
+                TextCell(unit),
+                *(
+                    NumberCell(f"calculation.setups.{i}.{path}", _json_at(s, path), rule, reason="not computed")
+                    for i, s in enumerate(setups)
+                ),
+            ),
+        )
+        for label, unit, path, rule in SKY_ROWS
+    )
+    head = (Heading("figure"), Heading("unit"), *(Heading(n, numeric=True) for n in names))
+    table = Table("calculation-sky-table", "Light to the sky per lighting", rows, head, scrolls=True)
+    return SkyPart((SKY_TEXT[0] + note, *SKY_TEXT[1:]), table, figure, alt)
+
+
 def _calculation_part(metrics: ComparisonMetrics, images: ImageFolder) -> CalculationPart | None:
     """The "Calculations" section from ``metrics.calculation`` (``None`` when not run)."""
     calc = metrics.calculation
@@ -699,12 +786,24 @@ def _calculation_part(metrics: ComparisonMetrics, images: ImageFolder) -> Calcul
     )
     caution = str(calc.get("caution") or "").strip()
     caution = caution[:1].upper() + caution[1:] + ("" if caution.endswith(".") else ".")
+    # The upward exitance map's picture goes to the sky part, the others stay together.
+    from render.output.calc_pictures import UPWARD_PICTURE  # here: that module imports this package
+
+    upward = [k for k, p in enumerate(pictures) if p.rsplit("/", 1)[-1] == UPWARD_PICTURE]
+    sky = _sky_part(
+        setups,
+        names,
+        images.get(pictures[upward[0]]) if upward else None,
+        alts[upward[0]] if upward else "",
+    )
+    kept = [k for k in range(len(pictures)) if k not in upward]
     return CalculationPart(
         paragraphs=CALCULATION_TEXT,
         caution=caution,
         tables=tuple(tables),
-        figures=tuple(images.get(p) for p in pictures),
-        alts=alts,
+        figures=tuple(images.get(pictures[k]) for k in kept),
+        alts=tuple(alts[k] for k in kept),
+        sky=sky,
     )
 
 
