@@ -2,6 +2,7 @@
 
 * ``rays`` -- BVH build time and ray throughput, with an Embree comparison (:mod:`render.bench.rays`).
 * ``light`` -- full render vs relight, luminaire-count scaling, 1 nm vs 5 nm (:mod:`render.bench.light`).
+* ``denoise`` -- the interreflection denoise: its error against a reference, its cost per pixel (:mod:`render.bench.denoise`).
 * ``indirect`` -- interreflection: time per path per pixel, 10 vs 100 luminaires, stored-transport errors (:mod:`render.bench.indirect`).
 * ``calc`` -- a full calculation of a scene vs one view's render (:mod:`render.bench.calc`).
 * ``report`` -- report.html's size, bytes per embedded image kind, figure drawing time (:mod:`render.bench.report`).
@@ -18,7 +19,7 @@ from __future__ import annotations
 import argparse
 import sys
 
-from render.bench import calc, demo, indirect, light, peer, peer_indirect, rays, report, startup
+from render.bench import calc, demo, denoise, indirect, light, peer, peer_indirect, rays, report, startup
 from render.bench import study as study_bench
 from render.bench import vision as vision_bench
 
@@ -29,6 +30,7 @@ def build_parser() -> argparse.ArgumentParser:
     rays.add_parser(sub)
     light.add_parser(sub)
     indirect.add_parser(sub)
+    denoise.add_parser(sub)
     calc.add_parser(sub)
     report.add_parser(sub)
     peer.add_parser(sub)
