@@ -9,7 +9,7 @@ spheres on a ground plane, :func:`render.bench.scenes.stress_scene`); then it ca
 rays from a camera (pixels in 4 x 4 blocks, as :mod:`render.rays.aov` casts them), shadow rays
 from the primary hits to a point light, incoherent diffuse-bounce rays from the primary
 hits and incoherent shadow rays from the bounce rays' hits to the light (the rays of a path
-tracer), and prints rays per second after JIT warm-up (medians of ``--repeat`` rounds, the
+tracer, traced one by one as the path tracer casts them), and prints rays per second after JIT warm-up (medians of ``--repeat`` rounds, the
 contenders alternating; ratios as min / median / max over rounds). When the optional
 ``embreex`` package is importable, the same triangles and rays go through Embree too and the
 throughput ratios (ours on numba's threads / Embree, and ours on one thread / Embree, Embree
@@ -157,20 +157,22 @@ def _run_case(case: _Case, args) -> None:
         scene.run(np.zeros((1, 3), np.float32), np.ones((1, 3), np.float32), output=1)  # commit = build
         print(f"Embree scene build {time.perf_counter() - t0:.3f} s")
 
+    # The incoherent rays go one by one through the 8-wide tree (packets=False), as the path
+    # tracer casts them (render.light.indirect.paths calls closest_one / any_one per ray).
     sets = [
-        ("primary (closest hit)", o, d, None),
-        ("shadow to light (occlusion)", so, sd, t_max),
-        ("diffuse bounce, incoherent (closest hit)", bo, bd, None),
-        ("bounce hits to light, incoherent (occlusion)", bso, bsd, bs_t_max),
+        ("primary (closest hit)", o, d, None, True),
+        ("shadow to light (occlusion)", so, sd, t_max, True),
+        ("diffuse bounce, incoherent (closest hit)", bo, bd, None, False),
+        ("bounce hits to light, incoherent (occlusion)", bso, bsd, bs_t_max, False),
     ]
     print(
         f"{'rays':44s} {'count':>8s} {'ours Mrays/s':>13s} {'1 thread':>9s} {'Embree':>8s} {'ours/Embree min/med/max':>24s} {'1 thread/Embree min/med/max':>28s}  agreement"
     )
-    for name, ro, rd, tm in sets:
+    for name, ro, rd, tm, pk in sets:
         if tm is None:
-            fns = {"ours": lambda ro=ro, rd=rd: intersect_closest(bvh, ro, rd)}
+            fns = {"ours": lambda ro=ro, rd=rd, pk=pk: intersect_closest(bvh, ro, rd, packets=pk)}
         else:
-            fns = {"ours": lambda ro=ro, rd=rd, tm=tm: intersect_any(bvh, ro, rd, tm)}
+            fns = {"ours": lambda ro=ro, rd=rd, tm=tm, pk=pk: intersect_any(bvh, ro, rd, tm, packets=pk)}
         if threads > 1 and not args.no_single:
             fns["one"] = _single_thread(fns["ours"])
         if scene is not None:

@@ -31,6 +31,7 @@ __all__ = [
     "PACKET_COS",
     "PACKET_COS_ANY",
     "lane_result",
+    "packet_coherent",
     "packet_load",
     "packet_trace",
 ]
@@ -54,6 +55,30 @@ LANE_FIELDS = 16
 _OX, _OY, _OZ, _IX, _IY, _IZ, _PX, _PY, _PZ, _SX, _SY, _SZ, _TB, _BJ, _BU, _BV = (
     f * PACKET for f in range(LANE_FIELDS)
 )
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def packet_coherent(origins: np.ndarray, directions: np.ndarray, start: int, n: int, cos_max: float) -> bool:
+    """Whether rays ``start .. start + n - 1`` pass :func:`packet_load`'s test (all valid,
+    within ``cos_max`` of the first ray's direction and with its axes), by the same arithmetic,
+    stopping at the first ray that fails: incoherent rays (bounces) then cost a ray or two of
+    this test before going one by one, instead of filling a packet's lanes first."""
+    d0x = directions[start, 0]
+    d0y = directions[start, 1]
+    d0z = directions[start, 2]
+    n0 = np.sqrt(d0x * d0x + d0y * d0y + d0z * d0z)
+    kx0, ky0, _, _, _, _ = ray_shear(d0x, d0y, d0z)
+    for r in range(n):
+        i = start + r
+        dx = directions[i, 0]
+        dy = directions[i, 1]
+        dz = directions[i, 2]
+        kx, ky, _, _, _, _ = ray_shear(dx, dy, dz)
+        if kx != kx0 or ky != ky0 or not valid_ray(origins, directions, i):
+            return False
+        if dx * d0x + dy * d0y + dz * d0z < cos_max * n0 * np.sqrt(dx * dx + dy * dy + dz * dz):
+            return False
+    return True
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")

@@ -31,6 +31,7 @@ from render.rays.bvh.packet import (
     PACKET_COS,
     PACKET_COS_ANY,
     lane_result,
+    packet_coherent,
     packet_load,
     packet_trace,
 )
@@ -101,7 +102,7 @@ def _trace_batch(
             n = min(PACKET, stop - start)
             coherent = False
             k = (0, 0, 0)
-            if use_packets and n > 1:
+            if use_packets and n > 1 and packet_coherent(origins, directions, start, n, packet_cos):
                 coherent, k = packet_load(lane, origins, directions, t_max, start, n, packet_cos)
             if coherent:
                 packet_trace(nb, ni, tv, ti, lane, n_lanes, t_min, k, st_node, occlusion)

@@ -107,27 +107,56 @@ def closest_one(
         if entry >= 0:
             node = np.uint64(entry)
             mask = node_entry_mask(wb, node, cols, origin, inverse, t_min, best_t, work)
-            if mask != 0 and mask & (mask - 1) == 0:
-                c = np.uint64(lowest_bit(mask))
-                ch = np.int64(wi[node, _REF + c])
-                entry = ch if ch >= 0 else ch - (np.int64(wi[node, _COUNT + c]) << 32)
-                continue
-            base = sp
-            while mask != 0:
+            if mask != 0:
                 c = np.uint64(lowest_bit(mask))
                 mask &= mask - 1
                 ch = np.int64(wi[node, _REF + c])
-                e = ch if ch >= 0 else ch - (np.int64(wi[node, _COUNT + c]) << 32)
-                near = work[c]
-                # Keep this node's entries sorted, the nearest on top.
-                j = sp
-                while j > base and st_t[j - 1] < near:
-                    st_t[j] = st_t[j - 1]
-                    st_node[j] = st_node[j - 1]
-                    j -= 1
-                st_t[j] = near
-                st_node[j] = e
+                e0 = ch if ch >= 0 else ch - (np.int64(wi[node, _COUNT + c]) << 32)
+                if mask == 0:
+                    entry = e0
+                    continue
+                near0 = work[c]
+                c = np.uint64(lowest_bit(mask))
+                mask &= mask - 1
+                ch = np.int64(wi[node, _REF + c])
+                e1 = ch if ch >= 0 else ch - (np.int64(wi[node, _COUNT + c]) << 32)
+                near1 = work[c]
+                # Two children entered (the common case): the farther is pushed, the nearer
+                # taken next. More: all are kept sorted on the stack and the top is taken.
+                base = sp
+                if near1 < near0:
+                    st_node[sp] = e0
+                    st_t[sp] = near0
+                    entry = e1
+                    near_first = near1
+                else:
+                    st_node[sp] = e1
+                    st_t[sp] = near1
+                    entry = e0
+                    near_first = near0
                 sp += 1
+                if mask == 0:
+                    continue
+                st_node[sp] = entry
+                st_t[sp] = near_first
+                sp += 1
+                while mask != 0:
+                    c = np.uint64(lowest_bit(mask))
+                    mask &= mask - 1
+                    ch = np.int64(wi[node, _REF + c])
+                    e = ch if ch >= 0 else ch - (np.int64(wi[node, _COUNT + c]) << 32)
+                    near = work[c]
+                    j = sp
+                    while j > base and st_t[j - 1] < near:
+                        st_t[j] = st_t[j - 1]
+                        st_node[j] = st_node[j - 1]
+                        j -= 1
+                    st_t[j] = near
+                    st_node[j] = e
+                    sp += 1
+                sp -= 1
+                entry = st_node[sp]
+                continue
         else:
             packed = -entry
             first = (packed & 0xFFFFFFFF) - 1
