@@ -132,6 +132,16 @@ _CHUNK_BLOCKS = 4
 _ITEM = 256
 # Margin around the scene's bounds for its culling grid, m.
 _GRID_MARGIN_M = 0.01
+# Relative margin of the light kernel's intensity bound: a bilinear interpolation of values up
+# to M, rounded, exceeds M by a few units in the last place at most (2**-53 each).
+_BOUND_MARGIN = 1e-9
+# Bins of the cosine from the nadir over which the light kernel bounds a table's intensity.
+_COS_BINS = 256
+# How far each bin's range is widened, in cosine and in γ (degrees), before its bound is taken:
+# far above the rounding of the kernel's cosine and of the lookup's γ (and its 1e-9°
+# tolerance), so that no direction is given a bound below its intensity.
+_COS_MARGIN = 1e-9
+_GAMMA_MARGIN_DEG = 1e-6
 
 
 # ------------------------------------------------------------------------------------------
@@ -360,6 +370,7 @@ def _direct_light(
     obj,
     active,
     lum,
+    bounds,
     grid,
     tree,
     wide_stack,
@@ -394,6 +405,8 @@ def _direct_light(
     marked as not aliasing each other), and its longer compilation falls in the helper
     process of a first run (:mod:`render.warmup`)."""
     rot, pos, scale, table, c_grid, g_grid, n_c, n_g, inv_c, inv_g, cd, channel, clearance = lum
+    i_bound, bins_per_cos = bounds
+    last_bin = i_bound.shape[1] - 1
     box, cell, nx, ny, cell_start, cell_items = grid
     n = points.shape[0]
     n_ch = out_value.shape[1]
@@ -410,7 +423,6 @@ def _direct_light(
                 cap += cell_start[ci + 1] - cell_start[ci] if ci >= 0 else pos.shape[0]
         count = np.zeros(i1 - i0, np.int64)
         lum_of = np.empty(cap, np.int64)
-        e_of = np.empty(cap)
         origin = np.empty((cap, 3))
         direction = np.empty((cap, 3))
         t_max = np.empty(cap)
@@ -427,8 +439,10 @@ def _direct_light(
         )
         acc = np.zeros(n_ch)
         acc_s = np.zeros(n_ch)
-        # Candidates: unshadowed contributions that reach eps (w an int64 from the start:
-        # with the literal 0, type inference would also compile _shadow_block for 0 pairs).
+        # Candidates: pairs whose unshadowed contribution may reach eps, by a bound that never
+        # underestimates it (w an int64 from the start: with the literal 0, type inference would
+        # also compile _shadow_block for 0 pairs). The intensity itself is looked up after the
+        # shadow rays, for the pairs that are not shadowed only.
         w = np.int64(0)
         for i in range(i0, i1):
             px = points[i, 0]
@@ -442,9 +456,23 @@ def _direct_light(
             start = w
             for q in range(q0, q1):
                 k = cell_items[q] if ci >= 0 else q
-                e, d = _unshadowed(px, py, pz, normals[i, 0], normals[i, 1], normals[i, 2], k, lum)
-                if e < eps or d == 0.0:
+                # As _unshadowed, up to the intensity: behind the surface or at the point, none.
+                dx = px - pos[k, 0]
+                dy = py - pos[k, 1]
+                dz = pz - pos[k, 2]
+                d2 = dx * dx + dy * dy + dz * dz
+                if d2 <= 1e-12:
                     continue
+                d = math.sqrt(d2)
+                cos_s = -(normals[i, 0] * dx + normals[i, 1] * dy + normals[i, 2] * dz) / d
+                if cos_s <= 0.0:
+                    continue
+                if eps > 0.0:
+                    # Surely below eps (or outside the table's γ range: a bound of 0).
+                    down = -(rot[k, 0, 2] * dx + rot[k, 1, 2] * dy + rot[k, 2, 2] * dz) / d
+                    b = min(max(int((down + 1.0) * bins_per_cos), 0), last_bin)
+                    if scale[k] * i_bound[table[k], b] * cos_s / d2 < eps:
+                        continue
                 lx = -(px - pos[k, 0]) / d
                 ly = -(py - pos[k, 1]) / d
                 lz = -(pz - pos[k, 2]) / d
@@ -461,7 +489,6 @@ def _direct_light(
                 direction[w, 2] = lz
                 t_max[w] = max(d - clearance[k], 0.0)
                 lum_of[w] = k
-                e_of[w] = e
                 w += 1
             count[i - i0] = w - start
         if shadows:
@@ -480,7 +507,12 @@ def _direct_light(
                     w += 1
                     continue
                 k = lum_of[w]
-                e = e_of[w]
+                e, d = _unshadowed(
+                    points[i, 0], points[i, 1], points[i, 2], normals[i, 0], normals[i, 1], normals[i, 2], k, lum
+                )
+                if e < eps or d == 0.0:
+                    w += 1
+                    continue
                 lx = direction[w, 0]
                 ly = direction[w, 1]
                 lz = direction[w, 2]
@@ -677,6 +709,34 @@ def _luminaire_args(lights: LuminaireSet) -> tuple:
     )
 
 
+def _luminaire_bounds(lights: LuminaireSet) -> tuple[np.ndarray, float]:
+    """What lets :func:`_direct_light` pass over a (point, luminaire) pair before looking its
+    intensity up: per table, a bound on the intensity toward directions whose cosine from the
+    nadir falls in each of :data:`_COS_BINS` equal bins over [-1, 1] (0 where the bin lies
+    outside the measured γ range), and the bins per unit of cosine. Each bin's γ range is
+    widened by :data:`_COS_MARGIN` in cosine and :data:`_GAMMA_MARGIN_DEG` in angle (more than
+    the rounding of the kernel's cosine and of the lookup's γ, and its 1e-9° tolerance), and its
+    bound is the largest table value of every γ row an interpolation there can use, a little
+    more (:data:`_BOUND_MARGIN`): so it is never below the intensity looked up."""
+    n_tables = lights.cd_table.shape[0]
+    bound = np.zeros((n_tables, _COS_BINS))
+    edges = np.linspace(-1.0, 1.0, _COS_BINS + 1)
+    for t in range(n_tables):
+        nc, ng = int(lights.n_c[t]), int(lights.n_g[t])
+        g = lights.g_grid[t, :ng]
+        row_max = lights.cd_table[t, :nc, :ng].max(axis=0)
+        for b in range(_COS_BINS):
+            # γ from the bin's upper cosine (nearest the nadir) to its lower one.
+            g_lo = math.degrees(math.acos(min(1.0, edges[b + 1] + _COS_MARGIN))) - _GAMMA_MARGIN_DEG
+            g_hi = math.degrees(math.acos(max(-1.0, edges[b] - _COS_MARGIN))) + _GAMMA_MARGIN_DEG
+            if g_hi < g[0] or g_lo > g[ng - 1]:
+                continue
+            j0 = max(int(np.searchsorted(g, g_lo, side="right")) - 1, 0)
+            j1 = min(int(np.searchsorted(g, g_hi, side="left")), ng - 1)
+            bound[t, b] = float(row_max[j0 : j1 + 1].max()) * (1.0 + _BOUND_MARGIN)
+    return bound, 0.5 * _COS_BINS
+
+
 def _inverse_step(grid: np.ndarray, n: np.ndarray) -> np.ndarray:
     """Per table row, 1 / the mean spacing of its n values (the guess of :func:`_cell`)."""
     out = np.ones(grid.shape[0])
@@ -868,6 +928,7 @@ def direct_illuminance_lx(
         no_ids,
         act,
         _luminaire_args(lights),
+        _luminaire_bounds(lights),
         grid.kernel_args(),
         tree,
         stack,
@@ -1053,11 +1114,30 @@ def _empty_geometry(n: int) -> SampleGeometry:
     )
 
 
+def _put_rows(dst: np.ndarray, index: np.ndarray, src: np.ndarray) -> None:
+    """``dst[index] = src`` for (n, m) rows: through views of each row as one opaque item where
+    both are C-contiguous arrays of one type (numpy copies a short row in one move instead of
+    element by element; several times quicker for rows of 2-3 float32), the same bytes."""
+    if (
+        dst.ndim == 2
+        and src.ndim == 2
+        and dst.dtype == src.dtype
+        and dst.shape[1] == src.shape[1]
+        and dst.flags.c_contiguous
+        and src.flags.c_contiguous
+        and dst.shape[1] > 0
+    ):
+        row = np.dtype((np.void, dst.dtype.itemsize * dst.shape[1]))
+        dst.view(row).reshape(-1)[index] = src.view(row).reshape(-1)
+    else:
+        dst[index] = src
+
+
 def _keep_geometry(geometry: SampleGeometry, tile: _Tile) -> None:
-    geometry.point_m[tile.index] = tile.point
-    geometry.normal[tile.index] = tile.normal
-    geometry.geo_normal[tile.index] = tile.geo
-    geometry.direction[tile.index] = tile.direction
+    _put_rows(geometry.point_m, tile.index, tile.point)
+    _put_rows(geometry.normal, tile.index, tile.normal)
+    _put_rows(geometry.geo_normal, tile.index, tile.geo)
+    _put_rows(geometry.direction, tile.index, tile.direction)
 
 
 def _view_rays(mesh: TriangleMesh, bvh: BVH, lights: LuminaireSet, camera: Camera, seed: int) -> ViewRays:
@@ -1168,6 +1248,7 @@ class _LightPass:
         self.lights = lights
         self.n_channels = lights.n_channels
         self.lum = _luminaire_args(lights)
+        self.bounds = _luminaire_bounds(lights)
         grid = scene_cull_grid(lights, bvh, negligible_lx)
         self.grid = grid.kernel_args() if grid is not None else None
         self.tree, self.stack, self.shadows = _tree_args(bvh)
@@ -1231,6 +1312,7 @@ class _LightPass:
                     obj,
                     active,
                     self.lum,
+                    self.bounds,
                     self.grid,
                     self.tree,
                     self.stack,
@@ -1345,8 +1427,8 @@ def render_buffers(
             tile.emitter,
             buffers.emitter_response,
         )
-        buffers.value_cd_m2[i] = value
-        buffers.spec_cd_m2[i] = spec
+        _put_rows(buffers.value_cd_m2, i, value)
+        _put_rows(buffers.spec_cd_m2, i, spec)
         if keep_geometry:
             _keep_geometry(buffers.geometry, tile)
     return buffers
@@ -1419,9 +1501,11 @@ def evaluate_light(
         for tile in _cast_tiles(buffers.rays, buffers.spp, progress=progress, label="direct light"):
             i = tile.index
             # The kept ids, not the new cast's: the openings are those of the first cast.
-            value[i], spec[i] = light.evaluate(
+            tile_value, tile_spec = light.evaluate(
                 tile.point, tile.normal, tile.geo, tile.direction, resp[i], obj[i], em[i], buffers.emitter_response
             )
+            _put_rows(value, i, tile_value)
+            _put_rows(spec, i, tile_spec)
     else:
         raise ValueError("these light buffers keep neither the samples' geometry nor how to cast them")
     buffers.value_cd_m2 = value
