@@ -255,3 +255,50 @@ def test_plane_covers_the_bounds_above_the_highest_surface():
     assert x1 - x0 < 24.3 + 0.5 and y1 - y0 < 17.2 + 0.5
     coarse = upward_plane(tri, cell_m=0.5, max_cells=20)
     assert coarse.n_pixels <= 20 and coarse.cell_m > 0.5
+
+
+# ------------------------------------------------------------------------------------------
+# Interreflected light: a sphere with an opening at the top
+# ------------------------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize("bounces", [0, 3])
+def test_sphere_with_an_opening_sends_out_the_reflection_series(bounces):
+    # An integrating sphere (radius 2 m, ρ = 0.5) cut open at the top, 0.5 m below its pole:
+    # every element of a sphere's inside sees any part of it in proportion to that part's area
+    # (the sphere's view factor F = A_j/A, analytic), so with f the opening's share of the area
+    # and Φ_w = Φ(1 − f) the source's direct light on the wall (the source at the centre sees
+    # the opening in the same proportion), the reflected light leaving through the opening
+    # after up to N interreflections is ρ·f·Φ_w·Σ_{k=0..N} (ρ(1 − f))^k (the integrating
+    # sphere's series, truncated; e.g. Goebel, "Generalized integrating-sphere theory", Appl.
+    # Opt. 6, 1967, from memory). Within 1 % (the tessellation and Monte Carlo noise; measured
+    # 0.35 % below with one reflection, 0.2 % below with three interreflections).
+    from render.light.indirect import IndirectSettings, trace_view
+
+    rho, centre = 0.5, np.array([0.0, 0.0, 5.0])
+    parts = shapes.sphere(centre, 2.0, subdivisions=5)
+    full = shapes.surface_area_m2(parts)
+    tri = np.concatenate([p.triangles_m for p in parts])
+    nrm = np.concatenate([p.normals for p in parts])
+    keep = tri[:, :, 2].max(axis=1) <= centre[2] + 1.5
+    cut = [shapes.Part(tri[keep], nrm[keep], "wall")]
+    f = 1.0 - shapes.surface_area_m2(cut) / full
+    mesh = mesh_of([cut], ["wall"])
+    bvh = build_bvh(mesh.triangles_m)
+    lights = isotropic_source(centre)
+    lights.opening_m[:] = 1e-3  # a point source: its opening hides nothing from the plane
+    top = float(mesh.triangles_m[:, :, 2].max())
+    plane = DownwardHemisphereCamera(
+        origin_xy_m=(-1.5, -1.5), plane_z_m=top + 1e-3, cell_m=0.1, width_px=30, height_px=30
+    )
+    buffers = upward_buffers(mesh, bvh, lights, plane, 16, 1)
+    if bounces:
+        buffers.indirect = trace_view(
+            buffers, lights, bvh, flat(rho), IndirectSettings(bounces=bounces, samples_per_pixel=32), 1
+        )
+    factors, lamps = channel_factors(lights)
+    m = exitance_lm_m2(buffers, factors, [get_lamp(lamps[0]).spd], flat(rho))
+    out = m.sum() * plane.cell_area_m2
+    series = sum((rho * (1.0 - f)) ** k for k in range(bounces + 1))
+    expected = rho * f * FLUX_LM * (1.0 - f) * series
+    assert out == pytest.approx(expected, rel=0.01), (f, out, expected)
