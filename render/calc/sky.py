@@ -32,7 +32,7 @@
   the objects ``[calc] include_objects`` names) grown on every side by
   :data:`UPWARD_MAP_MARGIN_HEIGHTS` times the plane's height above the scene's lowest surface,
   in square cells of :data:`UPWARD_MAP_CELL_M` (coarser when that would need more than
-  :data:`render.limits.MAX_PLAN_POINTS` cells). From every cell
+  :data:`UPWARD_MAP_MAX_CELLS` cells). From every cell
   :data:`UPWARD_MAP_RAYS_PER_CELL` rays go down into the lower hemisphere, cosine-weighted and
   stratified, from stratified points of the cell
   (:class:`render.rays.cameras.DownwardHemisphereCamera`); the mean luminance L they find,
@@ -111,6 +111,7 @@ __all__ = [
     "RAYLEIGH_REFERENCE_NM",
     "UPWARD_MAP_CELL_M",
     "UPWARD_MAP_MARGIN_HEIGHTS",
+    "UPWARD_MAP_MAX_CELLS",
     "UPWARD_MAP_RAYS_PER_CELL",
     "UPWARD_PLANE_CLEARANCE_M",
     "GroundPatches",
@@ -140,6 +141,9 @@ UPWARD_MAP_CELL_M = 1.0
 #: Rays per cell of the upward exitance map (own choice; the total averages over thousands of
 #: cells: on the demo its spread over seeds is about 0.5 %, the same as with 16 rays).
 UPWARD_MAP_RAYS_PER_CELL = 8
+#: Most cells of the upward exitance map (own choice: 2 million rays at 8 per cell, a few
+#: seconds of casting; a larger scene gets larger cells). Within :data:`MAX_PLAN_POINTS`.
+UPWARD_MAP_MAX_CELLS = min(250_000, MAX_PLAN_POINTS)
 #: Height of the measuring plane above the scene's highest surface, m (own choice).
 UPWARD_PLANE_CLEARANCE_M = 0.05
 #: Margin of the measuring plane beyond the scene's horizontal bounds, in heights of the plane
@@ -370,7 +374,7 @@ def upward_plane(
     triangles_m: npt.ArrayLike,
     cell_m: float = UPWARD_MAP_CELL_M,
     clearance_m: float = UPWARD_PLANE_CLEARANCE_M,
-    max_cells: int = MAX_PLAN_POINTS,
+    max_cells: int = UPWARD_MAP_MAX_CELLS,
     margin_heights: float = UPWARD_MAP_MARGIN_HEIGHTS,
 ) -> DownwardHemisphereCamera:
     """The measuring plane over the horizontal bounds of ``triangles_m`` (F, 3, 3) grown on
