@@ -21,7 +21,7 @@
   (a wall sends half its reflected light up; house fronts receive far less light than the
   ground), and the ground's reflected light is counted whole, as if none of it met a facade:
   in a street canyon it is therefore no lower bound of the reflected light that reaches the
-  sky (on the demo the ground's figure is about 14 % above the upward exitance map's total,
+  sky (on the demo the ground's figure is about 13 % above the upward exitance map's total,
   which adds facades and roofs but loses the ground's light the facades intercept). The
   figure stays as it was, for comparison with earlier runs; the map is the fuller measure.
 * **Upward exitance map** (:class:`UpwardLight`, :class:`UpwardExitanceMap`): the light the
