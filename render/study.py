@@ -213,12 +213,14 @@ class Study:
         )
 
     def night_spectra(self) -> np.ndarray:
-        """(2, N_BINS) the sky glow's spectrum (``[night] sky_spectrum``) and the moon's
-        (Planckian at ``moon_cct_k``), any scale."""
+        """(4, N_BINS) the spectra of the night light's ambient channels, any scale: the sky
+        glow's (``[night] sky_spectrum``), the moon's (Planckian at ``moon_cct_k``), the lit
+        windows' (``window_lamp``) and shop windows' (``shop_window_lamp``)."""
         from render.light.indirect.night import planckian_spectrum
 
         night = self.scene.night
-        return np.stack([self.lamp_spds([night.sky_spectrum])[0], planckian_spectrum(night.moon_cct_k)])
+        sky, window, shop = self.lamp_spds([night.sky_spectrum, night.window_lamp, night.shop_window_lamp])
+        return np.stack([sky, planckian_spectrum(night.moon_cct_k), window, shop])
 
     def _trace_indirect(
         self, buffers: LightBuffers, lights: LuminaireSet, settings: IndirectSettings, seed: int, progress: bool

@@ -119,6 +119,10 @@ class _Builder:
         #: The carriageway object of the street ("street") and of each road (its key path).
         self.carriageway_of: dict[str, int] = {}
         self.objects: list[ObjectInfo] = []
+        #: Window panels (slot ``window``) as (first triangle, triangle count, object index),
+        #: for lit windows (render.light.indirect.windows).
+        self.window_parts: list[tuple[int, int, int]] = []
+        self._n_tris = 0
 
     def material_index(self, material: str) -> int:
         if material not in self.material_names:
@@ -134,6 +138,7 @@ class _Builder:
         if triangles.shape[0] == 0:
             return
         self.tris.append(triangles)
+        self._n_tris += triangles.shape[0]
         self.normals.append(
             flat_normals(triangles) if normals is None else np.asarray(normals, dtype=np.float64).reshape(-1, 3, 3)
         )
@@ -146,7 +151,10 @@ class _Builder:
         area: dict[str, float] = {}
         for part in parts:
             material = _slot_material(materials, part.slot)
+            first = self._n_tris
             self.add(part.triangles_m, material, obj, part.normals)
+            if part.slot == "window" and self._n_tris > first:
+                self.window_parts.append((first, self._n_tris - first, obj))
             t = np.asarray(part.triangles_m, dtype=np.float64).reshape(-1, 3, 3)
             a = 0.5 * np.linalg.norm(np.cross(t[:, 1] - t[:, 0], t[:, 2] - t[:, 0]), axis=1).sum()
             area[material] = area.get(material, 0.0) + float(a)
@@ -170,6 +178,7 @@ class _Builder:
                 [o.name for o in self.objects],
             )
         mesh.objects = list(self.objects)  # type: ignore[attr-defined]
+        mesh.window_parts = list(self.window_parts)  # type: ignore[attr-defined]
         # The carriageway's own triangles (not other surfaces of its material), for the r-table
         # shading of images (render.light.rtable).
         mesh.carriageway_object = self.carriageway_object  # type: ignore[attr-defined]

@@ -84,6 +84,8 @@ __all__ = [
     "CALCULATION_FOLDER",
     "CAUTIONS",
     "INTERREFLECTION_CAUTION",
+    "NIGHT_CAUTION",
+    "NO_INTERREFLECTION_CAUTION",
     "LUMINANCE_LEGEND",
     "SETUP_KEYS",
     "WIPE_WIDTH_PX",
@@ -126,13 +128,34 @@ INTERREFLECTION_CAUTION = (
 )
 
 
+#: The second caution with the night light but no interreflection.
+NO_INTERREFLECTION_CAUTION = (
+    "Light reflected between surfaces is left out, so shadowed surfaces get only the night sky's and the "
+    "moon's direct light and minimum luminances read low."
+)
+#: A caution added when the night's sky glow and moonlight are traced (``{night}``: their levels).
+NIGHT_CAUTION = (
+    "The night's other light is included at stated levels, not measured on site ({night}): a Monte Carlo "
+    "estimate; the moon's disc is not drawn."
+)
+
+
 def light_cautions(indirect: IndirectSettings | None) -> tuple[str, ...]:
     """The comparison's cautions for the light modelled: :data:`CAUTIONS`, with the second
-    stating the interreflection settings when ``indirect`` is given (None: direct light only)."""
+    stating the interreflection settings when ``indirect`` is given (None: direct light only),
+    and the night light's levels when it is traced."""
     if indirect is None:
         return CAUTIONS
-    settings = indirect.describe().removeprefix("interreflected light: ")
-    return (CAUTIONS[0], INTERREFLECTION_CAUTION.format(settings=settings), CAUTIONS[2])
+    second = NO_INTERREFLECTION_CAUTION
+    if indirect.bounces > 0:
+        settings = indirect.describe().removeprefix("interreflected light: ")
+        second = INTERREFLECTION_CAUTION.format(settings=settings)
+    night = ()
+    if indirect.ambient:
+        from render.light.indirect.night import describe_night
+
+        night = (NIGHT_CAUTION.format(night=describe_night(indirect.night).removeprefix("night light: ")),)
+    return (CAUTIONS[0], second, *night, CAUTIONS[2])
 
 
 SETUP_KEYS = ("lamp", "lumens", "dimming", "photometry")

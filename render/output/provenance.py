@@ -64,7 +64,8 @@ def image_metadata(
     }
     indirect = rendered.buffers.indirect
     if indirect is not None:
-        meta["lampcast.interreflection"] = indirect.settings.describe()
+        if indirect.settings.bounces > 0:
+            meta["lampcast.interreflection"] = indirect.settings.describe()
         if indirect.settings.ambient:
             from render.light.indirect.night import describe_night
 

@@ -367,6 +367,15 @@ NIGHT_SPEC = {
     "moon_elevation_deg": Field("float", default=NightLight.moon_elevation_deg, unit=DEG, above=0.0, max=90.0),
     "moon_azimuth_deg": Field("float", default=NightLight.moon_azimuth_deg, unit=DEG, min=0.0, below=360.0),
     "moon_cct_k": Field("float", default=NightLight.moon_cct_k, unit="K", min=1000.0, max=25000.0),
+    "window_lit_fraction": Field("float", default=0.0, min=0.0, max=1.0, help="share of house windows lit"),
+    "window_luminance_cd_m2": Field("float", default=NightLight.window_luminance_cd_m2, unit="cd/m²", min=0.0, max=1e4),
+    "window_lamp": Field("str", default=NightLight.window_lamp, help="lamp id or lamp file of lit windows"),
+    "shop_window_lit_fraction": Field("float", default=0.0, min=0.0, max=1.0, help="share of shop windows lit"),
+    "shop_window_luminance_cd_m2": Field(
+        "float", default=NightLight.shop_window_luminance_cd_m2, unit="cd/m²", min=0.0, max=1e4
+    ),
+    "shop_window_lamp": Field("str", default=NightLight.shop_window_lamp, help="lamp id or lamp file"),
+    "window_seed": Field("int", default=0, min=0, max=2**32 - 1, help="which windows are lit"),
 }
 
 
@@ -1614,7 +1623,8 @@ def load_scene_document(doc: dict, path: str | os.PathLike, *, strict_paths: boo
     calc = _calc(top["calc"] or {}, ctx, objects)
     energy = _energy(top["energy"] or {}, ctx, setups)
     night = _defaults_after_problems(check_table(top["night"] or {}, NIGHT_SPEC, "night", problems), NIGHT_SPEC)
-    ctx.lamp(night["sky_spectrum"], "night.sky_spectrum")
+    for key in ("sky_spectrum", "window_lamp", "shop_window_lamp"):
+        ctx.lamp(night[key], f"night.{key}")
     for key, names in (
         ("before", [compare["before"]] if compare["before"] is not None else []),
         ("options", compare["options"] or []),

@@ -266,7 +266,11 @@ class NightLight:
     as a parallel beam of normal illuminance ``moon_illuminance_lx`` from ``moon_elevation_deg``
     above the horizon and ``moon_azimuth_deg`` (from +y toward +x: clockwise from north where
     +y is north), with a Planckian spectrum at ``moon_cct_k``
-    (:mod:`render.light.indirect.night`)."""
+    (:mod:`render.light.indirect.night`); lit windows: a share ``window_lit_fraction`` of the
+    houses' windows (``shop_window_lit_fraction`` of the shops' windows), chosen with
+    ``window_seed``, as Lambertian emitters of luminance ``window_luminance_cd_m2``
+    (``shop_window_luminance_cd_m2``) with the spectrum of the lamp reference ``window_lamp``
+    (``shop_window_lamp``) (:mod:`render.light.indirect.windows`)."""
 
     sky_luminance_cd_m2: float = 0.0
     sky_spectrum: str = "sodium-high-pressure-cie-hp1"
@@ -274,6 +278,13 @@ class NightLight:
     moon_elevation_deg: float = 30.0
     moon_azimuth_deg: float = 180.0
     moon_cct_k: float = 4100.0
+    window_lit_fraction: float = 0.0
+    window_luminance_cd_m2: float = 10.0
+    window_lamp: str = "led-2700k-cie-b1"
+    shop_window_lit_fraction: float = 0.0
+    shop_window_luminance_cd_m2: float = 50.0
+    shop_window_lamp: str = "led-3000k-cie-b2"
+    window_seed: int = 0
 
     @property
     def sky_on(self) -> bool:
@@ -284,9 +295,15 @@ class NightLight:
         return self.moon_illuminance_lx > 0.0
 
     @property
+    def windows_on(self) -> bool:
+        return (self.window_lit_fraction > 0.0 and self.window_luminance_cd_m2 > 0.0) or (
+            self.shop_window_lit_fraction > 0.0 and self.shop_window_luminance_cd_m2 > 0.0
+        )
+
+    @property
     def on(self) -> bool:
         """Whether the scene has any night light besides the luminaires."""
-        return self.sky_on or self.moon_on
+        return self.sky_on or self.moon_on or self.windows_on
 
 
 @dataclass(frozen=True)

@@ -56,17 +56,22 @@ __all__ = [
     "AMBIENT_CHANNELS",
     "C2_M_K",
     "MOON_CHANNEL",
+    "SHOP_WINDOW_CHANNEL",
     "SKY_CHANNEL",
+    "WINDOW_CHANNEL",
     "NightLight",
     "describe_night",
     "moon_direction",
     "planckian_spectrum",
 ]
 
-#: Ambient channels stored after the luminaires' channels: sky glow, then moonlight.
-AMBIENT_CHANNELS = 2
+#: Ambient channels stored after the luminaires' channels: sky glow, moonlight, then the lit
+#: windows of houses and of shops (:mod:`render.light.indirect.windows`).
+AMBIENT_CHANNELS = 4
 SKY_CHANNEL = 0
 MOON_CHANNEL = 1
+WINDOW_CHANNEL = 2
+SHOP_WINDOW_CHANNEL = 3
 #: Second radiation constant c₂ = h·c/k, m·K (CODATA 2018).
 C2_M_K = 1.438776877e-2
 
@@ -98,5 +103,11 @@ def describe_night(night: NightLight) -> str:
         parts.append(
             f"moonlight {night.moon_illuminance_lx:g} lx normal illuminance from {night.moon_elevation_deg:g}° "
             f"elevation, {night.moon_azimuth_deg:g}° azimuth (Planckian {night.moon_cct_k:g} K)"
+        )
+    if night.windows_on:
+        parts.append(
+            f"lit windows {night.window_lit_fraction:.0%} at {night.window_luminance_cd_m2:g} cd/m² "
+            f"({night.window_lamp}), shop windows {night.shop_window_lit_fraction:.0%} at "
+            f"{night.shop_window_luminance_cd_m2:g} cd/m² ({night.shop_window_lamp}), seed {night.window_seed}"
         )
     return "night light: " + ", ".join(parts) if parts else ""

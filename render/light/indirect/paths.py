@@ -82,6 +82,8 @@ RR_FIRST_BOUNCE = 2
 _BOUNCE_SHIFT = np.uint64(8)
 _PATH_SHIFT = np.uint64(24)
 _TO_UNIT = 1.0 / 9007199254740992.0  # 2⁻⁵³
+# Shadow rays toward a lit window stop this far short of its rectangle, m.
+_WINDOW_CLEARANCE_M = 2e-3
 # Items (pixels) per parallel work item: scratch arrays are made once per chunk.
 _ITEMS_PER_CHUNK = 16
 
@@ -114,6 +116,63 @@ def _cosine_direction(nx, ny, nz, u1, u2):
     )
 
 
+@numba.njit(cache=True, nogil=True, inline="always")
+def _window_connection(
+    px, py, pz, sx, sy, sz, gx, gy, gz, win, e_win, u0, u1, u2, wb, wi, tv, o, d, offset, st_node, work
+):
+    """Next-event estimation to one lit window (:mod:`render.light.indirect.windows`): the
+    window chosen by its approximate illuminance ``e_win`` (scratch), a point uniform on its
+    rectangle, one shadow ray. Returns (window, estimate of E/(π·L) per unit luminance)."""
+    W = win.shape[0]
+    total = 0.0
+    for w in range(W):
+        lx = win[w, 0] + 0.5 * (win[w, 3] + win[w, 6]) - px
+        ly = win[w, 1] + 0.5 * (win[w, 4] + win[w, 7]) - py
+        lz = win[w, 2] + 0.5 * (win[w, 5] + win[w, 8]) - pz
+        d2 = lx * lx + ly * ly + lz * lz
+        dist = math.sqrt(d2)
+        cx = 1.0
+        cw = 1.0
+        if dist > 0.0:
+            cx = (lx * sx + ly * sy + lz * sz) / dist
+            cw = -(lx * win[w, 9] + ly * win[w, 10] + lz * win[w, 11]) / dist
+        a = win[w, 12]
+        e = a * max(cx, 0.02) * max(cw, 0.02) / (d2 + a)
+        e_win[w] = e
+        total += e
+    if not (total > 0.0):
+        return -1, 0.0
+    u = u0 * total
+    pick = 0
+    run = e_win[0]
+    while run <= u and pick < W - 1:
+        pick += 1
+        run += e_win[pick]
+    lx = win[pick, 0] + u1 * win[pick, 3] + u2 * win[pick, 6] - px
+    ly = win[pick, 1] + u1 * win[pick, 4] + u2 * win[pick, 7] - py
+    lz = win[pick, 2] + u1 * win[pick, 5] + u2 * win[pick, 8] - pz
+    d2 = lx * lx + ly * ly + lz * lz
+    dist = math.sqrt(d2)
+    if not (dist > 0.0):
+        return pick, 0.0
+    lx /= dist
+    ly /= dist
+    lz /= dist
+    cos_x = lx * sx + ly * sy + lz * sz
+    cos_w = -(lx * win[pick, 9] + ly * win[pick, 10] + lz * win[pick, 11])
+    if cos_x <= 0.0 or cos_w <= 0.0 or lx * gx + ly * gy + lz * gz <= 0.0:
+        return pick, 0.0
+    o[0] = px + offset * gx
+    o[1] = py + offset * gy
+    o[2] = pz + offset * gz
+    d[0] = lx
+    d[1] = ly
+    d[2] = lz
+    if any_one(wb, wi, tv, o, d, 0.0, max(dist - _WINDOW_CLEARANCE_M, 0.0), st_node, work, WIDE):
+        return pick, 0.0
+    return pick, cos_x * cos_w * win[pick, 12] * total / (math.pi * d2 * e_win[pick])
+
+
 @numba.njit(cache=True, nogil=True, parallel=True, error_model="numpy")
 def trace_paths(
     point,
@@ -143,6 +202,8 @@ def trace_paths(
     sky_on,
     moon_on,
     moon,
+    win,
+    win_kind,
     out,
     out_paths,
 ):
@@ -168,8 +229,11 @@ def trace_paths(
     level: with ``sky_on`` a direction that leaves the scene upward adds the sky's unit
     luminance (from the start sample too, and one more direction after the last bounce
     vertex), with ``moon_on`` every vertex, the start sample included, casts a shadow ray
-    along ``moon`` (unit vector toward the moon) and adds cos θ/π. Off (``n_amb`` 0), the
-    paths and their random numbers are those without these terms.
+    along ``moon`` (unit vector toward the moon) and adds cos θ/π. With ``n_amb`` 4 the lit
+    windows ``win`` (W, 13) of kinds ``win_kind`` (W,) (0 houses, 1 shops) are two more
+    channels: every vertex, the start sample included, connects to one of them
+    (:func:`_window_connection`). Off (``n_amb`` 0), the paths and their random numbers are
+    those without these terms.
 
     Writes ``out`` (rows, C, n_nodes): the mean over a row's paths of the node values of
     E_ind/π·T per channel (rows are items, or samples with ``per_sample``), and ``out_paths``
@@ -188,6 +252,8 @@ def trace_paths(
     c_moon = c_sky + 1
     do_sky = n_amb > 0 and sky_on
     do_moon = n_amb > 0 and moon_on
+    do_win = n_amb > 2 and win.shape[0] > 0
+    c_win = c_sky + 2
     mx = moon[0]
     my = moon[1]
     mz = moon[2]
@@ -211,6 +277,7 @@ def trace_paths(
         mat_of = np.empty(spp, np.int64)
         mean = np.empty(N)
         e_cand = np.empty(max(n_lum, 1))
+        e_win = np.empty(max(win.shape[0], 1))
         st_node = np.empty(max(STACK_SIZE, wide_stack), np.int64)
         st_t = np.empty(wide_stack)
         work = np.empty(2 * WIDE)
@@ -305,6 +372,25 @@ def trace_paths(
                             else:
                                 for n in range(N):
                                     acc[a, c_moon, n] += v
+                if do_win:
+                    # The lit windows' direct light at the start sample (random numbers of
+                    # "bounce" 0, dimensions 4-6).
+                    wpick, v = _window_connection(
+                        px, py, pz, sx, sy, sz, gx, gy, gz, win, e_win,
+                        _rand(key, gid, i, 0, 4), _rand(key, gid, i, 0, 5), _rand(key, gid, i, 0, 6),
+                        wb, wi, tv, o, d, offset, st_node, work,
+                    )  # fmt: skip
+                    if v > 0.0:
+                        v *= f
+                        if f0[k_prev] > 0.0 and start_gloss:
+                            v *= 1.0 - fresnel_one(d[0] * sx + d[1] * sy + d[2] * sz, f0[k_prev])
+                        cw_ = c_win + win_kind[wpick]
+                        if mixed:
+                            for n in range(N):
+                                acc[a, cw_, n] += ratio[q_first, n] * v
+                        else:
+                            for n in range(N):
+                                acc[a, cw_, n] += v
                 for b in range(1, last + 1):
                     wx, wy, wz = _cosine_direction(sx, sy, sz, _rand(key, gid, i, b, 0), _rand(key, gid, i, b, 1))
                     if wx * gx + wy * gy + wz * gz <= 0.0:
@@ -409,6 +495,23 @@ def trace_paths(
                                 else:
                                     for n in range(N):
                                         acc[a, c_moon, n] += beta[n] * v
+                    if do_win:
+                        wpick, v = _window_connection(
+                            px, py, pz, gx, gy, gz, gx, gy, gz, win, e_win,
+                            _rand(key, gid, i, b, 4), _rand(key, gid, i, b, 5), _rand(key, gid, i, b, 6),
+                            wb, wi, tv, o, d, offset, st_node, work,
+                        )  # fmt: skip
+                        if v > 0.0:
+                            v *= weight * f
+                            if f0[k] > 0.0:
+                                v *= 1.0 - fresnel_one(d[0] * gx + d[1] * gy + d[2] * gz, f0[k])
+                            cw_ = c_win + win_kind[wpick]
+                            if mixed:
+                                for n in range(N):
+                                    acc[a, cw_, n] += beta[n] * ratio[q_first, n] * v
+                            else:
+                                for n in range(N):
+                                    acc[a, cw_, n] += beta[n] * v
                     if b >= last:
                         break
                     if b >= rr_first:

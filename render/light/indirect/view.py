@@ -39,7 +39,7 @@ from numpy.typing import ArrayLike
 from render.colour.colorimetry import colorimetric_weights, lamps_of_channels, response_table
 from render.colour.spectra import N_BINS
 from render.geometry.mesh import TriangleMesh, face_normals
-from render.light.indirect.night import AMBIENT_CHANNELS, NightLight, describe_night, moon_direction
+from render.light.indirect.night import AMBIENT_CHANNELS, NightLight, moon_direction
 from render.light.indirect.paths import RR_FIRST_BOUNCE, trace_paths
 from render.light.indirect.transport import (
     NODE_STEP_NM,
@@ -48,6 +48,7 @@ from render.light.indirect.transport import (
     transport_basis,
     transport_table,
 )
+from render.light.indirect.windows import LitWindows, lit_windows, windows_seen
 from render.light.integrator import (
     NEGLIGIBLE_LX,
     SURFACE_OFFSET_M,
@@ -113,19 +114,15 @@ class IndirectSettings:
 
     def describe(self) -> str:
         """One line for an output's provenance or caption, e.g. "interreflected light: up to
-        3 bounces, 8 paths per pixel (Monte Carlo), transport every 5 nm" (and the night light
-        when on, :func:`render.light.indirect.night.describe_night`)."""
+        3 bounces, 8 paths per pixel (Monte Carlo), transport every 5 nm" (the night light is
+        described by :func:`render.light.indirect.night.describe_night`)."""
         paths = f"{self.samples_per_pixel} path{'s' if self.samples_per_pixel != 1 else ''} per pixel (Monte Carlo)"
-        if self.bounces > 0:
-            text = (
-                f"interreflected light: up to {self.bounces} bounce{'s' if self.bounces != 1 else ''}, "
-                f"{paths}, transport every {self.node_step_nm} nm"
-            )
-        else:
-            text = f"no interreflected light; night light direct only, {paths}"
-        if self.ambient:
-            text += f"; {describe_night(self.night)}"
-        return text
+        if self.bounces <= 0:
+            return f"no interreflected light (night light only, {paths})"
+        return (
+            f"interreflected light: up to {self.bounces} bounce{'s' if self.bounces != 1 else ''}, "
+            f"{paths}, transport every {self.node_step_nm} nm"
+        )
 
 
 @dataclass
@@ -136,11 +133,12 @@ class IndirectBuffers:
     transport) relative to ``scale`` (n_pix,) float32 (a pixel's largest value); ``paths``
     (n_pix,) the paths averaged in each pixel; ``spp`` the view's camera samples per pixel;
     ``settings`` and ``seed`` how the paths were traced. With night light
-    (``settings.ambient``): ``ambient_values`` (n_pix, 2, n_nodes) float16 the sky glow's and
-    moonlight's transport per unit level (1 cd/m² of sky, 1 lx normal illuminance of moon),
-    the camera surface's direct light included, relative to ``ambient_scale`` (n_pix,)
-    float32; ``sky_seen`` (n_pix,) float32 the share of a pixel's camera samples that see the
-    sky; ``ambient_spds`` (2, N_BINS) the sky's and the moon's spectra."""
+    (``settings.ambient``): ``ambient_values`` (n_pix, 4, n_nodes) float16 the sky glow's,
+    moonlight's and lit windows' (houses', shops') transport per unit level (1 cd/m² of sky or
+    window, 1 lx normal illuminance of moon), the camera surface's direct light included,
+    relative to ``ambient_scale`` (n_pix,) float32; ``sky_seen`` (n_pix,) float32 the share of
+    a pixel's camera samples that see the sky, ``window_seen`` (n_pix, 2) that see a lit
+    house or shop window; ``ambient_spds`` (4, N_BINS) the spectra of the four."""
 
     width_px: int
     height_px: int
@@ -155,11 +153,16 @@ class IndirectBuffers:
     ambient_scale: np.ndarray | None = None
     sky_seen: np.ndarray | None = None
     ambient_spds: np.ndarray | None = None
+    window_seen: np.ndarray | None = None
 
     @property
     def nbytes(self) -> int:
         """Bytes held by the stored transport."""
-        extra = sum(a.nbytes for a in (self.ambient_values, self.ambient_scale, self.sky_seen) if a is not None)
+        extra = sum(
+            a.nbytes
+            for a in (self.ambient_values, self.ambient_scale, self.sky_seen, self.window_seen)
+            if a is not None
+        )
         return int(self.values.nbytes + self.scale.nbytes + self.paths.nbytes + extra)
 
 
@@ -177,6 +180,7 @@ class PathTracer:
         *,
         negligible_lx: float = NEGLIGIBLE_LX,
         offset_m: float = SURFACE_OFFSET_M,
+        windows: LitWindows | None = None,
     ) -> None:
         if settings.bounces < 1 and not settings.ambient:
             raise ValueError("interreflection needs at least one bounce")
@@ -188,6 +192,13 @@ class PathTracer:
         self.sky_on = bool(night is not None and night.sky_on)
         self.moon_on = bool(night is not None and night.moon_on)
         self.moon = moon_direction(night) if night is not None else np.zeros(3)
+        #: The lit windows (``windows`` overrides the mesh's, for checks).
+        if windows is None:
+            windows = lit_windows(mesh, night) if night is not None and night.windows_on else None
+        self.windows = windows
+        w = windows if windows is not None and self.n_ambient else None
+        self.win = np.ascontiguousarray(w.rect if w is not None else np.zeros((0, 13)), np.float64)
+        self.win_kind = np.ascontiguousarray(w.kind if w is not None else np.zeros(0), np.int64)
         basis = settings.basis
         self.basis = basis
         self.rho = np.ascontiguousarray(reflectances, np.float64)
@@ -260,6 +271,8 @@ class PathTracer:
                 self.sky_on,
                 self.moon_on,
                 self.moon,
+                self.win,
+                self.win_kind,
                 out,
                 paths,
             )
@@ -330,6 +343,8 @@ def trace_view(
     amb = np.zeros((W * H, A, n), np.float16) if A else None
     amb_scale = np.zeros(W * H, np.float32) if A else None
     sky_seen = np.zeros(W * H, np.float32) if A else None
+    lit = tracer.windows if A and tracer.windows is not None and tracer.windows.n else None
+    window_seen = np.zeros((W * H, 2), np.float32) if A else None
     for tile, moments, count in _transport_tiles(buffers, tracer, seed, False, progress):
         pixel = tile.index[::spp] // spp
         values[pixel], scale[pixel] = pack_rows(moments[:, :C])
@@ -339,9 +354,26 @@ def trace_view(
             # Samples that leave the scene upward see the sky dome (below the horizon: nothing).
             up = (tile.response < 0) & (tile.direction[:, 2] > 0.0)
             sky_seen[pixel] = up.reshape(-1, spp).mean(axis=1)
+            if lit is not None:
+                kind = windows_seen(lit, tile.point, tile.direction, tile.object_id)
+                for q in range(2):
+                    window_seen[pixel, q] = (kind == q).reshape(-1, spp).mean(axis=1)
     spds = np.ascontiguousarray(ambient_spds, np.float64).reshape(A, N_BINS) if A else None
     return IndirectBuffers(
-        W, H, spp, settings, int(seed), values, scale, paths, list(lights.channels), amb, amb_scale, sky_seen, spds
+        W,
+        H,
+        spp,
+        settings,
+        int(seed),
+        values,
+        scale,
+        paths,
+        list(lights.channels),
+        amb,
+        amb_scale,
+        sky_seen,
+        spds,
+        window_seen,
     )
 
 
@@ -403,17 +435,38 @@ def _add_ambient(
     indirect: IndirectBuffers, response: np.ndarray, reflectances: ArrayLike, w: np.ndarray, night, out: np.ndarray
 ) -> None:
     """Add the ambient channels at ``night``'s levels (the sky's luminance, the moon's normal
-    illuminance) and the sky seen (its luminance, white response) to ``out`` (n_pix, J)."""
-    levels = np.array([night.sky_luminance_cd_m2, night.moon_illuminance_lx], np.float64)
+    illuminance, the windows' luminances) and the sky and lit windows seen (their luminance,
+    white response) to ``out`` (n_pix, J)."""
+    levels = np.array(
+        [
+            night.sky_luminance_cd_m2,
+            night.moon_illuminance_lx,
+            night.window_luminance_cd_m2,
+            night.shop_window_luminance_cd_m2,
+        ],
+        np.float64,
+    )
     spds = indirect.ambient_spds
     table = transport_table(reflectances, spds, indirect.settings.basis, w)
     resolve_transport(
-        response, indirect.spp, indirect.ambient_values, indirect.ambient_scale, levels, table, np.arange(2), out
+        response,
+        indirect.spp,
+        indirect.ambient_values,
+        indirect.ambient_scale,
+        levels,
+        table,
+        np.arange(AMBIENT_CHANNELS),
+        out,
     )
-    if levels[0] > 0.0:
-        # A white (ρ = 1) response of the sky's spectrum at one photopic unit: its luminance.
-        white = response_table(np.zeros((0, N_BINS)), spds[:1], weights=w)[-1, 0]
-        out += (levels[0] * indirect.sky_seen.astype(np.float64))[:, None] * white[None, :]
+    # What the camera sees of the sky and of lit windows: their luminance, a white (ρ = 1)
+    # response of their spectrum at one photopic unit.
+    white = response_table(np.zeros((0, N_BINS)), spds, weights=w)[-1]
+    seen = [(0, indirect.sky_seen)]
+    if indirect.window_seen is not None:
+        seen += [(2, indirect.window_seen[:, 0]), (3, indirect.window_seen[:, 1])]
+    for c, share in seen:
+        if levels[c] > 0.0 and share is not None and share.any():
+            out += (levels[c] * share.astype(np.float64))[:, None] * white[c][None, :]
 
 
 def transport_at_points(

@@ -1,0 +1,182 @@
+"""Lit windows and shop fronts: Lambertian area emitters chosen by a seeded share.
+
+The houses' and shops' window panels (slot ``window`` of :mod:`render.geometry.objects`, kept
+by the mesh builder as ``mesh.window_parts``) are thin boxes standing proud of the facade; the
+face away from the building (the one farther from the centroid of its object's triangles) is
+the window's rectangle. A share of them is lit: ``round(fraction · n)`` panels of each kind
+(houses' windows; shops' windows -- the shop front's own window, on the ground floor of a
+shop, and the windows above it alike), chosen by a permutation seeded with ``window_seed`` and
+the kind, so the same scene and seed light the same windows.
+
+A lit window is a Lambertian emitter of luminance ``L`` (cd/m²) with a lamp's spectrum. Its
+light reaches a surface point ``x`` by next-event estimation
+(:mod:`render.light.indirect.paths`): one window chosen with probability proportional to an
+approximate unshadowed illuminance from its centre,
+
+    ẽ_w = A_w · max(cos θ_x, 0.02) · max(cos θ_w, 0.02) / (d² + A_w)
+
+(the floors keep every window's probability above zero, so the estimate stays unbiased where
+the centre is out of sight but part of the window is not), a point ``y`` uniform on its
+rectangle, and one shadow ray; the estimate of the white-diffuser luminance per unit window
+luminance is
+
+    E/(π·L) = cos θ_x · cos θ_y · A_w / (π · |x − y|² · p_w)
+
+A bounce ray that meets a lit window finds the glass (it reflects as any surface) and adds no
+emission: window light arrives by these connections only, so nothing is counted twice (next
+event estimation only, no multiple importance sampling). The camera's own view of a lit window
+shows its luminance with its lamp's spectrum (white response), like a luminous opening.
+
+References
+----------
+- Configuration factor of a differential area to a rectangle and E = π·L·F for a Lambertian
+  emitter: J. R. Howell, *A Catalog of Radiation Heat Transfer Configuration Factors*
+  **(from memory)**; the area-sampling estimator: Pharr, Jakob, Humphreys, *Physically Based
+  Rendering*, 3rd ed., ch. 14 (area lights) **(from memory)**.
+- Typical luminances of lit windows and shop windows at night (the defaults, 10 and
+  50 cd/m²): **from memory, no source**; give the site's.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from render.geometry.mesh import TriangleMesh, face_normals
+from render.scene.model import NightLight
+
+__all__ = ["HOUSE", "SHOP", "WINDOW_COLUMNS", "LitWindows", "lit_windows", "window_panels", "windows_seen"]
+
+#: Window kinds: houses' windows, shops' windows (their channels among the ambient ones).
+HOUSE = 0
+SHOP = 1
+#: Columns of a window row in the kernel's array: corner (3), edges e1 (3), e2 (3), outward
+#: unit normal (3), area (1).
+WINDOW_COLUMNS = 13
+# Triangles of a box panel (render.geometry.shapes.box).
+_BOX_TRIANGLES = 12
+# A camera hit lies on a window's rectangle when it is this close to its plane, m.
+_ON_PLANE_M = 2e-3
+
+
+@dataclass(frozen=True)
+class LitWindows:
+    """Rectangles of windows: ``rect`` (W, 13) corner, two edges, outward unit normal, area;
+    ``kind`` (W,) :data:`HOUSE` or :data:`SHOP`; ``obj`` (W,) object index; ``panels`` the
+    windows of each kind in the scene (lit or not)."""
+
+    rect: np.ndarray
+    kind: np.ndarray
+    obj: np.ndarray
+    panels: tuple[int, int] = (0, 0)
+
+    @property
+    def n(self) -> int:
+        return int(self.rect.shape[0])
+
+    def subset(self, index: np.ndarray) -> LitWindows:
+        return LitWindows(self.rect[index], self.kind[index], self.obj[index], self.panels)
+
+
+def _empty() -> LitWindows:
+    return LitWindows(np.zeros((0, WINDOW_COLUMNS)), np.zeros(0, np.int64), np.zeros(0, np.int64))
+
+
+def _rectangle(tris: np.ndarray, centre: np.ndarray) -> np.ndarray | None:
+    """The outward rectangle of a box panel's triangles (T, 3, 3): of its largest pair of
+    opposite faces, the one farther from ``centre``; None if it is not a box."""
+    n = face_normals(tris)
+    area = 0.5 * np.linalg.norm(np.cross(tris[:, 1] - tris[:, 0], tris[:, 2] - tris[:, 0]), axis=1)
+    big = n[np.argmax(area)]
+    front = []
+    for sign in (1.0, -1.0):
+        sel = np.abs(n @ (sign * big) - 1.0) < 1e-6
+        if sel.sum() < 2:
+            return None
+        front.append(sel)
+    dist = [np.linalg.norm(tris[sel].reshape(-1, 3).mean(axis=0) - centre) for sel in front]
+    sel = front[int(np.argmax(dist))]
+    corners = np.unique(np.round(tris[sel].reshape(-1, 3), 9), axis=0)
+    if corners.shape[0] != 4:
+        return None
+    p0 = corners[0]
+    far = int(np.argmax(np.linalg.norm(corners - p0, axis=1)))
+    e1, e2 = (corners[i] - p0 for i in range(1, 4) if i != far)
+    normal = np.cross(e1, e2)
+    a = float(np.linalg.norm(normal))
+    if a <= 0.0:
+        return None
+    normal /= a
+    if normal @ n[sel][0] < 0:
+        normal = -normal
+    return np.concatenate([p0, e1, e2, normal, [a]])
+
+
+def window_panels(mesh: TriangleMesh) -> LitWindows:
+    """Every window panel of the mesh's houses and shops (``mesh.window_parts``) as a
+    rectangle, with its kind."""
+    parts = getattr(mesh, "window_parts", None) or []
+    objects = getattr(mesh, "objects", None) or []
+    rows, kinds, objs = [], [], []
+    centres: dict[int, np.ndarray] = {}
+    for first, count, obj in parts:
+        if obj not in centres:
+            centres[obj] = mesh.triangles_m[mesh.object_id == obj].reshape(-1, 3).mean(axis=0)
+        kind_name = objects[obj].kind if obj < len(objects) else ""
+        # A part may hold several panels (parts of one slot are merged): boxes of 12 triangles.
+        for start in range(first, first + count - _BOX_TRIANGLES + 1, _BOX_TRIANGLES):
+            r = _rectangle(mesh.triangles_m[start : start + _BOX_TRIANGLES], centres[obj])
+            if r is None:
+                continue
+            rows.append(r)
+            kinds.append(SHOP if "shop" in kind_name else HOUSE)
+            objs.append(obj)
+    if not rows:
+        return _empty()
+    kind = np.array(kinds, np.int64)
+    return LitWindows(
+        np.array(rows), kind, np.array(objs, np.int64), (int((kind == HOUSE).sum()), int((kind == SHOP).sum()))
+    )
+
+
+def lit_windows(mesh: TriangleMesh, night: NightLight) -> LitWindows:
+    """The lit windows: ``round(fraction · n)`` of each kind's ``n`` panels, chosen by a
+    permutation seeded with ``night.window_seed`` and the kind."""
+    panels = window_panels(mesh)
+    chosen = []
+    for kind, fraction, level in (
+        (HOUSE, night.window_lit_fraction, night.window_luminance_cd_m2),
+        (SHOP, night.shop_window_lit_fraction, night.shop_window_luminance_cd_m2),
+    ):
+        index = np.flatnonzero(panels.kind == kind)
+        k = int(round(fraction * index.size)) if level > 0.0 else 0
+        if k:
+            order = np.random.default_rng([int(night.window_seed), kind]).permutation(index.size)
+            chosen.append(index[np.sort(order[:k])])
+    if not chosen:
+        return LitWindows(panels.rect[:0], panels.kind[:0], panels.obj[:0], panels.panels)
+    return panels.subset(np.concatenate(chosen))
+
+
+def windows_seen(windows: LitWindows, point: np.ndarray, direction: np.ndarray, object_id: np.ndarray) -> np.ndarray:
+    """(n,) the kind of lit window each camera sample sees (its hit on the window's outward
+    rectangle, seen from in front), -1 for none."""
+    out = np.full(point.shape[0], -1, np.int64)
+    if windows.n == 0:
+        return out
+    for obj in np.unique(windows.obj):
+        idx = np.flatnonzero(object_id == obj)
+        if idx.size == 0:
+            continue
+        p = point[idx].astype(np.float64)
+        dvec = direction[idx].astype(np.float64)
+        for w in np.flatnonzero(windows.obj == obj):
+            r = windows.rect[w]
+            rel = p - r[0:3]
+            e1, e2, n = r[3:6], r[6:9], r[9:12]
+            u = rel @ e1 / (e1 @ e1)
+            v = rel @ e2 / (e2 @ e2)
+            on = (np.abs(rel @ n) < _ON_PLANE_M) & (u >= 0) & (u <= 1) & (v >= 0) & (v <= 1) & (dvec @ n < 0)
+            out[idx[on]] = windows.kind[w]
+    return out
