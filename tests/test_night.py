@@ -14,7 +14,14 @@ Sources of the expected values:
 * a parallel beam of normal illuminance E_n from elevation h gives E_n·sin h on horizontal
   ground (cosine law, analytic) and a wall of height H casts a shadow H/tan h long
   (elementary geometry);
-* Monte Carlo error of independent Bernoulli samples, √(p(1 − p)/N) (binomial variance).
+* Monte Carlo error of independent Bernoulli samples, √(p(1 − p)/N) (binomial variance);
+* a Lambertian emitter of luminance L gives E = π·L·F with F the configuration factor; for a
+  differential element parallel to a rectangle a × b at distance c, opposite one corner,
+  F = (1/2π)·[X/√(1+X²)·atan(Y/√(1+X²)) + Y/√(1+Y²)·atan(X/√(1+Y²))], X = a/c, Y = b/c
+  (J. R. Howell, *A Catalog of Radiation Heat Transfer Configuration Factors*, differential
+  element to a parallel rectangle **(from memory)**; it gives 1/4 for an infinite quadrant);
+  for an element perpendicular to a rectangle, the definition F = ∫ cos θ₁ cos θ₂ /(π r²) dA
+  integrated by the midpoint rule (analytic definition, numerical quadrature).
 """
 
 from __future__ import annotations
@@ -85,7 +92,8 @@ def test_open_plane_receives_pi_times_sky_luminance():
     *_, tracer = _tracer([[_ground()]], night, bounces=0, paths=64)
     pts, nrm = _up_points(np.random.default_rng(2).uniform(-20, 20, (50, 2)))
     m, n = transport_at_points(pts, nrm, None, tracer, 1)
-    assert m.shape == (50, 2, tracer.basis.n_nodes)  # no luminaire channel without bounces
+    # No luminaire channel without bounces: sky, moon, house windows, shop windows.
+    assert m.shape == (50, 4, tracer.basis.n_nodes)
     np.testing.assert_allclose(m[:, SKY], 1.0, rtol=1e-12)
     np.testing.assert_array_equal(m[:, MOON], 0.0)
 
@@ -101,7 +109,7 @@ def test_white_diffuser_under_the_sky_shows_the_sky_luminance():
     buffers = render_buffers(mesh, bvh, lights, camera, 2, 0)
     from render.colour.lamps import get_lamp
 
-    spds = np.stack([get_lamp("led-4000k-cie-b3").spd, planckian_spectrum(4100.0)])
+    spds = np.stack([get_lamp("led-4000k-cie-b3").spd, planckian_spectrum(4100.0)] * 2)
     st = IndirectSettings(bounces=0, samples_per_pixel=8, night=night)
     ind = trace_view(buffers, lights, bvh, rho, st, 0, ambient_spds=spds)
     y = ambient_responses(ind, buffers.response, rho)[..., 1]
@@ -247,7 +255,7 @@ def test_colorimetric_weights_of_the_sky_pixels():
     buffers = render_buffers(mesh, bvh, lights, camera, 1, 0)
     ind = trace_view(
         buffers, lights, bvh, rho, IndirectSettings(0, 2, night=night), 0,
-        ambient_spds=np.stack([spd, planckian_spectrum(4100.0)]),
+        ambient_spds=np.stack([spd, planckian_spectrum(4100.0)] * 2),
     )  # fmt: skip
     xyz = ambient_responses(ind, buffers.response, rho)
     sky = buffers.response < 0
@@ -317,7 +325,7 @@ def test_off_by_default_and_on_without_bounces(tmp_path):
     np.testing.assert_allclose(lum[sky], 0.002, rtol=1e-9)
     np.testing.assert_array_equal(lum[below], 0.0)
     assert np.all(lum[~miss] > a.colorimetry.luminance_cd_m2.reshape(-1)[~miss])
-    assert "sky glow 0.002 cd/m²" in ind.settings.describe()
+    assert ind.settings.describe().startswith("no interreflected light")
     # Image provenance states it (common practice, no source).
     from render.output.provenance import image_metadata
     from render.vision.observer import ObserverSettings
@@ -325,4 +333,134 @@ def test_off_by_default_and_on_without_bounces(tmp_path):
     meta = image_metadata(on, b, "", ObserverSettings(), 1, 1)
     assert meta["lampcast.night_light"].startswith("night light: sky glow 0.002 cd/m²")
     assert "moonlight 0.2 lx" in meta["lampcast.night_light"]
+    assert "lampcast.interreflection" not in meta  # no bounces traced
     assert "lampcast.night_light" not in image_metadata(off, a, "", ObserverSettings(), 1, 1)
+    # The comparison's cautions state it (and that no interreflection was traced).
+    from render.output.comparison import CAUTIONS, light_cautions
+
+    cautions = light_cautions(on.indirect_settings())
+    assert len(cautions) == 4 and CAUTIONS[1] not in cautions
+    assert cautions[1].startswith("Light reflected between surfaces is left out")
+    assert "sky glow 0.002 cd/m²" in cautions[2] and "moonlight 0.2 lx" in cautions[2]
+    assert light_cautions(off.indirect_settings()) == CAUTIONS
+
+
+# ------------------------------------------------------------------------------------------
+# Lit windows
+# ------------------------------------------------------------------------------------------
+
+HOUSE_WINDOW = 2  # the house windows' channel after sky and moon (no luminaire channel)
+
+
+def _window(corner, e1, e2):
+    from render.light.indirect.windows import LitWindows
+
+    corner, e1, e2 = (np.asarray(v, np.float64) for v in (corner, e1, e2))
+    n = np.cross(e1, e2)
+    area = float(np.linalg.norm(n))
+    row = np.concatenate([corner, e1, e2, n / area, [area]])
+    return LitWindows(row[None], np.zeros(1, np.int64), np.zeros(1, np.int64), (1, 0))
+
+
+def _window_estimate(window, pts, nrm, paths=256, seed=5):
+    night = NightLight(window_lit_fraction=1.0)
+    mesh = mesh_of([[_ground(50.0)]], ["ground"])
+    bvh = build_bvh(mesh.triangles_m)
+    lights = isotropic_source([0.0, 0.0, 5000.0])
+    st = IndirectSettings(bounces=0, samples_per_pixel=paths, night=night)
+    tracer = PathTracer(mesh, bvh, lights, np.zeros((1, N_BINS)), st, windows=window)
+    m, n = transport_at_points(pts, nrm, None, tracer, seed)
+    est = m[:, HOUSE_WINDOW, 40]
+    return est.mean(), est.std(ddof=1) / math.sqrt(len(est))
+
+
+@pytest.mark.parametrize(("a", "b", "c"), [(2.0, 1.0, 1.5), (0.8, 1.2, 4.0)])
+def test_lit_rectangle_parallel_configuration_factor(a, b, c):
+    # A rectangle a × b at height c facing down, the point below one corner: E/(π·L) = F.
+    X, Y = a / c, b / c
+    F = (
+        X / math.sqrt(1 + X * X) * math.atan(Y / math.sqrt(1 + X * X))
+        + Y / math.sqrt(1 + Y * Y) * math.atan(X / math.sqrt(1 + Y * Y))
+    ) / (2 * math.pi)
+    window = _window((0.0, 0.0, c), (0.0, b, 0.0), (a, 0.0, 0.0))  # e2 × e1 order: normal down
+    assert window.rect[0, 11] == -1.0
+    pts, nrm = _up_points(np.zeros((64, 2)))
+    mean, se = _window_estimate(window, pts + [0.0, 0.0, 0.0], nrm)
+    assert abs(mean - F) < 4 * se + 1e-9, (mean, F, se)
+    assert se < 0.01 * F
+
+
+def test_lit_rectangle_perpendicular_configuration_factor():
+    # A window 1.2 m wide and 1.4 m high in a facade (plane y = 6, facing −y) with its sill at
+    # 0.9 m, and a point on the ground in front of it, off to one side.
+    corner, e1, e2 = (1.0, 6.0, 0.9), (1.2, 0.0, 0.0), (0.0, 0.0, 1.4)  # normal −y
+    window = _window(corner, e1, e2)
+    assert window.rect[0, 10] == -1.0
+    x = np.array([0.3, 2.0, 0.0])
+    # Midpoint rule on the definition, 400 × 400 cells.
+    u = (np.arange(400) + 0.5) / 400
+    uu, vv = np.meshgrid(u, u, indexing="ij")
+    y = np.array(corner) + uu[..., None] * np.array(e1) + vv[..., None] * np.array(e2)
+    r = y - x
+    d2 = (r * r).sum(axis=-1)
+    cos1 = r[..., 2] / np.sqrt(d2)
+    cos2 = r[..., 1] / np.sqrt(d2)  # toward the window's outward normal −y, reversed
+    F = float((cos1 * cos2 / (math.pi * d2)).mean() * 1.2 * 1.4)
+    pts, nrm = _up_points(np.tile(x[:2], (64, 1)))
+    mean, se = _window_estimate(window, pts, nrm)
+    assert abs(mean - F) < 4 * se + 1e-9, (mean, F, se)
+
+
+def _frontage_scene(tmp_path, night_table: str) -> Path:
+    text = MINIMAL.read_text(encoding="utf-8") + (
+        '\n[[frontages]]\nname = "terrace"\nside = "left"\nstart_m = 0.0\nlength_m = 40.0\nunits = 6\n'
+        'height_m = 5.6\n\n[[frontages]]\nname = "shops"\nside = "right"\nkind = "shop"\nstart_m = 0.0\n'
+        "length_m = 40.0\nunits = 4\nheight_m = 7.0\n"
+    )
+    p = tmp_path / "windows.toml"
+    p.write_text(text + "\n[night]\n" + night_table, encoding="utf-8")
+    return p
+
+
+def test_lit_share_reproducible_by_seed(tmp_path):
+    # round(fraction · n) windows of each kind are lit; the same seed lights the same ones.
+    from render.light.indirect.windows import HOUSE, SHOP, lit_windows, window_panels
+    from render.study import Study
+
+    s = Study(_frontage_scene(tmp_path, "window_lit_fraction = 0.3\nshop_window_lit_fraction = 0.5\n"))
+    panels = window_panels(s.mesh)
+    n_house, n_shop = panels.panels
+    # 6 houses of 2 storeys of 2 windows, the door in one ground-floor place; 4 shops of one
+    # shop window and 2 upper windows (the builders' defaults).
+    assert (n_house, n_shop) == (6 * 3, 4 * 3)
+    lit = lit_windows(s.mesh, s.scene.night)
+    assert (lit.kind == HOUSE).sum() == round(0.3 * n_house)
+    assert (lit.kind == SHOP).sum() == round(0.5 * n_shop)
+    again = lit_windows(s.mesh, s.scene.night)
+    np.testing.assert_array_equal(lit.rect, again.rect)
+    other = lit_windows(s.mesh, replace(s.scene.night, window_seed=1))
+    assert not np.array_equal(lit.rect, other.rect)
+    # Each rectangle faces the street (the terrace on the left, +y side, faces −y).
+    left = lit.rect[lit.kind == HOUSE]
+    assert np.all(left[:, 10] < -0.99)
+
+
+def test_lit_windows_in_a_view(tmp_path):
+    # Pixels that see a lit window show its luminance (white response of its lamp), the
+    # street in front receives its light, and a new window luminance scales it exactly.
+    from render.study import Study
+
+    s = Study(_frontage_scene(tmp_path, "window_lit_fraction = 1.0\nwindow_luminance_cd_m2 = 20.0\n"))
+    r = s.render_view("look", width_px=48, samples_per_pixel=1)
+    ind = r.buffers.indirect
+    seen = ind.window_seen[:, 0] > 0
+    assert seen.sum() >= 5
+    y = ambient_responses(ind, r.buffers.response, s.reflectances)[..., 1].reshape(-1)
+    # The window glass's own reflection of the other night light is zero here: only windows on.
+    np.testing.assert_allclose(y[seen], 20.0 + np.zeros(seen.sum()), rtol=0.05)
+    ground = (r.buffers.response >= 0) & ~seen
+    assert np.all(y[ground] >= 0) and y[ground].max() > 0
+    brighter = ambient_responses(
+        ind, r.buffers.response, s.reflectances, replace(s.scene.night, window_luminance_cd_m2=40.0)
+    )
+    np.testing.assert_allclose(brighter, 2 * ambient_responses(ind, r.buffers.response, s.reflectances), rtol=1e-12)
