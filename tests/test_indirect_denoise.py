@@ -13,7 +13,7 @@ What each check rests on:
   source for the bound: below 1e-6 of the other side);
 * against a reference of the same view traced with many more paths (its own noise measured
   from two independent halves and taken out, statistics): the RMS error of the interreflected
-  luminance falls at least 2-fold (measured about 3.3-fold at 128 px and 3.9-fold at 256 px,
+  luminance falls at least 2-fold (measured about 3.2-fold at 128 px and 3.9-fold at 256 px,
   ``python -m render.bench denoise``; the bound is our own choice, common practice, no
   source);
 * calculations never filtered: their figures with the scene key on equal those with it off

@@ -11,7 +11,8 @@
   filtering lowers the RMS error.
 * **Cost.** Tracing ``--paths`` paths per pixel, finding the guides (the camera samples cast
   again) and filtering, alternating, in wall and processor seconds, min / median / max over
-  ``--repeat`` rounds, per pixel and per traced path per pixel.
+  ``--repeat`` rounds (the filter with ``--time-passes``, default the scene key's), per pixel
+  and per traced path per pixel.
 """
 
 from __future__ import annotations
@@ -28,7 +29,7 @@ def cmd_denoise(args) -> int:
     from dataclasses import replace
 
     from render.light.indirect import IndirectSettings, indirect_xyz, trace_view
-    from render.light.indirect.denoise import DenoiseSettings, filter_transport, view_guides
+    from render.light.indirect.denoise import DEFAULT_DENOISE, DenoiseSettings, filter_transport, view_guides
     from render.light.luminaires import channel_factors
     from render.study import Study
 
@@ -85,7 +86,7 @@ def cmd_denoise(args) -> int:
         )
 
     one = traced[0]
-    st = DenoiseSettings(passes=args.passes[-1])
+    st = DenoiseSettings(passes=args.time_passes) if args.time_passes else DEFAULT_DENOISE
     wall, cpu, _ = interleaved_cpu(
         {
             "trace": lambda: trace(args.paths, 1),
@@ -117,5 +118,6 @@ def add_parser(sub) -> None:
     p.add_argument("--seeds", type=int, default=3, help="seeds of the images measured")
     p.add_argument("--reference-paths", type=int, default=256, help="paths per pixel of the reference")
     p.add_argument("--passes", type=int, nargs="+", default=[2, 3, 4, 5], help="filter passes to measure")
+    p.add_argument("--time-passes", type=int, default=None, help="filter passes of the cost figures (default 3)")
     p.add_argument("--repeat", type=int, default=3)
     p.set_defaults(func=cmd_denoise)
