@@ -76,6 +76,10 @@ def node_entry_mask(typingctx, wb, node, cols, origin, inverse, t_min, t_max, ne
     ``cols`` = (near x, near y, near z, far x, far y, far z) columns of the first child's
     bounds for the ray's octant (uint64), ``origin`` and ``inverse`` float64 3-tuples
     (:func:`render.rays.bvh.slab.safe_inverse` per axis)."""
+    if not (isinstance(wb, types.Array) and wb.ndim == 2 and wb.layout == "C" and wb.dtype == types.float32):
+        return None  # rows are read as contiguous float32 runs
+    if not (isinstance(near_out, types.Array) and near_out.layout == "C" and near_out.dtype == types.float64):
+        return None
     sig = types.int64(wb, node, cols, origin, inverse, t_min, t_max, near_out)
 
     def codegen(context, builder, signature, args):
