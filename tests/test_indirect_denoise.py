@@ -286,3 +286,20 @@ def test_guides_must_fit_the_view():
         filter_rows(np.zeros((9, 2)), g)
     with pytest.raises(ValueError):
         DenoiseSettings(passes=0)
+
+
+def test_night_ambient_light_kept_as_traced():
+    # The night's ambient channels hold the camera surface's own sky light and moonlight with
+    # their sharp shadows: the filter leaves them as traced, to the bit.
+    night = {}
+    for on in (False, True):
+        scene = load_scene(demo_scene_path())
+        scene.render.bounces = 1
+        scene.render.indirect_samples_per_pixel = 2
+        scene.render.indirect_denoise = on
+        scene.night = replace(scene.night, sky_luminance_cd_m2=0.01, moon_illuminance_lx=0.1)
+        night[on] = Study(scene).render_view(None, "sodium", width_px=32, samples_per_pixel=2).buffers.indirect
+    assert night[True].ambient_values is not None
+    assert np.array_equal(night[True].ambient_values.view(np.uint16), night[False].ambient_values.view(np.uint16))
+    assert np.array_equal(night[True].ambient_scale, night[False].ambient_scale)
+    assert not np.array_equal(night[True].values.view(np.uint16), night[False].values.view(np.uint16))

@@ -38,9 +38,12 @@ values, are not used: they would have to run again on every relit image and woul
 with relighting. Nor are object or material ids used as edges: a material boundary on one
 plane (a marking on a road) does not interrupt the irradiance the transport stands for.
 
-Only a view's stored transport is ever filtered: calculations (points through
-:func:`render.light.indirect.transport_at_points`, :meth:`render.study.Study.interreflected_illuminance_lx`)
-take the Monte Carlo estimate as it is. The filter trades noise for bias (light is averaged over
+Only the luminaires' interreflected transport of a view is ever filtered: not the night's
+ambient channels (:mod:`render.light.indirect.night`), which also hold the camera surface's
+direct sky light, moonlight and window light, whose shadows are sharp; and never
+calculations, which (points through :func:`render.light.indirect.transport_at_points`,
+:meth:`render.study.Study.interreflected_illuminance_lx`) take the Monte Carlo estimate as
+it is. The filter trades noise for bias (light is averaged over
 up to ``2·(2^passes - 1)`` pixels of one plane): an image option, ``[render] indirect_denoise``
 or ``--denoise``, stated in the image's provenance (:class:`DenoisedSettings`).
 
@@ -439,20 +442,14 @@ def denoise_view(
     overwrite: bool = False,
 ) -> IndirectBuffers:
     """The view's interreflected light (``buffers.indirect``) filtered (see the module text),
-    as new :class:`IndirectBuffers` whose settings say so (:class:`DenoisedSettings`); the
-    night's ambient transport too where the buffers keep it. ``guides`` default to
-    :func:`view_guides`; ``overwrite`` lets the filter use the kept transport's arrays."""
+    as new :class:`IndirectBuffers` whose settings say so (:class:`DenoisedSettings`).
+    Only the luminaires' interreflected transport: the night's ambient channels, which hold
+    the camera surface's own sky light, moonlight and window light with their sharp shadows,
+    are kept as traced. ``guides`` default to :func:`view_guides`; ``overwrite`` lets the
+    filter use the kept transport's arrays."""
     indirect = buffers.indirect
     if indirect is None:
         raise ValueError("these light buffers keep no interreflected light")
     g = view_guides(buffers) if guides is None else guides
-    changed: dict = {"settings": denoised_settings(indirect.settings, settings)}
-    changed["values"], changed["scale"] = filter_transport(
-        indirect.values, indirect.scale, g, settings, overwrite=overwrite
-    )
-    ambient = getattr(indirect, "ambient_values", None)
-    if ambient is not None:
-        changed["ambient_values"], changed["ambient_scale"] = filter_transport(
-            ambient, indirect.ambient_scale, g, settings, overwrite=overwrite
-        )
-    return replace(indirect, **changed)
+    values, scale = filter_transport(indirect.values, indirect.scale, g, settings, overwrite=overwrite)
+    return replace(indirect, values=values, scale=scale, settings=denoised_settings(indirect.settings, settings))
