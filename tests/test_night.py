@@ -314,6 +314,7 @@ def test_off_by_default_and_on_without_bounces(tmp_path):
     assert a.buffers.indirect is None
     ind = b.buffers.indirect
     assert ind.settings.bounces == 0 and ind.values.shape[1] == 0
+    assert ind.ambient_channels == (0, 1)  # only the terms on are kept: sky and moon
     np.testing.assert_array_equal(a.buffers.value_cd_m2, b.buffers.value_cd_m2)
     # Camera samples that leave the scene upward see the sky; below the horizon (past the
     # street's end) they see nothing.
@@ -453,6 +454,7 @@ def test_lit_windows_in_a_view(tmp_path):
     s = Study(_frontage_scene(tmp_path, "window_lit_fraction = 1.0\nwindow_luminance_cd_m2 = 20.0\n"))
     r = s.render_view("look", width_px=48, samples_per_pixel=1)
     ind = r.buffers.indirect
+    assert ind.ambient_channels == (2,)  # only the houses' windows are on
     seen = ind.window_seen[:, 0] > 0
     assert seen.sum() >= 5
     y = ambient_responses(ind, r.buffers.response, s.reflectances)[..., 1].reshape(-1)

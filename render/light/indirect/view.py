@@ -133,12 +133,14 @@ class IndirectBuffers:
     transport) relative to ``scale`` (n_pix,) float32 (a pixel's largest value); ``paths``
     (n_pix,) the paths averaged in each pixel; ``spp`` the view's camera samples per pixel;
     ``settings`` and ``seed`` how the paths were traced. With night light
-    (``settings.ambient``): ``ambient_values`` (n_pix, 4, n_nodes) float16 the sky glow's,
+    (``settings.ambient``): ``ambient_values`` (n_pix, A, n_nodes) float16 the sky glow's,
     moonlight's and lit windows' (houses', shops') transport per unit level (1 cd/m² of sky or
     window, 1 lx normal illuminance of moon), the camera surface's direct light included,
     relative to ``ambient_scale`` (n_pix,) float32; ``sky_seen`` (n_pix,) float32 the share of
     a pixel's camera samples that see the sky, ``window_seen`` (n_pix, 2) that see a lit
-    house or shop window; ``ambient_spds`` (4, N_BINS) the spectra of the four."""
+    house or shop window; ``ambient_spds`` (4, N_BINS) the spectra of the four;
+    ``ambient_channels`` which of the four ``ambient_values`` keeps (the A that were on when
+    traced: a term off then stays dark at any level)."""
 
     width_px: int
     height_px: int
@@ -154,6 +156,7 @@ class IndirectBuffers:
     sky_seen: np.ndarray | None = None
     ambient_spds: np.ndarray | None = None
     window_seen: np.ndarray | None = None
+    ambient_channels: tuple[int, ...] = ()
 
     @property
     def nbytes(self) -> int:
@@ -340,7 +343,25 @@ def trace_view(
     values = np.zeros((W * H, C, n), np.float16)
     scale = np.zeros(W * H, np.float32)
     paths = np.zeros(W * H, np.int32)
-    amb = np.zeros((W * H, A, n), np.float16) if A else None
+    # Only the ambient channels that are on are kept (the others would hold zeros).
+    night = settings.night
+    active = (
+        [
+            c
+            for c, on in enumerate(
+                (
+                    night.sky_on,
+                    night.moon_on,
+                    night.window_lit_fraction > 0.0 and night.window_luminance_cd_m2 > 0.0,
+                    night.shop_window_lit_fraction > 0.0 and night.shop_window_luminance_cd_m2 > 0.0,
+                )
+            )
+            if on
+        ]
+        if A
+        else []
+    )
+    amb = np.zeros((W * H, len(active), n), np.float16) if A else None
     amb_scale = np.zeros(W * H, np.float32) if A else None
     sky_seen = np.zeros(W * H, np.float32) if A else None
     lit = tracer.windows if A and tracer.windows is not None and tracer.windows.n else None
@@ -350,7 +371,7 @@ def trace_view(
         values[pixel], scale[pixel] = pack_rows(moments[:, :C])
         paths[pixel] = count
         if A:
-            amb[pixel], amb_scale[pixel] = pack_rows(moments[:, C:])
+            amb[pixel], amb_scale[pixel] = pack_rows(moments[:, C:][:, active])
             # Samples that leave the scene upward see the sky dome (below the horizon: nothing).
             up = (tile.response < 0) & (tile.direction[:, 2] > 0.0)
             sky_seen[pixel] = up.reshape(-1, spp).mean(axis=1)
@@ -374,6 +395,7 @@ def trace_view(
         sky_seen,
         spds,
         window_seen,
+        tuple(active),
     )
 
 
@@ -447,17 +469,19 @@ def _add_ambient(
         np.float64,
     )
     spds = indirect.ambient_spds
-    table = transport_table(reflectances, spds, indirect.settings.basis, w)
-    resolve_transport(
-        response,
-        indirect.spp,
-        indirect.ambient_values,
-        indirect.ambient_scale,
-        levels,
-        table,
-        np.arange(AMBIENT_CHANNELS),
-        out,
-    )
+    kept = list(indirect.ambient_channels)
+    if kept:
+        table = transport_table(reflectances, spds[kept], indirect.settings.basis, w)
+        resolve_transport(
+            response,
+            indirect.spp,
+            indirect.ambient_values,
+            indirect.ambient_scale,
+            levels[kept],
+            table,
+            np.arange(len(kept)),
+            out,
+        )
     # What the camera sees of the sky and of lit windows: their luminance, a white (ρ = 1)
     # response of their spectrum at one photopic unit.
     white = response_table(np.zeros((0, N_BINS)), spds, weights=w)[-1]
