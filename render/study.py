@@ -267,8 +267,16 @@ class Study:
         lights = self.lights(s)
         where = f"view {v.name!r}" + (" with --width/--spp" if width_px or samples_per_pixel else "")
         indirect = self.indirect_settings(bounces)
+        # The night light's ambient channels are stored as the luminaires' interreflected ones.
+        ambient = indirect.night.terms_on if indirect is not None and indirect.ambient else 0
         check_render_size(
-            camera.width_px, camera.height_px, spp, lights.n_channels, self.scene.path, where, indirect is not None
+            camera.width_px,
+            camera.height_px,
+            spp,
+            lights.n_channels + ambient,
+            self.scene.path,
+            where,
+            indirect is not None,
         )
         road = view_road_shading(self.scene, v, self.mesh, self.reflectances)
         buffers = render_buffers(

@@ -296,9 +296,23 @@ class NightLight:
 
     @property
     def windows_on(self) -> bool:
-        return (self.window_lit_fraction > 0.0 and self.window_luminance_cd_m2 > 0.0) or (
-            self.shop_window_lit_fraction > 0.0 and self.shop_window_luminance_cd_m2 > 0.0
+        return self.terms[2] or self.terms[3]
+
+    @property
+    def terms(self) -> tuple[bool, bool, bool, bool]:
+        """Which of its four terms are on: sky glow, moonlight, house windows, shop windows
+        (the ambient channels a view keeps)."""
+        return (
+            self.sky_on,
+            self.moon_on,
+            self.window_lit_fraction > 0.0 and self.window_luminance_cd_m2 > 0.0,
+            self.shop_window_lit_fraction > 0.0 and self.shop_window_luminance_cd_m2 > 0.0,
         )
+
+    @property
+    def terms_on(self) -> int:
+        """How many of its four terms are on."""
+        return sum(self.terms)
 
     @property
     def on(self) -> bool:

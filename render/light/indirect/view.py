@@ -344,23 +344,7 @@ def trace_view(
     scale = np.zeros(W * H, np.float32)
     paths = np.zeros(W * H, np.int32)
     # Only the ambient channels that are on are kept (the others would hold zeros).
-    night = settings.night
-    active = (
-        [
-            c
-            for c, on in enumerate(
-                (
-                    night.sky_on,
-                    night.moon_on,
-                    night.window_lit_fraction > 0.0 and night.window_luminance_cd_m2 > 0.0,
-                    night.shop_window_lit_fraction > 0.0 and night.shop_window_luminance_cd_m2 > 0.0,
-                )
-            )
-            if on
-        ]
-        if A
-        else []
-    )
+    active = [c for c, on in enumerate(settings.night.terms) if on] if A else []
     amb = np.zeros((W * H, len(active), n), np.float16) if A else None
     amb_scale = np.zeros(W * H, np.float32) if A else None
     sky_seen = np.zeros(W * H, np.float32) if A else None
