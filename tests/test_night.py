@@ -378,11 +378,15 @@ def _window_estimate(window, pts, nrm, paths=256, seed=5):
 @pytest.mark.parametrize(("a", "b", "c"), [(2.0, 1.0, 1.5), (0.8, 1.2, 4.0)])
 def test_lit_rectangle_parallel_configuration_factor(a, b, c):
     # A rectangle a × b at height c facing down, the point below one corner: E/(π·L) = F.
-    X, Y = a / c, b / c
-    F = (
-        X / math.sqrt(1 + X * X) * math.atan(Y / math.sqrt(1 + X * X))
-        + Y / math.sqrt(1 + Y * Y) * math.atan(X / math.sqrt(1 + Y * Y))
-    ) / (2 * math.pi)
+    def howell(X, Y):
+        return (
+            X / math.sqrt(1 + X * X) * math.atan(Y / math.sqrt(1 + X * X))
+            + Y / math.sqrt(1 + Y * Y) * math.atan(X / math.sqrt(1 + Y * Y))
+        ) / (2 * math.pi)
+
+    # The formula as transcribed gives a quarter for an infinite quadrant.
+    assert howell(1e9, 1e9) == pytest.approx(0.25, abs=1e-6)
+    F = howell(a / c, b / c)
     window = _window((0.0, 0.0, c), (0.0, b, 0.0), (a, 0.0, 0.0))  # e2 × e1 order: normal down
     assert window.rect[0, 11] == -1.0
     pts, nrm = _up_points(np.zeros((64, 2)))
