@@ -208,9 +208,15 @@ class Study:
         night = self.scene.night if self.scene.night.on else None
         if n <= 0 and night is None:
             return None
-        return IndirectSettings(
+        settings = IndirectSettings(
             bounces=max(n, 0), samples_per_pixel=self.scene.render.indirect_samples_per_pixel, night=night
         )
+        if n > 0 and self.scene.render.indirect_denoise:
+            from render.light.indirect.denoise import denoised_settings
+
+            # The images' interreflected light is filtered once traced (_trace_indirect).
+            settings = denoised_settings(settings)
+        return settings
 
     def night_spectra(self) -> np.ndarray:
         """(4, N_BINS) the spectra of the night light's ambient channels, any scale: the sky
@@ -240,7 +246,7 @@ class Study:
         )
         from render.light.indirect.denoise import DenoisedSettings, denoise_view
 
-        if self.scene.render.indirect_denoise or isinstance(settings, DenoisedSettings):
+        if isinstance(settings, DenoisedSettings):
             # Images only, once per view: the filter is linear and lamp-independent, so every
             # setup relit from these buffers gets the filtered light exactly.
             buffers.indirect = denoise_view(buffers, overwrite=True)

@@ -254,6 +254,8 @@ def test_render_with_the_key_and_relight_with_new_optics():
     study = Study(scene)
     first = study.render_view(None, "sodium", width_px=48, samples_per_pixel=2)
     assert "edge-aware denoise" in first.buffers.indirect.settings.describe()
+    # The comparison's cautions and render settings read the study's settings: stated there too.
+    assert "edge-aware denoise" in study.indirect_settings().describe()
     optic = Setup("optic", "", {"*": GroupSetting(photometry="generic-full-cutoff")})
     relit = study.relight(first, optic)
     fresh = study.render_view(None, optic, width_px=48, samples_per_pixel=2)
