@@ -192,7 +192,7 @@ def test_upward_map_picture_says_what_it_holds(pictures):
     report, _, first, _ = pictures
     text = Image.open(first[-1]).text
     assert text["lampcast.mode"] == "calculation upward exitance map"
-    assert "Reflected light only" in text["lampcast.light"] and "direct upward flux" in text["lampcast.light"]
+    assert "Reflected light only" in text["lampcast.map"] and "direct upward flux" in text["lampcast.map"]
     alts = calc_picture_alt_texts(report)
     assert len(alts) == len(first) and "lumens per square metre" in alts[-1]
     # Without the map (a calculation record from elsewhere) the picture is not drawn.

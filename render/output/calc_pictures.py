@@ -464,8 +464,10 @@ def upward_light_note(report: CalculationReport) -> str:
     """What the upward exitance map holds: reflected light only, and which reflections."""
     first = report.setups[0].upward_map
     bounces = first.bounces if first is not None else 0
+    from render.calc.fields import INTERREFLECTED_LABEL
+
     which = (
-        f"direct light reflected once and interreflected light up to {bounces} bounces"
+        f"direct light reflected once and interreflected light up to {bounces} bounces ({INTERREFLECTED_LABEL})"
         if bounces
         else "direct light reflected once (no interreflection)"
     )
@@ -523,8 +525,11 @@ def upward_exitance_map(
         bar.ax.tick_params(labelsize=7)
     note = upward_light_note(report)
     fig.suptitle(note, fontsize=7, wrap=True)
+    # "lampcast.light" labels interreflected light, as on the other calculation pictures (where
+    # the map holds it); what the map holds is always under "lampcast.map".
+    light = {"lampcast.light": note} if first.bounces else {}
     return write_figure_png(
-        fig, path, _png_text(report, "upward exitance map", {"lampcast.light": note, **(text or {})})
+        fig, path, _png_text(report, "upward exitance map", {"lampcast.map": note, **light, **(text or {})})
     )
 
 
