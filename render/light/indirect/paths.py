@@ -28,11 +28,21 @@ shadowed. Luminaires left out of a cell contribute below the same bound as for d
 
 **Surfaces.** Bounce vertices use the triangle's geometric normal, turned toward the arriving
 ray; the camera vertex samples around its shading normal and drops directions below its
-geometric surface. Materials with a specular layer (:mod:`render.light.gloss`) keep only their
-Lambertian base here, which receives what the interface transmits, ``1 − F(cos θ)`` (Schlick),
-for the light arriving at the camera vertex and at each next-event connection, as for direct
-light. The road's r-table applies to direct light only: interreflected light reaches the
-carriageway from every direction and is reflected by its Lambertian base.
+geometric surface. At a bounce vertex whose material has a specular layer
+(:mod:`render.light.gloss`) the path reflects off both lobes: it picks the specular one with
+probability :func:`~render.light.gloss.specular_lobe_probability` (F(cos θ_v) against the base's
+albedo under the layer, from its luminous reflectance) and draws a GGX visible normal, or the
+base's cosine distribution otherwise, and its throughput takes
+``(f_s·cos θ + ρ(λ)·(1 − F(cos θ))·cos θ/π) / pdf`` with the mixture pdf (the one-sample model),
+in place of ρ(λ); its next-event connections (luminaires, the moon, lit windows) add
+``β·(ρ(λ)·(1 − F(n·l))/π + f_s(l, v))·E``. The lobe's random number is on a hash dimension of
+its own (7), drawn only there, so scenes without a layer keep their bits. The camera vertex
+keeps its base only, which receives ``1 − F(cos θ)`` of the light arriving, as the direct
+light's base does: the specular reflection of interreflected light in the surface the camera
+sees is left out (a stated approximation; the stored transport leaves out that surface's
+reflectance, and its white specular part would need a second transport). The road's r-table
+applies to direct light only: interreflected light reaches the carriageway from every
+direction and is reflected by its Lambertian base (and its layer, where it has one).
 
 **Night light.** With sky glow and moonlight on (:mod:`render.light.indirect.night`) the same
 paths also carry two lamp-independent ambient channels: a direction that leaves the scene
@@ -49,8 +59,10 @@ References
 ----------
 - J. T. Kajiya, "The rendering equation", SIGGRAPH 1986 (path tracing).
 - E. Veach, *Robust Monte Carlo Methods for Light Transport Simulation*, PhD thesis, Stanford
-  1997: next-event estimation and Russian roulette **(from memory; section numbers not
-  checked)**.
+  1997: next-event estimation, Russian roulette and the one-sample model of a vertex's two
+  lobes **(from memory; section numbers not checked)**.
+- E. Heitz (2018), "Sampling the GGX distribution of visible normals", JCGT 7(4), through
+  :mod:`render.light.gloss`.
 - Cosine-weighted hemisphere sampling by projecting a uniform disc sample (Malley's method):
   M. Pharr, W. Jakob, G. Humphreys, *Physically Based Rendering*, 3rd ed., sec. 13.6.3
   **(section number from memory)**.
@@ -67,7 +79,14 @@ import numba
 import numpy as np
 from numba import prange
 
-from render.light.gloss import fresnel_one
+from render.light.gloss import (
+    fresnel_one,
+    layered_one,
+    layered_pdf_one,
+    specular_lobe_probability,
+    specular_one,
+    vndf_sample_one,
+)
 from render.light.integrator import _cell_of, _unshadowed
 from render.rays.bvh.layout import STACK_SIZE, WIDE
 from render.rays.bvh.single import any_one, closest_one
@@ -97,13 +116,19 @@ def _rand(key, item, path, bounce, dim):
 
 
 @numba.njit(cache=True, nogil=True, inline="always")
-def _cosine_direction(nx, ny, nz, u1, u2):
-    """Cosine-distributed unit direction about the unit normal n (pdf cos θ / π)."""
+def _frame(nx, ny, nz):
+    """Two unit tangents t1, t2 completing the unit normal n to an orthonormal basis (Duff et
+    al. 2017)."""
     sign = math.copysign(1.0, nz)
     a = -1.0 / (sign + nz)
     b = nx * ny * a
-    t1x, t1y, t1z = 1.0 + sign * nx * nx * a, sign * b, -sign * nx
-    t2x, t2y, t2z = b, sign + ny * ny * a, -ny
+    return 1.0 + sign * nx * nx * a, sign * b, -sign * nx, b, sign + ny * ny * a, -ny
+
+
+@numba.njit(cache=True, nogil=True, inline="always")
+def _cosine_direction(nx, ny, nz, u1, u2):
+    """Cosine-distributed unit direction about the unit normal n (pdf cos θ / π)."""
+    t1x, t1y, t1z, t2x, t2y, t2z = _frame(nx, ny, nz)
     r = math.sqrt(u1)
     phi = 2.0 * math.pi * u2
     lx = r * math.cos(phi)
@@ -114,6 +139,46 @@ def _cosine_direction(nx, ny, nz, u1, u2):
         lx * t1y + ly * t2y + lz * ny,
         lx * t1z + ly * t2z + lz * nz,
     )
+
+
+@numba.njit(cache=True, nogil=True, inline="always")
+def _layered_direction(nx, ny, nz, vx, vy, vz, f0, alpha, rho_lum, u_lobe, u1, u2):
+    """A direction leaving a vertex with a specular layer (unit normal n, ``v`` toward where the
+    path came from): the specular lobe (GGX visible normals, :func:`render.light.gloss.
+    vndf_sample_one`) with probability :func:`~render.light.gloss.specular_lobe_probability`,
+    the base's cosine distribution otherwise. Returns (l, spec·cos/pdf, base·cos/pdf) with the
+    mixture pdf (:func:`~render.light.gloss.layered_pdf_one`) and the layered values of
+    :func:`~render.light.gloss.layered_one`, so that the throughput takes
+    ``spec + ρ(λ)·base``; both 0 where the direction is below the surface or has no density."""
+    p_spec = specular_lobe_probability(nx * vx + ny * vy + nz * vz, f0, rho_lum)
+    if u_lobe < p_spec:
+        t1x, t1y, t1z, t2x, t2y, t2z = _frame(nx, ny, nz)
+        # The view in the local frame (z the normal), the sampled direction back.
+        ax = vx * t1x + vy * t1y + vz * t1z
+        ay = vx * t2x + vy * t2y + vz * t2z
+        az = vx * nx + vy * ny + vz * nz
+        ex, ey, ez, _ = vndf_sample_one(ax, ay, az, alpha, u1, u2)
+        lx = ex * t1x + ey * t2x + ez * nx
+        ly = ex * t1y + ey * t2y + ez * ny
+        lz = ex * t1z + ey * t2z + ez * nz
+    else:
+        lx, ly, lz = _cosine_direction(nx, ny, nz, u1, u2)
+    pdf = layered_pdf_one(nx, ny, nz, lx, ly, lz, vx, vy, vz, alpha, p_spec)
+    spec, base = layered_one(nx, ny, nz, lx, ly, lz, vx, vy, vz, f0, alpha)
+    if not (pdf > 0.0):
+        return lx, ly, lz, 0.0, 0.0
+    return lx, ly, lz, spec / pdf, base / pdf
+
+
+@numba.njit(cache=True, nogil=True, inline="always")
+def _deposit_layered(acc, a, ch, beta, rho, k, base, spec, mixed, ratio, q_first):
+    """acc[a, ch] += β(λ)·(ρ_k(λ)·base + spec) (times the sample's reflectance ratio when the
+    item's samples see several materials): light reflected at a vertex with a specular layer."""
+    for n in range(beta.shape[0]):
+        t = beta[n] * (rho[k, n] * base + spec)
+        if mixed:
+            t *= ratio[q_first, n]
+        acc[a, ch, n] += t
 
 
 @numba.njit(cache=True, nogil=True, inline="always")
@@ -189,6 +254,8 @@ def trace_paths(
     start_gloss,
     rho,
     f0,
+    alpha,
+    rho_lum,
     band_start,
     band_weight,
     tri_normal,
@@ -217,7 +284,8 @@ def trace_paths(
     after the start at most, Russian roulette deciding from vertex ``rr_first`` on whether to
     go on; ``start_gloss``: the start samples' own specular layer lets through 1 − F of the
     light they receive (surfaces seen; False for the light arriving at calculation points).
-    ``rho`` (K, N) reflectances, ``f0`` (K,) the specular layer's F0 (0: none);
+    ``rho`` (K, N) reflectances, ``f0`` (K,) the specular layer's F0 (0: none), ``alpha`` (K,)
+    its GGX roughness, ``rho_lum`` (K,) the base's luminous reflectance (the lobe choice);
     ``band_start``, ``band_weight`` the stored basis (:class:`~render.light.indirect.transport.
     TransportBasis`); ``tri_normal`` (F, 3) unit geometric normals and ``tri_material`` (F,) by
     original triangle index; ``tree`` = (wide nodes, their int32 view, triangle vertices,
@@ -351,6 +419,8 @@ def trace_paths(
                 for n in range(N):
                     beta[n] = 1.0
                 weight = 1.0
+                # The direction the path arrived along (used at vertices with a specular layer).
+                wx = wy = wz = 0.0
                 if do_moon:
                     # The moon's direct light at the start sample (its shading normal, above
                     # its geometric surface): one shadow ray.
@@ -392,10 +462,23 @@ def trace_paths(
                             for n in range(N):
                                 acc[a, cw_, n] += v
                 for b in range(1, last + 1):
-                    wx, wy, wz = _cosine_direction(sx, sy, sz, _rand(key, gid, i, b, 0), _rand(key, gid, i, b, 1))
-                    if wx * gx + wy * gy + wz * gz <= 0.0:
-                        break
-                    if f0[k_prev] > 0.0 and (b > 1 or start_gloss):
+                    if b > 1 and f0[k_prev] > 0.0:
+                        # A bounce vertex with a specular layer: one of its two lobes (the lobe's
+                        # random number on dimension 7, drawn only here), the throughput times
+                        # (f_s·cos + ρ(λ)·(1 − F)·cos/π) / (mixture pdf).
+                        wx, wy, wz, l_spec, l_base = _layered_direction(
+                            sx, sy, sz, -wx, -wy, -wz, f0[k_prev], alpha[k_prev], rho_lum[k_prev],
+                            _rand(key, gid, i, b, 7), _rand(key, gid, i, b, 0), _rand(key, gid, i, b, 1),
+                        )  # fmt: skip
+                        if wx * gx + wy * gy + wz * gz <= 0.0 or not (l_spec + l_base > 0.0):
+                            break
+                        for n in range(N):
+                            beta[n] *= l_spec + rho[k_prev, n] * l_base
+                    else:
+                        wx, wy, wz = _cosine_direction(sx, sy, sz, _rand(key, gid, i, b, 0), _rand(key, gid, i, b, 1))
+                        if wx * gx + wy * gy + wz * gz <= 0.0:
+                            break
+                    if f0[k_prev] > 0.0 and b == 1 and start_gloss:
                         # The base receives what the interface transmits (render.light.gloss).
                         weight *= 1.0 - fresnel_one(wx * sx + wy * sy + wz * sz, f0[k_prev])
                     o[0] = px + offset * gx
@@ -428,8 +511,10 @@ def trace_paths(
                         gx, gy, gz = -gx, -gy, -gz
                     sx, sy, sz = gx, gy, gz
                     k = tri_material[j]
-                    for n in range(N):
-                        beta[n] *= rho[k, n]
+                    glossy = f0[k] > 0.0
+                    if not glossy:
+                        for n in range(N):
+                            beta[n] *= rho[k, n]
                     # Next-event estimation: one luminaire of the vertex's culling cell.
                     ci = _cell_of(px, py, pz, box, cell, gnx, gny)
                     q0 = cell_start[ci] if ci >= 0 else 0
@@ -466,11 +551,17 @@ def trace_paths(
                         if not any_one(wb, wi, tv, o, d, 0.0, max(dist - clearance[kk], 0.0), st_node, work, WIDE):
                             # E_k / p_k = Σ E: the cell's whole unshadowed light.
                             v = weight * total / math.pi
-                            if f0[k] > 0.0:
-                                v *= 1.0 - fresnel_one(gx * lx + gy * ly + gz * lz, f0[k])
                             ch = channel[kk]
                             v *= f
-                            if mixed:
+                            if glossy:
+                                # The layered surface: ρ(λ)·(1 − F(n·l))/π + f_s(l, v), with E.
+                                _deposit_layered(
+                                    acc, a, ch, beta, rho, k,
+                                    v * (1.0 - fresnel_one(gx * lx + gy * ly + gz * lz, f0[k])),
+                                    v * math.pi * specular_one(gx, gy, gz, lx, ly, lz, -wx, -wy, -wz, f0[k], alpha[k]),
+                                    mixed, ratio, q_first,
+                                )  # fmt: skip
+                            elif mixed:
                                 for n in range(N):
                                     acc[a, ch, n] += beta[n] * ratio[q_first, n] * v
                             else:
@@ -487,9 +578,13 @@ def trace_paths(
                             d[2] = mz
                             if not any_one(wb, wi, tv, o, d, 0.0, np.inf, st_node, work, WIDE):
                                 v = weight * f * cm / math.pi
-                                if f0[k] > 0.0:
-                                    v *= 1.0 - fresnel_one(cm, f0[k])
-                                if mixed:
+                                if glossy:
+                                    _deposit_layered(
+                                        acc, a, c_moon, beta, rho, k, v * (1.0 - fresnel_one(cm, f0[k])),
+                                        v * math.pi * specular_one(gx, gy, gz, mx, my, mz, -wx, -wy, -wz, f0[k], alpha[k]),
+                                        mixed, ratio, q_first,
+                                    )  # fmt: skip
+                                elif mixed:
                                     for n in range(N):
                                         acc[a, c_moon, n] += beta[n] * ratio[q_first, n] * v
                                 else:
@@ -503,10 +598,14 @@ def trace_paths(
                         )  # fmt: skip
                         if v > 0.0:
                             v *= weight * f
-                            if f0[k] > 0.0:
-                                v *= 1.0 - fresnel_one(d[0] * gx + d[1] * gy + d[2] * gz, f0[k])
                             cw_ = c_win + win_kind[wpick]
-                            if mixed:
+                            if glossy:
+                                _deposit_layered(
+                                    acc, a, cw_, beta, rho, k, v * (1.0 - fresnel_one(d[0] * gx + d[1] * gy + d[2] * gz, f0[k])),
+                                    v * math.pi * specular_one(gx, gy, gz, d[0], d[1], d[2], -wx, -wy, -wz, f0[k], alpha[k]),
+                                    mixed, ratio, q_first,
+                                )  # fmt: skip
+                            elif mixed:
                                 for n in range(N):
                                     acc[a, cw_, n] += beta[n] * ratio[q_first, n] * v
                             else:

@@ -37,6 +37,7 @@ import numpy as np
 from numpy.typing import ArrayLike
 
 from render.colour.colorimetry import colorimetric_weights, lamps_of_channels, response_table
+from render.colour.materials import luminous_reflectance
 from render.colour.spectra import N_BINS
 from render.geometry.mesh import TriangleMesh, face_normals
 from render.light.indirect.night import AMBIENT_CHANNELS, NightLight, moon_direction
@@ -205,9 +206,16 @@ class PathTracer:
         basis = settings.basis
         self.basis = basis
         self.rho = np.ascontiguousarray(reflectances, np.float64)
-        self.f0 = np.ascontiguousarray(_material_gloss(mesh)[:, 0], np.float64)
+        gloss = _material_gloss(mesh)
+        self.f0 = np.ascontiguousarray(gloss[:, 0], np.float64)
         if self.f0.shape[0] != self.rho.shape[0]:
             raise ValueError(f"{self.rho.shape[0]} reflectances for {self.f0.shape[0]} materials")
+        #: The specular layer's GGX α, and the base's luminous reflectance (the choice between the
+        #: two lobes at a bounce vertex, :func:`render.light.gloss.specular_lobe_probability`).
+        self.alpha = np.ascontiguousarray(gloss[:, 1], np.float64)
+        self.rho_lum = np.ascontiguousarray(
+            np.atleast_1d(luminous_reflectance(self.rho)) if self.rho.shape[0] else np.zeros(0), np.float64
+        )
         self.tri_normal = np.ascontiguousarray(face_normals(mesh.triangles_m), np.float64)
         self.tri_material = np.ascontiguousarray(mesh.material_id, np.int32)
         self.tree = (bvh.wide_nodes, bvh.wide_nodes_i32, bvh.tri_vertices, bvh.tri_index)
@@ -261,6 +269,8 @@ class PathTracer:
                 bool(start_gloss),
                 self.rho,
                 self.f0,
+                self.alpha,
+                self.rho_lum,
                 self.basis.band_start,
                 self.basis.band_weight,
                 self.tri_normal,
