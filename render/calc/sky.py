@@ -287,8 +287,9 @@ class SkyFigures:
     per-lumen weight of their lamp's spectrum (lm-equivalents of 555 nm light for Rayleigh,
     scotopic lm for scotopic); ``notch_fraction`` is flux-weighted over the lamps.
 
-    ``reflected_upward_lm`` is the ground patches' figure, a lower bound (module text), and the
-    one ``upward_lm`` and the weighted figures use; ``reflected_upward_map_lm``, when computed,
+    ``reflected_upward_lm`` is the ground patches' figure, the ground's reflected light counted
+    whole as if none of it met a facade (module text: in a street between houses it is above
+    what leaves through the map's plane), and the one ``upward_lm`` and the weighted figures use; ``reflected_upward_map_lm``, when computed,
     is the upward exitance map's total, facades, roofs and the calculation's objects included
     (:class:`UpwardExitanceMap`), given beside it; ``reflected_upward_map_bounces`` the
     interreflections in it (0: one reflection)."""
