@@ -35,7 +35,13 @@ albedo under the layer, from its luminous reflectance) and draws a GGX visible n
 base's cosine distribution otherwise, and its throughput takes
 ``(f_s·cos θ + ρ(λ)·(1 − F(cos θ))·cos θ/π) / pdf`` with the mixture pdf (the one-sample model),
 in place of ρ(λ); its next-event connections (luminaires, the moon, lit windows) add
-``β·(ρ(λ)·(1 − F(n·l))/π + f_s(l, v))·E``. The lobe's random number is on a hash dimension of
+``β·(ρ(λ)·(1 − F(n·l))/π + f_s(l, v))·E`` (weight 1 for the luminaires and the moon, delta
+lights no direction can meet). A lit window is an area: at such a vertex its light is gathered
+by both strategies, the connection and a drawn direction that meets the window's rectangle
+(``tri_window``), each weighted by the power heuristic of the two solid-angle pdfs (the
+connection's p_w·d²/(A·cos θ_w), the layer's mixture pdf), which is what keeps a nearly smooth
+wet road reflecting a window from being all noise (multiple importance sampling; after the
+last vertex, where no direction is drawn, the connection takes weight 1). The lobe's random number is on a hash dimension of
 its own (7), drawn only there, so scenes without a layer keep their bits. The camera vertex
 keeps its base only, which receives ``1 − F(cos θ)`` of the light arriving, as the direct
 light's base does: the specular reflection of interreflected light in the surface the camera
@@ -63,6 +69,8 @@ References
   lobes **(from memory; section numbers not checked)**.
 - E. Heitz (2018), "Sampling the GGX distribution of visible normals", JCGT 7(4), through
   :mod:`render.light.gloss`.
+- E. Veach, L. J. Guibas, "Optimally combining sampling techniques for Monte Carlo rendering",
+  SIGGRAPH 1995: multiple importance sampling and the power heuristic **(from memory)**.
 - Cosine-weighted hemisphere sampling by projecting a uniform disc sample (Malley's method):
   M. Pharr, W. Jakob, G. Humphreys, *Physically Based Rendering*, 3rd ed., sec. 13.6.3
   **(section number from memory)**.
@@ -83,6 +91,7 @@ from render.light.gloss import (
     fresnel_one,
     layered_one,
     layered_pdf_one,
+    power_heuristic,
     specular_lobe_probability,
     specular_one,
     vndf_sample_one,
@@ -92,11 +101,17 @@ from render.rays.bvh.layout import STACK_SIZE, WIDE
 from render.rays.bvh.single import any_one, closest_one
 from render.rays.cameras import _mix64
 
-__all__ = ["RR_FIRST_BOUNCE", "trace_paths"]
+__all__ = ["RR_FIRST_BOUNCE", "WINDOW_BOUNCE_ONLY", "WINDOW_CONNECTION_ONLY", "WINDOW_MIS", "trace_paths"]
 
 #: Russian roulette decides whether a path goes on from this bounce vertex (1 = the first
 #: surface after the camera's): from the third vertex on.
 RR_FIRST_BOUNCE = 2
+#: How a vertex with a specular layer gathers a lit window's light: both strategies weighted by
+#: the power heuristic (the default), or (for checks) the connection alone or the sampled
+#: direction meeting the window alone. Vertices without a layer use the connection alone.
+WINDOW_MIS = 0
+WINDOW_CONNECTION_ONLY = 1
+WINDOW_BOUNCE_ONLY = 2
 # Hash fields: path index, bounce, dimension (bits).
 _BOUNCE_SHIFT = np.uint64(8)
 _PATH_SHIFT = np.uint64(24)
@@ -149,7 +164,7 @@ def _layered_direction(nx, ny, nz, vx, vy, vz, f0, alpha, rho_lum, u_lobe, u1, u
     the base's cosine distribution otherwise. Returns (l, spec·cos/pdf, base·cos/pdf) with the
     mixture pdf (:func:`~render.light.gloss.layered_pdf_one`) and the layered values of
     :func:`~render.light.gloss.layered_one`, so that the throughput takes
-    ``spec + ρ(λ)·base``; both 0 where the direction is below the surface or has no density."""
+    ``spec + ρ(λ)·base``, and the pdf; all 0 where the direction has no density."""
     p_spec = specular_lobe_probability(nx * vx + ny * vy + nz * vz, f0, rho_lum)
     if u_lobe < p_spec:
         t1x, t1y, t1z, t2x, t2y, t2z = _frame(nx, ny, nz)
@@ -166,8 +181,8 @@ def _layered_direction(nx, ny, nz, vx, vy, vz, f0, alpha, rho_lum, u_lobe, u1, u
     pdf = layered_pdf_one(nx, ny, nz, lx, ly, lz, vx, vy, vz, alpha, p_spec)
     spec, base = layered_one(nx, ny, nz, lx, ly, lz, vx, vy, vz, f0, alpha)
     if not (pdf > 0.0):
-        return lx, ly, lz, 0.0, 0.0
-    return lx, ly, lz, spec / pdf, base / pdf
+        return lx, ly, lz, 0.0, 0.0, 0.0
+    return lx, ly, lz, spec / pdf, base / pdf, pdf
 
 
 @numba.njit(cache=True, nogil=True, inline="always")
@@ -187,7 +202,9 @@ def _window_connection(
 ):
     """Next-event estimation to one lit window (:mod:`render.light.indirect.windows`): the
     window chosen by its approximate illuminance ``e_win`` (scratch), a point uniform on its
-    rectangle, one shadow ray. Returns (window, estimate of E/(π·L) per unit luminance)."""
+    rectangle, one shadow ray. Returns (window, estimate of E/(π·L) per unit luminance, the
+    sum of the approximate illuminances ``e_win`` holds, for the pdf of a direction that meets
+    a window)."""
     W = win.shape[0]
     total = 0.0
     for w in range(W):
@@ -206,7 +223,7 @@ def _window_connection(
         e_win[w] = e
         total += e
     if not (total > 0.0):
-        return -1, 0.0
+        return -1, 0.0, total
     u = u0 * total
     pick = 0
     run = e_win[0]
@@ -219,14 +236,14 @@ def _window_connection(
     d2 = lx * lx + ly * ly + lz * lz
     dist = math.sqrt(d2)
     if not (dist > 0.0):
-        return pick, 0.0
+        return pick, 0.0, total
     lx /= dist
     ly /= dist
     lz /= dist
     cos_x = lx * sx + ly * sy + lz * sz
     cos_w = -(lx * win[pick, 9] + ly * win[pick, 10] + lz * win[pick, 11])
     if cos_x <= 0.0 or cos_w <= 0.0 or lx * gx + ly * gy + lz * gz <= 0.0:
-        return pick, 0.0
+        return pick, 0.0, total
     o[0] = px + offset * gx
     o[1] = py + offset * gy
     o[2] = pz + offset * gz
@@ -234,8 +251,8 @@ def _window_connection(
     d[1] = ly
     d[2] = lz
     if any_one(wb, wi, tv, o, d, 0.0, max(dist - _WINDOW_CLEARANCE_M, 0.0), st_node, work, WIDE):
-        return pick, 0.0
-    return pick, cos_x * cos_w * win[pick, 12] * total / (math.pi * d2 * e_win[pick])
+        return pick, 0.0, total
+    return pick, cos_x * cos_w * win[pick, 12] * total / (math.pi * d2 * e_win[pick]), total
 
 
 @numba.njit(cache=True, nogil=True, parallel=True, error_model="numpy")
@@ -271,6 +288,8 @@ def trace_paths(
     moon,
     win,
     win_kind,
+    tri_window,
+    window_mis,
     out,
     out_paths,
 ):
@@ -300,7 +319,10 @@ def trace_paths(
     along ``moon`` (unit vector toward the moon) and adds cos θ/π. With ``n_amb`` 4 the lit
     windows ``win`` (W, 13) of kinds ``win_kind`` (W,) (0 houses, 1 shops) are two more
     channels: every vertex, the start sample included, connects to one of them
-    (:func:`_window_connection`). Off (``n_amb`` 0), the paths and their random numbers are
+    (:func:`_window_connection`); ``tri_window`` (F,) the lit window each triangle lies on
+    (-1: none): a direction drawn from a vertex's specular layer that meets one adds its
+    luminance, and the two are weighted by the power heuristic (``window_mis``,
+    :data:`WINDOW_MIS`; the other values keep one strategy, for checks). Off (``n_amb`` 0), the paths and their random numbers are
     those without these terms.
 
     Writes ``out`` (rows, C, n_nodes): the mean over a row's paths of the node values of
@@ -421,6 +443,7 @@ def trace_paths(
                 weight = 1.0
                 # The direction the path arrived along (used at vertices with a specular layer).
                 wx = wy = wz = 0.0
+                win_total = 0.0
                 if do_moon:
                     # The moon's direct light at the start sample (its shading normal, above
                     # its geometric surface): one shadow ray.
@@ -445,7 +468,7 @@ def trace_paths(
                 if do_win:
                     # The lit windows' direct light at the start sample (random numbers of
                     # "bounce" 0, dimensions 4-6).
-                    wpick, v = _window_connection(
+                    wpick, v, win_total = _window_connection(
                         px, py, pz, sx, sy, sz, gx, gy, gz, win, e_win,
                         _rand(key, gid, i, 0, 4), _rand(key, gid, i, 0, 5), _rand(key, gid, i, 0, 6),
                         wb, wi, tv, o, d, offset, st_node, work,
@@ -466,7 +489,7 @@ def trace_paths(
                         # A bounce vertex with a specular layer: one of its two lobes (the lobe's
                         # random number on dimension 7, drawn only here), the throughput times
                         # (f_s·cos + ρ(λ)·(1 − F)·cos/π) / (mixture pdf).
-                        wx, wy, wz, l_spec, l_base = _layered_direction(
+                        wx, wy, wz, l_spec, l_base, l_pdf = _layered_direction(
                             sx, sy, sz, -wx, -wy, -wz, f0[k_prev], alpha[k_prev], rho_lum[k_prev],
                             _rand(key, gid, i, b, 7), _rand(key, gid, i, b, 0), _rand(key, gid, i, b, 1),
                         )  # fmt: skip
@@ -488,6 +511,31 @@ def trace_paths(
                     d[1] = wy
                     d[2] = wz
                     t, j, _, _ = closest_one(wb, wi, tv, ti, o, d, 0.0, np.inf, st_node, st_t, work, WIDE)
+                    if (
+                        do_win
+                        and b > 1
+                        and f0[k_prev] > 0.0
+                        and j >= 0
+                        and tri_window[j] >= 0
+                        and window_mis != WINDOW_CONNECTION_ONLY
+                    ):
+                        # A direction drawn from the layer meets a lit window: its unit luminance,
+                        # weighted by the power heuristic against the connection to it.
+                        w_ = tri_window[j]
+                        cos_w = -(wx * win[w_, 9] + wy * win[w_, 10] + wz * win[w_, 11])
+                        if cos_w > 0.0:
+                            mis = 1.0
+                            if window_mis == WINDOW_MIS and win_total > 0.0:
+                                p_light = e_win[w_] / win_total * t * t / (win[w_, 12] * cos_w)
+                                mis = power_heuristic(1.0, l_pdf, 1.0, p_light)
+                            v = weight * f * mis
+                            cw_ = c_win + win_kind[w_]
+                            if mixed:
+                                for n in range(N):
+                                    acc[a, cw_, n] += beta[n] * ratio[q_first, n] * v
+                            else:
+                                for n in range(N):
+                                    acc[a, cw_, n] += beta[n] * v
                     if j < 0:
                         if do_sky and wz > 0.0:
                             # Left the scene toward the sky dome: its unit luminance.
@@ -591,7 +639,7 @@ def trace_paths(
                                     for n in range(N):
                                         acc[a, c_moon, n] += beta[n] * v
                     if do_win:
-                        wpick, v = _window_connection(
+                        wpick, v, win_total = _window_connection(
                             px, py, pz, gx, gy, gz, gx, gy, gz, win, e_win,
                             _rand(key, gid, i, b, 4), _rand(key, gid, i, b, 5), _rand(key, gid, i, b, 6),
                             wb, wi, tv, o, d, offset, st_node, work,
@@ -600,6 +648,23 @@ def trace_paths(
                             v *= weight * f
                             cw_ = c_win + win_kind[wpick]
                             if glossy:
+                                # Weighted against a direction drawn from the layer meeting the
+                                # window (power heuristic; pdf of the connection in solid angle
+                                # cos θ_x / (π·v) per unit of the estimate's factor).
+                                vw = 0.0
+                                if window_mis == WINDOW_MIS and b < last:
+                                    cl = d[0] * gx + d[1] * gy + d[2] * gz
+                                    p_light = cl * weight * f / (math.pi * v)
+                                    p_bsdf = layered_pdf_one(
+                                        gx, gy, gz, d[0], d[1], d[2], -wx, -wy, -wz, alpha[k],
+                                        specular_lobe_probability(-(wx * gx + wy * gy + wz * gz), f0[k], rho_lum[k]),
+                                    )  # fmt: skip
+                                    vw = v * power_heuristic(1.0, p_light, 1.0, p_bsdf)
+                                elif window_mis == WINDOW_CONNECTION_ONLY or b >= last:
+                                    # (No direction is drawn after the last vertex.)
+                                    vw = v
+                                v = vw
+                            if glossy and v > 0.0:
                                 _deposit_layered(
                                     acc, a, cw_, beta, rho, k, v * (1.0 - fresnel_one(d[0] * gx + d[1] * gy + d[2] * gz, f0[k])),
                                     v * math.pi * specular_one(gx, gy, gz, d[0], d[1], d[2], -wx, -wy, -wz, f0[k], alpha[k]),

@@ -41,7 +41,7 @@ from render.colour.materials import luminous_reflectance
 from render.colour.spectra import N_BINS
 from render.geometry.mesh import TriangleMesh, face_normals
 from render.light.indirect.night import AMBIENT_CHANNELS, NightLight, moon_direction
-from render.light.indirect.paths import RR_FIRST_BOUNCE, trace_paths
+from render.light.indirect.paths import RR_FIRST_BOUNCE, WINDOW_MIS, trace_paths
 from render.light.indirect.transport import (
     NODE_STEP_NM,
     TransportBasis,
@@ -49,7 +49,7 @@ from render.light.indirect.transport import (
     transport_basis,
     transport_table,
 )
-from render.light.indirect.windows import LitWindows, lit_windows, windows_seen
+from render.light.indirect.windows import LitWindows, lit_windows, window_triangles, windows_seen
 from render.light.integrator import (
     NEGLIGIBLE_LX,
     SURFACE_OFFSET_M,
@@ -185,6 +185,7 @@ class PathTracer:
         negligible_lx: float = NEGLIGIBLE_LX,
         offset_m: float = SURFACE_OFFSET_M,
         windows: LitWindows | None = None,
+        window_mis: int = WINDOW_MIS,
     ) -> None:
         if settings.bounces < 1 and not settings.ambient:
             raise ValueError("interreflection needs at least one bounce")
@@ -203,6 +204,12 @@ class PathTracer:
         w = windows if windows is not None and self.n_ambient else None
         self.win = np.ascontiguousarray(w.rect if w is not None else np.zeros((0, 13)), np.float64)
         self.win_kind = np.ascontiguousarray(w.kind if w is not None else np.zeros(0), np.int64)
+        #: The lit window each triangle is part of (-1: none), and how a vertex with a specular
+        #: layer gathers their light (:data:`render.light.indirect.paths.WINDOW_MIS`).
+        self.tri_window = np.ascontiguousarray(
+            window_triangles(w, mesh) if w is not None else np.full(mesh.n_triangles, -1), np.int64
+        )
+        self.window_mis = int(window_mis)
         basis = settings.basis
         self.basis = basis
         self.rho = np.ascontiguousarray(reflectances, np.float64)
@@ -286,6 +293,8 @@ class PathTracer:
                 self.moon,
                 self.win,
                 self.win_kind,
+                self.tri_window,
+                self.window_mis,
                 out,
                 paths,
             )

@@ -22,9 +22,13 @@ luminance is
 
     E/(π·L) = cos θ_x · cos θ_y · A_w / (π · |x − y|² · p_w)
 
-A bounce ray that meets a lit window finds the glass (it reflects as any surface) and adds no
-emission: window light arrives by these connections only, so nothing is counted twice (next
-event estimation only, no multiple importance sampling). The camera's own view of a lit window
+A bounce ray that meets a lit window finds the glass (it reflects as any surface). From a
+vertex without a specular layer it adds no emission: window light arrives by these
+connections only, so nothing is counted twice. From a vertex with a layer (a wet road, where
+a nearly smooth lobe makes a uniform point on the window a poor guess) the direction drawn
+from the layer adds the window's luminance too, and the two strategies are weighted by the
+power heuristic (multiple importance sampling); :func:`window_triangles` tells the kernel
+which triangles are a lit window's rectangle. The camera's own view of a lit window
 shows its luminance with its lamp's spectrum (white response), like a luminous opening.
 
 References
@@ -33,6 +37,9 @@ References
   emitter: J. R. Howell, *A Catalog of Radiation Heat Transfer Configuration Factors*
   **(from memory)**; the area-sampling estimator: Pharr, Jakob, Humphreys, *Physically Based
   Rendering*, 3rd ed., ch. 14 (area lights) **(from memory)**.
+- E. Veach, L. J. Guibas, "Optimally combining sampling techniques for Monte Carlo
+  rendering", SIGGRAPH 1995: multiple importance sampling, the power heuristic
+  **(from memory)**.
 - Typical luminances of lit windows and shop windows at night (the defaults, 10 and
   50 cd/m²): **from memory, no source**; give the site's.
 """
@@ -46,7 +53,16 @@ import numpy as np
 from render.geometry.mesh import TriangleMesh, face_normals
 from render.scene.model import NightLight
 
-__all__ = ["HOUSE", "SHOP", "WINDOW_COLUMNS", "LitWindows", "lit_windows", "window_panels", "windows_seen"]
+__all__ = [
+    "HOUSE",
+    "SHOP",
+    "WINDOW_COLUMNS",
+    "LitWindows",
+    "lit_windows",
+    "window_panels",
+    "window_triangles",
+    "windows_seen",
+]
 
 #: Window kinds: houses' windows, shops' windows (their channels among the ambient ones).
 HOUSE = 0
@@ -179,4 +195,31 @@ def windows_seen(windows: LitWindows, point: np.ndarray, direction: np.ndarray, 
             v = rel @ e2 / (e2 @ e2)
             on = (np.abs(rel @ n) < _ON_PLANE_M) & (u >= 0) & (u <= 1) & (v >= 0) & (v <= 1) & (dvec @ n < 0)
             out[idx[on]] = windows.kind[w]
+    return out
+
+
+def window_triangles(windows: LitWindows, mesh: TriangleMesh) -> np.ndarray:
+    """(F,) the lit window (row of ``windows``) each triangle of ``mesh`` is part of -- a
+    triangle of the window's object whose vertices lie on its rectangle and whose normal faces
+    its outward side -- or -1."""
+    out = np.full(mesh.n_triangles, -1, np.int64)
+    eps = 1e-6
+    for obj in np.unique(windows.obj):
+        idx = np.flatnonzero(mesh.object_id == obj)
+        if idx.size == 0:
+            continue
+        tri = mesh.triangles_m[idx].astype(np.float64)
+        facing = face_normals(tri)
+        for w in np.flatnonzero(windows.obj == obj):
+            r = windows.rect[w]
+            rel = tri - r[0:3]
+            e1, e2, n = r[3:6], r[6:9], r[9:12]
+            u = rel @ e1 / (e1 @ e1)
+            v = rel @ e2 / (e2 @ e2)
+            on = (
+                np.all(np.abs(rel @ n) < _ON_PLANE_M, axis=1)
+                & np.all((u >= -eps) & (u <= 1 + eps) & (v >= -eps) & (v <= 1 + eps), axis=1)
+                & (facing @ n > 0.5)
+            )
+            out[idx[on]] = w
     return out
