@@ -18,6 +18,7 @@ References
 
 from __future__ import annotations
 
+import math
 import os
 from dataclasses import dataclass
 from pathlib import Path
@@ -188,19 +189,26 @@ _BYTES_PER_PIXEL_VISION = 600
 # values, render.light.indirect), and per pixel (its float32 scale and int32 path count).
 _BYTES_PER_PIXEL_CHANNEL_INDIRECT = 162
 _BYTES_PER_PIXEL_INDIRECT = 8
+# The second (white) transport of the pixels that see a specular layer: the same per channel,
+# and per such pixel its float32 scale and int32 pixel index.
+_BYTES_PER_GLOSS_PIXEL_INDIRECT = 8
 
 
 def render_memory_estimate(
-    width_px: int, height_px: int, spp: int, n_channels: int, indirect: bool = False
+    width_px: int, height_px: int, spp: int, n_channels: int, indirect: bool = False, gloss_share: float = 0.0
 ) -> MemoryEstimate:
     """An upper estimate of one view's peak memory (camera samples, light buffers, vision, and
-    with ``indirect`` the interreflected transport)."""
+    with ``indirect`` the interreflected transport, with the second transport of the share
+    ``gloss_share`` (0 … 1) of pixels that see a specular layer)."""
     samples = int(width_px) * int(height_px) * int(spp)
     total = samples * (_BYTES_PER_SAMPLE + _BYTES_PER_SAMPLE_CHANNEL * max(1, int(n_channels)))
     total += int(width_px) * int(height_px) * _BYTES_PER_PIXEL_VISION
     if indirect:
         per_pixel = _BYTES_PER_PIXEL_INDIRECT + _BYTES_PER_PIXEL_CHANNEL_INDIRECT * max(1, int(n_channels))
         total += int(width_px) * int(height_px) * per_pixel
+        share = min(max(float(gloss_share), 0.0), 1.0)
+        per_gloss = _BYTES_PER_GLOSS_PIXEL_INDIRECT + _BYTES_PER_PIXEL_CHANNEL_INDIRECT * max(1, int(n_channels))
+        total += math.ceil(share * int(width_px) * int(height_px)) * per_gloss
     return MemoryEstimate(
         total, f"{width_px}×{height_px} pixels at {spp} samples per pixel, {n_channels} light channels"
     )
@@ -220,11 +228,19 @@ def check_memory(estimate: MemoryEstimate, source: str | Path, where: str, avail
 
 
 def check_render_size(
-    width_px: int, height_px: int, spp: int, n_channels: int, source: str | Path, where: str, indirect: bool = False
+    width_px: int,
+    height_px: int,
+    spp: int,
+    n_channels: int,
+    source: str | Path,
+    where: str,
+    indirect: bool = False,
+    gloss_share: float = 0.0,
 ) -> None:
     """Refuse, before any allocation, a view larger than the limits or than the memory available:
     an :class:`InputError` naming ``where`` (the view, or the ``--width``/``--spp`` options);
-    ``indirect``: the view keeps interreflected light too."""
+    ``indirect``: the view keeps interreflected light too (``gloss_share``: of which the share
+    of pixels that see a specular layer keeps a second transport)."""
     for value, limit, what in (
         (width_px, MAX_IMAGE_SIDE_PX, "the image width in pixels"),
         (height_px, MAX_IMAGE_SIDE_PX, "the image height in pixels"),
@@ -233,4 +249,4 @@ def check_render_size(
         check_count(value, limit, source, where, what, minimum=1)
     samples = int(width_px) * int(height_px) * int(spp)
     check_count(samples, MAX_CAMERA_SAMPLES, source, where, "the number of camera samples of the view", minimum=1)
-    check_memory(render_memory_estimate(width_px, height_px, spp, n_channels, indirect), source, where)
+    check_memory(render_memory_estimate(width_px, height_px, spp, n_channels, indirect, gloss_share), source, where)

@@ -36,6 +36,7 @@ from render.light.integrator import (
     NEGLIGIBLE_LX,
     SURFACE_OFFSET_M,
     LightBuffers,
+    _material_gloss,
     direct_illuminance_lx,
     evaluate_light,
     render_buffers,
@@ -283,6 +284,8 @@ class Study:
             self.scene.path,
             where,
             indirect is not None,
+            # (Not known before the view is cast: every pixel counted when a material has a layer.)
+            float(np.any(_material_gloss(self.mesh)[:, 0] > 0.0)),
         )
         road = view_road_shading(self.scene, v, self.mesh, self.reflectances)
         buffers = render_buffers(

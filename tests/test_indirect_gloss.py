@@ -142,7 +142,7 @@ def test_moon_reflected_by_a_rough_wet_floor(rho, elevation_deg):
     assert abs(mean[MOON] - expected) < 0.02 * expected
 
 
-def _room(gloss):
+def _room(gloss, start_materials=False):
     # A closed room with a floor slab, a pillar and one lit window: luminaire, sky (none
     # reaches it), moon and window channels all traced.
     box = shapes.box(min_m=(-4.0, -3.0, 0.0), max_m=(4.0, 3.0, 6.0))
@@ -172,7 +172,9 @@ def _room(gloss):
     pts = np.column_stack([rng.uniform(-3.5, 3.5, 60), rng.uniform(-2.5, 2.5, 60), rng.uniform(0.5, 5.5, 60)])
     nrm = rng.normal(size=(60, 3))
     nrm /= np.linalg.norm(nrm, axis=1, keepdims=True)
-    return transport_at_points(pts, nrm, None, tracer, 7)[0]
+    # (start_materials: the points are surfaces seen, of the first three materials in turn.)
+    mats = np.arange(60, dtype=np.int32) % 3 if start_materials else None
+    return transport_at_points(pts, nrm, mats, tracer, 7)[0]
 
 
 def test_a_layer_no_path_meets_changes_no_bit():

@@ -43,10 +43,13 @@ connection's p_w·d²/(A·cos θ_w), the layer's mixture pdf), which is what kee
 wet road reflecting a window from being all noise (multiple importance sampling; after the
 last vertex, where no direction is drawn, the connection takes weight 1). The lobe's random number is on a hash dimension of
 its own (7), drawn only there, so scenes without a layer keep their bits. The camera vertex
-keeps its base only, which receives ``1 − F(cos θ)`` of the light arriving, as the direct
-light's base does: the specular reflection of interreflected light in the surface the camera
-sees is left out (a stated approximation; the stored transport leaves out that surface's
-reflectance, and its white specular part would need a second transport). The road's r-table
+with a layer draws its direction the same way (toward the camera's view; the lobe's number on
+a hash dimension drawn only there) and keeps the two parts apart: the base's share
+(``ρ_0(λ)·base/pdf``, ρ_0 left to the response tables; ``1 − F`` of the light arriving when
+the specular lobe is never chosen) in the transport, the layer's (``spec/pdf``, white) in a
+second transport for such samples (``out_spec``). Its connections to the moon and lit windows
+keep the base's part only (the moon's glint is the direct light's; a window's reflection is
+gathered by the drawn direction). The road's r-table
 applies to direct light only: interreflected light reaches the carriageway from every
 direction and is reflected by its Lambertian base (and its layer, where it has one).
 
@@ -260,6 +263,7 @@ def trace_paths(
     point,
     normal,
     geo,
+    view,
     material,
     item_id,
     spp,
@@ -291,13 +295,15 @@ def trace_paths(
     tri_window,
     window_mis,
     out,
+    out_spec,
     out_paths,
 ):
     """Interreflected transport of G items of ``spp`` start samples each (a pixel's camera
     samples, or one calculation point).
 
     ``point``, ``normal`` (shading), ``geo`` (geometric) (G·spp, 3), both facing the side seen,
-    and ``material`` (G·spp,) of the start samples (outside 0 … K − 1: no path starts there);
+    ``view`` (G·spp, 3) unit directions toward the camera (used where a start sample's material
+    has a specular layer), and ``material`` (G·spp,) of the start samples (outside 0 … K − 1: no path starts there);
     ``item_id`` (G,) the id each item's random numbers hash (the view's pixel index).
     ``n_paths`` paths per item start on its valid samples in turn; ``max_bounces`` vertices
     after the start at most, Russian roulette deciding from vertex ``rr_first`` on whether to
@@ -327,7 +333,14 @@ def trace_paths(
 
     Writes ``out`` (rows, C, n_nodes): the mean over a row's paths of the node values of
     E_ind/π·T per channel (rows are items, or samples with ``per_sample``), and ``out_paths``
-    (rows,) the number of paths averaged. An item's row weighs each start sample alike (as the
+    (rows,) the number of paths averaged; ``out_spec`` (rows, C, n_nodes), or (0, C, n_nodes)
+    for none, the same for the light the start samples' specular layer reflects (white: no
+    reflectance of the start sample to apply; zero for samples without a layer, whose random
+    numbers are those of before). With ``start_gloss`` a start sample with a layer draws its
+    direction from both lobes (:func:`_layered_direction`, the lobe's number on "bounce" 1,
+    dimension 7) and splits the path's light at its end: the base's share to ``out``, the
+    layer's to ``out_spec``; a lit window met by that direction adds its specular part (its
+    connection from the start sample, the base's part, is as before). An item's row weighs each start sample alike (as the
     response tables do) and, where its samples see several materials, each path's transport by
     its sample's reflectance over the samples' mean reflectance ρ̄(λ), so that ρ̄·(the row) is
     the mean of ρ_s·T_s over the samples, exactly at 1 nm."""
@@ -354,11 +367,14 @@ def trace_paths(
     width = band_weight.shape[1]
     n_lum = pos.shape[0]
     rows = spp if per_sample else 1
+    do_spec = out_spec.shape[0] > 0
     n_chunks = (G + _ITEMS_PER_CHUNK - 1) // _ITEMS_PER_CHUNK
     for chunk in prange(n_chunks):
         # Scratch for the chunk's items, made once.
         valid = np.empty(spp, np.int64)
-        acc = np.empty((rows, C, N))
+        # (Row ``rows``: one path's scratch, split between the two transports at its end.)
+        acc = np.empty((rows + 1, C, N))
+        accs = np.empty((rows, C, N))
         count = np.empty(rows, np.int64)
         beta = np.empty(N)
         n_mat = min(spp, K)
@@ -387,9 +403,12 @@ def trace_paths(
                 for c in range(C):
                     for j in range(n_nodes):
                         out[r, c, j] = 0.0
+                        if do_spec:
+                            out_spec[r, c, j] = 0.0
             if nv == 0 or n_paths == 0:
                 continue
             acc[:] = 0.0
+            accs[:] = 0.0
             count[:] = 0
             # Each valid start sample stands for 1/nv of the item, as it does in the response
             # tables (which apply each sample's own reflectance): what a path from sample v adds
@@ -484,26 +503,44 @@ def trace_paths(
                         else:
                             for n in range(N):
                                 acc[a, cw_, n] += v
+                # A camera surface with a specular layer: the path's light is split at its end
+                # between the base's transport (to take ρ_0(λ)) and the layer's white one; until
+                # then it gathers in the scratch row.
+                split = start_gloss and f0[k_prev] > 0.0
+                pm = mixed and not split
+                a_out = a
+                frac_s = 0.0
+                if split:
+                    a = rows
+                    acc[a] = 0.0
                 for b in range(1, last + 1):
-                    if b > 1 and f0[k_prev] > 0.0:
-                        # A bounce vertex with a specular layer: one of its two lobes (the lobe's
-                        # random number on dimension 7, drawn only here), the throughput times
-                        # (f_s·cos + ρ(λ)·(1 − F)·cos/π) / (mixture pdf).
+                    if (b > 1 and f0[k_prev] > 0.0) or (b == 1 and split):
+                        # A vertex with a specular layer: one of its two lobes (the lobe's random
+                        # number on dimension 7, drawn only here), the throughput times
+                        # (f_s·cos + ρ(λ)·(1 − F)·cos/π) / (mixture pdf); at the camera vertex
+                        # (toward the camera) the two parts are kept apart, ρ_0 left out.
+                        if b == 1:
+                            vx = np.float64(view[idx, 0])
+                            vy = np.float64(view[idx, 1])
+                            vz = np.float64(view[idx, 2])
+                        else:
+                            vx, vy, vz = -wx, -wy, -wz
                         wx, wy, wz, l_spec, l_base, l_pdf = _layered_direction(
-                            sx, sy, sz, -wx, -wy, -wz, f0[k_prev], alpha[k_prev], rho_lum[k_prev],
+                            sx, sy, sz, vx, vy, vz, f0[k_prev], alpha[k_prev], rho_lum[k_prev],
                             _rand(key, gid, i, b, 7), _rand(key, gid, i, b, 0), _rand(key, gid, i, b, 1),
                         )  # fmt: skip
                         if wx * gx + wy * gy + wz * gz <= 0.0 or not (l_spec + l_base > 0.0):
                             break
-                        for n in range(N):
-                            beta[n] *= l_spec + rho[k_prev, n] * l_base
+                        if b == 1:
+                            weight = l_spec + l_base
+                            frac_s = l_spec / weight
+                        else:
+                            for n in range(N):
+                                beta[n] *= l_spec + rho[k_prev, n] * l_base
                     else:
                         wx, wy, wz = _cosine_direction(sx, sy, sz, _rand(key, gid, i, b, 0), _rand(key, gid, i, b, 1))
                         if wx * gx + wy * gy + wz * gz <= 0.0:
                             break
-                    if f0[k_prev] > 0.0 and b == 1 and start_gloss:
-                        # The base receives what the interface transmits (render.light.gloss).
-                        weight *= 1.0 - fresnel_one(wx * sx + wy * sy + wz * sz, f0[k_prev])
                     o[0] = px + offset * gx
                     o[1] = py + offset * gy
                     o[2] = pz + offset * gz
@@ -511,6 +548,15 @@ def trace_paths(
                     d[1] = wy
                     d[2] = wz
                     t, j, _, _ = closest_one(wb, wi, tv, ti, o, d, 0.0, np.inf, st_node, st_t, work, WIDE)
+                    if do_win and b == 1 and split and j >= 0 and tri_window[j] >= 0 and do_spec:
+                        # The camera surface's layer reflecting a lit window: its specular part
+                        # by the drawn direction alone (the connection above gathers the base's).
+                        w_ = tri_window[j]
+                        if -(wx * win[w_, 9] + wy * win[w_, 10] + wz * win[w_, 11]) > 0.0:
+                            v = f * l_spec
+                            cw_ = c_win + win_kind[w_]
+                            for n in range(N):
+                                accs[a_out, cw_, n] += v
                     if (
                         do_win
                         and b > 1
@@ -530,7 +576,7 @@ def trace_paths(
                                 mis = power_heuristic(1.0, l_pdf, 1.0, p_light)
                             v = weight * f * mis
                             cw_ = c_win + win_kind[w_]
-                            if mixed:
+                            if pm:
                                 for n in range(N):
                                     acc[a, cw_, n] += beta[n] * ratio[q_first, n] * v
                             else:
@@ -540,7 +586,7 @@ def trace_paths(
                         if do_sky and wz > 0.0:
                             # Left the scene toward the sky dome: its unit luminance.
                             v = weight * f
-                            if mixed:
+                            if pm:
                                 for n in range(N):
                                     acc[a, c_sky, n] += beta[n] * ratio[q_first, n] * v
                             else:
@@ -607,9 +653,9 @@ def trace_paths(
                                     acc, a, ch, beta, rho, k,
                                     v * (1.0 - fresnel_one(gx * lx + gy * ly + gz * lz, f0[k])),
                                     v * math.pi * specular_one(gx, gy, gz, lx, ly, lz, -wx, -wy, -wz, f0[k], alpha[k]),
-                                    mixed, ratio, q_first,
+                                    pm, ratio, q_first,
                                 )  # fmt: skip
-                            elif mixed:
+                            elif pm:
                                 for n in range(N):
                                     acc[a, ch, n] += beta[n] * ratio[q_first, n] * v
                             else:
@@ -630,9 +676,9 @@ def trace_paths(
                                     _deposit_layered(
                                         acc, a, c_moon, beta, rho, k, v * (1.0 - fresnel_one(cm, f0[k])),
                                         v * math.pi * specular_one(gx, gy, gz, mx, my, mz, -wx, -wy, -wz, f0[k], alpha[k]),
-                                        mixed, ratio, q_first,
+                                        pm, ratio, q_first,
                                     )  # fmt: skip
-                                elif mixed:
+                                elif pm:
                                     for n in range(N):
                                         acc[a, c_moon, n] += beta[n] * ratio[q_first, n] * v
                                 else:
@@ -668,9 +714,9 @@ def trace_paths(
                                 _deposit_layered(
                                     acc, a, cw_, beta, rho, k, v * (1.0 - fresnel_one(d[0] * gx + d[1] * gy + d[2] * gz, f0[k])),
                                     v * math.pi * specular_one(gx, gy, gz, d[0], d[1], d[2], -wx, -wy, -wz, f0[k], alpha[k]),
-                                    mixed, ratio, q_first,
+                                    pm, ratio, q_first,
                                 )  # fmt: skip
-                            elif mixed:
+                            elif pm:
                                 for n in range(N):
                                     acc[a, cw_, n] += beta[n] * ratio[q_first, n] * v
                             else:
@@ -687,6 +733,17 @@ def trace_paths(
                             break
                         weight /= survive
                     k_prev = k
+                if split:
+                    # The path's light: the base's share to the transport (ρ_0 applied later,
+                    # with the sample's reflectance ratio), the layer's to the white one.
+                    for c in range(C):
+                        for n in range(N):
+                            t = acc[rows, c, n]
+                            tb = t * (1.0 - frac_s)
+                            if mixed:
+                                tb *= ratio[q_first, n]
+                            acc[a_out, c, n] += tb
+                            accs[a_out, c, n] += t * frac_s
             for a in range(rows):
                 if count[a] == 0:
                     continue
@@ -696,8 +753,12 @@ def trace_paths(
                 for c in range(C):
                     for j in range(n_nodes):
                         v = 0.0
+                        vs = 0.0
                         for w in range(width):
                             n = band_start[j] + w
                             if n < N:
                                 v += band_weight[j, w] * acc[a, c, n]
+                                vs += band_weight[j, w] * accs[a, c, n]
                         out[r, c, j] = v * inv
+                        if do_spec:
+                            out_spec[r, c, j] = vs * inv

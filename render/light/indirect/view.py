@@ -141,7 +141,12 @@ class IndirectBuffers:
     a pixel's camera samples that see the sky, ``window_seen`` (n_pix, 2) that see a lit
     house or shop window; ``ambient_spds`` (4, N_BINS) the spectra of the four;
     ``ambient_channels`` which of the four ``ambient_values`` keeps (the A that were on when
-    traced: a term off then stays dark at any level)."""
+    traced: a term off then stays dark at any level). For the pixels whose camera samples see
+    a specular layer, ``spec_index`` (n_g,) int32: the light that layer reflects, white (no
+    reflectance to apply), as ``spec_values`` (n_g, C, n_nodes) float16 relative to
+    ``spec_scale`` (n_g,) float32, and with night light ``spec_ambient_values`` (n_g, A,
+    n_nodes) relative to ``spec_ambient_scale`` (162 bytes per such pixel and channel plus 8).
+    They are kept as traced by the denoise."""
 
     width_px: int
     height_px: int
@@ -158,13 +163,28 @@ class IndirectBuffers:
     ambient_spds: np.ndarray | None = None
     window_seen: np.ndarray | None = None
     ambient_channels: tuple[int, ...] = ()
+    spec_index: np.ndarray | None = None
+    spec_values: np.ndarray | None = None
+    spec_scale: np.ndarray | None = None
+    spec_ambient_values: np.ndarray | None = None
+    spec_ambient_scale: np.ndarray | None = None
 
     @property
     def nbytes(self) -> int:
         """Bytes held by the stored transport."""
         extra = sum(
             a.nbytes
-            for a in (self.ambient_values, self.ambient_scale, self.sky_seen, self.window_seen)
+            for a in (
+                self.ambient_values,
+                self.ambient_scale,
+                self.sky_seen,
+                self.window_seen,
+                self.spec_index,
+                self.spec_values,
+                self.spec_scale,
+                self.spec_ambient_values,
+                self.spec_ambient_scale,
+            )
             if a is not None
         )
         return int(self.values.nbytes + self.scale.nbytes + self.paths.nbytes + extra)
@@ -247,16 +267,27 @@ class PathTracer:
         *,
         per_sample: bool = False,
         start_gloss: bool = True,
+        view: np.ndarray | None = None,
+        spec: np.ndarray | None = None,
     ) -> tuple[np.ndarray, np.ndarray]:
         """Mean node values (rows, C + A, n_nodes) float64 and paths (rows,) of items of ``spp``
         consecutive start samples (rows: items, or samples with ``per_sample``): the
         luminaires' C channels (none without bounces), then the A ambient ones (sky glow,
         moonlight) with night light; ``start_gloss``: the start surfaces' specular layer takes
-        its share of the light (False: the light arriving, as at calculation points)."""
+        its share of the light (False: the light arriving, as at calculation points);
+        ``view`` (samples, 3) unit directions toward the camera (default: along ``normal``);
+        ``spec`` (rows, C + A, n_nodes) float64, if given, receives the light the start
+        surfaces' specular layer reflects (white; zero where they have none)."""
         n_items = int(item_id.shape[0])
         rows = n_items * spp if per_sample else n_items
         out = np.zeros((rows, self.n_channels + self.n_ambient, self.basis.n_nodes))
         paths = np.zeros(rows, np.int64)
+        if spec is None:
+            spec = np.zeros((0,) + out.shape[1:])
+        elif spec.shape != out.shape or spec.dtype != np.float64 or not spec.flags.c_contiguous:
+            raise ValueError(f"the specular transport needs a C-contiguous float64 array of shape {out.shape}")
+        else:
+            spec[:] = 0.0
         if self.grid is None or n_items == 0 or out.shape[1] == 0:
             return out, paths
         key = seed_key(seed) ^ _KEY_SALT
@@ -265,6 +296,7 @@ class PathTracer:
                 np.ascontiguousarray(point),
                 np.ascontiguousarray(normal),
                 np.ascontiguousarray(geo),
+                np.ascontiguousarray(normal if view is None else view, np.float64),
                 np.ascontiguousarray(material, np.int32),
                 np.ascontiguousarray(item_id, np.int64),
                 int(spp),
@@ -296,6 +328,7 @@ class PathTracer:
                 self.tri_window,
                 self.window_mis,
                 out,
+                spec,
                 paths,
             )
         return out, paths
@@ -369,9 +402,31 @@ def trace_view(
     sky_seen = np.zeros(W * H, np.float32) if A else None
     lit = tracer.windows if A and tracer.windows is not None and tracer.windows.n else None
     window_seen = np.zeros((W * H, 2), np.float32) if A else None
-    for tile, moments, count in _transport_tiles(buffers, tracer, seed, False, progress):
+    glossy_material = tracer.f0 > 0.0
+    g_index, g_values, g_scale, g_amb, g_amb_scale = [], [], [], [], []
+    for tile in _cast_tiles(buffers.rays, spp, progress=progress, label="interreflection"):
         pixel = tile.index[::spp] // spp
+        material = buffers.response[tile.index]
+        k = material.astype(np.int64)
+        seen = (k >= 0) & (k < glossy_material.shape[0])
+        gloss_sample = np.zeros(k.shape, np.bool_)
+        gloss_sample[seen] = glossy_material[k[seen]]
+        any_gloss = bool(gloss_sample.any())
+        spec = np.zeros((pixel.shape[0], C + A, n)) if any_gloss else None
+        moments, count = tracer.trace(
+            tile.point, tile.normal, tile.geo, material, pixel, spp, seed, view=-tile.direction, spec=spec
+        )
         values[pixel], scale[pixel] = pack_rows(moments[:, :C])
+        if any_gloss:
+            rows = gloss_sample.reshape(-1, spp).any(axis=1)
+            g_index.append(pixel[rows].astype(np.int32))
+            v, sc = pack_rows(spec[rows][:, :C])
+            g_values.append(v)
+            g_scale.append(sc)
+            if A:
+                v, sc = pack_rows(spec[rows][:, C:][:, active])
+                g_amb.append(v)
+                g_amb_scale.append(sc)
         paths[pixel] = count
         if A:
             amb[pixel], amb_scale[pixel] = pack_rows(moments[:, C:][:, active])
@@ -383,6 +438,13 @@ def trace_view(
                 for q in range(2):
                     window_seen[pixel, q] = (kind == q).reshape(-1, spp).mean(axis=1)
     spds = np.ascontiguousarray(ambient_spds, np.float64).reshape(A, N_BINS) if A else None
+    if g_index:
+        spec_index = np.concatenate(g_index)
+        spec_values, spec_scale = np.concatenate(g_values), np.concatenate(g_scale)
+        spec_amb = np.concatenate(g_amb) if A else None
+        spec_amb_scale = np.concatenate(g_amb_scale) if A else None
+    else:
+        spec_index = spec_values = spec_scale = spec_amb = spec_amb_scale = None
     return IndirectBuffers(
         W,
         H,
@@ -399,6 +461,11 @@ def trace_view(
         spds,
         window_seen,
         tuple(active),
+        spec_index,
+        spec_values,
+        spec_scale,
+        spec_amb,
+        spec_amb_scale,
     )
 
 
@@ -433,6 +500,11 @@ def indirect_responses(
     if distinct and indirect.values.shape[1]:
         table = transport_table(reflectances, np.array(distinct), indirect.settings.basis, w)
         resolve_transport(response, indirect.spp, indirect.values, indirect.scale, factors, table, lamp_of_channel, out)
+        if indirect.spec_index is not None and indirect.spec_index.size:
+            white = transport_table(np.ones((1, N_BINS)), np.array(distinct), indirect.settings.basis, w)
+            _add_specular(
+                indirect.spec_index, indirect.spec_values, indirect.spec_scale, factors, white, lamp_of_channel, out
+            )
     if indirect.ambient_values is not None:
         _add_ambient(indirect, response, reflectances, w, indirect.settings.night, out)
     return out.reshape(indirect.height_px, indirect.width_px, w.shape[1])
@@ -485,6 +557,17 @@ def _add_ambient(
             np.arange(len(kept)),
             out,
         )
+        if indirect.spec_index is not None and indirect.spec_index.size and indirect.spec_ambient_values is not None:
+            white_t = transport_table(np.ones((1, N_BINS)), spds[kept], indirect.settings.basis, w)
+            _add_specular(
+                indirect.spec_index,
+                indirect.spec_ambient_values,
+                indirect.spec_ambient_scale,
+                levels[kept],
+                white_t,
+                np.arange(len(kept)),
+                out,
+            )
     # What the camera sees of the sky and of lit windows: their luminance, a white (ρ = 1)
     # response of their spectrum at one photopic unit.
     white = response_table(np.zeros((0, N_BINS)), spds, weights=w)[-1]
@@ -496,6 +579,23 @@ def _add_ambient(
             out += (levels[c] * share.astype(np.float64))[:, None] * white[c][None, :]
 
 
+def _add_specular(
+    index: np.ndarray,
+    values: np.ndarray,
+    scale: np.ndarray,
+    factors: ArrayLike,
+    white: np.ndarray,
+    lamp_of_channel: np.ndarray,
+    out: np.ndarray,
+) -> None:
+    """Add the light the camera surfaces' specular layer reflects (``values`` relative to
+    ``scale`` for the pixels ``index``) resolved with the white (ρ ≡ 1) response table
+    ``white`` (1, M, n_nodes, J) to ``out`` (n_pix, J)."""
+    part = np.zeros((index.shape[0], out.shape[1]))
+    resolve_transport(np.zeros(index.shape[0], np.int32), 1, values, scale, factors, white, lamp_of_channel, part)
+    out[index] += part
+
+
 def transport_at_points(
     points_m: ArrayLike,
     normals: ArrayLike,
@@ -505,6 +605,8 @@ def transport_at_points(
     *,
     geo_normals: ArrayLike | None = None,
     first_id: int = 0,
+    view_dirs: ArrayLike | None = None,
+    specular_out: np.ndarray | None = None,
 ) -> tuple[np.ndarray, np.ndarray]:
     """Interreflected transport at surface points: (N, C, n_nodes) mean node values of
     E_ind/π·T per channel (cd/m² per unit transport, full output) and the paths per point.
@@ -513,14 +615,17 @@ def transport_at_points(
     ones, default the same), ``materials`` (N,) the points' material indices, whose specular
     layer lets through its share of the light (their reflectance itself is not in the result);
     None: the light arriving at bare points (calculation points). Point ``i`` hashes id
-    ``first_id + i``."""
+    ``first_id + i``. ``view_dirs`` (N, 3) unit directions toward the viewer (default: the
+    normals); ``specular_out`` (N, C, n_nodes) float64, if given, receives the light the
+    points' specular layer reflects toward them (white: no reflectance to apply)."""
     pts = np.ascontiguousarray(points_m, np.float64).reshape(-1, 3)
     nrm = np.ascontiguousarray(normals, np.float64).reshape(-1, 3)
     geo = nrm if geo_normals is None else np.ascontiguousarray(geo_normals, np.float64).reshape(-1, 3)
     bare = materials is None
     mat = np.zeros(pts.shape[0], np.int32) if bare else np.ascontiguousarray(materials, np.int32).reshape(-1)
     ids = first_id + np.arange(pts.shape[0], dtype=np.int64)
-    return tracer.trace(pts, nrm, geo, mat, ids, 1, seed, start_gloss=not bare)
+    view = None if view_dirs is None else np.ascontiguousarray(view_dirs, np.float64).reshape(-1, 3)
+    return tracer.trace(pts, nrm, geo, mat, ids, 1, seed, start_gloss=not bare, view=view, spec=specular_out)
 
 
 def illuminance_from_transport(

@@ -1,0 +1,139 @@
+"""The specular layer of the surface the camera sees: the second, white transport.
+
+Sources of the expected values:
+* Schlick's Fresnel approximation (analytic): a smooth layer seen at cos θ_v under a uniform sky
+  of luminance L reflects F(cos θ_v)·L, F = F0 + (1 − F0)·(1 − cos θ_v)⁵; the base under it,
+  lit through the interface, receives (1 − F0)·20/21 of E/π = L
+  (``render.light.gloss.BASE_ALBEDO_PER_TRANSMITTANCE``, Schlick integrated, analytic);
+* the GGX layer's directional albedo at finite roughness by the numpy quadrature of
+  ``tests/test_indirect_gloss.py`` (Walter et al. 2007, independent of the renderer's sampler);
+* a mirror reflects a lit window at F(cos θ_v) times its luminance where the mirrored view
+  direction meets the window (analytic).
+* the memory estimate: 81 float16 node values per pixel and channel plus a float32 scale and an
+  int32 index per glossy pixel (the storage's definition).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+from indirect_scenes import isotropic_source, mesh_of
+from test_indirect_gloss import _ggx_albedo, _room
+
+from render.colour.spectra import N_BINS
+from render.geometry import shapes
+from render.light.indirect import IndirectSettings, PathTracer, transport_at_points
+from render.light.indirect.night import NightLight
+from render.light.indirect.windows import LitWindows
+from render.limits import render_memory_estimate
+from render.rays.bvh import build_bvh
+
+SKY, WINDOW = 1, 3
+BAND = 40
+
+
+def _schlick(cos, f0):
+    return f0 + (1.0 - f0) * (1.0 - cos) ** 5
+
+
+def _view(theta_deg, n):
+    t = math.radians(theta_deg)
+    return np.tile([math.sin(t), 0.0, math.cos(t)], (n, 1))
+
+
+def _on_wet_floor(f0, alpha, rho, theta_deg, night, windows=None, paths=2048, n=48, seed=5, half=5000.0):
+    """Base and specular transports (per point, band BAND) at ``n`` points on a wet floor seen
+    at ``theta_deg`` from the normal."""
+    s = half
+    a, b, c, d = (-s, -s, 0.0), (s, -s, 0.0), (s, s, 0.0), (-s, s, 0.0)
+    parts = [[shapes.flat_part(np.array([[a, b, c], [a, c, d]], np.float64), "body")]]
+    names = ["floor"]
+    if windows is not None:
+        a, b, c, d = (-1.0, -1.0, 2.0), (-1.0, 1.0, 2.0), (1.0, 1.0, 2.0), (1.0, -1.0, 2.0)  # facing down
+        parts.append([shapes.flat_part(np.array([[a, b, c], [a, c, d]], np.float64), "body")])
+        names.append("glass")
+    mesh = mesh_of(parts, names)
+    mesh.material_gloss = np.array([[f0, alpha], [0.0, 1.0]][: len(names)], np.float64)
+    bvh = build_bvh(mesh.triangles_m)
+    st = IndirectSettings(bounces=1, samples_per_pixel=paths, night=night)
+    rho_k = np.vstack([np.full(N_BINS, float(rho)), np.zeros(N_BINS)])[: len(names)]
+    tracer = PathTracer(mesh, bvh, isotropic_source([0.0, 0.0, 50000.0]), rho_k, st, windows=windows)
+    rng = np.random.default_rng(seed)
+    pts = np.column_stack([rng.uniform(-0.3, 0.3, (n, 2)), np.zeros(n)])
+    nrm = np.tile([0.0, 0.0, 1.0], (n, 1))
+    spec = np.zeros((n, tracer.n_channels + tracer.n_ambient, tracer.basis.n_nodes))
+    m, _ = transport_at_points(
+        pts, nrm, np.zeros(n, np.int32), tracer, seed, view_dirs=_view(theta_deg, n), specular_out=spec
+    )
+    return m[:, :, BAND], spec[:, :, BAND]
+
+
+def _mean_err(x):
+    return x.mean(axis=0), x.std(axis=0, ddof=1) / math.sqrt(x.shape[0])
+
+
+@pytest.mark.parametrize("theta_deg", [0.0, 80.0])
+def test_smooth_wet_floor_reflects_the_sky_at_fresnel(theta_deg):
+    # Black base, α = 0.01: the camera sees F(cos θ_v)·L_sky in the floor (Schlick, analytic),
+    # within 1 % and within 4 σ of the GGX quadrature (masking at α = 0.01).
+    f0 = 0.02
+    base, spec = _on_wet_floor(f0, 0.01, 0.0, theta_deg, NightLight(sky_luminance_cd_m2=1.0))
+    mean, err = _mean_err(spec)
+    cos = math.cos(math.radians(theta_deg))
+    ref, ref_err = _ggx_albedo(cos, f0, 0.01)
+    assert abs(mean[SKY] - ref) < 4.0 * math.hypot(err[SKY], ref_err) + 1e-9
+    assert abs(mean[SKY] / _schlick(cos, f0) - 1.0) < 0.01
+
+
+@pytest.mark.parametrize("theta_deg", [30.0, 75.0])
+def test_grey_wet_floor_splits_base_and_layer(theta_deg):
+    # ρ = 0.5 under a rough water layer (α = 0.1): the base's transport stays (1 − F0)·20/21
+    # of the sky (analytic, as without the layer's share), the layer's is its directional
+    # albedo A(θ_v) (quadrature).
+    f0, alpha = 0.02, 0.1
+    base, spec = _on_wet_floor(f0, alpha, 0.5, theta_deg, NightLight(sky_luminance_cd_m2=1.0))
+    mb, eb = _mean_err(base)
+    ms, es = _mean_err(spec)
+    expected_base = (1.0 - f0) * 20.0 / 21.0
+    assert abs(mb[SKY] - expected_base) < 4.0 * eb[SKY] + 1e-3
+    ref, ref_err = _ggx_albedo(math.cos(math.radians(theta_deg)), f0, alpha)
+    assert abs(ms[SKY] - ref) < 4.0 * math.hypot(es[SKY], ref_err)
+
+
+def test_mirror_wet_floor_shows_a_lit_window_at_fresnel_times_its_luminance():
+    # A nearly smooth layer (α = 0.02, F0 = 0.5, black base) seen at 10° from the normal: the
+    # mirrored view direction meets a 2 m × 2 m lit window 2 m up, so the camera sees
+    # F(cos θ_v)·L_window in the floor (analytic).
+    f0, theta = 0.5, 10.0
+    e1, e2 = np.array([0.0, 2.0, 0.0]), np.array([2.0, 0.0, 0.0])
+    nrm_w = np.cross(e1, e2)
+    area = float(np.linalg.norm(nrm_w))
+    win = LitWindows(
+        np.concatenate([[-1.0, -1.0, 2.0], e1, e2, nrm_w / area, [area]])[None],
+        np.zeros(1, np.int64),
+        np.zeros(1, np.int64),
+        (1, 0),
+    )
+    base, spec = _on_wet_floor(f0, 0.02, 0.0, theta, NightLight(window_lit_fraction=1.0), windows=win, paths=512)
+    mean, err = _mean_err(spec)
+    expected = _schlick(math.cos(math.radians(theta)), f0)
+    assert abs(mean[WINDOW] / expected - 1.0) < 0.01 + 4.0 * err[WINDOW] / expected
+
+
+def test_start_surfaces_without_a_layer_keep_their_bits():
+    # Camera surfaces (materials given) with F0 = 0 keep the bits of no layer, and their
+    # specular transport is zero.
+    plain = _room(None, start_materials=True)
+    assert np.array_equal(plain, _room([[0.0, 1.0], [0.0, 0.3], [0.0, 0.1]], start_materials=True))
+    # ... and a layer on a camera surface changes them (the check can fail).
+    assert not np.array_equal(plain, _room([[0.02, 0.1], [0.0, 1.0], [0.0, 1.0]], start_materials=True))
+
+
+def test_memory_estimate_counts_the_gloss_pixels():
+    # 162 bytes per glossy pixel and channel plus 8 (scale and index).
+    w, h, spp, c = 1920, 1080, 4, 2
+    none = render_memory_estimate(w, h, spp, c, True).bytes
+    half = render_memory_estimate(w, h, spp, c, True, 0.5).bytes
+    assert half - none == math.ceil(0.5 * w * h) * (8 + 162 * c)
