@@ -16,6 +16,7 @@ Sources of the expected values:
 from __future__ import annotations
 
 import math
+from dataclasses import replace
 
 import numpy as np
 import pytest
@@ -137,3 +138,31 @@ def test_memory_estimate_counts_the_gloss_pixels():
     none = render_memory_estimate(w, h, spp, c, True).bytes
     half = render_memory_estimate(w, h, spp, c, True, 0.5).bytes
     assert half - none == math.ceil(0.5 * w * h) * (8 + 162 * c)
+
+
+def test_wet_road_view_adds_the_layer_and_relights_by_a_multiply():
+    # The demo street with its asphalt wet (water, α = 0.1): the road's pixels keep a second
+    # transport, it adds light (the reflection left out before), and relighting stays linear
+    # in the channels' factors (a relight is a multiply; common practice, no source).
+    from render.light.indirect import indirect_xyz, trace_view
+    from render.light.luminaires import channel_factors
+    from render.resources import demo_scene_path
+    from render.study import Study
+
+    study = Study(demo_scene_path())
+    gloss = np.tile([0.0, 1.0], (len(study.mesh.material_names), 1))
+    gloss[study.mesh.material_names.index("asphalt-worn")] = (0.02, 0.1)
+    study.mesh.material_gloss = gloss
+    rendered = study.render_view(None, "sodium", width_px=64, samples_per_pixel=2)
+    b, lights = rendered.buffers, rendered.lights
+    ind = trace_view(b, lights, study.bvh, study.reflectances, IndirectSettings(bounces=2, samples_per_pixel=4), seed=2)
+    assert ind.spec_index is not None and 0 < ind.spec_index.size < b.width_px * b.height_px
+    f, lamps = channel_factors(lights, study.setup("sodium"))
+    f = np.asarray(f, np.float64)
+    spds = study.lamp_spds(lamps)
+    full = indirect_xyz(ind, b.response, f, spds, study.reflectances)
+    bare = indirect_xyz(
+        replace(ind, spec_index=None, spec_values=None, spec_scale=None), b.response, f, spds, study.reflectances
+    )
+    assert full[..., 1].sum() > bare[..., 1].sum()
+    np.testing.assert_allclose(indirect_xyz(ind, b.response, 2.5 * f, spds, study.reflectances), 2.5 * full, rtol=1e-12)
