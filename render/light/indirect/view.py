@@ -5,7 +5,10 @@ camera, the samples per pixel and the seed; :mod:`render.light.integrator`), tra
 ``samples_per_pixel`` interreflection paths per pixel from them
 (:func:`render.light.indirect.paths.trace_paths`) and keeps, per pixel and light channel, the
 node values of the transport (:mod:`render.light.indirect.transport`) as float16 relative to a
-per-pixel scale: :class:`IndirectBuffers`, 162 bytes per pixel and channel plus 8 per pixel.
+per-pixel scale: :class:`IndirectBuffers`, 162 bytes per pixel and channel plus 8 per pixel;
+the pixels whose camera samples see a specular layer keep a second, white transport of what
+that layer reflects (as much again per such pixel, plus its int32 index), resolved with the
+white response and added.
 :func:`indirect_xyz` turns them into absolute X, Y, Z, Y' for any lamps, lumens and dimming per
 channel, to be added to the direct light's (a relight casts no ray).
 
