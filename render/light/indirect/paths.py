@@ -189,6 +189,30 @@ def _layered_direction(nx, ny, nz, vx, vy, vz, f0, alpha, rho_lum, u_lobe, u1, u
 
 
 @numba.njit(cache=True, nogil=True, inline="always")
+def _deposit(acc, a, ch, beta, v, mixed, ratio, q_first):
+    """acc[a, ch] += β(λ)·v (times the sample's reflectance ratio when the item's samples see
+    several materials): light arriving at a vertex without a specular layer."""
+    if mixed:
+        for n in range(beta.shape[0]):
+            acc[a, ch, n] += beta[n] * ratio[q_first, n] * v
+    else:
+        for n in range(beta.shape[0]):
+            acc[a, ch, n] += beta[n] * v
+
+
+@numba.njit(cache=True, nogil=True, inline="always")
+def _deposit_flat(acc, a, ch, v, mixed, ratio, q_first):
+    """acc[a, ch] += v (times the sample's reflectance ratio where mixed): light at the camera
+    surface itself, whose reflectance the response tables apply."""
+    if mixed:
+        for n in range(acc.shape[2]):
+            acc[a, ch, n] += ratio[q_first, n] * v
+    else:
+        for n in range(acc.shape[2]):
+            acc[a, ch, n] += v
+
+
+@numba.njit(cache=True, nogil=True, inline="always")
 def _deposit_layered(acc, a, ch, beta, rho, k, base, spec, mixed, ratio, q_first):
     """acc[a, ch] += β(λ)·(ρ_k(λ)·base + spec) (times the sample's reflectance ratio when the
     item's samples see several materials): light reflected at a vertex with a specular layer."""
@@ -478,12 +502,7 @@ def trace_paths(
                             v = f * cm / math.pi
                             if f0[k_prev] > 0.0 and start_gloss:
                                 v *= 1.0 - fresnel_one(cm, f0[k_prev])
-                            if mixed:
-                                for n in range(N):
-                                    acc[a, c_moon, n] += ratio[q_first, n] * v
-                            else:
-                                for n in range(N):
-                                    acc[a, c_moon, n] += v
+                            _deposit_flat(acc, a, c_moon, v, mixed, ratio, q_first)
                 if do_win:
                     # The lit windows' direct light at the start sample (random numbers of
                     # "bounce" 0, dimensions 4-6).
@@ -497,12 +516,7 @@ def trace_paths(
                         if f0[k_prev] > 0.0 and start_gloss:
                             v *= 1.0 - fresnel_one(d[0] * sx + d[1] * sy + d[2] * sz, f0[k_prev])
                         cw_ = c_win + win_kind[wpick]
-                        if mixed:
-                            for n in range(N):
-                                acc[a, cw_, n] += ratio[q_first, n] * v
-                        else:
-                            for n in range(N):
-                                acc[a, cw_, n] += v
+                        _deposit_flat(acc, a, cw_, v, mixed, ratio, q_first)
                 # A camera surface with a specular layer: the path's light is split at its end
                 # between the base's transport (to take ρ_0(λ)) and the layer's white one; until
                 # then it gathers in the scratch row.
@@ -576,22 +590,12 @@ def trace_paths(
                                 mis = power_heuristic(1.0, l_pdf, 1.0, p_light)
                             v = weight * f * mis
                             cw_ = c_win + win_kind[w_]
-                            if pm:
-                                for n in range(N):
-                                    acc[a, cw_, n] += beta[n] * ratio[q_first, n] * v
-                            else:
-                                for n in range(N):
-                                    acc[a, cw_, n] += beta[n] * v
+                            _deposit(acc, a, cw_, beta, v, pm, ratio, q_first)
                     if j < 0:
                         if do_sky and wz > 0.0:
                             # Left the scene toward the sky dome: its unit luminance.
                             v = weight * f
-                            if pm:
-                                for n in range(N):
-                                    acc[a, c_sky, n] += beta[n] * ratio[q_first, n] * v
-                            else:
-                                for n in range(N):
-                                    acc[a, c_sky, n] += beta[n] * v
+                            _deposit(acc, a, c_sky, beta, v, pm, ratio, q_first)
                         break
                     if b > max_bounces:
                         break
@@ -655,12 +659,8 @@ def trace_paths(
                                     v * math.pi * specular_one(gx, gy, gz, lx, ly, lz, -wx, -wy, -wz, f0[k], alpha[k]),
                                     pm, ratio, q_first,
                                 )  # fmt: skip
-                            elif pm:
-                                for n in range(N):
-                                    acc[a, ch, n] += beta[n] * ratio[q_first, n] * v
                             else:
-                                for n in range(N):
-                                    acc[a, ch, n] += beta[n] * v
+                                _deposit(acc, a, ch, beta, v, pm, ratio, q_first)
                     if do_moon:
                         cm = mx * gx + my * gy + mz * gz
                         if cm > 0.0:
@@ -678,12 +678,8 @@ def trace_paths(
                                         v * math.pi * specular_one(gx, gy, gz, mx, my, mz, -wx, -wy, -wz, f0[k], alpha[k]),
                                         pm, ratio, q_first,
                                     )  # fmt: skip
-                                elif pm:
-                                    for n in range(N):
-                                        acc[a, c_moon, n] += beta[n] * ratio[q_first, n] * v
                                 else:
-                                    for n in range(N):
-                                        acc[a, c_moon, n] += beta[n] * v
+                                    _deposit(acc, a, c_moon, beta, v, pm, ratio, q_first)
                     if do_win:
                         wpick, v, win_total = _window_connection(
                             px, py, pz, gx, gy, gz, gx, gy, gz, win, e_win,
@@ -716,12 +712,8 @@ def trace_paths(
                                     v * math.pi * specular_one(gx, gy, gz, d[0], d[1], d[2], -wx, -wy, -wz, f0[k], alpha[k]),
                                     pm, ratio, q_first,
                                 )  # fmt: skip
-                            elif pm:
-                                for n in range(N):
-                                    acc[a, cw_, n] += beta[n] * ratio[q_first, n] * v
                             else:
-                                for n in range(N):
-                                    acc[a, cw_, n] += beta[n] * v
+                                _deposit(acc, a, cw_, beta, v, pm, ratio, q_first)
                     if b >= last:
                         break
                     if b >= rr_first:
