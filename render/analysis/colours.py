@@ -688,7 +688,8 @@ class SetupView:
     cone_rod_cd_m2
         (H, W, 4) the CIE 2006 cone signals L, M, S (L + M in cd/m²) and the scotopic luminance
         (cd/m²) of each pixel from the light buffers
-        (:func:`render.vision.discrimination.cone_rod_weights`); ``None``: pairs not judged.
+        (:func:`render.vision.discrimination.cone_rod_weights`); only the tagged objects'
+        pixels are read, so the other pixels may be left 0; ``None``: pairs not judged.
     solid_angle_sr
         (H, W) solid angle of each pixel, sr (:meth:`render.vision.view.ViewGeometry.solid_angle_sr`);
         ``None``: pairs not judged.

@@ -34,6 +34,7 @@ from __future__ import annotations
 from collections.abc import Mapping, Sequence
 from typing import TYPE_CHECKING
 
+import numba
 import numpy as np
 
 from render.analysis.colours import (
@@ -67,14 +68,54 @@ __all__ = [
 ]
 
 
+@numba.njit(cache=True, nogil=True)
+def _pixel_ids_kernel(object_id, emitter, response, main, spp, whole, on_main):
+    """Per pixel of ``spp`` consecutive samples: ``whole[p]`` the object every sample sees when
+    they all see the same one and none a luminous opening, else -1; ``on_main[p]`` that object
+    when moreover every sample sees its main surface (material ``main[object]``), else -1."""
+    n_main = main.shape[0]
+    for p in range(whole.shape[0]):
+        start = p * spp
+        first = object_id[start]
+        same = True
+        lit = False
+        all_main = True
+        for s in range(start, start + spp):
+            o = object_id[s]
+            if o != first:
+                same = False
+            if emitter[s] >= 0:
+                lit = True
+            surface = main[o] if 0 <= o < n_main else -2
+            if not (response[s] == surface and surface >= 0):
+                all_main = False
+        w = first if same and not lit else -1
+        whole[p] = w
+        on_main[p] = w if all_main else -1
+
+
+def _pixel_ids(buffers: LightBuffers, main_material: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`pixel_object_ids` and :func:`pixel_main_surface_ids` in one pass over the samples."""
+    n_pix = buffers.height_px * buffers.width_px
+    whole = np.empty(n_pix, dtype=np.int32)
+    on_main = np.empty(n_pix, dtype=np.int32)
+    _pixel_ids_kernel(
+        np.ascontiguousarray(buffers.object_id.reshape(-1)),
+        np.ascontiguousarray(buffers.emitter.reshape(-1)),
+        np.ascontiguousarray(buffers.response.reshape(-1)),
+        np.ascontiguousarray(main_material, dtype=np.int32).reshape(-1),
+        int(buffers.spp),
+        whole,
+        on_main,
+    )
+    shape = (buffers.height_px, buffers.width_px)
+    return whole.reshape(shape), on_main.reshape(shape)
+
+
 def pixel_object_ids(buffers: LightBuffers) -> np.ndarray:
     """(H, W) object index per pixel where every camera sample of the pixel sees the same
     object and no luminous opening, else -1 (edges and mixed pixels are left out)."""
-    ids = buffers.object_id.reshape(-1, buffers.spp)
-    same = np.all(ids == ids[:, :1], axis=1)
-    em = (buffers.emitter.reshape(-1, buffers.spp) >= 0).any(axis=1)
-    out = np.where(same & ~em, ids[:, 0], -1)
-    return out.reshape(buffers.height_px, buffers.width_px).astype(np.int32)
+    return _pixel_ids(buffers, np.zeros(0, dtype=np.int32))[0]
 
 
 def main_material_indices(study: Study) -> np.ndarray:
@@ -91,16 +132,7 @@ def pixel_main_surface_ids(buffers: LightBuffers, main_material: np.ndarray) -> 
     object's main surface (its material is ``main_material[object]``) and no luminous opening,
     else -1: the pixels an object's colour as seen is taken from (glass, tyres, edges and mixed
     pixels are left out)."""
-    ids = buffers.object_id.reshape(-1, buffers.spp)
-    mats = buffers.response.reshape(-1, buffers.spp)
-    main = np.asarray(main_material, dtype=np.int32)
-    sample_main = np.full(ids.shape, -2, dtype=np.int32)
-    known = (ids >= 0) & (ids < main.size)
-    sample_main[known] = main[ids[known]]
-    on_main = (mats == sample_main) & (sample_main >= 0)
-    whole = pixel_object_ids(buffers).reshape(-1)
-    out = np.where(on_main.all(axis=1), whole, -1)
-    return out.reshape(buffers.height_px, buffers.width_px).astype(np.int32)
+    return _pixel_ids(buffers, main_material)[1]
 
 
 def tagged_objects(study: Study) -> list[TaggedObject]:
@@ -155,14 +187,18 @@ def best_views(
     return {k: max(names, key=lambda n: (counts[n][k], -names.index(n))) for k in counts[names[0]]}
 
 
-def cone_rod_image(study: Study, rendered: RenderedView, setup: str | Setup | None = None) -> np.ndarray:
+def cone_rod_image(
+    study: Study, rendered: RenderedView, setup: str | Setup | None = None, pixels: np.ndarray | None = None
+) -> np.ndarray:
     """(H, W, 4) per pixel the CIE 2006 cone signals L, M, S (L + M in cd/m²) and the scotopic
     luminance (cd/m²) of ``rendered`` under ``setup``'s lamps, lumens and dimming (default: the
     setup it was rendered with), from its light buffers
     (:func:`render.colour.colorimetry.resolve_responses` with
     :func:`render.vision.discrimination.cone_rod_weights`), with the view's interreflected light
     where the buffers keep it (``buffers.indirect``, resolved by
-    :func:`render.light.indirect.indirect_responses` with the same weights)."""
+    :func:`render.light.indirect.indirect_responses` with the same weights). ``pixels``: an
+    (H, W) bool mask; the direct light is resolved there only (the same values) and is 0
+    elsewhere, e.g. the tagged objects' pixels, all that the colour analysis reads."""
     from render.colour.colorimetry import resolve_responses
     from render.light.luminaires import channel_factors
     from render.vision.discrimination import cone_rod_weights
@@ -172,7 +208,7 @@ def cone_rod_image(study: Study, rendered: RenderedView, setup: str | Setup | No
     buffers = rendered.buffers
     spds = study.lamp_spds(lamps)
     weights = cone_rod_weights()
-    out = resolve_responses(buffers, factors, spds, study.reflectances, weights)
+    out = resolve_responses(buffers, factors, spds, study.reflectances, weights, pixels=pixels)
     if buffers.indirect is not None:
         from render.light.indirect import indirect_responses
 
@@ -220,6 +256,8 @@ def _setup_views(
     if object_id is None:
         object_id = pixel_main_surface_ids(buffers, main_material_indices(study))
     other_surfaces = np.isin(pixel_object_ids(buffers), tagged) & (object_id < 0)
+    # The analysis reads the cone signals at the tagged objects' main-surface pixels only.
+    on_tagged = np.isin(object_id, tagged)
     solid = ViewGeometry.of(rendered[0].camera).solid_angle_sr()
     out = []
     for n, (r, d) in enumerate(zip(rendered, displays)):
@@ -239,7 +277,7 @@ def _setup_views(
         else:
             own = pv.state
         kwargs.update(
-            cone_rod_cd_m2=cone_rod_image(study, r, None if setups is None else setups[n]),
+            cone_rod_cd_m2=cone_rod_image(study, r, None if setups is None else setups[n], on_tagged),
             solid_angle_sr=solid,
             own_state=own,
         )

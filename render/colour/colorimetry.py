@@ -122,47 +122,60 @@ def response_table(
 _GROUP = 4
 
 
-@numba.njit(cache=True, nogil=True, parallel=True)
-def _resolve_kernel(response, value, spec, factors, lamp_of_channel, table, spp, out):
-    # Four responses at a time in registers; ``table`` (K + 1, M, J) and ``out`` (P, J) have J a
-    # multiple of four. With J = 4 the sums run in the same order as one pass per response.
-    n_pix = out.shape[0]
+@numba.njit(cache=True, nogil=True)
+def _resolve_pixel(p, row, response, value, spec, factors, lamp_of_channel, table, spp, out):
+    """Pixel ``p``'s responses into ``out[row]``. Four responses at a time in registers;
+    ``table`` (K + 1, M, J) and ``out`` (P, J) have J a multiple of four. With J = 4 the sums
+    run in the same order as one pass per response."""
     C = value.shape[1]
     white = table.shape[0] - 1
     inv = 1.0 / spp
-    for p in prange(n_pix):
-        for j in range(0, table.shape[2], 4):
-            a0 = 0.0
-            a1 = 0.0
-            a2 = 0.0
-            a3 = 0.0
-            for s in range(p * spp, p * spp + spp):
-                k = response[s]
-                if k < 0:
+    for j in range(0, table.shape[2], 4):
+        a0 = 0.0
+        a1 = 0.0
+        a2 = 0.0
+        a3 = 0.0
+        for s in range(p * spp, p * spp + spp):
+            k = response[s]
+            if k < 0:
+                continue
+            for c in range(C):
+                v = value[s, c] * factors[c]
+                if v == 0.0:
                     continue
-                for c in range(C):
-                    v = value[s, c] * factors[c]
-                    if v == 0.0:
-                        continue
-                    l = lamp_of_channel[c]
-                    a0 += v * table[k, l, j]
-                    a1 += v * table[k, l, j + 1]
-                    a2 += v * table[k, l, j + 2]
-                    a3 += v * table[k, l, j + 3]
-                # The specular layer is spectrally neutral: the lamp's own light (white response).
-                for c in range(C):
-                    v = spec[s, c] * factors[c]
-                    if v == 0.0:
-                        continue
-                    l = lamp_of_channel[c]
-                    a0 += v * table[white, l, j]
-                    a1 += v * table[white, l, j + 1]
-                    a2 += v * table[white, l, j + 2]
-                    a3 += v * table[white, l, j + 3]
-            out[p, j] = a0 * inv
-            out[p, j + 1] = a1 * inv
-            out[p, j + 2] = a2 * inv
-            out[p, j + 3] = a3 * inv
+                l = lamp_of_channel[c]
+                a0 += v * table[k, l, j]
+                a1 += v * table[k, l, j + 1]
+                a2 += v * table[k, l, j + 2]
+                a3 += v * table[k, l, j + 3]
+            # The specular layer is spectrally neutral: the lamp's own light (white response).
+            for c in range(C):
+                v = spec[s, c] * factors[c]
+                if v == 0.0:
+                    continue
+                l = lamp_of_channel[c]
+                a0 += v * table[white, l, j]
+                a1 += v * table[white, l, j + 1]
+                a2 += v * table[white, l, j + 2]
+                a3 += v * table[white, l, j + 3]
+        out[row, j] = a0 * inv
+        out[row, j + 1] = a1 * inv
+        out[row, j + 2] = a2 * inv
+        out[row, j + 3] = a3 * inv
+
+
+@numba.njit(cache=True, nogil=True, parallel=True)
+def _resolve_kernel(response, value, spec, factors, lamp_of_channel, table, spp, out):
+    # Every pixel p into out[p].
+    for p in prange(out.shape[0]):
+        _resolve_pixel(p, p, response, value, spec, factors, lamp_of_channel, table, spp, out)
+
+
+@numba.njit(cache=True, nogil=True, parallel=True)
+def _resolve_pixels_kernel(response, value, spec, factors, lamp_of_channel, table, spp, pixels, out):
+    # The listed pixels only: pixels[i] into out[i], the same arithmetic per pixel.
+    for i in prange(pixels.shape[0]):
+        _resolve_pixel(pixels[i], i, response, value, spec, factors, lamp_of_channel, table, spp, out)
 
 
 @numba.njit(cache=True, nogil=True)
@@ -222,16 +235,22 @@ def lamps_of_channels(lamp_spds: Sequence[np.ndarray]) -> tuple[list[np.ndarray]
     return spd_list, lamp_of_channel
 
 
-def _resolve_table(buffers: LightBuffers, factors: ArrayLike, lamp_of_channel: np.ndarray, table: np.ndarray):
-    """(H, W, J) per-pixel responses of a flat table (K + 1, M, J) over the buffers."""
+def _resolve_table(
+    buffers: LightBuffers,
+    factors: ArrayLike,
+    lamp_of_channel: np.ndarray,
+    table: np.ndarray,
+    pixels: np.ndarray | None = None,
+):
+    """(H, W, J) per-pixel responses of a flat table (K + 1, M, J) over the buffers; with
+    ``pixels`` ((H, W) bool) only those pixels are resolved and the others are 0."""
     n_pix = buffers.width_px * buffers.height_px
     n_out = table.shape[2]
     pad = (-n_out) % _GROUP
     if pad:
         table = np.concatenate([table, np.zeros(table.shape[:2] + (pad,))], axis=2)
-    out = np.zeros((n_pix, n_out + pad))
     spec = buffers.spec_cd_m2 if buffers.spec_cd_m2 is not None else np.zeros_like(buffers.value_cd_m2)
-    _resolve_kernel(
+    args = (
         buffers.response,
         buffers.value_cd_m2,
         spec,
@@ -239,8 +258,19 @@ def _resolve_table(buffers: LightBuffers, factors: ArrayLike, lamp_of_channel: n
         lamp_of_channel,
         np.ascontiguousarray(table),
         buffers.spp,
-        out,
     )
+    if pixels is None:
+        out = np.zeros((n_pix, n_out + pad))
+        _resolve_kernel(*args, out)
+    else:
+        mask = np.asarray(pixels, dtype=bool)
+        if mask.shape != (buffers.height_px, buffers.width_px):
+            raise ValueError(f"pixels must be an (H, W) mask of the buffers' {buffers.height_px}×{buffers.width_px}")
+        where = np.flatnonzero(mask).astype(np.int64)
+        some = np.zeros((where.size, n_out + pad))
+        _resolve_pixels_kernel(*args, where, some)
+        out = np.zeros((n_pix, n_out + pad))
+        out[where] = some
     return out[:, :n_out].reshape(buffers.height_px, buffers.width_px, n_out)
 
 
@@ -267,14 +297,19 @@ def resolve_responses(
     reflectances: ArrayLike,
     weights: ArrayLike,
     step_nm: int = 1,
+    *,
+    pixels: ArrayLike | None = None,
 ) -> np.ndarray:
     """Per-pixel responses of any observer ``weights`` (N_BINS, *C) from light buffers:
     (H, W, *C), the mean over each pixel's samples of Σ_channels value·factor·R[k, lamp]
     (:func:`response_table`). Arguments as :func:`resolve`; e.g. the CIE 2006 cone signals and
-    scotopic luminance of :func:`render.vision.discrimination.cones.cone_rod_weights`."""
+    scotopic luminance of :func:`render.vision.discrimination.cones.cone_rod_weights`.
+    ``pixels``: an (H, W) bool mask; only those pixels are resolved (the same values, to the
+    bit, as resolving every pixel) and the others are 0, for callers that read a few objects'
+    pixels of the image."""
     w = np.asarray(weights, np.float64)
     table, lamp_of_channel = _channel_table(lamp_spds, reflectances, step_nm, w)
-    out = _resolve_table(buffers, factors, lamp_of_channel, table)
+    out = _resolve_table(buffers, factors, lamp_of_channel, table, None if pixels is None else np.asarray(pixels))
     return out.reshape(out.shape[:2] + w.shape[1:])
 
 
