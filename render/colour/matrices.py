@@ -16,13 +16,26 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import ArrayLike
 
-__all__ = ["apply_matrix"]
+__all__ = ["COMPILED_FROM_COLOURS", "apply_matrix"]
+
+
+#: Colours from which :func:`apply_matrix` takes the compiled pass
+#: (:mod:`render.colour.matrix_kernel`, the same bits); smaller arrays need no kernel loaded.
+COMPILED_FROM_COLOURS = 4096
 
 
 def apply_matrix(matrix: ArrayLike, v: ArrayLike) -> np.ndarray:
-    """``v @ matrix.T`` for (..., 3) arrays, one multiply-add chain per output channel."""
+    """``v @ matrix.T`` for (..., 3) arrays, one multiply-add chain per output channel (on
+    large arrays in one compiled pass with the same arithmetic)."""
     m = np.asarray(matrix, dtype=np.float64)
     v = np.asarray(v, dtype=np.float64)
+    if m.shape == (3, 3) and v.ndim >= 1 and v.shape[-1] == 3 and v.size >= 3 * COMPILED_FROM_COLOURS:
+        from render.colour.matrix_kernel import apply_matrix_rows
+
+        flat = np.ascontiguousarray(v.reshape(-1, 3))
+        out = np.empty_like(flat)
+        apply_matrix_rows(np.ascontiguousarray(m), flat, out)
+        return out.reshape(v.shape)
     a, b, c = v[..., 0], v[..., 1], v[..., 2]
     return np.stack(
         [

@@ -53,6 +53,7 @@ __all__ = [
     "quantise",
     "srgb_decode",
     "srgb_encode",
+    "srgb_quantised",
     "xyz_to_linear_srgb",
 ]
 
@@ -161,13 +162,73 @@ def linear_srgb_to_xyz(rgb: npt.ArrayLike) -> np.ndarray:
     return apply_matrix(_constants()[1], rgb)
 
 
+#: Exponent of the sRGB curve's power law (IEC 61966-2-1).
+_SRGB_EXPONENT = 1.0 / 2.4
+
+
 def srgb_encode(linear: npt.ArrayLike) -> np.ndarray:
     """IEC 61966-2-1 sRGB transfer curve (input clipped to [0, 1])."""
     x = np.clip(np.asarray(linear, dtype=np.float64), 0.0, 1.0)
     out = np.asarray(12.92 * x)
     curve = x > 0.0031308  # the power law only where it applies
-    out[curve] = 1.055 * np.power(x[curve], 1.0 / 2.4) - 0.055
+    out[curve] = 1.055 * np.power(x[curve], _SRGB_EXPONENT) - 0.055
     return out
+
+
+@numba.njit(cache=True, nogil=True)
+def _srgb_linear_part(x, enc, curve):
+    """Clip ``x`` to [0, 1]; where the linear segment applies write ``12.92·x`` to ``enc``, else
+    put the value in turn into ``curve`` (their power is taken by numpy, as in
+    :func:`srgb_encode`). Returns how many went into ``curve``."""
+    n = 0
+    for i in range(x.shape[0]):
+        v = np.minimum(np.maximum(x[i], 0.0), 1.0)
+        if v > 0.0031308:
+            curve[n] = v
+            n += 1
+        else:
+            enc[i] = 12.92 * v
+    return n
+
+
+@numba.njit(cache=True, nogil=True)
+def _quantised(q):
+    """``q`` (already scaled) rounded half to even as numpy's ``rint``; NaN gives 0."""
+    r = np.rint(q)
+    return 0.0 if r != r else r
+
+
+@numba.njit(cache=True, nogil=True)
+def _srgb_quantise(x, enc, powered, q8, q16):
+    """Finish :func:`srgb_encode` (``1.055·p − 0.055`` from the powers in turn) and round each
+    encoded value to 8 and 16 bits as :func:`quantise`."""
+    j = 0
+    for i in range(x.shape[0]):
+        v = np.minimum(np.maximum(x[i], 0.0), 1.0)
+        if v > 0.0031308:
+            e = 1.055 * powered[j] - 0.055
+            j += 1
+        else:
+            e = enc[i]
+        c = np.minimum(np.maximum(e, 0.0), 1.0)
+        q8[i] = np.uint8(_quantised(c * 255.0))
+        q16[i] = np.uint16(_quantised(c * 65535.0))
+
+
+def srgb_quantised(linear: npt.ArrayLike) -> tuple[np.ndarray, np.ndarray]:
+    """``(quantise(srgb_encode(linear), 8), quantise(srgb_encode(linear), 16))``, the same
+    values, in two compiled passes without the full-size intermediates (the power law by
+    numpy, as :func:`srgb_encode` takes it)."""
+    x = np.asarray(linear, dtype=np.float64)
+    flat = np.ascontiguousarray(x.reshape(-1))
+    enc = np.empty_like(flat)
+    curve = np.empty_like(flat)
+    n = _srgb_linear_part(flat, enc, curve)
+    powered = np.power(curve[:n], _SRGB_EXPONENT)
+    q8 = np.empty(flat.shape, np.uint8)
+    q16 = np.empty(flat.shape, np.uint16)
+    _srgb_quantise(flat, enc, powered, q8, q16)
+    return q8.reshape(x.shape), q16.reshape(x.shape)
 
 
 def srgb_decode(encoded: npt.ArrayLike) -> np.ndarray:

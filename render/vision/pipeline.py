@@ -414,8 +414,7 @@ def to_display(
 
 
 def _encode(linear):
-    enc = _display.srgb_encode(linear)
-    return _display.quantise(enc, 8), _display.quantise(enc, 16)
+    return _display.srgb_quantised(linear)
 
 
 def _map_with_state(buffers, geometry, observer, state, retina, mode, exposure):
