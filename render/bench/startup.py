@@ -18,8 +18,10 @@ What a user waits for before anything is rendered:
   (warm): wall seconds, and processor seconds of the command and its helper together. Then,
   once more cold and with the compile log on, the first compilation of every kernel: processor
   seconds of the compiling thread (numba's ``numba:compile`` events, a kernel's callees
-  included), in the command and in the helper. ``--against DIR`` runs the same rows, round by
-  round alternating, with the ``render`` package of another source tree (say a worktree of an
+  included), in the command and in the helper, their totals, and every function of lampcast
+  (callees too) compiled more than once: one compilation per specialisation and process, so a
+  count of 2 is a second specialisation or the same one compiled by both processes.
+  ``--against DIR`` runs the same rows, round by round alternating, with the ``render`` package of another source tree (say a worktree of an
   earlier commit: ``git worktree add /tmp/before HEAD~3``), side by side.
 
 The rows alternate within each round (:func:`render.bench.timing.interleaved`); each is printed
@@ -46,6 +48,7 @@ from render.resources import demo_scene_path
 
 __all__ = [
     "ColdDemo",
+    "KernelCompiles",
     "StartupBench",
     "add_parser",
     "cmd_startup",
@@ -146,23 +149,24 @@ def run_bench(*, rounds: int = 5, triangles: int = DEFAULT_TRIANGLES, scene: str
 _COMPILE_LOG = """
 import atexit, json, os, sys, threading, time
 from numba.core import event
-_log, _state = [], threading.local()
+_log, _state, _start = [], threading.local(), time.time()
 class _Listener(event.Listener):
     def on_start(self, ev):
         stack = _state.__dict__.setdefault("stack", [])
-        stack.append(time.thread_time())
+        stack.append((time.thread_time(), time.time()))
     def on_end(self, ev):
         stack = _state.stack
-        t0 = stack.pop()
-        if not stack:
-            f = ev.data["dispatcher"].py_func
-            _log.append([f.__module__ + "." + f.__qualname__, time.thread_time() - t0])
+        t0, wall0 = stack.pop()
+        f = ev.data["dispatcher"].py_func
+        sig = ", ".join(str(a) for a in ev.data["args"])
+        name = f.__module__ + "." + f.__qualname__
+        _log.append([name, time.thread_time() - t0, len(stack), sig, wall0, time.time()])
 event.register("numba:compile", _Listener())
 def _save():
     role = "helper" if os.path.basename(sys.argv[0]) == "warmup.py" else "command"
     path = os.path.join(os.environ["LAMPCAST_COMPILE_LOG"], f"{os.getpid()}.json")
     with open(path, "w") as f:
-        json.dump({"role": role, "kernels": _log}, f)
+        json.dump({"role": role, "kernels": _log, "start": _start, "end": time.time()}, f)
 atexit.register(_save)
 """
 
@@ -176,6 +180,9 @@ class ColdDemo:
     cold_cpu: Spread
     warm_wall: Spread
     kernels: dict[str, tuple[float, float]] = field(default_factory=dict)
+    #: Every function compiled (a kernel's callees too): function -> (compilations in the
+    #: command, in the helper), one per specialisation compiled in that process.
+    compilations: dict[str, tuple[int, int]] = field(default_factory=dict)
 
 
 def _demo(env: dict[str, str], out: Path, width: int | None) -> tuple[float, float]:
@@ -201,10 +208,19 @@ def _tree_env(tmp: Path, tree: Path | None, *extra: Path) -> dict[str, str]:
     return env
 
 
-def kernel_table(tree: Path | None = None, width: int | None = None) -> dict[str, tuple[float, float]]:
+@dataclass(frozen=True)
+class KernelCompiles:
+    """The first compilations of one cold run: top-level kernel -> (processor seconds in the
+    command, in the helper), callees included; and every compiled function (callees too) ->
+    (compilations in the command, in the helper)."""
+
+    seconds: dict[str, tuple[float, float]]
+    compilations: dict[str, tuple[int, int]]
+
+
+def kernel_table(tree: Path | None = None, width: int | None = None) -> KernelCompiles:
     """First compilation of every kernel in a cold ``lampcast demo`` with ``tree``'s
-    ``render`` (default this one): kernel -> (processor seconds in the command, in its
-    helper)."""
+    ``render`` (default this one), in the command and in its helper."""
     with tempfile.TemporaryDirectory(prefix="lampcast-kernels-") as tmp:
         tmp = Path(tmp)
         site = tmp / "site"
@@ -216,12 +232,15 @@ def kernel_table(tree: Path | None = None, width: int | None = None) -> dict[str
         env["LAMPCAST_COMPILE_LOG"] = str(logs)
         _demo(env, tmp / "out", width)
         table: dict[str, list[float]] = {}
+        counts: dict[str, list[int]] = {}
         for path in logs.glob("*.json"):
             data = json.loads(path.read_text(encoding="utf-8"))
             col = 1 if data["role"] == "helper" else 0
-            for name, seconds in data["kernels"]:
-                table.setdefault(name, [0.0, 0.0])[col] += seconds
-    return {k: (v[0], v[1]) for k, v in table.items()}
+            for name, seconds, depth, *_ in data["kernels"]:
+                counts.setdefault(name, [0, 0])[col] += 1
+                if depth == 0:
+                    table.setdefault(name, [0.0, 0.0])[col] += seconds
+    return KernelCompiles({k: (v[0], v[1]) for k, v in table.items()}, {k: (v[0], v[1]) for k, v in counts.items()})
 
 
 def run_cold_demo(
@@ -243,7 +262,8 @@ def run_cold_demo(
     out = {}
     for name, tree in trees.items():
         cw, cc, ww = (Spread(tuple(r[i] for r in runs[name])) for i in range(3))
-        out[name] = ColdDemo(cw, cc, ww, kernel_table(tree, width) if kernels else {})
+        compiles = kernel_table(tree, width) if kernels else KernelCompiles({}, {})
+        out[name] = ColdDemo(cw, cc, ww, compiles.seconds, compiles.compilations)
     return out
 
 
@@ -290,6 +310,29 @@ def _print_cold(demo: dict[str, ColdDemo], rounds: int) -> None:
     widths = [max(len(r[i]) for r in table) for i in range(len(head))]
     for r in table:
         print("  ".join(f"{c:<{w}}" if i == 0 else f"{c:>{w}}" for i, (c, w) in enumerate(zip(r, widths))))
+    print()
+    for n in names:
+        command, helper = (sum(v[i] for v in demo[n].kernels.values()) for i in (0, 1))
+        print(
+            f"{n}: compilation {command + helper:.1f} processor s, {command:.1f} in the command and {helper:.1f} "
+            "in the helper"
+        )
+    twice = {
+        k: [demo[n].compilations.get(k, (0, 0)) for n in names]
+        for k in sorted({k for d in demo.values() for k in d.compilations if k.startswith("render.")})
+        if any(sum(d.compilations.get(k, (0, 0))) > 1 for d in demo.values())
+    }
+    if twice:
+        print()
+        print("lampcast functions compiled more than once (one per specialisation and process; callees included):")
+        head = ["function"] + [f"{n} {col}" for n in names for col in ("command", "helper")]
+        table = [head] + [
+            [k.removeprefix("render.")] + [str(c[j][i]) for j in range(len(names)) for i in (0, 1)]
+            for k, c in twice.items()
+        ]
+        widths = [max(len(r[i]) for r in table) for i in range(len(head))]
+        for r in table:
+            print("  ".join(f"{c:<{w}}" if i == 0 else f"{c:>{w}}" for i, (c, w) in enumerate(zip(r, widths))))
 
 
 def cmd_startup(args: argparse.Namespace) -> int:
