@@ -71,7 +71,6 @@ from numba import prange
 from render.geometry.mesh import TriangleMesh
 from render.light.gloss import fresnel_one, specular_one
 from render.light.luminaires import Channel, LuminaireSet
-from render.light.photometry import direction_to_c_gamma, intensity_lookup
 from render.light.rtable import road_q_one
 from render.progress import progress_bar
 from render.rays.bvh import BVH, build_bvh, intersect_any, intersect_closest, shade_hits
@@ -126,8 +125,6 @@ TILE_SAMPLES = 1 << 17
 _MAX_CELLS = 1 << 16
 # Samples per block of the light kernel (scratch arrays are made once per block).
 _BLOCK = 64
-# Blocks of _BLOCK samples a thread takes at a time from the light kernel's work.
-_CHUNK_BLOCKS = 4
 # Points (or cells, or samples) per work item of the other kernels here.
 _ITEM = 256
 # Margin around the scene's bounds for its culling grid, m.
@@ -149,14 +146,7 @@ _GAMMA_MARGIN_DEG = 1e-6
 # ------------------------------------------------------------------------------------------
 
 
-@numba.njit(cache=True, nogil=True)
-def _intensity(lights_rot, c_grid, g_grid, n_c, n_g, cd, k, t, dx, dy, dz):
-    """Intensity (cd) of luminaire k (table t) toward the world direction (dx, dy, dz)."""
-    c, g = direction_to_c_gamma(lights_rot[k], dx, dy, dz)
-    return intensity_lookup(c_grid[t, : n_c[t]], g_grid[t, : n_g[t]], cd[t, : n_c[t], : n_g[t]], c, g)
-
-
-@numba.njit(cache=True, nogil=True, inline="always")
+@numba.njit(cache=True, nogil=True, _nrt=False)
 def _cell(grid, t, n, inv_step, x):
     """``render.light.photometry.kernels._bracket`` on row t of a padded grid of n values, for
     x strictly inside it: the same cell (the one i with grid[i] <= x < grid[i + 1]) found from a
@@ -170,12 +160,18 @@ def _cell(grid, t, n, inv_step, x):
     return i, (x - grid[t, i]) / (grid[t, i + 1] - grid[t, i])
 
 
-@numba.njit(cache=True, nogil=True, inline="always")
+@numba.njit(cache=True, nogil=True, _nrt=False)
 def _intensity_fast(rot, c_grid, g_grid, n_c, n_g, inv_c, inv_g, cd, k, t, dx, dy, dz):
-    """:func:`_intensity`, with the table cells found by :func:`_cell`: the same value to the bit.
-    (C, γ) as :func:`render.light.photometry.direction_to_c_gamma` computes them, from the
-    rotation's elements directly (no 3 × 3 view per call); C is already in [0, 360), so the
-    lookup's ``C % 360`` is left out."""
+    """Intensity (cd) of luminaire k (table t) toward the world direction (dx, dy, dz): the value
+    :func:`render.light.photometry.intensity_lookup` gives at the (C, γ) of
+    :func:`render.light.photometry.direction_to_c_gamma`, to the bit, with the table cells found
+    by :func:`_cell`. (C, γ) are computed from the rotation's elements directly (no 3 × 3 view
+    per call); C is already in [0, 360), so the lookup's ``C % 360`` is left out.
+
+    This and :func:`_cell` are compiled without numba's reference counting (``_nrt=False``;
+    they take arrays but make none): a function that takes arrays otherwise counts a reference
+    to each on entry and releases it on every way out, two atomic operations per array and
+    call, which in the light kernel's pair loop took as much time as the rest of it."""
     lx = rot[k, 0, 0] * dx + rot[k, 1, 0] * dy + rot[k, 2, 0] * dz
     ly = rot[k, 0, 1] * dx + rot[k, 1, 1] * dy + rot[k, 2, 1] * dz
     lz = rot[k, 0, 2] * dx + rot[k, 1, 2] * dy + rot[k, 2, 2] * dz
@@ -311,7 +307,7 @@ def _candidates(points, normals, active, lum, grid, eps, counts, out_lum, out_e,
         counts[i] = w
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy", _nrt=False)
 def _shadow_block(tree, n_pairs, lum_of, origin, direction, t_max, blocked, scratch, n_lanes, width):
     """Shadow rays of one block's (point, luminaire) pairs: the rays toward one luminaire are
     traced together, :data:`PACKET` at a time, through the binary tree when their directions
@@ -360,7 +356,7 @@ def _shadow_block(tree, n_pairs, lum_of, origin, direction, t_max, blocked, scra
                     )
 
 
-@numba.njit(cache=True, nogil=True, parallel=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy")
 def _direct_light(
     points,
     normals,
@@ -387,72 +383,100 @@ def _direct_light(
     out_spec,
     n_lanes,
     width,
+    first,
+    stride,
 ):
-    """Direct light at N points, one pass per block of points: culling and intensity per
+    """Direct light at N points, one pass per block of :data:`_BLOCK` points: culling per
     (point, luminaire), the block's shadow rays (:func:`_shadow_block`), then per point the
-    gloss layer and the r-table, summed per channel. Only the block's pairs are held.
+    intensity of the pairs not shadowed, the gloss layer and the r-table, summed per channel.
+    Only the block's pairs are held. Blocks ``first, first + stride, ...``
+    (:func:`render.threads.run_split`).
 
     ``lum`` = the luminaire arrays (rotation, position, scale, table, C and γ grids and their
-    lengths, candela tables, channel, shadow clearance); ``grid`` = (box, cell size, nx, ny,
-    cell_start, cell_items) of a :class:`CullGrid`; ``tree`` = the BVH's binary nodes, their
-    int32 view, the wide nodes, their int32 view, triangle vertices and triangle index.
-    ``out_value[i, c]`` gets the channel's sum of the diffuse part over ``divisor`` (π: the
-    white diffuser's luminance; 1: illuminance), ``out_spec[i, c]`` the specular layer's
-    luminance (when ``out_spec`` has rows). The sums run over the luminaires in index order,
-    in float64. ``n_lanes`` and ``width`` as for :func:`_shadow_block`. Unlike the other
-    kernels here this one stays a ``prange`` loop: compiled serially it ran about 1.6 times
-    slower (measured; probably because numba compiles a parallel loop's body with its arrays
-    marked as not aliasing each other), and its longer compilation falls in the helper
-    process of a first run (:mod:`render.warmup`)."""
+    lengths, candela tables, channel, shadow clearance); ``bounds`` = the intensity bounds of
+    :func:`_luminaire_bounds`; ``grid`` = (box, cell size, nx, ny, cell_start, cell_items) of a
+    :class:`CullGrid`; ``tree`` = the BVH's binary nodes, their int32 view, the wide nodes, their
+    int32 view, triangle vertices and triangle index. ``out_value[i, c]`` gets the channel's sum
+    of the diffuse part over ``divisor`` (π: the white diffuser's luminance; 1: illuminance),
+    ``out_spec[i, c]`` the specular layer's luminance (when ``out_spec`` has rows). The sums run
+    over the luminaires in index order, in float64. ``n_lanes`` and ``width`` as for
+    :func:`_shadow_block`.
+
+    A serial kernel (it compiles in about half the time of the same loop as a ``prange``
+    kernel, whose body numba types and optimises twice). Its loops over points and pairs make
+    no array variables and call no function that takes arrays with reference counting (the
+    tuples are unpacked once, the lookup is :func:`_intensity_fast`): numba counts a reference
+    to an array each time one is bound to a new name or passed to a function, an atomic
+    operation, and in the pair loop those took 40 % of the serial kernel's time (measured),
+    which a ``prange`` body largely escapes. The scratch arrays are made once per call and
+    grown when a block needs more room."""
     rot, pos, scale, table, c_grid, g_grid, n_c, n_g, inv_c, inv_g, cd, channel, clearance = lum
     i_bound, bins_per_cos = bounds
     last_bin = i_bound.shape[1] - 1
     box, cell, nx, ny, cell_start, cell_items = grid
+    road_beta, road_tan, road_r = road
     n = points.shape[0]
+    n_lum = pos.shape[0]
     n_ch = out_value.shape[1]
+    n_gloss = gloss.shape[0]
     with_spec = out_spec.shape[0] > 0
     n_blocks = (n + _BLOCK - 1) // _BLOCK
-    for b in prange(n_blocks):
+    # Room for a block's candidates (each point's cell list, or every luminaire); grown below.
+    size = np.int64(_BLOCK * min(n_lum, 16))
+    count = np.zeros(_BLOCK, np.int64)
+    lum_of = np.empty(size, np.int64)
+    origin = np.empty((size, 3))
+    direction = np.empty((size, 3))
+    t_max = np.empty(size)
+    blocked = np.zeros(size, np.bool_)
+    done = np.empty(size, np.bool_)
+    lane = np.empty(LANE_FIELDS * PACKET)
+    st_node = np.empty(max(STACK_SIZE, wide_stack), np.int64)
+    work = np.empty(2 * WIDE)
+    ro = np.empty((PACKET, 3))
+    rd = np.empty((PACKET, 3))
+    rt = np.empty(PACKET)
+    members = np.empty(PACKET, np.int64)
+    acc = np.zeros(n_ch)
+    acc_s = np.zeros(n_ch)
+    for b in range(first, n_blocks, stride):
         i0 = b * _BLOCK
         i1 = min(n, i0 + _BLOCK)
-        # Room for the block's candidates: each point's cell list, or every luminaire.
-        cap = 0
+        cap = np.int64(0)
         for i in range(i0, i1):
             if active[i]:
                 ci = _cell_of(points[i, 0], points[i, 1], points[i, 2], box, cell, nx, ny)
-                cap += cell_start[ci + 1] - cell_start[ci] if ci >= 0 else pos.shape[0]
-        count = np.zeros(i1 - i0, np.int64)
-        lum_of = np.empty(cap, np.int64)
-        origin = np.empty((cap, 3))
-        direction = np.empty((cap, 3))
-        t_max = np.empty(cap)
-        blocked = np.zeros(cap, np.bool_)
-        scratch = (
-            np.empty(LANE_FIELDS * PACKET),
-            np.empty(max(STACK_SIZE, wide_stack), np.int64),
-            np.empty(2 * WIDE),
-            np.empty((PACKET, 3)),
-            np.empty((PACKET, 3)),
-            np.empty(PACKET),
-            np.empty(PACKET, np.int64),
-            np.empty(cap, np.bool_),
-        )
-        acc = np.zeros(n_ch)
-        acc_s = np.zeros(n_ch)
+                cap += cell_start[ci + 1] - cell_start[ci] if ci >= 0 else n_lum
+        if cap > size:
+            size = max(cap, 2 * size)
+            lum_of = np.empty(size, np.int64)
+            origin = np.empty((size, 3))
+            direction = np.empty((size, 3))
+            t_max = np.empty(size)
+            blocked = np.zeros(size, np.bool_)
+            done = np.empty(size, np.bool_)
         # Candidates: pairs whose unshadowed contribution may reach eps, by a bound that never
         # underestimates it (w an int64 from the start: with the literal 0, type inference would
         # also compile _shadow_block for 0 pairs). The intensity itself is looked up after the
         # shadow rays, for the pairs that are not shadowed only.
         w = np.int64(0)
         for i in range(i0, i1):
+            count[i - i0] = 0
             px = points[i, 0]
             py = points[i, 1]
             pz = points[i, 2]
             if not (active[i] and np.isfinite(px) and np.isfinite(py) and np.isfinite(pz)):
                 continue
+            snx = normals[i, 0]
+            sny = normals[i, 1]
+            snz = normals[i, 2]
+            # Shadow-ray origins are offset along the receiving side of the geometric normal.
+            gx = offset_normals[i, 0]
+            gy = offset_normals[i, 1]
+            gz = offset_normals[i, 2]
             ci = _cell_of(px, py, pz, box, cell, nx, ny)
             q0 = cell_start[ci] if ci >= 0 else 0
-            q1 = cell_start[ci + 1] if ci >= 0 else pos.shape[0]
+            q1 = cell_start[ci + 1] if ci >= 0 else n_lum
             start = w
             for q in range(q0, q1):
                 k = cell_items[q] if ci >= 0 else q
@@ -464,22 +488,18 @@ def _direct_light(
                 if d2 <= 1e-12:
                     continue
                 d = math.sqrt(d2)
-                cos_s = -(normals[i, 0] * dx + normals[i, 1] * dy + normals[i, 2] * dz) / d
+                cos_s = -(snx * dx + sny * dy + snz * dz) / d
                 if cos_s <= 0.0:
                     continue
                 if eps > 0.0:
                     # Surely below eps (or outside the table's γ range: a bound of 0).
                     down = -(rot[k, 0, 2] * dx + rot[k, 1, 2] * dy + rot[k, 2, 2] * dz) / d
-                    b = min(max(int((down + 1.0) * bins_per_cos), 0), last_bin)
-                    if scale[k] * i_bound[table[k], b] * cos_s / d2 < eps:
+                    bin_ = min(max(int((down + 1.0) * bins_per_cos), 0), last_bin)
+                    if scale[k] * i_bound[table[k], bin_] * cos_s / d2 < eps:
                         continue
                 lx = -(px - pos[k, 0]) / d
                 ly = -(py - pos[k, 1]) / d
                 lz = -(pz - pos[k, 2]) / d
-                # Shadow-ray origin offset along the receiving side of the geometric normal.
-                gx = offset_normals[i, 0]
-                gy = offset_normals[i, 1]
-                gz = offset_normals[i, 2]
                 step = shadow_offset * np.sign(gx * lx + gy * ly + gz * lz)
                 origin[w, 0] = px + step * gx
                 origin[w, 1] = py + step * gy
@@ -489,28 +509,41 @@ def _direct_light(
                 direction[w, 2] = lz
                 t_max[w] = max(d - clearance[k], 0.0)
                 lum_of[w] = k
+                blocked[w] = False
                 w += 1
             count[i - i0] = w - start
         if shadows:
+            scratch = (lane, st_node, work, ro, rd, rt, members, done)
             _shadow_block(tree, w, lum_of, origin, direction, t_max, blocked, scratch, n_lanes, width)
-        # Sums per point, in candidate (luminaire index) order.
+        # Sums per point, in candidate (luminaire index) order; the illuminance as _unshadowed
+        # computes it.
         w = 0
         for i in range(i0, i1):
             m = material[i]
-            f0 = gloss[m, 0] if m >= 0 and m < gloss.shape[0] else 0.0
+            f0 = gloss[m, 0] if m >= 0 and m < n_gloss else 0.0
             on_road = road_object >= 0 and obj[i] == road_object
             for c in range(n_ch):
                 acc[c] = 0.0
                 acc_s[c] = 0.0
+            px = points[i, 0]
+            py = points[i, 1]
+            pz = points[i, 2]
+            snx = normals[i, 0]
+            sny = normals[i, 1]
+            snz = normals[i, 2]
             for _ in range(count[i - i0]):
                 if blocked[w]:
                     w += 1
                     continue
                 k = lum_of[w]
-                e, d = _unshadowed(
-                    points[i, 0], points[i, 1], points[i, 2], normals[i, 0], normals[i, 1], normals[i, 2], k, lum
-                )
-                if e < eps or d == 0.0:
+                dx = px - pos[k, 0]
+                dy = py - pos[k, 1]
+                dz = pz - pos[k, 2]
+                d2 = dx * dx + dy * dy + dz * dz
+                cos_s = -(snx * dx + sny * dy + snz * dz) / math.sqrt(d2)
+                inten = _intensity_fast(rot, c_grid, g_grid, n_c, n_g, inv_c, inv_g, cd, k, table[k], dx, dy, dz)
+                e = scale[k] * inten * cos_s / d2
+                if e < eps:
                     w += 1
                     continue
                 lx = direction[w, 0]
@@ -521,15 +554,12 @@ def _direct_light(
                 diffuse = e
                 if f0 > 0.0:
                     # The base receives what the interface transmits (render.light.gloss).
-                    nx_ = normals[i, 0]
-                    ny_ = normals[i, 1]
-                    nz_ = normals[i, 2]
-                    diffuse = e * (1.0 - fresnel_one(nx_ * lx + ny_ * ly + nz_ * lz, f0))
+                    diffuse = e * (1.0 - fresnel_one(snx * lx + sny * ly + snz * lz, f0))
                     if with_spec:
                         f_s = specular_one(
-                            nx_,
-                            ny_,
-                            nz_,
+                            snx,
+                            sny,
+                            snz,
                             lx,
                             ly,
                             lz,
@@ -542,7 +572,9 @@ def _direct_light(
                         acc_s[ch] += e * f_s
                 if on_road:
                     # L = q·E (render.light.rtable): the value becomes E·q/ρ̄ in place of E/π.
-                    qv = road_q_one(view_dirs[i, 0], view_dirs[i, 1], lx, ly, lz, road[0], road[1], road[2], road_scale)
+                    qv = road_q_one(
+                        view_dirs[i, 0], view_dirs[i, 1], lx, ly, lz, road_beta, road_tan, road_r, road_scale
+                    )
                     diffuse *= qv * road_factor
                 acc[ch] += diffuse
             for c in range(n_ch):
@@ -553,7 +585,24 @@ def _direct_light(
 
 @numba.njit(cache=True, nogil=True)
 def _emitter_values(
-    directions, lum_of, rot, pos, scale, table, c_grid, g_grid, n_c, n_g, cd, area, channel, out, first, stride
+    directions,
+    lum_of,
+    rot,
+    pos,
+    scale,
+    table,
+    c_grid,
+    g_grid,
+    n_c,
+    n_g,
+    inv_c,
+    inv_g,
+    cd,
+    area,
+    channel,
+    out,
+    first,
+    stride,
 ):
     """Luminance (cd/m²) of visible luminous openings: I toward the eye / projected area
     (samples in items of :data:`_ITEM`, ``first, first + stride, ...``)."""
@@ -571,7 +620,7 @@ def _emitter_values(
             cos_v = -(rot[k, 0, 2] * dx + rot[k, 1, 2] * dy + rot[k, 2, 2] * dz)
             if cos_v <= 1e-3:
                 continue
-            inten = _intensity(rot, c_grid, g_grid, n_c, n_g, cd, k, table[k], dx, dy, dz)
+            inten = _intensity_fast(rot, c_grid, g_grid, n_c, n_g, inv_c, inv_g, cd, k, table[k], dx, dy, dz)
             out[i, channel[k]] = scale[k] * inten / (area[k] * cos_v)
 
 
@@ -676,10 +725,9 @@ def scene_cull_grid(lights: LuminaireSet, bvh: BVH, negligible_lx: float = NEGLI
 
 
 def _run_direct_light(*args) -> None:
-    """:func:`_direct_light` on numba's threads, blocks handed out a few at a time (a busy
-    thread does not hold up the others)."""
-    with numba.parallel_chunksize(_CHUNK_BLOCKS):
-        _direct_light(*args, PACKET, WIDE)
+    """:func:`_direct_light` on :func:`render.threads.run_split`'s threads, the blocks
+    interleaved (block b on thread b mod threads)."""
+    run_split(_direct_light, _n_items(args[0].shape[0], _BLOCK), *args, PACKET, WIDE)
 
 
 def _n_items(n: int, per_item: int) -> int:
@@ -1358,6 +1406,8 @@ def _opening_values(direction: np.ndarray, emitter: np.ndarray, lights: Luminair
         lights.g_grid,
         lights.n_c,
         lights.n_g,
+        _inverse_step(lights.c_grid, lights.n_c),
+        _inverse_step(lights.g_grid, lights.n_g),
         lights.cd_table,
         area,
         lights.channel,
