@@ -11,7 +11,9 @@ double):
   catalogue.toml``) builds a lamp from, and CIE D65, at the table's own wavelengths;
 * ``lamp_figures.json`` -- the figures of every built-in lamp computed with colour-science
   (:func:`render.colour.lamp_figures.computed_lamp_figures`), keyed by the SHA-256 of the
-  lamp's spectrum (:func:`render.colour.tables.spectrum_key`).
+  lamp's spectrum (:func:`render.colour.tables.spectrum_key`);
+* ``naming_prototypes.json`` -- CIELAB of the colour-naming prototypes
+  (:func:`render.analysis.naming.munsell_to_lab` of each Munsell notation, with the notation).
 
 Run it after changing the catalogue, the lamp figures or the colour-science version; ``--check``
 compares with the committed files instead of writing (exit status 1 if they differ).
@@ -129,6 +131,25 @@ def lamp_figures_json() -> str:
     return json.dumps(document, indent=1, ensure_ascii=False, allow_nan=False, sort_keys=False) + "\n"
 
 
+def naming_prototypes_json() -> str:
+    import colour
+
+    from render.analysis.naming import PROTOTYPES_MUNSELL, munsell_to_lab
+
+    prototypes = {
+        term: {"munsell": notation, "lab": [float(v) for v in munsell_to_lab(notation)]}
+        for term, notation in PROTOTYPES_MUNSELL.items()
+    }
+    document = {
+        "about": "CIELAB (D65) of the colour-naming prototypes' Munsell notations computed with colour-science "
+        "(render.analysis.naming.munsell_to_lab), keyed by term with the notation they were computed from; "
+        "written by tools/make_colour_tables.py.",
+        "colour_science": colour.__version__,
+        "prototypes": prototypes,
+    }
+    return json.dumps(document, indent=1, ensure_ascii=False, allow_nan=False, sort_keys=False) + "\n"
+
+
 def tables() -> dict[str, str]:
     """The files' texts by name. The spectra come first: the lamps are built from them."""
     out = {"observers.csv": observers_csv(), "spectra.csv": spectra_csv()}
@@ -146,13 +167,14 @@ def main(argv: list[str] | None = None) -> int:
             (OUT / name).write_text(text, encoding="utf-8")
     # The lamp figures are computed from lamps built out of the stored spectra.
     texts["lamp_figures.json"] = lamp_figures_json()
+    texts["naming_prototypes.json"] = naming_prototypes_json()
     differ = []
     for name, text in texts.items():
         path = OUT / name
         if args.check:
             if not path.is_file() or path.read_text(encoding="utf-8") != text:
                 differ.append(name)
-        elif name == "lamp_figures.json":
+        elif name in ("lamp_figures.json", "naming_prototypes.json"):
             path.write_text(text, encoding="utf-8")
     if differ:
         print("differ from colour-science: " + ", ".join(differ), file=sys.stderr)

@@ -202,8 +202,16 @@ def munsell_to_lab(notation: str) -> np.ndarray:
 
 @lru_cache(maxsize=1)
 def prototypes() -> tuple[tuple[str, ...], np.ndarray, np.ndarray]:
-    """``(terms, lab (11, 3), cam16ucs (11, 3))`` of the prototypes, in :data:`BASIC_TERMS` order."""
-    lab = np.stack([munsell_to_lab(PROTOTYPES_MUNSELL[t]) for t in BASIC_TERMS])
+    """``(terms, lab (11, 3), cam16ucs (11, 3))`` of the prototypes, in :data:`BASIC_TERMS` order.
+    Their CIELAB is read from the stored table (:func:`render.colour.tables.stored_prototype_lab`,
+    the same numbers colour-science gives) where it holds the term's notation, else computed."""
+    from render.colour.tables import stored_prototype_lab
+
+    def lab_of(term: str) -> np.ndarray:
+        stored = stored_prototype_lab(term, PROTOTYPES_MUNSELL[term])
+        return munsell_to_lab(PROTOTYPES_MUNSELL[term]) if stored is None else stored
+
+    lab = np.stack([lab_of(t) for t in BASIC_TERMS])
     ucs = lab_to_cam16ucs(lab)
     lab.setflags(write=False)
     ucs.setflags(write=False)

@@ -12,7 +12,10 @@ stored tables against colour-science:
   D65, at the table's own wavelengths (``dataset, key, wavelength_nm, value`` rows);
 * ``lamp_figures.json`` -- the figures of :mod:`render.colour.lamp_figures` computed with
   colour-science for every built-in lamp, keyed by the SHA-256 of the lamp's spectrum, so that a
-  lamp whose spectrum changed is computed afresh rather than given stale figures.
+  lamp whose spectrum changed is computed afresh rather than given stale figures;
+* ``naming_prototypes.json`` -- CIELAB of the colour-naming prototypes (Munsell renotation with
+  colour-science, :func:`render.analysis.naming.munsell_to_lab`), each with the notation it was
+  computed from.
 
 Each file is read once per process and its arrays are read-only.
 
@@ -41,6 +44,7 @@ __all__ = [
     "reference_spectrum",
     "spectrum_key",
     "stored_lamp_figures",
+    "stored_prototype_lab",
 ]
 
 #: Where the tables live, as package data of :mod:`render`.
@@ -101,6 +105,22 @@ def spectrum_key(spd: np.ndarray) -> str:
 @lru_cache(maxsize=1)
 def _lamp_figures() -> dict[str, Any]:
     return json.loads(_text("lamp_figures.json"))["lamps"]
+
+
+@lru_cache(maxsize=1)
+def _naming_prototypes() -> dict[str, Any]:
+    return json.loads(_text("naming_prototypes.json"))["prototypes"]
+
+
+def stored_prototype_lab(term: str, munsell: str) -> np.ndarray | None:
+    """The stored CIELAB of colour-naming prototype ``term`` (read-only), or None when none is
+    stored for that Munsell notation (a changed notation is computed afresh)."""
+    entry = _naming_prototypes().get(term)
+    if entry is None or entry["munsell"] != munsell:
+        return None
+    lab = np.array(entry["lab"], dtype=np.float64)
+    lab.setflags(write=False)
+    return lab
 
 
 def stored_lamp_figures(spd: np.ndarray) -> tuple[dict, tuple[str, ...], dict] | None:
