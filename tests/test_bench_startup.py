@@ -58,3 +58,20 @@ def test_cold_rows_side_by_side(capsys):
     assert "demo cold, wall s         100.0 / 105.0 / 110.0  40.0 / 42.0 / 44.0" in out
     assert "demo cold - warm, wall s  80.0 / 84.0 / 88.0" in out
     assert any(line.split() == ["a.k", "5.00", "0.00", "0.00", "4.00"] for line in out.splitlines())
+
+
+def test_cold_compile_totals_and_repeated_functions(capsys):
+    """The compile totals per process and the lampcast functions compiled more than once
+    (a second specialisation, or one compiled by both processes), printed from given
+    figures; numba's own overloads are left out (common practice, no source)."""
+    from render.bench.startup import ColdDemo, _print_cold
+    from render.bench.timing import Spread
+
+    one = Spread((1.0,))
+    kernels = {"render.a.k": (5.0, 0.0), "render.a.light": (0.0, 20.0)}
+    compiled = {"render.a.k": (2, 0), "render.a.light": (0, 1), "render.a.callee": (1, 1), "numba.x.impl": (3, 3)}
+    _print_cold({"after": ColdDemo(one, one, one, kernels, compiled)}, 1)
+    out = capsys.readouterr().out
+    assert "after: compilation 25.0 processor s, 5.0 in the command and 20.0 in the helper" in out
+    repeated = {line.split()[0]: line.split()[1:] for line in out.split("compiled more than once")[1].splitlines()[1:]}
+    assert repeated == {"function": ["after", "command", "after", "helper"], "a.callee": ["1", "1"], "a.k": ["2", "0"]}
