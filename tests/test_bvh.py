@@ -305,6 +305,38 @@ def test_rays_parallel_to_a_face():
     assert not np.any(intersect_any(bvh, o, d, 10.0))
 
 
+def test_ray_in_a_box_face_plane_with_zero_direction_components():
+    # Analytic: a vertical triangle in the plane y = 5 with its edge from (1, 5, 0) to (1, 5, 1)
+    # on the line x = 1, which is the upper x face of every box holding it. Rays starting on
+    # that face plane (x = 1, direction with zero x component) towards points of the edge meet
+    # it at t = 1 (direction = target - origin); the watertight test includes edges (Woop,
+    # Benthin & Wald 2013), so each is a hit at t = 1 exactly. A zero direction component once
+    # gave the box a far distance of 0 there, so one-by-one rays missed; packets too are checked
+    # (a packet entered the box if any lane did). Also the lower face (x = 0 edge of a mirrored
+    # triangle) and rays with two zero direction components.
+    tri = np.array(
+        [
+            [[0.0, 5.0, 0.0], [1.0, 5.0, 0.0], [1.0, 5.0, 1.0]],  # edge on x = 1 (upper x face)
+            [[0.0, 9.0, 0.0], [1.0, 9.0, 0.0], [0.0, 9.0, 1.0]],  # edge on x = 0 (lower x face)
+        ]
+    )
+    bvh = build_bvh(tri)
+    z = np.array([0.25, 0.5, 0.75, 1.0 / 3.0])
+    o_up = np.column_stack([np.ones_like(z), np.zeros_like(z), z + np.array([0.0, 0.1, -0.2, 0.0])])
+    t_up = np.column_stack([np.ones_like(z), np.full_like(z, 5.0), z])
+    o_lo = np.column_stack([np.zeros_like(z), np.full_like(z, 12.0), z])
+    t_lo = np.column_stack([np.zeros_like(z), np.full_like(z, 9.0), z])
+    o = np.concatenate([o_up, o_lo])
+    d = np.concatenate([t_up - o_up, t_lo - o_lo])
+    assert np.all(d[:, 0] == 0.0) and np.all(d[4:, 2] == 0.0)  # zero x (and for some z) components
+    for packets in (False, True):
+        hits = intersect_closest(bvh, o, d, packets=packets)
+        assert np.all(hits.hit), f"a ray in a box face plane missed (packets={packets})"
+        np.testing.assert_array_equal(hits.triangle, [0, 0, 0, 0, 1, 1, 1, 1])
+        np.testing.assert_allclose(hits.t, 1.0, rtol=1e-15)
+        assert np.all(intersect_any(bvh, o, d, 2.0, packets=packets))
+
+
 def test_zero_and_one_triangle():
     empty = build_bvh(np.zeros((0, 3, 3)))
     assert empty.n_nodes == 0 and empty.n_triangles == 0

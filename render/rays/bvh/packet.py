@@ -22,7 +22,7 @@ from __future__ import annotations
 import numba
 import numpy as np
 
-from render.rays.bvh.slab import safe_inverse, slab_interval, valid_ray
+from render.rays.bvh.slab import far_origin, safe_inverse, slab_interval, valid_ray
 from render.rays.bvh.triangle import intersect_triangle, ray_shear, triangle_vertices
 
 __all__ = [
@@ -50,9 +50,10 @@ PACKET_COS_ANY = float(np.cos(_PACKET_MAX_ANGLE_ANY_RAD))
 # base pointer with constant offsets lets the vectoriser prove that the fields do not overlap.
 # O: origin, I: inverse direction, P: origin permuted to (kx, ky, kz), S: shear, TB: best t
 # so far (the moving t_max; -inf for an unused or occluded lane), BJ: its triangle (-1: none;
-# occlusion: 1 when occluded), BU, BV: its barycentrics.
-LANE_FIELDS = 16
-_OX, _OY, _OZ, _IX, _IY, _IZ, _PX, _PY, _PZ, _SX, _SY, _SZ, _TB, _BJ, _BU, _BV = (
+# occlusion: 1 when occluded), BU, BV: its barycentrics; U: the origin the upper box bounds are
+# measured from (render.rays.bvh.slab.far_origin).
+LANE_FIELDS = 19
+_OX, _OY, _OZ, _IX, _IY, _IZ, _PX, _PY, _PZ, _SX, _SY, _SZ, _TB, _BJ, _BU, _BV, _UX, _UY, _UZ = (
     f * PACKET for f in range(LANE_FIELDS)
 )
 
@@ -118,6 +119,9 @@ def packet_load(
         lane[_OX + r] = o[0]
         lane[_OY + r] = o[1]
         lane[_OZ + r] = o[2]
+        lane[_UX + r] = far_origin(o[0], dx)
+        lane[_UY + r] = far_origin(o[1], dy)
+        lane[_UZ + r] = far_origin(o[2], dz)
         lane[_IX + r] = safe_inverse(dx)
         lane[_IY + r] = safe_inverse(dy)
         lane[_IZ + r] = safe_inverse(dz)
@@ -168,9 +172,10 @@ def _packet_boxes(nb, node, lane, n_lanes, t_min):
     for r in range(n_lanes):
         origin = (lane[_OX + r], lane[_OY + r], lane[_OZ + r])
         inverse = (lane[_IX + r], lane[_IY + r], lane[_IZ + r])
+        upper = (lane[_UX + r], lane[_UY + r], lane[_UZ + r])
         tb = lane[_TB + r]
-        near0, far0 = slab_interval(lo0, hi0, origin, inverse, t_min)
-        near1, far1 = slab_interval(lo1, hi1, origin, inverse, t_min)
+        near0, far0 = slab_interval(lo0, hi0, origin, inverse, t_min, upper)
+        near1, far1 = slab_interval(lo1, hi1, origin, inverse, t_min, upper)
         k0 = near0 <= min(far0, tb)
         k1 = near1 <= min(far1, tb)
         h0 += k0
@@ -254,6 +259,10 @@ def packet_trace(
     # int64, not the literal 0: numba compiles a called kernel once per literal argument, and
     # type inference would otherwise compile _packet_boxes for node = 0 as well.
     node = np.int64(0)
+    # The child slots as int64 values too, so that _visit_leaf is compiled once, not once for
+    # each literal slot.
+    slot0 = np.int64(0)
+    slot1 = np.int64(1)
     sp = 0
     left = 0  # lanes not yet occluded
     for r in range(n_lanes):
@@ -264,13 +273,13 @@ def packet_trace(
         if h0 > 0:
             ch = ni[node, 12]
             if ch < 0:
-                left -= _visit_leaf(ni, node, 0, tv, ti, lane, n_lanes, t_min, k, occlusion)
+                left -= _visit_leaf(ni, node, slot0, tv, ti, lane, n_lanes, t_min, k, occlusion)
             else:
                 nxt = ch
         if h1 > 0:
             ch = ni[node, 13]
             if ch < 0:
-                left -= _visit_leaf(ni, node, 1, tv, ti, lane, n_lanes, t_min, k, occlusion)
+                left -= _visit_leaf(ni, node, slot1, tv, ti, lane, n_lanes, t_min, k, occlusion)
             elif nxt < 0:
                 nxt = ch
             elif 2 * vote1 > both:

@@ -68,33 +68,35 @@ def _vmin(builder, a, b):
 
 
 @intrinsic
-def node_entry_mask(typingctx, wb, node, cols, origin, inverse, t_min, t_max, near_out):
+def node_entry_mask(typingctx, wb, node, cols, origin, far_origin, inverse, t_min, t_max, near_out):
     """Bit mask of the children of node ``node`` of ``wb`` (the wide tree's float32 records)
     that the ray enters, ``t_min <= near <= min(far, t_max)``; each child's near distance is
     stored in ``near_out[0:WIDE]`` (float64).
 
     ``cols`` = (near x, near y, near z, far x, far y, far z) columns of the first child's
-    bounds for the ray's octant (uint64), ``origin`` and ``inverse`` float64 3-tuples
-    (:func:`render.rays.bvh.slab.safe_inverse` per axis)."""
+    bounds for the ray's octant (uint64), ``origin``, ``far_origin`` (the origin the far bounds
+    are measured from, :func:`render.rays.bvh.slab.far_origin` per axis) and ``inverse``
+    float64 3-tuples (:func:`render.rays.bvh.slab.safe_inverse` per axis)."""
     if not (isinstance(wb, types.Array) and wb.ndim == 2 and wb.layout == "C" and wb.dtype == types.float32):
         return None  # rows are read as contiguous float32 runs
     if not (isinstance(near_out, types.Array) and near_out.layout == "C" and near_out.dtype == types.float64):
         return None
-    sig = types.int64(wb, node, cols, origin, inverse, t_min, t_max, near_out)
+    sig = types.int64(wb, node, cols, origin, far_origin, inverse, t_min, t_max, near_out)
 
     def codegen(context, builder, signature, args):
-        wb_t, _, cols_t, origin_t, inverse_t, _, _, out_t = signature.args
-        a_wb, a_node, a_cols, a_origin, a_inverse, a_tmin, a_tmax, a_out = args
+        wb_t, _, _, _, _, _, _, _, out_t = signature.args
+        a_wb, a_node, a_cols, a_origin, a_far, a_inverse, a_tmin, a_tmax, a_out = args
         ary = context.make_array(wb_t)(context, builder, a_wb)
         row = builder.mul(a_node, builder.extract_value(ary.shape, 1))
         col = [builder.extract_value(a_cols, k) for k in range(6)]
         o = [_splat(builder, builder.extract_value(a_origin, k)) for k in range(3)]
+        o += [_splat(builder, builder.extract_value(a_far, k)) for k in range(3)]
         inv = [_splat(builder, builder.extract_value(a_inverse, k)) for k in range(3)]
 
         def slab(k):
             ptr = builder.gep(ary.data, [builder.add(row, col[k])])
             bound = builder.load(builder.bitcast(ptr, _V8F.as_pointer()), align=4)
-            return builder.fmul(builder.fsub(builder.fpext(bound, _V8D), o[k % 3]), inv[k % 3])
+            return builder.fmul(builder.fsub(builder.fpext(bound, _V8D), o[k]), inv[k % 3])
 
         tn = [slab(k) for k in range(3)]
         tf = [slab(k) for k in range(3, 6)]

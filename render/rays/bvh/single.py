@@ -30,7 +30,7 @@ import numpy as np
 
 from render.rays.bvh.layout import WIDE
 from render.rays.bvh.simd import lowest_bit, node_entry_mask
-from render.rays.bvh.slab import safe_inverse
+from render.rays.bvh.slab import far_origin, safe_inverse
 from render.rays.bvh.triangle import intersect_triangle, ray_shear, triangle_vertices
 
 __all__ = ["any_one", "closest_one"]
@@ -94,6 +94,7 @@ def closest_one(
     p = (_pick(ox, oy, oz, kx), _pick(ox, oy, oz, ky), _pick(ox, oy, oz, kz))
     s = (sx, sy, sz)
     origin = (ox, oy, oz)
+    upper = (far_origin(ox, d[0]), far_origin(oy, d[1]), far_origin(oz, d[2]))
     inverse = (safe_inverse(d[0]), safe_inverse(d[1]), safe_inverse(d[2]))
     cols = _octant_columns(inverse[0], inverse[1], inverse[2])
     best_t = t_max
@@ -106,7 +107,7 @@ def closest_one(
     while True:
         if entry >= 0:
             node = np.uint64(entry)
-            mask = node_entry_mask(wb, node, cols, origin, inverse, t_min, best_t, work)
+            mask = node_entry_mask(wb, node, cols, origin, upper, inverse, t_min, best_t, work)
             if mask != 0:
                 c = np.uint64(lowest_bit(mask))
                 mask &= mask - 1
@@ -202,12 +203,13 @@ def any_one(
     p = (_pick(ox, oy, oz, kx), _pick(ox, oy, oz, ky), _pick(ox, oy, oz, kz))
     s = (sx, sy, sz)
     origin = (ox, oy, oz)
+    upper = (far_origin(ox, d[0]), far_origin(oy, d[1]), far_origin(oz, d[2]))
     inverse = (safe_inverse(d[0]), safe_inverse(d[1]), safe_inverse(d[2]))
     cols = _octant_columns(inverse[0], inverse[1], inverse[2])
     node = np.uint64(0)
     sp = 0
     while True:
-        mask = node_entry_mask(wb, node, cols, origin, inverse, t_min, t_max, work)
+        mask = node_entry_mask(wb, node, cols, origin, upper, inverse, t_min, t_max, work)
         while mask != 0:
             c = np.uint64(lowest_bit(mask))
             mask &= mask - 1
