@@ -156,13 +156,18 @@ def intensity_toward(
     return intensity_lookup(c_grid, g_grid, cd_table, c, g)
 
 
+def _read_only(a: npt.ArrayLike) -> np.ndarray:
+    """A contiguous float64 read-only view (a copy where ``a`` is not one already)."""
+    out = np.ascontiguousarray(a, np.float64).view()
+    out.flags.writeable = False
+    return out
+
+
 def lookup_tables(photometry: Photometry) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """``(c_grid, g_grid, cd_table)`` as contiguous float64 arrays for the numba kernels."""
-    return (
-        np.ascontiguousarray(photometry.c_deg),
-        np.ascontiguousarray(photometry.gamma_deg),
-        np.ascontiguousarray(photometry.candela_cd),
-    )
+    """``(c_grid, g_grid, cd_table)`` as contiguous read-only float64 arrays for the numba
+    kernels: always the same array types, so each kernel is compiled for one (numba compiles a
+    function again for each layout and each of writable and read-only)."""
+    return _read_only(photometry.c_deg), _read_only(photometry.gamma_deg), _read_only(photometry.candela_cd)
 
 
 def intensity_cd(photometry: Photometry, c_deg: npt.ArrayLike, gamma_deg: npt.ArrayLike) -> float | np.ndarray:
@@ -170,6 +175,7 @@ def intensity_cd(photometry: Photometry, c_deg: npt.ArrayLike, gamma_deg: npt.Ar
     by bilinear interpolation in C (periodic) and γ; 0 outside the measured γ range."""
     c, g = np.broadcast_arrays(np.asarray(c_deg, dtype=np.float64), np.asarray(gamma_deg, dtype=np.float64))
     out = np.empty(c.size, dtype=np.float64)
-    _lookup_many(*lookup_tables(photometry), np.ascontiguousarray(c).ravel(), np.ascontiguousarray(g).ravel(), out)
+    # Fresh writable copies of the angles, whatever was given: one compiled type.
+    _lookup_many(*lookup_tables(photometry), np.array(c, np.float64).ravel(), np.array(g, np.float64).ravel(), out)
     out = out.reshape(c.shape)
     return float(out) if out.ndim == 0 else out
