@@ -437,6 +437,45 @@ class Study:
         factors, lamps = channel_factors(lights, s)
         return illuminance_from_transport(moments, factors, self.lamp_spds(lamps), settings.basis)
 
+    def night_illuminance_per_unit_lx(
+        self,
+        points_m: npt.ArrayLike,
+        normals: npt.ArrayLike,
+        *,
+        bounces: int = 0,
+        paths: int,
+        seed: int | None = None,
+    ) -> np.ndarray:
+        """(N, 4) illuminance (lx) at bare points on surfaces with the given unit normals from
+        the night's other light (``[night]``) per unit level of each term: per 1 cd/m² of sky
+        glow, per 1 lx of the moon's normal illuminance, per 1 cd/m² of the lit houses' and
+        shops' windows (times :func:`render.light.indirect.view.ambient_levels` of the scene's
+        ``[night]``: its illuminance). A Monte Carlo estimate with ``paths`` per point (the
+        moon's direct part exact), its direct part alone with ``bounces`` 0, up to ``bounces``
+        interreflections otherwise; the terms off in ``[night]`` are zero (turning one on
+        traces again). Lamp-independent: the same for every setup. Zero without night light."""
+        from render.light.indirect import IndirectSettings, PathTracer, transport_at_points
+        from render.light.indirect.view import ambient_illuminance_per_unit_lx, without_luminaires
+
+        pts = np.asarray(points_m, np.float64).reshape(-1, 3)
+        nrm = np.asarray(normals, np.float64).reshape(-1, 3)
+        nrm = nrm / np.linalg.norm(nrm, axis=1, keepdims=True)
+        night = self.scene.night
+        if not night.on or pts.shape[0] == 0:
+            return np.zeros((pts.shape[0], 4))
+        settings = IndirectSettings(bounces=max(int(bounces), 0), samples_per_pixel=int(paths), night=night)
+        tracer = PathTracer(
+            self.mesh,
+            self.bvh,
+            without_luminaires(self.lights(None)),
+            self.reflectances,
+            settings,
+            negligible_lx=self.negligible_lx,
+            offset_m=self.shadow_offset_m,
+        )
+        moments, _ = transport_at_points(pts, nrm, None, tracer, self.scene.render.seed if seed is None else seed)
+        return ambient_illuminance_per_unit_lx(moments, self.night_spectra(), settings.basis)
+
     def illuminance_lx(
         self,
         points_m: npt.ArrayLike,

@@ -20,7 +20,9 @@ height). Lanes are numbered from the right (−y) kerb: "lane 1" is the rightmos
 :func:`evaluate_field` gives the horizontal illuminance at the points with the scene's direct
 light (:func:`render.study.Study.illuminance_lx`: the setup's lumens, dimming and maintenance
 factor, shadows from the geometry), and its mean Ē, minimum, maximum and overall uniformity
-U0 = Emin/Ē. Interreflected light is not included, as in the standard's calculation.
+U0 = Emin/Ē. Interreflected light is not included, as in the standard's calculation; nor is the
+night's other light (sky glow, moonlight, lit windows: :mod:`render.calc.night`), which a
+result may hold beside its figures (``night``).
 
 On footways, :func:`evaluate_face_field` gives the semicylindrical and vertical illuminance at
 1.5 m above the field's points (for recognising faces), facing one horizontal direction (call it
@@ -75,6 +77,7 @@ from render.light.luminaires import channel_factors
 from render.scene.model import Road, Scene, Setup, Street
 
 if TYPE_CHECKING:
+    from render.calc.night import NightGrid
     from render.geometry.roads import Centreline
     from render.study import Study
 
@@ -168,6 +171,9 @@ class FieldResult:
     # Interreflected light alone on the same grid (None: not computed, direct light only). The
     # figures above stay direct light, as the standard's calculation takes it.
     interreflected_lx: np.ndarray | None = None
+    # The night's other light (sky glow, moonlight, lit windows) on the same grid, per unit
+    # level of each term (None: no [night]); shown beside the figures above, never in them.
+    night: NightGrid | None = None
 
     @property
     def with_interreflected_lx(self) -> np.ndarray | None:
@@ -200,6 +206,8 @@ class FieldResult:
                 "max_lx": float(total.max()),
                 "u0": float(total.min()) / mean if mean > 0 else 0.0,
             }
+        if self.night is not None:
+            out["night"] = self.night.to_json(self.illuminance_lx)
         return out
 
 
@@ -213,10 +221,14 @@ class FaceResult:
     height_m: float
     semicylindrical_lx: np.ndarray  # (along, across)
     vertical_lx: np.ndarray  # (along, across)
+    # The night's other light on the same points and facing (None: no [night]), beside them.
+    night_semicylindrical: NightGrid | None = None
+    night_vertical: NightGrid | None = None
 
     def to_json(self) -> dict[str, Any]:
-        """The result as plain JSON types, with the mean and minimum of each grid."""
-        return {
+        """The result as plain JSON types, with the mean and minimum of each grid (and the
+        night light's grids beside them, labelled, when the scene has it)."""
+        out = {
             "name": self.name,
             "setup": self.setup,
             "facing": list(self.facing),
@@ -228,6 +240,12 @@ class FaceResult:
             "vertical_mean_lx": float(self.vertical_lx.mean()),
             "vertical_min_lx": float(self.vertical_lx.min()),
         }
+        if self.night_semicylindrical is not None and self.night_vertical is not None:
+            out["night"] = {
+                "semicylindrical": self.night_semicylindrical.to_json(self.semicylindrical_lx),
+                "vertical": self.night_vertical.to_json(self.vertical_lx),
+            }
+        return out
 
 
 def points_along(spacing_m: float) -> tuple[int, float]:

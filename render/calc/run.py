@@ -9,6 +9,10 @@ and the footways) and computes
   --bounces N``) also the interreflected light on the same points and the figures with it,
   beside the direct ones and labelled as not part of the EN 13201 calculation: the headline
   figures, the class check and every other figure stay direct light;
+* with the scene's ``[night]`` on (sky glow, moonlight, lit windows), the illuminance that
+  light adds on every field and the footways' face grids (:mod:`render.calc.night`: traced once
+  per run for every setup, its direct part with ``bounces`` 0), beside the luminaires' figures
+  and labelled; it never enters Ē, Emin, U0, the headline or the class check;
 * on footways, the semicylindrical and vertical illuminance at 1.5 m facing both ways along the
   street (:func:`render.calc.fields.evaluate_face_field`);
 * the edge illuminance ratio on both sides of the carriageway (:mod:`render.calc.edge`);
@@ -68,6 +72,7 @@ from render.calc.classes import CAUTION, ClassCheck, ClassFigures, LightingClass
 from render.calc.edge import EdgeResult, edge_illuminance_ratio
 from render.calc.energy import EnergyDifference, LuminairePower, SetupEnergy, energy_difference, setup_energy
 from render.calc.fields import (
+    FACE_HEIGHT_M,
     FaceResult,
     FieldResult,
     evaluate_face_field,
@@ -76,6 +81,7 @@ from render.calc.fields import (
     row_road,
     row_section,
 )
+from render.calc.night import NightFields, night_on_fields
 from render.calc.obtrusive import ObtrusiveLimits, ObtrusiveResult, evaluate_obtrusive, facade_fields
 from render.calc.road import LuminanceResult, evaluate_luminance_field
 from render.calc.sky import (
@@ -95,7 +101,7 @@ from render.colour.materials import luminous_reflectance
 from render.errors import did_you_mean, input_error
 from render.light.luminaires import channel_factors, setting_for
 from render.light.rtable import RTable, read_r_table
-from render.scene.model import EnergySettings, Scene, Street
+from render.scene.model import EnergySettings, NightLight, Scene, Street
 
 if TYPE_CHECKING:
     from render.study import Study
@@ -152,6 +158,9 @@ class CalcOptions:
     # Interreflections for the fields' figures with interreflected light (0: direct light only).
     # Those figures are given beside the direct ones; class checks and headlines stay direct.
     bounces: int = 0
+    # The scene's [night] light (None: off or left out), given beside the luminaires' figures
+    # on the fields (render.calc.night), never in them.
+    night: NightLight | None = None
 
     @property
     def directions(self) -> tuple[int, ...]:
@@ -174,10 +183,17 @@ class CalcOptions:
             "max_intensity_toward_windows_cd": self.obtrusive_limits.max_intensity_cd,
             "energy": dict(vars(self.energy)),
             **({"bounces": self.bounces} if self.bounces > 0 else {}),
+            **({"night_light": _describe_night(self.night)} if self.night is not None else {}),
         }
 
 
 _UNSET: Any = object()
+
+
+def _describe_night(night: NightLight) -> str:
+    from render.light.indirect.night import describe_night
+
+    return describe_night(night)
 
 
 def calc_options(
@@ -192,10 +208,12 @@ def calc_options(
     include_objects: tuple[str, ...] | str | None = None,
     mesopic: bool | None = None,
     bounces: int | None = None,
+    night: bool | None = None,
 ) -> CalcOptions:
     """The scene's ``[calc]``, ``[energy]`` and r-table (of the ``[street]``, or of the road the
     first luminaire row stands along) with the given overrides
-    (``None``: the scene's value, for ``bounces`` 0; ``include_objects`` may be ``"all"``; ``lighting_class``
+    (``None``: the scene's value, for ``bounces`` 0; ``night`` False leaves the scene's ``[night]``
+    light out of the calculation; ``include_objects`` may be ``"all"``; ``lighting_class``
     given as ``None`` turns the class check off). Unknown class or object names are an
     :class:`~render.errors.InputError` naming the option."""
     c = scene.calc
@@ -245,6 +263,7 @@ def calc_options(
         obtrusive_limits=ObtrusiveLimits(c.max_facade_illuminance_lx, c.max_intensity_toward_windows_cd),
         energy=scene.energy,
         bounces=bounces if bounces is not None else 0,
+        night=scene.night if scene.night.on and night is not False else None,
     )
 
 
@@ -549,11 +568,17 @@ def _s_p_ratio(study: Study, lights, setup, lanes) -> float:
 
 
 def setup_calculation(
-    study: Study, setup: str | None = None, options: CalcOptions | None = None, upward: UpwardLight | None = None
+    study: Study,
+    setup: str | None = None,
+    options: CalcOptions | None = None,
+    upward: UpwardLight | None = None,
+    night: NightFields | None = None,
 ) -> SetupCalculation:
     """The figures of one setup (the module text lists them) on ``study`` as given (see
     :func:`calc_study` for leaving out the scene's objects); ``upward``: the upward exitance
-    map's plane already cast on ``study`` (cast here under this setup when not given)."""
+    map's plane already cast on ``study`` (cast here under this setup when not given);
+    ``night``: the night light on the fields already traced (traced here when the options
+    have night light and it is not given)."""
     opts = options if options is not None else CalcOptions()
     s = study.setup(setup)
     lights = study.lights(s)
@@ -567,6 +592,18 @@ def setup_calculation(
         if f.name.startswith("footway ")
         for facing in ((1.0, 0.0, 0.0), (-1.0, 0.0, 0.0))
     )
+    if night is None and opts.night is not None:
+        night = _night_fields(study, fields, opts)
+    if night is not None:
+        results = tuple(replace(r, night=night.horizontal[r.name]) for r in results)
+        faces = tuple(
+            replace(
+                f,
+                night_vertical=night.vertical[(f.name, int(np.sign(f.facing[0])))],
+                night_semicylindrical=night.semicylindrical[(f.name, int(np.sign(f.facing[0])))],
+            )
+            for f in faces
+        )
     lanes = [f for f in fields if f.name.startswith("lane ")]
     x0 = float(min(f.along.min() - f.spacing_m[0] / 2 for f in lanes))
     spacing = float(lanes[0].shape[0] * lanes[0].spacing_m[0])
@@ -629,6 +666,13 @@ def setup_calculation(
     return replace(calc, class_check=check_class(cls, figures, s_p_ratio=sp))
 
 
+def _night_fields(study: Study, fields, opts: CalcOptions) -> NightFields | None:
+    """The night light on the calculation's fields (lamp-independent: once per run)."""
+    if opts.night is None:
+        return None
+    return night_on_fields(study, fields, bounces=opts.bounces, face_height_m=FACE_HEIGHT_M)
+
+
 def run_calculation(study: Study, setups: list[str | None], options: CalcOptions | None = None) -> CalculationReport:
     """The calculation of every setup in ``setups`` (``None``: the scene's own lamps); the first
     is the "before" the others' sky-glow and energy are compared with. ``options`` default to
@@ -642,7 +686,8 @@ def run_calculation(study: Study, setups: list[str | None], options: CalcOptions
         )
     used = calc_study(study, opts.include_objects)
     upward = UpwardLight(used, setups[0], bounces=opts.bounces) if setups else None
-    out = [setup_calculation(used, s, opts, upward) for s in setups]
+    night = _night_fields(used, row_fields(used.scene), opts) if setups and opts.night is not None else None
+    out = [setup_calculation(used, s, opts, upward, night) for s in setups]
     first = out[0] if out else None
     if first is not None:
         out[0] = first = replace(first, sky_relative=sky_glow_relative(first.sky, first.sky))

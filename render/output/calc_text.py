@@ -5,6 +5,10 @@ standing caution; :func:`write_field_csvs` writes one CSV per field and setup wi
 points and horizontal illuminance (``x_m,y_m,illuminance_lx``), each file atomically. Figures
 with interreflected light (``lampcast calc --bounces N``) are rows and columns of their own,
 labelled :data:`render.calc.fields.INTERREFLECTED_LABEL`; the direct figures stay as they are.
+With the scene's ``[night]`` light, rows marked "night light" give its illuminance on each
+field and face grid beside the luminaires' (:mod:`render.calc.night`, labelled
+:data:`render.calc.night.NIGHT_LABEL`), and the CSVs get the columns ``night_lx`` and
+``illuminance_incl_night_not_en13201_lx``.
 """
 
 from __future__ import annotations
@@ -15,6 +19,7 @@ from pathlib import Path
 import numpy as np
 
 from render.calc.fields import INTERREFLECTED_LABEL, row_fields
+from render.calc.night import NIGHT_LABEL
 from render.calc.run import CalculationReport
 from render.fileio import atomic_write_text, file_stem
 from render.scene.model import Scene
@@ -43,6 +48,11 @@ def format_calculation(report: CalculationReport) -> str:
             f"fields also with interreflected light (up to {o.bounces} bounces), rows marked '+ interreflected': "
             f"{INTERREFLECTED_LABEL}; every other figure and the class check are direct light only"
         )
+    if o.night is not None:
+        from render.light.indirect.night import describe_night
+
+        bounced = f"up to {o.bounces} interreflections" if o.bounces > 0 else "its direct part only"
+        lines.append(f"{describe_night(o.night)}; rows marked 'night light' ({bounced}): {NIGHT_LABEL}")
     for s in report.setups:
         lines.append("")
         lines.append(f"setup: {s.setup or '(the scene as given)'}")
@@ -56,12 +66,25 @@ def format_calculation(report: CalculationReport) -> str:
                     f"  {'+ interreflected':<16}{_num(mean):>9}{_num(lo):>9}{_num(float(total.max())):>9}"
                     f"{_num(lo / mean if mean > 0 else 0.0):>7}  ({INTERREFLECTED_LABEL})"
                 )
+            if f.night is not None:
+                n, terms = f.night, f.night.term_means_lx()
+                lines.append(
+                    f"  {'night light':<16}{_num(n.mean_lx, 3):>9}{_num(n.min_lx, 3):>9}{_num(n.max_lx, 3):>9}{'':>7}"
+                    f"  (sky {terms['sky_glow']:.3f}, moon {terms['moonlight']:.3f}, windows "
+                    f"{terms['lit_windows']:.3f}, shop windows {terms['lit_shop_windows']:.3f} lx)"
+                )
         for face in s.faces:
             sc, v = face.semicylindrical_lx, face.vertical_lx
             lines.append(
                 f"  {face.name} at {face.height_m:g} m facing {_way(int(np.sign(face.facing[0])))}: "
                 f"E_sc mean {sc.mean():.2f} lx, min {sc.min():.2f} lx; E_v mean {v.mean():.2f} lx, min {v.min():.2f} lx"
             )
+            if face.night_semicylindrical is not None and face.night_vertical is not None:
+                nsc, nv = face.night_semicylindrical, face.night_vertical
+                lines.append(
+                    f"    night light: E_sc mean {nsc.mean_lx:.3f} lx, min {nsc.min_lx:.3f} lx; "
+                    f"E_v mean {nv.mean_lx:.3f} lx, min {nv.min_lx:.3f} lx"
+                )
         for e in s.edge:
             lines.append(
                 f"  edge ratio R_EI {e.side}: {e.ratio:.2f} (outside {e.outside_mean_lx:.2f} lx / "
@@ -164,7 +187,9 @@ def write_field_csvs(scene: Scene, report: CalculationReport, out_dir: str | os.
     in the order of the fields' points (along the street, then across); with interreflected
     light two more columns, ``interreflected_lx`` and
     ``illuminance_incl_interreflected_not_en13201_lx`` (direct plus interreflected: not part of
-    the EN 13201 calculation). Returns the files."""
+    the EN 13201 calculation); with the night light two more, ``night_lx`` and
+    ``illuminance_incl_night_not_en13201_lx`` (the luminaires' direct light plus it). Returns
+    the files."""
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
     fields = {f.name: f for f in row_fields(scene)}
@@ -184,6 +209,12 @@ def write_field_csvs(scene: Scene, report: CalculationReport, out_dir: str | os.
                 rows += [
                     f"{p[0]!r},{p[1]!r},{float(e)!r},{float(r)!r},{float(e + r)!r}"
                     for p, e, r in zip(field.points_m.tolist(), values, extra.ravel(), strict=True)
+                ]
+            if result.night is not None:
+                night = result.night.illuminance_lx.ravel()
+                rows[0] += ",night_lx,illuminance_incl_night_not_en13201_lx"
+                rows[1:] = [
+                    f"{row},{float(n)!r},{float(e + n)!r}" for row, e, n in zip(rows[1:], values, night, strict=True)
                 ]
             stem = file_stem(f"{s.setup or 'scene'}-{result.name}")
             written.append(atomic_write_text(out / f"{stem}.csv", "\n".join(rows) + "\n"))

@@ -274,10 +274,16 @@ def _window_connection(
     o[0] = px + offset * gx
     o[1] = py + offset * gy
     o[2] = pz + offset * gz
-    d[0] = lx
-    d[1] = ly
-    d[2] = lz
-    if any_one(wb, wi, tv, o, d, 0.0, max(dist - _WINDOW_CLEARANCE_M, 0.0), st_node, work, WIDE):
+    # The shadow ray starts offset along the normal: aimed from there at the window's point and
+    # ending the clearance short of it (aimed from the point, it would meet the window itself).
+    d[0] = px + lx * dist - o[0]
+    d[1] = py + ly * dist - o[1]
+    d[2] = pz + lz * dist - o[2]
+    reach = math.sqrt(d[0] * d[0] + d[1] * d[1] + d[2] * d[2])
+    d[0] /= reach
+    d[1] /= reach
+    d[2] /= reach
+    if any_one(wb, wi, tv, o, d, 0.0, max(reach - _WINDOW_CLEARANCE_M, 0.0), st_node, work, WIDE):
         return pick, 0.0, total
     return pick, cos_x * cos_w * win[pick, 12] * total / (math.pi * d2 * e_win[pick]), total
 

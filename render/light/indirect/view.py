@@ -22,7 +22,12 @@ blocks, per camera sample) are measured by ``python -m render.bench indirect --s
 (stated in DEVELOPERS.md).
 
 :func:`transport_at_points` is the same tracing at arbitrary surface points (the checks, and
-calculations that include interreflected light).
+calculations that include interreflected light); :func:`illuminance_from_transport` turns its
+luminaires' channels into illuminance for any lamps, lumens and dimming, and
+:func:`ambient_illuminance_per_unit_lx` its night-light channels into illuminance per unit
+level of each term (times :func:`ambient_levels` for the scene's levels: a new sky luminance,
+moon illuminance or window luminance is a multiply). :func:`without_luminaires` lets a tracer
+carry the night light alone.
 
 References
 ----------
@@ -33,7 +38,7 @@ The methods are those of :mod:`render.light.indirect.paths` and
 from __future__ import annotations
 
 from collections.abc import Iterator, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numba
 import numpy as np
@@ -72,6 +77,8 @@ __all__ = [
     "IndirectBuffers",
     "IndirectSettings",
     "PathTracer",
+    "ambient_illuminance_per_unit_lx",
+    "ambient_levels",
     "ambient_responses",
     "illuminance_from_transport",
     "indirect_responses",
@@ -80,6 +87,7 @@ __all__ = [
     "trace_view",
     "transport_at_points",
     "view_transport_tiles",
+    "without_luminaires",
 ]
 
 #: Interreflections a path may have at most when the scene does not say (vertices after the
@@ -645,4 +653,52 @@ def illuminance_from_transport(
     f = np.asarray(factors, np.float64)
     for c in range(moments.shape[1]):
         out += f[c] * (moments[:, c, :] @ white[0, lamp_of_channel[c], :, 1])
+
+
+def ambient_levels(night: NightLight) -> np.ndarray:
+    """(4,) the levels the ambient channels are scaled by: the sky's luminance (cd/m²), the
+    moon's normal illuminance (lx), the lit houses' and shops' window luminances (cd/m²)."""
+    return np.array(
+        [
+            night.sky_luminance_cd_m2,
+            night.moon_illuminance_lx,
+            night.window_luminance_cd_m2,
+            night.shop_window_luminance_cd_m2,
+        ],
+        np.float64,
+    )
+
+
+def without_luminaires(lights: LuminaireSet) -> LuminaireSet:
+    """``lights`` with no luminaire and no channel (the photometric tables kept), for a tracer
+    that carries the night's ambient channels alone: no connection to a luminaire is made,
+    and the ambient channels draw the same random numbers as with them (counter-based)."""
+    return replace(
+        lights,
+        names=[],
+        channels=[],
+        position_m=lights.position_m[:0],
+        rotation=lights.rotation[:0],
+        scale=lights.scale[:0],
+        table=lights.table[:0],
+        channel=lights.channel[:0],
+        opening_m=lights.opening_m[:0],
+        cull_grids={},
+    )
+
+
+def ambient_illuminance_per_unit_lx(moments: np.ndarray, ambient_spds: ArrayLike, basis: TransportBasis) -> np.ndarray:
+    """(N, A) photopic illuminance (lx) at bare points per unit level of each ambient channel,
+    from its node values (N, A, n_nodes) of :func:`transport_at_points` (the channels after
+    the luminaires' ones, sky glow, moonlight, house and shop windows: per 1 cd/m² of sky, per
+    1 lx of the moon's normal illuminance, per 1 cd/m² of window) and their spectra
+    ``ambient_spds`` (A, N_BINS), any scale (each at one photopic unit): π·Σ_j b_aj·Y_aj with
+    Y_aj the luminance a white diffuser returns per unit node value of spectrum a. Times
+    :func:`ambient_levels` (summed over a) it is the night light's illuminance."""
+    m = np.asarray(moments, np.float64)
+    spds = np.asarray(ambient_spds, np.float64).reshape(-1, N_BINS)
+    if spds.shape[0] != m.shape[1]:
+        raise ValueError(f"{spds.shape[0]} spectra for {m.shape[1]} ambient channels")
+    white = transport_table(np.ones((1, N_BINS)), spds, basis)[0, :, :, 1]  # (A, n_nodes) photopic
+    return np.pi * np.einsum("paj,aj->pa", m, white)
     return np.pi * out

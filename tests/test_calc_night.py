@@ -1,0 +1,186 @@
+"""The night's other light at the calculation points, through ``lampcast calc``'s path.
+
+Sources of the expected values (the same as in tests/test_night.py, here at calculation
+points through :func:`render.calc.run.run_calculation`):
+* a uniform sky of luminance L over an unobstructed horizontal plane gives E = π·L (analytic:
+  ∫ L cos θ dω over the hemisphere); a vertical plane facing the open horizon with a black
+  ground below sees half of it, E = π·L/2 (analytic, the same integral over the upper half);
+* a parallel beam of normal illuminance E_n from elevation h gives E_n·sin h on horizontal
+  ground (cosine law, analytic); on a small vertical half-cylinder facing azimuth α away from
+  the beam, E_sc = E_n·cos h·(1 + cos α)/π (the closed form derived in render/calc/fields.py;
+  analytic);
+* sky view factor at a distance d from the foot of one long wall of height H,
+  SVF = (1 + d/√(d² + H²))/2 (2-D configuration factor of a strip, Siegel & Howell
+  **(from memory)**, derived again in tests/test_night.py);
+* Monte Carlo error of independent Bernoulli samples, √(p(1 − p)/N) (binomial variance).
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from dataclasses import replace
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from render.calc.night import NIGHT_LABEL, NIGHT_PATHS_PER_POINT
+from render.calc.run import calc_options, run_calculation
+from render.output.calc_text import format_calculation, write_field_csvs
+from render.study import Study
+
+MINIMAL = Path(__file__).resolve().parent.parent / "scenes" / "tests" / "minimal_street.toml"
+SKY, MOON = 0, 1
+# The lanes' fields: carriageway 6 m, two lanes, three points across each at d = W/3.
+LANE_Y = np.array([-2.5, -1.5, -0.5, 0.5, 1.5, 2.5])
+
+
+def _scene(tmp_path: Path, night: str, extra: str = "", footways: bool = True) -> Path:
+    """The minimal street without columns and kerbs (nothing above the points but the sky),
+    with footways 2 m wide when asked, ``extra`` tables and a [night] table."""
+    text = MINIMAL.read_text(encoding="utf-8").replace("lamp = ", "column = false\nlamp = ")
+    text = text.replace("length_m = 40.0\n", "length_m = 40.0\nkerb_height_m = 0.0\n")
+    if footways:
+        text = text.replace(
+            "carriageway_width_m = 6.0\n",
+            "carriageway_width_m = 6.0\n\n[street.left]\nfootway_width_m = 2.0\n\n[street.right]\nfootway_width_m = 2.0\n",
+        )
+    p = tmp_path / "night_calc.toml"
+    p.write_text(text + extra + "\n[night]\n" + night, encoding="utf-8")
+    return p
+
+
+def _calc(path: Path, bounces: int = 0, **kw):
+    study = Study(path)
+    return study, run_calculation(study, [None], calc_options(study.scene, bounces=bounces, **kw))
+
+
+def test_open_plane_under_the_sky_gets_pi_times_its_luminance(tmp_path):
+    # E = π·L on every horizontal point with nothing above it (every upward direction leaves
+    # the scene: no noise at all), on lanes and footways alike.
+    L = 0.004
+    study, report = _calc(_scene(tmp_path, f"sky_luminance_cd_m2 = {L}\n"))
+    (setup,) = report.setups
+    assert len(setup.fields) == 4
+    for f in setup.fields:
+        assert f.night is not None and f.night.paths == NIGHT_PATHS_PER_POINT
+        np.testing.assert_allclose(f.night.illuminance_lx, math.pi * L, rtol=1e-9)
+        np.testing.assert_allclose(f.night.per_unit_lx[..., SKY], math.pi, rtol=1e-9)
+        np.testing.assert_array_equal(f.night.per_unit_lx[..., MOON], 0.0)
+    # Vertical planes 1.5 m above the footways see the upper half: π·L/2, Bernoulli noise.
+    for face in setup.faces:
+        for grid in (face.night_vertical, face.night_semicylindrical):
+            frac = grid.per_unit_lx[..., SKY] / math.pi
+            n = frac.size * NIGHT_PATHS_PER_POINT
+            assert abs(frac.mean() - 0.5) < 4 * math.sqrt(0.25 / n), (face.name, frac.mean())
+
+
+def test_night_light_is_never_in_the_luminaires_figures(tmp_path):
+    # The luminaires' grids, Ē, Emin, U0, the headline and the class check are those without
+    # [night], to the bit; the night light is beside them (common practice, no source: a
+    # lighting class judges the installation).
+    with_night = _scene(tmp_path, "sky_luminance_cd_m2 = 0.01\nmoon_illuminance_lx = 0.2\n")
+    _, on = _calc(with_night, lighting_class="P4")
+    _, off = _calc(with_night, lighting_class="P4", night=False)
+    assert off.options.night is None and on.options.night is not None
+    a, b = on.setups[0], off.setups[0]
+    for fa, fb in zip(a.fields, b.fields, strict=True):
+        np.testing.assert_array_equal(fa.illuminance_lx, fb.illuminance_lx)
+        assert (fa.mean_lx, fa.min_lx, fa.u0) == (fb.mean_lx, fb.min_lx, fb.u0)
+        assert fb.night is None and fa.night is not None and fa.night.mean_lx > 0
+    for fa, fb in zip(a.faces, b.faces, strict=True):
+        np.testing.assert_array_equal(fa.semicylindrical_lx, fb.semicylindrical_lx)
+        np.testing.assert_array_equal(fa.vertical_lx, fb.vertical_lx)
+    assert a.headline() == b.headline()
+    assert a.class_check == b.class_check
+    # The JSON states it, labelled, with the luminaires' light plus it apart.
+    js = json.loads(json.dumps(a.to_json()))
+    night = js["fields"][0]["night"]
+    assert night["label"] == NIGHT_LABEL
+    assert js["fields"][0]["mean_lx"] == a.fields[0].mean_lx
+    assert night["with_luminaires"]["mean_lx"] == pytest.approx(a.fields[0].mean_lx + night["mean_lx"], rel=1e-12)
+    assert set(js["faces"][0]["night"]) == {"semicylindrical", "vertical"}
+    assert "night_light" in on.to_json()["options"]
+    text = format_calculation(on)
+    assert "night light" in text and NIGHT_LABEL in text
+    assert "night light" not in format_calculation(off)
+
+
+def test_moonlight_on_open_ground_and_on_a_half_cylinder(tmp_path):
+    # E = E_n·sin h on horizontal points (the moon's direct part is exact: one shadow ray);
+    # moon toward −y (azimuth 180°). A half-cylinder facing +x sees it at α = 90°:
+    # E_sc = E_n·cos h/π; facing −x the same; the vertical planes facing ±x get none.
+    En, h = 0.25, 35.0
+    study, report = _calc(
+        _scene(tmp_path, f"moon_illuminance_lx = {En}\nmoon_elevation_deg = {h}\nmoon_azimuth_deg = 180.0\n")
+    )
+    s = report.setups[0]
+    for f in s.fields:
+        np.testing.assert_allclose(f.night.illuminance_lx, En * math.sin(math.radians(h)), rtol=1e-12)
+    expected = En * math.cos(math.radians(h)) / math.pi
+    for face in s.faces:
+        # The trapezoidal rule over 10° steps: within 0.3 % of the closed form (module text).
+        np.testing.assert_allclose(face.night_semicylindrical.illuminance_lx, expected, rtol=3e-3)
+        np.testing.assert_allclose(face.night_vertical.illuminance_lx, 0.0, atol=1e-15)
+    # Relighting: a new moon illuminance is a multiply of the stored per-unit values.
+    night = study.scene.night
+    brighter = s.fields[0].night.relit(replace(night, moon_illuminance_lx=4 * En))
+    np.testing.assert_allclose(brighter.illuminance_lx, 4 * s.fields[0].night.illuminance_lx, rtol=1e-12)
+    assert brighter.per_unit_lx is s.fields[0].night.per_unit_lx
+
+
+@pytest.mark.parametrize("azimuth", [90.0, 150.0])
+def test_moonlight_semicylindrical_at_other_azimuths(tmp_path, azimuth):
+    # E_sc = E_n·cos h·(1 + cos α)/π for the half-cylinder facing +x, α the beam's azimuth
+    # from +x (the moon toward azimuth a from +y toward +x: toward +x at a = 90°).
+    En, h = 0.2, 25.0
+    _, report = _calc(
+        _scene(tmp_path, f"moon_illuminance_lx = {En}\nmoon_elevation_deg = {h}\nmoon_azimuth_deg = {azimuth}\n")
+    )
+    toward = np.array([math.sin(math.radians(azimuth)), math.cos(math.radians(azimuth))])
+    for face in report.setups[0].faces:
+        cos_a = float(toward @ [np.sign(face.facing[0]), 0.0])
+        want = En * math.cos(math.radians(h)) * (1 + cos_a) / math.pi
+        got = face.night_semicylindrical.illuminance_lx
+        np.testing.assert_allclose(got, want, rtol=3e-3, atol=1e-12, err_msg=f"{face.name} {face.facing}")
+        np.testing.assert_allclose(
+            face.night_vertical.illuminance_lx, En * math.cos(math.radians(h)) * max(cos_a, 0.0), rtol=1e-12, atol=1e-15
+        )
+
+
+def test_sky_view_factor_beside_a_wall(tmp_path):
+    # A long wall of height H along the carriageway's right edge (its face at y = −3): the
+    # lanes' points d = y + 3 from its foot see SVF = (1 + d/√(d² + H²))/2 of the sky, within
+    # 4 σ per line of points along the street (direct part, bounces 0).
+    H = 5.0
+    # A box 4 km long (centred on its base's middle), its face toward the street at y = −3.
+    wall = (
+        f'\n[[geometry]]\nkind = "box"\nname = "wall"\nsize_m = [4000.0, 0.2, {H!r}]\n'
+        'position_m = [20.0, -3.1, 0.0]\nmaterial = "concrete"\n'
+    )
+    L = 0.01
+    _, report = _calc(_scene(tmp_path, f"sky_luminance_cd_m2 = {L}\n", wall, footways=False), include_objects=("wall",))
+    lanes = [f for f in report.setups[0].fields if f.name.startswith("lane ")]
+    frac = np.concatenate([f.night.illuminance_lx for f in lanes], axis=1) / (math.pi * L)  # (along, 6)
+    for j, y in enumerate(LANE_Y):
+        d = y + 3.0
+        svf = (1 + d / math.hypot(d, H)) / 2
+        sigma = math.sqrt(svf * (1 - svf) / (frac.shape[0] * NIGHT_PATHS_PER_POINT))
+        assert abs(frac[:, j].mean() - svf) < 4 * sigma, (d, frac[:, j].mean(), svf, sigma)
+
+
+def test_windows_and_bounces_and_csv(tmp_path):
+    # With bounces the night light gains its interreflected part (a grey road reflects the
+    # sky onto the face points: more than with bounces 0); the CSV carries the columns.
+    night = "sky_luminance_cd_m2 = 0.01\n"
+    path = _scene(tmp_path, night)
+    _, r0 = _calc(path, bounces=0)
+    _, r2 = _calc(path, bounces=2)
+    v0 = np.mean([f.night_vertical.mean_lx for f in r0.setups[0].faces])
+    v2 = np.mean([f.night_vertical.mean_lx for f in r2.setups[0].faces])
+    assert v2 > v0
+    assert r2.setups[0].fields[0].night.bounces == 2
+    files = write_field_csvs(Study(path).scene, r0, tmp_path / "csv")
+    head = files[0].read_text(encoding="utf-8").splitlines()[0]
+    assert head == "x_m,y_m,illuminance_lx,night_lx,illuminance_incl_night_not_en13201_lx"
