@@ -31,22 +31,19 @@ import numpy as np
 from render.rays.bvh.layout import WIDE
 from render.rays.bvh.simd import lowest_bit, node_entry_mask
 from render.rays.bvh.slab import far_origin, safe_inverse
-from render.rays.bvh.triangle import intersect_triangle, ray_shear, triangle_vertices
+from render.rays.bvh.triangle import intersect_triangle, triangle_vertices
 
 __all__ = ["any_one", "closest_one"]
 
 # Column of the first child's hi bound of axis k is _HI + 8 k (lo: 8 k), see layout.BVH.
 _HI = 3 * WIDE
+# Unsigned constants of the per-ray axis choice (unsigned indices: no wraparound check).
+_ONE = np.uint64(1)
+_TWO = np.uint64(2)
+_THREE = np.uint64(3)
 # Columns of the first child's reference and leaf count.
 _REF = np.uint64(6 * WIDE)
 _COUNT = np.uint64(7 * WIDE)
-
-
-@numba.njit(cache=True, nogil=True)
-def _pick(v0: float, v1: float, v2: float, k: int) -> float:
-    """Component ``k`` of (v0, v1, v2), without the bounds check (and its exception path) of
-    indexing a tuple at run time."""
-    return v0 if k == 0 else (v1 if k == 1 else v2)
 
 
 @numba.njit(cache=True, nogil=True)
@@ -88,11 +85,22 @@ def closest_one(
     ``work`` (at least WIDE) are scratch arrays."""
     # Per-ray constants (written out here: a call returning them is not inlined, and its
     # exception path would keep numba's reference counts of the arrays for every ray).
+    # The axes and shear of ray_shear, chosen by arithmetic on the comparisons and picked by
+    # index from o and d instead of by branches, which a random direction mispredicts.
     ox, oy, oz = o[0], o[1], o[2]
-    kx, ky, kz, sx, sy, sz = ray_shear(d[0], d[1], d[2])
-    k = (kx, ky, kz)
-    p = (_pick(ox, oy, oz, kx), _pick(ox, oy, oz, ky), _pick(ox, oy, oz, kz))
-    s = (sx, sy, sz)
+    ax = abs(d[0])
+    ay = abs(d[1])
+    az = abs(d[2])
+    kz = (_ONE - np.uint64((ax >= ay) & (ax >= az))) * (_TWO - np.uint64(ay >= az))
+    kx = kz + _ONE - _THREE * np.uint64(kz == _TWO)
+    ky = kx + _ONE - _THREE * np.uint64(kx == _TWO)
+    swap = (kx ^ ky) * np.uint64(d[kz] < 0.0)
+    kx ^= swap
+    ky ^= swap
+    sz = 1.0 / d[kz]
+    k = (np.int64(kx), np.int64(ky), np.int64(kz))
+    p = (o[kx], o[ky], o[kz])
+    s = (d[kx] * sz, d[ky] * sz, sz)
     origin = (ox, oy, oz)
     upper = (far_origin(ox, d[0]), far_origin(oy, d[1]), far_origin(oz, d[2]))
     inverse = (safe_inverse(d[0]), safe_inverse(d[1]), safe_inverse(d[2]))
@@ -197,11 +205,22 @@ def any_one(
     first found). Arguments as for :func:`closest_one`."""
     # Per-ray constants (written out here: a call returning them is not inlined, and its
     # exception path would keep numba's reference counts of the arrays for every ray).
+    # The axes and shear of ray_shear, chosen by arithmetic on the comparisons and picked by
+    # index from o and d instead of by branches, which a random direction mispredicts.
     ox, oy, oz = o[0], o[1], o[2]
-    kx, ky, kz, sx, sy, sz = ray_shear(d[0], d[1], d[2])
-    k = (kx, ky, kz)
-    p = (_pick(ox, oy, oz, kx), _pick(ox, oy, oz, ky), _pick(ox, oy, oz, kz))
-    s = (sx, sy, sz)
+    ax = abs(d[0])
+    ay = abs(d[1])
+    az = abs(d[2])
+    kz = (_ONE - np.uint64((ax >= ay) & (ax >= az))) * (_TWO - np.uint64(ay >= az))
+    kx = kz + _ONE - _THREE * np.uint64(kz == _TWO)
+    ky = kx + _ONE - _THREE * np.uint64(kx == _TWO)
+    swap = (kx ^ ky) * np.uint64(d[kz] < 0.0)
+    kx ^= swap
+    ky ^= swap
+    sz = 1.0 / d[kz]
+    k = (np.int64(kx), np.int64(ky), np.int64(kz))
+    p = (o[kx], o[ky], o[kz])
+    s = (d[kx] * sz, d[ky] * sz, sz)
     origin = (ox, oy, oz)
     upper = (far_origin(ox, d[0]), far_origin(oy, d[1]), far_origin(oz, d[2]))
     inverse = (safe_inverse(d[0]), safe_inverse(d[1]), safe_inverse(d[2]))
