@@ -589,6 +589,7 @@ def cmd_calc(args: argparse.Namespace) -> int:
         include_objects=include,
         mesopic=True if args.mesopic else None,
         bounces=args.bounces,
+        night=False if args.no_night else None,
         **overrides,
     )
     setups = args.setups or ([scene.compare_before, *scene.compare_options] if scene.compare_before else [None])
@@ -1009,6 +1010,12 @@ def build_parser() -> argparse.ArgumentParser:
         metavar="N",
         help="also give the fields' illuminance with interreflected light (up to N bounces, labelled; "
         "not part of the EN 13201 calculation; class checks stay direct light; default 0)",
+    )
+    p.add_argument(
+        "--no-night",
+        action="store_true",
+        help="leave the scene's [night] light (sky glow, moonlight, lit windows) out; with it, its illuminance "
+        "on the fields is given beside the luminaires' figures, never in them",
     )
     p.add_argument("--csv", metavar="DIR", help="also write one CSV of grid values per field and setup")
     p.add_argument("--pictures", metavar="DIR", help="also write the isolux plan, heat map and bar chart PNGs")

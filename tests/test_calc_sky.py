@@ -142,3 +142,21 @@ def test_setup_figures_and_relative_sky_glow_by_hand():
     assert rel.rayleigh_weighted == pytest.approx(0.5 * (600.0 / 450.0) ** 4 * v[600] / v[450], rel=1e-9)
     json.dumps(before.to_json())
     json.dumps(rel.to_json())
+
+
+def test_the_upward_total_takes_the_upward_exitance_map():
+    # By hand: two lamps, 100 and 20 lm direct, the ground's figure 300 and 100 lm; the map
+    # measures 200 lm through its plane, split 3:1 as the ground's figure is (150 and 50 lm):
+    # upward 100 + 20 + 200 = 320 lm over 80 m = 4 lm/m; the ground's figure kept beside it.
+    # The weighted figures follow the split: Rayleigh weight of (100 + 150) lm at 600 nm and
+    # (20 + 50) lm at 450 nm.
+    spds = [_mono(600.0), _mono(450.0)]
+    ground = sky_figures([100.0, 20.0], [300.0, 100.0], spds, 80.0)
+    fig = sky_figures([100.0, 20.0], [300.0, 100.0], spds, 80.0, reflected_upward_map_lm=200.0)
+    assert ground.reflected_upward_source == "ground patches" and ground.upward_lm == 520.0
+    assert fig.reflected_upward_source == "upward exitance map"
+    assert fig.upward_lm == pytest.approx(320.0, rel=1e-12)
+    assert fig.upward_lm_per_m == pytest.approx(4.0, rel=1e-12)
+    assert fig.reflected_upward_lm == 400.0 and fig.reflected_upward_map_lm == 200.0
+    alone = [sky_figures([d], [r], [s], 80.0) for d, r, s in ((100.0, 150.0, spds[0]), (20.0, 50.0, spds[1]))]
+    assert fig.rayleigh_weighted_lm == pytest.approx(sum(a.rayleigh_weighted_lm for a in alone), rel=1e-12)

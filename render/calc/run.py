@@ -27,12 +27,14 @@ and the footways) and computes
   TI over lanes and directions, the figures a class check uses;
 * obtrusive light on the frontages' facades (:mod:`render.calc.obtrusive`) against the limits
   of ``[calc]``;
-* light to the sky (:mod:`render.calc.sky`): the luminaires' direct upward flux, the light the
-  lit ground reflects upward, both per metre of street, the Rayleigh- and scotopic-weighted
-  figures relative to the first setup (the "before"), and the notch-filterable share; beside
-  them the upward exitance map over the scene (:class:`render.calc.sky.UpwardLight`, cast once
-  for the run and relit per setup) and its total reflected upward flux, facades, roofs and the
-  calculation's objects included (with ``bounces`` > 0 also their interreflected light);
+* light to the sky (:mod:`render.calc.sky`): the luminaires' direct upward flux and the light
+  the scene reflects upward, measured by the upward exitance map over the scene
+  (:class:`render.calc.sky.UpwardLight`, cast once for the run and relit per setup; facades,
+  roofs and the calculation's objects included, with ``bounces`` > 0 also their interreflected
+  light): their sum is the upward total, per metre of street too, and the Rayleigh- and
+  scotopic-weighted figures relative to the first setup (the "before") use it; beside it the
+  lit ground's reflected light counted whole (the ground patches' figure), and the
+  notch-filterable share;
 * energy (:func:`render.calc.energy.setup_energy`) from the setups' input watts and schedules
   and ``[energy]``, and its difference from the first setup;
 * with a lighting class, the class check (:func:`render.calc.classes.check_class`) of the
@@ -418,8 +420,17 @@ class CalculationReport:
         }
 
 
-def _sky(study: Study, lights, setup, reflect_lx: dict[str, np.ndarray], patches, length_m: float) -> SkyFigures:
-    """Direct and reflected upward flux per lamp of the setup (module text of render.calc.sky)."""
+def _sky(
+    study: Study,
+    lights,
+    setup,
+    reflect_lx: dict[str, np.ndarray],
+    patches,
+    length_m: float,
+    upward_map: UpwardExitanceMap | None = None,
+) -> SkyFigures:
+    """Direct and reflected upward flux per lamp of the setup (module text of render.calc.sky),
+    the totals with the upward exitance map's reflected flux when it is given."""
     from render.colour.lamps import get_lamp
     from render.colour.materials import get_material
 
@@ -451,7 +462,13 @@ def _sky(study: Study, lights, setup, reflect_lx: dict[str, np.ndarray], patches
     base = study.scene.base_dir
     notch = [notch_filterable_fraction(get_lamp(ref, base_dir=base, source=str(study.scene.path))) for ref in order]
     return sky_figures(
-        [direct[r] for r in order], [reflected[r] for r in order], [spds[r] for r in order], length_m, notch
+        [direct[r] for r in order],
+        [reflected[r] for r in order],
+        [spds[r] for r in order],
+        length_m,
+        notch,
+        reflected_upward_map_lm=upward_map.reflected_upward_lm if upward_map is not None else None,
+        reflected_upward_map_bounces=upward_map.bounces if upward_map is not None else 0,
     )
 
 
@@ -631,13 +648,10 @@ def setup_calculation(
     ground_lx = study.illuminance_lx(
         patches.points_m, np.tile([0.0, 0.0, 1.0], (len(patches.area_m2), 1)), s, per_group=True
     )
-    sky = _sky(study, lights, s, ground_lx, patches, length_m)
     if upward is None:
         upward = UpwardLight(study, s, bounces=opts.bounces)
     upward_map = upward.exitance(s)
-    sky = replace(
-        sky, reflected_upward_map_lm=upward_map.reflected_upward_lm, reflected_upward_map_bounces=upward_map.bounces
-    )
+    sky = _sky(study, lights, s, ground_lx, patches, length_m, upward_map)
     energy, note = _energy(study, lights, s)
     calc = SetupCalculation(
         setup=s.name if s is not None else None,

@@ -24,6 +24,13 @@
   sky (on the demo the ground's figure is about 13 % above the upward exitance map's total,
   which adds facades and roofs but loses the ground's light the facades intercept). The
   figure stays as it was, for comparison with earlier runs; the map is the fuller measure.
+* **The upward total** (``upward_lm``, per metre, and the weighted figures) takes the map's
+  reflected flux where the map was measured (every ``lampcast calc`` and the comparison's
+  calculation; ``reflected_upward_source`` "upward exitance map"): it is what really leaves
+  through a plane above the scene, while the ground's figure both misses facades and roofs
+  and counts light the facades intercept. Without a map (:func:`sky_figures` alone) the
+  ground's figure serves (source "ground patches"). A setup with several lamp types splits the
+  map's total between them in the proportions of the ground's figure (exact for one lamp type).
 * **Upward exitance map** (:class:`UpwardLight`, :class:`UpwardExitanceMap`): the light the
   whole scene sends up, facades, roofs and objects included, measured where it leaves: on a
   horizontal plane :data:`UPWARD_PLANE_CLEARANCE_M` above the scene's highest surface, over the
@@ -108,6 +115,8 @@ if TYPE_CHECKING:
     from render.study import Study
 
 __all__ = [
+    "GROUND_SOURCE",
+    "MAP_SOURCE",
     "RAYLEIGH_REFERENCE_NM",
     "UPWARD_MAP_CELL_M",
     "UPWARD_MAP_MARGIN_HEIGHTS",
@@ -152,6 +161,9 @@ UPWARD_PLANE_CLEARANCE_M = 0.05
 #: demo (sodium setup, 4 rays per cell) the total grows 7 % from no margin to one height and
 #: 4.6 % more to eight heights: the light left out goes toward the horizon.
 UPWARD_MAP_MARGIN_HEIGHTS = 1.0
+#: Where the upward total's reflected part comes from (``SkyFigures.reflected_upward_source``).
+MAP_SOURCE = "upward exitance map"
+GROUND_SOURCE = "ground patches"
 
 
 def upward_flux_lm(photometry: Photometry, tilt_deg: float = 0.0, steps_per_degree: int = 4) -> float:
@@ -289,10 +301,12 @@ class SkyFigures:
 
     ``reflected_upward_lm`` is the ground patches' figure, the ground's reflected light counted
     whole as if none of it met a facade (module text: in a street between houses it is above
-    what leaves through the map's plane), and the one ``upward_lm`` and the weighted figures use; ``reflected_upward_map_lm``, when computed,
-    is the upward exitance map's total, facades, roofs and the calculation's objects included
-    (:class:`UpwardExitanceMap`), given beside it; ``reflected_upward_map_bounces`` the
-    interreflections in it (0: one reflection)."""
+    what leaves through the map's plane); ``reflected_upward_map_lm``, when computed, is the
+    upward exitance map's total, facades, roofs and the calculation's objects included
+    (:class:`UpwardExitanceMap`); ``reflected_upward_map_bounces`` the interreflections in it
+    (0: one reflection). ``upward_lm`` (= direct + the reflected figure named by
+    ``reflected_upward_source``), ``upward_lm_per_m`` and the weighted figures use the map's
+    figure when it was computed, the ground's otherwise."""
 
     direct_upward_lm: float
     reflected_upward_lm: float
@@ -304,6 +318,7 @@ class SkyFigures:
     notch_fraction: float | None
     reflected_upward_map_lm: float | None = None
     reflected_upward_map_bounces: int = 0
+    reflected_upward_source: str = GROUND_SOURCE
 
     def to_json(self) -> dict[str, Any]:
         return asdict(self)
@@ -315,15 +330,26 @@ def sky_figures(
     spds: Sequence[npt.ArrayLike],
     street_length_m: float,
     notch_fractions: Sequence[float] | None = None,
+    reflected_upward_map_lm: float | None = None,
+    reflected_upward_map_bounces: int = 0,
 ) -> SkyFigures:
     """The figures of one setup from per-lamp parts: ``direct_upward_lm[i]`` and
-    ``reflected_upward_lm[i]`` are the upward lumens lit by lamp spectrum ``spds[i]`` (one entry
-    per lamp type of the setup)."""
+    ``reflected_upward_lm[i]`` (the ground patches' figure) are the upward lumens lit by lamp
+    spectrum ``spds[i]`` (one entry per lamp type of the setup). With the upward exitance map's
+    total ``reflected_upward_map_lm`` the totals and weighted figures take it in place of the
+    ground's, split between the lamps as the ground's figure is (module text)."""
     if not (len(direct_upward_lm) == len(reflected_upward_lm) == len(spds)):
         raise ValueError("one direct flux, reflected flux and spectrum per lamp")
     if not (math.isfinite(street_length_m) and street_length_m > 0.0):
         raise ValueError("street_length_m must be positive")
-    parts = [float(d) + float(r) for d, r in zip(direct_upward_lm, reflected_upward_lm, strict=True)]
+    reflected = [float(r) for r in reflected_upward_lm]
+    source = GROUND_SOURCE
+    if reflected_upward_map_lm is not None:
+        ground = sum(reflected)
+        share = [r / ground for r in reflected] if ground > 0.0 else [1.0 / len(reflected)] * len(reflected)
+        reflected = [float(reflected_upward_map_lm) * w for w in share]
+        source = MAP_SOURCE
+    parts = [float(d) + r for d, r in zip(direct_upward_lm, reflected, strict=True)]
     total = sum(parts)
     notch = None
     if notch_fractions is not None and total > 0.0:
@@ -337,6 +363,9 @@ def sky_figures(
         rayleigh_weighted_lm=sum(p * rayleigh_weight_per_lm(s) for p, s in zip(parts, spds, strict=True)),
         scotopic_weighted_lm=sum(p * scotopic_weight_per_lm(s) for p, s in zip(parts, spds, strict=True)),
         notch_fraction=notch,
+        reflected_upward_map_lm=None if reflected_upward_map_lm is None else float(reflected_upward_map_lm),
+        reflected_upward_map_bounces=int(reflected_upward_map_bounces),
+        reflected_upward_source=source,
     )
 
 

@@ -21,6 +21,7 @@ import numpy as np
 from render.calc.fields import INTERREFLECTED_LABEL, row_fields
 from render.calc.night import NIGHT_LABEL
 from render.calc.run import CalculationReport
+from render.calc.sky import MAP_SOURCE
 from render.fileio import atomic_write_text, file_stem
 from render.scene.model import Scene
 
@@ -123,20 +124,22 @@ def format_calculation(report: CalculationReport) -> str:
                 f"{ob.max_intensity_cd:.0f} cd{verdict}"
             )
         sky = s.sky
+        from_map = sky.reflected_upward_map_lm is not None and sky.reflected_upward_source == MAP_SOURCE
+        reflected = sky.reflected_upward_map_lm if from_map else sky.reflected_upward_lm
+        where = "reflected upward through a plane above the scene" if from_map else "reflected by the ground"
         lines.append(
-            f"  to the sky: {sky.upward_lm:.1f} lm ({sky.direct_upward_lm:.1f} direct + {sky.reflected_upward_lm:.1f} "
-            f"reflected by the ground), {sky.upward_lm_per_m:.2f} lm per metre of street ({sky.street_length_m:g} m)"
+            f"  to the sky: {sky.upward_lm:.1f} lm ({sky.direct_upward_lm:.1f} direct + {reflected:.1f} {where}), "
+            f"{sky.upward_lm_per_m:.2f} lm per metre of street ({sky.street_length_m:g} m)"
         )
-        if sky.reflected_upward_map_lm is not None:
+        if from_map:
             bounced = (
                 f", interreflections up to {sky.reflected_upward_map_bounces} bounces"
                 if sky.reflected_upward_map_bounces
                 else ", one reflection"
             )
             lines.append(
-                f"  reflected upward through a plane above the scene: {sky.reflected_upward_map_lm:.1f} lm "
-                f"(facades, roofs and objects included{bounced}; the ground's {sky.reflected_upward_lm:.1f} lm "
-                "above count all its reflected light as going up)"
+                f"  (the upward exitance map: facades, roofs and objects included{bounced}; the ground's reflected "
+                f"light counted whole, as if all of it went up, would be {sky.reflected_upward_lm:.1f} lm)"
             )
         if s.sky_relative is not None:
             r = s.sky_relative

@@ -636,6 +636,62 @@ CALCULATION_TEXT = (
 )
 
 
+#: What the "Calculations" section adds when the scene has night light (``{night}``: its levels).
+NIGHT_TEXT = (
+    "The night's other light is stated, not measured on site ({night}). Its illuminance on the same "
+    "calculation points is shown in a table of its own, the same for every lighting: it is never added to the "
+    "headline figures or the class check, which judge the luminaires' light alone."
+)
+
+#: The night table's columns: (heading, unit, path under a field's "night" record).
+NIGHT_COLUMNS: tuple[tuple[str, str], ...] = (
+    ("mean", "mean_lx"),
+    ("minimum", "min_lx"),
+    ("maximum", "max_lx"),
+    ("sky glow, mean", "term_mean_lx.sky_glow"),
+    ("moonlight, mean", "term_mean_lx.moonlight"),
+    ("lit windows, mean", "term_mean_lx.lit_windows"),
+    ("lit shop windows, mean", "term_mean_lx.lit_shop_windows"),
+)
+
+
+def _night_table(setups: Sequence[dict[str, Any]], calc: dict[str, Any]) -> Table | None:
+    """The night light on the fields and face grids (lx), from the first setup's records (the
+    same for every lighting), or None when the calculation has none."""
+    if not setups:
+        return None
+    first = setups[0]
+    records: list[tuple[str, str, dict[str, Any]]] = []
+    for j, f in enumerate(first.get("fields") or ()):
+        if isinstance(f.get("night"), dict):
+            records.append((f"{f.get('name')}: horizontal", f"calculation.setups.0.fields.{j}.night", f["night"]))
+    for j, f in enumerate(first.get("faces") or ()):
+        night = f.get("night")
+        if not isinstance(night, dict):
+            continue
+        way = "+x" if (f.get("facing") or [1.0])[0] > 0 else "-x"
+        for kind in ("semicylindrical", "vertical"):
+            if isinstance(night.get(kind), dict):
+                path = f"calculation.setups.0.faces.{j}.night.{kind}"
+                records.append((f"{f.get('name')}: {kind}, facing {way}", path, night[kind]))
+    if not records:
+        return None
+    rows = tuple(
+        Row(
+            RowHead(label),
+            tuple(
+                NumberCell(f"{path}.{key}", _json_at(record, key), "sig3", reason="not computed")
+                for _, key in NIGHT_COLUMNS
+            ),
+        )
+        for label, path, record in records
+    )
+    head = (Heading("grid"), *(Heading(f"{h} (lx)", numeric=True) for h, _ in NIGHT_COLUMNS))
+    return Table(
+        "calculation-night", "Night light on the calculation points (lx), beside the figures", rows, head, scrolls=True
+    )
+
+
 #: What the "Light to the sky" part says before its table.
 SKY_TEXT = (
     "Light that leaves the street upward, where sky glow begins. The luminaires' direct upward flux is what "
@@ -643,9 +699,9 @@ SKY_TEXT = (
     "horizontal plane just above the scene's highest surface, reaching beyond the scene by the plane's height: "
     "rays go down from every cell of the plane, and the light they find gives the upward exitance through it "
     "(lm/m\u00b2), which the map shows and whose sum is the reflected upward flux: ground, facades, roofs and the "
-    "calculation's objects included, the luminaires' own light not. Beside it, the ground's reflected light "
-    "counted as if all of it went up (the figure the upward totals and the weighted figures use): in a street "
-    "between houses some of it meets the facades instead, so it can be the larger of the two.",
+    "calculation's objects included, the luminaires' own light not. The upward totals and the weighted figures "
+    "use it. Beside it, the ground's reflected light counted as if all of it went up: in a street between "
+    "houses some of it meets the facades instead, so it can be the larger of the two.",
     "The weighted figures are indicators relative to the first lighting, not a sky-glow model: Rayleigh "
     "weighting (scattering by air goes as the inverse fourth power of the wavelength) and the scotopic weighting "
     "of a dark-adapted eye.",
@@ -662,7 +718,7 @@ SKY_ROWS: tuple[tuple[str, str, str, str], ...] = (
     ),
     ("reflected by the ground, counted whole", "lm", "sky.reflected_upward_lm", "sig3"),
     ("largest upward exitance on the map", "lm/m\u00b2", "upward_map.max_exitance_lm_m2", "sig3"),
-    ("upward flux per metre of street (direct + ground)", "lm/m", "sky.upward_lm_per_m", "sig3"),
+    ("upward flux per metre of street (direct + reflected through the plane)", "lm/m", "sky.upward_lm_per_m", "sig3"),
     ("Rayleigh-weighted upward, relative", "", "sky_relative_to_before.rayleigh_weighted", "sig3"),
     ("scotopic-weighted upward, relative", "", "sky_relative_to_before.scotopic_weighted", "sig3"),
 )
@@ -797,8 +853,12 @@ def _calculation_part(metrics: ComparisonMetrics, images: ImageFolder) -> Calcul
         alts[upward[0]] if upward else "",
     )
     kept = [k for k in range(len(pictures)) if k not in upward]
+    night = _night_table(setups, calc)
+    if night is not None:
+        tables.append(night)
+    described = (calc.get("options") or {}).get("night_light")
     return CalculationPart(
-        paragraphs=CALCULATION_TEXT,
+        paragraphs=CALCULATION_TEXT + ((NIGHT_TEXT.format(night=described),) if night is not None else ()),
         caution=caution,
         tables=tuple(tables),
         figures=tuple(images.get(pictures[k]) for k in kept),
