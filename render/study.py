@@ -21,6 +21,7 @@ colorimetry (:mod:`render.colour.colorimetry`) and the vision stage (:mod:`rende
 
 from __future__ import annotations
 
+import sys
 from dataclasses import dataclass
 from functools import cached_property
 from pathlib import Path
@@ -57,6 +58,14 @@ if TYPE_CHECKING:
     from render.vision.pipeline import DisplayResult, ViewLight
 
 __all__ = ["RenderedView", "Study"]
+
+
+def _before_use(step: str) -> None:
+    """On a first run, wait for the helper process's step ``step`` if it is compiling those
+    kernels now (:func:`render.warmup.before_use`); nothing when no helper was started."""
+    warmup = sys.modules.get("render.warmup")
+    if warmup is not None:
+        warmup.before_use(step)
 
 
 @dataclass
@@ -188,6 +197,7 @@ class Study:
     ) -> ViewColorimetry:
         """Absolute colorimetry of kept buffers under ``setup``'s lamps, lumens and dimming,
         with the interreflected light where the buffers keep it (``buffers.indirect``)."""
+        _before_use("colour")
         factors, lamps = channel_factors(lights, self.setup(setup))
         spds = self.lamp_spds(lamps)
         out = resolve(buffers, factors, spds, self.reflectances)
@@ -358,6 +368,7 @@ class Study:
         observer = observer or self.observer
         lights = [self.view_light(r) for r in rendered]
         geoms = [ViewGeometry.of(r.camera) for r in rendered]
+        _before_use("vision")
         return shared_and_adapted(lights, geoms, observer, workers=DISPLAY_WORKERS)
 
     def display(

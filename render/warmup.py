@@ -12,10 +12,11 @@ inputs of a few samples with the same array types (:func:`warm`), so it compiles
 specialisations the command will look up; results never depend on it (a kernel the helper
 has not finished is compiled by the command as usual).
 
-The work is split into steps in the order the command needs their kernels (:data:`STEPS`:
-the light kernel, the luminous openings, colorimetry with the vision stage and the image
-writer, the calculation). The command starts the helper as soon as it has parsed its
-arguments, before it loads the scene, and gives it a folder in which each step is claimed
+The work is split into small steps in the order the command needs their kernels
+(:data:`STEPS`: the light kernels of direct light and luminous openings, the interreflected
+light's filter, colorimetry, the vision stage, the image writer, the colour analysis, the
+calculation's kernels and its measuring plane). The command starts the helper as soon as it
+has parsed its arguments, before it loads the scene, and gives it a folder in which each step is claimed
 by whichever process takes it first (a file created exclusively) and marked done when it
 ends. The helper takes the steps from the front. The command waits for the light kernel,
 the largest, rather than compile it a second time (:func:`wait_for_light_kernel`): as long
@@ -57,6 +58,7 @@ __all__ = [
     "ENV_SWITCH",
     "STEPS",
     "Warmup",
+    "before_use",
     "kernels_cached",
     "start",
     "stop_all",
@@ -66,10 +68,20 @@ __all__ = [
 
 #: Environment variable that turns the helper process off (``0``, ``no``, ``false`` or ``off``).
 ENV_SWITCH = "LAMPCAST_WARMUP"
-#: The helper's steps, in the order a rendering command needs their kernels: the direct-light
-#: kernel, the luminous openings, colorimetry with the vision stage and the image writer,
-#: the calculation's kernels.
-STEPS = ("light", "openings", "vision", "calc")
+#: The helper's steps, in the order a rendering command needs their kernels: the light
+#: kernels (direct light, then the luminous openings a view's first tiles also need), the
+#: interreflected light's filter (for a scene whose renders denoise it), colorimetry, the
+#: vision stage, the image writer, the colour analysis of the tagged objects, the
+#: calculation's candidate pairs and intensity lookups, the calculation's measuring plane (the
+#: downward rays of the upward exitance map). Small steps, so that a command that takes one while it waits for the light
+#: kernels is not held up long after they are ready.
+STEPS = ("light", "denoise", "colour", "vision", "images", "colours", "calc", "plane")
+# Steps that use what another step makes in the same process (its kernels compiled or loaded):
+# run after that step is done when the other process has taken it, so that the two processes
+# do not compile the same kernels side by side.
+_AFTER = {"vision": "colour", "colours": "vision"}
+# Most seconds a step waits for the step it follows (then it runs anyway).
+_AFTER_WAIT_S = 300.0
 # Seconds the command waits for a stopped helper to exit before killing it.
 _STOP_WAIT_S = 5.0
 # Most seconds the command waits for the helper's light kernel (a safety net only: it waits
@@ -78,10 +90,16 @@ _LIGHT_WAIT_S = 900.0
 _POLL_S = 0.05
 # Width of the tiny view the helper renders synthetically (pixels).
 _WIDTH_PX = 24
+# Luminance of the synthetic view's luminous opening, cd/m² (see _synthetic_view).
+_OPENING_CD_M2 = 200.0
+# Cells of the calculation's measuring plane compiled on (any small number).
+_PLANE_CELLS = 2
 # Name of the file that marks a step done, in the step folder.
 _DONE = "{}.done"
 # Helpers started by this process and not yet stopped.
 _running: list[Warmup] = []
+# Whether this process is running a step itself (then before_use does nothing).
+_in_step = False
 
 
 def _claim(board: Path, step: str) -> bool:
@@ -93,6 +111,22 @@ def _claim(board: Path, step: str) -> bool:
     except OSError:  # the folder is gone (the command ended): nothing more to do
         return False
     return True
+
+
+def _await_before(board: Path, step: str, alive=lambda: True) -> None:
+    """Wait until the step ``step`` follows (:data:`_AFTER`) is done, if a process has taken
+    it, while ``alive()`` (the other process runs), at most :data:`_AFTER_WAIT_S`."""
+    first = _AFTER.get(step)
+    if first is None:
+        return
+    deadline = time.monotonic() + _AFTER_WAIT_S
+    while (
+        (board / first).exists()
+        and not (board / _DONE.format(first)).exists()
+        and alive()
+        and time.monotonic() < deadline
+    ):
+        time.sleep(_POLL_S)
 
 
 def _mark_done(board: Path, step: str) -> None:
@@ -129,9 +163,13 @@ class Warmup:
             if _claim(self.board, step):
                 if self._steps is None:
                     self._steps = _Steps(self.scene_path)
+                global _in_step
+                _in_step = True
                 try:
+                    _await_before(self.board, step, self.running)
                     self._steps.run(step)
                 finally:
+                    _in_step = False
                     _mark_done(self.board, step)
                 return True
         return False
@@ -204,6 +242,25 @@ def wait_for_light_kernel() -> None:
             time.sleep(_POLL_S)
 
 
+def before_use(step: str) -> None:
+    """Called by the command where it first needs the kernels of ``step`` (one of
+    :data:`STEPS`): if its helper is compiling that step right now, wait until it is done
+    rather than compile the same kernels side by side; if no process has taken it, take it
+    (the command compiles those kernels as it goes, and the helper skips the step). At once
+    without a helper, and inside a step this process runs itself."""
+    if not _running or _in_step:
+        return
+    w = _running[-1]
+    if w.board is None or w.done(step):
+        return
+    if _claim(w.board, step):
+        _mark_done(w.board, step)
+        return
+    deadline = time.monotonic() + _AFTER_WAIT_S
+    while w.running() and not w.done(step) and time.monotonic() < deadline:
+        time.sleep(_POLL_S)
+
+
 def stop_all() -> None:
     """Stop every helper this process started (the command line's handler calls it on exit;
     also registered with :mod:`atexit`)."""
@@ -253,13 +310,22 @@ def start(scene_path: str | os.PathLike) -> Warmup | None:
 def _synthetic_view(study, setup, lights):
     """A :class:`render.study.RenderedView` of a few samples with the array types of a real
     render: every material, a luminous opening, the night sky, at street-lighting levels."""
-    import numpy as np
-
-    from render.light.integrator import LightBuffers, _material_gloss
     from render.study import RenderedView
 
     view = study.scene.views[0].name
     camera = study.camera(view, _WIDTH_PX)
+    buffers = _synthetic_buffers(study, lights, camera)
+    return RenderedView(
+        view, setup.name if setup else None, camera, buffers, lights, study.colorimetry(buffers, lights, setup)
+    )
+
+
+def _synthetic_buffers(study, lights, camera):
+    """The light buffers of :func:`_synthetic_view` (one sample per pixel of ``camera``)."""
+    import numpy as np
+
+    from render.light.integrator import LightBuffers, _material_gloss
+
     n = camera.width_px * camera.height_px
     mesh = study.mesh
     k = len(mesh.material_names)
@@ -267,24 +333,25 @@ def _synthetic_view(study, setup, lights):
     response = (np.arange(n) % (k + 2) - 1).astype(np.int32)  # -1 sky, 0 … k-1, k opening
     emitter = np.where(response == k, 0, -1).astype(np.int32)
     # Street-lighting levels (a white diffuser at 0.05 … 0.35 cd/m²: mesopic, so that the rod
-    # intrusion runs) and a bright opening (so that glare runs).
-    value = np.where(response[:, None] == k, 2e4, 0.05 * (1 + np.arange(n)[:, None] % 7)).astype(np.float32)
+    # intrusion runs) and an opening bright enough for glare to run but not so bright that its
+    # veil over the tiny view adapts the eye to photopic levels: the rod-intrusion kernel then
+    # gets the read-only scotopic image a street view gives it, not the empty array of a
+    # photopic view (2e4 cd/m² did that, and the command compiled the kernel once more).
+    value = np.where(response[:, None] == k, _OPENING_CD_M2, 0.05 * (1 + np.arange(n)[:, None] % 7)).astype(np.float32)
     value = np.ascontiguousarray(np.broadcast_to(value, (n, c)), np.float32)
-    buffers = LightBuffers(
+    return LightBuffers(
         camera.width_px,
         camera.height_px,
         1,
         response,
         value,
         emitter,
-        np.where(response >= 0, 0, -1).astype(np.int32),
+        # Every object's id in turn, so that the colour analysis finds its tagged objects.
+        np.where(response >= 0, np.arange(n) % max(1, len(mesh.object_names)), -1).astype(np.int32),
         list(mesh.material_names),
         list(lights.channels),
         np.zeros((n, c), np.float32),
         _material_gloss(mesh),
-    )
-    return RenderedView(
-        view, setup.name if setup else None, camera, buffers, lights, study.colorimetry(buffers, lights, setup)
     )
 
 
@@ -317,20 +384,71 @@ class _Steps:
         from render.light.integrator import compile_light_kernels
 
         compile_light_kernels(self.lights[0], ("direct",))
-
-    def _openings(self) -> None:
-        from render.light.integrator import compile_light_kernels
-
         compile_light_kernels(self.lights[0], ("openings",))
 
+    def _denoise(self) -> None:
+        # The interreflected light's filter (render.light.indirect.denoise), when the scene's
+        # renders trace and denoise it: the guides from a view's samples, then the stored
+        # transport filtered in place, as render.study does.
+        scene = self.study.scene
+        if scene.render.bounces <= 0 or not scene.render.indirect_denoise:
+            return
+        import numpy as np
+
+        from render.light.indirect.denoise import filter_transport, view_guides
+        from render.light.integrator import _empty_geometry
+
+        lights = self.lights[0]
+        buffers = _synthetic_buffers(self.study, lights, self.study.camera(scene.views[0].name, _WIDTH_PX))
+        buffers.geometry = _empty_geometry(buffers.n_samples)
+        guides = view_guides(buffers)
+        n_pix = buffers.width_px * buffers.height_px
+        values = np.zeros((n_pix, lights.n_channels, 1), np.float16)
+        filter_transport(values, np.ones(n_pix, np.float32), guides, overwrite=True)
+
+    def _views(self) -> list:
+        """The synthetic views, one per setup (made once per process)."""
+        if not hasattr(self, "views"):
+            self.views = [_synthetic_view(self.study, s, x) for s, x in zip(self.setups, self.lights)]
+        return self.views
+
+    def _colour(self) -> None:
+        self._views()
+
     def _vision(self) -> None:
+        import numpy as np
+
+        from render.colour.matrices import COMPILED_FROM_COLOURS, apply_matrix
+
+        self.shared = self.study.display_both(self._views(), self.study.observer)[0]
+        # The colour products of full-size images (a compiled pass from COMPILED_FROM_COLOURS
+        # colours on), with a matrix made per call and with a read-only constant one, as the
+        # vision stage passes them.
+        image = np.zeros((COMPILED_FROM_COLOURS, 3))
+        matrix = np.eye(3)
+        apply_matrix(matrix, image)
+        matrix.setflags(write=False)
+        apply_matrix(matrix, image)
+
+    def _images(self) -> None:
+        import numpy as np
+
         from render.output.images import write_png
 
-        study = self.study
-        rendered = [_synthetic_view(study, s, x) for s, x in zip(self.setups, self.lights)]
-        shared, adapted = study.display_both(rendered, study.observer)
+        # An 8-bit sRGB image as the vision stage gives it (height, width, 3), C order.
         with tempfile.TemporaryDirectory(prefix="lampcast-warmup-") as tmp:
-            write_png(Path(tmp) / "view.png", adapted[0].srgb8)
+            write_png(Path(tmp) / "view.png", np.zeros((2, _WIDTH_PX, 3), np.uint8))
+
+    def _colours(self) -> None:
+        from render.analysis.view_colours import analyse_colours
+
+        if not hasattr(self, "shared"):
+            self._vision()
+        views = self._views()
+        labels = [f"setup {k}" for k in range(len(views))]
+        analyse_colours(
+            self.study, {views[0].name: (views, self.shared)}, self.study.observer, labels, setups=self.setups
+        )
 
     def _calc(self) -> None:
         from render.light.integrator import compile_light_kernels
@@ -341,21 +459,38 @@ class _Steps:
         if lights.photometries:
             intensity_cd(lights.photometries[0], [0.0, 10.0], [0.0, 30.0])
 
+    def _plane(self) -> None:
+        # The calculation's upward exitance map casts a plane's downward rays
+        # (render.calc.sky.upward_plane and render_buffers, through camera_rays).
+        import numpy as np
+
+        from render.rays.cameras import DownwardHemisphereCamera, camera_rays
+
+        plane = DownwardHemisphereCamera(
+            origin_xy_m=(0.0, 0.0), plane_z_m=1.0, cell_m=1.0, width_px=_PLANE_CELLS, height_px=1
+        )
+        render = self.study.scene.render
+        camera_rays(plane, render.samples_per_pixel, render.seed, np.arange(plane.n_pixels, dtype=np.int64))
+
 
 def warm(scene_path: str | os.PathLike, board: str | os.PathLike | None = None) -> None:
     """Compile (or load) the kernels a rendering command on ``scene_path`` needs after its
     camera rays, step by step in the order of :data:`STEPS`: the light kernels
-    (:func:`render.light.integrator.compile_light_kernels`), colorimetry, the vision stage
-    and the image writer on a synthetic view of a few samples, then the calculation's
-    kernels. With ``board`` (the command's step folder), only the steps no process has taken
-    yet, each marked done when it ends. Each step stands alone: one that fails is left to the
-    command."""
+    (:func:`render.light.integrator.compile_light_kernels`), the interreflected light's
+    filter, colorimetry, the vision stage, the image writer and the colour analysis on a
+    synthetic view of a few samples, then the calculation's kernels and the downward rays of
+    its measuring plane. With ``board`` (the command's step folder), only the steps no process
+    has taken yet, each marked done when it ends (a step that uses another's work in the same
+    process, :data:`_AFTER`, waits while the other process runs that one). Each step stands
+    alone: one that fails is left to the command."""
     steps = _Steps(scene_path)
     folder = Path(board) if board is not None else None
     for step in STEPS:
         if folder is not None and not _claim(folder, step):
             continue
         try:
+            if folder is not None:
+                _await_before(folder, step)
             steps.run(step)
         except Exception:  # left to the command, which compiles what it needs anyway
             pass

@@ -160,3 +160,22 @@ def test_command_waits_for_the_helpers_light_kernel(monkeypatch, tmp_path):
     assert marker.exists() and w.running() and 1.0 <= waited < 20.0
     w.close()
     assert not w.running()
+
+
+def test_command_waits_for_a_step_the_helper_is_compiling(monkeypatch, tmp_path):
+    """Where the command first needs a step's kernels it waits while the helper compiles that
+    step (not compiling them side by side), and takes a step nobody has taken, so that the
+    helper skips it (common practice, no source)."""
+    board = tmp_path / "steps"
+    board.mkdir()
+    warmup._claim(board, "colour")  # taken by the helper, which finishes it after a while
+    marker = board / "colour.done"
+    code = f"import time, pathlib; time.sleep(1.5); pathlib.Path({str(marker)!r}).touch(); time.sleep(60)"
+    w = warmup.Warmup(subprocess.Popen([sys.executable, "-c", code]), str(demo_scene_path()), board)
+    monkeypatch.setattr(warmup, "_running", [w])
+    t0 = time.monotonic()
+    warmup.before_use("colour")
+    assert marker.exists() and time.monotonic() - t0 >= 1.0
+    warmup.before_use("vision")  # nobody's yet: the command's now
+    assert w.done("vision") and not warmup._claim(board, "vision")
+    w.close()
