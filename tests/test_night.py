@@ -470,3 +470,149 @@ def test_lit_windows_in_a_view(tmp_path):
         ind, r.buffers.response, s.reflectances, replace(s.scene.night, window_luminance_cd_m2=40.0)
     )
     np.testing.assert_allclose(brighter, 2 * ambient_responses(ind, r.buffers.response, s.reflectances), rtol=1e-12)
+
+
+# Windows of their own per frontage and per window
+# ------------------------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize(
+    ("table", "where", "words"),
+    [
+        ('[[night.frontages]]\nname = "terace"\n', "night.frontages[0].name", "did you mean"),
+        (
+            'window_lit_fraction = 0.2\n[[night.frontages]]\nname = "terrace"\nlamp = "led-4000k-cie-b3"\n',
+            "night.frontages[0].lamp",
+            "two window spectra",
+        ),
+        (
+            'window_luminance_cd_m2 = 0.0\n[[night.frontages]]\nname = "terrace"\nlit_fraction = 0.5\n'
+            "luminance_cd_m2 = 20.0\n",
+            "night.frontages[0]",
+            "window_luminance_cd_m2 is 0",
+        ),
+        ('[[night.frontages]]\nname = "terrace"\nlit = [0, 2]\n', "night.frontages[0].lit[0]", "window number"),
+        (
+            '[[night.frontages]]\nname = "terrace"\nwindow_luminance_cd_m2 = { 3 = -1.0 }\n',
+            "night.frontages[0].window_luminance_cd_m2.3",
+            "luminance",
+        ),
+        ('[[night.frontages]]\nname = "terrace"\nlit_share = 0.5\n', "night.frontages[0].lit_share", "lit_fraction"),
+    ],
+)
+def test_frontage_window_keys_are_checked(tmp_path, table, where, words):
+    # Bad input names its key and what was expected (common practice, no source).
+    from render.errors import InputError
+    from render.scene import load_scene
+
+    with pytest.raises(InputError) as info:
+        load_scene(_frontage_scene(tmp_path, table))
+    (problem,) = info.value.problems
+    assert problem.where == where and words in problem.message, problem
+
+
+def test_window_number_beyond_the_frontage_is_named(tmp_path):
+    # A window number the frontage does not have names its key and the count (18 windows:
+    # 6 houses of 3, as in test_lit_share_reproducible_by_seed).
+    from render.errors import InputError
+    from render.light.indirect.windows import lit_windows
+    from render.study import Study
+
+    s = Study(_frontage_scene(tmp_path, '[[night.frontages]]\nname = "terrace"\nlit = [2, 19]\n'))
+    with pytest.raises(InputError) as info:
+        lit_windows(s.mesh, s.scene.night)
+    (problem,) = info.value.problems
+    assert problem.where == "night.frontages[0].lit" and "window 19" in problem.message and "18" in problem.message
+
+
+def test_frontage_and_window_overrides(tmp_path):
+    # A frontage's own share and luminance replace the scene-wide ones for its windows alone:
+    # the other frontage keeps the very windows it has without the override; windows named
+    # lit, dark or with a luminance of their own are so; luminances are stored over the
+    # channel's level (the scene-wide luminance of the lamp's kind).
+    from render.light.indirect.windows import HOUSE, SHOP, lit_windows, window_panels
+    from render.study import Study
+
+    plain = "window_lit_fraction = 0.5\nshop_window_lit_fraction = 0.5\n"
+    own = (
+        plain + '[[night.frontages]]\nname = "terrace"\nlit_fraction = 0.0\nluminance_cd_m2 = 30.0\nlit = [1, 4]\n'
+        "dark = [2]\nwindow_luminance_cd_m2 = { 2 = 5.0, 7 = 25.0 }\n"
+    )
+    s0 = Study(_frontage_scene(tmp_path, plain))
+    s1 = Study(_frontage_scene(tmp_path, own))
+    a = lit_windows(s0.mesh, s0.scene.night)
+    b = lit_windows(s1.mesh, s1.scene.night)
+    assert np.all(a.relative == 1.0)
+    # The shops (not named) are lit as before, at the channel's level.
+    np.testing.assert_array_equal(a.rect[a.kind == SHOP], b.rect[b.kind == SHOP])
+    # The terrace: windows 1 and 4 at 30 cd/m² (3 × the houses' 10), window 7 at 25, window 2
+    # at its own 5 (a luminance of its own wins over `dark`), nothing else.
+    panels = window_panels(s1.mesh)
+    terrace = panels.rect[panels.kind == HOUSE]
+    house = b.rect[b.kind == HOUSE]
+    lit_rows = [int(np.flatnonzero(np.abs(terrace[:, :3] - r[:3]).sum(axis=1) < 1e-9)[0]) for r in house]
+    assert sorted(lit_rows) == [0, 1, 3, 6]
+    rel = dict(zip(lit_rows, house[:, 13]))
+    assert rel == {0: 3.0, 1: 0.5, 3: 3.0, 6: 2.5}
+    from render.light.indirect.night import describe_night
+
+    assert "windows of their own: terrace 0% at 30 cd/m², 2 lit, 1 dark, 2 of their own luminance" in describe_night(
+        s1.scene.night
+    )
+    # Channel on with the houses' scene-wide share at 0 when a frontage lights windows.
+    night = replace(s1.scene.night, window_lit_fraction=0.0)
+    assert night.terms[2]
+
+
+def test_two_windows_of_their_own_luminances(tmp_path):
+    # Two rectangles above a point, luminances 1 and 3 times the channel's level: E/(π·L_ref)
+    # = F₁ + 3·F₂ (E = π·Σ L_w·F_w for Lambertian emitters; F by Howell's parallel-rectangle
+    # factor, differences of corner rectangles, as above). The window of three times the
+    # luminance is chosen three times as often (its power), so the estimate stays as good.
+    from render.light.indirect.windows import LitWindows
+
+    def howell(X, Y):
+        return (
+            X / math.sqrt(1 + X * X) * math.atan(Y / math.sqrt(1 + X * X))
+            + Y / math.sqrt(1 + Y * Y) * math.atan(X / math.sqrt(1 + Y * Y))
+        ) / (2 * math.pi)
+
+    c = 2.0
+    rows = []
+    for x0, lum in ((0.0, 1.0), (-1.5, 3.0)):  # a 1 × 1 m window at x 0…1 and a 1.5 × 1 m at −1.5…0
+        width = 1.0 if x0 == 0.0 else 1.5
+        e1, e2 = np.array([0.0, 1.0, 0.0]), np.array([width, 0.0, 0.0])
+        n = np.cross(e1, e2)
+        rows.append(np.concatenate([[x0, 0.0, c], e1, e2, n / np.linalg.norm(n), [width, lum]]))
+    win = LitWindows(np.array(rows), np.zeros(2, np.int64), np.zeros(2, np.int64), (2, 0))
+    f1 = howell(1.0 / c, 1.0 / c)
+    f2 = howell(1.5 / c, 1.0 / c)
+    pts, nrm = _up_points(np.zeros((64, 2)))
+    mean, se = _window_estimate(win, pts, nrm)
+    expected = f1 + 3.0 * f2
+    assert abs(mean - expected) < 4 * se + 1e-9, (mean, expected, se)
+    assert se < 0.01 * expected
+
+
+def test_frontage_luminance_in_a_view(tmp_path):
+    # Pixels that see the terrace's windows show the frontage's own luminance (30 cd/m², three
+    # times the houses' level of 10); a new scene-wide luminance is a multiply of the whole
+    # channel, the frontage's windows keeping their ratio to it (what relights without a ray).
+    from render.study import Study
+
+    night = (
+        "window_lit_fraction = 0.0\nwindow_luminance_cd_m2 = 10.0\n"
+        '[[night.frontages]]\nname = "terrace"\nlit_fraction = 1.0\nluminance_cd_m2 = 30.0\n'
+    )
+    s = Study(_frontage_scene(tmp_path, night))
+    r = s.render_view("look", width_px=48, samples_per_pixel=1)
+    ind = r.buffers.indirect
+    assert ind.ambient_channels == (2,)
+    seen = ind.window_seen[:, 0] > 0
+    assert seen.sum() >= 5
+    y = ambient_responses(ind, r.buffers.response, s.reflectances)[..., 1].reshape(-1)
+    np.testing.assert_allclose(y[seen], 30.0 + np.zeros(seen.sum()), rtol=0.05)
+    brighter = ambient_responses(
+        ind, r.buffers.response, s.reflectances, replace(s.scene.night, window_luminance_cd_m2=20.0)
+    )
+    np.testing.assert_allclose(brighter, 2 * ambient_responses(ind, r.buffers.response, s.reflectances), rtol=1e-12)

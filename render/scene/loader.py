@@ -44,6 +44,7 @@ from render.scene.model import (
     CalcSettings,
     EnergySettings,
     Frontage,
+    FrontageWindows,
     GroupSetting,
     Luminaire,
     Marking,
@@ -376,7 +377,23 @@ NIGHT_SPEC = {
     ),
     "shop_window_lamp": Field("str", default=NightLight.shop_window_lamp, help="lamp id or lamp file"),
     "window_seed": Field("int", default=0, min=0, max=2**32 - 1, help="which windows are lit"),
+    "frontages": Field("list", default=[], help="frontages with lit windows of their own"),
 }
+#: ``[[night.frontages]]``: one frontage's (or house or shop object's) own lit windows
+#: (render.scene.model.FrontageWindows); unset keys take ``[night]``'s values for its kind.
+NIGHT_FRONTAGE_SPEC = {
+    "name": Field("str", help="the name of a house or shop [[frontages]] or [[objects]] entry"),
+    "lit_fraction": Field("float", default=None, min=0.0, max=1.0, help="share of its windows lit"),
+    "luminance_cd_m2": Field("float", default=None, unit="cd/m²", min=0.0, max=1e4),
+    "lamp": Field("str", default=None, help="[night] window_lamp or shop_window_lamp"),
+    "lit": Field("any", default=[], help="numbers of windows always lit, from 1"),
+    "dark": Field("any", default=[], help="numbers of windows never lit, from 1"),
+    "window_luminance_cd_m2": Field("table", default={}, help="{ number = cd/m² } windows of their own luminance"),
+}
+#: Most window numbers one ``[[night.frontages]]`` entry may list.
+MAX_WINDOW_NUMBERS = 10_000
+#: Highest window number (a frontage has at most 200 fronts of a few dozen windows).
+MAX_WINDOW_NUMBER = 1_000_000
 
 
 SETUP_SPEC = {
@@ -1418,6 +1435,97 @@ def _gloss(
     return out
 
 
+def _window_numbers(value: Any, where: str, problems: ProblemList) -> tuple[int, ...]:
+    """A list of window numbers (whole numbers from 1), sorted and unique."""
+    if not isinstance(value, list) or len(value) > MAX_WINDOW_NUMBERS:
+        problems.add(where, f"expected a list of at most {MAX_WINDOW_NUMBERS} window numbers, got {shown(value)}")
+        return ()
+    out = set()
+    for j, v in enumerate(value):
+        if isinstance(v, bool) or not isinstance(v, int) or not 1 <= v <= MAX_WINDOW_NUMBER:
+            problems.add(f"{where}[{j}]", f"expected a window number, a whole number from 1, got {shown(v)}")
+            continue
+        out.add(v)
+    return tuple(sorted(out))
+
+
+def _night_frontages(
+    entries: list, night: dict, frontages: list[Frontage], objects: list[StreetObject], problems: ProblemList
+) -> tuple[FrontageWindows, ...]:
+    """``[[night.frontages]]``: each names a house or shop frontage (or house_front /
+    shop_front object); its lamp must be one of the two window lamps (the ambient channels
+    keep two window spectra), whose scene-wide luminance, the channel's level, is positive."""
+    kinds = {f.tag.name: (f.kind, f.where) for f in frontages}
+    for o in objects:
+        if o.kind in ("house_front", "shop_front"):
+            kinds[o.tag.name] = ("shop" if o.kind == "shop_front" else "house", o.where)
+    lamps = (night["window_lamp"], night["shop_window_lamp"])
+    levels = (night["window_luminance_cd_m2"], night["shop_window_luminance_cd_m2"])
+    keys = ("window", "shop_window")
+    out = []
+    seen: dict[str, str] = {}
+    for i, entry in enumerate(entries):
+        where = f"night.frontages[{i}]"
+        f = check_table(entry, NIGHT_FRONTAGE_SPEC, where, problems)
+        name = f["name"]
+        if name is None:
+            continue
+        if name not in kinds:
+            problems.add(
+                f"{where}.name",
+                f"no house or shop frontage (or house_front / shop_front object) named {shown(name)}"
+                f"{did_you_mean(name, list(kinds))}",
+            )
+            continue
+        if name in seen:
+            problems.add(f"{where}.name", f"{shown(name)} already has its windows in {seen[name]}")
+            continue
+        seen[name] = where
+        kind = 1 if kinds[name][0] == "shop" else 0
+        channel = kind
+        if f["lamp"] is not None:
+            if f["lamp"] not in lamps:
+                problems.add(
+                    f"{where}.lamp",
+                    f"expected [night] window_lamp ({shown(lamps[0])}) or shop_window_lamp ({shown(lamps[1])}), got "
+                    f"{shown(f['lamp'])}: the night light keeps two window spectra; give a third lamp as one of them",
+                )
+                continue
+            channel = kind if lamps[kind] == f["lamp"] else lamps.index(f["lamp"])
+        table = f["window_luminance_cd_m2"] or {}
+        own = []
+        for key, level in table.items():
+            path = join(f"{where}.window_luminance_cd_m2", key)
+            if not key.isdigit() or not 1 <= int(key) <= MAX_WINDOW_NUMBER or len(table) > MAX_WINDOW_NUMBERS:
+                problems.add(path, "expected a window number (a whole number from 1) as the key")
+                continue
+            if isinstance(level, bool) or not isinstance(level, (int, float)) or not 0.0 <= level <= 1e4:
+                problems.add(path, f"expected a luminance from 0 to 10000 cd/m², got {shown(level)}")
+                continue
+            own.append((int(key), float(level)))
+        windows = FrontageWindows(
+            name,
+            channel,
+            night[f"{keys[kind]}_lit_fraction"] if f["lit_fraction"] is None else f["lit_fraction"],
+            night[f"{keys[kind]}_luminance_cd_m2"] if f["luminance_cd_m2"] is None else f["luminance_cd_m2"],
+            _window_numbers(f["lit"], f"{where}.lit", problems),
+            _window_numbers(f["dark"], f"{where}.dark", problems),
+            tuple(sorted(own)),
+            where,
+            problems.source,
+        )
+        if windows.may_light and not levels[channel] > 0.0:
+            problems.add(
+                where,
+                f"its windows light the channel of [night] {keys[channel]}_lamp, whose {keys[channel]}_luminance_cd_m2 is 0; "
+                "give that a positive luminance (the channel's level: this frontage's luminances are stored relative "
+                f"to it) and {keys[channel]}_lit_fraction = 0 to light only frontages named here",
+            )
+            continue
+        out.append(windows)
+    return tuple(out)
+
+
 def _views(entries: list, ctx: _Context, street: Street | None, spp: int | None) -> list[View]:
     """The views; each one's camera samples (width × height × ``spp``) must stay within
     :data:`render.limits.MAX_CAMERA_SAMPLES`."""
@@ -1625,6 +1733,7 @@ def load_scene_document(doc: dict, path: str | os.PathLike, *, strict_paths: boo
     night = _defaults_after_problems(check_table(top["night"] or {}, NIGHT_SPEC, "night", problems), NIGHT_SPEC)
     for key in ("sky_spectrum", "window_lamp", "shop_window_lamp"):
         ctx.lamp(night[key], f"night.{key}")
+    night["frontages"] = _night_frontages(night["frontages"] or [], night, frontages, objects, problems)
     for key, names in (
         ("before", [compare["before"]] if compare["before"] is not None else []),
         ("options", compare["options"] or []),

@@ -19,6 +19,7 @@ __all__ = [
     "CalcSettings",
     "EnergySettings",
     "Frontage",
+    "FrontageWindows",
     "GroupSetting",
     "Luminaire",
     "Marking",
@@ -258,6 +259,36 @@ class Setup:
 
 
 @dataclass(frozen=True)
+class FrontageWindows:
+    """``[[night.frontages]]``: one frontage's (or one house or shop object's) own lit windows,
+    overriding ``[night]``'s scene-wide share and luminance for its windows alone.
+
+    ``name`` is the frontage's or object's name; ``channel`` the window channel its windows
+    light (0: the houses' window lamp, 1: the shops'; resolved from ``lamp`` or the frontage's
+    kind); ``lit_fraction`` the share of its windows lit (``round(fraction · n)``, seeded with
+    ``[night] window_seed`` and the frontage), at ``luminance_cd_m2``; windows numbered from 1
+    in the order its fronts are built: ``lit`` always lit, ``dark`` never, and
+    ``window_luminance_cd_m2`` ((number, cd/m²), ...) lit at a luminance of their own (0: dark).
+    ``where`` is the key path and ``source`` the scene file, for messages."""
+
+    name: str
+    channel: int
+    lit_fraction: float
+    luminance_cd_m2: float
+    lit: tuple[int, ...] = ()
+    dark: tuple[int, ...] = ()
+    window_luminance_cd_m2: tuple[tuple[int, float], ...] = ()
+    where: str = ""
+    source: str = ""
+
+    @property
+    def may_light(self) -> bool:
+        """Whether any of its windows can be lit."""
+        share = (self.lit_fraction > 0.0 or bool(self.lit)) and self.luminance_cd_m2 > 0.0
+        return share or any(level > 0.0 for _, level in self.window_luminance_cd_m2)
+
+
+@dataclass(frozen=True)
 class NightLight:
     """``[night]``: the night's light besides the luminaires (off by default).
 
@@ -270,7 +301,9 @@ class NightLight:
     houses' windows (``shop_window_lit_fraction`` of the shops' windows), chosen with
     ``window_seed``, as Lambertian emitters of luminance ``window_luminance_cd_m2``
     (``shop_window_luminance_cd_m2``) with the spectrum of the lamp reference ``window_lamp``
-    (``shop_window_lamp``) (:mod:`render.light.indirect.windows`)."""
+    (``shop_window_lamp``) (:mod:`render.light.indirect.windows`); ``frontages``: frontages
+    with windows of their own (:class:`FrontageWindows`), their luminances stored relative to
+    their channel's scene-wide luminance."""
 
     sky_luminance_cd_m2: float = 0.0
     sky_spectrum: str = "sodium-high-pressure-cie-hp1"
@@ -285,6 +318,7 @@ class NightLight:
     shop_window_luminance_cd_m2: float = 50.0
     shop_window_lamp: str = "led-3000k-cie-b2"
     window_seed: int = 0
+    frontages: tuple[FrontageWindows, ...] = ()
 
     @property
     def sky_on(self) -> bool:
@@ -305,9 +339,12 @@ class NightLight:
         return (
             self.sky_on,
             self.moon_on,
-            self.window_lit_fraction > 0.0 and self.window_luminance_cd_m2 > 0.0,
-            self.shop_window_lit_fraction > 0.0 and self.shop_window_luminance_cd_m2 > 0.0,
+            self.window_lit_fraction > 0.0 and self.window_luminance_cd_m2 > 0.0 or self._frontage_lights(0),
+            self.shop_window_lit_fraction > 0.0 and self.shop_window_luminance_cd_m2 > 0.0 or self._frontage_lights(1),
         )
+
+    def _frontage_lights(self, channel: int) -> bool:
+        return any(f.channel == channel and f.may_light for f in self.frontages)
 
     @property
     def terms_on(self) -> int:

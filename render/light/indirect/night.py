@@ -110,4 +110,11 @@ def describe_night(night: NightLight) -> str:
             f"({night.window_lamp}), shop windows {night.shop_window_lit_fraction:.0%} at "
             f"{night.shop_window_luminance_cd_m2:g} cd/m² ({night.shop_window_lamp}), seed {night.window_seed}"
         )
+        if night.frontages:
+            parts[-1] += ", windows of their own: " + "; ".join(
+                f"{f.name} {f.lit_fraction:.0%} at {f.luminance_cd_m2:g} cd/m²"
+                + (f", {len(f.lit)} lit, {len(f.dark)} dark" if f.lit or f.dark else "")
+                + (f", {len(f.window_luminance_cd_m2)} of their own luminance" if f.window_luminance_cd_m2 else "")
+                for f in night.frontages
+            )
     return "night light: " + ", ".join(parts) if parts else ""

@@ -229,9 +229,10 @@ def _window_connection(
 ):
     """Next-event estimation to one lit window (:mod:`render.light.indirect.windows`): the
     window chosen by its approximate illuminance ``e_win`` (scratch), a point uniform on its
-    rectangle, one shadow ray. Returns (window, estimate of E/(π·L) per unit luminance, the
-    sum of the approximate illuminances ``e_win`` holds, for the pdf of a direction that meets
-    a window)."""
+    rectangle, one shadow ray. Returns (window, estimate of E/(π·L) per unit of the channel's
+    level (each window's luminance over it in column 13, which weighs its choice too), the sum
+    of the approximate illuminances ``e_win`` holds, for the pdf of a direction that meets a
+    window)."""
     W = win.shape[0]
     total = 0.0
     for w in range(W):
@@ -246,7 +247,8 @@ def _window_connection(
             cx = (lx * sx + ly * sy + lz * sz) / dist
             cw = -(lx * win[w, 9] + ly * win[w, 10] + lz * win[w, 11]) / dist
         a = win[w, 12]
-        e = a * max(cx, 0.02) * max(cw, 0.02) / (d2 + a)
+        # Times the window's luminance over its channel's level (its power's share).
+        e = a * max(cx, 0.02) * max(cw, 0.02) / (d2 + a) * win[w, 13]
         e_win[w] = e
         total += e
     if not (total > 0.0):
@@ -285,7 +287,7 @@ def _window_connection(
     d[2] /= reach
     if any_one(wb, wi, tv, o, d, 0.0, max(reach - _WINDOW_CLEARANCE_M, 0.0), st_node, work, WIDE):
         return pick, 0.0, total
-    return pick, cos_x * cos_w * win[pick, 12] * total / (math.pi * d2 * e_win[pick]), total
+    return pick, cos_x * cos_w * win[pick, 12] * total / (math.pi * d2 * e_win[pick]) * win[pick, 13], total
 
 
 @numba.njit(cache=True, nogil=True, parallel=True, error_model="numpy")
@@ -353,7 +355,8 @@ def trace_paths(
     luminance (from the start sample too, and one more direction after the last bounce
     vertex), with ``moon_on`` every vertex, the start sample included, casts a shadow ray
     along ``moon`` (unit vector toward the moon) and adds cos θ/π. With ``n_amb`` 4 the lit
-    windows ``win`` (W, 13) of kinds ``win_kind`` (W,) (0 houses, 1 shops) are two more
+    windows ``win`` (W, 14) of channels ``win_kind`` (W,) (0 the houses' window lamp, 1 the
+    shops'), each at its luminance over its channel's level (column 13), are two more
     channels: every vertex, the start sample included, connects to one of them
     (:func:`_window_connection`); ``tri_window`` (F,) the lit window each triangle lies on
     (-1: none): a direction drawn from a vertex's specular layer that meets one adds its
@@ -594,7 +597,7 @@ def trace_paths(
                             if window_mis == WINDOW_MIS and win_total > 0.0:
                                 p_light = e_win[w_] / win_total * t * t / (win[w_, 12] * cos_w)
                                 mis = power_heuristic(1.0, l_pdf, 1.0, p_light)
-                            v = weight * f * mis
+                            v = weight * f * mis * win[w_, 13]
                             cw_ = c_win + win_kind[w_]
                             _deposit(acc, a, cw_, beta, v, pm, ratio, q_first)
                     if j < 0:
@@ -702,7 +705,7 @@ def trace_paths(
                                 vw = 0.0
                                 if window_mis == WINDOW_MIS and b < last:
                                     cl = d[0] * gx + d[1] * gy + d[2] * gz
-                                    p_light = cl * weight * f / (math.pi * v)
+                                    p_light = cl * weight * f * win[wpick, 13] / (math.pi * v)
                                     p_bsdf = layered_pdf_one(
                                         gx, gy, gz, d[0], d[1], d[2], -wx, -wy, -wz, alpha[k],
                                         specular_lobe_probability(-(wx * gx + wy * gy + wz * gz), f0[k], rho_lum[k]),

@@ -57,7 +57,7 @@ from render.light.indirect.transport import (
     transport_basis,
     transport_table,
 )
-from render.light.indirect.windows import LitWindows, lit_windows, window_triangles, windows_seen
+from render.light.indirect.windows import LitWindows, lit_windows, window_seen_shares, window_triangles
 from render.light.integrator import (
     NEGLIGIBLE_LX,
     SURFACE_OFFSET_M,
@@ -445,9 +445,8 @@ def trace_view(
             up = (tile.response < 0) & (tile.direction[:, 2] > 0.0)
             sky_seen[pixel] = up.reshape(-1, spp).mean(axis=1)
             if lit is not None:
-                kind = windows_seen(lit, tile.point, tile.direction, tile.object_id)
-                for q in range(2):
-                    window_seen[pixel, q] = (kind == q).reshape(-1, spp).mean(axis=1)
+                # (Each window at its luminance relative to its channel's level.)
+                window_seen[pixel] = window_seen_shares(lit, tile.point, tile.direction, tile.object_id, spp)
     spds = np.ascontiguousarray(ambient_spds, np.float64).reshape(A, N_BINS) if A else None
     if g_index:
         spec_index = np.concatenate(g_index)

@@ -8,6 +8,25 @@ the window's rectangle. A share of them is lit: ``round(fraction · n)`` panels 
 shop, and the windows above it alike), chosen by a permutation seeded with ``window_seed`` and
 the kind, so the same scene and seed light the same windows.
 
+**Frontages and windows of their own** (``[[night.frontages]]``,
+:class:`render.scene.model.FrontageWindows`): a named frontage (or house or shop object) may
+replace the scene-wide share and luminance for its own windows, and name windows (numbered
+from 1 in the order its fronts are built) lit, dark or of a luminance of their own. Its share
+is ``round(fraction · n)`` of its windows not named, chosen by a permutation seeded with
+``window_seed`` and its object; other frontages keep exactly the windows they light without
+it. Its lamp is one of the two window lamps: the ambient channels keep two window spectra
+(sky, moon, houses' windows, shops' windows: four channels of 162 bytes per pixel each), so a
+third window spectrum would need a fifth channel and is refused by the scene check.
+
+**What relights by a multiply.** Each window channel is stored per unit of its level, the
+scene-wide luminance of its lamp's kind (``window_luminance_cd_m2`` or
+``shop_window_luminance_cd_m2``); a window of another luminance is an emitter of weight
+``L_w / level`` (column 13 of the kernel's rows), in its light and in the choice of window
+alike. So a new scene-wide luminance scales every window of that lamp at once -- the
+frontages' and windows' own luminances keep their ratio to it -- and a new window lamp is a
+new response table: no ray. Changing one frontage's or window's luminance relative to the
+others, which windows are lit, or a frontage's lamp, traces again.
+
 A lit window is a Lambertian emitter of luminance ``L`` (cd/m²) with a lamp's spectrum. Its
 light reaches a surface point ``x`` by next-event estimation
 (:mod:`render.light.indirect.paths`): one window chosen with probability proportional to an
@@ -21,6 +40,9 @@ rectangle, and one shadow ray; the estimate of the white-diffuser luminance per 
 luminance is
 
     E/(π·L) = cos θ_x · cos θ_y · A_w / (π · |x − y|² · p_w)
+
+(times the window's weight ``L_w / level``, which multiplies ẽ_w too: a window is chosen by its
+approximate illuminance times its luminance, its power's share at the point).
 
 A bounce ray that meets a lit window finds the glass (it reflects as any surface). From a
 vertex without a specular layer it adds no emission: window light arrives by these
@@ -50,8 +72,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from render.errors import input_error
 from render.geometry.mesh import TriangleMesh, face_normals
 from render.scene.model import NightLight
+from render.scene.schema import shown
 
 __all__ = [
     "HOUSE",
@@ -60,6 +84,7 @@ __all__ = [
     "LitWindows",
     "lit_windows",
     "window_panels",
+    "window_seen_shares",
     "window_triangles",
     "windows_seen",
 ]
@@ -68,8 +93,10 @@ __all__ = [
 HOUSE = 0
 SHOP = 1
 #: Columns of a window row in the kernel's array: corner (3), edges e1 (3), e2 (3), outward
-#: unit normal (3), area (1).
-WINDOW_COLUMNS = 13
+#: unit normal (3), area (1), luminance relative to its channel's level (1).
+WINDOW_COLUMNS = 14
+# The relative luminance's column (rows given with 13 columns take 1).
+RELATIVE = 13
 # Triangles of a box panel (render.geometry.shapes.box).
 _BOX_TRIANGLES = 12
 # A camera hit lies on a window's rectangle when it is this close to its plane, m.
@@ -78,18 +105,32 @@ _ON_PLANE_M = 2e-3
 
 @dataclass(frozen=True)
 class LitWindows:
-    """Rectangles of windows: ``rect`` (W, 13) corner, two edges, outward unit normal, area;
-    ``kind`` (W,) :data:`HOUSE` or :data:`SHOP`; ``obj`` (W,) object index; ``panels`` the
-    windows of each kind in the scene (lit or not)."""
+    """Rectangles of windows: ``rect`` (W, 14) corner, two edges, outward unit normal, area,
+    luminance relative to the channel's level (rows of 13 columns are taken at 1); ``kind``
+    (W,) the window channel, :data:`HOUSE` or :data:`SHOP` (the houses' or the shops' window
+    lamp); ``obj`` (W,) object index; ``panels`` the windows of each kind in the scene (lit or
+    not)."""
 
     rect: np.ndarray
     kind: np.ndarray
     obj: np.ndarray
     panels: tuple[int, int] = (0, 0)
 
+    def __post_init__(self) -> None:
+        rect = np.asarray(self.rect, np.float64)
+        if rect.ndim == 2 and rect.shape[1] == WINDOW_COLUMNS - 1:
+            rect = np.column_stack([rect, np.ones(rect.shape[0])])
+        object.__setattr__(self, "rect", rect)
+
     @property
     def n(self) -> int:
         return int(self.rect.shape[0])
+
+    @property
+    def relative(self) -> np.ndarray:
+        """(W,) each window's luminance over its channel's level (the scene-wide luminance of
+        its lamp's kind)."""
+        return self.rect[:, RELATIVE]
 
     def subset(self, index: np.ndarray) -> LitWindows:
         return LitWindows(self.rect[index], self.kind[index], self.obj[index], self.panels)
@@ -126,7 +167,7 @@ def _rectangle(tris: np.ndarray, centre: np.ndarray) -> np.ndarray | None:
     normal /= a
     if normal @ n[sel][0] < 0:
         normal = -normal
-    return np.concatenate([p0, e1, e2, normal, [a]])
+    return np.concatenate([p0, e1, e2, normal, [a, 1.0]])
 
 
 def window_panels(mesh: TriangleMesh) -> LitWindows:
@@ -170,14 +211,95 @@ def lit_windows(mesh: TriangleMesh, night: NightLight) -> LitWindows:
         if k:
             order = np.random.default_rng([int(night.window_seed), kind]).permutation(index.size)
             chosen.append(index[np.sort(order[:k])])
+    if night.frontages:
+        return _with_frontages(mesh, night, panels, chosen)
     if not chosen:
         return LitWindows(panels.rect[:0], panels.kind[:0], panels.obj[:0], panels.panels)
     return panels.subset(np.concatenate(chosen))
 
 
+def _with_frontages(mesh: TriangleMesh, night: NightLight, panels: LitWindows, chosen: list) -> LitWindows:
+    """The scene-wide choice with each ``[[night.frontages]]`` entry's windows replaced by its
+    own: its share of the windows it does not number (``round(fraction · n)``, a permutation
+    seeded with ``window_seed`` and the frontage's object), its ``lit`` and ``dark`` windows,
+    and those of a luminance of their own; each lit window's luminance over its channel's
+    level in the relative column. Other frontages keep the windows they have without it."""
+    lum = np.zeros(panels.n)
+    if chosen:
+        index = np.concatenate(chosen)
+        lum[index] = np.where(
+            panels.kind[index] == HOUSE, night.window_luminance_cd_m2, night.shop_window_luminance_cd_m2
+        )
+    kind = panels.kind.copy()
+    levels = (night.window_luminance_cd_m2, night.shop_window_luminance_cd_m2)
+    names = [getattr(o, "name", None) for o in (getattr(mesh, "objects", None) or [])]
+    for f in night.frontages:
+        objs = [i for i, name in enumerate(names) if name == f.name]
+        idx = np.flatnonzero(np.isin(panels.obj, objs))
+        n = idx.size
+        for key, numbers in (
+            ("lit", f.lit),
+            ("dark", f.dark),
+            ("window_luminance_cd_m2", [k for k, _ in f.window_luminance_cd_m2]),
+        ):
+            beyond = [k for k in numbers if k > n]
+            if beyond:
+                raise input_error(
+                    f.source or "scene",
+                    f"{f.where}.{key}",
+                    f"window {beyond[0]} of {shown(f.name)}, which has {n} window{'s' if n != 1 else ''} (numbered from 1 "
+                    "in the order its fronts are built)",
+                )
+        own = np.full(n, np.nan)
+        for k, level in f.window_luminance_cd_m2:
+            own[k - 1] = level
+        named = ~np.isnan(own)
+        named[[k - 1 for k in f.lit + f.dark]] = True
+        free = np.flatnonzero(~named)
+        mine = np.zeros(n)
+        k = int(round(f.lit_fraction * free.size)) if f.luminance_cd_m2 > 0.0 else 0
+        if k:
+            order = np.random.default_rng([int(night.window_seed), 2, int(min(objs))]).permutation(free.size)
+            mine[free[order[:k]]] = f.luminance_cd_m2
+        mine[[k_ - 1 for k_ in f.lit]] = f.luminance_cd_m2
+        mine[[k_ - 1 for k_ in f.dark]] = 0.0
+        mine = np.where(np.isnan(own), mine, own)
+        lum[idx] = mine
+        kind[idx] = f.channel
+    index = np.flatnonzero(lum > 0.0)
+    rect = panels.rect[index].copy()
+    ref = np.where(kind[index] == HOUSE, levels[HOUSE], levels[SHOP])
+    rect[:, RELATIVE] = lum[index] / ref
+    return LitWindows(rect, kind[index], panels.obj[index], panels.panels)
+
+
 def windows_seen(windows: LitWindows, point: np.ndarray, direction: np.ndarray, object_id: np.ndarray) -> np.ndarray:
     """(n,) the kind of lit window each camera sample sees (its hit on the window's outward
     rectangle, seen from in front), -1 for none."""
+    row = _rows_seen(windows, point, direction, object_id)
+    return np.where(row >= 0, windows.kind[np.maximum(row, 0)] if windows.n else -1, -1)
+
+
+def window_seen_shares(
+    windows: LitWindows, point: np.ndarray, direction: np.ndarray, object_id: np.ndarray, spp: int
+) -> np.ndarray:
+    """(n / spp, 2) per pixel of ``spp`` camera samples, the mean over its samples of the
+    luminance relative to its channel's level of the lit window each sees, for the two window
+    channels (the share of samples seeing one where every window is at its channel's level)."""
+    row = _rows_seen(windows, point, direction, object_id)
+    out = np.zeros((point.shape[0] // spp, 2))
+    if windows.n == 0:
+        return out
+    safe = np.maximum(row, 0)
+    kind = np.where(row >= 0, windows.kind[safe], -1)
+    rel = windows.relative[safe]
+    for q in range(2):
+        out[:, q] = np.where(kind == q, rel, 0.0).reshape(-1, spp).mean(axis=1)
+    return out
+
+
+def _rows_seen(windows: LitWindows, point: np.ndarray, direction: np.ndarray, object_id: np.ndarray) -> np.ndarray:
+    """(n,) the row of the lit window each camera sample sees, -1 for none."""
     out = np.full(point.shape[0], -1, np.int64)
     if windows.n == 0:
         return out
@@ -194,7 +316,7 @@ def windows_seen(windows: LitWindows, point: np.ndarray, direction: np.ndarray, 
             u = rel @ e1 / (e1 @ e1)
             v = rel @ e2 / (e2 @ e2)
             on = (np.abs(rel @ n) < _ON_PLANE_M) & (u >= 0) & (u <= 1) & (v >= 0) & (v <= 1) & (dvec @ n < 0)
-            out[idx[on]] = windows.kind[w]
+            out[idx[on]] = w
     return out
 
 
