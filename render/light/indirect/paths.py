@@ -47,9 +47,11 @@ with a layer draws its direction the same way (toward the camera's view; the lob
 a hash dimension drawn only there) and keeps the two parts apart: the base's share
 (``ρ_0(λ)·base/pdf``, ρ_0 left to the response tables; ``1 − F`` of the light arriving when
 the specular lobe is never chosen) in the transport, the layer's (``spec/pdf``, white) in a
-second transport for such samples (``out_spec``). Its connections to the moon and lit windows
-keep the base's part only (the moon's glint is the direct light's; a window's reflection is
-gathered by the drawn direction). The road's r-table
+second transport for such samples (``out_spec``). Its connection to the moon keeps the base's
+part only (the moon's glint is the direct light's). A lit window reflected there is gathered,
+as at bounce vertices, by both the connection (its base part (1 − F) to the transport, its
+layer's π·f_s to the second one) and the drawn direction meeting the window (its base/pdf and
+spec/pdf alike), weighted by the power heuristic of the same two pdfs. The road's r-table
 applies to direct light only: interreflected light reaches the carriageway from every
 direction and is reflected by its Lambertian base (and its layer, where it has one).
 
@@ -372,8 +374,9 @@ def trace_paths(
     numbers are those of before). With ``start_gloss`` a start sample with a layer draws its
     direction from both lobes (:func:`_layered_direction`, the lobe's number on "bounce" 1,
     dimension 7) and splits the path's light at its end: the base's share to ``out``, the
-    layer's to ``out_spec``; a lit window met by that direction adds its specular part (its
-    connection from the start sample, the base's part, is as before). An item's row weighs each start sample alike (as the
+    layer's to ``out_spec``; a lit window met by that direction adds its light, both parts,
+    weighted by the power heuristic against the start sample's connection to it (which adds
+    both parts too; ``window_mis`` as at bounce vertices). An item's row weighs each start sample alike (as the
     response tables do) and, where its samples see several materials, each path's transport by
     its sample's reflectance over the samples' mean reflectance ρ̄(λ), so that ρ̄·(the row) is
     the mean of ρ_s·T_s over the samples, exactly at 1 nm."""
@@ -522,10 +525,42 @@ def trace_paths(
                     )  # fmt: skip
                     if v > 0.0:
                         v *= f
-                        if f0[k_prev] > 0.0 and start_gloss:
-                            v *= 1.0 - fresnel_one(d[0] * sx + d[1] * sy + d[2] * sz, f0[k_prev])
                         cw_ = c_win + win_kind[wpick]
-                        _deposit_flat(acc, a, cw_, v, mixed, ratio, q_first)
+                        if f0[k_prev] > 0.0 and start_gloss:
+                            # The camera surface's layer: the base's part (1 − F) to the
+                            # transport, the layer's π·f_s to the white one, both weighted by
+                            # the power heuristic against the direction drawn from the layer
+                            # below (weight 1 where none is drawn or for the connection alone).
+                            cl = d[0] * sx + d[1] * sy + d[2] * sz
+                            v0x = np.float64(view[idx, 0])
+                            v0y = np.float64(view[idx, 1])
+                            v0z = np.float64(view[idx, 2])
+                            wc = 1.0
+                            if window_mis == WINDOW_BOUNCE_ONLY and last >= 1:
+                                wc = 0.0
+                            elif window_mis == WINDOW_MIS and last >= 1:
+                                p_light = cl * f * win[wpick, 13] / (math.pi * v)
+                                p_bsdf = layered_pdf_one(
+                                    sx, sy, sz, d[0], d[1], d[2], v0x, v0y, v0z, alpha[k_prev],
+                                    specular_lobe_probability(v0x * sx + v0y * sy + v0z * sz, f0[k_prev], rho_lum[k_prev]),
+                                )  # fmt: skip
+                                wc = power_heuristic(1.0, p_light, 1.0, p_bsdf)
+                            if wc > 0.0:
+                                vs = (
+                                    v
+                                    * wc
+                                    * math.pi
+                                    * specular_one(
+                                        sx, sy, sz, d[0], d[1], d[2], v0x, v0y, v0z, f0[k_prev], alpha[k_prev]
+                                    )
+                                )
+                                v *= wc * (1.0 - fresnel_one(cl, f0[k_prev]))
+                                _deposit_flat(acc, a, cw_, v, mixed, ratio, q_first)
+                                if do_spec:
+                                    for n in range(N):
+                                        accs[a, cw_, n] += vs
+                        else:
+                            _deposit_flat(acc, a, cw_, v, mixed, ratio, q_first)
                 # A camera surface with a specular layer: the path's light is split at its end
                 # between the base's transport (to take ρ_0(λ)) and the layer's white one; until
                 # then it gathers in the scratch row.
@@ -571,15 +606,30 @@ def trace_paths(
                     d[1] = wy
                     d[2] = wz
                     t, j, _, _ = closest_one(wb, wi, tv, ti, o, d, 0.0, np.inf, st_node, st_t, work, WIDE)
-                    if do_win and b == 1 and split and j >= 0 and tri_window[j] >= 0 and do_spec:
-                        # The camera surface's layer reflecting a lit window: its specular part
-                        # by the drawn direction alone (the connection above gathers the base's).
+                    if (
+                        do_win
+                        and b == 1
+                        and split
+                        and j >= 0
+                        and tri_window[j] >= 0
+                        and window_mis != WINDOW_CONNECTION_ONLY
+                    ):
+                        # The camera surface's layer: the drawn direction meets a lit window;
+                        # its layer's part to the white transport, its base's to the transport,
+                        # weighted by the power heuristic against the connection above.
                         w_ = tri_window[j]
-                        if -(wx * win[w_, 9] + wy * win[w_, 10] + wz * win[w_, 11]) > 0.0:
-                            v = f * l_spec
+                        cos_w = -(wx * win[w_, 9] + wy * win[w_, 10] + wz * win[w_, 11])
+                        if cos_w > 0.0:
+                            wd = 1.0
+                            if window_mis == WINDOW_MIS and win_total > 0.0:
+                                p_light = e_win[w_] / win_total * t * t / (win[w_, 12] * cos_w)
+                                wd = power_heuristic(1.0, l_pdf, 1.0, p_light)
+                            v = f * wd * win[w_, 13]
                             cw_ = c_win + win_kind[w_]
-                            for n in range(N):
-                                accs[a_out, cw_, n] += v
+                            if do_spec:
+                                for n in range(N):
+                                    accs[a_out, cw_, n] += v * l_spec
+                            _deposit_flat(acc, a_out, cw_, v * l_base, mixed, ratio, q_first)
                     if (
                         do_win
                         and b > 1
