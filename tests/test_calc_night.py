@@ -184,3 +184,45 @@ def test_windows_and_bounces_and_csv(tmp_path):
     files = write_field_csvs(Study(path).scene, r0, tmp_path / "csv")
     head = files[0].read_text(encoding="utf-8").splitlines()[0]
     assert head == "x_m,y_m,illuminance_lx,night_lx,illuminance_incl_night_not_en13201_lx"
+
+
+def test_calc_command_with_night_light(tmp_path, capsys):
+    # `lampcast calc` on a scene with [night]: each field's JSON carries the night light
+    # beside its figures (E_n·sin h of the moon on open ground, cosine law), the text shows
+    # its rows; `--no-night` leaves it out and the luminaires' figures stay the same.
+    from render.cli import main
+
+    scene = _scene(tmp_path, "moon_illuminance_lx = 0.3\nmoon_elevation_deg = 40.0\n")
+    assert main(["calc", str(scene), "--json", "-q"]) == 0
+    on = json.loads(capsys.readouterr().out)
+    assert main(["calc", str(scene), "--json", "-q", "--no-night"]) == 0
+    off = json.loads(capsys.readouterr().out)
+    for fa, fb in zip(on["setups"][0]["fields"], off["setups"][0]["fields"], strict=True):
+        assert fa["night"]["mean_lx"] == pytest.approx(0.3 * math.sin(math.radians(40.0)), rel=1e-12)
+        assert fa["night"]["bounces"] == 0 and "night" not in fb
+        assert fa["illuminance_lx"] == fb["illuminance_lx"]
+    assert on["setups"][0]["headline"] == off["setups"][0]["headline"]
+    assert main(["calc", str(scene), "-q"]) == 0
+    assert "night light" in capsys.readouterr().out
+
+
+def test_report_table_of_the_night_light(tmp_path):
+    # The report's calculation part shows the night light's figures from metrics.json's
+    # records, each cell the number at its path (common practice, no source).
+    from render.output.report.page import _night_table
+
+    _, report = _calc(_scene(tmp_path, "sky_luminance_cd_m2 = 0.003\n"))
+    data = json.loads(json.dumps(report.to_json()))
+    table = _night_table(data["setups"], data)
+    assert table is not None and len(table.rows) == 4 + 2 * 2 * 2  # fields, then 2 footways × 2 facings × 2 kinds
+    cell = table.rows[0].cells[0]
+    assert cell.path == "calculation.setups.0.fields.0.night.mean_lx"
+    assert cell.value == pytest.approx(math.pi * 0.003, rel=1e-9)
+    assert data["setups"][0]["fields"][0]["night"]["mean_lx"] == cell.value
+    _, plain = _calc(_scene(tmp_path, "sky_luminance_cd_m2 = 0.003\n"), night=False)
+    assert _night_table(json.loads(json.dumps(plain.to_json()))["setups"], {}) is None
+    # The calculation pictures stay the luminaires' light and their metadata says so.
+    from render.output.calc_pictures import _png_text
+
+    assert NIGHT_LABEL in _png_text(report, "plan", None)["lampcast.night_light"]
+    assert "lampcast.night_light" not in _png_text(plain, "plan", None)

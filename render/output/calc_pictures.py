@@ -31,7 +31,8 @@ with one panel per setup so the setups compare at a glance:
 
 The other pictures are direct light; when the calculation also took interreflected light
 (``lampcast calc --bounces N``) each says so in its title and metadata
-(:func:`interreflection_note`).
+(:func:`interreflection_note`). With the scene's night light they stay the luminaires' light
+too, and their metadata says where the night light's figures are (:func:`night_note`).
 
 The figures and fields are read through the report's public records only, so figures added to
 the headline later appear without changes here. Colour maps are perceptually uniform and keep
@@ -71,6 +72,7 @@ __all__ = [
     "class_limits",
     "grid_heatmap",
     "interreflection_note",
+    "night_note",
     "isolux_plan",
     "lux_levels",
     "setup_label",
@@ -156,8 +158,17 @@ def _png_text(report: CalculationReport, what: str, text: Mapping[str, str] | No
         "lampcast.scene": Path(report.scene).name,
         "lampcast.setups": "; ".join(setup_label(s.setup) for s in report.setups),
         **({"lampcast.light": interreflection_note(report)} if report.options.bounces > 0 else {}),
+        **({"lampcast.night_light": night_note(report)} if report.options.night is not None else {}),
         **(text or {}),
     }
+
+
+def night_note(report: CalculationReport) -> str:
+    """What the pictures show when the scene has night light: the luminaires' light only; the
+    night light's figures on the calculation points are in the text, CSV and JSON."""
+    from render.calc.night import NIGHT_LABEL
+
+    return f"The luminaires' light only. The night light on the calculation points is in the text, CSV and JSON: {NIGHT_LABEL}."
 
 
 def interreflection_note(report: CalculationReport) -> str:
