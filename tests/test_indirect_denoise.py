@@ -16,6 +16,10 @@ What each check rests on:
   luminance falls at least 2-fold (measured about 3.2-fold at 128 px and 3.9-fold at 256 px,
   ``python -m render.bench denoise``; the bound is our own choice, common practice, no
   source);
+* the specular layer's white transport S is filtered with the same weights among the pixels
+  that see a layer only: a constant S stays constant up to the layer's edges (normalised
+  weights, analytic), and it is the float64 filter of those pixels' rows to float16 precision
+  (the same linear map; storage rounding 2⁻¹¹ of a pixel's largest value);
 * calculations never filtered: their figures with the scene key on equal those with it off
   to the bit; same scene, same seed, same bytes whatever the threads (common practice, no
   source).
@@ -40,6 +44,7 @@ from render.light.indirect.denoise import (
     DenoiseSettings,
     denoise_view,
     filter_rows,
+    filter_specular,
     filter_transport,
     view_guides,
 )
@@ -305,3 +310,71 @@ def test_night_ambient_light_kept_as_traced():
     assert np.array_equal(night[True].ambient_values.view(np.uint16), night[False].ambient_values.view(np.uint16))
     assert np.array_equal(night[True].ambient_scale, night[False].ambient_scale)
     assert not np.array_equal(night[True].values.view(np.uint16), night[False].values.view(np.uint16))
+
+
+# The specular layer's transport
+# ------------------------------------------------------------------------------------------
+
+
+def _layer_pixels(guides):
+    """The valid pixels of the lower half of the image, as if they saw a wet road."""
+    n_pix = guides.width_px * guides.height_px
+    lower = (np.arange(n_pix) // guides.width_px) >= guides.height_px // 2
+    return np.flatnonzero(lower & guides.valid).astype(np.int32)
+
+
+def test_specular_transport_filtered_among_layer_pixels_only(demo_view):
+    # A constant S on the layer's pixels stays constant, up to the layer's edge (pixels
+    # without a layer have no S, not an S of zero); the result is the float64 filter of those
+    # pixels' rows alone, to float16 storage precision.
+    _, _, guides = demo_view
+    index = _layer_pixels(guides)
+    assert 100 < index.size < guides.valid.sum()
+    values = np.ones((index.size, 2, 81), np.float16)
+    scale = np.full(index.size, 0.25, np.float32)
+    v, sc = filter_specular(index, values, scale, guides)
+    np.testing.assert_allclose(_decode(v, sc), 0.25, rtol=1e-6)
+    rng = np.random.default_rng(4)
+    rows = rng.uniform(0.0, 1.0, (index.size, 2, 81))
+    top = rows.reshape(index.size, -1).max(axis=1)
+    values = (rows / top[:, None, None]).astype(np.float16)
+    scale = top.astype(np.float32)
+    v, sc = filter_specular(index, values, scale, guides)
+    n_pix = guides.width_px * guides.height_px
+    full = np.zeros((n_pix, 2, 81))
+    full[index] = _decode(values, scale)
+    has = np.zeros(n_pix, np.bool_)
+    has[index] = True
+    expected = filter_rows(full, replace(guides, valid=guides.valid & has))[index]
+    got = _decode(v, sc)
+    assert np.abs(got - expected).max() <= 2.0**-10 * np.abs(expected).max()
+    assert np.abs(got - full[index]).max() > 0.05  # it did filter
+
+
+def test_denoise_view_filters_the_specular_transport(demo_view):
+    # denoise_view filters S with T (the night's ambient S is kept as traced, as its T is):
+    # on a view whose road is wet, S differs from as traced, is what filter_specular gives,
+    # and the luminaires' T is unchanged by filtering S.
+    study, rendered, guides = demo_view
+    b = rendered.buffers
+    gloss = np.tile([0.0, 1.0], (len(study.mesh.material_names), 1))
+    gloss[study.mesh.material_names.index("asphalt-worn")] = (0.02, 0.1)
+    kept = getattr(study.mesh, "material_gloss", None)
+    study.mesh.material_gloss = gloss
+    try:
+        ind = trace_view(b, rendered.lights, study.bvh, study.reflectances, IndirectSettings(2, 4), seed=2)
+    finally:
+        study.mesh.material_gloss = kept
+    assert ind.spec_index is not None and ind.spec_index.size > 20
+    saved = replace(b, indirect=ind)
+    out = denoise_view(saved, guides=guides)
+    v, sc = filter_specular(ind.spec_index, ind.spec_values, ind.spec_scale, guides)
+    np.testing.assert_array_equal(out.spec_values, v)
+    np.testing.assert_array_equal(out.spec_scale, sc)
+    assert not np.array_equal(out.spec_values, ind.spec_values)
+    plain = denoise_view(
+        replace(b, indirect=replace(ind, spec_index=None, spec_values=None, spec_scale=None)), guides=guides
+    )
+    np.testing.assert_array_equal(out.values, plain.values)
+    off = denoise_view(saved, DenoiseSettings(specular=False), guides=guides)
+    np.testing.assert_array_equal(off.spec_values, ind.spec_values)
