@@ -33,11 +33,11 @@ import numpy.typing as npt
 from render.colour.colorimetry import ViewColorimetry, resolve
 from render.errors import did_you_mean, input_error
 from render.geometry.build import compile_scene
+from render.light.gloss import view_gloss_share
 from render.light.integrator import (
     NEGLIGIBLE_LX,
     SURFACE_OFFSET_M,
     LightBuffers,
-    _material_gloss,
     direct_illuminance_lx,
     evaluate_light,
     render_buffers,
@@ -294,8 +294,8 @@ class Study:
             self.scene.path,
             where,
             indirect is not None,
-            # (Not known before the view is cast: every pixel counted when a material has a layer.)
-            float(np.any(_material_gloss(self.mesh)[:, 0] > 0.0)),
+            # (Estimated from above by a coarse pass of the camera: render.light.gloss.)
+            view_gloss_share(self.mesh, self.bvh, camera) if indirect is not None else 0.0,
         )
         road = view_road_shading(self.scene, v, self.mesh, self.reflectances)
         buffers = render_buffers(

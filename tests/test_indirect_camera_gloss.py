@@ -211,3 +211,29 @@ def test_wet_road_view_adds_the_layer_and_relights_by_a_multiply():
     )
     assert full[..., 1].sum() > bare[..., 1].sum()
     np.testing.assert_allclose(indirect_xyz(ind, b.response, 2.5 * f, spds, study.reflectances), 2.5 * full, rtol=1e-12)
+
+
+def test_gloss_share_of_a_view_is_estimated_from_above():
+    # The memory estimate's share of pixels that see a layer, from a coarse pass of the camera
+    # (one ray per coarse pixel, grown by one coarse pixel): never below the share the view's
+    # own camera samples give (a pixel counts when any of its samples sees the layer), and
+    # not the whole view as before; 0 without a layer (the definition of the stored pixels).
+    from render.light.gloss import view_gloss_share
+    from render.resources import demo_scene_path
+    from render.study import Study
+
+    study = Study(demo_scene_path())
+    view = study.scene.views[0].name
+    camera = study.camera(view, 256)
+    assert view_gloss_share(study.mesh, study.bvh, camera, width_px=64) == 0.0
+    gloss = np.tile([0.0, 1.0], (len(study.mesh.material_names), 1))
+    gloss[study.mesh.material_names.index("asphalt-worn")] = (0.02, 0.1)
+    study.mesh.material_gloss = gloss
+    estimate = view_gloss_share(study.mesh, study.bvh, camera, width_px=64)
+    rendered = study.render_view(view, "sodium", width_px=256, samples_per_pixel=4)
+    b = rendered.buffers
+    response = b.response.reshape(-1, b.spp)
+    f0 = np.append(gloss[:, 0], 0.0)
+    actual = (f0[np.where((response >= 0) & (response < len(gloss)), response, len(gloss))] > 0.0).any(axis=1).mean()
+    assert 0.0 < actual <= estimate < 1.0, (actual, estimate)
+    print(actual, estimate)

@@ -89,7 +89,12 @@ __all__ = [
     "vndf_pdf_one",
     "vndf_sample",
     "vndf_sample_one",
+    "view_gloss_share",
 ]
+
+#: Width in pixels of the coarse camera pass that estimates a view's share of pixels seeing a
+#: specular layer (:func:`view_gloss_share`).
+GLOSS_SHARE_WIDTH_PX = 128
 
 #: F0 of water (n = 1.333): ((n - 1) / (n + 1))², analytic.
 WATER_F0 = ((1.333 - 1.0) / (1.333 + 1.0)) ** 2
@@ -438,3 +443,39 @@ def layered_pdf(
     out = np.empty(n.shape[0])
     _directional_many(2, n, l, v, p, a, out, out)
     return out
+
+
+def view_gloss_share(mesh, bvh, camera, *, width_px: int = GLOSS_SHARE_WIDTH_PX) -> float:
+    """An estimate from above of the share of a view's pixels whose camera samples see a
+    specular layer (the pixels that keep a second, white transport), for the memory estimate
+    before the view is cast: one ray through the centre of each pixel of a coarse copy of the
+    camera (``width_px`` wide, the height in proportion), and a coarse pixel counted when it
+    or one of its eight neighbours sees a layer, so that the fine pixels along a layer's edge,
+    whose samples may see it or not, are counted too. 0 without a layer; the whole view is
+    counted where the camera is smaller than the coarse one. A layered surface narrower than
+    a coarse pixel (about 0.5° across a 60° view) may be missed; its pixels are then few."""
+    from dataclasses import replace
+
+    from render.light.integrator import _material_gloss
+    from render.rays.bvh import intersect_closest
+    from render.rays.cameras import camera_rays
+
+    f0 = _material_gloss(mesh)[:, 0]
+    if not np.any(f0 > 0.0):
+        return 0.0
+    if camera.width_px <= width_px:
+        return 1.0
+    w = int(width_px)
+    h = max(1, round(camera.height_px * w / camera.width_px))
+    origins, directions, _ = camera_rays(replace(camera, width_px=w, height_px=h), 1, 0, jitter=False)
+    hits = intersect_closest(bvh, origins, directions)
+    tri = hits.triangle
+    material = np.asarray(mesh.material_id)[np.maximum(tri, 0)]
+    seen = ((tri >= 0) & (f0[material] > 0.0)).reshape(h, w)
+    grown = seen.copy()
+    grown[1:] |= seen[:-1]
+    grown[:-1] |= seen[1:]
+    wide = grown.copy()
+    wide[:, 1:] |= grown[:, :-1]
+    wide[:, :-1] |= grown[:, 1:]
+    return float(wide.mean())

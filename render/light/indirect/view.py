@@ -157,7 +157,7 @@ class IndirectBuffers:
     reflectance to apply), as ``spec_values`` (n_g, C, n_nodes) float16 relative to
     ``spec_scale`` (n_g,) float32, and with night light ``spec_ambient_values`` (n_g, A,
     n_nodes) relative to ``spec_ambient_scale`` (162 bytes per such pixel and channel plus 8).
-    They are kept as traced by the denoise."""
+    The denoise filters ``spec_values`` with ``values`` and keeps the ambient ones as traced."""
 
     width_px: int
     height_px: int
