@@ -652,6 +652,7 @@ def illuminance_from_transport(
     f = np.asarray(factors, np.float64)
     for c in range(moments.shape[1]):
         out += f[c] * (moments[:, c, :] @ white[0, lamp_of_channel[c], :, 1])
+    return np.pi * out
 
 
 def ambient_levels(night: NightLight) -> np.ndarray:
@@ -700,4 +701,3 @@ def ambient_illuminance_per_unit_lx(moments: np.ndarray, ambient_spds: ArrayLike
         raise ValueError(f"{spds.shape[0]} spectra for {m.shape[1]} ambient channels")
     white = transport_table(np.ones((1, N_BINS)), spds, basis)[0, :, :, 1]  # (A, n_nodes) photopic
     return np.pi * np.einsum("paj,aj->pa", m, white)
-    return np.pi * out
