@@ -37,6 +37,7 @@ if TYPE_CHECKING:
     from render.vision.observer import ObserverSettings
 
 __all__ = [
+    "BARE_BOUNCES",
     "DEMO_SCENE",
     "OBSERVER_FLAGS",
     "build_parser",
@@ -56,6 +57,9 @@ __all__ = [
 ]
 
 DEMO_SCENE = demo_scene_path()
+#: ``--bounces`` given without a number: the path tracer's default limit
+#: (:data:`render.light.indirect.DEFAULT_BOUNCES`), put in place after parsing.
+BARE_BOUNCES = -1
 
 
 def _out_dir(path: str | None, default: str) -> Path:
@@ -745,7 +749,11 @@ def _run_options(p: argparse.ArgumentParser, out_default: str) -> None:
     p.add_argument(
         "--bounces",
         type=_bounces,
-        help="interreflections per path, 0 for direct light only (default: the scene's render.bounces)",
+        nargs="?",
+        const=BARE_BOUNCES,
+        metavar="N",
+        help="interreflections per path, 0 for direct light only; --bounces alone: the default limit, 3 "
+        "(default: the scene's render.bounces)",
     )
     p.add_argument(
         "--denoise",
@@ -1006,10 +1014,12 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--mesopic", action="store_true", help="P classes: compare illuminance in mesopic photometry")
     p.add_argument(
         "--bounces",
-        type=int,
+        type=_bounces,
+        nargs="?",
+        const=BARE_BOUNCES,
         metavar="N",
         help="also give the fields' illuminance with interreflected light (up to N bounces, labelled; "
-        "not part of the EN 13201 calculation; class checks stay direct light; default 0)",
+        "not part of the EN 13201 calculation; class checks stay direct light; --bounces alone: 3; default 0)",
     )
     p.add_argument(
         "--no-night",
@@ -1103,6 +1113,10 @@ def main(argv: list[str] | None = None) -> int:
     (see the module documentation). argparse usage errors exit with status 2 as usual."""
     parser = build_parser()
     args = parser.parse_args(argv)
+    if getattr(args, "bounces", None) == BARE_BOUNCES:
+        from render.light.indirect import DEFAULT_BOUNCES
+
+        args.bounces = DEFAULT_BOUNCES
     if not getattr(args, "func", None):
         parser.print_help(sys.stderr)
         return 2

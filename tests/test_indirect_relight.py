@@ -286,7 +286,7 @@ def test_study_interreflected_illuminance_scales_with_dimming():
 def test_command_line_bounces(tmp_path, capsys):
     # --bounces overrides the scene's render.bounces for the rendering commands; out of range it
     # is a usage error (exit 2) naming the option.
-    from render.cli import main
+    from render.cli import BARE_BOUNCES, main
 
     scene = str(Path(__file__).resolve().parents[1] / "scenes" / "tests" / "point_over_plane.toml")
     assert main(["render", scene, "--width", "16", "--bounces", "1", "--out", str(tmp_path), "-q"]) == 0
@@ -301,3 +301,9 @@ def test_command_line_bounces(tmp_path, capsys):
         main(["render", scene, "--bounces", "65"])
     assert exit_info.value.code == 2
     assert "--bounces" in capsys.readouterr().err
+    # --bounces alone: the default limit.
+    from render.cli import build_parser
+    from render.light.indirect import DEFAULT_BOUNCES
+
+    assert build_parser().parse_args(["render", scene, "--bounces"]).bounces == BARE_BOUNCES
+    assert DEFAULT_BOUNCES >= 3

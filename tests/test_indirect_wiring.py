@@ -31,6 +31,7 @@ from scenes_for_tests import TWO_OBJECTS_SETUPS_NIGHT, write_two_objects_scene
 from render.calc.fields import INTERREFLECTED_LABEL, row_fields
 from render.calc.run import CalcOptions, calc_study, run_calculation
 from render.cli import main
+from render.light.indirect import DEFAULT_BOUNCES
 from render.study import Study
 
 MINIMAL = Path(__file__).resolve().parent.parent / "scenes" / "tests" / "minimal_street.toml"
@@ -132,8 +133,13 @@ def test_cli_bounces(capsys):
     out = json.loads(capsys.readouterr().out)
     assert out["options"]["bounces"] == 1
     assert out["setups"][0]["fields"][0]["with_interreflected"]["label"] == INTERREFLECTED_LABEL
-    assert main(["calc", str(MINIMAL), "-q", "--bounces", "-1"]) != 0
+    with pytest.raises(SystemExit) as exit_info:
+        main(["calc", str(MINIMAL), "-q", "--bounces", "-1"])
+    assert exit_info.value.code == 2
     assert "--bounces" in capsys.readouterr().err
+    # --bounces alone: the path tracer's default limit (at least 3 interreflections).
+    assert main(["calc", str(MINIMAL), "--json", "-q", "--no-class", "--bounces"]) == 0
+    assert json.loads(capsys.readouterr().out)["options"]["bounces"] == DEFAULT_BOUNCES >= 3
 
 
 # ------------------------------------------------------------------------------------------
