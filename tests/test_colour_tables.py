@@ -101,3 +101,13 @@ def test_quick_commands_do_not_import_colour_science():
     )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True, cwd=REPO)
     assert out.stdout.strip() == "False"
+
+
+def test_check_compares_numbers_within_a_relative_tolerance():
+    # The tool's --check (common practice, no source): numbers that differ in their last digits
+    # are the same table; a change in the ninth significant digit, a key or a text is not.
+    tool = _tool()
+    assert tool._same_json('{"a": [80.28684502160826, "x"]}', '{"a": [80.28684502160829, "x"]}')
+    assert not tool._same_json('{"a": [80.28684502160826, "x"]}', '{"a": [80.28684512160826, "x"]}')
+    assert not tool._same_json('{"a": [1.0, "x"]}', '{"a": [1.0, "y"]}')
+    assert not tool._same_json('{"a": 1.0}', '{"b": 1.0}')
