@@ -460,12 +460,13 @@ class Study:
         """(N, 4) illuminance (lx) at bare points on surfaces with the given unit normals from
         the night's other light (``[night]``) per unit level of each term: per 1 cd/m² of sky
         glow, per 1 lx of the moon's normal illuminance, per 1 cd/m² of the lit houses' and
-        shops' windows (times :func:`render.light.indirect.view.ambient_levels` of the scene's
+        shops' windows (times :func:`render.light.indirect.night.ambient_levels` of the scene's
         ``[night]``: its illuminance). A Monte Carlo estimate with ``paths`` per point (the
         moon's direct part exact), its direct part alone with ``bounces`` 0, up to ``bounces``
         interreflections otherwise; the terms off in ``[night]`` are zero (turning one on
         traces again). Lamp-independent: the same for every setup. Zero without night light."""
         from render.light.indirect import IndirectSettings, PathTracer, transport_at_points
+        from render.light.indirect.night import AMBIENT_CHANNELS
         from render.light.indirect.view import ambient_illuminance_per_unit_lx, without_luminaires
 
         pts = np.asarray(points_m, np.float64).reshape(-1, 3)
@@ -473,7 +474,7 @@ class Study:
         nrm = nrm / np.linalg.norm(nrm, axis=1, keepdims=True)
         night = self.scene.night
         if not night.on or pts.shape[0] == 0:
-            return np.zeros((pts.shape[0], 4))
+            return np.zeros((pts.shape[0], AMBIENT_CHANNELS))
         settings = IndirectSettings(bounces=max(int(bounces), 0), samples_per_pixel=int(paths), night=night)
         tracer = PathTracer(
             self.mesh,

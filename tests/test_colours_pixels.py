@@ -1,7 +1,10 @@
 """The colour analysis' per-pixel inputs: object ids per pixel and cone signals at chosen pixels.
 
 The buffers are written by hand (a few pixels of a few camera samples each); the expected ids
-are read off them by the definitions in :mod:`render.analysis.view_colours`.
+are read off them by the definitions in :mod:`render.analysis.view_colours`. Source of the
+expected values: common practice, no source -- the ids follow from the buffers by counting, and
+the cone signals at chosen pixels must equal those of the whole image, which the colorimetry
+tests check against their published sources.
 """
 
 from __future__ import annotations

@@ -76,7 +76,8 @@ NIGHT_PATHS_PER_POINT = 512
 #: Horizontal directions round each face point at which the vertical illuminance is traced
 #: (every 10°; the semicylindrical illuminance integrates over half of them).
 NIGHT_FACE_DIRECTIONS = 36
-#: The terms, in the order of the per-unit arrays' last axis, with the unit of their level.
+#: The terms, in the order of the per-unit arrays' last axis (the ambient channels of
+#: :mod:`render.light.indirect.night`), with the unit of their level.
 NIGHT_TERMS = (
     ("sky_glow", "cd/m²"),
     ("moonlight", "lx"),
@@ -86,7 +87,7 @@ NIGHT_TERMS = (
 
 
 def _levels(night: NightLight) -> tuple[float, float, float, float]:
-    from render.light.indirect.view import ambient_levels
+    from render.light.indirect.night import ambient_levels
 
     a, b, c, d = (float(x) for x in ambient_levels(night))
     return a, b, c, d
@@ -211,14 +212,14 @@ def night_on_fields(
         n = f.points_m.shape[0]
         pts.append(f.points_m)
         nrm.append(f.normals)
-        spans.append(("h", f, start, None))
+        spans.append(("h", f, start))
         start += n
         if f.name.startswith("footway "):
             up = f.points_m + [0.0, 0.0, face_height_m]
             for k in range(directions):
                 pts.append(up)
                 nrm.append(f.to_world(dirs[k]))
-            spans.append(("face", f, start, None))
+            spans.append(("face", f, start))
             start += n * directions
     per_unit = study.night_illuminance_per_unit_lx(
         np.concatenate(pts), np.concatenate(nrm), bounces=bounces, paths=paths
@@ -226,7 +227,7 @@ def night_on_fields(
     levels = _levels(night)
 
     def grid(values: np.ndarray, f: CalculationField) -> NightGrid:
-        return NightGrid(values.reshape(*f.shape, 4), levels, int(bounces), int(paths))
+        return NightGrid(values.reshape(*f.shape, len(NIGHT_TERMS)), levels, int(bounces), int(paths))
 
     horizontal: dict[str, NightGrid] = {}
     vertical: dict[tuple[str, int], NightGrid] = {}
@@ -236,12 +237,12 @@ def night_on_fields(
     w = np.ones(half + 1)
     w[[0, -1]] = 0.5
     w /= half
-    for kind, f, s0, _ in spans:
+    for kind, f, s0 in spans:
         n = f.points_m.shape[0]
         if kind == "h":
             horizontal[f.name] = grid(per_unit[s0 : s0 + n], f)
             continue
-        ev = per_unit[s0 : s0 + n * directions].reshape(directions, n, 4)
+        ev = per_unit[s0 : s0 + n * directions].reshape(directions, n, len(NIGHT_TERMS))
         for sign, centre in ((1, 0), (-1, half)):
             vertical[(f.name, sign)] = grid(ev[centre], f)
             idx = (centre + np.arange(-half // 2, half // 2 + 1)) % directions

@@ -60,6 +60,7 @@ __all__ = [
     "SKY_CHANNEL",
     "WINDOW_CHANNEL",
     "NightLight",
+    "ambient_levels",
     "describe_night",
     "moon_direction",
     "planckian_spectrum",
@@ -118,3 +119,17 @@ def describe_night(night: NightLight) -> str:
                 for f in night.frontages
             )
     return "night light: " + ", ".join(parts) if parts else ""
+
+
+def ambient_levels(night: NightLight) -> np.ndarray:
+    """(AMBIENT_CHANNELS,) the levels the ambient channels are scaled by: the sky's luminance (cd/m²), the
+    moon's normal illuminance (lx), the lit houses' and shops' window luminances (cd/m²)."""
+    return np.array(
+        [
+            night.sky_luminance_cd_m2,
+            night.moon_illuminance_lx,
+            night.window_luminance_cd_m2,
+            night.shop_window_luminance_cd_m2,
+        ],
+        np.float64,
+    )

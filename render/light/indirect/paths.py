@@ -226,6 +226,20 @@ def _deposit_layered(acc, a, ch, beta, rho, k, base, spec, mixed, ratio, q_first
 
 
 @numba.njit(cache=True, nogil=True, inline="always")
+def _drawn_window_mis(win, e_win, win_total, w, wx, wy, wz, t, l_pdf, window_mis):
+    """The weight of lit window ``w`` met at distance ``t`` by a direction (wx, wy, wz) drawn with
+    pdf ``l_pdf`` from a gloss layer: the power heuristic against connecting to the window
+    (1 without multiple importance sampling), or -1 when the direction meets its back."""
+    cos_w = -(wx * win[w, 9] + wy * win[w, 10] + wz * win[w, 11])
+    if not cos_w > 0.0:
+        return -1.0
+    if window_mis == WINDOW_MIS and win_total > 0.0:
+        p_light = e_win[w] / win_total * t * t / (win[w, 12] * cos_w)
+        return power_heuristic(1.0, l_pdf, 1.0, p_light)
+    return 1.0
+
+
+@numba.njit(cache=True, nogil=True, inline="always")
 def _window_connection(
     px, py, pz, sx, sy, sz, gx, gy, gz, win, e_win, u0, u1, u2, wb, wi, tv, o, d, offset, st_node, work
 ):
@@ -618,12 +632,8 @@ def trace_paths(
                         # its layer's part to the white transport, its base's to the transport,
                         # weighted by the power heuristic against the connection above.
                         w_ = tri_window[j]
-                        cos_w = -(wx * win[w_, 9] + wy * win[w_, 10] + wz * win[w_, 11])
-                        if cos_w > 0.0:
-                            wd = 1.0
-                            if window_mis == WINDOW_MIS and win_total > 0.0:
-                                p_light = e_win[w_] / win_total * t * t / (win[w_, 12] * cos_w)
-                                wd = power_heuristic(1.0, l_pdf, 1.0, p_light)
+                        wd = _drawn_window_mis(win, e_win, win_total, w_, wx, wy, wz, t, l_pdf, window_mis)
+                        if wd >= 0.0:
                             v = f * wd * win[w_, 13]
                             cw_ = c_win + win_kind[w_]
                             if do_spec:
@@ -641,12 +651,8 @@ def trace_paths(
                         # A direction drawn from the layer meets a lit window: its unit luminance,
                         # weighted by the power heuristic against the connection to it.
                         w_ = tri_window[j]
-                        cos_w = -(wx * win[w_, 9] + wy * win[w_, 10] + wz * win[w_, 11])
-                        if cos_w > 0.0:
-                            mis = 1.0
-                            if window_mis == WINDOW_MIS and win_total > 0.0:
-                                p_light = e_win[w_] / win_total * t * t / (win[w_, 12] * cos_w)
-                                mis = power_heuristic(1.0, l_pdf, 1.0, p_light)
+                        mis = _drawn_window_mis(win, e_win, win_total, w_, wx, wy, wz, t, l_pdf, window_mis)
+                        if mis >= 0.0:
                             v = weight * f * mis * win[w_, 13]
                             cw_ = c_win + win_kind[w_]
                             _deposit(acc, a, cw_, beta, v, pm, ratio, q_first)

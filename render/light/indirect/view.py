@@ -25,7 +25,7 @@ blocks, per camera sample) are measured by ``python -m render.bench indirect --s
 calculations that include interreflected light); :func:`illuminance_from_transport` turns its
 luminaires' channels into illuminance for any lamps, lumens and dimming, and
 :func:`ambient_illuminance_per_unit_lx` its night-light channels into illuminance per unit
-level of each term (times :func:`ambient_levels` for the scene's levels: a new sky luminance,
+level of each term (times :func:`render.light.indirect.night.ambient_levels` for the scene's levels: a new sky luminance,
 moon illuminance or window luminance is a multiply). :func:`without_luminaires` lets a tracer
 carry the night light alone.
 
@@ -48,7 +48,15 @@ from render.colour.colorimetry import colorimetric_weights, lamps_of_channels, r
 from render.colour.materials import luminous_reflectance
 from render.colour.spectra import N_BINS
 from render.geometry.mesh import TriangleMesh, face_normals
-from render.light.indirect.night import AMBIENT_CHANNELS, NightLight, moon_direction
+from render.light.indirect.night import (
+    AMBIENT_CHANNELS,
+    SHOP_WINDOW_CHANNEL,
+    SKY_CHANNEL,
+    WINDOW_CHANNEL,
+    NightLight,
+    ambient_levels,
+    moon_direction,
+)
 from render.light.indirect.paths import RR_FIRST_BOUNCE, WINDOW_MIS, trace_paths
 from render.light.indirect.transport import (
     NODE_STEP_NM,
@@ -78,7 +86,6 @@ __all__ = [
     "IndirectSettings",
     "PathTracer",
     "ambient_illuminance_per_unit_lx",
-    "ambient_levels",
     "ambient_responses",
     "illuminance_from_transport",
     "indirect_responses",
@@ -544,15 +551,7 @@ def _add_ambient(
     """Add the ambient channels at ``night``'s levels (the sky's luminance, the moon's normal
     illuminance, the windows' luminances) and the sky and lit windows seen (their luminance,
     white response) to ``out`` (n_pix, J)."""
-    levels = np.array(
-        [
-            night.sky_luminance_cd_m2,
-            night.moon_illuminance_lx,
-            night.window_luminance_cd_m2,
-            night.shop_window_luminance_cd_m2,
-        ],
-        np.float64,
-    )
+    levels = ambient_levels(night)
     spds = indirect.ambient_spds
     kept = list(indirect.ambient_channels)
     if kept:
@@ -581,9 +580,9 @@ def _add_ambient(
     # What the camera sees of the sky and of lit windows: their luminance, a white (ρ = 1)
     # response of their spectrum at one photopic unit.
     white = response_table(np.zeros((0, N_BINS)), spds, weights=w)[-1]
-    seen = [(0, indirect.sky_seen)]
+    seen = [(SKY_CHANNEL, indirect.sky_seen)]
     if indirect.window_seen is not None:
-        seen += [(2, indirect.window_seen[:, 0]), (3, indirect.window_seen[:, 1])]
+        seen += [(WINDOW_CHANNEL, indirect.window_seen[:, 0]), (SHOP_WINDOW_CHANNEL, indirect.window_seen[:, 1])]
     for c, share in seen:
         if levels[c] > 0.0 and share is not None and share.any():
             out += (levels[c] * share.astype(np.float64))[:, None] * white[c][None, :]
@@ -655,20 +654,6 @@ def illuminance_from_transport(
     return np.pi * out
 
 
-def ambient_levels(night: NightLight) -> np.ndarray:
-    """(4,) the levels the ambient channels are scaled by: the sky's luminance (cd/m²), the
-    moon's normal illuminance (lx), the lit houses' and shops' window luminances (cd/m²)."""
-    return np.array(
-        [
-            night.sky_luminance_cd_m2,
-            night.moon_illuminance_lx,
-            night.window_luminance_cd_m2,
-            night.shop_window_luminance_cd_m2,
-        ],
-        np.float64,
-    )
-
-
 def without_luminaires(lights: LuminaireSet) -> LuminaireSet:
     """``lights`` with no luminaire and no channel (the photometric tables kept), for a tracer
     that carries the night's ambient channels alone: no connection to a luminaire is made,
@@ -694,7 +679,7 @@ def ambient_illuminance_per_unit_lx(moments: np.ndarray, ambient_spds: ArrayLike
     1 lx of the moon's normal illuminance, per 1 cd/m² of window) and their spectra
     ``ambient_spds`` (A, N_BINS), any scale (each at one photopic unit): π·Σ_j b_aj·Y_aj with
     Y_aj the luminance a white diffuser returns per unit node value of spectrum a. Times
-    :func:`ambient_levels` (summed over a) it is the night light's illuminance."""
+    :func:`render.light.indirect.night.ambient_levels` (summed over a) it is the night light's illuminance."""
     m = np.asarray(moments, np.float64)
     spds = np.asarray(ambient_spds, np.float64).reshape(-1, N_BINS)
     if spds.shape[0] != m.shape[1]:

@@ -298,6 +298,16 @@ def window_seen_shares(
     return out
 
 
+def _rectangle_coordinates(
+    rect: np.ndarray, points: np.ndarray
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """``points`` (..., 3) in the frame of a window row ``rect``: (u, v) along its two edges (0..1
+    on the rectangle), h the height above its plane along its normal, and the normal."""
+    rel = points - rect[0:3]
+    e1, e2, n = rect[3:6], rect[6:9], rect[9:12]
+    return rel @ e1 / (e1 @ e1), rel @ e2 / (e2 @ e2), rel @ n, n
+
+
 def _rows_seen(windows: LitWindows, point: np.ndarray, direction: np.ndarray, object_id: np.ndarray) -> np.ndarray:
     """(n,) the row of the lit window each camera sample sees, -1 for none."""
     out = np.full(point.shape[0], -1, np.int64)
@@ -310,12 +320,8 @@ def _rows_seen(windows: LitWindows, point: np.ndarray, direction: np.ndarray, ob
         p = point[idx].astype(np.float64)
         dvec = direction[idx].astype(np.float64)
         for w in np.flatnonzero(windows.obj == obj):
-            r = windows.rect[w]
-            rel = p - r[0:3]
-            e1, e2, n = r[3:6], r[6:9], r[9:12]
-            u = rel @ e1 / (e1 @ e1)
-            v = rel @ e2 / (e2 @ e2)
-            on = (np.abs(rel @ n) < _ON_PLANE_M) & (u >= 0) & (u <= 1) & (v >= 0) & (v <= 1) & (dvec @ n < 0)
+            u, v, h, n = _rectangle_coordinates(windows.rect[w], p)
+            on = (np.abs(h) < _ON_PLANE_M) & (u >= 0) & (u <= 1) & (v >= 0) & (v <= 1) & (dvec @ n < 0)
             out[idx[on]] = w
     return out
 
@@ -333,13 +339,9 @@ def window_triangles(windows: LitWindows, mesh: TriangleMesh) -> np.ndarray:
         tri = mesh.triangles_m[idx].astype(np.float64)
         facing = face_normals(tri)
         for w in np.flatnonzero(windows.obj == obj):
-            r = windows.rect[w]
-            rel = tri - r[0:3]
-            e1, e2, n = r[3:6], r[6:9], r[9:12]
-            u = rel @ e1 / (e1 @ e1)
-            v = rel @ e2 / (e2 @ e2)
+            u, v, h, n = _rectangle_coordinates(windows.rect[w], tri)
             on = (
-                np.all(np.abs(rel @ n) < _ON_PLANE_M, axis=1)
+                np.all(np.abs(h) < _ON_PLANE_M, axis=1)
                 & np.all((u >= -eps) & (u <= 1 + eps) & (v >= -eps) & (v <= 1 + eps), axis=1)
                 & (facing @ n > 0.5)
             )
