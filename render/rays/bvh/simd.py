@@ -7,7 +7,9 @@ remainder. :func:`node_entry_mask` is therefore written as LLVM vector instructi
 ``intrinsic``): 8 float32 bounds per load, widened to float64 and tested exactly as
 :func:`render.rays.bvh.slab.slab_interval` tests one box (the same IEEE operations in the same
 order, no fast-math), so every decision equals the scalar test's. :func:`lowest_bit` is LLVM's
-count-trailing-zeros, to visit only the children entered.
+count-trailing-zeros, to visit only the children entered. :func:`data_pointer` hands an
+array's data on as a bare pointer, so that a function called once per ray takes one machine
+word per array instead of numba's whole array record (see :mod:`render.rays.bvh.single`).
 
 The ray's near and far bound of each axis are chosen once per ray by the sign of its inverse
 direction (Williams et al. 2005): for a non-negative inverse the lower bound gives the smaller
@@ -32,7 +34,7 @@ from numba.extending import intrinsic
 from render.rays.bvh.layout import WIDE
 from render.rays.bvh.slab import ROBUST_FAR
 
-__all__ = ["lowest_bit", "node_entry_mask"]
+__all__ = ["data_pointer", "lowest_bit", "node_entry_mask"]
 
 _I32 = ir.IntType(32)
 _I64 = ir.IntType(64)
@@ -48,6 +50,22 @@ def lowest_bit(typingctx, x):
 
     def codegen(context, builder, signature, args):
         return builder.cttz(args[0], ir.Constant(ir.IntType(1), 1))
+
+    return sig, codegen
+
+
+@intrinsic
+def data_pointer(typingctx, a):
+    """Address of the first element of a C-contiguous array, as a ``voidptr`` for
+    ``numba.carray``. No reference is taken: the caller keeps the array alive while the pointer
+    is used."""
+    if not (isinstance(a, types.Array) and a.layout == "C"):
+        return None
+    sig = types.voidptr(a)
+
+    def codegen(context, builder, signature, args):
+        ary = context.make_array(signature.args[0])(context, builder, args[0])
+        return builder.bitcast(ary.data, context.get_value_type(types.voidptr))
 
     return sig, codegen
 
