@@ -26,31 +26,57 @@ EN 13201-2:2015 / CIE 140-2000 (edge illuminance ratio); see :mod:`.edge`.
 CIE 150:2017 (obtrusive light); see :mod:`.obtrusive`.
 """
 
-from render.calc.classes import ClassCheck, ClassFigures, LightingClass, check_class, lighting_classes
-from render.calc.edge import EdgeResult, edge_illuminance_ratio, edge_strip_width_m, edge_strips
-from render.calc.fields import (
-    CalculationField,
-    FaceResult,
-    FieldResult,
-    evaluate_face_field,
-    evaluate_field,
-    footway_across,
-    lane_across,
-    points_along,
-    row_fields,
-    row_positions,
-    semicylindrical_illuminance_lx,
-    street_fields,
-)
-from render.calc.obtrusive import (
-    ObtrusiveLimits,
-    ObtrusiveResult,
-    evaluate_obtrusive,
-    facade_field,
-    facade_fields,
-)
-from render.calc.road import LuminanceResult, evaluate_luminance_field, road_luminance_cd_m2
-from render.calc.ti import RoadWorstCase, TIResult, road_worst_case, threshold_increment, veiling_luminance_cd_m2
+# Imported on first use (PEP 562), so that a module needing one part (the scene loader reads
+# the dimming schedules of .energy) does not import the ray kernels of the others.
+_LAZY = {
+    "CalculationField": "fields",
+    "ClassCheck": "classes",
+    "ClassFigures": "classes",
+    "EdgeResult": "edge",
+    "FaceResult": "fields",
+    "FieldResult": "fields",
+    "LightingClass": "classes",
+    "LuminanceResult": "road",
+    "ObtrusiveLimits": "obtrusive",
+    "ObtrusiveResult": "obtrusive",
+    "RoadWorstCase": "ti",
+    "TIResult": "ti",
+    "check_class": "classes",
+    "edge_illuminance_ratio": "edge",
+    "edge_strip_width_m": "edge",
+    "edge_strips": "edge",
+    "evaluate_face_field": "fields",
+    "evaluate_field": "fields",
+    "evaluate_luminance_field": "road",
+    "evaluate_obtrusive": "obtrusive",
+    "facade_field": "obtrusive",
+    "facade_fields": "obtrusive",
+    "footway_across": "fields",
+    "lane_across": "fields",
+    "lighting_classes": "classes",
+    "points_along": "fields",
+    "road_luminance_cd_m2": "road",
+    "road_worst_case": "ti",
+    "row_fields": "fields",
+    "row_positions": "fields",
+    "semicylindrical_illuminance_lx": "fields",
+    "street_fields": "fields",
+    "threshold_increment": "ti",
+    "veiling_luminance_cd_m2": "ti",
+}
+
+
+def __getattr__(name: str):
+    """A name of ``__all__``, imported from its module when first asked for."""
+    module = _LAZY.get(name)
+    if module is None:
+        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+    from importlib import import_module
+
+    value = getattr(import_module(f"{__name__}.{module}"), name)
+    globals()[name] = value
+    return value
+
 
 __all__ = [
     "CalculationField",

@@ -68,6 +68,8 @@ import numba
 import numpy as np
 import numpy.typing as npt
 
+from render.light.water import WATER_F0, WET_ROUGHNESS
+
 __all__ = [
     "BASE_ALBEDO_PER_TRANSMITTANCE",
     "WATER_F0",
@@ -96,10 +98,6 @@ __all__ = [
 #: specular layer (:func:`view_gloss_share`).
 GLOSS_SHARE_WIDTH_PX = 128
 
-#: F0 of water (n = 1.333): ((n - 1) / (n + 1))², analytic.
-WATER_F0 = ((1.333 - 1.0) / (1.333 + 1.0)) ** 2
-#: GGX roughness α used for a wet street (common practice, no source).
-WET_ROUGHNESS = 0.1
 #: The base's directional albedo under the layer over its reflectance ρ, per unit 1 − F0:
 #: ∫ (1 − F(cos θ))·cos θ/π dω = (1 − F0)·(1 − 2·B(2, 6)) = (1 − F0)·20/21 for Schlick's F
 #: (B the beta function; analytic).

@@ -1411,7 +1411,7 @@ def _gloss(
     each road for their walking and driving surfaces (water film, :mod:`render.light.gloss`).
     The film is per material: a dry street or road sharing such a material with a wet one is a
     problem naming the dry one's ``wet`` key."""
-    from render.light.gloss import WATER_F0, WET_ROUGHNESS
+    from render.light.water import WATER_F0, WET_ROUGHNESS
 
     out: dict[str, tuple[float, float]] = {}
     sections = ([("street", street)] if street is not None else []) + [(r.where, r.section) for r in roads]

@@ -33,21 +33,13 @@ from render.light.photometry.integrals import (
     ulor,
     zonal_flux_lm,
 )
-from render.light.photometry.kernels import (
-    direction_to_c_gamma,
-    intensity_cd,
-    intensity_lookup,
-    intensity_toward,
-    lookup_tables,
-    luminaire_rotation,
-    world_to_c_gamma,
-)
 from render.light.photometry.lm63 import FEET_TO_M, parse_lm63, read_lm63
 from render.light.photometry.model import (
     Photometry,
     TiltData,
     c_gamma_to_direction,
     c_gamma_to_type_b,
+    luminaire_rotation,
     type_b_to_c_gamma,
 )
 
@@ -81,3 +73,28 @@ __all__ = [
     "world_to_c_gamma",
     "zonal_flux_lm",
 ]
+
+
+# The numba kernels are imported on first use (PEP 562): reading a photometric file (the scene
+# check) needs no compiler.
+_KERNELS = frozenset(
+    {
+        "direction_to_c_gamma",
+        "intensity_cd",
+        "intensity_lookup",
+        "intensity_toward",
+        "lookup_tables",
+        "world_to_c_gamma",
+    }
+)
+
+
+def __getattr__(name: str):
+    """A kernel of :mod:`.kernels` named in ``__all__``, imported when first asked for."""
+    if name not in _KERNELS:
+        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+    from render.light.photometry import kernels
+
+    value = getattr(kernels, name)
+    globals()[name] = value
+    return value

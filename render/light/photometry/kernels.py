@@ -28,7 +28,7 @@ import numba
 import numpy as np
 import numpy.typing as npt
 
-from render.light.photometry.model import Photometry, local_to_c_gamma
+from render.light.photometry.model import Photometry, local_to_c_gamma, luminaire_rotation
 
 __all__ = [
     "direction_to_c_gamma",
@@ -44,21 +44,6 @@ __all__ = [
 # --------------------------------------------------------------------------------------------
 # Orientation
 # --------------------------------------------------------------------------------------------
-
-
-def luminaire_rotation(rotation_deg: float, tilt_deg: float = 0.0) -> np.ndarray:
-    """3x3 matrix taking luminaire-frame vectors to world vectors.
-
-    ``R = Rz(rotation_deg) @ Rx(tilt_deg)``: first tilt about the luminaire's own x axis
-    (C 0°); positive tilt turns the nadir axis (γ = 0) toward C 90°, raising the street-side
-    front of the optic; then rotation about the world z axis, anticlockwise seen from above.
-    With ``rotation_deg = 0`` the luminaire's C 90° points along world +y.
-    """
-    r = math.radians(float(rotation_deg))
-    t = math.radians(float(tilt_deg))
-    rz = np.array([[math.cos(r), -math.sin(r), 0.0], [math.sin(r), math.cos(r), 0.0], [0.0, 0.0, 1.0]])
-    rx = np.array([[1.0, 0.0, 0.0], [0.0, math.cos(t), -math.sin(t)], [0.0, math.sin(t), math.cos(t)]])
-    return np.ascontiguousarray(rz @ rx)
 
 
 def world_to_c_gamma(directions_world: npt.ArrayLike, rotation: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

@@ -50,6 +50,7 @@ References
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -64,6 +65,7 @@ __all__ = [
     "c_gamma_to_type_b",
     "frozen_array",
     "local_to_c_gamma",
+    "luminaire_rotation",
     "type_b_to_c_gamma",
 ]
 
@@ -224,6 +226,21 @@ def local_to_c_gamma(d: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     gamma = np.degrees(np.arctan2(np.hypot(lx, ly), -lz))
     c = np.degrees(np.arctan2(ly, lx)) % 360.0
     return c, gamma
+
+
+def luminaire_rotation(rotation_deg: float, tilt_deg: float = 0.0) -> np.ndarray:
+    """3x3 matrix taking luminaire-frame vectors to world vectors.
+
+    ``R = Rz(rotation_deg) @ Rx(tilt_deg)``: first tilt about the luminaire's own x axis
+    (C 0°); positive tilt turns the nadir axis (γ = 0) toward C 90°, raising the street-side
+    front of the optic; then rotation about the world z axis, anticlockwise seen from above.
+    With ``rotation_deg = 0`` the luminaire's C 90° points along world +y.
+    """
+    r = math.radians(float(rotation_deg))
+    t = math.radians(float(tilt_deg))
+    rz = np.array([[math.cos(r), -math.sin(r), 0.0], [math.sin(r), math.cos(r), 0.0], [0.0, 0.0, 1.0]])
+    rx = np.array([[1.0, 0.0, 0.0], [0.0, math.cos(t), -math.sin(t)], [0.0, math.sin(t), math.cos(t)]])
+    return np.ascontiguousarray(rz @ rx)
 
 
 def type_b_to_c_gamma(h_deg: npt.ArrayLike, v_deg: npt.ArrayLike) -> tuple[np.ndarray, np.ndarray]:
