@@ -22,11 +22,14 @@ from render.errors import InputError
 from render.output.calc_pictures import (
     CALC_PICTURES,
     DPI,
+    NIGHT_PICTURE,
     UPWARD_PICTURE,
     WIDTH_IN,
     calc_picture_alt_texts,
     class_limits,
     lux_levels,
+    night_light_figure,
+    night_light_map,
     write_calc_pictures,
 )
 from render.scene.model import GroupSetting, Setup
@@ -221,3 +224,103 @@ def test_class_limits_come_from_the_class_check(pictures):
     # Mesopic criteria compare adjusted values with the class: no line on the photopic bars.
     mesopic = replace(s, class_check=check_class(cls, ClassFigures(mean_illuminance_lx=10.0), s_p_ratio=1.5))
     assert "carriageway_mean_lx" not in class_limits(mesopic)
+
+
+# --- the night light's picture ------------------------------------------------------------------
+# Sources: a uniform sky of luminance L over an unobstructed horizontal plane gives E = π·L
+# (analytic: ∫ L cos θ dω over the hemisphere); the numbers drawn must be those the calculation
+# holds (render.calc.night.NightGrid), and the luminaires' pictures must not change with it
+# (common practice, no source).
+
+_SKY_CD_M2 = 0.004
+
+
+def _night_scene(tmp_path: Path, sky_cd_m2: float | None) -> Path:
+    """The minimal street without columns or kerbs, with 2 m footways, and a uniform sky of
+    ``sky_cd_m2`` (None: no [night] table)."""
+    text = (SCENES / "minimal_street.toml").read_text(encoding="utf-8").replace("lamp = ", "column = false\nlamp = ")
+    text = text.replace("length_m = 40.0\n", "length_m = 40.0\nkerb_height_m = 0.0\n")
+    text = text.replace(
+        "carriageway_width_m = 6.0\n",
+        "carriageway_width_m = 6.0\n\n[street.left]\nfootway_width_m = 2.0\n\n[street.right]\nfootway_width_m = 2.0\n",
+    )
+    if sky_cd_m2 is not None:
+        text += f"\n[night]\nsky_luminance_cd_m2 = {sky_cd_m2}\n"
+    path = tmp_path / f"night_{sky_cd_m2}.toml"
+    path.write_text(text, encoding="utf-8")
+    return path
+
+
+@pytest.fixture(scope="module")
+def night_pictures(tmp_path_factory):
+    tmp = tmp_path_factory.mktemp("night")
+    out = {}
+    for sky in (None, _SKY_CD_M2):
+        study = Study(_night_scene(tmp, sky))
+        setups = [None, Setup("dim", "", {"*": GroupSetting(dimming=0.5)})]
+        report = run_calculation(study, setups)
+        plans = {s.setup: compute_plan(study, u) for s, u in zip(report.setups, setups, strict=True)}
+        out[sky] = report, plans, write_calc_pictures(report, plans, tmp / f"pics-{sky}")
+    return out
+
+
+def test_night_picture_is_drawn_only_with_night_light(night_pictures):
+    from PIL import Image
+
+    from render.calc.night import NIGHT_LABEL
+
+    _, _, plain = night_pictures[None]
+    report, _, lit = night_pictures[_SKY_CD_M2]
+    assert [p.name for p in plain] == [*CALC_PICTURES, UPWARD_PICTURE]
+    assert [p.name for p in lit] == [*CALC_PICTURES, UPWARD_PICTURE, NIGHT_PICTURE]
+    width, _ = _png_size(lit[-1].read_bytes())
+    assert width == round(WIDTH_IN * DPI)
+    text = Image.open(lit[-1]).text
+    assert text["lampcast.mode"] == "calculation night light"
+    assert NIGHT_LABEL in text["lampcast.night_light"] and "0.004 cd/m²" in text["lampcast.night_light"]
+    alts = calc_picture_alt_texts(report)
+    assert len(alts) == len(lit) and "not part of the class check" in alts[-1]
+    # The luminaires' pictures are the same pixels with and without night light (their
+    # metadata only points to the night light's picture).
+    for a, b in zip(plain, lit, strict=False):
+        assert np.array_equal(np.asarray(Image.open(a)), np.asarray(Image.open(b))), a.name
+        assert NIGHT_PICTURE in Image.open(b).text["lampcast.night_light"]
+
+
+def test_night_picture_draws_the_calculation_s_night_grids(night_pictures):
+    from matplotlib.collections import QuadMesh
+
+    report, plans, _ = night_pictures[_SKY_CD_M2]
+    fig, _ = night_light_figure(report, plans)
+    fields_ax, faces_ax = fig.axes[:2]
+    s = report.setups[0]
+    drawn = [np.asarray(m.get_array()) for m in fields_ax.collections if isinstance(m, QuadMesh)]
+    expected = [f.night.illuminance_lx for f in s.fields]
+    assert len(drawn) == len(expected) == 4
+    for d, e in zip(drawn, expected, strict=True):
+        np.testing.assert_array_equal(d.ravel(), e.T.ravel())
+        # Open ground under a uniform sky: E = π·L at every point (analytic).
+        np.testing.assert_allclose(d, math.pi * _SKY_CD_M2, rtol=1e-9)
+    faces = [np.asarray(m.get_array()) for m in faces_ax.collections if isinstance(m, QuadMesh)]
+    grids = [g for face in s.faces for g in (face.night_semicylindrical, face.night_vertical)]
+    assert len(faces) == len(grids) == 8
+    for d, g in zip(faces, grids, strict=True):
+        np.testing.assert_array_equal(d.ravel(), g.illuminance_lx.T.ravel())
+    labels = [t.get_text() for t in faces_ax.get_yticklabels()]
+    assert labels[0] == "footway right, E_sc facing +x" and labels[1] == "footway right, E_v facing +x"
+    # The cells' written values and the colour bar's unit.
+    written = {t.get_text() for t in fields_ax.texts}
+    assert written == {f"{math.pi * _SKY_CD_M2:.3g}"}
+    assert "(lx)" in fig.axes[-1].get_ylabel()
+    # One panel pair for both setups: the night light does not depend on the luminaires.
+    assert len(fig.axes) == 3 and "the scene as given, dim" in fields_ax.get_title(loc="left")
+
+
+def test_night_picture_is_a_pure_function_of_its_inputs(night_pictures, tmp_path):
+    # Drawn on two threads at once, the same bytes as drawn alone (no shared pyplot state).
+    from concurrent.futures import ThreadPoolExecutor
+
+    report, plans, lit = night_pictures[_SKY_CD_M2]
+    with ThreadPoolExecutor(2) as pool:
+        paths = list(pool.map(lambda k: night_light_map(report, plans, tmp_path / f"n{k}.png"), range(2)))
+    assert paths[0].read_bytes() == paths[1].read_bytes() == lit[-1].read_bytes()

@@ -29,10 +29,22 @@ with one panel per setup so the setups compare at a glance:
   Direct light of luminous openings is not in it; with ``--bounces N`` it includes the
   interreflected light, and its title and metadata say so.
 
+* ``night-light.png`` (when the scene has ``[night]`` light and the calculation took it,
+  :mod:`render.calc.night`) -- the **night light alone** (sky glow, moonlight, lit windows) on
+  the calculation points, kept apart from the luminaires' pictures: the fields' horizontal
+  illuminance laid out as in the grid heat map, and the footways' semicylindrical and vertical
+  illuminance at the face height facing each way along the field, values in lx written in the
+  cells, on a colour scale and colour map of its own (magma, not the luminaires' viridis); one
+  panel pair for all setups (the night light does not depend on the luminaires), titled and
+  captioned as not the luminaires' light and not part of the class check, with the levels it
+  is stated at. The numbers are the :class:`~render.calc.night.NightGrid` illuminances the text,
+  CSV and JSON give.
+
 The other pictures are direct light; when the calculation also took interreflected light
 (``lampcast calc --bounces N``) each says so in its title and metadata
 (:func:`interreflection_note`). With the scene's night light they stay the luminaires' light
 too, and their metadata says where the night light's figures are (:func:`night_note`).
+Without night light no picture changes.
 
 The figures and fields are read through the report's public records only, so figures added to
 the headline later appear without changes here. Colour maps are perceptually uniform and keep
@@ -42,7 +54,8 @@ at a fixed resolution, without timestamps: the same report gives the same bytes.
 
 References
 ----------
-* N. Smith and S. van der Walt (2015), "A better default colormap for Matplotlib" (viridis).
+* N. Smith and S. van der Walt (2015), "A better default colormap for Matplotlib" (viridis; magma
+  from the same work).
 * The 1-2-5 series of contour levels: common practice for isolux plots (no source).
 """
 
@@ -60,11 +73,15 @@ from render.output.images import write_figure_png
 from render.output.report.numbers import format_value
 
 if TYPE_CHECKING:
+    from matplotlib.figure import Figure
+
+    from render.calc.night import NightGrid
     from render.calc.plan import PlanField, PlanResult
     from render.calc.run import CalculationReport, SetupCalculation
 
 __all__ = [
     "CALC_PICTURES",
+    "NIGHT_PICTURE",
     "UPWARD_PICTURE",
     "CLASS_LIMIT_FIGURES",
     "bar_chart",
@@ -72,6 +89,8 @@ __all__ = [
     "class_limits",
     "grid_heatmap",
     "interreflection_note",
+    "night_light_figure",
+    "night_light_map",
     "night_note",
     "isolux_plan",
     "lux_levels",
@@ -85,6 +104,8 @@ __all__ = [
 CALC_PICTURES = ("isolux.png", "grid-illuminance.png", "figures.png")
 #: The upward exitance map's picture.
 UPWARD_PICTURE = "upward-exitance.png"
+#: The night light's picture (when the calculation has the scene's ``[night]`` light).
+NIGHT_PICTURE = "night-light.png"
 
 #: Headline figure key a class criterion limits, per criterion key (the M series' U0 is the
 #: road luminance's, the others' the carriageway illuminance's); criteria not listed get no line.
@@ -105,6 +126,9 @@ DPI = 90.0
 WIDTH_IN = 9.0
 #: Colour map of illuminance (perceptually uniform, ordered in greyscale).
 CMAP = "viridis"
+#: Colour map of the night light's illuminance: perceptually uniform and ordered in greyscale
+#: too, and unlike the luminaires' so that the two are not read on one scale.
+NIGHT_CMAP = "magma"
 #: Shades of the street in the plans: carriageway, footways (light greys, so lines read on them).
 CARRIAGEWAY_GREY = "#e4e4e4"
 FOOTWAY_GREY = "#f3f3f3"
@@ -164,11 +188,15 @@ def _png_text(report: CalculationReport, what: str, text: Mapping[str, str] | No
 
 
 def night_note(report: CalculationReport) -> str:
-    """What the pictures show when the scene has night light: the luminaires' light only; the
-    night light's figures on the calculation points are in the text, CSV and JSON."""
+    """What the luminaires' pictures show when the scene has night light: the luminaires' light
+    only; the night light's figures on the calculation points are in the text, CSV and JSON and
+    in its own picture (:data:`NIGHT_PICTURE`)."""
     from render.calc.night import NIGHT_LABEL
 
-    return f"The luminaires' light only. The night light on the calculation points is in the text, CSV and JSON: {NIGHT_LABEL}."
+    return (
+        "The luminaires' light only. The night light on the calculation points is in the text, CSV and JSON "
+        f"and in {NIGHT_PICTURE}: {NIGHT_LABEL}."
+    )
 
 
 def interreflection_note(report: CalculationReport) -> str:
@@ -305,6 +333,30 @@ def _rows_across(fields: Sequence[PlanField]) -> tuple[dict[str, np.ndarray], np
     return edges, np.array(metres), np.array(drawn)
 
 
+def _cells(ax, pf: PlanField, ye: np.ndarray, values: np.ndarray, cmap, norm, x_scale: float):
+    """Draw one field's grid ``values`` (along, across) as cells at the field's places along
+    the street (``pf``) between the row edges ``ye``, each annotated with its value when the
+    cells are wide enough; returns the drawn mesh (for a colour bar)."""
+    d_along = pf.spacing_m[0]
+    xe = np.concatenate([pf.x_m - 0.5 * d_along, [pf.x_m[-1] + 0.5 * d_along]])
+    grid = np.asarray(values, np.float64)  # (along, across)
+    mesh = ax.pcolormesh(xe, ye, grid.T, cmap=cmap, norm=norm, edgecolors="white", linewidth=0.3)
+    if d_along * x_scale >= _CELL_TEXT_IN:
+        for i, x in enumerate(pf.x_m):
+            for j in range(grid.shape[1]):
+                v = float(grid[i, j])
+                ax.text(
+                    x,
+                    ye[j] + 0.5,
+                    format_value(v, "sig3"),
+                    ha="center",
+                    va="center",
+                    fontsize=5.5,
+                    color="black" if norm(v) > 0.55 else "white",
+                ).set_in_layout(False)
+    return mesh
+
+
 def grid_heatmap(
     report: CalculationReport,
     plans: Mapping[str | None, PlanResult],
@@ -343,24 +395,8 @@ def grid_heatmap(
             if f.name not in where:
                 continue
             pf = where[f.name]
-            d_along = pf.spacing_m[0]
-            xe = np.concatenate([pf.x_m - 0.5 * d_along, [pf.x_m[-1] + 0.5 * d_along]])
             ye = rows[f.name]
-            grid = np.asarray(f.illuminance_lx, np.float64)  # (along, across)
-            mesh = ax.pcolormesh(xe, ye, grid.T, cmap=cmap, norm=norm, edgecolors="white", linewidth=0.3)
-            if d_along * x_scale >= _CELL_TEXT_IN:
-                for i, x in enumerate(pf.x_m):
-                    for j in range(grid.shape[1]):
-                        v = float(grid[i, j])
-                        ax.text(
-                            x,
-                            ye[j] + 0.5,
-                            format_value(v, "sig3"),
-                            ha="center",
-                            va="center",
-                            fontsize=5.5,
-                            color="black" if norm(v) > 0.55 else "white",
-                        ).set_in_layout(False)
+            mesh = _cells(ax, pf, ye, f.illuminance_lx, cmap, norm, x_scale)
         if len(near):
             ax.plot(
                 near[:, 0],
@@ -544,9 +580,179 @@ def upward_exitance_map(
     )
 
 
+def _has_night(report: CalculationReport) -> bool:
+    return bool(report.setups) and any(f.night is not None for s in report.setups for f in s.fields)
+
+
+def _night_face_rows(s: SetupCalculation) -> list[tuple[str, str, NightGrid]]:
+    """The night light's face grids of one setup: (row label, footway field, grid), per face
+    grid its semicylindrical and then its vertical grid."""
+    out = []
+    for face in s.faces:
+        if face.night_semicylindrical is None or face.night_vertical is None:
+            continue
+        way = "+x" if face.facing[0] >= 0 else "−x"
+        out.append((f"{face.name}, E_sc facing {way}", face.name, face.night_semicylindrical))
+        out.append((f"{face.name}, E_v facing {way}", face.name, face.night_vertical))
+    return out
+
+
+def _night_grids(s: SetupCalculation) -> list[tuple[str, NightGrid]]:
+    """Every night light grid of one setup, (label, grid): the fields', then the faces'."""
+    return [(f.name, f.night) for f in s.fields if f.night is not None] + [
+        (label, g) for label, _, g in _night_face_rows(s)
+    ]
+
+
+def _night_groups(report: CalculationReport) -> list[tuple[list[str | None], SetupCalculation]]:
+    """The setups with night light, those with equal night grids together (traced once per run
+    it is the same for every setup: one group)."""
+    groups: list[tuple[list[str | None], SetupCalculation]] = []
+    for s in report.setups:
+        mine = _night_grids(s)
+        if not mine:
+            continue
+        for names, first in groups:
+            theirs = _night_grids(first)
+            if [k for k, _ in theirs] == [k for k, _ in mine] and all(
+                np.array_equal(a.illuminance_lx, b.illuminance_lx) for (_, a), (_, b) in zip(theirs, mine)
+            ):
+                names.append(s.setup)
+                break
+        else:
+            groups.append(([s.setup], s))
+    return groups
+
+
+def night_light_map(
+    report: CalculationReport,
+    plans: Mapping[str | None, PlanResult],
+    path: str | os.PathLike,
+    *,
+    labels: Mapping[str | None, str] | None = None,
+    text: Mapping[str, str] | None = None,
+) -> Path:
+    """The night light's map of ``report`` (:func:`night_light_figure`) to ``path``."""
+    fig, meta = night_light_figure(report, plans, labels=labels)
+    return write_figure_png(fig, path, _png_text(report, "night light", {**meta, **(text or {})}))
+
+
+def night_light_figure(
+    report: CalculationReport,
+    plans: Mapping[str | None, PlanResult],
+    *,
+    labels: Mapping[str | None, str] | None = None,
+) -> tuple[Figure, dict[str, str]]:
+    """The night light's illuminance on the calculation points (:attr:`FieldResult.night
+    <render.calc.fields.FieldResult.night>`, :attr:`FaceResult.night_semicylindrical
+    <render.calc.fields.FaceResult.night_semicylindrical>` and ``night_vertical``, their
+    :attr:`~render.calc.night.NightGrid.illuminance_lx`) to ``path``: per group of setups with
+    the same night light (one: it does not depend on the luminaires) a panel of the fields'
+    horizontal illuminance laid out as in :func:`grid_heatmap`, and one of the footways'
+    semicylindrical and vertical illuminance at the face height facing each way, on one colour
+    scale of its own (:data:`NIGHT_CMAP`, 0 to the largest value), labelled as not the
+    luminaires' light and not part of the class check. Returns the figure (not drawn on any
+    shared state) and the PNG text saying what it holds."""
+    from matplotlib.colors import Normalize
+
+    from render.calc.fields import INTERREFLECTED_LABEL
+    from render.calc.night import NIGHT_LABEL
+    from render.light.indirect.night import describe_night
+
+    groups = _night_groups(report)
+    if not groups:
+        raise ValueError("the calculation has no night light")
+    layout = next((p for p in plans.values() if p.fields), None)
+    if layout is None:
+        raise ValueError("no plan holds the calculation fields' layout")
+    where = {f.name: f for f in layout.fields}
+    rows, _, drawn = _rows_across(layout.fields)
+    vmax = max(float(g.illuminance_lx.max()) for _, s in groups for _, g in _night_grids(s))
+    norm = Normalize(0.0, vmax if vmax > 0 else 1.0)
+    cmap = _night_cmap()
+    x0 = min(f.extent_m[0] for f in layout.fields)
+    x1 = max(f.extent_m[1] for f in layout.fields)
+    x_scale = (WIDTH_IN - 2.2) / (x1 - x0)
+    top = float(drawn[-1])
+    face_rows = _night_face_rows(groups[0][1])
+    face_top = sum(g.illuminance_lx.shape[1] + 0.5 for *_, g in face_rows) - 0.5 if face_rows else 0.0
+    heights = [min(3.2, max(1.0, 0.17 * top + 0.2))]
+    if face_rows:
+        heights.append(min(4.5, max(1.0, 0.17 * face_top + 0.2)))
+    fig = _figure(WIDTH_IN, len(groups) * (sum(heights) + 0.4 * len(heights)) + 1.0)
+    axes = fig.subplots(len(groups) * len(heights), 1, squeeze=False, height_ratios=heights * len(groups))[:, 0]
+    mesh = None
+    night = report.options.night
+    bounces = report.options.bounces
+    for g_index, (names, s) in enumerate(groups):
+        ax = axes[g_index * len(heights)]
+        who = ", ".join(setup_label(n, labels) for n in names)
+        for f in s.fields:
+            if f.night is None or f.name not in where:
+                continue
+            mesh = _cells(ax, where[f.name], rows[f.name], f.night.illuminance_lx, cmap, norm, x_scale)
+        ax.set_xlim(x0, x1)
+        ax.set_ylim(-0.25, top + 0.25)
+        ax.set_yticks([float(rows[f.name].mean()) for f in layout.fields], [f.name for f in layout.fields])
+        ax.tick_params(axis="y", length=0)
+        ax.tick_params(labelsize=7)
+        ax.set_title(
+            f"Night light, horizontal illuminance on the fields ({who}): not the luminaires' light, "
+            "not in the class check",
+            fontsize=9,
+            loc="left",
+        )
+        if len(heights) < 2:
+            continue
+        ax = axes[g_index * len(heights) + 1]
+        at = 0.0
+        ticks, names_y = [], []
+        for label, field, grid in _night_face_rows(s):
+            n = grid.illuminance_lx.shape[1]
+            edges = at + np.arange(n + 1, dtype=np.float64)
+            mesh = _cells(ax, where[field], edges, grid.illuminance_lx, cmap, norm, x_scale)
+            ticks.append(float(edges.mean()))
+            names_y.append(label)
+            at += n + 0.5
+        ax.set_xlim(x0, x1)
+        ax.set_ylim(-0.25, face_top + 0.25)
+        ax.set_yticks(ticks, names_y)
+        ax.tick_params(axis="y", length=0)
+        ax.tick_params(labelsize=7)
+        height = next((face.height_m for face in s.faces), 0.0)
+        ax.set_title(
+            f"Night light at {format_value(height, 'sig3')} m above the footways: semicylindrical (E_sc) and "
+            "vertical (E_v) illuminance",
+            fontsize=9,
+            loc="left",
+        )
+    axes[-1].set_xlabel(
+        "x along the street (m); facing +x / −x along the field's frame; rows across not to scale", fontsize=8
+    )
+    if mesh is not None:
+        bar = fig.colorbar(mesh, ax=list(axes), shrink=0.9, pad=0.01)
+        bar.set_label("night light illuminance (lx)", fontsize=8)
+        bar.ax.tick_params(labelsize=7)
+    which = f"with up to {bounces} interreflections" if bounces > 0 else "its direct part only"
+    stated = describe_night(night) if night is not None else "night light"
+    note = f"{stated}; traced {which}. {NIGHT_LABEL}."
+    fig.suptitle(note, fontsize=7, wrap=True)
+    meta = {"lampcast.night_light": note}
+    if bounces > 0:
+        meta["lampcast.light"] = f"Night light with up to {bounces} interreflections: {INTERREFLECTED_LABEL}."
+    return fig, meta
+
+
+def _night_cmap():
+    from matplotlib import colormaps
+
+    return colormaps[NIGHT_CMAP]
+
+
 def calc_picture_alt_texts(report: CalculationReport, labels: Mapping[str | None, str] | None = None) -> list[str]:
     """What each picture of :data:`CALC_PICTURES` (and :data:`UPWARD_PICTURE` when the
-    calculation has the map) shows, in words (the report's alt texts)."""
+    calculation has the map, :data:`NIGHT_PICTURE` when it has night light) shows, in words
+    (the report's alt texts)."""
     names = ", ".join(setup_label(s.setup, labels) for s in report.setups)
     out = [
         f"Isolux plan of the street, one panel per lighting ({names}): lines of equal horizontal illuminance "
@@ -560,6 +766,12 @@ def calc_picture_alt_texts(report: CalculationReport, labels: Mapping[str | None
             f"Map of the light the street reflects upward, seen from above, one panel per lighting ({names}): "
             "upward exitance in lumens per square metre on one colour scale, with each lighting's total"
         )
+    if _has_night(report):
+        out.append(
+            "Heat map of the night light alone (sky glow, moonlight, lit windows) on the calculation points, "
+            "in lux on a colour scale of its own: horizontal illuminance on the fields and the footways' "
+            "semicylindrical and vertical illuminance; not the luminaires' light and not part of the class check"
+        )
     return out
 
 
@@ -572,8 +784,9 @@ def write_calc_pictures(
     text: Mapping[str, str] | None = None,
 ) -> list[Path]:
     """Write the isolux plan, the grid heat map and the headline bar chart of ``report``
-    (:data:`CALC_PICTURES`), and the upward exitance map (:data:`UPWARD_PICTURE`) when the
-    report has it, into ``out_dir``; ``plans`` maps each setup of the report (its
+    (:data:`CALC_PICTURES`), the upward exitance map (:data:`UPWARD_PICTURE`) when the
+    report has it and the night light's map (:data:`NIGHT_PICTURE`) when it has night light,
+    into ``out_dir``; ``plans`` maps each setup of the report (its
     :attr:`~render.calc.run.SetupCalculation.setup`) to its plan
     (:func:`render.calc.plan.compute_plan`). ``labels`` names the setups in the pictures
     (default: their names); ``text`` is added to each PNG's metadata. Returns the paths."""
@@ -590,4 +803,6 @@ def write_calc_pictures(
     ]
     if _has_upward_maps(report):
         paths.append(upward_exitance_map(report, out / UPWARD_PICTURE, labels=labels, text=text))
+    if _has_night(report):
+        paths.append(night_light_map(report, plans, out / NIGHT_PICTURE, labels=labels, text=text))
     return paths
