@@ -61,6 +61,8 @@ from __future__ import annotations
 
 import math
 import sys
+import threading
+from collections.abc import Callable
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
@@ -78,7 +80,7 @@ from render.rays.bvh.layout import STACK_SIZE, WIDE
 from render.rays.bvh.packet import LANE_FIELDS, PACKET, PACKET_COS_ANY, lane_result, packet_load, packet_trace
 from render.rays.bvh.single import any_one
 from render.rays.bvh.slab import valid_ray
-from render.threads import run_split
+from render.threads import kernel_threads, run_split
 
 if TYPE_CHECKING:
     from render.light.indirect import IndirectBuffers
@@ -1113,9 +1115,9 @@ class LightBuffers:
         if self.geometry is None:
             if self.rays is None:
                 raise ValueError("these light buffers keep neither the samples' geometry nor how to cast it")
-            self.geometry = _empty_geometry(self.n_samples)
-            for tile in _cast_tiles(self.rays, self.spp):
-                _keep_geometry(self.geometry, tile)
+            geometry = _empty_geometry(self.n_samples)
+            _for_each_tile(self.rays, self.spp, lambda tile: _keep_geometry(geometry, tile))
+            self.geometry = geometry
         return self.geometry
 
     @property
@@ -1193,31 +1195,40 @@ def _view_rays(mesh: TriangleMesh, bvh: BVH, lights: LuminaireSet, camera: Camer
     return ViewRays(mesh, bvh, camera, int(seed), em_bvh)
 
 
-def _tile_rows(width_px: int, spp: int) -> int:
-    """Pixel rows per tile: about :data:`TILE_SAMPLES` samples, a multiple of 4 rows (the
-    4 × 4 pixel blocks of the ray order)."""
-    rows = max(1, TILE_SAMPLES // max(1, width_px * spp))
+def _tile_rows(width_px: int, spp: int, threads: int = 1) -> int:
+    """Pixel rows per tile: about :data:`TILE_SAMPLES` / ``threads`` samples, a multiple of 4
+    rows (the 4 × 4 pixel blocks of the ray order)."""
+    rows = max(1, TILE_SAMPLES // max(1, width_px * spp * max(1, threads)))
     return max(4, rows - rows % 4)
 
 
-def _cast_tiles(rays: ViewRays, spp: int, *, progress: bool = False, label: str = "camera rays"):
-    """Cast the view's camera samples tile by tile; yields a :class:`_Tile` per tile."""
-    from render.rays.cameras import camera_rays, tile_pixels
+class _TilePlan:
+    """What casting a view's camera samples needs, made once per pass over its tiles: the
+    mesh's arrays as the shading kernel takes them and the first pixel row of each tile."""
 
-    camera, mesh = rays.camera, rays.mesh
-    W, H = camera.width_px, camera.height_px
-    step = _tile_rows(W, spp)
-    k = np.arange(spp, dtype=np.int64)
-    triangles = np.ascontiguousarray(mesh.triangles_m, np.float64).reshape(-1, 3, 3)
-    vertex_normals = np.ascontiguousarray(mesh.normals, np.float64).reshape(-1, 3, 3)
-    material_id = np.ascontiguousarray(mesh.material_id, np.int32)
-    object_id = np.ascontiguousarray(mesh.object_id, np.int32)
-    n_mat = len(mesh.material_names)
-    rows = progress_bar(range(0, H, step), label, quiet=not progress, unit="tile")
-    for y0 in rows:
-        y1 = min(H, y0 + step)
+    def __init__(self, rays: ViewRays, spp: int, rows: int) -> None:
+        mesh = rays.mesh
+        self.rays = rays
+        self.spp = int(spp)
+        self.rows = int(rows)
+        self.starts = range(0, rays.camera.height_px, self.rows)
+        self.k = np.arange(spp, dtype=np.int64)
+        self.triangles = np.ascontiguousarray(mesh.triangles_m, np.float64).reshape(-1, 3, 3)
+        self.vertex_normals = np.ascontiguousarray(mesh.normals, np.float64).reshape(-1, 3, 3)
+        self.material_id = np.ascontiguousarray(mesh.material_id, np.int32)
+        self.object_id = np.ascontiguousarray(mesh.object_id, np.int32)
+        self.n_mat = len(mesh.material_names)
+
+    def cast(self, y0: int) -> _Tile:
+        """The tile of pixel rows ``y0`` to ``y0 + rows``: camera rays, closest hits against the
+        scene and the luminous openings, and what each hit sees."""
+        from render.rays.cameras import camera_rays, tile_pixels
+
+        rays, spp = self.rays, self.spp
+        camera = rays.camera
+        y1 = min(camera.height_px, y0 + self.rows)
         # 4 x 4 pixel blocks keep consecutive rays coherent for the packet traversal.
-        pixels = tile_pixels(camera, 0, y0, W, y1, block_px=4)
+        pixels = tile_pixels(camera, 0, y0, camera.width_px, y1, block_px=4)
         o, d, _ = camera_rays(camera, spp, rays.seed, pixels)
         hits = intersect_closest(rays.bvh, o, d)
         if rays.emitter_bvh is not None:
@@ -1226,7 +1237,7 @@ def _cast_tiles(rays: ViewRays, spp: int, *, progress: bool = False, label: str 
             em = np.full(o.shape[0], -1, np.int32)
         n = o.shape[0]
         tile = _Tile(
-            (pixels[:, None] * spp + k[None, :]).reshape(-1),
+            (pixels[:, None] * spp + self.k[None, :]).reshape(-1),
             np.empty((n, 3), np.float32),
             np.empty((n, 3), np.float32),
             np.empty((n, 3), np.float32),
@@ -1242,12 +1253,12 @@ def _cast_tiles(rays: ViewRays, spp: int, *, progress: bool = False, label: str 
             hits.triangle,
             hits.u,
             hits.v,
-            triangles,
-            vertex_normals,
-            material_id,
-            object_id,
+            self.triangles,
+            self.vertex_normals,
+            self.material_id,
+            self.object_id,
             em,
-            n_mat,
+            self.n_mat,
             tile.point,
             tile.normal,
             tile.geo,
@@ -1256,7 +1267,55 @@ def _cast_tiles(rays: ViewRays, spp: int, *, progress: bool = False, label: str 
             tile.object_id,
             tile.emitter,
         )
-        yield tile
+        return tile
+
+
+def _cast_tiles(rays: ViewRays, spp: int, *, progress: bool = False, label: str = "camera rays"):
+    """Cast the view's camera samples tile by tile; yields a :class:`_Tile` per tile."""
+    plan = _TilePlan(rays, spp, _tile_rows(rays.camera.width_px, spp))
+    for y0 in progress_bar(plan.starts, label, quiet=not progress, unit="tile"):
+        yield plan.cast(y0)
+
+
+def _for_each_tile(
+    rays: ViewRays, spp: int, work: Callable[[_Tile], None], *, progress: bool = False, label: str = "camera rays"
+) -> None:
+    """``work(tile)`` for every tile of the view's camera samples, cast as :func:`_cast_tiles`
+    casts them, the tiles shared among :func:`render.threads.kernel_threads` threads: each
+    thread takes the next tile not yet taken and runs everything of it (camera rays, hits,
+    shading, ``work``) with its kernels on that thread alone, so no thread waits for another
+    between kernels. With n threads the tiles are 1/n of :data:`TILE_SAMPLES`, so as many
+    samples are in flight as before. ``work`` must write only the tile's own samples; as every
+    sample's value is computed alike whichever thread and tile take it, the results are the
+    same whatever the number of threads."""
+    threads = kernel_threads()
+    rows = _tile_rows(rays.camera.width_px, spp, threads)
+    plan = _TilePlan(rays, spp, rows)
+    if threads == 1 or len(plan.starts) == 1:
+        for y0 in progress_bar(plan.starts, label, quiet=not progress, unit="tile"):
+            work(plan.cast(y0))
+        return
+    starts = iter(progress_bar(plan.starts, label, quiet=not progress, unit="tile"))
+    lock = threading.Lock()
+    failed = threading.Event()
+
+    def one_thread(first: int, stride: int) -> None:
+        before = numba.get_num_threads()
+        numba.set_num_threads(1)  # this thread's own setting: its kernels run on it alone
+        try:
+            while not failed.is_set():
+                with lock:
+                    y0 = next(starts, None)
+                if y0 is None:
+                    return
+                work(plan.cast(y0))
+        except BaseException:
+            failed.set()
+            raise
+        finally:
+            numba.set_num_threads(before)
+
+    run_split(one_thread, threads)
 
 
 def _material_gloss(mesh: TriangleMesh) -> np.ndarray:
@@ -1318,6 +1377,20 @@ class _LightPass:
             for g in (buffers.road.groups if buffers.road is not None else ())
         ]
         self.area = lights.opening_m[:, 0] * lights.opening_m[:, 1]
+        self._ready = False
+        self._ready_lock = threading.Lock()
+
+    def _wait_for_kernel(self) -> None:
+        """On a first run the light kernel may be compiling in a helper process: wait for it
+        once (the tiles' other threads wait here for the first)."""
+        if self._ready:
+            return
+        with self._ready_lock:
+            if not self._ready:
+                warmup = sys.modules.get("render.warmup")
+                if warmup is not None:
+                    warmup.wait_for_light_kernel()
+                self._ready = True
 
     def _passes(self, object_id, surf):
         """The light kernel's passes over a tile: (active samples, object ids, r-table arrays,
@@ -1346,9 +1419,7 @@ class _LightPass:
         surf = (response >= 0) & (response != emitter_response)
         if self.grid is not None and np.any(surf):
             view_dirs = direction.astype(np.float64)
-            warmup = sys.modules.get("render.warmup")
-            if warmup is not None:  # a first run: the light kernel may be compiling in a helper
-                warmup.wait_for_light_kernel()
+            self._wait_for_kernel()
             for active, obj, road, road_object, road_scale, road_factor in self._passes(object_id, surf):
                 out_value, out_spec = (value, spec) if active is surf else (np.zeros_like(value), np.zeros_like(spec))
                 _run_direct_light(
@@ -1462,7 +1533,8 @@ def render_buffers(
     if keep_geometry:
         buffers.geometry = _empty_geometry(buffers.n_samples)
     light = _LightPass(buffers, lights, bvh, negligible_lx)
-    for tile in _cast_tiles(rays, spp, progress=progress):
+
+    def work(tile: _Tile) -> None:
         i = tile.index
         buffers.response[i] = tile.response
         buffers.object_id[i] = tile.object_id
@@ -1481,6 +1553,8 @@ def render_buffers(
         _put_rows(buffers.spec_cd_m2, i, spec)
         if keep_geometry:
             _keep_geometry(buffers.geometry, tile)
+
+    _for_each_tile(rays, spp, work, progress=progress)
     return buffers
 
 
@@ -1505,11 +1579,14 @@ def cast_view(
     rays = _view_rays(mesh, bvh, lights, camera, seed)
     buffers = _new_buffers(mesh, lights, rays, spp, road)
     buffers.geometry = _empty_geometry(buffers.n_samples)
-    for tile in _cast_tiles(rays, spp, progress=progress):
+
+    def work(tile: _Tile) -> None:
         buffers.response[tile.index] = tile.response
         buffers.object_id[tile.index] = tile.object_id
         buffers.emitter[tile.index] = tile.emitter
         _keep_geometry(buffers.geometry, tile)
+
+    _for_each_tile(rays, spp, work, progress=progress)
     return buffers
 
 
@@ -1548,7 +1625,8 @@ def evaluate_light(
                 buffers.emitter_response,
             )
     elif buffers.rays is not None:
-        for tile in _cast_tiles(buffers.rays, buffers.spp, progress=progress, label="direct light"):
+
+        def work(tile: _Tile) -> None:
             i = tile.index
             # The kept ids, not the new cast's: the openings are those of the first cast.
             tile_value, tile_spec = light.evaluate(
@@ -1556,6 +1634,8 @@ def evaluate_light(
             )
             _put_rows(value, i, tile_value)
             _put_rows(spec, i, tile_spec)
+
+        _for_each_tile(buffers.rays, buffers.spp, work, progress=progress, label="direct light")
     else:
         raise ValueError("these light buffers keep neither the samples' geometry nor how to cast them")
     buffers.value_cd_m2 = value
