@@ -10,6 +10,7 @@ warning is a :class:`~render.errors.Problem` naming the file and the key path, l
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -40,6 +41,7 @@ __all__ = [
     "PREVIEW_WIDTH_PX",
     "SOLID_PROBE_M",
     "STREET_MARGIN_M",
+    "SURELY_LIT_LX",
 ]
 
 #: A horizontal field of view below this, degrees, is probably radians typed as degrees
@@ -225,18 +227,28 @@ def setup_lumens_for_every_group(scene: Scene) -> list[Problem]:
     return out
 
 
-def cameras_inside_solids(scene: Scene, triangles_m: np.ndarray, bvh) -> list[Problem]:
+def cameras_inside_solids(scene: Scene, triangles_m: np.ndarray, bvh=None, soup=None) -> list[Problem]:
     """Views whose camera stands inside a solid: of seven probe rays from the camera (the six
     axis directions and the view direction) more than half meet a back face within
-    :data:`SOLID_PROBE_M` (:func:`render.rays.sanity.back_face_fraction`). ``triangles_m`` and
-    ``bvh``: the compiled scene and its BVH."""
-    from render.rays.sanity import AXIS_DIRECTIONS, back_face_fraction
+    :data:`SOLID_PROBE_M` (:func:`render.rays.sanity.back_face_fraction`). ``triangles_m``: the
+    compiled scene. The rays are first tested against every triangle with numpy
+    (:func:`render.rays.sanity.robust_back_face_count`); only a view whose count those cannot
+    settle asks the BVH, ``bvh`` (built when first needed if a callable or None)."""
+    from render.rays.sanity import AXIS_DIRECTIONS, Soup, back_face_fraction, robust_back_face_count
 
+    soup = soup if soup is not None else Soup.of(triangles_m)
     out = []
     for i, view in enumerate(scene.views):
         look = np.subtract(view.target_m, view.position_m)
         directions = np.vstack([AXIS_DIRECTIONS, look])
-        fraction = back_face_fraction(bvh, triangles_m, np.asarray(view.position_m), directions, SOLID_PROBE_M)
+        sure, unsure = robust_back_face_count(soup, np.asarray(view.position_m), directions, SOLID_PROBE_M)
+        n = directions.shape[0]
+        if 2 * sure > n or 2 * (sure + unsure) <= n:
+            fraction = sure / n  # the verdict is settled; the count is exact when it warns
+            if 2 * sure > n and unsure:
+                fraction = _bvh_fraction(bvh, triangles_m, view, directions, back_face_fraction)
+        else:
+            fraction = _bvh_fraction(bvh, triangles_m, view, directions, back_face_fraction)
         if fraction > 0.5:
             out.append(
                 Problem(
@@ -249,14 +261,34 @@ def cameras_inside_solids(scene: Scene, triangles_m: np.ndarray, bvh) -> list[Pr
     return out
 
 
-def dark_views(scene: Scene, study) -> list[Problem]:
+def _bvh_fraction(bvh, triangles_m, view, directions, back_face_fraction) -> float:
+    if bvh is None or callable(bvh):
+        bvh = bvh() if callable(bvh) else _build_bvh(triangles_m)
+    return back_face_fraction(bvh, triangles_m, np.asarray(view.position_m), directions, SOLID_PROBE_M)
+
+
+def _build_bvh(triangles_m: np.ndarray):
+    from render.rays.bvh import build_bvh
+
+    return build_bvh(triangles_m)
+
+
+def dark_views(scene: Scene, study, mesh: TriangleMesh | None = None, soup=None) -> list[Problem]:
     """Views that see no surface lit by the scene's luminaires (their own lamps): every pixel of
     a :data:`PREVIEW_WIDTH_PX`-wide render at one sample per pixel has luminance 0. Nothing is
-    said for a scene without luminaires. ``study``: a :class:`render.study.Study` of ``scene``."""
+    said for a scene without luminaires. ``study``: a :class:`render.study.Study` of ``scene``,
+    or a callable making one. With ``mesh`` (the compiled scene) a view is first looked at
+    without the renderer (:class:`_LitProof`): when one of its preview's samples is
+    surely lit the preview is not black; only the other views are rendered."""
     if not scene.luminaires:
         return []
+    proof = _LitProof.of(scene, mesh, soup) if mesh is not None else None
     out = []
     for i, view in enumerate(scene.views):
+        if proof is not None and proof.view_lit(view):
+            continue
+        if callable(study):
+            study = study()
         preview = study.render_view(view.name, None, width_px=PREVIEW_WIDTH_PX, samples_per_pixel=1)
         if not np.any(preview.colorimetry.luminance_cd_m2 > 0.0):
             out.append(
@@ -268,6 +300,166 @@ def dark_views(scene: Scene, study) -> list[Problem]:
                 )
             )
     return out
+
+
+#: A sample counts as surely lit when a luminaire gives it at least this illuminance, lx, by a
+#: lower bound: ten times the renderer's culling bound (render.light.integrator.NEGLIGIBLE_LX,
+#: 1e-3 lx), so no luminaire it counts is culled.
+SURELY_LIT_LX = 1e-2
+#: Margins of the lower bound: cosines, angles (degrees) and the luminous response of a
+#: material under a lamp relative to a white one's (common practice, no source: far above the
+#: renderer's float32 rounding).
+_COS_MARGIN = 1e-3
+_ANGLE_MARGIN_DEG = 1e-3
+_RESPONSE_MIN = 1e-4
+#: Distance kept from a luminous opening's centre beyond its half diagonal, m (the opening's
+#: rectangle is drawn 2 mm below the centre: render.light.integrator.emitter_triangles).
+_OPENING_MARGIN_M = 0.01
+#: Preview samples looked at per batch.
+_BATCH = 96
+
+
+@dataclass
+class _LitProof:
+    """What :meth:`view_lit` needs: the scene, its triangles, its luminaires under no setup and
+    which (material, luminaire) pairs give a luminance above 0."""
+
+    scene: Scene
+    mesh: TriangleMesh
+    soup: object
+    lights: object
+    responds: np.ndarray  # (materials, luminaires) bool
+
+    @classmethod
+    def of(cls, scene: Scene, mesh: TriangleMesh, soup=None) -> _LitProof | None:
+        """None where a view must be rendered anyway: a carriageway shaded by an r-table (its
+        reading and its coefficients are the renderer's)."""
+        sections = ([scene.street] if scene.street is not None else []) + [r.section for r in scene.roads]
+        if any(getattr(s, "r_table_file", None) is not None for s in sections):
+            return None
+        from render.colour.lamps import get_lamp
+        from render.colour.materials import get_material, material_library
+        from render.colour.observers import cmfs_xyz
+        from render.light.luminaires import luminaire_set
+        from render.rays.sanity import Soup
+
+        lights = luminaire_set(scene, None)
+        lib = material_library()
+        rho = np.array([get_material(m, lib, source=str(scene.path)).reflectance for m in mesh.material_names])
+        ybar = cmfs_xyz()[:, 1]
+        spd: dict[str, np.ndarray] = {}
+        responds = np.zeros((len(mesh.material_names), lights.n_luminaires), bool)
+        for k in range(lights.n_luminaires):
+            ch = lights.channels[int(lights.channel[k])]
+            if not (ch.dimming > 0.0 and lights.scale[k] > 0.0):
+                continue
+            if ch.lamp not in spd:
+                spd[ch.lamp] = get_lamp(ch.lamp, base_dir=scene.base_dir, source=str(scene.path)).spd
+            white = float(np.sum(spd[ch.lamp] * ybar))
+            responds[:, k] = white > 0.0 and (rho * spd[ch.lamp] * ybar).sum(axis=1) >= _RESPONSE_MIN * white
+        return cls(scene, mesh, soup if soup is not None else Soup.of(mesh.triangles_m), lights, responds)
+
+    def view_lit(self, view) -> bool:
+        """Whether one sample of the view's preview is surely lit (False: not known)."""
+        from render.rays.sanity import probe_rays, sample_rays
+
+        w = PREVIEW_WIDTH_PX
+        h = max(1, round(view.height_px * w / view.width_px))
+        n = w * h
+        order = np.argsort((np.arange(n) * 0.6180339887498949) % 1.0, kind="stable")
+        far = 10.0 * (1.0 + float(np.ptp(self.soup.centre, axis=0).max()) + float(np.abs(view.position_m).max()))
+        for b0 in range(0, n, _BATCH):
+            pixels = order[b0 : b0 + _BATCH]
+            o, d = sample_rays(view.position_m, view.target_m, view.hfov_deg, w, h, self.scene.render.seed, pixels)
+            probes = probe_rays(self.soup, o, d, far)
+            ok = probes.robust & (probes.triangle >= 0)
+            if np.any(ok) and self._any_lit(
+                o[ok], d[ok], probes.triangle[ok], probes.t[ok], probes.u[ok], probes.v[ok]
+            ):
+                return True
+        return False
+
+    def _any_lit(self, o, d, tri, t, u, v) -> bool:
+        """Whether one of these camera samples (robust closest hits) is surely lit."""
+        from render.rays.sanity import segment_clear
+
+        L = self.lights
+        mesh = self.mesh
+        p = o + t[:, None] * d
+        # No luminous opening between the eye and the hit.
+        reach = 0.5 * np.hypot(L.opening_m[:, 0], L.opening_m[:, 1]) + _OPENING_MARGIN_M
+        rel = L.position_m[None, :, :] - o[:, None, :]
+        along = np.clip(np.einsum("skc,sc->sk", rel, d), 0.0, t[:, None])
+        gap = np.linalg.norm(rel - along[..., None] * d[:, None, :], axis=2)
+        clear_view = np.all(gap > reach[None, :], axis=1)
+        # Normals as the renderer's hit shading makes them, turned toward the eye.
+        tris = mesh.triangles_m[tri]
+        g = np.cross(tris[:, 1] - tris[:, 0], tris[:, 2] - tris[:, 0])
+        g /= np.linalg.norm(g, axis=1, keepdims=True)
+        g = np.where((np.einsum("sc,sc->s", g, d) > 0.0)[:, None], -g, g)
+        vn = mesh.normals[tri]
+        n = (1.0 - u - v)[:, None] * vn[:, 0] + u[:, None] * vn[:, 1] + v[:, None] * vn[:, 2]
+        length = np.linalg.norm(n, axis=1, keepdims=True)
+        n = np.divide(n, length, out=np.zeros_like(n), where=length > 0)
+        n = np.where((np.einsum("sc,sc->s", n, d) > 0.0)[:, None], -n, n)
+        facing_away = np.einsum("sc,sc->s", n, d) > -_COS_MARGIN
+        material = mesh.material_id[tri]
+        cand_s, cand_k, cand_e, cand_l, cand_len = [], [], [], [], []
+        for k in range(L.n_luminaires):
+            dv = p - L.position_m[k]
+            dist = np.linalg.norm(dv, axis=1)
+            lvec = -dv / dist[:, None]
+            cos_s = np.einsum("sc,sc->s", n, lvec)
+            cos_g = np.einsum("sc,sc->s", g, lvec)
+            e = L.scale[k] * self._intensity_lower_bound(k, dv) * (cos_s - _COS_MARGIN) / (dist * dist * (1 + 1e-6))
+            good = clear_view & self.responds[material, k] & (np.abs(cos_g) > _COS_MARGIN) & (e >= SURELY_LIT_LX)
+            good &= ~facing_away  # a shading normal the renderer might replace or find zero
+            for s_ in np.nonzero(good)[0]:
+                cand_s.append(s_)
+                cand_k.append(k)
+                cand_e.append(e[s_])
+                cand_l.append(lvec[s_])
+                cand_len.append(dist[s_] - 0.5 * float(np.hypot(*L.opening_m[k])))
+        if not cand_s:
+            return False
+        best = np.argsort(-np.asarray(cand_e), kind="stable")[:32]
+        s_idx = np.asarray(cand_s)[best]
+        lvec = np.asarray(cand_l)[best]
+        # The shadow ray's origin: off the surface on the luminaire's side (the renderer's
+        # 1e-4 m offset, render.light.integrator.SURFACE_OFFSET_M); the segment stops short of
+        # the opening by its half diagonal only, less than the renderer's clearance.
+        side = np.sign(np.einsum("sc,sc->s", g[s_idx], lvec))
+        origin = p[s_idx] + (1e-4 * side)[:, None] * g[s_idx]
+        clear = segment_clear(self.soup, origin, lvec, np.asarray(cand_len)[best], tri[s_idx])
+        return bool(np.any(clear))
+
+    def _intensity_lower_bound(self, k: int, dv: np.ndarray) -> np.ndarray:
+        """(S,) a lower bound of luminaire k's interpolated intensity (cd, before its scale)
+        toward offsets ``dv`` (luminaire to points): the least table value of the cells within
+        :data:`_ANGLE_MARGIN_DEG` of the direction, 0 near or beyond the measured γ range."""
+        from render.light.photometry.model import local_to_c_gamma
+
+        L = self.lights
+        t = int(L.table[k])
+        cg = L.c_grid[t, : L.n_c[t]]
+        gg = L.g_grid[t, : L.n_g[t]]
+        cd = L.cd_table[t, : L.n_c[t], : L.n_g[t]]
+        c, gamma = local_to_c_gamma(dv @ L.rotation[k])
+        m = _ANGLE_MARGIN_DEG
+        out = np.zeros(dv.shape[0])
+        inside = (gamma >= gg[0] + m) & (gamma <= gg[-1] - m)
+        for s_ in np.nonzero(inside)[0]:
+            j0 = max(int(np.searchsorted(gg, gamma[s_] - m, "right")) - 1, 0)
+            j1 = min(int(np.searchsorted(gg, gamma[s_] + m, "left")), gg.size - 1)
+            cols = slice(j0, j1 + 1)
+            ci = c[s_] % 360.0
+            i0 = max(int(np.searchsorted(cg, ci - m, "right")) - 1, 0)
+            i1 = min(int(np.searchsorted(cg, ci + m, "left")), cg.size - 1)
+            least = cd[i0 : i1 + 1, cols].min()
+            if ci < m or ci > 360.0 - m or cg.size < 2 or cg[-1] < 360.0 - m:
+                least = min(least, cd[:, cols].min())  # near the seam, or a partial C range
+            out[s_] = least
+        return out
 
 
 def mesh_features_ignored(scene: Scene) -> list[Problem]:
@@ -290,20 +482,33 @@ def mesh_features_ignored(scene: Scene) -> list[Problem]:
 
 def scene_warnings(scene: Scene, mesh: TriangleMesh | None = None) -> list[Problem]:
     """Every warning about ``scene``, in the order of the list in ``scenes/README.md``. The
-    checks that cast rays build the scene's BVH (:class:`render.study.Study`) over ``mesh``, the
-    scene already compiled (default: compiled here)."""
-    from render.study import Study
+    checks that cast rays test a few rays against ``mesh``, the scene already compiled
+    (default: compiled here), with numpy; where those cannot settle a verdict they render
+    through a :class:`render.study.Study` (its BVH and preview), made only then."""
+    from render.rays.sanity import Soup
 
-    study = Study(scene)
-    if mesh is not None:
-        study.mesh = mesh  # the Study's cached compile, given rather than made again
+    if mesh is None:
+        from render.geometry.build import compile_scene
+
+        mesh = compile_scene(scene)
+    made = {}
+
+    def study():
+        if "study" not in made:
+            from render.study import Study
+
+            made["study"] = Study(scene)
+            made["study"].mesh = mesh  # the Study's cached compile, given rather than made again
+        return made["study"]
+
+    soup = Soup.of(mesh.triangles_m)
     return [
         *narrow_fields_of_view(scene),
         *clashing_view_names(scene),
         *coincident_luminaires(scene),
         *outside_street(scene),
-        *cameras_inside_solids(scene, study.mesh.triangles_m, study.bvh),
+        *cameras_inside_solids(scene, mesh.triangles_m, lambda: study().bvh, soup),
         *setup_lumens_for_every_group(scene),
-        *dark_views(scene, study),
+        *dark_views(scene, study, mesh, soup),
         *mesh_features_ignored(scene),
     ]
