@@ -8,6 +8,11 @@ Each lane computes exactly the floating-point operations single-ray traversal co
 ray (the same slab and triangle functions), and exact ties in ``t`` go to the lower triangle
 index, so a ray's result never depends on the path that traced it.
 
+:func:`packet_trace` and the per-node functions it calls take their arrays' data pointers
+(:func:`~render.rays.bvh.simd.data_pointer`) and make their views with ``numba.carray``:
+numba passes an array as its whole record and, for a function that can raise, keeps atomic
+reference counts of it, on every call; a pointer is one register and counts nothing.
+
 References
 ----------
 - Wald, Slusallek, Benthin & Wagner, "Interactive Rendering with Coherent Ray Tracing",
@@ -22,6 +27,7 @@ from __future__ import annotations
 import numba
 import numpy as np
 
+from render.rays.bvh.simd import data_pointer
 from render.rays.bvh.slab import far_origin, safe_inverse, slab_interval, valid_ray
 from render.rays.bvh.triangle import intersect_triangle, ray_shear, triangle_vertices
 
@@ -45,6 +51,11 @@ _PACKET_MAX_ANGLE_RAD = 0.1
 _PACKET_MAX_ANGLE_ANY_RAD = 0.5
 PACKET_COS = float(np.cos(_PACKET_MAX_ANGLE_RAD))
 PACKET_COS_ANY = float(np.cos(_PACKET_MAX_ANGLE_ANY_RAD))
+
+# Views made from data pointers inside the per-packet and per-node functions: a binary node
+# record is 16 columns; the row count is only a bound no index reaches (numba checks none).
+_NODE_RECORD = 16
+_ROWS = 1 << 40
 
 # Lane state lives in one flat float64 array, field f of lane r at f * PACKET + r: a single
 # base pointer with constant offsets lets the vectoriser prove that the fields do not overlap.
@@ -155,12 +166,15 @@ def lane_result(lane: np.ndarray, r: int) -> tuple[float, int, float, float]:
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def _packet_boxes(nb, node, lane, n_lanes, t_min):
-    """Slab test of both children of ``node`` for every lane.
+def _packet_boxes(nb_p, node, lane_p, n_lanes, t_min):
+    """Slab test of both children of ``node`` for every lane (``nb_p``, ``lane_p``: data
+    pointers of the binary nodes and the lane state).
 
     Returns (lanes entering child 0, lanes entering child 1, lanes entering both, of which
     nearer to child 1).
     """
+    nb = numba.carray(nb_p, (_ROWS, _NODE_RECORD), np.float32)
+    lane = numba.carray(lane_p, (LANE_FIELDS * PACKET,), np.float64)
     lo0 = (np.float64(nb[node, 0]), np.float64(nb[node, 2]), np.float64(nb[node, 4]))
     hi0 = (np.float64(nb[node, 6]), np.float64(nb[node, 8]), np.float64(nb[node, 10]))
     lo1 = (np.float64(nb[node, 1]), np.float64(nb[node, 3]), np.float64(nb[node, 5]))
@@ -229,8 +243,13 @@ def _leaf_any(tv, first, count, lane, n_lanes, t_min, k):
 
 
 @numba.njit(cache=True, nogil=True)
-def _visit_leaf(nb_i32, node, c, tv, ti, lane, n_lanes, t_min, k, occlusion):
-    """Test leaf child ``c`` of ``node``; returns the lanes it newly occluded (0 for closest)."""
+def _visit_leaf(ni_p, node, c, tv_p, ti_p, lane_p, n_lanes, t_min, k, occlusion):
+    """Test leaf child ``c`` of ``node`` (arrays as data pointers); returns the lanes it newly
+    occluded (0 for closest)."""
+    nb_i32 = numba.carray(ni_p, (_ROWS, _NODE_RECORD), np.int32)
+    tv = numba.carray(tv_p, (_ROWS, 9), np.float64)
+    ti = numba.carray(ti_p, (_ROWS,), np.int32)
+    lane = numba.carray(lane_p, (LANE_FIELDS * PACKET,), np.float64)
     first = -nb_i32[node, 12 + c] - 1
     count = nb_i32[node, 14 + c]
     if occlusion:
@@ -253,9 +272,30 @@ def packet_trace(
     occlusion: bool,
 ) -> None:
     """Trace one loaded packet through the binary tree (``nb``/``ni`` its float32/int32 views;
-    ``tv``/``ti`` the BVH's triangles and index; ``st_node`` a scratch stack). Closest hit, or
-    with ``occlusion`` any hit, stopping when every lane that can be hit is occluded. Results stay
-    in ``lane`` (:func:`lane_result`)."""
+    ``tv``/``ti`` the BVH's triangles (float64) and index (int32); ``lane`` the lane state;
+    ``st_node`` an int64 scratch stack; all C-contiguous). Closest hit, or with ``occlusion``
+    any hit, stopping when every lane that can be hit is occluded. Results stay in ``lane``
+    (:func:`lane_result`)."""
+    _packet_trace(
+        data_pointer(nb),
+        data_pointer(ni),
+        data_pointer(tv),
+        data_pointer(ti),
+        data_pointer(lane),
+        n_lanes,
+        t_min,
+        k,
+        data_pointer(st_node),
+        occlusion,
+    )
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def _packet_trace(nb_p, ni_p, tv_p, ti_p, lane_p, n_lanes, t_min, k, st_node_p, occlusion):
+    """:func:`packet_trace` on its arrays' data pointers (see the module docstring)."""
+    ni = numba.carray(ni_p, (_ROWS, _NODE_RECORD), np.int32)
+    lane = numba.carray(lane_p, (LANE_FIELDS * PACKET,), np.float64)
+    st_node = numba.carray(st_node_p, (_ROWS,), np.int64)
     # int64, not the literal 0: numba compiles a called kernel once per literal argument, and
     # type inference would otherwise compile _packet_boxes for node = 0 as well.
     node = np.int64(0)
@@ -268,18 +308,18 @@ def packet_trace(
     for r in range(n_lanes):
         left += lane[_TB + r] > t_min
     while True:
-        h0, h1, both, vote1 = _packet_boxes(nb, node, lane, n_lanes, t_min)
+        h0, h1, both, vote1 = _packet_boxes(nb_p, node, lane_p, n_lanes, t_min)
         nxt = -1
         if h0 > 0:
             ch = ni[node, 12]
             if ch < 0:
-                left -= _visit_leaf(ni, node, slot0, tv, ti, lane, n_lanes, t_min, k, occlusion)
+                left -= _visit_leaf(ni_p, node, slot0, tv_p, ti_p, lane_p, n_lanes, t_min, k, occlusion)
             else:
                 nxt = ch
         if h1 > 0:
             ch = ni[node, 13]
             if ch < 0:
-                left -= _visit_leaf(ni, node, slot1, tv, ti, lane, n_lanes, t_min, k, occlusion)
+                left -= _visit_leaf(ni_p, node, slot1, tv_p, ti_p, lane_p, n_lanes, t_min, k, occlusion)
             elif nxt < 0:
                 nxt = ch
             elif 2 * vote1 > both:
