@@ -315,8 +315,9 @@ _RESPONSE_MIN = 1e-4
 #: Distance kept from a luminous opening's centre beyond its half diagonal, m (the opening's
 #: rectangle is drawn 2 mm below the centre: render.light.integrator.emitter_triangles).
 _OPENING_MARGIN_M = 0.01
-#: Preview samples looked at per batch.
+#: Preview samples looked at per batch, and shadow segments tested per batch at most.
 _BATCH = 96
+_SHADOW_RAYS = 32
 
 
 @dataclass
@@ -361,26 +362,39 @@ class _LitProof:
 
     def view_lit(self, view) -> bool:
         """Whether one sample of the view's preview is surely lit (False: not known)."""
-        from render.rays.sanity import probe_rays, sample_rays
-
-        w = PREVIEW_WIDTH_PX
-        h = max(1, round(view.height_px * w / view.width_px))
+        w, h = self.preview_size(view)
         n = w * h
         order = np.argsort((np.arange(n) * 0.6180339887498949) % 1.0, kind="stable")
-        far = 10.0 * (1.0 + float(np.ptp(self.soup.centre, axis=0).max()) + float(np.abs(view.position_m).max()))
         for b0 in range(0, n, _BATCH):
-            pixels = order[b0 : b0 + _BATCH]
-            o, d = sample_rays(view.position_m, view.target_m, view.hfov_deg, w, h, self.scene.render.seed, pixels)
-            probes = probe_rays(self.soup, o, d, far)
-            ok = probes.robust & (probes.triangle >= 0)
-            if np.any(ok) and self._any_lit(
-                o[ok], d[ok], probes.triangle[ok], probes.t[ok], probes.u[ok], probes.v[ok]
-            ):
+            if np.any(self.lit_samples(view, order[b0 : b0 + _BATCH], most=_SHADOW_RAYS)):
                 return True
         return False
 
-    def _any_lit(self, o, d, tri, t, u, v) -> bool:
-        """Whether one of these camera samples (robust closest hits) is surely lit."""
+    @staticmethod
+    def preview_size(view) -> tuple[int, int]:
+        """(width, height) of the view's preview, pixels, as :meth:`render.study.Study.camera`
+        makes it."""
+        w = PREVIEW_WIDTH_PX
+        return w, max(1, round(view.height_px * w / view.width_px))
+
+    def lit_samples(self, view, pixels: np.ndarray, most: int | None = None) -> np.ndarray:
+        """(len(pixels),) whether the preview's sample of each flat pixel index is surely lit;
+        ``most``: shadow segments tested at most (the brightest candidates first)."""
+        from render.rays.sanity import probe_rays, sample_rays
+
+        w, h = self.preview_size(view)
+        far = 10.0 * (1.0 + float(np.ptp(self.soup.centre, axis=0).max()) + float(np.abs(view.position_m).max()))
+        o, d = sample_rays(view.position_m, view.target_m, view.hfov_deg, w, h, self.scene.render.seed, pixels)
+        probes = probe_rays(self.soup, o, d, far)
+        ok = np.nonzero(probes.robust & (probes.triangle >= 0))[0]
+        out = np.zeros(len(pixels), bool)
+        if ok.size:
+            lit = self._lit(o[ok], d[ok], probes.triangle[ok], probes.t[ok], probes.u[ok], probes.v[ok], most)
+            out[ok[lit]] = True
+        return out
+
+    def _lit(self, o, d, tri, t, u, v, most: int | None) -> np.ndarray:
+        """(S,) which of these camera samples (robust closest hits) are surely lit."""
         from render.rays.sanity import segment_clear
 
         L = self.lights
@@ -392,7 +406,8 @@ class _LitProof:
         along = np.clip(np.einsum("skc,sc->sk", rel, d), 0.0, t[:, None])
         gap = np.linalg.norm(rel - along[..., None] * d[:, None, :], axis=2)
         clear_view = np.all(gap > reach[None, :], axis=1)
-        # Normals as the renderer's hit shading makes them, turned toward the eye.
+        # Normals as the renderer's hit shading makes them, turned toward the eye; a shading
+        # normal it might replace by the geometric one, or find zero, proves nothing.
         tris = mesh.triangles_m[tri]
         g = np.cross(tris[:, 1] - tris[:, 0], tris[:, 2] - tris[:, 0])
         g /= np.linalg.norm(g, axis=1, keepdims=True)
@@ -402,9 +417,9 @@ class _LitProof:
         length = np.linalg.norm(n, axis=1, keepdims=True)
         n = np.divide(n, length, out=np.zeros_like(n), where=length > 0)
         n = np.where((np.einsum("sc,sc->s", n, d) > 0.0)[:, None], -n, n)
-        facing_away = np.einsum("sc,sc->s", n, d) > -_COS_MARGIN
+        usable = clear_view & (np.einsum("sc,sc->s", n, d) < -_COS_MARGIN)
         material = mesh.material_id[tri]
-        cand_s, cand_k, cand_e, cand_l, cand_len = [], [], [], [], []
+        cand_s, cand_e, cand_l, cand_len = [], [], [], []
         for k in range(L.n_luminaires):
             dv = p - L.position_m[k]
             dist = np.linalg.norm(dv, axis=1)
@@ -412,26 +427,27 @@ class _LitProof:
             cos_s = np.einsum("sc,sc->s", n, lvec)
             cos_g = np.einsum("sc,sc->s", g, lvec)
             e = L.scale[k] * self._intensity_lower_bound(k, dv) * (cos_s - _COS_MARGIN) / (dist * dist * (1 + 1e-6))
-            good = clear_view & self.responds[material, k] & (np.abs(cos_g) > _COS_MARGIN) & (e >= SURELY_LIT_LX)
-            good &= ~facing_away  # a shading normal the renderer might replace or find zero
-            for s_ in np.nonzero(good)[0]:
-                cand_s.append(s_)
-                cand_k.append(k)
-                cand_e.append(e[s_])
-                cand_l.append(lvec[s_])
-                cand_len.append(dist[s_] - 0.5 * float(np.hypot(*L.opening_m[k])))
-        if not cand_s:
-            return False
-        best = np.argsort(-np.asarray(cand_e), kind="stable")[:32]
-        s_idx = np.asarray(cand_s)[best]
-        lvec = np.asarray(cand_l)[best]
+            good = usable & self.responds[material, k] & (np.abs(cos_g) > _COS_MARGIN) & (e >= SURELY_LIT_LX)
+            good = np.nonzero(good)[0]
+            cand_s.append(good)
+            cand_e.append(e[good])
+            cand_l.append(lvec[good])
+            cand_len.append(dist[good] - 0.5 * float(np.hypot(*L.opening_m[k])))
+        s_idx = np.concatenate(cand_s)
+        out = np.zeros(len(t), bool)
+        if s_idx.size == 0:
+            return out
+        best = np.argsort(-np.concatenate(cand_e), kind="stable")[:most]
+        s_idx = s_idx[best]
+        lvec = np.concatenate(cand_l)[best]
         # The shadow ray's origin: off the surface on the luminaire's side (the renderer's
         # 1e-4 m offset, render.light.integrator.SURFACE_OFFSET_M); the segment stops short of
         # the opening by its half diagonal only, less than the renderer's clearance.
         side = np.sign(np.einsum("sc,sc->s", g[s_idx], lvec))
         origin = p[s_idx] + (1e-4 * side)[:, None] * g[s_idx]
-        clear = segment_clear(self.soup, origin, lvec, np.asarray(cand_len)[best], tri[s_idx])
-        return bool(np.any(clear))
+        clear = segment_clear(self.soup, origin, lvec, np.concatenate(cand_len)[best], tri[s_idx])
+        out[s_idx[clear]] = True
+        return out
 
     def _intensity_lower_bound(self, k: int, dv: np.ndarray) -> np.ndarray:
         """(S,) a lower bound of luminaire k's interpolated intensity (cd, before its scale)
