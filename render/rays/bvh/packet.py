@@ -8,7 +8,7 @@ Each lane computes exactly the floating-point operations single-ray traversal co
 ray (the same slab and triangle functions), and exact ties in ``t`` go to the lower triangle
 index, so a ray's result never depends on the path that traced it.
 
-:func:`packet_trace` and the per-node functions it calls take their arrays' data pointers
+:func:`packet_load`, :func:`packet_trace` and the per-node functions it calls take their arrays' data pointers
 (:func:`~render.rays.bvh.simd.data_pointer`) and make their views with ``numba.carray``:
 numba passes an array as its whole record and, for a function that can raise, keeps atomic
 reference counts of it, on every call; a pointer is one register and counts nothing.
@@ -108,8 +108,27 @@ def packet_load(
 
     Unused lanes get t_max = -inf so that they never enter a box. Returns ``(coherent, k)``:
     whether the rays may be traced together (all valid, within ``cos_max`` of the first ray's
-    direction and with its axes), and those axes ``k`` = (kx, ky, kz).
+    direction and with its axes), and those axes ``k`` = (kx, ky, kz). ``lane``, ``origins``,
+    ``directions`` (float64, (N, 3)) and ``t_max`` (float64) are C-contiguous.
     """
+    return _packet_load(
+        data_pointer(lane),
+        data_pointer(origins),
+        data_pointer(directions),
+        data_pointer(t_max),
+        start,
+        n,
+        cos_max,
+    )
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def _packet_load(lane_p, origins_p, directions_p, t_max_p, start, n, cos_max):
+    """:func:`packet_load` on its arrays' data pointers (see the module docstring)."""
+    lane = numba.carray(lane_p, (LANE_FIELDS * PACKET,), np.float64)
+    origins = numba.carray(origins_p, (_ROWS, 3), np.float64)
+    directions = numba.carray(directions_p, (_ROWS, 3), np.float64)
+    t_max = numba.carray(t_max_p, (_ROWS,), np.float64)
     d0x = directions[start, 0]
     d0y = directions[start, 1]
     d0z = directions[start, 2]
