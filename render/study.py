@@ -52,6 +52,7 @@ if TYPE_CHECKING:
     from render.colour.materials import Material
     from render.geometry.mesh import TriangleMesh
     from render.light.indirect import IndirectSettings
+    from render.light.indirect.view import StoredTransport
     from render.rays.bvh import BVH
     from render.rays.cameras import Camera
     from render.vision.observer import ObserverSettings
@@ -418,14 +419,30 @@ class Study:
         (:mod:`render.light.indirect`) with ``paths`` per point (default the scene's
         ``indirect_samples_per_pixel``) and up to ``bounces`` interreflections (default the
         scene's, or :data:`render.light.indirect.DEFAULT_BOUNCES` where the scene has them
-        off). Not part of any standard's calculation, which takes direct light only."""
-        from render.light.indirect import (
-            DEFAULT_BOUNCES,
-            IndirectSettings,
-            PathTracer,
-            illuminance_from_transport,
-            transport_at_points,
-        )
+        off). Not part of any standard's calculation, which takes direct light only. The
+        stored transport and its relighting: :meth:`interreflected_transport`."""
+        s = self.setup(setup)
+        stored = self.interreflected_transport(points_m, normals, s, bounces=bounces, paths=paths, seed=seed)
+        return stored.illuminance_lx(self, s)
+
+    def interreflected_transport(
+        self,
+        points_m: npt.ArrayLike,
+        normals: npt.ArrayLike,
+        setup: str | Setup | None = None,
+        *,
+        bounces: int | None = None,
+        paths: int | None = None,
+        seed: int | None = None,
+        first_id: int = 0,
+    ) -> StoredTransport:
+        """The lamp-independent interreflected transport at bare points (what
+        :meth:`interreflected_illuminance_lx` resolves), traced with the luminaires of
+        ``setup`` (their photometry; defaults as there; point ``i`` hashes id ``first_id + i``):
+        any lamps, lumens and dimming of the same photometry are a multiply of it
+        (:meth:`StoredTransport.illuminance_lx`), no ray."""
+        from render.light.indirect import DEFAULT_BOUNCES, IndirectSettings, PathTracer, transport_at_points
+        from render.light.indirect.view import StoredTransport
 
         s = self.setup(setup)
         lights = self.lights(s)
@@ -444,9 +461,10 @@ class Study:
             negligible_lx=self.negligible_lx,
             offset_m=self.shadow_offset_m,
         )
-        moments, _ = transport_at_points(pts, nrm, None, tracer, render.seed if seed is None else seed)
-        factors, lamps = channel_factors(lights, s)
-        return illuminance_from_transport(moments, factors, self.lamp_spds(lamps), settings.basis)
+        moments, _ = transport_at_points(
+            pts, nrm, None, tracer, render.seed if seed is None else seed, first_id=first_id
+        )
+        return StoredTransport(moments, lights, settings)
 
     def night_illuminance_per_unit_lx(
         self,

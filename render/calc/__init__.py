@@ -14,6 +14,9 @@
   intensity toward their windows, against user-chosen limits.
 * :mod:`.energy` -- input watts, dimming schedules, annual kWh, cost and CO₂ per setup.
 * :mod:`.sky` -- direct and reflected upward flux, sky-glow weighting, notch-filterable share.
+* :mod:`.interreflection` -- with ``--bounces N``, the luminaires' interreflected light on the
+  fields and the footways' face grids, traced once and relit per setup, beside the direct figures.
+* :mod:`.night` -- the night's other light (sky glow, moonlight, lit windows) on the same points.
 * :mod:`.run` -- the whole calculation of a scene per setup (:class:`~render.calc.run.CalculationReport`),
   behind ``lampcast calc``.
 

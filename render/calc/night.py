@@ -42,13 +42,13 @@ and :mod:`render.light.indirect.windows`.
 
 from __future__ import annotations
 
-import math
 from collections.abc import Sequence
 from dataclasses import dataclass, replace
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
+from render.calc.fields import FACE_PLANES, face_plane_directions, half_circle_rule
 from render.scene.model import NightLight
 
 if TYPE_CHECKING:
@@ -75,7 +75,7 @@ NIGHT_LABEL = (
 NIGHT_PATHS_PER_POINT = 512
 #: Horizontal directions round each face point at which the vertical illuminance is traced
 #: (every 10°; the semicylindrical illuminance integrates over half of them).
-NIGHT_FACE_DIRECTIONS = 36
+NIGHT_FACE_DIRECTIONS = FACE_PLANES
 #: The terms, in the order of the per-unit arrays' last axis (the ambient channels of
 #: :mod:`render.light.indirect.night`), with the unit of their level.
 NIGHT_TERMS = (
@@ -181,12 +181,6 @@ class NightFields:
     face_height_m: float
 
 
-def _face_directions(n: int) -> np.ndarray:
-    """(n, 3) horizontal unit directions in a field's frame, every 360°/n from +x."""
-    phi = 2.0 * math.pi * np.arange(n) / n
-    return np.column_stack([np.cos(phi), np.sin(phi), np.zeros(n)])
-
-
 def night_on_fields(
     study: Study,
     fields: Sequence[CalculationField],
@@ -203,9 +197,7 @@ def night_on_fields(
     night = study.scene.night
     if not night.on:
         return None
-    if directions % 4:
-        raise ValueError(f"the face directions must be a multiple of 4, got {directions}")
-    dirs = _face_directions(directions)
+    dirs = face_plane_directions(directions)
     pts, nrm, spans = [], [], []
     start = 0
     for f in fields:
@@ -233,10 +225,6 @@ def night_on_fields(
     vertical: dict[tuple[str, int], NightGrid] = {}
     semi: dict[tuple[str, int], NightGrid] = {}
     half = directions // 2
-    # Trapezoidal weights over a half circle of half + 1 directions (ends at ±90°), mean of E_v.
-    w = np.ones(half + 1)
-    w[[0, -1]] = 0.5
-    w /= half
     for kind, f, s0 in spans:
         n = f.points_m.shape[0]
         if kind == "h":
@@ -245,6 +233,6 @@ def night_on_fields(
         ev = per_unit[s0 : s0 + n * directions].reshape(directions, n, len(NIGHT_TERMS))
         for sign, centre in ((1, 0), (-1, half)):
             vertical[(f.name, sign)] = grid(ev[centre], f)
-            idx = (centre + np.arange(-half // 2, half // 2 + 1)) % directions
+            idx, w = half_circle_rule(directions, centre)
             semi[(f.name, sign)] = grid(np.einsum("k,kpa->pa", w, ev[idx]), f)
     return NightFields(horizontal, vertical, semi, float(face_height_m))

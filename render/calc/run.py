@@ -8,13 +8,16 @@ and the footways) and computes
   (:func:`render.calc.fields.evaluate_field`); with ``bounces`` > 0 (``lampcast calc
   --bounces N``) also the interreflected light on the same points and the figures with it,
   beside the direct ones and labelled as not part of the EN 13201 calculation: the headline
-  figures, the class check and every other figure stay direct light;
+  figures, the class check and every other figure stay direct light (the interreflected
+  transport of the fields and the footways' face grids is traced once per run and relit per
+  setup, :mod:`render.calc.interreflection`);
 * with the scene's ``[night]`` on (sky glow, moonlight, lit windows), the illuminance that
   light adds on every field and the footways' face grids (:mod:`render.calc.night`: traced once
   per run for every setup, its direct part with ``bounces`` 0), beside the luminaires' figures
   and labelled; it never enters Ē, Emin, U0, the headline or the class check;
 * on footways, the semicylindrical and vertical illuminance at 1.5 m facing both ways along the
-  street (:func:`render.calc.fields.evaluate_face_field`);
+  street (:func:`render.calc.fields.evaluate_face_field`), with ``bounces`` > 0 also their
+  interreflected light beside them, labelled;
 * the edge illuminance ratio on both sides of the carriageway (:mod:`render.calc.edge`);
 * the road luminance seen by the standard observer from each lane's centre, for both directions
   of traffic on a two-way street (``[calc] traffic``)
@@ -83,6 +86,7 @@ from render.calc.fields import (
     row_road,
     row_section,
 )
+from render.calc.interreflection import InterreflectedFields, interreflected_on_fields
 from render.calc.night import NightFields, night_on_fields
 from render.calc.obtrusive import ObtrusiveLimits, ObtrusiveResult, evaluate_obtrusive, facade_fields
 from render.calc.road import LuminanceResult, evaluate_luminance_field
@@ -590,25 +594,40 @@ def setup_calculation(
     options: CalcOptions | None = None,
     upward: UpwardLight | None = None,
     night: NightFields | None = None,
+    interreflected: InterreflectedFields | None = None,
 ) -> SetupCalculation:
     """The figures of one setup (the module text lists them) on ``study`` as given (see
     :func:`calc_study` for leaving out the scene's objects); ``upward``: the upward exitance
     map's plane already cast on ``study`` (cast here under this setup when not given);
     ``night``: the night light on the fields already traced (traced here when the options
-    have night light and it is not given)."""
+    have night light and it is not given); ``interreflected``: with ``bounces`` > 0, the
+    interreflected transport on the fields already traced (traced here when not given)."""
     opts = options if options is not None else CalcOptions()
     s = study.setup(setup)
     lights = study.lights(s)
     scene = study.scene
     street, path, _ = row_section(scene)
     fields = row_fields(scene)
-    results = tuple(evaluate_field(study, f, s, bounces=opts.bounces) for f in fields)
+    results = tuple(evaluate_field(study, f, s) for f in fields)
     faces = tuple(
         evaluate_face_field(study, f, s, facing=facing)
         for f in fields
         if f.name.startswith("footway ")
         for facing in ((1.0, 0.0, 0.0), (-1.0, 0.0, 0.0))
     )
+    if opts.bounces > 0:
+        if interreflected is None:
+            interreflected = _interreflected_fields(study, fields, s, opts)
+        grids = interreflected.at(s)
+        results = tuple(replace(r, interreflected_lx=grids.horizontal[r.name]) for r in results)
+        faces = tuple(
+            replace(
+                f,
+                interreflected_vertical_lx=grids.vertical[(f.name, int(np.sign(f.facing[0])))],
+                interreflected_semicylindrical_lx=grids.semicylindrical[(f.name, int(np.sign(f.facing[0])))],
+            )
+            for f in faces
+        )
     if night is None and opts.night is not None:
         night = _night_fields(study, fields, opts)
     if night is not None:
@@ -687,6 +706,12 @@ def _night_fields(study: Study, fields, opts: CalcOptions) -> NightFields | None
     return night_on_fields(study, fields, bounces=opts.bounces, face_height_m=FACE_HEIGHT_M)
 
 
+def _interreflected_fields(study: Study, fields, setup, opts: CalcOptions) -> InterreflectedFields:
+    """The luminaires' interreflected transport on the calculation's fields and footway faces
+    (traced once under ``setup``, relit per setup)."""
+    return interreflected_on_fields(study, fields, setup, bounces=opts.bounces, face_height_m=FACE_HEIGHT_M)
+
+
 def run_calculation(study: Study, setups: list[str | None], options: CalcOptions | None = None) -> CalculationReport:
     """The calculation of every setup in ``setups`` (``None``: the scene's own lamps); the first
     is the "before" the others' sky-glow and energy are compared with. ``options`` default to
@@ -701,7 +726,8 @@ def run_calculation(study: Study, setups: list[str | None], options: CalcOptions
     used = calc_study(study, opts.include_objects)
     upward = UpwardLight(used, setups[0], bounces=opts.bounces) if setups else None
     night = _night_fields(used, row_fields(used.scene), opts) if setups and opts.night is not None else None
-    out = [setup_calculation(used, s, opts, upward, night) for s in setups]
+    ir = _interreflected_fields(used, row_fields(used.scene), setups[0], opts) if setups and opts.bounces > 0 else None
+    out = [setup_calculation(used, s, opts, upward, night, ir) for s in setups]
     first = out[0] if out else None
     if first is not None:
         out[0] = first = replace(first, sky_relative=sky_glow_relative(first.sky, first.sky))

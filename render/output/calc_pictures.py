@@ -205,7 +205,7 @@ def interreflection_note(report: CalculationReport) -> str:
     from render.calc.fields import INTERREFLECTED_LABEL
 
     return (
-        "Direct light only, as EN 13201 calculates it. The fields' figures with interreflected light "
+        "Direct light only, as EN 13201 calculates it. The fields' and footway faces' figures with interreflected light "
         f"(up to {report.options.bounces} bounces) are in the text, CSV and JSON: {INTERREFLECTED_LABEL}."
     )
 

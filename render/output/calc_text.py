@@ -46,7 +46,8 @@ def format_calculation(report: CalculationReport) -> str:
     lines = [f"{report.scene}: calculation (observer age {o.age_years:g} years, {o.traffic} traffic, {objects})"]
     if o.bounces > 0:
         lines.append(
-            f"fields also with interreflected light (up to {o.bounces} bounces), rows marked '+ interreflected': "
+            f"fields and footway faces also with interreflected light (up to {o.bounces} bounces), rows marked "
+            "'+ interreflected': "
             f"{INTERREFLECTED_LABEL}; every other figure and the class check are direct light only"
         )
     if o.night is not None:
@@ -80,6 +81,12 @@ def format_calculation(report: CalculationReport) -> str:
                 f"  {face.name} at {face.height_m:g} m facing {_way(int(np.sign(face.facing[0])))}: "
                 f"E_sc mean {sc.mean():.2f} lx, min {sc.min():.2f} lx; E_v mean {v.mean():.2f} lx, min {v.min():.2f} lx"
             )
+            isc, iv = face.with_interreflected_semicylindrical_lx, face.with_interreflected_vertical_lx
+            if isc is not None and iv is not None:
+                lines.append(
+                    f"    + interreflected: E_sc mean {isc.mean():.2f} lx, min {isc.min():.2f} lx; "
+                    f"E_v mean {iv.mean():.2f} lx, min {iv.min():.2f} lx  ({INTERREFLECTED_LABEL})"
+                )
             if face.night_semicylindrical is not None and face.night_vertical is not None:
                 nsc, nv = face.night_semicylindrical, face.night_vertical
                 lines.append(

@@ -39,6 +39,7 @@ from __future__ import annotations
 
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, field, replace
+from typing import TYPE_CHECKING
 
 import numba
 import numpy as np
@@ -79,12 +80,17 @@ from render.light.luminaires import LuminaireSet
 from render.rays.bvh import BVH
 from render.rays.cameras import seed_key
 
+if TYPE_CHECKING:
+    from render.scene.model import Setup
+    from render.study import Study
+
 __all__ = [
     "DEFAULT_BOUNCES",
     "DEFAULT_PATHS_PER_PIXEL",
     "IndirectBuffers",
     "IndirectSettings",
     "PathTracer",
+    "StoredTransport",
     "ambient_illuminance_per_unit_lx",
     "ambient_responses",
     "illuminance_from_transport",
@@ -652,6 +658,45 @@ def illuminance_from_transport(
     for c in range(moments.shape[1]):
         out += f[c] * (moments[:, c, :] @ white[0, lamp_of_channel[c], :, 1])
     return np.pi * out
+
+
+@dataclass(frozen=True)
+class StoredTransport:
+    """Interreflected transport at a set of bare points, kept so that the light of any lamps,
+    lumens and dimming is a multiply: ``moments`` (N, C, n_nodes) of
+    :func:`transport_at_points` (float64, full output per channel of ``lights``), the
+    luminaires ``lights`` it was traced with (their photometric distributions) and the
+    ``settings`` (bounces, paths, basis). A setup that changes a photometric distribution
+    needs a new trace (:func:`render.light.luminaires.needs_new_evaluation`)."""
+
+    moments: np.ndarray
+    lights: LuminaireSet
+    settings: IndirectSettings
+
+    def illuminance_lx(self, study: Study, setup: Setup | None = None) -> np.ndarray:
+        """(N,) photopic illuminance (lx) of the interreflected light under ``setup`` (lamps,
+        lumens and dimming per group, :func:`render.light.luminaires.channel_factors`; the
+        study gives the lamps' spectra): :func:`illuminance_from_transport`, no ray. A
+        ValueError when ``setup`` changes a photometric distribution."""
+        from render.light.luminaires import channel_factors, needs_new_evaluation
+
+        if needs_new_evaluation(self.lights, setup):
+            raise ValueError("the setup changes a photometric distribution: the transport must be traced again")
+        factors, lamps = channel_factors(self.lights, setup)
+        return illuminance_from_transport(self.moments, factors, study.lamp_spds(lamps), self.settings.basis)
+
+    def combined(self, weights: np.ndarray, points: np.ndarray) -> StoredTransport:
+        """Weighted sums of the points' transport: ``weights`` (k,) over ``points`` (k, M)
+        indices gives M new points, Σ_j w_j·T[points[j, m]] (transport is linear in the light,
+        so resolving the sum equals summing the resolved values, up to rounding)."""
+        w = np.asarray(weights, np.float64)
+        idx = np.asarray(points, np.int64)
+        moments = np.einsum("k,kmcn->mcn", w, self.moments[idx])
+        return replace(self, moments=moments)
+
+    def subset(self, points: np.ndarray | slice) -> StoredTransport:
+        """The transport at some of the points."""
+        return replace(self, moments=self.moments[points])
 
 
 def without_luminaires(lights: LuminaireSet) -> LuminaireSet:
