@@ -61,8 +61,9 @@ ROBUST_M = 1e-3
 #: A ray whose direction makes |cos| below this with a face's normal is nearly parallel to it:
 #: its answer there is not robust.
 _PARALLEL_COS = 1e-6
-#: Ray-triangle pairs per numpy chunk (bounds the temporary arrays to a few MB).
-_CHUNK = 1 << 16
+#: Triangles per group of the pre-test, and the cell size that orders them into groups, m.
+_GROUP = 32
+_GROUP_CELL_M = 4.0
 
 
 @dataclass(frozen=True)
@@ -80,6 +81,9 @@ class Soup:
     per_m: np.ndarray
     centre: np.ndarray
     radius: np.ndarray
+    members: np.ndarray  # (G, _GROUP) triangle indices of each group of nearby triangles, -1 padded
+    group_centre: np.ndarray
+    group_radius: np.ndarray
 
     @classmethod
     def of(cls, triangles_m: np.ndarray) -> Soup:
@@ -97,7 +101,20 @@ class Soup:
         )
         centre = tris.mean(axis=1)
         radius = np.max(np.linalg.norm(tris - centre[:, None, :], axis=2), axis=1) + 2.0 * ROBUST_M
-        return cls(tris, v0, e1, e2, n, area2, lengths / safe[None, :], centre, radius)
+        # Groups of _GROUP triangles, in the order of their centres' cells (x, then y, then z),
+        # each in a sphere holding its triangles' spheres: a one-level hierarchy for the pre-test.
+        cells = np.floor((centre - centre.min(axis=0)) / _GROUP_CELL_M).astype(np.int64)
+        order = np.lexsort((cells[:, 2], cells[:, 1], cells[:, 0]))
+        n_groups = -(-order.size // _GROUP)
+        members = np.full(n_groups * _GROUP, -1, np.int64)
+        members[: order.size] = order
+        members = members.reshape(n_groups, _GROUP)
+        safe_m = np.where(members >= 0, members, members[:, :1])
+        lo = np.min(centre[safe_m] - radius[safe_m, None], axis=1)
+        hi = np.max(centre[safe_m] + radius[safe_m, None], axis=1)
+        g_centre = 0.5 * (lo + hi)
+        g_radius = np.max(np.linalg.norm(centre[safe_m] - g_centre[:, None, :], axis=2) + radius[safe_m], axis=1)
+        return cls(tris, v0, e1, e2, n, area2, lengths / safe[None, :], centre, radius, members, g_centre, g_radius)
 
 
 @dataclass(frozen=True)
@@ -116,21 +133,32 @@ class Probes:
     facing: np.ndarray
 
 
+def _near(centre: np.ndarray, radius: np.ndarray, o: np.ndarray, d: np.ndarray, length: np.ndarray) -> np.ndarray:
+    """(S, R) whether sphere s comes within its radius of segment r. The squared gap between a
+    centre c and the segment's nearest point o + a·d (a the projection clipped to the segment)
+    is |c - o|² - 2a·(c - o)·d + a², from matrix products; the radius is taken a little larger
+    for their rounding."""
+    proj = centre @ d.T - np.einsum("rk,rk->r", o, d)[None, :]
+    rel2 = np.einsum("sk,sk->s", centre, centre)[:, None] - 2.0 * (centre @ o.T) + np.einsum("rk,rk->r", o, o)[None, :]
+    a = np.clip(proj, -ROBUST_M, length[None, :] + ROBUST_M)
+    gap2 = rel2 - 2.0 * a * proj + a * a
+    return gap2 <= ((radius * (1.0 + 1e-9) + 1e-6) ** 2)[:, None]
+
+
 def _pairs(soup: Soup, o: np.ndarray, d: np.ndarray, length: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """(ray, triangle) index pairs whose bounding sphere comes within its radius of the
-    segment (a conservative pre-test: every other pair misses)."""
-    rays, tris = [], []
-    step = max(1, _CHUNK // max(soup.tris.shape[0], 1))
-    for r0 in range(0, d.shape[0], step):
-        oo, dd, ll = o[r0 : r0 + step], d[r0 : r0 + step], length[r0 : r0 + step]
-        rel = soup.centre[None, :, :] - oo[:, None, :]
-        along = np.clip(np.einsum("rfk,rk->rf", rel, dd), -ROBUST_M, ll[:, None] + ROBUST_M)
-        gap = rel - along[..., None] * dd[:, None, :]
-        near = np.einsum("rfk,rfk->rf", gap, gap) <= soup.radius[None, :] ** 2
-        r, f = np.nonzero(near)
-        rays.append(r + r0)
-        tris.append(f)
-    return np.concatenate(rays), np.concatenate(tris)
+    segment (a conservative pre-test: every other pair misses), through the groups' spheres."""
+    g, r = np.nonzero(_near(soup.group_centre, soup.group_radius, o, d, length))
+    f = soup.members[g].reshape(-1)
+    r = np.repeat(r, soup.members.shape[1])
+    keep = f >= 0
+    f, r = f[keep], r[keep]
+    c = soup.centre[f] - o[r]
+    proj = np.einsum("pk,pk->p", c, d[r])
+    a = np.clip(proj, -ROBUST_M, length[r] + ROBUST_M)
+    gap2 = np.einsum("pk,pk->p", c, c) - 2.0 * a * proj + a * a
+    near = gap2 <= (soup.radius[f] * (1.0 + 1e-9) + 1e-6) ** 2
+    return r[near], f[near]
 
 
 def _hits(soup: Soup, f: np.ndarray, o: np.ndarray, d: np.ndarray):

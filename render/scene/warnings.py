@@ -463,18 +463,33 @@ class _LitProof:
         c, gamma = local_to_c_gamma(dv @ L.rotation[k])
         m = _ANGLE_MARGIN_DEG
         out = np.zeros(dv.shape[0])
-        inside = (gamma >= gg[0] + m) & (gamma <= gg[-1] - m)
-        for s_ in np.nonzero(inside)[0]:
-            j0 = max(int(np.searchsorted(gg, gamma[s_] - m, "right")) - 1, 0)
-            j1 = min(int(np.searchsorted(gg, gamma[s_] + m, "left")), gg.size - 1)
-            cols = slice(j0, j1 + 1)
-            ci = c[s_] % 360.0
-            i0 = max(int(np.searchsorted(cg, ci - m, "right")) - 1, 0)
-            i1 = min(int(np.searchsorted(cg, ci + m, "left")), cg.size - 1)
-            least = cd[i0 : i1 + 1, cols].min()
-            if ci < m or ci > 360.0 - m or cg.size < 2 or cg[-1] < 360.0 - m:
-                least = min(least, cd[:, cols].min())  # near the seam, or a partial C range
-            out[s_] = least
+        inside = np.nonzero((gamma >= gg[0] + m) & (gamma <= gg[-1] - m))[0]
+        if inside.size == 0:
+            return out
+        g = gamma[inside]
+        ci = c[inside] % 360.0
+        # The nodes of every cell within the margin: with the margin far below the grid's
+        # steps, the nodes at or below x - m, at or above x + m and the one after the first.
+        j0 = np.clip(np.searchsorted(gg, g - m, "right") - 1, 0, gg.size - 1)
+        j1 = np.clip(np.searchsorted(gg, g + m, "left"), 0, gg.size - 1)
+        i0 = np.clip(np.searchsorted(cg, ci - m, "right") - 1, 0, cg.size - 1)
+        i1 = np.clip(np.searchsorted(cg, ci + m, "left"), 0, cg.size - 1)
+        least = np.full(g.size, np.inf)
+        for i in (i0, np.minimum(i0 + 1, i1), i1):
+            for j in (j0, np.minimum(j0 + 1, j1), j1):
+                least = np.minimum(least, cd[i, j])
+        # Near the seam of C, or over a partial C range, every C of those γ nodes.
+        seam = (ci < m) | (ci > 360.0 - m) | (cg.size < 2) | (cg[-1] < 360.0 - m)
+        if np.any(seam):
+            column = cd.min(axis=0)
+            least = np.where(
+                seam,
+                np.minimum(least, np.minimum(column[j0], np.minimum(column[j1], column[np.minimum(j0 + 1, j1)]))),
+                least,
+            )
+        # A grid finer than the margin: no bound claimed.
+        least = np.where((i1 - i0 > 2) | (j1 - j0 > 2), 0.0, least)
+        out[inside] = least
         return out
 
 
