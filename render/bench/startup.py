@@ -7,7 +7,10 @@ What a user waits for before anything is rendered:
   wall time from start to exit: interpreter start-up, imports, the libraries read, the command's
   work (``check`` of the demo also builds the geometry and renders a tiny preview of every view
   for its warnings). One untimed run of each first, so that byte-code and numba's kernel cache
-  are written;
+  are written (``PYTHONDONTWRITEBYTECODE`` is left out of the commands' environment, as an
+  installed package has its byte-code); wall seconds, and processor seconds of each new process.
+  ``--against DIR`` without ``--cold`` adds the same three commands with the ``render`` package
+  of another source tree (run in that folder), rows ``NAME (before)``, all rows alternating;
 * ``obj`` -- :func:`render.scene.load_scene` plus :func:`render.geometry.build.compile_scene` of
   a scene holding one generated OBJ file of about ``--triangles`` triangles (default one
   million: a grid of quads, half written as two triangles and half as quads, references
@@ -65,10 +68,12 @@ QUICK_TRIANGLES = 2_000
 
 @dataclass(frozen=True)
 class StartupBench:
-    """Seconds per run of each row over the rounds, by row name, and the OBJ's triangle count."""
+    """Seconds per run of each row over the rounds, by row name, the OBJ's triangle count and
+    the processor seconds of each command row (user + system of the new process)."""
 
     times: dict[str, Spread]
     obj_triangles: int
+    cpu: dict[str, Spread] = field(default_factory=dict)
 
 
 def obj_grid_text(n_triangles: int) -> str:
@@ -121,26 +126,57 @@ def _command(*args: str, env: dict[str, str] | None = None, cwd: Path | None = N
     )
 
 
-def run_bench(*, rounds: int = 5, triangles: int = DEFAULT_TRIANGLES, scene: str | Path | None = None) -> StartupBench:
-    """Time the quick commands and the OBJ load (see the module text)."""
+def _bytecode_env() -> dict[str, str]:
+    """This process's environment without ``PYTHONDONTWRITEBYTECODE``: the warm-up run writes
+    the byte-code an installed package has (pip compiles it; an editable install writes it on
+    first import), so the timed runs do not compile the modules from source each time."""
+    return {k: v for k, v in os.environ.items() if k != "PYTHONDONTWRITEBYTECODE"}
+
+
+def _timed_command(args: tuple[str, ...], cpu: list[float], env: dict[str, str], cwd: Path | None) -> None:
+    """:func:`_command`, appending its processor seconds (user + system) to ``cpu``."""
+    before = resource.getrusage(resource.RUSAGE_CHILDREN)
+    _command(*args, env=env, cwd=cwd)
+    after = resource.getrusage(resource.RUSAGE_CHILDREN)
+    cpu.append((after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime))
+
+
+def run_bench(
+    *,
+    rounds: int = 5,
+    triangles: int = DEFAULT_TRIANGLES,
+    scene: str | Path | None = None,
+    against: str | Path | None = None,
+) -> StartupBench:
+    """Time the quick commands and the OBJ load (see the module text); with ``against``, the
+    quick commands of that source tree's ``render`` too, as rows named ``NAME (before)``, every
+    row alternating within a round. Processor seconds of the commands are in ``cpu``."""
     from render.geometry.build import compile_scene
     from render.scene import load_scene
 
-    demo = str(scene or demo_scene_path())
+    demo = str(Path(scene or demo_scene_path()).resolve())
     commands = {
         "check": ("check", demo, "-q"),
         "lamps": ("lamps", "-q"),
         "materials": ("materials", "-q"),
     }
+    trees: dict[str, Path | None] = {"": None}
+    if against is not None:
+        trees = {" (before)": Path(against).resolve(), "": None}
+    env = _bytecode_env()
+    cpu: dict[str, list[float]] = {}
     with tempfile.TemporaryDirectory(prefix="lampcast-startup-") as tmp:
         obj_scene = _obj_scene(Path(tmp), triangles)
         n_obj = compile_scene(load_scene(obj_scene)).n_triangles  # also the warm-up of this process
-        for args in commands.values():  # warm-up: byte-code and the kernel cache written
-            _command(*args)
-        fns = {name: (lambda a=args: _command(*a)) for name, args in commands.items()}
+        fns = {}
+        for name, args in commands.items():
+            for suffix, tree in trees.items():
+                _command(*args, env=env, cwd=tree)  # warm-up: byte-code and the kernel cache written
+                cpu[name + suffix] = []
+                fns[name + suffix] = lambda a=args, c=cpu[name + suffix], t=tree: _timed_command(a, c, env, t)
         fns["obj"] = lambda: compile_scene(load_scene(obj_scene))
         times, _ = interleaved(fns, rounds)
-    return StartupBench(times, n_obj)
+    return StartupBench(times, n_obj, {k: Spread(tuple(v)) for k, v in cpu.items()})
 
 
 # Installed as sitecustomize in the compile-log runs: every Python process of the command
@@ -338,18 +374,24 @@ def _print_cold(demo: dict[str, ColdDemo], rounds: int) -> None:
 def cmd_startup(args: argparse.Namespace) -> int:
     rounds = 1 if args.quick else args.rounds
     triangles = QUICK_TRIANGLES if args.quick else args.triangles
-    bench = run_bench(rounds=rounds, triangles=triangles, scene=args.scene)
+    bench = run_bench(rounds=rounds, triangles=triangles, scene=args.scene, against=None if args.cold else args.against)
     print(
         f"lampcast check/lamps/materials as new processes ({Path(args.scene or demo_scene_path()).name}); "
         f"OBJ load + compile of {bench.obj_triangles:,} triangles in this process"
     )
     if args.quick:
         print("quick run: a smoke test of the benchmark, not a measurement")
+    if args.against and not args.cold:
+        print(f"(before): the render package of {args.against}; the others: this one")
     print(f"min / median / max over {rounds} round(s), the rows alternating within a round, after one warm-up run")
     rows = [(name, spread.text(1, ".3f") + " s") for name, spread in bench.times.items()]
     width = max(len(r[0]) for r in rows)
     for label, text in rows:
         print(f"{label:<{width}}  {text}")
+    print()
+    print("processor seconds of the command rows (user + system), min / median / max")
+    for name, spread in bench.cpu.items():
+        print(f"{name:<{width}}  {spread.text(1, '.3f')} s processor")
     if args.cold:
         trees = {"after": None}
         if args.against:
@@ -382,8 +424,8 @@ def add_parser(sub) -> None:
         "--against",
         metavar="DIR",
         default=None,
-        help="with --cold: also a source tree holding another render package (e.g. a git worktree of an earlier "
-        "commit), side by side as 'before'",
+        help="a source tree holding another render package (e.g. a git worktree of an earlier commit), side by "
+        "side as 'before': its check/lamps/materials rows, or with --cold its cold demo",
     )
     p.add_argument("--no-kernels", action="store_true", help="with --cold: leave out the per-kernel compile table")
     p.add_argument("--quick", action="store_true", help="smoke run: one round, a 2,000-triangle OBJ")
