@@ -310,8 +310,11 @@ SURELY_LIT_LX = 1e-2
 #: material under a lamp relative to a white one's (common practice, no source: far above the
 #: renderer's float32 rounding).
 _COS_MARGIN = 1e-3
-_ANGLE_MARGIN_DEG = 1e-3
+_ANGLE_MARGIN_DEG = 1e-2
 _RESPONSE_MIN = 1e-4
+#: Points nearer a luminaire than this, m, prove nothing (the direction's rounding grows
+#: as the distance shrinks).
+_NEAR_M = 0.1
 #: Distance kept from a luminous opening's centre beyond its half diagonal, m (the opening's
 #: rectangle is drawn 2 mm below the centre: render.light.integrator.emitter_triangles).
 _OPENING_MARGIN_M = 0.01
@@ -358,6 +361,10 @@ class _LitProof:
                 spd[ch.lamp] = get_lamp(ch.lamp, base_dir=scene.base_dir, source=str(scene.path)).spd
             white = float(np.sum(spd[ch.lamp] * ybar))
             responds[:, k] = white > 0.0 and (rho * spd[ch.lamp] * ybar).sum(axis=1) >= _RESPONSE_MIN * white
+        # A specular layer reflecting everything leaves its base no light (render.light.gloss).
+        gloss = getattr(mesh, "material_gloss", None)
+        if gloss is not None:
+            responds[np.asarray(gloss)[:, 0] >= 1.0 - 1e-6, :] = False
         return cls(scene, mesh, soup if soup is not None else Soup.of(mesh.triangles_m), lights, responds)
 
     def view_lit(self, view) -> bool:
@@ -428,6 +435,7 @@ class _LitProof:
             cos_g = np.einsum("sc,sc->s", g, lvec)
             e = L.scale[k] * self._intensity_lower_bound(k, dv) * (cos_s - _COS_MARGIN) / (dist * dist * (1 + 1e-6))
             good = usable & self.responds[material, k] & (np.abs(cos_g) > _COS_MARGIN) & (e >= SURELY_LIT_LX)
+            good &= dist >= _NEAR_M
             good = np.nonzero(good)[0]
             cand_s.append(good)
             cand_e.append(e[good])
