@@ -319,7 +319,7 @@ _NEAR_M = 0.1
 #: rectangle is drawn 2 mm below the centre: render.light.integrator.emitter_triangles).
 _OPENING_MARGIN_M = 0.01
 #: Preview samples looked at per batch, and shadow segments tested per batch at most.
-_BATCH = 96
+_BATCH = 48
 _SHADOW_RAYS = 32
 
 
