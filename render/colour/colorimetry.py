@@ -41,11 +41,11 @@ from typing import TYPE_CHECKING
 
 import numba
 import numpy as np
-from numba import prange
 from numpy.typing import ArrayLike
 
 from render.colour.observers import KM_LM_PER_W, KM_SCOTOPIC_LM_PER_W, cmfs_xyz, photopic_lef, scotopic_lef
 from render.colour.spectra import BIN_WIDTH_NM
+from render.threads import run_split
 
 if TYPE_CHECKING:
     from render.light.integrator import LightBuffers
@@ -122,11 +122,13 @@ def response_table(
 _GROUP = 4
 
 
-@numba.njit(cache=True, nogil=True)
+@numba.njit(cache=True, nogil=True, _nrt=False)
 def _resolve_pixel(p, row, response, value, spec, factors, lamp_of_channel, table, spp, out):
     """Pixel ``p``'s responses into ``out[row]``. Four responses at a time in registers;
     ``table`` (K + 1, M, J) and ``out`` (P, J) have J a multiple of four. With J = 4 the sums
-    run in the same order as one pass per response."""
+    run in the same order as one pass per response. Compiled without numba's reference
+    counting (it takes arrays and makes none): a call per pixel would otherwise count a
+    reference to each array on entry and release it on return, atomic operations."""
     C = value.shape[1]
     white = table.shape[0] - 1
     inv = 1.0 / spp
@@ -164,18 +166,22 @@ def _resolve_pixel(p, row, response, value, spec, factors, lamp_of_channel, tabl
         out[row, j + 3] = a3 * inv
 
 
-@numba.njit(cache=True, nogil=True, parallel=True)
-def _resolve_kernel(response, value, spec, factors, lamp_of_channel, table, spp, out):
-    # Every pixel p into out[p].
-    for p in prange(out.shape[0]):
-        _resolve_pixel(p, p, response, value, spec, factors, lamp_of_channel, table, spp, out)
+#: Pixels per work item of the resolve kernel.
+_ITEM = 256
 
 
-@numba.njit(cache=True, nogil=True, parallel=True)
-def _resolve_pixels_kernel(response, value, spec, factors, lamp_of_channel, table, spp, pixels, out):
-    # The listed pixels only: pixels[i] into out[i], the same arithmetic per pixel.
-    for i in prange(pixels.shape[0]):
-        _resolve_pixel(pixels[i], i, response, value, spec, factors, lamp_of_channel, table, spp, out)
+@numba.njit(cache=True, nogil=True)
+def _resolve_items(response, value, spec, factors, lamp_of_channel, table, spp, pixels, out, first, stride):
+    """Pixel ``pixels[i]`` into ``out[i]``, or with no ``pixels`` (an empty list) every pixel
+    ``i`` into ``out[i]``; rows in items of :data:`_ITEM`, items ``first, first + stride, ...``
+    (:func:`render.threads.run_split`). A serial kernel for both uses, so that
+    :func:`_resolve_pixel` is compiled once and no ``prange`` loop is compiled."""
+    n = out.shape[0]
+    every = pixels.shape[0] == 0
+    for item in range(first, (n + _ITEM - 1) // _ITEM, stride):
+        for i in range(item * _ITEM, min(n, (item + 1) * _ITEM)):
+            p = i if every else pixels[i]
+            _resolve_pixel(p, i, response, value, spec, factors, lamp_of_channel, table, spp, out)
 
 
 @numba.njit(cache=True, nogil=True)
@@ -261,14 +267,14 @@ def _resolve_table(
     )
     if pixels is None:
         out = np.zeros((n_pix, n_out + pad))
-        _resolve_kernel(*args, out)
+        run_split(_resolve_items, (n_pix + _ITEM - 1) // _ITEM, *args, np.zeros(0, np.int64), out)
     else:
         mask = np.asarray(pixels, dtype=bool)
         if mask.shape != (buffers.height_px, buffers.width_px):
             raise ValueError(f"pixels must be an (H, W) mask of the buffers' {buffers.height_px}×{buffers.width_px}")
         where = np.flatnonzero(mask).astype(np.int64)
         some = np.zeros((where.size, n_out + pad))
-        _resolve_pixels_kernel(*args, where, some)
+        run_split(_resolve_items, (where.size + _ITEM - 1) // _ITEM, *args, where, some)
         out = np.zeros((n_pix, n_out + pad))
         out[where] = some
     return out[:, :n_out].reshape(buffers.height_px, buffers.width_px, n_out)

@@ -68,7 +68,6 @@ from typing import TYPE_CHECKING
 
 import numba
 import numpy as np
-from numba import prange
 
 from render.geometry.mesh import TriangleMesh
 from render.light.gloss import fresnel_one, specular_one
@@ -275,38 +274,59 @@ def _unshadowed(px, py, pz, nx_, ny_, nz_, k, lum):
     return scale[k] * inten * cos_s / d2, d
 
 
-@numba.njit(cache=True, nogil=True, parallel=True)
-def _candidates(points, normals, active, lum, grid, eps, counts, out_lum, out_e, out_dir, out_tmax):
+@numba.njit(cache=True, nogil=True)
+def _candidates(points, normals, active, lum, grid, eps, counts, out_lum, out_e, out_dir, out_tmax, first, stride):
     """Per point, the luminaires whose unshadowed contribution reaches ``eps``: written to row
     ``i`` of the (N, K) outputs, their number to ``counts[i]`` (``lum`` and ``grid`` as for
-    :func:`_direct_light`). A ``prange`` loop like :func:`_direct_light`, for its speed."""
+    :func:`_direct_light`; the contribution as :func:`_unshadowed` computes it). Points in
+    items of :data:`_ITEM`, items ``first, first + stride, ...`` (:func:`render.threads.run_split`).
+    A serial kernel, which compiles in a fraction of a ``prange`` loop's time; like
+    :func:`_direct_light`, its loops bind no array to a new name (the tuples are unpacked
+    once), so numba counts no references in them."""
     rot, pos, scale, table, c_grid, g_grid, n_c, n_g, inv_c, inv_g, cd, channel, clearance = lum
     box, cell, nx, ny, cell_start, cell_items = grid
-    N = points.shape[0]
-    for i in prange(N):
-        counts[i] = 0
-        if not active[i]:
-            continue
-        px = points[i, 0]
-        py = points[i, 1]
-        pz = points[i, 2]
-        ci = _cell_of(px, py, pz, box, cell, nx, ny)
-        q0 = cell_start[ci] if ci >= 0 else 0
-        q1 = cell_start[ci + 1] if ci >= 0 else pos.shape[0]
-        w = 0
-        for q in range(q0, q1):
-            k = cell_items[q] if ci >= 0 else q
-            e, d = _unshadowed(px, py, pz, normals[i, 0], normals[i, 1], normals[i, 2], k, lum)
-            if e < eps or d == 0.0:
+    n = points.shape[0]
+    n_lum = pos.shape[0]
+    for item in range(first, (n + _ITEM - 1) // _ITEM, stride):
+        for i in range(item * _ITEM, min(n, (item + 1) * _ITEM)):
+            counts[i] = 0
+            if not active[i]:
                 continue
-            out_lum[i, w] = k
-            out_e[i, w] = e
-            out_dir[i, w, 0] = -(px - pos[k, 0]) / d
-            out_dir[i, w, 1] = -(py - pos[k, 1]) / d
-            out_dir[i, w, 2] = -(pz - pos[k, 2]) / d
-            out_tmax[i, w] = max(d - clearance[k], 0.0)
-            w += 1
-        counts[i] = w
+            px = points[i, 0]
+            py = points[i, 1]
+            pz = points[i, 2]
+            snx = normals[i, 0]
+            sny = normals[i, 1]
+            snz = normals[i, 2]
+            ci = _cell_of(px, py, pz, box, cell, nx, ny)
+            q0 = cell_start[ci] if ci >= 0 else 0
+            q1 = cell_start[ci + 1] if ci >= 0 else n_lum
+            w = 0
+            for q in range(q0, q1):
+                k = cell_items[q] if ci >= 0 else q
+                # _unshadowed: behind the surface or at the point, none.
+                dx = px - pos[k, 0]
+                dy = py - pos[k, 1]
+                dz = pz - pos[k, 2]
+                d2 = dx * dx + dy * dy + dz * dz
+                if d2 <= 1e-12:
+                    continue
+                d = math.sqrt(d2)
+                cos_s = -(snx * dx + sny * dy + snz * dz) / d
+                if cos_s <= 0.0:
+                    continue
+                inten = _intensity_fast(rot, c_grid, g_grid, n_c, n_g, inv_c, inv_g, cd, k, table[k], dx, dy, dz)
+                e = scale[k] * inten * cos_s / d2
+                if e < eps:
+                    continue
+                out_lum[i, w] = k
+                out_e[i, w] = e
+                out_dir[i, w, 0] = -(px - pos[k, 0]) / d
+                out_dir[i, w, 1] = -(py - pos[k, 1]) / d
+                out_dir[i, w, 2] = -(pz - pos[k, 2]) / d
+                out_tmax[i, w] = max(d - clearance[k], 0.0)
+                w += 1
+            counts[i] = w
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", _nrt=False)
@@ -611,7 +631,8 @@ def _emitter_values(
     n = directions.shape[0]
     for item in range(first, (n + _ITEM - 1) // _ITEM, stride):
         for i in range(item * _ITEM, min(n, (item + 1) * _ITEM)):
-            k = lum_of[i]
+            # int64 as in the other kernels, so that _intensity_fast is compiled once.
+            k = np.int64(lum_of[i])
             if k < 0:
                 continue
             # Direction from the luminaire toward the eye is -ray direction.
@@ -879,7 +900,9 @@ def direct_pairs(
     e_k = np.zeros((n, K))
     dir_k = np.zeros((n, K, 3))
     tmax_k = np.zeros((n, K))
-    _candidates(
+    run_split(
+        _candidates,
+        _n_items(n, _ITEM),
         pts,
         nrm,
         act,
@@ -1377,6 +1400,9 @@ class _LightPass:
             for g in (buffers.road.groups if buffers.road is not None else ())
         ]
         self.area = lights.opening_m[:, 0] * lights.opening_m[:, 1]
+        # Without a specular layer anywhere the layer's values are all zero: not computed,
+        # not stored (the buffers' zeros stay).
+        self.with_spec = bool(np.any(self.gloss[:, 0] > 0.0))
         self._ready = False
         self._ready_lock = threading.Lock()
 
@@ -1412,10 +1438,11 @@ class _LightPass:
         return [(rest, object_id, _NO_ROAD, -1, 1.0, 0.0), *passes]
 
     def evaluate(self, point, normal, geo, direction, response, object_id, emitter, emitter_response):
-        """(value, spec) float32 (n, C) for n samples given as float32 geometry and int32 ids."""
+        """(value, spec) float32 (n, C) for n samples given as float32 geometry and int32 ids;
+        spec is None where no material has a specular layer (it would be all zero)."""
         n = response.shape[0]
         value = np.zeros((n, self.n_channels))
-        spec = np.zeros((n, self.n_channels))
+        spec = np.zeros((n if self.with_spec else 0, self.n_channels))
         surf = (response >= 0) & (response != emitter_response)
         if self.grid is not None and np.any(surf):
             view_dirs = direction.astype(np.float64)
@@ -1451,7 +1478,7 @@ class _LightPass:
                     value += out_value
                     spec += out_spec
         value = value.astype(np.float32)
-        spec = spec.astype(np.float32)
+        spec = spec.astype(np.float32) if self.with_spec else None
         lights = self.lights
         sel = emitter >= 0
         if lights.n_luminaires and np.any(sel):
@@ -1550,7 +1577,8 @@ def render_buffers(
             buffers.emitter_response,
         )
         _put_rows(buffers.value_cd_m2, i, value)
-        _put_rows(buffers.spec_cd_m2, i, spec)
+        if spec is not None:
+            _put_rows(buffers.spec_cd_m2, i, spec)
         if keep_geometry:
             _keep_geometry(buffers.geometry, tile)
 
@@ -1614,7 +1642,7 @@ def evaluate_light(
         starts = progress_bar(range(0, S, chunk), "direct light", quiet=not progress, unit="chunk")
         for s0 in starts:
             sl = slice(s0, min(S, s0 + chunk))
-            value[sl], spec[sl] = light.evaluate(
+            value[sl], chunk_spec = light.evaluate(
                 g.point_m[sl],
                 g.normal[sl],
                 g.geo_normal[sl],
@@ -1624,6 +1652,8 @@ def evaluate_light(
                 em[sl],
                 buffers.emitter_response,
             )
+            if chunk_spec is not None:
+                spec[sl] = chunk_spec
     elif buffers.rays is not None:
 
         def work(tile: _Tile) -> None:
@@ -1633,7 +1663,8 @@ def evaluate_light(
                 tile.point, tile.normal, tile.geo, tile.direction, resp[i], obj[i], em[i], buffers.emitter_response
             )
             _put_rows(value, i, tile_value)
-            _put_rows(spec, i, tile_spec)
+            if tile_spec is not None:
+                _put_rows(spec, i, tile_spec)
 
         _for_each_tile(buffers.rays, buffers.spp, work, progress=progress, label="direct light")
     else:
