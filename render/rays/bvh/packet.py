@@ -112,10 +112,10 @@ def packet_load(
     ``directions`` (float64, (N, 3)) and ``t_max`` (float64) are C-contiguous.
     """
     return _packet_load(
-        data_pointer(lane),
-        data_pointer(origins),
-        data_pointer(directions),
-        data_pointer(t_max),
+        data_pointer(lane, np.float64),
+        data_pointer(origins, np.float64),
+        data_pointer(directions, np.float64),
+        data_pointer(t_max, np.float64),
         start,
         n,
         cos_max,
@@ -296,15 +296,15 @@ def packet_trace(
     any hit, stopping when every lane that can be hit is occluded. Results stay in ``lane``
     (:func:`lane_result`)."""
     _packet_trace(
-        data_pointer(nb),
-        data_pointer(ni),
-        data_pointer(tv),
-        data_pointer(ti),
-        data_pointer(lane),
+        data_pointer(nb, np.float32),
+        data_pointer(ni, np.int32),
+        data_pointer(tv, np.float64),
+        data_pointer(ti, np.int32),
+        data_pointer(lane, np.float64),
         n_lanes,
         t_min,
         k,
-        data_pointer(st_node),
+        data_pointer(st_node, np.int64),
         occlusion,
     )
 

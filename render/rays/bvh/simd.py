@@ -55,13 +55,16 @@ def lowest_bit(typingctx, x):
 
 
 @intrinsic
-def data_pointer(typingctx, a):
-    """Address of the first element of a C-contiguous array, as a ``voidptr`` for
-    ``numba.carray``. No reference is taken: the caller keeps the array alive while the pointer
-    is used."""
+def data_pointer(typingctx, a, dtype):
+    """Address of the first element of a C-contiguous array of element type ``dtype`` (a numpy
+    scalar type such as ``np.float64``), as a ``voidptr`` for ``numba.carray``. An array of
+    another layout or type does not compile. No reference is taken: the caller keeps the array
+    alive while the pointer is used."""
     if not (isinstance(a, types.Array) and a.layout == "C"):
         return None
-    sig = types.voidptr(a)
+    if not (isinstance(dtype, types.NumberClass) and dtype.instance_type == a.dtype):
+        return None
+    sig = types.voidptr(a, dtype)
 
     def codegen(context, builder, signature, args):
         ary = context.make_array(signature.args[0])(context, builder, args[0])

@@ -97,15 +97,15 @@ def closest_one(
     (int64), ``st_t`` (float64; stack, ``BVH.wide_stack`` entries) and ``work`` (float64, at
     least WIDE) are scratch arrays. All C-contiguous."""
     return _closest(
-        data_pointer(wb),
-        data_pointer(wi),
-        data_pointer(tv),
-        data_pointer(ti),
-        data_pointer(o),
-        data_pointer(d),
-        data_pointer(st_node),
-        data_pointer(st_t),
-        data_pointer(work),
+        data_pointer(wb, np.float32),
+        data_pointer(wi, np.int32),
+        data_pointer(tv, np.float64),
+        data_pointer(ti, np.int32),
+        data_pointer(o, np.float64),
+        data_pointer(d, np.float64),
+        data_pointer(st_node, np.int64),
+        data_pointer(st_t, np.float64),
+        data_pointer(work, np.float64),
         t_min,
         t_max,
     )
@@ -244,13 +244,13 @@ def any_one(
     """True if the ray ``o + t d`` hits any triangle with ``t_min < t < t_max`` (stops at the
     first found). Arguments as for :func:`closest_one`."""
     return _any(
-        data_pointer(wb),
-        data_pointer(wi),
-        data_pointer(tv),
-        data_pointer(o),
-        data_pointer(d),
-        data_pointer(st_node),
-        data_pointer(work),
+        data_pointer(wb, np.float32),
+        data_pointer(wi, np.int32),
+        data_pointer(tv, np.float64),
+        data_pointer(o, np.float64),
+        data_pointer(d, np.float64),
+        data_pointer(st_node, np.int64),
+        data_pointer(work, np.float64),
         t_min,
         t_max,
     )
