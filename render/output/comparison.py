@@ -806,12 +806,19 @@ def calculation_json(
     return data
 
 
-def _cores() -> int:
-    """Processor cores this process may run on."""
+def _processor_idles() -> bool:
+    """Whether a second process may expect a processor of its own: this process may run on
+    more than one core and the load average of the last minute is below their number (on a
+    busy machine the second process only adds its start-up to the work)."""
     try:
-        return len(os.sched_getaffinity(0))
+        cores = len(os.sched_getaffinity(0))
     except (AttributeError, OSError):
-        return os.cpu_count() or 1
+        cores = os.cpu_count() or 1
+    try:
+        load = os.getloadavg()[0]
+    except (AttributeError, OSError):
+        load = 0.0
+    return cores > 1 and load < cores
 
 
 def _calculation(
@@ -998,11 +1005,12 @@ def run_comparison(
     writer = ImageWriter()
     report_images = _ReportImages(out if report else None)
     # The calculation runs after the first view (its single-threaded parts beside the writer
-    # thread's encoding of that view's images) and its pictures are drawn in a second process,
-    # started now so that it has imported matplotlib by then, while the other views render; the
-    # same process draws two of the colour analysis' pictures while this one draws the others.
+    # thread's encoding of that view's images) and, where a processor idles, its pictures are
+    # drawn in a second process, started now so that it has imported matplotlib by then, while
+    # the other views render; the same process draws two of the colour analysis' pictures while
+    # this one draws the others.
     calculate = calculation and calculation_absent_reason(scene) is None
-    figures = FigureWorker(start=(calculate or analyse) and _cores() > 1)
+    figures = FigureWorker(start=(calculate or analyse) and _processor_idles())
     calc_text = {"lampcast.scene_sha256": study.scene_sha256, "lampcast.comparison": compared}
     calc_json: Callable[[], dict[str, Any]] | None = None
     try:
