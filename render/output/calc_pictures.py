@@ -697,8 +697,8 @@ def night_light_figure(
         ax.tick_params(axis="y", length=0)
         ax.tick_params(labelsize=7)
         ax.set_title(
-            f"Night light, horizontal illuminance on the fields ({who}): not the luminaires' light, "
-            "not in the class check",
+            "Night light, horizontal illuminance on the fields: not the luminaires' light, not in the class "
+            f"check\n(the same for {who}: it does not depend on the luminaires)",
             fontsize=9,
             loc="left",
         )
