@@ -69,7 +69,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from render.calc.fields import FACE_PLANES, face_plane_directions, half_circle_rule
-from render.light.luminaires import needs_new_evaluation
+from render.light.luminaires import LuminaireSet, needs_new_evaluation
 from render.scene.model import Setup
 
 if TYPE_CHECKING:
@@ -98,8 +98,9 @@ class InterreflectedGrids:
 
 @dataclass(frozen=True)
 class _Traced:
-    """The transport of every grid, traced with one set of photometric distributions."""
+    """The transport of every grid, traced with one set of photometric distributions (``lights``)."""
 
+    lights: LuminaireSet
     horizontal: dict[str, StoredTransport]
     vertical: dict[tuple[str, int], StoredTransport]
     semicylindrical: dict[tuple[str, int], StoredTransport]
@@ -148,12 +149,11 @@ class InterreflectedFields:
                     idx, w = half_circle_rule(self.planes, centre)
                     semi[(f.name, sign)] = stored.combined(w, index[idx])
                 start += n * self.planes
-        return _Traced(horizontal, vertical, semi)
+        return _Traced(study.lights(setup), horizontal, vertical, semi)
 
     def _for(self, setup: Setup | None) -> _Traced:
         for t in self.traced:
-            first = next(iter(t.horizontal.values()))
-            if not needs_new_evaluation(first.lights, setup):
+            if not needs_new_evaluation(t.lights, setup):
                 return t
         t = self._trace(setup)
         self.traced.append(t)
