@@ -101,11 +101,17 @@ def serve() -> None:
             data = pickle.dumps(reply, protocol=pickle.HIGHEST_PROTOCOL)
         except Exception as error:  # noqa: BLE001 - an unpicklable result or error
             data = pickle.dumps((number, False, _WorkerGone(f"reply could not be sent back: {error!r}")))
-        replies.write(data)
-        replies.flush()
+        try:
+            replies.write(data)
+            replies.flush()
+        except OSError:  # the caller is gone
+            break
     # Every file is written and every reply sent: the interpreter's teardown (matplotlib,
     # numba) is skipped, since the caller waits for this process to end.
-    replies.close()
+    try:
+        replies.close()
+    except OSError:
+        pass
     sys.stdout.flush()
     sys.stderr.flush()
     os._exit(0)
