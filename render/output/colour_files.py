@@ -32,7 +32,6 @@ from render.output import colour_pictures as pictures
 
 if TYPE_CHECKING:
     from render.analysis.colours import ColourAnalysis
-    from render.output.figure_worker import FigureWorker
     from render.study import RenderedView
     from render.vision.pipeline import DisplayResult
 
@@ -50,28 +49,21 @@ def write_colour_pictures(
     out_dir: Path,
     prefix: str = "",
     text: Mapping[str, str] | None = None,
-    figures: FigureWorker | None = None,
 ) -> dict[str, Path]:
     """Write the outlined view, swatch sheet, ΔE00 heat map and spectrum strips of ``result``
     into ``out_dir`` (file names start with ``prefix``; ``text``: PNG provenance text); returns
-    the paths written by picture (``outlined``, ``swatches``, ``heatmap``, ``spectra``). With
-    ``figures`` the outlined view and the spectrum strips are drawn in that worker process
-    while this one draws the other two (the same files)."""
-    from render.output.figure_worker import FigureWorker
-
+    the paths written by picture (``outlined``, ``swatches``, ``heatmap``, ``spectra``)."""
     out_dir.mkdir(parents=True, exist_ok=True)
     names = result.object_names
     setups = list(result.setups)
     written: dict[str, Path] = {}
     alt = colour_picture_alt_texts(result, [name for name, _ in lamps])
-    worker = figures or FigureWorker(start=False)
 
     def described(key: str) -> dict[str, str]:
         return {**(text or {}), "Description": alt[key]}
 
     object_id = pixel_object_ids(rendered[0].buffers)
-    outlined = worker.submit(
-        pictures.outlined_view,
+    written["outlined"] = pictures.outlined_view(
         displays[-1].srgb8,
         object_id,
         {o.id: o.name for o in result.objects},
@@ -90,13 +82,6 @@ def write_colour_pictures(
             if seen.lab is not None:
                 labs[i, j + 1] = seen.lab
             terms[i][j + 1] = _swatch_term(seen)
-    spectra = worker.submit(
-        pictures.spectrum_strip_figure,
-        list(lamps),
-        out_dir / f"{prefix}spectrum-strips.png",
-        title="the lamps' light spread by a grating",
-        png_text=described("spectra"),
-    )
     written["swatches"] = pictures.swatch_sheet(
         names,
         ["daylight (D65)", *setups],
@@ -125,7 +110,13 @@ def write_colour_pictures(
             title=f"the {shown} closest pairs of tagged objects (CIEDE2000)",
             png_text=described("heatmap"),
         )
-    return {"outlined": outlined.result(), **written, "spectra": spectra.result()}
+    written["spectra"] = pictures.spectrum_strip_figure(
+        list(lamps),
+        out_dir / f"{prefix}spectrum-strips.png",
+        title="the lamps' light spread by a grating",
+        png_text=described("spectra"),
+    )
+    return written
 
 
 def colour_picture_alt_texts(result: ColourAnalysis, lamp_names: Sequence[str] = ()) -> dict[str, str]:

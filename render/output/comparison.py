@@ -34,7 +34,6 @@ from __future__ import annotations
 
 import json
 import math
-import os
 from collections.abc import Callable, Mapping, Sequence
 from concurrent.futures import Future
 from dataclasses import dataclass, replace
@@ -48,7 +47,6 @@ from render.analysis.colours import CAVEAT as COLOUR_CAVEAT
 from render.analysis.colours import ColourAnalysis, PairDifference
 from render.errors import InputError, did_you_mean, input_error
 from render.fileio import atomic_write_text, file_stem
-from render.output.figure_worker import FigureWorker
 from render.output.metrics import (
     BEFORE,
     RESERVED_KEYS,
@@ -682,7 +680,6 @@ def _colour_analysis(
     observer: ObserverSettings,
     views: _ColourViews,
     out: Path,
-    figures: FigureWorker | None = None,
 ) -> tuple[ReportSection, ColourSummary]:
     """Colour analysis of the tagged objects under every setup, each object in the chosen view
     or in the view showing most of its main surface: the colours/ folder, the report section
@@ -706,7 +703,7 @@ def _colour_analysis(
     )
     text["lampcast.setup"] = _comparison_text(setups)
     lamps = study.setup_lamps(list(rendered), list(setups))
-    pics = write_colour_pictures(result, list(rendered), shared, lamps, cdir, text=text, figures=figures)
+    pics = write_colour_pictures(result, list(rendered), shared, lamps, cdir, text=text)
     write_colour_json(result, cdir / "colours.json")
     alts = colour_picture_alt_texts(result, [lamp for lamp, _ in lamps])
     section = colour_report_section(result, pics, out, alts)
@@ -806,32 +803,16 @@ def calculation_json(
     return data
 
 
-def _processor_idles() -> bool:
-    """Whether a second process may expect a processor of its own: this process may run on
-    more than one core and the load average of the last minute is below their number (on a
-    busy machine the second process only adds its start-up to the work)."""
-    try:
-        cores = len(os.sched_getaffinity(0))
-    except (AttributeError, OSError):
-        cores = os.cpu_count() or 1
-    try:
-        load = os.getloadavg()[0]
-    except (AttributeError, OSError):
-        load = 0.0
-    return cores > 1 and load < cores
-
-
 def _calculation(
     study: Study,
     setups: Sequence[Setup],
     keys: Sequence[str],
     out: Path,
     text: Mapping[str, str],
-    figures: FigureWorker | None = None,
 ) -> Callable[[], dict[str, Any]]:
-    """Calculate every setup (:func:`render.calc.run.run_calculation`) and its plan, and hand
-    the pictures for ``out/calculation`` to ``figures`` (drawn here when ``None``); returns a
-    function that waits for the pictures and gives :func:`calculation_json` of it all."""
+    """Calculate every setup (:func:`render.calc.run.run_calculation`) and its plan; returns a
+    function that draws the pictures into ``out/calculation`` and gives
+    :func:`calculation_json` of it all."""
     from render.calc.plan import compute_plan
     from render.calc.run import calc_study, run_calculation
     from render.output.calc_pictures import calc_picture_alt_texts, write_calc_pictures
@@ -844,15 +825,12 @@ def _calculation(
     plans = {s.name: compute_plan(used, s) for s in setups}
     word = "after" if len(setups) == 2 else "option"
     labels = {s.name: f"{'before' if i == 0 else word}: {s.name}" for i, s in enumerate(setups)}
-    folder = out / CALCULATION_FOLDER
-    pictures = (figures or FigureWorker(start=False)).submit(
-        write_calc_pictures, report, plans, folder, labels=labels, text=text
-    )
-    alts = calc_picture_alt_texts(report, labels)
 
     def finish() -> dict[str, Any]:
-        paths = pictures.result()
-        return calculation_json(report, keys, [p.relative_to(out).as_posix() for p in paths], alts)
+        paths = write_calc_pictures(report, plans, out / CALCULATION_FOLDER, labels=labels, text=text)
+        return calculation_json(
+            report, keys, [p.relative_to(out).as_posix() for p in paths], calc_picture_alt_texts(report, labels)
+        )
 
     return finish
 
@@ -1004,13 +982,9 @@ def run_comparison(
     # (not earlier: beside the render's parallel kernels they would only slow them down).
     writer = ImageWriter()
     report_images = _ReportImages(out if report else None)
-    # The calculation runs after the first view (its single-threaded parts beside the writer
-    # thread's encoding of that view's images) and, where a processor idles, its pictures are
-    # drawn in a second process, started now so that it has imported matplotlib by then, while
-    # the other views render; the same process draws two of the colour analysis' pictures while
-    # this one draws the others.
-    calculate = calculation and calculation_absent_reason(scene) is None
-    figures = FigureWorker(start=(calculate or analyse) and _processor_idles())
+    # The calculation's numbers are worked out after the first view (their single-threaded
+    # parts beside the writer thread's encoding of that view's images); its pictures are drawn
+    # at the end.
     calc_text = {"lampcast.scene_sha256": study.scene_sha256, "lampcast.comparison": compared}
     calc_json: Callable[[], dict[str, Any]] | None = None
     try:
@@ -1092,9 +1066,9 @@ def run_comparison(
             )
             del rendered, shared, adapted, rb
             if calculation and calc_json is None:
-                calc_json = _calculation(study, setups, keys, out, calc_text, figures)
+                calc_json = _calculation(study, setups, keys, out, calc_text)
         if calculation and calc_json is None:
-            calc_json = _calculation(study, setups, keys, out, calc_text, figures)
+            calc_json = _calculation(study, setups, keys, out, calc_text)
         lo, hi = luminance_scale([y for *_, ys in pending for y in ys])
         scale_text = {"lampcast.luminance_scale_cd_m2": f"{lo:g} to {hi:g}"}
         for images, metas, ys in pending:
@@ -1122,7 +1096,7 @@ def run_comparison(
         sections = tuple(extra_sections)
         colours = None
         if analyse:
-            section, colours = _colour_analysis(study, setups, observer, colour_views, out, figures)
+            section, colours = _colour_analysis(study, setups, observer, colour_views, out)
             sections += (section,)
             report_images.add([], section.images)  # written already
         del colour_views
@@ -1131,7 +1105,6 @@ def run_comparison(
         calc = calc_json() if calc_json is not None else None
     finally:
         writer.close()
-        figures.close()
     lamps: dict[str, LampFigures] = {}
     for description in descriptions.values():
         for lamp_id in description.lamps:
