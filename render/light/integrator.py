@@ -329,7 +329,7 @@ def _candidates(points, normals, active, lum, grid, eps, counts, out_lum, out_e,
             counts[i] = w
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy", _nrt=False)
+@numba.njit(cache=True, nogil=True, error_model="numpy")
 def _shadow_block(tree, n_pairs, lum_of, origin, direction, t_max, blocked, scratch, n_lanes, width):
     """Shadow rays of one block's (point, luminaire) pairs: the rays toward one luminaire are
     traced together, :data:`PACKET` at a time, through the binary tree when their directions
