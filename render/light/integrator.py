@@ -278,15 +278,15 @@ def _unshadowed(px, py, pz, nx_, ny_, nz_, k, lum):
 def _candidates(points, normals, active, lum, grid, eps, counts, out_lum, out_e, out_dir, out_tmax, first, stride):
     """Per point, the luminaires whose unshadowed contribution reaches ``eps``: written to row
     ``i`` of the (N, K) outputs, their number to ``counts[i]`` (``lum`` and ``grid`` as for
-    :func:`_direct_light`; the contribution as :func:`_unshadowed` computes it). Points in
-    items of :data:`_ITEM`, items ``first, first + stride, ...`` (:func:`render.threads.run_split`).
-    A serial kernel, which compiles in a fraction of a ``prange`` loop's time; like
-    :func:`_direct_light`, its loops bind no array to a new name (the tuples are unpacked
-    once), so numba counts no references in them."""
-    rot, pos, scale, table, c_grid, g_grid, n_c, n_g, inv_c, inv_g, cd, channel, clearance = lum
+    :func:`_direct_light`). Points in items of :data:`_ITEM`, items ``first, first + stride,
+    ...`` (:func:`render.threads.run_split`). A serial kernel, which compiles in a fraction of a
+    ``prange`` loop's time. It serves the calculations' few thousand points, so it calls
+    :func:`_unshadowed` (whose tuple unpacking numba counts references for) rather than
+    writing its arithmetic out as :func:`_direct_light` does for the render's millions."""
+    pos = lum[1]
+    clearance = lum[12]
     box, cell, nx, ny, cell_start, cell_items = grid
     n = points.shape[0]
-    n_lum = pos.shape[0]
     for item in range(first, (n + _ITEM - 1) // _ITEM, stride):
         for i in range(item * _ITEM, min(n, (item + 1) * _ITEM)):
             counts[i] = 0
@@ -295,29 +295,14 @@ def _candidates(points, normals, active, lum, grid, eps, counts, out_lum, out_e,
             px = points[i, 0]
             py = points[i, 1]
             pz = points[i, 2]
-            snx = normals[i, 0]
-            sny = normals[i, 1]
-            snz = normals[i, 2]
             ci = _cell_of(px, py, pz, box, cell, nx, ny)
             q0 = cell_start[ci] if ci >= 0 else 0
-            q1 = cell_start[ci + 1] if ci >= 0 else n_lum
+            q1 = cell_start[ci + 1] if ci >= 0 else pos.shape[0]
             w = 0
             for q in range(q0, q1):
                 k = cell_items[q] if ci >= 0 else q
-                # _unshadowed: behind the surface or at the point, none.
-                dx = px - pos[k, 0]
-                dy = py - pos[k, 1]
-                dz = pz - pos[k, 2]
-                d2 = dx * dx + dy * dy + dz * dz
-                if d2 <= 1e-12:
-                    continue
-                d = math.sqrt(d2)
-                cos_s = -(snx * dx + sny * dy + snz * dz) / d
-                if cos_s <= 0.0:
-                    continue
-                inten = _intensity_fast(rot, c_grid, g_grid, n_c, n_g, inv_c, inv_g, cd, k, table[k], dx, dy, dz)
-                e = scale[k] * inten * cos_s / d2
-                if e < eps:
+                e, d = _unshadowed(px, py, pz, normals[i, 0], normals[i, 1], normals[i, 2], k, lum)
+                if e < eps or d == 0.0:
                     continue
                 out_lum[i, w] = k
                 out_e[i, w] = e
