@@ -545,7 +545,8 @@ def cmd_study(args: argparse.Namespace) -> int:
 def cmd_calc(args: argparse.Namespace) -> int:
     """Calculation fields, road luminance, TI, obtrusive light, sky, energy and a class check per
     setup (:mod:`render.calc.run`); the scene's ``[calc]`` gives the defaults the options
-    override. ``--csv DIR`` also writes one CSV per field and setup."""
+    override. ``--csv DIR`` also writes one CSV per field and setup, and per footway face grid,
+    quantity and setup."""
     from render.calc.classes import CAUTION as CALC_CAUTION
     from render.calc.run import calc_options, run_calculation
     from render.limits import MAX_BOUNCES
@@ -1027,7 +1028,12 @@ def build_parser() -> argparse.ArgumentParser:
         help="leave the scene's [night] light (sky glow, moonlight, lit windows) out; with it, its illuminance "
         "on the fields is given beside the luminaires' figures, never in them",
     )
-    p.add_argument("--csv", metavar="DIR", help="also write one CSV of grid values per field and setup")
+    p.add_argument(
+        "--csv",
+        metavar="DIR",
+        help="also write the grid values as CSV: one file per field and setup, and per footway face grid "
+        "(vertical, semicylindrical) and setup",
+    )
     p.add_argument("--pictures", metavar="DIR", help="also write the isolux plan, heat map and bar chart PNGs")
     p.set_defaults(func=cmd_calc)
 

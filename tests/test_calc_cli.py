@@ -97,10 +97,13 @@ def test_csv_values_equal_the_json_grid(tmp_path, capsys):
     out = tmp_path / "grids"
     data = _run_json(capsys, ["calc", str(MINIMAL), "--csv", str(out), "--json", "-q"])
     files = [Path(p) for p in data["csv_files"]]
-    assert len(files) == len(data["setups"][0]["fields"]) == 4
+    fields = data["setups"][0]["fields"]
+    # Each field's file, then each footway's face grid files (vertical, semicylindrical).
+    footways = {f["name"] for f in data["setups"][0]["faces"]}
+    assert len(fields) == 4 and len(files) == len(fields) + 2 * len(footways)
     study = Study(MINIMAL)
     points = {f.name: f.points_m for f in row_fields(study.scene)}
-    for field, path in zip(data["setups"][0]["fields"], files, strict=True):
+    for field, path in zip(fields, files[: len(fields)], strict=True):
         assert path.parent == out and path.exists()
         with path.open(encoding="utf-8", newline="") as fh:
             rows = list(csv.reader(fh))

@@ -22,16 +22,33 @@ Sources of the expected values:
 
 from __future__ import annotations
 
+import csv
+import io
 import math
+from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
 import pytest
 
-from render.calc.fields import INTERREFLECTED_LABEL, CalculationField, half_circle_rule, row_fields
+from render.calc.fields import (
+    INTERREFLECTED_LABEL,
+    CalculationField,
+    evaluate_face_field,
+    half_circle_rule,
+    row_fields,
+)
 from render.calc.interreflection import interreflected_on_fields
 from render.calc.run import calc_options, calc_study, run_calculation
-from render.output.calc_text import format_calculation
+from render.fileio import file_stem
+from render.output.calc_text import (
+    FACE_COLUMNS,
+    FACE_QUANTITIES,
+    INTERREFLECTED_COLUMNS,
+    face_grid_csvs,
+    format_calculation,
+    write_field_csvs,
+)
 from render.study import Study
 
 SCENES = Path(__file__).resolve().parents[1] / "scenes" / "tests"
@@ -318,3 +335,103 @@ def test_relighting_is_a_multiply_of_the_stored_transport(street):
         np.testing.assert_allclose(
             face_dim.interreflected_semicylindrical_lx, 0.5 * face_none.interreflected_semicylindrical_lx
         )
+
+
+# ------------------------------------------------------------------------------------------
+# The face grids' CSV files (render.output.calc_text): the analytic ground, the run's arrays
+# ------------------------------------------------------------------------------------------
+
+
+def _csv(text: str) -> tuple[list[str], np.ndarray]:
+    """(header, values) of a CSV text of numbers."""
+    rows = list(csv.reader(io.StringIO(text)))
+    return rows[0], np.array(rows[1:], dtype=np.float64)
+
+
+def test_face_grid_csv_reproduces_the_lambertian_ground(ground):
+    # The CSV's interreflected column over the lit ground: the same Lambertian integral and
+    # tolerance as above (4 standard errors, each under 1 %); −x by the ground's mirror symmetry
+    # about the source's foot (the points and the strip are symmetric: the same mean as +x).
+    study, field, ir = ground
+    grids = ir.at(None)
+    faces = []
+    for sign in (1, -1):
+        face = evaluate_face_field(study, field, None, facing=(float(sign), 0.0, 0.0), height_m=FACE_M)
+        faces.append(
+            replace(
+                face,
+                interreflected_vertical_lx=grids.vertical[(field.name, sign)],
+                interreflected_semicylindrical_lx=grids.semicylindrical[(field.name, sign)],
+            )
+        )
+    texts = dict(face_grid_csvs(field, faces))
+    assert list(texts) == [part for part, _ in FACE_QUANTITIES]
+    tri = study.mesh.triangles_m.reshape(-1, 3)
+    rect = (float(tri[:, 0].min()), float(tri[:, 0].max()), float(tri[:, 1].min()), float(tri[:, 1].max()))
+    intensity = LUMENS / (4.0 * math.pi)
+
+    def ground_lx(x, y):
+        d2 = (x - SOURCE_M[0]) ** 2 + (y - SOURCE_M[1]) ** 2 + SOURCE_M[2] ** 2
+        return intensity * SOURCE_M[2] / d2**1.5
+
+    rho = _luminous_reflectance(study)
+    ref = np.array([_strip_integrals(p + [0.0, 0.0, FACE_M], rect, ground_lx) for p in field.points_m]) * rho / math.pi
+    expected = {
+        ("vertical", 0.0): ref[:, 0].mean(),
+        ("vertical", 180.0): ref[:, 1].mean(),
+        ("semicylindrical", 0.0): ref[:, 2].mean(),
+        ("semicylindrical", 180.0): ref[:, 2].mean(),
+    }
+    for part, column in FACE_QUANTITIES:
+        head, values = _csv(texts[part])
+        assert head == [*FACE_COLUMNS, column, *INTERREFLECTED_COLUMNS]
+        bounced = values[:, head.index(INTERREFLECTED_COLUMNS[0])]
+        total = values[:, head.index(INTERREFLECTED_COLUMNS[1])]
+        np.testing.assert_array_equal(total, values[:, 4] + bounced)
+        for azimuth in (0.0, 180.0):
+            rows = values[:, 3] == azimuth
+            assert rows.sum() == 64
+            np.testing.assert_array_equal(values[rows, :3], field.points_m + [0.0, 0.0, FACE_M])
+            got = bounced[rows]
+            se = got.std(ddof=1) / math.sqrt(got.size)
+            want = expected[(part, azimuth)]
+            assert abs(got.mean() - want) <= 4.0 * se, (part, azimuth, got.mean(), want, se)
+            assert se < 0.01 * want
+    # The infinite ground's E_v = E_sc = ρE/2, which the finite strip approaches (0.97 of it).
+    e0 = intensity / SOURCE_M[2] ** 2
+    assert 0.9 < expected[("semicylindrical", 0.0)] / (rho * e0 / 2.0) < 1.0
+
+
+def test_face_grid_csvs_hold_the_calculation_s_arrays(street, tmp_path):
+    # Every setup's face grid files: the points 1.5 m above the footway, the facing azimuth
+    # (0° for +x, 180° for −x), and each column equal to the JSON record's grid to the bit;
+    # the interreflected columns only with bounces (common practice, no source).
+    study, _, direct, bounced = street
+    points = {f.name: f.points_m for f in row_fields(study.scene)}
+    for report, out in ((direct, tmp_path / "direct"), (bounced, tmp_path / "bounced")):
+        written = write_field_csvs(study.scene, report, out)
+        footways = {face.name for s in report.setups for face in s.faces}
+        assert len(written) == len(report.setups) * (len(report.setups[0].fields) + 2 * len(footways))
+        for s in report.setups:
+            setup = s.setup or "scene"
+            for name in footways:
+                records = [face.to_json() for face in s.faces if face.name == name]
+                assert [r["facing"][0] for r in records] == [1.0, -1.0]
+                for part, column in FACE_QUANTITIES:
+                    path = out / f"{file_stem(f'{setup}-{name}-{part}')}.csv"
+                    assert path in written
+                    head, values = _csv(path.read_text(encoding="utf-8"))
+                    n = points[name].shape[0]
+                    assert values.shape[0] == 2 * n
+                    np.testing.assert_array_equal(values[:, :3], np.tile(points[name] + [0.0, 0.0, FACE_M], (2, 1)))
+                    np.testing.assert_array_equal(values[:, 3], np.repeat([0.0, 180.0], n))
+                    np.testing.assert_array_equal(values[:, 4], np.ravel([r[f"{part}_lx"] for r in records]))
+                    if report is direct:
+                        assert head == [*FACE_COLUMNS, column]
+                        continue
+                    assert head == [*FACE_COLUMNS, column, *INTERREFLECTED_COLUMNS]
+                    extra = [r["with_interreflected"] for r in records]
+                    np.testing.assert_array_equal(
+                        values[:, 5], np.ravel([e[f"interreflected_{part}_lx"] for e in extra])
+                    )
+                    np.testing.assert_array_equal(values[:, 6], np.ravel([e[f"{part}_lx"] for e in extra]))

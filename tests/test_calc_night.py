@@ -226,3 +226,44 @@ def test_report_table_of_the_night_light(tmp_path):
 
     assert NIGHT_LABEL in _png_text(report, "plan", None)["lampcast.night_light"]
     assert "lampcast.night_light" not in _png_text(plain, "plan", None)
+
+
+def test_face_grid_csvs_carry_the_night_light(tmp_path):
+    # The face grid files' night columns: moonlight toward azimuth 150° (from +y toward +x)
+    # reaches a vertical plane facing +x at cos α = 0.5 and one facing −x not at all, so
+    # night_lx = E_n·cos h·max(cos α, 0) on the vertical grid (cosine law, analytic, the
+    # moon's direct part exact with bounces 0) and E_n·cos h·(1 + cos α)/π within 0.3 % on the
+    # half-cylinders (closed form of render/calc/fields.py; trapezoidal rule); the total column
+    # is the luminaires' direct value plus it.
+    import csv
+
+    from render.output.calc_text import FACE_COLUMNS, FACE_QUANTITIES, NIGHT_COLUMNS
+
+    En, h, azimuth = 0.2, 25.0, 150.0
+    path = _scene(tmp_path, f"moon_illuminance_lx = {En}\nmoon_elevation_deg = {h}\nmoon_azimuth_deg = {azimuth}\n")
+    study, report = _calc(path)
+    files = write_field_csvs(study.scene, report, tmp_path / "csv")
+    cos_a = math.sin(math.radians(azimuth))  # toward the moon (sin a, cos a), against facing +x
+    direct_moon = En * math.cos(math.radians(h))
+    want = {
+        "vertical": {0.0: direct_moon * max(cos_a, 0.0), 180.0: direct_moon * max(-cos_a, 0.0)},
+        "semicylindrical": {0.0: direct_moon * (1 + cos_a) / math.pi, 180.0: direct_moon * (1 - cos_a) / math.pi},
+    }
+    for name in ("footway right", "footway left"):
+        faces = [f for f in report.setups[0].faces if f.name == name]
+        for part, column in FACE_QUANTITIES:
+            (file,) = [p for p in files if p.name == f"scene-{name.replace(' ', '-')}-{part}.csv"]
+            with file.open(encoding="utf-8", newline="") as fh:
+                rows = list(csv.reader(fh))
+            assert rows[0] == [*FACE_COLUMNS, column, *NIGHT_COLUMNS]
+            values = np.array(rows[1:], dtype=np.float64)
+            night = values[:, rows[0].index(NIGHT_COLUMNS[0])]
+            direct = values[:, rows[0].index(column)]
+            np.testing.assert_array_equal(values[:, rows[0].index(NIGHT_COLUMNS[1])], direct + night)
+            grids = [f.vertical_lx if part == "vertical" else f.semicylindrical_lx for f in faces]
+            np.testing.assert_array_equal(direct, np.concatenate([g.ravel() for g in grids]))
+            for facing in (0.0, 180.0):
+                rows_of = values[:, 3] == facing
+                assert rows_of.sum() == faces[0].vertical_lx.size
+                rtol = 1e-12 if part == "vertical" else 3e-3
+                np.testing.assert_allclose(night[rows_of], want[part][facing], rtol=rtol, atol=1e-15)

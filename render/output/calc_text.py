@@ -2,30 +2,60 @@
 
 :func:`format_calculation` gives a compact table per setup (units in the headings) and the
 standing caution; :func:`write_field_csvs` writes one CSV per field and setup with the grid's
-points and horizontal illuminance (``x_m,y_m,illuminance_lx``), each file atomically. Figures
-with interreflected light (``lampcast calc --bounces N``) are rows and columns of their own,
-labelled :data:`render.calc.fields.INTERREFLECTED_LABEL`; the direct figures stay as they are.
-With the scene's ``[night]`` light, rows marked "night light" give its illuminance on each
+points and horizontal illuminance (``x_m,y_m,illuminance_lx``), and one per footway face grid,
+setup and quantity (vertical and semicylindrical illuminance 1.5 m above the footway's points,
+every facing the calculation has, the facing as an azimuth column), each file atomically.
+Figures with interreflected light (``lampcast calc --bounces N``) are rows and columns of their
+own, labelled :data:`render.calc.fields.INTERREFLECTED_LABEL`; the direct figures stay as they
+are. With the scene's ``[night]`` light, rows marked "night light" give its illuminance on each
 field and face grid beside the luminaires' (:mod:`render.calc.night`, labelled
 :data:`render.calc.night.NIGHT_LABEL`), and the CSVs get the columns ``night_lx`` and
-``illuminance_incl_night_not_en13201_lx``.
+``illuminance_incl_night_not_en13201_lx``. Every column name is declared once below
+(:data:`FIELD_COLUMNS`, :data:`FACE_COLUMNS`, :data:`INTERREFLECTED_COLUMNS`,
+:data:`NIGHT_COLUMNS`).
 """
 
 from __future__ import annotations
 
 import os
+from collections.abc import Sequence
 from pathlib import Path
 
 import numpy as np
 
-from render.calc.fields import INTERREFLECTED_LABEL, row_fields
-from render.calc.night import NIGHT_LABEL
+from render.calc.fields import INTERREFLECTED_LABEL, CalculationField, FaceResult, row_fields
+from render.calc.night import NIGHT_LABEL, NightGrid
 from render.calc.run import CalculationReport
 from render.calc.sky import MAP_SOURCE
 from render.fileio import atomic_write_text, file_stem
 from render.scene.model import Scene
 
-__all__ = ["format_calculation", "write_field_csvs"]
+__all__ = [
+    "FACE_COLUMNS",
+    "FACE_QUANTITIES",
+    "FIELD_COLUMNS",
+    "INTERREFLECTED_COLUMNS",
+    "NIGHT_COLUMNS",
+    "face_grid_csvs",
+    "format_calculation",
+    "write_field_csvs",
+]
+
+#: A field CSV's columns: the point on the lane or footway (scene coordinates, m) and its
+#: horizontal illuminance (the luminaires' direct light, as the standard's calculation takes it).
+FIELD_COLUMNS = ("x_m", "y_m", "illuminance_lx")
+#: A face grid CSV's leading columns: the point 1.5 m above the footway (scene coordinates, m)
+#: and the horizontal direction the vertical plane or half-cylinder faces there, in degrees from
+#: the scene's +x toward +y (0: facing +x, 180: facing -x; on a road it turns with the road).
+FACE_COLUMNS = ("x_m", "y_m", "z_m", "facing_azimuth_deg_from_x_toward_y")
+#: The face grid quantities: (file name part, value column).
+FACE_QUANTITIES = (("vertical", "vertical_illuminance_lx"), ("semicylindrical", "semicylindrical_illuminance_lx"))
+#: Columns added with interreflected light: its illuminance alone, and the direct value plus it
+#: (not part of the EN 13201 calculation).
+INTERREFLECTED_COLUMNS = ("interreflected_lx", "illuminance_incl_interreflected_not_en13201_lx")
+#: Columns added with the night light: its illuminance alone, and the luminaires' direct value
+#: plus it (not part of the EN 13201 calculation).
+NIGHT_COLUMNS = ("night_lx", "illuminance_incl_night_not_en13201_lx")
 
 
 def _num(x: float | None, digits: int = 2) -> str:
@@ -192,40 +222,110 @@ def format_calculation(report: CalculationReport) -> str:
     return "\n".join(lines)
 
 
+def _grid_csv(
+    head: Sequence[str],
+    leading: np.ndarray,
+    values: np.ndarray,
+    interreflected: np.ndarray | None,
+    night: np.ndarray | None,
+) -> str:
+    """A grid's CSV text: the columns ``head`` (the ``leading`` (n, k) numbers', then the
+    value's), one row per point with ``values`` (n,); with ``interreflected`` (n,) the
+    :data:`INTERREFLECTED_COLUMNS` (it, and the value plus it), with ``night`` (n,) the
+    :data:`NIGHT_COLUMNS` (it, and the value plus it). Numbers as Python writes a float exactly."""
+    names = list(head)
+    columns = [*np.asarray(leading, np.float64).T, values]
+    if interreflected is not None:
+        names += INTERREFLECTED_COLUMNS
+        columns += [interreflected, values + interreflected]
+    if night is not None:
+        names += NIGHT_COLUMNS
+        columns += [night, values + night]
+    rows = np.column_stack([np.asarray(c, np.float64) for c in columns]).tolist()
+    return "\n".join([",".join(names), *(",".join(map(repr, row)) for row in rows)]) + "\n"
+
+
 def write_field_csvs(scene: Scene, report: CalculationReport, out_dir: str | os.PathLike) -> list[Path]:
-    """One CSV per setup and field in ``out_dir``: ``x_m,y_m,illuminance_lx`` per grid point,
-    in the order of the fields' points (along the street, then across); with interreflected
-    light two more columns, ``interreflected_lx`` and
+    """One CSV per setup and field in ``out_dir`` (``SETUP-FIELD.csv``): ``x_m,y_m,illuminance_lx``
+    per grid point, in the order of the fields' points (along the street, then across); with
+    interreflected light two more columns, ``interreflected_lx`` and
     ``illuminance_incl_interreflected_not_en13201_lx`` (direct plus interreflected: not part of
     the EN 13201 calculation); with the night light two more, ``night_lx`` and
-    ``illuminance_incl_night_not_en13201_lx`` (the luminaires' direct light plus it). Returns
-    the files."""
+    ``illuminance_incl_night_not_en13201_lx`` (the luminaires' direct light plus it).
+
+    Then, per setup, footway and quantity, one CSV of its face grid
+    (``SETUP-FOOTWAY-vertical.csv``, ``SETUP-FOOTWAY-semicylindrical.csv``):
+    ``x_m,y_m,z_m,facing_azimuth_deg_from_x_toward_y`` and ``vertical_illuminance_lx`` or
+    ``semicylindrical_illuminance_lx`` (direct light), a row per point and facing (every facing
+    the calculation has, in its order, each over the field's points in their order), with the
+    same interreflected and night-light columns as the fields' when the calculation has them.
+    Returns the files (each setup's fields, then its face grids)."""
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
     fields = {f.name: f for f in row_fields(scene)}
     written = []
     for s in report.setups:
+        setup = s.setup or "scene"
         for result in s.fields:
-            field = fields[result.name]
-            values = result.illuminance_lx.ravel()
-            extra = result.interreflected_lx
-            if extra is None:
-                rows = ["x_m,y_m,illuminance_lx"]
-                rows += [
-                    f"{p[0]!r},{p[1]!r},{float(e)!r}" for p, e in zip(field.points_m.tolist(), values, strict=True)
-                ]
-            else:
-                rows = ["x_m,y_m,illuminance_lx,interreflected_lx,illuminance_incl_interreflected_not_en13201_lx"]
-                rows += [
-                    f"{p[0]!r},{p[1]!r},{float(e)!r},{float(r)!r},{float(e + r)!r}"
-                    for p, e, r in zip(field.points_m.tolist(), values, extra.ravel(), strict=True)
-                ]
-            if result.night is not None:
-                night = result.night.illuminance_lx.ravel()
-                rows[0] += ",night_lx,illuminance_incl_night_not_en13201_lx"
-                rows[1:] = [
-                    f"{row},{float(n)!r},{float(e + n)!r}" for row, e, n in zip(rows[1:], values, night, strict=True)
-                ]
-            stem = file_stem(f"{s.setup or 'scene'}-{result.name}")
-            written.append(atomic_write_text(out / f"{stem}.csv", "\n".join(rows) + "\n"))
+            night = None if result.night is None else result.night.illuminance_lx.ravel()
+            extra = None if result.interreflected_lx is None else result.interreflected_lx.ravel()
+            text = _grid_csv(
+                FIELD_COLUMNS, fields[result.name].points_m[:, :2], result.illuminance_lx.ravel(), extra, night
+            )
+            written.append(atomic_write_text(out / f"{file_stem(f'{setup}-{result.name}')}.csv", text))
+        for name in dict.fromkeys(face.name for face in s.faces):
+            faces = [face for face in s.faces if face.name == name]
+            for part, text in face_grid_csvs(fields[name], faces):
+                written.append(atomic_write_text(out / f"{file_stem(f'{setup}-{name}-{part}')}.csv", text))
     return written
+
+
+def face_grid_csvs(field: CalculationField, faces: Sequence[FaceResult]) -> list[tuple[str, str]]:
+    """(quantity, CSV text) of each of :data:`FACE_QUANTITIES` for the face grids ``faces`` of
+    ``field`` (every facing of one footway, all with or all without interreflected and night
+    light): :data:`FACE_COLUMNS` and the quantity's column, a row per point and facing, the
+    facings in the order given, each over the field's points in their order; with
+    interreflected light the :data:`INTERREFLECTED_COLUMNS`, with night light the
+    :data:`NIGHT_COLUMNS`."""
+    leading = np.concatenate(
+        [
+            np.column_stack(
+                [
+                    field.points_m[:, :2],
+                    field.points_m[:, 2] + face.height_m,
+                    _azimuth_deg(field.to_world(np.asarray(face.facing, np.float64))),
+                ]
+            )
+            for face in faces
+        ]
+    )
+    out = []
+    for part, column in FACE_QUANTITIES:
+        grids = [_face_grids(face, part) for face in faces]
+        text = _grid_csv(
+            (*FACE_COLUMNS, column),
+            leading,
+            np.concatenate([np.ravel(direct) for direct, _, _ in grids]),
+            _joined([bounced for _, bounced, _ in grids]),
+            _joined([None if night is None else night.illuminance_lx for _, _, night in grids]),
+        )
+        out.append((part, text))
+    return out
+
+
+def _face_grids(face: FaceResult, part: str) -> tuple[np.ndarray, np.ndarray | None, NightGrid | None]:
+    """(direct, interreflected, night light) grids of ``face`` for the quantity ``part`` of
+    :data:`FACE_QUANTITIES`."""
+    if part == "vertical":
+        return face.vertical_lx, face.interreflected_vertical_lx, face.night_vertical
+    return face.semicylindrical_lx, face.interreflected_semicylindrical_lx, face.night_semicylindrical
+
+
+def _joined(grids: Sequence[np.ndarray | None]) -> np.ndarray | None:
+    """The ``grids`` one after another, flattened (None when any of them is None)."""
+    return None if any(g is None for g in grids) else np.concatenate([np.ravel(g) for g in grids])
+
+
+def _azimuth_deg(directions: np.ndarray) -> np.ndarray:
+    """(n,) the azimuth of horizontal ``directions`` (n, 3), degrees from +x toward +y in [0, 360)."""
+    return np.degrees(np.arctan2(directions[:, 1], directions[:, 0])) % 360.0
