@@ -172,3 +172,69 @@ def test_a_row_along_a_road_is_calculated_in_the_comparison(tmp_path):
     assert {k: metrics["calculation"][k] for k in direct} == direct
     means = [s["fields"][0]["mean_lx"] for s in direct["setups"]]
     assert means[1] == pytest.approx(0.5 * means[0], rel=1e-9)
+
+
+def _face_rows(section) -> list:
+    """The body rows (those with cells) of the footway face tables in the calculation section."""
+    tables = [n for n in section.iter() if n.tag == "table" and n.attrs.get("id", "").startswith("calculation-faces-")]
+    return [row for t in tables for row in t.iter() if row.tag == "tr" and any(c.tag == "td" for c in row.iter())]
+
+
+def test_report_shows_the_face_grids_and_their_interreflected_rows_only_with_bounces(compared):
+    # The footway face tables give, per lighting, the figures the calculation's text gives per
+    # face grid (E_sc and E_v mean and minimum), each cell the number at its metrics path;
+    # the "+ interreflected" rows, labelled as not part of the EN 13201 calculation, appear only
+    # when the calculation traced interreflections (common practice, no source).
+    from render.calc.fields import INTERREFLECTED_LABEL
+    from render.calc.run import calc_options
+    from render.output.comparison import calculation_json
+    from render.output.metrics import ComparisonMetrics
+    from render.output.report import render_report
+    from render.output.report.page import FACE_COLUMNS
+
+    scene, out, metrics, text = compared
+    calc = metrics["calculation"]
+    faces = [len(s["faces"]) for s in calc["setups"]]
+    assert faces == [4, 4]
+    section = _section(text)
+    rows = _face_rows(section)
+    assert len(rows) == sum(faces)
+    assert "+ interreflected" not in section.text() and INTERREFLECTED_LABEL not in section.text()
+    for cell in (n for row in rows for n in row.iter() if "data-metric" in n.attrs):
+        assert "with_interreflected" not in cell.attrs["data-metric"]
+        assert json.loads(cell.attrs["data-value"]) == resolve(metrics, cell.attrs["data-metric"])
+    paths = {n.attrs["data-metric"] for row in rows for n in row.iter() if "data-metric" in n.attrs}
+    for i, n in enumerate(faces):
+        for j in range(n):
+            for _, key in FACE_COLUMNS:
+                assert f"calculation.setups.{i}.faces.{j}.{key}" in paths
+
+    # The same comparison's calculation with 2 bounces, as metrics.json would hold it.
+    study = Study(scene)
+    setups = [parse_setup("old", study.scene, "--before"), parse_setup("new", study.scene, "--after")]
+    report = run_calculation(study, setups, calc_options(study.scene, bounces=2))
+    bounced = json.loads(
+        json.dumps(calculation_json(report, calc["setup_keys"], calc["pictures"], calc["picture_alts"]))
+    )
+    with_bounces = {**metrics, "calculation": bounced}
+    section = _section(render_report(ComparisonMetrics.from_json(with_bounces), out))
+    rows = _face_rows(section)
+    assert len(rows) == 2 * sum(faces)
+    labelled = [row for row in rows if "+ interreflected" in row.text()]
+    assert len(labelled) == sum(faces)
+    for row in labelled:
+        assert INTERREFLECTED_LABEL in row.text()
+        cells = [n for n in row.iter() if "data-metric" in n.attrs]
+        assert [c.attrs["data-metric"].rsplit(".", 1)[-1] for c in cells] == [key for _, key in FACE_COLUMNS]
+        for cell in cells:
+            path = cell.attrs["data-metric"]
+            assert ".with_interreflected." in path
+            value = resolve(with_bounces, path)
+            assert json.loads(cell.attrs["data-value"]) == value
+            assert cell.children[0] == format_value(value, cell.attrs["data-rule"])
+    assert "up to 2 bounces" in section.text()
+    # The direct rows are the same figures as without bounces.
+    for i, n in enumerate(faces):
+        for j in range(n):
+            for _, key in FACE_COLUMNS:
+                assert bounced["setups"][i]["faces"][j][key] == calc["setups"][i]["faces"][j][key]

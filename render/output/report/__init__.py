@@ -13,8 +13,9 @@
 * per lighting setup: its luminaire groups and the lamp figures (CCT, Duv, Ra, R9, CIE 224 Rf,
   TM-30 Rf/Rg, S/P, luminous efficacy of radiation, blue and notch-filterable fractions);
 * further sections (the colour analysis); the calculations (headline figures per setup, the
-  class check, the isolux plan, grid heat map and bar chart, the standing caution) when the
-  comparison ran them; the observer and render settings, and a footer with the tool version
+  class check, the footways' semicylindrical and vertical illuminance per setup (with rows of
+  interreflected light, labelled, when the calculation traced it), the isolux plan, grid heat
+  map and bar chart, the standing caution) when the comparison ran them; the observer and render settings, and a footer with the tool version
   and the scene hash.
 
 How it is made:

@@ -299,7 +299,8 @@ class SkyPart:
 @dataclass(frozen=True)
 class CalculationPart:
     """The "Calculations" section: what was calculated (``paragraphs``), the standing caution,
-    the tables (headline figures per setup, class checks) and pictures with their alt texts;
+    the tables (headline figures per setup, class checks, the footways' face grids per setup
+    with their interreflected rows when traced, the night light) and pictures with their alt texts;
     ``absent`` says why there is no calculation (then nothing else is shown); ``sky`` the
     light to the sky (:class:`SkyPart`)."""
 
@@ -643,6 +644,80 @@ NIGHT_TEXT = (
     "headline figures or the class check, which judge the luminaires' light alone."
 )
 
+#: What the "Calculations" section adds when the footway face grids carry interreflected light
+#: (``{bounces}``: the interreflections traced; ``{label}``: the rows' label).
+INTERREFLECTED_TEXT = (
+    "The footway face tables also give, in rows marked \u201c+ interreflected\u201d, the figures with the "
+    "luminaires' light that reaches the faces by way of reflections (up to {bounces} bounces): {label}. "
+    "The headline figures and the class check stay direct light, except the upward total, which follows the "
+    "upward exitance map (\u201cLight to the sky\u201d)."
+)
+
+#: The footway face tables' columns, the figures the calculation's text gives per face grid:
+#: (heading, key in a face's record and in its "with_interreflected" record).
+FACE_COLUMNS: tuple[tuple[str, str], ...] = (
+    ("E_sc mean", "semicylindrical_mean_lx"),
+    ("E_sc minimum", "semicylindrical_min_lx"),
+    ("E_v mean", "vertical_mean_lx"),
+    ("E_v minimum", "vertical_min_lx"),
+)
+
+
+def _facing(face: dict[str, Any]) -> str:
+    """How the page names a face grid's facing along the street or road (\"+x\" or \"-x\")."""
+    return "+x" if (face.get("facing") or [1.0])[0] > 0 else "-x"
+
+
+def _face_tables(setups: Sequence[dict[str, Any]], names: Sequence[str]) -> list[Table]:
+    """Per setup, the semicylindrical and vertical illuminance on the footways' face grids
+    (mean and minimum, as the calculation's text gives them), each face grid a row and, when
+    its record has interreflected light, a row "+ interreflected" under it with the record's
+    label; none for a setup without face grids."""
+    tables = []
+    for i, s in enumerate(setups):
+        faces = [f for f in s.get("faces") or () if isinstance(f, dict)]
+        if not faces:
+            continue
+        rows = []
+        for j, f in enumerate(faces):
+            base = f"calculation.setups.{i}.faces.{j}"
+            grid = f"{f.get('name')}, facing {_facing(f)}"
+            rows.append(
+                Row(
+                    RowHead(grid),
+                    tuple(
+                        NumberCell(f"{base}.{key}", f.get(key), "sig3", reason="not computed")
+                        for _, key in FACE_COLUMNS
+                    ),
+                )
+            )
+            bounced = f.get("with_interreflected")
+            if isinstance(bounced, dict):
+                rows.append(
+                    Row(
+                        RowHead(f"{grid}: + interreflected", sub=str(bounced.get("label") or "")),
+                        tuple(
+                            NumberCell(
+                                f"{base}.with_interreflected.{key}", bounced.get(key), "sig3", reason="not computed"
+                            )
+                            for _, key in FACE_COLUMNS
+                        ),
+                    )
+                )
+        heights = sorted({float(f["height_m"]) for f in faces if isinstance(f.get("height_m"), (int, float))})
+        up = f" {', '.join(f'{h:g}' for h in heights)} m up" if heights else ""
+        tables.append(
+            Table(
+                f"calculation-faces-{i}",
+                f"Semicylindrical (E_sc) and vertical (E_v) illuminance on the footway faces{up}, {names[i]}",
+                tuple(rows),
+                (Heading("face grid"), *(Heading(f"{h} (lx)", numeric=True) for h, _ in FACE_COLUMNS)),
+                scrolls=True,
+            )
+        )
+    return tables
+
+
 #: The night table's columns: (heading, unit, path under a field's "night" record).
 NIGHT_COLUMNS: tuple[tuple[str, str], ...] = (
     ("mean", "mean_lx"),
@@ -669,11 +744,10 @@ def _night_table(setups: Sequence[dict[str, Any]], calc: dict[str, Any]) -> Tabl
         night = f.get("night")
         if not isinstance(night, dict):
             continue
-        way = "+x" if (f.get("facing") or [1.0])[0] > 0 else "-x"
         for kind in ("semicylindrical", "vertical"):
             if isinstance(night.get(kind), dict):
                 path = f"calculation.setups.0.faces.{j}.night.{kind}"
-                records.append((f"{f.get('name')}: {kind}, facing {way}", path, night[kind]))
+                records.append((f"{f.get('name')}: {kind}, facing {_facing(f)}", path, night[kind]))
     if not records:
         return None
     rows = tuple(
@@ -853,12 +927,26 @@ def _calculation_part(metrics: ComparisonMetrics, images: ImageFolder) -> Calcul
         alts[upward[0]] if upward else "",
     )
     kept = [k for k in range(len(pictures)) if k not in upward]
+    tables += _face_tables(setups, names)
     night = _night_table(setups, calc)
     if night is not None:
         tables.append(night)
-    described = (calc.get("options") or {}).get("night_light")
+    options = calc.get("options") or {}
+    described = options.get("night_light")
+    bounced = [
+        f["with_interreflected"]
+        for s in setups
+        for f in s.get("faces") or ()
+        if isinstance(f, dict) and isinstance(f.get("with_interreflected"), dict)
+    ]
+    paragraphs = CALCULATION_TEXT
+    if bounced:
+        label = str(bounced[0].get("label") or "")
+        paragraphs += (INTERREFLECTED_TEXT.format(bounces=options.get("bounces", "?"), label=label),)
+    if night is not None:
+        paragraphs += (NIGHT_TEXT.format(night=described),)
     return CalculationPart(
-        paragraphs=CALCULATION_TEXT + ((NIGHT_TEXT.format(night=described),) if night is not None else ()),
+        paragraphs=paragraphs,
         caution=caution,
         tables=tuple(tables),
         figures=tuple(images.get(pictures[k]) for k in kept),
