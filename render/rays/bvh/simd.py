@@ -4,25 +4,26 @@ numba's own loops over the :data:`~render.rays.bvh.layout.WIDE` children of a no
 vectorise well: with the trip count known LLVM unrolls the loop into scalar code, and with
 it passed at run time it vectorises for more children than a node has and runs the scalar
 remainder. :func:`node_entry_mask` is therefore written as LLVM vector instructions (a numba
-``intrinsic``): 8 float32 bounds per load, widened to float64 and tested exactly as
-:func:`render.rays.bvh.slab.slab_interval` tests one box (the same IEEE operations in the same
-order, no fast-math), so every decision equals the scalar test's. :func:`lowest_bit` is LLVM's
+``intrinsic``): 8 float32 bounds per load, tested in float32 with the slab test's operations
+(no fast-math). The traversal is bound by the latency of one node test after another, and
+float32 needs no widening of the stored bounds; the decisions are kept conservative (a ray
+never misses a box it touches) by the caller's rounding of the ray's origin to the safe side
+of each bound and the margins of :mod:`render.rays.bvh.slab`, and the float64 triangle test
+decides every hit, so the hits are those of an exact box test. :func:`lowest_bit` is LLVM's
 count-trailing-zeros, to visit only the children entered. :func:`data_pointer` hands an
 array's data on as a bare pointer, so that a function called once per ray takes one machine
 word per array instead of numba's whole array record (see :mod:`render.rays.bvh.single`).
 
 The ray's near and far bound of each axis are chosen once per ray by the sign of its inverse
 direction (Williams et al. 2005): for a non-negative inverse the lower bound gives the smaller
-slab distance, which is what ``min``/``max`` pick in the scalar test, so the results are the
-same numbers.
+slab distance, which is what ``min``/``max`` pick in the scalar test.
 
 References
 ----------
 - Williams, Barrus, Morley & Shirley, "An efficient and robust ray-box intersection
   algorithm", Journal of Graphics Tools 10(1), 2005 (near and far bounds by direction sign).
 - Ize, "Robust BVH Ray Traversal", JCGT 2(2), 2013 (conservative far distance).
-- LLVM Language Reference Manual, "'llvm.cttz.*' Intrinsic", "'fpext' Instruction",
-  "'fcmp' Instruction".
+- LLVM Language Reference Manual, "'llvm.cttz.*' Intrinsic", "'fcmp' Instruction".
 """
 
 from __future__ import annotations
@@ -32,7 +33,6 @@ from numba.core import types
 from numba.extending import intrinsic
 
 from render.rays.bvh.layout import WIDE
-from render.rays.bvh.slab import ROBUST_FAR
 
 __all__ = ["data_pointer", "lowest_bit", "node_entry_mask"]
 
@@ -73,13 +73,6 @@ def data_pointer(typingctx, a, dtype):
     return sig, codegen
 
 
-def _splat(builder, x):
-    v = builder.insert_element(ir.Constant(_V8D, ir.Undefined), x, ir.Constant(_I32, 0))
-    return builder.shuffle_vector(
-        v, ir.Constant(_V8D, ir.Undefined), ir.Constant(ir.VectorType(_I32, WIDE), [0] * WIDE)
-    )
-
-
 def _vmax(builder, a, b):
     return builder.select(builder.fcmp_ordered(">", a, b), a, b)
 
@@ -88,25 +81,42 @@ def _vmin(builder, a, b):
     return builder.select(builder.fcmp_ordered("<", a, b), a, b)
 
 
+def _splat(builder, x):
+    v = builder.insert_element(ir.Constant(_V8F, ir.Undefined), x, ir.Constant(_I32, 0))
+    return builder.shuffle_vector(
+        v, ir.Constant(_V8F, ir.Undefined), ir.Constant(ir.VectorType(_I32, WIDE), [0] * WIDE)
+    )
+
+
 @intrinsic
-def node_entry_mask(typingctx, wb, node, cols, origin, far_origin, inverse, t_min, t_max, near_out):
+def node_entry_mask(typingctx, wb, node, cols, origin, far_origin, inverse, t_min, t_max, far_scale, near_out):
     """Bit mask of the children of node ``node`` of ``wb`` (the wide tree's float32 records)
-    that the ray enters, ``t_min <= near <= min(far, t_max)``; each child's near distance is
-    stored in ``near_out[0:WIDE]`` (float64).
+    that the ray enters, ``t_min <= near <= min(far * far_scale, t_max)``, in float32: for
+    each axis ``(bound - origin) * inverse``, the near bound's distance from ``origin`` and the
+    far bound's from ``far_origin`` (:mod:`render.rays.bvh.single` rounds the ray's origin to
+    the conservative side of each), ``near`` the largest near distance and ``t_min``, ``far``
+    the smallest far distance. With ``near_out`` (float64, C-contiguous) each child's near
+    distance is stored in ``near_out[0:WIDE]``, widened; None stores nothing.
 
     ``cols`` = (near x, near y, near z, far x, far y, far z) columns of the first child's
-    bounds for the ray's octant (uint64), ``origin``, ``far_origin`` (the origin the far bounds
-    are measured from, :func:`render.rays.bvh.slab.far_origin` per axis) and ``inverse``
-    float64 3-tuples (:func:`render.rays.bvh.slab.safe_inverse` per axis)."""
+    bounds for the ray's octant (uint64); ``origin``, ``far_origin``, ``inverse`` float32
+    3-tuples, ``t_min``, ``t_max``, ``far_scale`` float32."""
     if not (isinstance(wb, types.Array) and wb.ndim == 2 and wb.layout == "C" and wb.dtype == types.float32):
         return None  # rows are read as contiguous float32 runs
-    if not (isinstance(near_out, types.Array) and near_out.layout == "C" and near_out.dtype == types.float64):
+    keep_near = not isinstance(near_out, types.NoneType)
+    if keep_near and not (
+        isinstance(near_out, types.Array) and near_out.layout == "C" and near_out.dtype == types.float64
+    ):
         return None
-    sig = types.int64(wb, node, cols, origin, far_origin, inverse, t_min, t_max, near_out)
+    scalars = (*origin.types, *far_origin.types, *inverse.types, t_min, t_max, far_scale)
+    if not all(t == types.float32 for t in scalars):
+        return None
+    sig = types.int64(wb, node, cols, origin, far_origin, inverse, t_min, t_max, far_scale, near_out)
 
     def codegen(context, builder, signature, args):
-        wb_t, _, _, _, _, _, _, _, out_t = signature.args
-        a_wb, a_node, a_cols, a_origin, a_far, a_inverse, a_tmin, a_tmax, a_out = args
+        wb_t = signature.args[0]
+        out_t = signature.args[9]
+        a_wb, a_node, a_cols, a_origin, a_far, a_inverse, a_tmin, a_tmax, a_scale, a_out = args
         ary = context.make_array(wb_t)(context, builder, a_wb)
         row = builder.mul(a_node, builder.extract_value(ary.shape, 1))
         col = [builder.extract_value(a_cols, k) for k in range(6)]
@@ -117,18 +127,16 @@ def node_entry_mask(typingctx, wb, node, cols, origin, far_origin, inverse, t_mi
         def slab(k):
             ptr = builder.gep(ary.data, [builder.add(row, col[k])])
             bound = builder.load(builder.bitcast(ptr, _V8F.as_pointer()), align=4)
-            return builder.fmul(builder.fsub(builder.fpext(bound, _V8D), o[k]), inv[k % 3])
+            return builder.fmul(builder.fsub(bound, o[k]), inv[k % 3])
 
         tn = [slab(k) for k in range(3)]
         tf = [slab(k) for k in range(3, 6)]
-        # near = max(max(tnx, tny), max(tnz, t_min)); far = min(min(tfx, tfy), tfz) * ROBUST_FAR
         near = _vmax(builder, _vmax(builder, tn[0], tn[1]), _vmax(builder, tn[2], _splat(builder, a_tmin)))
-        far = builder.fmul(
-            _vmin(builder, _vmin(builder, tf[0], tf[1]), tf[2]), _splat(builder, ir.Constant(_F64, ROBUST_FAR))
-        )
+        far = builder.fmul(_vmin(builder, _vmin(builder, tf[0], tf[1]), tf[2]), _splat(builder, a_scale))
         enter = builder.fcmp_ordered("<=", near, _vmin(builder, far, _splat(builder, a_tmax)))
-        out = context.make_array(out_t)(context, builder, a_out)
-        builder.store(near, builder.bitcast(out.data, _V8D.as_pointer()), align=8)
+        if keep_near:
+            out = context.make_array(out_t)(context, builder, a_out)
+            builder.store(builder.fpext(near, _V8D), builder.bitcast(out.data, _V8D.as_pointer()), align=8)
         return builder.zext(builder.bitcast(enter, ir.IntType(WIDE)), _I64)
 
     return sig, codegen

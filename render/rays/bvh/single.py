@@ -1,16 +1,26 @@
 """Single-ray traversal of the 8-wide tree, for rays that do not form coherent packets.
 
-The boxes of all :data:`~render.rays.bvh.layout.WIDE` children of a node are tested in one
-counted loop that LLVM vectorises, reading for each axis only the bound the ray meets first
-(near) and the one it leaves by (far), chosen once per ray by the signs of its direction
-(its octant); the loop yields a bit mask of the children entered. Closest hit: the children
+The boxes of all :data:`~render.rays.bvh.layout.WIDE` children of a node are tested at once
+in float32 vector code (:func:`~render.rays.bvh.simd.node_entry_mask`), reading for each axis
+only the bound the ray meets first (near) and the one it leaves by (far), chosen once per ray
+by the signs of its direction (its octant); the test yields a bit mask of the children
+entered. Closest hit: the children
 entered, inner nodes and leaves alike, are inserted into the stack by entry distance, so
 the nearest is always taken next and a leaf is only intersected when nothing nearer is
 left; entries farther than the best hit so far are dropped when popped. Any hit: leaves are
 intersected at once (the query stops at the first hit found) and inner children pushed.
 Among hits at exactly the same ``t`` the lowest original triangle index wins, so the result
-does not depend on the order in which the tree is traversed, and every box decision is the
-same float64 arithmetic as :func:`~render.rays.bvh.slab.slab_interval`.
+does not depend on the order in which the tree is traversed or on which boxes are entered
+beyond those the ray touches: the float64 triangle test decides every hit.
+
+The box test runs in float32 (a node test waits on the one before it, and float32 bounds need
+no widening) and stays conservative: per axis the ray's float64 origin is rounded to a float32
+on the side that makes the near bound's distance smaller and, separately, on the side that
+makes the far bound's distance larger (for an axis with a zero direction the far origin is
+then below the origin, so a ray in a box's face plane stays inside it), so the remaining error
+of a distance is the three roundings of Ize (2013), covered by the far scale and the margin
+on the best hit's distance in :mod:`render.rays.bvh.slab`. A box the exact test enters is
+therefore entered; a few more are (by at most a relative 2^-20 of a distance).
 
 The traversal is called once per ray, and numba passes an array as its whole record (about
 eight machine words), nine arrays so some seventy words pushed on the stack per call, a fifth
@@ -37,13 +47,17 @@ import numpy as np
 
 from render.rays.bvh.layout import WIDE
 from render.rays.bvh.simd import data_pointer, lowest_bit, node_entry_mask
-from render.rays.bvh.slab import far_origin, safe_inverse
+from render.rays.bvh.slab import F32_BIG_INV, F32_FAR, F32_LIMIT, F32_MARGIN, safe_inverse
 from render.rays.bvh.triangle import intersect_triangle, triangle_vertices
 
 __all__ = ["any_one", "closest_one"]
 
 # Column of the first child's hi bound of axis k is _HI + 8 k (lo: 8 k), see layout.BVH.
 _HI = 3 * WIDE
+# Relative and absolute moves of a float64 origin to a float32 on a chosen side of it (one to
+# two units in the last place of float32, so that rounding to nearest cannot cross back).
+_ULP32 = 2.0**-23
+_TINY32 = 1e-30
 # Unsigned constants of the per-ray axis choice (unsigned indices: no wraparound check).
 _ONE = np.uint64(1)
 _TWO = np.uint64(2)
@@ -56,6 +70,32 @@ _ROWS = 1 << 40
 # Columns of the first child's reference and leaf count.
 _REF = np.uint64(6 * WIDE)
 _COUNT = np.uint64(7 * WIDE)
+
+
+@numba.njit(cache=True, nogil=True)
+def _cull(t: float) -> np.float32:
+    """float32 bound of the box test for hits before ``t``: ``t`` raised by a relative
+    :data:`~render.rays.bvh.slab.F32_MARGIN` (the box test's rounding), at most the float32
+    limit (a distance that overflowed to infinity is no entry)."""
+    return np.float32(min(t + abs(t) * F32_MARGIN, F32_LIMIT))
+
+
+@numba.njit(cache=True, nogil=True)
+def _up32(x: float) -> np.float32:
+    """A float32 above ``x`` by one or two units in the last place (never below it)."""
+    return np.float32(x + (abs(x) * _ULP32 + _TINY32))
+
+
+@numba.njit(cache=True, nogil=True)
+def _down32(x: float) -> np.float32:
+    """A float32 below ``x`` by one or two units in the last place (never above it)."""
+    return np.float32(x - (abs(x) * _ULP32 + _TINY32))
+
+
+@numba.njit(cache=True, nogil=True)
+def _inverse32(d: float) -> np.float32:
+    """:func:`~render.rays.bvh.slab.safe_inverse` rounded to float32, clamped to +-1e38."""
+    return np.float32(min(max(safe_inverse(d), -F32_BIG_INV), F32_BIG_INV))
 
 
 @numba.njit(cache=True, nogil=True)
@@ -141,11 +181,28 @@ def _closest(wb_p, wi_p, tv_p, ti_p, o_p, d_p, st_node_p, st_t_p, work_p, t_min,
     k = (np.int64(kx), np.int64(ky), np.int64(kz))
     p = (o[kx], o[ky], o[kz])
     s = (d[kx] * sz, d[ky] * sz, sz)
-    origin = (ox, oy, oz)
-    upper = (far_origin(ox, d[0]), far_origin(oy, d[1]), far_origin(oz, d[2]))
-    inverse = (safe_inverse(d[0]), safe_inverse(d[1]), safe_inverse(d[2]))
+    inverse = (_inverse32(d[0]), _inverse32(d[1]), _inverse32(d[2]))
+    # The origin of each axis's near bound on the side that makes the near distance smaller,
+    # of its far bound on the side that makes the far distance larger (for an axis with a
+    # zero direction, whose inverse is positive, the far origin is then below the origin).
+    up = (_up32(ox), _up32(oy), _up32(oz))
+    down = (_down32(ox), _down32(oy), _down32(oz))
+    near_o = (
+        up[0] if inverse[0] >= 0.0 else down[0],
+        up[1] if inverse[1] >= 0.0 else down[1],
+        up[2] if inverse[2] >= 0.0 else down[2],
+    )
+    far_o = (
+        down[0] if inverse[0] >= 0.0 else up[0],
+        down[1] if inverse[1] >= 0.0 else up[1],
+        down[2] if inverse[2] >= 0.0 else up[2],
+    )
     cols = _octant_columns(inverse[0], inverse[1], inverse[2])
+    t_min32 = _down32(t_min)
+    scale32 = np.float32(F32_FAR)
     best_t = t_max
+    cull32 = _cull(best_t)
+    cull = np.float64(cull32)
     best_j = -1
     best_u = 0.0
     best_v = 0.0
@@ -155,7 +212,7 @@ def _closest(wb_p, wi_p, tv_p, ti_p, o_p, d_p, st_node_p, st_t_p, work_p, t_min,
     while True:
         if entry >= 0:
             node = np.uint64(entry)
-            mask = node_entry_mask(wb, node, cols, origin, upper, inverse, t_min, best_t, work)
+            mask = node_entry_mask(wb, node, cols, near_o, far_o, inverse, t_min32, cull32, scale32, work)
             if mask != 0:
                 c = np.uint64(lowest_bit(mask))
                 mask &= mask - 1
@@ -216,10 +273,12 @@ def _closest(wb_p, wi_p, tv_p, ti_p, o_p, d_p, st_node_p, st_t_p, work_p, t_min,
                     best_j = ti[j]
                     best_u = u
                     best_v = v
+                    cull32 = _cull(best_t)
+                    cull = np.float64(cull32)
         found = False
         while sp > 0:
             sp -= 1
-            if st_t[sp] <= best_t:
+            if st_t[sp] <= cull:
                 entry = st_node[sp]
                 found = True
                 break
@@ -242,7 +301,8 @@ def any_one(
     width: int,
 ) -> bool:
     """True if the ray ``o + t d`` hits any triangle with ``t_min < t < t_max`` (stops at the
-    first found). Arguments as for :func:`closest_one`."""
+    first found). Arguments as for :func:`closest_one`; ``work`` is not read (any hit does not
+    order the children)."""
     return _any(
         data_pointer(wb, np.float32),
         data_pointer(wi, np.int32),
@@ -250,14 +310,13 @@ def any_one(
         data_pointer(o, np.float64),
         data_pointer(d, np.float64),
         data_pointer(st_node, np.int64),
-        data_pointer(work, np.float64),
         t_min,
         t_max,
     )
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def _any(wb_p, wi_p, tv_p, o_p, d_p, st_node_p, work_p, t_min, t_max):
+def _any(wb_p, wi_p, tv_p, o_p, d_p, st_node_p, t_min, t_max):
     """:func:`any_one` on its arrays' data pointers (see the module docstring)."""
     wb = numba.carray(wb_p, (_ROWS, _RECORD), np.float32)
     wi = numba.carray(wi_p, (_ROWS, _RECORD), np.int32)
@@ -265,7 +324,6 @@ def _any(wb_p, wi_p, tv_p, o_p, d_p, st_node_p, work_p, t_min, t_max):
     o = numba.carray(o_p, (3,), np.float64)
     d = numba.carray(d_p, (3,), np.float64)
     st_node = numba.carray(st_node_p, (_ROWS,), np.int64)
-    work = numba.carray(work_p, (_ROWS,), np.float64)
     # Per-ray constants (written out here: a call returning them is not inlined, and its
     # exception path would keep numba's reference counts of the arrays for every ray).
     # The axes and shear of ray_shear, chosen by arithmetic on the comparisons and picked by
@@ -284,14 +342,30 @@ def _any(wb_p, wi_p, tv_p, o_p, d_p, st_node_p, work_p, t_min, t_max):
     k = (np.int64(kx), np.int64(ky), np.int64(kz))
     p = (o[kx], o[ky], o[kz])
     s = (d[kx] * sz, d[ky] * sz, sz)
-    origin = (ox, oy, oz)
-    upper = (far_origin(ox, d[0]), far_origin(oy, d[1]), far_origin(oz, d[2]))
-    inverse = (safe_inverse(d[0]), safe_inverse(d[1]), safe_inverse(d[2]))
+    inverse = (_inverse32(d[0]), _inverse32(d[1]), _inverse32(d[2]))
+    # The origin of each axis's near bound on the side that makes the near distance smaller,
+    # of its far bound on the side that makes the far distance larger (for an axis with a
+    # zero direction, whose inverse is positive, the far origin is then below the origin).
+    up = (_up32(ox), _up32(oy), _up32(oz))
+    down = (_down32(ox), _down32(oy), _down32(oz))
+    near_o = (
+        up[0] if inverse[0] >= 0.0 else down[0],
+        up[1] if inverse[1] >= 0.0 else down[1],
+        up[2] if inverse[2] >= 0.0 else down[2],
+    )
+    far_o = (
+        down[0] if inverse[0] >= 0.0 else up[0],
+        down[1] if inverse[1] >= 0.0 else up[1],
+        down[2] if inverse[2] >= 0.0 else up[2],
+    )
     cols = _octant_columns(inverse[0], inverse[1], inverse[2])
+    t_min32 = _down32(t_min)
+    scale32 = np.float32(F32_FAR)
+    cull32 = _cull(t_max)
     node = np.uint64(0)
     sp = 0
     while True:
-        mask = node_entry_mask(wb, node, cols, origin, upper, inverse, t_min, t_max, work)
+        mask = node_entry_mask(wb, node, cols, near_o, far_o, inverse, t_min32, cull32, scale32, None)
         while mask != 0:
             c = np.uint64(lowest_bit(mask))
             mask &= mask - 1

@@ -27,7 +27,18 @@ from __future__ import annotations
 import numba
 import numpy as np
 
-__all__ = ["BIG_INV", "ROBUST_FAR", "far_origin", "safe_inverse", "slab_interval", "valid_ray"]
+__all__ = [
+    "BIG_INV",
+    "F32_BIG_INV",
+    "F32_FAR",
+    "F32_LIMIT",
+    "F32_MARGIN",
+    "ROBUST_FAR",
+    "far_origin",
+    "safe_inverse",
+    "slab_interval",
+    "valid_ray",
+]
 
 _F64_EPS = np.finfo(np.float64).eps * 0.5  # unit roundoff 2^-53
 # Ize 2013: scale the far slab distance by 1 + 2*gamma(3), gamma(n) = n*u / (1 - n*u).
@@ -35,6 +46,18 @@ ROBUST_FAR = 1.0 + 2.0 * (3.0 * _F64_EPS) / (1.0 - 3.0 * _F64_EPS)
 # Direction components smaller than this are treated as zero in the slab test (the inverse
 # is clamped to +-BIG_INV so that 0 * inverse is 0, never NaN).
 BIG_INV = 1e300
+# The single-ray box test in float32 (render.rays.bvh.simd.node_entry_mask32), each distance
+# computed as (bound - origin) * inverse with the origin rounded to the side that makes the near
+# distance smaller and the far one larger, so only three roundings remain (the inverse's, the
+# difference's, the product's; relative 3 u with u = 2^-24, the inverse rounded twice adding
+# less than 2^-53): the far distance is scaled up by F32_FAR >= (1 + 3u) / (1 - 3u) (Ize 2013's
+# argument), and hits are looked for up to a distance raised by F32_MARGIN >= 3u relative, so a
+# box whose entry is computed late by rounding is still entered; inverses are clamped to
+# +-F32_BIG_INV; a distance above F32_LIMIT (overflowed) is no entry.
+F32_FAR = 1.0 + 2.0**-20
+F32_MARGIN = 2.0**-21
+F32_BIG_INV = 1e38
+F32_LIMIT = float(np.finfo(np.float32).max)
 # Far-side origin of an axis with a zero direction component: moved down by more than one ulp
 # of the origin (2^-50 relative) plus an absolute 1e-200, so that (hi - origin) * BIG_INV is at
 # least 1e100 when the origin lies in the upper face plane.
