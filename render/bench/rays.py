@@ -13,7 +13,10 @@ tracer, traced one by one as the path tracer casts them), and prints rays per se
 contenders alternating; ratios as min / median / max over rounds). When the optional
 ``embreex`` package is importable, the same triangles and rays go through Embree too and the
 throughput ratios (ours on numba's threads / Embree, and ours on one thread / Embree, Embree
-being one thread) are printed, with the agreement of the two results.
+being one thread) are printed, with the agreement of the two results; the last ratio column
+is one thread / Embree in processor seconds of the process (on a shared machine the steadier
+figure: time spent waiting for a core is not counted). The incoherent rays are traced one by
+one in the order they were made, with no sorting or grouping.
 
 References
 ----------
@@ -35,7 +38,7 @@ import numba
 import numpy as np
 
 from render.bench.scenes import stress_scene
-from render.bench.timing import interleaved, ratios
+from render.bench.timing import interleaved_cpu, ratios
 from render.rays.bvh import BVH, build_bvh, face_forward, geometric_normal, intersect_any, intersect_closest
 from render.rays.cameras import Camera, camera_rays, tile_pixels
 
@@ -166,7 +169,7 @@ def _run_case(case: _Case, args) -> None:
         ("bounce hits to light, incoherent (occlusion)", bso, bsd, bs_t_max, False),
     ]
     print(
-        f"{'rays':44s} {'count':>8s} {'ours Mrays/s':>13s} {'1 thread':>9s} {'Embree':>8s} {'ours/Embree min/med/max':>24s} {'1 thread/Embree min/med/max':>28s}  agreement"
+        f"{'rays':44s} {'count':>8s} {'ours Mrays/s':>13s} {'1 thread':>9s} {'Embree':>8s} {'ours/Embree min/med/max':>24s} {'1 thread/Embree min/med/max':>28s} {'processor s':>19s}  agreement"
     )
     for name, ro, rd, tm, pk in sets:
         if tm is None:
@@ -184,7 +187,7 @@ def _run_case(case: _Case, args) -> None:
                 fns["embree"] = lambda o32=o32, d32=d32, tm32=tm32: scene.run(
                     o32, d32, dists=tm32.copy(), query="OCCLUDED"
                 )
-        spread, _ = interleaved(fns, args.repeat)
+        spread, cpu, _ = interleaved_cpu(fns, args.repeat)
         n = ro.shape[0]
         one = f"{_mrays(n, spread['one'].median):9.2f}" if "one" in spread else f"{'-':>9s}"
         if scene is not None:
@@ -197,9 +200,14 @@ def _run_case(case: _Case, args) -> None:
             emb_s = f"{_mrays(n, spread['embree'].median):8.2f}"
             ratio = f"{ratios(spread['embree'], spread['ours']).text(1, '.2f'):>24s}"
             one_ratio = ratios(spread["embree"], spread["one"]).text(1, ".2f") if "one" in spread else "-"
-            ratio += f" {one_ratio:>28s}"
+            one_cpu = ratios(cpu["embree"], cpu["one"]).text(1, ".2f") if "one" in cpu else "-"
+            ratio += f" {one_ratio:>28s} {one_cpu:>19s}"
         else:
-            emb_s, ratio, agree = f"{'-':>8s}", f"{'-':>24s} {'-':>28s}", "embreex not importable (or --no-embree)"
+            emb_s, ratio, agree = (
+                f"{'-':>8s}",
+                f"{'-':>24s} {'-':>28s} {'-':>19s}",
+                "embreex not importable (or --no-embree)",
+            )
         print(f"{name:44s} {n:8d} {_mrays(n, spread['ours'].median):13.2f} {one} {emb_s} {ratio}  {agree}")
 
 
