@@ -1019,7 +1019,7 @@ def build_parser() -> argparse.ArgumentParser:
         nargs="?",
         const=BARE_BOUNCES,
         metavar="N",
-        help="also give the fields' illuminance with interreflected light (up to N bounces, labelled; "
+        help="also give the fields' and the footways' face grids' illuminance with interreflected light (up to N bounces, labelled; "
         "not part of the EN 13201 calculation; class checks stay direct light; --bounces alone: 3; default 0)",
     )
     p.add_argument(

@@ -238,3 +238,30 @@ def test_report_shows_the_face_grids_and_their_interreflected_rows_only_with_bou
         for j in range(n):
             for _, key in FACE_COLUMNS:
                 assert bounced["setups"][i]["faces"][j][key] == calc["setups"][i]["faces"][j][key]
+
+
+def test_the_comparison_calculation_follows_the_renders_bounces(tmp_path):
+    # A report whose images show interreflected light must give the calculation's
+    # interreflected rows too, labelled, and exactly the record run_calculation gives with the
+    # same bounces (tests/test_calc_interreflection.py ties those to the Lambertian ground's
+    # integral); the class check stays direct light (common practice, no source).
+    from render.calc.fields import INTERREFLECTED_LABEL
+    from render.calc.run import calc_options
+
+    scene = write_two_objects_scene(tmp_path, _CALC)
+    study = Study(scene)
+    study.scene.render.bounces = 1
+    study.scene.render.indirect_samples_per_pixel = 1
+    out = tmp_path / "out"
+    run_comparison(study, "old", "new", ["van"], out, width_px=24, samples_per_pixel=1, progress=False, colour=False)
+    metrics = json.loads((out / "metrics.json").read_text(encoding="utf-8"))
+    stored = metrics["calculation"]
+    setups = [parse_setup("old", study.scene, "--before"), parse_setup("new", study.scene, "--after")]
+    bounced = json.loads(json.dumps(run_calculation(study, setups, calc_options(study.scene, bounces=1)).to_json()))
+    assert {k: stored[k] for k in bounced} == bounced
+    assert all(face.get("with_interreflected") for s in stored["setups"] for face in s["faces"])
+    direct = json.loads(json.dumps(run_calculation(study, setups).to_json()))
+    for b, d in zip(stored["setups"], direct["setups"], strict=True):
+        assert b["class_check"] == d["class_check"]
+    section = _section((out / "report.html").read_text(encoding="utf-8"))
+    assert "+ interreflected" in section.text() and INTERREFLECTED_LABEL in section.text()

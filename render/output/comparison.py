@@ -812,15 +812,19 @@ def _calculation(
 ) -> Callable[[], dict[str, Any]]:
     """Calculate every setup (:func:`render.calc.run.run_calculation`) and its plan; returns a
     function that draws the pictures into ``out/calculation`` and gives
-    :func:`calculation_json` of it all."""
+    :func:`calculation_json` of it all. The calculation follows the renders' interreflection
+    (``[render] bounces`` or ``--bounces``): with bounces its fields and face grids get their
+    interreflected light in rows of their own, labelled as not part of the EN 13201
+    calculation, and the upward total includes the light bounced upward; the class check and
+    the headline figures stay direct light."""
     from render.calc.plan import compute_plan
-    from render.calc.run import calc_study, run_calculation
+    from render.calc.run import calc_options, calc_study, run_calculation
     from render.output.calc_pictures import calc_picture_alt_texts, write_calc_pictures
 
     absent = calculation_absent_reason(study.scene)
     if absent is not None:
         return lambda: calculation_json(None, absent=absent)
-    report = run_calculation(study, list(setups))
+    report = run_calculation(study, list(setups), calc_options(study.scene, bounces=study.scene.render.bounces))
     used = calc_study(study, report.options.include_objects)
     plans = {s.name: compute_plan(used, s) for s in setups}
     word = "after" if len(setups) == 2 else "option"
