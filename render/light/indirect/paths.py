@@ -55,6 +55,13 @@ spec/pdf alike), weighted by the power heuristic of the same two pdfs. The road'
 applies to direct light only: interreflected light reaches the carriageway from every
 direction and is reflected by its Lambertian base (and its layer, where it has one).
 
+**Lit windows.** Each vertex, the camera's surface included, also connects to one lit window
+(:mod:`render.light.indirect.windows`): chosen by the light tree over the lit windows
+(:mod:`render.light.indirect.window_tree`: down from its root by the nodes' importance bounds,
+then among a leaf's few windows by their approximate illuminance), so the work per vertex
+grows with the logarithm of the number of lit windows; the estimate divides by the window's
+probability (the product of the choices on the way), every window's being above zero.
+
 **Night light.** With sky glow and moonlight on (:mod:`render.light.indirect.night`) the same
 paths also carry two lamp-independent ambient channels: a direction that leaves the scene
 upward adds β times the sky's unit luminance (from the camera's surface too, the sky's direct
@@ -101,6 +108,7 @@ from render.light.gloss import (
     specular_one,
     vndf_sample_one,
 )
+from render.light.indirect.window_tree import LEAF_WINDOWS, _choose_window, _window_probability
 from render.light.integrator import _cell_of, _unshadowed
 from render.rays.bvh.layout import STACK_SIZE, WIDE
 from render.rays.bvh.single import any_one, closest_one
@@ -226,69 +234,50 @@ def _deposit_layered(acc, a, ch, beta, rho, k, base, spec, mixed, ratio, q_first
 
 
 @numba.njit(cache=True, nogil=True, inline="always")
-def _drawn_window_mis(win, e_win, win_total, w, wx, wy, wz, t, l_pdf, window_mis):
-    """The weight of lit window ``w`` met at distance ``t`` by a direction (wx, wy, wz) drawn with
-    pdf ``l_pdf`` from a gloss layer: the power heuristic against connecting to the window
-    (1 without multiple importance sampling), or -1 when the direction meets its back."""
+def _drawn_window_mis(win, nodes, links, e_win, w, px, py, pz, sx, sy, sz, wx, wy, wz, t, l_pdf, window_mis):
+    """The weight of lit window ``w`` (tree row) met at distance ``t`` by a direction (wx, wy, wz)
+    drawn with pdf ``l_pdf`` from a gloss layer at ``x`` (the normal ``s`` its connection used):
+    the power heuristic against connecting to the window (its probability from the window
+    tree, :func:`render.light.indirect.window_tree._window_probability`; 1 without multiple
+    importance sampling), or -1 when the direction meets its back."""
     cos_w = -(wx * win[w, 9] + wy * win[w, 10] + wz * win[w, 11])
     if not cos_w > 0.0:
         return -1.0
-    if window_mis == WINDOW_MIS and win_total > 0.0:
-        p_light = e_win[w] / win_total * t * t / (win[w, 12] * cos_w)
-        return power_heuristic(1.0, l_pdf, 1.0, p_light)
+    if window_mis == WINDOW_MIS:
+        p, total, e = _window_probability(win, nodes, links, e_win, w, px, py, pz, sx, sy, sz)
+        if total > 0.0:
+            p_light = p * e / total * t * t / (win[w, 12] * cos_w)
+            return power_heuristic(1.0, l_pdf, 1.0, p_light)
     return 1.0
 
 
 @numba.njit(cache=True, nogil=True, inline="always")
 def _window_connection(
-    px, py, pz, sx, sy, sz, gx, gy, gz, win, e_win, u0, u1, u2, wb, wi, tv, o, d, offset, st_node, work
+    px, py, pz, sx, sy, sz, gx, gy, gz, win, nodes, links, e_win, u0, u1, u2, wb, wi, tv, o, d, offset, st_node, work
 ):
     """Next-event estimation to one lit window (:mod:`render.light.indirect.windows`): the
-    window chosen by its approximate illuminance ``e_win`` (scratch), a point uniform on its
-    rectangle, one shadow ray. Returns (window, estimate of E/(π·L) per unit of the channel's
-    level (each window's luminance over it in column 13, which weighs its choice too), the sum
-    of the approximate illuminances ``e_win`` holds, for the pdf of a direction that meets a
-    window)."""
-    W = win.shape[0]
-    total = 0.0
-    for w in range(W):
-        lx = win[w, 0] + 0.5 * (win[w, 3] + win[w, 6]) - px
-        ly = win[w, 1] + 0.5 * (win[w, 4] + win[w, 7]) - py
-        lz = win[w, 2] + 0.5 * (win[w, 5] + win[w, 8]) - pz
-        d2 = lx * lx + ly * ly + lz * lz
-        dist = math.sqrt(d2)
-        cx = 1.0
-        cw = 1.0
-        if dist > 0.0:
-            cx = (lx * sx + ly * sy + lz * sz) / dist
-            cw = -(lx * win[w, 9] + ly * win[w, 10] + lz * win[w, 11]) / dist
-        a = win[w, 12]
-        # Times the window's luminance over its channel's level (its power's share).
-        e = a * max(cx, 0.02) * max(cw, 0.02) / (d2 + a) * win[w, 13]
-        e_win[w] = e
-        total += e
+    window chosen by the window tree (:func:`render.light.indirect.window_tree._choose_window`:
+    by the nodes' importance down to a leaf, then by the leaf's windows' approximate
+    illuminance, in ``e_win`` scratch), a point uniform on its rectangle, one shadow ray.
+    Returns (window (tree row), estimate of E/(π·L) per unit of the channel's level (each
+    window's luminance over it in column 13, which weighs its choice too))."""
+    pick, p, total, e = _choose_window(win, nodes, links, e_win, px, py, pz, sx, sy, sz, u0)
     if not (total > 0.0):
-        return -1, 0.0, total
-    u = u0 * total
-    pick = 0
-    run = e_win[0]
-    while run <= u and pick < W - 1:
-        pick += 1
-        run += e_win[pick]
+        return -1, 0.0
     lx = win[pick, 0] + u1 * win[pick, 3] + u2 * win[pick, 6] - px
     ly = win[pick, 1] + u1 * win[pick, 4] + u2 * win[pick, 7] - py
     lz = win[pick, 2] + u1 * win[pick, 5] + u2 * win[pick, 8] - pz
     d2 = lx * lx + ly * ly + lz * lz
     dist = math.sqrt(d2)
     if not (dist > 0.0):
-        return pick, 0.0, total
+        return pick, 0.0
     lx /= dist
     ly /= dist
     lz /= dist
     cos_x = lx * sx + ly * sy + lz * sz
     cos_w = -(lx * win[pick, 9] + ly * win[pick, 10] + lz * win[pick, 11])
     if cos_x <= 0.0 or cos_w <= 0.0 or lx * gx + ly * gy + lz * gz <= 0.0:
-        return pick, 0.0, total
+        return pick, 0.0
     o[0] = px + offset * gx
     o[1] = py + offset * gy
     o[2] = pz + offset * gz
@@ -302,8 +291,10 @@ def _window_connection(
     d[1] /= reach
     d[2] /= reach
     if any_one(wb, wi, tv, o, d, 0.0, max(reach - _WINDOW_CLEARANCE_M, 0.0), st_node, work, WIDE):
-        return pick, 0.0, total
-    return pick, cos_x * cos_w * win[pick, 12] * total / (math.pi * d2 * e_win[pick]) * win[pick, 13], total
+        return pick, 0.0
+    # The window's probability is p·e/total (p = 1 when the tree is one leaf: then this is the
+    # arithmetic of choosing among every window, bit for bit).
+    return pick, cos_x * cos_w * win[pick, 12] * total / (math.pi * d2 * (p * e)) * win[pick, 13]
 
 
 @numba.njit(cache=True, nogil=True, parallel=True, error_model="numpy")
@@ -339,6 +330,8 @@ def trace_paths(
     moon_on,
     moon,
     win,
+    win_nodes,
+    win_links,
     win_kind,
     tri_window,
     window_mis,
@@ -372,9 +365,11 @@ def trace_paths(
     vertex), with ``moon_on`` every vertex, the start sample included, casts a shadow ray
     along ``moon`` (unit vector toward the moon) and adds cos θ/π. With ``n_amb`` 4 the lit
     windows ``win`` (W, 14) of channels ``win_kind`` (W,) (0 the houses' window lamp, 1 the
-    shops'), each at its luminance over its channel's level (column 13), are two more
-    channels: every vertex, the start sample included, connects to one of them
-    (:func:`_window_connection`); ``tri_window`` (F,) the lit window each triangle lies on
+    shops'), each at its luminance over its channel's level (column 13), in the order of their
+    light tree ``win_nodes``, ``win_links`` (:class:`render.light.indirect.window_tree.
+    WindowTree`), are two more channels: every vertex, the start sample included, connects to
+    one of them chosen by the tree (:func:`_window_connection`); ``tri_window`` (F,) the lit
+    window (tree row) each triangle lies on
     (-1: none): a direction drawn from a vertex's specular layer that meets one adds its
     luminance, and the two are weighted by the power heuristic (``window_mis``,
     :data:`WINDOW_MIS`; the other values keep one strategy, for checks). Off (``n_amb`` 0), the paths and their random numbers are
@@ -433,7 +428,7 @@ def trace_paths(
         mat_of = np.empty(spp, np.int64)
         mean = np.empty(N)
         e_cand = np.empty(max(n_lum, 1))
-        e_win = np.empty(max(win.shape[0], 1))
+        e_win = np.empty(LEAF_WINDOWS)
         st_node = np.empty(max(STACK_SIZE, wide_stack), np.int64)
         st_t = np.empty(wide_stack)
         work = np.empty(2 * WIDE)
@@ -512,7 +507,6 @@ def trace_paths(
                 weight = 1.0
                 # The direction the path arrived along (used at vertices with a specular layer).
                 wx = wy = wz = 0.0
-                win_total = 0.0
                 if do_moon:
                     # The moon's direct light at the start sample (its shading normal, above
                     # its geometric surface): one shadow ray.
@@ -532,8 +526,8 @@ def trace_paths(
                 if do_win:
                     # The lit windows' direct light at the start sample (random numbers of
                     # "bounce" 0, dimensions 4-6).
-                    wpick, v, win_total = _window_connection(
-                        px, py, pz, sx, sy, sz, gx, gy, gz, win, e_win,
+                    wpick, v = _window_connection(
+                        px, py, pz, sx, sy, sz, gx, gy, gz, win, win_nodes, win_links, e_win,
                         _rand(key, gid, i, 0, 4), _rand(key, gid, i, 0, 5), _rand(key, gid, i, 0, 6),
                         wb, wi, tv, o, d, offset, st_node, work,
                     )  # fmt: skip
@@ -632,7 +626,25 @@ def trace_paths(
                         # its layer's part to the white transport, its base's to the transport,
                         # weighted by the power heuristic against the connection above.
                         w_ = tri_window[j]
-                        wd = _drawn_window_mis(win, e_win, win_total, w_, wx, wy, wz, t, l_pdf, window_mis)
+                        wd = _drawn_window_mis(
+                            win,
+                            win_nodes,
+                            win_links,
+                            e_win,
+                            w_,
+                            px,
+                            py,
+                            pz,
+                            sx,
+                            sy,
+                            sz,
+                            wx,
+                            wy,
+                            wz,
+                            t,
+                            l_pdf,
+                            window_mis,
+                        )
                         if wd >= 0.0:
                             v = f * wd * win[w_, 13]
                             cw_ = c_win + win_kind[w_]
@@ -651,7 +663,25 @@ def trace_paths(
                         # A direction drawn from the layer meets a lit window: its unit luminance,
                         # weighted by the power heuristic against the connection to it.
                         w_ = tri_window[j]
-                        mis = _drawn_window_mis(win, e_win, win_total, w_, wx, wy, wz, t, l_pdf, window_mis)
+                        mis = _drawn_window_mis(
+                            win,
+                            win_nodes,
+                            win_links,
+                            e_win,
+                            w_,
+                            px,
+                            py,
+                            pz,
+                            sx,
+                            sy,
+                            sz,
+                            wx,
+                            wy,
+                            wz,
+                            t,
+                            l_pdf,
+                            window_mis,
+                        )
                         if mis >= 0.0:
                             v = weight * f * mis * win[w_, 13]
                             cw_ = c_win + win_kind[w_]
@@ -746,8 +776,8 @@ def trace_paths(
                                 else:
                                     _deposit(acc, a, c_moon, beta, v, pm, ratio, q_first)
                     if do_win:
-                        wpick, v, win_total = _window_connection(
-                            px, py, pz, gx, gy, gz, gx, gy, gz, win, e_win,
+                        wpick, v = _window_connection(
+                            px, py, pz, gx, gy, gz, gx, gy, gz, win, win_nodes, win_links, e_win,
                             _rand(key, gid, i, b, 4), _rand(key, gid, i, b, 5), _rand(key, gid, i, b, 6),
                             wb, wi, tv, o, d, offset, st_node, work,
                         )  # fmt: skip

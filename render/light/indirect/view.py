@@ -66,6 +66,7 @@ from render.light.indirect.transport import (
     transport_basis,
     transport_table,
 )
+from render.light.indirect.window_tree import window_tree
 from render.light.indirect.windows import LitWindows, lit_windows, window_seen_shares, window_triangles
 from render.light.integrator import (
     NEGLIGIBLE_LX,
@@ -246,10 +247,15 @@ class PathTracer:
             windows = lit_windows(mesh, night) if night is not None and night.windows_on else None
         self.windows = windows
         w = windows if windows is not None and self.n_ambient else None
-        self.win = np.ascontiguousarray(w.rect if w is not None else np.zeros((0, 13)), np.float64)
+        #: The lit windows' light tree (:mod:`render.light.indirect.window_tree`); the kernel's
+        #: window rows are in its order.
+        self.window_tree = window_tree(w.rect if w is not None else np.zeros((0, 14)))
+        if w is not None:
+            w = w.subset(self.window_tree.order)
+        self.win = np.ascontiguousarray(w.rect if w is not None else np.zeros((0, 14)), np.float64)
         self.win_kind = np.ascontiguousarray(w.kind if w is not None else np.zeros(0), np.int64)
-        #: The lit window each triangle is part of (-1: none), and how a vertex with a specular
-        #: layer gathers their light (:data:`render.light.indirect.paths.WINDOW_MIS`).
+        #: The lit window (tree row) each triangle is part of (-1: none), and how a vertex with
+        #: a specular layer gathers their light (:data:`render.light.indirect.paths.WINDOW_MIS`).
         self.tri_window = np.ascontiguousarray(
             window_triangles(w, mesh) if w is not None else np.full(mesh.n_triangles, -1), np.int64
         )
@@ -348,6 +354,8 @@ class PathTracer:
                 self.moon_on,
                 self.moon,
                 self.win,
+                self.window_tree.nodes,
+                self.window_tree.links,
                 self.win_kind,
                 self.tri_window,
                 self.window_mis,
