@@ -11,6 +11,7 @@
 * ``study`` -- design-study throughput on 1 and 2 Dask workers (:mod:`render.bench.study`).
 * ``demo`` -- the whole ``lampcast demo``, warm, optionally against another tree (:mod:`render.bench.demo`).
 * ``startup`` -- quick commands as new processes, a 1M-triangle OBJ, a cold demo (:mod:`render.bench.startup`).
+* ``windows`` -- lit windows: time per path with 10, 100, 400 lit windows, against another tree (:mod:`render.bench.windows`).
 * ``vision`` -- the vision stage of a comparison, glare optics shared vs per image (:mod:`render.bench.vision`).
 """
 
@@ -19,7 +20,7 @@ from __future__ import annotations
 import argparse
 import sys
 
-from render.bench import calc, demo, denoise, indirect, light, peer, peer_indirect, rays, report, startup
+from render.bench import calc, demo, denoise, indirect, light, peer, peer_indirect, rays, report, startup, windows
 from render.bench import study as study_bench
 from render.bench import vision as vision_bench
 
@@ -39,6 +40,7 @@ def build_parser() -> argparse.ArgumentParser:
     startup.add_parser(sub)
     demo.add_parser(sub)
     vision_bench.add_parser(sub)
+    windows.add_parser(sub)
     return parser
 
 
