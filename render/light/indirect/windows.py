@@ -29,20 +29,24 @@ others, which windows are lit, or a frontage's lamp, traces again.
 
 A lit window is a Lambertian emitter of luminance ``L`` (cd/m²) with a lamp's spectrum. Its
 light reaches a surface point ``x`` by next-event estimation
-(:mod:`render.light.indirect.paths`): one window chosen with probability proportional to an
+(:mod:`render.light.indirect.paths`): one window chosen by the light tree over the lit windows
+(:mod:`render.light.indirect.window_tree`, O(log n) per vertex): down from the root by the
+nodes' importance bounds, then among a leaf's few windows with probability proportional to an
 approximate unshadowed illuminance from its centre,
 
     ẽ_w = A_w · max(cos θ_x, 0.02) · max(cos θ_w, 0.02) / (d² + A_w)
 
-(the floors keep every window's probability above zero, so the estimate stays unbiased where
-the centre is out of sight but part of the window is not), a point ``y`` uniform on its
-rectangle, and one shadow ray; the estimate of the white-diffuser luminance per unit window
-luminance is
+(the floors, there and in the nodes' bounds, keep every window's probability ``p_w`` above
+zero, so the estimate stays unbiased where the centre is out of sight but part of the window
+is not; with at most eight lit windows the tree is one leaf and ``p_w = ẽ_w / Σ ẽ``), a point
+``y`` uniform on its rectangle, and one shadow ray; the estimate of the white-diffuser
+luminance per unit window luminance is
 
     E/(π·L) = cos θ_x · cos θ_y · A_w / (π · |x − y|² · p_w)
 
-(times the window's weight ``L_w / level``, which multiplies ẽ_w too: a window is chosen by its
-approximate illuminance times its luminance, its power's share at the point).
+(times the window's weight ``L_w / level``, which multiplies ẽ_w and the nodes' power too: a
+window is chosen by its approximate illuminance times its luminance, its power's share at the
+point).
 
 A bounce ray that meets a lit window finds the glass (it reflects as any surface). From a
 vertex without a specular layer it adds no emission: window light arrives by these
@@ -61,6 +65,9 @@ References
   Rendering*, 3rd ed., ch. 14 (area lights) **(from memory)**.
 - E. Veach, L. J. Guibas, "Optimally combining sampling techniques for Monte Carlo
   rendering", SIGGRAPH 1995: multiple importance sampling, the power heuristic
+  **(from memory)**.
+- A. Conty Estevez, C. Kulla, "Importance Sampling of Many Lights with Adaptive Tree
+  Splitting", HPG 2018: the light tree, through :mod:`render.light.indirect.window_tree`
   **(from memory)**.
 - Typical luminances of lit windows and shop windows at night (the defaults, 10 and
   50 cd/m²): **from memory, no source**; give the site's.
