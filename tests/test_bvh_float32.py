@@ -32,10 +32,9 @@ def _mask(wb, o, d, t_max, near):
         _down32(o[1]) if inv[1] >= 0.0 else _up32(o[1]),
         _down32(o[2]) if inv[2] >= 0.0 else _up32(o[2]),
     )
+    far_inv = (np.float32(inv[0] * F32_FAR), np.float32(inv[1] * F32_FAR), np.float32(inv[2] * F32_FAR))
     cols = _octant_columns(inv[0], inv[1], inv[2])
-    return node_entry_mask(
-        wb, np.uint64(0), cols, near_o, far_o, inv, _down32(0.0), _cull(t_max), np.float32(F32_FAR), near
-    )
+    return node_entry_mask(wb, np.uint64(0), cols, near_o, far_o, inv, far_inv, _down32(0.0), _cull(t_max), near)
 
 
 def _two_planes():

@@ -89,18 +89,18 @@ def _splat(builder, x):
 
 
 @intrinsic
-def node_entry_mask(typingctx, wb, node, cols, origin, far_origin, inverse, t_min, t_max, far_scale, near_out):
+def node_entry_mask(typingctx, wb, node, cols, origin, far_origin, inverse, far_inverse, t_min, t_max, near_out):
     """Bit mask of the children of node ``node`` of ``wb`` (the wide tree's float32 records)
-    that the ray enters, ``t_min <= near <= min(far * far_scale, t_max)``, in float32: for
-    each axis ``(bound - origin) * inverse``, the near bound's distance from ``origin`` and the
-    far bound's from ``far_origin`` (:mod:`render.rays.bvh.single` rounds the ray's origin to
-    the conservative side of each), ``near`` the largest near distance and ``t_min``, ``far``
-    the smallest far distance. With ``near_out`` (float64, C-contiguous) each child's near
+    that the ray enters, ``t_min <= near <= min(far, t_max)``, in float32: per axis the near
+    bound's distance ``(bound - origin) * inverse`` and the far bound's ``(bound - far_origin)
+    * far_inverse`` (:mod:`render.rays.bvh.single` rounds the ray's origin to the conservative
+    side of each and scales the far inverse up), ``near`` the largest near distance and
+    ``t_min``, ``far`` the smallest far distance. With ``near_out`` (float64, C-contiguous) each child's near
     distance is stored in ``near_out[0:WIDE]``, widened; None stores nothing.
 
     ``cols`` = (near x, near y, near z, far x, far y, far z) columns of the first child's
-    bounds for the ray's octant (uint64); ``origin``, ``far_origin``, ``inverse`` float32
-    3-tuples, ``t_min``, ``t_max``, ``far_scale`` float32."""
+    bounds for the ray's octant (uint64); ``origin``, ``far_origin``, ``inverse``,
+    ``far_inverse`` float32 3-tuples, ``t_min``, ``t_max`` float32."""
     if not (isinstance(wb, types.Array) and wb.ndim == 2 and wb.layout == "C" and wb.dtype == types.float32):
         return None  # rows are read as contiguous float32 runs
     keep_near = not isinstance(near_out, types.NoneType)
@@ -108,32 +108,34 @@ def node_entry_mask(typingctx, wb, node, cols, origin, far_origin, inverse, t_mi
         isinstance(near_out, types.Array) and near_out.layout == "C" and near_out.dtype == types.float64
     ):
         return None
-    scalars = (*origin.types, *far_origin.types, *inverse.types, t_min, t_max, far_scale)
+    scalars = (*origin.types, *far_origin.types, *inverse.types, *far_inverse.types, t_min, t_max)
     if not all(t == types.float32 for t in scalars):
         return None
-    sig = types.int64(wb, node, cols, origin, far_origin, inverse, t_min, t_max, far_scale, near_out)
+    sig = types.int64(wb, node, cols, origin, far_origin, inverse, far_inverse, t_min, t_max, near_out)
 
     def codegen(context, builder, signature, args):
         wb_t = signature.args[0]
         out_t = signature.args[9]
-        a_wb, a_node, a_cols, a_origin, a_far, a_inverse, a_tmin, a_tmax, a_scale, a_out = args
+        a_wb, a_node, a_cols, a_origin, a_far, a_inverse, a_far_inverse, a_tmin, a_tmax, a_out = args
         ary = context.make_array(wb_t)(context, builder, a_wb)
         row = builder.mul(a_node, builder.extract_value(ary.shape, 1))
         col = [builder.extract_value(a_cols, k) for k in range(6)]
         o = [_splat(builder, builder.extract_value(a_origin, k)) for k in range(3)]
         o += [_splat(builder, builder.extract_value(a_far, k)) for k in range(3)]
         inv = [_splat(builder, builder.extract_value(a_inverse, k)) for k in range(3)]
+        inv += [_splat(builder, builder.extract_value(a_far_inverse, k)) for k in range(3)]
 
         def slab(k):
             ptr = builder.gep(ary.data, [builder.add(row, col[k])])
             bound = builder.load(builder.bitcast(ptr, _V8F.as_pointer()), align=4)
-            return builder.fmul(builder.fsub(bound, o[k]), inv[k % 3])
+            return builder.fmul(builder.fsub(bound, o[k]), inv[k])
 
         tn = [slab(k) for k in range(3)]
         tf = [slab(k) for k in range(3, 6)]
         near = _vmax(builder, _vmax(builder, tn[0], tn[1]), _vmax(builder, tn[2], _splat(builder, a_tmin)))
-        far = builder.fmul(_vmin(builder, _vmin(builder, tf[0], tf[1]), tf[2]), _splat(builder, a_scale))
-        enter = builder.fcmp_ordered("<=", near, _vmin(builder, far, _splat(builder, a_tmax)))
+        # Both chains two operations deep after the products (the test waits on the longer).
+        far = _vmin(builder, _vmin(builder, tf[0], tf[1]), _vmin(builder, tf[2], _splat(builder, a_tmax)))
+        enter = builder.fcmp_ordered("<=", near, far)
         if keep_near:
             out = context.make_array(out_t)(context, builder, a_out)
             builder.store(builder.fpext(near, _V8D), builder.bitcast(out.data, _V8D.as_pointer()), align=8)

@@ -197,9 +197,13 @@ def _closest(wb_p, wi_p, tv_p, ti_p, o_p, d_p, st_node_p, st_t_p, work_p, t_min,
         down[1] if inverse[1] >= 0.0 else up[1],
         down[2] if inverse[2] >= 0.0 else up[2],
     )
+    far_inverse = (
+        np.float32(inverse[0] * F32_FAR),
+        np.float32(inverse[1] * F32_FAR),
+        np.float32(inverse[2] * F32_FAR),
+    )
     cols = _octant_columns(inverse[0], inverse[1], inverse[2])
     t_min32 = _down32(t_min)
-    scale32 = np.float32(F32_FAR)
     best_t = t_max
     cull32 = _cull(best_t)
     cull = np.float64(cull32)
@@ -212,7 +216,7 @@ def _closest(wb_p, wi_p, tv_p, ti_p, o_p, d_p, st_node_p, st_t_p, work_p, t_min,
     while True:
         if entry >= 0:
             node = np.uint64(entry)
-            mask = node_entry_mask(wb, node, cols, near_o, far_o, inverse, t_min32, cull32, scale32, work)
+            mask = node_entry_mask(wb, node, cols, near_o, far_o, inverse, far_inverse, t_min32, cull32, work)
             if mask != 0:
                 c = np.uint64(lowest_bit(mask))
                 mask &= mask - 1
@@ -358,14 +362,18 @@ def _any(wb_p, wi_p, tv_p, o_p, d_p, st_node_p, t_min, t_max):
         down[1] if inverse[1] >= 0.0 else up[1],
         down[2] if inverse[2] >= 0.0 else up[2],
     )
+    far_inverse = (
+        np.float32(inverse[0] * F32_FAR),
+        np.float32(inverse[1] * F32_FAR),
+        np.float32(inverse[2] * F32_FAR),
+    )
     cols = _octant_columns(inverse[0], inverse[1], inverse[2])
     t_min32 = _down32(t_min)
-    scale32 = np.float32(F32_FAR)
     cull32 = _cull(t_max)
     node = np.uint64(0)
     sp = 0
     while True:
-        mask = node_entry_mask(wb, node, cols, near_o, far_o, inverse, t_min32, cull32, scale32, None)
+        mask = node_entry_mask(wb, node, cols, near_o, far_o, inverse, far_inverse, t_min32, cull32, None)
         while mask != 0:
             c = np.uint64(lowest_bit(mask))
             mask &= mask - 1

@@ -50,8 +50,8 @@ BIG_INV = 1e300
 # computed as (bound - origin) * inverse with the origin rounded to the side that makes the near
 # distance smaller and the far one larger, so only three roundings remain (the inverse's, the
 # difference's, the product's; relative 3 u with u = 2^-24, the inverse rounded twice adding
-# less than 2^-53): the far distance is scaled up by F32_FAR >= (1 + 3u) / (1 - 3u) (Ize 2013's
-# argument), and hits are looked for up to a distance raised by F32_MARGIN >= 3u relative, so a
+# less than 2^-53): the far bound's inverse is scaled up by F32_FAR, so its distance exceeds
+# the near one's bound by more than (1 + 3u) / (1 - 3u) (Ize 2013's argument), and hits are looked for up to a distance raised by F32_MARGIN >= 3u relative, so a
 # box whose entry is computed late by rounding is still entered; inverses are clamped to
 # +-F32_BIG_INV; a distance above F32_LIMIT (overflowed) is no entry.
 F32_FAR = 1.0 + 2.0**-20
