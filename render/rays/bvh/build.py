@@ -25,6 +25,7 @@ import numba
 import numpy as np
 
 from render.rays.bvh.layout import BVH, MAX_SAH_DEPTH, STACK_SIZE, aligned_empty
+from render.rays.bvh.simd import LANES
 from render.rays.bvh.wide import collapse_wide
 
 __all__ = ["build_bvh"]
@@ -453,6 +454,8 @@ def build_bvh(
     wide, wide_i32, wide_stack = collapse_wide(nodes, nodes_i32)
     tri_index = idx.astype(np.int32)
     tri_vertices = np.ascontiguousarray(tris[tri_index].reshape(-1, 9))
+    tri_lanes = np.zeros((9, tri_vertices.shape[0] + LANES - 1))
+    tri_lanes[:, : tri_vertices.shape[0]] = tri_vertices.T
     return BVH(
         nodes=nodes,
         nodes_i32=nodes_i32,
@@ -461,6 +464,7 @@ def build_bvh(
         wide_stack=wide_stack,
         tri_index=tri_index,
         tri_vertices=tri_vertices,
+        tri_lanes=tri_lanes,
         n_triangles=int(tris.shape[0]),
         depth=int(depth),
         sah_cost=cost,

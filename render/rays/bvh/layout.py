@@ -15,7 +15,10 @@ hot path.
   float64 with the conservative far distance of Ize 2013 (:mod:`render.rays.bvh.slab`), so
   rounding never makes a ray miss a box it touches.
 * Triangles are copied in leaf order into ``tri_vertices`` (M, 9) float64 (v0, v1, v2), and
-  ``tri_index`` maps back to the caller's triangle order.
+  ``tri_index`` maps back to the caller's triangle order. The same vertices are stored again
+  component by component, ``tri_lanes`` (9, M + 3): a leaf's next four triangles are one
+  vector load per component, and the ray's axis permutation of the watertight test is a
+  choice of rows (the single-ray traversal tests a leaf's triangles four at a time).
 * The binary tree is also collapsed into an 8-wide tree (:attr:`BVH.wide_nodes`,
   :mod:`render.rays.bvh.wide`) with the same leaves.
 
@@ -76,6 +79,11 @@ class BVH:
         (M,) int32: original index of the triangle stored at each leaf position.
     tri_vertices
         (M, 9) float64: vertices v0, v1, v2 (metres) in leaf order.
+    tri_lanes
+        (9, M + LANES - 1) float64: ``tri_vertices`` transposed (row ``3 v + c`` component
+        ``c`` of vertex ``v``), then LANES - 1 columns of zeros, so that the LANES triangles
+        from any leaf position are one contiguous run per row
+        (:func:`render.rays.bvh.simd.leaf_lane_hits`).
     n_triangles
         Number of triangles the BVH was built over.
     depth
@@ -92,6 +100,7 @@ class BVH:
     wide_stack: int
     tri_index: np.ndarray
     tri_vertices: np.ndarray
+    tri_lanes: np.ndarray
     n_triangles: int
     depth: int
     sah_cost: float
@@ -117,8 +126,14 @@ class BVH:
 
     @property
     def nbytes(self) -> int:
-        """Bytes held by the BVH arrays (nodes, permutation and triangle copy)."""
-        return int(self.nodes.nbytes + self.wide_nodes.nbytes + self.tri_index.nbytes + self.tri_vertices.nbytes)
+        """Bytes held by the BVH arrays (nodes, permutation and the two triangle copies)."""
+        return int(
+            self.nodes.nbytes
+            + self.wide_nodes.nbytes
+            + self.tri_index.nbytes
+            + self.tri_vertices.nbytes
+            + self.tri_lanes.nbytes
+        )
 
 
 @dataclass

@@ -79,10 +79,11 @@ def _trace_batch(
     stride,
 ):
     """Trace work items ``first, first + stride, ...`` of a batch through ``tree`` = (binary
-    nodes, their int32 view, wide nodes, their int32 view, triangle vertices, triangle index).
+    nodes, their int32 view, wide nodes, their int32 view, triangle vertices, triangle index,
+    triangle lanes).
     Closest hits go into ``out`` = (t, triangle, u, v, _) or, with ``occlusion``, any hit into
     ``out[4]`` (the other outputs are then not touched)."""
-    nb, ni, wb, wi, tv, ti = tree
+    nb, ni, wb, wi, tv, ti, tl = tree
     out_t, out_tri, out_u, out_v, out_hit = out
     n_rays = origins.shape[0]
     per_item = PACKET * _PACKETS_PER_ITEM
@@ -119,11 +120,11 @@ def _trace_batch(
                     o[q] = origins[i, q]
                     d[q] = directions[i, q]
                 if occlusion:
-                    out_hit[i] = valid and any_one(wb, wi, tv, o, d, t_min, t_max[i], st_node, work, width)
+                    out_hit[i] = valid and any_one(wb, wi, tv, o, d, t_min, t_max[i], st_node, work, width, tl)
                     continue
                 t, j, u, v = np.inf, -1, 0.0, 0.0
                 if valid:
-                    t, j, u, v = closest_one(wb, wi, tv, ti, o, d, t_min, t_max[i], st_node, st_t, work, width)
+                    t, j, u, v = closest_one(wb, wi, tv, ti, o, d, t_min, t_max[i], st_node, st_t, work, width, tl)
                 _store(i, t, j, u, v, out_t, out_tri, out_u, out_v)
 
 
@@ -163,7 +164,15 @@ def _run(
     run_split(
         _trace_batch,
         (o.shape[0] + per_item - 1) // per_item,
-        (bvh.nodes, bvh.nodes_i32, bvh.wide_nodes, bvh.wide_nodes_i32, bvh.tri_vertices, bvh.tri_index),
+        (
+            bvh.nodes,
+            bvh.nodes_i32,
+            bvh.wide_nodes,
+            bvh.wide_nodes_i32,
+            bvh.tri_vertices,
+            bvh.tri_index,
+            bvh.tri_lanes,
+        ),
         bvh.wide_stack,
         o,
         d,

@@ -34,13 +34,17 @@ from numba.extending import intrinsic
 
 from render.rays.bvh.layout import WIDE
 
-__all__ = ["data_pointer", "lowest_bit", "node_entry_mask"]
+__all__ = ["LANES", "data_pointer", "leaf_lane_hits", "lowest_bit", "node_entry_mask"]
+
+# Triangles of a leaf tested at once by leaf_lane_hits (float64 lanes: one 256-bit vector).
+LANES = 4
 
 _I32 = ir.IntType(32)
 _I64 = ir.IntType(64)
 _F64 = ir.DoubleType()
 _V8F = ir.VectorType(ir.FloatType(), WIDE)
 _V8D = ir.VectorType(_F64, WIDE)
+_V4D = ir.VectorType(_F64, LANES)
 
 
 @intrinsic
@@ -140,5 +144,106 @@ def node_entry_mask(typingctx, wb, node, cols, origin, far_origin, inverse, far_
             out = context.make_array(out_t)(context, builder, a_out)
             builder.store(builder.fpext(near, _V8D), builder.bitcast(out.data, _V8D.as_pointer()), align=8)
         return builder.zext(builder.bitcast(enter, ir.IntType(WIDE)), _I64)
+
+    return sig, codegen
+
+
+def _splat_d(builder, x):
+    v = builder.insert_element(ir.Constant(_V4D, ir.Undefined), x, ir.Constant(_I32, 0))
+    return builder.shuffle_vector(
+        v, ir.Constant(_V4D, ir.Undefined), ir.Constant(ir.VectorType(_I32, LANES), [0] * LANES)
+    )
+
+
+@intrinsic
+def leaf_lane_hits(typingctx, lanes, first, n_valid, rows, p, s, t_min, t_bound, out):
+    """Bit mask of the triangles ``first .. first + LANES - 1`` of ``lanes`` (the BVH's
+    ``tri_lanes``: (9, M + LANES - 1) float64, row ``3 v + c`` component ``c`` of vertex ``v``)
+    among the first ``n_valid`` that the ray hits with ``t_min < t`` and ``t < t_bound`` (no
+    ``out``: an occlusion test) or ``t <= t_bound`` (with ``out``: a closest-hit filter whose
+    ties the caller resolves), by the watertight test of
+    :func:`~render.rays.bvh.triangle.intersect_triangle` with the same float64 operations in
+    the same order per lane (no fast-math, no fused multiply-add), so each lane's ``t``, ``u``,
+    ``v`` are that function's to the bit. With ``out`` (float64, C-contiguous, at least
+    ``3 LANES``) the lanes' ``t``, ``u``, ``v`` are stored at ``out[0:LANES]``,
+    ``out[LANES:2 LANES]`` and ``out[2 LANES:3 LANES]``.
+
+    ``rows`` = the nine element offsets ``(3 v + k) * lanes.shape[1]`` of the components the
+    test reads as x, y, z of v0, v1, v2 (k = kx, ky, kz of the ray's axis permutation), so the
+    permutation is a choice of rows; ``p``, ``s`` the ray's permuted origin and shear."""
+    if not (
+        isinstance(lanes, types.Array) and lanes.ndim == 2 and lanes.layout == "C" and lanes.dtype == types.float64
+    ):
+        return None
+    keep = not isinstance(out, types.NoneType)
+    if keep and not (isinstance(out, types.Array) and out.layout == "C" and out.dtype == types.float64):
+        return None
+    if not (isinstance(rows, types.UniTuple) and rows.count == 9 and isinstance(rows.dtype, types.Integer)):
+        return None
+    scalars = (*p.types, *s.types, t_min, t_bound)
+    if len(scalars) != 8 or not all(t == types.float64 for t in scalars):
+        return None
+    sig = types.int64(lanes, first, n_valid, rows, p, s, t_min, t_bound, out)
+
+    def codegen(context, builder, signature, args):
+        a_lanes, a_first, a_n, a_rows, a_p, a_s, a_tmin, a_bound, a_out = args
+        ary = context.make_array(signature.args[0])(context, builder, a_lanes)
+        first_ = builder.sext(a_first, _I64) if a_first.type.width < 64 else a_first
+        n_ = builder.sext(a_n, _I64) if a_n.type.width < 64 else a_n
+
+        def load(i):
+            off = builder.extract_value(a_rows, i)
+            off = builder.sext(off, _I64) if off.type.width < 64 else off
+            ptr = builder.gep(ary.data, [builder.add(off, first_)])
+            return builder.load(builder.bitcast(ptr, _V4D.as_pointer()), align=8)
+
+        v0x, v0y, v0z, v1x, v1y, v1z, v2x, v2y, v2z = (load(i) for i in range(9))
+        px, py, pz = (_splat_d(builder, builder.extract_value(a_p, i)) for i in range(3))
+        sx, sy, sz = (_splat_d(builder, builder.extract_value(a_s, i)) for i in range(3))
+        sub, mul, add = builder.fsub, builder.fmul, builder.fadd
+        az = sub(v0z, pz)
+        bz = sub(v1z, pz)
+        cz = sub(v2z, pz)
+        ax = sub(sub(v0x, px), mul(sx, az))
+        ay = sub(sub(v0y, py), mul(sy, az))
+        bx = sub(sub(v1x, px), mul(sx, bz))
+        by = sub(sub(v1y, py), mul(sy, bz))
+        cx = sub(sub(v2x, px), mul(sx, cz))
+        cy = sub(sub(v2y, py), mul(sy, cz))
+        uu = sub(mul(cx, by), mul(cy, bx))
+        vv = sub(mul(ax, cy), mul(ay, cx))
+        ww = sub(mul(bx, ay), mul(by, ax))
+        det = add(add(uu, vv), ww)
+        zero = ir.Constant(_V4D, [0.0] * LANES)
+        one = ir.Constant(_V4D, [1.0] * LANES)
+        ge = [builder.fcmp_ordered(">=", x, zero) for x in (uu, vv, ww)]
+        le = [builder.fcmp_ordered("<=", x, zero) for x in (uu, vv, ww)]
+        hit = builder.and_(
+            builder.or_(
+                builder.and_(builder.and_(ge[0], ge[1]), ge[2]), builder.and_(builder.and_(le[0], le[1]), le[2])
+            ),
+            builder.fcmp_unordered("!=", det, zero),
+        )
+        inv = builder.fdiv(one, builder.select(hit, det, one))
+        t = mul(add(add(mul(uu, mul(sz, az)), mul(vv, mul(sz, bz))), mul(ww, mul(sz, cz))), inv)
+        lane = ir.Constant(ir.VectorType(_I64, LANES), list(range(LANES)))
+        n_splat = builder.insert_element(
+            ir.Constant(ir.VectorType(_I64, LANES), ir.Undefined), n_, ir.Constant(_I32, 0)
+        )
+        n_splat = builder.shuffle_vector(
+            n_splat,
+            ir.Constant(ir.VectorType(_I64, LANES), ir.Undefined),
+            ir.Constant(ir.VectorType(_I32, LANES), [0] * LANES),
+        )
+        ok = builder.and_(hit, builder.icmp_signed("<", lane, n_splat))
+        ok = builder.and_(ok, builder.fcmp_ordered(">", t, _splat_d(builder, a_tmin)))
+        ok = builder.and_(ok, builder.fcmp_ordered("<=" if keep else "<", t, _splat_d(builder, a_bound)))
+        if keep:
+            out = context.make_array(signature.args[8])(context, builder, a_out)
+            base = builder.bitcast(out.data, _V4D.as_pointer())
+            builder.store(t, base, align=8)
+            builder.store(mul(vv, inv), builder.gep(base, [ir.Constant(_I32, 1)]), align=8)
+            builder.store(mul(ww, inv), builder.gep(base, [ir.Constant(_I32, 2)]), align=8)
+        return builder.zext(builder.bitcast(ok, ir.IntType(LANES)), _I64)
 
     return sig, codegen

@@ -44,9 +44,11 @@ from __future__ import annotations
 
 import numba
 import numpy as np
+from numba.core import types
+from numba.extending import overload
 
 from render.rays.bvh.layout import WIDE
-from render.rays.bvh.simd import data_pointer, lowest_bit, node_entry_mask
+from render.rays.bvh.simd import LANES, data_pointer, leaf_lane_hits, lowest_bit, node_entry_mask
 from render.rays.bvh.slab import F32_BIG_INV, F32_FAR, F32_LIMIT, F32_MARGIN, safe_inverse
 from render.rays.bvh.triangle import intersect_triangle, triangle_vertices
 
@@ -70,6 +72,9 @@ _ROWS = 1 << 40
 # Columns of the first child's reference and leaf count.
 _REF = np.uint64(6 * WIDE)
 _COUNT = np.uint64(7 * WIDE)
+# Where leaf_lane_hits stores the lanes' u and v in ``work`` (t at 0).
+_U = np.uint64(LANES)
+_V = np.uint64(2 * LANES)
 
 
 @numba.njit(cache=True, nogil=True)
@@ -116,6 +121,36 @@ def _octant_columns(ix: float, iy: float, iz: float) -> tuple[int, int, int, int
     )
 
 
+def _lanes_arguments(lanes):
+    """``(data pointer, row length)`` of ``tri_lanes``, or ``(None, 0)`` without it (chosen by
+    type when compiled, so the traversal without lanes keeps the one-by-one leaf test)."""
+
+
+@overload(_lanes_arguments)
+def _lanes_arguments_impl(lanes):
+    if lanes is None or isinstance(lanes, (types.NoneType, types.Omitted)):
+        return lambda lanes: (None, 0)
+    return lambda lanes: (data_pointer(lanes, np.float64), lanes.shape[1])
+
+
+@numba.njit(cache=True, nogil=True)
+def _lane_rows(k: tuple[int, int, int], stride: int) -> tuple[int, int, int, int, int, int, int, int, int]:
+    """Element offsets in ``tri_lanes`` (rows of ``stride``) of the components x, y, z of v0,
+    v1, v2 permuted to the axes ``k`` = (kx, ky, kz): the rows ``3 v + k``."""
+    kx, ky, kz = k
+    return (
+        kx * stride,
+        ky * stride,
+        kz * stride,
+        (3 + kx) * stride,
+        (3 + ky) * stride,
+        (3 + kz) * stride,
+        (6 + kx) * stride,
+        (6 + ky) * stride,
+        (6 + kz) * stride,
+    )
+
+
 @numba.njit(cache=True, nogil=True, error_model="numpy")
 def closest_one(
     wb: np.ndarray,
@@ -130,12 +165,16 @@ def closest_one(
     st_t: np.ndarray,
     work: np.ndarray,
     width: int,
+    lanes: np.ndarray | None = None,
 ) -> tuple[float, int, float, float]:
     """Closest hit of the ray ``o + t d`` with ``t_min < t < t_max``: ``(t, triangle, u, v)``,
     triangle -1 for a miss. ``wb``/``wi`` are the wide tree's float32/int32 views, ``tv``/``ti``
     the BVH's triangles (float64) and index (int32); ``o``, ``d`` (3,) float64; ``st_node``
     (int64), ``st_t`` (float64; stack, ``BVH.wide_stack`` entries) and ``work`` (float64, at
-    least WIDE) are scratch arrays. All C-contiguous."""
+    least 2 WIDE) are scratch arrays. All C-contiguous. With ``lanes`` (the BVH's
+    ``tri_lanes``) a leaf's triangles are tested :data:`~render.rays.bvh.simd.LANES` at a
+    time (the same hits to the bit); without, one by one."""
+    lanes_p, stride = _lanes_arguments(lanes)
     return _closest(
         data_pointer(wb, np.float32),
         data_pointer(wi, np.int32),
@@ -148,11 +187,13 @@ def closest_one(
         data_pointer(work, np.float64),
         t_min,
         t_max,
+        lanes_p,
+        stride,
     )
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def _closest(wb_p, wi_p, tv_p, ti_p, o_p, d_p, st_node_p, st_t_p, work_p, t_min, t_max):
+def _closest(wb_p, wi_p, tv_p, ti_p, o_p, d_p, st_node_p, st_t_p, work_p, t_min, t_max, lanes_p, stride):
     """:func:`closest_one` on its arrays' data pointers (see the module docstring)."""
     wb = numba.carray(wb_p, (_ROWS, _RECORD), np.float32)
     wi = numba.carray(wi_p, (_ROWS, _RECORD), np.int32)
@@ -181,6 +222,7 @@ def _closest(wb_p, wi_p, tv_p, ti_p, o_p, d_p, st_node_p, st_t_p, work_p, t_min,
     k = (np.int64(kx), np.int64(ky), np.int64(kz))
     p = (o[kx], o[ky], o[kz])
     s = (d[kx] * sz, d[ky] * sz, sz)
+    rows = _lane_rows(k, stride)
     inverse = (_inverse32(d[0]), _inverse32(d[1]), _inverse32(d[2]))
     # The origin of each axis's near bound on the side that makes the near distance smaller,
     # of its far bound on the side that makes the far distance larger (for an axis with a
@@ -270,15 +312,35 @@ def _closest(wb_p, wi_p, tv_p, ti_p, o_p, d_p, st_node_p, st_t_p, work_p, t_min,
         else:
             packed = -entry
             first = (packed & 0xFFFFFFFF) - 1
-            for j in range(first, first + (packed >> 32)):
-                hit, t, u, v = intersect_triangle(triangle_vertices(tv, j, k), p, s)
-                if hit and t > t_min and (t < best_t or (t == best_t and ti[j] < best_j)):
-                    best_t = t
-                    best_j = ti[j]
-                    best_u = u
-                    best_v = v
-                    cull32 = _cull(best_t)
-                    cull = np.float64(cull32)
+            end = first + (packed >> 32)
+            if lanes_p is None:
+                for j in range(first, end):
+                    hit, t, u, v = intersect_triangle(triangle_vertices(tv, j, k), p, s)
+                    if hit and t > t_min and (t < best_t or (t == best_t and ti[j] < best_j)):
+                        best_t = t
+                        best_j = ti[j]
+                        best_u = u
+                        best_v = v
+                        cull32 = _cull(best_t)
+                        cull = np.float64(cull32)
+            else:
+                lanes = numba.carray(lanes_p, (9, stride), np.float64)
+                for g in range(first, end, LANES):
+                    m = leaf_lane_hits(lanes, g, end - g, rows, p, s, t_min, best_t, work)
+                    # Lanes in triangle order, each kept by the same rule as one by one.
+                    while m != 0:
+                        c = lowest_bit(m)
+                        m &= m - 1
+                        lane = np.uint64(c)
+                        t = work[lane]
+                        j = g + c
+                        if t < best_t or (t == best_t and ti[j] < best_j):
+                            best_t = t
+                            best_j = ti[j]
+                            best_u = work[_U + lane]
+                            best_v = work[_V + lane]
+                            cull32 = _cull(best_t)
+                            cull = np.float64(cull32)
         found = False
         while sp > 0:
             sp -= 1
@@ -303,10 +365,12 @@ def any_one(
     st_node: np.ndarray,
     work: np.ndarray,
     width: int,
+    lanes: np.ndarray | None = None,
 ) -> bool:
     """True if the ray ``o + t d`` hits any triangle with ``t_min < t < t_max`` (stops at the
     first found). Arguments as for :func:`closest_one`; ``work`` is not read (any hit does not
     order the children)."""
+    lanes_p, stride = _lanes_arguments(lanes)
     return _any(
         data_pointer(wb, np.float32),
         data_pointer(wi, np.int32),
@@ -316,11 +380,13 @@ def any_one(
         data_pointer(st_node, np.int64),
         t_min,
         t_max,
+        lanes_p,
+        stride,
     )
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def _any(wb_p, wi_p, tv_p, o_p, d_p, st_node_p, t_min, t_max):
+def _any(wb_p, wi_p, tv_p, o_p, d_p, st_node_p, t_min, t_max, lanes_p, stride):
     """:func:`any_one` on its arrays' data pointers (see the module docstring)."""
     wb = numba.carray(wb_p, (_ROWS, _RECORD), np.float32)
     wi = numba.carray(wi_p, (_ROWS, _RECORD), np.int32)
@@ -346,6 +412,7 @@ def _any(wb_p, wi_p, tv_p, o_p, d_p, st_node_p, t_min, t_max):
     k = (np.int64(kx), np.int64(ky), np.int64(kz))
     p = (o[kx], o[ky], o[kz])
     s = (d[kx] * sz, d[ky] * sz, sz)
+    rows = _lane_rows(k, stride)
     inverse = (_inverse32(d[0]), _inverse32(d[1]), _inverse32(d[2]))
     # The origin of each axis's near bound on the side that makes the near distance smaller,
     # of its far bound on the side that makes the far distance larger (for an axis with a
@@ -383,10 +450,17 @@ def _any(wb_p, wi_p, tv_p, o_p, d_p, st_node_p, t_min, t_max):
                 sp += 1
                 continue
             first = -ch - 1
-            for j in range(first, first + wi[node, _COUNT + c]):
-                hit, t, _, _ = intersect_triangle(triangle_vertices(tv, j, k), p, s)
-                if hit and t > t_min and t < t_max:
-                    return True
+            end = first + wi[node, _COUNT + c]
+            if lanes_p is None:
+                for j in range(first, end):
+                    hit, t, _, _ = intersect_triangle(triangle_vertices(tv, j, k), p, s)
+                    if hit and t > t_min and t < t_max:
+                        return True
+            else:
+                lanes = numba.carray(lanes_p, (9, stride), np.float64)
+                for g in range(first, end, LANES):
+                    if leaf_lane_hits(lanes, g, end - g, rows, p, s, t_min, t_max, None) != 0:
+                        return True
         if sp == 0:
             return False
         sp -= 1
