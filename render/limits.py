@@ -45,6 +45,7 @@ __all__ = [
     "MAX_SPECTRUM_ROWS",
     "MAX_TABLE_WAVELENGTH_NM",
     "MAX_TRIANGLES",
+    "MAX_WINDOW_LAMPS",
     "MemoryEstimate",
     "available_memory_bytes",
     "check_count",
@@ -113,6 +114,12 @@ spectroradiometer); with it the integrals over a table stay finite in double pre
 MAX_MAP_FEATURES = 100_000
 """Buildings, roads, trees, lamps, hedges and walls ``lampcast import-map`` keeps from one
 extract (a dense town centre of 1 km radius has some 10 000)."""
+
+MAX_WINDOW_LAMPS = 8
+"""Window lamps of a scene's night light (``[night] window_lamp``, ``shop_window_lamp`` and the
+further lamps ``[[night.frontages]]`` name): each is an ambient channel of its own, 162 bytes per
+pixel of every view's stored transport (and 4 more for the share of its windows seen), about
+330 MiB per lamp at 1920×1080."""
 
 MAX_PROBLEMS_PER_FILE = 10
 """Problems a line-by-line reader reports for one file before it skips the rest of the file."""
@@ -192,25 +199,51 @@ _BYTES_PER_PIXEL_INDIRECT = 8
 # The second (white) transport of the pixels that see a specular layer: the same per channel,
 # and per such pixel its float32 scale and int32 pixel index.
 _BYTES_PER_GLOSS_PIXEL_INDIRECT = 8
+# The night light's ambient channels (render.light.indirect.night): per pixel their float32
+# scale and the float32 share of samples seeing the sky, and per window lamp the float32 share
+# seeing its lit windows (two columns at least); per gloss pixel their float32 scale.
+_BYTES_PER_PIXEL_AMBIENT = 8
+_BYTES_PER_PIXEL_WINDOW_LAMP = 4
+_BYTES_PER_GLOSS_PIXEL_AMBIENT = 4
 
 
 def render_memory_estimate(
-    width_px: int, height_px: int, spp: int, n_channels: int, indirect: bool = False, gloss_share: float = 0.0
+    width_px: int,
+    height_px: int,
+    spp: int,
+    n_channels: int,
+    indirect: bool = False,
+    gloss_share: float = 0.0,
+    ambient_channels: int = 0,
+    window_lamps: int = 0,
 ) -> MemoryEstimate:
     """An upper estimate of one view's peak memory (camera samples, light buffers, vision, and
     with ``indirect`` the interreflected transport, with the second transport of the share
-    ``gloss_share`` (0 … 1) of pixels that see a specular layer)."""
-    samples = int(width_px) * int(height_px) * int(spp)
+    ``gloss_share`` (0 … 1) of pixels that see a specular layer). ``ambient_channels``: the
+    night light's channels that are on (sky glow, moonlight, one per lit window lamp), stored
+    beside the luminaires' with their scale, the share of samples seeing the sky and, per
+    window lamp of ``window_lamps``, the share seeing its windows."""
+    pixels = int(width_px) * int(height_px)
+    samples = pixels * int(spp)
     total = samples * (_BYTES_PER_SAMPLE + _BYTES_PER_SAMPLE_CHANNEL * max(1, int(n_channels)))
-    total += int(width_px) * int(height_px) * _BYTES_PER_PIXEL_VISION
+    total += pixels * _BYTES_PER_PIXEL_VISION
+    ambient = max(0, int(ambient_channels))
     if indirect:
         per_pixel = _BYTES_PER_PIXEL_INDIRECT + _BYTES_PER_PIXEL_CHANNEL_INDIRECT * max(1, int(n_channels))
-        total += int(width_px) * int(height_px) * per_pixel
-        share = min(max(float(gloss_share), 0.0), 1.0)
         per_gloss = _BYTES_PER_GLOSS_PIXEL_INDIRECT + _BYTES_PER_PIXEL_CHANNEL_INDIRECT * max(1, int(n_channels))
-        total += math.ceil(share * int(width_px) * int(height_px)) * per_gloss
+        if ambient:
+            per_pixel += (
+                _BYTES_PER_PIXEL_CHANNEL_INDIRECT * ambient
+                + _BYTES_PER_PIXEL_AMBIENT
+                + _BYTES_PER_PIXEL_WINDOW_LAMP * max(2, int(window_lamps))
+            )
+            per_gloss += _BYTES_PER_PIXEL_CHANNEL_INDIRECT * ambient + _BYTES_PER_GLOSS_PIXEL_AMBIENT
+        total += pixels * per_pixel
+        share = min(max(float(gloss_share), 0.0), 1.0)
+        total += math.ceil(share * pixels) * per_gloss
+    night = f", {ambient} night-light channels" if indirect and ambient else ""
     return MemoryEstimate(
-        total, f"{width_px}×{height_px} pixels at {spp} samples per pixel, {n_channels} light channels"
+        total, f"{width_px}×{height_px} pixels at {spp} samples per pixel, {n_channels} light channels{night}"
     )
 
 
@@ -236,11 +269,14 @@ def check_render_size(
     where: str,
     indirect: bool = False,
     gloss_share: float = 0.0,
+    ambient_channels: int = 0,
+    window_lamps: int = 0,
 ) -> None:
     """Refuse, before any allocation, a view larger than the limits or than the memory available:
     an :class:`InputError` naming ``where`` (the view, or the ``--width``/``--spp`` options);
     ``indirect``: the view keeps interreflected light too (``gloss_share``: of which the share
-    of pixels that see a specular layer keeps a second transport)."""
+    of pixels that see a specular layer keeps a second transport; ``ambient_channels`` and
+    ``window_lamps``: the night light's, as :func:`render_memory_estimate` takes them)."""
     for value, limit, what in (
         (width_px, MAX_IMAGE_SIDE_PX, "the image width in pixels"),
         (height_px, MAX_IMAGE_SIDE_PX, "the image height in pixels"),
@@ -249,4 +285,7 @@ def check_render_size(
         check_count(value, limit, source, where, what, minimum=1)
     samples = int(width_px) * int(height_px) * int(spp)
     check_count(samples, MAX_CAMERA_SAMPLES, source, where, "the number of camera samples of the view", minimum=1)
-    check_memory(render_memory_estimate(width_px, height_px, spp, n_channels, indirect, gloss_share), source, where)
+    estimate = render_memory_estimate(
+        width_px, height_px, spp, n_channels, indirect, gloss_share, ambient_channels, window_lamps
+    )
+    check_memory(estimate, source, where)
