@@ -231,14 +231,16 @@ class Study:
         return settings
 
     def night_spectra(self) -> np.ndarray:
-        """(4, N_BINS) the spectra of the night light's ambient channels, any scale: the sky
-        glow's (``[night] sky_spectrum``), the moon's (Planckian at ``moon_cct_k``), the lit
-        windows' (``window_lamp``) and shop windows' (``shop_window_lamp``)."""
+        """(2 + K, N_BINS) the spectra of the night light's ambient channels, any scale: the sky
+        glow's (``[night] sky_spectrum``), the moon's (Planckian at ``moon_cct_k``), then the K
+        window lamps' (:attr:`render.scene.model.NightLight.window_lamps`: the lit windows'
+        ``window_lamp``, the shop windows' ``shop_window_lamp``, the further lamps frontages
+        name)."""
         from render.light.indirect.night import planckian_spectrum
 
         night = self.scene.night
-        sky, window, shop = self.lamp_spds([night.sky_spectrum, night.window_lamp, night.shop_window_lamp])
-        return np.stack([sky, planckian_spectrum(night.moon_cct_k), window, shop])
+        sky, *windows = self.lamp_spds([night.sky_spectrum, *night.window_lamps])
+        return np.stack([sky, planckian_spectrum(night.moon_cct_k), *windows])
 
     def _trace_indirect(
         self, buffers: LightBuffers, lights: LuminaireSet, settings: IndirectSettings, seed: int, progress: bool
@@ -285,18 +287,21 @@ class Study:
         lights = self.lights(s)
         where = f"view {v.name!r}" + (" with --width/--spp" if width_px or samples_per_pixel else "")
         indirect = self.indirect_settings(bounces)
-        # The night light's ambient channels are stored as the luminaires' interreflected ones.
-        ambient = indirect.night.terms_on if indirect is not None and indirect.ambient else 0
+        # The night light's ambient channels (one per term on: sky glow, moonlight, each lit
+        # window lamp) are stored beside the luminaires' interreflected ones.
+        night_on = indirect is not None and indirect.ambient
         check_render_size(
             camera.width_px,
             camera.height_px,
             spp,
-            lights.n_channels + ambient,
+            lights.n_channels,
             self.scene.path,
             where,
             indirect is not None,
             # (Estimated from above by a coarse pass of the camera: render.light.gloss.)
             view_gloss_share(self.mesh, self.bvh, camera) if indirect is not None else 0.0,
+            ambient_channels=indirect.night.terms_on if night_on else 0,
+            window_lamps=len(indirect.night.window_lamps) if night_on else 0,
         )
         road = view_road_shading(self.scene, v, self.mesh, self.reflectances)
         buffers = render_buffers(
@@ -475,16 +480,16 @@ class Study:
         paths: int,
         seed: int | None = None,
     ) -> np.ndarray:
-        """(N, 4) illuminance (lx) at bare points on surfaces with the given unit normals from
+        """(N, 2 + K) illuminance (lx) at bare points on surfaces with the given unit normals from
         the night's other light (``[night]``) per unit level of each term: per 1 cd/m² of sky
-        glow, per 1 lx of the moon's normal illuminance, per 1 cd/m² of the lit houses' and
-        shops' windows (times :func:`render.light.indirect.night.ambient_levels` of the scene's
+        glow, per 1 lx of the moon's normal illuminance, per 1 cd/m² of the lit windows of each
+        of the K window lamps (houses', shops', further lamps; times :func:`render.light.indirect.night.ambient_levels` of the scene's
         ``[night]``: its illuminance). A Monte Carlo estimate with ``paths`` per point (the
         moon's direct part exact), its direct part alone with ``bounces`` 0, up to ``bounces``
         interreflections otherwise; the terms off in ``[night]`` are zero (turning one on
         traces again). Lamp-independent: the same for every setup. Zero without night light."""
         from render.light.indirect import IndirectSettings, PathTracer, transport_at_points
-        from render.light.indirect.night import AMBIENT_CHANNELS
+        from render.light.indirect.night import ambient_channel_count
         from render.light.indirect.view import ambient_illuminance_per_unit_lx, without_luminaires
 
         pts = np.asarray(points_m, np.float64).reshape(-1, 3)
@@ -492,7 +497,7 @@ class Study:
         nrm = nrm / np.linalg.norm(nrm, axis=1, keepdims=True)
         night = self.scene.night
         if not night.on or pts.shape[0] == 0:
-            return np.zeros((pts.shape[0], AMBIENT_CHANNELS))
+            return np.zeros((pts.shape[0], ambient_channel_count(night)))
         settings = IndirectSettings(bounces=max(int(bounces), 0), samples_per_pixel=int(paths), night=night)
         tracer = PathTracer(
             self.mesh,

@@ -481,9 +481,9 @@ def test_lit_windows_in_a_view(tmp_path):
     [
         ('[[night.frontages]]\nname = "terace"\n', "night.frontages[0].name", "did you mean"),
         (
-            'window_lit_fraction = 0.2\n[[night.frontages]]\nname = "terrace"\nlamp = "led-4000k-cie-b3"\n',
+            'window_lit_fraction = 0.2\n[[night.frontages]]\nname = "terrace"\nlamp = "led-4000k-cie-b33"\n',
             "night.frontages[0].lamp",
-            "two window spectra",
+            "unknown lamp",
         ),
         (
             'window_luminance_cd_m2 = 0.0\n[[night.frontages]]\nname = "terrace"\nlit_fraction = 0.5\n'

@@ -19,7 +19,9 @@ together, :meth:`render.study.Study.night_illuminance_per_unit_lx`, the luminair
 :data:`NIGHT_PATHS_PER_POINT` paths per point, with the calculation's ``bounces``: 0 gives the
 direct part of the sky, moon and windows only (what reaches the point without a reflection),
 N > 0 also up to N interreflections. It is lamp-independent, so it is traced once per run and
-shared by every setup. What is kept is the illuminance per unit level of each term
+shared by every setup. The terms are sky glow, moonlight and one per window lamp (the houses'
+and shops' scene-wide lamps, then each further lamp ``[[night.frontages]]`` name,
+:func:`night_terms`); the night light's figures sum them all. What is kept is the illuminance per unit level of each term
 (:class:`NightGrid.per_unit_lx`); the figures at the scene's levels are a multiply, and
 :meth:`NightGrid.relit` gives them at any other sky luminance, moon illuminance or window
 luminances without a ray (a term that was off is zero: turning it on traces again).
@@ -63,6 +65,7 @@ __all__ = [
     "NightFields",
     "NightGrid",
     "night_on_fields",
+    "night_terms",
 ]
 
 #: The label of every figure of the night's other light (text, CSV, JSON, pictures, report).
@@ -77,7 +80,8 @@ NIGHT_PATHS_PER_POINT = 512
 #: (every 10°; the semicylindrical illuminance integrates over half of them).
 NIGHT_FACE_DIRECTIONS = FACE_PLANES
 #: The terms, in the order of the per-unit arrays' last axis (the ambient channels of
-#: :mod:`render.light.indirect.night`), with the unit of their level.
+#: :mod:`render.light.indirect.night`), with the unit of their level: with the two scene-wide
+#: window lamps alone; :func:`night_terms` adds one per further window lamp.
 NIGHT_TERMS = (
     ("sky_glow", "cd/m²"),
     ("moonlight", "lx"),
@@ -86,29 +90,41 @@ NIGHT_TERMS = (
 )
 
 
-def _levels(night: NightLight) -> tuple[float, float, float, float]:
+def night_terms(count: int) -> tuple[tuple[str, str], ...]:
+    """The ``count`` terms of a night light with ``count − 2`` window lamps: :data:`NIGHT_TERMS`,
+    then ``lit_windows_3``, ``lit_windows_4``, … for the further window lamps
+    (:attr:`render.scene.model.NightLight.window_lamps`, in their order)."""
+    extra = tuple((f"lit_windows_{k + 1}", "cd/m²") for k in range(2, int(count) - 2))
+    return NIGHT_TERMS + extra
+
+
+def _levels(night: NightLight) -> tuple[float, ...]:
     from render.light.indirect.night import ambient_levels
 
-    a, b, c, d = (float(x) for x in ambient_levels(night))
-    return a, b, c, d
+    return tuple(float(x) for x in ambient_levels(night))
 
 
 @dataclass(frozen=True)
 class NightGrid:
-    """The night light's illuminance on one grid: ``per_unit_lx`` (along, across, 4) lx per
-    unit level of each term (:data:`NIGHT_TERMS`: per 1 cd/m² of sky glow, per 1 lx of the
-    moon's normal illuminance, per 1 cd/m² of lit house and shop windows), ``levels`` the
-    levels it is stated at, ``bounces`` the interreflections traced (0: direct part only) and
-    ``paths`` per point."""
+    """The night light's illuminance on one grid: ``per_unit_lx`` (along, across, T) lx per
+    unit level of each term (:meth:`terms`: per 1 cd/m² of sky glow, per 1 lx of the moon's
+    normal illuminance, per 1 cd/m² of the lit windows of each window lamp: houses', shops',
+    further lamps), ``levels`` the T levels it is stated at, ``bounces`` the interreflections
+    traced (0: direct part only) and ``paths`` per point. Its figures sum every term."""
 
     per_unit_lx: np.ndarray
-    levels: tuple[float, float, float, float]
+    levels: tuple[float, ...]
     bounces: int
     paths: int
 
     @property
+    def terms(self) -> tuple[tuple[str, str], ...]:
+        """The terms' names and units, in the order of the last axis (:func:`night_terms`)."""
+        return night_terms(len(self.levels))
+
+    @property
     def terms_lx(self) -> np.ndarray:
-        """(along, across, 4) each term's illuminance at ``levels``."""
+        """(along, across, T) each term's illuminance at ``levels``."""
         return self.per_unit_lx * np.asarray(self.levels, np.float64)
 
     @property
@@ -129,13 +145,20 @@ class NightGrid:
         return float(self.illuminance_lx.max())
 
     def term_means_lx(self) -> dict[str, float]:
-        """Each term's mean over the grid, by its name in :data:`NIGHT_TERMS`."""
-        means = self.terms_lx.reshape(-1, len(NIGHT_TERMS)).mean(axis=0)
-        return {name: float(m) for (name, _), m in zip(NIGHT_TERMS, means, strict=True)}
+        """Each term's mean over the grid, by its name in :meth:`terms`."""
+        terms = self.terms
+        means = self.terms_lx.reshape(-1, len(terms)).mean(axis=0)
+        return {name: float(m) for (name, _), m in zip(terms, means, strict=True)}
 
     def relit(self, night: NightLight) -> NightGrid:
-        """The same grid at ``night``'s levels (a multiply; no ray)."""
-        return replace(self, levels=_levels(night))
+        """The same grid at ``night``'s levels (a multiply; no ray); ``night`` must have the
+        window lamps it was traced with (a lamp added or taken away traces again)."""
+        levels = _levels(night)
+        if len(levels) != len(self.levels):
+            raise ValueError(
+                f"the night light has {len(levels) - 2} window lamps, the grid was traced with {len(self.levels) - 2}"
+            )
+        return replace(self, levels=levels)
 
     def with_lx(self, luminaires_lx: np.ndarray) -> np.ndarray:
         """The luminaires' grid plus the night light (what a meter would read), not a figure
@@ -147,7 +170,7 @@ class NightGrid:
         with ``luminaires_lx`` the figures of the luminaires' light plus it."""
         out: dict[str, Any] = {
             "label": NIGHT_LABEL,
-            "levels": {name: {"value": v, "unit": u} for (name, u), v in zip(NIGHT_TERMS, self.levels, strict=True)},
+            "levels": {name: {"value": v, "unit": u} for (name, u), v in zip(self.terms, self.levels, strict=True)},
             "bounces": self.bounces,
             "paths_per_point": self.paths,
             "illuminance_lx": self.illuminance_lx.tolist(),
@@ -219,7 +242,7 @@ def night_on_fields(
     levels = _levels(night)
 
     def grid(values: np.ndarray, f: CalculationField) -> NightGrid:
-        return NightGrid(values.reshape(*f.shape, len(NIGHT_TERMS)), levels, int(bounces), int(paths))
+        return NightGrid(values.reshape(*f.shape, len(levels)), levels, int(bounces), int(paths))
 
     horizontal: dict[str, NightGrid] = {}
     vertical: dict[tuple[str, int], NightGrid] = {}
@@ -230,7 +253,7 @@ def night_on_fields(
         if kind == "h":
             horizontal[f.name] = grid(per_unit[s0 : s0 + n], f)
             continue
-        ev = per_unit[s0 : s0 + n * directions].reshape(directions, n, len(NIGHT_TERMS))
+        ev = per_unit[s0 : s0 + n * directions].reshape(directions, n, len(levels))
         for sign, centre in ((1, 0), (-1, half)):
             vertical[(f.name, sign)] = grid(ev[centre], f)
             idx, w = half_circle_rule(directions, centre)

@@ -103,7 +103,14 @@ def format_calculation(report: CalculationReport) -> str:
                 lines.append(
                     f"  {'night light':<16}{_num(n.mean_lx, 3):>9}{_num(n.min_lx, 3):>9}{_num(n.max_lx, 3):>9}{'':>7}"
                     f"  (sky {terms['sky_glow']:.3f}, moon {terms['moonlight']:.3f}, windows "
-                    f"{terms['lit_windows']:.3f}, shop windows {terms['lit_shop_windows']:.3f} lx)"
+                    f"{terms['lit_windows']:.3f}, shop windows {terms['lit_shop_windows']:.3f}"
+                    # Further window lamps (lit_windows_3, ...), each its own term.
+                    + "".join(
+                        f", window lamp {name.rsplit('_', 1)[1]} {v:.3f}"
+                        for name, v in terms.items()
+                        if name.startswith("lit_windows_")
+                    )
+                    + " lx)"
                 )
         for face in s.faces:
             sc, v = face.semicylindrical_lx, face.vertical_lx

@@ -63,6 +63,8 @@ from render.scene.model import (
 from render.scene.schema import Field, check_table, check_value, join, shown
 
 if TYPE_CHECKING:
+    from collections.abc import Callable
+
     from render.geometry.mesh import TriangleMesh
 
 __all__ = [
@@ -385,7 +387,7 @@ NIGHT_FRONTAGE_SPEC = {
     "name": Field("str", help="the name of a house or shop [[frontages]] or [[objects]] entry"),
     "lit_fraction": Field("float", default=None, min=0.0, max=1.0, help="share of its windows lit"),
     "luminance_cd_m2": Field("float", default=None, unit="cd/m²", min=0.0, max=1e4),
-    "lamp": Field("str", default=None, help="[night] window_lamp or shop_window_lamp"),
+    "lamp": Field("str", default=None, help="lamp id or lamp file (each window lamp a channel)"),
     "lit": Field("any", default=[], help="numbers of windows always lit, from 1"),
     "dark": Field("any", default=[], help="numbers of windows never lit, from 1"),
     "window_luminance_cd_m2": Field("table", default={}, help="{ number = cd/m² } windows of their own luminance"),
@@ -1450,18 +1452,28 @@ def _window_numbers(value: Any, where: str, problems: ProblemList) -> tuple[int,
 
 
 def _night_frontages(
-    entries: list, night: dict, frontages: list[Frontage], objects: list[StreetObject], problems: ProblemList
+    entries: list,
+    night: dict,
+    frontages: list[Frontage],
+    objects: list[StreetObject],
+    problems: ProblemList,
+    check_lamp: Callable[[str, str], None] | None = None,
 ) -> tuple[FrontageWindows, ...]:
     """``[[night.frontages]]``: each names a house or shop frontage (or house_front /
-    shop_front object); its lamp must be one of the two window lamps (the ambient channels
-    keep two window spectra), whose scene-wide luminance, the channel's level, is positive."""
+    shop_front object). Its lamp is a window channel: one of ``[night]``'s two window lamps,
+    whose scene-wide luminance, the channel's level, is positive, or a further lamp (checked
+    with ``check_lamp``), a channel of its own in the order of first naming, at most
+    :data:`render.limits.MAX_WINDOW_LAMPS` in all, whose level is the ``luminance_cd_m2`` of the
+    first frontage naming it."""
     kinds = {f.tag.name: (f.kind, f.where) for f in frontages}
     for o in objects:
         if o.kind in ("house_front", "shop_front"):
             kinds[o.tag.name] = ("shop" if o.kind == "shop_front" else "house", o.where)
-    lamps = (night["window_lamp"], night["shop_window_lamp"])
-    levels = (night["window_luminance_cd_m2"], night["shop_window_luminance_cd_m2"])
+    lamps = [night["window_lamp"], night["shop_window_lamp"]]
+    levels = [night["window_luminance_cd_m2"], night["shop_window_luminance_cd_m2"]]
     keys = ("window", "shop_window")
+    # Where each further lamp's level comes from (the first frontage naming it).
+    first: dict[int, str] = {}
     out = []
     seen: dict[str, str] = {}
     for i, entry in enumerate(entries):
@@ -1483,14 +1495,26 @@ def _night_frontages(
         seen[name] = where
         kind = 1 if kinds[name][0] == "shop" else 0
         channel = kind
+        luminance = night[f"{keys[kind]}_luminance_cd_m2"] if f["luminance_cd_m2"] is None else f["luminance_cd_m2"]
         if f["lamp"] is not None:
             if f["lamp"] not in lamps:
-                problems.add(
-                    f"{where}.lamp",
-                    f"expected [night] window_lamp ({shown(lamps[0])}) or shop_window_lamp ({shown(lamps[1])}), got "
-                    f"{shown(f['lamp'])}: the night light keeps two window spectra; give a third lamp as one of them",
-                )
-                continue
+                if len(lamps) >= limits.MAX_WINDOW_LAMPS:
+                    problems.add(
+                        f"{where}.lamp",
+                        f"{shown(f['lamp'])} would be window lamp {len(lamps) + 1}; lampcast keeps at most "
+                        f"{limits.MAX_WINDOW_LAMPS} ([night] window_lamp, shop_window_lamp and "
+                        f"{limits.MAX_WINDOW_LAMPS - 2} more named by [[night.frontages]]), each a channel of 162 bytes "
+                        f"per pixel of a view's transport; expected one of {', '.join(shown(x) for x in lamps)}",
+                    )
+                    continue
+                problems_before = len(problems.items)
+                if check_lamp is not None:
+                    check_lamp(f["lamp"], f"{where}.lamp")
+                if len(problems.items) > problems_before:
+                    continue
+                lamps.append(f["lamp"])
+                levels.append(luminance)
+                first[len(lamps) - 1] = where
             channel = kind if lamps[kind] == f["lamp"] else lamps.index(f["lamp"])
         table = f["window_luminance_cd_m2"] or {}
         own = []
@@ -1507,13 +1531,22 @@ def _night_frontages(
             name,
             channel,
             night[f"{keys[kind]}_lit_fraction"] if f["lit_fraction"] is None else f["lit_fraction"],
-            night[f"{keys[kind]}_luminance_cd_m2"] if f["luminance_cd_m2"] is None else f["luminance_cd_m2"],
+            luminance,
             _window_numbers(f["lit"], f"{where}.lit", problems),
             _window_numbers(f["dark"], f"{where}.dark", problems),
             tuple(sorted(own)),
             where,
             problems.source,
+            lamps[channel],
         )
+        if windows.may_light and not levels[channel] > 0.0 and channel in first:
+            problems.add(
+                f"{first[channel]}.luminance_cd_m2",
+                f"its lamp {shown(lamps[channel])} is a window channel of its own whose level is this luminance "
+                f"(the luminances of its windows are stored relative to it), and {where} lights windows of it; "
+                "expected a luminance above 0 cd/m²",
+            )
+            continue
         if windows.may_light and not levels[channel] > 0.0:
             problems.add(
                 where,
@@ -1733,7 +1766,7 @@ def load_scene_document(doc: dict, path: str | os.PathLike, *, strict_paths: boo
     night = _defaults_after_problems(check_table(top["night"] or {}, NIGHT_SPEC, "night", problems), NIGHT_SPEC)
     for key in ("sky_spectrum", "window_lamp", "shop_window_lamp"):
         ctx.lamp(night[key], f"night.{key}")
-    night["frontages"] = _night_frontages(night["frontages"] or [], night, frontages, objects, problems)
+    night["frontages"] = _night_frontages(night["frontages"] or [], night, frontages, objects, problems, ctx.lamp)
     for key, names in (
         ("before", [compare["before"]] if compare["before"] is not None else []),
         ("options", compare["options"] or []),
@@ -1823,9 +1856,17 @@ def check_scene_mesh(path: str | os.PathLike, *, strict_paths: bool = False) -> 
     mesh = compile_scene(scene)
     problems = ProblemList(scene.path)
     n_channels = light_channel_count(scene)
+    night = scene.night
     for i, view in enumerate(scene.views):
         estimate = limits.render_memory_estimate(
-            view.width_px, view.height_px, scene.render.samples_per_pixel, n_channels, scene.render.bounces > 0
+            view.width_px,
+            view.height_px,
+            scene.render.samples_per_pixel,
+            n_channels,
+            scene.render.bounces > 0 or night.on,
+            # The night light's channels: sky glow, moonlight and each lit window lamp.
+            ambient_channels=night.terms_on if night.on else 0,
+            window_lamps=len(night.window_lamps) if night.on else 0,
         )
         try:
             limits.check_memory(estimate, scene.path, f"views[{i}].resolution")

@@ -264,8 +264,9 @@ class FrontageWindows:
     overriding ``[night]``'s scene-wide share and luminance for its windows alone.
 
     ``name`` is the frontage's or object's name; ``channel`` the window channel its windows
-    light (0: the houses' window lamp, 1: the shops'; resolved from ``lamp`` or the frontage's
-    kind); ``lit_fraction`` the share of its windows lit (``round(fraction · n)``, seeded with
+    light (0: the houses' window lamp, 1: the shops', 2 and on: the further window lamps in the
+    order frontages first name them; resolved from ``lamp`` or the frontage's kind) and ``lamp``
+    that channel's lamp reference; ``lit_fraction`` the share of its windows lit (``round(fraction · n)``, seeded with
     ``[night] window_seed`` and the frontage), at ``luminance_cd_m2``; windows numbered from 1
     in the order its fronts are built: ``lit`` always lit, ``dark`` never, and
     ``window_luminance_cd_m2`` ((number, cd/m²), ...) lit at a luminance of their own (0: dark).
@@ -280,6 +281,7 @@ class FrontageWindows:
     window_luminance_cd_m2: tuple[tuple[int, float], ...] = ()
     where: str = ""
     source: str = ""
+    lamp: str = ""
 
     @property
     def may_light(self) -> bool:
@@ -303,7 +305,10 @@ class NightLight:
     (``shop_window_luminance_cd_m2``) with the spectrum of the lamp reference ``window_lamp``
     (``shop_window_lamp``) (:mod:`render.light.indirect.windows`); ``frontages``: frontages
     with windows of their own (:class:`FrontageWindows`), their luminances stored relative to
-    their channel's scene-wide luminance."""
+    their channel's level. Each distinct window lamp is a window channel of its own
+    (:attr:`window_lamps`): the houses' and the shops' scene-wide lamps first, then the lamps
+    frontages name besides them, in the order they are first named; a further lamp's level
+    (:attr:`window_levels`) is the ``luminance_cd_m2`` of the first frontage naming it."""
 
     sky_luminance_cd_m2: float = 0.0
     sky_spectrum: str = "sodium-high-pressure-cie-hp1"
@@ -330,25 +335,42 @@ class NightLight:
 
     @property
     def windows_on(self) -> bool:
-        return self.terms[2] or self.terms[3]
+        return any(self.terms[2:])
 
     @property
-    def terms(self) -> tuple[bool, bool, bool, bool]:
-        """Which of its four terms are on: sky glow, moonlight, house windows, shop windows
-        (the ambient channels a view keeps)."""
+    def window_lamps(self) -> tuple[str, ...]:
+        """The window channels' lamps: ``window_lamp``, ``shop_window_lamp``, then each further
+        lamp a frontage names, in the order of first naming (at least two)."""
+        extra = {f.channel: f.lamp for f in reversed(self.frontages) if f.channel >= 2}
+        return (self.window_lamp, self.shop_window_lamp) + tuple(extra[c] for c in sorted(extra))
+
+    @property
+    def window_levels(self) -> tuple[float, ...]:
+        """The window channels' levels (cd/m²), what their windows' luminances are stored
+        relative to: the houses' and shops' scene-wide luminances, then for each further lamp
+        the ``luminance_cd_m2`` of the first frontage naming it."""
+        extra = {f.channel: f.luminance_cd_m2 for f in reversed(self.frontages) if f.channel >= 2}
+        return (self.window_luminance_cd_m2, self.shop_window_luminance_cd_m2) + tuple(extra[c] for c in sorted(extra))
+
+    @property
+    def terms(self) -> tuple[bool, ...]:
+        """Which of its terms are on: sky glow, moonlight, then one per window lamp
+        (:attr:`window_lamps`: house windows, shop windows, further lamps), the ambient
+        channels a view keeps."""
+        levels = self.window_levels
         return (
             self.sky_on,
             self.moon_on,
             self.window_lit_fraction > 0.0 and self.window_luminance_cd_m2 > 0.0 or self._frontage_lights(0),
             self.shop_window_lit_fraction > 0.0 and self.shop_window_luminance_cd_m2 > 0.0 or self._frontage_lights(1),
-        )
+        ) + tuple(levels[c] > 0.0 and self._frontage_lights(c) for c in range(2, len(levels)))
 
     def _frontage_lights(self, channel: int) -> bool:
         return any(f.channel == channel and f.may_light for f in self.frontages)
 
     @property
     def terms_on(self) -> int:
-        """How many of its four terms are on."""
+        """How many of its terms are on (the ambient channels a view keeps)."""
         return sum(self.terms)
 
     @property

@@ -53,22 +53,23 @@ from render.colour.spectra import WAVELENGTHS_NM
 from render.scene.model import NightLight
 
 __all__ = [
-    "AMBIENT_CHANNELS",
     "C2_M_K",
     "MOON_CHANNEL",
     "SHOP_WINDOW_CHANNEL",
     "SKY_CHANNEL",
     "WINDOW_CHANNEL",
     "NightLight",
+    "ambient_channel_count",
     "ambient_levels",
     "describe_night",
     "moon_direction",
     "planckian_spectrum",
 ]
 
-#: Ambient channels stored after the luminaires' channels: sky glow, moonlight, then the lit
-#: windows of houses and of shops (:mod:`render.light.indirect.windows`).
-AMBIENT_CHANNELS = 4
+#: Ambient channels stored after the luminaires' channels: sky glow, moonlight, then one per
+#: window lamp (:attr:`NightLight.window_lamps`): the houses' windows, the shops' windows and
+#: the further lamps frontages name (:mod:`render.light.indirect.windows`);
+#: :func:`ambient_channel_count` says how many.
 SKY_CHANNEL = 0
 MOON_CHANNEL = 1
 WINDOW_CHANNEL = 2
@@ -112,8 +113,10 @@ def describe_night(night: NightLight) -> str:
             f"{night.shop_window_luminance_cd_m2:g} cd/m² ({night.shop_window_lamp}), seed {night.window_seed}"
         )
         if night.frontages:
+            # (A frontage on a further window lamp names it; the two scene-wide lamps are above.)
             parts[-1] += ", windows of their own: " + "; ".join(
                 f"{f.name} {f.lit_fraction:.0%} at {f.luminance_cd_m2:g} cd/m²"
+                + (f" ({f.lamp})" if f.channel >= 2 else "")
                 + (f", {len(f.lit)} lit, {len(f.dark)} dark" if f.lit or f.dark else "")
                 + (f", {len(f.window_luminance_cd_m2)} of their own luminance" if f.window_luminance_cd_m2 else "")
                 for f in night.frontages
@@ -121,15 +124,15 @@ def describe_night(night: NightLight) -> str:
     return "night light: " + ", ".join(parts) if parts else ""
 
 
+def ambient_channel_count(night: NightLight) -> int:
+    """How many ambient channels the night light has: sky glow, moonlight and one per window
+    lamp (four with the two scene-wide window lamps alone)."""
+    return WINDOW_CHANNEL + len(night.window_lamps)
+
+
 def ambient_levels(night: NightLight) -> np.ndarray:
-    """(AMBIENT_CHANNELS,) the levels the ambient channels are scaled by: the sky's luminance (cd/m²), the
-    moon's normal illuminance (lx), the lit houses' and shops' window luminances (cd/m²)."""
-    return np.array(
-        [
-            night.sky_luminance_cd_m2,
-            night.moon_illuminance_lx,
-            night.window_luminance_cd_m2,
-            night.shop_window_luminance_cd_m2,
-        ],
-        np.float64,
-    )
+    """(:func:`ambient_channel_count`,) the levels the ambient channels are scaled by: the sky's
+    luminance (cd/m²), the moon's normal illuminance (lx), then each window lamp's level
+    (cd/m²; :attr:`NightLight.window_levels`: the houses' and shops' scene-wide window
+    luminances, then each further lamp's first frontage's)."""
+    return np.array([night.sky_luminance_cd_m2, night.moon_illuminance_lx, *night.window_levels], np.float64)

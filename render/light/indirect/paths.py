@@ -358,16 +358,16 @@ def trace_paths(
     triangle index); ``lum`` as :func:`render.light.integrator._luminaire_args`; ``grid`` a
     culling grid's kernel arguments; ``offset`` the ray-origin offset along the normal, m.
 
-    ``n_amb`` ambient channels (0, or 2: sky glow and moonlight,
+    ``n_amb`` ambient channels (0, or 2 + K: sky glow, moonlight and K window lamps,
     :mod:`render.light.indirect.night`) follow the luminaires' channels in ``out``, for unit
     level: with ``sky_on`` a direction that leaves the scene upward adds the sky's unit
     luminance (from the start sample too, and one more direction after the last bounce
     vertex), with ``moon_on`` every vertex, the start sample included, casts a shadow ray
-    along ``moon`` (unit vector toward the moon) and adds cos θ/π. With ``n_amb`` 4 the lit
-    windows ``win`` (W, 14) of channels ``win_kind`` (W,) (0 the houses' window lamp, 1 the
-    shops'), each at its luminance over its channel's level (column 13), in the order of their
-    light tree ``win_nodes``, ``win_links`` (:class:`render.light.indirect.window_tree.
-    WindowTree`), are two more channels: every vertex, the start sample included, connects to
+    along ``moon`` (unit vector toward the moon) and adds cos θ/π. With ``n_amb`` 2 + K the lit
+    windows ``win`` (W, 14) of window channels ``win_kind`` (W,) (0 the houses' window lamp, 1
+    the shops', 2 … K − 1 further lamps), each at its luminance over its channel's level
+    (column 13), in the order of their light tree ``win_nodes``, ``win_links``
+    (:class:`render.light.indirect.window_tree.WindowTree`), are K more channels: every vertex, the start sample included, connects to
     one of them chosen by the tree (:func:`_window_connection`); ``tri_window`` (F,) the lit
     window (tree row) each triangle lies on
     (-1: none): a direction drawn from a vertex's specular layer that meets one adds its

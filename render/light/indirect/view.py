@@ -50,11 +50,10 @@ from render.colour.materials import luminous_reflectance
 from render.colour.spectra import N_BINS
 from render.geometry.mesh import TriangleMesh, face_normals
 from render.light.indirect.night import (
-    AMBIENT_CHANNELS,
-    SHOP_WINDOW_CHANNEL,
     SKY_CHANNEL,
     WINDOW_CHANNEL,
     NightLight,
+    ambient_channel_count,
     ambient_levels,
     moon_direction,
 )
@@ -160,13 +159,15 @@ class IndirectBuffers:
     (n_pix,) the paths averaged in each pixel; ``spp`` the view's camera samples per pixel;
     ``settings`` and ``seed`` how the paths were traced. With night light
     (``settings.ambient``): ``ambient_values`` (n_pix, A, n_nodes) float16 the sky glow's,
-    moonlight's and lit windows' (houses', shops') transport per unit level (1 cd/m² of sky or
-    window, 1 lx normal illuminance of moon), the camera surface's direct light included,
-    relative to ``ambient_scale`` (n_pix,) float32; ``sky_seen`` (n_pix,) float32 the share of
-    a pixel's camera samples that see the sky, ``window_seen`` (n_pix, 2) that see a lit
-    house or shop window; ``ambient_spds`` (4, N_BINS) the spectra of the four;
-    ``ambient_channels`` which of the four ``ambient_values`` keeps (the A that were on when
-    traced: a term off then stays dark at any level). For the pixels whose camera samples see
+    moonlight's and lit windows' (one channel per window lamp: houses', shops', further lamps
+    :attr:`render.scene.model.NightLight.window_lamps`) transport per unit level (1 cd/m² of
+    sky or window, 1 lx normal illuminance of moon), the camera surface's direct light
+    included, relative to ``ambient_scale`` (n_pix,) float32; ``sky_seen`` (n_pix,) float32 the
+    share of a pixel's camera samples that see the sky, ``window_seen`` (n_pix, K) float32 that
+    see a lit window of each of the K window lamps (at its luminance over its channel's level);
+    ``ambient_spds`` (2 + K, N_BINS) the spectra of the ambient channels; ``ambient_channels``
+    which of them ``ambient_values`` keeps (the A that were on when traced: a term off then
+    stays dark at any level). For the pixels whose camera samples see
     a specular layer, ``spec_index`` (n_g,) int32: the light that layer reflects, white (no
     reflectance to apply), as ``spec_values`` (n_g, C, n_nodes) float16 relative to
     ``spec_scale`` (n_g,) float32, and with night light ``spec_ambient_values`` (n_g, A,
@@ -237,7 +238,7 @@ class PathTracer:
         self.settings = settings
         #: The luminaires' channels traced (none without bounces), then the ambient ones.
         self.n_channels = lights.n_channels if settings.bounces > 0 else 0
-        self.n_ambient = AMBIENT_CHANNELS if settings.ambient else 0
+        self.n_ambient = ambient_channel_count(settings.night) if settings.ambient else 0
         night = settings.night if settings.ambient else None
         self.sky_on = bool(night is not None and night.sky_on)
         self.moon_on = bool(night is not None and night.moon_on)
@@ -247,6 +248,12 @@ class PathTracer:
             windows = lit_windows(mesh, night) if night is not None and night.windows_on else None
         self.windows = windows
         w = windows if windows is not None and self.n_ambient else None
+        if w is not None and w.n and int(w.kind.max()) >= self.n_ambient - WINDOW_CHANNEL:
+            # (The kernel writes window channel k at ambient channel 2 + k.)
+            raise ValueError(
+                f"a lit window of window channel {int(w.kind.max())}, but the night light has "
+                f"{self.n_ambient - WINDOW_CHANNEL} window lamps"
+            )
         #: The lit windows' light tree (:mod:`render.light.indirect.window_tree`); the kernel's
         #: window rows are in its order.
         self.window_tree = window_tree(w.rect if w is not None else np.zeros((0, 14)))
@@ -303,7 +310,7 @@ class PathTracer:
         """Mean node values (rows, C + A, n_nodes) float64 and paths (rows,) of items of ``spp``
         consecutive start samples (rows: items, or samples with ``per_sample``): the
         luminaires' C channels (none without bounces), then the A ambient ones (sky glow,
-        moonlight) with night light; ``start_gloss``: the start surfaces' specular layer takes
+        moonlight, one per window lamp) with night light; ``start_gloss``: the start surfaces' specular layer takes
         its share of the light (False: the light arriving, as at calculation points);
         ``view`` (samples, 3) unit directions toward the camera (default: along ``normal``);
         ``spec`` (rows, C + A, n_nodes) float64, if given, receives the light the start
@@ -414,8 +421,9 @@ def trace_view(
     """The view's interreflected transport per pixel (see the module text); ``buffers`` from
     :func:`render.light.integrator.render_buffers` or :func:`~render.light.integrator.cast_view`
     with the same ``lights``. With night light (``settings.ambient``) also its ambient
-    transport and the share of each pixel's samples that see the sky, and ``ambient_spds``
-    (2, N_BINS) the sky's and the moon's spectra (needed then)."""
+    transport and the share of each pixel's samples that see the sky or each window lamp's lit
+    windows, and ``ambient_spds`` (2 + K, N_BINS) the sky's, the moon's and the K window lamps'
+    spectra (:meth:`render.study.Study.night_spectra`; needed then)."""
     mesh = buffers.rays.mesh if buffers.rays is not None else None
     if mesh is None:
         raise ValueError("these light buffers do not keep how to cast their camera samples")
@@ -433,7 +441,7 @@ def trace_view(
     amb_scale = np.zeros(W * H, np.float32) if A else None
     sky_seen = np.zeros(W * H, np.float32) if A else None
     lit = tracer.windows if A and tracer.windows is not None and tracer.windows.n else None
-    window_seen = np.zeros((W * H, 2), np.float32) if A else None
+    window_seen = np.zeros((W * H, A - WINDOW_CHANNEL), np.float32) if A else None
     glossy_material = tracer.f0 > 0.0
     g_index, g_values, g_scale, g_amb, g_amb_scale = [], [], [], [], []
     for tile in _cast_tiles(buffers.rays, spp, progress=progress, label="interreflection"):
@@ -467,7 +475,9 @@ def trace_view(
             sky_seen[pixel] = up.reshape(-1, spp).mean(axis=1)
             if lit is not None:
                 # (Each window at its luminance relative to its channel's level.)
-                window_seen[pixel] = window_seen_shares(lit, tile.point, tile.direction, tile.object_id, spp)
+                window_seen[pixel] = window_seen_shares(
+                    lit, tile.point, tile.direction, tile.object_id, spp, A - WINDOW_CHANNEL
+                )
     spds = np.ascontiguousarray(ambient_spds, np.float64).reshape(A, N_BINS) if A else None
     if g_index:
         spec_index = np.concatenate(g_index)
@@ -567,6 +577,11 @@ def _add_ambient(
     white response) to ``out`` (n_pix, J)."""
     levels = ambient_levels(night)
     spds = indirect.ambient_spds
+    if levels.shape[0] != spds.shape[0]:
+        raise ValueError(
+            f"the night light has {levels.shape[0] - WINDOW_CHANNEL} window lamps, the view was traced with "
+            f"{spds.shape[0] - WINDOW_CHANNEL}: a window lamp added or taken away traces again"
+        )
     kept = list(indirect.ambient_channels)
     if kept:
         table = transport_table(reflectances, spds[kept], indirect.settings.basis, w)
@@ -596,7 +611,7 @@ def _add_ambient(
     white = response_table(np.zeros((0, N_BINS)), spds, weights=w)[-1]
     seen = [(SKY_CHANNEL, indirect.sky_seen)]
     if indirect.window_seen is not None:
-        seen += [(WINDOW_CHANNEL, indirect.window_seen[:, 0]), (SHOP_WINDOW_CHANNEL, indirect.window_seen[:, 1])]
+        seen += [(WINDOW_CHANNEL + q, indirect.window_seen[:, q]) for q in range(indirect.window_seen.shape[1])]
     for c, share in seen:
         if levels[c] > 0.0 and share is not None and share.any():
             out += (levels[c] * share.astype(np.float64))[:, None] * white[c][None, :]
@@ -728,7 +743,7 @@ def without_luminaires(lights: LuminaireSet) -> LuminaireSet:
 def ambient_illuminance_per_unit_lx(moments: np.ndarray, ambient_spds: ArrayLike, basis: TransportBasis) -> np.ndarray:
     """(N, A) photopic illuminance (lx) at bare points per unit level of each ambient channel,
     from its node values (N, A, n_nodes) of :func:`transport_at_points` (the channels after
-    the luminaires' ones, sky glow, moonlight, house and shop windows: per 1 cd/m² of sky, per
+    the luminaires' ones, sky glow, moonlight, one per window lamp: per 1 cd/m² of sky, per
     1 lx of the moon's normal illuminance, per 1 cd/m² of window) and their spectra
     ``ambient_spds`` (A, N_BINS), any scale (each at one photopic unit): π·Σ_j b_aj·Y_aj with
     Y_aj the luminance a white diffuser returns per unit node value of spectrum a. Times

@@ -14,18 +14,22 @@ replace the scene-wide share and luminance for its own windows, and name windows
 from 1 in the order its fronts are built) lit, dark or of a luminance of their own. Its share
 is ``round(fraction · n)`` of its windows not named, chosen by a permutation seeded with
 ``window_seed`` and its object; other frontages keep exactly the windows they light without
-it. Its lamp is one of the two window lamps: the ambient channels keep two window spectra
-(sky, moon, houses' windows, shops' windows: four channels of 162 bytes per pixel each), so a
-third window spectrum would need a fifth channel and is refused by the scene check.
+it. Its lamp may be any lamp: **each distinct window lamp is a window channel of its own**
+(:attr:`render.scene.model.NightLight.window_lamps`: the houses' ``window_lamp`` and the
+shops' ``shop_window_lamp`` first, then each further lamp a frontage names, in the order of
+first naming, at most :data:`render.limits.MAX_WINDOW_LAMPS`), an ambient channel of 162
+bytes per pixel of a view's stored transport; windows of one lamp share its channel. The
+kernel takes any number of window channels (``kind`` is the channel).
 
-**What relights by a multiply.** Each window channel is stored per unit of its level, the
+**What relights by a multiply.** Each window channel is stored per unit of its level: the
 scene-wide luminance of its lamp's kind (``window_luminance_cd_m2`` or
-``shop_window_luminance_cd_m2``); a window of another luminance is an emitter of weight
-``L_w / level`` (column 13 of the kernel's rows), in its light and in the choice of window
-alike. So a new scene-wide luminance scales every window of that lamp at once -- the
-frontages' and windows' own luminances keep their ratio to it -- and a new window lamp is a
-new response table: no ray. Changing one frontage's or window's luminance relative to the
-others, which windows are lit, or a frontage's lamp, traces again.
+``shop_window_luminance_cd_m2``) for the two scene-wide lamps, the ``luminance_cd_m2`` of the
+first frontage naming it for a further lamp; a window of another luminance is an emitter of
+weight ``L_w / level`` (column 13 of the kernel's rows), in its light and in the choice of
+window alike. So a new level scales every window of that lamp at once -- the frontages' and
+windows' own luminances keep their ratio to it -- and a new lamp for a window channel is a new
+response table: no ray. Changing one frontage's or window's luminance relative to the others
+of its lamp, which windows are lit, or which lamp a frontage takes, traces again.
 
 A lit window is a Lambertian emitter of luminance ``L`` (cd/m²) with a lamp's spectrum. Its
 light reaches a surface point ``x`` by next-event estimation
@@ -96,7 +100,8 @@ __all__ = [
     "windows_seen",
 ]
 
-#: Window kinds: houses' windows, shops' windows (their channels among the ambient ones).
+#: Window kinds: houses' windows, shops' windows (their scene-wide lamps' channels among the
+#: ambient ones; a further window lamp's channel is 2, 3, … in the order frontages name it).
 HOUSE = 0
 SHOP = 1
 #: Columns of a window row in the kernel's array: corner (3), edges e1 (3), e2 (3), outward
@@ -115,7 +120,8 @@ class LitWindows:
     """Rectangles of windows: ``rect`` (W, 14) corner, two edges, outward unit normal, area,
     luminance relative to the channel's level (rows of 13 columns are taken at 1); ``kind``
     (W,) the window channel, :data:`HOUSE` or :data:`SHOP` (the houses' or the shops' window
-    lamp); ``obj`` (W,) object index; ``panels`` the windows of each kind in the scene (lit or
+    lamp) or 2, 3, … (a further lamp, :attr:`render.scene.model.NightLight.window_lamps`);
+    ``obj`` (W,) object index; ``panels`` the windows of each kind in the scene (lit or
     not)."""
 
     rect: np.ndarray
@@ -238,7 +244,7 @@ def _with_frontages(mesh: TriangleMesh, night: NightLight, panels: LitWindows, c
             panels.kind[index] == HOUSE, night.window_luminance_cd_m2, night.shop_window_luminance_cd_m2
         )
     kind = panels.kind.copy()
-    levels = (night.window_luminance_cd_m2, night.shop_window_luminance_cd_m2)
+    levels = np.asarray(night.window_levels, np.float64)
     names = [getattr(o, "name", None) for o in (getattr(mesh, "objects", None) or [])]
     for f in night.frontages:
         objs = [i for i, name in enumerate(names) if name == f.name]
@@ -275,8 +281,7 @@ def _with_frontages(mesh: TriangleMesh, night: NightLight, panels: LitWindows, c
         kind[idx] = f.channel
     index = np.flatnonzero(lum > 0.0)
     rect = panels.rect[index].copy()
-    ref = np.where(kind[index] == HOUSE, levels[HOUSE], levels[SHOP])
-    rect[:, RELATIVE] = lum[index] / ref
+    rect[:, RELATIVE] = lum[index] / levels[kind[index]]
     return LitWindows(rect, kind[index], panels.obj[index], panels.panels)
 
 
@@ -288,19 +293,24 @@ def windows_seen(windows: LitWindows, point: np.ndarray, direction: np.ndarray, 
 
 
 def window_seen_shares(
-    windows: LitWindows, point: np.ndarray, direction: np.ndarray, object_id: np.ndarray, spp: int
+    windows: LitWindows,
+    point: np.ndarray,
+    direction: np.ndarray,
+    object_id: np.ndarray,
+    spp: int,
+    channels: int = 2,
 ) -> np.ndarray:
-    """(n / spp, 2) per pixel of ``spp`` camera samples, the mean over its samples of the
-    luminance relative to its channel's level of the lit window each sees, for the two window
-    channels (the share of samples seeing one where every window is at its channel's level)."""
+    """(n / spp, ``channels``) per pixel of ``spp`` camera samples, the mean over its samples of
+    the luminance relative to its channel's level of the lit window each sees, for each window
+    channel (the share of samples seeing one where every window is at its channel's level)."""
     row = _rows_seen(windows, point, direction, object_id)
-    out = np.zeros((point.shape[0] // spp, 2))
+    out = np.zeros((point.shape[0] // spp, channels))
     if windows.n == 0:
         return out
     safe = np.maximum(row, 0)
     kind = np.where(row >= 0, windows.kind[safe], -1)
     rel = windows.relative[safe]
-    for q in range(2):
+    for q in range(channels):
         out[:, q] = np.where(kind == q, rel, 0.0).reshape(-1, spp).mean(axis=1)
     return out
 

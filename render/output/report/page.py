@@ -750,17 +750,22 @@ def _night_table(setups: Sequence[dict[str, Any]], calc: dict[str, Any]) -> Tabl
                 records.append((f"{f.get('name')}: {kind}, facing {_facing(f)}", path, night[kind]))
     if not records:
         return None
+    # Further window lamps (terms lit_windows_3, ...) after the two scene-wide ones.
+    columns = NIGHT_COLUMNS + tuple(
+        (f"window lamp {key.rsplit('_', 1)[1]}, mean", f"term_mean_lx.{key}")
+        for key in (records[0][2].get("term_mean_lx") or {})
+        if key.startswith("lit_windows_")
+    )
     rows = tuple(
         Row(
             RowHead(label),
             tuple(
-                NumberCell(f"{path}.{key}", _json_at(record, key), "sig3", reason="not computed")
-                for _, key in NIGHT_COLUMNS
+                NumberCell(f"{path}.{key}", _json_at(record, key), "sig3", reason="not computed") for _, key in columns
             ),
         )
         for label, path, record in records
     )
-    head = (Heading("grid"), *(Heading(f"{h} (lx)", numeric=True) for h, _ in NIGHT_COLUMNS))
+    head = (Heading("grid"), *(Heading(f"{h} (lx)", numeric=True) for h, _ in columns))
     return Table(
         "calculation-night", "Night light on the calculation points (lx), beside the figures", rows, head, scrolls=True
     )
