@@ -341,6 +341,14 @@ def test_calculation_sums_every_window_lamp(tmp_path):
     js = lane.to_json()
     assert js["levels"]["lit_windows_3"] == {"value": 40.0, "unit": "cd/m²"}
     assert ", window lamp 3 " in format_calculation(report)
+    # The report's night table has a column for it, its cells the term's mean.
+    from render.output.report.page import _night_table
+
+    table = _night_table([{"fields": [{"name": "lane 1", "night": js}]}], {})
+    assert [h.text for h in table.head][-1] == "window lamp 3, mean (lx)"
+    assert table.rows[0].cells[-1].value == lane.term_means_lx()["lit_windows_3"]
+    two = replace(lane, per_unit_lx=lane.per_unit_lx[..., :4], levels=lane.levels[:4]).to_json()
+    assert len(_night_table([{"fields": [{"name": "lane 1", "night": two}]}], {}).head) == 8
     # Relit at another level of the third lamp: a multiply.
     night = replace(
         s.scene.night,
