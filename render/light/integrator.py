@@ -322,7 +322,7 @@ def _shadow_block(tree, n_pairs, lum_of, origin, direction, t_max, blocked, scra
     either way each ray's answer is the same (:mod:`render.rays.bvh.query`). ``n_lanes`` and
     ``width`` (= PACKET and WIDE, at run time) make the traversal kernels the same
     specialisations :func:`render.rays.bvh.query._trace_batch` compiles."""
-    nb, ni, wb, wi, tv, ti = tree
+    nb, ni, wb, wi, tv, ti, tl = tree
     lane, st_node, work, ro, rd, rt, members, done = scratch
     zero = np.int64(0)  # not the literal 0: a literal argument is a kernel of its own
     occlusion = np.bool_(True)
@@ -359,7 +359,7 @@ def _shadow_block(tree, n_pairs, lum_of, origin, direction, t_max, blocked, scra
             else:
                 for r in range(n):
                     blocked[members[r]] = valid_ray(ro, rd, r) and any_one(
-                        wb, wi, tv, ro[r], rd[r], 0.0, rt[r], st_node, work, width
+                        wb, wi, tv, ro[r], rd[r], 0.0, rt[r], st_node, work, width, tl
                     )
 
 
@@ -809,13 +809,22 @@ _NO_TREE = (
     np.zeros((1, 64), np.int32),
     np.zeros((1, 9)),
     np.zeros(1, np.int32),
+    np.zeros((9, 4)),
 )
 
 
 def _tree_args(bvh: BVH | None) -> tuple[tuple, int, bool]:
     if bvh is None or not bvh.n_triangles:
         return _NO_TREE, 1, False
-    tree = (bvh.nodes, bvh.nodes_i32, bvh.wide_nodes, bvh.wide_nodes_i32, bvh.tri_vertices, bvh.tri_index)
+    tree = (
+        bvh.nodes,
+        bvh.nodes_i32,
+        bvh.wide_nodes,
+        bvh.wide_nodes_i32,
+        bvh.tri_vertices,
+        bvh.tri_index,
+        bvh.tri_lanes,
+    )
     return tree, int(bvh.wide_stack), True
 
 

@@ -253,8 +253,9 @@ def _drawn_window_mis(win, nodes, links, e_win, w, px, py, pz, sx, sy, sz, wx, w
 
 @numba.njit(cache=True, nogil=True, inline="always")
 def _window_connection(
-    px, py, pz, sx, sy, sz, gx, gy, gz, win, nodes, links, e_win, u0, u1, u2, wb, wi, tv, o, d, offset, st_node, work
-):
+    px, py, pz, sx, sy, sz, gx, gy, gz, win, nodes, links, e_win, u0, u1, u2, wb, wi, tv, tl, o, d, offset, st_node,
+    work,
+):  # fmt: skip
     """Next-event estimation to one lit window (:mod:`render.light.indirect.windows`): the
     window chosen by the window tree (:func:`render.light.indirect.window_tree._choose_window`:
     by the nodes' importance down to a leaf, then by the leaf's windows' approximate
@@ -290,7 +291,7 @@ def _window_connection(
     d[0] /= reach
     d[1] /= reach
     d[2] /= reach
-    if any_one(wb, wi, tv, o, d, 0.0, max(reach - _WINDOW_CLEARANCE_M, 0.0), st_node, work, WIDE):
+    if any_one(wb, wi, tv, o, d, 0.0, max(reach - _WINDOW_CLEARANCE_M, 0.0), st_node, work, WIDE, tl):
         return pick, 0.0
     # The window's probability is p·e/total (p = 1 when the tree is one leaf: then this is the
     # arithmetic of choosing among every window, bit for bit).
@@ -355,7 +356,7 @@ def trace_paths(
     ``band_start``, ``band_weight`` the stored basis (:class:`~render.light.indirect.transport.
     TransportBasis`); ``tri_normal`` (F, 3) unit geometric normals and ``tri_material`` (F,) by
     original triangle index; ``tree`` = (wide nodes, their int32 view, triangle vertices,
-    triangle index); ``lum`` as :func:`render.light.integrator._luminaire_args`; ``grid`` a
+    triangle index, triangle lanes); ``lum`` as :func:`render.light.integrator._luminaire_args`; ``grid`` a
     culling grid's kernel arguments; ``offset`` the ray-origin offset along the normal, m.
 
     ``n_amb`` ambient channels (0, or 2 + K: sky glow, moonlight and K window lamps,
@@ -389,7 +390,7 @@ def trace_paths(
     response tables do) and, where its samples see several materials, each path's transport by
     its sample's reflectance over the samples' mean reflectance ρ̄(λ), so that ρ̄·(the row) is
     the mean of ρ_s·T_s over the samples, exactly at 1 nm."""
-    wb, wi, tv, ti = tree
+    wb, wi, tv, ti, tl = tree
     rot, pos, scale, table, c_grid, g_grid, n_c, n_g, inv_c, inv_g, cd, channel, clearance = lum
     box, cell, gnx, gny, cell_start, cell_items = grid
     G = item_id.shape[0]
@@ -518,7 +519,7 @@ def trace_paths(
                         d[0] = mx
                         d[1] = my
                         d[2] = mz
-                        if not any_one(wb, wi, tv, o, d, 0.0, np.inf, st_node, work, WIDE):
+                        if not any_one(wb, wi, tv, o, d, 0.0, np.inf, st_node, work, WIDE, tl):
                             v = f * cm / math.pi
                             if f0[k_prev] > 0.0 and start_gloss:
                                 v *= 1.0 - fresnel_one(cm, f0[k_prev])
@@ -529,7 +530,7 @@ def trace_paths(
                     wpick, v = _window_connection(
                         px, py, pz, sx, sy, sz, gx, gy, gz, win, win_nodes, win_links, e_win,
                         _rand(key, gid, i, 0, 4), _rand(key, gid, i, 0, 5), _rand(key, gid, i, 0, 6),
-                        wb, wi, tv, o, d, offset, st_node, work,
+                        wb, wi, tv, tl, o, d, offset, st_node, work,
                     )  # fmt: skip
                     if v > 0.0:
                         v *= f
@@ -613,7 +614,7 @@ def trace_paths(
                     d[0] = wx
                     d[1] = wy
                     d[2] = wz
-                    t, j, _, _ = closest_one(wb, wi, tv, ti, o, d, 0.0, np.inf, st_node, st_t, work, WIDE)
+                    t, j, _, _ = closest_one(wb, wi, tv, ti, o, d, 0.0, np.inf, st_node, st_t, work, WIDE, tl)
                     if (
                         do_win
                         and b == 1
@@ -741,7 +742,7 @@ def trace_paths(
                         d[0] = lx
                         d[1] = ly
                         d[2] = lz
-                        if not any_one(wb, wi, tv, o, d, 0.0, max(dist - clearance[kk], 0.0), st_node, work, WIDE):
+                        if not any_one(wb, wi, tv, o, d, 0.0, max(dist - clearance[kk], 0.0), st_node, work, WIDE, tl):
                             # E_k / p_k = Σ E: the cell's whole unshadowed light.
                             v = weight * total / math.pi
                             ch = channel[kk]
@@ -765,7 +766,7 @@ def trace_paths(
                             d[0] = mx
                             d[1] = my
                             d[2] = mz
-                            if not any_one(wb, wi, tv, o, d, 0.0, np.inf, st_node, work, WIDE):
+                            if not any_one(wb, wi, tv, o, d, 0.0, np.inf, st_node, work, WIDE, tl):
                                 v = weight * f * cm / math.pi
                                 if glossy:
                                     _deposit_layered(
@@ -779,7 +780,7 @@ def trace_paths(
                         wpick, v = _window_connection(
                             px, py, pz, gx, gy, gz, gx, gy, gz, win, win_nodes, win_links, e_win,
                             _rand(key, gid, i, b, 4), _rand(key, gid, i, b, 5), _rand(key, gid, i, b, 6),
-                            wb, wi, tv, o, d, offset, st_node, work,
+                            wb, wi, tv, tl, o, d, offset, st_node, work,
                         )  # fmt: skip
                         if v > 0.0:
                             v *= weight * f

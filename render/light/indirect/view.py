@@ -282,7 +282,7 @@ class PathTracer:
         )
         self.tri_normal = np.ascontiguousarray(face_normals(mesh.triangles_m), np.float64)
         self.tri_material = np.ascontiguousarray(mesh.material_id, np.int32)
-        self.tree = (bvh.wide_nodes, bvh.wide_nodes_i32, bvh.tri_vertices, bvh.tri_index)
+        self.tree = (bvh.wide_nodes, bvh.wide_nodes_i32, bvh.tri_vertices, bvh.tri_index, bvh.tri_lanes)
         self.wide_stack = int(bvh.wide_stack)
         self.lum = _luminaire_args(lights)
         grid = scene_cull_grid(lights, bvh, negligible_lx) if bvh.n_triangles else None
