@@ -10,7 +10,9 @@ float32 needs no widening of the stored bounds; the decisions are kept conservat
 never misses a box it touches) by the caller's rounding of the ray's origin to the safe side
 of each bound and the margins of :mod:`render.rays.bvh.slab`, and the float64 triangle test
 decides every hit, so the hits are those of an exact box test. :func:`lowest_bit` is LLVM's
-count-trailing-zeros, to visit only the children entered. :func:`data_pointer` hands an
+count-trailing-zeros, to visit only the children entered. :func:`leaf_lane_hits` is the
+watertight triangle test (:mod:`render.rays.bvh.triangle`) of four of a leaf's triangles at
+once in float64 lanes, the same operations in the same order per lane. :func:`data_pointer` hands an
 array's data on as a bare pointer, so that a function called once per ray takes one machine
 word per array instead of numba's whole array record (see :mod:`render.rays.bvh.single`).
 
@@ -23,6 +25,8 @@ References
 - Williams, Barrus, Morley & Shirley, "An efficient and robust ray-box intersection
   algorithm", Journal of Graphics Tools 10(1), 2005 (near and far bounds by direction sign).
 - Ize, "Robust BVH Ray Traversal", JCGT 2(2), 2013 (conservative far distance).
+- Woop, Benthin & Wald, "Watertight Ray/Triangle Intersection", JCGT 2(1), 2013 (the leaf
+  test's arithmetic, :mod:`render.rays.bvh.triangle`).
 - LLVM Language Reference Manual, "'llvm.cttz.*' Intrinsic", "'fcmp' Instruction".
 """
 

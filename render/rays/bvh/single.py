@@ -13,6 +13,11 @@ Among hits at exactly the same ``t`` the lowest original triangle index wins, so
 does not depend on the order in which the tree is traversed or on which boxes are entered
 beyond those the ray touches: the float64 triangle test decides every hit.
 
+Given the BVH's ``tri_lanes`` (the vertices by component), a leaf's triangles are tested
+:data:`~render.rays.bvh.simd.LANES` at a time (:func:`~render.rays.bvh.simd.leaf_lane_hits`,
+the watertight test's operations per lane), and the lanes' hits are taken in triangle order by
+the same rule, so the hits are those of the one-by-one test to the bit.
+
 The box test runs in float32 (a node test waits on the one before it, and float32 bounds need
 no widening) and stays conservative: per axis the ray's float64 origin is rounded to a float32
 on the side that makes the near bound's distance smaller and, separately, on the side that
