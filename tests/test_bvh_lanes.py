@@ -130,3 +130,23 @@ def test_equal_hits_go_to_the_lowest_index_within_a_leaf():
             )
             assert (t, j) == (1.0, ti[row])
             assert (u, v) == (0.25 / size, 0.125 / size)
+
+
+@pytest.mark.parametrize("kind", ["float32", "column order"])
+def test_wrong_lanes_do_not_compile(kind):
+    # The lanes are handed on as a data pointer and read as C-ordered float64 rows: any other
+    # array must be refused when compiled, not read as the wrong numbers (the code's own
+    # contract: common practice, no source).
+    import numba
+
+    tris = np.array([[[0.0, -1.0, -1.0], [0.0, 1.0, -1.0], [0.0, 0.0, 1.0]]])
+    bvh = build_bvh(tris)
+    lanes = bvh.tri_lanes.astype(np.float32) if kind == "float32" else np.asfortranarray(bvh.tri_lanes)
+    n = max(bvh.wide_stack, 8)
+    st_node, st_t, work = np.empty(n, np.int64), np.empty(n), np.empty(2 * WIDE)
+    o, d = np.array([-1.0, 0.0, 0.0]), np.array([1.0, 0.0, 0.0])
+    args = (bvh.wide_nodes, bvh.wide_nodes_i32, bvh.tri_vertices)
+    with pytest.raises(numba.core.errors.TypingError):
+        closest_one(*args, bvh.tri_index, o, d, 0.0, np.inf, st_node, st_t, work, WIDE, lanes)
+    with pytest.raises(numba.core.errors.TypingError):
+        any_one(*args, o, d, 0.0, np.inf, st_node, work, WIDE, lanes)
