@@ -73,7 +73,8 @@ MAX_GENERATED_LUMINAIRES = 10_000
 """Luminaires in one scene, singles plus every position a luminaire row generates."""
 
 MAX_TRIANGLES = 50_000_000
-"""Triangles in one compiled scene (about 4 GB of vertex data in float64 with the BVH)."""
+"""Triangles in one compiled scene (about 4 GB of vertex data in float64 with the BVH, and
+3.6 GB more for the BVH's copy of the vertices by component, 72 bytes per triangle)."""
 
 MAX_POLYGON_VERTICES = 1000
 """Vertices of one polygon lampcast triangulates (an OBJ face, a marking polygon, an extrusion
