@@ -816,16 +816,7 @@ _NO_TREE = (
 def _tree_args(bvh: BVH | None) -> tuple[tuple, int, bool]:
     if bvh is None or not bvh.n_triangles:
         return _NO_TREE, 1, False
-    tree = (
-        bvh.nodes,
-        bvh.nodes_i32,
-        bvh.wide_nodes,
-        bvh.wide_nodes_i32,
-        bvh.tri_vertices,
-        bvh.tri_index,
-        bvh.tri_lanes,
-    )
-    return tree, int(bvh.wide_stack), True
+    return bvh.kernel_arrays, int(bvh.wide_stack), True
 
 
 # ------------------------------------------------------------------------------------------

@@ -125,6 +125,21 @@ class BVH:
         return int(self.nodes.shape[0])
 
     @property
+    def kernel_arrays(self) -> tuple[np.ndarray, ...]:
+        """The arrays the batch kernels take as their ``tree`` argument, in their order: binary
+        nodes and their int32 view, wide nodes and their int32 view, triangle vertices, triangle
+        index, the vertices by component."""
+        return (
+            self.nodes,
+            self.nodes_i32,
+            self.wide_nodes,
+            self.wide_nodes_i32,
+            self.tri_vertices,
+            self.tri_index,
+            self.tri_lanes,
+        )
+
+    @property
     def nbytes(self) -> int:
         """Bytes held by the BVH arrays (nodes, permutation and the two triangle copies)."""
         return int(

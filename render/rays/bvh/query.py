@@ -164,15 +164,7 @@ def _run(
     run_split(
         _trace_batch,
         (o.shape[0] + per_item - 1) // per_item,
-        (
-            bvh.nodes,
-            bvh.nodes_i32,
-            bvh.wide_nodes,
-            bvh.wide_nodes_i32,
-            bvh.tri_vertices,
-            bvh.tri_index,
-            bvh.tri_lanes,
-        ),
+        bvh.kernel_arrays,
         bvh.wide_stack,
         o,
         d,
