@@ -64,6 +64,7 @@ __all__ = [
     "NIGHT_TERMS",
     "NightFields",
     "NightGrid",
+    "further_window_lamp",
     "night_on_fields",
     "night_terms",
 ]
@@ -90,12 +91,24 @@ NIGHT_TERMS = (
 )
 
 
+#: The name of a further window lamp's term, by the lamp's number (3, 4, …).
+_FURTHER_WINDOW_TERM = "lit_windows_{}"
+
+
 def night_terms(count: int) -> tuple[tuple[str, str], ...]:
     """The ``count`` terms of a night light with ``count − 2`` window lamps: :data:`NIGHT_TERMS`,
     then ``lit_windows_3``, ``lit_windows_4``, … for the further window lamps
     (:attr:`render.scene.model.NightLight.window_lamps`, in their order)."""
-    extra = tuple((f"lit_windows_{k + 1}", "cd/m²") for k in range(2, int(count) - 2))
+    extra = tuple((_FURTHER_WINDOW_TERM.format(k + 1), "cd/m²") for k in range(2, int(count) - 2))
     return NIGHT_TERMS + extra
+
+
+def further_window_lamp(term: str) -> int | None:
+    """The window lamp number (3, 4, …) of a further window lamp's term of :func:`night_terms`,
+    or None for any other term."""
+    head = _FURTHER_WINDOW_TERM.format("")
+    tail = term[len(head) :]
+    return int(tail) if term.startswith(head) and tail.isdigit() else None
 
 
 def _levels(night: NightLight) -> tuple[float, ...]:

@@ -24,7 +24,7 @@ from pathlib import Path
 import numpy as np
 
 from render.calc.fields import INTERREFLECTED_LABEL, CalculationField, FaceResult, row_fields
-from render.calc.night import NIGHT_LABEL, NightGrid
+from render.calc.night import NIGHT_LABEL, NightGrid, further_window_lamp
 from render.calc.run import CalculationReport
 from render.calc.sky import MAP_SOURCE
 from render.fileio import atomic_write_text, file_stem
@@ -106,9 +106,9 @@ def format_calculation(report: CalculationReport) -> str:
                     f"{terms['lit_windows']:.3f}, shop windows {terms['lit_shop_windows']:.3f}"
                     # Further window lamps (lit_windows_3, ...), each its own term.
                     + "".join(
-                        f", window lamp {name.rsplit('_', 1)[1]} {v:.3f}"
+                        f", window lamp {further_window_lamp(name)} {v:.3f}"
                         for name, v in terms.items()
-                        if name.startswith("lit_windows_")
+                        if further_window_lamp(name) is not None
                     )
                     + " lx)"
                 )

@@ -312,6 +312,15 @@ def _node_importance(nodes, m, px, py, pz, nx, ny, nz):
 
 
 @numba.njit(cache=True, nogil=True, inline="always")
+def _children_importance(nodes, left, px, py, pz, sx, sy, sz):
+    """The importance of the children ``left`` and ``left + 1`` of a node from ``x`` (unit
+    normal s), and their sum: what both the choice and the probability of a window walk by."""
+    il = _node_importance(nodes, left, px, py, pz, sx, sy, sz)
+    ir = _node_importance(nodes, left + 1, px, py, pz, sx, sy, sz)
+    return il, ir, il + ir
+
+
+@numba.njit(cache=True, nogil=True, inline="always")
 def _choose_window(win, nodes, links, e_win, px, py, pz, sx, sy, sz, u):
     """One window by the tree from ``x`` (unit normal s) and a uniform ``u``: returns (its tree
     row, the product of the children's probabilities on the way, its leaf's ẽ sum, its ẽ);
@@ -320,9 +329,7 @@ def _choose_window(win, nodes, links, e_win, px, py, pz, sx, sy, sz, u):
     p = 1.0
     while links[m, 2] >= 0:
         left = links[m, 2]
-        il = _node_importance(nodes, left, px, py, pz, sx, sy, sz)
-        ir = _node_importance(nodes, left + 1, px, py, pz, sx, sy, sz)
-        s = il + ir
+        il, ir, s = _children_importance(nodes, left, px, py, pz, sx, sy, sz)
         pl = il / s
         if u < pl:
             u = u / pl
@@ -355,9 +362,7 @@ def _window_probability(win, nodes, links, e_win, w, px, py, pz, sx, sy, sz):
     p = 1.0
     while links[m, 2] >= 0:
         left = links[m, 2]
-        il = _node_importance(nodes, left, px, py, pz, sx, sy, sz)
-        ir = _node_importance(nodes, left + 1, px, py, pz, sx, sy, sz)
-        s = il + ir
+        il, ir, s = _children_importance(nodes, left, px, py, pz, sx, sy, sz)
         if w < links[left + 1, 0]:
             p *= il / s
             m = left

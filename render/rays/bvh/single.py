@@ -197,6 +197,35 @@ def closest_one(
     )
 
 
+@numba.njit(cache=True, nogil=True, inline="always")
+def _box_constants(ox: float, oy: float, oz: float, dx: float, dy: float, dz: float):
+    """A ray's constants of the float32 box test (:func:`~render.rays.bvh.simd.node_entry_mask`):
+    the inverse direction; per axis the origin of its near bound rounded to the side that makes
+    the near distance smaller and of its far bound to the side that makes the far distance
+    larger (for an axis with a zero direction, whose inverse is positive, the far origin is then
+    below the origin); the far bound's inverse scaled by F32_FAR; the octant's columns. Inlined
+    (it takes scalars, so no array is counted per ray)."""
+    inverse = (_inverse32(dx), _inverse32(dy), _inverse32(dz))
+    up = (_up32(ox), _up32(oy), _up32(oz))
+    down = (_down32(ox), _down32(oy), _down32(oz))
+    near_o = (
+        up[0] if inverse[0] >= 0.0 else down[0],
+        up[1] if inverse[1] >= 0.0 else down[1],
+        up[2] if inverse[2] >= 0.0 else down[2],
+    )
+    far_o = (
+        down[0] if inverse[0] >= 0.0 else up[0],
+        down[1] if inverse[1] >= 0.0 else up[1],
+        down[2] if inverse[2] >= 0.0 else up[2],
+    )
+    far_inverse = (
+        np.float32(inverse[0] * F32_FAR),
+        np.float32(inverse[1] * F32_FAR),
+        np.float32(inverse[2] * F32_FAR),
+    )
+    return inverse, near_o, far_o, far_inverse, _octant_columns(inverse[0], inverse[1], inverse[2])
+
+
 @numba.njit(cache=True, nogil=True, error_model="numpy")
 def _closest(wb_p, wi_p, tv_p, ti_p, o_p, d_p, st_node_p, st_t_p, work_p, t_min, t_max, lanes_p, stride):
     """:func:`closest_one` on its arrays' data pointers (see the module docstring)."""
@@ -209,7 +238,7 @@ def _closest(wb_p, wi_p, tv_p, ti_p, o_p, d_p, st_node_p, st_t_p, work_p, t_min,
     st_node = numba.carray(st_node_p, (_ROWS,), np.int64)
     st_t = numba.carray(st_t_p, (_ROWS,), np.float64)
     work = numba.carray(work_p, (_ROWS,), np.float64)
-    # Per-ray constants (written out here: a call returning them is not inlined, and its
+    # Per-ray constants (the shear written out here: a call returning it from the arrays is not inlined, and its
     # exception path would keep numba's reference counts of the arrays for every ray).
     # The axes and shear of ray_shear, chosen by arithmetic on the comparisons and picked by
     # index from o and d instead of by branches, which a random direction mispredicts.
@@ -228,28 +257,7 @@ def _closest(wb_p, wi_p, tv_p, ti_p, o_p, d_p, st_node_p, st_t_p, work_p, t_min,
     p = (o[kx], o[ky], o[kz])
     s = (d[kx] * sz, d[ky] * sz, sz)
     rows = _lane_rows(k, stride)
-    inverse = (_inverse32(d[0]), _inverse32(d[1]), _inverse32(d[2]))
-    # The origin of each axis's near bound on the side that makes the near distance smaller,
-    # of its far bound on the side that makes the far distance larger (for an axis with a
-    # zero direction, whose inverse is positive, the far origin is then below the origin).
-    up = (_up32(ox), _up32(oy), _up32(oz))
-    down = (_down32(ox), _down32(oy), _down32(oz))
-    near_o = (
-        up[0] if inverse[0] >= 0.0 else down[0],
-        up[1] if inverse[1] >= 0.0 else down[1],
-        up[2] if inverse[2] >= 0.0 else down[2],
-    )
-    far_o = (
-        down[0] if inverse[0] >= 0.0 else up[0],
-        down[1] if inverse[1] >= 0.0 else up[1],
-        down[2] if inverse[2] >= 0.0 else up[2],
-    )
-    far_inverse = (
-        np.float32(inverse[0] * F32_FAR),
-        np.float32(inverse[1] * F32_FAR),
-        np.float32(inverse[2] * F32_FAR),
-    )
-    cols = _octant_columns(inverse[0], inverse[1], inverse[2])
+    inverse, near_o, far_o, far_inverse, cols = _box_constants(ox, oy, oz, d[0], d[1], d[2])
     t_min32 = _down32(t_min)
     best_t = t_max
     cull32 = _cull(best_t)
@@ -399,7 +407,7 @@ def _any(wb_p, wi_p, tv_p, o_p, d_p, st_node_p, t_min, t_max, lanes_p, stride):
     o = numba.carray(o_p, (3,), np.float64)
     d = numba.carray(d_p, (3,), np.float64)
     st_node = numba.carray(st_node_p, (_ROWS,), np.int64)
-    # Per-ray constants (written out here: a call returning them is not inlined, and its
+    # Per-ray constants (the shear written out here: a call returning it from the arrays is not inlined, and its
     # exception path would keep numba's reference counts of the arrays for every ray).
     # The axes and shear of ray_shear, chosen by arithmetic on the comparisons and picked by
     # index from o and d instead of by branches, which a random direction mispredicts.
@@ -418,28 +426,7 @@ def _any(wb_p, wi_p, tv_p, o_p, d_p, st_node_p, t_min, t_max, lanes_p, stride):
     p = (o[kx], o[ky], o[kz])
     s = (d[kx] * sz, d[ky] * sz, sz)
     rows = _lane_rows(k, stride)
-    inverse = (_inverse32(d[0]), _inverse32(d[1]), _inverse32(d[2]))
-    # The origin of each axis's near bound on the side that makes the near distance smaller,
-    # of its far bound on the side that makes the far distance larger (for an axis with a
-    # zero direction, whose inverse is positive, the far origin is then below the origin).
-    up = (_up32(ox), _up32(oy), _up32(oz))
-    down = (_down32(ox), _down32(oy), _down32(oz))
-    near_o = (
-        up[0] if inverse[0] >= 0.0 else down[0],
-        up[1] if inverse[1] >= 0.0 else down[1],
-        up[2] if inverse[2] >= 0.0 else down[2],
-    )
-    far_o = (
-        down[0] if inverse[0] >= 0.0 else up[0],
-        down[1] if inverse[1] >= 0.0 else up[1],
-        down[2] if inverse[2] >= 0.0 else up[2],
-    )
-    far_inverse = (
-        np.float32(inverse[0] * F32_FAR),
-        np.float32(inverse[1] * F32_FAR),
-        np.float32(inverse[2] * F32_FAR),
-    )
-    cols = _octant_columns(inverse[0], inverse[1], inverse[2])
+    inverse, near_o, far_o, far_inverse, cols = _box_constants(ox, oy, oz, d[0], d[1], d[2])
     t_min32 = _down32(t_min)
     cull32 = _cull(t_max)
     node = np.uint64(0)
