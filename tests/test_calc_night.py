@@ -12,20 +12,24 @@ points through :func:`render.calc.run.run_calculation`):
 * sky view factor at a distance d from the foot of one long wall of height H,
   SVF = (1 + d/√(d² + H²))/2 (2-D configuration factor of a strip, Siegel & Howell
   **(from memory)**, derived again in tests/test_night.py);
-* Monte Carlo error of independent Bernoulli samples, √(p(1 − p)/N) (binomial variance).
+* Monte Carlo error of independent Bernoulli samples, √(p(1 − p)/N) (binomial variance);
+* a lit window's illuminance is linear in its luminance (Lambertian emitter, analytic), and the
+  night light's per-term CSV columns and JSON grids sum to its total (arithmetic, to float
+  rounding).
 """
 
 from __future__ import annotations
 
 import json
 import math
+from collections.abc import Sequence
 from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
 import pytest
 
-from render.calc.night import NIGHT_LABEL, NIGHT_PATHS_PER_POINT
+from render.calc.night import NIGHT_LABEL, NIGHT_PATHS_PER_POINT, NIGHT_TERMS
 from render.calc.run import calc_options, run_calculation
 from render.output.calc_text import format_calculation, write_field_csvs
 from render.study import Study
@@ -183,7 +187,10 @@ def test_windows_and_bounces_and_csv(tmp_path):
     assert r2.setups[0].fields[0].night.bounces == 2
     files = write_field_csvs(Study(path).scene, r0, tmp_path / "csv")
     head = files[0].read_text(encoding="utf-8").splitlines()[0]
-    assert head == "x_m,y_m,illuminance_lx,night_lx,illuminance_incl_night_not_en13201_lx"
+    assert head == (
+        "x_m,y_m,illuminance_lx,night_lx,illuminance_incl_night_not_en13201_lx,"
+        "night_sky_glow_lx,night_moonlight_lx,night_lit_windows_lx,night_lit_shop_windows_lx"
+    )
 
 
 def test_calc_command_with_night_light(tmp_path, capsys):
@@ -200,6 +207,11 @@ def test_calc_command_with_night_light(tmp_path, capsys):
     for fa, fb in zip(on["setups"][0]["fields"], off["setups"][0]["fields"], strict=True):
         assert fa["night"]["mean_lx"] == pytest.approx(0.3 * math.sin(math.radians(40.0)), rel=1e-12)
         assert fa["night"]["bounces"] == 0 and "night" not in fb
+        # Each term's grid beside it: all of it the moon's (the same cosine law), none the sky's.
+        terms = fa["night"]["term_illuminance_lx"]
+        assert list(terms) == [name for name, _ in NIGHT_TERMS]
+        np.testing.assert_allclose(terms["moonlight"], 0.3 * math.sin(math.radians(40.0)), rtol=1e-12)
+        np.testing.assert_array_equal(terms["sky_glow"], 0.0)
         assert fa["illuminance_lx"] == fb["illuminance_lx"]
     assert on["setups"][0]["headline"] == off["setups"][0]["headline"]
     assert main(["calc", str(scene), "-q"]) == 0
@@ -237,7 +249,7 @@ def test_face_grid_csvs_carry_the_night_light(tmp_path):
     # is the luminaires' direct value plus it.
     import csv
 
-    from render.output.calc_text import FACE_COLUMNS, FACE_QUANTITIES, NIGHT_COLUMNS
+    from render.output.calc_text import FACE_COLUMNS, FACE_QUANTITIES, NIGHT_COLUMNS, night_term_columns
 
     En, h, azimuth = 0.2, 25.0, 150.0
     path = _scene(tmp_path, f"moon_illuminance_lx = {En}\nmoon_elevation_deg = {h}\nmoon_azimuth_deg = {azimuth}\n")
@@ -255,7 +267,7 @@ def test_face_grid_csvs_carry_the_night_light(tmp_path):
             (file,) = [p for p in files if p.name == f"scene-{name.replace(' ', '-')}-{part}.csv"]
             with file.open(encoding="utf-8", newline="") as fh:
                 rows = list(csv.reader(fh))
-            assert rows[0] == [*FACE_COLUMNS, column, *NIGHT_COLUMNS]
+            assert rows[0] == [*FACE_COLUMNS, column, *NIGHT_COLUMNS, *night_term_columns(NIGHT_TERMS)]
             values = np.array(rows[1:], dtype=np.float64)
             night = values[:, rows[0].index(NIGHT_COLUMNS[0])]
             direct = values[:, rows[0].index(column)]
@@ -267,3 +279,157 @@ def test_face_grid_csvs_carry_the_night_light(tmp_path):
                 assert rows_of.sum() == faces[0].vertical_lx.size
                 rtol = 1e-12 if part == "vertical" else 3e-3
                 np.testing.assert_allclose(night[rows_of], want[part][facing], rtol=rtol, atol=1e-15)
+            # The moon is the only term lit: its column is night_lx, the others are zero.
+            moon = values[:, rows[0].index("night_moonlight_lx")]
+            np.testing.assert_array_equal(moon, night)
+            for other in ("night_sky_glow_lx", "night_lit_windows_lx", "night_lit_shop_windows_lx"):
+                np.testing.assert_array_equal(values[:, rows[0].index(other)], 0.0)
+
+
+# --- one CSV column and one JSON grid per term of the night light ------------------------------
+
+
+def _read_csv(path: Path) -> dict[str, np.ndarray]:
+    """A CSV's columns by name, in the file's order."""
+    import csv
+
+    with path.open(encoding="utf-8", newline="") as fh:
+        rows = list(csv.reader(fh))
+    values = np.array(rows[1:], dtype=np.float64)
+    return {name: values[:, k] for k, name in enumerate(rows[0])}
+
+
+def _assert_terms_sum(columns: dict[str, np.ndarray], terms: Sequence[tuple[str, str]]) -> None:
+    """The term columns close the file, in the terms' order, and sum to ``night_lx`` to float
+    rounding (every term is non-negative: a relative 1e-13 is some hundreds of ulps)."""
+    from render.output.calc_text import night_term_columns
+
+    names = night_term_columns(terms)
+    assert list(columns)[-len(names) :] == list(names)
+    total = np.sum([columns[c] for c in names], axis=0)
+    np.testing.assert_allclose(total, columns["night_lx"], rtol=1e-13, atol=0.0)
+
+
+def test_term_columns_of_sky_glow_and_moonlight(tmp_path):
+    # Sky glow and moonlight together, each in a column of its own:
+    # * horizontal points with nothing above them: night_sky_glow_lx = π·L (a uniform sky of
+    #   luminance L over an unobstructed horizontal plane, ∫ L cos θ dω, analytic; exact here,
+    #   every upward path leaves the scene) and night_moonlight_lx = E_n·cos z = E_n·sin h
+    #   (cosine law, z the moon's zenith angle, analytic);
+    # * vertical planes 1.5 m up facing ±x, moon toward azimuth 150° (from +y toward +x): the
+    #   sky's column is π·L/2 within 4 σ of Bernoulli noise (the upper half of the sky, black
+    #   ground with bounces 0; binomial variance), the moon's E_n·cos h·max(cos α, 0) (cosine
+    #   law) and on the half-cylinders E_n·cos h·(1 + cos α)/π within 0.3 % (the closed form
+    #   of render/calc/fields.py, trapezoidal rule over 10° steps) with the sky's again π·L/2
+    #   (each plane's E_v is π·L/2, so (1/π)·∫E_v dφ over π is too);
+    # * no windows: their columns are zero; every file's term columns sum to night_lx.
+    L, En, h, az = 0.004, 0.2, 25.0, 150.0
+    night = (
+        f"sky_luminance_cd_m2 = {L}\nmoon_illuminance_lx = {En}\nmoon_elevation_deg = {h}\nmoon_azimuth_deg = {az}\n"
+    )
+    study, report = _calc(_scene(tmp_path, night))
+    files = write_field_csvs(study.scene, report, tmp_path / "csv")
+    assert len(files) == 4 + 2 * 2  # the four fields, then two footways × two quantities
+    cos_a = math.sin(math.radians(az))  # the moon's direction against facing +x
+    moon_h = En * math.cos(math.radians(h))
+    for file in files:
+        col = _read_csv(file)
+        _assert_terms_sum(col, NIGHT_TERMS)
+        for name in ("night_lit_windows_lx", "night_lit_shop_windows_lx"):
+            np.testing.assert_array_equal(col[name], 0.0)
+        sky, moon = col["night_sky_glow_lx"], col["night_moonlight_lx"]
+        if "illuminance_lx" in col:
+            np.testing.assert_allclose(sky, math.pi * L, rtol=1e-9)
+            np.testing.assert_allclose(moon, En * math.sin(math.radians(h)), rtol=1e-12)
+            continue
+        frac = sky / (math.pi * L)
+        assert abs(frac.mean() - 0.5) < 4 * math.sqrt(0.25 / (frac.size * NIGHT_PATHS_PER_POINT)), (file, frac.mean())
+        sign = np.where(col["facing_azimuth_deg_from_x_toward_y"] == 0.0, 1.0, -1.0)
+        if "vertical_illuminance_lx" in col:
+            np.testing.assert_allclose(moon, moon_h * np.maximum(sign * cos_a, 0.0), rtol=1e-12, atol=1e-15)
+        else:
+            np.testing.assert_allclose(moon, moon_h * (1 + sign * cos_a) / math.pi, rtol=3e-3)
+
+
+FRONTAGES = (
+    '\n[[frontages]]\nname = "terrace"\nside = "left"\nstart_m = 0.0\nlength_m = 40.0\nunits = 6\nheight_m = 5.6\n'
+    '\n[[frontages]]\nname = "shops"\nside = "right"\nkind = "shop"\nstart_m = 0.0\nlength_m = 20.0\nunits = 2\n'
+    'height_m = 7.0\n\n[[frontages]]\nname = "launderette"\nside = "right"\nkind = "shop"\nstart_m = 20.0\n'
+    "length_m = 20.0\nunits = 2\nheight_m = 7.0\n"
+)
+
+
+def _window_lamps(launderette_cd_m2: float) -> str:
+    """Sky glow, every window lit, the launderette's and the terrace's windows each with a
+    further lamp of their own (window lamps 3 and 4)."""
+    return (
+        "sky_luminance_cd_m2 = 0.002\nwindow_lit_fraction = 1.0\nshop_window_lit_fraction = 1.0\n"
+        '\n[[night.frontages]]\nname = "launderette"\nlamp = "fluorescent-cie-fl2"\n'
+        f"luminance_cd_m2 = {launderette_cd_m2}\nlit_fraction = 1.0\n"
+        '\n[[night.frontages]]\nname = "terrace"\nlamp = "led-4000k-cie-b3"\nluminance_cd_m2 = 15.0\n'
+        "lit_fraction = 1.0\n"
+    )
+
+
+def test_term_columns_of_every_window_lamp(tmp_path):
+    # Four window lamps (the houses' and shops' scene-wide lamps, then the launderette's and
+    # the terrace's): the CSVs get night_lit_windows_3_lx and night_lit_windows_4_lx; each
+    # column is the term's NightGrid grid and its JSON grid, and they sum to night_lx in every
+    # file (fields and face grids). A lit window is a Lambertian emitter, so its illuminance
+    # is linear in its luminance (analytic): the launderette at twice its luminance doubles
+    # its column and leaves every other column as it was (the same seed: the same paths).
+    from render.calc.night import night_terms
+    from render.output.calc_text import night_term_columns
+
+    path = _scene(tmp_path, _window_lamps(40.0), FRONTAGES)
+    study, report = _calc(path)
+    terms = night_terms(6)
+    assert [t for t, _ in terms][-2:] == ["lit_windows_3", "lit_windows_4"]
+    assert night_term_columns(terms)[-2:] == ("night_lit_windows_3_lx", "night_lit_windows_4_lx")
+    setup = report.setups[0]
+    files = write_field_csvs(study.scene, report, tmp_path / "csv")
+    columns = {f.name: _read_csv(f) for f in files}
+    for col in columns.values():
+        _assert_terms_sum(col, terms)
+    lane = setup.fields[0]
+    assert lane.night.terms == terms
+    lane_col = columns["scene-lane-1.csv"]
+    js = json.loads(json.dumps(lane.to_json()))["night"]
+    for k, (name, _) in enumerate(terms):
+        np.testing.assert_array_equal(lane_col[f"night_{name}_lx"], lane.night.terms_lx[..., k].ravel())
+        np.testing.assert_array_equal(np.ravel(js["term_illuminance_lx"][name]), lane.night.terms_lx[..., k].ravel())
+    np.testing.assert_allclose(
+        np.sum([js["term_illuminance_lx"][n] for n, _ in terms], axis=0), js["illuminance_lx"], rtol=1e-13, atol=0.0
+    )
+    # The terrace, the only houses, has a lamp of its own: the houses' scene-wide lamp lights
+    # nothing; the shops', the launderette's and the terrace's lamps each reach some point.
+    assert all(not c["night_lit_windows_lx"].any() for c in columns.values())
+    for name in ("night_lit_shop_windows_lx", "night_lit_windows_3_lx", "night_lit_windows_4_lx"):
+        assert max(c[name].max() for c in columns.values()) > 0, name
+    # The faces' JSON: a grid per term too, summing to the face grid's.
+    face = json.loads(json.dumps(setup.faces[0].to_json()))["night"]
+    for kind in ("vertical", "semicylindrical"):
+        grids = face[kind]["term_illuminance_lx"]
+        assert list(grids) == [n for n, _ in terms]
+        np.testing.assert_allclose(np.sum(list(grids.values()), axis=0), face[kind]["illuminance_lx"], rtol=1e-13)
+
+    # Twice the launderette's luminance: its column doubles, the others stay to the bit.
+    brighter = _scene(tmp_path, _window_lamps(80.0), FRONTAGES)
+    study2, report2 = _calc(brighter)
+    files2 = write_field_csvs(study2.scene, report2, tmp_path / "csv2")
+    for f in files2:
+        a, b = columns[f.name], _read_csv(f)
+        np.testing.assert_allclose(b["night_lit_windows_3_lx"], 2 * a["night_lit_windows_3_lx"], rtol=1e-12)
+        for name in night_term_columns(terms)[:-2] + night_term_columns(terms)[-1:]:
+            np.testing.assert_array_equal(b[name], a[name])
+
+
+def test_csvs_without_night_light_have_no_night_columns(tmp_path):
+    # Without [night] (and with it left out) the files have only the luminaires' columns:
+    # the same text as before the night light had columns of its own.
+    from render.output.calc_text import FACE_COLUMNS, FIELD_COLUMNS
+
+    study, report = _calc(_scene(tmp_path, "sky_luminance_cd_m2 = 0.002\n"), night=False)
+    for f in write_field_csvs(study.scene, report, tmp_path / "csv"):
+        head = f.read_text(encoding="utf-8").splitlines()[0].split(",")
+        assert head == list(FIELD_COLUMNS) or head[: len(FACE_COLUMNS)] == list(FACE_COLUMNS) and len(head) == 5, head

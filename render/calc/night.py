@@ -163,6 +163,12 @@ class NightGrid:
         means = self.terms_lx.reshape(-1, len(terms)).mean(axis=0)
         return {name: float(m) for (name, _), m in zip(terms, means, strict=True)}
 
+    def term_grids_lx(self) -> dict[str, list]:
+        """Each term's grid (along, across) in lx at ``levels``, by its name in :meth:`terms`
+        (plain lists)."""
+        each = self.terms_lx
+        return {name: each[..., k].tolist() for k, (name, _) in enumerate(self.terms)}
+
     def relit(self, night: NightLight) -> NightGrid:
         """The same grid at ``night``'s levels (a multiply; no ray); ``night`` must have the
         window lamps it was traced with (a lamp added or taken away traces again)."""
@@ -179,8 +185,9 @@ class NightGrid:
         return np.asarray(luminaires_lx, np.float64) + self.illuminance_lx
 
     def to_json(self, luminaires_lx: np.ndarray | None = None) -> dict[str, Any]:
-        """Plain JSON types: the label, levels, grid and its figures, each term's mean, and
-        with ``luminaires_lx`` the figures of the luminaires' light plus it."""
+        """Plain JSON types: the label, levels, grid and its figures, each term's mean and grid
+        (``term_illuminance_lx``: by the term's name, lx at ``levels``; they sum to the grid),
+        and with ``luminaires_lx`` the figures of the luminaires' light plus it."""
         out: dict[str, Any] = {
             "label": NIGHT_LABEL,
             "levels": {name: {"value": v, "unit": u} for (name, u), v in zip(self.terms, self.levels, strict=True)},
@@ -191,6 +198,7 @@ class NightGrid:
             "min_lx": self.min_lx,
             "max_lx": self.max_lx,
             "term_mean_lx": self.term_means_lx(),
+            "term_illuminance_lx": self.term_grids_lx(),
             "per_unit_lx": self.per_unit_lx.tolist(),
         }
         if luminaires_lx is not None:

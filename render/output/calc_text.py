@@ -10,9 +10,12 @@ own, labelled :data:`render.calc.fields.INTERREFLECTED_LABEL`; the direct figure
 are. With the scene's ``[night]`` light, rows marked "night light" give its illuminance on each
 field and face grid beside the luminaires' (:mod:`render.calc.night`, labelled
 :data:`render.calc.night.NIGHT_LABEL`), and the CSVs get the columns ``night_lx`` and
-``illuminance_incl_night_not_en13201_lx``. Every column name is declared once below
-(:data:`FIELD_COLUMNS`, :data:`FACE_COLUMNS`, :data:`INTERREFLECTED_COLUMNS`,
-:data:`NIGHT_COLUMNS`).
+``illuminance_incl_night_not_en13201_lx``, then one column per term of the night light in lx
+(``night_sky_glow_lx``, ``night_moonlight_lx``, ``night_lit_windows_lx``,
+``night_lit_shop_windows_lx``, then ``night_lit_windows_3_lx`` … for further window lamps:
+:func:`night_term_columns` of :func:`render.calc.night.night_terms`), which sum to ``night_lx``.
+Every column name is declared once below (:data:`FIELD_COLUMNS`, :data:`FACE_COLUMNS`,
+:data:`INTERREFLECTED_COLUMNS`, :data:`NIGHT_COLUMNS`, :data:`NIGHT_TERM_COLUMN`).
 """
 
 from __future__ import annotations
@@ -36,8 +39,10 @@ __all__ = [
     "FIELD_COLUMNS",
     "INTERREFLECTED_COLUMNS",
     "NIGHT_COLUMNS",
+    "NIGHT_TERM_COLUMN",
     "face_grid_csvs",
     "format_calculation",
+    "night_term_columns",
     "write_field_csvs",
 ]
 
@@ -56,6 +61,16 @@ INTERREFLECTED_COLUMNS = ("interreflected_lx", "illuminance_incl_interreflected_
 #: Columns added with the night light: its illuminance alone, and the luminaires' direct value
 #: plus it (not part of the EN 13201 calculation).
 NIGHT_COLUMNS = ("night_lx", "illuminance_incl_night_not_en13201_lx")
+#: The column of one term of the night light after :data:`NIGHT_COLUMNS`: the term's
+#: illuminance in lx at the scene's level, by the term's name of
+#: :func:`render.calc.night.night_terms` (the terms' columns sum to ``night_lx``).
+NIGHT_TERM_COLUMN = "night_{}_lx"
+
+
+def night_term_columns(terms: Sequence[tuple[str, str]]) -> tuple[str, ...]:
+    """The columns of the night light's ``terms`` (names and units of
+    :func:`render.calc.night.night_terms`, in their order): :data:`NIGHT_TERM_COLUMN` of each."""
+    return tuple(NIGHT_TERM_COLUMN.format(name) for name, _ in terms)
 
 
 def _num(x: float | None, digits: int = 2) -> str:
@@ -234,20 +249,27 @@ def _grid_csv(
     leading: np.ndarray,
     values: np.ndarray,
     interreflected: np.ndarray | None,
-    night: np.ndarray | None,
+    night: Sequence[NightGrid] | None,
 ) -> str:
     """A grid's CSV text: the columns ``head`` (the ``leading`` (n, k) numbers', then the
     value's), one row per point with ``values`` (n,); with ``interreflected`` (n,) the
-    :data:`INTERREFLECTED_COLUMNS` (it, and the value plus it), with ``night`` (n,) the
-    :data:`NIGHT_COLUMNS` (it, and the value plus it). Numbers as Python writes a float exactly."""
+    :data:`INTERREFLECTED_COLUMNS` (it, and the value plus it); with ``night`` (the night
+    light's grids of the rows, one after another, all with the same terms) the
+    :data:`NIGHT_COLUMNS` (it, and the value plus it) and :func:`night_term_columns` (each
+    term). Numbers as Python writes a float exactly."""
     names = list(head)
     columns = [*np.asarray(leading, np.float64).T, values]
     if interreflected is not None:
         names += INTERREFLECTED_COLUMNS
         columns += [interreflected, values + interreflected]
     if night is not None:
-        names += NIGHT_COLUMNS
-        columns += [night, values + night]
+        terms = night[0].terms
+        if any(g.terms != terms for g in night):
+            raise ValueError("the night light's grids of one CSV must have the same terms")
+        total = np.concatenate([g.illuminance_lx.ravel() for g in night])
+        each = np.concatenate([g.terms_lx.reshape(-1, len(terms)) for g in night])
+        names += [*NIGHT_COLUMNS, *night_term_columns(terms)]
+        columns += [total, values + total, *each.T]
     rows = np.column_stack([np.asarray(c, np.float64) for c in columns]).tolist()
     return "\n".join([",".join(names), *(",".join(map(repr, row)) for row in rows)]) + "\n"
 
@@ -258,7 +280,9 @@ def write_field_csvs(scene: Scene, report: CalculationReport, out_dir: str | os.
     interreflected light two more columns, ``interreflected_lx`` and
     ``illuminance_incl_interreflected_not_en13201_lx`` (direct plus interreflected: not part of
     the EN 13201 calculation); with the night light two more, ``night_lx`` and
-    ``illuminance_incl_night_not_en13201_lx`` (the luminaires' direct light plus it).
+    ``illuminance_incl_night_not_en13201_lx`` (the luminaires' direct light plus it), then
+    one per term of the night light, :func:`night_term_columns` (sky glow, moonlight, each
+    window lamp's lit windows, in lx; they sum to ``night_lx``).
 
     Then, per setup, footway and quantity, one CSV of its face grid
     (``SETUP-FOOTWAY-vertical.csv``, ``SETUP-FOOTWAY-semicylindrical.csv``):
@@ -274,7 +298,7 @@ def write_field_csvs(scene: Scene, report: CalculationReport, out_dir: str | os.
     for s in report.setups:
         setup = s.setup or "scene"
         for result in s.fields:
-            night = None if result.night is None else result.night.illuminance_lx.ravel()
+            night = None if result.night is None else [result.night]
             extra = None if result.interreflected_lx is None else result.interreflected_lx.ravel()
             text = _grid_csv(
                 FIELD_COLUMNS, fields[result.name].points_m[:, :2], result.illuminance_lx.ravel(), extra, night
@@ -293,7 +317,7 @@ def face_grid_csvs(field: CalculationField, faces: Sequence[FaceResult]) -> list
     light): :data:`FACE_COLUMNS` and the quantity's column, a row per point and facing, the
     facings in the order given, each over the field's points in their order; with
     interreflected light the :data:`INTERREFLECTED_COLUMNS`, with night light the
-    :data:`NIGHT_COLUMNS`."""
+    :data:`NIGHT_COLUMNS` and :func:`night_term_columns`."""
     leading = np.concatenate(
         [
             np.column_stack(
@@ -314,7 +338,7 @@ def face_grid_csvs(field: CalculationField, faces: Sequence[FaceResult]) -> list
             leading,
             np.concatenate([np.ravel(direct) for direct, _, _ in grids]),
             _joined([bounced for _, bounced, _ in grids]),
-            _joined([None if night is None else night.illuminance_lx for _, _, night in grids]),
+            _all_or_none([night for _, _, night in grids]),
         )
         out.append((part, text))
     return out
@@ -331,6 +355,11 @@ def _face_grids(face: FaceResult, part: str) -> tuple[np.ndarray, np.ndarray | N
 def _joined(grids: Sequence[np.ndarray | None]) -> np.ndarray | None:
     """The ``grids`` one after another, flattened (None when any of them is None)."""
     return None if any(g is None for g in grids) else np.concatenate([np.ravel(g) for g in grids])
+
+
+def _all_or_none(grids: Sequence[NightGrid | None]) -> list[NightGrid] | None:
+    """The night light's ``grids`` (None when any of them is None)."""
+    return None if any(g is None for g in grids) else [g for g in grids if g is not None]
 
 
 def _azimuth_deg(directions: np.ndarray) -> np.ndarray:
