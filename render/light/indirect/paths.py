@@ -133,9 +133,12 @@ _TO_UNIT = 1.0 / 9007199254740992.0  # 2⁻⁵³
 _WINDOW_CLEARANCE_M = 2e-3
 # Items (pixels) per parallel work item: scratch arrays are made once per chunk.
 _ITEMS_PER_CHUNK = 16
+# The small functions below (and the window tree's) are ordinary compiled calls, which LLVM
+# inlines where it pays: numba's own inlining (``inline="always"``) copied them into the
+# parallel kernel's body before its passes and tripled its compile time, for the same bits.
 
 
-@numba.njit(cache=True, nogil=True, inline="always")
+@numba.njit(cache=True, nogil=True)
 def _rand(key, item, path, bounce, dim):
     """Uniform float64 in [0, 1) from (key, item, path, bounce, dimension)."""
     c = (np.uint64(path) << _PATH_SHIFT) | (np.uint64(bounce) << _BOUNCE_SHIFT) | np.uint64(dim)
@@ -143,7 +146,7 @@ def _rand(key, item, path, bounce, dim):
     return np.float64(h >> np.uint64(11)) * _TO_UNIT
 
 
-@numba.njit(cache=True, nogil=True, inline="always")
+@numba.njit(cache=True, nogil=True)
 def _frame(nx, ny, nz):
     """Two unit tangents t1, t2 completing the unit normal n to an orthonormal basis (Duff et
     al. 2017)."""
@@ -153,7 +156,7 @@ def _frame(nx, ny, nz):
     return 1.0 + sign * nx * nx * a, sign * b, -sign * nx, b, sign + ny * ny * a, -ny
 
 
-@numba.njit(cache=True, nogil=True, inline="always")
+@numba.njit(cache=True, nogil=True)
 def _cosine_direction(nx, ny, nz, u1, u2):
     """Cosine-distributed unit direction about the unit normal n (pdf cos θ / π)."""
     t1x, t1y, t1z, t2x, t2y, t2z = _frame(nx, ny, nz)
@@ -169,7 +172,7 @@ def _cosine_direction(nx, ny, nz, u1, u2):
     )
 
 
-@numba.njit(cache=True, nogil=True, inline="always")
+@numba.njit(cache=True, nogil=True)
 def _layered_direction(nx, ny, nz, vx, vy, vz, f0, alpha, rho_lum, u_lobe, u1, u2):
     """A direction leaving a vertex with a specular layer (unit normal n, ``v`` toward where the
     path came from): the specular lobe (GGX visible normals, :func:`render.light.gloss.
@@ -198,7 +201,7 @@ def _layered_direction(nx, ny, nz, vx, vy, vz, f0, alpha, rho_lum, u_lobe, u1, u
     return lx, ly, lz, spec / pdf, base / pdf, pdf
 
 
-@numba.njit(cache=True, nogil=True, inline="always")
+@numba.njit(cache=True, nogil=True)
 def _deposit(acc, a, ch, beta, v, mixed, ratio, q_first):
     """acc[a, ch] += β(λ)·v (times the sample's reflectance ratio when the item's samples see
     several materials): light arriving at a vertex without a specular layer."""
@@ -210,7 +213,7 @@ def _deposit(acc, a, ch, beta, v, mixed, ratio, q_first):
             acc[a, ch, n] += beta[n] * v
 
 
-@numba.njit(cache=True, nogil=True, inline="always")
+@numba.njit(cache=True, nogil=True)
 def _deposit_flat(acc, a, ch, v, mixed, ratio, q_first):
     """acc[a, ch] += v (times the sample's reflectance ratio where mixed): light at the camera
     surface itself, whose reflectance the response tables apply."""
@@ -222,7 +225,7 @@ def _deposit_flat(acc, a, ch, v, mixed, ratio, q_first):
             acc[a, ch, n] += v
 
 
-@numba.njit(cache=True, nogil=True, inline="always")
+@numba.njit(cache=True, nogil=True)
 def _deposit_layered(acc, a, ch, beta, rho, k, base, spec, mixed, ratio, q_first):
     """acc[a, ch] += β(λ)·(ρ_k(λ)·base + spec) (times the sample's reflectance ratio when the
     item's samples see several materials): light reflected at a vertex with a specular layer."""
@@ -233,7 +236,7 @@ def _deposit_layered(acc, a, ch, beta, rho, k, base, spec, mixed, ratio, q_first
         acc[a, ch, n] += t
 
 
-@numba.njit(cache=True, nogil=True, inline="always")
+@numba.njit(cache=True, nogil=True)
 def _drawn_window_mis(win, nodes, links, e_win, w, px, py, pz, sx, sy, sz, wx, wy, wz, t, l_pdf, window_mis):
     """The weight of lit window ``w`` (tree row) met at distance ``t`` by a direction (wx, wy, wz)
     drawn with pdf ``l_pdf`` from a gloss layer at ``x`` (the normal ``s`` its connection used):
@@ -251,7 +254,7 @@ def _drawn_window_mis(win, nodes, links, e_win, w, px, py, pz, sx, sy, sz, wx, w
     return 1.0
 
 
-@numba.njit(cache=True, nogil=True, inline="always")
+@numba.njit(cache=True, nogil=True)
 def _window_connection(
     px, py, pz, sx, sy, sz, gx, gy, gz, win, nodes, links, e_win, u0, u1, u2, wb, wi, tv, tl, o, d, offset, st_node,
     work,

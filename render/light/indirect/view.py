@@ -328,11 +328,13 @@ class PathTracer:
         if self.grid is None or n_items == 0 or out.shape[1] == 0:
             return out, paths
         key = seed_key(seed) ^ _KEY_SALT
+        # Points and normals as float64 (a view's float32 ones convert exactly, and the kernel
+        # reads them as float64): one compiled signature for views and calculation points.
         with numba.parallel_chunksize(_CHUNK_PIXELS):
             trace_paths(
-                np.ascontiguousarray(point),
-                np.ascontiguousarray(normal),
-                np.ascontiguousarray(geo),
+                np.ascontiguousarray(point, np.float64),
+                np.ascontiguousarray(normal, np.float64),
+                np.ascontiguousarray(geo, np.float64),
                 np.ascontiguousarray(normal if view is None else view, np.float64),
                 np.ascontiguousarray(material, np.int32),
                 np.ascontiguousarray(item_id, np.int64),

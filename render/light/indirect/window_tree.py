@@ -237,7 +237,7 @@ def window_tree(rect: np.ndarray) -> WindowTree:
     return WindowTree(order, np.array(nodes, np.float64), np.array(links, np.int64))
 
 
-@numba.njit(cache=True, nogil=True, inline="always")
+@numba.njit(cache=True, nogil=True)
 def _window_weight(win, w, px, py, pz, sx, sy, sz):
     """ẽ_w: window ``w``'s approximate illuminance at ``x`` (unit normal s) from its centre,
     times its luminance over its channel's level."""
@@ -255,7 +255,7 @@ def _window_weight(win, w, px, py, pz, sx, sy, sz):
     return a * max(cx, COS_FLOOR) * max(cw, COS_FLOOR) / (d2 + a) * win[w, 13]
 
 
-@numba.njit(cache=True, nogil=True, inline="always")
+@numba.njit(cache=True, nogil=True)
 def _leaf_weights(win, first, count, e_win, px, py, pz, sx, sy, sz):
     """ẽ of a leaf's windows into ``e_win[0:count]``; returns their sum."""
     total = 0.0
@@ -266,7 +266,7 @@ def _leaf_weights(win, first, count, e_win, px, py, pz, sx, sy, sz):
     return total
 
 
-@numba.njit(cache=True, nogil=True, inline="always")
+@numba.njit(cache=True, nogil=True)
 def _node_importance(nodes, m, px, py, pz, nx, ny, nz):
     """The importance bound I of node ``m`` at ``x`` (unit normal n) (module text)."""
     vx = nodes[m, 0] - px
@@ -311,7 +311,7 @@ def _node_importance(nodes, m, px, py, pz, nx, ny, nz):
     return nodes[m, 9] * max(e_cos, COS_FLOOR) * max(r_cos, COS_FLOOR) / (d2 + r2)
 
 
-@numba.njit(cache=True, nogil=True, inline="always")
+@numba.njit(cache=True, nogil=True)
 def _children_importance(nodes, left, px, py, pz, sx, sy, sz):
     """The importance of the children ``left`` and ``left + 1`` of a node from ``x`` (unit
     normal s), and their sum: what both the choice and the probability of a window walk by."""
@@ -320,7 +320,7 @@ def _children_importance(nodes, left, px, py, pz, sx, sy, sz):
     return il, ir, il + ir
 
 
-@numba.njit(cache=True, nogil=True, inline="always")
+@numba.njit(cache=True, nogil=True)
 def _choose_window(win, nodes, links, e_win, px, py, pz, sx, sy, sz, u):
     """One window by the tree from ``x`` (unit normal s) and a uniform ``u``: returns (its tree
     row, the product of the children's probabilities on the way, its leaf's ẽ sum, its ẽ);
@@ -353,7 +353,7 @@ def _choose_window(win, nodes, links, e_win, px, py, pz, sx, sy, sz, u):
     return first + pick, p, total, e_win[pick]
 
 
-@numba.njit(cache=True, nogil=True, inline="always")
+@numba.njit(cache=True, nogil=True)
 def _window_probability(win, nodes, links, e_win, w, px, py, pz, sx, sy, sz):
     """For tree row ``w``, what :func:`_choose_window` from ``x`` gives on choosing it: (the
     product of the children's probabilities on the way, its leaf's ẽ sum, its ẽ), with the same
