@@ -33,7 +33,9 @@ reference the checks compare with.
 values are kept as float16 relative to a float32 scale per pixel (the largest value of the
 pixel), so neither overflow nor subnormal rounding can occur: 81·2 bytes per pixel and channel.
 numba has no float16, so the kernels read the bits through a 65 536-entry table
-(:func:`half_table`).
+(:func:`half_table`). Channels whose spectrum is fixed when they are traced (the night's
+ambient channels) need no relighting by lamp: :func:`resolve_channels` turns their float64
+node values into responses per pixel and channel right after tracing, and only those are kept.
 
 References
 ----------
@@ -62,6 +64,7 @@ __all__ = [
     "NODE_STEP_NM",
     "TransportBasis",
     "half_table",
+    "resolve_channels",
     "resolve_transport",
     "transport_basis",
     "transport_table",
@@ -251,4 +254,27 @@ def resolve_transport(
         acc,
     )
     out += acc[:, :J]
+    return out
+
+
+def resolve_channels(response: np.ndarray, spp: int, moments: np.ndarray, table: np.ndarray) -> np.ndarray:
+    """Each channel's responses per pixel, (P, A, J) float64, from float64 node values
+    ``moments`` (P, A, n_nodes) and a response table (K, A, n_nodes, J) of
+    :func:`transport_table` whose lamp axis is the channels (channel ``a`` lit by spectrum
+    ``a``): Σ over the pixel's ``spp`` camera samples ``response`` (P·spp,) seeing material k
+    of Σ_j moments[p, a, j]·Q[k, a, j, :] / spp -- what :func:`resolve_transport` gives each
+    channel at factor 1, without the float16 rounding of the stored values (samples outside
+    ``table``'s materials get none). Computed per material among the pixels that see it."""
+    P, A, n = moments.shape
+    K = table.shape[0]
+    if table.shape[1:3] != (A, n):
+        raise ValueError(f"a table for {table.shape[1]} channels of {table.shape[2]} nodes, values {moments.shape}")
+    out = np.zeros((P, A, table.shape[3]))
+    mat = np.asarray(response).reshape(P, int(spp))
+    valid = (mat >= 0) & (mat < K)
+    for k in np.unique(mat[valid]):
+        count = (mat == k).sum(axis=1)
+        rows = np.flatnonzero(count)
+        part = np.matmul(moments[rows].transpose(1, 0, 2), table[k])  # (A, rows, J)
+        out[rows] += (count[rows] / spp)[:, None, None] * part.transpose(1, 0, 2)
     return out
