@@ -118,9 +118,9 @@ extract (a dense town centre of 1 km radius has some 10 000)."""
 
 MAX_WINDOW_LAMPS = 8
 """Window lamps of a scene's night light (``[night] window_lamp``, ``shop_window_lamp`` and the
-further lamps ``[[night.frontages]]`` name): each is an ambient channel of its own, 162 bytes per
-pixel of every view's stored transport (and 4 more for the share of its windows seen), about
-330 MiB per lamp at 1920×1080."""
+further lamps ``[[night.frontages]]`` name): each is an ambient channel of its own, kept
+resolved in every view (28 bytes per pixel, and 4 more for the share of its windows seen),
+about 63 MiB per lamp at 1920×1080."""
 
 MAX_PROBLEMS_PER_FILE = 10
 """Problems a line-by-line reader reports for one file before it skips the rest of the file."""
@@ -200,12 +200,14 @@ _BYTES_PER_PIXEL_INDIRECT = 8
 # The second (white) transport of the pixels that see a specular layer: the same per channel,
 # and per such pixel its float32 scale and int32 pixel index.
 _BYTES_PER_GLOSS_PIXEL_INDIRECT = 8
-# The night light's ambient channels (render.light.indirect.night): per pixel their float32
-# scale and the float32 share of samples seeing the sky, and per window lamp the float32 share
-# seeing its lit windows (two columns at least); per gloss pixel their float32 scale.
-_BYTES_PER_PIXEL_AMBIENT = 8
+# The night light's ambient channels (render.light.indirect.night), kept resolved: per pixel
+# and channel 7 float32 responses (X, Y, Z, Y' and L, M, S: render.light.indirect.view.
+# ambient_response_weights; the specular layer's reflection included, so nothing per gloss
+# pixel), per pixel the float32 share of samples seeing the sky, and per window lamp the
+# float32 share seeing its lit windows (two columns at least).
+_BYTES_PER_PIXEL_CHANNEL_AMBIENT = 28
+_BYTES_PER_PIXEL_AMBIENT = 4
 _BYTES_PER_PIXEL_WINDOW_LAMP = 4
-_BYTES_PER_GLOSS_PIXEL_AMBIENT = 4
 
 
 def render_memory_estimate(
@@ -221,9 +223,9 @@ def render_memory_estimate(
     """An upper estimate of one view's peak memory (camera samples, light buffers, vision, and
     with ``indirect`` the interreflected transport, with the second transport of the share
     ``gloss_share`` (0 … 1) of pixels that see a specular layer). ``ambient_channels``: the
-    night light's channels that are on (sky glow, moonlight, one per lit window lamp), stored
-    beside the luminaires' with their scale, the share of samples seeing the sky and, per
-    window lamp of ``window_lamps``, the share seeing its windows."""
+    night light's channels that are on (sky glow, moonlight, one per lit window lamp), kept
+    resolved beside the luminaires' transport, with the share of samples seeing the sky and,
+    per window lamp of ``window_lamps``, the share seeing its windows."""
     pixels = int(width_px) * int(height_px)
     samples = pixels * int(spp)
     total = samples * (_BYTES_PER_SAMPLE + _BYTES_PER_SAMPLE_CHANNEL * max(1, int(n_channels)))
@@ -234,11 +236,10 @@ def render_memory_estimate(
         per_gloss = _BYTES_PER_GLOSS_PIXEL_INDIRECT + _BYTES_PER_PIXEL_CHANNEL_INDIRECT * max(1, int(n_channels))
         if ambient:
             per_pixel += (
-                _BYTES_PER_PIXEL_CHANNEL_INDIRECT * ambient
+                _BYTES_PER_PIXEL_CHANNEL_AMBIENT * ambient
                 + _BYTES_PER_PIXEL_AMBIENT
                 + _BYTES_PER_PIXEL_WINDOW_LAMP * max(2, int(window_lamps))
             )
-            per_gloss += _BYTES_PER_PIXEL_CHANNEL_INDIRECT * ambient + _BYTES_PER_GLOSS_PIXEL_AMBIENT
         total += pixels * per_pixel
         share = min(max(float(gloss_share), 0.0), 1.0)
         total += math.ceil(share * pixels) * per_gloss

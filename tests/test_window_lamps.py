@@ -206,7 +206,7 @@ def test_relighting_the_third_channel_equals_a_fresh_render(tmp_path):
     ra = a.render_view("look", width_px=40, samples_per_pixel=2)
     rb = b.render_view("look", width_px=40, samples_per_pixel=2)
     ia, ib = ra.buffers.indirect, rb.buffers.indirect
-    np.testing.assert_array_equal(ia.ambient_values, ib.ambient_values)
+    np.testing.assert_array_equal(ia.ambient_resolved, ib.ambient_resolved)
     np.testing.assert_array_equal(ia.window_seen, ib.window_seen)
     relit = ambient_responses(ia, ra.buffers.response, a.reflectances, b.scene.night)
     fresh = ambient_responses(ib, rb.buffers.response, b.reflectances)
@@ -296,16 +296,17 @@ def test_a_further_lamp_is_checked(tmp_path, table, where, words):
 
 
 def test_memory_counts_every_window_lamp(tmp_path, monkeypatch):
-    # Each further window lamp that is lit costs 162 bytes per pixel of float16 node values and
-    # 4 of its float32 share seen: 1920 × 1080 × 166 B = 328.3 MiB; a view that would not fit
-    # with it is refused before it starts, naming the view.
+    # Each further window lamp that is lit costs 28 bytes per pixel of its channel's seven
+    # float32 responses (X, Y, Z, Y', L, M, S, kept resolved) and 4 of its float32 share seen:
+    # 1920 × 1080 × 32 B = 63.3 MiB; a view that would not fit with it is refused before it
+    # starts, naming the view.
     from render import limits
     from render.errors import InputError
     from render.study import Study
 
     two = limits.render_memory_estimate(1920, 1080, 4, 2, True, 0.0, ambient_channels=4, window_lamps=2)
     three = limits.render_memory_estimate(1920, 1080, 4, 2, True, 0.0, ambient_channels=5, window_lamps=3)
-    assert three.bytes - two.bytes == 1920 * 1080 * 166
+    assert three.bytes - two.bytes == 1920 * 1080 * 32
     assert "5 night-light channels" in three.what
     s3 = Study(_scene(tmp_path, THREE_LAMPS + _launderette()))
     s2 = Study(_scene(tmp_path, THREE_LAMPS, name="two"))
@@ -315,7 +316,7 @@ def test_memory_counts_every_window_lamp(tmp_path, monkeypatch):
     assert (s2.scene.night.terms_on, s3.scene.night.terms_on) == (2, 3)
     e2 = limits.render_memory_estimate(w, h, spp, ch, True, 0.0, ambient_channels=2, window_lamps=2).bytes
     e3 = limits.render_memory_estimate(w, h, spp, ch, True, 0.0, ambient_channels=3, window_lamps=3).bytes
-    assert e3 - e2 == w * h * 166
+    assert e3 - e2 == w * h * 32
     monkeypatch.setattr(limits, "available_memory_bytes", lambda: (e2 + e3) // 2)
     s2.render_view("look", width_px=w, samples_per_pixel=spp, bounces=0)
     with pytest.raises(InputError) as info:

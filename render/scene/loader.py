@@ -1503,8 +1503,8 @@ def _night_frontages(
                         f"{where}.lamp",
                         f"{shown(f['lamp'])} would be window lamp {len(lamps) + 1}; lampcast keeps at most "
                         f"{limits.MAX_WINDOW_LAMPS} ([night] window_lamp, shop_window_lamp and "
-                        f"{limits.MAX_WINDOW_LAMPS - 2} more named by [[night.frontages]]), each a channel of 162 bytes "
-                        f"per pixel of a view's transport; expected one of {', '.join(shown(x) for x in lamps)}",
+                        f"{limits.MAX_WINDOW_LAMPS - 2} more named by [[night.frontages]]), each a channel of 32 bytes "
+                        f"per pixel of a view; expected one of {', '.join(shown(x) for x in lamps)}",
                     )
                     continue
                 problems_before = len(problems.items)

@@ -20,9 +20,12 @@ stores beside the luminaires' channels, on the same 5 nm transport basis, per un
   through ``1 − F`` to the Lambertian base, as for the luminaires).
 
 Both are stored for unit level (1 cd/m² of sky, 1 lx of moon) and for spectra of one photopic
-unit, so a new sky luminance or moon illuminance is a multiply at resolve time; a new sky
-spectrum is a new response table (no ray). A new moon direction, or turning a term on that was
-off when the view was traced, traces the paths again. The luminaires' channels leave out the
+unit, so a new sky luminance or moon illuminance is a multiply at resolve time. A view keeps
+them resolved per pixel (:mod:`render.light.indirect.view`: their spectra are fixed by
+``[night]`` and no street-lamp change alters them), so there a new sky spectrum, moon CCT or
+window lamp traces the view again; points keep node values, for which a new spectrum is a new
+response table (no ray). A new moon direction, or turning a term on that was off when the
+view was traced, traces the paths again. The luminaires' channels leave out the
 camera surface's own (direct) light, which the direct-light integrator computes; the ambient
 channels include it, since nothing else computes it.
 

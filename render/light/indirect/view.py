@@ -8,7 +8,13 @@ node values of the transport (:mod:`render.light.indirect.transport`) as float16
 per-pixel scale: :class:`IndirectBuffers`, 162 bytes per pixel and channel plus 8 per pixel;
 the pixels whose camera samples see a specular layer keep a second, white transport of what
 that layer reflects (as much again per such pixel, plus its int32 index), resolved with the
-white response and added.
+white response and added. The night's ambient channels (sky glow, moonlight, one per window
+lamp: :mod:`render.light.indirect.night`) are not relit by lamp -- their spectra are fixed
+when traced and only their levels change, a multiply -- so they are kept resolved instead:
+right after each batch of paths is traced, each channel's node values (the specular layer's
+reflection included) become the pixel's responses for the observer weights the pipeline
+resolves views with (:func:`ambient_response_weights`: X, Y, Z, Y' and the cone signals L,
+M, S), float32 per unit level, 28 bytes per pixel and channel instead of 162.
 :func:`indirect_xyz` turns them into absolute X, Y, Z, Y' for any lamps, lumens and dimming per
 channel, to be added to the direct light's (a relight casts no ray).
 
@@ -39,6 +45,7 @@ from __future__ import annotations
 
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, field, replace
+from functools import lru_cache
 from typing import TYPE_CHECKING
 
 import numba
@@ -61,6 +68,7 @@ from render.light.indirect.paths import RR_FIRST_BOUNCE, WINDOW_MIS, trace_paths
 from render.light.indirect.transport import (
     NODE_STEP_NM,
     TransportBasis,
+    resolve_channels,
     resolve_transport,
     transport_basis,
     transport_table,
@@ -92,6 +100,7 @@ __all__ = [
     "PathTracer",
     "StoredTransport",
     "ambient_illuminance_per_unit_lx",
+    "ambient_response_weights",
     "ambient_responses",
     "illuminance_from_transport",
     "indirect_responses",
@@ -112,6 +121,51 @@ DEFAULT_PATHS_PER_PIXEL = 8
 _KEY_SALT = np.uint64(0xA5C3_96E1_D2B4_F078)
 # Pixels per parallel work item handed to a thread at a time.
 _CHUNK_PIXELS = 16
+# Pixels traced per call of the path tracer in a view (a tile of camera samples is traced in
+# batches of these): its float64 node values and specular transport are (batch, C + A, 81),
+# about 4 MB per channel, whatever the tile (the bits do not depend on it).
+_TRACE_BATCH_PIXELS = 8192
+# Pixels per block when the resolved ambient responses are scaled and added (float64 copies).
+_AMBIENT_BLOCK_PIXELS = 1 << 16
+
+
+@lru_cache(maxsize=1)
+def ambient_response_weights() -> np.ndarray:
+    """(N_BINS, 7) the observer weights the night's ambient channels are kept resolved for:
+    those of every response a view is resolved with -- the image's
+    (:func:`render.colour.colorimetry.colorimetric_weights`: Km·x̄, Km·ȳ, Km·z̄, K'm·V') and
+    the colour analysis's (:func:`render.vision.discrimination.cones.cone_rod_weights`: L, M,
+    S, K'm·V'), the column they share once. Read-only."""
+    from render.vision.discrimination.cones import cone_rod_weights
+
+    columns: list[np.ndarray] = []
+    for col in np.concatenate([colorimetric_weights(), cone_rod_weights()], axis=1).T:
+        if not any(np.array_equal(col, c) for c in columns):
+            columns.append(col)
+    w = np.ascontiguousarray(np.stack(columns, axis=1))
+    w.setflags(write=False)
+    return w
+
+
+def _ambient_combination(weights: np.ndarray) -> np.ndarray:
+    """(7, J): the stored responses' combination giving those of observer ``weights``
+    (N_BINS, J): a stored column itself where one equals it, else the least-squares
+    combination, refused (ValueError) unless it reproduces the weights to 1e-9."""
+    stored = ambient_response_weights()
+    out = np.zeros((stored.shape[1], weights.shape[1]))
+    for j, col in enumerate(weights.T):
+        same = [i for i in range(stored.shape[1]) if np.array_equal(stored[:, i], col)]
+        if same:
+            out[same[0], j] = 1.0
+            continue
+        coef = np.linalg.lstsq(stored, col, rcond=None)[0]
+        if np.abs(stored @ coef - col).max() > 1e-9 * max(np.abs(col).max(), 1e-300):
+            raise ValueError(
+                "the night light is kept resolved for X, Y, Z, Y' and the cone signals L, M, S only: "
+                "other observer weights need the view traced again"
+            )
+        out[:, j] = coef
+    return out
 
 
 @dataclass(frozen=True)
@@ -158,21 +212,22 @@ class IndirectBuffers:
     transport) relative to ``scale`` (n_pix,) float32 (a pixel's largest value); ``paths``
     (n_pix,) the paths averaged in each pixel; ``spp`` the view's camera samples per pixel;
     ``settings`` and ``seed`` how the paths were traced. With night light
-    (``settings.ambient``): ``ambient_values`` (n_pix, A, n_nodes) float16 the sky glow's,
+    (``settings.ambient``): ``ambient_resolved`` (n_pix, A, 7) float32 the sky glow's,
     moonlight's and lit windows' (one channel per window lamp: houses', shops', further lamps
-    :attr:`render.scene.model.NightLight.window_lamps`) transport per unit level (1 cd/m² of
-    sky or window, 1 lx normal illuminance of moon), the camera surface's direct light
-    included, relative to ``ambient_scale`` (n_pix,) float32; ``sky_seen`` (n_pix,) float32 the
+    :attr:`render.scene.model.NightLight.window_lamps`) responses per unit level (1 cd/m² of
+    sky or window, 1 lx normal illuminance of moon) for :func:`ambient_response_weights`, the
+    camera surface's direct light, its reflectance (``ambient_reflectances``, the materials
+    traced) and its specular layer's reflection included; ``sky_seen`` (n_pix,) float32 the
     share of a pixel's camera samples that see the sky, ``window_seen`` (n_pix, K) float32 that
     see a lit window of each of the K window lamps (at its luminance over its channel's level);
     ``ambient_spds`` (2 + K, N_BINS) the spectra of the ambient channels; ``ambient_channels``
-    which of them ``ambient_values`` keeps (the A that were on when traced: a term off then
+    which of them ``ambient_resolved`` keeps (the A that were on when traced: a term off then
     stays dark at any level). For the pixels whose camera samples see
     a specular layer, ``spec_index`` (n_g,) int32: the light that layer reflects, white (no
     reflectance to apply), as ``spec_values`` (n_g, C, n_nodes) float16 relative to
-    ``spec_scale`` (n_g,) float32, and with night light ``spec_ambient_values`` (n_g, A,
-    n_nodes) relative to ``spec_ambient_scale`` (162 bytes per such pixel and channel plus 8).
-    The denoise filters ``spec_values`` with ``values`` and keeps the ambient ones as traced."""
+    ``spec_scale`` (n_g,) float32 (162 bytes per such pixel and channel plus 8; the ambient
+    channels' is in ``ambient_resolved``). The denoise filters ``spec_values`` with ``values``
+    and keeps the ambient responses as traced."""
 
     width_px: int
     height_px: int
@@ -183,8 +238,8 @@ class IndirectBuffers:
     scale: np.ndarray
     paths: np.ndarray
     channels: list = field(default_factory=list)
-    ambient_values: np.ndarray | None = None
-    ambient_scale: np.ndarray | None = None
+    ambient_resolved: np.ndarray | None = None
+    ambient_reflectances: np.ndarray | None = None
     sky_seen: np.ndarray | None = None
     ambient_spds: np.ndarray | None = None
     window_seen: np.ndarray | None = None
@@ -192,8 +247,6 @@ class IndirectBuffers:
     spec_index: np.ndarray | None = None
     spec_values: np.ndarray | None = None
     spec_scale: np.ndarray | None = None
-    spec_ambient_values: np.ndarray | None = None
-    spec_ambient_scale: np.ndarray | None = None
 
     @property
     def nbytes(self) -> int:
@@ -201,15 +254,12 @@ class IndirectBuffers:
         extra = sum(
             a.nbytes
             for a in (
-                self.ambient_values,
-                self.ambient_scale,
+                self.ambient_resolved,
                 self.sky_seen,
                 self.window_seen,
                 self.spec_index,
                 self.spec_values,
                 self.spec_scale,
-                self.spec_ambient_values,
-                self.spec_ambient_scale,
             )
             if a is not None
         )
@@ -437,57 +487,79 @@ def trace_view(
     values = np.zeros((W * H, C, n), np.float16)
     scale = np.zeros(W * H, np.float32)
     paths = np.zeros(W * H, np.int32)
-    # Only the ambient channels that are on are kept (the others would hold zeros).
+    # Only the ambient channels that are on are kept (the others would hold zeros), resolved.
     active = [c for c, on in enumerate(settings.night.terms) if on] if A else []
-    amb = np.zeros((W * H, len(active), n), np.float16) if A else None
-    amb_scale = np.zeros(W * H, np.float32) if A else None
+    rho = np.ascontiguousarray(reflectances, np.float64)
+    obs = ambient_response_weights()
+    spds = np.ascontiguousarray(ambient_spds, np.float64).reshape(A, N_BINS) if A else None
+    if active:
+        table = transport_table(rho, spds[active], tracer.basis, obs)
+        white = transport_table(np.ones((1, N_BINS)), spds[active], tracer.basis, obs)[0]
+    amb = np.zeros((W * H, len(active), obs.shape[1]), np.float32) if A else None
     sky_seen = np.zeros(W * H, np.float32) if A else None
     lit = tracer.windows if A and tracer.windows is not None and tracer.windows.n else None
     window_seen = np.zeros((W * H, A - WINDOW_CHANNEL), np.float32) if A else None
     glossy_material = tracer.f0 > 0.0
-    g_index, g_values, g_scale, g_amb, g_amb_scale = [], [], [], [], []
+    g_index, g_values, g_scale = [], [], []
+    amb_cols = [C + c for c in active]
     for tile in _cast_tiles(buffers.rays, spp, progress=progress, label="interreflection"):
-        pixel = tile.index[::spp] // spp
-        material = buffers.response[tile.index]
-        k = material.astype(np.int64)
-        seen = (k >= 0) & (k < glossy_material.shape[0])
-        gloss_sample = np.zeros(k.shape, np.bool_)
-        gloss_sample[seen] = glossy_material[k[seen]]
-        any_gloss = bool(gloss_sample.any())
-        spec = np.zeros((pixel.shape[0], C + A, n)) if any_gloss else None
-        moments, count = tracer.trace(
-            tile.point, tile.normal, tile.geo, material, pixel, spp, seed, view=-tile.direction, spec=spec
-        )
-        values[pixel], scale[pixel] = pack_rows(moments[:, :C])
-        if any_gloss:
-            rows = gloss_sample.reshape(-1, spp).any(axis=1)
-            g_index.append(pixel[rows].astype(np.int32))
-            v, sc = pack_rows(spec[rows][:, :C])
-            g_values.append(v)
-            g_scale.append(sc)
+        n_tile = tile.index.shape[0] // spp
+        for p0 in range(0, n_tile, _TRACE_BATCH_PIXELS):
+            s0, s1 = p0 * spp, min(n_tile, p0 + _TRACE_BATCH_PIXELS) * spp
+            pixel = tile.index[s0:s1:spp] // spp
+            material = buffers.response[tile.index[s0:s1]]
+            k = material.astype(np.int64)
+            seen = (k >= 0) & (k < glossy_material.shape[0])
+            gloss_sample = np.zeros(k.shape, np.bool_)
+            gloss_sample[seen] = glossy_material[k[seen]]
+            any_gloss = bool(gloss_sample.any())
+            spec = np.zeros((pixel.shape[0], C + A, n)) if any_gloss else None
+            moments, count = tracer.trace(
+                tile.point[s0:s1],
+                tile.normal[s0:s1],
+                tile.geo[s0:s1],
+                material,
+                pixel,
+                spp,
+                seed,
+                view=-tile.direction[s0:s1],
+                spec=spec,
+            )
+            values[pixel], scale[pixel] = pack_rows(moments[:, :C])
+            rows = gloss_sample.reshape(-1, spp).any(axis=1) if any_gloss else None
+            if any_gloss:
+                g_index.append(pixel[rows].astype(np.int32))
+                v, sc = pack_rows(spec[rows][:, :C])
+                g_values.append(v)
+                g_scale.append(sc)
+            paths[pixel] = count
             if A:
-                v, sc = pack_rows(spec[rows][:, C:][:, active])
-                g_amb.append(v)
-                g_amb_scale.append(sc)
-        paths[pixel] = count
-        if A:
-            amb[pixel], amb_scale[pixel] = pack_rows(moments[:, C:][:, active])
-            # Samples that leave the scene upward see the sky dome (below the horizon: nothing).
-            up = (tile.response < 0) & (tile.direction[:, 2] > 0.0)
-            sky_seen[pixel] = up.reshape(-1, spp).mean(axis=1)
-            if lit is not None:
-                # (Each window at its luminance relative to its channel's level.)
-                window_seen[pixel] = window_seen_shares(
-                    lit, tile.point, tile.direction, tile.object_id, spp, A - WINDOW_CHANNEL
-                )
-    spds = np.ascontiguousarray(ambient_spds, np.float64).reshape(A, N_BINS) if A else None
+                if active:
+                    # Each ambient channel resolved per pixel at unit level, its specular
+                    # layer's white reflection added (the responses are linear in the light).
+                    part = resolve_channels(material, spp, moments[:, amb_cols], table)
+                    if any_gloss:
+                        g = spec[rows][:, amb_cols]
+                        part[rows] += np.matmul(g.transpose(1, 0, 2), white).transpose(1, 0, 2)
+                    amb[pixel] = part
+                # Samples that leave the scene upward see the sky dome (below the horizon: nothing).
+                up = (tile.response[s0:s1] < 0) & (tile.direction[s0:s1, 2] > 0.0)
+                sky_seen[pixel] = up.reshape(-1, spp).mean(axis=1)
+                if lit is not None:
+                    # (Each window at its luminance relative to its channel's level.)
+                    window_seen[pixel] = window_seen_shares(
+                        lit,
+                        tile.point[s0:s1],
+                        tile.direction[s0:s1],
+                        tile.object_id[s0:s1],
+                        spp,
+                        A - WINDOW_CHANNEL,
+                    )
     if g_index:
         spec_index = np.concatenate(g_index)
         spec_values, spec_scale = np.concatenate(g_values), np.concatenate(g_scale)
-        spec_amb = np.concatenate(g_amb) if A else None
-        spec_amb_scale = np.concatenate(g_amb_scale) if A else None
     else:
-        spec_index = spec_values = spec_scale = spec_amb = spec_amb_scale = None
+        spec_index = spec_values = spec_scale = None
     return IndirectBuffers(
         W,
         H,
@@ -499,7 +571,7 @@ def trace_view(
         paths,
         list(lights.channels),
         amb,
-        amb_scale,
+        rho if A else None,
         sky_seen,
         spds,
         window_seen,
@@ -507,8 +579,6 @@ def trace_view(
         spec_index,
         spec_values,
         spec_scale,
-        spec_amb,
-        spec_amb_scale,
     )
 
 
@@ -548,7 +618,7 @@ def indirect_responses(
             _add_specular(
                 indirect.spec_index, indirect.spec_values, indirect.spec_scale, factors, white, lamp_of_channel, out
             )
-    if indirect.ambient_values is not None:
+    if indirect.ambient_resolved is not None:
         _add_ambient(indirect, response, reflectances, w, indirect.settings.night, out)
     return out.reshape(indirect.height_px, indirect.width_px, w.shape[1])
 
@@ -566,7 +636,7 @@ def ambient_responses(
     are those traced). Zero without night light."""
     w = colorimetric_weights() if weights is None else np.asarray(weights, np.float64).reshape(N_BINS, -1)
     out = np.zeros((indirect.width_px * indirect.height_px, w.shape[1]))
-    if indirect.ambient_values is not None:
+    if indirect.ambient_resolved is not None:
         _add_ambient(indirect, response, reflectances, w, night or indirect.settings.night, out)
     return out.reshape(indirect.height_px, indirect.width_px, w.shape[1])
 
@@ -575,8 +645,9 @@ def _add_ambient(
     indirect: IndirectBuffers, response: np.ndarray, reflectances: ArrayLike, w: np.ndarray, night, out: np.ndarray
 ) -> None:
     """Add the ambient channels at ``night``'s levels (the sky's luminance, the moon's normal
-    illuminance, the windows' luminances) and the sky and lit windows seen (their luminance,
-    white response) to ``out`` (n_pix, J)."""
+    illuminance, the windows' luminances; their responses per unit level times the level) and
+    the sky and lit windows seen (their luminance, white response) to ``out`` (n_pix, J).
+    ``reflectances`` must be those the channels were resolved with (a ValueError if not)."""
     levels = ambient_levels(night)
     spds = indirect.ambient_spds
     if levels.shape[0] != spds.shape[0]:
@@ -586,28 +657,17 @@ def _add_ambient(
         )
     kept = list(indirect.ambient_channels)
     if kept:
-        table = transport_table(reflectances, spds[kept], indirect.settings.basis, w)
-        resolve_transport(
-            response,
-            indirect.spp,
-            indirect.ambient_values,
-            indirect.ambient_scale,
-            levels[kept],
-            table,
-            np.arange(len(kept)),
-            out,
-        )
-        if indirect.spec_index is not None and indirect.spec_index.size and indirect.spec_ambient_values is not None:
-            white_t = transport_table(np.ones((1, N_BINS)), spds[kept], indirect.settings.basis, w)
-            _add_specular(
-                indirect.spec_index,
-                indirect.spec_ambient_values,
-                indirect.spec_ambient_scale,
-                levels[kept],
-                white_t,
-                np.arange(len(kept)),
-                out,
-            )
+        traced = indirect.ambient_reflectances
+        rho = np.asarray(reflectances, np.float64)
+        if traced is not None and (traced.shape != rho.shape or not np.array_equal(traced, rho)):
+            raise ValueError("the night light was resolved with other reflectances: new materials trace again")
+        combine = _ambient_combination(w)
+        resolved = indirect.ambient_resolved
+        for p0 in range(0, out.shape[0], _AMBIENT_BLOCK_PIXELS):
+            p1 = min(out.shape[0], p0 + _AMBIENT_BLOCK_PIXELS)
+            for a, c in enumerate(kept):
+                if levels[c] != 0.0:
+                    out[p0:p1] += levels[c] * (resolved[p0:p1, a].astype(np.float64) @ combine)
     # What the camera sees of the sky and of lit windows: their luminance, a white (ρ = 1)
     # response of their spectrum at one photopic unit.
     white = response_table(np.zeros((0, N_BINS)), spds, weights=w)[-1]
