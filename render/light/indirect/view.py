@@ -605,7 +605,9 @@ def indirect_responses(
 ) -> np.ndarray:
     """The view's interreflected light (H, W, J) for observer ``weights`` (N_BINS, J), as
     :func:`render.colour.colorimetry.resolve_responses` gives the direct light's (default: the
-    colorimetric weights, X, Y, Z, Y'); the other arguments as for :func:`indirect_xyz`."""
+    colorimetric weights, X, Y, Z, Y'; the night light's part, kept resolved, takes
+    combinations of :func:`ambient_response_weights` only); the other arguments as for
+    :func:`indirect_xyz`."""
     distinct, lamp_of_channel = lamps_of_channels(lamp_spds)
     n_pix = indirect.width_px * indirect.height_px
     w = colorimetric_weights() if weights is None else np.asarray(weights, np.float64).reshape(N_BINS, -1)
@@ -632,8 +634,10 @@ def ambient_responses(
 ) -> np.ndarray:
     """The night light's part alone (H, W, J) of the view (sky glow and moonlight on the
     surfaces seen, and the sky seen), at the levels of ``night`` (default: those traced; a new
-    sky luminance or moon illuminance is a multiply; its moon direction and which terms are on
-    are those traced). Zero without night light."""
+    sky luminance or moon illuminance is a multiply; its moon direction, spectra and which
+    terms are on are those traced), for observer ``weights`` that are combinations of
+    :func:`ambient_response_weights` (the responses kept; others a ValueError) and the
+    reflectances traced. Zero without night light."""
     w = colorimetric_weights() if weights is None else np.asarray(weights, np.float64).reshape(N_BINS, -1)
     out = np.zeros((indirect.width_px * indirect.height_px, w.shape[1]))
     if indirect.ambient_resolved is not None:
