@@ -795,7 +795,7 @@ def _start_warmup(args: argparse.Namespace) -> None:
     Called before the scene is loaded, so that the helper starts as early as it can."""
     from render.warmup import start
 
-    start(args.scene)
+    start(args.scene, getattr(args, "bounces", None))
 
 
 def _output_options(p: argparse.ArgumentParser) -> None:

@@ -247,6 +247,7 @@ class Study:
     ) -> None:
         from render.light.indirect import trace_view
 
+        _before_use("paths")
         buffers.indirect = trace_view(
             buffers,
             lights,

@@ -13,8 +13,8 @@ specialisations the command will look up; results never depend on it (a kernel t
 has not finished is compiled by the command as usual).
 
 The work is split into small steps in the order the command needs their kernels
-(:data:`STEPS`: the light kernels of direct light and luminous openings, the interreflected
-light's filter, colorimetry, the vision stage, the image writer, the colour analysis, the
+(:data:`STEPS`: the light kernels of direct light and luminous openings, the path tracer of
+interreflected light (for a command that traces it), the interreflected light's filter, colorimetry, the vision stage, the image writer, the colour analysis, the
 calculation's kernels and its measuring plane). The command starts the helper as soon as it
 has parsed its arguments, before it loads the scene, and gives it a folder in which each step is claimed
 by whichever process takes it first (a file created exclusively) and marked done when it
@@ -28,7 +28,7 @@ what it will need.
 The helper writes nothing but the kernel cache and the step files, prints nothing, and
 ends with the command: :meth:`Warmup.close` stops it if it is still running and removes the
 step folder (the command's handler calls it on every exit). The helper is not started when
-the light kernel is already cached, on a single core, when numba's cache cannot be written,
+the light kernel is already cached (and, for a command given ``--bounces``, the path tracer), on a single core, when numba's cache cannot be written,
 or with ``LAMPCAST_WARMUP=0`` in the environment. It inherits ``NUMBA_CACHE_DIR``
 (:func:`render.resources.numba_cache_dir` sets it before numba is imported), so a read-only
 installation fills its per-user cache folder.
@@ -70,12 +70,14 @@ __all__ = [
 ENV_SWITCH = "LAMPCAST_WARMUP"
 #: The helper's steps, in the order a rendering command needs their kernels: the light
 #: kernels (direct light, then the luminous openings a view's first tiles also need), the
+#: path tracer of interreflected light (when the command's or the scene's bounces are above
+#: 0; the largest kernel after the light kernel, needed right after a view's direct light), the
 #: interreflected light's filter (for a scene whose renders denoise it), colorimetry, the
 #: vision stage, the image writer, the colour analysis of the tagged objects, the
 #: calculation's candidate pairs and intensity lookups, the calculation's measuring plane (the
 #: downward rays of the upward exitance map). Small steps, so that a command that takes one while it waits for the light
 #: kernels is not held up long after they are ready.
-STEPS = ("light", "denoise", "colour", "vision", "images", "colours", "calc", "plane")
+STEPS = ("light", "paths", "denoise", "colour", "vision", "images", "colours", "calc", "plane")
 # Steps that use what another step makes in the same process (its kernels compiled or loaded):
 # run after that step is done when the other process has taken it, so that the two processes
 # do not compile the same kernels side by side.
@@ -140,10 +142,17 @@ class Warmup:
     """A running helper process (:func:`start`) and its step folder (``board``, see the
     module text); :meth:`close` stops it. A context manager."""
 
-    def __init__(self, process: subprocess.Popen, scene_path: str | None = None, board: Path | None = None) -> None:
+    def __init__(
+        self,
+        process: subprocess.Popen,
+        scene_path: str | None = None,
+        board: Path | None = None,
+        bounces: int | None = None,
+    ) -> None:
         self.process = process
         self.scene_path = scene_path
         self.board = board
+        self.bounces = bounces
         self._steps: _Steps | None = None
 
     def running(self) -> bool:
@@ -162,7 +171,7 @@ class Warmup:
         for step in reversed(STEPS):
             if _claim(self.board, step):
                 if self._steps is None:
-                    self._steps = _Steps(self.scene_path)
+                    self._steps = _Steps(self.scene_path, self.bounces)
                 global _in_step
                 _in_step = True
                 try:
@@ -199,14 +208,19 @@ def _switched_off() -> bool:
     return os.environ.get(ENV_SWITCH, "").strip().lower() in ("0", "no", "false", "off")
 
 
-def kernels_cached() -> bool:
+def kernels_cached(bounces: int = 0) -> bool:
     """Whether numba's cache already holds the light kernel (then the other kernels of a
-    command are almost surely there too); True when that cannot be told."""
+    command are almost surely there too) and, with ``bounces`` above 0, the path tracer; True
+    when that cannot be told."""
     try:
         from render.light.integrator import _direct_light
 
-        cache = _direct_light._cache
-        return bool(cache._cache_file._load_index())
+        kernels = [_direct_light]
+        if bounces > 0:
+            from render.light.indirect.paths import trace_paths
+
+            kernels.append(trace_paths)
+        return all(bool(k._cache._cache_file._load_index()) for k in kernels)
     except Exception:  # numba's cache internals changed, or caching is off: do not start a helper
         return True
 
@@ -276,10 +290,11 @@ def _cores() -> int:
         return os.cpu_count() or 1
 
 
-def start(scene_path: str | os.PathLike) -> Warmup | None:
-    """Start the helper for ``scene_path`` if it can help (see the module text), else None.
-    It is stopped by :func:`stop_all` (at the latest when this process exits)."""
-    if _switched_off() or _cores() < 2 or kernels_cached() or not _cache_writable():
+def start(scene_path: str | os.PathLike, bounces: int | None = None) -> Warmup | None:
+    """Start the helper for ``scene_path`` if it can help (see the module text), else None;
+    ``bounces`` the command's interreflections where its command line sets them (None: the
+    scene's). It is stopped by :func:`stop_all` (at the latest when this process exits)."""
+    if _switched_off() or _cores() < 2 or kernels_cached(bounces or 0) or not _cache_writable():
         return None
     try:
         board = Path(tempfile.mkdtemp(prefix="lampcast-warmup-"))
@@ -287,7 +302,8 @@ def start(scene_path: str | os.PathLike) -> Warmup | None:
         return None
     try:
         process = subprocess.Popen(
-            [sys.executable, "-m", "render.warmup", str(scene_path), str(board)],
+            [sys.executable, "-m", "render.warmup", str(scene_path), str(board)]
+            + ([] if bounces is None else [str(int(bounces))]),
             stdin=subprocess.DEVNULL,
             stdout=subprocess.DEVNULL,
             stderr=subprocess.DEVNULL,
@@ -298,7 +314,7 @@ def start(scene_path: str | os.PathLike) -> Warmup | None:
         return None
     if not _running:
         atexit.register(stop_all)
-    _running.append(Warmup(process, str(scene_path), board))
+    _running.append(Warmup(process, str(scene_path), board, bounces))
     return _running[-1]
 
 
@@ -360,8 +376,9 @@ class _Steps:
     array types of a real command; the scene, its setups and luminaires loaded when a step
     first needs them."""
 
-    def __init__(self, scene_path: str | os.PathLike) -> None:
+    def __init__(self, scene_path: str | os.PathLike, bounces: int | None = None) -> None:
         self.scene_path = scene_path
+        self.bounces = bounces
 
     def _load(self) -> None:
         if hasattr(self, "study"):
@@ -385,6 +402,23 @@ class _Steps:
 
         compile_light_kernels(self.lights[0], ("direct",))
         compile_light_kernels(self.lights[0], ("openings",))
+
+    def _paths(self) -> None:
+        # The path tracer (render.light.indirect.paths), when the command traces interreflected
+        # light: one path from a point, through the function calculations use (views pass the
+        # kernel the same array types, so this is the specialisation they look up too).
+        scene = self.study.scene
+        bounces = scene.render.bounces if self.bounces is None else self.bounces
+        if bounces <= 0:
+            return
+        import numpy as np
+
+        from render.light.indirect import IndirectSettings, PathTracer
+        from render.light.indirect.view import transport_at_points
+
+        study = self.study
+        tracer = PathTracer(study.mesh, study.bvh, self.lights[0], study.reflectances, IndirectSettings(bounces, 1))
+        transport_at_points(np.zeros((1, 3)), np.array([[0.0, 0.0, 1.0]]), None, tracer, 0)
 
     def _denoise(self) -> None:
         # The interreflected light's filter (render.light.indirect.denoise), when the scene's
@@ -473,17 +507,17 @@ class _Steps:
         camera_rays(plane, render.samples_per_pixel, render.seed, np.arange(plane.n_pixels, dtype=np.int64))
 
 
-def warm(scene_path: str | os.PathLike, board: str | os.PathLike | None = None) -> None:
+def warm(scene_path: str | os.PathLike, board: str | os.PathLike | None = None, bounces: int | None = None) -> None:
     """Compile (or load) the kernels a rendering command on ``scene_path`` needs after its
     camera rays, step by step in the order of :data:`STEPS`: the light kernels
-    (:func:`render.light.integrator.compile_light_kernels`), the interreflected light's
-    filter, colorimetry, the vision stage, the image writer and the colour analysis on a
+    (:func:`render.light.integrator.compile_light_kernels`), the path tracer with ``bounces``
+    (None: the scene's) above 0, the interreflected light's filter, colorimetry, the vision stage, the image writer and the colour analysis on a
     synthetic view of a few samples, then the calculation's kernels and the downward rays of
     its measuring plane. With ``board`` (the command's step folder), only the steps no process
     has taken yet, each marked done when it ends (a step that uses another's work in the same
     process, :data:`_AFTER`, waits while the other process runs that one). Each step stands
     alone: one that fails is left to the command."""
-    steps = _Steps(scene_path)
+    steps = _Steps(scene_path, bounces)
     folder = Path(board) if board is not None else None
     for step in STEPS:
         if folder is not None and not _claim(folder, step):
@@ -512,15 +546,15 @@ def _exit_with_parent() -> None:
 
 
 def main(argv: list[str] | None = None) -> int:
-    """``python -m render.warmup SCENE [STEP_FOLDER]``: the helper process."""
+    """``python -m render.warmup SCENE [STEP_FOLDER [BOUNCES]]``: the helper process."""
     args = sys.argv[1:] if argv is None else argv
-    if len(args) not in (1, 2):
+    if len(args) not in (1, 2, 3):
         return 2
     # Stopped by the command: leave through Python so that a cache file being written is
     # removed rather than left half-written.
     signal.signal(signal.SIGTERM, lambda *_: sys.exit(0))
     _exit_with_parent()
-    warm(*args)
+    warm(args[0], args[1] if len(args) > 1 else None, int(args[2]) if len(args) > 2 else None)
     return 0
 
 

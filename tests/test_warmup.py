@@ -59,17 +59,19 @@ def _compiled_by(code: str, cache: Path, tmp: Path) -> list[str]:
 
 def test_helper_compiles_what_the_command_then_loads(tmp_path):
     """With a fresh kernel cache, the kernels the helper compiles for the demo are loaded from
-    the cache by the demo itself (a tiny one), not compiled again. Breaking the helper's
-    inputs (int64 opening indices for the openings kernel, say) makes the demo compile them
-    again, which this check catches (the tiny demo sees openings at 96 pixels wide)."""
+    the cache by the demo itself (a tiny one, with interreflected light), not compiled again.
+    Breaking the helper's inputs (int64 opening indices for the openings kernel, say, or a
+    view's float32 points for the path tracer) makes the demo compile them again, which this
+    check catches (the tiny demo sees openings at 96 pixels wide)."""
     cache = tmp_path / "numba"
     scene = str(demo_scene_path())
-    helper = _compiled_by(f"from render.warmup import warm\nwarm({scene!r})", cache, tmp_path)
+    helper = _compiled_by(f"from render.warmup import warm\nwarm({scene!r}, None, 1)", cache, tmp_path)
     assert "_direct_light" in helper and "_emitter_values" in helper and "_candidates" in helper
+    assert "trace_paths" in helper
     out = tmp_path / "out"
     command = _compiled_by(
         "from render.cli import main\n"
-        f"assert main(['demo', '--width', '96', '--spp', '1', '--out', {str(out)!r}, '-q']) == 0",
+        f"assert main(['demo', '--width', '96', '--spp', '1', '--bounces', '1', '--out', {str(out)!r}, '-q']) == 0",
         cache,
         tmp_path,
     )
@@ -77,15 +79,18 @@ def test_helper_compiles_what_the_command_then_loads(tmp_path):
     # dtype path through the glare step, which a synthetic view does not reproduce.
     again = set(helper) & set(command) - {"_rod_kernel"}
     assert not again, f"compiled by the helper and again by the command: {sorted(again)}"
-    assert "_build_kernel" in command  # the command's own early kernels
+    # The command's own early kernels (the camera rays'; the BVH's build kernel is the
+    # helper's too here, since its path tracer step builds the BVH).
+    assert "_ray_kernel" in command
 
 
 def test_helper_not_started_when_it_cannot_help(monkeypatch):
     monkeypatch.setenv(warmup.ENV_SWITCH, "0")
     assert warmup.start(demo_scene_path()) is None
     monkeypatch.delenv(warmup.ENV_SWITCH)
-    monkeypatch.setattr(warmup, "kernels_cached", lambda: True)
+    monkeypatch.setattr(warmup, "kernels_cached", lambda bounces=0: True)
     assert warmup.start(demo_scene_path()) is None
+    assert warmup.start(demo_scene_path(), 3) is None
 
 
 def test_helper_stops_with_the_command(monkeypatch, tmp_path):
@@ -93,12 +98,12 @@ def test_helper_stops_with_the_command(monkeypatch, tmp_path):
     started: list[warmup.Warmup] = []
     real_start = warmup.start
 
-    def start(scene_path):
-        w = real_start(scene_path)
+    def start(scene_path, bounces=None):
+        w = real_start(scene_path, bounces)
         started.append(w)
         return w
 
-    monkeypatch.setattr(warmup, "kernels_cached", lambda: False)
+    monkeypatch.setattr(warmup, "kernels_cached", lambda bounces=0: False)
     monkeypatch.setattr(warmup, "start", start)
     from render.cli import main
 
