@@ -23,6 +23,7 @@ from __future__ import annotations
 import os
 from collections.abc import Sequence
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 
@@ -354,12 +355,13 @@ def _face_grids(face: FaceResult, part: str) -> tuple[np.ndarray, np.ndarray | N
 
 def _joined(grids: Sequence[np.ndarray | None]) -> np.ndarray | None:
     """The ``grids`` one after another, flattened (None when any of them is None)."""
-    return None if any(g is None for g in grids) else np.concatenate([np.ravel(g) for g in grids])
+    every = _all_or_none(grids)
+    return None if every is None else np.concatenate([np.ravel(g) for g in every])
 
 
-def _all_or_none(grids: Sequence[NightGrid | None]) -> list[NightGrid] | None:
-    """The night light's ``grids`` (None when any of them is None)."""
-    return None if any(g is None for g in grids) else [g for g in grids if g is not None]
+def _all_or_none(grids: Sequence[Any]) -> list[Any] | None:
+    """The ``grids`` as a list, or None when any of them is None."""
+    return None if any(g is None for g in grids) else list(grids)
 
 
 def _azimuth_deg(directions: np.ndarray) -> np.ndarray:

@@ -17,8 +17,8 @@ is ``round(fraction · n)`` of its windows not named, chosen by a permutation se
 it. Its lamp may be any lamp: **each distinct window lamp is a window channel of its own**
 (:attr:`render.scene.model.NightLight.window_lamps`: the houses' ``window_lamp`` and the
 shops' ``shop_window_lamp`` first, then each further lamp a frontage names, in the order of
-first naming, at most :data:`render.limits.MAX_WINDOW_LAMPS`), an ambient channel of 162
-bytes per pixel of a view's stored transport; windows of one lamp share its channel. The
+first naming, at most :data:`render.limits.MAX_WINDOW_LAMPS`), an ambient channel a view keeps resolved
+(:mod:`render.light.indirect.view`, 32 bytes per pixel); windows of one lamp share its channel. The
 kernel takes any number of window channels (``kind`` is the channel).
 
 **What relights by a multiply.** Each window channel is stored per unit of its level: the
@@ -27,8 +27,9 @@ scene-wide luminance of its lamp's kind (``window_luminance_cd_m2`` or
 first frontage naming it for a further lamp; a window of another luminance is an emitter of
 weight ``L_w / level`` (column 13 of the kernel's rows), in its light and in the choice of
 window alike. So a new level scales every window of that lamp at once -- the frontages' and
-windows' own luminances keep their ratio to it -- and a new lamp for a window channel is a new
-response table: no ray. Changing one frontage's or window's luminance relative to the others
+windows' own luminances keep their ratio to it. A new lamp for a window channel is a new
+response table at calculation points (no ray); a view keeps the channel resolved, so there it
+traces again. Changing one frontage's or window's luminance relative to the others
 of its lamp, which windows are lit, or which lamp a frontage takes, traces again.
 
 A lit window is a Lambertian emitter of luminance ``L`` (cd/m²) with a lamp's spectrum. Its
@@ -298,7 +299,7 @@ def window_seen_shares(
     direction: np.ndarray,
     object_id: np.ndarray,
     spp: int,
-    channels: int = 2,
+    channels: int,
 ) -> np.ndarray:
     """(n / spp, ``channels``) per pixel of ``spp`` camera samples, the mean over its samples of
     the luminance relative to its channel's level of the lit window each sees, for each window

@@ -750,11 +750,13 @@ def _night_table(setups: Sequence[dict[str, Any]], calc: dict[str, Any]) -> Tabl
                 records.append((f"{f.get('name')}: {kind}, facing {_facing(f)}", path, night[kind]))
     if not records:
         return None
+    from render.calc.night import further_window_lamp  # (loaded with the calculation anyway)
+
     # Further window lamps (terms lit_windows_3, ...) after the two scene-wide ones.
     columns = NIGHT_COLUMNS + tuple(
-        (f"window lamp {key.rsplit('_', 1)[1]}, mean", f"term_mean_lx.{key}")
+        (f"window lamp {further_window_lamp(key)}, mean", f"term_mean_lx.{key}")
         for key in (records[0][2].get("term_mean_lx") or {})
-        if key.startswith("lit_windows_")
+        if further_window_lamp(key) is not None
     )
     rows = tuple(
         Row(
